@@ -1,0 +1,15 @@
+export * from './errors';
+export { SweepSet, GroupedSweeps } from './sweeps/SweepSet';
+export type { Conditions, ConditionValue, Step, Source, SweepSetInit } from './sweeps/SweepSet';
+export * from './sweeps/units';
+export { readDelimited, parseDelimited, delimitedDefaults } from './io/delimited';
+export type { DelimitedOptions } from './io/delimited';
+export { readBinary } from './io/binary';
+export type { BinarySidecar } from './io/binary';
+export { readManifest, readManifestJson, MANIFEST_SCHEMA_PATH } from './io/manifest';
+export type { Manifest, ManifestFile } from './io/manifest';
+export { butter, butterNormalized, iirnotch, sosGain } from './signal/butter';
+export type { Sos, BType, ButterOptions } from './signal/butter';
+export { sosfilt, sosfiltfilt, sosfiltZi, defaultPadlen } from './signal/sosfilt';
+export { toFrame } from './report/frame';
+export { VERSION } from './version';

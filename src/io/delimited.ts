@@ -1,0 +1,247 @@
+/**
+ * Delimited text loader (CSV, semicolon-separated, TSV), wide or long layout.
+ *
+ * Wide: a time column, then one column per sweep: `time (ms),s1 (mV),s2 (mV)`.
+ * Long: three columns sweep, time and value in any order: `sweep;time (ms);signal (uV)`.
+ * Delimiters comma, semicolon or tab (detected from the header); decimal point or
+ * decimal comma (detected: a comma decimal is only possible with ';' or tab);
+ * units in headers as `name (unit)` or `name [unit]`; a UTF-8 byte-order mark and
+ * CRLF line ends are accepted. Lines starting with '#' are comments.
+ */
+import { InputError } from '../errors';
+import { SweepSet, type Conditions } from '../sweeps/SweepSet';
+import { parseSignalUnit, parseTimeUnit, splitHeader, timeToMs, type SignalUnit, type TimeUnit } from '../sweeps/units';
+import { readInput } from './files';
+import { fieldText, parseNumber } from './numbers';
+import { VERSION } from '../version';
+
+export interface DelimitedOptions {
+  /** Field delimiter; 'auto' (default) detects tab, semicolon or comma from the header line. */
+  delimiter?: ',' | ';' | '\t' | 'auto';
+  /** Decimal separator; 'auto' (default) picks ',' when the delimiter is not ',' and a data field holds a comma. */
+  decimal?: '.' | ',' | 'auto';
+  /** 'auto' (default) picks long when the header has sweep, time and value columns, else wide. */
+  layout?: 'wide' | 'long' | 'auto';
+  /** Time unit when the header gives none. No default: a header without a unit and no option is an error. */
+  timeUnit?: TimeUnit;
+  /** Signal unit when the header gives none. */
+  units?: SignalUnit;
+  /** Time of the stimulus on the file's time axis, in the file's time unit (default 0). */
+  stimulusAt?: number;
+  /** Conditions applied to every sweep of the file. */
+  conditions?: Conditions;
+}
+
+export const delimitedDefaults = { delimiter: 'auto', decimal: 'auto', layout: 'auto', stimulusAt: 0 } as const;
+
+const SWEEP_NAMES = ['sweep', 'trace', 'sweep_id', 'sweepid', 'episode'];
+const TIME_NAMES = ['time', 't'];
+const VALUE_NAMES = ['value', 'signal', 'voltage', 'amplitude', 'potential', 'v'];
+
+/** Load a delimited text file into a SweepSet. @throws InputError naming file, line and column. */
+export function readDelimited(path: string, options: DelimitedOptions = {}): SweepSet {
+  const { bytes, source } = readInput(path);
+  return parseDelimited(bytes, path, options, source);
+}
+
+interface LineCursor { start: number; end: number; line: number }
+
+export function parseDelimited(bytes: Uint8Array, file: string, options: DelimitedOptions = {}, source?: import('../sweeps/SweepSet').Source): SweepSet {
+  const opts = { ...delimitedDefaults, ...options };
+  let pos = 0;
+  if (bytes[0] === 0xef && bytes[1] === 0xbb && bytes[2] === 0xbf) pos = 3;
+  const n = bytes.length;
+  let lineNo = 0;
+  // next non-empty, non-comment line
+  const next = (): LineCursor | null => {
+    while (pos < n) {
+      const start = pos;
+      let end = bytes.indexOf(10, pos);
+      if (end < 0) end = n;
+      pos = end + 1;
+      lineNo++;
+      let e = end;
+      if (e > start && bytes[e - 1] === 13) e--;
+      let s = start;
+      while (s < e && (bytes[s] === 32 || bytes[s] === 9 && false)) s++;
+      if (s === e) continue;
+      if (bytes[s] === 35) continue; // '#'
+      return { start, end: e, line: lineNo };
+    }
+    return null;
+  };
+  const header = next();
+  if (!header) throw new InputError({ file }, 'the file has no header line', 'a header such as "time (ms),sweep 1 (mV)"');
+  const headerText = Buffer.from(bytes.buffer, bytes.byteOffset + header.start, header.end - header.start).toString('utf8');
+  let delim: string = opts.delimiter;
+  if (delim === 'auto') delim = headerText.includes('\t') ? '\t' : headerText.includes(';') ? ';' : ',';
+  if (![',', ';', '\t'].includes(delim)) throw new InputError({ file, field: 'delimiter' }, `invalid delimiter ${JSON.stringify(delim)}`, 'one of ",", ";", "\\t"');
+  const dcode = delim.charCodeAt(0);
+  const names = headerText.split(delim).map((h) => h.replace(/^"|"$/g, ''));
+  const heads = names.map(splitHeader);
+  if (names.length < 2) throw new InputError({ file, line: header.line }, `the header has ${names.length} column`, 'at least 2 columns (time and one sweep) with the delimiter ' + JSON.stringify(delim));
+  const lower = heads.map((h) => h.name.toLowerCase());
+  const idxOf = (cands: string[]) => lower.findIndex((h) => cands.includes(h));
+  let layout: string = opts.layout;
+  if (layout === 'auto') layout = names.length === 3 && idxOf(SWEEP_NAMES) >= 0 && idxOf(TIME_NAMES) >= 0 && idxOf(VALUE_NAMES) >= 0 ? 'long' : 'wide';
+
+  // decimal separator
+  let dec = 46;
+  if (opts.decimal === ',') dec = 44;
+  else if (opts.decimal === 'auto' && delim !== ',') {
+    // any comma in the data region of a ';' or tab file can only be a decimal comma
+    if (bytes.indexOf(44, pos) >= 0) dec = 44;
+  }
+  if (dec === 44 && delim === ',') throw new InputError({ file }, 'decimal comma with comma delimiter', 'a semicolon or tab delimiter when numbers use a decimal comma');
+
+  const unitOf = (col: number, kind: 'time' | 'signal'): string | undefined => heads[col].unit;
+  const timeCol = layout === 'long' ? idxOf(TIME_NAMES) : 0;
+  const tUnitLabel = unitOf(timeCol, 'time');
+  let tUnit: TimeUnit | undefined = opts.timeUnit;
+  if (tUnitLabel !== undefined) {
+    tUnit = parseTimeUnit(tUnitLabel);
+    if (!tUnit) throw new InputError({ file, line: header.line, column: timeCol + 1 }, `unknown time unit "${tUnitLabel}"`, 'one of s, ms, us');
+  }
+  if (!tUnit) throw new InputError({ file, line: header.line, column: timeCol + 1 }, `the time column "${names[timeCol]}" gives no unit`, 'a unit in the header, e.g. "time (ms)", or the timeUnit option');
+
+  const valueCols = layout === 'long' ? [idxOf(VALUE_NAMES)] : names.map((_, i) => i).slice(1);
+  let sUnit: SignalUnit | undefined;
+  for (const c of valueCols) {
+    const lab = unitOf(c, 'signal');
+    const u = lab === undefined ? opts.units : parseSignalUnit(lab);
+    if (lab !== undefined && !u) throw new InputError({ file, line: header.line, column: c + 1 }, `unknown signal unit "${lab}"`, 'one of V, mV, uV');
+    if (!u) throw new InputError({ file, line: header.line, column: c + 1 }, `column "${names[c]}" gives no signal unit`, 'a unit in the header, e.g. "sweep 1 (mV)", or the units option');
+    if (sUnit && u !== sUnit) throw new InputError({ file, line: header.line, column: c + 1 }, `signal unit ${u} differs from ${sUnit} in an earlier column`, 'one signal unit for all sweeps of a file');
+    sUnit = u;
+  }
+  const units = sUnit as SignalUnit;
+  const ncol = names.length;
+
+  // count data lines (upper bound) to allocate once
+  let rowsMax = 0;
+  for (let k = pos; k < n; ) {
+    const e = bytes.indexOf(10, k);
+    rowsMax++;
+    if (e < 0) break;
+    k = e + 1;
+  }
+
+  const fieldStarts = new Int32Array(ncol + 1);
+  const splitLine = (l: LineCursor): void => {
+    let c = 0;
+    fieldStarts[0] = l.start;
+    for (let k = l.start; k < l.end; k++) {
+      if (bytes[k] === dcode) {
+        c++;
+        if (c >= ncol) {
+          throw new InputError({ file, line: l.line, column: c + 1 }, `the row has more than ${ncol} fields`, `${ncol} fields as in the header`);
+        }
+        fieldStarts[c] = k + 1;
+      }
+    }
+    if (c !== ncol - 1) throw new InputError({ file, line: l.line, column: c + 1 }, `the row has ${c + 1} fields`, `${ncol} fields as in the header`);
+    fieldStarts[ncol] = l.end + 1;
+  };
+  const num = (l: LineCursor, c: number): number => {
+    const s = fieldStarts[c];
+    const e = fieldStarts[c + 1] - 1;
+    const v = parseNumber(bytes, s, e, dec);
+    if (Number.isFinite(v)) return v;
+    const text = fieldText(bytes, s, e);
+    const what = /^[+-]?(nan|inf|infinity)$/i.test(text) ? `a non-finite value "${text}"` : text === '' ? 'an empty cell' : `a non-numeric cell "${text.slice(0, 40)}"`;
+    throw new InputError({ file, line: l.line, column: c + 1 }, what, `a finite number${dec === 44 ? ' with a decimal comma' : ''}`);
+  };
+
+  let time: Float64Array;
+  let data: Float64Array;
+  let nSweeps: number;
+  let nSamples: number;
+  const conds: Conditions[] = [];
+  const base = opts.conditions ?? {};
+  if (layout === 'wide') {
+    nSweeps = ncol - 1;
+    const t = new Float64Array(rowsMax);
+    let buf = new Float64Array(nSweeps * rowsMax);
+    let r = 0;
+    const lines: number[] = [];
+    for (let l = next(); l; l = next()) {
+      splitLine(l);
+      t[r] = num(l, 0);
+      for (let c = 1; c < ncol; c++) buf[(c - 1) * rowsMax + r] = num(l, c);
+      lines.push(l.line);
+      r++;
+    }
+    nSamples = r;
+    if (nSamples < 2) throw new InputError({ file }, `the file has ${nSamples} data row${nSamples === 1 ? '' : 's'}`, 'at least 2 samples per sweep');
+    if (nSamples !== rowsMax) {
+      const packed = new Float64Array(nSweeps * nSamples);
+      for (let s = 0; s < nSweeps; s++) packed.set(buf.subarray(s * rowsMax, s * rowsMax + nSamples), s * nSamples);
+      buf = packed;
+    }
+    data = buf;
+    time = t.subarray(0, nSamples);
+    checkTime(time, file, (i) => lines[i], 1);
+    for (let s = 0; s < nSweeps; s++) conds.push({ ...base, label: heads[s + 1].name, fileSweep: s });
+  } else {
+    const sc = idxOf(SWEEP_NAMES), tc = idxOf(TIME_NAMES), vc = idxOf(VALUE_NAMES);
+    const bySweep = new Map<string, { t: number[]; v: number[]; lines: number[] }>();
+    for (let l = next(); l; l = next()) {
+      splitLine(l);
+      const id = fieldText(bytes, fieldStarts[sc], fieldStarts[sc + 1] - 1);
+      if (id === '') throw new InputError({ file, line: l.line, column: sc + 1 }, 'an empty sweep id', 'a sweep id');
+      let g = bySweep.get(id);
+      if (!g) bySweep.set(id, (g = { t: [], v: [], lines: [] }));
+      g.t.push(num(l, tc));
+      g.v.push(num(l, vc));
+      g.lines.push(l.line);
+    }
+    const groups = [...bySweep.entries()];
+    if (groups.length === 0) throw new InputError({ file }, 'the file has no data rows', 'rows of sweep, time, value');
+    nSweeps = groups.length;
+    nSamples = groups[0][1].t.length;
+    if (nSamples < 2) throw new InputError({ file, sweep: 0 }, `sweep "${groups[0][0]}" has ${nSamples} sample`, 'at least 2 samples per sweep');
+    time = Float64Array.from(groups[0][1].t);
+    checkTime(time, file, (i) => groups[0][1].lines[i], tc + 1);
+    data = new Float64Array(nSweeps * nSamples);
+    groups.forEach(([id, g], s) => {
+      if (g.t.length !== nSamples) {
+        throw new InputError({ file, line: g.lines[g.lines.length - 1], sweep: s }, `sweep "${id}" has ${g.t.length} samples`, `${nSamples} samples as in sweep "${groups[0][0]}"`);
+      }
+      for (let i = 0; i < nSamples; i++) {
+        if (Math.abs(g.t[i] - time[i]) > 1e-6 * Math.max(1, Math.abs(time[i]))) {
+          throw new InputError({ file, line: g.lines[i], column: tc + 1, sweep: s }, `sweep "${id}" has time ${g.t[i]} at sample ${i}`, `the time axis of sweep "${groups[0][0]}" (${time[i]})`);
+        }
+        data[s * nSamples + i] = g.v[i];
+      }
+      conds.push({ ...base, label: id, fileSweep: s });
+    });
+  }
+  const f = timeToMs(tUnit);
+  const dtMs = ((time[nSamples - 1] - time[0]) / (nSamples - 1)) * f;
+  const fs = 1000 / dtMs;
+  const t0Ms = (time[0] - (opts.stimulusAt ?? 0)) * f;
+  return new SweepSet({
+    data, nSweeps, nSamples, fs, t0Ms, units,
+    conditions: conds.map((c) => ({ ...c, file })),
+    sources: source ? [source] : [],
+    history: [{ verb: 'readDelimited', options: { path: file, ...opts, delimiter: delim, decimal: dec === 44 ? ',' : '.', layout, timeUnit: tUnit, units }, version: VERSION }],
+  });
+}
+
+/** Time must increase and be evenly sampled (each sample within 1% of a sample interval of the line through the ends). */
+function checkTime(t: Float64Array, file: string, lineOf: (i: number) => number, column: number): void {
+  const n = t.length;
+  const dt = (t[n - 1] - t[0]) / (n - 1);
+  for (let i = 1; i < n; i++) {
+    if (!(t[i] > t[i - 1])) {
+      throw new InputError({ file, line: lineOf(i), column }, `time ${t[i]} does not increase (previous ${t[i - 1]})`, 'strictly increasing time');
+    }
+  }
+  const tol = 0.01 * dt;
+  for (let i = 0; i < n; i++) {
+    const d = t[i] - (t[0] + i * dt);
+    if (Math.abs(d) > tol) {
+      throw new InputError({ file, line: lineOf(i), column }, `uneven sampling: time ${t[i]} is ${d.toPrecision(3)} off the regular grid (interval ${dt.toPrecision(6)})`, 'evenly sampled time, within 1% of a sample interval');
+    }
+  }
+}

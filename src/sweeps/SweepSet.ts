@@ -1,0 +1,395 @@
+/**
+ * SweepSet: the immutable core type. N sweeps of equal length stored in one
+ * contiguous Float64Array (sweep-major), with the sample rate, the time of the
+ * first sample relative to the stimulus, signal units, per-sweep conditions,
+ * the history of steps that made it, and the input files it came from.
+ */
+import { inspect } from 'node:util';
+import { OptionError } from '../errors';
+import { VERSION } from '../version';
+import { toFrame } from '../report/frame';
+import { signalFactor, type SignalUnit } from './units';
+
+/** A condition value: numbers, strings, booleans or null (not recorded). */
+export type ConditionValue = string | number | boolean | null;
+
+/**
+ * Conditions of one sweep. Known keys (all optional; any other key is a user column):
+ * - `preparation` id of the nerve preparation (animal)
+ * - `intensity` stimulus intensity, in `intensityUnit` (e.g. 'mA', 'V')
+ * - `pulseWidthMs` stimulus pulse width, ms
+ * - `site` recording site label; `distanceMm` conduction distance stimulus-to-recording, mm
+ * - `drug`, `concentration`, `concentrationUnit` (e.g. 'uM')
+ * - `temperatureC` bath temperature, degrees C
+ * - `acquiredS` acquisition time since the start of the experiment, s
+ * - `repeat` repeat index; `polarity` stimulus polarity (+1 or -1)
+ * - `epoch` a label of the experimental phase ('baseline', 'drug', 'washout', ...)
+ * - `file` and `fileSweep` the source file and the sweep index inside it
+ */
+export type Conditions = Readonly<Record<string, ConditionValue>>;
+
+/** One step of the history: the verb, its full options (defaults included), and the package version. */
+export interface Step {
+  verb: string;
+  options: Record<string, unknown>;
+  version: string;
+}
+
+/** An input file: its path and SHA-256. */
+export interface Source {
+  path: string;
+  sha256: string;
+  bytes: number;
+}
+
+export interface SweepSetInit {
+  data: Float64Array;
+  nSweeps: number;
+  nSamples: number;
+  /** sample rate, Hz */
+  fs: number;
+  /** time of the first sample relative to the stimulus, ms */
+  t0Ms: number;
+  units: SignalUnit;
+  conditions: readonly Conditions[];
+  history?: readonly Step[];
+  sources?: readonly Source[];
+  /** Extra per-set information (e.g. sweep SD or counts after averaging). */
+  extras?: Readonly<Record<string, unknown>>;
+}
+
+export class SweepSet implements Iterable<Float64Array> {
+  readonly data: Float64Array;
+  readonly nSweeps: number;
+  readonly nSamples: number;
+  readonly fs: number;
+  readonly t0Ms: number;
+  readonly units: SignalUnit;
+  readonly conditions: readonly Conditions[];
+  readonly history: readonly Step[];
+  readonly sources: readonly Source[];
+  readonly extras: Readonly<Record<string, unknown>>;
+
+  constructor(init: SweepSetInit) {
+    if (!(init.data instanceof Float64Array)) throw new OptionError('SweepSet data must be a Float64Array');
+    if (!Number.isInteger(init.nSweeps) || init.nSweeps < 0) throw new OptionError(`invalid nSweeps: ${init.nSweeps}`);
+    if (!Number.isInteger(init.nSamples) || init.nSamples < 1) throw new OptionError(`invalid nSamples: ${init.nSamples}; must be an integer >= 1`);
+    if (init.data.length !== init.nSweeps * init.nSamples) {
+      throw new OptionError(`SweepSet data length ${init.data.length} does not equal nSweeps x nSamples = ${init.nSweeps} x ${init.nSamples}`);
+    }
+    if (!(init.fs > 0) || !Number.isFinite(init.fs)) throw new OptionError(`invalid fs: ${init.fs} Hz; must be > 0`);
+    if (!Number.isFinite(init.t0Ms)) throw new OptionError(`invalid t0Ms: ${init.t0Ms}; must be finite`);
+    if (init.conditions.length !== init.nSweeps) {
+      throw new OptionError(`conditions has ${init.conditions.length} rows for ${init.nSweeps} sweeps`);
+    }
+    this.data = init.data;
+    this.nSweeps = init.nSweeps;
+    this.nSamples = init.nSamples;
+    this.fs = init.fs;
+    this.t0Ms = init.t0Ms;
+    this.units = init.units;
+    this.conditions = Object.freeze(init.conditions.map((c) => Object.freeze({ ...c })));
+    this.history = Object.freeze([...(init.history ?? [])]);
+    this.sources = Object.freeze([...(init.sources ?? [])]);
+    this.extras = Object.freeze({ ...(init.extras ?? {}) });
+    Object.freeze(this);
+  }
+
+  /** A new SweepSet with some fields replaced; `step` is appended to the history. */
+  create(overrides: Partial<SweepSetInit> & { step?: { verb: string; options: Record<string, unknown> } }): SweepSet {
+    const { step, ...rest } = overrides;
+    const history = rest.history ?? (step ? [...this.history, { verb: step.verb, options: step.options, version: VERSION }] : this.history);
+    return new SweepSet({
+      data: this.data,
+      nSweeps: this.nSweeps,
+      nSamples: this.nSamples,
+      fs: this.fs,
+      t0Ms: this.t0Ms,
+      units: this.units,
+      conditions: this.conditions,
+      sources: this.sources,
+      extras: rest.data ? {} : this.extras,
+      ...rest,
+      history,
+    });
+  }
+
+  /** Sample interval, ms. */
+  get dtMs(): number {
+    return 1000 / this.fs;
+  }
+
+  /** Duration of one sweep, ms. */
+  get durationMs(): number {
+    return (this.nSamples * 1000) / this.fs;
+  }
+
+  /** Time of sample i relative to the stimulus, ms. */
+  timeAt(i: number): number {
+    return this.t0Ms + (i * 1000) / this.fs;
+  }
+
+  /** Nearest sample index for time t (ms), clamped to the sweep. */
+  indexAt(tMs: number): number {
+    const i = Math.round(((tMs - this.t0Ms) * this.fs) / 1000);
+    return Math.min(this.nSamples - 1, Math.max(0, i));
+  }
+
+  /** The time axis, ms. */
+  time(): Float64Array {
+    const t = new Float64Array(this.nSamples);
+    for (let i = 0; i < this.nSamples; i++) t[i] = this.timeAt(i);
+    return t;
+  }
+
+  /** A view (no copy) of sweep i. Do not modify it. */
+  sweep(i: number): Float64Array {
+    if (!Number.isInteger(i) || i < 0 || i >= this.nSweeps) throw new OptionError(`invalid sweep index: ${i}; must be 0..${this.nSweeps - 1}`);
+    return this.data.subarray(i * this.nSamples, (i + 1) * this.nSamples);
+  }
+
+  *[Symbol.iterator](): Iterator<Float64Array> {
+    for (let i = 0; i < this.nSweeps; i++) yield this.sweep(i);
+  }
+
+  /** Sweeps with their conditions and index. */
+  *entries(): Generator<{ index: number; samples: Float64Array; conditions: Conditions }> {
+    for (let i = 0; i < this.nSweeps; i++) yield { index: i, samples: this.sweep(i), conditions: this.conditions[i] };
+  }
+
+  /** Values of one condition column, in sweep order. */
+  column(key: string): ConditionValue[] {
+    return this.conditions.map((c) => (key in c ? c[key] : null));
+  }
+
+  /** Distinct values of a condition, in first-seen order. */
+  levels(key: string): ConditionValue[] {
+    return [...new Set(this.column(key))];
+  }
+
+  /** Keep the sweeps with the given indices (in that order). */
+  select(indices: readonly number[]): SweepSet {
+    const out = new Float64Array(indices.length * this.nSamples);
+    indices.forEach((ix, k) => out.set(this.sweep(ix), k * this.nSamples));
+    return this.create({
+      data: out,
+      nSweeps: indices.length,
+      conditions: indices.map((i) => this.conditions[i]),
+      step: { verb: 'select', options: { indices: [...indices] } },
+    });
+  }
+
+  /**
+   * Keep the sweeps whose conditions match. `match` is an object of condition
+   * values (a value may be an array of allowed values, or a [min, max] range
+   * given as {min, max}), or a predicate.
+   * @example set.where({ preparation: 'N3', distanceMm: [10, 20] })
+   */
+  where(match: Record<string, ConditionValue | readonly ConditionValue[] | { min?: number; max?: number }> | ((c: Conditions, i: number) => boolean)): SweepSet {
+    const pred = typeof match === 'function' ? match : matcher(match);
+    const idx: number[] = [];
+    this.conditions.forEach((c, i) => {
+      if (pred(c, i)) idx.push(i);
+    });
+    const s = this.select(idx);
+    return s.create({ history: [...this.history, { verb: 'where', options: { match: typeof match === 'function' ? String(match) : match }, version: VERSION }] });
+  }
+
+  /** Keep the samples between fromMs and toMs (inclusive of the nearest samples). */
+  crop(fromMs: number, toMs: number): SweepSet {
+    if (!Number.isFinite(fromMs) || !Number.isFinite(toMs) || !(toMs > fromMs)) {
+      throw new OptionError(`invalid crop window: [${fromMs}, ${toMs}] ms; must be finite with from < to`);
+    }
+    const a = Math.max(0, Math.ceil(((fromMs - this.t0Ms) * this.fs) / 1000 - 1e-9));
+    const b = Math.min(this.nSamples - 1, Math.floor(((toMs - this.t0Ms) * this.fs) / 1000 + 1e-9));
+    if (b < a) throw new OptionError(`invalid crop window: [${fromMs}, ${toMs}] ms lies outside the sweep [${this.t0Ms}, ${this.timeAt(this.nSamples - 1)}] ms`);
+    const n = b - a + 1;
+    const out = new Float64Array(this.nSweeps * n);
+    for (let s = 0; s < this.nSweeps; s++) out.set(this.data.subarray(s * this.nSamples + a, s * this.nSamples + b + 1), s * n);
+    return this.create({ data: out, nSamples: n, t0Ms: this.timeAt(a), step: { verb: 'crop', options: { fromMs, toMs } } });
+  }
+
+  /** Group sweeps by condition keys; call `.average()` on the result. */
+  groupBy(...keys: string[]): GroupedSweeps {
+    return new GroupedSweeps(this, keys.flat());
+  }
+
+  /** Convert the signal to other units. */
+  toUnits(units: SignalUnit): SweepSet {
+    const f = signalFactor(this.units, units);
+    const out = new Float64Array(this.data.length);
+    for (let i = 0; i < out.length; i++) out[i] = this.data[i] * f;
+    return this.create({ data: out, units, step: { verb: 'toUnits', options: { from: this.units, to: units } } });
+  }
+
+  /** Merge sets with equal fs, nSamples, t0 and units (sweeps appended in order). */
+  static concat(sets: readonly SweepSet[]): SweepSet {
+    if (sets.length === 0) throw new OptionError('concat needs at least one SweepSet');
+    const a = sets[0];
+    for (const s of sets) {
+      if (s.fs !== a.fs || s.nSamples !== a.nSamples || Math.abs(s.t0Ms - a.t0Ms) > 1e-9 || s.units !== a.units) {
+        throw new OptionError(`cannot concatenate sets: fs ${s.fs} vs ${a.fs} Hz, nSamples ${s.nSamples} vs ${a.nSamples}, t0 ${s.t0Ms} vs ${a.t0Ms} ms, units ${s.units} vs ${a.units}`);
+      }
+    }
+    const n = sets.reduce((k, s) => k + s.nSweeps, 0);
+    const data = new Float64Array(n * a.nSamples);
+    let off = 0;
+    for (const s of sets) {
+      data.set(s.data, off);
+      off += s.data.length;
+    }
+    const seen = new Set<string>();
+    const sources: Source[] = [];
+    for (const s of sets) for (const src of s.sources) if (!seen.has(src.path)) { seen.add(src.path); sources.push(src); }
+    return new SweepSet({
+      data, nSweeps: n, nSamples: a.nSamples, fs: a.fs, t0Ms: a.t0Ms, units: a.units,
+      conditions: sets.flatMap((s) => s.conditions),
+      history: a.history,
+      sources,
+    });
+  }
+
+  /** Conditions as a danfo DataFrame (one row per sweep, with `sweep` index). */
+  conditionsFrame(): import('danfojs-node').DataFrame {
+    return toFrame(this.conditionRows());
+  }
+
+  /** Conditions as plain rows with the sweep index. */
+  conditionRows(): Record<string, ConditionValue>[] {
+    const keys = conditionKeys(this.conditions);
+    return this.conditions.map((c, i) => {
+      const r: Record<string, ConditionValue> = { sweep: i };
+      for (const k of keys) r[k] = k in c ? c[k] : null;
+      return r;
+    });
+  }
+
+  /** A short text summary. */
+  summary(): string {
+    const keys = conditionKeys(this.conditions);
+    const lines = [
+      `SweepSet: ${this.nSweeps} sweeps x ${this.nSamples} samples at ${fmt(this.fs / 1000)} kHz, ${fmt(this.t0Ms)} to ${fmt(this.timeAt(this.nSamples - 1))} ms, ${this.units}`,
+    ];
+    for (const k of keys) {
+      const lv = this.levels(k).filter((v) => v !== null);
+      if (k === 'file' || k === 'fileSweep') continue;
+      const shown = lv.slice(0, 8).map((v) => (typeof v === 'number' ? fmt(v) : String(v))).join(', ');
+      lines.push(`  ${k}: ${lv.length} level${lv.length === 1 ? '' : 's'} (${shown}${lv.length > 8 ? ', ...' : ''})`);
+    }
+    if (this.sources.length) lines.push(`  from ${this.sources.length} file${this.sources.length === 1 ? '' : 's'}`);
+    if (this.history.length) lines.push(`  history: ${this.history.map((h) => h.verb).join(' -> ')}`);
+    return lines.join('\n');
+  }
+
+  toString(): string {
+    return this.summary();
+  }
+
+  [inspect.custom](): string {
+    return this.summary();
+  }
+}
+
+/** Sweeps grouped by condition keys. */
+export class GroupedSweeps {
+  readonly set: SweepSet;
+  readonly keys: string[];
+  readonly groups: { key: ConditionValue[]; indices: number[] }[];
+  constructor(set: SweepSet, keys: string[]) {
+    for (const k of keys) if (typeof k !== 'string' || !k) throw new OptionError(`invalid groupBy key: ${JSON.stringify(k)}`);
+    this.set = set;
+    this.keys = keys;
+    const map = new Map<string, { key: ConditionValue[]; indices: number[] }>();
+    set.conditions.forEach((c, i) => {
+      const key = keys.map((k) => (k in c ? c[k] : null));
+      const id = JSON.stringify(key);
+      let g = map.get(id);
+      if (!g) map.set(id, (g = { key, indices: [] }));
+      g.indices.push(i);
+    });
+    this.groups = [...map.values()];
+  }
+
+  /**
+   * Average each group: mean (default) or median sweep. The result has one sweep
+   * per group, conditions reduced to the values shared by all members plus
+   * `count`; extras.sd and extras.sem hold the SD and SEM sweeps (same layout).
+   */
+  average(options: { method?: 'mean' | 'median' } = {}): SweepSet {
+    const method = options.method ?? 'mean';
+    if (method !== 'mean' && method !== 'median') throw new OptionError(`invalid method: ${JSON.stringify(method)}; must be "mean" or "median"`);
+    const { set } = this;
+    const n = set.nSamples;
+    const G = this.groups.length;
+    const out = new Float64Array(G * n);
+    const sd = new Float64Array(G * n);
+    const sem = new Float64Array(G * n);
+    const conds: Conditions[] = [];
+    const buf = new Float64Array(Math.max(1, ...this.groups.map((g) => g.indices.length)));
+    this.groups.forEach((g, gi) => {
+      const m = g.indices.length;
+      const o = gi * n;
+      for (let i = 0; i < n; i++) {
+        let s = 0;
+        for (let k = 0; k < m; k++) s += set.data[g.indices[k] * n + i];
+        const mean = s / m;
+        let ss = 0;
+        for (let k = 0; k < m; k++) {
+          const d = set.data[g.indices[k] * n + i] - mean;
+          ss += d * d;
+        }
+        const v = m > 1 ? Math.sqrt(ss / (m - 1)) : NaN;
+        sd[o + i] = v;
+        sem[o + i] = v / Math.sqrt(m);
+        if (method === 'mean') out[o + i] = mean;
+        else {
+          for (let k = 0; k < m; k++) buf[k] = set.data[g.indices[k] * n + i];
+          const sub = buf.subarray(0, m).sort();
+          out[o + i] = m % 2 ? sub[(m - 1) / 2] : 0.5 * (sub[m / 2 - 1] + sub[m / 2]);
+        }
+      }
+      conds.push({ ...shared(g.indices.map((ix) => set.conditions[ix])), count: m });
+    });
+    return set.create({
+      data: out,
+      nSweeps: G,
+      conditions: conds,
+      extras: { sd, sem, groupIndices: this.groups.map((g) => g.indices) },
+      step: { verb: 'average', options: { by: this.keys, method } },
+    });
+  }
+}
+
+function shared(cs: Conditions[]): Record<string, ConditionValue> {
+  const out: Record<string, ConditionValue> = {};
+  const keys = conditionKeys(cs);
+  for (const k of keys) {
+    const v0 = cs[0][k];
+    if (cs.every((c) => c[k] === v0)) out[k] = v0 ?? null;
+  }
+  return out;
+}
+
+export function conditionKeys(cs: readonly Conditions[]): string[] {
+  const keys = new Set<string>();
+  for (const c of cs) for (const k of Object.keys(c)) keys.add(k);
+  return [...keys];
+}
+
+function matcher(match: Record<string, unknown>): (c: Conditions) => boolean {
+  const entries = Object.entries(match);
+  return (c) =>
+    entries.every(([k, want]) => {
+      const v = k in c ? c[k] : null;
+      if (Array.isArray(want)) return want.includes(v);
+      if (want !== null && typeof want === 'object') {
+        const r = want as { min?: number; max?: number };
+        return typeof v === 'number' && (r.min === undefined || v >= r.min) && (r.max === undefined || v <= r.max);
+      }
+      return v === want;
+    });
+}
+
+function fmt(x: number): string {
+  return Number.isInteger(x) ? String(x) : String(Number(x.toPrecision(4)));
+}

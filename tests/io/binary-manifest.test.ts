@@ -1,0 +1,101 @@
+import { describe, it, expect } from 'vitest';
+import { mkdtempSync, writeFileSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import fc from 'fast-check';
+import { readBinary, readManifest, InputError } from '../../src';
+
+const dir = mkdtempSync(join(tmpdir(), 'fascicle-bin-'));
+let k = 0;
+function sidecar(meta: Record<string, unknown>, bytes: Uint8Array): string {
+  const name = `b${k++}`;
+  writeFileSync(join(dir, name + '.bin'), bytes);
+  const p = join(dir, name + '.json');
+  writeFileSync(p, JSON.stringify({ data: name + '.bin', ...meta }));
+  return p;
+}
+
+describe('readBinary(sidecar)', () => {
+  it('reads int16 with gain and offset, interleaved channels', () => {
+    // 2 sweeps x 3 samples x 2 channels, interleaved [sweep][sample][channel]
+    const raw = new Int16Array([1, 100, 2, 200, 3, 300, 4, 400, 5, 500, 6, 600]);
+    const p = sidecar({ dtype: 'int16', layout: 'interleaved', nSweeps: 2, nSamples: 3, nChannels: 2, channel: 1, gain: 0.5, offset: 1, fs: 10000, t0Ms: -0.2, units: 'uV' }, new Uint8Array(raw.buffer));
+    const s = readBinary(p);
+    expect([...s.sweep(0)]).toEqual([51, 101, 151]);
+    expect([...s.sweep(1)]).toEqual([201, 251, 301]);
+    expect(s.t0Ms).toBe(-0.2);
+  });
+  it('reads float32 sweep-major and big-endian float64 exactly', () => {
+    const f = new Float32Array([0.5, -1.25, 3, 4]);
+    expect([...readBinary(sidecar({ dtype: 'float32', nSweeps: 2, nSamples: 2, fs: 1000, units: 'mV' }, new Uint8Array(f.buffer))).data]).toEqual([0.5, -1.25, 3, 4]);
+    const dv = new DataView(new ArrayBuffer(16));
+    dv.setFloat64(0, Math.PI, false);
+    dv.setFloat64(8, -Math.E, false);
+    expect([...readBinary(sidecar({ dtype: 'float64', byteOrder: 'big', nSweeps: 1, nSamples: 2, fs: 1000, units: 'V' }, new Uint8Array(dv.buffer))).data]).toEqual([Math.PI, -Math.E]);
+  });
+  it('names the file and the expected size when the data file is the wrong length', () => {
+    const p = sidecar({ dtype: 'float32', nSweeps: 2, nSamples: 4, fs: 1000, units: 'mV' }, new Uint8Array(12));
+    expect(() => readBinary(p)).toThrow(/has 12 bytes; expected 32 bytes = 2 sweeps x 4 samples x 1 channels x 4 bytes/);
+  });
+  it('names the sidecar field that is wrong', () => {
+    expect(() => readBinary(sidecar({ dtype: 'int8', nSweeps: 1, nSamples: 2, fs: 1, units: 'mV' }, new Uint8Array(2)))).toThrow(/field dtype: unknown dtype "int8"/);
+    expect(() => readBinary(sidecar({ dtype: 'int16', nSweeps: 1, nSamples: 2, fs: 1, units: 'volts' }, new Uint8Array(4)))).toThrow(/field units/);
+    expect(() => readBinary(sidecar({ dtype: 'int16', nSweeps: 1, nSamples: 2, fs: -5, units: 'mV' }, new Uint8Array(4)))).toThrow(/field fs/);
+  });
+  it('rejects NaN samples, naming the sweep', () => {
+    const f = new Float32Array([1, 2, 3, NaN]);
+    expect(() => readBinary(sidecar({ dtype: 'float32', nSweeps: 2, nSamples: 2, fs: 1000, units: 'mV' }, new Uint8Array(f.buffer)))).toThrow(/sweep 1: a non-finite sample/);
+  });
+  it('round-trips random float64 data exactly (property)', () => {
+    fc.assert(fc.property(fc.array(fc.double({ noNaN: true, noDefaultInfinity: true }), { minLength: 6, maxLength: 60 }).filter((a) => a.length % 2 === 0), (vals) => {
+      const p = sidecar({ dtype: 'float64', nSweeps: 2, nSamples: vals.length / 2, fs: 5000, units: 'mV' }, new Uint8Array(Float64Array.from(vals).buffer));
+      const s = readBinary(p);
+      return vals.every((v, i) => Object.is(s.data[i], v) || (v === 0 && s.data[i] === 0));
+    }), { numRuns: 50 });
+  });
+});
+
+describe('readManifest(path)', () => {
+  const mk = (name: string, text: string) => writeFileSync(join(dir, name), text);
+  mk('p1.csv', 'time (ms),a (mV),b (mV)\n0,1,2\n0.1,3,4\n0.2,5,6\n');
+  mk('p2.csv', 'time (ms),a (uV)\n0,1000\n0.1,2000\n0.2,3000\n');
+  mk('p3.csv', 'time (ms),a (mV)\n0,1\n0.2,2\n0.4,3\n');
+  const manifest = (m: unknown) => {
+    const p = join(dir, `m${k++}.json`);
+    writeFileSync(p, JSON.stringify(m));
+    return p;
+  };
+  it('joins files with their conditions and converts units', () => {
+    const p = manifest({
+      fascicleManifest: 1, study: 'x', defaults: { temperatureC: 37 },
+      files: [
+        { path: 'p1.csv', conditions: { preparation: 'N1', distanceMm: 10 }, sweeps: [{ intensity: 0.1 }, { intensity: 0.2 }] },
+        { path: 'p2.csv', conditions: { preparation: 'N2', distanceMm: 12 } },
+      ],
+    });
+    const s = readManifest(p);
+    expect(s.nSweeps).toBe(3);
+    expect(s.units).toBe('mV');
+    expect([...s.sweep(2)]).toEqual([1, 2, 3]);
+    expect(s.conditions[1]).toMatchObject({ preparation: 'N1', distanceMm: 10, intensity: 0.2, temperatureC: 37 });
+    expect(s.where({ preparation: 'N2' }).nSweeps).toBe(1);
+    expect(s.sources.length).toBe(3);
+  });
+  it('rejects disagreeing sample rates, naming both files', () => {
+    const p = manifest({ fascicleManifest: 1, files: [{ path: 'p1.csv', conditions: { preparation: 'A' } }, { path: 'p3.csv', conditions: { preparation: 'B' } }] });
+    expect(() => readManifest(p)).toThrow(/p3\.csv: sample rate 5000 Hz differs from 10000 Hz in .*p1\.csv/);
+  });
+  it('rejects a sweep without a required condition', () => {
+    const p = manifest({ fascicleManifest: 1, required: ['preparation', 'distanceMm'], files: [{ path: 'p1.csv', conditions: { preparation: 'A' } }] });
+    expect(() => readManifest(p)).toThrow(/p1\.csv, sweep 0: condition "distanceMm" is missing/);
+  });
+  it('rejects a manifest that does not match the schema, naming the field', () => {
+    expect(() => readManifest(manifest({ fascicleManifest: 1, files: [{ path: 'p1.csv', conditions: { temperatureC: 'warm' } }] }))).toThrow(InputError);
+    expect(() => readManifest(manifest({ fascicleManifest: 1, files: [{ path: 'p1.csv', conditions: { temperatureC: 'warm' } }] }))).toThrow(/\/files\/0\/conditions\/temperatureC must be number/);
+    expect(() => readManifest(manifest({ fascicleManifest: 2, files: [] }))).toThrow(/does not match the manifest schema/);
+    expect(() => readManifest(manifest({ fascicleManifest: 1, files: [{ path: 'p1.csv', sweeps: [{}] }] }))).toThrow(/1 sweep entries for p1.csv, which has 2 sweeps/);
+  });
+  it('names a missing file', () => {
+    expect(() => readManifest(manifest({ fascicleManifest: 1, files: [{ path: 'nope.csv', conditions: { preparation: 'A' } }] }))).toThrow(/nope\.csv: cannot open file \(ENOENT\)/);
+  });
+});
