@@ -8,6 +8,11 @@ import { inspect } from 'node:util';
 import { OptionError } from '../errors';
 import { VERSION } from '../version';
 import { toFrame } from '../report/frame';
+import { baseline, type BaselineOptions } from '../verbs/baseline';
+import { removeArtifact, alignStimulus, detectStimulus, type ArtifactOptions, type StimulusDetection } from '../verbs/artifact';
+import { filter, notch, type FilterOptions, type NotchOptions } from '../verbs/filter';
+import { removeHum, type HumOptions } from '../verbs/hum';
+import { decimate, type DecimateOptions } from '../verbs/decimate';
 import { signalFactor, type SignalUnit } from './units';
 
 /** A condition value: numbers, strings, booleans or null (not recorded). */
@@ -207,6 +212,68 @@ export class SweepSet implements Iterable<Float64Array> {
     const out = new Float64Array(this.nSweeps * n);
     for (let s = 0; s < this.nSweeps; s++) out.set(this.data.subarray(s * this.nSamples + a, s * this.nSamples + b + 1), s * n);
     return this.create({ data: out, nSamples: n, t0Ms: this.timeAt(a), step: { verb: 'crop', options: { fromMs, toMs } } });
+  }
+
+  /**
+   * Subtract the pre-stimulus level of each sweep.
+   * @example set.baseline({ window: [-2, -0.2], method: 'median' })
+   */
+  baseline(options: BaselineOptions = {}): SweepSet {
+    return baseline(this, options);
+  }
+
+  /**
+   * Remove the stimulus artifact ('blank', 'template', 'exponential' or 'alternate').
+   * @example set.removeArtifact({ method: 'template', window: [0, 0.3] })
+   */
+  removeArtifact(options: ArtifactOptions): SweepSet {
+    return removeArtifact(this, options);
+  }
+
+  /** Find the stimulus time from the artifact (per sweep and median). */
+  detectStimulus(options: { search?: [number, number] } = {}): StimulusDetection {
+    return detectStimulus(this, options);
+  }
+
+  /** Shift the time axis so that the stimulus found from the artifact is at 0 ms. */
+  alignStimulus(options: { search?: [number, number] } = {}): SweepSet {
+    return alignStimulus(this, options);
+  }
+
+  /**
+   * Zero-phase Butterworth filter (forward-backward, as SciPy's sosfiltfilt).
+   * @example set.filter({ btype: 'bandpass', cutoff: [10, 5000], order: 2 })
+   */
+  filter(options: FilterOptions): SweepSet {
+    return filter(this, options);
+  }
+
+  /** Zero-phase Butterworth low-pass at `cutoff` Hz (order 4 by default). */
+  lowpass(cutoff: number, order = 4): SweepSet {
+    return filter(this, { btype: 'lowpass', cutoff, order });
+  }
+
+  /** Zero-phase Butterworth high-pass at `cutoff` Hz (order 2 by default). */
+  highpass(cutoff: number, order = 2): SweepSet {
+    return filter(this, { btype: 'highpass', cutoff, order });
+  }
+
+  /** Zero-phase IIR notch at the mains frequency. */
+  notch(options: NotchOptions = {}): SweepSet {
+    return notch(this, options);
+  }
+
+  /**
+   * Remove mains hum by fitting and subtracting sinusoids at the mains frequency and harmonics.
+   * @example set.removeHum({ frequency: 'detect', exclude: [[0, 10]] })
+   */
+  removeHum(options: HumOptions = {}): SweepSet {
+    return removeHum(this, options);
+  }
+
+  /** Down-sample by an integer factor after a zero-phase anti-alias low-pass. */
+  decimate(options: DecimateOptions): SweepSet {
+    return decimate(this, options);
   }
 
   /** Group sweeps by condition keys; call `.average()` on the result. */

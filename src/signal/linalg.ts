@@ -1,0 +1,100 @@
+/**
+ * Small dense linear algebra on plain arrays (row-major number[][]).
+ * Sizes here are tiny (up to ~25 unknowns), so clarity wins over blocking.
+ */
+
+/**
+ * Solve A x = b by Gaussian elimination with partial pivoting. O(n^3).
+ * Returns null when A is singular to working precision.
+ */
+export function solve(A: number[][], b: number[]): number[] | null {
+  const n = b.length;
+  const M = A.map((r, i) => [...r, b[i]]);
+  for (let c = 0; c < n; c++) {
+    let piv = c;
+    for (let r = c + 1; r < n; r++) if (Math.abs(M[r][c]) > Math.abs(M[piv][c])) piv = r;
+    if (!(Math.abs(M[piv][c]) > 1e-300)) return null;
+    [M[c], M[piv]] = [M[piv], M[c]];
+    for (let r = c + 1; r < n; r++) {
+      const f = M[r][c] / M[c][c];
+      if (f === 0) continue;
+      for (let k = c; k <= n; k++) M[r][k] -= f * M[c][k];
+    }
+  }
+  const x = new Array(n).fill(0);
+  for (let r = n - 1; r >= 0; r--) {
+    let s = M[r][n];
+    for (let k = r + 1; k < n; k++) s -= M[r][k] * x[k];
+    x[r] = s / M[r][r];
+  }
+  return x;
+}
+
+/**
+ * Inverse of a symmetric positive semi-definite matrix by Cholesky with a
+ * relative pivot tolerance; returns null when not positive definite.
+ */
+export function invertSpd(A: number[][]): number[][] | null {
+  const n = A.length;
+  const L = A.map(() => new Array(n).fill(0));
+  const maxDiag = Math.max(...A.map((r, i) => Math.abs(r[i])), 0);
+  for (let j = 0; j < n; j++) {
+    let s = A[j][j];
+    for (let k = 0; k < j; k++) s -= L[j][k] * L[j][k];
+    if (!(s > 1e-14 * maxDiag)) return null;
+    L[j][j] = Math.sqrt(s);
+    for (let i = j + 1; i < n; i++) {
+      let t = A[i][j];
+      for (let k = 0; k < j; k++) t -= L[i][k] * L[j][k];
+      L[i][j] = t / L[j][j];
+    }
+  }
+  // invert L, then A^-1 = L^-T L^-1
+  const Li = A.map(() => new Array(n).fill(0));
+  for (let i = 0; i < n; i++) {
+    Li[i][i] = 1 / L[i][i];
+    for (let j = 0; j < i; j++) {
+      let s = 0;
+      for (let k = j; k < i; k++) s -= L[i][k] * Li[k][j];
+      Li[i][j] = s / L[i][i];
+    }
+  }
+  const inv = A.map(() => new Array(n).fill(0));
+  for (let i = 0; i < n; i++)
+    for (let j = 0; j <= i; j++) {
+      let s = 0;
+      for (let k = i; k < n; k++) s += Li[k][i] * Li[k][j];
+      inv[i][j] = inv[j][i] = s;
+    }
+  return inv;
+}
+
+/**
+ * Linear least squares min ||y - X beta|| for a design given column-wise
+ * (cols[j][i] = X[i][j]), by the normal equations with column scaling.
+ */
+export function lstsq(cols: ArrayLike<number>[], y: ArrayLike<number>): number[] | null {
+  const p = cols.length;
+  const n = y.length;
+  const scale = cols.map((c) => {
+    let s = 0;
+    for (let i = 0; i < n; i++) s += c[i] * c[i];
+    return Math.sqrt(s) || 1;
+  });
+  const A: number[][] = [];
+  const b: number[] = [];
+  for (let j = 0; j < p; j++) {
+    A.push(new Array(p).fill(0));
+    let s = 0;
+    for (let i = 0; i < n; i++) s += cols[j][i] * y[i];
+    b.push(s / scale[j]);
+    for (let k = 0; k <= j; k++) {
+      let t = 0;
+      for (let i = 0; i < n; i++) t += cols[j][i] * cols[k][i];
+      A[j][k] = t / (scale[j] * scale[k]);
+    }
+  }
+  for (let j = 0; j < p; j++) for (let k = j + 1; k < p; k++) A[j][k] = A[k][j];
+  const x = solve(A, b);
+  return x ? x.map((v, j) => v / scale[j]) : null;
+}

@@ -1,0 +1,245 @@
+/**
+ * Stimulus-artifact removal. The artifact is not data (common practice, no source):
+ * each method estimates it and removes it, leaving the neural response.
+ */
+import type { SweepSet, Conditions, ConditionValue } from '../sweeps/SweepSet';
+import { OptionError, AnalysisError } from '../errors';
+import { oneOf, windowMs } from '../validate';
+import { windowIndices } from './baseline';
+
+export type ArtifactMethod = 'blank' | 'template' | 'exponential' | 'alternate';
+
+export interface ArtifactOptions {
+  /**
+   * 'blank': replace the window by a bridge; 'template': subtract a scaled artifact
+   * template made from sub-threshold sweeps; 'exponential': fit and subtract the
+   * exponential tail, then blank the window; 'alternate': average sweeps of opposite
+   * stimulus polarity (condition `polarity` +1 / -1).
+   */
+  method: ArtifactMethod;
+  /** Artifact window [from, to], ms after the stimulus (default [0, 0.3]). */
+  window?: [number, number];
+  /** Bridge across the blanked window: 'linear' or 'hermite' (cubic Hermite with end slopes; default). */
+  bridge?: 'linear' | 'hermite';
+  /** template: sweeps with intensity <= this are artifact-only (default: the lowest intensity of each group). */
+  maxIntensity?: number;
+  /** template: explicit template sweep indices (overrides maxIntensity). */
+  templateSweeps?: number[];
+  /** template: conditions that define groups sharing one template (default: preparation, site, distanceMm when present). */
+  templateBy?: string[];
+  /** template: 'fit' (least squares in fitWindow, default) or 'intensity' (in proportion to stimulus intensity). */
+  scaling?: 'fit' | 'intensity';
+  /** template: window for the least-squares scale, ms (default: window). */
+  fitWindow?: [number, number];
+  /** exponential: window where the tail is fitted, ms (default [window end, window end + 0.4]). */
+  tailWindow?: [number, number];
+}
+export const artifactDefaults = { window: [0, 0.3] as [number, number], bridge: 'hermite' as const, scaling: 'fit' as const };
+
+/** Replace samples a..b of x (in place) by a linear or cubic Hermite bridge between x[a-1] and x[b+1]. */
+export function bridgeGap(x: Float64Array, a: number, b: number, kind: 'linear' | 'hermite'): void {
+  const n = x.length;
+  const l = Math.max(0, a - 1), r = Math.min(n - 1, b + 1);
+  if (l === a && r === b) return;
+  const y0 = x[l], y1 = x[r];
+  const span = r - l;
+  // end slopes from two samples outside the gap, per sample
+  const m0 = l >= 1 && kind === 'hermite' ? x[l] - x[l - 1] : (y1 - y0) / span;
+  const m1 = r + 1 < n && kind === 'hermite' ? x[r + 1] - x[r] : (y1 - y0) / span;
+  for (let i = a; i <= b; i++) {
+    const u = (i - l) / span;
+    if (kind === 'linear' || l === a || r === b) x[i] = y0 + (y1 - y0) * u;
+    else {
+      const h00 = 2 * u ** 3 - 3 * u ** 2 + 1, h10 = u ** 3 - 2 * u ** 2 + u, h01 = -2 * u ** 3 + 3 * u ** 2, h11 = u ** 3 - u ** 2;
+      x[i] = h00 * y0 + h10 * span * m0 + h01 * y1 + h11 * span * m1;
+    }
+  }
+}
+
+function groupKeys(set: SweepSet, keys: string[]): Map<string, number[]> {
+  const g = new Map<string, number[]>();
+  set.conditions.forEach((c, i) => {
+    const id = JSON.stringify(keys.map((k) => c[k] ?? null));
+    const arr = g.get(id);
+    if (arr) arr.push(i);
+    else g.set(id, [i]);
+  });
+  return g;
+}
+
+/**
+ * Remove the stimulus artifact by one of several methods (see ArtifactOptions).
+ * @example set.removeArtifact({ method: 'template', window: [0, 0.4] })
+ */
+export function removeArtifact(set: SweepSet, options: ArtifactOptions): SweepSet {
+  const method = oneOf('method', options?.method, ['blank', 'template', 'exponential', 'alternate'] as const);
+  const window = windowMs('window', options.window ?? artifactDefaults.window);
+  const bridge = oneOf('bridge', options.bridge ?? artifactDefaults.bridge, ['linear', 'hermite'] as const);
+  const n = set.nSamples;
+  if (method === 'alternate') return alternate(set);
+  const [a, b] = windowIndices(set, window, 'window');
+  if (method === 'blank') {
+    const out = Float64Array.from(set.data);
+    for (let s = 0; s < set.nSweeps; s++) bridgeGap(out.subarray(s * n, (s + 1) * n), a, b, bridge);
+    return set.create({ data: out, step: { verb: 'removeArtifact', options: { method, window, bridge } } });
+  }
+  if (method === 'exponential') {
+    const tail = windowMs('tailWindow', options.tailWindow ?? [window[1], window[1] + 0.4]);
+    const [ta, tb] = windowIndices(set, tail, 'tailWindow');
+    if (tb - ta < 4) throw new OptionError(`invalid tailWindow: [${tail[0]}, ${tail[1]}] ms holds ${tb - ta + 1} samples; need at least 5 to fit an exponential`);
+    const out = Float64Array.from(set.data);
+    const taus: number[] = [];
+    for (let s = 0; s < set.nSweeps; s++) {
+      const x = out.subarray(s * n, (s + 1) * n);
+      const fit = fitExpTail(x, ta, tb, set.fs);
+      taus.push(fit.tauMs);
+      for (let i = a; i < n; i++) x[i] -= fit.A * Math.exp(-((i - ta) * 1000) / set.fs / fit.tauMs);
+      bridgeGap(x, a, b, bridge);
+    }
+    return set.create({ data: out, extras: { artifactTauMs: taus }, step: { verb: 'removeArtifact', options: { method, window, bridge, tailWindow: tail } } });
+  }
+  // template
+  const scaling = oneOf('scaling', options.scaling ?? artifactDefaults.scaling, ['fit', 'intensity'] as const);
+  const fitWindow = windowMs('fitWindow', options.fitWindow ?? window);
+  const [fa, fb] = windowIndices(set, fitWindow, 'fitWindow');
+  const keys = options.templateBy ?? ['preparation', 'site', 'distanceMm'].filter((k) => set.conditions.some((c) => k in c));
+  const groups = groupKeys(set, keys);
+  const out = new Float64Array(set.data.length);
+  const used: Record<string, number[]> = {};
+  for (const [id, members] of groups) {
+    let tmpl: number[];
+    if (options.templateSweeps) tmpl = options.templateSweeps.filter((i) => members.includes(i));
+    else {
+      const I = members.map((i) => set.conditions[i].intensity);
+      if (I.some((v) => typeof v !== 'number')) {
+        throw new AnalysisError(`template artifact removal needs the condition "intensity" on every sweep (group ${id}), or templateSweeps`);
+      }
+      const limit = options.maxIntensity ?? Math.min(...(I as number[]));
+      tmpl = members.filter((_, k) => (I[k] as number) <= limit);
+    }
+    if (tmpl.length === 0) throw new AnalysisError(`no template sweeps in group ${id}: give maxIntensity or templateSweeps that select sub-threshold sweeps`);
+    used[id] = tmpl;
+    const T = new Float64Array(n);
+    for (const i of tmpl) {
+      const x = set.sweep(i);
+      for (let k = 0; k < n; k++) T[k] += x[k] / tmpl.length;
+    }
+    const tI = tmpl.reduce((acc, i) => acc + ((set.conditions[i].intensity as number) ?? NaN), 0) / tmpl.length;
+    let tt = 0;
+    for (let k = fa; k <= fb; k++) tt += T[k] * T[k];
+    for (const i of members) {
+      const x = set.sweep(i);
+      let scale: number;
+      if (scaling === 'fit') {
+        let xt = 0;
+        for (let k = fa; k <= fb; k++) xt += x[k] * T[k];
+        scale = tt > 0 ? xt / tt : 0;
+      } else {
+        const I = set.conditions[i].intensity;
+        if (typeof I !== 'number' || !(tI > 0)) throw new AnalysisError(`scaling "intensity" needs a positive intensity on sweep ${i} and its template sweeps`);
+        scale = I / tI;
+      }
+      for (let k = 0; k < n; k++) out[i * n + k] = x[k] - scale * T[k];
+    }
+  }
+  return set.create({ data: out, extras: { templateSweeps: used }, step: { verb: 'removeArtifact', options: { method, window, scaling, fitWindow, templateBy: keys, maxIntensity: options.maxIntensity ?? null, templateSweeps: options.templateSweeps ?? null } } });
+}
+
+/**
+ * Fit y = A exp(-(t - t_a)/tau) + c on samples [ta, tb]: golden-section search over
+ * log tau (0.02 to 50 ms) with A and c by linear least squares at each tau.
+ */
+export function fitExpTail(x: Float64Array, ta: number, tb: number, fs: number): { A: number; c: number; tauMs: number; rss: number } {
+  const m = tb - ta + 1;
+  const at = (logTau: number) => {
+    const tau = Math.exp(logTau);
+    let se = 0, see = 0, sy = 0, sey = 0;
+    for (let k = 0; k < m; k++) {
+      const e = Math.exp(-(k * 1000) / fs / tau);
+      se += e; see += e * e; sy += x[ta + k]; sey += e * x[ta + k];
+    }
+    const det = see * m - se * se;
+    const A = det !== 0 ? (sey * m - se * sy) / det : 0;
+    const c = (sy - A * se) / m;
+    let rss = 0;
+    for (let k = 0; k < m; k++) rss += (x[ta + k] - A * Math.exp(-(k * 1000) / fs / tau) - c) ** 2;
+    return { A, c, tauMs: tau, rss };
+  };
+  let lo = Math.log(0.02), hi = Math.log(50);
+  const g = (Math.sqrt(5) - 1) / 2;
+  let x1 = hi - g * (hi - lo), x2 = lo + g * (hi - lo);
+  let f1 = at(x1).rss, f2 = at(x2).rss;
+  for (let it = 0; it < 60; it++) {
+    if (f1 < f2) { hi = x2; x2 = x1; f2 = f1; x1 = hi - g * (hi - lo); f1 = at(x1).rss; }
+    else { lo = x1; x1 = x2; f1 = f2; x2 = lo + g * (hi - lo); f2 = at(x2).rss; }
+  }
+  return at((lo + hi) / 2);
+}
+
+const PAIR_IGNORE = new Set(['polarity', 'repeat', 'acquiredS', 'fileSweep', 'label', 'file']);
+
+/** Average each +1 polarity sweep with its -1 partner of the same conditions (k-th with k-th). */
+function alternate(set: SweepSet): SweepSet {
+  const pol = set.column('polarity');
+  pol.forEach((p, i) => {
+    if (p !== 1 && p !== -1) throw new AnalysisError(`alternating-polarity averaging needs the condition "polarity" (+1 or -1); sweep ${i} has ${JSON.stringify(p)}`);
+  });
+  const groups = new Map<string, { pos: number[]; neg: number[] }>();
+  set.conditions.forEach((c, i) => {
+    const key = JSON.stringify(Object.keys(c).filter((k) => !PAIR_IGNORE.has(k)).sort().map((k) => [k, c[k]]));
+    let g = groups.get(key);
+    if (!g) groups.set(key, (g = { pos: [], neg: [] }));
+    (c.polarity === 1 ? g.pos : g.neg).push(i);
+  });
+  const pairs: [number, number][] = [];
+  for (const g of groups.values()) {
+    if (g.pos.length !== g.neg.length) throw new AnalysisError(`alternating-polarity averaging: ${g.pos.length} positive and ${g.neg.length} negative sweeps for conditions of sweep ${g.pos[0] ?? g.neg[0]}; expected equal numbers`);
+    g.pos.forEach((p, k) => pairs.push([p, g.neg[k]]));
+  }
+  pairs.sort((x, y) => Math.min(...x) - Math.min(...y));
+  const n = set.nSamples;
+  const out = new Float64Array(pairs.length * n);
+  const conds: Conditions[] = pairs.map(([p, q], k) => {
+    const xp = set.sweep(p), xq = set.sweep(q);
+    for (let i = 0; i < n; i++) out[k * n + i] = 0.5 * (xp[i] + xq[i]);
+    const c: Record<string, ConditionValue> = { ...set.conditions[p], polarity: null, count: 2 };
+    return c;
+  });
+  return set.create({ data: out, nSweeps: pairs.length, conditions: conds, step: { verb: 'removeArtifact', options: { method: 'alternate' } } });
+}
+
+export interface StimulusDetection {
+  /** detected stimulus time per sweep, ms on the sweep's current time axis */
+  perSweepMs: number[];
+  /** median over sweeps, ms */
+  timeMs: number;
+  /** spread (max - min) over sweeps, ms */
+  spreadMs: number;
+}
+
+/**
+ * Find the stimulus time from the artifact: in each sweep, the first sample whose
+ * step from the previous sample exceeds half the largest step in the search window.
+ */
+export function detectStimulus(set: SweepSet, options: { search?: [number, number] } = {}): StimulusDetection {
+  const search = windowMs('search', options.search ?? [set.t0Ms, set.timeAt(set.nSamples - 1)]);
+  const [a, b] = windowIndices(set, search, 'search');
+  const per: number[] = [];
+  for (let s = 0; s < set.nSweeps; s++) {
+    const x = set.sweep(s);
+    let mx = 0;
+    for (let i = Math.max(1, a); i <= b; i++) mx = Math.max(mx, Math.abs(x[i] - x[i - 1]));
+    let at = -1;
+    for (let i = Math.max(1, a); i <= b; i++) if (Math.abs(x[i] - x[i - 1]) > 0.5 * mx) { at = i; break; }
+    per.push(at < 0 ? NaN : set.timeAt(at));
+  }
+  const sorted = per.filter(Number.isFinite).sort((p, q) => p - q);
+  if (!sorted.length) throw new AnalysisError('no stimulus artifact found in the search window');
+  return { perSweepMs: per, timeMs: sorted[Math.floor((sorted.length - 1) / 2)], spreadMs: sorted[sorted.length - 1] - sorted[0] };
+}
+
+/** Shift the time axis so the detected stimulus (median over sweeps) is at 0 ms; the detection is kept in extras. */
+export function alignStimulus(set: SweepSet, options: { search?: [number, number] } = {}): SweepSet {
+  const d = detectStimulus(set, options);
+  return set.create({ t0Ms: set.t0Ms - d.timeMs, extras: { ...set.extras, stimulusDetection: d }, step: { verb: 'alignStimulus', options: { search: options.search ?? null, detectedMs: d.timeMs, spreadMs: d.spreadMs } } });
+}

@@ -1,0 +1,78 @@
+import type { SweepSet } from '../sweeps/SweepSet';
+import { OptionError } from '../errors';
+import { oneOf, windowMs } from '../validate';
+
+export interface BaselineOptions {
+  /** Pre-stimulus window [from, to], ms relative to the stimulus. Default: sweep start to -0.1 ms. */
+  window?: [number, number];
+  /** 'mean' (default) or 'median' of the window. */
+  method?: 'mean' | 'median';
+  /**
+   * A late quiet window [from, to] in ms: when given, a straight line through the
+   * level of the pre-stimulus window and the level of this window is subtracted
+   * (linear detrend of slow drift). Default: none.
+   */
+  lateWindow?: [number, number] | null;
+}
+
+export const baselineDefaults = { method: 'mean' as const, lateWindow: null, stopBeforeStimulusMs: 0.1 };
+
+/** Level of samples [a, b] (inclusive) of x by mean or median. */
+function level(x: Float64Array, a: number, b: number, method: 'mean' | 'median', buf: Float64Array): number {
+  if (method === 'mean') {
+    let s = 0;
+    for (let i = a; i <= b; i++) s += x[i];
+    return s / (b - a + 1);
+  }
+  const m = b - a + 1;
+  const sub = buf.subarray(0, m);
+  sub.set(x.subarray(a, b + 1));
+  sub.sort();
+  return m % 2 ? sub[(m - 1) / 2] : 0.5 * (sub[m / 2 - 1] + sub[m / 2]);
+}
+
+/** Samples indices [a, b] for a window in ms; throws when the window holds no samples. */
+export function windowIndices(set: SweepSet, w: [number, number], name: string): [number, number] {
+  const a = Math.max(0, Math.ceil(((w[0] - set.t0Ms) * set.fs) / 1000 - 1e-9));
+  const b = Math.min(set.nSamples - 1, Math.floor(((w[1] - set.t0Ms) * set.fs) / 1000 + 1e-9));
+  if (b < a) {
+    throw new OptionError(`invalid ${name}: [${w[0]}, ${w[1]}] ms holds no samples; the sweep spans [${set.t0Ms}, ${set.timeAt(set.nSamples - 1)}] ms`);
+  }
+  return [a, b];
+}
+
+/**
+ * Subtract the pre-stimulus level of each sweep (mean or median of a window), with
+ * an optional linear detrend to a late quiet window.
+ * @example set.baseline({ window: [-2, -0.2] })
+ */
+export function baseline(set: SweepSet, options: BaselineOptions = {}): SweepSet {
+  const method = oneOf('method', options.method ?? baselineDefaults.method, ['mean', 'median'] as const);
+  const defaultWindow: [number, number] = [set.t0Ms, -baselineDefaults.stopBeforeStimulusMs];
+  if (!options.window && !(set.t0Ms < -baselineDefaults.stopBeforeStimulusMs)) {
+    throw new OptionError(`invalid window: the sweep starts at ${set.t0Ms} ms, so there is no pre-stimulus baseline; give window: [from, to] in ms`);
+  }
+  const w = windowMs('window', options.window ?? defaultWindow);
+  const [a, b] = windowIndices(set, w, 'window');
+  const late = options.lateWindow ? windowMs('lateWindow', options.lateWindow) : null;
+  const lb = late ? windowIndices(set, late, 'lateWindow') : null;
+  if (lb && !(lb[0] > b)) throw new OptionError(`invalid lateWindow: [${late![0]}, ${late![1]}] ms; must lie after window [${w[0]}, ${w[1]}] ms`);
+  const n = set.nSamples;
+  const out = new Float64Array(set.data.length);
+  const buf = new Float64Array(n);
+  const ca = (a + b) / 2;
+  const cb = lb ? (lb[0] + lb[1]) / 2 : 0;
+  for (let s = 0; s < set.nSweeps; s++) {
+    const x = set.data.subarray(s * n, (s + 1) * n);
+    const l0 = level(x, a, b, method, buf);
+    const o = s * n;
+    if (!lb) {
+      for (let i = 0; i < n; i++) out[o + i] = x[i] - l0;
+    } else {
+      const l1 = level(x, lb[0], lb[1], method, buf);
+      const slope = (l1 - l0) / (cb - ca);
+      for (let i = 0; i < n; i++) out[o + i] = x[i] - (l0 + slope * (i - ca));
+    }
+  }
+  return set.create({ data: out, step: { verb: 'baseline', options: { window: w, method, lateWindow: late } } });
+}

@@ -1,0 +1,31 @@
+import type { SweepSet } from '../sweeps/SweepSet';
+import { butter } from '../signal/butter';
+import { defaultPadlen } from '../signal/sosfilt';
+import { applySos } from './filter';
+import { integerIn } from '../validate';
+
+export interface DecimateOptions {
+  /** integer down-sampling factor 2..64 */
+  factor: number;
+  /** order of the zero-phase Butterworth anti-alias low-pass (default 8) */
+  order?: number;
+}
+export const decimateDefaults = { order: 8, cutoffFraction: 0.8 };
+
+/**
+ * Down-sample by an integer factor after a zero-phase Butterworth anti-alias
+ * low-pass at 0.8 x the new Nyquist frequency (the rule SciPy's decimate uses for
+ * its IIR filter). Keeps samples 0, factor, 2 factor, ...
+ */
+export function decimate(set: SweepSet, options: DecimateOptions): SweepSet {
+  const factor = integerIn('factor', options.factor, 2, 64);
+  const order = integerIn('order', options.order ?? decimateDefaults.order, 1, 10);
+  const cutoff = (decimateDefaults.cutoffFraction * set.fs) / factor / 2;
+  const sos = butter({ order, cutoff, btype: 'lowpass', fs: set.fs });
+  const filtered = applySos(set, sos, defaultPadlen(sos));
+  const n = set.nSamples;
+  const m = Math.ceil(n / factor);
+  const out = new Float64Array(set.nSweeps * m);
+  for (let s = 0; s < set.nSweeps; s++) for (let i = 0; i < m; i++) out[s * m + i] = filtered[s * n + i * factor];
+  return set.create({ data: out, nSamples: m, fs: set.fs / factor, step: { verb: 'decimate', options: { factor, order, cutoffHz: cutoff, zeroPhase: true } } });
+}

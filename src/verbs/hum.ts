@@ -1,0 +1,79 @@
+import type { SweepSet } from '../sweeps/SweepSet';
+import { OptionError } from '../errors';
+import { fitSines, sinesAt } from '../signal/sinefit';
+import { integerIn } from '../validate';
+
+export interface HumOptions {
+  /** mains frequency in Hz, or 'detect' (default) to choose 50 or 60 Hz and refine it within +/-1 Hz from the data */
+  frequency?: number | 'detect';
+  /** number of harmonics including the fundamental (default 5) */
+  harmonics?: number;
+  /** time ranges [from, to] in ms left out of the fit (e.g. the artifact and the response); default none */
+  exclude?: [number, number][];
+}
+export const humDefaults = { frequency: 'detect' as const, harmonics: 5, exclude: [] as [number, number][] };
+
+/**
+ * Remove mains hum by fitting and subtracting sinusoids at the mains frequency and
+ * its harmonics, per sweep (phase and amplitude free in every sweep). The fit
+ * leaves out the `exclude` ranges. When the frequency is 'detect', 50 and 60 Hz
+ * are compared by the fitted power summed over sweeps, and the winner refined
+ * (golden-section search on the residual, +/-1 Hz).
+ * @example set.removeHum({ frequency: 50, harmonics: 3, exclude: [[0, 8]] })
+ */
+export function removeHum(set: SweepSet, options: HumOptions = {}): SweepSet {
+  const harmonics = integerIn('harmonics', options.harmonics ?? humDefaults.harmonics, 1, 20);
+  const exclude = options.exclude ?? humDefaults.exclude;
+  const t = set.time();
+  const mask = new Uint8Array(set.nSamples).fill(1);
+  for (const w of exclude) {
+    if (!Array.isArray(w) || !(w[1] > w[0])) throw new OptionError(`invalid exclude: ${JSON.stringify(w)}; must be [from, to] in ms with from < to`);
+    for (let i = 0; i < t.length; i++) if (t[i] >= w[0] && t[i] <= w[1]) mask[i] = 0;
+  }
+  const kept = mask.reduce((a, b) => a + b, 0);
+  if (kept < 2 * harmonics + 4) throw new OptionError(`invalid exclude: leaves ${kept} samples to fit ${2 * harmonics + 1} terms`);
+  const freqOpt = options.frequency ?? humDefaults.frequency;
+  const maxH = Math.floor((set.fs / 2 - 1) / 70);
+  const n = set.nSamples;
+  // use at most 16 sweeps (evenly spread) to pick the frequency
+  const probe = Array.from({ length: Math.min(16, set.nSweeps) }, (_, k) => Math.floor((k * set.nSweeps) / Math.min(16, set.nSweeps)));
+  const rssAt = (f: number, H: number) => probe.reduce((s, i) => s + fitSines(set.sweep(i), t, f, H, mask).rss, 0);
+  let f: number;
+  if (freqOpt === 'detect') {
+    if (set.durationMs < 35) {
+      throw new OptionError(`invalid frequency: "detect" needs sweeps of at least 35 ms (about two mains cycles); these are ${set.durationMs.toFixed(1)} ms, so give frequency: 50 or 60`);
+    }
+    const H = Math.max(1, Math.min(harmonics, maxH));
+    const p50 = rssAt(50, H), p60 = rssAt(60, H);
+    let lo = p50 <= p60 ? 49 : 59, hi = lo + 2;
+    const g = (Math.sqrt(5) - 1) / 2;
+    let x1 = hi - g * (hi - lo), x2 = lo + g * (hi - lo);
+    let f1 = rssAt(x1, H), f2 = rssAt(x2, H);
+    for (let it = 0; it < 30; it++) {
+      if (f1 < f2) { hi = x2; x2 = x1; f2 = f1; x1 = hi - g * (hi - lo); f1 = rssAt(x1, H); }
+      else { lo = x1; x1 = x2; f1 = f2; x2 = lo + g * (hi - lo); f2 = rssAt(x2, H); }
+    }
+    f = (lo + hi) / 2;
+  } else {
+    if (!(freqOpt > 0 && freqOpt * harmonics < set.fs / 2)) {
+      throw new OptionError(`invalid frequency: ${freqOpt} Hz with ${harmonics} harmonics; must be > 0 with frequency x harmonics < fs/2 (fs=${set.fs} Hz)`);
+    }
+    f = freqOpt;
+  }
+  if (f * harmonics >= set.fs / 2) throw new OptionError(`invalid harmonics: ${harmonics} at ${f.toFixed(2)} Hz reach fs/2 (fs=${set.fs} Hz)`);
+  const out = new Float64Array(set.data.length);
+  const hum = new Float64Array(n);
+  const amplitudes: number[] = [];
+  for (let s = 0; s < set.nSweeps; s++) {
+    const x = set.sweep(s);
+    const fit = fitSines(x, t, f, harmonics, mask);
+    sinesAt(fit.coef, t, f, hum);
+    amplitudes.push(Math.hypot(fit.coef[1], fit.coef[2]));
+    for (let i = 0; i < n; i++) out[s * n + i] = x[i] - hum[i];
+  }
+  return set.create({
+    data: out,
+    extras: { humFrequencyHz: f, humAmplitude: amplitudes },
+    step: { verb: 'removeHum', options: { frequency: freqOpt, fittedFrequencyHz: Number(f.toFixed(4)), harmonics, exclude } },
+  });
+}
