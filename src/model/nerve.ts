@@ -216,18 +216,34 @@ export function simulateNerve(o: SimulateOptions): SweepSet {
 }
 
 /** Ground truth per class at a temperature: fastest velocity, amplitude-weighted modal velocity, IC50, Hill slope. */
-export function classTruth(model: NerveModel, fibers: Fiber[], temperatureC: number): { name: string; vMax: number; vMin: number; vMode: number; vMedian: number; ic50: number; hill: number; minThreshold: number }[] {
+/**
+ * Ground truth per class at a temperature. vMax, vMin: fastest and slowest fiber;
+ * vMedian: median fiber; vMode: the velocity at the mode of the amplitude-weighted
+ * arrival-time density (each fiber weighted by its amplitude a(v) ~ v^2 and by the
+ * Jacobian dv/dt ~ v^2 of the change from velocity to latency), i.e. the velocity of
+ * the fibers that make the peak of the class's compound wave; estimated with a
+ * Gaussian kernel (Silverman's bandwidth) over velocity. vCentroid: 1 / (amplitude-
+ * weighted mean of 1/v) = sum v^2 / sum v for a ~ v^2: the slope of the class wave's
+ * centre of mass against distance.
+ */
+export function classTruth(model: NerveModel, fibers: Fiber[], temperatureC: number): { name: string; vMax: number; vMin: number; vMode: number; vMedian: number; vCentroid: number; ic50: number; hill: number; minThreshold: number }[] {
   return model.populations.map((p, pi) => {
     const fs = fibers.filter((f) => f.pop === pi);
     const v = fs.map((f) => fiberVelocity(model, f, temperatureC)).sort((a, b) => a - b);
-    // amplitude-weighted histogram mode (40 bins)
     const lo = v[0], hi = v[v.length - 1];
-    const bins = new Float64Array(40);
-    for (const x of v) bins[Math.min(39, Math.floor(((x - lo) / (hi - lo)) * 40))] += x * x;
-    let bi = 0;
-    for (let i = 1; i < 40; i++) if (bins[i] > bins[bi]) bi = i;
+    const mean = v.reduce((a, b) => a + b, 0) / v.length;
+    const sd = Math.sqrt(v.reduce((a, b) => a + (b - mean) ** 2, 0) / (v.length - 1));
+    const bw = 1.06 * sd * Math.pow(v.length, -0.2);
+    let best = lo, bestD = -1;
+    for (let g = 0; g <= 400; g++) {
+      const vg = lo + ((hi - lo) * g) / 400;
+      let dens = 0;
+      for (const x of v) dens += Math.exp(-0.5 * ((vg - x) / bw) ** 2);
+      dens *= vg ** 4;
+      if (dens > bestD) { bestD = dens; best = vg; }
+    }
     return {
-      name: p.name, vMax: hi, vMin: lo, vMode: lo + ((bi + 0.5) * (hi - lo)) / 40, vMedian: v[Math.floor(v.length / 2)],
+      name: p.name, vMax: hi, vMin: lo, vMode: best, vMedian: v[Math.floor(v.length / 2)], vCentroid: v.reduce((a, b) => a + b * b, 0) / v.reduce((a, b) => a + b, 0),
       ic50: p.ic50, hill: p.hill, minThreshold: Math.min(...fs.map((f) => f.threshold)),
     };
   });

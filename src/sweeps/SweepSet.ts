@@ -13,6 +13,8 @@ import { removeArtifact, alignStimulus, detectStimulus, type ArtifactOptions, ty
 import { filter, notch, type FilterOptions, type NotchOptions } from '../verbs/filter';
 import { removeHum, type HumOptions } from '../verbs/hum';
 import { decimate, type DecimateOptions } from '../verbs/decimate';
+import { ComponentTable } from '../measure/table';
+import type { ComponentOptions } from '../measure/components';
 import { signalFactor, type SignalUnit } from './units';
 
 /** A condition value: numbers, strings, booleans or null (not recorded). */
@@ -274,6 +276,15 @@ export class SweepSet implements Iterable<Float64Array> {
   /** Down-sample by an integer factor after a zero-phase anti-alias low-pass. */
   decimate(options: DecimateOptions): SweepSet {
     return decimate(this, options);
+  }
+
+  /**
+   * Measure the fiber-class components of every sweep (latency windows from the
+   * class velocity ranges, the distance and the temperature).
+   * @example set.components({ preset: 'mammalian' }).velocity()
+   */
+  components(options: ComponentOptions = {}): ComponentTable {
+    return new ComponentTable(this, options);
   }
 
   /** Group sweeps by condition keys; call `.average()` on the result. */

@@ -1,0 +1,155 @@
+/**
+ * Measurements of one response in one sweep: numerical kernels on Float64Array
+ * that know nothing of SweepSet. Times are in samples (fractional after sub-sample
+ * refinement); the caller converts to ms.
+ */
+
+/**
+ * Robust noise level: 1.4826 x the median absolute deviation from the median of
+ * x[a..b] (an estimate of the SD for Gaussian noise). O(m log m).
+ * Reference: P. J. Rousseeuw, C. Croux, J. Am. Stat. Assoc. 88 (1993) 1273-1283.
+ * @example noiseMad(Float64Array.of(1, 2, 3, 4, 100), 0, 4) // 1.4826
+ */
+export function noiseMad(x: ArrayLike<number>, a: number, b: number): number {
+  const v = Float64Array.from({ length: b - a + 1 }, (_, i) => x[a + i]).sort();
+  const med = median(v);
+  const dev = v.map((y) => Math.abs(y - med)).sort();
+  return 1.4826 * median(dev);
+}
+
+function median(sorted: Float64Array): number {
+  const m = sorted.length;
+  return m % 2 ? sorted[(m - 1) / 2] : 0.5 * (sorted[m / 2 - 1] + sorted[m / 2]);
+}
+
+/**
+ * Sub-sample peak by a parabola through the three samples around index i:
+ * offset = (y[-1] - y[+1]) / (2 (y[-1] - 2 y0 + y[+1])), height = y0 - (y[-1] - y[+1]) offset / 4.
+ * Reference: J. O. Smith, Spectral Audio Signal Processing, W3K 2011, "Quadratic interpolation of spectral peaks".
+ */
+export function parabolicPeak(y: ArrayLike<number>, i: number): { index: number; value: number } {
+  if (i <= 0 || i >= y.length - 1) return { index: i, value: y[i] };
+  const ym = y[i - 1], y0 = y[i], yp = y[i + 1];
+  const den = ym - 2 * y0 + yp;
+  if (den === 0) return { index: i, value: y0 };
+  const d = Math.max(-0.5, Math.min(0.5, (0.5 * (ym - yp)) / den));
+  return { index: i + d, value: y0 - 0.25 * (ym - yp) * d };
+}
+
+import { normQuantile } from '../fit/dist';
+
+export interface ResponseMeasure {
+  /** polarity used: +1 positive-going, -1 negative-going */
+  polarity: 1 | -1;
+  /** window searched, sample indices */
+  window: [number, number];
+  noise: number;
+  /** detection level = k x noise */
+  level: number;
+  detected: boolean;
+  /** peak (signed value in signal units) and its fractional index */
+  peakIndex: number;
+  peak: number;
+  /** onset: fractional index where the signal first crosses the level on the way into the peak */
+  onsetIndex: number;
+  /** offset: fractional index where the signal falls back below the level after the peak */
+  offsetIndex: number;
+  /** half-amplitude crossings (fractional indices) */
+  halfRise: number;
+  halfFall: number;
+  /** centroid (fractional index) of the polarity-corrected signal between onset and offset */
+  centroidIndex: number;
+  /** max - min in the window */
+  peakToPeak: number;
+  /** signed and rectified area between onset and offset, signal units x samples */
+  areaSamples: number;
+  rectifiedAreaSamples: number;
+}
+
+/**
+ * Measure the response in x[a..b] with polarity p (or 'auto': the larger of the
+ * positive and negative extremes) and detection level k x noise.
+ */
+export function measureResponse(x: ArrayLike<number>, a: number, b: number, noise: number, k: number, polarity: 1 | -1 | 'auto'): ResponseMeasure {
+  let imax = a, imin = a;
+  for (let i = a; i <= b; i++) {
+    if (x[i] > x[imax]) imax = i;
+    if (x[i] < x[imin]) imin = i;
+  }
+  const p: 1 | -1 = polarity === 'auto' ? (Math.abs(x[imax]) >= Math.abs(x[imin]) ? 1 : -1) : polarity;
+  const ip = p === 1 ? imax : imin;
+  const three = ip > 0 && ip < x.length - 1 ? parabolicPeak([p * x[ip - 1], p * x[ip], p * x[ip + 1]], 1) : { index: 1, value: p * x[ip] };
+  const pk = { index: ip - 1 + three.index, value: three.value };
+  const peakVal = p * pk.value;
+  const level = k * noise;
+  const y = (i: number) => p * x[i];
+  // detection: the 3-point smoothed peak must pass max(k, z_(1 - 0.01/N)) x noise, N = samples in the
+  // window, so that noise alone passes in under 1% of windows of any length (Bonferroni bound)
+  const N = b - a + 1;
+  const kEff = Math.max(k, normQuantile(1 - 0.01 / N));
+  const sm = ip > 0 && ip < x.length - 1 ? (y(ip - 1) + y(ip) + y(ip + 1)) / 3 : y(ip);
+  const detected = sm > kEff * noise && ip > a && ip < b;
+  // onset: walk back from the peak while above the level, then interpolate the crossing
+  let i = ip;
+  while (i > a && y(i - 1) > level) i--;
+  const onsetIndex = i > a || y(i) <= level ? crossing(y, i - 1, i, level) : a;
+  let j = ip;
+  while (j < b && y(j + 1) > level) j++;
+  const offsetIndex = j < b ? crossing(y, j, j + 1, level) : b;
+  const half = (p * peakVal) / 2;
+  let h1 = ip;
+  while (h1 > a && y(h1 - 1) > half) h1--;
+  const halfRise = h1 > a ? crossing(y, h1 - 1, h1, half) : a;
+  let h2 = ip;
+  while (h2 < b && y(h2 + 1) > half) h2++;
+  const halfFall = h2 < b ? crossing(y, h2, h2 + 1, half) : b;
+  let area = 0, rect = 0, mom = 0, w = 0;
+  const s0 = Math.max(a, Math.ceil(onsetIndex)), s1 = Math.min(b, Math.floor(offsetIndex));
+  for (let q = s0; q <= s1; q++) {
+    area += x[q];
+    rect += Math.abs(x[q]);
+    const yq = Math.max(0, y(q));
+    mom += q * yq;
+    w += yq;
+  }
+  return {
+    polarity: p, window: [a, b], noise, level, detected,
+    peakIndex: pk.index, peak: peakVal, centroidIndex: w > 0 ? mom / w : pk.index, onsetIndex, offsetIndex, halfRise, halfFall,
+    peakToPeak: x[imax] - x[imin], areaSamples: area, rectifiedAreaSamples: rect,
+  };
+}
+
+/** Fractional index between i0 and i1 where y crosses level (linear interpolation). */
+function crossing(y: (i: number) => number, i0: number, i1: number, level: number): number {
+  const y0 = y(i0), y1 = y(i1);
+  if (y1 === y0) return i1;
+  return i0 + (level - y0) / (y1 - y0);
+}
+
+/**
+ * Delay (in samples, fractional) that best aligns b to a: the lag L maximising
+ * sum_i a[i] b[i + L] over lags in [minLag, maxLag], refined by a parabola through
+ * the three correlation values around the best integer lag.
+ */
+export function xcorrDelay(a: ArrayLike<number>, b: ArrayLike<number>, minLag: number, maxLag: number): { lag: number; r: number } {
+  let best = -Infinity, bestLag = minLag;
+  const vals = new Map<number, number>();
+  const na = a.length, nb = b.length;
+  let ea = 0, eb = 0;
+  for (let i = 0; i < na; i++) ea += a[i] * a[i];
+  for (let i = 0; i < nb; i++) eb += b[i] * b[i];
+  for (let L = minLag; L <= maxLag; L++) {
+    let s = 0;
+    const i0 = Math.max(0, -L), i1 = Math.min(na, nb - L);
+    for (let i = i0; i < i1; i++) s += a[i] * b[i + L];
+    vals.set(L, s);
+    if (s > best) { best = s; bestLag = L; }
+  }
+  const ym = vals.get(bestLag - 1), yp = vals.get(bestLag + 1);
+  let lag = bestLag;
+  if (ym !== undefined && yp !== undefined) {
+    const den = ym - 2 * best + yp;
+    if (den < 0) lag = bestLag + Math.max(-0.5, Math.min(0.5, (0.5 * (ym - yp)) / den));
+  }
+  return { lag, r: best / Math.sqrt(ea * eb || 1) };
+}

@@ -1,0 +1,4 @@
+export * from './hh';
+export * from './cable';
+export * from './nerve';
+export { Rng } from './random';

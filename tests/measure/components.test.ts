@@ -1,0 +1,123 @@
+import { describe, it, expect } from 'vitest';
+import { SweepSet, PRESETS, latencyWindow, measureResponse, noiseMad, model, xcorrDelay } from '../../src';
+
+describe('fiber-class presets', () => {
+  it('reproduce the named table (Kiernan, table of nerve fibre types; V via ../shared/REFERENCES.md)', () => {
+    const d = Object.fromEntries(PRESETS['mammalian-detailed'].classes.map((c) => [c.name, c.velocity]));
+    expect(d['A-alpha']).toEqual([70, 120]);
+    expect(d['A-beta']).toEqual([60, 80]);
+    expect(d['A-gamma']).toEqual([15, 40]);
+    expect(d['A-delta']).toEqual([10, 30]);
+    expect(d.B).toEqual([5, 15]);
+    expect(d.C).toEqual([0.5, 2.5]);
+  });
+  it("Hursh's factor (about 6 m/s per um, Hursh 1939) puts a 12 um fiber at 36 mm inside the A-alpha/beta window", () => {
+    const v = 6 * 12; // 72 m/s
+    const lat = 36 / v; // 0.5 ms
+    const [a, b] = latencyWindow(PRESETS.mammalian.classes[0].velocity, 36);
+    expect(a).toBeCloseTo(0.3, 12); // 36 mm / 120 m/s
+    expect(b).toBeCloseTo(0.6, 12); // 36 mm / 60 m/s
+    expect(lat).toBeGreaterThan(a);
+    expect(lat).toBeLessThan(b);
+  });
+});
+
+describe('sub-sample latency', () => {
+  it('locates an analytic pulse shifted by fractions of a sample within 2% of a sample interval', () => {
+    for (const shift of [0, 0.1, 0.25, 0.37, 0.5, 0.73, 0.9]) {
+      const x = Float64Array.from({ length: 200 }, (_, i) => Math.exp(-0.5 * ((i - 100 - shift) / 6) ** 2));
+      const m = measureResponse(x, 50, 150, 0.001, 4, 1);
+      expect(Math.abs(m.peakIndex - (100 + shift))).toBeLessThan(0.02);
+    }
+  });
+  it('cross-correlation finds a fractional delay within 2% of a sample', () => {
+    const f = (i: number, d: number) => Math.exp(-0.5 * ((i - 60 - d) / 8) ** 2);
+    for (const d of [10.2, 17.5, 23.8]) {
+      const a = Float64Array.from({ length: 200 }, (_, i) => f(i, 0));
+      const b = Float64Array.from({ length: 200 }, (_, i) => f(i, d));
+      expect(Math.abs(xcorrDelay(a, b, 0, 40).lag - d)).toBeLessThan(0.05);
+    }
+  });
+  it('noise level by MAD (1.4826 x MAD estimates the SD of Gaussian noise)', () => {
+    const rng = new model.Rng(7);
+    const x = Float64Array.from({ length: 20000 }, () => 3 * rng.normal());
+    expect(noiseMad(x, 0, 19999)).toBeCloseTo(3, 1);
+  });
+});
+
+describe('components and velocity against the forward model (known fibers)', () => {
+  const nerve = model.rodentSciatic();
+  const seed = 11;
+  const truth = model.classTruth(nerve, model.drawFibers(nerve, seed), 37);
+  const sweeps = [];
+  for (const d of [20, 30, 40]) for (let r = 0; r < 6; r++) sweeps.push({ intensity: 50, distanceMm: d, temperatureC: 37, concentration: 0, jitterMs: 0.002, conditions: { preparation: 'T1', repeat: r } });
+  // 50 kHz, realistic noise (5 uV SD against an A wave of about 2 mV)
+  const set = model.simulateNerve({ model: nerve, seed, grid: { fs: 50000, t0Ms: -2, nSamples: 5000 }, sweeps, nuisance: { noiseUv: 5 } }).baseline();
+  const table = set.components({ preset: 'mammalian' });
+  const v = table.velocity();
+  const rel = (a: number, b: number) => Math.abs(a - b) / b;
+  // Truth: vCentroid = 1 / (amplitude-weighted mean of 1/v) over the simulated fibers, the
+  // slope of the class wave's centre of mass against distance (exact for the summed model).
+  it('regression of centroid latency on distance: within 3% for A, 5% for C', () => {
+    const report: string[] = [];
+    for (const [cls, tol] of [['A-alpha/beta', 0.03], ['A-delta', 0.03], ['C', 0.05]] as const) {
+      const t = truth.find((c) => c.name === cls)!;
+      const row = v.get('regression', 'centroid').find((r) => r.class === cls)!;
+      const peak = v.get('regression', 'peak').find((r) => r.class === cls)!;
+      report.push(`${cls}: ${row.velocity_m_s.toFixed(3)} m/s [${row.ci95_low_m_s.toFixed(2)}, ${row.ci95_high_m_s.toFixed(2)}] vs true ${t.vCentroid.toFixed(3)}; peak-based ${peak.velocity_m_s.toFixed(3)} vs modal ${t.vMode.toFixed(3)}`);
+      expect(rel(row.velocity_m_s, t.vCentroid)).toBeLessThan(tol);
+      expect(row.ci95_low_m_s).toBeLessThan(row.velocity_m_s);
+      expect(row.ci95_high_m_s).toBeGreaterThan(row.velocity_m_s);
+    }
+    console.log('regression on distance:', report.join('; '));
+  });
+  it('two-site velocity (centroid delay) within 3% (A) and 5% (C); cross-correlation within 10%', () => {
+    for (const [cls, tol] of [['A-alpha/beta', 0.03], ['A-delta', 0.03], ['C', 0.05]] as const) {
+      const t = truth.find((c) => c.name === cls)!;
+      const rows = v.get('two-site', 'centroid').filter((r) => r.class === cls);
+      expect(rows.length).toBe(2);
+      for (const r of rows) expect(rel(r.velocity_m_s, t.vCentroid)).toBeLessThan(tol);
+      for (const r of v.get('two-site', 'xcorr').filter((q) => q.class === cls)) expect(rel(r.velocity_m_s, t.vCentroid)).toBeLessThan(0.1);
+    }
+  });
+  it('onset velocities lie between the modal and the fastest fibers', () => {
+    for (const cls of ['A-alpha/beta', 'A-delta', 'C']) {
+      const t = truth.find((c) => c.name === cls)!;
+      const row = v.get('regression', 'onset').find((r) => r.class === cls)!;
+      expect(row.velocity_m_s).toBeGreaterThan(t.vMode * 0.97);
+      expect(row.velocity_m_s).toBeLessThan(t.vMax * 1.03);
+    }
+  });
+  it('the utilisation time (intercept) is recovered from the regression', () => {
+    // peak intercept = utilisation + the waveform's peak offset; onset intercept near the utilisation (0.05 ms)
+    const row = v.get('regression', 'onset').find((r) => r.class === 'A-alpha/beta')!;
+    expect(Math.abs((row.utilisation_ms as number) - 0.05)).toBeLessThan(0.1);
+  });
+  it('impossible geometry is an error that says what is wrong', () => {
+    const swapped = set.create({ conditions: set.conditions.map((c) => ({ ...c, distanceMm: 60 - (c.distanceMm as number) })) });
+    expect(() => swapped.components().velocity()).toThrow(/arrive later at the farther site|does not increase with distance|outside any nerve fiber's range/);
+    const metres = set.create({ conditions: set.conditions.map((c) => ({ ...c, distanceMm: (c.distanceMm as number) / 1000 })) });
+    expect(() => metres.components()).toThrow(/implausible.*another unit/);
+  });
+  it('the table has units in column names and the conditions joined on', () => {
+    const r = table.rows[0];
+    expect(Object.keys(r)).toEqual(expect.arrayContaining(['amplitude_uV', 'onset_ms', 'peak_ms', 'area_uV_ms', 'half_width_ms', 'preparation', 'distance_mm']));
+    expect(table.frame().shape[0]).toBe(set.nSweeps * 3);
+  });
+});
+
+describe('threshold for an intensity series', () => {
+  it('is the lowest intensity where a class is detected, larger fibers first (forward model)', () => {
+    const nerve = model.rodentSciatic();
+    const I = [0.02, 0.05, 0.1, 0.2, 0.5, 1, 2, 5, 10];
+    const sweeps = I.flatMap((i) => [0, 1].map((r) => ({ intensity: i, distanceMm: 30, temperatureC: 37, concentration: 0, conditions: { preparation: 'T', repeat: r } })));
+    const set = model.simulateNerve({ model: nerve, seed: 5, grid: { fs: 50000, t0Ms: -2, nSamples: 4000 }, sweeps, nuisance: { noiseUv: 3 } });
+    const th = set.baseline().components().threshold();
+    const get = (c: string) => th.find((r) => r.class === c)!.threshold as number;
+    const truth = model.classTruth(nerve, model.drawFibers(nerve, 5), 37);
+    expect(get('A-alpha/beta')).toBeLessThan(get('A-delta'));
+    expect(get('A-delta')).toBeLessThan(get('C'));
+    // the detected threshold is the first tested level at or above the lowest fiber threshold
+    for (const t of truth) expect(th.find((r) => r.class === t.name)!.threshold).toBeGreaterThanOrEqual(t.minThreshold);
+  });
+});
