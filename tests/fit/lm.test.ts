@@ -1,0 +1,81 @@
+import { describe, it, expect } from 'vitest';
+import { fitCurve, profileCI, trusted } from '../../src/fit/lm';
+
+// NIST Statistical Reference Datasets, nonlinear regression (itl.nist.gov/div898/strd/nls),
+// certified values copied in ../shared/REFERENCES.md (V). Score: LRE = -log10(|est - cert| / |cert|).
+const lre = (est: number, cert: number) => Math.min(15, -Math.log10(Math.abs(est - cert) / Math.abs(cert)));
+const NIST = [
+  {
+    name: 'Rat42', model: (x: number, b: readonly number[]) => b[0] / (1 + Math.exp(b[1] - b[2] * x)),
+    x: [9, 14, 21, 28, 42, 57, 63, 70, 79], y: [8.93, 10.8, 18.59, 22.33, 39.35, 56.11, 61.73, 64.62, 67.08],
+    starts: [[100, 1, 0.1], [75, 2.5, 0.07]],
+    b: [7.2462237576e1, 2.6180768402, 6.7359200066e-2], sd: [1.7340283401, 8.8295217536e-2, 3.4465663377e-3], rss: 8.0565229338,
+  },
+  {
+    name: 'Rat43', model: (x: number, b: readonly number[]) => b[0] / Math.pow(1 + Math.exp(b[1] - b[2] * x), 1 / b[3]),
+    x: [1, 2, 3, 4, 5, 6, 7, 8, 9, 10, 11, 12, 13, 14, 15], y: [16.08, 33.83, 65.8, 97.2, 191.55, 326.2, 386.87, 520.53, 590.03, 651.92, 724.93, 699.56, 689.96, 637.56, 717.41],
+    starts: [[100, 10, 1, 1], [700, 5, 0.75, 1.3]],
+    b: [6.996415127e2, 5.2771253025, 7.5962938329e-1, 1.2792483859], sd: [1.6302297817e1, 2.0828735829, 1.9566123451e-1, 6.8761936385e-1], rss: 8.786404908e3,
+  },
+  {
+    name: 'BoxBOD', model: (x: number, b: readonly number[]) => b[0] * (1 - Math.exp(-b[1] * x)),
+    x: [1, 2, 3, 5, 7, 10], y: [109, 149, 149, 191, 213, 224],
+    starts: [[1, 1], [100, 0.75]],
+    b: [2.1380940889e2, 5.4723748542e-1], sd: [1.2354515176e1, 1.0455993237e-1], rss: 1.1680088766e3,
+  },
+  {
+    name: 'Misra1a', model: (x: number, b: readonly number[]) => b[0] * (1 - Math.exp(-b[1] * x)),
+    x: [77.6, 114.9, 141.1, 190.8, 239.9, 289.0, 332.8, 378.4, 434.8, 477.3, 536.8, 593.1, 689.1, 760.0],
+    y: [10.07, 14.73, 17.94, 23.93, 29.61, 35.18, 40.02, 44.82, 50.76, 55.05, 61.01, 66.4, 75.47, 81.78],
+    starts: [[500, 1e-4], [250, 5e-4]],
+    b: [2.3894212918e2, 5.5015643181e-4], sd: [2.7070075241, 7.2668688436e-6], rss: 1.2455138894e-1,
+  },
+];
+
+describe('fitCurve against the NIST StRD nonlinear regression problems', () => {
+  const lines: string[] = [];
+  for (const p of NIST) {
+    p.starts.forEach((start, si) => {
+      it(`${p.name} from start ${si + 1}: LRE >= 6 for every estimate and standard deviation`, () => {
+        const f = fitCurve({ model: p.model, x: p.x, y: p.y, p0: start });
+        const le = f.params.map((v, i) => lre(v, p.b[i]));
+        const ls = f.standardErrors.map((v, i) => lre(v, p.sd[i]));
+        lines.push(`${p.name} start ${si + 1}: estimates ${le.map((v) => v.toFixed(1)).join(' ')}; SDs ${ls.map((v) => v.toFixed(1)).join(' ')}; RSS ${lre(f.residualSS, p.rss).toFixed(1)} (${f.iterations} iterations)`);
+        expect(f.converged).toBe(true);
+        for (const v of [...le, ...ls, lre(f.residualSS, p.rss)]) expect(v).toBeGreaterThanOrEqual(6);
+        if (p.name === 'Misra1a' && si === 1) console.log('NIST LREs\n' + lines.join('\n'));
+      });
+    });
+  }
+});
+
+describe('fitCurve behaviour', () => {
+  it('recovers the parameters that generated noiseless data exactly', () => {
+    const model = (x: number, p: readonly number[]) => p[0] + (p[1] - p[0]) / (1 + Math.exp(p[3] * (x - p[2])));
+    const x = Array.from({ length: 15 }, (_, i) => i / 2);
+    const truth = [0.1, 1.2, 3.3, 1.7];
+    const f = fitCurve({ model, x, y: x.map((v) => model(v, truth)), p0: [0, 1, 3, 1] });
+    f.params.forEach((v, i) => expect(v).toBeCloseTo(truth[i], 8));
+  });
+  it('honours fixed parameters and bounds, and says when a parameter sits at a bound', () => {
+    const model = (x: number, p: readonly number[]) => p[0] * Math.exp(-p[1] * x);
+    const x = [0, 1, 2, 3, 4, 5];
+    const y = x.map((v) => 2 * Math.exp(-0.5 * v));
+    const fx = fitCurve({ model, x, y, p0: [3, 0.1], fixed: [true, false] });
+    expect(fx.params[0]).toBe(3);
+    const fb = fitCurve({ model, x, y, p0: [1, 0.1], upper: [1.5, Infinity], names: ['A', 'k'] });
+    expect(fb.params[0]).toBe(1.5);
+    expect(fb.status.join()).toMatch(/parameter A is at a bound/);
+    expect(trusted(fb)).toBe(false);
+    const few = fitCurve({ model, x: [0, 1, 2], y: [2, 1.2, 0.7], p0: [1, 0.1] });
+    expect(few.status.join()).toMatch(/too few points: 3 for 2 free parameters/);
+  });
+  it('profile-likelihood interval contains the Wald interval centre and is asymmetric for a nonlinear parameter', () => {
+    const p = NIST[2];
+    const f = fitCurve({ model: p.model, x: p.x, y: p.y, p0: p.starts[1] });
+    const [lo, hi] = profileCI(f, 1);
+    expect(lo).toBeLessThan(f.params[1]);
+    expect(hi).toBeGreaterThan(f.params[1]);
+    expect(Math.abs(hi - f.params[1]) - Math.abs(f.params[1] - lo)).not.toBeCloseTo(0, 3);
+  });
+});
