@@ -7,6 +7,9 @@ import { singleSiteVelocity, twoSiteVelocity, regressionVelocity, type VelocityR
 import { toFrame } from '../report/frame';
 import { tableHtml, tableText, displayHtml } from '../notebook/html';
 import { VERSION } from '../version';
+import { doseResponse, type DoseResponseOptions, DoseResponseResult } from '../analysis/doseResponse';
+import { recruitment, RecruitmentResult } from '../analysis/recruitment';
+import { temperatureAnalysis, TemperatureResult } from '../analysis/temperature';
 
 const PER_SWEEP = new Set(['repeat', 'acquiredS', 'fileSweep', 'label', 'file', 'sweep', 'count']);
 
@@ -88,6 +91,21 @@ export class ComponentTable {
       out.push({ ...o, class: g[0].class, threshold: thr, intensityUnit: (g[0].intensityUnit as string) ?? null, levels: levels.length, note: thr === null ? 'not detected at any intensity' : thr === levels[0] ? 'detected at the lowest intensity: threshold may be lower' : null });
     }
     return out;
+  }
+
+  /** Recruitment curves per class (Boltzmann fit in log10 intensity). */
+  recruitment(options: { measure?: string; by?: string[]; supramaximalFactor?: number } = {}): RecruitmentResult {
+    return recruitment(this.rows, this.set.units, options, this.history);
+  }
+
+  /** Blocker dose-response per class with IC50, Hill slope and class comparison. */
+  doseResponse(options: DoseResponseOptions = {}): DoseResponseResult {
+    return doseResponse(this.rows, this.set.units, options, this.history);
+  }
+
+  /** Q10 and activation energy per class (default: of the centroid velocity). */
+  temperature(options: { measure?: string; invert?: boolean } = {}): TemperatureResult {
+    return temperatureAnalysis(this.rows, options, this.history);
   }
 
   toHTML(): string {

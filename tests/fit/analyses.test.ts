@@ -1,0 +1,105 @@
+import { describe, it, expect } from 'vitest';
+import { fitCurve, logLogistic4, activationEnergyFromQ10, q10FromActivationEnergy, q10FromRates, fitTemperature, pairedCompare, model, doseResponse, fitHill } from '../../src';
+import { Rng } from '../../src/model/random';
+
+describe('Hill / four-parameter log-logistic against the ryegrass dataset', () => {
+  // Inderjit, Streibig & Olofsdotter 2002, Physiol Plant 114:422 (dataset in R's drc package, V);
+  // fit values computed with SciPy and matching drc's published output as remembered (C; M).
+  const conc = [0, 0, 0, 0, 0, 0, 0.94, 0.94, 0.94, 1.88, 1.88, 1.88, 3.75, 3.75, 3.75, 7.5, 7.5, 7.5, 15, 15, 15, 30, 30, 30];
+  const len = [7.58, 8.0, 8.3285714, 7.25, 7.375, 7.9625, 8.3555556, 6.9142857, 7.75, 6.8714286, 6.45, 5.9222222, 1.925, 2.8857143, 4.2333333, 1.1875, 0.8571429, 1.0571429, 0.6875, 0.525, 0.825, 0.25, 0.22, 0.44];
+  it('ED50 3.058 mM, slope 2.982, lower 0.4814, upper 7.793 (4 significant digits) and the Wald CI 2.670-3.446', () => {
+    const f = fitCurve({ model: logLogistic4, x: conc, y: len, p0: [1, 0, 8, Math.log(2)] });
+    const [b, c, d, lne] = f.params;
+    const e = Math.exp(lne);
+    expect(Number(b.toPrecision(4))).toBe(2.982);
+    expect(Number(c.toPrecision(4))).toBe(0.4814);
+    expect(Number(d.toPrecision(4))).toBe(7.793);
+    expect(Number(e.toPrecision(4))).toBe(3.058);
+    expect(f.residualSS).toBeCloseTo(5.40021, 4);
+    expect(f.sigma).toBeCloseTo(0.51963, 4);
+    // SE of e by the delta method from SE(ln e): e x SE(ln e) = 0.1858 (C)
+    const seE = e * f.standardErrors[3];
+    expect(seE).toBeCloseTo(0.1858, 3);
+    expect(f.standardErrors[0]).toBeCloseTo(0.4584, 3);
+    expect(f.standardErrors[1]).toBeCloseTo(0.2095, 3);
+    expect(f.standardErrors[2]).toBeCloseTo(0.1897, 3);
+    const t = 2.0859634472658644; // t(0.975, 20), scipy.stats.t.ppf
+    expect(e - t * seE).toBeCloseTo(2.670, 3);
+    expect(e + t * seE).toBeCloseTo(3.446, 3);
+  });
+});
+
+describe('confidence-interval coverage (seeded simulation)', () => {
+  it('95% CIs of the Hill IC50 cover the truth in 90-99% of 400 noisy replicates', () => {
+    const rng = new Rng(2024);
+    const truth = [1.3, 0.05, 1, Math.log(20)];
+    const x = [1, 3, 10, 30, 100, 300, 1, 3, 10, 30, 100, 300];
+    let cover = 0;
+    for (let r = 0; r < 400; r++) {
+      const y = x.map((c) => logLogistic4(c, truth) + 0.04 * rng.normal());
+      const f = fitCurve({ model: logLogistic4, x, y, p0: [1, 0, 1, Math.log(30)], fixed: [false, false, true, false] });
+      if (f.ci[3][0] <= truth[3] && truth[3] <= f.ci[3][1]) cover++;
+    }
+    console.log(`IC50 95% CI coverage: ${cover}/400`);
+    expect(cover / 400).toBeGreaterThanOrEqual(0.9);
+    expect(cover / 400).toBeLessThanOrEqual(0.99);
+  });
+});
+
+describe('Q10 and Arrhenius conversions (../shared/REFERENCES.md, C)', () => {
+  it('Q10 = 3 over 6.3 -> 16.3 C is Ea = 73.89 kJ/mol; Q10 = 1.4 over 25 -> 35 C is 25.70 kJ/mol', () => {
+    expect(activationEnergyFromQ10(3, 6.3, 16.3) / 1000).toBeCloseTo(73.89, 2);
+    expect(activationEnergyFromQ10(1.4, 25, 35) / 1000).toBeCloseTo(25.7, 2);
+    expect(q10FromActivationEnergy(73890, 6.3, 16.3)).toBeCloseTo(3, 3);
+    expect(q10FromRates(10, 20, 30, 30)).toBeCloseTo(3, 12);
+  });
+  it('fitTemperature recovers a known Q10 from noiseless rates, with preparation-specific levels', () => {
+    const pts = [];
+    for (const [prep, base] of [['a', 10], ['b', 14], ['c', 8]] as const) for (const T of [25, 29, 33, 37]) pts.push({ preparation: prep, temperatureC: T, value: base * Math.pow(1.45, (T - 37) / 10) * (1 + 0.001 * Math.sin(T)) });
+    const f = fitTemperature(pts);
+    expect(f.q10).toBeCloseTo(1.45, 2);
+    expect(f.q10Ci95[0]).toBeLessThan(1.45);
+    expect(f.q10Ci95[1]).toBeGreaterThan(1.45);
+  });
+});
+
+describe('paired comparison', () => {
+  it('paired t test and Wilcoxon signed rank against scipy.stats', () => {
+    // scipy.stats.ttest_rel(after, before) -> t = 3.7962830118264823, p = 0.012676602478014503 (SciPy 1.17, run here)
+    // scipy.stats.wilcoxon(after - before) -> statistic 0 (smaller rank sum), p = 0.03125 (exact)
+    const r = pairedCompare([1, 2, 3, 4, 5, 6], [1.5, 2.9, 3.2, 4.8, 5.1, 7.0]);
+    expect(r.t).toBeCloseTo(3.7962830118264823, 10);
+    expect(r.pT).toBeCloseTo(0.012676602478014503, 9);
+    expect(r.pWilcoxon).toBeCloseTo(0.03125, 6);
+  });
+});
+
+describe('dose-response on the forward model (known IC50 per class)', () => {
+  it('recovers each class IC50 within a factor of 1.5 and ranks C as more sensitive than A', () => {
+    const nerve = model.rodentSciatic();
+    const concs = [0, 1, 3, 10, 30, 100, 300];
+    const rows: Record<string, string | number | boolean | null>[] = [];
+    const preps = ['P1', 'P2', 'P3', 'P4'];
+    preps.forEach((prep, pi) => {
+      const sweeps = concs.flatMap((c) => [0, 1, 2].map((r) => ({ intensity: 50, distanceMm: 25, temperatureC: 37, concentration: c, conditions: { preparation: prep, repeat: r, concentrationUnit: 'uM' } })));
+      const set = model.simulateNerve({ model: nerve, seed: 100 + pi, grid: { fs: 50000, t0Ms: -2, nSamples: 3000 }, sweeps, nuisance: { noiseUv: 4 } }).baseline();
+      rows.push(...(set.components().rows as never[]));
+    });
+    const dr = doseResponse(rows, 'uV');
+    for (const cls of ['A-alpha/beta', 'A-delta', 'C']) {
+      const s = dr.summary.find((r) => r.class === cls)!;
+      const truth = nerve.populations.find((p) => p.name === cls)!.ic50;
+      expect((s.ic50 as number) / truth).toBeGreaterThan(1 / 1.5);
+      expect((s.ic50 as number) / truth).toBeLessThan(1.5);
+      expect(s.ic50_ci95_low as number).toBeLessThan(s.ic50 as number);
+    }
+    const cmp = dr.comparisons.find((r) => r.classA === 'A-alpha/beta' && r.classB === 'C')!;
+    expect(cmp.p as number).toBeLessThan(0.05);
+    console.log(String(dr));
+  });
+  it('flags an IC50 outside the tested range', () => {
+    const x = [1, 3, 10, 30];
+    const f = fitHill(x, x.map((c) => 1 / (1 + c / 1000)), null);
+    expect(Math.exp(f.params[3])).toBeGreaterThan(30);
+  });
+});
