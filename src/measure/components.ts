@@ -6,8 +6,9 @@
  * with its late end extended by `tailFraction` of its width (a fiber's potential
  * lasts after its arrival). Where neighbouring windows overlap, the boundary
  * follows the signal: the trough (smallest polarity-corrected value, after light
- * smoothing) between the two classes' peaks. Every class is then measured in its
- * window (measure/response.ts).
+ * smoothing) between the two classes' peaks, and the slower class is measured above
+ * the level of that trough (so the tail of the faster wave is not counted as part of
+ * it). Every class is then measured in its window (measure/response.ts).
  */
 import type { SweepSet, ConditionValue } from '../sweeps/SweepSet';
 import { OptionError, AnalysisError } from '../errors';
@@ -142,6 +143,8 @@ export function measureComponents(set: SweepSet, options: ComponentOptions = {})
       return [Math.max(t0, earliest), t1 + Math.max(tailMs, tailFraction * (t1 - t0))] as [number, number];
     });
     const idx = wins.map(([a, b]) => [Math.max(set.indexAt(a), set.indexAt(earliest)), set.indexAt(b)] as [number, number]);
+    // level of the trough that starts a class overlapped by a faster one (0 when none)
+    const floor = new Float64Array(classes.length);
     // boundaries follow the trough between neighbouring classes' peaks
     for (let c = 0; c + 1 < idx.length; c++) {
       const [a1, b1] = idx[c];
@@ -161,6 +164,7 @@ export function measureComponents(set: SweepSet, options: ComponentOptions = {})
       }
       idx[c][1] = Math.max(a1 + 2, Math.min(b1, trough));
       idx[c + 1][0] = Math.min(b2 - 2, Math.max(a2, trough));
+      floor[c + 1] = Math.max(0, polarity * smooth[idx[c + 1][0]]) * polarity;
     }
     const ms: ResponseMeasure[] = [];
     classes.forEach((c, ci) => {
@@ -171,7 +175,13 @@ export function measureComponents(set: SweepSet, options: ComponentOptions = {})
         ms.push(null as unknown as ResponseMeasure);
         return;
       }
-      const m = measureResponse(x, a, b, noise, k, polarity);
+      // an overlapped class is measured above the trough that separates it from the faster class
+      let xs: Float64Array = x;
+      if (floor[ci] !== 0) {
+        xs = Float64Array.from(x);
+        for (let i = a; i <= b; i++) xs[i] -= floor[ci];
+      }
+      const m = measureResponse(xs, a, b, noise, k, polarity);
       // an onset is only an onset when the signal starts below the level inside the window
       const onsetOk = m.detected && m.onsetIndex > a;
       ms.push(m);
@@ -188,6 +198,7 @@ export function measureComponents(set: SweepSet, options: ComponentOptions = {})
         window_start_ms: t(a),
         window_end_ms: t(b),
         [`noise_${u}`]: noise,
+        [`trough_level_${u}`]: floor[ci],
         onset_ms: onsetOk ? t(m.onsetIndex) : null,
         peak_ms: t(m.peakIndex),
         centroid_ms: m.detected ? t(m.centroidIndex) : null,

@@ -26,13 +26,19 @@ export class ComponentTable {
   readonly resolved: ResolvedComponentOptions;
   readonly history: readonly Step[];
 
-  constructor(set: SweepSet, options: ComponentOptions = {}) {
-    const r = measureComponents(set, options);
+  constructor(set: SweepSet, options: ComponentOptions = {}, precomputed?: { rows: readonly ComponentRow[]; measures: ResponseMeasure[][]; resolved: ResolvedComponentOptions; history: readonly Step[] }) {
+    const r = precomputed ?? measureComponents(set, options);
     this.rows = r.rows;
     this.measures = r.measures;
     this.resolved = r.resolved;
     this.set = set;
-    this.history = [...set.history, componentStep(r.resolved)];
+    this.history = precomputed ? precomputed.history : [...set.history, componentStep(r.resolved)];
+  }
+
+  /** The rows matching a predicate (or condition values), as a table over the same sweeps. */
+  subset(match: ((r: ComponentRow) => boolean) | Record<string, ConditionValue>): ComponentTable {
+    const pred = typeof match === 'function' ? match : (r: ComponentRow) => Object.entries(match).every(([k, v]) => r[k] === v);
+    return new ComponentTable(this.set, {}, { rows: this.rows.filter(pred), measures: this.measures, resolved: this.resolved, history: this.history });
   }
 
   /** The class names, fastest first. */
@@ -103,8 +109,25 @@ export class ComponentTable {
     return doseResponse(this.rows, this.set.units, options, this.history);
   }
 
-  /** Q10 and activation energy per class (default: of the centroid velocity). */
+  /**
+   * Q10 and activation energy per class. Default: of the conduction velocity from the
+   * regression of centroid latency on distance at each temperature when every
+   * temperature has two or more distances (free of the single-fiber waveform's own
+   * temperature dependence); otherwise of the single-site centroid velocity. Give
+   * `measure` (a column) to analyse amplitude, latency or duration instead.
+   */
   temperature(options: { measure?: string; invert?: boolean } = {}): TemperatureResult {
+    if (!options.measure) {
+      const keyOf = (r: ComponentRow) => `${r.preparation ?? ''}|${r.temperatureC}`;
+      const dists = new Map<string, Set<unknown>>();
+      for (const r of this.rows) (dists.get(keyOf(r)) ?? dists.set(keyOf(r), new Set()).get(keyOf(r))!).add(r.distance_mm);
+      if (dists.size > 0 && [...dists.values()].every((s) => s.size >= 2)) {
+        const by = ['preparation', 'temperatureC'].filter((k) => this.set.conditions.some((c) => k in c));
+        const v = this.velocity({ by }).get('regression', 'centroid');
+        const rows = v.map((r) => ({ ...r, regression_velocity_m_s: r.velocity_m_s, detected: true }));
+        return temperatureAnalysis(rows, { measure: 'regression_velocity_m_s' }, this.history);
+      }
+    }
     return temperatureAnalysis(this.rows, options, this.history);
   }
 
