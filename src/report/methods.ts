@@ -1,0 +1,90 @@
+/** Methods text written from the history of steps: plain English, with references. */
+import type { Step } from '../sweeps/SweepSet';
+import { VERSION } from '../version';
+
+const REFS: Record<string, string> = {
+  butterworth: 'Butterworth S (1930) On the theory of filter amplifiers. Wireless Engineer 7:536-541.',
+  gustafsson: 'Gustafsson F (1996) Determining the initial states in forward-backward filtering. IEEE Trans Signal Process 44:988-992.',
+  mad: 'Rousseeuw PJ, Croux C (1993) Alternatives to the median absolute deviation. J Am Stat Assoc 88:1273-1283.',
+  classes: 'Erlanger-Gasser fiber classes as tabulated by J. A. Kiernan (table of nerve fibre types, University of Western Ontario).',
+  hill: 'Hill AV (1910) The possible effects of the aggregation of the molecules of haemoglobin on its dissociation curves. J Physiol 40:iv-vii.',
+  drc: 'Ritz C, Baty F, Streibig JC, Gerhard D (2015) Dose-response analysis using R. PLoS ONE 10:e0146021.',
+  lm: 'Marquardt DW (1963) An algorithm for least-squares estimation of nonlinear parameters. J Soc Ind Appl Math 11:431-441.',
+  bates: 'Bates DM, Watts DG (1988) Nonlinear Regression Analysis and Its Applications. Wiley.',
+  arrhenius: 'Arrhenius S (1889) Uber die Reaktionsgeschwindigkeit bei der Inversion von Rohrzucker durch Sauren. Z Phys Chem 4:226-248.',
+  sines: 'Kay SM (1993) Fundamentals of Statistical Signal Processing: Estimation Theory. Prentice Hall.',
+};
+
+const fmtW = (w: unknown) => (Array.isArray(w) ? `${w[0]} to ${w[1]} ms` : String(w));
+const ord = (n: number) => `${n}${n % 10 === 1 && n !== 11 ? 'st' : n % 10 === 2 && n !== 12 ? 'nd' : n % 10 === 3 && n !== 13 ? 'rd' : 'th'}`;
+
+/** A methods paragraph (and reference list) for a history of steps. */
+export function methodsText(history: readonly Step[], extra: { files?: number; preparations?: number } = {}): string {
+  const s: string[] = [];
+  const refs = new Set<string>();
+  for (const h of history) {
+    const o = h.options as Record<string, any>; // eslint-disable-line @typescript-eslint/no-explicit-any
+    switch (h.verb) {
+      case 'readManifest':
+        s.push(`Recordings were loaded from ${extra.files ?? o.files} files listed in a study manifest${o.study ? ` ("${o.study}")` : ''}${extra.preparations ? `, from ${extra.preparations} preparations` : ''}, each sweep with its experimental conditions.`);
+        break;
+      case 'baseline':
+        s.push(`Each sweep was baseline-corrected by subtracting the ${o.method} of the pre-stimulus window (${fmtW(o.window)} relative to the stimulus)${o.lateWindow ? `, with a linear detrend to the level of a late quiet window (${fmtW(o.lateWindow)})` : ''}.`);
+        break;
+      case 'removeArtifact':
+        if (o.method === 'blank') s.push(`The stimulus artifact was removed by blanking ${fmtW(o.window)} after the stimulus and bridging the gap by ${o.bridge === 'linear' ? 'linear interpolation' : 'cubic Hermite interpolation'}.`);
+        else if (o.method === 'template') s.push(`The stimulus artifact was removed by subtracting a template averaged from sub-threshold sweeps of the same ${(o.templateBy ?? []).join(', ') || 'set'}, scaled to each sweep ${o.scaling === 'fit' ? `by least squares over ${fmtW(o.fitWindow)}` : 'in proportion to stimulus intensity'}.`);
+        else if (o.method === 'exponential') s.push(`The stimulus artifact was removed by fitting and subtracting a single exponential to its tail (${fmtW(o.tailWindow)}) and bridging ${fmtW(o.window)}.`);
+        else s.push('The stimulus artifact was cancelled by averaging pairs of sweeps recorded with opposite stimulus polarity.');
+        break;
+      case 'alignStimulus':
+        s.push(`The stimulus time was found from the artifact (steepest step) and set to 0 ms.`);
+        break;
+      case 'removeHum':
+        s.push(`Mains interference was removed by fitting and subtracting, per sweep, sinusoids at ${o.fittedFrequencyHz} Hz and its harmonics up to the ${ord(o.harmonics)} by linear least squares${o.exclude?.length ? `, leaving ${o.exclude.map(fmtW).join(' and ')} out of the fit` : ''} (Kay 1993).`);
+        refs.add(REFS.sines);
+        break;
+      case 'notch':
+        s.push(`A second-order IIR notch at ${o.frequency} Hz (Q = ${o.Q}) was applied forwards and backwards.`);
+        break;
+      case 'filter': {
+        const cut = Array.isArray(o.cutoff) ? `${o.cutoff[0]}-${o.cutoff[1]} Hz` : `${o.cutoff} Hz`;
+        s.push(`Sweeps were ${o.btype === 'lowpass' ? 'low-pass' : o.btype === 'highpass' ? 'high-pass' : o.btype === 'bandpass' ? 'band-pass' : 'band-stop'} filtered with a ${ord(o.order)}-order Butterworth filter (cutoff ${cut}; Butterworth 1930) applied forwards and backwards for zero phase shift (effective order ${2 * o.order}), with odd-extension padding of ${o.padlen} samples and steady-state initial conditions (Gustafsson 1996).`);
+        refs.add(REFS.butterworth); refs.add(REFS.gustafsson);
+        break;
+      }
+      case 'decimate':
+        s.push(`Sweeps were down-sampled by ${o.factor} after a zero-phase ${ord(o.order)}-order Butterworth anti-alias filter at ${Number(o.cutoffHz).toFixed(0)} Hz.`);
+        break;
+      case 'average':
+        s.push(`Sweeps were averaged (${o.method}) within groups of equal ${(o.by ?? []).join(', ')}.`);
+        break;
+      case 'components': {
+        const cls = (o.classes as { name: string; velocity: number[] }[]).map((c) => `${c.name} ${c.velocity[0]}-${c.velocity[1]} m/s`).join(', ');
+        s.push(`Fiber-class components were identified in latency windows computed from the conduction distance and the velocity ranges of each class (${cls}; ${o.presetSource}), scaled to the bath temperature with Q10 = ${o.q10} from ${o.refTemperatureC} C, with a utilisation time of ${o.utilisationMs} ms; each window's late end was extended by ${o.tailFraction} of its width (at least ${o.tailMs} ms). Where windows of neighbouring classes overlapped, the boundary was placed at the trough between the two components and the slower component was measured above the trough level. Noise was estimated as 1.4826 times the median absolute deviation of ${fmtW(o.noiseWindow)} (Rousseeuw & Croux 1993); a component counted as present when its smoothed peak exceeded max(${o.k}, z) times the noise, with z the normal quantile at 1 - 0.01/N for a window of N samples. Onset latency was the interpolated crossing of ${o.k} times the noise leading into the peak; peak latency and amplitude were refined by parabolic interpolation; the centroid latency was the centre of mass of the component between onset and offset.`);
+        refs.add(REFS.classes); refs.add(REFS.mad);
+        break;
+      }
+      case 'velocity':
+        s.push('Conduction velocity was computed per class as distance divided by latency (single site; onset, peak and centroid latencies), as the distance between two recording sites divided by the delay between them (delay from cross-correlation of the class component with parabolic sub-sample refinement, and from matched onsets, peaks and centroids), and as the inverse slope of latency regressed on distance over all sweeps, whose intercept estimates the utilisation time; 95% confidence intervals are t-based over sweeps or from the regression.');
+        break;
+      case 'recruitment':
+        s.push(`Recruitment curves (component amplitude against stimulus intensity) were fitted with a Boltzmann sigmoid in log10 intensity by the Levenberg-Marquardt method (Marquardt 1963); the threshold was taken where the fit reaches ${100 * o.thresholdFraction}% of its range and the supramaximal intensity as ${o.supramaximalFactor} times the intensity reaching 95% of the maximum.`);
+        refs.add(REFS.lm);
+        break;
+      case 'doseResponse':
+        s.push(`For dose-response analysis the steady-state response at each concentration (mean of the last ${o.lastN} sweeps) was normalised to the preparation's own pre-drug baseline${o.runDown === 'washout' ? ', corrected for run-down by linear interpolation between baseline and washout' : ''}, and fitted per preparation and class with the four-parameter log-logistic (Hill) model (Hill 1910; Ritz et al. 2015) with the top fixed at 1${o.fixBottom === null ? ' and the bottom free' : ` and the bottom fixed at ${o.fixBottom}`}, by the Levenberg-Marquardt method. IC50 values were combined across preparations as the mean of log10 IC50 with a t-based 95% confidence interval (preparations, not sweeps, as replicates); a pooled fit over all preparations gave a profile-likelihood interval (Bates & Watts 1988)${o.bootstrap ? ` and a bootstrap interval over preparations (${o.bootstrap} resamples)` : ''}. Classes were compared with the extra-sum-of-squares F test of a shared IC50.`);
+        refs.add(REFS.hill); refs.add(REFS.drc); refs.add(REFS.lm); refs.add(REFS.bates);
+        break;
+      case 'temperature':
+        const what = o.measure === 'regression_velocity_m_s' ? 'conduction velocity, itself from the regression of centroid latency on distance at each temperature' : String(o.measure).replace(/_/g, ' ');
+        s.push(`Temperature dependence was summarised as Q10 from the regression of the logarithm of ${what} on temperature and as the Arrhenius activation energy from the regression on the inverse absolute temperature (Arrhenius 1889), each with preparation-specific intercepts and a t-based 95% confidence interval.`);
+        refs.add(REFS.arrhenius);
+        break;
+      default:
+        break;
+    }
+  }
+  s.push(`Analyses were run with fascicle ${VERSION}.`);
+  return s.join(' ') + (refs.size ? '\n\nReferences\n' + [...refs].sort().join('\n') : '') + '\n';
+}

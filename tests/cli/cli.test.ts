@@ -1,0 +1,93 @@
+import { describe, it, expect, beforeAll } from 'vitest';
+import { spawnSync } from 'node:child_process';
+import { cpSync, mkdtempSync, readFileSync, writeFileSync, existsSync, readdirSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { writeBundle, setBeforeWrite, csvCell, toCsv } from '../../src/report/bundle';
+
+const root = join(__dirname, '..', '..');
+const cliPath = join(root, 'dist', 'cli', 'main.js');
+const run = (args: string[]) => spawnSync(process.execPath, [cliPath, ...args], { encoding: 'utf8' });
+const work = mkdtempSync(join(tmpdir(), 'fascicle-cli-'));
+
+describe('fascicle command line', () => {
+  beforeAll(() => {
+    // a private copy of the demo study (tests edit inputs)
+    cpSync(join(root, 'data-demo'), join(work, 'study'), { recursive: true });
+  });
+  it('--help for every command, usage errors exit 2', () => {
+    for (const c of [['--help'], ['run', '--help'], ['merge', '--help'], ['rerun', '--help']]) {
+      const r = run(c);
+      expect(r.status).toBe(0);
+      expect(r.stdout).toMatch(/fascicle/);
+    }
+    expect(run(['frobnicate']).status).toBe(2);
+    expect(run(['run', 'x.json']).stderr).toMatch(/needs --out/);
+    expect(run(['run', 'x.json', '--out', 'o', '--jobs', 'zero']).status).toBe(2);
+    expect(run(['run', 'x.json', '--out', 'o', '--shard', '3/2']).status).toBe(2);
+  });
+  it('a missing manifest exits 3 and names the file', () => {
+    const r = run(['run', join(work, 'nope.json'), '--out', join(work, 'o')]);
+    expect(r.status).toBe(3);
+    expect(r.stderr).toMatch(/nope\.json: cannot open file/);
+  });
+  it('runs the study, shards merge to the unsharded bundle, and a rerun reproduces every table', () => {
+    const m = join(work, 'study', 'manifest.json');
+    const full = join(work, 'full');
+    const r = run(['run', m, '--out', full, '--quiet', '--no-figures']);
+    expect(r.status, r.stderr).toBe(0);
+    expect(r.stdout).toMatch(/bundle written to/);
+    for (const i of [1, 2, 3]) expect(run(['run', m, '--out', join(work, `s${i}`), '--shard', `${i}/3`, '--quiet']).status).toBe(0);
+    const mr = run(['merge', join(work, 's1'), join(work, 's2'), join(work, 's3'), '--out', join(work, 'merged')]);
+    expect(mr.status, mr.stderr).toBe(0);
+    for (const f of readdirSync(join(full, 'tables'))) expect(readFileSync(join(work, 'merged', 'tables', f), 'utf8'), f).toBe(readFileSync(join(full, 'tables', f), 'utf8'));
+    const j2 = join(work, 'jobs2');
+    expect(run(['run', m, '--out', j2, '--quiet', '--jobs', '2', '--no-figures']).status).toBe(0);
+    for (const f of readdirSync(join(full, 'tables'))) expect(readFileSync(join(j2, 'tables', f), 'utf8'), f).toBe(readFileSync(join(full, 'tables', f), 'utf8'));
+    const rr = run(['rerun', full]);
+    expect(rr.status, rr.stderr).toBe(0);
+    expect(rr.stdout).toMatch(/reproduced 11 tables exactly/);
+    // edit one byte of one input: the rerun names that file
+    const victim = join(work, 'study', 'R2-distance.csv');
+    const b = readFileSync(victim);
+    b[b.length - 3] = b[b.length - 3] === 0x31 ? 0x32 : 0x31;
+    writeFileSync(victim, b);
+    const bad = run(['rerun', full]);
+    expect(bad.status).toBe(3);
+    expect(bad.stderr).toMatch(/R2-distance\.csv: the input file has changed/);
+    const prov = JSON.parse(readFileSync(join(full, 'provenance.json'), 'utf8'));
+    expect(prov.inputs.length).toBe(25);
+    expect(prov.steps.map((s: { verb: string }) => s.verb)).toEqual(expect.arrayContaining(['readManifest', 'baseline', 'removeArtifact', 'removeHum', 'filter', 'components']));
+    const methods = readFileSync(join(full, 'methods.txt'), 'utf8');
+    expect(methods).toMatch(/4th-order Butterworth filter \(cutoff 10000 Hz/);
+    expect(methods).toMatch(/zero phase/);
+    expect(methods).toMatch(/Hill 1910/);
+  });
+});
+
+describe('bundle safety', () => {
+  it('neutralises spreadsheet formulas and keeps hostile labels inert', () => {
+    expect(csvCell('=HYPERLINK("x")')).toBe(`"'=HYPERLINK(""x"")"`);
+    expect(csvCell('+1+1')).toBe("'+1+1");
+    expect(csvCell('-cmd')).toBe("'-cmd");
+    expect(csvCell('@SUM(A1)')).toBe("'@SUM(A1)");
+    expect(csvCell(-1.5)).toBe('-1.5');
+    expect(toCsv([{ label: '<img src=x onerror=alert(1)>', v: 1 }])).toBe('label,v\n<img src=x onerror=alert(1)>,1\n');
+  });
+  it('an export that fails midway leaves the old bundle untouched, or none', () => {
+    const dir = join(work, 'atomic');
+    writeBundle(dir, { tables: { a: [{ x: 1 }] }, methods: 'old', provenance: { package: 'fascicle', version: '0', node: '', inputs: [], steps: [] } });
+    let n = 0;
+    setBeforeWrite(() => { if (++n === 3) throw new Error('disk full (simulated)'); });
+    expect(() => writeBundle(dir, { tables: { a: [{ x: 2 }], b: [{ y: 1 }] }, methods: 'new', provenance: { package: 'fascicle', version: '0', node: '', inputs: [], steps: [] } })).toThrow(/disk full/);
+    setBeforeWrite(null);
+    expect(readFileSync(join(dir, 'methods.txt'), 'utf8')).toBe('old');
+    expect(existsSync(join(dir, 'tables', 'b.csv'))).toBe(false);
+    expect(readdirSync(work).filter((f) => f.includes('.tmp-'))).toEqual([]);
+    const fresh = join(work, 'fresh');
+    setBeforeWrite(() => { throw new Error('fail'); });
+    expect(() => writeBundle(fresh, { tables: {}, methods: 'x', provenance: { package: 'fascicle', version: '0', node: '', inputs: [], steps: [] } })).toThrow();
+    setBeforeWrite(null);
+    expect(existsSync(fresh)).toBe(false);
+  });
+});
