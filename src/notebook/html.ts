@@ -58,7 +58,7 @@ export function tslabDisplay(): { html(s: string): void; newDisplay?: () => unkn
     // tslab's display only works inside its kernel; it throws or no-ops elsewhere
     // eslint-disable-next-line @typescript-eslint/no-var-requires
     const t = require('tslab');
-    if (t && t.display && isKernel()) cached = { ...t.display, newDisplay: t.newDisplay };
+    if (t && t.display && isKernel()) cached = { html: (s: string) => t.display.html(s), newDisplay: () => t.newDisplay() };
   } catch {
     cached = null;
   }
