@@ -1,6 +1,6 @@
 import type { SweepSet } from '../sweeps/SweepSet';
 import { butter, iirnotch, type BType, type Sos } from '../signal/butter';
-import { defaultPadlen, filtfiltWork, sosfiltfilt } from '../signal/sosfilt';
+import { defaultPadlen, filtfiltWork, sosfiltfilt, sosfiltfiltPair } from '../signal/sosfilt';
 import { integerIn, oneOf, positive } from '../validate';
 
 export interface FilterOptions {
@@ -20,9 +20,12 @@ export function applySos(set: SweepSet, sos: Sos, padlen: number): Float64Array 
   const n = set.nSamples;
   const out = new Float64Array(set.data.length);
   const work = filtfiltWork(sos, n, padlen);
-  for (let s = 0; s < set.nSweeps; s++) {
-    sosfiltfilt(sos, set.data.subarray(s * n, (s + 1) * n), { padlen, work, out: out.subarray(s * n, (s + 1) * n) });
-  }
+  const work2 = filtfiltWork(sos, n, padlen);
+  const sw = (s: number) => set.data.subarray(s * n, (s + 1) * n);
+  const ow = (s: number) => out.subarray(s * n, (s + 1) * n);
+  let s = 0;
+  for (; s + 1 < set.nSweeps; s += 2) sosfiltfiltPair(sos, sw(s), sw(s + 1), ow(s), ow(s + 1), work, work2, padlen);
+  if (s < set.nSweeps) sosfiltfilt(sos, sw(s), { padlen, work, out: ow(s) });
   return out;
 }
 
