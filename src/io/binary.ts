@@ -86,8 +86,10 @@ export function readBinary(sidecarPath: string, extra: { conditions?: Conditions
   if (bytes.length !== expectBytes) {
     throw new InputError({ file: dataPath }, `the file has ${bytes.length} bytes`, `${expectBytes} bytes = ${nSweeps} sweeps x ${nSamples} samples x ${nCh} channels x ${w} bytes (${meta.dtype}) from ${sidecarPath}`);
   }
-  const out = new Float64Array(nSweeps * nSamples);
   const little = order === 'little';
+  const zeroCopy = meta.dtype === 'float64' && layout === 'sweep-major' && nCh === 1 && gain === 1 && offset === 0 && little === (new Uint8Array(new Uint16Array([1]).buffer)[0] === 1) && bytes.byteOffset % 8 === 0;
+  // float64, native order, one channel, no scaling: the file's bytes are the samples (no copy)
+  const out = zeroCopy ? new Float64Array(bytes.buffer, bytes.byteOffset, nSweeps * nSamples) : new Float64Array(nSweeps * nSamples);
   const native = new Uint8Array(new Uint16Array([1]).buffer)[0] === 1;
   let src: ArrayLike<number>;
   if (little === native) {
@@ -102,7 +104,7 @@ export function readBinary(sidecarPath: string, extra: { conditions?: Conditions
     src = arr;
   }
   const identity = gain === 1 && offset === 0;
-  for (let s = 0; s < nSweeps; s++) {
+  for (let s = 0; s < nSweeps && !zeroCopy; s++) {
     const o = s * nSamples;
     if (layout === 'sweep-major') {
       const b = (s * nCh + ch) * nSamples;

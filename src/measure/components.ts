@@ -7,8 +7,8 @@
  * lasts after its arrival). Where neighbouring windows overlap, the boundary
  * follows the signal: the trough (smallest polarity-corrected value, after light
  * smoothing) between the two classes' peaks, and the slower class is measured above
- * the level of that trough (so the tail of the faster wave is not counted as part of
- * it). Every class is then measured in its window (measure/response.ts).
+ * a straight line from that trough to the level at the window's end (so the tail of
+ * the faster wave is not counted as part of it). Every class is then measured in its window (measure/response.ts).
  */
 import type { SweepSet, ConditionValue } from '../sweeps/SweepSet';
 import { OptionError, AnalysisError } from '../errors';
@@ -178,8 +178,10 @@ export function measureComponents(set: SweepSet, options: ComponentOptions = {})
       // an overlapped class is measured above the trough that separates it from the faster class
       let xs: Float64Array = x;
       if (floor[ci] !== 0) {
+        // a straight line from the trough to the window's end level (the faster wave's tail decays under the slower one)
         xs = Float64Array.from(x);
-        for (let i = a; i <= b; i++) xs[i] -= floor[ci];
+        const endLevel = polarity * smooth[b] > 0 ? smooth[b] : 0;
+        for (let i = a; i <= b; i++) xs[i] -= floor[ci] + ((endLevel - floor[ci]) * (i - a)) / Math.max(1, b - a);
       }
       const m = measureResponse(xs, a, b, noise, k, polarity);
       // an onset is only an onset when the signal starts below the level inside the window

@@ -62,6 +62,15 @@ best = Infinity;
 let bset;
 for (let k = 0; k < 5; k++) { const x = timed(() => f.readBinary(join(dir, 'big.json'))); if (x.t < best) { best = x.t; bset = x.r; } }
 line(`binary float32 ${mb(binBytes)} MB`, `${(binBytes / 1e6 / best).toFixed(0)} MB/s, ${(S * N / best / 1e6).toFixed(0)} M samples/s (${targetNote(binBytes / 1e9 / best >= 1)})`);
+{
+  const a = new Float64Array(S * N);
+  for (let s = 0; s < S; s++) for (let i = 0; i < N; i++) a[s * N + i] = sample(s, i);
+  writeFileSync(join(dir, 'big64.bin'), new Uint8Array(a.buffer));
+  writeFileSync(join(dir, 'big64.json'), JSON.stringify({ data: 'big64.bin', dtype: 'float64', nSweeps: S, nSamples: N, fs, t0Ms: -2, units: 'uV' }));
+  let b64 = Infinity;
+  for (let k = 0; k < 5; k++) { const x = timed(() => f.readBinary(join(dir, 'big64.json'))); b64 = Math.min(b64, x.t); }
+  line(`binary float64 ${mb(S * N * 8)} MB`, `${(S * N * 8 / 1e6 / b64).toFixed(0)} MB/s, ${(S * N / b64 / 1e6).toFixed(0)} M samples/s (${targetNote(S * N * 8 / 1e9 / b64 >= 1)})`);
+}
 line('peak RSS after loading', `${mb(process.memoryUsage().rss)} MB`);
 
 console.log('\n== conditioning: 4th-order zero-phase low-pass + baseline + template artifact subtraction');
