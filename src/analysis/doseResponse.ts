@@ -14,6 +14,9 @@
  *    bootstrap over preparations.
  * 5. Classes compared by the extra-sum-of-squares F test of a shared IC50.
  */
+import { provenanceOf, methodsOf, exportResult } from '../report/describe';
+import type { Provenance } from '../report/bundle';
+import type { Source } from '../sweeps/SweepSet';
 import { inspect } from 'node:util';
 import type { ConditionValue, Step } from '../sweeps/SweepSet';
 import { fitCurve, profileCI, extraSumOfSquaresF, trusted, type FitResult } from '../fit/lm';
@@ -78,7 +81,20 @@ export class DoseResponseResult {
     readonly comparisons: Row[],
     readonly fits: Map<string, FitResult>,
     readonly history: readonly Step[],
+    readonly sources: readonly Source[] = [],
   ) {}
+  provenance(): Provenance {
+    return provenanceOf(this);
+  }
+
+  methods(): string {
+    return methodsOf(this);
+  }
+
+  exportBundle(dir: string): string[] {
+    return exportResult(dir, this, { dose_response_summary: this.summary, dose_response_per_preparation: this.perPreparation, dose_response_points: this.points, dose_response_comparisons: this.comparisons });
+  }
+
   frame(which: 'summary' | 'perPreparation' | 'points' | 'comparisons' = 'summary'): import('danfojs-node').DataFrame {
     return toFrame((which === 'points' ? this.points : this[which]) as unknown as Record<string, unknown>[]);
   }
@@ -97,7 +113,7 @@ export class DoseResponseResult {
 }
 
 /** Dose-response analysis of a component table's rows (or any rows with the same columns). */
-export function doseResponse(rows: readonly Row[], units: string, options: DoseResponseOptions = {}, history: readonly Step[] = []): DoseResponseResult {
+export function doseResponse(rows: readonly Row[], units: string, options: DoseResponseOptions = {}, history: readonly Step[] = [], sources: readonly Source[] = []): DoseResponseResult {
   const lastN = options.lastN ?? doseResponseDefaults.lastN;
   if (!Number.isInteger(lastN) || lastN < 1) throw new OptionError(`invalid lastN: ${lastN}; must be an integer >= 1`);
   const runDown = options.runDown ?? doseResponseDefaults.runDown;
@@ -204,7 +220,7 @@ export function doseResponse(rows: readonly Row[], units: string, options: DoseR
     const F = extraSumOfSquaresF(joint.residualSS, joint.df, full, dfFull);
     comparisons.push({ classA: classes[i], classB: classes[j], ic50A: Math.exp(fa.params[3]), ic50B: Math.exp(fb.params[3]), ratio: Math.exp(fb.params[3] - fa.params[3]), F: F.F, df1: F.df1, df2: F.df2, p: F.p, conclusion: F.p < 0.05 ? 'IC50s differ (p < 0.05)' : 'no evidence that the IC50s differ (p >= 0.05)' });
   }
-  return new DoseResponseResult(points, perPreparation, summary, comparisons, fits, [...history, { verb: 'doseResponse', options: { measure, lastN, runDown, fixBottom, bootstrap: options.bootstrap ?? 0, seed: options.seed ?? doseResponseDefaults.seed, model: 'four-parameter log-logistic, top fixed at 1', pooling: 'mean of per-preparation log10 IC50 with t-based 95% CI; pooled fit with profile-likelihood CI' }, version: VERSION }]);
+  return new DoseResponseResult(points, perPreparation, summary, comparisons, fits, [...history, { verb: 'doseResponse', options: { measure, lastN, runDown, fixBottom, bootstrap: options.bootstrap ?? 0, seed: options.seed ?? doseResponseDefaults.seed, model: 'four-parameter log-logistic, top fixed at 1', pooling: 'mean of per-preparation log10 IC50 with t-based 95% CI; pooled fit with profile-likelihood CI' }, version: VERSION }], sources);
 }
 
 /** Joint fit of two classes with a shared ln IC50 and class-specific slope and bottom. */

@@ -7,6 +7,9 @@
  * intensity, 1.3 x I95 (a documented rule of ours within the 1.2-1.5 x range used in
  * practice; common practice, no source).
  */
+import { provenanceOf, methodsOf, exportResult } from '../report/describe';
+import type { Provenance } from '../report/bundle';
+import type { Source } from '../sweeps/SweepSet';
 import { inspect } from 'node:util';
 import type { ConditionValue, Step } from '../sweeps/SweepSet';
 import { fitCurve, type FitResult } from '../fit/lm';
@@ -20,7 +23,19 @@ type Row = Record<string, ConditionValue>;
 export const recruitmentDefaults = { supramaximalFactor: 1.3, thresholdFraction: 0.05 };
 
 export class RecruitmentResult {
-  constructor(readonly rows: Row[], readonly points: Row[], readonly fits: Map<string, FitResult>, readonly history: readonly Step[]) {}
+  constructor(readonly rows: Row[], readonly points: Row[], readonly fits: Map<string, FitResult>, readonly history: readonly Step[], readonly sources: readonly Source[] = []) {}
+  provenance(): Provenance {
+    return provenanceOf(this);
+  }
+
+  methods(): string {
+    return methodsOf(this);
+  }
+
+  exportBundle(dir: string): string[] {
+    return exportResult(dir, this, { recruitment: this.rows, recruitment_points: this.points });
+  }
+
   frame(): import('danfojs-node').DataFrame {
     return toFrame(this.rows as Record<string, unknown>[]);
   }
@@ -38,7 +53,7 @@ export class RecruitmentResult {
   }
 }
 
-export function recruitment(rows: readonly Row[], units: string, options: { measure?: string; by?: string[]; supramaximalFactor?: number } = {}, history: readonly Step[] = []): RecruitmentResult {
+export function recruitment(rows: readonly Row[], units: string, options: { measure?: string; by?: string[]; supramaximalFactor?: number } = {}, history: readonly Step[] = [], sources: readonly Source[] = []): RecruitmentResult {
   const measure = options.measure ?? `amplitude_${units}`;
   const by = options.by ?? ['preparation', 'distanceMm', 'temperatureC', 'concentration'].filter((k) => rows.some((r) => k in r));
   const factor = options.supramaximalFactor ?? recruitmentDefaults.supramaximalFactor;
@@ -79,5 +94,5 @@ export function recruitment(rows: readonly Row[], units: string, options: { meas
       levels: levels.length, status: st.length ? st.join('; ') : 'ok',
     });
   }
-  return new RecruitmentResult(out, points, fits, [...history, { verb: 'recruitment', options: { measure, by, model: 'Boltzmann sigmoid in log10 intensity', supramaximalFactor: factor, thresholdFraction: recruitmentDefaults.thresholdFraction }, version: VERSION }]);
+  return new RecruitmentResult(out, points, fits, [...history, { verb: 'recruitment', options: { measure, by, model: 'Boltzmann sigmoid in log10 intensity', supramaximalFactor: factor, thresholdFraction: recruitmentDefaults.thresholdFraction }, version: VERSION }], sources);
 }

@@ -6,6 +6,9 @@
  * not treated as replicates of each other's level.
  * References: S. Arrhenius, Z. Phys. Chem. 4 (1889) 226-248; Q10 definition: common practice, no source.
  */
+import { provenanceOf, methodsOf, exportResult } from '../report/describe';
+import type { Provenance } from '../report/bundle';
+import type { Source } from '../sweeps/SweepSet';
 import { linearFit } from './stats';
 import { tQuantile } from '../fit/dist';
 import { R_GAS } from '../fit/models';
@@ -71,7 +74,19 @@ import { VERSION } from '../version';
 type Row = Record<string, ConditionValue>;
 
 export class TemperatureResult {
-  constructor(readonly rows: Row[], readonly points: Row[], readonly history: readonly Step[]) {}
+  constructor(readonly rows: Row[], readonly points: Row[], readonly history: readonly Step[], readonly sources: readonly Source[] = []) {}
+  provenance(): Provenance {
+    return provenanceOf(this);
+  }
+
+  methods(): string {
+    return methodsOf(this);
+  }
+
+  exportBundle(dir: string): string[] {
+    return exportResult(dir, this, { temperature: this.rows, temperature_points: this.points });
+  }
+
   frame(): import('danfojs-node').DataFrame {
     return toFrame(this.rows as Record<string, unknown>[]);
   }
@@ -94,7 +109,7 @@ export class TemperatureResult {
  * the mean of `measure` (default the centroid-based single-site velocity), then
  * Q10 and Ea per class with preparation-specific intercepts.
  */
-export function temperatureAnalysis(rows: readonly Row[], options: { measure?: string; invert?: boolean } = {}, history: readonly Step[] = []): TemperatureResult {
+export function temperatureAnalysis(rows: readonly Row[], options: { measure?: string; invert?: boolean } = {}, history: readonly Step[] = [], sources: readonly Source[] = []): TemperatureResult {
   const measure = options.measure ?? 'centroid_velocity_m_s';
   const use = rows.filter((r) => typeof r.temperatureC === 'number' && typeof r[measure] === 'number' && r.detected !== false);
   const classes = [...new Set(use.map((r) => String(r.class)))];
@@ -120,5 +135,5 @@ export function temperatureAnalysis(rows: readonly Row[], options: { measure?: s
       out.push({ class: cls, measure, status: (e as Error).message });
     }
   }
-  return new TemperatureResult(out, points, [...history, { verb: 'temperature', options: { measure, invert: !!options.invert, model: 'log-linear (Q10) and Arrhenius, preparation-specific intercepts' }, version: VERSION }]);
+  return new TemperatureResult(out, points, [...history, { verb: 'temperature', options: { measure, invert: !!options.invert, model: 'log-linear (Q10) and Arrhenius, preparation-specific intercepts' }, version: VERSION }], sources);
 }

@@ -7,6 +7,8 @@ import { singleSiteVelocity, twoSiteVelocity, regressionVelocity, type VelocityR
 import { toFrame } from '../report/frame';
 import { tableHtml, tableText, displayHtml } from '../notebook/html';
 import { VERSION } from '../version';
+import { provenanceOf, methodsOf, exportResult } from '../report/describe';
+import type { Provenance } from '../report/bundle';
 import { doseResponse, type DoseResponseOptions, DoseResponseResult } from '../analysis/doseResponse';
 import { recruitment, RecruitmentResult } from '../analysis/recruitment';
 import { temperatureAnalysis, TemperatureResult } from '../analysis/temperature';
@@ -41,6 +43,26 @@ export class ComponentTable {
     return new ComponentTable(this.set, {}, { rows: this.rows.filter(pred), measures: this.measures, resolved: this.resolved, history: this.history });
   }
 
+  /** Input files (with SHA-256) of the sweeps. */
+  get sources() {
+    return this.set.sources;
+  }
+
+  /** History of every step (verb, full options, version) and the input files' SHA-256, as JSON. */
+  provenance(): Provenance {
+    return provenanceOf(this);
+  }
+
+  /** A methods paragraph generated from the history. */
+  methods(): string {
+    return methodsOf(this);
+  }
+
+  /** Write the table (CSV and JSON), methods text and provenance to `dir` atomically. */
+  exportBundle(dir: string): string[] {
+    return exportResult(dir, this, { components: this.rows });
+  }
+
   /** The class names, fastest first. */
   get classes(): string[] {
     return this.resolved.classes.map((c) => c.name);
@@ -67,7 +89,7 @@ export class ComponentTable {
     const single = singleSiteVelocity(this.rows, by);
     const two = twoSiteVelocity(this.set, this.rows, this.measures, this.resolved, by);
     const reg = regressionVelocity(this.rows, by);
-    return new VelocityResult([...single, ...two, ...reg], by, [...this.history, { verb: 'velocity', options: { by, methods: ['single-site (onset, peak)', 'two-site (cross-correlation, onset, peak)', 'regression of latency on distance'] }, version: VERSION }]);
+    return new VelocityResult([...single, ...two, ...reg], by, this.set.sources, [...this.history, { verb: 'velocity', options: { by, methods: ['single-site (onset, peak)', 'two-site (cross-correlation, onset, peak)', 'regression of latency on distance'] }, version: VERSION }]);
   }
 
   /**
@@ -101,12 +123,12 @@ export class ComponentTable {
 
   /** Recruitment curves per class (Boltzmann fit in log10 intensity). */
   recruitment(options: { measure?: string; by?: string[]; supramaximalFactor?: number } = {}): RecruitmentResult {
-    return recruitment(this.rows, this.set.units, options, this.history);
+    return recruitment(this.rows, this.set.units, options, this.history, this.set.sources);
   }
 
   /** Blocker dose-response per class with IC50, Hill slope and class comparison. */
   doseResponse(options: DoseResponseOptions = {}): DoseResponseResult {
-    return doseResponse(this.rows, this.set.units, options, this.history);
+    return doseResponse(this.rows, this.set.units, options, this.history, this.set.sources);
   }
 
   /**
@@ -125,10 +147,10 @@ export class ComponentTable {
         const by = ['preparation', 'temperatureC'].filter((k) => this.set.conditions.some((c) => k in c));
         const v = this.velocity({ by }).get('regression', 'centroid');
         const rows = v.map((r) => ({ ...r, regression_velocity_m_s: r.velocity_m_s, detected: true }));
-        return temperatureAnalysis(rows, { measure: 'regression_velocity_m_s' }, this.history);
+        return temperatureAnalysis(rows, { measure: 'regression_velocity_m_s' }, this.history, this.set.sources);
       }
     }
-    return temperatureAnalysis(this.rows, options, this.history);
+    return temperatureAnalysis(this.rows, options, this.history, this.set.sources);
   }
 
   toHTML(): string {
@@ -150,7 +172,19 @@ export class ComponentTable {
 }
 
 export class VelocityResult {
-  constructor(readonly rows: readonly VelocityRow[], readonly by: string[], readonly history: readonly Step[]) {}
+  constructor(readonly rows: readonly VelocityRow[], readonly by: string[], readonly sources: readonly import('../sweeps/SweepSet').Source[], readonly history: readonly Step[]) {}
+
+  provenance(): Provenance {
+    return provenanceOf(this);
+  }
+
+  methods(): string {
+    return methodsOf(this);
+  }
+
+  exportBundle(dir: string): string[] {
+    return exportResult(dir, this, { velocity: this.rows });
+  }
 
   frame(): import('danfojs-node').DataFrame {
     return toFrame(this.rows as unknown as Record<string, unknown>[]);

@@ -91,3 +91,21 @@ describe('bundle safety', () => {
     expect(existsSync(fresh)).toBe(false);
   });
 });
+
+describe('results describe themselves', () => {
+  it('provenance() lists every step with its options and the inputs with SHA-256; methods() is plain English', async () => {
+    const { readManifest } = await import('../../src');
+    const t = readManifest(join(root, 'data-demo', 'manifest.json')).where({ preparation: 'R1', series: 'distance' }).baseline({ window: [-19, -0.2] }).lowpass(8000).components({ earliestMs: 0.12 });
+    const v = t.velocity();
+    const p = v.provenance();
+    expect(p.inputs.every((s) => /^[0-9a-f]{64}$/.test(s.sha256))).toBe(true);
+    expect(p.steps.map((s) => s.verb)).toEqual(['readManifest', 'where', 'baseline', 'filter', 'components', 'velocity']);
+    expect(p.steps[3].options).toMatchObject({ btype: 'lowpass', cutoff: 8000, order: 4, padlen: 15 });
+    const m = v.methods();
+    expect(m).toMatch(/4th-order Butterworth filter \(cutoff 8000 Hz/);
+    expect(m).not.toMatch(/removeArtifact|lowpass\(/);
+    const dir = join(work, 'table-bundle');
+    t.exportBundle(dir);
+    expect(readFileSync(join(dir, 'tables', 'components.csv'), 'utf8').split('\n')[0]).toMatch(/amplitude_uV/);
+  });
+});
