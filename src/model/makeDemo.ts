@@ -1,6 +1,6 @@
 /**
  * The demo study (invented scenario, for the demo and tests only): a made-up lab
- * tests "blocker NX-7", a made-up sodium-channel blocker, on sciatic nerves of four
+ * tests "blocker demo-blocker-7", a made-up sodium-channel blocker, on sciatic nerves of four
  * rats (R1-R4). Per preparation: a stimulus-intensity series at 20 mm, supramaximal
  * sweeps at 20 and 40 mm, a blocker concentration series (baseline, 1-300 uM,
  * washout) and a temperature series (25-37 C). Written in the loaders' formats with
@@ -69,7 +69,7 @@ export function makeDemo(outDir: string, seed = 20261201): void {
     const bname = `${prep}-blocker`;
     const meta = writeBinary(join(outDir, bname + '.bin'), bset, 'int16', 0.5);
     writeFileSync(join(outDir, bname + '.json'), JSON.stringify({ data: bname + '.bin', ...meta }, null, 1) + '\n');
-    files.push({ path: bname + '.json', format: 'binary', conditions: { preparation: prep, series: 'dose', distanceMm: 20, temperatureC: 37, intensity: 20, intensityUnit: 'mA', pulseWidthMs: 0.05, drug: 'NX-7', concentrationUnit: 'uM' }, sweeps: bsw.map((s) => ({ concentration: s.concentration, epoch: s.conditions.epoch, repeat: s.conditions.repeat, acquiredS: at() * 6 })) });
+    files.push({ path: bname + '.json', format: 'binary', conditions: { preparation: prep, series: 'dose', distanceMm: 20, temperatureC: 37, intensity: 20, intensityUnit: 'mA', pulseWidthMs: 0.05, drug: 'demo-blocker-7', concentrationUnit: 'uM' }, sweeps: bsw.map((s) => ({ concentration: s.concentration, epoch: s.conditions.epoch, repeat: s.conditions.repeat, acquiredS: at() * 6 })) });
     // 4. temperature series at 20 and 40 mm (float32 binary)
     const tsw = DEMO_TEMPERATURES.flatMap((T) => [20, 40].flatMap((d) => [0, 1, 2].map((r) => ({ intensity: 20, distanceMm: d, temperatureC: T, concentration: 0, jitterMs: 0.003, conditions: { repeat: r } }))));
     const tset = sim(tsw, 4);
@@ -81,7 +81,7 @@ export function makeDemo(outDir: string, seed = 20261201): void {
   truth.model = { q10Velocity: base.q10Velocity, classIc50: Object.fromEntries(base.populations.map((c) => [c.name, c.ic50])), hill: Object.fromEntries(base.populations.map((c) => [c.name, c.hill])) };
   const manifest = {
     fascicleManifest: 1,
-    study: 'Demo: blocker NX-7 on rat sciatic nerve (invented data)',
+    study: 'Demo: blocker demo-blocker-7 on rat sciatic nerve (invented data)',
     description: 'Invented demonstration study made by the fascicle forward model; no real animals or laboratory.',
     species: 'rat (simulated)', nerve: 'sciatic (simulated)', classPreset: 'mammalian',
     required: ['preparation', 'distanceMm', 'temperatureC', 'intensity'],
