@@ -34,6 +34,7 @@ export interface DelimitedOptions {
 
 export const delimitedDefaults = { delimiter: 'auto', decimal: 'auto', layout: 'auto', stimulusAt: 0 } as const;
 
+const POW10 = Array.from({ length: 16 }, (_, i) => Number(`1e${i}`));
 const SWEEP_NAMES = ['sweep', 'trace', 'sweep_id', 'sweepid', 'episode'];
 const TIME_NAMES = ['time', 't'];
 const VALUE_NAMES = ['value', 'signal', 'voltage', 'amplitude', 'potential', 'v'];
@@ -164,13 +165,65 @@ export function parseDelimited(bytes: Uint8Array, file: string, options: Delimit
     let buf = new Float64Array(nSweeps * rowsMax);
     let r = 0;
     const lines: number[] = [];
+    /**
+     * One pass over a row of plain decimal numbers (sign, digits, one decimal separator,
+     * at most 15 significant digits, no exponent or spaces): parses and stores every
+     * field. Returns false, having stored nothing reliable, when anything else is met;
+     * the row is then parsed again by the exact slow path.
+     */
+    const fastRow = (l: LineCursor, row: number): boolean => {
+      let k = l.start;
+      const end = l.end;
+      for (let c = 0; c < ncol; c++) {
+        let neg = false;
+        if (bytes[k] === 45) { neg = true; k++; }
+        let m = 0, digits = 0, frac = 0, seenDec = false;
+        for (; k < end; k++) {
+          const ch = bytes[k];
+          const d = ch - 48;
+          if (d >= 0 && d <= 9) {
+            m = m * 10 + d;
+            digits++;
+            if (seenDec) frac++;
+          } else if (ch === dec && !seenDec) seenDec = true;
+          else break;
+        }
+        if (digits === 0 || digits > 15) return false;
+        if (k < end && bytes[k] !== dcode) return false;
+        if (c < ncol - 1) {
+          if (k >= end) return false;
+          k++;
+        } else if (k !== end) return false;
+        const v = frac === 0 ? m : m / POW10[frac];
+        if (c === 0) t[row] = neg ? -v : v;
+        else scratch[(row & (BLOCK - 1)) * nSweeps + c - 1] = neg ? -v : v;
+      }
+      return true;
+    };
+    // rows are gathered in a small row-major block and written sweep-major a block at a
+    // time, so memory is written in runs instead of one value per sweep per row
+    const BLOCK = 64;
+    const scratch = new Float64Array(BLOCK * nSweeps);
+    const flush = (upTo: number) => {
+      const first = upTo - ((upTo - 1) & (BLOCK - 1)) - 1;
+      const count = upTo - first;
+      for (let c = 0; c < nSweeps; c++) {
+        const o = c * rowsMax + first;
+        for (let q = 0; q < count; q++) buf[o + q] = scratch[q * nSweeps + c];
+      }
+    };
     for (let l = next(); l; l = next()) {
-      splitLine(l);
-      t[r] = num(l, 0);
-      for (let c = 1; c < ncol; c++) buf[(c - 1) * rowsMax + r] = num(l, c);
+      if (!fastRow(l, r)) {
+        // slow path: exact field splitting, errors with line and column, any number syntax
+        splitLine(l);
+        t[r] = num(l, 0);
+        for (let c = 1; c < ncol; c++) scratch[(r & (BLOCK - 1)) * nSweeps + c - 1] = num(l, c);
+      }
       lines.push(l.line);
       r++;
+      if ((r & (BLOCK - 1)) === 0) flush(r);
     }
+    if (r & (BLOCK - 1)) flush(r);
     nSamples = r;
     if (nSamples < 2) throw new InputError({ file }, `the file has ${nSamples} data row${nSamples === 1 ? '' : 's'}`, 'at least 2 samples per sweep');
     if (nSamples !== rowsMax) {
