@@ -37,21 +37,7 @@ export function sosfiltZi(sos: Sos): Float64Array {
  * x and z are modified.
  */
 export function sosfiltInPlace(sos: Sos, x: Float64Array, z: Float64Array): void {
-  const n = x.length;
-  for (let s = 0; s < sos.length; s++) {
-    const [b0r, b1r, b2r, a0, a1r, a2r] = sos[s];
-    const b0 = b0r / a0, b1 = b1r / a0, b2 = b2r / a0, a1 = a1r / a0, a2 = a2r / a0;
-    let z0 = z[2 * s], z1 = z[2 * s + 1];
-    for (let i = 0; i < n; i++) {
-      const xi = x[i];
-      const y = b0 * xi + z0;
-      z0 = b1 * xi - a1 * y + z1;
-      z1 = b2 * xi - a2 * y;
-      x[i] = y;
-    }
-    z[2 * s] = z0;
-    z[2 * s + 1] = z1;
-  }
+  cascade(normalizedCoefficients(sos), x, z, 0, x.length, 1);
 }
 
 /** Causal filtering from rest (as scipy.signal.sosfilt with zi omitted). */
@@ -90,10 +76,7 @@ export function sosfiltfilt(sos: Sos, x: ArrayLike<number>, options: { padlen?: 
   const work = options.work ?? filtfiltWork(sos, n, padlen);
   const m = n + 2 * padlen;
   const ext = work.ext.length === m ? work.ext : new Float64Array(m);
-  const x0 = x[0], xn = x[n - 1];
-  for (let i = 0; i < padlen; i++) ext[i] = 2 * x0 - x[padlen - i];
-  for (let i = 0; i < n; i++) ext[padlen + i] = x[i];
-  for (let i = 0; i < padlen; i++) ext[padlen + n + i] = 2 * xn - x[n - 2 - i];
+  oddExtend(x, ext, padlen);
   const { zi, z } = work;
   const coef = normalizedCoefficients(sos);
   const e0 = ext[0];
@@ -105,6 +88,15 @@ export function sosfiltfilt(sos: Sos, x: ArrayLike<number>, options: { padlen?: 
   const out = options.out ?? new Float64Array(n);
   for (let i = 0; i < n; i++) out[i] = ext[padlen + i];
   return out;
+}
+
+/** Odd extension of x by padlen samples at both ends into ext (length n + 2 padlen), as SciPy's odd_ext. */
+function oddExtend(x: ArrayLike<number>, ext: Float64Array, padlen: number): void {
+  const n = x.length;
+  const x0 = x[0], xn = x[n - 1];
+  for (let i = 0; i < padlen; i++) ext[i] = 2 * x0 - x[padlen - i];
+  for (let i = 0; i < n; i++) ext[padlen + i] = x[i];
+  for (let i = 0; i < padlen; i++) ext[padlen + n + i] = 2 * xn - x[n - 2 - i];
 }
 
 /** Coefficients [b0, b1, b2, a1, a2] per section with a0 = 1, in one Float64Array. */
@@ -120,37 +112,6 @@ function normalizedCoefficients(sos: Sos): Float64Array {
  */
 function cascade(c: Float64Array, x: Float64Array, z: Float64Array, from: number, to: number, step: 1 | -1): void {
   const ns = c.length / 5;
-  if (ns === 2) {
-    // the common 4th-order case, unrolled, with separate forward and backward loops
-    const b00 = c[0], b01 = c[1], b02 = c[2], a01 = c[3], a02 = c[4];
-    const b10 = c[5], b11 = c[6], b12 = c[7], a11 = c[8], a12 = c[9];
-    let z00 = z[0], z01 = z[1], z10 = z[2], z11 = z[3];
-    if (step === 1) {
-      for (let i = from; i < to; i++) {
-        const u = x[i];
-        const v = b00 * u + z00;
-        z00 = b01 * u - a01 * v + z01;
-        z01 = b02 * u - a02 * v;
-        const y = b10 * v + z10;
-        z10 = b11 * v - a11 * y + z11;
-        z11 = b12 * v - a12 * y;
-        x[i] = y;
-      }
-    } else {
-      for (let i = from; i > to; i--) {
-        const u = x[i];
-        const v = b00 * u + z00;
-        z00 = b01 * u - a01 * v + z01;
-        z01 = b02 * u - a02 * v;
-        const y = b10 * v + z10;
-        z10 = b11 * v - a11 * y + z11;
-        z11 = b12 * v - a12 * y;
-        x[i] = y;
-      }
-    }
-    z[0] = z00; z[1] = z01; z[2] = z10; z[3] = z11;
-    return;
-  }
   for (let i = from; i !== to; i += step) {
     let u = x[i];
     for (let s = 0, k = 0; s < ns; s++, k += 5) {
@@ -179,14 +140,8 @@ export function sosfiltfiltPair(sos: Sos, xa: ArrayLike<number>, xb: ArrayLike<n
   if (n <= padlen) throw new OptionError(`signal of ${n} samples is too short for zero-phase filtering; must be longer than padlen = ${padlen} samples`);
   const m = n + 2 * padlen;
   const ea = wa.ext, eb = wb.ext;
-  const fill = (x: ArrayLike<number>, ext: Float64Array) => {
-    const x0 = x[0], xn = x[n - 1];
-    for (let i = 0; i < padlen; i++) ext[i] = 2 * x0 - x[padlen - i];
-    for (let i = 0; i < n; i++) ext[padlen + i] = x[i];
-    for (let i = 0; i < padlen; i++) ext[padlen + n + i] = 2 * xn - x[n - 2 - i];
-  };
-  fill(xa, ea);
-  fill(xb, eb);
+  oddExtend(xa, ea, padlen);
+  oddExtend(xb, eb, padlen);
   const c = normalizedCoefficients(sos);
   const zi = wa.zi;
   const b00 = c[0], b01 = c[1], b02 = c[2], a01 = c[3], a02 = c[4];
