@@ -129,6 +129,8 @@ export function measureComponents(set: SweepSet, options: ComponentOptions = {})
   const measures: ResponseMeasure[][] = [];
   const dt = set.dtMs;
   const smooth = new Float64Array(set.nSamples);
+  // scratch for a window measured above a baseline line (measureResponse reads only a - 1 .. b + 1)
+  const shifted = new Float64Array(set.nSamples);
   for (let s = 0; s < set.nSweeps; s++) {
     const x = set.sweep(s);
     const L = distOf(s);
@@ -179,9 +181,11 @@ export function measureComponents(set: SweepSet, options: ComponentOptions = {})
       let xs: Float64Array = x;
       if (floor[ci] !== 0) {
         // a straight line from the trough to the window's end level (the faster wave's tail decays under the slower one)
-        xs = Float64Array.from(x);
+        xs = shifted;
+        if (a > 0) xs[a - 1] = x[a - 1];
+        if (b + 1 < x.length) xs[b + 1] = x[b + 1];
         const endLevel = polarity * smooth[b] > 0 ? smooth[b] : 0;
-        for (let i = a; i <= b; i++) xs[i] -= floor[ci] + ((endLevel - floor[ci]) * (i - a)) / Math.max(1, b - a);
+        for (let i = a; i <= b; i++) xs[i] = x[i] - (floor[ci] + ((endLevel - floor[ci]) * (i - a)) / Math.max(1, b - a));
       }
       const m = measureResponse(xs, a, b, noise, k, polarity);
       // an onset is only an onset when the signal starts below the level inside the window
