@@ -60,3 +60,4 @@ export { writeWide, writeBinary } from './io/write';
 export { makeDemo } from './model/makeDemo';
 export { progress } from './notebook/progress';
 export { showAll } from './notebook/show';
+export { Result } from './report/result';

@@ -14,18 +14,15 @@
  *    bootstrap over preparations.
  * 5. Classes compared by the extra-sum-of-squares F test of a shared IC50.
  */
-import { provenanceOf, methodsOf, exportResult } from '../report/describe';
-import type { Provenance } from '../report/bundle';
-import type { Source } from '../sweeps/SweepSet';
-import { inspect } from 'node:util';
-import type { ConditionValue, Step } from '../sweeps/SweepSet';
+import type { ConditionValue, Step, Source } from '../sweeps/SweepSet';
+import { Result } from '../report/result';
 import { fitCurve, profileCI, extraSumOfSquaresF, trusted, type FitResult } from '../fit/lm';
 import { logLogistic4 } from '../fit/models';
 import { summarize } from './stats';
 import { AnalysisError, OptionError } from '../errors';
 import { Rng } from '../model/random';
 import { toFrame } from '../report/frame';
-import { tableHtml, tableText, displayHtml } from '../notebook/html';
+import { tableHtml, tableText } from '../notebook/html';
 import { VERSION } from '../version';
 
 export interface DoseResponseOptions {
@@ -73,7 +70,7 @@ export function fitHill(x: number[], y: number[], fixBottom: number | null): Fit
   });
 }
 
-export class DoseResponseResult {
+export class DoseResponseResult extends Result {
   constructor(
     readonly points: DosePoint[],
     readonly perPreparation: Row[],
@@ -82,17 +79,11 @@ export class DoseResponseResult {
     readonly fits: Map<string, FitResult>,
     readonly history: readonly Step[],
     readonly sources: readonly Source[] = [],
-  ) {}
-  provenance(): Provenance {
-    return provenanceOf(this);
+  ) {
+    super();
   }
-
-  methods(): string {
-    return methodsOf(this);
-  }
-
-  exportBundle(dir: string): string[] {
-    return exportResult(dir, this, { dose_response_summary: this.summary, dose_response_per_preparation: this.perPreparation, dose_response_points: this.points, dose_response_comparisons: this.comparisons });
+  tables(): Record<string, readonly object[]> {
+    return { dose_response_summary: this.summary, dose_response_per_preparation: this.perPreparation, dose_response_points: this.points, dose_response_comparisons: this.comparisons };
   }
 
   frame(which: 'summary' | 'perPreparation' | 'points' | 'comparisons' = 'summary'): import('danfojs-node').DataFrame {
@@ -103,12 +94,6 @@ export class DoseResponseResult {
   }
   toString(): string {
     return 'DoseResponseResult\n' + tableText(this.summary, { columns: ['class', 'preparations', 'ic50', 'ic50_ci95_low', 'ic50_ci95_high', 'hill', 'pooled_ic50', 'status'] }) + '\n' + tableText(this.comparisons);
-  }
-  [inspect.custom](): string {
-    return this.toString();
-  }
-  show(): void {
-    displayHtml(this.toHTML(), this.toString());
   }
 }
 

@@ -7,35 +7,25 @@
  * intensity, 1.3 x I95 (a documented rule of ours within the 1.2-1.5 x range used in
  * practice; common practice, no source).
  */
-import { provenanceOf, methodsOf, exportResult } from '../report/describe';
-import type { Provenance } from '../report/bundle';
-import type { Source } from '../sweeps/SweepSet';
-import { inspect } from 'node:util';
-import type { ConditionValue, Step } from '../sweeps/SweepSet';
+import type { ConditionValue, Step, Source } from '../sweeps/SweepSet';
+import { Result } from '../report/result';
 import { fitCurve, type FitResult } from '../fit/lm';
 import { boltzmann } from '../fit/models';
 import { AnalysisError } from '../errors';
 import { toFrame } from '../report/frame';
-import { tableHtml, tableText, displayHtml } from '../notebook/html';
+import { tableHtml, tableText } from '../notebook/html';
 import { VERSION } from '../version';
 
 type Row = Record<string, ConditionValue>;
 export const recruitmentDefaults = { supramaximalFactor: 1.3, thresholdFraction: 0.05 };
 
-export class RecruitmentResult {
-  constructor(readonly rows: Row[], readonly points: Row[], readonly fits: Map<string, FitResult>, readonly history: readonly Step[], readonly sources: readonly Source[] = []) {}
-  provenance(): Provenance {
-    return provenanceOf(this);
+export class RecruitmentResult extends Result {
+  constructor(readonly rows: Row[], readonly points: Row[], readonly fits: Map<string, FitResult>, readonly history: readonly Step[], readonly sources: readonly Source[] = []) {
+    super();
   }
-
-  methods(): string {
-    return methodsOf(this);
+  tables(): Record<string, readonly object[]> {
+    return { recruitment: this.rows, recruitment_points: this.points };
   }
-
-  exportBundle(dir: string): string[] {
-    return exportResult(dir, this, { recruitment: this.rows, recruitment_points: this.points });
-  }
-
   frame(): import('danfojs-node').DataFrame {
     return toFrame(this.rows as Record<string, unknown>[]);
   }
@@ -44,12 +34,6 @@ export class RecruitmentResult {
   }
   toString(): string {
     return 'RecruitmentResult\n' + tableText(this.rows, { columns: ['preparation', 'class', 'threshold', 'i50', 'i50_ci95_low', 'i50_ci95_high', 'maximum', 'supramaximal', 'status'] });
-  }
-  [inspect.custom](): string {
-    return this.toString();
-  }
-  show(): void {
-    displayHtml(this.toHTML(), this.toString());
   }
 }
 

@@ -6,9 +6,11 @@
  * not treated as replicates of each other's level.
  * References: S. Arrhenius, Z. Phys. Chem. 4 (1889) 226-248; Q10 definition: common practice, no source.
  */
-import { provenanceOf, methodsOf, exportResult } from '../report/describe';
-import type { Provenance } from '../report/bundle';
-import type { Source } from '../sweeps/SweepSet';
+import type { ConditionValue, Step, Source } from '../sweeps/SweepSet';
+import { Result } from '../report/result';
+import { toFrame } from '../report/frame';
+import { tableHtml, tableText } from '../notebook/html';
+import { VERSION } from '../version';
 import { linearFit } from './stats';
 import { tQuantile } from '../fit/dist';
 import { R_GAS } from '../fit/models';
@@ -65,28 +67,15 @@ export function fitTemperature(points: readonly { temperatureC: number; value: n
   };
 }
 
-import { inspect } from 'node:util';
-import type { ConditionValue, Step } from '../sweeps/SweepSet';
-import { toFrame } from '../report/frame';
-import { tableHtml, tableText, displayHtml } from '../notebook/html';
-import { VERSION } from '../version';
-
 type Row = Record<string, ConditionValue>;
 
-export class TemperatureResult {
-  constructor(readonly rows: Row[], readonly points: Row[], readonly history: readonly Step[], readonly sources: readonly Source[] = []) {}
-  provenance(): Provenance {
-    return provenanceOf(this);
+export class TemperatureResult extends Result {
+  constructor(readonly rows: Row[], readonly points: Row[], readonly history: readonly Step[], readonly sources: readonly Source[] = []) {
+    super();
   }
-
-  methods(): string {
-    return methodsOf(this);
+  tables(): Record<string, readonly object[]> {
+    return { temperature: this.rows, temperature_points: this.points };
   }
-
-  exportBundle(dir: string): string[] {
-    return exportResult(dir, this, { temperature: this.rows, temperature_points: this.points });
-  }
-
   frame(): import('danfojs-node').DataFrame {
     return toFrame(this.rows as Record<string, unknown>[]);
   }
@@ -95,12 +84,6 @@ export class TemperatureResult {
   }
   toString(): string {
     return 'TemperatureResult\n' + tableText(this.rows, { columns: ['class', 'measure', 'q10', 'q10_ci95_low', 'q10_ci95_high', 'ea_kJ_mol', 'preparations', 'temperatures'] });
-  }
-  [inspect.custom](): string {
-    return this.toString();
-  }
-  show(): void {
-    displayHtml(this.toHTML(), this.toString());
   }
 }
 

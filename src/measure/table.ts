@@ -1,14 +1,12 @@
 /** ComponentTable: per-sweep x per-class measurements, with velocity and threshold analyses. */
-import { inspect } from 'node:util';
 import type { SweepSet, ConditionValue, Step } from '../sweeps/SweepSet';
 import { measureComponents, componentStep, type ComponentOptions, type ComponentRow, type ResolvedComponentOptions } from './components';
 import type { ResponseMeasure } from './response';
 import { singleSiteVelocity, twoSiteVelocity, regressionVelocity, type VelocityRow } from '../analysis/velocity';
 import { toFrame } from '../report/frame';
-import { tableHtml, tableText, displayHtml } from '../notebook/html';
+import { tableHtml, tableText } from '../notebook/html';
 import { VERSION } from '../version';
-import { provenanceOf, methodsOf, exportResult } from '../report/describe';
-import type { Provenance } from '../report/bundle';
+import { Result } from '../report/result';
 import { doseResponse, type DoseResponseOptions, DoseResponseResult } from '../analysis/doseResponse';
 import { recruitment, RecruitmentResult } from '../analysis/recruitment';
 import { temperatureAnalysis, TemperatureResult } from '../analysis/temperature';
@@ -21,7 +19,7 @@ function defaultBy(set: SweepSet): string[] {
   return keys.filter((k) => set.conditions.some((c) => k in c));
 }
 
-export class ComponentTable {
+export class ComponentTable extends Result {
   readonly rows: readonly ComponentRow[];
   readonly set: SweepSet;
   readonly measures: ResponseMeasure[][];
@@ -29,6 +27,7 @@ export class ComponentTable {
   readonly history: readonly Step[];
 
   constructor(set: SweepSet, options: ComponentOptions = {}, precomputed?: { rows: readonly ComponentRow[]; measures: ResponseMeasure[][]; resolved: ResolvedComponentOptions; history: readonly Step[] }) {
+    super();
     const r = precomputed ?? measureComponents(set, options);
     this.rows = r.rows;
     this.measures = r.measures;
@@ -48,19 +47,8 @@ export class ComponentTable {
     return this.set.sources;
   }
 
-  /** History of every step (verb, full options, version) and the input files' SHA-256, as JSON. */
-  provenance(): Provenance {
-    return provenanceOf(this);
-  }
-
-  /** A methods paragraph generated from the history. */
-  methods(): string {
-    return methodsOf(this);
-  }
-
-  /** Write the table (CSV and JSON), methods text and provenance to `dir` atomically. */
-  exportBundle(dir: string): string[] {
-    return exportResult(dir, this, { components: this.rows });
+  tables(): Record<string, readonly object[]> {
+    return { components: this.rows };
   }
 
   /** The class names, fastest first. */
@@ -161,29 +149,16 @@ export class ComponentTable {
     return `ComponentTable: ${this.set.nSweeps} sweeps x ${this.classes.length} classes (${this.classes.join(', ')})\n` + tableText(this.rows as unknown as Record<string, unknown>[], { columns: ['sweep', 'class', 'detected', 'onset_ms', 'peak_ms', `amplitude_${this.set.units}`, 'distance_mm'], maxRows: 12 });
   }
 
-  [inspect.custom](): string {
-    return this.toString();
-  }
 
-  /** Show the table in a notebook cell (or print it). */
-  show(): void {
-    displayHtml(this.toHTML(), this.toString());
-  }
 }
 
-export class VelocityResult {
-  constructor(readonly rows: readonly VelocityRow[], readonly by: string[], readonly sources: readonly import('../sweeps/SweepSet').Source[], readonly history: readonly Step[]) {}
-
-  provenance(): Provenance {
-    return provenanceOf(this);
+export class VelocityResult extends Result {
+  constructor(readonly rows: readonly VelocityRow[], readonly by: string[], readonly sources: readonly import('../sweeps/SweepSet').Source[], readonly history: readonly Step[]) {
+    super();
   }
 
-  methods(): string {
-    return methodsOf(this);
-  }
-
-  exportBundle(dir: string): string[] {
-    return exportResult(dir, this, { velocity: this.rows });
+  tables(): Record<string, readonly object[]> {
+    return { velocity: this.rows };
   }
 
   frame(): import('danfojs-node').DataFrame {
@@ -203,11 +178,5 @@ export class VelocityResult {
     return 'VelocityResult\n' + tableText(this.rows as unknown as Record<string, unknown>[], { columns: ['method', 'basis', 'class', 'group', 'velocity_m_s', 'ci95_low_m_s', 'ci95_high_m_s', 'n'] });
   }
 
-  [inspect.custom](): string {
-    return this.toString();
-  }
 
-  show(): void {
-    displayHtml(this.toHTML(), this.toString());
-  }
 }
