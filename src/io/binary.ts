@@ -16,7 +16,9 @@ import { dirname, resolve } from 'node:path';
 import { InputError } from '../errors';
 import { SweepSet, type Conditions } from '../sweeps/SweepSet';
 import { parseSignalUnit } from '../sweeps/units';
-import { readInput } from './files';
+import { closeSync } from 'node:fs';
+import { lazySource, openInput, readInput } from './files';
+import { runSweeps, sharedSamples } from '../parallel/pool';
 import { VERSION } from '../version';
 
 export interface BinarySidecar {
@@ -80,48 +82,25 @@ export function readBinary(sidecarPath: string, extra: { conditions?: Conditions
     bad('sweeps', `sweeps lists ${Array.isArray(meta.sweeps) ? meta.sweeps.length : 'no'} entries`, `one conditions object per sweep (${nSweeps})`);
   }
   const dataPath = resolve(dirname(sidecarPath), meta.data);
-  const { bytes, source } = readInput(dataPath);
+  const { fd, stat } = openInput(dataPath);
+  const source = lazySource(dataPath, stat);
   const w = BYTES[meta.dtype];
   const expectBytes = nSweeps * nSamples * nCh * w;
-  if (bytes.length !== expectBytes) {
-    throw new InputError({ file: dataPath }, `the file has ${bytes.length} bytes`, `${expectBytes} bytes = ${nSweeps} sweeps x ${nSamples} samples x ${nCh} channels x ${w} bytes (${meta.dtype}) from ${sidecarPath}`);
-  }
-  const little = order === 'little';
-  const zeroCopy = meta.dtype === 'float64' && layout === 'sweep-major' && nCh === 1 && gain === 1 && offset === 0 && little === (new Uint8Array(new Uint16Array([1]).buffer)[0] === 1) && bytes.byteOffset % 8 === 0;
-  // float64, native order, one channel, no scaling: the file's bytes are the samples (no copy)
-  const out = zeroCopy ? new Float64Array(bytes.buffer, bytes.byteOffset, nSweeps * nSamples) : new Float64Array(nSweeps * nSamples);
-  const native = new Uint8Array(new Uint16Array([1]).buffer)[0] === 1;
-  let src: ArrayLike<number>;
-  if (little === native) {
-    src = meta.dtype === 'int16' ? new Int16Array(bytes.buffer, bytes.byteOffset, bytes.length / 2)
-      : meta.dtype === 'float32' ? new Float32Array(bytes.buffer, bytes.byteOffset, bytes.length / 4)
-      : new Float64Array(bytes.buffer, bytes.byteOffset, bytes.length / 8);
-  } else {
-    const dv = new DataView(bytes.buffer, bytes.byteOffset, bytes.length);
-    const m = bytes.length / w;
-    const arr = new Float64Array(m);
-    for (let i = 0; i < m; i++) arr[i] = meta.dtype === 'int16' ? dv.getInt16(i * 2, little) : meta.dtype === 'float32' ? dv.getFloat32(i * 4, little) : dv.getFloat64(i * 8, little);
-    src = arr;
-  }
-  const identity = gain === 1 && offset === 0;
-  for (let s = 0; s < nSweeps && !zeroCopy; s++) {
-    const o = s * nSamples;
-    if (layout === 'sweep-major') {
-      const b = (s * nCh + ch) * nSamples;
-      if (identity) for (let i = 0; i < nSamples; i++) out[o + i] = src[b + i];
-      else for (let i = 0; i < nSamples; i++) out[o + i] = src[b + i] * gain + offset;
-    } else {
-      const b = s * nSamples * nCh + ch;
-      for (let i = 0; i < nSamples; i++) out[o + i] = src[b + i * nCh] * gain + offset;
+  const out = sharedSamples(nSweeps * nSamples);
+  try {
+    if (stat.size !== expectBytes) {
+      throw new InputError({ file: dataPath }, `the file has ${stat.size} bytes`, `${expectBytes} bytes = ${nSweeps} sweeps x ${nSamples} samples x ${nCh} channels x ${w} bytes (${meta.dtype}) from ${sidecarPath}`);
     }
-  }
-  if (meta.dtype !== 'int16') {
-    for (let i = 0; i < out.length; i++) {
-      if (!Number.isFinite(out[i])) {
-        const s = Math.floor(i / nSamples);
-        throw new InputError({ file: dataPath, sweep: s }, `a non-finite sample (${out[i]}) at sample ${i % nSamples}`, 'finite samples');
-      }
+    // read and convert in chunks of about 2 MB per thread, sweeps split across threads
+    const chunkSweeps = Math.max(1, Math.floor((1 << 21) / (nSamples * nCh * w)));
+    const firstBad = runSweeps('load', { fd, dtype: meta.dtype, little: order === 'little', interleaved: layout === 'interleaved', nSamples, nChannels: nCh, channel: ch, gain, offset, out, chunkSweeps }, nSweeps, nSweeps * nSamples * nCh)
+      .find((i) => i >= 0);
+    if (firstBad !== undefined) {
+      const s = Math.floor(firstBad / nSamples);
+      throw new InputError({ file: dataPath, sweep: s }, `a non-finite sample (${out[firstBad]}) at sample ${firstBad % nSamples}`, 'finite samples');
     }
+  } finally {
+    closeSync(fd);
   }
   const base = { ...(meta.conditions ?? {}), ...(extra.conditions ?? {}) };
   const conditions: Conditions[] = [];

@@ -8,6 +8,7 @@
  * units in headers as `name (unit)` or `name [unit]`; a UTF-8 byte-order mark and
  * CRLF line ends are accepted. Lines starting with '#' are comments.
  */
+import { sharedSamples } from '../parallel/pool';
 import { InputError } from '../errors';
 import { SweepSet, type Conditions } from '../sweeps/SweepSet';
 import { parseSignalUnit, parseTimeUnit, splitHeader, timeToMs, type SignalUnit, type TimeUnit } from '../sweeps/units';
@@ -227,7 +228,7 @@ export function parseDelimited(bytes: Uint8Array, file: string, options: Delimit
     nSamples = r;
     if (nSamples < 2) throw new InputError({ file }, `the file has ${nSamples} data row${nSamples === 1 ? '' : 's'}`, 'at least 2 samples per sweep');
     if (nSamples !== rowsMax) {
-      const packed = new Float64Array(nSweeps * nSamples);
+      const packed = sharedSamples(nSweeps * nSamples);
       for (let s = 0; s < nSweeps; s++) packed.set(buf.subarray(s * rowsMax, s * rowsMax + nSamples), s * nSamples);
       buf = packed;
     }
@@ -255,7 +256,7 @@ export function parseDelimited(bytes: Uint8Array, file: string, options: Delimit
     if (nSamples < 2) throw new InputError({ file, sweep: 0 }, `sweep "${groups[0][0]}" has ${nSamples} sample`, 'at least 2 samples per sweep');
     time = Float64Array.from(groups[0][1].t);
     checkTime(time, file, (i) => groups[0][1].lines[i], tc + 1);
-    data = new Float64Array(nSweeps * nSamples);
+    data = sharedSamples(nSweeps * nSamples);
     groups.forEach(([id, g], s) => {
       if (g.t.length !== nSamples) {
         throw new InputError({ file, line: g.lines[g.lines.length - 1], sweep: s }, `sweep "${id}" has ${g.t.length} samples`, `${nSamples} samples as in sweep "${groups[0][0]}"`);

@@ -1,21 +1,71 @@
 import { createHash } from 'node:crypto';
-import { openSync, readSync, fstatSync, closeSync, constants } from 'node:fs';
+import { openSync, readSync, fstatSync, closeSync, constants, type Stats } from 'node:fs';
 import { InputError } from '../errors';
 import type { Source } from '../sweeps/SweepSet';
 
-/**
- * Read a whole file read-only into a fresh (8-byte aligned) buffer and hash it.
- * @throws InputError naming the file when it cannot be read.
- */
-export function readInput(path: string): { bytes: Uint8Array; source: Source } {
+/** Open a file read-only. @throws InputError naming the file when it cannot be opened. */
+export function openInput(path: string): { fd: number; stat: Stats } {
   let fd: number;
   try {
     fd = openSync(path, constants.O_RDONLY);
   } catch (e) {
     throw new InputError({ file: path }, `cannot open file (${(e as NodeJS.ErrnoException).code ?? (e as Error).message})`, 'a readable file');
   }
+  return { fd, stat: fstatSync(fd) };
+}
+
+/** SHA-256 (hex) of an open file, read in chunks. */
+function hashFd(fd: number, size: number): string {
+  const h = createHash('sha256');
+  const buf = new Uint8Array(Math.min(Math.max(size, 1), 1 << 22));
+  for (let off = 0; off < size;) {
+    const n = readSync(fd, buf, 0, Math.min(buf.length, size - off), off);
+    if (n <= 0) break;
+    h.update(n === buf.length ? buf : buf.subarray(0, n));
+    off += n;
+  }
+  return h.digest('hex');
+}
+
+/**
+ * The provenance record of an input file whose SHA-256 is computed when first
+ * needed (provenance, bundles, printing), not while loading: loading stays at the
+ * speed of reading. When the hash is computed, the file must still have the size,
+ * modification time and inode it had when it was loaded; otherwise an InputError
+ * says it changed since loading.
+ */
+export function lazySource(path: string, stat: Stats): Source {
+  const src = { path, bytes: stat.size } as Source;
+  Object.defineProperty(src, 'sha256', {
+    enumerable: true,
+    configurable: true,
+    get(): string {
+      const { fd, stat: now } = openInput(path);
+      try {
+        if (now.size !== stat.size || now.mtimeMs !== stat.mtimeMs || now.ino !== stat.ino) {
+          throw new InputError({ file: path }, 'the file changed after it was loaded (size, modification time or inode differ), so its SHA-256 would not describe the data analysed', 'the file as it was when loaded; load it again');
+        }
+        const value = hashFd(fd, stat.size);
+        Object.defineProperty(src, 'sha256', { value, enumerable: true, configurable: false, writable: false });
+        return value;
+      } finally {
+        closeSync(fd);
+      }
+    },
+  });
+  return src;
+}
+
+/**
+ * Read a whole file read-only into a fresh (8-byte aligned) buffer. Its source
+ * record hashes small files at once and large ones (>= 4 MB) on first use
+ * (lazySource).
+ * @throws InputError naming the file when it cannot be read.
+ */
+export function readInput(path: string): { bytes: Uint8Array; source: Source } {
+  const { fd, stat } = openInput(path);
   try {
-    const size = fstatSync(fd).size;
+    const size = stat.size;
     const bytes = new Uint8Array(new ArrayBuffer(size));
     let off = 0;
     while (off < size) {
@@ -23,8 +73,9 @@ export function readInput(path: string): { bytes: Uint8Array; source: Source } {
       if (n <= 0) break;
       off += n;
     }
-    const sha256 = createHash('sha256').update(bytes).digest('hex');
-    return { bytes, source: { path, sha256, bytes: size } };
+    if (off !== size) throw new InputError({ file: path }, `read ${off} of ${size} bytes (the file shrank while reading)`, 'a file that does not change while loading');
+    const source = size >= 1 << 22 ? lazySource(path, stat) : { path, sha256: createHash('sha256').update(bytes).digest('hex'), bytes: size };
+    return { bytes, source };
   } finally {
     closeSync(fd);
   }
@@ -32,5 +83,10 @@ export function readInput(path: string): { bytes: Uint8Array; source: Source } {
 
 /** SHA-256 of a file, hex. */
 export function sha256File(path: string): string {
-  return readInput(path).source.sha256;
+  const { fd, stat } = openInput(path);
+  try {
+    return hashFd(fd, stat.size);
+  } finally {
+    closeSync(fd);
+  }
 }

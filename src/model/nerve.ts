@@ -18,6 +18,7 @@
  * which starts at the fiber's arrival, peaks at 2 tau with height 1. Biphasic: the
  * same minus a copy delayed by electrodeSeparation / velocity.
  */
+import { sharedSamples } from '../parallel/pool';
 import { Rng } from './random';
 import { SweepSet, type Conditions } from '../sweeps/SweepSet';
 import { OptionError } from '../errors';
@@ -204,7 +205,7 @@ export function simulateNerve(o: SimulateOptions): SweepSet {
   const fibers = drawFibers(o.model, o.seed);
   const rng = new Rng(o.seed ^ 0x9e3779b9);
   const n = o.grid.nSamples;
-  const data = new Float64Array(o.sweeps.length * n);
+  const data = sharedSamples(o.sweeps.length * n);
   const conds: Conditions[] = [];
   o.sweeps.forEach((rc, s) => {
     const x = data.subarray(s * n, (s + 1) * n);

@@ -16,6 +16,8 @@ import { decimate, type DecimateOptions } from '../verbs/decimate';
 import { ComponentTable } from '../measure/table';
 import type { ComponentOptions } from '../measure/components';
 import { signalFactor, type SignalUnit } from './units';
+import { runSweeps, sharedSamples } from '../parallel/pool';
+import type { Correction } from '../parallel/kernels';
 
 /** A condition value: numbers, strings, booleans or null (not recorded). */
 export type ConditionValue = string | number | boolean | null;
@@ -49,8 +51,25 @@ export interface Source {
   bytes: number;
 }
 
+/**
+ * Samples not yet computed: `base` with a pending per-sweep correction (made by
+ * baseline and template artifact subtraction). They are computed the first time
+ * `data` is read; a zero-phase filter instead applies the correction to each sweep
+ * as it reads it, which saves a pass over memory and an allocation per step. The
+ * numbers are the same bit for bit either way.
+ */
+export interface DeferredSamples { base: Float64Array; correction: Correction }
+const samples = new WeakMap<SweepSet, Float64Array | DeferredSamples>();
+
+/** The pending correction of a set whose samples are not yet computed, or null. */
+export function deferredOf(set: SweepSet): DeferredSamples | null {
+  const d = samples.get(set);
+  return d && !(d instanceof Float64Array) ? d : null;
+}
+
 export interface SweepSetInit {
-  data: Float64Array;
+  /** all samples, sweep after sweep (or, from verbs, samples with a pending correction) */
+  data: Float64Array | DeferredSamples;
   nSweeps: number;
   nSamples: number;
   /** sample rate, Hz */
@@ -66,7 +85,6 @@ export interface SweepSetInit {
 }
 
 export class SweepSet implements Iterable<Float64Array> {
-  readonly data: Float64Array;
   readonly nSweeps: number;
   readonly nSamples: number;
   readonly fs: number;
@@ -78,18 +96,19 @@ export class SweepSet implements Iterable<Float64Array> {
   readonly extras: Readonly<Record<string, unknown>>;
 
   constructor(init: SweepSetInit) {
-    if (!(init.data instanceof Float64Array)) throw new OptionError('SweepSet data must be a Float64Array');
+    const raw = init.data instanceof Float64Array ? init.data : init.data?.base;
+    if (!(raw instanceof Float64Array)) throw new OptionError('SweepSet data must be a Float64Array');
     if (!Number.isInteger(init.nSweeps) || init.nSweeps < 0) throw new OptionError(`invalid nSweeps: ${init.nSweeps}`);
     if (!Number.isInteger(init.nSamples) || init.nSamples < 1) throw new OptionError(`invalid nSamples: ${init.nSamples}; must be an integer >= 1`);
-    if (init.data.length !== init.nSweeps * init.nSamples) {
-      throw new OptionError(`SweepSet data length ${init.data.length} does not equal nSweeps x nSamples = ${init.nSweeps} x ${init.nSamples}`);
+    if (raw.length !== init.nSweeps * init.nSamples) {
+      throw new OptionError(`SweepSet data length ${raw.length} does not equal nSweeps x nSamples = ${init.nSweeps} x ${init.nSamples}`);
     }
     if (!(init.fs > 0) || !Number.isFinite(init.fs)) throw new OptionError(`invalid fs: ${init.fs} Hz; must be > 0`);
     if (!Number.isFinite(init.t0Ms)) throw new OptionError(`invalid t0Ms: ${init.t0Ms}; must be finite`);
     if (init.conditions.length !== init.nSweeps) {
       throw new OptionError(`conditions has ${init.conditions.length} rows for ${init.nSweeps} sweeps`);
     }
-    this.data = init.data;
+    samples.set(this, init.data);
     this.nSweeps = init.nSweeps;
     this.nSamples = init.nSamples;
     this.fs = init.fs;
@@ -107,7 +126,7 @@ export class SweepSet implements Iterable<Float64Array> {
     const { step, ...rest } = overrides;
     const history = rest.history ?? (step ? [...this.history, { verb: step.verb, options: step.options, version: VERSION }] : this.history);
     return new SweepSet({
-      data: this.data,
+      data: samples.get(this)!,
       nSweeps: this.nSweeps,
       nSamples: this.nSamples,
       fs: this.fs,
@@ -119,6 +138,16 @@ export class SweepSet implements Iterable<Float64Array> {
       ...rest,
       history,
     });
+  }
+
+  /** All samples, sweep after sweep (nSweeps x nSamples), in `units`. */
+  get data(): Float64Array {
+    const d = samples.get(this)!;
+    if (d instanceof Float64Array) return d;
+    const out = sharedSamples(d.base.length);
+    runSweeps('correct', { x: d.base, out, n: this.nSamples, c: d.correction }, this.nSweeps, out.length);
+    samples.set(this, out);
+    return out;
   }
 
   /** Sample interval, ms. */
@@ -211,7 +240,7 @@ export class SweepSet implements Iterable<Float64Array> {
     const b = Math.min(this.nSamples - 1, Math.floor(((toMs - this.t0Ms) * this.fs) / 1000 + 1e-9));
     if (b < a) throw new OptionError(`invalid crop window: [${fromMs}, ${toMs}] ms lies outside the sweep [${this.t0Ms}, ${this.timeAt(this.nSamples - 1)}] ms`);
     const n = b - a + 1;
-    const out = new Float64Array(this.nSweeps * n);
+    const out = sharedSamples(this.nSweeps * n);
     for (let s = 0; s < this.nSweeps; s++) out.set(this.data.subarray(s * this.nSamples + a, s * this.nSamples + b + 1), s * n);
     return this.create({ data: out, nSamples: n, t0Ms: this.timeAt(a), step: { verb: 'crop', options: { fromMs, toMs } } });
   }
@@ -295,7 +324,7 @@ export class SweepSet implements Iterable<Float64Array> {
   /** Convert the signal to other units. */
   toUnits(units: SignalUnit): SweepSet {
     const f = signalFactor(this.units, units);
-    const out = new Float64Array(this.data.length);
+    const out = sharedSamples(this.data.length);
     for (let i = 0; i < out.length; i++) out[i] = this.data[i] * f;
     return this.create({ data: out, units, step: { verb: 'toUnits', options: { from: this.units, to: units } } });
   }

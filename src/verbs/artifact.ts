@@ -2,10 +2,12 @@
  * Stimulus-artifact removal. The artifact is not data (common practice, no source):
  * each method estimates it and removes it, leaving the neural response.
  */
-import type { SweepSet, Conditions, ConditionValue } from '../sweeps/SweepSet';
+import { deferredOf, type SweepSet, type Conditions, type ConditionValue } from '../sweeps/SweepSet';
 import { OptionError, AnalysisError } from '../errors';
 import { oneOf, windowMs } from '../validate';
-import { windowIndices } from './baseline';
+import { noCorrection, windowIndices } from './baseline';
+import { shareCopy, sharedSamples } from '../parallel/pool';
+import { correctSweep } from '../parallel/kernels';
 
 export type ArtifactMethod = 'blank' | 'template' | 'exponential' | 'alternate';
 
@@ -79,7 +81,8 @@ export function removeArtifact(set: SweepSet, options: ArtifactOptions): SweepSe
   if (method === 'alternate') return alternate(set);
   const [a, b] = windowIndices(set, window, 'window');
   if (method === 'blank') {
-    const out = Float64Array.from(set.data);
+    const out = sharedSamples(set.data.length);
+    out.set(set.data);
     for (let s = 0; s < set.nSweeps; s++) bridgeGap(out.subarray(s * n, (s + 1) * n), a, b, bridge);
     return set.create({ data: out, step: { verb: 'removeArtifact', options: { method, window, bridge } } });
   }
@@ -87,7 +90,8 @@ export function removeArtifact(set: SweepSet, options: ArtifactOptions): SweepSe
     const tail = windowMs('tailWindow', options.tailWindow ?? [window[1], window[1] + 0.4]);
     const [ta, tb] = windowIndices(set, tail, 'tailWindow');
     if (tb - ta < 4) throw new OptionError(`invalid tailWindow: [${tail[0]}, ${tail[1]}] ms holds ${tb - ta + 1} samples; need at least 5 to fit an exponential`);
-    const out = Float64Array.from(set.data);
+    const out = sharedSamples(set.data.length);
+    out.set(set.data);
     const taus: number[] = [];
     for (let s = 0; s < set.nSweeps; s++) {
       const x = out.subarray(s * n, (s + 1) * n);
@@ -104,9 +108,23 @@ export function removeArtifact(set: SweepSet, options: ArtifactOptions): SweepSe
   const [fa, fb] = windowIndices(set, fitWindow, 'fitWindow');
   const keys = options.templateBy ?? ['preparation', 'site', 'distanceMm'].filter((k) => set.conditions.some((c) => k in c));
   const groups = groupKeys(set, keys);
-  const out = new Float64Array(set.data.length);
+  // a pending baseline is applied on the fly; the subtraction is left pending too
+  const pending = deferredOf(set);
+  const prior = pending && !pending.correction.template ? pending.correction : null;
+  const base = prior ? pending!.base : set.data;
+  const corrected = (i: number, dst: Float64Array, i0 = 0, i1 = n): Float64Array => {
+    if (prior) correctSweep(base, n, prior, i, dst, 0, i0, i1);
+    else dst.set(base.subarray(i * n + i0, i * n + i1), i0);
+    return dst;
+  };
+  const scratch = new Float64Array(n);
   const used: Record<string, number[]> = {};
+  const templates = new Float64Array(groups.size * n);
+  const scales = new Float64Array(set.nSweeps);
+  const groupOf = new Int32Array(set.nSweeps);
+  let g = -1;
   for (const [id, members] of groups) {
+    g++;
     let tmpl: number[];
     if (options.templateSweeps) tmpl = options.templateSweeps.filter((i) => members.includes(i));
     else {
@@ -119,18 +137,18 @@ export function removeArtifact(set: SweepSet, options: ArtifactOptions): SweepSe
     }
     if (tmpl.length === 0) throw new AnalysisError(`no template sweeps in group ${id}: give maxIntensity or templateSweeps that select sub-threshold sweeps`);
     used[id] = tmpl;
-    const T = new Float64Array(n);
+    const T = templates.subarray(g * n, (g + 1) * n);
     for (const i of tmpl) {
-      const x = set.sweep(i);
+      const x = corrected(i, scratch);
       for (let k = 0; k < n; k++) T[k] += x[k] / tmpl.length;
     }
     const tI = tmpl.reduce((acc, i) => acc + ((set.conditions[i].intensity as number) ?? NaN), 0) / tmpl.length;
     let tt = 0;
     for (let k = fa; k <= fb; k++) tt += T[k] * T[k];
     for (const i of members) {
-      const x = set.sweep(i);
       let scale: number;
       if (scaling === 'fit') {
+        const x = corrected(i, scratch, fa, fb + 1);
         let xt = 0;
         for (let k = fa; k <= fb; k++) xt += x[k] * T[k];
         scale = tt > 0 ? xt / tt : 0;
@@ -139,10 +157,12 @@ export function removeArtifact(set: SweepSet, options: ArtifactOptions): SweepSe
         if (typeof I !== 'number' || !(tI > 0)) throw new AnalysisError(`scaling "intensity" needs a positive intensity on sweep ${i} and its template sweeps`);
         scale = I / tI;
       }
-      for (let k = 0; k < n; k++) out[i * n + k] = x[k] - scale * T[k];
+      scales[i] = scale;
+      groupOf[i] = g;
     }
   }
-  return set.create({ data: out, extras: { templateSweeps: used }, step: { verb: 'removeArtifact', options: { method, window, scaling, fitWindow, templateBy: keys, maxIntensity: options.maxIntensity ?? null, templateSweeps: options.templateSweeps ?? null } } });
+  const correction = { ...(prior ?? noCorrection()), template: true, scale: shareCopy(scales), group: shareCopy(groupOf), templates: shareCopy(templates) };
+  return set.create({ data: { base, correction }, extras: { templateSweeps: used }, step: { verb: 'removeArtifact', options: { method, window, scaling, fitWindow, templateBy: keys, maxIntensity: options.maxIntensity ?? null, templateSweeps: options.templateSweeps ?? null } } });
 }
 
 /**

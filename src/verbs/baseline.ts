@@ -1,6 +1,8 @@
 import type { SweepSet } from '../sweeps/SweepSet';
 import { OptionError } from '../errors';
 import { oneOf, windowMs } from '../validate';
+import { shareCopy } from '../parallel/pool';
+import type { Correction } from '../parallel/kernels';
 
 export interface BaselineOptions {
   /** Pre-stimulus window [from, to], ms relative to the stimulus. Default: sweep start to -0.1 ms. */
@@ -58,21 +60,23 @@ export function baseline(set: SweepSet, options: BaselineOptions = {}): SweepSet
   const lb = late ? windowIndices(set, late, 'lateWindow') : null;
   if (lb && !(lb[0] > b)) throw new OptionError(`invalid lateWindow: [${late![0]}, ${late![1]}] ms; must lie after window [${w[0]}, ${w[1]}] ms`);
   const n = set.nSamples;
-  const out = new Float64Array(set.data.length);
+  const x = set.data;
   const buf = new Float64Array(n);
   const ca = (a + b) / 2;
   const cb = lb ? (lb[0] + lb[1]) / 2 : 0;
+  const level0 = new Float64Array(set.nSweeps);
+  const slope = new Float64Array(set.nSweeps);
   for (let s = 0; s < set.nSweeps; s++) {
-    const x = set.data.subarray(s * n, (s + 1) * n);
-    const l0 = level(x, a, b, method, buf);
-    const o = s * n;
-    if (!lb) {
-      for (let i = 0; i < n; i++) out[o + i] = x[i] - l0;
-    } else {
-      const l1 = level(x, lb[0], lb[1], method, buf);
-      const slope = (l1 - l0) / (cb - ca);
-      for (let i = 0; i < n; i++) out[o + i] = x[i] - (l0 + slope * (i - ca));
-    }
+    const sw = x.subarray(s * n, (s + 1) * n);
+    level0[s] = level(sw, a, b, method, buf);
+    if (lb) slope[s] = (level(sw, lb[0], lb[1], method, buf) - level0[s]) / (cb - ca);
   }
-  return set.create({ data: out, step: { verb: 'baseline', options: { window: w, method, lateWindow: late } } });
+  // the subtraction is left pending: it happens when the samples are next read
+  const correction = { ...noCorrection(), line: true, level: shareCopy(level0), slope: shareCopy(slope), center: ca };
+  return set.create({ data: { base: x, correction }, step: { verb: 'baseline', options: { window: w, method, lateWindow: late } } });
+}
+
+/** A correction that changes nothing (fields to be overridden). */
+export function noCorrection(): Correction {
+  return { line: false, level: new Float64Array(0), slope: new Float64Array(0), center: 0, template: false, scale: new Float64Array(0), group: new Int32Array(0), templates: new Float64Array(0) };
 }

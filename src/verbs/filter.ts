@@ -1,6 +1,8 @@
-import type { SweepSet } from '../sweeps/SweepSet';
+import { deferredOf, type SweepSet } from '../sweeps/SweepSet';
 import { butter, iirnotch, type BType, type Sos } from '../signal/butter';
-import { defaultPadlen, filtfiltWork, sosfiltfilt, sosfiltfiltPair } from '../signal/sosfilt';
+import { defaultPadlen } from '../signal/sosfilt';
+import { runSweeps, sharedSamples } from '../parallel/pool';
+import { OptionError } from '../errors';
 import { integerIn, oneOf, positive } from '../validate';
 
 export interface FilterOptions {
@@ -18,14 +20,11 @@ export const filterDefaults = { order: 4 };
 /** Apply sos forward and backward to every sweep (zero phase). */
 export function applySos(set: SweepSet, sos: Sos, padlen: number): Float64Array {
   const n = set.nSamples;
-  const out = new Float64Array(set.data.length);
-  const work = filtfiltWork(sos, n, padlen);
-  const work2 = filtfiltWork(sos, n, padlen);
-  const sw = (s: number) => set.data.subarray(s * n, (s + 1) * n);
-  const ow = (s: number) => out.subarray(s * n, (s + 1) * n);
-  let s = 0;
-  for (; s + 1 < set.nSweeps; s += 2) sosfiltfiltPair(sos, sw(s), sw(s + 1), ow(s), ow(s + 1), work, work2, padlen);
-  if (s < set.nSweeps) sosfiltfilt(sos, sw(s), { padlen, work, out: ow(s) });
+  if (n <= padlen) throw new OptionError(`sweeps of ${n} samples are too short for zero-phase filtering; must be longer than padlen = ${padlen} samples`);
+  const d = deferredOf(set);
+  const x = d ? d.base : set.data;
+  const out = sharedSamples(x.length);
+  runSweeps('filtfilt', { x, c: d ? d.correction : null, out, n, sos: sos.map((r) => [...r]), padlen }, set.nSweeps, x.length);
   return out;
 }
 

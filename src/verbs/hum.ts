@@ -1,3 +1,4 @@
+import { sharedSamples } from '../parallel/pool';
 import type { SweepSet } from '../sweeps/SweepSet';
 import { OptionError } from '../errors';
 import { fitSines, sinesAt } from '../signal/sinefit';
@@ -61,7 +62,7 @@ export function removeHum(set: SweepSet, options: HumOptions = {}): SweepSet {
     f = freqOpt;
   }
   if (f * harmonics >= set.fs / 2) throw new OptionError(`invalid harmonics: ${harmonics} at ${f.toFixed(2)} Hz reach fs/2 (fs=${set.fs} Hz)`);
-  const out = new Float64Array(set.data.length);
+  const out = sharedSamples(set.data.length);
   const hum = new Float64Array(n);
   const amplitudes: number[] = [];
   for (let s = 0; s < set.nSweeps; s++) {

@@ -75,12 +75,16 @@ line('peak RSS after loading', `${mb(process.memoryUsage().rss)} MB`);
 
 console.log('\n== conditioning: 4th-order zero-phase low-pass + baseline + template artifact subtraction');
 const withI = bset.create({ conditions: bset.conditions.map((c, s) => ({ ...c, preparation: 'P', intensity: (s % 20) + 1 })) });
+const chain = () => withI.baseline({ window: [-2, -0.1] }).removeArtifact({ method: 'template', window: [0, 0.3], maxIntensity: 3 }).lowpass(5000, 4).data;
+const T = f.threads();
 best = Infinity;
-for (let k = 0; k < 3; k++) {
-  const x = timed(() => withI.baseline({ window: [-2, -0.1] }).removeArtifact({ method: 'template', window: [0, 0.3], maxIntensity: 3 }).lowpass(5000, 4));
-  best = Math.min(best, x.t);
-}
-line(`fascicle ${S} x ${N}`, `${best.toFixed(2)} s, ${(S * N / best / 1e6).toFixed(1)} M samples/s`);
+for (let k = 0; k < 5; k++) best = Math.min(best, timed(chain).t);
+line(`fascicle ${S} x ${N} (${T} thread${T > 1 ? 's' : ''})`, `${best.toFixed(2)} s, ${(S * N / best / 1e6).toFixed(1)} M samples/s`);
+f.setThreads(1);
+let best1 = Infinity;
+for (let k = 0; k < 5; k++) best1 = Math.min(best1, timed(chain).t);
+f.setThreads(T);
+line(`fascicle ${S} x ${N} (1 thread)`, `${best1.toFixed(2)} s, ${(S * N / best1 / 1e6).toFixed(1)} M samples/s`);
 const py = spawnSync('python3', ['-c', `
 import numpy as np, time
 from scipy import signal
@@ -88,7 +92,7 @@ x = np.fromfile(${JSON.stringify(binPath)}, dtype=np.float32).astype(np.float64)
 fs=${fs}; t=-2+np.arange(${N})*1000/fs
 I=(np.arange(${S})%20)+1
 best=1e9
-for k in range(3):
+for k in range(5):
     t0=time.perf_counter()
     y = x - x[:, t<=-0.1].mean(axis=1, keepdims=True)
     T = y[I<=3].mean(axis=0)
@@ -103,7 +107,7 @@ print(best)
 if (py.status === 0) {
   const tp = Number(py.stdout.trim());
   line('SciPy (sosfiltfilt, NumPy) same work, same data', `${tp.toFixed(2)} s, ${(S * N / tp / 1e6).toFixed(1)} M samples/s`);
-  line('ratio SciPy time / fascicle time', `${(tp / best).toFixed(2)} (${targetNote(tp / best >= 1)}: target >= 1)`);
+  line('ratio SciPy time / fascicle time', `${(tp / best).toFixed(2)} (${targetNote(tp / best >= 1)}: target >= 1); 1 thread: ${(tp / best1).toFixed(2)}`);
 } else line('SciPy comparison', 'skipped (python3 with SciPy not found)');
 bset = null;
 

@@ -1,0 +1,140 @@
+/**
+ * Per-sweep kernels that the thread pool (./pool.ts) runs on a range of sweeps
+ * [s0, s1). Each one is also what the main thread runs for its own share, so a
+ * result is the same bit for bit whatever the split. Arguments hold only numbers
+ * and typed arrays (shared when a worker takes part).
+ */
+import { readSync } from 'node:fs';
+import { sosfiltfilt, sosfiltfiltPair, filtfiltWork } from '../signal/sosfilt';
+import type { Sos } from '../signal/butter';
+
+/**
+ * A per-sweep correction that baseline and template artifact subtraction leave
+ * pending (see DeferredSamples in src/sweeps/SweepSet.ts): a line
+ * level + slope (i - center) and then scale x the sweep's group template are
+ * subtracted. The arithmetic is exactly the verbs' own, so a deferred result equals
+ * the eager one bit for bit.
+ */
+export interface Correction {
+  line: boolean; level: Float64Array; slope: Float64Array; center: number;
+  template: boolean; scale: Float64Array; group: Int32Array; templates: Float64Array;
+}
+
+/** Write samples [i0, i1) of corrected sweep s of base (n samples per sweep) to dst[o + i]. */
+export function correctSweep(base: Float64Array, n: number, c: Correction, s: number, dst: Float64Array, o: number, i0 = 0, i1 = n): void {
+  const b = s * n;
+  if (c.line) {
+    const l0 = c.level[s], k = c.slope[s];
+    if (k === 0) for (let i = i0; i < i1; i++) dst[o + i] = base[b + i] - l0;
+    else for (let i = i0; i < i1; i++) dst[o + i] = base[b + i] - (l0 + k * (i - c.center));
+  } else for (let i = i0; i < i1; i++) dst[o + i] = base[b + i];
+  if (c.template) {
+    const k = c.scale[s], t = c.group[s] * n - o, T = c.templates;
+    for (let i = o + i0, e = o + i1; i < e; i++) dst[i] = dst[i] - k * T[t + i];
+  }
+}
+
+export interface CorrectArgs { x: Float64Array; out: Float64Array; n: number; c: Correction }
+/** Apply a pending correction to sweeps s0..s1-1. */
+function correct(a: CorrectArgs, s0: number, s1: number): number {
+  for (let s = s0; s < s1; s++) correctSweep(a.x, a.n, a.c, s, a.out, s * a.n);
+  return -1;
+}
+
+export interface FiltfiltArgs { x: Float64Array; c: Correction | null; out: Float64Array; n: number; sos: number[][]; padlen: number }
+/**
+ * Zero-phase filtering of sweeps s0..s1-1 (pairs share one interleaved loop); a
+ * pending correction is applied to each sweep on the way in.
+ */
+function filtfilt(a: FiltfiltArgs, s0: number, s1: number): number {
+  const { x, c, out, n, padlen } = a;
+  const sos = a.sos as unknown as Sos;
+  const work = filtfiltWork(sos, n, padlen);
+  const work2 = filtfiltWork(sos, n, padlen);
+  const ta = c ? new Float64Array(n) : null, tb = c ? new Float64Array(n) : null;
+  const input = (s: number, t: Float64Array | null) => {
+    if (!c || !t) return x.subarray(s * n, (s + 1) * n);
+    correctSweep(x, n, c, s, t, 0);
+    return t;
+  };
+  let s = s0;
+  for (; s + 1 < s1; s += 2) {
+    sosfiltfiltPair(sos, input(s, ta), input(s + 1, tb), out.subarray(s * n, (s + 1) * n), out.subarray((s + 1) * n, (s + 2) * n), work, work2, padlen);
+  }
+  if (s < s1) sosfiltfilt(sos, input(s, ta), { padlen, work, out: out.subarray(s * n, (s + 1) * n) });
+  return -1;
+}
+
+export interface LoadArgs {
+  fd: number; dtype: 'int16' | 'float32' | 'float64'; little: boolean; interleaved: boolean;
+  nSamples: number; nChannels: number; channel: number; gain: number; offset: number;
+  out: Float64Array; chunkSweeps: number;
+}
+const BYTES = { int16: 2, float32: 4, float64: 8 } as const;
+const NATIVE_LITTLE = new Uint8Array(new Uint16Array([1]).buffer)[0] === 1;
+let scratch = new ArrayBuffer(0);
+/**
+ * Read sweeps s0..s1-1 of a raw binary file (every sweep a contiguous block of
+ * nChannels x nSamples values) in chunks, convert to float64 with gain and offset
+ * and write them to out. Returns the flat index of the first non-finite value
+ * written, or -1.
+ */
+function load(a: LoadArgs, s0: number, s1: number): number {
+  const { fd, dtype, little, interleaved, nSamples: n, nChannels: nc, channel: ch, gain, offset, out } = a;
+  const w = BYTES[dtype];
+  const sweepBytes = n * nc * w;
+  const identity = gain === 1 && offset === 0;
+  const direct = dtype === 'float64' && nc === 1 && identity && little === NATIVE_LITTLE;
+  for (let s = s0; s < s1; s += a.chunkSweeps) {
+    const k = Math.min(a.chunkSweeps, s1 - s);
+    const bytes = k * sweepBytes;
+    let dst: Uint8Array;
+    if (direct) dst = new Uint8Array(out.buffer, out.byteOffset + s * n * 8, bytes);
+    else {
+      if (scratch.byteLength < bytes) scratch = new ArrayBuffer(bytes);
+      dst = new Uint8Array(scratch, 0, bytes);
+    }
+    let got = 0;
+    while (got < bytes) {
+      const r = readSync(a.fd, dst, got, bytes - got, s * sweepBytes + got);
+      if (r <= 0) throw new Error(`short read at byte ${s * sweepBytes + got}`);
+      got += r;
+    }
+    const o = s * n;
+    if (direct) {
+      for (let i = o, e = o + k * n; i < e; i++) if (out[i] - out[i] !== 0) return i;
+      continue;
+    }
+    let src: ArrayLike<number>;
+    if (little === NATIVE_LITTLE) {
+      src = dtype === 'int16' ? new Int16Array(scratch, 0, bytes / 2) : dtype === 'float32' ? new Float32Array(scratch, 0, bytes / 4) : new Float64Array(scratch, 0, bytes / 8);
+    } else {
+      const dv = new DataView(scratch, 0, bytes);
+      const m = bytes / w;
+      const arr = new Float64Array(m);
+      for (let i = 0; i < m; i++) arr[i] = dtype === 'int16' ? dv.getInt16(i * 2, little) : dtype === 'float32' ? dv.getFloat32(i * 4, little) : dv.getFloat64(i * 8, little);
+      src = arr;
+    }
+    let bad = 0;
+    for (let j = 0; j < k; j++) {
+      const d = o + j * n;
+      if (!interleaved) {
+        const b = (j * nc + ch) * n;
+        if (identity && !(src instanceof Float64Array) && ArrayBuffer.isView(src)) {
+          // native conversion, then the finite check on the source values
+          out.set((src as Float32Array | Int16Array).subarray(b, b + n), d);
+          for (let i = b, e = b + n; i < e; i++) bad += src[i] - src[i];
+        } else if (identity) for (let i = 0; i < n; i++) { const v = src[b + i]; out[d + i] = v; bad += v - v; }
+        else for (let i = 0; i < n; i++) { const v = src[b + i] * gain + offset; out[d + i] = v; bad += v - v; }
+      } else {
+        const b = j * n * nc + ch;
+        for (let i = 0; i < n; i++) { const v = src[b + i * nc] * gain + offset; out[d + i] = v; bad += v - v; }
+      }
+    }
+    if (bad !== 0) for (let i = o, e = o + k * n; i < e; i++) if (out[i] - out[i] !== 0) return i;
+  }
+  return -1;
+}
+
+export const kernels = { filtfilt, correct, load } as const;
+export type KernelName = keyof typeof kernels;

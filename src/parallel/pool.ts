@@ -1,0 +1,157 @@
+/**
+ * A small pool of worker threads for per-sweep work on large sets.
+ *
+ * Sweeps are independent, so a verb splits its sweeps into one contiguous range per
+ * thread; the main thread works on the first range while the workers take the
+ * others, then waits for them (Atomics.wait: the calls stay synchronous). Workers
+ * can only see shared memory, so large sample arrays are allocated on a
+ * SharedArrayBuffer (sharedSamples); where an argument is not shared, or the work is
+ * small, everything runs on the calling thread. Every thread runs the same kernel
+ * (./kernels.ts) on whole sweeps, so results do not depend on the number of threads.
+ *
+ * Threads: FASCICLE_THREADS in the environment or setThreads(n); default the number
+ * of cores (at most 8). Worker threads of the command line (--jobs) use one each.
+ */
+import { Worker, MessageChannel, receiveMessageOnPort, isMainThread, type MessagePort } from 'node:worker_threads';
+import { existsSync } from 'node:fs';
+import { join } from 'node:path';
+import { availableParallelism } from 'node:os';
+import { OptionError } from '../errors';
+import { kernels, type KernelName } from './kernels';
+
+interface Slot { worker: Worker; control: Int32Array; port: MessagePort; seq: number }
+const slots: Slot[] = [];
+let setting: number | null = null;
+let broken = false;
+let dispatched = 0;
+
+/** Jobs handed to worker threads so far (for tests and diagnostics). */
+export function workerJobs(): number {
+  return dispatched;
+}
+
+/** Below this many samples of work, a call stays on the calling thread. */
+export const PARALLEL_MIN_SAMPLES = 1 << 19;
+
+/** Threads that per-sweep verbs use (1 = no worker threads). */
+export function threads(): number {
+  if (!isMainThread || broken) return 1;
+  if (setting !== null) return setting;
+  const env = process.env.FASCICLE_THREADS;
+  if (env !== undefined && env !== '') {
+    const v = Number(env);
+    if (!Number.isInteger(v) || v < 1) throw new OptionError(`invalid FASCICLE_THREADS: ${JSON.stringify(env)}; must be an integer >= 1`);
+    return Math.min(v, 64);
+  }
+  return Math.max(1, Math.min(availableParallelism(), 8));
+}
+
+/** Set the number of threads for per-sweep work (1 turns worker threads off). */
+export function setThreads(n: number): void {
+  if (!Number.isInteger(n) || n < 1 || n > 64) throw new OptionError(`invalid threads: ${n}; must be an integer from 1 to 64`);
+  setting = n;
+}
+
+// V8 (Node 20) does not count shared memory towards the external-memory pressure that
+// starts a garbage collection, so unreachable shared sample arrays could pile up. Each
+// one is paired with an untouched ordinary ArrayBuffer of the same size (address
+// space only, never written, so it costs no physical memory) that V8 does count.
+const ballast = new WeakMap<SharedArrayBuffer, ArrayBuffer>();
+
+/** A Float64Array of n samples, on shared memory when worker threads may work on it. */
+export function sharedSamples(n: number): Float64Array {
+  if (n < PARALLEL_MIN_SAMPLES || threads() < 2) return new Float64Array(n);
+  const sab = new SharedArrayBuffer(n * 8);
+  ballast.set(sab, new ArrayBuffer(n * 8));
+  return new Float64Array(sab);
+}
+
+/** Copy of a small typed array on shared memory (for kernel arguments), when threads are on. */
+export function shareCopy<T extends Float64Array | Int32Array>(a: T): T {
+  if (a.buffer instanceof SharedArrayBuffer || threads() < 2) return a;
+  const C = a.constructor as new (b: SharedArrayBuffer) => T;
+  const out = new C(new SharedArrayBuffer(a.byteLength));
+  out.set(a as never);
+  return out;
+}
+
+function workerFile(): string | null {
+  const here = join(__dirname, 'worker.js');
+  if (existsSync(here)) return here;
+  const built = join(__dirname, '..', '..', 'dist', 'parallel', 'worker.js'); // when running from src (tests)
+  return existsSync(built) ? built : null;
+}
+
+function startSlot(): Slot | null {
+  const file = workerFile();
+  if (!file) return null;
+  const control = new Int32Array(new SharedArrayBuffer(16));
+  const { port1, port2 } = new MessageChannel();
+  let worker: Worker;
+  try {
+    worker = new Worker(file, { workerData: { control: control.buffer, port: port2 }, transferList: [port2] });
+  } catch {
+    return null;
+  }
+  worker.unref();
+  worker.on('error', () => { broken = true; });
+  // wait (up to 20 s) for the worker to say it is ready
+  if (Atomics.wait(control, 2, 0, 20000) === 'timed-out' && Atomics.load(control, 2) === 0) {
+    void worker.terminate();
+    return null;
+  }
+  return { worker, control, port: port1, seq: 0 };
+}
+
+/** True when every typed array in args (and in its plain-object fields) is on shared memory. */
+function sharedArgs(args: object): boolean {
+  for (const v of Object.values(args)) {
+    if (ArrayBuffer.isView(v)) {
+      if (!(v.buffer instanceof SharedArrayBuffer)) return false;
+    } else if (v && typeof v === 'object' && !Array.isArray(v) && !sharedArgs(v)) return false;
+  }
+  return true;
+}
+
+/**
+ * Run a kernel over sweeps [0, nSweeps), split across threads when the arrays in
+ * args are shared and the work (samples) is large enough. Returns each part's
+ * result in sweep order.
+ */
+export function runSweeps<K extends KernelName>(kernel: K, args: Parameters<(typeof kernels)[K]>[0], nSweeps: number, work: number): number[] {
+  const run = kernels[kernel] as (a: unknown, s0: number, s1: number) => number;
+  const T = Math.min(threads(), nSweeps);
+  if (T < 2 || work < PARALLEL_MIN_SAMPLES || !sharedArgs(args)) return [run(args, 0, nSweeps)];
+  while (slots.length < T - 1) {
+    const s = startSlot();
+    if (!s) { broken = true; return [run(args, 0, nSweeps)]; }
+    slots.push(s);
+  }
+  const bounds = Array.from({ length: T + 1 }, (_, k) => Math.round((k * nSweeps) / T));
+  const used = slots.slice(0, T - 1);
+  used.forEach((slot, j) => {
+    slot.port.postMessage({ kernel, args, s0: bounds[j + 1], s1: bounds[j + 2] });
+    slot.seq = (slot.seq + 1) | 0;
+    dispatched++;
+    Atomics.store(slot.control, 0, slot.seq);
+    Atomics.notify(slot.control, 0);
+  });
+  const results: number[] = new Array(T);
+  let failure: Error | null = null;
+  try {
+    results[0] = run(args, bounds[0], bounds[1]);
+  } catch (e) {
+    failure = e as Error;
+  }
+  used.forEach((slot, j) => {
+    let v: number;
+    while ((v = Atomics.load(slot.control, 1)) !== slot.seq) Atomics.wait(slot.control, 1, v);
+    let reply = receiveMessageOnPort(slot.port);
+    while (!reply) { Atomics.wait(slot.control, 3, 0, 1); reply = receiveMessageOnPort(slot.port); }
+    const m = reply.message as { value?: number; error?: string };
+    if (m.error !== undefined && !failure) failure = new Error(`worker thread: ${m.error}`);
+    results[j + 1] = m.value ?? -1;
+  });
+  if (failure) throw failure;
+  return results;
+}
