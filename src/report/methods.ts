@@ -56,6 +56,9 @@ export function methodsText(history: readonly Step[], extra: { files?: number; p
       case 'decimate':
         s.push(`Sweeps were down-sampled by ${o.factor} after a zero-phase ${ord(o.order)}-order Butterworth anti-alias filter at ${Number(o.cutoffHz).toFixed(0)} Hz.`);
         break;
+      case 'resample':
+        s.push(`Sweeps were resampled to ${o.fs} Hz (factor ${o.up}/${o.down}) with a polyphase anti-alias FIR filter (${o.taps} taps, Kaiser window, beta ${o.beta}, cutoff ${Number(o.cutoffHz).toFixed(0)} Hz; zero phase; ${o.padtype === 'constant' ? 'zero' : o.padtype} padding at the sweep ends).`);
+        break;
       case 'average':
         s.push(`Sweeps were averaged (${o.method}) within groups of equal ${(o.by ?? []).join(', ')}.`);
         break;

@@ -13,6 +13,7 @@ import { removeArtifact, alignStimulus, detectStimulus, type ArtifactOptions, ty
 import { filter, notch, type FilterOptions, type NotchOptions } from '../verbs/filter';
 import { removeHum, type HumOptions } from '../verbs/hum';
 import { decimate, type DecimateOptions } from '../verbs/decimate';
+import { resample, type ResampleOptions } from '../verbs/resample';
 import { ComponentTable } from '../measure/table';
 import type { ComponentOptions } from '../measure/components';
 import { signalFactor, type SignalUnit } from './units';
@@ -305,6 +306,14 @@ export class SweepSet implements Iterable<Float64Array> {
   /** Down-sample by an integer factor after a zero-phase anti-alias low-pass. */
   decimate(options: DecimateOptions): SweepSet {
     return decimate(this, options);
+  }
+
+  /**
+   * Change the sample rate by a rational factor (polyphase FIR, as SciPy's resample_poly).
+   * @example set.resample({ fs: 20000 })
+   */
+  resample(options: ResampleOptions): SweepSet {
+    return resample(this, options);
   }
 
   /**

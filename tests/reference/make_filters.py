@@ -36,8 +36,18 @@ b, a = signal.iirnotch(50.0, 30.0, fs=1000.0)
 notch = {"f0": 50.0, "Q": 30.0, "fs": 1000.0, "b": b.tolist(), "a": a.tolist(),
          "filtfilt": signal.filtfilt(b, a, np.array(x)).tolist()}
 zi = signal.sosfilt_zi(signal.butter(4, 0.2, output="sos")).tolist()
+# rational-rate resampling (scipy.signal.resample_poly, default Kaiser beta 5 FIR)
+resample = []
+for up, down, padtype in [(2, 5, "constant"), (5, 2, "constant"), (1, 3, "constant"), (3, 1, "constant"),
+                          (2, 5, "mean"), (2, 5, "median"), (160, 147, "constant"), (7, 11, "mean")]:
+    y = signal.resample_poly(np.array(x), up, down, padtype=padtype)
+    resample.append({"up": up, "down": down, "padtype": padtype, "y": y.tolist()})
+fir = {"numtaps": 41, "cutoff": 0.3, "beta": 5.0,
+       "h": signal.firwin(41, 0.3, window=("kaiser", 5.0)).tolist(),
+       "kaiser_15_8.6": signal.get_window(("kaiser", 8.6), 15, fftbins=False).tolist()}
 ref = {"generator": "tests/reference/make_filters.py", "scipy": scipy.__version__, "numpy": np.__version__,
-       "input": x, "cases": cases, "notch": notch, "sosfilt_zi_butter4_0.2": zi}
+       "input": x, "cases": cases, "notch": notch, "sosfilt_zi_butter4_0.2": zi,
+       "resample_poly": resample, "firwin_kaiser": fir}
 
 def close(a, b, rtol=1e-12, atol=1e-14):
     if isinstance(a, list):

@@ -1,0 +1,59 @@
+import type { SweepSet } from '../sweeps/SweepSet';
+import { polyphaseDesign, rationalRatio, resampledLength, resamplePolyInto } from '../signal/resample';
+import { OptionError } from '../errors';
+import { oneOf, positive } from '../validate';
+import { sharedSamples } from '../parallel/pool';
+
+export interface ResampleOptions {
+  /** new sample rate, Hz; new / old must be a fraction up/down with up, down <= 1000 (e.g. 50000 -> 20000 is 2/5) */
+  fs: number;
+  /**
+   * what lies outside each sweep for the filter: 'constant' (zeros, default, as
+   * SciPy's resample_poly), 'mean' or 'median' (the sweep's own mean or median is
+   * taken off first and added back, so the ends do not sag towards zero)
+   */
+  padtype?: 'constant' | 'mean' | 'median';
+  /** Kaiser window beta of the anti-alias FIR filter (default 5) */
+  beta?: number;
+}
+export const resampleDefaults = { padtype: 'constant' as const, beta: 5, maxFactor: 1000 };
+
+/**
+ * Change the sample rate by a rational factor up/down with a polyphase
+ * Kaiser-windowed FIR anti-alias filter (the method and defaults of SciPy's
+ * resample_poly; zero phase: output sample k lies at input time k down/up, so the
+ * time of the first sample is kept).
+ * @example set.resample({ fs: 20000 })
+ */
+export function resample(set: SweepSet, options: ResampleOptions): SweepSet {
+  if (!options || typeof options !== 'object') throw new OptionError('resample needs options { fs } (new sample rate, Hz)');
+  const fsOut = positive('fs', options.fs, 'Hz');
+  const padtype = oneOf('padtype', options.padtype ?? resampleDefaults.padtype, ['constant', 'mean', 'median'] as const);
+  const beta = options.beta ?? resampleDefaults.beta;
+  if (typeof beta !== 'number' || !(beta >= 0 && beta <= 40)) throw new OptionError(`invalid beta: ${beta}; must be a number from 0 to 40`);
+  const { up, down } = rationalRatio(set.fs, fsOut, resampleDefaults.maxFactor);
+  if (up === down) return set.create({ step: { verb: 'resample', options: { fs: fsOut, up, down, padtype, beta } } });
+  const { h, preRemove } = polyphaseDesign(up, down, beta);
+  const n = set.nSamples;
+  const m = resampledLength(n, up, down);
+  const out = sharedSamples(set.nSweeps * m);
+  const x = set.data;
+  const buf = padtype === 'median' ? new Float64Array(n) : null;
+  for (let s = 0; s < set.nSweeps; s++) {
+    const sw = x.subarray(s * n, (s + 1) * n);
+    let bg = 0;
+    if (padtype === 'mean') {
+      for (let i = 0; i < n; i++) bg += sw[i];
+      bg /= n;
+    } else if (buf) {
+      buf.set(sw);
+      buf.sort();
+      bg = n % 2 ? buf[(n - 1) / 2] : 0.5 * (buf[n / 2 - 1] + buf[n / 2]);
+    }
+    resamplePolyInto(sw, up, down, h, preRemove, out.subarray(s * m, (s + 1) * m), bg);
+  }
+  return set.create({
+    data: out, nSamples: m, fs: (set.fs * up) / down,
+    step: { verb: 'resample', options: { fs: fsOut, up, down, padtype, beta, taps: h.length, cutoffHz: (Math.min(set.fs, fsOut) / 2) } },
+  });
+}
