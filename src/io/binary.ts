@@ -84,6 +84,7 @@ export function readBinary(sidecarPath: string, extra: { conditions?: Conditions
   const dataPath = resolve(dirname(sidecarPath), meta.data);
   const { fd, stat } = openInput(dataPath);
   const source = lazySource(dataPath, stat);
+  source.partOf = sidecarPath;
   const w = BYTES[meta.dtype];
   const expectBytes = nSweeps * nSamples * nCh * w;
   const out = sharedSamples(nSweeps * nSamples);

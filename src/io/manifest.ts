@@ -90,6 +90,9 @@ export function readManifest(path: string, opts: { only?: (f: ManifestFile, i: n
       }
       set = set.create({ conditions: set.conditions.map((c, i) => ({ ...c, ...f.sweeps![i] })) });
     }
+    // the file as the manifest names it (relative to the manifest), so tables do not
+    // depend on the folder the study was copied to
+    set = set.create({ conditions: set.conditions.map((c) => ({ ...c, file: f.path })) });
     set.conditions.forEach((c, i) => {
       for (const k of required) {
         if (!(k in c) || c[k] === null || c[k] === undefined) {

@@ -5,6 +5,7 @@
  * across-preparation work (dose-response pooling, temperature fits) on their outputs.
  * Both are pure and deterministic, so sharded runs merge to the unsharded result.
  */
+import { dirname, resolve } from 'node:path';
 import type { ConditionValue, Step, Source, SweepSet } from '../sweeps/SweepSet';
 import { condition, type PipelineOptions } from './pipeline';
 import { doseResponse, type DoseResponseResult } from '../analysis/doseResponse';
@@ -130,8 +131,10 @@ export function byPreparation(set: SweepSet): { preparation: string; set: SweepS
     set.conditions.forEach((c, i) => { if (String(c.preparation ?? '') === p) idx.push(i); });
     const sub = set.select(idx);
     // keep only the sources of this preparation's files (plus the manifest)
-    const files = new Set(sub.conditions.map((c) => String(c.file)));
-    const sources = set.sources.filter((s, k) => k === 0 || files.has(s.path) || [...files].some((f) => s.path.replace(/\.bin$/, '.json') === f));
+    // (file conditions are relative to the manifest, the first source)
+    const dir = dirname(resolve(set.sources[0]?.path ?? '.'));
+    const files = new Set(sub.conditions.map((c) => resolve(dir, String(c.file))));
+    const sources = set.sources.filter((s, k) => k === 0 || files.has(resolve(s.path)) || (s.partOf !== undefined && files.has(resolve(s.partOf))));
     return { preparation: p, set: sub.create({ history: set.history, sources }) };
   });
 }

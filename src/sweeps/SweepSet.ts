@@ -50,6 +50,8 @@ export interface Source {
   path: string;
   sha256: string;
   bytes: number;
+  /** for a file read through another (a binary sidecar's data file): that file's path */
+  partOf?: string;
 }
 
 /**

@@ -1,9 +1,9 @@
 import { describe, it, expect } from 'vitest';
-import { mkdtempSync, writeFileSync } from 'node:fs';
+import { mkdtempSync, mkdirSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
-import { join } from 'node:path';
+import { basename, join } from 'node:path';
 import fc from 'fast-check';
-import { readBinary, readManifest, InputError } from '../../src';
+import { readBinary, readManifest, byPreparation, InputError } from '../../src';
 
 const dir = mkdtempSync(join(tmpdir(), 'fascicle-bin-'));
 let k = 0;
@@ -94,6 +94,21 @@ describe('readManifest(path)', () => {
     expect(() => readManifest(manifest({ fascicleManifest: 1, files: [{ path: 'p1.csv', conditions: { temperatureC: 'warm' } }] }))).toThrow(/\/files\/0\/conditions\/temperatureC must be number/);
     expect(() => readManifest(manifest({ fascicleManifest: 2, files: [] }))).toThrow(/does not match the manifest schema/);
     expect(() => readManifest(manifest({ fascicleManifest: 1, files: [{ path: 'p1.csv', sweeps: [{}] }] }))).toThrow(/1 sweep entries for p1.csv, which has 2 sweeps/);
+  });
+  it('records each file as the manifest names it, so a copied study gives the same conditions; a preparation keeps its sidecar\'s data file in its sources', () => {
+    const raw = new Float64Array([1, 2, 3, 4, 5, 6]);
+    for (const sub of ['copyA', 'copyB']) {
+      mkdirSync(join(dir, sub), { recursive: true });
+      writeFileSync(join(dir, sub, 'rec-data.bin'), new Uint8Array(raw.buffer));
+      writeFileSync(join(dir, sub, 'rec.json'), JSON.stringify({ data: 'rec-data.bin', dtype: 'float64', nSweeps: 2, nSamples: 3, fs: 10000, units: 'mV' }));
+      writeFileSync(join(dir, sub, 'study.json'), JSON.stringify({ fascicleManifest: 1, files: [{ path: 'rec.json', conditions: { preparation: 'Q1' } }] }));
+    }
+    const a = readManifest(join(dir, 'copyA', 'study.json'));
+    const b = readManifest(join(dir, 'copyB', 'study.json'));
+    expect(a.conditions).toEqual(b.conditions);
+    expect(a.conditions[0].file).toBe('rec.json');
+    const kept = byPreparation(a)[0].set.sources.map((s) => basename(s.path));
+    expect(kept).toEqual(['study.json', 'rec.json', 'rec-data.bin']);
   });
   it('names a missing file', () => {
     expect(() => readManifest(manifest({ fascicleManifest: 1, files: [{ path: 'nope.csv', conditions: { preparation: 'A' } }] }))).toThrow(/nope\.csv: cannot open file \(ENOENT\)/);
