@@ -74,27 +74,39 @@ export function invertSpd(A: number[][]): number[][] | null {
  * (cols[j][i] = X[i][j]), by the normal equations with column scaling.
  */
 export function lstsq(cols: ArrayLike<number>[], y: ArrayLike<number>): number[] | null {
+  return lstsqSolver(cols)(y);
+}
+
+/**
+ * The solver of lstsq for a fixed design, for many right-hand sides: the scaled
+ * normal matrix is formed once (same arithmetic as lstsq, so the same results).
+ */
+export function lstsqSolver(cols: ArrayLike<number>[]): (y: ArrayLike<number>) => number[] | null {
   const p = cols.length;
-  const n = y.length;
+  const n = p ? cols[0].length : 0;
   const scale = cols.map((c) => {
     let s = 0;
     for (let i = 0; i < n; i++) s += c[i] * c[i];
     return Math.sqrt(s) || 1;
   });
-  const A: number[][] = [];
-  const b: number[] = [];
+  const A0: number[][] = [];
   for (let j = 0; j < p; j++) {
-    A.push(new Array(p).fill(0));
-    let s = 0;
-    for (let i = 0; i < n; i++) s += cols[j][i] * y[i];
-    b.push(s / scale[j]);
+    A0.push(new Array(p).fill(0));
     for (let k = 0; k <= j; k++) {
       let t = 0;
       for (let i = 0; i < n; i++) t += cols[j][i] * cols[k][i];
-      A[j][k] = t / (scale[j] * scale[k]);
+      A0[j][k] = t / (scale[j] * scale[k]);
     }
   }
-  for (let j = 0; j < p; j++) for (let k = j + 1; k < p; k++) A[j][k] = A[k][j];
-  const x = solve(A, b);
-  return x ? x.map((v, j) => v / scale[j]) : null;
+  for (let j = 0; j < p; j++) for (let k = j + 1; k < p; k++) A0[j][k] = A0[k][j];
+  return (y) => {
+    const b: number[] = [];
+    for (let j = 0; j < p; j++) {
+      let s = 0;
+      for (let i = 0; i < y.length; i++) s += cols[j][i] * y[i];
+      b.push(s / scale[j]);
+    }
+    const x = solve(A0, b); // solve works on a copy
+    return x ? x.map((v, j) => v / scale[j]) : null;
+  };
 }

@@ -1,7 +1,7 @@
 import { sharedSamples } from '../parallel/pool';
 import type { SweepSet } from '../sweeps/SweepSet';
 import { OptionError } from '../errors';
-import { fitSines, sinesAt } from '../signal/sinefit';
+import { sineDesign } from '../signal/sinefit';
 import { integerIn } from '../validate';
 
 export interface HumOptions {
@@ -38,7 +38,10 @@ export function removeHum(set: SweepSet, options: HumOptions = {}): SweepSet {
   const n = set.nSamples;
   // use at most 16 sweeps (evenly spread) to pick the frequency
   const probe = Array.from({ length: Math.min(16, set.nSweeps) }, (_, k) => Math.floor((k * set.nSweeps) / Math.min(16, set.nSweeps)));
-  const rssAt = (f: number, H: number) => probe.reduce((s, i) => s + fitSines(set.sweep(i), t, f, H, mask).rss, 0);
+  const rssAt = (f: number, H: number) => {
+    const d = sineDesign(t, f, H, mask);
+    return probe.reduce((s, i) => s + d.fit(set.sweep(i)).rss, 0);
+  };
   let f: number;
   if (freqOpt === 'detect') {
     if (set.durationMs < 35) {
@@ -65,10 +68,11 @@ export function removeHum(set: SweepSet, options: HumOptions = {}): SweepSet {
   const out = sharedSamples(set.data.length);
   const hum = new Float64Array(n);
   const amplitudes: number[] = [];
+  const design = sineDesign(t, f, harmonics, mask);
   for (let s = 0; s < set.nSweeps; s++) {
     const x = set.sweep(s);
-    const fit = fitSines(x, t, f, harmonics, mask);
-    sinesAt(fit.coef, t, f, hum);
+    const fit = design.fit(x);
+    design.sinesAt(fit.coef, hum);
     amplitudes.push(Math.hypot(fit.coef[1], fit.coef[2]));
     for (let i = 0; i < n; i++) out[s * n + i] = x[i] - hum[i];
   }
