@@ -13,10 +13,11 @@ export function writeWide(path: string, set: SweepSet, opts: { delimiter?: ',' |
     return dc ? s.replace('.', ',') : s;
   };
   const labels = opts.labels ?? Array.from({ length: set.nSweeps }, (_, i) => `sweep ${i + 1}`);
+  const data = set.data;
   const lines = [[`time (ms)`, ...labels.map((l) => `${l} (${set.units})`)].join(d)];
   for (let i = 0; i < set.nSamples; i++) {
     const row = [fmt(set.timeAt(i), 4)];
-    for (let s = 0; s < set.nSweeps; s++) row.push(fmt(set.data[s * set.nSamples + i], digits));
+    for (let s = 0; s < set.nSweeps; s++) row.push(fmt(data[s * set.nSamples + i], digits));
     lines.push(row.join(d));
   }
   writeFileSync(path, lines.join('\n') + '\n');
@@ -24,13 +25,14 @@ export function writeWide(path: string, set: SweepSet, opts: { delimiter?: ',' |
 
 /** Write samples as binary (int16 with gain, or float32), sweep-major, little-endian; returns the sidecar object. */
 export function writeBinary(dataPath: string, set: SweepSet, dtype: 'int16' | 'float32', gain = 1): { dtype: string; gain: number; offset: number; nSweeps: number; nSamples: number; fs: number; t0Ms: number; units: string; byteOrder: string; layout: string } {
-  const n = set.data.length;
+  const data = set.data;
+  const n = data.length;
   let bytes: Uint8Array;
   if (dtype === 'int16') {
     const a = new Int16Array(n);
     for (let i = 0; i < n; i++) {
-      const v = Math.round(set.data[i] / gain);
-      if (v > 32767 || v < -32768) throw new Error(`sample ${i} (${set.data[i]}) overflows int16 with gain ${gain}`);
+      const v = Math.round(data[i] / gain);
+      if (v > 32767 || v < -32768) throw new Error(`sample ${i} (${data[i]}) overflows int16 with gain ${gain}`);
       a[i] = v;
     }
     bytes = new Uint8Array(a.buffer);

@@ -113,10 +113,11 @@ export function measureComponents(set: SweepSet, options: ComponentOptions = {})
   if (popt === 'auto') {
     const n = set.nSamples;
     const s0 = set.indexAt(earliest);
+    const data = set.data;
     let mx = 0, mn = 0;
     for (let i = s0; i < n; i++) {
       let m = 0;
-      for (let s = 0; s < set.nSweeps; s++) m += set.data[s * n + i];
+      for (let s = 0; s < set.nSweeps; s++) m += data[s * n + i];
       m /= set.nSweeps;
       if (m > mx) mx = m;
       if (m < mn) mn = m;

@@ -335,8 +335,9 @@ export class SweepSet implements Iterable<Float64Array> {
   /** Convert the signal to other units. */
   toUnits(units: SignalUnit): SweepSet {
     const f = signalFactor(this.units, units);
-    const out = sharedSamples(this.data.length);
-    for (let i = 0; i < out.length; i++) out[i] = this.data[i] * f;
+    const x = this.data;
+    const out = sharedSamples(x.length);
+    for (let i = 0; i < out.length; i++) out[i] = x[i] * f;
     return this.create({ data: out, units, step: { verb: 'toUnits', options: { from: this.units, to: units } } });
   }
 
@@ -442,6 +443,7 @@ export class GroupedSweeps {
     const out = new Float64Array(G * n);
     const sd = new Float64Array(G * n);
     const sem = new Float64Array(G * n);
+    const data = set.data;
     const conds: Conditions[] = [];
     const buf = new Float64Array(Math.max(1, ...this.groups.map((g) => g.indices.length)));
     this.groups.forEach((g, gi) => {
@@ -449,11 +451,11 @@ export class GroupedSweeps {
       const o = gi * n;
       for (let i = 0; i < n; i++) {
         let s = 0;
-        for (let k = 0; k < m; k++) s += set.data[g.indices[k] * n + i];
+        for (let k = 0; k < m; k++) s += data[g.indices[k] * n + i];
         const mean = s / m;
         let ss = 0;
         for (let k = 0; k < m; k++) {
-          const d = set.data[g.indices[k] * n + i] - mean;
+          const d = data[g.indices[k] * n + i] - mean;
           ss += d * d;
         }
         const v = m > 1 ? Math.sqrt(ss / (m - 1)) : NaN;
@@ -461,7 +463,7 @@ export class GroupedSweeps {
         sem[o + i] = v / Math.sqrt(m);
         if (method === 'mean') out[o + i] = mean;
         else {
-          for (let k = 0; k < m; k++) buf[k] = set.data[g.indices[k] * n + i];
+          for (let k = 0; k < m; k++) buf[k] = data[g.indices[k] * n + i];
           const sub = buf.subarray(0, m).sort();
           out[o + i] = m % 2 ? sub[(m - 1) / 2] : 0.5 * (sub[m / 2 - 1] + sub[m / 2]);
         }
