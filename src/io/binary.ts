@@ -94,8 +94,13 @@ export function readBinary(sidecarPath: string, extra: { conditions?: Conditions
     }
     // read and convert in chunks of about 2 MB per thread, sweeps split across threads
     const chunkSweeps = Math.max(1, Math.floor((1 << 21) / (nSamples * nCh * w)));
-    const firstBad = runSweeps('load', { fd, dtype: meta.dtype, little: order === 'little', interleaved: layout === 'interleaved', nSamples, nChannels: nCh, channel: ch, gain, offset, out, chunkSweeps }, nSweeps, nSweeps * nSamples * nCh)
-      .find((i) => i >= 0);
+    let firstBad: number | undefined;
+    try {
+      firstBad = runSweeps('load', { fd, dtype: meta.dtype, little: order === 'little', interleaved: layout === 'interleaved', nSamples, nChannels: nCh, channel: ch, gain, offset, out, chunkSweeps }, nSweeps, nSweeps * nSamples * nCh)
+        .find((i) => i >= 0);
+    } catch (e) {
+      throw new InputError({ file: dataPath }, `reading failed (${(e as Error).message})`, `${expectBytes} readable bytes that do not change while loading`);
+    }
     if (firstBad !== undefined) {
       const s = Math.floor(firstBad / nSamples);
       throw new InputError({ file: dataPath, sweep: s }, `a non-finite sample (${out[firstBad]}) at sample ${firstBad % nSamples}`, 'finite samples');

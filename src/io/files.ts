@@ -11,7 +11,12 @@ export function openInput(path: string): { fd: number; stat: Stats } {
   } catch (e) {
     throw new InputError({ file: path }, `cannot open file (${(e as NodeJS.ErrnoException).code ?? (e as Error).message})`, 'a readable file');
   }
-  return { fd, stat: fstatSync(fd) };
+  const stat = fstatSync(fd);
+  if (!stat.isFile()) {
+    closeSync(fd);
+    throw new InputError({ file: path }, stat.isDirectory() ? 'this is a folder' : 'this is not a regular file', 'a readable file');
+  }
+  return { fd, stat };
 }
 
 /** SHA-256 (hex) of an open file, read in chunks. */
