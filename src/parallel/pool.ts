@@ -95,8 +95,8 @@ function startSlot(): Slot | null {
   }
   worker.unref();
   worker.on('error', () => { broken = true; });
-  // wait (up to 20 s) for the worker to say it is ready
-  if (Atomics.wait(control, 2, 0, 20000) === 'timed-out' && Atomics.load(control, 2) === 0) {
+  // wait (up to 10 s) for the worker to say it is ready
+  if (Atomics.wait(control, 2, 0, 10000) === 'timed-out' && Atomics.load(control, 2) === 0) {
     void worker.terminate();
     return null;
   }

@@ -74,6 +74,27 @@ describe('loading large files', () => {
     expect(same(one, two)).toBe(true);
     expect(two[12345]).toBe(f32[12345]);
   });
+  it('int16 interleaved channels with gain and offset, and big-endian float32, decode the same on 1 and 2 threads as a DataView reference', () => {
+    const nS = 40, nN = 9000, nC = 3; // 1,080,000 values
+    const dv = new DataView(new ArrayBuffer(nS * nN * nC * 2));
+    for (let i = 0; i < nS * nN * nC; i++) dv.setInt16(i * 2, ((i * 7919) % 65536) - 32768, true);
+    writeFileSync(join(dir, 'i16.bin'), new Uint8Array(dv.buffer));
+    writeFileSync(join(dir, 'i16.json'), JSON.stringify({ data: 'i16.bin', dtype: 'int16', layout: 'interleaved', nSweeps: nS, nSamples: nN, nChannels: nC, channel: 2, gain: 0.25, offset: -3, fs, units: 'uV' }));
+    const be = new DataView(new ArrayBuffer(nS * nN * 4));
+    for (let i = 0; i < nS * nN; i++) be.setFloat32(i * 4, Math.sin(i) * 1e3, false);
+    writeFileSync(join(dir, 'be.bin'), new Uint8Array(be.buffer));
+    writeFileSync(join(dir, 'be.json'), JSON.stringify({ data: 'be.bin', dtype: 'float32', byteOrder: 'big', nSweeps: nS, nSamples: nN, fs, units: 'uV' }));
+    const refI16 = Float64Array.from({ length: nS * nN }, (_, k) => {
+      const s = Math.floor(k / nN), i = k % nN;
+      return dv.getInt16(((s * nN + i) * nC + 2) * 2, true) * 0.25 - 3;
+    });
+    const refBe = Float64Array.from({ length: nS * nN }, (_, k) => be.getFloat32(k * 4, false));
+    for (const t of [1, 2]) {
+      setThreads(t);
+      expect(same(readBinary(join(dir, 'i16.json')).data, refI16)).toBe(true);
+      expect(same(readBinary(join(dir, 'be.json')).data, refBe)).toBe(true);
+    }
+  });
   it('a NaN in the part a worker reads is reported with its sweep and sample', () => {
     const bad = Float32Array.from(f32);
     bad[(S - 3) * N + 77] = NaN;
