@@ -71,6 +71,22 @@ line(`binary float32 ${mb(binBytes)} MB`, `${(binBytes / 1e6 / best).toFixed(0)}
   for (let k = 0; k < 5; k++) { const x = timed(() => f.readBinary(join(dir, 'big64.json'))); b64 = Math.min(b64, x.t); }
   line(`binary float64 ${mb(S * N * 8)} MB`, `${(S * N * 8 / 1e6 / b64).toFixed(0)} MB/s, ${(S * N / b64 / 1e6).toFixed(0)} M samples/s (${targetNote(S * N * 8 / 1e9 / b64 >= 1)})`);
 }
+{
+  // int16 with a gain, the usual acquisition format: a quarter of the bytes of the float64 samples it becomes
+  const a = new Int16Array(S * N);
+  for (let s = 0; s < S; s++) for (let i = 0; i < N; i++) a[s * N + i] = Math.round(sample(s, i) * 10);
+  writeFileSync(join(dir, 'big16.bin'), new Uint8Array(a.buffer));
+  writeFileSync(join(dir, 'big16.json'), JSON.stringify({ data: 'big16.bin', dtype: 'int16', gain: 0.1, nSweeps: S, nSamples: N, fs, t0Ms: -2, units: 'uV' }));
+  let b16 = Infinity;
+  for (let k = 0; k < 5; k++) { const x = timed(() => f.readBinary(join(dir, 'big16.json'))); b16 = Math.min(b16, x.t); }
+  line(`binary int16 ${mb(S * N * 2)} MB (with gain)`, `${(S * N * 2 / 1e6 / b16).toFixed(0)} MB/s, ${(S * N / b16 / 1e6).toFixed(0)} M samples/s (${targetNote(S * N * 2 / 1e9 / b16 >= 1)})`);
+}
+{
+  // the floor under every widening load: the first write to each page of a fresh float64 result
+  let tf = Infinity;
+  for (let k = 0; k < 5; k++) tf = Math.min(tf, timed(() => { const a = new Float64Array(S * N); for (let i = 0; i < a.length; i += 512) a[i] = 1; return a.length; }).t);
+  line(`first touch of a fresh ${mb(S * N * 8)} MB array (1 thread)`, `${(tf * 1000).toFixed(0)} ms (page faults: the floor of widening loads)`);
+}
 line('peak RSS after loading', `${mb(process.memoryUsage().rss)} MB`);
 
 console.log('\n== conditioning: 4th-order zero-phase low-pass + baseline + template artifact subtraction');
