@@ -46,6 +46,12 @@ describe('readBinary(sidecar)', () => {
     const f = new Float32Array([1, 2, 3, NaN]);
     expect(() => readBinary(sidecar({ dtype: 'float32', nSweeps: 2, nSamples: 2, fs: 1000, units: 'mV' }, new Uint8Array(f.buffer)))).toThrow(/sweep 1: a non-finite sample/);
   });
+  it('rejects an infinity (also +Inf next to -Inf), and accepts huge finite values whose sum overflows', () => {
+    const f = new Float32Array([1, Infinity, -Infinity, 4]);
+    expect(() => readBinary(sidecar({ dtype: 'float32', nSweeps: 2, nSamples: 2, fs: 1000, units: 'mV' }, new Uint8Array(f.buffer)))).toThrow(/sweep 0: a non-finite sample \(Infinity\) at sample 1/);
+    const g = new Float64Array([1e308, 1e308, 1e308, -1e308]);
+    expect([...readBinary(sidecar({ dtype: 'float64', nSweeps: 2, nSamples: 2, fs: 1000, units: 'mV' }, new Uint8Array(g.buffer))).data]).toEqual([...g]);
+  });
   it('round-trips random float64 data exactly (property)', () => {
     fc.assert(fc.property(fc.array(fc.double({ noNaN: true, noDefaultInfinity: true }), { minLength: 6, maxLength: 60 }).filter((a) => a.length % 2 === 0), (vals) => {
       const p = sidecar({ dtype: 'float64', nSweeps: 2, nSamples: vals.length / 2, fs: 5000, units: 'mV' }, new Uint8Array(Float64Array.from(vals).buffer));
