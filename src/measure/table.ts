@@ -9,6 +9,7 @@ import { VERSION } from '../version';
 import { Result } from '../report/result';
 import { doseResponse, type DoseResponseOptions, DoseResponseResult } from '../analysis/doseResponse';
 import { recruitment, RecruitmentResult } from '../analysis/recruitment';
+import { strengthDuration, StrengthDurationResult, type StrengthDurationOptions } from '../analysis/strengthDuration';
 import { temperatureAnalysis, TemperatureResult } from '../analysis/temperature';
 
 const PER_SWEEP = new Set(['repeat', 'acquiredS', 'fileSweep', 'label', 'file', 'sweep', 'count']);
@@ -112,6 +113,15 @@ export class ComponentTable extends Result {
   /** Recruitment curves per class (Boltzmann fit in log10 intensity). */
   recruitment(options: { measure?: string; by?: string[]; supramaximalFactor?: number } = {}): RecruitmentResult {
     return recruitment(this.rows, this.set.units, options, this.history, this.set.sources);
+  }
+
+  /**
+   * Strength-duration per class from a pulse-width series: rheobase and chronaxie
+   * (Weiss and Lapicque) from the intensity reaching half the maximum response at each width.
+   * @example table.strengthDuration({ fraction: 0.5 })
+   */
+  strengthDuration(options: StrengthDurationOptions = {}): StrengthDurationResult {
+    return strengthDuration(this.rows, this.set.units, options, this.history, this.set.sources);
   }
 
   /** Blocker dose-response per class with IC50, Hill slope and class comparison. */

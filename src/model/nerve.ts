@@ -36,8 +36,15 @@ export interface FiberPopulation {
   unitAmplitudeUv: number;
   /** single-fiber waveform time constant at 37 C, ms */
   tauMs: number;
-  /** threshold (mA) of a fiber of the mean diameter; scales as mean/d */
+  /** threshold (mA) of a fiber of the mean diameter at the reference pulse width; scales as mean/d */
   thresholdMa: number;
+  /**
+   * strength-duration chronaxie, ms (default 0.15 A, 0.3 A-delta, 1.5 C: invented
+   * demo values of the right order, from memory): a fiber's threshold at pulse
+   * width w is its threshold x (1 + chronaxie / w) / (1 + chronaxie / referencePulseWidthMs)
+   * (Weiss's law)
+   */
+  chronaxieMs?: number;
   /** blocker IC50 for this class (concentration units of the study) */
   ic50: number;
   /** blocker Hill slope */
@@ -52,6 +59,8 @@ export interface NerveModel {
   q10Duration: number;
   /** utilisation time, ms */
   utilisationMs: number;
+  /** pulse width (ms) at which the drawn thresholds hold (default 0.1) */
+  referencePulseWidthMs?: number;
 }
 
 /** A rodent sciatic-like nerve: A-alpha/beta, A-delta and C populations. */
@@ -91,6 +100,8 @@ export function drawFibers(model: NerveModel, seed: number): Fiber[] {
 export interface RecordingConditions {
   /** stimulus intensity, mA */
   intensity: number;
+  /** stimulus pulse width, ms (default: the model's referencePulseWidthMs, where thresholds are as drawn) */
+  pulseWidthMs?: number;
   /** conduction distance, mm */
   distanceMm: number;
   temperatureC: number;
@@ -106,6 +117,21 @@ export interface RecordingConditions {
 export interface SweepGrid { fs: number; t0Ms: number; nSamples: number }
 
 const unitWave = (u: number) => (u <= 0 ? 0 : 0.25 * u * u * Math.exp(2 - u));
+
+export const defaultReferencePulseWidthMs = 0.1;
+const defaultChronaxieMs = (p: FiberPopulation) => p.chronaxieMs ?? (!p.myelinated ? 1.5 : p.diameterUm.mean >= 6 ? 0.15 : 0.3);
+
+/** Threshold multiplier at pulse width w relative to the reference width (Weiss's law). */
+export function weissFactor(p: FiberPopulation, w: number, ref: number): number {
+  if (!(w > 0)) throw new OptionError(`invalid pulseWidthMs: ${w}; must be > 0 ms`);
+  const c = defaultChronaxieMs(p);
+  return (1 + c / w) / (1 + c / ref);
+}
+
+/** The chronaxie (ms) a population is simulated with. */
+export function populationChronaxieMs(p: FiberPopulation): number {
+  return defaultChronaxieMs(p);
+}
 
 /** Velocity of a fiber at temperature T. */
 export function fiberVelocity(model: NerveModel, f: Fiber, temperatureC: number): number {
@@ -128,8 +154,10 @@ export function synthesizeCap(model: NerveModel, fibers: Fiber[], rc: RecordingC
   const tauScale = Math.pow(model.q10Duration, -(rc.temperatureC - 37) / 10);
   const biphasic = rc.recording === 'biphasic';
   const sep = rc.electrodeSeparationMm ?? 3;
+  const pw = rc.pulseWidthMs;
+  const sd = model.populations.map((p) => (pw === undefined ? 1 : weissFactor(p, pw, model.referencePulseWidthMs ?? defaultReferencePulseWidthMs)));
   for (const f of fibers) {
-    if (rc.intensity < f.threshold) continue;
+    if (rc.intensity < f.threshold * sd[f.pop]) continue;
     if (!conducts(model, f, rc.concentration)) continue;
     const p = model.populations[f.pop];
     const v = fiberVelocity(model, f, rc.temperatureC);
@@ -211,7 +239,7 @@ export function simulateNerve(o: SimulateOptions): SweepSet {
     const x = data.subarray(s * n, (s + 1) * n);
     synthesizeCap(o.model, fibers, rc, o.grid, x, rng);
     if (o.nuisance) addNuisance(x, o.grid, rc.intensity, o.nuisance, rng);
-    conds.push({ intensity: rc.intensity, intensityUnit: 'mA', distanceMm: rc.distanceMm, temperatureC: rc.temperatureC, concentration: rc.concentration, ...(rc.conditions ?? {}) });
+    conds.push({ intensity: rc.intensity, intensityUnit: 'mA', ...(rc.pulseWidthMs !== undefined ? { pulseWidthMs: rc.pulseWidthMs } : {}), distanceMm: rc.distanceMm, temperatureC: rc.temperatureC, concentration: rc.concentration, ...(rc.conditions ?? {}) });
   });
   return new SweepSet({ data, nSweeps: o.sweeps.length, nSamples: n, fs: o.grid.fs, t0Ms: o.grid.t0Ms, units: 'uV', conditions: conds, history: [{ verb: 'simulateNerve', options: { seed: o.seed }, version: '' }] });
 }

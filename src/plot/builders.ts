@@ -2,7 +2,7 @@
 import type { SweepSet, ConditionValue } from '../sweeps/SweepSet';
 import type { ComponentTable } from '../measure/table';
 import { Figure, PALETTE, baseLayout } from './figure';
-import { logLogistic4, boltzmann } from '../fit/models';
+import { logLogistic4, boltzmann, weiss, lapicque } from '../fit/models';
 import { tQuantile } from '../fit/dist';
 import { summarize, linearFit } from '../analysis/stats';
 import type { FitResult } from '../fit/lm';
@@ -69,6 +69,33 @@ export function recruitmentFigure(points: Row[], fits: Map<string, FitResult> | 
   });
   void fits;
   return new Figure('recruitment', { data, layout: baseLayout('Recruitment', `stimulus intensity (${(rows[0]?.intensityUnit as string) ?? 'mA'})`, `amplitude (${units})`, { xaxis: { ...(baseLayout('', '', '').xaxis as object), type: 'log', title: { text: `stimulus intensity (${(rows[0]?.intensityUnit as string) ?? 'mA'})` } } }) });
+}
+
+/**
+ * Strength-duration: criterion intensity against pulse width per class (log-log),
+ * with 95% intervals and the fitted Weiss (solid) and Lapicque (dashed) curves.
+ */
+export function strengthDurationFigure(result: { rows: Row[]; points: Row[] }): Figure {
+  const classes = uniq(result.points.map((p) => String(p.class)));
+  const data: Record<string, unknown>[] = [];
+  const unit = (result.rows.find((r) => r.intensityUnit)?.intensityUnit as string) ?? 'mA';
+  classes.forEach((cls, ci) => {
+    const pts = result.points.filter((p) => p.class === cls);
+    const y = pts.map((p) => p.criterion as number);
+    data.push({
+      type: 'scatter', mode: 'markers', name: cls, x: pts.map((p) => p.pulseWidthMs), y, marker: { color: colour(ci), size: 7 },
+      error_y: { type: 'data', symmetric: false, array: pts.map((p, k) => (typeof p.criterion_ci95_high === 'number' ? p.criterion_ci95_high - y[k] : 0)), arrayminus: pts.map((p, k) => (typeof p.criterion_ci95_low === 'number' ? y[k] - p.criterion_ci95_low : 0)), color: colour(ci), thickness: 1 },
+    });
+    const ws = pts.map((p) => p.pulseWidthMs as number);
+    const lo = Math.log10(Math.min(...ws) / 1.5), hi = Math.log10(Math.max(...ws) * 1.5);
+    const gx = Array.from({ length: 80 }, (_, i) => 10 ** (lo + ((hi - lo) * i) / 79));
+    for (const r of result.rows.filter((q) => q.class === cls && typeof q.rheobase === 'number')) {
+      data.push({ type: 'scatter', mode: 'lines', x: gx, y: gx.map((w) => weiss(w, [r.rheobase as number, r.chronaxie_ms as number])), name: `${cls} Weiss`, line: { color: colour(ci), width: 1.5 }, showlegend: false });
+      data.push({ type: 'scatter', mode: 'lines', x: gx, y: gx.map((w) => lapicque(w, [r.lapicque_rheobase as number, r.lapicque_tau_ms as number])), name: `${cls} Lapicque`, line: { color: colour(ci), width: 1, dash: 'dash' }, showlegend: false });
+    }
+  });
+  const base = baseLayout('Strength-duration', 'pulse width (ms)', `intensity at criterion (${unit})`);
+  return new Figure('strength-duration', { data, layout: { ...base, xaxis: { ...(base.xaxis as object), type: 'log' }, yaxis: { ...(base.yaxis as object), type: 'log' } } });
 }
 
 /** Latency against distance with the regression line per class. */

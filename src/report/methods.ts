@@ -75,6 +75,10 @@ export function methodsText(history: readonly Step[], extra: { files?: number; p
         s.push(`Recruitment curves (component amplitude against stimulus intensity) were fitted with a Boltzmann sigmoid in log10 intensity by the Levenberg-Marquardt method (Marquardt 1963); the threshold was taken where the fit reaches ${100 * o.thresholdFraction}% of its range and the supramaximal intensity as ${o.supramaximalFactor} times the intensity reaching 95% of the maximum.`);
         refs.add(REFS.lm);
         break;
+      case 'strengthDuration':
+        s.push(`For each pulse width, the intensity reaching ${100 * o.fraction}% of the maximum response was taken from a Boltzmann fit of the recruitment curve in log10 intensity; rheobase and chronaxie were estimated by fitting Weiss's law, I = Irh (1 + tch / w), and Lapicque's law, I = Irh / (1 - exp(-w / tau)) with chronaxie tau ln 2, to log intensity by the Levenberg-Marquardt method (Marquardt 1963), with a profile-likelihood 95% interval for the chronaxie.`);
+        refs.add(REFS.lm);
+        break;
       case 'doseResponse':
         s.push(`For dose-response analysis the steady-state response at each concentration (mean of the last ${o.lastN} sweeps) was normalised to the preparation's own pre-drug baseline${o.runDown === 'washout' ? ', corrected for run-down by linear interpolation between baseline and washout' : ''}, and fitted per preparation and class with the four-parameter log-logistic (Hill) model (Hill 1910; Ritz et al. 2015) with the top fixed at 1${o.fixBottom === null ? ' and the bottom free' : ` and the bottom fixed at ${o.fixBottom}`}, by the Levenberg-Marquardt method. IC50 values were combined across preparations as the mean of log10 IC50 with a t-based 95% confidence interval (preparations, not sweeps, as replicates); a pooled fit over all preparations gave a profile-likelihood interval (Bates & Watts 1988)${o.bootstrap ? ` and a bootstrap interval over preparations (${o.bootstrap} resamples)` : ''}. Classes were compared with the extra-sum-of-squares F test of a shared IC50.`);
         refs.add(REFS.hill); refs.add(REFS.drc); refs.add(REFS.lm); refs.add(REFS.bates);
