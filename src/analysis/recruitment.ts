@@ -39,7 +39,8 @@ export class RecruitmentResult extends Result {
 
 export function recruitment(rows: readonly Row[], units: string, options: { measure?: string; by?: string[]; supramaximalFactor?: number } = {}, history: readonly Step[] = [], sources: readonly Source[] = []): RecruitmentResult {
   const measure = options.measure ?? `amplitude_${units}`;
-  const by = options.by ?? ['preparation', 'distanceMm', 'temperatureC', 'concentration'].filter((k) => rows.some((r) => k in r));
+  // one curve per pulse width when the rows hold more than one
+  const by = options.by ?? ['preparation', 'distanceMm', 'temperatureC', 'concentration', 'pulseWidthMs'].filter((k) => (k === 'pulseWidthMs' ? new Set(rows.map((r) => r[k])).size > 1 : rows.some((r) => k in r)));
   const factor = options.supramaximalFactor ?? recruitmentDefaults.supramaximalFactor;
   const use = rows.filter((r) => typeof r.intensity === 'number' && (r.intensity as number) > 0 && typeof r[measure] === 'number');
   if (!use.length) throw new AnalysisError(`recruitment needs rows with a positive numeric "intensity" and "${measure}"`);

@@ -112,6 +112,7 @@ async function main(argv: string[]): Promise<number> {
     const s = r.study!;
     console.log(`fascicle ${VERSION}: analysed ${r.outputs.length} preparation(s) in ${secs} s`);
     for (const row of s.tables.dose_response_summary) console.log(`  IC50 ${row.class}: ${fmt(row.ic50)} ${row.concentrationUnit} (95% CI ${fmt(row.ic50_ci95_low)}-${fmt(row.ic50_ci95_high)}), Hill slope ${fmt(row.hill)}`);
+    for (const row of s.tables.strength_duration ?? []) if (row.chronaxie_ms !== null) console.log(`  chronaxie ${row.class} (${row.preparation}): ${fmt(row.chronaxie_ms)} ms (95% CI ${fmt(row.chronaxie_ci95_low_ms)}-${fmt(row.chronaxie_ci95_high_ms)}), rheobase ${fmt(row.rheobase)}${row.intensityUnit ? ` ${row.intensityUnit}` : ''}`);
     for (const row of s.tables.temperature) console.log(`  Q10 ${row.class}: ${fmt(row.q10)} (95% CI ${fmt(row.q10_ci95_low)}-${fmt(row.q10_ci95_high)})`);
     for (const n of s.notes) console.log(`  note: ${n}`);
     console.log(`bundle written to ${flags.out}`);
@@ -148,6 +149,7 @@ async function main(argv: string[]): Promise<number> {
 }
 
 function fmt(v: unknown): string {
+  if (v === null || v === undefined) return 'not bounded';
   return typeof v === 'number' ? String(Number(v.toPrecision(3))) : String(v);
 }
 

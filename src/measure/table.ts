@@ -86,7 +86,7 @@ export class ComponentTable extends Result {
    * lowest stimulus intensity at which the class is detected in at least half of the sweeps.
    */
   threshold(options: { by?: string[] } = {}): Record<string, ConditionValue>[] {
-    const by = options.by ?? ['preparation', 'distanceMm', 'temperatureC', 'concentration'].filter((k) => this.set.conditions.some((c) => k in c));
+    const by = options.by ?? ['preparation', 'distanceMm', 'temperatureC', 'concentration', 'pulseWidthMs'].filter((k) => (k === 'pulseWidthMs' ? new Set(this.rows.map((r) => r[k])).size > 1 : this.set.conditions.some((c) => k in c)));
     const groups = new Map<string, ComponentRow[]>();
     for (const r of this.rows) {
       if (typeof r.intensity !== 'number') continue;

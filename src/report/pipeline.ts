@@ -11,6 +11,7 @@ import type { FilterOptions } from '../verbs/filter';
 import type { ComponentOptions } from '../measure/components';
 import type { DoseResponseOptions, DoseResponseResult } from '../analysis/doseResponse';
 import type { RecruitmentResult } from '../analysis/recruitment';
+import type { StrengthDurationOptions } from '../analysis/strengthDuration';
 import type { TemperatureResult } from '../analysis/temperature';
 import { ComponentTable, VelocityResult } from '../measure/table';
 
@@ -22,6 +23,7 @@ export interface PipelineOptions {
   components?: ComponentOptions;
   doseResponse?: DoseResponseOptions;
   recruitment?: { measure?: string };
+  strengthDuration?: StrengthDurationOptions;
   temperature?: { measure?: string };
 }
 

@@ -22,6 +22,8 @@ export interface PrepOutput {
   thresholds: Row[];
   recruitment: Row[];
   recruitmentPoints: Row[];
+  strengthDuration?: Row[];
+  strengthDurationPoints?: Row[];
   temperaturePoints: Row[];
   history: Step[];
   sources: Source[];
@@ -34,6 +36,9 @@ export interface StudyTables {
   thresholds: Row[];
   recruitment: Row[];
   recruitment_points: Row[];
+  /** only when a pulse-width series is present */
+  strength_duration?: Row[];
+  strength_duration_points?: Row[];
   dose_response_points: Row[];
   dose_response_per_preparation: Row[];
   dose_response_summary: Row[];
@@ -72,6 +77,15 @@ export function runPreparation(set: SweepSet, o: PipelineOptions): PrepOutput {
       recruitmentPoints = rr.points.map(strip);
     } catch (e) { notes.push(`${prep} recruitment: ${(e as Error).message}`); }
   }
+  // strength-duration: a pulse-width series (or any rows with three or more pulse widths)
+  const pt = has('pulse-width') ? table.subset({ series: 'pulse-width' }) : table.subset((r) => typeof r.pulseWidthMs === 'number');
+  let sd: { rows: Row[]; points: Row[] } | null = null;
+  if (new Set(pt.rows.map((r) => r.pulseWidthMs)).size >= 3) {
+    try {
+      const r = pt.strengthDuration(o.strengthDuration ?? {});
+      sd = { rows: r.rows.map(strip), points: r.points.map(strip) };
+    } catch (e) { notes.push(`${prep} strength-duration: ${(e as Error).message}`); }
+  }
   let temperaturePoints: Row[] = [];
   const tt = has('temperature') ? table.subset({ series: 'temperature' }) : table.subset((r) => !r.concentration);
   if (new Set(tt.rows.map((r) => r.temperatureC)).size >= 2) {
@@ -80,6 +94,7 @@ export function runPreparation(set: SweepSet, o: PipelineOptions): PrepOutput {
   return {
     preparation: prep, units: set.units,
     components: table.rows.map(strip), velocity, thresholds, recruitment, recruitmentPoints, temperaturePoints,
+    ...(sd ? { strengthDuration: sd.rows, strengthDurationPoints: sd.points } : {}),
     history: table.history.map((h) => strip(h) as unknown as Step), sources: [...set.sources], notes,
   };
 }
@@ -107,6 +122,8 @@ export function combineStudy(parts: PrepOutput[], o: PipelineOptions): Study {
   const history: Step[] = [...(ps[0]?.history ?? [])];
   if (ps.some((p) => p.velocity.length)) history.push({ verb: 'velocity', options: {}, version: VERSION });
   if (ps.some((p) => p.recruitment.length)) history.push({ verb: 'recruitment', options: { supramaximalFactor: 1.3, thresholdFraction: 0.05 }, version: VERSION });
+  const sdRows = ps.flatMap((p) => p.strengthDuration ?? []);
+  if (sdRows.length) history.push({ verb: 'strengthDuration', options: { fraction: o.strengthDuration?.fraction ?? 0.5 }, version: VERSION });
   if (dr) history.push(dr.history[dr.history.length - 1] as Step);
   if (temperature.length) history.push({ verb: 'temperature', options: { measure: temperature[0].measure, model: 'log-linear (Q10) and Arrhenius, preparation-specific intercepts' }, version: VERSION });
   const seen = new Set<string>();
@@ -116,6 +133,7 @@ export function combineStudy(parts: PrepOutput[], o: PipelineOptions): Study {
     tables: {
       components, velocity: ps.flatMap((p) => p.velocity), thresholds: ps.flatMap((p) => p.thresholds),
       recruitment: ps.flatMap((p) => p.recruitment), recruitment_points: ps.flatMap((p) => p.recruitmentPoints),
+      ...(sdRows.length ? { strength_duration: sdRows, strength_duration_points: ps.flatMap((p) => p.strengthDurationPoints ?? []) } : {}),
       dose_response_points: dr ? dr.points.map(strip) : [], dose_response_per_preparation: dr ? dr.perPreparation.map(strip) : [],
       dose_response_summary: dr ? dr.summary.map(strip) : [], dose_response_comparisons: dr ? dr.comparisons.map(strip) : [],
       temperature: temperature.map(strip), temperature_points: tp,

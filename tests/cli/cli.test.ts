@@ -1,9 +1,10 @@
 import { describe, it, expect, beforeAll } from 'vitest';
 import { spawnSync } from 'node:child_process';
-import { cpSync, mkdtempSync, readFileSync, writeFileSync, existsSync, readdirSync } from 'node:fs';
+import { cpSync, mkdirSync, mkdtempSync, readFileSync, writeFileSync, existsSync, readdirSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { writeBundle, setBeforeWrite, csvCell, toCsv } from '../../src/report/bundle';
+import { model, writeBinary } from '../../src';
 
 const root = join(__dirname, '..', '..');
 const cliPath = join(root, 'dist', 'cli', 'main.js');
@@ -62,6 +63,33 @@ describe('fascicle command line', () => {
     expect(methods).toMatch(/4th-order Butterworth filter \(cutoff 10000 Hz/);
     expect(methods).toMatch(/zero phase/);
     expect(methods).toMatch(/Hill 1910/);
+  });
+});
+
+describe('pulse-width series on the command line', () => {
+  it('a manifest with a pulse-width series gives strength-duration tables and methods (forward-model data; self-consistency)', () => {
+    const dir = join(work, 'sd');
+    mkdirSync(dir, { recursive: true });
+    const widths = [0.02, 0.05, 0.1, 0.2, 0.5];
+    const intens = Array.from({ length: 22 }, (_, k) => 0.01 * 10 ** (k * 0.15));
+    const sweeps = widths.flatMap((w) => intens.map((I) => ({ intensity: I, pulseWidthMs: w, distanceMm: 20, temperatureC: 37, concentration: 0 })));
+    const s = model.simulateNerve({ model: model.rodentSciatic(), seed: 11, grid: { fs: 50000, t0Ms: -2, nSamples: 1500 }, sweeps, nuisance: { noiseUv: 3 } });
+    const meta = writeBinary(join(dir, 'pw.bin'), s, 'float32');
+    writeFileSync(join(dir, 'pw.json'), JSON.stringify({ data: 'pw.bin', ...meta }));
+    writeFileSync(join(dir, 'manifest.json'), JSON.stringify({
+      fascicleManifest: 1, analysis: { baseline: { window: [-2, -0.1] }, components: { earliestMs: 0.1 } },
+      files: [{ path: 'pw.json', conditions: { preparation: 'S1', series: 'pulse-width', distanceMm: 20, temperatureC: 37, concentration: 0 }, sweeps: sweeps.map((q) => ({ intensity: q.intensity, pulseWidthMs: q.pulseWidthMs })) }],
+    }));
+    const out = join(work, 'sd-out');
+    const r = run(['run', join(dir, 'manifest.json'), '--out', out, '--quiet', '--no-figures']);
+    expect(r.status, r.stderr).toBe(0);
+    const rows = JSON.parse(readFileSync(join(out, 'tables', 'strength_duration.json'), 'utf8')) as Record<string, number | string>[];
+    const a = rows.find((q) => q.class === 'A-alpha/beta')!;
+    expect(Math.abs((a.chronaxie_ms as number) / 0.15 - 1)).toBeLessThan(0.1); // simulated chronaxie 0.15 ms
+    expect(readFileSync(join(out, 'methods.txt'), 'utf8')).toMatch(/Weiss's law/);
+    // recruitment is fitted per pulse width, not across widths
+    const rec = JSON.parse(readFileSync(join(out, 'tables', 'recruitment.json'), 'utf8')) as Record<string, unknown>[];
+    expect(new Set(rec.map((q) => q.pulseWidthMs)).size).toBe(widths.length);
   });
 });
 
