@@ -87,11 +87,13 @@ export function readBinary(sidecarPath: string, extra: { conditions?: Conditions
   source.partOf = sidecarPath;
   const w = BYTES[meta.dtype];
   const expectBytes = nSweeps * nSamples * nCh * w;
-  const out = sharedSamples(nSweeps * nSamples);
+  let out: Float64Array;
   try {
+    // the size is checked before anything is allocated, so a hostile sidecar cannot ask for terabytes
     if (stat.size !== expectBytes) {
       throw new InputError({ file: dataPath }, `the file has ${stat.size} bytes`, `${expectBytes} bytes = ${nSweeps} sweeps x ${nSamples} samples x ${nCh} channels x ${w} bytes (${meta.dtype}) from ${sidecarPath}`);
     }
+    out = sharedSamples(nSweeps * nSamples);
     // read and convert in chunks of about 2 MB per thread, sweeps split across threads
     const chunkSweeps = Math.max(1, Math.floor((1 << 21) / (nSamples * nCh * w)));
     let firstBad: number | undefined;

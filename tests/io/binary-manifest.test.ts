@@ -116,6 +116,10 @@ describe('readManifest(path)', () => {
     const kept = byPreparation(a)[0].set.sources.map((s) => basename(s.path));
     expect(kept).toEqual(['study.json', 'rec.json', 'rec-data.bin']);
   });
+  it('a sidecar that claims terabytes is refused from the file size, before any allocation', () => {
+    const p = sidecar({ dtype: 'float64', nSweeps: 1e6, nSamples: 1e7, fs: 1000, units: 'uV' }, new Uint8Array(16));
+    expect(() => readBinary(p)).toThrow(/the file has 16 bytes; expected 80000000000000 bytes/);
+  });
   it('refuses a folder given as a file, naming it', () => {
     const p = sidecar({ dtype: 'float32', nSweeps: 1, nSamples: 2, fs: 1000, units: 'uV' }, new Uint8Array(8));
     writeFileSync(p, JSON.stringify({ data: '.', dtype: 'float32', nSweeps: 1, nSamples: 2, fs: 1000, units: 'uV' }));
