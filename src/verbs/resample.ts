@@ -36,6 +36,9 @@ export function resample(set: SweepSet, options: ResampleOptions): SweepSet {
   const { h, preRemove } = polyphaseDesign(up, down, beta);
   const n = set.nSamples;
   const m = resampledLength(n, up, down);
+  if (set.nSweeps * m > 2 ** 30) {
+    throw new OptionError(`invalid fs: ${fsOut} Hz would make ${set.nSweeps} sweeps x ${m} samples (${((set.nSweeps * m * 8) / 1e9).toFixed(1)} GB); crop or select sweeps first, or choose a lower rate`);
+  }
   const out = sharedSamples(set.nSweeps * m);
   const x = set.data;
   const buf = padtype === 'median' ? new Float64Array(n) : null;

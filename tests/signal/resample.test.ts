@@ -46,5 +46,7 @@ describe('resample(set, { fs }) against scipy.signal.resample_poly', () => {
     expect(() => s.resample({ fs: -5 })).toThrow(/invalid fs: -5 Hz; must be > 0/);
     expect(() => s.resample({ fs: 20000, padtype: 'edge' as never })).toThrow(/padtype/);
     expect(() => s.resample({ fs: 20000, beta: -1 })).toThrow(/invalid beta/);
+    const long = new SweepSet({ data: new Float64Array(4 * 500000), nSweeps: 4, nSamples: 500000, fs: 1000, t0Ms: 0, units: 'uV', conditions: [{}, {}, {}, {}] });
+    expect(() => long.resample({ fs: 1e6 })).toThrow(/would make 4 sweeps x 500000000 samples/);
   });
 });
