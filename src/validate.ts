@@ -52,3 +52,17 @@ export function warnOnce(key: string, message: string): void {
   warned.add(key);
   process.emitWarning(`${message} (set FASCICLE_QUIET=1 to silence)`, 'FascicleWarning');
 }
+
+/**
+ * The problem with a conditions object, or null when it is a plain object whose
+ * values are strings, finite numbers, booleans or null (what a sweep's conditions may hold).
+ */
+export function conditionsProblem(x: unknown): string | null {
+  if (x === null || typeof x !== 'object' || Array.isArray(x)) return `conditions are ${Array.isArray(x) ? 'an array' : JSON.stringify(x)}`;
+  for (const [k, v] of Object.entries(x as Record<string, unknown>)) {
+    if (v === null || typeof v === 'string' || typeof v === 'boolean') continue;
+    if (typeof v === 'number' && Number.isFinite(v)) continue;
+    return `condition "${k}" is ${typeof v === 'number' ? String(v) : Array.isArray(v) ? 'an array' : typeof v === 'object' ? 'an object' : typeof v}`;
+  }
+  return null;
+}

@@ -13,7 +13,8 @@
  * sweep-major: [sweep][channel][sample]; interleaved: [sweep][sample][channel].
  */
 import { dirname, resolve } from 'node:path';
-import { InputError } from '../errors';
+import { InputError, OptionError } from '../errors';
+import { conditionsProblem } from '../validate';
 import { SweepSet, type Conditions } from '../sweeps/SweepSet';
 import { parseSignalUnit } from '../sweeps/units';
 import { closeSync } from 'node:fs';
@@ -50,18 +51,20 @@ export function readBinary(sidecarPath: string, extra: { conditions?: Conditions
   } catch (e) {
     throw new InputError({ file: sidecarPath }, `invalid JSON (${(e as Error).message})`, 'a JSON sidecar object');
   }
+  // numbers as JavaScript prints them (JSON would print an overflowing 1e400 as null)
+  const show = (v: unknown) => (typeof v === 'number' ? String(v) : JSON.stringify(v));
   const bad = (field: string, problem: string, expected: string): never => {
     throw new InputError({ file: sidecarPath, field }, problem, expected);
   };
   if (!meta || typeof meta !== 'object' || Array.isArray(meta)) bad('(root)', 'not an object', 'a JSON object');
-  if (typeof meta.data !== 'string' || !meta.data) bad('data', `data is ${JSON.stringify(meta.data)}`, 'the path of the binary file');
-  if (!(meta.dtype in BYTES)) bad('dtype', `unknown dtype ${JSON.stringify(meta.dtype)}`, 'one of int16, float32, float64');
+  if (typeof meta.data !== 'string' || !meta.data) bad('data', `data is ${show(meta.data)}`, 'the path of the binary file');
+  if (typeof meta.dtype !== 'string' || !Object.hasOwn(BYTES, meta.dtype)) bad('dtype', `unknown dtype ${show(meta.dtype)}`, 'one of int16, float32, float64');
   const order = meta.byteOrder ?? 'little';
-  if (order !== 'little' && order !== 'big') bad('byteOrder', `unknown byteOrder ${JSON.stringify(order)}`, '"little" or "big"');
+  if (order !== 'little' && order !== 'big') bad('byteOrder', `unknown byteOrder ${show(order)}`, '"little" or "big"');
   const layout = meta.layout ?? 'sweep-major';
-  if (layout !== 'sweep-major' && layout !== 'interleaved') bad('layout', `unknown layout ${JSON.stringify(layout)}`, '"sweep-major" or "interleaved"');
+  if (layout !== 'sweep-major' && layout !== 'interleaved') bad('layout', `unknown layout ${show(layout)}`, '"sweep-major" or "interleaved"');
   const int = (f: keyof BinarySidecar, v: unknown, lo: number) => {
-    if (!Number.isInteger(v) || (v as number) < lo) bad(f, `${f} is ${JSON.stringify(v)}`, `an integer >= ${lo}`);
+    if (!Number.isInteger(v) || (v as number) < lo) bad(f, `${f} is ${show(v)}`, `an integer >= ${lo}`);
     return v as number;
   };
   const nSweeps = int('nSweeps', meta.nSweeps, 1);
@@ -71,16 +74,23 @@ export function readBinary(sidecarPath: string, extra: { conditions?: Conditions
   if (ch >= nCh) bad('channel', `channel ${ch} with ${nCh} channels`, `0 <= channel < nChannels`);
   const gain = meta.gain ?? 1;
   const offset = meta.offset ?? 0;
-  if (typeof gain !== 'number' || !Number.isFinite(gain) || gain === 0) bad('gain', `gain is ${JSON.stringify(gain)}`, 'a finite non-zero number');
-  if (typeof offset !== 'number' || !Number.isFinite(offset)) bad('offset', `offset is ${JSON.stringify(offset)}`, 'a finite number');
-  if (typeof meta.fs !== 'number' || !(meta.fs > 0) || !Number.isFinite(meta.fs)) bad('fs', `fs is ${JSON.stringify(meta.fs)}`, 'a sample rate in Hz > 0');
+  if (typeof gain !== 'number' || !Number.isFinite(gain) || gain === 0) bad('gain', `gain is ${show(gain)}`, 'a finite non-zero number');
+  if (typeof offset !== 'number' || !Number.isFinite(offset)) bad('offset', `offset is ${show(offset)}`, 'a finite number');
+  if (typeof meta.fs !== 'number' || !(meta.fs > 0) || !Number.isFinite(meta.fs)) bad('fs', `fs is ${show(meta.fs)}`, 'a sample rate in Hz > 0');
   const t0Ms = meta.t0Ms ?? 0;
-  if (typeof t0Ms !== 'number' || !Number.isFinite(t0Ms)) bad('t0Ms', `t0Ms is ${JSON.stringify(t0Ms)}`, 'a finite time in ms');
+  if (typeof t0Ms !== 'number' || !Number.isFinite(t0Ms)) bad('t0Ms', `t0Ms is ${show(t0Ms)}`, 'a finite time in ms');
   const units = typeof meta.units === 'string' ? parseSignalUnit(meta.units) : undefined;
-  if (!units) bad('units', `unknown units ${JSON.stringify(meta.units)}`, 'one of V, mV, uV');
+  if (!units) bad('units', `unknown units ${show(meta.units)}`, 'one of V, mV, uV');
   if (meta.sweeps !== undefined && (!Array.isArray(meta.sweeps) || meta.sweeps.length !== nSweeps)) {
     bad('sweeps', `sweeps lists ${Array.isArray(meta.sweeps) ? meta.sweeps.length : 'no'} entries`, `one conditions object per sweep (${nSweeps})`);
   }
+  const cond = (field: string, x: unknown) => {
+    const problem = conditionsProblem(x);
+    if (problem) bad(field, problem, 'an object of strings, finite numbers, booleans or null');
+  };
+  if (meta.conditions !== undefined) cond('conditions', meta.conditions);
+  meta.sweeps?.forEach((c, i) => cond(`sweeps/${i}`, c));
+  if (extra.conditions !== undefined && conditionsProblem(extra.conditions)) throw new OptionError(`invalid conditions: ${conditionsProblem(extra.conditions)}; must be an object of strings, finite numbers, booleans or null`);
   const dataPath = resolve(dirname(sidecarPath), meta.data);
   const { fd, stat } = openInput(dataPath);
   const source = lazySource(dataPath, stat);

@@ -9,7 +9,8 @@
  * CRLF line ends are accepted. Lines starting with '#' are comments.
  */
 import { sharedSamples } from '../parallel/pool';
-import { InputError } from '../errors';
+import { InputError, OptionError } from '../errors';
+import { conditionsProblem } from '../validate';
 import { SweepSet, type Conditions } from '../sweeps/SweepSet';
 import { parseSignalUnit, parseTimeUnit, splitHeader, timeToMs, type SignalUnit, type TimeUnit } from '../sweeps/units';
 import { readInput } from './files';
@@ -160,6 +161,8 @@ export function parseDelimited(bytes: Uint8Array, file: string, options: Delimit
   let nSamples: number;
   const conds: Conditions[] = [];
   const base = opts.conditions ?? {};
+  const cp = conditionsProblem(base);
+  if (cp) throw new OptionError(`invalid conditions: ${cp}; must be an object of strings, finite numbers, booleans or null`);
   if (layout === 'wide') {
     nSweeps = ncol - 1;
     const t = new Float64Array(rowsMax);

@@ -8,6 +8,7 @@ import { dirname, join, resolve, isAbsolute } from 'node:path';
 import { InputError } from '../errors';
 import { SweepSet, type Conditions } from '../sweeps/SweepSet';
 import { readInput } from './files';
+import { conditionsProblem } from '../validate';
 import { readDelimited, type DelimitedOptions } from './delimited';
 import { readBinary } from './binary';
 import { VERSION } from '../version';
@@ -48,6 +49,17 @@ function validate(m: unknown, file: string): asserts m is Manifest {
     const where = e.instancePath || '(root)';
     throw new InputError({ file, field: where }, `does not match the manifest schema: ${where} ${e.message}${e.params ? ' ' + JSON.stringify(e.params) : ''}`, 'a manifest as described by schema/manifest.schema.json');
   }
+  // JSON Schema accepts numbers that overflow to Infinity (1e400): conditions must be finite
+  const check = (c: unknown, field: string) => {
+    const problem = c === undefined ? null : conditionsProblem(c);
+    if (problem) throw new InputError({ file, field }, problem, 'strings, finite numbers, booleans or null');
+  };
+  const man = m as Manifest;
+  check(man.defaults, '/defaults');
+  man.files.forEach((f, i) => {
+    check(f.conditions, `/files/${i}/conditions`);
+    f.sweeps?.forEach((c, j) => check(c, `/files/${i}/sweeps/${j}`));
+  });
 }
 
 /** Parse and check a manifest without loading its files. */

@@ -120,6 +120,19 @@ describe('readManifest(path)', () => {
     const p = sidecar({ dtype: 'float64', nSweeps: 1e6, nSamples: 1e7, fs: 1000, units: 'uV' }, new Uint8Array(16));
     expect(() => readBinary(p)).toThrow(/the file has 16 bytes; expected 80000000000000 bytes/);
   });
+  it('conditions must be strings, finite numbers, booleans or null: sidecar, manifest (1e400 overflows to Infinity) and API', () => {
+    const bytes = new Uint8Array(new Float32Array(4).buffer);
+    expect(() => readBinary(sidecar({ dtype: 'float32', nSweeps: 2, nSamples: 2, fs: 1000, units: 'uV', conditions: 'abc' }, bytes))).toThrow(/field conditions: conditions are "abc"/);
+    expect(() => readBinary(sidecar({ dtype: 'float32', nSweeps: 2, nSamples: 2, fs: 1000, units: 'uV', sweeps: [{}, { y: [1] }] }, bytes))).toThrow(/field sweeps\/1: condition "y" is an array/);
+    expect(() => readBinary(sidecar({ dtype: 'toString', nSweeps: 2, nSamples: 2, fs: 1000, units: 'uV' }, bytes))).toThrow(/unknown dtype "toString"/);
+    const p = sidecar({ dtype: 'float32', nSweeps: 2, nSamples: 2, fs: 1000, units: 'uV' }, bytes);
+    const m = join(dir, 'inf-manifest.json');
+    writeFileSync(m, `{"fascicleManifest": 1, "files": [{"path": "${basename(p)}", "conditions": {"preparation": "A", "z": 1e400}}]}`);
+    expect(() => readManifest(m)).toThrow(/field \/files\/0\/conditions: condition "z" is Infinity/);
+    expect(() => readBinary(p, { conditions: { q: {} as never } })).toThrow(/invalid conditions: condition "q" is an object/);
+    writeFileSync(p, '{"data": "x.bin", "dtype": "float32", "nSweeps": 2, "nSamples": 2, "fs": 1e400, "units": "uV"}');
+    expect(() => readBinary(p)).toThrow(/field fs: fs is Infinity/);
+  });
   it('refuses a folder given as a file, naming it', () => {
     const p = sidecar({ dtype: 'float32', nSweeps: 1, nSamples: 2, fs: 1000, units: 'uV' }, new Uint8Array(8));
     writeFileSync(p, JSON.stringify({ data: '.', dtype: 'float32', nSweeps: 1, nSamples: 2, fs: 1000, units: 'uV' }));
