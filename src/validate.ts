@@ -3,7 +3,7 @@ import { OptionError } from './errors';
 
 export function finite(name: string, x: unknown, unit = ''): number {
   if (typeof x !== 'number' || !Number.isFinite(x)) {
-    throw new OptionError(`invalid ${name}: ${String(x)}${unit ? ' ' + unit : ''}; must be a finite number`);
+    throw new OptionError(`invalid ${name}: ${typeof x === 'string' ? JSON.stringify(x) : String(x)}${unit ? ' ' + unit : ''}; must be a finite number`);
   }
   return x;
 }

@@ -10,7 +10,7 @@
  */
 import { sharedSamples } from '../parallel/pool';
 import { InputError, OptionError } from '../errors';
-import { conditionsProblem } from '../validate';
+import { conditionsProblem, finite, oneOf } from '../validate';
 import { SweepSet, type Conditions } from '../sweeps/SweepSet';
 import { parseSignalUnit, parseTimeUnit, splitHeader, timeToMs, type SignalUnit, type TimeUnit } from '../sweeps/units';
 import { readInput } from './files';
@@ -51,6 +51,13 @@ interface LineCursor { start: number; end: number; line: number }
 
 export function parseDelimited(bytes: Uint8Array, file: string, options: DelimitedOptions = {}, source?: import('../sweeps/SweepSet').Source): SweepSet {
   const opts = { ...delimitedDefaults, ...options };
+  // options are checked at the call, before the file is read
+  oneOf('delimiter', opts.delimiter, [',', ';', '\t', 'auto'] as const);
+  oneOf('decimal', opts.decimal, ['.', ',', 'auto'] as const);
+  oneOf('layout', opts.layout, ['wide', 'long', 'auto'] as const);
+  if (opts.timeUnit !== undefined) oneOf('timeUnit', opts.timeUnit, ['s', 'ms', 'us'] as const);
+  if (opts.units !== undefined) oneOf('units', opts.units, ['V', 'mV', 'uV'] as const);
+  finite('stimulusAt', opts.stimulusAt);
   let pos = 0;
   if (bytes[0] === 0xef && bytes[1] === 0xbb && bytes[2] === 0xbf) pos = 3;
   const n = bytes.length;

@@ -5,7 +5,7 @@
  * ships in the package as schema/manifest.schema.json.
  */
 import { dirname, join, resolve, isAbsolute } from 'node:path';
-import { InputError } from '../errors';
+import { InputError, OptionError } from '../errors';
 import { SweepSet, type Conditions } from '../sweeps/SweepSet';
 import { readInput } from './files';
 import { conditionsProblem } from '../validate';
@@ -95,7 +95,14 @@ export function readManifest(path: string, opts: { only?: (f: ManifestFile, i: n
     if (opts.only && !opts.only(f, fi)) return;
     const full = isAbsolute(f.path) ? f.path : join(dir, f.path);
     const base = { ...(manifest.defaults ?? {}), ...(f.conditions ?? {}) };
-    let set = formatOf(f) === 'binary' ? readBinary(full, { conditions: base }) : readDelimited(full, { ...(f.options ?? {}), conditions: base });
+    let set: SweepSet;
+    try {
+      set = formatOf(f) === 'binary' ? readBinary(full, { conditions: base }) : readDelimited(full, { ...(f.options ?? {}), conditions: base });
+    } catch (e) {
+      // a bad reader option written in the manifest is a fault of the manifest
+      if (e instanceof OptionError) throw new InputError({ file: path, field: `/files/${fi}/options` }, e.message, 'reader options as in the README (delimiter, decimal, layout, timeUnit, units, stimulusAt)');
+      throw e;
+    }
     if (f.sweeps) {
       if (f.sweeps.length !== set.nSweeps) {
         throw new InputError({ file: path, field: `/files/${fi}/sweeps` }, `${f.sweeps.length} sweep entries for ${f.path}, which has ${set.nSweeps} sweeps`, 'one conditions entry per sweep');

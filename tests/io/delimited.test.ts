@@ -3,7 +3,7 @@ import { mkdtempSync, writeFileSync, readFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import fc from 'fast-check';
-import { readDelimited, InputError } from '../../src';
+import { readDelimited, InputError, OptionError } from '../../src';
 
 const dir = mkdtempSync(join(tmpdir(), 'fascicle-io-'));
 let k = 0;
@@ -78,6 +78,15 @@ describe('readDelimited(path) bad input names file, line and column', () => {
       expect((err as Error).message).toMatch(re);
     });
   }
+  it('reader options are checked at the call, naming the option and what is allowed', () => {
+    const p = file('time (ms),a (mV)\n0,1\n1,2\n');
+    expect(() => readDelimited(p, { delimiter: '|' as never })).toThrow(/invalid delimiter: "\|"; must be one of/);
+    expect(() => readDelimited(p, { decimal: 'x' as never })).toThrow(OptionError);
+    expect(() => readDelimited(p, { layout: 'tall' as never })).toThrow(/invalid layout: "tall"/);
+    expect(() => readDelimited(p, { timeUnit: 'hours' as never })).toThrow(/invalid timeUnit: "hours"; must be one of "s", "ms", "us"/);
+    expect(() => readDelimited(p, { units: 'kV' as never })).toThrow(/invalid units: "kV"/);
+    expect(() => readDelimited(p, { stimulusAt: '1' as never })).toThrow(/invalid stimulusAt: "1"; must be a finite number/);
+  });
   it('never modifies the input file', () => {
     const p = file('time (ms),a (mV)\n0,1\n1,2\n');
     const before = readFileSync(p);
