@@ -37,10 +37,17 @@ export function oneOf<T extends string>(name: string, x: unknown, allowed: reado
   return x as T;
 }
 
+/** A value as a message shows it: numbers as printed (NaN, Infinity), everything else as JSON. */
+export function shown(x: unknown): string {
+  if (typeof x === 'number') return String(x);
+  if (Array.isArray(x)) return `[${x.map(shown).join(', ')}]`;
+  return JSON.stringify(x) ?? String(x);
+}
+
 /** A [from, to] time window in ms, from < to. */
 export function windowMs(name: string, w: unknown): [number, number] {
-  if (!Array.isArray(w) || w.length !== 2 || !Number.isFinite(w[0]) || !Number.isFinite(w[1]) || !(w[1] > w[0])) {
-    throw new OptionError(`invalid ${name}: ${JSON.stringify(w)}; must be [from, to] in ms with from < to`);
+  if (!Array.isArray(w) || w.length !== 2 || typeof w[0] !== 'number' || typeof w[1] !== 'number' || !Number.isFinite(w[0]) || !Number.isFinite(w[1]) || !(w[1] > w[0])) {
+    throw new OptionError(`invalid ${name}: ${shown(w)}; must be [from, to] in ms with from < to`);
   }
   return [w[0], w[1]];
 }

@@ -44,6 +44,7 @@ export function butter(o: ButterOptions): Sos {
   const band = btype === 'bandpass' || btype === 'bandstop';
   if (!['lowpass', 'highpass', 'bandpass', 'bandstop'].includes(btype)) throw new OptionError(`invalid btype: ${JSON.stringify(btype)}; must be one of "lowpass", "highpass", "bandpass", "bandstop"`);
   const cut = Array.isArray(o.cutoff) ? o.cutoff : [o.cutoff];
+  if (cut.some((f) => typeof f !== 'number')) throw new OptionError(`invalid cutoff: ${JSON.stringify(o.cutoff)}; must be a number in Hz (or [low, high] in Hz for band filters)`);
   if (band !== (cut.length === 2)) throw new OptionError(`invalid cutoff: ${JSON.stringify(o.cutoff)}; ${btype} needs ${band ? '[low, high] in Hz' : 'one frequency in Hz'}`);
   for (const f of cut) {
     if (!(f > 0 && f < fs / 2)) throw new OptionError(`invalid cutoff: ${f} Hz; must be 0 < cutoff < fs/2 (fs=${fs} Hz)`);

@@ -416,6 +416,12 @@ export class GroupedSweeps {
   readonly groups: { key: ConditionValue[]; indices: number[] }[];
   constructor(set: SweepSet, keys: string[]) {
     for (const k of keys) if (typeof k !== 'string' || !k) throw new OptionError(`invalid groupBy key: ${JSON.stringify(k)}`);
+    for (const k of keys) {
+      if (set.nSweeps > 0 && !set.conditions.some((c) => k in c)) {
+        const known = [...new Set(set.conditions.flatMap((c) => Object.keys(c)))].sort();
+        throw new OptionError(`invalid groupBy key: no sweep has the condition ${JSON.stringify(k)}; conditions are ${known.join(', ')}`);
+      }
+    }
     this.set = set;
     this.keys = keys;
     const map = new Map<string, { key: ConditionValue[]; indices: number[] }>();

@@ -4,7 +4,7 @@
  */
 import { deferredOf, type SweepSet, type Conditions, type ConditionValue } from '../sweeps/SweepSet';
 import { OptionError, AnalysisError } from '../errors';
-import { oneOf, windowMs } from '../validate';
+import { finite, oneOf, windowMs } from '../validate';
 import { noCorrection, windowIndices } from './baseline';
 import { shareCopy, sharedSamples } from '../parallel/pool';
 import { correctSweep } from '../parallel/kernels';
@@ -106,6 +106,13 @@ export function removeArtifact(set: SweepSet, options: ArtifactOptions): SweepSe
   const scaling = oneOf('scaling', options.scaling ?? artifactDefaults.scaling, ['fit', 'intensity'] as const);
   const fitWindow = windowMs('fitWindow', options.fitWindow ?? window);
   const [fa, fb] = windowIndices(set, fitWindow, 'fitWindow');
+  if (options.templateSweeps !== undefined && (!Array.isArray(options.templateSweeps) || options.templateSweeps.some((i) => !Number.isInteger(i) || i < 0 || i >= set.nSweeps))) {
+    throw new OptionError(`invalid templateSweeps: ${JSON.stringify(options.templateSweeps)}; must be an array of sweep indices 0..${set.nSweeps - 1}`);
+  }
+  if (options.maxIntensity !== undefined) finite('maxIntensity', options.maxIntensity);
+  if (options.templateBy !== undefined && (!Array.isArray(options.templateBy) || options.templateBy.some((k) => typeof k !== 'string'))) {
+    throw new OptionError(`invalid templateBy: ${JSON.stringify(options.templateBy)}; must be an array of condition names`);
+  }
   const keys = options.templateBy ?? ['preparation', 'site', 'distanceMm'].filter((k) => set.conditions.some((c) => k in c));
   const groups = groupKeys(set, keys);
   // a pending baseline is applied on the fly; the subtraction is left pending too

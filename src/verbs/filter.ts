@@ -38,7 +38,7 @@ export function filter(set: SweepSet, options: FilterOptions): SweepSet {
   const btype = oneOf('btype', options.btype, ['lowpass', 'highpass', 'bandpass', 'bandstop'] as const);
   const order = integerIn('order', options.order ?? filterDefaults.order, 1, 10);
   const sos = butter({ order, cutoff: options.cutoff, btype, fs: set.fs });
-  const padlen = options.padlen ?? defaultPadlen(sos);
+  const padlen = options.padlen === undefined ? defaultPadlen(sos) : integerIn('padlen', options.padlen, 0, set.nSamples - 1);
   const data = applySos(set, sos, padlen);
   return set.create({ data, step: { verb: 'filter', options: { btype, cutoff: options.cutoff, order, padlen, design: 'butterworth', zeroPhase: true } } });
 }

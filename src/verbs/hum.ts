@@ -34,6 +34,9 @@ export function removeHum(set: SweepSet, options: HumOptions = {}): SweepSet {
   const kept = mask.reduce((a, b) => a + b, 0);
   if (kept < 2 * harmonics + 4) throw new OptionError(`invalid exclude: leaves ${kept} samples to fit ${2 * harmonics + 1} terms`);
   const freqOpt = options.frequency ?? humDefaults.frequency;
+  if (freqOpt !== 'detect' && (typeof freqOpt !== 'number' || !Number.isFinite(freqOpt))) {
+    throw new OptionError(`invalid frequency: ${JSON.stringify(freqOpt)}; must be a mains frequency in Hz (a number such as 50 or 60) or "detect"`);
+  }
   const maxH = Math.floor((set.fs / 2 - 1) / 70);
   const n = set.nSamples;
   // use at most 16 sweeps (evenly spread) to pick the frequency

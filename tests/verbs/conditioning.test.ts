@@ -176,3 +176,23 @@ describe('filter and decimate verbs', () => {
     expect(d.nSamples).toBe(Math.ceil(n / 2));
   });
 });
+
+describe('every conditioning option is checked at the call (message names the option, the value and what is allowed)', () => {
+  const { set } = make(0.08, [0.1, 0.2, 1, 2]);
+  const cases: [string, () => unknown, RegExp][] = [
+    ['window with NaN', () => set.removeArtifact({ method: 'blank', window: [NaN, 1] }), /invalid window: \[NaN, 1\]; must be \[from, to\] in ms/],
+    ['templateSweeps out of range', () => set.removeArtifact({ method: 'template', window: [0, 0.1], templateSweeps: [99] }), /invalid templateSweeps: \[99\]; must be an array of sweep indices 0\.\.3/],
+    ['templateSweeps not an array', () => set.removeArtifact({ method: 'template', window: [0, 0.1], templateSweeps: '0' as never }), /invalid templateSweeps/],
+    ['maxIntensity NaN', () => set.removeArtifact({ method: 'template', window: [0, 0.1], maxIntensity: NaN }), /invalid maxIntensity: NaN; must be a finite number/],
+    ['cutoff given as text', () => set.filter({ btype: 'lowpass', cutoff: '1000' as never }), /invalid cutoff: "1000"; must be a number in Hz/],
+    ['cutoff at fs/2', () => set.lowpass(25000), /invalid cutoff: 25000 Hz; must be 0 < cutoff < fs\/2 \(fs=50000 Hz\)/],
+    ['negative padlen', () => set.filter({ btype: 'lowpass', cutoff: 1000, padlen: -3 }), /invalid padlen: -3; must be an integer 0\.\./],
+    ['hum frequency as text', () => set.removeHum({ frequency: '50' as never }), /invalid frequency: "50"; must be a mains frequency in Hz/],
+    ['groupBy an absent condition', () => set.groupBy('nonexistent').average(), /no sweep has the condition "nonexistent"; conditions are .*intensity/],
+  ];
+  for (const [name, call, re] of cases) {
+    it(name, () => {
+      expect(call).toThrow(re);
+    });
+  }
+});
