@@ -5,7 +5,13 @@
  *    (sweep order, or acquisition time when present).
  * 2. Normalised to the preparation's own pre-drug baseline (concentration 0, not washout);
  *    optional run-down correction: the control level is interpolated linearly in time
- *    between the baseline and the washout (`runDown: 'washout'`).
+ *    between the baseline and the washout (`runDown: 'washout'`), or follows the
+ *    run-down of time-matched vehicle controls (`runDown: 'vehicle'`: sweeps with
+ *    epoch "vehicle", usually in control preparations; per class, the fraction of
+ *    their own baseline against time since the baseline is fitted with a line through
+ *    1 at time 0, and each drug preparation's baseline is scaled by it at the time of
+ *    each steady state; linear run-down is an assumption, common practice, no source).
+ *    Times come from the `acquiredS` condition.
  * 3. Per preparation, a Hill (four-parameter log-logistic) fit with the top fixed at 1
  *    (normalised), Hill slope in [0.2, 6] and the bottom free in [-0.2, 0.9] (or fixed).
  * 4. Across preparations: log10 IC50 is averaged over preparations with a t-based 95% CI
@@ -30,8 +36,8 @@ export interface DoseResponseOptions {
   measure?: string;
   /** sweeps at the end of each epoch averaged for the steady state (default 3) */
   lastN?: number;
-  /** 'none' (default) or 'washout' */
-  runDown?: 'none' | 'washout';
+  /** 'none' (default), 'washout' or 'vehicle' (time-matched vehicle controls, epoch "vehicle") */
+  runDown?: 'none' | 'washout' | 'vehicle';
   /** fix the bottom asymptote (fraction of baseline), or null to fit it (default null) */
   fixBottom?: number | null;
   /** bootstrap resamples over preparations for the pooled IC50 (default 0: none) */
@@ -102,7 +108,7 @@ export function doseResponse(rows: readonly Row[], units: string, options: DoseR
   const lastN = options.lastN ?? doseResponseDefaults.lastN;
   if (!Number.isInteger(lastN) || lastN < 1) throw new OptionError(`invalid lastN: ${lastN}; must be an integer >= 1`);
   const runDown = options.runDown ?? doseResponseDefaults.runDown;
-  if (runDown !== 'none' && runDown !== 'washout') throw new OptionError(`invalid runDown: ${JSON.stringify(runDown)}; must be "none" or "washout"`);
+  if (runDown !== 'none' && runDown !== 'washout' && runDown !== 'vehicle') throw new OptionError(`invalid runDown: ${JSON.stringify(runDown)}; must be "none", "washout" or "vehicle"`);
   const fixBottom = options.fixBottom === undefined ? doseResponseDefaults.fixBottom : options.fixBottom;
   const measure = options.measure ?? `amplitude_${units}`;
   const use = rows.filter((r) => typeof r.concentration === 'number' && typeof r[measure] === 'number' && (!options.classes || options.classes.includes(r.class as string)));
@@ -116,7 +122,34 @@ export function doseResponse(rows: readonly Row[], units: string, options: DoseR
     if (g) g.push(rr); else groups.set(id, [rr]);
   }
   const points: DosePoint[] = [];
+  const isVehicle = (r: Row) => r.epoch === 'vehicle';
+  // run-down rate per class from the vehicle controls: fraction of baseline = 1 + k (t - tBaseline)
+  const rate = new Map<string, { k: number; preparations: number; sweeps: number }>();
+  if (runDown === 'vehicle') {
+    const acc = new Map<string, { sxy: number; sxx: number; preps: Set<string>; n: number }>();
+    for (const g of groups.values()) {
+      const veh = g.filter(isVehicle);
+      if (!veh.length) continue;
+      const where = `preparation ${g[0].preparation}, class ${g[0].class}`;
+      if (g.some((r) => typeof r.acquiredS !== 'number')) throw new AnalysisError(`${where}: runDown "vehicle" needs the condition "acquiredS" (time of each sweep, s) on every sweep`);
+      const base = g.filter((r) => r.concentration === 0 && !isVehicle(r) && r.epoch !== 'washout');
+      if (!base.length) throw new AnalysisError(`${where}: the vehicle control has no baseline sweeps (concentration 0 before the vehicle)`);
+      const B = steady(base, lastN);
+      if (!(Math.abs(B.value) > 0)) throw new AnalysisError(`${where}: the vehicle control's baseline response is zero`);
+      const a = acc.get(String(g[0].class)) ?? { sxy: 0, sxx: 0, preps: new Set<string>(), n: 0 };
+      for (const r of veh) {
+        const dt = (r.acquiredS as number) - B.time;
+        a.sxy += dt * ((r.__value as number) / B.value - 1);
+        a.sxx += dt * dt;
+        a.n++;
+      }
+      a.preps.add(String(g[0].preparation ?? ''));
+      acc.set(String(g[0].class), a);
+    }
+    for (const [cls, a] of acc) if (a.sxx > 0) rate.set(cls, { k: a.sxy / a.sxx, preparations: a.preps.size, sweeps: a.n });
+  }
   for (const g of groups.values()) {
+    if (g.some(isVehicle)) continue; // a vehicle control gives no dose points
     const isWash = (r: Row) => r.epoch === 'washout';
     const base = g.filter((r) => r.concentration === 0 && !isWash(r));
     if (!base.length) throw new AnalysisError(`preparation ${g[0].preparation}, class ${g[0].class}: no pre-drug baseline sweeps (concentration 0)`);
@@ -124,11 +157,17 @@ export function doseResponse(rows: readonly Row[], units: string, options: DoseR
     const wash = g.filter(isWash);
     const W = wash.length ? steady(wash, lastN) : null;
     if (runDown === 'washout' && !W) throw new AnalysisError(`preparation ${g[0].preparation}: runDown "washout" needs sweeps with epoch "washout"`);
+    const vr = runDown === 'vehicle' ? rate.get(String(g[0].class)) : undefined;
+    if (runDown === 'vehicle') {
+      if (!vr) throw new AnalysisError(`class ${g[0].class}: runDown "vehicle" needs time-matched vehicle sweeps (epoch "vehicle", with acquiredS) of this class`);
+      if (g.some((r) => typeof r.acquiredS !== 'number')) throw new AnalysisError(`preparation ${g[0].preparation}: runDown "vehicle" needs the condition "acquiredS" on every sweep`);
+    }
     const concs = [...new Set(g.filter((r) => (r.concentration as number) > 0 && !isWash(r)).map((r) => r.concentration as number))].sort((a, b) => a - b);
     for (const c of concs) {
       const S = steady(g.filter((r) => r.concentration === c && !isWash(r)), lastN);
       let control = B.value;
       if (runDown === 'washout' && W && W.time !== B.time) control = B.value + ((W.value - B.value) * (S.time - B.time)) / (W.time - B.time);
+      if (vr) control = B.value * (1 + vr.k * (S.time - B.time));
       if (!(Math.abs(control) > 0)) throw new AnalysisError(`preparation ${g[0].preparation}, class ${g[0].class}: baseline response is zero`);
       points.push({ preparation: String(g[0].preparation ?? ''), class: String(g[0].class), concentration: c, response: S.value, baseline: control, normalized: S.value / control, n: S.n });
     }
@@ -188,6 +227,7 @@ export function doseResponse(rows: readonly Row[], units: string, options: DoseR
       pooled_ic50: Math.exp(pooled.params[3]), pooled_ic50_profile_low: Math.exp(plo), pooled_ic50_profile_high: Math.exp(phi),
       pooled_hill: pooled.params[0], pooled_bottom: pooled.params[1],
       bootstrap_ic50_low: boot[0], bootstrap_ic50_high: boot[1],
+      ...(runDown === 'vehicle' ? { rundown_per_min: 60 * (rate.get(cls)?.k ?? NaN), rundown_controls: rate.get(cls)?.preparations ?? 0 } : {}),
       status: st.length ? st.join('; ') : 'ok',
     });
   }

@@ -103,3 +103,37 @@ describe('dose-response on the forward model (known IC50 per class)', () => {
     expect(Math.exp(f.params[3])).toBeGreaterThan(30);
   });
 });
+
+describe('dose-response with run-down corrected by time-matched vehicle controls', () => {
+  // Synthetic rows (self-consistency; the correction method is common practice, no source):
+  // the response declines by 0.3% per minute in every preparation; drug preparations also
+  // follow a Hill law with IC50 10 and slope 1.
+  const k = -0.003 / 60; // per s
+  const concs = [0, 1, 3, 10, 30, 100];
+  const rows: Record<string, string | number>[] = [];
+  for (const prep of ['D1', 'D2', 'D3', 'V1', 'V2']) {
+    const vehicle = prep.startsWith('V');
+    concs.forEach((c, step) => {
+      for (let j = 0; j < 5; j++) {
+        const t = step * 600 + j * 60;
+        const drift = 1 + k * (t - 180);
+        const hill = vehicle || c === 0 ? 1 : 1 / (1 + c / 10);
+        rows.push({ preparation: prep, class: 'C', concentration: vehicle ? 0 : c, epoch: vehicle ? (step === 0 ? 'baseline' : 'vehicle') : step === 0 ? 'baseline' : 'drug', acquiredS: t, sweep: step * 5 + j, amplitude_uV: 100 * hill * drift });
+      }
+    });
+  }
+  it('recovers the IC50 with the vehicle correction; without it the IC50 is biased low', () => {
+    const corrected = doseResponse(rows, 'uV', { runDown: 'vehicle' });
+    const plain = doseResponse(rows.filter((r) => !String(r.preparation).startsWith('V')), 'uV');
+    const c = corrected.summary[0];
+    expect(Math.abs((c.ic50 as number) / 10 - 1)).toBeLessThan(0.01);
+    expect(c.rundown_per_min as number).toBeCloseTo(-0.003, 6);
+    expect(c.rundown_controls).toBe(2);
+    expect(plain.summary[0].ic50 as number).toBeLessThan(9.5);
+    expect(corrected.methods()).toMatch(/time-matched vehicle controls/);
+  });
+  it('says what is missing: no vehicle sweeps, no acquisition times', () => {
+    expect(() => doseResponse(rows.filter((r) => !String(r.preparation).startsWith('V')), 'uV', { runDown: 'vehicle' })).toThrow(/needs time-matched vehicle sweeps \(epoch "vehicle"/);
+    expect(() => doseResponse(rows.map(({ acquiredS, ...r }) => (r.preparation === 'V1' ? r : { ...r, acquiredS })), 'uV', { runDown: 'vehicle' })).toThrow(/preparation V1, class C: runDown "vehicle" needs the condition "acquiredS"/);
+  });
+});
