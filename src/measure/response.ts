@@ -36,6 +36,7 @@ export function parabolicPeak(y: ArrayLike<number>, i: number): { index: number;
   return { index: i + d, value: y0 - 0.25 * (ym - yp) * d };
 }
 
+import FFT = require('fft.js');
 import { normQuantile } from '../fit/dist';
 
 export interface ResponseMeasure {
@@ -133,23 +134,58 @@ function crossing(y: (i: number) => number, i0: number, i1: number, level: numbe
  */
 export function xcorrDelay(a: ArrayLike<number>, b: ArrayLike<number>, minLag: number, maxLag: number): { lag: number; r: number } {
   let best = -Infinity, bestLag = minLag;
-  const vals = new Map<number, number>();
   const na = a.length, nb = b.length;
   let ea = 0, eb = 0;
   for (let i = 0; i < na; i++) ea += a[i] * a[i];
   for (let i = 0; i < nb; i++) eb += b[i] * b[i];
-  for (let L = minLag; L <= maxLag; L++) {
-    let s = 0;
-    const i0 = Math.max(0, -L), i1 = Math.min(na, nb - L);
-    for (let i = i0; i < i1; i++) s += a[i] * b[i + L];
-    vals.set(L, s);
-    if (s > best) { best = s; bestLag = L; }
+  const nLags = maxLag - minLag + 1;
+  const vals = new Float64Array(nLags);
+  // direct sums for short searches; the FFT (fft.js) when it is cheaper (long C-fiber windows)
+  let N = 4;
+  while (N < na + nb) N *= 2;
+  if (nLags * Math.min(na, nb) > 12 * N * Math.log2(N)) {
+    const full = crossCorrelationFft(a, b, N);
+    for (let L = minLag; L <= maxLag; L++) vals[L - minLag] = L > -na && L < nb ? full[(L + N) % N] : 0;
+  } else {
+    for (let L = minLag; L <= maxLag; L++) {
+      let s = 0;
+      const i0 = Math.max(0, -L), i1 = Math.min(na, nb - L);
+      for (let i = i0; i < i1; i++) s += a[i] * b[i + L];
+      vals[L - minLag] = s;
+    }
   }
-  const ym = vals.get(bestLag - 1), yp = vals.get(bestLag + 1);
+  for (let k = 0; k < nLags; k++) if (vals[k] > best) { best = vals[k]; bestLag = k + minLag; }
+  const k = bestLag - minLag;
   let lag = bestLag;
-  if (ym !== undefined && yp !== undefined) {
+  if (k > 0 && k < nLags - 1) {
+    const ym = vals[k - 1], yp = vals[k + 1];
     const den = ym - 2 * best + yp;
     if (den < 0) lag = bestLag + Math.max(-0.5, Math.min(0.5, (0.5 * (ym - yp)) / den));
   }
   return { lag, r: best / Math.sqrt(ea * eb || 1) };
+}
+
+/** c[L] = sum_i a[i] b[i + L] for every lag, by FFT of size N >= len(a) + len(b) (negative lags at N + L). */
+export function crossCorrelationFft(a: ArrayLike<number>, b: ArrayLike<number>, N: number): Float64Array {
+  const f = new FFT(N);
+  const ra = new Float64Array(N), rb = new Float64Array(N);
+  for (let i = 0; i < a.length; i++) ra[i] = a[i];
+  for (let i = 0; i < b.length; i++) rb[i] = b[i];
+  const A = f.createComplexArray() as number[], B = f.createComplexArray() as number[];
+  f.realTransform(A, ra);
+  f.completeSpectrum(A);
+  f.realTransform(B, rb);
+  f.completeSpectrum(B);
+  // conj(A) x B
+  const C = f.createComplexArray() as number[];
+  for (let k = 0; k < 2 * N; k += 2) {
+    const ar = A[k], ai = A[k + 1], br = B[k], bi = B[k + 1];
+    C[k] = ar * br + ai * bi;
+    C[k + 1] = ar * bi - ai * br;
+  }
+  const out = f.createComplexArray() as number[];
+  f.inverseTransform(out, C);
+  const c = new Float64Array(N);
+  for (let k = 0; k < N; k++) c[k] = out[2 * k]; // fft.js's inverse divides by N
+  return c;
 }

@@ -38,6 +38,20 @@ describe('sub-sample latency', () => {
       expect(Math.abs(xcorrDelay(a, b, 0, 40).lag - d)).toBeLessThan(0.05);
     }
   });
+  it('long windows (the FFT path) give the same lags as the direct sums of the definition', () => {
+    // a slow C-like pulse in 3000-sample windows searched over 4000 lags: the FFT path
+    const f = (i: number, d: number) => Math.exp(-0.5 * ((i - 800 - d) / 120) ** 2) - 0.4 * Math.exp(-0.5 * ((i - 1100 - d) / 200) ** 2);
+    for (const d of [311.3, 1207.7]) {
+      const a = Float64Array.from({ length: 3000 }, (_, i) => f(i, 0));
+      const b = Float64Array.from({ length: 3000 }, (_, i) => f(i, d));
+      const got = xcorrDelay(a, b, -1000, 3000);
+      expect(Math.abs(got.lag - d)).toBeLessThan(0.05);
+      // direct sum of c[L] = sum_i a[i] b[i + L] around the peak agrees with the FFT choice
+      const c = (L: number) => { let s = 0; for (let i = Math.max(0, -L); i < Math.min(3000, 3000 - L); i++) s += a[i] * b[i + L]; return s; };
+      const L0 = Math.round(got.lag);
+      expect(c(L0)).toBeGreaterThanOrEqual(Math.max(c(L0 - 1), c(L0 + 1)) - 1e-9);
+    }
+  });
   it('noise level by MAD (1.4826 x MAD estimates the SD of Gaussian noise)', () => {
     const rng = new model.Rng(7);
     const x = Float64Array.from({ length: 20000 }, () => 3 * rng.normal());
