@@ -15,7 +15,9 @@
 import { Worker, MessageChannel, receiveMessageOnPort, isMainThread, type MessagePort } from 'node:worker_threads';
 import { existsSync } from 'node:fs';
 import { join } from 'node:path';
-import { availableParallelism } from 'node:os';
+import { availableParallelism, totalmem } from 'node:os';
+import { setFlagsFromString } from 'node:v8';
+import { runInNewContext } from 'node:vm';
 import { OptionError } from '../errors';
 import { kernels, type KernelName } from './kernels';
 
@@ -52,18 +54,37 @@ export function setThreads(n: number): void {
   setting = n;
 }
 
-// V8 (Node 20) does not count shared memory towards the external-memory pressure that
-// starts a garbage collection, so unreachable shared sample arrays could pile up. Each
-// one is paired with an untouched ordinary ArrayBuffer of the same size (address
-// space only, never written, so it costs no physical memory) that V8 does count.
-const ballast = new WeakMap<SharedArrayBuffer, ArrayBuffer>();
+// V8 (Node 20) does not count shared memory towards the memory pressure that starts a
+// garbage collection, so unreachable shared sample arrays could pile up. The pool
+// keeps its own count of shared bytes handed out since the last collection and, past
+// a limit (a sixteenth of the machine's memory, 0.5 to 2 GB), asks for a full
+// collection, as V8 does for ordinary buffers. (An untouched ordinary buffer of the
+// same size as "ballast" would also work, but would show every set twice in
+// process.memoryUsage().arrayBuffers.)
+let sinceCollect = 0;
+const collectLimit = Math.min(Math.max(2 ** 29, totalmem() / 16), 2 ** 31);
+let collect: (() => void) | null | undefined;
+function fullCollection(): void {
+  if (collect === undefined) {
+    try {
+      setFlagsFromString('--expose-gc');
+      collect = runInNewContext('gc') as () => void; // gc in a fresh context only, not in the user's globals
+    } catch {
+      collect = null;
+    }
+  }
+  collect?.();
+}
 
 /** A Float64Array of n samples, on shared memory when worker threads may work on it. */
 export function sharedSamples(n: number): Float64Array {
   if (n < PARALLEL_MIN_SAMPLES || threads() < 2) return new Float64Array(n);
-  const sab = new SharedArrayBuffer(n * 8);
-  ballast.set(sab, new ArrayBuffer(n * 8));
-  return new Float64Array(sab);
+  sinceCollect += n * 8;
+  if (sinceCollect > collectLimit) {
+    sinceCollect = n * 8;
+    fullCollection();
+  }
+  return new Float64Array(new SharedArrayBuffer(n * 8));
 }
 
 /** Copy of a small typed array on shared memory (for kernel arguments), when threads are on. */
