@@ -8,14 +8,18 @@
  * units in headers as `name (unit)` or `name [unit]`; a UTF-8 byte-order mark and
  * CRLF line ends are accepted. Lines starting with '#' are comments.
  */
-import { sharedSamples } from '../parallel/pool';
+import { runSweeps, sharedSamples, threads } from '../parallel/pool';
 import { InputError, OptionError } from '../errors';
 import { conditionsProblem, finite, oneOf } from '../validate';
 import { SweepSet, type Conditions } from '../sweeps/SweepSet';
 import { parseSignalUnit, parseTimeUnit, splitHeader, timeToMs, type SignalUnit, type TimeUnit } from '../sweeps/units';
 import { readInput } from './files';
 import { fieldText, parseNumber } from './numbers';
+import { PLAIN_BLOCK, flushBlock, plainRow } from './plainRows';
 import { VERSION } from '../version';
+
+/** Wide files with at least this many bytes of data (read into shared memory) are parsed on all threads. */
+export const PARALLEL_CSV_BYTES = 1 << 23;
 
 export interface DelimitedOptions {
   /** Field delimiter; 'auto' (default) detects tab, semicolon or comma from the header line. */
@@ -36,14 +40,14 @@ export interface DelimitedOptions {
 
 export const delimitedDefaults = { delimiter: 'auto', decimal: 'auto', layout: 'auto', stimulusAt: 0 } as const;
 
-const POW10 = Array.from({ length: 16 }, (_, i) => Number(`1e${i}`));
 const SWEEP_NAMES = ['sweep', 'trace', 'sweep_id', 'sweepid', 'episode'];
 const TIME_NAMES = ['time', 't'];
 const VALUE_NAMES = ['value', 'signal', 'voltage', 'amplitude', 'potential', 'v'];
 
 /** Load a delimited text file into a SweepSet. @throws InputError naming file, line and column. */
 export function readDelimited(path: string, options: DelimitedOptions = {}): SweepSet {
-  const { bytes, source } = readInput(path);
+  // large files go to shared memory so that all threads can parse them
+  const { bytes, source } = readInput(path, { shared: (size) => size >= PARALLEL_CSV_BYTES && threads() > 1 });
   return parseDelimited(bytes, path, options, source);
 }
 
@@ -127,14 +131,28 @@ export function parseDelimited(bytes: Uint8Array, file: string, options: Delimit
   const units = sUnit as SignalUnit;
   const ncol = names.length;
 
-  // count data lines (upper bound) to allocate once
+  // count data lines (upper bound) to allocate once; for a large wide file read into
+  // shared memory, also cut the data region into one part per thread at line starts
+  const parts = layout === 'wide' && bytes.buffer instanceof SharedArrayBuffer && n - pos >= PARALLEL_CSV_BYTES ? threads() : 1;
+  const sharedOrNot = (bytesNeeded: number) => (parts > 1 ? new SharedArrayBuffer(bytesNeeded) : new ArrayBuffer(bytesNeeded));
+  const starts = new Float64Array(sharedOrNot((parts + 1) * 8));
+  const firstRows = new Float64Array(sharedOrNot((parts + 1) * 8));
+  starts[0] = pos;
+  starts[parts] = n;
+  for (let j = 1; j < parts; j++) {
+    const e = bytes.indexOf(10, pos + Math.floor(((n - pos) * j) / parts));
+    starts[j] = e < 0 ? n : e + 1;
+  }
   let rowsMax = 0;
+  let nextCut = 1;
   for (let k = pos; k < n; ) {
+    while (nextCut < parts && starts[nextCut] <= k) firstRows[nextCut++] = rowsMax;
     const e = bytes.indexOf(10, k);
     rowsMax++;
     if (e < 0) break;
     k = e + 1;
   }
+  while (nextCut <= parts) firstRows[nextCut++] = rowsMax;
 
   const fieldStarts = new Int32Array(ncol + 1);
   const splitLine = (l: LineCursor): void => {
@@ -172,58 +190,29 @@ export function parseDelimited(bytes: Uint8Array, file: string, options: Delimit
   if (cp) throw new OptionError(`invalid conditions: ${cp}; must be an object of strings, finite numbers, booleans or null`);
   if (layout === 'wide') {
     nSweeps = ncol - 1;
-    const t = new Float64Array(rowsMax);
-    let buf = new Float64Array(nSweeps * rowsMax);
+    const t = new Float64Array(sharedOrNot(rowsMax * 8));
+    let buf = sharedSamples(nSweeps * rowsMax);
     let r = 0;
     const lines: number[] = [];
-    /**
-     * One pass over a row of plain decimal numbers (sign, digits, one decimal separator,
-     * at most 15 significant digits, no exponent or spaces): parses and stores every
-     * field. Returns false, having stored nothing reliable, when anything else is met;
-     * the row is then parsed again by the exact slow path.
-     */
-    const fastRow = (l: LineCursor, row: number): boolean => {
-      let k = l.start;
-      const end = l.end;
-      for (let c = 0; c < ncol; c++) {
-        let neg = false;
-        if (bytes[k] === 45) { neg = true; k++; }
-        let m = 0, digits = 0, frac = 0, seenDec = false;
-        for (; k < end; k++) {
-          const ch = bytes[k];
-          const d = ch - 48;
-          if (d >= 0 && d <= 9) {
-            m = m * 10 + d;
-            digits++;
-            if (seenDec) frac++;
-          } else if (ch === dec && !seenDec) seenDec = true;
-          else break;
-        }
-        if (digits === 0 || digits > 15) return false;
-        if (k < end && bytes[k] !== dcode) return false;
-        if (c < ncol - 1) {
-          if (k >= end) return false;
-          k++;
-        } else if (k !== end) return false;
-        const v = frac === 0 ? m : m / POW10[frac];
-        if (c === 0) t[row] = neg ? -v : v;
-        else scratch[(row & (BLOCK - 1)) * nSweeps + c - 1] = neg ? -v : v;
-      }
-      return true;
-    };
+    // all threads on the plain fast path; any other line sends the whole file to the exact parser below
+    let parallelRows = -1;
+    if (parts > 1) {
+      const res = runSweeps('csvWide', { bytes, starts, firstRows, ncol, rowsMax, dec, dcode, out: buf, t }, parts, n - pos);
+      if (res.every((x) => x >= 0)) parallelRows = res.reduce((x, y) => x + y, 0);
+    }
     // rows are gathered in a small row-major block and written sweep-major a block at a
     // time, so memory is written in runs instead of one value per sweep per row
-    const BLOCK = 64;
+    const BLOCK = PLAIN_BLOCK;
     const scratch = new Float64Array(BLOCK * nSweeps);
     const flush = (upTo: number) => {
       const first = upTo - ((upTo - 1) & (BLOCK - 1)) - 1;
-      const count = upTo - first;
-      for (let c = 0; c < nSweeps; c++) {
-        const o = c * rowsMax + first;
-        for (let q = 0; q < count; q++) buf[o + q] = scratch[q * nSweeps + c];
-      }
+      flushBlock(scratch, nSweeps, buf, rowsMax, first, upTo - first);
     };
-    for (let l = next(); l; l = next()) {
+    const fastRow = (l: LineCursor, row: number): boolean => plainRow(bytes, l.start, l.end, ncol, dec, dcode, t, row, scratch, row & (BLOCK - 1));
+    if (parallelRows >= 0) {
+      r = parallelRows;
+      for (let i = 0; i < r; i++) lines.push(header.line + 1 + i);
+    } else for (let l = next(); l; l = next()) {
       if (!fastRow(l, r)) {
         // slow path: exact field splitting, errors with line and column, any number syntax
         splitLine(l);
@@ -234,7 +223,7 @@ export function parseDelimited(bytes: Uint8Array, file: string, options: Delimit
       r++;
       if ((r & (BLOCK - 1)) === 0) flush(r);
     }
-    if (r & (BLOCK - 1)) flush(r);
+    if (parallelRows < 0 && r & (BLOCK - 1)) flush(r);
     nSamples = r;
     if (nSamples < 2) throw new InputError({ file }, `the file has ${nSamples} data row${nSamples === 1 ? '' : 's'}`, 'at least 2 samples per sweep');
     if (nSamples !== rowsMax) {

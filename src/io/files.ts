@@ -1,6 +1,7 @@
 import { createHash } from 'node:crypto';
 import { openSync, readSync, fstatSync, closeSync, constants, type Stats } from 'node:fs';
 import { InputError } from '../errors';
+import { sharedBytes } from '../parallel/pool';
 import type { Source } from '../sweeps/SweepSet';
 
 /** Open a file read-only. @throws InputError naming the file when it cannot be opened. */
@@ -67,11 +68,11 @@ export function lazySource(path: string, stat: Stats): Source {
  * (lazySource).
  * @throws InputError naming the file when it cannot be read.
  */
-export function readInput(path: string): { bytes: Uint8Array; source: Source } {
+export function readInput(path: string, options: { shared?: (size: number) => boolean } = {}): { bytes: Uint8Array; source: Source } {
   const { fd, stat } = openInput(path);
   try {
     const size = stat.size;
-    const bytes = new Uint8Array(new ArrayBuffer(size));
+    const bytes = options.shared?.(size) ? sharedBytes(size) : new Uint8Array(new ArrayBuffer(size));
     let off = 0;
     while (off < size) {
       const n = readSync(fd, bytes, off, size - off, off);

@@ -7,6 +7,7 @@
 import { readSync } from 'node:fs';
 import { sosfiltfilt, sosfiltfiltPair, filtfiltWork } from '../signal/sosfilt';
 import type { Sos } from '../signal/butter';
+import { PLAIN_BLOCK, flushBlock, plainRow } from '../io/plainRows';
 
 /**
  * A per-sweep correction that baseline and template artifact subtraction leave
@@ -146,5 +147,45 @@ function load(a: LoadArgs, s0: number, s1: number): number {
   return -1;
 }
 
-export const kernels = { filtfilt, correct, load } as const;
+export interface CsvArgs {
+  bytes: Uint8Array; starts: Float64Array; firstRows: Float64Array;
+  ncol: number; rowsMax: number; dec: number; dcode: number; out: Float64Array; t: Float64Array;
+}
+/**
+ * Parse parts p0..p1-1 of the data region of a wide delimited file (part p: bytes
+ * [starts[p], starts[p+1]), first row firstRows[p]) with the plain-row fast path.
+ * Returns the number of rows, or -1 as soon as a line is not plain (empty, a
+ * comment, another number syntax, a wrong field count): the caller then parses the
+ * whole file with the exact parser, which names the place of any error.
+ */
+function csvWide(a: CsvArgs, p0: number, p1: number): number {
+  const { bytes, starts, firstRows, ncol, rowsMax, dec, dcode, out, t } = a;
+  const nSweeps = ncol - 1;
+  const block = new Float64Array(PLAIN_BLOCK * nSweeps);
+  let total = 0;
+  for (let p = p0; p < p1; p++) {
+    const end = starts[p + 1];
+    let k = starts[p], row = firstRows[p], slot = 0, first = row;
+    while (k < end) {
+      let e = bytes.indexOf(10, k);
+      if (e < 0 || e > end) e = end;
+      let le = e;
+      if (le > k && bytes[le - 1] === 13) le--;
+      if (le === k) {
+        if (e >= bytes.length - 1) break; // a final empty line
+        return -1;
+      }
+      if (row >= rowsMax || !plainRow(bytes, k, le, ncol, dec, dcode, t, row, block, slot)) return -1;
+      row++;
+      if (++slot === PLAIN_BLOCK) { flushBlock(block, nSweeps, out, rowsMax, first, slot); first = row; slot = 0; }
+      k = e + 1;
+    }
+    if (slot) flushBlock(block, nSweeps, out, rowsMax, first, slot);
+    if (row !== firstRows[p + 1]) return -1;
+    total += row - firstRows[p];
+  }
+  return total;
+}
+
+export const kernels = { filtfilt, correct, load, csvWide } as const;
 export type KernelName = keyof typeof kernels;

@@ -76,15 +76,25 @@ function fullCollection(): void {
   collect?.();
 }
 
+function countShared(bytes: number): void {
+  sinceCollect += bytes;
+  if (sinceCollect > collectLimit) {
+    sinceCollect = bytes;
+    fullCollection();
+  }
+}
+
 /** A Float64Array of n samples, on shared memory when worker threads may work on it. */
 export function sharedSamples(n: number): Float64Array {
   if (n < PARALLEL_MIN_SAMPLES || threads() < 2) return new Float64Array(n);
-  sinceCollect += n * 8;
-  if (sinceCollect > collectLimit) {
-    sinceCollect = n * 8;
-    fullCollection();
-  }
+  countShared(n * 8);
   return new Float64Array(new SharedArrayBuffer(n * 8));
+}
+
+/** n bytes on shared memory (counted like sharedSamples), for file contents the threads parse. */
+export function sharedBytes(n: number): Uint8Array {
+  countShared(n);
+  return new Uint8Array(new SharedArrayBuffer(n));
 }
 
 /** Copy of a small typed array on shared memory (for kernel arguments), when threads are on. */

@@ -95,6 +95,32 @@ describe('loading large files', () => {
       expect(same(readBinary(join(dir, 'be.json')).data, refBe)).toBe(true);
     }
   });
+  it('a large CSV parses the same on 1 and 2 threads; a comment line, a CRLF or a bad cell in the second half falls back to the exact parser', () => {
+    const rows = 3000, cols = 400; // about 10 MB
+    const lines = [['time (ms)', ...Array.from({ length: cols }, (_, c) => `s${c} (uV)`)].join(',')];
+    for (let i = 0; i < rows; i++) lines.push([(i * 0.02).toFixed(2), ...Array.from({ length: cols }, (_, c) => (Math.round(Math.sin(i * 0.37 + c) * 1e5) / 100).toString())].join(','));
+    const text = lines.join('\n') + '\n';
+    writeFileSync(join(dir, 'big-text.csv'), text);
+    setThreads(1);
+    const one = readDelimited(join(dir, 'big-text.csv'));
+    setThreads(2);
+    const before = workerJobs();
+    const two = readDelimited(join(dir, 'big-text.csv'));
+    expect(workerJobs()).toBeGreaterThan(before);
+    expect(same(one.data, two.data)).toBe(true);
+    expect(two.nSamples).toBe(rows);
+    expect(two.data[5 * rows + 2]).toBe(Math.round(Math.sin(2 * 0.37 + 5) * 1e5) / 100);
+    // variants that leave the fast path: the exact parser gives the same numbers or names the line
+    const withComment = [...lines.slice(0, 2500), '# a note in the middle', ...lines.slice(2500)].join('\n');
+    writeFileSync(join(dir, 'big-comment.csv'), withComment);
+    expect(same(readDelimited(join(dir, 'big-comment.csv')).data, one.data)).toBe(true);
+    writeFileSync(join(dir, 'big-crlf.csv'), lines.join('\r\n') + '\r\n');
+    expect(same(readDelimited(join(dir, 'big-crlf.csv')).data, one.data)).toBe(true);
+    const bad = [...lines];
+    bad[2801] = bad[2801].replace(/,[^,]*$/, ',oops');
+    writeFileSync(join(dir, 'big-bad.csv'), bad.join('\n'));
+    expect(() => readDelimited(join(dir, 'big-bad.csv'))).toThrow(new RegExp(`big-bad\\.csv, line 2802, column ${cols + 1}: a non-numeric cell "oops"`));
+  });
   it('a NaN in the part a worker reads is reported with its sweep and sample', () => {
     const bad = Float32Array.from(f32);
     bad[(S - 3) * N + 77] = NaN;
