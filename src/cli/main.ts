@@ -32,12 +32,14 @@ Exit codes: 0 success, 2 usage error, 3 bad input file, 4 data cannot support th
 
 Runs the standard pipeline on the study the manifest describes: the conditioning in the
 manifest's "analysis" section, fiber-class components, conduction velocities, and whichever
-of recruitment, dose-response and temperature the data supports. Writes a bundle: tables
+of recruitment, strength-duration, dose-response and temperature the data supports. Writes a bundle: tables
 (CSV and JSON), figures (HTML), methods.txt and provenance.json.
 
 Options:
   --out <dir>       bundle folder (replaced atomically if it exists)   [required]
-  --jobs <N>        preparations processed in parallel (worker threads)  [default 1]
+  --jobs <N>        preparations processed in parallel (worker threads)  [default 1];
+                    with 1, large sets use every core inside each step instead
+                    (FASCICLE_THREADS=<n> in the environment limits that)
   --shard <i/n>     process only share i of n of the preparations (sorted by name);
                     writes a partial output for "fascicle merge"
   --no-figures      skip the figure files
