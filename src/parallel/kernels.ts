@@ -24,6 +24,12 @@ export interface Correction {
 /** Write samples [i0, i1) of corrected sweep s of base (n samples per sweep) to dst[o + i]. */
 export function correctSweep(base: Float64Array, n: number, c: Correction, s: number, dst: Float64Array, o: number, i0 = 0, i1 = n): void {
   const b = s * n;
+  if (c.line && c.template && c.slope[s] === 0) {
+    // the usual pair (baseline, then template) in one pass, same arithmetic order
+    const l0 = c.level[s], k = c.scale[s], t = c.group[s] * n, T = c.templates;
+    for (let i = i0; i < i1; i++) dst[o + i] = (base[b + i] - l0) - k * T[t + i];
+    return;
+  }
   if (c.line) {
     const l0 = c.level[s], k = c.slope[s];
     if (k === 0) for (let i = i0; i < i1; i++) dst[o + i] = base[b + i] - l0;
