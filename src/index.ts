@@ -13,7 +13,7 @@ export type { Sos, BType, ButterOptions } from './signal/butter';
 export { sosfilt, sosfiltfilt, sosfiltZi, defaultPadlen } from './signal/sosfilt';
 export { toFrame } from './report/frame';
 export { VERSION } from './version';
-export { threads, setThreads, workerJobs } from './parallel/pool';
+export { threads, setThreads, workerJobs, stopThreads } from './parallel/pool';
 export { baseline, baselineDefaults } from './verbs/baseline';
 export type { BaselineOptions } from './verbs/baseline';
 export { removeArtifact, artifactDefaults, detectStimulus, alignStimulus, bridgeGap, fitExpTail } from './verbs/artifact';

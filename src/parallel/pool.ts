@@ -27,6 +27,12 @@ let setting: number | null = null;
 let broken = false;
 let dispatched = 0;
 
+/** Stop the worker threads (they start again when needed); resolves when they have stopped. */
+export async function stopThreads(): Promise<void> {
+  const all = slots.splice(0);
+  await Promise.all(all.map((s) => s.worker.terminate()));
+}
+
 /** Jobs handed to worker threads so far (for tests and diagnostics). */
 export function workerJobs(): number {
   return dispatched;
@@ -116,7 +122,7 @@ function workerFile(): string | null {
 function startSlot(): Slot | null {
   const file = workerFile();
   if (!file) return null;
-  const control = new Int32Array(new SharedArrayBuffer(16));
+  const control = new Int32Array(new SharedArrayBuffer(32));
   const { port1, port2 } = new MessageChannel();
   let worker: Worker;
   try {
@@ -138,7 +144,7 @@ function startSlot(): Slot | null {
 function sharedArgs(args: object): boolean {
   for (const v of Object.values(args)) {
     if (ArrayBuffer.isView(v)) {
-      if (!(v.buffer instanceof SharedArrayBuffer)) return false;
+      if (v.byteLength > 0 && !(v.buffer instanceof SharedArrayBuffer)) return false; // empty ones are copied
     } else if (v && typeof v === 'object' && !Array.isArray(v) && !sharedArgs(v)) return false;
   }
   return true;
@@ -160,6 +166,7 @@ export function runSweeps<K extends KernelName>(kernel: K, args: Parameters<(typ
   }
   const bounds = Array.from({ length: T + 1 }, (_, k) => Math.round((k * nSweeps) / T));
   const used = slots.slice(0, T - 1);
+  if (used.some((slot) => Atomics.load(slot.control, 4) === 1)) { broken = true; return [run(args, 0, nSweeps)]; }
   used.forEach((slot, j) => {
     slot.port.postMessage({ kernel, args, s0: bounds[j + 1], s1: bounds[j + 2] });
     slot.seq = (slot.seq + 1) | 0;
@@ -176,7 +183,14 @@ export function runSweeps<K extends KernelName>(kernel: K, args: Parameters<(typ
   }
   used.forEach((slot, j) => {
     let v: number;
-    while ((v = Atomics.load(slot.control, 1)) !== slot.seq) Atomics.wait(slot.control, 1, v);
+    while ((v = Atomics.load(slot.control, 1)) !== slot.seq) {
+      if (Atomics.load(slot.control, 4) === 1) {
+        broken = true;
+        if (!failure) failure = new Error('a worker thread stopped during a job; per-sweep work now stays on the calling thread');
+        return;
+      }
+      Atomics.wait(slot.control, 1, v, 1000);
+    }
     let reply = receiveMessageOnPort(slot.port);
     while (!reply) { Atomics.wait(slot.control, 3, 0, 1); reply = receiveMessageOnPort(slot.port); }
     const m = reply.message as { value?: number; error?: string };

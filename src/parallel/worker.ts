@@ -1,7 +1,8 @@
 /**
  * A pool thread (see ./pool.ts): waits on its control word, takes the job from its
  * port, runs the kernel on its sweep range and reports back.
- * control: [0] job sequence number, [1] last job done, [2] ready flag, [3] unused.
+ * control: [0] job sequence number, [1] last job done, [2] ready flag, [3] for short
+ * waits, [4] set when this thread stops (so a waiting caller does not wait forever).
  */
 import { workerData, receiveMessageOnPort, type MessagePort } from 'node:worker_threads';
 import { setFlagsFromString } from 'node:v8';
@@ -30,6 +31,10 @@ function handle(): void {
   port.postMessage(reply);
 }
 
+process.on('exit', () => {
+  Atomics.store(control, 4, 1);
+  Atomics.notify(control, 1);
+});
 Atomics.store(control, 2, 1);
 Atomics.notify(control, 2);
 let seen = 0;

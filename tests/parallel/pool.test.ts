@@ -7,7 +7,7 @@ import { mkdtempSync, writeFileSync, appendFileSync, readFileSync } from 'node:f
 import { createHash } from 'node:crypto';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
-import { SweepSet, readBinary, readDelimited, setThreads, threads, workerJobs, InputError, writeWide } from '../../src';
+import { SweepSet, readBinary, readDelimited, setThreads, stopThreads, threads, workerJobs, InputError, writeWide } from '../../src';
 
 const dir = mkdtempSync(join(tmpdir(), 'fascicle-pool-'));
 const S = 48, N = 16000, fs = 50000; // 768,000 samples: above the threading threshold
@@ -53,6 +53,20 @@ describe('conditioning on worker threads', () => {
     expect(same(eager, fused)).toBe(true);
     // and reading the deferred samples gives the same as the materialised copy
     expect(same(set.baseline({ window: [-2, -0.1] }).data, eagerB.data)).toBe(true);
+  });
+  it('every step of baseline -> low-pass alone (no template) also runs on the worker; threads stop and start again', async () => {
+    const set = synthetic();
+    setThreads(1);
+    const one = set.baseline({ window: [-2, -0.1] }).lowpass(5000).data;
+    setThreads(2);
+    let before = workerJobs();
+    const two = set.baseline({ window: [-2, -0.1] }).lowpass(5000).data;
+    expect(workerJobs()).toBeGreaterThan(before);
+    expect(same(one, two)).toBe(true);
+    await stopThreads();
+    before = workerJobs();
+    expect(same(set.baseline({ window: [-2, -0.1] }).lowpass(5000).data, one)).toBe(true);
+    expect(workerJobs()).toBeGreaterThan(before);
   });
   it('setThreads rejects nonsense with the option named', () => {
     expect(() => setThreads(0)).toThrow(/invalid threads: 0/);
