@@ -8,6 +8,7 @@ import { readSync } from 'node:fs';
 import { sosfiltfilt, sosfiltfiltPair, filtfiltWork } from '../signal/sosfilt';
 import type { Sos } from '../signal/butter';
 import { PLAIN_BLOCK, flushBlock, plainRow } from '../io/plainRows';
+import { normalRows, sineCoefficients, type SineParts } from '../signal/sinefit';
 
 /**
  * A per-sweep correction that baseline and template artifact subtraction leave
@@ -193,5 +194,30 @@ function csvWide(a: CsvArgs, p0: number, p1: number): number {
   return total;
 }
 
-export const kernels = { filtfilt, correct, load, csvWide } as const;
+export interface SinesArgs { x: Float64Array; out: Float64Array; d: SineParts; amp: Float64Array }
+/**
+ * Hum removal of sweeps s0..s1-1: least-squares sinusoids on the design's fitted
+ * samples, subtracted over the whole sweep; the fundamental's amplitude into amp.
+ */
+function removeSines(a: SinesArgs, s0: number, s1: number): number {
+  const { x, out, d, amp } = a;
+  const { n, m, idx, full } = d;
+  const rows = normalRows(d);
+  const y = new Float64Array(m);
+  const H = (d.p - 1) / 2;
+  for (let s = s0; s < s1; s++) {
+    const o = s * n;
+    for (let k = 0; k < m; k++) y[k] = x[o + idx[k]];
+    const coef = sineCoefficients(d, rows, y);
+    amp[s] = Math.hypot(coef[1], coef[2]);
+    for (let i = 0; i < n; i++) {
+      let v = 0;
+      for (let h = 1; h <= H; h++) v += coef[2 * h - 1] * full[(2 * h - 2) * n + i] + coef[2 * h] * full[(2 * h - 1) * n + i];
+      out[o + i] = x[o + i] - v;
+    }
+  }
+  return -1;
+}
+
+export const kernels = { filtfilt, correct, load, csvWide, removeSines } as const;
 export type KernelName = keyof typeof kernels;

@@ -83,6 +83,22 @@ export function lstsq(cols: ArrayLike<number>[], y: ArrayLike<number>): number[]
  */
 export function lstsqSolver(cols: ArrayLike<number>[]): (y: ArrayLike<number>) => number[] | null {
   const p = cols.length;
+  const { A0, scale } = normalEquations(cols);
+  return (y) => {
+    const b: number[] = [];
+    for (let j = 0; j < p; j++) {
+      let s = 0;
+      for (let i = 0; i < y.length; i++) s += cols[j][i] * y[i];
+      b.push(s / scale[j]);
+    }
+    const x = solve(A0, b); // solve works on a copy
+    return x ? x.map((v, j) => v / scale[j]) : null;
+  };
+}
+
+/** The column-scaled normal matrix A0 = D^-1 X^T X D^-1 (D = column norms, in scale) of lstsq. */
+export function normalEquations(cols: ArrayLike<number>[]): { A0: number[][]; scale: number[] } {
+  const p = cols.length;
   const n = p ? cols[0].length : 0;
   const scale = cols.map((c) => {
     let s = 0;
@@ -99,14 +115,5 @@ export function lstsqSolver(cols: ArrayLike<number>[]): (y: ArrayLike<number>) =
     }
   }
   for (let j = 0; j < p; j++) for (let k = j + 1; k < p; k++) A0[j][k] = A0[k][j];
-  return (y) => {
-    const b: number[] = [];
-    for (let j = 0; j < p; j++) {
-      let s = 0;
-      for (let i = 0; i < y.length; i++) s += cols[j][i] * y[i];
-      b.push(s / scale[j]);
-    }
-    const x = solve(A0, b); // solve works on a copy
-    return x ? x.map((v, j) => v / scale[j]) : null;
-  };
+  return { A0, scale };
 }

@@ -7,9 +7,16 @@
  * Processing: Estimation Theory, Prentice Hall 1993, sec. 4.6 (sinusoidal
  * parameter estimation).
  */
-import { lstsqSolver } from './linalg';
+import { normalEquations, solve } from './linalg';
 
 export interface SineFit { coef: number[]; rss: number; power: number }
+
+/**
+ * The arrays of a sine-fit design, flat so that worker threads can share them:
+ * fitted sample indices, basis columns over them (p x m, the constant first), cos and
+ * sin of every harmonic at every sample (2H x n), and the scaled normal equations.
+ */
+export interface SineParts { idx: Int32Array; cols: Float64Array; full: Float64Array; A0: Float64Array; scale: Float64Array; p: number; m: number; n: number }
 
 /** A sine-fit design for fixed sample times, frequency and mask, reused for many sweeps. */
 export interface SineDesign {
@@ -17,47 +24,81 @@ export interface SineDesign {
   fit(x: ArrayLike<number>): SineFit;
   /** the fitted sinusoids (without the constant) at every sample */
   sinesAt(coef: number[], out: Float64Array): Float64Array;
+  /** the flat arrays (for the per-sweep kernel) */
+  parts: SineParts;
+}
+
+/**
+ * Least-squares coefficients of y (the fitted samples) on the design: the normal
+ * equations scaled by the column norms, as lstsq (signal/linalg.ts) does.
+ */
+export function sineCoefficients(d: SineParts, A0rows: number[][], y: ArrayLike<number>, xty?: Float64Array): number[] {
+  const { cols, p, m, scale } = d;
+  const b: number[] = [];
+  for (let j = 0; j < p; j++) {
+    let s = 0;
+    for (let k = 0; k < m; k++) s += cols[j * m + k] * y[k];
+    if (xty) xty[j] = s;
+    b.push(s / scale[j]);
+  }
+  const x = solve(A0rows, b);
+  return x ? x.map((v, j) => v / scale[j]) : new Array(p).fill(0);
+}
+
+/** The rows of the flat normal matrix. */
+export function normalRows(d: SineParts): number[][] {
+  return Array.from({ length: d.p }, (_, j) => Array.from(d.A0.subarray(j * d.p, (j + 1) * d.p)));
 }
 
 /**
  * Build the design once: basis columns over the fitted samples and the solver's
  * normal matrix. tMs holds sample times in ms; mask selects the fitted samples.
  */
-export function sineDesign(tMs: ArrayLike<number>, f: number, harmonics: number, mask?: Uint8Array): SineDesign {
-  const idx: number[] = [];
-  for (let i = 0; i < tMs.length; i++) if (!mask || mask[i]) idx.push(i);
-  const m = idx.length;
-  const cols: Float64Array[] = [new Float64Array(m).fill(1)];
-  // cos and sin of every harmonic at every sample (for subtraction over the whole sweep)
-  const full: Float64Array[] = [];
+export function sineDesign(tMs: ArrayLike<number>, f: number, harmonics: number, mask?: Uint8Array, alloc: (n: number) => Float64Array = (n) => new Float64Array(n), fitOnly = false): SineDesign {
+  const n = tMs.length;
+  const list: number[] = [];
+  for (let i = 0; i < n; i++) if (!mask || mask[i]) list.push(i);
+  const m = list.length, p = 2 * harmonics + 1;
+  const idx = Int32Array.from(list);
+  const cols = alloc(p * m);
+  // fitOnly (frequency search): the basis over the fitted samples only, no sinesAt
+  const full = alloc(fitOnly ? 0 : 2 * harmonics * n);
+  cols.fill(1, 0, m);
   for (let h = 1; h <= harmonics; h++) {
     const w = (2 * Math.PI * h * f) / 1000;
-    const cf = new Float64Array(tMs.length), sf = new Float64Array(tMs.length);
-    for (let i = 0; i < tMs.length; i++) { cf[i] = Math.cos(w * tMs[i]); sf[i] = Math.sin(w * tMs[i]); }
-    full.push(cf, sf);
-    cols.push(Float64Array.from(idx, (i) => cf[i]), Float64Array.from(idx, (i) => sf[i]));
+    const co = (2 * h - 2) * n, so = (2 * h - 1) * n;
+    if (fitOnly) {
+      for (let k = 0; k < m; k++) { cols[(2 * h - 1) * m + k] = Math.cos(w * tMs[idx[k]]); cols[2 * h * m + k] = Math.sin(w * tMs[idx[k]]); }
+      continue;
+    }
+    for (let i = 0; i < n; i++) { full[co + i] = Math.cos(w * tMs[i]); full[so + i] = Math.sin(w * tMs[i]); }
+    for (let k = 0; k < m; k++) { cols[(2 * h - 1) * m + k] = full[co + idx[k]]; cols[2 * h * m + k] = full[so + idx[k]]; }
   }
-  const solver = lstsqSolver(cols);
+  const { A0, scale } = normalEquations(Array.from({ length: p }, (_, j) => cols.subarray(j * m, (j + 1) * m)));
+  const A0flat = alloc(p * p);
+  A0.forEach((r, j) => A0flat.set(r, j * p));
+  const parts: SineParts = { idx, cols, full, A0: A0flat, scale: Float64Array.from(scale), p, m, n };
   const y = new Float64Array(m);
+  const xty = new Float64Array(p);
   return {
+    parts,
     fit(x) {
-      for (let k = 0; k < m; k++) y[k] = x[idx[k]];
-      const coef = solver(y) ?? new Array(cols.length).fill(0);
-      let rss = 0;
-      for (let k = 0; k < m; k++) {
-        let p = 0;
-        for (let j = 0; j < cols.length; j++) p += coef[j] * cols[j][k];
-        rss += (y[k] - p) ** 2;
-      }
+      let yy = 0;
+      for (let k = 0; k < m; k++) { y[k] = x[idx[k]]; yy += y[k] * y[k]; }
+      const coef = sineCoefficients(parts, A0, y, xty);
+      // residual sum of squares of the least-squares solution: y'y - c'X'y (no second pass)
+      let rss = yy;
+      for (let j = 0; j < p; j++) rss -= coef[j] * xty[j];
       let power = 0;
       for (let j = 1; j < coef.length; j++) power += coef[j] * coef[j];
       return { coef, rss, power };
     },
     sinesAt(coef, out) {
+      if (fitOnly) throw new Error('sinesAt needs a design built without fitOnly');
       const H = (coef.length - 1) / 2;
-      for (let i = 0; i < tMs.length; i++) {
+      for (let i = 0; i < n; i++) {
         let v = 0;
-        for (let h = 1; h <= H; h++) v += coef[2 * h - 1] * full[2 * h - 2][i] + coef[2 * h] * full[2 * h - 1][i];
+        for (let h = 1; h <= H; h++) v += coef[2 * h - 1] * full[(2 * h - 2) * n + i] + coef[2 * h] * full[(2 * h - 1) * n + i];
         out[i] = v;
       }
       return out;

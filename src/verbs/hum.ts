@@ -1,4 +1,4 @@
-import { sharedSamples } from '../parallel/pool';
+import { runSweeps, shareCopy, sharedSamples } from '../parallel/pool';
 import type { SweepSet } from '../sweeps/SweepSet';
 import { OptionError } from '../errors';
 import { sineDesign } from '../signal/sinefit';
@@ -42,7 +42,7 @@ export function removeHum(set: SweepSet, options: HumOptions = {}): SweepSet {
   // use at most 16 sweeps (evenly spread) to pick the frequency
   const probe = Array.from({ length: Math.min(16, set.nSweeps) }, (_, k) => Math.floor((k * set.nSweeps) / Math.min(16, set.nSweeps)));
   const rssAt = (f: number, H: number) => {
-    const d = sineDesign(t, f, H, mask);
+    const d = sineDesign(t, f, H, mask, undefined, true);
     return probe.reduce((s, i) => s + d.fit(set.sweep(i)).rss, 0);
   };
   let f: number;
@@ -56,7 +56,7 @@ export function removeHum(set: SweepSet, options: HumOptions = {}): SweepSet {
     const g = (Math.sqrt(5) - 1) / 2;
     let x1 = hi - g * (hi - lo), x2 = lo + g * (hi - lo);
     let f1 = rssAt(x1, H), f2 = rssAt(x2, H);
-    for (let it = 0; it < 30; it++) {
+    for (let it = 0; it < 22; it++) { // the bracket shrinks to 2 x 0.618^22 = 5e-5 Hz
       if (f1 < f2) { hi = x2; x2 = x1; f2 = f1; x1 = hi - g * (hi - lo); f1 = rssAt(x1, H); }
       else { lo = x1; x1 = x2; f1 = f2; x2 = lo + g * (hi - lo); f2 = rssAt(x2, H); }
     }
@@ -68,17 +68,14 @@ export function removeHum(set: SweepSet, options: HumOptions = {}): SweepSet {
     f = freqOpt;
   }
   if (f * harmonics >= set.fs / 2) throw new OptionError(`invalid harmonics: ${harmonics} at ${f.toFixed(2)} Hz reach fs/2 (fs=${set.fs} Hz)`);
-  const out = sharedSamples(set.data.length);
-  const hum = new Float64Array(n);
-  const amplitudes: number[] = [];
-  const design = sineDesign(t, f, harmonics, mask);
-  for (let s = 0; s < set.nSweeps; s++) {
-    const x = set.sweep(s);
-    const fit = design.fit(x);
-    design.sinesAt(fit.coef, hum);
-    amplitudes.push(Math.hypot(fit.coef[1], fit.coef[2]));
-    for (let i = 0; i < n; i++) out[s * n + i] = x[i] - hum[i];
-  }
+  const x = set.data;
+  const out = sharedSamples(x.length);
+  const shared = out.buffer instanceof SharedArrayBuffer;
+  const design = sineDesign(t, f, harmonics, mask, (k) => (shared ? new Float64Array(new SharedArrayBuffer(k * 8)) : new Float64Array(k)));
+  const amp = shareCopy(new Float64Array(set.nSweeps));
+  const d = design.parts;
+  runSweeps('removeSines', { x, out, d: shared ? { ...d, idx: shareCopy(d.idx), scale: shareCopy(d.scale) } : d, amp }, set.nSweeps, x.length);
+  const amplitudes = Array.from(amp);
   return set.create({
     data: out,
     extras: { humFrequencyHz: f, humAmplitude: amplitudes },
