@@ -9,6 +9,7 @@ import { sosfiltfilt, sosfiltfiltPair, filtfiltWork } from '../signal/sosfilt';
 import type { Sos } from '../signal/butter';
 import { PLAIN_BLOCK, flushBlock, plainRow } from '../io/plainRows';
 import { normalRows, sineCoefficients, type SineParts } from '../signal/sinefit';
+import { resamplePolyInto } from '../signal/resample';
 
 /**
  * A per-sweep correction that baseline and template artifact subtraction leave
@@ -219,5 +220,26 @@ function removeSines(a: SinesArgs, s0: number, s1: number): number {
   return -1;
 }
 
-export const kernels = { filtfilt, correct, load, csvWide, removeSines } as const;
+export interface ResampleArgs { x: Float64Array; out: Float64Array; n: number; m: number; up: number; down: number; h: Float64Array; preRemove: number; padtype: 'constant' | 'mean' | 'median' }
+/** Rational-rate resampling of sweeps s0..s1-1 (n samples in, m out), after taking off each sweep's background. */
+function resampleSweeps(a: ResampleArgs, s0: number, s1: number): number {
+  const { x, out, n, m, up, down, h, preRemove, padtype } = a;
+  const buf = padtype === 'median' ? new Float64Array(n) : null;
+  for (let s = s0; s < s1; s++) {
+    const sw = x.subarray(s * n, (s + 1) * n);
+    let bg = 0;
+    if (padtype === 'mean') {
+      for (let i = 0; i < n; i++) bg += sw[i];
+      bg /= n;
+    } else if (buf) {
+      buf.set(sw);
+      buf.sort();
+      bg = n % 2 ? buf[(n - 1) / 2] : 0.5 * (buf[n / 2 - 1] + buf[n / 2]);
+    }
+    resamplePolyInto(sw, up, down, h, preRemove, out.subarray(s * m, (s + 1) * m), bg);
+  }
+  return -1;
+}
+
+export const kernels = { filtfilt, correct, load, csvWide, removeSines, resampleSweeps } as const;
 export type KernelName = keyof typeof kernels;

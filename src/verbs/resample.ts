@@ -1,8 +1,8 @@
 import type { SweepSet } from '../sweeps/SweepSet';
-import { polyphaseDesign, rationalRatio, resampledLength, resamplePolyInto } from '../signal/resample';
+import { polyphaseDesign, rationalRatio, resampledLength } from '../signal/resample';
 import { OptionError } from '../errors';
 import { oneOf, positive } from '../validate';
-import { sharedSamples } from '../parallel/pool';
+import { runSweeps, shareCopy, sharedSamples } from '../parallel/pool';
 
 export interface ResampleOptions {
   /** new sample rate, Hz; new / old must be a fraction up/down with up, down <= 1000 (e.g. 50000 -> 20000 is 2/5) */
@@ -41,20 +41,8 @@ export function resample(set: SweepSet, options: ResampleOptions): SweepSet {
   }
   const out = sharedSamples(set.nSweeps * m);
   const x = set.data;
-  const buf = padtype === 'median' ? new Float64Array(n) : null;
-  for (let s = 0; s < set.nSweeps; s++) {
-    const sw = x.subarray(s * n, (s + 1) * n);
-    let bg = 0;
-    if (padtype === 'mean') {
-      for (let i = 0; i < n; i++) bg += sw[i];
-      bg /= n;
-    } else if (buf) {
-      buf.set(sw);
-      buf.sort();
-      bg = n % 2 ? buf[(n - 1) / 2] : 0.5 * (buf[n / 2 - 1] + buf[n / 2]);
-    }
-    resamplePolyInto(sw, up, down, h, preRemove, out.subarray(s * m, (s + 1) * m), bg);
-  }
+  const hs = out.buffer instanceof SharedArrayBuffer ? shareCopy(h) : h;
+  runSweeps('resampleSweeps', { x, out, n, m, up, down, h: hs, preRemove, padtype }, set.nSweeps, x.length * Math.max(1, h.length / up / 8));
   return set.create({
     data: out, nSamples: m, fs: (set.fs * up) / down,
     step: { verb: 'resample', options: { fs: fsOut, up, down, padtype, beta, taps: h.length, cutoffHz: (Math.min(set.fs, fsOut) / 2) } },

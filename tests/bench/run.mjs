@@ -125,7 +125,27 @@ if (py.status === 0) {
   line('SciPy (sosfiltfilt, NumPy) same work, same data', `${tp.toFixed(2)} s, ${(S * N / tp / 1e6).toFixed(1)} M samples/s`);
   line('ratio SciPy time / fascicle time', `${(tp / best).toFixed(2)} (${targetNote(tp / best >= 1)}: target >= 1); 1 thread: ${(tp / best1).toFixed(2)}`);
 } else line('SciPy comparison', 'skipped (python3 with SciPy not found)');
+{
+  // other conditioning steps on the same 1000 x 20000 set (fascicle only)
+  const tHum = timed(() => withI.removeHum({ frequency: 50, harmonics: 5 }).data).t;
+  const tDet = timed(() => withI.removeHum({ harmonics: 5 }).data).t;
+  const tRes = timed(() => withI.resample({ fs: 20000 }).data).t;
+  line(`hum removal, 50 Hz + 4 harmonics, ${S} x ${N}`, `${tHum.toFixed(2)} s (frequency detected: ${tDet.toFixed(2)} s)`);
+  line(`resample 50 -> 20 kHz (polyphase FIR), ${S} x ${N}`, `${tRes.toFixed(2)} s`);
+}
 bset = null;
+
+{
+  // measuring: 300 simulated sweeps at 20, 30 and 40 mm (the simulation is not timed)
+  const sw = Array.from({ length: 300 }, (_, k) => ({ intensity: 20, distanceMm: [20, 30, 40][k % 3], temperatureC: 37, concentration: 0, conditions: { preparation: `P${k % 4}` } }));
+  const sim = f.model.simulateNerve({ model: f.model.rodentSciatic(), seed: 2, grid: { fs, t0Ms: -2, nSamples: N }, sweeps: sw, nuisance: { noiseUv: 5 } });
+  const c = sim.baseline({ window: [-2, -0.1] }).lowpass(10000);
+  const tc = timed(() => c.components({ preset: 'mammalian' }));
+  const tv = timed(() => tc.r.velocity());
+  console.log('\n== measuring (300 simulated sweeps x 20000 samples, 3 distances)');
+  line('components (3 classes)', `${tc.t.toFixed(2)} s`);
+  line('velocity (single-site, two-site with cross-correlation, regression)', `${tv.t.toFixed(2)} s`);
+}
 
 console.log('\n== forward model');
 let x = timed(() => f.makeDemo(join(dir, 'demo')));

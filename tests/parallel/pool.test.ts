@@ -68,6 +68,20 @@ describe('conditioning on worker threads', () => {
     expect(same(set.baseline({ window: [-2, -0.1] }).lowpass(5000).data, one)).toBe(true);
     expect(workerJobs()).toBeGreaterThan(before);
   });
+  it('hum removal and resampling give the same bits on 1 and 2 threads', () => {
+    const set = synthetic();
+    setThreads(1);
+    const hum1 = set.removeHum({ frequency: 50, harmonics: 3 });
+    const res1 = set.resample({ fs: 20000, padtype: 'median' }).data;
+    setThreads(2);
+    const before = workerJobs();
+    const hum2 = set.removeHum({ frequency: 50, harmonics: 3 });
+    const res2 = set.resample({ fs: 20000, padtype: 'median' }).data;
+    expect(workerJobs() - before).toBe(2);
+    expect(same(hum1.data, hum2.data)).toBe(true);
+    expect(hum1.extras.humAmplitude).toEqual(hum2.extras.humAmplitude);
+    expect(same(res1, res2)).toBe(true);
+  });
   it('setThreads rejects nonsense with the option named', () => {
     expect(() => setThreads(0)).toThrow(/invalid threads: 0/);
     expect(() => setThreads(1.5)).toThrow(/integer from 1 to 64/);
