@@ -90,9 +90,12 @@ function countShared(bytes: number): void {
   }
 }
 
-/** A Float64Array of n samples, on shared memory when worker threads may work on it. */
-export function sharedSamples(n: number): Float64Array {
-  if (n < PARALLEL_MIN_SAMPLES || threads() < 2) return new Float64Array(n);
+/**
+ * A Float64Array of n samples, on shared memory when worker threads may work on it
+ * (when the work that fills it, in samples, default n, is large enough).
+ */
+export function sharedSamples(n: number, work = n): Float64Array {
+  if (work < PARALLEL_MIN_SAMPLES || threads() < 2) return new Float64Array(n);
   countShared(n * 8);
   return new Float64Array(new SharedArrayBuffer(n * 8));
 }

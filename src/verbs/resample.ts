@@ -39,7 +39,7 @@ export function resample(set: SweepSet, options: ResampleOptions): SweepSet {
   if (set.nSweeps * m > 2 ** 30) {
     throw new OptionError(`invalid fs: ${fsOut} Hz would make ${set.nSweeps} sweeps x ${m} samples (${((set.nSweeps * m * 8) / 1e9).toFixed(1)} GB); crop or select sweeps first, or choose a lower rate`);
   }
-  const out = sharedSamples(set.nSweeps * m);
+  const out = sharedSamples(set.nSweeps * m, set.nSweeps * Math.max(n, m));
   const x = set.data;
   const hs = out.buffer instanceof SharedArrayBuffer ? shareCopy(h) : h;
   runSweeps('resampleSweeps', { x, out, n, m, up, down, h: hs, preRemove, padtype }, set.nSweeps, x.length * Math.max(1, h.length / up / 8));
