@@ -13,7 +13,7 @@
 import type { SweepSet, ConditionValue } from '../sweeps/SweepSet';
 import { OptionError, AnalysisError } from '../errors';
 import { resolvePreset, scaledRange, type ClassPreset, type FiberClass } from './classes';
-import { measureResponse, noiseMad, type ResponseMeasure } from './response';
+import { measureResponse, noiseMad, onsetBefore, type ResponseMeasure } from './response';
 import { windowIndices } from '../verbs/baseline';
 import { windowMs, warnOnce } from '../validate';
 import { VERSION } from '../version';
@@ -170,6 +170,7 @@ export function measureComponents(set: SweepSet, options: ComponentOptions = {})
       floor[c + 1] = Math.max(0, polarity * smooth[idx[c + 1][0]]) * polarity;
     }
     const ms: ResponseMeasure[] = [];
+    const firstClass = idx.reduce((best, w, ci) => (w[0] < idx[best][0] ? ci : best), 0);
     classes.forEach((c, ci) => {
       const [a, b] = idx[ci];
       const cond = set.conditions[s];
@@ -189,8 +190,15 @@ export function measureComponents(set: SweepSet, options: ComponentOptions = {})
         for (let i = a; i <= b; i++) xs[i] = x[i] - (floor[ci] + ((endLevel - floor[ci]) * (i - a)) / Math.max(1, b - a));
       }
       const m = measureResponse(xs, a, b, noise, k, polarity);
-      // an onset is only an onset when the signal starts below the level inside the window
-      const onsetOk = m.detected && m.onsetIndex > a;
+      // an onset is only an onset when the signal starts below the level inside the window;
+      // the earliest class may start before its window (fibers faster than the class range, or
+      // a single-fiber waveform that rises before the arrival): its onset is then looked for
+      // back to the earliest time analysed, where nothing but that class can be
+      if (m.detected && m.onsetIndex <= a && ci === firstClass && floor[ci] === 0) {
+        const before = onsetBefore(x, a, set.indexAt(earliest), m.level, m.polarity);
+        if (before !== null) m.onsetIndex = before;
+      }
+      const onsetOk = m.detected && (m.onsetIndex > a || (ci === firstClass && m.onsetIndex < a));
       ms.push(m);
       const t = (fi: number) => set.timeAt(0) + fi * dt;
       const u = set.units;

@@ -120,6 +120,18 @@ export function measureResponse(x: ArrayLike<number>, a: number, b: number, nois
   };
 }
 
+/**
+ * Onset before a window's start: walking back from index `from` while p x stays above
+ * level, down to `lo`; the interpolated crossing, or null when the signal is still
+ * above the level at `lo`.
+ */
+export function onsetBefore(x: ArrayLike<number>, from: number, lo: number, level: number, p: 1 | -1): number | null {
+  const y = (i: number) => p * x[i];
+  let i = from;
+  while (i > lo && y(i - 1) > level) i--;
+  return i > lo ? crossing(y, i - 1, i, level) : null;
+}
+
 /** Fractional index between i0 and i1 where y crosses level (linear interpolation). */
 function crossing(y: (i: number) => number, i0: number, i1: number, level: number): number {
   const y0 = y(i0), y1 = y(i1);

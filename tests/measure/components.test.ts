@@ -52,6 +52,20 @@ describe('sub-sample latency', () => {
       expect(c(L0)).toBeGreaterThanOrEqual(Math.max(c(L0 - 1), c(L0 + 1)) - 1e-9);
     }
   });
+  it('the earliest class whose wave starts before its window gets its onset from before the window (analytic Gaussian crossing)', () => {
+    const fs = 50000, n = 2000, t0 = -5;
+    const rng = new model.Rng(3);
+    const data = Float64Array.from({ length: n }, (_, i) => {
+      const t = t0 + (i * 1000) / fs;
+      return 500 * Math.exp(-0.5 * ((t - 0.3) / 0.05) ** 2) + 2 * rng.normal();
+    });
+    const set = new SweepSet({ data, nSweeps: 1, nSamples: n, fs, t0Ms: t0, units: 'uV', conditions: [{ distanceMm: 20, temperatureC: 37 }] });
+    const row = set.components({ preset: 'mammalian' }).rows.find((r) => r.class === 'A-alpha/beta')!;
+    const level = 4 * (row.noise_uV as number);
+    const expected = 0.3 - 0.05 * Math.sqrt(2 * Math.log(500 / level)); // where 500 exp(-u^2/2) = level
+    expect(row.window_start_ms as number).toBeGreaterThan(expected);
+    expect(Math.abs((row.onset_ms as number) - expected)).toBeLessThan(0.01);
+  });
   it('noise level by MAD (1.4826 x MAD estimates the SD of Gaussian noise)', () => {
     const rng = new model.Rng(7);
     const x = Float64Array.from({ length: 20000 }, () => 3 * rng.normal());
