@@ -103,7 +103,7 @@ function finiteSum(x: Float64Array, from: number, to: number): boolean {
  * written, or -1.
  */
 function load(a: LoadArgs, s0: number, s1: number): number {
-  const { fd, dtype, little, interleaved, nSamples: n, nChannels: nc, channel: ch, gain, offset, out } = a;
+  const { dtype, little, interleaved, nSamples: n, nChannels: nc, channel: ch, gain, offset, out } = a;
   const w = BYTES[dtype];
   const sweepBytes = n * nc * w;
   const identity = gain === 1 && offset === 0;

@@ -38,7 +38,6 @@ export function removeHum(set: SweepSet, options: HumOptions = {}): SweepSet {
     throw new OptionError(`invalid frequency: ${JSON.stringify(freqOpt)}; must be a mains frequency in Hz (a number such as 50 or 60) or "detect"`);
   }
   const maxH = Math.floor((set.fs / 2 - 1) / 70);
-  const n = set.nSamples;
   // use at most 16 sweeps (evenly spread) to pick the frequency
   const probe = Array.from({ length: Math.min(16, set.nSweeps) }, (_, k) => Math.floor((k * set.nSweeps) / Math.min(16, set.nSweeps)));
   const rssAt = (f: number, H: number) => {
