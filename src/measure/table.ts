@@ -12,7 +12,6 @@ import { recruitment, RecruitmentResult } from '../analysis/recruitment';
 import { strengthDuration, StrengthDurationResult, type StrengthDurationOptions } from '../analysis/strengthDuration';
 import { temperatureAnalysis, TemperatureResult } from '../analysis/temperature';
 
-
 /** Default grouping for velocity: the conditions that vary and are not per-sweep or per-distance. */
 function defaultBy(set: SweepSet): string[] {
   const keys = ['preparation', 'temperatureC', 'concentration', 'drug', 'epoch'];
