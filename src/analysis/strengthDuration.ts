@@ -81,6 +81,7 @@ export function strengthDuration(rows: readonly Row[], units: string, options: S
     const id = by.map((k) => p[k]).join('|') + '|' + p.class;
     (groups.get(id) ?? groups.set(id, []).get(id)!).push(p);
   }
+  const unitOf = new Map(use.map((r) => [String(r.class), (r.intensityUnit as string) ?? null]));
   const out: Row[] = [];
   const fits = new Map<string, { weiss: FitResult; lapicque: FitResult }>();
   for (const [id, g] of groups) {
@@ -89,7 +90,7 @@ export function strengthDuration(rows: readonly Row[], units: string, options: S
     const I = g.map((p) => p.criterion as number);
     const st: string[] = [];
     if (g.length < strengthDurationDefaults.minWidths) {
-      out.push({ ...Object.fromEntries(by.map((k) => [k, g[0][k] ?? null])), class: g[0].class, widths: g.length, rheobase: null, chronaxie_ms: null, status: `needs at least ${strengthDurationDefaults.minWidths} pulse widths with a recruitment curve (has ${g.length})` });
+      out.push({ ...Object.fromEntries(by.map((k) => [k, g[0][k] ?? null])), class: g[0].class, intensityUnit: unitOf.get(String(g[0].class)) ?? null, widths: g.length, rheobase: null, chronaxie_ms: null, status: `needs at least ${strengthDurationDefaults.minWidths} pulse widths with a recruitment curve (has ${g.length})` });
       continue;
     }
     // start: rheobase a little below the longest width's intensity, chronaxie from the two extreme widths
@@ -106,7 +107,7 @@ export function strengthDuration(rows: readonly Row[], units: string, options: S
     const chron = wf.params[1];
     if (chron < w[0] || chron > w[w.length - 1]) st.push('chronaxie outside the tested pulse widths: extrapolated');
     out.push({
-      ...Object.fromEntries(by.map((k) => [k, g[0][k] ?? null])), class: g[0].class, intensityUnit: null, widths: g.length, criterionFraction: fraction,
+      ...Object.fromEntries(by.map((k) => [k, g[0][k] ?? null])), class: g[0].class, intensityUnit: unitOf.get(String(g[0].class)) ?? null, widths: g.length, criterionFraction: fraction,
       rheobase: wf.params[0], rheobase_ci95_low: fin(wf.ci[0][0]), rheobase_ci95_high: fin(wf.ci[0][1]),
       chronaxie_ms: chron, chronaxie_ci95_low_ms: fin(chProfile[0]), chronaxie_ci95_high_ms: fin(chProfile[1]),
       lapicque_rheobase: lf.params[0], lapicque_tau_ms: lf.params[1], lapicque_chronaxie_ms: lf.params[1] * Math.LN2,
@@ -114,7 +115,5 @@ export function strengthDuration(rows: readonly Row[], units: string, options: S
       weiss_rss: wf.residualSS, lapicque_rss: lf.residualSS, status: st.length ? st.join('; ') : 'ok',
     });
   }
-  const unitOf = new Map(use.map((r) => [String(r.class), (r.intensityUnit as string) ?? null]));
-  for (const r of out) r.intensityUnit = unitOf.get(String(r.class)) ?? null;
   return new StrengthDurationResult(out, points, fits, [...history, { verb: 'strengthDuration', options: { measure, by, fraction, criterion: `${fraction} of the maximum of a Boltzmann recruitment fit per pulse width`, models: ['Weiss', 'Lapicque'], scale: 'log intensity' }, version: VERSION }], sources);
 }

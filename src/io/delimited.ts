@@ -210,8 +210,7 @@ export function parseDelimited(bytes: Uint8Array, file: string, options: Delimit
     };
     const fastRow = (l: LineCursor, row: number): boolean => plainRow(bytes, l.start, l.end, ncol, dec, dcode, t, row, scratch, row & (BLOCK - 1));
     if (parallelRows >= 0) {
-      r = parallelRows;
-      for (let i = 0; i < r; i++) lines.push(header.line + 1 + i);
+      r = parallelRows; // every line after the header was a data row
     } else for (let l = next(); l; l = next()) {
       if (!fastRow(l, r)) {
         // slow path: exact field splitting, errors with line and column, any number syntax
@@ -233,7 +232,7 @@ export function parseDelimited(bytes: Uint8Array, file: string, options: Delimit
     }
     data = buf;
     time = t.subarray(0, nSamples);
-    checkTime(time, file, (i) => lines[i], 1);
+    checkTime(time, file, parallelRows >= 0 ? (i) => header.line + 1 + i : (i) => lines[i], 1);
     for (let s = 0; s < nSweeps; s++) conds.push({ ...base, label: heads[s + 1].name, fileSweep: s });
   } else {
     const sc = idxOf(SWEEP_NAMES), tc = idxOf(TIME_NAMES), vc = idxOf(VALUE_NAMES);

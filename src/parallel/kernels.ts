@@ -23,6 +23,11 @@ export interface Correction {
   template: boolean; scale: Float64Array; group: Int32Array; templates: Float64Array;
 }
 
+/** A correction that changes nothing (fields to be overridden). */
+export function noCorrection(): Correction {
+  return { line: false, level: new Float64Array(0), slope: new Float64Array(0), center: 0, template: false, scale: new Float64Array(0), group: new Int32Array(0), templates: new Float64Array(0) };
+}
+
 /** Write samples [i0, i1) of corrected sweep s of base (n samples per sweep) to dst[o + i]. */
 export function correctSweep(base: Float64Array, n: number, c: Correction, s: number, dst: Float64Array, o: number, i0 = 0, i1 = n): void {
   const b = s * n;

@@ -54,15 +54,15 @@ export function normalRows(d: SineParts): number[][] {
  * Build the design once: basis columns over the fitted samples and the solver's
  * normal matrix. tMs holds sample times in ms; mask selects the fitted samples.
  */
-export function sineDesign(tMs: ArrayLike<number>, f: number, harmonics: number, mask?: Uint8Array, alloc: (n: number) => Float64Array = (n) => new Float64Array(n), fitOnly = false): SineDesign {
+export function sineDesign(tMs: ArrayLike<number>, f: number, harmonics: number, mask?: Uint8Array, fitOnly = false): SineDesign {
   const n = tMs.length;
   const list: number[] = [];
   for (let i = 0; i < n; i++) if (!mask || mask[i]) list.push(i);
   const m = list.length, p = 2 * harmonics + 1;
   const idx = Int32Array.from(list);
-  const cols = alloc(p * m);
+  const cols = new Float64Array(p * m);
   // fitOnly (frequency search): the basis over the fitted samples only, no sinesAt
-  const full = alloc(fitOnly ? 0 : 2 * harmonics * n);
+  const full = new Float64Array(fitOnly ? 0 : 2 * harmonics * n);
   cols.fill(1, 0, m);
   for (let h = 1; h <= harmonics; h++) {
     const w = (2 * Math.PI * h * f) / 1000;
@@ -75,7 +75,7 @@ export function sineDesign(tMs: ArrayLike<number>, f: number, harmonics: number,
     for (let k = 0; k < m; k++) { cols[(2 * h - 1) * m + k] = full[co + idx[k]]; cols[2 * h * m + k] = full[so + idx[k]]; }
   }
   const { A0, scale } = normalEquations(Array.from({ length: p }, (_, j) => cols.subarray(j * m, (j + 1) * m)));
-  const A0flat = alloc(p * p);
+  const A0flat = new Float64Array(p * p);
   A0.forEach((r, j) => A0flat.set(r, j * p));
   const parts: SineParts = { idx, cols, full, A0: A0flat, scale: Float64Array.from(scale), p, m, n };
   const y = new Float64Array(m);

@@ -5,9 +5,9 @@
 import { deferredOf, type SweepSet, type Conditions, type ConditionValue } from '../sweeps/SweepSet';
 import { OptionError, AnalysisError } from '../errors';
 import { finite, oneOf, windowMs } from '../validate';
-import { noCorrection, windowIndices } from './baseline';
+import { windowIndices } from './baseline';
 import { shareCopy, sharedSamples } from '../parallel/pool';
-import { correctSweep } from '../parallel/kernels';
+import { correctSweep, noCorrection } from '../parallel/kernels';
 
 export type ArtifactMethod = 'blank' | 'template' | 'exponential' | 'alternate';
 

@@ -2,7 +2,7 @@ import type { SweepSet } from '../sweeps/SweepSet';
 import { OptionError } from '../errors';
 import { oneOf, windowMs } from '../validate';
 import { shareCopy } from '../parallel/pool';
-import type { Correction } from '../parallel/kernels';
+import { noCorrection } from '../parallel/kernels';
 
 export interface BaselineOptions {
   /** Pre-stimulus window [from, to], ms relative to the stimulus. Default: sweep start to -0.1 ms. */
@@ -74,9 +74,4 @@ export function baseline(set: SweepSet, options: BaselineOptions = {}): SweepSet
   // the subtraction is left pending: it happens when the samples are next read
   const correction = { ...noCorrection(), line: true, level: shareCopy(level0), slope: shareCopy(slope), center: ca };
   return set.create({ data: { base: x, correction }, step: { verb: 'baseline', options: { window: w, method, lateWindow: late } } });
-}
-
-/** A correction that changes nothing (fields to be overridden). */
-export function noCorrection(): Correction {
-  return { line: false, level: new Float64Array(0), slope: new Float64Array(0), center: 0, template: false, scale: new Float64Array(0), group: new Int32Array(0), templates: new Float64Array(0) };
 }

@@ -41,7 +41,7 @@ export function removeHum(set: SweepSet, options: HumOptions = {}): SweepSet {
   // use at most 16 sweeps (evenly spread) to pick the frequency
   const probe = Array.from({ length: Math.min(16, set.nSweeps) }, (_, k) => Math.floor((k * set.nSweeps) / Math.min(16, set.nSweeps)));
   const rssAt = (f: number, H: number) => {
-    const d = sineDesign(t, f, H, mask, undefined, true);
+    const d = sineDesign(t, f, H, mask, true);
     return probe.reduce((s, i) => s + d.fit(set.sweep(i)).rss, 0);
   };
   let f: number;
@@ -69,11 +69,10 @@ export function removeHum(set: SweepSet, options: HumOptions = {}): SweepSet {
   if (f * harmonics >= set.fs / 2) throw new OptionError(`invalid harmonics: ${harmonics} at ${f.toFixed(2)} Hz reach fs/2 (fs=${set.fs} Hz)`);
   const x = set.data;
   const out = sharedSamples(x.length);
-  const shared = out.buffer instanceof SharedArrayBuffer;
-  const design = sineDesign(t, f, harmonics, mask, (k) => (shared ? new Float64Array(new SharedArrayBuffer(k * 8)) : new Float64Array(k)));
+  const d = sineDesign(t, f, harmonics, mask).parts;
   const amp = shareCopy(new Float64Array(set.nSweeps));
-  const d = design.parts;
-  runSweeps('removeSines', { x, out, d: shared ? { ...d, idx: shareCopy(d.idx), scale: shareCopy(d.scale) } : d, amp }, set.nSweeps, x.length);
+  const shared = { ...d, idx: shareCopy(d.idx), cols: shareCopy(d.cols), full: shareCopy(d.full), A0: shareCopy(d.A0), scale: shareCopy(d.scale) };
+  runSweeps('removeSines', { x, out, d: shared, amp }, set.nSweeps, x.length);
   const amplitudes = Array.from(amp);
   return set.create({
     data: out,
