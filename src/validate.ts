@@ -73,3 +73,52 @@ export function conditionsProblem(x: unknown): string | null {
   }
   return null;
 }
+
+/** Levenshtein edit distance (insertions, deletions, substitutions each cost 1). O(|a| |b|). */
+export function editDistance(a: string, b: string): number {
+  const m = a.length, n = b.length;
+  let prev = new Array<number>(n + 1), cur = new Array<number>(n + 1);
+  for (let j = 0; j <= n; j++) prev[j] = j;
+  for (let i = 1; i <= m; i++) {
+    cur[0] = i;
+    for (let j = 1; j <= n; j++) {
+      const sub = prev[j - 1] + (a[i - 1] === b[j - 1] ? 0 : 1);
+      cur[j] = Math.min(sub, prev[j] + 1, cur[j - 1] + 1);
+    }
+    [prev, cur] = [cur, prev];
+  }
+  return prev[n];
+}
+
+/** The allowed name nearest to `name` (case-insensitive edit distance), or null when none is close (more than half its length away). */
+export function nearest(name: string, allowed: readonly string[]): string | null {
+  let best: string | null = null, bestD = Infinity;
+  for (const a of allowed) {
+    const d = editDistance(name.toLowerCase(), a.toLowerCase());
+    if (d < bestD) [best, bestD] = [a, d];
+  }
+  return best !== null && bestD <= Math.max(2, Math.ceil(name.length / 2)) ? best : null;
+}
+
+/** " (did you mean \"x\"?)" or "" */
+export function didYouMean(name: string, allowed: readonly string[]): string {
+  const n = nearest(name, allowed);
+  return n ? ` (did you mean ${JSON.stringify(n)}?)` : '';
+}
+
+/**
+ * Throw an OptionError for the first own key of `obj` that is not in `allowed`,
+ * naming the place ("baseline options", "manifest analysis.filter", ...) and the nearest valid key.
+ * Only own enumerable keys count (an inherited "constructor" is not a key).
+ * @example checkKeys('baseline options', { windw: [0, 1] }, ['window', 'method'])
+ *   // throws: unknown key "windw" in baseline options (did you mean "window"?); valid keys: window, method
+ */
+export function checkKeys(place: string, obj: unknown, allowed: readonly string[]): void {
+  if (obj === null || obj === undefined) return;
+  if (typeof obj !== 'object' || Array.isArray(obj)) throw new OptionError(`invalid ${place}: ${shown(obj)}; must be an object`);
+  for (const k of Object.keys(obj)) {
+    if (!allowed.includes(k)) {
+      throw new OptionError(`unknown key ${JSON.stringify(k)} in ${place}${didYouMean(k, allowed)}; valid keys: ${allowed.join(', ')}`);
+    }
+  }
+}
