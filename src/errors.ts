@@ -56,3 +56,63 @@ export function formatPlace(p: InputPlace): string {
   if (p.field !== undefined) parts.push(`field ${p.field}`);
   return parts.length ? parts.join(', ') : '(input)';
 }
+
+/**
+ * Raised for a configuration mistake in a manifest or in the options of a call that
+ * reads one (unknown key, mistyped value). It is an InputError (it names the file and
+ * field); the command line exits with its usage code for it.
+ */
+export class ConfigError extends InputError {
+  constructor(place: InputPlace, problem: string, expected: string) {
+    super(place, problem, expected);
+    this.name = 'ConfigError';
+  }
+}
+
+/**
+ * Raised when the output cannot go where asked: `refused` when writing there could
+ * delete or overwrite files fascicle did not write (a user folder, a file, an input);
+ * otherwise the system refused a write (disk full, read-only, no permission), with
+ * its error code. Nothing at the destination has been changed in either case.
+ */
+export class OutputError extends Error {
+  readonly path: string;
+  readonly refused: boolean;
+  readonly code: string | undefined;
+  constructor(path: string, message: string, opts: { refused: boolean; code?: string }) {
+    super(message);
+    this.name = 'OutputError';
+    this.path = path;
+    this.refused = opts.refused;
+    this.code = opts.code;
+  }
+}
+
+/** Raised when a worker thread stops (out of memory, exit, crash) before it finished its job. */
+export class ThreadError extends Error {
+  constructor(message: string) {
+    super(message);
+    this.name = 'ThreadError';
+  }
+}
+
+const SYSTEM_REASONS: Record<string, string> = {
+  ENOSPC: 'the disk is full',
+  EDQUOT: 'the disk quota is used up',
+  EROFS: 'the file system is read-only',
+  EACCES: 'permission denied',
+  EPERM: 'operation not permitted',
+  EFBIG: 'the file is larger than the system allows (file size limit)',
+  EIO: 'an input/output error of the device',
+  ENOENT: 'a folder on the way does not exist (or was removed while writing)',
+  ENOTDIR: 'a part of the path is a file, not a folder',
+  EMFILE: 'too many open files',
+  ENAMETOOLONG: 'the path is too long',
+};
+
+/** A system error (errno code) in words: "the disk is full (ENOSPC)". */
+export function systemReason(e: unknown): string {
+  const code = (e as NodeJS.ErrnoException | null)?.code;
+  if (code && SYSTEM_REASONS[code]) return `${SYSTEM_REASONS[code]} (${code})`;
+  return code ? `${(e as Error).message}` : String((e as Error)?.message ?? e);
+}

@@ -1,13 +1,13 @@
 /** The command line's engine: run a manifest's study (in workers or shards) into a bundle. */
 import { Worker } from 'node:worker_threads';
-import { join, resolve } from 'node:path';
+import { join, resolve, dirname, isAbsolute } from 'node:path';
 import { readFileSync, existsSync } from 'node:fs';
 import { readManifest, readManifestJson, type Manifest } from '../io/manifest';
 import { runPreparation, combineStudy, byPreparation, type PrepOutput, type Study } from '../report/study';
 import type { PipelineOptions } from '../report/pipeline';
-import { writeBundle, makeProvenance, type Provenance } from '../report/bundle';
+import { writeBundle, makeProvenance, checkOutput, relativeProvenance, type Provenance } from '../report/bundle';
 import { methodsText } from '../report/methods';
-import { OptionError, InputError } from '../errors';
+import { OptionError, InputError, ThreadError } from '../errors';
 import { studyFigures } from '../plot/study';
 
 export interface RunOptions {
@@ -48,34 +48,60 @@ function runInWorkers(tasks: { prep: string; files: number[] | null }[], manifes
     const results: PrepOutput[] = [];
     let next = 0, done = 0, failed = false;
     const workers: Worker[] = [];
+    const current = new Map<Worker, string>();
+    const fail = (e: Error) => {
+      if (failed) return;
+      failed = true;
+      workers.forEach((x) => void x.terminate());
+      reject(e);
+    };
     const startOne = (w: Worker) => {
-      if (next >= tasks.length) { w.terminate(); return; }
+      if (next >= tasks.length) { current.delete(w); void w.terminate(); return; }
       const t = tasks[next++];
+      current.set(w, t.prep);
       w.postMessage({ manifest, files: t.files, prep: t.prep, options });
     };
+    const heap = workerHeapMb();
     for (let k = 0; k < Math.min(jobs, tasks.length); k++) {
-      const w = new Worker(join(__dirname, 'worker.js'));
+      const w = new Worker(join(__dirname, 'worker.js'), heap ? { resourceLimits: { maxOldGenerationSizeMb: heap } } : {});
       workers.push(w);
-      w.on('message', (msg: { ok: boolean; output?: PrepOutput; error?: { name: string; message: string } }) => {
+      w.on('message', (msg: { ok: boolean; output?: PrepOutput; error?: { name: string; message: string; place?: object; problem?: string; expected?: string } }) => {
         if (failed) return;
         if (!msg.ok) {
-          failed = true;
-          workers.forEach((x) => x.terminate());
-          const e = new Error(msg.error!.message);
-          e.name = msg.error!.name;
-          reject(e);
+          const er = msg.error!;
+          const e = er.name === 'InputError' || er.name === 'ConfigError' ? Object.assign(new Error(er.message), { place: er.place, problem: er.problem, expected: er.expected }) : new Error(er.message);
+          e.name = er.name;
+          fail(e);
           return;
         }
         results.push(msg.output!);
         done++;
         onProgress?.(done, tasks.length, msg.output!.preparation);
-        if (done === tasks.length) { workers.forEach((x) => x.terminate()); resolvePromise(results); }
+        if (done === tasks.length) { workers.forEach((x) => void x.terminate()); resolvePromise(results); }
         else startOne(w);
       });
-      w.on('error', (e) => { if (!failed) { failed = true; workers.forEach((x) => x.terminate()); reject(e); } });
+      // a worker that dies (out of memory, exit, crash) ends the run with a clear error, never a hang or a silent exit 0
+      let why = '';
+      w.on('error', (e) => {
+        why = (e as NodeJS.ErrnoException).code === 'ERR_WORKER_OUT_OF_MEMORY' ? 'ran out of memory' : `crashed (${e.message})`;
+      });
+      w.on('exit', (code) => {
+        const prep = current.get(w);
+        if (failed || prep === undefined) return;
+        fail(new ThreadError(`the --jobs worker thread processing preparation ${prep} ${why || `exited (code ${code})`} before it finished; no bundle was written (try fewer --jobs, or --jobs 1)`));
+      });
       startOne(w);
     }
   });
+}
+
+/** Heap limit of each worker thread in MB, from FASCICLE_WORKER_HEAP_MB (unset: Node's default). */
+export function workerHeapMb(): number | undefined {
+  const env = process.env.FASCICLE_WORKER_HEAP_MB;
+  if (env === undefined || env === '') return undefined;
+  const v = Number(env);
+  if (!Number.isInteger(v) || v < 8) throw new OptionError(`invalid FASCICLE_WORKER_HEAP_MB: ${JSON.stringify(env)}; must be an integer >= 8 (MB)`);
+  return v;
 }
 
 /** The per-preparation outputs of a run (all, or a shard's share). */
@@ -99,32 +125,54 @@ export async function computeOutputs(o: RunOptions, options: PipelineOptions): P
   return out;
 }
 
+/**
+ * The pipeline options of a manifest: its "analysis" section (checked by the manifest
+ * reader), with a top-level "classPreset" as the components' preset.
+ */
 export function analysisOptions(manifestPath: string): PipelineOptions {
-  return (readManifestJson(manifestPath).manifest.analysis ?? {}) as PipelineOptions;
+  const m = readManifestJson(manifestPath).manifest;
+  const o = { ...(m.analysis ?? {}) } as PipelineOptions;
+  if (m.classPreset !== undefined) o.components = { ...(o.components ?? {}), preset: o.components?.preset ?? m.classPreset };
+  return o;
+}
+
+/** Every input a manifest names (the manifest, its folder, each listed file): an output must not be or hold any. */
+export function manifestInputs(manifestPath: string): string[] {
+  const m = readManifestJson(manifestPath).manifest;
+  const dir = dirname(resolve(manifestPath));
+  return [resolve(manifestPath), dir, ...m.files.map((f) => (isAbsolute(f.path) ? f.path : join(dir, f.path)))];
 }
 
 /** Write the bundle of a combined study. */
 export async function writeStudyBundle(out: string, study: Study, rerun: Provenance['rerun'], preparations: number, figures = true): Promise<string[]> {
   const files0 = rerun?.manifest && existsSync(rerun.manifest) ? readManifestJson(rerun.manifest).manifest.files.length : undefined;
+  const inputs = [...(rerun?.manifest && existsSync(rerun.manifest) ? manifestInputs(rerun.manifest) : []), ...study.sources.map((s) => s.path)];
+  checkOutput(out, inputs);
   const files: Record<string, string> = {};
   if (figures) Object.assign(files, studyFigures(study));
+  let provenance = makeProvenance(study.history, study.sources, rerun);
+  if (rerun?.manifest) provenance = relativeProvenance(provenance, rerun.manifest, out);
   return writeBundle(out, {
     tables: study.tables as unknown as Record<string, Record<string, unknown>[]>,
     methods: methodsText(study.history, { preparations, files: files0 }),
-    provenance: makeProvenance(study.history, study.sources, rerun),
+    provenance,
     files: { ...files, 'notes.txt': study.notes.length ? study.notes.join('\n') + '\n' : 'no notes\n' },
-  });
+  }, { inputs });
 }
 
 /** Run a manifest's study and write its bundle (or, with a shard, the shard's partial output). */
 export async function runStudy(o: RunOptions): Promise<{ out: string; study: Study | null; outputs: PrepOutput[] }> {
   if (o.jobs !== undefined && !(Number.isInteger(o.jobs) && o.jobs >= 1 && o.jobs <= 64)) throw new OptionError(`invalid --jobs: ${o.jobs}; must be an integer 1..64`);
   const options = analysisOptions(o.manifest);
+  // refuse a destination that would lose files before any work is done
+  checkOutput(o.out, manifestInputs(o.manifest));
   const outputs = await computeOutputs(o, options);
   const rerun = { manifest: resolve(o.manifest), options, ...(o.shard ? { shard: `${o.shard.index}/${o.shard.count}` } : {}) };
   if (o.shard) {
-    const { writeBundle: wb } = await import('../report/bundle');
-    wb(o.out, { tables: {}, methods: '', provenance: makeProvenance([], outputs.flatMap((p) => p.sources), rerun), files: { 'shard.json': JSON.stringify({ shard: rerun.shard, manifest: rerun.manifest, options, outputs }) } });
+    const inputs = [...manifestInputs(o.manifest), ...outputs.flatMap((p) => p.sources.map((s) => s.path))];
+    const prov = relativeProvenance(makeProvenance([], outputs.flatMap((p) => p.sources), rerun), rerun.manifest, o.out);
+    const shard = { shard: rerun.shard, manifest: prov.rerun!.manifest, options, outputs };
+    writeBundle(o.out, { tables: {}, methods: '', provenance: prov, files: { 'shard.json': JSON.stringify(shard) } }, { inputs });
     return { out: o.out, study: null, outputs };
   }
   const study = combineStudy(outputs, options);
@@ -139,8 +187,14 @@ export async function mergeShards(dirs: string[], out: string): Promise<Study> {
   for (const d of dirs) {
     const p = join(d, 'shard.json');
     if (!existsSync(p)) throw new InputError({ file: p }, 'not found', 'a shard output written by "fascicle run --shard i/n"');
-    const s = JSON.parse(readFileSync(p, 'utf8'));
-    manifest = s.manifest; options = s.options;
+    let s: { manifest: string; options: PipelineOptions; outputs: PrepOutput[] };
+    try {
+      s = JSON.parse(readFileSync(p, 'utf8'));
+    } catch (e) {
+      throw new InputError({ file: p }, `invalid JSON (${(e as Error).message})`, 'a shard output written by "fascicle run --shard i/n"');
+    }
+    if (!s || typeof s.manifest !== 'string' || !Array.isArray(s.outputs)) throw new InputError({ file: p }, 'not a shard output', 'a shard output written by "fascicle run --shard i/n"');
+    manifest = resolve(d, s.manifest); options = s.options;
     all.push(...s.outputs);
   }
   const preps = all.map((o) => o.preparation);

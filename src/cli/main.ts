@@ -3,17 +3,19 @@
  * fascicle command line.
  *   fascicle run <manifest.json> --out <dir> [--jobs N] [--shard i/n] [--no-figures] [--quiet]
  *   fascicle merge <shard-dir>... --out <dir>
- *   fascicle rerun <bundle-dir>
- *   fascicle --help | <command> --help | --version
- * Exit codes: 0 success; 2 usage error; 3 bad input file; 4 the data cannot support the
- * analysis; 5 a rerun did not reproduce the bundle; 1 anything else.
+ *   fascicle rerun <bundle-dir> [--manifest <path>]
+ *   fascicle help [<command>] | version | --help | <command> --help | --version
+ * Exit codes: 0 success; 2 usage or configuration error (also a refused --out); 3 bad input
+ * file; 4 the data cannot support the analysis; 5 a rerun did not reproduce the bundle;
+ * 6 the output could not be written; 7 a worker thread failed; 1 anything else.
  */
-import { readFileSync, readdirSync, mkdtempSync, rmSync } from 'node:fs';
-import { join } from 'node:path';
+import { readFileSync, readdirSync, mkdtempSync, rmSync, existsSync, statSync } from 'node:fs';
+import { join, resolve, dirname } from 'node:path';
 import { tmpdir } from 'node:os';
 import { runStudy, mergeShards } from './engine';
 import { verifyInputs, type Provenance } from '../report/bundle';
-import { InputError, AnalysisError, OptionError } from '../errors';
+import { InputError, AnalysisError, OptionError, OutputError, ConfigError, ThreadError, systemReason } from '../errors';
+import { nearest, didYouMean } from '../validate';
 import { VERSION } from '../version';
 
 const HELP: Record<string, string> = {
@@ -22,12 +24,18 @@ const HELP: Record<string, string> = {
 Usage:
   fascicle run <manifest.json> --out <dir> [options]   analyse a study into a bundle
   fascicle merge <shard-dir>... --out <dir>            combine the outputs of sharded runs
-  fascicle rerun <bundle-dir>                          check that a bundle reproduces from its inputs
-  fascicle <command> --help                            help for one command
-  fascicle --version
+  fascicle rerun <bundle-dir> [--manifest <path>]      check that a bundle reproduces from its inputs
+  fascicle help [<command>]                            this help, or help for one command
+  fascicle version                                     the version
+  (also: fascicle --help, fascicle <command> --help, fascicle --version)
 
-Exit codes: 0 success, 2 usage error, 3 bad input file, 4 data cannot support the analysis,
-5 rerun did not reproduce, 1 other error.`,
+Through npx, use "npx fascicle help" and "npx fascicle version": npx itself takes
+"npx fascicle --help" and "--version" (or write "npx fascicle -- --help").
+
+Exit codes: 0 success, 2 usage or configuration error (command line or manifest settings,
+or an output folder fascicle will not overwrite), 3 bad input file, 4 data cannot support
+the analysis, 5 rerun did not reproduce, 6 the output could not be written (disk full,
+read-only, no permission), 7 a worker thread failed, 1 other error.`,
   run: `fascicle run <manifest.json> --out <dir> [options]
 
 Runs the standard pipeline on the study the manifest describes: the conditioning in the
@@ -36,10 +44,13 @@ of recruitment, strength-duration, dose-response and temperature the data suppor
 (CSV and JSON), figures (HTML), methods.txt and provenance.json.
 
 Options:
-  --out <dir>       bundle folder (replaced atomically if it exists)   [required]
+  --out <dir>       bundle folder [required]. It must be new, empty, or a bundle fascicle
+                    wrote (which is replaced atomically); a folder with other files, a file,
+                    or a path that is or holds an input is refused
   --jobs <N>        preparations processed in parallel (worker threads)  [default 1];
                     with 1, large sets use every core inside each step instead
-                    (FASCICLE_THREADS=<n> in the environment limits that)
+                    (FASCICLE_THREADS=<n> in the environment limits that;
+                    FASCICLE_WORKER_HEAP_MB=<MB> limits each worker thread's heap)
   --shard <i/n>     process only share i of n of the preparations (sorted by name);
                     writes a partial output for "fascicle merge"
   --no-figures      skip the figure files
@@ -47,13 +58,25 @@ Options:
   merge: `fascicle merge <shard-dir>... --out <dir>
 
 Combines the partial outputs written by "fascicle run --shard i/n" (all n shards of one run)
-into one bundle, identical to the bundle of the unsharded run.`,
-  rerun: `fascicle rerun <bundle-dir>
+into one bundle, identical to the bundle of the unsharded run. --out as for "run".`,
+  rerun: `fascicle rerun <bundle-dir> [--manifest <path>]
 
 Checks every input file against the SHA-256 in the bundle's provenance.json (exit 3 naming a
-changed file), reruns the recorded analysis, and compares every table cell (exit 5 on any
-difference).`,
+changed file), reruns the recorded analysis, and compares every table (CSV and JSON), the set
+of tables and the methods text (exit 5 on any difference). Paths in provenance.json are
+relative (inputs to the manifest, the manifest to the bundle), so a study copied together
+with its bundle reruns anywhere; --manifest gives the manifest when only the study moved.`,
+  help: `fascicle help [<command>]
+
+Prints the help, or the help of one command (run, merge, rerun).`,
+  version: `fascicle version
+
+Prints the version.`,
 };
+
+const COMMANDS = ['run', 'merge', 'rerun', 'help', 'version'];
+const VALUE_OPTIONS: Record<string, string[]> = { run: ['out', 'jobs', 'shard'], merge: ['out'], rerun: ['manifest'], help: [], version: [] };
+const FLAG_OPTIONS: Record<string, string[]> = { run: ['no-figures', 'quiet', 'help'], merge: ['help'], rerun: ['help'], help: ['help'], version: ['help'] };
 
 class UsageError extends Error {}
 
@@ -61,14 +84,25 @@ function parse(argv: string[]): { cmd: string; pos: string[]; flags: Record<stri
   const [cmd = '', ...rest] = argv;
   const pos: string[] = [];
   const flags: Record<string, string | boolean> = {};
+  const values = VALUE_OPTIONS[cmd] ?? [], bools = FLAG_OPTIONS[cmd] ?? ['help'];
   for (let i = 0; i < rest.length; i++) {
     const a = rest[i];
     if (a === '--help' || a === '-h') flags.help = true;
-    else if (a === '--no-figures' || a === '--quiet') flags[a.slice(2)] = true;
     else if (a.startsWith('--')) {
-      const [k, v] = a.includes('=') ? a.slice(2).split(/=(.*)/s) : [a.slice(2), rest[++i]];
-      if (v === undefined) throw new UsageError(`option --${k} needs a value`);
-      if (!['out', 'jobs', 'shard'].includes(k)) throw new UsageError(`unknown option --${k}`);
+      const eq = a.indexOf('=');
+      const k = eq > 0 ? a.slice(2, eq) : a.slice(2);
+      if (bools.includes(k)) {
+        if (eq > 0) throw new UsageError(`option --${k} takes no value`);
+        flags[k] = true;
+        continue;
+      }
+      if (!values.includes(k)) {
+        const all = [...values, ...bools];
+        const near = nearest(k, all);
+        throw new UsageError(`unknown option --${k} for "${cmd}"${near ? ` (did you mean --${near}?)` : ''}; ${all.length ? `valid options: ${all.map((x) => '--' + x).join(', ')}` : 'it takes no options'}`);
+      }
+      const v = eq > 0 ? a.slice(eq + 1) : rest[++i];
+      if (v === undefined || (eq < 0 && v.startsWith('--'))) throw new UsageError(`option --${k} needs a value`);
       flags[k] = v;
     } else pos.push(a);
   }
@@ -92,10 +126,22 @@ function progressBar(quiet: boolean): ((done: number, total: number, prep: strin
 
 async function main(argv: string[]): Promise<number> {
   if (argv[0] === '--version' || argv[0] === '-v') { console.log(VERSION); return 0; }
+  if (!argv.length) { console.log(HELP.main); return 2; }
+  if (argv[0] === '--help' || argv[0] === '-h') { console.log(HELP.main); return 0; }
+  if (!COMMANDS.includes(argv[0])) {
+    const near = nearest(argv[0], COMMANDS);
+    throw new UsageError(`unknown command "${argv[0]}"${near ? ` (did you mean "${near}"?)` : ''}; expected run, merge, rerun, help or version`);
+  }
   const { cmd, pos, flags } = parse(argv);
-  if (!cmd || cmd === '--help' || cmd === '-h' || cmd === 'help') { console.log(HELP.main); return cmd ? 0 : 2; }
-  if (!(cmd in HELP) || cmd === 'main') throw new UsageError(`unknown command "${cmd}"; expected run, merge or rerun`);
   if (flags.help) { console.log(HELP[cmd]); return 0; }
+  if (cmd === 'version') { console.log(VERSION); return 0; }
+  if (cmd === 'help') {
+    if (pos.length > 1) throw new UsageError('help takes at most one command name');
+    if (!pos.length) { console.log(HELP.main); return 0; }
+    if (!(pos[0] in HELP) || pos[0] === 'main') throw new UsageError(`no help for "${pos[0]}"${didYouMean(pos[0], COMMANDS)}; commands: ${COMMANDS.join(', ')}`);
+    console.log(HELP[pos[0]]);
+    return 0;
+  }
   if (cmd === 'run') {
     if (pos.length !== 1) throw new UsageError('run needs exactly one manifest file');
     if (typeof flags.out !== 'string') throw new UsageError('run needs --out <dir>');
@@ -127,27 +173,75 @@ async function main(argv: string[]): Promise<number> {
     console.log(`merged ${pos.length} shard(s); bundle written to ${flags.out}`);
     return 0;
   }
-  // rerun
   if (pos.length !== 1) throw new UsageError('rerun needs exactly one bundle folder');
-  const prov = JSON.parse(readFileSync(join(pos[0], 'provenance.json'), 'utf8')) as Provenance;
-  if (!prov.rerun) throw new UsageError(`${pos[0]}/provenance.json records no rerunnable analysis`);
-  verifyInputs(prov);
+  return rerun(pos[0], typeof flags.manifest === 'string' ? flags.manifest : undefined);
+}
+
+const BUNDLE_EXPECTED = 'a bundle folder written by "fascicle run"';
+
+/** Read a bundle's provenance.json, with clear errors for a missing folder or a missing or corrupt file. */
+function readProvenance(dir: string): Provenance {
+  if (!existsSync(dir)) throw new InputError({ file: dir }, 'no such folder', BUNDLE_EXPECTED);
+  if (!statSync(dir).isDirectory()) throw new InputError({ file: dir }, 'this is a file, not a folder', BUNDLE_EXPECTED);
+  const p = join(dir, 'provenance.json');
+  if (!existsSync(p)) throw new InputError({ file: p }, 'the bundle has no provenance.json', `${BUNDLE_EXPECTED} (with its provenance.json)`);
+  let prov: Provenance;
+  try {
+    prov = JSON.parse(readFileSync(p, 'utf8'));
+  } catch (e) {
+    throw new InputError({ file: p }, `invalid JSON (${(e as Error).message})`, 'the provenance.json fascicle wrote, unedited');
+  }
+  if (!prov || typeof prov !== 'object' || prov.package !== 'fascicle') throw new InputError({ file: p, field: 'package' }, 'not a fascicle provenance record', 'the provenance.json fascicle wrote, unedited');
+  if (!Array.isArray(prov.inputs)) throw new InputError({ file: p, field: 'inputs' }, 'no list of inputs', 'the provenance.json fascicle wrote, unedited');
+  if (!prov.rerun || typeof prov.rerun.manifest !== 'string') throw new InputError({ file: p, field: 'rerun' }, 'records no rerunnable analysis (written by the library, not by "fascicle run")', 'a bundle written by "fascicle run"');
+  if (prov.rerun.shard) throw new InputError({ file: p, field: 'rerun.shard' }, `this is the partial output of shard ${prov.rerun.shard}`, 'a whole bundle (merge the shards first with "fascicle merge")');
+  return prov;
+}
+
+/** Every file under a bundle's tables folder (relative names, sorted). */
+function tableFiles(dir: string): string[] {
+  const t = join(dir, 'tables');
+  return existsSync(t) ? readdirSync(t).filter((f) => /\.(csv|json)$/.test(f)).sort() : [];
+}
+
+async function rerun(dir: string, manifestOverride?: string): Promise<number> {
+  const prov = readProvenance(dir);
+  const manifest = manifestOverride ?? resolve(dir, prov.rerun!.manifest);
+  if (!existsSync(manifest)) {
+    throw new InputError({ file: manifest }, 'the manifest recorded in the provenance is missing', 'the study\'s manifest: copy the study with its bundle (paths are relative), or give it with --manifest <path>');
+  }
+  verifyInputs(prov, dirname(resolve(manifest)));
   const tmp = mkdtempSync(join(tmpdir(), 'fascicle-rerun-'));
   try {
     const out = join(tmp, 'bundle');
-    await runStudy({ manifest: prov.rerun.manifest, out, jobs: 1 });
-    let n = 0;
-    for (const f of readdirSync(join(pos[0], 'tables')).filter((x) => x.endsWith('.csv'))) {
-      const a = readFileSync(join(pos[0], 'tables', f), 'utf8');
-      const b = readFileSync(join(out, 'tables', f), 'utf8');
-      if (a !== b) { console.error(`rerun differs in tables/${f}`); return 5; }
-      n++;
+    await runStudy({ manifest, out, jobs: 1, figures: false });
+    const had = tableFiles(dir), got = tableFiles(out);
+    const missing = got.filter((f) => !had.includes(f)), extra = had.filter((f) => !got.includes(f));
+    if (missing.length) { console.error(`fascicle: rerun differs: the bundle lacks tables/${missing.join(', tables/')}, which the rerun produced`); return 5; }
+    if (extra.length) { console.error(`fascicle: rerun differs: the bundle has tables/${extra.join(', tables/')}, which the rerun did not produce`); return 5; }
+    for (const f of had) {
+      const a = readFileSync(join(dir, 'tables', f)), b = readFileSync(join(out, 'tables', f));
+      if (!a.equals(b)) { console.error(`fascicle: rerun differs in tables/${f}${firstDifference(a, b)}`); return 5; }
     }
-    console.log(`reproduced ${n} tables exactly from ${prov.inputs.length} verified input files`);
+    const mp = join(dir, 'methods.txt');
+    if (!existsSync(mp)) { console.error('fascicle: rerun differs: the bundle has no methods.txt'); return 5; }
+    const ma = readFileSync(mp), mb = readFileSync(join(out, 'methods.txt'));
+    if (!ma.equals(mb)) { console.error(`fascicle: rerun differs in methods.txt${firstDifference(ma, mb)}`); return 5; }
+    console.log(`reproduced ${had.length} tables and the methods text exactly from ${prov.inputs.length} verified input files`);
     return 0;
   } finally {
     rmSync(tmp, { recursive: true, force: true });
   }
+}
+
+/** " at line N" of the first difference between two texts. */
+function firstDifference(a: Buffer, b: Buffer): string {
+  const n = Math.min(a.length, b.length);
+  let i = 0;
+  while (i < n && a[i] === b[i]) i++;
+  let line = 1;
+  for (let k = 0; k < i; k++) if (a[k] === 10) line++;
+  return ` (first difference at line ${line})`;
 }
 
 function fmt(v: unknown): string {
@@ -160,10 +254,21 @@ export async function cli(argv: string[]): Promise<number> {
     return await main(argv);
   } catch (e) {
     const err = e as Error;
-    if (e instanceof UsageError) { console.error(`fascicle: ${err.message}\n(try fascicle --help)`); return 2; }
-    if (e instanceof InputError || err.name === 'InputError') { console.error(`fascicle: bad input: ${err.message}`); return 3; }
-    if (e instanceof AnalysisError || e instanceof OptionError || err.name === 'AnalysisError' || err.name === 'OptionError') { console.error(`fascicle: ${err.message}`); return 4; }
-    console.error(`fascicle: unexpected error: ${err.stack ?? err.message}`);
+    const name = err?.name;
+    if (e instanceof UsageError) { console.error(`fascicle: ${err.message}\n(try: fascicle help)`); return 2; }
+    if (e instanceof OutputError || name === 'OutputError') { console.error(`fascicle: ${err.message}`); return (e as OutputError).refused === false ? 6 : 2; }
+    if (e instanceof ConfigError || name === 'ConfigError') { console.error(`fascicle: configuration error: ${err.message}`); return 2; }
+    if (e instanceof InputError || name === 'InputError') { console.error(`fascicle: bad input: ${err.message}`); return 3; }
+    if (e instanceof OptionError || name === 'OptionError') { console.error(`fascicle: configuration error: ${err.message}`); return 2; }
+    if (e instanceof AnalysisError || name === 'AnalysisError') { console.error(`fascicle: ${err.message}`); return 4; }
+    if (e instanceof ThreadError || name === 'ThreadError') { console.error(`fascicle: ${err.message}`); return 7; }
+    const code = (e as NodeJS.ErrnoException)?.code;
+    if (typeof code === 'string' && /^E[A-Z]+$/.test(code)) {
+      const where = (e as NodeJS.ErrnoException).path;
+      console.error(`fascicle: ${systemReason(e)}${where ? ` at ${where}` : ''}`);
+      return 1;
+    }
+    console.error(`fascicle: unexpected error (please report it): ${err?.stack ?? err?.message ?? String(e)}`);
     return 1;
   }
 }

@@ -7,6 +7,7 @@ parentPort!.on('message', (m: { manifest: string; files: number[] | null; prep: 
     const output = processPreparation(m.manifest, m.files, m.files ? null : m.prep, m.options);
     parentPort!.postMessage({ ok: true, output });
   } catch (e) {
-    parentPort!.postMessage({ ok: false, error: { name: (e as Error).name, message: (e as Error).message } });
+    const x = e as Error & { place?: object; problem?: string; expected?: string };
+    parentPort!.postMessage({ ok: false, error: { name: x.name, message: x.message, place: x.place, problem: x.problem, expected: x.expected } });
   }
 });

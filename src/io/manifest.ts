@@ -5,10 +5,11 @@
  * ships in the package as schema/manifest.schema.json.
  */
 import { dirname, join, resolve, isAbsolute } from 'node:path';
-import { InputError, OptionError } from '../errors';
+import { InputError, OptionError, ConfigError } from '../errors';
 import { SweepSet, type Conditions } from '../sweeps/SweepSet';
 import { readInput } from './files';
-import { conditionsProblem } from '../validate';
+import { conditionsProblem, nearest, shown } from '../validate';
+import { PRESETS } from '../measure/classes';
 import { readDelimited, type DelimitedOptions } from './delimited';
 import { readBinary } from './binary';
 import { VERSION } from '../version';
@@ -33,6 +34,122 @@ export interface Manifest {
   files: ManifestFile[];
 }
 
+/**
+ * The keys a manifest may hold, checked before the JSON Schema so a typo gets the nearest
+ * valid name. KEEP IN SYNC: MANIFEST_KEYS and FILE_KEYS with schema/manifest.schema.json;
+ * ANALYSIS_KEYS with PipelineOptions in src/report/pipeline.ts and the option interfaces of
+ * the verbs and analyses it names (BaselineOptions, ArtifactOptions, HumOptions,
+ * FilterOptions, ComponentOptions, DoseResponseOptions, StrengthDurationOptions);
+ * SERIES with the series names src/report/study.ts and pipeline.ts look for.
+ */
+export const MANIFEST_KEYS = ['fascicleManifest', 'study', 'description', 'species', 'nerve', 'classPreset', 'required', 'defaults', 'analysis', 'files'] as const;
+export const FILE_KEYS = ['path', 'format', 'options', 'conditions', 'sweeps'] as const;
+/** Reader options a manifest may give a delimited file (DelimitedOptions without conditions, which the manifest gives itself). */
+export const FILE_OPTION_KEYS = ['delimiter', 'decimal', 'layout', 'timeUnit', 'units', 'stimulusAt'] as const;
+export const ANALYSIS_KEYS: Readonly<Record<string, readonly string[]>> = {
+  baseline: ['window', 'method', 'lateWindow'],
+  artifact: ['method', 'window', 'bridge', 'maxIntensity', 'templateSweeps', 'templateBy', 'scaling', 'fitWindow', 'tailWindow'],
+  hum: ['frequency', 'harmonics', 'exclude'],
+  filter: ['btype', 'cutoff', 'order', 'padlen'],
+  components: ['preset', 'classes', 'distanceMm', 'temperatureC', 'q10', 'utilisationMs', 'k', 'polarity', 'noiseWindow', 'tailFraction', 'tailMs', 'earliestMs'],
+  doseResponse: ['measure', 'lastN', 'runDown', 'fixBottom', 'bootstrap', 'seed', 'classes'],
+  recruitment: ['measure'],
+  strengthDuration: ['measure', 'by', 'fraction'],
+  temperature: ['measure'],
+};
+/** Steps that may be `false` (turned off). */
+const OPTIONAL_STEPS = ['baseline', 'artifact', 'hum', 'filter'];
+/** Values of the `series` condition that the standard pipeline recognises. */
+export const SERIES = ['intensity', 'distance', 'dose', 'temperature', 'pulse-width'] as const;
+/** Deepest nesting a manifest may have (far beyond any real one; guards the writers' recursion). */
+export const MANIFEST_MAX_DEPTH = 32;
+
+const HINTS: Record<string, string> = {
+  lowpass: '"filter": { "btype": "lowpass", "cutoff": <Hz> }',
+  highpass: '"filter": { "btype": "highpass", "cutoff": <Hz> }',
+  bandpass: '"filter": { "btype": "bandpass", "cutoff": [<low Hz>, <high Hz>] }',
+  notch: '"hum": { "frequency": <Hz> }',
+  preset: '"components": { "preset": <name> } or a top-level "classPreset"',
+  classPreset: 'a top-level "classPreset"',
+};
+
+function unknownKey(file: string, field: string, key: string, allowed: readonly string[]): never {
+  const near = nearest(key, allowed);
+  const hint = HINTS[key] && !near ? ` (write ${HINTS[key]})` : near ? ` (did you mean "${near}"?)` : '';
+  throw new ConfigError({ file, field: `${field}/${key}` }, `unknown key "${key}"${hint}`, `one of ${allowed.join(', ')}`);
+}
+
+function checkObjectKeys(file: string, field: string, obj: unknown, allowed: readonly string[]): void {
+  if (obj === undefined) return;
+  if (obj === null || typeof obj !== 'object' || Array.isArray(obj)) throw new ConfigError({ file, field }, `is ${shown(obj)}`, 'an object');
+  for (const k of Object.keys(obj)) if (!allowed.includes(k)) unknownKey(file, field, k, allowed);
+}
+
+/** The path (JSON pointer) of the first value nested deeper than max levels, or null. Iterative: no recursion. */
+function tooDeep(root: unknown, max: number): string | null {
+  const stack: [unknown, number, string][] = [[root, 0, '']];
+  while (stack.length) {
+    const [v, d, at] = stack.pop()!;
+    if (v === null || typeof v !== 'object') continue;
+    if (d >= max) return at || '(root)';
+    for (const [k, x] of Object.entries(v as object)) if (x !== null && typeof x === 'object') stack.push([x, d + 1, `${at}/${k}`]);
+  }
+  return null;
+}
+
+/**
+ * Check the parts of a manifest the JSON Schema leaves open, naming the field and the
+ * nearest valid name: top-level, file and reader-option keys, the "analysis" section
+ * and its step options, "classPreset", the "series" condition and the nesting depth.
+ * @throws ConfigError (an InputError) naming the manifest and field.
+ */
+export function checkManifestKeys(m: unknown, file: string): void {
+  if (m === null || typeof m !== 'object' || Array.isArray(m)) return; // the schema says what is wrong
+  const deep = tooDeep(m, MANIFEST_MAX_DEPTH);
+  if (deep) throw new ConfigError({ file, field: deep }, `nested more than ${MANIFEST_MAX_DEPTH} levels deep`, 'the flat structure of schema/manifest.schema.json');
+  checkObjectKeys(file, '', m, MANIFEST_KEYS);
+  const man = m as Record<string, unknown>;
+  if (man.classPreset !== undefined && (typeof man.classPreset !== 'string' || !Object.hasOwn(PRESETS, man.classPreset))) {
+    const near = typeof man.classPreset === 'string' ? nearest(man.classPreset, Object.keys(PRESETS)) : null;
+    throw new ConfigError({ file, field: '/classPreset' }, `unknown class preset ${shown(man.classPreset)}${near ? ` (did you mean "${near}"?)` : ''}`, `one of ${Object.keys(PRESETS).join(', ')}`);
+  }
+  const a = man.analysis as Record<string, unknown> | undefined;
+  checkObjectKeys(file, '/analysis', a, Object.keys(ANALYSIS_KEYS));
+  for (const [step, v] of Object.entries(a ?? {})) {
+    if (v === false && OPTIONAL_STEPS.includes(step)) continue;
+    checkObjectKeys(file, `/analysis/${step}`, v, ANALYSIS_KEYS[step]);
+  }
+  const comp = a?.components as Record<string, unknown> | undefined;
+  if (comp && typeof comp.preset === 'string' && !Object.hasOwn(PRESETS, comp.preset)) {
+    const near = nearest(comp.preset, Object.keys(PRESETS));
+    throw new ConfigError({ file, field: '/analysis/components/preset' }, `unknown class preset ${shown(comp.preset)}${near ? ` (did you mean "${near}"?)` : ''}`, `one of ${Object.keys(PRESETS).join(', ')}`);
+  }
+  if (comp && typeof comp.preset === 'string' && typeof man.classPreset === 'string' && comp.preset !== man.classPreset) {
+    throw new ConfigError({ file, field: '/analysis/components/preset' }, `preset "${comp.preset}" differs from the top-level classPreset "${man.classPreset}"`, 'one of the two, or both the same');
+  }
+  const series = (c: unknown, field: string) => {
+    if (c === null || typeof c !== 'object' || !Object.hasOwn(c, 'series')) return;
+    const v = (c as Record<string, unknown>).series;
+    if (v === null || (typeof v === 'string' && (SERIES as readonly string[]).includes(v))) return;
+    const near = typeof v === 'string' ? nearest(v, SERIES) : null;
+    throw new ConfigError({ file, field: `${field}/series` }, `unknown series ${shown(v)}${near ? ` (did you mean "${near}"?)` : ''}`, `one of ${SERIES.join(', ')}`);
+  };
+  series(man.defaults, '/defaults');
+  if (!Array.isArray(man.files)) return;
+  man.files.forEach((f: unknown, i: number) => {
+    const at = `/files/${i}`;
+    checkObjectKeys(file, at, f, FILE_KEYS);
+    const ff = f as Record<string, unknown>;
+    if (ff.options !== undefined) {
+      const binary = ff.format === 'binary' || (ff.format === undefined && typeof ff.path === 'string' && /\.json$/i.test(ff.path));
+      if (binary) throw new ConfigError({ file, field: `${at}/options` }, 'reader options for a binary file (its sidecar describes it)', 'no "options" for a binary file; put dtype, gain and the like in the sidecar');
+      checkObjectKeys(file, `${at}/options`, ff.options, FILE_OPTION_KEYS);
+    }
+    series(ff.conditions, `${at}/conditions`);
+    if (Array.isArray(ff.sweeps)) ff.sweeps.forEach((c, j) => series(c, `${at}/sweeps/${j}`));
+  });
+}
+
 export const MANIFEST_SCHEMA_PATH = join(__dirname, '..', '..', 'schema', 'manifest.schema.json');
 
 let validator: ((x: unknown) => boolean) & { errors?: { instancePath: string; message?: string; params?: unknown }[] | null };
@@ -44,6 +161,7 @@ function validate(m: unknown, file: string): asserts m is Manifest {
     const { bytes } = readInput(MANIFEST_SCHEMA_PATH);
     validator = ajv.compile(JSON.parse(Buffer.from(bytes).toString('utf8')));
   }
+  checkManifestKeys(m, file);
   if (!validator(m)) {
     const e = validator.errors![0];
     const where = e.instancePath || '(root)';
@@ -100,7 +218,7 @@ export function readManifest(path: string, opts: { only?: (f: ManifestFile, i: n
       set = formatOf(f) === 'binary' ? readBinary(full, { conditions: base }) : readDelimited(full, { ...(f.options ?? {}), conditions: base });
     } catch (e) {
       // a bad reader option written in the manifest is a fault of the manifest
-      if (e instanceof OptionError) throw new InputError({ file: path, field: `/files/${fi}/options` }, e.message, 'reader options as in the README (delimiter, decimal, layout, timeUnit, units, stimulusAt)');
+      if (e instanceof OptionError) throw new ConfigError({ file: path, field: `/files/${fi}/options` }, e.message, 'reader options as in the README (delimiter, decimal, layout, timeUnit, units, stimulusAt)');
       throw e;
     }
     if (f.sweeps) {
@@ -114,7 +232,7 @@ export function readManifest(path: string, opts: { only?: (f: ManifestFile, i: n
     set = set.create({ conditions: set.conditions.map((c) => ({ ...c, file: f.path })) });
     set.conditions.forEach((c, i) => {
       for (const k of required) {
-        if (!(k in c) || c[k] === null || c[k] === undefined) {
+        if (!Object.hasOwn(c, k) || c[k] === null || c[k] === undefined) {
           throw new InputError({ file: f.path, sweep: i }, `condition "${k}" is missing`, `every sweep to have "${k}" (listed in the manifest's required conditions)`);
         }
       }

@@ -3,21 +3,27 @@
  * methods text, provenance, and figures; written atomically (a temporary folder,
  * then a rename), so an interrupted export leaves the old bundle or none.
  */
-import { mkdirSync, writeFileSync, renameSync, rmSync, existsSync, readFileSync } from 'node:fs';
-import { dirname, basename, join, resolve } from 'node:path';
-import { createHash } from 'node:crypto';
+import { mkdirSync, writeFileSync, renameSync, rmSync, rmdirSync, existsSync, readFileSync, readdirSync, lstatSync, realpathSync, unlinkSync } from 'node:fs';
+import { dirname, basename, join, resolve, relative, sep } from 'node:path';
+import { createHash, randomBytes } from 'node:crypto';
 import type { Step, Source } from '../sweeps/SweepSet';
-import { InputError } from '../errors';
+import { InputError, OutputError, systemReason } from '../errors';
 import { VERSION } from '../version';
 
-/** A CSV cell: numbers as shortest round-trip text; strings quoted when needed and neutralised when they start with = + - @ (or tab / carriage return). */
+/**
+ * A CSV cell: numbers as shortest round-trip text; a string that starts with = + - @ (or
+ * tab / carriage return) gets a leading apostrophe so spreadsheets do not run it as a
+ * formula (common practice for spreadsheet safety, no source); a string is quoted when it
+ * holds a quote, a line break or the field delimiter of any common locale (, ; tab), so a
+ * spreadsheet that splits on any of them keeps the cell whole.
+ */
 export function csvCell(v: unknown): string {
   if (v === null || v === undefined) return '';
   if (typeof v === 'number') return Number.isFinite(v) ? String(v) : Number.isNaN(v) ? 'NaN' : v > 0 ? 'Infinity' : '-Infinity';
   if (typeof v === 'boolean') return v ? 'true' : 'false';
   let s = Array.isArray(v) ? v.join(' ') : typeof v === 'object' ? JSON.stringify(v) : String(v);
   if (/^[=+\-@\t\r]/.test(s)) s = "'" + s;
-  return /[",\n\r]/.test(s) ? `"${s.replace(/"/g, '""')}"` : s;
+  return /[",;\t\n\r]/.test(s) ? `"${s.replace(/"/g, '""')}"` : s;
 }
 
 export function toCsv(rows: readonly Record<string, unknown>[]): string {
@@ -32,19 +38,42 @@ export interface Provenance {
   inputs: Source[];
   steps: readonly Step[];
   rerun?: { manifest: string; options: unknown; shard?: string };
+  /** how the paths above are to be read (relative ones) */
+  paths?: string;
 }
 
 export function makeProvenance(steps: readonly Step[], inputs: readonly Source[], rerun?: Provenance['rerun']): Provenance {
   return { package: 'fascicle', version: VERSION, node: process.version, inputs: [...inputs], steps, ...(rerun ? { rerun } : {}) };
 }
 
-/** Check that every input still has its recorded SHA-256; throws naming the first changed or missing file. */
-export function verifyInputs(p: Provenance): void {
+/**
+ * Check that every input still has its recorded SHA-256; throws naming the first changed or
+ * missing file. Relative input paths are taken relative to `base` (the manifest's folder).
+ */
+export function verifyInputs(p: Provenance, base = '.'): void {
+  if (!Array.isArray(p.inputs)) throw new InputError({ file: 'provenance.json', field: 'inputs' }, 'no list of inputs', 'the inputs array fascicle writes');
   for (const s of p.inputs) {
-    if (!existsSync(s.path)) throw new InputError({ file: s.path }, 'the input file recorded in the provenance is missing', `the file with SHA-256 ${s.sha256}`);
-    const h = createHash('sha256').update(readFileSync(s.path)).digest('hex');
-    if (h !== s.sha256) throw new InputError({ file: s.path }, `the input file has changed since the analysis (SHA-256 ${h.slice(0, 12)}... instead of ${s.sha256.slice(0, 12)}...)`, 'the same bytes as when the analysis ran');
+    const path = resolve(base, s.path);
+    if (!existsSync(path)) throw new InputError({ file: path }, 'the input file recorded in the provenance is missing', `the file with SHA-256 ${s.sha256}`);
+    const h = createHash('sha256').update(readFileSync(path)).digest('hex');
+    if (h !== s.sha256) throw new InputError({ file: path }, `the input file has changed since the analysis (SHA-256 ${h.slice(0, 12)}... instead of ${String(s.sha256).slice(0, 12)}...)`, 'the same bytes as when the analysis ran');
   }
+}
+
+/**
+ * A provenance whose paths are relative, so a study and its bundle can move: input paths
+ * relative to the manifest's folder, the rerun manifest relative to the bundle folder.
+ */
+export function relativeProvenance(p: Provenance, manifestPath: string, bundleDir: string): Provenance {
+  const mdir = dirname(resolve(manifestPath));
+  const rel = (x: string) => relative(mdir, resolve(x)).split(sep).join('/') || '.';
+  const inputs = p.inputs.map((s) => {
+    const out = { ...s, path: rel(s.path), sha256: s.sha256 } as Source;
+    if (s.partOf !== undefined) out.partOf = rel(s.partOf);
+    return out;
+  });
+  const rerun = p.rerun ? { ...p.rerun, manifest: relative(resolve(bundleDir), resolve(manifestPath)).split(sep).join('/') } : undefined;
+  return { ...p, inputs, ...(rerun ? { rerun } : {}), paths: 'inputs relative to the manifest folder; rerun.manifest relative to this bundle' } as Provenance;
 }
 
 export interface BundleContent {
@@ -61,12 +90,153 @@ export function setBeforeWrite(f: ((path: string) => void) | null): void {
   beforeWrite = f;
 }
 
-/** Write a bundle to `dir` atomically. Returns the list of files written (relative). */
-export function writeBundle(dir: string, c: BundleContent): string[] {
+/** In every bundle fascicle writes: names the files of the bundle (written last, so its presence means complete). */
+export const BUNDLE_MARKER = '.fascicle-bundle';
+/** In every temporary folder fascicle makes beside a bundle: only folders carrying it are ever cleaned up. */
+export const TEMP_MARKER = '.fascicle-temp';
+
+/** Files a bundle of an earlier version (before the marker) may hold, at its top level. */
+const LEGACY_TOP = new Set(['tables', 'figures', 'methods.txt', 'notes.txt', 'provenance.json', 'plotly.min.js', 'shard.json']);
+
+/** A bundle written by a fascicle version without the marker: only bundle files, and a fascicle provenance. */
+function isLegacyBundle(dir: string): boolean {
+  try {
+    const top = readdirSync(dir, { withFileTypes: true });
+    if (!top.some((e) => e.name === 'provenance.json')) return false;
+    for (const e of top) {
+      if (!LEGACY_TOP.has(e.name)) return false;
+      if (e.name === 'tables' || e.name === 'figures') {
+        if (!e.isDirectory()) return false;
+        const ext = e.name === 'tables' ? /\.(csv|json)$/ : /\.(html|svg|png|pdf|json)$/;
+        if (!readdirSync(join(dir, e.name), { withFileTypes: true }).every((f) => f.isFile() && ext.test(f.name))) return false;
+      } else if (!e.isFile()) return false;
+    }
+    return JSON.parse(readFileSync(join(dir, 'provenance.json'), 'utf8')).package === 'fascicle';
+  } catch {
+    return false;
+  }
+}
+
+/** A path with symbolic links resolved as far as it exists (the rest appended). */
+function realish(p: string): string {
+  const abs = resolve(p);
+  let head = abs;
+  const tail: string[] = [];
+  while (!existsSync(head)) {
+    const up = dirname(head);
+    if (up === head) return abs;
+    tail.unshift(basename(head));
+    head = up;
+  }
+  try {
+    return join(realpathSync(head), ...tail);
+  } catch {
+    return abs;
+  }
+}
+
+const isInside = (child: string, parent: string) => child === parent || child.startsWith(parent.endsWith(sep) ? parent : parent + sep);
+
+/**
+ * Check that a bundle may be written at `dir`: it does not exist, is an empty folder, or is
+ * a bundle fascicle wrote; and it neither is nor contains any of `inputs`.
+ * @throws OutputError (refused) saying what is there and what to do.
+ */
+export function checkOutput(dir: string, inputs: readonly string[] = []): void {
+  const target = realish(dir);
+  const real = inputs.map((x) => [x, realish(x)] as const);
+  for (const [input, ri] of [...real.filter(([, r]) => r === target), ...real]) {
+    if (isInside(ri, target)) {
+      const what = ri === target ? 'is' : 'contains';
+      throw new OutputError(dir, `refusing to write the bundle to ${dir}: it ${what} an input of this analysis (${input}), which fascicle never replaces; give --out a new folder outside the study, e.g. ${join(dirname(target), basename(target) + '-bundle')}`, { refused: true });
+    }
+  }
+  let st;
+  try {
+    st = lstatSync(target);
+  } catch {
+    return; // nothing there
+  }
+  if (st.isSymbolicLink()) throw new OutputError(dir, `refusing to write the bundle to ${dir}: it is a symbolic link; give the folder it points to, or a new folder`, { refused: true });
+  if (!st.isDirectory()) throw new OutputError(dir, `refusing to write the bundle to ${dir}: it is a file, not a folder, and fascicle never replaces files it did not write; give --out a new folder name`, { refused: true });
+  const entries = readdirSync(target);
+  if (entries.length === 0 || entries.includes(BUNDLE_MARKER) || isLegacyBundle(target)) return;
+  throw new OutputError(dir, `refusing to write the bundle to ${dir}: the folder is not empty and is not a bundle written by fascicle (it has no ${BUNDLE_MARKER} file), so replacing it would delete your files; give --out a new or empty folder, or move that folder's files away yourself`, { refused: true });
+}
+
+const leftoverName = (base: string) => new RegExp(`^\\.${base.replace(/[.*+?^${}()|[\]\\]/g, '\\$&')}\\.(tmp|old)-(\\d+)-[0-9a-z-]+$`);
+
+function alive(pid: number): boolean {
+  if (pid === process.pid) return false; // our own earlier, interrupted writes (this process is not writing them now)
+  try {
+    process.kill(pid, 0);
+    return true;
+  } catch (e) {
+    return (e as NodeJS.ErrnoException).code === 'EPERM';
+  }
+}
+
+/**
+ * Remove the hidden temporary folders beside `dir` that an interrupted write left: only
+ * folders named like fascicle's temporaries that carry TEMP_MARKER and whose writing
+ * process has ended. Returns the paths removed.
+ */
+export function cleanLeftovers(dir: string): string[] {
   const target = resolve(dir);
   const parent = dirname(target);
-  mkdirSync(parent, { recursive: true });
-  const tmp = join(parent, `.${basename(target)}.tmp-${process.pid}-${Date.now()}`);
+  const re = leftoverName(basename(target));
+  const removed: string[] = [];
+  let names: string[];
+  try {
+    names = readdirSync(parent);
+  } catch {
+    return removed;
+  }
+  for (const name of names) {
+    const m = re.exec(name);
+    if (!m || alive(Number(m[2]))) continue;
+    const p = join(parent, name);
+    try {
+      if (!lstatSync(p).isDirectory() || !existsSync(join(p, TEMP_MARKER))) continue;
+      rmSync(p, { recursive: true, force: true });
+      removed.push(p);
+    } catch {
+      // another process removed it first
+    }
+  }
+  // a stray temporary marker in the bundle itself (a run stopped just after the swap)
+  try {
+    if (existsSync(join(target, BUNDLE_MARKER)) && existsSync(join(target, TEMP_MARKER))) unlinkSync(join(target, TEMP_MARKER));
+  } catch {
+    // not ours to worry about
+  }
+  return removed;
+}
+
+function writeFailed(target: string, where: string, e: unknown): OutputError {
+  const code = (e as NodeJS.ErrnoException).code;
+  return new OutputError(target, `cannot write the bundle ${target}: ${systemReason(e)} while writing ${where}; the destination is unchanged (free some space, or choose a writable folder with --out)`, { refused: false, code });
+}
+
+/**
+ * Write a bundle to `dir` atomically: into a hidden temporary sibling (marked with
+ * TEMP_MARKER), then swapped in. Only a missing path, an empty folder or a bundle
+ * fascicle wrote is replaced (checkOutput); leftovers of interrupted runs beside it are
+ * removed first. Returns the list of files written (relative).
+ * @throws OutputError when the destination is refused or a write fails (nothing changed then).
+ */
+export function writeBundle(dir: string, c: BundleContent, opts: { inputs?: readonly string[] } = {}): string[] {
+  const target = resolve(dir);
+  const parent = dirname(target);
+  checkOutput(dir, opts.inputs);
+  try {
+    mkdirSync(parent, { recursive: true });
+  } catch (e) {
+    throw writeFailed(target, `the folder ${parent}`, e);
+  }
+  cleanLeftovers(target);
+  const stamp = `${process.pid}-${Date.now().toString(36)}-${randomBytes(3).toString('hex')}`;
+  const tmp = join(parent, `.${basename(target)}.tmp-${stamp}`);
   const written: string[] = [];
   const put = (rel: string, data: string | Uint8Array) => {
     const p = join(tmp, rel);
@@ -75,29 +245,51 @@ export function writeBundle(dir: string, c: BundleContent): string[] {
     writeFileSync(p, data);
     written.push(rel);
   };
+  let current = 'the temporary folder';
   try {
-    mkdirSync(tmp, { recursive: true });
+    mkdirSync(tmp);
+    writeFileSync(join(tmp, TEMP_MARKER), `temporary folder of a fascicle bundle being written to ${target}; safe to delete\n`);
     for (const [name, rows] of Object.entries(c.tables)) {
-      put(`tables/${name}.csv`, toCsv(rows));
-      put(`tables/${name}.json`, JSON.stringify(rows, null, 1) + '\n');
+      current = `tables/${name}.csv`;
+      put(current, toCsv(rows));
+      current = `tables/${name}.json`;
+      put(current, JSON.stringify(rows, null, 1) + '\n');
     }
-    put('methods.txt', c.methods);
-    put('provenance.json', JSON.stringify(c.provenance, null, 1) + '\n');
-    for (const [rel, data] of Object.entries(c.files ?? {})) put(rel, data);
+    current = 'methods.txt';
+    put(current, c.methods);
+    current = 'provenance.json';
+    put(current, JSON.stringify(c.provenance, null, 1) + '\n');
+    for (const [rel, data] of Object.entries(c.files ?? {})) {
+      current = rel;
+      put(rel, data);
+    }
+    current = BUNDLE_MARKER;
+    put(BUNDLE_MARKER, JSON.stringify({ writtenBy: 'fascicle', version: VERSION, files: [...written] }, null, 1) + '\n');
+    written.pop();
   } catch (e) {
     rmSync(tmp, { recursive: true, force: true });
-    throw e;
+    if (e instanceof OutputError || (e instanceof Error && !(e as NodeJS.ErrnoException).code)) throw e;
+    throw writeFailed(target, current, e);
   }
-  // swap: old bundle aside, new in place, old removed
-  const old = existsSync(target) ? join(parent, `.${basename(target)}.old-${process.pid}-${Date.now()}`) : null;
-  if (old) renameSync(target, old);
+  // swap: the old bundle (marked temporary) aside, the new one in place, the old one removed
+  let old: string | null = null;
   try {
+    if (existsSync(target)) {
+      if (readdirSync(target).length === 0) rmdirSync(target);
+      else {
+        writeFileSync(join(target, TEMP_MARKER), 'previous fascicle bundle being replaced; safe to delete\n');
+        old = join(parent, `.${basename(target)}.old-${stamp}`);
+        renameSync(target, old);
+      }
+    }
     renameSync(tmp, target);
   } catch (e) {
-    if (old) renameSync(old, target);
+    if (old && !existsSync(target)) renameSync(old, target);
+    try { unlinkSync(join(target, TEMP_MARKER)); } catch { /* already gone */ }
     rmSync(tmp, { recursive: true, force: true });
-    throw e;
+    throw writeFailed(target, 'the final rename', e);
   }
+  try { unlinkSync(join(target, TEMP_MARKER)); } catch { /* already gone */ }
   if (old) rmSync(old, { recursive: true, force: true });
   return written;
 }

@@ -47,7 +47,7 @@ describe('fascicle command line', () => {
     for (const f of readdirSync(join(full, 'tables'))) expect(readFileSync(join(j2, 'tables', f), 'utf8'), f).toBe(readFileSync(join(full, 'tables', f), 'utf8'));
     const rr = run(['rerun', full]);
     expect(rr.status, rr.stderr).toBe(0);
-    expect(rr.stdout).toMatch(/reproduced 11 tables exactly/);
+    expect(rr.stdout).toMatch(/reproduced 22 tables and the methods text exactly/);
     // edit one byte of one input: the rerun names that file
     const victim = join(work, 'study', 'R2-distance.csv');
     const b = readFileSync(victim);
