@@ -100,18 +100,31 @@ export function strengthDuration(rows: readonly Row[], units: string, options: S
     const lf = fitCurve({ model: logOf(lapicque), x: w, y: I.map(Math.log), p0: [Irh0, tch0 / Math.LN2], names: ['rheobase', 'tau_ms'], lower: [1e-12, 1e-9], upper: [Infinity, 1e4] });
     fits.set(id, { weiss: wf, lapicque: lf });
     const chProfile = wf.df > 0 ? profileCI(wf, 1) : [NaN, NaN];
-    const fin = (v: number) => (Number.isFinite(v) ? v : null);
+    // intervals only where the data can support them: the points behind the fit are
+    // trusted, the residuals are above rounding level (otherwise the interval width is
+    // an artefact of exact or duplicated data) and the intensity falls with pulse width
+    const flagged = g.some((p) => p.recruitment_status !== 'ok');
+    const logI = I.map(Math.log);
+    const scaleLog = Math.max(1, ...logI.map(Math.abs));
+    const exact = !(Math.sqrt(wf.residualSS / w.length) > 1e-9 * scaleLog);
+    const fallRatio = Math.max(...I) / Math.min(...I);
+    const flat = !(fallRatio > 1 + 1e-6) || wf.params[1] <= 1e-9 * 1.000001;
+    const noCI = flagged || exact || flat;
+    const fin = (v: number) => (!noCI && Number.isFinite(v) ? v : null);
     for (const q of wf.status) if (q !== 'ok') st.push(`Weiss: ${q}`);
     for (const q of lf.status) if (q !== 'ok') st.push(`Lapicque: ${q}`);
-    if (g.some((p) => p.recruitment_status !== 'ok')) st.push('a recruitment fit behind a point is flagged (see strength_duration_points)');
-    const chron = wf.params[1];
-    if (chron < w[0] || chron > w[w.length - 1]) st.push('chronaxie outside the tested pulse widths: extrapolated');
+    if (flagged) st.push('a recruitment fit behind a point is flagged (see strength_duration_points): no intervals');
+    if (flat) st.push(`flat: the criterion intensity does not fall with pulse width (largest / smallest = ${Number(fallRatio.toPrecision(6))}), so the chronaxie is not determined`);
+    else if (exact) st.push('exact fit: the residuals are at rounding level (noise-free or duplicated points), so no interval can be estimated');
+    const chron = flat ? null : wf.params[1];
+    if (chron !== null && (chron < w[0] || chron > w[w.length - 1])) st.push('chronaxie outside the tested pulse widths: extrapolated');
+    const lapFlat = flat || lf.params[1] <= 1e-9 * 1.000001;
     out.push({
       ...Object.fromEntries(by.map((k) => [k, g[0][k] ?? null])), class: g[0].class, intensityUnit: unitOf.get(String(g[0].class)) ?? null, widths: g.length, criterionFraction: fraction,
       rheobase: wf.params[0], rheobase_ci95_low: fin(wf.ci[0][0]), rheobase_ci95_high: fin(wf.ci[0][1]),
-      chronaxie_ms: chron, chronaxie_ci95_low_ms: fin(chProfile[0]), chronaxie_ci95_high_ms: fin(chProfile[1]),
-      lapicque_rheobase: lf.params[0], lapicque_tau_ms: lf.params[1], lapicque_chronaxie_ms: lf.params[1] * Math.LN2,
-      lapicque_chronaxie_ci95_low_ms: fin(lf.ci[1][0] * Math.LN2), lapicque_chronaxie_ci95_high_ms: fin(lf.ci[1][1] * Math.LN2),
+      chronaxie_ms: chron, chronaxie_ci95_low_ms: chron === null ? null : fin(chProfile[0]), chronaxie_ci95_high_ms: chron === null ? null : fin(chProfile[1]),
+      lapicque_rheobase: lf.params[0], lapicque_tau_ms: lapFlat ? null : lf.params[1], lapicque_chronaxie_ms: lapFlat ? null : lf.params[1] * Math.LN2,
+      lapicque_chronaxie_ci95_low_ms: lapFlat ? null : fin(Math.max(0, lf.ci[1][0]) * Math.LN2), lapicque_chronaxie_ci95_high_ms: lapFlat ? null : fin(lf.ci[1][1] * Math.LN2),
       weiss_rss: wf.residualSS, lapicque_rss: lf.residualSS, status: st.length ? st.join('; ') : 'ok',
     });
   }

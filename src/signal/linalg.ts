@@ -117,3 +117,67 @@ export function normalEquations(cols: ArrayLike<number>[]): { A0: number[][]; sc
   for (let j = 0; j < p; j++) for (let k = j + 1; k < p; k++) A0[j][k] = A0[k][j];
   return { A0, scale };
 }
+
+/**
+ * Eigenvalues of a real symmetric matrix by the cyclic Jacobi method (rotations
+ * until the off-diagonal mass is negligible), in ascending order. O(n^3) per sweep of
+ * rotations; meant for the small matrices here (n <= ~50). A is not modified.
+ * Reference: G. H. Golub and C. F. Van Loan, Matrix Computations, 4th ed., Johns
+ * Hopkins 2013, sec. 8.5 (Jacobi methods).
+ * @example symmetricEigenvalues([[2, 1], [1, 2]]) // [1, 3]
+ */
+export function symmetricEigenvalues(A: readonly (readonly number[])[]): number[] {
+  const n = A.length;
+  const a = A.map((r) => [...r]);
+  let total = 0;
+  for (let i = 0; i < n; i++) for (let j = 0; j < n; j++) total += a[i][j] * a[i][j];
+  for (let sweep = 0; sweep < 100; sweep++) {
+    let off = 0;
+    for (let i = 0; i < n; i++) for (let j = i + 1; j < n; j++) off += a[i][j] * a[i][j];
+    if (!(off > 1e-30 * total)) break;
+    for (let p = 0; p < n; p++) {
+      for (let q = p + 1; q < n; q++) {
+        const apq = a[p][q];
+        if (apq === 0) continue;
+        const theta = (a[q][q] - a[p][p]) / (2 * apq);
+        const t = (theta >= 0 ? 1 : -1) / (Math.abs(theta) + Math.sqrt(theta * theta + 1));
+        const c = 1 / Math.sqrt(t * t + 1), s = t * c;
+        for (let k = 0; k < n; k++) {
+          const akp = a[k][p], akq = a[k][q];
+          a[k][p] = c * akp - s * akq;
+          a[k][q] = s * akp + c * akq;
+        }
+        for (let k = 0; k < n; k++) {
+          const apk = a[p][k], aqk = a[q][k];
+          a[p][k] = c * apk - s * aqk;
+          a[q][k] = s * apk + c * aqk;
+        }
+      }
+    }
+  }
+  return a.map((r, i) => r[i]).sort((x, y) => x - y);
+}
+
+/**
+ * Lower Cholesky factor L of a symmetric positive definite matrix (A = L L^T), or
+ * null when a pivot is not above tol x the largest diagonal entry (not positive
+ * definite to working precision).
+ */
+export function cholesky(A: readonly (readonly number[])[], tol = 1e-14): number[][] | null {
+  const n = A.length;
+  const L = A.map(() => new Array<number>(n).fill(0));
+  let maxDiag = 0;
+  for (let i = 0; i < n; i++) maxDiag = Math.max(maxDiag, Math.abs(A[i][i]));
+  for (let j = 0; j < n; j++) {
+    let s = A[j][j];
+    for (let k = 0; k < j; k++) s -= L[j][k] * L[j][k];
+    if (!(s > tol * maxDiag)) return null;
+    L[j][j] = Math.sqrt(s);
+    for (let i = j + 1; i < n; i++) {
+      let t = A[i][j];
+      for (let k = 0; k < j; k++) t -= L[i][k] * L[j][k];
+      L[i][j] = t / L[j][j];
+    }
+  }
+  return L;
+}

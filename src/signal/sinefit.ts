@@ -7,7 +7,7 @@
  * Processing: Estimation Theory, Prentice Hall 1993, sec. 4.6 (sinusoidal
  * parameter estimation).
  */
-import { normalEquations, solve } from './linalg';
+import { cholesky, normalEquations, solve, symmetricEigenvalues } from './linalg';
 
 export interface SineFit { coef: number[]; rss: number; power: number }
 
@@ -117,4 +117,84 @@ export function fitSines(x: ArrayLike<number>, tMs: ArrayLike<number>, f: number
 /** The fitted sinusoids (without the constant) at every sample. */
 export function sinesAt(coef: number[], tMs: ArrayLike<number>, f: number, out: Float64Array): Float64Array {
   return sineDesign(tMs, f, (coef.length - 1) / 2).sinesAt(coef, out);
+}
+
+/** How well a sine-fit design determines the sinusoids it subtracts (see sineConditioning). */
+export interface SineConditioning {
+  /** fitted and left-out samples */
+  fitted: number;
+  excluded: number;
+  /**
+   * 2-norm condition number of the sinusoid columns over the fitted samples, each
+   * taken about its mean (the constant is fitted too) and scaled to unit norm:
+   * near 1 when the fitted samples cover whole periods, Infinity when singular
+   */
+  condition: number;
+  /**
+   * worst case, over all fitted coefficients, of the mean power per sample of the
+   * subtracted sinusoids in the left-out samples divided by the mean power per
+   * sample they remove from the fitted samples (about 1 when the fitted samples
+   * span a period or more; 0 when nothing is left out)
+   */
+  extrapolationGain: number;
+}
+
+/**
+ * Conditioning of the hum fit at frequency f (Hz) with `harmonics` harmonics over the
+ * samples where mask is 1 (tMs in ms). With X the centred sinusoid columns over the
+ * fitted samples (m of them) and Z the same columns over the left-out samples (n_e),
+ * the power the subtraction removes from the fitted samples is |X b|^2 and the power
+ * it subtracts from the left-out samples is |Z b|^2 for coefficients b; the largest
+ * ratio is the largest generalised eigenvalue of (Z'Z, X'X), found from the Cholesky
+ * factor of X'X, and extrapolationGain = that ratio x m / n_e. O(n H^2).
+ * Reference: G. H. Golub and C. F. Van Loan, Matrix Computations, 4th ed., 2013,
+ * sec. 8.7 (the symmetric-definite generalised eigenproblem).
+ */
+export function sineConditioning(tMs: ArrayLike<number>, f: number, harmonics: number, mask?: Uint8Array): SineConditioning {
+  const n = tMs.length, p = 2 * harmonics;
+  const G = Array.from({ length: p }, () => new Array<number>(p).fill(0)); // fitted Gram
+  const Z = Array.from({ length: p }, () => new Array<number>(p).fill(0)); // left-out Gram
+  const sum = new Array<number>(p).fill(0);
+  const row = new Float64Array(p);
+  let m = 0;
+  for (let i = 0; i < n; i++) {
+    for (let h = 1; h <= harmonics; h++) {
+      const w = (2 * Math.PI * h * f) / 1000;
+      row[2 * h - 2] = Math.cos(w * tMs[i]);
+      row[2 * h - 1] = Math.sin(w * tMs[i]);
+    }
+    const fitted = !mask || mask[i] === 1;
+    const T = fitted ? G : Z;
+    if (fitted) { m++; for (let j = 0; j < p; j++) sum[j] += row[j]; }
+    for (let j = 0; j < p; j++) for (let k = 0; k <= j; k++) T[j][k] += row[j] * row[k];
+  }
+  for (let j = 0; j < p; j++) for (let k = 0; k < j; k++) { G[k][j] = G[j][k]; Z[k][j] = Z[j][k]; }
+  const excluded = n - m;
+  // centre the fitted columns (the constant absorbs their means)
+  const B = G.map((r, j) => r.map((v, k) => v - (sum[j] * sum[k]) / Math.max(1, m)));
+  const d = B.map((r, j) => Math.sqrt(Math.max(r[j], 0)));
+  if (d.some((v) => !(v > 0))) return { fitted: m, excluded, condition: Infinity, extrapolationGain: Infinity };
+  const Bs = B.map((r, j) => r.map((v, k) => v / (d[j] * d[k])));
+  const ev = symmetricEigenvalues(Bs);
+  const condition = ev[0] > 0 ? ev[p - 1] / ev[0] : Infinity;
+  if (excluded === 0) return { fitted: m, excluded, condition, extrapolationGain: 0 };
+  const L = cholesky(Bs, 1e-15);
+  if (!L) return { fitted: m, excluded, condition: Infinity, extrapolationGain: Infinity };
+  // M = L^-1 (D^-1 Z D^-1) L^-T
+  const fwd = (v: number[]): number[] => {
+    const x = new Array<number>(p);
+    for (let i = 0; i < p; i++) {
+      let s = v[i];
+      for (let k = 0; k < i; k++) s -= L[i][k] * x[k];
+      x[i] = s / L[i][i];
+    }
+    return x;
+  };
+  const Zs = Z.map((r, j) => r.map((v, k) => v / (d[j] * d[k])));
+  const Y = Zs.map(fwd); // rows: L^-1 applied to the (symmetric) columns of Zs, transposed
+  const Yt = Y[0].map((_, j) => Y.map((r) => r[j]));
+  const M = Yt.map(fwd);
+  for (let j = 0; j < p; j++) for (let k = 0; k < j; k++) M[j][k] = M[k][j] = 0.5 * (M[j][k] + M[k][j]);
+  const lmax = Math.max(0, symmetricEigenvalues(M)[p - 1]);
+  return { fitted: m, excluded, condition, extrapolationGain: (lmax * m) / excluded };
 }

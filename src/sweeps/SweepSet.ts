@@ -6,6 +6,7 @@
  */
 import { inspect } from 'node:util';
 import { OptionError } from '../errors';
+import { checkKeys, didYouMean, shown, warnOnce } from '../validate';
 import { VERSION } from '../version';
 import { toFrame } from '../report/frame';
 import { baseline, type BaselineOptions } from '../verbs/baseline';
@@ -208,6 +209,10 @@ export class SweepSet implements Iterable<Float64Array> {
 
   /** Keep the sweeps with the given indices (in that order). */
   select(indices: readonly number[]): SweepSet {
+    if (!Array.isArray(indices)) throw new OptionError(`invalid indices: ${shown(indices)}; must be an array of sweep indices 0..${this.nSweeps - 1}`);
+    for (const i of indices) {
+      if (!Number.isInteger(i) || i < 0 || i >= this.nSweeps) throw new OptionError(`invalid sweep index in select: ${shown(i)}; must be an integer 0..${this.nSweeps - 1}`);
+    }
     const out = new Float64Array(indices.length * this.nSamples);
     indices.forEach((ix, k) => out.set(this.sweep(ix), k * this.nSamples));
     return this.create({
@@ -225,11 +230,16 @@ export class SweepSet implements Iterable<Float64Array> {
    * @example set.where({ preparation: 'N3', distanceMm: [10, 20] })
    */
   where(match: Record<string, ConditionValue | readonly ConditionValue[] | { min?: number; max?: number }> | ((c: Conditions, i: number) => boolean)): SweepSet {
+    if (typeof match !== 'function') checkMatch(this, match);
     const pred = typeof match === 'function' ? match : matcher(match);
     const idx: number[] = [];
     this.conditions.forEach((c, i) => {
       if (pred(c, i)) idx.push(i);
     });
+    if (idx.length === 0 && this.nSweeps > 0) {
+      const what = typeof match === 'function' ? 'the predicate' : shown(match);
+      warnOnce(`where:${what}`, `where(${what}) matches none of the ${this.nSweeps} sweeps`);
+    }
     const s = this.select(idx);
     return s.create({ history: [...this.history, { verb: 'where', options: { match: typeof match === 'function' ? String(match) : match }, version: VERSION }] });
   }
@@ -441,6 +451,7 @@ export class GroupedSweeps {
    * `count`; extras.sd and extras.sem hold the SD and SEM sweeps (same layout).
    */
   average(options: { method?: 'mean' | 'median' } = {}): SweepSet {
+    checkKeys('average options', options, ['method']);
     const method = options.method ?? 'mean';
     if (method !== 'mean' && method !== 'median') throw new OptionError(`invalid method: ${JSON.stringify(method)}; must be "mean" or "median"`);
     const { set } = this;
@@ -500,6 +511,28 @@ export function conditionKeys(cs: readonly Conditions[]): string[] {
   const keys = new Set<string>();
   for (const c of cs) for (const k of Object.keys(c)) keys.add(k);
   return [...keys];
+}
+
+/** A where() match names conditions some sweep has, and ranges hold only min and max. */
+function checkMatch(set: SweepSet, match: unknown): void {
+  if (match === null || typeof match !== 'object' || Array.isArray(match)) {
+    throw new OptionError(`invalid where: ${shown(match)}; must be an object of condition values or a predicate function`);
+  }
+  const known = conditionKeys(set.conditions);
+  for (const [k, want] of Object.entries(match as Record<string, unknown>)) {
+    if (set.nSweeps > 0 && !known.includes(k)) {
+      throw new OptionError(`unknown condition ${JSON.stringify(k)} in where()${didYouMean(k, known)}; no sweep has it; conditions are ${[...known].sort().join(', ')}`);
+    }
+    if (want !== null && typeof want === 'object' && !Array.isArray(want)) {
+      checkKeys(`where() range for ${JSON.stringify(k)}`, want, ['min', 'max']);
+      const r = want as { min?: unknown; max?: unknown };
+      for (const b of ['min', 'max'] as const) {
+        if (r[b] !== undefined && (typeof r[b] !== 'number' || Number.isNaN(r[b]))) {
+          throw new OptionError(`invalid where() range for ${JSON.stringify(k)}: ${b} is ${shown(r[b])}; must be a number`);
+        }
+      }
+    }
+  }
 }
 
 function matcher(match: Record<string, unknown>): (c: Conditions) => boolean {

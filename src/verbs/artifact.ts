@@ -4,7 +4,7 @@
  */
 import { deferredOf, type SweepSet, type Conditions, type ConditionValue } from '../sweeps/SweepSet';
 import { OptionError, AnalysisError } from '../errors';
-import { finite, oneOf, windowMs } from '../validate';
+import { checkKeys, finite, oneOf, windowMs } from '../validate';
 import { windowIndices } from './baseline';
 import { shareCopy, sharedSamples } from '../parallel/pool';
 import { correctSweep, noCorrection } from '../parallel/kernels';
@@ -14,9 +14,9 @@ export type ArtifactMethod = 'blank' | 'template' | 'exponential' | 'alternate';
 export interface ArtifactOptions {
   /**
    * 'blank': replace the window by a bridge; 'template': subtract a scaled artifact
-   * template made from sub-threshold sweeps; 'exponential': fit and subtract the
-   * exponential tail, then blank the window; 'alternate': average sweeps of opposite
-   * stimulus polarity (condition `polarity` +1 / -1).
+   * template made from sub-threshold sweeps, from the window start to the sweep end;
+   * 'exponential': fit and subtract the exponential tail, then blank the window;
+   * 'alternate': average sweeps of opposite stimulus polarity (condition `polarity` +1 / -1).
    */
   method: ArtifactMethod;
   /** Artifact window [from, to], ms after the stimulus (default [0, 0.3]). */
@@ -73,8 +73,28 @@ function groupKeys(set: SweepSet, keys: string[]): Map<string, number[]> {
  * Remove the stimulus artifact by one of several methods (see ArtifactOptions).
  * @example set.removeArtifact({ method: 'template', window: [0, 0.4] })
  */
+const ARTIFACT_KEYS: Record<ArtifactMethod, readonly string[]> = {
+  blank: ['method', 'window', 'bridge'],
+  exponential: ['method', 'window', 'bridge', 'tailWindow'],
+  template: ['method', 'window', 'scaling', 'fitWindow', 'templateBy', 'maxIntensity', 'templateSweeps'],
+  alternate: ['method'],
+};
+
+/** Unknown keys, and keys that the chosen method does not use, are errors naming the method that uses them. */
+function checkArtifactKeys(options: ArtifactOptions, method: ArtifactMethod): void {
+  const all = [...new Set(Object.values(ARTIFACT_KEYS).flat())];
+  checkKeys('removeArtifact options', options, all);
+  for (const k of Object.keys(options)) {
+    if (ARTIFACT_KEYS[method].includes(k)) continue;
+    const users = (Object.keys(ARTIFACT_KEYS) as ArtifactMethod[]).filter((m) => ARTIFACT_KEYS[m].includes(k));
+    throw new OptionError(`option "${k}" in removeArtifact options is not used by method "${method}" (only by ${users.map((m) => `"${m}"`).join(', ')}); method "${method}" takes ${ARTIFACT_KEYS[method].join(', ')}`);
+  }
+}
+
 export function removeArtifact(set: SweepSet, options: ArtifactOptions): SweepSet {
+  if (options === null || typeof options !== 'object') throw new OptionError('removeArtifact needs options { method } ("blank", "template", "exponential" or "alternate")');
   const method = oneOf('method', options?.method, ['blank', 'template', 'exponential', 'alternate'] as const);
+  checkArtifactKeys(options, method);
   const window = windowMs('window', options.window ?? artifactDefaults.window);
   const bridge = oneOf('bridge', options.bridge ?? artifactDefaults.bridge, ['linear', 'hermite'] as const);
   const n = set.nSamples;
@@ -149,6 +169,9 @@ export function removeArtifact(set: SweepSet, options: ArtifactOptions): SweepSe
       const x = corrected(i, scratch);
       for (let k = 0; k < n; k++) T[k] += x[k] / tmpl.length;
     }
+    // no artifact precedes the stimulus: the template is zero before the window, so the
+    // subtraction never changes a sample before it (and the scale fits what is subtracted)
+    T.fill(0, 0, a);
     const tI = tmpl.reduce((acc, i) => acc + ((set.conditions[i].intensity as number) ?? NaN), 0) / tmpl.length;
     let tt = 0;
     for (let k = fa; k <= fb; k++) tt += T[k] * T[k];
@@ -249,6 +272,7 @@ export interface StimulusDetection {
  * step from the previous sample exceeds half the largest step in the search window.
  */
 export function detectStimulus(set: SweepSet, options: { search?: [number, number] } = {}): StimulusDetection {
+  checkKeys('detectStimulus options', options, ['search']);
   const search = windowMs('search', options.search ?? [set.t0Ms, set.timeAt(set.nSamples - 1)]);
   const [a, b] = windowIndices(set, search, 'search');
   const per: number[] = [];

@@ -1,6 +1,6 @@
 import type { SweepSet } from '../sweeps/SweepSet';
 import { OptionError } from '../errors';
-import { oneOf, windowMs } from '../validate';
+import { checkKeys, oneOf, windowMs } from '../validate';
 import { shareCopy } from '../parallel/pool';
 import { noCorrection } from '../parallel/kernels';
 
@@ -49,6 +49,7 @@ export function windowIndices(set: SweepSet, w: [number, number], name: string):
  * @example set.baseline({ window: [-2, -0.2] })
  */
 export function baseline(set: SweepSet, options: BaselineOptions = {}): SweepSet {
+  checkKeys('baseline options', options, ['window', 'method', 'lateWindow']);
   const method = oneOf('method', options.method ?? baselineDefaults.method, ['mean', 'median'] as const);
   const defaultWindow: [number, number] = [set.t0Ms, -baselineDefaults.stopBeforeStimulusMs];
   if (!options.window && !(set.t0Ms < -baselineDefaults.stopBeforeStimulusMs)) {

@@ -2,7 +2,8 @@ import type { SweepSet } from '../sweeps/SweepSet';
 import { butter } from '../signal/butter';
 import { defaultPadlen } from '../signal/sosfilt';
 import { applySos } from './filter';
-import { integerIn } from '../validate';
+import { checkKeys, integerIn } from '../validate';
+import { OptionError } from '../errors';
 
 export interface DecimateOptions {
   /** integer down-sampling factor 2..64 */
@@ -18,6 +19,8 @@ export const decimateDefaults = { order: 8, cutoffFraction: 0.8 };
  * its IIR filter). Keeps samples 0, factor, 2 factor, ...
  */
 export function decimate(set: SweepSet, options: DecimateOptions): SweepSet {
+  if (options === null || typeof options !== 'object') throw new OptionError('decimate needs options { factor } (an integer 2..64)');
+  checkKeys('decimate options', options, ['factor', 'order']);
   const factor = integerIn('factor', options.factor, 2, 64);
   const order = integerIn('order', options.order ?? decimateDefaults.order, 1, 10);
   const cutoff = (decimateDefaults.cutoffFraction * set.fs) / factor / 2;

@@ -3,7 +3,7 @@ import { butter, iirnotch, type BType, type Sos } from '../signal/butter';
 import { defaultPadlen } from '../signal/sosfilt';
 import { runSweeps, sharedSamples } from '../parallel/pool';
 import { OptionError } from '../errors';
-import { integerIn, oneOf, positive } from '../validate';
+import { checkKeys, integerIn, oneOf, positive } from '../validate';
 
 export interface FilterOptions {
   /** 'lowpass' | 'highpass' | 'bandpass' | 'bandstop' */
@@ -35,6 +35,8 @@ export function applySos(set: SweepSet, sos: Sos, padlen: number): Float64Array 
  * @example set.filter({ btype: 'lowpass', cutoff: 5000, order: 4 })
  */
 export function filter(set: SweepSet, options: FilterOptions): SweepSet {
+  if (options === null || typeof options !== 'object') throw new OptionError('filter needs options { btype, cutoff } (btype "lowpass", "highpass", "bandpass" or "bandstop"; cutoff in Hz)');
+  checkKeys('filter options', options, ['btype', 'cutoff', 'order', 'padlen']);
   const btype = oneOf('btype', options.btype, ['lowpass', 'highpass', 'bandpass', 'bandstop'] as const);
   const order = integerIn('order', options.order ?? filterDefaults.order, 1, 10);
   const sos = butter({ order, cutoff: options.cutoff, btype, fs: set.fs });
@@ -53,6 +55,7 @@ export const notchDefaults = { frequency: 50, Q: 30 };
 
 /** Zero-phase IIR notch (second order) on every sweep. Rings around fast transients; prefer removeHum for CAPs. */
 export function notch(set: SweepSet, options: NotchOptions = {}): SweepSet {
+  checkKeys('notch options', options, ['frequency', 'Q']);
   const frequency = positive('frequency', options.frequency ?? notchDefaults.frequency, 'Hz');
   const Q = positive('Q', options.Q ?? notchDefaults.Q);
   const sos = iirnotch(frequency, Q, set.fs);

@@ -1,8 +1,8 @@
 import { runSweeps, shareCopy, sharedSamples } from '../parallel/pool';
 import type { SweepSet } from '../sweeps/SweepSet';
-import { OptionError } from '../errors';
-import { sineDesign } from '../signal/sinefit';
-import { integerIn } from '../validate';
+import { AnalysisError, OptionError } from '../errors';
+import { sineConditioning, sineDesign } from '../signal/sinefit';
+import { checkKeys, integerIn, shown } from '../validate';
 
 export interface HumOptions {
   /** mains frequency in Hz, or 'detect' (default) to choose 50 or 60 Hz and refine it within +/-1 Hz from the data */
@@ -13,6 +13,30 @@ export interface HumOptions {
   exclude?: [number, number][];
 }
 export const humDefaults = { frequency: 'detect' as const, harmonics: 5, exclude: [] as [number, number][] };
+/**
+ * When a fit is refused (see sineConditioning in src/signal/sinefit.ts): the condition
+ * number of the fitted sinusoid columns, and the extrapolation gain (power per sample
+ * subtracted where the fit did not look, over power per sample removed where it did).
+ * About 1 for both when the fitted samples span a mains period or more; they grow
+ * steeply below three quarters of a period (common practice, no source: limits chosen
+ * from the design alone, never from data).
+ */
+export const humLimits = { maxCondition: 1e6, maxExtrapolationGain: 10 };
+
+/** Refuse a fit that cannot determine the sinusoids it would subtract. */
+function checkConditioning(t: Float64Array, f: number, harmonics: number, mask: Uint8Array, exclude: readonly unknown[]): void {
+  const c = sineConditioning(t, f, harmonics, mask);
+  const where = exclude.length ? `exclude ${shown(exclude)} leaves ${c.fitted} of ${t.length} samples to fit` : `sweeps of ${t.length} samples`;
+  const what = `${harmonics} harmonic${harmonics === 1 ? '' : 's'} of ${Number(f.toFixed(4))} Hz`;
+  const fix = `fit over at least about one mains period (${(1000 / f).toFixed(1)} ms), or use fewer harmonics`;
+  const E = exclude.length ? OptionError : AnalysisError;
+  if (!(c.condition <= humLimits.maxCondition)) {
+    throw new E(`cannot remove hum: ${where}, over which the ${what} cannot be told apart from each other and a constant (condition number ${c.condition.toExponential(2)}; at most ${humLimits.maxCondition.toExponential(0)}): ${fix}`);
+  }
+  if (!(c.extrapolationGain <= humLimits.maxExtrapolationGain)) {
+    throw new E(`cannot remove hum: ${where}; the ${what} fitted there could be subtracted from the ${c.excluded} left-out samples with ${c.extrapolationGain.toExponential(2)} times the power per sample it removes from the fitted ones (at most ${humLimits.maxExtrapolationGain}): ${fix}`);
+  }
+}
 
 /**
  * Remove mains hum by fitting and subtracting sinusoids at the mains frequency and
@@ -23,12 +47,14 @@ export const humDefaults = { frequency: 'detect' as const, harmonics: 5, exclude
  * @example set.removeHum({ frequency: 50, harmonics: 3, exclude: [[0, 8]] })
  */
 export function removeHum(set: SweepSet, options: HumOptions = {}): SweepSet {
+  checkKeys('removeHum options', options, ['frequency', 'harmonics', 'exclude']);
   const harmonics = integerIn('harmonics', options.harmonics ?? humDefaults.harmonics, 1, 20);
   const exclude = options.exclude ?? humDefaults.exclude;
+  if (!Array.isArray(exclude)) throw new OptionError(`invalid exclude: ${shown(exclude)}; must be a list of [from, to] ranges in ms`);
   const t = set.time();
   const mask = new Uint8Array(set.nSamples).fill(1);
   for (const w of exclude) {
-    if (!Array.isArray(w) || !(w[1] > w[0])) throw new OptionError(`invalid exclude: ${JSON.stringify(w)}; must be [from, to] in ms with from < to`);
+    if (!Array.isArray(w) || w.length !== 2 || !Number.isFinite(w[0]) || !Number.isFinite(w[1]) || !(w[1] > w[0])) throw new OptionError(`invalid exclude: ${JSON.stringify(w)}; must be [from, to] in ms with from < to`);
     for (let i = 0; i < t.length; i++) if (t[i] >= w[0] && t[i] <= w[1]) mask[i] = 0;
   }
   const kept = mask.reduce((a, b) => a + b, 0);
@@ -50,6 +76,8 @@ export function removeHum(set: SweepSet, options: HumOptions = {}): SweepSet {
       throw new OptionError(`invalid frequency: "detect" needs sweeps of at least 35 ms (about two mains cycles); these are ${set.durationMs.toFixed(1)} ms, so give frequency: 50 or 60`);
     }
     const H = Math.max(1, Math.min(harmonics, maxH));
+    checkConditioning(t, 50, H, mask, exclude);
+    checkConditioning(t, 60, H, mask, exclude);
     const p50 = rssAt(50, H), p60 = rssAt(60, H);
     let lo = p50 <= p60 ? 49 : 59, hi = lo + 2;
     const g = (Math.sqrt(5) - 1) / 2;
@@ -67,6 +95,7 @@ export function removeHum(set: SweepSet, options: HumOptions = {}): SweepSet {
     f = freqOpt;
   }
   if (f * harmonics >= set.fs / 2) throw new OptionError(`invalid harmonics: ${harmonics} at ${f.toFixed(2)} Hz reach fs/2 (fs=${set.fs} Hz)`);
+  checkConditioning(t, f, harmonics, mask, exclude);
   const x = set.data;
   const out = sharedSamples(x.length);
   const d = sineDesign(t, f, harmonics, mask).parts;

@@ -1,7 +1,7 @@
 import type { SweepSet } from '../sweeps/SweepSet';
 import { polyphaseDesign, rationalRatio, resampledLength } from '../signal/resample';
 import { OptionError } from '../errors';
-import { oneOf, positive } from '../validate';
+import { checkKeys, oneOf, positive } from '../validate';
 import { runSweeps, shareCopy, sharedSamples } from '../parallel/pool';
 
 export interface ResampleOptions {
@@ -27,6 +27,7 @@ export const resampleDefaults = { padtype: 'constant' as const, beta: 5, maxFact
  */
 export function resample(set: SweepSet, options: ResampleOptions): SweepSet {
   if (!options || typeof options !== 'object') throw new OptionError('resample needs options { fs } (new sample rate, Hz)');
+  checkKeys('resample options', options, ['fs', 'padtype', 'beta']);
   const fsOut = positive('fs', options.fs, 'Hz');
   const padtype = oneOf('padtype', options.padtype ?? resampleDefaults.padtype, ['constant', 'mean', 'median'] as const);
   const beta = options.beta ?? resampleDefaults.beta;

@@ -22,7 +22,11 @@ describe('strengthDuration(rows)', () => {
     const row = r.rows[0];
     expect(row.rheobase as number).toBeCloseTo(0.2, 6);
     expect(row.chronaxie_ms as number).toBeCloseTo(0.3, 6);
-    expect(row.status).toBe('ok');
+    // noise-free points fit exactly: an interval would have zero width, which no data support
+    expect(row.status).toMatch(/^exact fit: the residuals are at rounding level/);
+    expect(row.rheobase_ci95_low).toBeNull();
+    expect(row.chronaxie_ci95_low_ms).toBeNull();
+    expect(row.chronaxie_ci95_high_ms).toBeNull();
     // chronaxie is the width at which the criterion intensity is twice the rheobase (Lapicque 1909; definition of the trade)
     expect(weiss(row.chronaxie_ms as number, [row.rheobase as number, row.chronaxie_ms as number])).toBeCloseTo(2 * (row.rheobase as number), 10);
   });
@@ -47,6 +51,32 @@ describe('strengthDuration(rows)', () => {
     expect(r.methods()).toMatch(/Weiss's law/);
     const fig = strengthDurationFigure(r);
     expect(fig.spec.data.length).toBe(3 * 3);
+  });
+  it('flat criterion intensities: an honest status, no chronaxie and no zero-width interval (issue: was "ok")', () => {
+    const r = strengthDuration(rowsFrom(() => 0.2, widths), 'uV');
+    const row = r.rows[0];
+    expect(row.status).toMatch(/flat: the criterion intensity does not fall with pulse width/);
+    expect(row.status).not.toBe('ok');
+    expect(row.chronaxie_ms).toBeNull();
+    expect(row.lapicque_chronaxie_ms).toBeNull();
+    for (const k of ['rheobase_ci95_low', 'rheobase_ci95_high', 'chronaxie_ci95_low_ms', 'chronaxie_ci95_high_ms']) expect(row[k]).toBeNull();
+    // responses that do not depend on intensity at all: recruitment cannot be fitted, no interval either
+    const dead = rowsFrom(() => 0.2, widths).map((q) => ({ ...q, amplitude_uV: 100 }));
+    const d = strengthDuration(dead, 'uV').rows[0];
+    expect(d.status).not.toBe('ok');
+    expect(d.rheobase_ci95_low).toBeNull();
+    expect(d.rheobase_ci95_high).toBeNull();
+  });
+  it('noisy Weiss data: status ok and intervals of positive width that contain the truth (self-consistency)', () => {
+    // deterministic multiplicative scatter of about 3% on the criterion intensities
+    const law = (w: number) => weiss(w, [0.2, 0.3]) * (1 + 0.03 * Math.sin(w * 977));
+    const row = strengthDuration(rowsFrom(law, widths), 'uV').rows[0];
+    expect(row.status).toBe('ok');
+    const lo = row.chronaxie_ci95_low_ms as number, hi = row.chronaxie_ci95_high_ms as number;
+    expect(hi - lo).toBeGreaterThan(1e-3);
+    expect(lo).toBeLessThan(0.3);
+    expect(hi).toBeGreaterThan(0.3);
+    expect((row.rheobase_ci95_high as number) - (row.rheobase_ci95_low as number)).toBeGreaterThan(1e-4);
   });
   it('says what is missing: no pulse widths, too few widths, a criterion out of range', () => {
     expect(() => strengthDuration([{ class: 'A', intensity: 1, amplitude_uV: 1 }], 'uV')).toThrow(AnalysisError);
