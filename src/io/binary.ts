@@ -13,7 +13,7 @@
  * sweep-major: [sweep][channel][sample]; interleaved: [sweep][sample][channel].
  */
 import { dirname, resolve } from 'node:path';
-import { InputError, OptionError } from '../errors';
+import { InputError, OptionError, ThreadError } from '../errors';
 import { conditionsProblem } from '../validate';
 import { SweepSet, type Conditions } from '../sweeps/SweepSet';
 import { parseSignalUnit } from '../sweeps/units';
@@ -111,6 +111,8 @@ export function readBinary(sidecarPath: string, extra: { conditions?: Conditions
       firstBad = runSweeps('load', { fd, dtype: meta.dtype, little: order === 'little', interleaved: layout === 'interleaved', nSamples, nChannels: nCh, channel: ch, gain, offset, out, chunkSweeps }, nSweeps, nSweeps * nSamples * nCh)
         .find((i) => i >= 0);
     } catch (e) {
+      // a worker thread that stopped is not a fault of the file
+      if (e instanceof ThreadError) throw e;
       throw new InputError({ file: dataPath }, `reading failed (${(e as Error).message})`, `${expectBytes} readable bytes that do not change while loading`);
     }
     if (firstBad !== undefined) {

@@ -18,19 +18,34 @@ import { join } from 'node:path';
 import { availableParallelism, totalmem } from 'node:os';
 import { setFlagsFromString } from 'node:v8';
 import { runInNewContext } from 'node:vm';
-import { OptionError } from '../errors';
+import { OptionError, ThreadError } from '../errors';
 import { kernels, type KernelName } from './kernels';
 
-interface Slot { worker: Worker; control: Int32Array; port: MessagePort; seq: number }
+interface Slot { control: Int32Array; port: MessagePort; seq: number; id: number }
 const slots: Slot[] = [];
+/**
+ * The pool's threads are started by a supervisor thread, not by the calling thread: a
+ * caller blocked in Atomics.wait cannot see a worker's 'exit' event, but the supervisor
+ * (whose event loop stays free) can, and marks the worker's control word [4] when it stops
+ * for any reason (out of memory, exit, crash), so a waiting caller learns at once.
+ */
+let supervisor: Worker | null = null;
+let nextId = 0;
+/** Test hook: make the threads started from now on fail in their first job ('exit' or 'oom'). */
+let fault: 'exit' | 'oom' | null = null;
+export function setWorkerFault(f: 'exit' | 'oom' | null): void {
+  fault = f;
+}
 let setting: number | null = null;
 let broken = false;
 let dispatched = 0;
 
 /** Stop the worker threads (they start again when needed); resolves when they have stopped. */
 export async function stopThreads(): Promise<void> {
-  const all = slots.splice(0);
-  await Promise.all(all.map((s) => s.worker.terminate()));
+  slots.splice(0);
+  const sup = supervisor;
+  supervisor = null;
+  if (sup) await sup.terminate(); // its threads stop with it
 }
 
 /** Jobs handed to worker threads so far (for tests and diagnostics). */
@@ -122,25 +137,46 @@ function workerFile(): string | null {
   return existsSync(built) ? built : null;
 }
 
+/** Heap limit of each worker thread in MB (FASCICLE_WORKER_HEAP_MB), or undefined for Node's default. */
+function heapLimitMb(): number | undefined {
+  const env = process.env.FASCICLE_WORKER_HEAP_MB;
+  if (env === undefined || env === '') return undefined;
+  const v = Number(env);
+  if (!Number.isInteger(v) || v < 8) throw new OptionError(`invalid FASCICLE_WORKER_HEAP_MB: ${JSON.stringify(env)}; must be an integer >= 8 (MB)`);
+  return v;
+}
+
 function startSlot(): Slot | null {
   const file = workerFile();
   if (!file) return null;
+  if (!supervisor) {
+    try {
+      supervisor = new Worker(file, { workerData: { role: 'supervisor' } });
+    } catch {
+      return null;
+    }
+    supervisor.unref();
+    supervisor.on('error', () => { broken = true; });
+  }
+  // control: [0] job, [1] done, [2] ready, [3] short waits, [4] stopped, [5] why (1 out of memory, 2 exit, 3 crash), [6] exit code
   const control = new Int32Array(new SharedArrayBuffer(32));
   const { port1, port2 } = new MessageChannel();
-  let worker: Worker;
-  try {
-    worker = new Worker(file, { workerData: { control: control.buffer, port: port2 }, transferList: [port2] });
-  } catch {
+  const limit = heapLimitMb();
+  supervisor.postMessage({ start: { file, control: control.buffer, port: port2, fault, limit } }, [port2]);
+  // wait (up to 10 s) for the worker to say it is ready, or for the supervisor to say it stopped
+  const t0 = Date.now();
+  while (Atomics.load(control, 2) === 0 && Atomics.load(control, 4) === 0 && Date.now() - t0 < 10000) Atomics.wait(control, 2, 0, 100);
+  if (Atomics.load(control, 2) === 0) {
+    port1.close();
     return null;
   }
-  worker.unref();
-  worker.on('error', () => { broken = true; });
-  // wait (up to 10 s) for the worker to say it is ready
-  if (Atomics.wait(control, 2, 0, 10000) === 'timed-out' && Atomics.load(control, 2) === 0) {
-    void worker.terminate();
-    return null;
-  }
-  return { worker, control, port: port1, seq: 0 };
+  return { control, port: port1, seq: 0, id: nextId++ };
+}
+
+/** Why a slot's thread stopped, in words. */
+function stopReason(c: Int32Array): string {
+  const why = Atomics.load(c, 5);
+  return why === 1 ? 'ran out of memory' : why === 3 ? 'crashed' : `exited (code ${Atomics.load(c, 6)})`;
 }
 
 /** True when every typed array in args (and in its plain-object fields) is on shared memory. */
@@ -162,6 +198,8 @@ export function runSweeps<K extends KernelName>(kernel: K, args: Parameters<(typ
   const run = kernels[kernel] as (a: unknown, s0: number, s1: number) => number;
   const T = Math.min(threads(), nSweeps);
   if (T < 2 || work < PARALLEL_MIN_SAMPLES || !sharedArgs(args)) return [run(args, 0, nSweeps)];
+  // threads that stopped between calls are replaced
+  for (let k = slots.length - 1; k >= 0; k--) if (Atomics.load(slots[k].control, 4) === 1) { slots[k].port.close(); slots.splice(k, 1); }
   while (slots.length < T - 1) {
     const s = startSlot();
     if (!s) { broken = true; return [run(args, 0, nSweeps)]; }
@@ -169,7 +207,6 @@ export function runSweeps<K extends KernelName>(kernel: K, args: Parameters<(typ
   }
   const bounds = Array.from({ length: T + 1 }, (_, k) => Math.round((k * nSweeps) / T));
   const used = slots.slice(0, T - 1);
-  if (used.some((slot) => Atomics.load(slot.control, 4) === 1)) { broken = true; return [run(args, 0, nSweeps)]; }
   used.forEach((slot, j) => {
     slot.port.postMessage({ kernel, args, s0: bounds[j + 1], s1: bounds[j + 2] });
     slot.seq = (slot.seq + 1) | 0;
@@ -184,22 +221,36 @@ export function runSweeps<K extends KernelName>(kernel: K, args: Parameters<(typ
   } catch (e) {
     failure = e as Error;
   }
+  const dead: Slot[] = [];
   used.forEach((slot, j) => {
     let v: number;
     while ((v = Atomics.load(slot.control, 1)) !== slot.seq) {
       if (Atomics.load(slot.control, 4) === 1) {
-        broken = true;
-        if (!failure) failure = new Error('a worker thread stopped during a job; per-sweep work now stays on the calling thread');
+        dead.push(slot);
+        if (!failure) failure = new ThreadError(`a worker thread ${stopReason(slot.control)} while running "${kernel}" on sweeps ${bounds[j + 1]}-${bounds[j + 2] - 1}; the call was abandoned (FASCICLE_THREADS=1 keeps the work on the calling thread)`);
         return;
       }
       Atomics.wait(slot.control, 1, v, 1000);
     }
     let reply = receiveMessageOnPort(slot.port);
-    while (!reply) { Atomics.wait(slot.control, 3, 0, 1); reply = receiveMessageOnPort(slot.port); }
+    while (!reply) {
+      if (Atomics.load(slot.control, 4) === 1 && !(reply = receiveMessageOnPort(slot.port))) {
+        dead.push(slot);
+        if (!failure) failure = new ThreadError(`a worker thread ${stopReason(slot.control)} before replying; the call was abandoned`);
+        return;
+      }
+      if (!reply) { Atomics.wait(slot.control, 3, 0, 1); reply = receiveMessageOnPort(slot.port); }
+    }
     const m = reply.message as { value?: number; error?: string };
     if (m.error !== undefined && !failure) failure = new Error(`worker thread: ${m.error}`);
     results[j + 1] = m.value ?? -1;
   });
+  // a stopped thread is dropped (a new one starts when next needed)
+  for (const d of dead) {
+    const k = slots.indexOf(d);
+    if (k >= 0) slots.splice(k, 1);
+    d.port.close();
+  }
   if (failure) throw failure;
   return results;
 }

@@ -7,7 +7,8 @@ import { mkdtempSync, writeFileSync, appendFileSync, readFileSync } from 'node:f
 import { createHash } from 'node:crypto';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
-import { SweepSet, readBinary, readDelimited, setThreads, stopThreads, threads, workerJobs, InputError, writeWide } from '../../src';
+import { SweepSet, readBinary, readDelimited, setThreads, stopThreads, threads, workerJobs, InputError, ThreadError, writeWide } from '../../src';
+import { setWorkerFault } from '../../src/parallel/pool';
 
 const dir = mkdtempSync(join(tmpdir(), 'fascicle-pool-'));
 const S = 48, N = 16000, fs = 50000; // 768,000 samples: above the threading threshold
@@ -169,4 +170,47 @@ describe('loading large files', () => {
     appendFileSync(join(dir, 'big.csv'), '\n');
     expect(() => csv.sources[0].sha256).toThrow(/big\.csv.*changed after it was loaded/s);
   });
+});
+
+describe('a worker thread that dies never hangs the caller', () => {
+  // a thread that runs out of memory cannot run its own exit handler; the supervisor
+  // thread sees its exit and wakes the caller. The fault hook makes the next threads fail
+  // in their first job by really exhausting a small heap (FASCICLE_WORKER_HEAP_MB) or exiting.
+  afterEach(async () => {
+    setWorkerFault(null);
+    delete process.env.FASCICLE_WORKER_HEAP_MB;
+    await stopThreads();
+  });
+  it('out of memory during a verb: a ThreadError saying so; later calls start a new thread and give the right bits', async () => {
+    const set = synthetic();
+    setThreads(1);
+    const one = set.lowpass(5000).data;
+    setThreads(2);
+    await stopThreads();
+    process.env.FASCICLE_WORKER_HEAP_MB = '16';
+    setWorkerFault('oom');
+    expect(() => set.lowpass(5000).data).toThrow(ThreadError);
+    expect(() => set.lowpass(5000).data).toThrow(/a worker thread ran out of memory while running/);
+    setWorkerFault(null);
+    const before = workerJobs();
+    expect(same(set.lowpass(5000).data, one)).toBe(true);
+    expect(workerJobs()).toBeGreaterThan(before);
+  }, 60_000);
+  it('a thread that exits during the first job of a load is a ThreadError, not an unreadable file', async () => {
+    const p = join(dir, 'fault.bin');
+    const x = new Float32Array(S * N);
+    for (let i = 0; i < x.length; i++) x[i] = Math.sin(i * 0.001);
+    writeFileSync(p, new Uint8Array(x.buffer));
+    writeFileSync(join(dir, 'fault.json'), JSON.stringify({ data: 'fault.bin', dtype: 'float32', nSweeps: S, nSamples: N, fs, units: 'uV' }));
+    setThreads(2);
+    await stopThreads();
+    setWorkerFault('exit');
+    let err: unknown;
+    try { readBinary(join(dir, 'fault.json')); } catch (e) { err = e; }
+    expect(err).toBeInstanceOf(ThreadError);
+    expect(err).not.toBeInstanceOf(InputError);
+    expect((err as Error).message).toMatch(/a worker thread exited \(code 70\) while running "load"/);
+    setWorkerFault(null);
+    expect(readBinary(join(dir, 'fault.json')).data[12345]).toBe(Math.fround(Math.sin(12345 * 0.001)));
+  }, 60_000);
 });
