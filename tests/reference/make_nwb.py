@@ -178,7 +178,7 @@ def continuous(expected):
     ])
     f.close()
     # what a reader must produce: value = counts * conversion * channel_conversion + offset (volts)
-    t0 = -50  # samples: window [-5, 30) ms from the trial table
+    t0 = -50  # samples: window [-5, 30] ms (both ends) from the trial table
     cut = {}
     for ch in range(3):
         volts = data[:, ch].astype(np.float64) * np.float64(np.float32(conversion)) * np.float64(np.float32(chconv[ch])) \
@@ -186,10 +186,10 @@ def continuous(expected):
         rows = []
         for s in stim:
             i0 = int(np.rint((s - t_start) * fs)) + t0
-            rows.append((volts[i0:i0 + 350] * 1000).tolist())  # mV
+            rows.append((volts[i0:i0 + 351] * 1000).tolist())  # mV, -5 to 30 ms inclusive
         cut[str(ch)] = rows
     expected["continuous"] = {
-        "fs": fs, "nSamples": 350, "t0Ms": -5.0, "stimulus_s": stim.tolist(),
+        "fs": fs, "nSamples": 351, "t0Ms": -5.0, "stimulus_s": stim.tolist(),
         "conversion": float(np.float32(conversion)), "offset": float(np.float32(offset)),
         "channel_conversion": chconv.tolist(), "distance_mm": dist_mm.tolist(), "locations": locations,
         "intensity": intensity.tolist(), "pulse_width_ms": (pulse_s * 1000).tolist(),

@@ -1,0 +1,196 @@
+/**
+ * The HDF5 library behind the NWB reader and writer (h5wasm: the HDF5 C library compiled to
+ * WebAssembly, reading and writing host files in place), and small helpers on top of it.
+ *
+ * The library loads asynchronously once (`await nwbReady()`); after that every call is
+ * synchronous. readNwb / writeNwb load it themselves; the synchronous forms (readNwbSync, used
+ * by the manifest reader) need it loaded first.
+ */
+import { existsSync, closeSync, readSync } from 'node:fs';
+import { join } from 'node:path';
+import { pathToFileURL } from 'node:url';
+import type * as H5 from 'h5wasm';
+import { InputError, OptionError } from '../errors';
+
+export type H5Lib = typeof H5;
+export type H5File = H5.File;
+export type H5Group = H5.Group;
+export type H5Dataset = H5.Dataset;
+
+let lib: H5Lib | null = null;
+let loading: Promise<H5Lib> | null = null;
+
+/** Where npm put h5wasm's Node build (its package exports only an ESM `import` entry). */
+function h5wasmFile(): string {
+  const dirs = require.resolve.paths('h5wasm') ?? [];
+  for (const d of dirs) {
+    const p = join(d, 'h5wasm', 'dist', 'node', 'hdf5_hl.js');
+    if (existsSync(p)) return p;
+  }
+  throw new OptionError('the HDF5 library (npm package h5wasm) is not installed; run `npm install` in the fascicle folder');
+}
+
+/**
+ * Import an ES module from CommonJS. TypeScript's CommonJS output turns `import()` into
+ * `require()`, which cannot load h5wasm (an ES module with top-level await), so the import is
+ * made at run time; under a module runner without that hook (vitest) its own `import()` is used.
+ */
+async function importEsm(url: string): Promise<Record<string, unknown>> {
+  try {
+    return await (new Function('u', 'return import(u)') as (u: string) => Promise<Record<string, unknown>>)(url);
+  } catch (e) {
+    if (!/dynamic import callback/i.test(String((e as Error)?.message))) throw e;
+    return await import(/* @vite-ignore */ url);
+  }
+}
+
+/** Load the HDF5 library (once). Resolves when NWB files can be read and written synchronously. */
+export async function nwbReady(): Promise<void> {
+  if (lib) return;
+  loading ??= (async () => {
+    const m = await importEsm(pathToFileURL(h5wasmFile()).href);
+    const h5 = (m.default ?? m) as H5Lib;
+    await h5.ready;
+    lib = h5;
+    return h5;
+  })();
+  try {
+    await loading;
+  } catch (e) {
+    loading = null;
+    throw e;
+  }
+}
+
+/** The loaded library. @throws OptionError when nwbReady() has not finished. */
+export function h5(): H5Lib {
+  if (!lib) {
+    throw new OptionError('the HDF5 library is not loaded yet: call `await nwbReady()` once before the synchronous NWB '
+      + 'functions (readNwbSync, writeNwbSync, readManifest with NWB files), or use readNwb / writeNwb, which load it');
+  }
+  return lib;
+}
+
+const SIGNATURE = [0x89, 0x48, 0x44, 0x46, 0x0d, 0x0a, 0x1a, 0x0a];
+
+/**
+ * Check the HDF5 superblock before the library opens the file: that the file is HDF5 at all
+ * and that it is as long as its superblock says (a truncated copy would otherwise fail deep
+ * inside the library). This reads the first bytes only; it is not a parser of the format.
+ * @throws InputError naming the file.
+ */
+export function checkHdf5(path: string, fd: number, size: number): void {
+  const head = new Uint8Array(96);
+  for (let base = 0; base === 0 || base + 8 <= size; base = base === 0 ? 512 : base * 2) {
+    const n = readSync(fd, head, 0, head.length, base);
+    if (n < 8) break;
+    if (!SIGNATURE.every((b, i) => head[i] === b)) continue;
+    const version = head[8];
+    const dv = new DataView(head.buffer, 0, n);
+    const O = version <= 1 ? head[13] : head[9];
+    if (O !== 8 && O !== 4) return; // unusual offset size: let the library judge
+    const eofAt = version === 0 ? 24 + 2 * O : version === 1 ? 28 + 2 * O : 12 + 2 * O;
+    const baseAt = version === 0 ? 24 : version === 1 ? 28 : 12;
+    if (n < eofAt + O) return;
+    const read = (at: number) => (O === 8 ? Number(dv.getBigUint64(at, true)) : dv.getUint32(at, true));
+    const baseAddr = read(baseAt);
+    const eof = read(eofAt);
+    const end = (baseAddr === 0 ? base : baseAddr) + eof;
+    if (size < end) {
+      throw new InputError({ file: path }, `the file is truncated: it has ${size} bytes but its HDF5 superblock says ${end}`,
+        'the complete file (copy it again)');
+    }
+    return;
+  }
+  throw new InputError({ file: path }, 'this is not an HDF5 file (no HDF5 signature at the start)',
+    'an NWB 2.x file, which is HDF5');
+}
+
+/** Open an HDF5 file read-only after checkHdf5. @throws InputError when the library cannot open it. */
+export function openHdf5(path: string, fd: number, size: number): H5File {
+  checkHdf5(path, fd, size);
+  closeSync(fd);
+  const f = new (h5().File)(path, 'r');
+  if (typeof f.file_id === 'bigint' && f.file_id < 0n) {
+    throw new InputError({ file: path }, 'the HDF5 library could not open the file (see its messages above)',
+      'a readable, undamaged HDF5 file');
+  }
+  return f;
+}
+
+/** The object at an absolute path, or null (walks the names, so a missing name is no library error). */
+export function at(f: H5File, path: string): H5Group | H5Dataset | null {
+  const parts = path.split('/').filter(Boolean);
+  let cur: H5Group | H5Dataset = f;
+  for (const p of parts) {
+    if (!(cur instanceof h5().Group) || !(cur as H5Group).keys().includes(p)) return null;
+    const next = (cur as H5Group).get(p);
+    if (!next || !(next instanceof h5().Group || next instanceof h5().Dataset)) return null;
+    cur = next;
+  }
+  return cur;
+}
+
+export function isGroup(x: unknown): x is H5Group {
+  return !!lib && x instanceof lib.Group;
+}
+
+export function isDataset(x: unknown): x is H5Dataset {
+  return !!lib && x instanceof lib.Dataset;
+}
+
+/** An attribute's value (a one-element array becomes its element), or undefined. */
+export function attr(obj: H5Group | H5Dataset, name: string): unknown {
+  const a = obj.attrs[name];
+  if (!a) return undefined;
+  const v = a.value as unknown;
+  if (Array.isArray(v) && v.length === 1) return v[0];
+  if (ArrayBuffer.isView(v) && !(v instanceof DataView) && (v as unknown as ArrayLike<unknown>).length === 1) {
+    const x = (v as unknown as ArrayLike<unknown>)[0];
+    return typeof x === 'bigint' ? Number(x) : x;
+  }
+  return typeof v === 'bigint' ? Number(v) : v;
+}
+
+/** The attribute as text, or undefined. */
+export function attrText(obj: H5Group | H5Dataset, name: string): string | undefined {
+  const v = attr(obj, name);
+  return typeof v === 'string' ? v : undefined;
+}
+
+/** The attribute as a number (float32 attributes as stored), or undefined. */
+export function attrNumber(obj: H5Group | H5Dataset, name: string): number | undefined {
+  const v = attr(obj, name);
+  return typeof v === 'number' ? v : undefined;
+}
+
+/** neurodata_type of a group or dataset (NWB core or hdmf-common), or undefined. */
+export function typeOf(obj: H5Group | H5Dataset): string | undefined {
+  return attrText(obj, 'neurodata_type');
+}
+
+/** Numbers of a 1-D dataset (all or [i0, i1)), int64 as Number. */
+export function numbers(d: H5Dataset, range?: [number, number]): Float64Array | Int32Array | Float32Array | number[] {
+  const v = (range ? d.slice([range]) : d.value) as unknown;
+  if (v instanceof BigInt64Array || v instanceof BigUint64Array) return Array.from(v as ArrayLike<bigint>, Number);
+  if (ArrayBuffer.isView(v)) return v as unknown as Float64Array;
+  if (typeof v === 'number') return [v];
+  if (typeof v === 'bigint') return [Number(v)];
+  throw new Error(`not numeric (${typeof v})`);
+}
+
+/** Text of a scalar or 1-D string dataset. */
+export function texts(d: H5Dataset): string[] {
+  const v = d.value as unknown;
+  if (typeof v === 'string') return [v];
+  if (Array.isArray(v) && v.every((x) => typeof x === 'string')) return v as string[];
+  throw new Error('not text');
+}
+
+/** Kind of a dataset's element type: 'int', 'float', 'string', 'reference', 'compound' or 'other'. */
+export function elementKind(d: H5Dataset): 'int' | 'float' | 'string' | 'reference' | 'compound' | 'other' {
+  const m = d.metadata as { type: number; compound_type?: unknown };
+  // HDF5 type classes: 0 integer, 1 float, 3 string, 6 compound, 7 reference, 8 enum (h5py's booleans)
+  return m.type === 0 || m.type === 8 ? 'int' : m.type === 1 ? 'float' : m.type === 3 ? 'string' : m.type === 7 ? 'reference'
+    : m.type === 6 ? 'compound' : 'other';
+}
