@@ -1,0 +1,178 @@
+import { describe, it, expect } from 'vitest';
+import { SweepSet, OptionError } from '../../src';
+import { sweepQc, rejectFlagged, sweepQcDefaults, sweepQcMethods, detrendedMadNoise, differenceNoise, railSamples, SweepQcResult } from '../../src/analysis/sweepQc';
+import { Rng } from '../../src/model/random';
+import { loadSeries, truth } from './devsetQc';
+
+const median = (v: number[]) => { const s = [...v].sort((a, b) => a - b); const m = s.length; return m % 2 ? s[(m - 1) / 2] : (s[m / 2 - 1] + s[m / 2]) / 2; };
+
+describe('noise, difference noise and rail kernels', () => {
+  it('detrendedMadNoise(x, a, b) ignores a straight line and one wild sample', () => {
+    // residuals about the line 0..3 are 0 and one outlier: MAD 0 (hand computation)
+    expect(detrendedMadNoise(Float64Array.of(0, 1, 2, 3, 4, 5, 6, 1000), 0, 6)).toBeCloseTo(0, 12);
+    // 1.4826 MAD of Gaussian noise estimates its SD (Rousseeuw & Croux 1993): seeded, within 5% for 20000 samples
+    const r = new Rng(7), x = Float64Array.from({ length: 20000 }, (_, i) => 3 * r.normal() + 0.01 * i);
+    expect(detrendedMadNoise(x, 0, x.length - 1) / 3).toBeGreaterThan(0.95);
+    expect(detrendedMadNoise(x, 0, x.length - 1) / 3).toBeLessThan(1.05);
+  });
+  it('differenceNoise(x, a, b) = 1.4826 MAD(diff)/sqrt 2, blind to slow hum', () => {
+    // diffs +1,-1,+1,-1: median 0, |dev| 1 -> 1.4826 / sqrt 2 (hand computation)
+    expect(differenceNoise(Float64Array.of(0, 1, 0, 1, 0), 0, 4)).toBeCloseTo(1.4826 / Math.SQRT2, 12);
+    const r = new Rng(3), fs = 50000;
+    const x = Float64Array.from({ length: 5000 }, (_, i) => 2 * r.normal() + 20 * Math.sin((2 * Math.PI * 50 * i) / fs));
+    expect(differenceNoise(x, 0, 4999) / 2).toBeGreaterThan(0.95);
+    expect(differenceNoise(x, 0, 4999) / 2).toBeLessThan(1.05);
+  });
+  it('railSamples(x, minRun) finds rails by runs of identical extremes; a constant sweep has none', () => {
+    expect(railSamples(Float64Array.of(0, 5, 5, 5, 1, -2), 3)).toEqual({ high: 5, low: null, clipped: [1, 2, 3] });
+    expect(railSamples(Float64Array.of(0, 5, 5, 1, -2, -2, -2, 5), 3)).toEqual({ high: null, low: -2, clipped: [4, 5, 6] });
+    expect(railSamples(Float64Array.of(0, 5, 5, 1, 5, 5, 5), 3).clipped).toEqual([1, 2, 4, 5, 6]);
+    expect(railSamples(new Float64Array(5), 3)).toEqual({ high: null, low: null, clipped: [] });
+  });
+});
+
+describe('sweepQc(set) on the development set (FNPG-N07, tests/fixtures/devset-qc)', () => {
+  const T = truth();
+  for (const s of ['recruitment_fast', 'temperature_fast']) {
+    it(`${s}: noise and clipped fraction against the truth`, () => {
+      const set = loadSeries(s);
+      const q = sweepQc(set);
+      const white = T.series[s].white_rms_V_t_gt_1ms, hum = T.series[s].hum_rms_V_t_gt_1ms;
+      const hf = median(q.rows.map((r) => r.noise_hf_V as number));
+      const nz = median(q.rows.map((r) => r.noise_V as number));
+      // truth: realised white-noise rms (ground_truth.json nuisances, t > 1 ms); the difference estimate within 5%
+      expect(Math.abs(hf / white - 1)).toBeLessThan(0.05);
+      // broadband noise of the 2 ms quiet window holds white noise and part of the hum: between the two
+      expect(nz).toBeGreaterThan(0.9 * white);
+      expect(nz).toBeLessThan(1.1 * Math.hypot(white, hum));
+      // clipped-sample fraction of the series (truth: nuisances.variance_by_series[s].clipped_samples_fraction)
+      const clipped = q.rows.reduce((a, r) => a + (r.clipped_fraction as number) * set.nSamples, 0);
+      expect(clipped / (set.nSweeps * set.nSamples)).toBeCloseTo(T.series[s].clipped_samples_fraction, 12);
+      // the rails are the amplifier's +-10 mV (truth: nuisances.parameters.rail_mV); all inside the artifact window
+      for (const r of q.rows.filter((r) => (r.clipped_fraction as number) > 0)) {
+        expect([r.rail_high_V, r.rail_low_V].filter((v) => v !== null).map((v) => Math.abs(v as number))).toContain(T.parameters.rail_mV / 1000);
+        expect(r.clipped_outside_artifact).toBe(0);
+      }
+      expect(q.rows.some((r) => String(r.flags).includes('saturated'))).toBe(false);
+    });
+  }
+  it('temperature_slow (first rows, -10 to 2 ms; all rail samples of the series lie there): noise and clipped fraction', () => {
+    const set = loadSeries('temperature_slow', 'temperature_slow_head.csv');
+    const q = sweepQc(set);
+    const hf = median(q.rows.map((r) => r.noise_hf_V as number));
+    expect(Math.abs(hf / T.series.temperature_slow.white_rms_V_t_gt_1ms - 1)).toBeLessThan(0.05);
+    const clipped = q.rows.reduce((a, r) => a + (r.clipped_fraction as number) * set.nSamples, 0);
+    // the full series has 3000 samples per sweep (sidecar n_samples); truth fraction 0.002
+    expect(clipped / (set.nSweeps * 3000)).toBeCloseTo(T.series.temperature_slow.clipped_samples_fraction, 12);
+  });
+  it('flags few clean sweeps: false-positive rate at most 2% over 128 clean sweeps', () => {
+    const flagged = ['recruitment_fast', 'temperature_fast'].map((s) => sweepQc(loadSeries(s)).flagged().length);
+    const rate = (flagged[0] + flagged[1]) / 128;
+    console.log(`sweepQc false-positive rate on clean devset sweeps: ${flagged[0] + flagged[1]}/128 = ${(100 * rate).toFixed(1)}%`);
+    expect(rate).toBeLessThanOrEqual(0.02);
+  });
+});
+
+describe('sweepQc(set) flags injected bad sweeps and spares their neighbours', () => {
+  const set = loadSeries('recruitment_fast');
+  const n = set.nSamples;
+  const idx = (intensity: number, channel: number, repeat: number) => set.conditions.findIndex((c) => c.intensity === intensity && c.channel === channel && c.repeat === repeat);
+  const levels = [...new Set(set.conditions.map((c) => c.intensity as number))].sort((a, b) => a - b);
+  const top = levels[levels.length - 1], mid = levels[8];
+  const data = Float64Array.from(set.data);
+  const at = (ms: number) => set.indexAt(ms);
+  const rng = new Rng(11);
+  const bad: Record<string, [number, string]> = {
+    spike: [idx(top, 1, 1), 'outlier'],
+    flat: [idx(mid, 1, 2), 'flat'],
+    doubled: [idx(top, 2, 0), 'outlier'],
+    clippedResponse: [idx(mid, 2, 3), 'saturated'],
+    noisy: [idx(levels[3], 1, 0), 'noisy'],
+    drift: [idx(levels[5], 2, 1), 'drift'],
+  };
+  const sw = (k: string) => data.subarray(bad[k][0] * n, (bad[k][0] + 1) * n);
+  sw('spike')[at(8)] += 1e-3; // a 1 mV one-sample glitch at 8 ms
+  sw('flat').fill(0); // disconnected input
+  { const x = sw('doubled'); const lv = median(Array.from(x.subarray(0, at(-0.1)))); for (let i = at(0.5); i < n; i++) x[i] = lv + 2 * (x[i] - lv); }
+  { const x = sw('clippedResponse'); let mx = 0; for (let i = at(0.5); i < n; i++) mx = Math.max(mx, x[i]); const rail = 0.6 * mx; for (let i = 0; i < n; i++) x[i] = Math.min(x[i], rail); }
+  { const x = sw('noisy'); for (let i = 0; i < n; i++) x[i] += 75e-6 * rng.normal(); }
+  { const x = sw('drift'); for (let i = 0; i < n; i++) x[i] += 1e-3 * (i / n); }
+  const dirty = set.create({ data });
+  const q = sweepQc(dirty);
+  for (const [name, [s, flag]] of Object.entries(bad)) {
+    it(`${name} (sweep ${s}) is flagged ${flag}`, () => {
+      expect(q.rows[s].flagged).toBe(true);
+      expect(String(q.rows[s].flags).split(',')).toContain(flag);
+      expect(String(q.rows[s].reasons)).toMatch(new RegExp(`^${flag}:|; ${flag}:`));
+    });
+  }
+  it('clean sweeps of the conditions with an injected sweep are not flagged', () => {
+    const injected = new Set(Object.values(bad).map(([s]) => s));
+    const conds = new Set([...injected].map((s) => q.rows[s].condition));
+    const neighbours = q.rows.filter((r) => conds.has(r.condition) && !injected.has(r.sweep as number));
+    expect(neighbours.length).toBe(3 * injected.size);
+    expect(neighbours.filter((r) => r.flagged)).toEqual([]);
+  });
+  it('rejectFlagged(set, qc) removes them, records each with its reasons, and leaves the input alone', () => {
+    const before = Float64Array.from(dirty.data);
+    const out = rejectFlagged(dirty, q);
+    expect(out.nSweeps).toBe(dirty.nSweeps - q.flagged().length);
+    const step = out.history[out.history.length - 1];
+    expect(step.verb).toBe('rejectFlagged');
+    const removed = step.options.removed as { sweep: number; flags: string; reasons: string }[];
+    expect(removed.map((r) => r.sweep).sort((a, b) => a - b)).toEqual(q.flagged().map((r) => r.sweep));
+    for (const r of removed) expect(r.reasons.length).toBeGreaterThan(0);
+    expect(dirty.data).toEqual(before);
+    const id = (c: Record<string, unknown>) => `${c.fileSweep}/${c.channel}`;
+    expect(out.conditions.map(id)).not.toContain(id(dirty.conditions[bad.flat[0]]));
+    expect(out.conditions.map(id)).toContain(id(dirty.conditions[bad.flat[0] + 2]));
+    // only some flags
+    const onlyFlat = rejectFlagged(dirty, q, { flags: ['flat'] });
+    expect(onlyFlat.nSweeps).toBe(dirty.nSweeps - 1);
+    // the methods sentence counts exclusions per preparation with reasons
+    expect(sweepQcMethods(q, removed)).toMatch(new RegExp(`${removed.length} of 96 sweeps were excluded: ${removed.length} from FNPG-N07-RA \\(`));
+  });
+  it('rejectFlagged refuses a table made on another set and names unknown flags', () => {
+    expect(() => rejectFlagged(set.select([0, 1, 2]), q)).toThrow(/computed on 96 sweeps/);
+    expect(() => rejectFlagged(dirty, q, { flags: ['flatt' as 'flat'] })).toThrow(/did you mean "flat"/);
+    expect(() => rejectFlagged(dirty, {} as SweepQcResult)).toThrow(OptionError);
+  });
+});
+
+describe('sweepQc options and statuses', () => {
+  const small = () => {
+    const n = 200, fs = 10000;
+    const r = new Rng(5);
+    const conds = [0, 0, 1, 1, 1].map((k, i) => ({ preparation: 'P', intensity: k, repeat: i }));
+    const data = new Float64Array(conds.length * n);
+    conds.forEach((c, s) => { for (let i = 0; i < n; i++) { const t = -5 + (i * 1000) / fs; data[s * n + i] = r.normal() + (t > 2 && t < 6 ? 20 * c.intensity : 0); } });
+    return new SweepSet({ data, nSweeps: conds.length, nSamples: n, fs, t0Ms: -5, units: 'uV', conditions: conds });
+  };
+  it('documents its defaults (outlier threshold 3 after Leys et al. 2013; floor 1/3; 3 sweeps; rail runs of 3)', () => {
+    expect(sweepQcDefaults.outlierThreshold).toBe(3);
+    expect(sweepQcDefaults.outlierMinScale).toBeCloseTo(1 / 3, 15);
+    expect(sweepQcDefaults.minSweeps).toBe(3);
+    expect(sweepQcDefaults.railRun).toBe(3);
+    expect(sweepQcDefaults.artifactWindow).toEqual([-0.1, 0.5]);
+    expect([sweepQcDefaults.maxNoiseRatio, sweepQcDefaults.minNoiseRatio, sweepQcDefaults.maxDriftRatio, sweepQcDefaults.maxArtifactRatio]).toEqual([3, 0.1, 10, 3]);
+  });
+  it('a condition with fewer than 3 sweeps gets a status, not a score; units in column names', () => {
+    const q = sweepQc(small());
+    expect(q.rows[0].outlier_score).toBeNull();
+    expect(q.rows[0].outlier_status).toMatch(/not scored: 2 sweeps in its condition \(need 3\)/);
+    expect(typeof q.rows[2].outlier_score).toBe('number');
+    expect(q.rows[2].outlier_status).toBe('ok');
+    expect(Object.keys(q.rows[0])).toContain('noise_uV');
+    expect(q.tables().sweep_qc.length).toBe(5);
+    expect(q.history[q.history.length - 1].verb).toBe('sweepQc');
+  });
+  it('bad options are typed errors naming the option and the nearest name', () => {
+    expect(() => sweepQc(small(), { outlierTreshold: 2.5 } as never)).toThrow(/unknown key "outlierTreshold".*did you mean "outlierThreshold"/);
+    expect(() => sweepQc(small(), { by: ['intensty'] })).toThrow(/no sweep has the condition "intensty" \(did you mean "intensity"\?\)/);
+    expect(() => sweepQc(small(), { outlierThreshold: -1 })).toThrow(/invalid outlierThreshold: -1/);
+    expect(() => sweepQc(small(), { minSweeps: 2 })).toThrow(/invalid minSweeps/);
+    expect(() => sweepQc(small(), { quietWindow: [-5, -4.95] })).toThrow(/holds 1 samples \(need at least 8\)/);
+    const late = small().crop(0, 14);
+    expect(() => sweepQc(late)).toThrow(/no pre-stimulus window; give quietWindow/);
+  });
+});
