@@ -45,12 +45,17 @@ export interface DoseResponseOptions {
   seed?: number;
   /** classes to analyse (default: all) */
   classes?: string[];
+  /** one curve over all recording sites (distances) instead of one per site (default false) */
+  poolSites?: boolean;
+  /** fewest measured concentrations (above 0) a curve needs (default 4) */
+  minConcentrations?: number;
 }
-export const doseResponseDefaults = { lastN: 3, runDown: 'none' as const, fixBottom: null, bootstrap: 0, seed: 1 };
+export const doseResponseDefaults = { lastN: 3, runDown: 'none' as const, fixBottom: null, bootstrap: 0, seed: 1, poolSites: false, minConcentrations: 4 };
 
-export interface DosePoint { preparation: string; class: string; concentration: number; response: number; baseline: number; normalized: number; n: number }
+export interface DosePoint { preparation: string; class: string; distanceMm: number | null; concentration: number; response: number; baseline: number; normalized: number; n: number }
 
 type Row = Record<string, ConditionValue>;
+const num = (v: number): number | null => (Number.isFinite(v) ? v : null);
 
 function steady(rows: Row[], lastN: number): { value: number; n: number; time: number } {
   const sorted = [...rows].sort((a, b) => ((a.acquiredS as number) ?? (a.sweep as number)) - ((b.acquiredS as number) ?? (b.sweep as number)));
@@ -111,32 +116,45 @@ export function doseResponse(rows: readonly Row[], units: string, options: DoseR
   if (runDown !== 'none' && runDown !== 'washout' && runDown !== 'vehicle') throw new OptionError(`invalid runDown: ${JSON.stringify(runDown)}; must be "none", "washout" or "vehicle"`);
   const fixBottom = options.fixBottom === undefined ? doseResponseDefaults.fixBottom : options.fixBottom;
   const measure = options.measure ?? `amplitude_${units}`;
-  const use = rows.filter((r) => typeof r.concentration === 'number' && typeof r[measure] === 'number' && (!options.classes || options.classes.includes(r.class as string)));
-  if (!use.length) throw new AnalysisError(`dose-response needs rows with a numeric "concentration" condition and the measure "${measure}"`);
-  const concUnit = (use.find((r) => r.concentrationUnit)?.concentrationUnit as string) ?? '';
+  const poolSites = options.poolSites ?? doseResponseDefaults.poolSites;
+  const minConc = options.minConcentrations ?? doseResponseDefaults.minConcentrations;
+  if (!Number.isInteger(minConc) || minConc < 2) throw new OptionError(`invalid minConcentrations: ${minConc}; must be an integer >= 2`);
+  const withConc = rows.filter((r) => typeof r.concentration === 'number' && (!options.classes || options.classes.includes(r.class as string)));
+  if (!withConc.length) throw new AnalysisError('dose-response needs rows with a numeric "concentration" condition');
+  const negative = withConc.filter((r) => (r.concentration as number) < 0);
+  if (negative.length) throw new AnalysisError(`dose-response: ${negative.length} row(s) have a negative concentration (${[...new Set(negative.map((r) => r.concentration))].slice(0, 5).join(', ')}); a concentration is 0 (baseline, washout, vehicle) or above`);
+  if (!withConc.some((r) => (r.concentration as number) > 0)) throw new AnalysisError(`dose-response: all ${withConc.length} rows have concentration 0 (baseline only); a curve needs sweeps at concentrations above 0`);
+  // only what was measured: rows detected (and resolved) with a number in the measure
+  const isMeasured = (r: Row) => r.detected !== false && (r.status === undefined || r.status === null || r.status === 'measured') && typeof r[measure] === 'number' && Number.isFinite(r[measure] as number);
+  const siteOf = (r: Row): number | null => (poolSites ? null : ((r.distanceMm ?? r.distance_mm ?? null) as number | null));
+  const concUnit = (withConc.find((r) => r.concentrationUnit)?.concentrationUnit as string) ?? '';
   const groups = new Map<string, Row[]>();
-  for (const r of use) {
-    const id = `${r.preparation ?? ''}|${r.class}`;
+  for (const r of withConc) {
+    const id = `${r.preparation ?? ''}|${siteOf(r) ?? ''}|${r.class}`;
     const g = groups.get(id);
-    const rr = { ...r, __value: r[measure] };
+    const rr = { ...r, __value: isMeasured(r) ? r[measure] : null, __site: siteOf(r) };
     if (g) g.push(rr); else groups.set(id, [rr]);
   }
+  const ok = (g: Row[]) => g.filter((r) => r.__value !== null);
   const points: DosePoint[] = [];
+  const perPreparation: Row[] = [];
   const isVehicle = (r: Row) => r.epoch === 'vehicle';
   // run-down rate per class from the vehicle controls: fraction of baseline = 1 + k (t - tBaseline)
   const rate = new Map<string, { k: number; preparations: number; sweeps: number }>();
   if (runDown === 'vehicle') {
     const acc = new Map<string, { sxy: number; sxx: number; preps: Set<string>; n: number }>();
-    for (const g of groups.values()) {
+    for (const g0 of groups.values()) {
+      const g = ok(g0);
       const veh = g.filter(isVehicle);
       if (!veh.length) continue;
       const where = `preparation ${g[0].preparation}, class ${g[0].class}`;
       if (g.some((r) => typeof r.acquiredS !== 'number')) throw new AnalysisError(`${where}: runDown "vehicle" needs the condition "acquiredS" (time of each sweep, s) on every sweep`);
       const base = g.filter((r) => r.concentration === 0 && !isVehicle(r) && r.epoch !== 'washout');
-      if (!base.length) throw new AnalysisError(`${where}: the vehicle control has no baseline sweeps (concentration 0 before the vehicle)`);
+      if (!base.length) throw new AnalysisError(`${where}: the vehicle control has no measured baseline sweeps (concentration 0 before the vehicle)`);
       const B = steady(base, lastN);
       if (!(Math.abs(B.value) > 0)) throw new AnalysisError(`${where}: the vehicle control's baseline response is zero`);
-      const a = acc.get(String(g[0].class)) ?? { sxy: 0, sxx: 0, preps: new Set<string>(), n: 0 };
+      const key = `${g[0].class}|${g[0].__site ?? ''}`;
+      const a = acc.get(key) ?? { sxy: 0, sxx: 0, preps: new Set<string>(), n: 0 };
       for (const r of veh) {
         const dt = (r.acquiredS as number) - B.time;
         a.sxy += dt * ((r.__value as number) / B.value - 1);
@@ -144,74 +162,103 @@ export function doseResponse(rows: readonly Row[], units: string, options: DoseR
         a.n++;
       }
       a.preps.add(String(g[0].preparation ?? ''));
-      acc.set(String(g[0].class), a);
+      acc.set(key, a);
     }
     for (const [cls, a] of acc) if (a.sxx > 0) rate.set(cls, { k: a.sxy / a.sxx, preparations: a.preps.size, sweeps: a.n });
   }
-  for (const g of groups.values()) {
-    if (g.some(isVehicle)) continue; // a vehicle control gives no dose points
+  // per curve (class and site): how many rows were left out, and why a curve was refused
+  const excluded = new Map<string, number>();
+  const refused = new Map<string, string[]>();
+  const curveOf = (cls: string, site: number | null) => `${cls}|${site ?? ''}`;
+  for (const g0 of groups.values()) {
+    if (g0.some(isVehicle)) continue; // a vehicle control gives no dose points
+    const cls = String(g0[0].class), site = g0[0].__site as number | null, prep = String(g0[0].preparation ?? '');
+    const cid = curveOf(cls, site);
+    const left = g0.length - ok(g0).length;
+    excluded.set(cid, (excluded.get(cid) ?? 0) + left);
+    const g = ok(g0);
+    const where = `preparation ${prep}, class ${cls}${site !== null ? `, ${site} mm` : ''}`;
+    const refuse = (why: string) => {
+      perPreparation.push({ class: cls, distanceMm: site, preparation: prep, ic50: null, hill: null, bottom: null, points: 0, excluded_not_measured: left, concentrationUnit: concUnit, status: 'not detected', reason: why });
+      (refused.get(cid) ?? refused.set(cid, []).get(cid)!).push(`${prep}: ${why}`);
+    };
     const isWash = (r: Row) => r.epoch === 'washout';
+    const base0 = g0.filter((r) => r.concentration === 0 && !isWash(r));
+    if (!base0.length) throw new AnalysisError(`${where}: no pre-drug baseline sweeps (concentration 0)`);
     const base = g.filter((r) => r.concentration === 0 && !isWash(r));
-    if (!base.length) throw new AnalysisError(`preparation ${g[0].preparation}, class ${g[0].class}: no pre-drug baseline sweeps (concentration 0)`);
+    if (!base.length) { refuse(`the baseline was not measured in any of its ${base0.length} sweeps (not detected or not resolved)`); continue; }
     const B = steady(base, lastN);
     const wash = g.filter(isWash);
     const W = wash.length ? steady(wash, lastN) : null;
-    if (runDown === 'washout' && !W) throw new AnalysisError(`preparation ${g[0].preparation}: runDown "washout" needs sweeps with epoch "washout"`);
-    const vr = runDown === 'vehicle' ? rate.get(String(g[0].class)) : undefined;
+    if (runDown === 'washout' && !W) throw new AnalysisError(`${where}: runDown "washout" needs measured sweeps with epoch "washout"`);
+    const vr = runDown === 'vehicle' ? rate.get(`${cls}|${site ?? ''}`) : undefined;
     if (runDown === 'vehicle') {
-      if (!vr) throw new AnalysisError(`class ${g[0].class}: runDown "vehicle" needs time-matched vehicle sweeps (epoch "vehicle", with acquiredS) of this class`);
-      if (g.some((r) => typeof r.acquiredS !== 'number')) throw new AnalysisError(`preparation ${g[0].preparation}: runDown "vehicle" needs the condition "acquiredS" on every sweep`);
+      if (!vr) throw new AnalysisError(`class ${cls}: runDown "vehicle" needs time-matched vehicle sweeps (epoch "vehicle", with acquiredS) of this class`);
+      if (g.some((r) => typeof r.acquiredS !== 'number')) throw new AnalysisError(`preparation ${prep}: runDown "vehicle" needs the condition "acquiredS" on every sweep`);
     }
     const concs = [...new Set(g.filter((r) => (r.concentration as number) > 0 && !isWash(r)).map((r) => r.concentration as number))].sort((a, b) => a - b);
+    const tested = [...new Set(g0.filter((r) => (r.concentration as number) > 0 && !isWash(r)).map((r) => r.concentration as number))];
+    if (concs.length < minConc) { refuse(`measured at ${concs.length} of ${tested.length} concentrations above 0 (${left} of ${g0.length} sweeps not measured); a curve needs ${minConc}`); continue; }
     for (const c of concs) {
       const S = steady(g.filter((r) => r.concentration === c && !isWash(r)), lastN);
       let control = B.value;
       if (runDown === 'washout' && W && W.time !== B.time) control = B.value + ((W.value - B.value) * (S.time - B.time)) / (W.time - B.time);
       if (vr) control = B.value * (1 + vr.k * (S.time - B.time));
-      if (!(Math.abs(control) > 0)) throw new AnalysisError(`preparation ${g[0].preparation}, class ${g[0].class}: baseline response is zero`);
-      points.push({ preparation: String(g[0].preparation ?? ''), class: String(g[0].class), concentration: c, response: S.value, baseline: control, normalized: S.value / control, n: S.n });
+      if (!(Math.abs(control) > 0)) throw new AnalysisError(`${where}: baseline response is zero`);
+      points.push({ preparation: prep, class: cls, distanceMm: site, concentration: c, response: S.value, baseline: control, normalized: S.value / control, n: S.n });
     }
   }
-  const classes = [...new Set(points.map((p) => p.class))];
-  const perPreparation: Row[] = [];
+  const curves = [...new Set([...groups.values()].filter((g) => !g.some(isVehicle)).map((g) => curveOf(String(g[0].class), g[0].__site as number | null)))];
   const summary: Row[] = [];
   const fits = new Map<string, FitResult>();
-  const tested = (cls: string) => {
-    const c = points.filter((p) => p.class === cls).map((p) => p.concentration);
-    return [Math.min(...c), Math.max(...c)];
-  };
-  for (const cls of classes) {
-    const [cmin, cmax] = tested(cls);
-    const preps = [...new Set(points.filter((p) => p.class === cls).map((p) => p.preparation))];
+  const bottoms = new Map<string, number | null>();
+  const siteLabel = (site: string) => (site === '' ? '' : `|${site}`);
+  for (const cid of curves) {
+    const [cls, siteS] = cid.split('|');
+    const site = siteS === '' ? null : Number(siteS);
+    const mine = points.filter((p) => p.class === cls && (p.distanceMm ?? null) === site);
+    const left = excluded.get(cid) ?? 0;
+    const head = { class: cls, ...(poolSites ? {} : { distanceMm: site }) };
+    if (!mine.length) {
+      summary.push({ ...head, preparations: 0, concentrationUnit: concUnit, ic50: null, hill: null, excluded_not_measured: left, status: 'not detected', reason: (refused.get(cid) ?? ['no points']).join('; ') });
+      continue;
+    }
+    const cs = mine.map((p) => p.concentration);
+    const cmin = Math.min(...cs), cmax = Math.max(...cs);
+    // a class not measured at the highest concentrations has lost its response below detection there
+    const testedMax = Math.max(...withConc.filter((r) => r.class === cls && (siteOf(r) ?? null) === site).map((r) => r.concentration as number));
+    const bottomFix = fixBottom !== null ? fixBottom : cmax < testedMax ? 0 : null;
+    bottoms.set(cid, bottomFix);
+    const preps = [...new Set(mine.map((p) => p.preparation))];
     const logIc: number[] = [];
     const hills: number[] = [];
     for (const prep of preps) {
-      const pp = points.filter((p) => p.class === cls && p.preparation === prep);
-      const f = fitHill(pp.map((p) => p.concentration), pp.map((p) => p.normalized), fixBottom);
+      const pp = mine.filter((p) => p.preparation === prep);
+      const f = fitHill(pp.map((p) => p.concentration), pp.map((p) => p.normalized), bottomFix);
       const ic = Math.exp(f.params[3]);
-      const st = [...f.status.filter((s) => s !== 'ok')];
+      const st = [...f.status.filter((q) => q !== 'ok')];
       if (ic < cmin || ic > cmax) st.push(`IC50 outside the tested range ${cmin}-${cmax} ${concUnit}`);
-      fits.set(`${cls}|${prep}`, f);
-      perPreparation.push({ class: cls, preparation: prep, ic50: ic, hill: f.params[0], bottom: f.params[1], points: pp.length, concentrationUnit: concUnit, status: st.length ? st.join('; ') : 'ok' });
+      fits.set(`${cls}${siteLabel(siteS)}|${prep}`, f);
+      perPreparation.push({ class: cls, ...(poolSites ? {} : { distanceMm: site }), preparation: prep, ic50: ic, hill: f.params[0], bottom: f.params[1], points: pp.length, concentrationUnit: concUnit, status: st.length ? st.join('; ') : 'ok', reason: null });
       if (Number.isFinite(ic)) { logIc.push(Math.log10(ic)); hills.push(f.params[0]); }
     }
     const s = summarize(logIc);
     const h = summarize(hills);
-    const all = points.filter((p) => p.class === cls);
-    const pooled = fitHill(all.map((p) => p.concentration), all.map((p) => p.normalized), fixBottom);
-    fits.set(`${cls}|pooled`, pooled);
+    const pooled = fitHill(mine.map((p) => p.concentration), mine.map((p) => p.normalized), bottomFix);
+    fits.set(`${cls}${siteLabel(siteS)}|pooled`, pooled);
+    if (!fits.has(`${cls}|pooled`)) fits.set(`${cls}|pooled`, pooled);
     const [plo, phi] = profileCI(pooled, 3);
     let boot: [number, number] | [null, null] = [null, null];
     if (options.bootstrap && options.bootstrap > 0 && preps.length > 1) {
       const rng = new Rng(options.seed ?? doseResponseDefaults.seed);
       const est: number[] = [];
-      for (let b = 0; b < options.bootstrap; b++) {
+      for (let k = 0; k < options.bootstrap; k++) {
         const pick = preps.map(() => preps[Math.floor(rng.uniform() * preps.length)]);
-        const pts = pick.flatMap((pr) => all.filter((p) => p.preparation === pr));
-        const f = fitHill(pts.map((p) => p.concentration), pts.map((p) => p.normalized), fixBottom);
+        const pts = pick.flatMap((pr) => mine.filter((p) => p.preparation === pr));
+        const f = fitHill(pts.map((p) => p.concentration), pts.map((p) => p.normalized), bottomFix);
         if (f.converged) est.push(f.params[3]);
       }
-      est.sort((a, b) => a - b);
+      est.sort((x, y) => x - y);
       boot = [Math.exp(est[Math.floor(0.025 * (est.length - 1))]), Math.exp(est[Math.ceil(0.975 * (est.length - 1))])];
     }
     const st: string[] = [];
@@ -219,43 +266,50 @@ export function doseResponse(rows: readonly Row[], units: string, options: DoseR
     const ic50 = Math.pow(10, s.mean);
     if (ic50 < cmin || ic50 > cmax) st.push(`IC50 outside the tested range ${cmin}-${cmax} ${concUnit}`);
     if (!trusted(pooled)) st.push(...pooled.status.map((x) => `pooled fit: ${x}`));
+    if (left) st.push(`${left} sweep(s) not measured (not detected or not resolved), left out`);
+    if (fixBottom === null && bottomFix === 0) st.push(`bottom fixed at 0: not measured at the highest concentration(s) above ${cmax} ${concUnit}`);
+    if (refused.has(cid)) st.push(`refused for ${refused.get(cid)!.join('; ')}`);
     summary.push({
-      class: cls, preparations: preps.length, concentrationUnit: concUnit,
-      ic50, ic50_ci95_low: Math.pow(10, s.ci95[0]), ic50_ci95_high: Math.pow(10, s.ci95[1]),
-      log10_ic50: s.mean, log10_ic50_sd: s.sd,
-      hill: h.mean, hill_ci95_low: h.ci95[0], hill_ci95_high: h.ci95[1],
+      ...head, preparations: preps.length, concentrationUnit: concUnit,
+      ic50, ic50_ci95_low: num(Math.pow(10, s.ci95[0])), ic50_ci95_high: num(Math.pow(10, s.ci95[1])),
+      log10_ic50: s.mean, log10_ic50_sd: num(s.sd),
+      hill: h.mean, hill_ci95_low: num(h.ci95[0]), hill_ci95_high: num(h.ci95[1]),
       pooled_ic50: Math.exp(pooled.params[3]), pooled_ic50_profile_low: Math.exp(plo), pooled_ic50_profile_high: Math.exp(phi),
       pooled_hill: pooled.params[0], pooled_bottom: pooled.params[1],
-      bootstrap_ic50_low: boot[0], bootstrap_ic50_high: boot[1],
-      ...(runDown === 'vehicle' ? { rundown_per_min: 60 * (rate.get(cls)?.k ?? NaN), rundown_controls: rate.get(cls)?.preparations ?? 0 } : {}),
-      status: st.length ? st.join('; ') : 'ok',
+      bootstrap_ic50_low: boot[0], bootstrap_ic50_high: boot[1], points: mine.length, excluded_not_measured: left,
+      ...(runDown === 'vehicle' ? { rundown_per_min: 60 * (rate.get(`${cls}|${siteS}`)?.k ?? NaN), rundown_controls: rate.get(`${cls}|${siteS}`)?.preparations ?? 0 } : {}),
+      status: st.length ? st.join('; ') : 'ok', reason: null,
     });
   }
-  // pairwise comparison of IC50 between classes on the pooled normalised points
+  // pairwise comparison of IC50 between classes (at the same site) on the pooled normalised points
   const comparisons: Row[] = [];
-  for (let i = 0; i < classes.length; i++) for (let j = i + 1; j < classes.length; j++) {
-    const A = points.filter((p) => p.class === classes[i]);
-    const B = points.filter((p) => p.class === classes[j]);
-    const fa = fits.get(`${classes[i]}|pooled`)!, fb = fits.get(`${classes[j]}|pooled`)!;
+  const fitted = summary.filter((r) => r.ic50 !== null);
+  for (let i = 0; i < fitted.length; i++) for (let j = i + 1; j < fitted.length; j++) {
+    const ra = fitted[i], rb = fitted[j];
+    if ((ra.distanceMm ?? null) !== (rb.distanceMm ?? null)) continue;
+    const site = (ra.distanceMm ?? null) as number | null;
+    const at = (cls: string) => points.filter((p) => p.class === cls && (p.distanceMm ?? null) === site);
+    const A = at(String(ra.class)), B = at(String(rb.class));
+    const sl = siteLabel(site === null ? '' : String(site));
+    const fa = fits.get(`${ra.class}${sl}|pooled`)!, fb = fits.get(`${rb.class}${sl}|pooled`)!;
     const all = [...A, ...B];
     const isB = all.map((_, k) => k >= A.length);
-    const joint = fitCurveShared(all.map((p) => p.concentration), all.map((p) => p.normalized), isB, fixBottom, [fa, fb]);
-    const full = fa.residualSS + fb.residualSS;
-    const dfFull = fa.df + fb.df;
-    const F = extraSumOfSquaresF(joint.residualSS, joint.df, full, dfFull);
-    comparisons.push({ classA: classes[i], classB: classes[j], ic50A: Math.exp(fa.params[3]), ic50B: Math.exp(fb.params[3]), ratio: Math.exp(fb.params[3] - fa.params[3]), F: F.F, df1: F.df1, df2: F.df2, p: F.p, conclusion: F.p < 0.05 ? 'IC50s differ (p < 0.05)' : 'no evidence that the IC50s differ (p >= 0.05)' });
+    const bA = bottoms.get(curveOf(String(ra.class), site)) ?? null, bB = bottoms.get(curveOf(String(rb.class), site)) ?? null;
+    const joint = fitCurveShared(all.map((p) => p.concentration), all.map((p) => p.normalized), isB, [bA, bB], [fa, fb]);
+    const F = extraSumOfSquaresF(joint.residualSS, joint.df, fa.residualSS + fb.residualSS, fa.df + fb.df);
+    comparisons.push({ classA: ra.class, classB: rb.class, ...(poolSites ? {} : { distanceMm: site }), ic50A: Math.exp(fa.params[3]), ic50B: Math.exp(fb.params[3]), ratio: Math.exp(fb.params[3] - fa.params[3]), F: F.F, df1: F.df1, df2: F.df2, p: F.p, conclusion: F.p < 0.05 ? 'IC50s differ (p < 0.05)' : 'no evidence that the IC50s differ (p >= 0.05)' });
   }
-  return new DoseResponseResult(points, perPreparation, summary, comparisons, fits, [...history, { verb: 'doseResponse', options: { measure, lastN, runDown, fixBottom, bootstrap: options.bootstrap ?? 0, seed: options.seed ?? doseResponseDefaults.seed, model: 'four-parameter log-logistic, top fixed at 1', pooling: 'mean of per-preparation log10 IC50 with t-based 95% CI; pooled fit with profile-likelihood CI' }, version: VERSION }], sources);
+  return new DoseResponseResult(points, perPreparation, summary, comparisons, fits, [...history, { verb: 'doseResponse', options: { measure, lastN, runDown, fixBottom, bootstrap: options.bootstrap ?? 0, seed: options.seed ?? doseResponseDefaults.seed, model: 'four-parameter log-logistic, top fixed at 1', pooling: 'mean of per-preparation log10 IC50 with t-based 95% CI; pooled fit with profile-likelihood CI', poolSites, minConcentrations: minConc, rows: 'measured rows only (not detected or not resolved left out and counted)' }, version: VERSION }], sources);
 }
 
 /** Joint fit of two classes with a shared ln IC50 and class-specific slope and bottom. */
-function fitCurveShared(x: number[], y: number[], isB: boolean[], fixBottom: number | null, starts: FitResult[]): FitResult {
+function fitCurveShared(x: number[], y: number[], isB: boolean[], fixBottom: [number | null, number | null], starts: FitResult[]): FitResult {
   const idx = x.map((_, i) => i);
   // p = [hillA, bottomA, hillB, bottomB, lnIC50]
   const model = (i: number, p: readonly number[]) => (isB[i] ? logLogistic4(x[i], [p[2], p[3], 1, p[4]]) : logLogistic4(x[i], [p[0], p[1], 1, p[4]]));
   const [a, b] = starts;
   return fitCurve({
     model, x: idx, y, p0: [a.params[0], a.params[1], b.params[0], b.params[1], (a.params[3] + b.params[3]) / 2],
-    fixed: [false, fixBottom !== null, false, fixBottom !== null, false], lower: [0.2, -0.2, 0.2, -0.2, -Infinity], upper: [6, 0.9, 6, 0.9, Infinity],
+    fixed: [false, fixBottom[0] !== null, false, fixBottom[1] !== null, false], lower: [0.2, -0.2, 0.2, -0.2, -Infinity], upper: [6, 0.9, 6, 0.9, Infinity],
   });
 }

@@ -1,65 +1,91 @@
 /**
- * Conduction velocity per fiber class, three ways (each with a 95% CI):
- * - single site: distance / (latency - utilisation), onset-based (fastest fibers),
- *   peak-based (the fibers that make the peak) and centroid-based (the centre of
- *   mass of the class component: its latency grows with distance at exactly the
- *   amplitude-weighted mean of 1/velocity), summarised over sweeps;
- * - two sites: delta distance / delta latency, the delay from cross-correlation of
- *   the class component (sub-sample refinement) and from matched onsets and peaks,
- *   over pairs of sweeps;
- * - several distances: latency regressed on distance; velocity = 1 / slope with a
- *   t-based CI, intercept = utilisation time.
+ * Conduction velocity per fiber class, three ways (each with a 95% CI where the data give one):
+ * - single site: distance / (latency - utilisation), summarised over sweeps;
+ * - two sites: delta distance / delta latency over pairs of sweeps recorded at the same time (or
+ *   of the same condition), the delay from the same latency definition at both sites, or from the
+ *   cross-correlation of the class component (sub-sample refinement);
+ * - several distances: latency regressed on distance; velocity = 1 / slope with a t-based CI,
+ *   intercept = utilisation time.
+ * Every row names its latency definition (`definition`, `latency_column`): onset at a fraction of the
+ * class's own peak, half-rise, peak, centroid (src/measure makes the columns; the same definition at
+ * every distance, so two-site and regression velocities compare like with like).
+ *
+ * One bad estimate never discards good ones: a value that cannot be right becomes a row with
+ * `status` and `reason`, its velocity left empty (the computed value in `rejected_velocity_m_s`),
+ * and every other class, group and estimator goes on. Checks (common practice, no source):
+ * - outside every nerve fibre's range (0.02-300 m/s): rejected (usually a distance or time unit);
+ * - a delay shorter than 2 sample intervals, not positive, or a cross-correlation maximum on the
+ *   edge of its search range: that pair is left out (counted); no pair left: rejected;
+ * - latency not increasing with distance: rejected;
+ * - a utilisation time (intercept at distance 0, from the regression or implied by a two-site
+ *   velocity) below -25% of the latency at the nearest site, and below 0 beyond its 95% CI:
+ *   rejected (a latency cannot be shorter than its conduction time);
+ * - outside the class's own velocity range at that temperature: kept, status "outside class range"
+ *   (the wave may belong to another class, or the preset may not fit this nerve).
  * Conduction velocity in m/s equals mm/ms. Formulas: common practice, no source.
  */
 import type { SweepSet, ConditionValue } from '../sweeps/SweepSet';
-import { AnalysisError } from '../errors';
 import { summarize, linearFit } from './stats';
 import { tQuantile } from '../fit/dist';
 import { xcorrDelay, type ResponseMeasure } from '../measure/response';
 import type { ComponentRow, ResolvedComponentOptions } from '../measure/components';
+import { scaledRange } from '../measure/classes';
+
+export type LatencyBasis = 'onset' | 'halfrise' | 'peak' | 'centroid';
+export type VelocityStatus = 'ok' | 'outside class range' | 'implausible' | 'not detected';
 
 export interface VelocityRow {
   method: 'single-site' | 'two-site' | 'regression';
-  basis: 'onset' | 'peak' | 'centroid' | 'xcorr';
+  basis: LatencyBasis | 'xcorr';
+  /** the latency definition in words */
+  definition: string;
+  /** the component-table column the latencies came from (null for cross-correlation) */
+  latency_column: string | null;
   class: string;
   group: string;
-  velocity_m_s: number;
-  ci95_low_m_s: number;
-  ci95_high_m_s: number;
+  /** null when the status says the value cannot be right or nothing was measured */
+  velocity_m_s: number | null;
+  ci95_low_m_s: number | null;
+  ci95_high_m_s: number | null;
   n: number;
+  status: VelocityStatus;
+  reason: string | null;
   [k: string]: ConditionValue;
 }
 
-const key = (r: Record<string, ConditionValue>, by: string[]) => by.map((k) => `${k}=${r[k] ?? ''}`).join(', ');
+export interface LatencyDefinition { basis: LatencyBasis; column: string; definition: string }
 
-function plausible(v: number, what: string): void {
-  if (Number.isFinite(v) && (v > 300 || v < 0.02)) {
-    throw new AnalysisError(`${what}: velocity ${v.toPrecision(3)} m/s is outside any nerve fiber's range (0.02-300 m/s); check the distance unit (mm expected) and the time axis (ms)`);
-  }
-}
+/** Fibres of no nerve conduct outside this range (m/s); common practice, no source. */
+export const FIBRE_RANGE_M_S: [number, number] = [0.02, 300];
+/** the least delay (in sample intervals) a two-site estimate accepts */
+export const MIN_DELAY_SAMPLES = 2;
+/** a utilisation time below -this x the nearest latency (and below 0 beyond its CI) is impossible */
+export const NEGATIVE_UTILISATION_FRACTION = 0.25;
 
-/** Single-site velocities summarised per group, distance and class. */
-export function singleSiteVelocity(rows: readonly ComponentRow[], by: string[]): VelocityRow[] {
-  const groups = new Map<string, ComponentRow[]>();
-  for (const r of rows) {
-    if (!r.detected) continue;
-    const id = `${key(r, by)}|${r.distance_mm}|${r.class}`;
-    const g = groups.get(id);
-    if (g) g.push(r); else groups.set(id, [r]);
-  }
-  const out: VelocityRow[] = [];
-  for (const g of groups.values()) {
-    const r0 = g[0];
-    for (const basis of ['onset', 'peak', 'centroid'] as const) {
-      const vals = g.map((r) => r[`${basis}_velocity_m_s`]).filter((v): v is number => typeof v === 'number');
-      if (!vals.length) continue;
-      const s = summarize(vals);
-      plausible(s.mean, `class ${r0.class} (${key(r0, by)})`);
-      out.push({ method: 'single-site', basis, class: r0.class, group: key(r0, by), ...pick(r0, by), distance_mm: r0.distance_mm as number, velocity_m_s: s.mean, ci95_low_m_s: s.ci95[0], ci95_high_m_s: s.ci95[1], sd_m_s: s.sd, n: s.n });
-    }
+/**
+ * The latency definitions a component table holds, in the order onset, half-rise, peak, centroid.
+ * Onset: `onset<N>_ms` (N% of the class's own peak) when present, else the older `onset_ms`.
+ */
+export function latencyDefinitions(rows: readonly ComponentRow[], resolved?: ResolvedComponentOptions): LatencyDefinition[] {
+  const cols = new Set<string>();
+  for (const r of rows.slice(0, 50)) for (const k of Object.keys(r)) cols.add(k);
+  const out: LatencyDefinition[] = [];
+  const onsetN = [...cols].map((c) => /^onset(\d+)_ms$/.exec(c)).find((m) => m !== null);
+  if (onsetN) out.push({ basis: 'onset', column: onsetN[0], definition: `onset at ${Number(onsetN[1])}% of the class's own peak` });
+  else if (cols.has('onset_ms')) out.push({ basis: 'onset', column: 'onset_ms', definition: 'onset (crossing of k x noise; depends on the noise level)' });
+  if (cols.has('halfrise_ms')) out.push({ basis: 'halfrise', column: 'halfrise_ms', definition: "half-rise (50% of the class's own peak)" });
+  if (cols.has('peak_ms')) out.push({ basis: 'peak', column: 'peak_ms', definition: 'peak (parabolic sub-sample)' });
+  if (cols.has('centroid_ms')) {
+    const f = (resolved as unknown as { centroidFraction?: number } | undefined)?.centroidFraction;
+    out.push({
+      basis: 'centroid', column: 'centroid_ms',
+      definition: cols.has('centroid_from_ms') ? `centroid (centre of mass where the component exceeds ${Math.round(100 * (f ?? 0.1))}% of its own peak)` : 'centroid (centre of mass between onset and offset)',
+    });
   }
   return out;
 }
+
+const key = (r: Record<string, ConditionValue>, by: string[]) => by.map((k) => `${k}=${r[k] ?? ''}`).join(', ');
 
 function pick(r: Record<string, ConditionValue>, keys: string[]): Record<string, ConditionValue> {
   const o: Record<string, ConditionValue> = {};
@@ -67,110 +93,270 @@ function pick(r: Record<string, ConditionValue>, keys: string[]): Record<string,
   return o;
 }
 
-/** Velocity from the regression of latency on distance, per group and class. */
-export function regressionVelocity(rows: readonly ComponentRow[], by: string[]): VelocityRow[] {
+/** a row was measured (detected, and resolved when the table says so) */
+export const measured = (r: ComponentRow): boolean => r.detected === true && (r.status === undefined || r.status === null || r.status === 'measured');
+
+function groupRows(rows: readonly ComponentRow[], id: (r: ComponentRow) => string): Map<string, ComponentRow[]> {
   const groups = new Map<string, ComponentRow[]>();
   for (const r of rows) {
-    if (!r.detected) continue;
-    const id = `${key(r, by)}|${r.class}`;
-    const g = groups.get(id);
-    if (g) g.push(r); else groups.set(id, [r]);
+    const k = id(r);
+    const g = groups.get(k);
+    if (g) g.push(r); else groups.set(k, [r]);
   }
+  return groups;
+}
+
+/** The class's velocity range at the group's temperature, or null when the class is unknown. */
+function classRange(resolved: ResolvedComponentOptions | undefined, cls: string, r0: ComponentRow): [number, number] | null {
+  const c = resolved?.classes.find((k) => k.name === cls);
+  if (!c || !resolved) return null;
+  const T = typeof r0.temperature_C === 'number' ? r0.temperature_C : typeof r0.temperatureC === 'number' ? r0.temperatureC : undefined;
+  return scaledRange(c, resolved.preset, T, resolved.q10);
+}
+
+const fmt = (v: number) => (Math.abs(v) >= 100 ? v.toFixed(0) : v.toPrecision(3));
+
+/** Judge a velocity: rejected outside every fibre's range, kept but flagged outside its class's range. */
+function judge(v: number, range: [number, number] | null, cls: string): { status: VelocityStatus; reason: string | null } {
+  if (!Number.isFinite(v) || v < FIBRE_RANGE_M_S[0] || v > FIBRE_RANGE_M_S[1]) {
+    return { status: 'implausible', reason: `${Number.isFinite(v) ? fmt(v) : String(v)} m/s is outside any nerve fibre's range (${FIBRE_RANGE_M_S[0]}-${FIBRE_RANGE_M_S[1]} m/s); check the distance unit (mm expected), the time axis (ms) and which recording is which` };
+  }
+  if (range && (v < range[0] || v > range[1])) {
+    return { status: 'outside class range', reason: `${fmt(v)} m/s is outside the ${cls} range at this temperature (${fmt(range[0])}-${fmt(range[1])} m/s): the wave may belong to another class, or the class preset may not fit this nerve` };
+  }
+  return { status: 'ok', reason: null };
+}
+
+/** A rejected row keeps its computed value aside; its velocity and interval are left empty. */
+function finish(row: VelocityRow, v: number): VelocityRow {
+  if (row.status === 'implausible') return { ...row, velocity_m_s: null, ci95_low_m_s: null, ci95_high_m_s: null, rejected_velocity_m_s: Number.isFinite(v) ? v : null };
+  return row;
+}
+
+const num = (v: number): number | null => (Number.isFinite(v) ? v : null);
+
+/** Single-site velocities summarised per group, distance, class and latency definition. */
+export function singleSiteVelocity(rows: readonly ComponentRow[], by: string[], resolved?: ResolvedComponentOptions): VelocityRow[] {
+  const defs = latencyDefinitions(rows, resolved);
+  const groups = groupRows(rows, (r) => `${key(r, by)}|${r.distance_mm ?? r.distanceMm}|${r.class}`);
+  const out: VelocityRow[] = [];
+  const util = resolved?.utilisationMs ?? 0;
+  for (const g of groups.values()) {
+    const r0 = g[0];
+    const cls = String(r0.class);
+    const range = classRange(resolved, cls, r0);
+    const ok = g.filter(measured);
+    for (const d of defs) {
+      const base = { method: 'single-site' as const, basis: d.basis, definition: d.definition, latency_column: d.column, class: cls, group: key(r0, by), ...pick(r0, by), distance_mm: (r0.distance_mm ?? r0.distanceMm ?? null) as number | null };
+      const vals = ok.map((r) => r[d.column]).filter((t): t is number => typeof t === 'number').map((t) => (base.distance_mm as number) / (t - util));
+      if (!vals.length) {
+        out.push({ ...base, velocity_m_s: null, ci95_low_m_s: null, ci95_high_m_s: null, sd_m_s: null, n: 0, status: 'not detected', reason: `${cls} not measured in any of ${g.length} sweeps` });
+        continue;
+      }
+      const s = summarize(vals);
+      const j = judge(s.mean, range, cls);
+      out.push(finish({ ...base, velocity_m_s: s.mean, ci95_low_m_s: num(s.ci95[0]), ci95_high_m_s: num(s.ci95[1]), sd_m_s: num(s.sd), n: s.n, excluded_not_measured: g.length - ok.length, status: j.status, reason: j.reason }, s.mean));
+    }
+  }
+  return out;
+}
+
+/** The intercept (utilisation time) check shared by regression and two-site rows. */
+function utilisationProblem(intercept: number, ciHigh: number, nearLatency: number): string | null {
+  if (intercept < -NEGATIVE_UTILISATION_FRACTION * Math.abs(nearLatency) && !(ciHigh >= 0)) {
+    return `the latency extrapolated to distance 0 (utilisation time) is ${intercept.toFixed(3)} ms, below -${100 * NEGATIVE_UTILISATION_FRACTION}% of the latency at the nearest site (${nearLatency.toFixed(3)} ms): a latency cannot be shorter than its conduction time; check the distances (conduction distance from the stimulating cathode), the stimulus time and which phase was measured`;
+  }
+  return null;
+}
+
+/** Velocity from the regression of latency on distance, per group, class and latency definition. */
+export function regressionVelocity(rows: readonly ComponentRow[], by: string[], resolved?: ResolvedComponentOptions): VelocityRow[] {
+  const defs = latencyDefinitions(rows, resolved);
+  const groups = groupRows(rows, (r) => `${key(r, by)}|${r.class}`);
   const out: VelocityRow[] = [];
   for (const g of groups.values()) {
-    const dists = new Set(g.map((r) => r.distance_mm));
-    if (dists.size < 2 || g.length < 3) continue;
+    const dists = new Set(g.map((r) => r.distance_mm ?? r.distanceMm));
+    if (dists.size < 2) continue;
     const r0 = g[0];
-    for (const basis of ['onset', 'peak', 'centroid'] as const) {
-      const ok = g.filter((r) => typeof r[`${basis}_ms`] === 'number');
-      if (new Set(ok.map((r) => r.distance_mm)).size < 2 || ok.length < 3) continue;
-      const x = ok.map((r) => r.distance_mm as number);
-      const y = ok.map((r) => r[`${basis}_ms`] as number);
-      const f = linearFit(x, y);
-      if (!(f.slope > 0)) {
-        throw new AnalysisError(`class ${r0.class} (${key(r0, by)}): ${basis} latency does not increase with distance (slope ${f.slope.toPrecision(3)} ms/mm); check that distances are conduction distances from the stimulating electrode`);
+    const cls = String(r0.class);
+    const range = classRange(resolved, cls, r0);
+    const okRows = g.filter(measured);
+    for (const d of defs) {
+      const base = { method: 'regression' as const, basis: d.basis, definition: d.definition, latency_column: d.column, class: cls, group: key(r0, by), ...pick(r0, by), distances: dists.size };
+      const ok = okRows.filter((r) => typeof r[d.column] === 'number');
+      const okDists = new Set(ok.map((r) => r.distance_mm as number));
+      if (okDists.size < 2) {
+        out.push({ ...base, velocity_m_s: null, ci95_low_m_s: null, ci95_high_m_s: null, n: ok.length, status: 'not detected', reason: `${cls} measured at ${okDists.size} of ${dists.size} distances (${ok.length} of ${g.length} sweeps); a regression needs two` });
+        continue;
       }
-      const t = tQuantile(0.975, f.df);
+      const x = ok.map((r) => r.distance_mm as number);
+      const y = ok.map((r) => r[d.column] as number);
+      const f = linearFit(x, y);
       const v = 1 / f.slope;
-      plausible(v, `class ${r0.class} (${key(r0, by)})`);
-      const lo = 1 / (f.slope + t * f.seSlope);
+      const t = f.df > 0 ? tQuantile(0.975, f.df) : NaN;
       const hiSlope = f.slope - t * f.seSlope;
-      out.push({
-        method: 'regression', basis, class: r0.class, group: key(r0, by), ...pick(r0, by),
-        velocity_m_s: v, ci95_low_m_s: lo, ci95_high_m_s: hiSlope > 0 ? 1 / hiSlope : Infinity, n: g.length,
-        distances: dists.size, r2: f.r2,
-        utilisation_ms: f.intercept, utilisation_ci95_low_ms: f.intercept - t * f.seIntercept, utilisation_ci95_high_ms: f.intercept + t * f.seIntercept,
-      });
+      const nearest = Math.min(...okDists);
+      const nearLat = summarize(ok.filter((r) => r.distance_mm === nearest).map((r) => r[d.column] as number)).mean;
+      const uHigh = f.intercept + t * f.seIntercept;
+      let j: { status: VelocityStatus; reason: string | null };
+      if (!(f.slope > 0)) j = { status: 'implausible', reason: `${d.definition} latency does not increase with distance (slope ${f.slope.toPrecision(3)} ms/mm); check that distances are conduction distances from the stimulating electrode` };
+      else {
+        const u = utilisationProblem(f.intercept, uHigh, nearLat);
+        j = u ? { status: 'implausible', reason: u } : judge(v, range, cls);
+      }
+      out.push(finish({
+        ...base, velocity_m_s: v, ci95_low_m_s: num(1 / (f.slope + t * f.seSlope)), ci95_high_m_s: Number.isFinite(hiSlope) ? (hiSlope > 0 ? 1 / hiSlope : Infinity) : null,
+        n: ok.length, excluded_not_measured: g.length - okRows.length, r2: num(f.r2),
+        utilisation_ms: f.intercept, utilisation_ci95_low_ms: num(f.intercept - t * f.seIntercept), utilisation_ci95_high_ms: num(uHigh),
+        status: j.status, reason: j.reason,
+      }, v));
+    }
+  }
+  return out;
+}
+
+/** Condition keys that differ between the two sites only (file, site, channel, distance): not used to pair sweeps. */
+function pairKeys(near: Record<string, ConditionValue>[], far: Record<string, ConditionValue>[]): string[] {
+  const keys = new Set<string>();
+  for (const c of near) for (const k of Object.keys(c)) keys.add(k);
+  const out: string[] = [];
+  for (const k of keys) {
+    if (k === 'sweep' || k === 'count') continue;
+    const a = new Set(near.map((c) => JSON.stringify(c[k] ?? null)));
+    const b = new Set(far.map((c) => JSON.stringify(c[k] ?? null)));
+    if ([...a].some((v) => b.has(v))) out.push(k);
+  }
+  return out;
+}
+
+/**
+ * Pairs of rows (near, far) recorded together: equal conditions apart from the keys that only
+ * tell the sites apart; in sweep order within equal conditions. Without conditions to match,
+ * the k-th sweep at one site goes with the k-th at the other.
+ */
+function pairRows(set: SweepSet, near: ComponentRow[], far: ComponentRow[]): [ComponentRow, ComponentRow][] {
+  const cn = near.map((r) => set.conditions[r.sweep] ?? {}), cf = far.map((r) => set.conditions[r.sweep] ?? {});
+  const ks = pairKeys(cn, cf);
+  const id = (c: Record<string, ConditionValue>) => JSON.stringify(ks.map((k) => c[k] ?? null));
+  const byId = new Map<string, ComponentRow[]>();
+  far.forEach((r, i) => { const k = id(cf[i]); (byId.get(k) ?? byId.set(k, []).get(k)!).push(r); });
+  const pairs: [ComponentRow, ComponentRow][] = [];
+  near.forEach((r, i) => {
+    const q = byId.get(id(cn[i]));
+    const b = q?.shift();
+    if (b) pairs.push([r, b]);
+  });
+  if (pairs.length) return pairs;
+  const m = Math.min(near.length, far.length);
+  for (let p = 0; p < m; p++) pairs.push([near[p], far[p]]);
+  return pairs;
+}
+
+/**
+ * Two-site velocity: for each pair of neighbouring distances within a group and class, pairs of
+ * sweeps recorded together (see pairRows); delay by each latency definition and by
+ * cross-correlation of the class component. Pairs with a delay that cannot be right are left out
+ * and counted (`excluded_pairs`, `excluded_reason`).
+ */
+export function twoSiteVelocity(set: SweepSet, rows: readonly ComponentRow[], measures: ResponseMeasure[][], resolved: ResolvedComponentOptions, by: string[]): VelocityRow[] {
+  const defs = latencyDefinitions(rows, resolved);
+  const out: VelocityRow[] = [];
+  const groups = groupRows(rows, (r) => `${key(r, by)}|${r.class}`);
+  const ci = resolved.classes.map((c) => c.name);
+  const fs = set.fs / 1000; // samples per ms
+  const minDelay = MIN_DELAY_SAMPLES / fs;
+  for (const g of groups.values()) {
+    const r0 = g[0];
+    const cls = String(r0.class);
+    const ix = ci.indexOf(cls);
+    const own = classRange(resolved, cls, r0);
+    const range = own ?? FIBRE_RANGE_M_S;
+    const dists = [...new Set(g.map((r) => (r.distance_mm ?? r.distanceMm) as number))].sort((a, b) => a - b);
+    for (let k = 0; k + 1 < dists.length; k++) {
+      const d1 = dists[k], d2 = dists[k + 1];
+      const dL = d2 - d1;
+      const pairs = pairRows(set, g.filter((r) => (r.distance_mm ?? r.distanceMm) === d1), g.filter((r) => (r.distance_mm ?? r.distanceMm) === d2));
+      const both = pairs.filter(([a, b]) => measured(a) && measured(b));
+      const bases = [...defs.map((d) => d.basis), 'xcorr' as const];
+      for (const basis of bases) {
+        const d = defs.find((q) => q.basis === basis);
+        const base = {
+          method: 'two-site' as const, basis, definition: d ? d.definition : 'cross-correlation of the class component (parabolic sub-sample refinement)',
+          latency_column: d ? d.column : null, class: cls, group: key(r0, by), ...pick(r0, by), near_mm: d1, far_mm: d2,
+        };
+        const delays: number[] = [];
+        const nearLat: number[] = [];
+        const bad = new Map<string, number>();
+        const reject = (why: string) => bad.set(why, (bad.get(why) ?? 0) + 1);
+        for (const [a, b] of both) {
+          let delay: number;
+          if (basis === 'xcorr') {
+            const ma = measures[a.sweep]?.[ix], mb = measures[b.sweep]?.[ix];
+            if (!ma || !mb) continue;
+            const seg = (m: ResponseMeasure, r: ComponentRow) => {
+              const comp = (m as ResponseMeasure & { component?: Float64Array }).component;
+              const x = comp ?? set.sweep(r.sweep).subarray(m.window[0], m.window[1] + 1);
+              const p = typeof r.polarity === 'number' ? r.polarity : 1;
+              return p === 1 ? x : x.map((v) => -v);
+            };
+            const segA = seg(ma, a), segB = seg(mb, b);
+            const sa = ma.window[0], sb = mb.window[0];
+            // search delays for a generous velocity range (class range / 3 .. x 3)
+            const minLag = Math.floor((dL / (range[1] * 3)) * fs) - (sb - sa);
+            const maxLag = Math.ceil((dL / (range[0] / 3)) * fs) - (sb - sa);
+            const lo = Math.max(minLag, -(segA.length - 1)), hi = Math.min(maxLag, segB.length - 1);
+            if (!(hi > lo)) { reject('the windows at the two sites do not overlap in any plausible delay'); continue; }
+            const { lag } = xcorrDelay(segA, segB, lo, hi);
+            if (lag <= lo + 0.5 || lag >= hi - 0.5) { reject('cross-correlation maximum on the edge of its search range'); continue; }
+            delay = (sb - sa + lag) / fs;
+          } else {
+            const ta = a[d!.column], tb = b[d!.column];
+            if (typeof ta !== 'number' || typeof tb !== 'number') continue;
+            delay = tb - ta;
+            nearLat.push(ta);
+          }
+          if (!(delay > 0)) { reject('delay not positive (the response must arrive later at the farther site)'); continue; }
+          if (delay < minDelay) { reject(`delay shorter than ${MIN_DELAY_SAMPLES} sample intervals (${minDelay.toPrecision(2)} ms): not resolved at this sampling rate`); continue; }
+          delays.push(delay);
+        }
+        const excluded = [...bad.values()].reduce((s, v) => s + v, 0);
+        const why = bad.size ? [...bad].map(([w, c]) => `${c} pair(s): ${w}`).join('; ') : null;
+        if (!delays.length) {
+          const none = both.length === 0 || excluded === 0;
+          out.push({
+            ...base, velocity_m_s: null, ci95_low_m_s: null, ci95_high_m_s: null, delay_ms: null, n: 0, excluded_pairs: excluded,
+            status: none ? 'not detected' : 'implausible',
+            reason: none ? `${cls} measured at both sites in ${both.length} of ${pairs.length} pairs of sweeps` : `no usable pair: ${why}`,
+          });
+          continue;
+        }
+        const s = summarize(delays);
+        const v = dL / s.mean;
+        const [dlo, dhi] = s.ci95;
+        let j = judge(v, own, cls);
+        if (j.status !== 'implausible' && nearLat.length) {
+          // the utilisation time this velocity implies at the near site
+          const lat = summarize(nearLat).mean;
+          const u = utilisationProblem(lat - d1 / v, dhi > 0 ? lat - d1 / (dL / dhi) : NaN, lat);
+          if (u) j = { status: 'implausible', reason: u };
+        }
+        out.push(finish({
+          ...base, delay_ms: s.mean, velocity_m_s: v, ci95_low_m_s: dhi > 0 ? dL / dhi : null, ci95_high_m_s: Number.isFinite(dlo) ? (dlo > 0 ? dL / dlo : Infinity) : null,
+          n: s.n, excluded_pairs: excluded, excluded_reason: why, status: j.status, reason: j.reason,
+        }, v));
+      }
     }
   }
   return out;
 }
 
 /**
- * Two-site velocity: for each pair of distances within a group and class, pair the
- * k-th sweep at the near site with the k-th at the far site; delay by
- * cross-correlation of the class component, and by matched onsets and peaks.
+ * The estimator the README recommends, per class (see "Which velocity to report"): the
+ * regression of peak latency on distance (with two distances, the two-site peak velocity).
  */
-export function twoSiteVelocity(set: SweepSet, rows: readonly ComponentRow[], measures: ResponseMeasure[][], resolved: ResolvedComponentOptions, by: string[]): VelocityRow[] {
-  const out: VelocityRow[] = [];
-  const groups = new Map<string, ComponentRow[]>();
-  for (const r of rows) {
-    const id = `${key(r, by)}|${r.class}`;
-    const g = groups.get(id);
-    if (g) g.push(r); else groups.set(id, [r]);
-  }
-  const ci = resolved.classes.map((c) => c.name);
-  for (const g of groups.values()) {
-    const r0 = g[0];
-    const cls = ci.indexOf(r0.class);
-    const dists = [...new Set(g.map((r) => r.distance_mm as number))].sort((a, b) => a - b);
-    for (let k = 0; k + 1 < dists.length; k++) {
-      const d1 = dists[k], d2 = dists[k + 1];
-      const near = g.filter((r) => r.distance_mm === d1 && r.detected);
-      const far = g.filter((r) => r.distance_mm === d2 && r.detected);
-      const m = Math.min(near.length, far.length);
-      if (m === 0) continue;
-      const dL = d2 - d1;
-      const vr = resolved.classes[cls].velocity;
-      const est: Record<'xcorr' | 'onset' | 'peak' | 'centroid', number[]> = { xcorr: [], onset: [], peak: [], centroid: [] };
-      for (let p = 0; p < m; p++) {
-        const a = near[p], b = far[p];
-        const ma = measures[a.sweep][cls], mb = measures[b.sweep][cls];
-        if (!ma || !mb) continue;
-        const xa = set.sweep(a.sweep), xb = set.sweep(b.sweep);
-        const [sa, ea] = ma.window, [sb, eb] = mb.window;
-        const segA = xa.subarray(sa, ea + 1), segB = xb.subarray(sb, eb + 1);
-        // expected delay from a generous velocity range (class range / 3 .. x 3)
-        const minDelay = dL / (vr[1] * 3), maxDelay = dL / (vr[0] / 3);
-        const fs = set.fs / 1000;
-        const minLag = Math.floor(minDelay * fs) - (sb - sa);
-        const maxLag = Math.ceil(maxDelay * fs) - (sb - sa);
-        const lo = Math.max(minLag, -(segA.length - 1)), hi = Math.min(maxLag, segB.length - 1);
-        if (hi > lo) {
-          const { lag } = xcorrDelay(segA, segB, lo, hi);
-          est.xcorr.push((sb - sa + lag) / fs);
-        }
-        if (typeof a.onset_ms === 'number' && typeof b.onset_ms === 'number') est.onset.push(b.onset_ms - a.onset_ms);
-        est.peak.push((b.peak_ms as number) - (a.peak_ms as number));
-        if (typeof a.centroid_ms === 'number' && typeof b.centroid_ms === 'number') est.centroid.push(b.centroid_ms - a.centroid_ms);
-      }
-      for (const basis of ['xcorr', 'onset', 'peak', 'centroid'] as const) {
-        const delays = est[basis];
-        if (!delays.length) continue;
-        const s = summarize(delays);
-        if (!(s.mean > 0)) {
-          throw new AnalysisError(`class ${r0.class} (${key(r0, by)}): the ${basis} delay from ${d1} mm to ${d2} mm is ${s.mean.toPrecision(3)} ms; a response must arrive later at the farther site (check the distances and which recording is which)`);
-        }
-        const v = dL / s.mean;
-        plausible(v, `class ${r0.class} (${key(r0, by)})`);
-        const [dlo, dhi] = s.ci95;
-        out.push({
-          method: 'two-site', basis, class: r0.class, group: key(r0, by), ...pick(r0, by),
-          near_mm: d1, far_mm: d2, delay_ms: s.mean,
-          velocity_m_s: v, ci95_low_m_s: dhi > 0 ? dL / dhi : NaN, ci95_high_m_s: dlo > 0 ? dL / dlo : Infinity, n: s.n,
-        });
-      }
-    }
-  }
-  return out;
+export const RECOMMENDED_VELOCITY: { method: VelocityRow['method']; basis: VelocityRow['basis'] } = { method: 'regression', basis: 'peak' };
+
+/** Mark the recommended estimator's rows (`recommended: true`). */
+export function markRecommended(rows: readonly VelocityRow[]): VelocityRow[] {
+  return rows.map((r) => ({ ...r, recommended: r.method === RECOMMENDED_VELOCITY.method && r.basis === RECOMMENDED_VELOCITY.basis }));
 }

@@ -1,30 +1,67 @@
 /**
- * The standard pipeline: conditioning, components, velocity, and whichever of
- * recruitment, dose-response and temperature the data supports. Options come from
- * the manifest's "analysis" section (every step optional).
+ * The standard pipeline: conditioning, averaging of repeats, components, velocity, and whichever
+ * of recruitment, dose-response and temperature the data supports. Options come from the
+ * manifest's "analysis" section (every step optional), so the command line does what the API does.
+ *
+ * One bad estimate never discards good ones: a velocity, fit or analysis that cannot be made is
+ * a flagged row (`flags`: analysis, class, where, status, reason), and everything else goes on.
  */
-import type { SweepSet, Step, Source } from '../sweeps/SweepSet';
+import type { SweepSet, Step, Source, ConditionValue } from '../sweeps/SweepSet';
 import type { BaselineOptions } from '../verbs/baseline';
 import type { ArtifactOptions } from '../verbs/artifact';
 import type { HumOptions } from '../verbs/hum';
 import type { FilterOptions } from '../verbs/filter';
 import type { ComponentOptions } from '../measure/components';
 import type { DoseResponseOptions, DoseResponseResult } from '../analysis/doseResponse';
-import type { RecruitmentResult } from '../analysis/recruitment';
-import type { StrengthDurationOptions } from '../analysis/strengthDuration';
-import type { TemperatureResult } from '../analysis/temperature';
+import type { RecruitmentOptions, RecruitmentResult } from '../analysis/recruitment';
+import type { StrengthDurationOptions, StrengthDurationResult } from '../analysis/strengthDuration';
+import { temperatureAnalysis, velocityTemperature, type TemperatureResult } from '../analysis/temperature';
+import { singleSiteVelocity, twoSiteVelocity, regressionVelocity, markRecommended, RECOMMENDED_VELOCITY, type VelocityRow } from '../analysis/velocity';
+import { OptionError } from '../errors';
 import { ComponentTable, VelocityResult } from '../measure/table';
+import { VERSION } from '../version';
+
+type Row = Record<string, ConditionValue>;
 
 export interface PipelineOptions {
   baseline?: BaselineOptions | false;
-  artifact?: ArtifactOptions | false;
+  /** one artifact step, or several applied in order (e.g. blank the rail, then fit the tail) */
+  artifact?: ArtifactOptions | ArtifactOptions[] | false;
   hum?: HumOptions | false;
   filter?: FilterOptions | false;
+  /**
+   * average the repeats of each condition before measuring (sweeps whose conditions are equal
+   * apart from `repeat`, `acquiredS` and the sweep's index in its file), when the sweeps have a `repeat` condition with more
+   * than one value (default true; false measures every sweep)
+   */
+  averageRepeats?: boolean;
+  /** one dose-response and temperature curve over all recording sites instead of one per site (default false) */
+  poolSites?: boolean;
   components?: ComponentOptions;
   doseResponse?: DoseResponseOptions;
-  recruitment?: { measure?: string };
+  recruitment?: RecruitmentOptions;
   strengthDuration?: StrengthDurationOptions;
+  /** measure: a component-table column for Q10 (default: the recommended velocity estimator) */
   temperature?: { measure?: string };
+}
+
+/** The pipeline's own option keys (for validating a manifest's "analysis" section). */
+export const PIPELINE_OPTION_KEYS = ['baseline', 'artifact', 'hum', 'filter', 'averageRepeats', 'poolSites', 'components', 'doseResponse', 'recruitment', 'strengthDuration', 'temperature'] as const;
+
+/**
+ * A result that could not be made, or a value that cannot be right: one row per problem.
+ * severity: 'rejected' (a value that cannot be right, or an analysis that failed), 'not measured'
+ * (too little was detected), 'warning' (kept, but look: e.g. a velocity outside its class's range).
+ */
+export interface Flag {
+  preparation: string | null;
+  analysis: 'velocity' | 'recruitment' | 'dose-response' | 'temperature' | 'strength-duration' | 'thresholds' | 'pipeline';
+  class: string | null;
+  where: string | null;
+  severity: 'rejected' | 'not measured' | 'warning';
+  status: string;
+  reason: string;
+  [k: string]: ConditionValue;
 }
 
 export interface StudyResult {
@@ -35,52 +72,198 @@ export interface StudyResult {
   recruitment: RecruitmentResult | null;
   doseResponse: DoseResponseResult | null;
   temperature: TemperatureResult | null;
+  strengthDuration: StrengthDurationResult | null;
+  flags: Flag[];
   history: readonly Step[];
   sources: readonly Source[];
   notes: string[];
 }
 
-/** Condition a set as the options say (each step optional), in the order baseline, artifact, hum, filter. */
+/** Condition a set as the options say (each step optional), in the order baseline, artifact(s), hum, filter. */
 export function condition(set: SweepSet, o: PipelineOptions): SweepSet {
   let s = set;
   if (o.baseline !== false) s = s.baseline(o.baseline ?? {});
-  if (o.artifact) s = s.removeArtifact(o.artifact);
+  if (o.artifact) {
+    const steps = Array.isArray(o.artifact) ? o.artifact : [o.artifact];
+    steps.forEach((a, i) => {
+      if (!a || typeof a !== 'object' || Array.isArray(a)) throw new OptionError(`invalid artifact${Array.isArray(o.artifact) ? `[${i}]` : ''}: ${JSON.stringify(a)}; must be artifact options ({ method, window, ... })`);
+      s = s.removeArtifact(a);
+    });
+  }
   if (o.hum) s = s.removeHum(o.hum);
   if (o.filter) s = s.filter(o.filter);
   return s;
 }
 
+/** Conditions that tell repeats of one condition apart (never grouped on when averaging repeats). */
+const REPEAT_KEYS = ['repeat', 'acquiredS', 'fileSweep', 'sweep'];
+
+/**
+ * Average the repeats of each condition: sweeps whose conditions are equal apart from `repeat`,
+ * `acquiredS` and `fileSweep` (the sweep's index in its file) become one mean sweep (conditions: the shared ones, `count`, and the mean
+ * `acquiredS` when every member has one). Unchanged when no `repeat` condition has two values.
+ */
+export function averageRepeats(set: SweepSet): SweepSet {
+  const reps = new Set(set.conditions.map((c) => c.repeat).filter((v) => v !== undefined && v !== null));
+  if (reps.size < 2) return set;
+  const keys = [...new Set(set.conditions.flatMap((c) => Object.keys(c)))].filter((k) => !REPEAT_KEYS.includes(k)).sort();
+  const g = set.groupBy(...keys);
+  if (g.groups.length === set.nSweeps) return set;
+  const avg = g.average({ method: 'mean' });
+  const conditions = avg.conditions.map((c, i) => {
+    const t = g.groups[i].indices.map((ix) => set.conditions[ix].acquiredS);
+    return t.every((v) => typeof v === 'number') ? { ...c, acquiredS: (t as number[]).reduce((a, b) => a + b, 0) / t.length } : c;
+  });
+  const step: Step = { verb: 'averageRepeats', options: { method: 'mean', ignored: REPEAT_KEYS, sweeps: set.nSweeps, groups: g.groups.length }, version: VERSION };
+  return avg.create({ conditions, history: [...set.history, step] });
+}
+
 const hasSeries = (t: ComponentTable, name: string) => t.rows.some((r) => r.series === name);
+
+/** Default velocity grouping: the conditions that vary and are not per-sweep or per-distance. */
+export function velocityBy(set: SweepSet): string[] {
+  return ['preparation', 'temperatureC', 'concentration', 'drug', 'epoch'].filter((k) => set.conditions.some((c) => k in c));
+}
+
+/** Every velocity estimate of a table (flagged rows included), the recommended estimator marked. */
+export function velocityOf(t: ComponentTable, by: string[] = velocityBy(t.set)): VelocityResult {
+  const rows: VelocityRow[] = markRecommended([
+    ...singleSiteVelocity(t.rows, by, t.resolved),
+    ...twoSiteVelocity(t.set, t.rows, t.measures, t.resolved, by),
+    ...regressionVelocity(t.rows, by, t.resolved),
+  ]);
+  const step: Step = { verb: 'velocity', options: { by, methods: ['single-site', 'two-site (latency definitions and cross-correlation)', 'regression of latency on distance'], recommended: { ...RECOMMENDED_VELOCITY }, flags: 'implausible values rejected with a reason; other rows kept' }, version: VERSION };
+  return new VelocityResult(rows, by, t.set.sources, [...t.history, step]);
+}
+
+/** Flags from rows with a status other than ok. */
+export function flagsFrom(analysis: Flag['analysis'], rows: readonly Row[], preparation: string | null, where: (r: Row) => string | null): Flag[] {
+  const out: Flag[] = [];
+  for (const r of rows) {
+    const st = r.status;
+    if (st === undefined || st === null || st === 'ok') continue;
+    const s = String(st);
+    const severity: Flag['severity'] = s === 'implausible' || s === 'failed' ? 'rejected' : s === 'not detected' ? 'not measured' : 'warning';
+    out.push({ preparation: (r.preparation as string | undefined) ?? preparation, analysis, class: (r.class as string | undefined) ?? null, where: where(r), severity, status: s, reason: String(r.reason ?? s) });
+  }
+  return out;
+}
+
+const velocityWhere = (r: Row) => [r.method, r.basis, r.method === 'two-site' ? `${r.near_mm}-${r.far_mm} mm` : r.method === 'single-site' ? `${r.distance_mm} mm` : null, r.group].filter(Boolean).join(', ');
+
+/** Per-preparation (or per-set) analysis shared by runPipeline and runPreparation. */
+export interface Analysed {
+  conditioned: SweepSet;
+  table: ComponentTable;
+  velocity: VelocityResult | null;
+  thresholds: Record<string, ConditionValue>[];
+  recruitment: RecruitmentResult | null;
+  strengthDuration: StrengthDurationResult | null;
+  temperature: TemperatureResult | null;
+  flags: Flag[];
+  notes: string[];
+}
+
+function failed(flags: Flag[], notes: string[], analysis: Flag['analysis'], prep: string | null, e: unknown): void {
+  const msg = (e as Error).message;
+  notes.push(`${prep ? `${prep} ` : ''}${analysis}: ${msg}`);
+  flags.push({ preparation: prep, analysis, class: null, where: null, severity: 'rejected', status: 'failed', reason: msg });
+}
+
+/** Conditioning, averaging of repeats, components, velocity, thresholds, recruitment, strength-duration, temperature. */
+export function analyse(set: SweepSet, o: PipelineOptions, prep: string | null = null): Analysed {
+  const notes: string[] = [];
+  const flags: Flag[] = [];
+  let conditioned = condition(set, o);
+  if (o.averageRepeats !== false) {
+    const before = conditioned.nSweeps;
+    conditioned = averageRepeats(conditioned);
+    if (conditioned.nSweeps !== before) notes.push(`${prep ? `${prep}: ` : ''}repeats averaged before measuring: ${before} sweeps -> ${conditioned.nSweeps} (set averageRepeats: false to measure every sweep)`);
+  }
+  const table = conditioned.components(o.components ?? {});
+  const has = (name: string) => hasSeries(table, name);
+  // velocity: the distance series when present, else drug-free sweeps
+  const vt = has('distance') ? table.subset({ series: 'distance' }) : table.subset((r) => !r.concentration);
+  let velocity: VelocityResult | null = null;
+  try {
+    velocity = velocityOf(vt);
+    flags.push(...flagsFrom('velocity', velocity.rows as unknown as Row[], prep, velocityWhere));
+  } catch (e) { failed(flags, notes, 'velocity', prep, e); }
+  const it = has('intensity') ? table.subset({ series: 'intensity' }) : table.subset((r) => typeof r.intensity === 'number');
+  let thresholds: Record<string, ConditionValue>[] = [];
+  try { thresholds = it.threshold(); } catch (e) { failed(flags, notes, 'thresholds', prep, e); }
+  let recruitment: RecruitmentResult | null = null;
+  if (new Set(it.rows.map((r) => r.intensity)).size >= 4) {
+    try {
+      recruitment = it.recruitment(o.recruitment ?? {});
+      flags.push(...flagsFrom('recruitment', recruitment.rows, prep, (r) => (r.distanceMm !== undefined ? `${r.distanceMm} mm` : null)));
+    } catch (e) { failed(flags, notes, 'recruitment', prep, e); }
+  } else notes.push(`${prep ? `${prep} ` : ''}recruitment: fewer than 4 stimulus intensities; not fitted`);
+  // strength-duration: a pulse-width series (or any rows with three or more pulse widths)
+  const pt = has('pulse-width') ? table.subset({ series: 'pulse-width' }) : table.subset((r) => typeof r.pulseWidthMs === 'number');
+  let strengthDuration: StrengthDurationResult | null = null;
+  if (new Set(pt.rows.map((r) => r.pulseWidthMs)).size >= 3) {
+    try {
+      strengthDuration = pt.strengthDuration(o.strengthDuration ?? {});
+      flags.push(...flagsFrom('strength-duration', strengthDuration.rows as Row[], prep, () => null));
+    } catch (e) { failed(flags, notes, 'strength-duration', prep, e); }
+  }
+  let temperature: TemperatureResult | null = null;
+  const tt = has('temperature') ? table.subset({ series: 'temperature' }) : table.subset((r) => !r.concentration);
+  if (new Set(tt.rows.map((r) => r.temperatureC)).size >= 2) {
+    try {
+      temperature = temperatureOf(tt, o);
+      flags.push(...flagsFrom('temperature', temperature.rows, prep, (r) => String(r.measure ?? '')));
+    } catch (e) { failed(flags, notes, 'temperature', prep, e); }
+  } else notes.push(`${prep ? `${prep} ` : ''}temperature: fewer than 2 temperatures; no Q10`);
+  return { conditioned, table, velocity, thresholds, recruitment, strengthDuration, temperature, flags, notes };
+}
+
+/**
+ * Q10: of the recommended velocity estimator at each temperature when every preparation and
+ * temperature has two or more distances; otherwise of the single-site velocity of the same
+ * latency definition; or of `temperature.measure` when given.
+ */
+export function temperatureOf(tt: ComponentTable, o: PipelineOptions): TemperatureResult {
+  if (o.temperature?.measure) return temperatureAnalysis(tt.rows, { measure: o.temperature.measure, poolSites: o.poolSites }, tt.history, tt.set.sources);
+  const keyOf = (r: Row) => `${r.preparation ?? ''}|${r.temperatureC}`;
+  const dists = new Map<string, Set<unknown>>();
+  for (const r of tt.rows) (dists.get(keyOf(r)) ?? dists.set(keyOf(r), new Set()).get(keyOf(r))!).add(r.distance_mm);
+  if (dists.size > 0 && [...dists.values()].every((s) => s.size >= 2)) {
+    const by = ['preparation', 'temperatureC'].filter((k) => tt.set.conditions.some((c) => k in c));
+    return velocityTemperature(velocityOf(tt, by).rows as unknown as Row[], tt.history, tt.set.sources);
+  }
+  const basis = RECOMMENDED_VELOCITY.basis === 'xcorr' ? 'peak' : RECOMMENDED_VELOCITY.basis;
+  return temperatureAnalysis(tt.rows, { measure: `${basis}_velocity_m_s`, poolSites: o.poolSites }, tt.history, tt.set.sources);
+}
 
 /** Run the standard pipeline on a loaded study. */
 export function runPipeline(set: SweepSet, o: PipelineOptions = {}): StudyResult {
-  const notes: string[] = [];
-  const conditioned = condition(set, o);
-  const table = conditioned.components(o.components ?? {});
-  // velocity: the distance series when present, else drug-free sweeps
-  const vt = hasSeries(table, 'distance') ? table.subset({ series: 'distance' }) : table.subset((r) => !r.concentration);
-  let velocity: VelocityResult | null = null;
-  try {
-    velocity = vt.velocity();
-  } catch (e) {
-    notes.push(`velocity: ${(e as Error).message}`);
-  }
-  const it = hasSeries(table, 'intensity') ? table.subset({ series: 'intensity' }) : table.subset((r) => typeof r.intensity === 'number');
-  const thresholds = it.threshold();
-  let recruitment: RecruitmentResult | null = null;
-  if (new Set(it.rows.map((r) => r.intensity)).size >= 4) {
-    try { recruitment = it.recruitment(o.recruitment ?? {}); } catch (e) { notes.push(`recruitment: ${(e as Error).message}`); }
-  } else notes.push('recruitment: fewer than 4 stimulus intensities; not fitted');
+  const a = analyse(set, o);
+  const { table, notes, flags } = a;
   let doseResponse: DoseResponseResult | null = null;
   const dt = hasSeries(table, 'dose') ? table.subset({ series: 'dose' }) : table;
   if (dt.rows.some((r) => typeof r.concentration === 'number' && (r.concentration as number) > 0)) {
-    try { doseResponse = dt.doseResponse(o.doseResponse ?? {}); } catch (e) { notes.push(`dose-response: ${(e as Error).message}`); }
+    try {
+      doseResponse = dt.doseResponse({ ...(o.poolSites !== undefined ? { poolSites: o.poolSites } : {}), ...(o.doseResponse ?? {}) });
+      flags.push(...doseFlags(doseResponse, null));
+    } catch (e) { failed(flags, notes, 'dose-response', null, e); }
   } else notes.push('dose-response: no sweeps with a drug concentration above 0');
-  let temperature: TemperatureResult | null = null;
-  const tt = hasSeries(table, 'temperature') ? table.subset({ series: 'temperature' }) : table.subset((r) => !r.concentration);
-  if (new Set(tt.rows.map((r) => r.temperatureC)).size >= 2) {
-    try { temperature = tt.temperature(o.temperature ?? {}); } catch (e) { notes.push(`temperature: ${(e as Error).message}`); }
-  } else notes.push('temperature: fewer than 2 temperatures; no Q10');
-  const history = [...table.history];
-  return { conditioned, components: table, velocity, thresholds, recruitment, doseResponse, temperature, history, sources: set.sources, notes };
+  return {
+    conditioned: a.conditioned, components: table, velocity: a.velocity, thresholds: a.thresholds, recruitment: a.recruitment,
+    doseResponse, temperature: a.temperature, strengthDuration: a.strengthDuration, flags,
+    history: [...table.history], sources: set.sources, notes,
+  };
+}
+
+/** Flags of a dose-response result (summary and per-preparation rows). */
+export function doseFlags(dr: DoseResponseResult, prep: string | null): Flag[] {
+  const where = (r: Row) => (r.distanceMm !== undefined && r.distanceMm !== null ? `${r.distanceMm} mm` : null);
+  return [...flagsFrom('dose-response', dr.summary, prep, where), ...flagsFrom('dose-response', dr.perPreparation.filter((r) => r.status === 'not detected'), prep, where)];
+}
+
+/** How many numbers a set of tables holds (velocities, fits): 0 means nothing at all could be computed. */
+export function computedCount(t: { velocity?: readonly Row[]; recruitment?: readonly Row[]; dose_response_summary?: readonly Row[]; temperature?: readonly Row[]; strength_duration?: readonly Row[] }): number {
+  const n = (rows: readonly Row[] | undefined, col: string) => (rows ?? []).filter((r) => typeof r[col] === 'number' && Number.isFinite(r[col] as number)).length;
+  return n(t.velocity, 'velocity_m_s') + n(t.recruitment, 'i50') + n(t.dose_response_summary, 'ic50') + n(t.temperature, 'q10') + (t.strength_duration ?? []).length;
 }

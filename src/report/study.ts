@@ -7,9 +7,9 @@
  */
 import { dirname, resolve } from 'node:path';
 import type { ConditionValue, Step, Source, SweepSet } from '../sweeps/SweepSet';
-import { condition, type PipelineOptions } from './pipeline';
+import { analyse, doseFlags, computedCount, type Flag, type PipelineOptions } from './pipeline';
 import { doseResponse, type DoseResponseResult } from '../analysis/doseResponse';
-import { fitTemperature } from '../analysis/temperature';
+import { fitTemperature, temperatureRow } from '../analysis/temperature';
 import { VERSION } from '../version';
 
 type Row = Record<string, ConditionValue>;
@@ -25,6 +25,9 @@ export interface PrepOutput {
   strengthDuration?: Row[];
   strengthDurationPoints?: Row[];
   temperaturePoints: Row[];
+  /** per-preparation temperature rows (Q10 within this preparation; flagged rows included) */
+  temperatureRows?: Row[];
+  flags: Row[];
   history: Step[];
   sources: Source[];
   notes: string[];
@@ -45,6 +48,8 @@ export interface StudyTables {
   dose_response_comparisons: Row[];
   temperature: Row[];
   temperature_points: Row[];
+  /** every estimate that could not be made or cannot be right: analysis, class, where, severity, status, reason */
+  flags: Row[];
 }
 
 export interface Study {
@@ -54,48 +59,26 @@ export interface Study {
   notes: string[];
   doseResponse: DoseResponseResult | null;
   units: string;
+  /** numbers computed (velocities, I50s, IC50s, Q10s, strength-duration rows); 0 = nothing at all could be computed */
+  computed: number;
 }
 
 const strip = (r: object): Row => JSON.parse(JSON.stringify(r, (_k, v) => (typeof v === 'number' && !Number.isFinite(v) ? (Number.isNaN(v) ? null : v > 0 ? 'Infinity' : '-Infinity') : v)));
 
 /** Per-preparation work on the sweeps of one preparation (or any subset). */
 export function runPreparation(set: SweepSet, o: PipelineOptions): PrepOutput {
-  const notes: string[] = [];
   const prep = String(set.conditions[0]?.preparation ?? '');
-  const table = condition(set, o).components(o.components ?? {});
-  const has = (name: string) => table.rows.some((r) => r.series === name);
-  const vt = has('distance') ? table.subset({ series: 'distance' }) : table.subset((r) => !r.concentration);
-  let velocity: Row[] = [];
-  try { velocity = vt.velocity().rows.map(strip); } catch (e) { notes.push(`${prep} velocity: ${(e as Error).message}`); }
-  const it = has('intensity') ? table.subset({ series: 'intensity' }) : table.subset((r) => typeof r.intensity === 'number');
-  const thresholds = it.threshold().map(strip);
-  let recruitment: Row[] = [], recruitmentPoints: Row[] = [];
-  if (new Set(it.rows.map((r) => r.intensity)).size >= 4) {
-    try {
-      const rr = it.recruitment(o.recruitment ?? {});
-      recruitment = rr.rows.map(strip);
-      recruitmentPoints = rr.points.map(strip);
-    } catch (e) { notes.push(`${prep} recruitment: ${(e as Error).message}`); }
-  }
-  // strength-duration: a pulse-width series (or any rows with three or more pulse widths)
-  const pt = has('pulse-width') ? table.subset({ series: 'pulse-width' }) : table.subset((r) => typeof r.pulseWidthMs === 'number');
-  let sd: { rows: Row[]; points: Row[] } | null = null;
-  if (new Set(pt.rows.map((r) => r.pulseWidthMs)).size >= 3) {
-    try {
-      const r = pt.strengthDuration(o.strengthDuration ?? {});
-      sd = { rows: r.rows.map(strip), points: r.points.map(strip) };
-    } catch (e) { notes.push(`${prep} strength-duration: ${(e as Error).message}`); }
-  }
-  let temperaturePoints: Row[] = [];
-  const tt = has('temperature') ? table.subset({ series: 'temperature' }) : table.subset((r) => !r.concentration);
-  if (new Set(tt.rows.map((r) => r.temperatureC)).size >= 2) {
-    try { temperaturePoints = tt.temperature(o.temperature ?? {}).points.map(strip); } catch (e) { notes.push(`${prep} temperature: ${(e as Error).message}`); }
-  }
+  const a = analyse(set, o, prep);
+  const sd = a.strengthDuration ? { rows: a.strengthDuration.rows.map(strip), points: a.strengthDuration.points.map(strip) } : null;
   return {
     preparation: prep, units: set.units,
-    components: table.rows.map(strip), velocity, thresholds, recruitment, recruitmentPoints, temperaturePoints,
+    components: a.table.rows.map(strip), velocity: a.velocity ? a.velocity.rows.map(strip) : [], thresholds: a.thresholds.map(strip),
+    recruitment: a.recruitment ? a.recruitment.rows.map(strip) : [], recruitmentPoints: a.recruitment ? a.recruitment.points.map(strip) : [],
+    temperaturePoints: a.temperature ? a.temperature.points.map((p) => strip({ ...p, preparation: p.preparation || prep })) : [],
+    temperatureRows: a.temperature ? a.temperature.rows.map(strip) : [],
     ...(sd ? { strengthDuration: sd.rows, strengthDurationPoints: sd.points } : {}),
-    history: table.history.map((h) => strip(h) as unknown as Step), sources: [...set.sources], notes,
+    flags: a.flags.map(strip),
+    history: a.table.history.map((h) => strip(h) as unknown as Step), sources: [...set.sources], notes: a.notes,
   };
 }
 
@@ -105,19 +88,42 @@ export function combineStudy(parts: PrepOutput[], o: PipelineOptions): Study {
   const units = ps[0]?.units ?? 'uV';
   const components = ps.flatMap((p) => p.components);
   const notes = ps.flatMap((p) => p.notes);
+  const flags: Row[] = ps.flatMap((p) => p.flags ?? []);
+  const fail = (analysis: Flag['analysis'], cls: string | null, e: unknown) => {
+    notes.push(`${analysis}${cls ? ` ${cls}` : ''}: ${(e as Error).message}`);
+    flags.push({ preparation: null, analysis, class: cls, where: null, severity: 'rejected', status: 'failed', reason: (e as Error).message });
+  };
   let dr: DoseResponseResult | null = null;
   const drRows = components.some((r) => r.series === 'dose') ? components.filter((r) => r.series === 'dose') : components;
   if (drRows.some((r) => typeof r.concentration === 'number' && (r.concentration as number) > 0)) {
-    try { dr = doseResponse(drRows, units, o.doseResponse ?? {}); } catch (e) { notes.push(`dose-response: ${(e as Error).message}`); }
+    try {
+      dr = doseResponse(drRows, units, { ...(o.poolSites !== undefined ? { poolSites: o.poolSites } : {}), ...(o.doseResponse ?? {}) });
+      flags.push(...doseFlags(dr, null).map(strip));
+    } catch (e) { fail('dose-response', null, e); }
   } else notes.push('dose-response: no sweeps with a drug concentration above 0');
   const tp = ps.flatMap((p) => p.temperaturePoints);
   const temperature: Row[] = [];
-  for (const cls of [...new Set(tp.map((r) => String(r.class)))]) {
-    const pts = tp.filter((r) => r.class === cls).map((r) => ({ preparation: r.preparation as string, temperatureC: r.temperatureC as number, value: r.value as number }));
+  // one fit per class (and site, when the points carry one) and measure over all preparations
+  const curveKey = (r: Row) => `${r.class}\u0000${r.distanceMm ?? ''}\u0000${r.measure}`;
+  for (const id of [...new Set(tp.map(curveKey))]) {
+    const mine = tp.filter((r) => curveKey(r) === id);
+    const r0 = mine[0];
+    const site: Row = r0.distanceMm !== undefined ? { distanceMm: r0.distanceMm } : {};
+    const pts = mine.map((r) => ({ preparation: r.preparation as string, temperatureC: r.temperatureC as number, value: r.value as number }));
     try {
-      const f = fitTemperature(pts);
-      temperature.push({ class: cls, measure: String(tp.find((r) => r.class === cls)!.measure), q10: f.q10, q10_ci95_low: f.q10Ci95[0], q10_ci95_high: f.q10Ci95[1], ea_kJ_mol: f.activationEnergyKJ, ea_ci95_low: f.activationEnergyCi95KJ[0], ea_ci95_high: f.activationEnergyCi95KJ[1], preparations: f.preparations, temperatures: f.temperatures.join(', '), n: f.n });
-    } catch (e) { notes.push(`temperature ${cls}: ${(e as Error).message}`); }
+      temperature.push(temperatureRow(String(r0.class), String(r0.measure), fitTemperature(pts), site));
+    } catch (e) {
+      temperature.push({ class: String(r0.class), ...site, measure: String(r0.measure), q10: null, status: 'not detected', reason: (e as Error).message });
+    }
+  }
+  // classes with a per-preparation row but no points (not measured at two temperatures anywhere)
+  for (const p of ps) for (const r of p.temperatureRows ?? []) {
+    if (r.status === 'not detected' && !temperature.some((q) => q.class === r.class && (q.distanceMm ?? null) === (r.distanceMm ?? null))) temperature.push({ ...r, preparation: p.preparation });
+  }
+  for (const r of temperature) {
+    if (r.status !== 'ok' && !flags.some((f) => f.analysis === 'temperature' && f.class === r.class && f.preparation === (r.preparation ?? null) && f.reason === (r.reason ?? r.status))) {
+      flags.push({ preparation: (r.preparation as string) ?? null, analysis: 'temperature', class: String(r.class), where: String(r.measure ?? ''), severity: r.status === 'not detected' ? 'not measured' : 'warning', status: String(r.status), reason: String(r.reason ?? r.status) });
+    }
   }
   const history: Step[] = [...(ps[0]?.history ?? [])];
   if (ps.some((p) => p.velocity.length)) history.push({ verb: 'velocity', options: {}, version: VERSION });
@@ -130,13 +136,14 @@ export function combineStudy(parts: PrepOutput[], o: PipelineOptions): Study {
   const sources = ps.flatMap((p) => p.sources).filter((s) => (seen.has(s.path) ? false : (seen.add(s.path), true)));
   return {
     units, notes, history, sources, doseResponse: dr,
+    computed: computedCount({ velocity: ps.flatMap((p) => p.velocity), recruitment: ps.flatMap((p) => p.recruitment), dose_response_summary: dr ? dr.summary : [], temperature, strength_duration: sdRows }),
     tables: {
       components, velocity: ps.flatMap((p) => p.velocity), thresholds: ps.flatMap((p) => p.thresholds),
       recruitment: ps.flatMap((p) => p.recruitment), recruitment_points: ps.flatMap((p) => p.recruitmentPoints),
       ...(sdRows.length ? { strength_duration: sdRows, strength_duration_points: ps.flatMap((p) => p.strengthDurationPoints ?? []) } : {}),
       dose_response_points: dr ? dr.points.map(strip) : [], dose_response_per_preparation: dr ? dr.perPreparation.map(strip) : [],
       dose_response_summary: dr ? dr.summary.map(strip) : [], dose_response_comparisons: dr ? dr.comparisons.map(strip) : [],
-      temperature: temperature.map(strip), temperature_points: tp,
+      temperature: temperature.map(strip), temperature_points: tp, flags: flags.map(strip),
     },
   };
 }

@@ -9,17 +9,18 @@
  * asserted checks. Options never come from the truth.
  */
 import { describe, it, expect, beforeAll } from 'vitest';
-import type { ComponentTable, VelocityRow } from '../../src';
-import { check, clean, cleanCentroidMs, cleanXcorrDelayMs, conditioned, CLASSES, printChecks, q10Of, TEMPS, truth, windowOf, type Check } from './devset';
+import { runPipeline, type StudyResult } from '../../src';
+import { check, clean, cleanCentroidMs, cleanXcorrDelayMs, loadStudy, CLASSES, printChecks, q10Of, TEMPS, truth, windowOf, type Check } from './devset';
 
-const tables: Partial<Record<string, ComponentTable>> = {};
-const table = (w: 'fast' | 'slow', series: string): ComponentTable => {
+// the public API as a notebook user would call it: the manifest's analysis options, one series at a time
+const results: Partial<Record<string, StudyResult>> = {};
+const result = (w: 'fast' | 'slow', series: string): StudyResult => {
   const k = `${w}|${series}`;
-  if (!tables[k]) {
-    const { set, analysis } = conditioned(w, series);
-    tables[k] = set.components(analysis.components ?? {});
+  if (!results[k]) {
+    const { set, analysis } = loadStudy(w);
+    results[k] = runPipeline(set.where({ series }), analysis);
   }
-  return tables[k]!;
+  return results[k]!;
 };
 
 /** truth of a two-site velocity (m/s) for a latency definition, at temperature T */
@@ -47,12 +48,10 @@ const errors: string[] = [];
 
 beforeAll(() => {
   // ---- velocity per temperature, class, estimator ----
-  const vrows: Record<string, readonly VelocityRow[]> = {};
-  for (const w of ['fast', 'slow'] as const) {
-    try { vrows[w] = table(w, 'temperature').velocity().rows; } catch (e) { errors.push(`velocity (${w}): ${(e as Error).message}`); vrows[w] = []; }
-  }
+  const vrows: Record<string, readonly Record<string, unknown>[]> = {};
+  for (const w of ['fast', 'slow'] as const) vrows[w] = (result(w, 'temperature').velocity?.rows ?? []) as unknown as Record<string, unknown>[];
   for (const cls of CLASSES) {
-    const rows = vrows[windowOf(cls)].filter((r) => r.class === cls && r.method !== 'single-site');
+    const rows = vrows[windowOf(cls)].filter((r) => r.class === cls && r.method !== 'single-site' && r.basis !== undefined);
     for (const T of TEMPS) {
       const at = rows.filter((r) => r.temperatureC === T);
       const kinds = [...new Set(rows.map((r) => `${r.method}|${r.basis}`))].sort();
@@ -62,7 +61,7 @@ beforeAll(() => {
         const t = velocityTruth(cls, T, basis);
         if (!t) continue;
         const tol = cls === 'C' ? 5 : 3;
-        const flag = r && (r as Record<string, unknown>).status && (r as Record<string, unknown>).status !== 'ok' ? String((r as Record<string, unknown>).status) : undefined;
+        const flag = r && r.status && r.status !== 'ok' ? String(r.status) : undefined;
         velocityChecks.push(check('velocity m/s', cls, `${T} C`, `${method} ${basis}`, r ? (r.velocity_m_s as number) : null, t.v, tol, flag ?? (r ? undefined : 'no row')));
       }
     }
@@ -71,8 +70,8 @@ beforeAll(() => {
   for (const cls of CLASSES) {
     const w = windowOf(cls);
     try {
-      const res = table(w, 'temperature').temperature();
-      const row = res.rows.find((r) => r.class === cls);
+      const res = result(w, 'temperature').temperature;
+      const row = res?.rows.find((r) => r.class === cls);
       const measure = String(row?.measure ?? '');
       const basis = /centroid/.test(measure) ? 'centroid' : /peak/.test(measure) ? 'peak' : /onset/.test(measure) ? 'onset' : 'centroid';
       const tq = basis === 'peak' ? truth.q10[cls].q10_two_site_peak_velocity : basis === 'onset' ? truth.q10[cls].q10_two_site_onset10_velocity
@@ -84,7 +83,9 @@ beforeAll(() => {
   // ---- dose-response per class and site ----
   for (const w of ['fast', 'slow'] as const) {
     let summary: Record<string, unknown>[] = [];
-    try { summary = table(w, 'dose').doseResponse().summary as Record<string, unknown>[]; } catch (e) { errors.push(`dose-response (${w}): ${(e as Error).message}`); }
+    const dr = result(w, 'dose');
+    summary = (dr.doseResponse?.summary ?? []) as Record<string, unknown>[];
+    if (!dr.doseResponse) errors.push(`dose-response (${w}): ${dr.notes.join('; ')}`);
     for (const cls of CLASSES.filter((c) => windowOf(c) === w)) {
       for (const mm of [15, 25]) {
         const t = truth.doseResponse[cls][`${mm}mm`];
@@ -98,7 +99,9 @@ beforeAll(() => {
   // ---- recruitment I50 per class (truth at 15 mm) ----
   for (const w of ['fast', 'slow'] as const) {
     let rows: Record<string, unknown>[] = [];
-    try { rows = table(w, 'intensity').recruitment().rows as Record<string, unknown>[]; } catch (e) { errors.push(`recruitment (${w}): ${(e as Error).message}`); }
+    const rr = result(w, 'intensity');
+    rows = (rr.recruitment?.rows ?? []) as Record<string, unknown>[];
+    if (!rr.recruitment) errors.push(`recruitment (${w}): ${rr.notes.join('; ')}`);
     for (const cls of CLASSES.filter((c) => windowOf(c) === w)) {
       const r = rows.find((q) => q.class === cls && q.distanceMm === 15);
       recruitChecks.push(check('I50 mA', cls, '15 mm', 'Boltzmann fit', r?.i50 as number, truth.recruitmentI50_15mm_mA[cls], 10, r && r.status !== 'ok' ? String(r.status) : r ? undefined : 'no row'));
@@ -109,6 +112,10 @@ beforeAll(() => {
   printChecks('Dose-response per site (truth: Hill fit to the clean peaks at that site)', doseChecks);
   printChecks('Recruitment I50', recruitChecks);
   if (errors.length) console.log('errors:\n' + errors.join('\n'));
+  for (const k of Object.keys(results)) {
+    const f = results[k]!.flags.filter((q) => q.severity === 'rejected');
+    console.log(`${k}: ${results[k]!.flags.length} flags, ${f.length} rejected${f.length ? ':\n  ' + f.slice(0, 8).map((q) => `${q.class} ${q.where}: ${q.reason}`).join('\n  ') : ''}`);
+  }
 });
 
 describe('development set FNPG-N07 through the API', () => {

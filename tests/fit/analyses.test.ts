@@ -137,3 +137,159 @@ describe('dose-response with run-down corrected by time-matched vehicle controls
     expect(() => doseResponse(rows.map(({ acquiredS, ...r }) => (r.preparation === 'V1' ? r : { ...r, acquiredS })), 'uV', { runDown: 'vehicle' })).toThrow(/preparation V1, class C: runDown "vehicle" needs the condition "acquiredS"/);
   });
 });
+
+// ---- fits use only what was measured; no interval the data cannot support (issue 12, issue 14) ----
+// Synthetic rows with values chosen here (self-consistency and invariants; common practice, no source).
+import { recruitment, temperatureAnalysis, singleSiteVelocity, regressionVelocity, twoSiteVelocity, SweepSet, PRESETS, AnalysisError } from '../../src';
+
+describe('fitTemperature: a status, and no interval the data cannot support', () => {
+  const T = [20, 25, 30, 37];
+  it('flat data: Q10 1 with no interval, and the status says why', () => {
+    const f = fitTemperature(T.map((t) => ({ temperatureC: t, value: 5 })));
+    expect(f.q10).toBeCloseTo(1, 12);
+    expect(f.q10Ci95).toBeNull();
+    expect(f.activationEnergyCi95KJ).toBeNull();
+    expect(f.status).toMatch(/no temperature dependence/);
+  });
+  it('noise-free data: the exact Q10 with no (zero-width) interval', () => {
+    const f = fitTemperature(T.map((t) => ({ temperatureC: t, value: 2 * Math.pow(1.4, t / 10) })));
+    expect(f.q10).toBeCloseTo(1.4, 10);
+    expect(f.q10Ci95).toBeNull();
+    expect(f.status).toMatch(/exactly on the fitted line/);
+  });
+  it('noisy data: an interval of positive width around the estimate, status ok', () => {
+    const noise = [0.02, -0.015, 0.01, -0.02];
+    const f = fitTemperature(T.map((t, i) => ({ temperatureC: t, value: 2 * Math.pow(1.4, t / 10) * Math.exp(noise[i]) })));
+    expect(f.status).toBe('ok');
+    expect(f.q10Ci95![0]).toBeLessThan(f.q10);
+    expect(f.q10Ci95![1]).toBeGreaterThan(f.q10);
+  });
+  it('two temperatures: a point estimate, no interval (no residual degree of freedom); non-positive values left out and counted', () => {
+    const f = fitTemperature([{ temperatureC: 20, value: 1 }, { temperatureC: 30, value: 1.4 }, { temperatureC: 25, value: 0 }]);
+    expect(f.q10).toBeCloseTo(1.4, 12);
+    expect(f.q10Ci95).toBeNull();
+    expect(f.excluded).toBe(1);
+    expect(f.status).toMatch(/no residual degree of freedom.*1 point\(s\) left out/);
+  });
+  it('temperatureAnalysis leaves undetected rows out and refuses with "not detected" when fewer than two temperatures remain', () => {
+    const rows = T.flatMap((t) => [0, 1].map((k) => ({ class: 'X', preparation: 'P', temperatureC: t, v: 10 * Math.pow(1.4, t / 10) * (1 + 0.01 * k), detected: true })));
+    rows.push(...T.map((t) => ({ class: 'Y', preparation: 'P', temperatureC: t, v: 3, detected: t === 20 })));
+    const res = temperatureAnalysis(rows, { measure: 'v' });
+    const x = res.rows.find((r) => r.class === 'X')!, y = res.rows.find((r) => r.class === 'Y')!;
+    expect(x.q10 as number).toBeCloseTo(1.4, 2);
+    expect(y.status).toBe('not detected');
+    expect(y.q10).toBeNull();
+    expect(y.excluded_not_measured).toBe(3);
+  });
+});
+
+describe('dose-response uses only what was measured, per site', () => {
+  const concs = [0, 1, 3, 10, 30, 100, 300, 1000];
+  const hill = (c: number, ic: number, n: number) => 1 / (1 + Math.pow(c / ic, n));
+  const rowsFor = (cls: string, mm: number, ic: number, detect: (c: number) => boolean) =>
+    concs.flatMap((c) => [0, 1].map((k) => ({ preparation: 'P1', class: cls, distanceMm: mm, concentration: c, repeat: k, amplitude_uV: 100 * hill(c, ic, 1) * (1 + 0.01 * (k ? 1 : -1)), detected: detect(c) })));
+  it('one curve per site unless sites are pooled', () => {
+    const rows = [...rowsFor('A', 15, 30, () => true), ...rowsFor('A', 25, 60, () => true)];
+    const dr = doseResponse(rows, 'uV');
+    const s15 = dr.summary.find((r) => r.distanceMm === 15)!, s25 = dr.summary.find((r) => r.distanceMm === 25)!;
+    expect(s15.ic50 as number).toBeCloseTo(30, 0);
+    expect(s25.ic50 as number).toBeCloseTo(60, 0);
+    const pooled = doseResponse(rows, 'uV', { poolSites: true });
+    expect(pooled.summary.length).toBe(1);
+    expect(pooled.summary[0].distanceMm).toBeUndefined();
+  });
+  it('undetected sweeps are left out and counted; the bottom is fixed at 0 when the top concentrations were not measured', () => {
+    const dr = doseResponse(rowsFor('A', 15, 30, (c) => c < 300), 'uV');
+    const s = dr.summary[0];
+    expect(s.excluded_not_measured).toBe(4);
+    expect(s.points).toBe(5);
+    expect(String(s.status)).toMatch(/4 sweep\(s\) not measured.*bottom fixed at 0/);
+    expect(s.ic50 as number).toBeCloseTo(30, 0);
+  });
+  it('a class not detected gives a row "not detected" with no numbers, not a fit of noise', () => {
+    const dr = doseResponse([...rowsFor('A', 15, 30, () => true), ...rowsFor('B', 15, 30, () => false)], 'uV');
+    const b = dr.summary.find((r) => r.class === 'B')!;
+    expect(b.status).toBe('not detected');
+    expect(b.ic50).toBeNull();
+    expect(String(b.reason)).toMatch(/baseline was not measured/);
+    expect(dr.summary.find((r) => r.class === 'A')!.ic50 as number).toBeCloseTo(30, 0);
+  });
+  it('only zero or negative concentrations: an error that says why', () => {
+    const zero = rowsFor('A', 15, 30, () => true).map((r) => ({ ...r, concentration: 0 }));
+    expect(() => doseResponse(zero, 'uV')).toThrow(AnalysisError);
+    expect(() => doseResponse(zero, 'uV')).toThrow(/all 16 rows have concentration 0/);
+    const neg = rowsFor('A', 15, 30, () => true).map((r) => ({ ...r, concentration: -r.concentration }));
+    expect(() => doseResponse(neg, 'uV')).toThrow(/negative concentration/);
+  });
+});
+
+describe('recruitment uses only what was measured', () => {
+  const I = [0, 0.05, 0.1, 0.2, 0.4, 0.8, 1.6, 3.2];
+  const boltz = (i: number) => 100 / (1 + Math.exp(-(Math.log10(i) - Math.log10(0.4)) / 0.1));
+  const rows = (cls: string, detect: (i: number) => boolean) => I.flatMap((i) => [0, 1].map((k) => ({ preparation: 'P', distanceMm: 15, class: cls, intensity: i, amplitude_uV: i > 0 ? boltz(i) * (1 + 0.01 * (k ? 1 : -1)) : 0.5, detected: detect(i) })));
+  it('intensities <= 0 and undetected sweeps are left out and counted, not dropped silently', () => {
+    const r = recruitment(rows('A', (i) => i >= 0.1), 'uV').rows[0];
+    expect(r.excluded_nonpositive_intensity).toBe(2);
+    expect(r.excluded_not_measured).toBe(2);
+    expect(String(r.status)).toMatch(/2 sweep\(s\) with intensity <= 0 left out/);
+    expect(String(r.status)).toMatch(/floor fixed at 0/);
+    expect(r.i50 as number).toBeCloseTo(0.4, 2);
+  });
+  it('a class never detected is "not detected" (as the thresholds say), with no numbers', () => {
+    const r = recruitment([...rows('A', () => true), ...rows('B', () => false)], 'uV').rows.find((q) => q.class === 'B')!;
+    expect(r.status).toBe('not detected');
+    expect(r.i50).toBeNull();
+    expect(r.threshold).toBeNull();
+  });
+});
+
+describe('one bad velocity never discards good ones', () => {
+  const resolved = { preset: PRESETS.mammalian, classes: PRESETS.mammalian.classes, q10: 1.4, utilisationMs: 0 } as never;
+  // two sites 20 and 30 mm at 37 C; A-alpha/beta at 80 m/s, C at 1 m/s (latency = u + d / v)
+  const row = (cls: string, mm: number, k: number, lat: number) => ({ sweep: (mm === 20 ? 0 : 4) + k, class: cls, detected: true, polarity: 1, preparation: 'P', temperatureC: 37, temperature_C: 37, distanceMm: mm, distance_mm: mm, repeat: k, peak_ms: lat + 0.001 * k });
+  const good = (u: number) => [20, 30].flatMap((mm) => [0, 1, 2, 3].flatMap((k) => [row('A-alpha/beta', mm, k, u + mm / 80), row('C', mm, k, u + mm / 1)]));
+  it('a velocity outside every fibre range is a rejected row; the other class keeps its number', () => {
+    const rows = good(0.2).map((r) => (r.class === 'A-alpha/beta' ? { ...r, peak_ms: 1 + r.distance_mm / 2000 } : r));
+    const v = regressionVelocity(rows as never, ['preparation', 'temperatureC'], resolved);
+    const a = v.find((r) => r.class === 'A-alpha/beta' && r.basis === 'peak')!, c = v.find((r) => r.class === 'C' && r.basis === 'peak')!;
+    expect(a.status).toBe('implausible');
+    expect(a.velocity_m_s).toBeNull();
+    expect(a.rejected_velocity_m_s as number).toBeCloseTo(2000, -1);
+    expect(a.reason).toMatch(/outside any nerve fibre's range/);
+    expect(c.status).toBe('ok');
+    expect(c.velocity_m_s as number).toBeCloseTo(1, 2);
+  });
+  it('a utilisation time far below zero is rejected; a velocity outside its class range is kept and flagged', () => {
+    const rows = good(0.2).map((r) => (r.class === 'C' ? { ...r, peak_ms: r.peak_ms - 12 } : r));
+    const v = regressionVelocity(rows as never, ['preparation'], resolved);
+    const c = v.find((r) => r.class === 'C')!;
+    expect(c.status).toBe('implausible');
+    expect(c.reason).toMatch(/utilisation time\) is -11\.\d+ ms/);
+    const slow = good(0.2).map((r) => (r.class === 'A-alpha/beta' ? { ...r, peak_ms: 0.2 + r.distance_mm / 38 + 0.001 * (r.repeat as number) } : r));
+    const a = regressionVelocity(slow as never, ['preparation'], resolved).find((r) => r.class === 'A-alpha/beta')!;
+    expect(a.status).toBe('outside class range');
+    expect(a.velocity_m_s as number).toBeCloseTo(38, 0);
+    expect(a.reason).toMatch(/outside the A-alpha\/beta range/);
+  });
+  it('two-site: a delay of one sample is not a velocity (left out, counted); pairs follow the conditions, not the order', () => {
+    const fs = 50000;
+    const rows = good(0.2).map((r) => (r.class === 'A-alpha/beta' && r.distance_mm === 30 ? { ...r, peak_ms: 0.2 + 20 / 80 + 0.001 * (r.repeat as number) + 1000 / fs } : r));
+    const conditions = [20, 30].flatMap((mm) => [0, 1, 2, 3].map((k) => ({ preparation: 'P', temperatureC: 37, distanceMm: mm, repeat: k, file: `site${mm}` })));
+    const set = new SweepSet({ data: new Float64Array(8 * 10), nSweeps: 8, nSamples: 10, fs, t0Ms: 0, units: 'uV', conditions });
+    // the far site's rows in reverse order: pairing by the repeat condition must still match them
+    const v = twoSiteVelocity(set, [...rows.filter((r) => r.distance_mm === 20), ...rows.filter((r) => r.distance_mm === 30).reverse()] as never, [], resolved, ['preparation', 'temperatureC']);
+    const a = v.find((r) => r.class === 'A-alpha/beta' && r.basis === 'peak')!, c = v.find((r) => r.class === 'C' && r.basis === 'peak')!;
+    expect(a.status).toBe('implausible');
+    expect(a.velocity_m_s).toBeNull();
+    expect(a.excluded_pairs).toBe(4);
+    expect(a.reason).toMatch(/shorter than 2 sample intervals/);
+    expect(c.status).toBe('ok');
+    expect(c.velocity_m_s as number).toBeCloseTo(1, 6);
+    expect(c.n).toBe(4);
+  });
+  it('single site: every row names its latency definition', () => {
+    const v = singleSiteVelocity(good(0) as never, ['preparation'], resolved);
+    expect(v.every((r) => r.definition === 'peak (parabolic sub-sample)' && r.latency_column === 'peak_ms')).toBe(true);
+    expect(v.find((r) => r.class === 'C')!.velocity_m_s as number).toBeCloseTo(1, 2);
+  });
+});
