@@ -7,6 +7,7 @@ import { spawnSync, execFileSync } from 'node:child_process';
 import { createRequire } from 'node:module';
 const require = createRequire(import.meta.url);
 const f = require('../../dist/index.js');
+import { runScipyComparison } from './scipy.mjs';
 
 const dir = mkdtempSync(join(tmpdir(), 'fascicle-bench-'));
 const S = Number(process.env.BENCH_SWEEPS ?? 1000), N = Number(process.env.BENCH_SAMPLES ?? 20000);
@@ -15,6 +16,7 @@ const mb = (b) => (b / 1e6).toFixed(1);
 const line = (k, v) => console.log(`${k.padEnd(54)} ${v}`);
 const targetNote = (ok) => (ok ? 'meets target' : 'BELOW target');
 console.log(`fascicle ${f.VERSION} benchmarks on ${require('node:os').cpus().length} cores, Node ${process.version}`);
+if (process.env.BENCH_SCIPY !== '0') runScipyComparison(); // BENCH_SCIPY=0 skips the side-by-side table
 
 // --- synthetic data: a deterministic sweep pattern with a fake artifact
 function sample(s, i) {

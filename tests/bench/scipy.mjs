@@ -1,0 +1,181 @@
+// Side by side with the NumPy/SciPy pipeline of ../shared/bench (its README): the same
+// 1,000 x 20,000 float32 sweeps, the same stages, interleaved in one run (SciPy, fascicle
+// on all cores, fascicle on one thread; three rounds), each stage the median of 5 runs
+// after a warm-up, as scipy_pipeline.py times its own. Prints figures, asserts nothing.
+// Run alone: `node --expose-gc tests/bench/scipy.mjs` after `npx tsc -p tsconfig.json`.
+import { existsSync, mkdirSync, readFileSync, writeFileSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join, resolve, dirname } from 'node:path';
+import { spawnSync } from 'node:child_process';
+import { createRequire } from 'node:module';
+import { fileURLToPath } from 'node:url';
+const require = createRequire(import.meta.url);
+const here = dirname(fileURLToPath(import.meta.url));
+const f = require('../../dist/index.js');
+
+const BENCH = resolve(here, '..', '..', '..', 'shared', 'bench');
+const ROUNDS = Number(process.env.BENCH_ROUNDS ?? 3);
+const RUNS = 5;
+const WINDOWS = [['A', 0.3, 1.0], ['B', 1.0, 5.0], ['C', 10.0, 45.0]]; // ms, as scipy_pipeline.py
+const STAGES = ['load_binary', 'baseline', 'blank', 'filter', 'average', 'features', 'hill_fit', 'total'];
+
+function python(args) {
+  return spawnSync('python3', args, { encoding: 'utf8', maxBuffer: 1 << 26 });
+}
+/** The data of make_data.py (cached in the temporary folder); null when python3 or NumPy is missing. */
+function benchData() {
+  if (!existsSync(join(BENCH, 'make_data.py'))) return { dir: null, why: `${BENCH}/make_data.py not found` };
+  const dir = join(tmpdir(), 'fascicle-bench-scipy-data');
+  if (!existsSync(join(dir, 'sweeps.json')) || !existsSync(join(dir, 'sweeps.f32'))) {
+    mkdirSync(dir, { recursive: true });
+    const r = python([join(BENCH, 'make_data.py'), '--out-dir', dir, '--no-csv']);
+    if (r.status !== 0) return { dir: null, why: `make_data.py failed (python3 with NumPy needed): ${(r.stderr || r.error?.message || '').trim().split('\n').pop()}` };
+  }
+  return { dir, why: '' };
+}
+const hasScipy = () => python(['-c', 'import numpy, scipy']).status === 0;
+
+function median(a) {
+  const s = [...a].sort((x, y) => x - y);
+  return s.length % 2 ? s[(s.length - 1) / 2] : 0.5 * (s[s.length / 2 - 1] + s[s.length / 2]);
+}
+function bench(fn, input) {
+  let out = fn(input); // warm-up
+  const ts = [];
+  for (let k = 0; k < RUNS; k++) {
+    global.gc?.();
+    const t0 = process.hrtime.bigint();
+    out = fn(input);
+    ts.push(Number(process.hrtime.bigint() - t0) / 1e9);
+  }
+  return { out, t: median(ts) };
+}
+
+// ---- fascicle's side: the same steps through the public API
+function sidecar(dir, meta) {
+  const p = join(dir, 'fascicle-sweeps.json');
+  if (!existsSync(p)) {
+    writeFileSync(p, JSON.stringify({ data: meta.file, dtype: 'float32', nSweeps: meta.n_sweeps, nSamples: meta.n_samples, fs: meta.fs, t0Ms: meta.t0 * 1000, units: meta.units }));
+  }
+  return p;
+}
+function loadSet(path, meta) {
+  const raw = f.readBinary(path);
+  return raw.create({ conditions: meta.sweeps.map((s) => ({ condition: s.condition })) });
+}
+const baselineStep = (s) => s.baseline({ window: [s.t0Ms, -1000 / s.fs] }); // t < 0, as the SciPy pipeline
+const blankStep = (s) => s.removeArtifact({ method: 'blank', window: [0, 0.3], bridge: 'linear' });
+const filterStep = (s) => s.lowpass(5000, 4);
+const averageStep = (s) => s.groupBy('condition').average();
+/** per average and window: peak (parabolic), onset (first crossing of 4 x MAD noise, interpolated), trapezoid area */
+function featuresStep(avg) {
+  const n = avg.nSamples, dt = 1 / avg.fs;
+  const pre = avg.indexAt(0) - 1; // last sample with t < 0
+  const feat = [];
+  for (let s = 0; s < avg.nSweeps; s++) {
+    const y = avg.sweep(s);
+    const thr = 4 * f.noiseMad(y, 0, pre);
+    const row = [];
+    for (const [, ta, tb] of WINDOWS) {
+      const ia = Math.round(((ta - avg.t0Ms) * avg.fs) / 1000), ib = Math.min(n - 1, Math.round(((tb - avg.t0Ms) * avg.fs) / 1000));
+      let k = ia;
+      for (let i = ia; i <= ib; i++) if (y[i] > y[k]) k = i;
+      const pk = k > ia && k < ib ? f.parabolicPeak(y, k) : { index: k, value: y[k] };
+      let onset = NaN;
+      for (let i = ia; i < ib; i++) if (!(y[i] >= thr) && y[i + 1] >= thr) { onset = avg.timeAt(i) / 1000 + ((thr - y[i]) / (y[i + 1] - y[i])) * dt; break; }
+      let area = 0;
+      for (let i = ia; i < ib; i++) area += 0.5 * (y[i] + y[i + 1]) * dt;
+      row.push([pk.value, avg.t0Ms / 1000 + pk.index * dt, onset, area, thr]);
+    }
+    feat.push(row);
+  }
+  return { feat, conds: avg.conditions.map((c) => c.condition) };
+}
+const hill4 = (logc, p) => p[1] + (p[0] - p[1]) / (1 + Math.pow(10, (logc - p[2]) * p[3]));
+function hillStep(meta) {
+  const conds = meta.conditions;
+  const imax = Math.max(...conds.map((c) => c.intensity_uA));
+  const base = conds.find((c) => c.intensity_uA === imax && c.label === 'baseline').id;
+  const drug = conds.filter((c) => c.intensity_uA === imax && c.concentration_uM > 0);
+  const logc = drug.map((c) => Math.log10(c.concentration_uM));
+  const mid = median(logc);
+  return ({ feat, conds: ids }) => {
+    const row = new Map(ids.map((id, k) => [id, k]));
+    return WINDOWS.map((_, w) => {
+      const y = drug.map((c) => feat[row.get(c.id)][w][0] / feat[row.get(base)][w][0]);
+      return f.fitCurve({ model: hill4, x: logc, y, p0: [1, 0, mid, 1], names: ['top', 'bottom', 'logIC50', 'n'], maxIterations: 10000 }).params;
+    });
+  };
+}
+function fasciclePipeline(path, meta) {
+  const hill = hillStep(meta);
+  const t = {};
+  const load = bench(() => loadSet(path, meta));
+  t.load_binary = load.t;
+  const b = bench(baselineStep, load.out); t.baseline = b.t;
+  const k = bench((s) => { const r = blankStep(s); r.data; return r; }, b.out); t.blank = k.t;
+  const y = bench((s) => { const r = filterStep(s); r.data; return r; }, k.out); t.filter = y.t;
+  const a = bench(averageStep, y.out); t.average = a.t;
+  const ft = bench(featuresStep, a.out); t.features = ft.t;
+  const h = bench(hill, ft.out); t.hill_fit = h.t;
+  const tot = bench((s) => hill(featuresStep(averageStep(filterStep(blankStep(baselineStep(s)))))), load.out);
+  t.total = tot.t;
+  return { t, fits: tot.out, feat: ft.out };
+}
+
+function scipyPipeline(dir) {
+  const r = python([join(BENCH, 'scipy_pipeline.py'), '--data-dir', dir, '--no-variant', '--load', 'binary', '--runs', String(RUNS), '--features-out', join(dir, 'scipy_features.json')]);
+  if (r.status !== 0) return null;
+  const t = {};
+  for (const m of r.stdout.matchAll(/^stage=(\w+) seconds=([\d.eE+-]+)/gm)) t[m[1]] = Number(m[2]);
+  return { t, features: JSON.parse(readFileSync(join(dir, 'scipy_features.json'), 'utf8')) };
+}
+
+export function runScipyComparison() {
+  console.log('\n== side by side with the SciPy pipeline (../shared/bench: 1,000 x 20,000 float32, 50 conditions; median of 5 per stage, 3 interleaved rounds)');
+  const { dir, why } = benchData();
+  if (!dir) { console.log(`skipped: ${why}`); return; }
+  const meta = JSON.parse(readFileSync(join(dir, 'sweeps.json'), 'utf8'));
+  const path = sidecar(dir, meta);
+  const scipyOk = hasScipy();
+  if (!scipyOk) console.log('SciPy side skipped (python3 with NumPy and SciPy not found); fascicle figures only');
+  const T = f.threads();
+  const rec = { scipy: [], all: [], one: [] };
+  let last = null, sp = null;
+  for (let r = 0; r < ROUNDS; r++) {
+    if (scipyOk) { sp = scipyPipeline(dir); if (sp) rec.scipy.push(sp.t); }
+    f.setThreads(T);
+    last = fasciclePipeline(path, meta);
+    rec.all.push(last.t);
+    f.setThreads(1);
+    rec.one.push(fasciclePipeline(path, meta).t);
+    f.setThreads(T);
+  }
+  const best = (list, k) => (list.length ? Math.min(...list.map((t) => t[k])) : NaN);
+  const fmt = (x) => (Number.isFinite(x) ? (x < 0.01 ? x.toPrecision(2) : x.toFixed(4)) : '-');
+  const ratio = (a, b) => (Number.isFinite(a) && Number.isFinite(b) ? (a / b).toFixed(2) : '-');
+  console.log(`${'stage'.padEnd(14)}${'SciPy (s)'.padStart(11)}${`fascicle ${T}T (s)`.padStart(18)}${'ratio'.padStart(8)}${'1 thread (s)'.padStart(14)}${'ratio'.padStart(8)}`);
+  for (const k of STAGES) {
+    const s = best(rec.scipy, k), a = best(rec.all, k), o = best(rec.one, k);
+    console.log(`${(k === 'total' ? 'total (no load)' : k).padEnd(14)}${fmt(s).padStart(11)}${fmt(a).padStart(18)}${ratio(s, a).padStart(8)}${fmt(o).padStart(14)}${ratio(s, o).padStart(8)}`);
+  }
+  console.log('(best of the rounds per stage; ratio = SciPy time / fascicle time, > 1 is faster; targets: every stage >= 1, total >= 2 on all cores, >= 1.2 on one thread)');
+  if (sp) {
+    // agreement of the results: features and IC50s relative to SciPy's
+    let worst = 0;
+    const names = ['peak', 'peak latency', 'onset', 'area'];
+    const worstBy = names.map(() => 0);
+    const row = new Map(last.feat.conds.map((id, k) => [id, k]));
+    sp.features.features.forEach((perW, id) => perW.forEach((v, w) => v.slice(0, 4).forEach((x, q) => {
+      const y = last.feat.feat[row.get(id)][w][q];
+      if (x === null || !Number.isFinite(y)) return;
+      const d = Math.abs(y - x) / Math.max(Math.abs(x), 1e-300);
+      worstBy[q] = Math.max(worstBy[q], d);
+      worst = Math.max(worst, d);
+    })));
+    const ic = sp.features.hill.map((h, w) => Math.abs(10 ** (last.fits[w][2] - h[2]) - 1));
+    console.log(`agreement with SciPy: worst relative difference of features ${worst.toExponential(2)} (${names.map((n, q) => `${n} ${worstBy[q].toExponential(1)}`).join(', ')}); IC50 ${ic.map((x) => x.toExponential(1)).join(', ')}`);
+  }
+}
+
+if (process.argv[1] && resolve(process.argv[1]) === fileURLToPath(import.meta.url)) runScipyComparison();
