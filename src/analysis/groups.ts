@@ -1,0 +1,448 @@
+/**
+ * Statistics across animals and groups, with the preparation (animal) as the unit:
+ * sweeps and electrodes of one animal are not independent replicates (Lazic 2010;
+ * Aarts et al. 2014), so values are first averaged within each animal.
+ *
+ * Tests (each checked against SciPy 1.17 in tests/analysis/groups.test.ts):
+ * - Welch's unequal-variance t test (scipy.stats.ttest_ind(equal_var=False)); Welch 1947.
+ * - Mann-Whitney U, two-sided, as scipy.stats.mannwhitneyu(method='auto'): the exact null
+ *   distribution when either sample has at most 8 values and there are no ties, otherwise the
+ *   normal approximation with tie correction and continuity correction; Mann & Whitney 1947.
+ * - One-way ANOVA (scipy.stats.f_oneway); repeated-measures one-way ANOVA (subjects x conditions,
+ *   the univariate F with Greenhouse-Geisser epsilon; Greenhouse & Geisser 1959).
+ * - Paired t and Wilcoxon signed-rank: pairedCompare in analysis/stats.ts (reused).
+ * - Multiplicity: Holm 1979 step-down; Benjamini & Hochberg 1995 step-up
+ *   (scipy.stats.false_discovery_control(method='bh')).
+ * The linear mixed-effects model is in analysis/mixed.ts.
+ * References: S. E. Lazic, BMC Neurosci. 11 (2010) 5; E. Aarts, M. Verhage, J. V. Veenvliet,
+ * C. V. Dolan, S. van der Sluis, Nat. Neurosci. 17 (2014) 491-496; B. L. Welch, Biometrika 34
+ * (1947) 28-35; H. B. Mann, D. R. Whitney, Ann. Math. Stat. 18 (1947) 50-60; S. Greenhouse,
+ * S. Geisser, Psychometrika 24 (1959) 95-112; S. Holm, Scand. J. Stat. 6 (1979) 65-70;
+ * Y. Benjamini, Y. Hochberg, J. R. Stat. Soc. B 57 (1995) 289-300.
+ */
+import type { ConditionValue, Step, Source } from '../sweeps/SweepSet';
+import { OptionError, AnalysisError } from '../errors';
+import { checkKeys, didYouMean } from '../validate';
+import { betaInc, fSurvival, logGamma, tQuantile } from '../fit/dist';
+import { summarize, pairedCompare } from './stats';
+import { Result } from '../report/result';
+import { toFrame } from '../report/frame';
+import { tableHtml, tableText } from '../notebook/html';
+import { VERSION } from '../version';
+
+type Row = Record<string, ConditionValue>;
+
+/** Status of a test: 'ok', or 'not computed' with a reason (the numbers are then null). */
+export type TestStatus = 'ok' | 'not computed';
+
+/** Two-sided p of Student's t with df degrees of freedom, from the incomplete beta (no 1 - cdf cancellation). */
+export function tTwoSided(t: number, df: number): number {
+  if (!Number.isFinite(t)) return Number.isNaN(t) ? NaN : 0;
+  return betaInc(df / (df + t * t), df / 2, 0.5);
+}
+
+/** Upper regularised incomplete gamma Q(a, x), computed directly in the tail (series below a + 1, continued fraction above). */
+function gammaQ(a: number, x: number): number {
+  if (!(x > 0)) return 1;
+  const gln = logGamma(a);
+  if (x < a + 1) {
+    let sum = 1 / a, del = sum, ap = a;
+    for (let n = 0; n < 10000; n++) { ap++; del *= x / ap; sum += del; if (Math.abs(del) < Math.abs(sum) * 1e-17) break; }
+    return 1 - sum * Math.exp(-x + a * Math.log(x) - gln);
+  }
+  let b = x + 1 - a, c = 1 / 1e-300, d = 1 / b, h = d;
+  for (let i = 1; i < 10000; i++) {
+    const an = -i * (i - a);
+    b += 2;
+    d = an * d + b; if (Math.abs(d) < 1e-300) d = 1e-300;
+    c = b + an / c; if (Math.abs(c) < 1e-300) c = 1e-300;
+    d = 1 / d;
+    const del = d * c;
+    h *= del;
+    if (Math.abs(del - 1) < 1e-16) break;
+  }
+  return Math.exp(-x + a * Math.log(x) - gln) * h;
+}
+
+/** Upper tail of the standard normal, P(Z > z), accurate far in the tail (erfc via Q(1/2, z^2/2)). */
+export function normSf(z: number): number {
+  if (Number.isNaN(z)) return NaN;
+  if (z < 0) return 1 - normSf(-z);
+  return 0.5 * gammaQ(0.5, (z * z) / 2);
+}
+
+const mean = (v: readonly number[]) => v.reduce((a, b) => a + b, 0) / v.length;
+const variance = (v: readonly number[]) => { const m = mean(v); return v.reduce((a, b) => a + (b - m) ** 2, 0) / (v.length - 1); };
+
+interface Status { status: TestStatus; reason: string | null }
+const notComputed = (reason: string) => ({ status: 'not computed' as const, reason });
+
+export interface WelchResult extends Status {
+  n1: number; n2: number; mean1: number | null; mean2: number | null;
+  /** mean1 - mean2 */
+  difference: number | null;
+  t: number | null; df: number | null; p: number | null;
+  ci95: [number, number] | null;
+}
+
+/**
+ * Welch's t test of mean(a) - mean(b) without assuming equal variances; Welch-Satterthwaite df.
+ * O(n). Not computed (status and reason, null numbers) with fewer than 2 values per sample or zero variance in both.
+ * @example welchTTest([1, 2, 3, 4], [2, 4, 6, 8, 10]).t // -2.2703 (scipy.stats.ttest_ind(equal_var=False))
+ */
+export function welchTTest(a: readonly number[], b: readonly number[]): WelchResult {
+  const x = a.filter(Number.isFinite), y = b.filter(Number.isFinite);
+  const base = { n1: x.length, n2: y.length, mean1: x.length ? mean(x) : null, mean2: y.length ? mean(y) : null };
+  const empty = { difference: null, t: null, df: null, p: null, ci95: null };
+  if (x.length < 2 || y.length < 2) return { ...base, ...empty, ...notComputed(`needs at least 2 values per group (n = ${x.length}, ${y.length})`) };
+  const v1 = variance(x) / x.length, v2 = variance(y) / y.length;
+  if (!(v1 + v2 > 0)) return { ...base, ...empty, ...notComputed('both groups have zero variance') };
+  const d = mean(x) - mean(y), se = Math.sqrt(v1 + v2);
+  const df = (v1 + v2) ** 2 / (v1 ** 2 / (x.length - 1) + v2 ** 2 / (y.length - 1));
+  const t = d / se, q = tQuantile(0.975, df);
+  return { ...base, difference: d, t, df, p: tTwoSided(t, df), ci95: [d - q * se, d + q * se], status: 'ok', reason: null };
+}
+
+/** Average ranks (1-based) of v, and the sizes of tied groups. */
+export function rankAverage(v: readonly number[]): { ranks: number[]; ties: number[] } {
+  const order = v.map((x, i) => [x, i] as [number, number]).sort((p, q) => p[0] - q[0]);
+  const ranks = new Array<number>(v.length);
+  const ties: number[] = [];
+  for (let i = 0; i < order.length; ) {
+    let j = i;
+    while (j + 1 < order.length && order[j + 1][0] === order[i][0]) j++;
+    for (let k = i; k <= j; k++) ranks[order[k][1]] = (i + j) / 2 + 1;
+    ties.push(j - i + 1);
+    i = j + 1;
+  }
+  return { ranks, ties };
+}
+
+/**
+ * P(U >= u) under the null for sample sizes m, n (no ties): the largest observation belongs
+ * to the first sample with probability m / (m + n) and then beats all n of the second.
+ * O(m n min(m, n) max(m, n)) with probabilities (no large counts).
+ */
+export function mannWhitneyExactSf(u: number, m: number, n: number): number {
+  if (m > n) [m, n] = [n, m];
+  // p[j] = distribution of U for sizes (j, k) at the current k
+  let p: Float64Array[] = Array.from({ length: m + 1 }, () => Float64Array.of(1));
+  for (let k = 1; k <= n; k++) {
+    const next: Float64Array[] = [Float64Array.of(1)];
+    for (let j = 1; j <= m; j++) {
+      const out = new Float64Array(j * k + 1);
+      const a = next[j - 1], b = p[j];
+      const wa = j / (j + k), wb = k / (j + k);
+      for (let w = 0; w < a.length; w++) out[w + k] += wa * a[w];
+      for (let w = 0; w < b.length; w++) out[w] += wb * b[w];
+      next.push(out);
+    }
+    p = next;
+  }
+  const dist = p[m];
+  let s = 0;
+  for (let w = Math.max(0, Math.ceil(u - 1e-9)); w < dist.length; w++) s += dist[w];
+  return s;
+}
+
+export interface MannWhitneyResult extends Status {
+  n1: number; n2: number;
+  /** U of the first sample (SciPy's statistic) */
+  U: number | null;
+  p: number | null;
+  method: 'exact' | 'normal approximation' | null;
+}
+
+/**
+ * Two-sided Mann-Whitney U test, as scipy.stats.mannwhitneyu(x, y) with method 'auto':
+ * exact when either sample has at most 8 values and there are no ties; otherwise
+ * z = (max(U1, U2) - n1 n2 / 2 - 0.5) / s with s^2 = n1 n2 / 12 ((n + 1) - sum(t^3 - t) / (n (n - 1))).
+ * @example mannWhitneyU([1, 2, 3], [4, 5, 6, 7]).p // 0.05714 (= 2 / 35, exact)
+ */
+export function mannWhitneyU(a: readonly number[], b: readonly number[]): MannWhitneyResult {
+  const x = a.filter(Number.isFinite), y = b.filter(Number.isFinite);
+  const n1 = x.length, n2 = y.length;
+  if (n1 < 1 || n2 < 1 || n1 + n2 < 3) return { n1, n2, U: null, p: null, method: null, ...notComputed(`needs values in both groups (n = ${n1}, ${n2})`) };
+  const { ranks, ties } = rankAverage([...x, ...y]);
+  let R1 = 0;
+  for (let i = 0; i < n1; i++) R1 += ranks[i];
+  const U1 = R1 - (n1 * (n1 + 1)) / 2, U2 = n1 * n2 - U1, U = Math.max(U1, U2);
+  const hasTies = ties.some((t) => t > 1);
+  if (!(n1 > 8 && n2 > 8) && !hasTies) {
+    return { n1, n2, U: U1, p: Math.min(1, 2 * mannWhitneyExactSf(U, n1, n2)), method: 'exact', status: 'ok', reason: null };
+  }
+  const N = n1 + n2;
+  const tie = ties.reduce((s, t) => s + t ** 3 - t, 0);
+  const s = Math.sqrt(((n1 * n2) / 12) * (N + 1 - tie / (N * (N - 1))));
+  if (!(s > 0)) return { n1, n2, U: U1, p: null, method: null, ...notComputed('all values are tied') };
+  const z = (U - (n1 * n2) / 2 - 0.5) / s;
+  return { n1, n2, U: U1, p: Math.min(1, 2 * normSf(z)), method: 'normal approximation', status: 'ok', reason: null };
+}
+
+export interface AnovaResult extends Status {
+  F: number | null; df1: number | null; df2: number | null; p: number | null;
+  ssBetween: number | null; ssWithin: number | null;
+  /** groups (one-way) or subjects (repeated measures) used */
+  n: number[];
+}
+
+/**
+ * One-way ANOVA across groups (as scipy.stats.f_oneway). O(total n).
+ * @example oneWayAnova([[1, 2, 3], [2, 3, 4], [5, 6, 7]]).F // 13 (hand computation: SSB 26, SSW 6)
+ */
+export function oneWayAnova(groups: readonly (readonly number[])[]): AnovaResult {
+  const g = groups.map((v) => v.filter(Number.isFinite));
+  const n = g.map((v) => v.length);
+  const none = { F: null, df1: null, df2: null, p: null, ssBetween: null, ssWithin: null, n };
+  if (g.length < 2) return { ...none, ...notComputed(`needs at least 2 groups (got ${g.length})`) };
+  if (n.some((k) => k < 1)) return { ...none, ...notComputed(`every group needs a value (n = ${n.join(', ')})`) };
+  const N = n.reduce((a, b) => a + b, 0);
+  if (N - g.length < 1) return { ...none, ...notComputed(`needs more values than groups (n = ${n.join(', ')})`) };
+  const grand = mean(g.flat());
+  let ssb = 0, ssw = 0;
+  for (const v of g) {
+    const m = mean(v);
+    ssb += v.length * (m - grand) ** 2;
+    for (const x of v) ssw += (x - m) ** 2;
+  }
+  const df1 = g.length - 1, df2 = N - g.length;
+  if (!(ssw > 0)) return { ...none, ssBetween: ssb, ssWithin: ssw, ...notComputed('no variation within groups') };
+  const F = ssb / df1 / (ssw / df2);
+  return { F, df1, df2, p: fSurvival(F, df1, df2), ssBetween: ssb, ssWithin: ssw, n, status: 'ok', reason: null };
+}
+
+export interface RmAnovaResult extends AnovaResult {
+  /** Greenhouse-Geisser epsilon and the p with both df multiplied by it */
+  epsilonGG: number | null;
+  pGG: number | null;
+  ssSubjects: number | null;
+}
+
+/**
+ * Repeated-measures one-way ANOVA: `y[subject][condition]`, complete cases only.
+ * F = MS(conditions) / MS(conditions x subjects), df (k - 1, (k - 1)(s - 1)); Greenhouse-Geisser
+ * epsilon = tr(C S C)^2 / ((k - 1) tr((C S C)^2)), S the covariance of the conditions, C = I - J / k.
+ * With two conditions F equals the paired t squared.
+ * @example repeatedMeasuresAnova([[1, 2], [2, 4], [3, 5]]).F // 49 (paired differences 1, 2, 2: t = 7)
+ */
+export function repeatedMeasuresAnova(y: readonly (readonly number[])[]): RmAnovaResult {
+  const s = y.length, k = s ? y[0].length : 0;
+  const none = { F: null, df1: null, df2: null, p: null, ssBetween: null, ssWithin: null, ssSubjects: null, epsilonGG: null, pGG: null, n: [s] };
+  if (y.some((r) => r.length !== k || r.some((v) => !Number.isFinite(v)))) return { ...none, ...notComputed('every subject needs a finite value in every condition') };
+  if (k < 2) return { ...none, ...notComputed(`needs at least 2 conditions (got ${k})`) };
+  if (s < 2) return { ...none, ...notComputed(`needs at least 2 subjects (got ${s})`) };
+  const grand = mean(y.flat());
+  const cm = Array.from({ length: k }, (_, j) => mean(y.map((r) => r[j])));
+  const sm = y.map((r) => mean(r));
+  let sst = 0;
+  for (const r of y) for (const v of r) sst += (v - grand) ** 2;
+  const ssc = s * cm.reduce((a, m) => a + (m - grand) ** 2, 0);
+  const sss = k * sm.reduce((a, m) => a + (m - grand) ** 2, 0);
+  const sse = sst - ssc - sss;
+  const df1 = k - 1, df2 = (k - 1) * (s - 1);
+  if (!(sse > 1e-14 * sst)) return { ...none, ssBetween: ssc, ssWithin: sse, ssSubjects: sss, ...notComputed('no condition-by-subject variation') };
+  const F = ssc / df1 / (sse / df2);
+  // Greenhouse-Geisser epsilon from the double-centred covariance matrix
+  const S = Array.from({ length: k }, (_, a) => Array.from({ length: k }, (_, b) => y.reduce((acc, r) => acc + (r[a] - cm[a]) * (r[b] - cm[b]), 0) / (s - 1)));
+  const rowM = S.map((r) => mean(r)), all = mean(rowM);
+  const D = S.map((r, a) => r.map((v, b) => v - rowM[a] - rowM[b] + all));
+  let tr = 0, tr2 = 0;
+  for (let a = 0; a < k; a++) { tr += D[a][a]; for (let b = 0; b < k; b++) tr2 += D[a][b] * D[b][a]; }
+  const eps = tr2 > 0 ? Math.min(1, (tr * tr) / ((k - 1) * tr2)) : 1;
+  return { F, df1, df2, p: fSurvival(F, df1, df2), ssBetween: ssc, ssWithin: sse, ssSubjects: sss, n: [s], epsilonGG: eps, pGG: fSurvival(F, eps * df1, eps * df2), status: 'ok', reason: null };
+}
+
+/**
+ * Holm's step-down adjusted p values (family-wise error). Non-finite entries stay null and do not count.
+ * @example holm([0.01, 0.04, 0.03]) // [0.03, 0.06, 0.06]
+ */
+export function holm(p: readonly (number | null)[]): (number | null)[] {
+  const idx = p.map((v, i) => [v, i] as [number | null, number]).filter(([v]) => typeof v === 'number' && Number.isFinite(v)) as [number, number][];
+  idx.sort((a, b) => a[0] - b[0]);
+  const m = idx.length;
+  const out: (number | null)[] = p.map(() => null);
+  let run = 0;
+  idx.forEach(([v, i], r) => { run = Math.max(run, Math.min(1, (m - r) * v)); out[i] = run; });
+  return out;
+}
+
+/**
+ * Benjamini-Hochberg step-up adjusted p values (false discovery rate), as
+ * scipy.stats.false_discovery_control(p, method='bh'). Non-finite entries stay null and do not count.
+ * @example benjaminiHochberg([0.01, 0.04, 0.03]) // [0.03, 0.04, 0.04]
+ */
+export function benjaminiHochberg(p: readonly (number | null)[]): (number | null)[] {
+  const idx = p.map((v, i) => [v, i] as [number | null, number]).filter(([v]) => typeof v === 'number' && Number.isFinite(v)) as [number, number][];
+  idx.sort((a, b) => a[0] - b[0]);
+  const m = idx.length;
+  const out: (number | null)[] = p.map(() => null);
+  let run = 1;
+  for (let r = m - 1; r >= 0; r--) { run = Math.min(run, (m * idx[r][0]) / (r + 1)); out[idx[r][1]] = Math.min(1, run); }
+  return out;
+}
+
+/** Options of the group analyses; every field names a column of the rows. */
+export interface GroupOptions {
+  /** the measure (a numeric column, e.g. 'amplitude_uV' or 'velocity_m_s') */
+  value: string;
+  /** between-animal factor (default 'group') */
+  group?: string;
+  /** the unit of replication (default 'animal' when the rows have it, else 'preparation') */
+  animal?: string;
+  /** within-animal factor, e.g. time point or drug (default: none) */
+  condition?: string;
+  /** separate analyses for each combination of these columns (default: ['class'] when the rows have it) */
+  by?: string[];
+  /** unit of the value, for labels (default: from the column name after its last '_', else '') */
+  unit?: string;
+}
+
+export const groupDefaults = { group: 'group', animalKeys: ['animal', 'preparation'], by: ['class'] };
+
+/** Column-name unit suffixes (as the component table writes them), longest first. */
+const UNIT_SUFFIXES = ['uV_ms', 'mV_ms', 'V_s', 'm_s', 'uV', 'mV', 'V', 'ms', 'mm', 'mA', 'uA', 'uM', 'nM', 'mM', 'Hz'];
+
+interface Resolved { value: string; group: string; animal: string; condition: string | null; by: string[]; unit: string }
+
+function resolve(rows: readonly Row[], o: GroupOptions): Resolved {
+  checkKeys('group options', o, ['value', 'group', 'animal', 'condition', 'by', 'unit']);
+  const cols = [...new Set(rows.flatMap((r) => Object.keys(r)))];
+  const need = (name: string, col: unknown) => {
+    if (typeof col !== 'string' || !cols.includes(col)) throw new OptionError(`invalid ${name}: ${JSON.stringify(col)} is not a column of the rows${typeof col === 'string' ? didYouMean(col, cols) : ''}; columns are ${cols.join(', ')}`);
+    return col;
+  };
+  if (rows.length === 0) throw new AnalysisError('group statistics need at least one row');
+  const value = need('value', o.value);
+  const group = need('group', o.group ?? groupDefaults.group);
+  const animal = need('animal', o.animal ?? groupDefaults.animalKeys.find((k) => cols.includes(k)) ?? 'animal');
+  const condition = o.condition === undefined ? null : need('condition', o.condition);
+  const by = (o.by ?? groupDefaults.by.filter((k) => cols.includes(k))).map((k) => need('by', k));
+  const known = UNIT_SUFFIXES.find((u) => value.endsWith('_' + u));
+  const unit = o.unit ?? (known ? known.replace('_', '/').replace('uV/ms', 'uV ms').replace('mV/ms', 'mV ms') : '');
+  return { value, group, animal, condition, by, unit };
+}
+
+/** One point per animal: the mean of its values in each cell (by, group, condition). */
+export interface AnimalPoint { key: Row; group: ConditionValue; condition: ConditionValue; animal: ConditionValue; value: number; n: number }
+
+/** Average the rows within each animal and cell; rows without a finite value are counted, not used. */
+export function animalMeans(rows: readonly Row[], options: GroupOptions): { points: AnimalPoint[]; excluded: number; options: Resolved } {
+  const o = resolve(rows, options);
+  const cells = new Map<string, { key: Row; group: ConditionValue; condition: ConditionValue; animal: ConditionValue; sum: number; n: number }>();
+  let excluded = 0;
+  for (const r of rows) {
+    const v = r[o.value];
+    if (typeof v !== 'number' || !Number.isFinite(v) || r[o.animal] === null || r[o.animal] === undefined || r[o.group] === undefined || r[o.group] === null) { excluded++; continue; }
+    const key: Row = {};
+    for (const k of o.by) key[k] = r[k] ?? null;
+    const cond = o.condition ? r[o.condition] ?? null : null;
+    const id = JSON.stringify([o.by.map((k) => key[k]), r[o.group], cond, r[o.animal]]);
+    const c = cells.get(id) ?? cells.set(id, { key, group: r[o.group], condition: cond, animal: r[o.animal], sum: 0, n: 0 }).get(id)!;
+    c.sum += v;
+    c.n++;
+  }
+  return { points: [...cells.values()].map((c) => ({ key: c.key, group: c.group, condition: c.condition, animal: c.animal, value: c.sum / c.n, n: c.n })), excluded, options: o };
+}
+
+const uniq = <T>(xs: T[]) => { const seen = new Set<string>(); return xs.filter((x) => { const k = JSON.stringify(x); return seen.has(k) ? false : (seen.add(k), true); }); };
+
+/** Group summaries and tests with the animal as the unit; see compareGroups. */
+export class GroupComparison extends Result {
+  constructor(
+    readonly summary: Row[],
+    readonly tests: Row[],
+    readonly points: AnimalPoint[],
+    readonly options: Readonly<Resolved>,
+    readonly excluded: number,
+    readonly history: readonly Step[],
+    readonly sources: readonly Source[] = [],
+  ) { super(); }
+
+  tables(): Record<string, readonly object[]> {
+    const pts = this.points.map((p) => ({ ...p.key, group: p.group, ...(this.options.condition ? { condition: p.condition } : {}), animal: p.animal, value: p.value, values_averaged: p.n }));
+    return { group_summary: this.summary, group_tests: this.tests, group_points: pts };
+  }
+  frame(): import('danfojs-node').DataFrame {
+    return toFrame(this.tests as Record<string, unknown>[]);
+  }
+  toHTML(): string {
+    const u = this.options.unit ? ` (${this.options.unit})` : '';
+    return tableHtml(this.summary, { caption: `${this.options.value}${u} per group, animals as the unit (mean, SD, SEM, 95% CI)` }) + tableHtml(this.tests, { caption: 'Tests (p adjusted over the table by Holm and by Benjamini-Hochberg)' });
+  }
+  toString(): string {
+    return `GroupComparison of ${this.options.value} (${this.points.length} animal means${this.excluded ? `; ${this.excluded} rows without a value not used` : ''})\n`
+      + tableText(this.summary, { columns: [...this.options.by, ...(this.options.condition ? ['condition'] : []), 'group', 'n_animals', 'mean', 'sd', 'ci95_low', 'ci95_high', 'status'] }) + '\n'
+      + tableText(this.tests, { columns: [...this.options.by, 'test', 'comparison', 'statistic', 'df', 'p', 'p_holm', 'p_bh', 'status'] });
+  }
+}
+
+/**
+ * Compare groups of animals. Values are averaged within each animal first (the unit). Per cell of
+ * `by` (and `condition`), per group: n animals, mean, SD, SEM, t-based 95% CI. Tests per cell of `by`:
+ * between groups at each condition (two groups: Welch t and Mann-Whitney U; three or more: one-way ANOVA),
+ * and, with `condition`, within each group across conditions (two: paired t on the animals with both;
+ * three or more: repeated-measures ANOVA on the animals with all). p values are adjusted over all tests
+ * of the table by Holm and by Benjamini-Hochberg. A test that cannot be computed is a row with a status and reason.
+ * @example compareGroups(rows, { value: 'amplitude_uV', group: 'group', animal: 'preparation', by: ['class'] })
+ */
+export function compareGroups(rows: readonly Row[], options: GroupOptions, history: readonly Step[] = [], sources: readonly Source[] = []): GroupComparison {
+  const { points, excluded, options: o } = animalMeans(rows, options);
+  const cellsBy = uniq(points.map((p) => p.key));
+  const summary: Row[] = [];
+  const tests: Row[] = [];
+  const push = (base: Row, test: string, comparison: string, r: Partial<Row> & { status: TestStatus; reason: string | null }) => tests.push({ ...base, test, comparison, statistic: null, df: null, df2: null, p: null, estimate: null, ci95_low: null, ci95_high: null, n: null, method: null, ...r });
+  for (const key of cellsBy) {
+    const inKey = points.filter((p) => JSON.stringify(o.by.map((k) => p.key[k])) === JSON.stringify(o.by.map((k) => key[k])));
+    const groups = uniq(inKey.map((p) => p.group));
+    const conds = uniq(inKey.map((p) => p.condition));
+    for (const c of conds) {
+      for (const g of groups) {
+        const v = inKey.filter((p) => p.group === g && p.condition === c).map((p) => p.value);
+        if (!v.length) continue;
+        const s = summarize(v);
+        const ok = v.length >= 2;
+        summary.push({ ...key, ...(o.condition ? { condition: c } : {}), group: g, n_animals: v.length, n_values: inKey.filter((p) => p.group === g && p.condition === c).reduce((a, p) => a + p.n, 0), mean: s.mean, sd: ok ? s.sd : null, sem: ok ? s.sem : null, ci95_low: ok ? s.ci95[0] : null, ci95_high: ok ? s.ci95[1] : null, unit: o.unit, status: ok ? 'ok' : 'not computed', reason: ok ? null : 'one animal: no SD or CI' });
+      }
+      const base: Row = { ...key, ...(o.condition ? { condition: c } : {}) };
+      const vals = groups.map((g) => inKey.filter((p) => p.group === g && p.condition === c).map((p) => p.value));
+      if (groups.length < 2) { push(base, 'between groups', String(groups[0]), notComputed('only one group')); continue; }
+      if (groups.length === 2) {
+        const label = `${groups[0]} vs ${groups[1]}`;
+        const w = welchTTest(vals[0], vals[1]);
+        push(base, 'Welch t', label, { statistic: w.t, df: w.df, p: w.p, estimate: w.difference, ci95_low: w.ci95?.[0] ?? null, ci95_high: w.ci95?.[1] ?? null, n: `${w.n1}, ${w.n2}`, method: 'two-sided, unequal variances', status: w.status, reason: w.reason });
+        const m = mannWhitneyU(vals[0], vals[1]);
+        push(base, 'Mann-Whitney U', label, { statistic: m.U, p: m.p, n: `${m.n1}, ${m.n2}`, method: m.method, status: m.status, reason: m.reason });
+      } else {
+        const a = oneWayAnova(vals);
+        const small = vals.some((v) => v.length < 2);
+        push(base, 'one-way ANOVA', groups.join(', '), small ? { n: vals.map((v) => v.length).join(', '), ...notComputed(`needs at least 2 animals per group (n = ${vals.map((v) => v.length).join(', ')})`) } : { statistic: a.F, df: a.df1, df2: a.df2, p: a.p, n: vals.map((v) => v.length).join(', '), status: a.status, reason: a.reason });
+      }
+    }
+    if (o.condition && conds.length >= 2) {
+      for (const g of groups) {
+        const mine = inKey.filter((p) => p.group === g);
+        const animals = uniq(mine.map((p) => p.animal));
+        const complete = animals.filter((an) => conds.every((c) => mine.some((p) => p.animal === an && p.condition === c)));
+        const y = complete.map((an) => conds.map((c) => mine.find((p) => p.animal === an && p.condition === c)!.value));
+        const base: Row = { ...key, group: g };
+        const dropped = animals.length - complete.length;
+        const note = dropped ? `${dropped} animal${dropped === 1 ? '' : 's'} without every condition left out` : null;
+        if (conds.length === 2) {
+          const label = `${conds[1]} - ${conds[0]} within ${g}`;
+          if (y.length < 2) { push(base, 'paired t', label, { n: y.length, ...notComputed(`needs at least 2 animals with both conditions (got ${y.length})`) }); continue; }
+          const pc = pairedCompare(y.map((r) => r[0]), y.map((r) => r[1]));
+          const ok = Number.isFinite(pc.t);
+          push(base, 'paired t', label, ok ? { statistic: pc.t, df: pc.df, p: pc.pT, estimate: pc.meanDifference, ci95_low: pc.ci95[0], ci95_high: pc.ci95[1], n: y.length, method: note, status: 'ok', reason: null } : { n: y.length, ...notComputed('the paired differences have no variation') });
+        } else {
+          const r = repeatedMeasuresAnova(y);
+          push(base, 'repeated-measures ANOVA', `${conds.join(', ')} within ${g}`, { statistic: r.F, df: r.df1, df2: r.df2, p: r.p, n: y.length, method: r.status === 'ok' ? `Greenhouse-Geisser epsilon ${r.epsilonGG!.toPrecision(3)}, p ${r.pGG!.toPrecision(3)}${note ? `; ${note}` : ''}` : note, status: r.status, reason: r.reason });
+        }
+      }
+    }
+  }
+  const ps = tests.map((t) => (t.status === 'ok' ? (t.p as number) : null));
+  const h = holm(ps), bh = benjaminiHochberg(ps);
+  tests.forEach((t, i) => { t.p_holm = h[i]; t.p_bh = bh[i]; });
+  const step: Step = { verb: 'compareGroups', options: { ...o, unitOfReplication: o.animal, tests: 'Welch t, Mann-Whitney U (exact for n <= 8 without ties), one-way ANOVA, paired t, repeated-measures ANOVA', correction: 'Holm; Benjamini-Hochberg', excludedRows: excluded }, version: VERSION };
+  return new GroupComparison(summary, tests, points, o, excluded, [...history, step], sources);
+}

@@ -1,0 +1,226 @@
+import { describe, it, expect } from 'vitest';
+import { readFileSync } from 'node:fs';
+import { join } from 'node:path';
+import { welchTTest, mannWhitneyU, oneWayAnova, repeatedMeasuresAnova, holm, benjaminiHochberg, compareGroups, normSf, mannWhitneyExactSf } from '../../src/analysis/groups';
+import { mixedModel, fitRandomIntercept, satterthwaiteDf } from '../../src/analysis/mixed';
+import { pairedCompare } from '../../src';
+import { Rng } from '../../src/model/random';
+
+// Reference values: tests/reference/make_groups.py (SciPy 1.17, NumPy 2.4) -> groups.json
+const ref = JSON.parse(readFileSync(join(__dirname, '..', 'reference', 'groups.json'), 'utf8'));
+const rel = (a: number | null, b: number) => { expect(a).not.toBeNull(); expect(Math.abs((a as number) - b) / Math.max(Math.abs(b), 1e-300)).toBeLessThan(1e-6); };
+
+describe('two-sample tests against SciPy', () => {
+  it('welchTTest(a, b) = scipy.stats.ttest_ind(a, b, equal_var=False): t, df, p and 95% CI', () => {
+    for (const c of ref.welch) {
+      const w = welchTTest(c.a, c.b);
+      expect(w.status).toBe('ok');
+      rel(w.t, c.t); rel(w.df, c.df); rel(w.p, c.p); rel(w.ci95![0], c.ci[0]); rel(w.ci95![1], c.ci[1]);
+    }
+  });
+  it('welchTTest with fewer than 2 values in a group is a status, not a number', () => {
+    const w = welchTTest([1], [2, 3, 4]);
+    expect(w.status).toBe('not computed');
+    expect(w.reason).toMatch(/at least 2 values per group \(n = 1, 3\)/);
+    expect([w.t, w.p, w.df]).toEqual([null, null, null]);
+  });
+  it('mannWhitneyU(a, b) = scipy.stats.mannwhitneyu(a, b): U1, two-sided p, exact or normal approximation', () => {
+    for (const c of ref.mannwhitney) {
+      const m = mannWhitneyU(c.a, c.b);
+      expect(m.method).toBe(c.method);
+      expect(m.U).toBe(c.U);
+      rel(m.p, c.p);
+    }
+    // hand check: 3 vs 4 completely separated: 2 / C(7, 3) = 2/35
+    expect(mannWhitneyU([1, 2, 3], [4, 5, 6, 7]).p).toBeCloseTo(2 / 35, 15);
+  });
+  it('mannWhitneyExactSf sums to 1 at U >= 0 and is symmetric in the sample sizes', () => {
+    expect(mannWhitneyExactSf(0, 5, 7)).toBeCloseTo(1, 14);
+    expect(mannWhitneyExactSf(20, 5, 7)).toBeCloseTo(mannWhitneyExactSf(20, 7, 5), 14);
+  });
+  it('normSf stays accurate far in the tail (scipy.stats.norm.sf(8) = 6.22096057427178e-16)', () => {
+    rel(normSf(8), 6.22096057427178e-16);
+    rel(normSf(1.96), 0.024997895148220435); // scipy.stats.norm.sf(1.96)
+  });
+});
+
+describe('ANOVA against SciPy and the textbook sums of squares', () => {
+  it('oneWayAnova(groups) = scipy.stats.f_oneway', () => {
+    for (const c of ref.oneway) {
+      const a = oneWayAnova(c.groups);
+      rel(a.F, c.F); rel(a.p, c.p);
+      expect([a.df1, a.df2]).toEqual([c.df1, c.df2]);
+    }
+    expect(oneWayAnova([[1, 2, 3], [2, 3, 4], [5, 6, 7]]).F).toBeCloseTo(13, 12); // SSB 26 / 2, SSW 6 / 6 (hand)
+  });
+  it('repeatedMeasuresAnova(y) = the NumPy sums of squares, with Greenhouse-Geisser epsilon; two conditions give the paired t squared', () => {
+    for (const c of ref.rm) {
+      const a = repeatedMeasuresAnova(c.y);
+      rel(a.F, c.F); rel(a.p, c.p); rel(a.epsilonGG, c.eps); rel(a.pGG, c.pGG);
+      expect([a.df1, a.df2]).toEqual([c.df1, c.df2]);
+      if (c.paired_t !== undefined) {
+        rel(a.F, c.paired_t ** 2); // scipy.stats.ttest_rel
+        const pc = pairedCompare(c.y.map((r: number[]) => r[0]), c.y.map((r: number[]) => r[1]));
+        rel(pc.t, c.paired_t); rel(a.p, c.paired_p);
+      }
+    }
+  });
+  it('a design that cannot be tested says so', () => {
+    expect(repeatedMeasuresAnova([[1, 2, 3]]).status).toBe('not computed');
+    expect(oneWayAnova([[1, 2]]).reason).toMatch(/at least 2 groups/);
+  });
+});
+
+describe('multiplicity corrections', () => {
+  it('holm(p) = the Holm (1979) step-down definition; benjaminiHochberg(p) = scipy.stats.false_discovery_control(method="bh")', () => {
+    const { p, holm: h, bh } = ref.multiplicity;
+    holm(p).forEach((v, i) => rel(v, h[i]));
+    benjaminiHochberg(p).forEach((v, i) => rel(v, bh[i]));
+    expect(holm([0.01, null, 0.04])).toEqual([0.02, null, 0.04]);
+  });
+});
+
+describe('mixedModel: random intercept per animal, REML, Satterthwaite df', () => {
+  it('unbalanced design (missing cells, 1-4 sweeps per cell) equals the dense SciPy implementation', () => {
+    for (const f of ref.mixed.fits) {
+      const m = mixedModel(ref.mixed.rows, { value: 'value', fixed: ['group', 'condition'], random: 'animal', interaction: f.interaction, levels: { group: ['control', 'treated'], condition: ['pre', 'drug', 'wash'] } });
+      const v = m.variance[0];
+      expect(v.status).toBe('ok');
+      rel(v.animal_variance as number, f.sigma_u2); rel(v.residual_variance as number, f.sigma_e2); rel(v.reml_deviance as number, f.reml_deviance);
+      expect(m.coefficients.map((c) => c.term)).toEqual(f.coefficients.map((c: { term: string }) => c.term));
+      m.coefficients.forEach((c, i) => {
+        const e = f.coefficients[i];
+        rel(c.estimate as number, e.estimate); rel(c.se as number, e.se); rel(c.df as number, e.df); rel(c.t as number, e.t); rel(c.p as number, e.p);
+      });
+      m.anova.forEach((a, i) => {
+        const e = f.anova[i];
+        expect(a.term).toBe(e.term);
+        rel(a.F as number, e.F); rel(a.den_df as number, e.den_df); rel(a.p as number, e.p);
+        expect(a.num_df).toBe(e.num_df);
+      });
+    }
+  });
+
+  // Closed-form balanced cases (Searle, Casella & McCulloch 1992, Variance Components, ch. 4, from memory):
+  // REML = the ANOVA estimators when positive, and the F and t tests equal the classical ANOVA.
+  const r = new Rng(42);
+  it('animals x conditions, one value each: REML = ANOVA estimators; condition F = repeated-measures ANOVA', () => {
+    const s = 6, k = 3;
+    const y = Array.from({ length: s }, () => { const u = 2 * r.normal(); return Array.from({ length: k }, (_, j) => 10 + u + 0.5 * j + 0.7 * r.normal()); });
+    const rows = y.flatMap((row, i) => row.map((v, j) => ({ animal: `A${i}`, condition: `c${j}`, value: v })));
+    const m = mixedModel(rows, { value: 'value', fixed: ['condition'] });
+    const a = repeatedMeasuresAnova(y);
+    const msErr = a.ssWithin! / a.df2!, msSubj = a.ssSubjects! / (s - 1);
+    rel(m.variance[0].residual_variance as number, msErr);
+    rel(m.variance[0].animal_variance as number, (msSubj - msErr) / k);
+    rel(m.anova[0].F as number, a.F!);
+    rel(m.anova[0].den_df as number, (k - 1) * (s - 1));
+    rel(m.anova[0].p as number, a.p!);
+  });
+  it('two conditions: the condition coefficient t and df equal the paired t (df = animals - 1)', () => {
+    const s = 7;
+    const pre = Array.from({ length: s }, () => 5 + r.normal());
+    const post = pre.map((v) => v + 0.8 + 0.6 * r.normal());
+    const rows = [...pre.map((v, i) => ({ animal: `B${i}`, condition: 'pre', value: v })), ...post.map((v, i) => ({ animal: `B${i}`, condition: 'post', value: v }))];
+    const m = mixedModel(rows, { value: 'value', fixed: ['condition'], levels: { condition: ['pre', 'post'] } });
+    const pc = pairedCompare(pre, post);
+    const c = m.coefficients.find((q) => q.term === 'condition: post vs pre')!;
+    rel(c.t as number, pc.t); rel(c.df as number, s - 1); rel(c.p as number, pc.pT);
+    rel(c.estimate as number, pc.meanDifference);
+  });
+  it('groups of animals with repeated sweeps: group F = one-way ANOVA of animal means, df = animals - groups', () => {
+    const G = 3, A = 4, R = 5;
+    const rows: { group: string; animal: string; value: number }[] = [];
+    const means: number[][] = [];
+    const within: number[] = [];
+    for (let g = 0; g < G; g++) {
+      means.push([]);
+      for (let a = 0; a < A; a++) {
+        const u = 1.5 * r.normal();
+        const vs = Array.from({ length: R }, () => 3 + 0.8 * g + u + r.normal());
+        vs.forEach((v) => rows.push({ group: `g${g}`, animal: `g${g}a${a}`, value: v }));
+        const mu = vs.reduce((x, y) => x + y, 0) / R;
+        means[g].push(mu);
+        within.push(vs.reduce((x, y) => x + (y - mu) ** 2, 0));
+      }
+    }
+    const m = mixedModel(rows, { value: 'value', fixed: ['group'] });
+    const a = oneWayAnova(means);
+    const msWithin = within.reduce((x, y) => x + y, 0) / (G * A * (R - 1));
+    const msAnimal = (R * a.ssWithin!) / (G * A - G);
+    rel(m.variance[0].residual_variance as number, msWithin);
+    rel(m.variance[0].animal_variance as number, (msAnimal - msWithin) / R);
+    rel(m.anova[0].F as number, a.F!);
+    rel(m.anova[0].den_df as number, G * A - G);
+    rel(m.anova[0].p as number, a.p!);
+  });
+  it('fitRandomIntercept reports the boundary when animals do not differ', () => {
+    // animal means identical by construction: sigma_u^2 = 0
+    const y = [1, 3, 2, 2, 3, 1], X = y.map(() => [1]), g = ['a', 'a', 'b', 'b', 'c', 'c'];
+    const f = fitRandomIntercept(y, X, g);
+    expect(f.sigmaU2).toBe(0);
+    expect(f.boundary).toBe(true);
+    rel(f.sigmaE2, 0.8); // ordinary sample variance 4/5 (hand)
+    // the intercept is a between-animal contrast: v = se/N, g = (sum n_i^2 / N^2, 1/N); with the expected
+    // information this gives animals - 1 = 2 (hand computation), not N - 1
+    rel(satterthwaiteDf(f, [1]), 2);
+  });
+  it('a cell that cannot be fitted is a row with a status; bad options name the column', () => {
+    const rows = [{ animal: 'a', condition: 'x', value: 1, class: 'C' }, { animal: 'a', condition: 'y', value: 2, class: 'C' }];
+    const m = mixedModel(rows, { value: 'value', fixed: ['condition'] });
+    expect(m.variance[0].status).toBe('not computed');
+    expect(m.variance[0].reason).toMatch(/at least 2 animals/);
+    expect(m.coefficients).toEqual([]);
+    expect(() => mixedModel(rows, { value: 'valeu', fixed: ['condition'] })).toThrow(/"valeu" is not a column.*did you mean "value"/);
+  });
+});
+
+describe('compareGroups(rows, options): animals as the unit', () => {
+  const r = new Rng(9);
+  const rows: Record<string, string | number | boolean | null>[] = [];
+  for (const [g, shift, n] of [['control', 0, 5], ['treated', 1.2, 4]] as const) {
+    for (let a = 0; a < n; a++) {
+      const u = r.normal();
+      for (let s = 0; s < 6; s++) rows.push({ class: 'A', group: g, preparation: `${g}-${a}`, epoch: 'pre', amplitude_uV: 100 + 10 * (u + shift) + 3 * r.normal() });
+      for (let s = 0; s < 6; s++) rows.push({ class: 'A', group: g, preparation: `${g}-${a}`, epoch: 'drug', amplitude_uV: 80 + 10 * (u + shift) + 3 * r.normal() });
+    }
+  }
+  rows.push({ class: 'C', group: 'control', preparation: 'control-0', epoch: 'pre', amplitude_uV: 5 }, { class: 'C', group: 'treated', preparation: 'treated-0', epoch: 'pre', amplitude_uV: 6 }, { class: 'C', group: 'treated', preparation: 'treated-0', epoch: 'pre', amplitude_uV: null });
+  const res = compareGroups(rows, { value: 'amplitude_uV', condition: 'epoch' });
+  it('summaries count animals, not sweeps, and use their means', () => {
+    const s = res.summary.find((q) => q.class === 'A' && q.group === 'treated' && q.condition === 'pre')!;
+    expect(s.n_animals).toBe(4);
+    expect(s.n_values).toBe(24);
+    expect(s.unit).toBe('uV');
+    const means = [0, 1, 2, 3].map((a) => { const v = rows.filter((q) => q.preparation === `treated-${a}` && q.epoch === 'pre' && q.class === 'A').map((q) => q.amplitude_uV as number); return v.reduce((x, y) => x + y, 0) / v.length; });
+    rel(s.mean as number, means.reduce((x, y) => x + y, 0) / 4);
+  });
+  it('the Welch row equals welchTTest on animal means; paired rows equal pairedCompare; p adjusted over the table', () => {
+    const w = res.tests.find((q) => q.class === 'A' && q.test === 'Welch t' && q.condition === 'pre')!;
+    const mean = (g: string, a: number) => { const v = rows.filter((q) => q.preparation === `${g}-${a}` && q.epoch === 'pre' && q.class === 'A').map((q) => q.amplitude_uV as number); return v.reduce((x, y) => x + y, 0) / v.length; };
+    const ref2 = welchTTest([0, 1, 2, 3, 4].map((a) => mean('control', a)), [0, 1, 2, 3].map((a) => mean('treated', a)));
+    rel(w.statistic as number, ref2.t!); rel(w.p as number, ref2.p!);
+    const paired = res.tests.filter((q) => q.test === 'paired t');
+    expect(paired.length).toBe(2);
+    const ok = res.tests.filter((q) => q.status === 'ok').map((q) => q.p as number);
+    const h = holm(ok);
+    res.tests.filter((q) => q.status === 'ok').forEach((q, i) => rel(q.p_holm as number, h[i]!));
+  });
+  it('one animal per group: summary and tests are rows with a status and reason, never a number', () => {
+    const c = res.summary.filter((q) => q.class === 'C');
+    expect(c.every((q) => q.status === 'not computed' && q.sd === null && q.ci95_low === null)).toBe(true);
+    const t = res.tests.filter((q) => q.class === 'C');
+    expect(t.length).toBeGreaterThan(0);
+    const welch = t.find((q) => q.test === 'Welch t')!;
+    expect(welch.status).toBe('not computed');
+    expect(welch.p).toBeNull();
+    expect(welch.p_holm).toBeNull();
+    expect(welch.reason).toMatch(/at least 2 values per group/);
+    expect(res.excluded).toBe(1);
+    expect(res.tables().group_points.length).toBe(2 * 9 + 2);
+  });
+  it('bad column names are typed errors with the nearest name', () => {
+    expect(() => compareGroups(rows, { value: 'amplitude_uv' })).toThrow(/did you mean "amplitude_uV"/);
+    expect(() => compareGroups(rows, { value: 'amplitude_uV', group: 'grup' })).toThrow(/invalid group: "grup"/);
+  });
+});
