@@ -14,11 +14,11 @@
  */
 import { dirname, resolve } from 'node:path';
 import { InputError, OptionError, ThreadError } from '../errors';
-import { conditionsProblem } from '../validate';
+import { conditionsProblem, nearest } from '../validate';
 import { SweepSet, type Conditions } from '../sweeps/SweepSet';
 import { parseSignalUnit } from '../sweeps/units';
 import { closeSync } from 'node:fs';
-import { lazySource, openInput, readInput } from './files';
+import { allocSamples, lazySource, openInput, readInput } from './files';
 import { runSweeps, sharedSamples } from '../parallel/pool';
 import { VERSION } from '../version';
 
@@ -41,6 +41,8 @@ export interface BinarySidecar {
 }
 
 const BYTES = { int16: 2, float32: 4, float64: 8 } as const;
+/** The keys a sidecar may hold (BinarySidecar): any other is refused with the nearest valid name. */
+export const SIDECAR_KEYS = ['data', 'dtype', 'byteOrder', 'layout', 'nSweeps', 'nSamples', 'nChannels', 'channel', 'gain', 'offset', 'fs', 't0Ms', 'units', 'conditions', 'sweeps'] as const;
 
 /** Load a binary recording from its JSON sidecar. @throws InputError naming the sidecar field or data file. */
 export function readBinary(sidecarPath: string, extra: { conditions?: Conditions } = {}): SweepSet {
@@ -57,6 +59,12 @@ export function readBinary(sidecarPath: string, extra: { conditions?: Conditions
     throw new InputError({ file: sidecarPath, field }, problem, expected);
   };
   if (!meta || typeof meta !== 'object' || Array.isArray(meta)) bad('(root)', 'not an object', 'a JSON object');
+  for (const k of Object.keys(meta)) {
+    if (!(SIDECAR_KEYS as readonly string[]).includes(k)) {
+      const near = nearest(k, SIDECAR_KEYS);
+      bad(k, `unknown key "${k}"${near ? ` (did you mean "${near}"?)` : ''}`, `one of ${SIDECAR_KEYS.join(', ')}`);
+    }
+  }
   if (typeof meta.data !== 'string' || !meta.data) bad('data', `data is ${show(meta.data)}`, 'the path of the binary file');
   if (typeof meta.dtype !== 'string' || !Object.hasOwn(BYTES, meta.dtype)) bad('dtype', `unknown dtype ${show(meta.dtype)}`, 'one of int16, float32, float64');
   const order = meta.byteOrder ?? 'little';
@@ -76,6 +84,11 @@ export function readBinary(sidecarPath: string, extra: { conditions?: Conditions
   const offset = meta.offset ?? 0;
   if (typeof gain !== 'number' || !Number.isFinite(gain) || gain === 0) bad('gain', `gain is ${show(gain)}`, 'a finite non-zero number');
   if (typeof offset !== 'number' || !Number.isFinite(offset)) bad('offset', `offset is ${show(offset)}`, 'a finite number');
+  // the largest value the samples can take must be finite, with room to sum a sweep
+  const fullScale = meta.dtype === 'int16' ? 32768 : meta.dtype === 'float32' ? 3.4028234663852886e38 : 0;
+  if (fullScale && !(Number.isFinite((fullScale * Math.abs(gain) + Math.abs(offset)) * nSamples))) {
+    bad('gain', `gain ${show(gain)} (offset ${show(offset)}) makes ${meta.dtype} full scale ${fullScale * Math.abs(gain) + Math.abs(offset)}, beyond the range of finite numbers over a sweep`, `a gain in the units per raw step (${meta.dtype} full scale times gain must stay far below 1e308)`);
+  }
   if (typeof meta.fs !== 'number' || !(meta.fs > 0) || !Number.isFinite(meta.fs)) bad('fs', `fs is ${show(meta.fs)}`, 'a sample rate in Hz > 0');
   const t0Ms = meta.t0Ms ?? 0;
   if (typeof t0Ms !== 'number' || !Number.isFinite(t0Ms)) bad('t0Ms', `t0Ms is ${show(t0Ms)}`, 'a finite time in ms');
@@ -103,7 +116,7 @@ export function readBinary(sidecarPath: string, extra: { conditions?: Conditions
     if (stat.size !== expectBytes) {
       throw new InputError({ file: dataPath }, `the file has ${stat.size} bytes`, `${expectBytes} bytes = ${nSweeps} sweeps x ${nSamples} samples x ${nCh} channels x ${w} bytes (${meta.dtype}) from ${sidecarPath}`);
     }
-    out = sharedSamples(nSweeps * nSamples);
+    out = allocSamples(nSweeps * nSamples, dataPath, `${nSweeps} sweeps x ${nSamples} samples`);
     // read and convert in chunks of about 2 MB per thread, sweeps split across threads
     const chunkSweeps = Math.max(1, Math.floor((1 << 21) / (nSamples * nCh * w)));
     let firstBad: number | undefined;

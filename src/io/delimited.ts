@@ -10,10 +10,10 @@
  */
 import { runSweeps, sharedSamples, threads } from '../parallel/pool';
 import { InputError, OptionError } from '../errors';
-import { conditionsProblem, finite, oneOf } from '../validate';
+import { checkKeys, conditionsProblem, finite, nearest, oneOf } from '../validate';
 import { SweepSet, type Conditions } from '../sweeps/SweepSet';
 import { parseSignalUnit, parseTimeUnit, splitHeader, timeToMs, type SignalUnit, type TimeUnit } from '../sweeps/units';
-import { readInput } from './files';
+import { allocSamples, readInput } from './files';
 import { fieldText, parseNumber } from './numbers';
 import { PLAIN_BLOCK, flushBlock, plainRow } from './plainRows';
 import { VERSION } from '../version';
@@ -40,6 +40,11 @@ export interface DelimitedOptions {
 
 export const delimitedDefaults = { delimiter: 'auto', decimal: 'auto', layout: 'auto', stimulusAt: 0 } as const;
 
+/** The options readDelimited accepts (DelimitedOptions). */
+export const DELIMITED_KEYS = ['delimiter', 'decimal', 'layout', 'timeUnit', 'units', 'stimulusAt', 'conditions'] as const;
+/** A header line longer than this is refused before it is decoded (16 MB: about 800,000 sweep columns). */
+export const MAX_HEADER_BYTES = 1 << 24;
+
 const SWEEP_NAMES = ['sweep', 'trace', 'sweep_id', 'sweepid', 'episode'];
 const TIME_NAMES = ['time', 't'];
 const VALUE_NAMES = ['value', 'signal', 'voltage', 'amplitude', 'potential', 'v'];
@@ -54,6 +59,7 @@ export function readDelimited(path: string, options: DelimitedOptions = {}): Swe
 interface LineCursor { start: number; end: number; line: number }
 
 export function parseDelimited(bytes: Uint8Array, file: string, options: DelimitedOptions = {}, source?: import('../sweeps/SweepSet').Source): SweepSet {
+  checkKeys('readDelimited options', options, DELIMITED_KEYS);
   const opts = { ...delimitedDefaults, ...options };
   // options are checked at the call, before the file is read
   oneOf('delimiter', opts.delimiter, [',', ';', '\t', 'auto'] as const);
@@ -86,6 +92,9 @@ export function parseDelimited(bytes: Uint8Array, file: string, options: Delimit
   };
   const header = next();
   if (!header) throw new InputError({ file }, 'the file has no header line', 'a header such as "time (ms),sweep 1 (mV)"');
+  if (header.end - header.start > MAX_HEADER_BYTES) {
+    throw new InputError({ file, line: header.line }, `the header line is ${header.end - header.start} bytes long`, `a header line under ${MAX_HEADER_BYTES} bytes (is this a delimited text file?)`);
+  }
   const headerText = Buffer.from(bytes.buffer, bytes.byteOffset + header.start, header.end - header.start).toString('utf8');
   let delim: string = opts.delimiter;
   if (delim === 'auto') delim = headerText.includes('\t') ? '\t' : headerText.includes(';') ? ';' : ',';
@@ -98,13 +107,29 @@ export function parseDelimited(bytes: Uint8Array, file: string, options: Delimit
   const idxOf = (cands: string[]) => lower.findIndex((h) => cands.includes(h));
   let layout: string = opts.layout;
   if (layout === 'auto') layout = names.length === 3 && idxOf(SWEEP_NAMES) >= 0 && idxOf(TIME_NAMES) >= 0 && idxOf(VALUE_NAMES) >= 0 ? 'long' : 'wide';
+  if (layout === 'long') {
+    // a long file needs a sweep, a time and a value column, each found by name
+    for (const [role, cands] of [['sweep', SWEEP_NAMES], ['time', TIME_NAMES], ['value', VALUE_NAMES]] as const) {
+      if (idxOf(cands as unknown as string[]) >= 0) continue;
+      const near = lower.map((h) => nearest(h, cands)).find((x) => x !== null);
+      throw new InputError({ file, line: header.line }, `the long layout needs a ${role} column, and the header (${names.map((x) => JSON.stringify(x)).join(', ')}) has none${near ? ` (did you mean "${near}"?)` : ''}`, `a column named one of ${cands.join(', ')}`);
+    }
+    if (names.length !== 3) throw new InputError({ file, line: header.line }, `the long layout has ${names.length} columns`, '3 columns: sweep, time and value');
+  }
 
   // decimal separator
   let dec = 46;
   if (opts.decimal === ',') dec = 44;
   else if (opts.decimal === 'auto' && delim !== ',') {
-    // any comma in the data region of a ';' or tab file can only be a decimal comma
-    if (bytes.indexOf(44, pos) >= 0) dec = 44;
+    // any comma in a data line of a ';' or tab file can only be a decimal comma (comment lines do not count)
+    for (let k = bytes.indexOf(44, pos); k >= 0; ) {
+      let ls = k;
+      while (ls > pos && bytes[ls - 1] !== 10) ls--;
+      while (ls < k && bytes[ls] === 32) ls++;
+      if (bytes[ls] !== 35) { dec = 44; break; }
+      const le = bytes.indexOf(10, k);
+      k = le < 0 ? -1 : bytes.indexOf(44, le);
+    }
   }
   if (dec === 44 && delim === ',') throw new InputError({ file }, 'decimal comma with comma delimiter', 'a semicolon or tab delimiter when numbers use a decimal comma');
 
@@ -153,6 +178,12 @@ export function parseDelimited(bytes: Uint8Array, file: string, options: Delimit
     k = e + 1;
   }
   while (nextCut <= parts) firstRows[nextCut++] = rowsMax;
+  // a valid row has at least ncol digits and ncol - 1 delimiters, so the rows that can be
+  // valid are bounded by the bytes: allocate for no more (a file of many short lines and
+  // a very wide header then cannot ask for more memory than its size justifies)
+  const rowsCap = Math.floor((n - pos + 1) / (2 * ncol)) + 1;
+  const lineCount = rowsMax;
+  if (rowsMax > rowsCap) rowsMax = rowsCap;
 
   const fieldStarts = new Int32Array(ncol + 1);
   const splitLine = (l: LineCursor): void => {
@@ -191,12 +222,12 @@ export function parseDelimited(bytes: Uint8Array, file: string, options: Delimit
   if (layout === 'wide') {
     nSweeps = ncol - 1;
     const t = new Float64Array(sharedOrNot(rowsMax * 8));
-    let buf = sharedSamples(nSweeps * rowsMax);
+    let buf = allocSamples(nSweeps * rowsMax, file, `${nSweeps} sweeps x up to ${rowsMax} rows`);
     let r = 0;
     const lines: number[] = [];
     // all threads on the plain fast path; any other line sends the whole file to the exact parser below
     let parallelRows = -1;
-    if (parts > 1) {
+    if (parts > 1 && lineCount === rowsMax) {
       const res = runSweeps('csvWide', { bytes, starts, firstRows, ncol, rowsMax, dec, dcode, out: buf, t }, parts, n - pos);
       if (res.every((x) => x >= 0)) parallelRows = res.reduce((x, y) => x + y, 0);
     }

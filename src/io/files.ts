@@ -1,21 +1,24 @@
 import { createHash } from 'node:crypto';
 import { openSync, readSync, fstatSync, closeSync, constants, type Stats } from 'node:fs';
 import { InputError } from '../errors';
-import { sharedBytes } from '../parallel/pool';
+import { totalmem } from 'node:os';
+import { sharedBytes, sharedSamples } from '../parallel/pool';
 import type { Source } from '../sweeps/SweepSet';
 
 /** Open a file read-only. @throws InputError naming the file when it cannot be opened. */
 export function openInput(path: string): { fd: number; stat: Stats } {
   let fd: number;
   try {
-    fd = openSync(path, constants.O_RDONLY);
+    // O_NONBLOCK: opening a FIFO (named pipe) must not wait for a writer; it is then refused below
+    fd = openSync(path, constants.O_RDONLY | constants.O_NONBLOCK);
   } catch (e) {
     throw new InputError({ file: path }, `cannot open file (${(e as NodeJS.ErrnoException).code ?? (e as Error).message})`, 'a readable file');
   }
   const stat = fstatSync(fd);
   if (!stat.isFile()) {
     closeSync(fd);
-    throw new InputError({ file: path }, stat.isDirectory() ? 'this is a folder' : 'this is not a regular file', 'a readable file');
+    const kind = stat.isDirectory() ? 'a folder' : stat.isFIFO() ? 'a named pipe (FIFO)' : stat.isSocket() ? 'a socket' : stat.isCharacterDevice() || stat.isBlockDevice() ? 'a device' : 'not a regular file';
+    throw new InputError({ file: path }, `this is ${kind}`, 'a regular file');
   }
   return { fd, stat };
 }
@@ -72,10 +75,17 @@ export function readInput(path: string, options: { shared?: (size: number) => bo
   const { fd, stat } = openInput(path);
   try {
     const size = stat.size;
-    const bytes = options.shared?.(size) ? sharedBytes(size) : new Uint8Array(new ArrayBuffer(size));
+    let bytes: Uint8Array;
+    try {
+      bytes = options.shared?.(size) ? sharedBytes(size) : new Uint8Array(new ArrayBuffer(size));
+    } catch (e) {
+      if (e instanceof RangeError) throw new InputError({ file: path }, `the file has ${size} bytes, more than can be held in memory (${e.message})`, 'a smaller file (split the recording)');
+      throw e;
+    }
     let off = 0;
     while (off < size) {
-      const n = readSync(fd, bytes, off, size - off, off);
+      // one read returns at most 2 GB - 1 byte: read in parts of 1 GB
+      const n = readSync(fd, bytes, off, Math.min(size - off, 1 << 30), off);
       if (n <= 0) break;
       off += n;
     }
@@ -94,5 +104,22 @@ export function sha256File(path: string): string {
     return hashFd(fd, stat.size);
   } finally {
     closeSync(fd);
+  }
+}
+
+/**
+ * A Float64Array for n samples (sharedSamples), refused with an InputError naming the file
+ * when it would take more than three quarters of the machine's memory or cannot be allocated.
+ */
+export function allocSamples(n: number, file: string, what: string): Float64Array {
+  const need = n * 8;
+  const limit = 0.75 * totalmem();
+  const gb = (x: number) => (x / 2 ** 30).toPrecision(3);
+  if (!(need <= limit)) throw new InputError({ file }, `${what} need ${gb(need)} GB of memory as 64-bit samples, more than three quarters of this machine's ${gb(totalmem())} GB`, 'a recording that fits in memory (load part of it, or split the file)');
+  try {
+    return sharedSamples(n);
+  } catch (e) {
+    if (e instanceof RangeError) throw new InputError({ file }, `${what} need ${gb(need)} GB of memory as 64-bit samples, which could not be allocated (${e.message})`, 'a recording that fits in memory (load part of it, or split the file)');
+    throw e;
   }
 }

@@ -40,6 +40,8 @@ export interface ConditionSpec {
   own?: string;
   /** condition that receives the unit (withUnit kinds) */
   unitCondition?: string;
+  /** a time condition in s (others are in ms) */
+  seconds?: boolean;
 }
 
 export const NWB_CONDITIONS: Readonly<Record<string, ConditionSpec>> = {
@@ -57,7 +59,7 @@ export const NWB_CONDITIONS: Readonly<Record<string, ConditionSpec>> = {
   epoch: { kind: 'text', names: ['epoch', 'phase'] },
   repeat: { kind: 'number', names: ['repeat', 'repetition', 'rep'] },
   polarity: { kind: 'number', names: ['polarity', 'stimulus_polarity'] },
-  acquiredS: { kind: 'time', own: 'acquiredS', names: ['acquired_s', 'acquisition_time'] },
+  acquiredS: { kind: 'time', own: 'acquiredS', seconds: true, names: ['acquired_s', 'acquisition_time'] },
   sourceFile: { kind: 'text', names: ['source_file'] },
   sourceSweep: { kind: 'number', names: ['source_sweep'] },
 };
@@ -96,7 +98,8 @@ function suffixUnit(kind: ColumnKind, suffix: string): string | undefined {
 export function findColumn(condition: string, spec: ConditionSpec, columns: readonly TableColumn[]): { column: TableColumn; unit?: string } | null {
   if (spec.own) {
     const own = columns.find((c) => c.name === spec.own);
-    if (own) return { column: own, unit: own.unit ?? ({ time: 'ms', length: 'mm', temperature: 'c' } as Record<string, string>)[spec.kind] };
+    const implied = spec.seconds ? 's' : ({ time: 'ms', length: 'mm', temperature: 'c' } as Record<string, string>)[spec.kind];
+    if (own) return { column: own, unit: own.unit ?? implied };
   }
   const exact = columns.find((c) => c.name === condition);
   if (exact && !spec.own) return { column: exact, unit: exact.unit };
@@ -138,8 +141,8 @@ export function convertColumn(file: string, condition: string, spec: ConditionSp
   if (spec.kind === 'time' || spec.kind === 'length') {
     const table = spec.kind === 'time' ? TIME_UNITS : LENGTH_UNITS;
     const u = unit === undefined ? (spec.kind === 'time' ? 's' : 'm') : norm(unit).toLowerCase();
-    const factor = table[u];
-    if (factor === undefined) {
+    const factor = table[u] / (spec.seconds ? 1000 : 1);
+    if (!Number.isFinite(factor)) {
       bad(`column "${column.name}" has the unit ${JSON.stringify(unit)}`, `one of ${Object.keys(table).join(', ')} for ${condition}`);
     }
     const note = unit === undefined ? `${column.name}: no unit given, read as ${u} (NWB's SI convention)` : undefined;

@@ -136,7 +136,7 @@ describe('readManifest(path)', () => {
   it('refuses a folder given as a file, naming it', () => {
     const p = sidecar({ dtype: 'float32', nSweeps: 1, nSamples: 2, fs: 1000, units: 'uV' }, new Uint8Array(8));
     writeFileSync(p, JSON.stringify({ data: '.', dtype: 'float32', nSweeps: 1, nSamples: 2, fs: 1000, units: 'uV' }));
-    expect(() => readBinary(p)).toThrow(/: this is a folder; expected a readable file/);
+    expect(() => readBinary(p)).toThrow(/: this is a folder; expected a regular file/);
   });
   it('names a missing file', () => {
     expect(() => readManifest(manifest({ fascicleManifest: 1, files: [{ path: 'nope.csv', conditions: { preparation: 'A' } }] }))).toThrow(/nope\.csv: cannot open file \(ENOENT\)/);
