@@ -1,6 +1,7 @@
 import { describe, it, expect } from 'vitest';
-import { readFileSync } from 'node:fs';
-import { join } from 'node:path';
+import { readFileSync, existsSync, writeFileSync, mkdirSync } from 'node:fs';
+import { join, dirname } from 'node:path';
+import { groupFigure, groupFigures } from '../../src/plot/groups';
 import { welchTTest, mannWhitneyU, oneWayAnova, repeatedMeasuresAnova, holm, benjaminiHochberg, compareGroups, normSf, mannWhitneyExactSf } from '../../src/analysis/groups';
 import { mixedModel, fitRandomIntercept, satterthwaiteDf } from '../../src/analysis/mixed';
 import { pairedCompare } from '../../src';
@@ -222,5 +223,45 @@ describe('compareGroups(rows, options): animals as the unit', () => {
   it('bad column names are typed errors with the nearest name', () => {
     expect(() => compareGroups(rows, { value: 'amplitude_uv' })).toThrow(/did you mean "amplitude_uV"/);
     expect(() => compareGroups(rows, { value: 'amplitude_uV', group: 'grup' })).toThrow(/invalid group: "grup"/);
+  });
+});
+
+describe('groupFigure(result): points per animal, mean and 95% CI per group', () => {
+  const rows = [
+    ...['a1', 'a2', 'a3'].flatMap((a, i) => ['pre', 'post'].map((e, j) => ({ class: 'A', group: 'control', animal: a, epoch: e, velocity_m_s: 40 + i + 2 * j }))),
+    ...['b1', 'b2', 'b3'].flatMap((a, i) => ['pre', 'post'].map((e, j) => ({ class: 'A', group: '<img src=x onerror=alert(1)>', animal: a, epoch: e, velocity_m_s: 35 + i - 3 * j }))),
+  ];
+  const res = compareGroups(rows, { value: 'velocity_m_s', condition: 'epoch' });
+  const fig = groupFigure(res);
+  it('matches the stored spec (numbers rounded; tests/analysis/__snapshots__/group-figure.json)', () => {
+    // traces and axes of this figure only: the house style (palette, fonts) belongs to plot/figure.ts
+    const spec = JSON.parse(fig.specJson(5), (k, v) => (k === 'color' ? undefined : v));
+    const ax = (a: { title?: { text?: string }; tickvals?: unknown; ticktext?: unknown; range?: unknown }) => ({ title: a.title?.text, tickvals: a.tickvals, ticktext: a.ticktext, range: a.range });
+    const mine = { data: spec.data, layout: { title: spec.layout.title?.text, xaxis: ax(spec.layout.xaxis), yaxis: ax(spec.layout.yaxis) } };
+    const text = JSON.stringify(mine, null, 1) + '\n';
+    const p = join(__dirname, '__snapshots__', 'group-figure.json');
+    if (!existsSync(p)) { mkdirSync(dirname(p), { recursive: true }); writeFileSync(p, text); }
+    const stored = readFileSync(p, 'utf8');
+    if (stored !== text) writeFileSync(p + '.changed', text);
+    expect(text).toBe(stored);
+  });
+  it('labels carry units, user strings are escaped, and the CI is the t interval of animal means', () => {
+    const l = fig.spec.layout as { xaxis: { title: { text: string }; ticktext: string[] }; yaxis: { title: { text: string } } };
+    // (the house layout capitalises axis titles)
+    expect(l.yaxis.title.text).toMatch(/^velocity \(m\/s\)$/i);
+    expect(l.xaxis.title.text).toMatch(/^epoch$/i);
+    expect(l.xaxis.ticktext).toEqual(['pre', 'post']);
+    const json = JSON.stringify(fig.spec);
+    expect(json).not.toContain('<img');
+    expect(json).toContain('&lt;img src=x onerror=alert(1)&gt;');
+    const meanTrace = fig.spec.data.find((d) => d.name === 'control mean, 95% CI') as { y: number[]; error_y: { array: number[] } };
+    // control pre: animal values 40, 41, 42 -> mean 41, SD 1, CI half-width t(0.975, 2) / sqrt 3 = 4.302653 / 1.732051
+    expect(meanTrace.y[0]).toBeCloseTo(41, 12);
+    expect(meanTrace.error_y.array[0]).toBeCloseTo(4.302652729749464 / Math.sqrt(3), 9); // scipy.stats.t.ppf(0.975, 2)
+    expect(fig.spec.data.filter((d) => d.mode === 'markers' && String(d.name).endsWith('(animals)')).map((d) => (d.y as number[]).length)).toEqual([6, 6]);
+  });
+  it('groupFigures gives one figure per class; an unknown cell is a typed error', () => {
+    expect(groupFigures(res).length).toBe(1);
+    expect(() => groupFigure(res, { cell: { class: 'Z' } })).toThrow(/no cell/);
   });
 });

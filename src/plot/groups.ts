@@ -1,0 +1,92 @@
+/**
+ * Group-comparison figure: one point per animal (preparation), and the mean with its t-based
+ * 95% CI per group; with a within-animal condition, conditions along the x axis, groups side by
+ * side and each animal's points joined. User strings (group, condition, animal names) are
+ * HTML-escaped before they reach the spec, since plotly renders tags in names and labels.
+ */
+import type { ConditionValue } from '../sweeps/SweepSet';
+import type { GroupComparison } from '../analysis/groups';
+import { Figure, PALETTE, baseLayout } from './figure';
+import { escapeHtml } from '../notebook/html';
+import { OptionError } from '../errors';
+
+const colour = (i: number) => PALETTE[i % PALETTE.length];
+const same = (a: unknown, b: unknown) => JSON.stringify(a) === JSON.stringify(b);
+
+/** A deterministic jitter in [-1, 1] from a label (so a figure is the same on every run). */
+function jitter(label: string): number {
+  let h = 2166136261;
+  for (let i = 0; i < label.length; i++) h = Math.imul(h ^ label.charCodeAt(i), 16777619);
+  return ((h >>> 0) / 4294967295) * 2 - 1;
+}
+
+/**
+ * The figure of one cell of the comparison's `by` columns (default: the first cell).
+ * @example groupFigure(compareGroups(rows, { value: 'amplitude_uV', condition: 'epoch' }), { cell: { class: 'A-beta' } })
+ */
+export function groupFigure(result: GroupComparison, options: { cell?: Record<string, ConditionValue>; label?: string; title?: string } = {}): Figure {
+  const o = result.options;
+  const cells = result.summary.map((s) => Object.fromEntries(o.by.map((k) => [k, s[k]])));
+  if (!cells.length) throw new OptionError('groupFigure: the comparison has no summary rows');
+  const cell = options.cell ?? cells[0];
+  if (!cells.some((c) => o.by.every((k) => same(c[k], cell[k])))) {
+    throw new OptionError(`groupFigure: no cell ${JSON.stringify(cell)}; cells are ${[...new Set(cells.map((c) => JSON.stringify(c)))].join(', ')}`);
+  }
+  const inCell = (r: Record<string, unknown>) => o.by.every((k) => same(r[k], cell[k]));
+  const pts = result.points.filter((p) => inCell(p.key));
+  const sum = result.summary.filter(inCell);
+  const groups = [...new Set(pts.map((p) => JSON.stringify(p.group)))].map((g) => JSON.parse(g) as ConditionValue);
+  const conds = [...new Set(pts.map((p) => JSON.stringify(p.condition)))].map((c) => JSON.parse(c) as ConditionValue);
+  const G = groups.length;
+  const width = 0.7 / Math.max(1, G);
+  const xOf = (c: ConditionValue, g: ConditionValue) => conds.findIndex((q) => same(q, c)) + (groups.findIndex((q) => same(q, g)) - (G - 1) / 2) * width;
+  const data: Record<string, unknown>[] = [];
+  groups.forEach((g, gi) => {
+    const mine = pts.filter((p) => same(p.group, g));
+    const name = escapeHtml(String(g));
+    if (o.condition && conds.length > 1) {
+      for (const a of [...new Set(mine.map((p) => String(p.animal)))]) {
+        const line = conds.map((c) => mine.find((p) => String(p.animal) === a && same(p.condition, c)));
+        data.push({ type: 'scatter', mode: 'lines', x: line.map((p, k) => (p ? xOf(conds[k], g) + 0.25 * width * jitter(a) : null)), y: line.map((p) => (p ? p.value : null)), line: { color: colour(gi), width: 0.8 }, opacity: 0.35, showlegend: false, hoverinfo: 'skip', name: `${name} ${escapeHtml(a)}` });
+      }
+    }
+    data.push({
+      type: 'scatter', mode: 'markers', name: `${name} (animals)`,
+      x: mine.map((p) => xOf(p.condition, g) + 0.25 * width * jitter(String(p.animal))), y: mine.map((p) => p.value),
+      text: mine.map((p) => `${escapeHtml(String(p.animal))}: mean of ${p.n}`), hoverinfo: 'text+y',
+      marker: { color: colour(gi), size: 7, opacity: 0.75 },
+    });
+    const s = conds.map((c) => sum.find((q) => same(q.group, g) && (!o.condition || same(q.condition, c))));
+    const ok = s.filter((q) => q && q.status === 'ok');
+    data.push({
+      type: 'scatter', mode: 'markers', name: `${name} mean, 95% CI`,
+      x: ok.map((q) => xOf(o.condition ? (q!.condition as ConditionValue) : null, g)), y: ok.map((q) => q!.mean),
+      error_y: { type: 'data', symmetric: false, array: ok.map((q) => (q!.ci95_high as number) - (q!.mean as number)), arrayminus: ok.map((q) => (q!.mean as number) - (q!.ci95_low as number)), color: '#222', thickness: 1.5, width: 6 },
+      marker: { symbol: 'line-ew-open', size: 22, color: '#222', line: { width: 2 } },
+    });
+  });
+  const unit = o.unit ? ` (${escapeHtml(o.unit)})` : '';
+  const label = escapeHtml(options.label ?? o.value.replace(/_(uV_ms|mV_ms|V_s|m_s|uV|mV|V|ms|mm|mA|uA|uM|nM|mM|Hz)$/, '').replace(/_/g, ' '));
+  const where = o.by.map((k) => `${escapeHtml(k)} ${escapeHtml(String(cell[k]))}`).join(', ');
+  const title = options.title !== undefined ? escapeHtml(options.title) : `${label} by group${where ? ` (${where})` : ''}: animals as the unit`;
+  const xTitle = o.condition ? escapeHtml(o.condition) : escapeHtml(o.group);
+  const base = baseLayout(title, xTitle, `${label}${unit}`);
+  const xaxis = { ...(base.xaxis as object), tickmode: 'array', tickvals: conds.map((_, i) => i), ticktext: o.condition ? conds.map((c) => escapeHtml(String(c))) : [''], range: [-0.6, conds.length - 0.4] };
+  const name = `groups-${o.value}${o.by.map((k) => `-${String(cell[k])}`).join('')}`.replace(/[^A-Za-z0-9_.-]+/g, '_');
+  return new Figure(name, { data, layout: { ...base, xaxis } });
+}
+
+/** One group figure per cell of the comparison's `by` columns. */
+export function groupFigures(result: GroupComparison, options: { label?: string } = {}): Figure[] {
+  const o = result.options;
+  const seen = new Set<string>();
+  const out: Figure[] = [];
+  for (const s of result.summary) {
+    const cell = Object.fromEntries(o.by.map((k) => [k, s[k]]));
+    const id = JSON.stringify(cell);
+    if (seen.has(id)) continue;
+    seen.add(id);
+    out.push(groupFigure(result, { cell, label: options.label }));
+  }
+  return out;
+}
