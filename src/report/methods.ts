@@ -1,6 +1,7 @@
 /** Methods text written from the history of steps: plain English, with references. */
 import type { Step } from '../sweeps/SweepSet';
 import { VERSION } from '../version';
+import { FIBRE_RANGE_M_S, NEGATIVE_UTILISATION_FRACTION, MIN_DELAY_SAMPLES } from '../analysis/velocity';
 
 const REFS: Record<string, string> = {
   butterworth: 'Butterworth S (1930) On the theory of filter amplifiers. Wireless Engineer 7:536-541.',
@@ -17,6 +18,15 @@ const REFS: Record<string, string> = {
 
 const fmtW = (w: unknown) => (Array.isArray(w) ? `${w[0]} to ${w[1]} ms` : String(w));
 const ord = (n: number) => `${n}${n % 10 === 1 && n !== 11 ? 'st' : n % 10 === 2 && n !== 12 ? 'nd' : n % 10 === 3 && n !== 13 ? 'rd' : 'th'}`;
+
+/** The latency definitions of a components step, in words (the same definition at every distance). */
+function latencySentence(o: Record<string, unknown>): string {
+  const pct = (f: unknown, d: number) => `${Math.round(100 * (typeof f === 'number' ? f : d))}%`;
+  if (o.onsetFraction === undefined && o.centroidFraction === undefined) {
+    return `Onset latency was the interpolated crossing of ${o.k} times the noise leading into the peak (for the earliest class searched back before its window, down to ${o.earliestMs} ms); peak latency and amplitude were refined by parabolic interpolation; the centroid latency was the centre of mass of the component between onset and offset.`;
+  }
+  return `Latencies were measured on each class's own component, with the same definitions at every distance: onset, the first crossing of ${pct(o.onsetFraction, 0.1)} of the component's own peak, searched back from the peak and interpolated between samples; half-rise, the crossing of 50% of the peak on the rising side; peak, refined by parabolic interpolation; and centroid, the centre of mass of the component over the contiguous span around its peak where it exceeds ${pct(o.centroidFraction, 0.1)} of the peak.`;
+}
 
 /** A methods paragraph (and reference list) for a history of steps. */
 export function methodsText(history: readonly Step[], extra: { files?: number; preparations?: number } = {}): string {
@@ -64,15 +74,21 @@ export function methodsText(history: readonly Step[], extra: { files?: number; p
         break;
       case 'components': {
         const cls = (o.classes as { name: string; velocity: number[] }[]).map((c) => `${c.name} ${c.velocity[0]}-${c.velocity[1]} m/s`).join(', ');
-        s.push(`Fiber-class components were identified in latency windows computed from the conduction distance and the velocity ranges of each class (${cls}; ${o.presetSource}), scaled to the bath temperature with Q10 = ${o.q10} from ${o.refTemperatureC} C, with a utilisation time of ${o.utilisationMs} ms; each window's late end was extended by ${o.tailFraction} of its width (at least ${o.tailMs} ms). Where windows of neighbouring classes overlapped, the boundary was placed at the trough between the two components and the slower component was measured above a straight line from the trough to the level at the end of its window. Noise was estimated as 1.4826 times the median absolute deviation of ${fmtW(o.noiseWindow)} (Rousseeuw & Croux 1993); a component counted as present when its smoothed peak exceeded max(${o.k}, z) times the noise, with z the normal quantile at 1 - 0.01/N for a window of N samples. Onset latency was the interpolated crossing of ${o.k} times the noise leading into the peak (for the earliest class searched back before its window, down to ${o.earliestMs} ms); peak latency and amplitude were refined by parabolic interpolation; the centroid latency was the centre of mass of the component between onset and offset.`);
+        s.push(`Fiber-class components were identified in latency windows computed from the conduction distance and the velocity ranges of each class (${cls}; ${o.presetSource}), scaled to the bath temperature with Q10 = ${o.q10} from ${o.refTemperatureC} C, with a utilisation time of ${o.utilisationMs} ms; each window's late end was extended by ${o.tailFraction} of its width (at least ${o.tailMs} ms). Where windows of neighbouring classes overlapped, the boundary was placed at the trough between the two components and the slower component was measured above a straight line from the trough to the level at the end of its window. Noise was estimated as 1.4826 times the median absolute deviation of ${fmtW(o.noiseWindow)} (Rousseeuw & Croux 1993); a component counted as present when its smoothed peak exceeded max(${o.k}, z) times the noise, with z the normal quantile at 1 - 0.01/N for a window of N samples (this test decides detection only). ${latencySentence(o)}`);
         refs.add(REFS.classes); refs.add(REFS.mad);
         break;
       }
-      case 'velocity':
-        s.push('Conduction velocity was computed per class as distance divided by latency (single site; onset, peak and centroid latencies), as the distance between two recording sites divided by the delay between them (delay from cross-correlation of the class component with parabolic sub-sample refinement, and from matched onsets, peaks and centroids), and as the inverse slope of latency regressed on distance over all sweeps, whose intercept estimates the utilisation time; 95% confidence intervals are t-based over sweeps or from the regression.');
+      case 'velocity': {
+        const rec = o.recommended as { method?: string; basis?: string } | undefined;
+        s.push(`Conduction velocity was computed per class as distance divided by latency (single site), as the distance between two recording sites divided by the delay between them over pairs of sweeps recorded together (the delay from the same latency definition at both sites, or from the cross-correlation of the class component with parabolic sub-sample refinement), and as the inverse slope of latency regressed on distance, whose intercept estimates the utilisation time; each velocity is reported with its latency definition, and 95% confidence intervals are t-based over sweeps or from the regression (none when the data give no residual degree of freedom).${rec?.method ? ` The velocity reported for each class (and used for Q10) was the ${rec.method === 'regression' ? 'regression of' : rec.method} ${rec.basis} latency${rec.method === 'regression' ? ' on distance (with two distances, the two-site velocity)' : ''}.` : ''}`);
+        s.push(`Implausible values were not reported as velocities but flagged with a reason, without discarding other classes, groups or estimators: a velocity outside any nerve fibre's range (${FIBRE_RANGE_M_S[0]}-${FIBRE_RANGE_M_S[1]} m/s), a latency not increasing with distance, a utilisation time below -${100 * NEGATIVE_UTILISATION_FRACTION}% of the latency at the nearest site (and below 0 beyond its 95% CI); pairs of sweeps with a delay not positive, shorter than ${MIN_DELAY_SAMPLES} sample intervals, or a cross-correlation maximum on the edge of its search range were left out and counted; a velocity outside its class's range at that temperature was kept and flagged.`);
+        break;
+      }
+      case 'averageRepeats':
+        s.push(`Repeated sweeps of each condition (equal conditions apart from the repeat index and acquisition time) were averaged (${o.method}) before measuring (${o.sweeps} sweeps into ${o.groups}).`);
         break;
       case 'recruitment':
-        s.push(`Recruitment curves (component amplitude against stimulus intensity) were fitted with a Boltzmann sigmoid in log10 intensity by the Levenberg-Marquardt method (Marquardt 1963); the threshold was taken where the fit reaches ${100 * o.thresholdFraction}% of its range and the supramaximal intensity as ${o.supramaximalFactor} times the intensity reaching 95% of the maximum.`);
+        s.push(`Recruitment curves (component amplitude against stimulus intensity) were fitted, per preparation, recording site and class, to the sweeps in which the class was measured (sweeps where it was not detected, and intensities of 0 or below, were left out and counted; the floor was fixed at 0 when the class was not detected at lower intensities; a class measured at fewer than ${o.minLevels ?? 4} intensities was reported as not detected), with a Boltzmann sigmoid in log10 intensity by the Levenberg-Marquardt method (Marquardt 1963); the threshold was taken where the fit reaches ${100 * o.thresholdFraction}% of its range and the supramaximal intensity as ${o.supramaximalFactor} times the intensity reaching 95% of the maximum.`);
         refs.add(REFS.lm);
         break;
       case 'strengthDuration':
@@ -80,12 +96,13 @@ export function methodsText(history: readonly Step[], extra: { files?: number; p
         refs.add(REFS.lm);
         break;
       case 'doseResponse':
-        s.push(`For dose-response analysis the steady-state response at each concentration (mean of the last ${o.lastN} sweeps) was normalised to the preparation's own pre-drug baseline${o.runDown === 'washout' ? ', corrected for run-down by linear interpolation between baseline and washout' : o.runDown === 'vehicle' ? ', corrected for run-down by the linear decline, per class, of time-matched vehicle controls relative to their own baseline' : ''}, and fitted per preparation and class with the four-parameter log-logistic (Hill) model (Hill 1910; Ritz et al. 2015) with the top fixed at 1${o.fixBottom === null ? ' and the bottom free' : ` and the bottom fixed at ${o.fixBottom}`}, by the Levenberg-Marquardt method. IC50 values were combined across preparations as the mean of log10 IC50 with a t-based 95% confidence interval (preparations, not sweeps, as replicates); a pooled fit over all preparations gave a profile-likelihood interval (Bates & Watts 1988)${o.bootstrap ? ` and a bootstrap interval over preparations (${o.bootstrap} resamples)` : ''}. Classes were compared with the extra-sum-of-squares F test of a shared IC50.`);
+        s.push(`For dose-response analysis only sweeps in which the class was measured were used (others left out and counted; a curve with fewer than ${o.minConcentrations ?? 4} measured concentrations was reported as not detected, and the bottom was fixed at 0 when the class was not measured at the highest concentrations), ${o.poolSites ? 'pooling all recording sites' : 'one curve per recording site'}. The steady-state response at each concentration (mean of the last ${o.lastN} sweeps) was normalised to the preparation's own pre-drug baseline${o.runDown === 'washout' ? ', corrected for run-down by linear interpolation between baseline and washout' : o.runDown === 'vehicle' ? ', corrected for run-down by the linear decline, per class, of time-matched vehicle controls relative to their own baseline' : ''}, and fitted per preparation and class with the four-parameter log-logistic (Hill) model (Hill 1910; Ritz et al. 2015) with the top fixed at 1${o.fixBottom === null ? ' and the bottom free' : ` and the bottom fixed at ${o.fixBottom}`}, by the Levenberg-Marquardt method. IC50 values were combined across preparations as the mean of log10 IC50 with a t-based 95% confidence interval (preparations, not sweeps, as replicates); a pooled fit over all preparations gave a profile-likelihood interval (Bates & Watts 1988)${o.bootstrap ? ` and a bootstrap interval over preparations (${o.bootstrap} resamples)` : ''}. Classes were compared with the extra-sum-of-squares F test of a shared IC50.`);
         refs.add(REFS.hill); refs.add(REFS.drc); refs.add(REFS.lm); refs.add(REFS.bates);
         break;
       case 'temperature':
-        const what = o.measure === 'regression_velocity_m_s' ? 'conduction velocity, itself from the regression of centroid latency on distance at each temperature' : String(o.measure).replace(/_/g, ' ');
-        s.push(`Temperature dependence was summarised as Q10 from the regression of the logarithm of ${what} on temperature and as the Arrhenius activation energy from the regression on the inverse absolute temperature (Arrhenius 1889), each with preparation-specific intercepts and a t-based 95% confidence interval.`);
+        const what = o.measure === 'regression_velocity_m_s' ? 'conduction velocity, itself from the regression of centroid latency on distance at each temperature'
+          : /velocity \(/.test(String(o.measure)) ? `conduction velocity (${String(o.measure)}) at each temperature` : String(o.measure).replace(/_/g, ' ');
+        s.push(`Temperature dependence was summarised, from the measured values only, as Q10 from the regression of the logarithm of ${what} on temperature and as the Arrhenius activation energy from the regression on the inverse absolute temperature (Arrhenius 1889), each with preparation-specific intercepts and a t-based 95% confidence interval (none when the residuals cannot estimate one: flat or exact data, or no residual degree of freedom).`);
         refs.add(REFS.arrhenius);
         break;
       default:

@@ -11,6 +11,8 @@ import { analyse, doseFlags, computedCount, type Flag, type PipelineOptions } fr
 import { doseResponse, type DoseResponseResult } from '../analysis/doseResponse';
 import { fitTemperature, temperatureRow } from '../analysis/temperature';
 import { VERSION } from '../version';
+import { RECOMMENDED_VELOCITY } from '../analysis/velocity';
+import { recruitmentDefaults } from '../analysis/recruitment';
 
 type Row = Record<string, ConditionValue>;
 
@@ -126,8 +128,8 @@ export function combineStudy(parts: PrepOutput[], o: PipelineOptions): Study {
     }
   }
   const history: Step[] = [...(ps[0]?.history ?? [])];
-  if (ps.some((p) => p.velocity.length)) history.push({ verb: 'velocity', options: {}, version: VERSION });
-  if (ps.some((p) => p.recruitment.length)) history.push({ verb: 'recruitment', options: { supramaximalFactor: 1.3, thresholdFraction: 0.05 }, version: VERSION });
+  if (ps.some((p) => p.velocity.length)) history.push({ verb: 'velocity', options: { recommended: { ...RECOMMENDED_VELOCITY } }, version: VERSION });
+  if (ps.some((p) => p.recruitment.length)) history.push({ verb: 'recruitment', options: { supramaximalFactor: o.recruitment?.supramaximalFactor ?? recruitmentDefaults.supramaximalFactor, thresholdFraction: recruitmentDefaults.thresholdFraction, minLevels: o.recruitment?.minLevels ?? recruitmentDefaults.minLevels }, version: VERSION });
   const sdRows = ps.flatMap((p) => p.strengthDuration ?? []);
   if (sdRows.length) history.push({ verb: 'strengthDuration', options: { fraction: o.strengthDuration?.fraction ?? 0.5 }, version: VERSION });
   if (dr) history.push(dr.history[dr.history.length - 1] as Step);
