@@ -326,7 +326,8 @@ function resolve(rows: readonly Row[], o: GroupOptions): Resolved {
 export interface AnimalPoint { key: Row; group: ConditionValue; condition: ConditionValue; animal: ConditionValue; value: number; n: number }
 
 /** Average the rows within each animal and cell; rows without a finite value are counted, not used. */
-export function animalMeans(rows: readonly Row[], options: GroupOptions): { points: AnimalPoint[]; excluded: number; options: Resolved } {
+export function animalMeans(input: RowInput, options: GroupOptions): { points: AnimalPoint[]; excluded: number; options: Resolved } {
+  const rows = rowsOf(input);
   const o = resolve(rows, options);
   const cells = new Map<string, { key: Row; group: ConditionValue; condition: ConditionValue; animal: ConditionValue; sum: number; n: number }>();
   let excluded = 0;
@@ -342,6 +343,21 @@ export function animalMeans(rows: readonly Row[], options: GroupOptions): { poin
     c.n++;
   }
   return { points: [...cells.values()].map((c) => ({ key: c.key, group: c.group, condition: c.condition, animal: c.animal, value: c.sum / c.n, n: c.n })), excluded, options: o };
+}
+
+/** Rows, a table with `rows` (ComponentTable, results) or a DataFrame (`columns` and `values`). */
+export type RowInput = readonly Row[] | { readonly rows: readonly object[] } | { columns: string[]; values: unknown[][] };
+
+/** Plain rows from any RowInput. */
+export function rowsOf(input: RowInput): Row[] {
+  if (Array.isArray(input)) return input as Row[];
+  const x = input as { rows?: unknown; columns?: unknown; values?: unknown };
+  if (Array.isArray(x.rows)) return x.rows as Row[];
+  if (Array.isArray(x.columns) && Array.isArray(x.values)) {
+    const cols = x.columns as string[];
+    return (x.values as unknown[][]).map((v) => Object.fromEntries(cols.map((c, j) => [c, (v[j] ?? null) as ConditionValue])));
+  }
+  throw new OptionError('group statistics need rows: an array of objects, a table with .rows (e.g. a ComponentTable) or a DataFrame');
 }
 
 const uniq = <T>(xs: T[]) => { const seen = new Set<string>(); return xs.filter((x) => { const k = JSON.stringify(x); return seen.has(k) ? false : (seen.add(k), true); }); };
@@ -385,8 +401,11 @@ export class GroupComparison extends Result {
  * of the table by Holm and by Benjamini-Hochberg. A test that cannot be computed is a row with a status and reason.
  * @example compareGroups(rows, { value: 'amplitude_uV', group: 'group', animal: 'preparation', by: ['class'] })
  */
-export function compareGroups(rows: readonly Row[], options: GroupOptions, history: readonly Step[] = [], sources: readonly Source[] = []): GroupComparison {
-  const { points, excluded, options: o } = animalMeans(rows, options);
+export function compareGroups(input: RowInput, options: GroupOptions, history?: readonly Step[], sources?: readonly Source[]): GroupComparison {
+  const { points, excluded, options: o } = animalMeans(input, options);
+  const src = input as { history?: readonly Step[]; sources?: readonly Source[] };
+  history = history ?? (Array.isArray(src.history) ? src.history : []);
+  sources = sources ?? (Array.isArray(src.sources) ? src.sources : []);
   const cellsBy = uniq(points.map((p) => p.key));
   const summary: Row[] = [];
   const tests: Row[] = [];
@@ -445,4 +464,20 @@ export function compareGroups(rows: readonly Row[], options: GroupOptions, histo
   tests.forEach((t, i) => { t.p_holm = h[i]; t.p_bh = bh[i]; });
   const step: Step = { verb: 'compareGroups', options: { ...o, unitOfReplication: o.animal, tests: 'Welch t, Mann-Whitney U (exact for n <= 8 without ties), one-way ANOVA, paired t, repeated-measures ANOVA', correction: 'Holm; Benjamini-Hochberg', excludedRows: excluded }, version: VERSION };
   return new GroupComparison(summary, tests, points, o, excluded, [...history, step], sources);
+}
+
+/** The methods sentences for a group comparison (unit of replication, tests, correction). */
+export function groupMethods(result: GroupComparison): string {
+  const o = result.options;
+  const tests = [...new Set(result.tests.filter((t) => t.status === 'ok').map((t) => String(t.test)))];
+  const mw = result.tests.some((t) => t.test === 'Mann-Whitney U' && t.status === 'ok');
+  const parts = [
+    `${o.value.replace(/_/g, ' ')} was averaged within each ${o.animal} (the unit of replication; sweeps and electrodes are not independent replicates, Lazic 2010; Aarts et al. 2014) and summarised per ${o.group}${o.condition ? ` and ${o.condition}` : ''} as mean, SD, SEM and a t-based 95% confidence interval.`,
+  ];
+  if (tests.length) {
+    parts.push(`Tests: ${tests.join(', ')}${mw ? ' (Mann-Whitney U exact for samples of at most 8 without ties, otherwise the normal approximation with tie and continuity correction)' : ''}; p values were adjusted over the ${result.tests.filter((t) => t.status === 'ok').length} tests by Holm's step-down method (Holm 1979) and, for the false discovery rate, by Benjamini & Hochberg (1995).`);
+  }
+  const nc = result.tests.filter((t) => t.status !== 'ok').length;
+  if (nc) parts.push(`${nc} test${nc === 1 ? ' was' : 's were'} not computed (fewer than two ${o.animal}s per group or no variation), as listed in the table.`);
+  return parts.join(' ');
 }

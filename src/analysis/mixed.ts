@@ -30,7 +30,7 @@ import { OptionError, AnalysisError } from '../errors';
 import { checkKeys, didYouMean, shown } from '../validate';
 import { invertSpd, cholesky } from '../signal/linalg';
 import { fSurvival, tQuantile } from '../fit/dist';
-import { tTwoSided } from './groups';
+import { tTwoSided, rowsOf, type RowInput } from './groups';
 import { Result } from '../report/result';
 import { toFrame } from '../report/frame';
 import { tableHtml, tableText } from '../notebook/html';
@@ -334,7 +334,11 @@ export class MixedModelResult extends Result {
  * A cell that cannot be fitted is a row with status 'not computed' and the reason.
  * @example mixedModel(componentRows, { value: 'amplitude_uV', fixed: ['group', 'epoch'], interaction: true, random: 'preparation' })
  */
-export function mixedModel(rows: readonly Row[], options: MixedOptions, history: readonly Step[] = [], sources: readonly Source[] = []): MixedModelResult {
+export function mixedModel(input: RowInput, options: MixedOptions, history?: readonly Step[], sources?: readonly Source[]): MixedModelResult {
+  const rows = rowsOf(input);
+  const src = input as { history?: readonly Step[]; sources?: readonly Source[] };
+  history = history ?? (Array.isArray(src.history) ? src.history : []);
+  sources = sources ?? (Array.isArray(src.sources) ? src.sources : []);
   checkKeys('mixedModel options', options, ['value', 'fixed', 'random', 'interaction', 'by', 'levels']);
   if (rows.length === 0) throw new AnalysisError('mixed model needs at least one row');
   const cols = [...new Set(rows.flatMap((r) => Object.keys(r)))];
@@ -399,4 +403,12 @@ export function mixedModel(rows: readonly Row[], options: MixedOptions, history:
   const o = { value, fixed, random, interaction, by, levels: options.levels };
   const step: Step = { verb: 'mixedModel', options: { value, fixed, random, interaction, by, estimation: 'REML', df: 'Satterthwaite (expected information; Fai-Cornelius for multi-df terms)', tests: 'Type III (sum-to-zero coding)' }, version: VERSION };
   return new MixedModelResult(coefficients, anova, variance, o, fits, [...history, step], sources);
+}
+
+/** The methods sentence for a mixed model. */
+export function mixedMethods(result: MixedModelResult): string {
+  const o = result.options;
+  const fx = o.fixed.join(o.interaction ? ' and their interaction' : ', ').replace(/,([^,]*)$/, ' and$1');
+  const ok = result.variance.filter((v) => v.status === 'ok').length;
+  return `${o.value.replace(/_/g, ' ')} was analysed with a linear mixed-effects model with ${fx} as fixed effects and a random intercept per ${o.random} (observations of one ${o.random} are not independent; Lazic 2010; Aarts et al. 2014), fitted by restricted maximum likelihood (Patterson & Thompson 1971)${o.by.length ? ` separately for each ${o.by.join(' and ')} (${ok} of ${result.variance.length} fitted)` : ''}; fixed effects were tested with Type III F tests and t tests using Satterthwaite's approximation to the denominator degrees of freedom (Satterthwaite 1946; Fai & Cornelius 1996 for terms with several degrees of freedom).`;
 }

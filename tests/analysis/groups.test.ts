@@ -2,9 +2,9 @@ import { describe, it, expect } from 'vitest';
 import { readFileSync, existsSync, writeFileSync, mkdirSync } from 'node:fs';
 import { join, dirname } from 'node:path';
 import { groupFigure, groupFigures } from '../../src/plot/groups';
-import { welchTTest, mannWhitneyU, oneWayAnova, repeatedMeasuresAnova, holm, benjaminiHochberg, compareGroups, normSf, mannWhitneyExactSf } from '../../src/analysis/groups';
-import { mixedModel, fitRandomIntercept, satterthwaiteDf } from '../../src/analysis/mixed';
-import { pairedCompare } from '../../src';
+import { welchTTest, mannWhitneyU, oneWayAnova, repeatedMeasuresAnova, holm, benjaminiHochberg, compareGroups, normSf, mannWhitneyExactSf, groupMethods } from '../../src/analysis/groups';
+import { mixedModel, fitRandomIntercept, satterthwaiteDf, mixedMethods } from '../../src/analysis/mixed';
+import { pairedCompare, toFrame } from '../../src';
 import { Rng } from '../../src/model/random';
 
 // Reference values: tests/reference/make_groups.py (SciPy 1.17, NumPy 2.4) -> groups.json
@@ -263,5 +263,27 @@ describe('groupFigure(result): points per animal, mean and 95% CI per group', ()
   it('groupFigures gives one figure per class; an unknown cell is a typed error', () => {
     expect(groupFigures(res).length).toBe(1);
     expect(() => groupFigure(res, { cell: { class: 'Z' } })).toThrow(/no cell/);
+  });
+});
+
+describe('inputs and methods text', () => {
+  const rows = ['x1', 'x2', 'x3', 'y1', 'y2', 'y3'].flatMap((a, i) => [0, 1].map((k) => ({ group: a[0], preparation: a, onset_ms: 1 + 0.1 * i + 0.01 * k })));
+  it('plain rows, a table with .rows (as a ComponentTable) and a DataFrame give the same tests', () => {
+    const a = compareGroups(rows, { value: 'onset_ms' });
+    const b = compareGroups({ rows, history: [{ verb: 'components', options: {}, version: '0' }] } as never, { value: 'onset_ms' });
+    const c = compareGroups(toFrame(rows) as never, { value: 'onset_ms' });
+    expect(b.tests).toEqual(a.tests);
+    expect(c.tests).toEqual(a.tests);
+    expect(b.history.map((h) => h.verb)).toEqual(['components', 'compareGroups']);
+    expect(a.summary[0].unit).toBe('ms');
+    expect(() => compareGroups(42 as never, { value: 'onset_ms' })).toThrow(/need rows/);
+  });
+  it('methods sentences name the unit of replication, the tests, the correction and the model', () => {
+    const a = compareGroups(rows, { value: 'onset_ms' });
+    expect(groupMethods(a)).toMatch(/averaged within each preparation \(the unit of replication/);
+    expect(groupMethods(a)).toMatch(/Welch t, Mann-Whitney U \(Mann-Whitney U exact/);
+    expect(groupMethods(a)).toMatch(/Holm's step-down method/);
+    const m = mixedModel(rows, { value: 'onset_ms', fixed: ['group'] });
+    expect(mixedMethods(m)).toMatch(/random intercept per preparation .* restricted maximum likelihood .* Satterthwaite/);
   });
 });
