@@ -282,7 +282,8 @@ function readOpen(path: string, f: H5File, o: NwbReadOptions, win: [number, numb
   }
   fs = snap(fs);
 
-  // the window in samples relative to the stimulus sample
+  // the window in samples relative to the stimulus sample. Each stimulus is at its nearest sample; phase is how
+  // far that sample lies from the stimulus (the median over rows sets the time axis, the rest is jitter).
   let from: number, to: number;
   if (win) [from, to] = win;
   else {
@@ -293,16 +294,19 @@ function readOpen(path: string, f: H5File, o: NwbReadOptions, win: [number, numb
     to = Math.min(...selected.map((i) => (rows[i].stop! - rows[i].T) * 1000));
     if (!(to > from)) bad(tablePath!, `the rows' start_time..stop_time spans have no common part around their stimuli (${from} to ${to} ms)`, 'the window option');
   }
-  const a = Math.ceil((from * fs) / 1000 - 1e-3);
-  const b = Math.floor((to * fs) / 1000 + 1e-3);
+  const phases = selected.map((row, k) => (place[k].time - rows[row].T) * 1000);
+  const phase = [...phases].sort((x, y) => x - y)[Math.floor(phases.length / 2)];
+  const a = Math.ceil(((from - phase) * fs) / 1000 - 1e-3);
+  const b = Math.floor(((to - phase) * fs) / 1000 + 1e-3);
   const nSamples = b - a + 1;
   if (nSamples < 2) bad(tablePath ?? '/intervals', `the window [${from}, ${to}] ms holds ${nSamples} sample at ${fs} Hz`, 'a window of at least 2 samples');
+  const t0Ms = Number(((a * 1000) / fs + phase).toFixed(9));
+  const jitter = Math.max(...phases.map((x) => Math.abs(x - phase)));
 
   // read the samples: one hyperslab per sweep
   const out = sharedSamples(selected.length * nSamples);
-  const offsets: number[] = [];
   selected.forEach((row, k) => {
-    const { s, index, time } = place[k];
+    const { s, index } = place[k];
     const i0 = index + a;
     const i1 = index + b + 1;
     if (i0 < 0 || i1 > s.nTimes) {
@@ -310,13 +314,8 @@ function readOpen(path: string, f: H5File, o: NwbReadOptions, win: [number, numb
         'a window inside the recording (a smaller window option)');
     }
     if (s.timestamps) checkGrid(path, s, i0, i1, fs, row);
-    const firstTime = s.timestamps ? time + (a / fs) : s.startingTime! + i0 / s.rate!;
-    offsets.push((firstTime - rows[row].T) * 1000);
     readInto(path, s, i0, i1, out, k * nSamples, row);
   });
-  const sorted = [...offsets].sort((x, y) => x - y);
-  const t0Ms = Number(sorted[Math.floor(sorted.length / 2)].toFixed(9));
-  const jitter = Math.max(...offsets.map((x) => Math.abs(x - t0Ms)));
 
   const conditions: Conditions[] = selected.map((row, k) => ({
     ...conditionsOf(row, place[k].s),
@@ -335,7 +334,7 @@ function readOpen(path: string, f: H5File, o: NwbReadOptions, win: [number, numb
     history: [{
       verb: 'readNwb',
       options: {
-        path, series: info, intervals: tablePath, stimulusColumn, window: [a * 1000 / fs, b * 1000 / fs], units,
+        path, series: info, intervals: tablePath, stimulusColumn, window: [t0Ms, Number(((b * 1000) / fs + phase).toFixed(9))], units,
         columns: mapping, rows: selected.length === rows.length ? 'all' : selected, maxStimulusOffsetMs: jitter,
         notes, nwb: meta,
       },

@@ -1,0 +1,329 @@
+/**
+ * NWB reading and writing.
+ * External references:
+ * - the fixtures in tests/fixtures/nwb were written by h5py (Debian python3-h5py) following the NWB 2.7.0
+ *   core schema and hdmf-common 1.8.0 (tests/reference/make_nwb.py); expected.json holds the values
+ *   NumPy computed from the arrays written there (value = data * conversion * channel_conversion + offset,
+ *   NWB 2.7.0 nwb.base.yaml TimeSeries.data and nwb.ecephys.yaml ElectricalSeries.channel_conversion).
+ * - files fascicle writes are read back by h5py and validated against the NWB 2.7.0 schema by Debian's
+ *   python3-hdmf (tests/reference/validate_nwb.py); those tests are skipped with a message when
+ *   /usr/bin/python3 lacks h5py or hdmf.
+ */
+import { describe, it, expect, beforeAll } from 'vitest';
+import { spawnSync } from 'node:child_process';
+import { copyFileSync, existsSync, mkdtempSync, readdirSync, readFileSync, writeFileSync, statSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { createHash } from 'node:crypto';
+import { readNwb, readNwbSync, readNwbTables, nwbReady } from '../../src/io/nwb';
+import { writeNwb, writtenByFascicle } from '../../src/io/nwbWrite';
+import { SweepSet, type Conditions } from '../../src/sweeps/SweepSet';
+import { InputError, OptionError, OutputError } from '../../src/errors';
+
+process.env.FASCICLE_QUIET = '1';
+const FIX = join(__dirname, '..', 'fixtures', 'nwb');
+const fx = (name: string) => join(FIX, name);
+const expected = JSON.parse(readFileSync(fx('expected.json'), 'utf8'));
+const tmp = mkdtempSync(join(tmpdir(), 'fascicle-nwb-'));
+const sha = (p: string) => createHash('sha256').update(readFileSync(p)).digest('hex');
+
+const PY = '/usr/bin/python3';
+const pyHas = (mods: string) => existsSync(PY) && spawnSync(PY, ['-c', `import ${mods}`]).status === 0;
+const HAVE_H5PY = pyHas('h5py, numpy');
+const HAVE_HDMF = HAVE_H5PY && pyHas('hdmf');
+if (!HAVE_H5PY) console.warn('skipping the h5py read-back tests: /usr/bin/python3 lacks h5py (apt-get install python3-h5py)');
+if (HAVE_H5PY && !HAVE_HDMF) console.warn('skipping the hdmf validation: /usr/bin/python3 lacks hdmf (apt-get install python3-hdmf)');
+
+/** h5py's view of a file and hdmf's verdict (tests/reference/validate_nwb.py --layout). */
+function independent(path: string): { ok: boolean; errors: string[]; types: Record<string, string>; layout: any; unavailable?: string } {
+  const r = spawnSync(PY, [join(__dirname, '..', 'reference', 'validate_nwb.py'), '--layout', path], { encoding: 'utf8' });
+  const line = r.stdout.trim().split('\n').pop() ?? '';
+  return JSON.parse(line);
+}
+
+/** Expect an InputError whose place names the file and an HDF5 path, and whose text matches. */
+function expectInputError(fn: () => unknown, file: string, field: string | RegExp | undefined, text: RegExp): void {
+  let err: unknown;
+  try {
+    fn();
+  } catch (e) {
+    err = e;
+  }
+  expect(err, 'an error').toBeInstanceOf(InputError);
+  const e = err as InputError;
+  expect(e.place.file).toBe(file);
+  if (field instanceof RegExp) expect(e.place.field).toMatch(field);
+  else if (field !== undefined) expect(e.place.field).toBe(field);
+  expect(e.message).toMatch(text);
+}
+
+beforeAll(async () => {
+  await nwbReady();
+});
+
+describe('readNwb(path, options) on files written by h5py', () => {
+  it('cuts a continuous 3-channel int16 ElectricalSeries around the trials\' stimulus times, with conversion, offset and channel_conversion', async () => {
+    const e = expected.continuous;
+    for (const ch of [0, 1, 2]) {
+      const set = await readNwb(fx('continuous.nwb'), { channel: ch });
+      expect(set.nSweeps).toBe(12);
+      expect(set.nSamples).toBe(e.nSamples); // [-5, 30] ms from start_time/stop_time, both ends (make_nwb.py)
+      expect(set.fs).toBe(e.fs);
+      expect(set.t0Ms).toBe(e.t0Ms);
+      expect(set.units).toBe('mV');
+      // per-trial sums (NumPy) and full sweeps for some trials, to 1e-9 mV
+      set.conditions.forEach((_, k) => {
+        let sum = 0;
+        for (const v of set.sweep(k)) sum += v;
+        expect(sum).toBeCloseTo(e.sums_mV[String(ch)][k], 8);
+      });
+      const rows: number[][] = e.sweeps_mV[String(ch)];
+      const first = ch === 2 ? 10 : 0;
+      rows.forEach((row, j) => row.forEach((v, i) => expect(Math.abs(set.sweep(first + j)[i] - v)).toBeLessThan(1e-9)));
+      // electrodes table: location and distance of the channel's row
+      expect(set.conditions[0].site).toBe(e.locations[ch]);
+      expect(set.conditions[0].distanceMm).toBe(e.distance_mm[ch]);
+      expect(set.conditions[0].electrode).toBe(ch);
+    }
+  });
+
+  it('maps the trials columns to conditions: intensity_mA, pulse_width in s, temperature in degC, concentration in uM', async () => {
+    const e = expected.continuous;
+    const set = await readNwb(fx('continuous.nwb'), { channel: 1 });
+    expect(set.column('intensity')).toEqual(e.intensity);
+    expect(set.levels('intensityUnit')).toEqual(['mA']);
+    // pulse_width has no unit: NWB times are in seconds (nwb.file.yaml, general: "time is in seconds")
+    set.column('pulseWidthMs').forEach((v, k) => expect(v).toBeCloseTo(e.pulse_width_ms[k], 12));
+    expect(set.levels('temperatureC')).toEqual([32.5]);
+    expect(set.levels('concentration')).toEqual([0, 30]);
+    expect(set.levels('concentrationUnit')).toEqual(['uM']);
+    expect(set.levels('drug')).toEqual(['none', 'lidocaine']);
+    expect(set.column('operator_note')[11]).toBe('bubble'); // an unmapped column keeps its name
+    expect(set.levels('preparation')).toEqual(['R7']); // /general/subject/subject_id
+    expect(set.column('acquiredS')).toEqual(e.stimulus_s);
+    expect(set.conditions[4].fileSweep).toBe(4);
+    expect(set.conditions[4].file).toBe(fx('continuous.nwb'));
+    const step = set.history[0];
+    expect(step.verb).toBe('readNwb');
+    const nwb = step.options.nwb as { general: Record<string, unknown>; subject: Record<string, string> };
+    expect(nwb.general.lab).toBe('Example Nerve Lab');
+    expect(nwb.subject.species).toBe('Rattus norvegicus');
+    // the 4th stimulus is 0.3 samples off the grid (make_nwb.py): the nearest sample, offset recorded
+    expect(step.options.maxStimulusOffsetMs as number).toBeCloseTo(0.03, 9);
+    expect(set.sources[0].sha256).toBe(sha(fx('continuous.nwb')));
+  });
+
+  it('reads only the selected rows (trials: rows or a test on conditions) and a window option', async () => {
+    const all = await readNwb(fx('continuous.nwb'), { channel: 0 });
+    const some = await readNwb(fx('continuous.nwb'), { channel: 0, trials: [11, 2] });
+    expect(some.nSweeps).toBe(2);
+    expect(Array.from(some.sweep(0))).toEqual(Array.from(all.sweep(11)));
+    expect(Array.from(some.sweep(1))).toEqual(Array.from(all.sweep(2)));
+    const drug = await readNwb(fx('continuous.nwb'), { channel: 0, trials: (c) => c.drug === 'lidocaine' });
+    expect(drug.column('fileSweep')).toEqual([6, 7, 8, 9, 10, 11]);
+    const w = await readNwb(fx('continuous.nwb'), { channel: 0, window: [-2, 10] });
+    expect(w.t0Ms).toBe(-2);
+    expect(w.nSamples).toBe(121); // -2..10 ms at 10 kHz, both ends
+    expect(Array.from(w.sweep(5))).toEqual(Array.from(all.sweep(5).subarray(30, 151)));
+  });
+
+  it('reads a TimeSeries already cut into sweeps (timestamps with gaps) from a TimeIntervals table other than trials', async () => {
+    const e = expected.precut;
+    const set = await readNwb(fx('precut.nwb'), { columns: { intensity: 'amp' } });
+    expect(set.nSweeps).toBe(e.nSweeps);
+    expect(set.nSamples).toBe(e.nSamples);
+    expect(set.fs).toBe(e.fs);
+    expect(set.t0Ms).toBeCloseTo(e.t0Ms, 9);
+    expect(set.units).toBe('mV'); // conversion 0.001 to volts: the stored values are mV and are copied unchanged
+    expect(Array.from(set.sweep(0))).toEqual(e.sweeps_mV[0]);
+    expect(Array.from(set.sweep(7))).toEqual(e.sweeps_mV[1]);
+    expect(set.column('intensity')).toEqual(e.amp_V);
+    expect(set.levels('intensityUnit')).toEqual(['V']); // the column's unit attribute
+    set.column('distanceMm').forEach((v) => expect(v).toBeCloseTo(e.distance_mm, 12)); // dist_cm
+    expect(set.column('acquiredS')).toEqual(e.acquired_s); // stim_onset
+    expect(set.history[0].options.intervals).toBe('/intervals/stimulation');
+    expect(set.history[0].options.stimulusColumn).toBe('stim_onset');
+  });
+
+  it('stimulusTimes and window read a file without an intervals table', async () => {
+    const set = await readNwb(fx('no_stimulus.nwb'), { stimulusTimes: [0.02, 0.05], window: [-1, 4] });
+    expect(set.nSweeps).toBe(2);
+    expect(set.nSamples).toBe(26); // -1..4 ms at 5 kHz
+    expect(set.fs).toBe(5000);
+  });
+
+  it('readNwbSync reads the same once the library is loaded (nwbReady in beforeAll)', () => {
+    expect(readNwbSync(fx('precut.nwb'), { columns: { intensity: 'amp' } }).nSweeps).toBe(8);
+  });
+});
+
+describe('readNwb errors name the file, the place inside it and the problem', () => {
+  it('a truncated file', () => {
+    const p = join(tmp, 'truncated.nwb');
+    writeFileSync(p, readFileSync(fx('continuous.nwb')).subarray(0, 30000));
+    expectInputError(() => readNwbSync(p), p, undefined, /truncated: it has 30000 bytes but its HDF5 superblock says \d+/);
+  });
+
+  it('a file that is not HDF5, and HDF5 that is not NWB', () => {
+    const pj = join(__dirname, '..', '..', 'package.json');
+    expectInputError(() => readNwbSync(pj), pj, undefined, /not an HDF5 file/);
+    expectInputError(() => readNwbSync(fx('not_nwb.h5')), fx('not_nwb.h5'), '/', /without the NWB root attributes.*NWBFile/);
+    expectInputError(() => readNwbSync(join(tmp, 'missing.nwb')), join(tmp, 'missing.nwb'), undefined, /cannot open file \(ENOENT\)/);
+  });
+
+  it('a series with no stimulus times', () => {
+    expectInputError(() => readNwbSync(fx('no_stimulus.nwb')), fx('no_stimulus.nwb'), '/intervals/trials', /no trials table.*no stimulus times/);
+  });
+
+  it('trials columns that do not map: a unit it does not know, words for a temperature, a mapping to a missing column', () => {
+    const p = fx('bad_trials.nwb');
+    expectInputError(() => readNwbSync(p), p, '/intervals/trials/pulse_width', /unit "fortnights"/);
+    expectInputError(() => readNwbSync(p, { columns: { pulseWidthMs: null } }), p, '/intervals/trials/temperature', /"warm" in row 0, which is not a number/);
+    expectInputError(() => readNwbSync(fx('precut.nwb'), { columns: { intensity: 'ampp' } }), fx('precut.nwb'), '/intervals/stimulation/ampp',
+      /does not have \(did you mean "amp"\?\)/);
+  });
+
+  it('several channels without the channel option; a series name with a typo; a window outside the recording or across a gap', () => {
+    expectInputError(() => readNwbSync(fx('continuous.nwb')), fx('continuous.nwb'), '/acquisition/nerve/data', /3 channels/);
+    expectInputError(() => readNwbSync(fx('continuous.nwb'), { channel: 0, series: 'nerv' }), fx('continuous.nwb'), '/acquisition/nerv', /did you mean "nerve"/);
+    expectInputError(() => readNwbSync(fx('continuous.nwb'), { channel: 0, window: [-5, 500] }), fx('continuous.nwb'), '/acquisition/nerve/data', /outside the series/);
+    expectInputError(() => readNwbSync(fx('precut.nwb'), { columns: { intensity: 'amp' }, window: [-0.8, 9] }), fx('precut.nwb'),
+      /\/acquisition\/cap_sweeps\/(timestamps|data)/, /gap|outside the series/);
+  });
+
+  it('options are checked at the call', () => {
+    expect(() => readNwbSync(fx('precut.nwb'), { windw: [0, 1] } as never)).toThrow(/unknown key "windw" in readNwb options \(did you mean "window"\?\)/);
+    expect(() => readNwbSync(fx('precut.nwb'), { window: [3, 1] })).toThrow(OptionError);
+    expect(() => readNwbSync(fx('precut.nwb'), { channel: -1 })).toThrow(/invalid channel/);
+  });
+});
+
+/** A small set with several sites and distances, and conditions of every kind (nulls, booleans, empty text). */
+function sampleSet(): SweepSet {
+  const nSweeps = 6, nSamples = 300, fs = 20000;
+  const data = new Float64Array(nSweeps * nSamples);
+  for (let s = 0; s < nSweeps; s++) for (let i = 0; i < nSamples; i++) data[s * nSamples + i] = Math.sin(i / (7 + s)) * (s + 1) / 3 + 1e-3 * i;
+  const conditions: Conditions[] = Array.from({ length: nSweeps }, (_, s) => ({
+    preparation: 'N1', site: s < 3 ? 'proximal' : 'distal', distanceMm: s < 3 ? 20 : 32.5, intensity: 0.5 * (s + 1), intensityUnit: 'mA',
+    pulseWidthMs: 0.05, temperatureC: 36.6, repeat: s % 2, flagged: s === 4, note: s === 2 ? null : `n${s}`, empty: s === 1 ? '' : 'x',
+    maybe: s === 3 ? null : 1.25, acquiredS: 10 + s * 2.5, file: 'demo.csv', fileSweep: s,
+  }));
+  return new SweepSet({ data, nSweeps, nSamples, fs, t0Ms: -1.99, units: 'uV', conditions,
+    history: [{ verb: 'readDelimited', options: { path: 'demo.csv' }, version: 'test' }], sources: [] });
+}
+
+describe('writeNwb(set, path, options) and reading back', () => {
+  it('round trip: identical samples, time base and conditions; several electrodes become several series', async () => {
+    const set = sampleSet();
+    const p = join(tmp, 'round.nwb');
+    const res = await writeNwb(set, p, { raw: true });
+    expect(res.series).toEqual(['/acquisition/sweeps_e0', '/acquisition/sweeps_e1']);
+    expect(res.electrodes).toBe(2);
+    const back = await readNwb(p);
+    expect(back.nSweeps).toBe(set.nSweeps);
+    expect(back.fs).toBe(set.fs);
+    expect(back.t0Ms).toBe(set.t0Ms);
+    expect(back.units).toBe(set.units);
+    expect(Array.from(back.data)).toEqual(Array.from(set.data));
+    back.conditions.forEach((c, i) => {
+      const { file, fileSweep, ...orig } = set.conditions[i];
+      const { file: f2, fileSweep: s2, sourceFile, sourceSweep, ...rest } = c;
+      expect(rest).toEqual(orig);
+      expect([sourceFile, sourceSweep]).toEqual([file, fileSweep]);
+      expect([f2, s2]).toEqual([p, i]);
+    });
+    expect(writtenByFascicle(p)).toBe(true);
+    expect(writtenByFascicle(fx('continuous.nwb'))).toBe(false);
+  });
+
+  it('conditioned samples go to a processing module with the history; raw: true refuses conditioned samples', async () => {
+    const raw = await readNwb(fx('continuous.nwb'), { channel: 2 });
+    const cond = raw.baseline({ window: [-4, -0.5] }).lowpass(2000);
+    await expect(writeNwb(cond, join(tmp, 'x.nwb'), { raw: true })).rejects.toThrow(/raw: true for samples changed by baseline, filter/);
+    const p = join(tmp, 'conditioned.nwb');
+    const res = await writeNwb(cond, p, { results: { components: [{ sweep: 0, class: 'A', latency_ms: 1.25, detected: true, reason: null }, { sweep: 1, class: 'A', latency_ms: null, detected: false, reason: 'below noise' }] } });
+    expect(res.series).toEqual(['/processing/fascicle/sweeps']);
+    expect(res.tables).toEqual(['components']);
+    const back = await readNwb(p);
+    expect(Array.from(back.data)).toEqual(Array.from(cond.data));
+    expect(back.column('site')).toEqual(cond.column('site'));
+    expect(back.column('acquiredS')).toEqual(cond.column('acquiredS'));
+    const tables = await readNwbTables(p);
+    expect(tables.components).toEqual([{ sweep: 0, class: 'A', latency_ms: 1.25, detected: true, reason: null }, { sweep: 1, class: 'A', latency_ms: null, detected: false, reason: 'below noise' }]);
+  });
+
+  it('never overwrites a file fascicle did not write; replaces its own only with overwrite; leaves no temporary file', async () => {
+    const set = sampleSet();
+    const foreign = join(tmp, 'foreign.nwb');
+    copyFileSync(fx('continuous.nwb'), foreign);
+    const before = sha(foreign);
+    await expect(writeNwb(set, foreign, { raw: true })).rejects.toThrow(OutputError);
+    await expect(writeNwb(set, foreign, { raw: true, overwrite: true })).rejects.toThrow(/not an NWB file written by fascicle/);
+    expect(sha(foreign)).toBe(before);
+    const text = join(tmp, 'notes.nwb');
+    writeFileSync(text, 'my notes');
+    await expect(writeNwb(set, text, { raw: true, overwrite: true })).rejects.toThrow(/not an NWB file written by fascicle/);
+    expect(readFileSync(text, 'utf8')).toBe('my notes');
+    const own = join(tmp, 'own.nwb');
+    await writeNwb(set, own, { raw: true });
+    await expect(writeNwb(set, own, { raw: true })).rejects.toThrow(/the file exists/);
+    const t1 = statSync(own).mtimeMs;
+    await writeNwb(set.select([0, 1]), own, { raw: true, overwrite: true });
+    expect((await readNwb(own)).nSweeps).toBe(2);
+    expect(statSync(own).mtimeMs).toBeGreaterThanOrEqual(t1);
+    const input = await readNwb(fx('precut.nwb'), { columns: { intensity: 'amp' } });
+    await expect(writeNwb(input, fx('precut.nwb'), { raw: true, overwrite: true })).rejects.toThrow(/it is an input of this set/);
+    const err = await writeNwb(set, join(tmp, 'no-such-folder', 'x.nwb'), { raw: true }).catch((e) => e);
+    expect(err).toBeInstanceOf(OutputError);
+    expect(readdirSync(tmp).filter((f) => f.includes('.tmp-'))).toEqual([]);
+  });
+});
+
+describe('an independent reader (h5py) and validator (hdmf) on the files', () => {
+  it.skipIf(!HAVE_HDMF)('hdmf validates the h5py fixtures against the NWB 2.7.0 schema', () => {
+    for (const f of ['continuous.nwb', 'precut.nwb', 'no_stimulus.nwb', 'bad_trials.nwb']) {
+      const r = independent(fx(f));
+      expect(r.errors, f).toEqual([]);
+    }
+  });
+
+  it.skipIf(!HAVE_H5PY)('h5py finds the NWB layout, data, timestamps and conversion in what fascicle wrote; hdmf validates it', async () => {
+    const set = sampleSet();
+    const p = join(tmp, 'independent.nwb');
+    await writeNwb(set, p, { raw: true, sessionStartTime: '2026-03-14T09:30:00+01:00', results: { velocity: [{ class: 'A', v: 41.5 }] } });
+    const r = independent(p);
+    if (HAVE_HDMF) expect(r.errors).toEqual([]);
+    const L = r.layout;
+    expect(L.root.neurodata_type).toBe('NWBFile');
+    expect(L.root.namespace).toBe('core');
+    expect(L.root.nwb_version).toBe('2.7.0');
+    expect(L.root.session_start_time).toBe('2026-03-14T09:30:00+01:00');
+    expect(r.types['/acquisition/sweeps_e0']).toBe('ElectricalSeries');
+    expect(r.types['/intervals/trials']).toBe('TimeIntervals');
+    expect(r.types['/general/extracellular_ephys/electrodes']).toBe('DynamicTable');
+    expect(r.types['/processing/fascicle']).toBe('ProcessingModule');
+    const s0 = L.series['/acquisition/sweeps_e0'];
+    expect(s0.shape).toEqual([3 * set.nSamples, 1]);
+    expect(s0.dtype).toBe('float64');
+    expect(s0.unit).toBe('volts');
+    expect(Math.fround(s0.conversion)).toBe(Math.fround(1e-6)); // stored in uV, float32 per the schema
+    expect(s0.first).toEqual(Array.from(set.sweep(0).subarray(0, 5)));
+    expect(s0.timestamps.shape).toEqual([3 * set.nSamples]);
+    expect(s0.timestamps.unit).toBe('seconds');
+    expect(s0.electrodes.table).toBe('/general/extracellular_ephys/electrodes');
+    let sumV = 0;
+    for (let i = 0; i < 3 * set.nSamples; i++) sumV += set.data[i];
+    expect(s0.sum_volts).toBeCloseTo(sumV * s0.conversion, 12);
+    const trials = L.tables['/intervals/trials'];
+    expect(trials.rows).toBe(6);
+    expect(trials.values.intensity).toEqual(set.column('intensity'));
+    expect(trials.values.site).toEqual(set.column('site'));
+    expect(trials.values.timeseries[4]).toEqual([300, 300, '/acquisition/sweeps_e1']);
+    const st = trials.values.stimulus_time as number[];
+    trials.values.start_time.forEach((t: number, i: number) => expect((t - st[i]) * 1000).toBeCloseTo(set.t0Ms, 9));
+    const el = L.tables['/general/extracellular_ephys/electrodes'];
+    expect(el.values.distance_mm).toEqual([20, 32.5]);
+    expect(el.values.location).toEqual(['proximal', 'distal']);
+    expect(L.tables['/processing/fascicle/velocity'].values.v).toEqual([41.5]);
+  });
+});
