@@ -104,7 +104,7 @@ export class DoseResponseResult extends Result {
     return tableHtml(this.summary, { caption: 'Dose-response per class (IC50 with 95% CI; preparations as replicates)' }) + tableHtml(this.comparisons, { caption: 'Same IC50 for two classes? (extra-sum-of-squares F test)' });
   }
   toString(): string {
-    return 'DoseResponseResult\n' + tableText(this.summary, { columns: ['class', 'preparations', 'ic50', 'ic50_ci95_low', 'ic50_ci95_high', 'hill', 'pooled_ic50', 'status'] }) + '\n' + tableText(this.comparisons);
+    return 'DoseResponseResult\n' + tableText(this.summary, { columns: ['class', 'distanceMm', 'preparations', 'ic50', 'ic50_ci95_low', 'ic50_ci95_high', 'hill', 'pooled_ic50', 'status'] }) + '\n' + tableText(this.comparisons);
   }
 }
 

@@ -140,7 +140,7 @@ describe('dose-response with run-down corrected by time-matched vehicle controls
 
 // ---- fits use only what was measured; no interval the data cannot support (issue 12, issue 14) ----
 // Synthetic rows with values chosen here (self-consistency and invariants; common practice, no source).
-import { recruitment, temperatureAnalysis, singleSiteVelocity, regressionVelocity, twoSiteVelocity, SweepSet, PRESETS, AnalysisError } from '../../src';
+import { recruitment, temperatureAnalysis, singleSiteVelocity, regressionVelocity, twoSiteVelocity, SweepSet, PRESETS, AnalysisError, averageRepeats, condition } from '../../src';
 
 describe('fitTemperature: a status, and no interval the data cannot support', () => {
   const T = [20, 25, 30, 37];
@@ -291,5 +291,33 @@ describe('one bad velocity never discards good ones', () => {
     const v = singleSiteVelocity(good(0) as never, ['preparation'], resolved);
     expect(v.every((r) => r.definition === 'peak (parabolic sub-sample)' && r.latency_column === 'peak_ms')).toBe(true);
     expect(v.find((r) => r.class === 'C')!.velocity_m_s as number).toBeCloseTo(1, 2);
+  });
+});
+
+describe('pipeline: averaging of repeats and several artifact steps', () => {
+  // invariants of averaging and step order (common practice, no source)
+  const mk = (conds: Record<string, string | number>[]) => {
+    const n = 200;
+    const data = new Float64Array(conds.length * n);
+    conds.forEach((c, s) => { for (let i = 0; i < n; i++) data[s * n + i] = (c.repeat as number) * 2 + (i === 150 ? 10 : 0); });
+    return new SweepSet({ data, nSweeps: conds.length, nSamples: n, fs: 10000, t0Ms: -5, units: 'uV', conditions: conds });
+  };
+  it('averages the repeats of each condition, keeps the shared conditions, and leaves sets without repeats alone', () => {
+    const set = mk([0, 1, 2, 3].flatMap((k) => [{ preparation: 'P', intensity: 1, repeat: k, fileSweep: k }, { preparation: 'P', intensity: 2, repeat: k, fileSweep: 4 + k }]));
+    const a = averageRepeats(set);
+    expect(a.nSweeps).toBe(2);
+    expect(a.conditions.map((c) => c.intensity)).toEqual([1, 2]);
+    expect(a.conditions[0].count).toBe(4);
+    expect(a.sweep(0)[0]).toBeCloseTo(3, 12); // mean of 0, 2, 4, 6
+    expect(a.history[a.history.length - 1].verb).toBe('averageRepeats');
+    const once = mk([{ preparation: 'P', intensity: 1, repeat: 0 }, { preparation: 'P', intensity: 2, repeat: 0 }]);
+    expect(averageRepeats(once)).toBe(once);
+  });
+  it('applies several artifact steps in order, and names a bad one', () => {
+    const set = mk([{ preparation: 'P', repeat: 0 }]);
+    const c = condition(set, { baseline: false, artifact: [{ method: 'blank', window: [0, 0.5] }, { method: 'blank', window: [9, 10] }] });
+    expect(c.history.filter((h) => h.verb === 'removeArtifact').length).toBe(2);
+    expect(c.sweep(0)[150]).toBe(0); // 10 ms -> index 150, blanked by the second step
+    expect(() => condition(set, { artifact: [{ method: 'blank' }, 3 as never] })).toThrow(/invalid artifact\[1\]/);
   });
 });
