@@ -127,6 +127,18 @@ for (const [name, c] of [['public API', apiChecks], ['fascicle run', cliChecks]]
   printChecks(`FNPG-N07 through the ${name}: recruitment I50 at 15 mm`, c.recruitment);
   console.log(`${name}: ${c.asserted.filter((q) => q.ok).length} of ${c.asserted.length} issue-14 tolerances met`);
 }
+/** one line per class and estimator: the error at each temperature (for the README's table) */
+function byEstimator(title: string, rows: Check[]): void {
+  const lines = [title, 'class | estimator | ' + TEMPS.map((T) => `${T} C est/truth (err %)`).join(' | ')];
+  const keys = [...new Set(rows.map((r) => `${r.class}|${r.estimator.replace(' (recommended)', '')}`))];
+  for (const k of keys) {
+    const [cls, est] = k.split('|');
+    const at = TEMPS.map((T) => rows.find((r) => r.class === cls && r.estimator.replace(' (recommended)', '') === est && r.where === `${T} C`));
+    lines.push(`${cls} | ${est} | ` + at.map((r) => (r && r.estimate !== null ? `${r.estimate.toPrecision(3)}/${r.truth.toPrecision(3)} (${r.errorPct! >= 0 ? '+' : ''}${r.errorPct!.toFixed(1)})` : `-/${r ? r.truth.toPrecision(3) : '-'}`)).join(' | '));
+  }
+  console.log(lines.join('\n'));
+}
+byEstimator('Velocity by estimator through the public API (m/s)', apiChecks.velocity);
 for (const r of cliRuns) console.log(`fascicle run (${r.w}): exit ${r.status}${r.stderr ? `\n${r.stderr.slice(0, 1500)}` : ''}`);
 
 /**
