@@ -285,7 +285,7 @@ export function benjaminiHochberg(p: readonly (number | null)[]): (number | null
 export interface GroupOptions {
   /** the measure (a numeric column, e.g. 'amplitude_uV' or 'velocity_m_s') */
   value: string;
-  /** between-animal factor (default 'group') */
+  /** between-animal factor (default 'group'; without such a column all animals form one group 'all') */
   group?: string;
   /** the unit of replication (default 'animal' when the rows have it, else 'preparation') */
   animal?: string;
@@ -313,7 +313,8 @@ function resolve(rows: readonly Row[], o: GroupOptions): Resolved {
   };
   if (rows.length === 0) throw new AnalysisError('group statistics need at least one row');
   const value = need('value', o.value);
-  const group = need('group', o.group ?? groupDefaults.group);
+  // without a group column (and none asked for) all animals form one group: within-animal designs
+  const group = o.group === undefined && !cols.includes(groupDefaults.group) ? '' : need('group', o.group ?? groupDefaults.group);
   const animal = need('animal', o.animal ?? groupDefaults.animalKeys.find((k) => cols.includes(k)) ?? 'animal');
   const condition = o.condition === undefined ? null : need('condition', o.condition);
   const by = (o.by ?? groupDefaults.by.filter((k) => cols.includes(k))).map((k) => need('by', k));
@@ -333,12 +334,13 @@ export function animalMeans(input: RowInput, options: GroupOptions): { points: A
   let excluded = 0;
   for (const r of rows) {
     const v = r[o.value];
-    if (typeof v !== 'number' || !Number.isFinite(v) || r[o.animal] === null || r[o.animal] === undefined || r[o.group] === undefined || r[o.group] === null) { excluded++; continue; }
+    const grp = o.group ? r[o.group] : 'all';
+    if (typeof v !== 'number' || !Number.isFinite(v) || r[o.animal] === null || r[o.animal] === undefined || grp === undefined || grp === null) { excluded++; continue; }
     const key: Row = {};
     for (const k of o.by) key[k] = r[k] ?? null;
     const cond = o.condition ? r[o.condition] ?? null : null;
-    const id = JSON.stringify([o.by.map((k) => key[k]), r[o.group], cond, r[o.animal]]);
-    const c = cells.get(id) ?? cells.set(id, { key, group: r[o.group], condition: cond, animal: r[o.animal], sum: 0, n: 0 }).get(id)!;
+    const id = JSON.stringify([o.by.map((k) => key[k]), grp, cond, r[o.animal]]);
+    const c = cells.get(id) ?? cells.set(id, { key, group: grp, condition: cond, animal: r[o.animal], sum: 0, n: 0 }).get(id)!;
     c.sum += v;
     c.n++;
   }
@@ -424,7 +426,7 @@ export function compareGroups(input: RowInput, options: GroupOptions, history?: 
       }
       const base: Row = { ...key, ...(o.condition ? { condition: c } : {}) };
       const vals = groups.map((g) => inKey.filter((p) => p.group === g && p.condition === c).map((p) => p.value));
-      if (groups.length < 2) { push(base, 'between groups', String(groups[0]), notComputed('only one group')); continue; }
+      if (groups.length < 2) { if (o.group) push(base, 'between groups', String(groups[0]), notComputed('only one group')); continue; }
       if (groups.length === 2) {
         const label = `${groups[0]} vs ${groups[1]}`;
         const w = welchTTest(vals[0], vals[1]);
@@ -472,7 +474,7 @@ export function groupMethods(result: GroupComparison): string {
   const tests = [...new Set(result.tests.filter((t) => t.status === 'ok').map((t) => String(t.test)))];
   const mw = result.tests.some((t) => t.test === 'Mann-Whitney U' && t.status === 'ok');
   const parts = [
-    `${o.value.replace(/_/g, ' ')} was averaged within each ${o.animal} (the unit of replication; sweeps and electrodes are not independent replicates, Lazic 2010; Aarts et al. 2014) and summarised per ${o.group}${o.condition ? ` and ${o.condition}` : ''} as mean, SD, SEM and a t-based 95% confidence interval.`,
+    `${o.value.replace(/_/g, ' ')} was averaged within each ${o.animal} (the unit of replication; sweeps and electrodes are not independent replicates, Lazic 2010; Aarts et al. 2014) and summarised per ${[o.group, o.condition].filter(Boolean).join(' and ') || 'set'} as mean, SD, SEM and a t-based 95% confidence interval.`,
   ];
   if (tests.length) {
     parts.push(`Tests: ${tests.join(', ')}${mw ? ' (Mann-Whitney U exact for samples of at most 8 without ties, otherwise the normal approximation with tie and continuity correction)' : ''}; p values were adjusted over the ${result.tests.filter((t) => t.status === 'ok').length} tests by Holm's step-down method (Holm 1979) and, for the false discovery rate, by Benjamini & Hochberg (1995).`);

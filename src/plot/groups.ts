@@ -69,7 +69,7 @@ export function groupFigure(result: GroupComparison, options: { cell?: Record<st
   const label = escapeHtml(options.label ?? o.value.replace(/_(uV_ms|mV_ms|V_s|m_s|uV|mV|V|ms|mm|mA|uA|uM|nM|mM|Hz)$/, '').replace(/_/g, ' '));
   const where = o.by.map((k) => `${escapeHtml(k)} ${escapeHtml(String(cell[k]))}`).join(', ');
   const title = options.title !== undefined ? escapeHtml(options.title) : `${label} by group${where ? ` (${where})` : ''}: animals as the unit`;
-  const xTitle = o.condition ? escapeHtml(o.condition) : escapeHtml(o.group);
+  const xTitle = o.condition ? escapeHtml(o.condition) : escapeHtml(o.group || 'group');
   const base = baseLayout(title, xTitle, `${label}${unit}`);
   const xaxis = { ...(base.xaxis as object), tickmode: 'array', tickvals: conds.map((_, i) => i), ticktext: o.condition ? conds.map((c) => escapeHtml(String(c))) : [''], range: [-0.6, conds.length - 0.4] };
   const name = `groups-${o.value}${o.by.map((k) => `-${String(cell[k])}`).join('')}`.replace(/[^A-Za-z0-9_.-]+/g, '_');

@@ -287,3 +287,35 @@ describe('inputs and methods text', () => {
     expect(mixedMethods(m)).toMatch(/random intercept per preparation .* restricted maximum likelihood .* Satterthwaite/);
   });
 });
+
+describe('within-animal designs and pseudo-replication', () => {
+  it('without a group column, three time points in the same animals get a repeated-measures ANOVA', () => {
+    const r = new Rng(21);
+    const y = Array.from({ length: 6 }, () => { const u = r.normal(); return [0, 1, 2].map((t) => 10 + u + 0.4 * t + 0.3 * r.normal()); });
+    const rows = y.flatMap((row, i) => row.map((v, t) => ({ preparation: `P${i}`, time: `t${t}`, latency_ms: v })));
+    const res = compareGroups(rows, { value: 'latency_ms', condition: 'time' });
+    expect(res.tests.map((t) => t.test)).toEqual(['repeated-measures ANOVA']);
+    rel(res.tests[0].statistic as number, repeatedMeasuresAnova(y).F!);
+    expect(res.summary.map((s) => s.group)).toEqual(['all', 'all', 'all']);
+  });
+  it('with the animal as a random effect the null rejection rate is near 5%; treating sweeps as independent inflates it', () => {
+    // 300 simulated two-group studies, no true effect: 5 animals per group, 6 sweeps each, ICC 0.5.
+    // Expected: the mixed model's group test rejects at about the nominal 5% (binomial SD 1.3%);
+    // a t test over sweeps (pseudo-replication, Lazic 2010) rejects far more often.
+    const r = new Rng(2024);
+    let mixedRejects = 0, naiveRejects = 0;
+    const S = 300;
+    for (let k = 0; k < S; k++) {
+      const rows: { group: string; animal: string; v: number }[] = [];
+      for (const g of ['a', 'b']) for (let a = 0; a < 5; a++) { const u = r.normal(); for (let s = 0; s < 6; s++) rows.push({ group: g, animal: `${g}${a}`, v: u + r.normal() }); }
+      const m = mixedModel(rows, { value: 'v', fixed: ['group'], random: 'animal' });
+      if ((m.anova[0].p as number) < 0.05) mixedRejects++;
+      const w = welchTTest(rows.filter((q) => q.group === 'a').map((q) => q.v), rows.filter((q) => q.group === 'b').map((q) => q.v));
+      if (w.p! < 0.05) naiveRejects++;
+    }
+    console.log(`null rejection rate: mixed model ${(100 * mixedRejects / S).toFixed(1)}%, sweeps as replicates ${(100 * naiveRejects / S).toFixed(1)}%`);
+    expect(mixedRejects / S).toBeGreaterThan(0.02);
+    expect(mixedRejects / S).toBeLessThan(0.08);
+    expect(naiveRejects / S).toBeGreaterThan(0.15);
+  });
+});
