@@ -143,7 +143,8 @@ export function checkManifestKeys(m: unknown, file: string): void {
     if (ff.options !== undefined) {
       const binary = ff.format === 'binary' || (ff.format === undefined && typeof ff.path === 'string' && /\.json$/i.test(ff.path));
       if (binary) throw new ConfigError({ file, field: `${at}/options` }, 'reader options for a binary file (its sidecar describes it)', 'no "options" for a binary file; put dtype, gain and the like in the sidecar');
-      checkObjectKeys(file, `${at}/options`, ff.options, FILE_OPTION_KEYS);
+      // other formats (added later) check their own options
+      if (ff.format === 'delimited' || ff.format === undefined) checkObjectKeys(file, `${at}/options`, ff.options, FILE_OPTION_KEYS);
     }
     series(ff.conditions, `${at}/conditions`);
     if (Array.isArray(ff.sweeps)) ff.sweeps.forEach((c, j) => series(c, `${at}/sweeps/${j}`));
