@@ -38,7 +38,10 @@ export interface SweepQcOptions {
   responseWindow?: [number, number];
   /** condition keys whose equal values make a condition (default: every condition key but per-sweep ones) */
   by?: string[];
-  /** keys that make one recording channel, whose sweeps share a noise level (default: preparation, site, distanceMm, channel where present) */
+  /**
+   * keys that make one recording channel, whose sweeps share a noise level
+   * (default: preparation, site, distanceMm, channel where present)
+   */
   peerBy?: string[];
   /** flag 'noisy' when the noise exceeds this multiple of the channel's median noise (default 3) */
   maxNoiseRatio?: number;
@@ -46,7 +49,7 @@ export interface SweepQcOptions {
   minNoiseRatio?: number;
   /** flag 'drift' when a baseline change exceeds this multiple of the channel's median noise (default 10) */
   maxDriftRatio?: number;
-  /** flag 'artifact' when the artifact is more than this factor larger or smaller than its condition's median (default 3) */
+  /** flag 'artifact' when the artifact is this factor larger or smaller than its condition's median (default 3) */
   maxArtifactRatio?: number;
   /** consecutive identical extreme samples that mark an amplifier rail (default 3) */
   railRun?: number;
@@ -75,7 +78,10 @@ export const sweepQcDefaults = {
   peerKeys: ['preparation', 'site', 'distanceMm', 'channel'],
 };
 
-const OPTION_KEYS = ['quietWindow', 'endWindow', 'artifactWindow', 'responseWindow', 'by', 'peerBy', 'maxNoiseRatio', 'minNoiseRatio', 'maxDriftRatio', 'maxArtifactRatio', 'railRun', 'outlierThreshold', 'outlierMinScale', 'minSweeps'];
+const OPTION_KEYS = [
+  'quietWindow', 'endWindow', 'artifactWindow', 'responseWindow', 'by', 'peerBy', 'maxNoiseRatio', 'minNoiseRatio',
+  'maxDriftRatio', 'maxArtifactRatio', 'railRun', 'outlierThreshold', 'outlierMinScale', 'minSweeps',
+];
 
 /** The flag codes a sweep can carry. */
 export type QcFlag = 'noisy' | 'flat' | 'drift' | 'saturated' | 'artifact' | 'outlier';
@@ -145,7 +151,10 @@ function runsOf(x: ArrayLike<number>, value: number): [number, number][] {
  * is then a clipped sample. A constant sweep has no rails (it is flat, not clipped).
  * @example railSamples(Float64Array.of(0, 5, 5, 5, 1, -2), 3) // { high: 5, low: null, clipped: [1, 2, 3] }
  */
-export function railSamples(x: ArrayLike<number>, minRun: number): { high: number | null; low: number | null; clipped: number[] } {
+export function railSamples(
+  x: ArrayLike<number>,
+  minRun: number,
+): { high: number | null; low: number | null; clipped: number[] } {
   let hi = -Infinity, lo = Infinity;
   for (let i = 0; i < x.length; i++) { if (x[i] > hi) hi = x[i]; if (x[i] < lo) lo = x[i]; }
   if (!(hi > lo)) return { high: null, low: null, clipped: [] };
@@ -182,7 +191,11 @@ function indices(set: SweepSet, w: [number, number], name: string, min = 1): [nu
   const a = Math.max(0, Math.ceil(((w[0] - set.t0Ms) * set.fs) / 1000 - 1e-9));
   const b = Math.min(set.nSamples - 1, Math.floor(((w[1] - set.t0Ms) * set.fs) / 1000 + 1e-9));
   if (b - a + 1 < min) {
-    throw new OptionError(`invalid ${name}: [${w[0]}, ${w[1]}] ms holds ${Math.max(0, b - a + 1)} samples (need at least ${min}); the sweep spans [${set.t0Ms}, ${set.timeAt(set.nSamples - 1)}] ms`);
+    const span = `[${set.t0Ms}, ${set.timeAt(set.nSamples - 1)}] ms`;
+    throw new OptionError(
+      `invalid ${name}: [${w[0]}, ${w[1]}] ms holds ${Math.max(0, b - a + 1)} samples (need at least ${min}); `
+        + `the sweep spans ${span}`,
+    );
   }
   return [a, b];
 }
@@ -197,7 +210,10 @@ function resolve(set: SweepSet, o: SweepQcOptions): Resolved {
   checkKeys('sweepQc options', o, OPTION_KEYS);
   const end = set.timeAt(set.nSamples - 1);
   if (!o.quietWindow && !(set.t0Ms < -sweepQcDefaults.quietStopMs)) {
-    throw new OptionError(`invalid quietWindow: the sweep starts at ${set.t0Ms} ms, so there is no pre-stimulus window; give quietWindow: [from, to] in ms`);
+    throw new OptionError(
+      `invalid quietWindow: the sweep starts at ${set.t0Ms} ms, so there is no pre-stimulus window; `
+        + 'give quietWindow: [from, to] in ms',
+    );
   }
   const quietWindow = windowMs('quietWindow', o.quietWindow ?? [set.t0Ms, -sweepQcDefaults.quietStopMs]);
   const endWindow = windowMs('endWindow', o.endWindow ?? [end - sweepQcDefaults.endFraction * (end - set.t0Ms), end]);
@@ -205,23 +221,40 @@ function resolve(set: SweepSet, o: SweepQcOptions): Resolved {
   const responseWindow = windowMs('responseWindow', o.responseWindow ?? [artifactWindow[1], end]);
   const known = keysOf(set);
   const checkList = (name: string, v: unknown): string[] => {
-    if (!Array.isArray(v) || v.some((k) => typeof k !== 'string')) throw new OptionError(`invalid ${name}: ${shown(v)}; must be a list of condition names`);
-    for (const k of v) if (!known.includes(k)) throw new OptionError(`invalid ${name}: no sweep has the condition ${JSON.stringify(k)}${didYouMean(k, known)}; conditions are ${known.join(', ')}`);
+    if (!Array.isArray(v) || v.some((k) => typeof k !== 'string')) {
+      throw new OptionError(`invalid ${name}: ${shown(v)}; must be a list of condition names`);
+    }
+    for (const k of v) {
+      if (known.includes(k)) continue;
+      const hint = didYouMean(k, known);
+      throw new OptionError(
+        `invalid ${name}: no sweep has the condition ${JSON.stringify(k)}${hint}; conditions are ${known.join(', ')}`,
+      );
+    }
     return [...v];
   };
-  const peerBy = o.peerBy !== undefined ? checkList('peerBy', o.peerBy) : sweepQcDefaults.peerKeys.filter((k) => known.includes(k));
-  const by = o.by !== undefined ? checkList('by', o.by) : known.filter((k) => !sweepQcDefaults.perSweepKeys.includes(k));
-  const ratio = (name: 'maxNoiseRatio' | 'minNoiseRatio' | 'maxDriftRatio' | 'maxArtifactRatio' | 'outlierThreshold' | 'outlierMinScale') => positive(name, o[name] ?? sweepQcDefaults[name]);
+  const peerBy = o.peerBy !== undefined
+    ? checkList('peerBy', o.peerBy)
+    : sweepQcDefaults.peerKeys.filter((k) => known.includes(k));
+  const by = o.by !== undefined
+    ? checkList('by', o.by)
+    : known.filter((k) => !sweepQcDefaults.perSweepKeys.includes(k));
+  type RatioKey = 'maxNoiseRatio' | 'minNoiseRatio' | 'maxDriftRatio' | 'maxArtifactRatio'
+    | 'outlierThreshold' | 'outlierMinScale';
+  const ratio = (name: RatioKey) => positive(name, o[name] ?? sweepQcDefaults[name]);
   const r: Resolved = {
     quietWindow, endWindow, artifactWindow, responseWindow, by, peerBy,
     maxNoiseRatio: ratio('maxNoiseRatio'), minNoiseRatio: ratio('minNoiseRatio'), maxDriftRatio: ratio('maxDriftRatio'),
-    maxArtifactRatio: ratio('maxArtifactRatio'), railRun: integerIn('railRun', o.railRun ?? sweepQcDefaults.railRun, 2, 1e6),
+    maxArtifactRatio: ratio('maxArtifactRatio'),
+    railRun: integerIn('railRun', o.railRun ?? sweepQcDefaults.railRun, 2, 1e6),
     outlierThreshold: ratio('outlierThreshold'), outlierMinScale: ratio('outlierMinScale'),
     minSweeps: integerIn('minSweeps', o.minSweeps ?? sweepQcDefaults.minSweeps, 3, 1e6),
   };
   if (!(r.maxNoiseRatio > 1)) throw new OptionError(`invalid maxNoiseRatio: ${r.maxNoiseRatio}; must be > 1`);
   if (!(r.minNoiseRatio < 1)) throw new OptionError(`invalid minNoiseRatio: ${r.minNoiseRatio}; must be < 1`);
-  if (!(r.maxArtifactRatio > 1)) throw new OptionError(`invalid maxArtifactRatio: ${r.maxArtifactRatio}; must be > 1`);
+  if (!(r.maxArtifactRatio > 1)) {
+    throw new OptionError(`invalid maxArtifactRatio: ${r.maxArtifactRatio}; must be > 1`);
+  }
   return r;
 }
 
@@ -232,7 +265,15 @@ const fmt = (x: number) => (Number.isFinite(x) ? String(Number(x.toPrecision(3))
 export class SweepQcResult extends Result {
   readonly history: readonly Step[];
   readonly sources: readonly Source[];
-  constructor(readonly rows: readonly Row[], readonly options: Readonly<Resolved>, readonly units: string, readonly nSweeps: number, private readonly conditionsId: string, history: readonly Step[], sources: readonly Source[]) {
+  constructor(
+    readonly rows: readonly Row[],
+    readonly options: Readonly<Resolved>,
+    readonly units: string,
+    readonly nSweeps: number,
+    private readonly conditionsId: string,
+    history: readonly Step[],
+    sources: readonly Source[],
+  ) {
     super();
     this.history = history;
     this.sources = sources;
@@ -272,26 +313,32 @@ export class SweepQcResult extends Result {
 
   toHTML(): string {
     const n = this.flagged().length;
-    return tableHtml(this.rows, { caption: `Sweep quality control: ${n} of ${this.rows.length} sweeps flagged (noise, drift and artifact in ${this.units})` });
+    const caption = `Sweep quality control: ${n} of ${this.rows.length} sweeps flagged `
+      + `(noise, drift and artifact in ${this.units})`;
+    return tableHtml(this.rows, { caption });
   }
 
   toString(): string {
     const n = this.flagged().length;
-    return `SweepQcResult: ${n} of ${this.rows.length} sweeps flagged\n` + tableText(this.flagged(), { columns: ['sweep', 'preparation', 'flags', 'reasons'], maxRows: 20 });
+    const table = tableText(this.flagged(), { columns: ['sweep', 'preparation', 'flags', 'reasons'], maxRows: 20 });
+    return `SweepQcResult: ${n} of ${this.rows.length} sweeps flagged\n` + table;
   }
 }
 
 /**
  * Quality control of every sweep. Numbers per sweep (units of the set):
- * - noise: 1.4826 MAD of the quiet window about its straight-line trend; noise_hf: the same of first differences / sqrt 2
- * - drift: median of the end window minus median of the quiet window; quiet_change: the trend across the quiet window;
- *   drift_excess: drift minus its condition's median drift (a response lasting to the sweep end is common to the condition)
+ * - noise: 1.4826 MAD of the quiet window about its straight-line trend;
+ *   noise_hf: the same of first differences / sqrt 2
+ * - drift: median of the end window minus median of the quiet window; quiet_change: the trend across the quiet
+ *   window; drift_excess: drift minus its condition's median drift (a response lasting to the sweep end is common
+ *   to the condition)
  * - clipped_fraction: samples on a rail over all samples; a rail is a sweep's own extreme value repeated in a run of
  *   >= railRun samples, and then a rail of every sweep of its channel (so single-sample touches count too);
  *   clipped_outside_artifact: rail samples outside the artifact window
  * - artifact: largest |sample - quiet level| in the artifact window; artifact_ratio: to its condition's median
  * - outlier_score: MAD-rule score of the sweep's deviation from its condition's median waveform over the response
- *   window, the larger of the rms and the peak deviation scores; scale = max(1.4826 MAD, outlierMinScale x median deviation)
+ *   window, the larger of the rms and the peak deviation scores;
+ *   scale = max(1.4826 MAD, outlierMinScale x median deviation)
  * Flags: noisy, flat, drift, saturated, artifact, outlier; each with a reason. Nothing is removed.
  * @example sweepQc(set).flagged()
  */
@@ -304,7 +351,10 @@ export function sweepQc(set: SweepSet, options: SweepQcOptions = {}): SweepQcRes
   const [aa, ab] = indices(set, o.artifactWindow, 'artifactWindow', 1);
   const [ra, rb] = indices(set, o.responseWindow, 'responseWindow', 3);
   const u = set.units;
-  interface S { noise: number; hf: number; level: number; drift: number; quietChange: number; clipped: number[]; high: number | null; low: number | null; constant: boolean; artifact: number }
+  interface S {
+    noise: number; hf: number; level: number; drift: number; quietChange: number;
+    clipped: number[]; high: number | null; low: number | null; constant: boolean; artifact: number;
+  }
   const per: S[] = [];
   for (let s = 0; s < N; s++) {
     const x = data.subarray(s * n, (s + 1) * n);
@@ -323,11 +373,13 @@ export function sweepQc(set: SweepSet, options: SweepQcOptions = {}): SweepQcRes
     for (let i = 1; i < n && constant; i++) if (x[i] !== x[0]) constant = false;
     let art = 0;
     for (let i = aa; i <= ab; i++) art = Math.max(art, Math.abs(x[i] - level));
-    per.push({ noise, hf, level, drift, quietChange, clipped: rails.clipped, high: rails.high, low: rails.low, constant, artifact: art });
+    const { clipped, high, low } = rails;
+    per.push({ noise, hf, level, drift, quietChange, clipped, high, low, constant, artifact: art });
   }
   // channels (peers) and conditions
   const peerOf = set.conditions.map((c) => groupKey(c, o.peerBy));
-  // a rail seen (as a run) in any sweep of a channel is that channel's rail: shorter touches in its other sweeps count too
+  // a rail seen (as a run) in any sweep of a channel is that channel's rail: shorter touches in its
+  // other sweeps count too
   const railsOf = new Map<string, Set<number>>();
   per.forEach((p, s) => {
     const r = railsOf.get(peerOf[s]) ?? railsOf.set(peerOf[s], new Set()).get(peerOf[s])!;
@@ -354,7 +406,9 @@ export function sweepQc(set: SweepSet, options: SweepQcOptions = {}): SweepQcRes
     return m;
   };
   const peers = members(peerOf), conds = members(condOf);
-  const peerNoise = new Map([...peers].map(([id, ix]) => [id, medianOf(ix.filter((i) => !per[i].constant).map((i) => per[i].noise))]));
+  const peerNoise = new Map([...peers].map(([id, ix]) => {
+    return [id, medianOf(ix.filter((i) => !per[i].constant).map((i) => per[i].noise))];
+  }));
   const condDrift = new Map([...conds].map(([id, ix]) => [id, medianOf(ix.map((i) => per[i].drift))]));
   const condArtifact = new Map([...conds].map(([id, ix]) => [id, medianOf(ix.map((i) => per[i].artifact))]));
   // outlier scores per condition
@@ -364,7 +418,8 @@ export function sweepQc(set: SweepSet, options: SweepQcOptions = {}): SweepQcRes
   const w = rb - ra + 1;
   for (const ix of conds.values()) {
     if (ix.length < o.minSweeps) {
-      for (const i of ix) scoreStatus[i] = `not scored: ${ix.length} sweep${ix.length === 1 ? '' : 's'} in its condition (need ${o.minSweeps})`;
+      const why = `not scored: ${ix.length} sweep${ix.length === 1 ? '' : 's'} in its condition (need ${o.minSweeps})`;
+      for (const i of ix) scoreStatus[i] = why;
       continue;
     }
     const med = new Float64Array(w);
@@ -403,46 +458,54 @@ export function sweepQc(set: SweepSet, options: SweepQcOptions = {}): SweepQcRes
     const reasons: string[] = [];
     const ref = peerNoise.get(peerOf[s])!;
     const nRatio = ref > 0 ? p.noise / ref : NaN;
-    if (p.constant) { flags.push('flat'); reasons.push(`flat: every sample equals ${fmt(data[s * n])} ${u}`); }
-    else if (p.noise === 0 || nRatio < o.minNoiseRatio) { flags.push('flat'); reasons.push(`flat: noise ${fmt(p.noise)} ${u} is ${fmt(nRatio)} x its channel's median (below ${o.minNoiseRatio})`); }
-    else if (nRatio > o.maxNoiseRatio) { flags.push('noisy'); reasons.push(`noisy: noise ${fmt(p.noise)} ${u} is ${fmt(nRatio)} x its channel's median ${fmt(ref)} ${u} (above ${o.maxNoiseRatio})`); }
+    const flag = (f: QcFlag, why: string) => { flags.push(f); reasons.push(`${f}: ${why}`); };
+    const noiseIs = `noise ${fmt(p.noise)} ${u} is ${fmt(nRatio)} x its channel's median`;
+    if (p.constant) flag('flat', `every sample equals ${fmt(data[s * n])} ${u}`);
+    else if (p.noise === 0 || nRatio < o.minNoiseRatio) flag('flat', `${noiseIs} (below ${o.minNoiseRatio})`);
+    else if (nRatio > o.maxNoiseRatio) flag('noisy', `${noiseIs} ${fmt(ref)} ${u} (above ${o.maxNoiseRatio})`);
     const condN = conds.get(condOf[s])!.length;
     const excess = condN >= 2 ? p.drift - condDrift.get(condOf[s])! : p.drift;
     if (!p.constant && ref > 0) {
       const dq = Math.abs(p.quietChange) / ref, de = Math.abs(excess) / ref;
+      const limit = `x the channel's noise; limit ${o.maxDriftRatio}`;
       if (dq > o.maxDriftRatio || de > o.maxDriftRatio) {
-        flags.push('drift');
-        reasons.push(dq >= de
-          ? `drift: baseline moves ${fmt(p.quietChange)} ${u} across the quiet window (${fmt(dq)} x the channel's noise; limit ${o.maxDriftRatio})`
-          : `drift: sweep end ${fmt(p.drift)} ${u} from the pre-stimulus level, ${fmt(excess)} ${u} ${condN >= 2 ? 'beyond its condition\'s median ' : ''}(${fmt(de)} x the channel's noise; limit ${o.maxDriftRatio})`);
+        const beyond = condN >= 2 ? 'beyond its condition\'s median ' : '';
+        flag('drift', dq >= de
+          ? `baseline moves ${fmt(p.quietChange)} ${u} across the quiet window (${fmt(dq)} ${limit})`
+          : `sweep end ${fmt(p.drift)} ${u} from the pre-stimulus level, `
+            + `${fmt(excess)} ${u} ${beyond}(${fmt(de)} ${limit})`);
       }
     }
     const t = (i: number) => set.timeAt(i);
     const outside = p.clipped.filter((i) => i < aa || i > ab);
     if (outside.length) {
-      flags.push('saturated');
-      reasons.push(`saturated: ${outside.length} sample${outside.length === 1 ? '' : 's'} on the rail (${[p.high, p.low].filter((v) => v !== null).map((v) => fmt(v as number)).join(', ')} ${u}) outside the artifact window, first at ${fmt(t(outside[0]))} ms`);
+      const rails = [p.high, p.low].filter((v) => v !== null).map((v) => fmt(v as number)).join(', ');
+      const k = outside.length;
+      flag('saturated', `${k} sample${k === 1 ? '' : 's'} on the rail (${rails} ${u}) outside the artifact window, `
+        + `first at ${fmt(t(outside[0]))} ms`);
     }
     const artMed = condArtifact.get(condOf[s])!;
     const artRatio = condN >= o.minSweeps && artMed > 10 * ref ? p.artifact / artMed : null;
     if (artRatio !== null && (artRatio > o.maxArtifactRatio || artRatio < 1 / o.maxArtifactRatio)) {
-      flags.push('artifact');
-      reasons.push(`artifact: ${fmt(p.artifact)} ${u} is ${fmt(artRatio)} x its condition's median ${fmt(artMed)} ${u} (outside 1/${o.maxArtifactRatio} to ${o.maxArtifactRatio})`);
+      flag('artifact', `${fmt(p.artifact)} ${u} is ${fmt(artRatio)} x its condition's median ${fmt(artMed)} ${u} `
+        + `(outside 1/${o.maxArtifactRatio} to ${o.maxArtifactRatio})`);
     }
     if (score[s] > o.outlierThreshold) {
-      flags.push('outlier');
-      reasons.push(`outlier: response deviates from its condition's median sweep with a MAD score of ${fmt(score[s])} (${basis[s]} deviation; threshold ${o.outlierThreshold})`);
+      flag('outlier', `response deviates from its condition's median sweep with a MAD score of ${fmt(score[s])} `
+        + `(${basis[s]} deviation; threshold ${o.outlierThreshold})`);
     }
     const row: Row = { sweep: s };
     if ('preparation' in c) row.preparation = c.preparation;
     row.condition = condKeys.map((k) => `${k}=${k in c ? c[k] : ''}`).join(', ');
     Object.assign(row, {
-      [`noise_${u}`]: p.constant ? 0 : p.noise, [`noise_hf_${u}`]: p.constant ? 0 : p.hf, noise_ratio: Number.isFinite(nRatio) ? nRatio : null,
+      [`noise_${u}`]: p.constant ? 0 : p.noise, [`noise_hf_${u}`]: p.constant ? 0 : p.hf,
+      noise_ratio: Number.isFinite(nRatio) ? nRatio : null,
       [`drift_${u}`]: p.drift, [`drift_excess_${u}`]: excess, [`quiet_change_${u}`]: p.quietChange,
-      clipped_fraction: p.constant ? null : p.clipped.length / n, clipped_outside_artifact: p.constant ? null : outside.length,
+      clipped_fraction: p.constant ? null : p.clipped.length / n,
+      clipped_outside_artifact: p.constant ? null : outside.length,
       [`rail_high_${u}`]: p.high, [`rail_low_${u}`]: p.low,
       [`artifact_${u}`]: p.artifact, artifact_ratio: artRatio,
-      outlier_score: Number.isFinite(score[s]) ? score[s] : Number.isNaN(score[s]) ? null : score[s], outlier_basis: basis[s], outlier_status: scoreStatus[s],
+      outlier_score: Number.isNaN(score[s]) ? null : score[s], outlier_basis: basis[s], outlier_status: scoreStatus[s],
       condition_sweeps: condN,
       flagged: flags.length > 0, flags: flags.join(','), reasons: reasons.join('; '),
     });
@@ -460,27 +523,50 @@ export function sweepQc(set: SweepSet, options: SweepQcOptions = {}): SweepQcRes
 export function rejectFlagged(set: SweepSet, qc: SweepQcResult, options: { flags?: QcFlag[] } = {}): SweepSet {
   checkKeys('rejectFlagged options', options, ['flags']);
   if (!(qc instanceof SweepQcResult)) throw new OptionError('rejectFlagged needs the result of sweepQc(set)');
-  if (!qc.matches(set)) throw new OptionError(`rejectFlagged: the QC table was computed on ${qc.nSweeps} sweeps with other conditions than this set of ${set.nSweeps} sweeps; run sweepQc on this set`);
+  if (!qc.matches(set)) {
+    throw new OptionError(`rejectFlagged: the QC table was computed on ${qc.nSweeps} sweeps with other conditions than `
+      + `this set of ${set.nSweeps} sweeps; run sweepQc on this set`);
+  }
   const flags = options.flags ?? [...QC_FLAGS];
-  for (const f of flags) if (!QC_FLAGS.includes(f)) throw new OptionError(`invalid flags: ${JSON.stringify(f)}${didYouMean(String(f), QC_FLAGS)}; must be among ${QC_FLAGS.join(', ')}`);
+  for (const f of flags) {
+    if (QC_FLAGS.includes(f)) continue;
+    const hint = didYouMean(String(f), QC_FLAGS);
+    throw new OptionError(`invalid flags: ${JSON.stringify(f)}${hint}; must be among ${QC_FLAGS.join(', ')}`);
+  }
   const keep: number[] = [];
   const removed: Record<string, ConditionValue>[] = [];
   for (const r of qc.rows) {
     const own = String(r.flags ?? '').split(',').filter((f) => f && flags.includes(f as QcFlag));
-    if (own.length) removed.push({ sweep: r.sweep, preparation: r.preparation ?? null, flags: own.join(','), reasons: r.reasons });
+    if (own.length) {
+      removed.push({ sweep: r.sweep, preparation: r.preparation ?? null, flags: own.join(','), reasons: r.reasons });
+    }
     else keep.push(r.sweep as number);
   }
   const sub = set.select(keep);
-  return sub.create({ history: [...set.history, { verb: 'rejectFlagged', options: { flags, removed, kept: keep.length, thresholds: { ...qc.options } }, version: VERSION }] });
+  const options2 = { flags, removed, kept: keep.length, thresholds: { ...qc.options } };
+  return sub.create({ history: [...set.history, { verb: 'rejectFlagged', options: options2, version: VERSION }] });
 }
 
 /**
  * The methods sentence for QC and rejection: thresholds, and how many sweeps per preparation
  * were excluded and why (from a rejectFlagged step's `removed` list and the QC rows).
  */
-export function sweepQcMethods(qc: SweepQcResult, removed?: readonly { preparation?: ConditionValue; flags?: ConditionValue }[]): string {
+export function sweepQcMethods(
+  qc: SweepQcResult,
+  removed?: readonly { preparation?: ConditionValue; flags?: ConditionValue }[],
+): string {
   const o = qc.options;
-  let s = `Before averaging or fitting, each sweep was checked for quality: noise as 1.4826 times the median absolute deviation of the quiet window (${o.quietWindow[0]} to ${o.quietWindow[1]} ms) about its linear trend (Rousseeuw & Croux 1993), flagged when above ${o.maxNoiseRatio} or below ${o.minNoiseRatio} times the median of its recording channel; baseline drift (across the quiet window, and from it to the sweep end relative to the sweeps of the same condition) flagged above ${o.maxDriftRatio} times the noise; amplifier saturation as samples on the sweep's rails (at least ${o.railRun} identical extreme samples in a row), flagged outside the artifact window (${o.artifactWindow[0]} to ${o.artifactWindow[1]} ms); artifact size flagged when more than ${o.maxArtifactRatio}-fold from its condition's median; and the response's deviation from the median sweep of its condition, flagged by the median absolute deviation rule at ${o.outlierThreshold} (Leys et al. 2013; conditions with at least ${o.minSweeps} sweeps).`;
+  const w = (x: [number, number]) => `${x[0]} to ${x[1]} ms`;
+  let s = 'Before averaging or fitting, each sweep was checked for quality: noise as 1.4826 times the median absolute '
+    + `deviation of the quiet window (${w(o.quietWindow)}) about its linear trend (Rousseeuw & Croux 1993), flagged `
+    + `when above ${o.maxNoiseRatio} or below ${o.minNoiseRatio} times the median of its recording channel; baseline `
+    + 'drift (across the quiet window, and from it to the sweep end relative to the sweeps of the same condition) '
+    + `flagged above ${o.maxDriftRatio} times the noise; amplifier saturation as samples on the sweep's rails (at `
+    + `least ${o.railRun} identical extreme samples in a row), flagged outside the artifact window `
+    + `(${w(o.artifactWindow)}); artifact size flagged when more than ${o.maxArtifactRatio}-fold from its `
+    + "condition's median; and the response's deviation from the median sweep of its condition, flagged by the "
+    + `median absolute deviation rule at ${o.outlierThreshold} (Leys et al. 2013; conditions with at least `
+    + `${o.minSweeps} sweeps).`;
   if (removed) {
     const byPrep = new Map<string, Map<string, number>>();
     for (const r of removed) {
@@ -492,7 +578,10 @@ export function sweepQcMethods(qc: SweepQcResult, removed?: readonly { preparati
     const total = qc.rows.length;
     if (!removed.length) s += ` No sweep was excluded (${total} checked).`;
     else {
-      const parts = [...byPrep].sort().map(([p, m]) => `${m.get('')} from ${p} (${[...m].filter(([f]) => f).map(([f, k]) => `${k} ${f}`).join(', ')})`);
+      const parts = [...byPrep].sort().map(([p, m]) => {
+        const why = [...m].filter(([f]) => f).map(([f, k]) => `${k} ${f}`).join(', ');
+        return `${m.get('')} from ${p} (${why})`;
+      });
       s += ` ${removed.length} of ${total} sweeps were excluded: ${parts.join('; ')}.`;
     }
   }
