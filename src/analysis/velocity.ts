@@ -20,7 +20,8 @@
  * - a utilisation time (intercept at distance 0, from the regression or implied by a two-site
  *   velocity) below -25% of the latency at the nearest site, and below 0 beyond its 95% CI:
  *   rejected (a latency cannot be shorter than its conduction time);
- * - outside the class's own velocity range at that temperature: kept, status "outside class range"
+ * - outside the class's own velocity range at that temperature (two-site and regression rows; a
+ *   single-site velocity is biased low by the utilisation time): kept, status "outside class range"
  *   (the wave may belong to another class, or the preset may not fit this nerve).
  * Conduction velocity in m/s equals mm/ms. Formulas: common practice, no source.
  */
@@ -144,7 +145,6 @@ export function singleSiteVelocity(rows: readonly ComponentRow[], by: string[], 
   for (const g of groups.values()) {
     const r0 = g[0];
     const cls = String(r0.class);
-    const range = classRange(resolved, cls, r0);
     const ok = g.filter(measured);
     for (const d of defs) {
       const base = { method: 'single-site' as const, basis: d.basis, definition: d.definition, latency_column: d.column, class: cls, group: key(r0, by), ...pick(r0, by), distance_mm: (r0.distance_mm ?? r0.distanceMm ?? null) as number | null };
@@ -154,7 +154,9 @@ export function singleSiteVelocity(rows: readonly ComponentRow[], by: string[], 
         continue;
       }
       const s = summarize(vals);
-      const j = judge(s.mean, range, cls);
+      // a single-site velocity includes the utilisation time and the waveform's rise, so it sits
+      // below the conduction velocity: only the fibre range is checked, not the class's own range
+      const j = judge(s.mean, null, cls);
       out.push(finish({ ...base, velocity_m_s: s.mean, ci95_low_m_s: num(s.ci95[0]), ci95_high_m_s: num(s.ci95[1]), sd_m_s: num(s.sd), n: s.n, excluded_not_measured: g.length - ok.length, status: j.status, reason: j.reason }, s.mean));
     }
   }

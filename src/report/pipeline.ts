@@ -136,20 +136,27 @@ export function velocityOf(t: ComponentTable, by: string[] = velocityBy(t.set)):
   return new VelocityResult(rows, by, t.set.sources, [...t.history, step]);
 }
 
-/** Flags from rows with a status other than ok. */
+/**
+ * Flags from rows with a status other than ok. Rows that share preparation, class, status and
+ * reason (e.g. every latency definition of a class not detected) give one flag, with `rows` counting them.
+ */
 export function flagsFrom(analysis: Flag['analysis'], rows: readonly Row[], preparation: string | null, where: (r: Row) => string | null): Flag[] {
-  const out: Flag[] = [];
+  const out = new Map<string, Flag>();
   for (const r of rows) {
     const st = r.status;
     if (st === undefined || st === null || st === 'ok') continue;
     const s = String(st);
     const severity: Flag['severity'] = s === 'implausible' || s === 'failed' ? 'rejected' : s === 'not detected' ? 'not measured' : 'warning';
-    out.push({ preparation: (r.preparation as string | undefined) ?? preparation, analysis, class: (r.class as string | undefined) ?? null, where: where(r), severity, status: s, reason: String(r.reason ?? s) });
+    const f: Flag = { preparation: (r.preparation as string | undefined) ?? preparation, analysis, class: (r.class as string | undefined) ?? null, where: where(r), severity, status: s, reason: String(r.reason ?? s), rows: 1 };
+    const k = JSON.stringify([f.preparation, f.class, f.where, r.group ?? null, r.distanceMm ?? null, s, f.reason]);
+    const seen = out.get(k);
+    if (seen) seen.rows = (seen.rows as number) + 1; else out.set(k, f);
   }
-  return out;
+  return [...out.values()];
 }
 
-const velocityWhere = (r: Row) => [r.method, r.basis, r.method === 'two-site' ? `${r.near_mm}-${r.far_mm} mm` : r.method === 'single-site' ? `${r.distance_mm} mm` : null, r.group].filter(Boolean).join(', ');
+// the latency definition is named when the value itself was rejected (not-detected rows share one flag)
+const velocityWhere = (r: Row) => [r.method, r.status === 'implausible' ? r.basis : null, r.method === 'two-site' ? `${r.near_mm}-${r.far_mm} mm` : r.method === 'single-site' ? `${r.distance_mm} mm` : null, r.group].filter(Boolean).join(', ');
 
 /** Per-preparation (or per-set) analysis shared by runPipeline and runPreparation. */
 export interface Analysed {
