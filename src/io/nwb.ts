@@ -99,6 +99,8 @@ interface SeriesInfo {
   tFirst: number;
   tLast: number;
   electrode: Record<string, ConditionValue>;
+  /** every step-th timestamp (built on first use) */
+  coarse?: { step: number; values: Float64Array };
 }
 
 /**
@@ -646,7 +648,7 @@ function mapColumns(file: string, columns: TableColumn[], override: Readonly<Rec
 /** The sample rate of a timestamped series near time T: from up to 1000 timestamps there. */
 function estimateRate(file: string, s: SeriesInfo, T: number): number {
   const ts = s.timestamps!;
-  const i = nearestIndex(ts, s.nTimes, T);
+  const i = nearestIndex(s, T);
   const i0 = Math.max(0, Math.min(i, s.nTimes - 2));
   const i1 = Math.min(s.nTimes, i0 + 1000);
   const t = numbers(ts, [i0, i1]);
@@ -661,18 +663,36 @@ function estimateRate(file: string, s: SeriesInfo, T: number): number {
   return (k1 - 1) / (t[k1 - 1] - t[0]);
 }
 
-/** Index of the timestamp nearest to T (binary search on single values: no large read). */
-function nearestIndex(ts: H5Dataset, n: number, T: number): number {
-  let lo = 0, hi = n - 1;
-  const v = (i: number) => numbers(ts, [i, i + 1])[0];
-  if (T <= v(0)) return 0;
-  if (T >= v(hi)) return hi;
-  while (hi - lo > 1) {
-    const mid = (lo + hi) >> 1;
-    if (v(mid) <= T) lo = mid;
-    else hi = mid;
+/**
+ * Index of the timestamp nearest to T. A coarse index (every step-th timestamp, read once per series
+ * with a strided hyperslab) narrows the search to one block, which is then read: memory stays at
+ * n / step + step values, and each lookup reads one block.
+ */
+function nearestIndex(s: SeriesInfo, T: number): number {
+  const ts = s.timestamps!, n = s.nTimes;
+  if (!s.coarse) {
+    const step = Math.max(256, Math.ceil(n / 65536));
+    const values = Float64Array.from(numbers(ts, [0, n, step]));
+    s.coarse = { step, values };
   }
-  return T - v(lo) <= v(hi) - T ? lo : hi;
+  const { step, values } = s.coarse;
+  // last coarse entry <= T
+  let lo = 0, hi = values.length - 1;
+  if (T <= values[0]) return 0;
+  if (T >= values[hi]) lo = hi;
+  else {
+    while (hi - lo > 1) {
+      const mid = (lo + hi) >> 1;
+      if (values[mid] <= T) lo = mid;
+      else hi = mid;
+    }
+  }
+  const i0 = lo * step;
+  const i1 = Math.min(n, i0 + step + 1);
+  const block = numbers(ts, [i0, i1]);
+  let best = 0;
+  for (let k = 1; k < block.length; k++) if (Math.abs(block[k] - T) < Math.abs(block[best] - T)) best = k;
+  return i0 + best;
 }
 
 /** The series and sample index of a stimulus at T. */
@@ -685,7 +705,7 @@ function locate(file: string, series: SeriesInfo[], T: number, fs: number, row: 
       const index = Math.round((T - s.startingTime!) * s.rate);
       hits.push({ s, index, time: s.startingTime! + index / s.rate });
     } else {
-      const index = nearestIndex(s.timestamps!, s.nTimes, T);
+      const index = nearestIndex(s, T);
       const time = numbers(s.timestamps!, [index, index + 1])[0];
       if (Math.abs(time - T) <= 0.5001 / fs) hits.push({ s, index, time });
     }
@@ -700,14 +720,19 @@ function locate(file: string, series: SeriesInfo[], T: number, fs: number, row: 
     'the series option naming one');
 }
 
-/** Timestamps of a sweep on a regular grid (no gap inside the window). */
+/**
+ * Timestamps of a sweep on a regular grid: its first, middle and last timestamps lie within a quarter
+ * sample of the grid from the first (a gap or a missing stretch inside the window moves the later ones).
+ */
 function checkGrid(file: string, s: SeriesInfo, i0: number, i1: number, fs: number, row: number): void {
-  const t = numbers(s.timestamps!, [i0, i1]);
   const dt = 1 / fs;
-  for (let k = 0; k < t.length; k++) {
-    if (Math.abs(t[k] - (t[0] + k * dt)) > 0.25 * dt) {
+  const t0 = numbers(s.timestamps!, [i0, i0 + 1])[0];
+  for (const i of [i0 + ((i1 - i0) >> 1), i1 - 1]) {
+    const t = numbers(s.timestamps!, [i, i + 1])[0];
+    const want = t0 + (i - i0) * dt;
+    if (Math.abs(t - want) > 0.25 * dt) {
       throw new InputError({ file, field: `${s.path}/timestamps` },
-        `the window of row ${row} crosses a gap or an irregular step at sample ${i0 + k} (t = ${t[k]} s, expected ${t[0] + k * dt} s)`,
+        `the window of row ${row} crosses a gap or an irregular step (sample ${i} at t = ${t} s, expected ${want} s on the sample grid)`,
         'evenly spaced samples across each sweep window (a smaller window option)');
     }
   }

@@ -169,8 +169,8 @@ export function typeOf(obj: H5Group | H5Dataset): string | undefined {
   return attrText(obj, 'neurodata_type');
 }
 
-/** Numbers of a 1-D dataset (all or [i0, i1)), int64 as Number. */
-export function numbers(d: H5Dataset, range?: [number, number]): Float64Array | Int32Array | Float32Array | number[] {
+/** Numbers of a 1-D dataset (all, [i0, i1) or every step-th of [i0, i1)), int64 as Number. */
+export function numbers(d: H5Dataset, range?: [number, number] | [number, number, number]): Float64Array | Int32Array | Float32Array | number[] {
   const v = (range ? d.slice([range]) : d.value) as unknown;
   if (v instanceof BigInt64Array || v instanceof BigUint64Array) return Array.from(v as ArrayLike<bigint>, Number);
   if (ArrayBuffer.isView(v)) return v as unknown as Float64Array;
