@@ -49,8 +49,14 @@ export interface DoseResponseOptions {
   poolSites?: boolean;
   /** fewest measured concentrations (above 0) a curve needs (default 4) */
   minConcentrations?: number;
+  /**
+   * a sweep whose peak latency differs from the mean baseline peak latency of its preparation,
+   * site and class by more than this fraction of it is not the same wave and is left out
+   * (default 0.5; null to keep every measured sweep)
+   */
+  maxLatencyShift?: number | null;
 }
-export const doseResponseDefaults = { lastN: 3, runDown: 'none' as const, fixBottom: null, bootstrap: 0, seed: 1, poolSites: false, minConcentrations: 4 };
+export const doseResponseDefaults = { lastN: 3, runDown: 'none' as const, fixBottom: null, bootstrap: 0, seed: 1, poolSites: false, minConcentrations: 4, maxLatencyShift: 0.5 as number | null };
 
 export interface DosePoint { preparation: string; class: string; distanceMm: number | null; concentration: number; response: number; baseline: number; normalized: number; n: number }
 
@@ -134,6 +140,23 @@ export function doseResponse(rows: readonly Row[], units: string, options: DoseR
     const g = groups.get(id);
     const rr = { ...r, __value: isMeasured(r) ? r[measure] : null, __site: siteOf(r) };
     if (g) g.push(rr); else groups.set(id, [rr]);
+  }
+  const shift = options.maxLatencyShift === undefined ? doseResponseDefaults.maxLatencyShift : options.maxLatencyShift;
+  if (shift !== null && !(shift > 0)) throw new OptionError(`invalid maxLatencyShift: ${shift}; must be > 0 (a fraction of the baseline latency) or null`);
+  // a measured sweep far from the baseline's peak latency is another wave, not this class
+  const moved = new Map<string, number>();
+  if (shift !== null) {
+    for (const [id, g] of groups) {
+      const base = g.filter((r) => r.concentration === 0 && r.__value !== null && typeof r.peak_ms === 'number');
+      if (!base.length) continue;
+      const t0 = base.reduce((a, r) => a + (r.peak_ms as number), 0) / base.length;
+      for (const r of g) {
+        if (r.__value !== null && typeof r.peak_ms === 'number' && Math.abs((r.peak_ms as number) - t0) > shift * Math.abs(t0)) {
+          r.__value = null;
+          moved.set(id, (moved.get(id) ?? 0) + 1);
+        }
+      }
+    }
   }
   const ok = (g: Row[]) => g.filter((r) => r.__value !== null);
   const points: DosePoint[] = [];
@@ -266,7 +289,7 @@ export function doseResponse(rows: readonly Row[], units: string, options: DoseR
     const ic50 = Math.pow(10, s.mean);
     if (ic50 < cmin || ic50 > cmax) st.push(`IC50 outside the tested range ${cmin}-${cmax} ${concUnit}`);
     if (!trusted(pooled)) st.push(...pooled.status.map((x) => `pooled fit: ${x}`));
-    if (left) st.push(`${left} sweep(s) not measured (not detected or not resolved), left out`);
+    if (left) st.push(`${left} sweep(s) not measured (not detected or not resolved${shift !== null ? `, or peak latency more than ${100 * shift}% from the baseline's` : ''}), left out`);
     if (fixBottom === null && bottomFix === 0) st.push(`bottom fixed at 0: not measured at the highest concentration(s) above ${cmax} ${concUnit}`);
     if (refused.has(cid)) st.push(`refused for ${refused.get(cid)!.join('; ')}`);
     summary.push({
@@ -277,6 +300,7 @@ export function doseResponse(rows: readonly Row[], units: string, options: DoseR
       pooled_ic50: Math.exp(pooled.params[3]), pooled_ic50_profile_low: Math.exp(plo), pooled_ic50_profile_high: Math.exp(phi),
       pooled_hill: pooled.params[0], pooled_bottom: pooled.params[1],
       bootstrap_ic50_low: boot[0], bootstrap_ic50_high: boot[1], points: mine.length, excluded_not_measured: left,
+      excluded_latency_shift: [...moved].filter(([k]) => k.endsWith(`|${siteS}|${cls}`)).reduce((a, [, v]) => a + v, 0),
       ...(runDown === 'vehicle' ? { rundown_per_min: 60 * (rate.get(`${cls}|${siteS}`)?.k ?? NaN), rundown_controls: rate.get(`${cls}|${siteS}`)?.preparations ?? 0 } : {}),
       status: st.length ? st.join('; ') : 'ok', reason: null,
     });
@@ -299,7 +323,7 @@ export function doseResponse(rows: readonly Row[], units: string, options: DoseR
     const F = extraSumOfSquaresF(joint.residualSS, joint.df, fa.residualSS + fb.residualSS, fa.df + fb.df);
     comparisons.push({ classA: ra.class, classB: rb.class, ...(poolSites ? {} : { distanceMm: site }), ic50A: Math.exp(fa.params[3]), ic50B: Math.exp(fb.params[3]), ratio: Math.exp(fb.params[3] - fa.params[3]), F: F.F, df1: F.df1, df2: F.df2, p: F.p, conclusion: F.p < 0.05 ? 'IC50s differ (p < 0.05)' : 'no evidence that the IC50s differ (p >= 0.05)' });
   }
-  return new DoseResponseResult(points, perPreparation, summary, comparisons, fits, [...history, { verb: 'doseResponse', options: { measure, lastN, runDown, fixBottom, bootstrap: options.bootstrap ?? 0, seed: options.seed ?? doseResponseDefaults.seed, model: 'four-parameter log-logistic, top fixed at 1', pooling: 'mean of per-preparation log10 IC50 with t-based 95% CI; pooled fit with profile-likelihood CI', poolSites, minConcentrations: minConc, rows: 'measured rows only (not detected or not resolved left out and counted)' }, version: VERSION }], sources);
+  return new DoseResponseResult(points, perPreparation, summary, comparisons, fits, [...history, { verb: 'doseResponse', options: { measure, lastN, runDown, fixBottom, bootstrap: options.bootstrap ?? 0, seed: options.seed ?? doseResponseDefaults.seed, model: 'four-parameter log-logistic, top fixed at 1', pooling: 'mean of per-preparation log10 IC50 with t-based 95% CI; pooled fit with profile-likelihood CI', poolSites, minConcentrations: minConc, maxLatencyShift: shift, rows: 'measured rows only (not detected or not resolved left out and counted)' }, version: VERSION }], sources);
 }
 
 /** Joint fit of two classes with a shared ln IC50 and class-specific slope and bottom. */

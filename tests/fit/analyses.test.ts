@@ -321,3 +321,16 @@ describe('pipeline: averaging of repeats and several artifact steps', () => {
     expect(() => condition(set, { artifact: [{ method: 'blank' }, 3 as never] })).toThrow(/invalid artifact\[1\]/);
   });
 });
+
+describe('dose-response: a wave far from the baseline latency is not the class', () => {
+  it('a sweep whose peak moved by more than half the baseline latency is left out and counted', () => {
+    const concs = [0, 1, 3, 10, 30, 100, 300, 1000];
+    const rows = concs.map((c) => ({ preparation: 'P', class: 'C', distanceMm: 15, concentration: c, detected: true, amplitude_uV: c === 1000 ? 30 : 100 / (1 + c / 30), peak_ms: c === 1000 ? 8 : 19.3 }));
+    const s = doseResponse(rows, 'uV').summary[0];
+    expect(s.excluded_latency_shift).toBe(1);
+    expect(s.ic50 as number).toBeCloseTo(30, 0);
+    const kept = doseResponse(rows, 'uV', { maxLatencyShift: null }).summary[0];
+    expect(kept.excluded_latency_shift).toBe(0);
+    expect(Math.abs((kept.ic50 as number) - 30)).toBeGreaterThan(1);
+  });
+});
