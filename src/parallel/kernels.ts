@@ -10,6 +10,7 @@ import type { Sos } from '../signal/butter';
 import { PLAIN_BLOCK, flushBlock, plainRow } from '../io/plainRows';
 import { normalRows, sineCoefficients, type SineParts } from '../signal/sinefit';
 import { resamplePolyInto } from '../signal/resample';
+import { bridgeGap } from '../signal/bridge';
 
 /**
  * A per-sweep correction that baseline and template artifact subtraction leave
@@ -21,15 +22,31 @@ import { resamplePolyInto } from '../signal/resample';
 export interface Correction {
   line: boolean; level: Float64Array; slope: Float64Array; center: number;
   template: boolean; scale: Float64Array; group: Int32Array; templates: Float64Array;
+  /** then samples bridgeFrom..bridgeTo (inclusive) bridged (artifact blanking), linear or cubic Hermite */
+  bridge: boolean; bridgeFrom: number; bridgeTo: number; bridgeHermite: boolean;
 }
 
 /** A correction that changes nothing (fields to be overridden). */
 export function noCorrection(): Correction {
-  return { line: false, level: new Float64Array(0), slope: new Float64Array(0), center: 0, template: false, scale: new Float64Array(0), group: new Int32Array(0), templates: new Float64Array(0) };
+  return {
+    line: false, level: new Float64Array(0), slope: new Float64Array(0), center: 0,
+    template: false, scale: new Float64Array(0), group: new Int32Array(0), templates: new Float64Array(0),
+    bridge: false, bridgeFrom: 0, bridgeTo: -1, bridgeHermite: false,
+  };
 }
 
 /** Write samples [i0, i1) of corrected sweep s of base (n samples per sweep) to dst[o + i]. */
 export function correctSweep(base: Float64Array, n: number, c: Correction, s: number, dst: Float64Array, o: number, i0 = 0, i1 = n): void {
+  if (c.bridge) {
+    if (i0 !== 0 || i1 !== n) throw new Error('a pending bridge is applied to whole sweeps only');
+    lineAndTemplate(base, n, c, s, dst, o, 0, n);
+    bridgeGap(o === 0 && dst.length === n ? dst : dst.subarray(o, o + n), c.bridgeFrom, c.bridgeTo, c.bridgeHermite ? 'hermite' : 'linear');
+    return;
+  }
+  lineAndTemplate(base, n, c, s, dst, o, i0, i1);
+}
+
+function lineAndTemplate(base: Float64Array, n: number, c: Correction, s: number, dst: Float64Array, o: number, i0: number, i1: number): void {
   const b = s * n;
   if (c.line && c.template && c.slope[s] === 0) {
     // the usual pair (baseline, then template) in one pass, same arithmetic order
@@ -246,5 +263,58 @@ function resampleSweeps(a: ResampleArgs, s0: number, s1: number): number {
   return -1;
 }
 
-export const kernels = { filtfilt, correct, load, csvWide, removeSines, resampleSweeps } as const;
+export interface AverageArgs {
+  x: Float64Array; n: number; start: Int32Array; members: Int32Array; median: number;
+  /** mean (or median) sweeps, or empty; sd and sem sweeps, or empty (each G x n) */
+  out: Float64Array; sd: Float64Array; sem: Float64Array;
+}
+/**
+ * Mean (or median), SD and SEM sweeps of groups g0..g1-1; group g holds the sweeps
+ * members[start[g]..start[g+1]). Each member sweep is added in whole (contiguous reads)
+ * in member order, so every sum has the order of a per-sample loop over the members.
+ * Empty out, or empty sd and sem, are skipped (the spread is computed on request).
+ */
+function average(a: AverageArgs, g0: number, g1: number): number {
+  const { x, n, start, members, out, sd, sem } = a;
+  const mean = new Float64Array(n);
+  const buf = a.median ? new Float64Array(Math.max(1, start[start.length - 1])) : null;
+  for (let g = g0; g < g1; g++) {
+    const k0 = start[g], k1 = start[g + 1], m = k1 - k0, o = g * n;
+    mean.fill(0);
+    for (let k = k0; k < k1; k++) {
+      const b = members[k] * n;
+      for (let i = 0; i < n; i++) mean[i] += x[b + i];
+    }
+    for (let i = 0; i < n; i++) mean[i] = mean[i] / m;
+    if (sd.length) {
+      const ss = sd.subarray(o, o + n);
+      ss.fill(0);
+      for (let k = k0; k < k1; k++) {
+        const b = members[k] * n;
+        for (let i = 0; i < n; i++) {
+          const d = x[b + i] - mean[i];
+          ss[i] += d * d;
+        }
+      }
+      const rm = Math.sqrt(m);
+      for (let i = 0; i < n; i++) {
+        const v = m > 1 ? Math.sqrt(ss[i] / (m - 1)) : NaN;
+        sd[o + i] = v;
+        sem[o + i] = v / rm;
+      }
+    }
+    if (!out.length) continue;
+    if (!buf) out.set(mean, o);
+    else {
+      for (let i = 0; i < n; i++) {
+        for (let k = 0; k < m; k++) buf[k] = x[members[k0 + k] * n + i];
+        const sub = buf.subarray(0, m).sort();
+        out[o + i] = m % 2 ? sub[(m - 1) / 2] : 0.5 * (sub[m / 2 - 1] + sub[m / 2]);
+      }
+    }
+  }
+  return -1;
+}
+
+export const kernels = { filtfilt, correct, load, csvWide, removeSines, resampleSweeps, average } as const;
 export type KernelName = keyof typeof kernels;

@@ -18,7 +18,7 @@ import { resample, type ResampleOptions } from '../verbs/resample';
 import { ComponentTable } from '../measure/table';
 import type { ComponentOptions } from '../measure/components';
 import { signalFactor, type SignalUnit } from './units';
-import { runSweeps, sharedSamples } from '../parallel/pool';
+import { runSweeps, shareCopy, sharedSamples } from '../parallel/pool';
 import type { Correction } from '../parallel/kernels';
 
 /** A condition value: numbers, strings, booleans or null (not recorded). */
@@ -121,7 +121,8 @@ export class SweepSet implements Iterable<Float64Array> {
     this.conditions = Object.freeze(init.conditions.map((c) => Object.freeze({ ...c })));
     this.history = Object.freeze([...(init.history ?? [])]);
     this.sources = Object.freeze([...(init.sources ?? [])]);
-    this.extras = Object.freeze({ ...(init.extras ?? {}) });
+    // descriptors, not values: a lazily computed extra (the SD sweeps of an average) stays lazy
+    this.extras = Object.freeze(Object.defineProperties({}, Object.getOwnPropertyDescriptors(init.extras ?? {})));
     Object.freeze(this);
   }
 
@@ -448,7 +449,8 @@ export class GroupedSweeps {
   /**
    * Average each group: mean (default) or median sweep. The result has one sweep
    * per group, conditions reduced to the values shared by all members plus
-   * `count`; extras.sd and extras.sem hold the SD and SEM sweeps (same layout).
+   * `count`; extras.sd and extras.sem hold the SD and SEM sweeps (same layout), computed
+   * when first read.
    */
   average(options: { method?: 'mean' | 'median' } = {}): SweepSet {
     checkKeys('average options', options, ['method']);
@@ -457,41 +459,37 @@ export class GroupedSweeps {
     const { set } = this;
     const n = set.nSamples;
     const G = this.groups.length;
-    const out = new Float64Array(G * n);
-    const sd = new Float64Array(G * n);
-    const sem = new Float64Array(G * n);
     const data = set.data;
-    const conds: Conditions[] = [];
-    const buf = new Float64Array(Math.max(1, ...this.groups.map((g) => g.indices.length)));
-    this.groups.forEach((g, gi) => {
-      const m = g.indices.length;
-      const o = gi * n;
-      for (let i = 0; i < n; i++) {
-        let s = 0;
-        for (let k = 0; k < m; k++) s += data[g.indices[k] * n + i];
-        const mean = s / m;
-        let ss = 0;
-        for (let k = 0; k < m; k++) {
-          const d = data[g.indices[k] * n + i] - mean;
-          ss += d * d;
-        }
-        const v = m > 1 ? Math.sqrt(ss / (m - 1)) : NaN;
-        sd[o + i] = v;
-        sem[o + i] = v / Math.sqrt(m);
-        if (method === 'mean') out[o + i] = mean;
-        else {
-          for (let k = 0; k < m; k++) buf[k] = data[g.indices[k] * n + i];
-          const sub = buf.subarray(0, m).sort();
-          out[o + i] = m % 2 ? sub[(m - 1) / 2] : 0.5 * (sub[m / 2 - 1] + sub[m / 2]);
-        }
+    const out = sharedSamples(G * n, data.length);
+    const sd = sharedSamples(G * n, data.length);
+    const sem = sharedSamples(G * n, data.length);
+    const start = new Int32Array(G + 1);
+    this.groups.forEach((g, gi) => { start[gi + 1] = start[gi] + g.indices.length; });
+    const members = Int32Array.from(this.groups.flatMap((g) => g.indices));
+    const args = { x: data, n, start: shareCopy(start), members: shareCopy(members), median: method === 'median' ? 1 : 0 };
+    const none = new Float64Array(0);
+    runSweeps('average', { ...args, out, sd: none, sem: none }, G, data.length);
+    // the SD and SEM sweeps take a second pass over the members: made when first read
+    // (same numbers; the members' samples stay referenced until then)
+    let spread: { sd: Float64Array; sem: Float64Array } | null = null;
+    const spreadOf = () => {
+      if (!spread) {
+        spread = { sd, sem };
+        runSweeps('average', { ...args, out: none, sd, sem }, G, data.length);
       }
-      conds.push({ ...shared(g.indices.map((ix) => set.conditions[ix])), count: m });
-    });
+      return spread;
+    };
+    const extras = {
+      get sd() { return spreadOf().sd; },
+      get sem() { return spreadOf().sem; },
+      groupIndices: this.groups.map((g) => g.indices),
+    };
+    const conds: Conditions[] = this.groups.map((g) => ({ ...shared(g.indices.map((ix) => set.conditions[ix])), count: g.indices.length }));
     return set.create({
       data: out,
       nSweeps: G,
       conditions: conds,
-      extras: { sd, sem, groupIndices: this.groups.map((g) => g.indices) },
+      extras,
       step: { verb: 'average', options: { by: this.keys, method } },
     });
   }

@@ -8,6 +8,7 @@ import { checkKeys, finite, oneOf, windowMs } from '../validate';
 import { windowIndices } from './baseline';
 import { shareCopy, sharedSamples } from '../parallel/pool';
 import { correctSweep, noCorrection } from '../parallel/kernels';
+import { bridgeGap } from '../signal/bridge';
 
 export type ArtifactMethod = 'blank' | 'template' | 'exponential' | 'alternate';
 
@@ -38,25 +39,7 @@ export interface ArtifactOptions {
 }
 export const artifactDefaults = { window: [0, 0.3] as [number, number], bridge: 'hermite' as const, scaling: 'fit' as const };
 
-/** Replace samples a..b of x (in place) by a linear or cubic Hermite bridge between x[a-1] and x[b+1]. */
-export function bridgeGap(x: Float64Array, a: number, b: number, kind: 'linear' | 'hermite'): void {
-  const n = x.length;
-  const l = Math.max(0, a - 1), r = Math.min(n - 1, b + 1);
-  if (l === a && r === b) return;
-  const y0 = x[l], y1 = x[r];
-  const span = r - l;
-  // end slopes from two samples outside the gap, per sample
-  const m0 = l >= 1 && kind === 'hermite' ? x[l] - x[l - 1] : (y1 - y0) / span;
-  const m1 = r + 1 < n && kind === 'hermite' ? x[r + 1] - x[r] : (y1 - y0) / span;
-  for (let i = a; i <= b; i++) {
-    const u = (i - l) / span;
-    if (kind === 'linear' || l === a || r === b) x[i] = y0 + (y1 - y0) * u;
-    else {
-      const h00 = 2 * u ** 3 - 3 * u ** 2 + 1, h10 = u ** 3 - 2 * u ** 2 + u, h01 = -2 * u ** 3 + 3 * u ** 2, h11 = u ** 3 - u ** 2;
-      x[i] = h00 * y0 + h10 * span * m0 + h01 * y1 + h11 * span * m1;
-    }
-  }
-}
+export { bridgeGap } from '../signal/bridge';
 
 function groupKeys(set: SweepSet, keys: string[]): Map<string, number[]> {
   const g = new Map<string, number[]>();
@@ -101,10 +84,13 @@ export function removeArtifact(set: SweepSet, options: ArtifactOptions): SweepSe
   if (method === 'alternate') return alternate(set);
   const [a, b] = windowIndices(set, window, 'window');
   if (method === 'blank') {
-    const out = sharedSamples(set.data.length);
-    out.set(set.data);
-    for (let s = 0; s < set.nSweeps; s++) bridgeGap(out.subarray(s * n, (s + 1) * n), a, b, bridge);
-    return set.create({ data: out, step: { verb: 'removeArtifact', options: { method, window, bridge } } });
+    // left pending (a few samples per sweep): bridged as each sweep is next read, after
+    // any pending baseline or template correction, as the eager order would do it
+    const pending = deferredOf(set);
+    const prior = pending && !pending.correction.bridge ? pending.correction : null;
+    const base = prior ? pending!.base : set.data;
+    const correction = { ...(prior ?? noCorrection()), bridge: true, bridgeFrom: a, bridgeTo: b, bridgeHermite: bridge === 'hermite' };
+    return set.create({ data: { base, correction }, step: { verb: 'removeArtifact', options: { method, window, bridge } } });
   }
   if (method === 'exponential') {
     const tail = windowMs('tailWindow', options.tailWindow ?? [window[1], window[1] + 0.4]);
@@ -137,7 +123,7 @@ export function removeArtifact(set: SweepSet, options: ArtifactOptions): SweepSe
   const groups = groupKeys(set, keys);
   // a pending baseline is applied on the fly; the subtraction is left pending too
   const pending = deferredOf(set);
-  const prior = pending && !pending.correction.template ? pending.correction : null;
+  const prior = pending && !pending.correction.template && !pending.correction.bridge ? pending.correction : null;
   const base = prior ? pending!.base : set.data;
   const corrected = (i: number, dst: Float64Array, i0 = 0, i1 = n): Float64Array => {
     if (prior) correctSweep(base, n, prior, i, dst, 0, i0, i1);

@@ -1,0 +1,101 @@
+// New per-sweep kernels give the same bits on 1 and 2 threads, and the same bits as a
+// slow obvious reference kept here (self-consistency: the averaging and bridging
+// arithmetic is the verbs' own; the filters are checked against SciPy in tests/signal).
+import { describe, it, expect, afterEach } from 'vitest';
+import { SweepSet, setThreads, workerJobs, bridgeGap } from '../../src';
+
+const S = 60, N = 12000, fs = 50000; // 720,000 samples: above the threading threshold
+function synthetic(): SweepSet {
+  const data = new Float64Array(new SharedArrayBuffer(S * N * 8));
+  for (let s = 0; s < S; s++) {
+    for (let i = 0; i < N; i++) {
+      const t = -2 + (i * 1000) / fs;
+      data[s * N + i] = 2 + 0.01 * s + (t >= 0 && t < 0.2 ? 300 : 0) + 40 * Math.exp(-0.5 * ((t - 1) / 0.2) ** 2) * (s % 5) + Math.sin(i * 12.9898 + s * 78.233);
+    }
+  }
+  // groups of unequal size, members not contiguous (as an acquisition order interleaves them)
+  const conditions = Array.from({ length: S }, (_, s) => ({ condition: (s * 7) % 13, intensity: (s % 5) + 1 }));
+  return new SweepSet({ data, nSweeps: S, nSamples: N, fs, t0Ms: -2, units: 'uV', conditions });
+}
+const same = (a: Float64Array, b: Float64Array) => a.length === b.length && a.every((v, i) => Object.is(v, b[i]));
+
+/** The per-sample loop over each group's members (the arithmetic the kernel must keep). */
+function referenceAverage(set: SweepSet, key: string, median: boolean) {
+  const groups = new Map<string, number[]>();
+  set.conditions.forEach((c, i) => { const id = JSON.stringify([c[key]]); (groups.get(id) ?? groups.set(id, []).get(id)!).push(i); });
+  const n = set.nSamples, G = groups.size, x = set.data;
+  const out = new Float64Array(G * n), sd = new Float64Array(G * n), sem = new Float64Array(G * n);
+  [...groups.values()].forEach((idx, g) => {
+    const m = idx.length;
+    for (let i = 0; i < n; i++) {
+      let s = 0;
+      for (let k = 0; k < m; k++) s += x[idx[k] * n + i];
+      const mean = s / m;
+      let ss = 0;
+      for (let k = 0; k < m; k++) { const d = x[idx[k] * n + i] - mean; ss += d * d; }
+      const v = m > 1 ? Math.sqrt(ss / (m - 1)) : NaN;
+      sd[g * n + i] = v;
+      sem[g * n + i] = v / Math.sqrt(m);
+      const vals = idx.map((k) => x[k * n + i]).sort((p, q) => p - q);
+      out[g * n + i] = !median ? mean : m % 2 ? vals[(m - 1) / 2] : 0.5 * (vals[m / 2 - 1] + vals[m / 2]);
+    }
+  });
+  return { out, sd, sem };
+}
+
+afterEach(() => setThreads(2));
+
+describe('average kernel (groupBy(...).average())', () => {
+  for (const method of ['mean', 'median'] as const) {
+    it(`${method}: 1 and 2 threads give the same bits, equal to the per-sample reference`, () => {
+      const set = synthetic().lowpass(5000);
+      setThreads(1);
+      const one = set.groupBy('condition').average({ method });
+      setThreads(2);
+      const before = workerJobs();
+      const two = set.groupBy('condition').average({ method });
+      expect(workerJobs()).toBeGreaterThan(before); // the worker took part
+      const ref = referenceAverage(set, 'condition', method === 'median');
+      for (const [a, b] of [[one.data, two.data], [one.extras.sd, two.extras.sd], [one.extras.sem, two.extras.sem]] as Float64Array[][]) expect(same(a, b)).toBe(true);
+      expect(same(one.data, ref.out)).toBe(true);
+      expect(same(one.extras.sd as Float64Array, ref.sd)).toBe(true);
+      expect(same(one.extras.sem as Float64Array, ref.sem)).toBe(true);
+      expect(one.conditions.map((c) => c.count).reduce((p, q) => (p as number) + (q as number), 0)).toBe(S);
+    });
+  }
+});
+
+describe('pending artifact bridge (removeArtifact blank)', () => {
+  for (const bridge of ['linear', 'hermite'] as const) {
+    it(`${bridge}: deferred after baseline and template equals the eager steps, on 1 and 2 threads`, () => {
+      const results: Float64Array[] = [];
+      for (const T of [1, 2]) {
+        setThreads(T);
+        const b = synthetic().baseline({ window: [-2, -0.1] }).removeArtifact({ method: 'template', window: [0, 0.5], maxIntensity: 1 });
+        const blanked = b.removeArtifact({ method: 'blank', window: [0, 0.24], bridge });
+        // eager reference: read the corrected samples, then bridge each sweep
+        const eager = Float64Array.from(b.data);
+        const a = blanked.indexAt(0), z = blanked.indexAt(0.24);
+        for (let s = 0; s < S; s++) bridgeGap(eager.subarray(s * N, (s + 1) * N), a, z, bridge);
+        expect(same(blanked.data, eager)).toBe(true);
+        // and through the filter, which applies the pending correction as it reads
+        const viaFilter = b.removeArtifact({ method: 'blank', window: [0, 0.24], bridge }).lowpass(5000).data;
+        const eagerFilter = new SweepSet({ data: eager, nSweeps: S, nSamples: N, fs, t0Ms: -2, units: 'uV', conditions: blanked.conditions }).lowpass(5000).data;
+        expect(same(viaFilter, eagerFilter)).toBe(true);
+        results.push(viaFilter);
+      }
+      expect(same(results[0], results[1])).toBe(true);
+    });
+  }
+  it('blank twice, and template after blank, equal the eager order', () => {
+    const b = synthetic().baseline({ window: [-2, -0.1] });
+    const twice = b.removeArtifact({ method: 'blank', window: [0, 0.1] }).removeArtifact({ method: 'blank', window: [0.06, 0.3], bridge: 'linear' }).data;
+    const e = Float64Array.from(b.data);
+    for (let s = 0; s < S; s++) { const x = e.subarray(s * N, (s + 1) * N); bridgeGap(x, b.indexAt(0), b.indexAt(0.1), 'hermite'); bridgeGap(x, b.indexAt(0.06), b.indexAt(0.3), 'linear'); }
+    expect(same(twice, e)).toBe(true);
+    const blankThenTemplate = b.removeArtifact({ method: 'blank', window: [0, 0.1] }).removeArtifact({ method: 'template', window: [0, 0.5], maxIntensity: 1 }).data;
+    const eb = b.removeArtifact({ method: 'blank', window: [0, 0.1] });
+    const materialised = new SweepSet({ data: Float64Array.from(eb.data), nSweeps: S, nSamples: N, fs, t0Ms: -2, units: 'uV', conditions: eb.conditions });
+    expect(same(blankThenTemplate, materialised.removeArtifact({ method: 'template', window: [0, 0.5], maxIntensity: 1 }).data)).toBe(true);
+  });
+});
