@@ -41,13 +41,18 @@ export function tTwoSided(t: number, df: number): number {
   return betaInc(df / (df + t * t), df / 2, 0.5);
 }
 
-/** Upper regularised incomplete gamma Q(a, x), computed directly in the tail (series below a + 1, continued fraction above). */
+/** Upper regularised incomplete gamma Q(a, x), directly in the tail (series below a + 1, continued fraction above). */
 function gammaQ(a: number, x: number): number {
   if (!(x > 0)) return 1;
   const gln = logGamma(a);
   if (x < a + 1) {
     let sum = 1 / a, del = sum, ap = a;
-    for (let n = 0; n < 10000; n++) { ap++; del *= x / ap; sum += del; if (Math.abs(del) < Math.abs(sum) * 1e-17) break; }
+    for (let n = 0; n < 10000; n++) {
+      ap++;
+      del *= x / ap;
+      sum += del;
+      if (Math.abs(del) < Math.abs(sum) * 1e-17) break;
+    }
     return 1 - sum * Math.exp(-x + a * Math.log(x) - gln);
   }
   let b = x + 1 - a, c = 1 / 1e-300, d = 1 / b, h = d;
@@ -72,7 +77,10 @@ export function normSf(z: number): number {
 }
 
 const mean = (v: readonly number[]) => v.reduce((a, b) => a + b, 0) / v.length;
-const variance = (v: readonly number[]) => { const m = mean(v); return v.reduce((a, b) => a + (b - m) ** 2, 0) / (v.length - 1); };
+const variance = (v: readonly number[]) => {
+  const m = mean(v);
+  return v.reduce((a, b) => a + (b - m) ** 2, 0) / (v.length - 1);
+};
 
 interface Status { status: TestStatus; reason: string | null }
 const notComputed = (reason: string) => ({ status: 'not computed' as const, reason });
@@ -94,13 +102,16 @@ export function welchTTest(a: readonly number[], b: readonly number[]): WelchRes
   const x = a.filter(Number.isFinite), y = b.filter(Number.isFinite);
   const base = { n1: x.length, n2: y.length, mean1: x.length ? mean(x) : null, mean2: y.length ? mean(y) : null };
   const empty = { difference: null, t: null, df: null, p: null, ci95: null };
-  if (x.length < 2 || y.length < 2) return { ...base, ...empty, ...notComputed(`needs at least 2 values per group (n = ${x.length}, ${y.length})`) };
+  if (x.length < 2 || y.length < 2) {
+    return { ...base, ...empty, ...notComputed(`needs at least 2 values per group (n = ${x.length}, ${y.length})`) };
+  }
   const v1 = variance(x) / x.length, v2 = variance(y) / y.length;
   if (!(v1 + v2 > 0)) return { ...base, ...empty, ...notComputed('both groups have zero variance') };
   const d = mean(x) - mean(y), se = Math.sqrt(v1 + v2);
   const df = (v1 + v2) ** 2 / (v1 ** 2 / (x.length - 1) + v2 ** 2 / (y.length - 1));
   const t = d / se, q = tQuantile(0.975, df);
-  return { ...base, difference: d, t, df, p: tTwoSided(t, df), ci95: [d - q * se, d + q * se], status: 'ok', reason: null };
+  const ci95: [number, number] = [d - q * se, d + q * se];
+  return { ...base, difference: d, t, df, p: tTwoSided(t, df), ci95, status: 'ok', reason: null };
 }
 
 /** Average ranks (1-based) of v, and the sizes of tied groups. */
@@ -162,14 +173,17 @@ export interface MannWhitneyResult extends Status {
 export function mannWhitneyU(a: readonly number[], b: readonly number[]): MannWhitneyResult {
   const x = a.filter(Number.isFinite), y = b.filter(Number.isFinite);
   const n1 = x.length, n2 = y.length;
-  if (n1 < 1 || n2 < 1 || n1 + n2 < 3) return { n1, n2, U: null, p: null, method: null, ...notComputed(`needs values in both groups (n = ${n1}, ${n2})`) };
+  if (n1 < 1 || n2 < 1 || n1 + n2 < 3) {
+    return { n1, n2, U: null, p: null, method: null, ...notComputed(`needs values in both groups (n = ${n1}, ${n2})`) };
+  }
   const { ranks, ties } = rankAverage([...x, ...y]);
   let R1 = 0;
   for (let i = 0; i < n1; i++) R1 += ranks[i];
   const U1 = R1 - (n1 * (n1 + 1)) / 2, U2 = n1 * n2 - U1, U = Math.max(U1, U2);
   const hasTies = ties.some((t) => t > 1);
   if (!(n1 > 8 && n2 > 8) && !hasTies) {
-    return { n1, n2, U: U1, p: Math.min(1, 2 * mannWhitneyExactSf(U, n1, n2)), method: 'exact', status: 'ok', reason: null };
+    const p = Math.min(1, 2 * mannWhitneyExactSf(U, n1, n2));
+    return { n1, n2, U: U1, p, method: 'exact', status: 'ok', reason: null };
   }
   const N = n1 + n2;
   const tie = ties.reduce((s, t) => s + t ** 3 - t, 0);
@@ -227,8 +241,13 @@ export interface RmAnovaResult extends AnovaResult {
  */
 export function repeatedMeasuresAnova(y: readonly (readonly number[])[]): RmAnovaResult {
   const s = y.length, k = s ? y[0].length : 0;
-  const none = { F: null, df1: null, df2: null, p: null, ssBetween: null, ssWithin: null, ssSubjects: null, epsilonGG: null, pGG: null, n: [s] };
-  if (y.some((r) => r.length !== k || r.some((v) => !Number.isFinite(v)))) return { ...none, ...notComputed('every subject needs a finite value in every condition') };
+  const none = {
+    F: null, df1: null, df2: null, p: null, ssBetween: null, ssWithin: null, ssSubjects: null, epsilonGG: null,
+    pGG: null, n: [s],
+  };
+  if (y.some((r) => r.length !== k || r.some((v) => !Number.isFinite(v)))) {
+    return { ...none, ...notComputed('every subject needs a finite value in every condition') };
+  }
   if (k < 2) return { ...none, ...notComputed(`needs at least 2 conditions (got ${k})`) };
   if (s < 2) return { ...none, ...notComputed(`needs at least 2 subjects (got ${s})`) };
   const grand = mean(y.flat());
@@ -240,16 +259,30 @@ export function repeatedMeasuresAnova(y: readonly (readonly number[])[]): RmAnov
   const sss = k * sm.reduce((a, m) => a + (m - grand) ** 2, 0);
   const sse = sst - ssc - sss;
   const df1 = k - 1, df2 = (k - 1) * (s - 1);
-  if (!(sse > 1e-14 * sst)) return { ...none, ssBetween: ssc, ssWithin: sse, ssSubjects: sss, ...notComputed('no condition-by-subject variation') };
+  if (!(sse > 1e-14 * sst)) {
+    const why = notComputed('no condition-by-subject variation');
+    return { ...none, ssBetween: ssc, ssWithin: sse, ssSubjects: sss, ...why };
+  }
   const F = ssc / df1 / (sse / df2);
   // Greenhouse-Geisser epsilon from the double-centred covariance matrix
-  const S = Array.from({ length: k }, (_, a) => Array.from({ length: k }, (_, b) => y.reduce((acc, r) => acc + (r[a] - cm[a]) * (r[b] - cm[b]), 0) / (s - 1)));
+  const cov = (a: number, b: number) => y.reduce((acc, r) => acc + (r[a] - cm[a]) * (r[b] - cm[b]), 0) / (s - 1);
+  const S = Array.from({ length: k }, (_, a) => Array.from({ length: k }, (_, b) => cov(a, b)));
   const rowM = S.map((r) => mean(r)), all = mean(rowM);
   const D = S.map((r, a) => r.map((v, b) => v - rowM[a] - rowM[b] + all));
   let tr = 0, tr2 = 0;
   for (let a = 0; a < k; a++) { tr += D[a][a]; for (let b = 0; b < k; b++) tr2 += D[a][b] * D[b][a]; }
   const eps = tr2 > 0 ? Math.min(1, (tr * tr) / ((k - 1) * tr2)) : 1;
-  return { F, df1, df2, p: fSurvival(F, df1, df2), ssBetween: ssc, ssWithin: sse, ssSubjects: sss, n: [s], epsilonGG: eps, pGG: fSurvival(F, eps * df1, eps * df2), status: 'ok', reason: null };
+  return {
+    F, df1, df2, p: fSurvival(F, df1, df2), ssBetween: ssc, ssWithin: sse, ssSubjects: sss, n: [s],
+    epsilonGG: eps, pGG: fSurvival(F, eps * df1, eps * df2), status: 'ok', reason: null,
+  };
+}
+
+/** [p, index] pairs of the finite entries. */
+function finiteIndexed(p: readonly (number | null)[]): [number, number][] {
+  const out: [number, number][] = [];
+  p.forEach((v, i) => { if (typeof v === 'number' && Number.isFinite(v)) out.push([v, i]); });
+  return out;
 }
 
 /**
@@ -257,7 +290,7 @@ export function repeatedMeasuresAnova(y: readonly (readonly number[])[]): RmAnov
  * @example holm([0.01, 0.04, 0.03]) // [0.03, 0.06, 0.06]
  */
 export function holm(p: readonly (number | null)[]): (number | null)[] {
-  const idx = p.map((v, i) => [v, i] as [number | null, number]).filter(([v]) => typeof v === 'number' && Number.isFinite(v)) as [number, number][];
+  const idx = finiteIndexed(p);
   idx.sort((a, b) => a[0] - b[0]);
   const m = idx.length;
   const out: (number | null)[] = p.map(() => null);
@@ -272,12 +305,15 @@ export function holm(p: readonly (number | null)[]): (number | null)[] {
  * @example benjaminiHochberg([0.01, 0.04, 0.03]) // [0.03, 0.04, 0.04]
  */
 export function benjaminiHochberg(p: readonly (number | null)[]): (number | null)[] {
-  const idx = p.map((v, i) => [v, i] as [number | null, number]).filter(([v]) => typeof v === 'number' && Number.isFinite(v)) as [number, number][];
+  const idx = finiteIndexed(p);
   idx.sort((a, b) => a[0] - b[0]);
   const m = idx.length;
   const out: (number | null)[] = p.map(() => null);
   let run = 1;
-  for (let r = m - 1; r >= 0; r--) { run = Math.min(run, (m * idx[r][0]) / (r + 1)); out[idx[r][1]] = Math.min(1, run); }
+  for (let r = m - 1; r >= 0; r--) {
+    run = Math.min(run, (m * idx[r][0]) / (r + 1));
+    out[idx[r][1]] = Math.min(1, run);
+  }
   return out;
 }
 
@@ -302,19 +338,26 @@ export const groupDefaults = { group: 'group', animalKeys: ['animal', 'preparati
 /** Column-name unit suffixes (as the component table writes them), longest first. */
 const UNIT_SUFFIXES = ['uV_ms', 'mV_ms', 'V_s', 'm_s', 'uV', 'mV', 'V', 'ms', 'mm', 'mA', 'uA', 'uM', 'nM', 'mM', 'Hz'];
 
-interface Resolved { value: string; group: string; animal: string; condition: string | null; by: string[]; unit: string }
+interface Resolved {
+  value: string; group: string; animal: string; condition: string | null; by: string[]; unit: string;
+}
 
 function resolve(rows: readonly Row[], o: GroupOptions): Resolved {
   checkKeys('group options', o, ['value', 'group', 'animal', 'condition', 'by', 'unit']);
   const cols = [...new Set(rows.flatMap((r) => Object.keys(r)))];
   const need = (name: string, col: unknown) => {
-    if (typeof col !== 'string' || !cols.includes(col)) throw new OptionError(`invalid ${name}: ${JSON.stringify(col)} is not a column of the rows${typeof col === 'string' ? didYouMean(col, cols) : ''}; columns are ${cols.join(', ')}`);
+    if (typeof col !== 'string' || !cols.includes(col)) {
+      const hint = typeof col === 'string' ? didYouMean(col, cols) : '';
+      throw new OptionError(`invalid ${name}: ${JSON.stringify(col)} is not a column of the rows${hint}; `
+        + `columns are ${cols.join(', ')}`);
+    }
     return col;
   };
   if (rows.length === 0) throw new AnalysisError('group statistics need at least one row');
   const value = need('value', o.value);
   // without a group column (and none asked for) all animals form one group: within-animal designs
-  const group = o.group === undefined && !cols.includes(groupDefaults.group) ? '' : need('group', o.group ?? groupDefaults.group);
+  const noGroup = o.group === undefined && !cols.includes(groupDefaults.group);
+  const group = noGroup ? '' : need('group', o.group ?? groupDefaults.group);
   const animal = need('animal', o.animal ?? groupDefaults.animalKeys.find((k) => cols.includes(k)) ?? 'animal');
   const condition = o.condition === undefined ? null : need('condition', o.condition);
   const by = (o.by ?? groupDefaults.by.filter((k) => cols.includes(k))).map((k) => need('by', k));
@@ -324,31 +367,47 @@ function resolve(rows: readonly Row[], o: GroupOptions): Resolved {
 }
 
 /** One point per animal: the mean of its values in each cell (by, group, condition). */
-export interface AnimalPoint { key: Row; group: ConditionValue; condition: ConditionValue; animal: ConditionValue; value: number; n: number }
+export interface AnimalPoint {
+  key: Row; group: ConditionValue; condition: ConditionValue; animal: ConditionValue; value: number; n: number;
+}
 
 /** Average the rows within each animal and cell; rows without a finite value are counted, not used. */
-export function animalMeans(input: RowInput, options: GroupOptions): { points: AnimalPoint[]; excluded: number; options: Resolved } {
+export function animalMeans(input: RowInput, options: GroupOptions): {
+  points: AnimalPoint[]; excluded: number; options: Resolved;
+} {
   const rows = rowsOf(input);
   const o = resolve(rows, options);
-  const cells = new Map<string, { key: Row; group: ConditionValue; condition: ConditionValue; animal: ConditionValue; sum: number; n: number }>();
+  type Cell = {
+    key: Row; group: ConditionValue; condition: ConditionValue; animal: ConditionValue; sum: number; n: number;
+  };
+  const cells = new Map<string, Cell>();
   let excluded = 0;
   for (const r of rows) {
     const v = r[o.value];
     const grp = o.group ? r[o.group] : 'all';
-    if (typeof v !== 'number' || !Number.isFinite(v) || r[o.animal] === null || r[o.animal] === undefined || grp === undefined || grp === null) { excluded++; continue; }
+    const animal = r[o.animal];
+    const missing = animal === null || animal === undefined || grp === undefined || grp === null;
+    if (typeof v !== 'number' || !Number.isFinite(v) || missing) { excluded++; continue; }
     const key: Row = {};
     for (const k of o.by) key[k] = r[k] ?? null;
     const cond = o.condition ? r[o.condition] ?? null : null;
-    const id = JSON.stringify([o.by.map((k) => key[k]), grp, cond, r[o.animal]]);
-    const c = cells.get(id) ?? cells.set(id, { key, group: grp, condition: cond, animal: r[o.animal], sum: 0, n: 0 }).get(id)!;
+    const id = JSON.stringify([o.by.map((k) => key[k]), grp, cond, animal]);
+    let c = cells.get(id);
+    if (!c) cells.set(id, (c = { key, group: grp, condition: cond, animal, sum: 0, n: 0 }));
     c.sum += v;
     c.n++;
   }
-  return { points: [...cells.values()].map((c) => ({ key: c.key, group: c.group, condition: c.condition, animal: c.animal, value: c.sum / c.n, n: c.n })), excluded, options: o };
+  const points = [...cells.values()].map((c) => ({
+    key: c.key, group: c.group, condition: c.condition, animal: c.animal, value: c.sum / c.n, n: c.n,
+  }));
+  return { points, excluded, options: o };
 }
 
 /** Rows, a table with `rows` (ComponentTable, results) or a DataFrame (`columns` and `values`). */
-export type RowInput = readonly Row[] | { readonly rows: readonly object[] } | { columns: string[]; values: unknown[][] };
+export type RowInput =
+  | readonly Row[]
+  | { readonly rows: readonly object[] }
+  | { columns: string[]; values: unknown[][] };
 
 /** Plain rows from any RowInput. */
 export function rowsOf(input: RowInput): Row[] {
@@ -357,12 +416,17 @@ export function rowsOf(input: RowInput): Row[] {
   if (Array.isArray(x.rows)) return x.rows as Row[];
   if (Array.isArray(x.columns) && Array.isArray(x.values)) {
     const cols = x.columns as string[];
-    return (x.values as unknown[][]).map((v) => Object.fromEntries(cols.map((c, j) => [c, (v[j] ?? null) as ConditionValue])));
+    const row = (v: unknown[]) => Object.fromEntries(cols.map((c, j) => [c, (v[j] ?? null) as ConditionValue]));
+    return (x.values as unknown[][]).map(row);
   }
-  throw new OptionError('group statistics need rows: an array of objects, a table with .rows (e.g. a ComponentTable) or a DataFrame');
+  throw new OptionError('group statistics need rows: an array of objects, a table with .rows (e.g. a ComponentTable) '
+    + 'or a DataFrame');
 }
 
-const uniq = <T>(xs: T[]) => { const seen = new Set<string>(); return xs.filter((x) => { const k = JSON.stringify(x); return seen.has(k) ? false : (seen.add(k), true); }); };
+const uniq = <T>(xs: T[]) => {
+  const seen = new Set<string>();
+  return xs.filter((x) => { const k = JSON.stringify(x); return seen.has(k) ? false : (seen.add(k), true); });
+};
 
 /** Group summaries and tests with the animal as the unit; see compareGroups. */
 export class GroupComparison extends Result {
@@ -377,7 +441,11 @@ export class GroupComparison extends Result {
   ) { super(); }
 
   tables(): Record<string, readonly object[]> {
-    const pts = this.points.map((p) => ({ ...p.key, group: p.group, ...(this.options.condition ? { condition: p.condition } : {}), animal: p.animal, value: p.value, values_averaged: p.n }));
+    const cond = this.options.condition;
+    const pts = this.points.map((p) => ({
+      ...p.key, group: p.group, ...(cond ? { condition: p.condition } : {}), animal: p.animal, value: p.value,
+      values_averaged: p.n,
+    }));
     return { group_summary: this.summary, group_tests: this.tests, group_points: pts };
   }
   frame(): import('danfojs-node').DataFrame {
@@ -385,14 +453,22 @@ export class GroupComparison extends Result {
   }
   toHTML(): string {
     const u = this.options.unit ? ` (${this.options.unit})` : '';
-    return tableHtml(this.summary, { caption: `${this.options.value}${u} per group, animals as the unit (mean, SD, SEM, 95% CI)` }) + tableHtml(this.tests, { caption: 'Tests (p adjusted over the table by Holm and by Benjamini-Hochberg)' });
+    const cap = `${this.options.value}${u} per group, animals as the unit (mean, SD, SEM, 95% CI)`;
+    return tableHtml(this.summary, { caption: cap })
+      + tableHtml(this.tests, { caption: 'Tests (p adjusted over the table by Holm and by Benjamini-Hochberg)' });
   }
   toString(): string {
-    return `GroupComparison of ${this.options.value} (${this.points.length} animal means${this.excluded ? `; ${this.excluded} rows without a value not used` : ''})\n`
-      + tableText(this.summary, { columns: [...this.options.by, ...(this.options.condition ? ['condition'] : []), 'group', 'n_animals', 'mean', 'sd', 'ci95_low', 'ci95_high', 'status'] }) + '\n'
-      + tableText(this.tests, { columns: [...this.options.by, 'test', 'comparison', 'statistic', 'df', 'p', 'p_holm', 'p_bh', 'status'] });
+    const o = this.options;
+    const left = this.excluded ? `; ${this.excluded} rows without a value not used` : '';
+    const sumCols = [...o.by, ...(o.condition ? ['condition'] : []), 'group', 'n_animals', 'mean', 'sd', 'ci95_low',
+      'ci95_high', 'status'];
+    const testCols = [...o.by, 'test', 'comparison', 'statistic', 'df', 'p', 'p_holm', 'p_bh', 'status'];
+    return `GroupComparison of ${o.value} (${this.points.length} animal means${left})\n`
+      + tableText(this.summary, { columns: sumCols }) + '\n' + tableText(this.tests, { columns: testCols });
   }
 }
+
+type TestFields = Partial<Row> & { status: TestStatus; reason: string | null };
 
 /**
  * Compare groups of animals. Values are averaged within each animal first (the unit). Per cell of
@@ -400,10 +476,16 @@ export class GroupComparison extends Result {
  * between groups at each condition (two groups: Welch t and Mann-Whitney U; three or more: one-way ANOVA),
  * and, with `condition`, within each group across conditions (two: paired t on the animals with both;
  * three or more: repeated-measures ANOVA on the animals with all). p values are adjusted over all tests
- * of the table by Holm and by Benjamini-Hochberg. A test that cannot be computed is a row with a status and reason.
+ * of the table by Holm and by Benjamini-Hochberg. A test that cannot be computed is a row with a status
+ * and reason.
  * @example compareGroups(rows, { value: 'amplitude_uV', group: 'group', animal: 'preparation', by: ['class'] })
  */
-export function compareGroups(input: RowInput, options: GroupOptions, history?: readonly Step[], sources?: readonly Source[]): GroupComparison {
+export function compareGroups(
+  input: RowInput,
+  options: GroupOptions,
+  history?: readonly Step[],
+  sources?: readonly Source[],
+): GroupComparison {
   const { points, excluded, options: o } = animalMeans(input, options);
   const src = input as { history?: readonly Step[]; sources?: readonly Source[] };
   history = history ?? (Array.isArray(src.history) ? src.history : []);
@@ -411,52 +493,92 @@ export function compareGroups(input: RowInput, options: GroupOptions, history?: 
   const cellsBy = uniq(points.map((p) => p.key));
   const summary: Row[] = [];
   const tests: Row[] = [];
-  const push = (base: Row, test: string, comparison: string, r: Partial<Row> & { status: TestStatus; reason: string | null }) => tests.push({ ...base, test, comparison, statistic: null, df: null, df2: null, p: null, estimate: null, ci95_low: null, ci95_high: null, n: null, method: null, ...r });
+  const blank: Row = { statistic: null, df: null, df2: null, p: null, estimate: null, ci95_low: null, ci95_high: null };
+  const push = (base: Row, test: string, comparison: string, r: TestFields) => {
+    tests.push({ ...base, test, comparison, ...blank, n: null, method: null, ...r });
+  };
+  const sizes = (vals: number[][]) => vals.map((v) => v.length).join(', ');
   for (const key of cellsBy) {
-    const inKey = points.filter((p) => JSON.stringify(o.by.map((k) => p.key[k])) === JSON.stringify(o.by.map((k) => key[k])));
+    const keyId = JSON.stringify(o.by.map((k) => key[k]));
+    const inKey = points.filter((p) => JSON.stringify(o.by.map((k) => p.key[k])) === keyId);
     const groups = uniq(inKey.map((p) => p.group));
     const conds = uniq(inKey.map((p) => p.condition));
+    const at = (g: ConditionValue, c: ConditionValue) => inKey.filter((p) => p.group === g && p.condition === c);
     for (const c of conds) {
       for (const g of groups) {
-        const v = inKey.filter((p) => p.group === g && p.condition === c).map((p) => p.value);
+        const here = at(g, c);
+        const v = here.map((p) => p.value);
         if (!v.length) continue;
         const s = summarize(v);
         const ok = v.length >= 2;
-        summary.push({ ...key, ...(o.condition ? { condition: c } : {}), group: g, n_animals: v.length, n_values: inKey.filter((p) => p.group === g && p.condition === c).reduce((a, p) => a + p.n, 0), mean: s.mean, sd: ok ? s.sd : null, sem: ok ? s.sem : null, ci95_low: ok ? s.ci95[0] : null, ci95_high: ok ? s.ci95[1] : null, unit: o.unit, status: ok ? 'ok' : 'not computed', reason: ok ? null : 'one animal: no SD or CI' });
+        summary.push({
+          ...key, ...(o.condition ? { condition: c } : {}), group: g,
+          n_animals: v.length, n_values: here.reduce((a, p) => a + p.n, 0),
+          mean: s.mean, sd: ok ? s.sd : null, sem: ok ? s.sem : null,
+          ci95_low: ok ? s.ci95[0] : null, ci95_high: ok ? s.ci95[1] : null, unit: o.unit,
+          status: ok ? 'ok' : 'not computed', reason: ok ? null : 'one animal: no SD or CI',
+        });
       }
       const base: Row = { ...key, ...(o.condition ? { condition: c } : {}) };
-      const vals = groups.map((g) => inKey.filter((p) => p.group === g && p.condition === c).map((p) => p.value));
-      if (groups.length < 2) { if (o.group) push(base, 'between groups', String(groups[0]), notComputed('only one group')); continue; }
+      const vals = groups.map((g) => at(g, c).map((p) => p.value));
+      if (groups.length < 2) {
+        if (o.group) push(base, 'between groups', String(groups[0]), notComputed('only one group'));
+        continue;
+      }
       if (groups.length === 2) {
         const label = `${groups[0]} vs ${groups[1]}`;
         const w = welchTTest(vals[0], vals[1]);
-        push(base, 'Welch t', label, { statistic: w.t, df: w.df, p: w.p, estimate: w.difference, ci95_low: w.ci95?.[0] ?? null, ci95_high: w.ci95?.[1] ?? null, n: `${w.n1}, ${w.n2}`, method: 'two-sided, unequal variances', status: w.status, reason: w.reason });
+        push(base, 'Welch t', label, {
+          statistic: w.t, df: w.df, p: w.p, estimate: w.difference, ci95_low: w.ci95?.[0] ?? null,
+          ci95_high: w.ci95?.[1] ?? null, n: `${w.n1}, ${w.n2}`, method: 'two-sided, unequal variances',
+          status: w.status, reason: w.reason,
+        });
         const m = mannWhitneyU(vals[0], vals[1]);
-        push(base, 'Mann-Whitney U', label, { statistic: m.U, p: m.p, n: `${m.n1}, ${m.n2}`, method: m.method, status: m.status, reason: m.reason });
+        push(base, 'Mann-Whitney U', label, {
+          statistic: m.U, p: m.p, n: `${m.n1}, ${m.n2}`, method: m.method, status: m.status, reason: m.reason,
+        });
       } else {
         const a = oneWayAnova(vals);
         const small = vals.some((v) => v.length < 2);
-        push(base, 'one-way ANOVA', groups.join(', '), small ? { n: vals.map((v) => v.length).join(', '), ...notComputed(`needs at least 2 animals per group (n = ${vals.map((v) => v.length).join(', ')})`) } : { statistic: a.F, df: a.df1, df2: a.df2, p: a.p, n: vals.map((v) => v.length).join(', '), status: a.status, reason: a.reason });
+        push(base, 'one-way ANOVA', groups.join(', '), small
+          ? { n: sizes(vals), ...notComputed(`needs at least 2 animals per group (n = ${sizes(vals)})`) }
+          : { statistic: a.F, df: a.df1, df2: a.df2, p: a.p, n: sizes(vals), status: a.status, reason: a.reason });
       }
     }
     if (o.condition && conds.length >= 2) {
       for (const g of groups) {
         const mine = inKey.filter((p) => p.group === g);
+        const find = (an: ConditionValue, c: ConditionValue) => mine.find((p) => p.animal === an && p.condition === c);
         const animals = uniq(mine.map((p) => p.animal));
-        const complete = animals.filter((an) => conds.every((c) => mine.some((p) => p.animal === an && p.condition === c)));
-        const y = complete.map((an) => conds.map((c) => mine.find((p) => p.animal === an && p.condition === c)!.value));
+        const complete = animals.filter((an) => conds.every((c) => find(an, c)));
+        const y = complete.map((an) => conds.map((c) => find(an, c)!.value));
         const base: Row = { ...key, group: g };
         const dropped = animals.length - complete.length;
         const note = dropped ? `${dropped} animal${dropped === 1 ? '' : 's'} without every condition left out` : null;
         if (conds.length === 2) {
           const label = `${conds[1]} - ${conds[0]} within ${g}`;
-          if (y.length < 2) { push(base, 'paired t', label, { n: y.length, ...notComputed(`needs at least 2 animals with both conditions (got ${y.length})`) }); continue; }
+          if (y.length < 2) {
+            push(base, 'paired t', label, {
+              n: y.length, ...notComputed(`needs at least 2 animals with both conditions (got ${y.length})`),
+            });
+            continue;
+          }
           const pc = pairedCompare(y.map((r) => r[0]), y.map((r) => r[1]));
-          const ok = Number.isFinite(pc.t);
-          push(base, 'paired t', label, ok ? { statistic: pc.t, df: pc.df, p: pc.pT, estimate: pc.meanDifference, ci95_low: pc.ci95[0], ci95_high: pc.ci95[1], n: y.length, method: note, status: 'ok', reason: null } : { n: y.length, ...notComputed('the paired differences have no variation') });
+          push(base, 'paired t', label, Number.isFinite(pc.t)
+            ? {
+              statistic: pc.t, df: pc.df, p: pc.pT, estimate: pc.meanDifference, ci95_low: pc.ci95[0],
+              ci95_high: pc.ci95[1], n: y.length, method: note, status: 'ok', reason: null,
+            }
+            : { n: y.length, ...notComputed('the paired differences have no variation') });
         } else {
           const r = repeatedMeasuresAnova(y);
-          push(base, 'repeated-measures ANOVA', `${conds.join(', ')} within ${g}`, { statistic: r.F, df: r.df1, df2: r.df2, p: r.p, n: y.length, method: r.status === 'ok' ? `Greenhouse-Geisser epsilon ${r.epsilonGG!.toPrecision(3)}, p ${r.pGG!.toPrecision(3)}${note ? `; ${note}` : ''}` : note, status: r.status, reason: r.reason });
+          const gg = r.status === 'ok'
+            ? `Greenhouse-Geisser epsilon ${r.epsilonGG!.toPrecision(3)}, p ${r.pGG!.toPrecision(3)}`
+            : '';
+          push(base, 'repeated-measures ANOVA', `${conds.join(', ')} within ${g}`, {
+            statistic: r.F, df: r.df1, df2: r.df2, p: r.p, n: y.length,
+            method: [gg, note].filter(Boolean).join('; ') || null, status: r.status, reason: r.reason,
+          });
         }
       }
     }
@@ -464,22 +586,40 @@ export function compareGroups(input: RowInput, options: GroupOptions, history?: 
   const ps = tests.map((t) => (t.status === 'ok' ? (t.p as number) : null));
   const h = holm(ps), bh = benjaminiHochberg(ps);
   tests.forEach((t, i) => { t.p_holm = h[i]; t.p_bh = bh[i]; });
-  const step: Step = { verb: 'compareGroups', options: { ...o, unitOfReplication: o.animal, tests: 'Welch t, Mann-Whitney U (exact for n <= 8 without ties), one-way ANOVA, paired t, repeated-measures ANOVA', correction: 'Holm; Benjamini-Hochberg', excludedRows: excluded }, version: VERSION };
+  const step: Step = {
+    verb: 'compareGroups',
+    options: {
+      ...o, unitOfReplication: o.animal, correction: 'Holm; Benjamini-Hochberg', excludedRows: excluded,
+      tests: 'Welch t, Mann-Whitney U (exact for n <= 8 without ties), one-way ANOVA, paired t, '
+        + 'repeated-measures ANOVA',
+    },
+    version: VERSION,
+  };
   return new GroupComparison(summary, tests, points, o, excluded, [...history, step], sources);
 }
 
 /** The methods sentences for a group comparison (unit of replication, tests, correction). */
 export function groupMethods(result: GroupComparison): string {
   const o = result.options;
-  const tests = [...new Set(result.tests.filter((t) => t.status === 'ok').map((t) => String(t.test)))];
-  const mw = result.tests.some((t) => t.test === 'Mann-Whitney U' && t.status === 'ok');
+  const ok = result.tests.filter((t) => t.status === 'ok');
+  const tests = [...new Set(ok.map((t) => String(t.test)))];
+  const mw = ok.some((t) => t.test === 'Mann-Whitney U');
+  const per = [o.group, o.condition].filter(Boolean).join(' and ') || 'set';
   const parts = [
-    `${o.value.replace(/_/g, ' ')} was averaged within each ${o.animal} (the unit of replication; sweeps and electrodes are not independent replicates, Lazic 2010; Aarts et al. 2014) and summarised per ${[o.group, o.condition].filter(Boolean).join(' and ') || 'set'} as mean, SD, SEM and a t-based 95% confidence interval.`,
+    `${o.value.replace(/_/g, ' ')} was averaged within each ${o.animal} (the unit of replication; sweeps and `
+      + 'electrodes are not independent replicates, Lazic 2010; Aarts et al. 2014) and summarised per '
+      + `${per} as mean, SD, SEM and a t-based 95% confidence interval.`,
   ];
   if (tests.length) {
-    parts.push(`Tests: ${tests.join(', ')}${mw ? ' (Mann-Whitney U exact for samples of at most 8 without ties, otherwise the normal approximation with tie and continuity correction)' : ''}; p values were adjusted over the ${result.tests.filter((t) => t.status === 'ok').length} tests by Holm's step-down method (Holm 1979) and, for the false discovery rate, by Benjamini & Hochberg (1995).`);
+    const exact = mw ? ' (Mann-Whitney U exact for samples of at most 8 without ties, otherwise the normal '
+      + 'approximation with tie and continuity correction)' : '';
+    parts.push(`Tests: ${tests.join(', ')}${exact}; p values were adjusted over the ${ok.length} tests by Holm's `
+      + 'step-down method (Holm 1979) and, for the false discovery rate, by Benjamini & Hochberg (1995).');
   }
-  const nc = result.tests.filter((t) => t.status !== 'ok').length;
-  if (nc) parts.push(`${nc} test${nc === 1 ? ' was' : 's were'} not computed (fewer than two ${o.animal}s per group or no variation), as listed in the table.`);
+  const nc = result.tests.length - ok.length;
+  if (nc) {
+    parts.push(`${nc} test${nc === 1 ? ' was' : 's were'} not computed (fewer than two ${o.animal}s per group or `
+      + 'no variation), as listed in the table.');
+  }
   return parts.join(' ');
 }
