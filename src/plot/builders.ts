@@ -1,74 +1,186 @@
-/** Figure builders for every result: sweeps, recruitment, velocity, dose-response, temperature, summaries. */
+/**
+ * Figure builders for every result: sweeps, recruitment, velocity, dose-response,
+ * temperature, summaries. Every text that comes from data (class, preparation and
+ * condition names, units) is escaped for plotly (labels.ts plotlyText); units are
+ * printed as µV, µM, °C; fits and shaded bands are named in the legend; log axes label
+ * every tick with its full value.
+ */
 import type { SweepSet, ConditionValue } from '../sweeps/SweepSet';
 import type { ComponentTable } from '../measure/table';
-import { Figure, PALETTE, baseLayout } from './figure';
+import { Figure, PALETTE, MARKERS, layoutFor, sequentialColour, sequentialScale } from './figure';
+import { plotlyText, unitText, sentenceCase, measureLabel, logAxis, tickNumber } from './labels';
 import { logLogistic4, boltzmann, weiss, lapicque } from '../fit/models';
 import { tQuantile } from '../fit/dist';
 import { summarize, linearFit } from '../analysis/stats';
 import type { FitResult } from '../fit/lm';
 
 type Row = Record<string, ConditionValue>;
+type Trace = Record<string, unknown>;
 const colour = (i: number) => PALETTE[i % PALETTE.length];
+const symbol = (i: number) => MARKERS[i % MARKERS.length];
 const uniq = <T>(xs: T[]) => [...new Set(xs)];
+const num = (x: unknown): x is number => typeof x === 'number' && Number.isFinite(x);
+const GREY = '#666';
+
+/** A legend entry with no data: explains a line style, a symbol or a shaded area. */
+function legendOnly(name: string, style: Trace): Trace {
+  return { type: 'scatter', x: [null], y: [null], name, hoverinfo: 'skip', showlegend: true, ...style };
+}
+/** A shaded area as a legend entry (a filled square in the legend). */
+const areaEntry = (name: string, fill: string, opacity: number): Trace =>
+  legendOnly(name, { mode: 'markers', marker: { symbol: 'square', size: 10, color: fill, opacity } });
+
+/** One legend entry per class: its colour, marker and (when fitted) line style, e.g. "A-delta: 12.3 m/s". */
+const classEntry = (name: string, ci: number, line?: Trace): Trace =>
+  legendOnly(name, { mode: line ? 'lines+markers' : 'markers', marker: { color: colour(ci), symbol: symbol(ci), size: 7 }, ...(line ? { line: { color: colour(ci), width: 1.5, ...line } } : {}) });
+
+/** Values of an axis from traces (for log ticks). */
+const axisValues = (data: Trace[], k: 'x' | 'y') => data.flatMap((t) => (Array.isArray(t[k]) ? (t[k] as unknown[]) : []));
+
+/** How a condition reads in a legend and on a colour bar. */
+const CONDITION: Record<string, { title: (r: Row) => string; value: (v: number, r: Row) => string }> = {
+  intensity: { title: (r) => `Stimulus intensity${r.intensityUnit ? ` (${unitText(r.intensityUnit)})` : ''}`, value: (v, r) => `${tickNumber(v)}${r.intensityUnit ? ' ' + unitText(r.intensityUnit) : ''}` },
+  concentration: { title: (r) => `Concentration${r.concentrationUnit ? ` (${unitText(r.concentrationUnit)})` : ''}`, value: (v, r) => `${tickNumber(v)}${r.concentrationUnit ? ' ' + unitText(r.concentrationUnit) : ''}` },
+  temperatureC: { title: () => 'Temperature (°C)', value: (v) => `${tickNumber(v)} °C` },
+  distanceMm: { title: () => 'Conduction distance (mm)', value: (v) => `${tickNumber(v)} mm` },
+  pulseWidthMs: { title: () => 'Pulse width (ms)', value: (v) => `${tickNumber(v)} ms pulse` },
+};
+const LABEL_KEYS = ['preparation', 'label', 'epoch', 'drug', 'site'];
+
+/** The artifact window of the last artifact step in a history, if any. */
+function artifactWindow(set: SweepSet): [number, number] | null {
+  for (let i = set.history.length - 1; i >= 0; i--) {
+    const h = set.history[i];
+    const w = (h.options as { window?: unknown }).window;
+    if (h.verb === 'removeArtifact' && Array.isArray(w) && num(w[0]) && num(w[1])) return [w[0], w[1]];
+  }
+  return null;
+}
 
 /**
- * Sweeps overlaid, with class windows shaded and onset and peak marks when a component
- * table is given (from its measurement intermediates), and the noise band.
+ * Sweeps overlaid. When one condition varies (intensity, concentration, temperature,
+ * distance or pulse width) the sweeps are coloured along a sequential scale by it, with
+ * a colour bar beyond 6 sweeps; when several vary the legend names each sweep by them
+ * ("20 mm, 37 °C"). With a component table: class windows shaded, onset and peak
+ * marks, the detection level (± k x noise) as a grey band. The artifact window of the
+ * set's history is shaded.
  */
 export function sweepsFigure(set: SweepSet, options: { sweeps?: number[]; table?: ComponentTable; title?: string; maxSweeps?: number } = {}): Figure {
   const idx = options.sweeps ?? Array.from({ length: Math.min(set.nSweeps, options.maxSweeps ?? 12) }, (_, i) => i);
-  const t = Array.from(set.time());
+  const t = set.time();
   const step = Math.max(1, Math.floor(set.nSamples / 4000));
-  const data: Record<string, unknown>[] = idx.map((s, k) => {
+  const conds = idx.map((s) => set.conditions[s] as Row);
+  const varies = (k: string) => uniq(conds.map((c) => c[k] ?? null)).length > 1;
+  const numeric = Object.keys(CONDITION).filter((k) => varies(k) && conds.every((c) => num(c[k])));
+  const labels = LABEL_KEYS.filter(varies);
+  const seqKey = numeric.length === 1 ? numeric[0] : null;
+  let pos: (v: number) => number = () => 0;
+  if (seqKey) {
+    const v = conds.map((c) => c[seqKey] as number);
+    const lo = Math.min(...v), hi = Math.max(...v);
+    const logScale = (seqKey === 'intensity' || seqKey === 'concentration') && lo > 0 && hi / lo >= 5;
+    pos = logScale ? (x) => Math.log(x / lo) / Math.log(hi / lo) : (x) => (x - lo) / (hi - lo);
+  }
+  const name = (s: number, c: Row) => {
+    const parts = [...numeric.map((k) => CONDITION[k].value(c[k] as number, c)), ...labels.map((k) => plotlyText(c[k] ?? '-'))];
+    return parts.length ? parts.join(', ') : `sweep ${s}`;
+  };
+  const useBar = !!seqKey && idx.length > 6;
+  const data: Trace[] = idx.map((s, k) => {
     const x = set.sweep(s);
     const xs: number[] = [], ys: number[] = [];
     for (let i = 0; i < set.nSamples; i += step) { xs.push(t[i]); ys.push(x[i]); }
-    const c = set.conditions[s];
-    return { type: 'scatter', mode: 'lines', x: xs, y: ys, name: `sweep ${s}${c.intensity !== undefined ? ` (${c.intensity} ${c.intensityUnit ?? ''})` : ''}`.trim(), line: { width: 1, color: colour(k) } };
+    const c = conds[k];
+    const col = seqKey ? sequentialColour(pos(c[seqKey] as number)) : idx.length === 1 && options.table ? '#222' : colour(k);
+    return { type: 'scatter', mode: 'lines', x: xs, y: ys, name: name(s, c), line: { width: 1, color: col }, showlegend: !useBar && idx.length <= 8 && !(idx.length === 1 && options.table) };
   });
+  if (useBar && seqKey) {
+    const v = conds.map((c) => c[seqKey] as number);
+    const lo = Math.min(...v), hi = Math.max(...v);
+    const ticks = uniq(v).sort((a, b) => a - b);
+    const shown = ticks.length <= 6 ? ticks : [ticks[0], ticks[Math.floor(ticks.length / 2)], ticks[ticks.length - 1]];
+    data.push({
+      type: 'scatter', mode: 'markers', x: [null], y: [null], showlegend: false, hoverinfo: 'skip',
+      marker: {
+        color: [0, 1], cmin: 0, cmax: 1, colorscale: sequentialScale(), showscale: true,
+        colorbar: { title: { text: CONDITION[seqKey].title(conds[0]), side: 'right' }, thickness: 10, len: 1, tickmode: 'array', tickvals: shown.map((x) => (hi > lo ? pos(x) : 0)), ticktext: shown.map((x) => tickNumber(Number(x.toPrecision(3)))), outlinewidth: 0 },
+      },
+    });
+  }
   const shapes: Record<string, unknown>[] = [];
+  const t0 = t[0], t1 = t[t.length - 1];
+  const art = artifactWindow(set);
+  if (art && art[1] > t0 && art[0] < t1) {
+    shapes.push({ type: 'rect', xref: 'x', yref: 'paper', x0: Math.max(art[0], t0), x1: Math.min(art[1], t1), y0: 0, y1: 1, fillcolor: '#999', opacity: 0.3, line: { width: 0 }, layer: 'below' });
+    data.push(areaEntry('Artifact window', '#999', 0.45));
+  }
   if (options.table) {
     const tb = options.table;
     const cls = tb.classes;
+    const shownCls = new Set<string>();
+    let marks = false;
     for (const s of idx) {
       const rows = tb.rows.filter((r) => r.sweep === s);
       rows.forEach((r) => {
         const ci = cls.indexOf(r.class);
-        if (s === idx[0]) shapes.push({ type: 'rect', xref: 'x', yref: 'paper', x0: r.window_start_ms, x1: r.window_end_ms, y0: 0, y1: 1, fillcolor: colour(ci + 3), opacity: 0.08, line: { width: 0 } });
+        if (s === idx[0] && num(r.window_start_ms) && num(r.window_end_ms)) {
+          shapes.push({ type: 'rect', xref: 'x', yref: 'paper', x0: r.window_start_ms, x1: r.window_end_ms, y0: 0, y1: 1, fillcolor: colour(ci), opacity: 0.1, line: { width: 0 }, layer: 'below' });
+          if (!shownCls.has(r.class)) { shownCls.add(r.class); data.push(areaEntry(`${plotlyText(r.class)} window`, colour(ci), 0.3)); }
+        }
         if (r.detected) {
-          const marks = [['onset', r.onset_ms], ['peak', r.peak_ms]].filter((m) => typeof m[1] === 'number') as [string, number][];
-          data.push({ type: 'scatter', mode: 'markers', x: marks.map((m) => m[1]), y: marks.map((m) => set.sweep(s)[set.indexAt(m[1])]), marker: { symbol: marks.map((m) => (m[0] === 'onset' ? 'triangle-up' : 'diamond')), size: 8, color: colour(ci + 3) }, name: `${r.class} onset/peak`, showlegend: s === idx[0] });
+          const m = ([['onset', r.onset_ms], ['peak', r.peak_ms]] as [string, unknown][]).filter((q) => num(q[1])) as [string, number][];
+          if (!m.length) return;
+          marks = true;
+          data.push({ type: 'scatter', mode: 'markers', x: m.map((q) => q[1]), y: m.map((q) => set.sweep(s)[set.indexAt(q[1])]), marker: { symbol: m.map((q) => (q[0] === 'onset' ? 'triangle-up' : 'diamond')), size: 8, color: colour(ci), line: { width: 0.5, color: '#fff' } }, name: `${plotlyText(r.class)} onset, peak`, showlegend: false, text: m.map((q) => q[0]) });
         }
       });
       const noise = rows[0]?.[`noise_${set.units}`];
-      if (typeof noise === 'number' && s === idx[0]) {
+      if (num(noise) && s === idx[0]) {
         const k = tb.resolved.k;
-        shapes.push({ type: 'rect', xref: 'paper', yref: 'y', x0: 0, x1: 1, y0: -k * noise, y1: k * noise, fillcolor: '#888', opacity: 0.12, line: { width: 0 } });
+        shapes.push({ type: 'rect', xref: 'paper', yref: 'y', x0: 0, x1: 1, y0: -k * noise, y1: k * noise, fillcolor: '#888', opacity: 0.15, line: { width: 0 }, layer: 'below' });
+        data.push(areaEntry('Detection level', '#888', 0.3));
       }
     }
+    if (marks) {
+      data.push(legendOnly('Onset', { mode: 'markers', marker: { symbol: 'triangle-up', size: 8, color: GREY } }));
+      data.push(legendOnly('Peak', { mode: 'markers', marker: { symbol: 'diamond', size: 8, color: GREY } }));
+    }
   }
-  return new Figure('sweeps', { data, layout: baseLayout(options.title ?? 'Sweeps', 'time after stimulus (ms)', `signal (${set.units})`, { shapes, showlegend: idx.length <= 8 }) });
+  const title = options.title !== undefined ? plotlyText(sentenceCase(options.title)) : 'Sweeps';
+  return new Figure('sweeps', { data, layout: layoutFor(title, 'Time after stimulus (ms)', `Signal (${unitText(set.units)})`, { shapes }) });
 }
 
-/** Recruitment curves with Boltzmann fits per class (points per preparation). */
+/** Recruitment curves: response against stimulus intensity per class, with the Boltzmann fit per preparation. */
 export function recruitmentFigure(points: Row[], fits: Map<string, FitResult> | null, rows: Row[], units = 'uV'): Figure {
   const classes = uniq(points.map((p) => String(p.class)));
-  const data: Record<string, unknown>[] = [];
+  const data: Trace[] = [];
+  const entries: Trace[] = [];
+  let fitted = false;
+  const iu = (rows.find((r) => r.intensityUnit)?.intensityUnit ?? points.find((r) => r.intensityUnit)?.intensityUnit ?? 'mA') as string;
   classes.forEach((cls, ci) => {
-    const pts = points.filter((p) => p.class === cls);
-    data.push({ type: 'scatter', mode: 'markers', x: pts.map((p) => p.intensity), y: pts.map((p) => p.response), name: `${cls} (sweeps)`, marker: { color: colour(ci), size: 5, opacity: 0.6 } });
+    const C = plotlyText(cls);
+    const pts = points.filter((p) => p.class === cls && num(p.intensity) && (p.intensity as number) > 0);
+    data.push({ type: 'scatter', mode: 'markers', x: pts.map((p) => p.intensity), y: pts.map((p) => p.response), name: C, showlegend: false, text: pts.map((p) => plotlyText(p.preparation ?? '')), marker: { color: colour(ci), symbol: symbol(ci), size: 6, opacity: 0.7 } });
+    let first = true;
     for (const r of rows.filter((q) => q.class === cls)) {
-      const xs = pts.map((p) => p.intensity as number);
+      if (!num(r.floor) || !num(r.maximum) || !num(r.i50) || !num(r.i95) || !(r.i50 > 0) || !(r.i95 > 0)) continue;
+      const xs = pts.filter((p) => !r.preparation || p.preparation === undefined || p.preparation === r.preparation).map((p) => p.intensity as number);
+      if (!xs.length) continue;
       const lo = Math.log10(Math.min(...xs)), hi = Math.log10(Math.max(...xs));
-      const p = [r.floor, r.maximum, Math.log10(r.i50 as number), 0] as number[];
-      // slope is not in the row: reconstruct from I95 = I50 * 10^(s ln 19)
-      p[3] = (Math.log10(r.i95 as number) - p[2]) / Math.log(19);
+      // the slope is not in the row: from I95 = I50 * 10^(s ln 19)
+      const p = [r.floor, r.maximum, Math.log10(r.i50), (Math.log10(r.i95) - Math.log10(r.i50)) / Math.log(19)];
       const gx = Array.from({ length: 100 }, (_, i) => lo + ((hi - lo) * i) / 99);
-      data.push({ type: 'scatter', mode: 'lines', x: gx.map((v) => 10 ** v), y: gx.map((v) => boltzmann(v, p)), name: `${cls} fit${r.preparation ? ` ${r.preparation}` : ''}`, line: { color: colour(ci), width: 1.5 }, showlegend: false });
+      data.push({ type: 'scatter', mode: 'lines', x: gx.map((v) => 10 ** v), y: gx.map((v) => boltzmann(v, p)), name: `${C} Boltzmann fit${r.preparation ? ` (${plotlyText(r.preparation)})` : ''}`, line: { color: colour(ci), width: 1.5 }, showlegend: false });
+      first = false;
     }
+    entries.push(classEntry(C, ci, first ? undefined : {}));
+    fitted ||= !first;
   });
+  data.push(...entries);
+  if (fitted) data.push(legendOnly('Boltzmann fit', { mode: 'lines', line: { color: GREY, width: 1.5 } }));
   void fits;
-  return new Figure('recruitment', { data, layout: baseLayout('Recruitment', `stimulus intensity (${(rows[0]?.intensityUnit as string) ?? 'mA'})`, `amplitude (${units})`, { xaxis: { ...(baseLayout('', '', '').xaxis as object), type: 'log', title: { text: `stimulus intensity (${(rows[0]?.intensityUnit as string) ?? 'mA'})` } } }) });
+  const xt = `Stimulus intensity (${unitText(iu)})`;
+  return new Figure('recruitment', { data, layout: layoutFor('Recruitment', xt, `Amplitude (${unitText(units)})`, { xaxis: logAxis(axisValues(data, 'x')) }) });
 }
 
 /**
@@ -77,60 +189,98 @@ export function recruitmentFigure(points: Row[], fits: Map<string, FitResult> | 
  */
 export function strengthDurationFigure(result: { rows: Row[]; points: Row[] }): Figure {
   const classes = uniq(result.points.map((p) => String(p.class)));
-  const data: Record<string, unknown>[] = [];
+  const data: Trace[] = [];
   const unit = (result.rows.find((r) => r.intensityUnit)?.intensityUnit as string) ?? 'mA';
+  let fitted = false;
   classes.forEach((cls, ci) => {
-    const pts = result.points.filter((p) => p.class === cls);
+    const C = plotlyText(cls);
+    const pts = result.points.filter((p) => p.class === cls && num(p.criterion) && num(p.pulseWidthMs));
     const y = pts.map((p) => p.criterion as number);
     data.push({
-      type: 'scatter', mode: 'markers', name: cls, x: pts.map((p) => p.pulseWidthMs), y, marker: { color: colour(ci), size: 7 },
-      error_y: { type: 'data', symmetric: false, array: pts.map((p, k) => (typeof p.criterion_ci95_high === 'number' ? p.criterion_ci95_high - y[k] : 0)), arrayminus: pts.map((p, k) => (typeof p.criterion_ci95_low === 'number' ? y[k] - p.criterion_ci95_low : 0)), color: colour(ci), thickness: 1 },
+      type: 'scatter', mode: 'markers', name: C, x: pts.map((p) => p.pulseWidthMs), y, marker: { color: colour(ci), symbol: symbol(ci), size: 7 },
+      error_y: { type: 'data', symmetric: false, array: pts.map((p, k) => (num(p.criterion_ci95_high) ? p.criterion_ci95_high - y[k] : 0)), arrayminus: pts.map((p, k) => (num(p.criterion_ci95_low) ? y[k] - p.criterion_ci95_low : 0)), color: colour(ci), thickness: 1 },
     });
+    if (!pts.length) return;
     const ws = pts.map((p) => p.pulseWidthMs as number);
     const lo = Math.log10(Math.min(...ws) / 1.5), hi = Math.log10(Math.max(...ws) * 1.5);
     const gx = Array.from({ length: 80 }, (_, i) => 10 ** (lo + ((hi - lo) * i) / 79));
-    for (const r of result.rows.filter((q) => q.class === cls && typeof q.rheobase === 'number')) {
-      data.push({ type: 'scatter', mode: 'lines', x: gx, y: gx.map((w) => weiss(w, [r.rheobase as number, r.chronaxie_ms as number])), name: `${cls} Weiss`, line: { color: colour(ci), width: 1.5 }, showlegend: false });
-      data.push({ type: 'scatter', mode: 'lines', x: gx, y: gx.map((w) => lapicque(w, [r.lapicque_rheobase as number, r.lapicque_tau_ms as number])), name: `${cls} Lapicque`, line: { color: colour(ci), width: 1, dash: 'dash' }, showlegend: false });
+    for (const r of result.rows.filter((q) => q.class === cls && num(q.rheobase))) {
+      fitted = true;
+      data.push({ type: 'scatter', mode: 'lines', x: gx, y: gx.map((w) => weiss(w, [r.rheobase as number, r.chronaxie_ms as number])), name: `${C} Weiss fit`, line: { color: colour(ci), width: 1.5 }, showlegend: false });
+      if (num(r.lapicque_rheobase) && num(r.lapicque_tau_ms)) data.push({ type: 'scatter', mode: 'lines', x: gx, y: gx.map((w) => lapicque(w, [r.lapicque_rheobase as number, r.lapicque_tau_ms as number])), name: `${C} Lapicque fit`, line: { color: colour(ci), width: 1, dash: 'dash' }, showlegend: false });
     }
   });
-  const base = baseLayout('Strength-duration', 'pulse width (ms)', `intensity at criterion (${unit})`);
-  return new Figure('strength-duration', { data, layout: { ...base, xaxis: { ...(base.xaxis as object), type: 'log' }, yaxis: { ...(base.yaxis as object), type: 'log' } } });
+  if (fitted) {
+    data.push(legendOnly('Weiss fit', { mode: 'lines', line: { color: GREY, width: 1.5 } }));
+    data.push(legendOnly('Lapicque fit', { mode: 'lines', line: { color: GREY, width: 1, dash: 'dash' } }));
+  }
+  data.push(legendOnly('95% CI', { mode: 'markers', marker: { symbol: 'line-ns-open', size: 9, color: GREY, line: { width: 1, color: GREY } } }));
+  return new Figure('strength-duration', { data, layout: layoutFor('Strength-duration', 'Pulse width (ms)', `Intensity at criterion (${unitText(unit)})`, { xaxis: logAxis(axisValues(data, 'x')), yaxis: logAxis(axisValues(data, 'y')) }) });
 }
 
-/** Latency against distance with the regression line per class. */
-export function velocityFigure(componentRows: Row[], basis: 'centroid' | 'peak' | 'onset' = 'centroid'): Figure {
-  const rows = componentRows.filter((r) => r.detected && typeof r[`${basis}_ms`] === 'number');
+const BASIS_WORD: Record<string, string> = { centroid: 'centroid', peak: 'peak', onset: 'onset' };
+
+/**
+ * Latency against conduction distance per class with the fitted line latency =
+ * utilisation + distance / velocity. The y axis is logarithmic when the classes'
+ * latencies span more than a factor of 10 (the fit is then drawn as the curve it is on
+ * that axis), else linear. `axis` forces one.
+ */
+export function velocityFigure(componentRows: Row[], basis: 'centroid' | 'peak' | 'onset' = 'centroid', options: { axis?: 'log' | 'linear' } = {}): Figure {
+  const rows = componentRows.filter((r) => r.detected && num(r[`${basis}_ms`]) && num(r.distance_mm));
   const classes = uniq(rows.map((r) => String(r.class)));
-  const data: Record<string, unknown>[] = [];
+  const all = rows.map((r) => r[`${basis}_ms`] as number).filter((v) => v > 0);
+  const log = options.axis ? options.axis === 'log' : all.length > 0 && Math.max(...all) / Math.min(...all) > 10;
+  const data: Trace[] = [], entries: Trace[] = [];
+  let fitted = false;
   classes.forEach((cls, ci) => {
+    const C = plotlyText(cls);
     const rr = rows.filter((r) => r.class === cls);
     const x = rr.map((r) => r.distance_mm as number), y = rr.map((r) => r[`${basis}_ms`] as number);
-    data.push({ type: 'scatter', mode: 'markers', x, y, name: cls, marker: { color: colour(ci), size: 6 } });
-    if (uniq(x).length >= 2) {
+    data.push({ type: 'scatter', mode: 'markers', x, y, name: C, showlegend: false, text: rr.map((r) => plotlyText(r.preparation ?? '')), marker: { color: colour(ci), symbol: symbol(ci), size: 6 } });
+    if (uniq(x).length < 2) entries.push(classEntry(C, ci));
+    else {
       const f = linearFit(x, y);
-      const xs = [0, Math.max(...x) * 1.05];
-      data.push({ type: 'scatter', mode: 'lines', x: xs, y: xs.map((v) => f.intercept + f.slope * v), name: `${cls}: ${(1 / f.slope).toPrecision(3)} m/s`, line: { color: colour(ci), dash: 'dot' } });
+      const a = log ? Math.min(...x) * 0.8 : 0, b = Math.max(...x) * 1.05;
+      const gx = Array.from({ length: 60 }, (_, i) => a + ((b - a) * i) / 59);
+      const pts = gx.map((v) => [v, f.intercept + f.slope * v]).filter((p) => !log || p[1] > 0);
+      const v = 1 / f.slope;
+      const label = num(v) && v > 0 ? `${C} ${Number(v.toPrecision(3))} m/s` : `${C} (no positive slope)`;
+      data.push({ type: 'scatter', mode: 'lines', x: pts.map((p) => p[0]), y: pts.map((p) => p[1]), name: label, showlegend: false, line: { color: colour(ci), width: 1.5, dash: 'dot' } });
+      entries.push(classEntry(label, ci, { dash: 'dot' }));
+      fitted = true;
     }
   });
-  return new Figure('velocity', { data, layout: baseLayout(`Latency against distance (${basis})`, 'conduction distance (mm)', `${basis} latency (ms)`, { yaxis: { ...(baseLayout('', '', '').yaxis as object), type: 'log', title: { text: `${basis} latency (ms, log scale)` } } }) });
+  data.push(...entries);
+  if (fitted) data.push(legendOnly('Linear fit', { mode: 'lines', line: { color: GREY, width: 1.5, dash: 'dot' } }));
+  const w = BASIS_WORD[basis] ?? plotlyText(basis);
+  const yTitle = `${sentenceCase(w)} latency (ms)`;
+  const yaxis = log ? logAxis(axisValues(data, 'y')) : { rangemode: 'tozero' };
+  return new Figure('velocity', { data, layout: layoutFor(`${sentenceCase(w)} latency against distance`, 'Conduction distance (mm)', yTitle, { xaxis: { rangemode: 'tozero' }, yaxis }) });
 }
 
-/** Dose-response per class: per-preparation points, pooled Hill fit and its 95% band. */
+/** Dose-response per class: per-preparation points, pooled Hill fit and its 95% confidence band. */
 export function doseResponseFigure(points: Row[], summary: Row[], fits?: Map<string, FitResult>): Figure {
   const classes = uniq(points.map((p) => String(p.class)));
-  const data: Record<string, unknown>[] = [];
-  const unit = (summary[0]?.concentrationUnit as string) ?? '';
+  const data: Trace[] = [];
+  const unit = (summary.find((r) => r.concentrationUnit)?.concentrationUnit as string) ?? '';
+  const entries: Trace[] = [];
+  let fitted = false, banded = false;
+  const U = unitText(unit);
   classes.forEach((cls, ci) => {
-    const pts = points.filter((p) => p.class === cls);
-    data.push({ type: 'scatter', mode: 'markers', x: pts.map((p) => p.concentration), y: pts.map((p) => p.normalized), text: pts.map((p) => String(p.preparation)), name: `${cls} (preparations)`, marker: { color: colour(ci), size: 6, opacity: 0.7 } });
+    const C = plotlyText(cls);
+    const pts = points.filter((p) => p.class === cls && num(p.concentration) && (p.concentration as number) > 0);
+    data.push({ type: 'scatter', mode: 'markers', x: pts.map((p) => p.concentration), y: pts.map((p) => p.normalized), text: pts.map((p) => plotlyText(p.preparation ?? '')), name: `${C} (preparations)`, showlegend: false, marker: { color: colour(ci), symbol: symbol(ci), size: 6, opacity: 0.75 } });
     const s = summary.find((r) => r.class === cls);
-    if (!s) return;
+    if (!s || !pts.length || !num(s.pooled_hill) || !num(s.pooled_bottom) || !num(s.pooled_ic50)) { entries.push(classEntry(C, ci)); return; }
     const xs = pts.map((p) => p.concentration as number);
     const lo = Math.log10(Math.min(...xs)) - 0.5, hi = Math.log10(Math.max(...xs)) + 0.5;
     const gx = Array.from({ length: 120 }, (_, i) => 10 ** (lo + ((hi - lo) * i) / 119));
-    const p = [s.pooled_hill as number, s.pooled_bottom as number, 1, Math.log(s.pooled_ic50 as number)];
-    data.push({ type: 'scatter', mode: 'lines', x: gx, y: gx.map((c) => logLogistic4(c, p)), name: `${cls}: IC50 ${(s.ic50 as number).toPrecision(3)} ${unit}`, line: { color: colour(ci), width: 2 } });
+    const p = [s.pooled_hill, s.pooled_bottom, 1, Math.log(s.pooled_ic50)];
+    const ic = num(s.ic50) ? ` IC<sub>50</sub> ${Number(s.ic50.toPrecision(3))}${U ? ' ' + U : ''}` : '';
+    data.push({ type: 'scatter', mode: 'lines', x: gx, y: gx.map((c) => logLogistic4(c, p)), name: `${C} Hill fit${ic}`, showlegend: false, line: { color: colour(ci), width: 2 } });
+    entries.push(classEntry(`${C}${ic}`, ci, { width: 2 }));
+    fitted = true;
     const f = fits?.get(`${cls}|pooled`);
     if (f && f.covariance) {
       const t = tQuantile(0.975, f.df);
@@ -146,22 +296,30 @@ export function doseResponseFigure(points: Row[], summary: Row[], fits?: Map<str
         return t * Math.sqrt(Math.max(0, v));
       });
       const mid = gx.map((c) => logLogistic4(c, f.params));
-      data.push({ type: 'scatter', mode: 'lines', x: [...gx, ...[...gx].reverse()], y: [...mid.map((m, i) => m + band[i]), ...mid.map((m, i) => m - band[i]).reverse()], fill: 'toself', fillcolor: colour(ci), opacity: 0.15, line: { width: 0 }, name: `${cls} 95% band`, showlegend: false, hoverinfo: 'skip' });
+      data.push({ type: 'scatter', mode: 'lines', x: [...gx, ...[...gx].reverse()], y: [...mid.map((m, i) => m + band[i]), ...mid.map((m, i) => m - band[i]).reverse()], fill: 'toself', fillcolor: colour(ci), opacity: 0.15, line: { width: 0 }, name: `${C} 95% confidence band`, showlegend: false, hoverinfo: 'skip' });
+      banded = true;
     }
   });
-  return new Figure('dose-response', { data, layout: baseLayout('Dose-response', `concentration (${unit})`, 'response (fraction of baseline)', { xaxis: { ...(baseLayout('', '', '').xaxis as object), type: 'log', title: { text: `concentration (${unit}, log scale)` } } }) });
+  data.push(...entries);
+  if (fitted) data.push(legendOnly('Hill fit, pooled', { mode: 'lines', line: { color: GREY, width: 2 } }));
+  if (banded) data.push(areaEntry('95% CI of fit', GREY, 0.3));
+  const xv = points.map((p) => p.concentration);
+  return new Figure('dose-response', { data, layout: layoutFor('Dose-response', `Concentration${U ? ` (${U})` : ''}`, 'Response (fraction of baseline)', { xaxis: logAxis(xv) }) });
 }
 
-/** Temperature: ln(value) against temperature (Q10 view) or against 1000/T (Arrhenius view). */
+/** Temperature: the measure against temperature on a log axis (Q10 view) or against 1000/T (Arrhenius view). */
 export function temperatureFigure(points: Row[], rows: Row[], view: 'q10' | 'arrhenius' = 'q10'): Figure {
   const classes = uniq(points.map((p) => String(p.class)));
-  const data: Record<string, unknown>[] = [];
+  const data: Trace[] = [];
   const X = (T: number) => (view === 'q10' ? T : 1000 / (T + 273.15));
+  const entries: Trace[] = [];
+  let fitted = false;
   classes.forEach((cls, ci) => {
-    const pts = points.filter((p) => p.class === cls);
-    data.push({ type: 'scatter', mode: 'markers', x: pts.map((p) => X(p.temperatureC as number)), y: pts.map((p) => p.value), text: pts.map((p) => String(p.preparation)), name: cls, marker: { color: colour(ci), size: 7 } });
+    const C = plotlyText(cls);
+    const pts = points.filter((p) => p.class === cls && num(p.temperatureC) && num(p.value) && (p.value as number) > 0);
+    data.push({ type: 'scatter', mode: 'markers', x: pts.map((p) => X(p.temperatureC as number)), y: pts.map((p) => p.value), text: pts.map((p) => plotlyText(p.preparation ?? '')), name: C, showlegend: false, marker: { color: colour(ci), symbol: symbol(ci), size: 7 } });
     const r = rows.find((q) => q.class === cls);
-    if (r && typeof r.q10 === 'number') {
+    if (r && num(r.q10) && pts.length && (view === 'q10' || num(r.ea_kJ_mol))) {
       const Ts = pts.map((p) => p.temperatureC as number);
       const Tm = Ts.reduce((a, b) => a + b, 0) / Ts.length;
       const lm = pts.reduce((a, p) => a + Math.log(p.value as number), 0) / pts.length;
@@ -169,24 +327,45 @@ export function temperatureFigure(points: Row[], rows: Row[], view: 'q10' | 'arr
       const y = view === 'q10'
         ? g.map((T) => Math.exp(lm + (Math.log(r.q10 as number) / 10) * (T - Tm)))
         : g.map((T) => Math.exp(lm - ((r.ea_kJ_mol as number) * 1000) / 8.314462618 * (1 / (T + 273.15) - 1 / (Tm + 273.15))));
-      data.push({ type: 'scatter', mode: 'lines', x: g.map(X), y, name: view === 'q10' ? `${cls}: Q10 ${(r.q10 as number).toFixed(2)}` : `${cls}: Ea ${(r.ea_kJ_mol as number).toFixed(1)} kJ/mol`, line: { color: colour(ci), dash: 'dot' } });
-    }
+      const name = view === 'q10' ? `${C} Q<sub>10</sub> ${(r.q10 as number).toFixed(2)}` : `${C} E<sub>a</sub> ${(r.ea_kJ_mol as number).toFixed(1)}`;
+      data.push({ type: 'scatter', mode: 'lines', x: g.map(X), y, name, showlegend: false, line: { color: colour(ci), width: 1.5 } });
+      entries.push(classEntry(name, ci, {}));
+      fitted = true;
+    } else entries.push(classEntry(C, ci));
   });
-  const yl = String(points[0]?.measure ?? 'value').replace(/_m_s$/, ' (m/s)');
-  return new Figure(`temperature-${view}`, { data, layout: baseLayout(view === 'q10' ? 'Temperature dependence (log-linear)' : 'Arrhenius plot', view === 'q10' ? 'temperature (C)' : '1000 / T (1/K)', `${yl}, log scale`, { yaxis: { ...(baseLayout('', '', '').yaxis as object), type: 'log', title: { text: `${yl} (log scale)` } } }) });
+  data.push(...entries);
+  if (fitted) data.push(legendOnly(view === 'q10' ? 'Log-linear fit' : 'Fit (E<sub>a</sub> in kJ/mol)', { mode: 'lines', line: { color: GREY, width: 1.5 } }));
+  const yl = sentenceCase(measureLabel(String(points[0]?.measure ?? 'value')));
+  const m = /^(centroid|peak|onset)_velocity/.exec(String(points[0]?.measure ?? ''));
+  const title = (view === 'q10' ? 'Temperature dependence' : 'Arrhenius plot') + (m ? ` (velocity from ${m[1]} latency)` : '');
+  const xt = view === 'q10' ? 'Temperature (°C)' : '1000 / T (K<sup>−1</sup>)';
+  return new Figure(`temperature-${view}`, { data, layout: layoutFor(title, xt, yl, { yaxis: logAxis(axisValues(data, 'y')) }) });
 }
 
-/** Across preparations: one point per animal, mean and 95% CI, per class. */
-export function summaryFigure(rows: Row[], measure: string, label = measure): Figure {
+/**
+ * Across preparations: one point per preparation (its mean over rows), the mean and
+ * 95% CI per class. `label` is plain text (default: a readable name for `measure`).
+ */
+export function summaryFigure(rows: Row[], measure: string, label?: string): Figure {
   const classes = uniq(rows.map((r) => String(r.class)));
-  const data: Record<string, unknown>[] = [];
+  const data: Trace[] = [];
+  const L = label !== undefined ? plotlyText(label) : measureLabel(measure);
   classes.forEach((cls, ci) => {
+    const C = plotlyText(cls);
     const byPrep = new Map<string, number[]>();
-    for (const r of rows.filter((q) => q.class === cls && typeof q[measure] === 'number')) (byPrep.get(String(r.preparation)) ?? byPrep.set(String(r.preparation), []).get(String(r.preparation))!).push(r[measure] as number);
+    for (const r of rows.filter((q) => q.class === cls && num(q[measure]))) {
+      const k = String(r.preparation);
+      if (!byPrep.has(k)) byPrep.set(k, []);
+      byPrep.get(k)!.push(r[measure] as number);
+    }
     const vals = [...byPrep.values()].map((v) => v.reduce((a, b) => a + b, 0) / v.length);
-    data.push({ type: 'scatter', mode: 'markers', x: vals.map(() => cls), y: vals, text: [...byPrep.keys()], name: `${cls} (animals)`, marker: { color: colour(ci), size: 8, opacity: 0.7 } });
-    const s = summarize(vals);
-    data.push({ type: 'scatter', mode: 'markers', x: [cls], y: [s.mean], error_y: { type: 'data', symmetric: false, array: [s.ci95[1] - s.mean], arrayminus: [s.mean - s.ci95[0]], color: '#222' }, marker: { symbol: 'line-ew-open', size: 24, color: '#222' }, name: `${cls} mean, 95% CI`, showlegend: ci === 0 });
+    data.push({ type: 'scatter', mode: 'markers', x: vals.map(() => C), y: vals, text: [...byPrep.keys()].map(plotlyText), name: `${C} (preparations)`, marker: { color: colour(ci), symbol: symbol(ci), size: 8, opacity: 0.75 }, showlegend: false });
+    if (vals.length >= 2) {
+      const s = summarize(vals);
+      data.push({ type: 'scatter', mode: 'markers', x: [C], y: [s.mean], error_y: { type: 'data', symmetric: false, array: [s.ci95[1] - s.mean], arrayminus: [s.mean - s.ci95[0]], color: '#222', thickness: 1.5 }, marker: { symbol: 'line-ew-open', size: 24, color: '#222', line: { width: 2 } }, name: `${C} mean, 95% CI`, showlegend: false });
+    }
   });
-  return new Figure('summary', { data, layout: baseLayout(`${label} across preparations`, 'fiber class', label) });
+  data.push(legendOnly('One preparation', { mode: 'markers', marker: { symbol: 'circle', size: 8, color: GREY, opacity: 0.75 } }));
+  data.push(legendOnly('Mean and 95% CI', { mode: 'markers', marker: { symbol: 'line-ew-open', size: 16, color: '#222', line: { width: 2 } } }));
+  return new Figure('summary', { data, layout: layoutFor(`${sentenceCase(L.replace(/\s*\([^()]*\)$/, ''))} across preparations`, 'Fiber class', sentenceCase(L), { xaxis: { type: 'category' } }) });
 }

@@ -12,10 +12,46 @@ import { readFileSync } from 'node:fs';
 import { gzipSync } from 'node:zlib';
 import { inspect } from 'node:util';
 import { escapeHtml, tslabDisplay } from '../notebook/html';
+import { plotlyText, sentenceCase } from './labels';
 
-/** The fascicle palette: colour-blind-safe hues (distinct for deuteranopia and protanopia), our own selection. */
-export const PALETTE = ['#1f5fa8', '#e08a1e', '#2b9e8f', '#b23a6e', '#5c5c5c', '#c9b037', '#7a4fb3'];
+/**
+ * Class colours: the colour-blind-safe set of Wong (2011) "Points of view: Color blindness",
+ * Nat Methods 8:441, in an order of our own (blue, vermillion, bluish green, reddish
+ * purple, orange, sky blue, black); its yellow is left out for low contrast on white.
+ */
+export const PALETTE = ['#0072B2', '#D55E00', '#009E73', '#CC79A7', '#E69F00', '#56B4E9', '#000000'];
+/** Marker shapes paired with PALETTE, so classes also differ without colour (and in greyscale print). */
+export const MARKERS = ['circle', 'square', 'diamond', 'triangle-up', 'triangle-down', 'cross', 'x'];
+/**
+ * Sequential scale for a varied condition (intensity, concentration, temperature,
+ * distance): viridis (van der Walt and Smith 2015, matplotlib; perceptually uniform and
+ * readable with colour-vision deficiencies), stops as plotly.js ships them, cut at 0.82
+ * so that the light end stays visible on white.
+ */
+export const SEQUENTIAL: [number, string][] = [
+  [0, '#440154'], [0.06274509803921569, '#48186a'], [0.12549019607843137, '#472d7b'], [0.18823529411764706, '#424086'],
+  [0.25098039215686274, '#3b528b'], [0.3137254901960784, '#33638d'], [0.3764705882352941, '#2c728e'], [0.4392156862745098, '#26828e'],
+  [0.5019607843137255, '#21918c'], [0.5647058823529412, '#1fa088'], [0.6274509803921569, '#28ae80'], [0.6901960784313725, '#3fbc73'],
+  [0.7529411764705882, '#5ec962'], [0.8156862745098039, '#84d44b'],
+];
 export const FONT = 'Helvetica, Arial, sans-serif';
+
+/** Colour of the sequential scale at u in [0, 1] (interpolated in RGB between the stops). */
+export function sequentialColour(u: number): string {
+  const x = Math.min(1, Math.max(0, u)) * SEQUENTIAL[SEQUENTIAL.length - 1][0];
+  let k = 0;
+  while (k < SEQUENTIAL.length - 2 && SEQUENTIAL[k + 1][0] < x) k++;
+  const [x0, c0] = SEQUENTIAL[k], [x1, c1] = SEQUENTIAL[k + 1];
+  const f = x1 > x0 ? (x - x0) / (x1 - x0) : 0;
+  const rgb = (c: string) => [1, 3, 5].map((i) => parseInt(c.slice(i, i + 2), 16));
+  const a = rgb(c0), b = rgb(c1);
+  return '#' + a.map((v, i) => Math.round(v + (b[i] - v) * f).toString(16).padStart(2, '0')).join('');
+}
+/** The sequential scale as a plotly colorscale (0..1). */
+export function sequentialScale(): [number, string][] {
+  const top = SEQUENTIAL[SEQUENTIAL.length - 1][0];
+  return SEQUENTIAL.map(([x, c]) => [x / top, c]);
+}
 
 export interface PlotlySpec { data: Record<string, unknown>[]; layout: Record<string, unknown>; config?: Record<string, unknown> }
 
@@ -33,21 +69,126 @@ function packed(): string {
 
 let counter = 0;
 
-/** Base layout of the house style; width and height in px. */
-export function baseLayout(title: string, x: string, y: string, extra: Record<string, unknown> = {}): Record<string, unknown> {
+/** Screen sizes (px at 96 px/inch): body text 12 px = 9 pt. Print sizes are set in pt (plot/export.ts). */
+export const SCREEN_FONT = { base: 12, tick: 11, title: 14 };
+
+const axis = (title: string) => ({
+  title: { text: title, standoff: 6 }, showline: true, linecolor: '#333', linewidth: 1, ticks: 'outside', ticklen: 4, tickwidth: 1,
+  tickcolor: '#333', zeroline: false, showgrid: false, automargin: false, tickangle: 0, tickfont: { size: SCREEN_FONT.tick },
+});
+
+/**
+ * Layout of the house style from plotly markup (user text already escaped with
+ * plotlyText): title at the top, legend in a row under the x-axis title, margins found
+ * in the browser by measuring the text (LAYOUT_FIT_JS) so nothing overlaps.
+ */
+export function layoutFor(title: string, x: string, y: string, extra: Record<string, unknown> = {}): Record<string, unknown> {
+  const { xaxis, yaxis, ...rest } = extra as { xaxis?: object; yaxis?: object };
   return {
-    title: { text: title, font: { size: 14 } },
-    font: { family: FONT, size: 12, color: '#222' },
+    title: { text: title, font: { size: SCREEN_FONT.title }, x: 0.5, xanchor: 'center', xref: 'container', y: 0.98, yref: 'container', yanchor: 'top' },
+    font: { family: FONT, size: SCREEN_FONT.base, color: '#222' },
     colorway: PALETTE,
     paper_bgcolor: '#fff', plot_bgcolor: '#fff',
-    xaxis: { title: { text: x }, showline: true, linecolor: '#444', ticks: 'outside', zeroline: false, showgrid: false },
-    yaxis: { title: { text: y }, showline: true, linecolor: '#444', ticks: 'outside', zeroline: false, showgrid: false },
-    legend: { orientation: 'h', y: -0.2 },
-    margin: { l: 70, r: 20, t: 50, b: 70 },
+    xaxis: { ...axis(x), ...(xaxis ?? {}) },
+    yaxis: { ...axis(y), ...(yaxis ?? {}) },
+    legend: { orientation: 'h', xref: 'container', yref: 'container', x: 0.01, xanchor: 'left', y: 0.01, yanchor: 'bottom', bgcolor: 'rgba(0,0,0,0)', traceorder: 'normal', tracegroupgap: 0 },
+    margin: { l: 70, r: 20, t: 50, b: 90 },
     width: 640, height: 420,
-    ...extra,
+    ...rest,
   };
 }
+
+/**
+ * Base layout of the house style from plain text: the title, x- and y-axis titles are
+ * shown as written (escaped for plotly; first letter upper case). Width and height in px.
+ */
+export function baseLayout(title: string, x: string, y: string, extra: Record<string, unknown> = {}): Record<string, unknown> {
+  return layoutFor(plotlyText(sentenceCase(title)), plotlyText(sentenceCase(x)), plotlyText(sentenceCase(y)), extra);
+}
+
+/**
+ * Runs in the page after Plotly.newPlot: measures every text box and sets the margins
+ * so that tick labels, axis titles and the title each get their own space inside the
+ * canvas; wraps a title longer than its space onto two lines. The legend goes into a
+ * corner of the plot area that holds no data (markers, line vertices, error bars), else
+ * in rows under the x-axis title. Resolves when the layout is stable.
+ */
+export const LAYOUT_FIT_JS = String.raw`window.__fascicleFit=window.__fascicleFit||function(gd,o){
+var P=window.Plotly,pad=(o&&o.pad)||5,gap=(o&&o.gap)||5,wrapped={};
+function R(){return gd.querySelector('.main-svg').getBoundingClientRect();}
+function rel(r,Q){return{l:r.left-Q.left,r:r.right-Q.left,t:r.top-Q.top,b:r.bottom-Q.top};}
+function boxes(test){var Q=R(),out=[];
+  Array.prototype.forEach.call(gd.querySelectorAll('text'),function(e){if(!(e.textContent||'').trim())return;
+    var c=(e.parentNode&&e.parentNode.getAttribute('class'))||'';if(!test(c))return;var r=e.getBoundingClientRect();
+    if(r.width||r.height)out.push(rel(r,Q));});return out;}
+function ext(bs){return bs.reduce(function(a,b){return{l:Math.min(a.l,b.l),r:Math.max(a.r,b.r),t:Math.min(a.t,b.t),b:Math.max(a.b,b.b)};},
+  {l:1e9,r:-1e9,t:1e9,b:-1e9});}
+function wrap(s){if(typeof s!=='string'||/<br>/i.test(s))return null;var w=s.split(' ');if(w.length<2)return null;
+  var best=1,bd=1e9,n=0;for(var i=1;i<w.length;i++){n+=w[i-1].length+1;var d=Math.abs(n-s.length/2);if(d<bd){bd=d;best=i;}}
+  var a=w.slice(0,best).join(' ');if((a.match(/</g)||[]).length!==(a.match(/>/g)||[]).length)return null;
+  return a+'<br>'+w.slice(best).join(' ');}
+function legendBox(){var lg=gd.querySelector('.legend');if(!lg||gd._fullLayout.showlegend===false)return null;
+  var b=lg.querySelector('rect.bg')||lg;var r=rel(b.getBoundingClientRect(),R());return r.r-r.l>0?r:null;}
+function titleOf(a){return a&&a.title?(typeof a.title==='string'?a.title:a.title.text):'';}
+function update(below){var fl=gd._fullLayout,s=fl._size,W=fl.width,H=fl.height,u={};
+  var isX=function(c){return/^x\d*tick$/.test(c)||/^g-x\d*title$/.test(c);},isY=function(c){return/^y\d*tick$/.test(c)||/^g-y\d*title$/.test(c);};
+  var xb=ext(boxes(isX)),yb=ext(boxes(isY)),tb=boxes(function(c){return c==='g-gtitle';});
+  var plotB=s.t+s.h,plotR=s.l+s.w,titleT=fl.title&&fl.title.text&&tb.length?ext(tb):null;
+  if(titleT&&titleT.r-titleT.l>W-2*pad&&!wrapped.t){wrapped.t=1;var t2=wrap(fl.title.text);if(t2)u['title.text']=t2;}
+  boxes(function(c){return/^g-xtitle$/.test(c);}).forEach(function(b){if(b.r-b.l>s.w&&!wrapped.x){wrapped.x=1;
+    var t=wrap(titleOf(gd.layout.xaxis));if(t)u['xaxis.title.text']=t;}});
+  boxes(function(c){return/^g-ytitle$/.test(c);}).forEach(function(b){if(b.b-b.t>s.h&&!wrapped.y){wrapped.y=1;
+    var t=wrap(titleOf(gd.layout.yaxis));if(t)u['yaxis.title.text']=t;}});
+  var lb=below?legendBox():null,lh=lb?lb.b-lb.t:0,top=pad;
+  if(titleT){u['title.y']=Math.min(1,fl.title.y-(pad-titleT.t)/H);top=pad+(titleT.b-titleT.t)+gap;}
+  var m={l:Math.ceil((yb.l<1e8?s.l-yb.l:0)+pad),r:Math.ceil(Math.max(0,xb.r>-1e8?xb.r-plotR:0)+pad),
+    t:Math.ceil(top+Math.max(0,yb.t<1e8?s.t-yb.t:0)),b:Math.ceil((xb.b>-1e8?xb.b-plotB:0)+(lh?gap+lh:0)+pad)};
+  var cur=gd.layout.margin||{},ch=Object.keys(u).some(function(k){return k!=='title.y';});
+  if(below&&lb){var lx=-(s.l-pad)/s.w,ly=-((xb.b>-1e8?xb.b-plotB:0)+gap)/s.h,L=fl.legend;
+    if(Math.abs((L.x-lx)*s.w)>0.5||Math.abs((L.y-ly)*s.h)>0.5){u['legend.x']=lx;u['legend.y']=ly;ch=true;}}
+  ['l','r','t','b'].forEach(function(k){if(Math.abs((cur[k]||0)-m[k])>0.5)ch=true;});
+  if(titleT&&Math.abs(fl.title.y-u['title.y'])*H>0.5)ch=true;
+  if(!ch)return null;u.margin=Object.assign({},cur,m,{autoexpand:true});return u;}
+function settle(below,pass){var u=update(below);if(!u||pass>=8)return Promise.resolve();
+  return P.relayout(gd,u).then(function(){return settle(below,pass+1);});}
+function dataPoints(){var fl=gd._fullLayout,s=fl._size,out=[];
+  (gd._fullData||[]).forEach(function(t){if(t.visible!==true||!t.x||!t.y||!t.x.length)return;
+    var xa=fl[(t.xaxis||'x').replace('x','xaxis')],ya=fl[(t.yaxis||'y').replace('y','yaxis')];if(!xa||!ya)return;
+    var n=Math.min(t.x.length,t.y.length),st=Math.max(1,Math.floor(n/3000)),prev=null,lines=/lines/.test(t.mode||'')||t.fill==='toself';
+    var ey=t.error_y&&t.error_y.visible?t.error_y:null;
+    function px(x,y){var cx=xa.d2c(x),cy=ya.d2c(y);if(cx==null||cy==null)return null;
+      var a=xa._offset+xa.c2p(cx),b=ya._offset+ya.c2p(cy);return isFinite(a)&&isFinite(b)?[a,b]:null;}
+    for(var i=0;i<n;i+=st){var p=px(t.x[i],t.y[i]);if(!p){prev=null;continue;}
+      if(prev&&lines){var d=Math.hypot(p[0]-prev[0],p[1]-prev[1]),k=Math.ceil(d/3);
+        for(var j=1;j<k;j++)out.push([prev[0]+(p[0]-prev[0])*j/k,prev[1]+(p[1]-prev[1])*j/k]);}
+      out.push(p);prev=p;
+      if(ey&&ey.array){var up=px(t.x[i],t.y[i]+(+ey.array[i]||0)),dn=px(t.x[i],t.y[i]-(+(ey.arrayminus||ey.array)[i]||0));
+        if(up)out.push(up);if(dn)out.push(dn);}}});
+  return out.filter(function(p){return p[0]>=s.l-1&&p[0]<=s.l+s.w+1&&p[1]>=s.t-1&&p[1]<=s.t+s.h+1;});}
+function inside(){var L=legendBox(),fl=gd._fullLayout,s=fl._size;if(!L)return null;var w=L.r-L.l,h=L.b-L.t,e=3,m=4;
+  if(w>0.65*s.w||h>0.7*s.h)return null;var pts=dataPoints();
+  function at(c){return{'legend.x':c[0]?1-e/s.w:e/s.w,'legend.y':c[1]?1-e/s.h:e/s.h,'legend.xanchor':c[0]?'right':'left',
+    'legend.yanchor':c[1]?'top':'bottom'};}
+  var cs=[[1,1],[0,1],[1,0],[0,0]];
+  for(var i=0;i<cs.length;i++){var c=cs[i],l=c[0]?s.l+s.w-e-w:s.l+e,t=c[1]?s.t+e:s.t+s.h-e-h;
+    if(!pts.some(function(p){return p[0]>l-m&&p[0]<l+w+m&&p[1]>t-m&&p[1]<t+h+m;}))return at(c);}
+  // no free corner: give the y axis headroom (the data keep at least 60% of the height) and use a top corner
+  var ya=fl.yaxis;if(!ya||ya.type==='category'||!ya.range||fl.yaxis2)return null;var best=null;
+  [1,0].forEach(function(cx){var l=cx?s.l+s.w-e-w:s.l+e,top=1e9;
+    pts.forEach(function(p){if(p[0]>l-m&&p[0]<l+w+m)top=Math.min(top,p[1]);});
+    var dB=s.t+s.h-top,f=dB>0?(s.h-e-h-2*m)/dB:1;if(f>=0.6&&(!best||f>best.f))best={f:Math.min(1,f),c:[cx,1]};});
+  if(!best)return null;var r0=ya.range[0],r1=ya.range[1],u=at(best.c);
+  if(best.f<1)u['yaxis.range']=[r0,r0+(r1-r0)/best.f];return u;}
+var fl0=gd._fullLayout;
+if(!fl0.showlegend||!gd.querySelector('.legend'))return settle(false,0);
+var keep=gd.layout.legend||{};
+return P.relayout(gd,{'legend.orientation':'v','legend.xref':'paper','legend.yref':'paper','legend.x':1,'legend.y':1,
+  'legend.xanchor':'right','legend.yanchor':'top','legend.bgcolor':'rgba(255,255,255,0.85)'}).then(function(){return settle(false,0);})
+.then(function(){var c=inside();if(c)return P.relayout(gd,c).then(function(){return settle(false,0);});
+  var s=gd._fullLayout._size;
+  return P.relayout(gd,{'legend.orientation':'h','legend.xref':'paper','legend.yref':'paper','legend.x':-(s.l-pad)/s.w,
+    'legend.y':-0.3,'legend.xanchor':'left','legend.yanchor':'top','legend.bgcolor':keep.bgcolor||'rgba(0,0,0,0)'})
+  .then(function(){return settle(true,0);});});};`;
 
 export class Figure {
   readonly name: string;
@@ -72,7 +213,7 @@ export class Figure {
     const spec = this.specJson().replace(/</g, '\\u003c');
     const { width, height } = this.spec.layout as { width?: number; height?: number };
     const div = `<div id="${id}" class="fascicle-figure" data-name="${escapeHtml(this.name)}" style="width:${width ?? 640}px;height:${height ?? 420}px"></div>`;
-    const plot = `var s=${spec};window.Plotly.newPlot(${JSON.stringify(id)},s.data,s.layout,Object.assign({displaylogo:false,responsive:false},s.config||{}));`;
+    const plot = `${LAYOUT_FIT_JS}var s=${spec};window.Plotly.newPlot(${JSON.stringify(id)},s.data,s.layout,Object.assign({displaylogo:false,responsive:false},s.config||{})).then(function(gd){return window.__fascicleFit(gd,{pad:6,gap:6});});`;
     if (library === 'page') return `${div}<script>${plot}</script>`;
     if (library === 'script-tag') return `<script src="${escapeHtml(src)}"></script>${div}<script>${plot}</script>`;
     const loader = `(function(){function go(){${plot}}if(window.Plotly){go();return;}if(!window.__fascicleLoad){window.__fascicleLoad=new Promise(function(res,rej){try{var b=atob(document.getElementById(${JSON.stringify(id + '-lib')}).textContent.trim());var u=new Uint8Array(b.length);for(var i=0;i<b.length;i++)u[i]=b.charCodeAt(i);var st=new Blob([u]).stream().pipeThrough(new DecompressionStream('gzip'));new Response(st).text().then(function(t){var d=window.define;window.define=undefined;try{(0,eval)(t);}finally{window.define=d;}res();},rej);}catch(e){rej(e);}});}window.__fascicleLoad.then(go,function(e){document.getElementById(${JSON.stringify(id)}).textContent='figure could not load plotly.js: '+e;});})();`;
@@ -86,8 +227,13 @@ export class Figure {
     else console.log(this.toString());
   }
 
-  /** Save as SVG, PNG or PDF with the size in mm (needs a Chromium or Chrome; see plot/export.ts). */
-  async save(path: string, options: { widthMm?: number; heightMm?: number; scale?: number } = {}): Promise<void> {
+  /**
+   * Save as SVG, PNG or PDF for print: size in mm (default 85 x 60 mm, or a journal
+   * `column`), text in points, PNG at `dpi` (default 300). Starts a browser for this
+   * one file: to save several, use saveFigures([...]) or openExporter() (one launch).
+   * @example await fig.save('fig1.pdf', { column: 'single', heightMm: 60 })
+   */
+  async save(path: string, options: import('./export').SaveOptions = {}): Promise<void> {
     const { saveFigures } = await import('./export');
     await saveFigures([{ figure: this, path, ...options }]);
   }

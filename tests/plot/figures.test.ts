@@ -50,6 +50,8 @@ describe('HTML escaping of user-provided text', () => {
     const out = fig.toHTML('page');
     expect(out).not.toMatch(/<\/script><img/);
     expect(out).not.toContain(`data-name="${evil}"`);
+    // baseLayout takes plain text: plotly gets entities, not markup
+    expect((fig.spec.layout.title as { text: string }).text).toBe('&lt;img src=x onerror=alert(1)&gt;');
     expect(escapeHtml(`"'&`)).toBe('&quot;&#39;&amp;');
   });
 });
@@ -60,7 +62,7 @@ describe('figure.save for print', () => {
     const fig = sweepsFigure(small(), { title: 'print' });
     const jobs = [
       { figure: fig, path: join(dir, 'a.svg'), widthMm: 85, heightMm: 60 },
-      { figure: fig, path: join(dir, 'a.png'), widthMm: 85, heightMm: 60, scale: 2 },
+      { figure: fig, path: join(dir, 'a.png'), widthMm: 85, heightMm: 60, dpi: 192 },
       { figure: fig, path: join(dir, 'a.pdf'), widthMm: 85, heightMm: 60 },
     ];
     if (!findBrowser()) {
@@ -72,8 +74,8 @@ describe('figure.save for print', () => {
     expect(svg).toMatch(/^<svg[^>]*width="85mm" height="60mm"/);
     const png = readFileSync(join(dir, 'a.png'));
     expect(png.subarray(1, 4).toString()).toBe('PNG');
-    // 85 mm at 96 px/inch = 321 px; scale 2 -> 642 px wide
-    expect(png.readUInt32BE(16)).toBe(642);
+    // 85 mm at 192 px/inch = 642.52 -> 643 px; 60 mm -> 453.54 -> 454 px
+    expect(png.readUInt32BE(16)).toBe(643);
     expect(png.readUInt32BE(20)).toBe(454);
     const pdf = readFileSync(join(dir, 'a.pdf'), 'latin1');
     expect(pdf.startsWith('%PDF')).toBe(true);

@@ -1,0 +1,276 @@
+/**
+ * Print export at journal widths, checked in headless Chromium: every figure kind is
+ * rendered for print at single (85 mm), one-and-a-half (120 mm) and double (175 mm)
+ * column width, the exported SVG is put back into a page and the bounding box of every
+ * text element is measured: no two overlap, none leaves the canvas, none sits on the
+ * plot area unless it is a tick label of its own axis, and text is 7-9 pt at print size.
+ * Widths: common journal practice (85-90, 114-140, 170-180 mm), no single source.
+ * One browser launch for the whole file.
+ */
+import { describe, it, expect, beforeAll, afterAll } from 'vitest';
+import { mkdtempSync, readFileSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import type { Page } from 'playwright-core';
+import {
+  model, sweepsFigure, recruitmentFigure, strengthDurationFigure, velocityFigure, doseResponseFigure, temperatureFigure,
+  summaryFigure, Figure, baseLayout, findBrowser, openExporter, FigureExporter, saveFigures, SweepSet,
+} from '../../src';
+
+const CLASSES = ['A-alpha/beta', 'A-delta', 'C'];
+const PREPS = ['N1', 'N2', 'N3', 'N4'];
+const V = [50, 12, 0.8]; // m/s, a typical rodent order of magnitude (common practice, no source)
+
+/** A small simulated experiment (fascicle's forward model): two distances, two temperatures, an intensity series. */
+function simulated() {
+  const nerve = model.rodentSciatic();
+  const sweeps = [10, 30].flatMap((d) => [22, 37].map((T) => ({ intensity: 20, distanceMm: d, temperatureC: T, concentration: 0, conditions: { preparation: 'sim' } })));
+  const sim = model.simulateNerve({ model: nerve, seed: 1, grid: { fs: 20000, t0Ms: -2, nSamples: 1600 }, sweeps, nuisance: { noiseUv: 5 } }).baseline();
+  const series = model.simulateNerve({
+    model: nerve, seed: 2, grid: { fs: 20000, t0Ms: -2, nSamples: 400 }, nuisance: { noiseUv: 5 },
+    sweeps: Array.from({ length: 10 }, (_, k) => ({ intensity: 0.05 * 1.6 ** k, distanceMm: 20, temperatureC: 37, concentration: 0, conditions: { preparation: 'sim', intensityUnit: 'mA' } })),
+  }).baseline().removeArtifact({ method: 'blank', window: [0, 0.12], bridge: 'linear' });
+  return { sim, series };
+}
+
+function figures(): Figure[] {
+  const { sim, series } = simulated();
+  const table = sim.components({ preset: 'mammalian' });
+  const one = sim.where({ distanceMm: 30, temperatureC: 37 });
+  const tOne = one.components({ preset: 'mammalian' });
+  const rec = series.components({ preset: 'mammalian', earliestMs: 0.12 }).recruitment();
+  const velRows = CLASSES.flatMap((cls, ci) => PREPS.flatMap((p) => [20, 40].map((d) => ({ class: cls, preparation: p, detected: true, distance_mm: d, centroid_ms: 0.05 * (ci + 1) + d / V[ci] }))));
+  const conc = [1, 3, 10, 30, 100, 300];
+  const dosePts = CLASSES.flatMap((cls, ci) => PREPS.flatMap((p, k) => conc.map((c) => ({ class: cls, preparation: p, concentration: c, normalized: 1 / (1 + c / (10 * (ci + 1))) + 0.02 * k }))));
+  const doseSum = CLASSES.map((cls, ci) => ({ class: cls, ic50: 10 * (ci + 1), pooled_ic50: 10 * (ci + 1), pooled_hill: 1, pooled_bottom: 0, concentrationUnit: 'uM' }));
+  const tPts = CLASSES.flatMap((cls, ci) => PREPS.flatMap((p) => [25, 29, 33, 37].map((T) => ({ class: cls, preparation: p, temperatureC: T, value: V[ci] * 1.5 ** ((T - 37) / 10), measure: 'centroid_velocity_m_s' }))));
+  const tRows = CLASSES.map((cls) => ({ class: cls, q10: 1.5, ea_kJ_mol: 30.5 }));
+  const sdPts = CLASSES.flatMap((cls, ci) => [0.02, 0.05, 0.1, 0.2, 0.5, 1].map((w) => {
+    const c = 0.1 * (ci + 1) * (1 + (0.3 * (ci + 1)) / w);
+    return { class: cls, pulseWidthMs: w, criterion: c, criterion_ci95_low: c * 0.9, criterion_ci95_high: c * 1.1 };
+  }));
+  const sdRows = CLASSES.map((cls, ci) => ({ class: cls, rheobase: 0.1 * (ci + 1), chronaxie_ms: 0.3 * (ci + 1), lapicque_rheobase: 0.1 * (ci + 1), lapicque_tau_ms: 0.43 * (ci + 1), intensityUnit: 'mA' }));
+  const vel = CLASSES.flatMap((cls, ci) => PREPS.map((p, k) => ({ class: cls, preparation: p, velocity_m_s: V[ci] * (1 + 0.05 * k) })));
+  const hh = model.simulateMembrane({ stimulus: model.stepCurrent(20, 1, 0.5), tMax: 20 });
+  return [
+    sweepsFigure(sim, { title: 'Simulated compound responses' }),
+    sweepsFigure(one, { table: tOne, title: 'Class windows, onset and peak marks' }),
+    sweepsFigure(series, { title: 'Intensity series' }),
+    recruitmentFigure(rec.points, rec.fits, rec.rows, series.units),
+    strengthDurationFigure({ rows: sdRows, points: sdPts }),
+    velocityFigure(velRows, 'centroid'),
+    velocityFigure(table.rows.filter((r) => r.temperatureC === 37), 'peak'),
+    doseResponseFigure(dosePts, doseSum),
+    temperatureFigure(tPts, tRows, 'q10'),
+    temperatureFigure(tPts, tRows, 'arrhenius'),
+    summaryFigure(vel, 'velocity_m_s'),
+    new Figure('hh', { data: [{ type: 'scatter', mode: 'lines', x: Array.from(hh.t), y: Array.from(hh.V), name: 'V' }], layout: baseLayout('Hodgkin-Huxley membrane, 6.3 °C', 'time (ms)', 'membrane potential (mV)') }),
+  ];
+}
+
+interface Box { text: string; cls: string; l: number; r: number; t: number; b: number; fontPx: number }
+type Rect = { l: number; r: number; t: number; b: number };
+interface Check { canvas: { w: number; h: number }; boxes: Box[]; plot: Rect | null; legend: Rect | null; marks: Rect[] }
+
+/** Load an exported SVG into a page and measure its text. Written here, independent of the layout code. */
+async function measure(page: Page, svg: string): Promise<Check> {
+  return page.evaluate((svgText) => {
+    document.body.innerHTML = svgText;
+    const root = document.querySelector('svg')!;
+    const R = root.getBoundingClientRect();
+    const rel = (r: DOMRect) => ({ l: r.left - R.left, r: r.right - R.left, t: r.top - R.top, b: r.bottom - R.top });
+    const boxes = [...root.querySelectorAll('text')].filter((e) => (e.textContent ?? '').trim() && e.getBoundingClientRect().width > 0).map((e) => ({
+      text: e.textContent!.trim(), cls: (e.parentNode as Element).getAttribute('class') ?? '', ...rel(e.getBoundingClientRect()),
+      fontPx: parseFloat(getComputedStyle(e).fontSize),
+    }));
+    // the plot area: x extent of the x-axis line, y extent of the y-axis line
+    const xl = root.querySelector('path.xlines-above'), yl = root.querySelector('path.ylines-above');
+    const plot = xl && yl ? { l: rel(xl.getBoundingClientRect()).l, r: rel(xl.getBoundingClientRect()).r, t: rel(yl.getBoundingClientRect()).t, b: rel(yl.getBoundingClientRect()).b } : null;
+    const lg = root.querySelector('.legend rect.bg') ?? root.querySelector('.legend');
+    // data marks outside the legend: markers and error bars by their boxes, lines sampled every 2 px along the path
+    const marks: { l: number; r: number; t: number; b: number }[] = [];
+    const outsideLegend = (e: Element) => !e.closest('.legend');
+    root.querySelectorAll('.scatterlayer path.point, .errorbars path').forEach((e) => { if (outsideLegend(e)) marks.push(rel(e.getBoundingClientRect())); });
+    root.querySelectorAll('.scatterlayer path.js-line').forEach((e) => {
+      if (!outsideLegend(e)) return;
+      // vertices of plotly's M/L line paths, mapped to the page, and points every 2 px between them
+      const d = e.getAttribute('d') ?? '', m = (e as SVGPathElement).getScreenCTM()!;
+      if (/[^MLZ\d\s,.eE+-]/.test(d)) throw new Error(`unexpected path commands in ${d.slice(0, 40)}`);
+      let prev: [number, number] | null = null;
+      for (const seg of d.split(/(?=[MLZ])/)) {
+        const n = seg.slice(1).split(/[\s,]+/).filter(Boolean).map(Number);
+        if (seg[0] === 'M') prev = null;
+        for (let k = 0; k + 1 < n.length; k += 2) {
+          const x = m.a * n[k] + m.c * n[k + 1] + m.e - R.left, y = m.b * n[k] + m.d * n[k + 1] + m.f - R.top;
+          if (prev) {
+            const steps = Math.ceil(Math.hypot(x - prev[0], y - prev[1]) / 2);
+            for (let j = 1; j < steps; j++) { const px = prev[0] + ((x - prev[0]) * j) / steps, py = prev[1] + ((y - prev[1]) * j) / steps; marks.push({ l: px, r: px, t: py, b: py }); }
+          }
+          marks.push({ l: x, r: x, t: y, b: y });
+          prev = [x, y];
+        }
+      }
+    });
+    return { canvas: { w: R.width, h: R.height }, boxes, plot, legend: lg ? rel(lg.getBoundingClientRect()) : null, marks };
+  }, svg);
+}
+
+const TOL = 0.5; // px of slack for anti-aliased edges
+const overlap = (a: { l: number; r: number; t: number; b: number }, b: { l: number; r: number; t: number; b: number }) =>
+  Math.min(a.r, b.r) - Math.max(a.l, b.l) > TOL && Math.min(a.b, b.b) - Math.max(a.t, b.t) > TOL;
+
+function problems(c: Check): string[] {
+  const out: string[] = [];
+  for (const b of c.boxes) {
+    if (b.l < -TOL || b.t < -TOL || b.r > c.canvas.w + TOL || b.b > c.canvas.h + TOL) out.push(`"${b.text}" leaves the canvas (${b.l.toFixed(1)}, ${b.t.toFixed(1)}, ${b.r.toFixed(1)}, ${b.b.toFixed(1)} in ${c.canvas.w} x ${c.canvas.h})`);
+    // 7-9 pt at 96 px per inch: 9.33-12 px; superscripts and subscripts are tspans and not counted here
+    if (!(b.fontPx >= 7 * 96 / 72 - 0.01 && b.fontPx <= 9 * 96 / 72 + 0.01)) out.push(`"${b.text}" is ${(b.fontPx * 72 / 96).toFixed(1)} pt`);
+  }
+  for (let i = 0; i < c.boxes.length; i++) {
+    for (let j = i + 1; j < c.boxes.length; j++) if (overlap(c.boxes[i], c.boxes[j])) out.push(`"${c.boxes[i].text}" overlaps "${c.boxes[j].text}"`);
+  }
+  if (!c.plot) out.push('no plot area found');
+  else if (c.plot.r - c.plot.l < 0.45 * c.canvas.w || c.plot.b - c.plot.t < 0.35 * c.canvas.h) {
+    out.push(`plot area ${(c.plot.r - c.plot.l).toFixed(0)} x ${(c.plot.b - c.plot.t).toFixed(0)} px is under 45% x 35% of the canvas`);
+  }
+  // a legend inside the plot area must not cover data: no marker, error bar or line point inside its box
+  const inside = (r: Rect, p: Rect) => p.r > r.l + TOL && p.l < r.r - TOL && p.b > r.t + TOL && p.t < r.b - TOL;
+  if (c.legend) { const n = c.marks.filter((m) => inside(c.legend!, m)).length; if (n) out.push(`the legend covers ${n} data marks`); }
+  // titles never sit on the plot area (tick labels are outside it by construction; legend entries are checked above)
+  if (c.plot) for (const b of c.boxes) if (/title/.test(b.cls) && !/cbtitle/.test(b.cls) && overlap(c.plot, b)) out.push(`"${b.text}" (${b.cls}) sits on the plot area`);
+  return out;
+}
+
+const SIZES = [
+  { name: 'single column', widthMm: 85, heightMm: 60 },
+  { name: 'one-and-a-half column', widthMm: 120, heightMm: 80 },
+  { name: 'double column', widthMm: 175, heightMm: 100 },
+];
+
+const browser = findBrowser();
+describe.skipIf(!browser)('print export at journal widths (headless Chromium)', () => {
+  let ex: FigureExporter;
+  let page: Page;
+  let figs: Figure[];
+  beforeAll(async () => {
+    figs = figures();
+    ex = await openExporter();
+    page = await ex.browser.newPage();
+  }, 60000);
+  afterAll(async () => { await ex?.close(); });
+
+  for (const size of SIZES) {
+    it(`every figure kind at ${size.name} (${size.widthMm} x ${size.heightMm} mm): no text overlaps or leaves the canvas, 7-9 pt`, async () => {
+      const bad: string[] = [];
+      for (const f of figs) {
+        const r = await ex.svg(f, { widthMm: size.widthMm, heightMm: size.heightMm });
+        const c = await measure(page, r.svg);
+        expect(c.canvas.w).toBeCloseTo(Math.round(size.widthMm * 96 / 25.4), 0);
+        expect(c.boxes.length).toBeGreaterThan(4); // ticks and titles were drawn
+        // FASCICLE_PRINT_DIR=folder keeps a PNG of each figure (CI artifacts, looking at them)
+        if (process.env.FASCICLE_PRINT_DIR) await ex.save(f, join(process.env.FASCICLE_PRINT_DIR, `${size.widthMm}mm-${figs.indexOf(f)}-${f.name}.png`), { widthMm: size.widthMm, heightMm: size.heightMm, dpi: 150 });
+        for (const p of problems(c)) bad.push(`${f.name} "${(f.spec.layout.title as { text: string }).text}": ${p}`);
+      }
+      expect(bad).toEqual([]);
+    }, 60000);
+  }
+
+  it('the checker itself finds an overlap and text off the canvas (a legend placed over the x-axis title, a long title)', async () => {
+    const f = figs[5];
+    const broken = new Figure('broken', { data: f.spec.data, layout: { ...f.spec.layout, title: { text: 'A title far too long to fit into a single column figure at nine points, surely' }, legend: { orientation: 'h', y: -0.2 }, margin: { l: 40, r: 10, t: 30, b: 40 } } });
+    // render without the layout fit, the way plotly would on its own
+    const svg: string = await ex.page.evaluate(async (spec) => {
+      document.body.innerHTML = '<div id="g"></div>';
+      const P = (window as unknown as { Plotly: any }).Plotly; // eslint-disable-line @typescript-eslint/no-explicit-any
+      const gd = await P.newPlot('g', spec.data, { ...spec.layout, width: 321, height: 227, font: { size: 10.667 } }, { staticPlot: true });
+      return decodeURIComponent((await P.toImage(gd, { format: 'svg', width: 321, height: 227 })).replace(/^data:image\/svg\+xml,/, ''));
+    }, JSON.parse(broken.specJson()));
+    const p = problems(await measure(page, svg));
+    expect(p.some((x) => /overlaps/.test(x))).toBe(true);
+    expect(p.some((x) => /leaves the canvas/.test(x))).toBe(true);
+  }, 30000);
+
+  it('labels reach plotly as text: a preparation named <a href=...> is no link in the legend or the hover text', async () => {
+    const evil = '<a href="https://example.invalid/x">N9</a> & <b>bold</b>';
+    const rows = [20, 40].map((d) => ({ class: evil, preparation: evil, detected: true, distance_mm: d, centroid_ms: d / 10 }));
+    const fig = velocityFigure(rows, 'centroid');
+    const result = await ex.page.evaluate(async (spec) => {
+      document.body.innerHTML = '<div id="h"></div>';
+      const P = (window as unknown as { Plotly: any }).Plotly; // eslint-disable-line @typescript-eslint/no-explicit-any
+      const gd = await P.newPlot('h', spec.data, { ...spec.layout, width: 500, height: 350 });
+      P.Fx.hover(gd, [{ curveNumber: 0, pointNumber: 0 }]);
+      await new Promise((r) => setTimeout(r, 50));
+      const hover = document.querySelector('.hoverlayer')!;
+      return {
+        links: document.querySelectorAll('#h svg a').length, bold: document.querySelectorAll('#h tspan[style*="bold"]').length,
+        legend: [...document.querySelectorAll('#h .legendtext')].map((e) => e.textContent), hover: hover.textContent,
+      };
+    }, JSON.parse(fig.specJson()));
+    expect(result.links).toBe(0);
+    expect(result.bold).toBe(0);
+    expect(result.legend[0]).toBe(`${evil} 10 m/s`); // slope 0.1 ms/mm -> 10 m/s
+    expect(result.hover).toContain(evil);
+  }, 30000);
+
+  it('saves SVG, PNG at the requested dpi and a titled PDF for several figures in one launch', async () => {
+    const dir = mkdtempSync(join(tmpdir(), 'fascicle-print-'));
+    const [a, b] = [figs[7], figs[9]];
+    await saveFigures([
+      { figure: a, path: join(dir, 'a.svg'), column: 'single' },
+      { figure: a, path: join(dir, 'a.png'), widthMm: 85, heightMm: 60, dpi: 600 },
+      { figure: b, path: join(dir, 'b.png'), column: 'double', heightMm: 100 },
+      { figure: b, path: join(dir, 'b.pdf'), widthMm: 120, heightMm: 80 },
+    ]);
+    const svg = readFileSync(join(dir, 'a.svg'), 'utf8');
+    expect(svg).toMatch(/^<svg[^>]*width="85mm" height="59.5mm"/); // default height 0.7 x 85 mm
+    expect(svg).toContain('<title>Dose-response</title>');
+    const png = readFileSync(join(dir, 'a.png'));
+    // 85 mm at 600 dpi = 85 / 25.4 * 600 = 2007.9 -> 2008 px; 60 mm -> 1417.3 -> 1417 px
+    expect(png.subarray(1, 4).toString()).toBe('PNG');
+    expect(png.readUInt32BE(16)).toBe(2008);
+    expect(png.readUInt32BE(20)).toBe(1417);
+    // pHYs: 600 dpi = 23622 pixels per metre (600 / 0.0254), unit 1 (metre); PNG spec (W3C 2003) section 11.3.5.3
+    const at = png.indexOf('pHYs');
+    expect(at).toBeGreaterThan(0);
+    expect(png.indexOf('pHYs', at + 4)).toBe(-1);
+    expect(png.readUInt32BE(at + 4)).toBe(23622);
+    expect(png[at + 12]).toBe(1);
+    const png2 = readFileSync(join(dir, 'b.png'));
+    // default 300 dpi: 175 mm -> 2066.9 -> 2067 px; 100 mm -> 1181.1 -> 1181 px
+    expect(png2.readUInt32BE(16)).toBe(2067);
+    expect(png2.readUInt32BE(20)).toBe(1181);
+    const pdf = readFileSync(join(dir, 'b.pdf'), 'latin1');
+    expect(pdf.startsWith('%PDF')).toBe(true);
+    // MediaBox in points: 120 mm = 340.2 pt, 80 mm = 226.8 pt
+    const mb = /MediaBox\s*\[\s*0 0 ([\d.]+) ([\d.]+)/.exec(pdf);
+    expect(Math.abs(Number(mb![1]) - 340.16)).toBeLessThan(1.5);
+    expect(Math.abs(Number(mb![2]) - 226.77)).toBeLessThan(1.5);
+    expect(pdf).not.toContain('about:blank');
+    expect(pdfTitle(pdf)).toBe('Arrhenius plot (velocity from centroid latency)');
+  }, 60000);
+
+  it('rejects unknown save options and names the replacement for scale', async () => {
+    const f = figs[0];
+    await expect(saveFigures([{ figure: f, path: 'x.png', scale: 3 } as never])).rejects.toThrow(/"scale": use dpi/);
+    await expect(saveFigures([{ figure: f, path: 'x.png', widthMM: 85 } as never])).rejects.toThrow(/unknown key "widthMM".*did you mean "widthMm"/);
+    await expect(saveFigures([{ figure: f, path: 'x.png', column: 'triple' } as never])).rejects.toThrow(/invalid column: "triple"/);
+    await expect(saveFigures([{ figure: f, path: 'x.gif' }])).rejects.toThrow(/must end in .svg, .png or .pdf/);
+  });
+});
+
+/** The document title of a PDF: a literal string or UTF-16BE hex (PDF 1.7, ISO 32000-1, 7.9.2.2). */
+function pdfTitle(pdf: string): string | null {
+  const lit = /\/Title\s*\(((?:\\.|[^\\)])*)\)/.exec(pdf);
+  if (lit) {
+    const s = lit[1].replace(/\\(.)/g, '$1');
+    if (s.startsWith('\u00fe\u00ff')) return Buffer.from(s.slice(2), 'latin1').swap16().toString('utf16le');
+    return s;
+  }
+  const hex = /\/Title\s*<([0-9A-Fa-f\s]+)>/.exec(pdf);
+  if (!hex) return null;
+  const buf = Buffer.from(hex[1].replace(/\s/g, ''), 'hex');
+  if (buf[0] === 0xfe && buf[1] === 0xff) return Buffer.from(buf.subarray(2)).swap16().toString('utf16le');
+  return buf.toString('latin1');
+}
+
+void SweepSet;
