@@ -174,6 +174,5 @@ export function temperatureAnalysis(rows: readonly Row[], options: { measure?: s
 export function velocityTemperature(velocityRows: readonly Row[], history: readonly Step[] = [], sources: readonly Source[] = [], estimator: { method: string; basis: string } = RECOMMENDED_VELOCITY): TemperatureResult {
   const rows = velocityRows.filter((r) => r.method === estimator.method && r.basis === estimator.basis)
     .map((r): Row => ({ ...r, velocity: r.velocity_m_s, detected: r.velocity_m_s !== null }));
-  const def = rows.find((r) => typeof r.definition === 'string')?.definition;
-  return temperatureAnalysis(rows, { measure: 'velocity', poolSites: true, label: `${estimator.method} ${estimator.basis} velocity${def ? ` (${def})` : ''}` }, history, sources);
+  return temperatureAnalysis(rows, { measure: 'velocity', poolSites: true, label: `${estimator.method} ${estimator.basis} velocity` }, history, sources);
 }

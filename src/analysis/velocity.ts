@@ -325,10 +325,11 @@ export function twoSiteVelocity(set: SweepSet, rows: readonly ComponentRow[], me
         const why = bad.size ? [...bad].map(([w, c]) => `${c} pair(s): ${w}`).join('; ') : null;
         if (!delays.length) {
           const none = both.length === 0 || excluded === 0;
+          const what = both.length === 0 ? `${cls} measured at both sites in none of ${pairs.length} pair(s) of sweeps`
+            : `${cls} measured at both sites in ${both.length} of ${pairs.length} pair(s) of sweeps, but its ${d ? `${d.definition} latency` : 'component'} in none of them`;
           out.push({
             ...base, velocity_m_s: null, ci95_low_m_s: null, ci95_high_m_s: null, delay_ms: null, n: 0, excluded_pairs: excluded,
-            status: none ? 'not detected' : 'implausible',
-            reason: none ? `${cls} measured at both sites in ${both.length} of ${pairs.length} pairs of sweeps` : `no usable pair: ${why}`,
+            status: none ? 'not detected' : 'implausible', reason: none ? what : `no usable pair: ${why}`,
           });
           continue;
         }
