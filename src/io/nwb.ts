@@ -342,8 +342,20 @@ function readOpen(path: string, f: H5File, o: NwbReadOptions, win: [number, numb
       },
       version: VERSION,
     }],
-    extras: { nwb: meta },
+    extras: { nwb: meta, ...(byFascicle ? studyOf(f) : {}) },
   });
+}
+
+/** The study settings fascicle stored with its own files (/processing/fascicle attribute fascicle_study). */
+function studyOf(f: H5File): { manifest?: unknown } {
+  const m = at(f, '/processing/fascicle');
+  const text = isGroup(m) ? attrText(m, 'fascicle_study') : undefined;
+  if (text === undefined) return {};
+  try {
+    return { manifest: JSON.parse(text) };
+  } catch {
+    return {};
+  }
 }
 
 const num = (v: ConditionValue | undefined) => (typeof v === 'number' ? v : undefined);

@@ -333,13 +333,15 @@ function writeContent(f: H5File, set: SweepSet, o: NwbWriteOptions, raw: boolean
     name: 'timeseries', description: 'the samples of each sweep', starts: idxStart, count: n, refs: Array.from(seriesOf, (s) => seriesRefs[s]),
   });
 
-  // history, inputs, results
+  // history, inputs, study settings, results
   const proc = raw ? (() => {
     const m = (f.get('processing') as H5Group).create_group('fascicle');
     typed(m, 'ProcessingModule');
     m.create_attribute('description', 'fascicle: processing history and results', null, S);
     return m;
   })() : home;
+  // the study's settings (class preset, analysis options, required conditions) travel with the data
+  if (manifest) proc.create_attribute('fascicle_study', JSON.stringify({ ...manifest, files: [] }), null, S);
   const hist = proc.create_group('history');
   writeTable(hist, 'DynamicTable', 'hdmf-common', 'the steps that made the sweeps, in order', set.history.length, [
     { name: 'verb', values: set.history.map((s) => s.verb), description: 'step' },

@@ -19,6 +19,8 @@ import { readNwb, readNwbSync, readNwbTables, nwbReady } from '../../src/io/nwb'
 import { writeNwb, writtenByFascicle } from '../../src/io/nwbWrite';
 import { SweepSet, type Conditions } from '../../src/sweeps/SweepSet';
 import { InputError, OptionError, OutputError } from '../../src/errors';
+import { readManifest } from '../../src/io/manifest';
+import { runPipeline } from '../../src/report/pipeline';
 
 process.env.FASCICLE_QUIET = '1';
 const FIX = join(__dirname, '..', 'fixtures', 'nwb');
@@ -276,6 +278,32 @@ describe('writeNwb(set, path, options) and reading back', () => {
     const err = await writeNwb(set, join(tmp, 'no-such-folder', 'x.nwb'), { raw: true }).catch((e) => e);
     expect(err).toBeInstanceOf(OutputError);
     expect(readdirSync(tmp).filter((f) => f.includes('.tmp-'))).toEqual([]);
+  });
+});
+
+describe('the demo study through an NWB copy', () => {
+  it('a preparation of data-demo written to NWB and read back gives the same component, velocity and recruitment tables', async () => {
+    const manifestPath = join(__dirname, '..', '..', 'data-demo', 'manifest.json');
+    const manifest = JSON.parse(readFileSync(manifestPath, 'utf8'));
+    const set = readManifest(manifestPath, { only: (f) => f.conditions?.preparation === 'R1' && /intensity|distance/.test(f.path) });
+    const p = join(tmp, 'demo-R1.nwb');
+    await writeNwb(set, p, { raw: true });
+    const copy = await readNwb(p);
+    expect(copy.extras.manifest).toMatchObject({ classPreset: manifest.classPreset, analysis: manifest.analysis });
+    const a = runPipeline(set, manifest.analysis);
+    const b = runPipeline(copy, manifest.analysis);
+    const strip = (rows: readonly object[]) => rows.map((r) => {
+      const { file, fileSweep, sourceFile, sourceSweep, ...rest } = r as Record<string, unknown>;
+      return rest;
+    });
+    const ta = a.components.tables(), tb = b.components.tables();
+    expect(Object.keys(tb)).toEqual(Object.keys(ta));
+    expect(Object.values(ta).reduce((n, rows) => n + rows.length, 0)).toBeGreaterThan(10);
+    expect(a.velocity!.rows.length).toBeGreaterThan(0);
+    expect(Array.from(copy.data)).toEqual(Array.from(set.data));
+    for (const k of Object.keys(ta)) expect(strip(tb[k]), k).toEqual(strip(ta[k]));
+    expect(a.velocity && strip(b.velocity!.rows)).toEqual(a.velocity && strip(a.velocity.rows));
+    expect(b.recruitment?.tables()).toEqual(a.recruitment?.tables());
   });
 });
 
