@@ -16,7 +16,7 @@ import { existsSync, mkdtempSync, readFileSync, rmSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { runPipeline, type StudyResult } from '../../src';
-import { check, clean, cleanCentroidMs, cleanXcorrDelayMs, loadStudy, manifestPath, CLASSES, FIX, printChecks, q10Of, TEMPS, truth, windowOf, type Check } from './devset';
+import { check, clean, cleanCentroidMs, cleanXcorrDelayMs, crossings, loadStudy, manifestPath, CLASSES, FIX, printChecks, q10Of, TEMPS, truth, windowOf, type Check } from './devset';
 
 type Row = Record<string, unknown>;
 interface Tables { velocity: Row[]; temperature: Row[]; dose: Row[]; recruitment: Row[]; flags: Row[] }
@@ -147,6 +147,24 @@ for (const r of cliRuns) console.log(`fascicle run (${r.w}): exit ${r.status}${r
  */
 const NOT_YET = new Set<string>([]);
 const id = (c: Check) => `${c.quantity} | ${c.class} | ${c.where} | ${c.estimator.replace(' (recommended)', '')}`;
+
+describe('development-set harness: its clean-waveform latency code reproduces ground_truth.json', () => {
+  // the harness computes centroid and cross-correlation truths from the clean waveforms; the same
+  // code must give the JSON's own onset (10% of peak) and peak latencies, within one sample
+  it('onset at 10% of peak and peak latency of every clean component, within one sample interval', () => {
+    for (const cls of CLASSES) {
+      const c = clean(windowOf(cls));
+      const dt = 1000 / c.meta.fs;
+      for (const T of TEMPS) for (const mm of [15, 25]) {
+        const x = c.get(T, mm, cls);
+        const k = crossings(x, 0.1);
+        const t = truth.velocity[String(T)][cls][`${mm}mm`];
+        expect(Math.abs(c.meta.t0Ms + k.rise * dt - t.onset10_latency_ms), `${cls} ${T} C ${mm} mm onset`).toBeLessThan(dt);
+        expect(Math.abs(c.meta.t0Ms + k.peak * dt - t.peak_latency_ms), `${cls} ${T} C ${mm} mm peak`).toBeLessThanOrEqual(dt);
+      }
+    }
+  });
+});
 
 describe('development set FNPG-N07: no class, group or preparation lost to another\'s bad estimate', () => {
   it('every class measured in the temperature series has velocities at every temperature, beside any rejected row', () => {
