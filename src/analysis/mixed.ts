@@ -59,8 +59,10 @@ export interface RandomInterceptFit {
 interface Block { n: number; xtx: number[][]; s: number[]; xty: number[]; t: number; yty: number }
 
 const zeros = (p: number, q: number) => Array.from({ length: p }, () => new Array<number>(q).fill(0));
-const matmul = (A: number[][], B: number[][]) => A.map((r) => B[0].map((_, j) => r.reduce((acc, v, k) => acc + v * B[k][j], 0)));
-const quad = (a: number[], M: number[][], b: number[]) => a.reduce((acc, ai, i) => acc + ai * M[i].reduce((s, m, j) => s + m * b[j], 0), 0);
+const matmul = (A: number[][], B: number[][]) =>
+  A.map((r) => B[0].map((_, j) => r.reduce((acc, v, k) => acc + v * B[k][j], 0)));
+const quad = (a: number[], M: number[][], b: number[]) =>
+  a.reduce((acc, ai, i) => acc + ai * M[i].reduce((s, m, j) => s + m * b[j], 0), 0);
 const trace = (A: number[][]) => A.reduce((s, r, i) => s + r[i], 0);
 
 function blocks(y: readonly number[], X: readonly (readonly number[])[], animal: readonly string[]): Block[] {
@@ -68,7 +70,10 @@ function blocks(y: readonly number[], X: readonly (readonly number[])[], animal:
   const map = new Map<string, Block>();
   y.forEach((yi, i) => {
     let b = map.get(animal[i]);
-    if (!b) map.set(animal[i], (b = { n: 0, xtx: zeros(p, p), s: new Array(p).fill(0), xty: new Array(p).fill(0), t: 0, yty: 0 }));
+    if (!b) {
+      b = { n: 0, xtx: zeros(p, p), s: new Array(p).fill(0), xty: new Array(p).fill(0), t: 0, yty: 0 };
+      map.set(animal[i], b);
+    }
     const x = X[i];
     b.n++;
     b.t += yi;
@@ -83,7 +88,11 @@ function blocks(y: readonly number[], X: readonly (readonly number[])[], animal:
 }
 
 /** X' Q X and X' Q y for block matrices Q = a I + b J (given per block). */
-function weighted(bs: Block[], ab: (b: Block) => [number, number], p: number): { xqx: number[][]; xqy: number[]; yqy: number } {
+function weighted(
+  bs: Block[],
+  ab: (b: Block) => [number, number],
+  p: number,
+): { xqx: number[][]; xqy: number[]; yqy: number } {
   const xqx = zeros(p, p), xqy = new Array(p).fill(0);
   let yqy = 0;
   for (const b of bs) {
@@ -108,7 +117,11 @@ function logdet(A: number[][]): number | null {
  * included by the caller). O(iterations x animals x p^2).
  * @throws AnalysisError when X is rank-deficient or there are no more observations than columns.
  */
-export function fitRandomIntercept(y: readonly number[], X: readonly (readonly number[])[], animal: readonly string[]): RandomInterceptFit {
+export function fitRandomIntercept(
+  y: readonly number[],
+  X: readonly (readonly number[])[],
+  animal: readonly string[],
+): RandomInterceptFit {
   const N = y.length, p = X[0]?.length ?? 0;
   if (!(N > p)) throw new AnalysisError(`mixed model needs more observations (${N}) than fixed-effect columns (${p})`);
   const bs = blocks(y, X, animal);
@@ -120,7 +133,8 @@ export function fitRandomIntercept(y: readonly number[], X: readonly (readonly n
     const beta = inv.map((r) => r.reduce((s, v, j) => s + v * w.xqy[j], 0));
     const q = w.yqy - beta.reduce((s, b, j) => s + b * w.xqy[j], 0);
     const se = q / (N - p);
-    const dev = (N - p) * Math.log(se) + bs.reduce((s, b) => s + Math.log(1 + b.n * theta), 0) + ld + (N - p) * (1 + Math.log(2 * Math.PI));
+    const logH = bs.reduce((s, b) => s + Math.log(1 + b.n * theta), 0);
+    const dev = (N - p) * Math.log(se) + logH + ld + (N - p) * (1 + Math.log(2 * Math.PI));
     // exact derivative in theta: dH_i^-1/dtheta = -J / (1 + n_i theta)^2; dq/dtheta = r' (dH^-1/dtheta) r (envelope)
     let dq = 0, dl = 0;
     const K = zeros(p, p);
@@ -135,8 +149,13 @@ export function fitRandomIntercept(y: readonly number[], X: readonly (readonly n
     return { dev, beta, se, inv, slope };
   };
   const at0 = prof(0);
-  if (!at0) throw new AnalysisError('mixed model design is rank-deficient (a level or combination without observations, or a factor that does not vary)');
-  if (!(at0.se > 0)) throw new AnalysisError('mixed model: the fixed effects fit the data exactly (no residual variation)');
+  if (!at0) {
+    throw new AnalysisError('mixed model design is rank-deficient (a level or combination without observations, '
+      + 'or a factor that does not vary)');
+  }
+  if (!(at0.se > 0)) {
+    throw new AnalysisError('mixed model: the fixed effects fit the data exactly (no residual variation)');
+  }
   const th = (rho: number) => rho / (1 - rho);
   const f = (rho: number) => { const r = prof(th(rho)); return r ? r.dev : Infinity; };
   const d = (rho: number) => { const r = prof(th(rho)); return r ? r.slope : NaN; };
@@ -163,20 +182,27 @@ export function fitRandomIntercept(y: readonly number[], X: readonly (readonly n
   const se = best.se, su = theta * se;
   const M = best.inv.map((r) => r.map((v) => v * se));
   // block algebra in span{I, J}: (a, b) = a I + b J; product for block size n
-  const mul = (P: [number, number], Q: [number, number], n: number): [number, number] => [P[0] * Q[0], P[0] * Q[1] + P[1] * Q[0] + n * P[1] * Q[1]];
+  type IJ = [number, number];
+  const mul = (P: IJ, Q: IJ, n: number): IJ => [P[0] * Q[0], P[0] * Q[1] + P[1] * Q[0] + n * P[1] * Q[1]];
   const Vk: [number, number][] = [[0, 1], [1, 0]];
   const Wb = (b: Block): [number, number] => [1 / se, -theta / (1 + b.n * theta) / se];
   const F = Vk.map((V) => weighted(bs, (b) => mul(mul(Wb(b), V, b.n), Wb(b), b.n), p).xqx);
   const info = zeros(2, 2);
   for (let k = 0; k < 2; k++) for (let l = 0; l < 2; l++) {
     let trWW = 0;
-    for (const b of bs) { const Q = mul(mul(mul(Wb(b), Vk[k], b.n), Wb(b), b.n), Vk[l], b.n); trWW += b.n * (Q[0] + Q[1]); }
+    for (const b of bs) {
+      const Q = mul(mul(mul(Wb(b), Vk[k], b.n), Wb(b), b.n), Vk[l], b.n);
+      trWW += b.n * (Q[0] + Q[1]);
+    }
     const G = weighted(bs, (b) => mul(mul(mul(mul(Wb(b), Vk[k], b.n), Wb(b), b.n), Vk[l], b.n), Wb(b), b.n), p).xqx;
     info[k][l] = 0.5 * (trWW - 2 * trace(matmul(M, G)) + trace(matmul(matmul(M, F[k]), matmul(M, F[l]))));
   }
   const A = invertSpd(info) ?? [[NaN, NaN], [NaN, NaN]];
   const dCov = F.map((Fk) => matmul(matmul(M, Fk), M)) as [number[][], number[][]];
-  return { beta: best.beta, covariance: M, sigmaU2: su, sigmaE2: se, remlDeviance: best.dev, varianceCovariance: A, boundary: rho === 0, nObs: N, nAnimals: bs.length, dCov };
+  return {
+    beta: best.beta, covariance: M, sigmaU2: su, sigmaE2: se, remlDeviance: best.dev, varianceCovariance: A,
+    boundary: rho === 0, nObs: N, nAnimals: bs.length, dCov,
+  };
 }
 
 /** Satterthwaite df of the contrast l' beta. */
@@ -220,7 +246,10 @@ function jacobiEigen(S: number[][]): { values: number[]; vectors: number[][] } {
 }
 
 /** F test of L beta = 0 (L: q rows) with Fai-Cornelius / Satterthwaite denominator df. */
-export function contrastF(fit: RandomInterceptFit, L: readonly (readonly number[])[]): { F: number; numDf: number; denDf: number; p: number } {
+export function contrastF(
+  fit: RandomInterceptFit,
+  L: readonly (readonly number[])[],
+): { F: number; numDf: number; denDf: number; p: number } {
   const q = L.length;
   const LML = L.map((a) => L.map((b) => quad(a as number[], fit.covariance, b as number[])));
   const Lb = L.map((a) => a.reduce((s, v, j) => s + v * fit.beta[j], 0));
@@ -236,7 +265,9 @@ export function contrastF(fit: RandomInterceptFit, L: readonly (readonly number[
   });
   F /= q;
   let denDf: number;
-  if (q === 1 || nu.every((v) => Math.abs(v - nu[0]) < 1e-8 * Math.abs(nu[0]))) denDf = nu.reduce((a, b) => a + b, 0) / nu.length;
+  if (q === 1 || nu.every((v) => Math.abs(v - nu[0]) < 1e-8 * Math.abs(nu[0]))) {
+    denDf = nu.reduce((a, b) => a + b, 0) / nu.length;
+  }
   else if (nu.some((v) => v <= 2)) denDf = 2;
   else { const E = nu.reduce((s, v) => s + v / (v - 2), 0); denDf = E > q ? (2 * E) / (E - q) : 2; }
   return { F, numDf: q, denDf, p: fSurvival(F, q, denDf) };
@@ -263,7 +294,13 @@ export const mixedDefaults = { randomKeys: ['animal', 'preparation'], by: ['clas
 interface Term { name: string; factors: string[]; cols: number[] }
 
 /** Design matrix for factors with treatment or sum-to-zero coding. */
-function design(rows: Row[], factors: string[], levels: Record<string, ConditionValue[]>, interaction: boolean, coding: 'treatment' | 'sum'): { X: number[][]; names: string[]; terms: Term[] } {
+function design(
+  rows: Row[],
+  factors: string[],
+  levels: Record<string, ConditionValue[]>,
+  interaction: boolean,
+  coding: 'treatment' | 'sum',
+): { X: number[][]; names: string[]; terms: Term[] } {
   const names = ['(Intercept)'];
   const terms: Term[] = [];
   const codes: number[][][] = factors.map((fct) => {
@@ -292,7 +329,9 @@ function design(rows: Row[], factors: string[], levels: Record<string, Condition
     for (let i = 0; i < levels[a].length - 1; i++) for (let j = 0; j < levels[b].length - 1; j++) {
       idx.push(cols.length);
       cols.push(rows.map((_, r) => codes[0][r][i] * codes[1][r][j]));
-      names.push(coding === 'treatment' ? `${a}: ${levels[a][i + 1]} x ${b}: ${levels[b][j + 1]}` : `${a}[${levels[a][i]}] x ${b}[${levels[b][j]}]`);
+      names.push(coding === 'treatment'
+        ? `${a}: ${levels[a][i + 1]} x ${b}: ${levels[b][j + 1]}`
+        : `${a}[${levels[a][i]}] x ${b}[${levels[b][j]}]`);
     }
     terms.push({ name: `${a} x ${b}`, factors: [a, b], cols: idx });
   }
@@ -300,6 +339,7 @@ function design(rows: Row[], factors: string[], levels: Record<string, Condition
   return { X, names, terms };
 }
 
+/** Mixed-model results per cell of `by`: coefficients, Type III F tests and variance components. */
 export class MixedModelResult extends Result {
   constructor(
     readonly coefficients: Row[],
@@ -316,14 +356,23 @@ export class MixedModelResult extends Result {
   frame(): import('danfojs-node').DataFrame {
     return toFrame(this.coefficients as Record<string, unknown>[]);
   }
+  /** The model as a formula: value ~ a + b + (1 | animal), with * for an interaction. */
+  formula(): string {
+    const o = this.options;
+    return `${o.value} ~ ${o.fixed.join(o.interaction ? ' * ' : ' + ')} + (1 | ${o.random})`;
+  }
   toHTML(): string {
-    const cap = `Mixed model of ${this.options.value}: ${this.options.fixed.join(this.options.interaction ? ' x ' : ' + ')} + (1 | ${this.options.random}), REML, Satterthwaite df`;
-    return tableHtml(this.anova, { caption: cap + ' (Type III F tests)' }) + tableHtml(this.coefficients, { caption: 'Coefficients (treatment coding, first level as reference)' }) + tableHtml(this.variance, { caption: 'Variance components' });
+    const cap = `Mixed model ${this.formula()}, REML, Satterthwaite df`;
+    return tableHtml(this.anova, { caption: cap + ' (Type III F tests)' })
+      + tableHtml(this.coefficients, { caption: 'Coefficients (treatment coding, first level as reference)' })
+      + tableHtml(this.variance, { caption: 'Variance components' });
   }
   toString(): string {
-    return `MixedModelResult: ${this.options.value} ~ ${this.options.fixed.join(this.options.interaction ? ' * ' : ' + ')} + (1 | ${this.options.random})\n`
-      + tableText(this.anova, { columns: [...this.options.by, 'term', 'F', 'num_df', 'den_df', 'p', 'status'] }) + '\n'
-      + tableText(this.variance, { columns: [...this.options.by, 'animal_variance', 'residual_variance', 'icc', 'n_obs', 'n_animals', 'status'] });
+    const by = this.options.by;
+    const vc = [...by, 'animal_variance', 'residual_variance', 'icc', 'n_obs', 'n_animals', 'status'];
+    return `MixedModelResult: ${this.formula()}\n`
+      + tableText(this.anova, { columns: [...by, 'term', 'F', 'num_df', 'den_df', 'p', 'status'] }) + '\n'
+      + tableText(this.variance, { columns: vc });
   }
 }
 
@@ -332,9 +381,14 @@ export class MixedModelResult extends Result {
  * Type III F tests with Satterthwaite df. Rows whose value is not a finite number, or that lack a
  * factor or the random grouping, are counted in the variance table (n_excluded), not used.
  * A cell that cannot be fitted is a row with status 'not computed' and the reason.
- * @example mixedModel(componentRows, { value: 'amplitude_uV', fixed: ['group', 'epoch'], interaction: true, random: 'preparation' })
+ * @example mixedModel(rows, { value: 'amplitude_uV', fixed: ['group', 'epoch'], interaction: true })
  */
-export function mixedModel(input: RowInput, options: MixedOptions, history?: readonly Step[], sources?: readonly Source[]): MixedModelResult {
+export function mixedModel(
+  input: RowInput,
+  options: MixedOptions,
+  history?: readonly Step[],
+  sources?: readonly Source[],
+): MixedModelResult {
   const rows = rowsOf(input);
   const src = input as { history?: readonly Step[]; sources?: readonly Source[] };
   history = history ?? (Array.isArray(src.history) ? src.history : []);
@@ -343,34 +397,55 @@ export function mixedModel(input: RowInput, options: MixedOptions, history?: rea
   if (rows.length === 0) throw new AnalysisError('mixed model needs at least one row');
   const cols = [...new Set(rows.flatMap((r) => Object.keys(r)))];
   const need = (name: string, c: unknown) => {
-    if (typeof c !== 'string' || !cols.includes(c)) throw new OptionError(`invalid ${name}: ${shown(c)} is not a column of the rows${typeof c === 'string' ? didYouMean(c, cols) : ''}; columns are ${cols.join(', ')}`);
+    if (typeof c !== 'string' || !cols.includes(c)) {
+      const hint = typeof c === 'string' ? didYouMean(c, cols) : '';
+      throw new OptionError(`invalid ${name}: ${shown(c)} is not a column of the rows${hint}; `
+        + `columns are ${cols.join(', ')}`);
+    }
     return c;
   };
   const value = need('value', options.value);
-  if (!Array.isArray(options.fixed) || options.fixed.length === 0) throw new OptionError(`invalid fixed: ${shown(options.fixed)}; must be a list of one or more factor columns`);
+  if (!Array.isArray(options.fixed) || options.fixed.length === 0) {
+    throw new OptionError(`invalid fixed: ${shown(options.fixed)}; must be a list of one or more factor columns`);
+  }
   const fixed = options.fixed.map((f) => need('fixed', f));
   const random = need('random', options.random ?? mixedDefaults.randomKeys.find((k) => cols.includes(k)) ?? 'animal');
   const by = (options.by ?? mixedDefaults.by.filter((k) => cols.includes(k))).map((k) => need('by', k));
   const interaction = options.interaction ?? mixedDefaults.interaction;
-  if (interaction && fixed.length !== 2) throw new OptionError(`invalid interaction: true needs exactly two fixed factors (got ${fixed.length})`);
+  if (interaction && fixed.length !== 2) {
+    throw new OptionError(`invalid interaction: true needs exactly two fixed factors (got ${fixed.length})`);
+  }
   const coefficients: Row[] = [], anova: Row[] = [], variance: Row[] = [];
   const fits = new Map<string, RandomInterceptFit>();
   const cells = new Map<string, Row[]>();
-  for (const r of rows) { const id = JSON.stringify(by.map((k) => r[k] ?? null)); (cells.get(id) ?? cells.set(id, []).get(id)!).push(r); }
+  for (const r of rows) {
+    const id = JSON.stringify(by.map((k) => r[k] ?? null));
+    (cells.get(id) ?? cells.set(id, []).get(id)!).push(r);
+  }
+  const present = (v: ConditionValue | undefined) => v !== null && v !== undefined;
   for (const [id, all] of cells) {
     const key: Row = {};
     by.forEach((k, i) => (key[k] = JSON.parse(id)[i]));
-    const use = all.filter((r) => typeof r[value] === 'number' && Number.isFinite(r[value] as number) && r[random] !== null && r[random] !== undefined && fixed.every((f) => r[f] !== null && r[f] !== undefined));
+    const use = all.filter((r) => typeof r[value] === 'number' && Number.isFinite(r[value] as number)
+      && present(r[random]) && fixed.every((f) => present(r[f])));
     const excluded = all.length - use.length;
     const levels: Record<string, ConditionValue[]> = {};
     for (const f of fixed) {
       const seen = [...new Set(use.map((r) => r[f]))];
       const given = options.levels?.[f];
-      if (given) for (const v of seen) if (!given.includes(v)) throw new OptionError(`invalid levels.${f}: ${shown(given)} lacks the level ${shown(v)} found in the rows`);
+      for (const v of given ? seen : []) {
+        if (!given!.includes(v)) {
+          throw new OptionError(`invalid levels.${f}: ${shown(given)} lacks the level ${shown(v)} found in the rows`);
+        }
+      }
       levels[f] = given ? given.filter((v) => seen.includes(v)) : seen;
     }
     const animals = new Set(use.map((r) => String(r[random])));
-    const fail = (reason: string) => variance.push({ ...key, animal_variance: null, residual_variance: null, icc: null, n_obs: use.length, n_animals: animals.size, n_excluded: excluded, reml_deviance: null, boundary: null, status: 'not computed', reason });
+    const counts = { n_obs: use.length, n_animals: animals.size, n_excluded: excluded };
+    const fail = (reason: string) => variance.push({
+      ...key, animal_variance: null, residual_variance: null, icc: null, ...counts, reml_deviance: null,
+      boundary: null, status: 'not computed', reason,
+    });
     const small = fixed.find((f) => levels[f].length < 2);
     if (small) { fail(`factor ${small} has ${levels[small].length} level in these rows; needs 2 or more`); continue; }
     if (animals.size < 2) { fail(`needs at least 2 animals (got ${animals.size})`); continue; }
@@ -383,25 +458,40 @@ export function mixedModel(input: RowInput, options: MixedOptions, history?: rea
         const l = tr.names.map((_, k) => (k === j ? 1 : 0));
         const se = Math.sqrt(fit.covariance[j][j]);
         const df = satterthwaiteDf(fit, l);
-        const t = fit.beta[j] / se, q = tQuantile(0.975, df);
-        coefficients.push({ ...key, term: name, estimate: fit.beta[j], se, df, t, p: tTwoSided(t, df), ci95_low: fit.beta[j] - q * se, ci95_high: fit.beta[j] + q * se, status: 'ok', reason: null });
+        const b = fit.beta[j], t = b / se, q = tQuantile(0.975, df);
+        coefficients.push({
+          ...key, term: name, estimate: b, se, df, t, p: tTwoSided(t, df), ci95_low: b - q * se, ci95_high: b + q * se,
+          status: 'ok', reason: null,
+        });
       });
       const sum = design(use, fixed, levels, interaction, 'sum');
       const fs = fitRandomIntercept(y, sum.X, g);
       for (const term of sum.terms) {
         const L = term.cols.map((c) => sum.names.map((_, k) => (k === c ? 1 : 0)));
         const r = contrastF(fs, L);
-        anova.push({ ...key, term: term.name, F: r.F, num_df: r.numDf, den_df: r.denDf, p: r.p, status: 'ok', reason: null });
+        const row = { term: term.name, F: r.F, num_df: r.numDf, den_df: r.denDf, p: r.p, status: 'ok', reason: null };
+        anova.push({ ...key, ...row });
       }
       const tot = fit.sigmaU2 + fit.sigmaE2;
-      variance.push({ ...key, animal_variance: fit.sigmaU2, residual_variance: fit.sigmaE2, icc: tot > 0 ? fit.sigmaU2 / tot : null, n_obs: fit.nObs, n_animals: fit.nAnimals, n_excluded: excluded, reml_deviance: fit.remlDeviance, boundary: fit.boundary, status: 'ok', reason: fit.boundary ? 'animal variance estimated at 0 (boundary): tests as for independent observations' : null });
+      variance.push({
+        ...key, animal_variance: fit.sigmaU2, residual_variance: fit.sigmaE2, icc: tot > 0 ? fit.sigmaU2 / tot : null,
+        ...counts, reml_deviance: fit.remlDeviance, boundary: fit.boundary, status: 'ok',
+        reason: fit.boundary ? 'animal variance estimated at 0 (on the boundary of the parameter space)' : null,
+      });
     } catch (e) {
       if (!(e instanceof AnalysisError)) throw e;
       fail(e.message);
     }
   }
   const o = { value, fixed, random, interaction, by, levels: options.levels };
-  const step: Step = { verb: 'mixedModel', options: { value, fixed, random, interaction, by, estimation: 'REML', df: 'Satterthwaite (expected information; Fai-Cornelius for multi-df terms)', tests: 'Type III (sum-to-zero coding)' }, version: VERSION };
+  const step: Step = {
+    verb: 'mixedModel',
+    options: {
+      value, fixed, random, interaction, by, estimation: 'REML', tests: 'Type III (sum-to-zero coding)',
+      df: 'Satterthwaite (expected information; Fai-Cornelius for multi-df terms)',
+    },
+    version: VERSION,
+  };
   return new MixedModelResult(coefficients, anova, variance, o, fits, [...history, step], sources);
 }
 
@@ -410,5 +500,11 @@ export function mixedMethods(result: MixedModelResult): string {
   const o = result.options;
   const fx = o.fixed.join(o.interaction ? ' and their interaction' : ', ').replace(/,([^,]*)$/, ' and$1');
   const ok = result.variance.filter((v) => v.status === 'ok').length;
-  return `${o.value.replace(/_/g, ' ')} was analysed with a linear mixed-effects model with ${fx} as fixed effects and a random intercept per ${o.random} (observations of one ${o.random} are not independent; Lazic 2010; Aarts et al. 2014), fitted by restricted maximum likelihood (Patterson & Thompson 1971)${o.by.length ? ` separately for each ${o.by.join(' and ')} (${ok} of ${result.variance.length} fitted)` : ''}; fixed effects were tested with Type III F tests and t tests using Satterthwaite's approximation to the denominator degrees of freedom (Satterthwaite 1946; Fai & Cornelius 1996 for terms with several degrees of freedom).`;
+  const n = result.variance.length;
+  const each = o.by.length ? ` separately for each ${o.by.join(' and ')} (${ok} of ${n} fitted)` : '';
+  return `${o.value.replace(/_/g, ' ')} was analysed with a linear mixed-effects model with ${fx} as fixed effects `
+    + `and a random intercept per ${o.random} (observations of one ${o.random} are not independent; Lazic 2010; `
+    + `Aarts et al. 2014), fitted by restricted maximum likelihood (Patterson & Thompson 1971)${each}; fixed `
+    + 'effects were tested with Type III F tests and t tests using Satterthwaite\'s approximation to the denominator '
+    + 'degrees of freedom (Satterthwaite 1946; Fai & Cornelius 1996 for terms with several degrees of freedom).';
 }

@@ -12,6 +12,7 @@ import { OptionError } from '../errors';
 
 const colour = (i: number) => PALETTE[i % PALETTE.length];
 const same = (a: unknown, b: unknown) => JSON.stringify(a) === JSON.stringify(b);
+const UNIT_SUFFIX = /_(uV_ms|mV_ms|V_s|m_s|uV|mV|V|ms|mm|mA|uA|uM|nM|mM|Hz)$/;
 
 /** A deterministic jitter in [-1, 1] from a label (so a figure is the same on every run). */
 function jitter(label: string): number {
@@ -20,17 +21,26 @@ function jitter(label: string): number {
   return ((h >>> 0) / 4294967295) * 2 - 1;
 }
 
+export interface GroupFigureOptions {
+  /** values of the comparison's `by` columns to show (default: the first cell) */
+  cell?: Record<string, ConditionValue>;
+  /** y-axis label without unit (default: from the value column) */
+  label?: string;
+  title?: string;
+}
+
 /**
  * The figure of one cell of the comparison's `by` columns (default: the first cell).
- * @example groupFigure(compareGroups(rows, { value: 'amplitude_uV', condition: 'epoch' }), { cell: { class: 'A-beta' } })
+ * @example groupFigure(compareGroups(rows, { value: 'amplitude_uV', condition: 'epoch' }), { cell: { class: 'A' } })
  */
-export function groupFigure(result: GroupComparison, options: { cell?: Record<string, ConditionValue>; label?: string; title?: string } = {}): Figure {
+export function groupFigure(result: GroupComparison, options: GroupFigureOptions = {}): Figure {
   const o = result.options;
   const cells = result.summary.map((s) => Object.fromEntries(o.by.map((k) => [k, s[k]])));
   if (!cells.length) throw new OptionError('groupFigure: the comparison has no summary rows');
   const cell = options.cell ?? cells[0];
   if (!cells.some((c) => o.by.every((k) => same(c[k], cell[k])))) {
-    throw new OptionError(`groupFigure: no cell ${JSON.stringify(cell)}; cells are ${[...new Set(cells.map((c) => JSON.stringify(c)))].join(', ')}`);
+    const all = [...new Set(cells.map((c) => JSON.stringify(c)))].join(', ');
+    throw new OptionError(`groupFigure: no cell ${JSON.stringify(cell)}; cells are ${all}`);
   }
   const inCell = (r: Record<string, unknown>) => o.by.every((k) => same(r[k], cell[k]));
   const pts = result.points.filter((p) => inCell(p.key));
@@ -39,7 +49,8 @@ export function groupFigure(result: GroupComparison, options: { cell?: Record<st
   const conds = [...new Set(pts.map((p) => JSON.stringify(p.condition)))].map((c) => JSON.parse(c) as ConditionValue);
   const G = groups.length;
   const width = 0.7 / Math.max(1, G);
-  const xOf = (c: ConditionValue, g: ConditionValue) => conds.findIndex((q) => same(q, c)) + (groups.findIndex((q) => same(q, g)) - (G - 1) / 2) * width;
+  const xOf = (c: ConditionValue, g: ConditionValue) =>
+    conds.findIndex((q) => same(q, c)) + (groups.findIndex((q) => same(q, g)) - (G - 1) / 2) * width;
   const data: Record<string, unknown>[] = [];
   groups.forEach((g, gi) => {
     const mine = pts.filter((p) => same(p.group, g));
@@ -47,7 +58,12 @@ export function groupFigure(result: GroupComparison, options: { cell?: Record<st
     if (o.condition && conds.length > 1) {
       for (const a of [...new Set(mine.map((p) => String(p.animal)))]) {
         const line = conds.map((c) => mine.find((p) => String(p.animal) === a && same(p.condition, c)));
-        data.push({ type: 'scatter', mode: 'lines', x: line.map((p, k) => (p ? xOf(conds[k], g) + 0.25 * width * jitter(a) : null)), y: line.map((p) => (p ? p.value : null)), line: { color: colour(gi), width: 0.8 }, opacity: 0.35, showlegend: false, hoverinfo: 'skip', name: `${name} ${escapeHtml(a)}` });
+        data.push({
+          type: 'scatter', mode: 'lines', name: `${name} ${escapeHtml(a)}`,
+          x: line.map((p, k) => (p ? xOf(conds[k], g) + 0.25 * width * jitter(a) : null)),
+          y: line.map((p) => (p ? p.value : null)),
+          line: { color: colour(gi), width: 0.8 }, opacity: 0.35, showlegend: false, hoverinfo: 'skip',
+        });
       }
     }
     data.push({
@@ -57,21 +73,30 @@ export function groupFigure(result: GroupComparison, options: { cell?: Record<st
       marker: { color: colour(gi), size: 7, opacity: 0.75 },
     });
     const s = conds.map((c) => sum.find((q) => same(q.group, g) && (!o.condition || same(q.condition, c))));
-    const ok = s.filter((q) => q && q.status === 'ok');
+    const ok = s.filter((q) => q && q.status === 'ok').map((q) => q!);
     data.push({
       type: 'scatter', mode: 'markers', name: `${name} mean, 95% CI`,
-      x: ok.map((q) => xOf(o.condition ? (q!.condition as ConditionValue) : null, g)), y: ok.map((q) => q!.mean),
-      error_y: { type: 'data', symmetric: false, array: ok.map((q) => (q!.ci95_high as number) - (q!.mean as number)), arrayminus: ok.map((q) => (q!.mean as number) - (q!.ci95_low as number)), color: '#222', thickness: 1.5, width: 6 },
+      x: ok.map((q) => xOf(o.condition ? (q.condition as ConditionValue) : null, g)), y: ok.map((q) => q.mean),
+      error_y: {
+        type: 'data', symmetric: false, color: '#222', thickness: 1.5, width: 6,
+        array: ok.map((q) => (q.ci95_high as number) - (q.mean as number)),
+        arrayminus: ok.map((q) => (q.mean as number) - (q.ci95_low as number)),
+      },
       marker: { symbol: 'line-ew-open', size: 22, color: '#222', line: { width: 2 } },
     });
   });
   const unit = o.unit ? ` (${escapeHtml(o.unit)})` : '';
-  const label = escapeHtml(options.label ?? o.value.replace(/_(uV_ms|mV_ms|V_s|m_s|uV|mV|V|ms|mm|mA|uA|uM|nM|mM|Hz)$/, '').replace(/_/g, ' '));
+  const label = escapeHtml(options.label ?? o.value.replace(UNIT_SUFFIX, '').replace(/_/g, ' '));
   const where = o.by.map((k) => `${escapeHtml(k)} ${escapeHtml(String(cell[k]))}`).join(', ');
-  const title = options.title !== undefined ? escapeHtml(options.title) : `${label} by group${where ? ` (${where})` : ''}: animals as the unit`;
+  const title = options.title !== undefined
+    ? escapeHtml(options.title)
+    : `${label} by group${where ? ` (${where})` : ''}: animals as the unit`;
   const xTitle = o.condition ? escapeHtml(o.condition) : escapeHtml(o.group || 'group');
   const base = baseLayout(title, xTitle, `${label}${unit}`);
-  const xaxis = { ...(base.xaxis as object), tickmode: 'array', tickvals: conds.map((_, i) => i), ticktext: o.condition ? conds.map((c) => escapeHtml(String(c))) : [''], range: [-0.6, conds.length - 0.4] };
+  const xaxis = {
+    ...(base.xaxis as object), tickmode: 'array', tickvals: conds.map((_, i) => i),
+    ticktext: o.condition ? conds.map((c) => escapeHtml(String(c))) : [''], range: [-0.6, conds.length - 0.4],
+  };
   const name = `groups-${o.value}${o.by.map((k) => `-${String(cell[k])}`).join('')}`.replace(/[^A-Za-z0-9_.-]+/g, '_');
   return new Figure(name, { data, layout: { ...base, xaxis } });
 }
