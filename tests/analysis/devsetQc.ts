@@ -9,12 +9,19 @@ import { SweepSet } from '../../src';
 
 export const FIXTURE = join(__dirname, '..', 'fixtures', 'devset-qc');
 
-interface Column { column: string; sweep_index: number; channel: number; distance_mm: number; stimulus_mA: number; temperature_C: number; concentration_uM: number; condition_index: number; repeat: number }
+interface Column {
+  column: string; sweep_index: number; channel: number; distance_mm: number; stimulus_mA: number;
+  temperature_C: number; concentration_uM: number; condition_index: number; repeat: number;
+}
+interface Sidecar {
+  preparation_id: string; sampling_rate_hz: number; time_of_first_sample_s: number; columns: Column[];
+}
+const gz = (name: string) => gunzipSync(readFileSync(join(FIXTURE, name))).toString('utf8');
 
 /** One series as a SweepSet in volts: one sweep per column, conditions from the sidecar. */
 export function loadSeries(series: string, csvName = `${series}.csv`): SweepSet {
-  const side = JSON.parse(gunzipSync(readFileSync(join(FIXTURE, `${series}.json.gz`))).toString('utf8')) as { preparation_id: string; sampling_rate_hz: number; time_of_first_sample_s: number; columns: Column[] };
-  const lines = gunzipSync(readFileSync(join(FIXTURE, `${csvName}.gz`))).toString('utf8').trim().split('\n');
+  const side = JSON.parse(gz(`${series}.json.gz`)) as Sidecar;
+  const lines = gz(`${csvName}.gz`).trim().split('\n');
   const head = lines[0].split(',');
   const rows = lines.slice(1).map((l) => l.split(',').map(Number));
   const n = rows.length;
@@ -26,9 +33,18 @@ export function loadSeries(series: string, csvName = `${series}.csv`): SweepSet 
     for (let i = 0; i < n; i++) data[k * n + i] = rows[i][j];
   });
   return new SweepSet({
-    data, nSweeps: cols.length, nSamples: n, fs: side.sampling_rate_hz, t0Ms: side.time_of_first_sample_s * 1000, units: 'V',
-    conditions: cols.map((c) => ({ preparation: side.preparation_id, distanceMm: c.distance_mm, channel: c.channel, intensity: c.stimulus_mA, intensityUnit: 'mA', temperatureC: c.temperature_C, concentration: c.concentration_uM, repeat: c.repeat, fileSweep: c.sweep_index })),
+    data, nSweeps: cols.length, nSamples: n, fs: side.sampling_rate_hz, t0Ms: side.time_of_first_sample_s * 1000,
+    units: 'V',
+    conditions: cols.map((c) => ({
+      preparation: side.preparation_id, distanceMm: c.distance_mm, channel: c.channel, intensity: c.stimulus_mA,
+      intensityUnit: 'mA', temperatureC: c.temperature_C, concentration: c.concentration_uM, repeat: c.repeat,
+      fileSweep: c.sweep_index,
+    })),
   });
 }
 
-export const truth = () => JSON.parse(readFileSync(join(FIXTURE, 'truth_nuisances.json'), 'utf8')) as { series: Record<string, { clipped_samples_fraction: number; white_rms_V_t_gt_1ms: number; hum_rms_V_t_gt_1ms: number }>; parameters: { rail_mV: number } };
+interface SeriesTruth { clipped_samples_fraction: number; white_rms_V_t_gt_1ms: number; hum_rms_V_t_gt_1ms: number }
+/** The nuisance truth of the copied series (truth/ground_truth.json, nuisances). */
+export const truth = () => JSON.parse(readFileSync(join(FIXTURE, 'truth_nuisances.json'), 'utf8')) as {
+  series: Record<string, SeriesTruth>; parameters: { rail_mV: number };
+};

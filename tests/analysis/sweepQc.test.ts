@@ -1,10 +1,16 @@
 import { describe, it, expect } from 'vitest';
 import { SweepSet, OptionError } from '../../src';
-import { sweepQc, rejectFlagged, sweepQcDefaults, sweepQcMethods, detrendedMadNoise, differenceNoise, railSamples, SweepQcResult } from '../../src/analysis/sweepQc';
+import {
+  sweepQc, rejectFlagged, sweepQcDefaults, sweepQcMethods, detrendedMadNoise, differenceNoise, railSamples,
+  SweepQcResult,
+} from '../../src/analysis/sweepQc';
 import { Rng } from '../../src/model/random';
 import { loadSeries, truth } from './devsetQc';
 
-const median = (v: number[]) => { const s = [...v].sort((a, b) => a - b); const m = s.length; return m % 2 ? s[(m - 1) / 2] : (s[m / 2 - 1] + s[m / 2]) / 2; };
+const median = (v: number[]) => {
+  const s = [...v].sort((a, b) => a - b), m = s.length;
+  return m % 2 ? s[(m - 1) / 2] : (s[m / 2 - 1] + s[m / 2]) / 2;
+};
 
 describe('noise, difference noise and rail kernels', () => {
   it('detrendedMadNoise(x, a, b) ignores a straight line and one wild sample', () => {
@@ -19,13 +25,15 @@ describe('noise, difference noise and rail kernels', () => {
     // diffs +1,-1,+1,-1: median 0, |dev| 1 -> 1.4826 / sqrt 2 (hand computation)
     expect(differenceNoise(Float64Array.of(0, 1, 0, 1, 0), 0, 4)).toBeCloseTo(1.4826 / Math.SQRT2, 12);
     const r = new Rng(3), fs = 50000;
-    const x = Float64Array.from({ length: 5000 }, (_, i) => 2 * r.normal() + 20 * Math.sin((2 * Math.PI * 50 * i) / fs));
+    const hum = (i: number) => 20 * Math.sin((2 * Math.PI * 50 * i) / fs);
+    const x = Float64Array.from({ length: 5000 }, (_, i) => 2 * r.normal() + hum(i));
     expect(differenceNoise(x, 0, 4999) / 2).toBeGreaterThan(0.95);
     expect(differenceNoise(x, 0, 4999) / 2).toBeLessThan(1.05);
   });
   it('railSamples(x, minRun) finds rails by runs of identical extremes; a constant sweep has none', () => {
     expect(railSamples(Float64Array.of(0, 5, 5, 5, 1, -2), 3)).toEqual({ high: 5, low: null, clipped: [1, 2, 3] });
-    expect(railSamples(Float64Array.of(0, 5, 5, 1, -2, -2, -2, 5), 3)).toEqual({ high: null, low: -2, clipped: [4, 5, 6] });
+    const low = railSamples(Float64Array.of(0, 5, 5, 1, -2, -2, -2, 5), 3);
+    expect(low).toEqual({ high: null, low: -2, clipped: [4, 5, 6] });
     expect(railSamples(Float64Array.of(0, 5, 5, 1, 5, 5, 5), 3).clipped).toEqual([1, 2, 4, 5, 6]);
     expect(railSamples(new Float64Array(5), 3)).toEqual({ high: null, low: null, clipped: [] });
   });
@@ -50,13 +58,14 @@ describe('sweepQc(set) on the development set (FNPG-N07, tests/fixtures/devset-q
       expect(clipped / (set.nSweeps * set.nSamples)).toBeCloseTo(T.series[s].clipped_samples_fraction, 12);
       // the rails are the amplifier's +-10 mV (truth: nuisances.parameters.rail_mV); all inside the artifact window
       for (const r of q.rows.filter((r) => (r.clipped_fraction as number) > 0)) {
-        expect([r.rail_high_V, r.rail_low_V].filter((v) => v !== null).map((v) => Math.abs(v as number))).toContain(T.parameters.rail_mV / 1000);
+        const rails = [r.rail_high_V, r.rail_low_V].filter((v) => v !== null).map((v) => Math.abs(v as number));
+        expect(rails).toContain(T.parameters.rail_mV / 1000);
         expect(r.clipped_outside_artifact).toBe(0);
       }
       expect(q.rows.some((r) => String(r.flags).includes('saturated'))).toBe(false);
     });
   }
-  it('temperature_slow (first rows, -10 to 2 ms; all rail samples of the series lie there): noise and clipped fraction', () => {
+  it('temperature_slow (rows -10 to 2 ms, which hold all its rail samples): noise and clipped fraction', () => {
     const set = loadSeries('temperature_slow', 'temperature_slow_head.csv');
     const q = sweepQc(set);
     const hf = median(q.rows.map((r) => r.noise_hf_V as number));
@@ -68,7 +77,8 @@ describe('sweepQc(set) on the development set (FNPG-N07, tests/fixtures/devset-q
   it('flags few clean sweeps: false-positive rate at most 2% over 128 clean sweeps', () => {
     const flagged = ['recruitment_fast', 'temperature_fast'].map((s) => sweepQc(loadSeries(s)).flagged().length);
     const rate = (flagged[0] + flagged[1]) / 128;
-    console.log(`sweepQc false-positive rate on clean devset sweeps: ${flagged[0] + flagged[1]}/128 = ${(100 * rate).toFixed(1)}%`);
+    const k = flagged[0] + flagged[1];
+    console.log(`sweepQc false-positive rate on clean devset sweeps: ${k}/128 = ${(100 * rate).toFixed(1)}%`);
     expect(rate).toBeLessThanOrEqual(0.02);
   });
 });
@@ -76,7 +86,8 @@ describe('sweepQc(set) on the development set (FNPG-N07, tests/fixtures/devset-q
 describe('sweepQc(set) flags injected bad sweeps and spares their neighbours', () => {
   const set = loadSeries('recruitment_fast');
   const n = set.nSamples;
-  const idx = (intensity: number, channel: number, repeat: number) => set.conditions.findIndex((c) => c.intensity === intensity && c.channel === channel && c.repeat === repeat);
+  const idx = (intensity: number, channel: number, repeat: number) =>
+    set.conditions.findIndex((c) => c.intensity === intensity && c.channel === channel && c.repeat === repeat);
   const levels = [...new Set(set.conditions.map((c) => c.intensity as number))].sort((a, b) => a - b);
   const top = levels[levels.length - 1], mid = levels[8];
   const data = Float64Array.from(set.data);
@@ -93,8 +104,19 @@ describe('sweepQc(set) flags injected bad sweeps and spares their neighbours', (
   const sw = (k: string) => data.subarray(bad[k][0] * n, (bad[k][0] + 1) * n);
   sw('spike')[at(8)] += 1e-3; // a 1 mV one-sample glitch at 8 ms
   sw('flat').fill(0); // disconnected input
-  { const x = sw('doubled'); const lv = median(Array.from(x.subarray(0, at(-0.1)))); for (let i = at(0.5); i < n; i++) x[i] = lv + 2 * (x[i] - lv); }
-  { const x = sw('clippedResponse'); let mx = 0; for (let i = at(0.5); i < n; i++) mx = Math.max(mx, x[i]); const rail = 0.6 * mx; for (let i = 0; i < n; i++) x[i] = Math.min(x[i], rail); }
+  {
+    // the response after 0.5 ms doubled about the pre-stimulus level
+    const x = sw('doubled');
+    const lv = median(Array.from(x.subarray(0, at(-0.1))));
+    for (let i = at(0.5); i < n; i++) x[i] = lv + 2 * (x[i] - lv);
+  }
+  {
+    // an amplifier rail at 60% of the response peak
+    const x = sw('clippedResponse');
+    let mx = 0;
+    for (let i = at(0.5); i < n; i++) mx = Math.max(mx, x[i]);
+    for (let i = 0; i < n; i++) x[i] = Math.min(x[i], 0.6 * mx);
+  }
   { const x = sw('noisy'); for (let i = 0; i < n; i++) x[i] += 75e-6 * rng.normal(); }
   { const x = sw('drift'); for (let i = 0; i < n; i++) x[i] += 1e-3 * (i / n); }
   const dirty = set.create({ data });
@@ -130,7 +152,9 @@ describe('sweepQc(set) flags injected bad sweeps and spares their neighbours', (
     const onlyFlat = rejectFlagged(dirty, q, { flags: ['flat'] });
     expect(onlyFlat.nSweeps).toBe(dirty.nSweeps - 1);
     // the methods sentence counts exclusions per preparation with reasons
-    expect(sweepQcMethods(q, removed)).toMatch(new RegExp(`${removed.length} of 96 sweeps were excluded: ${removed.length} from FNPG-N07-RA \\(`));
+    const k = removed.length;
+    const sentence = new RegExp(`${k} of 96 sweeps were excluded: ${k} from FNPG-N07-RA \\(`);
+    expect(sweepQcMethods(q, removed)).toMatch(sentence);
   });
   it('rejectFlagged refuses a table made on another set and names unknown flags', () => {
     expect(() => rejectFlagged(set.select([0, 1, 2]), q)).toThrow(/computed on 96 sweeps/);
@@ -145,7 +169,12 @@ describe('sweepQc options and statuses', () => {
     const r = new Rng(5);
     const conds = [0, 0, 1, 1, 1].map((k, i) => ({ preparation: 'P', intensity: k, repeat: i }));
     const data = new Float64Array(conds.length * n);
-    conds.forEach((c, s) => { for (let i = 0; i < n; i++) { const t = -5 + (i * 1000) / fs; data[s * n + i] = r.normal() + (t > 2 && t < 6 ? 20 * c.intensity : 0); } });
+    conds.forEach((c, s) => {
+      for (let i = 0; i < n; i++) {
+        const t = -5 + (i * 1000) / fs;
+        data[s * n + i] = r.normal() + (t > 2 && t < 6 ? 20 * c.intensity : 0);
+      }
+    });
     return new SweepSet({ data, nSweeps: conds.length, nSamples: n, fs, t0Ms: -5, units: 'uV', conditions: conds });
   };
   it('documents its defaults (outlier threshold 3 after Leys et al. 2013; floor 1/3; 3 sweeps; rail runs of 3)', () => {
@@ -154,7 +183,8 @@ describe('sweepQc options and statuses', () => {
     expect(sweepQcDefaults.minSweeps).toBe(3);
     expect(sweepQcDefaults.railRun).toBe(3);
     expect(sweepQcDefaults.artifactWindow).toEqual([-0.1, 0.5]);
-    expect([sweepQcDefaults.maxNoiseRatio, sweepQcDefaults.minNoiseRatio, sweepQcDefaults.maxDriftRatio, sweepQcDefaults.maxArtifactRatio]).toEqual([3, 0.1, 10, 3]);
+    const d = sweepQcDefaults;
+    expect([d.maxNoiseRatio, d.minNoiseRatio, d.maxDriftRatio, d.maxArtifactRatio]).toEqual([3, 0.1, 10, 3]);
   });
   it('a condition with fewer than 3 sweeps gets a status, not a score; units in column names', () => {
     const q = sweepQc(small());
@@ -167,8 +197,10 @@ describe('sweepQc options and statuses', () => {
     expect(q.history[q.history.length - 1].verb).toBe('sweepQc');
   });
   it('bad options are typed errors naming the option and the nearest name', () => {
-    expect(() => sweepQc(small(), { outlierTreshold: 2.5 } as never)).toThrow(/unknown key "outlierTreshold".*did you mean "outlierThreshold"/);
-    expect(() => sweepQc(small(), { by: ['intensty'] })).toThrow(/no sweep has the condition "intensty" \(did you mean "intensity"\?\)/);
+    expect(() => sweepQc(small(), { outlierTreshold: 2.5 } as never))
+      .toThrow(/unknown key "outlierTreshold".*did you mean "outlierThreshold"/);
+    expect(() => sweepQc(small(), { by: ['intensty'] }))
+      .toThrow(/no sweep has the condition "intensty" \(did you mean "intensity"\?\)/);
     expect(() => sweepQc(small(), { outlierThreshold: -1 })).toThrow(/invalid outlierThreshold: -1/);
     expect(() => sweepQc(small(), { minSweeps: 2 })).toThrow(/invalid minSweeps/);
     expect(() => sweepQc(small(), { quietWindow: [-5, -4.95] })).toThrow(/holds 1 samples \(need at least 8\)/);
