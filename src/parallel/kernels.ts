@@ -5,7 +5,7 @@
  * and typed arrays (shared when a worker takes part).
  */
 import { readSync } from 'node:fs';
-import { sosfiltfilt, sosfiltfiltPair, filtfiltWork } from '../signal/sosfilt';
+import { sosfiltfilt, sosfiltfiltPairExt, filtfiltWork } from '../signal/sosfilt';
 import type { Sos } from '../signal/butter';
 import { PLAIN_BLOCK, flushBlock, plainRow } from '../io/plainRows';
 import { normalRows, sineCoefficients, type SineParts } from '../signal/sinefit';
@@ -82,17 +82,31 @@ function filtfilt(a: FiltfiltArgs, s0: number, s1: number): number {
   const sos = a.sos as unknown as Sos;
   const work = filtfiltWork(sos, n, padlen);
   const work2 = filtfiltWork(sos, n, padlen);
-  const ta = c ? new Float64Array(n) : null, tb = c ? new Float64Array(n) : null;
+  const ta = c && sos.length !== 2 ? new Float64Array(n) : null;
   const input = (s: number, t: Float64Array | null) => {
     if (!c || !t) return x.subarray(s * n, (s + 1) * n);
     correctSweep(x, n, c, s, t, 0);
     return t;
   };
+  // a sweep goes (corrected, when a correction is pending) straight into the work buffer
+  const place = (s: number, ext: Float64Array) => {
+    if (c) correctSweep(x, n, c, s, ext.subarray(padlen, padlen + n), 0);
+    else ext.set(x.subarray(s * n, (s + 1) * n), padlen);
+  };
   let s = s0;
-  for (; s + 1 < s1; s += 2) {
-    sosfiltfiltPair(sos, input(s, ta), input(s + 1, tb), out.subarray(s * n, (s + 1) * n), out.subarray((s + 1) * n, (s + 2) * n), work, work2, padlen);
+  if (sos.length === 2) {
+    for (; s + 1 < s1; s += 2) {
+      place(s, work.ext);
+      place(s + 1, work2.ext);
+      sosfiltfiltPairExt(sos, out.subarray(s * n, (s + 1) * n), out.subarray((s + 1) * n, (s + 2) * n), work, work2, n, padlen);
+    }
+  } else {
+    for (; s + 1 < s1; s += 2) {
+      sosfiltfilt(sos, input(s, ta), { padlen, work, out: out.subarray(s * n, (s + 1) * n) });
+      sosfiltfilt(sos, input(s + 1, ta), { padlen, work, out: out.subarray((s + 1) * n, (s + 2) * n) });
+    }
   }
-  if (s < s1) sosfiltfilt(sos, input(s, ta), { padlen, work, out: out.subarray(s * n, (s + 1) * n) });
+  if (s < s1) sosfiltfilt(sos, input(s, c ? (ta ?? new Float64Array(n)) : null), { padlen, work, out: out.subarray(s * n, (s + 1) * n) });
   return -1;
 }
 
@@ -112,6 +126,14 @@ let scratch = new ArrayBuffer(0);
  * independent (about four times faster than one chain).
  */
 function finiteSum(x: Float64Array, from: number, to: number): boolean {
+  let a = 0, b = 0, c = 0, d = 0, i = from;
+  for (; i + 3 < to; i += 4) { a += x[i]; b += x[i + 1]; c += x[i + 2]; d += x[i + 3]; }
+  for (; i < to; i++) a += x[i];
+  const t = a + b + c + d;
+  return t - t === 0;
+}
+/** finiteSum on float32 values (each widened exactly to float64 before it is added). */
+function finiteSum32(x: Float32Array, from: number, to: number): boolean {
   let a = 0, b = 0, c = 0, d = 0, i = from;
   for (; i + 3 < to; i += 4) { a += x[i]; b += x[i + 1]; c += x[i + 2]; d += x[i + 3]; }
   for (; i < to; i++) a += x[i];
@@ -160,6 +182,12 @@ function load(a: LoadArgs, s0: number, s1: number): number {
       for (let i = 0; i < m; i++) arr[i] = dtype === 'int16' ? dv.getInt16(i * 2, little) : dtype === 'float32' ? dv.getFloat32(i * 4, little) : dv.getFloat64(i * 8, little);
       src = arr;
     }
+    // float32 read as is: check the chunk while it is in cache, at half the bytes of the result
+    const checked = dtype === 'float32' && identity && !interleaved && nc === 1 && src instanceof Float32Array;
+    let bad = -1;
+    if (checked && !finiteSum32(src as Float32Array, 0, k * n)) {
+      for (let i = 0; i < k * n; i++) if (src[i] - src[i] !== 0) { bad = o + i; break; }
+    }
     for (let j = 0; j < k; j++) {
       const d = o + j * n;
       if (!interleaved) {
@@ -172,7 +200,8 @@ function load(a: LoadArgs, s0: number, s1: number): number {
       }
     }
     // int16 x a finite gain + a finite offset is always finite
-    if (dtype !== 'int16' && !finiteSum(out, o, o + k * n)) for (let i = o, e = o + k * n; i < e; i++) if (out[i] - out[i] !== 0) return i;
+    if (bad >= 0) return bad; // after the chunk is written, so the caller can show the value
+    if (dtype !== 'int16' && !checked && !finiteSum(out, o, o + k * n)) for (let i = o, e = o + k * n; i < e; i++) if (out[i] - out[i] !== 0) return i;
   }
   return -1;
 }

@@ -138,15 +138,30 @@ export function sosfiltfiltPair(sos: Sos, xa: ArrayLike<number>, xb: ArrayLike<n
   }
   const n = xa.length;
   if (n <= padlen) throw new OptionError(`signal of ${n} samples is too short for zero-phase filtering; must be longer than padlen = ${padlen} samples`);
+  for (let i = 0; i < n; i++) { wa.ext[padlen + i] = xa[i]; wb.ext[padlen + i] = xb[i]; }
+  sosfiltfiltPairExt(sos, outA, outB, wa, wb, n, padlen);
+}
+
+/**
+ * sosfiltfiltPair on signals already written to wa.ext and wb.ext at [padlen, padlen + n)
+ * (so a caller can correct samples straight into place): the odd extension is made in
+ * place, and the backward pass stops at the first output sample and writes the outputs
+ * directly (the samples before it are discarded by sosfiltfilt, and the backward pass
+ * runs towards them, so no output depends on them). Two-section filters only; the
+ * arithmetic is that of sosfiltfilt, so the numbers are the same bit for bit.
+ */
+export function sosfiltfiltPairExt(sos: Sos, outA: Float64Array, outB: Float64Array, wa: FiltfiltWork, wb: FiltfiltWork, n: number, padlen: number): void {
+  if (sos.length !== 2) throw new OptionError('sosfiltfiltPairExt needs a filter of two second-order sections');
   const m = n + 2 * padlen;
   const ea = wa.ext, eb = wb.ext;
-  oddExtend(xa, ea, padlen);
-  oddExtend(xb, eb, padlen);
+  if (ea.length !== m || eb.length !== m) throw new OptionError(`work buffers of ${ea.length} samples; need n + 2 padlen = ${m}`);
+  oddExtendInPlace(ea, n, padlen);
+  oddExtendInPlace(eb, n, padlen);
   const c = normalizedCoefficients(sos);
   const zi = wa.zi;
   const b00 = c[0], b01 = c[1], b02 = c[2], a01 = c[3], a02 = c[4];
   const b10 = c[5], b11 = c[6], b12 = c[7], a11 = c[8], a12 = c[9];
-  // forward and backward passes are written out twice on purpose: folding them into one
+  // forward and backward passes are written out on purpose: folding them into one
   // closure with a step variable made this loop about 2.5x slower in V8 (measured)
   // forward
   let p0 = zi[0] * ea[0], p1 = zi[1] * ea[0], p2 = zi[2] * ea[0], p3 = zi[3] * ea[0];
@@ -161,11 +176,11 @@ export function sosfiltfiltPair(sos: Sos, xa: ArrayLike<number>, xb: ArrayLike<n
     p3 = b12 * v - a12 * y; q3 = b12 * vv - a12 * yy;
     ea[i] = y; eb[i] = yy;
   }
-  // backward
+  // backward: the end padding (no outputs), then the outputs straight to out
   const ya = ea[m - 1], yb = eb[m - 1];
   p0 = zi[0] * ya; p1 = zi[1] * ya; p2 = zi[2] * ya; p3 = zi[3] * ya;
   q0 = zi[0] * yb; q1 = zi[1] * yb; q2 = zi[2] * yb; q3 = zi[3] * yb;
-  for (let i = m - 1; i >= 0; i--) {
+  for (let i = m - 1; i >= padlen; i--) {
     const u = ea[i], w = eb[i];
     const v = b00 * u + p0, vv = b00 * w + q0;
     p0 = b01 * u - a01 * v + p1; q0 = b01 * w - a01 * vv + q1;
@@ -173,7 +188,13 @@ export function sosfiltfiltPair(sos: Sos, xa: ArrayLike<number>, xb: ArrayLike<n
     const y = b10 * v + p2, yy = b10 * vv + q2;
     p2 = b11 * v - a11 * y + p3; q2 = b11 * vv - a11 * yy + q3;
     p3 = b12 * v - a12 * y; q3 = b12 * vv - a12 * yy;
-    ea[i] = y; eb[i] = yy;
+    if (i < padlen + n) { outA[i - padlen] = y; outB[i - padlen] = yy; }
   }
-  for (let i = 0; i < n; i++) { outA[i] = ea[padlen + i]; outB[i] = eb[padlen + i]; }
+}
+
+/** Odd extension in place: ext holds the signal at [padlen, padlen + n); fills both ends as oddExtend does. */
+function oddExtendInPlace(ext: Float64Array, n: number, padlen: number): void {
+  const x0 = ext[padlen], xn = ext[padlen + n - 1];
+  for (let i = 0; i < padlen; i++) ext[i] = 2 * x0 - ext[2 * padlen - i];
+  for (let i = 0; i < padlen; i++) ext[padlen + n + i] = 2 * xn - ext[padlen + n - 2 - i];
 }

@@ -99,3 +99,28 @@ describe('pending artifact bridge (removeArtifact blank)', () => {
     expect(same(blankThenTemplate, materialised.removeArtifact({ method: 'template', window: [0, 0.5], maxIntensity: 1 }).data)).toBe(true);
   });
 });
+
+describe('float32 load kernel (finiteness checked on the float32 chunk)', () => {
+  it('names the first non-finite sample and its value on 1 and 2 threads; clean files load the exact float32 values', async () => {
+    const { mkdtempSync, writeFileSync } = await import('node:fs');
+    const { tmpdir } = await import('node:os');
+    const { join } = await import('node:path');
+    const { readBinary } = await import('../../src');
+    const dir = mkdtempSync(join(tmpdir(), 'fascicle-kernels-'));
+    const S2 = 40, N2 = 20000;
+    const a = Float32Array.from({ length: S2 * N2 }, (_, i) => Math.fround(Math.sin(i * 0.001) * 100));
+    writeFileSync(join(dir, 'ok.f32'), new Uint8Array(a.buffer));
+    writeFileSync(join(dir, 'ok.json'), JSON.stringify({ data: 'ok.f32', dtype: 'float32', nSweeps: S2, nSamples: N2, fs, t0Ms: -2, units: 'uV' }));
+    const bad = Float32Array.from(a);
+    bad[17 * N2 + 123] = NaN;
+    bad[30 * N2 + 5] = Infinity;
+    writeFileSync(join(dir, 'bad.f32'), new Uint8Array(bad.buffer));
+    writeFileSync(join(dir, 'bad.json'), JSON.stringify({ data: 'bad.f32', dtype: 'float32', nSweeps: S2, nSamples: N2, fs, t0Ms: -2, units: 'uV' }));
+    for (const T of [1, 2]) {
+      setThreads(T);
+      const set = readBinary(join(dir, 'ok.json'));
+      expect(same(set.data, Float64Array.from(a))).toBe(true); // float32 -> float64 is exact
+      expect(() => readBinary(join(dir, 'bad.json'))).toThrow(/sweep 17: a non-finite sample \(NaN\) at sample 123/);
+    }
+  });
+});
