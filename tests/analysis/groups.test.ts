@@ -2,14 +2,21 @@ import { describe, it, expect } from 'vitest';
 import { readFileSync, existsSync, writeFileSync, mkdirSync } from 'node:fs';
 import { join, dirname } from 'node:path';
 import { groupFigure, groupFigures } from '../../src/plot/groups';
-import { welchTTest, mannWhitneyU, oneWayAnova, repeatedMeasuresAnova, holm, benjaminiHochberg, compareGroups, normSf, mannWhitneyExactSf, groupMethods } from '../../src/analysis/groups';
+import {
+  welchTTest, mannWhitneyU, oneWayAnova, repeatedMeasuresAnova, holm, benjaminiHochberg, compareGroups, normSf,
+  mannWhitneyExactSf, groupMethods,
+} from '../../src/analysis/groups';
 import { mixedModel, fitRandomIntercept, satterthwaiteDf, mixedMethods } from '../../src/analysis/mixed';
 import { pairedCompare, toFrame } from '../../src';
 import { Rng } from '../../src/model/random';
 
 // Reference values: tests/reference/make_groups.py (SciPy 1.17, NumPy 2.4) -> groups.json
 const ref = JSON.parse(readFileSync(join(__dirname, '..', 'reference', 'groups.json'), 'utf8'));
-const rel = (a: number | null, b: number) => { expect(a).not.toBeNull(); expect(Math.abs((a as number) - b) / Math.max(Math.abs(b), 1e-300)).toBeLessThan(1e-6); };
+/** |a - b| / |b| < 1e-6 */
+const rel = (a: number | null, b: number) => {
+  expect(a).not.toBeNull();
+  expect(Math.abs((a as number) - b) / Math.max(Math.abs(b), 1e-300)).toBeLessThan(1e-6);
+};
 
 describe('two-sample tests against SciPy', () => {
   it('welchTTest(a, b) = scipy.stats.ttest_ind(a, b, equal_var=False): t, df, p and 95% CI', () => {
@@ -54,7 +61,7 @@ describe('ANOVA against SciPy and the textbook sums of squares', () => {
     }
     expect(oneWayAnova([[1, 2, 3], [2, 3, 4], [5, 6, 7]]).F).toBeCloseTo(13, 12); // SSB 26 / 2, SSW 6 / 6 (hand)
   });
-  it('repeatedMeasuresAnova(y) = the NumPy sums of squares, with Greenhouse-Geisser epsilon; two conditions give the paired t squared', () => {
+  it('repeatedMeasuresAnova(y) = NumPy sums of squares and Greenhouse-Geisser epsilon; 2 conditions: paired t^2', () => {
     for (const c of ref.rm) {
       const a = repeatedMeasuresAnova(c.y);
       rel(a.F, c.F); rel(a.p, c.p); rel(a.epsilonGG, c.eps); rel(a.pGG, c.pGG);
@@ -73,7 +80,7 @@ describe('ANOVA against SciPy and the textbook sums of squares', () => {
 });
 
 describe('multiplicity corrections', () => {
-  it('holm(p) = the Holm (1979) step-down definition; benjaminiHochberg(p) = scipy.stats.false_discovery_control(method="bh")', () => {
+  it('holm(p) = Holm (1979) step-down; benjaminiHochberg(p) = scipy.stats.false_discovery_control(method="bh")', () => {
     const { p, holm: h, bh } = ref.multiplicity;
     holm(p).forEach((v, i) => rel(v, h[i]));
     benjaminiHochberg(p).forEach((v, i) => rel(v, bh[i]));
@@ -84,14 +91,19 @@ describe('multiplicity corrections', () => {
 describe('mixedModel: random intercept per animal, REML, Satterthwaite df', () => {
   it('unbalanced design (missing cells, 1-4 sweeps per cell) equals the dense SciPy implementation', () => {
     for (const f of ref.mixed.fits) {
-      const m = mixedModel(ref.mixed.rows, { value: 'value', fixed: ['group', 'condition'], random: 'animal', interaction: f.interaction, levels: { group: ['control', 'treated'], condition: ['pre', 'drug', 'wash'] } });
+      const levels = { group: ['control', 'treated'], condition: ['pre', 'drug', 'wash'] };
+      const fixed = ['group', 'condition'];
+      const o = { value: 'value', fixed, random: 'animal', interaction: f.interaction, levels };
+      const m = mixedModel(ref.mixed.rows, o);
       const v = m.variance[0];
       expect(v.status).toBe('ok');
-      rel(v.animal_variance as number, f.sigma_u2); rel(v.residual_variance as number, f.sigma_e2); rel(v.reml_deviance as number, f.reml_deviance);
+      rel(v.animal_variance as number, f.sigma_u2);
+      rel(v.residual_variance as number, f.sigma_e2);
+      rel(v.reml_deviance as number, f.reml_deviance);
       expect(m.coefficients.map((c) => c.term)).toEqual(f.coefficients.map((c: { term: string }) => c.term));
       m.coefficients.forEach((c, i) => {
         const e = f.coefficients[i];
-        rel(c.estimate as number, e.estimate); rel(c.se as number, e.se); rel(c.df as number, e.df); rel(c.t as number, e.t); rel(c.p as number, e.p);
+        for (const k of ['estimate', 'se', 'df', 't', 'p']) rel(c[k] as number, e[k]);
       });
       m.anova.forEach((a, i) => {
         const e = f.anova[i];
@@ -107,7 +119,10 @@ describe('mixedModel: random intercept per animal, REML, Satterthwaite df', () =
   const r = new Rng(42);
   it('animals x conditions, one value each: REML = ANOVA estimators; condition F = repeated-measures ANOVA', () => {
     const s = 6, k = 3;
-    const y = Array.from({ length: s }, () => { const u = 2 * r.normal(); return Array.from({ length: k }, (_, j) => 10 + u + 0.5 * j + 0.7 * r.normal()); });
+    const y = Array.from({ length: s }, () => {
+      const u = 2 * r.normal();
+      return Array.from({ length: k }, (_, j) => 10 + u + 0.5 * j + 0.7 * r.normal());
+    });
     const rows = y.flatMap((row, i) => row.map((v, j) => ({ animal: `A${i}`, condition: `c${j}`, value: v })));
     const m = mixedModel(rows, { value: 'value', fixed: ['condition'] });
     const a = repeatedMeasuresAnova(y);
@@ -122,7 +137,10 @@ describe('mixedModel: random intercept per animal, REML, Satterthwaite df', () =
     const s = 7;
     const pre = Array.from({ length: s }, () => 5 + r.normal());
     const post = pre.map((v) => v + 0.8 + 0.6 * r.normal());
-    const rows = [...pre.map((v, i) => ({ animal: `B${i}`, condition: 'pre', value: v })), ...post.map((v, i) => ({ animal: `B${i}`, condition: 'post', value: v }))];
+    const rows = [
+      ...pre.map((v, i) => ({ animal: `B${i}`, condition: 'pre', value: v })),
+      ...post.map((v, i) => ({ animal: `B${i}`, condition: 'post', value: v })),
+    ];
     const m = mixedModel(rows, { value: 'value', fixed: ['condition'], levels: { condition: ['pre', 'post'] } });
     const pc = pairedCompare(pre, post);
     const c = m.coefficients.find((q) => q.term === 'condition: post vs pre')!;
@@ -167,12 +185,15 @@ describe('mixedModel: random intercept per animal, REML, Satterthwaite df', () =
     rel(satterthwaiteDf(f, [1]), 2);
   });
   it('a cell that cannot be fitted is a row with a status; bad options name the column', () => {
-    const rows = [{ animal: 'a', condition: 'x', value: 1, class: 'C' }, { animal: 'a', condition: 'y', value: 2, class: 'C' }];
+    const rows = [
+      { animal: 'a', condition: 'x', value: 1, class: 'C' }, { animal: 'a', condition: 'y', value: 2, class: 'C' },
+    ];
     const m = mixedModel(rows, { value: 'value', fixed: ['condition'] });
     expect(m.variance[0].status).toBe('not computed');
     expect(m.variance[0].reason).toMatch(/at least 2 animals/);
     expect(m.coefficients).toEqual([]);
-    expect(() => mixedModel(rows, { value: 'valeu', fixed: ['condition'] })).toThrow(/"valeu" is not a column.*did you mean "value"/);
+    expect(() => mixedModel(rows, { value: 'valeu', fixed: ['condition'] }))
+      .toThrow(/"valeu" is not a column.*did you mean "value"/);
   });
 });
 
@@ -182,24 +203,36 @@ describe('compareGroups(rows, options): animals as the unit', () => {
   for (const [g, shift, n] of [['control', 0, 5], ['treated', 1.2, 4]] as const) {
     for (let a = 0; a < n; a++) {
       const u = r.normal();
-      for (let s = 0; s < 6; s++) rows.push({ class: 'A', group: g, preparation: `${g}-${a}`, epoch: 'pre', amplitude_uV: 100 + 10 * (u + shift) + 3 * r.normal() });
-      for (let s = 0; s < 6; s++) rows.push({ class: 'A', group: g, preparation: `${g}-${a}`, epoch: 'drug', amplitude_uV: 80 + 10 * (u + shift) + 3 * r.normal() });
+      const at = { class: 'A', group: g, preparation: `${g}-${a}` };
+      const level = 10 * (u + shift);
+      for (let s = 0; s < 6; s++) rows.push({ ...at, epoch: 'pre', amplitude_uV: 100 + level + 3 * r.normal() });
+      for (let s = 0; s < 6; s++) rows.push({ ...at, epoch: 'drug', amplitude_uV: 80 + level + 3 * r.normal() });
     }
   }
-  rows.push({ class: 'C', group: 'control', preparation: 'control-0', epoch: 'pre', amplitude_uV: 5 }, { class: 'C', group: 'treated', preparation: 'treated-0', epoch: 'pre', amplitude_uV: 6 }, { class: 'C', group: 'treated', preparation: 'treated-0', epoch: 'pre', amplitude_uV: null });
+  rows.push(
+    { class: 'C', group: 'control', preparation: 'control-0', epoch: 'pre', amplitude_uV: 5 },
+    { class: 'C', group: 'treated', preparation: 'treated-0', epoch: 'pre', amplitude_uV: 6 },
+    { class: 'C', group: 'treated', preparation: 'treated-0', epoch: 'pre', amplitude_uV: null },
+  );
+  /** the mean of one animal's class-A values at one epoch */
+  const animalMean = (prep: string, epoch: string) => {
+    const mine = rows.filter((q) => q.preparation === prep && q.epoch === epoch && q.class === 'A');
+    const v = mine.map((q) => q.amplitude_uV as number);
+    return v.reduce((x, y) => x + y, 0) / v.length;
+  };
   const res = compareGroups(rows, { value: 'amplitude_uV', condition: 'epoch' });
   it('summaries count animals, not sweeps, and use their means', () => {
     const s = res.summary.find((q) => q.class === 'A' && q.group === 'treated' && q.condition === 'pre')!;
     expect(s.n_animals).toBe(4);
     expect(s.n_values).toBe(24);
     expect(s.unit).toBe('uV');
-    const means = [0, 1, 2, 3].map((a) => { const v = rows.filter((q) => q.preparation === `treated-${a}` && q.epoch === 'pre' && q.class === 'A').map((q) => q.amplitude_uV as number); return v.reduce((x, y) => x + y, 0) / v.length; });
+    const means = [0, 1, 2, 3].map((a) => animalMean(`treated-${a}`, 'pre'));
     rel(s.mean as number, means.reduce((x, y) => x + y, 0) / 4);
   });
-  it('the Welch row equals welchTTest on animal means; paired rows equal pairedCompare; p adjusted over the table', () => {
+  it('the Welch row equals welchTTest on animal means; paired rows; p adjusted over the table', () => {
     const w = res.tests.find((q) => q.class === 'A' && q.test === 'Welch t' && q.condition === 'pre')!;
-    const mean = (g: string, a: number) => { const v = rows.filter((q) => q.preparation === `${g}-${a}` && q.epoch === 'pre' && q.class === 'A').map((q) => q.amplitude_uV as number); return v.reduce((x, y) => x + y, 0) / v.length; };
-    const ref2 = welchTTest([0, 1, 2, 3, 4].map((a) => mean('control', a)), [0, 1, 2, 3].map((a) => mean('treated', a)));
+    const ref2 = welchTTest([0, 1, 2, 3, 4].map((a) => animalMean(`control-${a}`, 'pre')),
+      [0, 1, 2, 3].map((a) => animalMean(`treated-${a}`, 'pre')));
     rel(w.statistic as number, ref2.t!); rel(w.p as number, ref2.p!);
     const paired = res.tests.filter((q) => q.test === 'paired t');
     expect(paired.length).toBe(2);
@@ -228,16 +261,22 @@ describe('compareGroups(rows, options): animals as the unit', () => {
 
 describe('groupFigure(result): points per animal, mean and 95% CI per group', () => {
   const rows = [
-    ...['a1', 'a2', 'a3'].flatMap((a, i) => ['pre', 'post'].map((e, j) => ({ class: 'A', group: 'control', animal: a, epoch: e, velocity_m_s: 40 + i + 2 * j }))),
-    ...['b1', 'b2', 'b3'].flatMap((a, i) => ['pre', 'post'].map((e, j) => ({ class: 'A', group: '<img src=x onerror=alert(1)>', animal: a, epoch: e, velocity_m_s: 35 + i - 3 * j }))),
+    ...['a1', 'a2', 'a3'].flatMap((a, i) => ['pre', 'post'].map((e, j) => ({
+      class: 'A', group: 'control', animal: a, epoch: e, velocity_m_s: 40 + i + 2 * j,
+    }))),
+    ...['b1', 'b2', 'b3'].flatMap((a, i) => ['pre', 'post'].map((e, j) => ({
+      class: 'A', group: '<img src=x onerror=alert(1)>', animal: a, epoch: e, velocity_m_s: 35 + i - 3 * j,
+    }))),
   ];
   const res = compareGroups(rows, { value: 'velocity_m_s', condition: 'epoch' });
   const fig = groupFigure(res);
   it('matches the stored spec (numbers rounded; tests/analysis/__snapshots__/group-figure.json)', () => {
     // traces and axes of this figure only: the house style (palette, fonts) belongs to plot/figure.ts
     const spec = JSON.parse(fig.specJson(5), (k, v) => (k === 'color' ? undefined : v));
-    const ax = (a: { title?: { text?: string }; tickvals?: unknown; ticktext?: unknown; range?: unknown }) => ({ title: a.title?.text, tickvals: a.tickvals, ticktext: a.ticktext, range: a.range });
-    const mine = { data: spec.data, layout: { title: spec.layout.title?.text, xaxis: ax(spec.layout.xaxis), yaxis: ax(spec.layout.yaxis) } };
+    type Axis = { title?: { text?: string }; tickvals?: unknown; ticktext?: unknown; range?: unknown };
+    const ax = (a: Axis) => ({ title: a.title?.text, tickvals: a.tickvals, ticktext: a.ticktext, range: a.range });
+    const layout = { title: spec.layout.title?.text, xaxis: ax(spec.layout.xaxis), yaxis: ax(spec.layout.yaxis) };
+    const mine = { data: spec.data, layout };
     const text = JSON.stringify(mine, null, 1) + '\n';
     const p = join(__dirname, '__snapshots__', 'group-figure.json');
     if (!existsSync(p)) { mkdirSync(dirname(p), { recursive: true }); writeFileSync(p, text); }
@@ -246,7 +285,8 @@ describe('groupFigure(result): points per animal, mean and 95% CI per group', ()
     expect(text).toBe(stored);
   });
   it('labels carry units, user strings are escaped, and the CI is the t interval of animal means', () => {
-    const l = fig.spec.layout as { xaxis: { title: { text: string }; ticktext: string[] }; yaxis: { title: { text: string } } };
+    type Titled = { title: { text: string } };
+    const l = fig.spec.layout as { xaxis: Titled & { ticktext: string[] }; yaxis: Titled };
     // (the house layout capitalises axis titles)
     expect(l.yaxis.title.text).toMatch(/^velocity \(m\/s\)$/i);
     expect(l.xaxis.title.text).toMatch(/^epoch$/i);
@@ -254,11 +294,13 @@ describe('groupFigure(result): points per animal, mean and 95% CI per group', ()
     const json = JSON.stringify(fig.spec);
     expect(json).not.toContain('<img');
     expect(json).toContain('&lt;img src=x onerror=alert(1)&gt;');
-    const meanTrace = fig.spec.data.find((d) => d.name === 'control mean, 95% CI') as { y: number[]; error_y: { array: number[] } };
+    type Trace = { y: number[]; error_y: { array: number[] } };
+    const meanTrace = fig.spec.data.find((d) => d.name === 'control mean, 95% CI') as Trace;
     // control pre: animal values 40, 41, 42 -> mean 41, SD 1, CI half-width t(0.975, 2) / sqrt 3 = 4.302653 / 1.732051
     expect(meanTrace.y[0]).toBeCloseTo(41, 12);
     expect(meanTrace.error_y.array[0]).toBeCloseTo(4.302652729749464 / Math.sqrt(3), 9); // scipy.stats.t.ppf(0.975, 2)
-    expect(fig.spec.data.filter((d) => d.mode === 'markers' && String(d.name).endsWith('(animals)')).map((d) => (d.y as number[]).length)).toEqual([6, 6]);
+    const animalTraces = fig.spec.data.filter((d) => d.mode === 'markers' && String(d.name).endsWith('(animals)'));
+    expect(animalTraces.map((d) => (d.y as number[]).length)).toEqual([6, 6]);
   });
   it('groupFigures gives one figure per class; an unknown cell is a typed error', () => {
     expect(groupFigures(res).length).toBe(1);
@@ -267,10 +309,13 @@ describe('groupFigure(result): points per animal, mean and 95% CI per group', ()
 });
 
 describe('inputs and methods text', () => {
-  const rows = ['x1', 'x2', 'x3', 'y1', 'y2', 'y3'].flatMap((a, i) => [0, 1].map((k) => ({ group: a[0], preparation: a, onset_ms: 1 + 0.1 * i + 0.01 * k })));
+  const rows = ['x1', 'x2', 'x3', 'y1', 'y2', 'y3'].flatMap((a, i) => [0, 1].map((k) => ({
+    group: a[0], preparation: a, onset_ms: 1 + 0.1 * i + 0.01 * k,
+  })));
   it('plain rows, a table with .rows (as a ComponentTable) and a DataFrame give the same tests', () => {
     const a = compareGroups(rows, { value: 'onset_ms' });
-    const b = compareGroups({ rows, history: [{ verb: 'components', options: {}, version: '0' }] } as never, { value: 'onset_ms' });
+    const table = { rows, history: [{ verb: 'components', options: {}, version: '0' }] };
+    const b = compareGroups(table as never, { value: 'onset_ms' });
     const c = compareGroups(toFrame(rows) as never, { value: 'onset_ms' });
     expect(b.tests).toEqual(a.tests);
     expect(c.tests).toEqual(a.tests);
@@ -284,21 +329,25 @@ describe('inputs and methods text', () => {
     expect(groupMethods(a)).toMatch(/Welch t, Mann-Whitney U \(Mann-Whitney U exact/);
     expect(groupMethods(a)).toMatch(/Holm's step-down method/);
     const m = mixedModel(rows, { value: 'onset_ms', fixed: ['group'] });
-    expect(mixedMethods(m)).toMatch(/random intercept per preparation .* restricted maximum likelihood .* Satterthwaite/);
+    expect(mixedMethods(m))
+      .toMatch(/random intercept per preparation .* restricted maximum likelihood .* Satterthwaite/);
   });
 });
 
 describe('within-animal designs and pseudo-replication', () => {
   it('without a group column, three time points in the same animals get a repeated-measures ANOVA', () => {
     const r = new Rng(21);
-    const y = Array.from({ length: 6 }, () => { const u = r.normal(); return [0, 1, 2].map((t) => 10 + u + 0.4 * t + 0.3 * r.normal()); });
+    const y = Array.from({ length: 6 }, () => {
+      const u = r.normal();
+      return [0, 1, 2].map((t) => 10 + u + 0.4 * t + 0.3 * r.normal());
+    });
     const rows = y.flatMap((row, i) => row.map((v, t) => ({ preparation: `P${i}`, time: `t${t}`, latency_ms: v })));
     const res = compareGroups(rows, { value: 'latency_ms', condition: 'time' });
     expect(res.tests.map((t) => t.test)).toEqual(['repeated-measures ANOVA']);
     rel(res.tests[0].statistic as number, repeatedMeasuresAnova(y).F!);
     expect(res.summary.map((s) => s.group)).toEqual(['all', 'all', 'all']);
   });
-  it('with the animal as a random effect the null rejection rate is near 5%; treating sweeps as independent inflates it', () => {
+  it('with the animal as a random effect the null rejection rate is near 5%; sweeps as replicates inflate it', () => {
     // 300 simulated two-group studies, no true effect: 5 animals per group, 6 sweeps each, ICC 0.5.
     // Expected: the mixed model's group test rejects at about the nominal 5% (binomial SD 1.3%);
     // a t test over sweeps (pseudo-replication, Lazic 2010) rejects far more often.
@@ -307,13 +356,20 @@ describe('within-animal designs and pseudo-replication', () => {
     const S = 300;
     for (let k = 0; k < S; k++) {
       const rows: { group: string; animal: string; v: number }[] = [];
-      for (const g of ['a', 'b']) for (let a = 0; a < 5; a++) { const u = r.normal(); for (let s = 0; s < 6; s++) rows.push({ group: g, animal: `${g}${a}`, v: u + r.normal() }); }
+      for (const g of ['a', 'b']) {
+        for (let a = 0; a < 5; a++) {
+          const u = r.normal();
+          for (let s = 0; s < 6; s++) rows.push({ group: g, animal: `${g}${a}`, v: u + r.normal() });
+        }
+      }
       const m = mixedModel(rows, { value: 'v', fixed: ['group'], random: 'animal' });
       if ((m.anova[0].p as number) < 0.05) mixedRejects++;
-      const w = welchTTest(rows.filter((q) => q.group === 'a').map((q) => q.v), rows.filter((q) => q.group === 'b').map((q) => q.v));
+      const of = (g: string) => rows.filter((q) => q.group === g).map((q) => q.v);
+      const w = welchTTest(of('a'), of('b'));
       if (w.p! < 0.05) naiveRejects++;
     }
-    console.log(`null rejection rate: mixed model ${(100 * mixedRejects / S).toFixed(1)}%, sweeps as replicates ${(100 * naiveRejects / S).toFixed(1)}%`);
+    const pct = (k: number) => `${((100 * k) / S).toFixed(1)}%`;
+    console.log(`null rejection rate: mixed model ${pct(mixedRejects)}, sweeps as replicates ${pct(naiveRejects)}`);
     expect(mixedRejects / S).toBeGreaterThan(0.02);
     expect(mixedRejects / S).toBeLessThan(0.08);
     expect(naiveRejects / S).toBeGreaterThan(0.15);
