@@ -106,6 +106,7 @@ export function printSpec(spec: PlotlySpec, wPx: number, hPx: number, options: {
   const tick = PRINT_PT.tick * PX_PER_PT, base = PRINT_PT.base * PX_PER_PT, title = PRINT_PT.title * PX_PER_PT;
   const L = s.layout;
   L.width = wPx; L.height = hPx;
+  L.margin = { l: 45, r: 8, t: options.title === false ? 8 : 24, b: 32 };
   L.font = { ...(isObj(L.font) ? L.font : {}), size: base };
   if (isObj(L.title)) {
     if (options.title === false) L.title = { text: '' };

@@ -12,7 +12,7 @@ import { readFileSync } from 'node:fs';
 import { gzipSync } from 'node:zlib';
 import { inspect } from 'node:util';
 import { escapeHtml, tslabDisplay } from '../notebook/html';
-import { plotlyText, sentenceCase } from './labels';
+import { sentenceCase } from './labels';
 
 /**
  * Class colours: the colour-blind-safe set of Wong (2011) "Points of view: Color blindness",
@@ -72,6 +72,9 @@ let counter = 0;
 /** Screen sizes (px at 96 px/inch): body text 12 px = 9 pt. Print sizes are set in pt (plot/export.ts). */
 export const SCREEN_FONT = { base: 12, tick: 11, title: 14 };
 
+/** Where a legend starts (top right inside the plot area); LAYOUT_FIT_JS moves it if it would cover data. */
+const LEGEND_INSIDE = { orientation: 'v', xref: 'paper', yref: 'paper', x: 1, y: 1, xanchor: 'right', yanchor: 'top', bgcolor: 'rgba(255,255,255,0.85)' };
+
 const axis = (title: string) => ({
   title: { text: title, standoff: 6 }, showline: true, linecolor: '#333', linewidth: 1, ticks: 'outside', ticklen: 4, tickwidth: 1,
   tickcolor: '#333', zeroline: false, showgrid: false, automargin: false, tickangle: 0, tickfont: { size: SCREEN_FONT.tick },
@@ -91,19 +94,21 @@ export function layoutFor(title: string, x: string, y: string, extra: Record<str
     paper_bgcolor: '#fff', plot_bgcolor: '#fff',
     xaxis: { ...axis(x), ...(xaxis ?? {}) },
     yaxis: { ...axis(y), ...(yaxis ?? {}) },
-    legend: { orientation: 'h', xref: 'container', yref: 'container', x: 0.01, xanchor: 'left', y: 0.01, yanchor: 'bottom', bgcolor: 'rgba(0,0,0,0)', traceorder: 'normal', tracegroupgap: 0 },
-    margin: { l: 70, r: 20, t: 50, b: 90 },
+    legend: { ...LEGEND_INSIDE, traceorder: 'normal', tracegroupgap: 0 },
+    margin: { l: 70, r: 20, t: 50, b: 60 },
     width: 640, height: 420,
     ...rest,
   };
 }
 
 /**
- * Base layout of the house style from plain text: the title, x- and y-axis titles are
- * shown as written (escaped for plotly; first letter upper case). Width and height in px.
+ * Base layout of the house style. The title and axis titles are plotly markup (so
+ * `IC<sub>50</sub>` works): pass user text through plotlyText first. The first letter
+ * is set upper case (sentence case). Width and height in px.
+ * @example baseLayout(`Sweeps of ${plotlyText(name)}`, 'time (ms)', 'signal (µV)')
  */
 export function baseLayout(title: string, x: string, y: string, extra: Record<string, unknown> = {}): Record<string, unknown> {
-  return layoutFor(plotlyText(sentenceCase(title)), plotlyText(sentenceCase(x)), plotlyText(sentenceCase(y)), extra);
+  return layoutFor(sentenceCase(title), sentenceCase(x), sentenceCase(y), extra);
 }
 
 /**
@@ -181,13 +186,13 @@ function inside(){var L=legendBox(),fl=gd._fullLayout,s=fl._size;if(!L)return nu
   if(best.f<1)u['yaxis.range']=[r0,r0+(r1-r0)/best.f];return u;}
 var fl0=gd._fullLayout;
 if(!fl0.showlegend||!gd.querySelector('.legend'))return settle(false,0);
-var keep=gd.layout.legend||{};
-return P.relayout(gd,{'legend.orientation':'v','legend.xref':'paper','legend.yref':'paper','legend.x':1,'legend.y':1,
-  'legend.xanchor':'right','legend.yanchor':'top','legend.bgcolor':'rgba(255,255,255,0.85)'}).then(function(){return settle(false,0);})
+var L0=fl0.legend,start=${JSON.stringify(LEGEND_INSIDE)},same=Object.keys(start).every(function(k){
+  return L0[k]===start[k];}),u0={};Object.keys(start).forEach(function(k){u0['legend.'+k]=start[k];});
+return (same?Promise.resolve():P.relayout(gd,u0)).then(function(){return settle(false,0);})
 .then(function(){var c=inside();if(c)return P.relayout(gd,c).then(function(){return settle(false,0);});
   var s=gd._fullLayout._size;
   return P.relayout(gd,{'legend.orientation':'h','legend.xref':'paper','legend.yref':'paper','legend.x':-(s.l-pad)/s.w,
-    'legend.y':-0.3,'legend.xanchor':'left','legend.yanchor':'top','legend.bgcolor':keep.bgcolor||'rgba(0,0,0,0)'})
+    'legend.y':-0.3,'legend.xanchor':'left','legend.yanchor':'top','legend.bgcolor':'rgba(0,0,0,0)'})
   .then(function(){return settle(true,0);});});};`;
 
 export class Figure {

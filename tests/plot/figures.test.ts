@@ -2,7 +2,7 @@ import { describe, it, expect } from 'vitest';
 import { existsSync, mkdtempSync, readFileSync, writeFileSync, mkdirSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
-import { SweepSet, sweepsFigure, doseResponseFigure, temperatureFigure, summaryFigure, velocityFigure, tableHtml, escapeHtml, findBrowser, saveFigures, Figure, baseLayout } from '../../src';
+import { SweepSet, sweepsFigure, doseResponseFigure, temperatureFigure, summaryFigure, velocityFigure, tableHtml, escapeHtml, findBrowser, saveFigures, Figure, baseLayout, plotlyText } from '../../src';
 
 const snapDir = join(__dirname, '__snapshots__');
 /** Compare a figure spec (numbers rounded) with the stored one; write a .changed file when they differ. */
@@ -46,11 +46,11 @@ describe('HTML escaping of user-provided text', () => {
     const html = tableHtml([{ label: evil, [evil]: 1 }], { caption: evil });
     expect(html).not.toContain('<img');
     expect(html).toContain('&lt;img src=x onerror=alert(1)&gt;');
-    const fig = new Figure(evil, { data: [{ type: 'scatter', x: [1], y: [1], name: `</script>${evil}` }], layout: baseLayout(evil, 'x (s)', 'y (V)') });
+    const fig = new Figure(evil, { data: [{ type: 'scatter', x: [1], y: [1], name: `</script>${evil}` }], layout: baseLayout(plotlyText(evil), 'x (s)', 'y (V)') });
     const out = fig.toHTML('page');
     expect(out).not.toMatch(/<\/script><img/);
     expect(out).not.toContain(`data-name="${evil}"`);
-    // baseLayout takes plain text: plotly gets entities, not markup
+    // plotlyText: plotly gets entities, not markup
     expect((fig.spec.layout.title as { text: string }).text).toBe('&lt;img src=x onerror=alert(1)&gt;');
     expect(escapeHtml(`"'&`)).toBe('&quot;&#39;&amp;');
   });

@@ -14,7 +14,7 @@ import { join } from 'node:path';
 import type { Page } from 'playwright-core';
 import {
   model, sweepsFigure, recruitmentFigure, strengthDurationFigure, velocityFigure, doseResponseFigure, temperatureFigure,
-  summaryFigure, Figure, baseLayout, findBrowser, openExporter, FigureExporter, saveFigures, SweepSet,
+  summaryFigure, Figure, baseLayout, findBrowser, openExporter, FigureExporter, saveFigures, compareGroups, groupFigure,
 } from '../../src';
 
 const CLASSES = ['A-alpha/beta', 'A-delta', 'C'];
@@ -51,6 +51,9 @@ function figures(): Figure[] {
   }));
   const sdRows = CLASSES.map((cls, ci) => ({ class: cls, rheobase: 0.1 * (ci + 1), chronaxie_ms: 0.3 * (ci + 1), lapicque_rheobase: 0.1 * (ci + 1), lapicque_tau_ms: 0.43 * (ci + 1), intensityUnit: 'mA' }));
   const vel = CLASSES.flatMap((cls, ci) => PREPS.map((p, k) => ({ class: cls, preparation: p, velocity_m_s: V[ci] * (1 + 0.05 * k) })));
+  const groupRows = ['control', 'treated'].flatMap((g, gi) => [1, 2, 3, 4].flatMap((k) => ['baseline', 'drug'].map((e, ei) => ({
+    group: g, preparation: `${g}-${k}`, epoch: e, class: 'C', amplitude_uV: 100 - 30 * gi * ei + 5 * k,
+  }))));
   const hh = model.simulateMembrane({ stimulus: model.stepCurrent(20, 1, 0.5), tMax: 20 });
   return [
     sweepsFigure(sim, { title: 'Simulated compound responses' }),
@@ -64,6 +67,7 @@ function figures(): Figure[] {
     temperatureFigure(tPts, tRows, 'q10'),
     temperatureFigure(tPts, tRows, 'arrhenius'),
     summaryFigure(vel, 'velocity_m_s'),
+    groupFigure(compareGroups(groupRows, { value: 'amplitude_uV', condition: 'epoch' })),
     new Figure('hh', { data: [{ type: 'scatter', mode: 'lines', x: Array.from(hh.t), y: Array.from(hh.V), name: 'V' }], layout: baseLayout('Hodgkin-Huxley membrane, 6.3 °C', 'time (ms)', 'membrane potential (mV)') }),
   ];
 }
@@ -119,12 +123,13 @@ const TOL = 0.5; // px of slack for anti-aliased edges
 const overlap = (a: { l: number; r: number; t: number; b: number }, b: { l: number; r: number; t: number; b: number }) =>
   Math.min(a.r, b.r) - Math.max(a.l, b.l) > TOL && Math.min(a.b, b.b) - Math.max(a.t, b.t) > TOL;
 
-function problems(c: Check): string[] {
+/** Problems of a rendered figure; text sizes in pt at 96 px per inch (print: 7-9 pt). */
+function problems(c: Check, size = { minPt: 7, maxPt: 9 }): string[] {
   const out: string[] = [];
   for (const b of c.boxes) {
     if (b.l < -TOL || b.t < -TOL || b.r > c.canvas.w + TOL || b.b > c.canvas.h + TOL) out.push(`"${b.text}" leaves the canvas (${b.l.toFixed(1)}, ${b.t.toFixed(1)}, ${b.r.toFixed(1)}, ${b.b.toFixed(1)} in ${c.canvas.w} x ${c.canvas.h})`);
     // 7-9 pt at 96 px per inch: 9.33-12 px; superscripts and subscripts are tspans and not counted here
-    if (!(b.fontPx >= 7 * 96 / 72 - 0.01 && b.fontPx <= 9 * 96 / 72 + 0.01)) out.push(`"${b.text}" is ${(b.fontPx * 72 / 96).toFixed(1)} pt`);
+    if (!(b.fontPx >= size.minPt * 96 / 72 - 0.01 && b.fontPx <= size.maxPt * 96 / 72 + 0.01)) out.push(`"${b.text}" is ${(b.fontPx * 72 / 96).toFixed(1)} pt`);
   }
   for (let i = 0; i < c.boxes.length; i++) {
     for (let j = i + 1; j < c.boxes.length; j++) if (overlap(c.boxes[i], c.boxes[j])) out.push(`"${c.boxes[i].text}" overlaps "${c.boxes[j].text}"`);
@@ -174,6 +179,36 @@ describe.skipIf(!browser)('print export at journal widths (headless Chromium)', 
       expect(bad).toEqual([]);
     }, 60000);
   }
+
+  it('every figure kind as a notebook shows it (toHTML, 640 x 420 px): no text overlaps or leaves the canvas', async () => {
+    const bad: string[] = [];
+    for (const f of figs) {
+      const html = f.toHTML('page');
+      // run the figure's own script, wait for its layout to settle, then measure the live plot's SVG layers
+      const svg: string = await ex.page.evaluate(async (h) => {
+        document.body.innerHTML = '';
+        const holder = document.createElement('div');
+        holder.innerHTML = h;
+        document.body.appendChild(holder.firstElementChild!);
+        const code = holder.querySelector('script')!.textContent!;
+        (0, eval)(code); // eslint-disable-line no-eval
+        const gd = document.querySelector('.fascicle-figure') as HTMLElement & { _fullLayout?: unknown };
+        for (let i = 0; i < 200 && !gd._fullLayout; i++) await new Promise((r) => setTimeout(r, 10));
+        let last = '';
+        for (let i = 0; i < 100; i++) { // settled when the SVG stops changing
+          await new Promise((r) => setTimeout(r, 30));
+          const now = gd.innerHTML.length + ':' + JSON.stringify((gd as unknown as { layout: { margin: unknown } }).layout.margin);
+          if (now === last) break;
+          last = now;
+        }
+        const P = (window as unknown as { Plotly: any }).Plotly; // eslint-disable-line @typescript-eslint/no-explicit-any
+        return decodeURIComponent((await P.toImage(gd, { format: 'svg', width: 640, height: 420 })).replace(/^data:image\/svg\+xml,/, ''));
+      }, html);
+      const c = await measure(page, svg);
+      for (const p of problems(c, { minPt: 8, maxPt: 10.5 })) bad.push(`${f.name}: ${p}`);
+    }
+    expect(bad).toEqual([]);
+  }, 60000);
 
   it('the checker itself finds an overlap and text off the canvas (a legend placed over the x-axis title, a long title)', async () => {
     const f = figs[5];
@@ -273,4 +308,3 @@ function pdfTitle(pdf: string): string | null {
   return buf.toString('latin1');
 }
 
-void SweepSet;
