@@ -17,6 +17,36 @@ export function danfo(): typeof import('danfojs-node') {
   return dfd;
 }
 
+/**
+ * Inside a Jupyter kernel (JPY_PARENT_PID is set by Jupyter for its kernels), the
+ * DataFrame library is loaded in the idle time after the cell that imported fascicle,
+ * so the first frame() in a later cell does not wait about a second for it. Scripts and
+ * the command line never load it unless they call frame(). FASCICLE_PRELOAD=0 turns
+ * this off; FASCICLE_PRELOAD=1 turns it on anywhere.
+ */
+export function schedulePreload(env: NodeJS.ProcessEnv = process.env): boolean {
+  const want = env.FASCICLE_PRELOAD === '1' || (env.FASCICLE_PRELOAD !== '0' && env.JPY_PARENT_PID !== undefined);
+  if (!want || dfd) return false;
+  let isMain = true;
+  try {
+    // eslint-disable-next-line @typescript-eslint/no-var-requires
+    isMain = (require('node:worker_threads') as typeof import('node:worker_threads')).isMainThread;
+  } catch {
+    /* no worker threads */
+  }
+  if (!isMain) return false;
+  const t = setTimeout(() => {
+    try {
+      danfo();
+    } catch {
+      /* frame() will report the problem when it is called */
+    }
+  }, 200);
+  t.unref();
+  return true;
+}
+schedulePreload();
+
 /** Rows (objects with the same keys) to a danfo DataFrame; columns in first-seen key order. */
 export function toFrame(rows: readonly Record<string, unknown>[]): DataFrame {
   const d = danfo();
