@@ -78,7 +78,7 @@ export { latencyDefinitions, markRecommended, RECOMMENDED_VELOCITY, FIBRE_RANGE_
 export type { LatencyDefinition, LatencyBasis, VelocityStatus } from './analysis/velocity';
 export { velocityTemperature, temperatureRow } from './analysis/temperature';
 export type { RecruitmentOptions } from './analysis/recruitment';
-export { sweepQc, rejectFlagged, sweepQcDefaults, sweepQcMethods, SweepQcResult, QC_FLAGS, detrendedMadNoise, differenceNoise, railSamples } from './analysis/sweepQc';
+export { sweepQc, rejectFlagged, rejectedSweeps, sweepQcDefaults, sweepQcMethods, SweepQcResult, QC_FLAGS, detrendedMadNoise, differenceNoise, railSamples } from './analysis/sweepQc';
 export type { SweepQcOptions, QcFlag } from './analysis/sweepQc';
 export { welchTTest, mannWhitneyU, mannWhitneyExactSf, rankAverage, oneWayAnova, repeatedMeasuresAnova, holm, benjaminiHochberg, compareGroups, animalMeans, rowsOf, groupMethods, GroupComparison, groupDefaults, tTwoSided, normSf } from './analysis/groups';
 export type { GroupOptions, RowInput, AnimalPoint, WelchResult, MannWhitneyResult, AnovaResult, RmAnovaResult, TestStatus } from './analysis/groups';

@@ -389,6 +389,7 @@ export function sweepQc(set: SweepSet, options: SweepQcOptions = {}): SweepQcRes
   per.forEach((p, s) => {
     if (p.constant) return;
     const rails = railsOf.get(peerOf[s])!;
+    if (rails.size === 0) return;
     const x = data.subarray(s * n, (s + 1) * n);
     const clipped: number[] = [];
     for (let i = 0; i < n; i++) if (rails.has(x[i])) clipped.push(i);
@@ -424,9 +425,16 @@ export function sweepQc(set: SweepSet, options: SweepQcOptions = {}): SweepQcRes
     }
     const med = new Float64Array(w);
     const col = new Float64Array(ix.length);
+    const K = ix.length;
     for (let j = 0; j < w; j++) {
-      for (let k = 0; k < ix.length; k++) col[k] = data[ix[k] * n + ra + j] - per[ix[k]].level;
-      med[j] = medianOf(col);
+      // insertion sort of the few values of one sample (no allocation per sample)
+      for (let k = 0; k < K; k++) {
+        const v = data[ix[k] * n + ra + j] - per[ix[k]].level;
+        let m = k - 1;
+        while (m >= 0 && col[m] > v) { col[m + 1] = col[m]; m--; }
+        col[m + 1] = v;
+      }
+      med[j] = K % 2 ? col[(K - 1) / 2] : 0.5 * (col[K / 2 - 1] + col[K / 2]);
     }
     const rms = ix.map((i) => {
       let q = 0;
@@ -538,13 +546,27 @@ export function rejectFlagged(set: SweepSet, qc: SweepQcResult, options: { flags
   for (const r of qc.rows) {
     const own = String(r.flags ?? '').split(',').filter((f) => f && flags.includes(f as QcFlag));
     if (own.length) {
-      removed.push({ sweep: r.sweep, preparation: r.preparation ?? null, flags: own.join(','), reasons: r.reasons });
+      const c = set.conditions[r.sweep as number];
+      removed.push({
+        sweep: r.sweep, preparation: r.preparation ?? null, file: c.file ?? null, fileSweep: c.fileSweep ?? null,
+        condition: r.condition, flags: own.join(','), reasons: r.reasons,
+      });
     }
     else keep.push(r.sweep as number);
   }
   const sub = set.select(keep);
   const options2 = { flags, removed, kept: keep.length, thresholds: { ...qc.options } };
   return sub.create({ history: [...set.history, { verb: 'rejectFlagged', options: options2, version: VERSION }] });
+}
+
+/**
+ * Every sweep removed by rejectFlagged on the way to `set` (from its history): one row each with the
+ * sweep index at the time, preparation, file, fileSweep, condition, flags and reasons (the bundle's table).
+ * @example rejectedSweeps(rejectFlagged(set, sweepQc(set)))
+ */
+export function rejectedSweeps(set: SweepSet): Row[] {
+  return set.history.filter((h) => h.verb === 'rejectFlagged')
+    .flatMap((h) => (h.options.removed as Row[]).map((r) => ({ ...r })));
 }
 
 /**

@@ -2,7 +2,7 @@ import { describe, it, expect } from 'vitest';
 import { SweepSet, OptionError } from '../../src';
 import {
   sweepQc, rejectFlagged, sweepQcDefaults, sweepQcMethods, detrendedMadNoise, differenceNoise, railSamples,
-  SweepQcResult,
+  SweepQcResult, rejectedSweeps,
 } from '../../src/analysis/sweepQc';
 import { Rng } from '../../src/model/random';
 import { loadSeries, truth } from './devsetQc';
@@ -148,6 +148,11 @@ describe('sweepQc(set) flags injected bad sweeps and spares their neighbours', (
     const id = (c: Record<string, unknown>) => `${c.fileSweep}/${c.channel}`;
     expect(out.conditions.map(id)).not.toContain(id(dirty.conditions[bad.flat[0]]));
     expect(out.conditions.map(id)).toContain(id(dirty.conditions[bad.flat[0] + 2]));
+    // the removed sweeps as a table, with where they came from
+    const table = rejectedSweeps(out);
+    expect(table.length).toBe(removed.length);
+    expect(Object.keys(table[0])).toEqual(['sweep', 'preparation', 'file', 'fileSweep', 'condition', 'flags', 'reasons']);
+    expect(table.find((r) => r.sweep === bad.flat[0])!.fileSweep).toBe(dirty.conditions[bad.flat[0]].fileSweep);
     // only some flags
     const onlyFlat = rejectFlagged(dirty, q, { flags: ['flat'] });
     expect(onlyFlat.nSweeps).toBe(dirty.nSweeps - 1);
