@@ -39,10 +39,10 @@ const axisValues = (data: Trace[], k: 'x' | 'y') => data.flatMap((t) => (Array.i
 
 /** How a condition reads in a legend and on a colour bar. */
 const CONDITION: Record<string, { title: (r: Row) => string; value: (v: number, r: Row) => string }> = {
+  distanceMm: { title: () => 'Conduction distance (mm)', value: (v) => `${tickNumber(v)} mm` },
+  temperatureC: { title: () => 'Temperature (°C)', value: (v) => `${tickNumber(v)} °C` },
   intensity: { title: (r) => `Stimulus intensity${r.intensityUnit ? ` (${unitText(r.intensityUnit)})` : ''}`, value: (v, r) => `${tickNumber(v)}${r.intensityUnit ? ' ' + unitText(r.intensityUnit) : ''}` },
   concentration: { title: (r) => `Concentration${r.concentrationUnit ? ` (${unitText(r.concentrationUnit)})` : ''}`, value: (v, r) => `${tickNumber(v)}${r.concentrationUnit ? ' ' + unitText(r.concentrationUnit) : ''}` },
-  temperatureC: { title: () => 'Temperature (°C)', value: (v) => `${tickNumber(v)} °C` },
-  distanceMm: { title: () => 'Conduction distance (mm)', value: (v) => `${tickNumber(v)} mm` },
   pulseWidthMs: { title: () => 'Pulse width (ms)', value: (v) => `${tickNumber(v)} ms pulse` },
 };
 const LABEL_KEYS = ['preparation', 'label', 'epoch', 'drug', 'site'];

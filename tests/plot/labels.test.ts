@@ -1,0 +1,181 @@
+/** Words, ticks and colours of figures: units, escaping, log-axis labels, palettes, fits drawn in the axis's space. */
+import { describe, it, expect } from 'vitest';
+import { readFileSync } from 'node:fs';
+import {
+  plotlyText, unitText, measureLabel, logTicks, PALETTE, MARKERS, SEQUENTIAL, sequentialColour, velocityFigure,
+  doseResponseFigure, temperatureFigure, recruitmentFigure, strengthDurationFigure, summaryFigure, sweepsFigure, SweepSet,
+} from '../../src';
+import type { Figure } from '../../src';
+
+type Trace = { name?: string; x?: unknown[]; y?: unknown[]; mode?: string; showlegend?: boolean; line?: { dash?: string } };
+const traces = (f: Figure) => f.spec.data as Trace[];
+const legendNames = (f: Figure) => traces(f).filter((t) => t.showlegend !== false && t.name).map((t) => t.name!);
+const allText = (f: Figure) => JSON.stringify(f.spec);
+
+describe('units and names as printed', () => {
+  it('µV, µM, °C instead of ASCII spellings (SI Brochure, 9th ed., BIPM 2019: symbol µ for micro, °C for degree Celsius)', () => {
+    expect(unitText('uV')).toBe('µV');
+    expect(unitText('uM')).toBe('µM');
+    expect(unitText('C')).toBe('°C');
+    expect(unitText('degC')).toBe('°C');
+    expect(unitText('mA')).toBe('mA');
+    expect(unitText('<b>V</b>')).toBe('&lt;b&gt;V&lt;/b&gt;');
+  });
+  it('measure names become words with units, never internal identifiers', () => {
+    expect(measureLabel('centroid_velocity_m_s')).toBe('conduction velocity (m/s)');
+    expect(measureLabel('regression_velocity')).toBe('conduction velocity (m/s)');
+    expect(measureLabel('amplitude_uV')).toBe('amplitude (µV)');
+    expect(measureLabel('width_ms')).toBe('width (ms)');
+    expect(measureLabel('ea_kJ_mol')).toBe('ea (kJ/mol)');
+    expect(measureLabel('1/peak_ms')).toBe('1 / peak latency (ms)');
+  });
+  it('plotlyText keeps markup as text (entities plotly decodes: &amp; &lt; &gt;)', () => {
+    expect(plotlyText('<a href="x">N1</a> & co')).toBe('&lt;a href="x"&gt;N1&lt;/a&gt; &amp; co');
+  });
+});
+
+describe('log-axis ticks label full values', () => {
+  // common practice, no source: a log axis labelled 1, 10, 100 (or 1, 2, 5, 10 over a short span), never "5, 2, 10, 5, 2, 1"
+  const fullValue = (t: { tickvals: number[]; ticktext: string[] }) => t.tickvals.every((v, i) => Number(t.ticktext[i]) === v || /^10<sup>-?\d+<\/sup>$/.test(t.ticktext[i]));
+  it('four decades: decades only, with unlabelled minor ticks at 2-9', () => {
+    const t = logTicks([0.3, 1000])!;
+    expect(t.tickvals).toEqual([1, 10, 100, 1000]);
+    expect(t.minor).toContain(2);
+    expect(t.minor).toContain(500);
+    expect(fullValue(t)).toBe(true);
+  });
+  it('two decades: 1-3 steps (half-log, as dose-response axes are often drawn)', () => {
+    const t = logTicks([0.45, 50])!;
+    expect(t.tickvals).toEqual([1, 3, 10, 30]);
+    expect(fullValue(t)).toBe(true);
+  });
+  it('one decade: 1-2-5 steps', () => {
+    const t = logTicks([1, 9])!;
+    expect(t.tickvals).toEqual([1, 2, 5, 10]); // the range is padded by 0.06 decade: 0.87-10.3
+  });
+  it('a short span (8-14 m/s) gets at least three evenly stepped values, each written in full', () => {
+    const t = logTicks([8, 14])!;
+    expect(t.tickvals.length).toBeGreaterThanOrEqual(3);
+    expect(t.tickvals.every((v) => v >= 10 ** t.range[0] && v <= 10 ** t.range[1])).toBe(true);
+    expect(fullValue(t)).toBe(true);
+    expect(new Set(t.ticktext).size).toBe(t.ticktext.length);
+  });
+  it('no labels repeat and all lie in the range, over spans from 0.1 to 8 decades', () => {
+    for (let lo = -3; lo <= 1; lo += 0.37) {
+      for (const span of [0.1, 0.3, 0.7, 1.1, 1.9, 2.6, 4, 8]) {
+        const t = logTicks([10 ** lo, 10 ** (lo + span)])!;
+        expect(new Set(t.ticktext).size).toBe(t.ticktext.length);
+        expect(t.tickvals.length).toBeGreaterThanOrEqual(2);
+        expect(t.tickvals.length).toBeLessThanOrEqual(6);
+        expect(t.tickvals.every((v) => Math.log10(v) >= t.range[0] - 1e-9 && Math.log10(v) <= t.range[1] + 1e-9)).toBe(true);
+      }
+    }
+  });
+  it('no positive values: no log ticks', () => expect(logTicks([0, -1, NaN])).toBeNull());
+});
+
+describe('palette and sequential scale', () => {
+  it('classes get the Wong (2011, Nat Methods 8:441) colour-blind-safe colours and distinct marker shapes', () => {
+    // Wong's eight colours (values from memory of the published table): black, orange, sky blue, bluish green,
+    // yellow, blue, vermillion, reddish purple; fascicle leaves out yellow
+    const wong = ['#000000', '#E69F00', '#56B4E9', '#009E73', '#F0E442', '#0072B2', '#D55E00', '#CC79A7'];
+    expect(PALETTE.every((c) => wong.includes(c))).toBe(true);
+    expect(PALETTE).not.toContain('#F0E442');
+    expect(new Set(MARKERS).size).toBe(MARKERS.length);
+  });
+  it('the sequential scale is viridis as plotly.js ships it (stops read from the installed plotly.js-dist-min)', () => {
+    const src = readFileSync(require.resolve('plotly.js-dist-min'), 'utf8');
+    const m = /Viridis:(\[\[[^\]]*\](?:,\[[^\]]*\])*\])/.exec(src)!;
+    const ref = JSON.parse(m[1].replace(/\[\./g, '[0.')) as [number, string][];
+    for (const [x, c] of SEQUENTIAL) expect(ref.find((r) => Math.abs(r[0] - x) < 1e-12)?.[1]).toBe(c);
+    expect(sequentialColour(0)).toBe('#440154');
+    expect(sequentialColour(1)).toBe(SEQUENTIAL[SEQUENTIAL.length - 1][1]);
+  });
+  it('sweeps varying in one condition are coloured along the scale, in order, with a colour bar beyond 6 sweeps', () => {
+    const n = 20, k = 8;
+    const data = new Float64Array(n * k).map((_, i) => Math.sin(i));
+    const set = new SweepSet({ data, nSweeps: k, nSamples: n, fs: 10000, t0Ms: 0, units: 'uV', conditions: Array.from({ length: k }, (_, i) => ({ intensity: 0.1 * 2 ** i, intensityUnit: 'mA' })) });
+    const f = sweepsFigure(set);
+    const lines = traces(f).filter((t) => t.mode === 'lines') as { line: { color: string } }[];
+    expect(lines[0].line.color).toBe('#440154');
+    expect(new Set(lines.map((l) => l.line.color)).size).toBe(k);
+    const bar = traces(f).find((t) => (t as { marker?: { showscale?: boolean } }).marker?.showscale) as { marker: { colorbar: { title: { text: string } } } };
+    expect(bar.marker.colorbar.title.text).toBe('Stimulus intensity (mA)');
+    expect(allText(f)).toContain('Signal (µV)');
+  });
+  it('the legend says what differs between sweeps (distance and temperature), not "sweep 0-3"', () => {
+    const n = 10;
+    const conds = [10, 30].flatMap((d) => [22, 37].map((T) => ({ distanceMm: d, temperatureC: T })));
+    const set = new SweepSet({ data: new Float64Array(n * 4), nSweeps: 4, nSamples: n, fs: 10000, t0Ms: 0, units: 'uV', conditions: conds });
+    expect(legendNames(sweepsFigure(set))).toEqual(['10 mm, 22 °C', '10 mm, 37 °C', '30 mm, 22 °C', '30 mm, 37 °C']);
+  });
+});
+
+describe('fits drawn in the axis space and named in the legend', () => {
+  const V = [50, 12, 0.8];
+  const rows = ['A-alpha/beta', 'A-delta', 'C'].flatMap((cls, ci) => [20, 40].map((d) => ({ class: cls, preparation: 'N1', detected: true, distance_mm: d, centroid_ms: 0.1 + d / V[ci] })));
+  it('latency against distance: each fit is a dense curve through the data on the log axis, latency = 0.1 ms + d / v', () => {
+    const f = velocityFigure(rows);
+    expect((f.spec.layout.yaxis as { type: string }).type).toBe('log');
+    const fits = traces(f).filter((t) => t.mode === 'lines' && t.x!.length > 2);
+    expect(fits).toHaveLength(3);
+    fits.forEach((t, ci) => {
+      expect(t.x!.length).toBeGreaterThanOrEqual(30);
+      // every vertex lies on the line (exact data: intercept 0.1 ms, slope 1 / v ms per mm)
+      (t.x as number[]).forEach((x, i) => expect((t.y as number[])[i]).toBeCloseTo(0.1 + x / V[ci], 9));
+      expect(Math.min(...(t.x as number[]))).toBeLessThanOrEqual(20);
+      expect(Math.max(...(t.x as number[]))).toBeGreaterThanOrEqual(40);
+    });
+    expect(legendNames(f)).toEqual(['A-alpha/beta 50 m/s', 'A-delta 12 m/s', 'C 0.8 m/s', 'Linear fit']);
+  });
+  it('a linear axis where latencies span less than a factor of 10 (the fit is then a straight line from distance 0)', () => {
+    const f = velocityFigure(rows.filter((r) => r.class === 'C'));
+    expect((f.spec.layout.yaxis as { type?: string }).type).not.toBe('log');
+    const fit = traces(f).find((t) => t.mode === 'lines' && t.x!.length > 2)!;
+    expect((fit.x as number[])[0]).toBe(0);
+  });
+  it('dose-response names the fit and the shaded band; no "animals", no uM', () => {
+    const pts = [1, 10, 100].flatMap((c) => ['a', 'b'].map((p) => ({ preparation: p, class: 'C', concentration: c, normalized: 1 / (1 + c / 10) })));
+    const f = doseResponseFigure(pts, [{ class: 'C', ic50: 10, pooled_ic50: 10, pooled_hill: 1, pooled_bottom: 0, concentrationUnit: 'uM' }]);
+    expect(legendNames(f)).toContain('Hill fit, pooled');
+    expect(legendNames(f)[0]).toBe('C IC<sub>50</sub> 10 µM');
+    expect(allText(f)).not.toMatch(/uM|animals/);
+  });
+  it('strength-duration explains solid (Weiss) and dashed (Lapicque) in the legend', () => {
+    const f = strengthDurationFigure({ points: [0.1, 0.5, 1].map((w) => ({ class: 'C', pulseWidthMs: w, criterion: 1 + 1 / w })), rows: [{ class: 'C', rheobase: 1, chronaxie_ms: 1, lapicque_rheobase: 1, lapicque_tau_ms: 1.44 }] });
+    const entries = traces(f).filter((t) => t.showlegend !== false && t.mode === 'lines');
+    expect(entries.map((t) => [t.name, t.line?.dash ?? 'solid'])).toEqual([['Weiss fit', 'solid'], ['Lapicque fit', 'dash']]);
+  });
+  it('temperature: °C on the axis, Q10 in the legend, a readable y title', () => {
+    const pts = [25, 30, 35].map((T) => ({ class: 'A', preparation: 'a', temperatureC: T, value: 10 * 1.4 ** ((T - 35) / 10), measure: 'centroid_velocity_m_s' }));
+    const f = temperatureFigure(pts, [{ class: 'A', q10: 1.4, ea_kJ_mol: 25 }], 'q10');
+    const l = f.spec.layout as { xaxis: { title: { text: string } }; yaxis: { title: { text: string } } };
+    expect(l.xaxis.title.text).toBe('Temperature (°C)');
+    expect(l.yaxis.title.text).toBe('Conduction velocity (m/s)');
+    expect(legendNames(f)).toEqual(['A Q<sub>10</sub> 1.40', 'Log-linear fit']);
+    expect(allText(f)).not.toContain('velocity_m_s (');
+  });
+  it('recruitment and summary say "preparation", name the fit, and print µV', () => {
+    const pts = [0.1, 0.3, 1, 3].map((I) => ({ class: 'A', preparation: 'N1', intensity: I, response: 100 / (1 + 1 / I) }));
+    const rec = recruitmentFigure(pts, null, [{ class: 'A', preparation: 'N1', floor: 0, maximum: 100, i50: 1, i95: 10, intensityUnit: 'mA' }], 'uV');
+    expect(legendNames(rec)).toEqual(['A', 'Boltzmann fit']);
+    expect(allText(rec)).toContain('Amplitude (µV)');
+    const sum = summaryFigure([{ class: 'A', preparation: 'a', v: 1 }, { class: 'A', preparation: 'b', v: 2 }], 'v', 'velocity (m/s)');
+    expect(legendNames(sum)).toEqual(['One preparation', 'Mean and 95% CI']);
+    expect(allText(sum)).not.toContain('animal');
+    expect((sum.spec.layout.title as { text: string }).text).toBe('Velocity across preparations');
+  });
+  it('titles are in sentence case', () => {
+    for (const f of [velocityFigure(rows), temperatureFigure([], [], 'arrhenius')]) {
+      const t = (f.spec.layout.title as { text: string }).text;
+      expect(t[0]).toBe(t[0].toUpperCase());
+      expect(t.slice(1)).toBe(t.slice(1).replace(/\b(Latency|Against|Distance|Plot)\b/g, (w) => w.toLowerCase()));
+    }
+  });
+  it('user labels are escaped in legend names and hover text of every builder', () => {
+    const evil = '<a href="x">N1</a>';
+    const f = velocityFigure(rows.map((r) => ({ ...r, class: evil, preparation: evil })).slice(0, 2));
+    expect(allText(f)).not.toContain('<a href');
+    expect(allText(f)).toContain('&lt;a href=\\"x\\"&gt;N1&lt;/a&gt;');
+  });
+});
