@@ -18,8 +18,9 @@
  *   edge of its search range: that pair is left out (counted); no pair left: rejected;
  * - latency not increasing with distance: rejected;
  * - a utilisation time (intercept at distance 0, from the regression or implied by a two-site
- *   velocity) below -25% of the latency at the nearest site, and below 0 beyond its 95% CI:
- *   rejected (a latency cannot be shorter than its conduction time);
+ *   velocity) below -25% of the latency at the nearest site (-50% for onsets, which run ahead in a
+ *   dispersing volley), and below 0 beyond its 95% CI: rejected (a latency cannot be shorter than
+ *   its conduction time);
  * - outside the class's own velocity range at that temperature (two-site and regression rows; a
  *   single-site velocity is biased low by the utilisation time): kept, status "outside class range"
  *   (the wave may belong to another class, or the preset may not fit this nerve).
@@ -60,8 +61,13 @@ export interface LatencyDefinition { basis: LatencyBasis; column: string; defini
 export const FIBRE_RANGE_M_S: [number, number] = [0.02, 300];
 /** the least delay (in sample intervals) a two-site estimate accepts */
 export const MIN_DELAY_SAMPLES = 2;
-/** a utilisation time below -this x the nearest latency (and below 0 beyond its CI) is impossible */
+/**
+ * a utilisation time below -this x the nearest latency (and below 0 beyond its CI) is impossible;
+ * an onset, which travels with the faster fibres of a dispersing volley, may extrapolate a little
+ * below zero, so onset latencies get twice the margin
+ */
 export const NEGATIVE_UTILISATION_FRACTION = 0.25;
+const utilisationMargin = (basis: string) => (basis === 'onset' ? 2 : 1) * NEGATIVE_UTILISATION_FRACTION;
 
 /**
  * The latency definitions a component table holds, in the order onset, half-rise, peak, centroid.
@@ -164,9 +170,10 @@ export function singleSiteVelocity(rows: readonly ComponentRow[], by: string[], 
 }
 
 /** The intercept (utilisation time) check shared by regression and two-site rows. */
-function utilisationProblem(intercept: number, ciHigh: number, nearLatency: number): string | null {
-  if (intercept < -NEGATIVE_UTILISATION_FRACTION * Math.abs(nearLatency) && !(ciHigh >= 0)) {
-    return `the latency extrapolated to distance 0 (utilisation time) is ${intercept.toFixed(3)} ms, below -${100 * NEGATIVE_UTILISATION_FRACTION}% of the latency at the nearest site (${nearLatency.toFixed(3)} ms): a latency cannot be shorter than its conduction time; check the distances (conduction distance from the stimulating cathode), the stimulus time and which phase was measured`;
+function utilisationProblem(intercept: number, ciHigh: number, nearLatency: number, basis: string): string | null {
+  const f = utilisationMargin(basis);
+  if (intercept < -f * Math.abs(nearLatency) && !(ciHigh >= 0)) {
+    return `the latency extrapolated to distance 0 (utilisation time) is ${intercept.toFixed(3)} ms, below -${100 * f}% of the latency at the nearest site (${nearLatency.toFixed(3)} ms): a latency cannot be shorter than its conduction time; check the distances (conduction distance from the stimulating cathode), the stimulus time and which phase was measured`;
   }
   return null;
 }
@@ -203,7 +210,7 @@ export function regressionVelocity(rows: readonly ComponentRow[], by: string[], 
       let j: { status: VelocityStatus; reason: string | null };
       if (!(f.slope > 0)) j = { status: 'implausible', reason: `${d.definition} latency does not increase with distance (slope ${f.slope.toPrecision(3)} ms/mm); check that distances are conduction distances from the stimulating electrode` };
       else {
-        const u = utilisationProblem(f.intercept, uHigh, nearLat);
+        const u = utilisationProblem(f.intercept, uHigh, nearLat, d.basis);
         j = u ? { status: 'implausible', reason: u } : judge(v, range, cls);
       }
       out.push(finish({
@@ -340,7 +347,7 @@ export function twoSiteVelocity(set: SweepSet, rows: readonly ComponentRow[], me
         if (j.status !== 'implausible' && nearLat.length) {
           // the utilisation time this velocity implies at the near site
           const lat = summarize(nearLat).mean;
-          const u = utilisationProblem(lat - d1 / v, dhi > 0 ? lat - d1 / (dL / dhi) : NaN, lat);
+          const u = utilisationProblem(lat - d1 / v, dhi > 0 ? lat - d1 / (dL / dhi) : NaN, lat, basis);
           if (u) j = { status: 'implausible', reason: u };
         }
         out.push(finish({
