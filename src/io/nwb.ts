@@ -30,7 +30,7 @@ import { lazySource } from './files';
 import { sharedSamples } from '../parallel/pool';
 import { VERSION } from '../version';
 import {
-  nwbReady, openHdf5, at, attr, attrNumber, attrText, typeOf, numbers, texts, elementKind, isGroup, isDataset,
+  nwbReady, openHdf5, HyperslabReader, at, attr, attrNumber, attrText, typeOf, numbers, texts, elementKind, isGroup, isDataset,
   type H5File, type H5Group, type H5Dataset,
 } from './nwbLib';
 import { NWB_CONDITIONS, findColumn, convertColumn, decodeColumn, type TableColumn } from './nwbColumns';
@@ -101,6 +101,7 @@ interface SeriesInfo {
   electrode: Record<string, ConditionValue>;
   /** every step-th timestamp (built on first use) */
   coarse?: { step: number; values: Float64Array };
+  reader?: HyperslabReader;
 }
 
 /**
@@ -318,6 +319,7 @@ function readOpen(path: string, f: H5File, o: NwbReadOptions, win: [number, numb
     if (s.timestamps) checkGrid(path, s, i0, i1, fs, row);
     readInto(path, s, i0, i1, out, k * nSamples, row);
   });
+  for (const s of series) s.reader?.close();
 
   const conditions: Conditions[] = selected.map((row, k) => ({
     ...conditionsOf(row, place[k].s),
@@ -738,9 +740,13 @@ function locate(file: string, series: SeriesInfo[], T: number, fs: number, row: 
  */
 function checkGrid(file: string, s: SeriesInfo, i0: number, i1: number, fs: number, row: number): void {
   const dt = 1 / fs;
-  const t0 = numbers(s.timestamps!, [i0, i0 + 1])[0];
+  const ts = s.timestamps!;
+  // compressed timestamps: the window in one read (one chunk decoded); otherwise three single values
+  const whole = ts.filters.length > 0 ? numbers(ts, [i0, i1]) : null;
+  const value = (i: number) => (whole ? whole[i - i0] : numbers(ts, [i, i + 1])[0]);
+  const t0 = value(i0);
   for (const i of [i0 + ((i1 - i0) >> 1), i1 - 1]) {
-    const t = numbers(s.timestamps!, [i, i + 1])[0];
+    const t = value(i);
     const want = t0 + (i - i0) * dt;
     if (Math.abs(t - want) > 0.25 * dt) {
       throw new InputError({ file, field: `${s.path}/timestamps` },
@@ -752,21 +758,21 @@ function checkGrid(file: string, s: SeriesInfo, i0: number, i1: number, fs: numb
 
 /** One hyperslab into out[o..o+n), converted. */
 function readInto(file: string, s: SeriesInfo, i0: number, i1: number, out: Float64Array, o: number, row: number): void {
-  const sel: [number, number][] = s.nChannels > 1 || (s.data.shape ?? []).length === 2 ? [[i0, i1], [s.channel, s.channel + 1]] : [[i0, i1]];
-  let raw: ArrayLike<number | bigint>;
+  s.reader ??= new HyperslabReader(s.data);
+  const twoD = (s.data.shape ?? []).length === 2;
+  const { gain, shift, identity } = s;
+  let bad = -1;
   try {
-    raw = s.data.slice(sel) as unknown as ArrayLike<number | bigint>;
+    s.reader.read(i0, i1, twoD ? s.channel : null, (k, r) => {
+      const v = identity ? r : r * gain + shift;
+      out[o + k] = v;
+      if (bad < 0 && !Number.isFinite(v)) bad = k;
+    });
   } catch (e) {
     throw new InputError({ file, field: `${s.path}/data` }, `reading samples ${i0}..${i1 - 1} failed (${String((e as Error).message).slice(0, 200)})`, 'readable data');
   }
-  const n = i1 - i0;
-  if (!raw || raw.length !== n) throw new InputError({ file, field: `${s.path}/data` }, `read ${raw?.length ?? 0} of ${n} samples for row ${row}`, 'the whole window');
-  const big = typeof raw[0] === 'bigint';
-  for (let k = 0; k < n; k++) {
-    const r = big ? Number(raw[k]) : (raw[k] as number);
-    const v = s.identity ? r : r * s.gain + s.shift;
-    if (!Number.isFinite(v)) throw new InputError({ file, field: `${s.path}/data`, sweep: row }, `a non-finite sample (${v}) at sample ${i0 + k}`, 'finite samples');
-    out[o + k] = v;
+  if (bad >= 0) {
+    throw new InputError({ file, field: `${s.path}/data`, sweep: row }, `a non-finite sample (${out[o + bad]}) at sample ${i0 + bad}`, 'finite samples');
   }
 }
 

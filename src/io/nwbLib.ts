@@ -19,6 +19,8 @@ export type H5Dataset = H5.Dataset;
 
 let lib: H5Lib | null = null;
 let loading: Promise<H5Lib> | null = null;
+/** the module namespace (its `Module` is the compiled library, with get_dataset_data and the heap) */
+let ns: Record<string, unknown> | null = null;
 
 /** Where npm put h5wasm's Node build (its package exports only an ESM `import` entry). */
 function h5wasmFile(): string {
@@ -51,6 +53,7 @@ export async function nwbReady(): Promise<void> {
     const m = await importEsm(pathToFileURL(h5wasmFile()).href);
     const h5 = (m.default ?? m) as H5Lib;
     await h5.ready;
+    ns = m;
     lib = h5;
     return h5;
   })();
@@ -193,4 +196,81 @@ export function elementKind(d: H5Dataset): 'int' | 'float' | 'string' | 'referen
   // HDF5 type classes: 0 integer, 1 float, 3 string, 6 compound, 7 reference, 8 enum (h5py's booleans)
   return m.type === 0 || m.type === 8 ? 'int' : m.type === 1 ? 'float' : m.type === 3 ? 'string' : m.type === 7 ? 'reference'
     : m.type === 6 ? 'compound' : 'other';
+}
+
+interface RawModule {
+  get_dataset_data(fileId: bigint, path: string, count: bigint[], offset: bigint[], strides: bigint[], ptr: bigint): number;
+  _malloc(n: number): number;
+  _free(p: number): void;
+  HEAPU8: Uint8Array;
+}
+
+/**
+ * Reads hyperslabs of one numeric dataset straight into a caller's array: the samples go from the
+ * file into one reusable buffer in the library's heap and are converted from there, so no copy is
+ * made per read (h5wasm's slice() copies each read into a new array). Falls back to slice() when
+ * the library does not offer its low-level read.
+ */
+export class HyperslabReader {
+  private readonly d: H5Dataset;
+  private readonly shape: number[];
+  private readonly size: number;
+  private readonly kind: 'int' | 'float';
+  private readonly signed: boolean;
+  private readonly little: boolean;
+  private ptr = 0;
+  private cap = 0;
+  private readonly raw: RawModule | null;
+
+  constructor(d: H5Dataset) {
+    this.d = d;
+    const m = d.metadata as { shape: number[]; size: number; signed: boolean; littleEndian: boolean; type: number };
+    this.shape = m.shape;
+    this.size = m.size;
+    this.kind = m.type === 1 ? 'float' : 'int';
+    this.signed = m.signed;
+    this.little = m.littleEndian;
+    const mod = (ns?.Module ?? null) as RawModule | null;
+    this.raw = mod && typeof mod.get_dataset_data === 'function' && typeof mod._malloc === 'function' && this.little ? mod : null;
+  }
+
+  /** Read rows [i0, i1) (of column `col` for 2-D data) and pass each value to put(k, value). */
+  read(i0: number, i1: number, col: number | null, put: (k: number, v: number) => void): void {
+    const n = i1 - i0;
+    const ranges: [number, number][] = col === null ? [[i0, i1]] : [[i0, i1], [col, col + 1]];
+    if (!this.raw) {
+      const v = this.d.slice(ranges) as unknown as ArrayLike<number | bigint>;
+      if (!v || v.length !== n) throw new Error(`read ${v?.length ?? 0} of ${n} values`);
+      for (let k = 0; k < n; k++) put(k, Number(v[k]));
+      return;
+    }
+    const bytes = n * this.size;
+    if (bytes > this.cap) {
+      if (this.ptr) this.raw._free(this.ptr);
+      this.ptr = this.raw._malloc(bytes);
+      if (!this.ptr) throw new Error(`the HDF5 library could not allocate ${bytes} bytes`);
+      this.cap = bytes;
+    }
+    const count = this.shape.map((s, i) => BigInt(i === 0 ? n : col === null ? s : 1));
+    const offset = this.shape.map((_, i) => BigInt(i === 0 ? i0 : col ?? 0));
+    const strides = this.shape.map(() => 1n);
+    this.raw.get_dataset_data(this.d.file_id, this.d.path, count, offset, strides, BigInt(this.ptr));
+    const buf = this.raw.HEAPU8.buffer; // after the read: the heap may have grown
+    const at = this.ptr;
+    const view = this.kind === 'float'
+      ? (this.size === 8 ? new Float64Array(buf, at, n) : new Float32Array(buf, at, n))
+      : this.size === 1 ? (this.signed ? new Int8Array(buf, at, n) : new Uint8Array(buf, at, n))
+        : this.size === 2 ? (this.signed ? new Int16Array(buf, at, n) : new Uint16Array(buf, at, n))
+          : this.size === 4 ? (this.signed ? new Int32Array(buf, at, n) : new Uint32Array(buf, at, n))
+            : (this.signed ? new BigInt64Array(buf, at, n) : new BigUint64Array(buf, at, n));
+    if (view instanceof BigInt64Array || view instanceof BigUint64Array) for (let k = 0; k < n; k++) put(k, Number(view[k]));
+    else for (let k = 0; k < n; k++) put(k, view[k]);
+  }
+
+  /** Free the buffer. */
+  close(): void {
+    if (this.raw && this.ptr) this.raw._free(this.ptr);
+    this.ptr = 0;
+    this.cap = 0;
+  }
 }

@@ -50,10 +50,14 @@ export interface NwbWriteOptions {
   lab?: string;
   institution?: string;
   experimenter?: string | readonly string[];
+  /** gzip (deflate) level 0-9 of the samples and timestamps, which every HDF5 reader decodes; 0 stores them
+   * uncompressed (the default: reading and writing are then several times faster; gzip 4 makes typical sweeps
+   * about 2.5x smaller). */
+  compression?: number;
 }
 
 const WRITE_KEYS = ['raw', 'overwrite', 'results', 'sessionDescription', 'sessionStartTime', 'identifier', 'subject', 'lab',
-  'institution', 'experimenter'];
+  'institution', 'experimenter', 'compression'];
 /** Verbs that leave samples as acquired. */
 const RAW_VERBS = new Set(['readBinary', 'readDelimited', 'readManifest', 'readNwb', 'select', 'where', 'crop', 'toUnits', 'concat']);
 const UNIT_TO_VOLTS = { V: 1, mV: 1e-3, uV: 1e-6 } as const;
@@ -114,6 +118,8 @@ export function writeNwbSync(set: SweepSet, path: string, options: NwbWriteOptio
     }
   }
   if (set.nSweeps === 0) throw new OptionError('the set has no sweeps to write');
+  const level = options.compression ?? 0;
+  if (!Number.isInteger(level) || level < 0 || level > 9) throw new OptionError(`invalid compression: ${shown(level)}; must be a gzip level 0..9 (0: none)`);
   const start = options.sessionStartTime ?? (set.extras.nwb as { session_start_time?: string } | undefined)?.session_start_time;
   const startIso = start instanceof Date ? start.toISOString() : start;
   if (startIso !== undefined && (typeof startIso !== 'string' || Number.isNaN(Date.parse(startIso)) || !/T.*(Z|[+-]\d\d:?\d\d)$/.test(startIso))) {
@@ -147,7 +153,7 @@ export function writeNwbSync(set: SweepSet, path: string, options: NwbWriteOptio
     const created = new (h5().File)(tmp, 'w');
     if (typeof created.file_id === 'bigint' && created.file_id < 0n) throw new OutputError(path, `cannot create a temporary file in ${dir}`, { refused: false });
     f = created;
-    result = writeContent(f, set, options, raw, startIso);
+    result = writeContent(f, set, options, raw, startIso, level);
     f.close();
     f = null;
     renameSync(tmp, target);
@@ -172,7 +178,7 @@ function text(g: H5Group, name: string, value: string | readonly string[]) {
   return g.create_dataset({ name, data: typeof value === 'string' ? value : [...value], dtype: S });
 }
 
-function writeContent(f: H5File, set: SweepSet, o: NwbWriteOptions, raw: boolean, startIso: string | undefined): Omit<NwbWriteResult, 'path'> {
+function writeContent(f: H5File, set: SweepSet, o: NwbWriteOptions, raw: boolean, startIso: string | undefined, level: number): Omit<NwbWriteResult, 'path'> {
   const now = new Date().toISOString();
   const manifest = set.extras.manifest as { study?: string; description?: string; species?: string; nerve?: string } | undefined;
   const fromNwb = set.extras.nwb as { general?: Record<string, string | string[]>; subject?: Record<string, string> } | undefined;
@@ -284,20 +290,31 @@ function writeContent(f: H5File, set: SweepSet, o: NwbWriteOptions, raw: boolean
     g.create_attribute('comments', 'sweeps on a synthetic time axis: see /general/notes', null, S);
     g.create_attribute('filtering', filtering, null, S);
     const total = members.length * n;
-    const rowsPerChunk = Math.max(1, Math.min(members.length, Math.floor(65536 / n))) * n;
-    const d = g.create_dataset({ name: 'data', data: new Float64Array(0), shape: [0, 1], maxshape: [null, 1], chunks: [Math.min(rowsPerChunk, Math.max(1, total)), 1] });
+    // chunks of whole sweeps (about 256 KB), each written once, so a reader decodes only the sweeps it reads
+    const perChunk = Math.max(1, Math.min(members.length, Math.floor(32768 / n)));
+    const chunk = perChunk * n;
+    const gz = level > 0 ? { compression: 'gzip' as const, compression_opts: level } : {};
+    const d = g.create_dataset({ name: 'data', data: new Float64Array(0), shape: [0, 1], maxshape: [null, 1], chunks: [chunk, 1], ...gz });
     d.resize([total, 1]);
-    const ts = g.create_dataset({ name: 'timestamps', data: new Float64Array(0), shape: [0], maxshape: [null], chunks: [Math.min(rowsPerChunk, Math.max(1, total))] });
+    const ts = g.create_dataset({ name: 'timestamps', data: new Float64Array(0), shape: [0], maxshape: [null], chunks: [chunk], ...gz });
     ts.resize([total]);
-    const t = new Float64Array(n);
-    members.forEach((i, k) => {
-      d.write_slice([[k * n, (k + 1) * n], [0, 1]], data.subarray(i * n, (i + 1) * n));
-      const T = stimAt(i);
-      for (let j = 0; j < n; j++) t[j] = T + (set.t0Ms + (j * 1000) / set.fs) / 1000;
-      ts.write_slice([[k * n, (k + 1) * n]], t);
-      idxStart[i] = k * n;
-      seriesOf[i] = seriesPaths.length;
-    });
+    const xb = new Float64Array(chunk);
+    const tb = new Float64Array(chunk);
+    for (let k0 = 0; k0 < members.length; k0 += perChunk) {
+      const k1 = Math.min(members.length, k0 + perChunk);
+      for (let k = k0; k < k1; k++) {
+        const i = members[k];
+        const o = (k - k0) * n;
+        xb.set(data.subarray(i * n, (i + 1) * n), o);
+        const T = stimAt(i);
+        for (let j = 0; j < n; j++) tb[o + j] = T + (set.t0Ms + (j * 1000) / set.fs) / 1000;
+        idxStart[i] = k * n;
+        seriesOf[i] = seriesPaths.length;
+      }
+      const m = (k1 - k0) * n;
+      d.write_slice([[k0 * n, k1 * n], [0, 1]], m === chunk ? xb : xb.subarray(0, m));
+      ts.write_slice([[k0 * n, k1 * n]], m === chunk ? tb : tb.subarray(0, m));
+    }
     d.create_attribute('unit', 'volts', null, S);
     d.create_attribute('conversion', UNIT_TO_VOLTS[set.units], null, '<f');
     d.create_attribute('offset', 0, null, '<f');
