@@ -17,6 +17,7 @@ import { join } from 'node:path';
 import { createHash } from 'node:crypto';
 import { readNwb, readNwbSync, readNwbTables, nwbReady } from '../../src/io/nwb';
 import { writeNwb, writtenByFascicle } from '../../src/io/nwbWrite';
+import { h5, HyperslabReader } from '../../src/io/nwbLib';
 import { SweepSet, type Conditions } from '../../src/sweeps/SweepSet';
 import { InputError, OptionError, OutputError } from '../../src/errors';
 import { readManifest } from '../../src/io/manifest';
@@ -236,6 +237,34 @@ describe('writeNwb(set, path, options) and reading back', () => {
     });
     expect(writtenByFascicle(p)).toBe(true);
     expect(writtenByFascicle(fx('continuous.nwb'))).toBe(false);
+  });
+
+  it('compression: gzip-compressed samples and timestamps read back identical', async () => {
+    const set = sampleSet();
+    const p = join(tmp, 'gzip.nwb');
+    await writeNwb(set, p, { raw: true, compression: 6 });
+    const back = await readNwb(p);
+    expect(Array.from(back.data)).toEqual(Array.from(set.data));
+    expect(back.t0Ms).toBe(set.t0Ms);
+    await expect(writeNwb(set, join(tmp, 'gz2.nwb'), { compression: 11 })).rejects.toThrow(/invalid compression: 11/);
+  });
+
+  it('HyperslabReader gives what h5wasm slice() gives (int16 2-D with gzip, float32 1-D)', () => {
+    const lib = h5();
+    for (const [file, path, col] of [[fx('continuous.nwb'), 'acquisition/nerve/data', 2], [fx('precut.nwb'), 'acquisition/cap_sweeps/data', null]] as const) {
+      const f = new lib.File(file, 'r');
+      try {
+        const d = f.get(path) as import('h5wasm').Dataset;
+        const r = new HyperslabReader(d);
+        const got: number[] = [];
+        r.read(777, 1234, col, (k, v) => { got[k] = v; });
+        r.close();
+        const ranges: [number, number][] = col === null ? [[777, 1234]] : [[777, 1234], [col, col + 1]];
+        expect(got).toEqual(Array.from(d.slice(ranges) as ArrayLike<number>));
+      } finally {
+        f.close();
+      }
+    }
   });
 
   it('conditioned samples go to a processing module with the history; raw: true refuses conditioned samples', async () => {
