@@ -1,18 +1,18 @@
 /**
  * Group-comparison figure: one point per animal (preparation), and the mean with its t-based
  * 95% CI per group; with a within-animal condition, conditions along the x axis, groups side by
- * side and each animal's points joined. User strings (group, condition, animal names) are
- * HTML-escaped before they reach the spec, since plotly renders tags in names and labels.
+ * side and each animal's points joined. User strings (group, condition, animal names, labels)
+ * are escaped for plotly (plotlyText: & < > as entities), since plotly renders tags in names and labels;
+ * the axis title with its unit comes from measureLabel (plot/labels.ts).
  */
 import type { ConditionValue } from '../sweeps/SweepSet';
 import type { GroupComparison } from '../analysis/groups';
 import { Figure, PALETTE, baseLayout } from './figure';
-import { escapeHtml } from '../notebook/html';
+import { plotlyText as esc, measureLabel, unitText } from './labels';
 import { OptionError } from '../errors';
 
 const colour = (i: number) => PALETTE[i % PALETTE.length];
 const same = (a: unknown, b: unknown) => JSON.stringify(a) === JSON.stringify(b);
-const UNIT_SUFFIX = /_(uV_ms|mV_ms|V_s|m_s|uV|mV|V|ms|mm|mA|uA|uM|nM|mM|Hz)$/;
 
 /** A deterministic jitter in [-1, 1] from a label (so a figure is the same on every run). */
 function jitter(label: string): number {
@@ -24,7 +24,7 @@ function jitter(label: string): number {
 export interface GroupFigureOptions {
   /** values of the comparison's `by` columns to show (default: the first cell) */
   cell?: Record<string, ConditionValue>;
-  /** y-axis label without unit (default: from the value column) */
+  /** y-axis label without unit (default: from the value column, with its unit) */
   label?: string;
   title?: string;
 }
@@ -54,12 +54,12 @@ export function groupFigure(result: GroupComparison, options: GroupFigureOptions
   const data: Record<string, unknown>[] = [];
   groups.forEach((g, gi) => {
     const mine = pts.filter((p) => same(p.group, g));
-    const name = escapeHtml(String(g));
+    const name = esc(String(g));
     if (o.condition && conds.length > 1) {
       for (const a of [...new Set(mine.map((p) => String(p.animal)))]) {
         const line = conds.map((c) => mine.find((p) => String(p.animal) === a && same(p.condition, c)));
         data.push({
-          type: 'scatter', mode: 'lines', name: `${name} ${escapeHtml(a)}`,
+          type: 'scatter', mode: 'lines', name: `${name} ${esc(a)}`,
           x: line.map((p, k) => (p ? xOf(conds[k], g) + 0.25 * width * jitter(a) : null)),
           y: line.map((p) => (p ? p.value : null)),
           line: { color: colour(gi), width: 0.8 }, opacity: 0.35, showlegend: false, hoverinfo: 'skip',
@@ -69,7 +69,7 @@ export function groupFigure(result: GroupComparison, options: GroupFigureOptions
     data.push({
       type: 'scatter', mode: 'markers', name: `${name} (animals)`,
       x: mine.map((p) => xOf(p.condition, g) + 0.25 * width * jitter(String(p.animal))), y: mine.map((p) => p.value),
-      text: mine.map((p) => `${escapeHtml(String(p.animal))}: mean of ${p.n}`), hoverinfo: 'text+y',
+      text: mine.map((p) => `${esc(String(p.animal))}: mean of ${p.n}`), hoverinfo: 'text+y',
       marker: { color: colour(gi), size: 7, opacity: 0.75 },
     });
     const s = conds.map((c) => sum.find((q) => same(q.group, g) && (!o.condition || same(q.condition, c))));
@@ -85,17 +85,22 @@ export function groupFigure(result: GroupComparison, options: GroupFigureOptions
       marker: { symbol: 'line-ew-open', size: 22, color: '#222', line: { width: 2 } },
     });
   });
-  const unit = o.unit ? ` (${escapeHtml(o.unit)})` : '';
-  const label = escapeHtml(options.label ?? o.value.replace(UNIT_SUFFIX, '').replace(/_/g, ' '));
-  const where = o.by.map((k) => `${escapeHtml(k)} ${escapeHtml(String(cell[k]))}`).join(', ');
+  // the y title: the caller's label with the unit, or the column's measure label (which carries its unit)
+  const unit = o.unit ? ` (${unitText(o.unit)})` : '';
+  const auto = measureLabel(o.value);
+  const yTitle = options.label !== undefined
+    ? `${esc(options.label)}${unit}`
+    : /\)$/.test(auto) ? auto : `${auto}${unit}`;
+  const what = yTitle.replace(/ \([^()]*\)$/, '');
+  const where = o.by.map((k) => `${esc(k)} ${esc(String(cell[k]))}`).join(', ');
   const title = options.title !== undefined
-    ? escapeHtml(options.title)
-    : `${label} by group${where ? ` (${where})` : ''}: animals as the unit`;
-  const xTitle = o.condition ? escapeHtml(o.condition) : escapeHtml(o.group || 'group');
-  const base = baseLayout(title, xTitle, `${label}${unit}`);
+    ? esc(options.title)
+    : `${what} by group${where ? ` (${where})` : ''}: animals as the unit`;
+  const xTitle = o.condition ? esc(o.condition) : esc(o.group || 'group');
+  const base = baseLayout(title, xTitle, yTitle);
   const xaxis = {
     ...(base.xaxis as object), tickmode: 'array', tickvals: conds.map((_, i) => i),
-    ticktext: o.condition ? conds.map((c) => escapeHtml(String(c))) : [''], range: [-0.6, conds.length - 0.4],
+    ticktext: o.condition ? conds.map((c) => esc(String(c))) : [''], range: [-0.6, conds.length - 0.4],
   };
   const name = `groups-${o.value}${o.by.map((k) => `-${String(cell[k])}`).join('')}`.replace(/[^A-Za-z0-9_.-]+/g, '_');
   return new Figure(name, { data, layout: { ...base, xaxis } });

@@ -288,7 +288,7 @@ describe('groupFigure(result): points per animal, mean and 95% CI per group', ()
     type Titled = { title: { text: string } };
     const l = fig.spec.layout as { xaxis: Titled & { ticktext: string[] }; yaxis: Titled };
     // (the house layout capitalises axis titles)
-    expect(l.yaxis.title.text).toMatch(/^velocity \(m\/s\)$/i);
+    expect(l.yaxis.title.text).toMatch(/^conduction velocity \(m\/s\)$/i); // plot/labels.ts measureLabel
     expect(l.xaxis.title.text).toMatch(/^epoch$/i);
     expect(l.xaxis.ticktext).toEqual(['pre', 'post']);
     const json = JSON.stringify(fig.spec);
