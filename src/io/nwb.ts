@@ -385,7 +385,7 @@ interface FileMeta {
 function fileMetadata(f: H5File): FileMeta {
   const text = (p: string) => {
     const d = at(f, p);
-    if (!isDataset(d)) return undefined;
+    if (!isDataset(d) || elementKind(d) !== 'string') return undefined;
     try {
       const t = texts(d);
       return t.length === 1 ? t[0] : t;
@@ -612,7 +612,8 @@ export function readTable(file: string, g: H5Group, p: string): { n: number; ids
       bad(`${p}/${name}`, `${values.length} values for ${n} rows`, 'one value per row');
     }
     const unit = attrText(ds, 'unit');
-    columns.push({ name, values, unit, path: `${p}/${name}` });
+    // fascicle writes "/" in a name as "_" and keeps the name in fascicle_name
+    columns.push({ name: attrText(ds, 'fascicle_name') ?? name, values, unit, path: `${p}/${name}` });
   }
   return { n, ids, columns };
 }
@@ -674,7 +675,7 @@ function estimateRate(file: string, s: SeriesInfo, T: number): number {
   // the rate from the span of the run of regular steps around the stimulus
   let k1 = 1;
   while (k1 < t.length && Math.abs(t[k1] - t[k1 - 1] - med) < 0.25 * med) k1++;
-  return (k1 - 1) / (t[k1 - 1] - t[0]);
+  return k1 > 2 ? (k1 - 1) / (t[k1 - 1] - t[0]) : 1 / med;
 }
 
 /**

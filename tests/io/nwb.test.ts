@@ -272,7 +272,9 @@ describe('writeNwb(set, path, options) and reading back', () => {
     const cond = raw.baseline({ window: [-4, -0.5] }).lowpass(2000);
     await expect(writeNwb(cond, join(tmp, 'x.nwb'), { raw: true })).rejects.toThrow(/raw: true for samples changed by baseline, filter/);
     const p = join(tmp, 'conditioned.nwb');
-    const res = await writeNwb(cond, p, { results: { components: [{ sweep: 0, class: 'A', latency_ms: 1.25, detected: true, reason: null }, { sweep: 1, class: 'A', latency_ms: null, detected: false, reason: 'below noise' }] } });
+    const components = [{ sweep: 0, class: 'A', latency_ms: 1.25, detected: true, reason: null, 'v/d': 2 },
+      { sweep: 1, class: 'A', latency_ms: null, detected: false, reason: 'below noise', 'v/d': 3 }];
+    const res = await writeNwb(cond, p, { results: { components } });
     expect(res.series).toEqual(['/processing/fascicle/sweeps']);
     expect(res.tables).toEqual(['components']);
     const back = await readNwb(p);
@@ -280,7 +282,7 @@ describe('writeNwb(set, path, options) and reading back', () => {
     expect(back.column('site')).toEqual(cond.column('site'));
     expect(back.column('acquiredS')).toEqual(cond.column('acquiredS'));
     const tables = await readNwbTables(p);
-    expect(tables.components).toEqual([{ sweep: 0, class: 'A', latency_ms: 1.25, detected: true, reason: null }, { sweep: 1, class: 'A', latency_ms: null, detected: false, reason: 'below noise' }]);
+    expect(tables.components).toEqual(components);
   });
 
   it('never overwrites a file fascicle did not write; replaces its own only with overwrite; leaves no temporary file', async () => {
