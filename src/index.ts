@@ -90,3 +90,4 @@ export type { NwbReadOptions } from './io/nwb';
 export { writeNwb, writeNwbSync, writtenByFascicle } from './io/nwbWrite';
 export type { NwbWriteOptions, NwbWriteResult } from './io/nwbWrite';
 export { NWB_CONDITIONS } from './io/nwbColumns';
+export { classViews } from './plot/builders';

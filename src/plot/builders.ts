@@ -13,6 +13,8 @@ import { logLogistic4, boltzmann, weiss, lapicque } from '../fit/models';
 import { tQuantile } from '../fit/dist';
 import { summarize, linearFit } from '../analysis/stats';
 import type { FitResult } from '../fit/lm';
+import { OptionError } from '../errors';
+import { checkKeys, didYouMean } from '../validate';
 
 type Row = Record<string, ConditionValue>;
 type Trace = Record<string, unknown>;
@@ -46,6 +48,7 @@ const CONDITION: Record<string, { title: (r: Row) => string; value: (v: number, 
   pulseWidthMs: { title: () => 'Pulse width (ms)', value: (v) => `${tickNumber(v)} ms pulse` },
 };
 const LABEL_KEYS = ['preparation', 'label', 'epoch', 'drug', 'site'];
+const MARK_SYMBOL: Record<string, string> = { onset: 'triangle-up', peak: 'diamond', centroid: 'x' };
 
 /** The artifact window of the last artifact step in a history, if any. */
 function artifactWindow(set: SweepSet): [number, number] | null {
@@ -65,10 +68,33 @@ function artifactWindow(set: SweepSet): [number, number] | null {
  * marks, the detection level (± k x noise) as a grey band. The artifact window of the
  * set's history is shaded.
  */
-export function sweepsFigure(set: SweepSet, options: { sweeps?: number[]; table?: ComponentTable; title?: string; maxSweeps?: number } = {}): Figure {
+export function sweepsFigure(set: SweepSet, options: { sweeps?: number[]; table?: ComponentTable; title?: string; maxSweeps?: number; zoom?: string } = {}): Figure {
+  checkKeys('sweepsFigure options', options, ['sweeps', 'table', 'title', 'maxSweeps', 'zoom']);
   const idx = options.sweeps ?? Array.from({ length: Math.min(set.nSweeps, options.maxSweeps ?? 12) }, (_, i) => i);
+  for (const s of idx) if (!(Number.isInteger(s) && s >= 0 && s < set.nSweeps)) throw new OptionError(`invalid sweeps: ${s}; the set has sweeps 0..${set.nSweeps - 1}`);
   const t = set.time();
-  const step = Math.max(1, Math.floor(set.nSamples / 4000));
+  // zoom: the time span of one class's window (plus a fifth of its width each side) over the shown sweeps
+  let i0 = 0, i1 = set.nSamples;
+  let zoomY: [number, number] | null = null;
+  if (options.zoom !== undefined) {
+    if (!options.table) throw new OptionError('sweepsFigure: zoom needs a component table (options.table)');
+    if (!options.table.classes.includes(options.zoom)) throw new OptionError(`invalid zoom: ${JSON.stringify(options.zoom)}${didYouMean(options.zoom, options.table.classes)}; classes are ${options.table.classes.join(', ')}`);
+    const rows = options.table.rows.filter((r) => r.class === options.zoom && idx.includes(r.sweep as number));
+    const a = Math.min(...rows.map((r) => r.window_start_ms as number).filter(num)), b = Math.max(...rows.map((r) => r.window_end_ms as number).filter(num));
+    if (!(b > a)) throw new OptionError(`sweepsFigure: class ${options.zoom} has no window in the shown sweeps`);
+    const m = 0.2 * (b - a);
+    i0 = Math.max(0, set.indexAt(a - m)); i1 = Math.min(set.nSamples, set.indexAt(b + m) + 1);
+    // the y range of the samples inside the window (a faster class's larger wave beside it stays out of scale)
+    let lo = Infinity, hi = -Infinity;
+    for (const s of idx) {
+      const x = set.sweep(s);
+      for (let i = Math.max(0, set.indexAt(a)); i < Math.min(set.nSamples, set.indexAt(b) + 1); i++) { if (x[i] < lo) lo = x[i]; if (x[i] > hi) hi = x[i]; }
+    }
+    const k = options.table.resolved.k;
+    for (const r of rows) { const nz = r[`noise_${set.units}`]; if (num(nz)) { lo = Math.min(lo, -k * nz); hi = Math.max(hi, k * nz); } }
+    if (hi > lo) zoomY = [lo - 0.08 * (hi - lo), hi + 0.08 * (hi - lo)];
+  }
+  const step = Math.max(1, Math.floor((i1 - i0) / 4000));
   const conds = idx.map((s) => set.conditions[s] as Row);
   const varies = (k: string) => uniq(conds.map((c) => c[k] ?? null)).length > 1;
   const numeric = Object.keys(CONDITION).filter((k) => varies(k) && conds.every((c) => num(c[k])));
@@ -89,7 +115,7 @@ export function sweepsFigure(set: SweepSet, options: { sweeps?: number[]; table?
   const data: Trace[] = idx.map((s, k) => {
     const x = set.sweep(s);
     const xs: number[] = [], ys: number[] = [];
-    for (let i = 0; i < set.nSamples; i += step) { xs.push(t[i]); ys.push(x[i]); }
+    for (let i = i0; i < i1; i += step) { xs.push(t[i]); ys.push(x[i]); }
     const c = conds[k];
     const col = seqKey ? sequentialColour(pos(c[seqKey] as number)) : idx.length === 1 && options.table ? '#222' : colour(k);
     return { type: 'scatter', mode: 'lines', x: xs, y: ys, name: name(s, c), line: { width: 1, color: col }, showlegend: !useBar && idx.length <= 8 && !(idx.length === 1 && options.table) };
@@ -108,7 +134,7 @@ export function sweepsFigure(set: SweepSet, options: { sweeps?: number[]; table?
     });
   }
   const shapes: Record<string, unknown>[] = [];
-  const t0 = t[0], t1 = t[t.length - 1];
+  const t0 = t[i0], t1 = t[i1 - 1];
   const art = artifactWindow(set);
   if (art && art[1] > t0 && art[0] < t1) {
     shapes.push({ type: 'rect', xref: 'x', yref: 'paper', x0: Math.max(art[0], t0), x1: Math.min(art[1], t1), y0: 0, y1: 1, fillcolor: '#999', opacity: 0.3, line: { width: 0 }, layer: 'below' });
@@ -123,15 +149,16 @@ export function sweepsFigure(set: SweepSet, options: { sweeps?: number[]; table?
       const rows = tb.rows.filter((r) => r.sweep === s);
       rows.forEach((r) => {
         const ci = cls.indexOf(r.class);
+        if (options.zoom !== undefined && r.class !== options.zoom) return;
         if (s === idx[0] && num(r.window_start_ms) && num(r.window_end_ms)) {
           shapes.push({ type: 'rect', xref: 'x', yref: 'paper', x0: r.window_start_ms, x1: r.window_end_ms, y0: 0, y1: 1, fillcolor: colour(ci), opacity: 0.1, line: { width: 0 }, layer: 'below' });
           if (!shownCls.has(r.class)) { shownCls.add(r.class); data.push(areaEntry(`${plotlyText(r.class)} window`, colour(ci), 0.3)); }
         }
         if (r.detected) {
-          const m = ([['onset', r.onset_ms], ['peak', r.peak_ms]] as [string, unknown][]).filter((q) => num(q[1])) as [string, number][];
+          const m = ([['onset', r.onset_ms], ['peak', r.peak_ms], ...(options.zoom !== undefined ? [['centroid', r.centroid_ms]] : [])] as [string, unknown][]).filter((q) => num(q[1])) as [string, number][];
           if (!m.length) return;
           marks = true;
-          data.push({ type: 'scatter', mode: 'markers', x: m.map((q) => q[1]), y: m.map((q) => set.sweep(s)[set.indexAt(q[1])]), marker: { symbol: m.map((q) => (q[0] === 'onset' ? 'triangle-up' : 'diamond')), size: 8, color: colour(ci), line: { width: 0.5, color: '#fff' } }, name: `${plotlyText(r.class)} onset, peak`, showlegend: false, text: m.map((q) => q[0]) });
+          data.push({ type: 'scatter', mode: 'markers', x: m.map((q) => q[1]), y: m.map((q) => set.sweep(s)[set.indexAt(q[1])]), marker: { symbol: m.map((q) => MARK_SYMBOL[q[0]]), size: 8, color: colour(ci), line: { width: 0.5, color: '#fff' } }, name: `${plotlyText(r.class)} onset, peak`, showlegend: false, text: m.map((q) => q[0]) });
         }
       });
       const noise = rows[0]?.[`noise_${set.units}`];
@@ -142,12 +169,29 @@ export function sweepsFigure(set: SweepSet, options: { sweeps?: number[]; table?
       }
     }
     if (marks) {
-      data.push(legendOnly('Onset', { mode: 'markers', marker: { symbol: 'triangle-up', size: 8, color: GREY } }));
-      data.push(legendOnly('Peak', { mode: 'markers', marker: { symbol: 'diamond', size: 8, color: GREY } }));
+      for (const k of options.zoom !== undefined ? ['onset', 'peak', 'centroid'] : ['onset', 'peak']) {
+        data.push(legendOnly(sentenceCase(k), { mode: 'markers', marker: { symbol: MARK_SYMBOL[k], size: 8, color: GREY } }));
+      }
     }
   }
-  const title = options.title !== undefined ? plotlyText(sentenceCase(options.title)) : 'Sweeps';
-  return new Figure('sweeps', { data, layout: layoutFor(title, 'Time after stimulus (ms)', `Signal (${unitText(set.units)})`, { shapes }) });
+  const title = options.title !== undefined ? plotlyText(sentenceCase(options.title)) : options.zoom !== undefined ? `${plotlyText(options.zoom)} window` : 'Sweeps';
+  const xaxis = options.zoom !== undefined ? { range: [t0, t1] } : {};
+  const yaxis = zoomY ? { range: zoomY } : {};
+  const figName = options.zoom !== undefined ? `sweeps-${options.zoom.replace(/[^A-Za-z0-9_.-]+/g, '_')}` : 'sweeps';
+  return new Figure(figName, { data, layout: layoutFor(title, 'Time after stimulus (ms)', `Signal (${unitText(set.units)})`, { shapes, xaxis, yaxis }) });
+}
+
+/**
+ * One zoomed view per class of the table (sweepsFigure with `zoom`): the class's window,
+ * its onset, peak and centroid marks and the detection level, on the time span of that
+ * class, so fast classes are not crushed into a few ms of a full-sweep view.
+ * @example classViews(set, table, { sweeps: [set.nSweeps - 1] }).forEach((f) => f.show())
+ */
+export function classViews(set: SweepSet, table: ComponentTable, options: { sweeps?: number[] } = {}): Figure[] {
+  checkKeys('classViews options', options, ['sweeps']);
+  const sweeps = options.sweeps ?? [set.nSweeps - 1];
+  return table.classes.filter((c) => table.rows.some((r) => r.class === c && sweeps.includes(r.sweep as number) && num(r.window_start_ms)))
+    .map((c) => sweepsFigure(set, { sweeps, table, zoom: c }));
 }
 
 /** Recruitment curves: response against stimulus intensity per class, with the Boltzmann fit per preparation. */

@@ -4,6 +4,7 @@ import { readFileSync } from 'node:fs';
 import {
   plotlyText, unitText, measureLabel, logTicks, PALETTE, MARKERS, SEQUENTIAL, sequentialColour, velocityFigure,
   doseResponseFigure, temperatureFigure, recruitmentFigure, strengthDurationFigure, summaryFigure, sweepsFigure, SweepSet,
+  classViews, model,
 } from '../../src';
 import type { Figure } from '../../src';
 
@@ -177,5 +178,41 @@ describe('fits drawn in the axis space and named in the legend', () => {
     const f = velocityFigure(rows.map((r) => ({ ...r, class: evil, preparation: evil })).slice(0, 2));
     expect(allText(f)).not.toContain('<a href');
     expect(allText(f)).toContain('&lt;a href=\\"x\\"&gt;N1&lt;/a&gt;');
+  });
+});
+
+describe('class views: each class on its own time span', () => {
+  const nerve = model.rodentSciatic();
+  const set = model.simulateNerve({
+    model: nerve, seed: 1, grid: { fs: 20000, t0Ms: -2, nSamples: 1600 }, nuisance: { noiseUv: 5 },
+    sweeps: [{ intensity: 20, distanceMm: 30, temperatureC: 37, concentration: 0, conditions: { preparation: 'sim' } }],
+  }).baseline().removeArtifact({ method: 'blank', window: [0, 0.12], bridge: 'linear' });
+  const table = set.components({ preset: 'mammalian' });
+  it('one figure per class, x range = the window and a fifth of its width each side, marks of that class only', () => {
+    const views = classViews(set, table, { sweeps: [0] });
+    expect(views.map((v) => v.name)).toEqual(table.classes.map((c) => `sweeps-${c.replace(/[^A-Za-z0-9_.-]+/g, '_')}`));
+    views.forEach((v, k) => {
+      const r = table.rows.find((q) => q.class === table.classes[k] && q.sweep === 0)!;
+      const [a, b] = [r.window_start_ms as number, r.window_end_ms as number];
+      const range = (v.spec.layout.xaxis as { range: number[] }).range;
+      expect(range[0]).toBeGreaterThanOrEqual(Math.max(-2, a - 0.2 * (b - a)) - 0.05); // one sample is 0.05 ms
+      expect(range[1]).toBeLessThanOrEqual(b + 0.2 * (b - a) + 0.05);
+      const names = legendNames(v).join('|');
+      expect(names).toContain(`${table.classes[k]} window`);
+      for (const other of table.classes.filter((c) => c !== table.classes[k])) expect(names).not.toContain(`${other} window`);
+      if (r.detected) expect(names).toMatch(/Onset\|Peak\|Centroid/);
+    });
+  });
+  it('the artifact window of the history is shaded and named', () => {
+    const f = sweepsFigure(set.crop(-1, 3));
+    expect(legendNames(f)).toContain('Artifact window');
+    const shapes = f.spec.layout.shapes as { x0: number; x1: number }[];
+    expect(shapes.some((sh) => sh.x0 === 0 && sh.x1 === 0.12)).toBe(true);
+  });
+  it('an unknown class or option is an error naming the nearest valid name', () => {
+    expect(() => sweepsFigure(set, { table, zoom: 'A-dleta' })).toThrow(/invalid zoom: "A-dleta".*did you mean "A-delta"/);
+    expect(() => sweepsFigure(set, { zoom: 'C' })).toThrow(/zoom needs a component table/);
+    expect(() => sweepsFigure(set, { swepes: [0] } as never)).toThrow(/unknown key "swepes".*did you mean "sweeps"/);
+    expect(() => sweepsFigure(set, { sweeps: [5] })).toThrow(/invalid sweeps: 5; the set has sweeps 0..0/);
   });
 });

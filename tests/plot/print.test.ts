@@ -14,7 +14,7 @@ import { join } from 'node:path';
 import type { Page } from 'playwright-core';
 import {
   model, sweepsFigure, recruitmentFigure, strengthDurationFigure, velocityFigure, doseResponseFigure, temperatureFigure,
-  summaryFigure, Figure, baseLayout, findBrowser, openExporter, FigureExporter, saveFigures, compareGroups, groupFigure,
+  summaryFigure, classViews, Figure, baseLayout, findBrowser, openExporter, FigureExporter, saveFigures, compareGroups, groupFigure,
 } from '../../src';
 
 const CLASSES = ['A-alpha/beta', 'A-delta', 'C'];
@@ -59,6 +59,7 @@ function figures(): Figure[] {
     sweepsFigure(sim, { title: 'Simulated compound responses' }),
     sweepsFigure(one, { table: tOne, title: 'Class windows, onset and peak marks' }),
     sweepsFigure(series, { title: 'Intensity series' }),
+    ...classViews(one, tOne, { sweeps: [0] }),
     recruitmentFigure(rec.points, rec.fits, rec.rows, series.units),
     strengthDurationFigure({ rows: sdRows, points: sdPts }),
     velocityFigure(velRows, 'centroid'),
