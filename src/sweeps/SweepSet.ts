@@ -64,6 +64,8 @@ export interface Source {
  */
 export interface DeferredSamples { base: Float64Array; correction: Correction }
 const samples = new WeakMap<SweepSet, Float64Array | DeferredSamples>();
+/** Condition arrays this module froze (with frozen rows): reused as they are. */
+const frozenConditions = new WeakSet<readonly Conditions[]>();
 
 /** The pending correction of a set whose samples are not yet computed, or null. */
 export function deferredOf(set: SweepSet): DeferredSamples | null {
@@ -113,12 +115,15 @@ export class SweepSet implements Iterable<Float64Array> {
       throw new OptionError(`conditions has ${init.conditions.length} rows for ${init.nSweeps} sweeps`);
     }
     samples.set(this, init.data);
+    // conditions are frozen once: a set made from another with the same conditions shares them
+    const conditions = frozenConditions.has(init.conditions) ? init.conditions : Object.freeze(init.conditions.map((c) => Object.freeze({ ...c })));
+    frozenConditions.add(conditions);
     this.nSweeps = init.nSweeps;
     this.nSamples = init.nSamples;
     this.fs = init.fs;
     this.t0Ms = init.t0Ms;
     this.units = init.units;
-    this.conditions = Object.freeze(init.conditions.map((c) => Object.freeze({ ...c })));
+    this.conditions = conditions;
     this.history = Object.freeze([...(init.history ?? [])]);
     this.sources = Object.freeze([...(init.sources ?? [])]);
     // descriptors, not values: a lazily computed extra (the SD sweeps of an average) stays lazy
@@ -461,8 +466,6 @@ export class GroupedSweeps {
     const G = this.groups.length;
     const data = set.data;
     const out = sharedSamples(G * n, data.length);
-    const sd = sharedSamples(G * n, data.length);
-    const sem = sharedSamples(G * n, data.length);
     const start = new Int32Array(G + 1);
     this.groups.forEach((g, gi) => { start[gi + 1] = start[gi] + g.indices.length; });
     const members = Int32Array.from(this.groups.flatMap((g) => g.indices));
@@ -474,8 +477,8 @@ export class GroupedSweeps {
     let spread: { sd: Float64Array; sem: Float64Array } | null = null;
     const spreadOf = () => {
       if (!spread) {
-        spread = { sd, sem };
-        runSweeps('average', { ...args, out: none, sd, sem }, G, data.length);
+        spread = { sd: sharedSamples(G * n, data.length), sem: sharedSamples(G * n, data.length) };
+        runSweeps('average', { ...args, out: none, ...spread }, G, data.length);
       }
       return spread;
     };

@@ -92,6 +92,11 @@ function featuresStep(avg) {
   return { feat, conds: avg.conditions.map((c) => c.condition) };
 }
 const hill4 = (logc, p) => p[1] + (p[0] - p[1]) / (1 + Math.pow(10, (logc - p[2]) * p[3]));
+/** its analytic Jacobian row (top, bottom, logIC50, n): fewer model calls than differences */
+function hill4Gradient(logc, p) {
+  const E = Math.pow(10, (logc - p[2]) * p[3]), D = 1 + E, g = ((p[0] - p[1]) * E * Math.LN10) / (D * D);
+  return [1 / D, 1 - 1 / D, g * p[3], -g * (logc - p[2])];
+}
 function hillStep(meta) {
   const conds = meta.conditions;
   const imax = Math.max(...conds.map((c) => c.intensity_uA));
@@ -103,7 +108,7 @@ function hillStep(meta) {
     const row = new Map(ids.map((id, k) => [id, k]));
     return WINDOWS.map((_, w) => {
       const y = drug.map((c) => feat[row.get(c.id)][w][0] / feat[row.get(base)][w][0]);
-      return f.fitCurve({ model: hill4, x: logc, y, p0: [1, 0, mid, 1], names: ['top', 'bottom', 'logIC50', 'n'], maxIterations: 10000 }).params;
+      return f.fitCurve({ model: hill4, gradient: hill4Gradient, x: logc, y, p0: [1, 0, mid, 1], names: ['top', 'bottom', 'logIC50', 'n'], maxIterations: 10000 }).params;
     });
   };
 }
