@@ -41,8 +41,9 @@ export interface NwbReadOptions {
   /** Series to read: its name in /acquisition or its HDF5 path, or several. Default: the only series in the file
    * (every series, when fascicle wrote the file). */
   series?: string | readonly string[];
-  /** Channel (column) of a 2-D series, 0-based. Default 0 when the series has one channel; required otherwise. */
-  channel?: number;
+  /** Channel (column) of a 2-D series, 0-based; several, or 'all' (each row then gives one sweep per channel,
+   * with a `channel` condition). Default 0 when the series has one channel; required otherwise. */
+  channel?: number | readonly number[] | 'all';
   /** TimeIntervals table with one row per stimulus: its name under /intervals or its path. Default "trials",
    * else the only TimeIntervals table under /intervals. */
   intervals?: string;
@@ -111,8 +112,9 @@ interface SeriesInfo {
 export function readNwbSync(path: string, options: NwbReadOptions = {}): SweepSet {
   checkKeys('readNwb options', options, READ_KEYS);
   const o = options;
-  if (o.channel !== undefined && !(Number.isInteger(o.channel) && o.channel >= 0)) {
-    throw new OptionError(`invalid channel: ${shown(o.channel)}; must be an integer >= 0`);
+  const chOk = (c: unknown) => Number.isInteger(c) && (c as number) >= 0;
+  if (o.channel !== undefined && o.channel !== 'all' && !(Array.isArray(o.channel) ? o.channel.length > 0 && o.channel.every(chOk) : chOk(o.channel))) {
+    throw new OptionError(`invalid channel: ${shown(o.channel)}; must be an integer >= 0, a list of them, or "all"`);
   }
   const win = o.window === undefined ? undefined : windowMs('window', o.window);
   if (o.units !== undefined && !SIGNAL_UNITS.includes(o.units)) {
@@ -197,7 +199,10 @@ function readOpen(path: string, f: H5File, o: NwbReadOptions, win: [number, numb
     paths = bad('/acquisition', `${candidates.length} series: ${candidates.join(', ')}`, 'the series option naming the one to read');
   }
   const outUnits = o.units;
-  const series = paths.map((p) => seriesInfo(path, f, p, o.channel, outUnits, byFascicle));
+  // one entry per (series, channel) read
+  const manyChannels = o.channel === 'all' || Array.isArray(o.channel);
+  const series = paths.flatMap((p) => channelsOf(path, f, p, o.channel).map((ch) => seriesInfo(path, f, p, ch, outUnits, byFascicle)));
+  const byPath = [...new Map(series.map((s) => [s.path, s])).values()];
   const units: SignalUnit = outUnits ?? series[0].unitGuess;
   for (const s of series) setGain(s, units);
 
@@ -275,7 +280,7 @@ function readOpen(path: string, f: H5File, o: NwbReadOptions, win: [number, numb
 
   // which series holds each selected row, and where
   const fs0 = series[0].rate ?? estimateRate(path, series[0], rows[selected[0]].T);
-  const place = selected.map((i) => locate(path, series, rows[i].T, fs0, i, tablePath));
+  const place = selected.map((i) => locate(path, byPath, rows[i].T, fs0, i, tablePath));
 
   // the sampling rate
   let fs = fs0;
@@ -306,10 +311,13 @@ function readOpen(path: string, f: H5File, o: NwbReadOptions, win: [number, numb
   const t0Ms = Number(((a * 1000) / fs + phase).toFixed(9));
   const jitter = Math.max(...phases.map((x) => Math.abs(x - phase)));
 
+  // the sweeps: each selected row once per channel read from its series
+  const sweeps = selected.flatMap((row, k) => series.filter((s) => s.path === place[k].s.path).map((s) => ({ row, k, s })));
+
   // read the samples: one hyperslab per sweep
-  const out = sharedSamples(selected.length * nSamples);
-  selected.forEach((row, k) => {
-    const { s, index } = place[k];
+  const out = sharedSamples(sweeps.length * nSamples);
+  sweeps.forEach(({ row, k, s }, j) => {
+    const { index } = place[k];
     const i0 = index + a;
     const i1 = index + b + 1;
     if (i0 < 0 || i1 > s.nTimes) {
@@ -317,12 +325,13 @@ function readOpen(path: string, f: H5File, o: NwbReadOptions, win: [number, numb
         'a window inside the recording (a smaller window option)');
     }
     if (s.timestamps) checkGrid(path, s, i0, i1, fs, row);
-    readInto(path, s, i0, i1, out, k * nSamples, row);
+    readInto(path, s, i0, i1, out, j * nSamples, row);
   });
   for (const s of series) s.reader?.close();
 
-  const conditions: Conditions[] = selected.map((row, k) => ({
-    ...conditionsOf(row, place[k].s),
+  const conditions: Conditions[] = sweeps.map(({ row, s }) => ({
+    ...conditionsOf(row, s),
+    ...(manyChannels ? { channel: s.channel } : {}),
     file: path,
     fileSweep: row,
   }));
@@ -333,7 +342,7 @@ function readOpen(path: string, f: H5File, o: NwbReadOptions, win: [number, numb
   }));
   const source = lazySource(path, stat);
   return new SweepSet({
-    data: out, nSweeps: selected.length, nSamples, fs, t0Ms, units, conditions,
+    data: out, nSweeps: sweeps.length, nSamples, fs, t0Ms, units, conditions,
     sources: [source],
     history: [{
       verb: 'readNwb',
@@ -445,6 +454,21 @@ function findSeries(f: H5File): string[] {
 
 type SeriesWithGuess = SeriesInfo & { unitGuess: SignalUnit; valueScale: number };
 
+/** The channels to read from a series (checked against its data's shape). */
+function channelsOf(file: string, f: H5File, p: string, channel: NwbReadOptions['channel']): (number | undefined)[] {
+  const d = (at(f, p) as H5Group).get('data') as H5Dataset;
+  const shape = d.shape ?? [];
+  const n = shape.length === 2 ? shape[1] : 1;
+  if (channel === 'all') return Array.from({ length: n }, (_, i) => i);
+  if (Array.isArray(channel)) {
+    for (const c of channel) {
+      if (c >= n) throw new InputError({ file, field: `${p}/data` }, `channel ${c} with ${n} channels`, `channels 0..${n - 1}`);
+    }
+    return [...new Set(channel as number[])];
+  }
+  return [channel as number | undefined];
+}
+
 function seriesInfo(file: string, f: H5File, p: string, channel: number | undefined, units: SignalUnit | undefined, byFascicle: boolean): SeriesWithGuess {
   const bad = (field: string, problem: string, expected: string): never => {
     throw new InputError({ file, field }, problem, expected);
@@ -456,7 +480,7 @@ function seriesInfo(file: string, f: H5File, p: string, channel: number | undefi
   const nTimes = shape[0];
   const nChannels = shape.length === 2 ? shape[1] : 1;
   let ch = channel ?? 0;
-  if (channel === undefined && nChannels > 1) bad(`${p}/data`, `data has ${nChannels} channels`, `the channel option (0..${nChannels - 1})`);
+  if (channel === undefined && nChannels > 1) bad(`${p}/data`, `data has ${nChannels} channels`, `the channel option (0..${nChannels - 1}, a list, or "all")`);
   if (ch >= nChannels) bad(`${p}/data`, `channel ${ch} with ${nChannels} channels`, `a channel 0..${nChannels - 1}`);
   const unit = attrText(data, 'unit');
   if (unit === undefined) bad(`${p}/data`, 'data has no unit attribute', 'unit "volts" (or another voltage unit)');

@@ -116,6 +116,17 @@ describe('readNwb(path, options) on files written by h5py', () => {
     expect(set.sources[0].sha256).toBe(sha(fx('continuous.nwb')));
   });
 
+  it('channel: "all" gives one sweep per row and channel, each with its electrode\'s distance', async () => {
+    const all = await readNwb(fx('continuous.nwb'), { channel: 'all' });
+    expect(all.nSweeps).toBe(36);
+    expect(all.column('channel').slice(0, 4)).toEqual([0, 1, 2, 0]);
+    expect(all.levels('distanceMm')).toEqual(expected.continuous.distance_mm);
+    const one = await readNwb(fx('continuous.nwb'), { channel: 2 });
+    expect(Array.from(all.sweep(3 * 5 + 2))).toEqual(Array.from(one.sweep(5)));
+    const two = await readNwb(fx('continuous.nwb'), { channel: [2, 0], trials: [1] });
+    expect(two.column('channel')).toEqual([2, 0]);
+  });
+
   it('reads only the selected rows (trials: rows or a test on conditions) and a window option', async () => {
     const all = await readNwb(fx('continuous.nwb'), { channel: 0 });
     const some = await readNwb(fx('continuous.nwb'), { channel: 0, trials: [11, 2] });
