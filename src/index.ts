@@ -78,7 +78,8 @@ export { latencyDefinitions, markRecommended, RECOMMENDED_VELOCITY, FIBRE_RANGE_
 export type { LatencyDefinition, LatencyBasis, VelocityStatus } from './analysis/velocity';
 export { velocityTemperature, temperatureRow } from './analysis/temperature';
 export type { RecruitmentOptions } from './analysis/recruitment';
-export { sweepQc, rejectFlagged, rejectedSweeps, sweepQcDefaults, sweepQcMethods, SweepQcResult, QC_FLAGS, detrendedMadNoise, differenceNoise, railSamples } from './analysis/sweepQc';
+export { sweepQc, rejectFlagged, rejectedSweeps, sweepQcDefaults, sweepQcMethods, qcStepMethods, QC_REFERENCES } from './analysis/sweepQc';
+export { SweepQcResult, QC_FLAGS, detrendedMadNoise, differenceNoise, railSamples } from './analysis/sweepQc';
 export type { SweepQcOptions, QcFlag } from './analysis/sweepQc';
 export { welchTTest, mannWhitneyU, mannWhitneyExactSf, rankAverage, oneWayAnova, repeatedMeasuresAnova, holm, benjaminiHochberg, compareGroups, animalMeans, rowsOf, groupMethods, GroupComparison, groupDefaults, tTwoSided, normSf } from './analysis/groups';
 export type { GroupOptions, RowInput, AnimalPoint, WelchResult, MannWhitneyResult, AnovaResult, RmAnovaResult, TestStatus } from './analysis/groups';
@@ -91,3 +92,4 @@ export { writeNwb, writeNwbSync, writtenByFascicle } from './io/nwbWrite';
 export type { NwbWriteOptions, NwbWriteResult } from './io/nwbWrite';
 export { NWB_CONDITIONS } from './io/nwbColumns';
 export { classViews } from './plot/builders';
+export { sweepViewer } from './plot/viewer';

@@ -569,17 +569,20 @@ export function rejectedSweeps(set: SweepSet): Row[] {
     .flatMap((h) => (h.options.removed as Row[]).map((r) => ({ ...r })));
 }
 
-/**
- * The methods sentence for QC and rejection: thresholds, and how many sweeps per preparation
- * were excluded and why (from a rejectFlagged step's `removed` list and the QC rows).
- */
-export function sweepQcMethods(
-  qc: SweepQcResult,
-  removed?: readonly { preparation?: ConditionValue; flags?: ConditionValue }[],
-): string {
-  const o = qc.options;
+/** References of the QC methods text (for a methods reference list). */
+export const QC_REFERENCES = [
+  'Leys C, Ley C, Klein O, Bernard P, Licata L (2013) Detecting outliers: do not use standard deviation around the '
+    + 'mean, use absolute deviation around the median. J Exp Soc Psychol 49:764-766.',
+  'Rousseeuw PJ, Croux C (1993) Alternatives to the median absolute deviation. J Am Stat Assoc 88:1273-1283.',
+];
+
+type QcThresholds = Pick<Resolved, 'quietWindow' | 'artifactWindow' | 'maxNoiseRatio' | 'minNoiseRatio'
+  | 'maxDriftRatio' | 'railRun' | 'maxArtifactRatio' | 'outlierThreshold' | 'minSweeps'>;
+type Removed = readonly { preparation?: ConditionValue; flags?: ConditionValue }[];
+
+function qcSentence(o: QcThresholds): string {
   const w = (x: [number, number]) => `${x[0]} to ${x[1]} ms`;
-  let s = 'Before averaging or fitting, each sweep was checked for quality: noise as 1.4826 times the median absolute '
+  return 'Before averaging or fitting, each sweep was checked for quality: noise as 1.4826 times the median absolute '
     + `deviation of the quiet window (${w(o.quietWindow)}) about its linear trend (Rousseeuw & Croux 1993), flagged `
     + `when above ${o.maxNoiseRatio} or below ${o.minNoiseRatio} times the median of its recording channel; baseline `
     + 'drift (across the quiet window, and from it to the sweep end relative to the sweeps of the same condition) '
@@ -589,23 +592,45 @@ export function sweepQcMethods(
     + "condition's median; and the response's deviation from the median sweep of its condition, flagged by the "
     + `median absolute deviation rule at ${o.outlierThreshold} (Leys et al. 2013; conditions with at least `
     + `${o.minSweeps} sweeps).`;
-  if (removed) {
-    const byPrep = new Map<string, Map<string, number>>();
-    for (const r of removed) {
-      const p = String(r.preparation ?? 'the set');
-      const m = byPrep.get(p) ?? byPrep.set(p, new Map()).get(p)!;
-      for (const f of String(r.flags ?? '').split(',').filter(Boolean)) m.set(f, (m.get(f) ?? 0) + 1);
-      m.set('', (m.get('') ?? 0) + 1);
-    }
-    const total = qc.rows.length;
-    if (!removed.length) s += ` No sweep was excluded (${total} checked).`;
-    else {
-      const parts = [...byPrep].sort().map(([p, m]) => {
-        const why = [...m].filter(([f]) => f).map(([f, k]) => `${k} ${f}`).join(', ');
-        return `${m.get('')} from ${p} (${why})`;
-      });
-      s += ` ${removed.length} of ${total} sweeps were excluded: ${parts.join('; ')}.`;
-    }
+}
+
+function exclusionSentence(removed: Removed, total: number): string {
+  if (!removed.length) return ` No sweep was excluded (${total} checked).`;
+  const byPrep = new Map<string, Map<string, number>>();
+  for (const r of removed) {
+    const p = String(r.preparation ?? 'the set');
+    const m = byPrep.get(p) ?? byPrep.set(p, new Map()).get(p)!;
+    for (const f of String(r.flags ?? '').split(',').filter(Boolean)) m.set(f, (m.get(f) ?? 0) + 1);
+    m.set('', (m.get('') ?? 0) + 1);
   }
-  return s;
+  const parts = [...byPrep].sort().map(([p, m]) => {
+    const why = [...m].filter(([f]) => f).map(([f, k]) => `${k} ${f}`).join(', ');
+    return `${m.get('')} from ${p} (${why})`;
+  });
+  return ` ${removed.length} of ${total} sweeps were excluded: ${parts.join('; ')}.`;
+}
+
+/**
+ * The methods sentence for QC and rejection: thresholds, and how many sweeps per preparation
+ * were excluded and why (from a rejectFlagged step's `removed` list and the QC rows).
+ */
+export function sweepQcMethods(qc: SweepQcResult, removed?: Removed): string {
+  return qcSentence(qc.options) + (removed ? exclusionSentence(removed, qc.rows.length) : '');
+}
+
+/**
+ * The methods sentence of a history step: 'rejectFlagged' (thresholds, and the sweeps excluded per preparation
+ * with their reasons) or 'sweepQc' (thresholds; flagged sweeps kept). Other steps: ''.
+ * @example set.history.map(qcStepMethods).filter(Boolean)
+ */
+export function qcStepMethods(step: Step): string {
+  if (step.verb === 'sweepQc') {
+    return qcSentence(step.options as unknown as QcThresholds) + ' Flagged sweeps were kept.';
+  }
+  if (step.verb !== 'rejectFlagged') return '';
+  const o = step.options as { thresholds: QcThresholds; removed: Row[]; kept: number; flags: string[] };
+  const which = o.flags.length < QC_FLAGS.length
+    ? ` Sweeps were excluded for these flags only: ${o.flags.join(', ')}.`
+    : '';
+  return qcSentence(o.thresholds) + which + exclusionSentence(o.removed, o.kept + o.removed.length);
 }

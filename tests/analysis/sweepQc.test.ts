@@ -2,7 +2,7 @@ import { describe, it, expect } from 'vitest';
 import { SweepSet, OptionError } from '../../src';
 import {
   sweepQc, rejectFlagged, sweepQcDefaults, sweepQcMethods, detrendedMadNoise, differenceNoise, railSamples,
-  SweepQcResult, rejectedSweeps,
+  SweepQcResult, rejectedSweeps, qcStepMethods,
 } from '../../src/analysis/sweepQc';
 import { Rng } from '../../src/model/random';
 import { loadSeries, truth } from './devsetQc';
@@ -151,7 +151,8 @@ describe('sweepQc(set) flags injected bad sweeps and spares their neighbours', (
     // the removed sweeps as a table, with where they came from
     const table = rejectedSweeps(out);
     expect(table.length).toBe(removed.length);
-    expect(Object.keys(table[0])).toEqual(['sweep', 'preparation', 'file', 'fileSweep', 'condition', 'flags', 'reasons']);
+    const columns = ['sweep', 'preparation', 'file', 'fileSweep', 'condition', 'flags', 'reasons'];
+    expect(Object.keys(table[0])).toEqual(columns);
     expect(table.find((r) => r.sweep === bad.flat[0])!.fileSweep).toBe(dirty.conditions[bad.flat[0]].fileSweep);
     // only some flags
     const onlyFlat = rejectFlagged(dirty, q, { flags: ['flat'] });
@@ -160,6 +161,11 @@ describe('sweepQc(set) flags injected bad sweeps and spares their neighbours', (
     const k = removed.length;
     const sentence = new RegExp(`${k} of 96 sweeps were excluded: ${k} from FNPG-N07-RA \\(`);
     expect(sweepQcMethods(q, removed)).toMatch(sentence);
+    // the same from the history step alone (what methods text written from a history sees)
+    expect(qcStepMethods(step)).toMatch(sentence);
+    expect(qcStepMethods(step)).toMatch(/flagged by the median absolute deviation rule at 3 \(Leys et al\. 2013/);
+    const flatStep = onlyFlat.history[onlyFlat.history.length - 1];
+    expect(qcStepMethods(flatStep)).toMatch(/for these flags only: flat\. 1 of 96/);
   });
   it('rejectFlagged refuses a table made on another set and names unknown flags', () => {
     expect(() => rejectFlagged(set.select([0, 1, 2]), q)).toThrow(/computed on 96 sweeps/);
