@@ -13,6 +13,12 @@ import { resamplePolyInto } from '../signal/resample';
 import { bridgeGap } from '../signal/bridge';
 
 /**
+ * Stored samples: float64, or float32 as read from a float32 file (each value widened
+ * exactly to float64 where it is used, so the numbers are those of a float64 copy).
+ */
+export type Samples = Float64Array | Float32Array;
+
+/**
  * A per-sweep correction that baseline and template artifact subtraction leave
  * pending (see DeferredSamples in src/sweeps/SweepSet.ts): a line
  * level + slope (i - center) and then scale x the sweep's group template are
@@ -36,7 +42,7 @@ export function noCorrection(): Correction {
 }
 
 /** Write samples [i0, i1) of corrected sweep s of base (n samples per sweep) to dst[o + i]. */
-export function correctSweep(base: Float64Array, n: number, c: Correction, s: number, dst: Float64Array, o: number, i0 = 0, i1 = n): void {
+export function correctSweep(base: Samples, n: number, c: Correction, s: number, dst: Float64Array, o: number, i0 = 0, i1 = n): void {
   if (c.bridge) {
     if (i0 !== 0 || i1 !== n) throw new Error('a pending bridge is applied to whole sweeps only');
     lineAndTemplate(base, n, c, s, dst, o, 0, n);
@@ -46,7 +52,7 @@ export function correctSweep(base: Float64Array, n: number, c: Correction, s: nu
   lineAndTemplate(base, n, c, s, dst, o, i0, i1);
 }
 
-function lineAndTemplate(base: Float64Array, n: number, c: Correction, s: number, dst: Float64Array, o: number, i0: number, i1: number): void {
+function lineAndTemplate(base: Samples, n: number, c: Correction, s: number, dst: Float64Array, o: number, i0: number, i1: number): void {
   const b = s * n;
   if (c.line && c.template && c.slope[s] === 0) {
     // the usual pair (baseline, then template) in one pass, same arithmetic order
@@ -65,14 +71,14 @@ function lineAndTemplate(base: Float64Array, n: number, c: Correction, s: number
   }
 }
 
-export interface CorrectArgs { x: Float64Array; out: Float64Array; n: number; c: Correction }
+export interface CorrectArgs { x: Samples; out: Float64Array; n: number; c: Correction }
 /** Apply a pending correction to sweeps s0..s1-1. */
 function correct(a: CorrectArgs, s0: number, s1: number): number {
   for (let s = s0; s < s1; s++) correctSweep(a.x, a.n, a.c, s, a.out, s * a.n);
   return -1;
 }
 
-export interface FiltfiltArgs { x: Float64Array; c: Correction | null; out: Float64Array; n: number; sos: number[][]; padlen: number }
+export interface FiltfiltArgs { x: Samples; c: Correction | null; out: Float64Array; n: number; sos: number[][]; padlen: number }
 /**
  * Zero-phase filtering of sweeps s0..s1-1 (pairs share one interleaved loop); a
  * pending correction is applied to each sweep on the way in.

@@ -19,7 +19,7 @@ import { ComponentTable } from '../measure/table';
 import type { ComponentOptions } from '../measure/components';
 import { signalFactor, type SignalUnit } from './units';
 import { runSweeps, shareCopy, sharedSamples } from '../parallel/pool';
-import type { Correction } from '../parallel/kernels';
+import type { Correction, Samples } from '../parallel/kernels';
 
 /** A condition value: numbers, strings, booleans or null (not recorded). */
 export type ConditionValue = string | number | boolean | null;
@@ -60,9 +60,10 @@ export interface Source {
  * baseline and template artifact subtraction). They are computed the first time
  * `data` is read; a zero-phase filter instead applies the correction to each sweep
  * as it reads it, which saves a pass over memory and an allocation per step. The
- * numbers are the same bit for bit either way.
+ * numbers are the same bit for bit either way. `base` may be float32 (a float32 file kept
+ * as read, half the memory): every use widens each value exactly to float64.
  */
-export interface DeferredSamples { base: Float64Array; correction: Correction }
+export interface DeferredSamples { base: Samples; correction: Correction }
 const samples = new WeakMap<SweepSet, Float64Array | DeferredSamples>();
 /** Condition arrays this module froze (with frozen rows): reused as they are. */
 const frozenConditions = new WeakSet<readonly Conditions[]>();
@@ -103,7 +104,9 @@ export class SweepSet implements Iterable<Float64Array> {
 
   constructor(init: SweepSetInit) {
     const raw = init.data instanceof Float64Array ? init.data : init.data?.base;
-    if (!(raw instanceof Float64Array)) throw new OptionError('SweepSet data must be a Float64Array');
+    if (!(raw instanceof Float64Array || (raw instanceof Float32Array && !(init.data instanceof Float32Array)))) {
+      throw new OptionError('SweepSet data must be a Float64Array (or samples with a pending correction on a Float64Array or Float32Array)');
+    }
     if (!Number.isInteger(init.nSweeps) || init.nSweeps < 0) throw new OptionError(`invalid nSweeps: ${init.nSweeps}`);
     if (!Number.isInteger(init.nSamples) || init.nSamples < 1) throw new OptionError(`invalid nSamples: ${init.nSamples}; must be an integer >= 1`);
     if (raw.length !== init.nSweeps * init.nSamples) {

@@ -1,4 +1,4 @@
-import type { SweepSet } from '../sweeps/SweepSet';
+import { deferredOf, type SweepSet } from '../sweeps/SweepSet';
 import { OptionError } from '../errors';
 import { checkKeys, oneOf, windowMs } from '../validate';
 import { shareCopy } from '../parallel/pool';
@@ -20,7 +20,7 @@ export interface BaselineOptions {
 export const baselineDefaults = { method: 'mean' as const, lateWindow: null, stopBeforeStimulusMs: 0.1 };
 
 /** Level of samples [a, b] (inclusive) of x by mean or median. */
-function level(x: Float64Array, a: number, b: number, method: 'mean' | 'median', buf: Float64Array): number {
+function level(x: Float64Array | Float32Array, a: number, b: number, method: 'mean' | 'median', buf: Float64Array): number {
   if (method === 'mean') {
     let s = 0;
     for (let i = a; i <= b; i++) s += x[i];
@@ -61,7 +61,11 @@ export function baseline(set: SweepSet, options: BaselineOptions = {}): SweepSet
   const lb = late ? windowIndices(set, late, 'lateWindow') : null;
   if (lb && !(lb[0] > b)) throw new OptionError(`invalid lateWindow: [${late![0]}, ${late![1]}] ms; must lie after window [${w[0]}, ${w[1]}] ms`);
   const n = set.nSamples;
-  const x = set.data;
+  // samples kept as read (float32, nothing pending) are measured in place: the levels are
+  // those of their exact float64 values, and nothing is widened until it is needed
+  const pending = deferredOf(set);
+  const asRead = pending && !pending.correction.line && !pending.correction.template && !pending.correction.bridge;
+  const x = asRead ? pending!.base : set.data;
   const buf = new Float64Array(n);
   const ca = (a + b) / 2;
   const cb = lb ? (lb[0] + lb[1]) / 2 : 0;

@@ -124,3 +124,35 @@ describe('float32 load kernel (finiteness checked on the float32 chunk)', () => 
     }
   });
 });
+
+describe('samples kept as float32 (a loader may keep a float32 file as read)', () => {
+  it('every verb gives the bits of the float64 copy, on 1 and 2 threads', async () => {
+    const { noCorrection } = await import('../../src/parallel/kernels');
+    const ref = synthetic();
+    const f32 = new Float32Array(new SharedArrayBuffer(S * N * 4));
+    for (let i = 0; i < f32.length; i++) f32[i] = ref.data[i];
+    const wide = new Float64Array(new SharedArrayBuffer(S * N * 8));
+    for (let i = 0; i < f32.length; i++) wide[i] = f32[i]; // exact widening
+    const init = { nSweeps: S, nSamples: N, fs, t0Ms: -2, units: 'uV' as const, conditions: ref.conditions };
+    const a = new SweepSet({ ...init, data: { base: f32, correction: noCorrection() } });
+    const b = new SweepSet({ ...init, data: wide });
+    const chains: [string, (s: SweepSet) => Float64Array][] = [
+      ['data', (s) => s.data],
+      ['baseline mean, blank, low-pass', (s) => s.baseline({ window: [-2, -0.1] }).removeArtifact({ method: 'blank', window: [0, 0.3] }).lowpass(5000).data],
+      ['baseline median with late window', (s) => s.baseline({ window: [-2, -0.1], method: 'median', lateWindow: [200, 230] }).data],
+      ['template then high-pass', (s) => s.baseline({ window: [-2, -0.1] }).removeArtifact({ method: 'template', window: [0, 0.4], maxIntensity: 1 }).highpass(100).data],
+      ['blank alone, then average', (s) => s.removeArtifact({ method: 'blank', window: [0, 0.3], bridge: 'linear' }).groupBy('condition').average().data],
+      ['hum removal', (s) => s.removeHum({ frequency: 50, harmonics: 2 }).data],
+      ['crop', (s) => s.crop(0, 10).data],
+    ];
+    for (const [name, run] of chains) {
+      setThreads(1);
+      const one = run(a);
+      setThreads(2);
+      const two = run(a);
+      expect(same(one, two), name).toBe(true);
+      expect(same(one, run(b)), name).toBe(true);
+    }
+    expect(() => new SweepSet({ ...init, data: f32 as never })).toThrow(/must be a Float64Array/);
+  });
+});
