@@ -623,3 +623,35 @@ export function groupMethods(result: GroupComparison): string {
   }
   return parts.join(' ');
 }
+
+/** References of the group-statistics and mixed-model methods text. */
+export const GROUP_REFERENCES = [
+  'Lazic SE (2010) The problem of pseudoreplication in neuroscientific studies: is it affecting your analysis? '
+    + 'BMC Neurosci 11:5.',
+  'Aarts E, Verhage M, Veenvliet JV, Dolan CV, van der Sluis S (2014) A solution to dependency: using multilevel '
+    + 'analysis to accommodate nested data. Nat Neurosci 17:491-496.',
+  'Welch BL (1947) The generalization of "Student\'s" problem when several different population variances are '
+    + 'involved. Biometrika 34:28-35.',
+  'Mann HB, Whitney DR (1947) On a test of whether one of two random variables is stochastically larger than the '
+    + 'other. Ann Math Stat 18:50-60.',
+  'Holm S (1979) A simple sequentially rejective multiple test procedure. Scand J Stat 6:65-70.',
+  'Benjamini Y, Hochberg Y (1995) Controlling the false discovery rate: a practical and powerful approach to '
+    + 'multiple testing. J R Stat Soc B 57:289-300.',
+];
+
+/** The methods sentence of a 'compareGroups' history step (the tests its design calls for); other steps: ''. */
+export function groupStepMethods(step: Step): string {
+  if (step.verb !== 'compareGroups') return '';
+  const o = step.options as unknown as Resolved;
+  const per = [o.group, o.condition].filter(Boolean).join(' and ') || 'set';
+  const between = o.group ? 'between groups Welch\'s t test and the Mann-Whitney U test (exact for samples of at most '
+    + '8 without ties, otherwise the normal approximation with tie and continuity correction), or one-way ANOVA for '
+    + 'three or more groups' : '';
+  const within = o.condition ? `within animals across ${o.condition} the paired t test, or repeated-measures ANOVA `
+    + 'with the Greenhouse-Geisser epsilon for three or more levels' : '';
+  const tests = [between, within].filter(Boolean).join('; ');
+  return `${o.value.replace(/_/g, ' ')} was averaged within each ${o.animal} (the unit of replication; sweeps and `
+    + 'electrodes are not independent replicates, Lazic 2010; Aarts et al. 2014) and summarised per '
+    + `${per} as mean, SD, SEM and a t-based 95% confidence interval. Tests: ${tests}; p values were adjusted over `
+    + 'all tests by Holm\'s step-down method (Holm 1979) and by Benjamini & Hochberg (1995).';
+}

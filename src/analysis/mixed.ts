@@ -495,16 +495,37 @@ export function mixedModel(
   return new MixedModelResult(coefficients, anova, variance, o, fits, [...history, step], sources);
 }
 
-/** The methods sentence for a mixed model. */
-export function mixedMethods(result: MixedModelResult): string {
-  const o = result.options;
+type MixedSpec = { value: string; fixed: string[]; random: string; interaction: boolean };
+function mixedSentence(o: MixedSpec, each: string): string {
   const fx = o.fixed.join(o.interaction ? ' and their interaction' : ', ').replace(/,([^,]*)$/, ' and$1');
-  const ok = result.variance.filter((v) => v.status === 'ok').length;
-  const n = result.variance.length;
-  const each = o.by.length ? ` separately for each ${o.by.join(' and ')} (${ok} of ${n} fitted)` : '';
   return `${o.value.replace(/_/g, ' ')} was analysed with a linear mixed-effects model with ${fx} as fixed effects `
     + `and a random intercept per ${o.random} (observations of one ${o.random} are not independent; Lazic 2010; `
     + `Aarts et al. 2014), fitted by restricted maximum likelihood (Patterson & Thompson 1971)${each}; fixed `
     + 'effects were tested with Type III F tests and t tests using Satterthwaite\'s approximation to the denominator '
     + 'degrees of freedom (Satterthwaite 1946; Fai & Cornelius 1996 for terms with several degrees of freedom).';
+}
+
+/** References of the mixed-model methods text. */
+export const MIXED_REFERENCES = [
+  'Patterson HD, Thompson R (1971) Recovery of inter-block information when block sizes are unequal. '
+    + 'Biometrika 58:545-554.',
+  'Satterthwaite FE (1946) An approximate distribution of estimates of variance components. Biometrics Bull 2:110-114.',
+  'Fai AH-T, Cornelius PL (1996) Approximate F-tests of multiple degree of freedom hypotheses in generalized least '
+    + 'squares analyses of unbalanced split-plot experiments. J Stat Comput Simul 54:363-378.',
+];
+
+/** The methods sentence for a mixed model. */
+export function mixedMethods(result: MixedModelResult): string {
+  const o = result.options;
+  const ok = result.variance.filter((v) => v.status === 'ok').length;
+  const n = result.variance.length;
+  const each = o.by.length ? ` separately for each ${o.by.join(' and ')} (${ok} of ${n} fitted)` : '';
+  return mixedSentence({ ...o, interaction: !!o.interaction }, each);
+}
+
+/** The methods sentence of a 'mixedModel' history step; other steps: ''. */
+export function mixedStepMethods(step: Step): string {
+  if (step.verb !== 'mixedModel') return '';
+  const o = step.options as { value: string; fixed: string[]; random: string; interaction: boolean; by: string[] };
+  return mixedSentence(o, o.by.length ? ` separately for each ${o.by.join(' and ')}` : '');
 }

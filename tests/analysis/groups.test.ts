@@ -4,9 +4,9 @@ import { join, dirname } from 'node:path';
 import { groupFigure, groupFigures } from '../../src/plot/groups';
 import {
   welchTTest, mannWhitneyU, oneWayAnova, repeatedMeasuresAnova, holm, benjaminiHochberg, compareGroups, normSf,
-  mannWhitneyExactSf, groupMethods,
+  mannWhitneyExactSf, groupMethods, groupStepMethods,
 } from '../../src/analysis/groups';
-import { mixedModel, fitRandomIntercept, satterthwaiteDf, mixedMethods } from '../../src/analysis/mixed';
+import { mixedModel, fitRandomIntercept, satterthwaiteDf, mixedMethods, mixedStepMethods } from '../../src/analysis/mixed';
 import { pairedCompare, toFrame } from '../../src';
 import { Rng } from '../../src/model/random';
 
@@ -331,6 +331,10 @@ describe('inputs and methods text', () => {
     const m = mixedModel(rows, { value: 'onset_ms', fixed: ['group'] });
     expect(mixedMethods(m))
       .toMatch(/random intercept per preparation .* restricted maximum likelihood .* Satterthwaite/);
+    // from the history steps alone
+    expect(groupStepMethods(a.history[a.history.length - 1])).toMatch(/Welch's t test and the Mann-Whitney U test/);
+    expect(groupStepMethods(a.history[a.history.length - 1])).not.toMatch(/paired/);
+    expect(mixedStepMethods(m.history[m.history.length - 1])).toBe(mixedMethods(m));
   });
 });
 
