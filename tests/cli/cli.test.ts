@@ -47,7 +47,7 @@ describe('fascicle command line', () => {
     for (const f of readdirSync(join(full, 'tables'))) expect(readFileSync(join(j2, 'tables', f), 'utf8'), f).toBe(readFileSync(join(full, 'tables', f), 'utf8'));
     const rr = run(['rerun', full]);
     expect(rr.status, rr.stderr).toBe(0);
-    expect(rr.stdout).toMatch(/reproduced 22 tables and the methods text exactly/);
+    expect(rr.stdout).toMatch(/reproduced \d+ tables and the methods text exactly/);
     // edit one byte of one input: the rerun names that file
     const victim = join(work, 'study', 'R2-distance.csv');
     const b = readFileSync(victim);
@@ -63,7 +63,7 @@ describe('fascicle command line', () => {
     expect(methods).toMatch(/4th-order Butterworth filter \(cutoff 10000 Hz/);
     expect(methods).toMatch(/zero phase/);
     expect(methods).toMatch(/Hill 1910/);
-  });
+  }, 300_000);
 });
 
 describe('pulse-width series on the command line', () => {
