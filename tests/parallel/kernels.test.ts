@@ -156,3 +156,32 @@ describe('samples kept as float32 (a loader may keep a float32 file as read)', (
     expect(() => new SweepSet({ ...init, data: f32 as never })).toThrow(/must be a Float64Array/);
   });
 });
+
+describe('loadAsRead kernel (float32 kept as read)', () => {
+  it('reads the exact float32 values and finds the first non-finite one, the same on 1 and 2 threads', async () => {
+    const { mkdtempSync, writeFileSync, openSync, closeSync } = await import('node:fs');
+    const { tmpdir } = await import('node:os');
+    const { join } = await import('node:path');
+    const { runSweeps } = await import('../../src/parallel/pool');
+    const dir = mkdtempSync(join(tmpdir(), 'fascicle-asread-'));
+    const S2 = 48, N2 = 16000;
+    const a = Float32Array.from({ length: S2 * N2 }, (_, i) => Math.fround(Math.cos(i * 0.003) * 50));
+    writeFileSync(join(dir, 'ok.f32'), new Uint8Array(a.buffer));
+    const bad = Float32Array.from(a);
+    bad[40 * N2 + 7] = -Infinity; // in the second thread's half
+    writeFileSync(join(dir, 'bad.f32'), new Uint8Array(bad.buffer));
+    for (const T of [1, 2]) {
+      setThreads(T);
+      for (const [file, want] of [['ok.f32', -1], ['bad.f32', 40 * N2 + 7]] as const) {
+        const fd = openSync(join(dir, file), 'r');
+        const out = new Float32Array(new SharedArrayBuffer(S2 * N2 * 4));
+        const before = workerJobs();
+        const firstBad = runSweeps('loadAsRead', { fd, nSamples: N2, out, chunkSweeps: 5 }, S2, S2 * N2).find((i) => i >= 0) ?? -1;
+        closeSync(fd);
+        if (T === 2) expect(workerJobs()).toBeGreaterThan(before);
+        expect(firstBad).toBe(want);
+        if (want < 0) expect(out.every((v, i) => Object.is(v, a[i]))).toBe(true);
+      }
+    }
+  });
+});
