@@ -30,7 +30,8 @@ import { lazySource } from './files';
 import { sharedSamples } from '../parallel/pool';
 import { VERSION } from '../version';
 import {
-  nwbReady, openHdf5, HyperslabReader, at, attr, attrNumber, attrText, typeOf, numbers, texts, elementKind, isGroup, isDataset,
+  nwbReady, openHdf5, HyperslabReader, at, attr, attrNumber, attrText, typeOf, numbers, texts, elementKind,
+  isGroup, isDataset,
   type H5File, type H5Group, type H5Dataset,
 } from './nwbLib';
 import { NWB_CONDITIONS, findColumn, convertColumn, decodeColumn, type TableColumn } from './nwbColumns';
@@ -113,7 +114,8 @@ export function readNwbSync(path: string, options: NwbReadOptions = {}): SweepSe
   checkKeys('readNwb options', options, READ_KEYS);
   const o = options;
   const chOk = (c: unknown) => Number.isInteger(c) && (c as number) >= 0;
-  if (o.channel !== undefined && o.channel !== 'all' && !(Array.isArray(o.channel) ? o.channel.length > 0 && o.channel.every(chOk) : chOk(o.channel))) {
+  const chList = Array.isArray(o.channel) ? o.channel.length > 0 && o.channel.every(chOk) : false;
+  if (o.channel !== undefined && o.channel !== 'all' && !chList && !chOk(o.channel)) {
     throw new OptionError(`invalid channel: ${shown(o.channel)}; must be an integer >= 0, a list of them, or "all"`);
   }
   const win = o.window === undefined ? undefined : windowMs('window', o.window);
@@ -124,13 +126,18 @@ export function readNwbSync(path: string, options: NwbReadOptions = {}): SweepSe
     throw new OptionError(`invalid conditions: ${conditionsProblem(o.conditions)}; must be an object of strings, finite numbers, booleans or null`);
   }
   if (o.columns !== undefined) {
-    if (o.columns === null || typeof o.columns !== 'object') throw new OptionError(`invalid columns: ${shown(o.columns)}; must be an object of condition -> column name or null`);
+    if (o.columns === null || typeof o.columns !== 'object') {
+      throw new OptionError(`invalid columns: ${shown(o.columns)}; must be an object of condition -> column name or null`);
+    }
     for (const [k, v] of Object.entries(o.columns)) {
-      if (v !== null && (typeof v !== 'string' || !v)) throw new OptionError(`invalid columns.${k}: ${shown(v)}; must be a column name or null`);
+      if (v !== null && (typeof v !== 'string' || !v)) {
+        throw new OptionError(`invalid columns.${k}: ${shown(v)}; must be a column name or null`);
+      }
     }
   }
   if (o.stimulusTimes !== undefined) {
-    if (!Array.isArray(o.stimulusTimes) || o.stimulusTimes.length === 0 || !o.stimulusTimes.every((t) => typeof t === 'number' && Number.isFinite(t))) {
+    if (!Array.isArray(o.stimulusTimes) || o.stimulusTimes.length === 0
+      || !o.stimulusTimes.every((t) => typeof t === 'number' && Number.isFinite(t))) {
       throw new OptionError(`invalid stimulusTimes: ${shown(o.stimulusTimes)}; must be a non-empty array of finite times in s`);
     }
     if (!win) throw new OptionError('stimulusTimes needs a window ([from, to] in ms around each stimulus)');
@@ -140,7 +147,8 @@ export function readNwbSync(path: string, options: NwbReadOptions = {}): SweepSe
   try {
     fd = openSync(path, constants.O_RDONLY);
   } catch (e) {
-    throw new InputError({ file: path }, `cannot open file (${(e as NodeJS.ErrnoException).code ?? (e as Error).message})`, 'a readable NWB file');
+    throw new InputError({ file: path },
+      `cannot open file (${(e as NodeJS.ErrnoException).code ?? (e as Error).message})`, 'a readable NWB file');
   }
   const stat = fstatSync(fd);
   if (!stat.isFile()) {
@@ -161,7 +169,8 @@ export function readNwbSync(path: string, options: NwbReadOptions = {}): SweepSe
   }
 }
 
-function readOpen(path: string, f: H5File, o: NwbReadOptions, win: [number, number] | undefined, stat: import('node:fs').Stats): SweepSet {
+function readOpen(path: string, f: H5File, o: NwbReadOptions, win: [number, number] | undefined,
+  stat: import('node:fs').Stats): SweepSet {
   const bad = (field: string, problem: string, expected: string): never => {
     throw new InputError({ file: path, field }, problem, expected);
   };
@@ -172,7 +181,8 @@ function readOpen(path: string, f: H5File, o: NwbReadOptions, win: [number, numb
     bad('/', `HDF5 without the NWB root attributes (neurodata_type ${shown(rootType ?? null)}, nwb_version ${shown(version ?? null)})`,
       'an NWB 2.x file: the root group has neurodata_type "NWBFile" and an nwb_version');
   }
-  if (!/^2\./.test(version!)) bad('/', `nwb_version ${shown(version)}`, 'NWB 2.x (NWB 1.x files must be converted first)');
+  if (!/^2\./.test(version!)) bad('/', `nwb_version ${shown(version)}`,
+    'NWB 2.x (NWB 1.x files must be converted first)');
   const meta = fileMetadata(f);
   const byFascicle = typeof meta.source_script === 'string' && meta.source_script.startsWith(FASCICLE_SCRIPT);
 
@@ -181,7 +191,9 @@ function readOpen(path: string, f: H5File, o: NwbReadOptions, win: [number, numb
   let paths: string[];
   if (o.series !== undefined) {
     const want = typeof o.series === 'string' ? [o.series] : [...o.series];
-    if (want.length === 0 || !want.every((s) => typeof s === 'string' && s)) throw new OptionError(`invalid series: ${shown(o.series)}; must be a series name or HDF5 path, or a list of them`);
+    if (want.length === 0 || !want.every((s) => typeof s === 'string' && s)) {
+      throw new OptionError(`invalid series: ${shown(o.series)}; must be a series name or HDF5 path, or a list of them`);
+    }
     paths = want.map((s) => {
       const p = s.startsWith('/') ? s : candidates.find((c) => c.endsWith('/' + s)) ?? `/acquisition/${s}`;
       if (!candidates.includes(p)) {
@@ -192,16 +204,19 @@ function readOpen(path: string, f: H5File, o: NwbReadOptions, win: [number, numb
       return p;
     });
   } else if (candidates.length === 0) {
-    paths = bad('/acquisition', 'no TimeSeries or ElectricalSeries with data in /acquisition or /processing', 'a series of evoked recordings');
+    paths = bad('/acquisition', 'no TimeSeries or ElectricalSeries with data in /acquisition or /processing',
+      'a series of evoked recordings');
   } else if (candidates.length === 1 || byFascicle) {
     paths = candidates;
   } else {
-    paths = bad('/acquisition', `${candidates.length} series: ${candidates.join(', ')}`, 'the series option naming the one to read');
+    paths = bad('/acquisition', `${candidates.length} series: ${candidates.join(', ')}`,
+      'the series option naming the one to read');
   }
   const outUnits = o.units;
   // one entry per (series, channel) read
   const manyChannels = o.channel === 'all' || Array.isArray(o.channel);
-  const series = paths.flatMap((p) => channelsOf(path, f, p, o.channel).map((ch) => seriesInfo(path, f, p, ch, outUnits, byFascicle)));
+  const series = paths.flatMap((p) => channelsOf(path, f, p, o.channel).map((ch) => seriesInfo(path, f, p, ch,
+    outUnits, byFascicle)));
   const byPath = [...new Map(series.map((s) => [s.path, s])).values()];
   const units: SignalUnit = outUnits ?? series[0].unitGuess;
   for (const s of series) setGain(s, units);
@@ -223,18 +238,21 @@ function readOpen(path: string, f: H5File, o: NwbReadOptions, win: [number, numb
     const col = (name: string) => cols.columns.find((c) => c.name === name);
     if (o.stimulusColumn !== undefined) {
       if (!col(o.stimulusColumn)) {
-        bad(`${tablePath}/${o.stimulusColumn}`, `no column ${JSON.stringify(o.stimulusColumn)}${didYouMean(o.stimulusColumn, names)}`, `one of ${names.join(', ')}`);
+        bad(`${tablePath}/${o.stimulusColumn}`,
+          `no column ${JSON.stringify(o.stimulusColumn)}${didYouMean(o.stimulusColumn, names)}`, `one of ${names.join(', ')}`);
       }
       stimulusColumn = o.stimulusColumn;
     } else {
       stimulusColumn = STIMULUS_NAMES.find((s) => names.some((k) => k.toLowerCase() === s)) ?? null;
       if (stimulusColumn) stimulusColumn = names.find((k) => k.toLowerCase() === stimulusColumn)!;
       else if (col('start_time')) stimulusColumn = 'start_time';
-      else bad(`${tablePath}/start_time`, 'the table has no start_time and no stimulus column', `a start_time column or one of ${STIMULUS_NAMES.join(', ')}`);
+      else bad(`${tablePath}/start_time`, 'the table has no start_time and no stimulus column',
+        `a start_time column or one of ${STIMULUS_NAMES.join(', ')}`);
     }
     const times = col(stimulusColumn!)!;
     times.values.forEach((v, i) => {
-      if (typeof v !== 'number') bad(times.path, `row ${i} has no stimulus time (${shown(v)})`, 'a time in s in every row');
+      if (typeof v !== 'number') bad(times.path, `row ${i} has no stimulus time (${shown(v)})`,
+        'a time in s in every row');
     });
     const start = col('start_time');
     const stop = col('stop_time');
@@ -246,7 +264,8 @@ function readOpen(path: string, f: H5File, o: NwbReadOptions, win: [number, numb
       const c: Record<string, ConditionValue> = {};
       for (const column of cols.columns) if (!used.has(column.name)) c[column.name] = column.values[i];
       Object.assign(c, mapped.values[i]);
-      rows.push({ T: times.values[i] as number, start: num(start?.values[i]), stop: num(stop?.values[i]), columns: c, id: cols.ids[i] });
+      rows.push({ T: times.values[i] as number, start: num(start?.values[i]), stop: num(stop?.values[i]),
+        columns: c, id: cols.ids[i] });
     }
     if (rows.length === 0) bad(tablePath, 'the table has no rows', 'one row per stimulus');
   }
@@ -269,7 +288,8 @@ function readOpen(path: string, f: H5File, o: NwbReadOptions, win: [number, numb
   if (o.trials === undefined) selected = rows.map((_, i) => i);
   else if (typeof o.trials === 'function') {
     const test = o.trials;
-    selected = rows.map((_, i) => i).filter((i) => test(Object.freeze(conditionsOf(i, series.length === 1 ? series[0] : null)), i));
+    selected = rows.map((_, i) => i).filter((i) => test(Object.freeze(conditionsOf(i,
+      series.length === 1 ? series[0] : null)), i));
   } else {
     if (!Array.isArray(o.trials) || !o.trials.every((i) => Number.isInteger(i) && i >= 0 && i < rows.length)) {
       throw new OptionError(`invalid trials: ${shown(o.trials)}; must be row numbers 0..${rows.length - 1} or a function`);
@@ -286,7 +306,8 @@ function readOpen(path: string, f: H5File, o: NwbReadOptions, win: [number, numb
   let fs = fs0;
   for (const s of series) {
     const r = s.rate ?? fs0;
-    if (Math.abs(r - fs) > 1e-9 * fs) bad(s.path, `sample rate ${r} Hz differs from ${fs} Hz in ${series[0].path}`, 'one sample rate for all series read together');
+    if (Math.abs(r - fs) > 1e-9 * fs) bad(s.path, `sample rate ${r} Hz differs from ${fs} Hz in ${series[0].path}`,
+      'one sample rate for all series read together');
   }
   fs = snap(fs);
 
@@ -296,23 +317,28 @@ function readOpen(path: string, f: H5File, o: NwbReadOptions, win: [number, numb
   if (win) [from, to] = win;
   else {
     if (selected.some((i) => rows[i].start === undefined || rows[i].stop === undefined)) {
-      bad(tablePath ?? '/intervals', 'no window option and rows without start_time / stop_time', 'the window option ([from, to] ms around each stimulus)');
+      bad(tablePath ?? '/intervals', 'no window option and rows without start_time / stop_time',
+        'the window option ([from, to] ms around each stimulus)');
     }
     from = Math.max(...selected.map((i) => (rows[i].start! - rows[i].T) * 1000));
     to = Math.min(...selected.map((i) => (rows[i].stop! - rows[i].T) * 1000));
-    if (!(to > from)) bad(tablePath!, `the rows' start_time..stop_time spans have no common part around their stimuli (${from} to ${to} ms)`, 'the window option');
+    if (!(to > from)) bad(tablePath!,
+      `the rows' start_time..stop_time spans have no common part around their stimuli (${from} to ${to} ms)`, 'the window option');
   }
   const phases = selected.map((row, k) => (place[k].time - rows[row].T) * 1000);
   const phase = [...phases].sort((x, y) => x - y)[Math.floor(phases.length / 2)];
   const a = Math.ceil(((from - phase) * fs) / 1000 - 1e-3);
   const b = Math.floor(((to - phase) * fs) / 1000 + 1e-3);
   const nSamples = b - a + 1;
-  if (nSamples < 2) bad(tablePath ?? '/intervals', `the window [${from}, ${to}] ms holds ${nSamples} sample at ${fs} Hz`, 'a window of at least 2 samples');
+  if (nSamples < 2) bad(tablePath ?? '/intervals',
+    `the window [${from}, ${to}] ms holds ${nSamples} sample at ${fs} Hz`, 'a window of at least 2 samples');
   const t0Ms = Number(((a * 1000) / fs + phase).toFixed(9));
+  const t1Ms = Number(((b * 1000) / fs + phase).toFixed(9));
   const jitter = Math.max(...phases.map((x) => Math.abs(x - phase)));
 
   // the sweeps: each selected row once per channel read from its series
-  const sweeps = selected.flatMap((row, k) => series.filter((s) => s.path === place[k].s.path).map((s) => ({ row, k, s })));
+  const sweeps = selected.flatMap((row, k) => series.filter((s) => s.path === place[k].s.path)
+    .map((s) => ({ row, k, s })));
 
   // read the samples: one hyperslab per sweep
   const out = sharedSamples(sweeps.length * nSamples);
@@ -321,7 +347,8 @@ function readOpen(path: string, f: H5File, o: NwbReadOptions, win: [number, numb
     const i0 = index + a;
     const i1 = index + b + 1;
     if (i0 < 0 || i1 > s.nTimes) {
-      bad(s.path + '/data', `the window of row ${row} (stimulus at ${rows[row].T} s) runs from sample ${i0} to ${i1 - 1}, outside the series (0..${s.nTimes - 1})`,
+      bad(s.path + '/data',
+        `the window of row ${row} (stimulus at ${rows[row].T} s) runs from sample ${i0} to ${i1 - 1}, outside the series (0..${s.nTimes - 1})`,
         'a window inside the recording (a smaller window option)');
     }
     if (s.timestamps) checkGrid(path, s, i0, i1, fs, row);
@@ -338,7 +365,8 @@ function readOpen(path: string, f: H5File, o: NwbReadOptions, win: [number, numb
   for (const note of notes) warnOnce(`nwb:${path}:${note}`, `${path}: ${note}`);
   const info = series.map((s) => ({
     path: s.path, unit: s.unit, conversion: s.conversion, offset: s.offset, resolution: s.resolution,
-    channel: s.channel, channelConversion: s.channelConversion, time: s.rate !== undefined ? 'starting_time+rate' : 'timestamps',
+    channel: s.channel, channelConversion: s.channelConversion,
+    time: s.rate !== undefined ? 'starting_time+rate' : 'timestamps',
   }));
   const source = lazySource(path, stat);
   return new SweepSet({
@@ -347,7 +375,7 @@ function readOpen(path: string, f: H5File, o: NwbReadOptions, win: [number, numb
     history: [{
       verb: 'readNwb',
       options: {
-        path, series: info, intervals: tablePath, stimulusColumn, window: [t0Ms, Number(((b * 1000) / fs + phase).toFixed(9))], units,
+        path, series: info, intervals: tablePath, stimulusColumn, window: [t0Ms, t1Ms], units,
         columns: mapping, rows: selected.length === rows.length ? 'all' : selected, maxStimulusOffsetMs: jitter,
         notes, nwb: meta,
       },
@@ -424,9 +452,13 @@ function fileMetadata(f: H5File): FileMeta {
     }
   }
   return {
-    nwb_version: attrText(f, 'nwb_version'), identifier: one('/identifier'), session_description: one('/session_description'),
-    session_start_time: one('/session_start_time'), source_script: typeof general.source_script === 'string' ? general.source_script : undefined,
-    general, subject,
+    nwb_version: attrText(f, 'nwb_version'),
+    identifier: one('/identifier'),
+    session_description: one('/session_description'),
+    session_start_time: one('/session_start_time'),
+    source_script: typeof general.source_script === 'string' ? general.source_script : undefined,
+    general,
+    subject,
   };
 }
 
@@ -462,40 +494,47 @@ function channelsOf(file: string, f: H5File, p: string, channel: NwbReadOptions[
   if (channel === 'all') return Array.from({ length: n }, (_, i) => i);
   if (Array.isArray(channel)) {
     for (const c of channel) {
-      if (c >= n) throw new InputError({ file, field: `${p}/data` }, `channel ${c} with ${n} channels`, `channels 0..${n - 1}`);
+      if (c >= n) throw new InputError({ file, field: `${p}/data` }, `channel ${c} with ${n} channels`,
+        `channels 0..${n - 1}`);
     }
     return [...new Set(channel as number[])];
   }
   return [channel as number | undefined];
 }
 
-function seriesInfo(file: string, f: H5File, p: string, channel: number | undefined, units: SignalUnit | undefined, byFascicle: boolean): SeriesWithGuess {
+function seriesInfo(file: string, f: H5File, p: string, channel: number | undefined, units: SignalUnit | undefined,
+  byFascicle: boolean): SeriesWithGuess {
   const bad = (field: string, problem: string, expected: string): never => {
     throw new InputError({ file, field }, problem, expected);
   };
   const g = at(f, p) as H5Group;
   const data = g.get('data') as H5Dataset;
   const shape = data.shape ?? [];
-  if (shape.length < 1 || shape.length > 2) bad(`${p}/data`, `data has ${shape.length} dimensions (${shape.join(' x ')})`, 'times, or times x channels');
+  if (shape.length < 1 || shape.length > 2) bad(`${p}/data`,
+    `data has ${shape.length} dimensions (${shape.join(' x ')})`, 'times, or times x channels');
   const nTimes = shape[0];
   const nChannels = shape.length === 2 ? shape[1] : 1;
   let ch = channel ?? 0;
-  if (channel === undefined && nChannels > 1) bad(`${p}/data`, `data has ${nChannels} channels`, `the channel option (0..${nChannels - 1}, a list, or "all")`);
+  if (channel === undefined && nChannels > 1) bad(`${p}/data`, `data has ${nChannels} channels`,
+    `the channel option (0..${nChannels - 1}, a list, or "all")`);
   if (ch >= nChannels) bad(`${p}/data`, `channel ${ch} with ${nChannels} channels`, `a channel 0..${nChannels - 1}`);
   const unit = attrText(data, 'unit');
   if (unit === undefined) bad(`${p}/data`, 'data has no unit attribute', 'unit "volts" (or another voltage unit)');
   const valueScale = VOLT_UNITS[unit!.trim().replace(/[µμ]/g, 'u').toLowerCase()];
-  if (valueScale === undefined) bad(`${p}/data`, `data has the unit ${JSON.stringify(unit)}, not a voltage`, 'volts, millivolts or microvolts');
+  if (valueScale === undefined) bad(`${p}/data`, `data has the unit ${JSON.stringify(unit)}, not a voltage`,
+    'volts, millivolts or microvolts');
   const conversion = attrNumber(data, 'conversion') ?? 1;
   const offset = attrNumber(data, 'offset') ?? 0;
   const resolution = attrNumber(data, 'resolution') ?? -1;
-  if (!Number.isFinite(conversion) || conversion === 0) bad(`${p}/data`, `conversion is ${conversion}`, 'a finite non-zero factor');
+  if (!Number.isFinite(conversion) || conversion === 0) bad(`${p}/data`, `conversion is ${conversion}`,
+    'a finite non-zero factor');
   if (!Number.isFinite(offset)) bad(`${p}/data`, `offset is ${offset}`, 'a finite offset');
   let channelConversion = 1;
   const cc = g.keys().includes('channel_conversion') ? g.get('channel_conversion') : null;
   if (isDataset(cc)) {
     const v = numbers(cc);
-    if (v.length !== nChannels || !Number.isFinite(v[ch]) || v[ch] === 0) bad(`${p}/channel_conversion`, `${v.length} factors for ${nChannels} channels`, 'one finite non-zero factor per channel');
+    if (v.length !== nChannels || !Number.isFinite(v[ch]) || v[ch] === 0) bad(`${p}/channel_conversion`,
+      `${v.length} factors for ${nChannels} channels`, 'one finite non-zero factor per channel');
     channelConversion = v[ch];
   }
   let rate: number | undefined, startingTime: number | undefined, timestamps: H5Dataset | undefined;
@@ -505,19 +544,22 @@ function seriesInfo(file: string, f: H5File, p: string, channel: number | undefi
   if (isDataset(st)) {
     startingTime = numbers(st)[0];
     rate = attrNumber(st, 'rate');
-    if (!(rate! > 0) || !Number.isFinite(rate)) bad(`${p}/starting_time`, `rate is ${shown(rate ?? null)}`, 'a rate attribute in Hz > 0');
+    if (!(rate! > 0) || !Number.isFinite(rate)) bad(`${p}/starting_time`, `rate is ${shown(rate ?? null)}`,
+      'a rate attribute in Hz > 0');
     rate = snap(rate!);
     tFirst = startingTime;
     tLast = startingTime + (nTimes - 1) / rate;
   } else if (isDataset(ts)) {
     const tshape = ts.shape ?? [];
-    if (tshape.length !== 1 || tshape[0] !== nTimes) bad(`${p}/timestamps`, `${tshape.join(' x ')} timestamps for ${nTimes} samples`, 'one timestamp per sample');
+    if (tshape.length !== 1 || tshape[0] !== nTimes) bad(`${p}/timestamps`,
+      `${tshape.join(' x ')} timestamps for ${nTimes} samples`, 'one timestamp per sample');
     if (nTimes < 2) bad(`${p}/data`, `${nTimes} sample`, 'at least 2 samples');
     timestamps = ts;
     tFirst = numbers(ts, [0, 1])[0];
     tLast = numbers(ts, [nTimes - 1, nTimes])[0];
   } else {
-    return bad(p, 'the series has neither starting_time (with rate) nor timestamps', 'starting_time and its rate, or timestamps');
+    return bad(p, 'the series has neither starting_time (with rate) nor timestamps',
+      'starting_time and its rate, or timestamps');
   }
   // electrodes of an ElectricalSeries
   const electrode: Record<string, ConditionValue> = {};
@@ -527,12 +569,14 @@ function seriesInfo(file: string, f: H5File, p: string, channel: number | undefi
   const inVolts = conversion * channelConversion * valueScale;
   let unitGuess: SignalUnit = 'mV';
   if (offset === 0) {
-    for (const u of ['V', 'mV', 'uV'] as SignalUnit[]) if (Math.fround(inVolts) === Math.fround(UNIT_SCALE[u])) unitGuess = u;
+    for (const u of ['V', 'mV',
+      'uV'] as SignalUnit[]) if (Math.fround(inVolts) === Math.fround(UNIT_SCALE[u])) unitGuess = u;
   }
   void units;
   return {
-    path: p, group: g, data, nTimes, nChannels, channel: ch, gain: 1, shift: 0, identity: false, unit: unit!, conversion, offset,
-    resolution, channelConversion, rate, startingTime, timestamps, tFirst: tFirst!, tLast: tLast!, electrode, unitGuess, valueScale,
+    path: p, group: g, data, nTimes, nChannels, channel: ch, gain: 1, shift: 0, identity: false, unit: unit!,
+    conversion, offset, resolution, channelConversion, rate, startingTime, timestamps, tFirst: tFirst!, tLast: tLast!,
+    electrode, unitGuess, valueScale,
   };
 }
 
@@ -551,7 +595,8 @@ function setGain(s: SeriesInfo & { valueScale?: number }, units: SignalUnit): vo
   s.identity = false;
 }
 
-function electrodeConditions(file: string, f: H5File, p: string, reg: H5Dataset, ch: number): Record<string, ConditionValue> {
+function electrodeConditions(file: string, f: H5File, p: string, reg: H5Dataset,
+  ch: number): Record<string, ConditionValue> {
   const rows = numbers(reg);
   const tableRef = attr(reg, 'table');
   let table: unknown = null;
@@ -562,12 +607,14 @@ function electrodeConditions(file: string, f: H5File, p: string, reg: H5Dataset,
   }
   if (!isGroup(table)) table = at(f, '/general/extracellular_ephys/electrodes');
   if (!isGroup(table)) {
-    throw new InputError({ file, field: `${p}/electrodes` }, 'the electrodes region points at no table', 'the electrodes table at /general/extracellular_ephys/electrodes');
+    throw new InputError({ file, field: `${p}/electrodes` }, 'the electrodes region points at no table',
+      'the electrodes table at /general/extracellular_ephys/electrodes');
   }
   const tpath = (table as H5Group).path;
   const t = readTable(file, table as H5Group, tpath);
   const row = rows[ch];
-  if (!(row >= 0 && row < t.n)) throw new InputError({ file, field: `${p}/electrodes` }, `channel ${ch} points at row ${row} of ${t.n}`, 'a row of the electrodes table');
+  if (!(row >= 0 && row < t.n)) throw new InputError({ file, field: `${p}/electrodes` },
+    `channel ${ch} points at row ${row} of ${t.n}`, 'a row of the electrodes table');
   const out: Record<string, ConditionValue> = { electrode: t.ids[row] };
   const loc = t.columns.find((c) => c.name === 'location');
   if (loc && loc.values[row] !== null && loc.values[row] !== '') out.site = loc.values[row];
@@ -582,9 +629,11 @@ function electrodeConditions(file: string, f: H5File, p: string, reg: H5Dataset,
 /** The TimeIntervals table to use. */
 function findIntervals(file: string, f: H5File, want: string | undefined): string {
   const iv = at(f, '/intervals');
-  const tables = isGroup(iv) ? iv.keys().filter((k) => { const g = iv.get(k); return isGroup(g) && typeOf(g) === 'TimeIntervals'; }) : [];
+  const tables = isGroup(iv) ? iv.keys().filter((k) => { const g = iv.get(k); return isGroup(g)
+    && typeOf(g) === 'TimeIntervals'; }) : [];
   if (want !== undefined) {
-    if (typeof want !== 'string' || !want) throw new OptionError(`invalid intervals: ${shown(want)}; must be a table name or HDF5 path`);
+    if (typeof want !== 'string'
+      || !want) throw new OptionError(`invalid intervals: ${shown(want)}; must be a table name or HDF5 path`);
     const p = want.startsWith('/') ? want : `/intervals/${want}`;
     const g = at(f, p);
     if (!isGroup(g) || !['TimeIntervals', 'DynamicTable'].includes(typeOf(g) ?? '')) {
@@ -596,10 +645,12 @@ function findIntervals(file: string, f: H5File, want: string | undefined): strin
   if (tables.includes('trials')) return '/intervals/trials';
   if (tables.length === 1) return `/intervals/${tables[0]}`;
   if (tables.length === 0) {
-    throw new InputError({ file, field: '/intervals/trials' }, 'no trials table and no other TimeIntervals table under /intervals: the file gives no stimulus times',
+    throw new InputError({ file, field: '/intervals/trials' },
+      'no trials table and no other TimeIntervals table under /intervals: the file gives no stimulus times',
       'a TimeIntervals table with one row per stimulus, or the stimulusTimes and window options');
   }
-  throw new InputError({ file, field: '/intervals' }, `${tables.length} TimeIntervals tables and none is "trials": ${tables.join(', ')}`, 'the intervals option naming one');
+  throw new InputError({ file, field: '/intervals' },
+    `${tables.length} TimeIntervals tables and none is "trials": ${tables.join(', ')}`, 'the intervals option naming one');
 }
 
 /** Every column of a DynamicTable: 1-D numbers or text; ragged columns (with an _index) joined by ", ". */
@@ -614,14 +665,17 @@ export function readTable(file: string, g: H5Group, p: string): { n: number; ids
   const n = ids.length;
   let colnames = attr(g, 'colnames') as unknown;
   if (typeof colnames === 'string') colnames = [colnames];
-  const listed = Array.isArray(colnames) ? (colnames as string[]) : keys.filter((k) => k !== 'id' && !k.endsWith('_index'));
+  const listed = Array.isArray(colnames) ? (colnames as string[]) : keys.filter((k) => k !== 'id'
+    && !k.endsWith('_index'));
   const columns: TableColumn[] = [];
   for (const name of listed) {
     const d = keys.includes(name) ? g.get(name) : null;
-    if (!isDataset(d)) bad(`${p}/${name}`, `column ${JSON.stringify(name)} is listed in colnames but missing`, 'every listed column');
+    if (!isDataset(d)) bad(`${p}/${name}`, `column ${JSON.stringify(name)} is listed in colnames but missing`,
+      'every listed column');
     const ds = d as H5Dataset;
     const kind = elementKind(ds);
-    if (kind === 'reference' || kind === 'compound' || kind === 'other') continue; // references to other objects are not conditions
+    if (kind === 'reference' || kind === 'compound'
+      || kind === 'other') continue; // references to other objects are not conditions
     const shape = ds.shape ?? [];
     if (shape.length !== 1) continue; // multi-dimensional cells are not conditions
     const raw = kind === 'string' ? texts(ds) : numbers(ds);
@@ -629,7 +683,8 @@ export function readTable(file: string, g: H5Group, p: string): { n: number; ids
     const idx = keys.includes(`${name}_index`) ? g.get(`${name}_index`) : null;
     if (isDataset(idx)) {
       const ends = Array.from(numbers(idx));
-      if (ends.length !== n) bad(`${p}/${name}_index`, `${ends.length} index entries for ${n} rows`, 'one entry per row');
+      if (ends.length !== n) bad(`${p}/${name}_index`, `${ends.length} index entries for ${n} rows`,
+        'one entry per row');
       const flat = values;
       values = ends.map((e, i) => flat.slice(i ? ends[i - 1] : 0, e).map(String).join(', '));
     } else if (values.length !== n) {
@@ -643,7 +698,8 @@ export function readTable(file: string, g: H5Group, p: string): { n: number; ids
 }
 
 /** Apply the condition mapping to a table's columns. */
-function mapColumns(file: string, columns: TableColumn[], override: Readonly<Record<string, string | null>>, tablePath: string,
+function mapColumns(file: string, columns: TableColumn[], override: Readonly<Record<string, string | null>>,
+  tablePath: string,
   notes: string[], used: Set<string>): { values: Record<string, ConditionValue>[]; mapping: Record<string, string> } {
   const n = columns[0]?.values.length ?? 0;
   const values: Record<string, ConditionValue>[] = Array.from({ length: n }, () => ({}));
@@ -658,13 +714,15 @@ function mapColumns(file: string, columns: TableColumn[], override: Readonly<Rec
       if (want === null) continue;
       const c = columns.find((k) => k.name === want);
       if (!c) {
-        throw new InputError({ file, field: `${tablePath}/${want}` }, `columns.${cond} names the column ${JSON.stringify(want)}, which the table does not have${didYouMean(want, names)}`,
+        throw new InputError({ file, field: `${tablePath}/${want}` },
+          `columns.${cond} names the column ${JSON.stringify(want)}, which the table does not have${didYouMean(want, names)}`,
           `one of ${names.join(', ')}`);
       }
       let unit = c.unit;
       if (unit === undefined && spec.kind !== 'text' && spec.kind !== 'number') {
         const m = /_([^_]+)$/.exec(want);
-        const u = m ? findColumn(cond, { ...spec, names: [want.slice(0, -m[0].length).toLowerCase()] }, [c])?.unit : undefined;
+        const u = m ? findColumn(cond, { ...spec, names: [want.slice(0, -m[0].length).toLowerCase()] },
+          [c])?.unit : undefined;
         unit = u;
       }
       found = { column: c, unit };
@@ -695,7 +753,8 @@ function estimateRate(file: string, s: SeriesInfo, T: number): number {
   for (let k = 1; k < t.length; k++) d.push(t[k] - t[k - 1]);
   d.sort((x, y) => x - y);
   const med = d[Math.floor(d.length / 2)];
-  if (!(med > 0)) throw new InputError({ file, field: `${s.path}/timestamps` }, 'timestamps do not increase', 'increasing timestamps in s');
+  if (!(med > 0)) throw new InputError({ file, field: `${s.path}/timestamps` }, 'timestamps do not increase',
+    'increasing timestamps in s');
   // the rate from the span of the run of regular steps around the stimulus
   let k1 = 1;
   while (k1 < t.length && Math.abs(t[k1] - t[k1 - 1] - med) < 0.25 * med) k1++;
@@ -752,10 +811,12 @@ function locate(file: string, series: SeriesInfo[], T: number, fs: number, row: 
   if (hits.length === 1) return hits[0];
   const where = table ? `${table} row ${row}` : `stimulusTimes[${row}]`;
   if (hits.length === 0) {
-    throw new InputError({ file, field: where }, `the stimulus at ${T} s falls outside the recorded samples of ${series.map((s) => s.path).join(', ')}`,
+    throw new InputError({ file, field: where },
+      `the stimulus at ${T} s falls outside the recorded samples of ${series.map((s) => s.path).join(', ')}`,
       'stimulus times inside a series (on the same time axis)');
   }
-  throw new InputError({ file, field: where }, `the stimulus at ${T} s lies in ${hits.length} series (${hits.map((h) => h.s.path).join(', ')})`,
+  throw new InputError({ file, field: where },
+    `the stimulus at ${T} s lies in ${hits.length} series (${hits.map((h) => h.s.path).join(', ')})`,
     'the series option naming one');
 }
 
@@ -782,7 +843,8 @@ function checkGrid(file: string, s: SeriesInfo, i0: number, i1: number, fs: numb
 }
 
 /** One hyperslab into out[o..o+n), converted. */
-function readInto(file: string, s: SeriesInfo, i0: number, i1: number, out: Float64Array, o: number, row: number): void {
+function readInto(file: string, s: SeriesInfo, i0: number, i1: number, out: Float64Array, o: number,
+  row: number): void {
   s.reader ??= new HyperslabReader(s.data);
   const twoD = (s.data.shape ?? []).length === 2;
   const { gain, shift, identity } = s;
@@ -794,10 +856,12 @@ function readInto(file: string, s: SeriesInfo, i0: number, i1: number, out: Floa
       if (bad < 0 && !Number.isFinite(v)) bad = k;
     });
   } catch (e) {
-    throw new InputError({ file, field: `${s.path}/data` }, `reading samples ${i0}..${i1 - 1} failed (${String((e as Error).message).slice(0, 200)})`, 'readable data');
+    throw new InputError({ file, field: `${s.path}/data` },
+      `reading samples ${i0}..${i1 - 1} failed (${String((e as Error).message).slice(0, 200)})`, 'readable data');
   }
   if (bad >= 0) {
-    throw new InputError({ file, field: `${s.path}/data`, sweep: row }, `a non-finite sample (${out[o + bad]}) at sample ${i0 + bad}`, 'finite samples');
+    throw new InputError({ file, field: `${s.path}/data`, sweep: row },
+      `a non-finite sample (${out[o + bad]}) at sample ${i0 + bad}`, 'finite samples');
   }
 }
 
@@ -808,13 +872,15 @@ export async function readNwbTables(path: string): Promise<Record<string, Record
   try {
     fd = openSync(path, constants.O_RDONLY);
   } catch (e) {
-    throw new InputError({ file: path }, `cannot open file (${(e as NodeJS.ErrnoException).code ?? (e as Error).message})`, 'a readable NWB file');
+    throw new InputError({ file: path },
+      `cannot open file (${(e as NodeJS.ErrnoException).code ?? (e as Error).message})`, 'a readable NWB file');
   }
   const f = openHdf5(path, fd, fstatSync(fd).size);
   try {
     const out: Record<string, Record<string, ConditionValue>[]> = {};
     const mod = at(f, '/processing/fascicle');
-    if (!isGroup(mod)) throw new InputError({ file: path, field: '/processing/fascicle' }, 'no fascicle processing module', 'a file written by fascicle (writeNwb)');
+    if (!isGroup(mod)) throw new InputError({ file: path, field: '/processing/fascicle' },
+      'no fascicle processing module', 'a file written by fascicle (writeNwb)');
     for (const k of mod.keys()) {
       const g = mod.get(k);
       if (!isGroup(g) || typeOf(g) !== 'DynamicTable' || k === 'history' || k === 'inputs') continue;

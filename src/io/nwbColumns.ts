@@ -45,12 +45,14 @@ export interface ConditionSpec {
 }
 
 export const NWB_CONDITIONS: Readonly<Record<string, ConditionSpec>> = {
-  intensity: { kind: 'withUnit', unitCondition: 'intensityUnit', names: ['intensity', 'stimulus_intensity', 'stim_intensity',
+  intensity: { kind: 'withUnit', unitCondition: 'intensityUnit', names: [
+    'intensity', 'stimulus_intensity', 'stim_intensity',
     'stimulus_amplitude', 'stim_amplitude', 'stimulus_current', 'current'] },
   pulseWidthMs: { kind: 'time', own: 'pulseWidthMs', names: ['pulse_width', 'pulse_duration', 'stimulus_duration',
     'stim_duration'] },
   distanceMm: { kind: 'length', own: 'distanceMm', names: ['distance', 'conduction_distance', 'dist'] },
-  concentration: { kind: 'withUnit', unitCondition: 'concentrationUnit', names: ['concentration', 'drug_concentration',
+  concentration: { kind: 'withUnit', unitCondition: 'concentrationUnit', names: [
+    'concentration', 'drug_concentration',
     'conc'] },
   temperatureC: { kind: 'temperature', own: 'temperatureC', names: ['temperature', 'bath_temperature', 'temp'] },
   drug: { kind: 'text', names: ['drug', 'compound', 'agent', 'drug_name'] },
@@ -95,10 +97,12 @@ function suffixUnit(kind: ColumnKind, suffix: string): string | undefined {
 }
 
 /** Find the column of a condition by the default names: exact own name, a listed name, or a listed name + unit. */
-export function findColumn(condition: string, spec: ConditionSpec, columns: readonly TableColumn[]): { column: TableColumn; unit?: string } | null {
+export function findColumn(condition: string, spec: ConditionSpec,
+  columns: readonly TableColumn[]): { column: TableColumn; unit?: string } | null {
   if (spec.own) {
     const own = columns.find((c) => c.name === spec.own);
-    const implied = spec.seconds ? 's' : ({ time: 'ms', length: 'mm', temperature: 'c' } as Record<string, string>)[spec.kind];
+    const units: Record<string, string> = { time: 'ms', length: 'mm', temperature: 'c' };
+    const implied = spec.seconds ? 's' : units[spec.kind];
     if (own) return { column: own, unit: own.unit ?? implied };
   }
   const exact = columns.find((c) => c.name === condition);
@@ -122,7 +126,8 @@ export function findColumn(condition: string, spec: ConditionSpec, columns: read
  * Convert one mapped column to condition values (and a unit condition).
  * @throws InputError naming the file and the column's HDF5 path when values or unit do not fit.
  */
-export function convertColumn(file: string, condition: string, spec: ConditionSpec, column: TableColumn, unit: string | undefined):
+export function convertColumn(file: string, condition: string, spec: ConditionSpec, column: TableColumn,
+  unit: string | undefined):
   { values: ConditionValue[]; unitValue?: string; note?: string } {
   const bad = (problem: string, expected: string): never => {
     throw new InputError({ file, field: column.path }, problem, expected);
@@ -136,28 +141,33 @@ export function convertColumn(file: string, condition: string, spec: ConditionSp
     });
     return column.values as (number | null)[];
   };
-  if (spec.kind === 'text') return { values: column.values.map((v) => (typeof v === 'number' || v === null ? v : String(v))) };
+  if (spec.kind === 'text') {
+    return { values: column.values.map((v) => (typeof v === 'number' || v === null ? v : String(v))) };
+  }
   if (spec.kind === 'number') return { values: numeric() };
   if (spec.kind === 'time' || spec.kind === 'length') {
     const table = spec.kind === 'time' ? TIME_UNITS : LENGTH_UNITS;
     const u = unit === undefined ? (spec.kind === 'time' ? 's' : 'm') : norm(unit).toLowerCase();
     const factor = table[u] / (spec.seconds ? 1000 : 1);
     if (!Number.isFinite(factor)) {
-      bad(`column "${column.name}" has the unit ${JSON.stringify(unit)}`, `one of ${Object.keys(table).join(', ')} for ${condition}`);
+      bad(`column "${column.name}" has the unit ${JSON.stringify(unit)}`,
+        `one of ${Object.keys(table).join(', ')} for ${condition}`);
     }
     const note = unit === undefined ? `${column.name}: no unit given, read as ${u} (NWB's SI convention)` : undefined;
     return { values: numeric().map((v) => (v === null ? null : v * factor)), note };
   }
   if (spec.kind === 'temperature') {
     const u = unit === undefined ? 'C' : TEMPERATURE_UNITS[norm(unit).toLowerCase()];
-    if (!u) bad(`column "${column.name}" has the unit ${JSON.stringify(unit)}`, 'degC (or C, celsius) or K for temperatureC');
+    if (!u) bad(`column "${column.name}" has the unit ${JSON.stringify(unit)}`,
+      'degC (or C, celsius) or K for temperatureC');
     return { values: numeric().map((v) => (v === null ? null : u === 'K' ? v - 273.15 : v)) };
   }
   // withUnit: the values as they are, the unit into its own condition
   if (unit !== undefined) {
     const allowed = condition === 'intensity' ? INTENSITY_UNITS : CONCENTRATION_UNITS;
     const u = norm(unit);
-    if (!allowed.includes(u)) bad(`column "${column.name}" has the unit ${JSON.stringify(unit)}`, `one of ${allowed.join(', ')} for ${condition}`);
+    if (!allowed.includes(u)) bad(`column "${column.name}" has the unit ${JSON.stringify(unit)}`,
+      `one of ${allowed.join(', ')} for ${condition}`);
     return { values: numeric(), unitValue: u };
   }
   return { values: numeric() };
@@ -191,7 +201,8 @@ export function encodeColumn(values: readonly unknown[]): ColumnEncoding {
 }
 
 /** Decode a column read from a table (numbers or strings), by its `fascicle_dtype` attribute when present. */
-export function decodeColumn(raw: ArrayLike<number> | readonly string[], encoding: string | undefined): ConditionValue[] {
+export function decodeColumn(raw: ArrayLike<number> | readonly string[],
+  encoding: string | undefined): ConditionValue[] {
   const out: ConditionValue[] = new Array(raw.length);
   for (let i = 0; i < raw.length; i++) {
     const v = raw[i] as number | string;

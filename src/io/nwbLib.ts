@@ -100,7 +100,8 @@ export function checkHdf5(path: string, fd: number, size: number): void {
     const eof = read(eofAt);
     const end = (baseAddr === 0 ? base : baseAddr) + eof;
     if (size < end) {
-      throw new InputError({ file: path }, `the file is truncated: it has ${size} bytes but its HDF5 superblock says ${end}`,
+      throw new InputError({ file: path },
+        `the file is truncated: it has ${size} bytes but its HDF5 superblock says ${end}`,
         'the complete file (copy it again)');
     }
     return;
@@ -173,7 +174,8 @@ export function typeOf(obj: H5Group | H5Dataset): string | undefined {
 }
 
 /** Numbers of a 1-D dataset (all, [i0, i1) or every step-th of [i0, i1)), int64 as Number. */
-export function numbers(d: H5Dataset, range?: [number, number] | [number, number, number]): Float64Array | Int32Array | Float32Array | number[] {
+type Range = [number, number] | [number, number, number];
+export function numbers(d: H5Dataset, range?: Range): Float64Array | Int32Array | Float32Array | number[] {
   const v = (range ? d.slice([range]) : d.value) as unknown;
   if (v instanceof BigInt64Array || v instanceof BigUint64Array) return Array.from(v as ArrayLike<bigint>, Number);
   if (ArrayBuffer.isView(v)) return v as unknown as Float64Array;
@@ -194,12 +196,15 @@ export function texts(d: H5Dataset): string[] {
 export function elementKind(d: H5Dataset): 'int' | 'float' | 'string' | 'reference' | 'compound' | 'other' {
   const m = d.metadata as { type: number; compound_type?: unknown };
   // HDF5 type classes: 0 integer, 1 float, 3 string, 6 compound, 7 reference, 8 enum (h5py's booleans)
-  return m.type === 0 || m.type === 8 ? 'int' : m.type === 1 ? 'float' : m.type === 3 ? 'string' : m.type === 7 ? 'reference'
-    : m.type === 6 ? 'compound' : 'other';
+  const kinds: Record<number, 'int' | 'float' | 'string' | 'reference' | 'compound'> = {
+    0: 'int', 1: 'float', 3: 'string', 6: 'compound', 7: 'reference', 8: 'int',
+  };
+  return kinds[m.type] ?? 'other';
 }
 
 interface RawModule {
-  get_dataset_data(fileId: bigint, path: string, count: bigint[], offset: bigint[], strides: bigint[], ptr: bigint): number;
+  get_dataset_data(fileId: bigint, path: string, count: bigint[], offset: bigint[], strides: bigint[],
+    ptr: bigint): number;
   _malloc(n: number): number;
   _free(p: number): void;
   HEAPU8: Uint8Array;
@@ -231,7 +236,8 @@ export class HyperslabReader {
     this.signed = m.signed;
     this.little = m.littleEndian;
     const mod = (ns?.Module ?? null) as RawModule | null;
-    this.raw = mod && typeof mod.get_dataset_data === 'function' && typeof mod._malloc === 'function' && this.little ? mod : null;
+    const usable = mod && typeof mod.get_dataset_data === 'function' && typeof mod._malloc === 'function';
+    this.raw = usable && this.little ? mod : null;
   }
 
   /** Read rows [i0, i1) (of column `col` for 2-D data) and pass each value to put(k, value). */
@@ -263,7 +269,9 @@ export class HyperslabReader {
         : this.size === 2 ? (this.signed ? new Int16Array(buf, at, n) : new Uint16Array(buf, at, n))
           : this.size === 4 ? (this.signed ? new Int32Array(buf, at, n) : new Uint32Array(buf, at, n))
             : (this.signed ? new BigInt64Array(buf, at, n) : new BigUint64Array(buf, at, n));
-    if (view instanceof BigInt64Array || view instanceof BigUint64Array) for (let k = 0; k < n; k++) put(k, Number(view[k]));
+    if (view instanceof BigInt64Array || view instanceof BigUint64Array) {
+      for (let k = 0; k < n; k++) put(k, Number(view[k]));
+    }
     else for (let k = 0; k < n; k++) put(k, view[k]);
   }
 

@@ -18,7 +18,9 @@
  * file is replaced only with `overwrite: true` and only when fascicle wrote it.
  */
 import { randomUUID } from 'node:crypto';
-import { existsSync, lstatSync, renameSync, rmSync, openSync, fstatSync, closeSync, statSync, constants } from 'node:fs';
+import {
+  existsSync, lstatSync, renameSync, rmSync, openSync, fstatSync, closeSync, statSync, constants,
+} from 'node:fs';
 import { basename, dirname, join, resolve } from 'node:path';
 import { OptionError, OutputError, systemReason } from '../errors';
 import { checkKeys, shown } from '../validate';
@@ -29,6 +31,8 @@ import { encodeColumn } from './nwbColumns';
 import { FASCICLE_SCRIPT } from './nwb';
 
 type Rows = readonly Record<string, unknown>[];
+type ResultTables = { tables(): Record<string, Rows> } | { tables: Record<string, Rows | undefined> }
+  | Record<string, Rows | undefined>;
 
 export interface NwbWriteOptions {
   /** The set holds the samples as acquired (only reading and selection steps): written to /acquisition.
@@ -37,7 +41,7 @@ export interface NwbWriteOptions {
   /** Replace an existing file at the path, only if fascicle wrote it (default false: an existing path is refused). */
   overwrite?: boolean;
   /** Result tables for /processing/fascicle: a result object (with tables()), a study ({ tables }), or name -> rows. */
-  results?: { tables(): Record<string, Rows> } | { tables: Record<string, Rows | undefined> } | Record<string, Rows | undefined>;
+  results?: ResultTables;
   /** /session_description. Default: the study's description or name, else "fascicle export". */
   sessionDescription?: string;
   /** /session_start_time (ISO 8601 with time zone, or a Date). Default: the one of the NWB file the set came
@@ -56,12 +60,15 @@ export interface NwbWriteOptions {
   compression?: number;
 }
 
-const WRITE_KEYS = ['raw', 'overwrite', 'results', 'sessionDescription', 'sessionStartTime', 'identifier', 'subject', 'lab',
+const WRITE_KEYS = ['raw', 'overwrite', 'results', 'sessionDescription', 'sessionStartTime', 'identifier',
+  'subject', 'lab',
   'institution', 'experimenter', 'compression'];
 /** Verbs that leave samples as acquired. */
-const RAW_VERBS = new Set(['readBinary', 'readDelimited', 'readManifest', 'readNwb', 'select', 'where', 'crop', 'toUnits', 'concat']);
+const RAW_VERBS = new Set(['readBinary', 'readDelimited', 'readManifest', 'readNwb', 'select', 'where', 'crop',
+  'toUnits', 'concat']);
 const UNIT_TO_VOLTS = { V: 1, mV: 1e-3, uV: 1e-6 } as const;
-const OWN_UNITS: Record<string, string> = { pulseWidthMs: 'ms', distanceMm: 'mm', temperatureC: 'degC', acquiredS: 's' };
+const OWN_UNITS: Record<string, string> = { pulseWidthMs: 'ms', distanceMm: 'mm', temperatureC: 'degC',
+  acquiredS: 's' };
 const GAP_S = 1;
 
 export interface NwbWriteResult {
@@ -119,10 +126,13 @@ export function writeNwbSync(set: SweepSet, path: string, options: NwbWriteOptio
   }
   if (set.nSweeps === 0) throw new OptionError('the set has no sweeps to write');
   const level = options.compression ?? 0;
-  if (!Number.isInteger(level) || level < 0 || level > 9) throw new OptionError(`invalid compression: ${shown(level)}; must be a gzip level 0..9 (0: none)`);
+  if (!Number.isInteger(level) || level < 0 || level > 9) {
+    throw new OptionError(`invalid compression: ${shown(level)}; must be a gzip level 0..9 (0: none)`);
+  }
   const start = options.sessionStartTime ?? (set.extras.nwb as { session_start_time?: string } | undefined)?.session_start_time;
   const startIso = start instanceof Date ? start.toISOString() : start;
-  if (startIso !== undefined && (typeof startIso !== 'string' || Number.isNaN(Date.parse(startIso)) || !/T.*(Z|[+-]\d\d:?\d\d)$/.test(startIso))) {
+  if (startIso !== undefined && (typeof startIso !== 'string' || Number.isNaN(Date.parse(startIso))
+    || !/T.*(Z|[+-]\d\d:?\d\d)$/.test(startIso))) {
     throw new OptionError(`invalid sessionStartTime: ${shown(start)}; must be an ISO 8601 time with a time zone (2026-03-14T09:30:00+01:00) or a Date`);
   }
 
@@ -132,26 +142,33 @@ export function writeNwbSync(set: SweepSet, path: string, options: NwbWriteOptio
     throw new OutputError(path, `refusing to write ${path}: it is an input of this set`, { refused: true });
   }
   if (existsSync(target)) {
-    if (!lstatSync(target).isFile()) throw new OutputError(path, `refusing to write ${path}: it exists and is not a file`, { refused: true });
+    if (!lstatSync(target).isFile()) {
+      throw new OutputError(path, `refusing to write ${path}: it exists and is not a file`, { refused: true });
+    }
     if (!options.overwrite) {
-      throw new OutputError(path, `refusing to write ${path}: the file exists (pass overwrite: true to replace an NWB file that fascicle wrote)`, { refused: true });
+      throw new OutputError(path,
+        `refusing to write ${path}: the file exists (pass overwrite: true to replace an NWB file that fascicle wrote)`, { refused: true });
     }
     if (!writtenByFascicle(target)) {
-      throw new OutputError(path, `refusing to overwrite ${path}: it is not an NWB file written by fascicle (no /general/source_script "${FASCICLE_SCRIPT} ...")`, { refused: true });
+      throw new OutputError(path,
+        `refusing to overwrite ${path}: it is not an NWB file written by fascicle (no /general/source_script "${FASCICLE_SCRIPT} ...")`, { refused: true });
     }
   }
   const dir = dirname(target);
   try {
     if (!statSync(dir).isDirectory()) throw Object.assign(new Error('not a folder'), { code: 'ENOTDIR' });
   } catch (e) {
-    throw new OutputError(path, `cannot write ${path}: ${systemReason(e)}`, { refused: false, code: (e as NodeJS.ErrnoException).code });
+    const code = (e as NodeJS.ErrnoException).code;
+    throw new OutputError(path, `cannot write ${path}: ${systemReason(e)}`, { refused: false, code });
   }
   const tmp = join(dir, `.${basename(target)}.tmp-${process.pid}-${randomUUID().slice(0, 8)}`);
   let f: H5File | null = null;
   let result: Omit<NwbWriteResult, 'path'>;
   try {
     const created = new (h5().File)(tmp, 'w');
-    if (typeof created.file_id === 'bigint' && created.file_id < 0n) throw new OutputError(path, `cannot create a temporary file in ${dir}`, { refused: false });
+    if (typeof created.file_id === 'bigint' && created.file_id < 0n) {
+      throw new OutputError(path, `cannot create a temporary file in ${dir}`, { refused: false });
+    }
     f = created;
     result = writeContent(f, set, options, raw, startIso, level);
     f.close();
@@ -161,7 +178,8 @@ export function writeNwbSync(set: SweepSet, path: string, options: NwbWriteOptio
     if (f) try { f.close(); } catch { /* already failed */ }
     rmSync(tmp, { force: true });
     if (e instanceof OutputError || e instanceof OptionError) throw e;
-    throw new OutputError(path, `writing ${path} failed: ${systemReason(e)}`, { refused: false, code: (e as NodeJS.ErrnoException).code });
+    const code = (e as NodeJS.ErrnoException).code;
+    throw new OutputError(path, `writing ${path} failed: ${systemReason(e)}`, { refused: false, code });
   }
   return { ...result, path };
 }
@@ -178,17 +196,20 @@ function text(g: H5Group, name: string, value: string | readonly string[]) {
   return g.create_dataset({ name, data: typeof value === 'string' ? value : [...value], dtype: S });
 }
 
-function writeContent(f: H5File, set: SweepSet, o: NwbWriteOptions, raw: boolean, startIso: string | undefined, level: number): Omit<NwbWriteResult, 'path'> {
+function writeContent(f: H5File, set: SweepSet, o: NwbWriteOptions, raw: boolean, startIso: string | undefined,
+  level: number): Omit<NwbWriteResult, 'path'> {
   const now = new Date().toISOString();
   const manifest = set.extras.manifest as { study?: string; description?: string; species?: string; nerve?: string } | undefined;
-  const fromNwb = set.extras.nwb as { general?: Record<string, string | string[]>; subject?: Record<string, string> } | undefined;
+  type FromNwb = { general?: Record<string, string | string[]>; subject?: Record<string, string> };
+  const fromNwb = set.extras.nwb as FromNwb | undefined;
   f.create_attribute('namespace', 'core', null, S);
   f.create_attribute('neurodata_type', 'NWBFile', null, S);
   f.create_attribute('nwb_version', '2.7.0', null, S);
   f.create_attribute('object_id', randomUUID(), null, S);
   text(f, 'file_create_date', [now]);
   text(f, 'identifier', o.identifier ?? randomUUID());
-  text(f, 'session_description', o.sessionDescription ?? manifest?.description ?? manifest?.study ?? 'fascicle export');
+  text(f, 'session_description',
+    o.sessionDescription ?? manifest?.description ?? manifest?.study ?? 'fascicle export');
   text(f, 'session_start_time', startIso ?? now);
   text(f, 'timestamps_reference_time', startIso ?? now);
   for (const g of ['acquisition', 'analysis', 'processing', 'stimulus', 'general', 'intervals']) f.create_group(g);
@@ -212,19 +233,26 @@ function writeContent(f: H5File, set: SweepSet, o: NwbWriteOptions, raw: boolean
   const experimenter = o.experimenter ?? meta.experimenter;
   if (lab) text(general, 'lab', lab);
   if (institution) text(general, 'institution', institution);
-  if (experimenter !== undefined) text(general, 'experimenter', typeof experimenter === 'string' ? [experimenter] : [...experimenter]);
-  const description = manifest?.description ?? (typeof meta.experiment_description === 'string' ? meta.experiment_description : undefined);
+  if (experimenter !== undefined) {
+    text(general, 'experimenter', typeof experimenter === 'string' ? [experimenter] : [...experimenter]);
+  }
+  const given = typeof meta.experiment_description === 'string' ? meta.experiment_description : undefined;
+  const description = manifest?.description ?? given;
   if (description) text(general, 'experiment_description', description);
   const preps = [...new Set(set.column('preparation').filter((v) => v !== null).map(String))];
   const subject: Record<string, string> = { ...(fromNwb?.subject ?? {}), ...(o.subject ?? {}) };
   if (!subject.subject_id && preps.length === 1) subject.subject_id = preps[0];
   if (!subject.species && manifest?.species) subject.species = manifest.species;
-  if (!subject.subject_id && preps.length > 1) subject.description = `${preps.length} preparations: see the preparation column of /intervals/trials`;
+  if (!subject.subject_id && preps.length > 1) {
+    subject.description = `${preps.length} preparations: see the preparation column of /intervals/trials`;
+  }
   if (Object.keys(subject).length) {
     const sg = general.create_group('subject');
     typed(sg, 'Subject');
     for (const [k, v] of Object.entries(subject)) {
-      if (typeof v !== 'string' || !/^[A-Za-z0-9_]+$/.test(k)) throw new OptionError(`invalid subject.${k}: ${shown(v)}; must be text under a plain field name`);
+      if (typeof v !== 'string' || !/^[A-Za-z0-9_]+$/.test(k)) {
+        throw new OptionError(`invalid subject.${k}: ${shown(v)}; must be text under a plain field name`);
+      }
       text(sg, k, v);
     }
   }
@@ -233,7 +261,8 @@ function writeContent(f: H5File, set: SweepSet, o: NwbWriteOptions, raw: boolean
   const devices = general.create_group('devices');
   const dev = devices.create_group('recording_system');
   typed(dev, 'Device');
-  dev.create_attribute('description', 'amplifier and digitiser of the recording (not described in the input)', null, S);
+  dev.create_attribute('description', 'amplifier and digitiser of the recording (not described in the input)',
+    null, S);
   const ee = general.create_group('extracellular_ephys');
   const eg = ee.create_group('recording');
   typed(eg, 'ElectrodeGroup');
@@ -255,12 +284,16 @@ function writeContent(f: H5File, set: SweepSet, o: NwbWriteOptions, raw: boolean
   const eRows = electrodeKeys.map((k) => JSON.parse(k) as [ConditionValue, ConditionValue, ConditionValue]);
   const elTable = ee.create_group('electrodes');
   const groupRef = eg.create_reference();
-  writeTable(elTable, 'DynamicTable', 'hdmf-common', 'recording electrodes: one per preparation, site and conduction distance', eRows.length, [
-    { name: 'location', values: eRows.map((r) => (r[1] === null ? 'not recorded' : String(r[1]))), description: 'recording site' },
+  writeTable(elTable, 'DynamicTable', 'hdmf-common',
+    'recording electrodes: one per preparation, site and conduction distance', eRows.length, [
+    { name: 'location', values: eRows.map((r) => (r[1] === null ? 'not recorded' : String(r[1]))),
+      description: 'recording site' },
     { name: 'group', refs: eRows.map(() => groupRef), description: 'electrode group' },
     { name: 'group_name', values: eRows.map(() => 'recording'), description: 'electrode group name' },
-    { name: 'distance_mm', values: eRows.map((r) => (typeof r[2] === 'number' ? r[2] : null)), description: 'conduction distance from the stimulating cathode to the recording electrode, mm (NaN: not recorded)', unit: 'mm' },
-    { name: 'preparation', values: eRows.map((r) => (r[0] === null ? '' : String(r[0]))), description: 'preparation (nerve) the electrode recorded from' },
+    { name: 'distance_mm', values: eRows.map((r) => (typeof r[2] === 'number' ? r[2] : null)),
+      description: 'conduction distance from the stimulating cathode to the recording electrode, mm (NaN: not recorded)', unit: 'mm' },
+    { name: 'preparation', values: eRows.map((r) => (r[0] === null ? '' : String(r[0]))),
+      description: 'preparation (nerve) the electrode recorded from' },
   ]);
   const elRef = elTable.create_reference();
 
@@ -286,7 +319,8 @@ function writeContent(f: H5File, set: SweepSet, o: NwbWriteOptions, raw: boolean
     const name = eRows.length === 1 ? 'sweeps' : `sweeps_e${e}`;
     const g = home.create_group(name);
     typed(g, 'ElectricalSeries');
-    g.create_attribute('description', `${members.length} sweeps of ${n} samples at ${set.fs} Hz, stored in ${set.units}`, null, S);
+    g.create_attribute('description',
+      `${members.length} sweeps of ${n} samples at ${set.fs} Hz, stored in ${set.units}`, null, S);
     g.create_attribute('comments', 'sweeps on a synthetic time axis: see /general/notes', null, S);
     g.create_attribute('filtering', filtering, null, S);
     const total = members.length * n;
@@ -294,9 +328,11 @@ function writeContent(f: H5File, set: SweepSet, o: NwbWriteOptions, raw: boolean
     const perChunk = Math.max(1, Math.min(members.length, Math.floor(32768 / n)));
     const chunk = perChunk * n;
     const gz = level > 0 ? { compression: 'gzip' as const, compression_opts: level } : {};
-    const d = g.create_dataset({ name: 'data', data: new Float64Array(0), shape: [0, 1], maxshape: [null, 1], chunks: [chunk, 1], ...gz });
+    const d = g.create_dataset({ name: 'data', data: new Float64Array(0), shape: [0, 1], maxshape: [null, 1],
+      chunks: [chunk, 1], ...gz });
     d.resize([total, 1]);
-    const ts = g.create_dataset({ name: 'timestamps', data: new Float64Array(0), shape: [0], maxshape: [null], chunks: [chunk], ...gz });
+    const ts = g.create_dataset({ name: 'timestamps', data: new Float64Array(0), shape: [0], maxshape: [null],
+      chunks: [chunk], ...gz });
     ts.resize([total]);
     const xb = new Float64Array(chunk);
     const tb = new Float64Array(chunk);
@@ -334,9 +370,12 @@ function writeContent(f: H5File, set: SweepSet, o: NwbWriteOptions, raw: boolean
   const trials = (f.get('intervals') as H5Group).create_group('trials');
   const keys = conditionKeys(set.conditions);
   const cols: ColumnSpec[] = [
-    { name: 'start_time', values: set.conditions.map((_, i) => stimAt(i) + set.t0Ms / 1000), description: 'first sample of the sweep, s (synthetic time axis)' },
-    { name: 'stop_time', values: set.conditions.map((_, i) => stimAt(i) + set.timeAt(n - 1) / 1000), description: 'last sample of the sweep, s' },
-    { name: 'stimulus_time', values: set.conditions.map((_, i) => stimAt(i)), description: 'stimulus of the sweep, s' },
+    { name: 'start_time', values: set.conditions.map((_, i) => stimAt(i) + set.t0Ms / 1000),
+      description: 'first sample of the sweep, s (synthetic time axis)' },
+    { name: 'stop_time', values: set.conditions.map((_, i) => stimAt(i) + set.timeAt(n - 1) / 1000),
+      description: 'last sample of the sweep, s' },
+    { name: 'stimulus_time', values: set.conditions.map((_, i) => stimAt(i)),
+      description: 'stimulus of the sweep, s' },
   ];
   for (const k of keys) {
     const name = k === 'file' ? 'source_file' : k === 'fileSweep' ? 'source_sweep' : k;
@@ -346,7 +385,8 @@ function writeContent(f: H5File, set: SweepSet, o: NwbWriteOptions, raw: boolean
     const unit = OWN_UNITS[k] ?? (units.length === 1 && typeof units[0] === 'string' ? units[0] : undefined);
     cols.push({ name, values, description: `condition ${k}${unit ? ` (${unit})` : ''}`, unit });
   }
-  writeTable(trials, 'TimeIntervals', 'core', 'one row per sweep: stimulus time, sample range and conditions', set.nSweeps, cols, {
+  writeTable(trials, 'TimeIntervals', 'core', 'one row per sweep: stimulus time, sample range and conditions',
+    set.nSweeps, cols, {
     name: 'timeseries', description: 'the samples of each sweep', starts: idxStart, count: n, refs: Array.from(seriesOf, (s) => seriesRefs[s]),
   });
 
@@ -362,7 +402,8 @@ function writeContent(f: H5File, set: SweepSet, o: NwbWriteOptions, raw: boolean
   const hist = proc.create_group('history');
   writeTable(hist, 'DynamicTable', 'hdmf-common', 'the steps that made the sweeps, in order', set.history.length, [
     { name: 'verb', values: set.history.map((s) => s.verb), description: 'step' },
-    { name: 'options', values: set.history.map((s) => JSON.stringify(s.options)), description: 'every option of the step (defaults included), JSON' },
+    { name: 'options', values: set.history.map((s) => JSON.stringify(s.options)),
+      description: 'every option of the step (defaults included), JSON' },
     { name: 'version', values: set.history.map((s) => s.version), description: 'fascicle version' },
   ]);
   const inp = proc.create_group('inputs');
@@ -388,9 +429,12 @@ function writeContent(f: H5File, set: SweepSet, o: NwbWriteOptions, raw: boolean
 
 function resultTables(r: NwbWriteOptions['results']): Record<string, Rows | undefined> {
   if (r === undefined) return {};
-  if (r === null || typeof r !== 'object') throw new OptionError(`invalid results: ${shown(r)}; must be a result object or name -> rows`);
+  if (r === null || typeof r !== 'object') {
+    throw new OptionError(`invalid results: ${shown(r)}; must be a result object or name -> rows`);
+  }
   const t = (r as { tables?: unknown }).tables;
-  const out = typeof t === 'function' ? (t as () => Record<string, Rows>).call(r) : t && typeof t === 'object' && !Array.isArray(t) ? t : r;
+  const out = typeof t === 'function' ? (t as () => Record<string, Rows>).call(r)
+    : t && typeof t === 'object' && !Array.isArray(t) ? t : r;
   for (const [k, v] of Object.entries(out as Record<string, unknown>)) {
     if (v !== undefined && (!Array.isArray(v) || !v.every((x) => x && typeof x === 'object' && !Array.isArray(x)))) {
       throw new OptionError(`invalid results.${k}: must be an array of row objects`);
@@ -427,7 +471,8 @@ function writeTable(g: H5Group, type: string, ns: string, description: string, n
       d = enc.kind === 'string' || enc.kind === 'json'
         ? g.create_dataset({ name: names[k], data: enc.data, dtype: S, ...(enc.data.length ? {} : { shape: [0] }) })
         : g.create_dataset({ name: names[k], data: enc.data });
-      if (enc.kind !== 'number' || (c.values ?? []).some((v) => v === null || v === undefined)) d.create_attribute('fascicle_dtype', enc.kind, null, S);
+      const missing = (c.values ?? []).some((v) => v === null || v === undefined);
+      if (enc.kind !== 'number' || missing) d.create_attribute('fascicle_dtype', enc.kind, null, S);
     }
     typed(d, 'VectorData', 'hdmf-common');
     d.create_attribute('description', c.description, null, S);
@@ -437,11 +482,13 @@ function writeTable(g: H5Group, type: string, ns: string, description: string, n
   if (tsref) {
     const d = g.create_dataset({
       name: tsref.name,
-      data: new Map<string, unknown>([['idx_start', tsref.starts], ['count', new Int32Array(n).fill(tsref.count)], ['timeseries', tsref.refs]]) as never,
+      data: new Map<string, unknown>([['idx_start', tsref.starts], ['count', new Int32Array(n).fill(tsref.count)],
+        ['timeseries', tsref.refs]]) as never,
     });
     typed(d, 'TimeSeriesReferenceVectorData', 'core');
     d.create_attribute('description', tsref.description, null, S);
-    const idx = g.create_dataset({ name: `${tsref.name}_index`, data: Uint32Array.from({ length: n }, (_, i) => i + 1) });
+    const ends = Uint32Array.from({ length: n }, (_, i) => i + 1);
+    const idx = g.create_dataset({ name: `${tsref.name}_index`, data: ends });
     typed(idx, 'VectorIndex', 'hdmf-common');
     idx.create_attribute('description', `index into ${tsref.name}`, null, S);
     idx.create_attribute('target', d.create_reference());

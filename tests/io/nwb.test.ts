@@ -35,11 +35,15 @@ const pyHas = (mods: string) => existsSync(PY) && spawnSync(PY, ['-c', `import $
 const HAVE_H5PY = pyHas('h5py, numpy');
 const HAVE_HDMF = HAVE_H5PY && pyHas('hdmf');
 if (!HAVE_H5PY) console.warn('skipping the h5py read-back tests: /usr/bin/python3 lacks h5py (apt-get install python3-h5py)');
-if (HAVE_H5PY && !HAVE_HDMF) console.warn('skipping the hdmf validation: /usr/bin/python3 lacks hdmf (apt-get install python3-hdmf)');
+if (HAVE_H5PY && !HAVE_HDMF) {
+  console.warn('skipping the hdmf validation: /usr/bin/python3 lacks hdmf (apt-get install python3-hdmf)');
+}
 
 /** h5py's view of a file and hdmf's verdict (tests/reference/validate_nwb.py --layout). */
-function independent(path: string): { ok: boolean; errors: string[]; types: Record<string, string>; layout: any; unavailable?: string } {
-  const r = spawnSync(PY, [join(__dirname, '..', 'reference', 'validate_nwb.py'), '--layout', path], { encoding: 'utf8' });
+type Independent = { ok: boolean; errors: string[]; types: Record<string, string>; layout: any; unavailable?: string };
+function independent(path: string): Independent {
+  const r = spawnSync(PY, [join(__dirname, '..', 'reference', 'validate_nwb.py'), '--layout', path],
+    { encoding: 'utf8' });
   const line = r.stdout.trim().split('\n').pop() ?? '';
   return JSON.parse(line);
 }
@@ -82,7 +86,9 @@ describe('readNwb(path, options) on files written by h5py', () => {
       });
       const rows: number[][] = e.sweeps_mV[String(ch)];
       const first = ch === 2 ? 10 : 0;
-      rows.forEach((row, j) => row.forEach((v, i) => expect(Math.abs(set.sweep(first + j)[i] - v)).toBeLessThan(1e-9)));
+      rows.forEach((row, j) => {
+        row.forEach((v, i) => expect(Math.abs(set.sweep(first + j)[i] - v)).toBeLessThan(1e-9));
+      });
       // electrodes table: location and distance of the channel's row
       expect(set.conditions[0].site).toBe(e.locations[ch]);
       expect(set.conditions[0].distanceMm).toBe(e.distance_mm[ch]);
@@ -175,38 +181,49 @@ describe('readNwb errors name the file, the place inside it and the problem', ()
   it('a truncated file', () => {
     const p = join(tmp, 'truncated.nwb');
     writeFileSync(p, readFileSync(fx('continuous.nwb')).subarray(0, 30000));
-    expectInputError(() => readNwbSync(p), p, undefined, /truncated: it has 30000 bytes but its HDF5 superblock says \d+/);
+    expectInputError(() => readNwbSync(p), p, undefined,
+      /truncated: it has 30000 bytes but its HDF5 superblock says \d+/);
   });
 
   it('a file that is not HDF5, and HDF5 that is not NWB', () => {
     const pj = join(__dirname, '..', '..', 'package.json');
     expectInputError(() => readNwbSync(pj), pj, undefined, /not an HDF5 file/);
-    expectInputError(() => readNwbSync(fx('not_nwb.h5')), fx('not_nwb.h5'), '/', /without the NWB root attributes.*NWBFile/);
-    expectInputError(() => readNwbSync(join(tmp, 'missing.nwb')), join(tmp, 'missing.nwb'), undefined, /cannot open file \(ENOENT\)/);
+    expectInputError(() => readNwbSync(fx('not_nwb.h5')), fx('not_nwb.h5'), '/',
+      /without the NWB root attributes.*NWBFile/);
+    expectInputError(() => readNwbSync(join(tmp, 'missing.nwb')), join(tmp, 'missing.nwb'), undefined,
+      /cannot open file \(ENOENT\)/);
   });
 
   it('a series with no stimulus times', () => {
-    expectInputError(() => readNwbSync(fx('no_stimulus.nwb')), fx('no_stimulus.nwb'), '/intervals/trials', /no trials table.*no stimulus times/);
+    expectInputError(() => readNwbSync(fx('no_stimulus.nwb')), fx('no_stimulus.nwb'), '/intervals/trials',
+      /no trials table.*no stimulus times/);
   });
 
   it('trials columns that do not map: a unit it does not know, words for a temperature, a mapping to a missing column', () => {
     const p = fx('bad_trials.nwb');
     expectInputError(() => readNwbSync(p), p, '/intervals/trials/pulse_width', /unit "fortnights"/);
-    expectInputError(() => readNwbSync(p, { columns: { pulseWidthMs: null } }), p, '/intervals/trials/temperature', /"warm" in row 0, which is not a number/);
-    expectInputError(() => readNwbSync(fx('precut.nwb'), { columns: { intensity: 'ampp' } }), fx('precut.nwb'), '/intervals/stimulation/ampp',
+    expectInputError(() => readNwbSync(p, { columns: { pulseWidthMs: null } }), p, '/intervals/trials/temperature',
+      /"warm" in row 0, which is not a number/);
+    expectInputError(() => readNwbSync(fx('precut.nwb'), { columns: { intensity: 'ampp' } }), fx('precut.nwb'),
+      '/intervals/stimulation/ampp',
       /does not have \(did you mean "amp"\?\)/);
   });
 
   it('several channels without the channel option; a series name with a typo; a window outside the recording or across a gap', () => {
-    expectInputError(() => readNwbSync(fx('continuous.nwb')), fx('continuous.nwb'), '/acquisition/nerve/data', /3 channels/);
-    expectInputError(() => readNwbSync(fx('continuous.nwb'), { channel: 0, series: 'nerv' }), fx('continuous.nwb'), '/acquisition/nerv', /did you mean "nerve"/);
-    expectInputError(() => readNwbSync(fx('continuous.nwb'), { channel: 0, window: [-5, 500] }), fx('continuous.nwb'), '/acquisition/nerve/data', /outside the series/);
-    expectInputError(() => readNwbSync(fx('precut.nwb'), { columns: { intensity: 'amp' }, window: [-0.8, 9] }), fx('precut.nwb'),
+    expectInputError(() => readNwbSync(fx('continuous.nwb')), fx('continuous.nwb'), '/acquisition/nerve/data',
+      /3 channels/);
+    expectInputError(() => readNwbSync(fx('continuous.nwb'), { channel: 0, series: 'nerv' }), fx('continuous.nwb'),
+      '/acquisition/nerv', /did you mean "nerve"/);
+    expectInputError(() => readNwbSync(fx('continuous.nwb'), { channel: 0, window: [-5, 500] }),
+      fx('continuous.nwb'), '/acquisition/nerve/data', /outside the series/);
+    expectInputError(() => readNwbSync(fx('precut.nwb'), { columns: { intensity: 'amp' }, window: [-0.8, 9] }),
+      fx('precut.nwb'),
       /\/acquisition\/cap_sweeps\/(timestamps|data)/, /gap|outside the series/);
   });
 
   it('options are checked at the call', () => {
-    expect(() => readNwbSync(fx('precut.nwb'), { windw: [0, 1] } as never)).toThrow(/unknown key "windw" in readNwb options \(did you mean "window"\?\)/);
+    expect(() => readNwbSync(fx('precut.nwb'), { windw: [0,
+      1] } as never)).toThrow(/unknown key "windw" in readNwb options \(did you mean "window"\?\)/);
     expect(() => readNwbSync(fx('precut.nwb'), { window: [3, 1] })).toThrow(OptionError);
     expect(() => readNwbSync(fx('precut.nwb'), { channel: -1 })).toThrow(/invalid channel/);
   });
@@ -216,9 +233,11 @@ describe('readNwb errors name the file, the place inside it and the problem', ()
 function sampleSet(): SweepSet {
   const nSweeps = 6, nSamples = 300, fs = 20000;
   const data = new Float64Array(nSweeps * nSamples);
-  for (let s = 0; s < nSweeps; s++) for (let i = 0; i < nSamples; i++) data[s * nSamples + i] = Math.sin(i / (7 + s)) * (s + 1) / 3 + 1e-3 * i;
+  for (let s = 0; s < nSweeps; s++) for (let i = 0; i < nSamples; i++) data[s * nSamples + i] = Math.sin(i / (7
+    + s)) * (s + 1) / 3 + 1e-3 * i;
   const conditions: Conditions[] = Array.from({ length: nSweeps }, (_, s) => ({
-    preparation: 'N1', site: s < 3 ? 'proximal' : 'distal', distanceMm: s < 3 ? 20 : 32.5, intensity: 0.5 * (s + 1), intensityUnit: 'mA',
+    preparation: 'N1', site: s < 3 ? 'proximal' : 'distal', distanceMm: s < 3 ? 20 : 32.5, intensity: 0.5 * (s
+      + 1), intensityUnit: 'mA',
     pulseWidthMs: 0.05, temperatureC: 36.6, repeat: s % 2, flagged: s === 4, note: s === 2 ? null : `n${s}`, empty: s === 1 ? '' : 'x',
     maybe: s === 3 ? null : 1.25, acquiredS: 10 + s * 2.5, file: 'demo.csv', fileSweep: s,
   }));
@@ -227,7 +246,8 @@ function sampleSet(): SweepSet {
 }
 
 describe('writeNwb(set, path, options) and reading back', () => {
-  it('round trip: identical samples, time base and conditions; several electrodes become several series', async () => {
+  it('round trip: identical samples, time base and conditions; several electrodes become several series',
+    async () => {
     const set = sampleSet();
     const p = join(tmp, 'round.nwb');
     const res = await writeNwb(set, p, { raw: true });
@@ -262,7 +282,8 @@ describe('writeNwb(set, path, options) and reading back', () => {
 
   it('HyperslabReader gives what h5wasm slice() gives (int16 2-D with gzip, float32 1-D)', () => {
     const lib = h5();
-    for (const [file, path, col] of [[fx('continuous.nwb'), 'acquisition/nerve/data', 2], [fx('precut.nwb'), 'acquisition/cap_sweeps/data', null]] as const) {
+    for (const [file, path, col] of [[fx('continuous.nwb'), 'acquisition/nerve/data', 2], [fx('precut.nwb'),
+      'acquisition/cap_sweeps/data', null]] as const) {
       const f = new lib.File(file, 'r');
       try {
         const d = f.get(path) as import('h5wasm').Dataset;
@@ -278,10 +299,12 @@ describe('writeNwb(set, path, options) and reading back', () => {
     }
   });
 
-  it('conditioned samples go to a processing module with the history; raw: true refuses conditioned samples', async () => {
+  it('conditioned samples go to a processing module with the history; raw: true refuses conditioned samples',
+    async () => {
     const raw = await readNwb(fx('continuous.nwb'), { channel: 2 });
     const cond = raw.baseline({ window: [-4, -0.5] }).lowpass(2000);
-    await expect(writeNwb(cond, join(tmp, 'x.nwb'), { raw: true })).rejects.toThrow(/raw: true for samples changed by baseline, filter/);
+    await expect(writeNwb(cond, join(tmp, 'x.nwb'),
+      { raw: true })).rejects.toThrow(/raw: true for samples changed by baseline, filter/);
     const p = join(tmp, 'conditioned.nwb');
     const components = [{ sweep: 0, class: 'A', latency_ms: 1.25, detected: true, reason: null, 'v/d': 2 },
       { sweep: 1, class: 'A', latency_ms: null, detected: false, reason: 'below noise', 'v/d': 3 }];
@@ -302,11 +325,13 @@ describe('writeNwb(set, path, options) and reading back', () => {
     copyFileSync(fx('continuous.nwb'), foreign);
     const before = sha(foreign);
     await expect(writeNwb(set, foreign, { raw: true })).rejects.toThrow(OutputError);
-    await expect(writeNwb(set, foreign, { raw: true, overwrite: true })).rejects.toThrow(/not an NWB file written by fascicle/);
+    await expect(writeNwb(set, foreign, { raw: true,
+      overwrite: true })).rejects.toThrow(/not an NWB file written by fascicle/);
     expect(sha(foreign)).toBe(before);
     const text = join(tmp, 'notes.nwb');
     writeFileSync(text, 'my notes');
-    await expect(writeNwb(set, text, { raw: true, overwrite: true })).rejects.toThrow(/not an NWB file written by fascicle/);
+    await expect(writeNwb(set, text, { raw: true,
+      overwrite: true })).rejects.toThrow(/not an NWB file written by fascicle/);
     expect(readFileSync(text, 'utf8')).toBe('my notes');
     const own = join(tmp, 'own.nwb');
     await writeNwb(set, own, { raw: true });
@@ -316,7 +341,8 @@ describe('writeNwb(set, path, options) and reading back', () => {
     expect((await readNwb(own)).nSweeps).toBe(2);
     expect(statSync(own).mtimeMs).toBeGreaterThanOrEqual(t1);
     const input = await readNwb(fx('precut.nwb'), { columns: { intensity: 'amp' } });
-    await expect(writeNwb(input, fx('precut.nwb'), { raw: true, overwrite: true })).rejects.toThrow(/it is an input of this set/);
+    await expect(writeNwb(input, fx('precut.nwb'), { raw: true,
+      overwrite: true })).rejects.toThrow(/it is an input of this set/);
     const err = await writeNwb(set, join(tmp, 'no-such-folder', 'x.nwb'), { raw: true }).catch((e) => e);
     expect(err).toBeInstanceOf(OutputError);
     expect(readdirSync(tmp).filter((f) => f.includes('.tmp-'))).toEqual([]);
@@ -327,7 +353,8 @@ describe('the demo study through an NWB copy', () => {
   it('a preparation of data-demo written to NWB and read back gives the same component, velocity and recruitment tables', async () => {
     const manifestPath = join(__dirname, '..', '..', 'data-demo', 'manifest.json');
     const manifest = JSON.parse(readFileSync(manifestPath, 'utf8'));
-    const set = readManifest(manifestPath, { only: (f) => f.conditions?.preparation === 'R1' && /intensity|distance/.test(f.path) });
+    const set = readManifest(manifestPath,
+      { only: (f) => f.conditions?.preparation === 'R1' && /intensity|distance/.test(f.path) });
     const p = join(tmp, 'demo-R1.nwb');
     await writeNwb(set, p, { raw: true });
     const copy = await readNwb(p);
@@ -360,7 +387,8 @@ describe('an independent reader (h5py) and validator (hdmf) on the files', () =>
   it.skipIf(!HAVE_H5PY)('h5py finds the NWB layout, data, timestamps and conversion in what fascicle wrote; hdmf validates it', async () => {
     const set = sampleSet();
     const p = join(tmp, 'independent.nwb');
-    await writeNwb(set, p, { raw: true, sessionStartTime: '2026-03-14T09:30:00+01:00', results: { velocity: [{ class: 'A', v: 41.5 }] } });
+    await writeNwb(set, p, { raw: true, sessionStartTime: '2026-03-14T09:30:00+01:00',
+      results: { velocity: [{ class: 'A', v: 41.5 }] } });
     const r = independent(p);
     if (HAVE_HDMF) expect(r.errors).toEqual([]);
     const L = r.layout;
