@@ -9,7 +9,7 @@
  *   python3-hdmf (tests/reference/validate_nwb.py); those tests are skipped with a message when
  *   /usr/bin/python3 lacks h5py or hdmf.
  */
-import { describe, it, expect, beforeAll } from 'vitest';
+import { describe, it, expect, beforeAll, vi } from 'vitest';
 import { spawnSync } from 'node:child_process';
 import { copyFileSync, existsSync, mkdtempSync, readdirSync, readFileSync, writeFileSync, statSync } from 'node:fs';
 import { tmpdir } from 'node:os';
@@ -131,6 +131,16 @@ describe('readNwb(path, options) on files written by h5py', () => {
     expect(Array.from(all.sweep(3 * 5 + 2))).toEqual(Array.from(one.sweep(5)));
     const two = await readNwb(fx('continuous.nwb'), { channel: [2, 0], trials: [1] });
     expect(two.column('channel')).toEqual([2, 0]);
+  });
+
+  it('reads one hyperslab per selected sweep, each only the window long', async () => {
+    const spy = vi.spyOn(HyperslabReader.prototype, 'read');
+    try {
+      await readNwb(fx('continuous.nwb'), { channel: 1, trials: [3, 9], window: [-1, 4] });
+      expect(spy.mock.calls.map((c) => [c[1] - c[0], c[2]])).toEqual([[51, 1], [51, 1]]);
+    } finally {
+      spy.mockRestore();
+    }
   });
 
   it('reads only the selected rows (trials: rows or a test on conditions) and a window option', async () => {
