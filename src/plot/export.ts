@@ -107,6 +107,8 @@ export function printSpec(spec: PlotlySpec, wPx: number, hPx: number, options: {
   const L = s.layout;
   L.width = wPx; L.height = hPx;
   L.margin = { l: 45, r: 8, t: options.title === false ? 8 : 24, b: 32 };
+  // print shows the state the figure opens in: no slider or buttons
+  delete L.sliders; delete L.updatemenus;
   L.font = { ...(isObj(L.font) ? L.font : {}), size: base };
   if (isObj(L.title)) {
     if (options.title === false) L.title = { text: '' };

@@ -145,11 +145,14 @@ function update(below){var fl=gd._fullLayout,s=fl._size,W=fl.width,H=fl.height,u
   boxes(function(c){return/^g-ytitle$/.test(c);}).forEach(function(b){if(b.b-b.t>s.h&&!wrapped.y){wrapped.y=1;
     var t=wrap(titleOf(gd.layout.yaxis));if(t)u['yaxis.title.text']=t;}});
   var lb=below?legendBox():null,lh=lb?lb.b-lb.t:0,top=pad;
+  var sc=gd.querySelector('.slider-container'),sh=0,xe=xb.b>-1e8?xb.b-plotB:0;
+  if(sc&&fl.sliders&&fl.sliders.length){var sr=rel(sc.getBoundingClientRect(),R());sh=sr.b-sr.t;
+    var sy=-(xe+gap)/s.h;if(Math.abs((fl.sliders[0].y-sy)*s.h)>0.5)u['sliders[0].y']=sy;}
   if(titleT){u['title.y']=Math.min(1,fl.title.y-(pad-titleT.t)/H);top=pad+(titleT.b-titleT.t)+gap;}
   var m={l:Math.ceil((yb.l<1e8?s.l-yb.l:0)+pad),r:Math.ceil(Math.max(0,xb.r>-1e8?xb.r-plotR:0)+pad),
-    t:Math.ceil(top+Math.max(0,yb.t<1e8?s.t-yb.t:0)),b:Math.ceil((xb.b>-1e8?xb.b-plotB:0)+(lh?gap+lh:0)+pad)};
+    t:Math.ceil(top+Math.max(0,yb.t<1e8?s.t-yb.t:0)),b:Math.ceil(xe+(sh?gap+sh:0)+(lh?gap+lh:0)+pad)};
   var cur=gd.layout.margin||{},ch=Object.keys(u).some(function(k){return k!=='title.y';});
-  if(below&&lb){var lx=-(s.l-pad)/s.w,ly=-((xb.b>-1e8?xb.b-plotB:0)+gap)/s.h,L=fl.legend;
+  if(below&&lb){var lx=-(s.l-pad)/s.w,ly=-(xe+gap+(sh?sh+gap:0))/s.h,L=fl.legend;
     if(Math.abs((L.x-lx)*s.w)>0.5||Math.abs((L.y-ly)*s.h)>0.5){u['legend.x']=lx;u['legend.y']=ly;ch=true;}}
   ['l','r','t','b'].forEach(function(k){if(Math.abs((cur[k]||0)-m[k])>0.5)ch=true;});
   if(titleT&&Math.abs(fl.title.y-u['title.y'])*H>0.5)ch=true;

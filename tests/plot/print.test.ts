@@ -14,7 +14,7 @@ import { join } from 'node:path';
 import type { Page } from 'playwright-core';
 import {
   model, sweepsFigure, recruitmentFigure, strengthDurationFigure, velocityFigure, doseResponseFigure, temperatureFigure,
-  summaryFigure, classViews, Figure, baseLayout, findBrowser, openExporter, FigureExporter, saveFigures, compareGroups, groupFigure,
+  summaryFigure, classViews, sweepViewer, Figure, baseLayout, findBrowser, openExporter, FigureExporter, saveFigures, compareGroups, groupFigure,
 } from '../../src';
 
 const CLASSES = ['A-alpha/beta', 'A-delta', 'C'];
@@ -60,6 +60,7 @@ function figures(): Figure[] {
     sweepsFigure(one, { table: tOne, title: 'Class windows, onset and peak marks' }),
     sweepsFigure(series, { title: 'Intensity series' }),
     ...classViews(one, tOne, { sweeps: [0] }),
+    sweepViewer(sim, { table, title: 'Sweep' }),
     recruitmentFigure(rec.points, rec.fits, rec.rows, series.units),
     strengthDurationFigure({ rows: sdRows, points: sdPts }),
     velocityFigure(velRows, 'centroid'),
@@ -92,13 +93,18 @@ async function measure(page: Page, svg: string): Promise<Check> {
     const xl = root.querySelector('path.xlines-above'), yl = root.querySelector('path.ylines-above');
     const plot = xl && yl ? { l: rel(xl.getBoundingClientRect()).l, r: rel(xl.getBoundingClientRect()).r, t: rel(yl.getBoundingClientRect()).t, b: rel(yl.getBoundingClientRect()).b } : null;
     const lg = root.querySelector('.legend rect.bg') ?? root.querySelector('.legend');
-    // data marks outside the legend: markers and error bars by their boxes, lines sampled every 2 px along the path
+    const L = lg ? rel(lg.getBoundingClientRect()) : null;
+    // data marks outside the legend that fall inside its box: markers and error bars by their boxes,
+    // lines by their vertices and points every 2 px between them
     const marks: { l: number; r: number; t: number; b: number }[] = [];
+    const hit = (x0: number, x1: number, y0: number, y1: number) => !!L && x1 > L.l + 0.5 && x0 < L.r - 0.5 && y1 > L.t + 0.5 && y0 < L.b - 0.5;
     const outsideLegend = (e: Element) => !e.closest('.legend');
-    root.querySelectorAll('.scatterlayer path.point, .errorbars path').forEach((e) => { if (outsideLegend(e)) marks.push(rel(e.getBoundingClientRect())); });
-    root.querySelectorAll('.scatterlayer path.js-line').forEach((e) => {
+    root.querySelectorAll('.scatterlayer path.point, .errorbars path').forEach((e) => {
+      const r = rel(e.getBoundingClientRect());
+      if (outsideLegend(e) && hit(r.l, r.r, r.t, r.b)) marks.push(r);
+    });
+    if (L) root.querySelectorAll('.scatterlayer path.js-line').forEach((e) => {
       if (!outsideLegend(e)) return;
-      // vertices of plotly's M/L line paths, mapped to the page, and points every 2 px between them
       const d = e.getAttribute('d') ?? '', m = (e as SVGPathElement).getScreenCTM()!;
       if (/[^MLZ\d\s,.eE+-]/.test(d)) throw new Error(`unexpected path commands in ${d.slice(0, 40)}`);
       let prev: [number, number] | null = null;
@@ -107,16 +113,19 @@ async function measure(page: Page, svg: string): Promise<Check> {
         if (seg[0] === 'M') prev = null;
         for (let k = 0; k + 1 < n.length; k += 2) {
           const x = m.a * n[k] + m.c * n[k + 1] + m.e - R.left, y = m.b * n[k] + m.d * n[k + 1] + m.f - R.top;
-          if (prev) {
+          if (prev && hit(Math.min(x, prev[0]), Math.max(x, prev[0]), Math.min(y, prev[1]), Math.max(y, prev[1]))) {
             const steps = Math.ceil(Math.hypot(x - prev[0], y - prev[1]) / 2);
-            for (let j = 1; j < steps; j++) { const px = prev[0] + ((x - prev[0]) * j) / steps, py = prev[1] + ((y - prev[1]) * j) / steps; marks.push({ l: px, r: px, t: py, b: py }); }
+            for (let j = 1; j < steps; j++) {
+              const px = prev[0] + ((x - prev[0]) * j) / steps, py = prev[1] + ((y - prev[1]) * j) / steps;
+              if (hit(px, px, py, py)) marks.push({ l: px, r: px, t: py, b: py });
+            }
           }
-          marks.push({ l: x, r: x, t: y, b: y });
+          if (hit(x, x, y, y)) marks.push({ l: x, r: x, t: y, b: y });
           prev = [x, y];
         }
       }
     });
-    return { canvas: { w: R.width, h: R.height }, boxes, plot, legend: lg ? rel(lg.getBoundingClientRect()) : null, marks };
+    return { canvas: { w: R.width, h: R.height }, boxes, plot, legend: L, marks };
   }, svg);
 }
 
@@ -136,8 +145,8 @@ function problems(c: Check, size = { minPt: 7, maxPt: 9 }): string[] {
     for (let j = i + 1; j < c.boxes.length; j++) if (overlap(c.boxes[i], c.boxes[j])) out.push(`"${c.boxes[i].text}" overlaps "${c.boxes[j].text}"`);
   }
   if (!c.plot) out.push('no plot area found');
-  else if (c.plot.r - c.plot.l < 0.45 * c.canvas.w || c.plot.b - c.plot.t < 0.35 * c.canvas.h) {
-    out.push(`plot area ${(c.plot.r - c.plot.l).toFixed(0)} x ${(c.plot.b - c.plot.t).toFixed(0)} px is under 45% x 35% of the canvas`);
+  else if (c.plot.r - c.plot.l < 0.45 * c.canvas.w || c.plot.b - c.plot.t < 0.3 * c.canvas.h) {
+    out.push(`plot area ${(c.plot.r - c.plot.l).toFixed(0)} x ${(c.plot.b - c.plot.t).toFixed(0)} px is under 45% x 30% of the canvas`);
   }
   // a legend inside the plot area must not cover data: no marker, error bar or line point inside its box
   const inside = (r: Rect, p: Rect) => p.r > r.l + TOL && p.l < r.r - TOL && p.b > r.t + TOL && p.t < r.b - TOL;
@@ -169,8 +178,11 @@ describe.skipIf(!browser)('print export at journal widths (headless Chromium)', 
     it(`every figure kind at ${size.name} (${size.widthMm} x ${size.heightMm} mm): no text overlaps or leaves the canvas, 7-9 pt`, async () => {
       const bad: string[] = [];
       for (const f of figs) {
+        const t0 = Date.now();
         const r = await ex.svg(f, { widthMm: size.widthMm, heightMm: size.heightMm });
+        const t1 = Date.now();
         const c = await measure(page, r.svg);
+        if (process.env.FASCICLE_PRINT_TIMES) console.log(`TIME ${size.widthMm} ${f.name} render ${t1 - t0} ms, check ${Date.now() - t1} ms`);
         expect(c.canvas.w).toBeCloseTo(Math.round(size.widthMm * 96 / 25.4), 0);
         expect(c.boxes.length).toBeGreaterThan(4); // ticks and titles were drawn
         // FASCICLE_PRINT_DIR=folder keeps a PNG of each figure (CI artifacts, looking at them)
@@ -211,6 +223,29 @@ describe.skipIf(!browser)('print export at journal widths (headless Chromium)', 
     expect(bad).toEqual([]);
   }, 60000);
 
+  it('the sweep viewer steps through sweeps: each step shows one sweep with its marks, hover reads time and amplitude', async () => {
+    const f = figs.find((x) => x.name === 'sweep-viewer')!;
+    const r = await ex.page.evaluate(async (spec) => {
+      document.body.innerHTML = '<div id="v"></div>';
+      const P = (window as unknown as { Plotly: any }).Plotly; // eslint-disable-line @typescript-eslint/no-explicit-any
+      const gd = await P.newPlot('v', spec.data, spec.layout);
+      const shown = () => gd.data.map((t: { visible: boolean; name: string; x: unknown[] }, i: number) => (t.visible === true && t.x[0] !== null ? i : -1)).filter((i: number) => i >= 0);
+      const first = shown();
+      const step = gd.layout.sliders[0].steps[2];
+      await P.update(gd, step.args[0], step.args[1]);
+      const third = shown();
+      P.Fx.hover(gd, [{ curveNumber: third[0], pointNumber: 100 }]);
+      await new Promise((res) => setTimeout(res, 50));
+      return { n: gd.layout.sliders[0].steps.length, first, third, names: third.map((i: number) => gd.data[i].name), title: gd.layout.title.text, hover: document.querySelector('#v .hoverlayer')!.textContent };
+    }, JSON.parse(f.specJson()));
+    expect(r.n).toBe(4); // the simulated set: 2 distances x 2 temperatures
+    expect(r.first).not.toEqual(r.third);
+    expect(r.names[0]).toBe('sweep 2: sim, 20 mA, 30 mm, 22 °C');
+    expect(r.names.length).toBeGreaterThan(1); // the sweep and at least one class's marks
+    expect(r.title).toBe('Sweep 2: sim, 20 mA, 30 mm, 22 °C');
+    expect(r.hover).toMatch(/ms, -?[\d.]+(e-?\d+)? µV/);
+  }, 30000);
+
   it('the checker itself finds an overlap and text off the canvas (a legend placed over the x-axis title, a long title)', async () => {
     const f = figs[5];
     const broken = new Figure('broken', { data: f.spec.data, layout: { ...f.spec.layout, title: { text: 'A title far too long to fit into a single column figure at nine points, surely' }, legend: { orientation: 'h', y: -0.2 }, margin: { l: 40, r: 10, t: 30, b: 40 } } });
@@ -224,6 +259,16 @@ describe.skipIf(!browser)('print export at journal widths (headless Chromium)', 
     const p = problems(await measure(page, svg));
     expect(p.some((x) => /overlaps/.test(x))).toBe(true);
     expect(p.some((x) => /leaves the canvas/.test(x))).toBe(true);
+    // and a legend put over the middle of a dense line
+    const covered: string = await ex.page.evaluate(async () => {
+      document.body.innerHTML = '<div id="g"></div>';
+      const P = (window as unknown as { Plotly: any }).Plotly; // eslint-disable-line @typescript-eslint/no-explicit-any
+      const x = Array.from({ length: 200 }, (_, i) => i);
+      const gd = await P.newPlot('g', [{ x, y: x, mode: 'lines', name: 'a' }, { x, y: x.map((v) => 200 - v), mode: 'markers', name: 'b' }],
+        { width: 321, height: 227, showlegend: true, legend: { x: 0.5, y: 0.5, xanchor: 'center', yanchor: 'middle' } }, { staticPlot: true });
+      return decodeURIComponent((await P.toImage(gd, { format: 'svg', width: 321, height: 227 })).replace(/^data:image\/svg\+xml,/, ''));
+    });
+    expect(problems(await measure(page, covered)).some((x) => /the legend covers \d+ data marks/.test(x))).toBe(true);
   }, 30000);
 
   it('labels reach plotly as text: a preparation named <a href=...> is no link in the legend or the hover text', async () => {
@@ -250,7 +295,7 @@ describe.skipIf(!browser)('print export at journal widths (headless Chromium)', 
 
   it('saves SVG, PNG at the requested dpi and a titled PDF for several figures in one launch', async () => {
     const dir = mkdtempSync(join(tmpdir(), 'fascicle-print-'));
-    const [a, b] = [figs[7], figs[9]];
+    const [a, b] = [figs.find((f) => f.name === 'dose-response')!, figs.find((f) => f.name === 'temperature-arrhenius')!];
     await saveFigures([
       { figure: a, path: join(dir, 'a.svg'), column: 'single' },
       { figure: a, path: join(dir, 'a.png'), widthMm: 85, heightMm: 60, dpi: 600 },
