@@ -4,7 +4,7 @@
  * then a rename), so an interrupted export leaves the old bundle or none.
  */
 import { mkdirSync, writeFileSync, renameSync, rmSync, rmdirSync, existsSync, readFileSync, readdirSync, lstatSync, realpathSync, unlinkSync } from 'node:fs';
-import { dirname, basename, join, resolve, relative, sep } from 'node:path';
+import { dirname, basename, join, resolve, relative, isAbsolute, sep } from 'node:path';
 import { createHash, randomBytes } from 'node:crypto';
 import type { Step, Source } from '../sweeps/SweepSet';
 import { InputError, OutputError, systemReason } from '../errors';
@@ -73,7 +73,12 @@ export function relativeProvenance(p: Provenance, manifestPath: string, bundleDi
     return out;
   });
   const rerun = p.rerun ? { ...p.rerun, manifest: relative(resolve(bundleDir), resolve(manifestPath)).split(sep).join('/') } : undefined;
-  return { ...p, inputs, ...(rerun ? { rerun } : {}), paths: 'inputs relative to the manifest folder; rerun.manifest relative to this bundle' } as Provenance;
+  // the readers' steps record the path they read: relative to the manifest's folder too
+  const steps = p.steps.map((st) => {
+    const o = st.options as Record<string, unknown> | undefined;
+    return o && typeof o.path === 'string' && isAbsolute(o.path) ? { ...st, options: { ...o, path: rel(o.path) } } : st;
+  });
+  return { ...p, inputs, steps, ...(rerun ? { rerun } : {}), paths: 'inputs relative to the manifest folder; rerun.manifest relative to this bundle' } as Provenance;
 }
 
 export interface BundleContent {

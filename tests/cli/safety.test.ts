@@ -220,6 +220,7 @@ describe('rerun of a moved study, and what rerun compares', () => {
     const p = JSON.parse(readFileSync(join(work, 'orig', 'bundle', 'provenance.json'), 'utf8'));
     expect(p.rerun.manifest).toBe('../manifest.json');
     expect(p.inputs.every((s: { path: string }) => !s.path.startsWith('/'))).toBe(true);
+    expect(JSON.stringify(p)).not.toContain(work); // no absolute path of the study anywhere
     // a collaborator's copy elsewhere; the original is gone
     moved = join(work, 'elsewhere', 'copy');
     cpSync(join(work, 'orig'), moved, { recursive: true });
