@@ -337,7 +337,8 @@ export class SweepQcResult extends Result {
  *   clipped_outside_artifact: rail samples outside the artifact window
  * - artifact: largest |sample - quiet level| in the artifact window; artifact_ratio: to its condition's median
  * - outlier_score: MAD-rule score of the sweep's deviation from its condition's median waveform over the response
- *   window, the larger of the rms and the peak deviation scores;
+ *   window (each sweep less the straight line through its quiet-window and end-window levels, so drift, which has
+ *   its own rule, does not count twice), the larger of the rms and the peak deviation scores;
  *   scale = max(1.4826 MAD, outlierMinScale x median deviation)
  * Flags: noisy, flat, drift, saturated, artifact, outlier; each with a reason. Nothing is removed.
  * @example sweepQc(set).flagged()
@@ -412,7 +413,11 @@ export function sweepQc(set: SweepSet, options: SweepQcOptions = {}): SweepQcRes
   }));
   const condDrift = new Map([...conds].map(([id, ix]) => [id, medianOf(ix.map((i) => per[i].drift))]));
   const condArtifact = new Map([...conds].map(([id, ix]) => [id, medianOf(ix.map((i) => per[i].artifact))]));
-  // outlier scores per condition
+  // outlier scores per condition, on sweeps less their straight baseline through the quiet-window level and the
+  // end-window level (drift has its own rule; a response lasting into the end window gets the same line in every
+  // sweep of the condition, so the comparison is unaffected)
+  const qMid = (qa + qb) / 2, eMid = (ea + eb) / 2;
+  const base = (s: number, i: number) => per[s].level + (eMid > qMid ? (per[s].drift * (i - qMid)) / (eMid - qMid) : 0);
   const score = new Float64Array(N).fill(NaN);
   const basis: (string | null)[] = new Array(N).fill(null);
   const scoreStatus: string[] = new Array(N).fill('ok');
@@ -429,7 +434,7 @@ export function sweepQc(set: SweepSet, options: SweepQcOptions = {}): SweepQcRes
     for (let j = 0; j < w; j++) {
       // insertion sort of the few values of one sample (no allocation per sample)
       for (let k = 0; k < K; k++) {
-        const v = data[ix[k] * n + ra + j] - per[ix[k]].level;
+        const v = data[ix[k] * n + ra + j] - base(ix[k], ra + j);
         let m = k - 1;
         while (m >= 0 && col[m] > v) { col[m + 1] = col[m]; m--; }
         col[m + 1] = v;
@@ -438,12 +443,12 @@ export function sweepQc(set: SweepSet, options: SweepQcOptions = {}): SweepQcRes
     }
     const rms = ix.map((i) => {
       let q = 0;
-      for (let j = 0; j < w; j++) q += (data[i * n + ra + j] - per[i].level - med[j]) ** 2;
+      for (let j = 0; j < w; j++) q += (data[i * n + ra + j] - base(i, ra + j) - med[j]) ** 2;
       return Math.sqrt(q / w);
     });
     const peak = ix.map((i) => {
       let q = 0;
-      for (let j = 0; j < w; j++) q = Math.max(q, Math.abs(data[i * n + ra + j] - per[i].level - med[j]));
+      for (let j = 0; j < w; j++) q = Math.max(q, Math.abs(data[i * n + ra + j] - base(i, ra + j) - med[j]));
       return q;
     });
     const z = (d: number[]) => {

@@ -1,4 +1,6 @@
 import { describe, it, expect } from 'vitest';
+import { existsSync, readFileSync } from 'node:fs';
+import { join } from 'node:path';
 import { SweepSet, OptionError } from '../../src';
 import {
   sweepQc, rejectFlagged, sweepQcDefaults, sweepQcMethods, detrendedMadNoise, differenceNoise, railSamples,
@@ -217,5 +219,43 @@ describe('sweepQc options and statuses', () => {
     expect(() => sweepQc(small(), { quietWindow: [-5, -4.95] })).toThrow(/holds 1 samples \(need at least 8\)/);
     const late = small().crop(0, 14);
     expect(() => sweepQc(late)).toThrow(/no pre-stimulus window; give quietWindow/);
+  });
+});
+
+// The whole development set, read in place when this machine has it (/work/shared/devset, FNPG-N07; read-only):
+// 400 clean sweeps in 6 series and both sampling windows. The vendored copy above is the check that always runs.
+const DEVSET = '/work/shared/devset/data';
+describe.skipIf(!existsSync(DEVSET))('sweepQc(set) on every series of the development set (in place)', () => {
+  it('false-positive rate over all 400 clean sweeps at most 2%', () => {
+    let flagged = 0, total = 0;
+    const lines: string[] = [];
+    for (const s of ['recruitment', 'dose_response', 'temperature'].flatMap((k) => [`${k}_fast`, `${k}_slow`])) {
+      const side = JSON.parse(readFileSync(join(DEVSET, `${s}.json`), 'utf8'));
+      const text = readFileSync(join(DEVSET, `${s}.csv`), 'utf8').trim().split('\n');
+      const head = text[0].split(','), rows = text.slice(1).map((l) => l.split(',').map(Number)), n = rows.length;
+      type Column = { column: string; channel: number; condition_index: number; repeat: number };
+      const cols = side.columns as Column[];
+      const data = new Float64Array(cols.length * n);
+      cols.forEach((c, k) => {
+        const j = head.indexOf(c.column);
+        for (let i = 0; i < n; i++) data[k * n + i] = rows[i][j];
+      });
+      const set = new SweepSet({
+        data, nSweeps: cols.length, nSamples: n, fs: side.sampling_rate_hz, t0Ms: side.time_of_first_sample_s * 1000,
+        units: 'V',
+        conditions: cols.map((c) => ({
+          preparation: side.preparation_id, channel: c.channel, condition: c.condition_index, repeat: c.repeat,
+        })),
+      });
+      const f = sweepQc(set).flagged();
+      flagged += f.length;
+      total += set.nSweeps;
+      const which = f.length ? ' (' + f.map((r) => `${r.sweep}: ${r.flags}`).join(', ') + ')' : '';
+      lines.push(`${s} ${f.length}/${set.nSweeps}${which}`);
+    }
+    const pct = ((100 * flagged) / total).toFixed(2);
+    console.log(`sweepQc on the whole development set: ${flagged}/${total} flagged = ${pct}%\n  ${lines.join('\n  ')}`);
+    expect(total).toBe(400);
+    expect(flagged / total).toBeLessThanOrEqual(0.02);
   });
 });
