@@ -9,9 +9,9 @@
  *   python3-hdmf (tests/reference/validate_nwb.py); those tests are skipped with a message when
  *   /usr/bin/python3 lacks h5py or hdmf.
  */
-import { describe, it, expect, beforeAll, vi } from 'vitest';
+import { describe, it, expect, beforeAll, afterAll, vi } from 'vitest';
 import { spawnSync } from 'node:child_process';
-import { copyFileSync, existsSync, mkdtempSync, readdirSync, readFileSync, writeFileSync, statSync } from 'node:fs';
+import { copyFileSync, existsSync, mkdtempSync, readdirSync, readFileSync, writeFileSync, statSync, rmSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { createHash } from 'node:crypto';
@@ -67,6 +67,7 @@ function expectInputError(fn: () => unknown, file: string, field: string | RegEx
 beforeAll(async () => {
   await nwbReady();
 });
+afterAll(() => rmSync(tmp, { recursive: true, force: true }));
 
 describe('readNwb(path, options) on files written by h5py', () => {
   it('cuts a continuous 3-channel int16 ElectricalSeries around the trials\' stimulus times, with conversion, offset and channel_conversion', async () => {
