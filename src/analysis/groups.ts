@@ -443,8 +443,8 @@ export class GroupComparison extends Result {
   tables(): Record<string, readonly object[]> {
     const cond = this.options.condition;
     const pts = this.points.map((p) => ({
-      ...p.key, group: p.group, ...(cond ? { condition: p.condition } : {}), animal: p.animal, value: p.value,
-      values_averaged: p.n,
+      ...p.key, group: p.group, ...(cond ? { condition: p.condition } : {}), animal: p.animal,
+      [this.options.value]: p.value, values_averaged: p.n,
     }));
     return { group_summary: this.summary, group_tests: this.tests, group_points: pts };
   }

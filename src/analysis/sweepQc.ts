@@ -336,6 +336,8 @@ export class SweepQcResult extends Result {
  *   >= railRun samples, and then a rail of every sweep of its channel (so single-sample touches count too);
  *   clipped_outside_artifact: rail samples outside the artifact window
  * - artifact: largest |sample - quiet level| in the artifact window; artifact_ratio: to its condition's median
+ *   (null, and no artifact flag, when the condition has fewer than minSweeps sweeps or its median artifact is
+ *   under 10 times the channel's noise)
  * - outlier_score: MAD-rule score of the sweep's deviation from its condition's median waveform over the response
  *   window (each sweep less the straight line through its quiet-window and end-window levels, so drift, which has
  *   its own rule, does not count twice), the larger of the rms and the peak deviation scores;
