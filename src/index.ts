@@ -93,3 +93,4 @@ export type { NwbWriteOptions, NwbWriteResult } from './io/nwbWrite';
 export { NWB_CONDITIONS } from './io/nwbColumns';
 export { classViews } from './plot/builders';
 export { sweepViewer } from './plot/viewer';
+export { sweepSetHtml, showSweepSet } from './notebook/sweepSet';
