@@ -86,7 +86,7 @@ export type { GroupOptions, RowInput, AnimalPoint, WelchResult, MannWhitneyResul
 export { mixedModel, mixedMethods, mixedStepMethods, MIXED_REFERENCES, fitRandomIntercept, satterthwaiteDf, contrastF, MixedModelResult, mixedDefaults } from './analysis/mixed';
 export type { MixedOptions, RandomInterceptFit } from './analysis/mixed';
 export { groupFigure, groupFigures } from './plot/groups';
-export { readNwb, readNwbSync, readNwbTables, nwbReady } from './io/nwb';
+export { readNwb, readNwbSync, readNwbTables, nwbReady, nwbLoaded, NwbNotReadyError } from './io/nwb';
 export type { NwbReadOptions } from './io/nwb';
 export { writeNwb, writeNwbSync, writtenByFascicle } from './io/nwbWrite';
 export type { NwbWriteOptions, NwbWriteResult } from './io/nwbWrite';

@@ -36,7 +36,7 @@ import {
 } from './nwbLib';
 import { NWB_CONDITIONS, findColumn, convertColumn, decodeColumn, type TableColumn } from './nwbColumns';
 
-export { nwbReady } from './nwbLib';
+export { nwbReady, nwbLoaded, NwbNotReadyError } from './nwbLib';
 
 export interface NwbReadOptions {
   /** Series to read: its name in /acquisition or its HDF5 path, or several. Default: the only series in the file

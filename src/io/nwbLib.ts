@@ -65,10 +65,23 @@ export async function nwbReady(): Promise<void> {
   }
 }
 
-/** The loaded library. @throws OptionError when nwbReady() has not finished. */
+/** Raised when a synchronous NWB function is called before `await nwbReady()` (a mistake in the calling code). */
+export class NwbNotReadyError extends Error {
+  constructor(message: string) {
+    super(message);
+    this.name = 'NwbNotReadyError';
+  }
+}
+
+/** True once the HDF5 library is loaded. */
+export function nwbLoaded(): boolean {
+  return lib !== null;
+}
+
+/** The loaded library. @throws NwbNotReadyError when nwbReady() has not finished. */
 export function h5(): H5Lib {
   if (!lib) {
-    throw new OptionError('the HDF5 library is not loaded yet: call `await nwbReady()` once before the synchronous NWB '
+    throw new NwbNotReadyError('the HDF5 library is not loaded yet: call `await nwbReady()` once before the synchronous NWB '
       + 'functions (readNwbSync, writeNwbSync, readManifest with NWB files), or use readNwb / writeNwb, which load it');
   }
   return lib;
