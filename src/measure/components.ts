@@ -1,22 +1,43 @@
 /**
  * Fiber-class components of the compound response.
  *
- * Each class gets a latency window from the conduction distance and its velocity
- * range (scaled to the recording temperature with Q10): [u + L/vmax, u + L/vmin],
- * with its late end extended by `tailFraction` of its width (a fiber's potential
- * lasts after its arrival). Where neighbouring windows overlap, the boundary
- * follows the signal: the trough (smallest polarity-corrected value, after light
- * smoothing) between the two classes' peaks, and the slower class is measured above
- * a straight line from that trough to the level at the window's end (so the tail of
- * the faster wave is not counted as part of it). Every class is then measured in its window (measure/response.ts).
+ * Windows. Each class gets a latency window from the conduction distance and its
+ * velocity range (scaled to the recording temperature with Q10): [u + L/vmax, u + L/vmin],
+ * with its late end extended by `tailFraction` of its width (a fiber's potential lasts
+ * after its arrival). Windows that overlap are split so that every sample belongs to
+ * exactly one class: a peak on a boundary is counted once.
+ *
+ * Separation of overlapping classes ('auto', the default). When neighbouring classes'
+ * windows overlap and the set holds two or more conduction distances for the same
+ * preparation and temperature, the classes are separated by a decomposition into a
+ * conduction-velocity distribution with a shared single-fiber waveform fitted to every
+ * distance at once (measure/decompose.ts): each class moves at its own velocity, so the
+ * faster class's tail (repolarisation and after-potential) is modelled from its own shape
+ * at every site and a slower class that is only a shoulder on it is recovered. Each class is
+ * then measured on its own modelled component. The split between the classes is the
+ * deepest valley of the velocity distribution between their ranges; a class whose part has
+ * no separate mode is "not resolved". With one distance (or `separation: 'trough'`) the
+ * boundary is the trough between the two classes' peaks and a slower class without a peak
+ * of its own is "not resolved: no separate peak or shoulder".
+ *
+ * Latencies are measured on each class's own component, each by one definition at every
+ * distance, independent of the noise level (see latencyDefinitions). The k x noise test
+ * decides detection only.
+ *
+ * Polarity is chosen per class: the main phase of the class in its window, after the
+ * stimulus artifact has decayed (from the end of rail clipping), or given per class.
  */
 import type { SweepSet, ConditionValue } from '../sweeps/SweepSet';
 import { OptionError, AnalysisError } from '../errors';
 import { resolvePreset, scaledRange, type ClassPreset, type FiberClass } from './classes';
-import { measureResponse, noiseMad, onsetBefore, type ResponseMeasure } from './response';
+import { measureResponse, noiseMad, ownLatencies, type ResponseMeasure, type OwnLatencies } from './response';
+import { fitSharedShape, decomposeTrace, valleyBin, type DecomposeGrid, type SharedShape } from './decompose';
+import { normQuantile } from '../fit/dist';
 import { windowIndices } from '../verbs/baseline';
-import { windowMs, warnOnce } from '../validate';
+import { windowMs, warnOnce, checkKeys, didYouMean } from '../validate';
 import { VERSION } from '../version';
+
+export type Polarity = 1 | -1 | 'auto';
 
 export interface ComponentOptions {
   /** class preset name ('mammalian', 'mammalian-detailed', 'amphibian'), a preset object, or a list of classes */
@@ -31,10 +52,13 @@ export interface ComponentOptions {
   q10?: number;
   /** utilisation time, ms (default 0) */
   utilisationMs?: number;
-  /** detection level as a multiple of the noise (default 4) */
+  /** detection level as a multiple of the noise (default 4); decides detection only */
   k?: number;
-  /** 1 (positive-going), -1 (negative-going) or 'auto' (default: from the largest deflection of the mean sweep after the stimulus) */
-  polarity?: 1 | -1 | 'auto';
+  /**
+   * main phase: 1 (positive-going), -1 (negative-going), 'auto' (default: per class, the larger phase in the
+   * class's window after the artifact), or per class, e.g. { 'A-delta': -1 } (classes not named are 'auto')
+   */
+  polarity?: Polarity | Record<string, Polarity>;
   /** quiet window for the noise level, ms (default: sweep start to -0.1 ms) */
   noiseWindow?: [number, number];
   /** late extension of each window, as a fraction of its width (default 0.5) ... */
@@ -43,8 +67,25 @@ export interface ComponentOptions {
   tailMs?: number;
   /** samples before this time (ms) are never searched (default 0.1: the artifact) */
   earliestMs?: number;
+  /** onset level as a fraction of the class's own peak (default 0.1: column onset10_ms) */
+  onsetFraction?: number;
+  /** the centroid is taken over the span around the peak above this fraction of the own peak (default 0.1) */
+  centroidFraction?: number;
+  /**
+   * overlapping classes: 'auto' (default: the trough between peaks when every sweep shows the slower class's own
+   * peak; otherwise the velocity decomposition when the group has two or more distances), 'decompose' (always the
+   * decomposition where possible) or 'trough' (never)
+   */
+  separation?: 'auto' | 'decompose' | 'trough';
+  /** conditions whose sweeps share one single-fiber waveform in the decomposition (default: preparation, temperatureC) */
+  decomposeBy?: string[];
 }
-export const componentDefaults = { preset: 'mammalian', k: 4, polarity: 'auto' as const, tailFraction: 0.5, tailMs: 0.5, utilisationMs: 0, earliestMs: 0.1 };
+export const componentDefaults = {
+  preset: 'mammalian', k: 4, polarity: 'auto' as const, tailFraction: 0.5, tailMs: 0.5, utilisationMs: 0, earliestMs: 0.1,
+  onsetFraction: 0.1, centroidFraction: 0.1, separation: 'auto' as const,
+};
+const OPTION_KEYS = ['preset', 'classes', 'distanceMm', 'temperatureC', 'q10', 'utilisationMs', 'k', 'polarity', 'noiseWindow',
+  'tailFraction', 'tailMs', 'earliestMs', 'onsetFraction', 'centroidFraction', 'separation', 'decomposeBy'];
 
 export interface ComponentRow {
   sweep: number;
@@ -58,7 +99,10 @@ export interface ResolvedComponentOptions {
   preset: ClassPreset;
   classes: FiberClass[];
   k: number;
+  /** the polarity of the first class (kept for callers that expect one value); per class in `polarities` */
   polarity: 1 | -1;
+  polarities: Record<string, 1 | -1>;
+  polaritySource: Record<string, 'option' | 'auto'>;
   utilisationMs: number;
   q10: number;
   tailFraction: number;
@@ -67,10 +111,100 @@ export interface ResolvedComponentOptions {
   earliestMs: number;
   distanceMm: number | null;
   temperatureC: number | null;
+  onsetFraction: number;
+  centroidFraction: number;
+  separation: 'auto' | 'decompose' | 'trough';
+  decomposeBy: string[];
+}
+
+/** The latency column of the onset definition, e.g. onset10_ms for 10% of the own peak. */
+export function onsetColumn(fraction: number): string {
+  return `onset${Math.round(fraction * 100)}_ms`;
+}
+
+/**
+ * What each latency column means, in methods-text wording (for src/report/methods.ts and the README).
+ * @example latencyDefinitions(0.1, 0.1).onset // 'onset latency (onset10_ms): ...'
+ */
+export function latencyDefinitions(onsetFraction = 0.1, centroidFraction = 0.1): Record<'onset' | 'halfrise' | 'peak' | 'centroid', string> {
+  const pc = (f: number) => `${+(f * 100).toFixed(1)}%`;
+  return {
+    onset: `onset latency (${onsetColumn(onsetFraction)}): the time at which the class's own component first reaches ${pc(onsetFraction)} of its own peak, found by searching backwards from the peak and interpolating linearly between samples`,
+    halfrise: 'half-rise latency (halfrise_ms): the time at which the rising phase of the class\'s own component crosses 50% of its own peak, interpolated linearly between samples',
+    peak: 'peak latency (peak_ms): the time of the maximum of the class\'s own component on its main phase, refined by a parabola through the three samples around it',
+    centroid: `centroid latency (centroid_ms): the centre of mass of the class's own component over the contiguous span around its peak where it exceeds ${pc(centroidFraction)} of its own peak (bounds centroid_from_ms, centroid_to_ms)`,
+  };
+}
+
+/** One paragraph of methods text for the latency definitions and the separation of classes. */
+export function latencyMethodsText(r: Pick<ResolvedComponentOptions, 'onsetFraction' | 'centroidFraction' | 'separation' | 'k'>): string {
+  const d = latencyDefinitions(r.onsetFraction, r.centroidFraction);
+  const sep = r.separation === 'trough'
+    ? 'Overlapping classes were split at the trough between their peaks; a class without a peak of its own was reported as not resolved.'
+    : 'Overlapping classes recorded at two or more conduction distances were separated by decomposing the responses into a conduction-velocity distribution (non-negative weights) and one single-fiber waveform shared by every distance of a preparation and temperature, fitted by alternating least squares; classes were split at the deepest valley of the velocity distribution between their ranges and each class was measured on its own modelled component. A class without a separate mode was reported as not resolved. With a single distance, classes were split at the trough between their peaks.';
+  return `${sep} Latencies were measured on each class's own component with the same definitions at every distance: ${d.onset}; ${d.halfrise}; ${d.peak}; ${d.centroid}. A class counted as present when its component's peak exceeded max(${r.k}, z) times the noise (z the normal quantile at 1 - 0.01/N for N samples searched); this test decided detection only.`;
+}
+
+/** End (ms) of rail clipping after the stimulus: the last sample of a run of 3 or more equal samples at the sweep's extreme, or null. */
+export function clipEndMs(x: ArrayLike<number>, t0Ms: number, dtMs: number, fromMs = 0, toMs = 20): number | null {
+  const i0 = Math.max(0, Math.ceil((fromMs - t0Ms) / dtMs)), i1 = Math.min(x.length - 1, Math.floor((toMs - t0Ms) / dtMs));
+  let mx = -Infinity, mn = Infinity;
+  for (let i = 0; i < x.length; i++) { if (x[i] > mx) mx = x[i]; if (x[i] < mn) mn = x[i]; }
+  let last: number | null = null;
+  for (let i = i0; i + 2 <= i1; i++) {
+    const v = x[i];
+    if ((v === mx || v === mn) && x[i + 1] === v && x[i + 2] === v) {
+      let j = i + 2;
+      while (j + 1 <= i1 && x[j + 1] === v) j++;
+      last = j;
+      i = j;
+    }
+  }
+  return last === null ? null : t0Ms + last * dtMs;
+}
+
+/**
+ * The stimulus artifact's decay after rail clipping, a exp(-(t - t1) / tau) from the first unclipped sample t1:
+ * log-linear least squares on the first three unclipped samples, where the artifact is close to the rail and the
+ * compound response small beside it (common practice, no source). Null when they do not decay monotonically
+ * towards zero from the rail's side.
+ */
+export function artifactDecay(x: ArrayLike<number>, clipIndex: number): { from: number; a: number; tauSamples: number } | null {
+  const i1 = clipIndex + 1;
+  if (i1 + 2 >= x.length) return null;
+  const v = [x[i1], x[i1 + 1], x[i1 + 2]];
+  const sgn = Math.sign(x[clipIndex]);
+  if (!v.every((q) => Math.sign(q) === sgn) || !(Math.abs(v[0]) > Math.abs(v[1]) && Math.abs(v[1]) > Math.abs(v[2]))) return null;
+  const l = v.map((q) => Math.log(Math.abs(q)));
+  const slope = (l[2] - l[0]) / 2;
+  const icpt = (l[0] + l[1] + l[2]) / 3 - slope;
+  if (!(slope < 0)) return null;
+  return { from: i1, a: sgn * Math.exp(icpt), tauSamples: -1 / slope };
+}
+
+interface Win { a: number; b: number }
+
+/**
+ * Whether the slower of two overlapping classes shows a peak of its own: a local maximum (3-point smoothed, polarity p)
+ * inside its window after the faster class's peak, with a lower point between the two.
+ */
+function ownPeak(x: ArrayLike<number>, fast: Win, slow: Win, p: 1 | -1, n: number): boolean {
+  const y = (i: number) => (p * (x[Math.max(0, i - 1)] + x[i] + x[Math.min(n - 1, i + 1)])) / 3;
+  const fb = Math.min(fast.b, n - 1), sb = Math.min(slow.b, n - 1);
+  let p1 = fast.a;
+  for (let i = fast.a; i <= fb; i++) if (y(i) > y(p1)) p1 = i;
+  let p2 = Math.max(slow.a, p1 + 1);
+  if (p2 >= sb) return false;
+  for (let i = p2; i <= sb; i++) if (y(i) > y(p2)) p2 = i;
+  if (p2 <= p1 + 1 || p2 >= sb) return false;
+  let tr = Infinity;
+  for (let i = p1 + 1; i < p2; i++) tr = Math.min(tr, y(i));
+  return tr < y(p2) && y(p2) >= y(p2 - 1) && y(p2) >= y(p2 + 1);
 }
 
 /** Measure each fiber class in every sweep. */
 export function measureComponents(set: SweepSet, options: ComponentOptions = {}): { rows: ComponentRow[]; measures: ResponseMeasure[][]; resolved: ResolvedComponentOptions } {
+  checkKeys('components options', options, OPTION_KEYS);
   const presetArg = options.preset ?? ((set.extras.manifest as { classPreset?: string } | undefined)?.classPreset) ?? componentDefaults.preset;
   const preset = resolvePreset(presetArg);
   let classes = [...preset.classes].sort((a, b) => b.velocity[1] - a.velocity[1]);
@@ -89,10 +223,31 @@ export function measureComponents(set: SweepSet, options: ComponentOptions = {})
   const q10 = options.q10 ?? preset.q10;
   if (!(q10 > 0)) throw new OptionError(`invalid q10: ${q10}; must be > 0`);
   const earliest = options.earliestMs ?? componentDefaults.earliestMs;
+  const onsetFraction = options.onsetFraction ?? componentDefaults.onsetFraction;
+  if (!(onsetFraction > 0 && onsetFraction < 1)) throw new OptionError(`invalid onsetFraction: ${onsetFraction}; must be 0 < onsetFraction < 1 (a fraction of the class's own peak, e.g. 0.1)`);
+  const centroidFraction = options.centroidFraction ?? componentDefaults.centroidFraction;
+  if (!(centroidFraction >= 0 && centroidFraction < 1)) throw new OptionError(`invalid centroidFraction: ${centroidFraction}; must be 0 <= centroidFraction < 1`);
+  const separation = options.separation ?? componentDefaults.separation;
+  if (separation !== 'auto' && separation !== 'trough' && separation !== 'decompose') throw new OptionError(`invalid separation: ${JSON.stringify(separation)}; must be "auto", "decompose" or "trough"${didYouMean(String(separation), ['auto', 'decompose', 'trough'])}`);
+  const decomposeBy = options.decomposeBy ?? ['preparation', 'temperatureC'].filter((c) => set.conditions.some((q) => c in q));
+  if (!Array.isArray(decomposeBy) || decomposeBy.some((c) => typeof c !== 'string')) throw new OptionError(`invalid decomposeBy: ${JSON.stringify(decomposeBy)}; must be a list of condition names`);
   if (!(set.t0Ms < -0.2) && !options.noiseWindow) throw new OptionError(`invalid noiseWindow: the sweeps start at ${set.t0Ms} ms, so there is no pre-stimulus window for the noise level; give noiseWindow: [from, to] in ms (a quiet part of the sweep)`);
   const noiseWindow = windowMs('noiseWindow', options.noiseWindow ?? [set.t0Ms, -0.1]);
   const [na, nb] = windowIndices(set, noiseWindow, 'noiseWindow');
   if (nb - na < 10) throw new OptionError(`invalid noiseWindow: [${noiseWindow}] ms holds ${nb - na + 1} samples; need at least 11`);
+
+  // polarity options: one value or one per class
+  const popt = options.polarity ?? componentDefaults.polarity;
+  const polOpt: Record<string, Polarity> = {};
+  const okPol = (v: unknown): v is Polarity => v === 1 || v === -1 || v === 'auto';
+  if (typeof popt === 'object' && popt !== null) {
+    checkKeys('polarity (class names)', popt, classes.map((c) => c.name));
+    for (const [name, v] of Object.entries(popt)) {
+      if (!okPol(v)) throw new OptionError(`invalid polarity for class ${JSON.stringify(name)}: ${JSON.stringify(v)}; must be 1, -1 or "auto"`);
+      polOpt[name] = v;
+    }
+  } else if (okPol(popt)) for (const c of classes) polOpt[c.name] = popt;
+  else throw new OptionError(`invalid polarity: ${JSON.stringify(popt)}; must be 1, -1, "auto" or an object of class name -> 1, -1 or "auto"`);
 
   const distOf = (i: number): number => {
     const d = options.distanceMm ?? set.conditions[i].distanceMm;
@@ -107,132 +262,316 @@ export function measureComponents(set: SweepSet, options: ComponentOptions = {})
     return undefined;
   };
 
-  // polarity from the mean sweep after the stimulus
-  let polarity: 1 | -1;
-  const popt = options.polarity ?? componentDefaults.polarity;
-  if (popt === 'auto') {
-    const n = set.nSamples;
-    const s0 = set.indexAt(earliest);
-    const data = set.data;
-    let mx = 0, mn = 0;
-    for (let i = s0; i < n; i++) {
-      let m = 0;
-      for (let s = 0; s < set.nSweeps; s++) m += data[s * n + i];
-      m /= set.nSweeps;
-      if (m > mx) mx = m;
-      if (m < mn) mn = m;
+  const n = set.nSamples, dt = set.dtMs;
+  const iEarliest = set.indexAt(earliest);
+  const tAt = (fi: number) => set.timeAt(0) + fi * dt;
+  // the artifact's decay after rail clipping: its time constant is estimated at the farthest site of each group
+  // (decomposeBy), where the compound response arrives last and disturbs the estimate least, and used at every site
+  const groupOf = (s: number) => decomposeBy.map((c) => String(set.conditions[s][c] ?? '')).join('|');
+  const clips = Array.from({ length: set.nSweeps }, (_, s) => clipEndMs(set.sweep(s), set.t0Ms, dt, 0));
+  const tauOf = new Map<string, number>();
+  {
+    const far = new Map<string, number>();
+    for (let s = 0; s < set.nSweeps; s++) far.set(groupOf(s), Math.max(far.get(groupOf(s)) ?? -Infinity, distOf(s)));
+    const taus = new Map<string, number[]>();
+    for (let s = 0; s < set.nSweeps; s++) {
+      if (clips[s] === null || distOf(s) !== far.get(groupOf(s))) continue;
+      const d = artifactDecay(set.sweep(s), set.indexAt(clips[s]!));
+      if (d) (taus.get(groupOf(s)) ?? taus.set(groupOf(s), []).get(groupOf(s))!).push(d.tauSamples);
     }
-    polarity = mx >= -mn ? 1 : -1;
-  } else if (popt === 1 || popt === -1) polarity = popt;
-  else throw new OptionError(`invalid polarity: ${JSON.stringify(popt)}; must be 1, -1 or "auto"`);
+    for (const [g, v] of taus) tauOf.set(g, v.sort((a, b) => a - b)[Math.floor(v.length / 2)]);
+  }
+  // per sweep: distance, temperature, noise, artifact end (rail clipping) and raw class windows
+  const info = Array.from({ length: set.nSweeps }, (_, s) => {
+    const raw0 = set.sweep(s);
+    const L = distOf(s), T = tempOf(s);
+    const clip = clips[s];
+    // after rail clipping the artifact's decay, from the first unclipped sample with the group's time constant, is subtracted
+    const d0 = clip === null ? null : artifactDecay(raw0, set.indexAt(clip));
+    const tau = tauOf.get(groupOf(s)) ?? d0?.tauSamples;
+    const decay = clip === null || tau === undefined ? null : { from: set.indexAt(clip) + 1, a: raw0[set.indexAt(clip) + 1], tauSamples: tau };
+    let x: ArrayLike<number> = raw0;
+    if (decay) {
+      const c = Float64Array.from(raw0);
+      for (let i = decay.from; i < n; i++) c[i] -= decay.a * Math.exp(-(i - decay.from) / decay.tauSamples);
+      x = c;
+    }
+    // the decomposition fits from the end of rail clipping (with the artifact's decay as a nuisance term); the
+    // polarity decision waits until the artifact has decayed: as long again as the clipping lasted from the
+    // stimulus (at least 0.05 ms; common practice, no source)
+    const fitStart = Math.max(iEarliest, clip === null ? 0 : set.indexAt(clip) + 4);
+    const polStart = Math.max(iEarliest, clip === null ? 0 : set.indexAt(clip + Math.max(0.05, clip)));
+    const wins: Win[] = classes.map((c) => {
+      const [vlo, vhi] = scaledRange(c, preset, T, q10);
+      const t0 = util + L / vhi, t1 = util + L / vlo;
+      const a = Math.max(set.indexAt(Math.max(t0, earliest)), iEarliest);
+      const b = set.indexAt(t1 + Math.max(tailMs, tailFraction * (t1 - t0)));
+      return { a, b };
+    });
+    return { L, T, noise: noiseMad(x, na, nb), clip, decay, x, fitStart, polStart, wins };
+  });
+
+  // polarity per class: the larger phase (sum over sweeps of the positive and of the negative extremes) in the
+  // class's window after the artifact
+  const polarities: Record<string, 1 | -1> = {};
+  const polaritySource: Record<string, 'option' | 'auto'> = {};
+  classes.forEach((c, ci) => {
+    const o = polOpt[c.name] ?? 'auto';
+    if (o !== 'auto') { polarities[c.name] = o; polaritySource[c.name] = 'option'; return; }
+    let up = 0, down = 0;
+    for (let s = 0; s < set.nSweeps; s++) {
+      const x = info[s].x;
+      const { a, b } = info[s].wins[ci];
+      let mx = 0, mn = 0;
+      for (let i = Math.max(a, info[s].polStart); i <= Math.min(b, n - 1); i++) { if (x[i] > mx) mx = x[i]; if (x[i] < mn) mn = x[i]; }
+      up += mx;
+      down -= mn;
+    }
+    polarities[c.name] = up >= down ? 1 : -1;
+    polaritySource[c.name] = 'auto';
+  });
+
+  // chains of classes whose windows overlap (at any sweep), fastest first
+  const overlaps = (ci: number) => info.some((q) => q.wins[ci].b >= q.wins[ci + 1].a);
+  const chains: number[][] = [];
+  for (let ci = 0; ci < classes.length; ci++) {
+    if (ci > 0 && overlaps(ci - 1)) chains[chains.length - 1].push(ci);
+    else chains.push([ci]);
+  }
+
+  // decomposition per group (decomposeBy) and chain, when the group has two or more distances
+  const groupKey = (s: number) => decomposeBy.map((c) => String(set.conditions[s][c] ?? '')).join('|');
+  const groups = new Map<string, number[]>();
+  for (let s = 0; s < set.nSweeps; s++) (groups.get(groupKey(s)) ?? groups.set(groupKey(s), []).get(groupKey(s))!).push(s);
+  interface Decomp { shape: SharedShape | null; grid: DecomposeGrid | null; bins: [number, number][]; resolved: boolean[]; reason: (string | null)[]; valleys: (number | null)[] }
+  const decomps = new Map<string, Decomp>();
+  if (separation !== 'trough') {
+    for (const [gk, members] of groups) {
+      const dists = [...new Set(members.map((s) => info[s].L))].sort((a, b) => a - b);
+      if (dists.length < 2) continue;
+      for (const chain of chains) {
+        if (chain.length < 2) continue;
+        if (separation === 'auto' && members.every((s) => chain.every((ci, j) => j === 0 || ownPeak(info[s].x, info[s].wins[chain[j - 1]], info[s].wins[ci], polarities[classes[ci].name], n)))) continue;
+        const T = info[members[0]].T;
+        const ranges = chain.map((ci) => scaledRange(classes[ci], preset, T, q10));
+        const vFast = ranges[0][1] * 2, vSlow = ranges[ranges.length - 1][0] / 2;
+        const last = chain[chain.length - 1];
+        const rangeAt = new Map<number, [number, number]>();
+        for (const x of dists) {
+          const at = members.filter((s) => info[s].L === x);
+          const r0 = Math.max(...at.map((s) => Math.max(iEarliest, info[s].wins[chain[0]].a - Math.round(0.2 / dt))));
+          const r1 = Math.min(n - 1, Math.max(...at.map((s) => info[s].wins[last].b)));
+          rangeAt.set(x, [Math.max(0, r0), r1]);
+        }
+        const nearLen = rangeAt.get(dists[0])![1] - rangeAt.get(dists[0])![0];
+        const clipAt = new Map(dists.map((x) => {
+          const c = members.filter((s) => info[s].L === x).map((s) => info[s].clip).filter((v): v is number => v !== null);
+          return [x, c.length ? Math.max(...c) + dt : null] as [number, number | null];
+        }));
+        const trustAt = new Map(dists.map((x) => [x, Math.max(...members.filter((s) => info[s].L === x).map((s) => info[s].fitStart))]));
+        // fibers so fast that they arrive at the farthest site before its recording is trusted (the artifact) are
+        // not determined by the data: the slowness grid starts at the first trusted arrival there
+        const lead = Math.max(0.2, 10 * dt), xFar = dists[dists.length - 1];
+        const u0 = Math.max(1 / vFast, (tAt(trustAt.get(xFar)!) - util) / xFar);
+        const grid: DecomposeGrid = {
+          dtMs: dt, t0Ms: set.t0Ms, range: (x) => rangeAt.get(x)!, uBounds: [u0, 1 / vSlow], excluded: (i, x) => i < trustAt.get(x)!,
+          sSupportMs: [lead, Math.min(400, Math.max(20, nearLen)) * dt],
+        };
+        const traces = members.map((s) => ({ y: info[s].x, distanceMm: info[s].L }));
+        const shape = fitSharedShape(traces, grid, { iterations: 60 });
+        const key = `${gk}#${chain.join(',')}`;
+        if (!shape) continue;
+        // boundaries between consecutive classes at the deepest valley of W between their ranges
+        const bins: [number, number][] = [];
+        const resolved: boolean[] = [true];
+        const reason: (string | null)[] = [null];
+        const valleys: (number | null)[] = [null];
+        let from = 0;
+        for (let j = 0; j + 1 < chain.length; j++) {
+          const v = valleyBin(shape.W, shape.u, ranges[j], ranges[j + 1]);
+          if (!v) {
+            // no mode on one side: the slower class is not resolved; the faster keeps the bins
+            resolved.push(false);
+            reason.push(`not resolved: the velocity distribution has no separate mode between ${ranges[j + 1][0].toPrecision(3)} and ${ranges[j + 1][1].toPrecision(3)} m/s`);
+            valleys.push(null);
+            bins.push([from, shape.u.length - 1]);
+            from = shape.u.length;
+            continue;
+          }
+          bins.push([from, v.bin - 1]);
+          from = v.bin;
+          const ok = v.depth < 0.9;
+          resolved.push(ok);
+          reason.push(ok ? null : `not resolved: no separate mode in the velocity distribution (valley at ${(1 / shape.u[v.bin]).toPrecision(3)} m/s is ${(100 * v.depth).toFixed(0)}% of the smaller mode)`);
+          valleys.push(1 / shape.u[v.bin]);
+        }
+        bins.push([Math.min(from, shape.u.length - 1), shape.u.length - 1]);
+        while (bins.length < chain.length) bins.push([shape.u.length, shape.u.length - 1]);
+        decomps.set(key, { shape, grid, bins, resolved, reason, valleys });
+      }
+    }
+  }
 
   const rows: ComponentRow[] = [];
   const measures: ResponseMeasure[][] = [];
-  const dt = set.dtMs;
-  const smooth = new Float64Array(set.nSamples);
-  // scratch for a window measured above a baseline line (measureResponse reads only a - 1 .. b + 1)
-  const shifted = new Float64Array(set.nSamples);
+  const smooth = new Float64Array(n);
+  const u = set.units;
+  const oc = onsetColumn(onsetFraction);
   for (let s = 0; s < set.nSweeps; s++) {
-    const x = set.sweep(s);
-    const L = distOf(s);
-    const T = tempOf(s);
-    const noise = noiseMad(x, na, nb);
-    // 3-point moving average for finding troughs
-    for (let i = 0; i < x.length; i++) smooth[i] = (x[Math.max(0, i - 1)] + x[i] + x[Math.min(x.length - 1, i + 1)]) / 3;
-    const wins = classes.map((c) => {
-      const [vlo, vhi] = scaledRange(c, preset, T, q10);
-      const t0 = util + L / vhi;
-      const t1 = util + L / vlo;
-      return [Math.max(t0, earliest), t1 + Math.max(tailMs, tailFraction * (t1 - t0))] as [number, number];
-    });
-    const idx = wins.map(([a, b]) => [Math.max(set.indexAt(a), set.indexAt(earliest)), set.indexAt(b)] as [number, number]);
-    // level of the trough that starts a class overlapped by a faster one (0 when none)
-    const floor = new Float64Array(classes.length);
-    // boundaries follow the trough between neighbouring classes' peaks
-    for (let c = 0; c + 1 < idx.length; c++) {
-      const [a1, b1] = idx[c];
-      const [a2, b2] = idx[c + 1];
-      if (b1 < a2) continue; // no overlap
-      const peakIn = (a: number, b: number) => {
-        let best = a;
-        for (let i = a; i <= b; i++) if (polarity * smooth[i] > polarity * smooth[best]) best = i;
-        return best;
-      };
-      const p1 = peakIn(a1, b1);
-      const p2 = peakIn(Math.max(a2, p1 + 1), b2);
-      let trough = Math.min(b1, a2 + Math.floor((b1 - a2) / 2));
-      if (p2 > p1 + 1) {
-        trough = p1 + 1;
-        for (let i = p1 + 1; i < p2; i++) if (polarity * smooth[i] < polarity * smooth[trough]) trough = i;
+    const { L, T, noise, wins: raw, x, decay } = info[s];
+    const cond = set.conditions[s];
+    for (let i = 0; i < n; i++) smooth[i] = (x[Math.max(0, i - 1)] + x[i] + x[Math.min(n - 1, i + 1)]) / 3;
+    const wins = raw.map((w) => ({ ...w }));
+    const ms: ResponseMeasure[] = new Array(classes.length);
+    const done = new Array<boolean>(classes.length).fill(false);
+    // y: the class's own component over samples [a, b] (y[i - a], recorded sign); its peak is searched in y[peakFrom..peakTo]
+    const emit = (ci: number, y: Float64Array, a: number, b: number, sep: string, status0: string | null, reason0: string | null, extra: Record<string, ConditionValue>, peakFrom = 0, peakTo = y.length - 1) => {
+      const c = classes[ci];
+      const p = polarities[c.name];
+      // y holds the class's own component over [a, b] in recorded sign (y[i - a])
+      const yc = Float64Array.from(y, (v) => p * v);
+      const lat: OwnLatencies = ownLatencies(yc, peakFrom, peakTo, onsetFraction, centroidFraction, 0, yc.length - 1);
+      const N = peakTo - peakFrom + 1;
+      const kEff = Math.max(k, normQuantile(1 - 0.01 / N));
+      const ip = Math.round(lat.peakIndex);
+      const sm = ip > 0 && ip < yc.length - 1 ? (yc[ip - 1] + yc[ip] + yc[ip + 1]) / 3 : yc[ip];
+      const above = sm > kEff * noise;
+      let status = status0 ?? (above ? 'measured' : 'not detected');
+      let reason = reason0 ?? (above ? null : `peak ${(sm).toPrecision(3)} ${u} is below max(k, z) x noise = ${(kEff * noise).toPrecision(3)} ${u}`);
+      if (status === 'measured' && !lat.localMax) {
+        status = 'not resolved';
+        reason = 'not resolved: no separate peak or shoulder (the largest value of the class is at the edge of its part of the sweep)';
       }
-      idx[c][1] = Math.max(a1 + 2, Math.min(b1, trough));
-      idx[c + 1][0] = Math.min(b2 - 2, Math.max(a2, trough));
-      floor[c + 1] = Math.max(0, polarity * smooth[idx[c + 1][0]]) * polarity;
-    }
-    const ms: ResponseMeasure[] = [];
-    const firstClass = idx.reduce((best, w, ci) => (w[0] < idx[best][0] ? ci : best), 0);
-    classes.forEach((c, ci) => {
-      const [a, b] = idx[ci];
-      const cond = set.conditions[s];
-      if (b - a < 2) {
-        rows.push({ ...cond, sweep: s, class: c.name, detected: false, polarity, note: 'window outside the sweep' });
-        ms.push(null as unknown as ResponseMeasure);
-        return;
-      }
-      // an overlapped class is measured above the trough that separates it from the faster class
-      let xs: Float64Array = x;
-      if (floor[ci] !== 0) {
-        // a straight line from the trough to the window's end level (the faster wave's tail decays under the slower one)
-        xs = shifted;
-        if (a > 0) xs[a - 1] = x[a - 1];
-        if (b + 1 < x.length) xs[b + 1] = x[b + 1];
-        const endLevel = polarity * smooth[b] > 0 ? smooth[b] : 0;
-        for (let i = a; i <= b; i++) xs[i] = x[i] - (floor[ci] + ((endLevel - floor[ci]) * (i - a)) / Math.max(1, b - a));
-      }
-      const m = measureResponse(xs, a, b, noise, k, polarity);
-      // an onset is only an onset when the signal starts below the level inside the window;
-      // the earliest class may start before its window (fibers faster than the class range, or
-      // a single-fiber waveform that rises before the arrival): its onset is then looked for
-      // back to the earliest time analysed, where nothing but that class can be
-      if (m.detected && m.onsetIndex <= a && ci === firstClass && floor[ci] === 0) {
-        const before = onsetBefore(x, a, set.indexAt(earliest), m.level, m.polarity);
-        if (before !== null) m.onsetIndex = before;
-      }
-      const onsetOk = m.detected && (m.onsetIndex > a || (ci === firstClass && m.onsetIndex < a));
-      ms.push(m);
-      const t = (fi: number) => set.timeAt(0) + fi * dt;
-      const u = set.units;
+      const ok = status === 'measured';
+      const t = (fi: number | null) => (ok && fi !== null ? tAt(a + fi) : null);
+      // the old k x noise onset on the recorded sweep (informational only)
+      const old = measureResponse(y, peakFrom, peakTo, noise, k, p);
+      const m: ResponseMeasure = { ...old, window: [a, b], detected: ok, component: Float64Array.from(y) };
+      ms[ci] = m;
+      done[ci] = true;
+      let area = 0, rect = 0;
+      for (let i = 0; i < y.length; i++) { area += y[i]; rect += Math.abs(y[i]); }
+      const tOn = t(lat.onsetIndex), tHalf = t(lat.halfRiseIndex), tPk = t(lat.peakIndex), tC = t(lat.centroidIndex);
+      const vel = (tt: number | null) => (tt !== null && tt - util > 0 ? L / (tt - util) : null);
       rows.push({
         ...cond,
         sweep: s,
         class: c.name,
-        detected: m.detected,
-        polarity,
+        detected: ok,
+        status,
+        reason,
+        separation: sep,
+        polarity: p,
+        polarity_source: polaritySource[c.name],
         distance_mm: L,
         temperature_C: T ?? null,
-        window_start_ms: t(a),
-        window_end_ms: t(b),
+        window_start_ms: tAt(a),
+        window_end_ms: tAt(b),
         [`noise_${u}`]: noise,
-        [`trough_level_${u}`]: floor[ci],
-        onset_ms: onsetOk ? t(m.onsetIndex) : null,
-        peak_ms: t(m.peakIndex),
-        centroid_ms: m.detected ? t(m.centroidIndex) : null,
-        [`amplitude_${u}`]: polarity * m.peak,
-        [`peak_to_peak_${u}`]: m.peakToPeak,
-        duration_ms: onsetOk ? (m.offsetIndex - m.onsetIndex) * dt : null,
-        half_width_ms: m.detected ? (m.halfFall - m.halfRise) * dt : null,
-        [`area_${u}_ms`]: m.areaSamples * dt,
-        [`rectified_area_${u}_ms`]: m.rectifiedAreaSamples * dt,
-        onset_velocity_m_s: onsetOk ? L / (t(m.onsetIndex) - util) : null,
-        peak_velocity_m_s: m.detected ? L / (t(m.peakIndex) - util) : null,
-        centroid_velocity_m_s: m.detected ? L / (t(m.centroidIndex) - util) : null,
+        artifact_tau_ms: decay ? decay.tauSamples * dt : null,
+        ...extra,
+        [oc]: tOn,
+        ...(oc !== 'onset_ms' ? { onset_ms: tOn } : {}),
+        halfrise_ms: tHalf,
+        peak_ms: tPk,
+        centroid_ms: tC,
+        centroid_from_ms: t(lat.centroidFrom),
+        centroid_to_ms: t(lat.centroidTo),
+        onset_knoise_ms: ok && old.onsetIndex > 0 ? tAt(a + old.onsetIndex) : null,
+        [`amplitude_${u}`]: ok ? lat.peak : null,
+        [`peak_to_peak_${u}`]: ok ? old.peakToPeak : null,
+        half_width_ms: ok && lat.halfRiseIndex !== null && lat.halfFallIndex !== null ? (lat.halfFallIndex - lat.halfRiseIndex) * dt : null,
+        duration_ms: ok && lat.centroidFrom !== null && lat.centroidTo !== null ? (lat.centroidTo - lat.centroidFrom) * dt : null,
+        [`area_${u}_ms`]: ok ? area * dt : null,
+        [`rectified_area_${u}_ms`]: ok ? rect * dt : null,
+        onset_velocity_m_s: vel(tOn),
+        halfrise_velocity_m_s: vel(tHalf),
+        peak_velocity_m_s: vel(tPk),
+        centroid_velocity_m_s: vel(tC),
       });
-    });
+    };
+
+    // decomposed chains
+    for (const chain of chains) {
+      const dk = `${groupKey(s)}#${chain.join(',')}`;
+      const d = decomps.get(dk);
+      if (!d || !d.shape || !d.grid) continue;
+      const dec = decomposeTrace(x, L, d.shape, d.grid, d.bins);
+      chain.forEach((ci, j) => {
+        // the class's own component: the recording minus the other classes' modelled components
+        // (before the artifact has decayed, where nothing was fitted, the class's own modelled component)
+        const comp = Float64Array.from({ length: dec.r1 - dec.r0 + 1 }, (_, i) => (dec.r0 + i >= info[s].fitStart ? x[dec.r0 + i] - dec.nuisance[i] : 0));
+        dec.components.forEach((o, jj) => {
+          for (let i = 0; i < comp.length; i++) {
+            if (dec.r0 + i < info[s].fitStart) { if (jj === j) comp[i] = o[i]; } else if (jj !== j) comp[i] -= o[i];
+          }
+        });
+        const pa = Math.max(0, Math.min(comp.length - 1, raw[ci].a - dec.r0)), pb = Math.max(pa, Math.min(comp.length - 1, raw[ci].b - dec.r0));
+        const extra: Record<string, ConditionValue> = {
+          [`fit_rms_${u}`]: dec.rms,
+          boundary_velocity_m_s: j > 0 ? d.valleys[j] : null,
+        };
+        emit(ci, comp, dec.r0, dec.r1, 'velocity-decomposition', d.resolved[j] ? null : 'not resolved', d.reason[j], extra, pa, pb);
+      });
+    }
+
+    // the rest: windows, overlapping neighbours split at the trough between their peaks (first all
+    // boundaries, then the measurements)
+    const floors = new Float64Array(classes.length);
+    const sepReason: (string | null)[] = classes.map(() => null);
+    for (let ci = 1; ci < classes.length; ci++) {
+      if (done[ci] || done[ci - 1]) continue;
+      const prev = wins[ci - 1], w = wins[ci];
+      if (prev.b < w.a) continue;
+      const p = polarities[classes[ci].name], pp = polarities[classes[ci - 1].name];
+      let p1 = prev.a;
+      for (let i = prev.a; i <= Math.min(prev.b, n - 1); i++) if (pp * smooth[i] > pp * smooth[p1]) p1 = i;
+      let p2 = Math.max(w.a, p1 + 1);
+      for (let i = p2; i <= Math.min(w.b, n - 1); i++) if (p * smooth[i] > p * smooth[p2]) p2 = i;
+      let trough = Math.min(prev.b, w.a + Math.floor((prev.b - w.a) / 2));
+      if (p2 > p1 + 1 && p2 < Math.min(w.b, n - 1)) {
+        trough = p1 + 1;
+        for (let i = p1 + 1; i < p2; i++) if (p * smooth[i] < p * smooth[trough]) trough = i;
+      } else sepReason[ci] = 'not resolved: no separate peak or shoulder after the faster class';
+      // samples up to the trough belong to the faster class, after it to this one: a peak on the boundary counts once
+      prev.b = Math.max(prev.a + 2, Math.min(prev.b, trough));
+      w.a = Math.min(w.b - 2, Math.max(w.a, trough + 1));
+      floors[ci] = Math.max(0, p * smooth[trough]) * p;
+    }
+    for (let ci = 0; ci < classes.length; ci++) {
+      if (done[ci]) continue;
+      const c = classes[ci];
+      const p = polarities[c.name];
+      const w = wins[ci];
+      const b = Math.min(n - 1, w.b);
+      // the earliest class may start before its window (fibers faster than the class range, or a single-fiber
+      // waveform that rises before the arrival): its crossings are looked for back to the earliest time analysed
+      const a = ci === 0 ? Math.min(w.a, info[s].fitStart) : w.a;
+      if (b - w.a < 2 || w.a >= n) {
+        rows.push({ ...cond, sweep: s, class: c.name, detected: false, status: 'window outside the sweep', reason: `the class window (${tAt(w.a).toFixed(3)}-${tAt(w.b).toFixed(3)} ms) is outside the sweep`, polarity: p, polarity_source: polaritySource[c.name], distance_mm: L, temperature_C: T ?? null, separation: 'window' });
+        ms[ci] = null as unknown as ResponseMeasure;
+        done[ci] = true;
+        continue;
+      }
+      // a slower class is measured above a straight line from the trough to the level at its window's end
+      const floor = floors[ci];
+      const y = new Float64Array(b - a + 1);
+      const endLevel = floor !== 0 && p * smooth[b] > 0 ? smooth[b] : 0;
+      for (let i = a; i <= b; i++) y[i - a] = x[i] - (floor !== 0 ? floor + ((endLevel - floor) * (i - a)) / Math.max(1, b - a) : 0);
+      emit(ci, y, a, b, 'window', sepReason[ci] ? 'not resolved' : null, sepReason[ci], { [`trough_level_${u}`]: floor }, w.a - a);
+    }
     measures.push(ms);
   }
+  // rows in sweep order, then class order
+  const order = new Map(classes.map((c, i) => [c.name, i]));
+  rows.sort((r1, r2) => r1.sweep - r2.sweep || order.get(r1.class)! - order.get(r2.class)!);
   return {
     rows, measures,
-    resolved: { preset, classes, k, polarity, utilisationMs: util, q10, tailFraction, tailMs, noiseWindow, earliestMs: earliest, distanceMm: options.distanceMm ?? null, temperatureC: options.temperatureC ?? null },
+    resolved: {
+      preset, classes, k, polarity: polarities[classes[0].name], polarities, polaritySource, utilisationMs: util, q10, tailFraction, tailMs,
+      noiseWindow, earliestMs: earliest, distanceMm: options.distanceMm ?? null, temperatureC: options.temperatureC ?? null,
+      onsetFraction, centroidFraction, separation, decomposeBy,
+    },
   };
 }
 
@@ -244,6 +583,8 @@ export function componentStep(r: ResolvedComponentOptions): { verb: string; opti
       classes: r.classes.map((c) => ({ name: c.name, velocity: c.velocity })),
       q10: r.q10, k: r.k, polarity: r.polarity, utilisationMs: r.utilisationMs, tailFraction: r.tailFraction, tailMs: r.tailMs,
       noiseWindow: r.noiseWindow, earliestMs: r.earliestMs, distanceMm: r.distanceMm, temperatureC: r.temperatureC,
+      polarities: r.polarities, polaritySource: r.polaritySource, onsetFraction: r.onsetFraction, centroidFraction: r.centroidFraction,
+      separation: r.separation, decomposeBy: r.decomposeBy, latencyDefinitions: latencyDefinitions(r.onsetFraction, r.centroidFraction),
     },
     version: VERSION,
   };

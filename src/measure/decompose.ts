@@ -1,0 +1,454 @@
+/**
+ * Separation of overlapping fiber classes by decomposition into a conduction-velocity
+ * distribution with a shared single-fiber waveform, using two or more recording distances.
+ *
+ * Model (the classical description of a compound response as a sum of single-fiber
+ * potentials, e.g. J. E. Cummins, L. J. Dorfman, D. H. Perkel, "Nerve fiber
+ * conduction-velocity distributions", in Computer-Aided Electromyography, Karger 1979;
+ * K. Schoonhoven, D. F. Stegeman, "Models and analysis of compound nerve action
+ * potentials", Crit. Rev. Biomed. Eng. 19 (1991) 47-111):
+ *
+ *   y_x(t) = sum_k W_k s(t - x u_k) + a_x exp(-t / 0.1 ms) + b_x exp(-t / 1 ms)
+ *
+ * where u_k = 1 / v_k is a grid of slownesses (ms/mm), W_k >= 0 the weight of the
+ * fibers conducting at v_k, s the single-fiber waveform (any sign and shape: mono-,
+ * bi- or triphasic; its time origin absorbs the utilisation time), and the last two
+ * terms the decaying tail of the stimulus artifact in each trace. A class moves at its own velocity, so with two or more
+ * distances the same W and s must explain every site: the faster class's tail (its
+ * repolarisation and after-potential) moves by x du while the slower class moves by
+ * more, which separates a slower class that is only a shoulder on the faster class's
+ * tail. Each trace also gets a decaying artifact tail (two exponentials). s and W are found by alternating least squares (W by non-negative least
+ * squares, s by ridge-regularised least squares with a second-difference penalty) on
+ * the mean trace at each distance of a group; each sweep then gets its own W with s
+ * fixed (a deconvolution with a known kernel, possible at a single site). Classes are
+ * split where W has its deepest valley between the two classes' velocity ranges; a class
+ * whose part of W has no separate mode is "not resolved".
+ */
+
+export interface DecomposeTrace {
+  /** samples (polarity as recorded) */
+  y: ArrayLike<number>;
+  /** conduction distance, mm */
+  distanceMm: number;
+}
+
+export interface DecomposeGrid {
+  /** sample interval, ms */
+  dtMs: number;
+  /** time of sample 0, ms */
+  t0Ms: number;
+  /** fitted samples [first, last] per distance (same for every trace at that distance) */
+  range: (distanceMm: number) => [number, number];
+  /** samples excluded from the fit (clipped or artifact) at a distance */
+  excluded?: (i: number, distanceMm: number) => boolean;
+  /** slowness grid bounds, ms/mm: [1 / vFastest, 1 / vSlowest] */
+  uBounds: [number, number];
+  /** end of amplifier clipping at a distance (ms), from which the artifact's decay is fitted; null: none */
+  artifactFromMs?: (distanceMm: number) => number | null;
+  /** single-fiber waveform support, ms: [before arrival, after arrival] */
+  sSupportMs: [number, number];
+}
+
+export interface SharedShape {
+  u: Float64Array;
+  /** s sampled at dtMs from -sSupport[0] */
+  s: Float64Array;
+  sLead: number;
+  /** group weights per slowness bin (from the group's mean traces) */
+  W: Float64Array;
+  /** rms residual of the group fit, signal units */
+  rms: number;
+  iterations: number;
+}
+
+/** Columns of the design for one distance: s shifted to each bin's arrival, on samples [r0, r1]. */
+function design(s: Float64Array, sLead: number, u: Float64Array, x: number, g: DecomposeGrid, r0: number, r1: number): { M: Float64Array; lo: Int32Array; hi: Int32Array } {
+  const nt = r1 - r0 + 1, nu = u.length, ns = s.length;
+  const M = new Float64Array(nt * nu);
+  const lo = new Int32Array(nu), hi = new Int32Array(nu);
+  for (let k = 0; k < nu; k++) {
+    // sample i (time t0 + i dt) sees s at tau = t - x u_k, index j = tau / dt + sLead
+    const shift = (x * u[k] - g.t0Ms) / g.dtMs;
+    let first = nt, last = -1;
+    for (let i = 0; i < nt; i++) {
+      const jf = (r0 + i) - shift + sLead;
+      const j0 = Math.floor(jf);
+      if (j0 < -1 || j0 >= ns) continue;
+      const f = jf - j0;
+      const v = (j0 >= 0 ? (1 - f) * s[j0] : 0) + (j0 + 1 < ns ? f * s[j0 + 1] : 0);
+      if (v !== 0) {
+        M[i * nu + k] = v;
+        if (i < first) first = i;
+        last = i;
+      }
+    }
+    lo[k] = first;
+    hi[k] = last;
+  }
+  return { M, lo, hi };
+}
+
+/**
+ * Non-negative least squares on the normal equations: minimise x'Gx/2 - b'x with x_i >= 0 for the first
+ * n - free unknowns (the last `free` are unconstrained), by the active-set method of C. L. Lawson and
+ * R. J. Hanson, Solving Least Squares Problems, Prentice-Hall 1974, ch. 23 (the algorithm of scipy.optimize.nnls).
+ */
+export function nnlsGram(G: Float64Array, b: Float64Array, n: number, free: number, x: Float64Array, maxIter = 3 * n): Float64Array {
+  // warm start: the positive entries of x (a feasible point) form the first passive set
+  const passive = new Uint8Array(n);
+  for (let i = 0; i < n; i++) passive[i] = i >= n - free || x[i] > 0 ? 1 : 0;
+  for (let i = 0; i < n - free; i++) if (!(x[i] > 0)) x[i] = 0;
+  const warm = x.some((v, i) => i < n - free && v > 0);
+  const solveP = (): Float64Array | null => {
+    const idx: number[] = [];
+    for (let i = 0; i < n; i++) if (passive[i]) idx.push(i);
+    const m = idx.length;
+    const A = new Float64Array(m * m), r = new Float64Array(m);
+    for (let a = 0; a < m; a++) {
+      r[a] = b[idx[a]];
+      for (let c = 0; c < m; c++) A[a * m + c] = G[idx[a] * n + idx[c]];
+    }
+    const z = spdSolve(A, r, m);
+    if (!z) return null;
+    const full = new Float64Array(n);
+    idx.forEach((i, a) => (full[i] = z[a]));
+    return full;
+  };
+  let scale = 0;
+  for (let i = 0; i < n; i++) scale = Math.max(scale, Math.abs(b[i]));
+  const tol = 1e-10 * (scale || 1);
+  const inner = (): boolean => {
+    for (let k = 0; k < n; k++) {
+      const z = solveP();
+      if (!z) return false;
+      let alpha = Infinity;
+      for (let i = 0; i < n - free; i++) {
+        if (passive[i] && z[i] <= 0) {
+          const a = x[i] / (x[i] - z[i]);
+          if (a < alpha) alpha = a;
+        }
+      }
+      if (alpha === Infinity) { x.set(z); return true; }
+      for (let i = 0; i < n; i++) x[i] += alpha * (z[i] - x[i]);
+      for (let i = 0; i < n - free; i++) if (passive[i] && x[i] <= 1e-15 * (scale || 1)) { passive[i] = 0; x[i] = 0; }
+    }
+    return true;
+  };
+  if (free > 0 || warm) inner();
+  for (let it = 0; it < maxIter; it++) {
+    // gradient of the objective's negative: w = b - G x
+    let best = -1, bw = tol;
+    for (let i = 0; i < n - free; i++) {
+      if (passive[i]) continue;
+      let w = b[i];
+      for (let j = 0; j < n; j++) w -= G[i * n + j] * x[j];
+      if (w > bw) { bw = w; best = i; }
+    }
+    if (best < 0) break;
+    passive[best] = 1;
+    if (!inner()) { passive[best] = 0; return x; }
+  }
+  return x;
+}
+
+/** Cholesky solve of a symmetric positive-definite n x n system (in place copy). */
+function spdSolve(A: Float64Array, b: Float64Array, n: number): Float64Array | null {
+  const L = Float64Array.from(A);
+  for (let j = 0; j < n; j++) {
+    let d = L[j * n + j];
+    for (let k = 0; k < j; k++) d -= L[j * n + k] ** 2;
+    if (!(d > 0)) return null;
+    d = Math.sqrt(d);
+    L[j * n + j] = d;
+    for (let i = j + 1; i < n; i++) {
+      let s = L[i * n + j];
+      for (let k = 0; k < j; k++) s -= L[i * n + k] * L[j * n + k];
+      L[i * n + j] = s / d;
+    }
+  }
+  const z = Float64Array.from(b);
+  for (let i = 0; i < n; i++) {
+    let s = z[i];
+    for (let k = 0; k < i; k++) s -= L[i * n + k] * z[k];
+    z[i] = s / L[i * n + i];
+  }
+  for (let i = n - 1; i >= 0; i--) {
+    let s = z[i];
+    for (let k = i + 1; k < n; k++) s -= L[k * n + i] * z[k];
+    z[i] = s / L[i * n + i];
+  }
+  return z;
+}
+
+/** Add lambda x (second-difference penalty) to the top-left m x m block of an n x n matrix. */
+function addSecondDifference(G: Float64Array, n: number, m: number, lambda: number): void {
+  for (let r = 0; r + 2 < m; r++) {
+    const idx = [r, r + 1, r + 2], c = [1, -2, 1];
+    for (let a = 0; a < 3; a++) for (let b = 0; b < 3; b++) G[idx[a] * n + idx[b]] += lambda * c[a] * c[b];
+  }
+}
+
+interface WFit { W: Float64Array; nuis: Float64Array; rss: number; n: number }
+
+/**
+ * Nuisance terms of a trace whose amplifier clipped on the stimulus artifact: the artifact's decay from the end of
+ * clipping, as free amplitudes (either sign) of exponentials with a geometric ladder of time constants (common
+ * practice, no source; fast amplifier recovery only: slower terms trade off against the classes). No offset or
+ * drift is fitted: they trade off against the slowest fibers' weights, so the baseline should be removed first.
+ */
+export const NUISANCE_TAU_MS = [0.01, 0.02, 0.04, 0.08];
+const NB = NUISANCE_TAU_MS.length;
+function nuisanceBasis(tMs: number, j: number, fromMs: number | null): number {
+  return fromMs !== null && tMs >= fromMs ? Math.exp(-(tMs - fromMs) / NUISANCE_TAU_MS[j]) : 0;
+}
+
+/** Weights W (>= 0) and offset/drift for one trace, s fixed. */
+function solveWeights(M: Float64Array, lo: Int32Array, hi: Int32Array, nt: number, nu: number, y: Float64Array, keep: Uint8Array, tc: Float64Array, lambdaW: number, prior: Float64Array | undefined, art: number | null, priorWeight = 0.02): WFit {
+  const n = nu + NB;
+  const G = new Float64Array(n * n), b = new Float64Array(n);
+  const col = (i: number, k: number) => (k < nu ? M[i * nu + k] : nuisanceBasis(tc[i], k - nu, art));
+  for (let k = 0; k < n; k++) {
+    const ka = k < nu ? lo[k] : 0, kb = k < nu ? hi[k] : nt - 1;
+    if (kb < ka) continue;
+    for (let l = k; l < n; l++) {
+      const la = l < nu ? lo[l] : 0, lb = l < nu ? hi[l] : nt - 1;
+      const a = Math.max(ka, la), e = Math.min(kb, lb);
+      let s = 0;
+      for (let i = a; i <= e; i++) if (keep[i]) s += col(i, k) * col(i, l);
+      G[k * n + l] = s;
+      G[l * n + k] = s;
+    }
+    let s = 0;
+    for (let i = ka; i <= kb; i++) if (keep[i]) s += col(i, k) * y[i];
+    b[k] = s;
+  }
+  let tr = 0;
+  for (let k = 0; k < nu; k++) tr += G[k * n + k];
+  addSecondDifference(G, n, nu, (lambdaW * tr) / nu);
+  for (let k = 0; k < n; k++) G[k * n + k] += 1e-9 * (tr / nu) + (k >= nu ? (art !== null ? 1e-9 : 1e6) * (tr / nu || 1) : 0);
+  // a ridge towards the group's weights: bins the trace cannot see (arrivals in excluded samples) keep the group's value
+  if (prior) for (let k = 0; k < nu; k++) { G[k * n + k] += (priorWeight * tr) / nu; b[k] += ((priorWeight * tr) / nu) * prior[k]; }
+  const x = new Float64Array(n);
+  if (prior) x.set(prior.subarray(0, nu));
+  nnlsGram(G, b, n, NB, x);
+  let rss = 0, cnt = 0;
+  for (let i = 0; i < nt; i++) {
+    if (!keep[i]) continue;
+    let m = 0;
+    for (let j = 0; j < NB; j++) m += x[nu + j] * nuisanceBasis(tc[i], j, art);
+    for (let k = 0; k < nu; k++) if (i >= lo[k] && i <= hi[k]) m += M[i * nu + k] * x[k];
+    rss += (y[i] - m) ** 2;
+    cnt++;
+  }
+  return { W: x.subarray(0, nu), nuis: x.subarray(nu), rss, n: cnt };
+}
+
+export interface DecomposeOptions {
+  iterations?: number;
+  /** second-difference penalty on W, relative to the mean diagonal of its Gram matrix */
+  lambdaW?: number;
+  /** second-difference penalty on s, relative to the mean diagonal of its Gram matrix */
+  lambdaS?: number;
+  /** per-trace fits: ridge towards the group's weights, relative to the mean diagonal of the Gram matrix (default 0.02) */
+  priorWeight?: number;
+}
+
+/**
+ * Fit the shared single-fiber waveform s and the velocity distribution W to the mean
+ * traces of one group (two or more distances). Returns null when fewer than two distances.
+ */
+export function fitSharedShape(traces: DecomposeTrace[], g: DecomposeGrid, opts: DecomposeOptions = {}): SharedShape | null {
+  const dists = [...new Set(traces.map((t) => t.distanceMm))].sort((a, b) => a - b);
+  if (dists.length < 2) return null;
+  const iterations = opts.iterations ?? 40;
+  const lambdaW = opts.lambdaW ?? 1e-3;
+  const lambdaS = opts.lambdaS ?? 1e-2;
+  const xFar = dists[dists.length - 1];
+  const [u0, u1] = g.uBounds;
+  const nu = Math.max(20, Math.min(160, Math.round(((u1 - u0) * xFar) / (2 * g.dtMs))));
+  const u = Float64Array.from({ length: nu }, (_, k) => u0 + ((u1 - u0) * k) / (nu - 1));
+  const sLead = Math.round(g.sSupportMs[0] / g.dtMs);
+  const ns = sLead + Math.round(g.sSupportMs[1] / g.dtMs) + 1;
+  // mean trace per distance
+  const per = dists.map((x) => {
+    const [r0, r1] = g.range(x);
+    const nt = r1 - r0 + 1;
+    const y = new Float64Array(nt);
+    const members = traces.filter((t) => t.distanceMm === x);
+    for (const t of members) for (let i = 0; i < nt; i++) y[i] += t.y[r0 + i] / members.length;
+    const keep = new Uint8Array(nt).fill(1);
+    if (g.excluded) for (let i = 0; i < nt; i++) if (g.excluded(r0 + i, x)) keep[i] = 0;
+    const tc = Float64Array.from({ length: nt }, (_, i) => (g.t0Ms + (r0 + i) * g.dtMs));
+    return { x, r0, r1, nt, y, keep, tc, art: g.artifactFromMs ? g.artifactFromMs(x) : null };
+  });
+  // start: s = the nearest site's mean trace from its largest deflection back by a quarter of the lead,
+  // i.e. the compound response itself, which is s convolved with a narrow W for the fastest class
+  const near = per[0];
+  let ipk = 0;
+  for (let i = 0; i < near.nt; i++) if (near.keep[i] && Math.abs(near.y[i]) > Math.abs(near.y[ipk])) ipk = i;
+  let s = Float64Array.from({ length: ns }, (_, j) => {
+    const i = ipk + j - sLead - Math.round(sLead / 2);
+    return i >= 0 && i < near.nt && near.keep[i] ? near.y[i] / (Math.abs(near.y[ipk]) || 1) : 0;
+  });
+  let W = new Float64Array(nu);
+  const warm = per.map(() => undefined as Float64Array | undefined);
+  let rms = Infinity;
+  let it = 0;
+  for (; it < iterations; it++) {
+    // W step: one W and a separate offset/drift per distance, jointly (stacked normal equations)
+    const n = nu + NB * per.length;
+    const G = new Float64Array(n * n), b = new Float64Array(n);
+    const Ms = per.map((p) => design(s, sLead, u, p.x, g, p.r0, p.r1));
+    per.forEach((p, pi) => {
+      const { M, lo, hi } = Ms[pi];
+      const own = (k: number) => k >= nu + NB * pi && k < nu + NB * (pi + 1);
+      const cols = (i: number, k: number) => (k < nu ? M[i * nu + k] : own(k) ? nuisanceBasis(p.tc[i], k - nu - NB * pi, p.art) : 0);
+      const active = (k: number) => k < nu || own(k);
+      for (let k = 0; k < n; k++) {
+        if (!active(k)) continue;
+        const ka = k < nu ? lo[k] : 0, kb = k < nu ? hi[k] : p.nt - 1;
+        if (kb < ka) continue;
+        for (let l = k; l < n; l++) {
+          if (!active(l)) continue;
+          const la = l < nu ? lo[l] : 0, lb = l < nu ? hi[l] : p.nt - 1;
+          const a = Math.max(ka, la), e = Math.min(kb, lb);
+          let acc = 0;
+          for (let i = a; i <= e; i++) if (p.keep[i]) acc += cols(i, k) * cols(i, l);
+          G[k * n + l] += acc;
+          if (l !== k) G[l * n + k] += acc;
+        }
+        let acc = 0;
+        for (let i = ka; i <= kb; i++) if (p.keep[i]) acc += cols(i, k) * p.y[i];
+        b[k] += acc;
+      }
+    });
+    let tr = 0;
+    for (let k = 0; k < nu; k++) tr += G[k * n + k];
+    addSecondDifference(G, n, nu, (lambdaW * tr) / nu);
+    for (let k = 0; k < n; k++) G[k * n + k] += 1e-9 * (tr / nu || 1) + (k >= nu && per[Math.floor((k - nu) / NB)].art === null ? 1e6 * (tr / nu || 1) : 0);
+    const x = new Float64Array(n);
+    x.set(W);
+    if (warm[0]) x.set(warm[0].subarray(nu), nu);
+    nnlsGram(G, b, n, NB * per.length, x);
+    W = Float64Array.from(x.subarray(0, nu));
+    warm[0] = x;
+    const nuis = x.subarray(nu);
+    // s step: y - offset - drift = B s, B[i, j] = sum_k W_k phi(i - shift_k - j)
+    const H = new Float64Array(ns * ns), c = new Float64Array(ns);
+    let rss = 0, cnt = 0;
+    per.forEach((p, pi) => {
+      const B = new Float64Array(p.nt * ns);
+      for (let k = 0; k < nu; k++) {
+        if (W[k] === 0) continue;
+        const shift = (p.x * u[k] - g.t0Ms) / g.dtMs;
+        for (let i = 0; i < p.nt; i++) {
+          const jf = p.r0 + i - shift + sLead;
+          const j0 = Math.floor(jf);
+          if (j0 < -1 || j0 >= ns) continue;
+          const f = jf - j0;
+          if (j0 >= 0) B[i * ns + j0] += W[k] * (1 - f);
+          if (j0 + 1 < ns) B[i * ns + j0 + 1] += W[k] * f;
+        }
+      }
+      for (let i = 0; i < p.nt; i++) {
+        if (!p.keep[i]) continue;
+        let r = p.y[i];
+        for (let j = 0; j < NB; j++) r -= nuis[NB * pi + j] * nuisanceBasis(p.tc[i], j, p.art);
+        const row = i * ns;
+        for (let j = 0; j < ns; j++) {
+          const bj = B[row + j];
+          if (bj === 0) continue;
+          c[j] += bj * r;
+          for (let l = j; l < ns; l++) H[j * ns + l] += bj * B[row + l];
+        }
+        let m = 0;
+        for (let j = 0; j < ns; j++) m += B[row + j] * s[j];
+        rss += (r - m) ** 2;
+        cnt++;
+      }
+    });
+    rms = Math.sqrt(rss / Math.max(1, cnt));
+    for (let j = 0; j < ns; j++) for (let l = 0; l < j; l++) H[j * ns + l] = H[l * ns + j];
+    let trH = 0;
+    for (let j = 0; j < ns; j++) trH += H[j * ns + j];
+    addSecondDifference(H, ns, ns, (lambdaS * trH) / ns);
+    for (let j = 0; j < ns; j++) H[j * ns + j] += 1e-9 * (trH / ns || 1);
+    const sNew = spdSolve(H, c, ns);
+    if (!sNew) break;
+    // scale: |s| peaks at 1 (W carries the amplitude)
+    let mx = 0;
+    for (let j = 0; j < ns; j++) mx = Math.max(mx, Math.abs(sNew[j]));
+    if (!(mx > 0)) break;
+    for (let j = 0; j < ns; j++) sNew[j] /= mx;
+    for (let k = 0; k < nu; k++) W[k] *= mx;
+    s = sNew;
+  }
+  return { u, s, sLead, W, rms, iterations: it };
+}
+
+export interface TraceDecomposition {
+  /** per class (bins [from, to] of u), the modelled class waveform on samples [r0, r1] */
+  components: Float64Array[];
+  r0: number;
+  r1: number;
+  W: Float64Array;
+  /** the fitted artifact tail on samples [r0, r1] */
+  nuisance: Float64Array;
+  /** 1 where the sample was fitted, 0 where excluded */
+  fitted: Uint8Array;
+  rms: number;
+}
+
+/** Decompose one trace with a fixed shared shape; `bins` are [first, last] u-bin indices per class. */
+export function decomposeTrace(y: ArrayLike<number>, x: number, shape: SharedShape, g: DecomposeGrid, bins: [number, number][], opts: DecomposeOptions = {}): TraceDecomposition {
+  const [r0, r1] = g.range(x);
+  const nt = r1 - r0 + 1, nu = shape.u.length;
+  const { M, lo, hi } = design(shape.s, shape.sLead, shape.u, x, g, r0, r1);
+  const yy = Float64Array.from({ length: nt }, (_, i) => y[r0 + i]);
+  const keep = new Uint8Array(nt).fill(1);
+  if (g.excluded) for (let i = 0; i < nt; i++) if (g.excluded(r0 + i, x)) keep[i] = 0;
+  const tc = Float64Array.from({ length: nt }, (_, i) => g.t0Ms + (r0 + i) * g.dtMs);
+  const art = g.artifactFromMs ? g.artifactFromMs(x) : null;
+  const f = solveWeights(M, lo, hi, nt, nu, yy, keep, tc, opts.lambdaW ?? 1e-3, shape.W, art, opts.priorWeight ?? 0.02);
+  const components = bins.map(([b0, b1]) => {
+    const c = new Float64Array(nt);
+    for (let k = b0; k <= b1; k++) {
+      const w = f.W[k];
+      if (w === 0) continue;
+      for (let i = lo[k]; i <= hi[k]; i++) c[i] += w * M[i * nu + k];
+    }
+    return c;
+  });
+  const nuisance = Float64Array.from(tc, (t) => { let v = 0; for (let j = 0; j < NB; j++) v += f.nuis[j] * nuisanceBasis(t, j, art); return v; });
+  return { components, r0, r1, W: Float64Array.from(f.W), nuisance, fitted: keep, rms: Math.sqrt(f.rss / Math.max(1, f.n)) };
+}
+
+/**
+ * The u-bin where W has its deepest valley between two velocity ranges' centres:
+ * W is smoothed over 5 bins; the valley is the minimum between the two modes (the
+ * largest W inside each class's search zone), the middle of a run of equal minima.
+ * Returns null when one side has no mode.
+ */
+export function valleyBin(W: Float64Array, u: Float64Array, fastZone: [number, number], slowZone: [number, number]): { bin: number; depth: number; fastMode: number; slowMode: number } | null {
+  const n = W.length;
+  const sm = Float64Array.from({ length: n }, (_, k) => {
+    let s = 0, c = 0;
+    for (let j = Math.max(0, k - 2); j <= Math.min(n - 1, k + 2); j++) { s += W[j]; c++; }
+    return s / c;
+  });
+  // zones in slowness: fast classes have small u
+  const inZone = (k: number, z: [number, number]) => u[k] >= 1 / z[1] && u[k] <= 1 / z[0];
+  let fm = -1, sMode = -1;
+  for (let k = 0; k < n; k++) {
+    if (inZone(k, fastZone) && (fm < 0 || sm[k] > sm[fm])) fm = k;
+    if (inZone(k, slowZone) && (sMode < 0 || sm[k] > sm[sMode])) sMode = k;
+  }
+  if (fm < 0 || sMode < 0 || sMode <= fm) return null;
+  let mn = fm + 1;
+  for (let k = fm + 1; k < sMode; k++) if (sm[k] < sm[mn]) mn = k;
+  let e = mn;
+  while (e + 1 < sMode && sm[e + 1] <= sm[mn] * (1 + 1e-9) + 1e-300) e++;
+  const bin = Math.round((mn + e) / 2);
+  const lower = Math.min(sm[fm], sm[sMode]);
+  return { bin, depth: lower > 0 ? sm[mn] / lower : 1, fastMode: fm, slowMode: sMode };
+}
