@@ -183,6 +183,14 @@ describe('readNwb(path, options) on files written by h5py', () => {
     expect(set.fs).toBe(5000);
   });
 
+  it('readNwbSync before nwbReady() throws NwbNotReadyError saying what to call', async () => {
+    vi.resetModules();
+    const fresh = await import('../../src/io/nwb');
+    expect(fresh.nwbLoaded()).toBe(false);
+    expect(() => fresh.readNwbSync(fx('precut.nwb'))).toThrow(/call `await nwbReady\(\)` once/);
+    expect(() => fresh.readNwbSync(fx('precut.nwb'))).toThrow(fresh.NwbNotReadyError);
+  });
+
   it('readNwbSync reads the same once the library is loaded (nwbReady in beforeAll)', () => {
     expect(readNwbSync(fx('precut.nwb'), { columns: { intensity: 'amp' } }).nSweeps).toBe(8);
   });
