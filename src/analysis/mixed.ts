@@ -273,6 +273,9 @@ export function contrastF(
   return { F, numDf: q, denDf, p: fSurvival(F, q, denDf) };
 }
 
+const NO_DF = 'no Satterthwaite df: the variance components are not both identifiable (e.g. one observation per '
+  + 'animal) or the fit is degenerate';
+
 /** Options of mixedModel; fields name columns of the rows. */
 export interface MixedOptions {
   /** the measure (numeric column) */
@@ -449,6 +452,11 @@ export function mixedModel(
     const small = fixed.find((f) => levels[f].length < 2);
     if (small) { fail(`factor ${small} has ${levels[small].length} level in these rows; needs 2 or more`); continue; }
     if (animals.size < 2) { fail(`needs at least 2 animals (got ${animals.size})`); continue; }
+    if (use.length === animals.size) {
+      fail('one observation per animal: animal and residual variance cannot be told apart (compareGroups tests '
+        + 'one value per animal directly)');
+      continue;
+    }
     try {
       const y = use.map((r) => r[value] as number), g = use.map((r) => String(r[random]));
       const tr = design(use, fixed, levels, interaction, 'treatment');
@@ -458,7 +466,15 @@ export function mixedModel(
         const l = tr.names.map((_, k) => (k === j ? 1 : 0));
         const se = Math.sqrt(fit.covariance[j][j]);
         const df = satterthwaiteDf(fit, l);
-        const b = fit.beta[j], t = b / se, q = tQuantile(0.975, df);
+        const b = fit.beta[j], t = b / se;
+        if (!(df > 0) || !Number.isFinite(df) || !(se > 0)) {
+          coefficients.push({
+            ...key, term: name, estimate: b, se: se > 0 ? se : null, df: null, t: null, p: null, ci95_low: null,
+            ci95_high: null, status: 'not computed', reason: NO_DF,
+          });
+          return;
+        }
+        const q = tQuantile(0.975, df);
         coefficients.push({
           ...key, term: name, estimate: b, se, df, t, p: tTwoSided(t, df), ci95_low: b - q * se, ci95_high: b + q * se,
           status: 'ok', reason: null,
@@ -469,7 +485,10 @@ export function mixedModel(
       for (const term of sum.terms) {
         const L = term.cols.map((c) => sum.names.map((_, k) => (k === c ? 1 : 0)));
         const r = contrastF(fs, L);
-        const row = { term: term.name, F: r.F, num_df: r.numDf, den_df: r.denDf, p: r.p, status: 'ok', reason: null };
+        const ok = Number.isFinite(r.F) && r.denDf > 0 && Number.isFinite(r.denDf);
+        const row = ok
+          ? { term: term.name, F: r.F, num_df: r.numDf, den_df: r.denDf, p: r.p, status: 'ok', reason: null }
+          : { term: term.name, F: null, num_df: r.numDf, den_df: null, p: null, status: 'not computed', reason: NO_DF };
         anova.push({ ...key, ...row });
       }
       const tot = fit.sigmaU2 + fit.sigmaE2;

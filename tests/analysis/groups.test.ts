@@ -6,7 +6,9 @@ import {
   welchTTest, mannWhitneyU, oneWayAnova, repeatedMeasuresAnova, holm, benjaminiHochberg, compareGroups, normSf,
   mannWhitneyExactSf, groupMethods, groupStepMethods,
 } from '../../src/analysis/groups';
-import { mixedModel, fitRandomIntercept, satterthwaiteDf, mixedMethods, mixedStepMethods } from '../../src/analysis/mixed';
+import {
+  mixedModel, fitRandomIntercept, satterthwaiteDf, mixedMethods, mixedStepMethods,
+} from '../../src/analysis/mixed';
 import { pairedCompare, toFrame } from '../../src';
 import { Rng } from '../../src/model/random';
 
@@ -183,6 +185,14 @@ describe('mixedModel: random intercept per animal, REML, Satterthwaite df', () =
     // the intercept is a between-animal contrast: v = se/N, g = (sum n_i^2 / N^2, 1/N); with the expected
     // information this gives animals - 1 = 2 (hand computation), not N - 1
     rel(satterthwaiteDf(f, [1]), 2);
+  });
+  it('one observation per animal: variance components not both identifiable, tests are statuses not numbers', () => {
+    const r2 = new Rng(5);
+    const rows = Array.from({ length: 10 }, (_, i) => ({ animal: `a${i}`, group: i < 5 ? 'x' : 'y', value: r2.normal() }));
+    const m = mixedModel(rows, { value: 'value', fixed: ['group'] });
+    expect(m.variance[0].status).toBe('not computed');
+    expect(m.variance[0].reason).toMatch(/one observation per animal/);
+    expect([...m.coefficients, ...m.anova]).toEqual([]);
   });
   it('a cell that cannot be fitted is a row with a status; bad options name the column', () => {
     const rows = [
