@@ -94,3 +94,7 @@ export { NWB_CONDITIONS } from './io/nwbColumns';
 export { classViews } from './plot/builders';
 export { sweepViewer } from './plot/viewer';
 export { sweepSetHtml, showSweepSet } from './notebook/sweepSet';
+export { latencyMethodsText, componentLatencyText, onsetColumn, clipEndMs, artifactDecay } from './measure/components';
+export type { Polarity, ResolvedComponentOptions } from './measure/components';
+export { fitSharedShape, decomposeTrace, valleyBin, nnlsGram } from './measure/decompose';
+export { ownLatencies } from './measure/response';
