@@ -21,7 +21,7 @@
  * of its own is "not resolved: no separate peak or shoulder".
  *
  * Latencies are measured on each class's own component, each by one definition at every
- * distance, independent of the noise level (see latencyDefinitions). The k x noise test
+ * distance, independent of the noise level (see componentLatencyText). The k x noise test
  * decides detection only.
  *
  * Polarity is chosen per class: the main phase of the class in its window, after the
@@ -124,9 +124,9 @@ export function onsetColumn(fraction: number): string {
 
 /**
  * What each latency column means, in methods-text wording (for src/report/methods.ts and the README).
- * @example latencyDefinitions(0.1, 0.1).onset // 'onset latency (onset10_ms): ...'
+ * @example componentLatencyText(0.1, 0.1).onset // 'onset latency (onset10_ms): ...'
  */
-export function latencyDefinitions(onsetFraction = 0.1, centroidFraction = 0.1): Record<'onset' | 'halfrise' | 'peak' | 'centroid', string> {
+export function componentLatencyText(onsetFraction = 0.1, centroidFraction = 0.1): Record<'onset' | 'halfrise' | 'peak' | 'centroid', string> {
   const pc = (f: number) => `${+(f * 100).toFixed(1)}%`;
   return {
     onset: `onset latency (${onsetColumn(onsetFraction)}): the time at which the class's own component first reaches ${pc(onsetFraction)} of its own peak, found by searching backwards from the peak and interpolating linearly between samples`,
@@ -138,7 +138,7 @@ export function latencyDefinitions(onsetFraction = 0.1, centroidFraction = 0.1):
 
 /** One paragraph of methods text for the latency definitions and the separation of classes. */
 export function latencyMethodsText(r: Pick<ResolvedComponentOptions, 'onsetFraction' | 'centroidFraction' | 'separation' | 'k'>): string {
-  const d = latencyDefinitions(r.onsetFraction, r.centroidFraction);
+  const d = componentLatencyText(r.onsetFraction, r.centroidFraction);
   const sep = r.separation === 'trough'
     ? 'Overlapping classes were split at the trough between their peaks; a class without a peak of its own was reported as not resolved.'
     : 'Overlapping classes recorded at two or more conduction distances were separated by decomposing the responses into a conduction-velocity distribution (non-negative weights) and one single-fiber waveform shared by every distance of a preparation and temperature, fitted by alternating least squares; classes were split at the deepest valley of the velocity distribution between their ranges and each class was measured on its own modelled component. A class without a separate mode was reported as not resolved. With a single distance, classes were split at the trough between their peaks.';
@@ -584,7 +584,7 @@ export function componentStep(r: ResolvedComponentOptions): { verb: string; opti
       q10: r.q10, k: r.k, polarity: r.polarity, utilisationMs: r.utilisationMs, tailFraction: r.tailFraction, tailMs: r.tailMs,
       noiseWindow: r.noiseWindow, earliestMs: r.earliestMs, distanceMm: r.distanceMm, temperatureC: r.temperatureC,
       polarities: r.polarities, polaritySource: r.polaritySource, onsetFraction: r.onsetFraction, centroidFraction: r.centroidFraction,
-      separation: r.separation, decomposeBy: r.decomposeBy, latencyDefinitions: latencyDefinitions(r.onsetFraction, r.centroidFraction),
+      separation: r.separation, decomposeBy: r.decomposeBy, latencyDefinitions: componentLatencyText(r.onsetFraction, r.centroidFraction),
     },
     version: VERSION,
   };
