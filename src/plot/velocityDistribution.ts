@@ -1,0 +1,61 @@
+/**
+ * Figures of a conduction-velocity distribution: the distribution on a log velocity axis
+ * with its 95% bootstrap band, the class ranges shaded, an optional known distribution
+ * (binned on the same grid) overlaid; and the reconstruction of each distance's response.
+ */
+import { Figure, PALETTE, baseLayout } from './figure';
+import type { VelocityDistributionResult } from '../analysis/velocityDistribution';
+
+const colour = (i: number) => PALETTE[i % PALETTE.length];
+
+/** Bin known fibre velocities (optionally weighted) on the result's grid, as fractions. */
+export function binOnGrid(result: VelocityDistributionResult, velocity: readonly number[], weight?: readonly number[]): number[] {
+  const lo = result.grid.map((r) => r.bin_low_m_s as number), hi = result.grid.map((r) => r.bin_high_m_s as number);
+  const out = new Array(lo.length).fill(0);
+  let tot = 0;
+  velocity.forEach((x, i) => {
+    const w = weight ? weight[i] : 1;
+    const k = lo.findIndex((a, j) => x >= a && x < hi[j]);
+    if (k >= 0) { out[k] += w; tot += w; }
+  });
+  return out.map((x) => (tot > 0 ? x / tot : 0));
+}
+
+/**
+ * The distribution (number- or amplitude-weighted fraction per grid bin) with its band,
+ * class ranges and, when given, a known distribution (e.g. a simulation's truth).
+ */
+export function velocityDistributionFigure(result: VelocityDistributionResult, options: { weighting?: 'number' | 'amplitude'; truth?: { velocity: number[]; weight?: number[]; label?: string } } = {}): Figure {
+  const wt = options.weighting ?? 'number';
+  const v = result.grid.map((r) => r.velocity_m_s as number);
+  const y = result.grid.map((r) => r[`${wt}_fraction`] as number);
+  const lo = result.grid.map((r) => r[`${wt}_fraction_ci95_low`] as number | null);
+  const hi = result.grid.map((r) => r[`${wt}_fraction_ci95_high`] as number | null);
+  const data: Record<string, unknown>[] = [];
+  if (lo.every((x) => typeof x === 'number')) {
+    data.push({ type: 'scatter', mode: 'lines', x: v, y: hi, line: { width: 0 }, showlegend: false, hoverinfo: 'skip', name: 'band high' });
+    data.push({ type: 'scatter', mode: 'lines', x: v, y: lo, line: { width: 0 }, fill: 'tonexty', fillcolor: 'rgba(31,95,168,0.2)', name: '95% bootstrap band' });
+  }
+  data.push({ type: 'scatter', mode: 'lines', x: v, y, line: { color: colour(0), width: 2 }, name: `estimate (${wt}-weighted)` });
+  if (options.truth) {
+    const tb = binOnGrid(result, options.truth.velocity, options.truth.weight);
+    data.push({ type: 'scatter', mode: 'lines', x: v, y: tb, line: { color: colour(1), width: 1.5, dash: 'dash', shape: 'hvh' }, name: options.truth.label ?? 'known distribution' });
+  }
+  const shapes = result.classes.map((c, i) => ({ type: 'rect', xref: 'x', yref: 'paper', x0: c.range_low_m_s, x1: c.range_high_m_s, y0: 0, y1: 1, fillcolor: colour(i + 2), opacity: 0.07, line: { width: 0 } }));
+  const annotations = result.classes.map((c) => ({ x: Math.log10(Math.sqrt((c.range_low_m_s as number) * (c.range_high_m_s as number))), y: 1, xref: 'x', yref: 'paper', text: String(c.class), showarrow: false, font: { size: 10 } }));
+  const base = baseLayout(`Conduction-velocity distribution (${result.fit.method})`, 'conduction velocity (m/s, log scale)', `${wt} fraction per bin`);
+  return new Figure('velocity-distribution', { data, layout: { ...base, shapes, annotations, xaxis: { ...(base.xaxis as object), type: 'log', title: { text: 'conduction velocity (m/s, log scale)' } } } });
+}
+
+/** Each distance's averaged response and its reconstruction from the distribution. */
+export function velocityReconstructionFigure(result: VelocityDistributionResult): Figure {
+  const data: Record<string, unknown>[] = [];
+  result.reconstruction.forEach((r, i) => {
+    const step = Math.max(1, Math.floor(r.t.length / 3000));
+    const xs: number[] = [], ys: number[] = [], fs: number[] = [];
+    for (let j = 0; j < r.t.length; j += step) { xs.push(r.t[j]); ys.push(r.y[j]); fs.push(r.fit[j]); }
+    data.push({ type: 'scatter', mode: 'lines', x: xs, y: ys, name: `${r.distanceMm} mm data`, line: { color: colour(i), width: 1 } });
+    data.push({ type: 'scatter', mode: 'lines', x: xs, y: fs, name: `${r.distanceMm} mm model`, line: { color: colour(i), width: 1.5, dash: 'dot' } });
+  });
+  return new Figure('velocity-reconstruction', { data, layout: baseLayout('Responses and their reconstruction', 'time after stimulus (ms)', `signal (${result.units})`) });
+}
