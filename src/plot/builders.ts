@@ -275,6 +275,7 @@ export function velocityFigure(componentRows: Row[], basis: 'centroid' | 'peak' 
   const classes = uniq(rows.map((r) => String(r.class)));
   const all = rows.map((r) => r[`${basis}_ms`] as number).filter((v) => v > 0);
   const log = options.axis ? options.axis === 'log' : all.length > 0 && Math.max(...all) / Math.min(...all) > 10;
+  const pooled = uniq(rows.map((r) => String(r.preparation ?? ''))).length > 1;
   const data: Trace[] = [], entries: Trace[] = [];
   let fitted = false;
   classes.forEach((cls, ci) => {
@@ -296,7 +297,7 @@ export function velocityFigure(componentRows: Row[], basis: 'centroid' | 'peak' 
     }
   });
   data.push(...entries);
-  if (fitted) data.push(legendOnly('Linear fit', { mode: 'lines', line: { color: GREY, width: 1.5, dash: 'dot' } }));
+  if (fitted) data.push(legendOnly(pooled ? 'Linear fit, preparations pooled' : 'Linear fit', { mode: 'lines', line: { color: GREY, width: 1.5, dash: 'dot' } }));
   const w = BASIS_WORD[basis] ?? plotlyText(basis);
   const yTitle = `${sentenceCase(w)} latency (ms)`;
   const yaxis = log ? logAxis(axisValues(data, 'y')) : { rangemode: 'tozero' };

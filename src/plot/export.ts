@@ -11,7 +11,6 @@
  */
 import { existsSync, writeFileSync, mkdirSync } from 'node:fs';
 import { dirname, extname } from 'node:path';
-import { crc32 } from 'node:zlib';
 import type { Browser, Page } from 'playwright-core';
 import type { Figure, PlotlySpec } from './figure';
 import { plotlyJs, LAYOUT_FIT_JS } from './figure';
@@ -260,6 +259,16 @@ export function sizeSvg(svg: string, wPx: number, hPx: number, wMm: number, hMm:
   const out = svg.replace(/<svg([^>]*?)\swidth="[^"]*"\s+height="[^"]*"/, (_m, pre: string) => `<svg${pre} width="${+wMm.toFixed(3)}mm" height="${+hMm.toFixed(3)}mm"${/viewBox/.test(svg.slice(0, 400)) ? '' : ` viewBox="0 0 ${wPx} ${hPx}"`}`);
   if (!title) return out;
   return out.replace(/(<svg[^>]*>)/, `$1<title>${escapeHtml(title)}</title>`);
+}
+
+/** CRC-32 (ISO 3309, as PNG chunks use it: polynomial 0xEDB88320, reflected). */
+function crc32(buf: Uint8Array): number {
+  let c = 0xffffffff;
+  for (let i = 0; i < buf.length; i++) {
+    c ^= buf[i];
+    for (let k = 0; k < 8; k++) c = c & 1 ? (c >>> 1) ^ 0xedb88320 : c >>> 1;
+  }
+  return (c ^ 0xffffffff) >>> 0;
 }
 
 /** A PNG with a pHYs chunk giving its resolution (pixels per metre from dpi), inserted after IHDR. */

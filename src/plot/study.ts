@@ -2,6 +2,7 @@
 import type { Study } from '../report/study';
 import { recruitmentFigure, velocityFigure, doseResponseFigure, temperatureFigure, summaryFigure } from './builders';
 import { plotlyJs, type Figure } from './figure';
+import { plainTitle } from './export';
 import { escapeHtml } from '../notebook/html';
 
 export function studyFigureList(study: Study): Figure[] {
@@ -13,7 +14,7 @@ export function studyFigureList(study: Study): Figure[] {
   if (t.dose_response_points.length) figs.push(doseResponseFigure(t.dose_response_points, t.dose_response_summary, study.doseResponse?.fits));
   if (t.temperature_points.length) figs.push(temperatureFigure(t.temperature_points, t.temperature, 'q10'), temperatureFigure(t.temperature_points, t.temperature, 'arrhenius'));
   const v = t.velocity.filter((r) => r.method === 'regression' && r.basis === 'centroid');
-  if (v.length) figs.push(summaryFigure(v, 'velocity_m_s', 'conduction velocity (m/s)'));
+  if (v.length) figs.push(summaryFigure(v, 'velocity_m_s'));
   return figs;
 }
 
@@ -21,7 +22,7 @@ export function studyFigureList(study: Study): Figure[] {
 export function studyFigures(study: Study): Record<string, string> {
   const out: Record<string, string> = { 'plotly.min.js': plotlyJs() };
   for (const f of studyFigureList(study)) {
-    out[`figures/${f.name}.html`] = `<!doctype html><html><head><meta charset="utf-8"><title>${escapeHtml(f.name)}</title></head><body>${f.toHTML('script-tag', '../plotly.min.js')}</body></html>\n`;
+    out[`figures/${f.name}.html`] = `<!doctype html><html><head><meta charset="utf-8"><title>${escapeHtml(plainTitle(f))}</title></head><body>${f.toHTML('script-tag', '../plotly.min.js')}</body></html>\n`;
     out[`figures/${f.name}.json`] = f.specJson() + '\n';
   }
   return out;
