@@ -40,7 +40,8 @@ export interface NwbWriteOptions {
   raw?: boolean;
   /** Replace an existing file at the path, only if fascicle wrote it (default false: an existing path is refused). */
   overwrite?: boolean;
-  /** Result tables for /processing/fascicle: a result object (with tables()), a study ({ tables }), or name -> rows. */
+  /** Result tables for /processing/fascicle: a result object (with tables()), a runPipeline result (all its tables),
+   * a study ({ tables }), or name -> rows. */
   results?: ResultTables;
   /** /session_description. Default: the study's description or name, else "fascicle export". */
   sessionDescription?: string;
@@ -434,13 +435,46 @@ function resultTables(r: NwbWriteOptions['results']): Record<string, Rows | unde
   }
   const t = (r as { tables?: unknown }).tables;
   const out = typeof t === 'function' ? (t as () => Record<string, Rows>).call(r)
-    : t && typeof t === 'object' && !Array.isArray(t) ? t : r;
+    : t && typeof t === 'object' && !Array.isArray(t) ? t : isPipelineResult(r) ? pipelineTables(r) : r;
   for (const [k, v] of Object.entries(out as Record<string, unknown>)) {
     if (v !== undefined && (!Array.isArray(v) || !v.every((x) => x && typeof x === 'object' && !Array.isArray(x)))) {
       throw new OptionError(`invalid results.${k}: must be an array of row objects`);
     }
   }
   return out as Record<string, Rows | undefined>;
+}
+
+type HasTables = { tables(): Record<string, Rows> } | null | undefined;
+interface PipelineLike {
+  conditioned: unknown;
+  components: HasTables;
+  velocity?: HasTables; recruitment?: HasTables; doseResponse?: HasTables; temperature?: HasTables;
+  strengthDuration?: HasTables;
+  thresholds?: Rows;
+  flags?: Rows;
+}
+
+/** A result of runPipeline (conditioned sweeps, component table, analyses). */
+function isPipelineResult(r: object): r is PipelineLike {
+  return 'conditioned' in r && 'components' in r && typeof (r as PipelineLike).components?.tables === 'function';
+}
+
+/** Every table of a pipeline result: the component table's, each analysis's, thresholds and flags. */
+function pipelineTables(r: PipelineLike): Record<string, Rows> {
+  const out: Record<string, Rows> = {};
+  const add = (prefix: string, x: HasTables) => {
+    if (!x) return;
+    for (const [k, rows] of Object.entries(x.tables())) out[k in out ? `${prefix}_${k}` : k] = rows;
+  };
+  add('components', r.components);
+  add('velocity', r.velocity);
+  add('recruitment', r.recruitment);
+  add('dose_response', r.doseResponse);
+  add('temperature', r.temperature);
+  add('strength_duration', r.strengthDuration);
+  if (r.thresholds) out.thresholds = r.thresholds;
+  if (r.flags) out.flags = r.flags;
+  return out;
 }
 
 interface ColumnSpec {

@@ -392,6 +392,14 @@ describe('the demo study through an NWB copy', () => {
     for (const k of Object.keys(ta)) expect(strip(tb[k]), k).toEqual(strip(ta[k]));
     expect(a.velocity && strip(b.velocity!.rows)).toEqual(a.velocity && strip(a.velocity.rows));
     expect(b.recruitment?.tables()).toEqual(a.recruitment?.tables());
+    // the results travel in the file too
+    const withResults = join(tmp, 'demo-R1-results.nwb');
+    const w = await writeNwb(a.conditioned, withResults, { results: a });
+    const tables = await readNwbTables(withResults);
+    expect([...w.tables].sort()).toEqual(Object.keys(tables).sort());
+    const velocityName = Object.keys(a.velocity!.tables())[0];
+    expect(tables[velocityName].length).toBe(a.velocity!.rows.length);
+    expect(tables.thresholds).toEqual(JSON.parse(JSON.stringify(a.thresholds)));
   });
 });
 
