@@ -98,3 +98,8 @@ export { latencyMethodsText, componentLatencyText, onsetColumn, clipEndMs, artif
 export type { Polarity, ResolvedComponentOptions } from './measure/components';
 export { fitSharedShape, decomposeTrace, valleyBin, nnlsGram } from './measure/decompose';
 export { ownLatencies } from './measure/response';
+export { nnls, nnlsGram as nnlsNormalEquations } from './signal/nnls';
+export type { NnlsResult } from './signal/nnls';
+export { velocityDistribution, velocityDistributionDefaults, VelocityDistributionResult, velocityGrid } from './analysis/velocityDistribution';
+export type { VelocityDistributionOptions, VelocityDistributionFit } from './analysis/velocityDistribution';
+export { velocityDistributionFigure, velocityReconstructionFigure } from './plot/velocityDistribution';
