@@ -100,6 +100,6 @@ export { fitSharedShape, decomposeTrace, valleyBin, nnlsGram } from './measure/d
 export { ownLatencies } from './measure/response';
 export { nnls, nnlsGram as nnlsNormalEquations } from './signal/nnls';
 export type { NnlsResult } from './signal/nnls';
-export { velocityDistribution, velocityDistributionDefaults, VelocityDistributionResult, velocityGrid } from './analysis/velocityDistribution';
+export { velocityDistribution, velocityDistributionDefaults, VelocityDistributionResult, velocityGrid, compareVelocityDistributions } from './analysis/velocityDistribution';
 export type { VelocityDistributionOptions, VelocityDistributionFit } from './analysis/velocityDistribution';
 export { velocityDistributionFigure, velocityReconstructionFigure } from './plot/velocityDistribution';

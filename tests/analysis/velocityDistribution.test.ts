@@ -2,7 +2,8 @@ import { describe, it, expect } from 'vitest';
 import { readFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { SweepSet } from '../../src/sweeps/SweepSet';
-import { velocityDistribution, velocityDistributionDefaults, velocityGrid } from '../../src/analysis/velocityDistribution';
+import { velocityDistribution, velocityDistributionDefaults, velocityGrid, compareVelocityDistributions } from '../../src/analysis/velocityDistribution';
+import { velocityDistributionFigure, velocityReconstructionFigure } from '../../src/plot/velocityDistribution';
 import { OptionError, AnalysisError } from '../../src/errors';
 import { Rng } from '../../src/model/random';
 
@@ -15,12 +16,12 @@ interface Synth { set: SweepSet; fibres: { v: number; a: number; mode: number }[
  * amplitude proportional to v^2, convolved forward at the given distances with the
  * potential above; white noise of `noise` (mV) per sweep. Analytic case of the issue.
  */
-function synth(distances: number[], noise: number, sweeps = 4, seed = 7): Synth {
+function synth(distances: number[], noise: number, sweeps = 4, seed = 7, fastScale = 1): Synth {
   const rng = new Rng(seed);
   const fibres: Synth['fibres'] = [];
   const nf = 1;
   const modes = [{ median: 42, sigma: 0.12, n: 400 * nf }, { median: 12, sigma: 0.18, n: 800 * nf }];
-  modes.forEach((m, i) => { for (let j = 0; j < m.n; j++) { const v = m.median * Math.exp(m.sigma * rng.normal()); fibres.push({ v, a: (v / 30) ** 2 / nf, mode: i }); } });
+  modes.forEach((m, i) => { for (let j = 0; j < m.n; j++) { const v = m.median * Math.exp(m.sigma * rng.normal()); fibres.push({ v, a: ((v / 30) ** 2 / nf) * (i === 0 ? fastScale : 1), mode: i }); } });
   const fs = 50000, t0 = -1, n = 800; // -1 .. 15 ms
   const data = new Float64Array(distances.length * sweeps * n);
   const conditions: Record<string, number>[] = [];
@@ -88,6 +89,48 @@ describe('velocityDistribution(set, options): synthetic distribution with known 
       console.log(`two-distance ${c.name}: median ${med.toFixed(2)} (truth ${truth[i].median.toFixed(2)})`);
       expect(Math.abs(med / truth[i].median - 1)).toBeLessThan(0.05);
     });
+  });
+});
+
+describe('compareVelocityDistributions(before, after), figures and methods text', () => {
+  // before: the synthetic nerve; after: the same nerve with half of the fast mode's amplitude blocked (invented case)
+  const opts = { classes: modeClasses, velocityRange: [3, 120] as [number, number], fitWindow: [0.1, 15] as [number, number], bootstrap: 30 };
+  const before = velocityDistribution(synth([10, 20, 30], 0.002).set, opts);
+  const after = velocityDistribution(synth([10, 20, 30], 0.002, 4, 8, 0.5).set, opts);
+  it('the blocked fast mode shows as a loss at its velocities, with a band that excludes zero', () => {
+    const d = compareVelocityDistributions(before, after);
+    const fast = d.classes.find((c) => c.class === 'fast mode')!;
+    // expected ratio 0.5 by construction (different noise and fibres: seed 8)
+    expect(Math.abs((fast.amplitude_ratio as number) - 0.5)).toBeLessThan(0.05);
+    expect(fast.amplitude_ratio_ci95_high as number).toBeLessThan(1);
+    expect(fast.amplitude_fraction_difference as number).toBeLessThan(0);
+    const slow = d.classes.find((c) => c.class === 'slow mode')!;
+    expect(Math.abs((slow.amplitude_ratio as number) - 1)).toBeLessThan(0.1);
+    expect(() => compareVelocityDistributions(before, velocityDistribution(synth([10, 20], 0.002, 2).set, { ...opts, bootstrap: 0, nVelocities: 40 }))).toThrow(/different velocity grids/);
+  });
+  it('figure: log velocity axis with units, the band, the class ranges and a known distribution overlaid', () => {
+    const syn = synth([10, 20, 30], 0.002);
+    const f = velocityDistributionFigure(before, { truth: { velocity: syn.fibres.map((x) => x.v), label: 'truth' } });
+    const l = f.spec.layout as { xaxis: { type: string; title: { text: string } }; yaxis: { title: { text: string } }; shapes: unknown[] };
+    expect(l.xaxis.type).toBe('log');
+    expect(l.xaxis.title.text).toMatch(/\(m\/s/);
+    expect(l.shapes.length).toBe(2);
+    expect(f.spec.data.map((t) => t.name)).toEqual(['band high', '95% bootstrap band', 'estimate (number-weighted)', 'truth']);
+    const truthTrace = f.spec.data[3].y as number[];
+    expect(truthTrace.reduce((a, b) => a + b, 0)).toBeCloseTo(1, 10);
+    const rf = velocityReconstructionFigure(before);
+    expect(rf.spec.data.length).toBe(6);
+  });
+  it('methods text names the method, the assumption linking number and amplitude, GCV and the references', () => {
+    const m = before.methods();
+    expect(m).toMatch(/sum of single-fibre potentials arriving at x\/v/);
+    expect(m).toMatch(/v\^2/);
+    expect(m).toMatch(/generalised cross-validation/);
+    expect(m).toMatch(/Lawson CL, Hanson RJ \(1974\)/);
+    expect(m).toMatch(/Cummins KL, Perkel DH, Dorfman LJ \(1979\)/);
+    expect(before.tables()).toHaveProperty('velocity_distribution_classes');
+    expect(String(before)).toMatch(/VelocityDistributionResult/);
+    expect(before.toHTML()).toMatch(/<table/);
   });
 });
 
