@@ -887,6 +887,9 @@ export async function readNwbTables(path: string): Promise<Record<string, Record
       const t = readTable(path, g, `/processing/fascicle/${k}`);
       out[k] = Array.from({ length: t.n }, (_, i) => Object.fromEntries(t.columns.map((c) => [c.name, c.values[i]])));
     }
+    let empty = attr(mod, 'fascicle_empty_tables');
+    if (typeof empty === 'string') empty = [empty];
+    if (Array.isArray(empty)) for (const k of empty) if (typeof k === 'string') out[k] = [];
     return out;
   } finally {
     f.close();

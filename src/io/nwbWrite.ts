@@ -414,18 +414,27 @@ function writeContent(f: H5File, set: SweepSet, o: NwbWriteOptions, raw: boolean
     { name: 'bytes', values: set.sources.map((s) => s.bytes), description: 'size, bytes' },
   ]);
   const tables: string[] = [];
+  const empty: string[] = [];
   for (const [name, rows] of Object.entries(resultTables(o.results))) {
     if (!rows) continue;
     let safe = name.replace(/[^A-Za-z0-9_.-]/g, '_');
     if (['history', 'inputs'].includes(safe) || safe.startsWith('sweeps')) safe = `results_${safe}`;
-    if (tables.includes(safe)) throw new OptionError(`invalid results: two tables are both named ${JSON.stringify(safe)} in the file`);
+    if (tables.includes(safe) || empty.includes(safe)) {
+      throw new OptionError(`invalid results: two tables are both named ${JSON.stringify(safe)} in the file`);
+    }
+    if (rows.length === 0) {
+      // a table without rows has no columns either: it is listed instead (h5wasm cannot write an empty colnames)
+      empty.push(safe);
+      continue;
+    }
     const g = proc.create_group(safe);
     const names = [...new Set(rows.flatMap((r) => Object.keys(r)))];
     writeTable(g, 'DynamicTable', 'hdmf-common', `fascicle result table ${name}`, rows.length,
       names.map((c) => ({ name: c, values: rows.map((r) => (r[c] === undefined ? null : r[c])), description: c })));
     tables.push(safe);
   }
-  return { series: seriesPaths, trials: set.nSweeps, electrodes: eRows.length, tables };
+  if (empty.length) proc.create_attribute('fascicle_empty_tables', empty, null, S);
+  return { series: seriesPaths, trials: set.nSweeps, electrodes: eRows.length, tables: [...tables, ...empty] };
 }
 
 function resultTables(r: NwbWriteOptions['results']): Record<string, Rows | undefined> {

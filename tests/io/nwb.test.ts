@@ -327,15 +327,16 @@ describe('writeNwb(set, path, options) and reading back', () => {
     const p = join(tmp, 'conditioned.nwb');
     const components = [{ sweep: 0, class: 'A', latency_ms: 1.25, detected: true, reason: null, 'v/d': 2 },
       { sweep: 1, class: 'A', latency_ms: null, detected: false, reason: 'below noise', 'v/d': 3 }];
-    const res = await writeNwb(cond, p, { results: { components } });
+    const res = await writeNwb(cond, p, { results: { components, flags: [] } });
     expect(res.series).toEqual(['/processing/fascicle/sweeps']);
-    expect(res.tables).toEqual(['components']);
+    expect(res.tables).toEqual(['components', 'flags']);
     const back = await readNwb(p);
     expect(Array.from(back.data)).toEqual(Array.from(cond.data));
     expect(back.column('site')).toEqual(cond.column('site'));
     expect(back.column('acquiredS')).toEqual(cond.column('acquiredS'));
     const tables = await readNwbTables(p);
     expect(tables.components).toEqual(components);
+    expect(tables.flags).toEqual([]);
   });
 
   it('never overwrites a file fascicle did not write; replaces its own only with overwrite; leaves no temporary file', async () => {
