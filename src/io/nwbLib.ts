@@ -107,7 +107,10 @@ export function checkHdf5(path: string, fd: number, size: number): void {
     if (O !== 8 && O !== 4) return; // unusual offset size: let the library judge
     const eofAt = version === 0 ? 24 + 2 * O : version === 1 ? 28 + 2 * O : 12 + 2 * O;
     const baseAt = version === 0 ? 24 : version === 1 ? 28 : 12;
-    if (n < eofAt + O) return;
+    if (n < eofAt + O) {
+      throw new InputError({ file: path }, `the file is truncated: it has ${size} bytes, fewer than its HDF5 superblock`,
+        'the complete file (copy it again)');
+    }
     const read = (at: number) => (O === 8 ? Number(dv.getBigUint64(at, true)) : dv.getUint32(at, true));
     const baseAddr = read(baseAt);
     const eof = read(eofAt);

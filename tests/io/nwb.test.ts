@@ -202,6 +202,9 @@ describe('readNwb errors name the file, the place inside it and the problem', ()
     writeFileSync(p, readFileSync(fx('continuous.nwb')).subarray(0, 30000));
     expectInputError(() => readNwbSync(p), p, undefined,
       /truncated: it has 30000 bytes but its HDF5 superblock says \d+/);
+    const tiny = join(tmp, 'tiny.nwb');
+    writeFileSync(tiny, readFileSync(fx('continuous.nwb')).subarray(0, 40));
+    expectInputError(() => readNwbSync(tiny), tiny, undefined, /truncated: it has 40 bytes, fewer than its HDF5 superblock/);
   });
 
   it('a file that is not HDF5, and HDF5 that is not NWB', () => {
