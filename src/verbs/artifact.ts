@@ -63,10 +63,11 @@ const ARTIFACT_KEYS: Record<ArtifactMethod, readonly string[]> = {
   alternate: ['method'],
 };
 
+const ALL_ARTIFACT_KEYS = [...new Set(Object.values(ARTIFACT_KEYS).flat())];
+
 /** Unknown keys, and keys that the chosen method does not use, are errors naming the method that uses them. */
 function checkArtifactKeys(options: ArtifactOptions, method: ArtifactMethod): void {
-  const all = [...new Set(Object.values(ARTIFACT_KEYS).flat())];
-  checkKeys('removeArtifact options', options, all);
+  checkKeys('removeArtifact options', options, ALL_ARTIFACT_KEYS);
   for (const k of Object.keys(options)) {
     if (ARTIFACT_KEYS[method].includes(k)) continue;
     const users = (Object.keys(ARTIFACT_KEYS) as ArtifactMethod[]).filter((m) => ARTIFACT_KEYS[m].includes(k));

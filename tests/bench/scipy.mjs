@@ -156,15 +156,19 @@ export function runScipyComparison() {
     rec.one.push(fasciclePipeline(path, meta).t);
     f.setThreads(T);
   }
-  const best = (list, k) => (list.length ? Math.min(...list.map((t) => t[k])) : NaN);
+  // each round pairs SciPy with fascicle run right after it: a stage's ratio is the median of
+  // its per-round ratios (the machine's load changes between rounds, less within one)
+  const med = (list, k) => (list.length ? median(list.map((t) => t[k])) : NaN);
+  const pairRatio = (list, k) => (rec.scipy.length ? median(rec.scipy.map((t, r) => t[k] / list[r][k])) : NaN);
   const fmt = (x) => (Number.isFinite(x) ? (x < 0.01 ? x.toPrecision(2) : x.toFixed(4)) : '-');
-  const ratio = (a, b) => (Number.isFinite(a) && Number.isFinite(b) ? (a / b).toFixed(2) : '-');
-  console.log(`${'stage'.padEnd(14)}${'SciPy (s)'.padStart(11)}${`fascicle ${T}T (s)`.padStart(18)}${'ratio'.padStart(8)}${'1 thread (s)'.padStart(14)}${'ratio'.padStart(8)}`);
+  const rf = (x) => (Number.isFinite(x) ? x.toFixed(2) : '-');
+  console.log(`${'stage'.padEnd(16)}${'SciPy (s)'.padStart(11)}${`fascicle ${T} threads (s)`.padStart(24)}${'ratio'.padStart(8)}${'1 thread (s)'.padStart(14)}${'ratio'.padStart(8)}`);
   for (const k of STAGES) {
-    const s = best(rec.scipy, k), a = best(rec.all, k), o = best(rec.one, k);
-    console.log(`${(k === 'total' ? 'total (no load)' : k).padEnd(14)}${fmt(s).padStart(11)}${fmt(a).padStart(18)}${ratio(s, a).padStart(8)}${fmt(o).padStart(14)}${ratio(s, o).padStart(8)}`);
+    console.log(`${(k === 'total' ? 'total (no load)' : k).padEnd(16)}${fmt(med(rec.scipy, k)).padStart(11)}${fmt(med(rec.all, k)).padStart(24)}${rf(pairRatio(rec.all, k)).padStart(8)}${fmt(med(rec.one, k)).padStart(14)}${rf(pairRatio(rec.one, k)).padStart(8)}`);
   }
-  console.log('(best of the rounds per stage; ratio = SciPy time / fascicle time, > 1 is faster; targets: every stage >= 1, total >= 2 on all cores, >= 1.2 on one thread)');
+  console.log('(medians over the rounds; ratio = median over rounds of SciPy time / fascicle time, > 1 is faster;');
+  console.log(' targets: every stage >= 1, total >= 2 on all cores and >= 1.2 on one thread)');
+  if (rec.scipy.length) console.log(`per round, total: ${rec.scipy.map((t, r) => `SciPy ${t.total.toFixed(3)} / fascicle ${rec.all[r].total.toFixed(3)} (${T}T), ${rec.one[r].total.toFixed(3)} (1T)`).join('; ')}`);
   if (sp) {
     // agreement of the results: features and IC50s relative to SciPy's
     let worst = 0;
