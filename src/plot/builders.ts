@@ -98,7 +98,8 @@ export function sweepsFigure(set: SweepSet, options: { sweeps?: number[]; table?
   const conds = idx.map((s) => set.conditions[s] as Row);
   const varies = (k: string) => uniq(conds.map((c) => c[k] ?? null)).length > 1;
   const numeric = Object.keys(CONDITION).filter((k) => varies(k) && conds.every((c) => num(c[k])));
-  const labels = LABEL_KEYS.filter(varies);
+  // a user's own 'label' repeats what the numeric conditions say when they differ; keep it only when they do not
+  const labels = LABEL_KEYS.filter((k) => varies(k) && !(k === 'label' && numeric.length));
   const seqKey = numeric.length === 1 ? numeric[0] : null;
   let pos: (v: number) => number = () => 0;
   if (seqKey) {

@@ -216,3 +216,32 @@ describe('class views: each class on its own time span', () => {
     expect(() => sweepsFigure(set, { sweeps: [5] })).toThrow(/invalid sweeps: 5; the set has sweeps 0..0/);
   });
 });
+
+describe('class colours stay apart under simulated colour-vision deficiency', () => {
+  // Machado, Oliveira & Fernandes 2009 (IEEE TVCG 15:1291) simulation matrices at severity 1.0, applied to
+  // linear sRGB (matrix values from memory of the paper's table); distances as CIE 1976 Delta E in CIELAB (D65).
+  const M: Record<string, number[][]> = {
+    protanopia: [[0.152286, 1.052583, -0.204868], [0.114503, 0.786281, 0.099216], [-0.003882, -0.048116, 1.051998]],
+    deuteranopia: [[0.367322, 0.860646, -0.227968], [0.280085, 0.672501, 0.047413], [-0.01182, 0.04294, 0.968881]],
+    tritanopia: [[1.255528, -0.076749, -0.178779], [-0.078411, 0.930809, 0.147602], [0.004733, 0.691367, 0.3039]],
+  };
+  // the smallest pairwise Delta E of PALETTE, computed with NumPy 2.4 by the same recipe: python3 tests/plot/cvd_palette.py
+  const numpy: Record<string, number> = { protanopia: 20.66, deuteranopia: 17.88, tritanopia: 16.05 };
+  const lin = (c: number) => (c <= 0.04045 ? c / 12.92 : ((c + 0.055) / 1.055) ** 2.4);
+  const lab = (rgb: number[]) => {
+    const X = [[0.4124, 0.3576, 0.1805], [0.2126, 0.7152, 0.0722], [0.0193, 0.1192, 0.9505]].map((r) => r[0] * rgb[0] + r[1] * rgb[1] + r[2] * rgb[2]);
+    const w = [0.95047, 1, 1.08883];
+    const f = X.map((x, i) => { const t = x / w[i]; return t > (6 / 29) ** 3 ? Math.cbrt(t) : t / (3 * (6 / 29) ** 2) + 4 / 29; });
+    return [116 * f[1] - 16, 500 * (f[0] - f[1]), 200 * (f[1] - f[2])];
+  };
+  const rgb = PALETTE.map((c) => [1, 3, 5].map((i) => lin(parseInt(c.slice(i, i + 2), 16) / 255)));
+  for (const [kind, m] of Object.entries(M)) {
+    it(`${kind}: every pair of class colours at least Delta E 15 apart (2.3 is a just-noticeable difference, Sharma 2003)`, () => {
+      const L = rgb.map((c) => lab(m.map((r) => Math.min(1, Math.max(0, r[0] * c[0] + r[1] * c[1] + r[2] * c[2])))));
+      let min = Infinity;
+      for (let i = 0; i < L.length; i++) for (let j = i + 1; j < L.length; j++) min = Math.min(min, Math.hypot(L[i][0] - L[j][0], L[i][1] - L[j][1], L[i][2] - L[j][2]));
+      expect(min).toBeGreaterThan(15);
+      expect(min).toBeCloseTo(numpy[kind], 1);
+    });
+  }
+});
