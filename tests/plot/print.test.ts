@@ -8,7 +8,7 @@
  * One browser launch for the whole file.
  */
 import { describe, it, expect, beforeAll, afterAll } from 'vitest';
-import { mkdtempSync, readFileSync } from 'node:fs';
+import { mkdtempSync, readFileSync, writeFileSync, mkdirSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import type { Page } from 'playwright-core';
@@ -129,6 +129,21 @@ async function measure(page: Page, svg: string): Promise<Check> {
   }, svg);
 }
 
+/** An SVG as PNG bytes (for looking at the figures: FASCICLE_PRINT_DIR). */
+async function rasterize(page: Page, svg: string, w: number, h: number): Promise<Buffer> {
+  const b64: string = await page.evaluate(async ({ svg, w, h }) => {
+    const img = new Image();
+    img.src = 'data:image/svg+xml;charset=utf-8,' + encodeURIComponent(svg);
+    await img.decode();
+    const c = document.createElement('canvas');
+    c.width = w; c.height = h;
+    const ctx = c.getContext('2d')!;
+    ctx.fillStyle = '#fff'; ctx.fillRect(0, 0, w, h); ctx.drawImage(img, 0, 0, w, h);
+    return c.toDataURL('image/png').split(',')[1];
+  }, { svg, w, h });
+  return Buffer.from(b64, 'base64');
+}
+
 const TOL = 0.5; // px of slack for anti-aliased edges
 const overlap = (a: { l: number; r: number; t: number; b: number }, b: { l: number; r: number; t: number; b: number }) =>
   Math.min(a.r, b.r) - Math.max(a.l, b.l) > TOL && Math.min(a.b, b.b) - Math.max(a.t, b.t) > TOL;
@@ -168,6 +183,7 @@ describe.skipIf(!browser)('print export at journal widths (headless Chromium)', 
   let page: Page;
   let figs: Figure[];
   beforeAll(async () => {
+    if (process.env.FASCICLE_PRINT_DIR) mkdirSync(process.env.FASCICLE_PRINT_DIR, { recursive: true });
     figs = figures();
     ex = await openExporter();
     page = await ex.browser.newPage();
@@ -218,6 +234,7 @@ describe.skipIf(!browser)('print export at journal widths (headless Chromium)', 
         return decodeURIComponent((await P.toImage(gd, { format: 'svg', width: 640, height: 420 })).replace(/^data:image\/svg\+xml,/, ''));
       }, html);
       const c = await measure(page, svg);
+      if (process.env.FASCICLE_PRINT_DIR) writeFileSync(join(process.env.FASCICLE_PRINT_DIR, `screen-${figs.indexOf(f)}-${f.name}.png`), await rasterize(page, svg, 640, 420));
       for (const p of problems(c, { minPt: 8, maxPt: 10.5 })) bad.push(`${f.name}: ${p}`);
     }
     expect(bad).toEqual([]);
