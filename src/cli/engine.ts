@@ -65,11 +65,13 @@ function runInWorkers(tasks: { prep: string; files: number[] | null }[], manifes
     for (let k = 0; k < Math.min(jobs, tasks.length); k++) {
       const w = new Worker(join(__dirname, 'worker.js'), heap ? { resourceLimits: { maxOldGenerationSizeMb: heap } } : {});
       workers.push(w);
-      w.on('message', (msg: { ok: boolean; output?: PrepOutput; error?: { name: string; message: string; place?: object; problem?: string; expected?: string } }) => {
+      type Failure = { name: string; message: string; place?: object; problem?: string; expected?: string };
+      w.on('message', (msg: { ok: boolean; output?: PrepOutput; error?: Failure }) => {
         if (failed) return;
         if (!msg.ok) {
           const er = msg.error!;
-          const e = er.name === 'InputError' || er.name === 'ConfigError' ? Object.assign(new Error(er.message), { place: er.place, problem: er.problem, expected: er.expected }) : new Error(er.message);
+          const e = new Error(er.message);
+          if (er.name === 'InputError' || er.name === 'ConfigError') Object.assign(e, { place: er.place, problem: er.problem, expected: er.expected });
           e.name = er.name;
           fail(e);
           return;
@@ -88,7 +90,8 @@ function runInWorkers(tasks: { prep: string; files: number[] | null }[], manifes
       w.on('exit', (code) => {
         const prep = current.get(w);
         if (failed || prep === undefined) return;
-        fail(new ThreadError(`the --jobs worker thread processing preparation ${prep} ${why || `exited (code ${code})`} before it finished; no bundle was written (try fewer --jobs, or --jobs 1)`));
+        fail(new ThreadError(`the --jobs worker thread processing preparation ${prep} ${why || `exited (code ${code})`} before it finished; `
+          + 'no bundle was written (try fewer --jobs, or --jobs 1)'));
       });
       startOne(w);
     }
@@ -146,7 +149,8 @@ export function manifestInputs(manifestPath: string): string[] {
 /** Write the bundle of a combined study. */
 export async function writeStudyBundle(out: string, study: Study, rerun: Provenance['rerun'], preparations: number, figures = true): Promise<string[]> {
   const files0 = rerun?.manifest && existsSync(rerun.manifest) ? readManifestJson(rerun.manifest).manifest.files.length : undefined;
-  const inputs = [...(rerun?.manifest && existsSync(rerun.manifest) ? manifestInputs(rerun.manifest) : []), ...study.sources.map((s) => s.path)];
+  const named = rerun?.manifest && existsSync(rerun.manifest) ? manifestInputs(rerun.manifest) : [];
+  const inputs = [...named, ...study.sources.map((s) => s.path)];
   checkOutput(out, inputs);
   const files: Record<string, string> = {};
   if (figures) Object.assign(files, studyFigures(study));
@@ -191,9 +195,13 @@ export async function mergeShards(dirs: string[], out: string): Promise<Study> {
     try {
       s = JSON.parse(readFileSync(p, 'utf8'));
     } catch (e) {
-      throw new InputError({ file: p }, `invalid JSON (${(e as Error).message})`, 'a shard output written by "fascicle run --shard i/n"');
+      throw new InputError({ file: p },
+        `invalid JSON (${(e as Error).message})`,
+        'a shard output written by "fascicle run --shard i/n"');
     }
-    if (!s || typeof s.manifest !== 'string' || !Array.isArray(s.outputs)) throw new InputError({ file: p }, 'not a shard output', 'a shard output written by "fascicle run --shard i/n"');
+    if (!s || typeof s.manifest !== 'string' || !Array.isArray(s.outputs)) throw new InputError({ file: p },
+      'not a shard output',
+      'a shard output written by "fascicle run --shard i/n"');
     manifest = resolve(d, s.manifest); options = s.options;
     all.push(...s.outputs);
   }

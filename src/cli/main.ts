@@ -75,8 +75,12 @@ Prints the version.`,
 };
 
 const COMMANDS = ['run', 'merge', 'rerun', 'help', 'version'];
-const VALUE_OPTIONS: Record<string, string[]> = { run: ['out', 'jobs', 'shard'], merge: ['out'], rerun: ['manifest'], help: [], version: [] };
-const FLAG_OPTIONS: Record<string, string[]> = { run: ['no-figures', 'quiet', 'help'], merge: ['help'], rerun: ['help'], help: ['help'], version: ['help'] };
+const VALUE_OPTIONS: Record<string, string[]> = {
+  run: ['out', 'jobs', 'shard'], merge: ['out'], rerun: ['manifest'], help: [], version: [],
+};
+const FLAG_OPTIONS: Record<string, string[]> = {
+  run: ['no-figures', 'quiet', 'help'], merge: ['help'], rerun: ['help'], help: ['help'], version: ['help'],
+};
 
 class UsageError extends Error {}
 
@@ -184,17 +188,29 @@ function readProvenance(dir: string): Provenance {
   if (!existsSync(dir)) throw new InputError({ file: dir }, 'no such folder', BUNDLE_EXPECTED);
   if (!statSync(dir).isDirectory()) throw new InputError({ file: dir }, 'this is a file, not a folder', BUNDLE_EXPECTED);
   const p = join(dir, 'provenance.json');
-  if (!existsSync(p)) throw new InputError({ file: p }, 'the bundle has no provenance.json', `${BUNDLE_EXPECTED} (with its provenance.json)`);
+  if (!existsSync(p)) throw new InputError({ file: p },
+    'the bundle has no provenance.json',
+    `${BUNDLE_EXPECTED} (with its provenance.json)`);
   let prov: Provenance;
   try {
     prov = JSON.parse(readFileSync(p, 'utf8'));
   } catch (e) {
-    throw new InputError({ file: p }, `invalid JSON (${(e as Error).message})`, 'the provenance.json fascicle wrote, unedited');
+    throw new InputError({ file: p },
+      `invalid JSON (${(e as Error).message})`,
+      'the provenance.json fascicle wrote, unedited');
   }
-  if (!prov || typeof prov !== 'object' || prov.package !== 'fascicle') throw new InputError({ file: p, field: 'package' }, 'not a fascicle provenance record', 'the provenance.json fascicle wrote, unedited');
-  if (!Array.isArray(prov.inputs)) throw new InputError({ file: p, field: 'inputs' }, 'no list of inputs', 'the provenance.json fascicle wrote, unedited');
-  if (!prov.rerun || typeof prov.rerun.manifest !== 'string') throw new InputError({ file: p, field: 'rerun' }, 'records no rerunnable analysis (written by the library, not by "fascicle run")', 'a bundle written by "fascicle run"');
-  if (prov.rerun.shard) throw new InputError({ file: p, field: 'rerun.shard' }, `this is the partial output of shard ${prov.rerun.shard}`, 'a whole bundle (merge the shards first with "fascicle merge")');
+  if (!prov || typeof prov !== 'object' || prov.package !== 'fascicle') throw new InputError({ file: p, field: 'package' },
+    'not a fascicle provenance record',
+    'the provenance.json fascicle wrote, unedited');
+  if (!Array.isArray(prov.inputs)) throw new InputError({ file: p, field: 'inputs' },
+    'no list of inputs',
+    'the provenance.json fascicle wrote, unedited');
+  if (!prov.rerun || typeof prov.rerun.manifest !== 'string') throw new InputError({ file: p, field: 'rerun' },
+    'records no rerunnable analysis (written by the library, not by "fascicle run")',
+    'a bundle written by "fascicle run"');
+  if (prov.rerun.shard) throw new InputError({ file: p, field: 'rerun.shard' },
+    `this is the partial output of shard ${prov.rerun.shard}`,
+    'a whole bundle (merge the shards first with "fascicle merge")');
   return prov;
 }
 
@@ -208,7 +224,9 @@ async function rerun(dir: string, manifestOverride?: string): Promise<number> {
   const prov = readProvenance(dir);
   const manifest = manifestOverride ?? resolve(dir, prov.rerun!.manifest);
   if (!existsSync(manifest)) {
-    throw new InputError({ file: manifest }, 'the manifest recorded in the provenance is missing', 'the study\'s manifest: copy the study with its bundle (paths are relative), or give it with --manifest <path>');
+    throw new InputError({ file: manifest },
+      'the manifest recorded in the provenance is missing',
+      'the study\'s manifest: copy the study with its bundle (paths are relative), or give it with --manifest <path>');
   }
   verifyInputs(prov, dirname(resolve(manifest)));
   const tmp = mkdtempSync(join(tmpdir(), 'fascicle-rerun-'));
@@ -217,8 +235,14 @@ async function rerun(dir: string, manifestOverride?: string): Promise<number> {
     await runStudy({ manifest, out, jobs: 1, figures: false });
     const had = tableFiles(dir), got = tableFiles(out);
     const missing = got.filter((f) => !had.includes(f)), extra = had.filter((f) => !got.includes(f));
-    if (missing.length) { console.error(`fascicle: rerun differs: the bundle lacks tables/${missing.join(', tables/')}, which the rerun produced`); return 5; }
-    if (extra.length) { console.error(`fascicle: rerun differs: the bundle has tables/${extra.join(', tables/')}, which the rerun did not produce`); return 5; }
+    if (missing.length) {
+      console.error(`fascicle: rerun differs: the bundle lacks tables/${missing.join(', tables/')}, which the rerun produced`);
+      return 5;
+    }
+    if (extra.length) {
+      console.error(`fascicle: rerun differs: the bundle has tables/${extra.join(', tables/')}, which the rerun did not produce`);
+      return 5;
+    }
     for (const f of had) {
       const a = readFileSync(join(dir, 'tables', f)), b = readFileSync(join(out, 'tables', f));
       if (!a.equals(b)) { console.error(`fascicle: rerun differs in tables/${f}${firstDifference(a, b)}`); return 5; }
@@ -256,7 +280,10 @@ export async function cli(argv: string[]): Promise<number> {
     const err = e as Error;
     const name = err?.name;
     if (e instanceof UsageError) { console.error(`fascicle: ${err.message}\n(try: fascicle help)`); return 2; }
-    if (e instanceof OutputError || name === 'OutputError') { console.error(`fascicle: ${err.message}`); return (e as OutputError).refused === false ? 6 : 2; }
+    if (e instanceof OutputError || name === 'OutputError') {
+      console.error(`fascicle: ${err.message}`);
+      return (e as OutputError).refused === false ? 6 : 2;
+    }
     if (e instanceof ConfigError || name === 'ConfigError') { console.error(`fascicle: configuration error: ${err.message}`); return 2; }
     if (e instanceof InputError || name === 'InputError') { console.error(`fascicle: bad input: ${err.message}`); return 3; }
     if (e instanceof OptionError || name === 'OptionError') { console.error(`fascicle: configuration error: ${err.message}`); return 2; }

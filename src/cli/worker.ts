@@ -8,6 +8,7 @@ parentPort!.on('message', (m: { manifest: string; files: number[] | null; prep: 
     parentPort!.postMessage({ ok: true, output });
   } catch (e) {
     const x = e as Error & { place?: object; problem?: string; expected?: string };
-    parentPort!.postMessage({ ok: false, error: { name: x.name, message: x.message, place: x.place, problem: x.problem, expected: x.expected } });
+    const error = { name: x.name, message: x.message, place: x.place, problem: x.problem, expected: x.expected };
+    parentPort!.postMessage({ ok: false, error });
   }
 });

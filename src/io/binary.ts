@@ -42,7 +42,10 @@ export interface BinarySidecar {
 
 const BYTES = { int16: 2, float32: 4, float64: 8 } as const;
 /** The keys a sidecar may hold (BinarySidecar): any other is refused with the nearest valid name. */
-export const SIDECAR_KEYS = ['data', 'dtype', 'byteOrder', 'layout', 'nSweeps', 'nSamples', 'nChannels', 'channel', 'gain', 'offset', 'fs', 't0Ms', 'units', 'conditions', 'sweeps'] as const;
+export const SIDECAR_KEYS = [
+  'data', 'dtype', 'byteOrder', 'layout', 'nSweeps', 'nSamples', 'nChannels', 'channel', 'gain', 'offset', 'fs', 't0Ms', 'units',
+  'conditions', 'sweeps',
+] as const;
 
 /** Load a binary recording from its JSON sidecar. @throws InputError naming the sidecar field or data file. */
 export function readBinary(sidecarPath: string, extra: { conditions?: Conditions } = {}): SweepSet {
@@ -87,7 +90,9 @@ export function readBinary(sidecarPath: string, extra: { conditions?: Conditions
   // the largest value the samples can take must be finite, with room to sum a sweep
   const fullScale = meta.dtype === 'int16' ? 32768 : meta.dtype === 'float32' ? 3.4028234663852886e38 : 0;
   if (fullScale && !(Number.isFinite((fullScale * Math.abs(gain) + Math.abs(offset)) * nSamples))) {
-    bad('gain', `gain ${show(gain)} (offset ${show(offset)}) makes ${meta.dtype} full scale ${fullScale * Math.abs(gain) + Math.abs(offset)}, beyond the range of finite numbers over a sweep`, `a gain in the units per raw step (${meta.dtype} full scale times gain must stay far below 1e308)`);
+    bad('gain',
+      `gain ${show(gain)} (offset ${show(offset)}) makes ${meta.dtype} full scale ${fullScale * Math.abs(gain) + Math.abs(offset)}, beyond the range of finite numbers over a sweep`,
+      `a gain in the units per raw step (${meta.dtype} full scale times gain must stay far below 1e308)`);
   }
   if (typeof meta.fs !== 'number' || !(meta.fs > 0) || !Number.isFinite(meta.fs)) bad('fs', `fs is ${show(meta.fs)}`, 'a sample rate in Hz > 0');
   const t0Ms = meta.t0Ms ?? 0;

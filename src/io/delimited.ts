@@ -93,7 +93,9 @@ export function parseDelimited(bytes: Uint8Array, file: string, options: Delimit
   const header = next();
   if (!header) throw new InputError({ file }, 'the file has no header line', 'a header such as "time (ms),sweep 1 (mV)"');
   if (header.end - header.start > MAX_HEADER_BYTES) {
-    throw new InputError({ file, line: header.line }, `the header line is ${header.end - header.start} bytes long`, `a header line under ${MAX_HEADER_BYTES} bytes (is this a delimited text file?)`);
+    throw new InputError({ file, line: header.line },
+      `the header line is ${header.end - header.start} bytes long`,
+      `a header line under ${MAX_HEADER_BYTES} bytes (is this a delimited text file?)`);
   }
   const headerText = Buffer.from(bytes.buffer, bytes.byteOffset + header.start, header.end - header.start).toString('utf8');
   let delim: string = opts.delimiter;
@@ -112,9 +114,13 @@ export function parseDelimited(bytes: Uint8Array, file: string, options: Delimit
     for (const [role, cands] of [['sweep', SWEEP_NAMES], ['time', TIME_NAMES], ['value', VALUE_NAMES]] as const) {
       if (idxOf(cands as unknown as string[]) >= 0) continue;
       const near = lower.map((h) => nearest(h, cands)).find((x) => x !== null);
-      throw new InputError({ file, line: header.line }, `the long layout needs a ${role} column, and the header (${names.map((x) => JSON.stringify(x)).join(', ')}) has none${near ? ` (did you mean "${near}"?)` : ''}`, `a column named one of ${cands.join(', ')}`);
+      throw new InputError({ file, line: header.line },
+        `the long layout needs a ${role} column, and the header (${names.map((x) => JSON.stringify(x)).join(', ')}) has none${near ? ` (did you mean "${near}"?)` : ''}`,
+        `a column named one of ${cands.join(', ')}`);
     }
-    if (names.length !== 3) throw new InputError({ file, line: header.line }, `the long layout has ${names.length} columns`, '3 columns: sweep, time and value');
+    if (names.length !== 3) throw new InputError({ file, line: header.line },
+      `the long layout has ${names.length} columns`,
+      '3 columns: sweep, time and value');
   }
 
   // decimal separator

@@ -17,7 +17,8 @@ export function openInput(path: string): { fd: number; stat: Stats } {
   const stat = fstatSync(fd);
   if (!stat.isFile()) {
     closeSync(fd);
-    const kind = stat.isDirectory() ? 'a folder' : stat.isFIFO() ? 'a named pipe (FIFO)' : stat.isSocket() ? 'a socket' : stat.isCharacterDevice() || stat.isBlockDevice() ? 'a device' : 'not a regular file';
+    const kind = stat.isDirectory() ? 'a folder' : stat.isFIFO() ? 'a named pipe (FIFO)' : stat.isSocket() ? 'a socket'
+      : stat.isCharacterDevice() || stat.isBlockDevice() ? 'a device' : 'not a regular file';
     throw new InputError({ file: path }, `this is ${kind}`, 'a regular file');
   }
   return { fd, stat };
@@ -79,7 +80,9 @@ export function readInput(path: string, options: { shared?: (size: number) => bo
     try {
       bytes = options.shared?.(size) ? sharedBytes(size) : new Uint8Array(new ArrayBuffer(size));
     } catch (e) {
-      if (e instanceof RangeError) throw new InputError({ file: path }, `the file has ${size} bytes, more than can be held in memory (${e.message})`, 'a smaller file (split the recording)');
+      if (e instanceof RangeError) throw new InputError({ file: path },
+        `the file has ${size} bytes, more than can be held in memory (${e.message})`,
+        'a smaller file (split the recording)');
       throw e;
     }
     let off = 0;
@@ -115,11 +118,15 @@ export function allocSamples(n: number, file: string, what: string): Float64Arra
   const need = n * 8;
   const limit = 0.75 * totalmem();
   const gb = (x: number) => (x / 2 ** 30).toPrecision(3);
-  if (!(need <= limit)) throw new InputError({ file }, `${what} need ${gb(need)} GB of memory as 64-bit samples, more than three quarters of this machine's ${gb(totalmem())} GB`, 'a recording that fits in memory (load part of it, or split the file)');
+  if (!(need <= limit)) throw new InputError({ file },
+    `${what} need ${gb(need)} GB of memory as 64-bit samples, more than three quarters of this machine's ${gb(totalmem())} GB`,
+    'a recording that fits in memory (load part of it, or split the file)');
   try {
     return sharedSamples(n);
   } catch (e) {
-    if (e instanceof RangeError) throw new InputError({ file }, `${what} need ${gb(need)} GB of memory as 64-bit samples, which could not be allocated (${e.message})`, 'a recording that fits in memory (load part of it, or split the file)');
+    if (e instanceof RangeError) throw new InputError({ file },
+      `${what} need ${gb(need)} GB of memory as 64-bit samples, which could not be allocated (${e.message})`,
+      'a recording that fits in memory (load part of it, or split the file)');
     throw e;
   }
 }

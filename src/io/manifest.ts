@@ -42,23 +42,32 @@ export interface Manifest {
  * FilterOptions, ComponentOptions, DoseResponseOptions, StrengthDurationOptions);
  * SERIES with the series names src/report/study.ts and pipeline.ts look for.
  */
-export const MANIFEST_KEYS = ['fascicleManifest', 'study', 'description', 'species', 'nerve', 'classPreset', 'required', 'defaults', 'analysis', 'files'] as const;
+export const MANIFEST_KEYS = [
+  'fascicleManifest', 'study', 'description', 'species', 'nerve', 'classPreset', 'required', 'defaults', 'analysis', 'files',
+] as const;
 export const FILE_KEYS = ['path', 'format', 'options', 'conditions', 'sweeps'] as const;
 /** Reader options a manifest may give a delimited file (DelimitedOptions without conditions, which the manifest gives itself). */
 export const FILE_OPTION_KEYS = ['delimiter', 'decimal', 'layout', 'timeUnit', 'units', 'stimulusAt'] as const;
-export const ANALYSIS_KEYS: Readonly<Record<string, readonly string[]>> = {
+export const ANALYSIS_KEYS: Readonly<Record<string, readonly string[] | 'boolean'>> = {
   baseline: ['window', 'method', 'lateWindow'],
   artifact: ['method', 'window', 'bridge', 'maxIntensity', 'templateSweeps', 'templateBy', 'scaling', 'fitWindow', 'tailWindow'],
   hum: ['frequency', 'harmonics', 'exclude'],
   filter: ['btype', 'cutoff', 'order', 'padlen'],
-  components: ['preset', 'classes', 'distanceMm', 'temperatureC', 'q10', 'utilisationMs', 'k', 'polarity', 'noiseWindow', 'tailFraction', 'tailMs', 'earliestMs'],
-  doseResponse: ['measure', 'lastN', 'runDown', 'fixBottom', 'bootstrap', 'seed', 'classes'],
-  recruitment: ['measure'],
+  averageRepeats: 'boolean',
+  poolSites: 'boolean',
+  components: [
+    'preset', 'classes', 'distanceMm', 'temperatureC', 'q10', 'utilisationMs', 'k', 'polarity', 'noiseWindow', 'tailFraction', 'tailMs',
+    'earliestMs', 'onsetFraction', 'centroidFraction', 'separation', 'decomposeBy',
+  ],
+  doseResponse: ['measure', 'lastN', 'runDown', 'fixBottom', 'bootstrap', 'seed', 'classes', 'poolSites', 'minConcentrations', 'maxLatencyShift'],
+  recruitment: ['measure', 'by', 'supramaximalFactor', 'minLevels'],
   strengthDuration: ['measure', 'by', 'fraction'],
   temperature: ['measure'],
 };
 /** Steps that may be `false` (turned off). */
 const OPTIONAL_STEPS = ['baseline', 'artifact', 'hum', 'filter'];
+/** Steps that may be a list of option objects, applied in order. */
+const LIST_STEPS = ['artifact'];
 /** Values of the `series` condition that the standard pipeline recognises. */
 export const SERIES = ['intensity', 'distance', 'dose', 'temperature', 'pulse-width'] as const;
 /** Deepest nesting a manifest may have (far beyond any real one; guards the writers' recursion). */
@@ -76,12 +85,16 @@ const HINTS: Record<string, string> = {
 function unknownKey(file: string, field: string, key: string, allowed: readonly string[]): never {
   const near = nearest(key, allowed);
   const hint = HINTS[key] && !near ? ` (write ${HINTS[key]})` : near ? ` (did you mean "${near}"?)` : '';
-  throw new ConfigError({ file, field: `${field}/${key}` }, `unknown key "${key}"${hint}`, `one of ${allowed.join(', ')}`);
+  throw new ConfigError({ file, field: `${field}/${key}` },
+    `unknown key "${key}"${hint}`,
+    `one of ${allowed.join(', ')}`);
 }
 
 function checkObjectKeys(file: string, field: string, obj: unknown, allowed: readonly string[]): void {
   if (obj === undefined) return;
-  if (obj === null || typeof obj !== 'object' || Array.isArray(obj)) throw new ConfigError({ file, field }, `is ${shown(obj)}`, 'an object');
+  if (obj === null || typeof obj !== 'object' || Array.isArray(obj)) throw new ConfigError({ file, field },
+    `is ${shown(obj)}`,
+    'an object');
   for (const k of Object.keys(obj)) if (!allowed.includes(k)) unknownKey(file, field, k, allowed);
 }
 
@@ -106,33 +119,48 @@ function tooDeep(root: unknown, max: number): string | null {
 export function checkManifestKeys(m: unknown, file: string): void {
   if (m === null || typeof m !== 'object' || Array.isArray(m)) return; // the schema says what is wrong
   const deep = tooDeep(m, MANIFEST_MAX_DEPTH);
-  if (deep) throw new ConfigError({ file, field: deep }, `nested more than ${MANIFEST_MAX_DEPTH} levels deep`, 'the flat structure of schema/manifest.schema.json');
+  if (deep) throw new ConfigError({ file, field: deep },
+    `nested more than ${MANIFEST_MAX_DEPTH} levels deep`,
+    'the flat structure of schema/manifest.schema.json');
   checkObjectKeys(file, '', m, MANIFEST_KEYS);
   const man = m as Record<string, unknown>;
   if (man.classPreset !== undefined && (typeof man.classPreset !== 'string' || !Object.hasOwn(PRESETS, man.classPreset))) {
     const near = typeof man.classPreset === 'string' ? nearest(man.classPreset, Object.keys(PRESETS)) : null;
-    throw new ConfigError({ file, field: '/classPreset' }, `unknown class preset ${shown(man.classPreset)}${near ? ` (did you mean "${near}"?)` : ''}`, `one of ${Object.keys(PRESETS).join(', ')}`);
+    throw new ConfigError({ file, field: '/classPreset' },
+      `unknown class preset ${shown(man.classPreset)}${near ? ` (did you mean "${near}"?)` : ''}`,
+      `one of ${Object.keys(PRESETS).join(', ')}`);
   }
   const a = man.analysis as Record<string, unknown> | undefined;
   checkObjectKeys(file, '/analysis', a, Object.keys(ANALYSIS_KEYS));
   for (const [step, v] of Object.entries(a ?? {})) {
+    const keys = ANALYSIS_KEYS[step];
     if (v === false && OPTIONAL_STEPS.includes(step)) continue;
-    checkObjectKeys(file, `/analysis/${step}`, v, ANALYSIS_KEYS[step]);
+    if (keys === 'boolean') {
+      if (typeof v !== 'boolean') throw new ConfigError({ file, field: `/analysis/${step}` }, `is ${shown(v)}`, 'true or false');
+    } else if (Array.isArray(v) && LIST_STEPS.includes(step)) {
+      v.forEach((x, i) => checkObjectKeys(file, `/analysis/${step}/${i}`, x, keys));
+    } else checkObjectKeys(file, `/analysis/${step}`, v, keys);
   }
   const comp = a?.components as Record<string, unknown> | undefined;
   if (comp && typeof comp.preset === 'string' && !Object.hasOwn(PRESETS, comp.preset)) {
     const near = nearest(comp.preset, Object.keys(PRESETS));
-    throw new ConfigError({ file, field: '/analysis/components/preset' }, `unknown class preset ${shown(comp.preset)}${near ? ` (did you mean "${near}"?)` : ''}`, `one of ${Object.keys(PRESETS).join(', ')}`);
+    throw new ConfigError({ file, field: '/analysis/components/preset' },
+      `unknown class preset ${shown(comp.preset)}${near ? ` (did you mean "${near}"?)` : ''}`,
+      `one of ${Object.keys(PRESETS).join(', ')}`);
   }
   if (comp && typeof comp.preset === 'string' && typeof man.classPreset === 'string' && comp.preset !== man.classPreset) {
-    throw new ConfigError({ file, field: '/analysis/components/preset' }, `preset "${comp.preset}" differs from the top-level classPreset "${man.classPreset}"`, 'one of the two, or both the same');
+    throw new ConfigError({ file, field: '/analysis/components/preset' },
+      `preset "${comp.preset}" differs from the top-level classPreset "${man.classPreset}"`,
+      'one of the two, or both the same');
   }
   const series = (c: unknown, field: string) => {
     if (c === null || typeof c !== 'object' || !Object.hasOwn(c, 'series')) return;
     const v = (c as Record<string, unknown>).series;
     if (v === null || (typeof v === 'string' && (SERIES as readonly string[]).includes(v))) return;
     const near = typeof v === 'string' ? nearest(v, SERIES) : null;
-    throw new ConfigError({ file, field: `${field}/series` }, `unknown series ${shown(v)}${near ? ` (did you mean "${near}"?)` : ''}`, `one of ${SERIES.join(', ')}`);
+    throw new ConfigError({ file, field: `${field}/series` },
+      `unknown series ${shown(v)}${near ? ` (did you mean "${near}"?)` : ''}`,
+      `one of ${SERIES.join(', ')}`);
   };
   series(man.defaults, '/defaults');
   if (!Array.isArray(man.files)) return;
@@ -142,7 +170,9 @@ export function checkManifestKeys(m: unknown, file: string): void {
     const ff = f as Record<string, unknown>;
     if (ff.options !== undefined) {
       const binary = ff.format === 'binary' || (ff.format === undefined && typeof ff.path === 'string' && /\.json$/i.test(ff.path));
-      if (binary) throw new ConfigError({ file, field: `${at}/options` }, 'reader options for a binary file (its sidecar describes it)', 'no "options" for a binary file; put dtype, gain and the like in the sidecar');
+      if (binary) throw new ConfigError({ file, field: `${at}/options` },
+        'reader options for a binary file (its sidecar describes it)',
+        'no "options" for a binary file; put dtype, gain and the like in the sidecar');
       // other formats (added later) check their own options
       if (ff.format === 'delimited' || ff.format === undefined) checkObjectKeys(file, `${at}/options`, ff.options, FILE_OPTION_KEYS);
     }
@@ -219,7 +249,9 @@ export function readManifest(path: string, opts: { only?: (f: ManifestFile, i: n
       set = formatOf(f) === 'binary' ? readBinary(full, { conditions: base }) : readDelimited(full, { ...(f.options ?? {}), conditions: base });
     } catch (e) {
       // a bad reader option written in the manifest is a fault of the manifest
-      if (e instanceof OptionError) throw new ConfigError({ file: path, field: `/files/${fi}/options` }, e.message, 'reader options as in the README (delimiter, decimal, layout, timeUnit, units, stimulusAt)');
+      if (e instanceof OptionError) throw new ConfigError({ file: path, field: `/files/${fi}/options` },
+        e.message,
+        'reader options as in the README (delimiter, decimal, layout, timeUnit, units, stimulusAt)');
       throw e;
     }
     if (f.sweeps) {

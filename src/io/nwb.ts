@@ -215,8 +215,7 @@ function readOpen(path: string, f: H5File, o: NwbReadOptions, win: [number, numb
   const outUnits = o.units;
   // one entry per (series, channel) read
   const manyChannels = o.channel === 'all' || Array.isArray(o.channel);
-  const series = paths.flatMap((p) => channelsOf(path, f, p, o.channel).map((ch) => seriesInfo(path, f, p, ch,
-    outUnits, byFascicle)));
+  const series = paths.flatMap((p) => channelsOf(path, f, p, o.channel).map((ch) => seriesInfo(path, f, p, ch, byFascicle)));
   const byPath = [...new Map(series.map((s) => [s.path, s])).values()];
   const units: SignalUnit = outUnits ?? series[0].unitGuess;
   for (const s of series) setGain(s, units);
@@ -502,8 +501,7 @@ function channelsOf(file: string, f: H5File, p: string, channel: NwbReadOptions[
   return [channel as number | undefined];
 }
 
-function seriesInfo(file: string, f: H5File, p: string, channel: number | undefined, units: SignalUnit | undefined,
-  byFascicle: boolean): SeriesWithGuess {
+function seriesInfo(file: string, f: H5File, p: string, channel: number | undefined, byFascicle: boolean): SeriesWithGuess {
   const bad = (field: string, problem: string, expected: string): never => {
     throw new InputError({ file, field }, problem, expected);
   };
@@ -572,7 +570,6 @@ function seriesInfo(file: string, f: H5File, p: string, channel: number | undefi
     for (const u of ['V', 'mV',
       'uV'] as SignalUnit[]) if (Math.fround(inVolts) === Math.fround(UNIT_SCALE[u])) unitGuess = u;
   }
-  void units;
   return {
     path: p, group: g, data, nTimes, nChannels, channel: ch, gain: 1, shift: 0, identity: false, unit: unit!,
     conversion, offset, resolution, channelConversion, rate, startingTime, timestamps, tFirst: tFirst!, tLast: tLast!,

@@ -30,7 +30,8 @@ function supervise(): void {
     };
     let w: Worker;
     try {
-      w = new Worker(file, { workerData: { role: 'pool', control: buf, port, fault }, transferList: [port], ...(limit ? { resourceLimits: { maxOldGenerationSizeMb: limit } } : {}) });
+      const limits = limit ? { resourceLimits: { maxOldGenerationSizeMb: limit } } : {};
+      w = new Worker(file, { workerData: { role: 'pool', control: buf, port, fault }, transferList: [port], ...limits });
     } catch {
       stopped(3, -1);
       return;

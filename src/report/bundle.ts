@@ -3,7 +3,9 @@
  * methods text, provenance, and figures; written atomically (a temporary folder,
  * then a rename), so an interrupted export leaves the old bundle or none.
  */
-import { mkdirSync, writeFileSync, renameSync, rmSync, rmdirSync, existsSync, readFileSync, readdirSync, lstatSync, realpathSync, unlinkSync } from 'node:fs';
+import {
+  mkdirSync, writeFileSync, renameSync, rmSync, rmdirSync, existsSync, readFileSync, readdirSync, lstatSync, realpathSync, unlinkSync,
+} from 'node:fs';
 import { dirname, basename, join, resolve, relative, isAbsolute, sep } from 'node:path';
 import { createHash, randomBytes } from 'node:crypto';
 import type { Step, Source } from '../sweeps/SweepSet';
@@ -51,12 +53,24 @@ export function makeProvenance(steps: readonly Step[], inputs: readonly Source[]
  * missing file. Relative input paths are taken relative to `base` (the manifest's folder).
  */
 export function verifyInputs(p: Provenance, base = '.'): void {
-  if (!Array.isArray(p.inputs)) throw new InputError({ file: 'provenance.json', field: 'inputs' }, 'no list of inputs', 'the inputs array fascicle writes');
+  if (!Array.isArray(p.inputs)) {
+    throw new InputError({ file: 'provenance.json', field: 'inputs' },
+      'no list of inputs',
+      'the inputs array fascicle writes');
+  }
   for (const s of p.inputs) {
     const path = resolve(base, s.path);
-    if (!existsSync(path)) throw new InputError({ file: path }, 'the input file recorded in the provenance is missing', `the file with SHA-256 ${s.sha256}`);
+    if (!existsSync(path)) {
+      throw new InputError({ file: path },
+        'the input file recorded in the provenance is missing',
+        `the file with SHA-256 ${s.sha256}`);
+    }
     const h = createHash('sha256').update(readFileSync(path)).digest('hex');
-    if (h !== s.sha256) throw new InputError({ file: path }, `the input file has changed since the analysis (SHA-256 ${h.slice(0, 12)}... instead of ${String(s.sha256).slice(0, 12)}...)`, 'the same bytes as when the analysis ran');
+    if (h !== s.sha256) {
+      const was = String(s.sha256).slice(0, 12);
+      throw new InputError({ file: path }, `the input file has changed since the analysis (SHA-256 ${h.slice(0, 12)}... instead of ${was}...)`,
+        'the same bytes as when the analysis ran');
+    }
   }
 }
 
@@ -72,13 +86,15 @@ export function relativeProvenance(p: Provenance, manifestPath: string, bundleDi
     if (s.partOf !== undefined) out.partOf = rel(s.partOf);
     return out;
   });
-  const rerun = p.rerun ? { ...p.rerun, manifest: relative(resolve(bundleDir), resolve(manifestPath)).split(sep).join('/') } : undefined;
+  const toManifest = relative(resolve(bundleDir), resolve(manifestPath)).split(sep).join('/');
+  const rerun = p.rerun ? { ...p.rerun, manifest: toManifest } : undefined;
   // the readers' steps record the path they read: relative to the manifest's folder too
   const steps = p.steps.map((st) => {
     const o = st.options as Record<string, unknown> | undefined;
     return o && typeof o.path === 'string' && isAbsolute(o.path) ? { ...st, options: { ...o, path: rel(o.path) } } : st;
   });
-  return { ...p, inputs, steps, ...(rerun ? { rerun } : {}), paths: 'inputs relative to the manifest folder; rerun.manifest relative to this bundle' } as Provenance;
+  const paths = 'inputs relative to the manifest folder; rerun.manifest relative to this bundle';
+  return { ...p, inputs, steps, ...(rerun ? { rerun } : {}), paths } as Provenance;
 }
 
 export interface BundleContent {
@@ -113,7 +129,8 @@ function isLegacyBundle(dir: string): boolean {
       if (e.name === 'tables' || e.name === 'figures') {
         if (!e.isDirectory()) return false;
         const ext = e.name === 'tables' ? /\.(csv|json)$/ : /\.(html|svg|png|pdf|json)$/;
-        if (!readdirSync(join(dir, e.name), { withFileTypes: true }).every((f) => f.isFile() && ext.test(f.name))) return false;
+        const inner = readdirSync(join(dir, e.name), { withFileTypes: true });
+        if (!inner.every((f) => f.isFile() && ext.test(f.name))) return false;
       } else if (!e.isFile()) return false;
     }
     return JSON.parse(readFileSync(join(dir, 'provenance.json'), 'utf8')).package === 'fascicle';
@@ -140,7 +157,8 @@ function realish(p: string): string {
   }
 }
 
-const isInside = (child: string, parent: string) => child === parent || child.startsWith(parent.endsWith(sep) ? parent : parent + sep);
+const isInside = (child: string, parent: string) =>
+  child === parent || child.startsWith(parent.endsWith(sep) ? parent : parent + sep);
 
 /**
  * Check that a bundle may be written at `dir`: it does not exist, is an empty folder, or is
@@ -153,7 +171,9 @@ export function checkOutput(dir: string, inputs: readonly string[] = []): void {
   for (const [input, ri] of [...real.filter(([, r]) => r === target), ...real]) {
     if (isInside(ri, target)) {
       const what = ri === target ? 'is' : 'contains';
-      throw new OutputError(dir, `refusing to write the bundle to ${dir}: it ${what} an input of this analysis (${input}), which fascicle never replaces; give --out a new folder outside the study, e.g. ${join(dirname(target), basename(target) + '-bundle')}`, { refused: true });
+      const e = join(dirname(target), basename(target) + '-bundle');
+      throw new OutputError(dir, `refusing to write the bundle to ${dir}: it ${what} an input of this analysis (${input}), `
+        + `which fascicle never replaces; give --out a new folder outside the study, e.g. ${e}`, { refused: true });
     }
   }
   let st;
@@ -162,14 +182,21 @@ export function checkOutput(dir: string, inputs: readonly string[] = []): void {
   } catch {
     return; // nothing there
   }
-  if (st.isSymbolicLink()) throw new OutputError(dir, `refusing to write the bundle to ${dir}: it is a symbolic link; give the folder it points to, or a new folder`, { refused: true });
-  if (!st.isDirectory()) throw new OutputError(dir, `refusing to write the bundle to ${dir}: it is a file, not a folder, and fascicle never replaces files it did not write; give --out a new folder name`, { refused: true });
+  const refuse = (why: string) => new OutputError(dir,
+    `refusing to write the bundle to ${dir}: ${why}`,
+    { refused: true });
+  if (st.isSymbolicLink()) throw refuse('it is a symbolic link; give the folder it points to, or a new folder');
+  if (!st.isDirectory()) {
+    throw refuse('it is a file, not a folder, and fascicle never replaces files it did not write; give --out a new folder name');
+  }
   const entries = readdirSync(target);
   if (entries.length === 0 || entries.includes(BUNDLE_MARKER) || isLegacyBundle(target)) return;
-  throw new OutputError(dir, `refusing to write the bundle to ${dir}: the folder is not empty and is not a bundle written by fascicle (it has no ${BUNDLE_MARKER} file), so replacing it would delete your files; give --out a new or empty folder, or move that folder's files away yourself`, { refused: true });
+  throw refuse(`the folder is not empty and is not a bundle written by fascicle (it has no ${BUNDLE_MARKER} file), `
+    + 'so replacing it would delete your files; give --out a new or empty folder, or move that folder\'s files away yourself');
 }
 
-const leftoverName = (base: string) => new RegExp(`^\\.${base.replace(/[.*+?^${}()|[\]\\]/g, '\\$&')}\\.(tmp|old)-(\\d+)-[0-9a-z-]+$`);
+const escapeRe = (s: string) => s.replace(/[.*+?^${}()|[\]\\]/g, '\\$&');
+const leftoverName = (base: string) => new RegExp(`^\\.${escapeRe(base)}\\.(tmp|old)-(\\d+)-[0-9a-z-]+$`);
 
 function alive(pid: number): boolean {
   if (pid === process.pid) return false; // our own earlier, interrupted writes (this process is not writing them now)
@@ -211,7 +238,8 @@ export function cleanLeftovers(dir: string): string[] {
   }
   // a stray temporary marker in the bundle itself (a run stopped just after the swap)
   try {
-    if (existsSync(join(target, BUNDLE_MARKER)) && existsSync(join(target, TEMP_MARKER))) unlinkSync(join(target, TEMP_MARKER));
+    const stray = join(target, TEMP_MARKER);
+    if (existsSync(join(target, BUNDLE_MARKER)) && existsSync(stray)) unlinkSync(stray);
   } catch {
     // not ours to worry about
   }
@@ -220,7 +248,8 @@ export function cleanLeftovers(dir: string): string[] {
 
 function writeFailed(target: string, where: string, e: unknown): OutputError {
   const code = (e as NodeJS.ErrnoException).code;
-  return new OutputError(target, `cannot write the bundle ${target}: ${systemReason(e)} while writing ${where}; the destination is unchanged (free some space, or choose a writable folder with --out)`, { refused: false, code });
+  return new OutputError(target, `cannot write the bundle ${target}: ${systemReason(e)} while writing ${where}; `
+    + 'the destination is unchanged (free some space, or choose a writable folder with --out)', { refused: false, code });
 }
 
 /**

@@ -9,6 +9,8 @@ import { join } from 'node:path';
 import { readBinary, readDelimited, readManifest, InputError, OptionError } from '../../src';
 import { parseDelimited } from '../../src/io/delimited';
 import { ConfigError } from '../../src/errors';
+import { ANALYSIS_KEYS } from '../../src/io/manifest';
+import { PIPELINE_OPTION_KEYS } from '../../src/report/pipeline';
 
 const dir = mkdtempSync(join(tmpdir(), 'fascicle-hostile-'));
 afterAll(() => rmSync(dir, { recursive: true, force: true }));
@@ -68,6 +70,15 @@ describe('manifest: unknown keys, values and inherited properties', () => {
     expect(e).toBeInstanceOf(InputError);
     expect(e!.message).toMatch(/m\.json, field /);
     expect(e!.message).toMatch(msg);
+  });
+  it('the analysis keys the manifest accepts are those of PipelineOptions (PIPELINE_OPTION_KEYS in src/report/pipeline.ts)', () => {
+    expect(Object.keys(ANALYSIS_KEYS).sort()).toEqual([...PIPELINE_OPTION_KEYS].sort());
+  });
+  it('a list of artifact steps is checked step by step; averageRepeats must be a boolean', () => {
+    const e = thrown(() => readManifest(man({ analysis: { artifact: [{ method: 'blank' }, { method: 'template', fitWindw: [0, 1] }] } })));
+    expect(e!.message).toMatch(/field \/analysis\/artifact\/1\/fitWindw: unknown key "fitWindw" \(did you mean "fitWindow"\?\)/);
+    expect(thrown(() => readManifest(man({ analysis: { averageRepeats: 'no' } })))!.message).toMatch(/field \/analysis\/averageRepeats: is "no"; expected true or false/);
+    expect(thrown(() => readManifest(man({ analysis: { averageRepeats: false, artifact: false } })))).toBeNull();
   });
   it('a mistyped series in a file\'s sweeps and an unknown reader option name the file entry', () => {
     writeFileSync(join(dir, 'm2.json'), JSON.stringify({ fascicleManifest: 1, files: [{ path: 'a.csv', conditions: { preparation: 'P1' }, sweeps: [{}, { series: 'dos' }] }] }));
