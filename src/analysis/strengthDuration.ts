@@ -103,17 +103,19 @@ export function strengthDuration(rows: readonly Row[], units: string, options: S
     // intervals only where the data can support them: the points behind the fit are
     // trusted, the residuals are above rounding level (otherwise the interval width is
     // an artefact of exact or duplicated data) and the intensity falls with pulse width
-    const flagged = g.some((p) => p.recruitment_status !== 'ok');
+    // a point whose recruitment fit gives no interval (not identifiable) cannot support one here
+    const unsupported = g.some((p) => typeof p.criterion_ci95_low !== 'number' || typeof p.criterion_ci95_high !== 'number');
     const logI = I.map(Math.log);
     const scaleLog = Math.max(1, ...logI.map(Math.abs));
     const exact = !(Math.sqrt(wf.residualSS / w.length) > 1e-9 * scaleLog);
     const fallRatio = Math.max(...I) / Math.min(...I);
     const flat = !(fallRatio > 1 + 1e-6) || wf.params[1] <= 1e-9 * 1.000001;
-    const noCI = flagged || exact || flat;
+    const noCI = unsupported || exact || flat;
     const fin = (v: number) => (!noCI && Number.isFinite(v) ? v : null);
     for (const q of wf.status) if (q !== 'ok') st.push(`Weiss: ${q}`);
     for (const q of lf.status) if (q !== 'ok') st.push(`Lapicque: ${q}`);
-    if (flagged) st.push('a recruitment fit behind a point is flagged (see strength_duration_points): no intervals');
+    if (g.some((p) => p.recruitment_status !== 'ok')) st.push('a recruitment fit behind a point is flagged (see strength_duration_points)');
+    if (unsupported) st.push('a criterion intensity has no interval (its recruitment fit is not identifiable), so no interval here');
     if (flat) st.push(`flat: the criterion intensity does not fall with pulse width (largest / smallest = ${Number(fallRatio.toPrecision(6))}), so the chronaxie is not determined`);
     else if (exact) st.push('exact fit: the residuals are at rounding level (noise-free or duplicated points), so no interval can be estimated');
     const chron = flat ? null : wf.params[1];

@@ -50,7 +50,7 @@ describe('strengthDuration(rows)', () => {
     }
     expect(r.methods()).toMatch(/Weiss's law/);
     const fig = strengthDurationFigure(r);
-    expect(fig.spec.data.length).toBe(3 * 3);
+    expect(fig.spec.data.length).toBeGreaterThanOrEqual(3 * 3); // points, Weiss and Lapicque per class (the figure may add more)
   });
   it('flat criterion intensities: an honest status, no chronaxie and no zero-width interval (issue: was "ok")', () => {
     const r = strengthDuration(rowsFrom(() => 0.2, widths), 'uV');
