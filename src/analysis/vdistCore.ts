@@ -221,7 +221,7 @@ const trace = (G: Float64Array, K: number) => { let s = 0; for (let i = 0; i < K
  * set: df = tr[(G_FF + lambda R_FF)^-1 G_FF], the usual approximation for a constrained
  * solution (the active constraints held fixed).
  */
-export function solveU(G: Float64Array, c: Float64Array, bb: number, R: Float64Array, K: number, lambda: number): { u: Float64Array; df: number; rss: number } {
+export function solveU(G: Float64Array, c: Float64Array, bb: number, R: Float64Array, K: number, lambda: number, wantDf = true): { u: Float64Array; df: number; rss: number } {
   const M = new Float64Array(K * K);
   for (let i = 0; i < K * K; i++) M[i] = G[i] + lambda * R[i];
   const r = nnlsGram(M, c, K, { maxIter: 20 * K });
@@ -230,8 +230,8 @@ export function solveU(G: Float64Array, c: Float64Array, bb: number, R: Float64A
   for (let i = 0; i < K; i++) { if (u[i] === 0) continue; let s = 0; for (let j = 0; j < K; j++) s += G[i * K + j] * u[j]; q += u[i] * s - 2 * c[i] * u[i]; }
   const rss = Math.max(0, bb + q);
   const F = r.positive;
-  let df = 0;
-  if (F.length) {
+  let df = wantDf ? 0 : NaN;
+  if (wantDf && F.length) {
     const p = F.length;
     const MF = new Float64Array(p * p), GF = new Float64Array(p * p);
     for (let a = 0; a < p; a++) for (let b = 0; b < p; b++) { MF[a * p + b] = M[F[a] * K + F[b]]; GF[a * p + b] = G[F[a] * K + F[b]]; }

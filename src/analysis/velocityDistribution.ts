@@ -186,8 +186,9 @@ export class VelocityDistributionResult extends Result {
     const [body, refText = ''] = full.split('\n\nReferences\n');
     const [text, more] = methodsSentence(this.history[this.history.length - 1].options);
     const refs = new Set([...refText.split('\n').filter(Boolean), ...more]);
-    const tail = / Analyses were run with fascicle [^ ]+\.\s*$/;
-    return `${body.trimEnd().replace(tail, '')} ${text} Analyses were run with fascicle ${VERSION}.\n\nReferences\n${[...refs].sort().join('\n')}\n`;
+    const tail = /\s*Analyses were run with fascicle [^ ]+\.\s*$/;
+    const lead = body.trimEnd().replace(tail, '');
+    return `${lead ? lead + ' ' : ''}${text} Analyses were run with fascicle ${VERSION}.\n\nReferences\n${[...refs].sort().join('\n')}\n`;
   }
   toHTML(): string {
     const cap = `Conduction-velocity distribution (${escapeHtml(this.fit.method)}; status: ${escapeHtml(this.fit.status)})`;
@@ -223,7 +224,7 @@ export function methodsSentence(o: Record<string, unknown>): [string, string[]] 
     s = `The conduction-velocity distribution was estimated from the averaged supramaximal responses at ${o.distances} by the two-distance method of Cummins, Dorfman & Perkel (1979), in which the single-fibre waveform cancels between responses at two distances (solved in the time domain over every pair of distances, non-negatively (Lawson & Hanson 1974), with the sum of weights fixed and a second-difference penalty of relative weight ${o.twoDistanceLambda}), on ${grid}, for ${rec}.`;
   } else {
     refs.push('Cummins KL, Perkel DH, Dorfman LJ (1979) Nerve fiber conduction-velocity distributions. I. Estimation based on the single-fiber and compound action potentials. Electroencephalogr Clin Neurophysiol 46:634-646.');
-    s = `The conduction-velocity distribution was estimated from the averaged supramaximal responses at ${o.distances} by modelling each response as a sum of single-fibre potentials arriving at x/v (Cummins, Perkel & Dorfman 1979), for ${rec}, with ${sfp}, whose peak amplitude scales as v^${p} and duration as v^-${q}, plus a ${o.drift} drift per distance${(o.artifactTauMs as number[]).length ? ` and artifact exponentials (time constants ${(o.artifactTauMs as number[]).join(', ')} ms)` : ''}; the amplitude per velocity on ${grid} was found by non-negative least squares (Lawson & Hanson 1974) with a second-difference smoothness penalty whose weight was ${lam}, samples weighted by the inverse noise SD of each distance's average, over ${fmtW(o.fitWindow)}.`;
+    s = `The conduction-velocity distribution was estimated from the averaged supramaximal responses at ${o.distances} by modelling each response as a sum of single-fibre potentials arriving at x/v (Cummins, Perkel & Dorfman 1979), for ${rec}, with ${sfp}, whose peak amplitude scales as v^${p} and ${q === 0 ? 'whose duration does not depend on velocity' : `duration as v^-${q}`}, plus a ${o.drift} drift per distance${(o.artifactTauMs as number[]).length ? ` and artifact exponentials (time constants ${(o.artifactTauMs as number[]).join(', ')} ms)` : ''}; the amplitude per velocity on ${grid} was found by non-negative least squares (Lawson & Hanson 1974) with a second-difference smoothness penalty whose weight was ${lam}, samples weighted by the inverse noise SD of each distance's average, over ${fmtW(o.fitWindow)}.`;
   }
   s += ` Fibre numbers were taken as the amplitude per velocity divided by (v/${fmt(o.referenceVelocity as number)} m/s)^${p} (amplitude proportional to v^${p}).`;
   if ((o.bootstrap as number) > 0) s += ` 95% bands are percentiles of ${o.bootstrap} bootstrap resamples of sweeps within each distance (seed ${o.seed}), with the potential and the smoothness weight held fixed.`;
@@ -470,7 +471,7 @@ export function velocityDistribution(set: SweepSet, options: VelocityDistributio
         break;
       }
       const scale = trG(gg.G, K) / trG(R, K);
-      u = solveU(gg.G, gg.c, gg.bb, R, K, lamRel * scale).u;
+      u = solveU(gg.G, gg.c, gg.bb, R, K, lamRel * scale, false).u;
       // line-search extrapolation of the alternation (as used to speed up alternating least squares,
       // Bro 1998): try (u, g) + a ((u, g) - previous) for a = 2, 4, 8 and keep the best objective
       if (prevG && iter >= 3) {
@@ -553,7 +554,7 @@ export function velocityDistribution(set: SweepSet, options: VelocityDistributio
     });
     const bs = dataVector(blocks, bases, ys);
     const c = atb(A, nRows, K, bs);
-    repsU.push(solveU(G, c, 0, R, K, lamAbs).u);
+    repsU.push(solveU(G, c, 0, R, K, lamAbs, false).u);
   }
   // distributions
   const e = edges(v);
