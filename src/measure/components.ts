@@ -364,10 +364,6 @@ export function measureComponents(set: SweepSet, options: ComponentOptions = {})
           rangeAt.set(x, [Math.max(0, r0), r1]);
         }
         const nearLen = rangeAt.get(dists[0])![1] - rangeAt.get(dists[0])![0];
-        const clipAt = new Map(dists.map((x) => {
-          const c = members.filter((s) => info[s].L === x).map((s) => info[s].clip).filter((v): v is number => v !== null);
-          return [x, c.length ? Math.max(...c) + dt : null] as [number, number | null];
-        }));
         const trustAt = new Map(dists.map((x) => [x, Math.max(...members.filter((s) => info[s].L === x).map((s) => info[s].fitStart))]));
         // fibers so fast that they arrive at the farthest site before its recording is trusted (the artifact) are
         // not determined by the data: the slowness grid starts at the first trusted arrival there
