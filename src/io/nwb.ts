@@ -567,8 +567,9 @@ function seriesInfo(file: string, f: H5File, p: string, channel: number | undefi
   const inVolts = conversion * channelConversion * valueScale;
   let unitGuess: SignalUnit = 'mV';
   if (offset === 0) {
-    for (const u of ['V', 'mV',
-      'uV'] as SignalUnit[]) if (Math.fround(inVolts) === Math.fround(UNIT_SCALE[u])) unitGuess = u;
+    for (const u of ['V', 'mV', 'uV'] as SignalUnit[]) {
+      if (Math.fround(inVolts) === Math.fround(UNIT_SCALE[u])) unitGuess = u;
+    }
   }
   return {
     path: p, group: g, data, nTimes, nChannels, channel: ch, gain: 1, shift: 0, identity: false, unit: unit!,
@@ -629,8 +630,9 @@ function findIntervals(file: string, f: H5File, want: string | undefined): strin
   const tables = isGroup(iv) ? iv.keys().filter((k) => { const g = iv.get(k); return isGroup(g)
     && typeOf(g) === 'TimeIntervals'; }) : [];
   if (want !== undefined) {
-    if (typeof want !== 'string'
-      || !want) throw new OptionError(`invalid intervals: ${shown(want)}; must be a table name or HDF5 path`);
+    if (typeof want !== 'string' || !want) {
+      throw new OptionError(`invalid intervals: ${shown(want)}; must be a table name or HDF5 path`);
+    }
     const p = want.startsWith('/') ? want : `/intervals/${want}`;
     const g = at(f, p);
     if (!isGroup(g) || !['TimeIntervals', 'DynamicTable'].includes(typeOf(g) ?? '')) {
@@ -662,8 +664,8 @@ export function readTable(file: string, g: H5Group, p: string): { n: number; ids
   const n = ids.length;
   let colnames = attr(g, 'colnames') as unknown;
   if (typeof colnames === 'string') colnames = [colnames];
-  const listed = Array.isArray(colnames) ? (colnames as string[]) : keys.filter((k) => k !== 'id'
-    && !k.endsWith('_index'));
+  const listed = Array.isArray(colnames) ? (colnames as string[])
+    : keys.filter((k) => k !== 'id' && !k.endsWith('_index'));
   const columns: TableColumn[] = [];
   for (const name of listed) {
     const d = keys.includes(name) ? g.get(name) : null;
@@ -718,8 +720,8 @@ function mapColumns(file: string, columns: TableColumn[], override: Readonly<Rec
       let unit = c.unit;
       if (unit === undefined && spec.kind !== 'text' && spec.kind !== 'number') {
         const m = /_([^_]+)$/.exec(want);
-        const u = m ? findColumn(cond, { ...spec, names: [want.slice(0, -m[0].length).toLowerCase()] },
-          [c])?.unit : undefined;
+        const base = m ? want.slice(0, -m[0].length).toLowerCase() : '';
+        const u = m ? findColumn(cond, { ...spec, names: [base] }, [c])?.unit : undefined;
         unit = u;
       }
       found = { column: c, unit };
