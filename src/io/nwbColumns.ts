@@ -122,11 +122,12 @@ export function findColumn(condition: string, spec: ConditionSpec,
   return null;
 }
 
+type Converted = { values: ConditionValue[]; unitValue?: string; note?: string };
+
 /**
  * Convert one mapped column to condition values (and a unit condition).
  * @throws InputError naming the file and the column's HDF5 path when values or unit do not fit.
  */
-type Converted = { values: ConditionValue[]; unitValue?: string; note?: string };
 export function convertColumn(file: string, condition: string, spec: ConditionSpec, column: TableColumn,
   unit: string | undefined): Converted {
   const bad = (problem: string, expected: string): never => {
