@@ -350,6 +350,16 @@ describe.skipIf(!browser)('print export at journal widths (headless Chromium)', 
     expect(pdfTitle(pdf)).toBe('Arrhenius plot (velocity from centroid latency)');
   }, 60000);
 
+  it('title: false leaves the title to the caption (no title text, the plot grows into its space)', async () => {
+    const f = figs.find((x) => x.name === 'dose-response')!;
+    const withTitle = await measure(page, (await ex.svg(f, { widthMm: 85, heightMm: 60 })).svg);
+    const without = await measure(page, (await ex.svg(f, { widthMm: 85, heightMm: 60, title: false })).svg);
+    expect(withTitle.boxes.some((b) => b.cls === 'g-gtitle')).toBe(true);
+    expect(without.boxes.some((b) => b.cls === 'g-gtitle')).toBe(false);
+    expect(without.plot!.b - without.plot!.t).toBeGreaterThan(withTitle.plot!.b - withTitle.plot!.t);
+    expect(problems(without)).toEqual([]);
+  }, 30000);
+
   it('rejects unknown save options and names the replacement for scale', async () => {
     const f = figs[0];
     await expect(saveFigures([{ figure: f, path: 'x.png', scale: 3 } as never])).rejects.toThrow(/"scale": use dpi/);
