@@ -64,9 +64,9 @@ export interface NwbWriteOptions {
 const WRITE_KEYS = ['raw', 'overwrite', 'results', 'sessionDescription', 'sessionStartTime', 'identifier',
   'subject', 'lab',
   'institution', 'experimenter', 'compression'];
-/** Verbs that leave samples as acquired. */
-const RAW_VERBS = new Set(['readBinary', 'readDelimited', 'readManifest', 'readNwb', 'select', 'where', 'crop',
-  'toUnits', 'concat']);
+/** Steps that leave samples as acquired (reading, choosing sweeps or samples, units, the time axis). */
+const RAW_VERBS = new Set(['readBinary', 'readDelimited', 'readManifest', 'readNwb', 'simulateNerve', 'select', 'where',
+  'crop', 'toUnits', 'concat', 'rejectFlagged', 'alignStimulus']);
 const UNIT_TO_VOLTS = { V: 1, mV: 1e-3, uV: 1e-6 } as const;
 const OWN_UNITS: Record<string, string> = { pulseWidthMs: 'ms', distanceMm: 'mm', temperatureC: 'degC',
   acquiredS: 's' };
