@@ -14,12 +14,14 @@
  *   mapping in nwbColumns.ts, which `columns` overrides.
  * - electrodes (ElectricalSeries): the row of the chosen channel in the electrodes table gives
  *   `electrode` (its id), `site` (location) and `distanceMm` (a distance column); a value in the
- *   trials table wins.
+ *   trials table wins. `channel: 'all'` (or a list) reads one sweep per row and channel.
  * - /general and /general/subject: into the history step and `extras.nwb`; `preparation`
  *   defaults to the subject's subject_id.
  * Each sweep covers `window` (ms, relative to its stimulus; default: the span that every row's
  * start_time..stop_time covers), cut at the sample nearest to the stimulus. Only the selected
  * rows are read from the file (one hyperslab per sweep).
+ * A file fascicle wrote (its /general/source_script) carries every condition in its trials table
+ * and its study settings in /processing/fascicle; those are read instead of the file-level ones.
  */
 import { closeSync, openSync, constants, fstatSync } from 'node:fs';
 import { InputError, OptionError } from '../errors';

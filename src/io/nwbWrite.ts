@@ -12,7 +12,9 @@
  * - /general/extracellular_ephys/electrodes: one row per (preparation, site, distance), with
  *   location, group, group_name, distance_mm and preparation; one ElectrodeGroup and Device.
  * - /processing/fascicle/history (verb, options as JSON, version per step), .../inputs (path,
- *   sha256, bytes) and one DynamicTable per result table.
+ *   sha256, bytes), one DynamicTable per result table (tables without rows are listed in the
+ *   attribute fascicle_empty_tables) and the study's settings (attribute fascicle_study).
+ * Samples and timestamps are chunked by whole sweeps; `compression` gzips them.
  * - /general/source_script "fascicle <version>": how fascicle recognises its own files.
  * The file is written to a temporary file in the same folder and renamed into place; an existing
  * file is replaced only with `overwrite: true` and only when fascicle wrote it.
