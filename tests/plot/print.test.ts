@@ -76,7 +76,7 @@ function figures(): Figure[] {
 
 interface Box { text: string; cls: string; l: number; r: number; t: number; b: number; fontPx: number }
 type Rect = { l: number; r: number; t: number; b: number };
-interface Check { canvas: { w: number; h: number }; boxes: Box[]; plot: Rect | null; legend: Rect | null; marks: Rect[] }
+interface Check { canvas: { w: number; h: number }; boxes: Box[]; plot: Rect | null; legend: Rect | null; marks: Rect[]; strokes: number[] }
 
 /** Load an exported SVG into a page and measure its text. Written here, independent of the layout code. */
 async function measure(page: Page, svg: string): Promise<Check> {
@@ -125,7 +125,8 @@ async function measure(page: Page, svg: string): Promise<Check> {
         }
       }
     });
-    return { canvas: { w: R.width, h: R.height }, boxes, plot, legend: L, marks };
+    const strokes = [...root.querySelectorAll('.scatterlayer path.js-line')].map((e) => parseFloat(getComputedStyle(e).strokeWidth)).filter((w) => w > 0);
+    return { canvas: { w: R.width, h: R.height }, boxes, plot, legend: L, marks, strokes };
   }, svg);
 }
 
@@ -204,6 +205,8 @@ describe.skipIf(!browser)('print export at journal widths (headless Chromium)', 
         // FASCICLE_PRINT_DIR=folder keeps a PNG of each figure (CI artifacts, looking at them)
         if (process.env.FASCICLE_PRINT_DIR) await ex.save(f, join(process.env.FASCICLE_PRINT_DIR, `${size.widthMm}mm-${figs.indexOf(f)}-${f.name}.png`), { widthMm: size.widthMm, heightMm: size.heightMm, dpi: 150 });
         for (const p of problems(c)) bad.push(`${f.name} "${(f.spec.layout.title as { text: string }).text}": ${p}`);
+        // data lines for print: 0.5-1.5 pt (common practice for journal artwork, no single source)
+        for (const w of c.strokes) if (!(w >= 0.5 * 96 / 72 - 0.01 && w <= 1.5 * 96 / 72 + 0.01)) bad.push(`${f.name}: a data line is ${(w * 72 / 96).toFixed(2)} pt wide`);
       }
       expect(bad).toEqual([]);
     }, 60000);
@@ -349,6 +352,18 @@ describe.skipIf(!browser)('print export at journal widths (headless Chromium)', 
     expect(pdf).not.toContain('about:blank');
     expect(pdfTitle(pdf)).toBe('Arrhenius plot (velocity from centroid latency)');
   }, 60000);
+
+  it('figures without data or legend still export (no text problems, no page errors)', async () => {
+    const errors: string[] = [];
+    ex.page.on('pageerror', (e) => errors.push(String(e)));
+    const empty = [doseResponseFigure([], []), temperatureFigure([], [], 'q10'), velocityFigure([]), summaryFigure([], 'velocity_m_s')];
+    for (const f of empty) {
+      const r = await ex.svg(f, { widthMm: 85, heightMm: 60 });
+      const p = problems(await measure(page, r.svg)).filter((x) => !/plot area|no plot area/.test(x));
+      expect(p).toEqual([]);
+    }
+    expect(errors).toEqual([]);
+  }, 30000);
 
   it('title: false leaves the title to the caption (no title text, the plot grows into its space)', async () => {
     const f = figs.find((x) => x.name === 'dose-response')!;
