@@ -121,6 +121,11 @@ describe('readNwb(path, options) on files written by h5py', () => {
     // the 4th stimulus is 0.3 samples off the grid (make_nwb.py): the nearest sample, offset recorded
     expect(step.options.maxStimulusOffsetMs as number).toBeCloseTo(0.03, 9);
     expect(set.sources[0].sha256).toBe(sha(fx('continuous.nwb')));
+    const info = (step.options.series as { conversion: number; offset: number; resolution: number }[])[0];
+    // float32 attributes as stored (make_nwb.py: 5e-7 V, -1e-4 V, 5e-7 V)
+    expect(info.conversion).toBe(Math.fround(5e-7));
+    expect(info.offset).toBe(Math.fround(-1e-4));
+    expect(info.resolution).toBe(Math.fround(5e-7));
   });
 
   it('channel: "all" gives one sweep per row and channel, each with its electrode\'s distance', async () => {
@@ -241,6 +246,32 @@ describe('readNwb errors name the file, the place inside it and the problem', ()
     expectInputError(() => readNwbSync(fx('precut.nwb'), { columns: { intensity: 'amp' }, window: [-0.8, 9] }),
       fx('precut.nwb'),
       /\/acquisition\/cap_sweeps\/(timestamps|data)/, /gap|outside the series/);
+  });
+
+  it('a series whose unit is not a voltage, or that has no time base', () => {
+    const lib = h5();
+    const make = (name: string, build: (g: import('h5wasm').Group) => void) => {
+      const p = join(tmp, name);
+      const f = new lib.File(p, 'w');
+      f.create_attribute('neurodata_type', 'NWBFile', null, 'S');
+      f.create_attribute('nwb_version', '2.7.0', null, 'S');
+      const g = f.create_group('acquisition').create_group('trace');
+      g.create_attribute('neurodata_type', 'TimeSeries', null, 'S');
+      build(g);
+      f.close();
+      return p;
+    };
+    const lux = make('lux.nwb', (g) => {
+      g.create_dataset({ name: 'data', data: new Float32Array(10) }).create_attribute('unit', 'lux', null, 'S');
+      g.create_dataset({ name: 'starting_time', data: 0 }).create_attribute('rate', 1000, null, '<f');
+    });
+    expectInputError(() => readNwbSync(lux, { stimulusTimes: [0.002], window: [0, 1] }), lux, '/acquisition/trace/data',
+      /unit "lux", not a voltage/);
+    const timeless = make('timeless.nwb', (g) => {
+      g.create_dataset({ name: 'data', data: new Float32Array(10) }).create_attribute('unit', 'volts', null, 'S');
+    });
+    expectInputError(() => readNwbSync(timeless, { stimulusTimes: [0.002], window: [0, 1] }), timeless, '/acquisition/trace',
+      /neither starting_time \(with rate\) nor timestamps/);
   });
 
   it('options are checked at the call', () => {
