@@ -365,10 +365,11 @@ export function measureComponents(set: SweepSet, options: ComponentOptions = {})
         }
         const nearLen = rangeAt.get(dists[0])![1] - rangeAt.get(dists[0])![0];
         const trustAt = new Map(dists.map((x) => [x, Math.max(...members.filter((s) => info[s].L === x).map((s) => info[s].fitStart))]));
-        // fibers so fast that they arrive at the farthest site before its recording is trusted (the artifact) are
-        // not determined by the data: the slowness grid starts at the first trusted arrival there
-        const lead = Math.max(0.2, 10 * dt), xFar = dists[dists.length - 1];
-        const u0 = Math.max(1 / vFast, (tAt(trustAt.get(xFar)!) - util) / xFar);
+        // fibers so fast that their waveform (which may start `lead` before the arrival x / v) begins at the
+        // farthest site before its recording is trusted (the artifact) are not determined by the data: the slowness
+        // grid starts where that waveform's start is trusted there
+        const lead = Math.max(0.1, 5 * dt), xFar = dists[dists.length - 1];
+        const u0 = Math.max(1 / vFast, (tAt(trustAt.get(xFar)!) - util + lead) / xFar);
         const grid: DecomposeGrid = {
           dtMs: dt, t0Ms: set.t0Ms, range: (x) => rangeAt.get(x)!, uBounds: [u0, 1 / vSlow], excluded: (i, x) => i < trustAt.get(x)!,
           sSupportMs: [lead, Math.min(400, Math.max(20, nearLen)) * dt],
