@@ -109,7 +109,11 @@ export interface VelocityDistributionOptions {
   bootstrap?: number;
   /** seed of the bootstrap (default 1) */
   seed?: number;
-  /** class preset or classes for the fraction per class (default 'mammalian', scaled to the temperature) */
+  /**
+   * class preset or classes for the fraction per class (default 'mammalian'), scaled to the temperature with the
+   * preset's Q10 from its reference temperature; a plain list of classes is taken at 37 C (measure/classes.ts):
+   * give a preset object with refTemperatureC to state ranges at another temperature
+   */
   classes?: string | ClassPreset | FiberClass[];
   /** temperature for the class ranges, C (default: the sweeps' temperatureC when they share one) */
   temperatureC?: number;
