@@ -239,6 +239,48 @@ export function openExporter(): Promise<FigureExporter> {
   return FigureExporter.open();
 }
 
+let shared: { exporter: Promise<FigureExporter>; timer: ReturnType<typeof setTimeout> | null; busy: number } | null = null;
+
+/**
+ * Save with a browser kept open between calls, closed `idleMs` after the last save
+ * (default 60 s). For notebooks, where fig.save is called cell after cell; a script
+ * should use saveFigures or openExporter (an open browser keeps the process running).
+ */
+export async function saveWithSharedExporter(figure: Figure, path: string, options: SaveOptions = {}, idleMs = 60000): Promise<void> {
+  checkJob({ figure, path, ...options });
+  if (!shared) {
+    const exporter = FigureExporter.open();
+    shared = { exporter, timer: null, busy: 0 };
+    exporter.catch(() => { shared = null; });
+  }
+  const s = shared;
+  if (s.timer) { clearTimeout(s.timer); s.timer = null; }
+  s.busy++;
+  try {
+    await (await s.exporter).save(figure, path, options);
+  } finally {
+    s.busy--;
+    if (!s.busy && shared === s) {
+      s.timer = setTimeout(() => { if (shared === s && !s.busy) { shared = null; void s.exporter.then((e) => e.close()).catch(() => undefined); } }, idleMs);
+      s.timer.unref?.();
+    }
+  }
+}
+
+/** Close the browser kept by saveWithSharedExporter now (if any). */
+export async function closeSharedExporter(): Promise<void> {
+  const s = shared;
+  shared = null;
+  if (!s) return;
+  if (s.timer) clearTimeout(s.timer);
+  await (await s.exporter.catch(() => null))?.close();
+}
+
+/** Whether a shared browser is open (for tests). */
+export function sharedExporterOpen(): boolean {
+  return shared !== null;
+}
+
 /** Save figures as .svg, .png or .pdf in one browser launch. Every job is checked before the browser starts. */
 export async function saveFigures(jobs: SaveJob[]): Promise<void> {
   if (!Array.isArray(jobs)) throw new OptionError('invalid jobs: must be an array of { figure, path, widthMm?, heightMm?, column?, dpi?, title? }');

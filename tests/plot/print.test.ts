@@ -16,6 +16,7 @@ import {
   model, sweepsFigure, recruitmentFigure, strengthDurationFigure, velocityFigure, doseResponseFigure, temperatureFigure,
   summaryFigure, classViews, sweepViewer, Figure, baseLayout, findBrowser, openExporter, FigureExporter, saveFigures, compareGroups, groupFigure,
 } from '../../src';
+import { saveWithSharedExporter, sharedExporterOpen, closeSharedExporter } from '../../src/plot/export';
 
 const CLASSES = ['A-alpha/beta', 'A-delta', 'C'];
 const PREPS = ['N1', 'N2', 'N3', 'N4'];
@@ -374,6 +375,22 @@ describe.skipIf(!browser)('print export at journal widths (headless Chromium)', 
     expect(without.plot!.b - without.plot!.t).toBeGreaterThan(withTitle.plot!.b - withTitle.plot!.t);
     expect(problems(without)).toEqual([]);
   }, 30000);
+
+  it('notebook saves share one browser until it has been idle (fig.save in a kernel)', async () => {
+    const dir = mkdtempSync(join(tmpdir(), 'fascicle-shared-'));
+    const f = figs.find((x) => x.name === 'summary')!;
+    await saveWithSharedExporter(f, join(dir, 'a.svg'), {}, 300000);
+    expect(sharedExporterOpen()).toBe(true);
+    await saveWithSharedExporter(f, join(dir, 'b.svg'), { column: 'double' }, 400);
+    expect(readFileSync(join(dir, 'b.svg'), 'utf8')).toMatch(/width="175mm"/);
+    expect(sharedExporterOpen()).toBe(true);
+    for (let i = 0; i < 100 && sharedExporterOpen(); i++) await new Promise((r) => setTimeout(r, 50));
+    expect(sharedExporterOpen()).toBe(false); // closed 0.4 s after the last save
+    await saveWithSharedExporter(f, join(dir, 'c.svg'));
+    await closeSharedExporter();
+    expect(sharedExporterOpen()).toBe(false);
+    expect(readFileSync(join(dir, 'c.svg'), 'utf8')).toMatch(/^<svg/);
+  }, 60000);
 
   it('rejects unknown save options and names the replacement for scale', async () => {
     const f = figs[0];
