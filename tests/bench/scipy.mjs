@@ -13,7 +13,7 @@ const require = createRequire(import.meta.url);
 const here = dirname(fileURLToPath(import.meta.url));
 const f = require('../../dist/index.js');
 
-const BENCH = resolve(here, '..', '..', '..', 'shared', 'bench');
+const BENCH = process.env.BENCH_SCIPY_DIR ?? resolve(here, '..', '..', '..', 'shared', 'bench');
 const ROUNDS = Number(process.env.BENCH_ROUNDS ?? 3);
 const RUNS = 5;
 const WINDOWS = [['A', 0.3, 1.0], ['B', 1.0, 5.0], ['C', 10.0, 45.0]]; // ms, as scipy_pipeline.py
