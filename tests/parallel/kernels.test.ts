@@ -127,14 +127,15 @@ describe('float32 load kernel (finiteness checked on the float32 chunk)', () => 
 
 describe('samples kept as float32 (a loader may keep a float32 file as read)', () => {
   it('every verb gives the bits of the float64 copy, on 1 and 2 threads', async () => {
-    const { noCorrection } = await import('../../src/parallel/kernels');
+    const { asRead, float32Samples } = await import('../../src/sweeps/storage');
     const ref = synthetic();
-    const f32 = new Float32Array(new SharedArrayBuffer(S * N * 4));
+    const f32 = float32Samples(S * N);
+    expect(f32.buffer).toBeInstanceOf(SharedArrayBuffer); // large enough for the threads
     for (let i = 0; i < f32.length; i++) f32[i] = ref.data[i];
     const wide = new Float64Array(new SharedArrayBuffer(S * N * 8));
     for (let i = 0; i < f32.length; i++) wide[i] = f32[i]; // exact widening
     const init = { nSweeps: S, nSamples: N, fs, t0Ms: -2, units: 'uV' as const, conditions: ref.conditions };
-    const a = new SweepSet({ ...init, data: { base: f32, correction: noCorrection() } });
+    const a = new SweepSet({ ...init, data: asRead(f32) });
     const b = new SweepSet({ ...init, data: wide });
     const chains: [string, (s: SweepSet) => Float64Array][] = [
       ['data', (s) => s.data],
