@@ -22,6 +22,7 @@ import { sharedSamples } from '../parallel/pool';
 import { Rng } from './random';
 import { SweepSet, type Conditions } from '../sweeps/SweepSet';
 import { OptionError } from '../errors';
+import { recoveryTable, secondPulse, timeScaledCable, REFRACTORY_FIBRE, type PulseOutcome } from './refractory';
 
 export interface FiberPopulation {
   name: string;
@@ -45,6 +46,14 @@ export interface FiberPopulation {
    * (Weiss's law)
    */
   chronaxieMs?: number;
+  /**
+   * refractoriness (refractory.ts): time scale of the class's Hodgkin-Huxley fibre at 37 C (default 11 for
+   * myelinated classes of mean diameter >= 6 um, 7.5 for thinner myelinated, 3.3 unmyelinated: invented demo
+   * values giving refractory periods of about 0.6, 0.9 and 2 ms at 37 C), its Q10 (default 3, the 1952 factor),
+   * and the reference diameter (default mean + 0.5 SD): a fibre thinner than it has its time scale divided by
+   * reference / diameter (thinner fibres recover later; common practice, no source)
+   */
+  refractory?: { timeScale37?: number; q10?: number; referenceDiameterUm?: number };
   /** blocker IC50 for this class (concentration units of the study) */
   ic50: number;
   /** blocker Hill slope */
@@ -61,6 +70,8 @@ export interface NerveModel {
   utilisationMs: number;
   /** pulse width (ms) at which the drawn thresholds hold (default 0.1) */
   referencePulseWidthMs?: number;
+  /** pulses after the first drive a fibre at this multiple of its rested threshold (refractory.ts; default 4) */
+  testDrive?: number;
 }
 
 /** A rodent sciatic-like nerve: A-alpha/beta, A-delta and C populations. */
@@ -112,6 +123,11 @@ export interface RecordingConditions {
   electrodeSeparationMm?: number;
   /** per-sweep latency jitter SD, ms */
   jitterMs?: number;
+  /**
+   * stimulus times within the sweep, ms, ascending, first 0 (default: one pulse at 0). Two times are a
+   * conditioning-test pair, more a train; each fibre's response to each pulse comes from refractory.ts.
+   */
+  pulsesMs?: number[];
 }
 
 export interface SweepGrid { fs: number; t0Ms: number; nSamples: number }
@@ -148,6 +164,7 @@ export function conducts(model: NerveModel, f: Fiber, c: number): boolean {
 
 /** The noiseless CAP (uV) of one sweep into out (length grid.nSamples); per-class parts when `parts` is given. */
 export function synthesizeCap(model: NerveModel, fibers: Fiber[], rc: RecordingConditions, grid: SweepGrid, out: Float64Array, rng?: Rng, parts?: Float64Array[]): Float64Array {
+  if (rc.pulsesMs) return synthesizePulses(model, fibers, rc, grid, out, rng, parts);
   out.fill(0);
   const dtMs = 1000 / grid.fs;
   const jitter = rc.jitterMs && rng ? rc.jitterMs * rng.normal() : 0;
@@ -196,7 +213,7 @@ export interface Nuisance {
 }
 
 /** Add rig nuisances to a sweep (uV) in place. */
-export function addNuisance(x: Float64Array, grid: SweepGrid, intensity: number, nz: Nuisance, rng: Rng): void {
+export function addNuisance(x: Float64Array, grid: SweepGrid, intensity: number, nz: Nuisance, rng: Rng, stimulusTimesMs?: readonly number[]): void {
   const dtMs = 1000 / grid.fs;
   const humPhase = 2 * Math.PI * rng.uniform();
   const drift = (nz.driftUvPerMs ?? 0) * rng.normal();
@@ -213,7 +230,9 @@ export function addNuisance(x: Float64Array, grid: SweepGrid, intensity: number,
       v += nz.humUv * Math.sin(w + humPhase);
       harm.forEach((a, k) => (v += nz.humUv! * a * Math.sin((k + 2) * (w + humPhase))));
     }
-    if (sat && t >= 0) v += t < pw ? sat : sat * 0.5 * Math.exp(-(t - pw) / tau);
+    if (stimulusTimesMs) {
+      for (const t0 of stimulusTimesMs) if (sat && t >= t0) v += t - t0 < pw ? sat : sat * 0.5 * Math.exp(-(t - t0 - pw) / tau);
+    } else if (sat && t >= 0) v += t < pw ? sat : sat * 0.5 * Math.exp(-(t - pw) / tau);
     x[i] = v;
   }
 }
@@ -238,8 +257,9 @@ export function simulateNerve(o: SimulateOptions): SweepSet {
   o.sweeps.forEach((rc, s) => {
     const x = data.subarray(s * n, (s + 1) * n);
     synthesizeCap(o.model, fibers, rc, o.grid, x, rng);
-    if (o.nuisance) addNuisance(x, o.grid, rc.intensity, o.nuisance, rng);
-    conds.push({ intensity: rc.intensity, intensityUnit: 'mA', ...(rc.pulseWidthMs !== undefined ? { pulseWidthMs: rc.pulseWidthMs } : {}), distanceMm: rc.distanceMm, temperatureC: rc.temperatureC, concentration: rc.concentration, ...(rc.conditions ?? {}) });
+    if (o.nuisance) addNuisance(x, o.grid, rc.intensity, o.nuisance, rng, rc.pulsesMs);
+    const pulseCond: Record<string, number> = rc.pulsesMs ? { pulses: rc.pulsesMs.length } : {};
+    conds.push({ ...pulseCond, intensity: rc.intensity, intensityUnit: 'mA', ...(rc.pulseWidthMs !== undefined ? { pulseWidthMs: rc.pulseWidthMs } : {}), distanceMm: rc.distanceMm, temperatureC: rc.temperatureC, concentration: rc.concentration, ...(rc.conditions ?? {}) });
   });
   return new SweepSet({ data, nSweeps: o.sweeps.length, nSamples: n, fs: o.grid.fs, t0Ms: o.grid.t0Ms, units: 'uV', conditions: conds, history: [{ verb: 'simulateNerve', options: { seed: o.seed }, version: '' }] });
 }
@@ -276,4 +296,95 @@ export function classTruth(model: NerveModel, fibers: Fiber[], temperatureC: num
       ic50: p.ic50, hill: p.hill, minThreshold: Math.min(...fs.map((f) => f.threshold)),
     };
   });
+}
+
+// ---- several pulses per sweep: paired pulses and trains ----
+
+const defaultTimeScale37 = (p: FiberPopulation) => p.refractory?.timeScale37 ?? (!p.myelinated ? 3.3 : p.diameterUm.mean >= 6 ? 11 : 7.5);
+
+/** The time scale of a class's Hodgkin-Huxley fibre at temperature T (refractory.ts): timeScale37 x Q10^((T - 37)/10). */
+export function classTimeScale(p: FiberPopulation, temperatureC: number): number {
+  return defaultTimeScale37(p) * Math.pow(p.refractory?.q10 ?? 3, (temperatureC - 37) / 10);
+}
+
+/** A fibre's time scale: its class's, divided by reference diameter / diameter when thinner than the reference. */
+export function fiberTimeScale(model: NerveModel, f: Fiber, temperatureC: number): number {
+  const p = model.populations[f.pop];
+  const ref = p.refractory?.referenceDiameterUm ?? p.diameterUm.mean + 0.5 * p.diameterUm.sd;
+  return classTimeScale(p, temperatureC) / Math.max(1, ref / f.diameterUm);
+}
+
+/** Fibres of similar time scale share one train simulation: time scales rounded to 5% steps in ln. */
+const TRAIN_GROUP_STEP = 0.05;
+const trainCache = new Map<string, PulseOutcome[]>();
+
+/**
+ * A fibre's response to each pulse of `pulsesMs` (conducted, conduction-time ratio, height ratio): the first
+ * pulse meets a rested fibre; a pair uses the recovery table (refractory.ts) at the fibre's own time scale;
+ * a train of three or more is simulated directly for fibres grouped by time scale (5% steps).
+ */
+export function fiberPulseOutcomes(model: NerveModel, f: Fiber, pulsesMs: readonly number[], temperatureC: number): PulseOutcome[] {
+  const drive = model.testDrive ?? REFRACTORY_FIBRE.drive;
+  const s = fiberTimeScale(model, f, temperatureC);
+  if (pulsesMs.length === 1) return [{ timeMs: pulsesMs[0], conducted: true, conductionRatio: 1, heightRatio: 1 }];
+  if (pulsesMs.length === 2) {
+    const r = secondPulse(recoveryTable(drive), pulsesMs[1] - pulsesMs[0], s);
+    return [
+      { timeMs: pulsesMs[0], conducted: true, conductionRatio: 1, heightRatio: 1 },
+      { timeMs: pulsesMs[1], conducted: r.conducted, conductionRatio: r.conducted ? r.conductionRatio : null, heightRatio: r.conducted ? r.heightRatio : null },
+    ];
+  }
+  const sq = Math.exp(Math.round(Math.log(s) / TRAIN_GROUP_STEP) * TRAIN_GROUP_STEP);
+  const key = `${sq.toPrecision(8)}|${drive}|${pulsesMs.join(',')}`;
+  let r = trainCache.get(key);
+  if (!r) {
+    r = timeScaledCable(pulsesMs.map((t) => t - pulsesMs[0]), { timeScale: sq, drive }).map((q, k) => ({ ...q, timeMs: pulsesMs[k] }));
+    trainCache.set(key, r);
+  }
+  return r;
+}
+
+function checkPulses(p: readonly number[]): void {
+  if (!p.length || p[0] !== 0 || p.some((t, i) => !Number.isFinite(t) || (i > 0 && !(t > p[i - 1])))) {
+    throw new OptionError(`invalid pulsesMs: [${p.join(', ')}]; must be ascending times in ms starting at 0`);
+  }
+}
+
+/** synthesizeCap for sweeps with pulsesMs: each recruited, conducting fiber adds one waveform per conducted pulse. */
+function synthesizePulses(model: NerveModel, fibers: Fiber[], rc: RecordingConditions, grid: SweepGrid, out: Float64Array, rng?: Rng, parts?: Float64Array[]): Float64Array {
+  const pulses = rc.pulsesMs!;
+  checkPulses(pulses);
+  out.fill(0);
+  const dtMs = 1000 / grid.fs;
+  const jitter = rc.jitterMs && rng ? rc.jitterMs * rng.normal() : 0;
+  const tauScale = Math.pow(model.q10Duration, -(rc.temperatureC - 37) / 10);
+  const biphasic = rc.recording === 'biphasic';
+  const sep = rc.electrodeSeparationMm ?? 3;
+  const pw = rc.pulseWidthMs;
+  const sd = model.populations.map((p) => (pw === undefined ? 1 : weissFactor(p, pw, model.referencePulseWidthMs ?? defaultReferencePulseWidthMs)));
+  for (const f of fibers) {
+    if (rc.intensity < f.threshold * sd[f.pop]) continue;
+    if (!conducts(model, f, rc.concentration)) continue;
+    const p = model.populations[f.pop];
+    const v = fiberVelocity(model, f, rc.temperatureC);
+    const tau = p.tauMs * tauScale;
+    const amp0 = p.unitAmplitudeUv * v * v;
+    const delay = biphasic ? sep / v : 0;
+    const part = parts?.[f.pop];
+    for (const q of fiberPulseOutcomes(model, f, pulses, rc.temperatureC)) {
+      if (!q.conducted) continue;
+      const lat = q.timeMs + model.utilisationMs + (rc.distanceMm / v) * (q.conductionRatio ?? 1) + jitter;
+      const amp = amp0 * (q.heightRatio ?? 1);
+      const i0 = Math.max(0, Math.floor((lat - grid.t0Ms) / dtMs));
+      const i1 = Math.min(grid.nSamples - 1, Math.ceil((lat + delay + 14 * tau - grid.t0Ms) / dtMs));
+      for (let i = i0; i <= i1; i++) {
+        const t = grid.t0Ms + i * dtMs;
+        let w = unitWave((t - lat) / tau);
+        if (biphasic) w -= unitWave((t - lat - delay) / tau);
+        out[i] += amp * w;
+        if (part) part[i] += amp * w;
+      }
+    }
+  }
+  return out;
 }
