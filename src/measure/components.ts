@@ -435,7 +435,14 @@ export function measureComponents(set: SweepSet, options: ComponentOptions = {})
       const above = sm > kEff * noise;
       let status = status0 ?? (above ? 'measured' : 'not detected');
       let reason = reason0 ?? (above ? null : `peak ${(sm).toPrecision(3)} ${u} is below max(k, z) x noise = ${(kEff * noise).toPrecision(3)} ${u}`);
-      if (status === 'measured' && !lat.localMax) {
+      // a peak on the first or last sample of the class's part is still its own when it is a local maximum of the
+      // whole sweep (the neighbouring class then sees a falling edge there): a peak on a boundary counts once
+      let localMax = lat.localMax;
+      if (!localMax && sep === 'window' && (ip === 0 || ip === yc.length - 1)) {
+        const i = a + ip, nb = ip === 0 ? i - 1 : i + 1, other = ip === 0 ? i + 1 : i - 1;
+        localMax = nb >= 0 && nb < n && p * x[nb] <= p * x[i] && (other < 0 || other >= n || p * x[other] <= p * x[i]);
+      }
+      if (status === 'measured' && !localMax) {
         status = 'not resolved';
         reason = 'not resolved: no separate peak or shoulder (the largest value of the class is at the edge of its part of the sweep)';
       }

@@ -162,3 +162,25 @@ describe('threshold for an intensity series', () => {
     for (const t of truth) expect(th.find((r) => r.class === t.name)!.threshold).toBeGreaterThanOrEqual(t.minThreshold);
   });
 });
+
+describe('a peak on the boundary between two class windows (issue 14)', () => {
+  // two classes whose velocity ranges touch at 10 m/s: at 10 mm their windows meet at 1.0 ms (no tails)
+  const preset = [{ name: 'fast', velocity: [10, 20] as [number, number] }, { name: 'slow', velocity: [5, 10] as [number, number] }];
+  const make = (centre: number, sign: number) => {
+    const fs = 50000, n = 1000, t0 = -2;
+    const rng = new model.Rng(9);
+    const data = Float64Array.from({ length: n }, (_, i) => sign * 300 * Math.exp(-0.5 * ((t0 + (i * 1000) / fs - centre) / 0.08) ** 2) + 2 * rng.normal());
+    return new SweepSet({ data, nSweeps: 1, nSamples: n, fs, t0Ms: t0, units: 'uV', conditions: [{ distanceMm: 10 }] });
+  };
+  it('belongs to exactly one class, negative-going or positive-going, measured at the boundary', () => {
+    for (const sign of [1, -1]) {
+      const rows = make(1.0, sign).components({ preset, tailFraction: 0, tailMs: 0, polarity: sign as 1 | -1 });
+      const measured = rows.rows.filter((r) => r.status === 'measured');
+      expect(measured.length).toBe(1);
+      expect(Math.abs((measured[0].peak_ms as number) - 1.0)).toBeLessThan(0.01);
+      const other = rows.rows.find((r) => r !== measured[0])!;
+      expect(other.status).toBe('not resolved');
+      expect(other.peak_ms).toBeNull();
+    }
+  });
+});
