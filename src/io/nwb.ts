@@ -223,7 +223,7 @@ function readOpen(path: string, f: H5File, o: NwbReadOptions, win: [number, numb
   for (const s of series) setGain(s, units);
 
   // stimulus times and the rows' columns
-  let rows: { T: number; start?: number; stop?: number; columns: Record<string, ConditionValue>; id: number }[];
+  let rows: { T: number; start?: number; stop?: number; columns: Record<string, ConditionValue>; id: number; ref?: number }[];
   let tablePath: string | null = null;
   let stimulusColumn: string | null = null;
   const notes: string[] = [];
@@ -266,7 +266,7 @@ function readOpen(path: string, f: H5File, o: NwbReadOptions, win: [number, numb
       for (const column of cols.columns) if (!used.has(column.name)) c[column.name] = column.values[i];
       Object.assign(c, mapped.values[i]);
       rows.push({ T: times.values[i] as number, start: num(start?.values[i]), stop: num(stop?.values[i]),
-        columns: c, id: cols.ids[i] });
+        columns: c, id: cols.ids[i], ref: cols.refStarts?.[i] });
     }
     if (rows.length === 0) bad(tablePath, 'the table has no rows', 'one row per stimulus');
   }
@@ -300,8 +300,9 @@ function readOpen(path: string, f: H5File, o: NwbReadOptions, win: [number, numb
   if (selected.length === 0) throw new OptionError(`no rows selected by trials (the table has ${rows.length})`);
 
   // which series holds each selected row, and where
-  const fs0 = series[0].rate ?? estimateRate(path, series[0], rows[selected[0]].T);
-  const place = selected.map((i) => locate(path, byPath, rows[i].T, fs0, i, tablePath));
+  const first = rows[selected[0]];
+  const fs0 = series[0].rate ?? estimateRate(path, series[0], first.T, first.ref);
+  const place = selected.map((i) => locate(path, byPath, rows[i].T, fs0, i, tablePath, rows[i]));
 
   // the sampling rate
   let fs = fs0;
@@ -655,7 +656,8 @@ function findIntervals(file: string, f: H5File, want: string | undefined): strin
 }
 
 /** Every column of a DynamicTable: 1-D numbers or text; ragged columns (with an _index) joined by ", ". */
-export function readTable(file: string, g: H5Group, p: string): { n: number; ids: number[]; columns: TableColumn[] } {
+export function readTable(file: string, g: H5Group, p: string):
+  { n: number; ids: number[]; columns: TableColumn[]; refStarts?: number[] } {
   const keys = g.keys();
   const bad = (field: string, problem: string, expected: string): never => {
     throw new InputError({ file, field }, problem, expected);
@@ -669,14 +671,15 @@ export function readTable(file: string, g: H5Group, p: string): { n: number; ids
   const listed = Array.isArray(colnames) ? (colnames as string[])
     : keys.filter((k) => k !== 'id' && !k.endsWith('_index'));
   const columns: TableColumn[] = [];
+  let refStarts: number[] | undefined;
   for (const name of listed) {
     const d = keys.includes(name) ? g.get(name) : null;
     if (!isDataset(d)) bad(`${p}/${name}`, `column ${JSON.stringify(name)} is listed in colnames but missing`,
       'every listed column');
     const ds = d as H5Dataset;
     const kind = elementKind(ds);
-    if (kind === 'reference' || kind === 'compound'
-      || kind === 'other') continue; // references to other objects are not conditions
+    if (kind === 'compound' && typeOf(ds) === 'TimeSeriesReferenceVectorData') refStarts = referenceStarts(ds, g, name, n);
+    if (kind === 'reference' || kind === 'compound' || kind === 'other') continue; // references to other objects
     const shape = ds.shape ?? [];
     if (shape.length !== 1) continue; // multi-dimensional cells are not conditions
     const raw = kind === 'string' ? texts(ds) : numbers(ds);
@@ -695,7 +698,28 @@ export function readTable(file: string, g: H5Group, p: string): { n: number; ids
     // fascicle writes "/" in a name as "_" and keeps the name in fascicle_name
     columns.push({ name: attrText(ds, 'fascicle_name') ?? name, values, unit, path: `${p}/${name}` });
   }
-  return { n, ids, columns };
+  return { n, ids, columns, refStarts };
+}
+
+/**
+ * The first sample of each row's TimeSeriesReference (idx_start), when every row has exactly one.
+ * (h5wasm does not read the object reference inside the compound; the series is matched by time.)
+ */
+function referenceStarts(d: H5Dataset, g: H5Group, name: string, n: number): number[] | undefined {
+  const idx = g.keys().includes(`${name}_index`) ? g.get(`${name}_index`) : null;
+  if (isDataset(idx)) {
+    const ends = Array.from(numbers(idx));
+    if (ends.length !== n || ends.some((e, i) => e !== i + 1)) return undefined;
+  }
+  let v: unknown;
+  try {
+    v = d.value;
+  } catch {
+    return undefined;
+  }
+  if (!Array.isArray(v) || v.length !== n) return undefined;
+  const starts = v.map((r) => (Array.isArray(r) ? Number(r[0]) : NaN));
+  return starts.every((x) => Number.isInteger(x) && x >= 0) ? starts : undefined;
 }
 
 /** Apply the condition mapping to a table's columns. */
@@ -744,9 +768,9 @@ function mapColumns(file: string, columns: TableColumn[], override: Readonly<Rec
 }
 
 /** The sample rate of a timestamped series near time T: from up to 1000 timestamps there. */
-function estimateRate(file: string, s: SeriesInfo, T: number): number {
+function estimateRate(file: string, s: SeriesInfo, T: number, hint?: number): number {
   const ts = s.timestamps!;
-  const i = nearestIndex(s, T);
+  const i = hint !== undefined && hint < s.nTimes - 1 ? hint : nearestIndex(s, T);
   const i0 = Math.max(0, Math.min(i, s.nTimes - 2));
   const i1 = Math.min(s.nTimes, i0 + 1000);
   const t = numbers(ts, [i0, i1]);
@@ -795,8 +819,20 @@ function nearestIndex(s: SeriesInfo, T: number): number {
 }
 
 /** The series and sample index of a stimulus at T. */
-function locate(file: string, series: SeriesInfo[], T: number, fs: number, row: number, table: string | null):
-  { s: SeriesInfo; index: number; time: number } {
+function locate(file: string, series: SeriesInfo[], T: number, fs: number, row: number, table: string | null,
+  hint?: { ref?: number; start?: number }): { s: SeriesInfo; index: number; time: number } {
+  // the row's TimeSeriesReference: its first sample is at start_time in the series it points into
+  if (hint?.ref !== undefined && hint.start !== undefined) {
+    for (const s of series) {
+      if (!s.timestamps || hint.ref >= s.nTimes) continue;
+      const t0 = numbers(s.timestamps, [hint.ref, hint.ref + 1])[0];
+      if (!(Math.abs(t0 - hint.start) <= 1.01 / fs)) continue;
+      const index = hint.ref + Math.round((T - t0) * fs);
+      if (index < 0 || index >= s.nTimes) continue;
+      const time = numbers(s.timestamps, [index, index + 1])[0];
+      if (Math.abs(time - T) <= 0.5001 / fs) return { s, index, time };
+    }
+  }
   const hits: { s: SeriesInfo; index: number; time: number }[] = [];
   for (const s of series) {
     if (T < s.tFirst - 0.5 / fs || T > s.tLast + 0.5 / fs) continue;

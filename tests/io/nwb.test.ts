@@ -181,6 +181,18 @@ describe('readNwb(path, options) on files written by h5py', () => {
     expect(set.history[0].options.stimulusColumn).toBe('stim_onset');
   });
 
+  it('uses the rows\' TimeSeriesReference (idx_start) instead of searching the timestamps', async () => {
+    const spy = vi.spyOn(h5().Dataset.prototype, 'slice');
+    try {
+      const set = await readNwb(fx('precut.nwb'), { columns: { intensity: 'amp' } });
+      expect(set.nSweeps).toBe(8);
+      // a search would read a strided coarse index of the timestamps ([0, n, step])
+      expect(spy.mock.calls.some((c) => (c[0] as number[][])[0].length === 3)).toBe(false);
+    } finally {
+      spy.mockRestore();
+    }
+  });
+
   it('stimulusTimes and window read a file without an intervals table', async () => {
     const set = await readNwb(fx('no_stimulus.nwb'), { stimulusTimes: [0.02, 0.05], window: [-1, 4] });
     expect(set.nSweeps).toBe(2);
