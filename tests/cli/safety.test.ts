@@ -137,10 +137,11 @@ describe('fascicle run --out never loses files it did not write', () => {
     const T = Date.now() - t0;
     let seed = 20261202;
     const rand = () => ((seed = (seed * 1103515245 + 12345) % 2 ** 31) / 2 ** 31);
-    const outcomes = { absent: 0, complete: 0, leftovers: 0 };
+    const outcomes = { absent: 0, complete: 0, old: 0, leftovers: 0 };
     for (let k = 0; k < 10; k++) {
-      // half the runs start with no bundle there, half replace one
-      if (k % 2 === 0) rmSync(out, { recursive: true, force: true });
+      // half the runs start with no bundle there, half replace one (an old bundle fascicle wrote)
+      rmSync(out, { recursive: true, force: true });
+      if (k % 2 === 1) writeBundle(out, { tables: { old: [{ x: 1 }] }, methods: 'old bundle', provenance: prov });
       const delay = Math.round(T * (0.2 + 0.8 * rand()));
       const child = spawn(process.execPath, [cliPath, 'run', m1, '--out', out, '--quiet'], { stdio: 'ignore' });
       // even runs: killed at a random moment of the whole run; odd runs: a random 0-40 ms after
@@ -158,19 +159,27 @@ describe('fascicle run --out never loses files it did not write', () => {
       else {
         // complete: the marker (written last) lists every file, and every listed file is there
         const listed = JSON.parse(readFileSync(join(out, BUNDLE_MARKER), 'utf8')).files as string[];
+        if (listed.includes('tables/old.csv')) {
+          // the old bundle, untouched
+          expect(readFileSync(join(out, 'methods.txt'), 'utf8')).toBe('old bundle');
+          expect(existsSync(join(out, 'tables', 'components.csv'))).toBe(false);
+          outcomes.old++;
+          continue;
+        }
         expect(listed).toEqual(expect.arrayContaining(['methods.txt', 'provenance.json', 'tables/components.csv', 'tables/velocity.json']));
         for (const f of listed) expect(statSync(join(out, f)).isFile(), f).toBe(true);
         JSON.parse(readFileSync(join(out, 'tables', 'components.json'), 'utf8'));
         outcomes.complete++;
       }
     }
-    console.log(`killed runs: ${outcomes.absent} left no output, ${outcomes.complete} a complete bundle, ${outcomes.leftovers} left a hidden temporary folder (of 10)`);
-    expect(outcomes.absent + outcomes.complete).toBe(10);
+    console.log(`killed runs: ${outcomes.absent} left no output, ${outcomes.complete} a complete new bundle, ${outcomes.old} the old `
+      + `bundle untouched, ${outcomes.leftovers} left a hidden temporary folder (of 10)`);
+    expect(outcomes.absent + outcomes.complete + outcomes.old).toBe(10);
     const r = run(['run', m1, '--out', out, '--quiet']);
     expect(r.status, r.stderr).toBe(0);
     expect(readdirSync(work).filter((f) => f.startsWith('.killed.'))).toEqual([]);
     expect(existsSync(join(out, TEMP_MARKER))).toBe(false);
-  }, 120_000);
+  }, 300_000);
 });
 
 describe('a failed write says what happened and where', () => {
@@ -258,7 +267,7 @@ describe('rerun of a moved study, and what rerun compares', () => {
         expect(r.stderr).toMatch(msg);
       } finally { undo(); }
     }
-  }, 120_000);
+  }, 300_000);
   it('a missing folder, a missing or corrupt provenance give a clean message and exit 3', () => {
     const nf = run(['rerun', join(work, 'no-such-bundle')]);
     expect(nf.status).toBe(3);
