@@ -79,7 +79,11 @@ function runInWorkers(tasks: { prep: string; files: number[] | null }[], manifes
         results.push(msg.output!);
         done++;
         onProgress?.(done, tasks.length, msg.output!.preparation);
-        if (done === tasks.length) { workers.forEach((x) => void x.terminate()); resolvePromise(results); }
+        if (done === tasks.length) {
+          current.clear(); // the workers now stop on purpose
+          workers.forEach((x) => void x.terminate());
+          resolvePromise(results);
+        }
         else startOne(w);
       });
       // a worker that dies (out of memory, exit, crash) ends the run with a clear error, never a hang or a silent exit 0
