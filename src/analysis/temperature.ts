@@ -168,11 +168,25 @@ export function temperatureAnalysis(rows: readonly Row[], options: { measure?: s
 }
 
 /**
- * Q10 of conduction velocity from velocity rows grouped by preparation and temperature: the
- * recommended estimator's rows (RECOMMENDED_VELOCITY), flagged rows left out and counted.
+ * Q10 of conduction velocity from velocity rows grouped by preparation and temperature: per class,
+ * the rows marked `recommended` (markRecommended; rows without the mark: the fastest-class
+ * estimator, regression of peak latency); flagged rows left out and counted.
  */
-export function velocityTemperature(velocityRows: readonly Row[], history: readonly Step[] = [], sources: readonly Source[] = [], estimator: { method: string; basis: string } = RECOMMENDED_VELOCITY): TemperatureResult {
-  const rows = velocityRows.filter((r) => r.method === estimator.method && r.basis === estimator.basis)
-    .map((r): Row => ({ ...r, velocity: r.velocity_m_s, detected: r.velocity_m_s !== null }));
-  return temperatureAnalysis(rows, { measure: 'velocity', poolSites: true, label: `${estimator.method} ${estimator.basis} velocity` }, history, sources);
+export function velocityTemperature(velocityRows: readonly Row[], history: readonly Step[] = [], sources: readonly Source[] = []): TemperatureResult {
+  const marked = velocityRows.some((r) => r.recommended === true);
+  const fallback = RECOMMENDED_VELOCITY.fastest;
+  const use = velocityRows.filter((r) => (marked ? r.recommended === true : r.method === fallback.method && r.basis === fallback.basis));
+  const rows: Row[] = [], points: Row[] = [];
+  let last: TemperatureResult | null = null;
+  for (const cls of [...new Set(velocityRows.map((r) => String(r.class)))]) {
+    const mine = use.filter((r) => String(r.class) === cls).map((r): Row => ({ ...r, velocity: r.velocity_m_s, detected: r.velocity_m_s !== null }));
+    const e = mine[0] ?? { method: fallback.method, basis: fallback.basis };
+    const res = temperatureAnalysis(mine.length ? mine : [{ class: cls, temperatureC: null }], { measure: 'velocity', poolSites: true, label: `${e.method} ${e.basis} velocity` }, history, sources);
+    if (!mine.length) rows.push({ class: cls, measure: 'velocity', q10: null, status: 'not detected', reason: `no ${e.method} ${e.basis} velocity of ${cls} at any temperature` });
+    rows.push(...res.rows);
+    points.push(...res.points);
+    last = res;
+  }
+  const step = last?.history[last.history.length - 1];
+  return new TemperatureResult(rows, points, [...history, ...(step ? [{ ...step, options: { ...step.options, measure: 'recommended velocity per class', estimators: [...new Set(rows.map((r) => String(r.measure)))] } }] : [])], sources);
 }

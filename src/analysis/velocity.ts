@@ -31,7 +31,7 @@ import { summarize, linearFit } from './stats';
 import { tQuantile } from '../fit/dist';
 import { xcorrDelay, type ResponseMeasure } from '../measure/response';
 import type { ComponentRow, ResolvedComponentOptions } from '../measure/components';
-import { scaledRange } from '../measure/classes';
+import { scaledRange, type FiberClass } from '../measure/classes';
 
 export type LatencyBasis = 'onset' | 'halfrise' | 'peak' | 'centroid';
 export type VelocityStatus = 'ok' | 'outside class range' | 'implausible' | 'not detected';
@@ -360,13 +360,35 @@ export function twoSiteVelocity(set: SweepSet, rows: readonly ComponentRow[], me
   return out;
 }
 
-/**
- * The estimator the README recommends, per class (see "Which velocity to report"): the
- * regression of peak latency on distance (with two distances, the two-site peak velocity).
- */
-export const RECOMMENDED_VELOCITY: { method: VelocityRow['method']; basis: VelocityRow['basis'] } = { method: 'regression', basis: 'peak' };
+export interface Estimator { method: VelocityRow['method']; basis: VelocityRow['basis'] }
 
-/** Mark the recommended estimator's rows (`recommended: true`). */
-export function markRecommended(rows: readonly VelocityRow[]): VelocityRow[] {
-  return rows.map((r) => ({ ...r, recommended: r.method === RECOMMENDED_VELOCITY.method && r.basis === RECOMMENDED_VELOCITY.basis }));
+/**
+ * The estimator the README recommends, by the class's place in its preset (see "Which velocity
+ * to report", measured on the independent development set): the fastest class, whose wave is the
+ * first, largest and sharpest, by the regression of its peak latency on distance (with two
+ * distances, the two-site peak velocity); unmyelinated classes, whose waves are broad and small,
+ * by the regression of their centroid latency (the whole component, not its noisy top); any other
+ * class, usually a shoulder on a faster class's tail, by the two-site cross-correlation of its own
+ * component.
+ */
+export const RECOMMENDED_VELOCITY: { fastest: Estimator; unmyelinated: Estimator; other: Estimator } = {
+  fastest: { method: 'regression', basis: 'peak' },
+  unmyelinated: { method: 'regression', basis: 'centroid' },
+  other: { method: 'two-site', basis: 'xcorr' },
+};
+
+/** The recommended estimator for a class of a preset (the fastest-class rule when the classes are unknown). */
+export function recommendedEstimator(cls: string, classes?: readonly FiberClass[]): Estimator {
+  const list = classes ? [...classes].sort((a, b) => b.velocity[1] - a.velocity[1]) : [];
+  const c = list.find((k) => k.name === cls);
+  if (!c || list[0].name === cls) return RECOMMENDED_VELOCITY.fastest;
+  return c.myelinated === false ? RECOMMENDED_VELOCITY.unmyelinated : RECOMMENDED_VELOCITY.other;
+}
+
+/** Mark the recommended estimator's rows (`recommended: true`), per class. */
+export function markRecommended(rows: readonly VelocityRow[], classes?: readonly FiberClass[]): VelocityRow[] {
+  return rows.map((r) => {
+    const e = recommendedEstimator(r.class, classes);
+    return { ...r, recommended: r.method === e.method && r.basis === e.basis };
+  });
 }

@@ -131,8 +131,8 @@ export function velocityOf(t: ComponentTable, by: string[] = velocityBy(t.set)):
     ...singleSiteVelocity(t.rows, by, t.resolved),
     ...twoSiteVelocity(t.set, t.rows, t.measures, t.resolved, by),
     ...regressionVelocity(t.rows, by, t.resolved),
-  ]);
-  const step: Step = { verb: 'velocity', options: { by, methods: ['single-site', 'two-site (latency definitions and cross-correlation)', 'regression of latency on distance'], recommended: { ...RECOMMENDED_VELOCITY }, flags: 'implausible values rejected with a reason; other rows kept' }, version: VERSION };
+  ], t.resolved.classes);
+  const step: Step = { verb: 'velocity', options: { by, methods: ['single-site', 'two-site (latency definitions and cross-correlation)', 'regression of latency on distance'], recommended: JSON.parse(JSON.stringify(RECOMMENDED_VELOCITY)), flags: 'implausible values rejected with a reason; other rows kept' }, version: VERSION };
   return new VelocityResult(rows, by, t.set.sources, [...t.history, step]);
 }
 
@@ -240,8 +240,8 @@ export function temperatureOf(tt: ComponentTable, o: PipelineOptions): Temperatu
     const by = ['preparation', 'temperatureC'].filter((k) => tt.set.conditions.some((c) => k in c));
     return velocityTemperature(velocityOf(tt, by).rows as unknown as Row[], tt.history, tt.set.sources);
   }
-  const basis = RECOMMENDED_VELOCITY.basis === 'xcorr' ? 'peak' : RECOMMENDED_VELOCITY.basis;
-  return temperatureAnalysis(tt.rows, { measure: `${basis}_velocity_m_s`, poolSites: o.poolSites }, tt.history, tt.set.sources);
+  // one distance: the single-site velocity of the fastest class's recommended latency (peak)
+  return temperatureAnalysis(tt.rows, { measure: `${RECOMMENDED_VELOCITY.fastest.basis}_velocity_m_s`, poolSites: o.poolSites }, tt.history, tt.set.sources);
 }
 
 /** Run the standard pipeline on a loaded study. */

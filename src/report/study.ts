@@ -128,7 +128,7 @@ export function combineStudy(parts: PrepOutput[], o: PipelineOptions): Study {
     }
   }
   const history: Step[] = [...(ps[0]?.history ?? [])];
-  if (ps.some((p) => p.velocity.length)) history.push({ verb: 'velocity', options: { recommended: { ...RECOMMENDED_VELOCITY } }, version: VERSION });
+  if (ps.some((p) => p.velocity.length)) history.push({ verb: 'velocity', options: { recommended: JSON.parse(JSON.stringify(RECOMMENDED_VELOCITY)) }, version: VERSION });
   if (ps.some((p) => p.recruitment.length)) history.push({ verb: 'recruitment', options: { supramaximalFactor: o.recruitment?.supramaximalFactor ?? recruitmentDefaults.supramaximalFactor, thresholdFraction: recruitmentDefaults.thresholdFraction, minLevels: o.recruitment?.minLevels ?? recruitmentDefaults.minLevels }, version: VERSION });
   const sdRows = ps.flatMap((p) => p.strengthDuration ?? []);
   if (sdRows.length) history.push({ verb: 'strengthDuration', options: { fraction: o.strengthDuration?.fraction ?? 0.5 }, version: VERSION });

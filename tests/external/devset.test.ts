@@ -58,7 +58,7 @@ function checksFrom(t: Tables): { velocity: Check[]; q10: Check[]; dose: Check[]
     }
     const tr = t.temperature.find((r) => r.class === cls);
     const measure = String(tr?.measure ?? '');
-    const basis = /\bpeak\b/.test(measure) ? 'peak' : /onset/.test(measure) ? 'onset' : /half/.test(measure) ? 'halfrise' : 'centroid';
+    const basis = /\bpeak\b/.test(measure) ? 'peak' : /onset/.test(measure) ? 'onset' : /half/.test(measure) ? 'halfrise' : /xcorr/.test(measure) ? 'xcorr' : 'centroid';
     const tq = basis === 'peak' ? truth.q10[cls].q10_two_site_peak_velocity : basis === 'onset' ? truth.q10[cls].q10_two_site_onset10_velocity
       : q10Of(TEMPS, TEMPS.map((T) => velocityTruth(cls, T, basis)!));
     const qc = check('Q10', cls, '20-37 C', measure.replace(/ \(.*/, '') || 'none', tr?.q10 as number, tq, 5, note(tr));
