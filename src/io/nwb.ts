@@ -932,3 +932,69 @@ export async function readNwbTables(path: string): Promise<Record<string, Record
     f.close();
   }
 }
+
+/** What an NWB file holds that readNwb can use (to choose its options). */
+export interface NwbContents {
+  nwbVersion: string | undefined;
+  writtenByFascicle: boolean;
+  session: { identifier?: string; description?: string; startTime?: string };
+  subject?: Record<string, string>;
+  general: Record<string, string | string[]>;
+  series: { path: string; type: string; shape: number[]; unit?: string; time: 'rate' | 'timestamps' | 'none'; rate?: number }[];
+  intervals: { path: string; rows: number; columns: string[] }[];
+  electrodes?: { rows: number; columns: string[] };
+}
+
+/** List the series, TimeIntervals tables and electrodes of an NWB file (reads no samples). */
+export async function describeNwb(path: string): Promise<NwbContents> {
+  await nwbReady();
+  let fd: number;
+  try {
+    fd = openSync(path, constants.O_RDONLY);
+  } catch (e) {
+    throw new InputError({ file: path },
+      `cannot open file (${(e as NodeJS.ErrnoException).code ?? (e as Error).message})`, 'a readable NWB file');
+  }
+  const f = openHdf5(path, fd, fstatSync(fd).size);
+  try {
+    if (typeOf(f) !== 'NWBFile') {
+      throw new InputError({ file: path, field: '/' }, 'HDF5 without the NWB root attributes', 'an NWB 2.x file');
+    }
+    const meta = fileMetadata(f);
+    const series = findSeries(f).map((p) => {
+      const g = at(f, p) as H5Group;
+      const d = g.get('data') as H5Dataset;
+      const keys = g.keys();
+      const st = keys.includes('starting_time') ? g.get('starting_time') : null;
+      return {
+        path: p, type: typeOf(g) ?? '', shape: d.shape ?? [], unit: attrText(d, 'unit'),
+        time: isDataset(st) ? 'rate' as const : keys.includes('timestamps') ? 'timestamps' as const : 'none' as const,
+        ...(isDataset(st) ? { rate: attrNumber(st, 'rate') } : {}),
+      };
+    });
+    const intervals: NwbContents['intervals'] = [];
+    const iv = at(f, '/intervals');
+    if (isGroup(iv)) {
+      for (const k of iv.keys()) {
+        const g = iv.get(k);
+        if (!isGroup(g) || typeOf(g) !== 'TimeIntervals') continue;
+        const t = readTable(path, g, `/intervals/${k}`);
+        intervals.push({ path: `/intervals/${k}`, rows: t.n, columns: t.columns.map((c) => c.name) });
+      }
+    }
+    const el = at(f, '/general/extracellular_ephys/electrodes');
+    let electrodes: NwbContents['electrodes'];
+    if (isGroup(el)) {
+      const t = readTable(path, el, '/general/extracellular_ephys/electrodes');
+      electrodes = { rows: t.n, columns: t.columns.map((c) => c.name) };
+    }
+    return {
+      nwbVersion: meta.nwb_version,
+      writtenByFascicle: typeof meta.source_script === 'string' && meta.source_script.startsWith(FASCICLE_SCRIPT),
+      session: { identifier: meta.identifier, description: meta.session_description, startTime: meta.session_start_time },
+      subject: meta.subject, general: meta.general, series, intervals, electrodes,
+    };
+  } finally {
+    f.close();
+  }
+}

@@ -15,7 +15,7 @@ import { copyFileSync, existsSync, mkdtempSync, readdirSync, readFileSync, write
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { createHash } from 'node:crypto';
-import { readNwb, readNwbSync, readNwbTables, nwbReady } from '../../src/io/nwb';
+import { readNwb, readNwbSync, readNwbTables, nwbReady, describeNwb } from '../../src/io/nwb';
 import { writeNwb, writtenByFascicle } from '../../src/io/nwbWrite';
 import { h5, HyperslabReader } from '../../src/io/nwbLib';
 import { SweepSet, type Conditions } from '../../src/sweeps/SweepSet';
@@ -191,6 +191,21 @@ describe('readNwb(path, options) on files written by h5py', () => {
     } finally {
       spy.mockRestore();
     }
+  });
+
+  it('describeNwb lists the series, TimeIntervals tables and electrodes without reading samples', async () => {
+    const c = await describeNwb(fx('continuous.nwb'));
+    expect(c.nwbVersion).toBe('2.7.0');
+    expect(c.writtenByFascicle).toBe(false);
+    expect(c.series).toEqual([{ path: '/acquisition/nerve', type: 'ElectricalSeries', shape: [15000, 3], unit: 'volts', time: 'rate', rate: 10000 }]);
+    expect(c.intervals[0].path).toBe('/intervals/trials');
+    expect(c.intervals[0].rows).toBe(12);
+    expect(c.intervals[0].columns).toContain('intensity_mA');
+    expect(c.electrodes).toEqual({ rows: 3, columns: ['location', 'group_name', 'distance_mm', 'imp'] });
+    expect(c.subject?.subject_id).toBe('R7');
+    const p = await describeNwb(fx('precut.nwb'));
+    expect(p.series[0].time).toBe('timestamps');
+    expect(p.intervals.map((t) => t.path)).toEqual(['/intervals/stimulation']);
   });
 
   it('stimulusTimes and window read a file without an intervals table', async () => {
