@@ -272,8 +272,12 @@ export function pairedPulse(set: SweepSet, options: PairedPulseOptions = {}): Pa
       // recovery curve fit
       const fx: number[] = [], fy: number[] = [];
       const fracCol = o.measure === 'area' ? 'area_fraction' : 'amplitude_fraction';
+      // no response at or below the refractory period counts as 0 (not detected or not resolved there); elsewhere a
+      // response that was not detected counts as 0 and one that was not resolved is left out
+      const arpAt = num(row.arp_ms) ? (row.arp_ms as number) : -Infinity;
       for (const p of pts) {
-        if (p.status === 'not detected') { fx.push(p.interval_ms as number); fy.push(0); } else if (num(p[fracCol])) { fx.push(p.interval_ms as number); fy.push(p[fracCol] as number); }
+        const x = p.interval_ms as number;
+        if (p.status === 'not detected' || (x <= arpAt && p.detected !== true)) { fx.push(x); fy.push(0); } else if (num(p[fracCol])) { fx.push(x); fy.push(p[fracCol] as number); }
       }
       if (fx.length < o.minIntervals) {
         summary.push({ ...row, r50_ms: null, r90_ms: null, status: notes.concat(`recovery curve not fitted: ${fx.length} usable intervals, need ${o.minIntervals}`).join('; '), reason: 'too few intervals' });
