@@ -338,8 +338,10 @@ function validate(o: VelocityDistributionOptions): void {
 }
 
 /**
- * Default velocity grid: from the slowest fibre whose potential arrives at the nearest
- * distance before the end of the fit window, x_min / (end - t_u), to twice the fastest
+ * Default velocity grid: from the slowest fibre whose potential arrives at every distance
+ * (the farthest included) before the end of the fit window, x_max / (end - t_u), so that each
+ * grid velocity is seen at all distances (the dispersion between them is what separates the
+ * velocities from the potential's shape), to twice the fastest
  * whose arrival at the farthest distance falls after the fit start, 2 x_max / (start - t_u)
  * (the potential of a faster fibre still reaches into the window), at most 200 m/s.
  */
@@ -348,7 +350,7 @@ export function velocityGrid(distances: number[], fit: [number, number], utilisa
   if (range) [lo, hi] = range;
   else {
     const end = fit[1] - utilisationMs, start = Math.max(fit[0] - utilisationMs, 0.05);
-    lo = distances[0] / end;
+    lo = distances[distances.length - 1] / end;
     hi = Math.min(200, (2 * distances[distances.length - 1]) / start);
     if (!(hi > lo * 1.5)) throw new AnalysisError(`the fit window ${fmtW(fit)} and distances ${distances.join(', ')} mm give no velocity range (${fmt(lo)} to ${fmt(hi)} m/s); give velocityRange`);
   }
