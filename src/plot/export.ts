@@ -13,7 +13,7 @@ import { existsSync, writeFileSync, mkdirSync } from 'node:fs';
 import { dirname, extname } from 'node:path';
 import type { Browser, Page } from 'playwright-core';
 import type { Figure, PlotlySpec } from './figure';
-import { plotlyJs, LAYOUT_FIT_JS } from './figure';
+import { plotlyJs, LAYOUT_FIT_JS, drawnSpec } from './figure';
 import { OptionError } from '../errors';
 import { checkKeys } from '../validate';
 import { escapeHtml } from '../notebook/html';
@@ -183,7 +183,7 @@ export class FigureExporter {
     checkKeys('figure size options', options, ['widthMm', 'heightMm', 'column', 'title']);
     const { widthMm, heightMm } = printSize(options);
     const wPx = Math.round(widthMm * PX_PER_MM), hPx = Math.round(heightMm * PX_PER_MM);
-    const spec = printSpec(JSON.parse(figure.specJson(8)) as PlotlySpec, wPx, hPx, options);
+    const spec = printSpec(drawnSpec(JSON.parse(figure.specJson(8)) as PlotlySpec), wPx, hPx, options);
     const pad = 1.2 * PX_PER_MM, gap = 1 * PX_PER_MM;
     const url: string = await this.page.evaluate(async ({ spec, w, h, pad, gap }) => {
       document.body.innerHTML = '<div id="f"></div>';

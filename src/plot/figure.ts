@@ -12,7 +12,7 @@ import { readFileSync } from 'node:fs';
 import { gzipSync } from 'node:zlib';
 import { inspect } from 'node:util';
 import { escapeHtml, tslabDisplay } from '../notebook/html';
-import { sentenceCase } from './labels';
+import { sentenceCase, logAxis } from './labels';
 
 /**
  * Class colours: the colour-blind-safe set of Wong (2011) "Points of view: Color blindness",
@@ -124,7 +124,7 @@ function R(){return gd.querySelector('.main-svg').getBoundingClientRect();}
 function rel(r,Q){return{l:r.left-Q.left,r:r.right-Q.left,t:r.top-Q.top,b:r.bottom-Q.top};}
 function boxes(test){var Q=R(),out=[];
   Array.prototype.forEach.call(gd.querySelectorAll('text'),function(e){if(!(e.textContent||'').trim())return;
-    var c=(e.parentNode&&e.parentNode.getAttribute('class'))||'';if(!test(c))return;var r=e.getBoundingClientRect();
+    var c=(e.parentNode&&e.parentNode.getAttribute('class'))||'';if(!test(c,e))return;var r=e.getBoundingClientRect();
     if(r.width||r.height)out.push(rel(r,Q));});return out;}
 function ext(bs){return bs.reduce(function(a,b){return{l:Math.min(a.l,b.l),r:Math.max(a.r,b.r),t:Math.min(a.t,b.t),b:Math.max(a.b,b.b)};},
   {l:1e9,r:-1e9,t:1e9,b:-1e9});}
@@ -139,13 +139,15 @@ function update(below){var fl=gd._fullLayout,s=fl._size,W=fl.width,H=fl.height,u
   var isX=function(c){return/^x\d*tick$/.test(c)||/^g-x\d*title$/.test(c);},isY=function(c){return/^y\d*tick$/.test(c)||/^g-y\d*title$/.test(c);};
   var xb=ext(boxes(isX)),yb=ext(boxes(isY)),tb=boxes(function(c){return c==='g-gtitle';});
   var plotB=s.t+s.h,plotR=s.l+s.w,titleT=fl.title&&fl.title.text&&tb.length?ext(tb):null;
+  var an=ext(boxes(function(c,e){return!!e.closest('.annotation');}));
+  if(an.t<1e8){yb={l:yb.l,r:yb.r,t:Math.min(yb.t,an.t),b:yb.b};xb={l:xb.l,r:xb.r,t:xb.t,b:Math.max(xb.b,an.b)};}
   if(titleT&&titleT.r-titleT.l>W-2*pad&&!wrapped.t){wrapped.t=1;var t2=wrap(fl.title.text);if(t2)u['title.text']=t2;}
   boxes(function(c){return/^g-xtitle$/.test(c);}).forEach(function(b){if(b.r-b.l>s.w&&!wrapped.x){wrapped.x=1;
     var t=wrap(titleOf(gd.layout.xaxis));if(t)u['xaxis.title.text']=t;}});
   boxes(function(c){return/^g-ytitle$/.test(c);}).forEach(function(b){if(b.b-b.t>s.h&&!wrapped.y){wrapped.y=1;
     var t=wrap(titleOf(gd.layout.yaxis));if(t)u['yaxis.title.text']=t;}});
   var lb=below?legendBox():null,lh=lb?lb.b-lb.t:0,top=pad;
-  var sc=gd.querySelector('.slider-container'),sh=0,xe=xb.b>-1e8?xb.b-plotB:0;
+  var sc=gd.querySelector('.slider-container'),sh=0,xe=xb.b>-1e8?Math.max(0,xb.b-plotB):0;
   if(sc&&fl.sliders&&fl.sliders.length){var sr=rel(sc.getBoundingClientRect(),R());sh=sr.b-sr.t;
     var sy=-(xe+gap)/s.h;if(Math.abs((fl.sliders[0].y-sy)*s.h)>0.5)u['sliders[0].y']=sy;}
   if(titleT){u['title.y']=Math.min(1,fl.title.y-(pad-titleT.t)/H);top=pad+(titleT.b-titleT.t)+gap;}
@@ -174,15 +176,19 @@ function dataPoints(){var fl=gd._fullLayout,s=fl._size,out=[];
         if(up)out.push(up);if(dn)out.push(dn);}}});
   return out.filter(function(p){return p[0]>=s.l-1&&p[0]<=s.l+s.w+1&&p[1]>=s.t-1&&p[1]<=s.t+s.h+1;});}
 function inside(){var L=legendBox(),fl=gd._fullLayout,s=fl._size;if(!L)return null;var w=L.r-L.l,h=L.b-L.t,e=3,m=4;
-  if(w>0.65*s.w||h>0.7*s.h)return null;var pts=dataPoints();
+  if(w>0.65*s.w||h>0.7*s.h)return null;var pts=dataPoints(),fixed=[];
+  // annotations (paper-anchored text) are obstacles that do not move with the axis range
+  boxes(function(c,e){return!!e.closest('.annotation');}).forEach(function(b){for(var i=0;i<=4;i++)for(var j=0;j<=2;j++)
+    fixed.push([b.l+(b.r-b.l)*i/4,b.t+(b.b-b.t)*j/2]);});
+  function hits(P,l,t){return P.some(function(p){return p[0]>l-m&&p[0]<l+w+m&&p[1]>t-m&&p[1]<t+h+m;});}
   function at(c){return{'legend.x':c[0]?1-e/s.w:e/s.w,'legend.y':c[1]?1-e/s.h:e/s.h,'legend.xanchor':c[0]?'right':'left',
     'legend.yanchor':c[1]?'top':'bottom'};}
   var cs=[[1,1],[0,1],[1,0],[0,0]];
   for(var i=0;i<cs.length;i++){var c=cs[i],l=c[0]?s.l+s.w-e-w:s.l+e,t=c[1]?s.t+e:s.t+s.h-e-h;
-    if(!pts.some(function(p){return p[0]>l-m&&p[0]<l+w+m&&p[1]>t-m&&p[1]<t+h+m;}))return at(c);}
+    if(!hits(pts,l,t)&&!hits(fixed,l,t))return at(c);}
   // no free corner: give the y axis headroom (the data keep at least 60% of the height) and use a top corner
   var ya=fl.yaxis;if(!ya||ya.type==='category'||!ya.range||fl.yaxis2)return null;var best=null;
-  [1,0].forEach(function(cx){var l=cx?s.l+s.w-e-w:s.l+e,top=1e9;
+  [1,0].forEach(function(cx){var l=cx?s.l+s.w-e-w:s.l+e,top=1e9;if(hits(fixed,l,s.t+e))return;
     pts.forEach(function(p){if(p[0]>l-m&&p[0]<l+w+m)top=Math.min(top,p[1]);});
     var dB=s.t+s.h-top,f=dB>0?(s.h-e-h-2*m)/dB:1;if(f>=0.6&&(!best||f>best.f))best={f:Math.min(1,f),c:[cx,1]};});
   if(!best)return null;var r0=ya.range[0],r1=ya.range[1],u=at(best.c);
@@ -197,6 +203,29 @@ return (same?Promise.resolve():P.relayout(gd,u0)).then(function(){return settle(
   return P.relayout(gd,{'legend.orientation':'h','legend.xref':'paper','legend.yref':'paper','legend.x':-(s.l-pad)/s.w,
     'legend.y':-0.3,'legend.xanchor':'left','legend.yanchor':'top','legend.bgcolor':'rgba(0,0,0,0)'})
   .then(function(){return settle(true,0);});});};`;
+
+/**
+ * The spec as it is drawn: every log axis without its own tick values gets ticks that
+ * label full values (labels.ts logAxis over the data of that axis), so no figure shows
+ * plotly's leading-digit labels ("5, 2, 10, 5, 2, 1").
+ */
+export function drawnSpec(spec: PlotlySpec): PlotlySpec {
+  const L = spec.layout;
+  let out: PlotlySpec | null = null;
+  for (const k of Object.keys(L)) {
+    const m = /^([xy])axis(\d*)$/.exec(k);
+    const a = L[k] as { type?: string; tickvals?: unknown; tickmode?: string } | undefined;
+    if (!m || !a || a.type !== 'log' || a.tickvals !== undefined || a.tickmode === 'linear') continue;
+    const id = m[1] + m[2];
+    const vals = spec.data.filter((t) => String(t[`${m[1]}axis`] ?? m[1]) === id).flatMap((t) => (Array.isArray(t[m[1]]) ? (t[m[1]] as unknown[]) : []));
+    const { type: _t, ...ticks } = logAxis(vals);
+    void _t;
+    if (!('tickvals' in ticks)) continue;
+    out ??= { ...spec, layout: { ...L } };
+    out.layout[k] = { ...a, ...ticks, ...((a as { range?: unknown }).range ? { range: (a as { range?: unknown }).range } : {}) };
+  }
+  return out ?? spec;
+}
 
 export class Figure {
   readonly name: string;
@@ -218,7 +247,7 @@ export class Figure {
    */
   toHTML(library: 'embedded' | 'page' | 'script-tag' = 'embedded', src = '../plotly.min.js'): string {
     const id = `fascicle-fig-${Date.now().toString(36)}-${(counter++).toString(36)}`;
-    const spec = this.specJson().replace(/</g, '\\u003c');
+    const spec = new Figure(this.name, drawnSpec(this.spec)).specJson().replace(/</g, '\\u003c');
     const { width, height } = this.spec.layout as { width?: number; height?: number };
     const div = `<div id="${id}" class="fascicle-figure" data-name="${escapeHtml(this.name)}" style="width:${width ?? 640}px;height:${height ?? 420}px"></div>`;
     const plot = `${LAYOUT_FIT_JS}var s=${spec};window.Plotly.newPlot(${JSON.stringify(id)},s.data,s.layout,Object.assign({displaylogo:false,responsive:false},s.config||{})).then(function(gd){return window.__fascicleFit(gd,{pad:6,gap:6});});`;
