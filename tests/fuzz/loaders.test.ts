@@ -486,6 +486,47 @@ describe('fuzz: manifest', () => {
     fc.record({ kind: fc.constant('deep' as const), depth: fc.constantFrom(40, 1000, 100000) }),
   );
 
+  // the documented manifest (README, schema/manifest.schema.json, PipelineOptions), checked the plain way
+  const TOP = ['fascicleManifest', 'study', 'description', 'species', 'nerve', 'classPreset', 'required', 'defaults', 'analysis', 'files'];
+  const FILE = ['path', 'format', 'options', 'conditions', 'sweeps'];
+  const OPTIONS = ['delimiter', 'decimal', 'layout', 'timeUnit', 'units', 'stimulusAt'];
+  const STEPS = ['baseline', 'artifact', 'hum', 'filter', 'averageRepeats', 'poolSites', 'components', 'doseResponse', 'recruitment',
+    'strengthDuration', 'temperature'];
+  const BASELINE = ['window', 'method', 'lateWindow'];
+  const SERIES = ['intensity', 'distance', 'dose', 'temperature', 'pulse-width'];
+  const plain = (x: unknown): x is Record<string, unknown> => x !== null && typeof x === 'object' && !Array.isArray(x);
+  const primitive = (c: unknown) => plain(c) && Object.values(c).every((v) => v === null || typeof v === 'string' || typeof v === 'boolean'
+    || (typeof v === 'number' && Number.isFinite(v)));
+  const condOk = (c: unknown) => c === undefined || (primitive(c) && (!Object.hasOwn(c as object, 'series')
+    || (c as Record<string, unknown>).series === null || SERIES.includes((c as Record<string, string>).series))
+    && (!Object.hasOwn(c as object, 'preparation') || typeof (c as Record<string, unknown>).preparation === 'string'));
+  function refManifestOk(m: unknown): boolean {
+    if (!plain(m) || Object.keys(m).some((k) => !TOP.includes(k)) || m.fascicleManifest !== 1) return false;
+    for (const k of ['study', 'description', 'species', 'nerve']) if (m[k] !== undefined && typeof m[k] !== 'string') return false;
+    if (m.classPreset !== undefined && !['mammalian', 'mammalian-detailed', 'amphibian'].includes(m.classPreset as string)) return false;
+    if (m.required !== undefined && (!Array.isArray(m.required) || !m.required.every((r) => typeof r === 'string'))) return false;
+    if (!condOk(m.defaults)) return false;
+    if (m.analysis !== undefined) {
+      if (!plain(m.analysis) || Object.keys(m.analysis).some((k) => !STEPS.includes(k))) return false;
+      const b = m.analysis.baseline;
+      if (b !== undefined && b !== false && (!plain(b) || Object.keys(b).some((k) => !BASELINE.includes(k)))) return false;
+      if (Object.keys(m.analysis).some((k) => k !== 'baseline')) return false; // the fuzz writes no other step
+    }
+    if (!Array.isArray(m.files) || !m.files.length) return false;
+    for (const f of m.files) {
+      if (!plain(f) || Object.keys(f).some((k) => !FILE.includes(k)) || typeof f.path !== 'string' || !(f.path in values)) return false;
+      if (f.format !== undefined && f.format !== 'delimited') return false;
+      if (f.options !== undefined && (!plain(f.options) || Object.keys(f.options).some((k) => !OPTIONS.includes(k)))) return false;
+      if (!condOk(f.conditions)) return false;
+      if (f.sweeps !== undefined && (!Array.isArray(f.sweeps) || f.sweeps.length !== 2 || !f.sweeps.every(condOk))) return false;
+    }
+    const required = (m.required as string[] | undefined) ?? ['preparation'];
+    for (const c of expectedConditions(m as ReturnType<typeof toJson>)) {
+      for (const k of required) if (!Object.hasOwn(c, k) || (c as Record<string, unknown>)[k] === null) return false;
+    }
+    return true;
+  }
+
   it('corrupted manifests: a typed error naming the file, or the documented join', () => {
     fc.assert(fc.property(manifest, fc.array(mEdit, { minLength: 1, maxLength: 2 }), (g, edits) => {
       const m = toJson(g as G) as Record<string, unknown> & { files: Record<string, unknown>[]; defaults: Record<string, unknown> };
@@ -518,12 +559,13 @@ describe('fuzz: manifest', () => {
       const p = parsed as ReturnType<typeof toJson> | undefined;
       const r = timed(() => readManifest((writeFileSync(join(dir, 'm.json'), finalText), join(dir, 'm.json'))));
       if (r.error === undefined) {
-        // it loaded: the JSON must be a plain manifest of the files written here, joined as documented
-        if (!p || !Array.isArray(p.files) || !p.files.every((f) => typeof f.path === 'string' && f.path in values)) return record('manifest-corrupt', 'crash', `loaded a manifest that names other files: ${finalText.slice(0, 300)}`);
+        // it loaded: the JSON must be a manifest as documented, of the files written here, joined as documented
+        if (!refManifestOk(p)) return record('manifest-corrupt', 'crash', `loaded a manifest the documentation does not allow: ${finalText.slice(0, 300)}`);
         return checkManifest('manifest-corrupt', finalText, { data: p.files.flatMap((f) => values[f.path]), conditions: expectedConditions(p) }, false);
       }
       if (r.ms > 10000) return record('manifest-corrupt', 'crash', `took ${r.ms} ms`);
       if (!(r.error instanceof InputError) || r.error.place.file === undefined) return record('manifest-corrupt', 'crash', `${describeError(r.error)} for ${finalText.slice(0, 300)}`);
+      if (refManifestOk(p)) return record('manifest-corrupt', 'crash', `a valid manifest was rejected: ${describeError(r.error)} for ${finalText.slice(0, 300)}`);
       return record('manifest-corrupt', 'typed-error');
     }), { seed: SEED + 6, numRuns: runs(1000) });
   });
