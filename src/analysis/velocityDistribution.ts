@@ -301,8 +301,11 @@ function validate(o: VelocityDistributionOptions): void {
   if (o.nVelocities !== undefined) integerIn('nVelocities', o.nVelocities, 8, 400);
   if (o.fitWindow !== undefined) windowMs('fitWindow', o.fitWindow);
   if (o.fitStartByDistance !== undefined) {
-    checkKeys('fitStartByDistance', o.fitStartByDistance, Object.keys(o.fitStartByDistance));
-    for (const [k, v] of Object.entries(o.fitStartByDistance)) finite(`fitStartByDistance[${k}]`, v, 'ms');
+    if (typeof o.fitStartByDistance !== 'object' || o.fitStartByDistance === null || Array.isArray(o.fitStartByDistance)) throw new OptionError(`invalid fitStartByDistance: ${shown(o.fitStartByDistance)}; must be an object of distance (mm) to fit start (ms), e.g. { 15: 0.45 }`);
+    for (const [k, v] of Object.entries(o.fitStartByDistance)) {
+      if (!(Number(k) > 0)) throw new OptionError(`invalid fitStartByDistance key ${JSON.stringify(k)}; must be a distance in mm (> 0)`);
+      finite(`fitStartByDistance[${k}]`, v, 'ms');
+    }
   }
   if (o.sfp !== undefined && o.sfp !== 'estimate') {
     const s = o.sfp as { samples?: ArrayLike<number>; dtMs?: number; t0Ms?: number };

@@ -141,10 +141,17 @@ describe('velocityDistribution validation', () => {
     expect(() => velocityDistribution(syn.set, { method: 'cummins' as never })).toThrow(OptionError);
     expect(() => velocityDistribution(syn.set, { velocityRange: [10, 5] })).toThrow(/invalid velocityRange/);
     expect(() => velocityDistribution(syn.set, { method: 'two-distance', durationExponent: 1 })).toThrow(/same waveform/);
+    expect(() => velocityDistribution(syn.set, { fitStartByDistance: { 12: 0.4 } })).toThrow(/distance 12 mm is not in the set \(distances 10, 20 mm\)/);
+    expect(() => velocityDistribution(syn.set, { fitStartByDistance: { near: 0.4 } as never })).toThrow(/must be a distance in mm/);
+    expect(() => velocityDistribution(syn.set, { sfp: { samples: [1, 2], dtMs: 0.02, t0Ms: 0 } })).toThrow(/sfp.samples/);
+    expect(() => velocityDistribution(syn.set, { utilisationMs: 0.1 })).toThrow(/absorbs the utilisation delay/);
+    expect(() => velocityDistribution(syn.set, { fitWindow: [14.9, 15] })).toThrow(/holds \d+ samples/);
   });
   it('needs two distances and one condition', () => {
     expect(() => velocityDistribution(syn.set.where({ distanceMm: 10 }))).toThrow(AnalysisError);
     expect(() => velocityDistribution(syn.set.where({ distanceMm: 10 }))).toThrow(/two or more conduction distances/);
+    const mixed = new SweepSet({ ...syn.set, data: syn.set.data, conditions: syn.set.conditions.map((c, i) => ({ ...c, temperatureC: i % 2 ? 30 : 37 })) });
+    expect(() => velocityDistribution(mixed)).toThrow(/differ in "temperatureC".*set.where/);
   });
   it('documented defaults match the defaults object', () => {
     // the option comments in src/analysis/velocityDistribution.ts state these values
