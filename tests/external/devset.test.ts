@@ -139,6 +139,28 @@ function byEstimator(title: string, rows: Check[]): void {
   console.log(lines.join('\n'));
 }
 byEstimator('Velocity by estimator through the public API (m/s)', apiChecks.velocity);
+/** the README's table ("Which velocity to report") against this run: cells that differ are printed */
+function readmeDiff(rows: Check[]): void {
+  const md = readFileSync(join(__dirname, '..', '..', 'README.md'), 'utf8');
+  const sec = md.slice(md.indexOf('### Which velocity to report'), md.indexOf('## Notebooks'));
+  const names: Record<string, string> = { peak: 'peak', 'onset 10%': 'onset', 'half-rise': 'halfrise', centroid: 'centroid', 'cross-correlation': 'xcorr' };
+  const diffs: string[] = [];
+  let cells = 0;
+  for (const line of sec.split('\n').filter((l) => /^\| (A-|C )/.test(l))) {
+    const [, cls, est, ...temps] = line.split('|').map((x) => x.trim());
+    const basis = names[est.replace(/\*|\(recommended\)/g, '').trim()];
+    temps.slice(0, 4).forEach((cell, i) => {
+      const r = rows.find((q) => q.class === cls && q.where === `${TEMPS[i]} C` && q.estimator.replace(' (recommended)', '') === `two-site ${basis}`);
+      const m = /^([\d.]+) \//.exec(cell);
+      cells++;
+      const now = r?.estimate ?? null;
+      const readme = m ? Number(m[1]) : null;
+      if (readme !== (now === null ? null : Number(now.toPrecision(3)))) diffs.push(`${cls} ${est} ${TEMPS[i]} C: README ${cell}, now ${now === null ? 'none' : now.toPrecision(3)}`);
+    });
+  }
+  console.log(`README velocity table vs this run: ${cells - diffs.length} of ${cells} cells agree${diffs.length ? '\n  ' + diffs.join('\n  ') : ''}`);
+}
+readmeDiff(apiChecks.velocity);
 for (const r of cliRuns) console.log(`fascicle run (${r.w}): exit ${r.status}${r.stderr ? `\n${r.stderr.slice(0, 1500)}` : ''}`);
 
 /**
