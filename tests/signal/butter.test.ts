@@ -107,3 +107,26 @@ describe('sosfiltfiltPair (two sweeps interleaved)', () => {
     expect([...ob]).toEqual([...sosfiltfilt(sos, b)]);
   });
 });
+
+describe('sosfiltfiltPairExt (signals placed in the work buffers)', () => {
+  it('equals two sosfiltfilt calls bit for bit, down to the shortest signal and padlen 0', async () => {
+    const { sosfiltfiltPairExt, filtfiltWork, defaultPadlen } = await import('../../src/signal/sosfilt');
+    for (const [btype, cutoff] of [['lowpass', 700], ['highpass', 50]] as const) {
+      const sos = butter({ order: 4, cutoff, btype, fs: 10000 });
+      for (const padlen of [0, 3, defaultPadlen(sos)]) {
+        for (const n of [padlen + 1, padlen + 2, 257]) {
+          const a = Float64Array.from({ length: n }, (_, i) => Math.sin(i / 7) + (i % 5) - 2);
+          const b = Float64Array.from({ length: n }, (_, i) => Math.cos(i / 3) * 1e-3 - (i % 3));
+          const wa = filtfiltWork(sos, n, padlen), wb = filtfiltWork(sos, n, padlen);
+          wa.ext.set(a, padlen);
+          wb.ext.set(b, padlen);
+          const oa = new Float64Array(n), ob = new Float64Array(n);
+          sosfiltfiltPairExt(sos, oa, ob, wa, wb, n, padlen);
+          const ra = sosfiltfilt(sos, a, { padlen }), rb = sosfiltfilt(sos, b, { padlen });
+          expect(oa.every((v, i) => Object.is(v, ra[i]))).toBe(true);
+          expect(ob.every((v, i) => Object.is(v, rb[i]))).toBe(true);
+        }
+      }
+    }
+  });
+});
