@@ -8,7 +8,7 @@
  * conditioning-alone sweeps it is extrapolated from the same sweep: an exponential decay fitted to the last
  * `extrapolateMs` before the test pulse (a straight level when the tail does not decay), said in every row's status.
  * The difference is then moved so that the test pulse is at 0 ms (whole samples; the remaining fraction of a sample is
- * taken off every latency), samples in `blankMs` after the test pulse are bridged by a straight line (its artifact),
+ * taken off every latency; before 0 ms it holds the quiet pre-conditioning samples, where the noise level is taken), samples in `blankMs` after the test pulse are bridged by a straight line (its artifact),
  * and the test response is measured with measureComponents exactly as the test-alone average is. Per class:
  * amplitude, area and latency of the test response, as fractions of (and, for latency, the increase over) the
  * test-alone response.
@@ -217,6 +217,11 @@ export function pairedPulse(set: SweepSet, options: PairedPulseOptions = {}): Pa
       const d = new Float64Array(pm.length);
       for (let j = 0; j < d.length; j++) d[j] = pm[j] - r[j];
       const l = lockToStimulus(d, set.fs, set.t0Ms, isi, o.blankMs);
+      // before the test pulse: the quiet pre-conditioning samples (of the difference; of the paired mean when the
+      // conditioning response was extrapolated, where the difference is zero by construction)
+      const quiet = condMean ? d : pm;
+      const zero = Math.min(l.y.length, Math.max(0, Math.round(-set.t0Ms / (1000 / set.fs))));
+      for (let j = 0; j < zero; j++) l.y[j] = quiet[j];
       traces.push(l.y); remainder.push(l.remainderMs); nSweeps.push(pi.length);
       subtraction.push(condMean ? `conditioning-alone mean (${cond.length} sweeps)` : `extrapolated: ${(ref as { method: string }).method}`);
     }

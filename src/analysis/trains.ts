@@ -2,11 +2,13 @@
  * Stimulus trains: several pulses in one sweep (conditions `trainHz` and `trainPulses`, the first pulse at 0 ms).
  * Sweeps of one group and frequency are averaged; each response is measured in its own window from its own stimulus
  * time: the average is moved so that pulse k is at 0 ms (whole samples; the fraction left is taken off latencies),
- * samples from the next pulse on are set to zero, `blankMs` after the pulse is bridged by a straight line, and the
+ * samples from the next pulse on are set to zero, samples before the pulse are the quiet pre-train samples (so the
+ * noise level is not taken from earlier responses), `blankMs` after the pulse is bridged by a straight line, and the
  * classes are measured with measureComponents. Per class and pulse: latency, amplitude, area, the latency increase from
  * pulse 1 (activity-dependent slowing) and the fractions of pulse 1 (frequency following). Summary per class and
  * frequency: latency increase at the last pulse (ms and % of pulse 1's latency), and the pulse at which the class
- * fails: the first pulse whose response is not detected or whose area is below `failFraction` (default 0.5) of pulse
+ * fails: the first pulse whose response is not detected, not resolved (no response of its own in its window, only an
+ * earlier response's tail), or whose area is below `failFraction` (default 0.5) of pulse
  * 1's (a rule of ours; common practice, no source). A class whose pulse-1 response lasts past the next pulse is
  * flagged: its tail is cut at the next stimulus and a slower class's tail from the previous pulse is not removed.
  */
@@ -100,6 +102,9 @@ export function trains(set: SweepSet, options: TrainOptions = {}): TrainResult {
     const traces: Float64Array[] = [], rem: number[] = [];
     for (let k = 0; k < n; k++) {
       const l = lockToStimulus(mean, set.fs, set.t0Ms, k * period, o.blankMs);
+      // before its own stimulus: the quiet pre-train samples (the noise level comes from there, not from earlier responses)
+      const zero = Math.min(l.y.length, Math.max(0, Math.round(-set.t0Ms / dt)));
+      for (let i = 0; i < zero; i++) l.y[i] = mean[i];
       // own window: nothing from the next pulse on
       if (k + 1 < n) { const cut = Math.round((period - set.t0Ms) / dt); for (let i = Math.max(0, cut); i < l.y.length; i++) l.y[i] = 0; }
       traces.push(l.y); rem.push(l.remainderMs);
@@ -132,12 +137,13 @@ export function trains(set: SweepSet, options: TrainOptions = {}): TrainResult {
       if (!refOk) { summary.push({ ...row, status: 'not measured', reason: `pulse-1 response not measured (${ref.status}${ref.reason ? `: ${ref.reason}` : ''})` }); continue; }
       const notes: string[] = [];
       if (num(ref.centroid_to_ms) && (ref.centroid_to_ms as number) > period) notes.push(`the pulse-1 response lasts to ${Number((ref.centroid_to_ms as number).toFixed(2))} ms, past the next pulse at ${Number(period.toFixed(2))} ms: later responses overlap its tail`);
-      const fail = pts.findIndex((p) => p.status === 'not detected' || (num(p.area_fraction) && (p.area_fraction as number) < o.failFraction));
+      const noResponse = (p: Row) => p.status === 'not detected' || p.status === 'not resolved';
+      const fail = pts.findIndex((p) => noResponse(p) || (num(p.area_fraction) && (p.area_fraction as number) < o.failFraction));
       const last = pts[pts.length - 1];
       summary.push({
         ...row, last_latency_increase_ms: last.latency_increase_ms, last_latency_increase_pct: num(last.latency_increase_ms) ? (100 * (last.latency_increase_ms as number)) / lat0! : null,
         last_area_fraction: last.area_fraction, failure_pulse: fail < 0 ? null : fail + 1,
-        status: notes.length ? notes.join('; ') : 'ok', reason: fail < 0 ? null : `fails at pulse ${fail + 1} (${pts[fail].status === 'not detected' ? 'not detected' : `area below ${o.failFraction} of pulse 1`})`,
+        status: notes.length ? notes.join('; ') : 'ok', reason: fail < 0 ? null : `fails at pulse ${fail + 1} (${noResponse(pts[fail]) ? String(pts[fail].status) : `area below ${o.failFraction} of pulse 1`})`,
       });
     }
   }
