@@ -18,8 +18,29 @@ export function formatCell(v: unknown): string {
   return String(v);
 }
 
-/** An HTML table from rows; columns default to the union of keys in first-seen order. */
-export function tableHtml(rows: readonly object[], opts: { columns?: string[]; caption?: string; maxRows?: number } = {}): string {
+/**
+ * Click-to-sort for tables marked data-sortable (one listener per page): numbers by
+ * value, text alphabetically, empty cells last; a second click reverses the order.
+ */
+export const TABLE_SORT_JS = `(function(){if(window.__fascicleSort)return;window.__fascicleSort=1;
+document.addEventListener('click',function(ev){var th=ev.target&&ev.target.closest&&ev.target.closest('table[data-sortable] thead th');
+if(!th)return;var table=th.closest('table'),i=Array.prototype.indexOf.call(th.parentNode.children,th),body=table.tBodies[0];
+var dir=th.getAttribute('aria-sort')==='ascending'?-1:1;
+Array.prototype.forEach.call(th.parentNode.children,function(h){h.removeAttribute('aria-sort');});
+th.setAttribute('aria-sort',dir>0?'ascending':'descending');
+function key(r){var t=r.cells[i]?r.cells[i].textContent.trim():'';if(t==='')return null;
+var n=Number(t);return isFinite(n)?n:t.toLowerCase();}
+var rows=Array.prototype.slice.call(body.rows).map(function(r,k){return{r:r,k:key(r),i:k};});
+rows.sort(function(a,b){if(a.k===null||b.k===null)return a.k===b.k?a.i-b.i:a.k===null?1:-1;
+if(typeof a.k!==typeof b.k)return(typeof a.k==='number'?-1:1)*dir;return((a.k<b.k?-1:a.k>b.k?1:0)*dir)||a.i-b.i;});
+rows.forEach(function(x){body.appendChild(x.r);});});})();`;
+
+/**
+ * An HTML table from rows; columns default to the union of keys in first-seen order.
+ * `sortable`: headers sort the rows when clicked (TABLE_SORT_JS, included once per table;
+ * it installs itself once per page).
+ */
+export function tableHtml(rows: readonly object[], opts: { columns?: string[]; caption?: string; maxRows?: number; sortable?: boolean } = {}): string {
   const cols = opts.columns ?? [...new Set(rows.flatMap((r) => Object.keys(r)))];
   const max = opts.maxRows ?? 200;
   const shown = rows.slice(0, max);
@@ -27,7 +48,10 @@ export function tableHtml(rows: readonly object[], opts: { columns?: string[]; c
   const body = shown.map((r) => `<tr>${cols.map((c) => `<td>${escapeHtml(formatCell((r as Record<string, unknown>)[c]))}</td>`).join('')}</tr>`).join('\n');
   const more = rows.length > max ? `<p>${rows.length - max} more rows not shown (${rows.length} in all).</p>` : '';
   const cap = opts.caption ? `<caption>${escapeHtml(opts.caption)}</caption>` : '';
-  return `<div class="fascicle-table" style="max-height:420px;overflow:auto"><table style="border-collapse:collapse;font:12px sans-serif">${cap}<thead><tr>${head}</tr></thead><tbody>${body}</tbody></table>${more}</div>`;
+  const sort = opts.sortable ? ' data-sortable' : '';
+  const script = opts.sortable ? `<script>${TABLE_SORT_JS}</script>` : '';
+  const th = opts.sortable ? head.replace(/<th>/g, '<th style="cursor:pointer" title="sort">') : head;
+  return `<div class="fascicle-table" style="max-height:420px;overflow:auto"><table${sort} style="border-collapse:collapse;font:12px sans-serif">${cap}<thead><tr>${th}</tr></thead><tbody>${body}</tbody></table>${more}</div>${script}`;
 }
 
 /** Plain-text table for terminals. */

@@ -1,6 +1,7 @@
 /** Rich display of a SweepSet in a notebook: the HTML summary. */
 import { describe, it, expect } from 'vitest';
-import { SweepSet, sweepSetHtml } from '../../src';
+import { SweepSet, sweepSetHtml, tableHtml, findBrowser } from '../../src';
+import { BROWSER_ARGS } from '../../src/plot/export';
 
 describe('sweepSetHtml', () => {
   const evil = '<img src=x onerror=alert(1)>';
@@ -24,4 +25,27 @@ describe('sweepSetHtml', () => {
     expect(html).not.toContain('<img');
     expect(html).toContain('&lt;img src=x onerror=alert(1)&gt;');
   });
+});
+
+describe.skipIf(!findBrowser())('tableHtml({ sortable: true }) in Chromium', () => {
+  it('a header click sorts numbers by value (not as text), empty cells last; a second click reverses', async () => {
+    const { chromium } = await import('playwright-core');
+    const browser = await chromium.launch({ executablePath: findBrowser()!, args: BROWSER_ARGS });
+    try {
+      const page = await browser.newPage();
+      const rows = [{ p: 'N2', v: 10 }, { p: 'N10', v: 9 }, { p: 'n1', v: null }, { p: 'N3', v: 100 }, { p: 'N4', v: 0.002 }];
+      // two tables on one page: the sorter installs once and each table sorts on its own
+      await page.setContent(`<!doctype html><body>${tableHtml(rows, { sortable: true })}${tableHtml(rows, { sortable: true })}</body>`);
+      const col = (t: number, c: number) => page.evaluate(([t, c]) => [...document.querySelectorAll('table')[t].tBodies[0].rows].map((r) => r.cells[c].textContent), [t, c]);
+      await page.locator('table').nth(0).locator('th').nth(1).click();
+      expect(await col(0, 1)).toEqual(['0.002', '9', '10', '100', '']); // numeric order: 0.002 < 9 < 10 < 100
+      await page.locator('table').nth(0).locator('th').nth(1).click();
+      expect(await col(0, 1)).toEqual(['100', '10', '9', '0.002', '']);
+      await page.locator('table').nth(0).locator('th').nth(0).click();
+      expect(await col(0, 0)).toEqual(['n1', 'N10', 'N2', 'N3', 'N4']); // text, case-insensitive
+      expect(await col(1, 0)).toEqual(['N2', 'N10', 'n1', 'N3', 'N4']); // the other table is untouched
+    } finally {
+      await browser.close();
+    }
+  }, 30000);
 });
