@@ -16,10 +16,10 @@
 // - removeHum: the variance over the fitted samples does not grow; the power per sample
 //   subtracted from left-out samples is at most humLimits.maxExtrapolationGain times the
 //   variance per sample removed from the fitted ones (otherwise the call is refused).
-// - zero-phase filters: SS of the whole sweep does not grow beyond the edge allowance of
-//   the odd extension (|H| <= 1 for Butterworth and notch; SciPy's padding rule).
-// - resample and decimate: the mean power per sample does not grow beyond the filter's
-//   pass-band ripple and edge allowance.
+// - zero-phase filters: SS of the whole sweep does not grow (Butterworth |H| <= 1; 0.1% for
+//   rounding and the odd extension's edges), the notch's edge transient at most 3%.
+// - resample and decimate: the mean power per sample grows at most 3% (pass-band ripple of
+//   the anti-alias filter and the ends).
 import { describe, it, expect } from 'vitest';
 import fc from 'fast-check';
 import { SweepSet, humLimits, OptionError, AnalysisError } from '../../src';
@@ -169,7 +169,9 @@ describe('conditioning verbs never add power outside their region (fast-check)',
       const y = btype === 'notch' ? x.notch({ frequency: 50 }) : x.filter({ btype, cutoff, order: 2 });
       perSweep(x, y, (u, v) => {
         const su = ss(u, 0, u.length - 1), sv = ss(v, 0, v.length - 1);
-        expect(sv).toBeLessThanOrEqual(su * 1.05 + 1e-12);
+        // Butterworth: gain <= 1 everywhere; the notch's edge transient adds under 1% (measured
+        // worst 1.008 over 400 random sweeps of this generator), allowed 3%
+        expect(sv).toBeLessThanOrEqual(su * (btype === 'notch' ? 1.03 : 1.001) + 1e-12);
       });
     }), runs);
   });
@@ -179,7 +181,9 @@ describe('conditioning verbs never add power outside their region (fast-check)',
       for (const y of [x.resample({ fs: fs / factor }), x.decimate({ factor })]) {
         perSweep(x, y, (u, v) => {
           const mu = ss(u, 0, u.length - 1) / u.length, mv = ss(v, 0, v.length - 1) / v.length;
-          expect(mv).toBeLessThanOrEqual(mu * 1.1 + 1e-12);
+          // Kaiser FIR (beta 5) and Butterworth anti-alias filters: pass-band gain about 1;
+          // measured worst 1.0065 over 400 random sweeps of this generator, allowed 3%
+          expect(mv).toBeLessThanOrEqual(mu * 1.03 + 1e-12);
         });
       }
     }), runs);
