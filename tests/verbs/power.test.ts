@@ -13,6 +13,7 @@
 //   does not grow (the fit includes a constant, so it can only lower it).
 // - template: samples before the window unchanged; SS over the fit window does not grow
 //   (the least-squares scale minimises it).
+// - alternate: each output sweep has at most the mean power of its pair (convexity).
 // - removeHum: the variance over the fitted samples does not grow; the power per sample
 //   subtracted from left-out samples is at most humLimits.maxExtrapolationGain times the
 //   variance per sample removed from the fitted ones (otherwise the call is refused).
@@ -136,6 +137,28 @@ describe('conditioning verbs never add power outside their region (fast-check)',
         for (let i = 0; i < a; i++) expect(Object.is(u[i], v[i])).toBe(true);
         expect(ss(v, a, b)).toBeLessThanOrEqual(ss(u, a, b) + tol(ss(u, a, b), 1));
       });
+    }), runs);
+  });
+  it('removeArtifact(set, { method: "alternate" })', () => {
+    fc.assert(fc.property(spec, (p) => {
+      // each sweep paired with a copy of opposite polarity whose artifact is inverted
+      const x = make(p);
+      const n = x.nSamples, S2 = x.nSweeps * 2;
+      const data = new Float64Array(S2 * n);
+      const r = rng(p.seed + 1);
+      for (let s = 0; s < x.nSweeps; s++) {
+        const u = x.sweep(s);
+        for (let i = 0; i < n; i++) { data[2 * s * n + i] = u[i]; data[(2 * s + 1) * n + i] = -u[i] + p.noise * (r() - 0.5) + 2 * p.offset; }
+      }
+      const conditions = Array.from({ length: S2 }, (_, k) => ({ preparation: 'P', intensity: Math.floor(k / 2) + 1, polarity: k % 2 ? -1 : 1 }));
+      const pairs = new SweepSet({ data, nSweeps: S2, nSamples: n, fs, t0Ms: t0, units: 'uV', conditions });
+      const y = pairs.removeArtifact({ method: 'alternate' });
+      expect(y.nSweeps).toBe(x.nSweeps);
+      // the mean of a pair never has more power than the pair's mean power (((a + b) / 2)^2 <= (a^2 + b^2) / 2)
+      for (let s = 0; s < y.nSweeps; s++) {
+        const a = pairs.sweep(2 * s), c = pairs.sweep(2 * s + 1), v = y.sweep(s);
+        expect(ss(v, 0, n - 1)).toBeLessThanOrEqual(0.5 * (ss(a, 0, n - 1) + ss(c, 0, n - 1)) * (1 + 1e-12) + 1e-12);
+      }
     }), runs);
   });
   it('removeHum(set, { frequency, exclude })', () => {
