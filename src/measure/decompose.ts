@@ -54,6 +54,8 @@ export interface SharedShape {
   /** s sampled at dtMs from -sSupport[0] */
   s: Float64Array;
   sLead: number;
+  /** samples per node of s (s is linear between nodes) */
+  sStep: number;
   /** group weights per slowness bin (from the group's mean traces) */
   W: Float64Array;
   /** rms residual of the group fit, signal units */
@@ -62,16 +64,16 @@ export interface SharedShape {
 }
 
 /** Columns of the design for one distance: s shifted to each bin's arrival, on samples [r0, r1]. */
-function design(s: Float64Array, sLead: number, u: Float64Array, x: number, g: DecomposeGrid, r0: number, r1: number): { M: Float64Array; lo: Int32Array; hi: Int32Array } {
+function design(s: Float64Array, sLead: number, u: Float64Array, x: number, g: DecomposeGrid, r0: number, r1: number, sStep = 1): { M: Float64Array; lo: Int32Array; hi: Int32Array } {
   const nt = r1 - r0 + 1, nu = u.length, ns = s.length;
   const M = new Float64Array(nt * nu);
   const lo = new Int32Array(nu), hi = new Int32Array(nu);
   for (let k = 0; k < nu; k++) {
-    // sample i (time t0 + i dt) sees s at tau = t - x u_k, index j = tau / dt + sLead
+    // sample i (time t0 + i dt) sees s at tau = t - x u_k, node j = tau / (dt sStep) + sLead
     const shift = (x * u[k] - g.t0Ms) / g.dtMs;
     let first = nt, last = -1;
     for (let i = 0; i < nt; i++) {
-      const jf = (r0 + i) - shift + sLead;
+      const jf = ((r0 + i) - shift) / sStep + sLead;
       const j0 = Math.floor(jf);
       if (j0 < -1 || j0 >= ns) continue;
       const f = jf - j0;
@@ -267,8 +269,10 @@ export function fitSharedShape(traces: DecomposeTrace[], g: DecomposeGrid, opts:
   const [u0, u1] = g.uBounds;
   const nu = Math.max(20, Math.min(160, Math.round(((u1 - u0) * xFar) / (2 * g.dtMs))));
   const u = Float64Array.from({ length: nu }, (_, k) => u0 + ((u1 - u0) * k) / (nu - 1));
-  const sLead = Math.round(g.sSupportMs[0] / g.dtMs);
-  const ns = sLead + Math.round(g.sSupportMs[1] / g.dtMs) + 1;
+  // s on nodes every sStep samples, at most about 250 nodes (the s step costs samples x nodes^2)
+  const sStep = Math.max(1, Math.ceil((g.sSupportMs[0] + g.sSupportMs[1]) / g.dtMs / 250));
+  const sLead = Math.round(g.sSupportMs[0] / g.dtMs / sStep);
+  const ns = sLead + Math.round(g.sSupportMs[1] / g.dtMs / sStep) + 1;
   // mean trace per distance
   const per = dists.map((x) => {
     const [r0, r1] = g.range(x);
@@ -287,7 +291,7 @@ export function fitSharedShape(traces: DecomposeTrace[], g: DecomposeGrid, opts:
   let ipk = 0;
   for (let i = 0; i < near.nt; i++) if (near.keep[i] && Math.abs(near.y[i]) > Math.abs(near.y[ipk])) ipk = i;
   let s = Float64Array.from({ length: ns }, (_, j) => {
-    const i = ipk + j - sLead - Math.round(sLead / 2);
+    const i = ipk + (j - sLead) * sStep - Math.round((sLead * sStep) / 2);
     return i >= 0 && i < near.nt && near.keep[i] ? near.y[i] / (Math.abs(near.y[ipk]) || 1) : 0;
   });
   let W = new Float64Array(nu);
@@ -298,7 +302,7 @@ export function fitSharedShape(traces: DecomposeTrace[], g: DecomposeGrid, opts:
     // W step: one W and a separate offset/drift per distance, jointly (stacked normal equations)
     const n = nu + NB * per.length;
     const G = new Float64Array(n * n), b = new Float64Array(n);
-    const Ms = per.map((p) => design(s, sLead, u, p.x, g, p.r0, p.r1));
+    const Ms = per.map((p) => design(s, sLead, u, p.x, g, p.r0, p.r1, sStep));
     per.forEach((p, pi) => {
       const { M, lo, hi } = Ms[pi];
       const own = (k: number) => k >= nu + NB * pi && k < nu + NB * (pi + 1);
@@ -342,7 +346,7 @@ export function fitSharedShape(traces: DecomposeTrace[], g: DecomposeGrid, opts:
         if (W[k] === 0) continue;
         const shift = (p.x * u[k] - g.t0Ms) / g.dtMs;
         for (let i = 0; i < p.nt; i++) {
-          const jf = p.r0 + i - shift + sLead;
+          const jf = (p.r0 + i - shift) / sStep + sLead;
           const j0 = Math.floor(jf);
           if (j0 < -1 || j0 >= ns) continue;
           const f = jf - j0;
@@ -383,7 +387,7 @@ export function fitSharedShape(traces: DecomposeTrace[], g: DecomposeGrid, opts:
     for (let k = 0; k < nu; k++) W[k] *= mx;
     s = sNew;
   }
-  return { u, s, sLead, W, rms, iterations: it };
+  return { u, s, sLead, sStep, W, rms, iterations: it };
 }
 
 export interface TraceDecomposition {
@@ -403,7 +407,7 @@ export interface TraceDecomposition {
 export function decomposeTrace(y: ArrayLike<number>, x: number, shape: SharedShape, g: DecomposeGrid, bins: [number, number][], opts: DecomposeOptions = {}): TraceDecomposition {
   const [r0, r1] = g.range(x);
   const nt = r1 - r0 + 1, nu = shape.u.length;
-  const { M, lo, hi } = design(shape.s, shape.sLead, shape.u, x, g, r0, r1);
+  const { M, lo, hi } = design(shape.s, shape.sLead, shape.u, x, g, r0, r1, shape.sStep);
   const yy = Float64Array.from({ length: nt }, (_, i) => y[r0 + i]);
   const keep = new Uint8Array(nt).fill(1);
   if (g.excluded) for (let i = 0; i < nt; i++) if (g.excluded(r0 + i, x)) keep[i] = 0;
