@@ -40,12 +40,20 @@ rows.forEach(function(x){body.appendChild(x.r);});});})();`;
  * `sortable`: headers sort the rows when clicked (TABLE_SORT_JS, included once per table;
  * it installs itself once per page).
  */
-export function tableHtml(rows: readonly object[], opts: { columns?: string[]; caption?: string; maxRows?: number; sortable?: boolean } = {}): string {
+export function tableHtml(
+  rows: readonly object[],
+  opts: { columns?: string[]; caption?: string; maxRows?: number; sortable?: boolean } = {},
+): string {
   const cols = opts.columns ?? [...new Set(rows.flatMap((r) => Object.keys(r)))];
   const max = opts.maxRows ?? 200;
   const shown = rows.slice(0, max);
   const head = cols.map((c) => `<th>${escapeHtml(c)}</th>`).join('');
-  const body = shown.map((r) => `<tr>${cols.map((c) => `<td>${escapeHtml(formatCell((r as Record<string, unknown>)[c]))}</td>`).join('')}</tr>`).join('\n');
+  const body = shown
+    .map(
+      (r) =>
+        `<tr>${cols.map((c) => `<td>${escapeHtml(formatCell((r as Record<string, unknown>)[c]))}</td>`).join('')}</tr>`,
+    )
+    .join('\n');
   const more = rows.length > max ? `<p>${rows.length - max} more rows not shown (${rows.length} in all).</p>` : '';
   const cap = opts.caption ? `<caption>${escapeHtml(opts.caption)}</caption>` : '';
   const sort = opts.sortable ? ' data-sortable' : '';
@@ -82,7 +90,8 @@ export function tslabDisplay(): { html(s: string): void; newDisplay?: () => unkn
     // tslab's display only works inside its kernel; it throws or no-ops elsewhere
     // eslint-disable-next-line @typescript-eslint/no-var-requires
     const t = require('tslab');
-    if (t && t.display && isKernel()) cached = { html: (s: string) => t.display.html(s), newDisplay: () => t.newDisplay() };
+    if (t && t.display && isKernel())
+      cached = { html: (s: string) => t.display.html(s), newDisplay: () => t.newDisplay() };
   } catch {
     cached = null;
   }
@@ -90,5 +99,9 @@ export function tslabDisplay(): { html(s: string): void; newDisplay?: () => unkn
 }
 
 function isKernel(): boolean {
-  return process.argv.some((a) => /tslab/.test(a)) || !!process.env.JPY_PARENT_PID || process.argv.some((a) => /kernel/.test(a));
+  return (
+    process.argv.some((a) => /tslab/.test(a)) ||
+    !!process.env.JPY_PARENT_PID ||
+    process.argv.some((a) => /kernel/.test(a))
+  );
 }

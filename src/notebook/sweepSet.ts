@@ -13,22 +13,32 @@ const CELL = 'style="text-align:left;padding:1px 8px 1px 0;vertical-align:top"';
 
 /** A step's options as short text: key=value, nested values as JSON. */
 function optionsText(o: Record<string, unknown>): string {
-  return Object.entries(o).map(([k, v]) => `${k}=${typeof v === 'object' && v !== null ? JSON.stringify(v) : formatCell(v)}`).join(', ');
+  return Object.entries(o)
+    .map(([k, v]) => `${k}=${typeof v === 'object' && v !== null ? JSON.stringify(v) : formatCell(v)}`)
+    .join(', ');
 }
 
 /** The HTML summary of a set (what `showSweepSet` displays). */
 export function sweepSetHtml(set: SweepSet): string {
   const last = set.timeAt(set.nSamples - 1);
-  const head = `<b>SweepSet</b>: ${set.nSweeps} sweep${set.nSweeps === 1 ? '' : 's'} × ${set.nSamples} samples at ${fmt(set.fs / 1000)} kHz `
-    + `(${fmt(set.t0Ms)} to ${fmt(last)} ms), ${unitText(set.units)}`;
+  const head =
+    `<b>SweepSet</b>: ${set.nSweeps} sweep${set.nSweeps === 1 ? '' : 's'} × ${set.nSamples} samples at ${fmt(set.fs / 1000)} kHz ` +
+    `(${fmt(set.t0Ms)} to ${fmt(last)} ms), ${unitText(set.units)}`;
   const rows: string[] = [];
   for (const k of conditionKeys(set.conditions)) {
     if (k === 'fileSweep') continue;
     const lv = set.levels(k).filter((v) => v !== null);
-    const shown = lv.slice(0, 12).map((v) => escapeHtml(formatCell(v))).join(', ');
-    rows.push(`<tr><th ${CELL}>${escapeHtml(k)}</th><td ${CELL}>${lv.length} level${lv.length === 1 ? '' : 's'}</td><td ${CELL}>${shown}${lv.length > 12 ? ', …' : ''}</td></tr>`);
+    const shown = lv
+      .slice(0, 12)
+      .map((v) => escapeHtml(formatCell(v)))
+      .join(', ');
+    rows.push(
+      `<tr><th ${CELL}>${escapeHtml(k)}</th><td ${CELL}>${lv.length} level${lv.length === 1 ? '' : 's'}</td><td ${CELL}>${shown}${lv.length > 12 ? ', …' : ''}</td></tr>`,
+    );
   }
-  const conds = rows.length ? `<table style="border-collapse:collapse;font:12px sans-serif"><caption style="text-align:left"><i>conditions</i></caption>${rows.join('')}</table>` : '<p><i>no conditions</i></p>';
+  const conds = rows.length
+    ? `<table style="border-collapse:collapse;font:12px sans-serif"><caption style="text-align:left"><i>conditions</i></caption>${rows.join('')}</table>`
+    : '<p><i>no conditions</i></p>';
   const src = set.sources.length
     ? `<details><summary>${set.sources.length} source file${set.sources.length === 1 ? '' : 's'}</summary><ul>${set.sources.map((s) => `<li><code>${escapeHtml(s.path)}</code> (${s.bytes} bytes, sha256 ${escapeHtml(s.sha256.slice(0, 12))}…)</li>`).join('')}</ul></details>`
     : '';

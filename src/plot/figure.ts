@@ -29,10 +29,20 @@ export const MARKERS = ['circle', 'square', 'diamond', 'triangle-up', 'triangle-
  * so that the light end stays visible on white.
  */
 export const SEQUENTIAL: [number, string][] = [
-  [0, '#440154'], [0.06274509803921569, '#48186a'], [0.12549019607843137, '#472d7b'], [0.18823529411764706, '#424086'],
-  [0.25098039215686274, '#3b528b'], [0.3137254901960784, '#33638d'], [0.3764705882352941, '#2c728e'], [0.4392156862745098, '#26828e'],
-  [0.5019607843137255, '#21918c'], [0.5647058823529412, '#1fa088'], [0.6274509803921569, '#28ae80'], [0.6901960784313725, '#3fbc73'],
-  [0.7529411764705882, '#5ec962'], [0.8156862745098039, '#84d44b'],
+  [0, '#440154'],
+  [0.06274509803921569, '#48186a'],
+  [0.12549019607843137, '#472d7b'],
+  [0.18823529411764706, '#424086'],
+  [0.25098039215686274, '#3b528b'],
+  [0.3137254901960784, '#33638d'],
+  [0.3764705882352941, '#2c728e'],
+  [0.4392156862745098, '#26828e'],
+  [0.5019607843137255, '#21918c'],
+  [0.5647058823529412, '#1fa088'],
+  [0.6274509803921569, '#28ae80'],
+  [0.6901960784313725, '#3fbc73'],
+  [0.7529411764705882, '#5ec962'],
+  [0.8156862745098039, '#84d44b'],
 ];
 export const FONT = 'Helvetica, Arial, sans-serif';
 
@@ -41,11 +51,22 @@ export function sequentialColour(u: number): string {
   const x = Math.min(1, Math.max(0, u)) * SEQUENTIAL[SEQUENTIAL.length - 1][0];
   let k = 0;
   while (k < SEQUENTIAL.length - 2 && SEQUENTIAL[k + 1][0] < x) k++;
-  const [x0, c0] = SEQUENTIAL[k], [x1, c1] = SEQUENTIAL[k + 1];
+  const [x0, c0] = SEQUENTIAL[k],
+    [x1, c1] = SEQUENTIAL[k + 1];
   const f = x1 > x0 ? (x - x0) / (x1 - x0) : 0;
   const rgb = (c: string) => [1, 3, 5].map((i) => parseInt(c.slice(i, i + 2), 16));
-  const a = rgb(c0), b = rgb(c1);
-  return '#' + a.map((v, i) => Math.round(v + (b[i] - v) * f).toString(16).padStart(2, '0')).join('');
+  const a = rgb(c0),
+    b = rgb(c1);
+  return (
+    '#' +
+    a
+      .map((v, i) =>
+        Math.round(v + (b[i] - v) * f)
+          .toString(16)
+          .padStart(2, '0'),
+      )
+      .join('')
+  );
 }
 /** The sequential scale as a plotly colorscale (0..1). */
 export function sequentialScale(): [number, string][] {
@@ -53,7 +74,11 @@ export function sequentialScale(): [number, string][] {
   return SEQUENTIAL.map(([x, c]) => [x / top, c]);
 }
 
-export interface PlotlySpec { data: Record<string, unknown>[]; layout: Record<string, unknown>; config?: Record<string, unknown> }
+export interface PlotlySpec {
+  data: Record<string, unknown>[];
+  layout: Record<string, unknown>;
+  config?: Record<string, unknown>;
+}
 
 let plotlySource: string | undefined;
 let plotlyPacked: string | undefined;
@@ -73,11 +98,31 @@ let counter = 0;
 export const SCREEN_FONT = { base: 12, tick: 11, title: 14 };
 
 /** Where a legend starts (top right inside the plot area); LAYOUT_FIT_JS moves it if it would cover data. */
-const LEGEND_INSIDE = { orientation: 'v', xref: 'paper', yref: 'paper', x: 1, y: 1, xanchor: 'right', yanchor: 'top', bgcolor: 'rgba(255,255,255,0.85)' };
+const LEGEND_INSIDE = {
+  orientation: 'v',
+  xref: 'paper',
+  yref: 'paper',
+  x: 1,
+  y: 1,
+  xanchor: 'right',
+  yanchor: 'top',
+  bgcolor: 'rgba(255,255,255,0.85)',
+};
 
 const axis = (title: string) => ({
-  title: { text: title, standoff: 6 }, showline: true, linecolor: '#333', linewidth: 1, ticks: 'outside', ticklen: 4, tickwidth: 1,
-  tickcolor: '#333', zeroline: false, showgrid: false, automargin: false, tickangle: 0, tickfont: { size: SCREEN_FONT.tick },
+  title: { text: title, standoff: 6 },
+  showline: true,
+  linecolor: '#333',
+  linewidth: 1,
+  ticks: 'outside',
+  ticklen: 4,
+  tickwidth: 1,
+  tickcolor: '#333',
+  zeroline: false,
+  showgrid: false,
+  automargin: false,
+  tickangle: 0,
+  tickfont: { size: SCREEN_FONT.tick },
 });
 
 /**
@@ -85,18 +130,34 @@ const axis = (title: string) => ({
  * plotlyText): title at the top, legend in a row under the x-axis title, margins found
  * in the browser by measuring the text (LAYOUT_FIT_JS) so nothing overlaps.
  */
-export function layoutFor(title: string, x: string, y: string, extra: Record<string, unknown> = {}): Record<string, unknown> {
+export function layoutFor(
+  title: string,
+  x: string,
+  y: string,
+  extra: Record<string, unknown> = {},
+): Record<string, unknown> {
   const { xaxis, yaxis, ...rest } = extra as { xaxis?: object; yaxis?: object };
   return {
-    title: { text: title, font: { size: SCREEN_FONT.title }, x: 0.5, xanchor: 'center', xref: 'container', y: 0.98, yref: 'container', yanchor: 'top' },
+    title: {
+      text: title,
+      font: { size: SCREEN_FONT.title },
+      x: 0.5,
+      xanchor: 'center',
+      xref: 'container',
+      y: 0.98,
+      yref: 'container',
+      yanchor: 'top',
+    },
     font: { family: FONT, size: SCREEN_FONT.base, color: '#222' },
     colorway: PALETTE,
-    paper_bgcolor: '#fff', plot_bgcolor: '#fff',
+    paper_bgcolor: '#fff',
+    plot_bgcolor: '#fff',
     xaxis: { ...axis(x), ...(xaxis ?? {}) },
     yaxis: { ...axis(y), ...(yaxis ?? {}) },
     legend: { ...LEGEND_INSIDE, traceorder: 'normal', tracegroupgap: 0 },
     margin: { l: 70, r: 20, t: 50, b: 60 },
-    width: 640, height: 420,
+    width: 640,
+    height: 420,
     ...rest,
   };
 }
@@ -107,7 +168,12 @@ export function layoutFor(title: string, x: string, y: string, extra: Record<str
  * is set upper case (sentence case). Width and height in px.
  * @example baseLayout(`Sweeps of ${plotlyText(name)}`, 'time (ms)', 'signal (µV)')
  */
-export function baseLayout(title: string, x: string, y: string, extra: Record<string, unknown> = {}): Record<string, unknown> {
+export function baseLayout(
+  title: string,
+  x: string,
+  y: string,
+  extra: Record<string, unknown> = {},
+): Record<string, unknown> {
   return layoutFor(sentenceCase(title), sentenceCase(x), sentenceCase(y), extra);
 }
 
@@ -217,12 +283,18 @@ export function drawnSpec(spec: PlotlySpec): PlotlySpec {
     const a = L[k] as { type?: string; tickvals?: unknown; tickmode?: string } | undefined;
     if (!m || !a || a.type !== 'log' || a.tickvals !== undefined || a.tickmode === 'linear') continue;
     const id = m[1] + m[2];
-    const vals = spec.data.filter((t) => String(t[`${m[1]}axis`] ?? m[1]) === id).flatMap((t) => (Array.isArray(t[m[1]]) ? (t[m[1]] as unknown[]) : []));
+    const vals = spec.data
+      .filter((t) => String(t[`${m[1]}axis`] ?? m[1]) === id)
+      .flatMap((t) => (Array.isArray(t[m[1]]) ? (t[m[1]] as unknown[]) : []));
     const { type: _t, ...ticks } = logAxis(vals);
     void _t;
     if (!('tickvals' in ticks)) continue;
     out ??= { ...spec, layout: { ...L } };
-    out.layout[k] = { ...a, ...ticks, ...((a as { range?: unknown }).range ? { range: (a as { range?: unknown }).range } : {}) };
+    out.layout[k] = {
+      ...a,
+      ...ticks,
+      ...((a as { range?: unknown }).range ? { range: (a as { range?: unknown }).range } : {}),
+    };
   }
   return out ?? spec;
 }
@@ -237,7 +309,9 @@ export class Figure {
 
   /** The spec as JSON with numbers rounded (for snapshots and small files). */
   specJson(digits = 6): string {
-    return JSON.stringify(this.spec, (_k, v) => (typeof v === 'number' && Number.isFinite(v) && !Number.isInteger(v) ? Number(v.toPrecision(digits)) : v));
+    return JSON.stringify(this.spec, (_k, v) =>
+      typeof v === 'number' && Number.isFinite(v) && !Number.isInteger(v) ? Number(v.toPrecision(digits)) : v,
+    );
   }
 
   /**

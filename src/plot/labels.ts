@@ -15,9 +15,33 @@ export function plotlyText(s: unknown): string {
 
 /** ASCII spellings of units and how a figure prints them. */
 const UNIT_PRINT: Record<string, string> = {
-  uV: 'µV', uv: 'µV', uM: 'µM', um: 'µm', uA: 'µA', us: 'µs', uS: 'µS', uF: 'µF', uL: 'µL', ul: 'µL', uN: 'µN',
-  nM: 'nM', mM: 'mM', C: '°C', degC: '°C', deg_C: '°C', 'deg C': '°C', celsius: '°C', Celsius: '°C',
-  ohm: 'Ω', kohm: 'kΩ', Mohm: 'MΩ', 'uA/cm2': 'µA/cm²', 'mA/cm2': 'mA/cm²', 'uF/cm2': 'µF/cm²', m_s: 'm/s', 'm s-1': 'm/s',
+  uV: 'µV',
+  uv: 'µV',
+  uM: 'µM',
+  um: 'µm',
+  uA: 'µA',
+  us: 'µs',
+  uS: 'µS',
+  uF: 'µF',
+  uL: 'µL',
+  ul: 'µL',
+  uN: 'µN',
+  nM: 'nM',
+  mM: 'mM',
+  C: '°C',
+  degC: '°C',
+  deg_C: '°C',
+  'deg C': '°C',
+  celsius: '°C',
+  Celsius: '°C',
+  ohm: 'Ω',
+  kohm: 'kΩ',
+  Mohm: 'MΩ',
+  'uA/cm2': 'µA/cm²',
+  'mA/cm2': 'mA/cm²',
+  'uF/cm2': 'µF/cm²',
+  m_s: 'm/s',
+  'm s-1': 'm/s',
 };
 
 /** A unit as printed on a figure: 'uV' -> 'µV', 'uM' -> 'µM', 'C' -> '°C'; others unchanged (escaped for plotly). */
@@ -33,8 +57,18 @@ export function sentenceCase(s: string): string {
 
 /** Unit suffixes of table column names (after the last underscore-separated word). */
 const SUFFIX_UNITS: [RegExp, string][] = [
-  [/_m_s$/, 'm/s'], [/_ms$/, 'ms'], [/_mm$/, 'mm'], [/_uV$/i, 'µV'], [/_mV$/, 'mV'], [/_mA$/, 'mA'], [/_uA$/, 'µA'],
-  [/_uM$/, 'µM'], [/_kJ_mol$/, 'kJ/mol'], [/_C$/, '°C'], [/_s$/, 's'], [/_V$/, 'V'],
+  [/_m_s$/, 'm/s'],
+  [/_ms$/, 'ms'],
+  [/_mm$/, 'mm'],
+  [/_uV$/i, 'µV'],
+  [/_mV$/, 'mV'],
+  [/_mA$/, 'mA'],
+  [/_uA$/, 'µA'],
+  [/_uM$/, 'µM'],
+  [/_kJ_mol$/, 'kJ/mol'],
+  [/_C$/, '°C'],
+  [/_s$/, 's'],
+  [/_V$/, 'V'],
 ];
 
 /** Names for the measures the analyses use, as a reader of a paper knows them. */
@@ -45,8 +79,12 @@ const MEASURES: Record<string, string> = {
   onset_velocity_m_s: 'conduction velocity (m/s)',
   regression_velocity_m_s: 'conduction velocity (m/s)',
   regression_velocity: 'conduction velocity (m/s)',
-  amplitude: 'amplitude', area: 'area', centroid_ms: 'centroid latency (ms)', peak_ms: 'peak latency (ms)',
-  onset_ms: 'onset latency (ms)', utilisation_ms: 'utilisation time (ms)',
+  amplitude: 'amplitude',
+  area: 'area',
+  centroid_ms: 'centroid latency (ms)',
+  peak_ms: 'peak latency (ms)',
+  onset_ms: 'onset latency (ms)',
+  utilisation_ms: 'utilisation time (ms)',
 };
 
 /**
@@ -95,18 +133,27 @@ export interface LogTicks {
 export function logTicks(values: readonly unknown[], padDecades = 0.06): LogTicks | null {
   const v = values.filter((x): x is number => typeof x === 'number' && Number.isFinite(x) && x > 0);
   if (!v.length) return null;
-  let lo = Math.log10(Math.min(...v)), hi = Math.log10(Math.max(...v));
-  if (hi - lo < 0.2) { const m = (lo + hi) / 2; lo = m - 0.1; hi = m + 0.1; }
+  let lo = Math.log10(Math.min(...v)),
+    hi = Math.log10(Math.max(...v));
+  if (hi - lo < 0.2) {
+    const m = (lo + hi) / 2;
+    lo = m - 0.1;
+    hi = m + 0.1;
+  }
   const pad = padDecades * Math.max(1, hi - lo);
   const range: [number, number] = [lo - pad, hi + pad];
   const span = range[1] - range[0];
   const inRange = (x: number) => Math.log10(x) >= range[0] - 1e-9 && Math.log10(x) <= range[1] + 1e-9;
-  const d0 = Math.floor(range[0]), d1 = Math.ceil(range[1]);
+  const d0 = Math.floor(range[0]),
+    d1 = Math.ceil(range[1]);
   const at = (mults: number[], every = 1) => {
     const out: number[] = [];
     for (let d = d0; d <= d1; d++) {
       if ((d - d0) % every) continue;
-      for (const m of mults) { const x = Number((m * 10 ** d).toPrecision(12)); if (inRange(x)) out.push(x); }
+      for (const m of mults) {
+        const x = Number((m * 10 ** d).toPrecision(12));
+        if (inRange(x)) out.push(x);
+      }
     }
     return out;
   };
@@ -121,11 +168,16 @@ export function logTicks(values: readonly unknown[], padDecades = 0.06): LogTick
   for (let every = 2; vals.length > 6; every++) vals = at([1], every);
   const minor: number[] = [];
   if (mults.length === 1) {
-    for (let d = d0; d <= d1; d++) for (let m = 2; m <= 9; m++) { const x = Number((m * 10 ** d).toPrecision(12)); if (inRange(x)) minor.push(x); }
+    for (let d = d0; d <= d1; d++)
+      for (let m = 2; m <= 9; m++) {
+        const x = Number((m * 10 ** d).toPrecision(12));
+        if (inRange(x)) minor.push(x);
+      }
   }
   if (vals.length < 3) {
     // short span: evenly stepped values (1-2-5 steps), 3 to 6 of them
-    const a = 10 ** range[0], b = 10 ** range[1];
+    const a = 10 ** range[0],
+      b = 10 ** range[1];
     const e = 10 ** Math.floor(Math.log10(b - a));
     for (const st of [5, 2, 1, 0.5, 0.2, 0.1, 0.05, 0.02, 0.01].map((m) => m * e)) {
       vals = [];
@@ -142,7 +194,13 @@ export function logAxis(values: readonly unknown[]): Record<string, unknown> {
   const t = logTicks(values);
   if (!t) return { type: 'log' };
   return {
-    type: 'log', range: t.range, tickmode: 'array', tickvals: t.tickvals, ticktext: t.ticktext,
-    ...(t.minor.length ? { minor: { tickmode: 'array', tickvals: t.minor, ticks: 'outside', ticklen: 2, showgrid: false } } : {}),
+    type: 'log',
+    range: t.range,
+    tickmode: 'array',
+    tickvals: t.tickvals,
+    ticktext: t.ticktext,
+    ...(t.minor.length
+      ? { minor: { tickmode: 'array', tickvals: t.minor, ticks: 'outside', ticklen: 2, showgrid: false } }
+      : {}),
   };
 }

@@ -2,15 +2,40 @@
 import { describe, it, expect } from 'vitest';
 import { readFileSync } from 'node:fs';
 import {
-  plotlyText, unitText, measureLabel, logTicks, PALETTE, MARKERS, SEQUENTIAL, sequentialColour, velocityFigure,
-  doseResponseFigure, temperatureFigure, recruitmentFigure, strengthDurationFigure, summaryFigure, sweepsFigure, SweepSet,
-  classViews, model,
+  plotlyText,
+  unitText,
+  measureLabel,
+  logTicks,
+  PALETTE,
+  MARKERS,
+  SEQUENTIAL,
+  sequentialColour,
+  velocityFigure,
+  doseResponseFigure,
+  temperatureFigure,
+  recruitmentFigure,
+  strengthDurationFigure,
+  summaryFigure,
+  sweepsFigure,
+  SweepSet,
+  classViews,
+  model,
 } from '../../src';
 import type { Figure } from '../../src';
 
-type Trace = { name?: string; x?: unknown[]; y?: unknown[]; mode?: string; showlegend?: boolean; line?: { dash?: string } };
+type Trace = {
+  name?: string;
+  x?: unknown[];
+  y?: unknown[];
+  mode?: string;
+  showlegend?: boolean;
+  line?: { dash?: string };
+};
 const traces = (f: Figure) => f.spec.data as Trace[];
-const legendNames = (f: Figure) => traces(f).filter((t) => t.showlegend !== false && t.name).map((t) => t.name!);
+const legendNames = (f: Figure) =>
+  traces(f)
+    .filter((t) => t.showlegend !== false && t.name)
+    .map((t) => t.name!);
 const allText = (f: Figure) => JSON.stringify(f.spec);
 
 describe('units and names as printed', () => {
@@ -37,7 +62,8 @@ describe('units and names as printed', () => {
 
 describe('log-axis ticks label full values', () => {
   // common practice, no source: a log axis labelled 1, 10, 100 (or 1, 2, 5, 10 over a short span), never "5, 2, 10, 5, 2, 1"
-  const fullValue = (t: { tickvals: number[]; ticktext: string[] }) => t.tickvals.every((v, i) => Number(t.ticktext[i]) === v || /^10<sup>-?\d+<\/sup>$/.test(t.ticktext[i]));
+  const fullValue = (t: { tickvals: number[]; ticktext: string[] }) =>
+    t.tickvals.every((v, i) => Number(t.ticktext[i]) === v || /^10<sup>-?\d+<\/sup>$/.test(t.ticktext[i]));
   it('four decades: decades only, with unlabelled minor ticks at 2-9', () => {
     const t = logTicks([0.3, 1000])!;
     expect(t.tickvals).toEqual([1, 10, 100, 1000]);
@@ -68,7 +94,9 @@ describe('log-axis ticks label full values', () => {
         expect(new Set(t.ticktext).size).toBe(t.ticktext.length);
         expect(t.tickvals.length).toBeGreaterThanOrEqual(2);
         expect(t.tickvals.length).toBeLessThanOrEqual(6);
-        expect(t.tickvals.every((v) => Math.log10(v) >= t.range[0] - 1e-9 && Math.log10(v) <= t.range[1] + 1e-9)).toBe(true);
+        expect(t.tickvals.every((v) => Math.log10(v) >= t.range[0] - 1e-9 && Math.log10(v) <= t.range[1] + 1e-9)).toBe(
+          true,
+        );
       }
     }
   });
@@ -93,28 +121,55 @@ describe('palette and sequential scale', () => {
     expect(sequentialColour(1)).toBe(SEQUENTIAL[SEQUENTIAL.length - 1][1]);
   });
   it('sweeps varying in one condition are coloured along the scale, in order, with a colour bar beyond 6 sweeps', () => {
-    const n = 20, k = 8;
+    const n = 20,
+      k = 8;
     const data = new Float64Array(n * k).map((_, i) => Math.sin(i));
-    const set = new SweepSet({ data, nSweeps: k, nSamples: n, fs: 10000, t0Ms: 0, units: 'uV', conditions: Array.from({ length: k }, (_, i) => ({ intensity: 0.1 * 2 ** i, intensityUnit: 'mA' })) });
+    const set = new SweepSet({
+      data,
+      nSweeps: k,
+      nSamples: n,
+      fs: 10000,
+      t0Ms: 0,
+      units: 'uV',
+      conditions: Array.from({ length: k }, (_, i) => ({ intensity: 0.1 * 2 ** i, intensityUnit: 'mA' })),
+    });
     const f = sweepsFigure(set);
     const lines = traces(f).filter((t) => t.mode === 'lines') as { line: { color: string } }[];
     expect(lines[0].line.color).toBe('#440154');
     expect(new Set(lines.map((l) => l.line.color)).size).toBe(k);
-    const bar = traces(f).find((t) => (t as { marker?: { showscale?: boolean } }).marker?.showscale) as { marker: { colorbar: { title: { text: string } } } };
+    const bar = traces(f).find((t) => (t as { marker?: { showscale?: boolean } }).marker?.showscale) as {
+      marker: { colorbar: { title: { text: string } } };
+    };
     expect(bar.marker.colorbar.title.text).toBe('Stimulus intensity (mA)');
     expect(allText(f)).toContain('Signal (µV)');
   });
   it('the legend says what differs between sweeps (distance and temperature), not "sweep 0-3"', () => {
     const n = 10;
     const conds = [10, 30].flatMap((d) => [22, 37].map((T) => ({ distanceMm: d, temperatureC: T })));
-    const set = new SweepSet({ data: new Float64Array(n * 4), nSweeps: 4, nSamples: n, fs: 10000, t0Ms: 0, units: 'uV', conditions: conds });
+    const set = new SweepSet({
+      data: new Float64Array(n * 4),
+      nSweeps: 4,
+      nSamples: n,
+      fs: 10000,
+      t0Ms: 0,
+      units: 'uV',
+      conditions: conds,
+    });
     expect(legendNames(sweepsFigure(set))).toEqual(['10 mm, 22 °C', '10 mm, 37 °C', '30 mm, 22 °C', '30 mm, 37 °C']);
   });
 });
 
 describe('fits drawn in the axis space and named in the legend', () => {
   const V = [50, 12, 0.8];
-  const rows = ['A-alpha/beta', 'A-delta', 'C'].flatMap((cls, ci) => [20, 40].map((d) => ({ class: cls, preparation: 'N1', detected: true, distance_mm: d, centroid_ms: 0.1 + d / V[ci] })));
+  const rows = ['A-alpha/beta', 'A-delta', 'C'].flatMap((cls, ci) =>
+    [20, 40].map((d) => ({
+      class: cls,
+      preparation: 'N1',
+      detected: true,
+      distance_mm: d,
+      centroid_ms: 0.1 + d / V[ci],
+    })),
+  );
   it('latency against distance: each fit is a dense curve through the data on the log axis, latency = 0.1 ms + d / v', () => {
     const f = velocityFigure(rows);
     expect((f.spec.layout.yaxis as { type: string }).type).toBe('log');
@@ -136,19 +191,35 @@ describe('fits drawn in the axis space and named in the legend', () => {
     expect((fit.x as number[])[0]).toBe(0);
   });
   it('dose-response names the fit and the shaded band; no "animals", no uM', () => {
-    const pts = [1, 10, 100].flatMap((c) => ['a', 'b'].map((p) => ({ preparation: p, class: 'C', concentration: c, normalized: 1 / (1 + c / 10) })));
-    const f = doseResponseFigure(pts, [{ class: 'C', ic50: 10, pooled_ic50: 10, pooled_hill: 1, pooled_bottom: 0, concentrationUnit: 'uM' }]);
+    const pts = [1, 10, 100].flatMap((c) =>
+      ['a', 'b'].map((p) => ({ preparation: p, class: 'C', concentration: c, normalized: 1 / (1 + c / 10) })),
+    );
+    const f = doseResponseFigure(pts, [
+      { class: 'C', ic50: 10, pooled_ic50: 10, pooled_hill: 1, pooled_bottom: 0, concentrationUnit: 'uM' },
+    ]);
     expect(legendNames(f)).toContain('Hill fit, pooled');
     expect(legendNames(f)[0]).toBe('C IC<sub>50</sub> 10 µM');
     expect(allText(f)).not.toMatch(/uM|animals/);
   });
   it('strength-duration explains solid (Weiss) and dashed (Lapicque) in the legend', () => {
-    const f = strengthDurationFigure({ points: [0.1, 0.5, 1].map((w) => ({ class: 'C', pulseWidthMs: w, criterion: 1 + 1 / w })), rows: [{ class: 'C', rheobase: 1, chronaxie_ms: 1, lapicque_rheobase: 1, lapicque_tau_ms: 1.44 }] });
+    const f = strengthDurationFigure({
+      points: [0.1, 0.5, 1].map((w) => ({ class: 'C', pulseWidthMs: w, criterion: 1 + 1 / w })),
+      rows: [{ class: 'C', rheobase: 1, chronaxie_ms: 1, lapicque_rheobase: 1, lapicque_tau_ms: 1.44 }],
+    });
     const entries = traces(f).filter((t) => t.showlegend !== false && t.mode === 'lines');
-    expect(entries.map((t) => [t.name, t.line?.dash ?? 'solid'])).toEqual([['Weiss fit', 'solid'], ['Lapicque fit', 'dash']]);
+    expect(entries.map((t) => [t.name, t.line?.dash ?? 'solid'])).toEqual([
+      ['Weiss fit', 'solid'],
+      ['Lapicque fit', 'dash'],
+    ]);
   });
   it('temperature: °C on the axis, Q10 in the legend, a readable y title', () => {
-    const pts = [25, 30, 35].map((T) => ({ class: 'A', preparation: 'a', temperatureC: T, value: 10 * 1.4 ** ((T - 35) / 10), measure: 'centroid_velocity_m_s' }));
+    const pts = [25, 30, 35].map((T) => ({
+      class: 'A',
+      preparation: 'a',
+      temperatureC: T,
+      value: 10 * 1.4 ** ((T - 35) / 10),
+      measure: 'centroid_velocity_m_s',
+    }));
     const f = temperatureFigure(pts, [{ class: 'A', q10: 1.4, ea_kJ_mol: 25 }], 'q10');
     const l = f.spec.layout as { xaxis: { title: { text: string } }; yaxis: { title: { text: string } } };
     expect(l.xaxis.title.text).toBe('Temperature (°C)');
@@ -157,11 +228,28 @@ describe('fits drawn in the axis space and named in the legend', () => {
     expect(allText(f)).not.toContain('velocity_m_s (');
   });
   it('recruitment and summary say "preparation", name the fit, and print µV', () => {
-    const pts = [0.1, 0.3, 1, 3].map((I) => ({ class: 'A', preparation: 'N1', intensity: I, response: 100 / (1 + 1 / I) }));
-    const rec = recruitmentFigure(pts, null, [{ class: 'A', preparation: 'N1', floor: 0, maximum: 100, i50: 1, i95: 10, intensityUnit: 'mA' }], 'uV');
+    const pts = [0.1, 0.3, 1, 3].map((I) => ({
+      class: 'A',
+      preparation: 'N1',
+      intensity: I,
+      response: 100 / (1 + 1 / I),
+    }));
+    const rec = recruitmentFigure(
+      pts,
+      null,
+      [{ class: 'A', preparation: 'N1', floor: 0, maximum: 100, i50: 1, i95: 10, intensityUnit: 'mA' }],
+      'uV',
+    );
     expect(legendNames(rec)).toEqual(['A', 'Boltzmann fit']);
     expect(allText(rec)).toContain('Amplitude (µV)');
-    const sum = summaryFigure([{ class: 'A', preparation: 'a', v: 1 }, { class: 'A', preparation: 'b', v: 2 }], 'v', 'velocity (m/s)');
+    const sum = summaryFigure(
+      [
+        { class: 'A', preparation: 'a', v: 1 },
+        { class: 'A', preparation: 'b', v: 2 },
+      ],
+      'v',
+      'velocity (m/s)',
+    );
     expect(legendNames(sum)).toEqual(['One preparation', 'Mean and 95% CI']);
     expect(allText(sum)).not.toContain('animal');
     expect((sum.spec.layout.title as { text: string }).text).toBe('Velocity across preparations');
@@ -183,10 +271,18 @@ describe('fits drawn in the axis space and named in the legend', () => {
 
 describe('class views: each class on its own time span', () => {
   const nerve = model.rodentSciatic();
-  const set = model.simulateNerve({
-    model: nerve, seed: 1, grid: { fs: 20000, t0Ms: -2, nSamples: 1600 }, nuisance: { noiseUv: 5 },
-    sweeps: [{ intensity: 20, distanceMm: 30, temperatureC: 37, concentration: 0, conditions: { preparation: 'sim' } }],
-  }).baseline().removeArtifact({ method: 'blank', window: [0, 0.12], bridge: 'linear' });
+  const set = model
+    .simulateNerve({
+      model: nerve,
+      seed: 1,
+      grid: { fs: 20000, t0Ms: -2, nSamples: 1600 },
+      nuisance: { noiseUv: 5 },
+      sweeps: [
+        { intensity: 20, distanceMm: 30, temperatureC: 37, concentration: 0, conditions: { preparation: 'sim' } },
+      ],
+    })
+    .baseline()
+    .removeArtifact({ method: 'blank', window: [0, 0.12], bridge: 'linear' });
   const table = set.components({ preset: 'mammalian' });
   it('one figure per class, x range = the window and a fifth of its width each side, marks of that class only', () => {
     const views = classViews(set, table, { sweeps: [0] });
@@ -199,7 +295,8 @@ describe('class views: each class on its own time span', () => {
       expect(range[1]).toBeLessThanOrEqual(b + 0.2 * (b - a) + 0.05);
       const names = legendNames(v).join('|');
       expect(names).toContain(`${table.classes[k]} window`);
-      for (const other of table.classes.filter((c) => c !== table.classes[k])) expect(names).not.toContain(`${other} window`);
+      for (const other of table.classes.filter((c) => c !== table.classes[k]))
+        expect(names).not.toContain(`${other} window`);
       if (r.detected) expect(names).toMatch(/Onset\|Peak\|Centroid/);
     });
   });
@@ -210,7 +307,9 @@ describe('class views: each class on its own time span', () => {
     expect(shapes.some((sh) => sh.x0 === 0 && sh.x1 === 0.12)).toBe(true);
   });
   it('an unknown class or option is an error naming the nearest valid name', () => {
-    expect(() => sweepsFigure(set, { table, zoom: 'A-dleta' })).toThrow(/invalid zoom: "A-dleta".*did you mean "A-delta"/);
+    expect(() => sweepsFigure(set, { table, zoom: 'A-dleta' })).toThrow(
+      /invalid zoom: "A-dleta".*did you mean "A-delta"/,
+    );
     expect(() => sweepsFigure(set, { zoom: 'C' })).toThrow(/zoom needs a component table/);
     expect(() => sweepsFigure(set, { swepes: [0] } as never)).toThrow(/unknown key "swepes".*did you mean "sweeps"/);
     expect(() => sweepsFigure(set, { sweeps: [5] })).toThrow(/invalid sweeps: 5; the set has sweeps 0..0/);
@@ -221,17 +320,36 @@ describe('class colours stay apart under simulated colour-vision deficiency', ()
   // Machado, Oliveira & Fernandes 2009 (IEEE TVCG 15:1291) simulation matrices at severity 1.0, applied to
   // linear sRGB (matrix values from memory of the paper's table); distances as CIE 1976 Delta E in CIELAB (D65).
   const M: Record<string, number[][]> = {
-    protanopia: [[0.152286, 1.052583, -0.204868], [0.114503, 0.786281, 0.099216], [-0.003882, -0.048116, 1.051998]],
-    deuteranopia: [[0.367322, 0.860646, -0.227968], [0.280085, 0.672501, 0.047413], [-0.01182, 0.04294, 0.968881]],
-    tritanopia: [[1.255528, -0.076749, -0.178779], [-0.078411, 0.930809, 0.147602], [0.004733, 0.691367, 0.3039]],
+    protanopia: [
+      [0.152286, 1.052583, -0.204868],
+      [0.114503, 0.786281, 0.099216],
+      [-0.003882, -0.048116, 1.051998],
+    ],
+    deuteranopia: [
+      [0.367322, 0.860646, -0.227968],
+      [0.280085, 0.672501, 0.047413],
+      [-0.01182, 0.04294, 0.968881],
+    ],
+    tritanopia: [
+      [1.255528, -0.076749, -0.178779],
+      [-0.078411, 0.930809, 0.147602],
+      [0.004733, 0.691367, 0.3039],
+    ],
   };
   // the smallest pairwise Delta E of PALETTE, computed with NumPy 2.4 by the same recipe: python3 tests/plot/cvd_palette.py
   const numpy: Record<string, number> = { protanopia: 20.66, deuteranopia: 17.88, tritanopia: 16.05 };
   const lin = (c: number) => (c <= 0.04045 ? c / 12.92 : ((c + 0.055) / 1.055) ** 2.4);
   const lab = (rgb: number[]) => {
-    const X = [[0.4124, 0.3576, 0.1805], [0.2126, 0.7152, 0.0722], [0.0193, 0.1192, 0.9505]].map((r) => r[0] * rgb[0] + r[1] * rgb[1] + r[2] * rgb[2]);
+    const X = [
+      [0.4124, 0.3576, 0.1805],
+      [0.2126, 0.7152, 0.0722],
+      [0.0193, 0.1192, 0.9505],
+    ].map((r) => r[0] * rgb[0] + r[1] * rgb[1] + r[2] * rgb[2]);
     const w = [0.95047, 1, 1.08883];
-    const f = X.map((x, i) => { const t = x / w[i]; return t > (6 / 29) ** 3 ? Math.cbrt(t) : t / (3 * (6 / 29) ** 2) + 4 / 29; });
+    const f = X.map((x, i) => {
+      const t = x / w[i];
+      return t > (6 / 29) ** 3 ? Math.cbrt(t) : t / (3 * (6 / 29) ** 2) + 4 / 29;
+    });
     return [116 * f[1] - 16, 500 * (f[0] - f[1]), 200 * (f[1] - f[2])];
   };
   const rgb = PALETTE.map((c) => [1, 3, 5].map((i) => lin(parseInt(c.slice(i, i + 2), 16) / 255)));
@@ -239,7 +357,9 @@ describe('class colours stay apart under simulated colour-vision deficiency', ()
     it(`${kind}: every pair of class colours at least Delta E 15 apart (2.3 is a just-noticeable difference, Sharma 2003)`, () => {
       const L = rgb.map((c) => lab(m.map((r) => Math.min(1, Math.max(0, r[0] * c[0] + r[1] * c[1] + r[2] * c[2])))));
       let min = Infinity;
-      for (let i = 0; i < L.length; i++) for (let j = i + 1; j < L.length; j++) min = Math.min(min, Math.hypot(L[i][0] - L[j][0], L[i][1] - L[j][1], L[i][2] - L[j][2]));
+      for (let i = 0; i < L.length; i++)
+        for (let j = i + 1; j < L.length; j++)
+          min = Math.min(min, Math.hypot(L[i][0] - L[j][0], L[i][1] - L[j][1], L[i][2] - L[j][2]));
       expect(min).toBeGreaterThan(15);
       expect(min).toBeCloseTo(numpy[kind], 1);
     });

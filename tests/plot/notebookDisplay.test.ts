@@ -7,8 +7,17 @@ describe('sweepSetHtml', () => {
   const evil = '<img src=x onerror=alert(1)>';
   const n = 100;
   const set = new SweepSet({
-    data: new Float64Array(3 * n), nSweeps: 3, nSamples: n, fs: 20000, t0Ms: -1, units: 'uV',
-    conditions: [{ preparation: evil, intensity: 1 }, { preparation: 'N2', intensity: 2 }, { preparation: 'N2', intensity: 4 }],
+    data: new Float64Array(3 * n),
+    nSweeps: 3,
+    nSamples: n,
+    fs: 20000,
+    t0Ms: -1,
+    units: 'uV',
+    conditions: [
+      { preparation: evil, intensity: 1 },
+      { preparation: 'N2', intensity: 2 },
+      { preparation: 'N2', intensity: 4 },
+    ],
   }).baseline({ window: [-1, -0.2] });
   const html = sweepSetHtml(set);
   it('names sweeps, samples, the sampling rate, the time span and the units', () => {
@@ -33,10 +42,22 @@ describe.skipIf(!findBrowser())('tableHtml({ sortable: true }) in Chromium', () 
     const browser = await chromium.launch({ executablePath: findBrowser()!, args: BROWSER_ARGS });
     try {
       const page = await browser.newPage();
-      const rows = [{ p: 'N2', v: 10 }, { p: 'N10', v: 9 }, { p: 'n1', v: null }, { p: 'N3', v: 100 }, { p: 'N4', v: 0.002 }];
+      const rows = [
+        { p: 'N2', v: 10 },
+        { p: 'N10', v: 9 },
+        { p: 'n1', v: null },
+        { p: 'N3', v: 100 },
+        { p: 'N4', v: 0.002 },
+      ];
       // two tables on one page: the sorter installs once and each table sorts on its own
-      await page.setContent(`<!doctype html><body>${tableHtml(rows, { sortable: true })}${tableHtml(rows, { sortable: true })}</body>`);
-      const col = (t: number, c: number) => page.evaluate(([t, c]) => [...document.querySelectorAll('table')[t].tBodies[0].rows].map((r) => r.cells[c].textContent), [t, c]);
+      await page.setContent(
+        `<!doctype html><body>${tableHtml(rows, { sortable: true })}${tableHtml(rows, { sortable: true })}</body>`,
+      );
+      const col = (t: number, c: number) =>
+        page.evaluate(
+          ([t, c]) => [...document.querySelectorAll('table')[t].tBodies[0].rows].map((r) => r.cells[c].textContent),
+          [t, c],
+        );
       await page.locator('table').nth(0).locator('th').nth(1).click();
       expect(await col(0, 1)).toEqual(['0.002', '9', '10', '100', '']); // numeric order: 0.002 < 9 < 10 < 100
       await page.locator('table').nth(0).locator('th').nth(1).click();

@@ -13,9 +13,26 @@ import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import type { Page } from 'playwright-core';
 import {
-  model, sweepsFigure, recruitmentFigure, strengthDurationFigure, velocityFigure, doseResponseFigure, temperatureFigure,
-  summaryFigure, classViews, sweepViewer, Figure, baseLayout, findBrowser, openExporter, FigureExporter, saveFigures, compareGroups, groupFigure,
-  velocityDistributionFigure, velocityReconstructionFigure,
+  model,
+  sweepsFigure,
+  recruitmentFigure,
+  strengthDurationFigure,
+  velocityFigure,
+  doseResponseFigure,
+  temperatureFigure,
+  summaryFigure,
+  classViews,
+  sweepViewer,
+  Figure,
+  baseLayout,
+  findBrowser,
+  openExporter,
+  FigureExporter,
+  saveFigures,
+  compareGroups,
+  groupFigure,
+  velocityDistributionFigure,
+  velocityReconstructionFigure,
 } from '../../src';
 import { saveWithSharedExporter, sharedExporterOpen, closeSharedExporter } from '../../src/plot/export';
 
@@ -26,12 +43,40 @@ const V = [50, 12, 0.8]; // m/s, a typical rodent order of magnitude (common pra
 /** A small simulated experiment (fascicle's forward model): two distances, two temperatures, an intensity series. */
 function simulated() {
   const nerve = model.rodentSciatic();
-  const sweeps = [10, 30].flatMap((d) => [22, 37].map((T) => ({ intensity: 20, distanceMm: d, temperatureC: T, concentration: 0, conditions: { preparation: 'sim' } })));
-  const sim = model.simulateNerve({ model: nerve, seed: 1, grid: { fs: 20000, t0Ms: -2, nSamples: 1600 }, sweeps, nuisance: { noiseUv: 5 } }).baseline();
-  const series = model.simulateNerve({
-    model: nerve, seed: 2, grid: { fs: 20000, t0Ms: -2, nSamples: 400 }, nuisance: { noiseUv: 5 },
-    sweeps: Array.from({ length: 10 }, (_, k) => ({ intensity: 0.05 * 1.6 ** k, distanceMm: 20, temperatureC: 37, concentration: 0, conditions: { preparation: 'sim', intensityUnit: 'mA' } })),
-  }).baseline().removeArtifact({ method: 'blank', window: [0, 0.12], bridge: 'linear' });
+  const sweeps = [10, 30].flatMap((d) =>
+    [22, 37].map((T) => ({
+      intensity: 20,
+      distanceMm: d,
+      temperatureC: T,
+      concentration: 0,
+      conditions: { preparation: 'sim' },
+    })),
+  );
+  const sim = model
+    .simulateNerve({
+      model: nerve,
+      seed: 1,
+      grid: { fs: 20000, t0Ms: -2, nSamples: 1600 },
+      sweeps,
+      nuisance: { noiseUv: 5 },
+    })
+    .baseline();
+  const series = model
+    .simulateNerve({
+      model: nerve,
+      seed: 2,
+      grid: { fs: 20000, t0Ms: -2, nSamples: 400 },
+      nuisance: { noiseUv: 5 },
+      sweeps: Array.from({ length: 10 }, (_, k) => ({
+        intensity: 0.05 * 1.6 ** k,
+        distanceMm: 20,
+        temperatureC: 37,
+        concentration: 0,
+        conditions: { preparation: 'sim', intensityUnit: 'mA' },
+      })),
+    })
+    .baseline()
+    .removeArtifact({ method: 'blank', window: [0, 0.12], bridge: 'linear' });
   return { sim, series };
 }
 
@@ -41,31 +86,105 @@ function figures(): Figure[] {
   const one = sim.where({ distanceMm: 30, temperatureC: 37 });
   const tOne = one.components({ preset: 'mammalian' });
   const rec = series.components({ preset: 'mammalian', earliestMs: 0.12 }).recruitment();
-  const velRows = CLASSES.flatMap((cls, ci) => PREPS.flatMap((p) => [20, 40].map((d) => ({ class: cls, preparation: p, detected: true, distance_mm: d, centroid_ms: 0.05 * (ci + 1) + d / V[ci] }))));
+  const velRows = CLASSES.flatMap((cls, ci) =>
+    PREPS.flatMap((p) =>
+      [20, 40].map((d) => ({
+        class: cls,
+        preparation: p,
+        detected: true,
+        distance_mm: d,
+        centroid_ms: 0.05 * (ci + 1) + d / V[ci],
+      })),
+    ),
+  );
   const conc = [1, 3, 10, 30, 100, 300];
-  const dosePts = CLASSES.flatMap((cls, ci) => PREPS.flatMap((p, k) => conc.map((c) => ({ class: cls, preparation: p, concentration: c, normalized: 1 / (1 + c / (10 * (ci + 1))) + 0.02 * k }))));
-  const doseSum = CLASSES.map((cls, ci) => ({ class: cls, ic50: 10 * (ci + 1), pooled_ic50: 10 * (ci + 1), pooled_hill: 1, pooled_bottom: 0, concentrationUnit: 'uM' }));
-  const tPts = CLASSES.flatMap((cls, ci) => PREPS.flatMap((p) => [25, 29, 33, 37].map((T) => ({ class: cls, preparation: p, temperatureC: T, value: V[ci] * 1.5 ** ((T - 37) / 10), measure: 'centroid_velocity_m_s' }))));
-  const tRows = CLASSES.map((cls) => ({ class: cls, q10: 1.5, ea_kJ_mol: 30.5 }));
-  const sdPts = CLASSES.flatMap((cls, ci) => [0.02, 0.05, 0.1, 0.2, 0.5, 1].map((w) => {
-    const c = 0.1 * (ci + 1) * (1 + (0.3 * (ci + 1)) / w);
-    return { class: cls, pulseWidthMs: w, criterion: c, criterion_ci95_low: c * 0.9, criterion_ci95_high: c * 1.1 };
+  const dosePts = CLASSES.flatMap((cls, ci) =>
+    PREPS.flatMap((p, k) =>
+      conc.map((c) => ({
+        class: cls,
+        preparation: p,
+        concentration: c,
+        normalized: 1 / (1 + c / (10 * (ci + 1))) + 0.02 * k,
+      })),
+    ),
+  );
+  const doseSum = CLASSES.map((cls, ci) => ({
+    class: cls,
+    ic50: 10 * (ci + 1),
+    pooled_ic50: 10 * (ci + 1),
+    pooled_hill: 1,
+    pooled_bottom: 0,
+    concentrationUnit: 'uM',
   }));
-  const sdRows = CLASSES.map((cls, ci) => ({ class: cls, rheobase: 0.1 * (ci + 1), chronaxie_ms: 0.3 * (ci + 1), lapicque_rheobase: 0.1 * (ci + 1), lapicque_tau_ms: 0.43 * (ci + 1), intensityUnit: 'mA' }));
-  const vel = CLASSES.flatMap((cls, ci) => PREPS.map((p, k) => ({ class: cls, preparation: p, velocity_m_s: V[ci] * (1 + 0.05 * k) })));
-  const groupRows = ['control', 'treated'].flatMap((g, gi) => [1, 2, 3, 4].flatMap((k) => ['baseline', 'drug'].map((e, ei) => ({
-    group: g, preparation: `${g}-${k}`, epoch: e, class: 'C', amplitude_uV: 100 - 30 * gi * ei + 5 * k,
-  }))));
+  const tPts = CLASSES.flatMap((cls, ci) =>
+    PREPS.flatMap((p) =>
+      [25, 29, 33, 37].map((T) => ({
+        class: cls,
+        preparation: p,
+        temperatureC: T,
+        value: V[ci] * 1.5 ** ((T - 37) / 10),
+        measure: 'centroid_velocity_m_s',
+      })),
+    ),
+  );
+  const tRows = CLASSES.map((cls) => ({ class: cls, q10: 1.5, ea_kJ_mol: 30.5 }));
+  const sdPts = CLASSES.flatMap((cls, ci) =>
+    [0.02, 0.05, 0.1, 0.2, 0.5, 1].map((w) => {
+      const c = 0.1 * (ci + 1) * (1 + (0.3 * (ci + 1)) / w);
+      return { class: cls, pulseWidthMs: w, criterion: c, criterion_ci95_low: c * 0.9, criterion_ci95_high: c * 1.1 };
+    }),
+  );
+  const sdRows = CLASSES.map((cls, ci) => ({
+    class: cls,
+    rheobase: 0.1 * (ci + 1),
+    chronaxie_ms: 0.3 * (ci + 1),
+    lapicque_rheobase: 0.1 * (ci + 1),
+    lapicque_tau_ms: 0.43 * (ci + 1),
+    intensityUnit: 'mA',
+  }));
+  const vel = CLASSES.flatMap((cls, ci) =>
+    PREPS.map((p, k) => ({ class: cls, preparation: p, velocity_m_s: V[ci] * (1 + 0.05 * k) })),
+  );
+  const groupRows = ['control', 'treated'].flatMap((g, gi) =>
+    [1, 2, 3, 4].flatMap((k) =>
+      ['baseline', 'drug'].map((e, ei) => ({
+        group: g,
+        preparation: `${g}-${k}`,
+        epoch: e,
+        class: 'C',
+        amplitude_uV: 100 - 30 * gi * ei + 5 * k,
+      })),
+    ),
+  );
   // a velocity-distribution result's fields as its figures read them (the analysis itself is slow for this test)
   const vgrid = Array.from({ length: 40 }, (_, i) => {
-    const v = 0.4 * 1.16 ** i, f = Math.exp(-((Math.log(v / 40)) ** 2) / 0.1) + 2 * Math.exp(-((Math.log(v / 0.9)) ** 2) / 0.2);
-    return { velocity_m_s: v, bin_low_m_s: v / 1.077, bin_high_m_s: v * 1.077, number_fraction: f / 30, number_fraction_ci95_low: f / 36, number_fraction_ci95_high: f / 25 };
+    const v = 0.4 * 1.16 ** i,
+      f = Math.exp(-(Math.log(v / 40) ** 2) / 0.1) + 2 * Math.exp(-(Math.log(v / 0.9) ** 2) / 0.2);
+    return {
+      velocity_m_s: v,
+      bin_low_m_s: v / 1.077,
+      bin_high_m_s: v * 1.077,
+      number_fraction: f / 30,
+      number_fraction_ci95_low: f / 36,
+      number_fraction_ci95_high: f / 25,
+    };
   });
   const tt = Float64Array.from({ length: 800 }, (_, i) => -1 + i * 0.05);
   const vd = {
-    grid: vgrid, fit: { method: 'decomposition' }, units: 'uV',
-    classes: [{ class: 'A-alpha/beta', range_low_m_s: 30, range_high_m_s: 120 }, { class: 'A-delta', range_low_m_s: 5, range_high_m_s: 30 }, { class: 'C', range_low_m_s: 0.4, range_high_m_s: 2.5 }],
-    reconstruction: [10, 30].map((d) => ({ distanceMm: d, t: tt, y: tt.map((t) => Math.exp(-((t - d / 20) ** 2))), fit: tt.map((t) => 0.95 * Math.exp(-((t - d / 20) ** 2))) })),
+    grid: vgrid,
+    fit: { method: 'decomposition' },
+    units: 'uV',
+    classes: [
+      { class: 'A-alpha/beta', range_low_m_s: 30, range_high_m_s: 120 },
+      { class: 'A-delta', range_low_m_s: 5, range_high_m_s: 30 },
+      { class: 'C', range_low_m_s: 0.4, range_high_m_s: 2.5 },
+    ],
+    reconstruction: [10, 30].map((d) => ({
+      distanceMm: d,
+      t: tt,
+      y: tt.map((t) => Math.exp(-((t - d / 20) ** 2))),
+      fit: tt.map((t) => 0.95 * Math.exp(-((t - d / 20) ** 2))),
+    })),
   } as never;
   const hh = model.simulateMembrane({ stimulus: model.stepCurrent(20, 1, 0.5), tMax: 20 });
   return [
@@ -77,20 +196,42 @@ function figures(): Figure[] {
     recruitmentFigure(rec.points, rec.fits, rec.rows, series.units),
     strengthDurationFigure({ rows: sdRows, points: sdPts }),
     velocityFigure(velRows, 'centroid'),
-    velocityFigure(table.rows.filter((r) => r.temperatureC === 37), 'peak'),
+    velocityFigure(
+      table.rows.filter((r) => r.temperatureC === 37),
+      'peak',
+    ),
     doseResponseFigure(dosePts, doseSum),
     temperatureFigure(tPts, tRows, 'q10'),
     temperatureFigure(tPts, tRows, 'arrhenius'),
     summaryFigure(vel, 'velocity_m_s'),
     groupFigure(compareGroups(groupRows, { value: 'amplitude_uV', condition: 'epoch' })),
-    velocityDistributionFigure(vd), velocityReconstructionFigure(vd),
-    new Figure('hh', { data: [{ type: 'scatter', mode: 'lines', x: Array.from(hh.t), y: Array.from(hh.V), name: 'V' }], layout: baseLayout('Hodgkin-Huxley membrane, 6.3 °C', 'time (ms)', 'membrane potential (mV)') }),
+    velocityDistributionFigure(vd),
+    velocityReconstructionFigure(vd),
+    new Figure('hh', {
+      data: [{ type: 'scatter', mode: 'lines', x: Array.from(hh.t), y: Array.from(hh.V), name: 'V' }],
+      layout: baseLayout('Hodgkin-Huxley membrane, 6.3 °C', 'time (ms)', 'membrane potential (mV)'),
+    }),
   ];
 }
 
-interface Box { text: string; cls: string; l: number; r: number; t: number; b: number; fontPx: number }
+interface Box {
+  text: string;
+  cls: string;
+  l: number;
+  r: number;
+  t: number;
+  b: number;
+  fontPx: number;
+}
 type Rect = { l: number; r: number; t: number; b: number };
-interface Check { canvas: { w: number; h: number }; boxes: Box[]; plot: Rect | null; legend: Rect | null; marks: Rect[]; strokes: number[] }
+interface Check {
+  canvas: { w: number; h: number };
+  boxes: Box[];
+  plot: Rect | null;
+  legend: Rect | null;
+  marks: Rect[];
+  strokes: number[];
+}
 
 /** Load an exported SVG into a page and measure its text. Written here, independent of the layout code. */
 async function measure(page: Page, svg: string): Promise<Check> {
@@ -99,90 +240,135 @@ async function measure(page: Page, svg: string): Promise<Check> {
     const root = document.querySelector('svg')!;
     const R = root.getBoundingClientRect();
     const rel = (r: DOMRect) => ({ l: r.left - R.left, r: r.right - R.left, t: r.top - R.top, b: r.bottom - R.top });
-    const boxes = [...root.querySelectorAll('text')].filter((e) => (e.textContent ?? '').trim() && e.getBoundingClientRect().width > 0).map((e) => ({
-      text: e.textContent!.trim(), cls: (e.parentNode as Element).getAttribute('class') ?? '', ...rel(e.getBoundingClientRect()),
-      fontPx: parseFloat(getComputedStyle(e).fontSize),
-    }));
+    const boxes = [...root.querySelectorAll('text')]
+      .filter((e) => (e.textContent ?? '').trim() && e.getBoundingClientRect().width > 0)
+      .map((e) => ({
+        text: e.textContent!.trim(),
+        cls: (e.parentNode as Element).getAttribute('class') ?? '',
+        ...rel(e.getBoundingClientRect()),
+        fontPx: parseFloat(getComputedStyle(e).fontSize),
+      }));
     // the plot area: x extent of the x-axis line, y extent of the y-axis line
-    const xl = root.querySelector('path.xlines-above'), yl = root.querySelector('path.ylines-above');
-    const plot = xl && yl ? { l: rel(xl.getBoundingClientRect()).l, r: rel(xl.getBoundingClientRect()).r, t: rel(yl.getBoundingClientRect()).t, b: rel(yl.getBoundingClientRect()).b } : null;
+    const xl = root.querySelector('path.xlines-above'),
+      yl = root.querySelector('path.ylines-above');
+    const plot =
+      xl && yl
+        ? {
+            l: rel(xl.getBoundingClientRect()).l,
+            r: rel(xl.getBoundingClientRect()).r,
+            t: rel(yl.getBoundingClientRect()).t,
+            b: rel(yl.getBoundingClientRect()).b,
+          }
+        : null;
     const lg = root.querySelector('.legend rect.bg') ?? root.querySelector('.legend');
     const L = lg ? rel(lg.getBoundingClientRect()) : null;
     // data marks outside the legend that fall inside its box: markers and error bars by their boxes,
     // lines by their vertices and points every 2 px between them
     const marks: { l: number; r: number; t: number; b: number }[] = [];
-    const hit = (x0: number, x1: number, y0: number, y1: number) => !!L && x1 > L.l + 0.5 && x0 < L.r - 0.5 && y1 > L.t + 0.5 && y0 < L.b - 0.5;
+    const hit = (x0: number, x1: number, y0: number, y1: number) =>
+      !!L && x1 > L.l + 0.5 && x0 < L.r - 0.5 && y1 > L.t + 0.5 && y0 < L.b - 0.5;
     const outsideLegend = (e: Element) => !e.closest('.legend');
     root.querySelectorAll('.scatterlayer path.point, .errorbars path').forEach((e) => {
       const r = rel(e.getBoundingClientRect());
       if (outsideLegend(e) && hit(r.l, r.r, r.t, r.b)) marks.push(r);
     });
-    if (L) root.querySelectorAll('.scatterlayer path.js-line').forEach((e) => {
-      if (!outsideLegend(e)) return;
-      const d = e.getAttribute('d') ?? '', m = (e as SVGPathElement).getScreenCTM()!;
-      if (/[^MLZ\d\s,.eE+-]/.test(d)) throw new Error(`unexpected path commands in ${d.slice(0, 40)}`);
-      let prev: [number, number] | null = null;
-      for (const seg of d.split(/(?=[MLZ])/)) {
-        const n = seg.slice(1).split(/[\s,]+/).filter(Boolean).map(Number);
-        if (seg[0] === 'M') prev = null;
-        for (let k = 0; k + 1 < n.length; k += 2) {
-          const x = m.a * n[k] + m.c * n[k + 1] + m.e - R.left, y = m.b * n[k] + m.d * n[k + 1] + m.f - R.top;
-          if (prev && hit(Math.min(x, prev[0]), Math.max(x, prev[0]), Math.min(y, prev[1]), Math.max(y, prev[1]))) {
-            const steps = Math.ceil(Math.hypot(x - prev[0], y - prev[1]) / 2);
-            for (let j = 1; j < steps; j++) {
-              const px = prev[0] + ((x - prev[0]) * j) / steps, py = prev[1] + ((y - prev[1]) * j) / steps;
-              if (hit(px, px, py, py)) marks.push({ l: px, r: px, t: py, b: py });
+    if (L)
+      root.querySelectorAll('.scatterlayer path.js-line').forEach((e) => {
+        if (!outsideLegend(e)) return;
+        const d = e.getAttribute('d') ?? '',
+          m = (e as SVGPathElement).getScreenCTM()!;
+        if (/[^MLZ\d\s,.eE+-]/.test(d)) throw new Error(`unexpected path commands in ${d.slice(0, 40)}`);
+        let prev: [number, number] | null = null;
+        for (const seg of d.split(/(?=[MLZ])/)) {
+          const n = seg
+            .slice(1)
+            .split(/[\s,]+/)
+            .filter(Boolean)
+            .map(Number);
+          if (seg[0] === 'M') prev = null;
+          for (let k = 0; k + 1 < n.length; k += 2) {
+            const x = m.a * n[k] + m.c * n[k + 1] + m.e - R.left,
+              y = m.b * n[k] + m.d * n[k + 1] + m.f - R.top;
+            if (prev && hit(Math.min(x, prev[0]), Math.max(x, prev[0]), Math.min(y, prev[1]), Math.max(y, prev[1]))) {
+              const steps = Math.ceil(Math.hypot(x - prev[0], y - prev[1]) / 2);
+              for (let j = 1; j < steps; j++) {
+                const px = prev[0] + ((x - prev[0]) * j) / steps,
+                  py = prev[1] + ((y - prev[1]) * j) / steps;
+                if (hit(px, px, py, py)) marks.push({ l: px, r: px, t: py, b: py });
+              }
             }
+            if (hit(x, x, y, y)) marks.push({ l: x, r: x, t: y, b: y });
+            prev = [x, y];
           }
-          if (hit(x, x, y, y)) marks.push({ l: x, r: x, t: y, b: y });
-          prev = [x, y];
         }
-      }
-    });
-    const strokes = [...root.querySelectorAll('.scatterlayer path.js-line')].map((e) => parseFloat(getComputedStyle(e).strokeWidth)).filter((w) => w > 0);
+      });
+    const strokes = [...root.querySelectorAll('.scatterlayer path.js-line')]
+      .map((e) => parseFloat(getComputedStyle(e).strokeWidth))
+      .filter((w) => w > 0);
     return { canvas: { w: R.width, h: R.height }, boxes, plot, legend: L, marks, strokes };
   }, svg);
 }
 
 /** An SVG as PNG bytes (for looking at the figures: FASCICLE_PRINT_DIR). */
 async function rasterize(page: Page, svg: string, w: number, h: number): Promise<Buffer> {
-  const b64: string = await page.evaluate(async ({ svg, w, h }) => {
-    const img = new Image();
-    img.src = 'data:image/svg+xml;charset=utf-8,' + encodeURIComponent(svg);
-    await img.decode();
-    const c = document.createElement('canvas');
-    c.width = w; c.height = h;
-    const ctx = c.getContext('2d')!;
-    ctx.fillStyle = '#fff'; ctx.fillRect(0, 0, w, h); ctx.drawImage(img, 0, 0, w, h);
-    return c.toDataURL('image/png').split(',')[1];
-  }, { svg, w, h });
+  const b64: string = await page.evaluate(
+    async ({ svg, w, h }) => {
+      const img = new Image();
+      img.src = 'data:image/svg+xml;charset=utf-8,' + encodeURIComponent(svg);
+      await img.decode();
+      const c = document.createElement('canvas');
+      c.width = w;
+      c.height = h;
+      const ctx = c.getContext('2d')!;
+      ctx.fillStyle = '#fff';
+      ctx.fillRect(0, 0, w, h);
+      ctx.drawImage(img, 0, 0, w, h);
+      return c.toDataURL('image/png').split(',')[1];
+    },
+    { svg, w, h },
+  );
   return Buffer.from(b64, 'base64');
 }
 
 const TOL = 0.5; // px of slack for anti-aliased edges
-const overlap = (a: { l: number; r: number; t: number; b: number }, b: { l: number; r: number; t: number; b: number }) =>
-  Math.min(a.r, b.r) - Math.max(a.l, b.l) > TOL && Math.min(a.b, b.b) - Math.max(a.t, b.t) > TOL;
+const overlap = (
+  a: { l: number; r: number; t: number; b: number },
+  b: { l: number; r: number; t: number; b: number },
+) => Math.min(a.r, b.r) - Math.max(a.l, b.l) > TOL && Math.min(a.b, b.b) - Math.max(a.t, b.t) > TOL;
 
 /** Problems of a rendered figure; text sizes in pt at 96 px per inch (print: 7-9 pt). */
 function problems(c: Check, size = { minPt: 7, maxPt: 9 }): string[] {
   const out: string[] = [];
   for (const b of c.boxes) {
-    if (b.l < -TOL || b.t < -TOL || b.r > c.canvas.w + TOL || b.b > c.canvas.h + TOL) out.push(`"${b.text}" leaves the canvas (${b.l.toFixed(1)}, ${b.t.toFixed(1)}, ${b.r.toFixed(1)}, ${b.b.toFixed(1)} in ${c.canvas.w} x ${c.canvas.h})`);
+    if (b.l < -TOL || b.t < -TOL || b.r > c.canvas.w + TOL || b.b > c.canvas.h + TOL)
+      out.push(
+        `"${b.text}" leaves the canvas (${b.l.toFixed(1)}, ${b.t.toFixed(1)}, ${b.r.toFixed(1)}, ${b.b.toFixed(1)} in ${c.canvas.w} x ${c.canvas.h})`,
+      );
     // 7-9 pt at 96 px per inch: 9.33-12 px; superscripts and subscripts are tspans and not counted here
-    if (!(b.fontPx >= size.minPt * 96 / 72 - 0.01 && b.fontPx <= size.maxPt * 96 / 72 + 0.01)) out.push(`"${b.text}" is ${(b.fontPx * 72 / 96).toFixed(1)} pt`);
+    if (!(b.fontPx >= (size.minPt * 96) / 72 - 0.01 && b.fontPx <= (size.maxPt * 96) / 72 + 0.01))
+      out.push(`"${b.text}" is ${((b.fontPx * 72) / 96).toFixed(1)} pt`);
   }
   for (let i = 0; i < c.boxes.length; i++) {
-    for (let j = i + 1; j < c.boxes.length; j++) if (overlap(c.boxes[i], c.boxes[j])) out.push(`"${c.boxes[i].text}" overlaps "${c.boxes[j].text}"`);
+    for (let j = i + 1; j < c.boxes.length; j++)
+      if (overlap(c.boxes[i], c.boxes[j])) out.push(`"${c.boxes[i].text}" overlaps "${c.boxes[j].text}"`);
   }
   if (!c.plot) out.push('no plot area found');
   else if (c.plot.r - c.plot.l < 0.45 * c.canvas.w || c.plot.b - c.plot.t < 0.3 * c.canvas.h) {
-    out.push(`plot area ${(c.plot.r - c.plot.l).toFixed(0)} x ${(c.plot.b - c.plot.t).toFixed(0)} px is under 45% x 30% of the canvas`);
+    out.push(
+      `plot area ${(c.plot.r - c.plot.l).toFixed(0)} x ${(c.plot.b - c.plot.t).toFixed(0)} px is under 45% x 30% of the canvas`,
+    );
   }
   // a legend inside the plot area must not cover data: no marker, error bar or line point inside its box
   const inside = (r: Rect, p: Rect) => p.r > r.l + TOL && p.l < r.r - TOL && p.b > r.t + TOL && p.t < r.b - TOL;
-  if (c.legend) { const n = c.marks.filter((m) => inside(c.legend!, m)).length; if (n) out.push(`the legend covers ${n} data marks`); }
+  if (c.legend) {
+    const n = c.marks.filter((m) => inside(c.legend!, m)).length;
+    if (n) out.push(`the legend covers ${n} data marks`);
+  }
   // titles never sit on the plot area (tick labels are outside it by construction; legend entries are checked above)
-  if (c.plot) for (const b of c.boxes) if (/title/.test(b.cls) && !/cbtitle/.test(b.cls) && overlap(c.plot, b)) out.push(`"${b.text}" (${b.cls}) sits on the plot area`);
+  if (c.plot)
+    for (const b of c.boxes)
+      if (/title/.test(b.cls) && !/cbtitle/.test(b.cls) && overlap(c.plot, b))
+        out.push(`"${b.text}" (${b.cls}) sits on the plot area`);
   return out;
 }
 
@@ -203,7 +389,9 @@ describe.skipIf(!browser)('print export at journal widths (headless Chromium)', 
     ex = await openExporter();
     page = await ex.browser.newPage();
   }, 60000);
-  afterAll(async () => { await ex?.close(); });
+  afterAll(async () => {
+    await ex?.close();
+  });
 
   for (const size of SIZES) {
     it(`every figure kind at ${size.name} (${size.widthMm} x ${size.heightMm} mm): no text overlaps or leaves the canvas, 7-9 pt`, async () => {
@@ -213,14 +401,22 @@ describe.skipIf(!browser)('print export at journal widths (headless Chromium)', 
         const r = await ex.svg(f, { widthMm: size.widthMm, heightMm: size.heightMm });
         const t1 = Date.now();
         const c = await measure(page, r.svg);
-        if (process.env.FASCICLE_PRINT_TIMES) console.log(`TIME ${size.widthMm} ${f.name} render ${t1 - t0} ms, check ${Date.now() - t1} ms`);
-        expect(c.canvas.w).toBeCloseTo(Math.round(size.widthMm * 96 / 25.4), 0);
+        if (process.env.FASCICLE_PRINT_TIMES)
+          console.log(`TIME ${size.widthMm} ${f.name} render ${t1 - t0} ms, check ${Date.now() - t1} ms`);
+        expect(c.canvas.w).toBeCloseTo(Math.round((size.widthMm * 96) / 25.4), 0);
         expect(c.boxes.length).toBeGreaterThan(4); // ticks and titles were drawn
         // FASCICLE_PRINT_DIR=folder keeps a PNG of each figure (CI artifacts, looking at them)
-        if (process.env.FASCICLE_PRINT_DIR) await ex.save(f, join(process.env.FASCICLE_PRINT_DIR, `${size.widthMm}mm-${figs.indexOf(f)}-${f.name}.png`), { widthMm: size.widthMm, heightMm: size.heightMm, dpi: 150 });
+        if (process.env.FASCICLE_PRINT_DIR)
+          await ex.save(f, join(process.env.FASCICLE_PRINT_DIR, `${size.widthMm}mm-${figs.indexOf(f)}-${f.name}.png`), {
+            widthMm: size.widthMm,
+            heightMm: size.heightMm,
+            dpi: 150,
+          });
         for (const p of problems(c)) bad.push(`${f.name} "${(f.spec.layout.title as { text: string }).text}": ${p}`);
         // data lines for print: 0.5-1.5 pt (common practice for journal artwork, no single source)
-        for (const w of c.strokes) if (!(w >= 0.5 * 96 / 72 - 0.01 && w <= 1.5 * 96 / 72 + 0.01)) bad.push(`${f.name}: a data line is ${(w * 72 / 96).toFixed(2)} pt wide`);
+        for (const w of c.strokes)
+          if (!(w >= (0.5 * 96) / 72 - 0.01 && w <= (1.5 * 96) / 72 + 0.01))
+            bad.push(`${f.name}: a data line is ${((w * 72) / 96).toFixed(2)} pt wide`);
       }
       expect(bad).toEqual([]);
     }, 60000);
@@ -241,17 +437,27 @@ describe.skipIf(!browser)('print export at journal widths (headless Chromium)', 
         const gd = document.querySelector('.fascicle-figure') as HTMLElement & { _fullLayout?: unknown };
         for (let i = 0; i < 200 && !gd._fullLayout; i++) await new Promise((r) => setTimeout(r, 10));
         let last = '';
-        for (let i = 0; i < 100; i++) { // settled when the SVG stops changing
+        for (let i = 0; i < 100; i++) {
+          // settled when the SVG stops changing
           await new Promise((r) => setTimeout(r, 30));
-          const now = gd.innerHTML.length + ':' + JSON.stringify((gd as unknown as { layout: { margin: unknown } }).layout.margin);
+          const now =
+            gd.innerHTML.length +
+            ':' +
+            JSON.stringify((gd as unknown as { layout: { margin: unknown } }).layout.margin);
           if (now === last) break;
           last = now;
         }
         const P = (window as unknown as { Plotly: any }).Plotly; // eslint-disable-line @typescript-eslint/no-explicit-any
-        return decodeURIComponent((await P.toImage(gd, { format: 'svg', width: 640, height: 420 })).replace(/^data:image\/svg\+xml,/, ''));
+        return decodeURIComponent(
+          (await P.toImage(gd, { format: 'svg', width: 640, height: 420 })).replace(/^data:image\/svg\+xml,/, ''),
+        );
       }, html);
       const c = await measure(page, svg);
-      if (process.env.FASCICLE_PRINT_DIR) writeFileSync(join(process.env.FASCICLE_PRINT_DIR, `screen-${figs.indexOf(f)}-${f.name}.png`), await rasterize(page, svg, 640, 420));
+      if (process.env.FASCICLE_PRINT_DIR)
+        writeFileSync(
+          join(process.env.FASCICLE_PRINT_DIR, `screen-${figs.indexOf(f)}-${f.name}.png`),
+          await rasterize(page, svg, 640, 420),
+        );
       // on screen: 10 px (7.5 pt at 96 px per inch) is the smallest text, 14 px the largest
       for (const p of problems(c, { minPt: 7.5, maxPt: 10.5 })) bad.push(`${f.name}: ${p}`);
     }
@@ -264,14 +470,26 @@ describe.skipIf(!browser)('print export at journal widths (headless Chromium)', 
       document.body.innerHTML = '<div id="v"></div>';
       const P = (window as unknown as { Plotly: any }).Plotly; // eslint-disable-line @typescript-eslint/no-explicit-any
       const gd = await P.newPlot('v', spec.data, spec.layout);
-      const shown = () => gd.data.map((t: { visible: boolean; name: string; x: unknown[] }, i: number) => (t.visible === true && t.x[0] !== null ? i : -1)).filter((i: number) => i >= 0);
+      const shown = () =>
+        gd.data
+          .map((t: { visible: boolean; name: string; x: unknown[] }, i: number) =>
+            t.visible === true && t.x[0] !== null ? i : -1,
+          )
+          .filter((i: number) => i >= 0);
       const first = shown();
       const step = gd.layout.sliders[0].steps[2];
       await P.update(gd, step.args[0], step.args[1]);
       const third = shown();
       P.Fx.hover(gd, [{ curveNumber: third[0], pointNumber: 100 }]);
       await new Promise((res) => setTimeout(res, 50));
-      return { n: gd.layout.sliders[0].steps.length, first, third, names: third.map((i: number) => gd.data[i].name), title: gd.layout.title.text, hover: document.querySelector('#v .hoverlayer')!.textContent };
+      return {
+        n: gd.layout.sliders[0].steps.length,
+        first,
+        third,
+        names: third.map((i: number) => gd.data[i].name),
+        title: gd.layout.title.text,
+        hover: document.querySelector('#v .hoverlayer')!.textContent,
+      };
     }, JSON.parse(f.specJson()));
     expect(r.n).toBe(4); // the simulated set: 2 distances x 2 temperatures
     expect(r.first).not.toEqual(r.third);
@@ -283,13 +501,28 @@ describe.skipIf(!browser)('print export at journal widths (headless Chromium)', 
 
   it('the checker itself finds an overlap and text off the canvas (a legend placed over the x-axis title, a long title)', async () => {
     const f = figs[5];
-    const broken = new Figure('broken', { data: f.spec.data, layout: { ...f.spec.layout, title: { text: 'A title far too long to fit into a single column figure at nine points, surely' }, legend: { orientation: 'h', y: -0.2 }, margin: { l: 40, r: 10, t: 30, b: 40 } } });
+    const broken = new Figure('broken', {
+      data: f.spec.data,
+      layout: {
+        ...f.spec.layout,
+        title: { text: 'A title far too long to fit into a single column figure at nine points, surely' },
+        legend: { orientation: 'h', y: -0.2 },
+        margin: { l: 40, r: 10, t: 30, b: 40 },
+      },
+    });
     // render without the layout fit, the way plotly would on its own
     const svg: string = await ex.page.evaluate(async (spec) => {
       document.body.innerHTML = '<div id="g"></div>';
       const P = (window as unknown as { Plotly: any }).Plotly; // eslint-disable-line @typescript-eslint/no-explicit-any
-      const gd = await P.newPlot('g', spec.data, { ...spec.layout, width: 321, height: 227, font: { size: 10.667 } }, { staticPlot: true });
-      return decodeURIComponent((await P.toImage(gd, { format: 'svg', width: 321, height: 227 })).replace(/^data:image\/svg\+xml,/, ''));
+      const gd = await P.newPlot(
+        'g',
+        spec.data,
+        { ...spec.layout, width: 321, height: 227, font: { size: 10.667 } },
+        { staticPlot: true },
+      );
+      return decodeURIComponent(
+        (await P.toImage(gd, { format: 'svg', width: 321, height: 227 })).replace(/^data:image\/svg\+xml,/, ''),
+      );
     }, JSON.parse(broken.specJson()));
     const p = problems(await measure(page, svg));
     expect(p.some((x) => /overlaps/.test(x))).toBe(true);
@@ -299,16 +532,31 @@ describe.skipIf(!browser)('print export at journal widths (headless Chromium)', 
       document.body.innerHTML = '<div id="g"></div>';
       const P = (window as unknown as { Plotly: any }).Plotly; // eslint-disable-line @typescript-eslint/no-explicit-any
       const x = Array.from({ length: 200 }, (_, i) => i);
-      const gd = await P.newPlot('g', [{ x, y: x, mode: 'lines', name: 'a' }, { x, y: x.map((v) => 200 - v), mode: 'markers', name: 'b' }],
-        { width: 321, height: 227, showlegend: true, legend: { x: 0.5, y: 0.5, xanchor: 'center', yanchor: 'middle' } }, { staticPlot: true });
-      return decodeURIComponent((await P.toImage(gd, { format: 'svg', width: 321, height: 227 })).replace(/^data:image\/svg\+xml,/, ''));
+      const gd = await P.newPlot(
+        'g',
+        [
+          { x, y: x, mode: 'lines', name: 'a' },
+          { x, y: x.map((v) => 200 - v), mode: 'markers', name: 'b' },
+        ],
+        { width: 321, height: 227, showlegend: true, legend: { x: 0.5, y: 0.5, xanchor: 'center', yanchor: 'middle' } },
+        { staticPlot: true },
+      );
+      return decodeURIComponent(
+        (await P.toImage(gd, { format: 'svg', width: 321, height: 227 })).replace(/^data:image\/svg\+xml,/, ''),
+      );
     });
     expect(problems(await measure(page, covered)).some((x) => /the legend covers \d+ data marks/.test(x))).toBe(true);
   }, 30000);
 
   it('labels reach plotly as text: a preparation named <a href=...> is no link in the legend or the hover text', async () => {
     const evil = '<a href="https://example.invalid/x">N9</a> & <b>bold</b>';
-    const rows = [20, 40].map((d) => ({ class: evil, preparation: evil, detected: true, distance_mm: d, centroid_ms: d / 10 }));
+    const rows = [20, 40].map((d) => ({
+      class: evil,
+      preparation: evil,
+      detected: true,
+      distance_mm: d,
+      centroid_ms: d / 10,
+    }));
     const fig = velocityFigure(rows, 'centroid');
     const result = await ex.page.evaluate(async (spec) => {
       document.body.innerHTML = '<div id="h"></div>';
@@ -318,8 +566,10 @@ describe.skipIf(!browser)('print export at journal widths (headless Chromium)', 
       await new Promise((r) => setTimeout(r, 50));
       const hover = document.querySelector('.hoverlayer')!;
       return {
-        links: document.querySelectorAll('#h svg a').length, bold: document.querySelectorAll('#h tspan[style*="bold"]').length,
-        legend: [...document.querySelectorAll('#h .legendtext')].map((e) => e.textContent), hover: hover.textContent,
+        links: document.querySelectorAll('#h svg a').length,
+        bold: document.querySelectorAll('#h tspan[style*="bold"]').length,
+        legend: [...document.querySelectorAll('#h .legendtext')].map((e) => e.textContent),
+        hover: hover.textContent,
       };
     }, JSON.parse(fig.specJson()));
     expect(result.links).toBe(0);
@@ -330,7 +580,10 @@ describe.skipIf(!browser)('print export at journal widths (headless Chromium)', 
 
   it('saves SVG, PNG at the requested dpi and a titled PDF for several figures in one launch', async () => {
     const dir = mkdtempSync(join(tmpdir(), 'fascicle-print-'));
-    const [a, b] = [figs.find((f) => f.name === 'dose-response')!, figs.find((f) => f.name === 'temperature-arrhenius')!];
+    const [a, b] = [
+      figs.find((f) => f.name === 'dose-response')!,
+      figs.find((f) => f.name === 'temperature-arrhenius')!,
+    ];
     await saveFigures([
       { figure: a, path: join(dir, 'a.svg'), column: 'single' },
       { figure: a, path: join(dir, 'a.png'), widthMm: 85, heightMm: 60, dpi: 600 },
@@ -352,7 +605,7 @@ describe.skipIf(!browser)('print export at journal widths (headless Chromium)', 
     expect(png.readUInt32BE(at + 4)).toBe(23622);
     expect(png[at + 12]).toBe(1);
     // the chunk's CRC over type and data, as zlib computes it (node:zlib crc32, Node >= 20.15)
-    const zlib = await import('node:zlib') as unknown as { crc32?: (b: Uint8Array) => number };
+    const zlib = (await import('node:zlib')) as unknown as { crc32?: (b: Uint8Array) => number };
     if (zlib.crc32) expect(png.readUInt32BE(at + 13)).toBe(zlib.crc32(png.subarray(at, at + 13)) >>> 0);
     const png2 = readFileSync(join(dir, 'b.png'));
     // default 300 dpi: 175 mm -> 2066.9 -> 2067 px; 100 mm -> 1181.1 -> 1181 px
@@ -371,7 +624,12 @@ describe.skipIf(!browser)('print export at journal widths (headless Chromium)', 
   it('figures without data or legend still export (no text problems, no page errors)', async () => {
     const errors: string[] = [];
     ex.page.on('pageerror', (e) => errors.push(String(e)));
-    const empty = [doseResponseFigure([], []), temperatureFigure([], [], 'q10'), velocityFigure([]), summaryFigure([], 'velocity_m_s')];
+    const empty = [
+      doseResponseFigure([], []),
+      temperatureFigure([], [], 'q10'),
+      velocityFigure([]),
+      summaryFigure([], 'velocity_m_s'),
+    ];
     for (const f of empty) {
       const r = await ex.svg(f, { widthMm: 85, heightMm: 60 });
       const p = problems(await measure(page, r.svg)).filter((x) => !/plot area|no plot area/.test(x));
@@ -409,8 +667,12 @@ describe.skipIf(!browser)('print export at journal widths (headless Chromium)', 
   it('rejects unknown save options and names the replacement for scale', async () => {
     const f = figs[0];
     await expect(saveFigures([{ figure: f, path: 'x.png', scale: 3 } as never])).rejects.toThrow(/"scale": use dpi/);
-    await expect(saveFigures([{ figure: f, path: 'x.png', widthMM: 85 } as never])).rejects.toThrow(/unknown key "widthMM".*did you mean "widthMm"/);
-    await expect(saveFigures([{ figure: f, path: 'x.png', column: 'triple' } as never])).rejects.toThrow(/invalid column: "triple"/);
+    await expect(saveFigures([{ figure: f, path: 'x.png', widthMM: 85 } as never])).rejects.toThrow(
+      /unknown key "widthMM".*did you mean "widthMm"/,
+    );
+    await expect(saveFigures([{ figure: f, path: 'x.png', column: 'triple' } as never])).rejects.toThrow(
+      /invalid column: "triple"/,
+    );
     await expect(saveFigures([{ figure: f, path: 'x.gif' }])).rejects.toThrow(/must end in .svg, .png or .pdf/);
   });
 });
@@ -429,4 +691,3 @@ function pdfTitle(pdf: string): string | null {
   if (buf[0] === 0xfe && buf[1] === 0xff) return Buffer.from(buf.subarray(2)).swap16().toString('utf16le');
   return buf.toString('latin1');
 }
-
