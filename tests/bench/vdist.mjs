@@ -41,7 +41,7 @@ const load = (name) => {
     conditions: cols.map((c) => ({ distanceMm: Number(/_(\d+)mm$/.exec(c)[1]), temperatureC: 30 })) });
 };
 const fast = f.SweepSet.concat([load('temperature_fast_30C'), load('dose_response_fast_30C')]);
-const base = { fitWindow: [0.45, 18], velocityRange: [5, 120] };
+const base = { fitWindow: [0.25, 18], artifactTauMs: [0.025, 0.05, 0.1], velocityRange: [5, 120] }; // as in the devset test
 for (const bootstrap of [0, 200]) {
   const r = time(`velocityDistribution fast window, estimated potential, bootstrap ${bootstrap}`, () => f.velocityDistribution(fast, { ...base, bootstrap }));
   console.log(`  iterations ${r.fit.iterations}, status ${r.fit.status}`);
