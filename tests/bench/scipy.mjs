@@ -42,13 +42,16 @@ function median(a) {
 function bench(fn, input) {
   global.gc?.(); // once per stage, before its warm-up (as SciPy's side, no collection between runs)
   let out = fn(input); // warm-up
-  const ts = [];
+  const ts = [], cs = [];
   for (let k = 0; k < RUNS; k++) {
+    const c0 = process.cpuUsage();
     const t0 = process.hrtime.bigint();
     out = fn(input);
     ts.push(Number(process.hrtime.bigint() - t0) / 1e9);
+    const c = process.cpuUsage(c0);
+    cs.push((c.user + c.system) / 1e6);
   }
-  return { out, t: median(ts) };
+  return { out, t: median(ts), cpu: median(cs) };
 }
 
 // ---- fascicle's side: the same steps through the public API
@@ -114,18 +117,18 @@ function hillStep(meta) {
 }
 function fasciclePipeline(path, meta) {
   const hill = hillStep(meta);
-  const t = {};
+  const t = {}, cpu = {};
   const load = bench(() => loadSet(path, meta));
-  t.load_binary = load.t;
-  const b = bench(baselineStep, load.out); t.baseline = b.t;
-  const k = bench(blankStep, b.out); t.blank = k.t; // verbs may leave work pending; the next stage pays it
-  const y = bench((s) => { const r = filterStep(s); r.data; return r; }, k.out); t.filter = y.t;
-  const a = bench(averageStep, y.out); t.average = a.t;
-  const ft = bench(featuresStep, a.out); t.features = ft.t;
-  const h = bench(hill, ft.out); t.hill_fit = h.t;
+  t.load_binary = load.t; cpu.load_binary = load.cpu;
+  const b = bench(baselineStep, load.out); t.baseline = b.t; cpu.baseline = b.cpu;
+  const k = bench(blankStep, b.out); t.blank = k.t; cpu.blank = k.cpu; // verbs may leave work pending; the next stage pays it
+  const y = bench((s) => { const r = filterStep(s); r.data; return r; }, k.out); t.filter = y.t; cpu.filter = y.cpu;
+  const a = bench(averageStep, y.out); t.average = a.t; cpu.average = a.cpu;
+  const ft = bench(featuresStep, a.out); t.features = ft.t; cpu.features = ft.cpu;
+  const h = bench(hill, ft.out); t.hill_fit = h.t; cpu.hill_fit = h.cpu;
   const tot = bench((s) => hill(featuresStep(averageStep(filterStep(blankStep(baselineStep(s)))))), load.out);
-  t.total = tot.t;
-  return { t, fits: tot.out, feat: ft.out };
+  t.total = tot.t; cpu.total = tot.cpu;
+  return { t, cpu, fits: tot.out, feat: ft.out };
 }
 
 function scipyPipeline(dir) {
@@ -134,6 +137,40 @@ function scipyPipeline(dir) {
   const t = {};
   for (const m of r.stdout.matchAll(/^stage=(\w+) seconds=([\d.eE+-]+)/gm)) t[m[1]] = Number(m[2]);
   return { t, features: JSON.parse(readFileSync(join(dir, 'scipy_features.json'), 'utf8')) };
+}
+
+/**
+ * The same SciPy stages timed in CPU time (time.process_time, median of 5 after a warm-up):
+ * on a shared, loaded machine CPU time is far steadier than wall time, and both sides run
+ * one thread here, so their ratio is the one-thread comparison. Imports scipy_pipeline.py.
+ */
+function scipyCpu(dir) {
+  const code = `
+import sys, json, statistics, time
+sys.path.insert(0, ${JSON.stringify(BENCH)})
+import numpy as np, scipy_pipeline as P
+d = ${JSON.stringify(dir)}
+meta = P.load_meta(d)
+def bench(fn, *a):
+    out = fn(*a); ts = []
+    for _ in range(${RUNS}):
+        c0 = time.process_time(); out = fn(*a); ts.append(time.process_time() - c0)
+    return out, statistics.median(ts)
+x, tl = bench(P.load_binary, d)
+t = P.time_axis(meta); fs = meta["fs"]; cond = np.array([s["condition"] for s in meta["sweeps"]])
+r = {"load_binary": tl}
+y0, r["baseline"] = bench(P.baseline_subtract, x, t)
+y1, r["blank"] = bench(P.blank_artifact, y0, t, fs)
+y2, r["filter"] = bench(P.lowpass, y1, fs)
+avg, r["average"] = bench(P.average_conditions, y2, cond, meta["n_conditions"])
+feat, r["features"] = bench(P.window_features, avg, t, fs)
+fits, r["hill_fit"] = bench(P.hill_fits, feat, meta)
+_, r["total"] = bench(P.process, x, t, cond, meta)
+print(json.dumps(r))
+`;
+  const r = spawnSync('python3', ['-c', code], { encoding: 'utf8', maxBuffer: 1 << 24, env: { ...process.env, OMP_NUM_THREADS: '1', OPENBLAS_NUM_THREADS: '1' } });
+  if (r.status !== 0) return null;
+  try { return JSON.parse(r.stdout.trim().split('\n').pop()); } catch { return null; }
 }
 
 export function runScipyComparison() {
@@ -145,7 +182,7 @@ export function runScipyComparison() {
   const scipyOk = hasScipy();
   if (!scipyOk) console.log('SciPy side skipped (python3 with NumPy and SciPy not found); fascicle figures only');
   const T = f.threads();
-  const rec = { scipy: [], all: [], one: [] };
+  const rec = { scipy: [], all: [], one: [], scipyCpu: [], oneCpu: [] };
   let last = null, sp = null;
   for (let r = 0; r < ROUNDS; r++) {
     if (scipyOk) { sp = scipyPipeline(dir); if (sp) rec.scipy.push(sp.t); }
@@ -153,8 +190,11 @@ export function runScipyComparison() {
     last = fasciclePipeline(path, meta);
     rec.all.push(last.t);
     f.setThreads(1);
-    rec.one.push(fasciclePipeline(path, meta).t);
+    const one = fasciclePipeline(path, meta);
+    rec.one.push(one.t);
+    rec.oneCpu.push(one.cpu);
     f.setThreads(T);
+    if (scipyOk) { const c = scipyCpu(dir); if (c) rec.scipyCpu.push(c); }
   }
   // each round pairs SciPy with fascicle run right after it: a stage's ratio is the median of
   // its per-round ratios (the machine's load changes between rounds, less within one)
@@ -168,6 +208,14 @@ export function runScipyComparison() {
   }
   console.log('(medians over the rounds; ratio = median over rounds of SciPy time / fascicle time, > 1 is faster;');
   console.log(' targets: every stage >= 1, total >= 2 on all cores and >= 1.2 on one thread)');
+  if (rec.scipyCpu.length === rec.oneCpu.length && rec.scipyCpu.length) {
+    console.log('\nCPU time, one thread each (steadier than wall time on a loaded machine):');
+    console.log(`${'stage'.padEnd(16)}${'SciPy CPU (s)'.padStart(15)}${'fascicle CPU (s)'.padStart(18)}${'ratio'.padStart(8)}`);
+    for (const k of STAGES) {
+      const r = median(rec.scipyCpu.map((t, i) => t[k] / rec.oneCpu[i][k]));
+      console.log(`${(k === 'total' ? 'total (no load)' : k).padEnd(16)}${fmt(med(rec.scipyCpu, k)).padStart(15)}${fmt(med(rec.oneCpu, k)).padStart(18)}${rf(r).padStart(8)}`);
+    }
+  }
   if (rec.scipy.length) console.log(`per round, total: ${rec.scipy.map((t, r) => `SciPy ${t.total.toFixed(3)} / fascicle ${rec.all[r].total.toFixed(3)} (${T}T), ${rec.one[r].total.toFixed(3)} (1T)`).join('; ')}`);
   if (sp) {
     // agreement of the results: features and IC50s relative to SciPy's
