@@ -167,7 +167,31 @@ for (const r of cliRuns) console.log(`fascicle run (${r.w}): exit ${r.status}${r
  * Tolerances not met at the last update of this list (see the printed table): expected failures.
  * Keys: `<quantity> | <class> | <where> | <estimator>` as printed.
  */
-const NOT_YET = new Set<string>([]);
+// last updated 08:35 UTC from `npx vitest run tests/external/devset.test.ts` (same list for the API and fascicle run)
+const NOT_YET = new Set<string>([
+  'Hill slope | A-delta | 15 mm | Hill fit',
+  'Hill slope | C | 15 mm | Hill fit',
+  'Hill slope | C | 25 mm | Hill fit',
+  'I50 mA | A-delta | 15 mm | Boltzmann fit',
+  'IC50 uM | A-delta | 15 mm | Hill fit',
+  'velocity m/s | A-alpha/beta | 30 C | two-site onset',
+  'velocity m/s | A-alpha/beta | 37 C | two-site onset',
+  'velocity m/s | A-delta | 20 C | two-site onset',
+  'velocity m/s | A-delta | 20 C | two-site peak',
+  'velocity m/s | A-delta | 20 C | two-site xcorr',
+  'velocity m/s | A-delta | 25 C | two-site onset',
+  'velocity m/s | A-delta | 25 C | two-site peak',
+  'velocity m/s | A-delta | 25 C | two-site xcorr',
+  'velocity m/s | A-delta | 30 C | two-site onset',
+  'velocity m/s | A-delta | 30 C | two-site peak',
+  'velocity m/s | A-delta | 30 C | two-site xcorr',
+  'velocity m/s | A-delta | 37 C | two-site onset',
+  'velocity m/s | A-delta | 37 C | two-site peak',
+  'velocity m/s | A-delta | 37 C | two-site xcorr',
+  'velocity m/s | C | 30 C | two-site onset',
+  'velocity m/s | C | 37 C | regression centroid',
+  'velocity m/s | C | 37 C | two-site peak',
+]);
 const id = (c: Check) => `${c.quantity} | ${c.class} | ${c.where} | ${c.estimator.replace(' (recommended)', '')}`;
 
 describe('development-set harness: its clean-waveform latency code reproduces ground_truth.json', () => {
