@@ -17,6 +17,7 @@ import { plotlyJs, LAYOUT_FIT_JS, drawnSpec } from './figure';
 import { OptionError } from '../errors';
 import { checkKeys } from '../validate';
 import { escapeHtml } from '../notebook/html';
+import { plainText } from './labels';
 
 const CANDIDATES = [
   '/usr/bin/chromium',
@@ -193,16 +194,7 @@ export function printSpec(spec: PlotlySpec, wPx: number, hPx: number, options: {
 /** Figure title as plain text (for a PDF's and an SVG's title). */
 export function plainTitle(figure: Figure): string {
   const t = (figure.spec.layout.title as { text?: string } | undefined)?.text;
-  const text = (t ?? '')
-    .replace(/<br\s*\/?>/gi, ' ')
-    .replace(/<[^>]*>/g, '')
-    .replace(/&lt;/g, '<')
-    .replace(/&gt;/g, '>')
-    .replace(/&quot;/g, '"')
-    .replace(/&#39;/g, "'")
-    .replace(/&amp;/g, '&')
-    .trim();
-  return text || figure.name;
+  return plainText(t ?? '') || figure.name;
 }
 
 const BLANK = '<!doctype html><html><head><meta charset="utf-8"></head><body style="margin:0"></body></html>';

@@ -12,7 +12,7 @@ import { readFileSync } from 'node:fs';
 import { gzipSync } from 'node:zlib';
 import { inspect } from 'node:util';
 import { escapeHtml, tslabDisplay } from '../notebook/html';
-import { sentenceCase, logAxis } from './labels';
+import { sentenceCase, logAxis, plainText } from './labels';
 
 /**
  * Class colours: the colour-blind-safe set of Wong (2011) "Points of view: Color blindness",
@@ -353,7 +353,7 @@ export class Figure {
 
   toString(): string {
     const traces = this.spec.data.length;
-    const t = (this.spec.layout.title as { text?: string })?.text ?? this.name;
+    const t = plainText((this.spec.layout.title as { text?: string })?.text ?? '') || this.name;
     return `Figure "${t}" (${traces} trace${traces === 1 ? '' : 's'}); call .show() in a notebook or .save("fig.svg")`;
   }
 

@@ -13,6 +13,19 @@ export function plotlyText(s: unknown): string {
   return String(s).replace(/&/g, '&amp;').replace(/</g, '&lt;').replace(/>/g, '&gt;');
 }
 
+/** Plotly markup as plain text: tags dropped (<br> as a space), entities decoded. */
+export function plainText(markup: string): string {
+  return markup
+    .replace(/<br\s*\/?>/gi, ' ')
+    .replace(/<[^>]*>/g, '')
+    .replace(/&lt;/g, '<')
+    .replace(/&gt;/g, '>')
+    .replace(/&quot;/g, '"')
+    .replace(/&#39;/g, "'")
+    .replace(/&amp;/g, '&')
+    .trim();
+}
+
 /** ASCII spellings of units and how a figure prints them. */
 const UNIT_PRINT: Record<string, string> = {
   uV: 'µV',
