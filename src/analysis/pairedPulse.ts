@@ -6,7 +6,9 @@
  * distance, temperature, concentration where present) the sweeps of each kind and interval are averaged. The
  * conditioning response is removed from each paired average by subtracting the conditioning-alone average; without
  * conditioning-alone sweeps it is extrapolated from the same sweep: an exponential decay fitted to the last
- * `extrapolateMs` before the test pulse (a straight level when the tail does not decay), said in every row's status.
+ * `extrapolateMs` before the test pulse (a straight level when the tail does not decay), said in every row's status;
+ * a test response whose window overlaps a class's conditioning response that still runs at the test pulse is then
+ * 'not measured' (extrapolation cannot predict it).
  * The difference is then moved so that the test pulse is at 0 ms (whole samples; the remaining fraction of a sample is
  * taken off every latency; before 0 ms it holds the quiet pre-conditioning samples, where the noise level is taken), samples in `blankMs` after the test pulse are bridged by a straight line (its artifact),
  * and the test response is measured with measureComponents exactly as the test-alone average is. Per class:
@@ -230,8 +232,23 @@ export function pairedPulse(set: SweepSet, options: PairedPulseOptions = {}): Pa
     traces.forEach((t, k) => data.set(t, k * set.nSamples));
     const conds = traces.map((_, k) => ({ ...head, distanceMm: base.distanceMm ?? null, temperatureC: base.temperatureC ?? null, intervalMs: k ? isis[k - 1] : null }));
     const locked = new SweepSet({ data, nSweeps: traces.length, nSamples: set.nSamples, fs: set.fs, t0Ms: set.t0Ms, units: u, conditions: conds, extras: set.extras });
-    const { rows } = measureComponents(locked, o.components ?? {});
+    // the test responses keep the test-alone response's polarity per class (unless given): chosen on the test-alone
+    // average alone, so that differences at short intervals cannot flip it
+    const copt = o.components ?? {};
+    const polarity = copt.polarity ?? measureComponents(locked.select([0]), copt).resolved.polarities;
+    const { rows } = measureComponents(locked, { ...copt, polarity });
     const classes = [...new Set(rows.map((r) => r.class))];
+    // spans of the classes' test-alone responses (= the conditioning responses), ms from their stimulus
+    const spans = rows.filter((r) => r.sweep === 0 && r.status === 'measured' && num(r.centroid_from_ms) && num(r.centroid_to_ms))
+      .map((r) => ({ cls: r.class, from: r.centroid_from_ms as number, to: r.centroid_to_ms as number }));
+    /** Without conditioning-alone sweeps: a class whose conditioning response still runs at the test pulse and overlaps the test window. */
+    const overlap = (cls: string, isi: number): string | null => {
+      if (condMean) return null;
+      const own = spans.find((q) => q.cls === cls);
+      if (!own) return null;
+      const y = spans.find((q) => q.to > isi && q.from < isi + own.to && q.to > isi + own.from);
+      return y ? y.cls : null;
+    };
     for (const cls of classes) {
       const cr = rows.filter((r) => r.class === cls);
       const ref = cr.find((r) => r.sweep === 0)!;
@@ -239,13 +256,15 @@ export function pairedPulse(set: SweepSet, options: PairedPulseOptions = {}): Pa
       if (!(latCol in ref)) throw new OptionError(`invalid latency: ${JSON.stringify(latCol)} is not a column of the component table`);
       const pts: Row[] = [];
       for (let k = 1; k < traces.length; k++) {
-        const r = cr.find((q) => q.sweep === k)!;
+        const r0 = cr.find((q) => q.sweep === k)!;
+        const ov = overlap(cls, isis[k - 1]);
+        const r = ov ? { ...r0, status: 'not measured', reason: `the conditioning response of ${ov} still runs at the test pulse and overlaps this class's test window; extrapolation cannot remove it (give conditioning-alone sweeps)` } : r0;
         const measured = r.status === 'measured';
         const lat = measured && num(r[latCol]) ? (r[latCol] as number) - remainder[k] : null;
         const ok = refOk && measured;
         const p: Row = {
           ...head, class: cls, interval_ms: isis[k - 1], sweeps: nSweeps[k], conditioning_subtracted: subtraction[k],
-          detected: measured, [`amplitude_${u}`]: measured ? (r[`amplitude_${u}`] as number) : null, [`area_${u}_ms`]: measured ? (r[`area_${u}_ms`] as number) : null,
+          detected: refOk && measured, [`amplitude_${u}`]: measured ? (r[`amplitude_${u}`] as number) : null, [`area_${u}_ms`]: measured ? (r[`area_${u}_ms`] as number) : null,
           latency_ms: lat,
           amplitude_fraction: ok ? (r[`amplitude_${u}`] as number) / (ref[`amplitude_${u}`] as number) : null,
           area_fraction: ok ? (r[`area_${u}_ms`] as number) / (ref[`area_${u}_ms`] as number) : null,
@@ -260,16 +279,23 @@ export function pairedPulse(set: SweepSet, options: PairedPulseOptions = {}): Pa
       const notes: string[] = [];
       if (!condMean) notes.push('conditioning response extrapolated from each paired sweep (no conditioning-alone sweeps)');
       // absolute refractory period: the longest interval without a response while every longer interval has one
-      const det = pts.map((p) => p.detected === true);
+      // (intervals whose test response could not be measured at all take no part)
+      const usable = pts.filter((p) => p.status !== 'not measured');
+      const uIsi = usable.map((p) => p.interval_ms as number);
+      const det = usable.map((p) => p.detected === true);
       let j = det.length;
       while (j > 0 && det[j - 1]) j--;
-      if (j === det.length) {
+      if (!usable.length) {
+        Object.assign(row, { arp_ms: null, arp_next_ms: null });
+        notes.push('no interval with a measurable test response');
+      } else if (j === det.length) {
         Object.assign(row, { arp_ms: null, arp_next_ms: null });
         notes.push('no test response at the longest interval tested: the absolute refractory period is not bracketed');
       } else if (j === 0) {
-        Object.assign(row, { arp_ms: null, arp_next_ms: isis[0] });
-        notes.push(`a test response at every interval: the absolute refractory period is shorter than ${isis[0]} ms`);
-      } else Object.assign(row, { arp_ms: isis[j - 1], arp_next_ms: isis[j] });
+        Object.assign(row, { arp_ms: null, arp_next_ms: uIsi[0] });
+        notes.push(`a test response at every usable interval: the absolute refractory period is shorter than ${uIsi[0]} ms`);
+      } else Object.assign(row, { arp_ms: uIsi[j - 1], arp_next_ms: uIsi[j] });
+      if (usable.length < pts.length) notes.push(`${pts.length - usable.length} interval(s) not measured (see the rows' reasons)`);
       if (det.slice(0, j).some(Boolean)) notes.push('a response detected at a shorter interval than the refractory period found (isolated; counted in the fit)');
       // refractory slowing at the shortest interval with a response
       const first = pts.find((p) => num(p.latency_increase_ms));

@@ -113,7 +113,10 @@ export function trains(set: SweepSet, options: TrainOptions = {}): TrainResult {
     traces.forEach((t, k) => data.set(t, k * set.nSamples));
     const conds = traces.map((_, k) => ({ ...head, distanceMm: c0.distanceMm ?? null, temperatureC: c0.temperatureC ?? null, pulse: k + 1 }));
     const locked = new SweepSet({ data, nSweeps: n, nSamples: set.nSamples, fs: set.fs, t0Ms: set.t0Ms, units: u, conditions: conds, extras: set.extras });
-    const { rows } = measureComponents(locked, o.components ?? {});
+    // every pulse's response keeps pulse 1's polarity per class (unless given)
+    const copt = o.components ?? {};
+    const polarity = copt.polarity ?? measureComponents(locked.select([0]), copt).resolved.polarities;
+    const { rows } = measureComponents(locked, { ...copt, polarity });
     for (const cls of [...new Set(rows.map((r) => r.class))]) {
       const cr = rows.filter((r) => r.class === cls).sort((a, b) => a.sweep - b.sweep);
       const ref = cr[0];
