@@ -140,7 +140,7 @@ describe('dose-response with run-down corrected by time-matched vehicle controls
 
 // ---- fits use only what was measured; no interval the data cannot support (issue 12, issue 14) ----
 // Synthetic rows with values chosen here (self-consistency and invariants; common practice, no source).
-import { recruitment, temperatureAnalysis, singleSiteVelocity, regressionVelocity, twoSiteVelocity, SweepSet, PRESETS, AnalysisError, averageRepeats, condition } from '../../src';
+import { recruitment, temperatureAnalysis, singleSiteVelocity, regressionVelocity, twoSiteVelocity, SweepSet, PRESETS, AnalysisError, averageRepeats, condition, runPipeline, computedCount } from '../../src';
 
 describe('fitTemperature: a status, and no interval the data cannot support', () => {
   const T = [20, 25, 30, 37];
@@ -332,5 +332,25 @@ describe('dose-response: a wave far from the baseline latency is not the class',
     const kept = doseResponse(rows, 'uV', { maxLatencyShift: null }).summary[0];
     expect(kept.excluded_latency_shift).toBe(0);
     expect(Math.abs((kept.ic50 as number) - 30)).toBeGreaterThan(1);
+  });
+});
+
+describe('runPipeline: one bad estimate never discards good ones (forward model, invariants)', () => {
+  // two sites only 0.5 mm apart: the A-alpha/beta delay (~6 us) is under one sample at 50 kHz and
+  // cannot be a velocity, while C (~0.5 ms) is well resolved; the pipeline must keep C and flag A
+  it('flags the unresolved fast class with a reason, keeps the slow class, and counts what was computed', () => {
+    const nerve = model.rodentSciatic();
+    const sweeps = [20, 20.5].flatMap((d) => [0, 1, 2].map((k) => ({ intensity: 50, distanceMm: d, temperatureC: 37, concentration: 0, conditions: { preparation: 'P1', repeat: k } })));
+    const set = model.simulateNerve({ model: nerve, seed: 7, grid: { fs: 50000, t0Ms: -2, nSamples: 3000 }, sweeps, nuisance: { noiseUv: 2 } });
+    const r = runPipeline(set, { averageRepeats: false });
+    const two = r.velocity!.rows.filter((q) => q.method === 'two-site' && q.basis === 'peak');
+    const a = two.find((q) => q.class === 'A-alpha/beta')!, c = two.find((q) => q.class === 'C')!;
+    expect(a.velocity_m_s).toBeNull();
+    expect(a.status).toBe('implausible');
+    expect(String(a.reason)).toMatch(/shorter than 2 sample intervals|delay not positive/);
+    expect(c.velocity_m_s as number).toBeGreaterThan(0.3);
+    expect(c.velocity_m_s as number).toBeLessThan(3);
+    expect(r.flags.some((f) => f.analysis === 'velocity' && f.class === 'A-alpha/beta' && f.severity === 'rejected')).toBe(true);
+    expect(computedCount({ velocity: r.velocity!.rows as never })).toBeGreaterThan(0);
   });
 });
