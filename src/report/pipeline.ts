@@ -158,6 +158,22 @@ export function flagsFrom(analysis: Flag['analysis'], rows: readonly Row[], prep
 // the latency definition is named when the value itself was rejected (not-detected rows share one flag)
 const velocityWhere = (r: Row) => [r.method, r.status === 'implausible' ? r.basis : null, r.method === 'two-site' ? `${r.near_mm}-${r.far_mm} mm` : r.method === 'single-site' ? `${r.distance_mm} mm` : null, r.group].filter(Boolean).join(', ');
 
+/**
+ * Thresholds and recruitment must tell one story: a fitted curve whose class the threshold table
+ * says was "not detected at any intensity" (in half the sweeps of a level) gets that in its status.
+ */
+function agreeWithThresholds(rows: Row[], thresholds: readonly Row[]): void {
+  const keys = ['preparation', 'distanceMm', 'temperatureC', 'concentration', 'pulseWidthMs'];
+  for (const r of rows) {
+    if (r.i50 === null || r.i50 === undefined) continue;
+    const t = thresholds.find((q) => q.class === r.class && keys.every((k) => !(k in q) || !(k in r) || q[k] === r[k]));
+    if (t && t.threshold === null) {
+      const why = 'the threshold table finds the class in fewer than half the sweeps at every intensity: the curve rests on single detections';
+      r.status = r.status === 'ok' ? why : `${r.status}; ${why}`;
+    }
+  }
+}
+
 /** Per-preparation (or per-set) analysis shared by runPipeline and runPreparation. */
 export interface Analysed {
   conditioned: SweepSet;
@@ -203,6 +219,7 @@ export function analyse(set: SweepSet, o: PipelineOptions, prep: string | null =
   if (new Set(it.rows.map((r) => r.intensity)).size >= 4) {
     try {
       recruitment = it.recruitment(o.recruitment ?? {});
+      agreeWithThresholds(recruitment.rows, thresholds);
       flags.push(...flagsFrom('recruitment', recruitment.rows, prep, (r) => (r.distanceMm !== undefined ? `${r.distanceMm} mm` : null)));
     } catch (e) { failed(flags, notes, 'recruitment', prep, e); }
   } else notes.push(`${prep ? `${prep} ` : ''}recruitment: fewer than 4 stimulus intensities; not fitted`);
