@@ -144,9 +144,9 @@ describe('fascicle run --out never loses files it did not write', () => {
       if (k % 2 === 1) writeBundle(out, { tables: { old: [{ x: 1 }] }, methods: 'old bundle', provenance: prov });
       const delay = Math.round(T * (0.2 + 0.8 * rand()));
       const child = spawn(process.execPath, [cliPath, 'run', m1, '--out', out, '--quiet'], { stdio: 'ignore' });
-      // even runs: killed at a random moment of the whole run; odd runs: a random 0-40 ms after
+      // even runs: killed at a random moment of the whole run; odd runs: a random 0-300 ms after
       // the temporary folder appears (the write and swap, where a kill can do harm)
-      const late = k % 2 === 1 ? 40 * rand() : -1;
+      const late = k % 2 === 1 ? 300 * rand() : -1;
       await new Promise<void>((res) => {
         let timer: NodeJS.Timeout | undefined = late < 0 ? setTimeout(() => child.kill('SIGKILL'), delay) : undefined;
         const poll = late < 0 ? undefined : setInterval(() => {
