@@ -3,7 +3,8 @@
  * - single site: distance / (latency - utilisation), summarised over sweeps;
  * - two sites: delta distance / delta latency over pairs of sweeps recorded at the same time (or
  *   of the same condition), the delay from the same latency definition at both sites, or from the
- *   cross-correlation of the class component (sub-sample refinement);
+ *   cross-correlation of the class component (sub-sample refinement); for neighbouring sites, and
+ *   with three or more sites also for the outermost pair;
  * - several distances: latency regressed on distance; velocity = 1 / slope with a t-based CI,
  *   intercept = utilisation time.
  * Every row names its latency definition (`definition`, `latency_column`): onset at a fraction of the
@@ -281,8 +282,10 @@ export function twoSiteVelocity(set: SweepSet, rows: readonly ComponentRow[], me
     const own = classRange(resolved, cls, r0);
     const range = own ?? FIBRE_RANGE_M_S;
     const dists = [...new Set(g.map((r) => (r.distance_mm ?? r.distanceMm) as number))].sort((a, b) => a - b);
-    for (let k = 0; k + 1 < dists.length; k++) {
-      const d1 = dists[k], d2 = dists[k + 1];
+    // neighbouring sites, and with three or more sites also the outermost pair (the longest baseline)
+    const sitePairs: [number, number][] = dists.slice(1).map((d, k) => [dists[k], d]);
+    if (dists.length > 2) sitePairs.push([dists[0], dists[dists.length - 1]]);
+    for (const [d1, d2] of sitePairs) {
       const dL = d2 - d1;
       const pairs = pairRows(set, g.filter((r) => (r.distance_mm ?? r.distanceMm) === d1), g.filter((r) => (r.distance_mm ?? r.distanceMm) === d2));
       const both = pairs.filter(([a, b]) => measured(a) && measured(b));
@@ -385,10 +388,20 @@ export function recommendedEstimator(cls: string, classes?: readonly FiberClass[
   return c.myelinated === false ? RECOMMENDED_VELOCITY.unmyelinated : RECOMMENDED_VELOCITY.other;
 }
 
-/** Mark the recommended estimator's rows (`recommended: true`), per class. */
+/**
+ * Mark the recommended estimator's rows (`recommended: true`), per class; of two-site rows, only
+ * the pair of sites farthest apart in each group (one recommended value per class and group).
+ */
 export function markRecommended(rows: readonly VelocityRow[], classes?: readonly FiberClass[]): VelocityRow[] {
+  const span = new Map<string, number>();
+  for (const r of rows) {
+    if (r.method !== 'two-site') continue;
+    const k = `${r.class}|${r.group}`;
+    span.set(k, Math.max(span.get(k) ?? -Infinity, (r.far_mm as number) - (r.near_mm as number)));
+  }
   return rows.map((r) => {
     const e = recommendedEstimator(r.class, classes);
-    return { ...r, recommended: r.method === e.method && r.basis === e.basis };
+    const widest = r.method !== 'two-site' || (r.far_mm as number) - (r.near_mm as number) === span.get(`${r.class}|${r.group}`);
+    return { ...r, recommended: r.method === e.method && r.basis === e.basis && widest };
   });
 }

@@ -140,7 +140,7 @@ describe('dose-response with run-down corrected by time-matched vehicle controls
 
 // ---- fits use only what was measured; no interval the data cannot support (issue 12, issue 14) ----
 // Synthetic rows with values chosen here (self-consistency and invariants; common practice, no source).
-import { recruitment, temperatureAnalysis, singleSiteVelocity, regressionVelocity, twoSiteVelocity, SweepSet, PRESETS, AnalysisError, averageRepeats, condition, runPipeline, computedCount } from '../../src';
+import { recruitment, temperatureAnalysis, singleSiteVelocity, regressionVelocity, twoSiteVelocity, SweepSet, PRESETS, AnalysisError, averageRepeats, condition, runPipeline, computedCount, markRecommended } from '../../src';
 
 describe('fitTemperature: a status, and no interval the data cannot support', () => {
   const T = [20, 25, 30, 37];
@@ -352,5 +352,24 @@ describe('runPipeline: one bad estimate never discards good ones (forward model,
     expect(c.velocity_m_s as number).toBeLessThan(3);
     expect(r.flags.some((f) => f.analysis === 'velocity' && f.class === 'A-alpha/beta' && f.severity === 'rejected')).toBe(true);
     expect(computedCount({ velocity: r.velocity!.rows as never })).toBeGreaterThan(0);
+  });
+});
+
+describe('three recording sites', () => {
+  it('two-site rows for neighbouring sites and the outermost pair; only the outermost is recommended', () => {
+    const resolved = { preset: PRESETS.mammalian, classes: PRESETS.mammalian.classes, q10: 1.4, utilisationMs: 0 } as never;
+    const dists = [10, 20, 30];
+    const rows = dists.flatMap((mm, i) => [0, 1].map((k) => ({ sweep: 2 * i + k, class: 'C', detected: true, polarity: 1, preparation: 'P', temperatureC: 37, temperature_C: 37, distanceMm: mm, distance_mm: mm, repeat: k, centroid_ms: 0.3 + mm / 1.2 + 0.01 * k })));
+    const conditions = rows.map((r) => ({ preparation: 'P', temperatureC: 37, distanceMm: r.distance_mm, repeat: r.repeat }));
+    const set = new SweepSet({ data: new Float64Array(6 * 10), nSweeps: 6, nSamples: 10, fs: 20000, t0Ms: 0, units: 'uV', conditions });
+    const v = markRecommended(twoSiteVelocity(set, rows as never, [], resolved, ['preparation']).filter((r) => r.basis === 'centroid'), PRESETS.mammalian.classes);
+    expect(v.map((r) => `${r.near_mm}-${r.far_mm}`).sort()).toEqual(['10-20', '10-30', '20-30']);
+    for (const r of v) expect(r.velocity_m_s as number).toBeCloseTo(1.2, 6);
+    expect(v.filter((r) => r.recommended).length).toBe(0); // C's recommended estimator is the regression of centroid latency
+    const reg = markRecommended(regressionVelocity(rows as never, ['preparation'], resolved), PRESETS.mammalian.classes).find((r) => r.basis === 'centroid')!;
+    expect(reg.recommended).toBe(true);
+    expect(reg.velocity_m_s as number).toBeCloseTo(1.2, 6);
+    const xa = markRecommended(v.map((r) => ({ ...r, class: 'A-delta', basis: 'xcorr' as const })), PRESETS.mammalian.classes);
+    expect(xa.filter((r) => r.recommended).map((r) => `${r.near_mm}-${r.far_mm}`)).toEqual(['10-30']);
   });
 });
