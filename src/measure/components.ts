@@ -79,13 +79,18 @@ export interface ComponentOptions {
   separation?: 'auto' | 'decompose' | 'trough';
   /** conditions whose sweeps share one single-fiber waveform in the decomposition (default: preparation, temperatureC) */
   decomposeBy?: string[];
+  /**
+   * bipolar recording: conduction distance (mm) of the reference contact, the trace being contact minus reference
+   * (default: each sweep's `referenceDistanceMm` condition; none: monopolar)
+   */
+  referenceDistanceMm?: number;
 }
 export const componentDefaults = {
   preset: 'mammalian', k: 4, polarity: 'auto' as const, tailFraction: 0.5, tailMs: 0.5, utilisationMs: 0, earliestMs: 0.1,
   onsetFraction: 0.1, centroidFraction: 0.1, separation: 'auto' as const,
 };
 const OPTION_KEYS = ['preset', 'classes', 'distanceMm', 'temperatureC', 'q10', 'utilisationMs', 'k', 'polarity', 'noiseWindow',
-  'tailFraction', 'tailMs', 'earliestMs', 'onsetFraction', 'centroidFraction', 'separation', 'decomposeBy'];
+  'tailFraction', 'tailMs', 'earliestMs', 'onsetFraction', 'centroidFraction', 'separation', 'decomposeBy', 'referenceDistanceMm'];
 
 export interface ComponentRow {
   sweep: number;
@@ -255,6 +260,12 @@ export function measureComponents(set: SweepSet, options: ComponentOptions = {})
     if (d > 1000 || d < 0.5) throw new AnalysisError(`sweep ${i}: conduction distance ${d} mm is implausible for an isolated nerve (expected 0.5-1000 mm); is it in another unit (m or cm)?`);
     return d;
   };
+  const refOf = (i: number): number | null => {
+    const r = options.referenceDistanceMm ?? set.conditions[i].referenceDistanceMm;
+    if (r === undefined || r === null) return null;
+    if (typeof r !== 'number' || !(r > distOf(i))) throw new OptionError(`invalid referenceDistanceMm for sweep ${i}: ${JSON.stringify(r)}; must be a number of mm beyond the recording contact (${distOf(i)} mm)`);
+    return r;
+  };
   const tempOf = (i: number): number | undefined => {
     const T = options.temperatureC ?? set.conditions[i].temperatureC;
     if (typeof T === 'number') return T;
@@ -348,10 +359,12 @@ export function measureComponents(set: SweepSet, options: ComponentOptions = {})
   if (separation !== 'trough') {
     for (const [gk, members] of groups) {
       const dists = [...new Set(members.map((s) => info[s].L))].sort((a, b) => a - b);
-      if (dists.length < 2) continue;
+      const bip = members.some((s) => refOf(s) !== null);
+      if (dists.length < 2 && !bip) continue;
       for (const chain of chains) {
         if (chain.length < 2) continue;
-        if (separation === 'auto' && members.every((s) => chain.every((ci, j) => j === 0 || ownPeak(info[s].x, info[s].wins[chain[j - 1]], info[s].wins[ci], polarities[classes[ci].name], n)))) continue;
+        // 'auto': a monopolar group where every sweep shows the slower class's own peak keeps the trough method
+        if (separation === 'auto' && !bip && members.every((s) => chain.every((ci, j) => j === 0 || ownPeak(info[s].x, info[s].wins[chain[j - 1]], info[s].wins[ci], polarities[classes[ci].name], n)))) continue;
         const T = info[members[0]].T;
         const ranges = chain.map((ci) => scaledRange(classes[ci], preset, T, q10));
         const vFast = ranges[0][1] * 2, vSlow = ranges[ranges.length - 1][0] / 2;
@@ -374,7 +387,7 @@ export function measureComponents(set: SweepSet, options: ComponentOptions = {})
           dtMs: dt, t0Ms: set.t0Ms, range: (x) => rangeAt.get(x)!, uBounds: [u0, 1 / vSlow], excluded: (i, x) => i < trustAt.get(x)!,
           sSupportMs: [lead, Math.min(400, Math.max(20, nearLen)) * dt],
         };
-        const traces = members.map((s) => ({ y: info[s].x, distanceMm: info[s].L }));
+        const traces = members.map((s) => ({ y: info[s].x, distanceMm: info[s].L, referenceMm: refOf(s) }));
         const shape = fitSharedShape(traces, grid, { iterations: 60 });
         const key = `${gk}#${chain.join(',')}`;
         if (!shape) continue;
@@ -405,6 +418,11 @@ export function measureComponents(set: SweepSet, options: ComponentOptions = {})
         bins.push([Math.min(from, shape.u.length - 1), shape.u.length - 1]);
         while (bins.length < chain.length) bins.push([shape.u.length, shape.u.length - 1]);
         decomps.set(key, { shape, grid, bins, resolved, reason, valleys });
+        // classes separated by the decomposition take the sign of the shared waveform's main phase (for a bipolar
+        // recording, the near contact's) unless given
+        let im = 0;
+        for (let j = 0; j < shape.s.length; j++) if (Math.abs(shape.s[j]) > Math.abs(shape.s[im])) im = j;
+        for (const ci of chain) if (polaritySource[classes[ci].name] === 'auto') polarities[classes[ci].name] = shape.s[im] >= 0 ? 1 : -1;
       }
     }
   }
@@ -500,7 +518,7 @@ export function measureComponents(set: SweepSet, options: ComponentOptions = {})
       const dk = `${groupKey(s)}#${chain.join(',')}`;
       const d = decomps.get(dk);
       if (!d || !d.shape || !d.grid) continue;
-      const dec = decomposeTrace(x, L, d.shape, d.grid, d.bins);
+      const dec = decomposeTrace(x, L, d.shape, d.grid, d.bins, {}, refOf(s));
       chain.forEach((ci, j) => {
         // the class's own component: the recording minus the other classes' modelled components
         // (before the artifact has decayed, where nothing was fitted, the class's own modelled component)

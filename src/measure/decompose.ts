@@ -30,6 +30,8 @@ export interface DecomposeTrace {
   y: ArrayLike<number>;
   /** conduction distance, mm */
   distanceMm: number;
+  /** bipolar recording: conduction distance of the reference contact, mm (the trace is contact minus reference) */
+  referenceMm?: number | null;
 }
 
 export interface DecomposeGrid {
@@ -64,20 +66,24 @@ export interface SharedShape {
 }
 
 /** Columns of the design for one distance: s shifted to each bin's arrival, on samples [r0, r1]. */
-function design(s: Float64Array, sLead: number, u: Float64Array, x: number, g: DecomposeGrid, r0: number, r1: number, sStep = 1): { M: Float64Array; lo: Int32Array; hi: Int32Array } {
+function design(s: Float64Array, sLead: number, u: Float64Array, x: number, g: DecomposeGrid, r0: number, r1: number, sStep = 1, ref: number | null = null): { M: Float64Array; lo: Int32Array; hi: Int32Array } {
   const nt = r1 - r0 + 1, nu = u.length, ns = s.length;
   const M = new Float64Array(nt * nu);
   const lo = new Int32Array(nu), hi = new Int32Array(nu);
+  const at = (jf: number) => {
+    const j0 = Math.floor(jf);
+    if (j0 < -1 || j0 >= ns) return 0;
+    const f = jf - j0;
+    return (j0 >= 0 ? (1 - f) * s[j0] : 0) + (j0 + 1 < ns ? f * s[j0 + 1] : 0);
+  };
   for (let k = 0; k < nu; k++) {
-    // sample i (time t0 + i dt) sees s at tau = t - x u_k, node j = tau / (dt sStep) + sLead
+    // sample i (time t0 + i dt) sees s at tau = t - x u_k, node j = tau / (dt sStep) + sLead; a bipolar recording
+    // (reference contact at `ref` mm) sees the difference of the two contacts
     const shift = (x * u[k] - g.t0Ms) / g.dtMs;
+    const shiftRef = ref === null ? 0 : (ref * u[k] - g.t0Ms) / g.dtMs;
     let first = nt, last = -1;
     for (let i = 0; i < nt; i++) {
-      const jf = ((r0 + i) - shift) / sStep + sLead;
-      const j0 = Math.floor(jf);
-      if (j0 < -1 || j0 >= ns) continue;
-      const f = jf - j0;
-      const v = (j0 >= 0 ? (1 - f) * s[j0] : 0) + (j0 + 1 < ns ? f * s[j0 + 1] : 0);
+      const v = at(((r0 + i) - shift) / sStep + sLead) - (ref === null ? 0 : at(((r0 + i) - shiftRef) / sStep + sLead));
       if (v !== 0) {
         M[i * nu + k] = v;
         if (i < first) first = i;
@@ -261,11 +267,12 @@ export interface DecomposeOptions {
  */
 export function fitSharedShape(traces: DecomposeTrace[], g: DecomposeGrid, opts: DecomposeOptions = {}): SharedShape | null {
   const dists = [...new Set(traces.map((t) => t.distanceMm))].sort((a, b) => a - b);
-  if (dists.length < 2) return null;
+  // two sites are needed: two distances, or one bipolar recording (two contacts)
+  if (dists.length < 2 && !traces.some((t) => typeof t.referenceMm === 'number')) return null;
   const iterations = opts.iterations ?? 40;
   const lambdaW = opts.lambdaW ?? 1e-3;
   const lambdaS = opts.lambdaS ?? 1e-2;
-  const xFar = dists[dists.length - 1];
+  const xFar = Math.max(...dists, ...traces.map((t) => t.referenceMm ?? 0));
   const [u0, u1] = g.uBounds;
   const nu = Math.max(20, Math.min(160, Math.round(((u1 - u0) * xFar) / (2 * g.dtMs))));
   const u = Float64Array.from({ length: nu }, (_, k) => u0 + ((u1 - u0) * k) / (nu - 1));
@@ -283,7 +290,7 @@ export function fitSharedShape(traces: DecomposeTrace[], g: DecomposeGrid, opts:
     const keep = new Uint8Array(nt).fill(1);
     if (g.excluded) for (let i = 0; i < nt; i++) if (g.excluded(r0 + i, x)) keep[i] = 0;
     const tc = Float64Array.from({ length: nt }, (_, i) => (g.t0Ms + (r0 + i) * g.dtMs));
-    return { x, r0, r1, nt, y, keep, tc, art: g.artifactFromMs ? g.artifactFromMs(x) : null };
+    return { x, r0, r1, nt, y, keep, tc, art: g.artifactFromMs ? g.artifactFromMs(x) : null, ref: members[0]?.referenceMm ?? null };
   });
   // start: s = the nearest site's mean trace from its largest deflection back by a quarter of the lead,
   // i.e. the compound response itself, which is s convolved with a narrow W for the fastest class
@@ -302,7 +309,7 @@ export function fitSharedShape(traces: DecomposeTrace[], g: DecomposeGrid, opts:
     // W step: one W and a separate offset/drift per distance, jointly (stacked normal equations)
     const n = nu + NB * per.length;
     const G = new Float64Array(n * n), b = new Float64Array(n);
-    const Ms = per.map((p) => design(s, sLead, u, p.x, g, p.r0, p.r1, sStep));
+    const Ms = per.map((p) => design(s, sLead, u, p.x, g, p.r0, p.r1, sStep, p.ref));
     per.forEach((p, pi) => {
       const { M, lo, hi } = Ms[pi];
       const own = (k: number) => k >= nu + NB * pi && k < nu + NB * (pi + 1);
@@ -344,14 +351,16 @@ export function fitSharedShape(traces: DecomposeTrace[], g: DecomposeGrid, opts:
       const B = new Float64Array(p.nt * ns);
       for (let k = 0; k < nu; k++) {
         if (W[k] === 0) continue;
-        const shift = (p.x * u[k] - g.t0Ms) / g.dtMs;
-        for (let i = 0; i < p.nt; i++) {
-          const jf = (p.r0 + i - shift) / sStep + sLead;
-          const j0 = Math.floor(jf);
-          if (j0 < -1 || j0 >= ns) continue;
-          const f = jf - j0;
-          if (j0 >= 0) B[i * ns + j0] += W[k] * (1 - f);
-          if (j0 + 1 < ns) B[i * ns + j0 + 1] += W[k] * f;
+        for (const [site, sign] of (p.ref === null ? [[p.x, 1]] : [[p.x, 1], [p.ref, -1]]) as [number, number][]) {
+          const shift = (site * u[k] - g.t0Ms) / g.dtMs;
+          for (let i = 0; i < p.nt; i++) {
+            const jf = (p.r0 + i - shift) / sStep + sLead;
+            const j0 = Math.floor(jf);
+            if (j0 < -1 || j0 >= ns) continue;
+            const f = jf - j0;
+            if (j0 >= 0) B[i * ns + j0] += sign * W[k] * (1 - f);
+            if (j0 + 1 < ns) B[i * ns + j0 + 1] += sign * W[k] * f;
+          }
         }
       }
       for (let i = 0; i < p.nt; i++) {
@@ -404,10 +413,10 @@ export interface TraceDecomposition {
 }
 
 /** Decompose one trace with a fixed shared shape; `bins` are [first, last] u-bin indices per class. */
-export function decomposeTrace(y: ArrayLike<number>, x: number, shape: SharedShape, g: DecomposeGrid, bins: [number, number][], opts: DecomposeOptions = {}): TraceDecomposition {
+export function decomposeTrace(y: ArrayLike<number>, x: number, shape: SharedShape, g: DecomposeGrid, bins: [number, number][], opts: DecomposeOptions = {}, ref: number | null = null): TraceDecomposition {
   const [r0, r1] = g.range(x);
   const nt = r1 - r0 + 1, nu = shape.u.length;
-  const { M, lo, hi } = design(shape.s, shape.sLead, shape.u, x, g, r0, r1, shape.sStep);
+  const { M, lo, hi } = design(shape.s, shape.sLead, shape.u, x, g, r0, r1, shape.sStep, ref);
   const yy = Float64Array.from({ length: nt }, (_, i) => y[r0 + i]);
   const keep = new Uint8Array(nt).fill(1);
   if (g.excluded) for (let i = 0; i < nt; i++) if (g.excluded(r0 + i, x)) keep[i] = 0;

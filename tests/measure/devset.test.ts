@@ -7,7 +7,7 @@
  * Nothing here is tuned to these numbers: the defaults are the library's.
  */
 import { describe, it, expect } from 'vitest';
-import { SweepSet, model } from '../../src';
+import { SweepSet, model, ownLatencies } from '../../src';
 import { load, meta, CLASS } from './devsetFixture';
 import type { ComponentRow } from '../../src/measure/components';
 
@@ -232,6 +232,35 @@ describe('development set FNPG-N07: polarity per class (inverted, bipolar, triph
       // the far contact's negative phase overlaps the near one's fall, so the positive peak comes a little early
       expect(Math.abs(pk - near)).toBeLessThan(Math.abs(pk - far) / 2);
     }
+  });
+  it('bipolar recording with its reference contact given (referenceDistanceMm 25): decomposed on the one channel; A-alpha/beta peak within 10 us of the clean bipolar truth, A-delta detected (its latency, -390 to +180 us off, is not asserted)', () => {
+    const set = bipolar(cleanPlusNoise('temperature_fast', 15, 2, 4));
+    const b = set.components({ preset: 'mammalian', classes: ['A-alpha/beta', 'A-delta'], referenceDistanceMm: 25 });
+    // truth of the same definition: the peak of the clean class-only waveform at 15 mm minus that at 25 mm
+    const { s: sr, clean: cw } = load('temperature_fast');
+    const n = sr.nSamples;
+    const wave = (ci: number, d: number, cls: string) => {
+      const k = sr.clean.findIndex((c) => c.condition_index === ci && c.distance_mm === d && c.class === cls);
+      return cw.subarray(k * n, (k + 1) * n);
+    };
+    const lines: string[] = [];
+    const errs: Record<string, number[]> = {};
+    [20, 25, 30, 37].forEach((T, ci) => {
+      for (const cls of ['A-alpha/beta', 'A-delta']) {
+        const a = wave(ci, 15, KEY[cls]), c = wave(ci, 25, KEY[cls]);
+        const diff = Float64Array.from(a, (v, i) => v - c[i]);
+        const truth = sr.t0Ms + (ownLatencies(diff, 0, n - 1).peakIndex * 1000) / sr.fs;
+        const g = b.rows.filter((r) => r.class === cls && r.temperatureC === T);
+        const pk = mean(g, 'peak_ms');
+        if (pk !== null) (errs[cls] ??= []).push(pk - truth);
+        lines.push(`bipolar 15-25 mm ${T} C ${cls}: ${g.filter((r) => r.detected).length}/${g.length} measured; peak ${pk === null ? 'n/a' : pk.toFixed(3)} vs ${truth.toFixed(3)} ms (clean class-only 15 - 25 mm)`);
+      }
+    });
+    console.log(lines.join('\n'));
+    expect(b.resolved.polarities['A-alpha/beta']).toBe(1);
+    expect(b.rows.every((r) => r.separation === 'velocity-decomposition' && r.detected)).toBe(true);
+    expect(errs['A-alpha/beta'].length).toBe(4);
+    for (const e of errs['A-alpha/beta']) expect(Math.abs(e)).toBeLessThan(0.01);
   });
   it('triphasic (monopolar cuff) shape: the large negative main phase is chosen for A-alpha/beta, not a side lobe', () => {
     const t = cleanPlusNoise('temperature_fast', 15, 2, 5, triphasic).components({ preset: 'mammalian', classes: ['A-alpha/beta', 'A-delta'] });
