@@ -292,6 +292,7 @@ export function measureComponents(set: SweepSet, options: ComponentOptions = {})
     }
     for (const [g, v] of taus) tauOf.set(g, v.sort((a, b) => a - b)[Math.floor(v.length / 2)]);
   }
+  const polStartOf = (clip: number) => set.indexAt(clip + Math.max(0.05, clip));
   // per sweep: distance, temperature, noise, artifact end (rail clipping) and raw class windows
   const info = Array.from({ length: set.nSweeps }, (_, s) => {
     const raw0 = set.sweep(s);
@@ -310,8 +311,9 @@ export function measureComponents(set: SweepSet, options: ComponentOptions = {})
     // the decomposition fits from the end of rail clipping (with the artifact's decay as a nuisance term); the
     // polarity decision waits until the artifact has decayed: as long again as the clipping lasted from the
     // stimulus (at least 0.05 ms; common practice, no source)
-    const fitStart = Math.max(iEarliest, clip === null ? 0 : set.indexAt(clip) + 4);
-    const polStart = Math.max(iEarliest, clip === null ? 0 : set.indexAt(clip + Math.max(0.05, clip)));
+    // fitted from 4 samples after the clipping when its decay was subtracted, otherwise once the artifact has decayed
+    const fitStart = Math.max(iEarliest, clip === null ? 0 : decay ? set.indexAt(clip) + 4 : polStartOf(clip));
+    const polStart = Math.max(iEarliest, clip === null ? 0 : polStartOf(clip));
     const wins: Win[] = classes.map((c) => {
       const [vlo, vhi] = scaledRange(c, preset, T, q10);
       const t0 = util + L / vhi, t1 = util + L / vlo;

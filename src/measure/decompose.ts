@@ -8,21 +8,23 @@
  * K. Schoonhoven, D. F. Stegeman, "Models and analysis of compound nerve action
  * potentials", Crit. Rev. Biomed. Eng. 19 (1991) 47-111):
  *
- *   y_x(t) = sum_k W_k s(t - x u_k) + a_x exp(-t / 0.1 ms) + b_x exp(-t / 1 ms)
+ *   y_x(t) = sum_k W_k s(t - x u_k)      (bipolar: sum_k W_k [s(t - x u_k) - s(t - x_ref u_k)])
  *
  * where u_k = 1 / v_k is a grid of slownesses (ms/mm), W_k >= 0 the weight of the
- * fibers conducting at v_k, s the single-fiber waveform (any sign and shape: mono-,
- * bi- or triphasic; its time origin absorbs the utilisation time), and the last two
- * terms the decaying tail of the stimulus artifact in each trace. A class moves at its own velocity, so with two or more
- * distances the same W and s must explain every site: the faster class's tail (its
- * repolarisation and after-potential) moves by x du while the slower class moves by
- * more, which separates a slower class that is only a shoulder on the faster class's
- * tail. Each trace also gets a decaying artifact tail (two exponentials). s and W are found by alternating least squares (W by non-negative least
- * squares, s by ridge-regularised least squares with a second-difference penalty) on
- * the mean trace at each distance of a group; each sweep then gets its own W with s
- * fixed (a deconvolution with a known kernel, possible at a single site). Classes are
- * split where W has its deepest valley between the two classes' velocity ranges; a class
- * whose part of W has no separate mode is "not resolved".
+ * fibers conducting at v_k, and s the single-fiber waveform (any sign and shape: mono-,
+ * bi- or triphasic; its time origin absorbs the utilisation time). A class moves at its
+ * own velocity, so with two or more distances the same W and s must explain every site:
+ * the faster class's tail (its repolarisation and after-potential) moves by x du while
+ * the slower class moves by more, which separates a slower class that is only a shoulder
+ * on the faster class's tail. s and W are found by alternating least squares (W by
+ * non-negative least squares, s by least squares with a second-difference penalty) on
+ * the mean trace at each distance of a group, leaving out samples the caller excludes
+ * (the artifact); each sweep then gets its own W with s fixed (a deconvolution with a
+ * known kernel, possible at a single site), held towards the group's W by a small ridge.
+ * Classes are split where W has its deepest valley between the two classes' velocity
+ * ranges; a class whose part of W has no separate mode is "not resolved". Optional
+ * nuisance terms (NUISANCE_TAU_MS, off unless the grid gives artifactFromMs) model an
+ * artifact decay from a given time.
  */
 
 export interface DecomposeTrace {
@@ -66,7 +68,10 @@ export interface SharedShape {
 }
 
 /** Columns of the design for one distance: s shifted to each bin's arrival, on samples [r0, r1]. */
-function design(s: Float64Array, sLead: number, u: Float64Array, x: number, g: DecomposeGrid, r0: number, r1: number, sStep = 1, ref: number | null = null): { M: Float64Array; lo: Int32Array; hi: Int32Array } {
+function design(
+  s: Float64Array, sLead: number, u: Float64Array, x: number, g: DecomposeGrid, r0: number, r1: number,
+  sStep = 1, ref: number | null = null,
+): { M: Float64Array; lo: Int32Array; hi: Int32Array } {
   const nt = r1 - r0 + 1, nu = u.length, ns = s.length;
   const M = new Float64Array(nt * nu);
   const lo = new Int32Array(nu), hi = new Int32Array(nu);
@@ -101,7 +106,9 @@ function design(s: Float64Array, sLead: number, u: Float64Array, x: number, g: D
  * n - free unknowns (the last `free` are unconstrained), by the active-set method of C. L. Lawson and
  * R. J. Hanson, Solving Least Squares Problems, Prentice-Hall 1974, ch. 23 (the algorithm of scipy.optimize.nnls).
  */
-export function nnlsGram(G: Float64Array, b: Float64Array, n: number, free: number, x: Float64Array, maxIter = 3 * n): Float64Array {
+export function nnlsGram(
+  G: Float64Array, b: Float64Array, n: number, free: number, x: Float64Array, maxIter = 3 * n,
+): Float64Array {
   // warm start: the positive entries of x (a feasible point) form the first passive set
   const passive = new Uint8Array(n);
   for (let i = 0; i < n; i++) passive[i] = i >= n - free || x[i] > 0 ? 1 : 0;
@@ -211,7 +218,10 @@ function nuisanceBasis(tMs: number, j: number, fromMs: number | null): number {
 }
 
 /** Weights W (>= 0) and offset/drift for one trace, s fixed. */
-function solveWeights(M: Float64Array, lo: Int32Array, hi: Int32Array, nt: number, nu: number, y: Float64Array, keep: Uint8Array, tc: Float64Array, lambdaW: number, prior: Float64Array | undefined, art: number | null, priorWeight = 0.02): WFit {
+function solveWeights(
+  M: Float64Array, lo: Int32Array, hi: Int32Array, nt: number, nu: number, y: Float64Array, keep: Uint8Array,
+  tc: Float64Array, lambdaW: number, prior: Float64Array | undefined, art: number | null, priorWeight = 0.02,
+): WFit {
   const n = nu + NB;
   const G = new Float64Array(n * n), b = new Float64Array(n);
   const col = (i: number, k: number) => (k < nu ? M[i * nu + k] : nuisanceBasis(tc[i], k - nu, art));
@@ -235,7 +245,8 @@ function solveWeights(M: Float64Array, lo: Int32Array, hi: Int32Array, nt: numbe
   addSecondDifference(G, n, nu, (lambdaW * tr) / nu);
   for (let k = 0; k < n; k++) G[k * n + k] += 1e-9 * (tr / nu) + (k >= nu ? (art !== null ? 1e-9 : 1e6) * (tr / nu || 1) : 0);
   // a ridge towards the group's weights: bins the trace cannot see (arrivals in excluded samples) keep the group's value
-  if (prior) for (let k = 0; k < nu; k++) { G[k * n + k] += (priorWeight * tr) / nu; b[k] += ((priorWeight * tr) / nu) * prior[k]; }
+  const mu = (priorWeight * tr) / nu;
+  if (prior) for (let k = 0; k < nu; k++) { G[k * n + k] += mu; b[k] += mu * prior[k]; }
   const x = new Float64Array(n);
   if (prior) x.set(prior.subarray(0, nu));
   nnlsGram(G, b, n, NB, x);
@@ -336,7 +347,9 @@ export function fitSharedShape(traces: DecomposeTrace[], g: DecomposeGrid, opts:
     let tr = 0;
     for (let k = 0; k < nu; k++) tr += G[k * n + k];
     addSecondDifference(G, n, nu, (lambdaW * tr) / nu);
-    for (let k = 0; k < n; k++) G[k * n + k] += 1e-9 * (tr / nu || 1) + (k >= nu && per[Math.floor((k - nu) / NB)].art === null ? 1e6 * (tr / nu || 1) : 0);
+    // unused nuisance columns (no artifact time given) are pinned at zero by a large ridge
+    const off = (k: number) => k >= nu && per[Math.floor((k - nu) / NB)].art === null;
+    for (let k = 0; k < n; k++) G[k * n + k] += 1e-9 * (tr / nu || 1) + (off(k) ? 1e6 * (tr / nu || 1) : 0);
     const x = new Float64Array(n);
     x.set(W);
     if (warm[0]) x.set(warm[0].subarray(nu), nu);
@@ -413,7 +426,10 @@ export interface TraceDecomposition {
 }
 
 /** Decompose one trace with a fixed shared shape; `bins` are [first, last] u-bin indices per class. */
-export function decomposeTrace(y: ArrayLike<number>, x: number, shape: SharedShape, g: DecomposeGrid, bins: [number, number][], opts: DecomposeOptions = {}, ref: number | null = null): TraceDecomposition {
+export function decomposeTrace(
+  y: ArrayLike<number>, x: number, shape: SharedShape, g: DecomposeGrid, bins: [number, number][],
+  opts: DecomposeOptions = {}, ref: number | null = null,
+): TraceDecomposition {
   const [r0, r1] = g.range(x);
   const nt = r1 - r0 + 1, nu = shape.u.length;
   const { M, lo, hi } = design(shape.s, shape.sLead, shape.u, x, g, r0, r1, shape.sStep, ref);
@@ -432,7 +448,11 @@ export function decomposeTrace(y: ArrayLike<number>, x: number, shape: SharedSha
     }
     return c;
   });
-  const nuisance = Float64Array.from(tc, (t) => { let v = 0; for (let j = 0; j < NB; j++) v += f.nuis[j] * nuisanceBasis(t, j, art); return v; });
+  const nuisance = Float64Array.from(tc, (t) => {
+    let v = 0;
+    for (let j = 0; j < NB; j++) v += f.nuis[j] * nuisanceBasis(t, j, art);
+    return v;
+  });
   return { components, r0, r1, W: Float64Array.from(f.W), nuisance, fitted: keep, rms: Math.sqrt(f.rss / Math.max(1, f.n)) };
 }
 
@@ -442,7 +462,9 @@ export function decomposeTrace(y: ArrayLike<number>, x: number, shape: SharedSha
  * largest W inside each class's search zone), the middle of a run of equal minima.
  * Returns null when one side has no mode.
  */
-export function valleyBin(W: Float64Array, u: Float64Array, fastZone: [number, number], slowZone: [number, number]): { bin: number; depth: number; fastMode: number; slowMode: number } | null {
+export function valleyBin(
+  W: Float64Array, u: Float64Array, fastZone: [number, number], slowZone: [number, number],
+): { bin: number; depth: number; fastMode: number; slowMode: number } | null {
   const n = W.length;
   const sm = Float64Array.from({ length: n }, (_, k) => {
     let s = 0, c = 0;

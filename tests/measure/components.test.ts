@@ -1,5 +1,7 @@
 import { describe, it, expect } from 'vitest';
-import { SweepSet, PRESETS, latencyWindow, measureResponse, noiseMad, model, xcorrDelay } from '../../src';
+import { readFileSync } from 'node:fs';
+import { join } from 'node:path';
+import { SweepSet, PRESETS, latencyWindow, measureResponse, noiseMad, model, xcorrDelay, nnlsGram, clipEndMs, artifactDecay } from '../../src';
 
 describe('fiber-class presets', () => {
   it('reproduce the named table (Kiernan, table of nerve fibre types; V via ../shared/REFERENCES.md)', () => {
@@ -183,5 +185,30 @@ describe('a peak on the boundary between two class windows (issue 14)', () => {
       expect(other.status).toBe('not resolved');
       expect(other.peak_ms).toBeNull();
     }
+  });
+});
+
+describe('decomposition kernels', () => {
+  it('nnlsGram (Lawson-Hanson on the normal equations) equals scipy.optimize.nnls (SciPy 1.17) on a random 12 x 6 problem', () => {
+    // fixture nnls-scipy.json (its `source` says how it was made)
+    const f = JSON.parse(readFileSync(join(__dirname, 'nnls-scipy.json'), 'utf8')) as { A: number[][]; b: number[]; x: number[] };
+    const n = 6;
+    const G = new Float64Array(n * n), c = new Float64Array(n);
+    for (let i = 0; i < n; i++) {
+      for (let j = 0; j < n; j++) for (let r = 0; r < 12; r++) G[i * n + j] += f.A[r][i] * f.A[r][j];
+      for (let r = 0; r < 12; r++) c[i] += f.A[r][i] * f.b[r];
+    }
+    const x = nnlsGram(G, c, n, 0, new Float64Array(n));
+    for (let i = 0; i < n; i++) expect(x[i]).toBeCloseTo(f.x[i], 9);
+    expect(f.x.some((v) => v === 0)).toBe(true); // the constraint is active somewhere
+  });
+  it('artifactDecay recovers the time constant and amplitude of an exponential leaving the rail (analytic)', () => {
+    const x = Float64Array.from({ length: 60 }, (_, i) => (i <= 10 ? -10000 : -7000 * Math.exp(-(i - 11) / 2.5)));
+    const clip = clipEndMs(x, 0, 1, 0, 60);
+    expect(clip).toBe(10);
+    const d = artifactDecay(x, 10)!;
+    expect(d.tauSamples).toBeCloseTo(2.5, 9);
+    expect(d.a).toBeCloseTo(-7000, 6);
+    expect(d.from).toBe(11);
   });
 });
