@@ -10,7 +10,8 @@
  * fails: the first pulse whose response is not detected, not resolved (no response of its own in its window, only an
  * earlier response's tail), or whose area is below `failFraction` (default 0.5) of pulse
  * 1's (a rule of ours; common practice, no source). A class whose pulse-1 response lasts past the next pulse is
- * flagged: its tail is cut at the next stimulus and a slower class's tail from the previous pulse is not removed.
+ * flagged: its tail is cut at the next stimulus and a slower class's tail from the previous pulse is not removed; a class
+ * whose pulse-1 response starts after the next pulse (measured on pulse 1 without the cut) is 'not measured'.
  */
 import { SweepSet, type ConditionValue, type Step, type Source } from '../sweeps/SweepSet';
 import { Result } from '../report/result';
@@ -109,17 +110,27 @@ export function trains(set: SweepSet, options: TrainOptions = {}): TrainResult {
       if (k + 1 < n) { const cut = Math.round((period - set.t0Ms) / dt); for (let i = Math.max(0, cut); i < l.y.length; i++) l.y[i] = 0; }
       traces.push(l.y); rem.push(l.remainderMs);
     }
-    const data = new Float64Array(n * set.nSamples);
+    // and pulse 1 without the cut at pulse 2: where each class's pulse-1 response lies
+    traces.push(lockToStimulus(mean, set.fs, set.t0Ms, 0, o.blankMs).y); rem.push(0);
+    const data = new Float64Array(traces.length * set.nSamples);
     traces.forEach((t, k) => data.set(t, k * set.nSamples));
-    const conds = traces.map((_, k) => ({ ...head, distanceMm: c0.distanceMm ?? null, temperatureC: c0.temperatureC ?? null, pulse: k + 1 }));
-    const locked = new SweepSet({ data, nSweeps: n, nSamples: set.nSamples, fs: set.fs, t0Ms: set.t0Ms, units: u, conditions: conds, extras: set.extras });
+    const conds = traces.map((_, k) => ({ ...head, distanceMm: c0.distanceMm ?? null, temperatureC: c0.temperatureC ?? null, pulse: k < n ? k + 1 : 1 }));
+    const locked = new SweepSet({ data, nSweeps: traces.length, nSamples: set.nSamples, fs: set.fs, t0Ms: set.t0Ms, units: u, conditions: conds, extras: set.extras });
     // every pulse's response keeps pulse 1's polarity per class (unless given)
     const copt = o.components ?? {};
     const polarity = copt.polarity ?? measureComponents(locked.select([0]), copt).resolved.polarities;
     const { rows } = measureComponents(locked, { ...copt, polarity });
     for (const cls of [...new Set(rows.map((r) => r.class))]) {
-      const cr = rows.filter((r) => r.class === cls).sort((a, b) => a.sweep - b.sweep);
+      const all = rows.filter((r) => r.class === cls).sort((a, b) => a.sweep - b.sweep);
+      const cr = all.slice(0, n), whole = all[n];
       const ref = cr[0];
+      if (whole.status === 'measured' && num(whole.centroid_from_ms) && (whole.centroid_from_ms as number) >= period) {
+        // the class answers pulse 1 only after pulse 2: it has no window of its own at this frequency
+        const why = `the pulse-1 response starts at ${Number((whole.centroid_from_ms as number).toFixed(2))} ms, after the next pulse at ${Number(period.toFixed(2))} ms: no window of its own at ${hz} Hz`;
+        cr.forEach((_, k) => points.push({ ...head, class: cls, train_hz: hz, pulses: n, pulse: k + 1, stimulus_ms: k * period, detected: false, latency_ms: null, [`amplitude_${u}`]: null, [`area_${u}_ms`]: null, latency_increase_ms: null, amplitude_fraction: null, area_fraction: null, status: 'not measured', reason: why }));
+        summary.push({ ...head, class: cls, train_hz: hz, pulses: n, first_latency_ms: null, status: 'not measured', reason: why });
+        continue;
+      }
       if (!(o.latency in ref)) throw new OptionError(`invalid latency: ${JSON.stringify(o.latency)} is not a column of the component table`);
       const refOk = ref.status === 'measured' && num(ref[o.latency]);
       const lat0 = refOk ? (ref[o.latency] as number) : null;

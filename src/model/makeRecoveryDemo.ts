@@ -2,7 +2,7 @@
  * An invented paired-pulse and train study for demonstrations (no real lab or animals): two simulated rat sciatic
  * nerves (P1, P2), each with a paired-pulse series (conditioning and test at 20 mA, 29 interstimulus intervals from
  * 0.45 to 10 ms, two repeats, test-alone and conditioning-alone sweeps) and trains (6 pulses at 100, 400 and 1000 Hz),
- * at 20 mm and 37 C, with the demo's noise, hum, drift and stimulus artifacts (one per pulse), every sweep -5 to 55 ms at 50 kHz. Written as CSV with a
+ * at 20 mm and 37 C, with the demo's noise, hum, drift and stimulus artifacts (one per pulse), every sweep -20 to 80 ms at 50 kHz. Written as CSV with a
  * manifest (series 'paired-pulse' and 'train'); the ground truth (src/model/pulses.ts) beside it in truth.json, for
  * tests only. Deterministic for a seed. Run: node dist/model/makeRecoveryDemo.js <folder>
  */
@@ -30,7 +30,7 @@ export function makeRecoveryDemo(outDir: string, seed = 20261202): unknown[] {
     const vScale = Math.exp(0.04 * rng.normal());
     const model: NerveModel = { ...base, populations: base.populations.map((c) => ({ ...c, count: Math.round(c.count / 2), velocityFactor: c.velocityFactor * vScale })) };
     const pseed = seed + 101 * (p + 1);
-    const grid = { fs: 50000, t0Ms: -5, nSamples: 3000 };
+    const grid = { fs: 50000, t0Ms: -20, nSamples: 5000 };
     const pp = simulatePairedPulse({ model, seed: pseed, grid, base: rc, intervalsMs: RECOVERY_INTERVALS, repeats: 2, nuisance: DEMO_NUISANCE });
     const pname = `${prep}-paired-pulse.csv`;
     writeWide(join(outDir, pname), pp, { labels: pp.conditions.map((_, k) => `S${k + 1}`) });
@@ -60,7 +60,7 @@ export function makeRecoveryDemo(outDir: string, seed = 20261202): unknown[] {
     description: 'Invented demonstration study made by the fascicle forward model; no real animals or laboratory.',
     species: 'rat (simulated)', nerve: 'sciatic (simulated)', classPreset: 'mammalian',
     required: ['preparation', 'distanceMm', 'temperatureC', 'intensity'],
-    analysis: { baseline: { window: [-4.5, -0.2] }, hum: { frequency: 50, harmonics: 3 }, components: { preset: 'mammalian', earliestMs: 0.12 } },
+    analysis: { baseline: { window: [-19, -0.2] }, hum: { frequency: 50, harmonics: 3, exclude: [[0, 60]] }, components: { preset: 'mammalian', earliestMs: 0.12 } },
     files,
   };
   writeFileSync(join(outDir, 'manifest.json'), JSON.stringify(manifest, null, 1) + '\n');
