@@ -6,7 +6,7 @@
  * potentials, e.g. J. E. Cummins, L. J. Dorfman, D. H. Perkel, "Nerve fiber
  * conduction-velocity distributions", in Computer-Aided Electromyography, Karger 1979;
  * K. Schoonhoven, D. F. Stegeman, "Models and analysis of compound nerve action
- * potentials", Crit. Rev. Biomed. Eng. 19 (1991) 47-111):
+ * potentials", Crit. Rev. Biomed. Eng. 19 (1991) 47-111; both references from memory, not checked):
  *
  *   y_x(t) = sum_k W_k s(t - x u_k)      (bipolar: sum_k W_k [s(t - x u_k) - s(t - x_ref u_k)])
  *
