@@ -16,7 +16,8 @@ import type { DoseResponseOptions, DoseResponseResult } from '../analysis/doseRe
 import type { RecruitmentOptions, RecruitmentResult } from '../analysis/recruitment';
 import type { StrengthDurationOptions, StrengthDurationResult } from '../analysis/strengthDuration';
 import { temperatureAnalysis, velocityTemperature, type TemperatureResult } from '../analysis/temperature';
-import { singleSiteVelocity, twoSiteVelocity, regressionVelocity, markRecommended, RECOMMENDED_VELOCITY, type VelocityRow } from '../analysis/velocity';
+import { singleSiteVelocity, twoSiteVelocity, regressionVelocity, markRecommended, measured, RECOMMENDED_VELOCITY, type VelocityRow } from '../analysis/velocity';
+import { recruitmentDefaults } from '../analysis/recruitment';
 import { OptionError } from '../errors';
 import { ComponentTable, VelocityResult } from '../measure/table';
 import { VERSION } from '../version';
@@ -228,7 +229,18 @@ export function analyse(set: SweepSet, o: PipelineOptions, prep: string | null =
   let strengthDuration: StrengthDurationResult | null = null;
   if (new Set(pt.rows.map((r) => r.pulseWidthMs)).size >= 3) {
     try {
-      strengthDuration = pt.strengthDuration(o.strengthDuration ?? {});
+      // only curves measured at enough intensities go to the strength-duration fit; the others are flagged
+      const minLevels = o.recruitment?.minLevels ?? recruitmentDefaults.minLevels;
+      const curve = (r: Row) => JSON.stringify(['class', 'pulseWidthMs', 'preparation', 'distanceMm', 'temperatureC', 'concentration'].map((k) => r[k] ?? null));
+      const levels = new Map<string, Set<unknown>>();
+      for (const r of pt.rows) if (measured(r) && (r.intensity as number) > 0) (levels.get(curve(r)) ?? levels.set(curve(r), new Set()).get(curve(r))!).add(r.intensity);
+      const few = new Set(pt.rows.map(curve).filter((k) => (levels.get(k)?.size ?? 0) < minLevels));
+      for (const k of few) {
+        const [cls, w] = JSON.parse(k) as [string, number];
+        flags.push({ preparation: prep, analysis: 'strength-duration', class: cls, where: `pulse width ${w} ms`, severity: 'not measured', status: 'not detected', reason: `measured at ${levels.get(k)?.size ?? 0} intensities at this pulse width; a recruitment curve needs ${minLevels}` });
+      }
+      const sdt = few.size ? pt.subset((r) => !few.has(curve(r))) : pt;
+      strengthDuration = sdt.strengthDuration(o.strengthDuration ?? {});
       flags.push(...flagsFrom('strength-duration', strengthDuration.rows as Row[], prep, () => null));
     } catch (e) { failed(flags, notes, 'strength-duration', prep, e); }
   }
