@@ -148,7 +148,12 @@ export function trains(set: SweepSet, options: TrainOptions = {}): TrainResult {
       });
       points.push(...pts);
       const row: Row = { ...head, class: cls, train_hz: hz, pulses: n, first_latency_ms: lat0 };
-      if (!refOk) { summary.push({ ...row, status: 'not measured', reason: `pulse-1 response not measured (${ref.status}${ref.reason ? `: ${ref.reason}` : ''})` }); continue; }
+      if (!refOk) {
+        const cut = whole.status === 'measured' && num(whole.centroid_to_ms) && (whole.centroid_to_ms as number) > period
+          ? `; uncut, it spans ${Number((whole.centroid_from_ms as number).toFixed(2))}-${Number((whole.centroid_to_ms as number).toFixed(2))} ms, past the next pulse at ${Number(period.toFixed(2))} ms, so its own window holds too little of it` : '';
+        summary.push({ ...row, status: 'not measured', reason: `pulse-1 response not measured (${ref.status}${ref.reason ? `: ${ref.reason}` : ''})${cut}` });
+        continue;
+      }
       const notes: string[] = [];
       if (num(ref.centroid_to_ms) && (ref.centroid_to_ms as number) > period) notes.push(`the pulse-1 response lasts to ${Number((ref.centroid_to_ms as number).toFixed(2))} ms, past the next pulse at ${Number(period.toFixed(2))} ms: later responses overlap its tail`);
       const noResponse = (p: Row) => p.status === 'not detected' || p.status === 'not resolved';
