@@ -8,11 +8,14 @@
  * Exit codes: 0 success; 2 usage or configuration error (also a refused --out); 3 bad input
  * file; 4 the data cannot support the analysis; 5 a rerun did not reproduce the bundle;
  * 6 the output could not be written; 7 a worker thread failed; 1 anything else.
+ * After run and merge: exit 4 when nothing at all could be computed (the bundle is still written).
  */
 import { readFileSync, readdirSync, mkdtempSync, rmSync, existsSync, statSync } from 'node:fs';
 import { join, resolve, dirname } from 'node:path';
 import { tmpdir } from 'node:os';
 import { runStudy, mergeShards } from './engine';
+import { flagReport, FLAG_LINE_CAP } from './flags';
+import type { Study } from '../report/study';
 import { verifyInputs, type Provenance } from '../report/bundle';
 import { InputError, AnalysisError, OptionError, OutputError, ConfigError, ThreadError, systemReason } from '../errors';
 import { nearest, didYouMean } from '../validate';
@@ -54,7 +57,12 @@ Options:
   --shard <i/n>     process only share i of n of the preparations (sorted by name);
                     writes a partial output for "fascicle merge"
   --no-figures      skip the figure files
-  --quiet           no progress output`,
+  --quiet           no progress output (results and flags are still printed)
+
+After the run it prints the results, a summary of the flags (estimates that were rejected,
+not measured, or kept with a warning; all in tables/flags.csv) and a line for each rejected
+and not-measured one (at most ${FLAG_LINE_CAP}). Exit 0 when anything was computed, even with flags;
+exit 4 only when nothing at all could be computed (the bundle is still written).`,
   merge: `fascicle merge <shard-dir>... --out <dir>
 
 Combines the partial outputs written by "fascicle run --shard i/n" (all n shards of one run)
@@ -161,24 +169,36 @@ async function main(argv: string[]): Promise<number> {
     const r = await runStudy({ manifest: pos[0], out: flags.out, jobs, shard, figures: !flags['no-figures'], onProgress: progressBar(!!flags.quiet) });
     const secs = ((Date.now() - t0) / 1000).toFixed(1);
     if (shard) { console.log(`shard ${shard.index}/${shard.count}: ${r.outputs.length} preparation(s) written to ${flags.out} in ${secs} s; combine all shards with "fascicle merge"`); return 0; }
-    const s = r.study!;
     console.log(`fascicle ${VERSION}: analysed ${r.outputs.length} preparation(s) in ${secs} s`);
-    for (const row of s.tables.dose_response_summary) console.log(`  IC50 ${row.class}: ${fmt(row.ic50)} ${row.concentrationUnit} (95% CI ${fmt(row.ic50_ci95_low)}-${fmt(row.ic50_ci95_high)}), Hill slope ${fmt(row.hill)}`);
-    for (const row of s.tables.strength_duration ?? []) if (row.chronaxie_ms !== null) console.log(`  chronaxie ${row.class} (${row.preparation}): ${fmt(row.chronaxie_ms)} ms (95% CI ${fmt(row.chronaxie_ci95_low_ms)}-${fmt(row.chronaxie_ci95_high_ms)}), rheobase ${fmt(row.rheobase)}${row.intensityUnit ? ` ${row.intensityUnit}` : ''}`);
-    for (const row of s.tables.temperature) console.log(`  Q10 ${row.class}: ${fmt(row.q10)} (95% CI ${fmt(row.q10_ci95_low)}-${fmt(row.q10_ci95_high)})`);
-    for (const n of s.notes) console.log(`  note: ${n}`);
-    console.log(`bundle written to ${flags.out}`);
-    return 0;
+    return reportStudy(r.study!, flags.out);
   }
   if (cmd === 'merge') {
     if (!pos.length) throw new UsageError('merge needs one or more shard folders');
     if (typeof flags.out !== 'string') throw new UsageError('merge needs --out <dir>');
-    await mergeShards(pos, flags.out);
-    console.log(`merged ${pos.length} shard(s); bundle written to ${flags.out}`);
-    return 0;
+    const study = await mergeShards(pos, flags.out);
+    console.log(`merged ${pos.length} shard(s)`);
+    return reportStudy(study, flags.out);
   }
   if (pos.length !== 1) throw new UsageError('rerun needs exactly one bundle folder');
   return rerun(pos[0], typeof flags.manifest === 'string' ? flags.manifest : undefined);
+}
+
+/**
+ * Print a written study's results and flags; the exit code: 0 when anything was computed
+ * (even with flags), 4 when nothing at all could be (the bundle is written so the flags can be read).
+ */
+function reportStudy(s: Study, out: string): number {
+  for (const row of s.tables.dose_response_summary) if (typeof row.ic50 === 'number') console.log(`  IC50 ${row.class}: ${fmt(row.ic50)} ${row.concentrationUnit} (95% CI ${fmt(row.ic50_ci95_low)}-${fmt(row.ic50_ci95_high)}), Hill slope ${fmt(row.hill)}`);
+  for (const row of s.tables.strength_duration ?? []) if (row.chronaxie_ms !== null) console.log(`  chronaxie ${row.class} (${row.preparation}): ${fmt(row.chronaxie_ms)} ms (95% CI ${fmt(row.chronaxie_ci95_low_ms)}-${fmt(row.chronaxie_ci95_high_ms)}), rheobase ${fmt(row.rheobase)}${row.intensityUnit ? ` ${row.intensityUnit}` : ''}`);
+  for (const row of s.tables.temperature) if (typeof row.q10 === 'number') console.log(`  Q10 ${row.class}: ${fmt(row.q10)} (95% CI ${fmt(row.q10_ci95_low)}-${fmt(row.q10_ci95_high)})`);
+  for (const n of s.notes) console.log(`  note: ${n}`);
+  for (const line of flagReport(s.tables.flags ?? [])) console.error(line);
+  console.log(`bundle written to ${out}`);
+  if (!(s.computed > 0)) {
+    console.error(`fascicle: nothing could be computed: see tables/flags.csv (in ${out})`);
+    return 4;
+  }
+  return 0;
 }
 
 const BUNDLE_EXPECTED = 'a bundle folder written by "fascicle run"';
