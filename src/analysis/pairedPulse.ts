@@ -10,7 +10,8 @@
  * a test response whose window overlaps a class's conditioning response that still runs at the test pulse is then
  * 'not measured' (extrapolation cannot predict it).
  * The difference is then moved so that the test pulse is at 0 ms (whole samples; the remaining fraction of a sample is
- * taken off every latency; before 0 ms it holds the quiet pre-conditioning samples, where the noise level is taken), samples in `blankMs` after the test pulse are bridged by a straight line (its artifact),
+ * taken off every latency; before 0 ms it holds the quiet pre-conditioning samples, where the noise level is taken),
+ * samples in `blankMs` after the test pulse are bridged by a straight line (its artifact),
  * and the test response is measured with measureComponents exactly as the test-alone average is. Per class:
  * amplitude, area and latency of the test response, as fractions of (and, for latency, the increase over) the
  * test-alone response.
@@ -78,7 +79,9 @@ export function meanSweeps(set: SweepSet, idx: readonly number[]): Float64Array 
  * A sweep moved so that a stimulus at `atMs` is at 0 ms: whole samples (the fraction left, in ms, is returned and
  * must be taken off latencies); the end is padded with zeros. `blankMs` after the stimulus is bridged linearly.
  */
-export function lockToStimulus(x: Float64Array, fs: number, t0Ms: number, atMs: number, blankMs: [number, number] | null): { y: Float64Array; remainderMs: number } {
+export function lockToStimulus(
+  x: Float64Array, fs: number, t0Ms: number, atMs: number, blankMs: [number, number] | null,
+): { y: Float64Array; remainderMs: number } {
   const dt = 1000 / fs;
   const n = Math.round(atMs / dt);
   const y = new Float64Array(x.length);
@@ -106,7 +109,10 @@ export function extrapolateTail(x: Float64Array, fs: number, t0Ms: number, testM
     let sxy = 0, sxx = 0;
     for (let k = 0; k < tx.length; k++) { sxy += (tx[k] - mx) * (ly[k] - my); sxx += (tx[k] - mx) ** 2; }
     const slope = sxy / sxx;
-    if (slope < 0) { method = 'exponential decay fitted to the last part before the test pulse'; f = (i) => sign * Math.exp(my + slope * (i - a - mx)); }
+    if (slope < 0) {
+      method = 'exponential decay fitted to the last part before the test pulse';
+      f = (i) => sign * Math.exp(my + slope * (i - a - mx));
+    }
   }
   for (let i = b; i < x.length; i++) y[i] = f(i);
   return { y, method };
@@ -117,28 +123,41 @@ export const recoveryLogistic = (x: number, p: readonly number[]): number => 1 /
 /** The same curve with p = [log10 R90, s]: R50 = R90 / 10^(s ln 9). */
 export const recoveryLogistic90 = (x: number, p: readonly number[]): number => 1 / (1 + Math.exp((p[0] - p[1] * Math.log(9) - x) / p[1]));
 
-export interface RecoveryFit { r50Ms: number; r50Ci: [number, number]; r90Ms: number; r90Ci: [number, number]; slope: number; fit: FitResult; status: string }
+export interface RecoveryFit {
+  r50Ms: number; r50Ci: [number, number]; r90Ms: number; r90Ci: [number, number]; slope: number; fit: FitResult; status: string;
+}
 
 /** Fit the recovery logistic to (interval ms, fraction) points; profile-likelihood 95% intervals for R50 and R90. */
 export function fitRecovery(intervalsMs: readonly number[], fractions: readonly number[]): RecoveryFit {
-  if (intervalsMs.length !== fractions.length || intervalsMs.length < 3) throw new AnalysisError(`a recovery fit needs 3 or more points (got ${intervalsMs.length})`);
+  if (intervalsMs.length !== fractions.length || intervalsMs.length < 3) {
+    throw new AnalysisError(`a recovery fit needs 3 or more points (got ${intervalsMs.length})`);
+  }
   const x = intervalsMs.map((v) => Math.log10(v));
   let x50 = x[Math.floor(x.length / 2)];
   const order = x.map((_, i) => i).sort((i, j) => x[i] - x[j]);
   for (const i of order) if (fractions[i] >= 0.5) { x50 = x[i]; break; }
   const names = ['log10_r50', 'slope'];
   const f = fitCurve({ model: recoveryLogistic, x, y: fractions, p0: [x50, 0.1], names, lower: [-Infinity, 1e-4], upper: [Infinity, 5] });
-  const f9 = fitCurve({ model: recoveryLogistic90, x, y: fractions, p0: [f.params[0] + f.params[1] * Math.log(9), f.params[1]], names: ['log10_r90', 'slope'], lower: [-Infinity, 1e-4], upper: [Infinity, 5] });
+  const f9 = fitCurve({
+    model: recoveryLogistic90, x, y: fractions, p0: [f.params[0] + f.params[1] * Math.log(9), f.params[1]], names: ['log10_r90', 'slope'],
+    lower: [-Infinity, 1e-4], upper: [Infinity, 5],
+  });
   const ci = (g: FitResult): [number, number] => {
     const c = profileCI(g, 0);
     return [10 ** c[0], 10 ** c[1]];
   };
   const st = [...new Set([...f.status, ...f9.status])].filter((q) => q !== 'ok');
-  return { r50Ms: 10 ** f.params[0], r50Ci: ci(f), r90Ms: 10 ** f9.params[0], r90Ci: ci(f9), slope: f.params[1], fit: f, status: st.length ? st.join('; ') : 'ok' };
+  return {
+    r50Ms: 10 ** f.params[0], r50Ci: ci(f), r90Ms: 10 ** f9.params[0], r90Ci: ci(f9), slope: f.params[1], fit: f,
+    status: st.length ? st.join('; ') : 'ok',
+  };
 }
 
 export class PairedPulseResult extends Result {
-  constructor(readonly points: Row[], readonly summary: Row[], readonly fits: Map<string, FitResult>, readonly history: readonly Step[], readonly sources: readonly Source[] = [], readonly units = 'uV') {
+  constructor(
+    readonly points: Row[], readonly summary: Row[], readonly fits: Map<string, FitResult>, readonly history: readonly Step[],
+    readonly sources: readonly Source[] = [], readonly units = 'uV',
+  ) {
     super();
   }
   /** Tables for the bundle: paired_pulse (per group, class and interval) and paired_pulse_summary (per group and class). */
@@ -153,7 +172,8 @@ export class PairedPulseResult extends Result {
   }
   toString(): string {
     return 'PairedPulseResult\n' + tableText(this.summary, {
-      columns: ['preparation', 'class', 'arp_ms', 'arp_next_ms', 'r50_ms', 'r50_ci95_low', 'r50_ci95_high', 'r90_ms', 'latency_increase_ms', 'status'].filter((c) => this.summary.some((r) => c in r)),
+      columns: ['preparation', 'class', 'arp_ms', 'arp_next_ms', 'r50_ms', 'r50_ci95_low', 'r50_ci95_high', 'r90_ms', 'latency_increase_ms',
+        'status'].filter((c) => this.summary.some((r) => c in r)),
     });
   }
   /** Recovery curves per class (src/plot/recovery.ts). */
@@ -173,9 +193,13 @@ const num = (v: unknown): v is number => typeof v === 'number' && Number.isFinit
 export function pairedPulse(set: SweepSet, options: PairedPulseOptions = {}): PairedPulseResult {
   checkKeys('pairedPulse options', options as Record<string, unknown>, KEYS);
   const o = { ...pairedPulseDefaults, ...options };
-  if (o.measure !== 'area' && o.measure !== 'amplitude') throw new OptionError(`invalid measure: ${JSON.stringify(o.measure)}; must be "area" or "amplitude"`);
+  if (o.measure !== 'area' && o.measure !== 'amplitude') {
+    throw new OptionError(`invalid measure: ${JSON.stringify(o.measure)}; must be "area" or "amplitude"`);
+  }
   if (!(o.extrapolateMs > 0)) throw new OptionError(`invalid extrapolateMs: ${o.extrapolateMs}; must be > 0 ms`);
-  if (!Number.isInteger(o.minIntervals) || o.minIntervals < 3) throw new OptionError(`invalid minIntervals: ${o.minIntervals}; must be an integer >= 3`);
+  if (!Number.isInteger(o.minIntervals) || o.minIntervals < 3) {
+    throw new OptionError(`invalid minIntervals: ${o.minIntervals}; must be an integer >= 3`);
+  }
   const role = (i: number) => set.conditions[i][o.roleKey];
   const roles = new Set(set.conditions.map((c) => c[o.roleKey]));
   for (const r of roles) {
@@ -183,9 +207,13 @@ export function pairedPulse(set: SweepSet, options: PairedPulseOptions = {}): Pa
       throw new AnalysisError(`condition "${o.roleKey}" has value ${JSON.stringify(r)}; expected "paired", "test-alone" or "conditioning-alone"`);
     }
   }
-  if (!roles.has('paired') || !roles.has('test-alone')) throw new AnalysisError(`paired-pulse analysis needs sweeps with "${o.roleKey}" = "paired" and "test-alone"`);
+  if (!roles.has('paired') || !roles.has('test-alone')) {
+    throw new AnalysisError(`paired-pulse analysis needs sweeps with "${o.roleKey}" = "paired" and "test-alone"`);
+  }
   for (let i = 0; i < set.nSweeps; i++) {
-    if (role(i) === 'paired' && !num(set.conditions[i][o.intervalKey])) throw new AnalysisError(`sweep ${i}: paired sweep without a numeric "${o.intervalKey}" (ms)`);
+    if (role(i) === 'paired' && !num(set.conditions[i][o.intervalKey])) {
+      throw new AnalysisError(`sweep ${i}: paired sweep without a numeric "${o.intervalKey}" (ms)`);
+    }
   }
   const by = o.by ?? ['preparation', 'distanceMm', 'temperatureC', 'concentration'].filter((k) => set.conditions.some((c) => k in c));
   const u = set.units;
@@ -203,7 +231,8 @@ export function pairedPulse(set: SweepSet, options: PairedPulseOptions = {}): Pa
     const test = idx.filter((i) => role(i) === 'test-alone'), cond = idx.filter((i) => role(i) === 'conditioning-alone');
     const isis = [...new Set(idx.filter((i) => role(i) === 'paired').map((i) => set.conditions[i][o.intervalKey] as number))].sort((a, b) => a - b);
     if (!test.length || !isis.length) {
-      summary.push({ ...head, class: null, status: 'not measured', reason: !test.length ? 'no test-alone sweeps in this group' : 'no paired sweeps in this group' });
+      const why = !test.length ? 'no test-alone sweeps in this group' : 'no paired sweeps in this group';
+      summary.push({ ...head, class: null, status: 'not measured', reason: why });
       continue;
     }
     const condMean = cond.length ? meanSweeps(set, cond) : null;
@@ -230,8 +259,12 @@ export function pairedPulse(set: SweepSet, options: PairedPulseOptions = {}): Pa
     const base = set.conditions[test[0]];
     const data = new Float64Array(traces.length * set.nSamples);
     traces.forEach((t, k) => data.set(t, k * set.nSamples));
-    const conds = traces.map((_, k) => ({ ...head, distanceMm: base.distanceMm ?? null, temperatureC: base.temperatureC ?? null, intervalMs: k ? isis[k - 1] : null }));
-    const locked = new SweepSet({ data, nSweeps: traces.length, nSamples: set.nSamples, fs: set.fs, t0Ms: set.t0Ms, units: u, conditions: conds, extras: set.extras });
+    const conds = traces.map((_, k) => ({
+      ...head, distanceMm: base.distanceMm ?? null, temperatureC: base.temperatureC ?? null, intervalMs: k ? isis[k - 1] : null,
+    }));
+    const locked = new SweepSet({
+      data, nSweeps: traces.length, nSamples: set.nSamples, fs: set.fs, t0Ms: set.t0Ms, units: u, conditions: conds, extras: set.extras,
+    });
     // the test responses keep the test-alone response's polarity per class (unless given): chosen on the test-alone
     // average alone, so that differences at short intervals cannot flip it
     const copt = o.components ?? {};
@@ -258,24 +291,34 @@ export function pairedPulse(set: SweepSet, options: PairedPulseOptions = {}): Pa
       for (let k = 1; k < traces.length; k++) {
         const r0 = cr.find((q) => q.sweep === k)!;
         const ov = overlap(cls, isis[k - 1]);
-        const r = ov ? { ...r0, status: 'not measured', reason: `the conditioning response of ${ov} still runs at the test pulse and overlaps this class's test window; extrapolation cannot remove it (give conditioning-alone sweeps)` } : r0;
+        const why = `the conditioning response of ${ov} still runs at the test pulse and overlaps this class's test window; `
+          + 'extrapolation cannot remove it (give conditioning-alone sweeps)';
+        const r = ov ? { ...r0, status: 'not measured', reason: why } : r0;
         const measured = r.status === 'measured';
         const lat = measured && num(r[latCol]) ? (r[latCol] as number) - remainder[k] : null;
         const ok = refOk && measured;
         const p: Row = {
           ...head, class: cls, interval_ms: isis[k - 1], sweeps: nSweeps[k], conditioning_subtracted: subtraction[k],
-          detected: refOk && measured, [`amplitude_${u}`]: measured ? (r[`amplitude_${u}`] as number) : null, [`area_${u}_ms`]: measured ? (r[`area_${u}_ms`] as number) : null,
+          detected: refOk && measured, [`amplitude_${u}`]: measured ? (r[`amplitude_${u}`] as number) : null,
+          [`area_${u}_ms`]: measured ? (r[`area_${u}_ms`] as number) : null,
           latency_ms: lat,
           amplitude_fraction: ok ? (r[`amplitude_${u}`] as number) / (ref[`amplitude_${u}`] as number) : null,
           area_fraction: ok ? (r[`area_${u}_ms`] as number) / (ref[`area_${u}_ms`] as number) : null,
           latency_increase_ms: ok && lat !== null ? lat - (ref[latCol] as number) : null,
-          status: !refOk ? 'not measured' : r.status, reason: !refOk ? `test-alone response of ${cls} not measured (${ref.status})` : (r.reason ?? null),
+          status: !refOk ? 'not measured' : r.status,
+          reason: !refOk ? `test-alone response of ${cls} not measured (${ref.status})` : (r.reason ?? null),
         };
         pts.push(p);
       }
       points.push(...pts);
-      const row: Row = { ...head, class: cls, intervals: isis.length, [`test_alone_amplitude_${u}`]: refOk ? ref[`amplitude_${u}`] : null, [`test_alone_area_${u}_ms`]: refOk ? ref[`area_${u}_ms`] : null, test_alone_latency_ms: refOk ? ref[latCol] : null };
-      if (!refOk) { summary.push({ ...row, status: 'not measured', reason: `test-alone response not measured (${ref.status}${ref.reason ? `: ${ref.reason}` : ''})` }); continue; }
+      const row: Row = {
+        ...head, class: cls, intervals: isis.length, [`test_alone_amplitude_${u}`]: refOk ? ref[`amplitude_${u}`] : null,
+        [`test_alone_area_${u}_ms`]: refOk ? ref[`area_${u}_ms`] : null, test_alone_latency_ms: refOk ? ref[latCol] : null,
+      };
+      if (!refOk) {
+        summary.push({ ...row, status: 'not measured', reason: `test-alone response not measured (${ref.status}${ref.reason ? `: ${ref.reason}` : ''})` });
+        continue;
+      }
       const notes: string[] = [];
       if (!condMean) notes.push('conditioning response extrapolated from each paired sweep (no conditioning-alone sweeps)');
       // absolute refractory period: the longest interval without a response while every longer interval has one
@@ -296,10 +339,14 @@ export function pairedPulse(set: SweepSet, options: PairedPulseOptions = {}): Pa
         notes.push(`a test response at every usable interval: the absolute refractory period is shorter than ${uIsi[0]} ms`);
       } else Object.assign(row, { arp_ms: uIsi[j - 1], arp_next_ms: uIsi[j] });
       if (usable.length < pts.length) notes.push(`${pts.length - usable.length} interval(s) not measured (see the rows' reasons)`);
-      if (det.slice(0, j).some(Boolean)) notes.push('a response detected at a shorter interval than the refractory period found (isolated; counted in the fit)');
+      if (det.slice(0, j).some(Boolean)) {
+        notes.push('a response detected at a shorter interval than the refractory period found (isolated; counted in the fit)');
+      }
       // refractory slowing at the shortest interval with a response
       const first = pts.find((p) => num(p.latency_increase_ms));
-      Object.assign(row, { latency_increase_ms: first ? first.latency_increase_ms : null, latency_increase_interval_ms: first ? first.interval_ms : null });
+      Object.assign(row, {
+        latency_increase_ms: first ? first.latency_increase_ms : null, latency_increase_interval_ms: first ? first.interval_ms : null,
+      });
       // recovery curve fit
       const fx: number[] = [], fy: number[] = [];
       const fracCol = o.measure === 'area' ? 'area_fraction' : 'amplitude_fraction';
@@ -308,10 +355,12 @@ export function pairedPulse(set: SweepSet, options: PairedPulseOptions = {}): Pa
       const arpAt = num(row.arp_ms) ? (row.arp_ms as number) : -Infinity;
       for (const p of pts) {
         const x = p.interval_ms as number;
-        if (p.status === 'not detected' || (x <= arpAt && p.detected !== true)) { fx.push(x); fy.push(0); } else if (num(p[fracCol])) { fx.push(x); fy.push(p[fracCol] as number); }
+        if (p.status === 'not detected' || (x <= arpAt && p.detected !== true)) { fx.push(x); fy.push(0); }
+        else if (num(p[fracCol])) { fx.push(x); fy.push(p[fracCol] as number); }
       }
       if (fx.length < o.minIntervals) {
-        summary.push({ ...row, r50_ms: null, r90_ms: null, status: notes.concat(`recovery curve not fitted: ${fx.length} usable intervals, need ${o.minIntervals}`).join('; '), reason: 'too few intervals' });
+        const st = notes.concat(`recovery curve not fitted: ${fx.length} usable intervals, need ${o.minIntervals}`).join('; ');
+        summary.push({ ...row, r50_ms: null, r90_ms: null, status: st, reason: 'too few intervals' });
         continue;
       }
       const fr = fitRecovery(fx, fy);

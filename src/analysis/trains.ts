@@ -25,7 +25,9 @@ import { meanSweeps, lockToStimulus } from './pairedPulse';
 import type { Figure } from '../plot/figure';
 
 type Row = Record<string, ConditionValue>;
-export const trainDefaults = { frequencyKey: 'trainHz', pulsesKey: 'trainPulses', latency: 'peak_ms', blankMs: [0, 0.12] as [number, number], failFraction: 0.5 };
+export const trainDefaults = {
+  frequencyKey: 'trainHz', pulsesKey: 'trainPulses', latency: 'peak_ms', blankMs: [0, 0.12] as [number, number], failFraction: 0.5,
+};
 const KEYS = ['components', 'by', 'frequencyKey', 'pulsesKey', 'latency', 'blankMs', 'failFraction'];
 
 export interface TrainOptions {
@@ -60,7 +62,9 @@ export class TrainResult extends Result {
     return tableHtml(this.summary, { caption: 'Stimulus trains per class: latency increase at the last pulse and the failing pulse' });
   }
   toString(): string {
-    return 'TrainResult\n' + tableText(this.summary, { columns: ['preparation', 'class', 'train_hz', 'pulses', 'last_latency_increase_ms', 'last_latency_increase_pct', 'last_area_fraction', 'failure_pulse', 'status'].filter((c) => this.summary.some((r) => c in r)) });
+    const cols = ['preparation', 'class', 'train_hz', 'pulses', 'last_latency_increase_ms', 'last_latency_increase_pct',
+      'last_area_fraction', 'failure_pulse', 'status'];
+    return 'TrainResult\n' + tableText(this.summary, { columns: cols.filter((c) => this.summary.some((r) => c in r)) });
   }
   figure(): Figure {
     // eslint-disable-next-line @typescript-eslint/no-var-requires
@@ -70,6 +74,7 @@ export class TrainResult extends Result {
 }
 
 const num = (v: unknown): v is number => typeof v === 'number' && Number.isFinite(v);
+const ms = (v: number) => Number(v.toFixed(2));
 
 /** Train responses per class (module comment). */
 export function trains(set: SweepSet, options: TrainOptions = {}): TrainResult {
@@ -78,8 +83,12 @@ export function trains(set: SweepSet, options: TrainOptions = {}): TrainResult {
   if (!(o.failFraction > 0 && o.failFraction < 1)) throw new OptionError(`invalid failFraction: ${o.failFraction}; must be 0 < failFraction < 1`);
   for (let i = 0; i < set.nSweeps; i++) {
     const c = set.conditions[i];
-    if (!num(c[o.frequencyKey]) || !((c[o.frequencyKey] as number) > 0)) throw new AnalysisError(`sweep ${i}: "${o.frequencyKey}" must be a frequency > 0 Hz (got ${JSON.stringify(c[o.frequencyKey])})`);
-    if (!Number.isInteger(c[o.pulsesKey]) || !((c[o.pulsesKey] as number) >= 2)) throw new AnalysisError(`sweep ${i}: "${o.pulsesKey}" must be an integer >= 2 (got ${JSON.stringify(c[o.pulsesKey])})`);
+    if (!num(c[o.frequencyKey]) || !((c[o.frequencyKey] as number) > 0)) {
+      throw new AnalysisError(`sweep ${i}: "${o.frequencyKey}" must be a frequency > 0 Hz (got ${JSON.stringify(c[o.frequencyKey])})`);
+    }
+    if (!Number.isInteger(c[o.pulsesKey]) || !((c[o.pulsesKey] as number) >= 2)) {
+      throw new AnalysisError(`sweep ${i}: "${o.pulsesKey}" must be an integer >= 2 (got ${JSON.stringify(c[o.pulsesKey])})`);
+    }
   }
   const by = o.by ?? ['preparation', 'distanceMm', 'temperatureC', 'concentration'].filter((k) => set.conditions.some((c) => k in c));
   const u = set.units;
@@ -99,7 +108,10 @@ export function trains(set: SweepSet, options: TrainOptions = {}): TrainResult {
     const period = 1000 / hz;
     const mean = meanSweeps(set, idx);
     const lastIndex = Math.round(((n - 1) * period - set.t0Ms) / dt);
-    if (lastIndex >= set.nSamples) throw new AnalysisError(`train at ${hz} Hz with ${n} pulses: pulse ${n} at ${(n - 1) * period} ms is after the sweep's end (${set.t0Ms + (set.nSamples - 1) * dt} ms)`);
+    if (lastIndex >= set.nSamples) {
+      throw new AnalysisError(`train at ${hz} Hz with ${n} pulses: pulse ${n} at ${(n - 1) * period} ms is after the sweep's end `
+        + `(${set.t0Ms + (set.nSamples - 1) * dt} ms)`);
+    }
     const traces: Float64Array[] = [], rem: number[] = [];
     for (let k = 0; k < n; k++) {
       const l = lockToStimulus(mean, set.fs, set.t0Ms, k * period, o.blankMs);
@@ -114,8 +126,12 @@ export function trains(set: SweepSet, options: TrainOptions = {}): TrainResult {
     traces.push(lockToStimulus(mean, set.fs, set.t0Ms, 0, o.blankMs).y); rem.push(0);
     const data = new Float64Array(traces.length * set.nSamples);
     traces.forEach((t, k) => data.set(t, k * set.nSamples));
-    const conds = traces.map((_, k) => ({ ...head, distanceMm: c0.distanceMm ?? null, temperatureC: c0.temperatureC ?? null, pulse: k < n ? k + 1 : 1 }));
-    const locked = new SweepSet({ data, nSweeps: traces.length, nSamples: set.nSamples, fs: set.fs, t0Ms: set.t0Ms, units: u, conditions: conds, extras: set.extras });
+    const conds = traces.map((_, k) => ({
+      ...head, distanceMm: c0.distanceMm ?? null, temperatureC: c0.temperatureC ?? null, pulse: k < n ? k + 1 : 1,
+    }));
+    const locked = new SweepSet({
+      data, nSweeps: traces.length, nSamples: set.nSamples, fs: set.fs, t0Ms: set.t0Ms, units: u, conditions: conds, extras: set.extras,
+    });
     // every pulse's response keeps pulse 1's polarity per class (unless given)
     const copt = o.components ?? {};
     const polarity = copt.polarity ?? measureComponents(locked.select([0]), copt).resolved.polarities;
@@ -126,8 +142,13 @@ export function trains(set: SweepSet, options: TrainOptions = {}): TrainResult {
       const ref = cr[0];
       if (whole.status === 'measured' && num(whole.centroid_from_ms) && (whole.centroid_from_ms as number) >= period) {
         // the class answers pulse 1 only after pulse 2: it has no window of its own at this frequency
-        const why = `the pulse-1 response starts at ${Number((whole.centroid_from_ms as number).toFixed(2))} ms, after the next pulse at ${Number(period.toFixed(2))} ms: no window of its own at ${hz} Hz`;
-        cr.forEach((_, k) => points.push({ ...head, class: cls, train_hz: hz, pulses: n, pulse: k + 1, stimulus_ms: k * period, detected: false, latency_ms: null, [`amplitude_${u}`]: null, [`area_${u}_ms`]: null, latency_increase_ms: null, amplitude_fraction: null, area_fraction: null, status: 'not measured', reason: why }));
+        const why = `the pulse-1 response starts at ${ms(whole.centroid_from_ms as number)} ms, after the next pulse at `
+          + `${ms(period)} ms: no window of its own at ${hz} Hz`;
+        cr.forEach((_, k) => points.push({
+          ...head, class: cls, train_hz: hz, pulses: n, pulse: k + 1, stimulus_ms: k * period, detected: false, latency_ms: null,
+          [`amplitude_${u}`]: null, [`area_${u}_ms`]: null, latency_increase_ms: null, amplitude_fraction: null, area_fraction: null,
+          status: 'not measured', reason: why,
+        }));
         summary.push({ ...head, class: cls, train_hz: hz, pulses: n, first_latency_ms: null, status: 'not measured', reason: why });
         continue;
       }
@@ -150,22 +171,37 @@ export function trains(set: SweepSet, options: TrainOptions = {}): TrainResult {
       const row: Row = { ...head, class: cls, train_hz: hz, pulses: n, first_latency_ms: lat0 };
       if (!refOk) {
         const cut = whole.status === 'measured' && num(whole.centroid_to_ms) && (whole.centroid_to_ms as number) > period
-          ? `; uncut, it spans ${Number((whole.centroid_from_ms as number).toFixed(2))}-${Number((whole.centroid_to_ms as number).toFixed(2))} ms, past the next pulse at ${Number(period.toFixed(2))} ms, so its own window holds too little of it` : '';
-        summary.push({ ...row, status: 'not measured', reason: `pulse-1 response not measured (${ref.status}${ref.reason ? `: ${ref.reason}` : ''})${cut}` });
+          ? `; uncut, it spans ${ms(whole.centroid_from_ms as number)}-${ms(whole.centroid_to_ms as number)} ms, past the next pulse at `
+            + `${ms(period)} ms, so its own window holds too little of it`
+          : '';
+        const why = `pulse-1 response not measured (${ref.status}${ref.reason ? `: ${ref.reason}` : ''})${cut}`;
+        summary.push({ ...row, status: 'not measured', reason: why });
         continue;
       }
       const notes: string[] = [];
-      if (num(ref.centroid_to_ms) && (ref.centroid_to_ms as number) > period) notes.push(`the pulse-1 response lasts to ${Number((ref.centroid_to_ms as number).toFixed(2))} ms, past the next pulse at ${Number(period.toFixed(2))} ms: later responses overlap its tail`);
+      if (num(ref.centroid_to_ms) && (ref.centroid_to_ms as number) > period) {
+        notes.push(`the pulse-1 response lasts to ${ms(ref.centroid_to_ms as number)} ms, past the next pulse at ${ms(period)} ms: `
+          + 'later responses overlap its tail');
+      }
       const noResponse = (p: Row) => p.status === 'not detected' || p.status === 'not resolved';
       const fail = pts.findIndex((p) => noResponse(p) || (num(p.area_fraction) && (p.area_fraction as number) < o.failFraction));
       const last = pts[pts.length - 1];
       summary.push({
-        ...row, last_latency_increase_ms: last.latency_increase_ms, last_latency_increase_pct: num(last.latency_increase_ms) ? (100 * (last.latency_increase_ms as number)) / lat0! : null,
+        ...row, last_latency_increase_ms: last.latency_increase_ms,
+        last_latency_increase_pct: num(last.latency_increase_ms) ? (100 * (last.latency_increase_ms as number)) / lat0! : null,
         last_area_fraction: last.area_fraction, failure_pulse: fail < 0 ? null : fail + 1,
-        status: notes.length ? notes.join('; ') : 'ok', reason: fail < 0 ? null : `fails at pulse ${fail + 1} (${noResponse(pts[fail]) ? String(pts[fail].status) : `area below ${o.failFraction} of pulse 1`})`,
+        status: notes.length ? notes.join('; ') : 'ok',
+        reason: fail < 0 ? null
+          : `fails at pulse ${fail + 1} (${noResponse(pts[fail]) ? String(pts[fail].status) : `area below ${o.failFraction} of pulse 1`})`,
       });
     }
   }
-  const step: Step = { verb: 'trains', version: VERSION, options: { by, frequencyKey: o.frequencyKey, pulsesKey: o.pulsesKey, latency: o.latency, blankMs: o.blankMs, failFraction: o.failFraction, components: o.components ?? {}, windows: 'each response from its own stimulus to the next stimulus' } };
+  const step: Step = {
+    verb: 'trains', version: VERSION,
+    options: {
+      by, frequencyKey: o.frequencyKey, pulsesKey: o.pulsesKey, latency: o.latency, blankMs: o.blankMs, failFraction: o.failFraction,
+      components: o.components ?? {}, windows: 'each response from its own stimulus to the next stimulus',
+    },
+  };
   return new TrainResult(points, summary, [...set.history, step], set.sources);
 }
