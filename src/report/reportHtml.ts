@@ -1,0 +1,344 @@
+/**
+ * The study report: one HTML page, readable offline in a browser without a server, with
+ * the study summary, per-preparation results, every figure, the tables (sortable), the
+ * flags and notes, the methods text and the provenance. One copy of plotly.js serves
+ * every figure: the bundle's plotly.min.js beside the page (`bundle: true`), or one copy
+ * inlined in the page (a stand-alone report, or a notebook display).
+ * Every user string (preparation, class and file names, notes, methods) is HTML-escaped.
+ */
+import { existsSync, mkdirSync, readFileSync, writeFileSync } from 'node:fs';
+import { join, resolve } from 'node:path';
+import type { Study } from './study';
+import type { Provenance } from './bundle';
+import { OutputError, OptionError, systemReason } from '../errors';
+import { VERSION } from '../version';
+import type { Figure } from '../plot/figure';
+import { plotlyJs } from '../plot/figure';
+import { plainTitle } from '../plot/export';
+import { studyFigureList } from '../plot/study';
+import { escapeHtml, formatCell, tableHtml, displayHtml } from '../notebook/html';
+import { checkKeys } from '../validate';
+
+type Row = Record<string, unknown>;
+
+/** What the report shows: what the command line's engine has when it writes a bundle. */
+export interface ReportInput {
+  /** the combined study (combineStudy) */
+  study: Study;
+  /** the methods text (methodsText of the study's history) */
+  methods: string;
+  /** the provenance written to provenance.json */
+  provenance: Provenance;
+  /** figures to show (default: studyFigureList(study), the bundle's figures); [] for none */
+  figures?: readonly Figure[];
+  /** page title (default: the study name from the manifest step, else "Study report") */
+  title?: string;
+  /**
+   * true: the page sits at the top of a bundle folder; plotly.js comes from ./plotly.min.js
+   * and the page links the bundle's files (tables/*.csv, figures/*.html, methods.txt,
+   * provenance.json). false (default): plotly.js inlined once, no links to files.
+   */
+  bundle?: boolean;
+}
+
+const INPUT_KEYS = ['study', 'methods', 'provenance', 'figures', 'title', 'bundle'];
+
+/** Bulky tables: on screen inside a closed section, left out of print (their files hold them). */
+const BULK = new Set(['components', 'recruitment_points', 'dose_response_points', 'temperature_points', 'strength_duration_points']);
+
+/** Readable names of the bundle's tables. */
+const TABLE_TITLES: Record<string, string> = {
+  components: 'Components (one row per sweep and class)',
+  velocity: 'Conduction velocity',
+  thresholds: 'Thresholds (lowest intensity with a detected component)',
+  recruitment: 'Recruitment fits',
+  recruitment_points: 'Recruitment points',
+  strength_duration: 'Strength-duration fits',
+  strength_duration_points: 'Strength-duration points',
+  dose_response_points: 'Dose-response points',
+  dose_response_per_preparation: 'Dose-response fits per preparation',
+  dose_response_summary: 'Dose-response summary',
+  dose_response_comparisons: 'Dose-response comparisons',
+  temperature: 'Temperature dependence (Q10, activation energy)',
+  temperature_points: 'Temperature points',
+  flags: 'Flags',
+};
+
+/** The analysis a table belongs to, for the note that says why it is empty. */
+const TABLE_ANALYSIS: Record<string, string> = {
+  velocity: 'velocity',
+  thresholds: 'recruitment',
+  recruitment: 'recruitment',
+  recruitment_points: 'recruitment',
+  strength_duration: 'strength-duration',
+  strength_duration_points: 'strength-duration',
+  dose_response_points: 'dose-response',
+  dose_response_per_preparation: 'dose-response',
+  dose_response_summary: 'dose-response',
+  dose_response_comparisons: 'dose-response',
+  temperature: 'temperature',
+  temperature_points: 'temperature',
+};
+
+const CSS = `body{margin:0}.fascicle-report{font:14px/1.45 Helvetica,Arial,sans-serif;color:#222;max-width:1100px;
+margin:0 auto;padding:0 16px 40px}.fascicle-report h1{font-size:22px;margin:18px 0 4px}
+.fascicle-report h2{font-size:18px;margin:28px 0 8px;border-bottom:1px solid #ccc}.fascicle-report h3{font-size:15px;margin:18px 0 6px}
+.fascicle-report nav ol{columns:2;margin:6px 0}.fascicle-report .meta{color:#555}
+.fascicle-report .figure{margin:10px 0 22px;page-break-inside:avoid;break-inside:avoid}
+.fascicle-report figcaption{font-size:12px;color:#444}.fascicle-report .fascicle-table td,.fascicle-report .fascicle-table th{
+border-bottom:1px solid #e4e4e4;padding:1px 6px;text-align:left;white-space:nowrap}
+.fascicle-report .fascicle-table thead th{position:sticky;top:0;background:#f4f4f4}
+.fascicle-report pre.methods{white-space:pre-wrap;font:13px/1.5 Georgia,serif}.fascicle-report pre.provenance{white-space:pre-wrap;
+font-size:11px;background:#f7f7f7;padding:6px;max-height:420px;overflow:auto}.fascicle-report .sev-rejected{color:#a00}
+.fascicle-report .sev-warning{color:#8a5a00}.fascicle-report .print-note{display:none}
+@media print{.fascicle-report{max-width:none;font-size:10pt}.fascicle-report nav,.fascicle-report .screen-only,
+.fascicle-report .bulk{display:none}.fascicle-report .print-note{display:block}
+.fascicle-report .fascicle-table{max-height:none!important;overflow:visible!important}
+.fascicle-report .fascicle-table table{font-size:7pt!important}.fascicle-report .fascicle-table thead th{position:static}
+.fascicle-report pre.provenance{max-height:none;overflow:visible}.fascicle-report h2{break-after:avoid}}`;
+
+/** A study name from the manifest step of the history (its "study" option). */
+function studyName(study: Study): string | null {
+  const m = study.history.find((h) => h.verb === 'readManifest');
+  const s = (m?.options as Row | undefined)?.study;
+  return typeof s === 'string' && s.trim() ? s : null;
+}
+
+const count = (rows: readonly Row[], k: string) => {
+  const out = new Map<string, number>();
+  for (const r of rows) out.set(String(r[k] ?? ''), (out.get(String(r[k] ?? '')) ?? 0) + 1);
+  return out;
+};
+const plural = (n: number, w: string) => `${n} ${w}${n === 1 ? '' : 's'}`;
+const anchor = (s: string) => s.replace(/[^A-Za-z0-9_-]+/g, '-');
+const pick = (rows: readonly Row[], cols: string[]) =>
+  rows.map((r) => Object.fromEntries(cols.filter((c) => c in r).map((c) => [c, r[c]])));
+
+/** The summary list: preparations, sweeps measured, classes, what was computed, flags by severity. */
+function summaryHtml(study: Study, figures: readonly Figure[]): string {
+  const t = study.tables;
+  const preps = [...new Set(t.components.map((r) => String(r.preparation ?? '')))];
+  const classes = [...new Set(t.components.map((r) => String(r.class ?? '')))].filter((c) => c);
+  const sweeps = new Set(t.components.map((r) => `${r.preparation}\u0000${r.sweep}`)).size;
+  const sev = count(t.flags, 'severity');
+  const flagText = t.flags.length
+    ? [...sev].map(([k, n]) => `<span class="sev-${escapeHtml(anchor(k))}">${n} ${escapeHtml(k)}</span>`).join(', ')
+    : 'none';
+  const items = [
+    `${plural(preps.length, 'preparation')}: ${preps.map(escapeHtml).join(', ')}`,
+    `${plural(sweeps, 'sweep')} measured (after averaging repeats), ${plural(study.sources.length, 'input file')}`,
+    `fibre classes: ${classes.map(escapeHtml).join(', ') || 'none'}`,
+    `signal unit: ${escapeHtml(study.units)}`,
+    `${plural(study.computed, 'estimate')} computed; ${plural(figures.length, 'figure')}`,
+    `flags: ${flagText}`,
+  ];
+  const head: string[] = [];
+  const rec = t.velocity.filter((r) => r.recommended === true && r.preparation !== undefined);
+  if (rec.length) {
+    const byClass = new Map<string, number[]>();
+    for (const r of rec) if (typeof r.velocity_m_s === 'number' && r.status === 'ok') {
+      (byClass.get(String(r.class)) ?? byClass.set(String(r.class), []).get(String(r.class))!).push(r.velocity_m_s);
+    }
+    for (const [c, v] of byClass) {
+      const lo = Math.min(...v), hi = Math.max(...v);
+      head.push(`conduction velocity ${escapeHtml(c)}: ${formatCell(lo)}${hi > lo ? `-${formatCell(hi)}` : ''} m/s `
+        + `(recommended estimator, ${plural(v.length, 'estimate')})`);
+    }
+  }
+  for (const r of t.dose_response_summary) if (typeof r.ic50 === 'number') {
+    head.push(`IC<sub>50</sub> ${escapeHtml(r.class)}: ${formatCell(r.ic50)} ${escapeHtml(r.concentrationUnit ?? '')} `
+      + `(95% CI ${formatCell(r.ic50_ci95_low)}-${formatCell(r.ic50_ci95_high)}), Hill slope ${formatCell(r.hill)}`);
+  }
+  for (const r of t.temperature) if (typeof r.q10 === 'number') {
+    head.push(`Q<sub>10</sub> ${escapeHtml(r.class)} (${escapeHtml(r.measure ?? '')}): ${formatCell(r.q10)} `
+      + `(95% CI ${formatCell(r.q10_ci95_low)}-${formatCell(r.q10_ci95_high)})`);
+  }
+  const li = (xs: string[]) => `<ul>${xs.map((x) => `<li>${x}</li>`).join('')}</ul>`;
+  return li(items) + (head.length ? `<h3>Main results</h3>${li(head)}` : '');
+}
+
+/** Per-preparation results: recommended velocities, recruitment, dose-response fits, flag count. */
+function perPreparationHtml(study: Study): string {
+  const t = study.tables;
+  const preps = [...new Set(t.components.map((r) => String(r.preparation ?? '')))].sort();
+  const of = (rows: readonly Row[], p: string) => rows.filter((r) => String(r.preparation ?? '') === p);
+  const parts: string[] = [];
+  for (const p of preps) {
+    const v = of(t.velocity, p).filter((r) => r.recommended === true);
+    const rc = of(t.recruitment, p);
+    const dr = of(t.dose_response_per_preparation, p);
+    const fl = of(t.flags, p);
+    const sec = [`<h3 id="prep-${escapeHtml(anchor(p))}">Preparation ${escapeHtml(p)}</h3>`];
+    if (v.length) {
+      const cols = ['class', 'method', 'basis', 'temperatureC', 'concentration', 'velocity_m_s', 'ci95_low_m_s',
+        'ci95_high_m_s', 'n', 'status', 'reason'];
+      sec.push(tableHtml(pick(v, cols), { caption: 'Conduction velocity (recommended estimator)', sortable: true }));
+    }
+    if (rc.length) {
+      const cols = ['class', 'distanceMm', 'temperatureC', 'intensityUnit', 'threshold', 'i50', 'i50_ci95_low',
+        'i50_ci95_high', 'maximum', 'status'];
+      sec.push(tableHtml(pick(rc, cols), { caption: 'Recruitment', sortable: true }));
+    }
+    if (dr.length) sec.push(tableHtml(dr, { caption: 'Dose-response fits', sortable: true }));
+    sec.push(`<p>${fl.length ? `<a href="#table-flags">${plural(fl.length, 'flag')}</a>` : 'no flags'} `
+      + `for this preparation.</p>`);
+    parts.push(sec.join('\n'));
+  }
+  return parts.join('\n') || '<p>No preparations.</p>';
+}
+
+/** Why a table is empty: the study's notes about its analysis, or a plain statement. */
+function emptyReason(study: Study, name: string): string {
+  const a = TABLE_ANALYSIS[name];
+  const notes = a ? study.notes.filter((n) => n.startsWith(`${a}:`) || n.includes(` ${a}:`)) : [];
+  return notes.length ? notes.map(escapeHtml).join('; ') : 'the analysis had no data in this study';
+}
+
+function tablesHtml(study: Study, bundle: boolean): { html: string; toc: string[] } {
+  const toc: string[] = [];
+  const parts: string[] = [];
+  for (const [name, rows] of Object.entries(study.tables) as [string, Row[]][]) {
+    if (name === 'flags') continue;
+    const id = `table-${anchor(name)}`;
+    const title = TABLE_TITLES[name] ?? name;
+    const file = bundle ? ` (<a href="tables/${escapeHtml(name)}.csv">CSV</a>, <a href="tables/${escapeHtml(name)}.json">JSON</a>)` : '';
+    toc.push(`<a href="#${id}">${escapeHtml(title)}</a>`);
+    if (!rows.length) {
+      parts.push(`<section id="${id}"><h3>${escapeHtml(title)}</h3><p>No rows: ${emptyReason(study, name)}.</p></section>`);
+      continue;
+    }
+    const table = tableHtml(rows, { sortable: true, maxRows: 2000 });
+    const body = BULK.has(name)
+      ? `<details class="bulk"><summary>${plural(rows.length, 'row')}: show</summary>${table}</details>`
+        + `<p class="print-note">${plural(rows.length, 'row')}; not printed${bundle ? `: see tables/${escapeHtml(name)}.csv` : ''}.</p>`
+      : table;
+    parts.push(`<section id="${id}"><h3>${escapeHtml(title)}</h3><p class="meta">${plural(rows.length, 'row')}${file}; `
+      + 'click a column header to sort.</p>' + body + '</section>');
+  }
+  return { html: parts.join('\n'), toc };
+}
+
+function flagsHtml(study: Study): string {
+  const f = study.tables.flags;
+  if (!f.length) return '<p>No flags: every estimate was made and passed its checks.</p>';
+  const by = count(f, 'severity');
+  return `<p>${[...by].map(([k, n]) => `${n} ${escapeHtml(k)}`).join(', ')}. Rejected: the estimate could not be made; `
+    + 'not measured: there was nothing to measure; warning: the estimate was made but may be wrong.</p>'
+    + tableHtml(f, { sortable: true, maxRows: 2000 });
+}
+
+function figuresHtml(figures: readonly Figure[], bundle: boolean): { html: string; toc: string[] } {
+  const toc: string[] = [];
+  const html = figures.map((f, i) => {
+    const id = `figure-${i + 1}-${anchor(f.name)}`;
+    const title = plainTitle(f);
+    toc.push(`<a href="#${id}">Figure ${i + 1}: ${escapeHtml(title)}</a>`);
+    const link = bundle ? ` (<a href="figures/${escapeHtml(f.name)}.html">own page</a>)` : '';
+    return `<figure class="figure" id="${id}">${f.toHTML('page')}<figcaption>Figure ${i + 1}. ${escapeHtml(title)}${link}</figcaption></figure>`;
+  }).join('\n');
+  return { html, toc };
+}
+
+/** The report as one HTML page (see ReportInput for where plotly.js comes from). */
+export function reportHtml(input: ReportInput): string {
+  if (!input || typeof input !== 'object') throw new OptionError('reportHtml: expected { study, methods, provenance }');
+  checkKeys('reportHtml input', input, INPUT_KEYS);
+  const { study, methods, provenance } = input;
+  if (!study || !study.tables) throw new OptionError('reportHtml: "study" must be a study (from combineStudy or runStudy)');
+  if (typeof methods !== 'string') throw new OptionError('reportHtml: "methods" must be the methods text (a string)');
+  if (!provenance || typeof provenance !== 'object') throw new OptionError('reportHtml: "provenance" must be a provenance object');
+  const bundle = input.bundle === true;
+  const figures = input.figures ?? studyFigureList(study);
+  const title = input.title ?? studyName(study) ?? 'Study report';
+  const figs = figuresHtml(figures, bundle);
+  const tabs = tablesHtml(study, bundle);
+  const notes = study.notes.length
+    ? `<ul>${study.notes.map((n) => `<li>${escapeHtml(n)}</li>`).join('')}</ul>`
+    : '<p>No notes.</p>';
+  const files = bundle
+    ? '<p class="meta">Files of this bundle: <a href="methods.txt">methods.txt</a>, <a href="provenance.json">provenance.json</a>, '
+      + '<a href="notes.txt">notes.txt</a>, tables under tables/, figures under figures/.</p>'
+    : '';
+  const toc = [
+    '<a href="#summary">Summary</a>',
+    '<a href="#preparations">Results per preparation</a>',
+    `<a href="#figures">Figures</a>${figs.toc.length ? `<ol>${figs.toc.map((x) => `<li>${x}</li>`).join('')}</ol>` : ''}`,
+    `<a href="#tables">Tables</a>`,
+    '<a href="#flags">Flags, warnings and notes</a>',
+    '<a href="#methods">Methods</a>',
+    '<a href="#provenance">Provenance</a>',
+  ];
+  let plotly = '';
+  if (figures.length) {
+    // an AMD loader on the page (a notebook's require.js) would take plotly.js as a module: hide it while it runs
+    const inline = `<script>${plotlyJs().replace(/<\/(script)/gi, '<\\/$1')}</script>`;
+    plotly = bundle
+      ? '<script src="plotly.min.js"></script>'
+      : `<script>window.__fascicleDefine=window.define;window.define=undefined;</script>${inline}`
+        + '<script>window.define=window.__fascicleDefine;</script>';
+  }
+  const inputs = (provenance.inputs ?? []).map((s) => ({ path: s.path, bytes: s.bytes, sha256: s.sha256, partOf: s.partOf ?? '' }));
+  const steps = (provenance.steps ?? []).map((s, i) => ({ step: i + 1, verb: s.verb, version: s.version, options: JSON.stringify(s.options) }));
+  return `<!doctype html>
+<html lang="en"><head><meta charset="utf-8"><meta name="generator" content="fascicle ${escapeHtml(VERSION)}">
+<meta name="viewport" content="width=device-width, initial-scale=1"><title>${escapeHtml(title)}</title>
+<style>${CSS}</style>${plotly}</head><body><main class="fascicle-report">
+<h1>${escapeHtml(title)}</h1>
+<p class="meta">Study report written by fascicle ${escapeHtml(provenance.version ?? VERSION)} (Node ${escapeHtml(provenance.node ?? '')}).</p>
+${files}
+<nav><h2>Contents</h2><ol>${toc.map((x) => `<li>${x}</li>`).join('')}</ol></nav>
+<section id="summary"><h2>Summary</h2>${summaryHtml(study, figures)}</section>
+<section id="preparations"><h2>Results per preparation</h2>${perPreparationHtml(study)}</section>
+<section id="figures"><h2>Figures</h2>${figs.html || '<p>No figures.</p>'}</section>
+<section id="tables"><h2>Tables</h2><ol class="screen-only">${tabs.toc.map((x) => `<li>${x}</li>`).join('')}</ol>${tabs.html}</section>
+<section id="flags"><h2>Flags, warnings and notes</h2><h3 id="table-flags">Flags</h3>${flagsHtml(study)}<h3>Notes</h3>${notes}</section>
+<section id="methods"><h2>Methods</h2><pre class="methods">${escapeHtml(methods.trim())}</pre></section>
+<section id="provenance"><h2>Provenance</h2>
+<p>fascicle ${escapeHtml(provenance.version)}, Node ${escapeHtml(provenance.node)}${provenance.paths ? `; ${escapeHtml(provenance.paths)}` : ''}.</p>
+${provenance.rerun ? `<p>Rerun with manifest <code>${escapeHtml(provenance.rerun.manifest)}</code>${provenance.rerun.shard ? ` (shard ${escapeHtml(provenance.rerun.shard)})` : ''}.</p>` : ''}
+<h3>Inputs (SHA-256)</h3>${tableHtml(inputs, { sortable: true, maxRows: 5000 })}
+<h3>Processing steps</h3>${tableHtml(steps, { maxRows: 5000 })}
+<details class="screen-only"><summary>provenance.json</summary><pre class="provenance">${escapeHtml(JSON.stringify(provenance, null, 1))}</pre></details>
+</section>
+</main></body></html>
+`;
+}
+
+/**
+ * Write `report.html` into the folder `dir` (made if missing), plotly.js inlined once (a
+ * stand-alone page). A report.html that fascicle did not write is never replaced.
+ * Returns the path written.
+ * @throws OutputError when the file is refused or cannot be written.
+ */
+export function writeReportHtml(dir: string, input: Omit<ReportInput, 'bundle'>): string {
+  const path = join(resolve(dir), 'report.html');
+  if (existsSync(path)) {
+    let ours = false;
+    try {
+      ours = /<meta name="generator" content="fascicle /.test(readFileSync(path, 'utf8').slice(0, 400));
+    } catch { /* unreadable: not ours */ }
+    if (!ours) {
+      throw new OutputError(path, `refusing to write ${path}: a report.html that fascicle did not write is there; `
+        + 'give another folder, or move that file away yourself', { refused: true });
+    }
+  }
+  const html = reportHtml({ ...input, bundle: false });
+  try {
+    mkdirSync(resolve(dir), { recursive: true });
+    writeFileSync(path, html);
+  } catch (e) {
+    throw new OutputError(path, `cannot write ${path}: ${systemReason(e)}`, { refused: false, code: (e as NodeJS.ErrnoException).code });
+  }
+  return path;
+}
+
+/** Show the report in a notebook cell (plotly.js inlined once); outside a notebook, print its summary. */
+export function showReport(input: Omit<ReportInput, 'bundle'>): void {
+  const html = reportHtml({ ...input, bundle: false });
+  // the page's style (scoped to .fascicle-report), plotly.js and its main element, without html/head/body
+  const body = html.slice(html.indexOf('<style>'), html.lastIndexOf('</body>')).replace('</head><body>', '')
+    .replace('body{margin:0}', '');
+  const text = `Study report: ${input.study.tables.components.length} component rows, ${input.study.tables.flags.length} flags, `
+    + `${(input.figures ?? studyFigureList(input.study)).length} figures; call writeReportHtml(dir, input) for the page`;
+  displayHtml(body, text);
+}
