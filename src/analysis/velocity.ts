@@ -104,6 +104,19 @@ function pick(r: Record<string, ConditionValue>, keys: string[]): Record<string,
 /** a row was measured (detected, and resolved when the table says so) */
 export const measured = (r: ComponentRow): boolean => r.detected === true && (r.status === undefined || r.status === null || r.status === 'measured');
 
+/** Why rows were not measured, in words: their statuses (and the commonest reason) with counts. */
+function whyNot(rows: readonly ComponentRow[]): string {
+  const not = rows.filter((r) => !measured(r));
+  if (!not.length) return '';
+  const by = new Map<string, number>();
+  for (const r of not) {
+    const k = String(r.status ?? (r.detected ? 'measured' : 'not detected')) + (r.reason ? `: ${r.reason}` : '');
+    by.set(k, (by.get(k) ?? 0) + 1);
+  }
+  const top = [...by].sort((a, b) => b[1] - a[1]).slice(0, 2).map(([k, n]) => `${n} x ${k}`);
+  return ` (${top.join('; ')}${by.size > 2 ? '; ...' : ''})`;
+}
+
 function groupRows(rows: readonly ComponentRow[], id: (r: ComponentRow) => string): Map<string, ComponentRow[]> {
   const groups = new Map<string, ComponentRow[]>();
   for (const r of rows) {
@@ -157,7 +170,7 @@ export function singleSiteVelocity(rows: readonly ComponentRow[], by: string[], 
       const base = { method: 'single-site' as const, basis: d.basis, definition: d.definition, latency_column: d.column, class: cls, group: key(r0, by), ...pick(r0, by), distance_mm: (r0.distance_mm ?? r0.distanceMm ?? null) as number | null };
       const vals = ok.map((r) => r[d.column]).filter((t): t is number => typeof t === 'number').map((t) => (base.distance_mm as number) / (t - util));
       if (!vals.length) {
-        out.push({ ...base, velocity_m_s: null, ci95_low_m_s: null, ci95_high_m_s: null, sd_m_s: null, n: 0, status: 'not detected', reason: `${cls} not measured in any of ${g.length} sweeps` });
+        out.push({ ...base, velocity_m_s: null, ci95_low_m_s: null, ci95_high_m_s: null, sd_m_s: null, n: 0, status: 'not detected', reason: `${cls} not measured in any of ${g.length} sweeps${whyNot(g)}` });
         continue;
       }
       const s = summarize(vals);
@@ -196,7 +209,7 @@ export function regressionVelocity(rows: readonly ComponentRow[], by: string[], 
       const ok = okRows.filter((r) => typeof r[d.column] === 'number');
       const okDists = new Set(ok.map((r) => r.distance_mm as number));
       if (okDists.size < 2) {
-        out.push({ ...base, velocity_m_s: null, ci95_low_m_s: null, ci95_high_m_s: null, n: ok.length, status: 'not detected', reason: `${cls} measured at ${okDists.size} of ${dists.size} distances (${ok.length} of ${g.length} sweeps); a regression needs two` });
+        out.push({ ...base, velocity_m_s: null, ci95_low_m_s: null, ci95_high_m_s: null, n: ok.length, status: 'not detected', reason: `${cls} measured at ${okDists.size} of ${dists.size} distances (${ok.length} of ${g.length} sweeps); a regression needs two${whyNot(g)}` });
         continue;
       }
       const x = ok.map((r) => r.distance_mm as number);
@@ -335,7 +348,7 @@ export function twoSiteVelocity(set: SweepSet, rows: readonly ComponentRow[], me
         const why = bad.size ? [...bad].map(([w, c]) => `${c} pair(s): ${w}`).join('; ') : null;
         if (!delays.length) {
           const none = both.length === 0 || excluded === 0;
-          const what = both.length === 0 ? `${cls} measured at both sites in none of ${pairs.length} pair(s) of sweeps`
+          const what = both.length === 0 ? `${cls} measured at both sites in none of ${pairs.length} pair(s) of sweeps${whyNot(pairs.flat())}`
             : `${cls} measured at both sites in ${both.length} of ${pairs.length} pair(s) of sweeps, but its ${d ? `${d.definition} latency` : 'component'} in none of them`;
           out.push({
             ...base, velocity_m_s: null, ci95_low_m_s: null, ci95_high_m_s: null, delay_ms: null, n: 0, excluded_pairs: excluded,
