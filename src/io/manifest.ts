@@ -57,7 +57,7 @@ export const ANALYSIS_KEYS: Readonly<Record<string, readonly string[] | 'boolean
   poolSites: 'boolean',
   components: [
     'preset', 'classes', 'distanceMm', 'temperatureC', 'q10', 'utilisationMs', 'k', 'polarity', 'noiseWindow', 'tailFraction', 'tailMs',
-    'earliestMs', 'onsetFraction', 'centroidFraction', 'separation', 'decomposeBy',
+    'earliestMs', 'onsetFraction', 'centroidFraction', 'separation', 'decomposeBy', 'referenceDistanceMm',
   ],
   doseResponse: ['measure', 'lastN', 'runDown', 'fixBottom', 'bootstrap', 'seed', 'classes', 'poolSites', 'minConcentrations', 'maxLatencyShift'],
   recruitment: ['measure', 'by', 'supramaximalFactor', 'minLevels'],
@@ -70,6 +70,44 @@ const OPTIONAL_STEPS = ['baseline', 'artifact', 'hum', 'filter'];
 const LIST_STEPS = ['artifact'];
 /** Values of the `series` condition that the standard pipeline recognises. */
 export const SERIES = ['intensity', 'distance', 'dose', 'temperature', 'pulse-width'] as const;
+/**
+ * Values of analysis options that the pipeline uses inside analyses it flags instead of stopping
+ * (a bad value there would become a flag, not a configuration error), and the per-class polarity:
+ * checked here so the mistake names the manifest field. Other values are checked by their verb.
+ */
+const isInt = (min: number) => (v: unknown) => Number.isInteger(v) && (v as number) >= min;
+const isPolarity = (v: unknown) => v === 1 || v === -1 || v === 'auto';
+const isStrings = (v: unknown) => Array.isArray(v) && v.every((x) => typeof x === 'string');
+export const ANALYSIS_VALUES: Readonly<Record<string, readonly [(v: unknown) => boolean, string]>> = {
+  'components/polarity': [
+    (v) => isPolarity(v) || (v !== null && typeof v === 'object' && !Array.isArray(v) && Object.values(v).every(isPolarity)),
+    '1, -1, "auto", or an object of class name -> 1, -1 or "auto" (e.g. { "C": -1 })',
+  ],
+  'doseResponse/measure': [(v) => typeof v === 'string', 'a column name of the components table'],
+  'doseResponse/lastN': [isInt(1), 'an integer >= 1'],
+  'doseResponse/runDown': [(v) => v === 'none' || v === 'washout' || v === 'vehicle', '"none", "washout" or "vehicle"'],
+  'doseResponse/fixBottom': [(v) => v === null || (typeof v === 'number' && Number.isFinite(v)), 'a number or null'],
+  'doseResponse/bootstrap': [isInt(0), 'an integer >= 0 (resamples)'],
+  'doseResponse/seed': [(v) => Number.isInteger(v), 'an integer'],
+  'doseResponse/classes': [isStrings, 'a list of class names'],
+  'doseResponse/poolSites': [(v) => typeof v === 'boolean', 'true or false'],
+  'doseResponse/minConcentrations': [isInt(2), 'an integer >= 2'],
+  'doseResponse/maxLatencyShift': [
+    (v) => v === null || (typeof v === 'number' && v > 0 && Number.isFinite(v)),
+    'a number > 0 (a fraction of the baseline latency) or null',
+  ],
+  'recruitment/measure': [(v) => typeof v === 'string', 'a column name of the components table'],
+  'recruitment/by': [isStrings, 'a list of condition names'],
+  'recruitment/supramaximalFactor': [
+    (v) => typeof v === 'number' && v >= 1 && Number.isFinite(v),
+    'a number >= 1 (supramaximal = this x I95)',
+  ],
+  'recruitment/minLevels': [isInt(3), 'an integer >= 3 (a sigmoid has 4 parameters)'],
+  'strengthDuration/measure': [(v) => typeof v === 'string', 'a column name of the components table'],
+  'strengthDuration/by': [isStrings, 'a list of condition names'],
+  'strengthDuration/fraction': [(v) => typeof v === 'number' && v >= 0.05 && v <= 0.95, 'a number from 0.05 to 0.95'],
+  'temperature/measure': [(v) => typeof v === 'string', 'a column name of the components table'],
+};
 /** Deepest nesting a manifest may have (far beyond any real one; guards the writers' recursion). */
 export const MANIFEST_MAX_DEPTH = 32;
 
@@ -139,7 +177,15 @@ export function checkManifestKeys(m: unknown, file: string): void {
       if (typeof v !== 'boolean') throw new ConfigError({ file, field: `/analysis/${step}` }, `is ${shown(v)}`, 'true or false');
     } else if (Array.isArray(v) && LIST_STEPS.includes(step)) {
       v.forEach((x, i) => checkObjectKeys(file, `/analysis/${step}/${i}`, x, keys));
-    } else checkObjectKeys(file, `/analysis/${step}`, v, keys);
+    } else {
+      checkObjectKeys(file, `/analysis/${step}`, v, keys);
+      for (const [k, x] of Object.entries(v as object)) {
+        const check = ANALYSIS_VALUES[`${step}/${k}`];
+        if (check && !check[0](x)) {
+          throw new ConfigError({ file, field: `/analysis/${step}/${k}` }, `is ${shown(x)}`, check[1]);
+        }
+      }
+    }
   }
   const comp = a?.components as Record<string, unknown> | undefined;
   if (comp && typeof comp.preset === 'string' && !Object.hasOwn(PRESETS, comp.preset)) {

@@ -1,0 +1,221 @@
+// Drift between the manifest reader (src/io/manifest.ts) and what it configures: every key the
+// standard pipeline takes (PIPELINE_OPTION_KEYS, the PipelineOptions interface and the option
+// interface of each step it names), every key a verb accepts at run time, every key of each
+// step's exported defaults object, the series names the pipeline looks for, and the JSON Schema.
+// The references are the other modules' own source and behaviour, read here; nothing is copied.
+import { describe, it, expect, afterAll } from 'vitest';
+import { readFileSync, writeFileSync, mkdtempSync, rmSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join, resolve, dirname } from 'node:path';
+import { ANALYSIS_KEYS, ANALYSIS_VALUES, MANIFEST_KEYS, FILE_KEYS, SERIES, readManifest } from '../../src/io/manifest';
+import { ConfigError } from '../../src/errors';
+import { PIPELINE_OPTION_KEYS } from '../../src/report/pipeline';
+import { SweepSet } from '../../src';
+
+const root = join(__dirname, '..', '..');
+const pipelinePath = join(root, 'src', 'report', 'pipeline.ts');
+
+/** Source text without comments (block and line comments; strings with // are not expected in type declarations). */
+function code(path: string): string {
+  return readFileSync(path, 'utf8').replace(/\/\*[\s\S]*?\*\//g, '').replace(/(^|[^:'"])\/\/.*$/gm, '$1');
+}
+
+/** The text between the braces that open at index `open` (which holds '{'). */
+function braced(src: string, open: number): string {
+  let depth = 0;
+  for (let i = open; i < src.length; i++) {
+    if (src[i] === '{') depth++;
+    else if (src[i] === '}' && --depth === 0) return src.slice(open + 1, i);
+  }
+  throw new Error(`unbalanced braces from ${open}`);
+}
+
+/** Member name -> type text of an object type body (top level only). */
+function members(body: string): Map<string, string> {
+  const out = new Map<string, string>();
+  let depth = 0, start = 0;
+  const parts: string[] = [];
+  for (let i = 0; i < body.length; i++) {
+    const ch = body[i];
+    if ('{[(<'.includes(ch)) depth++;
+    else if ('}])>'.includes(ch) && body[i - 1] !== '=') depth--;
+    else if (ch === ';' && depth === 0) { parts.push(body.slice(start, i)); start = i + 1; }
+  }
+  parts.push(body.slice(start));
+  for (const p of parts) {
+    const m = /^\s*(?:readonly\s+)?([A-Za-z_$][\w$]*)\??\s*:\s*([\s\S]*)$/.exec(p);
+    if (m) out.set(m[1], m[2].trim());
+  }
+  return out;
+}
+
+/** The members of `export interface name` in a source file (own members; an `extends` clause fails the test). */
+function interfaceMembers(path: string, name: string): Map<string, string> {
+  const src = code(path);
+  const m = new RegExp(`export interface ${name}\\b([^{]*)\\{`).exec(src);
+  if (!m) throw new Error(`interface ${name} not found in ${path}`);
+  expect(m[1].trim(), `${name} extends another interface: read its members too`).toBe('');
+  return members(braced(src, m.index + m[0].length - 1));
+}
+
+/** Where pipeline.ts imports each type name from (absolute .ts paths). */
+function importsOf(path: string): Map<string, string> {
+  const out = new Map<string, string>();
+  for (const m of code(path).matchAll(/import\s+(?:type\s+)?\{([^}]*)\}\s+from\s+'([^']+)'/g)) {
+    for (const n of m[1].split(',')) {
+      const name = n.trim().replace(/^type\s+/, '').split(/\s+as\s+/).pop()!.trim();
+      if (name) out.set(name, resolve(dirname(path), m[2]) + '.ts');
+    }
+  }
+  return out;
+}
+
+const pipelineMembers = interfaceMembers(pipelinePath, 'PipelineOptions');
+const imports = importsOf(pipelinePath);
+
+/** Each pipeline step: its option keys from its interface (or inline object type), or 'boolean'; and its module. */
+function stepKeys(step: string): { keys: string[] | 'boolean'; module: string | null; typeName: string | null } {
+  const type = pipelineMembers.get(step)!;
+  if (/^boolean$/.test(type)) return { keys: 'boolean', module: null, typeName: null };
+  if (type.startsWith('{')) return { keys: [...members(braced(type, 0)).keys()], module: null, typeName: null };
+  const typeName = /([A-Z]\w*Options)\b/.exec(type)?.[1];
+  if (!typeName) throw new Error(`PipelineOptions.${step}: cannot read the type ${type}`);
+  const module = imports.get(typeName);
+  if (!module) throw new Error(`PipelineOptions.${step}: ${typeName} is not imported in pipeline.ts`);
+  return { keys: [...interfaceMembers(module, typeName).keys()], module, typeName };
+}
+
+const sorted = (a: readonly string[]) => [...a].sort();
+const manifestList = (step: string): readonly string[] => {
+  const v = ANALYSIS_KEYS[step];
+  return v === 'boolean' ? [] : v;
+};
+
+/** The keys a verb accepts at run time: the list in its "unknown key" error for a key no verb has. */
+function acceptedAtRunTime(call: (o: Record<string, unknown>) => unknown, base: Record<string, unknown> = {}): string[] {
+  try {
+    call({ ...base, zzProbeKey: 1 });
+  } catch (e) {
+    const m = /unknown key "zzProbeKey" in [^;]*; valid keys: (.*)$/.exec((e as Error).message);
+    if (m) return m[1].split(', ').map((s) => s.trim());
+    throw new Error(`no key list in the error: ${(e as Error).message}`);
+  }
+  throw new Error('an unknown key was accepted');
+}
+
+// a small set the verbs can run on (values do not matter: the key check comes first)
+const fs = 20000, n = 200;
+const set = new SweepSet({
+  data: Float64Array.from({ length: 2 * n }, (_, i) => Math.sin(i / 7)), nSweeps: 2, nSamples: n, fs, t0Ms: -2, units: 'uV',
+  conditions: [{ preparation: 'P', distanceMm: 20 }, { preparation: 'P', distanceMm: 30 }],
+});
+
+describe('manifest analysis keys follow the pipeline (drift test)', () => {
+  it('top-level keys: ANALYSIS_KEYS = PIPELINE_OPTION_KEYS = the members of PipelineOptions', () => {
+    expect(sorted(Object.keys(ANALYSIS_KEYS))).toEqual(sorted(PIPELINE_OPTION_KEYS));
+    expect(sorted([...pipelineMembers.keys()])).toEqual(sorted(PIPELINE_OPTION_KEYS));
+  });
+  it.each([...PIPELINE_OPTION_KEYS])('%s: the manifest accepts exactly the keys of its option type', (step) => {
+    const { keys } = stepKeys(step);
+    if (keys === 'boolean') expect(ANALYSIS_KEYS[step]).toBe('boolean');
+    else {
+      expect(ANALYSIS_KEYS[step]).not.toBe('boolean');
+      expect(sorted(manifestList(step)), `${step}: manifest list vs its option type`).toEqual(sorted(keys));
+    }
+  });
+  it('verbs that check keys at run time accept exactly what the manifest accepts', () => {
+    const runTime: Record<string, string[]> = {
+      baseline: acceptedAtRunTime((o) => set.baseline(o as never)),
+      artifact: acceptedAtRunTime((o) => set.removeArtifact(o as never), { method: 'blank' }),
+      hum: acceptedAtRunTime((o) => set.removeHum(o as never)),
+      filter: acceptedAtRunTime((o) => set.filter(o as never)),
+      components: acceptedAtRunTime((o) => set.components(o as never)),
+    };
+    for (const [step, keys] of Object.entries(runTime)) expect(sorted(manifestList(step)), step).toEqual(sorted(keys));
+  });
+  it('every key of a step\'s exported defaults object is accepted, unless the step does not take it as an option', async () => {
+    // defaults keys that are constants of the method, not options (checked below to be no option)
+    const internal: Record<string, string[]> = {
+      baseline: ['stopBeforeStimulusMs'], recruitment: ['thresholdFraction'], strengthDuration: ['minWidths'],
+    };
+    let seen = 0;
+    for (const step of PIPELINE_OPTION_KEYS) {
+      const { keys, module } = stepKeys(step);
+      if (!module || keys === 'boolean') continue;
+      const mod = (await import(module)) as Record<string, unknown>;
+      const name = [`${step}Defaults`, `${step.replace(/s$/, '')}Defaults`].find((x) => x in mod);
+      if (!name) continue;
+      seen++;
+      for (const k of Object.keys(mod[name] as object)) {
+        if ((internal[step] ?? []).includes(k)) {
+          expect(keys, `${name}.${k} is listed as internal here but is an option of ${step}: add it to the manifest`).not.toContain(k);
+          continue;
+        }
+        expect(manifestList(step), `${name}.${k}`).toContain(k);
+      }
+    }
+    expect(seen).toBeGreaterThanOrEqual(6); // baseline, artifact, hum, filter, component, doseResponse, recruitment, ...
+    // the internal ones are refused by a verb that checks keys
+    expect(() => set.baseline({ stopBeforeStimulusMs: 0.1 } as never)).toThrow(/unknown key "stopBeforeStimulusMs"/);
+  });
+  it('SERIES holds exactly the series names the pipeline and study look for, and the schema the same', () => {
+    const found = new Set<string>();
+    for (const f of ['pipeline.ts', 'study.ts']) {
+      const src = code(join(root, 'src', 'report', f));
+      for (const re of [/\bhas\('([\w-]+)'\)/g, /hasSeries\([^,]+,\s*'([\w-]+)'\)/g, /series\s*[!=]==\s*'([\w-]+)'/g, /series:\s*'([\w-]+)'/g]) {
+        for (const m of src.matchAll(re)) found.add(m[1]);
+      }
+    }
+    expect(sorted([...found])).toEqual(sorted(SERIES));
+    const schema = JSON.parse(readFileSync(join(root, 'schema', 'manifest.schema.json'), 'utf8'));
+    const text = JSON.stringify(schema);
+    const enums = [...text.matchAll(/"series":\{"enum":(\[[^\]]*\])/g)].map((m) => JSON.parse(m[1]) as (string | null)[]);
+    expect(enums.length).toBeGreaterThan(0);
+    for (const e of enums) expect(sorted(e.filter((x): x is string => x !== null))).toEqual(sorted(SERIES));
+  });
+  it('top-level and file keys equal the JSON Schema\'s properties', () => {
+    const schema = JSON.parse(readFileSync(join(root, 'schema', 'manifest.schema.json'), 'utf8'));
+    expect(sorted(Object.keys(schema.properties))).toEqual(sorted(MANIFEST_KEYS));
+    expect(sorted(Object.keys(schema.properties.files.items.properties))).toEqual(sorted(FILE_KEYS));
+  });
+});
+
+describe('manifest values of options the pipeline uses inside flagged analyses', () => {
+  // a bad value there would otherwise become a "rejected" flag and exit 0; here it is a configuration error
+  const dir = mkdtempSync(join(tmpdir(), 'fascicle-drift-'));
+  afterAll(() => rmSync(dir, { recursive: true, force: true }));
+  writeFileSync(join(dir, 'a.csv'), 'time (ms),s1 (uV)\n0,1\n0.05,2\n0.1,3\n');
+  const load = (analysis: object) => {
+    const p = join(dir, 'm.json');
+    writeFileSync(p, JSON.stringify({ fascicleManifest: 1, analysis, files: [{ path: 'a.csv', conditions: { preparation: 'P1' } }] }));
+    try { readManifest(p); } catch (e) { return e as Error; }
+    return null;
+  };
+  it('every checked value belongs to a key the manifest accepts', () => {
+    for (const k of Object.keys(ANALYSIS_VALUES)) {
+      const [step, key] = k.split('/');
+      expect(manifestList(step), k).toContain(key);
+    }
+  });
+  it.each([
+    [{ doseResponse: { minConcentrations: 1 } }, '/analysis/doseResponse/minConcentrations: is 1; expected an integer >= 2'],
+    [{ doseResponse: { maxLatencyShift: 0 } }, '/analysis/doseResponse/maxLatencyShift: is 0; expected a number > 0'],
+    [{ doseResponse: { poolSites: 'yes' } }, '/analysis/doseResponse/poolSites: is "yes"; expected true or false'],
+    [{ recruitment: { minLevels: 2.5 } }, '/analysis/recruitment/minLevels: is 2.5; expected an integer >= 3'],
+    [{ components: { polarity: 2 } }, '/analysis/components/polarity: is 2; expected 1, -1, "auto"'],
+    [{ components: { polarity: { C: 'down' } } }, '/analysis/components/polarity: is {"C":"down"}'],
+    [{ poolSites: 1 }, '/analysis/poolSites: is 1; expected true or false'],
+  ])('%j is refused naming the field', (analysis, msg) => {
+    const e = load(analysis);
+    expect(e).toBeInstanceOf(ConfigError);
+    expect(e!.message).toContain(`m.json, field ${msg}`);
+  });
+  it('the documented forms load: polarity 1, -1, "auto" or per class; null latency shift; lists of artifact steps', () => {
+    for (const a of [
+      { components: { polarity: -1 } }, { components: { polarity: 'auto' } },
+      { components: { polarity: { 'A-alpha/beta': -1, C: 'auto' } } },
+      { doseResponse: { maxLatencyShift: null, minConcentrations: 3, poolSites: true }, recruitment: { minLevels: 5 }, poolSites: false },
+      { averageRepeats: false, artifact: [{ method: 'blank', window: [0, 0.1] }, { method: 'exponential' }] },
+    ]) expect(load(a), JSON.stringify(a)).toBeNull();
+  });
+});
