@@ -20,6 +20,9 @@ import type { ComponentOptions } from '../measure/components';
 import { signalFactor, type SignalUnit } from './units';
 import { runSweeps, shareCopy, sharedSamples } from '../parallel/pool';
 import type { Correction, Samples } from '../parallel/kernels';
+import { sweepQc, rejectFlagged, type SweepQcOptions, type SweepQcResult, type QcFlag } from '../analysis/sweepQc';
+import { sweepSetHtml, showSweepSet } from '../notebook/sweepSet';
+import type { NwbWriteOptions, NwbWriteResult } from '../io/nwbWrite';
 
 /** A condition value: numbers, strings, booleans or null (not recorded). */
 export type ConditionValue = string | number | boolean | null;
@@ -344,6 +347,43 @@ export class SweepSet implements Iterable<Float64Array> {
    */
   components(options: ComponentOptions = {}): ComponentTable {
     return new ComponentTable(this, options);
+  }
+
+  /**
+   * Quality control of every sweep (run it on raw sweeps): noise, drift, amplifier rails, artifact size and a
+   * robust outlier score against the sweep's condition; a flag and reasons per sweep. Nothing is removed.
+   * @example set.qc().show()
+   */
+  qc(options: SweepQcOptions = {}): SweepQcResult {
+    return sweepQc(this, options);
+  }
+
+  /**
+   * Remove the sweeps a quality control flagged (every flag, or only `flags`); each removed sweep is recorded
+   * with its reasons in the history (and so in the methods text).
+   * @example set.rejectFlagged(set.qc(), { flags: ['saturated', 'flat'] })
+   */
+  rejectFlagged(qc: SweepQcResult = this.qc(), options: { flags?: QcFlag[] } = {}): SweepSet {
+    return rejectFlagged(this, qc, options);
+  }
+
+  /**
+   * Write the sweeps, their conditions (trials table), electrodes and history to an NWB 2.x file (atomic).
+   * @example await set.toNwb('out/prep1.nwb')
+   */
+  async toNwb(path: string, options: NwbWriteOptions = {}): Promise<NwbWriteResult> {
+    const { writeNwb } = await import('../io/nwbWrite');
+    return writeNwb(this, path, options);
+  }
+
+  /** An HTML summary (sweeps, conditions, sampling rate, history) for notebooks. */
+  toHTML(): string {
+    return sweepSetHtml(this);
+  }
+
+  /** Show the HTML summary in a notebook (tslab), or print the text summary elsewhere. */
+  show(): void {
+    showSweepSet(this);
   }
 
   /** Group sweeps by condition keys; call `.average()` on the result. */
