@@ -2,6 +2,7 @@
 import type { Step } from '../sweeps/SweepSet';
 import { VERSION } from '../version';
 import { FIBRE_RANGE_M_S, NEGATIVE_UTILISATION_FRACTION, MIN_DELAY_SAMPLES } from '../analysis/velocity';
+import { latencyMethodsText } from '../measure/components';
 
 const REFS: Record<string, string> = {
   butterworth: 'Butterworth S (1930) On the theory of filter amplifiers. Wireless Engineer 7:536-541.',
@@ -74,7 +75,12 @@ export function methodsText(history: readonly Step[], extra: { files?: number; p
         break;
       case 'components': {
         const cls = (o.classes as { name: string; velocity: number[] }[]).map((c) => `${c.name} ${c.velocity[0]}-${c.velocity[1]} m/s`).join(', ');
-        s.push(`Fiber-class components were identified in latency windows computed from the conduction distance and the velocity ranges of each class (${cls}; ${o.presetSource}), scaled to the bath temperature with Q10 = ${o.q10} from ${o.refTemperatureC} C, with a utilisation time of ${o.utilisationMs} ms; each window's late end was extended by ${o.tailFraction} of its width (at least ${o.tailMs} ms). Where windows of neighbouring classes overlapped, the boundary was placed at the trough between the two components and the slower component was measured above a straight line from the trough to the level at the end of its window. Noise was estimated as 1.4826 times the median absolute deviation of ${fmtW(o.noiseWindow)} (Rousseeuw & Croux 1993); a component counted as present when its smoothed peak exceeded max(${o.k}, z) times the noise, with z the normal quantile at 1 - 0.01/N for a window of N samples (this test decides detection only). ${latencySentence(o)}`);
+        s.push(`Fiber-class components were identified in latency windows computed from the conduction distance and the velocity ranges of each class (${cls}; ${o.presetSource}), scaled to the bath temperature with Q10 = ${o.q10} from ${o.refTemperatureC} C, with a utilisation time of ${o.utilisationMs} ms; each window's late end was extended by ${o.tailFraction} of its width (at least ${o.tailMs} ms). Noise was estimated as 1.4826 times the median absolute deviation of ${fmtW(o.noiseWindow)} (Rousseeuw & Croux 1993).${o.separation !== undefined ? ` ${latencyMethodsText({ onsetFraction: Number(o.onsetFraction ?? 0.1), centroidFraction: Number(o.centroidFraction ?? 0.1), separation: o.separation, k: Number(o.k) })}` : ` Where windows of neighbouring classes overlapped, the boundary was placed at the trough between the two components and the slower component was measured above a straight line from the trough to the level at the end of its window; a component counted as present when its smoothed peak exceeded max(${o.k}, z) times the noise, with z the normal quantile at 1 - 0.01/N for a window of N samples (this test decides detection only). ${latencySentence(o)}`}`);
+        const pol = o.polarities as Record<string, number> | undefined, src = o.polaritySource as Record<string, string> | undefined;
+        if (pol && Object.keys(pol).length) {
+          const each = Object.entries(pol).map(([c, p]) => `${c} ${p === -1 ? 'negative' : 'positive'}${src?.[c] === 'option' ? ' (set by the user)' : ''}`).join(', ');
+          s.push(`Each class was measured on its main phase, chosen per class from the signal after the artifact unless set by the user: ${each}.`);
+        }
         refs.add(REFS.classes); refs.add(REFS.mad);
         break;
       }

@@ -140,7 +140,7 @@ describe('dose-response with run-down corrected by time-matched vehicle controls
 
 // ---- fits use only what was measured; no interval the data cannot support (issue 12, issue 14) ----
 // Synthetic rows with values chosen here (self-consistency and invariants; common practice, no source).
-import { recruitment, temperatureAnalysis, singleSiteVelocity, regressionVelocity, twoSiteVelocity, SweepSet, PRESETS, AnalysisError, averageRepeats, condition, runPipeline, computedCount, markRecommended } from '../../src';
+import { recruitment, temperatureAnalysis, singleSiteVelocity, regressionVelocity, twoSiteVelocity, SweepSet, PRESETS, AnalysisError, averageRepeats, condition, runPipeline, computedCount, markRecommended, methodsText } from '../../src';
 
 describe('fitTemperature: a status, and no interval the data cannot support', () => {
   const T = [20, 25, 30, 37];
@@ -371,5 +371,18 @@ describe('three recording sites', () => {
     expect(reg.velocity_m_s as number).toBeCloseTo(1.2, 6);
     const xa = markRecommended(v.map((r) => ({ ...r, class: 'A-delta', basis: 'xcorr' as const })), PRESETS.mammalian.classes);
     expect(xa.filter((r) => r.recommended).map((r) => `${r.near_mm}-${r.far_mm}`)).toEqual(['10-30']);
+  });
+});
+
+describe('methods text', () => {
+  it('names each latency definition, the main phase per class, the recommended estimators and the flags policy', () => {
+    const t = methodsText([
+      { verb: 'components', version: '', options: { classes: [{ name: 'A', velocity: [10, 20] }], presetSource: 's', q10: 1.4, refTemperatureC: 37, utilisationMs: 0, tailFraction: 0.5, tailMs: 0.5, noiseWindow: [-2, -0.1], k: 4, onsetFraction: 0.1, centroidFraction: 0.1, separation: 'auto', polarities: { A: -1 }, polaritySource: { A: 'option' } } },
+      { verb: 'averageRepeats', version: '', options: { method: 'mean', sweeps: 8, groups: 2 } },
+      { verb: 'velocity', version: '', options: { recommended: { fastest: { method: 'regression', basis: 'peak' }, unmyelinated: { method: 'regression', basis: 'centroid' }, other: { method: 'two-site', basis: 'xcorr' } } } },
+    ]);
+    for (const re of [/10% of its own peak/, /half-rise/, /peak latency/, /centroid latency/, /A negative \(set by the user\)/, /averaged \(mean\) before measuring \(8 sweeps into 2\)/,
+      /fastest class, the regression of peak latency on distance/, /unmyelinated classes, the regression of centroid latency/, /cross-correlation of its own component/,
+      /not reported as velocities but flagged with a reason/, /shorter than 2 sample intervals/]) expect(t).toMatch(re);
   });
 });
