@@ -33,7 +33,9 @@ export interface PipelineOptions {
   /**
    * average the repeats of each condition before measuring (sweeps whose conditions are equal
    * apart from `repeat`, `acquiredS` and the sweep's index in its file), when the sweeps have a `repeat` condition with more
-   * than one value (default true; false measures every sweep)
+   * than one value (default true; false measures every sweep). Averaged repeats leave one sweep per
+   * concentration, so the dose-response's `lastN` steady state then has nothing to choose from: with
+   * wash-in sweeps recorded as repeats, set false and let `lastN` pick the steady state
    */
   averageRepeats?: boolean;
   /** one dose-response and temperature curve over all recording sites instead of one per site (default false) */
