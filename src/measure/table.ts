@@ -11,6 +11,8 @@ import { doseResponse, type DoseResponseOptions, DoseResponseResult } from '../a
 import { recruitment, RecruitmentResult } from '../analysis/recruitment';
 import { strengthDuration, StrengthDurationResult, type StrengthDurationOptions } from '../analysis/strengthDuration';
 import { temperatureAnalysis, TemperatureResult } from '../analysis/temperature';
+import { compareGroups, type GroupOptions, type GroupComparison } from '../analysis/groups';
+import { mixedModel, type MixedOptions, type MixedModelResult } from '../analysis/mixed';
 
 /** Default grouping for velocity: the conditions that vary and are not per-sweep or per-distance. */
 function defaultBy(set: SweepSet): string[] {
@@ -147,6 +149,25 @@ export class ComponentTable extends Result {
       }
     }
     return temperatureAnalysis(this.rows, options, this.history, this.set.sources);
+  }
+
+  /**
+   * Compare groups (or conditions within preparations) with the preparation as the unit: values are averaged
+   * within each preparation first; Welch t / Mann-Whitney U / ANOVA between groups, paired t / repeated-measures
+   * ANOVA within, Holm and Benjamini-Hochberg adjusted p values.
+   * @example table.compareGroups({ value: 'amplitude_uV', group: 'group', by: ['class'] }).show()
+   */
+  compareGroups(options: GroupOptions): GroupComparison {
+    return compareGroups(this, options);
+  }
+
+  /**
+   * Linear mixed-effects model of a per-class measure against conditions with a random intercept per
+   * preparation (REML, Satterthwaite degrees of freedom).
+   * @example table.mixedModel({ value: 'amplitude_uV', fixed: ['group'], by: ['class'] }).show()
+   */
+  mixedModel(options: MixedOptions): MixedModelResult {
+    return mixedModel(this, options);
   }
 
   toHTML(): string {
