@@ -21,6 +21,9 @@ import { closeSync } from 'node:fs';
 import { allocSamples, lazySource, openInput, readInput } from './files';
 import { runSweeps, sharedSamples } from '../parallel/pool';
 import { VERSION } from '../version';
+import { asRead, float32Samples } from '../sweeps/storage';
+
+const NATIVE_LITTLE = new Uint8Array(new Uint16Array([1]).buffer)[0] === 1;
 
 export interface BinarySidecar {
   data: string;
@@ -115,19 +118,38 @@ export function readBinary(sidecarPath: string, extra: { conditions?: Conditions
   source.partOf = sidecarPath;
   const w = BYTES[meta.dtype];
   const expectBytes = nSweeps * nSamples * nCh * w;
-  let out: Float64Array;
+  let out: Float64Array | null = null;
+  // a native float32 file of one channel with gain 1 and offset 0 stays float32 as read (half the memory,
+  // no widening pass); every verb widens each value exactly where it uses it (src/sweeps/storage.ts)
+  let kept: Float32Array | null = null;
+  const asIs = meta.dtype === 'float32' && nCh === 1 && gain === 1 && offset === 0 && (order === 'little') === NATIVE_LITTLE;
   try {
     // the size is checked before anything is allocated, so a hostile sidecar cannot ask for terabytes
     if (stat.size !== expectBytes) {
       throw new InputError({ file: dataPath }, `the file has ${stat.size} bytes`, `${expectBytes} bytes = ${nSweeps} sweeps x ${nSamples} samples x ${nCh} channels x ${w} bytes (${meta.dtype}) from ${sidecarPath}`);
     }
-    out = allocSamples(nSweeps * nSamples, dataPath, `${nSweeps} sweeps x ${nSamples} samples`);
+    if (asIs) {
+      try {
+        kept = float32Samples(nSweeps * nSamples);
+      } catch (e) {
+        if (!(e instanceof RangeError)) throw e;
+        throw new InputError({ file: dataPath },
+          `${nSweeps} sweeps x ${nSamples} samples need ${(expectBytes / 2 ** 30).toPrecision(3)} GB of memory as 32-bit samples, which could not be allocated (${e.message})`,
+          'a recording that fits in memory (load part of it, or split the file)');
+      }
+    }
+    else out = allocSamples(nSweeps * nSamples, dataPath, `${nSweeps} sweeps x ${nSamples} samples`);
     // read and convert in chunks of about 2 MB per thread, sweeps split across threads
     const chunkSweeps = Math.max(1, Math.floor((1 << 21) / (nSamples * nCh * w)));
     let firstBad: number | undefined;
     try {
-      firstBad = runSweeps('load', { fd, dtype: meta.dtype, little: order === 'little', interleaved: layout === 'interleaved', nSamples, nChannels: nCh, channel: ch, gain, offset, out, chunkSweeps }, nSweeps, nSweeps * nSamples * nCh)
-        .find((i) => i >= 0);
+      const found = kept
+        ? runSweeps('loadAsRead', { fd, nSamples, out: kept, chunkSweeps }, nSweeps, nSweeps * nSamples)
+        : runSweeps('load', {
+          fd, dtype: meta.dtype, little: order === 'little', interleaved: layout === 'interleaved',
+          nSamples, nChannels: nCh, channel: ch, gain, offset, out: out!, chunkSweeps,
+        }, nSweeps, nSweeps * nSamples * nCh);
+      firstBad = found.find((i) => i >= 0);
     } catch (e) {
       // a worker thread that stopped is not a fault of the file
       if (e instanceof ThreadError) throw e;
@@ -135,7 +157,7 @@ export function readBinary(sidecarPath: string, extra: { conditions?: Conditions
     }
     if (firstBad !== undefined) {
       const s = Math.floor(firstBad / nSamples);
-      throw new InputError({ file: dataPath, sweep: s }, `a non-finite sample (${out[firstBad]}) at sample ${firstBad % nSamples}`, 'finite samples');
+      throw new InputError({ file: dataPath, sweep: s }, `a non-finite sample (${(kept ?? out!)[firstBad]}) at sample ${firstBad % nSamples}`, 'finite samples');
     }
   } finally {
     closeSync(fd);
@@ -144,7 +166,7 @@ export function readBinary(sidecarPath: string, extra: { conditions?: Conditions
   const conditions: Conditions[] = [];
   for (let s = 0; s < nSweeps; s++) conditions.push({ ...base, ...(meta.sweeps?.[s] ?? {}), file: sidecarPath, fileSweep: s });
   return new SweepSet({
-    data: out, nSweeps, nSamples, fs: meta.fs, t0Ms, units: units!, conditions,
+    data: kept ? asRead(kept) : out!, nSweeps, nSamples, fs: meta.fs, t0Ms, units: units!, conditions,
     sources: [jsrc, source],
     history: [{ verb: 'readBinary', options: { path: sidecarPath, dtype: meta.dtype, byteOrder: order, layout, nChannels: nCh, channel: ch, gain, offset }, version: VERSION }],
   });

@@ -3,9 +3,11 @@ import { mkdtempSync, mkdirSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { basename, join } from 'node:path';
 import fc from 'fast-check';
-import { readBinary, readManifest, byPreparation, InputError } from '../../src';
+import { readBinary, readManifest, byPreparation, InputError, setThreads, stopThreads, threads } from '../../src';
+import { deferredOf } from '../../src/sweeps/SweepSet';
 
 const dir = mkdtempSync(join(tmpdir(), 'fascicle-bin-'));
+const threadsAtStart = threads();
 let k = 0;
 function sidecar(meta: Record<string, unknown>, bytes: Uint8Array): string {
   const name = `b${k++}`;
@@ -140,5 +142,99 @@ describe('readManifest(path)', () => {
   });
   it('names a missing file', () => {
     expect(() => readManifest(manifest({ fascicleManifest: 1, files: [{ path: 'nope.csv', conditions: { preparation: 'A' } }] }))).toThrow(/nope\.csv: cannot open file \(ENOENT\)/);
+  });
+});
+
+describe('readBinary: a native float32 file is kept as read', () => {
+  // reference: a slow reader, one DataView.getFloat32 per value, each widened to float64 by JavaScript itself
+  const slowRead = (bytes: Uint8Array, little: boolean, gain = 1, offset = 0) => {
+    const dv = new DataView(bytes.buffer, bytes.byteOffset, bytes.byteLength);
+    const v = (i: number) => dv.getFloat32(i * 4, little);
+    // gain 1 and offset 0 are no arithmetic at all (-0 stays -0, as the loader has always read it)
+    return Float64Array.from({ length: bytes.byteLength / 4 }, (_, i) => (gain === 1 && offset === 0 ? v(i) : v(i) * gain + offset));
+  };
+  const sameBits = (a: ArrayLike<number>, b: ArrayLike<number>) => {
+    if (a.length !== b.length) return false;
+    for (let i = 0; i < a.length; i++) if (!Object.is(a[i], b[i])) return false;
+    return true;
+  };
+  // 64 sweeps x 10,000 samples: above the size at which the pool splits the work
+  const S = 64, N = 10000;
+  const randomBits = () => {
+    const u = new Uint32Array(S * N);
+    let x = 0x9e3779b9;
+    for (let i = 0; i < u.length; i++) {
+      x ^= x << 13; x ^= x >>> 17; x ^= x << 5;
+      u[i] = x >>> 0; // every sign and exponent: subnormals about one in 256
+      if ((u[i] & 0x7f800000) === 0x7f800000) u[i] ^= 0x00800000; // no NaN or infinity
+    }
+    u[5] = 0x80000000; // -0
+    u[6] = 0x00000001; // the smallest subnormal
+    return new Uint8Array(u.buffer);
+  };
+  it('every value equals the slow reader\'s bit for bit (signed zeros, subnormals, full range), on 1 and 2 threads', async () => {
+    const bytes = randomBits();
+    const p = sidecar({ dtype: 'float32', nSweeps: S, nSamples: N, fs: 20000, units: 'uV' }, bytes);
+    const ref = slowRead(bytes, true);
+    for (const t of [1, 2]) {
+      setThreads(t);
+      const set = readBinary(p);
+      expect(deferredOf(set)?.base).toBeInstanceOf(Float32Array); // stored as read, not widened
+      expect(sameBits(set.data, ref)).toBe(true);
+      expect(Object.is(set.data[5], -0)).toBe(true);
+    }
+    await stopThreads();
+    setThreads(threadsAtStart);
+  }, 60_000);
+  it('the same processing gives the same bits as the float64 file of the same values (baseline, blank, low-pass, average)', async () => {
+    const x = new Float32Array(S * N);
+    for (let i = 0; i < x.length; i++) x[i] = Math.sin(i * 0.0137) * 40 + Math.cos(i * 0.31) * 3 + ((i * 7919) % 101) / 50;
+    const p32 = sidecar({ dtype: 'float32', nSweeps: S, nSamples: N, fs: 20000, t0Ms: -5, units: 'uV', sweeps: Array.from({ length: S }, (_, s) => ({ c: s % 4 })) }, new Uint8Array(x.buffer));
+    const p64 = sidecar({ dtype: 'float64', nSweeps: S, nSamples: N, fs: 20000, t0Ms: -5, units: 'uV', sweeps: Array.from({ length: S }, (_, s) => ({ c: s % 4 })) }, new Uint8Array(Float64Array.from(x).buffer));
+    const run = (p: string) => {
+      const s = readBinary(p);
+      const b = s.baseline({ window: [-5, -0.05] });
+      const k = b.removeArtifact({ method: 'blank', window: [0, 0.3], bridge: 'linear' });
+      const y = k.lowpass(3000, 4);
+      return [b.data, k.data, y.data, y.groupBy('c').average().data];
+    };
+    for (const t of [1, 2]) {
+      setThreads(t);
+      const a = run(p32), b = run(p64);
+      expect(deferredOf(readBinary(p64))).toBe(null);
+      a.forEach((v, j) => expect(sameBits(v, b[j]), `stage ${j}, ${t} threads`).toBe(true));
+    }
+    await stopThreads();
+    setThreads(threadsAtStart);
+  }, 120_000);
+  it('a non-finite sample of a large file kept as read names the sweep, the sample and the value', async () => {
+    const x = new Float32Array(S * N).fill(1.5);
+    x[40 * N + 123] = -Infinity;
+    const p = sidecar({ dtype: 'float32', nSweeps: S, nSamples: N, fs: 20000, units: 'uV' }, new Uint8Array(x.buffer));
+    for (const t of [1, 2]) {
+      setThreads(t);
+      expect(() => readBinary(p)).toThrow(/sweep 40: a non-finite sample \(-Infinity\) at sample 123/);
+    }
+    await stopThreads();
+    setThreads(threadsAtStart);
+  }, 60_000);
+  it('big-endian float32, a gain or an offset, or two channels are converted to float64 as before, equal to the slow reader', () => {
+    const f = new Float32Array([0.1, -2.5e-8, 3.4e38, 7, 1e-45, -0.0]);
+    const le = new Uint8Array(f.buffer);
+    const be = new Uint8Array(le.length);
+    for (let i = 0; i < le.length; i += 4) for (let j = 0; j < 4; j++) be[i + j] = le[i + 3 - j];
+    const cases: [Record<string, unknown>, Uint8Array, Float64Array][] = [
+      [{ byteOrder: 'big' }, be, slowRead(be, false)],
+      [{ gain: 0.001 }, le, slowRead(le, true, 0.001)],
+      [{ offset: 2 }, le, slowRead(le, true, 1, 2)],
+    ];
+    for (const [extra, bytes, ref] of cases) {
+      const set = readBinary(sidecar({ dtype: 'float32', nSweeps: 2, nSamples: 3, fs: 1000, units: 'mV', ...extra }, bytes));
+      expect(deferredOf(set)).toBe(null);
+      expect(sameBits(set.data, ref)).toBe(true);
+    }
+    const two = readBinary(sidecar({ dtype: 'float32', nSweeps: 1, nSamples: 3, nChannels: 2, channel: 1, fs: 1000, units: 'mV' }, le));
+    expect(deferredOf(two)).toBe(null);
+    expect(sameBits(two.data, slowRead(le, true).subarray(3, 6))).toBe(true);
   });
 });
