@@ -171,6 +171,7 @@ export async function writeStudyBundle(out: string, study: Study, rerun: Provena
 /** Run a manifest's study and write its bundle (or, with a shard, the shard's partial output). */
 export async function runStudy(o: RunOptions): Promise<{ out: string; study: Study | null; outputs: PrepOutput[] }> {
   if (o.jobs !== undefined && !(Number.isInteger(o.jobs) && o.jobs >= 1 && o.jobs <= 64)) throw new OptionError(`invalid --jobs: ${o.jobs}; must be an integer 1..64`);
+  workerHeapMb(); // a bad FASCICLE_WORKER_HEAP_MB is an error even when no worker thread is started
   const options = analysisOptions(o.manifest);
   // refuse a destination that would lose files before any work is done
   checkOutput(o.out, manifestInputs(o.manifest));

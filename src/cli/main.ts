@@ -4,7 +4,7 @@
  *   fascicle run <manifest.json> --out <dir> [--jobs N] [--shard i/n] [--no-figures] [--quiet]
  *   fascicle merge <shard-dir>... --out <dir>
  *   fascicle rerun <bundle-dir> [--manifest <path>]
- *   fascicle help [<command>] | version | --help | <command> --help | --version
+ *   fascicle help [<command>] | version | --help | <command> --help | --version (a leading -- is skipped)
  * Exit codes: 0 success; 2 usage or configuration error (also a refused --out); 3 bad input
  * file; 4 the data cannot support the analysis; 5 a rerun did not reproduce the bundle;
  * 6 the output could not be written; 7 a worker thread failed; 1 anything else.
@@ -32,12 +32,12 @@ Usage:
   fascicle version                                     the version
   (also: fascicle --help, fascicle <command> --help, fascicle --version)
 
-Through npx, use "npx fascicle help" and "npx fascicle version": npx itself takes
-"npx fascicle --help" and "--version" (or write "npx fascicle -- --help").
+Through npx, use "npx fascicle help" and "npx fascicle version": "npm exec fascicle --help"
+and "--version" (and npx in some npm versions) answer for npm itself, not for fascicle.
 
 Exit codes: 0 success, 2 usage or configuration error (command line or manifest settings,
 or an output folder fascicle will not overwrite), 3 bad input file, 4 data cannot support
-the analysis, 5 rerun did not reproduce, 6 the output could not be written (disk full,
+the analysis (nothing at all could be computed), 5 rerun did not reproduce, 6 the output could not be written (disk full,
 read-only, no permission), 7 a worker thread failed, 1 other error.`,
   run: `fascicle run <manifest.json> --out <dir> [options]
 
@@ -136,7 +136,9 @@ function progressBar(quiet: boolean): ((done: number, total: number, prep: strin
   return (done, total, prep) => process.stderr.write(`preparation ${prep} done (${done}/${total})\n`);
 }
 
-async function main(argv: string[]): Promise<number> {
+async function main(argv0: string[]): Promise<number> {
+  // a leading "--" (npm exec / npx pass it along in some versions) only ends the runner's own options
+  const argv = argv0[0] === '--' ? argv0.slice(1) : argv0;
   if (argv[0] === '--version' || argv[0] === '-v') { console.log(VERSION); return 0; }
   if (!argv.length) { console.log(HELP.main); return 2; }
   if (argv[0] === '--help' || argv[0] === '-h') { console.log(HELP.main); return 0; }

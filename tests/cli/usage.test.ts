@@ -1,0 +1,62 @@
+// The command line as the README documents it: the forms that reach fascicle through npm's
+// runners, the environment settings it checks, and the exit-code table (README = help = code).
+import { describe, it, expect } from 'vitest';
+import { spawnSync } from 'node:child_process';
+import { readFileSync, mkdtempSync, existsSync, rmSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+
+const root = join(__dirname, '..', '..');
+const cliPath = join(root, 'dist', 'cli', 'main.js');
+const run = (args: string[], env: Record<string, string> = {}) =>
+  spawnSync(process.execPath, [cliPath, ...args], { encoding: 'utf8', env: { ...process.env, ...env } });
+const version = JSON.parse(readFileSync(join(root, 'package.json'), 'utf8')).version;
+
+/** The README's command-line section. */
+const section = (() => {
+  const t = readFileSync(join(root, 'README.md'), 'utf8');
+  const a = t.indexOf('## Command line\n');
+  return t.slice(a, t.indexOf('\n## ', a + 5));
+})();
+
+describe('command line usage as documented', () => {
+  it('a leading "--" (passed along by some npm runners) is skipped: "-- --help", "-- --version", "-- help"', () => {
+    const v = run(['--', '--version']);
+    expect(v.status, v.stderr).toBe(0);
+    expect(v.stdout.trim()).toBe(version);
+    expect(run(['--', '--help']).stdout).toMatch(/^fascicle .*: compound action potential analysis/);
+    expect(run(['--', 'help', 'run']).stdout).toMatch(/--out <dir>/);
+    expect(run(['--', 'version']).stdout.trim()).toBe(version);
+  });
+  it('the README names every form of the usage block and the npx note', () => {
+    for (const form of ['npx fascicle help', 'npx fascicle version', 'npx fascicle rerun <bundle-dir> [--manifest <path>]',
+      'npx fascicle run <manifest.json> --out <dir>', 'npx fascicle merge <shard-dir>... --out <dir>', 'FASCICLE_WORKER_HEAP_MB']) {
+      expect(section, form).toContain(form);
+    }
+    expect(section).toMatch(/`npx fascicle --help` and `--version` can be taken by npx/);
+  });
+  it('exit codes: the README table, the help text and the header of src/cli/main.ts list the same codes', () => {
+    const readme = [...section.matchAll(/^\| (\d) \| (.+) \|$/gm)].map((m) => Number(m[1]));
+    expect(readme.sort()).toEqual([0, 1, 2, 3, 4, 5, 6, 7]);
+    const help = run(['help']).stdout.replace(/\s+/g, ' ');
+    const helpCodes = [...(/Exit codes: (.*?)\./.exec(help)?.[1] ?? '').matchAll(/\b(\d) [a-z]/g)].map((m) => Number(m[1]));
+    expect(helpCodes.sort()).toEqual(readme);
+    const header = readFileSync(join(root, 'src', 'cli', 'main.ts'), 'utf8').split('*/')[0].replace(/\s*\*\s*/g, ' ');
+    const headerCodes = [...(/Exit codes: (.*?)\./.exec(header)?.[1] ?? '').matchAll(/\b(\d) [a-z]/g)].map((m) => Number(m[1]));
+    expect(headerCodes.sort()).toEqual(readme);
+  });
+  it('a bad FASCICLE_WORKER_HEAP_MB is a configuration error (exit 2) also with --jobs 1, before anything is written', () => {
+    const work = mkdtempSync(join(tmpdir(), 'fascicle-usage-'));
+    try {
+      const out = join(work, 'o');
+      for (const bad of ['abc', '4', '12.5']) {
+        const r = run(['run', join(root, 'data-demo', 'manifest.json'), '--out', out, '--quiet'], { FASCICLE_WORKER_HEAP_MB: bad });
+        expect(r.status, r.stderr).toBe(2);
+        expect(r.stderr).toContain(`invalid FASCICLE_WORKER_HEAP_MB: ${JSON.stringify(bad)}; must be an integer >= 8 (MB)`);
+        expect(existsSync(out)).toBe(false);
+      }
+    } finally {
+      rmSync(work, { recursive: true, force: true });
+    }
+  });
+});
