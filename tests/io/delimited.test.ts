@@ -3,7 +3,10 @@ import { mkdtempSync, writeFileSync, readFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import fc from 'fast-check';
-import { readDelimited, InputError, OptionError } from '../../src';
+import { readDelimited, InputError, OptionError, setThreads, stopThreads, threads } from '../../src';
+import { plainRow } from '../../src/io/plainRows';
+import { parseNumber } from '../../src/io/numbers';
+import { PARALLEL_CSV_BYTES } from '../../src/io/delimited';
 
 const dir = mkdtempSync(join(tmpdir(), 'fascicle-io-'));
 let k = 0;
@@ -135,4 +138,116 @@ describe('readDelimited property tests (fast-check)', () => {
       { numRuns: 300 },
     );
   });
+});
+
+describe('the CSV fast path reads exponent notation exactly (%e and %g as C printf writes them)', () => {
+  /** C's %.{p}e: exponent of at least `pad` digits (2 in C99; 3 from some older runtimes) */
+  const cExp = (x: number, p: number, upper: boolean, pad: number): string => {
+    const [mant, ex] = x.toExponential(p).split('e');
+    return `${mant}${upper ? 'E' : 'e'}${ex[0]}${ex.slice(1).padStart(pad, '0')}`;
+  };
+  /** C's %.{P}g: %e or %f by the decimal exponent, trailing zeros removed */
+  const cG = (x: number, P: number, upper: boolean, pad: number): string => {
+    const X = Number(x.toExponential(P - 1).split('e')[1]);
+    const trim = (m: string) => (m.includes('.') ? m.replace(/0+$/, '').replace(/\.$/, '') : m);
+    if (X < -4 || X >= P) {
+      const [m, e] = cExp(x, P - 1, upper, pad).split(/(?=[eE])/);
+      return trim(m) + e;
+    }
+    return trim(x.toFixed(P - 1 - X));
+  };
+  // the independent rule of the fast path: at most 15 digits and |exponent - fraction digits| <= 22
+  const shape = /^-?(\d*)(?:[.,](\d*))?[eE]([+-]?\d{1,3})$/;
+  const fastEligible = (s: string) => {
+    const m = shape.exec(s);
+    if (!m) return /^-?\d*([.,]\d*)?$/.test(s) && s.replace(/[-.,]/g, '').length <= 15 && /\d/.test(s);
+    const digits = m[1].length + (m[2] ?? '').length;
+    return digits >= 1 && digits <= 15 && Math.abs(Number(m[3]) - (m[2] ?? '').length) <= 22;
+  };
+
+  it('1.2 million fuzzed %e/%g values: every value the fast path takes equals Number() bit for bit', () => {
+    let seed = 12345;
+    const rnd = () => ((seed = (Math.imul(seed, 1103515245) + 12345) >>> 0) / 2 ** 32);
+    const texts: string[] = [];
+    for (let i = 0; i < 1_200_000; i++) {
+      const kind = i % 4;
+      // volt-like float32 values, wide decades, integers and exact decimals
+      let x = kind === 0 ? Math.fround((rnd() - 0.5) * 2e-3) : kind === 1 ? (rnd() - 0.5) * 10 ** (Math.floor(rnd() * 60) - 30)
+        : kind === 2 ? Math.floor(rnd() * 1e6) - 5e5 : (Math.floor(rnd() * 2e5) - 1e5) / 10 ** Math.floor(rnd() * 8);
+      if (i % 97 === 0) x = -0;
+      const P = 1 + Math.floor(rnd() * 17), upper = rnd() < 0.2, pad = rnd() < 0.1 ? 3 : 2;
+      texts.push(i % 3 === 0 ? cExp(x, P - 1, upper, pad) : cG(x, P, upper, pad));
+    }
+    const t = new Float64Array(1), block = new Float64Array(1);
+    let taken = 0, eligible = 0;
+    const wrong: string[] = [];
+    for (const [dec, dcode] of [[46, 44], [44, 59]] as const) {
+      const all = Buffer.from(texts.join('\n'), 'latin1');
+      if (dec === 44) for (let k = 0; k < all.length; k++) if (all[k] === 46) all[k] = 44;
+      let k = 0;
+      for (const s of texts) {
+        const end = k + s.length;
+        const ok = plainRow(all, k, end, 1, dec, dcode, t, 0, block, 0);
+        const want = Number(s);
+        if (fastEligible(s) !== ok && wrong.length < 5) wrong.push(`${s}: fast path ${ok ? 'took' : 'refused'} it`);
+        if (ok) {
+          taken++;
+          if (!Object.is(t[0], want) && wrong.length < 5) wrong.push(`${s}: ${t[0]} instead of ${want}`);
+        }
+        if (fastEligible(s)) eligible++;
+        // the exact parser, used for whatever the fast path refuses, also equals Number()
+        if (!ok && !Object.is(parseNumber(all, k, end, dec), want) && wrong.length < 5) wrong.push(`${s}: exact parser differs`);
+        k = end + 1;
+      }
+    }
+    expect(wrong).toEqual([]);
+    expect(taken).toBe(eligible);
+    expect(taken).toBeGreaterThan(0.7 * 2 * texts.length); // most printf output takes the fast path
+  }, 120_000);
+
+  it('exponent edge cases: taken, or left to the exact parser', () => {
+    const t = new Float64Array(1), block = new Float64Array(1);
+    const fast = (s: string) => {
+      const b = Buffer.from(s, 'latin1');
+      return plainRow(b, 0, b.length, 1, 46, 44, t, 0, block, 0) ? t[0] : null;
+    };
+    for (const s of ['1e5', '1E5', '1e+05', '-2.5e-03', '1.e3', '.5e1', '7.000000e-01', '1.5e-005', '-0e0', '123456789012345e7',
+      '1e22', '1e-22', '9.99999999999999e22', '123456789012345e-22']) {
+      expect(fast(s), s).not.toBeNull();
+      expect(Object.is(fast(s), Number(s)), s).toBe(true);
+    }
+    // empty or 4-digit exponents, |exponent| beyond 22, 16 digits, a second exponent, signs where they do not belong
+    for (const s of ['1e', '1e+', '1e-', 'e5', '-e5', '1e0001', '1e23', '1e-23', '1.5e-22', '1234567890123456e0', '1e5e5', '1e5.0', '+1e5', '1e--5', '1e 5']) {
+      expect(fast(s), s).toBeNull();
+    }
+  });
+
+  it('a large %g CSV (parsed on all threads) gives the same samples as a slow reference reader, on 1 and 2 threads', async () => {
+    const ns = 200, n = 4000;
+    let seed = 7;
+    const rnd = () => ((seed = (Math.imul(seed, 1103515245) + 12345) >>> 0) / 2 ** 32);
+    const rows = ['time (s),' + Array.from({ length: ns }, (_, j) => `s${j} (V)`).join(',')];
+    for (let i = 0; i < n; i++) {
+      const v = Array.from({ length: ns }, () => cG(Math.fround((rnd() - 0.5) * 1e-3), 6, false, 2));
+      rows.push(`${cG(i * 2e-5, 6, false, 2)},${v.join(',')}`);
+    }
+    const text = rows.join('\n') + '\n';
+    expect(text.length).toBeGreaterThan(PARALLEL_CSV_BYTES);
+    const p = file(text);
+    // reference: split on commas, Number() per cell
+    const ref = new Float64Array(ns * n);
+    rows.slice(1).forEach((r, i) => r.split(',').slice(1).forEach((c, j) => { ref[j * n + i] = Number(c); }));
+    const before = threads();
+    for (const th of [1, 2]) {
+      setThreads(th);
+      const s = readDelimited(p);
+      expect(s.nSweeps).toBe(ns);
+      expect(s.nSamples).toBe(n);
+      let same = true;
+      for (let i = 0; i < ref.length; i++) if (!Object.is(s.data[i], ref[i])) { same = false; break; }
+      expect(same, `${th} thread(s)`).toBe(true);
+    }
+    await stopThreads();
+    setThreads(before);
+  }, 120_000);
 });
