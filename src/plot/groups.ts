@@ -1,7 +1,8 @@
 /**
- * Group-comparison figure: one point per animal (preparation), and the mean with its t-based
- * 95% CI per group; with a within-animal condition, conditions along the x axis, groups side by
- * side and each animal's points joined. User strings (group, condition, animal names, labels)
+ * Group-comparison figure: one point per preparation (the analysis's `animal` field), and the
+ * mean with its t-based 95% CI per group; with a within-preparation condition, conditions along
+ * the x axis, groups side by side and each preparation's points joined. User strings (group,
+ * condition, preparation names, labels)
  * are escaped for plotly (plotlyText: & < > as entities), since plotly renders tags in names and labels;
  * the axis title with its unit comes from measureLabel (plot/labels.ts).
  */
@@ -95,7 +96,7 @@ export function groupFigure(result: GroupComparison, options: GroupFigureOptions
   const where = o.by.map((k) => `${esc(k)} ${esc(String(cell[k]))}`).join(', ');
   const title = options.title !== undefined
     ? esc(options.title)
-    : `${what} by group${where ? ` (${where})` : ''}: animals as the unit`;
+    : `${what} by group${where ? ` (${where})` : ''}: preparations as the unit`;
   const xTitle = o.condition ? esc(o.condition) : esc(o.group || 'group');
   const base = baseLayout(title, xTitle, yTitle);
   const xaxis = {

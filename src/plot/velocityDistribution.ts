@@ -4,9 +4,13 @@
  * (binned on the same grid) overlaid; and the reconstruction of each distance's response.
  */
 import { Figure, PALETTE, baseLayout } from './figure';
+import { plotlyText, unitText } from './labels';
 import type { VelocityDistributionResult } from '../analysis/velocityDistribution';
 
 const colour = (i: number) => PALETTE[i % PALETTE.length];
+/** A palette colour (#rrggbb) with transparency, for a shaded band that keeps its line's colour. */
+const translucent = (hex: string, alpha: number) =>
+  `rgba(${[1, 3, 5].map((k) => parseInt(hex.slice(k, k + 2), 16)).join(',')},${alpha})`;
 
 /** Bin known fibre velocities (optionally weighted) on the result's grid, as fractions. */
 export function binOnGrid(result: VelocityDistributionResult, velocity: readonly number[], weight?: readonly number[]): number[] {
@@ -34,17 +38,21 @@ export function velocityDistributionFigure(result: VelocityDistributionResult, o
   const data: Record<string, unknown>[] = [];
   if (lo.every((x) => typeof x === 'number')) {
     data.push({ type: 'scatter', mode: 'lines', x: v, y: hi, line: { width: 0 }, showlegend: false, hoverinfo: 'skip', name: 'band high' });
-    data.push({ type: 'scatter', mode: 'lines', x: v, y: lo, line: { width: 0 }, fill: 'tonexty', fillcolor: 'rgba(31,95,168,0.2)', name: '95% bootstrap band' });
+    data.push({ type: 'scatter', mode: 'lines', x: v, y: lo, line: { width: 0 }, fill: 'tonexty', fillcolor: translucent(colour(0), 0.2), name: '95% bootstrap band' });
   }
   data.push({ type: 'scatter', mode: 'lines', x: v, y, line: { color: colour(0), width: 2 }, name: `estimate (${wt}-weighted)` });
   if (options.truth) {
     const tb = binOnGrid(result, options.truth.velocity, options.truth.weight);
-    data.push({ type: 'scatter', mode: 'lines', x: v, y: tb, line: { color: colour(1), width: 1.5, dash: 'dash', shape: 'hvh' }, name: options.truth.label ?? 'known distribution' });
+    data.push({ type: 'scatter', mode: 'lines', x: v, y: tb, line: { color: colour(1), width: 1.5, dash: 'dash', shape: 'hvh' }, name: plotlyText(options.truth.label ?? 'known distribution') });
   }
   const shapes = result.classes.map((c, i) => ({ type: 'rect', xref: 'x', yref: 'paper', x0: c.range_low_m_s, x1: c.range_high_m_s, y0: 0, y1: 1, fillcolor: colour(i + 2), opacity: 0.07, line: { width: 0 } }));
-  const annotations = result.classes.map((c) => ({ x: Math.log10(Math.sqrt((c.range_low_m_s as number) * (c.range_high_m_s as number))), y: 1, xref: 'x', yref: 'paper', text: String(c.class), showarrow: false, font: { size: 10 } }));
-  const base = baseLayout(`Conduction-velocity distribution (${result.fit.method})`, 'conduction velocity (m/s, log scale)', `${wt} fraction per bin`);
-  return new Figure('velocity-distribution', { data, layout: { ...base, shapes, annotations, xaxis: { ...(base.xaxis as object), type: 'log', title: { text: 'conduction velocity (m/s, log scale)' } } } });
+  const annotations = result.classes.map((c) => ({
+    x: Math.log10(Math.sqrt((c.range_low_m_s as number) * (c.range_high_m_s as number))), y: 1, xref: 'x', yref: 'paper',
+    yanchor: 'bottom', text: plotlyText(c.class), showarrow: false,
+  }));
+  const layout = baseLayout(`Conduction-velocity distribution (${plotlyText(result.fit.method)})`, 'conduction velocity (m/s)',
+    `${wt}-weighted fraction per bin`, { shapes, annotations, xaxis: { type: 'log' } });
+  return new Figure('velocity-distribution', { data, layout });
 }
 
 /** Each distance's averaged response and its reconstruction from the distribution. */
@@ -54,8 +62,10 @@ export function velocityReconstructionFigure(result: VelocityDistributionResult)
     const step = Math.max(1, Math.floor(r.t.length / 3000));
     const xs: number[] = [], ys: number[] = [], fs: number[] = [];
     for (let j = 0; j < r.t.length; j += step) { xs.push(r.t[j]); ys.push(r.y[j]); fs.push(r.fit[j]); }
-    data.push({ type: 'scatter', mode: 'lines', x: xs, y: ys, name: `${r.distanceMm} mm data`, line: { color: colour(i), width: 1 } });
-    data.push({ type: 'scatter', mode: 'lines', x: xs, y: fs, name: `${r.distanceMm} mm model`, line: { color: colour(i), width: 1.5, dash: 'dot' } });
+    data.push({ type: 'scatter', mode: 'lines', x: xs, y: ys, name: `${plotlyText(r.distanceMm)} mm, recorded`, line: { color: colour(i), width: 1 } });
+    data.push({ type: 'scatter', mode: 'lines', x: xs, y: fs, name: `${plotlyText(r.distanceMm)} mm, reconstructed`, line: { color: colour(i), width: 1.5, dash: 'dot' } });
   });
-  return new Figure('velocity-reconstruction', { data, layout: baseLayout('Responses and their reconstruction', 'time after stimulus (ms)', `signal (${result.units})`) });
+  return new Figure('velocity-reconstruction', {
+    data, layout: baseLayout('Responses and their reconstruction', 'time after stimulus (ms)', `signal (${unitText(result.units)})`),
+  });
 }
