@@ -15,6 +15,7 @@ import { VERSION } from '../version';
 import type { Figure } from '../plot/figure';
 import { plotlyJs } from '../plot/figure';
 import { plainTitle } from '../plot/export';
+import { unitText, plainText } from '../plot/labels';
 import { studyFigureList } from '../plot/study';
 import { escapeHtml, formatCell, tableHtml, displayHtml } from '../notebook/html';
 import { checkKeys } from '../validate';
@@ -83,7 +84,7 @@ const TABLE_ANALYSIS: Record<string, string> = {
 const CSS = `body{margin:0}.fascicle-report{font:14px/1.45 Helvetica,Arial,sans-serif;color:#222;max-width:1100px;
 margin:0 auto;padding:0 16px 40px}.fascicle-report h1{font-size:22px;margin:18px 0 4px}
 .fascicle-report h2{font-size:18px;margin:28px 0 8px;border-bottom:1px solid #ccc}.fascicle-report h3{font-size:15px;margin:18px 0 6px}
-.fascicle-report nav ol{columns:2;margin:6px 0}.fascicle-report .meta{color:#555}
+.fascicle-report nav ol{margin:4px 0}.fascicle-report .meta{color:#555}
 .fascicle-report .figure{margin:10px 0 22px;page-break-inside:avoid;break-inside:avoid}
 .fascicle-report figcaption{font-size:12px;color:#444}.fascicle-report .fascicle-table td,.fascicle-report .fascicle-table th{
 border-bottom:1px solid #e4e4e4;padding:1px 6px;text-align:left;white-space:nowrap}
@@ -109,6 +110,8 @@ const count = (rows: readonly Row[], k: string) => {
   for (const r of rows) out.set(String(r[k] ?? ''), (out.get(String(r[k] ?? '')) ?? 0) + 1);
   return out;
 };
+/** A unit as printed ('uV' -> 'µV', 'uM' -> 'µM'), HTML-escaped. */
+const unit = (u: unknown) => escapeHtml(plainText(unitText(u)));
 const plural = (n: number, w: string) => `${n} ${w}${n === 1 ? '' : 's'}`;
 const anchor = (s: string) => s.replace(/[^A-Za-z0-9_-]+/g, '-');
 const pick = (rows: readonly Row[], cols: string[]) =>
@@ -122,13 +125,13 @@ function summaryHtml(study: Study, figures: readonly Figure[]): string {
   const sweeps = new Set(t.components.map((r) => `${r.preparation}\u0000${r.sweep}`)).size;
   const sev = count(t.flags, 'severity');
   const flagText = t.flags.length
-    ? [...sev].map(([k, n]) => `<span class="sev-${escapeHtml(anchor(k))}">${n} ${escapeHtml(k)}</span>`).join(', ')
+    ? [...sev].map(([k, n]) => `<span class="sev-${escapeHtml(anchor(k))}">${escapeHtml(k)}: ${n}</span>`).join(', ')
     : 'none';
   const items = [
     `${plural(preps.length, 'preparation')}: ${preps.map(escapeHtml).join(', ')}`,
     `${plural(sweeps, 'sweep')} measured (after averaging repeats), ${plural(study.sources.length, 'input file')}`,
     `fibre classes: ${classes.map(escapeHtml).join(', ') || 'none'}`,
-    `signal unit: ${escapeHtml(study.units)}`,
+    `signal unit: ${unit(study.units)}`,
     `${plural(study.computed, 'estimate')} computed; ${plural(figures.length, 'figure')}`,
     `flags: ${flagText}`,
   ];
@@ -146,7 +149,7 @@ function summaryHtml(study: Study, figures: readonly Figure[]): string {
     }
   }
   for (const r of t.dose_response_summary) if (typeof r.ic50 === 'number') {
-    head.push(`IC<sub>50</sub> ${escapeHtml(r.class)}: ${formatCell(r.ic50)} ${escapeHtml(r.concentrationUnit ?? '')} `
+    head.push(`IC<sub>50</sub> ${escapeHtml(r.class)}: ${formatCell(r.ic50)} ${unit(r.concentrationUnit ?? '')} `
       + `(95% CI ${formatCell(r.ic50_ci95_low)}-${formatCell(r.ic50_ci95_high)}), Hill slope ${formatCell(r.hill)}`);
   }
   for (const r of t.temperature) if (typeof r.q10 === 'number') {
@@ -222,7 +225,7 @@ function flagsHtml(study: Study): string {
   const f = study.tables.flags;
   if (!f.length) return '<p>No flags: every estimate was made and passed its checks.</p>';
   const by = count(f, 'severity');
-  return `<p>${[...by].map(([k, n]) => `${n} ${escapeHtml(k)}`).join(', ')}. Rejected: the estimate could not be made; `
+  return `<p>${[...by].map(([k, n]) => `${escapeHtml(k)}: ${n}`).join(', ')}. Rejected: the estimate could not be made; `
     + 'not measured: there was nothing to measure; warning: the estimate was made but may be wrong.</p>'
     + tableHtml(f, { sortable: true, maxRows: 2000 });
 }
