@@ -63,9 +63,16 @@ export function strengthDuration(rows: readonly Row[], units: string, options: S
   const rec = recruitment(use, units, { measure, by: [...by, 'pulseWidthMs'] });
   const L = Math.log(fraction / (1 - fraction));
   const points: Row[] = [];
+  const notFitted = new Map<string, number>();
   for (const r of rec.rows) {
     const id = [...by, 'pulseWidthMs'].map((k) => r[k]).join('|') + '|' + r.class;
-    const f = rec.fits.get(id)!;
+    const f = rec.fits.get(id);
+    if (!f) {
+      // this width's recruitment curve could not be fitted (its status says why): counted, not used
+      const gid = by.map((k) => r[k]).join('|') + '|' + r.class;
+      notFitted.set(gid, (notFitted.get(gid) ?? 0) + 1);
+      continue;
+    }
     const [, , xm, s] = f.params;
     const x = xm + s * L;
     let lo: number | null = null, hi: number | null = null;
@@ -89,8 +96,11 @@ export function strengthDuration(rows: readonly Row[], units: string, options: S
     const w = g.map((p) => p.pulseWidthMs as number);
     const I = g.map((p) => p.criterion as number);
     const st: string[] = [];
+    const left = notFitted.get(id) ?? 0;
+    notFitted.delete(id);
+    if (left) st.push(`${left} pulse width${left === 1 ? '' : 's'} without a recruitment fit left out`);
     if (g.length < strengthDurationDefaults.minWidths) {
-      out.push({ ...Object.fromEntries(by.map((k) => [k, g[0][k] ?? null])), class: g[0].class, intensityUnit: unitOf.get(String(g[0].class)) ?? null, widths: g.length, rheobase: null, chronaxie_ms: null, status: `needs at least ${strengthDurationDefaults.minWidths} pulse widths with a recruitment curve (has ${g.length})` });
+      out.push({ ...Object.fromEntries(by.map((k) => [k, g[0][k] ?? null])), class: g[0].class, intensityUnit: unitOf.get(String(g[0].class)) ?? null, widths: g.length, rheobase: null, chronaxie_ms: null, status: [`needs at least ${strengthDurationDefaults.minWidths} pulse widths with a recruitment curve (has ${g.length})`, ...st].join('; ') });
       continue;
     }
     // start: rheobase a little below the longest width's intensity, chronaxie from the two extreme widths
@@ -129,6 +139,12 @@ export function strengthDuration(rows: readonly Row[], units: string, options: S
       lapicque_chronaxie_ci95_low_ms: lapFlat ? null : fin(Math.max(0, lf.ci[1][0]) * Math.LN2), lapicque_chronaxie_ci95_high_ms: lapFlat ? null : fin(lf.ci[1][1] * Math.LN2),
       weiss_rss: wf.residualSS, lapicque_rss: lf.residualSS, status: st.length ? st.join('; ') : 'ok',
     });
+  }
+  // a class with no fitted width at all still gets its row, saying so
+  for (const [gid, n] of notFitted) {
+    const r = rec.rows.find((x) => by.map((k) => x[k]).join('|') + '|' + x.class === gid)!;
+    out.push({ ...Object.fromEntries(by.map((k) => [k, r[k] ?? null])), class: r.class, intensityUnit: unitOf.get(String(r.class)) ?? null, widths: 0,
+      rheobase: null, chronaxie_ms: null, status: `no pulse width has a recruitment fit (${n} left out; see recruitment statuses)` });
   }
   return new StrengthDurationResult(out, points, fits, [...history, { verb: 'strengthDuration', options: { measure, by, fraction, criterion: `${fraction} of the maximum of a Boltzmann recruitment fit per pulse width`, models: ['Weiss', 'Lapicque'], scale: 'log intensity' }, version: VERSION }], sources);
 }

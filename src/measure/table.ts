@@ -2,7 +2,7 @@
 import type { SweepSet, ConditionValue, Step } from '../sweeps/SweepSet';
 import { measureComponents, componentStep, type ComponentOptions, type ComponentRow, type ResolvedComponentOptions } from './components';
 import type { ResponseMeasure } from './response';
-import { singleSiteVelocity, twoSiteVelocity, regressionVelocity, type VelocityRow } from '../analysis/velocity';
+import { singleSiteVelocity, twoSiteVelocity, regressionVelocity, markRecommended, type VelocityRow } from '../analysis/velocity';
 import { toFrame } from '../report/frame';
 import { tableHtml, tableText } from '../notebook/html';
 import { VERSION } from '../version';
@@ -10,7 +10,7 @@ import { Result } from '../report/result';
 import { doseResponse, type DoseResponseOptions, DoseResponseResult } from '../analysis/doseResponse';
 import { recruitment, RecruitmentResult } from '../analysis/recruitment';
 import { strengthDuration, StrengthDurationResult, type StrengthDurationOptions } from '../analysis/strengthDuration';
-import { temperatureAnalysis, TemperatureResult } from '../analysis/temperature';
+import { temperatureAnalysis, velocityTemperature, TemperatureResult } from '../analysis/temperature';
 import { compareGroups, type GroupOptions, type GroupComparison } from '../analysis/groups';
 import { mixedModel, type MixedOptions, type MixedModelResult } from '../analysis/mixed';
 
@@ -75,10 +75,10 @@ export class ComponentTable extends Result {
    */
   velocity(options: { by?: string[] } = {}): VelocityResult {
     const by = options.by ?? defaultBy(this.set);
-    const single = singleSiteVelocity(this.rows, by);
+    const single = singleSiteVelocity(this.rows, by, this.resolved);
     const two = twoSiteVelocity(this.set, this.rows, this.measures, this.resolved, by);
-    const reg = regressionVelocity(this.rows, by);
-    return new VelocityResult([...single, ...two, ...reg], by, this.set.sources, [...this.history, { verb: 'velocity', options: { by, methods: ['single-site (onset, peak)', 'two-site (cross-correlation, onset, peak)', 'regression of latency on distance'] }, version: VERSION }]);
+    const reg = regressionVelocity(this.rows, by, this.resolved);
+    return new VelocityResult(markRecommended([...single, ...two, ...reg], this.resolved.classes), by, this.set.sources, [...this.history, { verb: 'velocity', options: { by, methods: ['single-site (onset, peak)', 'two-site (cross-correlation, onset, peak)', 'regression of latency on distance'] }, version: VERSION }]);
   }
 
   /**
@@ -143,9 +143,7 @@ export class ComponentTable extends Result {
       for (const r of this.rows) (dists.get(keyOf(r)) ?? dists.set(keyOf(r), new Set()).get(keyOf(r))!).add(r.distance_mm);
       if (dists.size > 0 && [...dists.values()].every((s) => s.size >= 2)) {
         const by = ['preparation', 'temperatureC'].filter((k) => this.set.conditions.some((c) => k in c));
-        const v = this.velocity({ by }).get('regression', 'centroid');
-        const rows = v.map((r) => ({ ...r, regression_velocity_m_s: r.velocity_m_s, detected: true }));
-        return temperatureAnalysis(rows, { measure: 'regression_velocity_m_s' }, this.history, this.set.sources);
+        return velocityTemperature(this.velocity({ by }).rows, this.history, this.set.sources);
       }
     }
     return temperatureAnalysis(this.rows, options, this.history, this.set.sources);

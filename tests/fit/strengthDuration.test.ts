@@ -78,6 +78,16 @@ describe('strengthDuration(rows)', () => {
     expect(hi).toBeGreaterThan(0.3);
     expect((row.rheobase_ci95_high as number) - (row.rheobase_ci95_low as number)).toBeGreaterThan(1e-4);
   });
+  it('a pulse width whose recruitment curve cannot be fitted is counted in the status, never dropped silently', () => {
+    // one width (0.02 ms) never recruits (not detected at any intensity): no recruitment fit there
+    const rows = rowsFrom((w) => weiss(w, [0.2, 0.3]), widths).map((q) =>
+      q.pulseWidthMs === 0.02 ? { ...q, amplitude_uV: 0, detected: false } : q);
+    const r = strengthDuration(rows, 'uV');
+    expect(r.rows).toHaveLength(1);
+    expect(r.rows[0].widths).toBe(widths.length - 1);
+    expect(r.rows[0].status).toMatch(/1 pulse width without a recruitment fit left out/);
+    expect(r.rows[0].chronaxie_ms as number).toBeCloseTo(0.3, 6); // the other five widths still give the Weiss chronaxie
+  });
   it('says what is missing: no pulse widths, too few widths, a criterion out of range', () => {
     expect(() => strengthDuration([{ class: 'A', intensity: 1, amplitude_uV: 1 }], 'uV')).toThrow(AnalysisError);
     expect(() => strengthDuration([{ class: 'A', intensity: 1, amplitude_uV: 1 }], 'uV')).toThrow(/pulseWidthMs/);
