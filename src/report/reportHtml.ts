@@ -47,6 +47,10 @@ const INPUT_KEYS = ['study', 'methods', 'provenance', 'figures', 'title', 'bundl
 /** Bulky tables: on screen inside a closed section, left out of print (their files hold them). */
 const BULK = new Set(['components', 'recruitment_points', 'dose_response_points', 'temperature_points', 'strength_duration_points']);
 
+/** Tables up to this size are printed; larger ones are on screen only (their files hold them). */
+const PRINT_ROWS = 80;
+const PRINT_COLUMNS = 14;
+
 /** Readable names of the bundle's tables. */
 const TABLE_TITLES: Record<string, string> = {
   components: 'Components (one row per sweep and class)',
@@ -93,7 +97,8 @@ border-bottom:1px solid #e4e4e4;padding:1px 6px;text-align:left;white-space:nowr
 font-size:11px;background:#f7f7f7;padding:6px;max-height:420px;overflow:auto}.fascicle-report .sev-rejected{color:#a00}
 .fascicle-report .sev-warning{color:#8a5a00}.fascicle-report .print-note{display:none}
 @media print{.fascicle-report{max-width:none;font-size:10pt}.fascicle-report nav,.fascicle-report .screen-only,
-.fascicle-report .bulk{display:none}.fascicle-report .print-note{display:block}
+.fascicle-report .bulk,.fascicle-report .wide{display:none}
+.fascicle-report .fascicle-table td{white-space:normal}.fascicle-report .print-note{display:block}
 .fascicle-report .fascicle-table{max-height:none!important;overflow:visible!important}
 .fascicle-report .fascicle-table table{font-size:7pt!important}.fascicle-report .fascicle-table thead th{position:static}
 .fascicle-report pre.provenance{max-height:none;overflow:visible}.fascicle-report h2{break-after:avoid}}`;
@@ -211,12 +216,15 @@ function tablesHtml(study: Study, bundle: boolean): { html: string; toc: string[
       continue;
     }
     const table = tableHtml(rows, { sortable: true, maxRows: 2000 });
+    const cols = new Set(rows.flatMap((r) => Object.keys(r))).size;
+    const printNote = `<p class="print-note">${plural(rows.length, 'row')} of ${cols} columns; not printed`
+      + `${bundle ? `: see tables/${escapeHtml(name)}.csv` : ''}.</p>`;
+    // long or wide tables do not fit a printed page: on screen only (long ones in a closed section)
     const body = BULK.has(name)
-      ? `<details class="bulk"><summary>${plural(rows.length, 'row')}: show</summary>${table}</details>`
-        + `<p class="print-note">${plural(rows.length, 'row')}; not printed${bundle ? `: see tables/${escapeHtml(name)}.csv` : ''}.</p>`
-      : table;
-    parts.push(`<section id="${id}"><h3>${escapeHtml(title)}</h3><p class="meta">${plural(rows.length, 'row')}${file}; `
-      + 'click a column header to sort.</p>' + body + '</section>');
+      ? `<details class="bulk"><summary>${plural(rows.length, 'row')}: show</summary>${table}</details>${printNote}`
+      : rows.length > PRINT_ROWS || cols > PRINT_COLUMNS ? `<div class="wide">${table}</div>${printNote}` : table;
+    parts.push(`<section id="${id}"><h3>${escapeHtml(title)}</h3><p class="meta">${plural(rows.length, 'row')}${file}.`
+      + '<span class="screen-only"> Click a column header to sort.</span></p>' + body + '</section>');
   }
   return { html: parts.join('\n'), toc };
 }
