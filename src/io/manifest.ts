@@ -63,13 +63,32 @@ export const ANALYSIS_KEYS: Readonly<Record<string, readonly string[] | 'boolean
   recruitment: ['measure', 'by', 'supramaximalFactor', 'minLevels'],
   strengthDuration: ['measure', 'by', 'fraction'],
   temperature: ['measure'],
+  qc: [
+    'quietWindow', 'endWindow', 'artifactWindow', 'responseWindow', 'by', 'peerBy', 'maxNoiseRatio', 'minNoiseRatio',
+    'maxDriftRatio', 'maxArtifactRatio', 'railRun', 'outlierThreshold', 'outlierMinScale', 'minSweeps',
+  ],
+  reject: ['flags'],
+  pairedPulse: ['by', 'roleKey', 'intervalKey', 'latency', 'measure', 'blankMs', 'extrapolateMs', 'minIntervals'],
+  trains: ['by', 'frequencyKey', 'pulsesKey', 'latency', 'blankMs', 'failFraction'],
+  groups: ['value', 'group', 'animal', 'condition', 'by', 'unit', 'table'],
+  mixed: ['value', 'fixed', 'random', 'interaction', 'by', 'levels', 'table'],
+  velocityDistribution: [
+    'method', 'velocityRange', 'nVelocities', 'fitWindow', 'fitStartByDistance', 'sfp', 'sfpWindow', 'sfpSmoothing',
+    'amplitudeExponent', 'durationExponent', 'referenceVelocity', 'bipolarSeparationMm', 'utilisationMs', 'drift',
+    'artifactTauMs', 'noiseWindow', 'iterations', 'tolerance', 'lambda', 'alternationLambda', 'bootstrap', 'seed',
+    'classes', 'temperatureC',
+  ],
 };
 /** Steps that may be `false` (turned off). */
-const OPTIONAL_STEPS = ['baseline', 'artifact', 'hum', 'filter'];
+const OPTIONAL_STEPS = ['baseline', 'artifact', 'hum', 'filter', 'qc', 'pairedPulse', 'trains'];
 /** Steps that may be a list of option objects, applied in order. */
 const LIST_STEPS = ['artifact'];
+/** Steps that may be `true` or `false` as well as an object of options. */
+const BOOLEAN_OR_OBJECT_STEPS = ['reject'];
+/** Steps that need these keys when present. */
+const REQUIRED_KEYS: Readonly<Record<string, readonly string[]>> = { groups: ['value'], mixed: ['value', 'fixed'] };
 /** Values of the `series` condition that the standard pipeline recognises. */
-export const SERIES = ['intensity', 'distance', 'dose', 'temperature', 'pulse-width'] as const;
+export const SERIES = ['intensity', 'distance', 'dose', 'temperature', 'pulse-width', 'paired-pulse', 'train'] as const;
 /**
  * Values of analysis options that the pipeline uses inside analyses it flags instead of stopping
  * (a bad value there would become a flag, not a configuration error), and the per-class polarity:
@@ -78,6 +97,8 @@ export const SERIES = ['intensity', 'distance', 'dose', 'temperature', 'pulse-wi
 const isInt = (min: number) => (v: unknown) => Number.isInteger(v) && (v as number) >= min;
 const isPolarity = (v: unknown) => v === 1 || v === -1 || v === 'auto';
 const isStrings = (v: unknown) => Array.isArray(v) && v.every((x) => typeof x === 'string');
+/** The sweep-QC flag names (QC_FLAGS of src/analysis/sweepQc.ts; not imported: that module imports the report). */
+export const REJECT_FLAGS = ['noisy', 'flat', 'drift', 'saturated', 'artifact', 'outlier'] as const;
 export const ANALYSIS_VALUES: Readonly<Record<string, readonly [(v: unknown) => boolean, string]>> = {
   'components/polarity': [
     (v) => isPolarity(v) || (v !== null && typeof v === 'object' && !Array.isArray(v) && Object.values(v).every(isPolarity)),
@@ -107,6 +128,16 @@ export const ANALYSIS_VALUES: Readonly<Record<string, readonly [(v: unknown) => 
   'strengthDuration/by': [isStrings, 'a list of condition names'],
   'strengthDuration/fraction': [(v) => typeof v === 'number' && v >= 0.05 && v <= 0.95, 'a number from 0.05 to 0.95'],
   'temperature/measure': [(v) => typeof v === 'string', 'a column name of the components table'],
+  'reject/flags': [
+    (v) => Array.isArray(v) && v.every((x) => (REJECT_FLAGS as readonly unknown[]).includes(x)),
+    `a list of QC flags among ${REJECT_FLAGS.join(', ')}`,
+  ],
+  'groups/value': [(v) => typeof v === 'string', 'a column name'],
+  'groups/table': [(v) => v === 'components' || v === 'velocity', '"components" or "velocity"'],
+  'mixed/value': [(v) => typeof v === 'string', 'a column name'],
+  'mixed/fixed': [(v) => isStrings(v) && (v as string[]).length > 0, 'a list of condition names (the fixed effects)'],
+  'mixed/interaction': [(v) => typeof v === 'boolean', 'true or false'],
+  'mixed/table': [(v) => v === 'components' || v === 'velocity', '"components" or "velocity"'],
 };
 /** Deepest nesting a manifest may have (far beyond any real one; guards the writers' recursion). */
 export const MANIFEST_MAX_DEPTH = 32;
@@ -118,6 +149,7 @@ const HINTS: Record<string, string> = {
   notch: '"hum": { "frequency": <Hz> }',
   preset: '"components": { "preset": <name> } or a top-level "classPreset"',
   classPreset: 'a top-level "classPreset"',
+  components: 'the class settings once, in "analysis": { "components": { ... } }; every analysis uses them',
 };
 
 function unknownKey(file: string, field: string, key: string, allowed: readonly string[]): never {
@@ -173,12 +205,25 @@ export function checkManifestKeys(m: unknown, file: string): void {
   for (const [step, v] of Object.entries(a ?? {})) {
     const keys = ANALYSIS_KEYS[step];
     if (v === false && OPTIONAL_STEPS.includes(step)) continue;
+    if (BOOLEAN_OR_OBJECT_STEPS.includes(step)) {
+      if (typeof v === 'boolean') continue;
+      if (v === null || typeof v !== 'object' || Array.isArray(v)) {
+        throw new ConfigError({ file, field: `/analysis/${step}` },
+          `is ${shown(v)}`,
+          `true, false or an object with ${(keys as readonly string[]).join(', ')}`);
+      }
+    }
     if (keys === 'boolean') {
       if (typeof v !== 'boolean') throw new ConfigError({ file, field: `/analysis/${step}` }, `is ${shown(v)}`, 'true or false');
     } else if (Array.isArray(v) && LIST_STEPS.includes(step)) {
       v.forEach((x, i) => checkObjectKeys(file, `/analysis/${step}/${i}`, x, keys));
     } else {
       checkObjectKeys(file, `/analysis/${step}`, v, keys);
+      for (const k of REQUIRED_KEYS[step] ?? []) {
+        if (!Object.hasOwn(v as object, k)) throw new ConfigError({ file, field: `/analysis/${step}` },
+          `has no "${k}"`,
+          `"${k}" (${step} needs ${REQUIRED_KEYS[step].join(' and ')})`);
+      }
       for (const [k, x] of Object.entries(v as object)) {
         const check = ANALYSIS_VALUES[`${step}/${k}`];
         if (check && !check[0](x)) {

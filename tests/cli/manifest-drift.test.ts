@@ -7,27 +7,45 @@ import { describe, it, expect, afterAll } from 'vitest';
 import { readFileSync, writeFileSync, mkdtempSync, rmSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join, resolve, dirname } from 'node:path';
-import { ANALYSIS_KEYS, ANALYSIS_VALUES, MANIFEST_KEYS, FILE_KEYS, SERIES, readManifest } from '../../src/io/manifest';
+import { ANALYSIS_KEYS, ANALYSIS_VALUES, REJECT_FLAGS, MANIFEST_KEYS, FILE_KEYS, SERIES, readManifest } from '../../src/io/manifest';
 import { ConfigError } from '../../src/errors';
 import { PIPELINE_OPTION_KEYS } from '../../src/report/pipeline';
 import { SweepSet } from '../../src';
+import { sweepQc, QC_FLAGS } from '../../src/analysis/sweepQc';
+import { pairedPulse } from '../../src/analysis/pairedPulse';
+import { trains } from '../../src/analysis/trains';
+import { velocityDistribution } from '../../src/analysis/velocityDistribution';
 
 const root = join(__dirname, '..', '..');
 const pipelinePath = join(root, 'src', 'report', 'pipeline.ts');
 
-/** Source text without comments (block and line comments; strings with // are not expected in type declarations). */
-function code(path: string): string {
-  return readFileSync(path, 'utf8').replace(/\/\*[\s\S]*?\*\//g, '').replace(/(^|[^:'"])\/\/.*$/gm, '$1');
-}
-
-/** The text between the braces that open at index `open` (which holds '{'). */
-function braced(src: string, open: number): string {
-  let depth = 0;
+/**
+ * The body of the object type whose '{' is at `open`, comments removed: a small scanner that knows
+ * comments, quoted strings and template literals (enough for type declarations, which hold no regexes).
+ */
+function typeBody(src: string, open: number): string {
+  let depth = 0, out = '';
   for (let i = open; i < src.length; i++) {
-    if (src[i] === '{') depth++;
-    else if (src[i] === '}' && --depth === 0) return src.slice(open + 1, i);
+    const ch = src[i];
+    if (ch === '/' && src[i + 1] === '*') { i = src.indexOf('*/', i + 2) + 1; continue; }
+    if (ch === '/' && src[i + 1] === '/') { i = src.indexOf('\n', i); out += '\n'; continue; }
+    if (ch === "'" || ch === '"' || ch === '`') {
+      let j = i + 1;
+      while (j < src.length && src[j] !== ch) j += src[j] === '\\' ? 2 : 1;
+      out += src.slice(i, j + 1);
+      i = j;
+      continue;
+    }
+    if (ch === '{') depth++;
+    else if (ch === '}' && --depth === 0) return out.slice(1);
+    out += ch;
   }
   throw new Error(`unbalanced braces from ${open}`);
+}
+
+/** The text between the braces that open at index `open` of a comment-free type text. */
+function braced(src: string, open: number): string {
+  return typeBody(src, open);
 }
 
 /** Member name -> type text of an object type body (top level only). */
@@ -51,17 +69,17 @@ function members(body: string): Map<string, string> {
 
 /** The members of `export interface name` in a source file (own members; an `extends` clause fails the test). */
 function interfaceMembers(path: string, name: string): Map<string, string> {
-  const src = code(path);
+  const src = readFileSync(path, 'utf8');
   const m = new RegExp(`export interface ${name}\\b([^{]*)\\{`).exec(src);
   if (!m) throw new Error(`interface ${name} not found in ${path}`);
   expect(m[1].trim(), `${name} extends another interface: read its members too`).toBe('');
-  return members(braced(src, m.index + m[0].length - 1));
+  return members(typeBody(src, m.index + m[0].length - 1));
 }
 
 /** Where pipeline.ts imports each type name from (absolute .ts paths). */
 function importsOf(path: string): Map<string, string> {
   const out = new Map<string, string>();
-  for (const m of code(path).matchAll(/import\s+(?:type\s+)?\{([^}]*)\}\s+from\s+'([^']+)'/g)) {
+  for (const m of readFileSync(path, 'utf8').matchAll(/import\s+(?:type\s+)?\{([^}]*)\}\s+from\s+'([^']+)'/g)) {
     for (const n of m[1].split(',')) {
       const name = n.trim().replace(/^type\s+/, '').split(/\s+as\s+/).pop()!.trim();
       if (name) out.set(name, resolve(dirname(path), m[2]) + '.ts');
@@ -73,16 +91,57 @@ function importsOf(path: string): Map<string, string> {
 const pipelineMembers = interfaceMembers(pipelinePath, 'PipelineOptions');
 const imports = importsOf(pipelinePath);
 
-/** Each pipeline step: its option keys from its interface (or inline object type), or 'boolean'; and its module. */
-function stepKeys(step: string): { keys: string[] | 'boolean'; module: string | null; typeName: string | null } {
-  const type = pipelineMembers.get(step)!;
-  if (/^boolean$/.test(type)) return { keys: 'boolean', module: null, typeName: null };
-  if (type.startsWith('{')) return { keys: [...members(braced(type, 0)).keys()], module: null, typeName: null };
-  const typeName = /([A-Z]\w*Options)\b/.exec(type)?.[1];
-  if (!typeName) throw new Error(`PipelineOptions.${step}: cannot read the type ${type}`);
-  const module = imports.get(typeName);
-  if (!module) throw new Error(`PipelineOptions.${step}: ${typeName} is not imported in pipeline.ts`);
-  return { keys: [...interfaceMembers(module, typeName).keys()], module, typeName };
+/** Split a type at top-level occurrences of a separator (| or &). */
+function splitTop(type: string, sep: string): string[] {
+  const out: string[] = [];
+  let depth = 0, start = 0;
+  for (let i = 0; i < type.length; i++) {
+    const ch = type[i];
+    if ('{[(<'.includes(ch)) depth++;
+    else if ('}])>'.includes(ch) && type[i - 1] !== '=') depth--;
+    else if (ch === sep && depth === 0) { out.push(type.slice(start, i).trim()); start = i + 1; }
+  }
+  out.push(type.slice(start).trim());
+  return out.filter((x) => x !== '');
+}
+
+interface StepType {
+  /** option keys of the object form, or 'boolean' when the step is only a boolean */
+  keys: string[] | 'boolean';
+  /** the step may also be `false` / `true` and `false` */
+  allowsFalse: boolean;
+  allowsBoolean: boolean;
+  /** keys the pipeline leaves out of the named interface (Omit<...>) */
+  omitted: string[];
+  /** the module and name of the options interface (for its defaults object) */
+  module: string | null;
+  typeName: string | null;
+}
+
+/** Each pipeline step's type, read from PipelineOptions: unions, arrays, Omit<...> and & { ... } are understood. */
+function stepKeys(step: string): StepType {
+  const alts = splitTop(pipelineMembers.get(step)!, '|');
+  const r: StepType = { keys: [], allowsFalse: alts.includes('false'), allowsBoolean: alts.includes('boolean'), omitted: [], module: null, typeName: null };
+  const objects = alts.filter((x) => x !== 'false' && x !== 'boolean' && x !== 'true');
+  if (!objects.length) return { ...r, keys: 'boolean' };
+  const keys = new Set<string>();
+  for (const alt of objects) {
+    for (const part0 of splitTop(alt, '&')) {
+      const part = part0.replace(/\[\]$/, '');
+      if (part.startsWith('{')) { for (const k of members(braced(part, 0)).keys()) keys.add(k); continue; }
+      const om = /^Omit<\s*(\w+)\s*,\s*(.+)>$/.exec(part);
+      const name = om ? om[1] : part;
+      if (!/^\w+$/.test(name)) throw new Error(`PipelineOptions.${step}: cannot read the type ${part}`);
+      const module = imports.get(name);
+      if (!module) throw new Error(`PipelineOptions.${step}: ${name} is not imported in pipeline.ts`);
+      const omitted = om ? [...om[2].matchAll(/'(\w+)'/g)].map((m) => m[1]) : [];
+      for (const k of interfaceMembers(module, name).keys()) if (!omitted.includes(k)) keys.add(k);
+      r.omitted.push(...omitted);
+      r.module ??= module;
+      r.typeName ??= name;
+    }
+  }
+  return { ...r, keys: [...keys] };
 }
 
 const sorted = (a: readonly string[]) => [...a].sort();
@@ -103,6 +162,17 @@ function acceptedAtRunTime(call: (o: Record<string, unknown>) => unknown, base: 
   throw new Error('an unknown key was accepted');
 }
 
+const loadDir = mkdtempSync(join(tmpdir(), 'fascicle-drift-'));
+afterAll(() => rmSync(loadDir, { recursive: true, force: true }));
+writeFileSync(join(loadDir, 'a.csv'), 'time (ms),s1 (uV)\n0,1\n0.05,2\n0.1,3\n');
+/** Load a one-file manifest with this analysis section: the error, or null. */
+function loadAnalysis(analysis: object): Error | null {
+  const p = join(loadDir, 'm.json');
+  writeFileSync(p, JSON.stringify({ fascicleManifest: 1, analysis, files: [{ path: 'a.csv', conditions: { preparation: 'P1' } }] }));
+  try { readManifest(p); } catch (e) { return e as Error; }
+  return null;
+}
+
 // a small set the verbs can run on (values do not matter: the key check comes first)
 const fs = 20000, n = 200;
 const set = new SweepSet({
@@ -115,13 +185,17 @@ describe('manifest analysis keys follow the pipeline (drift test)', () => {
     expect(sorted(Object.keys(ANALYSIS_KEYS))).toEqual(sorted(PIPELINE_OPTION_KEYS));
     expect(sorted([...pipelineMembers.keys()])).toEqual(sorted(PIPELINE_OPTION_KEYS));
   });
-  it.each([...PIPELINE_OPTION_KEYS])('%s: the manifest accepts exactly the keys of its option type', (step) => {
-    const { keys } = stepKeys(step);
+  it.each([...PIPELINE_OPTION_KEYS])('%s: the manifest accepts exactly the keys of its option type, and false / true where the type allows', (step) => {
+    const { keys, allowsFalse, allowsBoolean } = stepKeys(step);
     if (keys === 'boolean') expect(ANALYSIS_KEYS[step]).toBe('boolean');
     else {
       expect(ANALYSIS_KEYS[step]).not.toBe('boolean');
       expect(sorted(manifestList(step)), `${step}: manifest list vs its option type`).toEqual(sorted(keys));
     }
+    if (allowsFalse || allowsBoolean || keys === 'boolean') expect(loadAnalysis({ [step]: false }), `${step}: false`).toBeNull();
+    else expect(loadAnalysis({ [step]: false }), `${step}: false`).toBeInstanceOf(ConfigError);
+    if (allowsBoolean || keys === 'boolean') expect(loadAnalysis({ [step]: true }), `${step}: true`).toBeNull();
+    else expect(loadAnalysis({ [step]: true }), `${step}: true`).toBeInstanceOf(ConfigError);
   });
   it('verbs that check keys at run time accept exactly what the manifest accepts', () => {
     const runTime: Record<string, string[]> = {
@@ -130,23 +204,35 @@ describe('manifest analysis keys follow the pipeline (drift test)', () => {
       hum: acceptedAtRunTime((o) => set.removeHum(o as never)),
       filter: acceptedAtRunTime((o) => set.filter(o as never)),
       components: acceptedAtRunTime((o) => set.components(o as never)),
+      qc: acceptedAtRunTime((o) => sweepQc(set, o as never)),
+      pairedPulse: acceptedAtRunTime((o) => pairedPulse(set, o as never)),
+      trains: acceptedAtRunTime((o) => trains(set, o as never)),
+      velocityDistribution: acceptedAtRunTime((o) => velocityDistribution(set, o as never)),
     };
-    for (const [step, keys] of Object.entries(runTime)) expect(sorted(manifestList(step)), step).toEqual(sorted(keys));
+    for (const [step, keys] of Object.entries(runTime)) {
+      const { omitted } = stepKeys(step);
+      expect(sorted(manifestList(step)), step).toEqual(sorted(keys.filter((k) => !omitted.includes(k))));
+    }
   });
   it('every key of a step\'s exported defaults object is accepted, unless the step does not take it as an option', async () => {
     // defaults keys that are constants of the method, not options (checked below to be no option)
     const internal: Record<string, string[]> = {
       baseline: ['stopBeforeStimulusMs'], recruitment: ['thresholdFraction'], strengthDuration: ['minWidths'],
+      qc: ['quietStopMs', 'endFraction', 'perSweepKeys', 'peerKeys'], groups: ['animalKeys'], mixed: ['randomKeys'],
+      velocityDistribution: ['fitWindowStartMs', 'sfpWindowFraction', 'twoDistanceLambda', 'percentiles'],
     };
     let seen = 0;
     for (const step of PIPELINE_OPTION_KEYS) {
-      const { keys, module } = stepKeys(step);
-      if (!module || keys === 'boolean') continue;
+      const { keys, module, typeName, omitted } = stepKeys(step);
+      if (!module || !typeName || keys === 'boolean') continue;
       const mod = (await import(module)) as Record<string, unknown>;
-      const name = [`${step}Defaults`, `${step.replace(/s$/, '')}Defaults`].find((x) => x in mod);
-      if (!name) continue;
+      // BaselineOptions -> baselineDefaults, SweepQcOptions -> sweepQcDefaults, TrainOptions -> trainDefaults
+      const base = typeName.replace(/Options$/, '');
+      const name = `${base[0].toLowerCase()}${base.slice(1)}Defaults`;
+      if (!(name in mod)) continue;
       seen++;
       for (const k of Object.keys(mod[name] as object)) {
+        if (omitted.includes(k)) continue;
         if ((internal[step] ?? []).includes(k)) {
           expect(keys, `${name}.${k} is listed as internal here but is an option of ${step}: add it to the manifest`).not.toContain(k);
           continue;
@@ -154,15 +240,15 @@ describe('manifest analysis keys follow the pipeline (drift test)', () => {
         expect(manifestList(step), `${name}.${k}`).toContain(k);
       }
     }
-    expect(seen).toBeGreaterThanOrEqual(6); // baseline, artifact, hum, filter, component, doseResponse, recruitment, ...
+    expect(seen).toBeGreaterThanOrEqual(8); // baseline, artifact, hum, filter, component, doseResponse, recruitment, ...
     // the internal ones are refused by a verb that checks keys
     expect(() => set.baseline({ stopBeforeStimulusMs: 0.1 } as never)).toThrow(/unknown key "stopBeforeStimulusMs"/);
   });
   it('SERIES holds exactly the series names the pipeline and study look for, and the schema the same', () => {
     const found = new Set<string>();
     for (const f of ['pipeline.ts', 'study.ts']) {
-      const src = code(join(root, 'src', 'report', f));
-      for (const re of [/\bhas\('([\w-]+)'\)/g, /hasSeries\([^,]+,\s*'([\w-]+)'\)/g, /series\s*[!=]==\s*'([\w-]+)'/g, /series:\s*'([\w-]+)'/g]) {
+      const src = readFileSync(join(root, 'src', 'report', f), 'utf8');
+      for (const re of [/\bhas\('([\w-]+)'\)/g, /(?:hasSeries|seriesOf)\([^,()]+,\s*'([\w-]+)'\)/g, /series\s*[!=]==\s*'([\w-]+)'/g, /series:\s*'([\w-]+)'/g]) {
         for (const m of src.matchAll(re)) found.add(m[1]);
       }
     }
@@ -182,15 +268,7 @@ describe('manifest analysis keys follow the pipeline (drift test)', () => {
 
 describe('manifest values of options the pipeline uses inside flagged analyses', () => {
   // a bad value there would otherwise become a "rejected" flag and exit 0; here it is a configuration error
-  const dir = mkdtempSync(join(tmpdir(), 'fascicle-drift-'));
-  afterAll(() => rmSync(dir, { recursive: true, force: true }));
-  writeFileSync(join(dir, 'a.csv'), 'time (ms),s1 (uV)\n0,1\n0.05,2\n0.1,3\n');
-  const load = (analysis: object) => {
-    const p = join(dir, 'm.json');
-    writeFileSync(p, JSON.stringify({ fascicleManifest: 1, analysis, files: [{ path: 'a.csv', conditions: { preparation: 'P1' } }] }));
-    try { readManifest(p); } catch (e) { return e as Error; }
-    return null;
-  };
+  const load = loadAnalysis;
   it('every checked value belongs to a key the manifest accepts', () => {
     for (const k of Object.keys(ANALYSIS_VALUES)) {
       const [step, key] = k.split('/');
