@@ -37,8 +37,9 @@ and "--version" (and npx in some npm versions) answer for npm itself, not for fa
 
 Exit codes: 0 success, 2 usage or configuration error (command line or manifest settings,
 or an output folder fascicle will not overwrite), 3 bad input file, 4 data cannot support
-the analysis (nothing at all could be computed), 5 rerun did not reproduce, 6 the output could not be written (disk full,
-read-only, no permission), 7 a worker thread failed, 1 other error.`,
+the analysis (nothing at all could be computed), 5 rerun did not reproduce, 6 the output
+could not be written (disk full, read-only, no permission), 7 a worker thread failed,
+1 other error.`,
   run: `fascicle run <manifest.json> --out <dir> [options]
 
 Runs the standard pipeline on the study the manifest describes: the conditioning in the
@@ -190,9 +191,23 @@ async function main(argv0: string[]): Promise<number> {
  * (even with flags), 4 when nothing at all could be (the bundle is written so the flags can be read).
  */
 function reportStudy(s: Study, out: string): number {
-  for (const row of s.tables.dose_response_summary) if (typeof row.ic50 === 'number') console.log(`  IC50 ${row.class}: ${fmt(row.ic50)} ${row.concentrationUnit} (95% CI ${fmt(row.ic50_ci95_low)}-${fmt(row.ic50_ci95_high)}), Hill slope ${fmt(row.hill)}`);
-  for (const row of s.tables.strength_duration ?? []) if (row.chronaxie_ms !== null) console.log(`  chronaxie ${row.class} (${row.preparation}): ${fmt(row.chronaxie_ms)} ms (95% CI ${fmt(row.chronaxie_ci95_low_ms)}-${fmt(row.chronaxie_ci95_high_ms)}), rheobase ${fmt(row.rheobase)}${row.intensityUnit ? ` ${row.intensityUnit}` : ''}`);
-  for (const row of s.tables.temperature) if (typeof row.q10 === 'number') console.log(`  Q10 ${row.class}: ${fmt(row.q10)} (95% CI ${fmt(row.q10_ci95_low)}-${fmt(row.q10_ci95_high)})`);
+  const ci = (lo: unknown, hi: unknown) => `95% CI ${fmt(lo)}-${fmt(hi)}`;
+  // curves are per recording site unless the sites are pooled
+  const at = (r: Record<string, unknown>) => (typeof r.distanceMm === 'number' ? ` at ${r.distanceMm} mm` : '');
+  for (const row of s.tables.dose_response_summary) {
+    if (typeof row.ic50 !== 'number') continue; // not measured: in the flags
+    console.log(`  IC50 ${row.class}${at(row)}: ${fmt(row.ic50)} ${row.concentrationUnit} (${ci(row.ic50_ci95_low, row.ic50_ci95_high)}), `
+      + `Hill slope ${fmt(row.hill)}`);
+  }
+  for (const row of s.tables.strength_duration ?? []) {
+    if (row.chronaxie_ms === null) continue;
+    console.log(`  chronaxie ${row.class} (${row.preparation}): ${fmt(row.chronaxie_ms)} ms `
+      + `(${ci(row.chronaxie_ci95_low_ms, row.chronaxie_ci95_high_ms)}), `
+      + `rheobase ${fmt(row.rheobase)}${row.intensityUnit ? ` ${row.intensityUnit}` : ''}`);
+  }
+  for (const row of s.tables.temperature) {
+    if (typeof row.q10 === 'number') console.log(`  Q10 ${row.class}${at(row)}: ${fmt(row.q10)} (${ci(row.q10_ci95_low, row.q10_ci95_high)})`);
+  }
   for (const n of s.notes) console.log(`  note: ${n}`);
   for (const line of flagReport(s.tables.flags ?? [])) console.error(line);
   console.log(`bundle written to ${out}`);
