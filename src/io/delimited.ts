@@ -8,12 +8,13 @@
  * units in headers as `name (unit)` or `name [unit]`; a UTF-8 byte-order mark and
  * CRLF line ends are accepted. Lines starting with '#' are comments.
  */
-import { runSweeps, sharedSamples, threads } from '../parallel/pool';
+import { runSweeps, sharedBytes, sharedSamples, threads } from '../parallel/pool';
 import { InputError, OptionError } from '../errors';
 import { checkKeys, conditionsProblem, finite, nearest, oneOf } from '../validate';
 import { SweepSet, type Conditions } from '../sweeps/SweepSet';
 import { parseSignalUnit, parseTimeUnit, splitHeader, timeToMs, type SignalUnit, type TimeUnit } from '../sweeps/units';
-import { allocSamples, readInput } from './files';
+import { readSync, closeSync } from 'node:fs';
+import { allocSamples, lazySource, openInput, readInput } from './files';
 import { fieldText, parseNumber } from './numbers';
 import { PLAIN_BLOCK, flushBlock, plainRow } from './plainRows';
 import { VERSION } from '../version';
@@ -49,11 +50,175 @@ const SWEEP_NAMES = ['sweep', 'trace', 'sweep_id', 'sweepid', 'episode'];
 const TIME_NAMES = ['time', 't'];
 const VALUE_NAMES = ['value', 'signal', 'voltage', 'amplitude', 'potential', 'v'];
 
+/** Wide files of at least this many bytes are read part by part (STREAM_PART_BYTES) into the samples. */
+export const STREAM_CSV_BYTES = 1 << 24;
+/** The part of a file read at a time when streaming (grown when one line is longer). */
+export const STREAM_PART_BYTES = 1 << 24;
+
 /** Load a delimited text file into a SweepSet. @throws InputError naming file, line and column. */
 export function readDelimited(path: string, options: DelimitedOptions = {}): SweepSet {
+  // a large wide file of plain rows is parsed part by part straight into the samples, so the whole
+  // text and the samples are never held together; anything else is read whole and parsed below
+  const streamed = streamWide(path, options);
+  if (streamed) return streamed;
   // large files go to shared memory so that all threads can parse them
   const { bytes, source } = readInput(path, { shared: (size) => size >= PARALLEL_CSV_BYTES && threads() > 1 });
   return parseDelimited(bytes, path, options, source);
+}
+
+/**
+ * A large wide file whose data lines are all plain rows (the fast path of ./plainRows),
+ * read in parts of STREAM_PART_BYTES: the header (and two rows) by parseDelimited itself, a
+ * first pass counting the rows, then each part parsed (on all threads) into the samples.
+ * The numbers are those of the fast path, which parseDelimited uses for the same rows,
+ * and the set is built as parseDelimited builds it. Returns null, having kept nothing,
+ * for any other file (or any doubt): the caller then reads the file whole, which gives
+ * the same result or names the error.
+ */
+export function streamWide(path: string, options: DelimitedOptions): SweepSet | null {
+  const { fd, stat } = openInput(path);
+  try {
+    const size = stat.size;
+    if (size < STREAM_CSV_BYTES) return null;
+    const readAt = (buf: Uint8Array, len: number, off: number): boolean => {
+      for (let got = 0; got < len;) {
+        const r = readSync(fd, buf, got, len - got, off + got);
+        if (r <= 0) return false;
+        got += r;
+      }
+      return true;
+    };
+    // the header line as parseDelimited finds it (the first line not empty or blank and not a '#' comment), then two rows
+    let head: Uint8Array | null = null;
+    let pos = -1, headerLine = 0, prefixEnd = -1;
+    for (let L = Math.min(size, 1 << 20); ; L = Math.min(size, 4 * L)) {
+      head = new Uint8Array(L);
+      if (!readAt(head, L, 0)) return null;
+      let p = head[0] === 0xef && head[1] === 0xbb && head[2] === 0xbf ? 3 : 0;
+      let line = 0;
+      pos = -1;
+      while (p < L) {
+        const start = p;
+        const end = head.indexOf(10, p);
+        if (end < 0) break;
+        p = end + 1;
+        line++;
+        let e = end;
+        if (e > start && head[e - 1] === 13) e--;
+        let q = start;
+        while (q < e && head[q] === 32) q++;
+        if (q === e || head[q] === 35) continue;
+        pos = p;
+        headerLine = line;
+        break;
+      }
+      const k1 = pos < 0 ? -1 : head.indexOf(10, pos);
+      const k2 = k1 < 0 ? -1 : head.indexOf(10, k1 + 1);
+      if (k2 >= 0) { prefixEnd = k2 + 1; break; }
+      if (L === size || L > MAX_HEADER_BYTES) return null;
+    }
+    let first: SweepSet;
+    try {
+      first = parseDelimited(head.subarray(0, prefixEnd), path, options);
+    } catch {
+      return null; // read whole, the file gives the same error with its place
+    }
+    head = null;
+    const how = first.history[0].options as { layout: string; delimiter: string; decimal: string; timeUnit: TimeUnit };
+    if (how.layout !== 'wide') return null;
+    const dec = how.decimal === ',' ? 44 : 46;
+    const dcode = how.delimiter.charCodeAt(0);
+    // a ';' or tab file may have a decimal comma further down: any comma at all sends it to the whole reader
+    const commaDecides = how.delimiter !== ',' && (options.decimal === undefined || options.decimal === 'auto');
+    const ncol = first.nSweeps + 1;
+    const nSweeps = first.nSweeps;
+    const T = threads();
+    let B = STREAM_PART_BYTES;
+    let part = T > 1 ? sharedBytes(B) : new Uint8Array(B);
+    // pass 1: rows (line starts after the header), as parseDelimited counts them
+    let newlines = 0;
+    for (let off = pos; off < size; off += B) {
+      const len = Math.min(B, size - off);
+      if (!readAt(part, len, off)) return null;
+      const view = Buffer.from(part.buffer, part.byteOffset, len); // Buffer's indexOf is a fast byte search
+      for (let k = view.indexOf(10); k >= 0; k = view.indexOf(10, k + 1)) newlines++;
+      if (commaDecides && view.indexOf(44) >= 0) return null;
+    }
+    if (pos >= size) return null;
+    const last = new Uint8Array(1);
+    if (!readAt(last, 1, size - 1)) return null;
+    const rowsMax = newlines + (last[0] === 10 ? 0 : 1);
+    if (rowsMax < 2 || rowsMax > Math.floor((size - pos + 1) / (2 * ncol)) + 1) return null;
+    const t = T > 1 ? new Float64Array(new SharedArrayBuffer(rowsMax * 8)) : new Float64Array(rowsMax);
+    const out = allocSamples(nSweeps * rowsMax, path, `${nSweeps} sweeps x up to ${rowsMax} rows`);
+    const parts = Math.max(1, T);
+    const cut = (n: number) => (T > 1 ? new Float64Array(new SharedArrayBuffer(n * 8)) : new Float64Array(n));
+    const starts = cut(parts + 1), firstRows = cut(parts + 1);
+    // one thread: rows gathered in a row-major block of PLAIN_BLOCK rows, written sweep-major when full
+    const scratch = new Float64Array(PLAIN_BLOCK * nSweeps);
+    const parseHere = (bytes: Uint8Array, view: Buffer, r: number): number => {
+      for (let k = 0, len = bytes.length; k < len;) {
+        let e = view.indexOf(10, k);
+        if (e < 0) e = len;
+        let le = e;
+        if (le > k && bytes[le - 1] === 13) le--;
+        if (le === k || r >= rowsMax || !plainRow(bytes, k, le, ncol, dec, dcode, t, r, scratch, r & (PLAIN_BLOCK - 1))) return -1;
+        r++;
+        if ((r & (PLAIN_BLOCK - 1)) === 0) flushBlock(scratch, nSweeps, out, rowsMax, r - PLAIN_BLOCK, PLAIN_BLOCK);
+        k = e + 1;
+      }
+      return r;
+    };
+    // pass 2: each part ends at a line end, parsed straight into t and the samples
+    let row = 0;
+    for (let off = pos; off < size;) {
+      let len = Math.min(B, size - off);
+      if (!readAt(part, len, off)) return null;
+      if (off + len < size) {
+        const nl = Buffer.from(part.buffer, part.byteOffset, len).lastIndexOf(10);
+        if (nl < 0) { B *= 2; part = T > 1 ? sharedBytes(B) : new Uint8Array(B); continue; } // a line longer than the part
+        len = nl + 1;
+      }
+      const bytes = part.subarray(0, len);
+      const view = Buffer.from(part.buffer, part.byteOffset, len);
+      // the part cut into one piece per thread at line starts, with the first row of each
+      starts[0] = 0;
+      starts[parts] = len;
+      for (let j = 1; j < parts; j++) {
+        const e = view.indexOf(10, Math.floor((len * j) / parts));
+        starts[j] = e < 0 ? len : e + 1;
+      }
+      let r = row, nextCut = 1;
+      firstRows[0] = row;
+      for (let k = 0; k < len;) {
+        while (nextCut < parts && starts[nextCut] <= k) firstRows[nextCut++] = r;
+        const e = view.indexOf(10, k);
+        r++;
+        if (e < 0) break;
+        k = e + 1;
+      }
+      while (nextCut <= parts) firstRows[nextCut++] = r;
+      if (T > 1) {
+        const res = runSweeps('csvWide', { bytes, starts, firstRows, ncol, rowsMax, dec, dcode, out, t }, parts, len);
+        if (!res.every((x) => x >= 0)) return null; // a line that is not a plain row
+      } else if (parseHere(bytes, view, row) !== r) return null;
+      row = r;
+      off += len;
+    }
+    if (row !== rowsMax) return null;
+    if (T <= 1 && row & (PLAIN_BLOCK - 1)) flushBlock(scratch, nSweeps, out, rowsMax, row - (row & (PLAIN_BLOCK - 1)), row & (PLAIN_BLOCK - 1));
+    const nSamples = rowsMax;
+    checkTime(t, path, (i) => headerLine + 1 + i, 1);
+    const f = timeToMs(how.timeUnit);
+    const dtMs = ((t[nSamples - 1] - t[0]) / (nSamples - 1)) * f;
+    const t0Ms = (t[0] - (options.stimulusAt ?? delimitedDefaults.stimulusAt)) * f;
+    return new SweepSet({
+      data: out, nSweeps, nSamples, fs: 1000 / dtMs, t0Ms, units: first.units,
+      conditions: first.conditions, sources: [lazySource(path, stat)], history: first.history,
+    });
+  } finally {
+    closeSync(fd);
+  }
 }
 
 interface LineCursor { start: number; end: number; line: number }

@@ -1,12 +1,13 @@
 import { describe, it, expect } from 'vitest';
 import { mkdtempSync, writeFileSync, readFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
+import { createHash } from 'node:crypto';
 import { join } from 'node:path';
 import fc from 'fast-check';
-import { readDelimited, InputError, OptionError, setThreads, stopThreads, threads } from '../../src';
+import { readDelimited, parseDelimited, InputError, OptionError, setThreads, stopThreads, threads } from '../../src';
 import { plainRow } from '../../src/io/plainRows';
 import { parseNumber } from '../../src/io/numbers';
-import { PARALLEL_CSV_BYTES } from '../../src/io/delimited';
+import { PARALLEL_CSV_BYTES, STREAM_CSV_BYTES, STREAM_PART_BYTES, streamWide } from '../../src/io/delimited';
 
 const dir = mkdtempSync(join(tmpdir(), 'fascicle-io-'));
 let k = 0;
@@ -249,5 +250,69 @@ describe('the CSV fast path reads exponent notation exactly (%e and %g as C prin
     }
     await stopThreads();
     setThreads(before);
+  }, 120_000);
+});
+
+describe('a large wide file is read part by part, with the result of reading it whole', () => {
+  // over STREAM_CSV_BYTES, so that readDelimited streams it in two parts of STREAM_PART_BYTES
+  const ns = 500, n = 4200;
+  let seed = 99;
+  const rnd = () => ((seed = (Math.imul(seed, 1103515245) + 12345) >>> 0) / 2 ** 32);
+  const rows = ['# recorded by an invented rig', 'time (ms);' + Array.from({ length: ns }, (_, j) => `s${j} [uV]`).join(';')];
+  for (let i = 0; i < n; i++) {
+    rows.push(`${(i * 0.02 - 1).toFixed(2)};${Array.from({ length: ns }, () => String(Math.round((rnd() - 0.5) * 2e6) / 1000)).join(';')}`);
+  }
+  const text = rows.join('\r\n') + '\r\n';
+  const sameSet = (a: ReturnType<typeof readDelimited>, b: ReturnType<typeof readDelimited>) => {
+    expect([a.nSweeps, a.nSamples, a.fs, a.t0Ms, a.units]).toEqual([b.nSweeps, b.nSamples, b.fs, b.t0Ms, b.units]);
+    expect(a.conditions).toEqual(b.conditions);
+    expect(a.history).toEqual(b.history);
+    expect(a.sources.map((s) => [s.path, s.bytes, s.sha256])).toEqual(b.sources.map((s) => [s.path, s.bytes, s.sha256]));
+    let same = a.data.length === b.data.length;
+    for (let i = 0; same && i < a.data.length; i++) same = Object.is(a.data[i], b.data[i]);
+    expect(same).toBe(true);
+  };
+  it('the same set as parseDelimited of the whole text (samples bit for bit, time, units, conditions, history), on 1 and 2 threads', async () => {
+    expect(text.length).toBeGreaterThan(STREAM_CSV_BYTES);
+    expect(text.length).toBeLessThan(2 * STREAM_PART_BYTES);
+    const p = file(text);
+    const whole = readFileSync(p);
+    const before = threads();
+    for (const th of [1, 2]) {
+      setThreads(th);
+      expect(streamWide(p, {})).not.toBe(null); // this file is streamed
+      const s = readDelimited(p, { conditions: { preparation: 'X1' } });
+      sameSet(s, parseDelimited(new Uint8Array(whole), p, { conditions: { preparation: 'X1' } }, { path: p, bytes: whole.length, sha256: s.sources[0].sha256 }));
+      // a value in the second part, against Number() of its text
+      expect(s.sweep(123)[n - 7]).toBe(Number(rows[2 + n - 7].split(';')[124]));
+    }
+    await stopThreads();
+    setThreads(before);
+  }, 120_000);
+  it('a line late in the file that is not a plain row (comment, exact-parser number, bad cell, uneven time) gives what reading it whole gives', () => {
+    const late = 2 + n - 100;
+    const variants: [string, (r: string) => string][] = [
+      ['a comment line', (r) => `# note\r\n${r}`],
+      ['a quoted-free number with a plus sign', (r) => r.replace(';', ';+')],
+      ['a bad cell', (r) => r.replace(/;[^;]*$/, ';x1')],
+      ['an uneven time', (r) => r.replace(/^[^;]*/, (v) => String(Number(v) + 0.005))],
+    ];
+    for (const [what, edit] of variants) {
+      const r2 = [...rows];
+      r2[late] = edit(r2[late]);
+      const p = file(r2.join('\r\n') + '\r\n');
+      let whole: unknown, streamed: unknown;
+      const bytes = readFileSync(p);
+      const source = { path: p, bytes: bytes.length, sha256: createHash('sha256').update(bytes).digest('hex') };
+      try { whole = parseDelimited(new Uint8Array(bytes), p, {}, source); } catch (e) { whole = e; }
+      try { streamed = readDelimited(p); } catch (e) { streamed = e; }
+      if (what !== 'an uneven time') expect(streamWide(p, {}), what).toBe(null); // left to the whole reader
+      if (whole instanceof Error) {
+        expect(streamed, what).toBeInstanceOf(InputError);
+        expect((streamed as Error).message, what).toBe(whole.message);
+      } else {
+        sameSet(streamed as ReturnType<typeof readDelimited>, whole as ReturnType<typeof readDelimited>);
+      }
+    }
   }, 120_000);
 });
