@@ -1,9 +1,13 @@
 /** The figures of a study bundle, as stand-alone HTML files that share the bundle's copy of plotly.js. */
 import type { Study } from '../report/study';
 import { recruitmentFigure, velocityFigure, doseResponseFigure, temperatureFigure, summaryFigure } from './builders';
-import { plotlyJs, type Figure } from './figure';
+import { plotlyJs, Figure } from './figure';
 import { plainTitle } from './export';
 import { escapeHtml } from '../notebook/html';
+import { recoveryFigure, trainFigure } from './recovery';
+import { groupFigures } from './groups';
+import { PairedPulseResult } from '../analysis/pairedPulse';
+import { TrainResult } from '../analysis/trains';
 
 export function studyFigureList(study: Study): Figure[] {
   const t = study.tables;
@@ -20,6 +24,13 @@ export function studyFigureList(study: Study): Figure[] {
     );
   const v = t.velocity.filter((r) => r.method === 'regression' && r.basis === 'centroid');
   if (v.length) figs.push(summaryFigure(v, 'velocity_m_s'));
+  // optional analyses: figures from their tables (the figure functions read points and summary only)
+  const named = (f: Figure, name: string) => new Figure(name, f.spec);
+  if (t.paired_pulse?.length && t.paired_pulse_summary) {
+    figs.push(named(recoveryFigure(new PairedPulseResult(t.paired_pulse, t.paired_pulse_summary, new Map(), [])), 'paired-pulse'));
+  }
+  if (t.train?.length && t.train_summary) figs.push(named(trainFigure(new TrainResult(t.train, t.train_summary, [])), 'train'));
+  if (study.groups && study.groups.points.length) figs.push(...groupFigures(study.groups));
   return figs;
 }
 

@@ -4,6 +4,28 @@ import { VERSION } from '../version';
 import { FIBRE_RANGE_M_S, NEGATIVE_UTILISATION_FRACTION, MIN_DELAY_SAMPLES } from '../analysis/velocity';
 import { latencyMethodsText } from '../measure/components';
 
+/**
+ * The analyses' own methods sentences (sweep QC, group statistics, mixed model, velocity distribution). Those
+ * modules import report/result, which imports this one, so they are handed in at start-up (report/pipeline.ts
+ * registers them) instead of imported here.
+ */
+export interface StepMethods {
+  qcStepMethods: (step: Step) => string;
+  qcReferences: readonly string[];
+  groupStepMethods: (step: Step) => string;
+  groupReferences: readonly string[];
+  mixedStepMethods: (step: Step) => string;
+  mixedReferences: readonly string[];
+  velocityDistributionSentence: (o: Record<string, unknown>) => [string, string[]];
+}
+let stepMethods: StepMethods | null = null;
+/** @internal called once by report/pipeline.ts */
+export function registerStepMethods(m: StepMethods): void {
+  stepMethods = m;
+}
+/** (registered whenever report/pipeline.ts is loaded, as by the package index; without it these steps add nothing) */
+const analysisMethods = (): StepMethods | null => stepMethods;
+
 const REFS: Record<string, string> = {
   butterworth: 'Butterworth S (1930) On the theory of filter amplifiers. Wireless Engineer 7:536-541.',
   gustafsson: 'Gustafsson F (1996) Determining the initial states in forward-backward filtering. IEEE Trans Signal Process 44:988-992.',
@@ -15,7 +37,12 @@ const REFS: Record<string, string> = {
   bates: 'Bates DM, Watts DG (1988) Nonlinear Regression Analysis and Its Applications. Wiley.',
   arrhenius: 'Arrhenius S (1889) Uber die Reaktionsgeschwindigkeit bei der Inversion von Rohrzucker durch Sauren. Z Phys Chem 4:226-248.',
   sines: 'Kay SM (1993) Fundamentals of Statistical Signal Processing: Estimation Theory. Prentice Hall.',
+  // from memory (as the paired-pulse module cites it)
+  bostock: 'Bostock H, Cikurel K, Burke D (1998) Threshold tracking techniques in the study of human peripheral nerve. Muscle Nerve 21:137-158.',
 };
+
+/** References the group and mixed-model sentences cite (Lazic, Aarts, and their own). */
+const cited = (sentence: string, refs: readonly string[]) => refs.filter((r) => sentence.includes(r.split(/ \(\d{4}\)/)[0].split(',')[0].split(' ')[0]));
 
 const fmtW = (w: unknown) => (Array.isArray(w) ? `${w[0]} to ${w[1]} ms` : String(w));
 const ord = (n: number) => `${n}${n % 10 === 1 && n !== 11 ? 'st' : n % 10 === 2 && n !== 12 ? 'nd' : n % 10 === 3 && n !== 13 ? 'rd' : 'th'}`;
@@ -113,6 +140,49 @@ export function methodsText(history: readonly Step[], extra: { files?: number; p
         s.push(`Temperature dependence was summarised, from the measured values only, as Q10 from the regression of the logarithm of ${what} on temperature and as the Arrhenius activation energy from the regression on the inverse absolute temperature (Arrhenius 1889), each with preparation-specific intercepts and a t-based 95% confidence interval (none when the residuals cannot estimate one: flat or exact data, or no residual degree of freedom).`);
         refs.add(REFS.arrhenius);
         break;
+      case 'sweepQc':
+      case 'rejectFlagged': {
+        const m = analysisMethods();
+        if (!m) break;
+        const t = m.qcStepMethods(h);
+        s.push(h.verb === 'sweepQc' ? `${t.replace(/ Flagged sweeps were kept\.$/, '')} Flagged sweeps were kept (listed in the sweep QC table; removal only when asked for).` : t);
+        m.qcReferences.forEach((r) => refs.add(r));
+        break;
+      }
+      case 'pairedPulse':
+        s.push(`Paired-pulse recovery: the conditioning-alone response was subtracted from each paired sweep, the test response was measured from the test stimulus as for test-alone sweeps, and expressed as a fraction of the test-alone response. The absolute refractory period was the longest interstimulus interval with no test response above detection while every longer interval had one. R50 and R90 came from a logistic function of log10 interval (floor 0, top 1) fitted by least squares, with 95% profile-likelihood intervals (conventions after Bostock, Cikurel & Burke 1998).`);
+        refs.add(REFS.bostock);
+        break;
+      case 'trains':
+        s.push(`Trains: each response was measured in its own window from its own stimulus to the next; a class failed at the first pulse not detected or with an area below ${Math.round(100 * Number(o.failFraction ?? 0.5))}% of pulse 1's.`);
+        break;
+      case 'compareGroups': {
+        const m = analysisMethods();
+        if (!m) break;
+        const t = m.groupStepMethods(h);
+        s.push(t);
+        cited(t, m.groupReferences).forEach((r) => refs.add(r));
+        break;
+      }
+      case 'mixedModel': {
+        const m = analysisMethods();
+        if (!m) break;
+        const t = m.mixedStepMethods(h);
+        s.push(t);
+        cited(t, [...m.groupReferences, ...m.mixedReferences]).forEach((r) => refs.add(r));
+        break;
+      }
+      // the pipeline's step over its velocity distributions (a result's own 'velocityDistribution' step is worded by
+      // the result's methods(), which adds the sentence itself)
+      case 'velocityDistributions': {
+        const m = analysisMethods();
+        if (!m) break;
+        const [t, more] = m.velocityDistributionSentence(o);
+        const each = `${o.count} distribution${o.count === 1 ? '' : 's'}: one per preparation, temperature and concentration with two or more distances, from the sweeps at the top intensity`;
+        s.push(o.count !== undefined ? `${t.replace(/\.\s*$/, '')} (${each}).` : t);
+        more.forEach((r) => refs.add(r));
+        break;
+      }
       default:
         break;
     }
