@@ -109,5 +109,5 @@ export { trains, trainDefaults, TrainResult } from './analysis/trains';
 export type { TrainOptions } from './analysis/trains';
 export { recoveryFigure, trainFigure } from './plot/recovery';
 export { simulatePairedPulse, simulateTrain, pairedPulseTruth, trainTruth, trainTimes } from './model/pulses';
-export { reportHtml, writeReportHtml, showReport } from './report/reportHtml';
+export { reportHtml, writeReportHtml, reportFragment, showReport } from './report/reportHtml';
 export type { ReportInput } from './report/reportHtml';

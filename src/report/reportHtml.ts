@@ -343,13 +343,20 @@ export function writeReportHtml(dir: string, input: Omit<ReportInput, 'bundle'>)
   return path;
 }
 
-/** Show the report in a notebook cell (plotly.js inlined once); outside a notebook, print its summary. */
-export function showReport(input: Omit<ReportInput, 'bundle'>): void {
+/**
+ * The report as a fragment for a notebook cell: its style (scoped to .fascicle-report),
+ * one inlined plotly.js and its main element, without the page's html, head and body.
+ */
+export function reportFragment(input: Omit<ReportInput, 'bundle'>): string {
   const html = reportHtml({ ...input, bundle: false });
-  // the page's style (scoped to .fascicle-report), plotly.js and its main element, without html/head/body
-  const body = html.slice(html.indexOf('<style>'), html.lastIndexOf('</body>')).replace('</head><body>', '')
+  return html.slice(html.indexOf('<style>'), html.lastIndexOf('</body>')).replace('</head><body>', '')
     .replace('body{margin:0}', '');
-  const text = `Study report: ${input.study.tables.components.length} component rows, ${input.study.tables.flags.length} flags, `
-    + `${(input.figures ?? studyFigureList(input.study)).length} figures; call writeReportHtml(dir, input) for the page`;
-  displayHtml(body, text);
+}
+
+/** Show the report in a notebook cell (reportFragment); outside a notebook, print a one-line summary. */
+export function showReport(input: Omit<ReportInput, 'bundle'>): void {
+  const t = input.study.tables;
+  const text = `Study report: ${t.components.length} component rows, ${t.flags.length} flags, `
+    + `${(input.figures ?? studyFigureList(input.study)).length} figures; writeReportHtml(dir, input) writes the page`;
+  displayHtml(reportFragment(input), text);
 }

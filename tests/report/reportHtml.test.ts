@@ -13,7 +13,7 @@ import { join } from 'node:path';
 import { pathToFileURL } from 'node:url';
 import { chromium, type Browser } from 'playwright-core';
 import { runStudy } from '../../src/cli/engine';
-import { reportHtml, writeReportHtml, type ReportInput } from '../../src/report/reportHtml';
+import { reportHtml, writeReportHtml, reportFragment, showReport, type ReportInput } from '../../src/report/reportHtml';
 import { studyFigureList } from '../../src/plot/study';
 import { findBrowser } from '../../src/plot/export';
 import type { Study } from '../../src/report/study';
@@ -91,6 +91,7 @@ describe.skipIf(!browserPath)('study report (headless Chromium, demo study)', ()
     expect(sorted).toBe(true);
     // the study's own numbers appear: each IC50 of the summary table (4 significant digits, as tables show them)
     const text = await page.textContent('#summary');
+    expect(text).toContain('signal unit: µV'); // printed units (the data say uV)
     for (const r of study.tables.dose_response_summary) {
       if (typeof r.ic50 === 'number') expect(text).toContain(String(Number(r.ic50.toPrecision(4))));
     }
@@ -133,6 +134,19 @@ describe.skipIf(!browserPath)('study report (headless Chromium, demo study)', ()
     expect(() => writeReportHtml(other, input)).toThrow(/did not write/);
     expect(readFileSync(join(other, 'report.html'), 'utf8')).toBe('<p>mine</p>');
   }, 60000);
+
+  it('notebook form: a fragment without html/head/body, one plotly copy, styles scoped; text outside a kernel', () => {
+    const f = reportFragment(input);
+    expect(f).not.toMatch(/<\/?(html|head|body)[\s>]/);
+    expect(f).not.toMatch(/(^|[}\s])body\{/); // no rule that would restyle the notebook page
+    expect(f.split('window.define=undefined').length).toBe(2); // plotly.js inlined once
+    expect(f.split('class="fascicle-figure"').length - 1).toBe(studyFigureList(study).length);
+    const logged: string[] = [];
+    const log = console.log;
+    console.log = (x: unknown) => { logged.push(String(x)); };
+    try { showReport(input); } finally { console.log = log; }
+    expect(logged.join('\n')).toMatch(/^Study report: \d+ component rows, \d+ flags, \d+ figures/);
+  });
 
   it('an empty table says why; a misspelt input key names the nearest', () => {
     const empty = { ...study, tables: { ...study.tables, dose_response_summary: [] },
