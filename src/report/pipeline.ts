@@ -263,13 +263,14 @@ export function analyse(raw: SweepSet, o: PipelineOptions, prep: string | null =
   const flags: Flag[] = [];
   const { set, qc, sweepsRemoved } = qualityControl(raw, o, prep, flags, notes);
   let conditioned = condition(set, o);
+  // these analyses average (or resample) the sweeps of each condition themselves
+  const recovery = recoveryAnalyses(conditioned, o, prep, flags, notes);
+  const vdist = velocityDistributions(conditioned, o, prep, flags, notes);
   if (o.averageRepeats !== false) {
     const before = conditioned.nSweeps;
     conditioned = averageRepeats(conditioned);
     if (conditioned.nSweeps !== before) notes.push(`${prep ? `${prep}: ` : ''}repeats averaged before measuring: ${before} sweeps -> ${conditioned.nSweeps} (set averageRepeats: false to measure every sweep)`);
   }
-  const recovery = recoveryAnalyses(conditioned, o, prep, flags, notes);
-  const vdist = velocityDistributions(conditioned, o, prep, flags, notes);
   const table = standardSweeps(conditioned, o).components(o.components ?? {});
   const has = (name: string) => hasSeries(table, name);
   // velocity: the distance series when present, else drug-free sweeps

@@ -170,3 +170,47 @@ describe('group statistics and the mixed model across preparations', () => {
     expect(s2.tables.velocity.length).toBeGreaterThan(0);
   });
 });
+
+describe('velocity distributions (opt-in) in the pipeline', () => {
+  // three distances of one preparation, and a second preparation recorded at one distance only
+  const three = (() => {
+    const sweeps = [];
+    for (const d of [20, 30, 40]) for (let r = 0; r < 3; r++) {
+      sweeps.push({ intensity: 20, distanceMm: d, temperatureC: 37, concentration: 0, pulseWidthMs: 0.05, pulsesMs: [0], conditions: { preparation: 'N1', series: 'distance', repeat: r } });
+    }
+    return simulateNerve({ model: fastOnly(), seed: 9, grid: { fs: 50000, t0Ms: -3, nSamples: 900 }, sweeps, nuisance: nz });
+  })();
+  const one = distanceSet('N2', 4, fastOnly()).where({ distanceMm: 20 });
+  const set = SweepSet.concat([three, one]);
+  const vd = { bootstrap: 0, nVelocities: 30 };
+  const o: PipelineOptions = { ...base, qc: false, velocityDistribution: vd };
+  const study = combineStudy(byPreparation(set).map((p) => runPreparation(p.set, o)), o);
+  it('one distribution for the preparation with three distances (its tables carry the conditions), none without two', () => {
+    const pct = study.tables.velocity_distribution_percentiles!;
+    expect(new Set(pct.map((r) => r.preparation))).toEqual(new Set(['N1']));
+    expect(pct.every((r) => r.temperatureC === 37 && r.intensity === 20)).toBe(true);
+    expect(study.tables.velocity_distribution_residuals!.map((r) => r.distance_mm)).toEqual([20, 30, 40]);
+    expect(study.tables.velocity_distribution!.length).toBe(30);
+    expect(study.tables.velocity_distribution_classes!.length).toBeGreaterThan(0);
+    expect(study.notes.join('\n')).toMatch(/N2 velocity-distribution: no preparation, temperature and concentration with two or more distances/);
+    const m = methodsText(study.history);
+    expect(m).toMatch(/\(1 distribution: one per preparation, temperature and concentration/);
+    expect(m).toMatch(/Cummins KL, Perkel DH, Dorfman LJ \(1979\)/);
+  });
+  it('a fit status other than ok is a warning flag; without the option nothing is run', () => {
+    const res = runPipeline(three, o).velocityDistributions[0].result;
+    const f = study.tables.flags.filter((x) => x.analysis === 'velocity-distribution');
+    expect(f.length).toBe(res.fit.status === 'ok' ? 0 : 1);
+    const plain = combineStudy([runPreparation(three, { ...base, qc: false })], { ...base, qc: false });
+    expect(plain.tables.velocity_distribution).toBeUndefined();
+  });
+  it('a distribution that cannot be computed is a rejected flag; the preparation\'s other results stay', () => {
+    const bad = { ...o, velocityDistribution: { ...vd, fitWindow: [40, 60] as [number, number] } };
+    const r = runPreparation(three, bad);
+    const f = r.flags.find((x) => x.analysis === 'velocity-distribution')!;
+    expect(f.severity).toBe('rejected');
+    expect(String(f.reason).length).toBeGreaterThan(10);
+    expect(r.velocity.some((v) => typeof v.velocity_m_s === 'number')).toBe(true);
+    expect(() => runPipeline(three, { ...base, velocityDistribution: true } as never)).toThrow(/velocityDistribution/);
+  });
+});
