@@ -268,7 +268,7 @@ export function reportHtml(input: ReportInput): string {
     : '<p>No notes.</p>';
   const files = bundle
     ? '<p class="meta">Files of this bundle: <a href="methods.txt">methods.txt</a>, <a href="provenance.json">provenance.json</a>, '
-      + '<a href="notes.txt">notes.txt</a>, tables under tables/, figures under figures/.</p>'
+      + `<a href="notes.txt">notes.txt</a>, tables under tables/${figures.length ? ', figures under figures/' : ''}.</p>`
     : '';
   const toc = [
     '<a href="#summary">Summary</a>',
