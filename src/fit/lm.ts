@@ -12,7 +12,7 @@
  * Analysis and Its Applications, Wiley 1988 (standard errors, profile intervals).
  * Checked against the NIST StRD nonlinear regression problems (tests/fit/lm.test.ts).
  */
-import { invertSpd, solve } from '../signal/linalg';
+import { invertSpd } from '../signal/linalg';
 import { tQuantile, fSurvival } from './dist';
 import { OptionError } from '../errors';
 
@@ -67,21 +67,58 @@ export interface FitResult {
 
 function jacobian(o: FitOptions, p: number[], free: number[], x: readonly number[]): number[][] {
   const J: number[][] = x.map(() => new Array(free.length).fill(0));
+  return jacobianInto(o, p, free, x, J);
+}
+
+/** The Jacobian of the free parameters into J (every entry written). */
+function jacobianInto(o: FitOptions, p: number[], free: number[], x: readonly number[], J: number[][]): number[][] {
   if (o.gradient) {
-    x.forEach((xi, i) => {
-      const g = o.gradient!(xi, p);
-      free.forEach((k, j) => (J[i][j] = g[k]));
-    });
+    for (let i = 0; i < x.length; i++) {
+      const g = o.gradient(x[i], p);
+      const Ji = J[i];
+      for (let j = 0; j < free.length; j++) Ji[j] = g[free[j]];
+    }
     return J;
   }
-  free.forEach((k, j) => {
+  for (let j = 0; j < free.length; j++) {
+    const k = free[j];
     const h = 1e-6 * Math.max(Math.abs(p[k]), 1e-6);
     const pp = [...p], pm = [...p];
     pp[k] += h;
     pm[k] -= h;
     for (let i = 0; i < x.length; i++) J[i][j] = (o.model(x[i], pp) - o.model(x[i], pm)) / (2 * h);
-  });
+  }
   return J;
+}
+
+/**
+ * Solve the m x m system held in the augmented m x (m + 1) matrix M (right-hand side in
+ * column m) in place, into x: the same operations in the same order as solve() of
+ * ../signal/linalg (partial pivoting), without its copies. Returns false when singular.
+ */
+function solveInPlace(M: number[][], m: number, x: number[]): boolean {
+  for (let c = 0; c < m; c++) {
+    let piv = c;
+    for (let r = c + 1; r < m; r++) if (Math.abs(M[r][c]) > Math.abs(M[piv][c])) piv = r;
+    if (!(Math.abs(M[piv][c]) > 1e-300)) return false;
+    const row = M[c];
+    M[c] = M[piv];
+    M[piv] = row;
+    const Mc = M[c];
+    for (let r = c + 1; r < m; r++) {
+      const Mr = M[r];
+      const f = Mr[c] / Mc[c];
+      if (f === 0) continue;
+      for (let k = c; k <= m; k++) Mr[k] -= f * Mc[k];
+    }
+  }
+  for (let r = m - 1; r >= 0; r--) {
+    const Mr = M[r];
+    let s = Mr[m];
+    for (let k = r + 1; k < m; k++) s -= Mr[k] * x[k];
+    x[r] = s / Mr[r];
+  }
+  return true;
 }
 
 function rssOf(o: FitOptions, p: readonly number[], w: readonly number[]): number {
@@ -149,27 +186,44 @@ function fitOnce(o: FitOptions): FitResult {
   if (!Number.isFinite(rss)) {
     reason = 'the model is not finite at the starting values';
   } else {
+    // work arrays allocated once per fit (filled afresh each iteration: the same numbers as fresh ones)
+    const J: number[][] = o.x.map(() => new Array(m).fill(0));
+    const A: number[][] = free.map(() => new Array(m).fill(0));
+    const g: number[] = new Array(m).fill(0);
+    const M: number[][] = free.map(() => new Array(m + 1).fill(0));
+    const delta: number[] = new Array(m).fill(0);
     for (it = 1; it <= maxIt; it++) {
-      const J = jacobian(o, p, free, o.x);
-      const A = free.map(() => new Array(m).fill(0));
-      const g = new Array(m).fill(0);
+      jacobianInto(o, p, free, o.x, J);
+      for (let a = 0; a < m; a++) { A[a].fill(0); g[a] = 0; }
       for (let i = 0; i < n; i++) {
         const r = o.y[i] - o.model(o.x[i], p);
+        const Ji = J[i];
         for (let a = 0; a < m; a++) {
-          g[a] += w[i] * J[i][a] * r;
-          for (let b = 0; b <= a; b++) A[a][b] += w[i] * J[i][a] * J[i][b];
+          g[a] += w[i] * Ji[a] * r;
+          const Aa = A[a];
+          for (let b = 0; b <= a; b++) Aa[b] += w[i] * Ji[a] * Ji[b];
         }
       }
       for (let a = 0; a < m; a++) for (let b = a + 1; b < m; b++) A[a][b] = A[b][a];
-      const gmax = Math.max(...g.map(Math.abs));
+      // Math.max(...|g|): -Infinity for no parameter, NaN as soon as one is NaN
+      let gmax = -Infinity;
+      for (let a = 0; a < m; a++) {
+        const v = Math.abs(g[a]);
+        if (v !== v) { gmax = NaN; break; }
+        if (v > gmax) gmax = v;
+      }
       if (gmax < 1e-300) { converged = true; reason = 'gradient is zero'; break; }
       for (let a = 0; a < m; a++) dmax[a] = Math.max(dmax[a], A[a][a]);
       if (mu < 0) mu = 1e-3;
       let accepted = false;
       for (let tries = 0; tries < 60; tries++) {
-        const M = A.map((r, a) => r.map((v, b) => (a === b ? v + mu * Math.max(dmax[a], 1e-300) : v)));
-        const delta = solve(M, g);
-        if (!delta) { mu *= nu; nu *= 2; continue; }
+        // rows of M may have been swapped by the last solve: each is filled whole by its index
+        for (let a = 0; a < m; a++) {
+          const Ma = M[a], Aa = A[a];
+          for (let b = 0; b < m; b++) Ma[b] = a === b ? Aa[b] + mu * Math.max(dmax[a], 1e-300) : Aa[b];
+          Ma[m] = g[a];
+        }
+        if (!solveInPlace(M, m, delta)) { mu *= nu; nu *= 2; continue; }
         const trial = [...p];
         free.forEach((k, a) => (trial[k] += delta[a]));
         const pt = clamp(trial);

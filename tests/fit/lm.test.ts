@@ -1,5 +1,6 @@
 import { describe, it, expect } from 'vitest';
 import { fitCurve, profileCI, trusted } from '../../src/fit/lm';
+import { solve } from '../../src/signal/linalg';
 
 // NIST Statistical Reference Datasets, nonlinear regression (itl.nist.gov/div898/strd/nls),
 // certified values copied in ../shared/REFERENCES.md (V). Score: LRE = -log10(|est - cert| / |cert|).
@@ -77,5 +78,109 @@ describe('fitCurve behaviour', () => {
     expect(lo).toBeLessThan(f.params[1]);
     expect(hi).toBeGreaterThan(f.params[1]);
     expect(Math.abs(hi - f.params[1]) - Math.abs(f.params[1] - lo)).not.toBeCloseTo(0, 3);
+  });
+});
+
+/**
+ * Reference: the Levenberg-Marquardt iteration as written before its work arrays were
+ * allocated once (fresh arrays each iteration, linalg's solve), with fitCurve's restarts.
+ * fitCurve must give the same numbers bit for bit.
+ */
+type Opts = Parameters<typeof fitCurve>[0];
+function refOnce(o: Opts) {
+  const n = o.x.length, np = o.p0.length;
+  const lower = [...(o.lower ?? new Array(np).fill(-Infinity))], upper = [...(o.upper ?? new Array(np).fill(Infinity))];
+  const fixed = [...(o.fixed ?? new Array(np).fill(false))], w = [...(o.weights ?? new Array(n).fill(1))];
+  const clamp = (p: number[]) => p.map((v, k) => Math.min(upper[k], Math.max(lower[k], v)));
+  const rssOf = (p: readonly number[]) => { let s = 0; for (let i = 0; i < n; i++) { const r = o.y[i] - o.model(o.x[i], p); s += w[i] * r * r; } return s; };
+  const jac = (p: number[], free: number[]) => {
+    const J: number[][] = o.x.map(() => new Array(free.length).fill(0));
+    if (o.gradient) { o.x.forEach((xi, i) => { const g = o.gradient!(xi, p); free.forEach((k, j) => (J[i][j] = g[k])); }); return J; }
+    free.forEach((k, j) => {
+      const h = 1e-6 * Math.max(Math.abs(p[k]), 1e-6); const pp = [...p], pm = [...p]; pp[k] += h; pm[k] -= h;
+      for (let i = 0; i < n; i++) J[i][j] = (o.model(o.x[i], pp) - o.model(o.x[i], pm)) / (2 * h);
+    });
+    return J;
+  };
+  let p = clamp([...o.p0]);
+  const free = p.map((_, k) => k).filter((k) => !fixed[k]);
+  const m = free.length, maxIt = o.maxIterations ?? 2000, dmax = new Array(m).fill(0);
+  let rss = rssOf(p), mu = -1, nu = 2, it = 0, converged = false, reason = 'maximum iterations reached';
+  if (!Number.isFinite(rss)) reason = 'not finite';
+  else for (it = 1; it <= maxIt; it++) {
+    const J = jac(p, free); const A = free.map(() => new Array(m).fill(0)); const g = new Array(m).fill(0);
+    for (let i = 0; i < n; i++) {
+      const r = o.y[i] - o.model(o.x[i], p);
+      for (let a = 0; a < m; a++) { g[a] += w[i] * J[i][a] * r; for (let b = 0; b <= a; b++) A[a][b] += w[i] * J[i][a] * J[i][b]; }
+    }
+    for (let a = 0; a < m; a++) for (let b = a + 1; b < m; b++) A[a][b] = A[b][a];
+    if (Math.max(...g.map(Math.abs)) < 1e-300) { converged = true; reason = 'gradient is zero'; break; }
+    for (let a = 0; a < m; a++) dmax[a] = Math.max(dmax[a], A[a][a]);
+    if (mu < 0) mu = 1e-3;
+    let accepted = false;
+    for (let tries = 0; tries < 60; tries++) {
+      const delta = solve(A.map((r, a) => r.map((v, b) => (a === b ? v + mu * Math.max(dmax[a], 1e-300) : v))), g);
+      if (!delta) { mu *= nu; nu *= 2; continue; }
+      const trial = [...p]; free.forEach((k, a) => (trial[k] += delta[a]));
+      const pt = clamp(trial), rt = rssOf(pt);
+      let pred = 0; for (let a = 0; a < m; a++) pred += delta[a] * (mu * Math.max(dmax[a], 1e-300) * delta[a] + g[a]);
+      const rho = pred > 0 ? (rss - rt) / pred : -1;
+      if (Number.isFinite(rt) && rt <= rss && rho > 0) {
+        const stepSmall = free.every((k) => Math.abs(pt[k] - p[k]) <= 1e-12 * (Math.abs(p[k]) + 1e-12));
+        const rssSmall = rss - rt <= 1e-15 * rss; p = pt; const prev = rss; rss = rt;
+        mu *= Math.max(1 / 3, 1 - (2 * rho - 1) ** 3); nu = 2; accepted = true;
+        if (stepSmall) { converged = true; reason = 'step'; } else if (rssSmall && prev - rt >= 0 && it > 3) { converged = true; reason = 'rss'; }
+        break;
+      }
+      mu *= nu; nu *= 2;
+    }
+    if (converged) break;
+    if (!accepted) { converged = true; reason = 'no decrease'; break; }
+  }
+  return { p, rss, it: Math.min(it, maxIt), converged };
+}
+function refFit(o: Opts) {
+  // every run fitCurve may make: the first, then (when it ends degenerate) the restarts
+  const runs = [refOnce(o)];
+  for (const k of o.p0.map((_, k) => k).filter((k) => !(o.fixed?.[k]))) {
+    for (const f of [0.1, 0.5, 2, 10]) { const p0 = [...o.p0]; p0[k] = o.p0[k] === 0 ? f - 1 : o.p0[k] * f; runs.push(refOnce({ ...o, p0 })); }
+  }
+  return runs;
+}
+
+describe('fitCurve gives the numbers of the reference iteration bit for bit', () => {
+  it('NIST problems, Hill fits with an analytic gradient, weights, bounds and fixed parameters (240 fits)', () => {
+    const cases: Opts[] = [];
+    for (const p of NIST) for (const p0 of p.starts) cases.push({ model: p.model, x: p.x, y: p.y, p0 });
+    const hill = (x: number, p: readonly number[]) => p[1] + (p[0] - p[1]) / (1 + Math.pow(10, (x - p[2]) * p[3]));
+    const grad = (x: number, p: readonly number[]) => {
+      const E = Math.pow(10, (x - p[2]) * p[3]), D = 1 + E, g = ((p[0] - p[1]) * E * Math.LN10) / (D * D);
+      return [1 / D, 1 - 1 / D, g * p[3], -g * (x - p[2])];
+    };
+    let seed = 3;
+    const rnd = () => ((seed = (Math.imul(seed, 1103515245) + 12345) >>> 0) / 2 ** 32);
+    for (let c = 0; c < 232; c++) {
+      const x = [0, 0.5, 1, 1.5, 2, 2.5];
+      const truth = [1, 0.05 * rnd(), 0.5 + 1.5 * rnd(), 0.5 + 2 * rnd()];
+      const y = x.map((v) => hill(v, truth) + 0.03 * (rnd() - 0.5));
+      const o: Opts = { model: hill, x, y, p0: [1, 0, 1.2, 1] };
+      if (c % 2) o.gradient = grad;
+      if (c % 3 === 1) o.weights = x.map((_, i) => 1 + (i % 3));
+      if (c % 4 === 2) { o.lower = [0, -0.1, -1, 0.1]; o.upper = [2, 0.02, 3, 3]; }
+      if (c % 5 === 3) o.fixed = [true, false, false, false];
+      if (c % 7 === 4) o.maxIterations = 3; // stopped early: restarts compared too
+      cases.push(o);
+    }
+    let restarts = 0;
+    for (const o of cases) {
+      const f = fitCurve(o);
+      const runs = refFit(o);
+      // the kept result is one of the reference runs, equal to it bit for bit
+      const same = runs.some((r) => r.rss === f.residualSS && r.p.every((v, k) => Object.is(v, f.params[k])));
+      expect(same).toBe(true);
+      expect([runs[0].it, runs.reduce((s, r) => s + r.it, 0)]).toContain(f.iterations);
+      if (f.iterations !== runs[0].it) restarts++;
+    }
+    expect(restarts).toBeGreaterThan(0);
   });
 });
