@@ -263,6 +263,13 @@ describe('manifest analysis keys follow the pipeline (drift test)', () => {
     const schema = JSON.parse(readFileSync(join(root, 'schema', 'manifest.schema.json'), 'utf8'));
     expect(sorted(Object.keys(schema.properties))).toEqual(sorted(MANIFEST_KEYS));
     expect(sorted(Object.keys(schema.properties.files.items.properties))).toEqual(sorted(FILE_KEYS));
+    // the analysis section's keys (for editors' completion) are those the reader accepts
+    const an = schema.properties.analysis.properties as Record<string, { type?: string; properties?: object }>;
+    expect(sorted(Object.keys(an))).toEqual(sorted(Object.keys(ANALYSIS_KEYS)));
+    for (const [step, v] of Object.entries(ANALYSIS_KEYS)) {
+      if (v === 'boolean') expect(an[step].type, step).toBe('boolean');
+      else expect(sorted(Object.keys(an[step].properties ?? {})), step).toEqual(sorted(v));
+    }
   });
 });
 
