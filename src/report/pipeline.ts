@@ -333,7 +333,10 @@ const say = (prep: string | null) => (prep ? `${prep} ` : '');
  * In flag-only mode a 'sweepQc' step joins the history (the methods text says the flagged sweeps were kept).
  */
 export function qualityControl(set: SweepSet, o: PipelineOptions, prep: string | null, flags: Flag[], notes: string[]): { set: SweepSet; qc: SweepQcResult | null; sweepsRemoved: Row[] } {
-  if (o.qc === false) return { set, qc: null, sweepsRemoved: [] };
+  if (o.qc === false) {
+    if (o.reject) throw new OptionError(`invalid reject: ${JSON.stringify(o.reject)} with qc: false; rejection removes the sweeps the QC flags (drop qc: false, or reject)`);
+    return { set, qc: null, sweepsRemoved: [] };
+  }
   if (o.reject !== undefined && typeof o.reject !== 'boolean' && (o.reject === null || typeof o.reject !== 'object' || Array.isArray(o.reject))) {
     throw new OptionError(`invalid reject: ${JSON.stringify(o.reject)}; must be true, false or { flags: [...] }`);
   }

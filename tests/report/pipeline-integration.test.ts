@@ -65,6 +65,7 @@ describe('sweep QC in the pipeline', () => {
     expect(runPipeline(set, { ...base, qc: false }).qc).toBeNull();
     expect(() => runPipeline(set, { ...base, reject: { flag: ['flat'] } } as never)).toThrow(/flags/);
     expect(() => runPipeline(set, { ...base, reject: 'yes' } as never)).toThrow(/reject/);
+    expect(() => runPipeline(set, { ...base, qc: false, reject: true })).toThrow(/qc: false/);
   });
   it('runPreparation + combineStudy: tables sweep_qc (file-level identity), sweep_qc_summary, sweeps_removed; the study history lists every removal', () => {
     const two = SweepSet.concat([set, distanceSet('N2', 5, fastOnly())]);
