@@ -45,6 +45,20 @@ describe('command line usage as documented', () => {
     const headerCodes = [...(/Exit codes: (.*?)\./.exec(header)?.[1] ?? '').matchAll(/\b(\d) [a-z]/g)].map((m) => Number(m[1]));
     expect(headerCodes.sort()).toEqual(readme);
   });
+  it('a paired-pulse and train study (the invented recovery demo) runs: its series and steps are accepted', async () => {
+    const { makeRecoveryDemo } = await import('../../src/model/makeRecoveryDemo');
+    const work = mkdtempSync(join(tmpdir(), 'fascicle-usage-'));
+    try {
+      makeRecoveryDemo(join(work, 'study'));
+      const out = join(work, 'out');
+      const r = run(['run', join(work, 'study', 'manifest.json'), '--out', out, '--quiet', '--no-figures']);
+      expect(r.status, r.stderr).toBe(0);
+      for (const t of ['paired_pulse_summary', 'train_summary', 'sweep_qc', 'flags']) expect(existsSync(join(out, 'tables', `${t}.csv`)), t).toBe(true);
+      expect(r.stderr).toMatch(/^flags: \d+ rejected, \d+ not measured, \d+ warnings \(tables\/flags\.csv\)$/m);
+    } finally {
+      rmSync(work, { recursive: true, force: true });
+    }
+  }, 60_000);
   it('a bad FASCICLE_WORKER_HEAP_MB is a configuration error (exit 2) also with --jobs 1, before anything is written', () => {
     const work = mkdtempSync(join(tmpdir(), 'fascicle-usage-'));
     try {
