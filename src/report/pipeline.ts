@@ -332,7 +332,9 @@ const say = (prep: string | null) => (prep ? `${prep} ` : '');
  * `reject` asks for it: by default nothing is removed, the flagged sweeps are listed in sweep_qc and the notes.
  * In flag-only mode a 'sweepQc' step joins the history (the methods text says the flagged sweeps were kept).
  */
-export function qualityControl(set: SweepSet, o: PipelineOptions, prep: string | null, flags: Flag[], notes: string[]): { set: SweepSet; qc: SweepQcResult | null; sweepsRemoved: Row[] } {
+export function qualityControl(
+  set: SweepSet, o: PipelineOptions, prep: string | null, flags: Flag[], notes: string[],
+): { set: SweepSet; qc: SweepQcResult | null; sweepsRemoved: Row[] } {
   if (o.qc === false) {
     if (o.reject) throw new OptionError(`invalid reject: ${JSON.stringify(o.reject)} with qc: false; rejection removes the sweeps the QC flags (drop qc: false, or reject)`);
     return { set, qc: null, sweepsRemoved: [] };
@@ -389,7 +391,9 @@ function recoveryFlags(analysis: Flag['analysis'], rows: readonly Row[], prep: s
 }
 
 /** Paired-pulse recovery (series "paired-pulse") and trains (series "train"), each failing on its own. */
-function recoveryAnalyses(set: SweepSet, o: PipelineOptions, prep: string | null, flags: Flag[], notes: string[]): { pairedPulse: PairedPulseResult | null; trains: TrainResult | null } {
+function recoveryAnalyses(
+  set: SweepSet, o: PipelineOptions, prep: string | null, flags: Flag[], notes: string[],
+): { pairedPulse: PairedPulseResult | null; trains: TrainResult | null } {
   let pp: PairedPulseResult | null = null, tr: TrainResult | null = null;
   const pset = o.pairedPulse === false ? null : seriesOf(set, 'paired-pulse');
   if (pset) {
@@ -415,7 +419,9 @@ const VDIST_KEYS = ['preparation', 'temperatureC', 'concentration', 'drug', 'epo
  * Opt-in velocity distributions: for each preparation x temperatureC x concentration whose sweeps at the top
  * intensity (standard sweeps only) span two or more distances, one distribution. A failure is a flag of that group.
  */
-export function velocityDistributions(set: SweepSet, o: PipelineOptions, prep: string | null, flags: Flag[], notes: string[]): VelocityDistributionEntry[] {
+export function velocityDistributions(
+  set: SweepSet, o: PipelineOptions, prep: string | null, flags: Flag[], notes: string[],
+): VelocityDistributionEntry[] {
   if (o.velocityDistribution === undefined) return [];
   const vo = o.velocityDistribution as unknown;
   if (vo === null || typeof vo !== 'object' || Array.isArray(vo)) {
@@ -444,19 +450,32 @@ export function velocityDistributions(set: SweepSet, o: PipelineOptions, prep: s
     try {
       const r = velocityDistribution(std.select(idx), { ...o.velocityDistribution });
       out.push({ conditions: { ...head, ...(top !== null ? { intensity: top } : {}) }, result: r });
-      if (r.fit.status !== 'ok') flags.push({ preparation: p, analysis: 'velocity-distribution', class: null, where, severity: 'warning', status: r.fit.status, reason: [r.fit.status, ...r.fit.notes].join('; ') });
+      if (r.fit.status !== 'ok') {
+        flags.push({
+          preparation: p, analysis: 'velocity-distribution', class: null, where, severity: 'warning', status: r.fit.status,
+          reason: [r.fit.status, ...r.fit.notes].join('; '),
+        });
+      }
     } catch (e) {
       const msg = (e as Error).message;
       notes.push(`${say(p)}velocity-distribution${where ? ` (${where})` : ''}: ${msg}`);
-      flags.push({ preparation: p, analysis: 'velocity-distribution', class: null, where, severity: 'rejected', status: 'failed', reason: msg });
+      flags.push({
+        preparation: p, analysis: 'velocity-distribution', class: null, where, severity: 'rejected', status: 'failed',
+        reason: msg,
+      });
     }
   }
-  if (!out.length && ![...flags].some((f) => f.analysis === 'velocity-distribution')) notes.push(`${say(prep)}velocity-distribution: no preparation, temperature and concentration with two or more distances at the top intensity`);
+  if (!out.length && !flags.some((f) => f.analysis === 'velocity-distribution')) {
+    notes.push(`${say(prep)}velocity-distribution: no preparation, temperature and concentration with two or more `
+      + 'distances at the top intensity');
+  }
   return out;
 }
 
 /** The rows a group analysis reads: the component table, or the recommended velocities with per-preparation conditions. */
-export function groupRows(table: GroupTable | undefined, components: readonly Row[], velocity: readonly Row[], need: string[]): Row[] {
+export function groupRows(
+  table: GroupTable | undefined, components: readonly Row[], velocity: readonly Row[], need: string[],
+): Row[] {
   const t = table ?? 'components';
   if (!GROUP_TABLES.includes(t)) throw new OptionError(`invalid table: ${JSON.stringify(t)}; must be one of ${GROUP_TABLES.join(', ')}`);
   if (t === 'components') return components as Row[];
@@ -484,7 +503,10 @@ export function groupRows(table: GroupTable | undefined, components: readonly Ro
  * Group statistics and the mixed model across preparations, when the options ask for them; a failure is a flag.
  * `history` is the history the results carry (their own step appended).
  */
-export function groupAnalyses(components: readonly Row[], velocity: readonly Row[], o: PipelineOptions, history: readonly Step[], sources: readonly Source[], flags: Flag[], notes: string[]): { groups: GroupComparison | null; mixed: MixedModelResult | null } {
+export function groupAnalyses(
+  components: readonly Row[], velocity: readonly Row[], o: PipelineOptions, history: readonly Step[],
+  sources: readonly Source[], flags: Flag[], notes: string[],
+): { groups: GroupComparison | null; mixed: MixedModelResult | null } {
   let groups: GroupComparison | null = null, mixed: MixedModelResult | null = null;
   const fail = (analysis: Flag['analysis'], e: unknown) => failed(flags, notes, analysis, null, e);
   const obj = (name: string, v: unknown) => {
