@@ -67,6 +67,14 @@ describe('sweep QC in the pipeline', () => {
     expect(() => runPipeline(set, { ...base, reject: 'yes' } as never)).toThrow(/reject/);
     expect(() => runPipeline(set, { ...base, qc: false, reject: true })).toThrow(/qc: false/);
   });
+  it('QC that cannot be computed (no pre-stimulus samples) is a flag; the sweeps are still measured', () => {
+    const late = set.crop(0.05, 15);
+    const r = runPipeline(late, { components: { ...components, noiseWindow: [12, 15] }, baseline: false, reject: true });
+    const f = r.flags.find((x) => x.analysis === 'sweep-qc')!;
+    expect(f.status).toBe('failed');
+    expect(r.notes.join('\n')).toMatch(/no sweeps removed \(the QC could not be computed\)/);
+    expect(r.components.rows.length).toBeGreaterThan(0);
+  });
   it('runPreparation + combineStudy: tables sweep_qc (file-level identity), sweep_qc_summary, sweeps_removed; the study history lists every removal', () => {
     const two = SweepSet.concat([set, distanceSet('N2', 5, fastOnly())]);
     const o = { ...base, reject: true };
@@ -148,6 +156,9 @@ describe('group statistics and the mixed model across preparations', () => {
     expect(welch.status).toBe('ok');
     expect(welch.p as number).toBeLessThan(0.05);
     expect(study.groups!.points.length).toBe(6);
+    // runPipeline on the whole set gives the same tests
+    const whole = runPipeline(set, o);
+    expect(JSON.parse(JSON.stringify(whole.groups!.tests))).toEqual(study.tables.group_tests);
   });
   it('mixed model of peak latency on group and distance, random intercept per preparation: slower group, later peak', () => {
     const a = study.tables.mixed_anova!.filter((q) => q.term === 'group');
