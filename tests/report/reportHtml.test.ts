@@ -102,7 +102,9 @@ describe.skipIf(!browserPath)('study report (headless Chromium, demo study)', ()
     expect(pages).toBeGreaterThanOrEqual(3);
     if (process.env.FASCICLE_PRINT_DIR) {
       writeFileSync(join(process.env.FASCICLE_PRINT_DIR, 'report.pdf'), pdf);
-      await page.screenshot({ path: join(process.env.FASCICLE_PRINT_DIR, 'report.png'), fullPage: false });
+      await page.evaluate(() => window.scrollTo(0, 0));
+      await page.screenshot({ path: join(process.env.FASCICLE_PRINT_DIR, 'report.png') });
+      await page.locator('#figures').screenshot({ path: join(process.env.FASCICLE_PRINT_DIR, 'report-figures.png') });
     }
     expect(errors).toEqual([]);
     await page.close();
