@@ -111,3 +111,4 @@ export { recoveryFigure, trainFigure } from './plot/recovery';
 export { simulatePairedPulse, simulateTrain, pairedPulseTruth, trainTruth, trainTimes } from './model/pulses';
 export { reportHtml, writeReportHtml, reportFragment, showReport } from './report/reportHtml';
 export type { ReportInput } from './report/reportHtml';
+export type { GroupTable, VelocityDistributionEntry } from './report/pipeline';
