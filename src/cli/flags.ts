@@ -41,7 +41,8 @@ export function flagCounts(flags: readonly FlagRow[]): { rejected: number; notMe
 /** The lines printed after a run: the summary, then rejected and not-measured flags (at most `cap`, then a count). */
 export function flagReport(flags: readonly FlagRow[], cap = FLAG_LINE_CAP): string[] {
   const c = flagCounts(flags);
-  const lines = [`flags: ${c.rejected} rejected, ${c.notMeasured} not measured, ${c.warnings} warnings (tables/flags.csv)`];
+  const summary = `flags: ${c.rejected} rejected, ${c.notMeasured} not measured, ${c.warnings} warnings`;
+  const lines = [`${summary} (tables/flags.csv)`];
   const listed = LISTED_SEVERITIES.flatMap((s) => flags.filter((f) => f.severity === s));
   for (const f of listed.slice(0, cap)) lines.push(`  ${f.severity}: ${flagLine(f)}`);
   if (listed.length > cap) lines.push(`  ... and ${listed.length - cap} more (tables/flags.csv)`);

@@ -196,8 +196,8 @@ function reportStudy(s: Study, out: string): number {
   const at = (r: Record<string, unknown>) => (typeof r.distanceMm === 'number' ? ` at ${r.distanceMm} mm` : '');
   for (const row of s.tables.dose_response_summary) {
     if (typeof row.ic50 !== 'number') continue; // not measured: in the flags
-    console.log(`  IC50 ${row.class}${at(row)}: ${fmt(row.ic50)} ${row.concentrationUnit} (${ci(row.ic50_ci95_low, row.ic50_ci95_high)}), `
-      + `Hill slope ${fmt(row.hill)}`);
+    console.log(`  IC50 ${row.class}${at(row)}: ${fmt(row.ic50)} ${row.concentrationUnit} `
+      + `(${ci(row.ic50_ci95_low, row.ic50_ci95_high)}), Hill slope ${fmt(row.hill)}`);
   }
   for (const row of s.tables.strength_duration ?? []) {
     if (row.chronaxie_ms === null) continue;
@@ -206,7 +206,8 @@ function reportStudy(s: Study, out: string): number {
       + `rheobase ${fmt(row.rheobase)}${row.intensityUnit ? ` ${row.intensityUnit}` : ''}`);
   }
   for (const row of s.tables.temperature) {
-    if (typeof row.q10 === 'number') console.log(`  Q10 ${row.class}${at(row)}: ${fmt(row.q10)} (${ci(row.q10_ci95_low, row.q10_ci95_high)})`);
+    if (typeof row.q10 !== 'number') continue;
+    console.log(`  Q10 ${row.class}${at(row)}: ${fmt(row.q10)} (${ci(row.q10_ci95_low, row.q10_ci95_high)})`);
   }
   for (const n of s.notes) console.log(`  note: ${n}`);
   for (const line of flagReport(s.tables.flags ?? [])) console.error(line);

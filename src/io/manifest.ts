@@ -101,7 +101,8 @@ const isStrings = (v: unknown) => Array.isArray(v) && v.every((x) => typeof x ==
 export const REJECT_FLAGS = ['noisy', 'flat', 'drift', 'saturated', 'artifact', 'outlier'] as const;
 export const ANALYSIS_VALUES: Readonly<Record<string, readonly [(v: unknown) => boolean, string]>> = {
   'components/polarity': [
-    (v) => isPolarity(v) || (v !== null && typeof v === 'object' && !Array.isArray(v) && Object.values(v).every(isPolarity)),
+    (v) => isPolarity(v)
+      || (v !== null && typeof v === 'object' && !Array.isArray(v) && Object.values(v).every(isPolarity)),
     '1, -1, "auto", or an object of class name -> 1, -1 or "auto" (e.g. { "C": -1 })',
   ],
   'doseResponse/measure': [(v) => typeof v === 'string', 'a column name of the components table'],

@@ -27,9 +27,13 @@ const readRows = (p: string): Row[] => JSON.parse(readFileSync(p, 'utf8'));
 function study(name: string, distances: number[], intensity: number, preps = ['P1']): string {
   const dir = join(work, name);
   mkdirSync(dir, { recursive: true });
-  const sweeps = distances.flatMap((d) => [0, 1, 2].map((k) => ({ intensity, distanceMm: d, temperatureC: 37, concentration: 0, repeat: k })));
+  const sweeps = distances.flatMap((d) => [0, 1, 2].map((k) => ({
+    intensity, distanceMm: d, temperatureC: 37, concentration: 0, repeat: k,
+  })));
   const files = preps.map((p, i) => {
-    const s = model.simulateNerve({ model: model.rodentSciatic(), seed: 7 + i, grid: { fs: 50000, t0Ms: -2, nSamples: 3000 }, sweeps, nuisance: { noiseUv: 2 } });
+    const s = model.simulateNerve({
+      model: model.rodentSciatic(), seed: 7 + i, grid: { fs: 50000, t0Ms: -2, nSamples: 3000 }, sweeps, nuisance: { noiseUv: 2 },
+    });
     const meta = writeBinary(join(dir, `${p}.bin`), s, 'float32');
     writeFileSync(join(dir, `${p}.json`), JSON.stringify({ data: `${p}.bin`, ...meta }));
     return {
@@ -43,23 +47,34 @@ function study(name: string, distances: number[], intensity: number, preps = ['P
   return m;
 }
 
+/** The summary line the command line prints for these counts. */
+const summaryOf = (c: { rejected: number; notMeasured: number; warnings: number }) =>
+  `flags: ${c.rejected} rejected, ${c.notMeasured} not measured, ${c.warnings} warnings (tables/flags.csv)`;
+
 /** The flag lines of a run's stderr (after the summary line). */
 const listed = (stderr: string) => stderr.split('\n').filter((l) => /^ {2}(rejected|not measured): /.test(l));
 
 describe('flag report (the printed form of tables/flags.csv)', () => {
   const f = (severity: string, i: number): Row => ({
-    preparation: `P${i}`, analysis: 'velocity', class: 'C', where: `two-site, ${i} mm`, severity, status: 's', reason: `reason ${i}`, rows: 1,
+    preparation: `P${i}`, analysis: 'velocity', class: 'C', where: `two-site, ${i} mm`, severity, status: 's',
+    reason: `reason ${i}`, rows: 1,
   });
   it('one summary line; one line per rejected and not-measured flag; warnings only counted', () => {
     const flags = [f('warning', 1), f('rejected', 2), f('not measured', 3), f('warning', 4)];
     const lines = flagReport(flags);
     expect(lines[0]).toBe('flags: 1 rejected, 1 not measured, 2 warnings (tables/flags.csv)');
-    expect(lines.slice(1)).toEqual(['  rejected: P2 velocity C [two-site, 2 mm]: reason 2', '  not measured: P3 velocity C [two-site, 3 mm]: reason 3']);
+    expect(lines.slice(1)).toEqual([
+      '  rejected: P2 velocity C [two-site, 2 mm]: reason 2',
+      '  not measured: P3 velocity C [two-site, 3 mm]: reason 3',
+    ]);
     expect(flagCounts([])).toEqual({ rejected: 0, notMeasured: 0, warnings: 0 });
     expect(flagReport([])).toEqual(['flags: 0 rejected, 0 not measured, 0 warnings (tables/flags.csv)']);
   });
   it('capped at FLAG_LINE_CAP lines, then "... and X more"; rejected are listed before not measured', () => {
-    const flags = [...Array.from({ length: 25 }, (_, i) => f('not measured', i)), ...Array.from({ length: 20 }, (_, i) => f('rejected', 100 + i))];
+    const flags = [
+      ...Array.from({ length: 25 }, (_, i) => f('not measured', i)),
+      ...Array.from({ length: 20 }, (_, i) => f('rejected', 100 + i)),
+    ];
     const lines = flagReport(flags);
     expect(lines.length).toBe(1 + FLAG_LINE_CAP + 1);
     expect(lines[1]).toMatch(/^ {2}rejected: P100 /);
@@ -68,8 +83,10 @@ describe('flag report (the printed form of tables/flags.csv)', () => {
     expect(lines[lines.length - 1]).toBe(`  ... and ${45 - FLAG_LINE_CAP} more (tables/flags.csv)`);
   });
   it('empty parts are left out; a merged flag says how many rows it stands for', () => {
-    expect(flagLine({ preparation: null, analysis: 'dose-response', class: null, where: null, reason: 'failed: x' })).toBe('dose-response: failed: x');
-    expect(flagLine({ preparation: 'R1', analysis: 'velocity', class: 'C', where: '', reason: 'r', rows: 4 })).toBe('R1 velocity C: r (4 rows)');
+    expect(flagLine({ preparation: null, analysis: 'dose-response', class: null, where: null, reason: 'failed: x' }))
+      .toBe('dose-response: failed: x');
+    expect(flagLine({ preparation: 'R1', analysis: 'velocity', class: 'C', where: '', reason: 'r', rows: 4 }))
+      .toBe('R1 velocity C: r (4 rows)');
     expect(flagLine({ analysis: 'temperature', class: 'C', status: 'not detected' })).toBe('temperature C: not detected');
   });
 });
@@ -94,7 +111,7 @@ describe('fascicle run: flags printed and written, exit code from what was compu
     expect(csv.length - 1).toBe(flags.length);
     const c = flagCounts(flags);
     expect(c.rejected).toBeGreaterThan(0);
-    expect(r.stderr).toContain(`flags: ${c.rejected} rejected, ${c.notMeasured} not measured, ${c.warnings} warnings (tables/flags.csv)`);
+    expect(r.stderr).toContain(summaryOf(c));
     // every rejected or not-measured flag has its line (fewer than the cap here), no warning has one
     const lines = listed(r.stderr);
     expect(lines.length).toBe(Math.min(c.rejected + c.notMeasured, FLAG_LINE_CAP));
@@ -126,18 +143,22 @@ describe('fascicle run: flags printed and written, exit code from what was compu
     expect(readRows(join(out, 'tables', 'velocity.json')).filter((q) => typeof q.velocity_m_s === 'number')).toEqual([]);
     expect(existsSync(join(out, 'provenance.json'))).toBe(true);
     const c = flagCounts(flags);
-    expect(r.stderr).toContain(`flags: ${c.rejected} rejected, ${c.notMeasured} not measured, ${c.warnings} warnings (tables/flags.csv)`);
+    expect(r.stderr).toContain(summaryOf(c));
     expect(listed(r.stderr).length).toBe(Math.min(c.rejected + c.notMeasured, FLAG_LINE_CAP));
-    if (c.rejected + c.notMeasured > FLAG_LINE_CAP) expect(r.stderr).toContain(`... and ${c.rejected + c.notMeasured - FLAG_LINE_CAP} more`);
+    const more = c.rejected + c.notMeasured - FLAG_LINE_CAP;
+    if (more > 0) expect(r.stderr).toContain(`... and ${more} more`);
     // the same with --jobs 2 (flags come back from the worker threads) and through shards and merge
     const j2 = join(work, 'none-j2');
     const rj = run(['run', none, '--out', j2, '--quiet', '--no-figures', '--jobs', '2']);
     expect(rj.status, rj.stderr).toBe(4);
     expect(readFileSync(join(j2, 'tables', 'flags.csv'), 'utf8')).toBe(readFileSync(join(out, 'tables', 'flags.csv'), 'utf8'));
-    for (const i of [1, 2]) expect(run(['run', none, '--out', join(work, `none-s${i}`), '--shard', `${i}/2`, '--quiet']).status).toBe(0);
+    for (const i of [1, 2]) {
+      expect(run(['run', none, '--out', join(work, `none-s${i}`), '--shard', `${i}/2`, '--quiet']).status).toBe(0);
+    }
     const mr = run(['merge', join(work, 'none-s1'), join(work, 'none-s2'), '--out', join(work, 'none-merged')]);
     expect(mr.status, mr.stderr).toBe(4);
     expect(mr.stderr).toMatch(/nothing could be computed: see tables\/flags\.csv/);
-    expect(readFileSync(join(work, 'none-merged', 'tables', 'flags.csv'), 'utf8')).toBe(readFileSync(join(out, 'tables', 'flags.csv'), 'utf8'));
+    const flagsCsv = readFileSync(join(out, 'tables', 'flags.csv'), 'utf8');
+    expect(readFileSync(join(work, 'none-merged', 'tables', 'flags.csv'), 'utf8')).toBe(flagsCsv);
   }, 180_000);
 });

@@ -7,7 +7,9 @@ import { describe, it, expect, afterAll } from 'vitest';
 import { readFileSync, writeFileSync, mkdtempSync, rmSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join, resolve, dirname } from 'node:path';
-import { ANALYSIS_KEYS, ANALYSIS_VALUES, REJECT_FLAGS, MANIFEST_KEYS, FILE_KEYS, SERIES, readManifest } from '../../src/io/manifest';
+import {
+  ANALYSIS_KEYS, ANALYSIS_VALUES, REJECT_FLAGS, MANIFEST_KEYS, FILE_KEYS, SERIES, readManifest,
+} from '../../src/io/manifest';
 import { ConfigError } from '../../src/errors';
 import { PIPELINE_OPTION_KEYS } from '../../src/report/pipeline';
 import { SweepSet } from '../../src';
@@ -121,7 +123,9 @@ interface StepType {
 /** Each pipeline step's type, read from PipelineOptions: unions, arrays, Omit<...> and & { ... } are understood. */
 function stepKeys(step: string): StepType {
   const alts = splitTop(pipelineMembers.get(step)!, '|');
-  const r: StepType = { keys: [], allowsFalse: alts.includes('false'), allowsBoolean: alts.includes('boolean'), omitted: [], module: null, typeName: null };
+  const r: StepType = {
+    keys: [], allowsFalse: alts.includes('false'), allowsBoolean: alts.includes('boolean'), omitted: [], module: null, typeName: null,
+  };
   const objects = alts.filter((x) => x !== 'false' && x !== 'boolean' && x !== 'true');
   if (!objects.length) return { ...r, keys: 'boolean' };
   const keys = new Set<string>();
@@ -168,7 +172,8 @@ writeFileSync(join(loadDir, 'a.csv'), 'time (ms),s1 (uV)\n0,1\n0.05,2\n0.1,3\n')
 /** Load a one-file manifest with this analysis section: the error, or null. */
 function loadAnalysis(analysis: object): Error | null {
   const p = join(loadDir, 'm.json');
-  writeFileSync(p, JSON.stringify({ fascicleManifest: 1, analysis, files: [{ path: 'a.csv', conditions: { preparation: 'P1' } }] }));
+  const files = [{ path: 'a.csv', conditions: { preparation: 'P1' } }];
+  writeFileSync(p, JSON.stringify({ fascicleManifest: 1, analysis, files }));
   try { readManifest(p); } catch (e) { return e as Error; }
   return null;
 }
@@ -185,15 +190,16 @@ describe('manifest analysis keys follow the pipeline (drift test)', () => {
     expect(sorted(Object.keys(ANALYSIS_KEYS))).toEqual(sorted(PIPELINE_OPTION_KEYS));
     expect(sorted([...pipelineMembers.keys()])).toEqual(sorted(PIPELINE_OPTION_KEYS));
   });
-  it.each([...PIPELINE_OPTION_KEYS])('%s: the manifest accepts exactly the keys of its option type, and false / true where the type allows', (step) => {
+  it.each([...PIPELINE_OPTION_KEYS])('%s: exactly the keys of its option type; false / true where the type allows', (step) => {
     const { keys, allowsFalse, allowsBoolean } = stepKeys(step);
     if (keys === 'boolean') expect(ANALYSIS_KEYS[step]).toBe('boolean');
     else {
       expect(ANALYSIS_KEYS[step]).not.toBe('boolean');
       expect(sorted(manifestList(step)), `${step}: manifest list vs its option type`).toEqual(sorted(keys));
     }
-    if (allowsFalse || allowsBoolean || keys === 'boolean') expect(loadAnalysis({ [step]: false }), `${step}: false`).toBeNull();
-    else expect(loadAnalysis({ [step]: false }), `${step}: false`).toBeInstanceOf(ConfigError);
+    const off = loadAnalysis({ [step]: false });
+    if (allowsFalse || allowsBoolean || keys === 'boolean') expect(off, `${step}: false`).toBeNull();
+    else expect(off, `${step}: false`).toBeInstanceOf(ConfigError);
     if (allowsBoolean || keys === 'boolean') expect(loadAnalysis({ [step]: true }), `${step}: true`).toBeNull();
     else expect(loadAnalysis({ [step]: true }), `${step}: true`).toBeInstanceOf(ConfigError);
   });
@@ -214,7 +220,7 @@ describe('manifest analysis keys follow the pipeline (drift test)', () => {
       expect(sorted(manifestList(step)), step).toEqual(sorted(keys.filter((k) => !omitted.includes(k))));
     }
   });
-  it('every key of a step\'s exported defaults object is accepted, unless the step does not take it as an option', async () => {
+  it('every key of a step\'s exported defaults object is accepted, unless it is no option of the step', async () => {
     // defaults keys that are constants of the method, not options (checked below to be no option)
     const internal: Record<string, string[]> = {
       baseline: ['stopBeforeStimulusMs'], recruitment: ['thresholdFraction'], strengthDuration: ['minWidths'],
@@ -234,7 +240,7 @@ describe('manifest analysis keys follow the pipeline (drift test)', () => {
       for (const k of Object.keys(mod[name] as object)) {
         if (omitted.includes(k)) continue;
         if ((internal[step] ?? []).includes(k)) {
-          expect(keys, `${name}.${k} is listed as internal here but is an option of ${step}: add it to the manifest`).not.toContain(k);
+          expect(keys, `${name}.${k}: listed as internal here but an option of ${step}; add it to the manifest`).not.toContain(k);
           continue;
         }
         expect(manifestList(step), `${name}.${k}`).toContain(k);
@@ -248,7 +254,10 @@ describe('manifest analysis keys follow the pipeline (drift test)', () => {
     const found = new Set<string>();
     for (const f of ['pipeline.ts', 'study.ts']) {
       const src = readFileSync(join(root, 'src', 'report', f), 'utf8');
-      for (const re of [/\bhas\('([\w-]+)'\)/g, /(?:hasSeries|seriesOf)\([^,()]+,\s*'([\w-]+)'\)/g, /series\s*[!=]==\s*'([\w-]+)'/g, /series:\s*'([\w-]+)'/g]) {
+      const patterns = [
+        /\bhas\('([\w-]+)'\)/g, /(?:hasSeries|seriesOf)\([^,()]+,\s*'([\w-]+)'\)/g, /series\s*[!=]==\s*'([\w-]+)'/g, /series:\s*'([\w-]+)'/g,
+      ];
+      for (const re of patterns) {
         for (const m of src.matchAll(re)) found.add(m[1]);
       }
     }
@@ -299,7 +308,8 @@ describe('manifest values of options the pipeline uses inside flagged analyses',
     for (const a of [
       { components: { polarity: -1 } }, { components: { polarity: 'auto' } },
       { components: { polarity: { 'A-alpha/beta': -1, C: 'auto' } } },
-      { doseResponse: { maxLatencyShift: null, minConcentrations: 3, poolSites: true }, recruitment: { minLevels: 5 }, poolSites: false },
+      { doseResponse: { maxLatencyShift: null, minConcentrations: 3, poolSites: true }, recruitment: { minLevels: 5 } },
+      { poolSites: false },
       { averageRepeats: false, artifact: [{ method: 'blank', window: [0, 0.1] }, { method: 'exponential' }] },
     ]) expect(load(a), JSON.stringify(a)).toBeNull();
   });

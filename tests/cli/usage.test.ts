@@ -29,8 +29,11 @@ describe('command line usage as documented', () => {
     expect(run(['--', 'version']).stdout.trim()).toBe(version);
   });
   it('the README names every form of the usage block and the npx note', () => {
-    for (const form of ['npx fascicle help', 'npx fascicle version', 'npx fascicle rerun <bundle-dir> [--manifest <path>]',
-      'npx fascicle run <manifest.json> --out <dir>', 'npx fascicle merge <shard-dir>... --out <dir>', 'FASCICLE_WORKER_HEAP_MB']) {
+    const forms = [
+      'npx fascicle help', 'npx fascicle version', 'npx fascicle rerun <bundle-dir> [--manifest <path>]',
+      'npx fascicle run <manifest.json> --out <dir>', 'npx fascicle merge <shard-dir>... --out <dir>', 'FASCICLE_WORKER_HEAP_MB',
+    ];
+    for (const form of forms) {
       expect(section, form).toContain(form);
     }
     expect(section).toMatch(/`npx fascicle --help` and `--version` can be taken by npx/);
@@ -53,7 +56,9 @@ describe('command line usage as documented', () => {
       const out = join(work, 'out');
       const r = run(['run', join(work, 'study', 'manifest.json'), '--out', out, '--quiet', '--no-figures']);
       expect(r.status, r.stderr).toBe(0);
-      for (const t of ['paired_pulse_summary', 'train_summary', 'sweep_qc', 'flags']) expect(existsSync(join(out, 'tables', `${t}.csv`)), t).toBe(true);
+      for (const t of ['paired_pulse_summary', 'train_summary', 'sweep_qc', 'flags']) {
+        expect(existsSync(join(out, 'tables', `${t}.csv`)), t).toBe(true);
+      }
       expect(r.stderr).toMatch(/^flags: \d+ rejected, \d+ not measured, \d+ warnings \(tables\/flags\.csv\)$/m);
     } finally {
       rmSync(work, { recursive: true, force: true });
@@ -64,7 +69,8 @@ describe('command line usage as documented', () => {
     try {
       const out = join(work, 'o');
       for (const bad of ['abc', '4', '12.5']) {
-        const r = run(['run', join(root, 'data-demo', 'manifest.json'), '--out', out, '--quiet'], { FASCICLE_WORKER_HEAP_MB: bad });
+        const env = { FASCICLE_WORKER_HEAP_MB: bad };
+        const r = run(['run', join(root, 'data-demo', 'manifest.json'), '--out', out, '--quiet'], env);
         expect(r.status, r.stderr).toBe(2);
         expect(r.stderr).toContain(`invalid FASCICLE_WORKER_HEAP_MB: ${JSON.stringify(bad)}; must be an integer >= 8 (MB)`);
         expect(existsSync(out)).toBe(false);
