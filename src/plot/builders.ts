@@ -577,7 +577,8 @@ export function doseResponseFigure(points: Row[], summary: Row[], fits?: Map<str
       showlegend: false,
       marker: { color: colour(ci), symbol: symbol(ci), size: 6, opacity: 0.75 },
     });
-    const s = summary.find((r) => r.class === cls);
+    // a class fitted per recording site has one summary row per site: draw a fitted one
+    const s = summary.find((r) => r.class === cls && num(r.pooled_ic50)) ?? summary.find((r) => r.class === cls);
     if (!s || !pts.length || !num(s.pooled_hill) || !num(s.pooled_bottom) || !num(s.pooled_ic50)) {
       entries.push(classEntry(C, ci));
       return;

@@ -22,7 +22,8 @@ export function studyFigureList(study: Study): Figure[] {
       temperatureFigure(t.temperature_points, t.temperature, 'q10'),
       temperatureFigure(t.temperature_points, t.temperature, 'arrhenius'),
     );
-  const v = t.velocity.filter((r) => r.method === 'regression' && r.basis === 'centroid');
+  // the recommended estimate per class (the one the Q10 uses), only rows with a velocity
+  const v = t.velocity.filter((r) => r.recommended === true && typeof r.velocity_m_s === 'number');
   if (v.length) figs.push(summaryFigure(v, 'velocity_m_s'));
   // optional analyses: figures from their tables (the figure functions read points and summary only)
   const named = (f: Figure, name: string) => new Figure(name, f.spec);
