@@ -205,6 +205,11 @@ function reportStudy(s: Study, out: string): number {
       + `(${ci(row.chronaxie_ci95_low_ms, row.chronaxie_ci95_high_ms)}), `
       + `rheobase ${fmt(row.rheobase)}${row.intensityUnit ? ` ${row.intensityUnit}` : ''}`);
   }
+  for (const row of s.tables.paired_pulse_summary ?? []) {
+    if (typeof row.r50_ms !== 'number') continue;
+    console.log(`  recovery R50 ${row.class} (${row.preparation}${at(row)}): ${fmt(row.r50_ms)} ms `
+      + `(${ci(row.r50_ci95_low, row.r50_ci95_high)})`);
+  }
   for (const row of s.tables.temperature) {
     if (typeof row.q10 !== 'number') continue;
     console.log(`  Q10 ${row.class}${at(row)}: ${fmt(row.q10)} (${ci(row.q10_ci95_low, row.q10_ci95_high)})`);

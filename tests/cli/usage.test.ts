@@ -60,6 +60,14 @@ describe('command line usage as documented', () => {
         expect(existsSync(join(out, 'tables', `${t}.csv`)), t).toBe(true);
       }
       expect(r.stderr).toMatch(/^flags: \d+ rejected, \d+ not measured, \d+ warnings \(tables\/flags\.csv\)$/m);
+      // one result line per recovery fit, with the numbers of its table row
+      const rows = JSON.parse(readFileSync(join(out, 'tables', 'paired_pulse_summary.json'), 'utf8')) as Record<string, unknown>[];
+      const fitted = rows.filter((q) => typeof q.r50_ms === 'number');
+      expect(fitted.length).toBeGreaterThan(0);
+      for (const q of fitted) {
+        const v = Number((q.r50_ms as number).toPrecision(3));
+        expect(r.stdout).toContain(`  recovery R50 ${q.class} (${q.preparation} at ${q.distanceMm} mm): ${v} ms`);
+      }
     } finally {
       rmSync(work, { recursive: true, force: true });
     }
