@@ -12,11 +12,12 @@ import { conditionsProblem, nearest, shown } from '../validate';
 import { PRESETS } from '../measure/classes';
 import { readDelimited, type DelimitedOptions } from './delimited';
 import { readBinary } from './binary';
+import { readNwbSync, type NwbReadOptions } from './nwb';
 import { VERSION } from '../version';
 
 export interface ManifestFile {
   path: string;
-  format?: 'delimited' | 'binary';
+  format?: 'delimited' | 'binary' | 'nwb';
   options?: DelimitedOptions;
   conditions?: Conditions;
   sweeps?: Conditions[];
@@ -266,7 +267,9 @@ export function checkManifestKeys(m: unknown, file: string): void {
         'reader options for a binary file (its sidecar describes it)',
         'no "options" for a binary file; put dtype, gain and the like in the sidecar');
       // other formats (added later) check their own options
-      if (ff.format === 'delimited' || ff.format === undefined) checkObjectKeys(file, `${at}/options`, ff.options, FILE_OPTION_KEYS);
+      const nwb = ff.format === 'nwb' || (ff.format === undefined && /\.nwb$/i.test(String(ff.path)));
+      const delimited = !nwb && (ff.format === 'delimited' || ff.format === undefined);
+      if (delimited) checkObjectKeys(file, `${at}/options`, ff.options, FILE_OPTION_KEYS);
     }
     series(ff.conditions, `${at}/conditions`);
     if (Array.isArray(ff.sweeps)) ff.sweeps.forEach((c, j) => series(c, `${at}/sweeps/${j}`));
@@ -317,9 +320,9 @@ export function readManifestJson(path: string): { manifest: Manifest; source: im
 }
 
 /** Format of a listed file, from its `format` or its extension. */
-function formatOf(f: ManifestFile): 'delimited' | 'binary' {
+function formatOf(f: ManifestFile): 'delimited' | 'binary' | 'nwb' {
   if (f.format) return f.format;
-  return /\.json$/i.test(f.path) ? 'binary' : 'delimited';
+  return /\.json$/i.test(f.path) ? 'binary' : /\.nwb$/i.test(f.path) ? 'nwb' : 'delimited';
 }
 
 /**
@@ -338,7 +341,11 @@ export function readManifest(path: string, opts: { only?: (f: ManifestFile, i: n
     const base = { ...(manifest.defaults ?? {}), ...(f.conditions ?? {}) };
     let set: SweepSet;
     try {
-      set = formatOf(f) === 'binary' ? readBinary(full, { conditions: base }) : readDelimited(full, { ...(f.options ?? {}), conditions: base });
+      const fmt = formatOf(f);
+      // NWB entries need the HDF5 library loaded first (await nwbReady())
+      set = fmt === 'binary' ? readBinary(full, { conditions: base })
+        : fmt === 'nwb' ? readNwbSync(full, { ...((f.options ?? {}) as NwbReadOptions), conditions: base })
+          : readDelimited(full, { ...(f.options ?? {}), conditions: base });
     } catch (e) {
       // a bad reader option written in the manifest is a fault of the manifest
       if (e instanceof OptionError) throw new ConfigError({ file: path, field: `/files/${fi}/options` },

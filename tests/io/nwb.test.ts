@@ -430,6 +430,39 @@ describe('writeNwb(set, path, options) and reading back', () => {
   });
 });
 
+describe('readManifest with an NWB entry', () => {
+  it('a .nwb path is read by readNwb; defaults < file conditions < trial columns < sweeps entries, as for other formats', () => {
+    const dir = mkdtempSync(join(tmp, 'manifest-'));
+    copyFileSync(fx('continuous.nwb'), join(dir, 'rec.nwb'));
+    const manifest = {
+      fascicleManifest: 1, study: 'nwb entry', required: ['preparation'],
+      defaults: { temperatureC: 30, series: 'intensity' },
+      files: [{ path: 'rec.nwb', options: { channel: 1, trials: [0, 1, 2] }, conditions: { preparation: 'M1' },
+        sweeps: [{ repeat: 0 }, { repeat: 1 }, { repeat: 2 }] }],
+    };
+    const mp = join(dir, 'manifest.json');
+    writeFileSync(mp, JSON.stringify(manifest));
+    const set = readManifest(mp);
+    expect(set.nSweeps).toBe(3);
+    expect(set.column('preparation')).toEqual(['M1', 'M1', 'M1']); // the manifest's over /general/subject
+    expect(set.column('temperatureC')).toEqual([32.5, 32.5, 32.5]); // the trials table's over the defaults
+    expect(set.column('series')).toEqual(['intensity', 'intensity', 'intensity']);
+    expect(set.column('repeat')).toEqual([0, 1, 2]);
+    expect(set.column('file')).toEqual(['rec.nwb', 'rec.nwb', 'rec.nwb']);
+    expect(set.column('distanceMm')).toEqual([24.5, 24.5, 24.5]);
+    const direct = readNwbSync(join(dir, 'rec.nwb'), { channel: 1, trials: [0, 1, 2] });
+    expect(Array.from(set.data)).toEqual(Array.from(direct.data));
+  });
+
+  it('a bad NWB option in a manifest names the manifest field', () => {
+    const dir = mkdtempSync(join(tmp, 'manifest-'));
+    copyFileSync(fx('continuous.nwb'), join(dir, 'rec.nwb'));
+    const mp = join(dir, 'manifest.json');
+    writeFileSync(mp, JSON.stringify({ fascicleManifest: 1, files: [{ path: 'rec.nwb', options: { channel: 1, windw: [0, 1] }, conditions: { preparation: 'M1' } }] }));
+    expect(() => readManifest(mp)).toThrow(/files\/0\/options.*unknown key "windw".*did you mean "window"/);
+  });
+});
+
 describe('the demo study through an NWB copy', () => {
   it('a preparation of data-demo written to NWB and read back gives the same component, velocity and recruitment tables', async () => {
     const manifestPath = join(__dirname, '..', '..', 'data-demo', 'manifest.json');
