@@ -42,10 +42,12 @@ could not be written (disk full, read-only, no permission), 7 a worker thread fa
 1 other error.`,
   run: `fascicle run <manifest.json> --out <dir> [options]
 
-Runs the standard pipeline on the study the manifest describes: the conditioning in the
-manifest's "analysis" section, fiber-class components, conduction velocities, and whichever
-of recruitment, strength-duration, dose-response and temperature the data supports. Writes a bundle: tables
-(CSV and JSON), figures (HTML), methods.txt and provenance.json.
+Runs the standard pipeline on the study the manifest describes, with the options of the
+manifest's "analysis" section: sweep quality control, conditioning, averaging of repeats,
+fiber-class components, conduction velocities, and whichever of recruitment, strength-duration,
+dose-response, temperature, paired-pulse recovery and trains the data supports (group
+statistics, mixed models and velocity distributions when the section asks for them).
+Writes a bundle: tables (CSV and JSON), figures (HTML), methods.txt, notes.txt and provenance.json.
 
 Options:
   --out <dir>       bundle folder [required]. It must be new, empty, or a bundle fascicle
