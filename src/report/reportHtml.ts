@@ -45,7 +45,9 @@ export interface ReportInput {
 const INPUT_KEYS = ['study', 'methods', 'provenance', 'figures', 'title', 'bundle'];
 
 /** Bulky tables: on screen inside a closed section, left out of print (their files hold them). */
-const BULK = new Set(['components', 'recruitment_points', 'dose_response_points', 'temperature_points', 'strength_duration_points']);
+const BULK = new Set([
+  'components', 'recruitment_points', 'dose_response_points', 'temperature_points', 'strength_duration_points',
+]);
 
 /** Tables up to this size are printed; larger ones are on screen only (their files hold them). */
 const PRINT_ROWS = 80;
@@ -87,20 +89,24 @@ const TABLE_ANALYSIS: Record<string, string> = {
 
 const CSS = `body{margin:0}.fascicle-report{font:14px/1.45 Helvetica,Arial,sans-serif;color:#222;max-width:1100px;
 margin:0 auto;padding:0 16px 40px}.fascicle-report h1{font-size:22px;margin:18px 0 4px}
-.fascicle-report h2{font-size:18px;margin:28px 0 8px;border-bottom:1px solid #ccc}.fascicle-report h3{font-size:15px;margin:18px 0 6px}
+.fascicle-report h2{font-size:18px;margin:28px 0 8px;border-bottom:1px solid #ccc}
+.fascicle-report h3{font-size:15px;margin:18px 0 6px}
 .fascicle-report nav ol{margin:4px 0}.fascicle-report .meta{color:#555}
 .fascicle-report .figure{margin:10px 0 22px;page-break-inside:avoid;break-inside:avoid}
-.fascicle-report figcaption{font-size:12px;color:#444}.fascicle-report .fascicle-table td,.fascicle-report .fascicle-table th{
+.fascicle-report figcaption{font-size:12px;color:#444}
+.fascicle-report .fascicle-table td,.fascicle-report .fascicle-table th{
 border-bottom:1px solid #e4e4e4;padding:1px 6px;text-align:left;white-space:nowrap}
 .fascicle-report .fascicle-table thead th{position:sticky;top:0;background:#f4f4f4}
-.fascicle-report pre.methods{white-space:pre-wrap;font:13px/1.5 Georgia,serif}.fascicle-report pre.provenance{white-space:pre-wrap;
+.fascicle-report pre.methods{white-space:pre-wrap;font:13px/1.5 Georgia,serif}
+.fascicle-report pre.provenance{white-space:pre-wrap;
 font-size:11px;background:#f7f7f7;padding:6px;max-height:420px;overflow:auto}.fascicle-report .sev-rejected{color:#a00}
 .fascicle-report .sev-warning{color:#8a5a00}.fascicle-report .print-note{display:none}
 @media print{.fascicle-report{max-width:none;font-size:10pt}.fascicle-report nav,.fascicle-report .screen-only,
 .fascicle-report .bulk,.fascicle-report .wide{display:none}
 .fascicle-report .fascicle-table td{white-space:normal}.fascicle-report .print-note{display:block}
 .fascicle-report .fascicle-table{max-height:none!important;overflow:visible!important}
-.fascicle-report .fascicle-table table{font-size:7pt!important}.fascicle-report .fascicle-table thead th{position:static}
+.fascicle-report .fascicle-table table{font-size:7pt!important}
+.fascicle-report .fascicle-table thead th{position:static}
 .fascicle-report pre.provenance{max-height:none;overflow:visible}.fascicle-report h2{break-after:avoid}}`;
 
 /** A study name from the manifest step of the history (its "study" option). */
@@ -119,6 +125,8 @@ const count = (rows: readonly Row[], k: string) => {
 const unit = (u: unknown) => escapeHtml(plainText(unitText(u)));
 const plural = (n: number, w: string) => `${n} ${w}${n === 1 ? '' : 's'}`;
 const anchor = (s: string) => s.replace(/[^A-Za-z0-9_-]+/g, '-');
+const ol = (items: string[], cls = '') =>
+  `<ol${cls ? ` class="${cls}"` : ''}>${items.map((x) => `<li>${x}</li>`).join('')}</ol>`;
 const pick = (rows: readonly Row[], cols: string[]) =>
   rows.map((r) => Object.fromEntries(cols.filter((c) => c in r).map((c) => [c, r[c]])));
 
@@ -209,10 +217,12 @@ function tablesHtml(study: Study, bundle: boolean): { html: string; toc: string[
     if (name === 'flags') continue;
     const id = `table-${anchor(name)}`;
     const title = TABLE_TITLES[name] ?? name;
-    const file = bundle ? ` (<a href="tables/${escapeHtml(name)}.csv">CSV</a>, <a href="tables/${escapeHtml(name)}.json">JSON</a>)` : '';
+    const n = escapeHtml(name);
+    const file = bundle ? ` (<a href="tables/${n}.csv">CSV</a>, <a href="tables/${n}.json">JSON</a>)` : '';
     toc.push(`<a href="#${id}">${escapeHtml(title)}</a>`);
     if (!rows.length) {
-      parts.push(`<section id="${id}"><h3>${escapeHtml(title)}</h3><p>No rows: ${emptyReason(study, name)}.</p></section>`);
+      const why = emptyReason(study, name);
+      parts.push(`<section id="${id}"><h3>${escapeHtml(title)}</h3><p>No rows: ${why}.</p></section>`);
       continue;
     }
     const table = tableHtml(rows, { sortable: true, maxRows: 2000 });
@@ -233,7 +243,8 @@ function flagsHtml(study: Study): string {
   const f = study.tables.flags;
   if (!f.length) return '<p>No flags: every estimate was made and passed its checks.</p>';
   const by = count(f, 'severity');
-  return `<p>${[...by].map(([k, n]) => `${escapeHtml(k)}: ${n}`).join(', ')}. Rejected: the estimate could not be made; `
+  const counts = [...by].map(([k, n]) => `${escapeHtml(k)}: ${n}`).join(', ');
+  return `<p>${counts}. Rejected: the estimate could not be made; `
     + 'not measured: there was nothing to measure; warning: the estimate was made but may be wrong.</p>'
     + tableHtml(f, { sortable: true, maxRows: 2000 });
 }
@@ -245,7 +256,8 @@ function figuresHtml(figures: readonly Figure[], bundle: boolean): { html: strin
     const title = plainTitle(f);
     toc.push(`<a href="#${id}">Figure ${i + 1}: ${escapeHtml(title)}</a>`);
     const link = bundle ? ` (<a href="figures/${escapeHtml(f.name)}.html">own page</a>)` : '';
-    return `<figure class="figure" id="${id}">${f.toHTML('page')}<figcaption>Figure ${i + 1}. ${escapeHtml(title)}${link}</figcaption></figure>`;
+    const caption = `<figcaption>Figure ${i + 1}. ${escapeHtml(title)}${link}</figcaption>`;
+    return `<figure class="figure" id="${id}">${f.toHTML('page')}${caption}</figure>`;
   }).join('\n');
   return { html, toc };
 }
@@ -255,9 +267,13 @@ export function reportHtml(input: ReportInput): string {
   if (!input || typeof input !== 'object') throw new OptionError('reportHtml: expected { study, methods, provenance }');
   checkKeys('reportHtml input', input, INPUT_KEYS);
   const { study, methods, provenance } = input;
-  if (!study || !study.tables) throw new OptionError('reportHtml: "study" must be a study (from combineStudy or runStudy)');
+  if (!study || !study.tables) {
+    throw new OptionError('reportHtml: "study" must be a study (from combineStudy or runStudy)');
+  }
   if (typeof methods !== 'string') throw new OptionError('reportHtml: "methods" must be the methods text (a string)');
-  if (!provenance || typeof provenance !== 'object') throw new OptionError('reportHtml: "provenance" must be a provenance object');
+  if (!provenance || typeof provenance !== 'object') {
+    throw new OptionError('reportHtml: "provenance" must be a provenance object (as in provenance.json)');
+  }
   const bundle = input.bundle === true;
   const figures = input.figures ?? studyFigureList(study);
   const title = input.title ?? studyName(study) ?? 'Study report';
@@ -267,13 +283,14 @@ export function reportHtml(input: ReportInput): string {
     ? `<ul>${study.notes.map((n) => `<li>${escapeHtml(n)}</li>`).join('')}</ul>`
     : '<p>No notes.</p>';
   const files = bundle
-    ? '<p class="meta">Files of this bundle: <a href="methods.txt">methods.txt</a>, <a href="provenance.json">provenance.json</a>, '
-      + `<a href="notes.txt">notes.txt</a>, tables under tables/${figures.length ? ', figures under figures/' : ''}.</p>`
+    ? '<p class="meta">Files of this bundle: <a href="methods.txt">methods.txt</a>, '
+      + '<a href="provenance.json">provenance.json</a>, <a href="notes.txt">notes.txt</a>, '
+      + `tables under tables/${figures.length ? ', figures under figures/' : ''}.</p>`
     : '';
   const toc = [
     '<a href="#summary">Summary</a>',
     '<a href="#preparations">Results per preparation</a>',
-    `<a href="#figures">Figures</a>${figs.toc.length ? `<ol>${figs.toc.map((x) => `<li>${x}</li>`).join('')}</ol>` : ''}`,
+    `<a href="#figures">Figures</a>${figs.toc.length ? ol(figs.toc) : ''}`,
     `<a href="#tables">Tables</a>`,
     '<a href="#flags">Flags, warnings and notes</a>',
     '<a href="#methods">Methods</a>',
@@ -288,28 +305,38 @@ export function reportHtml(input: ReportInput): string {
       : `<script>window.__fascicleDefine=window.define;window.define=undefined;</script>${inline}`
         + '<script>window.define=window.__fascicleDefine;</script>';
   }
-  const inputs = (provenance.inputs ?? []).map((s) => ({ path: s.path, bytes: s.bytes, sha256: s.sha256, partOf: s.partOf ?? '' }));
-  const steps = (provenance.steps ?? []).map((s, i) => ({ step: i + 1, verb: s.verb, version: s.version, options: JSON.stringify(s.options) }));
+  const inputs = (provenance.inputs ?? [])
+    .map((s) => ({ path: s.path, bytes: s.bytes, sha256: s.sha256, partOf: s.partOf ?? '' }));
+  const steps = (provenance.steps ?? [])
+    .map((s, i) => ({ step: i + 1, verb: s.verb, version: s.version, options: JSON.stringify(s.options) }));
+  const esc = escapeHtml;
+  const rr = provenance.rerun;
+  const rerun = rr
+    ? `<p>Rerun with manifest <code>${esc(rr.manifest)}</code>${rr.shard ? ` (shard ${esc(rr.shard)})` : ''}.</p>`
+    : '';
+  const prov = `<pre class="provenance">${esc(JSON.stringify(provenance, null, 1))}</pre>`;
+  const writtenBy = `fascicle ${esc(provenance.version ?? VERSION)} (Node ${esc(provenance.node ?? '')})`;
   return `<!doctype html>
 <html lang="en"><head><meta charset="utf-8"><meta name="generator" content="fascicle ${escapeHtml(VERSION)}">
 <meta name="viewport" content="width=device-width, initial-scale=1"><title>${escapeHtml(title)}</title>
 <style>${CSS}</style>${plotly}</head><body><main class="fascicle-report">
 <h1>${escapeHtml(title)}</h1>
-<p class="meta">Study report written by fascicle ${escapeHtml(provenance.version ?? VERSION)} (Node ${escapeHtml(provenance.node ?? '')}).</p>
+<p class="meta">Study report written by ${writtenBy}.</p>
 ${files}
-<nav><h2>Contents</h2><ol>${toc.map((x) => `<li>${x}</li>`).join('')}</ol></nav>
+<nav><h2>Contents</h2>${ol(toc)}</nav>
 <section id="summary"><h2>Summary</h2>${summaryHtml(study, figures)}</section>
 <section id="preparations"><h2>Results per preparation</h2>${perPreparationHtml(study)}</section>
 <section id="figures"><h2>Figures</h2>${figs.html || '<p>No figures.</p>'}</section>
-<section id="tables"><h2>Tables</h2><ol class="screen-only">${tabs.toc.map((x) => `<li>${x}</li>`).join('')}</ol>${tabs.html}</section>
-<section id="flags"><h2>Flags, warnings and notes</h2><h3 id="table-flags">Flags</h3>${flagsHtml(study)}<h3>Notes</h3>${notes}</section>
+<section id="tables"><h2>Tables</h2>${ol(tabs.toc, 'screen-only')}${tabs.html}</section>
+<section id="flags"><h2>Flags, warnings and notes</h2>
+<h3 id="table-flags">Flags</h3>${flagsHtml(study)}<h3>Notes</h3>${notes}</section>
 <section id="methods"><h2>Methods</h2><pre class="methods">${escapeHtml(methods.trim())}</pre></section>
 <section id="provenance"><h2>Provenance</h2>
-<p>fascicle ${escapeHtml(provenance.version)}, Node ${escapeHtml(provenance.node)}${provenance.paths ? `; ${escapeHtml(provenance.paths)}` : ''}.</p>
-${provenance.rerun ? `<p>Rerun with manifest <code>${escapeHtml(provenance.rerun.manifest)}</code>${provenance.rerun.shard ? ` (shard ${escapeHtml(provenance.rerun.shard)})` : ''}.</p>` : ''}
+<p>${writtenBy}${provenance.paths ? `; ${esc(provenance.paths)}` : ''}.</p>
+${rerun}
 <h3>Inputs (SHA-256)</h3>${tableHtml(inputs, { sortable: true, maxRows: 5000 })}
 <h3>Processing steps</h3>${tableHtml(steps, { maxRows: 5000 })}
-<details class="screen-only"><summary>provenance.json</summary><pre class="provenance">${escapeHtml(JSON.stringify(provenance, null, 1))}</pre></details>
+<details class="screen-only"><summary>provenance.json</summary>${prov}</details>
 </section>
 </main></body></html>
 `;
@@ -338,7 +365,8 @@ export function writeReportHtml(dir: string, input: Omit<ReportInput, 'bundle'>)
     mkdirSync(resolve(dir), { recursive: true });
     writeFileSync(path, html);
   } catch (e) {
-    throw new OutputError(path, `cannot write ${path}: ${systemReason(e)}`, { refused: false, code: (e as NodeJS.ErrnoException).code });
+    const code = (e as NodeJS.ErrnoException).code;
+    throw new OutputError(path, `cannot write ${path}: ${systemReason(e)}`, { refused: false, code });
   }
   return path;
 }
