@@ -2,7 +2,7 @@
 import type { Step } from '../sweeps/SweepSet';
 import { VERSION } from '../version';
 import { FIBRE_RANGE_M_S, NEGATIVE_UTILISATION_FRACTION, MIN_DELAY_SAMPLES } from '../analysis/velocity';
-import { latencyMethodsText } from '../measure/components';
+import { latencyMethodsText } from '../measure/latencyText';
 
 /**
  * The analyses' own methods sentences (sweep QC, group statistics, mixed model, velocity distribution). Those
