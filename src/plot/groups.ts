@@ -68,7 +68,7 @@ export function groupFigure(result: GroupComparison, options: GroupFigureOptions
       }
     }
     data.push({
-      type: 'scatter', mode: 'markers', name: `${name} (animals)`,
+      type: 'scatter', mode: 'markers', name: `${name} (preparations)`,
       x: mine.map((p) => xOf(p.condition, g) + 0.25 * width * jitter(String(p.animal))), y: mine.map((p) => p.value),
       text: mine.map((p) => `${esc(String(p.animal))}: mean of ${p.n}`), hoverinfo: 'text+y',
       marker: { color: colour(gi), size: 7, opacity: 0.75 },

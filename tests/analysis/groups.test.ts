@@ -309,7 +309,7 @@ describe('groupFigure(result): points per animal, mean and 95% CI per group', ()
     // control pre: animal values 40, 41, 42 -> mean 41, SD 1, CI half-width t(0.975, 2) / sqrt 3 = 4.302653 / 1.732051
     expect(meanTrace.y[0]).toBeCloseTo(41, 12);
     expect(meanTrace.error_y.array[0]).toBeCloseTo(4.302652729749464 / Math.sqrt(3), 9); // scipy.stats.t.ppf(0.975, 2)
-    const animalTraces = fig.spec.data.filter((d) => d.mode === 'markers' && String(d.name).endsWith('(animals)'));
+    const animalTraces = fig.spec.data.filter((d) => d.mode === 'markers' && String(d.name).endsWith('(preparations)'));
     expect(animalTraces.map((d) => (d.y as number[]).length)).toEqual([6, 6]);
   });
   it('groupFigures gives one figure per class; an unknown cell is a typed error', () => {
