@@ -8,7 +8,7 @@ import { readFileSync, writeFileSync, mkdtempSync, rmSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join, resolve, dirname } from 'node:path';
 import {
-  ANALYSIS_KEYS, ANALYSIS_VALUES, REJECT_FLAGS, MANIFEST_KEYS, FILE_KEYS, SERIES, readManifest,
+  ANALYSIS_KEYS, ANALYSIS_VALUES, REJECT_FLAGS, MANIFEST_KEYS, FILE_KEYS, SERIES, readManifest, readManifestJson,
 } from '../../src/io/manifest';
 import { ConfigError } from '../../src/errors';
 import { PIPELINE_OPTION_KEYS } from '../../src/report/pipeline';
@@ -272,6 +272,16 @@ describe('manifest analysis keys follow the pipeline (drift test)', () => {
     const schema = JSON.parse(readFileSync(join(root, 'schema', 'manifest.schema.json'), 'utf8'));
     expect(sorted(Object.keys(schema.properties))).toEqual(sorted(MANIFEST_KEYS));
     expect(sorted(Object.keys(schema.properties.files.items.properties))).toEqual(sorted(FILE_KEYS));
+    // the formats a file entry may name are those of ManifestFile.format
+    const fileType = interfaceMembers(join(root, 'src', 'io', 'manifest.ts'), 'ManifestFile').get('format')!;
+    const formats = [...fileType.matchAll(/'([\w-]+)'/g)].map((m) => m[1]);
+    expect(formats.length).toBeGreaterThan(1);
+    expect(sorted(schema.properties.files.items.properties.format.enum)).toEqual(sorted(formats));
+    for (const format of formats) {
+      const p = join(loadDir, `f-${format}.json`);
+      writeFileSync(p, JSON.stringify({ fascicleManifest: 1, files: [{ path: 'x.dat', format, conditions: { preparation: 'P1' } }] }));
+      expect(() => readManifestJson(p), format).not.toThrow(); // the schema (files are not opened here)
+    }
     // the analysis section's keys (for editors' completion) are those the reader accepts
     const an = schema.properties.analysis.properties as Record<string, { type?: string; properties?: object }>;
     expect(sorted(Object.keys(an))).toEqual(sorted(Object.keys(ANALYSIS_KEYS)));
