@@ -9,6 +9,7 @@ import { writeBundle, makeProvenance, checkOutput, relativeProvenance, type Prov
 import { methodsText } from '../report/methods';
 import { OptionError, InputError, ThreadError } from '../errors';
 import { studyFigures } from '../plot/study';
+import { nwbReady } from '../io/nwbLib';
 
 export interface RunOptions {
   manifest: string;
@@ -30,6 +31,16 @@ export function preparationsOf(m: Manifest): Map<string, number[]> | null {
     (out.get(k) ?? out.set(k, []).get(k)!).push(i);
   }
   return new Map([...out].sort((a, b) => (a[0] < b[0] ? -1 : 1)));
+}
+
+/** Whether a manifest lists an NWB file (read like the manifest reader: its format, else a .nwb name). */
+export function listsNwb(m: Manifest): boolean {
+  return m.files.some((f) => f.format === 'nwb' || (f.format === undefined && /\.nwb$/i.test(f.path)));
+}
+
+/** Load the HDF5 library in this thread when the manifest lists NWB files (the manifest reader is synchronous). */
+export async function readyFor(manifestPath: string): Promise<void> {
+  if (listsNwb(readManifestJson(manifestPath).manifest)) await nwbReady();
 }
 
 /** Process one preparation (by its file indices) in this thread. */
@@ -114,6 +125,7 @@ export function workerHeapMb(): number | undefined {
 /** The per-preparation outputs of a run (all, or a shard's share). */
 export async function computeOutputs(o: RunOptions, options: PipelineOptions): Promise<PrepOutput[]> {
   const { manifest } = readManifestJson(o.manifest);
+  if (listsNwb(manifest)) await nwbReady();
   const preps = preparationsOf(manifest);
   let tasks: { prep: string; files: number[] | null }[];
   if (preps) tasks = [...preps].map(([prep, files]) => ({ prep, files }));

@@ -1,9 +1,10 @@
 /** Worker thread: processes one preparation per message. */
 import { parentPort } from 'node:worker_threads';
-import { processPreparation } from './engine';
+import { processPreparation, readyFor } from './engine';
 
-parentPort!.on('message', (m: { manifest: string; files: number[] | null; prep: string; options: object }) => {
+parentPort!.on('message', async (m: { manifest: string; files: number[] | null; prep: string; options: object }) => {
   try {
+    await readyFor(m.manifest); // each thread loads the HDF5 library itself when the study has NWB files
     const output = processPreparation(m.manifest, m.files, m.files ? null : m.prep, m.options);
     parentPort!.postMessage({ ok: true, output });
   } catch (e) {

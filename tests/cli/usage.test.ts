@@ -2,7 +2,7 @@
 // runners, the environment settings it checks, and the exit-code table (README = help = code).
 import { describe, it, expect } from 'vitest';
 import { spawnSync } from 'node:child_process';
-import { readFileSync, mkdtempSync, existsSync, rmSync } from 'node:fs';
+import { readFileSync, writeFileSync, mkdtempSync, mkdirSync, cpSync, existsSync, rmSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 
@@ -68,6 +68,33 @@ describe('command line usage as documented', () => {
         const v = Number((q.r50_ms as number).toPrecision(3));
         expect(r.stdout).toContain(`  recovery R50 ${q.class} (${q.preparation} at ${q.distanceMm} mm): ${v} ms`);
       }
+    } finally {
+      rmSync(work, { recursive: true, force: true });
+    }
+  }, 60_000);
+  it('a manifest listing NWB files runs (the HDF5 library is loaded in the main and the --jobs threads), reruns', () => {
+    // tests/fixtures/nwb/continuous.nwb: written by h5py (versions in tests/fixtures/nwb/expected.json), 3 channels
+    const work = mkdtempSync(join(tmpdir(), 'fascicle-usage-'));
+    try {
+      mkdirSync(join(work, 'study'));
+      cpSync(join(root, 'tests', 'fixtures', 'nwb', 'continuous.nwb'), join(work, 'study', 'continuous.nwb'));
+      const entry = (channel: number, preparation: string, distanceMm: number) => (
+        { path: 'continuous.nwb', options: { channel }, conditions: { preparation, distanceMm, temperatureC: 37 } });
+      const m = join(work, 'study', 'manifest.json');
+      writeFileSync(m, JSON.stringify({
+        fascicleManifest: 1, analysis: { baseline: { window: [-4, -0.2] } }, files: [entry(0, 'N1', 12), entry(1, 'N2', 24.5)],
+      }));
+      const env = { FASCICLE_QUIET: '1' };
+      const a = run(['run', m, '--out', join(work, 'one'), '--quiet', '--no-figures'], env);
+      expect(a.status, a.stderr).toBe(0);
+      const b = run(['run', m, '--out', join(work, 'two'), '--quiet', '--no-figures', '--jobs', '2'], env);
+      expect(b.status, b.stderr).toBe(0);
+      const rows = JSON.parse(readFileSync(join(work, 'one', 'tables', 'components.json'), 'utf8')) as Record<string, unknown>[];
+      expect(new Set(rows.map((q) => q.preparation))).toEqual(new Set(['N1', 'N2']));
+      expect(readFileSync(join(work, 'two', 'tables', 'components.csv'), 'utf8'))
+        .toBe(readFileSync(join(work, 'one', 'tables', 'components.csv'), 'utf8'));
+      const rr = run(['rerun', join(work, 'one')], env);
+      expect(rr.status, rr.stderr).toBe(0);
     } finally {
       rmSync(work, { recursive: true, force: true });
     }
