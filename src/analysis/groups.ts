@@ -23,7 +23,7 @@
 import type { ConditionValue, Step, Source } from '../sweeps/SweepSet';
 import { OptionError, AnalysisError } from '../errors';
 import { checkKeys, didYouMean } from '../validate';
-import { betaInc, fSurvival, logGamma, tQuantile } from '../fit/dist';
+import { betaInc, fSurvival, gammaQ, tQuantile } from '../fit/dist';
 import { summarize, pairedCompare } from './stats';
 import { Result } from '../report/result';
 import { toFrame } from '../report/frame';
@@ -41,33 +41,6 @@ export function tTwoSided(t: number, df: number): number {
   return betaInc(df / (df + t * t), df / 2, 0.5);
 }
 
-/** Upper regularised incomplete gamma Q(a, x), directly in the tail (series below a + 1, continued fraction above). */
-function gammaQ(a: number, x: number): number {
-  if (!(x > 0)) return 1;
-  const gln = logGamma(a);
-  if (x < a + 1) {
-    let sum = 1 / a, del = sum, ap = a;
-    for (let n = 0; n < 10000; n++) {
-      ap++;
-      del *= x / ap;
-      sum += del;
-      if (Math.abs(del) < Math.abs(sum) * 1e-17) break;
-    }
-    return 1 - sum * Math.exp(-x + a * Math.log(x) - gln);
-  }
-  let b = x + 1 - a, c = 1 / 1e-300, d = 1 / b, h = d;
-  for (let i = 1; i < 10000; i++) {
-    const an = -i * (i - a);
-    b += 2;
-    d = an * d + b; if (Math.abs(d) < 1e-300) d = 1e-300;
-    c = b + an / c; if (Math.abs(c) < 1e-300) c = 1e-300;
-    d = 1 / d;
-    const del = d * c;
-    h *= del;
-    if (Math.abs(del - 1) < 1e-16) break;
-  }
-  return Math.exp(-x + a * Math.log(x) - gln) * h;
-}
 
 /** Upper tail of the standard normal, P(Z > z), accurate far in the tail (erfc via Q(1/2, z^2/2)). */
 export function normSf(z: number): number {

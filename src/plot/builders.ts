@@ -235,19 +235,7 @@ export function sweepsFigure(
         const ci = cls.indexOf(r.class);
         if (options.zoom !== undefined && r.class !== options.zoom) return;
         if (s === idx[0] && num(r.window_start_ms) && num(r.window_end_ms)) {
-          shapes.push({
-            type: 'rect',
-            xref: 'x',
-            yref: 'paper',
-            x0: r.window_start_ms,
-            x1: r.window_end_ms,
-            y0: 0,
-            y1: 1,
-            fillcolor: colour(ci),
-            opacity: 0.1,
-            line: { width: 0 },
-            layer: 'below',
-          });
+          shapes.push(classWindowShape(r, ci));
           if (!shownCls.has(r.class)) {
             shownCls.add(r.class);
             data.push(areaEntry(`${plotlyText(r.class)} window`, colour(ci), 0.3));
@@ -553,6 +541,14 @@ export function velocityFigure(
       yaxis,
     }),
   });
+}
+
+/** A class's latency window as a light band behind the sweeps (the sweep figure and the sweep viewer). */
+export function classWindowShape(r: Record<string, unknown>, ci: number): Record<string, unknown> {
+  return {
+    type: 'rect', xref: 'x', yref: 'paper', x0: r.window_start_ms, x1: r.window_end_ms, y0: 0, y1: 1,
+    fillcolor: colour(ci), opacity: 0.1, line: { width: 0 }, layer: 'below',
+  };
 }
 
 /** Dose-response per class: per-preparation points, pooled Hill fit and its 95% confidence band. */

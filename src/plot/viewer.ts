@@ -11,6 +11,7 @@ import { Figure, PALETTE, layoutFor } from './figure';
 import { plotlyText, unitText, sentenceCase, tickNumber } from './labels';
 import { OptionError } from '../errors';
 import { checkKeys } from '../validate';
+import { classWindowShape } from './builders';
 
 type Trace = Record<string, unknown>;
 const num = (x: unknown): x is number => typeof x === 'number' && Number.isFinite(x);
@@ -92,19 +93,7 @@ export function sweepViewer(
       for (const r of rows) {
         const ci = classes.indexOf(r.class);
         if (num(r.window_start_ms) && num(r.window_end_ms))
-          shapes.push({
-            type: 'rect',
-            xref: 'x',
-            yref: 'paper',
-            x0: r.window_start_ms,
-            x1: r.window_end_ms,
-            y0: 0,
-            y1: 1,
-            fillcolor: colour(ci),
-            opacity: 0.1,
-            line: { width: 0 },
-            layer: 'below',
-          });
+          shapes.push(classWindowShape(r, ci));
         const m = MARKS.filter(([key]) => r.detected && num(r[key]));
         if (!m.length) continue;
         mine.push(data.length);
