@@ -1,4 +1,5 @@
 /** The command line's engine: run a manifest's study (in workers or shards) into a bundle. */
+import { reportHtml } from '../report/reportHtml';
 import { Worker } from 'node:worker_threads';
 import { join, resolve, dirname, isAbsolute } from 'node:path';
 import { readFileSync, existsSync } from 'node:fs';
@@ -172,9 +173,12 @@ export async function writeStudyBundle(out: string, study: Study, rerun: Provena
   if (figures) Object.assign(files, studyFigures(study));
   let provenance = makeProvenance(study.history, study.sources, rerun);
   if (rerun?.manifest) provenance = relativeProvenance(provenance, rerun.manifest, out);
+  const methods = methodsText(study.history, { preparations, files: files0 });
+  // one offline page with the summary, figures, tables, flags, methods and provenance (uses the bundle's plotly copy)
+  files['report.html'] = reportHtml({ study, methods, provenance, bundle: true, ...(figures ? {} : { figures: [] }) });
   return writeBundle(out, {
     tables: study.tables as unknown as Record<string, Record<string, unknown>[]>,
-    methods: methodsText(study.history, { preparations, files: files0 }),
+    methods,
     provenance,
     files: { ...files, 'notes.txt': study.notes.length ? study.notes.join('\n') + '\n' : 'no notes\n' },
   }, { inputs });
