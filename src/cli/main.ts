@@ -1,7 +1,7 @@
 #!/usr/bin/env node
 /**
  * fascicle command line.
- *   fascicle run <manifest.json> --out <dir> [--jobs N] [--shard i/n] [--no-figures] [--quiet]
+ *   fascicle run <manifest.json> --out <dir> [--jobs N] [--shard i/n] [--nwb <file> [--nwb-raw]] [--no-figures] [--quiet]
  *   fascicle merge <shard-dir>... --out <dir>
  *   fascicle rerun <bundle-dir> [--manifest <path>]
  *   fascicle help [<command>] | version | --help | <command> --help | --version (a leading -- is skipped)
@@ -13,7 +13,7 @@
 import { readFileSync, readdirSync, mkdtempSync, rmSync, existsSync, statSync } from 'node:fs';
 import { join, resolve, dirname } from 'node:path';
 import { tmpdir } from 'node:os';
-import { runStudy, mergeShards } from './engine';
+import { runStudy, mergeShards, analysisOptions } from './engine';
 import { flagReport, FLAG_LINE_CAP } from './flags';
 import type { Study } from '../report/study';
 import { verifyInputs, type Provenance } from '../report/bundle';
@@ -59,6 +59,10 @@ Options:
                     FASCICLE_WORKER_HEAP_MB=<MB> limits each worker thread's heap)
   --shard <i/n>     process only share i of n of the preparations (sorted by name);
                     writes a partial output for "fascicle merge"
+  --nwb <file>      also write the study as an NWB 2.7.0 file: the conditioned sweeps (with
+                    --nwb-raw: as acquired), a trials table with every condition, the
+                    electrodes with distances, the history and the result tables; a file
+                    fascicle did not write is never replaced
   --no-figures      skip the figure files
   --quiet           no progress output (results and flags are still printed)
 
@@ -87,13 +91,26 @@ Prints the version.`,
 
 const COMMANDS = ['run', 'merge', 'rerun', 'help', 'version'];
 const VALUE_OPTIONS: Record<string, string[]> = {
-  run: ['out', 'jobs', 'shard'], merge: ['out'], rerun: ['manifest'], help: [], version: [],
+  run: ['out', 'jobs', 'shard', 'nwb'], merge: ['out'], rerun: ['manifest'], help: [], version: [],
 };
 const FLAG_OPTIONS: Record<string, string[]> = {
-  run: ['no-figures', 'quiet', 'help'], merge: ['help'], rerun: ['help'], help: ['help'], version: ['help'],
+  run: ['no-figures', 'quiet', 'help', 'nwb-raw'], merge: ['help'], rerun: ['help'], help: ['help'], version: ['help'],
 };
 
 class UsageError extends Error {}
+
+/** The study's sweeps (conditioned as the pipeline conditions them, or as acquired) and result tables as NWB. */
+async function writeStudyNwb(manifest: string, path: string, raw: boolean, study: Study): Promise<void> {
+  const { nwbReady } = await import('../io/nwb');
+  const { writeNwbSync } = await import('../io/nwbWrite');
+  const { readManifest } = await import('../io/manifest');
+  const { condition } = await import('../report/pipeline');
+  await nwbReady();
+  const set = readManifest(manifest);
+  const sweeps = raw ? set : condition(set, analysisOptions(manifest));
+  const w = writeNwbSync(sweeps, path, { raw, overwrite: true, results: study.tables as never });
+  console.log(`NWB: ${path} (${w.trials} sweeps, ${w.series.length} series, ${w.tables.length} tables)`);
+}
 
 function parse(argv: string[]): { cmd: string; pos: string[]; flags: Record<string, string | boolean> } {
   const [cmd = '', ...rest] = argv;
@@ -175,6 +192,8 @@ async function main(argv0: string[]): Promise<number> {
     const secs = ((Date.now() - t0) / 1000).toFixed(1);
     if (shard) { console.log(`shard ${shard.index}/${shard.count}: ${r.outputs.length} preparation(s) written to ${flags.out} in ${secs} s; combine all shards with "fascicle merge"`); return 0; }
     console.log(`fascicle ${VERSION}: analysed ${r.outputs.length} preparation(s) in ${secs} s`);
+    if (flags['nwb-raw'] && typeof flags.nwb !== 'string') throw new UsageError('--nwb-raw needs --nwb <file>');
+    if (typeof flags.nwb === 'string') await writeStudyNwb(pos[0], flags.nwb, !!flags['nwb-raw'], r.study!);
     return reportStudy(r.study!, flags.out);
   }
   if (cmd === 'merge') {
