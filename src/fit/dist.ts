@@ -83,20 +83,11 @@ export function chi2Survival(x: number, k: number): number {
   return 1 - gammaIncLower(k / 2, x / 2);
 }
 
-/** Upper regularised incomplete gamma Q(a, x), directly in the tail (series below a + 1, continued fraction above). */
-export function gammaQ(a: number, x: number): number {
-  if (!(x > 0)) return 1;
-  const gln = logGamma(a);
-  if (x < a + 1) {
-    let sum = 1 / a, del = sum, ap = a;
-    for (let n = 0; n < 10000; n++) {
-      ap++;
-      del *= x / ap;
-      sum += del;
-      if (Math.abs(del) < Math.abs(sum) * 1e-17) break;
-    }
-    return 1 - sum * Math.exp(-x + a * Math.log(x) - gln);
-  }
+/**
+ * Q(a, x) for x >= a + 1 by the continued fraction (modified Lentz), gln = logGamma(a).
+ * Reference: W. H. Press et al., Numerical Recipes, 3rd ed., Cambridge 2007, section 6.2.
+ */
+function gammaTailCf(a: number, x: number, gln: number): number {
   let b = x + 1 - a, c = 1 / 1e-300, d = 1 / b, h = d;
   for (let i = 1; i < 10000; i++) {
     const an = -i * (i - a);
@@ -111,6 +102,23 @@ export function gammaQ(a: number, x: number): number {
   return Math.exp(-x + a * Math.log(x) - gln) * h;
 }
 
+/** Upper regularised incomplete gamma Q(a, x), directly in the tail (series below a + 1, continued fraction above). */
+export function gammaQ(a: number, x: number): number {
+  if (!(x > 0)) return 1;
+  const gln = logGamma(a);
+  if (x < a + 1) {
+    let sum = 1 / a, del = sum, ap = a;
+    for (let n = 0; n < 10000; n++) {
+      ap++;
+      del *= x / ap;
+      sum += del;
+      if (Math.abs(del) < Math.abs(sum) * 1e-17) break;
+    }
+    return 1 - sum * Math.exp(-x + a * Math.log(x) - gln);
+  }
+  return gammaTailCf(a, x, gln);
+}
+
 function gammaIncLower(a: number, x: number): number {
   const gln = logGamma(a);
   if (x < a + 1) {
@@ -118,18 +126,7 @@ function gammaIncLower(a: number, x: number): number {
     for (let n = 0; n < 10000; n++) { ap++; del *= x / ap; sum += del; if (Math.abs(del) < Math.abs(sum) * 1e-16) break; }
     return sum * Math.exp(-x + a * Math.log(x) - gln);
   }
-  let b = x + 1 - a, c = 1 / 1e-300, d = 1 / b, h = d;
-  for (let i = 1; i < 10000; i++) {
-    const an = -i * (i - a);
-    b += 2;
-    d = an * d + b; if (Math.abs(d) < 1e-300) d = 1e-300;
-    c = b + an / c; if (Math.abs(c) < 1e-300) c = 1e-300;
-    d = 1 / d;
-    const del = d * c;
-    h *= del;
-    if (Math.abs(del - 1) < 1e-16) break;
-  }
-  return 1 - Math.exp(-x + a * Math.log(x) - gln) * h;
+  return 1 - gammaTailCf(a, x, gln);
 }
 
 /** Standard normal CDF. */

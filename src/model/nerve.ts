@@ -162,10 +162,8 @@ export function conducts(model: NerveModel, f: Fiber, c: number): boolean {
   return f.block >= blocked;
 }
 
-/** The noiseless CAP (uV) of one sweep into out (length grid.nSamples); per-class parts when `parts` is given. */
-export function synthesizeCap(model: NerveModel, fibers: Fiber[], rc: RecordingConditions, grid: SweepGrid, out: Float64Array, rng?: Rng, parts?: Float64Array[]): Float64Array {
-  if (rc.pulsesMs) return synthesizePulses(model, fibers, rc, grid, out, rng, parts);
-  out.fill(0);
+/** What every fibre of one synthesized sweep shares (the jitter draw is the sweep's first use of rng). */
+function capSetup(model: NerveModel, rc: RecordingConditions, grid: SweepGrid, rng?: Rng) {
   const dtMs = 1000 / grid.fs;
   const jitter = rc.jitterMs && rng ? rc.jitterMs * rng.normal() : 0;
   const tauScale = Math.pow(model.q10Duration, -(rc.temperatureC - 37) / 10);
@@ -173,6 +171,14 @@ export function synthesizeCap(model: NerveModel, fibers: Fiber[], rc: RecordingC
   const sep = rc.electrodeSeparationMm ?? 3;
   const pw = rc.pulseWidthMs;
   const sd = model.populations.map((p) => (pw === undefined ? 1 : weissFactor(p, pw, model.referencePulseWidthMs ?? defaultReferencePulseWidthMs)));
+  return { dtMs, jitter, tauScale, biphasic, sep, sd };
+}
+
+/** The noiseless CAP (uV) of one sweep into out (length grid.nSamples); per-class parts when `parts` is given. */
+export function synthesizeCap(model: NerveModel, fibers: Fiber[], rc: RecordingConditions, grid: SweepGrid, out: Float64Array, rng?: Rng, parts?: Float64Array[]): Float64Array {
+  if (rc.pulsesMs) return synthesizePulses(model, fibers, rc, grid, out, rng, parts);
+  out.fill(0);
+  const { dtMs, jitter, tauScale, biphasic, sep, sd } = capSetup(model, rc, grid, rng);
   for (const f of fibers) {
     if (rc.intensity < f.threshold * sd[f.pop]) continue;
     if (!conducts(model, f, rc.concentration)) continue;
@@ -355,13 +361,7 @@ function synthesizePulses(model: NerveModel, fibers: Fiber[], rc: RecordingCondi
   const pulses = rc.pulsesMs!;
   checkPulses(pulses);
   out.fill(0);
-  const dtMs = 1000 / grid.fs;
-  const jitter = rc.jitterMs && rng ? rc.jitterMs * rng.normal() : 0;
-  const tauScale = Math.pow(model.q10Duration, -(rc.temperatureC - 37) / 10);
-  const biphasic = rc.recording === 'biphasic';
-  const sep = rc.electrodeSeparationMm ?? 3;
-  const pw = rc.pulseWidthMs;
-  const sd = model.populations.map((p) => (pw === undefined ? 1 : weissFactor(p, pw, model.referencePulseWidthMs ?? defaultReferencePulseWidthMs)));
+  const { dtMs, jitter, tauScale, biphasic, sep, sd } = capSetup(model, rc, grid, rng);
   for (const f of fibers) {
     if (rc.intensity < f.threshold * sd[f.pop]) continue;
     if (!conducts(model, f, rc.concentration)) continue;
