@@ -23,12 +23,12 @@
  * A file fascicle wrote (its /general/source_script) carries every condition in its trials table
  * and its study settings in /processing/fascicle; those are read instead of the file-level ones.
  */
-import { closeSync, openSync, constants, fstatSync } from 'node:fs';
+import { closeSync } from 'node:fs';
 import { InputError, OptionError } from '../errors';
 import { checkKeys, conditionsProblem, nearest, windowMs, shown, warnOnce } from '../validate';
 import { SweepSet, type Conditions, type ConditionValue } from '../sweeps/SweepSet';
 import { SIGNAL_UNITS, type SignalUnit } from '../sweeps/units';
-import { lazySource } from './files';
+import { lazySource, openInput } from './files';
 import { sharedSamples } from '../parallel/pool';
 import { VERSION } from '../version';
 import {
@@ -74,6 +74,17 @@ const VOLT_UNITS: Record<string, number> = { volts: 1, volt: 1, v: 1, millivolts
 const UNIT_SCALE: Record<SignalUnit, number> = { V: 1, mV: 1e-3, uV: 1e-6 };
 /** What fascicle writes in /general/source_script. */
 export const FASCICLE_SCRIPT = 'fascicle';
+
+/** Open an NWB file read-only (a regular file: openInput refuses a FIFO without waiting) as HDF5. */
+function openNwb(path: string): { f: H5File; stat: import('node:fs').Stats } {
+  const { fd, stat } = openInput(path);
+  try {
+    return { f: openHdf5(path, fd, stat.size), stat };
+  } catch (e) {
+    try { closeSync(fd); } catch { /* closed already */ }
+    throw e;
+  }
+}
 
 /** Read an NWB file into a SweepSet (loads the HDF5 library first when needed). */
 export async function readNwb(path: string, options: NwbReadOptions = {}): Promise<SweepSet> {
@@ -145,25 +156,7 @@ export function readNwbSync(path: string, options: NwbReadOptions = {}): SweepSe
     if (!win) throw new OptionError('stimulusTimes needs a window ([from, to] in ms around each stimulus)');
   }
 
-  let fd: number;
-  try {
-    fd = openSync(path, constants.O_RDONLY);
-  } catch (e) {
-    throw new InputError({ file: path },
-      `cannot open file (${(e as NodeJS.ErrnoException).code ?? (e as Error).message})`, 'a readable NWB file');
-  }
-  const stat = fstatSync(fd);
-  if (!stat.isFile()) {
-    closeSync(fd);
-    throw new InputError({ file: path }, 'this is not a regular file', 'a readable NWB file');
-  }
-  let f: H5File;
-  try {
-    f = openHdf5(path, fd, stat.size);
-  } catch (e) {
-    try { closeSync(fd); } catch { /* closed already */ }
-    throw e;
-  }
+  const { f, stat } = openNwb(path);
   try {
     return readOpen(path, f, o, win, stat);
   } finally {
@@ -905,14 +898,7 @@ function readInto(file: string, s: SeriesInfo, i0: number, i1: number, out: Floa
 /** Result tables that fascicle wrote to /processing/fascicle (name -> rows). */
 export async function readNwbTables(path: string): Promise<Record<string, Record<string, ConditionValue>[]>> {
   await nwbReady();
-  let fd: number;
-  try {
-    fd = openSync(path, constants.O_RDONLY);
-  } catch (e) {
-    throw new InputError({ file: path },
-      `cannot open file (${(e as NodeJS.ErrnoException).code ?? (e as Error).message})`, 'a readable NWB file');
-  }
-  const f = openHdf5(path, fd, fstatSync(fd).size);
+  const { f } = openNwb(path);
   try {
     const out: Record<string, Record<string, ConditionValue>[]> = {};
     const mod = at(f, '/processing/fascicle');
@@ -948,14 +934,7 @@ export interface NwbContents {
 /** List the series, TimeIntervals tables and electrodes of an NWB file (reads no samples). */
 export async function describeNwb(path: string): Promise<NwbContents> {
   await nwbReady();
-  let fd: number;
-  try {
-    fd = openSync(path, constants.O_RDONLY);
-  } catch (e) {
-    throw new InputError({ file: path },
-      `cannot open file (${(e as NodeJS.ErrnoException).code ?? (e as Error).message})`, 'a readable NWB file');
-  }
-  const f = openHdf5(path, fd, fstatSync(fd).size);
+  const { f } = openNwb(path);
   try {
     if (typeOf(f) !== 'NWBFile') {
       throw new InputError({ file: path, field: '/' }, 'HDF5 without the NWB root attributes', 'an NWB 2.x file');
