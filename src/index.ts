@@ -16,7 +16,14 @@ export { VERSION } from './version';
 export { threads, setThreads, workerJobs, stopThreads } from './parallel/pool';
 export { baseline, baselineDefaults } from './verbs/baseline';
 export type { BaselineOptions } from './verbs/baseline';
-export { removeArtifact, artifactDefaults, detectStimulus, alignStimulus, bridgeGap, fitExpTail } from './verbs/artifact';
+export {
+  removeArtifact,
+  artifactDefaults,
+  detectStimulus,
+  alignStimulus,
+  bridgeGap,
+  fitExpTail,
+} from './verbs/artifact';
 export type { ArtifactOptions, ArtifactMethod, StimulusDetection } from './verbs/artifact';
 export { filter, notch, filterDefaults, notchDefaults } from './verbs/filter';
 export type { FilterOptions, NotchOptions } from './verbs/filter';
@@ -52,7 +59,15 @@ export { fitTemperature, temperatureAnalysis, TemperatureResult } from './analys
 export type { TemperatureFit } from './analysis/temperature';
 export { Figure, PALETTE, baseLayout, plotlyJs } from './plot/figure';
 export type { PlotlySpec } from './plot/figure';
-export { sweepsFigure, recruitmentFigure, velocityFigure, doseResponseFigure, temperatureFigure, summaryFigure, strengthDurationFigure } from './plot/builders';
+export {
+  sweepsFigure,
+  recruitmentFigure,
+  velocityFigure,
+  doseResponseFigure,
+  temperatureFigure,
+  summaryFigure,
+  strengthDurationFigure,
+} from './plot/builders';
 export { saveFigures, findBrowser } from './plot/export';
 export { methodsText } from './report/methods';
 export { writeBundle, toCsv, csvCell, makeProvenance, verifyInputs } from './report/bundle';
@@ -74,16 +89,68 @@ export type { SaveJob, SaveOptions, SizeOptions, Column } from './plot/export';
 export { plotlyText, unitText, measureLabel, logTicks } from './plot/labels';
 export { averageRepeats, velocityOf, velocityBy, computedCount, PIPELINE_OPTION_KEYS } from './report/pipeline';
 export type { Flag } from './report/pipeline';
-export { latencyDefinitions, markRecommended, recommendedEstimator, RECOMMENDED_VELOCITY, FIBRE_RANGE_M_S } from './analysis/velocity';
+export {
+  latencyDefinitions,
+  markRecommended,
+  recommendedEstimator,
+  RECOMMENDED_VELOCITY,
+  FIBRE_RANGE_M_S,
+} from './analysis/velocity';
 export type { LatencyDefinition, LatencyBasis, VelocityStatus, Estimator } from './analysis/velocity';
 export { velocityTemperature, temperatureRow } from './analysis/temperature';
 export type { RecruitmentOptions } from './analysis/recruitment';
-export { sweepQc, rejectFlagged, rejectedSweeps, sweepQcDefaults, sweepQcMethods, qcStepMethods, QC_REFERENCES } from './analysis/sweepQc';
+export {
+  sweepQc,
+  rejectFlagged,
+  rejectedSweeps,
+  sweepQcDefaults,
+  sweepQcMethods,
+  qcStepMethods,
+  QC_REFERENCES,
+} from './analysis/sweepQc';
 export { SweepQcResult, QC_FLAGS, detrendedMadNoise, differenceNoise, railSamples } from './analysis/sweepQc';
 export type { SweepQcOptions, QcFlag } from './analysis/sweepQc';
-export { welchTTest, mannWhitneyU, mannWhitneyExactSf, rankAverage, oneWayAnova, repeatedMeasuresAnova, holm, benjaminiHochberg, compareGroups, animalMeans, rowsOf, groupMethods, groupStepMethods, GROUP_REFERENCES, GroupComparison, groupDefaults, tTwoSided, normSf } from './analysis/groups';
-export type { GroupOptions, RowInput, AnimalPoint, WelchResult, MannWhitneyResult, AnovaResult, RmAnovaResult, TestStatus } from './analysis/groups';
-export { mixedModel, mixedMethods, mixedStepMethods, MIXED_REFERENCES, fitRandomIntercept, satterthwaiteDf, contrastF, MixedModelResult, mixedDefaults } from './analysis/mixed';
+export {
+  welchTTest,
+  mannWhitneyU,
+  mannWhitneyExactSf,
+  rankAverage,
+  oneWayAnova,
+  repeatedMeasuresAnova,
+  holm,
+  benjaminiHochberg,
+  compareGroups,
+  animalMeans,
+  rowsOf,
+  groupMethods,
+  groupStepMethods,
+  GROUP_REFERENCES,
+  GroupComparison,
+  groupDefaults,
+  tTwoSided,
+  normSf,
+} from './analysis/groups';
+export type {
+  GroupOptions,
+  RowInput,
+  AnimalPoint,
+  WelchResult,
+  MannWhitneyResult,
+  AnovaResult,
+  RmAnovaResult,
+  TestStatus,
+} from './analysis/groups';
+export {
+  mixedModel,
+  mixedMethods,
+  mixedStepMethods,
+  MIXED_REFERENCES,
+  fitRandomIntercept,
+  satterthwaiteDf,
+  contrastF,
+  MixedModelResult,
+  mixedDefaults,
+} from './analysis/mixed';
 export type { MixedOptions, RandomInterceptFit } from './analysis/mixed';
 export { groupFigure, groupFigures } from './plot/groups';
 export { readNwb, readNwbSync, readNwbTables, describeNwb, nwbReady, nwbLoaded, NwbNotReadyError } from './io/nwb';
@@ -100,10 +167,23 @@ export { fitSharedShape, decomposeTrace, valleyBin, nnlsGram } from './measure/d
 export { ownLatencies } from './measure/response';
 export { nnls, nnlsGram as nnlsNormalEquations } from './signal/nnls';
 export type { NnlsResult } from './signal/nnls';
-export { velocityDistribution, velocityDistributionDefaults, VelocityDistributionResult, velocityGrid, compareVelocityDistributions } from './analysis/velocityDistribution';
+export {
+  velocityDistribution,
+  velocityDistributionDefaults,
+  VelocityDistributionResult,
+  velocityGrid,
+  compareVelocityDistributions,
+} from './analysis/velocityDistribution';
 export type { VelocityDistributionOptions, VelocityDistributionFit } from './analysis/velocityDistribution';
 export { velocityDistributionFigure, velocityReconstructionFigure } from './plot/velocityDistribution';
-export { pairedPulse, pairedPulseDefaults, PairedPulseResult, fitRecovery, recoveryLogistic, recoveryLogistic90 } from './analysis/pairedPulse';
+export {
+  pairedPulse,
+  pairedPulseDefaults,
+  PairedPulseResult,
+  fitRecovery,
+  recoveryLogistic,
+  recoveryLogistic90,
+} from './analysis/pairedPulse';
 export type { PairedPulseOptions, RecoveryFit } from './analysis/pairedPulse';
 export { trains, trainDefaults, TrainResult } from './analysis/trains';
 export type { TrainOptions } from './analysis/trains';

@@ -3,7 +3,9 @@ import { OptionError } from './errors';
 
 export function finite(name: string, x: unknown, unit = ''): number {
   if (typeof x !== 'number' || !Number.isFinite(x)) {
-    throw new OptionError(`invalid ${name}: ${typeof x === 'string' ? JSON.stringify(x) : String(x)}${unit ? ' ' + unit : ''}; must be a finite number`);
+    throw new OptionError(
+      `invalid ${name}: ${typeof x === 'string' ? JSON.stringify(x) : String(x)}${unit ? ' ' + unit : ''}; must be a finite number`,
+    );
   }
   return x;
 }
@@ -18,7 +20,9 @@ export function inRange(name: string, x: unknown, lo: number, hi: number, unit =
   finite(name, x, unit);
   const v = x as number;
   if (!(v >= lo && v <= hi)) {
-    throw new OptionError(`invalid ${name}: ${v}${unit ? ' ' + unit : ''}; must be ${lo} <= ${name} <= ${hi}${note ? ' (' + note + ')' : ''}`);
+    throw new OptionError(
+      `invalid ${name}: ${v}${unit ? ' ' + unit : ''}; must be ${lo} <= ${name} <= ${hi}${note ? ' (' + note + ')' : ''}`,
+    );
   }
   return v;
 }
@@ -32,7 +36,9 @@ export function integerIn(name: string, x: unknown, lo: number, hi: number): num
 
 export function oneOf<T extends string>(name: string, x: unknown, allowed: readonly T[]): T {
   if (typeof x !== 'string' || !allowed.includes(x as T)) {
-    throw new OptionError(`invalid ${name}: ${JSON.stringify(x)}; must be one of ${allowed.map((a) => JSON.stringify(a)).join(', ')}`);
+    throw new OptionError(
+      `invalid ${name}: ${JSON.stringify(x)}; must be one of ${allowed.map((a) => JSON.stringify(a)).join(', ')}`,
+    );
   }
   return x as T;
 }
@@ -46,7 +52,15 @@ export function shown(x: unknown): string {
 
 /** A [from, to] time window in ms, from < to. */
 export function windowMs(name: string, w: unknown): [number, number] {
-  if (!Array.isArray(w) || w.length !== 2 || typeof w[0] !== 'number' || typeof w[1] !== 'number' || !Number.isFinite(w[0]) || !Number.isFinite(w[1]) || !(w[1] > w[0])) {
+  if (
+    !Array.isArray(w) ||
+    w.length !== 2 ||
+    typeof w[0] !== 'number' ||
+    typeof w[1] !== 'number' ||
+    !Number.isFinite(w[0]) ||
+    !Number.isFinite(w[1]) ||
+    !(w[1] > w[0])
+  ) {
     throw new OptionError(`invalid ${name}: ${shown(w)}; must be [from, to] in ms with from < to`);
   }
   return [w[0], w[1]];
@@ -65,7 +79,8 @@ export function warnOnce(key: string, message: string): void {
  * values are strings, finite numbers, booleans or null (what a sweep's conditions may hold).
  */
 export function conditionsProblem(x: unknown): string | null {
-  if (x === null || typeof x !== 'object' || Array.isArray(x)) return `conditions are ${Array.isArray(x) ? 'an array' : JSON.stringify(x)}`;
+  if (x === null || typeof x !== 'object' || Array.isArray(x))
+    return `conditions are ${Array.isArray(x) ? 'an array' : JSON.stringify(x)}`;
   for (const [k, v] of Object.entries(x as Record<string, unknown>)) {
     if (v === null || typeof v === 'string' || typeof v === 'boolean') continue;
     if (typeof v === 'number' && Number.isFinite(v)) continue;
@@ -76,8 +91,10 @@ export function conditionsProblem(x: unknown): string | null {
 
 /** Levenshtein edit distance (insertions, deletions, substitutions each cost 1). O(|a| |b|). */
 export function editDistance(a: string, b: string): number {
-  const m = a.length, n = b.length;
-  let prev = new Array<number>(n + 1), cur = new Array<number>(n + 1);
+  const m = a.length,
+    n = b.length;
+  let prev = new Array<number>(n + 1),
+    cur = new Array<number>(n + 1);
   for (let j = 0; j <= n; j++) prev[j] = j;
   for (let i = 1; i <= m; i++) {
     cur[0] = i;
@@ -92,7 +109,8 @@ export function editDistance(a: string, b: string): number {
 
 /** The allowed name nearest to `name` (case-insensitive edit distance), or null when none is close (more than half its length away). */
 export function nearest(name: string, allowed: readonly string[]): string | null {
-  let best: string | null = null, bestD = Infinity;
+  let best: string | null = null,
+    bestD = Infinity;
   for (const a of allowed) {
     const d = editDistance(name.toLowerCase(), a.toLowerCase());
     if (d < bestD) [best, bestD] = [a, d];
@@ -115,10 +133,13 @@ export function didYouMean(name: string, allowed: readonly string[]): string {
  */
 export function checkKeys(place: string, obj: unknown, allowed: readonly string[]): void {
   if (obj === null || obj === undefined) return;
-  if (typeof obj !== 'object' || Array.isArray(obj)) throw new OptionError(`invalid ${place}: ${shown(obj)}; must be an object`);
+  if (typeof obj !== 'object' || Array.isArray(obj))
+    throw new OptionError(`invalid ${place}: ${shown(obj)}; must be an object`);
   for (const k of Object.keys(obj)) {
     if (!allowed.includes(k)) {
-      throw new OptionError(`unknown key ${JSON.stringify(k)} in ${place}${didYouMean(k, allowed)}; valid keys: ${allowed.join(', ')}`);
+      throw new OptionError(
+        `unknown key ${JSON.stringify(k)} in ${place}${didYouMean(k, allowed)}; valid keys: ${allowed.join(', ')}`,
+      );
     }
   }
 }

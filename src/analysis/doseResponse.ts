@@ -56,18 +56,38 @@ export interface DoseResponseOptions {
    */
   maxLatencyShift?: number | null;
 }
-export const doseResponseDefaults = { lastN: 3, runDown: 'none' as const, fixBottom: null, bootstrap: 0, seed: 1, poolSites: false, minConcentrations: 4, maxLatencyShift: 0.5 as number | null };
+export const doseResponseDefaults = {
+  lastN: 3,
+  runDown: 'none' as const,
+  fixBottom: null,
+  bootstrap: 0,
+  seed: 1,
+  poolSites: false,
+  minConcentrations: 4,
+  maxLatencyShift: 0.5 as number | null,
+};
 
-export interface DosePoint { preparation: string; class: string; distanceMm: number | null; concentration: number; response: number; baseline: number; normalized: number; n: number }
+export interface DosePoint {
+  preparation: string;
+  class: string;
+  distanceMm: number | null;
+  concentration: number;
+  response: number;
+  baseline: number;
+  normalized: number;
+  n: number;
+}
 
 type Row = Record<string, ConditionValue>;
 const num = (v: number): number | null => (Number.isFinite(v) ? v : null);
 
 function steady(rows: Row[], lastN: number): { value: number; n: number; time: number } {
-  const sorted = [...rows].sort((a, b) => ((a.acquiredS as number) ?? (a.sweep as number)) - ((b.acquiredS as number) ?? (b.sweep as number)));
+  const sorted = [...rows].sort(
+    (a, b) => ((a.acquiredS as number) ?? (a.sweep as number)) - ((b.acquiredS as number) ?? (b.sweep as number)),
+  );
   const tail = sorted.slice(-lastN);
   const v = tail.map((r) => r.__value as number);
-  const t = tail.map((r) => ((r.acquiredS as number) ?? (r.sweep as number)));
+  const t = tail.map((r) => (r.acquiredS as number) ?? (r.sweep as number));
   return { value: v.reduce((a, b) => a + b, 0) / v.length, n: v.length, time: t.reduce((a, b) => a + b, 0) / t.length };
 }
 
@@ -76,14 +96,26 @@ export function fitHill(x: number[], y: number[], fixBottom: number | null): Fit
   const pos = x.filter((v) => v > 0);
   // start: ln IC50 where the response crosses half, else the geometric middle of the range
   let lne = (Math.log(Math.min(...pos)) + Math.log(Math.max(...pos))) / 2;
-  const order = x.map((v, i) => [v, y[i]]).filter((p) => p[0] > 0).sort((a, b) => a[0] - b[0]);
+  const order = x
+    .map((v, i) => [v, y[i]])
+    .filter((p) => p[0] > 0)
+    .sort((a, b) => a[0] - b[0]);
   for (let i = 1; i < order.length; i++) {
-    if (order[i - 1][1] >= 0.5 && order[i][1] < 0.5) { lne = (Math.log(order[i - 1][0]) + Math.log(order[i][0])) / 2; break; }
+    if (order[i - 1][1] >= 0.5 && order[i][1] < 0.5) {
+      lne = (Math.log(order[i - 1][0]) + Math.log(order[i][0])) / 2;
+      break;
+    }
   }
   const bottom = fixBottom ?? Math.max(0, Math.min(...y));
   return fitCurve({
-    model: logLogistic4, x, y, p0: [1, bottom, 1, lne], names: ['hill', 'bottom', 'top', 'lnIC50'],
-    fixed: [false, fixBottom !== null, true, false], lower: [0.2, -0.2, -Infinity, -Infinity], upper: [6, 0.9, Infinity, Infinity],
+    model: logLogistic4,
+    x,
+    y,
+    p0: [1, bottom, 1, lne],
+    names: ['hill', 'bottom', 'top', 'lnIC50'],
+    fixed: [false, fixBottom !== null, true, false],
+    lower: [0.2, -0.2, -Infinity, -Infinity],
+    upper: [6, 0.9, Infinity, Infinity],
   });
 }
 
@@ -100,49 +132,99 @@ export class DoseResponseResult extends Result {
     super();
   }
   tables(): Record<string, readonly object[]> {
-    return { dose_response_summary: this.summary, dose_response_per_preparation: this.perPreparation, dose_response_points: this.points, dose_response_comparisons: this.comparisons };
+    return {
+      dose_response_summary: this.summary,
+      dose_response_per_preparation: this.perPreparation,
+      dose_response_points: this.points,
+      dose_response_comparisons: this.comparisons,
+    };
   }
 
   frame(which: 'summary' | 'perPreparation' | 'points' | 'comparisons' = 'summary'): import('danfojs-node').DataFrame {
     return toFrame((which === 'points' ? this.points : this[which]) as unknown as Record<string, unknown>[]);
   }
   toHTML(): string {
-    return tableHtml(this.summary, { caption: 'Dose-response per class (IC50 with 95% CI; preparations as replicates)' }) + tableHtml(this.comparisons, { caption: 'Same IC50 for two classes? (extra-sum-of-squares F test)' });
+    return (
+      tableHtml(this.summary, { caption: 'Dose-response per class (IC50 with 95% CI; preparations as replicates)' }) +
+      tableHtml(this.comparisons, { caption: 'Same IC50 for two classes? (extra-sum-of-squares F test)' })
+    );
   }
   toString(): string {
-    return 'DoseResponseResult\n' + tableText(this.summary, { columns: ['class', 'distanceMm', 'preparations', 'ic50', 'ic50_ci95_low', 'ic50_ci95_high', 'hill', 'pooled_ic50', 'status'] }) + '\n' + tableText(this.comparisons);
+    return (
+      'DoseResponseResult\n' +
+      tableText(this.summary, {
+        columns: [
+          'class',
+          'distanceMm',
+          'preparations',
+          'ic50',
+          'ic50_ci95_low',
+          'ic50_ci95_high',
+          'hill',
+          'pooled_ic50',
+          'status',
+        ],
+      }) +
+      '\n' +
+      tableText(this.comparisons)
+    );
   }
 }
 
 /** Dose-response analysis of a component table's rows (or any rows with the same columns). */
-export function doseResponse(rows: readonly Row[], units: string, options: DoseResponseOptions = {}, history: readonly Step[] = [], sources: readonly Source[] = []): DoseResponseResult {
+export function doseResponse(
+  rows: readonly Row[],
+  units: string,
+  options: DoseResponseOptions = {},
+  history: readonly Step[] = [],
+  sources: readonly Source[] = [],
+): DoseResponseResult {
   const lastN = options.lastN ?? doseResponseDefaults.lastN;
   if (!Number.isInteger(lastN) || lastN < 1) throw new OptionError(`invalid lastN: ${lastN}; must be an integer >= 1`);
   const runDown = options.runDown ?? doseResponseDefaults.runDown;
-  if (runDown !== 'none' && runDown !== 'washout' && runDown !== 'vehicle') throw new OptionError(`invalid runDown: ${JSON.stringify(runDown)}; must be "none", "washout" or "vehicle"`);
+  if (runDown !== 'none' && runDown !== 'washout' && runDown !== 'vehicle')
+    throw new OptionError(`invalid runDown: ${JSON.stringify(runDown)}; must be "none", "washout" or "vehicle"`);
   const fixBottom = options.fixBottom === undefined ? doseResponseDefaults.fixBottom : options.fixBottom;
   const measure = options.measure ?? `amplitude_${units}`;
   const poolSites = options.poolSites ?? doseResponseDefaults.poolSites;
   const minConc = options.minConcentrations ?? doseResponseDefaults.minConcentrations;
-  if (!Number.isInteger(minConc) || minConc < 2) throw new OptionError(`invalid minConcentrations: ${minConc}; must be an integer >= 2`);
-  const withConc = rows.filter((r) => typeof r.concentration === 'number' && (!options.classes || options.classes.includes(r.class as string)));
+  if (!Number.isInteger(minConc) || minConc < 2)
+    throw new OptionError(`invalid minConcentrations: ${minConc}; must be an integer >= 2`);
+  const withConc = rows.filter(
+    (r) => typeof r.concentration === 'number' && (!options.classes || options.classes.includes(r.class as string)),
+  );
   if (!withConc.length) throw new AnalysisError('dose-response needs rows with a numeric "concentration" condition');
   const negative = withConc.filter((r) => (r.concentration as number) < 0);
-  if (negative.length) throw new AnalysisError(`dose-response: ${negative.length} row(s) have a negative concentration (${[...new Set(negative.map((r) => r.concentration))].slice(0, 5).join(', ')}); a concentration is 0 (baseline, washout, vehicle) or above`);
-  if (!withConc.some((r) => (r.concentration as number) > 0)) throw new AnalysisError(`dose-response: all ${withConc.length} rows have concentration 0 (baseline only); a curve needs sweeps at concentrations above 0`);
+  if (negative.length)
+    throw new AnalysisError(
+      `dose-response: ${negative.length} row(s) have a negative concentration (${[...new Set(negative.map((r) => r.concentration))].slice(0, 5).join(', ')}); a concentration is 0 (baseline, washout, vehicle) or above`,
+    );
+  if (!withConc.some((r) => (r.concentration as number) > 0))
+    throw new AnalysisError(
+      `dose-response: all ${withConc.length} rows have concentration 0 (baseline only); a curve needs sweeps at concentrations above 0`,
+    );
   // only what was measured: rows detected (and resolved) with a number in the measure
-  const isMeasured = (r: Row) => r.detected !== false && (r.status === undefined || r.status === null || r.status === 'measured') && typeof r[measure] === 'number' && Number.isFinite(r[measure] as number);
-  const siteOf = (r: Row): number | null => (poolSites ? null : ((r.distanceMm ?? r.distance_mm ?? null) as number | null));
+  const isMeasured = (r: Row) =>
+    r.detected !== false &&
+    (r.status === undefined || r.status === null || r.status === 'measured') &&
+    typeof r[measure] === 'number' &&
+    Number.isFinite(r[measure] as number);
+  const siteOf = (r: Row): number | null =>
+    poolSites ? null : ((r.distanceMm ?? r.distance_mm ?? null) as number | null);
   const concUnit = (withConc.find((r) => r.concentrationUnit)?.concentrationUnit as string) ?? '';
   const groups = new Map<string, Row[]>();
   for (const r of withConc) {
     const id = `${r.preparation ?? ''}|${siteOf(r) ?? ''}|${r.class}`;
     const g = groups.get(id);
     const rr = { ...r, __value: isMeasured(r) ? r[measure] : null, __site: siteOf(r) };
-    if (g) g.push(rr); else groups.set(id, [rr]);
+    if (g) g.push(rr);
+    else groups.set(id, [rr]);
   }
   const shift = options.maxLatencyShift === undefined ? doseResponseDefaults.maxLatencyShift : options.maxLatencyShift;
-  if (shift !== null && !(shift > 0)) throw new OptionError(`invalid maxLatencyShift: ${shift}; must be > 0 (a fraction of the baseline latency) or null`);
+  if (shift !== null && !(shift > 0))
+    throw new OptionError(
+      `invalid maxLatencyShift: ${shift}; must be > 0 (a fraction of the baseline latency) or null`,
+    );
   // a measured sweep far from the baseline's peak latency is another wave, not this class
   const moved = new Map<string, number>();
   if (shift !== null) {
@@ -151,7 +233,11 @@ export function doseResponse(rows: readonly Row[], units: string, options: DoseR
       if (!base.length) continue;
       const t0 = base.reduce((a, r) => a + (r.peak_ms as number), 0) / base.length;
       for (const r of g) {
-        if (r.__value !== null && typeof r.peak_ms === 'number' && Math.abs((r.peak_ms as number) - t0) > shift * Math.abs(t0)) {
+        if (
+          r.__value !== null &&
+          typeof r.peak_ms === 'number' &&
+          Math.abs((r.peak_ms as number) - t0) > shift * Math.abs(t0)
+        ) {
           r.__value = null;
           moved.set(id, (moved.get(id) ?? 0) + 1);
         }
@@ -171,11 +257,18 @@ export function doseResponse(rows: readonly Row[], units: string, options: DoseR
       const veh = g.filter(isVehicle);
       if (!veh.length) continue;
       const where = `preparation ${g[0].preparation}, class ${g[0].class}`;
-      if (g.some((r) => typeof r.acquiredS !== 'number')) throw new AnalysisError(`${where}: runDown "vehicle" needs the condition "acquiredS" (time of each sweep, s) on every sweep`);
+      if (g.some((r) => typeof r.acquiredS !== 'number'))
+        throw new AnalysisError(
+          `${where}: runDown "vehicle" needs the condition "acquiredS" (time of each sweep, s) on every sweep`,
+        );
       const base = g.filter((r) => r.concentration === 0 && !isVehicle(r) && r.epoch !== 'washout');
-      if (!base.length) throw new AnalysisError(`${where}: the vehicle control has no measured baseline sweeps (concentration 0 before the vehicle)`);
+      if (!base.length)
+        throw new AnalysisError(
+          `${where}: the vehicle control has no measured baseline sweeps (concentration 0 before the vehicle)`,
+        );
       const B = steady(base, lastN);
-      if (!(Math.abs(B.value) > 0)) throw new AnalysisError(`${where}: the vehicle control's baseline response is zero`);
+      if (!(Math.abs(B.value) > 0))
+        throw new AnalysisError(`${where}: the vehicle control's baseline response is zero`);
       const key = `${g[0].class}|${g[0].__site ?? ''}`;
       const a = acc.get(key) ?? { sxy: 0, sxx: 0, preps: new Set<string>(), n: 0 };
       for (const r of veh) {
@@ -187,7 +280,8 @@ export function doseResponse(rows: readonly Row[], units: string, options: DoseR
       a.preps.add(String(g[0].preparation ?? ''));
       acc.set(key, a);
     }
-    for (const [cls, a] of acc) if (a.sxx > 0) rate.set(cls, { k: a.sxy / a.sxx, preparations: a.preps.size, sweeps: a.n });
+    for (const [cls, a] of acc)
+      if (a.sxx > 0) rate.set(cls, { k: a.sxy / a.sxx, preparations: a.preps.size, sweeps: a.n });
   }
   // per curve (class and site): how many rows were left out, and why a curve was refused
   const excluded = new Map<string, number>();
@@ -195,43 +289,95 @@ export function doseResponse(rows: readonly Row[], units: string, options: DoseR
   const curveOf = (cls: string, site: number | null) => `${cls}|${site ?? ''}`;
   for (const g0 of groups.values()) {
     if (g0.some(isVehicle)) continue; // a vehicle control gives no dose points
-    const cls = String(g0[0].class), site = g0[0].__site as number | null, prep = String(g0[0].preparation ?? '');
+    const cls = String(g0[0].class),
+      site = g0[0].__site as number | null,
+      prep = String(g0[0].preparation ?? '');
     const cid = curveOf(cls, site);
     const left = g0.length - ok(g0).length;
     excluded.set(cid, (excluded.get(cid) ?? 0) + left);
     const g = ok(g0);
     const where = `preparation ${prep}, class ${cls}${site !== null ? `, ${site} mm` : ''}`;
     const refuse = (why: string) => {
-      perPreparation.push({ class: cls, distanceMm: site, preparation: prep, ic50: null, hill: null, bottom: null, points: 0, excluded_not_measured: left, concentrationUnit: concUnit, status: 'not detected', reason: why });
+      perPreparation.push({
+        class: cls,
+        distanceMm: site,
+        preparation: prep,
+        ic50: null,
+        hill: null,
+        bottom: null,
+        points: 0,
+        excluded_not_measured: left,
+        concentrationUnit: concUnit,
+        status: 'not detected',
+        reason: why,
+      });
       (refused.get(cid) ?? refused.set(cid, []).get(cid)!).push(`${prep}: ${why}`);
     };
     const isWash = (r: Row) => r.epoch === 'washout';
     const base0 = g0.filter((r) => r.concentration === 0 && !isWash(r));
     if (!base0.length) throw new AnalysisError(`${where}: no pre-drug baseline sweeps (concentration 0)`);
     const base = g.filter((r) => r.concentration === 0 && !isWash(r));
-    if (!base.length) { refuse(`the baseline was not measured in any of its ${base0.length} sweeps (not detected or not resolved)`); continue; }
+    if (!base.length) {
+      refuse(`the baseline was not measured in any of its ${base0.length} sweeps (not detected or not resolved)`);
+      continue;
+    }
     const B = steady(base, lastN);
     const wash = g.filter(isWash);
     const W = wash.length ? steady(wash, lastN) : null;
-    if (runDown === 'washout' && !W) throw new AnalysisError(`${where}: runDown "washout" needs measured sweeps with epoch "washout"`);
+    if (runDown === 'washout' && !W)
+      throw new AnalysisError(`${where}: runDown "washout" needs measured sweeps with epoch "washout"`);
     const vr = runDown === 'vehicle' ? rate.get(`${cls}|${site ?? ''}`) : undefined;
     if (runDown === 'vehicle') {
-      if (!vr) throw new AnalysisError(`class ${cls}: runDown "vehicle" needs time-matched vehicle sweeps (epoch "vehicle", with acquiredS) of this class`);
-      if (g.some((r) => typeof r.acquiredS !== 'number')) throw new AnalysisError(`preparation ${prep}: runDown "vehicle" needs the condition "acquiredS" on every sweep`);
+      if (!vr)
+        throw new AnalysisError(
+          `class ${cls}: runDown "vehicle" needs time-matched vehicle sweeps (epoch "vehicle", with acquiredS) of this class`,
+        );
+      if (g.some((r) => typeof r.acquiredS !== 'number'))
+        throw new AnalysisError(
+          `preparation ${prep}: runDown "vehicle" needs the condition "acquiredS" on every sweep`,
+        );
     }
-    const concs = [...new Set(g.filter((r) => (r.concentration as number) > 0 && !isWash(r)).map((r) => r.concentration as number))].sort((a, b) => a - b);
-    const tested = [...new Set(g0.filter((r) => (r.concentration as number) > 0 && !isWash(r)).map((r) => r.concentration as number))];
-    if (concs.length < minConc) { refuse(`measured at ${concs.length} of ${tested.length} concentrations above 0 (${left} of ${g0.length} sweeps not measured); a curve needs ${minConc}`); continue; }
+    const concs = [
+      ...new Set(g.filter((r) => (r.concentration as number) > 0 && !isWash(r)).map((r) => r.concentration as number)),
+    ].sort((a, b) => a - b);
+    const tested = [
+      ...new Set(g0.filter((r) => (r.concentration as number) > 0 && !isWash(r)).map((r) => r.concentration as number)),
+    ];
+    if (concs.length < minConc) {
+      refuse(
+        `measured at ${concs.length} of ${tested.length} concentrations above 0 (${left} of ${g0.length} sweeps not measured); a curve needs ${minConc}`,
+      );
+      continue;
+    }
     for (const c of concs) {
-      const S = steady(g.filter((r) => r.concentration === c && !isWash(r)), lastN);
+      const S = steady(
+        g.filter((r) => r.concentration === c && !isWash(r)),
+        lastN,
+      );
       let control = B.value;
-      if (runDown === 'washout' && W && W.time !== B.time) control = B.value + ((W.value - B.value) * (S.time - B.time)) / (W.time - B.time);
+      if (runDown === 'washout' && W && W.time !== B.time)
+        control = B.value + ((W.value - B.value) * (S.time - B.time)) / (W.time - B.time);
       if (vr) control = B.value * (1 + vr.k * (S.time - B.time));
       if (!(Math.abs(control) > 0)) throw new AnalysisError(`${where}: baseline response is zero`);
-      points.push({ preparation: prep, class: cls, distanceMm: site, concentration: c, response: S.value, baseline: control, normalized: S.value / control, n: S.n });
+      points.push({
+        preparation: prep,
+        class: cls,
+        distanceMm: site,
+        concentration: c,
+        response: S.value,
+        baseline: control,
+        normalized: S.value / control,
+        n: S.n,
+      });
     }
   }
-  const curves = [...new Set([...groups.values()].filter((g) => !g.some(isVehicle)).map((g) => curveOf(String(g[0].class), g[0].__site as number | null)))];
+  const curves = [
+    ...new Set(
+      [...groups.values()]
+        .filter((g) => !g.some(isVehicle))
+        .map((g) => curveOf(String(g[0].class), g[0].__site as number | null)),
+    ),
+  ];
   const summary: Row[] = [];
   const fits = new Map<string, FitResult>();
   const bottoms = new Map<string, number | null>();
@@ -243,13 +389,25 @@ export function doseResponse(rows: readonly Row[], units: string, options: DoseR
     const left = excluded.get(cid) ?? 0;
     const head = { class: cls, ...(poolSites ? {} : { distanceMm: site }) };
     if (!mine.length) {
-      summary.push({ ...head, preparations: 0, concentrationUnit: concUnit, ic50: null, hill: null, excluded_not_measured: left, status: 'not detected', reason: (refused.get(cid) ?? ['no points']).join('; ') });
+      summary.push({
+        ...head,
+        preparations: 0,
+        concentrationUnit: concUnit,
+        ic50: null,
+        hill: null,
+        excluded_not_measured: left,
+        status: 'not detected',
+        reason: (refused.get(cid) ?? ['no points']).join('; '),
+      });
       continue;
     }
     const cs = mine.map((p) => p.concentration);
-    const cmin = Math.min(...cs), cmax = Math.max(...cs);
+    const cmin = Math.min(...cs),
+      cmax = Math.max(...cs);
     // a class not measured at the highest concentrations has lost its response below detection there
-    const testedMax = Math.max(...withConc.filter((r) => r.class === cls && (siteOf(r) ?? null) === site).map((r) => r.concentration as number));
+    const testedMax = Math.max(
+      ...withConc.filter((r) => r.class === cls && (siteOf(r) ?? null) === site).map((r) => r.concentration as number),
+    );
     const bottomFix = fixBottom !== null ? fixBottom : cmax < testedMax ? 0 : null;
     bottoms.set(cid, bottomFix);
     const preps = [...new Set(mine.map((p) => p.preparation))];
@@ -257,17 +415,39 @@ export function doseResponse(rows: readonly Row[], units: string, options: DoseR
     const hills: number[] = [];
     for (const prep of preps) {
       const pp = mine.filter((p) => p.preparation === prep);
-      const f = fitHill(pp.map((p) => p.concentration), pp.map((p) => p.normalized), bottomFix);
+      const f = fitHill(
+        pp.map((p) => p.concentration),
+        pp.map((p) => p.normalized),
+        bottomFix,
+      );
       const ic = Math.exp(f.params[3]);
       const st = [...f.status.filter((q) => q !== 'ok')];
       if (ic < cmin || ic > cmax) st.push(`IC50 outside the tested range ${cmin}-${cmax} ${concUnit}`);
       fits.set(`${cls}${siteLabel(siteS)}|${prep}`, f);
-      perPreparation.push({ class: cls, ...(poolSites ? {} : { distanceMm: site }), preparation: prep, ic50: ic, hill: f.params[0], bottom: f.params[1], points: pp.length, concentrationUnit: concUnit, status: st.length ? st.join('; ') : 'ok', reason: null });
-      if (Number.isFinite(ic)) { logIc.push(Math.log10(ic)); hills.push(f.params[0]); }
+      perPreparation.push({
+        class: cls,
+        ...(poolSites ? {} : { distanceMm: site }),
+        preparation: prep,
+        ic50: ic,
+        hill: f.params[0],
+        bottom: f.params[1],
+        points: pp.length,
+        concentrationUnit: concUnit,
+        status: st.length ? st.join('; ') : 'ok',
+        reason: null,
+      });
+      if (Number.isFinite(ic)) {
+        logIc.push(Math.log10(ic));
+        hills.push(f.params[0]);
+      }
     }
     const s = summarize(logIc);
     const h = summarize(hills);
-    const pooled = fitHill(mine.map((p) => p.concentration), mine.map((p) => p.normalized), bottomFix);
+    const pooled = fitHill(
+      mine.map((p) => p.concentration),
+      mine.map((p) => p.normalized),
+      bottomFix,
+    );
     fits.set(`${cls}${siteLabel(siteS)}|pooled`, pooled);
     if (!fits.has(`${cls}|pooled`)) fits.set(`${cls}|pooled`, pooled);
     const [plo, phi] = profileCI(pooled, 3);
@@ -278,62 +458,155 @@ export function doseResponse(rows: readonly Row[], units: string, options: DoseR
       for (let k = 0; k < options.bootstrap; k++) {
         const pick = preps.map(() => preps[Math.floor(rng.uniform() * preps.length)]);
         const pts = pick.flatMap((pr) => mine.filter((p) => p.preparation === pr));
-        const f = fitHill(pts.map((p) => p.concentration), pts.map((p) => p.normalized), bottomFix);
+        const f = fitHill(
+          pts.map((p) => p.concentration),
+          pts.map((p) => p.normalized),
+          bottomFix,
+        );
         if (f.converged) est.push(f.params[3]);
       }
       est.sort((x, y) => x - y);
       boot = [Math.exp(est[Math.floor(0.025 * (est.length - 1))]), Math.exp(est[Math.ceil(0.975 * (est.length - 1))])];
     }
     const st: string[] = [];
-    if (preps.length < 3) st.push(`only ${preps.length} preparation(s): the across-preparation CI is ${preps.length < 2 ? 'undefined' : 'very wide'}`);
+    if (preps.length < 3)
+      st.push(
+        `only ${preps.length} preparation(s): the across-preparation CI is ${preps.length < 2 ? 'undefined' : 'very wide'}`,
+      );
     const ic50 = Math.pow(10, s.mean);
     if (ic50 < cmin || ic50 > cmax) st.push(`IC50 outside the tested range ${cmin}-${cmax} ${concUnit}`);
     if (!trusted(pooled)) st.push(...pooled.status.map((x) => `pooled fit: ${x}`));
-    if (left) st.push(`${left} sweep(s) not measured (not detected or not resolved${shift !== null ? `, or peak latency more than ${100 * shift}% from the baseline's` : ''}), left out`);
-    if (fixBottom === null && bottomFix === 0) st.push(`bottom fixed at 0: not measured at the highest concentration(s) above ${cmax} ${concUnit}`);
+    if (left)
+      st.push(
+        `${left} sweep(s) not measured (not detected or not resolved${shift !== null ? `, or peak latency more than ${100 * shift}% from the baseline's` : ''}), left out`,
+      );
+    if (fixBottom === null && bottomFix === 0)
+      st.push(`bottom fixed at 0: not measured at the highest concentration(s) above ${cmax} ${concUnit}`);
     if (refused.has(cid)) st.push(`refused for ${refused.get(cid)!.join('; ')}`);
     summary.push({
-      ...head, preparations: preps.length, concentrationUnit: concUnit,
-      ic50, ic50_ci95_low: num(Math.pow(10, s.ci95[0])), ic50_ci95_high: num(Math.pow(10, s.ci95[1])),
-      log10_ic50: s.mean, log10_ic50_sd: num(s.sd),
-      hill: h.mean, hill_ci95_low: num(h.ci95[0]), hill_ci95_high: num(h.ci95[1]),
-      pooled_ic50: Math.exp(pooled.params[3]), pooled_ic50_profile_low: Math.exp(plo), pooled_ic50_profile_high: Math.exp(phi),
-      pooled_hill: pooled.params[0], pooled_bottom: pooled.params[1],
-      bootstrap_ic50_low: boot[0], bootstrap_ic50_high: boot[1], points: mine.length, excluded_not_measured: left,
+      ...head,
+      preparations: preps.length,
+      concentrationUnit: concUnit,
+      ic50,
+      ic50_ci95_low: num(Math.pow(10, s.ci95[0])),
+      ic50_ci95_high: num(Math.pow(10, s.ci95[1])),
+      log10_ic50: s.mean,
+      log10_ic50_sd: num(s.sd),
+      hill: h.mean,
+      hill_ci95_low: num(h.ci95[0]),
+      hill_ci95_high: num(h.ci95[1]),
+      pooled_ic50: Math.exp(pooled.params[3]),
+      pooled_ic50_profile_low: Math.exp(plo),
+      pooled_ic50_profile_high: Math.exp(phi),
+      pooled_hill: pooled.params[0],
+      pooled_bottom: pooled.params[1],
+      bootstrap_ic50_low: boot[0],
+      bootstrap_ic50_high: boot[1],
+      points: mine.length,
+      excluded_not_measured: left,
       excluded_latency_shift: [...moved].filter(([k]) => k.endsWith(`|${siteS}|${cls}`)).reduce((a, [, v]) => a + v, 0),
-      ...(runDown === 'vehicle' ? { rundown_per_min: 60 * (rate.get(`${cls}|${siteS}`)?.k ?? NaN), rundown_controls: rate.get(`${cls}|${siteS}`)?.preparations ?? 0 } : {}),
-      status: st.length ? st.join('; ') : 'ok', reason: null,
+      ...(runDown === 'vehicle'
+        ? {
+            rundown_per_min: 60 * (rate.get(`${cls}|${siteS}`)?.k ?? NaN),
+            rundown_controls: rate.get(`${cls}|${siteS}`)?.preparations ?? 0,
+          }
+        : {}),
+      status: st.length ? st.join('; ') : 'ok',
+      reason: null,
     });
   }
   // pairwise comparison of IC50 between classes (at the same site) on the pooled normalised points
   const comparisons: Row[] = [];
   const fitted = summary.filter((r) => r.ic50 !== null);
-  for (let i = 0; i < fitted.length; i++) for (let j = i + 1; j < fitted.length; j++) {
-    const ra = fitted[i], rb = fitted[j];
-    if ((ra.distanceMm ?? null) !== (rb.distanceMm ?? null)) continue;
-    const site = (ra.distanceMm ?? null) as number | null;
-    const at = (cls: string) => points.filter((p) => p.class === cls && (p.distanceMm ?? null) === site);
-    const A = at(String(ra.class)), B = at(String(rb.class));
-    const sl = siteLabel(site === null ? '' : String(site));
-    const fa = fits.get(`${ra.class}${sl}|pooled`)!, fb = fits.get(`${rb.class}${sl}|pooled`)!;
-    const all = [...A, ...B];
-    const isB = all.map((_, k) => k >= A.length);
-    const bA = bottoms.get(curveOf(String(ra.class), site)) ?? null, bB = bottoms.get(curveOf(String(rb.class), site)) ?? null;
-    const joint = fitCurveShared(all.map((p) => p.concentration), all.map((p) => p.normalized), isB, [bA, bB], [fa, fb]);
-    const F = extraSumOfSquaresF(joint.residualSS, joint.df, fa.residualSS + fb.residualSS, fa.df + fb.df);
-    comparisons.push({ classA: ra.class, classB: rb.class, ...(poolSites ? {} : { distanceMm: site }), ic50A: Math.exp(fa.params[3]), ic50B: Math.exp(fb.params[3]), ratio: Math.exp(fb.params[3] - fa.params[3]), F: F.F, df1: F.df1, df2: F.df2, p: F.p, conclusion: F.p < 0.05 ? 'IC50s differ (p < 0.05)' : 'no evidence that the IC50s differ (p >= 0.05)' });
-  }
-  return new DoseResponseResult(points, perPreparation, summary, comparisons, fits, [...history, { verb: 'doseResponse', options: { measure, lastN, runDown, fixBottom, bootstrap: options.bootstrap ?? 0, seed: options.seed ?? doseResponseDefaults.seed, model: 'four-parameter log-logistic, top fixed at 1', pooling: 'mean of per-preparation log10 IC50 with t-based 95% CI; pooled fit with profile-likelihood CI', poolSites, minConcentrations: minConc, maxLatencyShift: shift, rows: 'measured rows only (not detected or not resolved left out and counted)' }, version: VERSION }], sources);
+  for (let i = 0; i < fitted.length; i++)
+    for (let j = i + 1; j < fitted.length; j++) {
+      const ra = fitted[i],
+        rb = fitted[j];
+      if ((ra.distanceMm ?? null) !== (rb.distanceMm ?? null)) continue;
+      const site = (ra.distanceMm ?? null) as number | null;
+      const at = (cls: string) => points.filter((p) => p.class === cls && (p.distanceMm ?? null) === site);
+      const A = at(String(ra.class)),
+        B = at(String(rb.class));
+      const sl = siteLabel(site === null ? '' : String(site));
+      const fa = fits.get(`${ra.class}${sl}|pooled`)!,
+        fb = fits.get(`${rb.class}${sl}|pooled`)!;
+      const all = [...A, ...B];
+      const isB = all.map((_, k) => k >= A.length);
+      const bA = bottoms.get(curveOf(String(ra.class), site)) ?? null,
+        bB = bottoms.get(curveOf(String(rb.class), site)) ?? null;
+      const joint = fitCurveShared(
+        all.map((p) => p.concentration),
+        all.map((p) => p.normalized),
+        isB,
+        [bA, bB],
+        [fa, fb],
+      );
+      const F = extraSumOfSquaresF(joint.residualSS, joint.df, fa.residualSS + fb.residualSS, fa.df + fb.df);
+      comparisons.push({
+        classA: ra.class,
+        classB: rb.class,
+        ...(poolSites ? {} : { distanceMm: site }),
+        ic50A: Math.exp(fa.params[3]),
+        ic50B: Math.exp(fb.params[3]),
+        ratio: Math.exp(fb.params[3] - fa.params[3]),
+        F: F.F,
+        df1: F.df1,
+        df2: F.df2,
+        p: F.p,
+        conclusion: F.p < 0.05 ? 'IC50s differ (p < 0.05)' : 'no evidence that the IC50s differ (p >= 0.05)',
+      });
+    }
+  return new DoseResponseResult(
+    points,
+    perPreparation,
+    summary,
+    comparisons,
+    fits,
+    [
+      ...history,
+      {
+        verb: 'doseResponse',
+        options: {
+          measure,
+          lastN,
+          runDown,
+          fixBottom,
+          bootstrap: options.bootstrap ?? 0,
+          seed: options.seed ?? doseResponseDefaults.seed,
+          model: 'four-parameter log-logistic, top fixed at 1',
+          pooling: 'mean of per-preparation log10 IC50 with t-based 95% CI; pooled fit with profile-likelihood CI',
+          poolSites,
+          minConcentrations: minConc,
+          maxLatencyShift: shift,
+          rows: 'measured rows only (not detected or not resolved left out and counted)',
+        },
+        version: VERSION,
+      },
+    ],
+    sources,
+  );
 }
 
 /** Joint fit of two classes with a shared ln IC50 and class-specific slope and bottom. */
-function fitCurveShared(x: number[], y: number[], isB: boolean[], fixBottom: [number | null, number | null], starts: FitResult[]): FitResult {
+function fitCurveShared(
+  x: number[],
+  y: number[],
+  isB: boolean[],
+  fixBottom: [number | null, number | null],
+  starts: FitResult[],
+): FitResult {
   const idx = x.map((_, i) => i);
   // p = [hillA, bottomA, hillB, bottomB, lnIC50]
-  const model = (i: number, p: readonly number[]) => (isB[i] ? logLogistic4(x[i], [p[2], p[3], 1, p[4]]) : logLogistic4(x[i], [p[0], p[1], 1, p[4]]));
+  const model = (i: number, p: readonly number[]) =>
+    isB[i] ? logLogistic4(x[i], [p[2], p[3], 1, p[4]]) : logLogistic4(x[i], [p[0], p[1], 1, p[4]]);
   const [a, b] = starts;
   return fitCurve({
-    model, x: idx, y, p0: [a.params[0], a.params[1], b.params[0], b.params[1], (a.params[3] + b.params[3]) / 2],
-    fixed: [false, fixBottom[0] !== null, false, fixBottom[1] !== null, false], lower: [0.2, -0.2, 0.2, -0.2, -Infinity], upper: [6, 0.9, 6, 0.9, Infinity],
+    model,
+    x: idx,
+    y,
+    p0: [a.params[0], a.params[1], b.params[0], b.params[1], (a.params[3] + b.params[3]) / 2],
+    fixed: [false, fixBottom[0] !== null, false, fixBottom[1] !== null, false],
+    lower: [0.2, -0.2, 0.2, -0.2, -Infinity],
+    upper: [6, 0.9, 6, 0.9, Infinity],
   });
 }

@@ -41,7 +41,6 @@ export function tTwoSided(t: number, df: number): number {
   return betaInc(df / (df + t * t), df / 2, 0.5);
 }
 
-
 /** Upper tail of the standard normal, P(Z > z), accurate far in the tail (erfc via Q(1/2, z^2/2)). */
 export function normSf(z: number): number {
   if (Number.isNaN(z)) return NaN;
@@ -55,14 +54,22 @@ const variance = (v: readonly number[]) => {
   return v.reduce((a, b) => a + (b - m) ** 2, 0) / (v.length - 1);
 };
 
-interface Status { status: TestStatus; reason: string | null }
+interface Status {
+  status: TestStatus;
+  reason: string | null;
+}
 const notComputed = (reason: string) => ({ status: 'not computed' as const, reason });
 
 export interface WelchResult extends Status {
-  n1: number; n2: number; mean1: number | null; mean2: number | null;
+  n1: number;
+  n2: number;
+  mean1: number | null;
+  mean2: number | null;
   /** mean1 - mean2 */
   difference: number | null;
-  t: number | null; df: number | null; p: number | null;
+  t: number | null;
+  df: number | null;
+  p: number | null;
   ci95: [number, number] | null;
 }
 
@@ -72,17 +79,21 @@ export interface WelchResult extends Status {
  * @example welchTTest([1, 2, 3, 4], [2, 4, 6, 8, 10]).t // -2.2703 (scipy.stats.ttest_ind(equal_var=False))
  */
 export function welchTTest(a: readonly number[], b: readonly number[]): WelchResult {
-  const x = a.filter(Number.isFinite), y = b.filter(Number.isFinite);
+  const x = a.filter(Number.isFinite),
+    y = b.filter(Number.isFinite);
   const base = { n1: x.length, n2: y.length, mean1: x.length ? mean(x) : null, mean2: y.length ? mean(y) : null };
   const empty = { difference: null, t: null, df: null, p: null, ci95: null };
   if (x.length < 2 || y.length < 2) {
     return { ...base, ...empty, ...notComputed(`needs at least 2 values per group (n = ${x.length}, ${y.length})`) };
   }
-  const v1 = variance(x) / x.length, v2 = variance(y) / y.length;
+  const v1 = variance(x) / x.length,
+    v2 = variance(y) / y.length;
   if (!(v1 + v2 > 0)) return { ...base, ...empty, ...notComputed('both groups have zero variance') };
-  const d = mean(x) - mean(y), se = Math.sqrt(v1 + v2);
+  const d = mean(x) - mean(y),
+    se = Math.sqrt(v1 + v2);
   const df = (v1 + v2) ** 2 / (v1 ** 2 / (x.length - 1) + v2 ** 2 / (y.length - 1));
-  const t = d / se, q = tQuantile(0.975, df);
+  const t = d / se,
+    q = tQuantile(0.975, df);
   const ci95: [number, number] = [d - q * se, d + q * se];
   return { ...base, difference: d, t, df, p: tTwoSided(t, df), ci95, status: 'ok', reason: null };
 }
@@ -92,7 +103,7 @@ export function rankAverage(v: readonly number[]): { ranks: number[]; ties: numb
   const order = v.map((x, i) => [x, i] as [number, number]).sort((p, q) => p[0] - q[0]);
   const ranks = new Array<number>(v.length);
   const ties: number[] = [];
-  for (let i = 0; i < order.length; ) {
+  for (let i = 0; i < order.length;) {
     let j = i;
     while (j + 1 < order.length && order[j + 1][0] === order[i][0]) j++;
     for (let k = i; k <= j; k++) ranks[order[k][1]] = (i + j) / 2 + 1;
@@ -115,8 +126,10 @@ export function mannWhitneyExactSf(u: number, m: number, n: number): number {
     const next: Float64Array[] = [Float64Array.of(1)];
     for (let j = 1; j <= m; j++) {
       const out = new Float64Array(j * k + 1);
-      const a = next[j - 1], b = p[j];
-      const wa = j / (j + k), wb = k / (j + k);
+      const a = next[j - 1],
+        b = p[j];
+      const wa = j / (j + k),
+        wb = k / (j + k);
       for (let w = 0; w < a.length; w++) out[w + k] += wa * a[w];
       for (let w = 0; w < b.length; w++) out[w] += wb * b[w];
       next.push(out);
@@ -130,7 +143,8 @@ export function mannWhitneyExactSf(u: number, m: number, n: number): number {
 }
 
 export interface MannWhitneyResult extends Status {
-  n1: number; n2: number;
+  n1: number;
+  n2: number;
   /** U of the first sample (SciPy's statistic) */
   U: number | null;
   p: number | null;
@@ -144,15 +158,19 @@ export interface MannWhitneyResult extends Status {
  * @example mannWhitneyU([1, 2, 3], [4, 5, 6, 7]).p // 0.05714 (= 2 / 35, exact)
  */
 export function mannWhitneyU(a: readonly number[], b: readonly number[]): MannWhitneyResult {
-  const x = a.filter(Number.isFinite), y = b.filter(Number.isFinite);
-  const n1 = x.length, n2 = y.length;
+  const x = a.filter(Number.isFinite),
+    y = b.filter(Number.isFinite);
+  const n1 = x.length,
+    n2 = y.length;
   if (n1 < 1 || n2 < 1 || n1 + n2 < 3) {
     return { n1, n2, U: null, p: null, method: null, ...notComputed(`needs values in both groups (n = ${n1}, ${n2})`) };
   }
   const { ranks, ties } = rankAverage([...x, ...y]);
   let R1 = 0;
   for (let i = 0; i < n1; i++) R1 += ranks[i];
-  const U1 = R1 - (n1 * (n1 + 1)) / 2, U2 = n1 * n2 - U1, U = Math.max(U1, U2);
+  const U1 = R1 - (n1 * (n1 + 1)) / 2,
+    U2 = n1 * n2 - U1,
+    U = Math.max(U1, U2);
   const hasTies = ties.some((t) => t > 1);
   if (!(n1 > 8 && n2 > 8) && !hasTies) {
     const p = Math.min(1, 2 * mannWhitneyExactSf(U, n1, n2));
@@ -167,8 +185,12 @@ export function mannWhitneyU(a: readonly number[], b: readonly number[]): MannWh
 }
 
 export interface AnovaResult extends Status {
-  F: number | null; df1: number | null; df2: number | null; p: number | null;
-  ssBetween: number | null; ssWithin: number | null;
+  F: number | null;
+  df1: number | null;
+  df2: number | null;
+  p: number | null;
+  ssBetween: number | null;
+  ssWithin: number | null;
   /** groups (one-way) or subjects (repeated measures) used */
   n: number[];
 }
@@ -186,13 +208,15 @@ export function oneWayAnova(groups: readonly (readonly number[])[]): AnovaResult
   const N = n.reduce((a, b) => a + b, 0);
   if (N - g.length < 1) return { ...none, ...notComputed(`needs more values than groups (n = ${n.join(', ')})`) };
   const grand = mean(g.flat());
-  let ssb = 0, ssw = 0;
+  let ssb = 0,
+    ssw = 0;
   for (const v of g) {
     const m = mean(v);
     ssb += v.length * (m - grand) ** 2;
     for (const x of v) ssw += (x - m) ** 2;
   }
-  const df1 = g.length - 1, df2 = N - g.length;
+  const df1 = g.length - 1,
+    df2 = N - g.length;
   if (!(ssw > 0)) return { ...none, ssBetween: ssb, ssWithin: ssw, ...notComputed('no variation within groups') };
   const F = ssb / df1 / (ssw / df2);
   return { F, df1, df2, p: fSurvival(F, df1, df2), ssBetween: ssb, ssWithin: ssw, n, status: 'ok', reason: null };
@@ -213,10 +237,19 @@ export interface RmAnovaResult extends AnovaResult {
  * @example repeatedMeasuresAnova([[1, 2], [2, 4], [3, 5]]).F // 49 (paired differences 1, 2, 2: t = 7)
  */
 export function repeatedMeasuresAnova(y: readonly (readonly number[])[]): RmAnovaResult {
-  const s = y.length, k = s ? y[0].length : 0;
+  const s = y.length,
+    k = s ? y[0].length : 0;
   const none = {
-    F: null, df1: null, df2: null, p: null, ssBetween: null, ssWithin: null, ssSubjects: null, epsilonGG: null,
-    pGG: null, n: [s],
+    F: null,
+    df1: null,
+    df2: null,
+    p: null,
+    ssBetween: null,
+    ssWithin: null,
+    ssSubjects: null,
+    epsilonGG: null,
+    pGG: null,
+    n: [s],
   };
   if (y.some((r) => r.length !== k || r.some((v) => !Number.isFinite(v)))) {
     return { ...none, ...notComputed('every subject needs a finite value in every condition') };
@@ -231,7 +264,8 @@ export function repeatedMeasuresAnova(y: readonly (readonly number[])[]): RmAnov
   const ssc = s * cm.reduce((a, m) => a + (m - grand) ** 2, 0);
   const sss = k * sm.reduce((a, m) => a + (m - grand) ** 2, 0);
   const sse = sst - ssc - sss;
-  const df1 = k - 1, df2 = (k - 1) * (s - 1);
+  const df1 = k - 1,
+    df2 = (k - 1) * (s - 1);
   if (!(sse > 1e-14 * sst)) {
     const why = notComputed('no condition-by-subject variation');
     return { ...none, ssBetween: ssc, ssWithin: sse, ssSubjects: sss, ...why };
@@ -240,21 +274,38 @@ export function repeatedMeasuresAnova(y: readonly (readonly number[])[]): RmAnov
   // Greenhouse-Geisser epsilon from the double-centred covariance matrix
   const cov = (a: number, b: number) => y.reduce((acc, r) => acc + (r[a] - cm[a]) * (r[b] - cm[b]), 0) / (s - 1);
   const S = Array.from({ length: k }, (_, a) => Array.from({ length: k }, (_, b) => cov(a, b)));
-  const rowM = S.map((r) => mean(r)), all = mean(rowM);
+  const rowM = S.map((r) => mean(r)),
+    all = mean(rowM);
   const D = S.map((r, a) => r.map((v, b) => v - rowM[a] - rowM[b] + all));
-  let tr = 0, tr2 = 0;
-  for (let a = 0; a < k; a++) { tr += D[a][a]; for (let b = 0; b < k; b++) tr2 += D[a][b] * D[b][a]; }
+  let tr = 0,
+    tr2 = 0;
+  for (let a = 0; a < k; a++) {
+    tr += D[a][a];
+    for (let b = 0; b < k; b++) tr2 += D[a][b] * D[b][a];
+  }
   const eps = tr2 > 0 ? Math.min(1, (tr * tr) / ((k - 1) * tr2)) : 1;
   return {
-    F, df1, df2, p: fSurvival(F, df1, df2), ssBetween: ssc, ssWithin: sse, ssSubjects: sss, n: [s],
-    epsilonGG: eps, pGG: fSurvival(F, eps * df1, eps * df2), status: 'ok', reason: null,
+    F,
+    df1,
+    df2,
+    p: fSurvival(F, df1, df2),
+    ssBetween: ssc,
+    ssWithin: sse,
+    ssSubjects: sss,
+    n: [s],
+    epsilonGG: eps,
+    pGG: fSurvival(F, eps * df1, eps * df2),
+    status: 'ok',
+    reason: null,
   };
 }
 
 /** [p, index] pairs of the finite entries. */
 function finiteIndexed(p: readonly (number | null)[]): [number, number][] {
   const out: [number, number][] = [];
-  p.forEach((v, i) => { if (typeof v === 'number' && Number.isFinite(v)) out.push([v, i]); });
+  p.forEach((v, i) => {
+    if (typeof v === 'number' && Number.isFinite(v)) out.push([v, i]);
+  });
   return out;
 }
 
@@ -268,7 +319,10 @@ export function holm(p: readonly (number | null)[]): (number | null)[] {
   const m = idx.length;
   const out: (number | null)[] = p.map(() => null);
   let run = 0;
-  idx.forEach(([v, i], r) => { run = Math.max(run, Math.min(1, (m - r) * v)); out[i] = run; });
+  idx.forEach(([v, i], r) => {
+    run = Math.max(run, Math.min(1, (m - r) * v));
+    out[i] = run;
+  });
   return out;
 }
 
@@ -312,7 +366,12 @@ export const groupDefaults = { group: 'group', animalKeys: ['animal', 'preparati
 const UNIT_SUFFIXES = ['uV_ms', 'mV_ms', 'V_s', 'm_s', 'uV', 'mV', 'V', 'ms', 'mm', 'mA', 'uA', 'uM', 'nM', 'mM', 'Hz'];
 
 interface Resolved {
-  value: string; group: string; animal: string; condition: string | null; by: string[]; unit: string;
+  value: string;
+  group: string;
+  animal: string;
+  condition: string | null;
+  by: string[];
+  unit: string;
 }
 
 function resolve(rows: readonly Row[], o: GroupOptions): Resolved {
@@ -321,8 +380,10 @@ function resolve(rows: readonly Row[], o: GroupOptions): Resolved {
   const need = (name: string, col: unknown) => {
     if (typeof col !== 'string' || !cols.includes(col)) {
       const hint = typeof col === 'string' ? didYouMean(col, cols) : '';
-      throw new OptionError(`invalid ${name}: ${JSON.stringify(col)} is not a column of the rows${hint}; `
-        + `columns are ${cols.join(', ')}`);
+      throw new OptionError(
+        `invalid ${name}: ${JSON.stringify(col)} is not a column of the rows${hint}; ` +
+          `columns are ${cols.join(', ')}`,
+      );
     }
     return col;
   };
@@ -341,17 +402,32 @@ function resolve(rows: readonly Row[], o: GroupOptions): Resolved {
 
 /** One point per animal: the mean of its values in each cell (by, group, condition). */
 export interface AnimalPoint {
-  key: Row; group: ConditionValue; condition: ConditionValue; animal: ConditionValue; value: number; n: number;
+  key: Row;
+  group: ConditionValue;
+  condition: ConditionValue;
+  animal: ConditionValue;
+  value: number;
+  n: number;
 }
 
 /** Average the rows within each animal and cell; rows without a finite value are counted, not used. */
-export function animalMeans(input: RowInput, options: GroupOptions): {
-  points: AnimalPoint[]; excluded: number; options: Resolved;
+export function animalMeans(
+  input: RowInput,
+  options: GroupOptions,
+): {
+  points: AnimalPoint[];
+  excluded: number;
+  options: Resolved;
 } {
   const rows = rowsOf(input);
   const o = resolve(rows, options);
   type Cell = {
-    key: Row; group: ConditionValue; condition: ConditionValue; animal: ConditionValue; sum: number; n: number;
+    key: Row;
+    group: ConditionValue;
+    condition: ConditionValue;
+    animal: ConditionValue;
+    sum: number;
+    n: number;
   };
   const cells = new Map<string, Cell>();
   let excluded = 0;
@@ -360,10 +436,13 @@ export function animalMeans(input: RowInput, options: GroupOptions): {
     const grp = o.group ? r[o.group] : 'all';
     const animal = r[o.animal];
     const missing = animal === null || animal === undefined || grp === undefined || grp === null;
-    if (typeof v !== 'number' || !Number.isFinite(v) || missing) { excluded++; continue; }
+    if (typeof v !== 'number' || !Number.isFinite(v) || missing) {
+      excluded++;
+      continue;
+    }
     const key: Row = {};
     for (const k of o.by) key[k] = r[k] ?? null;
-    const cond = o.condition ? r[o.condition] ?? null : null;
+    const cond = o.condition ? (r[o.condition] ?? null) : null;
     const id = JSON.stringify([o.by.map((k) => key[k]), grp, cond, animal]);
     let c = cells.get(id);
     if (!c) cells.set(id, (c = { key, group: grp, condition: cond, animal, sum: 0, n: 0 }));
@@ -371,16 +450,19 @@ export function animalMeans(input: RowInput, options: GroupOptions): {
     c.n++;
   }
   const points = [...cells.values()].map((c) => ({
-    key: c.key, group: c.group, condition: c.condition, animal: c.animal, value: c.sum / c.n, n: c.n,
+    key: c.key,
+    group: c.group,
+    condition: c.condition,
+    animal: c.animal,
+    value: c.sum / c.n,
+    n: c.n,
   }));
   return { points, excluded, options: o };
 }
 
 /** Rows, a table with `rows` (ComponentTable, results) or a DataFrame (`columns` and `values`). */
 export type RowInput =
-  | readonly Row[]
-  | { readonly rows: readonly object[] }
-  | { columns: string[]; values: unknown[][] };
+  readonly Row[] | { readonly rows: readonly object[] } | { columns: string[]; values: unknown[][] };
 
 /** Plain rows from any RowInput. */
 export function rowsOf(input: RowInput): Row[] {
@@ -392,13 +474,17 @@ export function rowsOf(input: RowInput): Row[] {
     const row = (v: unknown[]) => Object.fromEntries(cols.map((c, j) => [c, (v[j] ?? null) as ConditionValue]));
     return (x.values as unknown[][]).map(row);
   }
-  throw new OptionError('group statistics need rows: an array of objects, a table with .rows (e.g. a ComponentTable) '
-    + 'or a DataFrame');
+  throw new OptionError(
+    'group statistics need rows: an array of objects, a table with .rows (e.g. a ComponentTable) ' + 'or a DataFrame',
+  );
 }
 
 const uniq = <T>(xs: T[]) => {
   const seen = new Set<string>();
-  return xs.filter((x) => { const k = JSON.stringify(x); return seen.has(k) ? false : (seen.add(k), true); });
+  return xs.filter((x) => {
+    const k = JSON.stringify(x);
+    return seen.has(k) ? false : (seen.add(k), true);
+  });
 };
 
 /** Group summaries and tests with the animal as the unit; see compareGroups. */
@@ -411,13 +497,19 @@ export class GroupComparison extends Result {
     readonly excluded: number,
     readonly history: readonly Step[],
     readonly sources: readonly Source[] = [],
-  ) { super(); }
+  ) {
+    super();
+  }
 
   tables(): Record<string, readonly object[]> {
     const cond = this.options.condition;
     const pts = this.points.map((p) => ({
-      ...p.key, group: p.group, ...(cond ? { condition: p.condition } : {}), animal: p.animal,
-      [this.options.value]: p.value, values_averaged: p.n,
+      ...p.key,
+      group: p.group,
+      ...(cond ? { condition: p.condition } : {}),
+      animal: p.animal,
+      [this.options.value]: p.value,
+      values_averaged: p.n,
     }));
     return { group_summary: this.summary, group_tests: this.tests, group_points: pts };
   }
@@ -427,17 +519,32 @@ export class GroupComparison extends Result {
   toHTML(): string {
     const u = this.options.unit ? ` (${this.options.unit})` : '';
     const cap = `${this.options.value}${u} per group, animals as the unit (mean, SD, SEM, 95% CI)`;
-    return tableHtml(this.summary, { caption: cap })
-      + tableHtml(this.tests, { caption: 'Tests (p adjusted over the table by Holm and by Benjamini-Hochberg)' });
+    return (
+      tableHtml(this.summary, { caption: cap }) +
+      tableHtml(this.tests, { caption: 'Tests (p adjusted over the table by Holm and by Benjamini-Hochberg)' })
+    );
   }
   toString(): string {
     const o = this.options;
     const left = this.excluded ? `; ${this.excluded} rows without a value not used` : '';
-    const sumCols = [...o.by, ...(o.condition ? ['condition'] : []), 'group', 'n_animals', 'mean', 'sd', 'ci95_low',
-      'ci95_high', 'status'];
+    const sumCols = [
+      ...o.by,
+      ...(o.condition ? ['condition'] : []),
+      'group',
+      'n_animals',
+      'mean',
+      'sd',
+      'ci95_low',
+      'ci95_high',
+      'status',
+    ];
     const testCols = [...o.by, 'test', 'comparison', 'statistic', 'df', 'p', 'p_holm', 'p_bh', 'status'];
-    return `GroupComparison of ${o.value} (${this.points.length} animal means${left})\n`
-      + tableText(this.summary, { columns: sumCols }) + '\n' + tableText(this.tests, { columns: testCols });
+    return (
+      `GroupComparison of ${o.value} (${this.points.length} animal means${left})\n` +
+      tableText(this.summary, { columns: sumCols }) +
+      '\n' +
+      tableText(this.tests, { columns: testCols })
+    );
   }
 }
 
@@ -485,11 +592,19 @@ export function compareGroups(
         const s = summarize(v);
         const ok = v.length >= 2;
         summary.push({
-          ...key, ...(o.condition ? { condition: c } : {}), group: g,
-          n_animals: v.length, n_values: here.reduce((a, p) => a + p.n, 0),
-          mean: s.mean, sd: ok ? s.sd : null, sem: ok ? s.sem : null,
-          ci95_low: ok ? s.ci95[0] : null, ci95_high: ok ? s.ci95[1] : null, unit: o.unit,
-          status: ok ? 'ok' : 'not computed', reason: ok ? null : 'one animal: no SD or CI',
+          ...key,
+          ...(o.condition ? { condition: c } : {}),
+          group: g,
+          n_animals: v.length,
+          n_values: here.reduce((a, p) => a + p.n, 0),
+          mean: s.mean,
+          sd: ok ? s.sd : null,
+          sem: ok ? s.sem : null,
+          ci95_low: ok ? s.ci95[0] : null,
+          ci95_high: ok ? s.ci95[1] : null,
+          unit: o.unit,
+          status: ok ? 'ok' : 'not computed',
+          reason: ok ? null : 'one animal: no SD or CI',
         });
       }
       const base: Row = { ...key, ...(o.condition ? { condition: c } : {}) };
@@ -502,20 +617,37 @@ export function compareGroups(
         const label = `${groups[0]} vs ${groups[1]}`;
         const w = welchTTest(vals[0], vals[1]);
         push(base, 'Welch t', label, {
-          statistic: w.t, df: w.df, p: w.p, estimate: w.difference, ci95_low: w.ci95?.[0] ?? null,
-          ci95_high: w.ci95?.[1] ?? null, n: `${w.n1}, ${w.n2}`, method: 'two-sided, unequal variances',
-          status: w.status, reason: w.reason,
+          statistic: w.t,
+          df: w.df,
+          p: w.p,
+          estimate: w.difference,
+          ci95_low: w.ci95?.[0] ?? null,
+          ci95_high: w.ci95?.[1] ?? null,
+          n: `${w.n1}, ${w.n2}`,
+          method: 'two-sided, unequal variances',
+          status: w.status,
+          reason: w.reason,
         });
         const m = mannWhitneyU(vals[0], vals[1]);
         push(base, 'Mann-Whitney U', label, {
-          statistic: m.U, p: m.p, n: `${m.n1}, ${m.n2}`, method: m.method, status: m.status, reason: m.reason,
+          statistic: m.U,
+          p: m.p,
+          n: `${m.n1}, ${m.n2}`,
+          method: m.method,
+          status: m.status,
+          reason: m.reason,
         });
       } else {
         const a = oneWayAnova(vals);
         const small = vals.some((v) => v.length < 2);
-        push(base, 'one-way ANOVA', groups.join(', '), small
-          ? { n: sizes(vals), ...notComputed(`needs at least 2 animals per group (n = ${sizes(vals)})`) }
-          : { statistic: a.F, df: a.df1, df2: a.df2, p: a.p, n: sizes(vals), status: a.status, reason: a.reason });
+        push(
+          base,
+          'one-way ANOVA',
+          groups.join(', '),
+          small
+            ? { n: sizes(vals), ...notComputed(`needs at least 2 animals per group (n = ${sizes(vals)})`) }
+            : { statistic: a.F, df: a.df1, df2: a.df2, p: a.p, n: sizes(vals), status: a.status, reason: a.reason },
+        );
       }
     }
     if (o.condition && conds.length >= 2) {
@@ -532,39 +664,71 @@ export function compareGroups(
           const label = `${conds[1]} - ${conds[0]} within ${g}`;
           if (y.length < 2) {
             push(base, 'paired t', label, {
-              n: y.length, ...notComputed(`needs at least 2 animals with both conditions (got ${y.length})`),
+              n: y.length,
+              ...notComputed(`needs at least 2 animals with both conditions (got ${y.length})`),
             });
             continue;
           }
-          const pc = pairedCompare(y.map((r) => r[0]), y.map((r) => r[1]));
-          push(base, 'paired t', label, Number.isFinite(pc.t)
-            ? {
-              statistic: pc.t, df: pc.df, p: pc.pT, estimate: pc.meanDifference, ci95_low: pc.ci95[0],
-              ci95_high: pc.ci95[1], n: y.length, method: note, status: 'ok', reason: null,
-            }
-            : { n: y.length, ...notComputed('the paired differences have no variation') });
+          const pc = pairedCompare(
+            y.map((r) => r[0]),
+            y.map((r) => r[1]),
+          );
+          push(
+            base,
+            'paired t',
+            label,
+            Number.isFinite(pc.t)
+              ? {
+                  statistic: pc.t,
+                  df: pc.df,
+                  p: pc.pT,
+                  estimate: pc.meanDifference,
+                  ci95_low: pc.ci95[0],
+                  ci95_high: pc.ci95[1],
+                  n: y.length,
+                  method: note,
+                  status: 'ok',
+                  reason: null,
+                }
+              : { n: y.length, ...notComputed('the paired differences have no variation') },
+          );
         } else {
           const r = repeatedMeasuresAnova(y);
-          const gg = r.status === 'ok'
-            ? `Greenhouse-Geisser epsilon ${r.epsilonGG!.toPrecision(3)}, p ${r.pGG!.toPrecision(3)}`
-            : '';
+          const gg =
+            r.status === 'ok'
+              ? `Greenhouse-Geisser epsilon ${r.epsilonGG!.toPrecision(3)}, p ${r.pGG!.toPrecision(3)}`
+              : '';
           push(base, 'repeated-measures ANOVA', `${conds.join(', ')} within ${g}`, {
-            statistic: r.F, df: r.df1, df2: r.df2, p: r.p, n: y.length,
-            method: [gg, note].filter(Boolean).join('; ') || null, status: r.status, reason: r.reason,
+            statistic: r.F,
+            df: r.df1,
+            df2: r.df2,
+            p: r.p,
+            n: y.length,
+            method: [gg, note].filter(Boolean).join('; ') || null,
+            status: r.status,
+            reason: r.reason,
           });
         }
       }
     }
   }
   const ps = tests.map((t) => (t.status === 'ok' ? (t.p as number) : null));
-  const h = holm(ps), bh = benjaminiHochberg(ps);
-  tests.forEach((t, i) => { t.p_holm = h[i]; t.p_bh = bh[i]; });
+  const h = holm(ps),
+    bh = benjaminiHochberg(ps);
+  tests.forEach((t, i) => {
+    t.p_holm = h[i];
+    t.p_bh = bh[i];
+  });
   const step: Step = {
     verb: 'compareGroups',
     options: {
-      ...o, unitOfReplication: o.animal, correction: 'Holm; Benjamini-Hochberg', excludedRows: excluded,
-      tests: 'Welch t, Mann-Whitney U (exact for n <= 8 without ties), one-way ANOVA, paired t, '
-        + 'repeated-measures ANOVA',
+      ...o,
+      unitOfReplication: o.animal,
+      correction: 'Holm; Benjamini-Hochberg',
+      excludedRows: excluded,
+      tests:
+        'Welch t, Mann-Whitney U (exact for n <= 8 without ties), one-way ANOVA, paired t, ' +
+        'repeated-measures ANOVA',
     },
     version: VERSION,
   };
@@ -579,37 +743,43 @@ export function groupMethods(result: GroupComparison): string {
   const mw = ok.some((t) => t.test === 'Mann-Whitney U');
   const per = [o.group, o.condition].filter(Boolean).join(' and ') || 'set';
   const parts = [
-    `${o.value.replace(/_/g, ' ')} was averaged within each ${o.animal} (the unit of replication; sweeps and `
-      + 'electrodes are not independent replicates, Lazic 2010; Aarts et al. 2014) and summarised per '
-      + `${per} as mean, SD, SEM and a t-based 95% confidence interval.`,
+    `${o.value.replace(/_/g, ' ')} was averaged within each ${o.animal} (the unit of replication; sweeps and ` +
+      'electrodes are not independent replicates, Lazic 2010; Aarts et al. 2014) and summarised per ' +
+      `${per} as mean, SD, SEM and a t-based 95% confidence interval.`,
   ];
   if (tests.length) {
-    const exact = mw ? ' (Mann-Whitney U exact for samples of at most 8 without ties, otherwise the normal '
-      + 'approximation with tie and continuity correction)' : '';
-    parts.push(`Tests: ${tests.join(', ')}${exact}; p values were adjusted over the ${ok.length} tests by Holm's `
-      + 'step-down method (Holm 1979) and, for the false discovery rate, by Benjamini & Hochberg (1995).');
+    const exact = mw
+      ? ' (Mann-Whitney U exact for samples of at most 8 without ties, otherwise the normal ' +
+        'approximation with tie and continuity correction)'
+      : '';
+    parts.push(
+      `Tests: ${tests.join(', ')}${exact}; p values were adjusted over the ${ok.length} tests by Holm's ` +
+        'step-down method (Holm 1979) and, for the false discovery rate, by Benjamini & Hochberg (1995).',
+    );
   }
   const nc = result.tests.length - ok.length;
   if (nc) {
-    parts.push(`${nc} test${nc === 1 ? ' was' : 's were'} not computed (fewer than two ${o.animal}s per group or `
-      + 'no variation), as listed in the table.');
+    parts.push(
+      `${nc} test${nc === 1 ? ' was' : 's were'} not computed (fewer than two ${o.animal}s per group or ` +
+        'no variation), as listed in the table.',
+    );
   }
   return parts.join(' ');
 }
 
 /** References of the group-statistics and mixed-model methods text. */
 export const GROUP_REFERENCES = [
-  'Lazic SE (2010) The problem of pseudoreplication in neuroscientific studies: is it affecting your analysis? '
-    + 'BMC Neurosci 11:5.',
-  'Aarts E, Verhage M, Veenvliet JV, Dolan CV, van der Sluis S (2014) A solution to dependency: using multilevel '
-    + 'analysis to accommodate nested data. Nat Neurosci 17:491-496.',
-  'Welch BL (1947) The generalization of "Student\'s" problem when several different population variances are '
-    + 'involved. Biometrika 34:28-35.',
-  'Mann HB, Whitney DR (1947) On a test of whether one of two random variables is stochastically larger than the '
-    + 'other. Ann Math Stat 18:50-60.',
+  'Lazic SE (2010) The problem of pseudoreplication in neuroscientific studies: is it affecting your analysis? ' +
+    'BMC Neurosci 11:5.',
+  'Aarts E, Verhage M, Veenvliet JV, Dolan CV, van der Sluis S (2014) A solution to dependency: using multilevel ' +
+    'analysis to accommodate nested data. Nat Neurosci 17:491-496.',
+  'Welch BL (1947) The generalization of "Student\'s" problem when several different population variances are ' +
+    'involved. Biometrika 34:28-35.',
+  'Mann HB, Whitney DR (1947) On a test of whether one of two random variables is stochastically larger than the ' +
+    'other. Ann Math Stat 18:50-60.',
   'Holm S (1979) A simple sequentially rejective multiple test procedure. Scand J Stat 6:65-70.',
-  'Benjamini Y, Hochberg Y (1995) Controlling the false discovery rate: a practical and powerful approach to '
-    + 'multiple testing. J R Stat Soc B 57:289-300.',
+  'Benjamini Y, Hochberg Y (1995) Controlling the false discovery rate: a practical and powerful approach to ' +
+    'multiple testing. J R Stat Soc B 57:289-300.',
 ];
 
 /** The methods sentence of a 'compareGroups' history step (the tests its design calls for); other steps: ''. */
@@ -617,14 +787,20 @@ export function groupStepMethods(step: Step): string {
   if (step.verb !== 'compareGroups') return '';
   const o = step.options as unknown as Resolved;
   const per = [o.group, o.condition].filter(Boolean).join(' and ') || 'set';
-  const between = o.group ? 'between groups Welch\'s t test and the Mann-Whitney U test (exact for samples of at most '
-    + '8 without ties, otherwise the normal approximation with tie and continuity correction), or one-way ANOVA for '
-    + 'three or more groups' : '';
-  const within = o.condition ? `within animals across ${o.condition} the paired t test, or repeated-measures ANOVA `
-    + 'with the Greenhouse-Geisser epsilon for three or more levels' : '';
+  const between = o.group
+    ? "between groups Welch's t test and the Mann-Whitney U test (exact for samples of at most " +
+      '8 without ties, otherwise the normal approximation with tie and continuity correction), or one-way ANOVA for ' +
+      'three or more groups'
+    : '';
+  const within = o.condition
+    ? `within animals across ${o.condition} the paired t test, or repeated-measures ANOVA ` +
+      'with the Greenhouse-Geisser epsilon for three or more levels'
+    : '';
   const tests = [between, within].filter(Boolean).join('; ');
-  return `${o.value.replace(/_/g, ' ')} was averaged within each ${o.animal} (the unit of replication; sweeps and `
-    + 'electrodes are not independent replicates, Lazic 2010; Aarts et al. 2014) and summarised per '
-    + `${per} as mean, SD, SEM and a t-based 95% confidence interval. Tests: ${tests}; p values were adjusted over `
-    + 'all tests by Holm\'s step-down method (Holm 1979) and by Benjamini & Hochberg (1995).';
+  return (
+    `${o.value.replace(/_/g, ' ')} was averaged within each ${o.animal} (the unit of replication; sweeps and ` +
+    'electrodes are not independent replicates, Lazic 2010; Aarts et al. 2014) and summarised per ' +
+    `${per} as mean, SD, SEM and a t-based 95% confidence interval. Tests: ${tests}; p values were adjusted over ` +
+    "all tests by Holm's step-down method (Holm 1979) and by Benjamini & Hochberg (1995)."
+  );
 }

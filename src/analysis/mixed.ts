@@ -56,7 +56,14 @@ export interface RandomInterceptFit {
   dCov: [number[][], number[][]];
 }
 
-interface Block { n: number; xtx: number[][]; s: number[]; xty: number[]; t: number; yty: number }
+interface Block {
+  n: number;
+  xtx: number[][];
+  s: number[];
+  xty: number[];
+  t: number;
+  yty: number;
+}
 
 const zeros = (p: number, q: number) => Array.from({ length: p }, () => new Array<number>(q).fill(0));
 const matmul = (A: number[][], B: number[][]) =>
@@ -93,7 +100,8 @@ function weighted(
   ab: (b: Block) => [number, number],
   p: number,
 ): { xqx: number[][]; xqy: number[]; yqy: number } {
-  const xqx = zeros(p, p), xqy = new Array(p).fill(0);
+  const xqx = zeros(p, p),
+    xqy = new Array(p).fill(0);
   let yqy = 0;
   for (const b of bs) {
     const [a, c] = ab(b);
@@ -122,7 +130,8 @@ export function fitRandomIntercept(
   X: readonly (readonly number[])[],
   animal: readonly string[],
 ): RandomInterceptFit {
-  const N = y.length, p = X[0]?.length ?? 0;
+  const N = y.length,
+    p = X[0]?.length ?? 0;
   if (!(N > p)) throw new AnalysisError(`mixed model needs more observations (${N}) than fixed-effect columns (${p})`);
   const bs = blocks(y, X, animal);
   const prof = (theta: number) => {
@@ -136,7 +145,8 @@ export function fitRandomIntercept(
     const logH = bs.reduce((s, b) => s + Math.log(1 + b.n * theta), 0);
     const dev = (N - p) * Math.log(se) + logH + ld + (N - p) * (1 + Math.log(2 * Math.PI));
     // exact derivative in theta: dH_i^-1/dtheta = -J / (1 + n_i theta)^2; dq/dtheta = r' (dH^-1/dtheta) r (envelope)
-    let dq = 0, dl = 0;
+    let dq = 0,
+      dl = 0;
     const K = zeros(p, p);
     for (const b of bs) {
       const k2 = 1 / (1 + b.n * theta) ** 2;
@@ -150,28 +160,39 @@ export function fitRandomIntercept(
   };
   const at0 = prof(0);
   if (!at0) {
-    throw new AnalysisError('mixed model design is rank-deficient (a level or combination without observations, '
-      + 'or a factor that does not vary)');
+    throw new AnalysisError(
+      'mixed model design is rank-deficient (a level or combination without observations, ' +
+        'or a factor that does not vary)',
+    );
   }
   if (!(at0.se > 0)) {
     throw new AnalysisError('mixed model: the fixed effects fit the data exactly (no residual variation)');
   }
   const th = (rho: number) => rho / (1 - rho);
-  const f = (rho: number) => { const r = prof(th(rho)); return r ? r.dev : Infinity; };
-  const d = (rho: number) => { const r = prof(th(rho)); return r ? r.slope : NaN; };
+  const f = (rho: number) => {
+    const r = prof(th(rho));
+    return r ? r.dev : Infinity;
+  };
+  const d = (rho: number) => {
+    const r = prof(th(rho));
+    return r ? r.slope : NaN;
+  };
   // grid for the basin of the global minimum, then bisection on the sign of the exact derivative
-  const K = 64, top = 1 - 1e-9;
+  const K = 64,
+    top = 1 - 1e-9;
   const grid = Array.from({ length: K + 1 }, (_, k) => top * (k / K) ** 2);
   const vals = grid.map(f);
   let kBest = 0;
   for (let k = 1; k <= K; k++) if (vals[k] < vals[kBest]) kBest = k;
   let rho = grid[kBest];
   if (!(kBest === 0 && at0.slope >= 0)) {
-    let lo = grid[Math.max(0, kBest - 1)], hi = grid[Math.min(K, kBest + 1)];
+    let lo = grid[Math.max(0, kBest - 1)],
+      hi = grid[Math.min(K, kBest + 1)];
     if (d(lo) < 0 && d(hi) > 0) {
       for (let it = 0; it < 200 && hi - lo > 1e-17; it++) {
         const mid = (lo + hi) / 2;
-        if (d(mid) < 0) lo = mid; else hi = mid;
+        if (d(mid) < 0) lo = mid;
+        else hi = mid;
       }
       rho = (lo + hi) / 2;
     }
@@ -179,29 +200,45 @@ export function fitRandomIntercept(
   if (rho > 0 && f(0) <= f(rho)) rho = 0;
   const theta = rho / (1 - rho);
   const best = prof(theta)!;
-  const se = best.se, su = theta * se;
+  const se = best.se,
+    su = theta * se;
   const M = best.inv.map((r) => r.map((v) => v * se));
   // block algebra in span{I, J}: (a, b) = a I + b J; product for block size n
   type IJ = [number, number];
   const mul = (P: IJ, Q: IJ, n: number): IJ => [P[0] * Q[0], P[0] * Q[1] + P[1] * Q[0] + n * P[1] * Q[1]];
-  const Vk: [number, number][] = [[0, 1], [1, 0]];
+  const Vk: [number, number][] = [
+    [0, 1],
+    [1, 0],
+  ];
   const Wb = (b: Block): [number, number] => [1 / se, -theta / (1 + b.n * theta) / se];
   const F = Vk.map((V) => weighted(bs, (b) => mul(mul(Wb(b), V, b.n), Wb(b), b.n), p).xqx);
   const info = zeros(2, 2);
-  for (let k = 0; k < 2; k++) for (let l = 0; l < 2; l++) {
-    let trWW = 0;
-    for (const b of bs) {
-      const Q = mul(mul(mul(Wb(b), Vk[k], b.n), Wb(b), b.n), Vk[l], b.n);
-      trWW += b.n * (Q[0] + Q[1]);
+  for (let k = 0; k < 2; k++)
+    for (let l = 0; l < 2; l++) {
+      let trWW = 0;
+      for (const b of bs) {
+        const Q = mul(mul(mul(Wb(b), Vk[k], b.n), Wb(b), b.n), Vk[l], b.n);
+        trWW += b.n * (Q[0] + Q[1]);
+      }
+      const G = weighted(bs, (b) => mul(mul(mul(mul(Wb(b), Vk[k], b.n), Wb(b), b.n), Vk[l], b.n), Wb(b), b.n), p).xqx;
+      info[k][l] = 0.5 * (trWW - 2 * trace(matmul(M, G)) + trace(matmul(matmul(M, F[k]), matmul(M, F[l]))));
     }
-    const G = weighted(bs, (b) => mul(mul(mul(mul(Wb(b), Vk[k], b.n), Wb(b), b.n), Vk[l], b.n), Wb(b), b.n), p).xqx;
-    info[k][l] = 0.5 * (trWW - 2 * trace(matmul(M, G)) + trace(matmul(matmul(M, F[k]), matmul(M, F[l]))));
-  }
-  const A = invertSpd(info) ?? [[NaN, NaN], [NaN, NaN]];
+  const A = invertSpd(info) ?? [
+    [NaN, NaN],
+    [NaN, NaN],
+  ];
   const dCov = F.map((Fk) => matmul(matmul(M, Fk), M)) as [number[][], number[][]];
   return {
-    beta: best.beta, covariance: M, sigmaU2: su, sigmaE2: se, remlDeviance: best.dev, varianceCovariance: A,
-    boundary: rho === 0, nObs: N, nAnimals: bs.length, dCov,
+    beta: best.beta,
+    covariance: M,
+    sigmaU2: su,
+    sigmaE2: se,
+    remlDeviance: best.dev,
+    varianceCovariance: A,
+    boundary: rho === 0,
+    nObs: N,
+    nAnimals: bs.length,
+    dCov,
   };
 }
 
@@ -223,24 +260,32 @@ function jacobiEigen(S: number[][]): { values: number[]; vectors: number[][] } {
     let off = 0;
     for (let i = 0; i < n; i++) for (let j = i + 1; j < n; j++) off += A[i][j] ** 2;
     if (off < 1e-30 * (trace(A) ** 2 + 1e-300)) break;
-    for (let p = 0; p < n; p++) for (let q = p + 1; q < n; q++) {
-      if (A[p][q] === 0) continue;
-      const th = (A[q][q] - A[p][p]) / (2 * A[p][q]);
-      const t = Math.sign(th || 1) / (Math.abs(th) + Math.sqrt(th * th + 1));
-      const c = 1 / Math.sqrt(t * t + 1), s = t * c;
-      for (let k = 0; k < n; k++) {
-        const akp = A[k][p], akq = A[k][q];
-        A[k][p] = c * akp - s * akq; A[k][q] = s * akp + c * akq;
+    for (let p = 0; p < n; p++)
+      for (let q = p + 1; q < n; q++) {
+        if (A[p][q] === 0) continue;
+        const th = (A[q][q] - A[p][p]) / (2 * A[p][q]);
+        const t = Math.sign(th || 1) / (Math.abs(th) + Math.sqrt(th * th + 1));
+        const c = 1 / Math.sqrt(t * t + 1),
+          s = t * c;
+        for (let k = 0; k < n; k++) {
+          const akp = A[k][p],
+            akq = A[k][q];
+          A[k][p] = c * akp - s * akq;
+          A[k][q] = s * akp + c * akq;
+        }
+        for (let k = 0; k < n; k++) {
+          const apk = A[p][k],
+            aqk = A[q][k];
+          A[p][k] = c * apk - s * aqk;
+          A[q][k] = s * apk + c * aqk;
+        }
+        for (let k = 0; k < n; k++) {
+          const vkp = V[k][p],
+            vkq = V[k][q];
+          V[k][p] = c * vkp - s * vkq;
+          V[k][q] = s * vkp + c * vkq;
+        }
       }
-      for (let k = 0; k < n; k++) {
-        const apk = A[p][k], aqk = A[q][k];
-        A[p][k] = c * apk - s * aqk; A[q][k] = s * apk + c * aqk;
-      }
-      for (let k = 0; k < n; k++) {
-        const vkp = V[k][p], vkq = V[k][q];
-        V[k][p] = c * vkp - s * vkq; V[k][q] = s * vkp + c * vkq;
-      }
-    }
   }
   return { values: A.map((r, i) => r[i]), vectors: Array.from({ length: n }, (_, m) => V.map((r) => r[m])) };
 }
@@ -267,14 +312,17 @@ export function contrastF(
   let denDf: number;
   if (q === 1 || nu.every((v) => Math.abs(v - nu[0]) < 1e-8 * Math.abs(nu[0]))) {
     denDf = nu.reduce((a, b) => a + b, 0) / nu.length;
+  } else if (nu.some((v) => v <= 2)) denDf = 2;
+  else {
+    const E = nu.reduce((s, v) => s + v / (v - 2), 0);
+    denDf = E > q ? (2 * E) / (E - q) : 2;
   }
-  else if (nu.some((v) => v <= 2)) denDf = 2;
-  else { const E = nu.reduce((s, v) => s + v / (v - 2), 0); denDf = E > q ? (2 * E) / (E - q) : 2; }
   return { F, numDf: q, denDf, p: fSurvival(F, q, denDf) };
 }
 
-const NO_DF = 'no Satterthwaite df: the variance components are not both identifiable (e.g. one observation per '
-  + 'animal) or the fit is degenerate';
+const NO_DF =
+  'no Satterthwaite df: the variance components are not both identifiable (e.g. one observation per ' +
+  'animal) or the fit is degenerate';
 
 /** Options of mixedModel; fields name columns of the rows. */
 export interface MixedOptions {
@@ -294,7 +342,11 @@ export interface MixedOptions {
 
 export const mixedDefaults = { randomKeys: ['animal', 'preparation'], by: ['class'], interaction: false };
 
-interface Term { name: string; factors: string[]; cols: number[] }
+interface Term {
+  name: string;
+  factors: string[];
+  cols: number[];
+}
 
 /** Design matrix for factors with treatment or sum-to-zero coding. */
 function design(
@@ -329,13 +381,16 @@ function design(
   if (interaction && factors.length === 2) {
     const [a, b] = factors;
     const idx: number[] = [];
-    for (let i = 0; i < levels[a].length - 1; i++) for (let j = 0; j < levels[b].length - 1; j++) {
-      idx.push(cols.length);
-      cols.push(rows.map((_, r) => codes[0][r][i] * codes[1][r][j]));
-      names.push(coding === 'treatment'
-        ? `${a}: ${levels[a][i + 1]} x ${b}: ${levels[b][j + 1]}`
-        : `${a}[${levels[a][i]}] x ${b}[${levels[b][j]}]`);
-    }
+    for (let i = 0; i < levels[a].length - 1; i++)
+      for (let j = 0; j < levels[b].length - 1; j++) {
+        idx.push(cols.length);
+        cols.push(rows.map((_, r) => codes[0][r][i] * codes[1][r][j]));
+        names.push(
+          coding === 'treatment'
+            ? `${a}: ${levels[a][i + 1]} x ${b}: ${levels[b][j + 1]}`
+            : `${a}[${levels[a][i]}] x ${b}[${levels[b][j]}]`,
+        );
+      }
     terms.push({ name: `${a} x ${b}`, factors: [a, b], cols: idx });
   }
   const X = rows.map((_, i) => cols.map((c) => c[i]));
@@ -352,7 +407,9 @@ export class MixedModelResult extends Result {
     readonly fits: Map<string, RandomInterceptFit>,
     readonly history: readonly Step[],
     readonly sources: readonly Source[] = [],
-  ) { super(); }
+  ) {
+    super();
+  }
   tables(): Record<string, readonly object[]> {
     return { mixed_coefficients: this.coefficients, mixed_anova: this.anova, mixed_variance: this.variance };
   }
@@ -366,16 +423,21 @@ export class MixedModelResult extends Result {
   }
   toHTML(): string {
     const cap = `Mixed model ${this.formula()}, REML, Satterthwaite df`;
-    return tableHtml(this.anova, { caption: cap + ' (Type III F tests)' })
-      + tableHtml(this.coefficients, { caption: 'Coefficients (treatment coding, first level as reference)' })
-      + tableHtml(this.variance, { caption: 'Variance components' });
+    return (
+      tableHtml(this.anova, { caption: cap + ' (Type III F tests)' }) +
+      tableHtml(this.coefficients, { caption: 'Coefficients (treatment coding, first level as reference)' }) +
+      tableHtml(this.variance, { caption: 'Variance components' })
+    );
   }
   toString(): string {
     const by = this.options.by;
     const vc = [...by, 'animal_variance', 'residual_variance', 'icc', 'n_obs', 'n_animals', 'status'];
-    return `MixedModelResult: ${this.formula()}\n`
-      + tableText(this.anova, { columns: [...by, 'term', 'F', 'num_df', 'den_df', 'p', 'status'] }) + '\n'
-      + tableText(this.variance, { columns: vc });
+    return (
+      `MixedModelResult: ${this.formula()}\n` +
+      tableText(this.anova, { columns: [...by, 'term', 'F', 'num_df', 'den_df', 'p', 'status'] }) +
+      '\n' +
+      tableText(this.variance, { columns: vc })
+    );
   }
 }
 
@@ -402,8 +464,9 @@ export function mixedModel(
   const need = (name: string, c: unknown) => {
     if (typeof c !== 'string' || !cols.includes(c)) {
       const hint = typeof c === 'string' ? didYouMean(c, cols) : '';
-      throw new OptionError(`invalid ${name}: ${shown(c)} is not a column of the rows${hint}; `
-        + `columns are ${cols.join(', ')}`);
+      throw new OptionError(
+        `invalid ${name}: ${shown(c)} is not a column of the rows${hint}; ` + `columns are ${cols.join(', ')}`,
+      );
     }
     return c;
   };
@@ -418,7 +481,9 @@ export function mixedModel(
   if (interaction && fixed.length !== 2) {
     throw new OptionError(`invalid interaction: true needs exactly two fixed factors (got ${fixed.length})`);
   }
-  const coefficients: Row[] = [], anova: Row[] = [], variance: Row[] = [];
+  const coefficients: Row[] = [],
+    anova: Row[] = [],
+    variance: Row[] = [];
   const fits = new Map<string, RandomInterceptFit>();
   const cells = new Map<string, Row[]>();
   for (const r of rows) {
@@ -429,8 +494,13 @@ export function mixedModel(
   for (const [id, all] of cells) {
     const key: Row = {};
     by.forEach((k, i) => (key[k] = JSON.parse(id)[i]));
-    const use = all.filter((r) => typeof r[value] === 'number' && Number.isFinite(r[value] as number)
-      && present(r[random]) && fixed.every((f) => present(r[f])));
+    const use = all.filter(
+      (r) =>
+        typeof r[value] === 'number' &&
+        Number.isFinite(r[value] as number) &&
+        present(r[random]) &&
+        fixed.every((f) => present(r[f])),
+    );
     const excluded = all.length - use.length;
     const levels: Record<string, ConditionValue[]> = {};
     for (const f of fixed) {
@@ -445,20 +515,37 @@ export function mixedModel(
     }
     const animals = new Set(use.map((r) => String(r[random])));
     const counts = { n_obs: use.length, n_animals: animals.size, n_excluded: excluded };
-    const fail = (reason: string) => variance.push({
-      ...key, animal_variance: null, residual_variance: null, icc: null, ...counts, reml_deviance: null,
-      boundary: null, status: 'not computed', reason,
-    });
+    const fail = (reason: string) =>
+      variance.push({
+        ...key,
+        animal_variance: null,
+        residual_variance: null,
+        icc: null,
+        ...counts,
+        reml_deviance: null,
+        boundary: null,
+        status: 'not computed',
+        reason,
+      });
     const small = fixed.find((f) => levels[f].length < 2);
-    if (small) { fail(`factor ${small} has ${levels[small].length} level in these rows; needs 2 or more`); continue; }
-    if (animals.size < 2) { fail(`needs at least 2 animals (got ${animals.size})`); continue; }
+    if (small) {
+      fail(`factor ${small} has ${levels[small].length} level in these rows; needs 2 or more`);
+      continue;
+    }
+    if (animals.size < 2) {
+      fail(`needs at least 2 animals (got ${animals.size})`);
+      continue;
+    }
     if (use.length === animals.size) {
-      fail('one observation per animal: animal and residual variance cannot be told apart (compareGroups tests '
-        + 'one value per animal directly)');
+      fail(
+        'one observation per animal: animal and residual variance cannot be told apart (compareGroups tests ' +
+          'one value per animal directly)',
+      );
       continue;
     }
     try {
-      const y = use.map((r) => r[value] as number), g = use.map((r) => String(r[random]));
+      const y = use.map((r) => r[value] as number),
+        g = use.map((r) => String(r[random]));
       const tr = design(use, fixed, levels, interaction, 'treatment');
       const fit = fitRandomIntercept(y, tr.X, g);
       fits.set(id, fit);
@@ -466,18 +553,37 @@ export function mixedModel(
         const l = tr.names.map((_, k) => (k === j ? 1 : 0));
         const se = Math.sqrt(fit.covariance[j][j]);
         const df = satterthwaiteDf(fit, l);
-        const b = fit.beta[j], t = b / se;
+        const b = fit.beta[j],
+          t = b / se;
         if (!(df > 0) || !Number.isFinite(df) || !(se > 0)) {
           coefficients.push({
-            ...key, term: name, estimate: b, se: se > 0 ? se : null, df: null, t: null, p: null, ci95_low: null,
-            ci95_high: null, status: 'not computed', reason: NO_DF,
+            ...key,
+            term: name,
+            estimate: b,
+            se: se > 0 ? se : null,
+            df: null,
+            t: null,
+            p: null,
+            ci95_low: null,
+            ci95_high: null,
+            status: 'not computed',
+            reason: NO_DF,
           });
           return;
         }
         const q = tQuantile(0.975, df);
         coefficients.push({
-          ...key, term: name, estimate: b, se, df, t, p: tTwoSided(t, df), ci95_low: b - q * se, ci95_high: b + q * se,
-          status: 'ok', reason: null,
+          ...key,
+          term: name,
+          estimate: b,
+          se,
+          df,
+          t,
+          p: tTwoSided(t, df),
+          ci95_low: b - q * se,
+          ci95_high: b + q * se,
+          status: 'ok',
+          reason: null,
         });
       });
       const sum = design(use, fixed, levels, interaction, 'sum');
@@ -493,8 +599,14 @@ export function mixedModel(
       }
       const tot = fit.sigmaU2 + fit.sigmaE2;
       variance.push({
-        ...key, animal_variance: fit.sigmaU2, residual_variance: fit.sigmaE2, icc: tot > 0 ? fit.sigmaU2 / tot : null,
-        ...counts, reml_deviance: fit.remlDeviance, boundary: fit.boundary, status: 'ok',
+        ...key,
+        animal_variance: fit.sigmaU2,
+        residual_variance: fit.sigmaE2,
+        icc: tot > 0 ? fit.sigmaU2 / tot : null,
+        ...counts,
+        reml_deviance: fit.remlDeviance,
+        boundary: fit.boundary,
+        status: 'ok',
         reason: fit.boundary ? 'animal variance estimated at 0 (on the boundary of the parameter space)' : null,
       });
     } catch (e) {
@@ -506,7 +618,13 @@ export function mixedModel(
   const step: Step = {
     verb: 'mixedModel',
     options: {
-      value, fixed, random, interaction, by, estimation: 'REML', tests: 'Type III (sum-to-zero coding)',
+      value,
+      fixed,
+      random,
+      interaction,
+      by,
+      estimation: 'REML',
+      tests: 'Type III (sum-to-zero coding)',
       df: 'Satterthwaite (expected information; Fai-Cornelius for multi-df terms)',
     },
     version: VERSION,
@@ -517,20 +635,22 @@ export function mixedModel(
 type MixedSpec = { value: string; fixed: string[]; random: string; interaction: boolean };
 function mixedSentence(o: MixedSpec, each: string): string {
   const fx = o.fixed.join(o.interaction ? ' and their interaction' : ', ').replace(/,([^,]*)$/, ' and$1');
-  return `${o.value.replace(/_/g, ' ')} was analysed with a linear mixed-effects model with ${fx} as fixed effects `
-    + `and a random intercept per ${o.random} (observations of one ${o.random} are not independent; Lazic 2010; `
-    + `Aarts et al. 2014), fitted by restricted maximum likelihood (Patterson & Thompson 1971)${each}; fixed `
-    + 'effects were tested with Type III F tests and t tests using Satterthwaite\'s approximation to the denominator '
-    + 'degrees of freedom (Satterthwaite 1946; Fai & Cornelius 1996 for terms with several degrees of freedom).';
+  return (
+    `${o.value.replace(/_/g, ' ')} was analysed with a linear mixed-effects model with ${fx} as fixed effects ` +
+    `and a random intercept per ${o.random} (observations of one ${o.random} are not independent; Lazic 2010; ` +
+    `Aarts et al. 2014), fitted by restricted maximum likelihood (Patterson & Thompson 1971)${each}; fixed ` +
+    "effects were tested with Type III F tests and t tests using Satterthwaite's approximation to the denominator " +
+    'degrees of freedom (Satterthwaite 1946; Fai & Cornelius 1996 for terms with several degrees of freedom).'
+  );
 }
 
 /** References of the mixed-model methods text. */
 export const MIXED_REFERENCES = [
-  'Patterson HD, Thompson R (1971) Recovery of inter-block information when block sizes are unequal. '
-    + 'Biometrika 58:545-554.',
+  'Patterson HD, Thompson R (1971) Recovery of inter-block information when block sizes are unequal. ' +
+    'Biometrika 58:545-554.',
   'Satterthwaite FE (1946) An approximate distribution of estimates of variance components. Biometrics Bull 2:110-114.',
-  'Fai AH-T, Cornelius PL (1996) Approximate F-tests of multiple degree of freedom hypotheses in generalized least '
-    + 'squares analyses of unbalanced split-plot experiments. J Stat Comput Simul 54:363-378.',
+  'Fai AH-T, Cornelius PL (1996) Approximate F-tests of multiple degree of freedom hypotheses in generalized least ' +
+    'squares analyses of unbalanced split-plot experiments. J Stat Comput Simul 54:363-378.',
 ];
 
 /** The methods sentence for a mixed model. */

@@ -41,10 +41,25 @@ import type { Figure } from '../plot/figure';
 type Row = Record<string, ConditionValue>;
 
 export const pairedPulseDefaults = {
-  roleKey: 'pulsePair', intervalKey: 'intervalMs', latency: 'peak_ms', measure: 'area' as 'area' | 'amplitude',
-  blankMs: [0, 0.12] as [number, number], extrapolateMs: 0.5, minIntervals: 4,
+  roleKey: 'pulsePair',
+  intervalKey: 'intervalMs',
+  latency: 'peak_ms',
+  measure: 'area' as 'area' | 'amplitude',
+  blankMs: [0, 0.12] as [number, number],
+  extrapolateMs: 0.5,
+  minIntervals: 4,
 };
-const KEYS = ['components', 'by', 'roleKey', 'intervalKey', 'latency', 'measure', 'blankMs', 'extrapolateMs', 'minIntervals'];
+const KEYS = [
+  'components',
+  'by',
+  'roleKey',
+  'intervalKey',
+  'latency',
+  'measure',
+  'blankMs',
+  'extrapolateMs',
+  'minIntervals',
+];
 
 export interface PairedPulseOptions {
   /** options of measureComponents for the test responses (preset, classes, k, ...) */
@@ -70,7 +85,10 @@ export interface PairedPulseOptions {
 /** Mean of several sweeps. */
 export function meanSweeps(set: SweepSet, idx: readonly number[]): Float64Array {
   const out = new Float64Array(set.nSamples);
-  for (const i of idx) { const x = set.sweep(i); for (let j = 0; j < out.length; j++) out[j] += x[j]; }
+  for (const i of idx) {
+    const x = set.sweep(i);
+    for (let j = 0; j < out.length; j++) out[j] += x[j];
+  }
   for (let j = 0; j < out.length; j++) out[j] /= idx.length;
   return out;
 }
@@ -80,23 +98,35 @@ export function meanSweeps(set: SweepSet, idx: readonly number[]): Float64Array 
  * must be taken off latencies); the end is padded with zeros. `blankMs` after the stimulus is bridged linearly.
  */
 export function lockToStimulus(
-  x: Float64Array, fs: number, t0Ms: number, atMs: number, blankMs: [number, number] | null,
+  x: Float64Array,
+  fs: number,
+  t0Ms: number,
+  atMs: number,
+  blankMs: [number, number] | null,
 ): { y: Float64Array; remainderMs: number } {
   const dt = 1000 / fs;
   const n = Math.round(atMs / dt);
   const y = new Float64Array(x.length);
   for (let i = 0; i < y.length; i++) y[i] = i + n < x.length && i + n >= 0 ? x[i + n] : 0;
   if (blankMs) {
-    const a = Math.max(0, Math.floor((blankMs[0] - t0Ms) / dt)), b = Math.min(y.length - 1, Math.ceil((blankMs[1] - t0Ms) / dt));
+    const a = Math.max(0, Math.floor((blankMs[0] - t0Ms) / dt)),
+      b = Math.min(y.length - 1, Math.ceil((blankMs[1] - t0Ms) / dt));
     if (a > 0 && b > a) for (let i = a + 1; i < b; i++) y[i] = y[a] + ((y[b] - y[a]) * (i - a)) / (b - a);
   }
   return { y, remainderMs: atMs - n * dt };
 }
 
 /** Extrapolate a decaying tail over [from, end): exponential fit (log-linear) to the window, else its mean level. */
-export function extrapolateTail(x: Float64Array, fs: number, t0Ms: number, testMs: number, windowMs: number): { y: Float64Array; method: string } {
+export function extrapolateTail(
+  x: Float64Array,
+  fs: number,
+  t0Ms: number,
+  testMs: number,
+  windowMs: number,
+): { y: Float64Array; method: string } {
   const dt = 1000 / fs;
-  const b = Math.round((testMs - t0Ms) / dt), a = Math.max(0, b - Math.max(3, Math.round(windowMs / dt)));
+  const b = Math.round((testMs - t0Ms) / dt),
+    a = Math.max(0, b - Math.max(3, Math.round(windowMs / dt)));
   const y = new Float64Array(x.length);
   for (let i = 0; i < b && i < x.length; i++) y[i] = x[i];
   const seg = Array.from(x.subarray(a, b));
@@ -104,10 +134,16 @@ export function extrapolateTail(x: Float64Array, fs: number, t0Ms: number, testM
   let method = 'mean level of the last part before the test pulse';
   let f = (_i: number) => seg.reduce((p, q) => p + q, 0) / seg.length;
   if (sign !== 0 && seg.every((v) => v * sign > 0)) {
-    const tx = seg.map((_, k) => k), ly = seg.map((v) => Math.log(v * sign));
-    const mx = tx.reduce((p, q) => p + q, 0) / tx.length, my = ly.reduce((p, q) => p + q, 0) / ly.length;
-    let sxy = 0, sxx = 0;
-    for (let k = 0; k < tx.length; k++) { sxy += (tx[k] - mx) * (ly[k] - my); sxx += (tx[k] - mx) ** 2; }
+    const tx = seg.map((_, k) => k),
+      ly = seg.map((v) => Math.log(v * sign));
+    const mx = tx.reduce((p, q) => p + q, 0) / tx.length,
+      my = ly.reduce((p, q) => p + q, 0) / ly.length;
+    let sxy = 0,
+      sxx = 0;
+    for (let k = 0; k < tx.length; k++) {
+      sxy += (tx[k] - mx) * (ly[k] - my);
+      sxx += (tx[k] - mx) ** 2;
+    }
     const slope = sxy / sxx;
     if (slope < 0) {
       method = 'exponential decay fitted to the last part before the test pulse';
@@ -121,10 +157,17 @@ export function extrapolateTail(x: Float64Array, fs: number, t0Ms: number, testM
 /** Logistic recovery in log10 interval, floor 0, top 1; p = [log10 R50, s]. */
 export const recoveryLogistic = (x: number, p: readonly number[]): number => 1 / (1 + Math.exp((p[0] - x) / p[1]));
 /** The same curve with p = [log10 R90, s]: R50 = R90 / 10^(s ln 9). */
-export const recoveryLogistic90 = (x: number, p: readonly number[]): number => 1 / (1 + Math.exp((p[0] - p[1] * Math.log(9) - x) / p[1]));
+export const recoveryLogistic90 = (x: number, p: readonly number[]): number =>
+  1 / (1 + Math.exp((p[0] - p[1] * Math.log(9) - x) / p[1]));
 
 export interface RecoveryFit {
-  r50Ms: number; r50Ci: [number, number]; r90Ms: number; r90Ci: [number, number]; slope: number; fit: FitResult; status: string;
+  r50Ms: number;
+  r50Ci: [number, number];
+  r90Ms: number;
+  r90Ci: [number, number];
+  slope: number;
+  fit: FitResult;
+  status: string;
 }
 
 /** Fit the recovery logistic to (interval ms, fraction) points; profile-likelihood 95% intervals for R50 and R90. */
@@ -135,12 +178,29 @@ export function fitRecovery(intervalsMs: readonly number[], fractions: readonly 
   const x = intervalsMs.map((v) => Math.log10(v));
   let x50 = x[Math.floor(x.length / 2)];
   const order = x.map((_, i) => i).sort((i, j) => x[i] - x[j]);
-  for (const i of order) if (fractions[i] >= 0.5) { x50 = x[i]; break; }
+  for (const i of order)
+    if (fractions[i] >= 0.5) {
+      x50 = x[i];
+      break;
+    }
   const names = ['log10_r50', 'slope'];
-  const f = fitCurve({ model: recoveryLogistic, x, y: fractions, p0: [x50, 0.1], names, lower: [-Infinity, 1e-4], upper: [Infinity, 5] });
+  const f = fitCurve({
+    model: recoveryLogistic,
+    x,
+    y: fractions,
+    p0: [x50, 0.1],
+    names,
+    lower: [-Infinity, 1e-4],
+    upper: [Infinity, 5],
+  });
   const f9 = fitCurve({
-    model: recoveryLogistic90, x, y: fractions, p0: [f.params[0] + f.params[1] * Math.log(9), f.params[1]], names: ['log10_r90', 'slope'],
-    lower: [-Infinity, 1e-4], upper: [Infinity, 5],
+    model: recoveryLogistic90,
+    x,
+    y: fractions,
+    p0: [f.params[0] + f.params[1] * Math.log(9), f.params[1]],
+    names: ['log10_r90', 'slope'],
+    lower: [-Infinity, 1e-4],
+    upper: [Infinity, 5],
   });
   const ci = (g: FitResult): [number, number] => {
     const c = profileCI(g, 0);
@@ -148,15 +208,24 @@ export function fitRecovery(intervalsMs: readonly number[], fractions: readonly 
   };
   const st = [...new Set([...f.status, ...f9.status])].filter((q) => q !== 'ok');
   return {
-    r50Ms: 10 ** f.params[0], r50Ci: ci(f), r90Ms: 10 ** f9.params[0], r90Ci: ci(f9), slope: f.params[1], fit: f,
+    r50Ms: 10 ** f.params[0],
+    r50Ci: ci(f),
+    r90Ms: 10 ** f9.params[0],
+    r90Ci: ci(f9),
+    slope: f.params[1],
+    fit: f,
     status: st.length ? st.join('; ') : 'ok',
   };
 }
 
 export class PairedPulseResult extends Result {
   constructor(
-    readonly points: Row[], readonly summary: Row[], readonly fits: Map<string, FitResult>, readonly history: readonly Step[],
-    readonly sources: readonly Source[] = [], readonly units = 'uV',
+    readonly points: Row[],
+    readonly summary: Row[],
+    readonly fits: Map<string, FitResult>,
+    readonly history: readonly Step[],
+    readonly sources: readonly Source[] = [],
+    readonly units = 'uV',
   ) {
     super();
   }
@@ -168,13 +237,28 @@ export class PairedPulseResult extends Result {
     return toFrame(this.summary as Record<string, unknown>[]);
   }
   toHTML(): string {
-    return tableHtml(this.summary, { caption: 'Paired-pulse recovery per class (logistic in log10 interval; profile 95% intervals)' });
+    return tableHtml(this.summary, {
+      caption: 'Paired-pulse recovery per class (logistic in log10 interval; profile 95% intervals)',
+    });
   }
   toString(): string {
-    return 'PairedPulseResult\n' + tableText(this.summary, {
-      columns: ['preparation', 'class', 'arp_ms', 'arp_next_ms', 'r50_ms', 'r50_ci95_low', 'r50_ci95_high', 'r90_ms', 'latency_increase_ms',
-        'status'].filter((c) => this.summary.some((r) => c in r)),
-    });
+    return (
+      'PairedPulseResult\n' +
+      tableText(this.summary, {
+        columns: [
+          'preparation',
+          'class',
+          'arp_ms',
+          'arp_next_ms',
+          'r50_ms',
+          'r50_ci95_low',
+          'r50_ci95_high',
+          'r90_ms',
+          'latency_increase_ms',
+          'status',
+        ].filter((c) => this.summary.some((r) => c in r)),
+      })
+    );
   }
   /** Recovery curves per class (src/plot/recovery.ts). */
   figure(): Figure {
@@ -204,7 +288,9 @@ export function pairedPulse(set: SweepSet, options: PairedPulseOptions = {}): Pa
   const roles = new Set(set.conditions.map((c) => c[o.roleKey]));
   for (const r of roles) {
     if (r !== 'paired' && r !== 'test-alone' && r !== 'conditioning-alone') {
-      throw new AnalysisError(`condition "${o.roleKey}" has value ${JSON.stringify(r)}; expected "paired", "test-alone" or "conditioning-alone"`);
+      throw new AnalysisError(
+        `condition "${o.roleKey}" has value ${JSON.stringify(r)}; expected "paired", "test-alone" or "conditioning-alone"`,
+      );
     }
   }
   if (!roles.has('paired') || !roles.has('test-alone')) {
@@ -215,21 +301,29 @@ export function pairedPulse(set: SweepSet, options: PairedPulseOptions = {}): Pa
       throw new AnalysisError(`sweep ${i}: paired sweep without a numeric "${o.intervalKey}" (ms)`);
     }
   }
-  const by = o.by ?? ['preparation', 'distanceMm', 'temperatureC', 'concentration'].filter((k) => set.conditions.some((c) => k in c));
+  const by =
+    o.by ??
+    ['preparation', 'distanceMm', 'temperatureC', 'concentration'].filter((k) => set.conditions.some((c) => k in c));
   const u = set.units;
   const groups = new Map<string, number[]>();
   for (let i = 0; i < set.nSweeps; i++) {
     const id = JSON.stringify(by.map((k) => set.conditions[i][k] ?? null));
     const g = groups.get(id);
-    if (g) g.push(i); else groups.set(id, [i]);
+    if (g) g.push(i);
+    else groups.set(id, [i]);
   }
-  const points: Row[] = [], summary: Row[] = [];
+  const points: Row[] = [],
+    summary: Row[] = [];
   const fits = new Map<string, FitResult>();
-  const latCol = o.latency, measCol = o.measure === 'area' ? `area_${u}_ms` : `amplitude_${u}`;
+  const latCol = o.latency,
+    measCol = o.measure === 'area' ? `area_${u}_ms` : `amplitude_${u}`;
   for (const [, idx] of groups) {
     const head: Row = Object.fromEntries(by.map((k) => [k, set.conditions[idx[0]][k] ?? null]));
-    const test = idx.filter((i) => role(i) === 'test-alone'), cond = idx.filter((i) => role(i) === 'conditioning-alone');
-    const isis = [...new Set(idx.filter((i) => role(i) === 'paired').map((i) => set.conditions[i][o.intervalKey] as number))].sort((a, b) => a - b);
+    const test = idx.filter((i) => role(i) === 'test-alone'),
+      cond = idx.filter((i) => role(i) === 'conditioning-alone');
+    const isis = [
+      ...new Set(idx.filter((i) => role(i) === 'paired').map((i) => set.conditions[i][o.intervalKey] as number)),
+    ].sort((a, b) => a - b);
     if (!test.length || !isis.length) {
       const why = !test.length ? 'no test-alone sweeps in this group' : 'no paired sweeps in this group';
       summary.push({ ...head, class: null, status: 'not measured', reason: why });
@@ -253,17 +347,33 @@ export function pairedPulse(set: SweepSet, options: PairedPulseOptions = {}): Pa
       const quiet = condMean ? d : pm;
       const zero = Math.min(l.y.length, Math.max(0, Math.round(-set.t0Ms / (1000 / set.fs))));
       for (let j = 0; j < zero; j++) l.y[j] = quiet[j];
-      traces.push(l.y); remainder.push(l.remainderMs); nSweeps.push(pi.length);
-      subtraction.push(condMean ? `conditioning-alone mean (${cond.length} sweeps)` : `extrapolated: ${(ref as { method: string }).method}`);
+      traces.push(l.y);
+      remainder.push(l.remainderMs);
+      nSweeps.push(pi.length);
+      subtraction.push(
+        condMean
+          ? `conditioning-alone mean (${cond.length} sweeps)`
+          : `extrapolated: ${(ref as { method: string }).method}`,
+      );
     }
     const base = set.conditions[test[0]];
     const data = new Float64Array(traces.length * set.nSamples);
     traces.forEach((t, k) => data.set(t, k * set.nSamples));
     const conds = traces.map((_, k) => ({
-      ...head, distanceMm: base.distanceMm ?? null, temperatureC: base.temperatureC ?? null, intervalMs: k ? isis[k - 1] : null,
+      ...head,
+      distanceMm: base.distanceMm ?? null,
+      temperatureC: base.temperatureC ?? null,
+      intervalMs: k ? isis[k - 1] : null,
     }));
     const locked = new SweepSet({
-      data, nSweeps: traces.length, nSamples: set.nSamples, fs: set.fs, t0Ms: set.t0Ms, units: u, conditions: conds, extras: set.extras,
+      data,
+      nSweeps: traces.length,
+      nSamples: set.nSamples,
+      fs: set.fs,
+      t0Ms: set.t0Ms,
+      units: u,
+      conditions: conds,
+      extras: set.extras,
     });
     // the test responses keep the test-alone response's polarity per class (unless given): chosen on the test-alone
     // average alone, so that differences at short intervals cannot flip it
@@ -272,7 +382,8 @@ export function pairedPulse(set: SweepSet, options: PairedPulseOptions = {}): Pa
     const { rows } = measureComponents(locked, { ...copt, polarity });
     const classes = [...new Set(rows.map((r) => r.class))];
     // spans of the classes' test-alone responses (= the conditioning responses), ms from their stimulus
-    const spans = rows.filter((r) => r.sweep === 0 && r.status === 'measured' && num(r.centroid_from_ms) && num(r.centroid_to_ms))
+    const spans = rows
+      .filter((r) => r.sweep === 0 && r.status === 'measured' && num(r.centroid_from_ms) && num(r.centroid_to_ms))
       .map((r) => ({ cls: r.class, from: r.centroid_from_ms as number, to: r.centroid_to_ms as number }));
     /** Without conditioning-alone sweeps: a class whose conditioning response still runs at the test pulse and overlaps the test window. */
     const overlap = (cls: string, isi: number): string | null => {
@@ -286,20 +397,27 @@ export function pairedPulse(set: SweepSet, options: PairedPulseOptions = {}): Pa
       const cr = rows.filter((r) => r.class === cls);
       const ref = cr.find((r) => r.sweep === 0)!;
       const refOk = ref.status === 'measured' && num(ref[latCol]) && num(ref[measCol]);
-      if (!(latCol in ref)) throw new OptionError(`invalid latency: ${JSON.stringify(latCol)} is not a column of the component table`);
+      if (!(latCol in ref))
+        throw new OptionError(`invalid latency: ${JSON.stringify(latCol)} is not a column of the component table`);
       const pts: Row[] = [];
       for (let k = 1; k < traces.length; k++) {
         const r0 = cr.find((q) => q.sweep === k)!;
         const ov = overlap(cls, isis[k - 1]);
-        const why = `the conditioning response of ${ov} still runs at the test pulse and overlaps this class's test window; `
-          + 'extrapolation cannot remove it (give conditioning-alone sweeps)';
+        const why =
+          `the conditioning response of ${ov} still runs at the test pulse and overlaps this class's test window; ` +
+          'extrapolation cannot remove it (give conditioning-alone sweeps)';
         const r = ov ? { ...r0, status: 'not measured', reason: why } : r0;
         const measured = r.status === 'measured';
         const lat = measured && num(r[latCol]) ? (r[latCol] as number) - remainder[k] : null;
         const ok = refOk && measured;
         const p: Row = {
-          ...head, class: cls, interval_ms: isis[k - 1], sweeps: nSweeps[k], conditioning_subtracted: subtraction[k],
-          detected: refOk && measured, [`amplitude_${u}`]: measured ? (r[`amplitude_${u}`] as number) : null,
+          ...head,
+          class: cls,
+          interval_ms: isis[k - 1],
+          sweeps: nSweeps[k],
+          conditioning_subtracted: subtraction[k],
+          detected: refOk && measured,
+          [`amplitude_${u}`]: measured ? (r[`amplitude_${u}`] as number) : null,
           [`area_${u}_ms`]: measured ? (r[`area_${u}_ms`] as number) : null,
           latency_ms: lat,
           amplitude_fraction: ok ? (r[`amplitude_${u}`] as number) / (ref[`amplitude_${u}`] as number) : null,
@@ -312,15 +430,24 @@ export function pairedPulse(set: SweepSet, options: PairedPulseOptions = {}): Pa
       }
       points.push(...pts);
       const row: Row = {
-        ...head, class: cls, intervals: isis.length, [`test_alone_amplitude_${u}`]: refOk ? ref[`amplitude_${u}`] : null,
-        [`test_alone_area_${u}_ms`]: refOk ? ref[`area_${u}_ms`] : null, test_alone_latency_ms: refOk ? ref[latCol] : null,
+        ...head,
+        class: cls,
+        intervals: isis.length,
+        [`test_alone_amplitude_${u}`]: refOk ? ref[`amplitude_${u}`] : null,
+        [`test_alone_area_${u}_ms`]: refOk ? ref[`area_${u}_ms`] : null,
+        test_alone_latency_ms: refOk ? ref[latCol] : null,
       };
       if (!refOk) {
-        summary.push({ ...row, status: 'not measured', reason: `test-alone response not measured (${ref.status}${ref.reason ? `: ${ref.reason}` : ''})` });
+        summary.push({
+          ...row,
+          status: 'not measured',
+          reason: `test-alone response not measured (${ref.status}${ref.reason ? `: ${ref.reason}` : ''})`,
+        });
         continue;
       }
       const notes: string[] = [];
-      if (!condMean) notes.push('conditioning response extrapolated from each paired sweep (no conditioning-alone sweeps)');
+      if (!condMean)
+        notes.push('conditioning response extrapolated from each paired sweep (no conditioning-alone sweeps)');
       // absolute refractory period: the longest interval without a response while every longer interval has one
       // (intervals whose test response could not be measured at all take no part)
       const usable = pts.filter((p) => p.status !== 'not measured');
@@ -336,30 +463,44 @@ export function pairedPulse(set: SweepSet, options: PairedPulseOptions = {}): Pa
         notes.push('no test response at the longest interval tested: the absolute refractory period is not bracketed');
       } else if (j === 0) {
         Object.assign(row, { arp_ms: null, arp_next_ms: uIsi[0] });
-        notes.push(`a test response at every usable interval: the absolute refractory period is shorter than ${uIsi[0]} ms`);
+        notes.push(
+          `a test response at every usable interval: the absolute refractory period is shorter than ${uIsi[0]} ms`,
+        );
       } else Object.assign(row, { arp_ms: uIsi[j - 1], arp_next_ms: uIsi[j] });
-      if (usable.length < pts.length) notes.push(`${pts.length - usable.length} interval(s) not measured (see the rows' reasons)`);
+      if (usable.length < pts.length)
+        notes.push(`${pts.length - usable.length} interval(s) not measured (see the rows' reasons)`);
       if (det.slice(0, j).some(Boolean)) {
-        notes.push('a response detected at a shorter interval than the refractory period found (isolated; counted in the fit)');
+        notes.push(
+          'a response detected at a shorter interval than the refractory period found (isolated; counted in the fit)',
+        );
       }
       // refractory slowing at the shortest interval with a response
       const first = pts.find((p) => num(p.latency_increase_ms));
       Object.assign(row, {
-        latency_increase_ms: first ? first.latency_increase_ms : null, latency_increase_interval_ms: first ? first.interval_ms : null,
+        latency_increase_ms: first ? first.latency_increase_ms : null,
+        latency_increase_interval_ms: first ? first.interval_ms : null,
       });
       // recovery curve fit
-      const fx: number[] = [], fy: number[] = [];
+      const fx: number[] = [],
+        fy: number[] = [];
       const fracCol = o.measure === 'area' ? 'area_fraction' : 'amplitude_fraction';
       // no response at or below the refractory period counts as 0 (not detected or not resolved there); elsewhere a
       // response that was not detected counts as 0 and one that was not resolved is left out
       const arpAt = num(row.arp_ms) ? (row.arp_ms as number) : -Infinity;
       for (const p of pts) {
         const x = p.interval_ms as number;
-        if (p.status === 'not detected' || (x <= arpAt && p.detected !== true)) { fx.push(x); fy.push(0); }
-        else if (num(p[fracCol])) { fx.push(x); fy.push(p[fracCol] as number); }
+        if (p.status === 'not detected' || (x <= arpAt && p.detected !== true)) {
+          fx.push(x);
+          fy.push(0);
+        } else if (num(p[fracCol])) {
+          fx.push(x);
+          fy.push(p[fracCol] as number);
+        }
       }
       if (fx.length < o.minIntervals) {
-        const st = notes.concat(`recovery curve not fitted: ${fx.length} usable intervals, need ${o.minIntervals}`).join('; ');
+        const st = notes
+          .concat(`recovery curve not fitted: ${fx.length} usable intervals, need ${o.minIntervals}`)
+          .join('; ');
         summary.push({ ...row, r50_ms: null, r90_ms: null, status: st, reason: 'too few intervals' });
         continue;
       }
@@ -369,18 +510,36 @@ export function pairedPulse(set: SweepSet, options: PairedPulseOptions = {}): Pa
       if (!within(fr.r50Ms) || !within(fr.r90Ms)) notes.push('R50 or R90 outside the intervals tested (extrapolated)');
       if (fr.status !== 'ok') notes.push(fr.status);
       summary.push({
-        ...row, recovery_measure: o.measure, r50_ms: fr.r50Ms, r50_ci95_low: fr.r50Ci[0], r50_ci95_high: fr.r50Ci[1],
-        r90_ms: fr.r90Ms, r90_ci95_low: fr.r90Ci[0], r90_ci95_high: fr.r90Ci[1], slope_log10: fr.slope,
-        status: notes.length ? notes.join('; ') : 'ok', reason: null,
+        ...row,
+        recovery_measure: o.measure,
+        r50_ms: fr.r50Ms,
+        r50_ci95_low: fr.r50Ci[0],
+        r50_ci95_high: fr.r50Ci[1],
+        r90_ms: fr.r90Ms,
+        r90_ci95_low: fr.r90Ci[0],
+        r90_ci95_high: fr.r90Ci[1],
+        slope_log10: fr.slope,
+        status: notes.length ? notes.join('; ') : 'ok',
+        reason: null,
       });
     }
   }
   const step: Step = {
-    verb: 'pairedPulse', version: VERSION,
+    verb: 'pairedPulse',
+    version: VERSION,
     options: {
-      by, roleKey: o.roleKey, intervalKey: o.intervalKey, latency: latCol, measure: o.measure, blankMs: o.blankMs, extrapolateMs: o.extrapolateMs,
-      minIntervals: o.minIntervals, components: o.components ?? {}, model: 'logistic in log10 interval, floor 0, top 1 (test alone)',
-      intervals: 'profile likelihood 95%', arp: 'longest interval with no detected test response, every longer interval detected',
+      by,
+      roleKey: o.roleKey,
+      intervalKey: o.intervalKey,
+      latency: latCol,
+      measure: o.measure,
+      blankMs: o.blankMs,
+      extrapolateMs: o.extrapolateMs,
+      minIntervals: o.minIntervals,
+      components: o.components ?? {},
+      model: 'logistic in log10 interval, floor 0, top 1 (test alone)',
+      intervals: 'profile likelihood 95%',
+      arp: 'longest interval with no detected test response, every longer interval detected',
     },
   };
   return new PairedPulseResult(points, summary, fits, [...set.history, step], set.sources, u);

@@ -20,7 +20,13 @@ type Row = Record<string, ConditionValue>;
 export const recruitmentDefaults = { supramaximalFactor: 1.3, thresholdFraction: 0.05, minLevels: 4 };
 
 export class RecruitmentResult extends Result {
-  constructor(readonly rows: Row[], readonly points: Row[], readonly fits: Map<string, FitResult>, readonly history: readonly Step[], readonly sources: readonly Source[] = []) {
+  constructor(
+    readonly rows: Row[],
+    readonly points: Row[],
+    readonly fits: Map<string, FitResult>,
+    readonly history: readonly Step[],
+    readonly sources: readonly Source[] = [],
+  ) {
     super();
   }
   tables(): Record<string, readonly object[]> {
@@ -33,7 +39,22 @@ export class RecruitmentResult extends Result {
     return tableHtml(this.rows, { caption: 'Recruitment per class (Boltzmann fit in log10 intensity)' });
   }
   toString(): string {
-    return 'RecruitmentResult\n' + tableText(this.rows, { columns: ['preparation', 'class', 'threshold', 'i50', 'i50_ci95_low', 'i50_ci95_high', 'maximum', 'supramaximal', 'status'] });
+    return (
+      'RecruitmentResult\n' +
+      tableText(this.rows, {
+        columns: [
+          'preparation',
+          'class',
+          'threshold',
+          'i50',
+          'i50_ci95_low',
+          'i50_ci95_high',
+          'maximum',
+          'supramaximal',
+          'status',
+        ],
+      })
+    );
   }
 }
 
@@ -56,27 +77,47 @@ export interface RecruitmentOptions {
  * class was not detected at intensities below its measured ones, the response there is below
  * detection and the floor of the fit is fixed at 0 (said in the status).
  */
-export function recruitment(rows: readonly Row[], units: string, options: RecruitmentOptions = {}, history: readonly Step[] = [], sources: readonly Source[] = []): RecruitmentResult {
+export function recruitment(
+  rows: readonly Row[],
+  units: string,
+  options: RecruitmentOptions = {},
+  history: readonly Step[] = [],
+  sources: readonly Source[] = [],
+): RecruitmentResult {
   const measure = options.measure ?? `amplitude_${units}`;
   // one curve per pulse width when the rows hold more than one
-  const by = options.by ?? ['preparation', 'distanceMm', 'temperatureC', 'concentration', 'pulseWidthMs'].filter((k) => (k === 'pulseWidthMs' ? new Set(rows.map((r) => r[k])).size > 1 : rows.some((r) => k in r)));
+  const by =
+    options.by ??
+    ['preparation', 'distanceMm', 'temperatureC', 'concentration', 'pulseWidthMs'].filter((k) =>
+      k === 'pulseWidthMs' ? new Set(rows.map((r) => r[k])).size > 1 : rows.some((r) => k in r),
+    );
   const factor = options.supramaximalFactor ?? recruitmentDefaults.supramaximalFactor;
   const minLevels = options.minLevels ?? recruitmentDefaults.minLevels;
-  if (!Number.isInteger(minLevels) || minLevels < 3) throw new OptionError(`invalid minLevels: ${minLevels}; must be an integer >= 3 (a sigmoid has 4 parameters)`);
+  if (!Number.isInteger(minLevels) || minLevels < 3)
+    throw new OptionError(`invalid minLevels: ${minLevels}; must be an integer >= 3 (a sigmoid has 4 parameters)`);
   const withI = rows.filter((r) => typeof r.intensity === 'number');
   if (!withI.length) throw new AnalysisError('recruitment needs rows with a numeric "intensity" condition');
-  const isMeasured = (r: Row) => r.detected !== false && (r.status === undefined || r.status === null || r.status === 'measured') && typeof r[measure] === 'number' && Number.isFinite(r[measure] as number);
+  const isMeasured = (r: Row) =>
+    r.detected !== false &&
+    (r.status === undefined || r.status === null || r.status === 'measured') &&
+    typeof r[measure] === 'number' &&
+    Number.isFinite(r[measure] as number);
   const groups = new Map<string, Row[]>();
   for (const r of withI) {
     const id = by.map((k) => r[k]).join('|') + '|' + r.class;
     const g = groups.get(id);
-    if (g) g.push(r); else groups.set(id, [r]);
+    if (g) g.push(r);
+    else groups.set(id, [r]);
   }
   const out: Row[] = [];
   const points: Row[] = [];
   const fits = new Map<string, FitResult>();
   for (const [id, g0] of groups) {
-    const head = { ...Object.fromEntries(by.map((k) => [k, g0[0][k] ?? null])), class: g0[0].class, intensityUnit: (g0[0].intensityUnit as string) ?? null };
+    const head = {
+      ...Object.fromEntries(by.map((k) => [k, g0[0][k] ?? null])),
+      class: g0[0].class,
+      intensityUnit: (g0[0].intensityUnit as string) ?? null,
+    };
     const nonpos = g0.filter((r) => !((r.intensity as number) > 0)).length;
     const pos = g0.filter((r) => (r.intensity as number) > 0);
     const g = pos.filter(isMeasured);
@@ -84,42 +125,108 @@ export function recruitment(rows: readonly Row[], units: string, options: Recrui
     const counts = { excluded_not_measured: notMeasured, excluded_nonpositive_intensity: nonpos };
     const notes: string[] = [];
     if (nonpos) notes.push(`${nonpos} sweep(s) with intensity <= 0 left out (no place on a log axis)`);
-    if (notMeasured) notes.push(`${notMeasured} of ${pos.length} sweep(s) not measured (not detected or not resolved), left out`);
+    if (notMeasured)
+      notes.push(`${notMeasured} of ${pos.length} sweep(s) not measured (not detected or not resolved), left out`);
     const levels = [...new Set(g.map((r) => r.intensity as number))];
     const allLevels = [...new Set(pos.map((r) => r.intensity as number))];
     if (levels.length < minLevels) {
-      out.push({ ...head, threshold: null, i50: null, maximum: null, levels: levels.length, ...counts, status: 'not detected', reason: `measured at ${levels.length} of ${allLevels.length} intensities; a curve needs ${minLevels}${notes.length ? ` (${notes.join('; ')})` : ''}` });
+      out.push({
+        ...head,
+        threshold: null,
+        i50: null,
+        maximum: null,
+        levels: levels.length,
+        ...counts,
+        status: 'not detected',
+        reason: `measured at ${levels.length} of ${allLevels.length} intensities; a curve needs ${minLevels}${notes.length ? ` (${notes.join('; ')})` : ''}`,
+      });
       continue;
     }
     const x = g.map((r) => Math.log10(r.intensity as number));
     const y = g.map((r) => r[measure] as number);
-    for (const r of g) points.push({ ...Object.fromEntries(by.map((k) => [k, r[k] ?? null])), class: r.class, intensity: r.intensity, response: r[measure] });
-    const ymax = Math.max(...y), ymin = Math.min(...y);
+    for (const r of g)
+      points.push({
+        ...Object.fromEntries(by.map((k) => [k, r[k] ?? null])),
+        class: r.class,
+        intensity: r.intensity,
+        response: r[measure],
+      });
+    const ymax = Math.max(...y),
+      ymin = Math.min(...y);
     // below detection at lower intensities: the floor is 0 (nothing fires there)
     const lowest = Math.min(...levels);
     const floorFixed = pos.some((r) => !isMeasured(r) && (r.intensity as number) < lowest);
     if (floorFixed) notes.push(`floor fixed at 0: not detected below ${lowest}`);
     // start x50 where the mean response first passes half range
     const sortedLv = [...levels].sort((a, b) => a - b);
-    const meanAt = (I: number) => { const v = g.filter((r) => r.intensity === I).map((r) => r[measure] as number); return v.reduce((a, b) => a + b, 0) / v.length; };
+    const meanAt = (I: number) => {
+      const v = g.filter((r) => r.intensity === I).map((r) => r[measure] as number);
+      return v.reduce((a, b) => a + b, 0) / v.length;
+    };
     const lo0 = floorFixed ? 0 : ymin;
     let x50 = Math.log10(sortedLv[Math.floor(sortedLv.length / 2)]);
-    for (const I of sortedLv) if (meanAt(I) >= lo0 + (ymax - lo0) / 2) { x50 = Math.log10(I); break; }
-    const f = fitCurve({ model: boltzmann, x, y, p0: [lo0, ymax, x50, 0.1], names: ['floor', 'maximum', 'log10_i50', 'slope'], fixed: [floorFixed, false, false, false], lower: [-Infinity, -Infinity, -Infinity, 0.005], upper: [Infinity, Infinity, Infinity, 5] });
+    for (const I of sortedLv)
+      if (meanAt(I) >= lo0 + (ymax - lo0) / 2) {
+        x50 = Math.log10(I);
+        break;
+      }
+    const f = fitCurve({
+      model: boltzmann,
+      x,
+      y,
+      p0: [lo0, ymax, x50, 0.1],
+      names: ['floor', 'maximum', 'log10_i50', 'slope'],
+      fixed: [floorFixed, false, false, false],
+      lower: [-Infinity, -Infinity, -Infinity, 0.005],
+      upper: [Infinity, Infinity, Infinity, 5],
+    });
     fits.set(id, f);
     const [lo, hi, xm, s] = f.params;
     const at = (frac: number) => Math.pow(10, xm + s * Math.log(frac / (1 - frac)));
     const i95 = at(0.95);
     const st = f.status.filter((q) => q !== 'ok');
-    if (i95 > Math.max(...levels)) st.push('95% of the maximum not reached at the highest intensity: the maximum is extrapolated');
+    if (i95 > Math.max(...levels))
+      st.push('95% of the maximum not reached at the highest intensity: the maximum is extrapolated');
     st.push(...notes);
     const ciOk = (k: number) => (f.ci[k] && Number.isFinite(f.ci[k][0]) && f.ci[k][1] > f.ci[k][0] ? f.ci[k] : null);
     out.push({
       ...head,
-      threshold: at(recruitmentDefaults.thresholdFraction), i50: Math.pow(10, xm), i50_ci95_low: ciOk(2) ? Math.pow(10, f.ci[2][0]) : null, i50_ci95_high: ciOk(2) ? Math.pow(10, f.ci[2][1]) : null,
-      maximum: hi, maximum_ci95_low: ciOk(1)?.[0] ?? null, maximum_ci95_high: ciOk(1)?.[1] ?? null, floor: lo, i95, supramaximal: factor * i95,
-      levels: levels.length, ...counts, status: st.length ? st.join('; ') : 'ok', reason: null,
+      threshold: at(recruitmentDefaults.thresholdFraction),
+      i50: Math.pow(10, xm),
+      i50_ci95_low: ciOk(2) ? Math.pow(10, f.ci[2][0]) : null,
+      i50_ci95_high: ciOk(2) ? Math.pow(10, f.ci[2][1]) : null,
+      maximum: hi,
+      maximum_ci95_low: ciOk(1)?.[0] ?? null,
+      maximum_ci95_high: ciOk(1)?.[1] ?? null,
+      floor: lo,
+      i95,
+      supramaximal: factor * i95,
+      levels: levels.length,
+      ...counts,
+      status: st.length ? st.join('; ') : 'ok',
+      reason: null,
     });
   }
-  return new RecruitmentResult(out, points, fits, [...history, { verb: 'recruitment', options: { measure, by, model: 'Boltzmann sigmoid in log10 intensity', supramaximalFactor: factor, thresholdFraction: recruitmentDefaults.thresholdFraction, minLevels, rows: 'measured rows only (not detected or not resolved left out and counted); floor fixed at 0 when not detected below the measured intensities' }, version: VERSION }], sources);
+  return new RecruitmentResult(
+    out,
+    points,
+    fits,
+    [
+      ...history,
+      {
+        verb: 'recruitment',
+        options: {
+          measure,
+          by,
+          model: 'Boltzmann sigmoid in log10 intensity',
+          supramaximalFactor: factor,
+          thresholdFraction: recruitmentDefaults.thresholdFraction,
+          minLevels,
+          rows: 'measured rows only (not detected or not resolved left out and counted); floor fixed at 0 when not detected below the measured intensities',
+        },
+        version: VERSION,
+      },
+    ],
+    sources,
+  );
 }

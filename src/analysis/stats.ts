@@ -5,7 +5,13 @@
 import * as ss from 'simple-statistics';
 import { tQuantile, tCdf, normCdf } from '../fit/dist';
 
-export interface Summary { n: number; mean: number; sd: number; sem: number; ci95: [number, number] }
+export interface Summary {
+  n: number;
+  mean: number;
+  sd: number;
+  sem: number;
+  ci95: [number, number];
+}
 
 /** Mean, SD (n - 1), SEM and a t-based 95% CI of the mean. */
 export function summarize(xs: readonly number[]): Summary {
@@ -19,13 +25,25 @@ export function summarize(xs: readonly number[]): Summary {
   return { n, mean, sd, sem, ci95: [mean - t * sem, mean + t * sem] };
 }
 
-export interface LinearFit { slope: number; intercept: number; seSlope: number; seIntercept: number; df: number; r2: number; residualSd: number; n: number }
+export interface LinearFit {
+  slope: number;
+  intercept: number;
+  seSlope: number;
+  seIntercept: number;
+  df: number;
+  r2: number;
+  residualSd: number;
+  n: number;
+}
 
 /** Ordinary least-squares line y = intercept + slope x with standard errors. */
 export function linearFit(x: readonly number[], y: readonly number[]): LinearFit {
   const n = x.length;
-  const mx = ss.mean(x as number[]), my = ss.mean(y as number[]);
-  let sxx = 0, sxy = 0, syy = 0;
+  const mx = ss.mean(x as number[]),
+    my = ss.mean(y as number[]);
+  let sxx = 0,
+    sxy = 0,
+    syy = 0;
   for (let i = 0; i < n; i++) {
     sxx += (x[i] - mx) ** 2;
     sxy += (x[i] - mx) * (y[i] - my);
@@ -38,7 +56,10 @@ export function linearFit(x: readonly number[], y: readonly number[]): LinearFit
   const df = n - 2;
   const s2 = df > 0 ? rss / df : NaN;
   return {
-    slope, intercept, df, n,
+    slope,
+    intercept,
+    df,
+    n,
     seSlope: Math.sqrt(s2 / sxx),
     seIntercept: Math.sqrt(s2 * (1 / n + (mx * mx) / sxx)),
     r2: syy > 0 ? 1 - rss / syy : 1,
@@ -66,7 +87,8 @@ export interface PairedComparison {
  * Biometrics Bulletin 1 (1945) 80-83; J. Cohen, Statistical Power Analysis, 2nd ed. 1988.
  */
 export function pairedCompare(before: readonly number[], after: readonly number[]): PairedComparison {
-  if (before.length !== after.length) throw new Error(`paired comparison needs equal lengths (${before.length} vs ${after.length})`);
+  if (before.length !== after.length)
+    throw new Error(`paired comparison needs equal lengths (${before.length} vs ${after.length})`);
   const d = after.map((a, i) => a - before[i]);
   const n = d.length;
   const s = summarize(d);
@@ -79,7 +101,7 @@ export function pairedCompare(before: readonly number[], after: readonly number[
   const order = nz.map((x, i) => [Math.abs(x), i] as [number, number]).sort((p, q) => p[0] - q[0]);
   const ranks = new Array(m).fill(0);
   let ties = false;
-  for (let i = 0; i < m; ) {
+  for (let i = 0; i < m;) {
     let j = i;
     while (j + 1 < m && order[j + 1][0] === order[i][0]) j++;
     if (j > i) ties = true;
@@ -95,7 +117,11 @@ export function pairedCompare(before: readonly number[], after: readonly number[
     dist[0] = 1;
     for (let r = 1; r <= m; r++) {
       const next = new Float64Array(max + 1);
-      for (let w = 0; w <= max; w++) if (dist[w]) { next[w] += dist[w]; if (w + r <= max) next[w + r] += dist[w]; }
+      for (let w = 0; w <= max; w++)
+        if (dist[w]) {
+          next[w] += dist[w];
+          if (w + r <= max) next[w + r] += dist[w];
+        }
       dist = next;
     }
     const total = Math.pow(2, m);

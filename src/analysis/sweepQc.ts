@@ -79,8 +79,20 @@ export const sweepQcDefaults = {
 };
 
 const OPTION_KEYS = [
-  'quietWindow', 'endWindow', 'artifactWindow', 'responseWindow', 'by', 'peerBy', 'maxNoiseRatio', 'minNoiseRatio',
-  'maxDriftRatio', 'maxArtifactRatio', 'railRun', 'outlierThreshold', 'outlierMinScale', 'minSweeps',
+  'quietWindow',
+  'endWindow',
+  'artifactWindow',
+  'responseWindow',
+  'by',
+  'peerBy',
+  'maxNoiseRatio',
+  'minNoiseRatio',
+  'maxDriftRatio',
+  'maxArtifactRatio',
+  'railRun',
+  'outlierThreshold',
+  'outlierMinScale',
+  'minSweeps',
 ];
 
 /** The flag codes a sweep can carry. */
@@ -106,10 +118,15 @@ function medianOf(v: Float64Array | number[]): number {
 export function detrendedMadNoise(x: ArrayLike<number>, a: number, b: number): number {
   const m = b - a + 1;
   const mid = (m - 1) / 2;
-  let sy = 0, sxy = 0, sxx = 0;
+  let sy = 0,
+    sxy = 0,
+    sxx = 0;
   for (let i = 0; i < m; i++) sy += x[a + i];
   const my = sy / m;
-  for (let i = 0; i < m; i++) { sxy += (i - mid) * (x[a + i] - my); sxx += (i - mid) ** 2; }
+  for (let i = 0; i < m; i++) {
+    sxy += (i - mid) * (x[a + i] - my);
+    sxx += (i - mid) ** 2;
+  }
   const slope = sxx > 0 ? sxy / sxx : 0;
   const r = new Float64Array(m);
   for (let i = 0; i < m; i++) r[i] = x[a + i] - my - slope * (i - mid);
@@ -155,8 +172,12 @@ export function railSamples(
   x: ArrayLike<number>,
   minRun: number,
 ): { high: number | null; low: number | null; clipped: number[] } {
-  let hi = -Infinity, lo = Infinity;
-  for (let i = 0; i < x.length; i++) { if (x[i] > hi) hi = x[i]; if (x[i] < lo) lo = x[i]; }
+  let hi = -Infinity,
+    lo = Infinity;
+  for (let i = 0; i < x.length; i++) {
+    if (x[i] > hi) hi = x[i];
+    if (x[i] < lo) lo = x[i];
+  }
   if (!(hi > lo)) return { high: null, low: null, clipped: [] };
   const clipped: number[] = [];
   const rail = (v: number) => {
@@ -165,7 +186,8 @@ export function railSamples(
     for (const [a, b] of runs) for (let i = a; i <= b; i++) clipped.push(i);
     return v;
   };
-  const high = rail(hi), low = rail(lo);
+  const high = rail(hi),
+    low = rail(lo);
   clipped.sort((p, q) => p - q);
   return { high, low, clipped };
 }
@@ -193,8 +215,8 @@ function indices(set: SweepSet, w: [number, number], name: string, min = 1): [nu
   if (b - a + 1 < min) {
     const span = `[${set.t0Ms}, ${set.timeAt(set.nSamples - 1)}] ms`;
     throw new OptionError(
-      `invalid ${name}: [${w[0]}, ${w[1]}] ms holds ${Math.max(0, b - a + 1)} samples (need at least ${min}); `
-        + `the sweep spans ${span}`,
+      `invalid ${name}: [${w[0]}, ${w[1]}] ms holds ${Math.max(0, b - a + 1)} samples (need at least ${min}); ` +
+        `the sweep spans ${span}`,
     );
   }
   return [a, b];
@@ -211,8 +233,8 @@ function resolve(set: SweepSet, o: SweepQcOptions): Resolved {
   const end = set.timeAt(set.nSamples - 1);
   if (!o.quietWindow && !(set.t0Ms < -sweepQcDefaults.quietStopMs)) {
     throw new OptionError(
-      `invalid quietWindow: the sweep starts at ${set.t0Ms} ms, so there is no pre-stimulus window; `
-        + 'give quietWindow: [from, to] in ms',
+      `invalid quietWindow: the sweep starts at ${set.t0Ms} ms, so there is no pre-stimulus window; ` +
+        'give quietWindow: [from, to] in ms',
     );
   }
   const quietWindow = windowMs('quietWindow', o.quietWindow ?? [set.t0Ms, -sweepQcDefaults.quietStopMs]);
@@ -233,21 +255,27 @@ function resolve(set: SweepSet, o: SweepQcOptions): Resolved {
     }
     return [...v];
   };
-  const peerBy = o.peerBy !== undefined
-    ? checkList('peerBy', o.peerBy)
-    : sweepQcDefaults.peerKeys.filter((k) => known.includes(k));
-  const by = o.by !== undefined
-    ? checkList('by', o.by)
-    : known.filter((k) => !sweepQcDefaults.perSweepKeys.includes(k));
-  type RatioKey = 'maxNoiseRatio' | 'minNoiseRatio' | 'maxDriftRatio' | 'maxArtifactRatio'
-    | 'outlierThreshold' | 'outlierMinScale';
+  const peerBy =
+    o.peerBy !== undefined ? checkList('peerBy', o.peerBy) : sweepQcDefaults.peerKeys.filter((k) => known.includes(k));
+  const by =
+    o.by !== undefined ? checkList('by', o.by) : known.filter((k) => !sweepQcDefaults.perSweepKeys.includes(k));
+  type RatioKey =
+    'maxNoiseRatio' | 'minNoiseRatio' | 'maxDriftRatio' | 'maxArtifactRatio' | 'outlierThreshold' | 'outlierMinScale';
   const ratio = (name: RatioKey) => positive(name, o[name] ?? sweepQcDefaults[name]);
   const r: Resolved = {
-    quietWindow, endWindow, artifactWindow, responseWindow, by, peerBy,
-    maxNoiseRatio: ratio('maxNoiseRatio'), minNoiseRatio: ratio('minNoiseRatio'), maxDriftRatio: ratio('maxDriftRatio'),
+    quietWindow,
+    endWindow,
+    artifactWindow,
+    responseWindow,
+    by,
+    peerBy,
+    maxNoiseRatio: ratio('maxNoiseRatio'),
+    minNoiseRatio: ratio('minNoiseRatio'),
+    maxDriftRatio: ratio('maxDriftRatio'),
     maxArtifactRatio: ratio('maxArtifactRatio'),
     railRun: integerIn('railRun', o.railRun ?? sweepQcDefaults.railRun, 2, 1e6),
-    outlierThreshold: ratio('outlierThreshold'), outlierMinScale: ratio('outlierMinScale'),
+    outlierThreshold: ratio('outlierThreshold'),
+    outlierMinScale: ratio('outlierMinScale'),
     minSweeps: integerIn('minSweeps', o.minSweeps ?? sweepQcDefaults.minSweeps, 3, 1e6),
   };
   if (!(r.maxNoiseRatio > 1)) throw new OptionError(`invalid maxNoiseRatio: ${r.maxNoiseRatio}; must be > 1`);
@@ -293,7 +321,12 @@ export class SweepQcResult extends Result {
     }
     return [...by].map(([p, rs]) => {
       const o: Row = { preparation: p || null, sweeps: rs.length, flagged: rs.filter((r) => r.flagged).length };
-      for (const f of QC_FLAGS) o[f] = rs.filter((r) => String(r.flags ?? '').split(',').includes(f)).length;
+      for (const f of QC_FLAGS)
+        o[f] = rs.filter((r) =>
+          String(r.flags ?? '')
+            .split(',')
+            .includes(f),
+        ).length;
       return o;
     });
   }
@@ -313,8 +346,9 @@ export class SweepQcResult extends Result {
 
   toHTML(): string {
     const n = this.flagged().length;
-    const caption = `Sweep quality control: ${n} of ${this.rows.length} sweeps flagged `
-      + `(noise, drift and artifact in ${this.units})`;
+    const caption =
+      `Sweep quality control: ${n} of ${this.rows.length} sweeps flagged ` +
+      `(noise, drift and artifact in ${this.units})`;
     return tableHtml(this.rows, { caption });
   }
 
@@ -347,7 +381,8 @@ export class SweepQcResult extends Result {
  */
 export function sweepQc(set: SweepSet, options: SweepQcOptions = {}): SweepQcResult {
   const o = resolve(set, options);
-  const n = set.nSamples, N = set.nSweeps;
+  const n = set.nSamples,
+    N = set.nSweeps;
   const data = set.data;
   const [qa, qb] = indices(set, o.quietWindow, 'quietWindow', 8);
   const [ea, eb] = indices(set, o.endWindow, 'endWindow', 1);
@@ -355,8 +390,16 @@ export function sweepQc(set: SweepSet, options: SweepQcOptions = {}): SweepQcRes
   const [ra, rb] = indices(set, o.responseWindow, 'responseWindow', 3);
   const u = set.units;
   interface S {
-    noise: number; hf: number; level: number; drift: number; quietChange: number;
-    clipped: number[]; high: number | null; low: number | null; constant: boolean; artifact: number;
+    noise: number;
+    hf: number;
+    level: number;
+    drift: number;
+    quietChange: number;
+    clipped: number[];
+    high: number | null;
+    low: number | null;
+    constant: boolean;
+    artifact: number;
   }
   const per: S[] = [];
   for (let s = 0; s < N; s++) {
@@ -366,10 +409,16 @@ export function sweepQc(set: SweepSet, options: SweepQcOptions = {}): SweepQcRes
     const level = medianOf(x.subarray(qa, qb + 1));
     const drift = medianOf(x.subarray(ea, eb + 1)) - level;
     // trend across the quiet window from the least-squares slope
-    const m = qb - qa + 1, mid = (m - 1) / 2;
-    let sy = 0, sxy = 0, sxx = 0;
+    const m = qb - qa + 1,
+      mid = (m - 1) / 2;
+    let sy = 0,
+      sxy = 0,
+      sxx = 0;
     for (let i = 0; i < m; i++) sy += x[qa + i];
-    for (let i = 0; i < m; i++) { sxy += (i - mid) * (x[qa + i] - sy / m); sxx += (i - mid) ** 2; }
+    for (let i = 0; i < m; i++) {
+      sxy += (i - mid) * (x[qa + i] - sy / m);
+      sxx += (i - mid) ** 2;
+    }
     const quietChange = sxx > 0 ? (sxy / sxx) * (m - 1) : 0;
     const rails = railSamples(x, o.railRun);
     let constant = true;
@@ -409,16 +458,20 @@ export function sweepQc(set: SweepSet, options: SweepQcOptions = {}): SweepQcRes
     ids.forEach((id, i) => (m.get(id) ?? m.set(id, []).get(id)!).push(i));
     return m;
   };
-  const peers = members(peerOf), conds = members(condOf);
-  const peerNoise = new Map([...peers].map(([id, ix]) => {
-    return [id, medianOf(ix.filter((i) => !per[i].constant).map((i) => per[i].noise))];
-  }));
+  const peers = members(peerOf),
+    conds = members(condOf);
+  const peerNoise = new Map(
+    [...peers].map(([id, ix]) => {
+      return [id, medianOf(ix.filter((i) => !per[i].constant).map((i) => per[i].noise))];
+    }),
+  );
   const condDrift = new Map([...conds].map(([id, ix]) => [id, medianOf(ix.map((i) => per[i].drift))]));
   const condArtifact = new Map([...conds].map(([id, ix]) => [id, medianOf(ix.map((i) => per[i].artifact))]));
   // outlier scores per condition, on sweeps less their straight baseline through the quiet-window level and the
   // end-window level (drift has its own rule; a response lasting into the end window gets the same line in every
   // sweep of the condition, so the comparison is unaffected)
-  const qMid = (qa + qb) / 2, eMid = (ea + eb) / 2;
+  const qMid = (qa + qb) / 2,
+    eMid = (ea + eb) / 2;
   const base = (s: number, i: number) => per[s].level + (eMid > qMid ? (per[s].drift * (i - qMid)) / (eMid - qMid) : 0);
   const score = new Float64Array(N).fill(NaN);
   const basis: (string | null)[] = new Array(N).fill(null);
@@ -438,7 +491,10 @@ export function sweepQc(set: SweepSet, options: SweepQcOptions = {}): SweepQcRes
       for (let k = 0; k < K; k++) {
         const v = data[ix[k] * n + ra + j] - base(ix[k], ra + j);
         let m = k - 1;
-        while (m >= 0 && col[m] > v) { col[m + 1] = col[m]; m--; }
+        while (m >= 0 && col[m] > v) {
+          col[m + 1] = col[m];
+          m--;
+        }
         col[m + 1] = v;
       }
       med[j] = K % 2 ? col[(K - 1) / 2] : 0.5 * (col[K / 2 - 1] + col[K / 2]);
@@ -459,7 +515,8 @@ export function sweepQc(set: SweepSet, options: SweepQcOptions = {}): SweepQcRes
       const scale = Math.max(mad, o.outlierMinScale * m);
       return d.map((v) => (scale > 0 ? (v - m) / scale : v > m ? Infinity : 0));
     };
-    const zr = z(rms), zp = z(peak);
+    const zr = z(rms),
+      zp = z(peak);
     ix.forEach((i, k) => {
       score[i] = Math.max(zr[k], zp[k]);
       basis[i] = zr[k] >= zp[k] ? 'rms' : 'peak';
@@ -473,7 +530,10 @@ export function sweepQc(set: SweepSet, options: SweepQcOptions = {}): SweepQcRes
     const reasons: string[] = [];
     const ref = peerNoise.get(peerOf[s])!;
     const nRatio = ref > 0 ? p.noise / ref : NaN;
-    const flag = (f: QcFlag, why: string) => { flags.push(f); reasons.push(`${f}: ${why}`); };
+    const flag = (f: QcFlag, why: string) => {
+      flags.push(f);
+      reasons.push(`${f}: ${why}`);
+    };
     const noiseIs = `noise ${fmt(p.noise)} ${u} is ${fmt(nRatio)} x its channel's median`;
     if (p.constant) flag('flat', `every sample equals ${fmt(data[s * n])} ${u}`);
     else if (p.noise === 0 || nRatio < o.minNoiseRatio) flag('flat', `${noiseIs} (below ${o.minNoiseRatio})`);
@@ -481,48 +541,73 @@ export function sweepQc(set: SweepSet, options: SweepQcOptions = {}): SweepQcRes
     const condN = conds.get(condOf[s])!.length;
     const excess = condN >= 2 ? p.drift - condDrift.get(condOf[s])! : p.drift;
     if (!p.constant && ref > 0) {
-      const dq = Math.abs(p.quietChange) / ref, de = Math.abs(excess) / ref;
+      const dq = Math.abs(p.quietChange) / ref,
+        de = Math.abs(excess) / ref;
       const limit = `x the channel's noise; limit ${o.maxDriftRatio}`;
       if (dq > o.maxDriftRatio || de > o.maxDriftRatio) {
-        const beyond = condN >= 2 ? 'beyond its condition\'s median ' : '';
-        flag('drift', dq >= de
-          ? `baseline moves ${fmt(p.quietChange)} ${u} across the quiet window (${fmt(dq)} ${limit})`
-          : `sweep end ${fmt(p.drift)} ${u} from the pre-stimulus level, `
-            + `${fmt(excess)} ${u} ${beyond}(${fmt(de)} ${limit})`);
+        const beyond = condN >= 2 ? "beyond its condition's median " : '';
+        flag(
+          'drift',
+          dq >= de
+            ? `baseline moves ${fmt(p.quietChange)} ${u} across the quiet window (${fmt(dq)} ${limit})`
+            : `sweep end ${fmt(p.drift)} ${u} from the pre-stimulus level, ` +
+                `${fmt(excess)} ${u} ${beyond}(${fmt(de)} ${limit})`,
+        );
       }
     }
     const t = (i: number) => set.timeAt(i);
     const outside = p.clipped.filter((i) => i < aa || i > ab);
     if (outside.length) {
-      const rails = [p.high, p.low].filter((v) => v !== null).map((v) => fmt(v as number)).join(', ');
+      const rails = [p.high, p.low]
+        .filter((v) => v !== null)
+        .map((v) => fmt(v as number))
+        .join(', ');
       const k = outside.length;
-      flag('saturated', `${k} sample${k === 1 ? '' : 's'} on the rail (${rails} ${u}) outside the artifact window, `
-        + `first at ${fmt(t(outside[0]))} ms`);
+      flag(
+        'saturated',
+        `${k} sample${k === 1 ? '' : 's'} on the rail (${rails} ${u}) outside the artifact window, ` +
+          `first at ${fmt(t(outside[0]))} ms`,
+      );
     }
     const artMed = condArtifact.get(condOf[s])!;
     const artRatio = condN >= o.minSweeps && artMed > 10 * ref ? p.artifact / artMed : null;
     if (artRatio !== null && (artRatio > o.maxArtifactRatio || artRatio < 1 / o.maxArtifactRatio)) {
-      flag('artifact', `${fmt(p.artifact)} ${u} is ${fmt(artRatio)} x its condition's median ${fmt(artMed)} ${u} `
-        + `(outside 1/${o.maxArtifactRatio} to ${o.maxArtifactRatio})`);
+      flag(
+        'artifact',
+        `${fmt(p.artifact)} ${u} is ${fmt(artRatio)} x its condition's median ${fmt(artMed)} ${u} ` +
+          `(outside 1/${o.maxArtifactRatio} to ${o.maxArtifactRatio})`,
+      );
     }
     if (score[s] > o.outlierThreshold) {
-      flag('outlier', `response deviates from its condition's median sweep with a MAD score of ${fmt(score[s])} `
-        + `(${basis[s]} deviation; threshold ${o.outlierThreshold})`);
+      flag(
+        'outlier',
+        `response deviates from its condition's median sweep with a MAD score of ${fmt(score[s])} ` +
+          `(${basis[s]} deviation; threshold ${o.outlierThreshold})`,
+      );
     }
     const row: Row = { sweep: s };
     if ('preparation' in c) row.preparation = c.preparation;
     row.condition = condKeys.map((k) => `${k}=${k in c ? c[k] : ''}`).join(', ');
     Object.assign(row, {
-      [`noise_${u}`]: p.constant ? 0 : p.noise, [`noise_hf_${u}`]: p.constant ? 0 : p.hf,
+      [`noise_${u}`]: p.constant ? 0 : p.noise,
+      [`noise_hf_${u}`]: p.constant ? 0 : p.hf,
       noise_ratio: Number.isFinite(nRatio) ? nRatio : null,
-      [`drift_${u}`]: p.drift, [`drift_excess_${u}`]: excess, [`quiet_change_${u}`]: p.quietChange,
+      [`drift_${u}`]: p.drift,
+      [`drift_excess_${u}`]: excess,
+      [`quiet_change_${u}`]: p.quietChange,
       clipped_fraction: p.constant ? null : p.clipped.length / n,
       clipped_outside_artifact: p.constant ? null : outside.length,
-      [`rail_high_${u}`]: p.high, [`rail_low_${u}`]: p.low,
-      [`artifact_${u}`]: p.artifact, artifact_ratio: artRatio,
-      outlier_score: Number.isNaN(score[s]) ? null : score[s], outlier_basis: basis[s], outlier_status: scoreStatus[s],
+      [`rail_high_${u}`]: p.high,
+      [`rail_low_${u}`]: p.low,
+      [`artifact_${u}`]: p.artifact,
+      artifact_ratio: artRatio,
+      outlier_score: Number.isNaN(score[s]) ? null : score[s],
+      outlier_basis: basis[s],
+      outlier_status: scoreStatus[s],
       condition_sweeps: condN,
-      flagged: flags.length > 0, flags: flags.join(','), reasons: reasons.join('; '),
+      flagged: flags.length > 0,
+      flags: flags.join(','),
+      reasons: reasons.join('; '),
     });
     rows.push(row);
   }
@@ -539,8 +624,10 @@ export function rejectFlagged(set: SweepSet, qc: SweepQcResult, options: { flags
   checkKeys('rejectFlagged options', options, ['flags']);
   if (!(qc instanceof SweepQcResult)) throw new OptionError('rejectFlagged needs the result of sweepQc(set)');
   if (!qc.matches(set)) {
-    throw new OptionError(`rejectFlagged: the QC table was computed on ${qc.nSweeps} sweeps with other conditions than `
-      + `this set of ${set.nSweeps} sweeps; run sweepQc on this set`);
+    throw new OptionError(
+      `rejectFlagged: the QC table was computed on ${qc.nSweeps} sweeps with other conditions than ` +
+        `this set of ${set.nSweeps} sweeps; run sweepQc on this set`,
+    );
   }
   const flags = options.flags ?? [...QC_FLAGS];
   for (const f of flags) {
@@ -551,15 +638,21 @@ export function rejectFlagged(set: SweepSet, qc: SweepQcResult, options: { flags
   const keep: number[] = [];
   const removed: Record<string, ConditionValue>[] = [];
   for (const r of qc.rows) {
-    const own = String(r.flags ?? '').split(',').filter((f) => f && flags.includes(f as QcFlag));
+    const own = String(r.flags ?? '')
+      .split(',')
+      .filter((f) => f && flags.includes(f as QcFlag));
     if (own.length) {
       const c = set.conditions[r.sweep as number];
       removed.push({
-        sweep: r.sweep, preparation: r.preparation ?? null, file: c.file ?? null, fileSweep: c.fileSweep ?? null,
-        condition: r.condition, flags: own.join(','), reasons: r.reasons,
+        sweep: r.sweep,
+        preparation: r.preparation ?? null,
+        file: c.file ?? null,
+        fileSweep: c.fileSweep ?? null,
+        condition: r.condition,
+        flags: own.join(','),
+        reasons: r.reasons,
       });
-    }
-    else keep.push(r.sweep as number);
+    } else keep.push(r.sweep as number);
   }
   const sub = set.select(keep);
   const options2 = { flags, removed, kept: keep.length, thresholds: { ...qc.options } };
@@ -572,33 +665,46 @@ export function rejectFlagged(set: SweepSet, qc: SweepQcResult, options: { flags
  * @example rejectedSweeps(rejectFlagged(set, sweepQc(set)))
  */
 export function rejectedSweeps(set: SweepSet): Row[] {
-  return set.history.filter((h) => h.verb === 'rejectFlagged')
+  return set.history
+    .filter((h) => h.verb === 'rejectFlagged')
     .flatMap((h) => (h.options.removed as Row[]).map((r) => ({ ...r })));
 }
 
 /** References of the QC methods text (for a methods reference list). */
 export const QC_REFERENCES = [
-  'Leys C, Ley C, Klein O, Bernard P, Licata L (2013) Detecting outliers: do not use standard deviation around the '
-    + 'mean, use absolute deviation around the median. J Exp Soc Psychol 49:764-766.',
+  'Leys C, Ley C, Klein O, Bernard P, Licata L (2013) Detecting outliers: do not use standard deviation around the ' +
+    'mean, use absolute deviation around the median. J Exp Soc Psychol 49:764-766.',
   'Rousseeuw PJ, Croux C (1993) Alternatives to the median absolute deviation. J Am Stat Assoc 88:1273-1283.',
 ];
 
-type QcThresholds = Pick<Resolved, 'quietWindow' | 'artifactWindow' | 'maxNoiseRatio' | 'minNoiseRatio'
-  | 'maxDriftRatio' | 'railRun' | 'maxArtifactRatio' | 'outlierThreshold' | 'minSweeps'>;
+type QcThresholds = Pick<
+  Resolved,
+  | 'quietWindow'
+  | 'artifactWindow'
+  | 'maxNoiseRatio'
+  | 'minNoiseRatio'
+  | 'maxDriftRatio'
+  | 'railRun'
+  | 'maxArtifactRatio'
+  | 'outlierThreshold'
+  | 'minSweeps'
+>;
 type Removed = readonly { preparation?: ConditionValue; flags?: ConditionValue }[];
 
 function qcSentence(o: QcThresholds): string {
   const w = (x: [number, number]) => `${x[0]} to ${x[1]} ms`;
-  return 'Before averaging or fitting, each sweep was checked for quality: noise as 1.4826 times the median absolute '
-    + `deviation of the quiet window (${w(o.quietWindow)}) about its linear trend (Rousseeuw & Croux 1993), flagged `
-    + `when above ${o.maxNoiseRatio} or below ${o.minNoiseRatio} times the median of its recording channel; baseline `
-    + 'drift (across the quiet window, and from it to the sweep end relative to the sweeps of the same condition) '
-    + `flagged above ${o.maxDriftRatio} times the noise; amplifier saturation as samples on the sweep's rails (at `
-    + `least ${o.railRun} identical extreme samples in a row), flagged outside the artifact window `
-    + `(${w(o.artifactWindow)}); artifact size flagged when more than ${o.maxArtifactRatio}-fold from its `
-    + "condition's median; and the response's deviation from the median sweep of its condition, flagged by the "
-    + `median absolute deviation rule at ${o.outlierThreshold} (Leys et al. 2013; conditions with at least `
-    + `${o.minSweeps} sweeps).`;
+  return (
+    'Before averaging or fitting, each sweep was checked for quality: noise as 1.4826 times the median absolute ' +
+    `deviation of the quiet window (${w(o.quietWindow)}) about its linear trend (Rousseeuw & Croux 1993), flagged ` +
+    `when above ${o.maxNoiseRatio} or below ${o.minNoiseRatio} times the median of its recording channel; baseline ` +
+    'drift (across the quiet window, and from it to the sweep end relative to the sweeps of the same condition) ' +
+    `flagged above ${o.maxDriftRatio} times the noise; amplifier saturation as samples on the sweep's rails (at ` +
+    `least ${o.railRun} identical extreme samples in a row), flagged outside the artifact window ` +
+    `(${w(o.artifactWindow)}); artifact size flagged when more than ${o.maxArtifactRatio}-fold from its ` +
+    "condition's median; and the response's deviation from the median sweep of its condition, flagged by the " +
+    `median absolute deviation rule at ${o.outlierThreshold} (Leys et al. 2013; conditions with at least ` +
+    `${o.minSweeps} sweeps).`
+  );
 }
 
 function exclusionSentence(removed: Removed, total: number): string {
@@ -607,11 +713,17 @@ function exclusionSentence(removed: Removed, total: number): string {
   for (const r of removed) {
     const p = String(r.preparation ?? 'the set');
     const m = byPrep.get(p) ?? byPrep.set(p, new Map()).get(p)!;
-    for (const f of String(r.flags ?? '').split(',').filter(Boolean)) m.set(f, (m.get(f) ?? 0) + 1);
+    for (const f of String(r.flags ?? '')
+      .split(',')
+      .filter(Boolean))
+      m.set(f, (m.get(f) ?? 0) + 1);
     m.set('', (m.get('') ?? 0) + 1);
   }
   const parts = [...byPrep].sort().map(([p, m]) => {
-    const why = [...m].filter(([f]) => f).map(([f, k]) => `${k} ${f}`).join(', ');
+    const why = [...m]
+      .filter(([f]) => f)
+      .map(([f, k]) => `${k} ${f}`)
+      .join(', ');
     return `${m.get('')} from ${p} (${why})`;
   });
   return ` ${removed.length} of ${total} sweeps were excluded: ${parts.join('; ')}.`;
@@ -636,8 +748,7 @@ export function qcStepMethods(step: Step): string {
   }
   if (step.verb !== 'rejectFlagged') return '';
   const o = step.options as { thresholds: QcThresholds; removed: Row[]; kept: number; flags: string[] };
-  const which = o.flags.length < QC_FLAGS.length
-    ? ` Sweeps were excluded for these flags only: ${o.flags.join(', ')}.`
-    : '';
+  const which =
+    o.flags.length < QC_FLAGS.length ? ` Sweeps were excluded for these flags only: ${o.flags.join(', ')}.` : '';
   return qcSentence(o.thresholds) + which + exclusionSentence(o.removed, o.kept + o.removed.length);
 }

@@ -49,16 +49,22 @@ export function subVelocities(v: Float64Array, k: number): number[] {
   const K = v.length;
   const lo = k > 0 ? Math.sqrt(v[k - 1] * v[k]) : (v[0] * v[0]) / Math.sqrt(v[0] * v[1]);
   const hi = k + 1 < K ? Math.sqrt(v[k] * v[k + 1]) : (v[K - 1] * v[K - 1]) / Math.sqrt(v[K - 2] * v[K - 1]);
-  const a = Math.log(lo), b = Math.log(hi);
+  const a = Math.log(lo),
+    b = Math.log(hi);
   return Array.from({ length: SUB }, (_, i) => Math.exp(a + ((i + 0.5) * (b - a)) / SUB));
 }
 
 /** A single-fibre potential sampled on nodes tau0 + j h (ms), cubic (Keys) between nodes, 0 outside. */
-export interface Sfp { tau0: number; h: number; g: Float64Array }
+export interface Sfp {
+  tau0: number;
+  h: number;
+  g: Float64Array;
+}
 
 /** Catmull-Rom (Keys, a = -1/2) weights of nodes j-1, j, j+1, j+2 at fraction f. */
 export function keysWeights(f: number, out: Float64Array): void {
-  const f2 = f * f, f3 = f2 * f;
+  const f2 = f * f,
+    f3 = f2 * f;
   out[0] = (-f3 + 2 * f2 - f) / 2;
   out[1] = (3 * f3 - 5 * f2 + 2) / 2;
   out[2] = (-3 * f3 + 4 * f2 + f) / 2;
@@ -74,26 +80,46 @@ export function sfpAt(s: Sfp, x: number): number {
   if (j < -2 || j > n) return 0;
   keysWeights(u - j, KW);
   let v = 0;
-  for (let a = 0; a < 4; a++) { const i = j - 1 + a; if (i >= 0 && i < n) v += KW[a] * s.g[i]; }
+  for (let a = 0; a < 4; a++) {
+    const i = j - 1 + a;
+    if (i >= 0 && i < n) v += KW[a] * s.g[i];
+  }
   return v;
 }
 
 /** Orthonormal basis (Gram-Schmidt, twice) of the weighted nuisance columns of one block. */
-export function nuisanceBasis(t: Float64Array, sigma: number, drift: number, artifactTauMs: readonly number[]): Float64Array[] {
+export function nuisanceBasis(
+  t: Float64Array,
+  sigma: number,
+  drift: number,
+  artifactTauMs: readonly number[],
+): Float64Array[] {
   const n = t.length;
-  let lo = Infinity, hi = -Infinity;
-  for (const x of t) { if (x < lo) lo = x; if (x > hi) hi = x; }
-  const mid = (lo + hi) / 2, half = Math.max((hi - lo) / 2, 1e-12);
+  let lo = Infinity,
+    hi = -Infinity;
+  for (const x of t) {
+    if (x < lo) lo = x;
+    if (x > hi) hi = x;
+  }
+  const mid = (lo + hi) / 2,
+    half = Math.max((hi - lo) / 2, 1e-12);
   const cols: Float64Array[] = [];
   for (let p = 0; p <= drift; p++) cols.push(Float64Array.from(t, (x) => ((x - mid) / half) ** p / sigma));
   for (const tau of artifactTauMs) cols.push(Float64Array.from(t, (x) => Math.exp(-Math.max(x, 0) / tau) / sigma));
   const Q: Float64Array[] = [];
   for (const c of cols) {
     const q = Float64Array.from(c);
-    for (let pass = 0; pass < 2; pass++) for (const e of Q) { let d = 0; for (let i = 0; i < n; i++) d += e[i] * q[i]; for (let i = 0; i < n; i++) q[i] -= d * e[i]; }
-    let s = 0; for (let i = 0; i < n; i++) s += q[i] * q[i];
+    for (let pass = 0; pass < 2; pass++)
+      for (const e of Q) {
+        let d = 0;
+        for (let i = 0; i < n; i++) d += e[i] * q[i];
+        for (let i = 0; i < n; i++) q[i] -= d * e[i];
+      }
+    let s = 0;
+    for (let i = 0; i < n; i++) s += q[i] * q[i];
     const norm = Math.sqrt(s);
-    let c2 = 0; for (let i = 0; i < n; i++) c2 += c[i] * c[i];
+    let c2 = 0;
+    for (let i = 0; i < n; i++) c2 += c[i] * c[i];
     if (!(norm > 1e-10 * Math.sqrt(c2))) continue;
     for (let i = 0; i < n; i++) q[i] /= norm;
     Q.push(q);
@@ -120,7 +146,11 @@ export function projectVector(x: Float64Array, off: number, n: number, Q: Float6
 }
 
 /** Weighted, nuisance-projected data vector b (rows of all blocks). */
-export function dataVector(blocks: readonly Block[], bases: Float64Array[][], ys?: readonly Float64Array[]): Float64Array {
+export function dataVector(
+  blocks: readonly Block[],
+  bases: Float64Array[][],
+  ys?: readonly Float64Array[],
+): Float64Array {
   const n = blocks.reduce((s, b) => s + b.t.length, 0);
   const b = new Float64Array(n);
   let off = 0;
@@ -134,7 +164,13 @@ export function dataVector(blocks: readonly Block[], bases: Float64Array[][], ys
 }
 
 /** Design matrix A (rows x K, row-major): weighted, nuisance-projected columns of the model for a given g. */
-export function designMatrix(blocks: readonly Block[], bases: Float64Array[][], m: Model, sfp: Sfp, project = true): Float64Array {
+export function designMatrix(
+  blocks: readonly Block[],
+  bases: Float64Array[][],
+  m: Model,
+  sfp: Sfp,
+  project = true,
+): Float64Array {
   const K = m.v.length;
   const n = blocks.reduce((s, b) => s + b.t.length, 0);
   const A = new Float64Array(n * K);
@@ -160,11 +196,18 @@ export function designMatrix(blocks: readonly Block[], bases: Float64Array[][], 
 }
 
 /** G = A'A (K x K) and c = A'b. */
-export function gram(A: Float64Array, n: number, K: number, b: Float64Array): { G: Float64Array; c: Float64Array; bb: number } {
-  const G = new Float64Array(K * K), c = new Float64Array(K);
+export function gram(
+  A: Float64Array,
+  n: number,
+  K: number,
+  b: Float64Array,
+): { G: Float64Array; c: Float64Array; bb: number } {
+  const G = new Float64Array(K * K),
+    c = new Float64Array(K);
   let bb = 0;
   for (let r = 0; r < n; r++) {
-    const o = r * K, br = b[r];
+    const o = r * K,
+      br = b[r];
     bb += br * br;
     for (let j = 0; j < K; j++) {
       const a = A[o + j];
@@ -179,7 +222,12 @@ export function gram(A: Float64Array, n: number, K: number, b: Float64Array): { 
 
 export function atb(A: Float64Array, n: number, K: number, b: Float64Array): Float64Array {
   const c = new Float64Array(K);
-  for (let r = 0; r < n; r++) { const br = b[r]; if (br === 0) continue; const o = r * K; for (let j = 0; j < K; j++) c[j] += A[o + j] * br; }
+  for (let r = 0; r < n; r++) {
+    const br = b[r];
+    if (br === 0) continue;
+    const o = r * K;
+    for (let j = 0; j < K; j++) c[j] += A[o + j] * br;
+  }
   return c;
 }
 
@@ -187,7 +235,8 @@ export function atb(A: Float64Array, n: number, K: number, b: Float64Array): Flo
 export function secondDifferencePenalty(K: number): Float64Array {
   const R = new Float64Array(K * K);
   for (let i = 0; i + 2 < K; i++) {
-    const idx = [i, i + 1, i + 2], coef = [1, -2, 1];
+    const idx = [i, i + 1, i + 2],
+      coef = [1, -2, 1];
     for (let a = 0; a < 3; a++) for (let b = 0; b < 3; b++) R[idx[a] * K + idx[b]] += coef[a] * coef[b];
   }
   return R;
@@ -200,20 +249,42 @@ export function cholSolve(M: Float64Array, n: number, B: Float64Array, nrhs: num
     for (let j = 0; j <= i; j++) {
       let s = M[i * n + j];
       for (let k = 0; k < j; k++) s -= L[i * n + k] * L[j * n + k];
-      if (i === j) { if (!(s > 0)) return null; L[i * n + i] = Math.sqrt(s); } else L[i * n + j] = s / L[j * n + j];
+      if (i === j) {
+        if (!(s > 0)) return null;
+        L[i * n + i] = Math.sqrt(s);
+      } else L[i * n + j] = s / L[j * n + j];
     }
   }
   const X = Float64Array.from(B);
   for (let c = 0; c < nrhs; c++) {
-    for (let i = 0; i < n; i++) { let s = X[i * nrhs + c]; for (let k = 0; k < i; k++) s -= L[i * n + k] * X[k * nrhs + c]; X[i * nrhs + c] = s / L[i * n + i]; }
-    for (let i = n - 1; i >= 0; i--) { let s = X[i * nrhs + c]; for (let k = i + 1; k < n; k++) s -= L[k * n + i] * X[k * nrhs + c]; X[i * nrhs + c] = s / L[i * n + i]; }
+    for (let i = 0; i < n; i++) {
+      let s = X[i * nrhs + c];
+      for (let k = 0; k < i; k++) s -= L[i * n + k] * X[k * nrhs + c];
+      X[i * nrhs + c] = s / L[i * n + i];
+    }
+    for (let i = n - 1; i >= 0; i--) {
+      let s = X[i * nrhs + c];
+      for (let k = i + 1; k < n; k++) s -= L[k * n + i] * X[k * nrhs + c];
+      X[i * nrhs + c] = s / L[i * n + i];
+    }
   }
   return X;
 }
 
-export interface WSolution { u: Float64Array; lambda: number; gcv: number; df: number; rss: number; curve: { lambda: number; gcv: number; df: number; rss: number }[] }
+export interface WSolution {
+  u: Float64Array;
+  lambda: number;
+  gcv: number;
+  df: number;
+  rss: number;
+  curve: { lambda: number; gcv: number; df: number; rss: number }[];
+}
 
-const trace = (G: Float64Array, K: number) => { let s = 0; for (let i = 0; i < K; i++) s += G[i * K + i]; return s; };
+const trace = (G: Float64Array, K: number) => {
+  let s = 0;
+  for (let i = 0; i < K; i++) s += G[i * K + i];
+  return s;
+};
 
 /**
  * Non-negative Tikhonov solution u = argmin ||A u - b||^2 + lambda ||D2 u||^2, u >= 0, for a
@@ -221,20 +292,38 @@ const trace = (G: Float64Array, K: number) => { let s = 0; for (let i = 0; i < K
  * set: df = tr[(G_FF + lambda R_FF)^-1 G_FF], the usual approximation for a constrained
  * solution (the active constraints held fixed).
  */
-export function solveU(G: Float64Array, c: Float64Array, bb: number, R: Float64Array, K: number, lambda: number, wantDf = true): { u: Float64Array; df: number; rss: number } {
+export function solveU(
+  G: Float64Array,
+  c: Float64Array,
+  bb: number,
+  R: Float64Array,
+  K: number,
+  lambda: number,
+  wantDf = true,
+): { u: Float64Array; df: number; rss: number } {
   const M = new Float64Array(K * K);
   for (let i = 0; i < K * K; i++) M[i] = G[i] + lambda * R[i];
   const r = nnlsGram(M, c, K, { maxIter: 20 * K });
   const u = r.x;
   let q = 0;
-  for (let i = 0; i < K; i++) { if (u[i] === 0) continue; let s = 0; for (let j = 0; j < K; j++) s += G[i * K + j] * u[j]; q += u[i] * s - 2 * c[i] * u[i]; }
+  for (let i = 0; i < K; i++) {
+    if (u[i] === 0) continue;
+    let s = 0;
+    for (let j = 0; j < K; j++) s += G[i * K + j] * u[j];
+    q += u[i] * s - 2 * c[i] * u[i];
+  }
   const rss = Math.max(0, bb + q);
   const F = r.positive;
   let df = wantDf ? 0 : NaN;
   if (wantDf && F.length) {
     const p = F.length;
-    const MF = new Float64Array(p * p), GF = new Float64Array(p * p);
-    for (let a = 0; a < p; a++) for (let b = 0; b < p; b++) { MF[a * p + b] = M[F[a] * K + F[b]]; GF[a * p + b] = G[F[a] * K + F[b]]; }
+    const MF = new Float64Array(p * p),
+      GF = new Float64Array(p * p);
+    for (let a = 0; a < p; a++)
+      for (let b = 0; b < p; b++) {
+        MF[a * p + b] = M[F[a] * K + F[b]];
+        GF[a * p + b] = G[F[a] * K + F[b]];
+      }
     const X = cholSolve(MF, p, GF, p);
     if (X) for (let a = 0; a < p; a++) df += X[a * p + a];
     else df = p;
@@ -247,7 +336,16 @@ export function solveU(G: Float64Array, c: Float64Array, bb: number, R: Float64A
  * GCV(lambda) = n RSS / (n - df - nNuisance)^2, minimised over a log grid of lambda
  * relative to tr(G)/tr(R) (`grid`, default 10^-8 ... 10^2 in half decades).
  */
-export function gcvSolve(G: Float64Array, c: Float64Array, bb: number, R: Float64Array, K: number, n: number, nNuisance: number, grid?: number[]): WSolution {
+export function gcvSolve(
+  G: Float64Array,
+  c: Float64Array,
+  bb: number,
+  R: Float64Array,
+  K: number,
+  n: number,
+  nNuisance: number,
+  grid?: number[],
+): WSolution {
   const scale = trace(G, K) / Math.max(trace(R, K), 1e-300);
   const rel = grid ?? Array.from({ length: 21 }, (_, i) => Math.pow(10, -8 + i / 2));
   let best: WSolution | null = null;
@@ -268,11 +366,22 @@ export function gcvSolve(G: Float64Array, c: Float64Array, bb: number, R: Float6
  * values of g (with a second-difference penalty of relative weight `smoothing` and the
  * nuisance projected out), then scaled to peak |g| = 1 (the scale moves into u).
  */
-export function sfpStep(blocks: readonly Block[], bases: Float64Array[][], m: Model, u: Float64Array, b: Float64Array, tau0: number, h: number, J: number, smoothing: number): { sfp: Sfp; scale: number } | null {
+export function sfpStep(
+  blocks: readonly Block[],
+  bases: Float64Array[][],
+  m: Model,
+  u: Float64Array,
+  b: Float64Array,
+  tau0: number,
+  h: number,
+  J: number,
+  smoothing: number,
+): { sfp: Sfp; scale: number } | null {
   const K = m.v.length;
   // G = (PB)'(PB) = B'B - sum over blocks and basis vectors e of (e'B)(e'B)', built from the
   // sparse rows of B (four nodes per velocity); c = (PB)'b = B'b because b is already projected.
-  const G = new Float64Array(J * J), c = new Float64Array(J);
+  const G = new Float64Array(J * J),
+    c = new Float64Array(J);
   const row = new Float64Array(J);
   const touched = new Int32Array(J);
   const mark = new Uint8Array(J);
@@ -284,13 +393,17 @@ export function sfpStep(blocks: readonly Block[], bases: Float64Array[][], m: Mo
     for (let r = 0; r < bl.t.length; r++) {
       let nt = 0;
       const add = (s: number, val: number) => {
-        const x = (s - tau0) / h, j = Math.floor(x);
+        const x = (s - tau0) / h,
+          j = Math.floor(x);
         if (j < -2 || j > J) return;
         keysWeights(x - j, kw);
         for (let a = 0; a < 4; a++) {
           const i = j - 1 + a;
           if (i < 0 || i >= J) continue;
-          if (!mark[i]) { mark[i] = 1; touched[nt++] = i; }
+          if (!mark[i]) {
+            mark[i] = 1;
+            touched[nt++] = i;
+          }
           row[i] += val * kw[a];
         }
       };
@@ -306,14 +419,22 @@ export function sfpStep(blocks: readonly Block[], bases: Float64Array[][], m: Mo
       }
       const br = b[off + r];
       for (let a = 0; a < nt; a++) {
-        const ja = touched[a], va = row[ja];
+        const ja = touched[a],
+          va = row[ja];
         c[ja] += va * br;
         for (let q = 0; q < nt; q++) G[ja * J + touched[q]] += va * row[touched[q]];
         for (let e = 0; e < Z.length; e++) Z[e][ja] += bases[i][e][r] * va;
       }
-      for (let a = 0; a < nt; a++) { row[touched[a]] = 0; mark[touched[a]] = 0; }
+      for (let a = 0; a < nt; a++) {
+        row[touched[a]] = 0;
+        mark[touched[a]] = 0;
+      }
     }
-    for (const z of Z) for (let j = 0; j < J; j++) { if (z[j] === 0) continue; for (let l = 0; l < J; l++) G[j * J + l] -= z[j] * z[l]; }
+    for (const z of Z)
+      for (let j = 0; j < J; j++) {
+        if (z[j] === 0) continue;
+        for (let l = 0; l < J; l++) G[j * J + l] -= z[j] * z[l];
+      }
     off += bl.t.length;
   });
   const R = secondDifferencePenalty(J);
@@ -334,7 +455,8 @@ export function sfpStep(blocks: readonly Block[], bases: Float64Array[][], m: Mo
 /** Linear interpolation of a sampled response at time x (0 before `startMs` and outside). */
 function sampleAt(f: NonNullable<Block['full']>, x: number): number {
   if (x < f.startMs) return 0;
-  const u = (x - f.t0Ms) / f.dtMs, j = Math.floor(u);
+  const u = (x - f.t0Ms) / f.dtMs,
+    j = Math.floor(u);
   if (j < 0 || j + 1 >= f.y.length) return 0;
   const a = u - j;
   return (1 - a) * f.y[j] + a * f.y[j + 1];
@@ -350,21 +472,30 @@ function sampleAt(f: NonNullable<Block['full']>, x: number): number {
  * second-difference penalty of weight `lambda` relative to the equation's scale.
  * Bipolar pairs generalise it: h_x becomes h_x - h_(x+e). Returns u normalised to sum 1.
  */
-export function twoDistanceSolve(blocks: readonly Block[], m: Model, lambda: number): { u: Float64Array; residual: number } {
+export function twoDistanceSolve(
+  blocks: readonly Block[],
+  m: Model,
+  lambda: number,
+): { u: Float64Array; residual: number } {
   const K = m.v.length;
   const subs = Array.from({ length: K }, (_, k) => subVelocities(m.v, k));
   const rowsList: Float64Array[] = [];
   for (let a = 0; a < blocks.length; a++) {
     for (let b = a + 1; b < blocks.length; b++) {
-      const A = blocks[a], Bk = blocks[b];
-      const fa = A.full!, fb = Bk.full!;
+      const A = blocks[a],
+        Bk = blocks[b];
+      const fa = A.full!,
+        fb = Bk.full!;
       for (let r = 0; r < Bk.t.length; r++) {
         const t = Bk.t[r];
         const row = new Float64Array(K);
         for (let k = 0; k < K; k++) {
           for (const vk of subs[k]) {
             let val = sampleAt(fb, t - A.distanceMm / vk) - sampleAt(fa, t - Bk.distanceMm / vk);
-            if (m.bipolarMm > 0) val -= sampleAt(fb, t - (A.distanceMm + m.bipolarMm) / vk) - sampleAt(fa, t - (Bk.distanceMm + m.bipolarMm) / vk);
+            if (m.bipolarMm > 0)
+              val -=
+                sampleAt(fb, t - (A.distanceMm + m.bipolarMm) / vk) -
+                sampleAt(fa, t - (Bk.distanceMm + m.bipolarMm) / vk);
             row[k] += val / SUB;
           }
         }
@@ -375,7 +506,10 @@ export function twoDistanceSolve(blocks: readonly Block[], m: Model, lambda: num
   const n = rowsList.length;
   const A = new Float64Array(n * K);
   let mx = 0;
-  rowsList.forEach((row, r) => { A.set(row, r * K); for (const x of row) if (Math.abs(x) > mx) mx = Math.abs(x); });
+  rowsList.forEach((row, r) => {
+    A.set(row, r * K);
+    for (const x of row) if (Math.abs(x) > mx) mx = Math.abs(x);
+  });
   if (mx > 0) for (let i = 0; i < A.length; i++) A[i] /= mx;
   const { G, c } = gram(A, n, K, new Float64Array(n));
   const scale = trace(G, K) / K;
@@ -385,10 +519,15 @@ export function twoDistanceSolve(blocks: readonly Block[], m: Model, lambda: num
   for (let k = 0; k < K; k++) c[k] += big * big;
   const r = nnlsGram(G, c, K, { maxIter: 20 * K });
   const u = r.x;
-  let s = 0; for (const x of u) s += x;
+  let s = 0;
+  for (const x of u) s += x;
   if (s > 0) for (let k = 0; k < K; k++) u[k] /= s;
   let res = 0;
-  for (let row = 0; row < n; row++) { let z = 0; for (let k = 0; k < K; k++) z += A[row * K + k] * u[k]; res += z * z; }
+  for (let row = 0; row < n; row++) {
+    let z = 0;
+    for (let k = 0; k < K; k++) z += A[row * K + k] * u[k];
+    res += z * z;
+  }
   return { u, residual: Math.sqrt(res / Math.max(n, 1)) };
 }
 

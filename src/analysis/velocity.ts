@@ -56,7 +56,11 @@ export interface VelocityRow {
   [k: string]: ConditionValue;
 }
 
-export interface LatencyDefinition { basis: LatencyBasis; column: string; definition: string }
+export interface LatencyDefinition {
+  basis: LatencyBasis;
+  column: string;
+  definition: string;
+}
 
 /** Fibres of no nerve conduct outside this range (m/s); common practice, no source. */
 export const FIBRE_RANGE_M_S: [number, number] = [0.02, 300];
@@ -74,20 +78,37 @@ const utilisationMargin = (basis: string) => (basis === 'onset' ? 2 : 1) * NEGAT
  * The latency definitions a component table holds, in the order onset, half-rise, peak, centroid.
  * Onset: `onset<N>_ms` (N% of the class's own peak) when present, else the older `onset_ms`.
  */
-export function latencyDefinitions(rows: readonly ComponentRow[], resolved?: ResolvedComponentOptions): LatencyDefinition[] {
+export function latencyDefinitions(
+  rows: readonly ComponentRow[],
+  resolved?: ResolvedComponentOptions,
+): LatencyDefinition[] {
   const cols = new Set<string>();
   for (const r of rows.slice(0, 50)) for (const k of Object.keys(r)) cols.add(k);
   const out: LatencyDefinition[] = [];
   const onsetN = [...cols].map((c) => /^onset(\d+)_ms$/.exec(c)).find((m) => m !== null);
-  if (onsetN) out.push({ basis: 'onset', column: onsetN[0], definition: `onset at ${Number(onsetN[1])}% of the class's own peak` });
-  else if (cols.has('onset_ms')) out.push({ basis: 'onset', column: 'onset_ms', definition: 'onset (crossing of k x noise; depends on the noise level)' });
-  if (cols.has('halfrise_ms')) out.push({ basis: 'halfrise', column: 'halfrise_ms', definition: "half-rise (50% of the class's own peak)" });
+  if (onsetN)
+    out.push({
+      basis: 'onset',
+      column: onsetN[0],
+      definition: `onset at ${Number(onsetN[1])}% of the class's own peak`,
+    });
+  else if (cols.has('onset_ms'))
+    out.push({
+      basis: 'onset',
+      column: 'onset_ms',
+      definition: 'onset (crossing of k x noise; depends on the noise level)',
+    });
+  if (cols.has('halfrise_ms'))
+    out.push({ basis: 'halfrise', column: 'halfrise_ms', definition: "half-rise (50% of the class's own peak)" });
   if (cols.has('peak_ms')) out.push({ basis: 'peak', column: 'peak_ms', definition: 'peak (parabolic sub-sample)' });
   if (cols.has('centroid_ms')) {
     const f = (resolved as unknown as { centroidFraction?: number } | undefined)?.centroidFraction;
     out.push({
-      basis: 'centroid', column: 'centroid_ms',
-      definition: cols.has('centroid_from_ms') ? `centroid (centre of mass where the component exceeds ${Math.round(100 * (f ?? 0.1))}% of its own peak)` : 'centroid (centre of mass between onset and offset)',
+      basis: 'centroid',
+      column: 'centroid_ms',
+      definition: cols.has('centroid_from_ms')
+        ? `centroid (centre of mass where the component exceeds ${Math.round(100 * (f ?? 0.1))}% of its own peak)`
+        : 'centroid (centre of mass between onset and offset)',
     });
   }
   return out;
@@ -102,7 +123,8 @@ function pick(r: Record<string, ConditionValue>, keys: string[]): Record<string,
 }
 
 /** a row was measured (detected, and resolved when the table says so) */
-export const measured = (r: ComponentRow): boolean => r.detected === true && (r.status === undefined || r.status === null || r.status === 'measured');
+export const measured = (r: ComponentRow): boolean =>
+  r.detected === true && (r.status === undefined || r.status === null || r.status === 'measured');
 
 /** Why rows were not measured, in words: their statuses (and the commonest reason) with counts. */
 function whyNot(rows: readonly ComponentRow[]): string {
@@ -113,7 +135,10 @@ function whyNot(rows: readonly ComponentRow[]): string {
     const k = String(r.status ?? (r.detected ? 'measured' : 'not detected')) + (r.reason ? `: ${r.reason}` : '');
     by.set(k, (by.get(k) ?? 0) + 1);
   }
-  const top = [...by].sort((a, b) => b[1] - a[1]).slice(0, 2).map(([k, n]) => `${n} x ${k}`);
+  const top = [...by]
+    .sort((a, b) => b[1] - a[1])
+    .slice(0, 2)
+    .map(([k, n]) => `${n} x ${k}`);
   return ` (${top.join('; ')}${by.size > 2 ? '; ...' : ''})`;
 }
 
@@ -122,42 +147,73 @@ function groupRows(rows: readonly ComponentRow[], id: (r: ComponentRow) => strin
   for (const r of rows) {
     const k = id(r);
     const g = groups.get(k);
-    if (g) g.push(r); else groups.set(k, [r]);
+    if (g) g.push(r);
+    else groups.set(k, [r]);
   }
   return groups;
 }
 
 /** The class's velocity range at the group's temperature, or null when the class is unknown. */
-function classRange(resolved: ResolvedComponentOptions | undefined, cls: string, r0: ComponentRow): [number, number] | null {
+function classRange(
+  resolved: ResolvedComponentOptions | undefined,
+  cls: string,
+  r0: ComponentRow,
+): [number, number] | null {
   const c = resolved?.classes.find((k) => k.name === cls);
   if (!c || !resolved) return null;
-  const T = typeof r0.temperature_C === 'number' ? r0.temperature_C : typeof r0.temperatureC === 'number' ? r0.temperatureC : undefined;
+  const T =
+    typeof r0.temperature_C === 'number'
+      ? r0.temperature_C
+      : typeof r0.temperatureC === 'number'
+        ? r0.temperatureC
+        : undefined;
   return scaledRange(c, resolved.preset, T, resolved.q10);
 }
 
 const fmt = (v: number) => (Math.abs(v) >= 100 ? v.toFixed(0) : v.toPrecision(3));
 
 /** Judge a velocity: rejected outside every fibre's range, kept but flagged outside its class's range. */
-function judge(v: number, range: [number, number] | null, cls: string): { status: VelocityStatus; reason: string | null } {
+function judge(
+  v: number,
+  range: [number, number] | null,
+  cls: string,
+): { status: VelocityStatus; reason: string | null } {
   if (!Number.isFinite(v) || v < FIBRE_RANGE_M_S[0] || v > FIBRE_RANGE_M_S[1]) {
-    return { status: 'implausible', reason: `${Number.isFinite(v) ? fmt(v) : String(v)} m/s is outside any nerve fibre's range (${FIBRE_RANGE_M_S[0]}-${FIBRE_RANGE_M_S[1]} m/s); check the distance unit (mm expected), the time axis (ms) and which recording is which` };
+    return {
+      status: 'implausible',
+      reason: `${Number.isFinite(v) ? fmt(v) : String(v)} m/s is outside any nerve fibre's range (${FIBRE_RANGE_M_S[0]}-${FIBRE_RANGE_M_S[1]} m/s); check the distance unit (mm expected), the time axis (ms) and which recording is which`,
+    };
   }
   if (range && (v < range[0] || v > range[1])) {
-    return { status: 'outside class range', reason: `${fmt(v)} m/s is outside the ${cls} range at this temperature (${fmt(range[0])}-${fmt(range[1])} m/s): the wave may belong to another class, or the class preset may not fit this nerve` };
+    return {
+      status: 'outside class range',
+      reason: `${fmt(v)} m/s is outside the ${cls} range at this temperature (${fmt(range[0])}-${fmt(range[1])} m/s): the wave may belong to another class, or the class preset may not fit this nerve`,
+    };
   }
   return { status: 'ok', reason: null };
 }
 
 /** A rejected row keeps its computed value aside; its velocity and interval are left empty. */
 function finish(row: VelocityRow, v: number): VelocityRow {
-  if (row.status === 'implausible') return { ...row, velocity_m_s: null, ci95_low_m_s: null, ci95_high_m_s: null, rejected_velocity_m_s: Number.isFinite(v) ? v : null };
+  if (row.status === 'implausible')
+    return {
+      ...row,
+      velocity_m_s: null,
+      ci95_low_m_s: null,
+      ci95_high_m_s: null,
+      rejected_velocity_m_s: Number.isFinite(v) ? v : null,
+    };
   return row;
 }
 
 const num = (v: number): number | null => (Number.isFinite(v) ? v : null);
 
 /** Single-site velocities summarised per group, distance, class and latency definition. */
-export function singleSiteVelocity(rows: readonly ComponentRow[], by: string[], resolved?: ResolvedComponentOptions): VelocityRow[] {
+export function singleSiteVelocity(
+  rows: readonly ComponentRow[],
+  by: string[],
+  resolved?: ResolvedComponentOptions,
+): VelocityRow[] {
   const defs = latencyDefinitions(rows, resolved);
   const groups = groupRows(rows, (r) => `${key(r, by)}|${r.distance_mm ?? r.distanceMm}|${r.class}`);
   const out: VelocityRow[] = [];
@@ -167,17 +223,53 @@ export function singleSiteVelocity(rows: readonly ComponentRow[], by: string[], 
     const cls = String(r0.class);
     const ok = g.filter(measured);
     for (const d of defs) {
-      const base = { method: 'single-site' as const, basis: d.basis, definition: d.definition, latency_column: d.column, class: cls, group: key(r0, by), ...pick(r0, by), distance_mm: (r0.distance_mm ?? r0.distanceMm ?? null) as number | null };
-      const vals = ok.map((r) => r[d.column]).filter((t): t is number => typeof t === 'number').map((t) => (base.distance_mm as number) / (t - util));
+      const base = {
+        method: 'single-site' as const,
+        basis: d.basis,
+        definition: d.definition,
+        latency_column: d.column,
+        class: cls,
+        group: key(r0, by),
+        ...pick(r0, by),
+        distance_mm: (r0.distance_mm ?? r0.distanceMm ?? null) as number | null,
+      };
+      const vals = ok
+        .map((r) => r[d.column])
+        .filter((t): t is number => typeof t === 'number')
+        .map((t) => (base.distance_mm as number) / (t - util));
       if (!vals.length) {
-        out.push({ ...base, velocity_m_s: null, ci95_low_m_s: null, ci95_high_m_s: null, sd_m_s: null, n: 0, status: 'not detected', reason: `${cls} not measured in any of ${g.length} sweeps${whyNot(g)}` });
+        out.push({
+          ...base,
+          velocity_m_s: null,
+          ci95_low_m_s: null,
+          ci95_high_m_s: null,
+          sd_m_s: null,
+          n: 0,
+          status: 'not detected',
+          reason: `${cls} not measured in any of ${g.length} sweeps${whyNot(g)}`,
+        });
         continue;
       }
       const s = summarize(vals);
       // a single-site velocity includes the utilisation time and the waveform's rise, so it sits
       // below the conduction velocity: only the fibre range is checked, not the class's own range
       const j = judge(s.mean, null, cls);
-      out.push(finish({ ...base, velocity_m_s: s.mean, ci95_low_m_s: num(s.ci95[0]), ci95_high_m_s: num(s.ci95[1]), sd_m_s: num(s.sd), n: s.n, excluded_not_measured: g.length - ok.length, status: j.status, reason: j.reason }, s.mean));
+      out.push(
+        finish(
+          {
+            ...base,
+            velocity_m_s: s.mean,
+            ci95_low_m_s: num(s.ci95[0]),
+            ci95_high_m_s: num(s.ci95[1]),
+            sd_m_s: num(s.sd),
+            n: s.n,
+            excluded_not_measured: g.length - ok.length,
+            status: j.status,
+            reason: j.reason,
+          },
+          s.mean,
+        ),
+      );
     }
   }
   return out;
@@ -193,7 +285,11 @@ function utilisationProblem(intercept: number, ciHigh: number, nearLatency: numb
 }
 
 /** Velocity from the regression of latency on distance, per group, class and latency definition. */
-export function regressionVelocity(rows: readonly ComponentRow[], by: string[], resolved?: ResolvedComponentOptions): VelocityRow[] {
+export function regressionVelocity(
+  rows: readonly ComponentRow[],
+  by: string[],
+  resolved?: ResolvedComponentOptions,
+): VelocityRow[] {
   const defs = latencyDefinitions(rows, resolved);
   const groups = groupRows(rows, (r) => `${key(r, by)}|${r.class}`);
   const out: VelocityRow[] = [];
@@ -205,11 +301,28 @@ export function regressionVelocity(rows: readonly ComponentRow[], by: string[], 
     const range = classRange(resolved, cls, r0);
     const okRows = g.filter(measured);
     for (const d of defs) {
-      const base = { method: 'regression' as const, basis: d.basis, definition: d.definition, latency_column: d.column, class: cls, group: key(r0, by), ...pick(r0, by), distances: dists.size };
+      const base = {
+        method: 'regression' as const,
+        basis: d.basis,
+        definition: d.definition,
+        latency_column: d.column,
+        class: cls,
+        group: key(r0, by),
+        ...pick(r0, by),
+        distances: dists.size,
+      };
       const ok = okRows.filter((r) => typeof r[d.column] === 'number');
       const okDists = new Set(ok.map((r) => r.distance_mm as number));
       if (okDists.size < 2) {
-        out.push({ ...base, velocity_m_s: null, ci95_low_m_s: null, ci95_high_m_s: null, n: ok.length, status: 'not detected', reason: `${cls} measured at ${okDists.size} of ${dists.size} distances (${ok.length} of ${g.length} sweeps); a regression needs two${whyNot(g)}` });
+        out.push({
+          ...base,
+          velocity_m_s: null,
+          ci95_low_m_s: null,
+          ci95_high_m_s: null,
+          n: ok.length,
+          status: 'not detected',
+          reason: `${cls} measured at ${okDists.size} of ${dists.size} distances (${ok.length} of ${g.length} sweeps); a regression needs two${whyNot(g)}`,
+        });
         continue;
       }
       const x = ok.map((r) => r.distance_mm as number);
@@ -222,17 +335,34 @@ export function regressionVelocity(rows: readonly ComponentRow[], by: string[], 
       const nearLat = summarize(ok.filter((r) => r.distance_mm === nearest).map((r) => r[d.column] as number)).mean;
       const uHigh = f.intercept + t * f.seIntercept;
       let j: { status: VelocityStatus; reason: string | null };
-      if (!(f.slope > 0)) j = { status: 'implausible', reason: `${d.definition} latency does not increase with distance (slope ${f.slope.toPrecision(3)} ms/mm); check that distances are conduction distances from the stimulating electrode` };
+      if (!(f.slope > 0))
+        j = {
+          status: 'implausible',
+          reason: `${d.definition} latency does not increase with distance (slope ${f.slope.toPrecision(3)} ms/mm); check that distances are conduction distances from the stimulating electrode`,
+        };
       else {
         const u = utilisationProblem(f.intercept, uHigh, nearLat, d.basis);
         j = u ? { status: 'implausible', reason: u } : judge(v, range, cls);
       }
-      out.push(finish({
-        ...base, velocity_m_s: v, ci95_low_m_s: num(1 / (f.slope + t * f.seSlope)), ci95_high_m_s: Number.isFinite(hiSlope) ? (hiSlope > 0 ? 1 / hiSlope : Infinity) : null,
-        n: ok.length, excluded_not_measured: g.length - okRows.length, r2: num(f.r2),
-        utilisation_ms: f.intercept, utilisation_ci95_low_ms: num(f.intercept - t * f.seIntercept), utilisation_ci95_high_ms: num(uHigh),
-        status: j.status, reason: j.reason,
-      }, v));
+      out.push(
+        finish(
+          {
+            ...base,
+            velocity_m_s: v,
+            ci95_low_m_s: num(1 / (f.slope + t * f.seSlope)),
+            ci95_high_m_s: Number.isFinite(hiSlope) ? (hiSlope > 0 ? 1 / hiSlope : Infinity) : null,
+            n: ok.length,
+            excluded_not_measured: g.length - okRows.length,
+            r2: num(f.r2),
+            utilisation_ms: f.intercept,
+            utilisation_ci95_low_ms: num(f.intercept - t * f.seIntercept),
+            utilisation_ci95_high_ms: num(uHigh),
+            status: j.status,
+            reason: j.reason,
+          },
+          v,
+        ),
+      );
     }
   }
   return out;
@@ -258,11 +388,15 @@ function pairKeys(near: Record<string, ConditionValue>[], far: Record<string, Co
  * the k-th sweep at one site goes with the k-th at the other.
  */
 function pairRows(set: SweepSet, near: ComponentRow[], far: ComponentRow[]): [ComponentRow, ComponentRow][] {
-  const cn = near.map((r) => set.conditions[r.sweep] ?? {}), cf = far.map((r) => set.conditions[r.sweep] ?? {});
+  const cn = near.map((r) => set.conditions[r.sweep] ?? {}),
+    cf = far.map((r) => set.conditions[r.sweep] ?? {});
   const ks = pairKeys(cn, cf);
   const id = (c: Record<string, ConditionValue>) => JSON.stringify(ks.map((k) => c[k] ?? null));
   const byId = new Map<string, ComponentRow[]>();
-  far.forEach((r, i) => { const k = id(cf[i]); (byId.get(k) ?? byId.set(k, []).get(k)!).push(r); });
+  far.forEach((r, i) => {
+    const k = id(cf[i]);
+    (byId.get(k) ?? byId.set(k, []).get(k)!).push(r);
+  });
   const pairs: [ComponentRow, ComponentRow][] = [];
   near.forEach((r, i) => {
     const q = byId.get(id(cn[i]));
@@ -281,7 +415,13 @@ function pairRows(set: SweepSet, near: ComponentRow[], far: ComponentRow[]): [Co
  * cross-correlation of the class component. Pairs with a delay that cannot be right are left out
  * and counted (`excluded_pairs`, `excluded_reason`).
  */
-export function twoSiteVelocity(set: SweepSet, rows: readonly ComponentRow[], measures: ResponseMeasure[][], resolved: ResolvedComponentOptions, by: string[]): VelocityRow[] {
+export function twoSiteVelocity(
+  set: SweepSet,
+  rows: readonly ComponentRow[],
+  measures: ResponseMeasure[][],
+  resolved: ResolvedComponentOptions,
+  by: string[],
+): VelocityRow[] {
   const defs = latencyDefinitions(rows, resolved);
   const out: VelocityRow[] = [];
   const groups = groupRows(rows, (r) => `${key(r, by)}|${r.class}`);
@@ -300,14 +440,25 @@ export function twoSiteVelocity(set: SweepSet, rows: readonly ComponentRow[], me
     if (dists.length > 2) sitePairs.push([dists[0], dists[dists.length - 1]]);
     for (const [d1, d2] of sitePairs) {
       const dL = d2 - d1;
-      const pairs = pairRows(set, g.filter((r) => (r.distance_mm ?? r.distanceMm) === d1), g.filter((r) => (r.distance_mm ?? r.distanceMm) === d2));
+      const pairs = pairRows(
+        set,
+        g.filter((r) => (r.distance_mm ?? r.distanceMm) === d1),
+        g.filter((r) => (r.distance_mm ?? r.distanceMm) === d2),
+      );
       const both = pairs.filter(([a, b]) => measured(a) && measured(b));
       const bases = [...defs.map((d) => d.basis), 'xcorr' as const];
       for (const basis of bases) {
         const d = defs.find((q) => q.basis === basis);
         const base = {
-          method: 'two-site' as const, basis, definition: d ? d.definition : 'cross-correlation of the class component (parabolic sub-sample refinement)',
-          latency_column: d ? d.column : null, class: cls, group: key(r0, by), ...pick(r0, by), near_mm: d1, far_mm: d2,
+          method: 'two-site' as const,
+          basis,
+          definition: d ? d.definition : 'cross-correlation of the class component (parabolic sub-sample refinement)',
+          latency_column: d ? d.column : null,
+          class: cls,
+          group: key(r0, by),
+          ...pick(r0, by),
+          near_mm: d1,
+          far_mm: d2,
         };
         const delays: number[] = [];
         const nearLat: number[] = [];
@@ -316,7 +467,8 @@ export function twoSiteVelocity(set: SweepSet, rows: readonly ComponentRow[], me
         for (const [a, b] of both) {
           let delay: number;
           if (basis === 'xcorr') {
-            const ma = measures[a.sweep]?.[ix], mb = measures[b.sweep]?.[ix];
+            const ma = measures[a.sweep]?.[ix],
+              mb = measures[b.sweep]?.[ix];
             if (!ma || !mb) continue;
             const seg = (m: ResponseMeasure, r: ComponentRow) => {
               const comp = (m as ResponseMeasure & { component?: Float64Array }).component;
@@ -324,35 +476,62 @@ export function twoSiteVelocity(set: SweepSet, rows: readonly ComponentRow[], me
               const p = typeof r.polarity === 'number' ? r.polarity : 1;
               return p === 1 ? x : x.map((v) => -v);
             };
-            const segA = seg(ma, a), segB = seg(mb, b);
-            const sa = ma.window[0], sb = mb.window[0];
+            const segA = seg(ma, a),
+              segB = seg(mb, b);
+            const sa = ma.window[0],
+              sb = mb.window[0];
             // search delays for a generous velocity range (class range / 3 .. x 3)
             const minLag = Math.floor((dL / (range[1] * 3)) * fs) - (sb - sa);
             const maxLag = Math.ceil((dL / (range[0] / 3)) * fs) - (sb - sa);
-            const lo = Math.max(minLag, -(segA.length - 1)), hi = Math.min(maxLag, segB.length - 1);
-            if (!(hi > lo)) { reject('the windows at the two sites do not overlap in any plausible delay'); continue; }
+            const lo = Math.max(minLag, -(segA.length - 1)),
+              hi = Math.min(maxLag, segB.length - 1);
+            if (!(hi > lo)) {
+              reject('the windows at the two sites do not overlap in any plausible delay');
+              continue;
+            }
             const { lag } = xcorrDelay(segA, segB, lo, hi);
-            if (lag <= lo + 0.5 || lag >= hi - 0.5) { reject('cross-correlation maximum on the edge of its search range'); continue; }
+            if (lag <= lo + 0.5 || lag >= hi - 0.5) {
+              reject('cross-correlation maximum on the edge of its search range');
+              continue;
+            }
             delay = (sb - sa + lag) / fs;
           } else {
-            const ta = a[d!.column], tb = b[d!.column];
+            const ta = a[d!.column],
+              tb = b[d!.column];
             if (typeof ta !== 'number' || typeof tb !== 'number') continue;
             delay = tb - ta;
             nearLat.push(ta);
           }
-          if (!(delay > 0)) { reject('delay not positive (the response must arrive later at the farther site)'); continue; }
-          if (delay < minDelay) { reject(`delay shorter than ${MIN_DELAY_SAMPLES} sample intervals (${minDelay.toPrecision(2)} ms): not resolved at this sampling rate`); continue; }
+          if (!(delay > 0)) {
+            reject('delay not positive (the response must arrive later at the farther site)');
+            continue;
+          }
+          if (delay < minDelay) {
+            reject(
+              `delay shorter than ${MIN_DELAY_SAMPLES} sample intervals (${minDelay.toPrecision(2)} ms): not resolved at this sampling rate`,
+            );
+            continue;
+          }
           delays.push(delay);
         }
         const excluded = [...bad.values()].reduce((s, v) => s + v, 0);
         const why = bad.size ? [...bad].map(([w, c]) => `${c} pair(s): ${w}`).join('; ') : null;
         if (!delays.length) {
           const none = both.length === 0 || excluded === 0;
-          const what = both.length === 0 ? `${cls} measured at both sites in none of ${pairs.length} pair(s) of sweeps${whyNot(pairs.flat())}`
-            : `${cls} measured at both sites in ${both.length} of ${pairs.length} pair(s) of sweeps, but its ${d ? `${d.definition} latency` : 'component'} in none of them`;
+          const what =
+            both.length === 0
+              ? `${cls} measured at both sites in none of ${pairs.length} pair(s) of sweeps${whyNot(pairs.flat())}`
+              : `${cls} measured at both sites in ${both.length} of ${pairs.length} pair(s) of sweeps, but its ${d ? `${d.definition} latency` : 'component'} in none of them`;
           out.push({
-            ...base, velocity_m_s: null, ci95_low_m_s: null, ci95_high_m_s: null, delay_ms: null, n: 0, excluded_pairs: excluded,
-            status: none ? 'not detected' : 'implausible', reason: none ? what : `no usable pair: ${why}`,
+            ...base,
+            velocity_m_s: null,
+            ci95_low_m_s: null,
+            ci95_high_m_s: null,
+            delay_ms: null,
+            n: 0,
+            excluded_pairs: excluded,
+            status: none ? 'not detected' : 'implausible',
+            reason: none ? what : `no usable pair: ${why}`,
           });
           continue;
         }
@@ -366,17 +545,33 @@ export function twoSiteVelocity(set: SweepSet, rows: readonly ComponentRow[], me
           const u = utilisationProblem(lat - d1 / v, dhi > 0 ? lat - d1 / (dL / dhi) : NaN, lat, basis);
           if (u) j = { status: 'implausible', reason: u };
         }
-        out.push(finish({
-          ...base, delay_ms: s.mean, velocity_m_s: v, ci95_low_m_s: dhi > 0 ? dL / dhi : null, ci95_high_m_s: Number.isFinite(dlo) ? (dlo > 0 ? dL / dlo : Infinity) : null,
-          n: s.n, excluded_pairs: excluded, excluded_reason: why, status: j.status, reason: j.reason,
-        }, v));
+        out.push(
+          finish(
+            {
+              ...base,
+              delay_ms: s.mean,
+              velocity_m_s: v,
+              ci95_low_m_s: dhi > 0 ? dL / dhi : null,
+              ci95_high_m_s: Number.isFinite(dlo) ? (dlo > 0 ? dL / dlo : Infinity) : null,
+              n: s.n,
+              excluded_pairs: excluded,
+              excluded_reason: why,
+              status: j.status,
+              reason: j.reason,
+            },
+            v,
+          ),
+        );
       }
     }
   }
   return out;
 }
 
-export interface Estimator { method: VelocityRow['method']; basis: VelocityRow['basis'] }
+export interface Estimator {
+  method: VelocityRow['method'];
+  basis: VelocityRow['basis'];
+}
 
 /**
  * The estimator the README recommends, by the class's place in its preset (see "Which velocity
@@ -414,7 +609,8 @@ export function markRecommended(rows: readonly VelocityRow[], classes?: readonly
   }
   return rows.map((r) => {
     const e = recommendedEstimator(r.class, classes);
-    const widest = r.method !== 'two-site' || (r.far_mm as number) - (r.near_mm as number) === span.get(`${r.class}|${r.group}`);
+    const widest =
+      r.method !== 'two-site' || (r.far_mm as number) - (r.near_mm as number) === span.get(`${r.class}|${r.group}`);
     return { ...r, recommended: r.method === e.method && r.basis === e.basis && widest };
   });
 }

@@ -58,8 +58,21 @@ import { toFrame } from '../report/frame';
 import { tableHtml, tableText, escapeHtml } from '../notebook/html';
 import { VERSION } from '../version';
 import {
-  type Block, type Model, type Sfp, nuisanceBasis, dataVector, designMatrix, gram, atb, secondDifferencePenalty,
-  gcvSolve, solveU, sfpStep, twoDistanceSolve, percentile, sfpAt,
+  type Block,
+  type Model,
+  type Sfp,
+  nuisanceBasis,
+  dataVector,
+  designMatrix,
+  gram,
+  atb,
+  secondDifferencePenalty,
+  gcvSolve,
+  solveU,
+  sfpStep,
+  twoDistanceSolve,
+  percentile,
+  sfpAt,
 } from './vdistCore';
 
 type Row = Record<string, ConditionValue>;
@@ -120,16 +133,64 @@ export interface VelocityDistributionOptions {
 }
 
 export const velocityDistributionDefaults = {
-  method: 'decomposition' as const, nVelocities: 60, fitWindowStartMs: 0.3, sfpWindowFraction: [-0.01, 0.25] as [number, number],
-  sfpSmoothing: 1e-3, amplitudeExponent: 2, durationExponent: 0, bipolarSeparationMm: 0, utilisationMs: 0, drift: 'linear' as const,
-  iterations: 100, tolerance: 3e-3, lambda: 'gcv' as const, alternationLambda: 1e-3, bootstrap: 200, seed: 1, classes: 'mammalian', twoDistanceLambda: 1e-4,
+  method: 'decomposition' as const,
+  nVelocities: 60,
+  fitWindowStartMs: 0.3,
+  sfpWindowFraction: [-0.01, 0.25] as [number, number],
+  sfpSmoothing: 1e-3,
+  amplitudeExponent: 2,
+  durationExponent: 0,
+  bipolarSeparationMm: 0,
+  utilisationMs: 0,
+  drift: 'linear' as const,
+  iterations: 100,
+  tolerance: 3e-3,
+  lambda: 'gcv' as const,
+  alternationLambda: 1e-3,
+  bootstrap: 200,
+  seed: 1,
+  classes: 'mammalian',
+  twoDistanceLambda: 1e-4,
   percentiles: [5, 10, 25, 50, 75, 90, 95],
 };
 
-const OPTION_KEYS = ['method', 'velocityRange', 'nVelocities', 'fitWindow', 'fitStartByDistance', 'sfp', 'sfpWindow', 'sfpSmoothing', 'amplitudeExponent', 'durationExponent',
-  'referenceVelocity', 'bipolarSeparationMm', 'utilisationMs', 'drift', 'artifactTauMs', 'noiseWindow', 'iterations', 'tolerance', 'lambda', 'alternationLambda', 'bootstrap', 'seed', 'classes', 'temperatureC'];
+const OPTION_KEYS = [
+  'method',
+  'velocityRange',
+  'nVelocities',
+  'fitWindow',
+  'fitStartByDistance',
+  'sfp',
+  'sfpWindow',
+  'sfpSmoothing',
+  'amplitudeExponent',
+  'durationExponent',
+  'referenceVelocity',
+  'bipolarSeparationMm',
+  'utilisationMs',
+  'drift',
+  'artifactTauMs',
+  'noiseWindow',
+  'iterations',
+  'tolerance',
+  'lambda',
+  'alternationLambda',
+  'bootstrap',
+  'seed',
+  'classes',
+  'temperatureC',
+];
 /** Conditions that must not vary within one distribution (select with set.where). */
-const GROUP_KEYS = ['preparation', 'temperatureC', 'concentration', 'drug', 'epoch', 'intensity', 'pulseWidthMs', 'polarity'];
+const GROUP_KEYS = [
+  'preparation',
+  'temperatureC',
+  'concentration',
+  'drug',
+  'epoch',
+  'intensity',
+  'pulseWidthMs',
+  'polarity',
+];
 
 export interface VelocityDistributionFit {
   method: string;
@@ -160,29 +221,52 @@ export class VelocityDistributionResult extends Result {
     super();
   }
   /** velocity grid, m/s */
-  get velocities(): number[] { return this.grid.map((r) => r.velocity_m_s as number); }
+  get velocities(): number[] {
+    return this.grid.map((r) => r.velocity_m_s as number);
+  }
   tables(): Record<string, readonly object[]> {
     return {
-      velocity_distribution: this.grid, velocity_distribution_percentiles: this.percentiles, velocity_distribution_classes: this.classes,
-      velocity_distribution_residuals: this.residuals, velocity_distribution_sfp: this.sfp,
+      velocity_distribution: this.grid,
+      velocity_distribution_percentiles: this.percentiles,
+      velocity_distribution_classes: this.classes,
+      velocity_distribution_residuals: this.residuals,
+      velocity_distribution_sfp: this.sfp,
     };
   }
   /** The distribution on the grid as a DataFrame (or another table by name). */
   frame(table: 'grid' | 'percentiles' | 'classes' | 'residuals' | 'sfp' = 'grid'): import('danfojs-node').DataFrame {
-    const t = { grid: this.grid, percentiles: this.percentiles, classes: this.classes, residuals: this.residuals, sfp: this.sfp }[table];
-    if (!t) throw new OptionError(`invalid table: ${shown(table)}; must be one of "grid", "percentiles", "classes", "residuals", "sfp"`);
+    const t = {
+      grid: this.grid,
+      percentiles: this.percentiles,
+      classes: this.classes,
+      residuals: this.residuals,
+      sfp: this.sfp,
+    }[table];
+    if (!t)
+      throw new OptionError(
+        `invalid table: ${shown(table)}; must be one of "grid", "percentiles", "classes", "residuals", "sfp"`,
+      );
     return toFrame(t as Record<string, unknown>[]);
   }
   /** A percentile (5, 10, 25, 50, 75, 90 or 95) of the number- or amplitude-weighted distribution, overall or in a class. */
   percentile(p: number, weighting: 'number' | 'amplitude' = 'number', scope = 'all'): number {
     const r = this.percentiles.find((q) => q.percentile === p && q.weighting === weighting && q.scope === scope);
-    if (!r) throw new OptionError(`no percentile ${p} (${weighting}, ${scope}); percentiles are ${velocityDistributionDefaults.percentiles.join(', ')}, scopes all, ${this.classes.map((c) => c.class).join(', ')}`);
+    if (!r)
+      throw new OptionError(
+        `no percentile ${p} (${weighting}, ${scope}); percentiles are ${velocityDistributionDefaults.percentiles.join(', ')}, scopes all, ${this.classes.map((c) => c.class).join(', ')}`,
+      );
     return r.velocity_m_s as number;
   }
   /** The figure: distribution with its bootstrap band, class ranges, and the reconstruction per distance. */
-  figure(options: { weighting?: 'number' | 'amplitude'; truth?: { velocity: number[]; weight?: number[]; label?: string } } = {}): import('../plot/figure').Figure {
+  figure(
+    options: {
+      weighting?: 'number' | 'amplitude';
+      truth?: { velocity: number[]; weight?: number[]; label?: string };
+    } = {},
+  ): import('../plot/figure').Figure {
     // eslint-disable-next-line @typescript-eslint/no-var-requires
-    const { velocityDistributionFigure } = require('../plot/velocityDistribution') as typeof import('../plot/velocityDistribution');
+    const { velocityDistributionFigure } =
+      require('../plot/velocityDistribution') as typeof import('../plot/velocityDistribution');
     return velocityDistributionFigure(this, options);
   }
   methods(): string {
@@ -201,10 +285,18 @@ export class VelocityDistributionResult extends Result {
   }
   toString(): string {
     const pct = this.percentiles.filter((r) => r.scope === 'all');
-    return `VelocityDistributionResult (${this.fit.method}, ${this.grid.length} velocities, status ${this.fit.status})\n`
-      + tableText(pct, { columns: ['weighting', 'percentile', 'velocity_m_s', 'ci95_low_m_s', 'ci95_high_m_s'] }) + '\n'
-      + tableText(this.classes, { columns: ['class', 'range_low_m_s', 'range_high_m_s', 'number_fraction', 'amplitude_fraction', 'status'] }) + '\n'
-      + tableText(this.residuals, { columns: ['distance_mm', 'sweeps', 'rms_residual', 'relative_residual', 'chi2_per_sample'] });
+    return (
+      `VelocityDistributionResult (${this.fit.method}, ${this.grid.length} velocities, status ${this.fit.status})\n` +
+      tableText(pct, { columns: ['weighting', 'percentile', 'velocity_m_s', 'ci95_low_m_s', 'ci95_high_m_s'] }) +
+      '\n' +
+      tableText(this.classes, {
+        columns: ['class', 'range_low_m_s', 'range_high_m_s', 'number_fraction', 'amplitude_fraction', 'status'],
+      }) +
+      '\n' +
+      tableText(this.residuals, {
+        columns: ['distance_mm', 'sweeps', 'rms_residual', 'relative_residual', 'chi2_per_sample'],
+      })
+    );
   }
 }
 
@@ -214,24 +306,37 @@ export function methodsSentence(o: Record<string, unknown>): [string, string[]] 
     'Lawson CL, Hanson RJ (1974) Solving Least Squares Problems. Prentice-Hall, Englewood Cliffs.',
     'Golub GH, Heath M, Wahba G (1979) Generalized cross-validation as a method for choosing a good ridge parameter. Technometrics 21:215-223.',
   ];
-  const p = o.amplitudeExponent, q = o.durationExponent;
+  const p = o.amplitudeExponent,
+    q = o.durationExponent;
   const range = o.velocityRange as number[];
   const grid = `${o.nVelocities} log-spaced velocities from ${fmt(range[0])} to ${fmt(range[1])} m/s`;
-  const sfp = o.sfp === 'estimate'
-    ? 'a single-fibre potential estimated from the data by alternating least squares across distances (the same potential at every distance; its time origin, the arrival x/v, absorbs the utilisation delay)'
-    : `a given single-fibre potential with a utilisation delay of ${o.utilisationMs} ms`;
-  const lam = o.lambda === 'gcv' ? 'chosen by generalised cross-validation (Golub et al. 1979)' : `fixed at ${o.lambda} (relative)`;
-  const rec = (o.bipolarSeparationMm as number) > 0 ? `a bipolar pair ${o.bipolarSeparationMm} mm apart` : 'a monophasic recording';
+  const sfp =
+    o.sfp === 'estimate'
+      ? 'a single-fibre potential estimated from the data by alternating least squares across distances (the same potential at every distance; its time origin, the arrival x/v, absorbs the utilisation delay)'
+      : `a given single-fibre potential with a utilisation delay of ${o.utilisationMs} ms`;
+  const lam =
+    o.lambda === 'gcv'
+      ? 'chosen by generalised cross-validation (Golub et al. 1979)'
+      : `fixed at ${o.lambda} (relative)`;
+  const rec =
+    (o.bipolarSeparationMm as number) > 0
+      ? `a bipolar pair ${o.bipolarSeparationMm} mm apart`
+      : 'a monophasic recording';
   let s: string;
   if (o.method === 'two-distance') {
-    refs.push('Cummins KL, Dorfman LJ, Perkel DH (1979) Nerve fiber conduction-velocity distributions. II. Estimation based on two compound action potentials. Electroencephalogr Clin Neurophysiol 46:647-658.');
+    refs.push(
+      'Cummins KL, Dorfman LJ, Perkel DH (1979) Nerve fiber conduction-velocity distributions. II. Estimation based on two compound action potentials. Electroencephalogr Clin Neurophysiol 46:647-658.',
+    );
     s = `The conduction-velocity distribution was estimated from the averaged supramaximal responses at ${o.distances} by the two-distance method of Cummins, Dorfman & Perkel (1979), in which the single-fibre waveform cancels between responses at two distances (solved in the time domain over every pair of distances, non-negatively (Lawson & Hanson 1974), with the sum of weights fixed and a second-difference penalty of relative weight ${o.twoDistanceLambda}), on ${grid}, for ${rec}.`;
   } else {
-    refs.push('Cummins KL, Perkel DH, Dorfman LJ (1979) Nerve fiber conduction-velocity distributions. I. Estimation based on the single-fiber and compound action potentials. Electroencephalogr Clin Neurophysiol 46:634-646.');
+    refs.push(
+      'Cummins KL, Perkel DH, Dorfman LJ (1979) Nerve fiber conduction-velocity distributions. I. Estimation based on the single-fiber and compound action potentials. Electroencephalogr Clin Neurophysiol 46:634-646.',
+    );
     s = `The conduction-velocity distribution was estimated from the averaged supramaximal responses at ${o.distances} by modelling each response as a sum of single-fibre potentials arriving at x/v (Cummins, Perkel & Dorfman 1979), for ${rec}, with ${sfp}, whose peak amplitude scales as v^${p} and ${q === 0 ? 'whose duration does not depend on velocity' : `duration as v^-${q}`}, plus a ${o.drift} drift per distance${(o.artifactTauMs as number[]).length ? ` and artifact exponentials (time constants ${(o.artifactTauMs as number[]).join(', ')} ms)` : ''}; the amplitude per velocity on ${grid} was found by non-negative least squares (Lawson & Hanson 1974) with a second-difference smoothness penalty whose weight was ${lam}, samples weighted by the inverse noise SD of each distance's average, over ${fmtW(o.fitWindow)}.`;
   }
   s += ` Fibre numbers were taken as the amplitude per velocity divided by (v/${fmt(o.referenceVelocity as number)} m/s)^${p} (amplitude proportional to v^${p}).`;
-  if ((o.bootstrap as number) > 0) s += ` 95% bands are percentiles of ${o.bootstrap} bootstrap resamples of sweeps within each distance (seed ${o.seed}), with the potential and the smoothness weight held fixed.`;
+  if ((o.bootstrap as number) > 0)
+    s += ` 95% bands are percentiles of ${o.bootstrap} bootstrap resamples of sweeps within each distance (seed ${o.seed}), with the potential and the smoothness weight held fixed.`;
   s += ` Class fractions use the velocity ranges of ${o.classSource}.`;
   return [s, refs];
 }
@@ -239,50 +344,91 @@ export function methodsSentence(o: Record<string, unknown>): [string, string[]] 
 const fmt = (x: number) => String(Number(x.toPrecision(4)));
 const fmtW = (w: unknown) => (Array.isArray(w) ? `${fmt(w[0])} to ${fmt(w[1])} ms` : String(w));
 
-interface Prepared { blocks: Block[]; perSweep: Float64Array[][]; distances: number[]; notes: string[] }
+interface Prepared {
+  blocks: Block[];
+  perSweep: Float64Array[][];
+  distances: number[];
+  notes: string[];
+}
 
-function prepare(set: SweepSet, fit: [number, number], startBy: Record<string, number>, noiseWindow: [number, number] | undefined, needFull: boolean): Prepared {
+function prepare(
+  set: SweepSet,
+  fit: [number, number],
+  startBy: Record<string, number>,
+  noiseWindow: [number, number] | undefined,
+  needFull: boolean,
+): Prepared {
   const notes: string[] = [];
   const byD = new Map<number, number[]>();
   set.conditions.forEach((c, i) => {
     const d = c.distanceMm;
-    if (typeof d !== 'number' || !(d > 0)) throw new AnalysisError(`sweep ${i}: condition "distanceMm" is ${shown(d ?? null)}; a velocity distribution needs every sweep's conduction distance in mm (> 0)`);
+    if (typeof d !== 'number' || !(d > 0))
+      throw new AnalysisError(
+        `sweep ${i}: condition "distanceMm" is ${shown(d ?? null)}; a velocity distribution needs every sweep's conduction distance in mm (> 0)`,
+      );
     (byD.get(d) ?? byD.set(d, []).get(d)!).push(i);
   });
   const distances = [...byD.keys()].sort((a, b) => a - b);
-  if (distances.length < 2) throw new AnalysisError(`a velocity distribution needs responses at two or more conduction distances; the set has ${distances.length} (${distances.join(', ')} mm)`);
+  if (distances.length < 2)
+    throw new AnalysisError(
+      `a velocity distribution needs responses at two or more conduction distances; the set has ${distances.length} (${distances.join(', ')} mm)`,
+    );
   for (const k of GROUP_KEYS) {
     const lv = new Set(set.conditions.map((c) => (k in c ? c[k] : null)));
-    if (lv.size > 1) throw new AnalysisError(`the sweeps differ in "${k}" (${[...lv].map(shown).join(', ')}); one distribution is for one condition: select it first, e.g. set.where({ ${k}: ${shown([...lv][0])} })`);
+    if (lv.size > 1)
+      throw new AnalysisError(
+        `the sweeps differ in "${k}" (${[...lv].map(shown).join(', ')}); one distribution is for one condition: select it first, e.g. set.where({ ${k}: ${shown([...lv][0])} })`,
+      );
   }
-  for (const k of Object.keys(startBy)) if (!distances.includes(Number(k))) throw new OptionError(`invalid fitStartByDistance: distance ${k} mm is not in the set (distances ${distances.join(', ')} mm)`);
-  const n = set.nSamples, dt = set.dtMs;
+  for (const k of Object.keys(startBy))
+    if (!distances.includes(Number(k)))
+      throw new OptionError(
+        `invalid fitStartByDistance: distance ${k} mm is not in the set (distances ${distances.join(', ')} mm)`,
+      );
+  const n = set.nSamples,
+    dt = set.dtMs;
   const nw = noiseWindow ?? [set.t0Ms, -0.1];
   const blocks: Block[] = [];
   const perSweep: Float64Array[][] = [];
   for (const d of distances) {
     const idx = byD.get(d)!;
     const start = startBy[String(d)] ?? fit[0];
-    const a = Math.max(0, Math.ceil((start - set.t0Ms) / dt - 1e-9)), b = Math.min(n - 1, Math.floor((fit[1] - set.t0Ms) / dt + 1e-9));
-    if (b - a < 10) throw new AnalysisError(`distance ${d} mm: the fit window ${fmtW([start, fit[1]])} holds ${Math.max(0, b - a + 1)} samples of the sweep (${fmt(set.t0Ms)} to ${fmt(set.timeAt(n - 1))} ms); need at least 11`);
+    const a = Math.max(0, Math.ceil((start - set.t0Ms) / dt - 1e-9)),
+      b = Math.min(n - 1, Math.floor((fit[1] - set.t0Ms) / dt + 1e-9));
+    if (b - a < 10)
+      throw new AnalysisError(
+        `distance ${d} mm: the fit window ${fmtW([start, fit[1]])} holds ${Math.max(0, b - a + 1)} samples of the sweep (${fmt(set.t0Ms)} to ${fmt(set.timeAt(n - 1))} ms); need at least 11`,
+      );
     const t = new Float64Array(b - a + 1);
     for (let i = a; i <= b; i++) t[i - a] = set.timeAt(i);
     const mean = new Float64Array(n);
-    for (const s of idx) { const x = set.sweep(s); for (let i = 0; i < n; i++) mean[i] += x[i] / idx.length; }
+    for (const s of idx) {
+      const x = set.sweep(s);
+      for (let i = 0; i < n; i++) mean[i] += x[i] / idx.length;
+    }
     perSweep.push(idx.map((s) => set.sweep(s).slice(a, b + 1)));
     // noise: MAD of first differences / sqrt 2 in the quiet window, median over sweeps, of the mean of the sweeps
-    const na = Math.max(0, Math.ceil((nw[0] - set.t0Ms) / dt - 1e-9)), nb = Math.min(n - 1, Math.floor((nw[1] - set.t0Ms) / dt + 1e-9));
+    const na = Math.max(0, Math.ceil((nw[0] - set.t0Ms) / dt - 1e-9)),
+      nb = Math.min(n - 1, Math.floor((nw[1] - set.t0Ms) / dt + 1e-9));
     let sigma = NaN;
     if (nb - na >= 8) {
-      const per = idx.map((s) => {
-        const x = set.sweep(s);
-        const df = Array.from({ length: nb - na }, (_, i) => Math.abs(x[na + i + 1] - x[na + i]));
-        df.sort((p, q) => p - q);
-        return (1.4826 * df[Math.floor(df.length / 2)]) / Math.SQRT2;
-      }).sort((p, q) => p - q);
+      const per = idx
+        .map((s) => {
+          const x = set.sweep(s);
+          const df = Array.from({ length: nb - na }, (_, i) => Math.abs(x[na + i + 1] - x[na + i]));
+          df.sort((p, q) => p - q);
+          return (1.4826 * df[Math.floor(df.length / 2)]) / Math.SQRT2;
+        })
+        .sort((p, q) => p - q);
       sigma = per[Math.floor(per.length / 2)] / Math.sqrt(idx.length);
     }
-    blocks.push({ distanceMm: d, t, y: mean.slice(a, b + 1), sigma, full: needFull ? { t0Ms: set.t0Ms, dtMs: dt, y: mean, startMs: start } : undefined });
+    blocks.push({
+      distanceMm: d,
+      t,
+      y: mean.slice(a, b + 1),
+      sigma,
+      full: needFull ? { t0Ms: set.t0Ms, dtMs: dt, y: mean, startMs: start } : undefined,
+    });
   }
   if (blocks.some((bl) => !(bl.sigma > 0))) {
     notes.push(`no quiet window ${fmtW(nw)} with 9 or more samples at every distance: rows are not weighted by noise`);
@@ -296,48 +442,79 @@ function validate(o: VelocityDistributionOptions): void {
   if (o.method !== undefined) oneOf('method', o.method, ['decomposition', 'two-distance']);
   if (o.velocityRange !== undefined) {
     const r = o.velocityRange;
-    if (!Array.isArray(r) || r.length !== 2 || !(r[0] > 0) || !(r[1] > r[0]) || !Number.isFinite(r[1])) throw new OptionError(`invalid velocityRange: ${shown(r)}; must be [slowest, fastest] m/s with 0 < slowest < fastest`);
+    if (!Array.isArray(r) || r.length !== 2 || !(r[0] > 0) || !(r[1] > r[0]) || !Number.isFinite(r[1]))
+      throw new OptionError(
+        `invalid velocityRange: ${shown(r)}; must be [slowest, fastest] m/s with 0 < slowest < fastest`,
+      );
   }
   if (o.nVelocities !== undefined) integerIn('nVelocities', o.nVelocities, 8, 400);
   if (o.fitWindow !== undefined) windowMs('fitWindow', o.fitWindow);
   if (o.fitStartByDistance !== undefined) {
-    if (typeof o.fitStartByDistance !== 'object' || o.fitStartByDistance === null || Array.isArray(o.fitStartByDistance)) throw new OptionError(`invalid fitStartByDistance: ${shown(o.fitStartByDistance)}; must be an object of distance (mm) to fit start (ms), e.g. { 15: 0.45 }`);
+    if (
+      typeof o.fitStartByDistance !== 'object' ||
+      o.fitStartByDistance === null ||
+      Array.isArray(o.fitStartByDistance)
+    )
+      throw new OptionError(
+        `invalid fitStartByDistance: ${shown(o.fitStartByDistance)}; must be an object of distance (mm) to fit start (ms), e.g. { 15: 0.45 }`,
+      );
     for (const [k, v] of Object.entries(o.fitStartByDistance)) {
-      if (!(Number(k) > 0)) throw new OptionError(`invalid fitStartByDistance key ${JSON.stringify(k)}; must be a distance in mm (> 0)`);
+      if (!(Number(k) > 0))
+        throw new OptionError(`invalid fitStartByDistance key ${JSON.stringify(k)}; must be a distance in mm (> 0)`);
       finite(`fitStartByDistance[${k}]`, v, 'ms');
     }
   }
   if (o.sfp !== undefined && o.sfp !== 'estimate') {
     const s = o.sfp as { samples?: ArrayLike<number>; dtMs?: number; t0Ms?: number };
-    if (typeof s !== 'object' || s === null) throw new OptionError(`invalid sfp: ${shown(o.sfp)}; must be "estimate" or { samples, dtMs, t0Ms }`);
+    if (typeof s !== 'object' || s === null)
+      throw new OptionError(`invalid sfp: ${shown(o.sfp)}; must be "estimate" or { samples, dtMs, t0Ms }`);
     checkKeys('sfp', s, ['samples', 'dtMs', 't0Ms']);
-    if (!s.samples || typeof s.samples.length !== 'number' || s.samples.length < 3) throw new OptionError('invalid sfp.samples: must be an array of 3 or more numbers');
+    if (!s.samples || typeof s.samples.length !== 'number' || s.samples.length < 3)
+      throw new OptionError('invalid sfp.samples: must be an array of 3 or more numbers');
     for (let i = 0; i < s.samples.length; i++) finite(`sfp.samples[${i}]`, s.samples[i]);
     positive('sfp.dtMs', s.dtMs, 'ms');
     finite('sfp.t0Ms', s.t0Ms, 'ms');
   }
   if (o.sfpWindow !== undefined) windowMs('sfpWindow', o.sfpWindow);
-  if (o.sfpSmoothing !== undefined) { finite('sfpSmoothing', o.sfpSmoothing); if (!(o.sfpSmoothing >= 0)) throw new OptionError(`invalid sfpSmoothing: ${o.sfpSmoothing}; must be >= 0`); }
+  if (o.sfpSmoothing !== undefined) {
+    finite('sfpSmoothing', o.sfpSmoothing);
+    if (!(o.sfpSmoothing >= 0)) throw new OptionError(`invalid sfpSmoothing: ${o.sfpSmoothing}; must be >= 0`);
+  }
   if (o.amplitudeExponent !== undefined) finite('amplitudeExponent', o.amplitudeExponent);
   if (o.durationExponent !== undefined) finite('durationExponent', o.durationExponent);
   if (o.referenceVelocity !== undefined) positive('referenceVelocity', o.referenceVelocity, 'm/s');
-  if (o.bipolarSeparationMm !== undefined) { finite('bipolarSeparationMm', o.bipolarSeparationMm, 'mm'); if (!(o.bipolarSeparationMm >= 0)) throw new OptionError(`invalid bipolarSeparationMm: ${o.bipolarSeparationMm} mm; must be >= 0 (0 = monophasic)`); }
+  if (o.bipolarSeparationMm !== undefined) {
+    finite('bipolarSeparationMm', o.bipolarSeparationMm, 'mm');
+    if (!(o.bipolarSeparationMm >= 0))
+      throw new OptionError(`invalid bipolarSeparationMm: ${o.bipolarSeparationMm} mm; must be >= 0 (0 = monophasic)`);
+  }
   if (o.utilisationMs !== undefined) finite('utilisationMs', o.utilisationMs, 'ms');
   if (o.drift !== undefined) oneOf('drift', o.drift, ['offset', 'linear', 'quadratic']);
   if (o.artifactTauMs !== undefined) {
-    if (!Array.isArray(o.artifactTauMs)) throw new OptionError(`invalid artifactTauMs: ${shown(o.artifactTauMs)}; must be an array of time constants in ms`);
+    if (!Array.isArray(o.artifactTauMs))
+      throw new OptionError(
+        `invalid artifactTauMs: ${shown(o.artifactTauMs)}; must be an array of time constants in ms`,
+      );
     o.artifactTauMs.forEach((x, i) => positive(`artifactTauMs[${i}]`, x, 'ms'));
   }
   if (o.noiseWindow !== undefined) windowMs('noiseWindow', o.noiseWindow);
   if (o.iterations !== undefined) integerIn('iterations', o.iterations, 1, 10000);
   if (o.tolerance !== undefined) positive('tolerance', o.tolerance);
-  if (o.lambda !== undefined && o.lambda !== 'gcv') { positive('lambda', o.lambda); }
+  if (o.lambda !== undefined && o.lambda !== 'gcv') {
+    positive('lambda', o.lambda);
+  }
   if (o.alternationLambda !== undefined) positive('alternationLambda', o.alternationLambda);
   if (o.bootstrap !== undefined) integerIn('bootstrap', o.bootstrap, 0, 100000);
   if (o.seed !== undefined) integerIn('seed', o.seed, 0, 2 ** 32 - 1);
   if (o.temperatureC !== undefined) finite('temperatureC', o.temperatureC, 'C');
-  if (o.method === 'two-distance' && (o.durationExponent ?? 0) !== 0) throw new OptionError(`invalid durationExponent: ${o.durationExponent} with method "two-distance"; the two-distance method needs the same waveform in every fibre (durationExponent 0); use method "decomposition"`);
-  if (o.method === 'two-distance' && o.sfp !== undefined && o.sfp !== 'estimate') throw new OptionError('invalid sfp with method "two-distance": the waveform cancels in that method; use method "decomposition" to give a potential');
+  if (o.method === 'two-distance' && (o.durationExponent ?? 0) !== 0)
+    throw new OptionError(
+      `invalid durationExponent: ${o.durationExponent} with method "two-distance"; the two-distance method needs the same waveform in every fibre (durationExponent 0); use method "decomposition"`,
+    );
+  if (o.method === 'two-distance' && o.sfp !== undefined && o.sfp !== 'estimate')
+    throw new OptionError(
+      'invalid sfp with method "two-distance": the waveform cancels in that method; use method "decomposition" to give a potential',
+    );
 }
 
 /**
@@ -348,21 +525,34 @@ function validate(o: VelocityDistributionOptions): void {
  * whose arrival at the farthest distance falls after the fit start, 2 x_max / (start - t_u)
  * (the potential of a faster fibre still reaches into the window), at most 200 m/s.
  */
-export function velocityGrid(distances: number[], fit: [number, number], utilisationMs: number, K: number, range?: [number, number]): Float64Array {
+export function velocityGrid(
+  distances: number[],
+  fit: [number, number],
+  utilisationMs: number,
+  K: number,
+  range?: [number, number],
+): Float64Array {
   let lo: number, hi: number;
   if (range) [lo, hi] = range;
   else {
-    const end = fit[1] - utilisationMs, start = Math.max(fit[0] - utilisationMs, 0.05);
+    const end = fit[1] - utilisationMs,
+      start = Math.max(fit[0] - utilisationMs, 0.05);
     lo = distances[distances.length - 1] / end;
     hi = Math.min(200, (2 * distances[distances.length - 1]) / start);
-    if (!(hi > lo * 1.5)) throw new AnalysisError(`the fit window ${fmtW(fit)} and distances ${distances.join(', ')} mm give no velocity range (${fmt(lo)} to ${fmt(hi)} m/s); give velocityRange`);
+    if (!(hi > lo * 1.5))
+      throw new AnalysisError(
+        `the fit window ${fmtW(fit)} and distances ${distances.join(', ')} mm give no velocity range (${fmt(lo)} to ${fmt(hi)} m/s); give velocityRange`,
+      );
   }
-  return Float64Array.from({ length: K }, (_, k) => Math.exp(Math.log(lo) + (k * (Math.log(hi) - Math.log(lo))) / (K - 1)));
+  return Float64Array.from({ length: K }, (_, k) =>
+    Math.exp(Math.log(lo) + (k * (Math.log(hi) - Math.log(lo))) / (K - 1)),
+  );
 }
 
 /** Bin edges (geometric midpoints) of a log grid. */
 function edges(v: Float64Array): Float64Array {
-  const K = v.length, e = new Float64Array(K + 1);
+  const K = v.length,
+    e = new Float64Array(K + 1);
   for (let k = 1; k < K; k++) e[k] = Math.sqrt(v[k - 1] * v[k]);
   e[0] = (v[0] * v[0]) / e[1];
   e[K] = (v[K - 1] * v[K - 1]) / e[K - 1];
@@ -371,9 +561,11 @@ function edges(v: Float64Array): Float64Array {
 
 /** Mass of each bin inside [lo, hi) (fraction of the bin's log width). */
 function overlap(e: Float64Array, lo: number, hi: number): Float64Array {
-  const K = e.length - 1, f = new Float64Array(K);
+  const K = e.length - 1,
+    f = new Float64Array(K);
   for (let k = 0; k < K; k++) {
-    const a = Math.max(Math.log(e[k]), Math.log(lo)), b = Math.min(Math.log(e[k + 1]), Math.log(hi));
+    const a = Math.max(Math.log(e[k]), Math.log(lo)),
+      b = Math.min(Math.log(e[k + 1]), Math.log(hi));
     f[k] = b > a ? (b - a) / (Math.log(e[k + 1]) - Math.log(e[k])) : 0;
   }
   return f;
@@ -382,7 +574,8 @@ function overlap(e: Float64Array, lo: number, hi: number): Float64Array {
 const quantile = (xs: number[], p: number) => {
   const s = xs.filter(Number.isFinite).sort((a, b) => a - b);
   if (!s.length) return NaN;
-  const h = (s.length - 1) * p, i = Math.floor(h);
+  const h = (s.length - 1) * p,
+    i = Math.floor(h);
   return i + 1 < s.length ? s[i] + (h - i) * (s[i + 1] - s[i]) : s[i];
 };
 
@@ -395,7 +588,10 @@ const quantile = (xs: number[], p: number) => {
  * @example velocityDistribution(set.where({ temperatureC: 30 }), { fitWindow: [0.45, 18], velocityRange: [2.5, 120] })
  *   .percentile(50, 'number', 'A-alpha/beta')
  */
-export function velocityDistribution(set: SweepSet, options: VelocityDistributionOptions = {}): VelocityDistributionResult {
+export function velocityDistribution(
+  set: SweepSet,
+  options: VelocityDistributionOptions = {},
+): VelocityDistributionResult {
   validate(options);
   const D = velocityDistributionDefaults;
   const method = options.method ?? D.method;
@@ -405,9 +601,11 @@ export function velocityDistribution(set: SweepSet, options: VelocityDistributio
   const q = options.durationExponent ?? D.durationExponent;
   const bip = options.bipolarSeparationMm ?? D.bipolarSeparationMm;
   const sfpGiven = options.sfp !== undefined && options.sfp !== 'estimate' ? options.sfp : null;
-  const tu = sfpGiven ? options.utilisationMs ?? D.utilisationMs : 0;
+  const tu = sfpGiven ? (options.utilisationMs ?? D.utilisationMs) : 0;
   if (!sfpGiven && options.utilisationMs !== undefined && options.utilisationMs !== 0) {
-    throw new OptionError(`invalid utilisationMs: ${options.utilisationMs} ms with an estimated potential; the estimated potential's time origin absorbs the utilisation delay (give sfp to set it)`);
+    throw new OptionError(
+      `invalid utilisationMs: ${options.utilisationMs} ms with an estimated potential; the estimated potential's time origin absorbs the utilisation delay (give sfp to set it)`,
+    );
   }
   const drift = options.drift ?? D.drift;
   const driftDeg = { offset: 0, linear: 1, quadratic: 2 }[drift];
@@ -438,13 +636,26 @@ export function velocityDistribution(set: SweepSet, options: VelocityDistributio
   let sfp: Sfp;
   let u: Float64Array;
   let sol: { u: Float64Array; lambda: number; gcv: number; df: number };
-  let iter = 0, converged = true;
-  const choose = (G: Float64Array, c: Float64Array, bb: number) => (lambdaOpt === 'gcv'
-    ? gcvSolve(G, c, bb, R, K, nRows, nNuis)
-    : (() => { const scale = trG(G, K) / trG(R, K); const s = solveU(G, c, bb, R, K, (lambdaOpt as number) * scale); const dof = nRows - s.df - nNuis; return { u: s.u, lambda: lambdaOpt as number, gcv: dof > 0 ? (nRows * s.rss) / (dof * dof) : Infinity, df: s.df }; })());
+  let iter = 0,
+    converged = true;
+  const choose = (G: Float64Array, c: Float64Array, bb: number) =>
+    lambdaOpt === 'gcv'
+      ? gcvSolve(G, c, bb, R, K, nRows, nNuis)
+      : (() => {
+          const scale = trG(G, K) / trG(R, K);
+          const s = solveU(G, c, bb, R, K, (lambdaOpt as number) * scale);
+          const dof = nRows - s.df - nNuis;
+          return {
+            u: s.u,
+            lambda: lambdaOpt as number,
+            gcv: dof > 0 ? (nRows * s.rss) / (dof * dof) : Infinity,
+            df: s.df,
+          };
+        })();
   if (sfpGiven) {
     const g = Float64Array.from(sfpGiven.samples as ArrayLike<number>);
-    let pk = 0; for (const x of g) if (Math.abs(x) > Math.abs(pk)) pk = x;
+    let pk = 0;
+    for (const x of g) if (Math.abs(x) > Math.abs(pk)) pk = x;
     if (pk === 0) throw new OptionError('invalid sfp.samples: all zero');
     for (let i = 0; i < g.length; i++) g[i] /= Math.abs(pk);
     sfp = { tau0: sfpGiven.t0Ms, h: sfpGiven.dtMs, g };
@@ -465,14 +676,23 @@ export function velocityDistribution(set: SweepSet, options: VelocityDistributio
     let prevG: Float64Array | null = null;
     for (iter = 1; iter <= maxIt; iter++) {
       const st = sfpStep(blocks, bases, model, u, b, sw[0], h, J, smoothing);
-      if (!st) throw new AnalysisError('the single-fibre potential could not be estimated (no signal in the fit window at the grid velocities); check fitWindow, velocityRange and sfpWindow');
+      if (!st)
+        throw new AnalysisError(
+          'the single-fibre potential could not be estimated (no signal in the fit window at the grid velocities); check fitWindow, velocityRange and sfpWindow',
+        );
       s0 = st.sfp;
       const A = designMatrix(blocks, bases, model, s0);
       const gg = gram(A, nRows, K, b);
       if (method === 'two-distance') {
         // amplitudes in signal units: scale the two-distance solution by least squares
-        let num = 0, den = 0;
-        for (let i = 0; i < K; i++) { num += gg.c[i] * u[i]; let s = 0; for (let j = 0; j < K; j++) s += gg.G[i * K + j] * u[j]; den += u[i] * s; }
+        let num = 0,
+          den = 0;
+        for (let i = 0; i < K; i++) {
+          num += gg.c[i] * u[i];
+          let s = 0;
+          for (let j = 0; j < K; j++) s += gg.G[i * K + j] * u[j];
+          den += u[i] * s;
+        }
         const a = den > 0 ? num / den : 0;
         u = u.map((x) => x * a);
         sol = { u, lambda: twoLambda, gcv: NaN, df: NaN };
@@ -487,29 +707,45 @@ export function velocityDistribution(set: SweepSet, options: VelocityDistributio
         const objective = (uu: Float64Array, gs: Sfp) => {
           const Aa = designMatrix(blocks, bases, model, gs);
           let f = 0;
-          for (let r = 0; r < nRows; r++) { let m = 0; for (let k = 0; k < K; k++) m += Aa[r * K + k] * uu[k]; f += (b[r] - m) ** 2; }
+          for (let r = 0; r < nRows; r++) {
+            let m = 0;
+            for (let k = 0; k < K; k++) m += Aa[r * K + k] * uu[k];
+            f += (b[r] - m) ** 2;
+          }
           let pen = 0;
           for (let k = 0; k + 2 < K; k++) pen += (uu[k] - 2 * uu[k + 1] + uu[k + 2]) ** 2;
           return f + lamRel * scale * pen;
         };
-        let best = objective(u, s0), bestU: Float64Array | null = null;
+        let best = objective(u, s0),
+          bestU: Float64Array | null = null;
         for (const a of [2, 4, 8]) {
           const ua = Float64Array.from(u, (x, k) => Math.max(0, prev[k] + a * (x - prev[k])));
           const ga = Float64Array.from(s0.g, (x, j) => prevG![j] + a * (x - prevG![j]));
-          let pk = 0; for (const x of ga) if (Math.abs(x) > pk) pk = Math.abs(x);
+          let pk = 0;
+          for (const x of ga) if (Math.abs(x) > pk) pk = Math.abs(x);
           if (!(pk > 0)) continue;
           for (let j = 0; j < J; j++) ga[j] /= pk;
           for (let k = 0; k < K; k++) ua[k] *= pk;
           const f = objective(ua, { tau0: s0.tau0, h: s0.h, g: ga });
-          if (f < best) { best = f; bestU = ua; } else break;
+          if (f < best) {
+            best = f;
+            bestU = ua;
+          } else break;
         }
         if (bestU) u = bestU;
       }
       prevG = Float64Array.from(s0.g);
-      let dn = 0, dd = 0;
-      for (let k = 0; k < K; k++) { dn += (u[k] - prev[k]) ** 2; dd += u[k] ** 2; }
+      let dn = 0,
+        dd = 0;
+      for (let k = 0; k < K; k++) {
+        dn += (u[k] - prev[k]) ** 2;
+        dd += u[k] ** 2;
+      }
       prev = Float64Array.from(u);
-      if (iter >= 5 && dd > 0 && Math.sqrt(dn / dd) < tolerance) { converged = true; break; }
+      if (iter >= 5 && dd > 0 && Math.sqrt(dn / dd) < tolerance) {
+        converged = true;
+        break;
+      }
     }
     if (iter > maxIt) iter = maxIt;
     // the final amplitudes with the potential fixed, smoothness weight by GCV (or as given)
@@ -533,22 +769,42 @@ export function velocityDistribution(set: SweepSet, options: VelocityDistributio
   blocks.forEach((bl, i) => {
     const m = bl.t.length;
     const fitv = new Float64Array(m);
-    for (let r = 0; r < m; r++) { let s = 0; for (let k = 0; k < K; k++) s += Araw[(off + r) * K + k] * u[k]; fitv[r] = s * bl.sigma; }
+    for (let r = 0; r < m; r++) {
+      let s = 0;
+      for (let k = 0; k < K; k++) s += Araw[(off + r) * K + k] * u[k];
+      fitv[r] = s * bl.sigma;
+    }
     // nuisance: least squares of (y - model) on the block's basis
     const res = new Float64Array(m);
     for (let r = 0; r < m; r++) res[r] = (bl.y[r] - fitv[r]) / bl.sigma;
     const before = Float64Array.from(res);
-    for (const e of bases[i]) { let d = 0; for (let r = 0; r < m; r++) d += e[r] * res[r]; for (let r = 0; r < m; r++) res[r] -= d * e[r]; }
+    for (const e of bases[i]) {
+      let d = 0;
+      for (let r = 0; r < m; r++) d += e[r] * res[r];
+      for (let r = 0; r < m; r++) res[r] -= d * e[r];
+    }
     for (let r = 0; r < m; r++) fitv[r] += (before[r] - res[r]) * bl.sigma;
-    let ss = 0, sy = 0, mean = 0;
+    let ss = 0,
+      sy = 0,
+      mean = 0;
     for (let r = 0; r < m; r++) mean += bl.y[r] / m;
-    for (let r = 0; r < m; r++) { ss += (res[r] * bl.sigma) ** 2; sy += (bl.y[r] - mean) ** 2; }
+    for (let r = 0; r < m; r++) {
+      ss += (res[r] * bl.sigma) ** 2;
+      sy += (bl.y[r] - mean) ** 2;
+    }
     reconstruction.push({ distanceMm: bl.distanceMm, t: bl.t, y: bl.y, fit: fitv });
     residuals.push({
-      distance_mm: bl.distanceMm, sweeps: prep.perSweep[i].length, samples: m, fit_from_ms: bl.t[0], fit_to_ms: bl.t[m - 1],
-      rms_data: Math.sqrt(sy / m), rms_residual: Math.sqrt(ss / m), relative_residual: Math.sqrt(ss / Math.max(sy, 1e-300)),
+      distance_mm: bl.distanceMm,
+      sweeps: prep.perSweep[i].length,
+      samples: m,
+      fit_from_ms: bl.t[0],
+      fit_to_ms: bl.t[m - 1],
+      rms_data: Math.sqrt(sy / m),
+      rms_residual: Math.sqrt(ss / m),
+      relative_residual: Math.sqrt(ss / Math.max(sy, 1e-300)),
       noise_sd: notes.some((n) => n.startsWith('no quiet window')) ? null : bl.sigma,
-      chi2_per_sample: notes.some((n) => n.startsWith('no quiet window')) ? null : ss / (bl.sigma * bl.sigma) / m, units: set.units,
+      chi2_per_sample: notes.some((n) => n.startsWith('no quiet window')) ? null : ss / (bl.sigma * bl.sigma) / m,
+      units: set.units,
     });
     off += m;
   });
@@ -557,8 +813,12 @@ export function velocityDistribution(set: SweepSet, options: VelocityDistributio
   const repsU: Float64Array[] = [];
   for (let rep = 0; rep < nBoot; rep++) {
     const ys = prep.perSweep.map((sw2) => {
-      const m = sw2[0].length, y = new Float64Array(m);
-      for (let j = 0; j < sw2.length; j++) { const pick = sw2[Math.floor(rng.uniform() * sw2.length)]; for (let r = 0; r < m; r++) y[r] += pick[r] / sw2.length; }
+      const m = sw2[0].length,
+        y = new Float64Array(m);
+      for (let j = 0; j < sw2.length; j++) {
+        const pick = sw2[Math.floor(rng.uniform() * sw2.length)];
+        for (let r = 0; r < m; r++) y[r] += pick[r] / sw2.length;
+      }
       return y;
     });
     const bs = dataVector(blocks, bases, ys);
@@ -571,82 +831,176 @@ export function velocityDistribution(set: SweepSet, options: VelocityDistributio
   const nTot = (x: Float64Array) => x.reduce((s, y) => s + y, 0);
   const nu = numberOf(u);
   const repsN = repsU.map(numberOf);
-  const norm = (x: Float64Array) => { const s = nTot(x); return Float64Array.from(x, (y) => (s > 0 ? y / s : NaN)); };
-  const band = (reps: Float64Array[], k: number, lo: boolean) => quantile(reps.map((r) => norm(r)[k]), lo ? 0.025 : 0.975);
+  const norm = (x: Float64Array) => {
+    const s = nTot(x);
+    return Float64Array.from(x, (y) => (s > 0 ? y / s : NaN));
+  };
+  const band = (reps: Float64Array[], k: number, lo: boolean) =>
+    quantile(
+      reps.map((r) => norm(r)[k]),
+      lo ? 0.025 : 0.975,
+    );
   const grid: Row[] = [];
-  const nN = norm(nu), nA = norm(u);
+  const nN = norm(nu),
+    nA = norm(u);
   for (let k = 0; k < K; k++) {
     grid.push({
-      velocity_m_s: v[k], bin_low_m_s: e[k], bin_high_m_s: e[k + 1], amplitude: u[k], amplitude_fraction: nA[k],
-      amplitude_fraction_ci95_low: nBoot ? band(repsU, k, true) : null, amplitude_fraction_ci95_high: nBoot ? band(repsU, k, false) : null,
-      number_fraction: nN[k], number_fraction_ci95_low: nBoot ? band(repsN, k, true) : null, number_fraction_ci95_high: nBoot ? band(repsN, k, false) : null,
-      number_density_per_m_s: nN[k] / (e[k + 1] - e[k]), units: set.units,
+      velocity_m_s: v[k],
+      bin_low_m_s: e[k],
+      bin_high_m_s: e[k + 1],
+      amplitude: u[k],
+      amplitude_fraction: nA[k],
+      amplitude_fraction_ci95_low: nBoot ? band(repsU, k, true) : null,
+      amplitude_fraction_ci95_high: nBoot ? band(repsU, k, false) : null,
+      number_fraction: nN[k],
+      number_fraction_ci95_low: nBoot ? band(repsN, k, true) : null,
+      number_fraction_ci95_high: nBoot ? band(repsN, k, false) : null,
+      number_density_per_m_s: nN[k] / (e[k + 1] - e[k]),
+      units: set.units,
     });
   }
   // classes
   const preset = resolvePreset(options.classes ?? D.classes);
   const temps = new Set(set.conditions.map((c) => c.temperatureC));
-  const T = options.temperatureC ?? (temps.size === 1 && typeof [...temps][0] === 'number' ? ([...temps][0] as number) : undefined);
+  const T =
+    options.temperatureC ??
+    (temps.size === 1 && typeof [...temps][0] === 'number' ? ([...temps][0] as number) : undefined);
   const classRanges = preset.classes.map((c) => ({ name: c.name, range: scaledRange(c, preset, T) }));
   const classes: Row[] = [];
   const percentiles: Row[] = [];
   const pcts = D.percentiles;
-  const scopes: { name: string; w: Float64Array | null; range: [number, number] | null }[] = [{ name: 'all', w: null, range: null }];
+  const scopes: { name: string; w: Float64Array | null; range: [number, number] | null }[] = [
+    { name: 'all', w: null, range: null },
+  ];
   for (const c of classRanges) scopes.push({ name: c.name, w: overlap(e, c.range[0], c.range[1]), range: c.range });
   const masked = (x: Float64Array, w: Float64Array | null) => (w ? Float64Array.from(x, (y, k) => y * w[k]) : x);
   for (const sc of scopes) {
-    for (const [weighting, point, reps] of [['number', nu, repsN], ['amplitude', u, repsU]] as const) {
+    for (const [weighting, point, reps] of [
+      ['number', nu, repsN],
+      ['amplitude', u, repsU],
+    ] as const) {
       const mp = masked(point, sc.w);
       if (!(nTot(mp) > 0)) continue;
       for (const pc of pcts) {
         let est = percentile(v, mp, pc / 100);
         if (sc.range) est = Math.min(Math.max(est, sc.range[0]), sc.range[1]);
-        const rv = reps.map((r) => { const x = percentile(v, masked(r, sc.w), pc / 100); return sc.range ? Math.min(Math.max(x, sc.range[0]), sc.range[1]) : x; });
-        percentiles.push({ scope: sc.name, weighting, percentile: pc, velocity_m_s: est, ci95_low_m_s: nBoot ? quantile(rv, 0.025) : null, ci95_high_m_s: nBoot ? quantile(rv, 0.975) : null });
+        const rv = reps.map((r) => {
+          const x = percentile(v, masked(r, sc.w), pc / 100);
+          return sc.range ? Math.min(Math.max(x, sc.range[0]), sc.range[1]) : x;
+        });
+        percentiles.push({
+          scope: sc.name,
+          weighting,
+          percentile: pc,
+          velocity_m_s: est,
+          ci95_low_m_s: nBoot ? quantile(rv, 0.025) : null,
+          ci95_high_m_s: nBoot ? quantile(rv, 0.975) : null,
+        });
       }
     }
     if (!sc.range) continue;
     const frac = (x: Float64Array) => nTot(masked(x, sc.w)) / nTot(x);
     const st: string[] = [];
-    if (sc.range[1] <= v[0] || sc.range[0] >= v[K - 1]) st.push(`range outside the velocity grid (${fmt(v[0])}-${fmt(v[K - 1])} m/s): not measured here`);
-    else if (sc.range[0] < e[0] || sc.range[1] > e[K]) st.push(`range only partly inside the velocity grid (${fmt(e[0])}-${fmt(e[K])} m/s)`);
+    if (sc.range[1] <= v[0] || sc.range[0] >= v[K - 1])
+      st.push(`range outside the velocity grid (${fmt(v[0])}-${fmt(v[K - 1])} m/s): not measured here`);
+    else if (sc.range[0] < e[0] || sc.range[1] > e[K])
+      st.push(`range only partly inside the velocity grid (${fmt(e[0])}-${fmt(e[K])} m/s)`);
     classes.push({
-      class: sc.name, range_low_m_s: sc.range[0], range_high_m_s: sc.range[1],
-      number_fraction: st[0]?.startsWith('range outside') ? null : frac(nu), number_fraction_ci95_low: nBoot ? quantile(repsN.map(frac), 0.025) : null, number_fraction_ci95_high: nBoot ? quantile(repsN.map(frac), 0.975) : null,
-      amplitude_fraction: st[0]?.startsWith('range outside') ? null : frac(u), amplitude_fraction_ci95_low: nBoot ? quantile(repsU.map(frac), 0.025) : null, amplitude_fraction_ci95_high: nBoot ? quantile(repsU.map(frac), 0.975) : null,
+      class: sc.name,
+      range_low_m_s: sc.range[0],
+      range_high_m_s: sc.range[1],
+      number_fraction: st[0]?.startsWith('range outside') ? null : frac(nu),
+      number_fraction_ci95_low: nBoot ? quantile(repsN.map(frac), 0.025) : null,
+      number_fraction_ci95_high: nBoot ? quantile(repsN.map(frac), 0.975) : null,
+      amplitude_fraction: st[0]?.startsWith('range outside') ? null : frac(u),
+      amplitude_fraction_ci95_low: nBoot ? quantile(repsU.map(frac), 0.025) : null,
+      amplitude_fraction_ci95_high: nBoot ? quantile(repsU.map(frac), 0.975) : null,
       status: st.length ? st.join('; ') : 'ok',
     });
   }
-  const sfpRows: Row[] = Array.from(sfp.g, (g, j) => ({ time_from_arrival_ms: sfp.tau0 + j * sfp.h, sfp: g, velocity_m_s: vRef }));
+  const sfpRows: Row[] = Array.from(sfp.g, (g, j) => ({
+    time_from_arrival_ms: sfp.tau0 + j * sfp.h,
+    sfp: g,
+    velocity_m_s: vRef,
+  }));
   // status
   const st: string[] = [];
   if (!converged) st.push(`amplitudes and potential did not settle in ${iterations} alternations`);
   const tot = nTot(u);
   const edgeMass = (u[0] + u[1] + u[K - 2] + u[K - 1]) / Math.max(tot, 1e-300);
   if (!(tot > 0)) st.push('no fibres found: the distribution is empty');
-  else if (edgeMass > 0.05) st.push(`${(100 * edgeMass).toFixed(0)}% of the amplitude lies in the two outermost bins at either end of the grid: the distribution may extend beyond ${fmt(v[0])}-${fmt(v[K - 1])} m/s`);
-  if (lambdaOpt === 'gcv' && sol.lambda !== undefined && (sol.lambda <= 1e-8 || sol.lambda >= 1e2)) st.push('the GCV minimum lies at the edge of the smoothness grid');
-  const fitInfo: VelocityDistributionFit = { method, lambda: sol.lambda, gcv: sol.gcv, df: sol.df, iterations: iter, converged, status: st.length ? st.join('; ') : 'ok', notes };
+  else if (edgeMass > 0.05)
+    st.push(
+      `${(100 * edgeMass).toFixed(0)}% of the amplitude lies in the two outermost bins at either end of the grid: the distribution may extend beyond ${fmt(v[0])}-${fmt(v[K - 1])} m/s`,
+    );
+  if (lambdaOpt === 'gcv' && sol.lambda !== undefined && (sol.lambda <= 1e-8 || sol.lambda >= 1e2))
+    st.push('the GCV minimum lies at the edge of the smoothness grid');
+  const fitInfo: VelocityDistributionFit = {
+    method,
+    lambda: sol.lambda,
+    gcv: sol.gcv,
+    df: sol.df,
+    iterations: iter,
+    converged,
+    status: st.length ? st.join('; ') : 'ok',
+    notes,
+  };
   const step: Step = {
     verb: 'velocityDistribution',
     options: {
-      method, distances: distances.map((d) => `${fmt(d)}`).join(', ') + ' mm', velocityRange: [v[0], v[K - 1]], nVelocities: K, fitWindow: fit, fitStartByDistance: options.fitStartByDistance ?? {},
-      sfp: sfpGiven ? 'given' : 'estimate', sfpWindow: sw, sfpSmoothing: smoothing, amplitudeExponent: p, durationExponent: q, referenceVelocity: vRef,
-      bipolarSeparationMm: bip, utilisationMs: tu, drift, artifactTauMs: taus, lambda: lambdaOpt, alternationLambda, chosenLambda: sol.lambda, bootstrap: nBoot, seed,
-      twoDistanceLambda: twoLambda, classSource: `${preset.source}${T !== undefined ? `, scaled to ${T} C with Q10 ${preset.q10}` : ''}`,
+      method,
+      distances: distances.map((d) => `${fmt(d)}`).join(', ') + ' mm',
+      velocityRange: [v[0], v[K - 1]],
+      nVelocities: K,
+      fitWindow: fit,
+      fitStartByDistance: options.fitStartByDistance ?? {},
+      sfp: sfpGiven ? 'given' : 'estimate',
+      sfpWindow: sw,
+      sfpSmoothing: smoothing,
+      amplitudeExponent: p,
+      durationExponent: q,
+      referenceVelocity: vRef,
+      bipolarSeparationMm: bip,
+      utilisationMs: tu,
+      drift,
+      artifactTauMs: taus,
+      lambda: lambdaOpt,
+      alternationLambda,
+      chosenLambda: sol.lambda,
+      bootstrap: nBoot,
+      seed,
+      twoDistanceLambda: twoLambda,
+      classSource: `${preset.source}${T !== undefined ? `, scaled to ${T} C with Q10 ${preset.q10}` : ''}`,
     },
     version: VERSION,
   };
-  return new VelocityDistributionResult(grid, percentiles, classes, residuals, sfpRows, reconstruction, fitInfo, set.units, { number: repsN, amplitude: repsU }, [...set.history, step], set.sources);
+  return new VelocityDistributionResult(
+    grid,
+    percentiles,
+    classes,
+    residuals,
+    sfpRows,
+    reconstruction,
+    fitInfo,
+    set.units,
+    { number: repsN, amplitude: repsU },
+    [...set.history, step],
+    set.sources,
+  );
 }
 
-function trG(G: Float64Array, K: number): number { let s = 0; for (let i = 0; i < K; i++) s += G[i * K + i]; return s; }
+function trG(G: Float64Array, K: number): number {
+  let s = 0;
+  for (let i = 0; i < K; i++) s += G[i * K + i];
+  return s;
+}
 
 /** The potential of the result at time s from arrival (ms), for plotting; 0 outside its support. */
 export function sfpValue(result: VelocityDistributionResult, s: number): number {
   const rows = result.sfp;
   if (rows.length < 2) return 0;
-  const tau0 = rows[0].time_from_arrival_ms as number, h = (rows[1].time_from_arrival_ms as number) - tau0;
+  const tau0 = rows[0].time_from_arrival_ms as number,
+    h = (rows[1].time_from_arrival_ms as number) - tau0;
   return sfpAt({ tau0, h, g: Float64Array.from(rows, (r) => r.sfp as number) }, s);
 }
 
@@ -660,18 +1014,30 @@ export function sfpValue(result: VelocityDistributionResult, s: number): number 
  * (after / before, in signal units), which keeps the loss in absolute terms.
  * @throws OptionError when the grids differ (give both the same velocityRange and nVelocities).
  */
-export function compareVelocityDistributions(before: VelocityDistributionResult, after: VelocityDistributionResult): { grid: Row[]; classes: Row[] } {
-  const va = before.velocities, vb = after.velocities;
+export function compareVelocityDistributions(
+  before: VelocityDistributionResult,
+  after: VelocityDistributionResult,
+): { grid: Row[]; classes: Row[] } {
+  const va = before.velocities,
+    vb = after.velocities;
   if (va.length !== vb.length || va.some((x, i) => Math.abs(x / vb[i] - 1) > 1e-9)) {
-    throw new OptionError('the two distributions have different velocity grids; give both the same velocityRange and nVelocities');
+    throw new OptionError(
+      'the two distributions have different velocity grids; give both the same velocityRange and nVelocities',
+    );
   }
   const reps = Math.min(before.replicates.number.length, after.replicates.number.length);
-  const frac = (x: Float64Array) => { const s = x.reduce((a, y) => a + y, 0); return Float64Array.from(x, (y) => y / s); };
+  const frac = (x: Float64Array) => {
+    const s = x.reduce((a, y) => a + y, 0);
+    return Float64Array.from(x, (y) => y / s);
+  };
   const grid: Row[] = va.map((v, k) => {
     const row: Row = { velocity_m_s: v };
     for (const w of ['number', 'amplitude'] as const) {
       const d = (after.grid[k][`${w}_fraction`] as number) - (before.grid[k][`${w}_fraction`] as number);
-      const rd = Array.from({ length: reps }, (_, i) => frac(after.replicates[w][i])[k] - frac(before.replicates[w][i])[k]);
+      const rd = Array.from(
+        { length: reps },
+        (_, i) => frac(after.replicates[w][i])[k] - frac(before.replicates[w][i])[k],
+      );
       row[`${w}_fraction_difference`] = d;
       row[`${w}_difference_ci95_low`] = reps ? quantile(rd, 0.025) : null;
       row[`${w}_difference_ci95_high`] = reps ? quantile(rd, 0.975) : null;
@@ -682,7 +1048,8 @@ export function compareVelocityDistributions(before: VelocityDistributionResult,
     const ca = after.classes.find((c) => c.class === cb.class);
     const row: Row = { class: cb.class, range_low_m_s: cb.range_low_m_s, range_high_m_s: cb.range_high_m_s };
     for (const w of ['number', 'amplitude'] as const) {
-      const a = ca?.[`${w}_fraction`], b = cb[`${w}_fraction`];
+      const a = ca?.[`${w}_fraction`],
+        b = cb[`${w}_fraction`];
       row[`${w}_fraction_before`] = b ?? null;
       row[`${w}_fraction_after`] = a ?? null;
       row[`${w}_fraction_difference`] = typeof a === 'number' && typeof b === 'number' ? a - b : null;
@@ -693,7 +1060,8 @@ export function compareVelocityDistributions(before: VelocityDistributionResult,
     const sb = sumIn(before);
     row.amplitude_ratio = sb > 0 ? sumIn(after) / sb : null;
     const rr = Array.from({ length: reps }, (_, i) => {
-      const s0 = before.replicates.amplitude[i].reduce((s, x, k) => s + x * ov[k], 0), s1 = after.replicates.amplitude[i].reduce((s, x, k) => s + x * ov[k], 0);
+      const s0 = before.replicates.amplitude[i].reduce((s, x, k) => s + x * ov[k], 0),
+        s1 = after.replicates.amplitude[i].reduce((s, x, k) => s + x * ov[k], 0);
       return s0 > 0 ? s1 / s0 : NaN;
     });
     row.amplitude_ratio_ci95_low = reps ? quantile(rr, 0.025) : null;

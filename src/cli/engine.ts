@@ -45,20 +45,34 @@ export async function readyFor(manifestPath: string): Promise<void> {
 }
 
 /** Process one preparation (by its file indices) in this thread. */
-export function processPreparation(manifestPath: string, fileIndices: number[] | null, prep: string | null, options: PipelineOptions): PrepOutput {
+export function processPreparation(
+  manifestPath: string,
+  fileIndices: number[] | null,
+  prep: string | null,
+  options: PipelineOptions,
+): PrepOutput {
   const set = readManifest(manifestPath, fileIndices ? { only: (_f, i) => fileIndices.includes(i) } : {});
   if (prep !== null && !fileIndices) {
     const part = byPreparation(set).find((p) => p.preparation === prep);
-    if (!part) throw new InputError({ file: manifestPath }, `no sweeps of preparation ${prep}`, 'the preparation to be listed');
+    if (!part)
+      throw new InputError({ file: manifestPath }, `no sweeps of preparation ${prep}`, 'the preparation to be listed');
     return runPreparation(part.set, options);
   }
   return runPreparation(set, options);
 }
 
-function runInWorkers(tasks: { prep: string; files: number[] | null }[], manifest: string, options: PipelineOptions, jobs: number, onProgress?: RunOptions['onProgress']): Promise<PrepOutput[]> {
+function runInWorkers(
+  tasks: { prep: string; files: number[] | null }[],
+  manifest: string,
+  options: PipelineOptions,
+  jobs: number,
+  onProgress?: RunOptions['onProgress'],
+): Promise<PrepOutput[]> {
   return new Promise((resolvePromise, reject) => {
     const results: PrepOutput[] = [];
-    let next = 0, done = 0, failed = false;
+    let next = 0,
+      done = 0,
+      failed = false;
     const workers: Worker[] = [];
     const current = new Map<Worker, string>();
     const fail = (e: Error) => {
@@ -68,14 +82,21 @@ function runInWorkers(tasks: { prep: string; files: number[] | null }[], manifes
       reject(e);
     };
     const startOne = (w: Worker) => {
-      if (next >= tasks.length) { current.delete(w); void w.terminate(); return; }
+      if (next >= tasks.length) {
+        current.delete(w);
+        void w.terminate();
+        return;
+      }
       const t = tasks[next++];
       current.set(w, t.prep);
       w.postMessage({ manifest, files: t.files, prep: t.prep, options });
     };
     const heap = workerHeapMb();
     for (let k = 0; k < Math.min(jobs, tasks.length); k++) {
-      const w = new Worker(join(__dirname, 'worker.js'), heap ? { resourceLimits: { maxOldGenerationSizeMb: heap } } : {});
+      const w = new Worker(
+        join(__dirname, 'worker.js'),
+        heap ? { resourceLimits: { maxOldGenerationSizeMb: heap } } : {},
+      );
       workers.push(w);
       type Failure = { name: string; message: string; place?: object; problem?: string; expected?: string };
       w.on('message', (msg: { ok: boolean; output?: PrepOutput; error?: Failure }) => {
@@ -83,7 +104,8 @@ function runInWorkers(tasks: { prep: string; files: number[] | null }[], manifes
         if (!msg.ok) {
           const er = msg.error!;
           const e = new Error(er.message);
-          if (er.name === 'InputError' || er.name === 'ConfigError') Object.assign(e, { place: er.place, problem: er.problem, expected: er.expected });
+          if (er.name === 'InputError' || er.name === 'ConfigError')
+            Object.assign(e, { place: er.place, problem: er.problem, expected: er.expected });
           e.name = er.name;
           fail(e);
           return;
@@ -95,19 +117,25 @@ function runInWorkers(tasks: { prep: string; files: number[] | null }[], manifes
           current.clear(); // the workers now stop on purpose
           workers.forEach((x) => void x.terminate());
           resolvePromise(results);
-        }
-        else startOne(w);
+        } else startOne(w);
       });
       // a worker that dies (out of memory, exit, crash) ends the run with a clear error, never a hang or a silent exit 0
       let why = '';
       w.on('error', (e) => {
-        why = (e as NodeJS.ErrnoException).code === 'ERR_WORKER_OUT_OF_MEMORY' ? 'ran out of memory' : `crashed (${e.message})`;
+        why =
+          (e as NodeJS.ErrnoException).code === 'ERR_WORKER_OUT_OF_MEMORY'
+            ? 'ran out of memory'
+            : `crashed (${e.message})`;
       });
       w.on('exit', (code) => {
         const prep = current.get(w);
         if (failed || prep === undefined) return;
-        fail(new ThreadError(`the --jobs worker thread processing preparation ${prep} ${why || `exited (code ${code})`} before it finished; `
-          + 'no bundle was written (try fewer --jobs, or --jobs 1)'));
+        fail(
+          new ThreadError(
+            `the --jobs worker thread processing preparation ${prep} ${why || `exited (code ${code})`} before it finished; ` +
+              'no bundle was written (try fewer --jobs, or --jobs 1)',
+          ),
+        );
       });
       startOne(w);
     }
@@ -119,7 +147,8 @@ export function workerHeapMb(): number | undefined {
   const env = process.env.FASCICLE_WORKER_HEAP_MB;
   if (env === undefined || env === '') return undefined;
   const v = Number(env);
-  if (!Number.isInteger(v) || v < 8) throw new OptionError(`invalid FASCICLE_WORKER_HEAP_MB: ${JSON.stringify(env)}; must be an integer >= 8 (MB)`);
+  if (!Number.isInteger(v) || v < 8)
+    throw new OptionError(`invalid FASCICLE_WORKER_HEAP_MB: ${JSON.stringify(env)}; must be an integer >= 8 (MB)`);
   return v;
 }
 
@@ -132,7 +161,9 @@ export async function computeOutputs(o: RunOptions, options: PipelineOptions): P
   if (preps) tasks = [...preps].map(([prep, files]) => ({ prep, files }));
   else {
     const all = readManifest(o.manifest);
-    tasks = [...new Set(all.conditions.map((c) => String(c.preparation ?? '')))].sort().map((prep) => ({ prep, files: null }));
+    tasks = [...new Set(all.conditions.map((c) => String(c.preparation ?? '')))]
+      .sort()
+      .map((prep) => ({ prep, files: null }));
   }
   if (o.shard) tasks = tasks.filter((_, i) => i % o.shard!.count === o.shard!.index - 1);
   const jobs = o.jobs ?? 1;
@@ -152,7 +183,8 @@ export async function computeOutputs(o: RunOptions, options: PipelineOptions): P
 export function analysisOptions(manifestPath: string): PipelineOptions {
   const m = readManifestJson(manifestPath).manifest;
   const o = { ...(m.analysis ?? {}) } as PipelineOptions;
-  if (m.classPreset !== undefined) o.components = { ...(o.components ?? {}), preset: o.components?.preset ?? m.classPreset };
+  if (m.classPreset !== undefined)
+    o.components = { ...(o.components ?? {}), preset: o.components?.preset ?? m.classPreset };
   return o;
 }
 
@@ -164,8 +196,15 @@ export function manifestInputs(manifestPath: string): string[] {
 }
 
 /** Write the bundle of a combined study. */
-export async function writeStudyBundle(out: string, study: Study, rerun: Provenance['rerun'], preparations: number, figures = true): Promise<string[]> {
-  const files0 = rerun?.manifest && existsSync(rerun.manifest) ? readManifestJson(rerun.manifest).manifest.files.length : undefined;
+export async function writeStudyBundle(
+  out: string,
+  study: Study,
+  rerun: Provenance['rerun'],
+  preparations: number,
+  figures = true,
+): Promise<string[]> {
+  const files0 =
+    rerun?.manifest && existsSync(rerun.manifest) ? readManifestJson(rerun.manifest).manifest.files.length : undefined;
   const named = rerun?.manifest && existsSync(rerun.manifest) ? manifestInputs(rerun.manifest) : [];
   const inputs = [...named, ...study.sources.map((s) => s.path)];
   checkOutput(out, inputs);
@@ -176,28 +215,49 @@ export async function writeStudyBundle(out: string, study: Study, rerun: Provena
   const methods = methodsText(study.history, { preparations, files: files0 });
   // one offline page with the summary, figures, tables, flags, methods and provenance (uses the bundle's plotly copy)
   files['report.html'] = reportHtml({ study, methods, provenance, bundle: true, ...(figures ? {} : { figures: [] }) });
-  return writeBundle(out, {
-    tables: study.tables as unknown as Record<string, Record<string, unknown>[]>,
-    methods,
-    provenance,
-    files: { ...files, 'notes.txt': study.notes.length ? study.notes.join('\n') + '\n' : 'no notes\n' },
-  }, { inputs });
+  return writeBundle(
+    out,
+    {
+      tables: study.tables as unknown as Record<string, Record<string, unknown>[]>,
+      methods,
+      provenance,
+      files: { ...files, 'notes.txt': study.notes.length ? study.notes.join('\n') + '\n' : 'no notes\n' },
+    },
+    { inputs },
+  );
 }
 
 /** Run a manifest's study and write its bundle (or, with a shard, the shard's partial output). */
 export async function runStudy(o: RunOptions): Promise<{ out: string; study: Study | null; outputs: PrepOutput[] }> {
-  if (o.jobs !== undefined && !(Number.isInteger(o.jobs) && o.jobs >= 1 && o.jobs <= 64)) throw new OptionError(`invalid --jobs: ${o.jobs}; must be an integer 1..64`);
+  if (o.jobs !== undefined && !(Number.isInteger(o.jobs) && o.jobs >= 1 && o.jobs <= 64))
+    throw new OptionError(`invalid --jobs: ${o.jobs}; must be an integer 1..64`);
   workerHeapMb(); // a bad FASCICLE_WORKER_HEAP_MB is an error even when no worker thread is started
   const options = analysisOptions(o.manifest);
   // refuse a destination that would lose files before any work is done
   checkOutput(o.out, manifestInputs(o.manifest));
   const outputs = await computeOutputs(o, options);
-  const rerun = { manifest: resolve(o.manifest), options, ...(o.shard ? { shard: `${o.shard.index}/${o.shard.count}` } : {}) };
+  const rerun = {
+    manifest: resolve(o.manifest),
+    options,
+    ...(o.shard ? { shard: `${o.shard.index}/${o.shard.count}` } : {}),
+  };
   if (o.shard) {
     const inputs = [...manifestInputs(o.manifest), ...outputs.flatMap((p) => p.sources.map((s) => s.path))];
-    const prov = relativeProvenance(makeProvenance([], outputs.flatMap((p) => p.sources), rerun), rerun.manifest, o.out);
+    const prov = relativeProvenance(
+      makeProvenance(
+        [],
+        outputs.flatMap((p) => p.sources),
+        rerun,
+      ),
+      rerun.manifest,
+      o.out,
+    );
     const shard = { shard: rerun.shard, manifest: prov.rerun!.manifest, options, outputs };
-    writeBundle(o.out, { tables: {}, methods: '', provenance: prov, files: { 'shard.json': JSON.stringify(shard) } }, { inputs });
+    writeBundle(
+      o.out,
+      { tables: {}, methods: '', provenance: prov, files: { 'shard.json': JSON.stringify(shard) } },
+      { inputs },
+    );
     return { out: o.out, study: null, outputs };
   }
   const study = combineStudy(outputs, options);
@@ -208,27 +268,36 @@ export async function runStudy(o: RunOptions): Promise<{ out: string; study: Stu
 /** Merge shard outputs into one bundle. */
 export async function mergeShards(dirs: string[], out: string): Promise<Study> {
   const all: PrepOutput[] = [];
-  let manifest = '', options: PipelineOptions = {};
+  let manifest = '',
+    options: PipelineOptions = {};
   for (const d of dirs) {
     const p = join(d, 'shard.json');
-    if (!existsSync(p)) throw new InputError({ file: p }, 'not found', 'a shard output written by "fascicle run --shard i/n"');
+    if (!existsSync(p))
+      throw new InputError({ file: p }, 'not found', 'a shard output written by "fascicle run --shard i/n"');
     let s: { manifest: string; options: PipelineOptions; outputs: PrepOutput[] };
     try {
       s = JSON.parse(readFileSync(p, 'utf8'));
     } catch (e) {
-      throw new InputError({ file: p },
+      throw new InputError(
+        { file: p },
         `invalid JSON (${(e as Error).message})`,
-        'a shard output written by "fascicle run --shard i/n"');
+        'a shard output written by "fascicle run --shard i/n"',
+      );
     }
-    if (!s || typeof s.manifest !== 'string' || !Array.isArray(s.outputs)) throw new InputError({ file: p },
-      'not a shard output',
-      'a shard output written by "fascicle run --shard i/n"');
-    manifest = resolve(d, s.manifest); options = s.options;
+    if (!s || typeof s.manifest !== 'string' || !Array.isArray(s.outputs))
+      throw new InputError({ file: p }, 'not a shard output', 'a shard output written by "fascicle run --shard i/n"');
+    manifest = resolve(d, s.manifest);
+    options = s.options;
     all.push(...s.outputs);
   }
   const preps = all.map((o) => o.preparation);
   const dup = preps.find((p, i) => preps.indexOf(p) !== i);
-  if (dup !== undefined) throw new InputError({ file: dirs.join(', ') }, `preparation ${dup} appears in more than one shard`, 'each shard of one run, once');
+  if (dup !== undefined)
+    throw new InputError(
+      { file: dirs.join(', ') },
+      `preparation ${dup} appears in more than one shard`,
+      'each shard of one run, once',
+    );
   const study = combineStudy(all, options);
   await writeStudyBundle(out, study, { manifest, options }, all.length);
   return study;

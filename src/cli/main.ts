@@ -91,10 +91,18 @@ Prints the version.`,
 
 const COMMANDS = ['run', 'merge', 'rerun', 'help', 'version'];
 const VALUE_OPTIONS: Record<string, string[]> = {
-  run: ['out', 'jobs', 'shard', 'nwb'], merge: ['out'], rerun: ['manifest'], help: [], version: [],
+  run: ['out', 'jobs', 'shard', 'nwb'],
+  merge: ['out'],
+  rerun: ['manifest'],
+  help: [],
+  version: [],
 };
 const FLAG_OPTIONS: Record<string, string[]> = {
-  run: ['no-figures', 'quiet', 'help', 'nwb-raw'], merge: ['help'], rerun: ['help'], help: ['help'], version: ['help'],
+  run: ['no-figures', 'quiet', 'help', 'nwb-raw'],
+  merge: ['help'],
+  rerun: ['help'],
+  help: ['help'],
+  version: ['help'],
 };
 
 class UsageError extends Error {}
@@ -116,7 +124,8 @@ function parse(argv: string[]): { cmd: string; pos: string[]; flags: Record<stri
   const [cmd = '', ...rest] = argv;
   const pos: string[] = [];
   const flags: Record<string, string | boolean> = {};
-  const values = VALUE_OPTIONS[cmd] ?? [], bools = FLAG_OPTIONS[cmd] ?? ['help'];
+  const values = VALUE_OPTIONS[cmd] ?? [],
+    bools = FLAG_OPTIONS[cmd] ?? ['help'];
   for (let i = 0; i < rest.length; i++) {
     const a = rest[i];
     if (a === '--help' || a === '-h') flags.help = true;
@@ -131,7 +140,9 @@ function parse(argv: string[]): { cmd: string; pos: string[]; flags: Record<stri
       if (!values.includes(k)) {
         const all = [...values, ...bools];
         const near = nearest(k, all);
-        throw new UsageError(`unknown option --${k} for "${cmd}"${near ? ` (did you mean --${near}?)` : ''}; ${all.length ? `valid options: ${all.map((x) => '--' + x).join(', ')}` : 'it takes no options'}`);
+        throw new UsageError(
+          `unknown option --${k} for "${cmd}"${near ? ` (did you mean --${near}?)` : ''}; ${all.length ? `valid options: ${all.map((x) => '--' + x).join(', ')}` : 'it takes no options'}`,
+        );
       }
       const v = eq > 0 ? a.slice(eq + 1) : rest[++i];
       if (v === undefined || (eq < 0 && v.startsWith('--'))) throw new UsageError(`option --${k} needs a value`);
@@ -148,7 +159,13 @@ function progressBar(quiet: boolean): ((done: number, total: number, prep: strin
     const { SingleBar, Presets } = require('cli-progress');
     let bar: { start(t: number, v: number): void; update(v: number, p: object): void; stop(): void } | null = null;
     return (done, total, prep) => {
-      if (!bar) { bar = new SingleBar({ format: 'preparations [{bar}] {value}/{total} {prep}', stream: process.stderr }, Presets.shades_classic); bar!.start(total, 0); }
+      if (!bar) {
+        bar = new SingleBar(
+          { format: 'preparations [{bar}] {value}/{total} {prep}', stream: process.stderr },
+          Presets.shades_classic,
+        );
+        bar!.start(total, 0);
+      }
       bar!.update(done, { prep });
       if (done === total) bar!.stop();
     };
@@ -159,20 +176,41 @@ function progressBar(quiet: boolean): ((done: number, total: number, prep: strin
 async function main(argv0: string[]): Promise<number> {
   // a leading "--" (npm exec / npx pass it along in some versions) only ends the runner's own options
   const argv = argv0[0] === '--' ? argv0.slice(1) : argv0;
-  if (argv[0] === '--version' || argv[0] === '-v') { console.log(VERSION); return 0; }
-  if (!argv.length) { console.log(HELP.main); return 2; }
-  if (argv[0] === '--help' || argv[0] === '-h') { console.log(HELP.main); return 0; }
+  if (argv[0] === '--version' || argv[0] === '-v') {
+    console.log(VERSION);
+    return 0;
+  }
+  if (!argv.length) {
+    console.log(HELP.main);
+    return 2;
+  }
+  if (argv[0] === '--help' || argv[0] === '-h') {
+    console.log(HELP.main);
+    return 0;
+  }
   if (!COMMANDS.includes(argv[0])) {
     const near = nearest(argv[0], COMMANDS);
-    throw new UsageError(`unknown command "${argv[0]}"${near ? ` (did you mean "${near}"?)` : ''}; expected run, merge, rerun, help or version`);
+    throw new UsageError(
+      `unknown command "${argv[0]}"${near ? ` (did you mean "${near}"?)` : ''}; expected run, merge, rerun, help or version`,
+    );
   }
   const { cmd, pos, flags } = parse(argv);
-  if (flags.help) { console.log(HELP[cmd]); return 0; }
-  if (cmd === 'version') { console.log(VERSION); return 0; }
+  if (flags.help) {
+    console.log(HELP[cmd]);
+    return 0;
+  }
+  if (cmd === 'version') {
+    console.log(VERSION);
+    return 0;
+  }
   if (cmd === 'help') {
     if (pos.length > 1) throw new UsageError('help takes at most one command name');
-    if (!pos.length) { console.log(HELP.main); return 0; }
-    if (!(pos[0] in HELP) || pos[0] === 'main') throw new UsageError(`no help for "${pos[0]}"${didYouMean(pos[0], COMMANDS)}; commands: ${COMMANDS.join(', ')}`);
+    if (!pos.length) {
+      console.log(HELP.main);
+      return 0;
+    }
+    if (!(pos[0] in HELP) || pos[0] === 'main')
+      throw new UsageError(`no help for "${pos[0]}"${didYouMean(pos[0], COMMANDS)}; commands: ${COMMANDS.join(', ')}`);
     console.log(HELP[pos[0]]);
     return 0;
   }
@@ -180,17 +218,31 @@ async function main(argv0: string[]): Promise<number> {
     if (pos.length !== 1) throw new UsageError('run needs exactly one manifest file');
     if (typeof flags.out !== 'string') throw new UsageError('run needs --out <dir>');
     const jobs = flags.jobs === undefined ? 1 : Number(flags.jobs);
-    if (!(Number.isInteger(jobs) && jobs >= 1 && jobs <= 64)) throw new UsageError(`invalid --jobs ${flags.jobs}; must be an integer 1..64`);
+    if (!(Number.isInteger(jobs) && jobs >= 1 && jobs <= 64))
+      throw new UsageError(`invalid --jobs ${flags.jobs}; must be an integer 1..64`);
     let shard: { index: number; count: number } | undefined;
     if (flags.shard !== undefined) {
       const m = /^(\d+)\/(\d+)$/.exec(String(flags.shard));
-      if (!m || !(+m[1] >= 1 && +m[1] <= +m[2])) throw new UsageError(`invalid --shard ${flags.shard}; must be i/n with 1 <= i <= n`);
+      if (!m || !(+m[1] >= 1 && +m[1] <= +m[2]))
+        throw new UsageError(`invalid --shard ${flags.shard}; must be i/n with 1 <= i <= n`);
       shard = { index: +m[1], count: +m[2] };
     }
     const t0 = Date.now();
-    const r = await runStudy({ manifest: pos[0], out: flags.out, jobs, shard, figures: !flags['no-figures'], onProgress: progressBar(!!flags.quiet) });
+    const r = await runStudy({
+      manifest: pos[0],
+      out: flags.out,
+      jobs,
+      shard,
+      figures: !flags['no-figures'],
+      onProgress: progressBar(!!flags.quiet),
+    });
     const secs = ((Date.now() - t0) / 1000).toFixed(1);
-    if (shard) { console.log(`shard ${shard.index}/${shard.count}: ${r.outputs.length} preparation(s) written to ${flags.out} in ${secs} s; combine all shards with "fascicle merge"`); return 0; }
+    if (shard) {
+      console.log(
+        `shard ${shard.index}/${shard.count}: ${r.outputs.length} preparation(s) written to ${flags.out} in ${secs} s; combine all shards with "fascicle merge"`,
+      );
+      return 0;
+    }
     console.log(`fascicle ${VERSION}: analysed ${r.outputs.length} preparation(s) in ${secs} s`);
     if (flags['nwb-raw'] && typeof flags.nwb !== 'string') throw new UsageError('--nwb-raw needs --nwb <file>');
     if (typeof flags.nwb === 'string') await writeStudyNwb(pos[0], flags.nwb, !!flags['nwb-raw'], r.study!);
@@ -217,19 +269,25 @@ function reportStudy(s: Study, out: string): number {
   const at = (r: Record<string, unknown>) => (typeof r.distanceMm === 'number' ? ` at ${r.distanceMm} mm` : '');
   for (const row of s.tables.dose_response_summary) {
     if (typeof row.ic50 !== 'number') continue; // not measured: in the flags
-    console.log(`  IC50 ${row.class}${at(row)}: ${fmt(row.ic50)} ${row.concentrationUnit} `
-      + `(${ci(row.ic50_ci95_low, row.ic50_ci95_high)}), Hill slope ${fmt(row.hill)}`);
+    console.log(
+      `  IC50 ${row.class}${at(row)}: ${fmt(row.ic50)} ${row.concentrationUnit} ` +
+        `(${ci(row.ic50_ci95_low, row.ic50_ci95_high)}), Hill slope ${fmt(row.hill)}`,
+    );
   }
   for (const row of s.tables.strength_duration ?? []) {
     if (row.chronaxie_ms === null) continue;
-    console.log(`  chronaxie ${row.class} (${row.preparation}): ${fmt(row.chronaxie_ms)} ms `
-      + `(${ci(row.chronaxie_ci95_low_ms, row.chronaxie_ci95_high_ms)}), `
-      + `rheobase ${fmt(row.rheobase)}${row.intensityUnit ? ` ${row.intensityUnit}` : ''}`);
+    console.log(
+      `  chronaxie ${row.class} (${row.preparation}): ${fmt(row.chronaxie_ms)} ms ` +
+        `(${ci(row.chronaxie_ci95_low_ms, row.chronaxie_ci95_high_ms)}), ` +
+        `rheobase ${fmt(row.rheobase)}${row.intensityUnit ? ` ${row.intensityUnit}` : ''}`,
+    );
   }
   for (const row of s.tables.paired_pulse_summary ?? []) {
     if (typeof row.r50_ms !== 'number') continue;
-    console.log(`  recovery R50 ${row.class} (${row.preparation}${at(row)}): ${fmt(row.r50_ms)} ms `
-      + `(${ci(row.r50_ci95_low, row.r50_ci95_high)})`);
+    console.log(
+      `  recovery R50 ${row.class} (${row.preparation}${at(row)}): ${fmt(row.r50_ms)} ms ` +
+        `(${ci(row.r50_ci95_low, row.r50_ci95_high)})`,
+    );
   }
   for (const row of s.tables.temperature) {
     if (typeof row.q10 !== 'number') continue;
@@ -250,72 +308,115 @@ const BUNDLE_EXPECTED = 'a bundle folder written by "fascicle run"';
 /** Read a bundle's provenance.json, with clear errors for a missing folder or a missing or corrupt file. */
 function readProvenance(dir: string): Provenance {
   if (!existsSync(dir)) throw new InputError({ file: dir }, 'no such folder', BUNDLE_EXPECTED);
-  if (!statSync(dir).isDirectory()) throw new InputError({ file: dir }, 'this is a file, not a folder', BUNDLE_EXPECTED);
+  if (!statSync(dir).isDirectory())
+    throw new InputError({ file: dir }, 'this is a file, not a folder', BUNDLE_EXPECTED);
   const p = join(dir, 'provenance.json');
-  if (!existsSync(p)) throw new InputError({ file: p },
-    'the bundle has no provenance.json',
-    `${BUNDLE_EXPECTED} (with its provenance.json)`);
+  if (!existsSync(p))
+    throw new InputError(
+      { file: p },
+      'the bundle has no provenance.json',
+      `${BUNDLE_EXPECTED} (with its provenance.json)`,
+    );
   let prov: Provenance;
   try {
     prov = JSON.parse(readFileSync(p, 'utf8'));
   } catch (e) {
-    throw new InputError({ file: p },
+    throw new InputError(
+      { file: p },
       `invalid JSON (${(e as Error).message})`,
-      'the provenance.json fascicle wrote, unedited');
+      'the provenance.json fascicle wrote, unedited',
+    );
   }
-  if (!prov || typeof prov !== 'object' || prov.package !== 'fascicle') throw new InputError({ file: p, field: 'package' },
-    'not a fascicle provenance record',
-    'the provenance.json fascicle wrote, unedited');
-  if (!Array.isArray(prov.inputs)) throw new InputError({ file: p, field: 'inputs' },
-    'no list of inputs',
-    'the provenance.json fascicle wrote, unedited');
-  if (!prov.rerun || typeof prov.rerun.manifest !== 'string') throw new InputError({ file: p, field: 'rerun' },
-    'records no rerunnable analysis (written by the library, not by "fascicle run")',
-    'a bundle written by "fascicle run"');
-  if (prov.rerun.shard) throw new InputError({ file: p, field: 'rerun.shard' },
-    `this is the partial output of shard ${prov.rerun.shard}`,
-    'a whole bundle (merge the shards first with "fascicle merge")');
+  if (!prov || typeof prov !== 'object' || prov.package !== 'fascicle')
+    throw new InputError(
+      { file: p, field: 'package' },
+      'not a fascicle provenance record',
+      'the provenance.json fascicle wrote, unedited',
+    );
+  if (!Array.isArray(prov.inputs))
+    throw new InputError(
+      { file: p, field: 'inputs' },
+      'no list of inputs',
+      'the provenance.json fascicle wrote, unedited',
+    );
+  if (!prov.rerun || typeof prov.rerun.manifest !== 'string')
+    throw new InputError(
+      { file: p, field: 'rerun' },
+      'records no rerunnable analysis (written by the library, not by "fascicle run")',
+      'a bundle written by "fascicle run"',
+    );
+  if (prov.rerun.shard)
+    throw new InputError(
+      { file: p, field: 'rerun.shard' },
+      `this is the partial output of shard ${prov.rerun.shard}`,
+      'a whole bundle (merge the shards first with "fascicle merge")',
+    );
   return prov;
 }
 
 /** Every file under a bundle's tables folder (relative names, sorted). */
 function tableFiles(dir: string): string[] {
   const t = join(dir, 'tables');
-  return existsSync(t) ? readdirSync(t).filter((f) => /\.(csv|json)$/.test(f)).sort() : [];
+  return existsSync(t)
+    ? readdirSync(t)
+        .filter((f) => /\.(csv|json)$/.test(f))
+        .sort()
+    : [];
 }
 
 async function rerun(dir: string, manifestOverride?: string): Promise<number> {
   const prov = readProvenance(dir);
   const manifest = manifestOverride ?? resolve(dir, prov.rerun!.manifest);
   if (!existsSync(manifest)) {
-    throw new InputError({ file: manifest },
+    throw new InputError(
+      { file: manifest },
       'the manifest recorded in the provenance is missing',
-      'the study\'s manifest: copy the study with its bundle (paths are relative), or give it with --manifest <path>');
+      "the study's manifest: copy the study with its bundle (paths are relative), or give it with --manifest <path>",
+    );
   }
   verifyInputs(prov, dirname(resolve(manifest)));
   const tmp = mkdtempSync(join(tmpdir(), 'fascicle-rerun-'));
   try {
     const out = join(tmp, 'bundle');
     await runStudy({ manifest, out, jobs: 1, figures: false });
-    const had = tableFiles(dir), got = tableFiles(out);
-    const missing = got.filter((f) => !had.includes(f)), extra = had.filter((f) => !got.includes(f));
+    const had = tableFiles(dir),
+      got = tableFiles(out);
+    const missing = got.filter((f) => !had.includes(f)),
+      extra = had.filter((f) => !got.includes(f));
     if (missing.length) {
-      console.error(`fascicle: rerun differs: the bundle lacks tables/${missing.join(', tables/')}, which the rerun produced`);
+      console.error(
+        `fascicle: rerun differs: the bundle lacks tables/${missing.join(', tables/')}, which the rerun produced`,
+      );
       return 5;
     }
     if (extra.length) {
-      console.error(`fascicle: rerun differs: the bundle has tables/${extra.join(', tables/')}, which the rerun did not produce`);
+      console.error(
+        `fascicle: rerun differs: the bundle has tables/${extra.join(', tables/')}, which the rerun did not produce`,
+      );
       return 5;
     }
     for (const f of had) {
-      const a = readFileSync(join(dir, 'tables', f)), b = readFileSync(join(out, 'tables', f));
-      if (!a.equals(b)) { console.error(`fascicle: rerun differs in tables/${f}${firstDifference(a, b)}`); return 5; }
+      const a = readFileSync(join(dir, 'tables', f)),
+        b = readFileSync(join(out, 'tables', f));
+      if (!a.equals(b)) {
+        console.error(`fascicle: rerun differs in tables/${f}${firstDifference(a, b)}`);
+        return 5;
+      }
     }
     const mp = join(dir, 'methods.txt');
-    if (!existsSync(mp)) { console.error('fascicle: rerun differs: the bundle has no methods.txt'); return 5; }
-    const ma = readFileSync(mp), mb = readFileSync(join(out, 'methods.txt'));
-    if (!ma.equals(mb)) { console.error(`fascicle: rerun differs in methods.txt${firstDifference(ma, mb)}`); return 5; }
-    console.log(`reproduced ${had.length} tables and the methods text exactly from ${prov.inputs.length} verified input files`);
+    if (!existsSync(mp)) {
+      console.error('fascicle: rerun differs: the bundle has no methods.txt');
+      return 5;
+    }
+    const ma = readFileSync(mp),
+      mb = readFileSync(join(out, 'methods.txt'));
+    if (!ma.equals(mb)) {
+      console.error(`fascicle: rerun differs in methods.txt${firstDifference(ma, mb)}`);
+      return 5;
+    }
+    console.log(
+      `reproduced ${had.length} tables and the methods text exactly from ${prov.inputs.length} verified input files`,
+    );
     return 0;
   } finally {
     rmSync(tmp, { recursive: true, force: true });
@@ -343,16 +444,34 @@ export async function cli(argv: string[]): Promise<number> {
   } catch (e) {
     const err = e as Error;
     const name = err?.name;
-    if (e instanceof UsageError) { console.error(`fascicle: ${err.message}\n(try: fascicle help)`); return 2; }
+    if (e instanceof UsageError) {
+      console.error(`fascicle: ${err.message}\n(try: fascicle help)`);
+      return 2;
+    }
     if (e instanceof OutputError || name === 'OutputError') {
       console.error(`fascicle: ${err.message}`);
       return (e as OutputError).refused === false ? 6 : 2;
     }
-    if (e instanceof ConfigError || name === 'ConfigError') { console.error(`fascicle: configuration error: ${err.message}`); return 2; }
-    if (e instanceof InputError || name === 'InputError') { console.error(`fascicle: bad input: ${err.message}`); return 3; }
-    if (e instanceof OptionError || name === 'OptionError') { console.error(`fascicle: configuration error: ${err.message}`); return 2; }
-    if (e instanceof AnalysisError || name === 'AnalysisError') { console.error(`fascicle: ${err.message}`); return 4; }
-    if (e instanceof ThreadError || name === 'ThreadError') { console.error(`fascicle: ${err.message}`); return 7; }
+    if (e instanceof ConfigError || name === 'ConfigError') {
+      console.error(`fascicle: configuration error: ${err.message}`);
+      return 2;
+    }
+    if (e instanceof InputError || name === 'InputError') {
+      console.error(`fascicle: bad input: ${err.message}`);
+      return 3;
+    }
+    if (e instanceof OptionError || name === 'OptionError') {
+      console.error(`fascicle: configuration error: ${err.message}`);
+      return 2;
+    }
+    if (e instanceof AnalysisError || name === 'AnalysisError') {
+      console.error(`fascicle: ${err.message}`);
+      return 4;
+    }
+    if (e instanceof ThreadError || name === 'ThreadError') {
+      console.error(`fascicle: ${err.message}`);
+      return 7;
+    }
     const code = (e as NodeJS.ErrnoException)?.code;
     if (typeof code === 'string' && /^E[A-Z]+$/.test(code)) {
       const where = (e as NodeJS.ErrnoException).path;
@@ -365,5 +484,7 @@ export async function cli(argv: string[]): Promise<number> {
 }
 
 if (require.main === module) {
-  cli(process.argv.slice(2)).then((code) => { process.exitCode = code; });
+  cli(process.argv.slice(2)).then((code) => {
+    process.exitCode = code;
+  });
 }

@@ -6,7 +6,10 @@
  * References: W. H. Press et al., Numerical Recipes, 3rd ed., sec. 6.1 and 6.4;
  * C. Lanczos, SIAM J. Numer. Anal. B 1 (1964) 86-96.
  */
-const LANCZOS = [0.99999999999980993, 676.5203681218851, -1259.1392167224028, 771.32342877765313, -176.61502916214059, 12.507343278686905, -0.13857109526572012, 9.9843695780195716e-6, 1.5056327351493116e-7];
+const LANCZOS = [
+  0.99999999999980993, 676.5203681218851, -1259.1392167224028, 771.32342877765313, -176.61502916214059,
+  12.507343278686905, -0.13857109526572012, 9.9843695780195716e-6, 1.5056327351493116e-7,
+];
 
 /** ln Gamma(x), x > 0. */
 export function logGamma(x: number): number {
@@ -20,19 +23,25 @@ export function logGamma(x: number): number {
 
 function betacf(a: number, b: number, x: number): number {
   const FPMIN = 1e-300;
-  let c = 1, d = 1 - ((a + b) * x) / (a + 1);
+  let c = 1,
+    d = 1 - ((a + b) * x) / (a + 1);
   if (Math.abs(d) < FPMIN) d = FPMIN;
   d = 1 / d;
   let h = d;
   for (let m = 1; m <= 10000; m++) {
     const m2 = 2 * m;
     let aa = (m * (b - m) * x) / ((a + m2 - 1) * (a + m2));
-    d = 1 + aa * d; if (Math.abs(d) < FPMIN) d = FPMIN;
-    c = 1 + aa / c; if (Math.abs(c) < FPMIN) c = FPMIN;
-    d = 1 / d; h *= d * c;
+    d = 1 + aa * d;
+    if (Math.abs(d) < FPMIN) d = FPMIN;
+    c = 1 + aa / c;
+    if (Math.abs(c) < FPMIN) c = FPMIN;
+    d = 1 / d;
+    h *= d * c;
     aa = (-(a + m) * (a + b + m) * x) / ((a + m2) * (a + m2 + 1));
-    d = 1 + aa * d; if (Math.abs(d) < FPMIN) d = FPMIN;
-    c = 1 + aa / c; if (Math.abs(c) < FPMIN) c = FPMIN;
+    d = 1 + aa * d;
+    if (Math.abs(d) < FPMIN) d = FPMIN;
+    c = 1 + aa / c;
+    if (Math.abs(c) < FPMIN) c = FPMIN;
     d = 1 / d;
     const del = d * c;
     h *= del;
@@ -61,12 +70,14 @@ export function tCdf(t: number, df: number): number {
 export function tQuantile(p: number, df: number): number {
   if (!(p > 0 && p < 1) || !(df > 0)) return NaN;
   if (p === 0.5) return 0;
-  let lo = -1e3, hi = 1e3;
+  let lo = -1e3,
+    hi = 1e3;
   while (tCdf(lo, df) > p) lo *= 2;
   while (tCdf(hi, df) < p) hi *= 2;
   for (let i = 0; i < 200 && hi - lo > 1e-15 * Math.max(1, Math.abs(lo)); i++) {
     const mid = (lo + hi) / 2;
-    if (tCdf(mid, df) < p) lo = mid; else hi = mid;
+    if (tCdf(mid, df) < p) lo = mid;
+    else hi = mid;
   }
   return (lo + hi) / 2;
 }
@@ -88,12 +99,17 @@ export function chi2Survival(x: number, k: number): number {
  * Reference: W. H. Press et al., Numerical Recipes, 3rd ed., Cambridge 2007, section 6.2.
  */
 function gammaTailCf(a: number, x: number, gln: number): number {
-  let b = x + 1 - a, c = 1 / 1e-300, d = 1 / b, h = d;
+  let b = x + 1 - a,
+    c = 1 / 1e-300,
+    d = 1 / b,
+    h = d;
   for (let i = 1; i < 10000; i++) {
     const an = -i * (i - a);
     b += 2;
-    d = an * d + b; if (Math.abs(d) < 1e-300) d = 1e-300;
-    c = b + an / c; if (Math.abs(c) < 1e-300) c = 1e-300;
+    d = an * d + b;
+    if (Math.abs(d) < 1e-300) d = 1e-300;
+    c = b + an / c;
+    if (Math.abs(c) < 1e-300) c = 1e-300;
     d = 1 / d;
     const del = d * c;
     h *= del;
@@ -107,7 +123,9 @@ export function gammaQ(a: number, x: number): number {
   if (!(x > 0)) return 1;
   const gln = logGamma(a);
   if (x < a + 1) {
-    let sum = 1 / a, del = sum, ap = a;
+    let sum = 1 / a,
+      del = sum,
+      ap = a;
     for (let n = 0; n < 10000; n++) {
       ap++;
       del *= x / ap;
@@ -122,8 +140,15 @@ export function gammaQ(a: number, x: number): number {
 function gammaIncLower(a: number, x: number): number {
   const gln = logGamma(a);
   if (x < a + 1) {
-    let sum = 1 / a, del = sum, ap = a;
-    for (let n = 0; n < 10000; n++) { ap++; del *= x / ap; sum += del; if (Math.abs(del) < Math.abs(sum) * 1e-16) break; }
+    let sum = 1 / a,
+      del = sum,
+      ap = a;
+    for (let n = 0; n < 10000; n++) {
+      ap++;
+      del *= x / ap;
+      sum += del;
+      if (Math.abs(del) < Math.abs(sum) * 1e-16) break;
+    }
     return sum * Math.exp(-x + a * Math.log(x) - gln);
   }
   return 1 - gammaTailCf(a, x, gln);
@@ -143,10 +168,12 @@ function erf(x: number): number {
 /** Standard normal quantile (bisection on normCdf). */
 export function normQuantile(p: number): number {
   if (!(p > 0 && p < 1)) return NaN;
-  let lo = -40, hi = 40;
+  let lo = -40,
+    hi = 40;
   for (let i = 0; i < 200; i++) {
     const mid = (lo + hi) / 2;
-    if (normCdf(mid) < p) lo = mid; else hi = mid;
+    if (normCdf(mid) < p) lo = mid;
+    else hi = mid;
   }
   return (lo + hi) / 2;
 }

@@ -83,7 +83,8 @@ function jacobianInto(o: FitOptions, p: number[], free: number[], x: readonly nu
   for (let j = 0; j < free.length; j++) {
     const k = free[j];
     const h = 1e-6 * Math.max(Math.abs(p[k]), 1e-6);
-    const pp = [...p], pm = [...p];
+    const pp = [...p],
+      pm = [...p];
     pp[k] += h;
     pm[k] -= h;
     for (let i = 0; i < x.length; i++) J[i][j] = (o.model(x[i], pp) - o.model(x[i], pm)) / (2 * h);
@@ -141,7 +142,7 @@ export function fitCurve(o: FitOptions): FitResult {
   if (first.covariance && first.converged) return first;
   let best = first;
   let its = first.iterations;
-  const free = o.p0.map((_, k) => k).filter((k) => !(o.fixed?.[k]));
+  const free = o.p0.map((_, k) => k).filter((k) => !o.fixed?.[k]);
   for (const k of free) {
     for (const f of [0.1, 0.5, 2, 10]) {
       const p0 = [...o.p0];
@@ -165,7 +166,8 @@ function fitOnce(o: FitOptions): FitResult {
   const fixed = [...(o.fixed ?? new Array(np).fill(false))];
   const w = [...(o.weights ?? new Array(n).fill(1))];
   for (let i = 0; i < n; i++) {
-    if (!Number.isFinite(o.x[i]) && o.x[i] !== -Infinity) throw new OptionError(`x[${i}] is ${o.x[i]}; must be a number`);
+    if (!Number.isFinite(o.x[i]) && o.x[i] !== -Infinity)
+      throw new OptionError(`x[${i}] is ${o.x[i]}; must be a number`);
     if (!Number.isFinite(o.y[i])) throw new OptionError(`y[${i}] is ${o.y[i]}; must be finite`);
     if (!(w[i] >= 0)) throw new OptionError(`weights[${i}] is ${w[i]}; must be >= 0`);
   }
@@ -194,7 +196,10 @@ function fitOnce(o: FitOptions): FitResult {
     const delta: number[] = new Array(m).fill(0);
     for (it = 1; it <= maxIt; it++) {
       jacobianInto(o, p, free, o.x, J);
-      for (let a = 0; a < m; a++) { A[a].fill(0); g[a] = 0; }
+      for (let a = 0; a < m; a++) {
+        A[a].fill(0);
+        g[a] = 0;
+      }
       for (let i = 0; i < n; i++) {
         const r = o.y[i] - o.model(o.x[i], p);
         const Ji = J[i];
@@ -209,21 +214,33 @@ function fitOnce(o: FitOptions): FitResult {
       let gmax = -Infinity;
       for (let a = 0; a < m; a++) {
         const v = Math.abs(g[a]);
-        if (v !== v) { gmax = NaN; break; }
+        if (v !== v) {
+          gmax = NaN;
+          break;
+        }
         if (v > gmax) gmax = v;
       }
-      if (gmax < 1e-300) { converged = true; reason = 'gradient is zero'; break; }
+      if (gmax < 1e-300) {
+        converged = true;
+        reason = 'gradient is zero';
+        break;
+      }
       for (let a = 0; a < m; a++) dmax[a] = Math.max(dmax[a], A[a][a]);
       if (mu < 0) mu = 1e-3;
       let accepted = false;
       for (let tries = 0; tries < 60; tries++) {
         // rows of M may have been swapped by the last solve: each is filled whole by its index
         for (let a = 0; a < m; a++) {
-          const Ma = M[a], Aa = A[a];
+          const Ma = M[a],
+            Aa = A[a];
           for (let b = 0; b < m; b++) Ma[b] = a === b ? Aa[b] + mu * Math.max(dmax[a], 1e-300) : Aa[b];
           Ma[m] = g[a];
         }
-        if (!solveInPlace(M, m, delta)) { mu *= nu; nu *= 2; continue; }
+        if (!solveInPlace(M, m, delta)) {
+          mu *= nu;
+          nu *= 2;
+          continue;
+        }
         const trial = [...p];
         free.forEach((k, a) => (trial[k] += delta[a]));
         const pt = clamp(trial);
@@ -241,8 +258,13 @@ function fitOnce(o: FitOptions): FitResult {
           mu *= Math.max(1 / 3, 1 - (2 * rho - 1) ** 3);
           nu = 2;
           accepted = true;
-          if (stepSmall) { converged = true; reason = 'relative step below 1e-12'; }
-          else if (rssSmall && prev - rt >= 0 && it > 3) { converged = true; reason = 'relative reduction of the residual sum of squares below 1e-15'; }
+          if (stepSmall) {
+            converged = true;
+            reason = 'relative step below 1e-12';
+          } else if (rssSmall && prev - rt >= 0 && it > 3) {
+            converged = true;
+            reason = 'relative reduction of the residual sum of squares below 1e-15';
+          }
           break;
         }
         mu *= nu;
@@ -261,7 +283,8 @@ function fitOnce(o: FitOptions): FitResult {
   const df = n - m;
   const J = jacobian(o, p, free, o.x);
   const A = free.map(() => new Array(m).fill(0));
-  for (let i = 0; i < n; i++) for (let a = 0; a < m; a++) for (let b = 0; b < m; b++) A[a][b] += w[i] * J[i][a] * J[i][b];
+  for (let i = 0; i < n; i++)
+    for (let a = 0; a < m; a++) for (let b = 0; b < m; b++) A[a][b] += w[i] * J[i][a] * J[i][b];
   const inv = m > 0 ? invertSpd(A) : [];
   const s2 = df > 0 ? rss / df : NaN;
   const se = new Array(np).fill(0);
@@ -279,14 +302,34 @@ function fitOnce(o: FitOptions): FitResult {
   if (!converged) status.push(`did not converge (${reason})`);
   if (n < m + 2) status.push(`too few points: ${n} for ${m} free parameters (need at least ${m + 2})`);
   free.forEach((k) => {
-    if ((Number.isFinite(lower[k]) && Math.abs(p[k] - lower[k]) <= 1e-9 * (Math.abs(lower[k]) + 1)) || (Number.isFinite(upper[k]) && Math.abs(p[k] - upper[k]) <= 1e-9 * (Math.abs(upper[k]) + 1))) {
+    if (
+      (Number.isFinite(lower[k]) && Math.abs(p[k] - lower[k]) <= 1e-9 * (Math.abs(lower[k]) + 1)) ||
+      (Number.isFinite(upper[k]) && Math.abs(p[k] - upper[k]) <= 1e-9 * (Math.abs(upper[k]) + 1))
+    ) {
       status.push(`parameter ${names[k]} is at a bound (${p[k]})`);
     }
   });
   return {
-    params: p, names, standardErrors: se, ci, covariance: cov, residualSS: rss, sigma: Math.sqrt(s2), df, n,
-    iterations: it, converged, reason, status: status.length ? status : ['ok'], fixed,
-    model: o.model, x: [...o.x], y: [...o.y], weights: w, lower, upper,
+    params: p,
+    names,
+    standardErrors: se,
+    ci,
+    covariance: cov,
+    residualSS: rss,
+    sigma: Math.sqrt(s2),
+    df,
+    n,
+    iterations: it,
+    converged,
+    reason,
+    status: status.length ? status : ['ok'],
+    fixed,
+    model: o.model,
+    x: [...o.x],
+    y: [...o.y],
+    weights: w,
+    lower,
+    upper,
   };
 }
 
@@ -307,13 +350,26 @@ export function profileCI(fit: FitResult, k: number, level = 0.95): [number, num
   const crit = t * t; // F(1, df) quantile = t^2
   const s2 = fit.residualSS / df;
   const base = fit.params;
-  const se = Number.isFinite(fit.standardErrors[k]) && fit.standardErrors[k] > 0 ? fit.standardErrors[k] : Math.abs(base[k]) * 0.1 + 1e-3;
+  const se =
+    Number.isFinite(fit.standardErrors[k]) && fit.standardErrors[k] > 0
+      ? fit.standardErrors[k]
+      : Math.abs(base[k]) * 0.1 + 1e-3;
   const fixedK = fit.fixed.map((f, i) => f || i === k);
   let start = [...base];
   const stat = (theta: number): number => {
     const p0 = [...start];
     p0[k] = theta;
-    const r = fitCurve({ model: fit.model, x: fit.x, y: fit.y, weights: fit.weights, p0, fixed: fixedK, lower: fit.lower, upper: fit.upper, names: fit.names });
+    const r = fitCurve({
+      model: fit.model,
+      x: fit.x,
+      y: fit.y,
+      weights: fit.weights,
+      p0,
+      fixed: fixedK,
+      lower: fit.lower,
+      upper: fit.upper,
+      names: fit.names,
+    });
     start = r.params;
     return (r.residualSS - fit.residualSS) / s2;
   };
@@ -325,7 +381,10 @@ export function profileCI(fit: FitResult, k: number, level = 0.95): [number, num
     for (let i = 0; i < 60; i++) {
       const th = base[k] + dir * step;
       if ((dir > 0 && th > fit.upper[k]) || (dir < 0 && th < fit.lower[k])) return dir * Infinity;
-      if (stat(th) > crit) { hi = th; break; }
+      if (stat(th) > crit) {
+        hi = th;
+        break;
+      }
       lo = th;
       step *= 1.5;
       if (step > 50 * se) return dir * Infinity;
@@ -333,7 +392,8 @@ export function profileCI(fit: FitResult, k: number, level = 0.95): [number, num
     if (Number.isNaN(hi)) return dir * Infinity;
     for (let i = 0; i < 50; i++) {
       const mid = (lo + hi) / 2;
-      if (stat(mid) > crit) hi = mid; else lo = mid;
+      if (stat(mid) > crit) hi = mid;
+      else lo = mid;
       if (Math.abs(hi - lo) < 1e-7 * se) break;
     }
     return (lo + hi) / 2;
@@ -345,8 +405,13 @@ export function profileCI(fit: FitResult, k: number, level = 0.95): [number, num
  * Extra-sum-of-squares F test of a reduced (constrained) fit against a full fit.
  * F = ((RSS_r - RSS_f) / (df_r - df_f)) / (RSS_f / df_f).
  */
-export function extraSumOfSquaresF(rssReduced: number, dfReduced: number, rssFull: number, dfFull: number): { F: number; df1: number; df2: number; p: number } {
+export function extraSumOfSquaresF(
+  rssReduced: number,
+  dfReduced: number,
+  rssFull: number,
+  dfFull: number,
+): { F: number; df1: number; df2: number; p: number } {
   const df1 = dfReduced - dfFull;
-  const F = ((rssReduced - rssFull) / df1) / (rssFull / dfFull);
+  const F = (rssReduced - rssFull) / df1 / (rssFull / dfFull);
   return { F, df1, df2: dfFull, p: fSurvival(F, df1, dfFull) };
 }

@@ -29,16 +29,22 @@ export const weiss: ModelFn = (t, p) => p[0] * (1 + p[1] / t);
 export const lapicque: ModelFn = (t, p) => p[0] / (1 - Math.exp(-t / p[1]));
 
 /** Single exponential approach (wash-in / wash-out): y = yInf + (y0 - yInf) exp(-(t - t0)/tau); p = [y0, yInf, tau], t0 fixed at the first time. */
-export const singleExponential = (t0: number): ModelFn => (t, p) => p[1] + (p[0] - p[1]) * Math.exp(-(t - t0) / p[2]);
+export const singleExponential =
+  (t0: number): ModelFn =>
+  (t, p) =>
+    p[1] + (p[0] - p[1]) * Math.exp(-(t - t0) / p[2]);
 
 /** Gas constant, J / (mol K) (CODATA 2018, exact). */
 export const R_GAS = 8.314462618;
 
 /** Q10 from two rates: Q10 = (r2 / r1)^(10 / (T2 - T1)). */
-export const q10FromRates = (r1: number, T1: number, r2: number, T2: number): number => Math.pow(r2 / r1, 10 / (T2 - T1));
+export const q10FromRates = (r1: number, T1: number, r2: number, T2: number): number =>
+  Math.pow(r2 / r1, 10 / (T2 - T1));
 
 /** Arrhenius activation energy (J/mol) equivalent to a Q10 between T1 and T2 (C): Ea = R T1 T2 ln(Q10) / 10 (T in K). */
-export const activationEnergyFromQ10 = (q10: number, T1: number, T2: number): number => (R_GAS * (T1 + 273.15) * (T2 + 273.15) * Math.log(q10)) / 10;
+export const activationEnergyFromQ10 = (q10: number, T1: number, T2: number): number =>
+  (R_GAS * (T1 + 273.15) * (T2 + 273.15) * Math.log(q10)) / 10;
 
 /** Q10 equivalent to an activation energy over T1..T2 (C): Q10 = exp(10 Ea / (R T1 T2)). */
-export const q10FromActivationEnergy = (Ea: number, T1: number, T2: number): number => Math.exp((10 * Ea) / (R_GAS * (T1 + 273.15) * (T2 + 273.15)));
+export const q10FromActivationEnergy = (Ea: number, T1: number, T2: number): number =>
+  Math.exp((10 * Ea) / (R_GAS * (T1 + 273.15) * (T2 + 273.15)));

@@ -46,8 +46,21 @@ export interface BinarySidecar {
 const BYTES = { int16: 2, float32: 4, float64: 8 } as const;
 /** The keys a sidecar may hold (BinarySidecar): any other is refused with the nearest valid name. */
 export const SIDECAR_KEYS = [
-  'data', 'dtype', 'byteOrder', 'layout', 'nSweeps', 'nSamples', 'nChannels', 'channel', 'gain', 'offset', 'fs', 't0Ms', 'units',
-  'conditions', 'sweeps',
+  'data',
+  'dtype',
+  'byteOrder',
+  'layout',
+  'nSweeps',
+  'nSamples',
+  'nChannels',
+  'channel',
+  'gain',
+  'offset',
+  'fs',
+  't0Ms',
+  'units',
+  'conditions',
+  'sweeps',
 ] as const;
 
 /** Load a binary recording from its JSON sidecar. @throws InputError naming the sidecar field or data file. */
@@ -55,7 +68,11 @@ export function readBinary(sidecarPath: string, extra: { conditions?: Conditions
   const { bytes: jb, source: jsrc } = readInput(sidecarPath);
   let meta: BinarySidecar;
   try {
-    meta = JSON.parse(Buffer.from(jb).toString('utf8').replace(/^\uFEFF/, ''));
+    meta = JSON.parse(
+      Buffer.from(jb)
+        .toString('utf8')
+        .replace(/^\uFEFF/, ''),
+    );
   } catch (e) {
     throw new InputError({ file: sidecarPath }, `invalid JSON (${(e as Error).message})`, 'a JSON sidecar object');
   }
@@ -71,12 +88,15 @@ export function readBinary(sidecarPath: string, extra: { conditions?: Conditions
       bad(k, `unknown key "${k}"${near ? ` (did you mean "${near}"?)` : ''}`, `one of ${SIDECAR_KEYS.join(', ')}`);
     }
   }
-  if (typeof meta.data !== 'string' || !meta.data) bad('data', `data is ${show(meta.data)}`, 'the path of the binary file');
-  if (typeof meta.dtype !== 'string' || !Object.hasOwn(BYTES, meta.dtype)) bad('dtype', `unknown dtype ${show(meta.dtype)}`, 'one of int16, float32, float64');
+  if (typeof meta.data !== 'string' || !meta.data)
+    bad('data', `data is ${show(meta.data)}`, 'the path of the binary file');
+  if (typeof meta.dtype !== 'string' || !Object.hasOwn(BYTES, meta.dtype))
+    bad('dtype', `unknown dtype ${show(meta.dtype)}`, 'one of int16, float32, float64');
   const order = meta.byteOrder ?? 'little';
   if (order !== 'little' && order !== 'big') bad('byteOrder', `unknown byteOrder ${show(order)}`, '"little" or "big"');
   const layout = meta.layout ?? 'sweep-major';
-  if (layout !== 'sweep-major' && layout !== 'interleaved') bad('layout', `unknown layout ${show(layout)}`, '"sweep-major" or "interleaved"');
+  if (layout !== 'sweep-major' && layout !== 'interleaved')
+    bad('layout', `unknown layout ${show(layout)}`, '"sweep-major" or "interleaved"');
   const int = (f: keyof BinarySidecar, v: unknown, lo: number) => {
     if (!Number.isInteger(v) || (v as number) < lo) bad(f, `${f} is ${show(v)}`, `an integer >= ${lo}`);
     return v as number;
@@ -88,22 +108,31 @@ export function readBinary(sidecarPath: string, extra: { conditions?: Conditions
   if (ch >= nCh) bad('channel', `channel ${ch} with ${nCh} channels`, `0 <= channel < nChannels`);
   const gain = meta.gain ?? 1;
   const offset = meta.offset ?? 0;
-  if (typeof gain !== 'number' || !Number.isFinite(gain) || gain === 0) bad('gain', `gain is ${show(gain)}`, 'a finite non-zero number');
-  if (typeof offset !== 'number' || !Number.isFinite(offset)) bad('offset', `offset is ${show(offset)}`, 'a finite number');
+  if (typeof gain !== 'number' || !Number.isFinite(gain) || gain === 0)
+    bad('gain', `gain is ${show(gain)}`, 'a finite non-zero number');
+  if (typeof offset !== 'number' || !Number.isFinite(offset))
+    bad('offset', `offset is ${show(offset)}`, 'a finite number');
   // the largest value the samples can take must be finite, with room to sum a sweep
   const fullScale = meta.dtype === 'int16' ? 32768 : meta.dtype === 'float32' ? 3.4028234663852886e38 : 0;
-  if (fullScale && !(Number.isFinite((fullScale * Math.abs(gain) + Math.abs(offset)) * nSamples))) {
-    bad('gain',
+  if (fullScale && !Number.isFinite((fullScale * Math.abs(gain) + Math.abs(offset)) * nSamples)) {
+    bad(
+      'gain',
       `gain ${show(gain)} (offset ${show(offset)}) makes ${meta.dtype} full scale ${fullScale * Math.abs(gain) + Math.abs(offset)}, beyond the range of finite numbers over a sweep`,
-      `a gain in the units per raw step (${meta.dtype} full scale times gain must stay far below 1e308)`);
+      `a gain in the units per raw step (${meta.dtype} full scale times gain must stay far below 1e308)`,
+    );
   }
-  if (typeof meta.fs !== 'number' || !(meta.fs > 0) || !Number.isFinite(meta.fs)) bad('fs', `fs is ${show(meta.fs)}`, 'a sample rate in Hz > 0');
+  if (typeof meta.fs !== 'number' || !(meta.fs > 0) || !Number.isFinite(meta.fs))
+    bad('fs', `fs is ${show(meta.fs)}`, 'a sample rate in Hz > 0');
   const t0Ms = meta.t0Ms ?? 0;
   if (typeof t0Ms !== 'number' || !Number.isFinite(t0Ms)) bad('t0Ms', `t0Ms is ${show(t0Ms)}`, 'a finite time in ms');
   const units = typeof meta.units === 'string' ? parseSignalUnit(meta.units) : undefined;
   if (!units) bad('units', `unknown units ${show(meta.units)}`, 'one of V, mV, uV');
   if (meta.sweeps !== undefined && (!Array.isArray(meta.sweeps) || meta.sweeps.length !== nSweeps)) {
-    bad('sweeps', `sweeps lists ${Array.isArray(meta.sweeps) ? meta.sweeps.length : 'no'} entries`, `one conditions object per sweep (${nSweeps})`);
+    bad(
+      'sweeps',
+      `sweeps lists ${Array.isArray(meta.sweeps) ? meta.sweeps.length : 'no'} entries`,
+      `one conditions object per sweep (${nSweeps})`,
+    );
   }
   const cond = (field: string, x: unknown) => {
     const problem = conditionsProblem(x);
@@ -111,7 +140,10 @@ export function readBinary(sidecarPath: string, extra: { conditions?: Conditions
   };
   if (meta.conditions !== undefined) cond('conditions', meta.conditions);
   meta.sweeps?.forEach((c, i) => cond(`sweeps/${i}`, c));
-  if (extra.conditions !== undefined && conditionsProblem(extra.conditions)) throw new OptionError(`invalid conditions: ${conditionsProblem(extra.conditions)}; must be an object of strings, finite numbers, booleans or null`);
+  if (extra.conditions !== undefined && conditionsProblem(extra.conditions))
+    throw new OptionError(
+      `invalid conditions: ${conditionsProblem(extra.conditions)}; must be an object of strings, finite numbers, booleans or null`,
+    );
   const dataPath = resolve(dirname(sidecarPath), meta.data);
   const { fd, stat } = openInput(dataPath);
   const source = lazySource(dataPath, stat);
@@ -122,52 +154,102 @@ export function readBinary(sidecarPath: string, extra: { conditions?: Conditions
   // a native float32 file of one channel with gain 1 and offset 0 stays float32 as read (half the memory,
   // no widening pass); every verb widens each value exactly where it uses it (src/sweeps/storage.ts)
   let kept: Float32Array | null = null;
-  const asIs = meta.dtype === 'float32' && nCh === 1 && gain === 1 && offset === 0 && (order === 'little') === NATIVE_LITTLE;
+  const asIs =
+    meta.dtype === 'float32' && nCh === 1 && gain === 1 && offset === 0 && (order === 'little') === NATIVE_LITTLE;
   try {
     // the size is checked before anything is allocated, so a hostile sidecar cannot ask for terabytes
     if (stat.size !== expectBytes) {
-      throw new InputError({ file: dataPath }, `the file has ${stat.size} bytes`, `${expectBytes} bytes = ${nSweeps} sweeps x ${nSamples} samples x ${nCh} channels x ${w} bytes (${meta.dtype}) from ${sidecarPath}`);
+      throw new InputError(
+        { file: dataPath },
+        `the file has ${stat.size} bytes`,
+        `${expectBytes} bytes = ${nSweeps} sweeps x ${nSamples} samples x ${nCh} channels x ${w} bytes (${meta.dtype}) from ${sidecarPath}`,
+      );
     }
     if (asIs) {
       try {
         kept = float32Samples(nSweeps * nSamples);
       } catch (e) {
         if (!(e instanceof RangeError)) throw e;
-        throw new InputError({ file: dataPath },
+        throw new InputError(
+          { file: dataPath },
           `${nSweeps} sweeps x ${nSamples} samples need ${(expectBytes / 2 ** 30).toPrecision(3)} GB of memory as 32-bit samples, which could not be allocated (${e.message})`,
-          'a recording that fits in memory (load part of it, or split the file)');
+          'a recording that fits in memory (load part of it, or split the file)',
+        );
       }
-    }
-    else out = allocSamples(nSweeps * nSamples, dataPath, `${nSweeps} sweeps x ${nSamples} samples`);
+    } else out = allocSamples(nSweeps * nSamples, dataPath, `${nSweeps} sweeps x ${nSamples} samples`);
     // read and convert in chunks of about 2 MB per thread, sweeps split across threads
     const chunkSweeps = Math.max(1, Math.floor((1 << 21) / (nSamples * nCh * w)));
     let firstBad: number | undefined;
     try {
       const found = kept
         ? runSweeps('loadAsRead', { fd, nSamples, out: kept, chunkSweeps }, nSweeps, nSweeps * nSamples)
-        : runSweeps('load', {
-          fd, dtype: meta.dtype, little: order === 'little', interleaved: layout === 'interleaved',
-          nSamples, nChannels: nCh, channel: ch, gain, offset, out: out!, chunkSweeps,
-        }, nSweeps, nSweeps * nSamples * nCh);
+        : runSweeps(
+            'load',
+            {
+              fd,
+              dtype: meta.dtype,
+              little: order === 'little',
+              interleaved: layout === 'interleaved',
+              nSamples,
+              nChannels: nCh,
+              channel: ch,
+              gain,
+              offset,
+              out: out!,
+              chunkSweeps,
+            },
+            nSweeps,
+            nSweeps * nSamples * nCh,
+          );
       firstBad = found.find((i) => i >= 0);
     } catch (e) {
       // a worker thread that stopped is not a fault of the file
       if (e instanceof ThreadError) throw e;
-      throw new InputError({ file: dataPath }, `reading failed (${(e as Error).message})`, `${expectBytes} readable bytes that do not change while loading`);
+      throw new InputError(
+        { file: dataPath },
+        `reading failed (${(e as Error).message})`,
+        `${expectBytes} readable bytes that do not change while loading`,
+      );
     }
     if (firstBad !== undefined) {
       const s = Math.floor(firstBad / nSamples);
-      throw new InputError({ file: dataPath, sweep: s }, `a non-finite sample (${(kept ?? out!)[firstBad]}) at sample ${firstBad % nSamples}`, 'finite samples');
+      throw new InputError(
+        { file: dataPath, sweep: s },
+        `a non-finite sample (${(kept ?? out!)[firstBad]}) at sample ${firstBad % nSamples}`,
+        'finite samples',
+      );
     }
   } finally {
     closeSync(fd);
   }
   const base = { ...(meta.conditions ?? {}), ...(extra.conditions ?? {}) };
   const conditions: Conditions[] = [];
-  for (let s = 0; s < nSweeps; s++) conditions.push({ ...base, ...(meta.sweeps?.[s] ?? {}), file: sidecarPath, fileSweep: s });
+  for (let s = 0; s < nSweeps; s++)
+    conditions.push({ ...base, ...(meta.sweeps?.[s] ?? {}), file: sidecarPath, fileSweep: s });
   return new SweepSet({
-    data: kept ? asRead(kept) : out!, nSweeps, nSamples, fs: meta.fs, t0Ms, units: units!, conditions,
+    data: kept ? asRead(kept) : out!,
+    nSweeps,
+    nSamples,
+    fs: meta.fs,
+    t0Ms,
+    units: units!,
+    conditions,
     sources: [jsrc, source],
-    history: [{ verb: 'readBinary', options: { path: sidecarPath, dtype: meta.dtype, byteOrder: order, layout, nChannels: nCh, channel: ch, gain, offset }, version: VERSION }],
+    history: [
+      {
+        verb: 'readBinary',
+        options: {
+          path: sidecarPath,
+          dtype: meta.dtype,
+          byteOrder: order,
+          layout,
+          nChannels: nCh,
+          channel: ch,
+          gain,
+          offset,
+        },
+        version: VERSION,
+      },
+    ],
   });
 }

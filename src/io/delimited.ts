@@ -42,7 +42,15 @@ export interface DelimitedOptions {
 export const delimitedDefaults = { delimiter: 'auto', decimal: 'auto', layout: 'auto', stimulusAt: 0 } as const;
 
 /** The options readDelimited accepts (DelimitedOptions). */
-export const DELIMITED_KEYS = ['delimiter', 'decimal', 'layout', 'timeUnit', 'units', 'stimulusAt', 'conditions'] as const;
+export const DELIMITED_KEYS = [
+  'delimiter',
+  'decimal',
+  'layout',
+  'timeUnit',
+  'units',
+  'stimulusAt',
+  'conditions',
+] as const;
 /** A header line longer than this is refused before it is decoded (16 MB: about 800,000 sweep columns). */
 export const MAX_HEADER_BYTES = 1 << 24;
 
@@ -90,7 +98,9 @@ export function streamWide(path: string, options: DelimitedOptions): SweepSet | 
     };
     // the header line as parseDelimited finds it (the first line not empty or blank and not a '#' comment), then two rows
     let head: Uint8Array | null = null;
-    let pos = -1, headerLine = 0, prefixEnd = -1;
+    let pos = -1,
+      headerLine = 0,
+      prefixEnd = -1;
     for (let L = Math.min(size, 1 << 20); ; L = Math.min(size, 4 * L)) {
       head = new Uint8Array(L);
       if (!readAt(head, L, 0)) return null;
@@ -114,7 +124,10 @@ export function streamWide(path: string, options: DelimitedOptions): SweepSet | 
       }
       const k1 = pos < 0 ? -1 : head.indexOf(10, pos);
       const k2 = k1 < 0 ? -1 : head.indexOf(10, k1 + 1);
-      if (k2 >= 0) { prefixEnd = k2 + 1; break; }
+      if (k2 >= 0) {
+        prefixEnd = k2 + 1;
+        break;
+      }
       if (L === size || L > MAX_HEADER_BYTES) return null;
     }
     let first: SweepSet;
@@ -153,7 +166,8 @@ export function streamWide(path: string, options: DelimitedOptions): SweepSet | 
     const out = allocSamples(nSweeps * rowsMax, path, `${nSweeps} sweeps x up to ${rowsMax} rows`);
     const parts = Math.max(1, T);
     const cut = (n: number) => (T > 1 ? new Float64Array(new SharedArrayBuffer(n * 8)) : new Float64Array(n));
-    const starts = cut(parts + 1), firstRows = cut(parts + 1);
+    const starts = cut(parts + 1),
+      firstRows = cut(parts + 1);
     // one thread: rows gathered in a row-major block of PLAIN_BLOCK rows, written sweep-major when full
     const scratch = new Float64Array(PLAIN_BLOCK * nSweeps);
     const parseHere = (bytes: Uint8Array, view: Buffer, r: number): number => {
@@ -162,7 +176,8 @@ export function streamWide(path: string, options: DelimitedOptions): SweepSet | 
         if (e < 0) e = len;
         let le = e;
         if (le > k && bytes[le - 1] === 13) le--;
-        if (le === k || r >= rowsMax || !plainRow(bytes, k, le, ncol, dec, dcode, t, r, scratch, r & (PLAIN_BLOCK - 1))) return -1;
+        if (le === k || r >= rowsMax || !plainRow(bytes, k, le, ncol, dec, dcode, t, r, scratch, r & (PLAIN_BLOCK - 1)))
+          return -1;
         r++;
         if ((r & (PLAIN_BLOCK - 1)) === 0) flushBlock(scratch, nSweeps, out, rowsMax, r - PLAIN_BLOCK, PLAIN_BLOCK);
         k = e + 1;
@@ -176,7 +191,11 @@ export function streamWide(path: string, options: DelimitedOptions): SweepSet | 
       if (!readAt(part, len, off)) return null;
       if (off + len < size) {
         const nl = Buffer.from(part.buffer, part.byteOffset, len).lastIndexOf(10);
-        if (nl < 0) { B *= 2; part = T > 1 ? sharedBytes(B) : new Uint8Array(B); continue; } // a line longer than the part
+        if (nl < 0) {
+          B *= 2;
+          part = T > 1 ? sharedBytes(B) : new Uint8Array(B);
+          continue;
+        } // a line longer than the part
         len = nl + 1;
       }
       const bytes = part.subarray(0, len);
@@ -188,7 +207,8 @@ export function streamWide(path: string, options: DelimitedOptions): SweepSet | 
         const e = view.indexOf(10, Math.floor((len * j) / parts));
         starts[j] = e < 0 ? len : e + 1;
       }
-      let r = row, nextCut = 1;
+      let r = row,
+        nextCut = 1;
       firstRows[0] = row;
       for (let k = 0; k < len;) {
         while (nextCut < parts && starts[nextCut] <= k) firstRows[nextCut++] = r;
@@ -206,24 +226,41 @@ export function streamWide(path: string, options: DelimitedOptions): SweepSet | 
       off += len;
     }
     if (row !== rowsMax) return null;
-    if (T <= 1 && row & (PLAIN_BLOCK - 1)) flushBlock(scratch, nSweeps, out, rowsMax, row - (row & (PLAIN_BLOCK - 1)), row & (PLAIN_BLOCK - 1));
+    if (T <= 1 && row & (PLAIN_BLOCK - 1))
+      flushBlock(scratch, nSweeps, out, rowsMax, row - (row & (PLAIN_BLOCK - 1)), row & (PLAIN_BLOCK - 1));
     const nSamples = rowsMax;
     checkTime(t, path, (i) => headerLine + 1 + i, 1);
     const f = timeToMs(how.timeUnit);
     const dtMs = ((t[nSamples - 1] - t[0]) / (nSamples - 1)) * f;
     const t0Ms = (t[0] - (options.stimulusAt ?? delimitedDefaults.stimulusAt)) * f;
     return new SweepSet({
-      data: out, nSweeps, nSamples, fs: 1000 / dtMs, t0Ms, units: first.units,
-      conditions: first.conditions, sources: [lazySource(path, stat)], history: first.history,
+      data: out,
+      nSweeps,
+      nSamples,
+      fs: 1000 / dtMs,
+      t0Ms,
+      units: first.units,
+      conditions: first.conditions,
+      sources: [lazySource(path, stat)],
+      history: first.history,
     });
   } finally {
     closeSync(fd);
   }
 }
 
-interface LineCursor { start: number; end: number; line: number }
+interface LineCursor {
+  start: number;
+  end: number;
+  line: number;
+}
 
-export function parseDelimited(bytes: Uint8Array, file: string, options: DelimitedOptions = {}, source?: import('../sweeps/SweepSet').Source): SweepSet {
+export function parseDelimited(
+  bytes: Uint8Array,
+  file: string,
+  options: DelimitedOptions = {},
+  source?: import('../sweeps/SweepSet').Source,
+): SweepSet {
   checkKeys('readDelimited options', options, DELIMITED_KEYS);
   const opts = { ...delimitedDefaults, ...options };
   // options are checked at the call, before the file is read
@@ -248,7 +285,7 @@ export function parseDelimited(bytes: Uint8Array, file: string, options: Delimit
       let e = end;
       if (e > start && bytes[e - 1] === 13) e--;
       let s = start;
-      while (s < e && (bytes[s] === 32 || bytes[s] === 9 && false)) s++;
+      while (s < e && (bytes[s] === 32 || (bytes[s] === 9 && false))) s++;
       if (s === e) continue;
       if (bytes[s] === 35) continue; // '#'
       return { start, end: e, line: lineNo };
@@ -256,36 +293,64 @@ export function parseDelimited(bytes: Uint8Array, file: string, options: Delimit
     return null;
   };
   const header = next();
-  if (!header) throw new InputError({ file }, 'the file has no header line', 'a header such as "time (ms),sweep 1 (mV)"');
+  if (!header)
+    throw new InputError({ file }, 'the file has no header line', 'a header such as "time (ms),sweep 1 (mV)"');
   if (header.end - header.start > MAX_HEADER_BYTES) {
-    throw new InputError({ file, line: header.line },
+    throw new InputError(
+      { file, line: header.line },
       `the header line is ${header.end - header.start} bytes long`,
-      `a header line under ${MAX_HEADER_BYTES} bytes (is this a delimited text file?)`);
+      `a header line under ${MAX_HEADER_BYTES} bytes (is this a delimited text file?)`,
+    );
   }
-  const headerText = Buffer.from(bytes.buffer, bytes.byteOffset + header.start, header.end - header.start).toString('utf8');
+  const headerText = Buffer.from(bytes.buffer, bytes.byteOffset + header.start, header.end - header.start).toString(
+    'utf8',
+  );
   let delim: string = opts.delimiter;
   if (delim === 'auto') delim = headerText.includes('\t') ? '\t' : headerText.includes(';') ? ';' : ',';
-  if (![',', ';', '\t'].includes(delim)) throw new InputError({ file, field: 'delimiter' }, `invalid delimiter ${JSON.stringify(delim)}`, 'one of ",", ";", "\\t"');
+  if (![',', ';', '\t'].includes(delim))
+    throw new InputError(
+      { file, field: 'delimiter' },
+      `invalid delimiter ${JSON.stringify(delim)}`,
+      'one of ",", ";", "\\t"',
+    );
   const dcode = delim.charCodeAt(0);
   const names = headerText.split(delim).map((h) => h.replace(/^"|"$/g, ''));
   const heads = names.map(splitHeader);
-  if (names.length < 2) throw new InputError({ file, line: header.line }, `the header has ${names.length} column`, 'at least 2 columns (time and one sweep) with the delimiter ' + JSON.stringify(delim));
+  if (names.length < 2)
+    throw new InputError(
+      { file, line: header.line },
+      `the header has ${names.length} column`,
+      'at least 2 columns (time and one sweep) with the delimiter ' + JSON.stringify(delim),
+    );
   const lower = heads.map((h) => h.name.toLowerCase());
   const idxOf = (cands: string[]) => lower.findIndex((h) => cands.includes(h));
   let layout: string = opts.layout;
-  if (layout === 'auto') layout = names.length === 3 && idxOf(SWEEP_NAMES) >= 0 && idxOf(TIME_NAMES) >= 0 && idxOf(VALUE_NAMES) >= 0 ? 'long' : 'wide';
+  if (layout === 'auto')
+    layout =
+      names.length === 3 && idxOf(SWEEP_NAMES) >= 0 && idxOf(TIME_NAMES) >= 0 && idxOf(VALUE_NAMES) >= 0
+        ? 'long'
+        : 'wide';
   if (layout === 'long') {
     // a long file needs a sweep, a time and a value column, each found by name
-    for (const [role, cands] of [['sweep', SWEEP_NAMES], ['time', TIME_NAMES], ['value', VALUE_NAMES]] as const) {
+    for (const [role, cands] of [
+      ['sweep', SWEEP_NAMES],
+      ['time', TIME_NAMES],
+      ['value', VALUE_NAMES],
+    ] as const) {
       if (idxOf(cands as unknown as string[]) >= 0) continue;
       const near = lower.map((h) => nearest(h, cands)).find((x) => x !== null);
-      throw new InputError({ file, line: header.line },
+      throw new InputError(
+        { file, line: header.line },
         `the long layout needs a ${role} column, and the header (${names.map((x) => JSON.stringify(x)).join(', ')}) has none${near ? ` (did you mean "${near}"?)` : ''}`,
-        `a column named one of ${cands.join(', ')}`);
+        `a column named one of ${cands.join(', ')}`,
+      );
     }
-    if (names.length !== 3) throw new InputError({ file, line: header.line },
-      `the long layout has ${names.length} columns`,
-      '3 columns: sweep, time and value');
+    if (names.length !== 3)
+      throw new InputError(
+        { file, line: header.line },
+        `the long layout has ${names.length} columns`,
+        '3 columns: sweep, time and value',
+      );
   }
 
   // decimal separator
@@ -293,16 +358,24 @@ export function parseDelimited(bytes: Uint8Array, file: string, options: Delimit
   if (opts.decimal === ',') dec = 44;
   else if (opts.decimal === 'auto' && delim !== ',') {
     // any comma in a data line of a ';' or tab file can only be a decimal comma (comment lines do not count)
-    for (let k = bytes.indexOf(44, pos); k >= 0; ) {
+    for (let k = bytes.indexOf(44, pos); k >= 0;) {
       let ls = k;
       while (ls > pos && bytes[ls - 1] !== 10) ls--;
       while (ls < k && bytes[ls] === 32) ls++;
-      if (bytes[ls] !== 35) { dec = 44; break; }
+      if (bytes[ls] !== 35) {
+        dec = 44;
+        break;
+      }
       const le = bytes.indexOf(10, k);
       k = le < 0 ? -1 : bytes.indexOf(44, le);
     }
   }
-  if (dec === 44 && delim === ',') throw new InputError({ file }, 'decimal comma with comma delimiter', 'a semicolon or tab delimiter when numbers use a decimal comma');
+  if (dec === 44 && delim === ',')
+    throw new InputError(
+      { file },
+      'decimal comma with comma delimiter',
+      'a semicolon or tab delimiter when numbers use a decimal comma',
+    );
 
   const unitOf = (col: number, kind: 'time' | 'signal'): string | undefined => heads[col].unit;
   const timeCol = layout === 'long' ? idxOf(TIME_NAMES) : 0;
@@ -310,18 +383,43 @@ export function parseDelimited(bytes: Uint8Array, file: string, options: Delimit
   let tUnit: TimeUnit | undefined = opts.timeUnit;
   if (tUnitLabel !== undefined) {
     tUnit = parseTimeUnit(tUnitLabel);
-    if (!tUnit) throw new InputError({ file, line: header.line, column: timeCol + 1 }, `unknown time unit "${tUnitLabel}"`, 'one of s, ms, us');
+    if (!tUnit)
+      throw new InputError(
+        { file, line: header.line, column: timeCol + 1 },
+        `unknown time unit "${tUnitLabel}"`,
+        'one of s, ms, us',
+      );
   }
-  if (!tUnit) throw new InputError({ file, line: header.line, column: timeCol + 1 }, `the time column "${names[timeCol]}" gives no unit`, 'a unit in the header, e.g. "time (ms)", or the timeUnit option');
+  if (!tUnit)
+    throw new InputError(
+      { file, line: header.line, column: timeCol + 1 },
+      `the time column "${names[timeCol]}" gives no unit`,
+      'a unit in the header, e.g. "time (ms)", or the timeUnit option',
+    );
 
   const valueCols = layout === 'long' ? [idxOf(VALUE_NAMES)] : names.map((_, i) => i).slice(1);
   let sUnit: SignalUnit | undefined;
   for (const c of valueCols) {
     const lab = unitOf(c, 'signal');
     const u = lab === undefined ? opts.units : parseSignalUnit(lab);
-    if (lab !== undefined && !u) throw new InputError({ file, line: header.line, column: c + 1 }, `unknown signal unit "${lab}"`, 'one of V, mV, uV');
-    if (!u) throw new InputError({ file, line: header.line, column: c + 1 }, `column "${names[c]}" gives no signal unit`, 'a unit in the header, e.g. "sweep 1 (mV)", or the units option');
-    if (sUnit && u !== sUnit) throw new InputError({ file, line: header.line, column: c + 1 }, `signal unit ${u} differs from ${sUnit} in an earlier column`, 'one signal unit for all sweeps of a file');
+    if (lab !== undefined && !u)
+      throw new InputError(
+        { file, line: header.line, column: c + 1 },
+        `unknown signal unit "${lab}"`,
+        'one of V, mV, uV',
+      );
+    if (!u)
+      throw new InputError(
+        { file, line: header.line, column: c + 1 },
+        `column "${names[c]}" gives no signal unit`,
+        'a unit in the header, e.g. "sweep 1 (mV)", or the units option',
+      );
+    if (sUnit && u !== sUnit)
+      throw new InputError(
+        { file, line: header.line, column: c + 1 },
+        `signal unit ${u} differs from ${sUnit} in an earlier column`,
+        'one signal unit for all sweeps of a file',
+      );
     sUnit = u;
   }
   const units = sUnit as SignalUnit;
@@ -329,8 +427,10 @@ export function parseDelimited(bytes: Uint8Array, file: string, options: Delimit
 
   // count data lines (upper bound) to allocate once; for a large wide file read into
   // shared memory, also cut the data region into one part per thread at line starts
-  const parts = layout === 'wide' && bytes.buffer instanceof SharedArrayBuffer && n - pos >= PARALLEL_CSV_BYTES ? threads() : 1;
-  const sharedOrNot = (bytesNeeded: number) => (parts > 1 ? new SharedArrayBuffer(bytesNeeded) : new ArrayBuffer(bytesNeeded));
+  const parts =
+    layout === 'wide' && bytes.buffer instanceof SharedArrayBuffer && n - pos >= PARALLEL_CSV_BYTES ? threads() : 1;
+  const sharedOrNot = (bytesNeeded: number) =>
+    parts > 1 ? new SharedArrayBuffer(bytesNeeded) : new ArrayBuffer(bytesNeeded);
   const starts = new Float64Array(sharedOrNot((parts + 1) * 8));
   const firstRows = new Float64Array(sharedOrNot((parts + 1) * 8));
   starts[0] = pos;
@@ -341,7 +441,7 @@ export function parseDelimited(bytes: Uint8Array, file: string, options: Delimit
   }
   let rowsMax = 0;
   let nextCut = 1;
-  for (let k = pos; k < n; ) {
+  for (let k = pos; k < n;) {
     while (nextCut < parts && starts[nextCut] <= k) firstRows[nextCut++] = rowsMax;
     const e = bytes.indexOf(10, k);
     rowsMax++;
@@ -364,12 +464,21 @@ export function parseDelimited(bytes: Uint8Array, file: string, options: Delimit
       if (bytes[k] === dcode) {
         c++;
         if (c >= ncol) {
-          throw new InputError({ file, line: l.line, column: c + 1 }, `the row has more than ${ncol} fields`, `${ncol} fields as in the header`);
+          throw new InputError(
+            { file, line: l.line, column: c + 1 },
+            `the row has more than ${ncol} fields`,
+            `${ncol} fields as in the header`,
+          );
         }
         fieldStarts[c] = k + 1;
       }
     }
-    if (c !== ncol - 1) throw new InputError({ file, line: l.line, column: c + 1 }, `the row has ${c + 1} fields`, `${ncol} fields as in the header`);
+    if (c !== ncol - 1)
+      throw new InputError(
+        { file, line: l.line, column: c + 1 },
+        `the row has ${c + 1} fields`,
+        `${ncol} fields as in the header`,
+      );
     fieldStarts[ncol] = l.end + 1;
   };
   const num = (l: LineCursor, c: number): number => {
@@ -378,8 +487,16 @@ export function parseDelimited(bytes: Uint8Array, file: string, options: Delimit
     const v = parseNumber(bytes, s, e, dec);
     if (Number.isFinite(v)) return v;
     const text = fieldText(bytes, s, e);
-    const what = /^[+-]?(nan|inf|infinity)$/i.test(text) ? `a non-finite value "${text}"` : text === '' ? 'an empty cell' : `a non-numeric cell "${text.slice(0, 40)}"`;
-    throw new InputError({ file, line: l.line, column: c + 1 }, what, `a finite number${dec === 44 ? ' with a decimal comma' : ''}`);
+    const what = /^[+-]?(nan|inf|infinity)$/i.test(text)
+      ? `a non-finite value "${text}"`
+      : text === ''
+        ? 'an empty cell'
+        : `a non-numeric cell "${text.slice(0, 40)}"`;
+    throw new InputError(
+      { file, line: l.line, column: c + 1 },
+      what,
+      `a finite number${dec === 44 ? ' with a decimal comma' : ''}`,
+    );
   };
 
   let time: Float64Array;
@@ -389,7 +506,8 @@ export function parseDelimited(bytes: Uint8Array, file: string, options: Delimit
   const conds: Conditions[] = [];
   const base = opts.conditions ?? {};
   const cp = conditionsProblem(base);
-  if (cp) throw new OptionError(`invalid conditions: ${cp}; must be an object of strings, finite numbers, booleans or null`);
+  if (cp)
+    throw new OptionError(`invalid conditions: ${cp}; must be an object of strings, finite numbers, booleans or null`);
   if (layout === 'wide') {
     nSweeps = ncol - 1;
     const t = new Float64Array(sharedOrNot(rowsMax * 8));
@@ -399,7 +517,12 @@ export function parseDelimited(bytes: Uint8Array, file: string, options: Delimit
     // all threads on the plain fast path; any other line sends the whole file to the exact parser below
     let parallelRows = -1;
     if (parts > 1 && lineCount === rowsMax) {
-      const res = runSweeps('csvWide', { bytes, starts, firstRows, ncol, rowsMax, dec, dcode, out: buf, t }, parts, n - pos);
+      const res = runSweeps(
+        'csvWide',
+        { bytes, starts, firstRows, ncol, rowsMax, dec, dcode, out: buf, t },
+        parts,
+        n - pos,
+      );
       if (res.every((x) => x >= 0)) parallelRows = res.reduce((x, y) => x + y, 0);
     }
     // rows are gathered in a small row-major block and written sweep-major a block at a
@@ -410,23 +533,30 @@ export function parseDelimited(bytes: Uint8Array, file: string, options: Delimit
       const first = upTo - ((upTo - 1) & (BLOCK - 1)) - 1;
       flushBlock(scratch, nSweeps, buf, rowsMax, first, upTo - first);
     };
-    const fastRow = (l: LineCursor, row: number): boolean => plainRow(bytes, l.start, l.end, ncol, dec, dcode, t, row, scratch, row & (BLOCK - 1));
+    const fastRow = (l: LineCursor, row: number): boolean =>
+      plainRow(bytes, l.start, l.end, ncol, dec, dcode, t, row, scratch, row & (BLOCK - 1));
     if (parallelRows >= 0) {
       r = parallelRows; // every line after the header was a data row
-    } else for (let l = next(); l; l = next()) {
-      if (!fastRow(l, r)) {
-        // slow path: exact field splitting, errors with line and column, any number syntax
-        splitLine(l);
-        t[r] = num(l, 0);
-        for (let c = 1; c < ncol; c++) scratch[(r & (BLOCK - 1)) * nSweeps + c - 1] = num(l, c);
+    } else
+      for (let l = next(); l; l = next()) {
+        if (!fastRow(l, r)) {
+          // slow path: exact field splitting, errors with line and column, any number syntax
+          splitLine(l);
+          t[r] = num(l, 0);
+          for (let c = 1; c < ncol; c++) scratch[(r & (BLOCK - 1)) * nSweeps + c - 1] = num(l, c);
+        }
+        lines.push(l.line);
+        r++;
+        if ((r & (BLOCK - 1)) === 0) flush(r);
       }
-      lines.push(l.line);
-      r++;
-      if ((r & (BLOCK - 1)) === 0) flush(r);
-    }
     if (parallelRows < 0 && r & (BLOCK - 1)) flush(r);
     nSamples = r;
-    if (nSamples < 2) throw new InputError({ file }, `the file has ${nSamples} data row${nSamples === 1 ? '' : 's'}`, 'at least 2 samples per sweep');
+    if (nSamples < 2)
+      throw new InputError(
+        { file },
+        `the file has ${nSamples} data row${nSamples === 1 ? '' : 's'}`,
+        'at least 2 samples per sweep',
+      );
     if (nSamples !== rowsMax) {
       const packed = sharedSamples(nSweeps * nSamples);
       for (let s = 0; s < nSweeps; s++) packed.set(buf.subarray(s * rowsMax, s * rowsMax + nSamples), s * nSamples);
@@ -437,7 +567,9 @@ export function parseDelimited(bytes: Uint8Array, file: string, options: Delimit
     checkTime(time, file, parallelRows >= 0 ? (i) => header.line + 1 + i : (i) => lines[i], 1);
     for (let s = 0; s < nSweeps; s++) conds.push({ ...base, label: heads[s + 1].name, fileSweep: s });
   } else {
-    const sc = idxOf(SWEEP_NAMES), tc = idxOf(TIME_NAMES), vc = idxOf(VALUE_NAMES);
+    const sc = idxOf(SWEEP_NAMES),
+      tc = idxOf(TIME_NAMES),
+      vc = idxOf(VALUE_NAMES);
     const bySweep = new Map<string, { t: number[]; v: number[]; lines: number[] }>();
     for (let l = next(); l; l = next()) {
       splitLine(l);
@@ -453,17 +585,30 @@ export function parseDelimited(bytes: Uint8Array, file: string, options: Delimit
     if (groups.length === 0) throw new InputError({ file }, 'the file has no data rows', 'rows of sweep, time, value');
     nSweeps = groups.length;
     nSamples = groups[0][1].t.length;
-    if (nSamples < 2) throw new InputError({ file, sweep: 0 }, `sweep "${groups[0][0]}" has ${nSamples} sample`, 'at least 2 samples per sweep');
+    if (nSamples < 2)
+      throw new InputError(
+        { file, sweep: 0 },
+        `sweep "${groups[0][0]}" has ${nSamples} sample`,
+        'at least 2 samples per sweep',
+      );
     time = Float64Array.from(groups[0][1].t);
     checkTime(time, file, (i) => groups[0][1].lines[i], tc + 1);
     data = sharedSamples(nSweeps * nSamples);
     groups.forEach(([id, g], s) => {
       if (g.t.length !== nSamples) {
-        throw new InputError({ file, line: g.lines[g.lines.length - 1], sweep: s }, `sweep "${id}" has ${g.t.length} samples`, `${nSamples} samples as in sweep "${groups[0][0]}"`);
+        throw new InputError(
+          { file, line: g.lines[g.lines.length - 1], sweep: s },
+          `sweep "${id}" has ${g.t.length} samples`,
+          `${nSamples} samples as in sweep "${groups[0][0]}"`,
+        );
       }
       for (let i = 0; i < nSamples; i++) {
         if (Math.abs(g.t[i] - time[i]) > 1e-6 * Math.max(1, Math.abs(time[i]))) {
-          throw new InputError({ file, line: g.lines[i], column: tc + 1, sweep: s }, `sweep "${id}" has time ${g.t[i]} at sample ${i}`, `the time axis of sweep "${groups[0][0]}" (${time[i]})`);
+          throw new InputError(
+            { file, line: g.lines[i], column: tc + 1, sweep: s },
+            `sweep "${id}" has time ${g.t[i]} at sample ${i}`,
+            `the time axis of sweep "${groups[0][0]}" (${time[i]})`,
+          );
         }
         data[s * nSamples + i] = g.v[i];
       }
@@ -475,10 +620,29 @@ export function parseDelimited(bytes: Uint8Array, file: string, options: Delimit
   const fs = 1000 / dtMs;
   const t0Ms = (time[0] - (opts.stimulusAt ?? 0)) * f;
   return new SweepSet({
-    data, nSweeps, nSamples, fs, t0Ms, units,
+    data,
+    nSweeps,
+    nSamples,
+    fs,
+    t0Ms,
+    units,
     conditions: conds.map((c) => ({ ...c, file })),
     sources: source ? [source] : [],
-    history: [{ verb: 'readDelimited', options: { path: file, ...opts, delimiter: delim, decimal: dec === 44 ? ',' : '.', layout, timeUnit: tUnit, units }, version: VERSION }],
+    history: [
+      {
+        verb: 'readDelimited',
+        options: {
+          path: file,
+          ...opts,
+          delimiter: delim,
+          decimal: dec === 44 ? ',' : '.',
+          layout,
+          timeUnit: tUnit,
+          units,
+        },
+        version: VERSION,
+      },
+    ],
   });
 }
 
@@ -488,14 +652,22 @@ function checkTime(t: Float64Array, file: string, lineOf: (i: number) => number,
   const dt = (t[n - 1] - t[0]) / (n - 1);
   for (let i = 1; i < n; i++) {
     if (!(t[i] > t[i - 1])) {
-      throw new InputError({ file, line: lineOf(i), column }, `time ${t[i]} does not increase (previous ${t[i - 1]})`, 'strictly increasing time');
+      throw new InputError(
+        { file, line: lineOf(i), column },
+        `time ${t[i]} does not increase (previous ${t[i - 1]})`,
+        'strictly increasing time',
+      );
     }
   }
   const tol = 0.01 * dt;
   for (let i = 0; i < n; i++) {
     const d = t[i] - (t[0] + i * dt);
     if (Math.abs(d) > tol) {
-      throw new InputError({ file, line: lineOf(i), column }, `uneven sampling: time ${t[i]} is ${d.toPrecision(3)} off the regular grid (interval ${dt.toPrecision(6)})`, 'evenly sampled time, within 1% of a sample interval');
+      throw new InputError(
+        { file, line: lineOf(i), column },
+        `uneven sampling: time ${t[i]} is ${d.toPrecision(3)} off the regular grid (interval ${dt.toPrecision(6)})`,
+        'evenly sampled time, within 1% of a sample interval',
+      );
     }
   }
 }

@@ -12,13 +12,24 @@ export function openInput(path: string): { fd: number; stat: Stats } {
     // O_NONBLOCK: opening a FIFO (named pipe) must not wait for a writer; it is then refused below
     fd = openSync(path, constants.O_RDONLY | constants.O_NONBLOCK);
   } catch (e) {
-    throw new InputError({ file: path }, `cannot open file (${(e as NodeJS.ErrnoException).code ?? (e as Error).message})`, 'a readable file');
+    throw new InputError(
+      { file: path },
+      `cannot open file (${(e as NodeJS.ErrnoException).code ?? (e as Error).message})`,
+      'a readable file',
+    );
   }
   const stat = fstatSync(fd);
   if (!stat.isFile()) {
     closeSync(fd);
-    const kind = stat.isDirectory() ? 'a folder' : stat.isFIFO() ? 'a named pipe (FIFO)' : stat.isSocket() ? 'a socket'
-      : stat.isCharacterDevice() || stat.isBlockDevice() ? 'a device' : 'not a regular file';
+    const kind = stat.isDirectory()
+      ? 'a folder'
+      : stat.isFIFO()
+        ? 'a named pipe (FIFO)'
+        : stat.isSocket()
+          ? 'a socket'
+          : stat.isCharacterDevice() || stat.isBlockDevice()
+            ? 'a device'
+            : 'not a regular file';
     throw new InputError({ file: path }, `this is ${kind}`, 'a regular file');
   }
   return { fd, stat };
@@ -53,7 +64,11 @@ export function lazySource(path: string, stat: Stats): Source {
       const { fd, stat: now } = openInput(path);
       try {
         if (now.size !== stat.size || now.mtimeMs !== stat.mtimeMs || now.ino !== stat.ino) {
-          throw new InputError({ file: path }, 'the file changed after it was loaded (size, modification time or inode differ), so its SHA-256 would not describe the data analysed', 'the file as it was when loaded; load it again');
+          throw new InputError(
+            { file: path },
+            'the file changed after it was loaded (size, modification time or inode differ), so its SHA-256 would not describe the data analysed',
+            'the file as it was when loaded; load it again',
+          );
         }
         const value = hashFd(fd, stat.size);
         Object.defineProperty(src, 'sha256', { value, enumerable: true, configurable: false, writable: false });
@@ -72,7 +87,10 @@ export function lazySource(path: string, stat: Stats): Source {
  * (lazySource).
  * @throws InputError naming the file when it cannot be read.
  */
-export function readInput(path: string, options: { shared?: (size: number) => boolean } = {}): { bytes: Uint8Array; source: Source } {
+export function readInput(
+  path: string,
+  options: { shared?: (size: number) => boolean } = {},
+): { bytes: Uint8Array; source: Source } {
   const { fd, stat } = openInput(path);
   try {
     const size = stat.size;
@@ -80,9 +98,12 @@ export function readInput(path: string, options: { shared?: (size: number) => bo
     try {
       bytes = options.shared?.(size) ? sharedBytes(size) : new Uint8Array(new ArrayBuffer(size));
     } catch (e) {
-      if (e instanceof RangeError) throw new InputError({ file: path },
-        `the file has ${size} bytes, more than can be held in memory (${e.message})`,
-        'a smaller file (split the recording)');
+      if (e instanceof RangeError)
+        throw new InputError(
+          { file: path },
+          `the file has ${size} bytes, more than can be held in memory (${e.message})`,
+          'a smaller file (split the recording)',
+        );
       throw e;
     }
     let off = 0;
@@ -92,8 +113,16 @@ export function readInput(path: string, options: { shared?: (size: number) => bo
       if (n <= 0) break;
       off += n;
     }
-    if (off !== size) throw new InputError({ file: path }, `read ${off} of ${size} bytes (the file shrank while reading)`, 'a file that does not change while loading');
-    const source = size >= 1 << 22 ? lazySource(path, stat) : { path, sha256: createHash('sha256').update(bytes).digest('hex'), bytes: size };
+    if (off !== size)
+      throw new InputError(
+        { file: path },
+        `read ${off} of ${size} bytes (the file shrank while reading)`,
+        'a file that does not change while loading',
+      );
+    const source =
+      size >= 1 << 22
+        ? lazySource(path, stat)
+        : { path, sha256: createHash('sha256').update(bytes).digest('hex'), bytes: size };
     return { bytes, source };
   } finally {
     closeSync(fd);
@@ -118,15 +147,21 @@ export function allocSamples(n: number, file: string, what: string): Float64Arra
   const need = n * 8;
   const limit = 0.75 * totalmem();
   const gb = (x: number) => (x / 2 ** 30).toPrecision(3);
-  if (!(need <= limit)) throw new InputError({ file },
-    `${what} need ${gb(need)} GB of memory as 64-bit samples, more than three quarters of this machine's ${gb(totalmem())} GB`,
-    'a recording that fits in memory (load part of it, or split the file)');
+  if (!(need <= limit))
+    throw new InputError(
+      { file },
+      `${what} need ${gb(need)} GB of memory as 64-bit samples, more than three quarters of this machine's ${gb(totalmem())} GB`,
+      'a recording that fits in memory (load part of it, or split the file)',
+    );
   try {
     return sharedSamples(n);
   } catch (e) {
-    if (e instanceof RangeError) throw new InputError({ file },
-      `${what} need ${gb(need)} GB of memory as 64-bit samples, which could not be allocated (${e.message})`,
-      'a recording that fits in memory (load part of it, or split the file)');
+    if (e instanceof RangeError)
+      throw new InputError(
+        { file },
+        `${what} need ${gb(need)} GB of memory as 64-bit samples, which could not be allocated (${e.message})`,
+        'a recording that fits in memory (load part of it, or split the file)',
+      );
     throw e;
   }
 }

@@ -44,29 +44,86 @@ export interface Manifest {
  * SERIES with the series names src/report/study.ts and pipeline.ts look for.
  */
 export const MANIFEST_KEYS = [
-  'fascicleManifest', 'study', 'description', 'species', 'nerve', 'classPreset', 'required', 'defaults', 'analysis', 'files',
+  'fascicleManifest',
+  'study',
+  'description',
+  'species',
+  'nerve',
+  'classPreset',
+  'required',
+  'defaults',
+  'analysis',
+  'files',
 ] as const;
 export const FILE_KEYS = ['path', 'format', 'options', 'conditions', 'sweeps'] as const;
 /** Reader options a manifest may give a delimited file (DelimitedOptions without conditions, which the manifest gives itself). */
 export const FILE_OPTION_KEYS = ['delimiter', 'decimal', 'layout', 'timeUnit', 'units', 'stimulusAt'] as const;
 export const ANALYSIS_KEYS: Readonly<Record<string, readonly string[] | 'boolean'>> = {
   baseline: ['window', 'method', 'lateWindow'],
-  artifact: ['method', 'window', 'bridge', 'maxIntensity', 'templateSweeps', 'templateBy', 'scaling', 'fitWindow', 'tailWindow'],
+  artifact: [
+    'method',
+    'window',
+    'bridge',
+    'maxIntensity',
+    'templateSweeps',
+    'templateBy',
+    'scaling',
+    'fitWindow',
+    'tailWindow',
+  ],
   hum: ['frequency', 'harmonics', 'exclude'],
   filter: ['btype', 'cutoff', 'order', 'padlen'],
   averageRepeats: 'boolean',
   poolSites: 'boolean',
   components: [
-    'preset', 'classes', 'distanceMm', 'temperatureC', 'q10', 'utilisationMs', 'k', 'polarity', 'noiseWindow', 'tailFraction', 'tailMs',
-    'earliestMs', 'onsetFraction', 'centroidFraction', 'separation', 'decomposeBy', 'referenceDistanceMm',
+    'preset',
+    'classes',
+    'distanceMm',
+    'temperatureC',
+    'q10',
+    'utilisationMs',
+    'k',
+    'polarity',
+    'noiseWindow',
+    'tailFraction',
+    'tailMs',
+    'earliestMs',
+    'onsetFraction',
+    'centroidFraction',
+    'separation',
+    'decomposeBy',
+    'referenceDistanceMm',
   ],
-  doseResponse: ['measure', 'lastN', 'runDown', 'fixBottom', 'bootstrap', 'seed', 'classes', 'poolSites', 'minConcentrations', 'maxLatencyShift'],
+  doseResponse: [
+    'measure',
+    'lastN',
+    'runDown',
+    'fixBottom',
+    'bootstrap',
+    'seed',
+    'classes',
+    'poolSites',
+    'minConcentrations',
+    'maxLatencyShift',
+  ],
   recruitment: ['measure', 'by', 'supramaximalFactor', 'minLevels'],
   strengthDuration: ['measure', 'by', 'fraction'],
   temperature: ['measure'],
   qc: [
-    'quietWindow', 'endWindow', 'artifactWindow', 'responseWindow', 'by', 'peerBy', 'maxNoiseRatio', 'minNoiseRatio',
-    'maxDriftRatio', 'maxArtifactRatio', 'railRun', 'outlierThreshold', 'outlierMinScale', 'minSweeps',
+    'quietWindow',
+    'endWindow',
+    'artifactWindow',
+    'responseWindow',
+    'by',
+    'peerBy',
+    'maxNoiseRatio',
+    'minNoiseRatio',
+    'maxDriftRatio',
+    'maxArtifactRatio',
+    'railRun',
+    'outlierThreshold',
+    'outlierMinScale',
+    'minSweeps',
   ],
   reject: ['flags'],
   pairedPulse: ['by', 'roleKey', 'intervalKey', 'latency', 'measure', 'blankMs', 'extrapolateMs', 'minIntervals'],
@@ -74,10 +131,30 @@ export const ANALYSIS_KEYS: Readonly<Record<string, readonly string[] | 'boolean
   groups: ['value', 'group', 'animal', 'condition', 'by', 'unit', 'table'],
   mixed: ['value', 'fixed', 'random', 'interaction', 'by', 'levels', 'table'],
   velocityDistribution: [
-    'method', 'velocityRange', 'nVelocities', 'fitWindow', 'fitStartByDistance', 'sfp', 'sfpWindow', 'sfpSmoothing',
-    'amplitudeExponent', 'durationExponent', 'referenceVelocity', 'bipolarSeparationMm', 'utilisationMs', 'drift',
-    'artifactTauMs', 'noiseWindow', 'iterations', 'tolerance', 'lambda', 'alternationLambda', 'bootstrap', 'seed',
-    'classes', 'temperatureC',
+    'method',
+    'velocityRange',
+    'nVelocities',
+    'fitWindow',
+    'fitStartByDistance',
+    'sfp',
+    'sfpWindow',
+    'sfpSmoothing',
+    'amplitudeExponent',
+    'durationExponent',
+    'referenceVelocity',
+    'bipolarSeparationMm',
+    'utilisationMs',
+    'drift',
+    'artifactTauMs',
+    'noiseWindow',
+    'iterations',
+    'tolerance',
+    'lambda',
+    'alternationLambda',
+    'bootstrap',
+    'seed',
+    'classes',
+    'temperatureC',
   ],
 };
 /** Steps that may be `false` (turned off). */
@@ -102,8 +179,8 @@ const isStrings = (v: unknown) => Array.isArray(v) && v.every((x) => typeof x ==
 export const REJECT_FLAGS = ['noisy', 'flat', 'drift', 'saturated', 'artifact', 'outlier'] as const;
 export const ANALYSIS_VALUES: Readonly<Record<string, readonly [(v: unknown) => boolean, string]>> = {
   'components/polarity': [
-    (v) => isPolarity(v)
-      || (v !== null && typeof v === 'object' && !Array.isArray(v) && Object.values(v).every(isPolarity)),
+    (v) =>
+      isPolarity(v) || (v !== null && typeof v === 'object' && !Array.isArray(v) && Object.values(v).every(isPolarity)),
     '1, -1, "auto", or an object of class name -> 1, -1 or "auto" (e.g. { "C": -1 })',
   ],
   'doseResponse/measure': [(v) => typeof v === 'string', 'a column name of the components table'],
@@ -157,16 +234,17 @@ const HINTS: Record<string, string> = {
 function unknownKey(file: string, field: string, key: string, allowed: readonly string[]): never {
   const near = nearest(key, allowed);
   const hint = HINTS[key] && !near ? ` (write ${HINTS[key]})` : near ? ` (did you mean "${near}"?)` : '';
-  throw new ConfigError({ file, field: `${field}/${key}` },
+  throw new ConfigError(
+    { file, field: `${field}/${key}` },
     `unknown key "${key}"${hint}`,
-    `one of ${allowed.join(', ')}`);
+    `one of ${allowed.join(', ')}`,
+  );
 }
 
 function checkObjectKeys(file: string, field: string, obj: unknown, allowed: readonly string[]): void {
   if (obj === undefined) return;
-  if (obj === null || typeof obj !== 'object' || Array.isArray(obj)) throw new ConfigError({ file, field },
-    `is ${shown(obj)}`,
-    'an object');
+  if (obj === null || typeof obj !== 'object' || Array.isArray(obj))
+    throw new ConfigError({ file, field }, `is ${shown(obj)}`, 'an object');
   for (const k of Object.keys(obj)) if (!allowed.includes(k)) unknownKey(file, field, k, allowed);
 }
 
@@ -177,7 +255,8 @@ function tooDeep(root: unknown, max: number): string | null {
     const [v, d, at] = stack.pop()!;
     if (v === null || typeof v !== 'object') continue;
     if (d >= max) return at || '(root)';
-    for (const [k, x] of Object.entries(v as object)) if (x !== null && typeof x === 'object') stack.push([x, d + 1, `${at}/${k}`]);
+    for (const [k, x] of Object.entries(v as object))
+      if (x !== null && typeof x === 'object') stack.push([x, d + 1, `${at}/${k}`]);
   }
   return null;
 }
@@ -191,16 +270,24 @@ function tooDeep(root: unknown, max: number): string | null {
 export function checkManifestKeys(m: unknown, file: string): void {
   if (m === null || typeof m !== 'object' || Array.isArray(m)) return; // the schema says what is wrong
   const deep = tooDeep(m, MANIFEST_MAX_DEPTH);
-  if (deep) throw new ConfigError({ file, field: deep },
-    `nested more than ${MANIFEST_MAX_DEPTH} levels deep`,
-    'the flat structure of schema/manifest.schema.json');
+  if (deep)
+    throw new ConfigError(
+      { file, field: deep },
+      `nested more than ${MANIFEST_MAX_DEPTH} levels deep`,
+      'the flat structure of schema/manifest.schema.json',
+    );
   checkObjectKeys(file, '', m, MANIFEST_KEYS);
   const man = m as Record<string, unknown>;
-  if (man.classPreset !== undefined && (typeof man.classPreset !== 'string' || !Object.hasOwn(PRESETS, man.classPreset))) {
+  if (
+    man.classPreset !== undefined &&
+    (typeof man.classPreset !== 'string' || !Object.hasOwn(PRESETS, man.classPreset))
+  ) {
     const near = typeof man.classPreset === 'string' ? nearest(man.classPreset, Object.keys(PRESETS)) : null;
-    throw new ConfigError({ file, field: '/classPreset' },
+    throw new ConfigError(
+      { file, field: '/classPreset' },
       `unknown class preset ${shown(man.classPreset)}${near ? ` (did you mean "${near}"?)` : ''}`,
-      `one of ${Object.keys(PRESETS).join(', ')}`);
+      `one of ${Object.keys(PRESETS).join(', ')}`,
+    );
   }
   const a = man.analysis as Record<string, unknown> | undefined;
   checkObjectKeys(file, '/analysis', a, Object.keys(ANALYSIS_KEYS));
@@ -210,21 +297,27 @@ export function checkManifestKeys(m: unknown, file: string): void {
     if (BOOLEAN_OR_OBJECT_STEPS.includes(step)) {
       if (typeof v === 'boolean') continue;
       if (v === null || typeof v !== 'object' || Array.isArray(v)) {
-        throw new ConfigError({ file, field: `/analysis/${step}` },
+        throw new ConfigError(
+          { file, field: `/analysis/${step}` },
           `is ${shown(v)}`,
-          `true, false or an object with ${(keys as readonly string[]).join(', ')}`);
+          `true, false or an object with ${(keys as readonly string[]).join(', ')}`,
+        );
       }
     }
     if (keys === 'boolean') {
-      if (typeof v !== 'boolean') throw new ConfigError({ file, field: `/analysis/${step}` }, `is ${shown(v)}`, 'true or false');
+      if (typeof v !== 'boolean')
+        throw new ConfigError({ file, field: `/analysis/${step}` }, `is ${shown(v)}`, 'true or false');
     } else if (Array.isArray(v) && LIST_STEPS.includes(step)) {
       v.forEach((x, i) => checkObjectKeys(file, `/analysis/${step}/${i}`, x, keys));
     } else {
       checkObjectKeys(file, `/analysis/${step}`, v, keys);
       for (const k of REQUIRED_KEYS[step] ?? []) {
-        if (!Object.hasOwn(v as object, k)) throw new ConfigError({ file, field: `/analysis/${step}` },
-          `has no "${k}"`,
-          `"${k}" (${step} needs ${REQUIRED_KEYS[step].join(' and ')})`);
+        if (!Object.hasOwn(v as object, k))
+          throw new ConfigError(
+            { file, field: `/analysis/${step}` },
+            `has no "${k}"`,
+            `"${k}" (${step} needs ${REQUIRED_KEYS[step].join(' and ')})`,
+          );
       }
       for (const [k, x] of Object.entries(v as object)) {
         const check = ANALYSIS_VALUES[`${step}/${k}`];
@@ -237,23 +330,34 @@ export function checkManifestKeys(m: unknown, file: string): void {
   const comp = a?.components as Record<string, unknown> | undefined;
   if (comp && typeof comp.preset === 'string' && !Object.hasOwn(PRESETS, comp.preset)) {
     const near = nearest(comp.preset, Object.keys(PRESETS));
-    throw new ConfigError({ file, field: '/analysis/components/preset' },
+    throw new ConfigError(
+      { file, field: '/analysis/components/preset' },
       `unknown class preset ${shown(comp.preset)}${near ? ` (did you mean "${near}"?)` : ''}`,
-      `one of ${Object.keys(PRESETS).join(', ')}`);
+      `one of ${Object.keys(PRESETS).join(', ')}`,
+    );
   }
-  if (comp && typeof comp.preset === 'string' && typeof man.classPreset === 'string' && comp.preset !== man.classPreset) {
-    throw new ConfigError({ file, field: '/analysis/components/preset' },
+  if (
+    comp &&
+    typeof comp.preset === 'string' &&
+    typeof man.classPreset === 'string' &&
+    comp.preset !== man.classPreset
+  ) {
+    throw new ConfigError(
+      { file, field: '/analysis/components/preset' },
       `preset "${comp.preset}" differs from the top-level classPreset "${man.classPreset}"`,
-      'one of the two, or both the same');
+      'one of the two, or both the same',
+    );
   }
   const series = (c: unknown, field: string) => {
     if (c === null || typeof c !== 'object' || !Object.hasOwn(c, 'series')) return;
     const v = (c as Record<string, unknown>).series;
     if (v === null || (typeof v === 'string' && (SERIES as readonly string[]).includes(v))) return;
     const near = typeof v === 'string' ? nearest(v, SERIES) : null;
-    throw new ConfigError({ file, field: `${field}/series` },
+    throw new ConfigError(
+      { file, field: `${field}/series` },
       `unknown series ${shown(v)}${near ? ` (did you mean "${near}"?)` : ''}`,
-      `one of ${SERIES.join(', ')}`);
+      `one of ${SERIES.join(', ')}`,
+    );
   };
   series(man.defaults, '/defaults');
   if (!Array.isArray(man.files)) return;
@@ -262,10 +366,14 @@ export function checkManifestKeys(m: unknown, file: string): void {
     checkObjectKeys(file, at, f, FILE_KEYS);
     const ff = f as Record<string, unknown>;
     if (ff.options !== undefined) {
-      const binary = ff.format === 'binary' || (ff.format === undefined && typeof ff.path === 'string' && /\.json$/i.test(ff.path));
-      if (binary) throw new ConfigError({ file, field: `${at}/options` },
-        'reader options for a binary file (its sidecar describes it)',
-        'no "options" for a binary file; put dtype, gain and the like in the sidecar');
+      const binary =
+        ff.format === 'binary' || (ff.format === undefined && typeof ff.path === 'string' && /\.json$/i.test(ff.path));
+      if (binary)
+        throw new ConfigError(
+          { file, field: `${at}/options` },
+          'reader options for a binary file (its sidecar describes it)',
+          'no "options" for a binary file; put dtype, gain and the like in the sidecar',
+        );
       // other formats (added later) check their own options
       const nwb = ff.format === 'nwb' || (ff.format === undefined && /\.nwb$/i.test(String(ff.path)));
       const delimited = !nwb && (ff.format === 'delimited' || ff.format === undefined);
@@ -278,7 +386,9 @@ export function checkManifestKeys(m: unknown, file: string): void {
 
 export const MANIFEST_SCHEMA_PATH = join(__dirname, '..', '..', 'schema', 'manifest.schema.json');
 
-let validator: ((x: unknown) => boolean) & { errors?: { instancePath: string; message?: string; params?: unknown }[] | null };
+let validator: ((x: unknown) => boolean) & {
+  errors?: { instancePath: string; message?: string; params?: unknown }[] | null;
+};
 function validate(m: unknown, file: string): asserts m is Manifest {
   if (!validator) {
     // eslint-disable-next-line @typescript-eslint/no-var-requires
@@ -291,7 +401,11 @@ function validate(m: unknown, file: string): asserts m is Manifest {
   if (!validator(m)) {
     const e = validator.errors![0];
     const where = e.instancePath || '(root)';
-    throw new InputError({ file, field: where }, `does not match the manifest schema: ${where} ${e.message}${e.params ? ' ' + JSON.stringify(e.params) : ''}`, 'a manifest as described by schema/manifest.schema.json');
+    throw new InputError(
+      { file, field: where },
+      `does not match the manifest schema: ${where} ${e.message}${e.params ? ' ' + JSON.stringify(e.params) : ''}`,
+      'a manifest as described by schema/manifest.schema.json',
+    );
   }
   // JSON Schema accepts numbers that overflow to Infinity (1e400): conditions must be finite
   const check = (c: unknown, field: string) => {
@@ -311,7 +425,11 @@ export function readManifestJson(path: string): { manifest: Manifest; source: im
   const { bytes, source } = readInput(path);
   let m: unknown;
   try {
-    m = JSON.parse(Buffer.from(bytes).toString('utf8').replace(/^\uFEFF/, ''));
+    m = JSON.parse(
+      Buffer.from(bytes)
+        .toString('utf8')
+        .replace(/^\uFEFF/, ''),
+    );
   } catch (e) {
     throw new InputError({ file: path }, `invalid JSON (${(e as Error).message})`, 'a JSON manifest');
   }
@@ -343,19 +461,29 @@ export function readManifest(path: string, opts: { only?: (f: ManifestFile, i: n
     try {
       const fmt = formatOf(f);
       // NWB entries need the HDF5 library loaded first (await nwbReady())
-      set = fmt === 'binary' ? readBinary(full, { conditions: base })
-        : fmt === 'nwb' ? readNwbSync(full, { ...((f.options ?? {}) as NwbReadOptions), conditions: base })
-          : readDelimited(full, { ...(f.options ?? {}), conditions: base });
+      set =
+        fmt === 'binary'
+          ? readBinary(full, { conditions: base })
+          : fmt === 'nwb'
+            ? readNwbSync(full, { ...((f.options ?? {}) as NwbReadOptions), conditions: base })
+            : readDelimited(full, { ...(f.options ?? {}), conditions: base });
     } catch (e) {
       // a bad reader option written in the manifest is a fault of the manifest
-      if (e instanceof OptionError) throw new ConfigError({ file: path, field: `/files/${fi}/options` },
-        e.message,
-        'reader options as in the README (delimiter, decimal, layout, timeUnit, units, stimulusAt)');
+      if (e instanceof OptionError)
+        throw new ConfigError(
+          { file: path, field: `/files/${fi}/options` },
+          e.message,
+          'reader options as in the README (delimiter, decimal, layout, timeUnit, units, stimulusAt)',
+        );
       throw e;
     }
     if (f.sweeps) {
       if (f.sweeps.length !== set.nSweeps) {
-        throw new InputError({ file: path, field: `/files/${fi}/sweeps` }, `${f.sweeps.length} sweep entries for ${f.path}, which has ${set.nSweeps} sweeps`, 'one conditions entry per sweep');
+        throw new InputError(
+          { file: path, field: `/files/${fi}/sweeps` },
+          `${f.sweeps.length} sweep entries for ${f.path}, which has ${set.nSweeps} sweeps`,
+          'one conditions entry per sweep',
+        );
       }
       set = set.create({ conditions: set.conditions.map((c, i) => ({ ...c, ...f.sweeps![i] })) });
     }
@@ -365,17 +493,29 @@ export function readManifest(path: string, opts: { only?: (f: ManifestFile, i: n
     set.conditions.forEach((c, i) => {
       for (const k of required) {
         if (!Object.hasOwn(c, k) || c[k] === null || c[k] === undefined) {
-          throw new InputError({ file: f.path, sweep: i }, `condition "${k}" is missing`, `every sweep to have "${k}" (listed in the manifest's required conditions)`);
+          throw new InputError(
+            { file: f.path, sweep: i },
+            `condition "${k}" is missing`,
+            `every sweep to have "${k}" (listed in the manifest's required conditions)`,
+          );
         }
       }
     });
     const first = sets[0];
     if (first) {
       if (Math.abs(set.fs - first.fs) > 1e-6 * first.fs) {
-        throw new InputError({ file: f.path }, `sample rate ${set.fs} Hz differs from ${first.fs} Hz in ${String(first.conditions[0].file)}`, 'one sample rate for all files of a study (resample first)');
+        throw new InputError(
+          { file: f.path },
+          `sample rate ${set.fs} Hz differs from ${first.fs} Hz in ${String(first.conditions[0].file)}`,
+          'one sample rate for all files of a study (resample first)',
+        );
       }
-      if (set.nSamples !== first.nSamples || Math.abs(set.t0Ms - first.t0Ms) > 0.5 / first.fs * 1000) {
-        throw new InputError({ file: f.path }, `sweeps of ${set.nSamples} samples from ${set.t0Ms} ms differ from ${first.nSamples} samples from ${first.t0Ms} ms in ${String(first.conditions[0].file)}`, 'equal sweep length and start time for all files (crop first)');
+      if (set.nSamples !== first.nSamples || Math.abs(set.t0Ms - first.t0Ms) > (0.5 / first.fs) * 1000) {
+        throw new InputError(
+          { file: f.path },
+          `sweeps of ${set.nSamples} samples from ${set.t0Ms} ms differ from ${first.nSamples} samples from ${first.t0Ms} ms in ${String(first.conditions[0].file)}`,
+          'equal sweep length and start time for all files (crop first)',
+        );
       }
       if (set.units !== first.units) set = set.toUnits(first.units);
       if (set.fs !== first.fs || set.t0Ms !== first.t0Ms) set = set.create({ fs: first.fs, t0Ms: first.t0Ms });
@@ -386,7 +526,9 @@ export function readManifest(path: string, opts: { only?: (f: ManifestFile, i: n
   const all = SweepSet.concat(sets);
   return all.create({
     sources: [source, ...all.sources],
-    history: [{ verb: 'readManifest', options: { path, study: manifest.study ?? null, files: sets.length }, version: VERSION }],
+    history: [
+      { verb: 'readManifest', options: { path, study: manifest.study ?? null, files: sets.length }, version: VERSION },
+    ],
     extras: { manifest },
   });
 }

@@ -19,7 +19,10 @@ export function parseNumber(buf: Uint8Array, start: number, end: number, dec: nu
   let i = start;
   let neg = false;
   const c0 = buf[i];
-  if (c0 === 45) { neg = true; i++; } else if (c0 === 43) i++;
+  if (c0 === 45) {
+    neg = true;
+    i++;
+  } else if (c0 === 43) i++;
   let m = 0;
   let digits = 0;
   let sig = 0;
@@ -48,7 +51,10 @@ export function parseNumber(buf: Uint8Array, start: number, end: number, dec: nu
   if (i < end && (buf[i] === 101 || buf[i] === 69)) {
     i++;
     let eneg = false;
-    if (buf[i] === 45) { eneg = true; i++; } else if (buf[i] === 43) i++;
+    if (buf[i] === 45) {
+      eneg = true;
+      i++;
+    } else if (buf[i] === 43) i++;
     let e = 0;
     let ed = 0;
     for (; i < end; i++) {
@@ -73,5 +79,7 @@ export function parseNumber(buf: Uint8Array, start: number, end: number, dec: nu
 
 /** Text of bytes [start, end), for messages. */
 export function fieldText(buf: Uint8Array, start: number, end: number): string {
-  return Buffer.from(buf.buffer, buf.byteOffset + start, end - start).toString('utf8').trim();
+  return Buffer.from(buf.buffer, buf.byteOffset + start, end - start)
+    .toString('utf8')
+    .trim();
 }

@@ -32,9 +32,22 @@ import { lazySource, openInput } from './files';
 import { sharedSamples } from '../parallel/pool';
 import { VERSION } from '../version';
 import {
-  nwbReady, openHdf5, HyperslabReader, at, attr, attrNumber, attrText, typeOf, numbers, texts, elementKind,
-  isGroup, isDataset,
-  type H5File, type H5Group, type H5Dataset,
+  nwbReady,
+  openHdf5,
+  HyperslabReader,
+  at,
+  attr,
+  attrNumber,
+  attrText,
+  typeOf,
+  numbers,
+  texts,
+  elementKind,
+  isGroup,
+  isDataset,
+  type H5File,
+  type H5Group,
+  type H5Dataset,
 } from './nwbLib';
 import { NWB_CONDITIONS, findColumn, convertColumn, decodeColumn, type TableColumn } from './nwbColumns';
 
@@ -66,11 +79,30 @@ export interface NwbReadOptions {
   conditions?: Conditions;
 }
 
-const READ_KEYS = ['series', 'channel', 'intervals', 'stimulusColumn', 'stimulusTimes', 'window', 'columns', 'units',
-  'trials', 'conditions'];
+const READ_KEYS = [
+  'series',
+  'channel',
+  'intervals',
+  'stimulusColumn',
+  'stimulusTimes',
+  'window',
+  'columns',
+  'units',
+  'trials',
+  'conditions',
+];
 const STIMULUS_NAMES = ['stimulus_time', 'stim_time', 'stimulus_onset', 'stim_onset', 'onset_time'];
-const VOLT_UNITS: Record<string, number> = { volts: 1, volt: 1, v: 1, millivolts: 1e-3, millivolt: 1e-3, mv: 1e-3,
-  microvolts: 1e-6, microvolt: 1e-6, uv: 1e-6 };
+const VOLT_UNITS: Record<string, number> = {
+  volts: 1,
+  volt: 1,
+  v: 1,
+  millivolts: 1e-3,
+  millivolt: 1e-3,
+  mv: 1e-3,
+  microvolts: 1e-6,
+  microvolt: 1e-6,
+  uv: 1e-6,
+};
 const UNIT_SCALE: Record<SignalUnit, number> = { V: 1, mV: 1e-3, uV: 1e-6 };
 /** What fascicle writes in /general/source_script. */
 export const FASCICLE_SCRIPT = 'fascicle';
@@ -81,7 +113,11 @@ function openNwb(path: string): { f: H5File; stat: import('node:fs').Stats } {
   try {
     return { f: openHdf5(path, fd, stat.size), stat };
   } catch (e) {
-    try { closeSync(fd); } catch { /* closed already */ }
+    try {
+      closeSync(fd);
+    } catch {
+      /* closed already */
+    }
     throw e;
   }
 }
@@ -136,11 +172,15 @@ export function readNwbSync(path: string, options: NwbReadOptions = {}): SweepSe
     throw new OptionError(`invalid units: ${shown(o.units)}; must be one of ${SIGNAL_UNITS.join(', ')}`);
   }
   if (o.conditions !== undefined && conditionsProblem(o.conditions)) {
-    throw new OptionError(`invalid conditions: ${conditionsProblem(o.conditions)}; must be an object of strings, finite numbers, booleans or null`);
+    throw new OptionError(
+      `invalid conditions: ${conditionsProblem(o.conditions)}; must be an object of strings, finite numbers, booleans or null`,
+    );
   }
   if (o.columns !== undefined) {
     if (o.columns === null || typeof o.columns !== 'object') {
-      throw new OptionError(`invalid columns: ${shown(o.columns)}; must be an object of condition -> column name or null`);
+      throw new OptionError(
+        `invalid columns: ${shown(o.columns)}; must be an object of condition -> column name or null`,
+      );
     }
     for (const [k, v] of Object.entries(o.columns)) {
       if (v !== null && (typeof v !== 'string' || !v)) {
@@ -149,9 +189,14 @@ export function readNwbSync(path: string, options: NwbReadOptions = {}): SweepSe
     }
   }
   if (o.stimulusTimes !== undefined) {
-    if (!Array.isArray(o.stimulusTimes) || o.stimulusTimes.length === 0
-      || !o.stimulusTimes.every((t) => typeof t === 'number' && Number.isFinite(t))) {
-      throw new OptionError(`invalid stimulusTimes: ${shown(o.stimulusTimes)}; must be a non-empty array of finite times in s`);
+    if (
+      !Array.isArray(o.stimulusTimes) ||
+      o.stimulusTimes.length === 0 ||
+      !o.stimulusTimes.every((t) => typeof t === 'number' && Number.isFinite(t))
+    ) {
+      throw new OptionError(
+        `invalid stimulusTimes: ${shown(o.stimulusTimes)}; must be a non-empty array of finite times in s`,
+      );
     }
     if (!win) throw new OptionError('stimulusTimes needs a window ([from, to] in ms around each stimulus)');
   }
@@ -164,8 +209,13 @@ export function readNwbSync(path: string, options: NwbReadOptions = {}): SweepSe
   }
 }
 
-function readOpen(path: string, f: H5File, o: NwbReadOptions, win: [number, number] | undefined,
-  stat: import('node:fs').Stats): SweepSet {
+function readOpen(
+  path: string,
+  f: H5File,
+  o: NwbReadOptions,
+  win: [number, number] | undefined,
+  stat: import('node:fs').Stats,
+): SweepSet {
   const bad = (field: string, problem: string, expected: string): never => {
     throw new InputError({ file: path, field }, problem, expected);
   };
@@ -173,11 +223,14 @@ function readOpen(path: string, f: H5File, o: NwbReadOptions, win: [number, numb
   const rootType = typeOf(f);
   const version = attrText(f, 'nwb_version');
   if (rootType !== 'NWBFile' || version === undefined) {
-    bad('/', `HDF5 without the NWB root attributes (neurodata_type ${shown(rootType ?? null)}, nwb_version ${shown(version ?? null)})`,
-      'an NWB 2.x file: the root group has neurodata_type "NWBFile" and an nwb_version');
+    bad(
+      '/',
+      `HDF5 without the NWB root attributes (neurodata_type ${shown(rootType ?? null)}, nwb_version ${shown(version ?? null)})`,
+      'an NWB 2.x file: the root group has neurodata_type "NWBFile" and an nwb_version',
+    );
   }
-  if (!/^2\./.test(version!)) bad('/', `nwb_version ${shown(version)}`,
-    'NWB 2.x (NWB 1.x files must be converted first)');
+  if (!/^2\./.test(version!))
+    bad('/', `nwb_version ${shown(version)}`, 'NWB 2.x (NWB 1.x files must be converted first)');
   const meta = fileMetadata(f);
   const byFascicle = typeof meta.source_script === 'string' && meta.source_script.startsWith(FASCICLE_SCRIPT);
 
@@ -187,36 +240,61 @@ function readOpen(path: string, f: H5File, o: NwbReadOptions, win: [number, numb
   if (o.series !== undefined) {
     const want = typeof o.series === 'string' ? [o.series] : [...o.series];
     if (want.length === 0 || !want.every((s) => typeof s === 'string' && s)) {
-      throw new OptionError(`invalid series: ${shown(o.series)}; must be a series name or HDF5 path, or a list of them`);
+      throw new OptionError(
+        `invalid series: ${shown(o.series)}; must be a series name or HDF5 path, or a list of them`,
+      );
     }
     paths = want.map((s) => {
-      const p = s.startsWith('/') ? s : candidates.find((c) => c.endsWith('/' + s)) ?? `/acquisition/${s}`;
+      const p = s.startsWith('/') ? s : (candidates.find((c) => c.endsWith('/' + s)) ?? `/acquisition/${s}`);
       if (!candidates.includes(p)) {
-        const near = nearest(s, candidates.map((c) => c.split('/').pop()!));
-        bad(p, `no TimeSeries at ${p}${near ? ` (did you mean ${JSON.stringify(near)}?)` : ''}`,
-          candidates.length ? `one of ${candidates.join(', ')}` : 'a TimeSeries or ElectricalSeries in /acquisition or /processing');
+        const near = nearest(
+          s,
+          candidates.map((c) => c.split('/').pop()!),
+        );
+        bad(
+          p,
+          `no TimeSeries at ${p}${near ? ` (did you mean ${JSON.stringify(near)}?)` : ''}`,
+          candidates.length
+            ? `one of ${candidates.join(', ')}`
+            : 'a TimeSeries or ElectricalSeries in /acquisition or /processing',
+        );
       }
       return p;
     });
   } else if (candidates.length === 0) {
-    paths = bad('/acquisition', 'no TimeSeries or ElectricalSeries with data in /acquisition or /processing',
-      'a series of evoked recordings');
+    paths = bad(
+      '/acquisition',
+      'no TimeSeries or ElectricalSeries with data in /acquisition or /processing',
+      'a series of evoked recordings',
+    );
   } else if (candidates.length === 1 || byFascicle) {
     paths = candidates;
   } else {
-    paths = bad('/acquisition', `${candidates.length} series: ${candidates.join(', ')}`,
-      'the series option naming the one to read');
+    paths = bad(
+      '/acquisition',
+      `${candidates.length} series: ${candidates.join(', ')}`,
+      'the series option naming the one to read',
+    );
   }
   const outUnits = o.units;
   // one entry per (series, channel) read
   const manyChannels = o.channel === 'all' || Array.isArray(o.channel);
-  const series = paths.flatMap((p) => channelsOf(path, f, p, o.channel).map((ch) => seriesInfo(path, f, p, ch, byFascicle)));
+  const series = paths.flatMap((p) =>
+    channelsOf(path, f, p, o.channel).map((ch) => seriesInfo(path, f, p, ch, byFascicle)),
+  );
   const byPath = [...new Map(series.map((s) => [s.path, s])).values()];
   const units: SignalUnit = outUnits ?? series[0].unitGuess;
   for (const s of series) setGain(s, units);
 
   // stimulus times and the rows' columns
-  let rows: { T: number; start?: number; stop?: number; columns: Record<string, ConditionValue>; id: number; ref?: number }[];
+  let rows: {
+    T: number;
+    start?: number;
+    stop?: number;
+    columns: Record<string, ConditionValue>;
+    id: number;
+    ref?: number;
+  }[];
   let tablePath: string | null = null;
   let stimulusColumn: string | null = null;
   const notes: string[] = [];
@@ -232,21 +310,28 @@ function readOpen(path: string, f: H5File, o: NwbReadOptions, win: [number, numb
     const col = (name: string) => cols.columns.find((c) => c.name === name);
     if (o.stimulusColumn !== undefined) {
       if (!col(o.stimulusColumn)) {
-        bad(`${tablePath}/${o.stimulusColumn}`,
-          `no column ${JSON.stringify(o.stimulusColumn)}${didYouMean(o.stimulusColumn, names)}`, `one of ${names.join(', ')}`);
+        bad(
+          `${tablePath}/${o.stimulusColumn}`,
+          `no column ${JSON.stringify(o.stimulusColumn)}${didYouMean(o.stimulusColumn, names)}`,
+          `one of ${names.join(', ')}`,
+        );
       }
       stimulusColumn = o.stimulusColumn;
     } else {
       stimulusColumn = STIMULUS_NAMES.find((s) => names.some((k) => k.toLowerCase() === s)) ?? null;
       if (stimulusColumn) stimulusColumn = names.find((k) => k.toLowerCase() === stimulusColumn)!;
       else if (col('start_time')) stimulusColumn = 'start_time';
-      else bad(`${tablePath}/start_time`, 'the table has no start_time and no stimulus column',
-        `a start_time column or one of ${STIMULUS_NAMES.join(', ')}`);
+      else
+        bad(
+          `${tablePath}/start_time`,
+          'the table has no start_time and no stimulus column',
+          `a start_time column or one of ${STIMULUS_NAMES.join(', ')}`,
+        );
     }
     const times = col(stimulusColumn!)!;
     times.values.forEach((v, i) => {
-      if (typeof v !== 'number') bad(times.path, `row ${i} has no stimulus time (${shown(v)})`,
-        'a time in s in every row');
+      if (typeof v !== 'number')
+        bad(times.path, `row ${i} has no stimulus time (${shown(v)})`, 'a time in s in every row');
     });
     const start = col('start_time');
     const stop = col('stop_time');
@@ -258,8 +343,14 @@ function readOpen(path: string, f: H5File, o: NwbReadOptions, win: [number, numb
       const c: Record<string, ConditionValue> = {};
       for (const column of cols.columns) if (!used.has(column.name)) c[column.name] = column.values[i];
       Object.assign(c, mapped.values[i]);
-      rows.push({ T: times.values[i] as number, start: num(start?.values[i]), stop: num(stop?.values[i]),
-        columns: c, id: cols.ids[i], ref: cols.refStarts?.[i] });
+      rows.push({
+        T: times.values[i] as number,
+        start: num(start?.values[i]),
+        stop: num(stop?.values[i]),
+        columns: c,
+        id: cols.ids[i],
+        ref: cols.refStarts?.[i],
+      });
     }
     if (rows.length === 0) bad(tablePath, 'the table has no rows', 'one row per stimulus');
   }
@@ -282,11 +373,14 @@ function readOpen(path: string, f: H5File, o: NwbReadOptions, win: [number, numb
   if (o.trials === undefined) selected = rows.map((_, i) => i);
   else if (typeof o.trials === 'function') {
     const test = o.trials;
-    selected = rows.map((_, i) => i).filter((i) => test(Object.freeze(conditionsOf(i,
-      series.length === 1 ? series[0] : null)), i));
+    selected = rows
+      .map((_, i) => i)
+      .filter((i) => test(Object.freeze(conditionsOf(i, series.length === 1 ? series[0] : null)), i));
   } else {
     if (!Array.isArray(o.trials) || !o.trials.every((i) => Number.isInteger(i) && i >= 0 && i < rows.length)) {
-      throw new OptionError(`invalid trials: ${shown(o.trials)}; must be row numbers 0..${rows.length - 1} or a function`);
+      throw new OptionError(
+        `invalid trials: ${shown(o.trials)}; must be row numbers 0..${rows.length - 1} or a function`,
+      );
     }
     selected = [...o.trials];
   }
@@ -301,8 +395,12 @@ function readOpen(path: string, f: H5File, o: NwbReadOptions, win: [number, numb
   let fs = fs0;
   for (const s of series) {
     const r = s.rate ?? fs0;
-    if (Math.abs(r - fs) > 1e-9 * fs) bad(s.path, `sample rate ${r} Hz differs from ${fs} Hz in ${series[0].path}`,
-      'one sample rate for all series read together');
+    if (Math.abs(r - fs) > 1e-9 * fs)
+      bad(
+        s.path,
+        `sample rate ${r} Hz differs from ${fs} Hz in ${series[0].path}`,
+        'one sample rate for all series read together',
+      );
   }
   fs = snap(fs);
 
@@ -312,28 +410,40 @@ function readOpen(path: string, f: H5File, o: NwbReadOptions, win: [number, numb
   if (win) [from, to] = win;
   else {
     if (selected.some((i) => rows[i].start === undefined || rows[i].stop === undefined)) {
-      bad(tablePath ?? '/intervals', 'no window option and rows without start_time / stop_time',
-        'the window option ([from, to] ms around each stimulus)');
+      bad(
+        tablePath ?? '/intervals',
+        'no window option and rows without start_time / stop_time',
+        'the window option ([from, to] ms around each stimulus)',
+      );
     }
     from = Math.max(...selected.map((i) => (rows[i].start! - rows[i].T) * 1000));
     to = Math.min(...selected.map((i) => (rows[i].stop! - rows[i].T) * 1000));
-    if (!(to > from)) bad(tablePath!,
-      `the rows' start_time..stop_time spans have no common part around their stimuli (${from} to ${to} ms)`, 'the window option');
+    if (!(to > from))
+      bad(
+        tablePath!,
+        `the rows' start_time..stop_time spans have no common part around their stimuli (${from} to ${to} ms)`,
+        'the window option',
+      );
   }
   const phases = selected.map((row, k) => (place[k].time - rows[row].T) * 1000);
   const phase = [...phases].sort((x, y) => x - y)[Math.floor(phases.length / 2)];
   const a = Math.ceil(((from - phase) * fs) / 1000 - 1e-3);
   const b = Math.floor(((to - phase) * fs) / 1000 + 1e-3);
   const nSamples = b - a + 1;
-  if (nSamples < 2) bad(tablePath ?? '/intervals',
-    `the window [${from}, ${to}] ms holds ${nSamples} sample at ${fs} Hz`, 'a window of at least 2 samples');
+  if (nSamples < 2)
+    bad(
+      tablePath ?? '/intervals',
+      `the window [${from}, ${to}] ms holds ${nSamples} sample at ${fs} Hz`,
+      'a window of at least 2 samples',
+    );
   const t0Ms = Number(((a * 1000) / fs + phase).toFixed(9));
   const t1Ms = Number(((b * 1000) / fs + phase).toFixed(9));
   const jitter = Math.max(...phases.map((x) => Math.abs(x - phase)));
 
   // the sweeps: each selected row once per channel read from its series
-  const sweeps = selected.flatMap((row, k) => series.filter((s) => s.path === place[k].s.path)
-    .map((s) => ({ row, k, s })));
+  const sweeps = selected.flatMap((row, k) =>
+    series.filter((s) => s.path === place[k].s.path).map((s) => ({ row, k, s })),
+  );
 
   // read the samples: one hyperslab per sweep
   const out = sharedSamples(sweeps.length * nSamples);
@@ -342,9 +452,11 @@ function readOpen(path: string, f: H5File, o: NwbReadOptions, win: [number, numb
     const i0 = index + a;
     const i1 = index + b + 1;
     if (i0 < 0 || i1 > s.nTimes) {
-      bad(s.path + '/data',
+      bad(
+        s.path + '/data',
         `the window of row ${row} (stimulus at ${rows[row].T} s) runs from sample ${i0} to ${i1 - 1}, outside the series (0..${s.nTimes - 1})`,
-        'a window inside the recording (a smaller window option)');
+        'a window inside the recording (a smaller window option)',
+      );
     }
     if (s.timestamps) checkGrid(path, s, i0, i1, fs, row);
     readInto(path, s, i0, i1, out, j * nSamples, row);
@@ -359,23 +471,44 @@ function readOpen(path: string, f: H5File, o: NwbReadOptions, win: [number, numb
   }));
   for (const note of notes) warnOnce(`nwb:${path}:${note}`, `${path}: ${note}`);
   const info = series.map((s) => ({
-    path: s.path, unit: s.unit, conversion: s.conversion, offset: s.offset, resolution: s.resolution,
-    channel: s.channel, channelConversion: s.channelConversion,
+    path: s.path,
+    unit: s.unit,
+    conversion: s.conversion,
+    offset: s.offset,
+    resolution: s.resolution,
+    channel: s.channel,
+    channelConversion: s.channelConversion,
     time: s.rate !== undefined ? 'starting_time+rate' : 'timestamps',
   }));
   const source = lazySource(path, stat);
   return new SweepSet({
-    data: out, nSweeps: sweeps.length, nSamples, fs, t0Ms, units, conditions,
+    data: out,
+    nSweeps: sweeps.length,
+    nSamples,
+    fs,
+    t0Ms,
+    units,
+    conditions,
     sources: [source],
-    history: [{
-      verb: 'readNwb',
-      options: {
-        path, series: info, intervals: tablePath, stimulusColumn, window: [t0Ms, t1Ms], units,
-        columns: mapping, rows: selected.length === rows.length ? 'all' : selected, maxStimulusOffsetMs: jitter,
-        notes, nwb: meta,
+    history: [
+      {
+        verb: 'readNwb',
+        options: {
+          path,
+          series: info,
+          intervals: tablePath,
+          stimulusColumn,
+          window: [t0Ms, t1Ms],
+          units,
+          columns: mapping,
+          rows: selected.length === rows.length ? 'all' : selected,
+          maxStimulusOffsetMs: jitter,
+          notes,
+          nwb: meta,
+        },
+        version: VERSION,
       },
-      version: VERSION,
-    }],
+    ],
     extras: { nwb: meta, ...(byFascicle ? studyOf(f) : {}) },
   });
 }
@@ -489,46 +622,56 @@ function channelsOf(file: string, f: H5File, p: string, channel: NwbReadOptions[
   if (channel === 'all') return Array.from({ length: n }, (_, i) => i);
   if (Array.isArray(channel)) {
     for (const c of channel) {
-      if (c >= n) throw new InputError({ file, field: `${p}/data` }, `channel ${c} with ${n} channels`,
-        `channels 0..${n - 1}`);
+      if (c >= n)
+        throw new InputError({ file, field: `${p}/data` }, `channel ${c} with ${n} channels`, `channels 0..${n - 1}`);
     }
     return [...new Set(channel as number[])];
   }
   return [channel as number | undefined];
 }
 
-function seriesInfo(file: string, f: H5File, p: string, channel: number | undefined, byFascicle: boolean): SeriesWithGuess {
+function seriesInfo(
+  file: string,
+  f: H5File,
+  p: string,
+  channel: number | undefined,
+  byFascicle: boolean,
+): SeriesWithGuess {
   const bad = (field: string, problem: string, expected: string): never => {
     throw new InputError({ file, field }, problem, expected);
   };
   const g = at(f, p) as H5Group;
   const data = g.get('data') as H5Dataset;
   const shape = data.shape ?? [];
-  if (shape.length < 1 || shape.length > 2) bad(`${p}/data`,
-    `data has ${shape.length} dimensions (${shape.join(' x ')})`, 'times, or times x channels');
+  if (shape.length < 1 || shape.length > 2)
+    bad(`${p}/data`, `data has ${shape.length} dimensions (${shape.join(' x ')})`, 'times, or times x channels');
   const nTimes = shape[0];
   const nChannels = shape.length === 2 ? shape[1] : 1;
   let ch = channel ?? 0;
-  if (channel === undefined && nChannels > 1) bad(`${p}/data`, `data has ${nChannels} channels`,
-    `the channel option (0..${nChannels - 1}, a list, or "all")`);
+  if (channel === undefined && nChannels > 1)
+    bad(`${p}/data`, `data has ${nChannels} channels`, `the channel option (0..${nChannels - 1}, a list, or "all")`);
   if (ch >= nChannels) bad(`${p}/data`, `channel ${ch} with ${nChannels} channels`, `a channel 0..${nChannels - 1}`);
   const unit = attrText(data, 'unit');
   if (unit === undefined) bad(`${p}/data`, 'data has no unit attribute', 'unit "volts" (or another voltage unit)');
   const valueScale = VOLT_UNITS[unit!.trim().replace(/[µμ]/g, 'u').toLowerCase()];
-  if (valueScale === undefined) bad(`${p}/data`, `data has the unit ${JSON.stringify(unit)}, not a voltage`,
-    'volts, millivolts or microvolts');
+  if (valueScale === undefined)
+    bad(`${p}/data`, `data has the unit ${JSON.stringify(unit)}, not a voltage`, 'volts, millivolts or microvolts');
   const conversion = attrNumber(data, 'conversion') ?? 1;
   const offset = attrNumber(data, 'offset') ?? 0;
   const resolution = attrNumber(data, 'resolution') ?? -1;
-  if (!Number.isFinite(conversion) || conversion === 0) bad(`${p}/data`, `conversion is ${conversion}`,
-    'a finite non-zero factor');
+  if (!Number.isFinite(conversion) || conversion === 0)
+    bad(`${p}/data`, `conversion is ${conversion}`, 'a finite non-zero factor');
   if (!Number.isFinite(offset)) bad(`${p}/data`, `offset is ${offset}`, 'a finite offset');
   let channelConversion = 1;
   const cc = g.keys().includes('channel_conversion') ? g.get('channel_conversion') : null;
   if (isDataset(cc)) {
     const v = numbers(cc);
-    if (v.length !== nChannels || !Number.isFinite(v[ch]) || v[ch] === 0) bad(`${p}/channel_conversion`,
-      `${v.length} factors for ${nChannels} channels`, 'one finite non-zero factor per channel');
+    if (v.length !== nChannels || !Number.isFinite(v[ch]) || v[ch] === 0)
+      bad(
+        `${p}/channel_conversion`,
+        `${v.length} factors for ${nChannels} channels`,
+        'one finite non-zero factor per channel',
+      );
     channelConversion = v[ch];
   }
   let rate: number | undefined, startingTime: number | undefined, timestamps: H5Dataset | undefined;
@@ -538,22 +681,25 @@ function seriesInfo(file: string, f: H5File, p: string, channel: number | undefi
   if (isDataset(st)) {
     startingTime = numbers(st)[0];
     rate = attrNumber(st, 'rate');
-    if (!(rate! > 0) || !Number.isFinite(rate)) bad(`${p}/starting_time`, `rate is ${shown(rate ?? null)}`,
-      'a rate attribute in Hz > 0');
+    if (!(rate! > 0) || !Number.isFinite(rate))
+      bad(`${p}/starting_time`, `rate is ${shown(rate ?? null)}`, 'a rate attribute in Hz > 0');
     rate = snap(rate!);
     tFirst = startingTime;
     tLast = startingTime + (nTimes - 1) / rate;
   } else if (isDataset(ts)) {
     const tshape = ts.shape ?? [];
-    if (tshape.length !== 1 || tshape[0] !== nTimes) bad(`${p}/timestamps`,
-      `${tshape.join(' x ')} timestamps for ${nTimes} samples`, 'one timestamp per sample');
+    if (tshape.length !== 1 || tshape[0] !== nTimes)
+      bad(`${p}/timestamps`, `${tshape.join(' x ')} timestamps for ${nTimes} samples`, 'one timestamp per sample');
     if (nTimes < 2) bad(`${p}/data`, `${nTimes} sample`, 'at least 2 samples');
     timestamps = ts;
     tFirst = numbers(ts, [0, 1])[0];
     tLast = numbers(ts, [nTimes - 1, nTimes])[0];
   } else {
-    return bad(p, 'the series has neither starting_time (with rate) nor timestamps',
-      'starting_time and its rate, or timestamps');
+    return bad(
+      p,
+      'the series has neither starting_time (with rate) nor timestamps',
+      'starting_time and its rate, or timestamps',
+    );
   }
   // electrodes of an ElectricalSeries
   const electrode: Record<string, ConditionValue> = {};
@@ -568,9 +714,28 @@ function seriesInfo(file: string, f: H5File, p: string, channel: number | undefi
     }
   }
   return {
-    path: p, group: g, data, nTimes, nChannels, channel: ch, gain: 1, shift: 0, identity: false, unit: unit!,
-    conversion, offset, resolution, channelConversion, rate, startingTime, timestamps, tFirst: tFirst!, tLast: tLast!,
-    electrode, unitGuess, valueScale,
+    path: p,
+    group: g,
+    data,
+    nTimes,
+    nChannels,
+    channel: ch,
+    gain: 1,
+    shift: 0,
+    identity: false,
+    unit: unit!,
+    conversion,
+    offset,
+    resolution,
+    channelConversion,
+    rate,
+    startingTime,
+    timestamps,
+    tFirst: tFirst!,
+    tLast: tLast!,
+    electrode,
+    unitGuess,
+    valueScale,
   };
 }
 
@@ -589,8 +754,13 @@ function setGain(s: SeriesInfo & { valueScale?: number }, units: SignalUnit): vo
   s.identity = false;
 }
 
-function electrodeConditions(file: string, f: H5File, p: string, reg: H5Dataset,
-  ch: number): Record<string, ConditionValue> {
+function electrodeConditions(
+  file: string,
+  f: H5File,
+  p: string,
+  reg: H5Dataset,
+  ch: number,
+): Record<string, ConditionValue> {
   const rows = numbers(reg);
   const tableRef = attr(reg, 'table');
   let table: unknown = null;
@@ -601,14 +771,21 @@ function electrodeConditions(file: string, f: H5File, p: string, reg: H5Dataset,
   }
   if (!isGroup(table)) table = at(f, '/general/extracellular_ephys/electrodes');
   if (!isGroup(table)) {
-    throw new InputError({ file, field: `${p}/electrodes` }, 'the electrodes region points at no table',
-      'the electrodes table at /general/extracellular_ephys/electrodes');
+    throw new InputError(
+      { file, field: `${p}/electrodes` },
+      'the electrodes region points at no table',
+      'the electrodes table at /general/extracellular_ephys/electrodes',
+    );
   }
   const tpath = (table as H5Group).path;
   const t = readTable(file, table as H5Group, tpath);
   const row = rows[ch];
-  if (!(row >= 0 && row < t.n)) throw new InputError({ file, field: `${p}/electrodes` },
-    `channel ${ch} points at row ${row} of ${t.n}`, 'a row of the electrodes table');
+  if (!(row >= 0 && row < t.n))
+    throw new InputError(
+      { file, field: `${p}/electrodes` },
+      `channel ${ch} points at row ${row} of ${t.n}`,
+      'a row of the electrodes table',
+    );
   const out: Record<string, ConditionValue> = { electrode: t.ids[row] };
   const loc = t.columns.find((c) => c.name === 'location');
   if (loc && loc.values[row] !== null && loc.values[row] !== '') out.site = loc.values[row];
@@ -623,8 +800,12 @@ function electrodeConditions(file: string, f: H5File, p: string, reg: H5Dataset,
 /** The TimeIntervals table to use. */
 function findIntervals(file: string, f: H5File, want: string | undefined): string {
   const iv = at(f, '/intervals');
-  const tables = isGroup(iv) ? iv.keys().filter((k) => { const g = iv.get(k); return isGroup(g)
-    && typeOf(g) === 'TimeIntervals'; }) : [];
+  const tables = isGroup(iv)
+    ? iv.keys().filter((k) => {
+        const g = iv.get(k);
+        return isGroup(g) && typeOf(g) === 'TimeIntervals';
+      })
+    : [];
   if (want !== undefined) {
     if (typeof want !== 'string' || !want) {
       throw new OptionError(`invalid intervals: ${shown(want)}; must be a table name or HDF5 path`);
@@ -632,25 +813,36 @@ function findIntervals(file: string, f: H5File, want: string | undefined): strin
     const p = want.startsWith('/') ? want : `/intervals/${want}`;
     const g = at(f, p);
     if (!isGroup(g) || !['TimeIntervals', 'DynamicTable'].includes(typeOf(g) ?? '')) {
-      throw new InputError({ file, field: p }, `no TimeIntervals table at ${p}${didYouMean(want, tables)}`,
-        tables.length ? `one of ${tables.map((t) => '/intervals/' + t).join(', ')}` : 'a TimeIntervals table');
+      throw new InputError(
+        { file, field: p },
+        `no TimeIntervals table at ${p}${didYouMean(want, tables)}`,
+        tables.length ? `one of ${tables.map((t) => '/intervals/' + t).join(', ')}` : 'a TimeIntervals table',
+      );
     }
     return p;
   }
   if (tables.includes('trials')) return '/intervals/trials';
   if (tables.length === 1) return `/intervals/${tables[0]}`;
   if (tables.length === 0) {
-    throw new InputError({ file, field: '/intervals/trials' },
+    throw new InputError(
+      { file, field: '/intervals/trials' },
       'no trials table and no other TimeIntervals table under /intervals: the file gives no stimulus times',
-      'a TimeIntervals table with one row per stimulus, or the stimulusTimes and window options');
+      'a TimeIntervals table with one row per stimulus, or the stimulusTimes and window options',
+    );
   }
-  throw new InputError({ file, field: '/intervals' },
-    `${tables.length} TimeIntervals tables and none is "trials": ${tables.join(', ')}`, 'the intervals option naming one');
+  throw new InputError(
+    { file, field: '/intervals' },
+    `${tables.length} TimeIntervals tables and none is "trials": ${tables.join(', ')}`,
+    'the intervals option naming one',
+  );
 }
 
 /** Every column of a DynamicTable: 1-D numbers or text; ragged columns (with an _index) joined by ", ". */
-export function readTable(file: string, g: H5Group, p: string):
-  { n: number; ids: number[]; columns: TableColumn[]; refStarts?: number[] } {
+export function readTable(
+  file: string,
+  g: H5Group,
+  p: string,
+): { n: number; ids: number[]; columns: TableColumn[]; refStarts?: number[] } {
   const keys = g.keys();
   const bad = (field: string, problem: string, expected: string): never => {
     throw new InputError({ file, field }, problem, expected);
@@ -661,17 +853,19 @@ export function readTable(file: string, g: H5Group, p: string):
   const n = ids.length;
   let colnames = attr(g, 'colnames') as unknown;
   if (typeof colnames === 'string') colnames = [colnames];
-  const listed = Array.isArray(colnames) ? (colnames as string[])
+  const listed = Array.isArray(colnames)
+    ? (colnames as string[])
     : keys.filter((k) => k !== 'id' && !k.endsWith('_index'));
   const columns: TableColumn[] = [];
   let refStarts: number[] | undefined;
   for (const name of listed) {
     const d = keys.includes(name) ? g.get(name) : null;
-    if (!isDataset(d)) bad(`${p}/${name}`, `column ${JSON.stringify(name)} is listed in colnames but missing`,
-      'every listed column');
+    if (!isDataset(d))
+      bad(`${p}/${name}`, `column ${JSON.stringify(name)} is listed in colnames but missing`, 'every listed column');
     const ds = d as H5Dataset;
     const kind = elementKind(ds);
-    if (kind === 'compound' && typeOf(ds) === 'TimeSeriesReferenceVectorData') refStarts = referenceStarts(ds, g, name, n);
+    if (kind === 'compound' && typeOf(ds) === 'TimeSeriesReferenceVectorData')
+      refStarts = referenceStarts(ds, g, name, n);
     if (kind === 'reference' || kind === 'compound' || kind === 'other') continue; // references to other objects
     const shape = ds.shape ?? [];
     if (shape.length !== 1) continue; // multi-dimensional cells are not conditions
@@ -680,10 +874,15 @@ export function readTable(file: string, g: H5Group, p: string):
     const idx = keys.includes(`${name}_index`) ? g.get(`${name}_index`) : null;
     if (isDataset(idx)) {
       const ends = Array.from(numbers(idx));
-      if (ends.length !== n) bad(`${p}/${name}_index`, `${ends.length} index entries for ${n} rows`,
-        'one entry per row');
+      if (ends.length !== n)
+        bad(`${p}/${name}_index`, `${ends.length} index entries for ${n} rows`, 'one entry per row');
       const flat = values;
-      values = ends.map((e, i) => flat.slice(i ? ends[i - 1] : 0, e).map(String).join(', '));
+      values = ends.map((e, i) =>
+        flat
+          .slice(i ? ends[i - 1] : 0, e)
+          .map(String)
+          .join(', '),
+      );
     } else if (values.length !== n) {
       bad(`${p}/${name}`, `${values.length} values for ${n} rows`, 'one value per row');
     }
@@ -716,9 +915,14 @@ function referenceStarts(d: H5Dataset, g: H5Group, name: string, n: number): num
 }
 
 /** Apply the condition mapping to a table's columns. */
-function mapColumns(file: string, columns: TableColumn[], override: Readonly<Record<string, string | null>>,
+function mapColumns(
+  file: string,
+  columns: TableColumn[],
+  override: Readonly<Record<string, string | null>>,
   tablePath: string,
-  notes: string[], used: Set<string>): { values: Record<string, ConditionValue>[]; mapping: Record<string, string> } {
+  notes: string[],
+  used: Set<string>,
+): { values: Record<string, ConditionValue>[]; mapping: Record<string, string> } {
   const n = columns[0]?.values.length ?? 0;
   const values: Record<string, ConditionValue>[] = Array.from({ length: n }, () => ({}));
   const mapping: Record<string, string> = {};
@@ -732,9 +936,11 @@ function mapColumns(file: string, columns: TableColumn[], override: Readonly<Rec
       if (want === null) continue;
       const c = columns.find((k) => k.name === want);
       if (!c) {
-        throw new InputError({ file, field: `${tablePath}/${want}` },
+        throw new InputError(
+          { file, field: `${tablePath}/${want}` },
           `columns.${cond} names the column ${JSON.stringify(want)}, which the table does not have${didYouMean(want, names)}`,
-          `one of ${names.join(', ')}`);
+          `one of ${names.join(', ')}`,
+        );
       }
       let unit = c.unit;
       if (unit === undefined && spec.kind !== 'text' && spec.kind !== 'number') {
@@ -745,9 +951,13 @@ function mapColumns(file: string, columns: TableColumn[], override: Readonly<Rec
       }
       found = { column: c, unit };
     } else {
-      found = findColumn(cond, spec, columns.filter((c) => !used.has(c.name)));
+      found = findColumn(
+        cond,
+        spec,
+        columns.filter((c) => !used.has(c.name)),
+      );
     }
-    if (!found || used.has(found.column.name) && !Object.hasOwn(override, cond)) continue;
+    if (!found || (used.has(found.column.name) && !Object.hasOwn(override, cond))) continue;
     const conv = convertColumn(file, cond, spec, found.column, found.unit);
     if (conv.note) notes.push(conv.note);
     used.add(found.column.name);
@@ -771,8 +981,12 @@ function estimateRate(file: string, s: SeriesInfo, T: number, hint?: number): nu
   for (let k = 1; k < t.length; k++) d.push(t[k] - t[k - 1]);
   d.sort((x, y) => x - y);
   const med = d[Math.floor(d.length / 2)];
-  if (!(med > 0)) throw new InputError({ file, field: `${s.path}/timestamps` }, 'timestamps do not increase',
-    'increasing timestamps in s');
+  if (!(med > 0))
+    throw new InputError(
+      { file, field: `${s.path}/timestamps` },
+      'timestamps do not increase',
+      'increasing timestamps in s',
+    );
   // the rate from the span of the run of regular steps around the stimulus
   let k1 = 1;
   while (k1 < t.length && Math.abs(t[k1] - t[k1 - 1] - med) < 0.25 * med) k1++;
@@ -785,7 +999,8 @@ function estimateRate(file: string, s: SeriesInfo, T: number, hint?: number): nu
  * n / step + step values, and each lookup reads one block.
  */
 function nearestIndex(s: SeriesInfo, T: number): number {
-  const ts = s.timestamps!, n = s.nTimes;
+  const ts = s.timestamps!,
+    n = s.nTimes;
   if (!s.coarse) {
     const step = Math.max(256, Math.ceil(n / 65536));
     const values = Float64Array.from(numbers(ts, [0, n, step]));
@@ -793,7 +1008,8 @@ function nearestIndex(s: SeriesInfo, T: number): number {
   }
   const { step, values } = s.coarse;
   // last coarse entry <= T
-  let lo = 0, hi = values.length - 1;
+  let lo = 0,
+    hi = values.length - 1;
   if (T <= values[0]) return 0;
   if (T >= values[hi]) lo = hi;
   else {
@@ -812,8 +1028,15 @@ function nearestIndex(s: SeriesInfo, T: number): number {
 }
 
 /** The series and sample index of a stimulus at T. */
-function locate(file: string, series: SeriesInfo[], T: number, fs: number, row: number, table: string | null,
-  hint?: { ref?: number; start?: number }): { s: SeriesInfo; index: number; time: number } {
+function locate(
+  file: string,
+  series: SeriesInfo[],
+  T: number,
+  fs: number,
+  row: number,
+  table: string | null,
+  hint?: { ref?: number; start?: number },
+): { s: SeriesInfo; index: number; time: number } {
   // the row's TimeSeriesReference: its first sample is at start_time in the series it points into
   if (hint?.ref !== undefined && hint.start !== undefined) {
     for (const s of series) {
@@ -841,13 +1064,17 @@ function locate(file: string, series: SeriesInfo[], T: number, fs: number, row: 
   if (hits.length === 1) return hits[0];
   const where = table ? `${table} row ${row}` : `stimulusTimes[${row}]`;
   if (hits.length === 0) {
-    throw new InputError({ file, field: where },
+    throw new InputError(
+      { file, field: where },
       `the stimulus at ${T} s falls outside the recorded samples of ${series.map((s) => s.path).join(', ')}`,
-      'stimulus times inside a series (on the same time axis)');
+      'stimulus times inside a series (on the same time axis)',
+    );
   }
-  throw new InputError({ file, field: where },
+  throw new InputError(
+    { file, field: where },
     `the stimulus at ${T} s lies in ${hits.length} series (${hits.map((h) => h.s.path).join(', ')})`,
-    'the series option naming one');
+    'the series option naming one',
+  );
 }
 
 /**
@@ -865,16 +1092,25 @@ function checkGrid(file: string, s: SeriesInfo, i0: number, i1: number, fs: numb
     const t = value(i);
     const want = t0 + (i - i0) * dt;
     if (Math.abs(t - want) > 0.25 * dt) {
-      throw new InputError({ file, field: `${s.path}/timestamps` },
+      throw new InputError(
+        { file, field: `${s.path}/timestamps` },
         `the window of row ${row} crosses a gap or an irregular step (sample ${i} at t = ${t} s, expected ${want} s on the sample grid)`,
-        'evenly spaced samples across each sweep window (a smaller window option)');
+        'evenly spaced samples across each sweep window (a smaller window option)',
+      );
     }
   }
 }
 
 /** One hyperslab into out[o..o+n), converted. */
-function readInto(file: string, s: SeriesInfo, i0: number, i1: number, out: Float64Array, o: number,
-  row: number): void {
+function readInto(
+  file: string,
+  s: SeriesInfo,
+  i0: number,
+  i1: number,
+  out: Float64Array,
+  o: number,
+  row: number,
+): void {
   s.reader ??= new HyperslabReader(s.data);
   const twoD = (s.data.shape ?? []).length === 2;
   const { gain, shift, identity } = s;
@@ -886,12 +1122,18 @@ function readInto(file: string, s: SeriesInfo, i0: number, i1: number, out: Floa
       if (bad < 0 && !Number.isFinite(v)) bad = k;
     });
   } catch (e) {
-    throw new InputError({ file, field: `${s.path}/data` },
-      `reading samples ${i0}..${i1 - 1} failed (${String((e as Error).message).slice(0, 200)})`, 'readable data');
+    throw new InputError(
+      { file, field: `${s.path}/data` },
+      `reading samples ${i0}..${i1 - 1} failed (${String((e as Error).message).slice(0, 200)})`,
+      'readable data',
+    );
   }
   if (bad >= 0) {
-    throw new InputError({ file, field: `${s.path}/data`, sweep: row },
-      `a non-finite sample (${out[o + bad]}) at sample ${i0 + bad}`, 'finite samples');
+    throw new InputError(
+      { file, field: `${s.path}/data`, sweep: row },
+      `a non-finite sample (${out[o + bad]}) at sample ${i0 + bad}`,
+      'finite samples',
+    );
   }
 }
 
@@ -902,8 +1144,12 @@ export async function readNwbTables(path: string): Promise<Record<string, Record
   try {
     const out: Record<string, Record<string, ConditionValue>[]> = {};
     const mod = at(f, '/processing/fascicle');
-    if (!isGroup(mod)) throw new InputError({ file: path, field: '/processing/fascicle' },
-      'no fascicle processing module', 'a file written by fascicle (writeNwb)');
+    if (!isGroup(mod))
+      throw new InputError(
+        { file: path, field: '/processing/fascicle' },
+        'no fascicle processing module',
+        'a file written by fascicle (writeNwb)',
+      );
     for (const k of mod.keys()) {
       const g = mod.get(k);
       if (!isGroup(g) || typeOf(g) !== 'DynamicTable' || k === 'history' || k === 'inputs') continue;
@@ -926,7 +1172,14 @@ export interface NwbContents {
   session: { identifier?: string; description?: string; startTime?: string };
   subject?: Record<string, string>;
   general: Record<string, string | string[]>;
-  series: { path: string; type: string; shape: number[]; unit?: string; time: 'rate' | 'timestamps' | 'none'; rate?: number }[];
+  series: {
+    path: string;
+    type: string;
+    shape: number[];
+    unit?: string;
+    time: 'rate' | 'timestamps' | 'none';
+    rate?: number;
+  }[];
   intervals: { path: string; rows: number; columns: string[] }[];
   electrodes?: { rows: number; columns: string[] };
 }
@@ -946,8 +1199,15 @@ export async function describeNwb(path: string): Promise<NwbContents> {
       const keys = g.keys();
       const st = keys.includes('starting_time') ? g.get('starting_time') : null;
       return {
-        path: p, type: typeOf(g) ?? '', shape: d.shape ?? [], unit: attrText(d, 'unit'),
-        time: isDataset(st) ? 'rate' as const : keys.includes('timestamps') ? 'timestamps' as const : 'none' as const,
+        path: p,
+        type: typeOf(g) ?? '',
+        shape: d.shape ?? [],
+        unit: attrText(d, 'unit'),
+        time: isDataset(st)
+          ? ('rate' as const)
+          : keys.includes('timestamps')
+            ? ('timestamps' as const)
+            : ('none' as const),
         ...(isDataset(st) ? { rate: attrNumber(st, 'rate') } : {}),
       };
     });
@@ -970,8 +1230,16 @@ export async function describeNwb(path: string): Promise<NwbContents> {
     return {
       nwbVersion: meta.nwb_version,
       writtenByFascicle: typeof meta.source_script === 'string' && meta.source_script.startsWith(FASCICLE_SCRIPT),
-      session: { identifier: meta.identifier, description: meta.session_description, startTime: meta.session_start_time },
-      subject: meta.subject, general: meta.general, series, intervals, electrodes,
+      session: {
+        identifier: meta.identifier,
+        description: meta.session_description,
+        startTime: meta.session_start_time,
+      },
+      subject: meta.subject,
+      general: meta.general,
+      series,
+      intervals,
+      electrodes,
     };
   } finally {
     f.close();

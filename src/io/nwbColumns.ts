@@ -45,15 +45,30 @@ export interface ConditionSpec {
 }
 
 export const NWB_CONDITIONS: Readonly<Record<string, ConditionSpec>> = {
-  intensity: { kind: 'withUnit', unitCondition: 'intensityUnit', names: [
-    'intensity', 'stimulus_intensity', 'stim_intensity',
-    'stimulus_amplitude', 'stim_amplitude', 'stimulus_current', 'current'] },
-  pulseWidthMs: { kind: 'time', own: 'pulseWidthMs', names: ['pulse_width', 'pulse_duration', 'stimulus_duration',
-    'stim_duration'] },
+  intensity: {
+    kind: 'withUnit',
+    unitCondition: 'intensityUnit',
+    names: [
+      'intensity',
+      'stimulus_intensity',
+      'stim_intensity',
+      'stimulus_amplitude',
+      'stim_amplitude',
+      'stimulus_current',
+      'current',
+    ],
+  },
+  pulseWidthMs: {
+    kind: 'time',
+    own: 'pulseWidthMs',
+    names: ['pulse_width', 'pulse_duration', 'stimulus_duration', 'stim_duration'],
+  },
   distanceMm: { kind: 'length', own: 'distanceMm', names: ['distance', 'conduction_distance', 'dist'] },
-  concentration: { kind: 'withUnit', unitCondition: 'concentrationUnit', names: [
-    'concentration', 'drug_concentration',
-    'conc'] },
+  concentration: {
+    kind: 'withUnit',
+    unitCondition: 'concentrationUnit',
+    names: ['concentration', 'drug_concentration', 'conc'],
+  },
   temperatureC: { kind: 'temperature', own: 'temperatureC', names: ['temperature', 'bath_temperature', 'temp'] },
   drug: { kind: 'text', names: ['drug', 'compound', 'agent', 'drug_name'] },
   preparation: { kind: 'text', names: ['preparation', 'preparation_id', 'nerve_id'] },
@@ -66,12 +81,36 @@ export const NWB_CONDITIONS: Readonly<Record<string, ConditionSpec>> = {
   sourceSweep: { kind: 'number', names: ['source_sweep'] },
 };
 
-const TIME_UNITS: Record<string, number> = { s: 1000, sec: 1000, seconds: 1000, second: 1000, ms: 1, msec: 1,
-  milliseconds: 1, us: 1e-3, usec: 1e-3, microseconds: 1e-3 };
-const LENGTH_UNITS: Record<string, number> = { m: 1000, meters: 1000, metres: 1000, cm: 10, mm: 1, um: 1e-3,
-  micrometers: 1e-3 };
-const TEMPERATURE_UNITS: Record<string, 'C' | 'K'> = { c: 'C', degc: 'C', celsius: 'C', 'deg c': 'C', '°c': 'C',
-  k: 'K', kelvin: 'K' };
+const TIME_UNITS: Record<string, number> = {
+  s: 1000,
+  sec: 1000,
+  seconds: 1000,
+  second: 1000,
+  ms: 1,
+  msec: 1,
+  milliseconds: 1,
+  us: 1e-3,
+  usec: 1e-3,
+  microseconds: 1e-3,
+};
+const LENGTH_UNITS: Record<string, number> = {
+  m: 1000,
+  meters: 1000,
+  metres: 1000,
+  cm: 10,
+  mm: 1,
+  um: 1e-3,
+  micrometers: 1e-3,
+};
+const TEMPERATURE_UNITS: Record<string, 'C' | 'K'> = {
+  c: 'C',
+  degc: 'C',
+  celsius: 'C',
+  'deg c': 'C',
+  '°c': 'C',
+  k: 'K',
+  kelvin: 'K',
+};
 const INTENSITY_UNITS = ['A', 'mA', 'uA', 'nA', 'V', 'mV', 'uV'];
 const CONCENTRATION_UNITS = ['M', 'mM', 'uM', 'nM', 'pM', 'mg/ml', 'ug/ml', '%'];
 
@@ -97,8 +136,11 @@ function suffixUnit(kind: ColumnKind, suffix: string): string | undefined {
 }
 
 /** Find the column of a condition by the default names: exact own name, a listed name, or a listed name + unit. */
-export function findColumn(condition: string, spec: ConditionSpec,
-  columns: readonly TableColumn[]): { column: TableColumn; unit?: string } | null {
+export function findColumn(
+  condition: string,
+  spec: ConditionSpec,
+  columns: readonly TableColumn[],
+): { column: TableColumn; unit?: string } | null {
   if (spec.own) {
     const own = columns.find((c) => c.name === spec.own);
     const units: Record<string, string> = { time: 'ms', length: 'mm', temperature: 'c' };
@@ -128,16 +170,23 @@ type Converted = { values: ConditionValue[]; unitValue?: string; note?: string }
  * Convert one mapped column to condition values (and a unit condition).
  * @throws InputError naming the file and the column's HDF5 path when values or unit do not fit.
  */
-export function convertColumn(file: string, condition: string, spec: ConditionSpec, column: TableColumn,
-  unit: string | undefined): Converted {
+export function convertColumn(
+  file: string,
+  condition: string,
+  spec: ConditionSpec,
+  column: TableColumn,
+  unit: string | undefined,
+): Converted {
   const bad = (problem: string, expected: string): never => {
     throw new InputError({ file, field: column.path }, problem, expected);
   };
   const numeric = () => {
     column.values.forEach((v, i) => {
       if (v !== null && typeof v !== 'number') {
-        bad(`column "${column.name}" holds ${JSON.stringify(v)} in row ${i}, which is not a number`,
-          `numbers for the condition ${condition} (or map it elsewhere: columns: { ${condition}: null })`);
+        bad(
+          `column "${column.name}" holds ${JSON.stringify(v)} in row ${i}, which is not a number`,
+          `numbers for the condition ${condition} (or map it elsewhere: columns: { ${condition}: null })`,
+        );
       }
     });
     return column.values as (number | null)[];
@@ -151,24 +200,29 @@ export function convertColumn(file: string, condition: string, spec: ConditionSp
     const u = unit === undefined ? (spec.kind === 'time' ? 's' : 'm') : norm(unit).toLowerCase();
     const factor = table[u] / (spec.seconds ? 1000 : 1);
     if (!Number.isFinite(factor)) {
-      bad(`column "${column.name}" has the unit ${JSON.stringify(unit)}`,
-        `one of ${Object.keys(table).join(', ')} for ${condition}`);
+      bad(
+        `column "${column.name}" has the unit ${JSON.stringify(unit)}`,
+        `one of ${Object.keys(table).join(', ')} for ${condition}`,
+      );
     }
     const note = unit === undefined ? `${column.name}: no unit given, read as ${u} (NWB's SI convention)` : undefined;
     return { values: numeric().map((v) => (v === null ? null : v * factor)), note };
   }
   if (spec.kind === 'temperature') {
     const u = unit === undefined ? 'C' : TEMPERATURE_UNITS[norm(unit).toLowerCase()];
-    if (!u) bad(`column "${column.name}" has the unit ${JSON.stringify(unit)}`,
-      'degC (or C, celsius) or K for temperatureC');
+    if (!u)
+      bad(`column "${column.name}" has the unit ${JSON.stringify(unit)}`, 'degC (or C, celsius) or K for temperatureC');
     return { values: numeric().map((v) => (v === null ? null : u === 'K' ? v - 273.15 : v)) };
   }
   // withUnit: the values as they are, the unit into its own condition
   if (unit !== undefined) {
     const allowed = condition === 'intensity' ? INTENSITY_UNITS : CONCENTRATION_UNITS;
     const u = norm(unit);
-    if (!allowed.includes(u)) bad(`column "${column.name}" has the unit ${JSON.stringify(unit)}`,
-      `one of ${allowed.join(', ')} for ${condition}`);
+    if (!allowed.includes(u))
+      bad(
+        `column "${column.name}" has the unit ${JSON.stringify(unit)}`,
+        `one of ${allowed.join(', ')} for ${condition}`,
+      );
     return { values: numeric(), unitValue: u };
   }
   return { values: numeric() };
@@ -202,8 +256,10 @@ export function encodeColumn(values: readonly unknown[]): ColumnEncoding {
 }
 
 /** Decode a column read from a table (numbers or strings), by its `fascicle_dtype` attribute when present. */
-export function decodeColumn(raw: ArrayLike<number> | readonly string[],
-  encoding: string | undefined): ConditionValue[] {
+export function decodeColumn(
+  raw: ArrayLike<number> | readonly string[],
+  encoding: string | undefined,
+): ConditionValue[] {
   const out: ConditionValue[] = new Array(raw.length);
   for (let i = 0; i < raw.length; i++) {
     const v = raw[i] as number | string;

@@ -29,7 +29,9 @@ function h5wasmFile(): string {
     const p = join(d, 'h5wasm', 'dist', 'node', 'hdf5_hl.js');
     if (existsSync(p)) return p;
   }
-  throw new OptionError('the HDF5 library (npm package h5wasm) is not installed; run `npm install` in the fascicle folder');
+  throw new OptionError(
+    'the HDF5 library (npm package h5wasm) is not installed; run `npm install` in the fascicle folder',
+  );
 }
 
 /**
@@ -81,8 +83,10 @@ export function nwbLoaded(): boolean {
 /** The loaded library. @throws NwbNotReadyError when nwbReady() has not finished. */
 export function h5(): H5Lib {
   if (!lib) {
-    throw new NwbNotReadyError('the HDF5 library is not loaded yet: call `await nwbReady()` once before the synchronous NWB '
-      + 'functions (readNwbSync, writeNwbSync, readManifest with NWB files), or use readNwb / writeNwb, which load it');
+    throw new NwbNotReadyError(
+      'the HDF5 library is not loaded yet: call `await nwbReady()` once before the synchronous NWB ' +
+        'functions (readNwbSync, writeNwbSync, readManifest with NWB files), or use readNwb / writeNwb, which load it',
+    );
   }
   return lib;
 }
@@ -108,22 +112,30 @@ export function checkHdf5(path: string, fd: number, size: number): void {
     const eofAt = version === 0 ? 24 + 2 * O : version === 1 ? 28 + 2 * O : 12 + 2 * O;
     const baseAt = version === 0 ? 24 : version === 1 ? 28 : 12;
     if (n < eofAt + O) {
-      throw new InputError({ file: path }, `the file is truncated: it has ${size} bytes, fewer than its HDF5 superblock`,
-        'the complete file (copy it again)');
+      throw new InputError(
+        { file: path },
+        `the file is truncated: it has ${size} bytes, fewer than its HDF5 superblock`,
+        'the complete file (copy it again)',
+      );
     }
     const read = (at: number) => (O === 8 ? Number(dv.getBigUint64(at, true)) : dv.getUint32(at, true));
     const baseAddr = read(baseAt);
     const eof = read(eofAt);
     const end = (baseAddr === 0 ? base : baseAddr) + eof;
     if (size < end) {
-      throw new InputError({ file: path },
+      throw new InputError(
+        { file: path },
         `the file is truncated: it has ${size} bytes but its HDF5 superblock says ${end}`,
-        'the complete file (copy it again)');
+        'the complete file (copy it again)',
+      );
     }
     return;
   }
-  throw new InputError({ file: path }, 'this is not an HDF5 file (no HDF5 signature at the start)',
-    'an NWB 2.x file, which is HDF5');
+  throw new InputError(
+    { file: path },
+    'this is not an HDF5 file (no HDF5 signature at the start)',
+    'an NWB 2.x file, which is HDF5',
+  );
 }
 
 /** Open an HDF5 file read-only after checkHdf5. @throws InputError when the library cannot open it. */
@@ -132,8 +144,11 @@ export function openHdf5(path: string, fd: number, size: number): H5File {
   closeSync(fd);
   const f = new (h5().File)(path, 'r');
   if (typeof f.file_id === 'bigint' && f.file_id < 0n) {
-    throw new InputError({ file: path }, 'the HDF5 library could not open the file (see its messages above)',
-      'a readable, undamaged HDF5 file');
+    throw new InputError(
+      { file: path },
+      'the HDF5 library could not open the file (see its messages above)',
+      'a readable, undamaged HDF5 file',
+    );
   }
   return f;
 }
@@ -213,14 +228,25 @@ export function elementKind(d: H5Dataset): 'int' | 'float' | 'string' | 'referen
   const m = d.metadata as { type: number; compound_type?: unknown };
   // HDF5 type classes: 0 integer, 1 float, 3 string, 6 compound, 7 reference, 8 enum (h5py's booleans)
   const kinds: Record<number, 'int' | 'float' | 'string' | 'reference' | 'compound'> = {
-    0: 'int', 1: 'float', 3: 'string', 6: 'compound', 7: 'reference', 8: 'int',
+    0: 'int',
+    1: 'float',
+    3: 'string',
+    6: 'compound',
+    7: 'reference',
+    8: 'int',
   };
   return kinds[m.type] ?? 'other';
 }
 
 interface RawModule {
-  get_dataset_data(fileId: bigint, path: string, count: bigint[], offset: bigint[], strides: bigint[],
-    ptr: bigint): number;
+  get_dataset_data(
+    fileId: bigint,
+    path: string,
+    count: bigint[],
+    offset: bigint[],
+    strides: bigint[],
+    ptr: bigint,
+  ): number;
   _malloc(n: number): number;
   _free(p: number): void;
   HEAPU8: Uint8Array;
@@ -259,7 +285,13 @@ export class HyperslabReader {
   /** Read rows [i0, i1) (of column `col` for 2-D data) and pass each value to put(k, value). */
   read(i0: number, i1: number, col: number | null, put: (k: number, v: number) => void): void {
     const n = i1 - i0;
-    const ranges: [number, number][] = col === null ? [[i0, i1]] : [[i0, i1], [col, col + 1]];
+    const ranges: [number, number][] =
+      col === null
+        ? [[i0, i1]]
+        : [
+            [i0, i1],
+            [col, col + 1],
+          ];
     if (!this.raw) {
       const v = this.d.slice(ranges) as unknown as ArrayLike<number | bigint>;
       if (!v || v.length !== n) throw new Error(`read ${v?.length ?? 0} of ${n} values`);
@@ -274,21 +306,34 @@ export class HyperslabReader {
       this.cap = bytes;
     }
     const count = this.shape.map((s, i) => BigInt(i === 0 ? n : col === null ? s : 1));
-    const offset = this.shape.map((_, i) => BigInt(i === 0 ? i0 : col ?? 0));
+    const offset = this.shape.map((_, i) => BigInt(i === 0 ? i0 : (col ?? 0)));
     const strides = this.shape.map(() => 1n);
     this.raw.get_dataset_data(this.d.file_id, this.d.path, count, offset, strides, BigInt(this.ptr));
     const buf = this.raw.HEAPU8.buffer; // after the read: the heap may have grown
     const at = this.ptr;
-    const view = this.kind === 'float'
-      ? (this.size === 8 ? new Float64Array(buf, at, n) : new Float32Array(buf, at, n))
-      : this.size === 1 ? (this.signed ? new Int8Array(buf, at, n) : new Uint8Array(buf, at, n))
-        : this.size === 2 ? (this.signed ? new Int16Array(buf, at, n) : new Uint16Array(buf, at, n))
-          : this.size === 4 ? (this.signed ? new Int32Array(buf, at, n) : new Uint32Array(buf, at, n))
-            : (this.signed ? new BigInt64Array(buf, at, n) : new BigUint64Array(buf, at, n));
+    const view =
+      this.kind === 'float'
+        ? this.size === 8
+          ? new Float64Array(buf, at, n)
+          : new Float32Array(buf, at, n)
+        : this.size === 1
+          ? this.signed
+            ? new Int8Array(buf, at, n)
+            : new Uint8Array(buf, at, n)
+          : this.size === 2
+            ? this.signed
+              ? new Int16Array(buf, at, n)
+              : new Uint16Array(buf, at, n)
+            : this.size === 4
+              ? this.signed
+                ? new Int32Array(buf, at, n)
+                : new Uint32Array(buf, at, n)
+              : this.signed
+                ? new BigInt64Array(buf, at, n)
+                : new BigUint64Array(buf, at, n);
     if (view instanceof BigInt64Array || view instanceof BigUint64Array) {
       for (let k = 0; k < n; k++) put(k, Number(view[k]));
-    }
-    else for (let k = 0; k < n; k++) put(k, view[k]);
+    } else for (let k = 0; k < n; k++) put(k, view[k]);
   }
 
   /** Free the buffer. */

@@ -21,7 +21,15 @@
  */
 import { randomUUID } from 'node:crypto';
 import {
-  existsSync, lstatSync, renameSync, rmSync, openSync, fstatSync, closeSync, statSync, constants,
+  existsSync,
+  lstatSync,
+  renameSync,
+  rmSync,
+  openSync,
+  fstatSync,
+  closeSync,
+  statSync,
+  constants,
 } from 'node:fs';
 import { basename, dirname, join, resolve } from 'node:path';
 import { OptionError, OutputError, systemReason } from '../errors';
@@ -33,8 +41,8 @@ import { encodeColumn } from './nwbColumns';
 import { FASCICLE_SCRIPT } from './nwb';
 
 type Rows = readonly Record<string, unknown>[];
-type ResultTables = { tables(): Record<string, Rows> } | { tables: Record<string, Rows | undefined> }
-  | Record<string, Rows | undefined>;
+type ResultTables =
+  { tables(): Record<string, Rows> } | { tables: Record<string, Rows | undefined> } | Record<string, Rows | undefined>;
 
 export interface NwbWriteOptions {
   /** The set holds the samples as acquired (only reading and selection steps): written to /acquisition.
@@ -63,15 +71,41 @@ export interface NwbWriteOptions {
   compression?: number;
 }
 
-const WRITE_KEYS = ['raw', 'overwrite', 'results', 'sessionDescription', 'sessionStartTime', 'identifier',
-  'subject', 'lab',
-  'institution', 'experimenter', 'compression'];
+const WRITE_KEYS = [
+  'raw',
+  'overwrite',
+  'results',
+  'sessionDescription',
+  'sessionStartTime',
+  'identifier',
+  'subject',
+  'lab',
+  'institution',
+  'experimenter',
+  'compression',
+];
 /** Steps that leave samples as acquired (reading, choosing sweeps or samples, units, the time axis). */
-const RAW_VERBS = new Set(['readBinary', 'readDelimited', 'readManifest', 'readNwb', 'simulateNerve', 'select', 'where',
-  'crop', 'toUnits', 'concat', 'rejectFlagged', 'alignStimulus']);
+const RAW_VERBS = new Set([
+  'readBinary',
+  'readDelimited',
+  'readManifest',
+  'readNwb',
+  'simulateNerve',
+  'select',
+  'where',
+  'crop',
+  'toUnits',
+  'concat',
+  'rejectFlagged',
+  'alignStimulus',
+]);
 const UNIT_TO_VOLTS = { V: 1, mV: 1e-3, uV: 1e-6 } as const;
-const OWN_UNITS: Record<string, string> = { pulseWidthMs: 'ms', distanceMm: 'mm', temperatureC: 'degC',
-  acquiredS: 's' };
+const OWN_UNITS: Record<string, string> = {
+  pulseWidthMs: 'ms',
+  distanceMm: 'mm',
+  temperatureC: 'degC',
+  acquiredS: 's',
+};
 const GAP_S = 1;
 
 export interface NwbWriteResult {
@@ -102,7 +136,11 @@ export function writtenByFascicle(path: string): boolean {
   try {
     f = openHdf5(path, fd, fstatSync(fd).size);
   } catch {
-    try { closeSync(fd); } catch { /* closed */ }
+    try {
+      closeSync(fd);
+    } catch {
+      /* closed */
+    }
     return false;
   }
   try {
@@ -124,7 +162,9 @@ export function writeNwbSync(set: SweepSet, path: string, options: NwbWriteOptio
   if (raw) {
     const steps = set.history.filter((s) => !RAW_VERBS.has(s.verb)).map((s) => s.verb);
     if (steps.length) {
-      throw new OptionError(`invalid raw: true for samples changed by ${[...new Set(steps)].join(', ')}; write them as conditioned samples (raw: false) or write the set before those steps`);
+      throw new OptionError(
+        `invalid raw: true for samples changed by ${[...new Set(steps)].join(', ')}; write them as conditioned samples (raw: false) or write the set before those steps`,
+      );
     }
   }
   if (set.nSweeps === 0) throw new OptionError('the set has no sweeps to write');
@@ -132,11 +172,16 @@ export function writeNwbSync(set: SweepSet, path: string, options: NwbWriteOptio
   if (!Number.isInteger(level) || level < 0 || level > 9) {
     throw new OptionError(`invalid compression: ${shown(level)}; must be a gzip level 0..9 (0: none)`);
   }
-  const start = options.sessionStartTime ?? (set.extras.nwb as { session_start_time?: string } | undefined)?.session_start_time;
+  const start =
+    options.sessionStartTime ?? (set.extras.nwb as { session_start_time?: string } | undefined)?.session_start_time;
   const startIso = start instanceof Date ? start.toISOString() : start;
-  if (startIso !== undefined && (typeof startIso !== 'string' || Number.isNaN(Date.parse(startIso))
-    || !/T.*(Z|[+-]\d\d:?\d\d)$/.test(startIso))) {
-    throw new OptionError(`invalid sessionStartTime: ${shown(start)}; must be an ISO 8601 time with a time zone (2026-03-14T09:30:00+01:00) or a Date`);
+  if (
+    startIso !== undefined &&
+    (typeof startIso !== 'string' || Number.isNaN(Date.parse(startIso)) || !/T.*(Z|[+-]\d\d:?\d\d)$/.test(startIso))
+  ) {
+    throw new OptionError(
+      `invalid sessionStartTime: ${shown(start)}; must be an ISO 8601 time with a time zone (2026-03-14T09:30:00+01:00) or a Date`,
+    );
   }
 
   const target = resolve(path);
@@ -149,12 +194,18 @@ export function writeNwbSync(set: SweepSet, path: string, options: NwbWriteOptio
       throw new OutputError(path, `refusing to write ${path}: it exists and is not a file`, { refused: true });
     }
     if (!options.overwrite) {
-      throw new OutputError(path,
-        `refusing to write ${path}: the file exists (pass overwrite: true to replace an NWB file that fascicle wrote)`, { refused: true });
+      throw new OutputError(
+        path,
+        `refusing to write ${path}: the file exists (pass overwrite: true to replace an NWB file that fascicle wrote)`,
+        { refused: true },
+      );
     }
     if (!writtenByFascicle(target)) {
-      throw new OutputError(path,
-        `refusing to overwrite ${path}: it is not an NWB file written by fascicle (no /general/source_script "${FASCICLE_SCRIPT} ...")`, { refused: true });
+      throw new OutputError(
+        path,
+        `refusing to overwrite ${path}: it is not an NWB file written by fascicle (no /general/source_script "${FASCICLE_SCRIPT} ...")`,
+        { refused: true },
+      );
     }
   }
   const dir = dirname(target);
@@ -178,7 +229,12 @@ export function writeNwbSync(set: SweepSet, path: string, options: NwbWriteOptio
     f = null;
     renameSync(tmp, target);
   } catch (e) {
-    if (f) try { f.close(); } catch { /* already failed */ }
+    if (f)
+      try {
+        f.close();
+      } catch {
+        /* already failed */
+      }
     rmSync(tmp, { force: true });
     if (e instanceof OutputError || e instanceof OptionError) throw e;
     const code = (e as NodeJS.ErrnoException).code;
@@ -199,10 +255,17 @@ function text(g: H5Group, name: string, value: string | readonly string[]) {
   return g.create_dataset({ name, data: typeof value === 'string' ? value : [...value], dtype: S });
 }
 
-function writeContent(f: H5File, set: SweepSet, o: NwbWriteOptions, raw: boolean, startIso: string | undefined,
-  level: number): Omit<NwbWriteResult, 'path'> {
+function writeContent(
+  f: H5File,
+  set: SweepSet,
+  o: NwbWriteOptions,
+  raw: boolean,
+  startIso: string | undefined,
+  level: number,
+): Omit<NwbWriteResult, 'path'> {
   const now = new Date().toISOString();
-  const manifest = set.extras.manifest as { study?: string; description?: string; species?: string; nerve?: string } | undefined;
+  const manifest = set.extras.manifest as
+    { study?: string; description?: string; species?: string; nerve?: string } | undefined;
   type FromNwb = { general?: Record<string, string | string[]>; subject?: Record<string, string> };
   const fromNwb = set.extras.nwb as FromNwb | undefined;
   f.create_attribute('namespace', 'core', null, S);
@@ -211,12 +274,12 @@ function writeContent(f: H5File, set: SweepSet, o: NwbWriteOptions, raw: boolean
   f.create_attribute('object_id', randomUUID(), null, S);
   text(f, 'file_create_date', [now]);
   text(f, 'identifier', o.identifier ?? randomUUID());
-  text(f, 'session_description',
-    o.sessionDescription ?? manifest?.description ?? manifest?.study ?? 'fascicle export');
+  text(f, 'session_description', o.sessionDescription ?? manifest?.description ?? manifest?.study ?? 'fascicle export');
   text(f, 'session_start_time', startIso ?? now);
   text(f, 'timestamps_reference_time', startIso ?? now);
   for (const g of ['acquisition', 'analysis', 'processing', 'stimulus', 'general', 'intervals']) f.create_group(g);
-  f.get('stimulus')!; (f.get('stimulus') as H5Group).create_group('presentation');
+  f.get('stimulus')!;
+  (f.get('stimulus') as H5Group).create_group('presentation');
   (f.get('stimulus') as H5Group).create_group('templates');
 
   // /general
@@ -227,8 +290,12 @@ function writeContent(f: H5File, set: SweepSet, o: NwbWriteOptions, raw: boolean
     `Written by fascicle ${VERSION} on ${now}.`,
     'Sweeps lie on a synthetic time axis (one after another, 1 s apart); acquiredS in the trials table holds acquisition times where known.',
     startIso ? '' : 'session_start_time is the time of writing: the acquisition time was not in the input.',
-    raw ? 'The samples are as acquired (/acquisition).' : 'The samples are conditioned (/processing/fascicle); the steps are in /processing/fascicle/history.',
-  ].filter(Boolean).join(' ');
+    raw
+      ? 'The samples are as acquired (/acquisition).'
+      : 'The samples are conditioned (/processing/fascicle); the steps are in /processing/fascicle/history.',
+  ]
+    .filter(Boolean)
+    .join(' ');
   text(general, 'notes', notes);
   const meta = fromNwb?.general ?? {};
   const lab = o.lab ?? (typeof meta.lab === 'string' ? meta.lab : undefined);
@@ -242,7 +309,14 @@ function writeContent(f: H5File, set: SweepSet, o: NwbWriteOptions, raw: boolean
   const given = typeof meta.experiment_description === 'string' ? meta.experiment_description : undefined;
   const description = manifest?.description ?? given;
   if (description) text(general, 'experiment_description', description);
-  const preps = [...new Set(set.column('preparation').filter((v) => v !== null).map(String))];
+  const preps = [
+    ...new Set(
+      set
+        .column('preparation')
+        .filter((v) => v !== null)
+        .map(String),
+    ),
+  ];
   const subject: Record<string, string> = { ...(fromNwb?.subject ?? {}), ...(o.subject ?? {}) };
   if (!subject.subject_id && preps.length === 1) subject.subject_id = preps[0];
   if (!subject.species && manifest?.species) subject.species = manifest.species;
@@ -264,8 +338,7 @@ function writeContent(f: H5File, set: SweepSet, o: NwbWriteOptions, raw: boolean
   const devices = general.create_group('devices');
   const dev = devices.create_group('recording_system');
   typed(dev, 'Device');
-  dev.create_attribute('description', 'amplifier and digitiser of the recording (not described in the input)',
-    null, S);
+  dev.create_attribute('description', 'amplifier and digitiser of the recording (not described in the input)', null, S);
   const ee = general.create_group('extracellular_ephys');
   const eg = ee.create_group('recording');
   typed(eg, 'ElectrodeGroup');
@@ -287,43 +360,71 @@ function writeContent(f: H5File, set: SweepSet, o: NwbWriteOptions, raw: boolean
   const eRows = electrodeKeys.map((k) => JSON.parse(k) as [ConditionValue, ConditionValue, ConditionValue]);
   const elTable = ee.create_group('electrodes');
   const groupRef = eg.create_reference();
-  writeTable(elTable, 'DynamicTable', 'hdmf-common',
-    'recording electrodes: one per preparation, site and conduction distance', eRows.length, [
-    { name: 'location', values: eRows.map((r) => (r[1] === null ? 'not recorded' : String(r[1]))),
-      description: 'recording site' },
-    { name: 'group', refs: eRows.map(() => groupRef), description: 'electrode group' },
-    { name: 'group_name', values: eRows.map(() => 'recording'), description: 'electrode group name' },
-    { name: 'distance_mm', values: eRows.map((r) => (typeof r[2] === 'number' ? r[2] : null)),
-      description: 'conduction distance from the stimulating cathode to the recording electrode, mm (NaN: not recorded)', unit: 'mm' },
-    { name: 'preparation', values: eRows.map((r) => (r[0] === null ? '' : String(r[0]))),
-      description: 'preparation (nerve) the electrode recorded from' },
-  ]);
+  writeTable(
+    elTable,
+    'DynamicTable',
+    'hdmf-common',
+    'recording electrodes: one per preparation, site and conduction distance',
+    eRows.length,
+    [
+      {
+        name: 'location',
+        values: eRows.map((r) => (r[1] === null ? 'not recorded' : String(r[1]))),
+        description: 'recording site',
+      },
+      { name: 'group', refs: eRows.map(() => groupRef), description: 'electrode group' },
+      { name: 'group_name', values: eRows.map(() => 'recording'), description: 'electrode group name' },
+      {
+        name: 'distance_mm',
+        values: eRows.map((r) => (typeof r[2] === 'number' ? r[2] : null)),
+        description:
+          'conduction distance from the stimulating cathode to the recording electrode, mm (NaN: not recorded)',
+        unit: 'mm',
+      },
+      {
+        name: 'preparation',
+        values: eRows.map((r) => (r[0] === null ? '' : String(r[0]))),
+        description: 'preparation (nerve) the electrode recorded from',
+      },
+    ],
+  );
   const elRef = elTable.create_reference();
 
   // the series: one per electrode
-  const home = raw ? (f.get('acquisition') as H5Group) : (() => {
-    const m = (f.get('processing') as H5Group).create_group('fascicle');
-    typed(m, 'ProcessingModule');
-    m.create_attribute('description', 'fascicle: conditioned sweeps, processing history and results', null, S);
-    return m;
-  })();
+  const home = raw
+    ? (f.get('acquisition') as H5Group)
+    : (() => {
+        const m = (f.get('processing') as H5Group).create_group('fascicle');
+        typed(m, 'ProcessingModule');
+        m.create_attribute('description', 'fascicle: conditioned sweeps, processing history and results', null, S);
+        return m;
+      })();
   const n = set.nSamples;
-  const period = Math.ceil((n / set.fs) + GAP_S);
+  const period = Math.ceil(n / set.fs + GAP_S);
   const stimAt = (i: number) => i * period - set.t0Ms / 1000;
   const data = set.data;
   const seriesPaths: string[] = [];
   const seriesRefs: import('h5wasm').Reference[] = [];
   const idxStart = new Int32Array(set.nSweeps);
   const seriesOf = new Int32Array(set.nSweeps);
-  const filtering = raw ? 'none (as acquired)' : set.history.filter((s) => !RAW_VERBS.has(s.verb)).map((s) => s.verb).join(', ') || 'none';
+  const filtering = raw
+    ? 'none (as acquired)'
+    : set.history
+        .filter((s) => !RAW_VERBS.has(s.verb))
+        .map((s) => s.verb)
+        .join(', ') || 'none';
   for (let e = 0; e < eRows.length; e++) {
     const members: number[] = [];
     for (let i = 0; i < set.nSweeps; i++) if (electrodeOf[i] === e) members.push(i);
     const name = eRows.length === 1 ? 'sweeps' : `sweeps_e${e}`;
     const g = home.create_group(name);
     typed(g, 'ElectricalSeries');
-    g.create_attribute('description',
-      `${members.length} sweeps of ${n} samples at ${set.fs} Hz, stored in ${set.units}`, null, S);
+    g.create_attribute(
+      'description',
+      `${members.length} sweeps of ${n} samples at ${set.fs} Hz, stored in ${set.units}`,
+      null,
+      S,
+    );
     g.create_attribute('comments', 'sweeps on a synthetic time axis: see /general/notes', null, S);
     g.create_attribute('filtering', filtering, null, S);
     const total = members.length * n;
@@ -331,11 +432,23 @@ function writeContent(f: H5File, set: SweepSet, o: NwbWriteOptions, raw: boolean
     const perChunk = Math.max(1, Math.min(members.length, Math.floor(32768 / n)));
     const chunk = perChunk * n;
     const gz = level > 0 ? { compression: 'gzip' as const, compression_opts: level } : {};
-    const d = g.create_dataset({ name: 'data', data: new Float64Array(0), shape: [0, 1], maxshape: [null, 1],
-      chunks: [chunk, 1], ...gz });
+    const d = g.create_dataset({
+      name: 'data',
+      data: new Float64Array(0),
+      shape: [0, 1],
+      maxshape: [null, 1],
+      chunks: [chunk, 1],
+      ...gz,
+    });
     d.resize([total, 1]);
-    const ts = g.create_dataset({ name: 'timestamps', data: new Float64Array(0), shape: [0], maxshape: [null],
-      chunks: [chunk], ...gz });
+    const ts = g.create_dataset({
+      name: 'timestamps',
+      data: new Float64Array(0),
+      shape: [0],
+      maxshape: [null],
+      chunks: [chunk],
+      ...gz,
+    });
     ts.resize([total]);
     const xb = new Float64Array(chunk);
     const tb = new Float64Array(chunk);
@@ -351,7 +464,13 @@ function writeContent(f: H5File, set: SweepSet, o: NwbWriteOptions, raw: boolean
         seriesOf[i] = seriesPaths.length;
       }
       const m = (k1 - k0) * n;
-      d.write_slice([[k0 * n, k1 * n], [0, 1]], m === chunk ? xb : xb.subarray(0, m));
+      d.write_slice(
+        [
+          [k0 * n, k1 * n],
+          [0, 1],
+        ],
+        m === chunk ? xb : xb.subarray(0, m),
+      );
       ts.write_slice([[k0 * n, k1 * n]], m === chunk ? tb : tb.subarray(0, m));
     }
     d.create_attribute('unit', 'volts', null, S);
@@ -373,40 +492,62 @@ function writeContent(f: H5File, set: SweepSet, o: NwbWriteOptions, raw: boolean
   const trials = (f.get('intervals') as H5Group).create_group('trials');
   const keys = conditionKeys(set.conditions);
   const cols: ColumnSpec[] = [
-    { name: 'start_time', values: set.conditions.map((_, i) => stimAt(i) + set.t0Ms / 1000),
-      description: 'first sample of the sweep, s (synthetic time axis)' },
-    { name: 'stop_time', values: set.conditions.map((_, i) => stimAt(i) + set.timeAt(n - 1) / 1000),
-      description: 'last sample of the sweep, s' },
-    { name: 'stimulus_time', values: set.conditions.map((_, i) => stimAt(i)),
-      description: 'stimulus of the sweep, s' },
+    {
+      name: 'start_time',
+      values: set.conditions.map((_, i) => stimAt(i) + set.t0Ms / 1000),
+      description: 'first sample of the sweep, s (synthetic time axis)',
+    },
+    {
+      name: 'stop_time',
+      values: set.conditions.map((_, i) => stimAt(i) + set.timeAt(n - 1) / 1000),
+      description: 'last sample of the sweep, s',
+    },
+    { name: 'stimulus_time', values: set.conditions.map((_, i) => stimAt(i)), description: 'stimulus of the sweep, s' },
   ];
   for (const k of keys) {
     const name = k === 'file' ? 'source_file' : k === 'fileSweep' ? 'source_sweep' : k;
     if (cols.some((c) => c.name === name)) continue;
     const values = set.column(k);
-    const units = k === 'intensity' || k === 'concentration' ? [...new Set(set.column(`${k}Unit`).filter((v) => v !== null))] : [];
+    const units =
+      k === 'intensity' || k === 'concentration' ? [...new Set(set.column(`${k}Unit`).filter((v) => v !== null))] : [];
     const unit = OWN_UNITS[k] ?? (units.length === 1 && typeof units[0] === 'string' ? units[0] : undefined);
     cols.push({ name, values, description: `condition ${k}${unit ? ` (${unit})` : ''}`, unit });
   }
-  writeTable(trials, 'TimeIntervals', 'core', 'one row per sweep: stimulus time, sample range and conditions',
-    set.nSweeps, cols, {
-    name: 'timeseries', description: 'the samples of each sweep', starts: idxStart, count: n, refs: Array.from(seriesOf, (s) => seriesRefs[s]),
-  });
+  writeTable(
+    trials,
+    'TimeIntervals',
+    'core',
+    'one row per sweep: stimulus time, sample range and conditions',
+    set.nSweeps,
+    cols,
+    {
+      name: 'timeseries',
+      description: 'the samples of each sweep',
+      starts: idxStart,
+      count: n,
+      refs: Array.from(seriesOf, (s) => seriesRefs[s]),
+    },
+  );
 
   // history, inputs, study settings, results
-  const proc = raw ? (() => {
-    const m = (f.get('processing') as H5Group).create_group('fascicle');
-    typed(m, 'ProcessingModule');
-    m.create_attribute('description', 'fascicle: processing history and results', null, S);
-    return m;
-  })() : home;
+  const proc = raw
+    ? (() => {
+        const m = (f.get('processing') as H5Group).create_group('fascicle');
+        typed(m, 'ProcessingModule');
+        m.create_attribute('description', 'fascicle: processing history and results', null, S);
+        return m;
+      })()
+    : home;
   // the study's settings (class preset, analysis options, required conditions) travel with the data
   if (manifest) proc.create_attribute('fascicle_study', JSON.stringify({ ...manifest, files: [] }), null, S);
   const hist = proc.create_group('history');
   writeTable(hist, 'DynamicTable', 'hdmf-common', 'the steps that made the sweeps, in order', set.history.length, [
     { name: 'verb', values: set.history.map((s) => s.verb), description: 'step' },
-    { name: 'options', values: set.history.map((s) => JSON.stringify(s.options)),
-      description: 'every option of the step (defaults included), JSON' },
+    {
+      name: 'options',
+      values: set.history.map((s) => JSON.stringify(s.options)),
+      description: 'every option of the step (defaults included), JSON',
+    },
     { name: 'version', values: set.history.map((s) => s.version), description: 'fascicle version' },
   ]);
   const inp = proc.create_group('inputs');
@@ -431,8 +572,14 @@ function writeContent(f: H5File, set: SweepSet, o: NwbWriteOptions, raw: boolean
     }
     const g = proc.create_group(safe);
     const names = [...new Set(rows.flatMap((r) => Object.keys(r)))];
-    writeTable(g, 'DynamicTable', 'hdmf-common', `fascicle result table ${name}`, rows.length,
-      names.map((c) => ({ name: c, values: rows.map((r) => (r[c] === undefined ? null : r[c])), description: c })));
+    writeTable(
+      g,
+      'DynamicTable',
+      'hdmf-common',
+      `fascicle result table ${name}`,
+      rows.length,
+      names.map((c) => ({ name: c, values: rows.map((r) => (r[c] === undefined ? null : r[c])), description: c })),
+    );
     tables.push(safe);
   }
   if (empty.length) proc.create_attribute('fascicle_empty_tables', empty, null, S);
@@ -445,8 +592,14 @@ function resultTables(r: NwbWriteOptions['results']): Record<string, Rows | unde
     throw new OptionError(`invalid results: ${shown(r)}; must be a result object or name -> rows`);
   }
   const t = (r as { tables?: unknown }).tables;
-  const out = typeof t === 'function' ? (t as () => Record<string, Rows>).call(r)
-    : t && typeof t === 'object' && !Array.isArray(t) ? t : isPipelineResult(r) ? pipelineTables(r) : r;
+  const out =
+    typeof t === 'function'
+      ? (t as () => Record<string, Rows>).call(r)
+      : t && typeof t === 'object' && !Array.isArray(t)
+        ? t
+        : isPipelineResult(r)
+          ? pipelineTables(r)
+          : r;
   for (const [k, v] of Object.entries(out as Record<string, unknown>)) {
     if (v !== undefined && (!Array.isArray(v) || !v.every((x) => x && typeof x === 'object' && !Array.isArray(x)))) {
       throw new OptionError(`invalid results.${k}: must be an array of row objects`);
@@ -459,7 +612,10 @@ type HasTables = { tables(): Record<string, Rows> } | null | undefined;
 interface PipelineLike {
   conditioned: unknown;
   components: HasTables;
-  velocity?: HasTables; recruitment?: HasTables; doseResponse?: HasTables; temperature?: HasTables;
+  velocity?: HasTables;
+  recruitment?: HasTables;
+  doseResponse?: HasTables;
+  temperature?: HasTables;
   strengthDuration?: HasTables;
   thresholds?: Rows;
   flags?: Rows;
@@ -497,12 +653,20 @@ interface ColumnSpec {
 }
 
 /** A DynamicTable (or TimeIntervals): id, columns, colnames; optionally a TimeSeriesReference column. */
-function writeTable(g: H5Group, type: string, ns: string, description: string, n: number, cols: ColumnSpec[],
-  tsref?: { name: string; description: string; starts: Int32Array; count: number; refs: import('h5wasm').Reference[] }): void {
+function writeTable(
+  g: H5Group,
+  type: string,
+  ns: string,
+  description: string,
+  n: number,
+  cols: ColumnSpec[],
+  tsref?: { name: string; description: string; starts: Int32Array; count: number; refs: import('h5wasm').Reference[] },
+): void {
   typed(g, type, ns);
   g.create_attribute('description', description, null, S);
   const names = cols.map((c) => c.name.replace(/\//g, '_'));
-  if (new Set(names).size !== names.length) throw new OptionError(`two columns of ${g.path} have the same name after "/" became "_"`);
+  if (new Set(names).size !== names.length)
+    throw new OptionError(`two columns of ${g.path} have the same name after "/" became "_"`);
   const colnames = tsref ? [...names, tsref.name] : names;
   if (colnames.length) g.create_attribute('colnames', colnames, null, S);
   else g.create_attribute('colnames', [], [0], S);
@@ -513,9 +677,10 @@ function writeTable(g: H5Group, type: string, ns: string, description: string, n
     if (c.refs) d = g.create_dataset({ name: names[k], data: c.refs });
     else {
       const enc = encodeColumn(c.values ?? []);
-      d = enc.kind === 'string' || enc.kind === 'json'
-        ? g.create_dataset({ name: names[k], data: enc.data, dtype: S, ...(enc.data.length ? {} : { shape: [0] }) })
-        : g.create_dataset({ name: names[k], data: enc.data });
+      d =
+        enc.kind === 'string' || enc.kind === 'json'
+          ? g.create_dataset({ name: names[k], data: enc.data, dtype: S, ...(enc.data.length ? {} : { shape: [0] }) })
+          : g.create_dataset({ name: names[k], data: enc.data });
       const missing = (c.values ?? []).some((v) => v === null || v === undefined);
       if (enc.kind !== 'number' || missing) d.create_attribute('fascicle_dtype', enc.kind, null, S);
     }
@@ -527,8 +692,11 @@ function writeTable(g: H5Group, type: string, ns: string, description: string, n
   if (tsref) {
     const d = g.create_dataset({
       name: tsref.name,
-      data: new Map<string, unknown>([['idx_start', tsref.starts], ['count', new Int32Array(n).fill(tsref.count)],
-        ['timeseries', tsref.refs]]) as never,
+      data: new Map<string, unknown>([
+        ['idx_start', tsref.starts],
+        ['count', new Int32Array(n).fill(tsref.count)],
+        ['timeseries', tsref.refs],
+      ]) as never,
     });
     typed(d, 'TimeSeriesReferenceVectorData', 'core');
     d.create_attribute('description', tsref.description, null, S);

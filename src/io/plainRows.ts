@@ -22,13 +22,30 @@ export const PLAIN_BLOCK = 64;
  * field 0 into t[row], the others into block[slot * (ncol - 1) + c - 1]. Returns
  * false (storing nothing reliable) when the row is not plain.
  */
-export function plainRow(bytes: Uint8Array, start: number, end: number, ncol: number, dec: number, dcode: number, t: Float64Array, row: number, block: Float64Array, slot: number): boolean {
+export function plainRow(
+  bytes: Uint8Array,
+  start: number,
+  end: number,
+  ncol: number,
+  dec: number,
+  dcode: number,
+  t: Float64Array,
+  row: number,
+  block: Float64Array,
+  slot: number,
+): boolean {
   const nSweeps = ncol - 1;
   let k = start;
   for (let c = 0; c < ncol; c++) {
     let neg = false;
-    if (bytes[k] === 45) { neg = true; k++; }
-    let m = 0, digits = 0, frac = 0, seenDec = false;
+    if (bytes[k] === 45) {
+      neg = true;
+      k++;
+    }
+    let m = 0,
+      digits = 0,
+      frac = 0,
+      seenDec = false;
     for (; k < end; k++) {
       const ch = bytes[k];
       const d = ch - 48;
@@ -44,8 +61,12 @@ export function plainRow(bytes: Uint8Array, start: number, end: number, ncol: nu
     if (k < end && (bytes[k] === 101 || bytes[k] === 69)) {
       k++;
       let eneg = false;
-      if (bytes[k] === 45) { eneg = true; k++; } else if (bytes[k] === 43) k++;
-      let x = 0, ed = 0;
+      if (bytes[k] === 45) {
+        eneg = true;
+        k++;
+      } else if (bytes[k] === 43) k++;
+      let x = 0,
+        ed = 0;
       for (; k < end && ed < 4; k++) {
         const d = bytes[k] - 48;
         if (d < 0 || d > 9) break;
@@ -69,7 +90,14 @@ export function plainRow(bytes: Uint8Array, start: number, end: number, ncol: nu
 }
 
 /** Write `count` rows of a block (row-major) to out (sweep-major, stride rowsMax) from row `first`. */
-export function flushBlock(block: Float64Array, nSweeps: number, out: Float64Array, rowsMax: number, first: number, count: number): void {
+export function flushBlock(
+  block: Float64Array,
+  nSweeps: number,
+  out: Float64Array,
+  rowsMax: number,
+  first: number,
+  count: number,
+): void {
   for (let c = 0; c < nSweeps; c++) {
     const o = c * rowsMax + first;
     for (let q = 0; q < count; q++) out[o + q] = block[q * nSweeps + c];

@@ -3,7 +3,11 @@ import { writeFileSync } from 'node:fs';
 import type { SweepSet } from '../sweeps/SweepSet';
 
 /** Write a wide delimited file: a time column then one column per sweep; decimal comma optional. */
-export function writeWide(path: string, set: SweepSet, opts: { delimiter?: ',' | ';' | '\t'; decimalComma?: boolean; digits?: number; labels?: string[] } = {}): void {
+export function writeWide(
+  path: string,
+  set: SweepSet,
+  opts: { delimiter?: ',' | ';' | '\t'; decimalComma?: boolean; digits?: number; labels?: string[] } = {},
+): void {
   const d = opts.delimiter ?? ',';
   const dc = !!opts.decimalComma;
   if (dc && d === ',') throw new Error('decimal comma needs a ";" or tab delimiter');
@@ -24,7 +28,23 @@ export function writeWide(path: string, set: SweepSet, opts: { delimiter?: ',' |
 }
 
 /** Write samples as binary (int16 with gain, or float32), sweep-major, little-endian; returns the sidecar object. */
-export function writeBinary(dataPath: string, set: SweepSet, dtype: 'int16' | 'float32', gain = 1): { dtype: string; gain: number; offset: number; nSweeps: number; nSamples: number; fs: number; t0Ms: number; units: string; byteOrder: string; layout: string } {
+export function writeBinary(
+  dataPath: string,
+  set: SweepSet,
+  dtype: 'int16' | 'float32',
+  gain = 1,
+): {
+  dtype: string;
+  gain: number;
+  offset: number;
+  nSweeps: number;
+  nSamples: number;
+  fs: number;
+  t0Ms: number;
+  units: string;
+  byteOrder: string;
+  layout: string;
+} {
   const data = set.data;
   const n = data.length;
   let bytes: Uint8Array;
@@ -40,5 +60,16 @@ export function writeBinary(dataPath: string, set: SweepSet, dtype: 'int16' | 'f
     bytes = new Uint8Array(Float32Array.from(set.data).buffer);
   }
   writeFileSync(dataPath, bytes);
-  return { dtype, gain, offset: 0, nSweeps: set.nSweeps, nSamples: set.nSamples, fs: set.fs, t0Ms: set.t0Ms, units: set.units, byteOrder: 'little', layout: 'sweep-major' };
+  return {
+    dtype,
+    gain,
+    offset: 0,
+    nSweeps: set.nSweeps,
+    nSamples: set.nSamples,
+    fs: set.fs,
+    t0Ms: set.t0Ms,
+    units: set.units,
+    byteOrder: 'little',
+    layout: 'sweep-major',
+  };
 }

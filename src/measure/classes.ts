@@ -78,7 +78,12 @@ export function resolvePreset(p: string | ClassPreset | FiberClass[]): ClassPres
   let preset: ClassPreset;
   if (typeof p === 'string') {
     const found = PRESETS[p];
-    if (!found) throw new OptionError(`invalid preset: ${JSON.stringify(p)}; must be one of ${Object.keys(PRESETS).map((k) => JSON.stringify(k)).join(', ')} or a list of classes`);
+    if (!found)
+      throw new OptionError(
+        `invalid preset: ${JSON.stringify(p)}; must be one of ${Object.keys(PRESETS)
+          .map((k) => JSON.stringify(k))
+          .join(', ')} or a list of classes`,
+      );
     preset = found;
   } else if (Array.isArray(p)) {
     preset = { name: 'custom', refTemperatureC: 37, q10: 1.4, source: 'user-defined classes', classes: p };
@@ -86,13 +91,21 @@ export function resolvePreset(p: string | ClassPreset | FiberClass[]): ClassPres
   if (!preset.classes.length) throw new OptionError('invalid preset: no classes');
   for (const c of preset.classes) {
     const [lo, hi] = c.velocity ?? [];
-    if (!(lo > 0 && hi > lo && Number.isFinite(hi))) throw new OptionError(`invalid velocity range for class ${JSON.stringify(c.name)}: ${JSON.stringify(c.velocity)}; must be [slowest, fastest] m/s with 0 < slowest < fastest`);
+    if (!(lo > 0 && hi > lo && Number.isFinite(hi)))
+      throw new OptionError(
+        `invalid velocity range for class ${JSON.stringify(c.name)}: ${JSON.stringify(c.velocity)}; must be [slowest, fastest] m/s with 0 < slowest < fastest`,
+      );
   }
   return preset;
 }
 
 /** A class's velocity range at temperature T (C). */
-export function scaledRange(c: FiberClass, preset: ClassPreset, temperatureC: number | undefined, q10 = preset.q10): [number, number] {
+export function scaledRange(
+  c: FiberClass,
+  preset: ClassPreset,
+  temperatureC: number | undefined,
+  q10 = preset.q10,
+): [number, number] {
   if (temperatureC === undefined || temperatureC === null || !Number.isFinite(temperatureC)) return [...c.velocity];
   const f = Math.pow(q10, (temperatureC - preset.refTemperatureC) / 10);
   return [c.velocity[0] * f, c.velocity[1] * f];

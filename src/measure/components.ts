@@ -86,11 +86,36 @@ export interface ComponentOptions {
   referenceDistanceMm?: number;
 }
 export const componentDefaults = {
-  preset: 'mammalian', k: 4, polarity: 'auto' as const, tailFraction: 0.5, tailMs: 0.5, utilisationMs: 0, earliestMs: 0.1,
-  onsetFraction: 0.1, centroidFraction: 0.1, separation: 'auto' as const,
+  preset: 'mammalian',
+  k: 4,
+  polarity: 'auto' as const,
+  tailFraction: 0.5,
+  tailMs: 0.5,
+  utilisationMs: 0,
+  earliestMs: 0.1,
+  onsetFraction: 0.1,
+  centroidFraction: 0.1,
+  separation: 'auto' as const,
 };
-const OPTION_KEYS = ['preset', 'classes', 'distanceMm', 'temperatureC', 'q10', 'utilisationMs', 'k', 'polarity', 'noiseWindow',
-  'tailFraction', 'tailMs', 'earliestMs', 'onsetFraction', 'centroidFraction', 'separation', 'decomposeBy', 'referenceDistanceMm'];
+const OPTION_KEYS = [
+  'preset',
+  'classes',
+  'distanceMm',
+  'temperatureC',
+  'q10',
+  'utilisationMs',
+  'k',
+  'polarity',
+  'noiseWindow',
+  'tailFraction',
+  'tailMs',
+  'earliestMs',
+  'onsetFraction',
+  'centroidFraction',
+  'separation',
+  'decomposeBy',
+  'referenceDistanceMm',
+];
 
 export interface ComponentRow {
   sweep: number;
@@ -127,9 +152,14 @@ export { onsetColumn, componentLatencyText, latencyMethodsText } from './latency
 
 /** End (ms) of rail clipping after the stimulus: the last sample of a run of 3 or more equal samples at the sweep's extreme, or null. */
 export function clipEndMs(x: ArrayLike<number>, t0Ms: number, dtMs: number, fromMs = 0, toMs = 20): number | null {
-  const i0 = Math.max(0, Math.ceil((fromMs - t0Ms) / dtMs)), i1 = Math.min(x.length - 1, Math.floor((toMs - t0Ms) / dtMs));
-  let mx = -Infinity, mn = Infinity;
-  for (let i = 0; i < x.length; i++) { if (x[i] > mx) mx = x[i]; if (x[i] < mn) mn = x[i]; }
+  const i0 = Math.max(0, Math.ceil((fromMs - t0Ms) / dtMs)),
+    i1 = Math.min(x.length - 1, Math.floor((toMs - t0Ms) / dtMs));
+  let mx = -Infinity,
+    mn = Infinity;
+  for (let i = 0; i < x.length; i++) {
+    if (x[i] > mx) mx = x[i];
+    if (x[i] < mn) mn = x[i];
+  }
   let last: number | null = null;
   for (let i = i0; i + 2 <= i1; i++) {
     const v = x[i];
@@ -149,12 +179,16 @@ export function clipEndMs(x: ArrayLike<number>, t0Ms: number, dtMs: number, from
  * compound response small beside it (common practice, no source). Null when they do not decay monotonically
  * towards zero from the rail's side.
  */
-export function artifactDecay(x: ArrayLike<number>, clipIndex: number): { from: number; a: number; tauSamples: number } | null {
+export function artifactDecay(
+  x: ArrayLike<number>,
+  clipIndex: number,
+): { from: number; a: number; tauSamples: number } | null {
   const i1 = clipIndex + 1;
   if (i1 + 2 >= x.length) return null;
   const v = [x[i1], x[i1 + 1], x[i1 + 2]];
   const sgn = Math.sign(x[clipIndex]);
-  if (!v.every((q) => Math.sign(q) === sgn) || !(Math.abs(v[0]) > Math.abs(v[1]) && Math.abs(v[1]) > Math.abs(v[2]))) return null;
+  if (!v.every((q) => Math.sign(q) === sgn) || !(Math.abs(v[0]) > Math.abs(v[1]) && Math.abs(v[1]) > Math.abs(v[2])))
+    return null;
   const l = v.map((q) => Math.log(Math.abs(q)));
   const slope = (l[2] - l[0]) / 2;
   const icpt = (l[0] + l[1] + l[2]) / 3 - slope;
@@ -162,7 +196,10 @@ export function artifactDecay(x: ArrayLike<number>, clipIndex: number): { from: 
   return { from: i1, a: sgn * Math.exp(icpt), tauSamples: -1 / slope };
 }
 
-interface Win { a: number; b: number }
+interface Win {
+  a: number;
+  b: number;
+}
 
 /**
  * Whether the slower of two overlapping classes shows a peak of its own: a local maximum (3-point smoothed, polarity p)
@@ -170,7 +207,8 @@ interface Win { a: number; b: number }
  */
 function ownPeak(x: ArrayLike<number>, fast: Win, slow: Win, p: 1 | -1, n: number): boolean {
   const y = (i: number) => (p * (x[Math.max(0, i - 1)] + x[i] + x[Math.min(n - 1, i + 1)])) / 3;
-  const fb = Math.min(fast.b, n - 1), sb = Math.min(slow.b, n - 1);
+  const fb = Math.min(fast.b, n - 1),
+    sb = Math.min(slow.b, n - 1);
   let p1 = fast.a;
   for (let i = fast.a; i <= fb; i++) if (y(i) > y(p1)) p1 = i;
   let p2 = Math.max(slow.a, p1 + 1);
@@ -183,72 +221,121 @@ function ownPeak(x: ArrayLike<number>, fast: Win, slow: Win, p: 1 | -1, n: numbe
 }
 
 /** Measure each fiber class in every sweep. */
-export function measureComponents(set: SweepSet, options: ComponentOptions = {}): { rows: ComponentRow[]; measures: ResponseMeasure[][]; resolved: ResolvedComponentOptions } {
+export function measureComponents(
+  set: SweepSet,
+  options: ComponentOptions = {},
+): { rows: ComponentRow[]; measures: ResponseMeasure[][]; resolved: ResolvedComponentOptions } {
   checkKeys('components options', options, OPTION_KEYS);
-  const presetArg = options.preset ?? ((set.extras.manifest as { classPreset?: string } | undefined)?.classPreset) ?? componentDefaults.preset;
+  const presetArg =
+    options.preset ??
+    (set.extras.manifest as { classPreset?: string } | undefined)?.classPreset ??
+    componentDefaults.preset;
   const preset = resolvePreset(presetArg);
   let classes = [...preset.classes].sort((a, b) => b.velocity[1] - a.velocity[1]);
   if (options.classes) {
-    for (const c of options.classes) if (!classes.some((k) => k.name === c)) throw new OptionError(`invalid classes: ${JSON.stringify(c)} is not in preset ${preset.name} (${classes.map((k) => k.name).join(', ')})`);
+    for (const c of options.classes)
+      if (!classes.some((k) => k.name === c))
+        throw new OptionError(
+          `invalid classes: ${JSON.stringify(c)} is not in preset ${preset.name} (${classes.map((k) => k.name).join(', ')})`,
+        );
     classes = classes.filter((c) => options.classes!.includes(c.name));
   }
   const k = options.k ?? componentDefaults.k;
   if (!(k > 0)) throw new OptionError(`invalid k: ${k}; must be > 0`);
   const tailFraction = options.tailFraction ?? componentDefaults.tailFraction;
-  if (!(tailFraction >= 0 && tailFraction <= 5)) throw new OptionError(`invalid tailFraction: ${tailFraction}; must be 0 <= tailFraction <= 5`);
+  if (!(tailFraction >= 0 && tailFraction <= 5))
+    throw new OptionError(`invalid tailFraction: ${tailFraction}; must be 0 <= tailFraction <= 5`);
   const tailMs = options.tailMs ?? componentDefaults.tailMs;
-  if (!(tailMs >= 0 && tailMs <= 100)) throw new OptionError(`invalid tailMs: ${tailMs}; must be 0 <= tailMs <= 100 ms`);
+  if (!(tailMs >= 0 && tailMs <= 100))
+    throw new OptionError(`invalid tailMs: ${tailMs}; must be 0 <= tailMs <= 100 ms`);
   const util = options.utilisationMs ?? componentDefaults.utilisationMs;
-  if (!(util >= 0 && util < 10)) throw new OptionError(`invalid utilisationMs: ${util}; must be 0 <= utilisationMs < 10 ms`);
+  if (!(util >= 0 && util < 10))
+    throw new OptionError(`invalid utilisationMs: ${util}; must be 0 <= utilisationMs < 10 ms`);
   const q10 = options.q10 ?? preset.q10;
   if (!(q10 > 0)) throw new OptionError(`invalid q10: ${q10}; must be > 0`);
   const earliest = options.earliestMs ?? componentDefaults.earliestMs;
   const onsetFraction = options.onsetFraction ?? componentDefaults.onsetFraction;
-  if (!(onsetFraction > 0 && onsetFraction < 1)) throw new OptionError(`invalid onsetFraction: ${onsetFraction}; must be 0 < onsetFraction < 1 (a fraction of the class's own peak, e.g. 0.1)`);
+  if (!(onsetFraction > 0 && onsetFraction < 1))
+    throw new OptionError(
+      `invalid onsetFraction: ${onsetFraction}; must be 0 < onsetFraction < 1 (a fraction of the class's own peak, e.g. 0.1)`,
+    );
   const centroidFraction = options.centroidFraction ?? componentDefaults.centroidFraction;
-  if (!(centroidFraction >= 0 && centroidFraction < 1)) throw new OptionError(`invalid centroidFraction: ${centroidFraction}; must be 0 <= centroidFraction < 1`);
+  if (!(centroidFraction >= 0 && centroidFraction < 1))
+    throw new OptionError(`invalid centroidFraction: ${centroidFraction}; must be 0 <= centroidFraction < 1`);
   const separation = options.separation ?? componentDefaults.separation;
-  if (separation !== 'auto' && separation !== 'trough' && separation !== 'decompose') throw new OptionError(`invalid separation: ${JSON.stringify(separation)}; must be "auto", "decompose" or "trough"${didYouMean(String(separation), ['auto', 'decompose', 'trough'])}`);
-  const decomposeBy = options.decomposeBy ?? ['preparation', 'temperatureC'].filter((c) => set.conditions.some((q) => c in q));
-  if (!Array.isArray(decomposeBy) || decomposeBy.some((c) => typeof c !== 'string')) throw new OptionError(`invalid decomposeBy: ${JSON.stringify(decomposeBy)}; must be a list of condition names`);
-  if (!(set.t0Ms < -0.2) && !options.noiseWindow) throw new OptionError(`invalid noiseWindow: the sweeps start at ${set.t0Ms} ms, so there is no pre-stimulus window for the noise level; give noiseWindow: [from, to] in ms (a quiet part of the sweep)`);
+  if (separation !== 'auto' && separation !== 'trough' && separation !== 'decompose')
+    throw new OptionError(
+      `invalid separation: ${JSON.stringify(separation)}; must be "auto", "decompose" or "trough"${didYouMean(String(separation), ['auto', 'decompose', 'trough'])}`,
+    );
+  const decomposeBy =
+    options.decomposeBy ?? ['preparation', 'temperatureC'].filter((c) => set.conditions.some((q) => c in q));
+  if (!Array.isArray(decomposeBy) || decomposeBy.some((c) => typeof c !== 'string'))
+    throw new OptionError(`invalid decomposeBy: ${JSON.stringify(decomposeBy)}; must be a list of condition names`);
+  if (!(set.t0Ms < -0.2) && !options.noiseWindow)
+    throw new OptionError(
+      `invalid noiseWindow: the sweeps start at ${set.t0Ms} ms, so there is no pre-stimulus window for the noise level; give noiseWindow: [from, to] in ms (a quiet part of the sweep)`,
+    );
   const noiseWindow = windowMs('noiseWindow', options.noiseWindow ?? [set.t0Ms, -0.1]);
   const [na, nb] = windowIndices(set, noiseWindow, 'noiseWindow');
-  if (nb - na < 10) throw new OptionError(`invalid noiseWindow: [${noiseWindow}] ms holds ${nb - na + 1} samples; need at least 11`);
+  if (nb - na < 10)
+    throw new OptionError(`invalid noiseWindow: [${noiseWindow}] ms holds ${nb - na + 1} samples; need at least 11`);
 
   // polarity options: one value or one per class
   const popt = options.polarity ?? componentDefaults.polarity;
   const polOpt: Record<string, Polarity> = {};
   const okPol = (v: unknown): v is Polarity => v === 1 || v === -1 || v === 'auto';
   if (typeof popt === 'object' && popt !== null) {
-    checkKeys('polarity (class names)', popt, classes.map((c) => c.name));
+    checkKeys(
+      'polarity (class names)',
+      popt,
+      classes.map((c) => c.name),
+    );
     for (const [name, v] of Object.entries(popt)) {
-      if (!okPol(v)) throw new OptionError(`invalid polarity for class ${JSON.stringify(name)}: ${JSON.stringify(v)}; must be 1, -1 or "auto"`);
+      if (!okPol(v))
+        throw new OptionError(
+          `invalid polarity for class ${JSON.stringify(name)}: ${JSON.stringify(v)}; must be 1, -1 or "auto"`,
+        );
       polOpt[name] = v;
     }
   } else if (okPol(popt)) for (const c of classes) polOpt[c.name] = popt;
-  else throw new OptionError(`invalid polarity: ${JSON.stringify(popt)}; must be 1, -1, "auto" or an object of class name -> 1, -1 or "auto"`);
+  else
+    throw new OptionError(
+      `invalid polarity: ${JSON.stringify(popt)}; must be 1, -1, "auto" or an object of class name -> 1, -1 or "auto"`,
+    );
 
   const distOf = (i: number): number => {
     const d = options.distanceMm ?? set.conditions[i].distanceMm;
-    if (typeof d !== 'number' || !(d > 0)) throw new AnalysisError(`sweep ${i}: no conduction distance; give the condition distanceMm (mm) or the option distanceMm`);
-    if (d > 1000 || d < 0.5) throw new AnalysisError(`sweep ${i}: conduction distance ${d} mm is implausible for an isolated nerve (expected 0.5-1000 mm); is it in another unit (m or cm)?`);
+    if (typeof d !== 'number' || !(d > 0))
+      throw new AnalysisError(
+        `sweep ${i}: no conduction distance; give the condition distanceMm (mm) or the option distanceMm`,
+      );
+    if (d > 1000 || d < 0.5)
+      throw new AnalysisError(
+        `sweep ${i}: conduction distance ${d} mm is implausible for an isolated nerve (expected 0.5-1000 mm); is it in another unit (m or cm)?`,
+      );
     return d;
   };
   const refOf = (i: number): number | null => {
     const r = options.referenceDistanceMm ?? set.conditions[i].referenceDistanceMm;
     if (r === undefined || r === null) return null;
-    if (typeof r !== 'number' || !(r > distOf(i))) throw new OptionError(`invalid referenceDistanceMm for sweep ${i}: ${JSON.stringify(r)}; must be a number of mm beyond the recording contact (${distOf(i)} mm)`);
+    if (typeof r !== 'number' || !(r > distOf(i)))
+      throw new OptionError(
+        `invalid referenceDistanceMm for sweep ${i}: ${JSON.stringify(r)}; must be a number of mm beyond the recording contact (${distOf(i)} mm)`,
+      );
     return r;
   };
   const tempOf = (i: number): number | undefined => {
     const T = options.temperatureC ?? set.conditions[i].temperatureC;
     if (typeof T === 'number') return T;
-    warnOnce('components-no-temperature', `no temperature for some sweeps: class velocity ranges are used unscaled (as at ${preset.refTemperatureC} C)`);
+    warnOnce(
+      'components-no-temperature',
+      `no temperature for some sweeps: class velocity ranges are used unscaled (as at ${preset.refTemperatureC} C)`,
+    );
     return undefined;
   };
 
-  const n = set.nSamples, dt = set.dtMs;
+  const n = set.nSamples,
+    dt = set.dtMs;
   const iEarliest = set.indexAt(earliest);
   const tAt = (fi: number) => set.timeAt(0) + fi * dt;
   // the artifact's decay after rail clipping: its time constant is estimated at the farthest site of each group
@@ -271,12 +358,16 @@ export function measureComponents(set: SweepSet, options: ComponentOptions = {})
   // per sweep: distance, temperature, noise, artifact end (rail clipping) and raw class windows
   const info = Array.from({ length: set.nSweeps }, (_, s) => {
     const raw0 = set.sweep(s);
-    const L = distOf(s), T = tempOf(s);
+    const L = distOf(s),
+      T = tempOf(s);
     const clip = clips[s];
     // after rail clipping the artifact's decay, from the first unclipped sample with the group's time constant, is subtracted
     const d0 = clip === null ? null : artifactDecay(raw0, set.indexAt(clip));
     const tau = tauOf.get(groupOf(s)) ?? d0?.tauSamples;
-    const decay = clip === null || tau === undefined ? null : { from: set.indexAt(clip) + 1, a: raw0[set.indexAt(clip) + 1], tauSamples: tau };
+    const decay =
+      clip === null || tau === undefined
+        ? null
+        : { from: set.indexAt(clip) + 1, a: raw0[set.indexAt(clip) + 1], tauSamples: tau };
     let x: ArrayLike<number> = raw0;
     if (decay) {
       const c = Float64Array.from(raw0);
@@ -291,7 +382,8 @@ export function measureComponents(set: SweepSet, options: ComponentOptions = {})
     const polStart = Math.max(iEarliest, clip === null ? 0 : polStartOf(clip));
     const wins: Win[] = classes.map((c) => {
       const [vlo, vhi] = scaledRange(c, preset, T, q10);
-      const t0 = util + L / vhi, t1 = util + L / vlo;
+      const t0 = util + L / vhi,
+        t1 = util + L / vlo;
       const a = Math.max(set.indexAt(Math.max(t0, earliest)), iEarliest);
       const b = set.indexAt(t1 + Math.max(tailMs, tailFraction * (t1 - t0)));
       return { a, b };
@@ -305,13 +397,22 @@ export function measureComponents(set: SweepSet, options: ComponentOptions = {})
   const polaritySource: Record<string, 'option' | 'auto'> = {};
   classes.forEach((c, ci) => {
     const o = polOpt[c.name] ?? 'auto';
-    if (o !== 'auto') { polarities[c.name] = o; polaritySource[c.name] = 'option'; return; }
-    let up = 0, down = 0;
+    if (o !== 'auto') {
+      polarities[c.name] = o;
+      polaritySource[c.name] = 'option';
+      return;
+    }
+    let up = 0,
+      down = 0;
     for (let s = 0; s < set.nSweeps; s++) {
       const x = info[s].x;
       const { a, b } = info[s].wins[ci];
-      let mx = 0, mn = 0;
-      for (let i = Math.max(a, info[s].polStart); i <= Math.min(b, n - 1); i++) { if (x[i] > mx) mx = x[i]; if (x[i] < mn) mn = x[i]; }
+      let mx = 0,
+        mn = 0;
+      for (let i = Math.max(a, info[s].polStart); i <= Math.min(b, n - 1); i++) {
+        if (x[i] > mx) mx = x[i];
+        if (x[i] < mn) mn = x[i];
+      }
       up += mx;
       down -= mn;
     }
@@ -330,8 +431,16 @@ export function measureComponents(set: SweepSet, options: ComponentOptions = {})
   // decomposition per group (decomposeBy) and chain, when the group has two or more distances
   const groupKey = (s: number) => decomposeBy.map((c) => String(set.conditions[s][c] ?? '')).join('|');
   const groups = new Map<string, number[]>();
-  for (let s = 0; s < set.nSweeps; s++) (groups.get(groupKey(s)) ?? groups.set(groupKey(s), []).get(groupKey(s))!).push(s);
-  interface Decomp { shape: SharedShape | null; grid: DecomposeGrid | null; bins: [number, number][]; resolved: boolean[]; reason: (string | null)[]; valleys: (number | null)[] }
+  for (let s = 0; s < set.nSweeps; s++)
+    (groups.get(groupKey(s)) ?? groups.set(groupKey(s), []).get(groupKey(s))!).push(s);
+  interface Decomp {
+    shape: SharedShape | null;
+    grid: DecomposeGrid | null;
+    bins: [number, number][];
+    resolved: boolean[];
+    reason: (string | null)[];
+    valleys: (number | null)[];
+  }
   const decomps = new Map<string, Decomp>();
   if (separation !== 'trough') {
     for (const [gk, members] of groups) {
@@ -341,10 +450,22 @@ export function measureComponents(set: SweepSet, options: ComponentOptions = {})
       for (const chain of chains) {
         if (chain.length < 2) continue;
         // 'auto': a monopolar group where every sweep shows the slower class's own peak keeps the trough method
-        if (separation === 'auto' && !bip && members.every((s) => chain.every((ci, j) => j === 0 || ownPeak(info[s].x, info[s].wins[chain[j - 1]], info[s].wins[ci], polarities[classes[ci].name], n)))) continue;
+        if (
+          separation === 'auto' &&
+          !bip &&
+          members.every((s) =>
+            chain.every(
+              (ci, j) =>
+                j === 0 ||
+                ownPeak(info[s].x, info[s].wins[chain[j - 1]], info[s].wins[ci], polarities[classes[ci].name], n),
+            ),
+          )
+        )
+          continue;
         const T = info[members[0]].T;
         const ranges = chain.map((ci) => scaledRange(classes[ci], preset, T, q10));
-        const vFast = ranges[0][1] * 2, vSlow = ranges[ranges.length - 1][0] / 2;
+        const vFast = ranges[0][1] * 2,
+          vSlow = ranges[ranges.length - 1][0] / 2;
         const last = chain[chain.length - 1];
         const rangeAt = new Map<number, [number, number]>();
         for (const x of dists) {
@@ -354,14 +475,21 @@ export function measureComponents(set: SweepSet, options: ComponentOptions = {})
           rangeAt.set(x, [Math.max(0, r0), r1]);
         }
         const nearLen = rangeAt.get(dists[0])![1] - rangeAt.get(dists[0])![0];
-        const trustAt = new Map(dists.map((x) => [x, Math.max(...members.filter((s) => info[s].L === x).map((s) => info[s].fitStart))]));
+        const trustAt = new Map(
+          dists.map((x) => [x, Math.max(...members.filter((s) => info[s].L === x).map((s) => info[s].fitStart))]),
+        );
         // fibers so fast that their waveform (which may start `lead` before the arrival x / v) begins at the
         // farthest site before its recording is trusted (the artifact) are not determined by the data: the slowness
         // grid starts where that waveform's start is trusted there
-        const lead = Math.max(0.1, 5 * dt), xFar = dists[dists.length - 1];
+        const lead = Math.max(0.1, 5 * dt),
+          xFar = dists[dists.length - 1];
         const u0 = Math.max(1 / vFast, (tAt(trustAt.get(xFar)!) - util + lead) / xFar);
         const grid: DecomposeGrid = {
-          dtMs: dt, t0Ms: set.t0Ms, range: (x) => rangeAt.get(x)!, uBounds: [u0, 1 / vSlow], excluded: (i, x) => i < trustAt.get(x)!,
+          dtMs: dt,
+          t0Ms: set.t0Ms,
+          range: (x) => rangeAt.get(x)!,
+          uBounds: [u0, 1 / vSlow],
+          excluded: (i, x) => i < trustAt.get(x)!,
           sSupportMs: [lead, Math.min(400, Math.max(20, nearLen)) * dt],
         };
         const traces = members.map((s) => ({ y: info[s].x, distanceMm: info[s].L, referenceMm: refOf(s) }));
@@ -379,7 +507,9 @@ export function measureComponents(set: SweepSet, options: ComponentOptions = {})
           if (!v) {
             // no mode on one side: the slower class is not resolved; the faster keeps the bins
             resolved.push(false);
-            reason.push(`not resolved: the velocity distribution has no separate mode between ${ranges[j + 1][0].toPrecision(3)} and ${ranges[j + 1][1].toPrecision(3)} m/s`);
+            reason.push(
+              `not resolved: the velocity distribution has no separate mode between ${ranges[j + 1][0].toPrecision(3)} and ${ranges[j + 1][1].toPrecision(3)} m/s`,
+            );
             valleys.push(null);
             bins.push([from, shape.u.length - 1]);
             from = shape.u.length;
@@ -389,7 +519,11 @@ export function measureComponents(set: SweepSet, options: ComponentOptions = {})
           from = v.bin;
           const ok = v.depth < 0.9;
           resolved.push(ok);
-          reason.push(ok ? null : `not resolved: no separate mode in the velocity distribution (valley at ${(1 / shape.u[v.bin]).toPrecision(3)} m/s is ${(100 * v.depth).toFixed(0)}% of the smaller mode)`);
+          reason.push(
+            ok
+              ? null
+              : `not resolved: no separate mode in the velocity distribution (valley at ${(1 / shape.u[v.bin]).toPrecision(3)} m/s is ${(100 * v.depth).toFixed(0)}% of the smaller mode)`,
+          );
           valleys.push(1 / shape.u[v.bin]);
         }
         bins.push([Math.min(from, shape.u.length - 1), shape.u.length - 1]);
@@ -399,7 +533,8 @@ export function measureComponents(set: SweepSet, options: ComponentOptions = {})
         // recording, the near contact's) unless given
         let im = 0;
         for (let j = 0; j < shape.s.length; j++) if (Math.abs(shape.s[j]) > Math.abs(shape.s[im])) im = j;
-        for (const ci of chain) if (polaritySource[classes[ci].name] === 'auto') polarities[classes[ci].name] = shape.s[im] >= 0 ? 1 : -1;
+        for (const ci of chain)
+          if (polaritySource[classes[ci].name] === 'auto') polarities[classes[ci].name] = shape.s[im] >= 0 ? 1 : -1;
       }
     }
   }
@@ -417,7 +552,18 @@ export function measureComponents(set: SweepSet, options: ComponentOptions = {})
     const ms: ResponseMeasure[] = new Array(classes.length);
     const done = new Array<boolean>(classes.length).fill(false);
     // y: the class's own component over samples [a, b] (y[i - a], recorded sign); its peak is searched in y[peakFrom..peakTo]
-    const emit = (ci: number, y: Float64Array, a: number, b: number, sep: string, status0: string | null, reason0: string | null, extra: Record<string, ConditionValue>, peakFrom = 0, peakTo = y.length - 1) => {
+    const emit = (
+      ci: number,
+      y: Float64Array,
+      a: number,
+      b: number,
+      sep: string,
+      status0: string | null,
+      reason0: string | null,
+      extra: Record<string, ConditionValue>,
+      peakFrom = 0,
+      peakTo = y.length - 1,
+    ) => {
       const c = classes[ci];
       const p = polarities[c.name];
       // y holds the class's own component over [a, b] in recorded sign (y[i - a])
@@ -429,17 +575,24 @@ export function measureComponents(set: SweepSet, options: ComponentOptions = {})
       const sm = ip > 0 && ip < yc.length - 1 ? (yc[ip - 1] + yc[ip] + yc[ip + 1]) / 3 : yc[ip];
       const above = sm > kEff * noise;
       let status = status0 ?? (above ? 'measured' : 'not detected');
-      let reason = reason0 ?? (above ? null : `peak ${(sm).toPrecision(3)} ${u} is below max(k, z) x noise = ${(kEff * noise).toPrecision(3)} ${u}`);
+      let reason =
+        reason0 ??
+        (above
+          ? null
+          : `peak ${sm.toPrecision(3)} ${u} is below max(k, z) x noise = ${(kEff * noise).toPrecision(3)} ${u}`);
       // a peak on the first or last sample of the class's part is still its own when it is a local maximum of the
       // whole sweep (the neighbouring class then sees a falling edge there): a peak on a boundary counts once
       let localMax = lat.localMax;
       if (!localMax && sep === 'window' && (ip === 0 || ip === yc.length - 1)) {
-        const i = a + ip, nb = ip === 0 ? i - 1 : i + 1, other = ip === 0 ? i + 1 : i - 1;
+        const i = a + ip,
+          nb = ip === 0 ? i - 1 : i + 1,
+          other = ip === 0 ? i + 1 : i - 1;
         localMax = nb >= 0 && nb < n && p * x[nb] <= p * x[i] && (other < 0 || other >= n || p * x[other] <= p * x[i]);
       }
       if (status === 'measured' && !localMax) {
         status = 'not resolved';
-        reason = 'not resolved: no separate peak or shoulder (the largest value of the class is at the edge of its part of the sweep)';
+        reason =
+          'not resolved: no separate peak or shoulder (the largest value of the class is at the edge of its part of the sweep)';
       }
       const ok = status === 'measured';
       const t = (fi: number | null) => (ok && fi !== null ? tAt(a + fi) : null);
@@ -448,9 +601,16 @@ export function measureComponents(set: SweepSet, options: ComponentOptions = {})
       const m: ResponseMeasure = { ...old, window: [a, b], detected: ok, component: Float64Array.from(y) };
       ms[ci] = m;
       done[ci] = true;
-      let area = 0, rect = 0;
-      for (let i = 0; i < y.length; i++) { area += y[i]; rect += Math.abs(y[i]); }
-      const tOn = t(lat.onsetIndex), tHalf = t(lat.halfRiseIndex), tPk = t(lat.peakIndex), tC = t(lat.centroidIndex);
+      let area = 0,
+        rect = 0;
+      for (let i = 0; i < y.length; i++) {
+        area += y[i];
+        rect += Math.abs(y[i]);
+      }
+      const tOn = t(lat.onsetIndex),
+        tHalf = t(lat.halfRiseIndex),
+        tPk = t(lat.peakIndex),
+        tC = t(lat.centroidIndex);
       const vel = (tt: number | null) => (tt !== null && tt - util > 0 ? L / (tt - util) : null);
       rows.push({
         ...cond,
@@ -479,8 +639,12 @@ export function measureComponents(set: SweepSet, options: ComponentOptions = {})
         onset_knoise_ms: ok && old.onsetIndex > 0 ? tAt(a + old.onsetIndex) : null,
         [`amplitude_${u}`]: ok ? lat.peak : null,
         [`peak_to_peak_${u}`]: ok ? old.peakToPeak : null,
-        half_width_ms: ok && lat.halfRiseIndex !== null && lat.halfFallIndex !== null ? (lat.halfFallIndex - lat.halfRiseIndex) * dt : null,
-        duration_ms: ok && lat.centroidFrom !== null && lat.centroidTo !== null ? (lat.centroidTo - lat.centroidFrom) * dt : null,
+        half_width_ms:
+          ok && lat.halfRiseIndex !== null && lat.halfFallIndex !== null
+            ? (lat.halfFallIndex - lat.halfRiseIndex) * dt
+            : null,
+        duration_ms:
+          ok && lat.centroidFrom !== null && lat.centroidTo !== null ? (lat.centroidTo - lat.centroidFrom) * dt : null,
         [`area_${u}_ms`]: ok ? area * dt : null,
         [`rectified_area_${u}_ms`]: ok ? rect * dt : null,
         onset_velocity_m_s: vel(tOn),
@@ -499,18 +663,34 @@ export function measureComponents(set: SweepSet, options: ComponentOptions = {})
       chain.forEach((ci, j) => {
         // the class's own component: the recording minus the other classes' modelled components
         // (before the artifact has decayed, where nothing was fitted, the class's own modelled component)
-        const comp = Float64Array.from({ length: dec.r1 - dec.r0 + 1 }, (_, i) => (dec.r0 + i >= info[s].fitStart ? x[dec.r0 + i] - dec.nuisance[i] : 0));
+        const comp = Float64Array.from({ length: dec.r1 - dec.r0 + 1 }, (_, i) =>
+          dec.r0 + i >= info[s].fitStart ? x[dec.r0 + i] - dec.nuisance[i] : 0,
+        );
         dec.components.forEach((o, jj) => {
           for (let i = 0; i < comp.length; i++) {
-            if (dec.r0 + i < info[s].fitStart) { if (jj === j) comp[i] = o[i]; } else if (jj !== j) comp[i] -= o[i];
+            if (dec.r0 + i < info[s].fitStart) {
+              if (jj === j) comp[i] = o[i];
+            } else if (jj !== j) comp[i] -= o[i];
           }
         });
-        const pa = Math.max(0, Math.min(comp.length - 1, raw[ci].a - dec.r0)), pb = Math.max(pa, Math.min(comp.length - 1, raw[ci].b - dec.r0));
+        const pa = Math.max(0, Math.min(comp.length - 1, raw[ci].a - dec.r0)),
+          pb = Math.max(pa, Math.min(comp.length - 1, raw[ci].b - dec.r0));
         const extra: Record<string, ConditionValue> = {
           [`fit_rms_${u}`]: dec.rms,
           boundary_velocity_m_s: j > 0 ? d.valleys[j] : null,
         };
-        emit(ci, comp, dec.r0, dec.r1, 'velocity-decomposition', d.resolved[j] ? null : 'not resolved', d.reason[j], extra, pa, pb);
+        emit(
+          ci,
+          comp,
+          dec.r0,
+          dec.r1,
+          'velocity-decomposition',
+          d.resolved[j] ? null : 'not resolved',
+          d.reason[j],
+          extra,
+          pa,
+          pb,
+        );
       });
     }
 
@@ -520,9 +700,11 @@ export function measureComponents(set: SweepSet, options: ComponentOptions = {})
     const sepReason: (string | null)[] = classes.map(() => null);
     for (let ci = 1; ci < classes.length; ci++) {
       if (done[ci] || done[ci - 1]) continue;
-      const prev = wins[ci - 1], w = wins[ci];
+      const prev = wins[ci - 1],
+        w = wins[ci];
       if (prev.b < w.a) continue;
-      const p = polarities[classes[ci].name], pp = polarities[classes[ci - 1].name];
+      const p = polarities[classes[ci].name],
+        pp = polarities[classes[ci - 1].name];
       let p1 = prev.a;
       for (let i = prev.a; i <= Math.min(prev.b, n - 1); i++) if (pp * smooth[i] > pp * smooth[p1]) p1 = i;
       let p2 = Math.max(w.a, p1 + 1);
@@ -547,7 +729,19 @@ export function measureComponents(set: SweepSet, options: ComponentOptions = {})
       // waveform that rises before the arrival): its crossings are looked for back to the earliest time analysed
       const a = ci === 0 ? Math.min(w.a, info[s].fitStart) : w.a;
       if (b - w.a < 2 || w.a >= n) {
-        rows.push({ ...cond, sweep: s, class: c.name, detected: false, status: 'window outside the sweep', reason: `the class window (${tAt(w.a).toFixed(3)}-${tAt(w.b).toFixed(3)} ms) is outside the sweep`, polarity: p, polarity_source: polaritySource[c.name], distance_mm: L, temperature_C: T ?? null, separation: 'window' });
+        rows.push({
+          ...cond,
+          sweep: s,
+          class: c.name,
+          detected: false,
+          status: 'window outside the sweep',
+          reason: `the class window (${tAt(w.a).toFixed(3)}-${tAt(w.b).toFixed(3)} ms) is outside the sweep`,
+          polarity: p,
+          polarity_source: polaritySource[c.name],
+          distance_mm: L,
+          temperature_C: T ?? null,
+          separation: 'window',
+        });
         ms[ci] = null as unknown as ResponseMeasure;
         done[ci] = true;
         continue;
@@ -556,8 +750,19 @@ export function measureComponents(set: SweepSet, options: ComponentOptions = {})
       const floor = floors[ci];
       const y = new Float64Array(b - a + 1);
       const endLevel = floor !== 0 && p * smooth[b] > 0 ? smooth[b] : 0;
-      for (let i = a; i <= b; i++) y[i - a] = x[i] - (floor !== 0 ? floor + ((endLevel - floor) * (i - a)) / Math.max(1, b - a) : 0);
-      emit(ci, y, a, b, 'window', sepReason[ci] ? 'not resolved' : null, sepReason[ci], { [`trough_level_${u}`]: floor }, w.a - a);
+      for (let i = a; i <= b; i++)
+        y[i - a] = x[i] - (floor !== 0 ? floor + ((endLevel - floor) * (i - a)) / Math.max(1, b - a) : 0);
+      emit(
+        ci,
+        y,
+        a,
+        b,
+        'window',
+        sepReason[ci] ? 'not resolved' : null,
+        sepReason[ci],
+        { [`trough_level_${u}`]: floor },
+        w.a - a,
+      );
     }
     measures.push(ms);
   }
@@ -565,25 +770,60 @@ export function measureComponents(set: SweepSet, options: ComponentOptions = {})
   const order = new Map(classes.map((c, i) => [c.name, i]));
   rows.sort((r1, r2) => r1.sweep - r2.sweep || order.get(r1.class)! - order.get(r2.class)!);
   return {
-    rows, measures,
+    rows,
+    measures,
     resolved: {
-      preset, classes, k, polarity: polarities[classes[0].name], polarities, polaritySource, utilisationMs: util, q10, tailFraction, tailMs,
-      noiseWindow, earliestMs: earliest, distanceMm: options.distanceMm ?? null, temperatureC: options.temperatureC ?? null,
-      onsetFraction, centroidFraction, separation, decomposeBy,
+      preset,
+      classes,
+      k,
+      polarity: polarities[classes[0].name],
+      polarities,
+      polaritySource,
+      utilisationMs: util,
+      q10,
+      tailFraction,
+      tailMs,
+      noiseWindow,
+      earliestMs: earliest,
+      distanceMm: options.distanceMm ?? null,
+      temperatureC: options.temperatureC ?? null,
+      onsetFraction,
+      centroidFraction,
+      separation,
+      decomposeBy,
     },
   };
 }
 
-export function componentStep(r: ResolvedComponentOptions): { verb: string; options: Record<string, unknown>; version: string } {
+export function componentStep(r: ResolvedComponentOptions): {
+  verb: string;
+  options: Record<string, unknown>;
+  version: string;
+} {
   return {
     verb: 'components',
     options: {
-      preset: r.preset.name, presetSource: r.preset.source, refTemperatureC: r.preset.refTemperatureC,
+      preset: r.preset.name,
+      presetSource: r.preset.source,
+      refTemperatureC: r.preset.refTemperatureC,
       classes: r.classes.map((c) => ({ name: c.name, velocity: c.velocity })),
-      q10: r.q10, k: r.k, polarity: r.polarity, utilisationMs: r.utilisationMs, tailFraction: r.tailFraction, tailMs: r.tailMs,
-      noiseWindow: r.noiseWindow, earliestMs: r.earliestMs, distanceMm: r.distanceMm, temperatureC: r.temperatureC,
-      polarities: r.polarities, polaritySource: r.polaritySource, onsetFraction: r.onsetFraction, centroidFraction: r.centroidFraction,
-      separation: r.separation, decomposeBy: r.decomposeBy, latencyDefinitions: componentLatencyText(r.onsetFraction, r.centroidFraction),
+      q10: r.q10,
+      k: r.k,
+      polarity: r.polarity,
+      utilisationMs: r.utilisationMs,
+      tailFraction: r.tailFraction,
+      tailMs: r.tailMs,
+      noiseWindow: r.noiseWindow,
+      earliestMs: r.earliestMs,
+      distanceMm: r.distanceMm,
+      temperatureC: r.temperatureC,
+      polarities: r.polarities,
+      polaritySource: r.polaritySource,
+      onsetFraction: r.onsetFraction,
+      centroidFraction: r.centroidFraction,
+      separation: r.separation,
+      decomposeBy: r.decomposeBy,
+      latencyDefinitions: componentLatencyText(r.onsetFraction, r.centroidFraction),
     },
     version: VERSION,
   };

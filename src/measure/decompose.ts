@@ -69,12 +69,22 @@ export interface SharedShape {
 
 /** Columns of the design for one distance: s shifted to each bin's arrival, on samples [r0, r1]. */
 function design(
-  s: Float64Array, sLead: number, u: Float64Array, x: number, g: DecomposeGrid, r0: number, r1: number,
-  sStep = 1, ref: number | null = null,
+  s: Float64Array,
+  sLead: number,
+  u: Float64Array,
+  x: number,
+  g: DecomposeGrid,
+  r0: number,
+  r1: number,
+  sStep = 1,
+  ref: number | null = null,
 ): { M: Float64Array; lo: Int32Array; hi: Int32Array } {
-  const nt = r1 - r0 + 1, nu = u.length, ns = s.length;
+  const nt = r1 - r0 + 1,
+    nu = u.length,
+    ns = s.length;
   const M = new Float64Array(nt * nu);
-  const lo = new Int32Array(nu), hi = new Int32Array(nu);
+  const lo = new Int32Array(nu),
+    hi = new Int32Array(nu);
   const at = (jf: number) => {
     const j0 = Math.floor(jf);
     if (j0 < -1 || j0 >= ns) return 0;
@@ -86,9 +96,10 @@ function design(
     // (reference contact at `ref` mm) sees the difference of the two contacts
     const shift = (x * u[k] - g.t0Ms) / g.dtMs;
     const shiftRef = ref === null ? 0 : (ref * u[k] - g.t0Ms) / g.dtMs;
-    let first = nt, last = -1;
+    let first = nt,
+      last = -1;
     for (let i = 0; i < nt; i++) {
-      const v = at(((r0 + i) - shift) / sStep + sLead) - (ref === null ? 0 : at(((r0 + i) - shiftRef) / sStep + sLead));
+      const v = at((r0 + i - shift) / sStep + sLead) - (ref === null ? 0 : at((r0 + i - shiftRef) / sStep + sLead));
       if (v !== 0) {
         M[i * nu + k] = v;
         if (i < first) first = i;
@@ -107,7 +118,12 @@ function design(
  * R. J. Hanson, Solving Least Squares Problems, Prentice-Hall 1974, ch. 23 (the algorithm of scipy.optimize.nnls).
  */
 export function nnlsGram(
-  G: Float64Array, b: Float64Array, n: number, free: number, x: Float64Array, maxIter = 3 * n,
+  G: Float64Array,
+  b: Float64Array,
+  n: number,
+  free: number,
+  x: Float64Array,
+  maxIter = 3 * n,
 ): Float64Array {
   // warm start: the positive entries of x (a feasible point) form the first passive set
   const passive = new Uint8Array(n);
@@ -118,7 +134,8 @@ export function nnlsGram(
     const idx: number[] = [];
     for (let i = 0; i < n; i++) if (passive[i]) idx.push(i);
     const m = idx.length;
-    const A = new Float64Array(m * m), r = new Float64Array(m);
+    const A = new Float64Array(m * m),
+      r = new Float64Array(m);
     for (let a = 0; a < m; a++) {
       r[a] = b[idx[a]];
       for (let c = 0; c < m; c++) A[a * m + c] = G[idx[a] * n + idx[c]];
@@ -143,25 +160,39 @@ export function nnlsGram(
           if (a < alpha) alpha = a;
         }
       }
-      if (alpha === Infinity) { x.set(z); return true; }
+      if (alpha === Infinity) {
+        x.set(z);
+        return true;
+      }
       for (let i = 0; i < n; i++) x[i] += alpha * (z[i] - x[i]);
-      for (let i = 0; i < n - free; i++) if (passive[i] && x[i] <= 1e-15 * (scale || 1)) { passive[i] = 0; x[i] = 0; }
+      for (let i = 0; i < n - free; i++)
+        if (passive[i] && x[i] <= 1e-15 * (scale || 1)) {
+          passive[i] = 0;
+          x[i] = 0;
+        }
     }
     return true;
   };
   if (free > 0 || warm) inner();
   for (let it = 0; it < maxIter; it++) {
     // gradient of the objective's negative: w = b - G x
-    let best = -1, bw = tol;
+    let best = -1,
+      bw = tol;
     for (let i = 0; i < n - free; i++) {
       if (passive[i]) continue;
       let w = b[i];
       for (let j = 0; j < n; j++) w -= G[i * n + j] * x[j];
-      if (w > bw) { bw = w; best = i; }
+      if (w > bw) {
+        bw = w;
+        best = i;
+      }
     }
     if (best < 0) break;
     passive[best] = 1;
-    if (!inner()) { passive[best] = 0; return x; }
+    if (!inner()) {
+      passive[best] = 0;
+      return x;
+    }
   }
   return x;
 }
@@ -198,12 +229,18 @@ function spdSolve(A: Float64Array, b: Float64Array, n: number): Float64Array | n
 /** Add lambda x (second-difference penalty) to the top-left m x m block of an n x n matrix. */
 function addSecondDifference(G: Float64Array, n: number, m: number, lambda: number): void {
   for (let r = 0; r + 2 < m; r++) {
-    const idx = [r, r + 1, r + 2], c = [1, -2, 1];
+    const idx = [r, r + 1, r + 2],
+      c = [1, -2, 1];
     for (let a = 0; a < 3; a++) for (let b = 0; b < 3; b++) G[idx[a] * n + idx[b]] += lambda * c[a] * c[b];
   }
 }
 
-interface WFit { W: Float64Array; nuis: Float64Array; rss: number; n: number }
+interface WFit {
+  W: Float64Array;
+  nuis: Float64Array;
+  rss: number;
+  n: number;
+}
 
 /**
  * Nuisance terms of a trace whose amplifier clipped on the stimulus artifact: the artifact's decay from the end of
@@ -219,18 +256,32 @@ function nuisanceBasis(tMs: number, j: number, fromMs: number | null): number {
 
 /** Weights W (>= 0) and offset/drift for one trace, s fixed. */
 function solveWeights(
-  M: Float64Array, lo: Int32Array, hi: Int32Array, nt: number, nu: number, y: Float64Array, keep: Uint8Array,
-  tc: Float64Array, lambdaW: number, prior: Float64Array | undefined, art: number | null, priorWeight = 0.02,
+  M: Float64Array,
+  lo: Int32Array,
+  hi: Int32Array,
+  nt: number,
+  nu: number,
+  y: Float64Array,
+  keep: Uint8Array,
+  tc: Float64Array,
+  lambdaW: number,
+  prior: Float64Array | undefined,
+  art: number | null,
+  priorWeight = 0.02,
 ): WFit {
   const n = nu + NB;
-  const G = new Float64Array(n * n), b = new Float64Array(n);
+  const G = new Float64Array(n * n),
+    b = new Float64Array(n);
   const col = (i: number, k: number) => (k < nu ? M[i * nu + k] : nuisanceBasis(tc[i], k - nu, art));
   for (let k = 0; k < n; k++) {
-    const ka = k < nu ? lo[k] : 0, kb = k < nu ? hi[k] : nt - 1;
+    const ka = k < nu ? lo[k] : 0,
+      kb = k < nu ? hi[k] : nt - 1;
     if (kb < ka) continue;
     for (let l = k; l < n; l++) {
-      const la = l < nu ? lo[l] : 0, lb = l < nu ? hi[l] : nt - 1;
-      const a = Math.max(ka, la), e = Math.min(kb, lb);
+      const la = l < nu ? lo[l] : 0,
+        lb = l < nu ? hi[l] : nt - 1;
+      const a = Math.max(ka, la),
+        e = Math.min(kb, lb);
       let s = 0;
       for (let i = a; i <= e; i++) if (keep[i]) s += col(i, k) * col(i, l);
       G[k * n + l] = s;
@@ -243,14 +294,20 @@ function solveWeights(
   let tr = 0;
   for (let k = 0; k < nu; k++) tr += G[k * n + k];
   addSecondDifference(G, n, nu, (lambdaW * tr) / nu);
-  for (let k = 0; k < n; k++) G[k * n + k] += 1e-9 * (tr / nu) + (k >= nu ? (art !== null ? 1e-9 : 1e6) * (tr / nu || 1) : 0);
+  for (let k = 0; k < n; k++)
+    G[k * n + k] += 1e-9 * (tr / nu) + (k >= nu ? (art !== null ? 1e-9 : 1e6) * (tr / nu || 1) : 0);
   // a ridge towards the group's weights: bins the trace cannot see (arrivals in excluded samples) keep the group's value
   const mu = (priorWeight * tr) / nu;
-  if (prior) for (let k = 0; k < nu; k++) { G[k * n + k] += mu; b[k] += mu * prior[k]; }
+  if (prior)
+    for (let k = 0; k < nu; k++) {
+      G[k * n + k] += mu;
+      b[k] += mu * prior[k];
+    }
   const x = new Float64Array(n);
   if (prior) x.set(prior.subarray(0, nu));
   nnlsGram(G, b, n, NB, x);
-  let rss = 0, cnt = 0;
+  let rss = 0,
+    cnt = 0;
   for (let i = 0; i < nt; i++) {
     if (!keep[i]) continue;
     let m = 0;
@@ -276,7 +333,11 @@ export interface DecomposeOptions {
  * Fit the shared single-fiber waveform s and the velocity distribution W to the mean
  * traces of one group (two or more distances). Returns null when fewer than two distances.
  */
-export function fitSharedShape(traces: DecomposeTrace[], g: DecomposeGrid, opts: DecomposeOptions = {}): SharedShape | null {
+export function fitSharedShape(
+  traces: DecomposeTrace[],
+  g: DecomposeGrid,
+  opts: DecomposeOptions = {},
+): SharedShape | null {
   const dists = [...new Set(traces.map((t) => t.distanceMm))].sort((a, b) => a - b);
   // two sites are needed: two distances, or one bipolar recording (two contacts)
   if (dists.length < 2 && !traces.some((t) => typeof t.referenceMm === 'number')) return null;
@@ -300,8 +361,18 @@ export function fitSharedShape(traces: DecomposeTrace[], g: DecomposeGrid, opts:
     for (const t of members) for (let i = 0; i < nt; i++) y[i] += t.y[r0 + i] / members.length;
     const keep = new Uint8Array(nt).fill(1);
     if (g.excluded) for (let i = 0; i < nt; i++) if (g.excluded(r0 + i, x)) keep[i] = 0;
-    const tc = Float64Array.from({ length: nt }, (_, i) => (g.t0Ms + (r0 + i) * g.dtMs));
-    return { x, r0, r1, nt, y, keep, tc, art: g.artifactFromMs ? g.artifactFromMs(x) : null, ref: members[0]?.referenceMm ?? null };
+    const tc = Float64Array.from({ length: nt }, (_, i) => g.t0Ms + (r0 + i) * g.dtMs);
+    return {
+      x,
+      r0,
+      r1,
+      nt,
+      y,
+      keep,
+      tc,
+      art: g.artifactFromMs ? g.artifactFromMs(x) : null,
+      ref: members[0]?.referenceMm ?? null,
+    };
   });
   // start: s = the nearest site's mean trace from its largest deflection back by a quarter of the lead,
   // i.e. the compound response itself, which is s convolved with a narrow W for the fastest class
@@ -319,21 +390,26 @@ export function fitSharedShape(traces: DecomposeTrace[], g: DecomposeGrid, opts:
   for (; it < iterations; it++) {
     // W step: one W and a separate offset/drift per distance, jointly (stacked normal equations)
     const n = nu + NB * per.length;
-    const G = new Float64Array(n * n), b = new Float64Array(n);
+    const G = new Float64Array(n * n),
+      b = new Float64Array(n);
     const Ms = per.map((p) => design(s, sLead, u, p.x, g, p.r0, p.r1, sStep, p.ref));
     per.forEach((p, pi) => {
       const { M, lo, hi } = Ms[pi];
       const own = (k: number) => k >= nu + NB * pi && k < nu + NB * (pi + 1);
-      const cols = (i: number, k: number) => (k < nu ? M[i * nu + k] : own(k) ? nuisanceBasis(p.tc[i], k - nu - NB * pi, p.art) : 0);
+      const cols = (i: number, k: number) =>
+        k < nu ? M[i * nu + k] : own(k) ? nuisanceBasis(p.tc[i], k - nu - NB * pi, p.art) : 0;
       const active = (k: number) => k < nu || own(k);
       for (let k = 0; k < n; k++) {
         if (!active(k)) continue;
-        const ka = k < nu ? lo[k] : 0, kb = k < nu ? hi[k] : p.nt - 1;
+        const ka = k < nu ? lo[k] : 0,
+          kb = k < nu ? hi[k] : p.nt - 1;
         if (kb < ka) continue;
         for (let l = k; l < n; l++) {
           if (!active(l)) continue;
-          const la = l < nu ? lo[l] : 0, lb = l < nu ? hi[l] : p.nt - 1;
-          const a = Math.max(ka, la), e = Math.min(kb, lb);
+          const la = l < nu ? lo[l] : 0,
+            lb = l < nu ? hi[l] : p.nt - 1;
+          const a = Math.max(ka, la),
+            e = Math.min(kb, lb);
           let acc = 0;
           for (let i = a; i <= e; i++) if (p.keep[i]) acc += cols(i, k) * cols(i, l);
           G[k * n + l] += acc;
@@ -358,13 +434,20 @@ export function fitSharedShape(traces: DecomposeTrace[], g: DecomposeGrid, opts:
     warm[0] = x;
     const nuis = x.subarray(nu);
     // s step: y - offset - drift = B s, B[i, j] = sum_k W_k phi(i - shift_k - j)
-    const H = new Float64Array(ns * ns), c = new Float64Array(ns);
-    let rss = 0, cnt = 0;
+    const H = new Float64Array(ns * ns),
+      c = new Float64Array(ns);
+    let rss = 0,
+      cnt = 0;
     per.forEach((p, pi) => {
       const B = new Float64Array(p.nt * ns);
       for (let k = 0; k < nu; k++) {
         if (W[k] === 0) continue;
-        for (const [site, sign] of (p.ref === null ? [[p.x, 1]] : [[p.x, 1], [p.ref, -1]]) as [number, number][]) {
+        for (const [site, sign] of (p.ref === null
+          ? [[p.x, 1]]
+          : [
+              [p.x, 1],
+              [p.ref, -1],
+            ]) as [number, number][]) {
           const shift = (site * u[k] - g.t0Ms) / g.dtMs;
           for (let i = 0; i < p.nt; i++) {
             const jf = (p.r0 + i - shift) / sStep + sLead;
@@ -427,11 +510,17 @@ export interface TraceDecomposition {
 
 /** Decompose one trace with a fixed shared shape; `bins` are [first, last] u-bin indices per class. */
 export function decomposeTrace(
-  y: ArrayLike<number>, x: number, shape: SharedShape, g: DecomposeGrid, bins: [number, number][],
-  opts: DecomposeOptions = {}, ref: number | null = null,
+  y: ArrayLike<number>,
+  x: number,
+  shape: SharedShape,
+  g: DecomposeGrid,
+  bins: [number, number][],
+  opts: DecomposeOptions = {},
+  ref: number | null = null,
 ): TraceDecomposition {
   const [r0, r1] = g.range(x);
-  const nt = r1 - r0 + 1, nu = shape.u.length;
+  const nt = r1 - r0 + 1,
+    nu = shape.u.length;
   const { M, lo, hi } = design(shape.s, shape.sLead, shape.u, x, g, r0, r1, shape.sStep, ref);
   const yy = Float64Array.from({ length: nt }, (_, i) => y[r0 + i]);
   const keep = new Uint8Array(nt).fill(1);
@@ -453,7 +542,15 @@ export function decomposeTrace(
     for (let j = 0; j < NB; j++) v += f.nuis[j] * nuisanceBasis(t, j, art);
     return v;
   });
-  return { components, r0, r1, W: Float64Array.from(f.W), nuisance, fitted: keep, rms: Math.sqrt(f.rss / Math.max(1, f.n)) };
+  return {
+    components,
+    r0,
+    r1,
+    W: Float64Array.from(f.W),
+    nuisance,
+    fitted: keep,
+    rms: Math.sqrt(f.rss / Math.max(1, f.n)),
+  };
 }
 
 /**
@@ -463,17 +560,25 @@ export function decomposeTrace(
  * Returns null when one side has no mode.
  */
 export function valleyBin(
-  W: Float64Array, u: Float64Array, fastZone: [number, number], slowZone: [number, number],
+  W: Float64Array,
+  u: Float64Array,
+  fastZone: [number, number],
+  slowZone: [number, number],
 ): { bin: number; depth: number; fastMode: number; slowMode: number } | null {
   const n = W.length;
   const sm = Float64Array.from({ length: n }, (_, k) => {
-    let s = 0, c = 0;
-    for (let j = Math.max(0, k - 2); j <= Math.min(n - 1, k + 2); j++) { s += W[j]; c++; }
+    let s = 0,
+      c = 0;
+    for (let j = Math.max(0, k - 2); j <= Math.min(n - 1, k + 2); j++) {
+      s += W[j];
+      c++;
+    }
     return s / c;
   });
   // zones in slowness: fast classes have small u
   const inZone = (k: number, z: [number, number]) => u[k] >= 1 / z[1] && u[k] <= 1 / z[0];
-  let fm = -1, sMode = -1;
+  let fm = -1,
+    sMode = -1;
   for (let k = 0; k < n; k++) {
     if (inZone(k, fastZone) && (fm < 0 || sm[k] > sm[fm])) fm = k;
     if (inZone(k, slowZone) && (sMode < 0 || sm[k] > sm[sMode])) sMode = k;

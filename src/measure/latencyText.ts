@@ -13,22 +13,28 @@ export function onsetColumn(fraction: number): string {
  * What each latency column means, in methods-text wording (for src/report/methods.ts and the README).
  * @example componentLatencyText(0.1, 0.1).onset // 'onset latency (onset10_ms): ...'
  */
-export function componentLatencyText(onsetFraction = 0.1, centroidFraction = 0.1): Record<'onset' | 'halfrise' | 'peak' | 'centroid', string> {
+export function componentLatencyText(
+  onsetFraction = 0.1,
+  centroidFraction = 0.1,
+): Record<'onset' | 'halfrise' | 'peak' | 'centroid', string> {
   const pc = (f: number) => `${+(f * 100).toFixed(1)}%`;
   return {
     onset: `onset latency (${onsetColumn(onsetFraction)}): the time at which the class's own component first reaches ${pc(onsetFraction)} of its own peak, found by searching backwards from the peak and interpolating linearly between samples`,
-    halfrise: 'half-rise latency (halfrise_ms): the time at which the rising phase of the class\'s own component crosses 50% of its own peak, interpolated linearly between samples',
-    peak: 'peak latency (peak_ms): the time of the maximum of the class\'s own component on its main phase, refined by a parabola through the three samples around it',
+    halfrise:
+      "half-rise latency (halfrise_ms): the time at which the rising phase of the class's own component crosses 50% of its own peak, interpolated linearly between samples",
+    peak: "peak latency (peak_ms): the time of the maximum of the class's own component on its main phase, refined by a parabola through the three samples around it",
     centroid: `centroid latency (centroid_ms): the centre of mass of the class's own component over the contiguous span around its peak where it exceeds ${pc(centroidFraction)} of its own peak (bounds centroid_from_ms, centroid_to_ms)`,
   };
 }
 
 /** One paragraph of methods text for the latency definitions and the separation of classes. */
-export function latencyMethodsText(r: Pick<ResolvedComponentOptions, 'onsetFraction' | 'centroidFraction' | 'separation' | 'k'>): string {
+export function latencyMethodsText(
+  r: Pick<ResolvedComponentOptions, 'onsetFraction' | 'centroidFraction' | 'separation' | 'k'>,
+): string {
   const d = componentLatencyText(r.onsetFraction, r.centroidFraction);
-  const sep = r.separation === 'trough'
-    ? 'Overlapping classes were split at the trough between their peaks; a class without a peak of its own was reported as not resolved.'
-    : 'Overlapping classes recorded at two or more conduction distances were separated by decomposing the responses into a conduction-velocity distribution (non-negative weights) and one single-fiber waveform shared by every distance of a preparation and temperature, fitted by alternating least squares; classes were split at the deepest valley of the velocity distribution between their ranges and each class was measured on its own modelled component. A class without a separate mode was reported as not resolved. With a single distance, classes were split at the trough between their peaks.';
+  const sep =
+    r.separation === 'trough'
+      ? 'Overlapping classes were split at the trough between their peaks; a class without a peak of its own was reported as not resolved.'
+      : 'Overlapping classes recorded at two or more conduction distances were separated by decomposing the responses into a conduction-velocity distribution (non-negative weights) and one single-fiber waveform shared by every distance of a preparation and temperature, fitted by alternating least squares; classes were split at the deepest valley of the velocity distribution between their ranges and each class was measured on its own modelled component. A class without a separate mode was reported as not resolved. With a single distance, classes were split at the trough between their peaks.';
   return `${sep} Latencies were measured on each class's own component with the same definitions at every distance: ${d.onset}; ${d.halfrise}; ${d.peak}; ${d.centroid}. A class counted as present when its component's peak exceeded max(${r.k}, z) times the noise (z the normal quantile at 1 - 0.01/N for N samples searched); this test decided detection only.`;
 }
-

@@ -29,7 +29,9 @@ function median(sorted: Float64Array): number {
  */
 export function parabolicPeak(y: ArrayLike<number>, i: number): { index: number; value: number } {
   if (i <= 0 || i >= y.length - 1) return { index: i, value: y[i] };
-  const ym = y[i - 1], y0 = y[i], yp = y[i + 1];
+  const ym = y[i - 1],
+    y0 = y[i],
+    yp = y[i + 1];
   const den = ym - 2 * y0 + yp;
   if (den === 0) return { index: i, value: y0 };
   const d = Math.max(-0.5, Math.min(0.5, (0.5 * (ym - yp)) / den));
@@ -76,15 +78,26 @@ export interface ResponseMeasure {
  * Measure the response in x[a..b] with polarity p (or 'auto': the larger of the
  * positive and negative extremes) and detection level k x noise.
  */
-export function measureResponse(x: ArrayLike<number>, a: number, b: number, noise: number, k: number, polarity: 1 | -1 | 'auto'): ResponseMeasure {
-  let imax = a, imin = a;
+export function measureResponse(
+  x: ArrayLike<number>,
+  a: number,
+  b: number,
+  noise: number,
+  k: number,
+  polarity: 1 | -1 | 'auto',
+): ResponseMeasure {
+  let imax = a,
+    imin = a;
   for (let i = a; i <= b; i++) {
     if (x[i] > x[imax]) imax = i;
     if (x[i] < x[imin]) imin = i;
   }
   const p: 1 | -1 = polarity === 'auto' ? (Math.abs(x[imax]) >= Math.abs(x[imin]) ? 1 : -1) : polarity;
   const ip = p === 1 ? imax : imin;
-  const three = ip > 0 && ip < x.length - 1 ? parabolicPeak([p * x[ip - 1], p * x[ip], p * x[ip + 1]], 1) : { index: 1, value: p * x[ip] };
+  const three =
+    ip > 0 && ip < x.length - 1
+      ? parabolicPeak([p * x[ip - 1], p * x[ip], p * x[ip + 1]], 1)
+      : { index: 1, value: p * x[ip] };
   const pk = { index: ip - 1 + three.index, value: three.value };
   const peakVal = p * pk.value;
   const level = k * noise;
@@ -109,8 +122,12 @@ export function measureResponse(x: ArrayLike<number>, a: number, b: number, nois
   let h2 = ip;
   while (h2 < b && y(h2 + 1) > half) h2++;
   const halfFall = h2 < b ? crossing(y, h2, h2 + 1, half) : b;
-  let area = 0, rect = 0, mom = 0, w = 0;
-  const s0 = Math.max(a, Math.ceil(onsetIndex)), s1 = Math.min(b, Math.floor(offsetIndex));
+  let area = 0,
+    rect = 0,
+    mom = 0,
+    w = 0;
+  const s0 = Math.max(a, Math.ceil(onsetIndex)),
+    s1 = Math.min(b, Math.floor(offsetIndex));
   for (let q = s0; q <= s1; q++) {
     area += x[q];
     rect += Math.abs(x[q]);
@@ -119,9 +136,21 @@ export function measureResponse(x: ArrayLike<number>, a: number, b: number, nois
     w += yq;
   }
   return {
-    polarity: p, window: [a, b], noise, level, detected,
-    peakIndex: pk.index, peak: peakVal, centroidIndex: w > 0 ? mom / w : pk.index, onsetIndex, offsetIndex, halfRise, halfFall,
-    peakToPeak: x[imax] - x[imin], areaSamples: area, rectifiedAreaSamples: rect,
+    polarity: p,
+    window: [a, b],
+    noise,
+    level,
+    detected,
+    peakIndex: pk.index,
+    peak: peakVal,
+    centroidIndex: w > 0 ? mom / w : pk.index,
+    onsetIndex,
+    offsetIndex,
+    halfRise,
+    halfFall,
+    peakToPeak: x[imax] - x[imin],
+    areaSamples: area,
+    rectifiedAreaSamples: rect,
   };
 }
 
@@ -139,7 +168,8 @@ export function onsetBefore(x: ArrayLike<number>, from: number, lo: number, leve
 
 /** Fractional index between i0 and i1 where y crosses level (linear interpolation). */
 function crossing(y: (i: number) => number, i0: number, i1: number, level: number): number {
-  const y0 = y(i0), y1 = y(i1);
+  const y0 = y(i0),
+    y1 = y(i1);
   if (y1 === y0) return i1;
   return i0 + (level - y0) / (y1 - y0);
 }
@@ -149,10 +179,18 @@ function crossing(y: (i: number) => number, i0: number, i1: number, level: numbe
  * sum_i a[i] b[i + L] over lags in [minLag, maxLag], refined by a parabola through
  * the three correlation values around the best integer lag.
  */
-export function xcorrDelay(a: ArrayLike<number>, b: ArrayLike<number>, minLag: number, maxLag: number): { lag: number; r: number } {
-  let best = -Infinity, bestLag = minLag;
-  const na = a.length, nb = b.length;
-  let ea = 0, eb = 0;
+export function xcorrDelay(
+  a: ArrayLike<number>,
+  b: ArrayLike<number>,
+  minLag: number,
+  maxLag: number,
+): { lag: number; r: number } {
+  let best = -Infinity,
+    bestLag = minLag;
+  const na = a.length,
+    nb = b.length;
+  let ea = 0,
+    eb = 0;
   for (let i = 0; i < na; i++) ea += a[i] * a[i];
   for (let i = 0; i < nb; i++) eb += b[i] * b[i];
   const nLags = maxLag - minLag + 1;
@@ -166,16 +204,22 @@ export function xcorrDelay(a: ArrayLike<number>, b: ArrayLike<number>, minLag: n
   } else {
     for (let L = minLag; L <= maxLag; L++) {
       let s = 0;
-      const i0 = Math.max(0, -L), i1 = Math.min(na, nb - L);
+      const i0 = Math.max(0, -L),
+        i1 = Math.min(na, nb - L);
       for (let i = i0; i < i1; i++) s += a[i] * b[i + L];
       vals[L - minLag] = s;
     }
   }
-  for (let k = 0; k < nLags; k++) if (vals[k] > best) { best = vals[k]; bestLag = k + minLag; }
+  for (let k = 0; k < nLags; k++)
+    if (vals[k] > best) {
+      best = vals[k];
+      bestLag = k + minLag;
+    }
   const k = bestLag - minLag;
   let lag = bestLag;
   if (k > 0 && k < nLags - 1) {
-    const ym = vals[k - 1], yp = vals[k + 1];
+    const ym = vals[k - 1],
+      yp = vals[k + 1];
     const den = ym - 2 * best + yp;
     if (den < 0) lag = bestLag + Math.max(-0.5, Math.min(0.5, (0.5 * (ym - yp)) / den));
   }
@@ -185,10 +229,12 @@ export function xcorrDelay(a: ArrayLike<number>, b: ArrayLike<number>, minLag: n
 /** c[L] = sum_i a[i] b[i + L] for every lag, by FFT of size N >= len(a) + len(b) (negative lags at N + L). */
 export function crossCorrelationFft(a: ArrayLike<number>, b: ArrayLike<number>, N: number): Float64Array {
   const f = new FFT(N);
-  const ra = new Float64Array(N), rb = new Float64Array(N);
+  const ra = new Float64Array(N),
+    rb = new Float64Array(N);
   for (let i = 0; i < a.length; i++) ra[i] = a[i];
   for (let i = 0; i < b.length; i++) rb[i] = b[i];
-  const A = f.createComplexArray() as number[], B = f.createComplexArray() as number[];
+  const A = f.createComplexArray() as number[],
+    B = f.createComplexArray() as number[];
   f.realTransform(A, ra);
   f.completeSpectrum(A);
   f.realTransform(B, rb);
@@ -196,7 +242,10 @@ export function crossCorrelationFft(a: ArrayLike<number>, b: ArrayLike<number>, 
   // conj(A) x B
   const C = f.createComplexArray() as number[];
   for (let k = 0; k < 2 * N; k += 2) {
-    const ar = A[k], ai = A[k + 1], br = B[k], bi = B[k + 1];
+    const ar = A[k],
+      ai = A[k + 1],
+      br = B[k],
+      bi = B[k + 1];
     C[k] = ar * br + ai * bi;
     C[k + 1] = ar * bi - ai * br;
   }
@@ -236,10 +285,22 @@ export interface OwnLatencies {
  * y[a..b], the crossings in y[lo..hi] (lo <= a, hi >= b: a wave may start before its window).
  * @example ownLatencies(Float64Array.from({ length: 41 }, (_, i) => Math.exp(-0.5 * ((i - 20) / 4) ** 2)), 0, 40).peakIndex // 20
  */
-export function ownLatencies(y: ArrayLike<number>, a: number, b: number, onsetFraction = 0.1, centroidFraction = 0.1, lo = a, hi = b): OwnLatencies {
+export function ownLatencies(
+  y: ArrayLike<number>,
+  a: number,
+  b: number,
+  onsetFraction = 0.1,
+  centroidFraction = 0.1,
+  lo = a,
+  hi = b,
+): OwnLatencies {
   let ip = a;
   for (let i = a; i <= b; i++) if (y[i] > y[ip]) ip = i;
-  const localMax = (ip > 0 ? y[ip - 1] <= y[ip] : true) && (ip < y.length - 1 ? y[ip + 1] <= y[ip] : true) && ip > 0 && ip < y.length - 1;
+  const localMax =
+    (ip > 0 ? y[ip - 1] <= y[ip] : true) &&
+    (ip < y.length - 1 ? y[ip + 1] <= y[ip] : true) &&
+    ip > 0 &&
+    ip < y.length - 1;
   const pk = ip > a && ip < b ? parabolicPeak(y, ip) : { index: ip, value: y[ip] };
   const P = pk.value;
   const yf = (i: number) => y[i];
@@ -253,16 +314,42 @@ export function ownLatencies(y: ArrayLike<number>, a: number, b: number, onsetFr
     while (j < hi && y[j + 1] > level) j++;
     return j < hi ? crossing(yf, j, j + 1, level) : null;
   };
-  if (!(P > 0)) return { peakIndex: pk.index, peak: P, onsetIndex: null, halfRiseIndex: null, halfFallIndex: null, centroidIndex: null, centroidFrom: null, centroidTo: null, localMax };
+  if (!(P > 0))
+    return {
+      peakIndex: pk.index,
+      peak: P,
+      onsetIndex: null,
+      halfRiseIndex: null,
+      halfFallIndex: null,
+      centroidIndex: null,
+      centroidFrom: null,
+      centroidTo: null,
+      localMax,
+    };
   const onset = back(onsetFraction * P);
   const half = back(0.5 * P);
   const halfFall = fwd(0.5 * P);
-  const cFrom = back(centroidFraction * P), cTo = fwd(centroidFraction * P);
+  const cFrom = back(centroidFraction * P),
+    cTo = fwd(centroidFraction * P);
   let centroid: number | null = null;
   if (cFrom !== null && cTo !== null) {
-    let m = 0, w = 0;
-    for (let q = Math.ceil(cFrom); q <= Math.floor(cTo); q++) { m += q * y[q]; w += y[q]; }
+    let m = 0,
+      w = 0;
+    for (let q = Math.ceil(cFrom); q <= Math.floor(cTo); q++) {
+      m += q * y[q];
+      w += y[q];
+    }
     centroid = w > 0 ? m / w : null;
   }
-  return { peakIndex: pk.index, peak: P, onsetIndex: onset, halfRiseIndex: half, halfFallIndex: halfFall, centroidIndex: centroid, centroidFrom: cFrom, centroidTo: cTo, localMax };
+  return {
+    peakIndex: pk.index,
+    peak: P,
+    onsetIndex: onset,
+    halfRiseIndex: half,
+    halfFallIndex: halfFall,
+    centroidIndex: centroid,
+    centroidFrom: cFrom,
+    centroidTo: cTo,
+    localMax,
+  };
 }

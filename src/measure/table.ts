@@ -1,8 +1,20 @@
 /** ComponentTable: per-sweep x per-class measurements, with velocity and threshold analyses. */
 import type { SweepSet, ConditionValue, Step } from '../sweeps/SweepSet';
-import { measureComponents, componentStep, type ComponentOptions, type ComponentRow, type ResolvedComponentOptions } from './components';
+import {
+  measureComponents,
+  componentStep,
+  type ComponentOptions,
+  type ComponentRow,
+  type ResolvedComponentOptions,
+} from './components';
 import type { ResponseMeasure } from './response';
-import { singleSiteVelocity, twoSiteVelocity, regressionVelocity, markRecommended, type VelocityRow } from '../analysis/velocity';
+import {
+  singleSiteVelocity,
+  twoSiteVelocity,
+  regressionVelocity,
+  markRecommended,
+  type VelocityRow,
+} from '../analysis/velocity';
 import { toFrame } from '../report/frame';
 import { tableHtml, tableText } from '../notebook/html';
 import { VERSION } from '../version';
@@ -27,7 +39,16 @@ export class ComponentTable extends Result {
   readonly resolved: ResolvedComponentOptions;
   readonly history: readonly Step[];
 
-  constructor(set: SweepSet, options: ComponentOptions = {}, precomputed?: { rows: readonly ComponentRow[]; measures: ResponseMeasure[][]; resolved: ResolvedComponentOptions; history: readonly Step[] }) {
+  constructor(
+    set: SweepSet,
+    options: ComponentOptions = {},
+    precomputed?: {
+      rows: readonly ComponentRow[];
+      measures: ResponseMeasure[][];
+      resolved: ResolvedComponentOptions;
+      history: readonly Step[];
+    },
+  ) {
     super();
     const r = precomputed ?? measureComponents(set, options);
     this.rows = r.rows;
@@ -39,8 +60,13 @@ export class ComponentTable extends Result {
 
   /** The rows matching a predicate (or condition values), as a table over the same sweeps. */
   subset(match: ((r: ComponentRow) => boolean) | Record<string, ConditionValue>): ComponentTable {
-    const pred = typeof match === 'function' ? match : (r: ComponentRow) => Object.entries(match).every(([k, v]) => r[k] === v);
-    return new ComponentTable(this.set, {}, { rows: this.rows.filter(pred), measures: this.measures, resolved: this.resolved, history: this.history });
+    const pred =
+      typeof match === 'function' ? match : (r: ComponentRow) => Object.entries(match).every(([k, v]) => r[k] === v);
+    return new ComponentTable(
+      this.set,
+      {},
+      { rows: this.rows.filter(pred), measures: this.measures, resolved: this.resolved, history: this.history },
+    );
   }
 
   /** Input files (with SHA-256) of the sweeps. */
@@ -78,7 +104,26 @@ export class ComponentTable extends Result {
     const single = singleSiteVelocity(this.rows, by, this.resolved);
     const two = twoSiteVelocity(this.set, this.rows, this.measures, this.resolved, by);
     const reg = regressionVelocity(this.rows, by, this.resolved);
-    return new VelocityResult(markRecommended([...single, ...two, ...reg], this.resolved.classes), by, this.set.sources, [...this.history, { verb: 'velocity', options: { by, methods: ['single-site (onset, peak)', 'two-site (cross-correlation, onset, peak)', 'regression of latency on distance'] }, version: VERSION }]);
+    return new VelocityResult(
+      markRecommended([...single, ...two, ...reg], this.resolved.classes),
+      by,
+      this.set.sources,
+      [
+        ...this.history,
+        {
+          verb: 'velocity',
+          options: {
+            by,
+            methods: [
+              'single-site (onset, peak)',
+              'two-site (cross-correlation, onset, peak)',
+              'regression of latency on distance',
+            ],
+          },
+          version: VERSION,
+        },
+      ],
+    );
   }
 
   /**
@@ -86,13 +131,18 @@ export class ComponentTable extends Result {
    * lowest stimulus intensity at which the class is detected in at least half of the sweeps.
    */
   threshold(options: { by?: string[] } = {}): Record<string, ConditionValue>[] {
-    const by = options.by ?? ['preparation', 'distanceMm', 'temperatureC', 'concentration', 'pulseWidthMs'].filter((k) => (k === 'pulseWidthMs' ? new Set(this.rows.map((r) => r[k])).size > 1 : this.set.conditions.some((c) => k in c)));
+    const by =
+      options.by ??
+      ['preparation', 'distanceMm', 'temperatureC', 'concentration', 'pulseWidthMs'].filter((k) =>
+        k === 'pulseWidthMs' ? new Set(this.rows.map((r) => r[k])).size > 1 : this.set.conditions.some((c) => k in c),
+      );
     const groups = new Map<string, ComponentRow[]>();
     for (const r of this.rows) {
       if (typeof r.intensity !== 'number') continue;
       const id = by.map((k) => r[k]).join('|') + '|' + r.class;
       const g = groups.get(id);
-      if (g) g.push(r); else groups.set(id, [r]);
+      if (g) g.push(r);
+      else groups.set(id, [r]);
     }
     const out: Record<string, ConditionValue>[] = [];
     for (const g of groups.values()) {
@@ -101,11 +151,26 @@ export class ComponentTable extends Result {
       let thr: number | null = null;
       for (const I of levels) {
         const at = g.filter((r) => r.intensity === I);
-        if (at.filter((r) => r.detected).length * 2 >= at.length) { thr = I; break; }
+        if (at.filter((r) => r.detected).length * 2 >= at.length) {
+          thr = I;
+          break;
+        }
       }
       const o: Record<string, ConditionValue> = {};
       for (const k of by) o[k] = g[0][k] ?? null;
-      out.push({ ...o, class: g[0].class, threshold: thr, intensityUnit: (g[0].intensityUnit as string) ?? null, levels: levels.length, note: thr === null ? 'not detected at any intensity' : thr === levels[0] ? 'detected at the lowest intensity: threshold may be lower' : null });
+      out.push({
+        ...o,
+        class: g[0].class,
+        threshold: thr,
+        intensityUnit: (g[0].intensityUnit as string) ?? null,
+        levels: levels.length,
+        note:
+          thr === null
+            ? 'not detected at any intensity'
+            : thr === levels[0]
+              ? 'detected at the lowest intensity: threshold may be lower'
+              : null,
+      });
     }
     return out;
   }
@@ -140,7 +205,8 @@ export class ComponentTable extends Result {
     if (!options.measure) {
       const keyOf = (r: ComponentRow) => `${r.preparation ?? ''}|${r.temperatureC}`;
       const dists = new Map<string, Set<unknown>>();
-      for (const r of this.rows) (dists.get(keyOf(r)) ?? dists.set(keyOf(r), new Set()).get(keyOf(r))!).add(r.distance_mm);
+      for (const r of this.rows)
+        (dists.get(keyOf(r)) ?? dists.set(keyOf(r), new Set()).get(keyOf(r))!).add(r.distance_mm);
       if (dists.size > 0 && [...dists.values()].every((s) => s.size >= 2)) {
         const by = ['preparation', 'temperatureC'].filter((k) => this.set.conditions.some((c) => k in c));
         return velocityTemperature(this.velocity({ by }).rows, this.history, this.set.sources);
@@ -169,18 +235,29 @@ export class ComponentTable extends Result {
   }
 
   toHTML(): string {
-    return tableHtml(this.rows as unknown as Record<string, unknown>[], { caption: `Fiber-class components: ${this.rows.length} rows (${this.classes.join(', ')})` });
+    return tableHtml(this.rows as unknown as Record<string, unknown>[], {
+      caption: `Fiber-class components: ${this.rows.length} rows (${this.classes.join(', ')})`,
+    });
   }
 
   toString(): string {
-    return `ComponentTable: ${this.set.nSweeps} sweeps x ${this.classes.length} classes (${this.classes.join(', ')})\n` + tableText(this.rows as unknown as Record<string, unknown>[], { columns: ['sweep', 'class', 'detected', 'onset_ms', 'peak_ms', `amplitude_${this.set.units}`, 'distance_mm'], maxRows: 12 });
+    return (
+      `ComponentTable: ${this.set.nSweeps} sweeps x ${this.classes.length} classes (${this.classes.join(', ')})\n` +
+      tableText(this.rows as unknown as Record<string, unknown>[], {
+        columns: ['sweep', 'class', 'detected', 'onset_ms', 'peak_ms', `amplitude_${this.set.units}`, 'distance_mm'],
+        maxRows: 12,
+      })
+    );
   }
-
-
 }
 
 export class VelocityResult extends Result {
-  constructor(readonly rows: readonly VelocityRow[], readonly by: string[], readonly sources: readonly import('../sweeps/SweepSet').Source[], readonly history: readonly Step[]) {
+  constructor(
+    readonly rows: readonly VelocityRow[],
+    readonly by: string[],
+    readonly sources: readonly import('../sweeps/SweepSet').Source[],
+    readonly history: readonly Step[],
+  ) {
     super();
   }
 
@@ -198,12 +275,17 @@ export class VelocityResult extends Result {
   }
 
   toHTML(): string {
-    return tableHtml(this.rows as unknown as Record<string, unknown>[], { caption: 'Conduction velocity per class (m/s, 95% CI)' });
+    return tableHtml(this.rows as unknown as Record<string, unknown>[], {
+      caption: 'Conduction velocity per class (m/s, 95% CI)',
+    });
   }
 
   toString(): string {
-    return 'VelocityResult\n' + tableText(this.rows as unknown as Record<string, unknown>[], { columns: ['method', 'basis', 'class', 'group', 'velocity_m_s', 'ci95_low_m_s', 'ci95_high_m_s', 'n'] });
+    return (
+      'VelocityResult\n' +
+      tableText(this.rows as unknown as Record<string, unknown>[], {
+        columns: ['method', 'basis', 'class', 'group', 'velocity_m_s', 'ci95_low_m_s', 'ci95_high_m_s', 'n'],
+      })
+    );
   }
-
-
 }

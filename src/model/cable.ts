@@ -79,56 +79,86 @@ export function simulateCable(o: CableOptions): CableResult {
   const dx = (o.dxMm ?? 0.1) / 10; // cm
   const dt = o.dtMs ?? 0.005;
   if (!(o.diameterUm > 0)) throw new OptionError(`invalid diameterUm: ${o.diameterUm}; must be > 0`);
-  if (!(dx > 0 && dx < L / 10)) throw new OptionError(`invalid dxMm: ${o.dxMm}; must be > 0 and below a tenth of the length`);
+  if (!(dx > 0 && dx < L / 10))
+    throw new OptionError(`invalid dxMm: ${o.dxMm}; must be > 0 and below a tenth of the length`);
   if (!(dt > 0 && dt <= 0.1)) throw new OptionError(`invalid dtMs: ${dt}; must be 0 < dt <= 0.1 ms`);
   const phi = hhPhi(o.temperatureC ?? 18.5);
   const N = Math.round(L / dx) + 1;
   const D = (1000 * d) / (4 * Ri) / (dx * dx); // uA/cm2 per mV between neighbours
   const rest = hhRest();
   const V = new Float64Array(N).fill(o.passive ? HH.EL : rest.V);
-  const m = new Float64Array(N).fill(rest.m), h = new Float64Array(N).fill(rest.h), n = new Float64Array(N).fill(rest.n);
+  const m = new Float64Array(N).fill(rest.m),
+    h = new Float64Array(N).fill(rest.h),
+    n = new Float64Array(N).fill(rest.n);
   const arrival = new Float64Array(N).fill(NaN);
   const stimAmp = o.stimulus?.amplitude ?? 2000;
   const stimN = Math.max(1, Math.round((o.stimulus?.lengthMm ?? 1) / 10 / dx));
   const stimT = o.stimulus?.durationMs ?? 0.2;
   const tMax = o.tMaxMs ?? Math.min(200, 2 + (L * 10) / Math.max(0.2, 0.5 * Math.sqrt(o.diameterUm)));
   const steps = Math.round(tMax / dt);
-  const a = new Float64Array(N), b = new Float64Array(N), c = new Float64Array(N), rhs = new Float64Array(N), cp = new Float64Array(N);
-  const rec = (o.recordAtMm ?? []).map((xm) => ({ xMm: xm, i: Math.min(N - 1, Math.round(xm / 10 / dx)), t: new Float64Array(steps + 1), V: new Float64Array(steps + 1) }));
+  const a = new Float64Array(N),
+    b = new Float64Array(N),
+    c = new Float64Array(N),
+    rhs = new Float64Array(N),
+    cp = new Float64Array(N);
+  const rec = (o.recordAtMm ?? []).map((xm) => ({
+    xMm: xm,
+    i: Math.min(N - 1, Math.round(xm / 10 / dx)),
+    t: new Float64Array(steps + 1),
+    V: new Float64Array(steps + 1),
+  }));
   for (const r of rec) r.V[0] = V[r.i];
   const Cm = HH.Cm;
   // injected current at node 0 (uA) as a density over half a segment's area
-  const inj = o.injectUa ? (o.injectUa / (Math.PI * d * (dx / 2))) : 0;
+  const inj = o.injectUa ? o.injectUa / (Math.PI * d * (dx / 2)) : 0;
   for (let k = 0; k < steps; k++) {
     const t = (k + 1) * dt;
     for (let i = 0; i < N; i++) {
       const v = V[i];
       if (!o.passive) {
-        const am = phi * alphaM(v), bm = phi * betaM(v), ah = phi * alphaH(v), bh = phi * betaH(v), an = phi * alphaN(v), bn = phi * betaN(v);
-        let tau = 1 / (am + bm); m[i] = am * tau + (m[i] - am * tau) * Math.exp(-dt / tau);
-        tau = 1 / (ah + bh); h[i] = ah * tau + (h[i] - ah * tau) * Math.exp(-dt / tau);
-        tau = 1 / (an + bn); n[i] = an * tau + (n[i] - an * tau) * Math.exp(-dt / tau);
+        const am = phi * alphaM(v),
+          bm = phi * betaM(v),
+          ah = phi * alphaH(v),
+          bh = phi * betaH(v),
+          an = phi * alphaN(v),
+          bn = phi * betaN(v);
+        let tau = 1 / (am + bm);
+        m[i] = am * tau + (m[i] - am * tau) * Math.exp(-dt / tau);
+        tau = 1 / (ah + bh);
+        h[i] = ah * tau + (h[i] - ah * tau) * Math.exp(-dt / tau);
+        tau = 1 / (an + bn);
+        n[i] = an * tau + (n[i] - an * tau) * Math.exp(-dt / tau);
       }
-      const gNa = o.passive ? 0 : HH.gNa * m[i] ** 3 * h[i], gK = o.passive ? 0 : HH.gK * n[i] ** 4, gL = HH.gL;
+      const gNa = o.passive ? 0 : HH.gNa * m[i] ** 3 * h[i],
+        gK = o.passive ? 0 : HH.gK * n[i] ** 4,
+        gL = HH.gL;
       const gsum = gNa + gK + gL;
       const Isrc = gNa * HH.ENa + gK * HH.EK + gL * HH.EL;
       const stim = (i < stimN && t <= stimT ? stimAmp : 0) + (i === 0 ? inj : 0);
-      const left = i > 0 ? D : 0, right = i < N - 1 ? D : 0;
+      const left = i > 0 ? D : 0,
+        right = i < N - 1 ? D : 0;
       // sealed ends: the end node has one neighbour (mirror), so double its coupling
-      const ll = i === N - 1 ? 2 * D : left, rr = i === 0 ? 2 * D : right;
-      a[i] = -ll; c[i] = -rr;
+      const ll = i === N - 1 ? 2 * D : left,
+        rr = i === 0 ? 2 * D : right;
+      a[i] = -ll;
+      c[i] = -rr;
       b[i] = Cm / dt + ll + rr + gsum;
       rhs[i] = (Cm / dt) * v + Isrc + stim;
     }
     thomas(a, b, c, rhs, cp);
     for (let i = 0; i < N; i++) {
-      if (Number.isNaN(arrival[i]) && V[i] < -20 && rhs[i] >= -20) arrival[i] = t - dt + (dt * (-20 - V[i])) / (rhs[i] - V[i]);
+      if (Number.isNaN(arrival[i]) && V[i] < -20 && rhs[i] >= -20)
+        arrival[i] = t - dt + (dt * (-20 - V[i])) / (rhs[i] - V[i]);
       V[i] = rhs[i];
     }
-    for (const r of rec) { r.t[k + 1] = t; r.V[k + 1] = V[r.i]; }
+    for (const r of rec) {
+      r.t[k + 1] = t;
+      r.V[k + 1] = V[r.i];
+    }
   }
   const xMm = Float64Array.from({ length: N }, (_, i) => i * dx * 10);
-  const i1 = Math.round(0.3 * (N - 1)), i2 = Math.round(0.7 * (N - 1));
+  const i1 = Math.round(0.3 * (N - 1)),
+    i2 = Math.round(0.7 * (N - 1));
   const velocity = (xMm[i2] - xMm[i1]) / (arrival[i2] - arrival[i1]);
   return { arrival, xMm, velocity, traces: rec.map((r) => ({ xMm: r.xMm, t: r.t, V: r.V })), Vfinal: V };
 }
@@ -141,7 +171,11 @@ const crrss = {
   bm: (v: number) => (97 + 0.363 * v) / (1 + Math.exp((31 - v) / 5.3)) / Math.exp((v - 23.8) / 4.17),
   bh: (v: number) => 15.6 / (1 + Math.exp((24 - v) / 10)),
   ah: (v: number) => 15.6 / (1 + Math.exp((24 - v) / 10)) / Math.exp((v - 5.5) / 5),
-  gNa: 1445, gL: 128, ENa: 115, EL: -0.01, Cm: 2.5,
+  gNa: 1445,
+  gL: 128,
+  ENa: 115,
+  EL: -0.01,
+  Cm: 2.5,
 };
 
 export interface MyelinatedOptions {
@@ -173,36 +207,53 @@ export function simulateMyelinated(o: MyelinatedOptions): { velocity: number; ar
   const dt = o.dtMs ?? 0.0005;
   const q = Math.pow(3, ((o.temperatureC ?? 37) - 37) / 10);
   const area = Math.PI * dAx * ln; // cm2
-  const Ga = (Math.PI * dAx * dAx) / (4 * Ri * Lint) * 1e6; // uS between nodes
+  const Ga = ((Math.PI * dAx * dAx) / (4 * Ri * Lint)) * 1e6; // uS between nodes
   const C = crrss.Cm * area; // uF
-  const V = new Float64Array(N), m = new Float64Array(N), h = new Float64Array(N);
-  const m0 = crrss.am(0) / (crrss.am(0) + crrss.bm(0)), h0 = crrss.ah(0) / (crrss.ah(0) + crrss.bh(0));
-  m.fill(m0); h.fill(h0);
+  const V = new Float64Array(N),
+    m = new Float64Array(N),
+    h = new Float64Array(N);
+  const m0 = crrss.am(0) / (crrss.am(0) + crrss.bm(0)),
+    h0 = crrss.ah(0) / (crrss.ah(0) + crrss.bh(0));
+  m.fill(m0);
+  h.fill(h0);
   const arrival = new Float64Array(N).fill(NaN);
-  const a = new Float64Array(N), b = new Float64Array(N), c = new Float64Array(N), rhs = new Float64Array(N), cp = new Float64Array(N);
+  const a = new Float64Array(N),
+    b = new Float64Array(N),
+    c = new Float64Array(N),
+    rhs = new Float64Array(N),
+    cp = new Float64Array(N);
   const steps = Math.round(5 / dt);
   for (let k = 0; k < steps; k++) {
     const t = (k + 1) * dt;
     for (let i = 0; i < N; i++) {
       const v = V[i];
-      const am = q * crrss.am(v), bm = q * crrss.bm(v), ah = q * crrss.ah(v), bh = q * crrss.bh(v);
-      let tau = 1 / (am + bm); m[i] = am * tau + (m[i] - am * tau) * Math.exp(-dt / tau);
-      tau = 1 / (ah + bh); h[i] = ah * tau + (h[i] - ah * tau) * Math.exp(-dt / tau);
+      const am = q * crrss.am(v),
+        bm = q * crrss.bm(v),
+        ah = q * crrss.ah(v),
+        bh = q * crrss.bh(v);
+      let tau = 1 / (am + bm);
+      m[i] = am * tau + (m[i] - am * tau) * Math.exp(-dt / tau);
+      tau = 1 / (ah + bh);
+      h[i] = ah * tau + (h[i] - ah * tau) * Math.exp(-dt / tau);
       const gNa = crrss.gNa * m[i] ** 2 * h[i] * area * 1e3; // uS
       const gL = crrss.gL * area * 1e3;
       const stim = i === 0 && t <= 0.1 ? 20000 * C * 1e3 : 0; // strong brief current at the first node (nA)
-      const left = i > 0 ? Ga : 0, right = i < N - 1 ? Ga : 0;
-      a[i] = -left; c[i] = -right;
+      const left = i > 0 ? Ga : 0,
+        right = i < N - 1 ? Ga : 0;
+      a[i] = -left;
+      c[i] = -right;
       b[i] = (C * 1e3) / dt + left + right + gNa + gL; // nA/mV
       rhs[i] = ((C * 1e3) / dt) * v + gNa * crrss.ENa + gL * crrss.EL + stim;
     }
     thomas(a, b, c, rhs, cp);
     for (let i = 0; i < N; i++) {
-      if (Number.isNaN(arrival[i]) && V[i] < 50 && rhs[i] >= 50) arrival[i] = t - dt + (dt * (50 - V[i])) / (rhs[i] - V[i]);
+      if (Number.isNaN(arrival[i]) && V[i] < 50 && rhs[i] >= 50)
+        arrival[i] = t - dt + (dt * (50 - V[i])) / (rhs[i] - V[i]);
       V[i] = rhs[i];
     }
   }
-  const i1 = Math.round(0.3 * (N - 1)), i2 = Math.round(0.7 * (N - 1));
-  const dist = ((i2 - i1) * (Lint + ln)) * 10; // mm
+  const i1 = Math.round(0.3 * (N - 1)),
+    i2 = Math.round(0.7 * (N - 1));
+  const dist = (i2 - i1) * (Lint + ln) * 10; // mm
   return { velocity: dist / (arrival[i2] - arrival[i1]), arrival };
 }

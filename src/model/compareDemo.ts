@@ -14,23 +14,37 @@ export function compareDemo(bundle: string, demo: string): string {
   const vel: Row[] = read(join(bundle, 'tables', 'velocity.json'));
   const dr: Row[] = read(join(bundle, 'tables', 'dose_response_summary.json'));
   const tq: Row[] = read(join(bundle, 'tables', 'temperature.json'));
-  const lines = ['Per-class results next to the ground truth of the invented demo study', '', 'conduction velocity at 37 C (m/s): regression of centroid latency on distance vs truth'];
+  const lines = [
+    'Per-class results next to the ground truth of the invented demo study',
+    '',
+    'conduction velocity at 37 C (m/s): regression of centroid latency on distance vs truth',
+  ];
   for (const prep of Object.keys(truth.preparations)) {
     const parts = truth.preparations[prep].classes['37'].map((c: { name: string; vCentroid: number }) => {
-      const r = vel.find((v) => v.method === 'regression' && v.basis === 'centroid' && v.class === c.name && v.preparation === prep);
+      const r = vel.find(
+        (v) => v.method === 'regression' && v.basis === 'centroid' && v.class === c.name && v.preparation === prep,
+      );
       return `${c.name} ${r ? f(r.velocity_m_s) : 'n/a'} vs ${f(c.vCentroid)}`;
     });
     lines.push(`  ${prep}: ${parts.join('; ')}`);
   }
   lines.push('', 'IC50 (uM): mean over preparations [95% CI] vs geometric mean of the true per-preparation IC50s');
   for (const r of dr) {
-    const ic = Object.values(truth.preparations).map((p) => ((p as { classes: Record<string, { name: string; ic50: number }[]> }).classes['37'].find((c) => c.name === r.class)!.ic50));
+    const ic = Object.values(truth.preparations).map(
+      (p) =>
+        (p as { classes: Record<string, { name: string; ic50: number }[]> }).classes['37'].find(
+          (c) => c.name === r.class,
+        )!.ic50,
+    );
     const geo = Math.exp(ic.reduce((a, b) => a + Math.log(b), 0) / ic.length);
-    lines.push(`  ${r.class}: ${f(r.ic50)} [${f(r.ic50_ci95_low)}, ${f(r.ic50_ci95_high)}] vs ${f(geo)}; Hill slope ${f(r.hill)} vs ${f(truth.model.hill[r.class as string])}`);
+    lines.push(
+      `  ${r.class}: ${f(r.ic50)} [${f(r.ic50_ci95_low)}, ${f(r.ic50_ci95_high)}] vs ${f(geo)}; Hill slope ${f(r.hill)} vs ${f(truth.model.hill[r.class as string])}`,
+    );
   }
   lines.push('', `Q10 of conduction velocity vs truth ${truth.model.q10Velocity}`);
   for (const r of tq) lines.push(`  ${r.class}: ${f(r.q10)} [${f(r.q10_ci95_low)}, ${f(r.q10_ci95_high)}]`);
   return lines.join('\n');
 }
 
-if (require.main === module) console.log(compareDemo(process.argv[2] ?? 'out/demo-bundle', process.argv[3] ?? 'data-demo'));
+if (require.main === module)
+  console.log(compareDemo(process.argv[2] ?? 'out/demo-bundle', process.argv[3] ?? 'data-demo'));

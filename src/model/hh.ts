@@ -45,7 +45,8 @@ export function hhIonic(V: number, m: number, h: number, n: number): number {
 
 /** Resting state: the V where the steady-state ionic current is zero (bisection on [-70, -60] mV). */
 export function hhRest(): { V: number; m: number; h: number; n: number } {
-  let lo = -70, hi = -60;
+  let lo = -70,
+    hi = -60;
   const f = (V: number) => {
     const s = hhSteady(V);
     return hhIonic(V, s.m, s.h, s.n);
@@ -61,11 +62,16 @@ export function hhRest(): { V: number; m: number; h: number; n: number } {
 
 /** A current-clamp stimulus: current density (uA/cm2) as a function of time (ms). */
 export type Stimulus = (tMs: number) => number;
-export const stepCurrent = (amp: number, start: number, duration: number): Stimulus => (t) => (t >= start && t < start + duration ? amp : 0);
-export const pulseTrain = (amp: number, start: number, width: number, period: number, count: number): Stimulus => (t) => {
-  const k = Math.floor((t - start) / period);
-  return k >= 0 && k < count && t - start - k * period < width ? amp : 0;
-};
+export const stepCurrent =
+  (amp: number, start: number, duration: number): Stimulus =>
+  (t) =>
+    t >= start && t < start + duration ? amp : 0;
+export const pulseTrain =
+  (amp: number, start: number, width: number, period: number, count: number): Stimulus =>
+  (t) => {
+    const k = Math.floor((t - start) / period);
+    return k >= 0 && k < count && t - start - k * period < width ? amp : 0;
+  };
 
 export interface MembraneOptions {
   stimulus: Stimulus;
@@ -89,7 +95,8 @@ export interface MembraneResult {
 /** Simulate the space-clamped membrane from rest. */
 export function simulateMembrane(o: MembraneOptions): MembraneResult {
   const dt = o.dt ?? 0.01;
-  if (!(dt > 0 && dt <= 0.05)) throw new OptionError(`invalid dt: ${dt} ms; must be 0 < dt <= 0.05 ms for a stable RK4 step`);
+  if (!(dt > 0 && dt <= 0.05))
+    throw new OptionError(`invalid dt: ${dt} ms; must be 0 < dt <= 0.05 ms for a stable RK4 step`);
   if (!(o.tMax > 0)) throw new OptionError(`invalid tMax: ${o.tMax} ms; must be > 0`);
   const phi = hhPhi(o.temperatureC ?? 6.3);
   const every = o.every ?? 1;
@@ -106,15 +113,26 @@ export function simulateMembrane(o: MembraneOptions): MembraneResult {
     ];
   };
   const nOut = Math.floor(steps / every) + 1;
-  const T = new Float64Array(nOut), VV = new Float64Array(nOut);
-  T[0] = 0; VV[0] = y[0];
+  const T = new Float64Array(nOut),
+    VV = new Float64Array(nOut);
+  T[0] = 0;
+  VV[0] = y[0];
   const spikes: number[] = [];
   for (let k = 0; k < steps; k++) {
     const t = k * dt;
     const k1 = deriv(t, y);
-    const k2 = deriv(t + dt / 2, y.map((v, i) => v + (dt / 2) * k1[i]));
-    const k3 = deriv(t + dt / 2, y.map((v, i) => v + (dt / 2) * k2[i]));
-    const k4 = deriv(t + dt, y.map((v, i) => v + dt * k3[i]));
+    const k2 = deriv(
+      t + dt / 2,
+      y.map((v, i) => v + (dt / 2) * k1[i]),
+    );
+    const k3 = deriv(
+      t + dt / 2,
+      y.map((v, i) => v + (dt / 2) * k2[i]),
+    );
+    const k4 = deriv(
+      t + dt,
+      y.map((v, i) => v + dt * k3[i]),
+    );
     const next = y.map((v, i) => v + (dt / 6) * (k1[i] + 2 * k2[i] + 2 * k3[i] + k4[i]));
     if (y[0] < 0 && next[0] >= 0) spikes.push(t + (dt * (0 - y[0])) / (next[0] - y[0]));
     y = next;
@@ -130,12 +148,27 @@ export function simulateMembrane(o: MembraneOptions): MembraneResult {
  * Smallest amplitude (uA/cm2) of a step of `durationMs` that gives at least
  * `minSpikes` spikes, by bisection to `tol`.
  */
-export function stepThreshold(o: { durationMs: number; minSpikes?: number; temperatureC?: number; lo?: number; hi?: number; tol?: number; dt?: number; after?: number }): number {
+export function stepThreshold(o: {
+  durationMs: number;
+  minSpikes?: number;
+  temperatureC?: number;
+  lo?: number;
+  hi?: number;
+  tol?: number;
+  dt?: number;
+  after?: number;
+}): number {
   const need = o.minSpikes ?? 1;
-  let lo = o.lo ?? 0, hi = o.hi ?? 200;
+  let lo = o.lo ?? 0,
+    hi = o.hi ?? 200;
   const tol = o.tol ?? 1e-3;
   const fires = (amp: number) => {
-    const r = simulateMembrane({ stimulus: stepCurrent(amp, 1, o.durationMs), tMax: o.durationMs + 20, dt: o.dt ?? 0.01, temperatureC: o.temperatureC });
+    const r = simulateMembrane({
+      stimulus: stepCurrent(amp, 1, o.durationMs),
+      tMax: o.durationMs + 20,
+      dt: o.dt ?? 0.01,
+      temperatureC: o.temperatureC,
+    });
     return r.spikes.filter((s) => s >= 1 + (o.after ?? 0)).length >= need;
   };
   if (!fires(hi)) throw new OptionError(`no spike up to ${hi} uA/cm2`);

@@ -81,15 +81,54 @@ export function rodentSciatic(over: Partial<NerveModel> = {}): NerveModel {
     q10Duration: 2,
     utilisationMs: 0.05,
     populations: [
-      { name: 'A-alpha/beta', count: 400, myelinated: true, diameterUm: { mean: 13, sd: 1.4, min: 10.2, max: 19 }, velocityFactor: 6, unitAmplitudeUv: 0.0008, tauMs: 0.06, thresholdMa: 0.08, ic50: 60, hill: 1.2 },
-      { name: 'A-delta', count: 600, myelinated: true, diameterUm: { mean: 3.2, sd: 0.6, min: 1.8, max: 4.9 }, velocityFactor: 6, unitAmplitudeUv: 0.004, tauMs: 0.12, thresholdMa: 0.5, ic50: 25, hill: 1.2 },
-      { name: 'C', count: 2000, myelinated: false, diameterUm: { mean: 0.8, sd: 0.2, min: 0.3, max: 1.5 }, velocityFactor: 1.3, unitAmplitudeUv: 0.25, tauMs: 0.5, thresholdMa: 2.5, ic50: 8, hill: 1.0 },
+      {
+        name: 'A-alpha/beta',
+        count: 400,
+        myelinated: true,
+        diameterUm: { mean: 13, sd: 1.4, min: 10.2, max: 19 },
+        velocityFactor: 6,
+        unitAmplitudeUv: 0.0008,
+        tauMs: 0.06,
+        thresholdMa: 0.08,
+        ic50: 60,
+        hill: 1.2,
+      },
+      {
+        name: 'A-delta',
+        count: 600,
+        myelinated: true,
+        diameterUm: { mean: 3.2, sd: 0.6, min: 1.8, max: 4.9 },
+        velocityFactor: 6,
+        unitAmplitudeUv: 0.004,
+        tauMs: 0.12,
+        thresholdMa: 0.5,
+        ic50: 25,
+        hill: 1.2,
+      },
+      {
+        name: 'C',
+        count: 2000,
+        myelinated: false,
+        diameterUm: { mean: 0.8, sd: 0.2, min: 0.3, max: 1.5 },
+        velocityFactor: 1.3,
+        unitAmplitudeUv: 0.25,
+        tauMs: 0.5,
+        thresholdMa: 2.5,
+        ic50: 8,
+        hill: 1.0,
+      },
     ],
     ...over,
   };
 }
 
-export interface Fiber { pop: number; diameterUm: number; v37: number; threshold: number; block: number }
+export interface Fiber {
+  pop: number;
+  diameterUm: number;
+  v37: number;
+  threshold: number;
+  block: number;
+}
 
 /** Draw the fibers of one nerve (seeded). `block` is a uniform number used to decide conduction block. */
 export function drawFibers(model: NerveModel, seed: number): Fiber[] {
@@ -130,12 +169,17 @@ export interface RecordingConditions {
   pulsesMs?: number[];
 }
 
-export interface SweepGrid { fs: number; t0Ms: number; nSamples: number }
+export interface SweepGrid {
+  fs: number;
+  t0Ms: number;
+  nSamples: number;
+}
 
 const unitWave = (u: number) => (u <= 0 ? 0 : 0.25 * u * u * Math.exp(2 - u));
 
 export const defaultReferencePulseWidthMs = 0.1;
-const defaultChronaxieMs = (p: FiberPopulation) => p.chronaxieMs ?? (!p.myelinated ? 1.5 : p.diameterUm.mean >= 6 ? 0.15 : 0.3);
+const defaultChronaxieMs = (p: FiberPopulation) =>
+  p.chronaxieMs ?? (!p.myelinated ? 1.5 : p.diameterUm.mean >= 6 ? 0.15 : 0.3);
 
 /** Threshold multiplier at pulse width w relative to the reference width (Weiss's law). */
 export function weissFactor(p: FiberPopulation, w: number, ref: number): number {
@@ -170,12 +214,22 @@ function capSetup(model: NerveModel, rc: RecordingConditions, grid: SweepGrid, r
   const biphasic = rc.recording === 'biphasic';
   const sep = rc.electrodeSeparationMm ?? 3;
   const pw = rc.pulseWidthMs;
-  const sd = model.populations.map((p) => (pw === undefined ? 1 : weissFactor(p, pw, model.referencePulseWidthMs ?? defaultReferencePulseWidthMs)));
+  const sd = model.populations.map((p) =>
+    pw === undefined ? 1 : weissFactor(p, pw, model.referencePulseWidthMs ?? defaultReferencePulseWidthMs),
+  );
   return { dtMs, jitter, tauScale, biphasic, sep, sd };
 }
 
 /** The noiseless CAP (uV) of one sweep into out (length grid.nSamples); per-class parts when `parts` is given. */
-export function synthesizeCap(model: NerveModel, fibers: Fiber[], rc: RecordingConditions, grid: SweepGrid, out: Float64Array, rng?: Rng, parts?: Float64Array[]): Float64Array {
+export function synthesizeCap(
+  model: NerveModel,
+  fibers: Fiber[],
+  rc: RecordingConditions,
+  grid: SweepGrid,
+  out: Float64Array,
+  rng?: Rng,
+  parts?: Float64Array[],
+): Float64Array {
   if (rc.pulsesMs) return synthesizePulses(model, fibers, rc, grid, out, rng, parts);
   out.fill(0);
   const { dtMs, jitter, tauScale, biphasic, sep, sd } = capSetup(model, rc, grid, rng);
@@ -219,7 +273,14 @@ export interface Nuisance {
 }
 
 /** Add rig nuisances to a sweep (uV) in place. */
-export function addNuisance(x: Float64Array, grid: SweepGrid, intensity: number, nz: Nuisance, rng: Rng, stimulusTimesMs?: readonly number[]): void {
+export function addNuisance(
+  x: Float64Array,
+  grid: SweepGrid,
+  intensity: number,
+  nz: Nuisance,
+  rng: Rng,
+  stimulusTimesMs?: readonly number[],
+): void {
   const dtMs = 1000 / grid.fs;
   const humPhase = 2 * Math.PI * rng.uniform();
   const drift = (nz.driftUvPerMs ?? 0) * rng.normal();
@@ -237,7 +298,8 @@ export function addNuisance(x: Float64Array, grid: SweepGrid, intensity: number,
       harm.forEach((a, k) => (v += nz.humUv! * a * Math.sin((k + 2) * (w + humPhase))));
     }
     if (stimulusTimesMs) {
-      for (const t0 of stimulusTimesMs) if (sat && t >= t0) v += t - t0 < pw ? sat : sat * 0.5 * Math.exp(-(t - t0 - pw) / tau);
+      for (const t0 of stimulusTimesMs)
+        if (sat && t >= t0) v += t - t0 < pw ? sat : sat * 0.5 * Math.exp(-(t - t0 - pw) / tau);
     } else if (sat && t >= 0) v += t < pw ? sat : sat * 0.5 * Math.exp(-(t - pw) / tau);
     x[i] = v;
   }
@@ -254,7 +316,8 @@ export interface SimulateOptions {
 
 /** Simulate sweeps (uV) with conditions filled in. Deterministic for a seed. */
 export function simulateNerve(o: SimulateOptions): SweepSet {
-  if (!(o.grid.fs > 0) || !(o.grid.nSamples > 1)) throw new OptionError('invalid grid: fs must be > 0 and nSamples > 1');
+  if (!(o.grid.fs > 0) || !(o.grid.nSamples > 1))
+    throw new OptionError('invalid grid: fs must be > 0 and nSamples > 1');
   const fibers = drawFibers(o.model, o.seed);
   const rng = new Rng(o.seed ^ 0x9e3779b9);
   const n = o.grid.nSamples;
@@ -265,9 +328,27 @@ export function simulateNerve(o: SimulateOptions): SweepSet {
     synthesizeCap(o.model, fibers, rc, o.grid, x, rng);
     if (o.nuisance) addNuisance(x, o.grid, rc.intensity, o.nuisance, rng, rc.pulsesMs);
     const pulseCond: Record<string, number> = rc.pulsesMs ? { pulses: rc.pulsesMs.length } : {};
-    conds.push({ ...pulseCond, intensity: rc.intensity, intensityUnit: 'mA', ...(rc.pulseWidthMs !== undefined ? { pulseWidthMs: rc.pulseWidthMs } : {}), distanceMm: rc.distanceMm, temperatureC: rc.temperatureC, concentration: rc.concentration, ...(rc.conditions ?? {}) });
+    conds.push({
+      ...pulseCond,
+      intensity: rc.intensity,
+      intensityUnit: 'mA',
+      ...(rc.pulseWidthMs !== undefined ? { pulseWidthMs: rc.pulseWidthMs } : {}),
+      distanceMm: rc.distanceMm,
+      temperatureC: rc.temperatureC,
+      concentration: rc.concentration,
+      ...(rc.conditions ?? {}),
+    });
   });
-  return new SweepSet({ data, nSweeps: o.sweeps.length, nSamples: n, fs: o.grid.fs, t0Ms: o.grid.t0Ms, units: 'uV', conditions: conds, history: [{ verb: 'simulateNerve', options: { seed: o.seed }, version: '' }] });
+  return new SweepSet({
+    data,
+    nSweeps: o.sweeps.length,
+    nSamples: n,
+    fs: o.grid.fs,
+    t0Ms: o.grid.t0Ms,
+    units: 'uV',
+    conditions: conds,
+    history: [{ verb: 'simulateNerve', options: { seed: o.seed }, version: '' }],
+  });
 }
 
 /** Ground truth per class at a temperature: fastest velocity, amplitude-weighted modal velocity, IC50, Hill slope. */
@@ -281,32 +362,59 @@ export function simulateNerve(o: SimulateOptions): SweepSet {
  * weighted mean of 1/v) = sum v^2 / sum v for a ~ v^2: the slope of the class wave's
  * centre of mass against distance.
  */
-export function classTruth(model: NerveModel, fibers: Fiber[], temperatureC: number): { name: string; vMax: number; vMin: number; vMode: number; vMedian: number; vCentroid: number; ic50: number; hill: number; minThreshold: number }[] {
+export function classTruth(
+  model: NerveModel,
+  fibers: Fiber[],
+  temperatureC: number,
+): {
+  name: string;
+  vMax: number;
+  vMin: number;
+  vMode: number;
+  vMedian: number;
+  vCentroid: number;
+  ic50: number;
+  hill: number;
+  minThreshold: number;
+}[] {
   return model.populations.map((p, pi) => {
     const fs = fibers.filter((f) => f.pop === pi);
     const v = fs.map((f) => fiberVelocity(model, f, temperatureC)).sort((a, b) => a - b);
-    const lo = v[0], hi = v[v.length - 1];
+    const lo = v[0],
+      hi = v[v.length - 1];
     const mean = v.reduce((a, b) => a + b, 0) / v.length;
     const sd = Math.sqrt(v.reduce((a, b) => a + (b - mean) ** 2, 0) / (v.length - 1));
     const bw = 1.06 * sd * Math.pow(v.length, -0.2);
-    let best = lo, bestD = -1;
+    let best = lo,
+      bestD = -1;
     for (let g = 0; g <= 400; g++) {
       const vg = lo + ((hi - lo) * g) / 400;
       let dens = 0;
       for (const x of v) dens += Math.exp(-0.5 * ((vg - x) / bw) ** 2);
       dens *= vg ** 4;
-      if (dens > bestD) { bestD = dens; best = vg; }
+      if (dens > bestD) {
+        bestD = dens;
+        best = vg;
+      }
     }
     return {
-      name: p.name, vMax: hi, vMin: lo, vMode: best, vMedian: v[Math.floor(v.length / 2)], vCentroid: v.reduce((a, b) => a + b * b, 0) / v.reduce((a, b) => a + b, 0),
-      ic50: p.ic50, hill: p.hill, minThreshold: Math.min(...fs.map((f) => f.threshold)),
+      name: p.name,
+      vMax: hi,
+      vMin: lo,
+      vMode: best,
+      vMedian: v[Math.floor(v.length / 2)],
+      vCentroid: v.reduce((a, b) => a + b * b, 0) / v.reduce((a, b) => a + b, 0),
+      ic50: p.ic50,
+      hill: p.hill,
+      minThreshold: Math.min(...fs.map((f) => f.threshold)),
     };
   });
 }
 
 // ---- several pulses per sweep: paired pulses and trains ----
 
-const defaultTimeScale37 = (p: FiberPopulation) => p.refractory?.timeScale37 ?? (!p.myelinated ? 3.3 : p.diameterUm.mean >= 6 ? 11 : 7.5);
+const defaultTimeScale37 = (p: FiberPopulation) =>
+  p.refractory?.timeScale37 ?? (!p.myelinated ? 3.3 : p.diameterUm.mean >= 6 ? 11 : 7.5);
 
 /** The time scale of a class's Hodgkin-Huxley fibre at temperature T (refractory.ts): timeScale37 x Q10^((T - 37)/10). */
 export function classTimeScale(p: FiberPopulation, temperatureC: number): number {
@@ -329,7 +437,12 @@ const trainCache = new Map<string, PulseOutcome[]>();
  * pulse meets a rested fibre; a pair uses the recovery table (refractory.ts) at the fibre's own time scale;
  * a train of three or more is simulated directly for fibres grouped by time scale (5% steps).
  */
-export function fiberPulseOutcomes(model: NerveModel, f: Fiber, pulsesMs: readonly number[], temperatureC: number): PulseOutcome[] {
+export function fiberPulseOutcomes(
+  model: NerveModel,
+  f: Fiber,
+  pulsesMs: readonly number[],
+  temperatureC: number,
+): PulseOutcome[] {
   const drive = model.testDrive ?? REFRACTORY_FIBRE.drive;
   const s = fiberTimeScale(model, f, temperatureC);
   if (pulsesMs.length === 1) return [{ timeMs: pulsesMs[0], conducted: true, conductionRatio: 1, heightRatio: 1 }];
@@ -337,14 +450,22 @@ export function fiberPulseOutcomes(model: NerveModel, f: Fiber, pulsesMs: readon
     const r = secondPulse(recoveryTable(drive), pulsesMs[1] - pulsesMs[0], s);
     return [
       { timeMs: pulsesMs[0], conducted: true, conductionRatio: 1, heightRatio: 1 },
-      { timeMs: pulsesMs[1], conducted: r.conducted, conductionRatio: r.conducted ? r.conductionRatio : null, heightRatio: r.conducted ? r.heightRatio : null },
+      {
+        timeMs: pulsesMs[1],
+        conducted: r.conducted,
+        conductionRatio: r.conducted ? r.conductionRatio : null,
+        heightRatio: r.conducted ? r.heightRatio : null,
+      },
     ];
   }
   const sq = Math.exp(Math.round(Math.log(s) / TRAIN_GROUP_STEP) * TRAIN_GROUP_STEP);
   const key = `${sq.toPrecision(8)}|${drive}|${pulsesMs.join(',')}`;
   let r = trainCache.get(key);
   if (!r) {
-    r = timeScaledCable(pulsesMs.map((t) => t - pulsesMs[0]), { timeScale: sq, drive }).map((q, k) => ({ ...q, timeMs: pulsesMs[k] }));
+    r = timeScaledCable(
+      pulsesMs.map((t) => t - pulsesMs[0]),
+      { timeScale: sq, drive },
+    ).map((q, k) => ({ ...q, timeMs: pulsesMs[k] }));
     trainCache.set(key, r);
   }
   return r;
@@ -357,7 +478,15 @@ function checkPulses(p: readonly number[]): void {
 }
 
 /** synthesizeCap for sweeps with pulsesMs: each recruited, conducting fiber adds one waveform per conducted pulse. */
-function synthesizePulses(model: NerveModel, fibers: Fiber[], rc: RecordingConditions, grid: SweepGrid, out: Float64Array, rng?: Rng, parts?: Float64Array[]): Float64Array {
+function synthesizePulses(
+  model: NerveModel,
+  fibers: Fiber[],
+  rc: RecordingConditions,
+  grid: SweepGrid,
+  out: Float64Array,
+  rng?: Rng,
+  parts?: Float64Array[],
+): Float64Array {
   const pulses = rc.pulsesMs!;
   checkPulses(pulses);
   out.fill(0);

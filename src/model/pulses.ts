@@ -17,8 +17,19 @@
 import { SweepSet } from '../sweeps/SweepSet';
 import { OptionError } from '../errors';
 import {
-  conducts, drawFibers, fiberPulseOutcomes, fiberTimeScale, fiberVelocity, simulateNerve, weissFactor, defaultReferencePulseWidthMs,
-  type Fiber, type NerveModel, type Nuisance, type RecordingConditions, type SweepGrid,
+  conducts,
+  drawFibers,
+  fiberPulseOutcomes,
+  fiberTimeScale,
+  fiberVelocity,
+  simulateNerve,
+  weissFactor,
+  defaultReferencePulseWidthMs,
+  type Fiber,
+  type NerveModel,
+  type Nuisance,
+  type RecordingConditions,
+  type SweepGrid,
 } from './nerve';
 import { recoveryTable, REFRACTORY_FIBRE } from './refractory';
 
@@ -53,14 +64,21 @@ export interface PairedPulseSeriesOptions {
 
 /** Simulate a paired-pulse series (module comment) as one SweepSet. */
 export function simulatePairedPulse(o: PairedPulseSeriesOptions): SweepSet {
-  if (!o.intervalsMs.length || o.intervalsMs.some((x) => !(x > 0))) throw new OptionError('invalid intervalsMs: need one or more intervals > 0 ms');
+  if (!o.intervalsMs.length || o.intervalsMs.some((x) => !(x > 0)))
+    throw new OptionError('invalid intervalsMs: need one or more intervals > 0 ms');
   const reps = o.repeats ?? 1;
   const sweeps: (RecordingConditions & { conditions: Record<string, string | number | null> })[] = [];
   for (let r = 0; r < reps; r++) {
     const extra = { ...(o.conditions ?? {}), repeat: r };
     sweeps.push({ ...o.base, pulsesMs: [0], conditions: { ...extra, pulsePair: 'test-alone', intervalMs: null } });
-    if (o.conditioningAlone ?? true) sweeps.push({ ...o.base, pulsesMs: [0], conditions: { ...extra, pulsePair: 'conditioning-alone', intervalMs: null } });
-    for (const isi of o.intervalsMs) sweeps.push({ ...o.base, pulsesMs: [0, isi], conditions: { ...extra, pulsePair: 'paired', intervalMs: isi } });
+    if (o.conditioningAlone ?? true)
+      sweeps.push({
+        ...o.base,
+        pulsesMs: [0],
+        conditions: { ...extra, pulsePair: 'conditioning-alone', intervalMs: null },
+      });
+    for (const isi of o.intervalsMs)
+      sweeps.push({ ...o.base, pulsesMs: [0, isi], conditions: { ...extra, pulsePair: 'paired', intervalMs: isi } });
   }
   return simulateNerve({ model: o.model, seed: o.seed, grid: o.grid, sweeps, nuisance: o.nuisance });
 }
@@ -84,18 +102,28 @@ export const trainTimes = (hz: number, n: number): number[] => Array.from({ leng
 
 /** Simulate trains (one train per sweep, conditions trainHz and trainPulses). */
 export function simulateTrain(o: TrainSeriesOptions): SweepSet {
-  if (!Number.isInteger(o.pulses) || o.pulses < 2) throw new OptionError(`invalid pulses: ${o.pulses}; must be an integer >= 2`);
-  if (!o.frequenciesHz.length || o.frequenciesHz.some((x) => !(x > 0))) throw new OptionError('invalid frequenciesHz: need one or more frequencies > 0 Hz');
+  if (!Number.isInteger(o.pulses) || o.pulses < 2)
+    throw new OptionError(`invalid pulses: ${o.pulses}; must be an integer >= 2`);
+  if (!o.frequenciesHz.length || o.frequenciesHz.some((x) => !(x > 0)))
+    throw new OptionError('invalid frequenciesHz: need one or more frequencies > 0 Hz');
   const sweeps: (RecordingConditions & { conditions: Record<string, string | number> })[] = [];
   for (let r = 0; r < (o.repeats ?? 1); r++) {
     for (const hz of o.frequenciesHz) {
-      sweeps.push({ ...o.base, pulsesMs: trainTimes(hz, o.pulses), conditions: { ...(o.conditions ?? {}), repeat: r, trainHz: hz, trainPulses: o.pulses } });
+      sweeps.push({
+        ...o.base,
+        pulsesMs: trainTimes(hz, o.pulses),
+        conditions: { ...(o.conditions ?? {}), repeat: r, trainHz: hz, trainPulses: o.pulses },
+      });
     }
   }
   return simulateNerve({ model: o.model, seed: o.seed, grid: o.grid, sweeps, nuisance: o.nuisance });
 }
 
-export interface RecoveryPoint { intervalMs: number; areaFraction: number; centroidShiftMs: number | null }
+export interface RecoveryPoint {
+  intervalMs: number;
+  areaFraction: number;
+  centroidShiftMs: number | null;
+}
 export interface PairedPulseClassTruth {
   name: string;
   recruited: number;
@@ -107,25 +135,44 @@ export interface PairedPulseClassTruth {
   curve: RecoveryPoint[];
 }
 
-interface Weighted { f: Fiber; w: number; lat0: number; s: number; v: number }
+interface Weighted {
+  f: Fiber;
+  w: number;
+  lat0: number;
+  s: number;
+  v: number;
+}
 
 function weighted(model: NerveModel, fibers: Fiber[], rc: Base, pop: number): Weighted[] {
   const p = model.populations[pop];
-  return recruited(model, fibers, rc).filter((f) => f.pop === pop).map((f) => {
-    const v = fiberVelocity(model, f, rc.temperatureC);
-    return { f, v, w: p.unitAmplitudeUv * v * v, lat0: model.utilisationMs + rc.distanceMm / v, s: fiberTimeScale(model, f, rc.temperatureC) };
-  });
+  return recruited(model, fibers, rc)
+    .filter((f) => f.pop === pop)
+    .map((f) => {
+      const v = fiberVelocity(model, f, rc.temperatureC);
+      return {
+        f,
+        v,
+        w: p.unitAmplitudeUv * v * v,
+        lat0: model.utilisationMs + rc.distanceMm / v,
+        s: fiberTimeScale(model, f, rc.temperatureC),
+      };
+    });
 }
 
 /** Area fraction and centroid shift of a class's test volley at one interval (fibres' own outcomes). */
 function pairAt(model: NerveModel, fs: Weighted[], rc: Base, isi: number): RecoveryPoint {
-  let sw = 0, swl = 0, sh = 0, shl = 0;
+  let sw = 0,
+    swl = 0,
+    sh = 0,
+    shl = 0;
   for (const x of fs) {
-    sw += x.w; swl += x.w * x.lat0;
+    sw += x.w;
+    swl += x.w * x.lat0;
     const q = fiberPulseOutcomes(model, x.f, [0, isi], rc.temperatureC)[1];
     if (!q.conducted) continue;
     const wh = x.w * q.heightRatio!;
-    sh += wh; shl += wh * (model.utilisationMs + (rc.distanceMm / x.v) * q.conductionRatio!);
+    sh += wh;
+    shl += wh * (model.utilisationMs + (rc.distanceMm / x.v) * q.conductionRatio!);
   }
   return { intervalMs: isi, areaFraction: sw > 0 ? sh / sw : 0, centroidShiftMs: sh > 0 ? shl / sh - swl / sw : null };
 }
@@ -133,29 +180,42 @@ function pairAt(model: NerveModel, fs: Weighted[], rc: Base, isi: number): Recov
 /** The first interval (ms) at which the class's test area reaches `level` of test-alone: scan then bisection. */
 function firstReach(model: NerveModel, fs: Weighted[], rc: Base, level: number, arp: number): number | null {
   const step = arp / 100;
-  let lo = arp, hi = NaN;
+  let lo = arp,
+    hi = NaN;
   for (let x = arp; x < 40 * arp; x += step) {
-    if (pairAt(model, fs, rc, x).areaFraction >= level) { hi = x; break; }
+    if (pairAt(model, fs, rc, x).areaFraction >= level) {
+      hi = x;
+      break;
+    }
     lo = x;
   }
   if (Number.isNaN(hi)) return null;
   for (let i = 0; i < 30 && hi - lo > 1e-6; i++) {
     const mid = (lo + hi) / 2;
-    if (pairAt(model, fs, rc, mid).areaFraction >= level) hi = mid; else lo = mid;
+    if (pairAt(model, fs, rc, mid).areaFraction >= level) hi = mid;
+    else lo = mid;
   }
   return hi;
 }
 
 /** Ground truth of a paired-pulse series per class (module comment), at the intervals given. */
-export function pairedPulseTruth(model: NerveModel, fibers: Fiber[], rc: Base, intervalsMs: readonly number[] = []): PairedPulseClassTruth[] {
+export function pairedPulseTruth(
+  model: NerveModel,
+  fibers: Fiber[],
+  rc: Base,
+  intervalsMs: readonly number[] = [],
+): PairedPulseClassTruth[] {
   const table = recoveryTable(model.testDrive ?? REFRACTORY_FIBRE.drive);
   return model.populations.map((p, pi) => {
     const fs = weighted(model, fibers, rc, pi);
     if (!fs.length) return { name: p.name, recruited: 0, arpMs: null, r50Ms: null, r90Ms: null, curve: [] };
     const arp = Math.min(...fs.map((x) => table.arpMs / x.s));
     return {
-      name: p.name, recruited: fs.length, arpMs: arp,
-      r50Ms: firstReach(model, fs, rc, 0.5, arp), r90Ms: firstReach(model, fs, rc, 0.9, arp),
+      name: p.name,
+      recruited: fs.length,
+      arpMs: arp,
+      r50Ms: firstReach(model, fs, rc, 0.5, arp),
+      r90Ms: firstReach(model, fs, rc, 0.9, arp),
       curve: intervalsMs.map((isi) => pairAt(model, fs, rc, isi)),
     };
   });
@@ -172,16 +232,24 @@ export interface TrainClassTruth {
 }
 
 /** Ground truth of a train per class: every recruited fibre's direct-simulation outcomes, summed. */
-export function trainTruth(model: NerveModel, fibers: Fiber[], rc: Base, hz: number, pulses: number): TrainClassTruth[] {
+export function trainTruth(
+  model: NerveModel,
+  fibers: Fiber[],
+  rc: Base,
+  hz: number,
+  pulses: number,
+): TrainClassTruth[] {
   const times = trainTimes(hz, pulses);
   return model.populations.map((p, pi) => {
     const fs = weighted(model, fibers, rc, pi);
-    const area = new Array(pulses).fill(0), lat = new Array(pulses).fill(0);
+    const area = new Array(pulses).fill(0),
+      lat = new Array(pulses).fill(0);
     for (const x of fs) {
       fiberPulseOutcomes(model, x.f, times, rc.temperatureC).forEach((q, k) => {
         if (!q.conducted) return;
         const wh = x.w * q.heightRatio!;
-        area[k] += wh; lat[k] += wh * (model.utilisationMs + (rc.distanceMm / x.v) * q.conductionRatio!);
+        area[k] += wh;
+        lat[k] += wh * (model.utilisationMs + (rc.distanceMm / x.v) * q.conductionRatio!);
       });
     }
     const frac = area.map((a) => (area[0] > 0 ? a / area[0] : 0));

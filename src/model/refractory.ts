@@ -27,7 +27,13 @@ import { thomas } from './cable';
 
 /** Geometry and numerics of the refractoriness fibre (kinetic time, s = 1). */
 export const REFRACTORY_FIBRE = {
-  diameterUm: 20, resistivity: 35.4, lengthMm: 16, dxMm: 0.25, stimLengthMm: 0.75, pulseMs: 0.2, dtMs: 0.01,
+  diameterUm: 20,
+  resistivity: 35.4,
+  lengthMm: 16,
+  dxMm: 0.25,
+  stimLengthMm: 0.75,
+  pulseMs: 0.2,
+  dtMs: 0.01,
   /** test pulses at this multiple of the rested threshold (default of the nerve model) */
   drive: 4,
 } as const;
@@ -52,12 +58,18 @@ export interface TimeScaledOptions {
   kineticDtMs?: number;
 }
 
-interface RawRun { mid: number[]; far: number[]; farPeak: number[] }
+interface RawRun {
+  mid: number[];
+  far: number[];
+  farPeak: number[];
+}
 
 /** One run of the cable with pulses at `times` (real ms) of amplitude `amp` (uA/cm2). */
 function runCable(times: readonly number[], amp: number, s: number, kdt: number): RawRun {
   const F = REFRACTORY_FIBRE;
-  const d = F.diameterUm * 1e-4, dx = F.dxMm / 10, L = F.lengthMm / 10;
+  const d = F.diameterUm * 1e-4,
+    dx = F.dxMm / 10,
+    L = F.lengthMm / 10;
   const N = Math.round(L / dx) + 1;
   const D = (1000 * d) / (4 * F.resistivity) / (dx * dx);
   const Cm = HH.Cm / s;
@@ -66,28 +78,53 @@ function runCable(times: readonly number[], amp: number, s: number, kdt: number)
   const stimN = Math.max(1, Math.round(F.stimLengthMm / F.dxMm));
   const rest = hhRest();
   const V = new Float64Array(N).fill(rest.V);
-  const m = new Float64Array(N).fill(rest.m), h = new Float64Array(N).fill(rest.h), n = new Float64Array(N).fill(rest.n);
-  const a = new Float64Array(N), b = new Float64Array(N), c = new Float64Array(N), rhs = new Float64Array(N);
+  const m = new Float64Array(N).fill(rest.m),
+    h = new Float64Array(N).fill(rest.h),
+    n = new Float64Array(N).fill(rest.n);
+  const a = new Float64Array(N),
+    b = new Float64Array(N),
+    c = new Float64Array(N),
+    rhs = new Float64Array(N);
   const cp = new Float64Array(N);
-  const iMid = Math.round(0.4 * (N - 1)), iFar = Math.round(0.8 * (N - 1));
+  const iMid = Math.round(0.4 * (N - 1)),
+    iFar = Math.round(0.8 * (N - 1));
   // rested transit to the far node is about 6.3 ms at s = 1; allow slowing and a margin
   const tEnd = times[times.length - 1] + 10 / s;
   const steps = Math.round(tEnd / dt);
-  const mid: number[] = [], far: number[] = [], farPeak: number[] = [];
-  let peak = -Infinity, inSpike = false;
+  const mid: number[] = [],
+    far: number[] = [],
+    farPeak: number[] = [];
+  let peak = -Infinity,
+    inSpike = false;
   for (let k = 0; k < steps; k++) {
     const t = (k + 1) * dt;
     let on = false;
-    for (const p of times) if (t > p && t <= p + width) { on = true; break; }
+    for (const p of times)
+      if (t > p && t <= p + width) {
+        on = true;
+        break;
+      }
     for (let i = 0; i < N; i++) {
       const v = V[i];
-      const am = s * alphaM(v), bm = s * betaM(v), ah = s * alphaH(v), bh = s * betaH(v), an = s * alphaN(v), bn = s * betaN(v);
-      let tau = 1 / (am + bm); m[i] = am * tau + (m[i] - am * tau) * Math.exp(-dt / tau);
-      tau = 1 / (ah + bh); h[i] = ah * tau + (h[i] - ah * tau) * Math.exp(-dt / tau);
-      tau = 1 / (an + bn); n[i] = an * tau + (n[i] - an * tau) * Math.exp(-dt / tau);
-      const gNa = HH.gNa * m[i] ** 3 * h[i], gK = HH.gK * n[i] ** 4, gL = HH.gL;
-      const ll = i === N - 1 ? 2 * D : i > 0 ? D : 0, rr = i === 0 ? 2 * D : i < N - 1 ? D : 0;
-      a[i] = -ll; c[i] = -rr;
+      const am = s * alphaM(v),
+        bm = s * betaM(v),
+        ah = s * alphaH(v),
+        bh = s * betaH(v),
+        an = s * alphaN(v),
+        bn = s * betaN(v);
+      let tau = 1 / (am + bm);
+      m[i] = am * tau + (m[i] - am * tau) * Math.exp(-dt / tau);
+      tau = 1 / (ah + bh);
+      h[i] = ah * tau + (h[i] - ah * tau) * Math.exp(-dt / tau);
+      tau = 1 / (an + bn);
+      n[i] = an * tau + (n[i] - an * tau) * Math.exp(-dt / tau);
+      const gNa = HH.gNa * m[i] ** 3 * h[i],
+        gK = HH.gK * n[i] ** 4,
+        gL = HH.gL;
+      const ll = i === N - 1 ? 2 * D : i > 0 ? D : 0,
+        rr = i === 0 ? 2 * D : i < N - 1 ? D : 0;
+      a[i] = -ll;
+      c[i] = -rr;
       b[i] = Cm / dt + ll + rr + gNa + gK + gL;
       rhs[i] = (Cm / dt) * v + gNa * HH.ENa + gK * HH.EK + gL * HH.EL + (on && i < stimN ? amp : 0);
     }
@@ -98,7 +135,11 @@ function runCable(times: readonly number[], amp: number, s: number, kdt: number)
     cross(iMid, mid);
     const before = far.length;
     cross(iFar, far);
-    if (far.length > before) { if (inSpike) farPeak.push(peak); inSpike = true; peak = rhs[iFar]; }
+    if (far.length > before) {
+      if (inSpike) farPeak.push(peak);
+      inSpike = true;
+      peak = rhs[iFar];
+    }
     if (inSpike && rhs[iFar] > peak) peak = rhs[iFar];
     for (let i = 0; i < N; i++) V[i] = rhs[i];
   }
@@ -113,10 +154,12 @@ export function refractoryFibreThreshold(kineticDtMs: number = REFRACTORY_FIBRE.
   const key = String(kineticDtMs);
   const hit = thresholdCache.get(key);
   if (hit !== undefined) return hit;
-  let lo = 0, hi = 4000;
+  let lo = 0,
+    hi = 4000;
   for (let i = 0; i < 22; i++) {
     const mid = (lo + hi) / 2;
-    if (runCable([0.2], mid, 1, kineticDtMs).far.length > 0) hi = mid; else lo = mid;
+    if (runCable([0.2], mid, 1, kineticDtMs).far.length > 0) hi = mid;
+    else lo = mid;
   }
   thresholdCache.set(key, hi);
   return hi;
@@ -128,7 +171,8 @@ function rested(drive: number, kdt: number): { transit: number; height: number; 
   const hit = restedCache.get(key);
   if (hit) return hit;
   const r = runCable([0.2], drive * refractoryFibreThreshold(kdt), 1, kdt);
-  if (r.far.length !== 1 || r.mid.length !== 1) throw new OptionError(`the refractoriness fibre did not conduct one spike at drive ${drive}`);
+  if (r.far.length !== 1 || r.mid.length !== 1)
+    throw new OptionError(`the refractoriness fibre did not conduct one spike at drive ${drive}`);
   const out = { transit: r.far[0] - r.mid[0], height: r.farPeak[0] - hhRest().V, latency: r.far[0] - 0.2 };
   restedCache.set(key, out);
   return out;
@@ -140,7 +184,9 @@ function rested(drive: number, kdt: number): { transit: number; height: number; 
  * @example timeScaledCable([0, 10]).map((p) => p.conducted) // [true, true] (squid fibre, 10 ms apart)
  */
 export function timeScaledCable(pulseTimesMs: readonly number[], o: TimeScaledOptions = {}): PulseOutcome[] {
-  const s = o.timeScale ?? 1, drive = o.drive ?? REFRACTORY_FIBRE.drive, kdt = o.kineticDtMs ?? REFRACTORY_FIBRE.dtMs;
+  const s = o.timeScale ?? 1,
+    drive = o.drive ?? REFRACTORY_FIBRE.drive,
+    kdt = o.kineticDtMs ?? REFRACTORY_FIBRE.dtMs;
   if (!(s > 0) || !Number.isFinite(s)) throw new OptionError(`invalid timeScale: ${s}; must be > 0`);
   if (!(drive >= 1.05)) throw new OptionError(`invalid drive: ${drive}; must be >= 1.05 (times the rested threshold)`);
   if (!pulseTimesMs.length || pulseTimesMs.some((t, i) => !(t >= 0) || (i > 0 && !(t > pulseTimesMs[i - 1])))) {
@@ -166,8 +212,10 @@ export function timeScaledCable(pulseTimesMs: readonly number[], o: TimeScaledOp
     let xm = NaN;
     for (const y of r.mid) if (y < x && y > times[k]) xm = y;
     return {
-      timeMs: pulseTimesMs[k], conducted: true,
-      conductionRatio: Number.isNaN(xm) ? null : ((x - xm) * s) / ref.transit, heightRatio: (r.farPeak[j] - hhRest().V) / ref.height,
+      timeMs: pulseTimesMs[k],
+      conducted: true,
+      conductionRatio: Number.isNaN(xm) ? null : ((x - xm) * s) / ref.transit,
+      heightRatio: (r.farPeak[j] - hhRest().V) / ref.height,
     };
   });
   return out;
@@ -180,13 +228,16 @@ export function timeScaledCable(pulseTimesMs: readonly number[], o: TimeScaledOp
 export function absoluteRefractoryMs(o: TimeScaledOptions & { tolMs?: number } = {}): number {
   const s = o.timeScale ?? 1;
   const tol = o.tolMs ?? 0.002 / s;
-  let lo = 3 / s, hi = 15 / s;
+  let lo = 3 / s,
+    hi = 15 / s;
   const ok = (isi: number) => timeScaledCable([0, isi], o)[1].conducted;
-  if (ok(lo)) throw new OptionError(`the fibre conducts a second pulse ${lo} ms after the first; no refractory period found`);
+  if (ok(lo))
+    throw new OptionError(`the fibre conducts a second pulse ${lo} ms after the first; no refractory period found`);
   if (!ok(hi)) throw new OptionError(`the fibre does not conduct a second pulse ${hi} ms after the first`);
   while (hi - lo > tol) {
     const mid = (lo + hi) / 2;
-    if (ok(mid)) hi = mid; else lo = mid;
+    if (ok(mid)) hi = mid;
+    else lo = mid;
   }
   return hi;
 }
@@ -202,7 +253,9 @@ export interface RecoveryTable {
 }
 
 /** Multiples of the refractory period where the recovery table is simulated (denser near it). */
-export const RECOVERY_GRID = [1.0005, 1.01, 1.03, 1.06, 1.1, 1.15, 1.2, 1.3, 1.4, 1.55, 1.7, 1.85, 2, 2.25, 2.5, 2.8, 3.2, 3.7, 4.3, 5];
+export const RECOVERY_GRID = [
+  1.0005, 1.01, 1.03, 1.06, 1.1, 1.15, 1.2, 1.3, 1.4, 1.55, 1.7, 1.85, 2, 2.25, 2.5, 2.8, 3.2, 3.7, 4.3, 5,
+];
 
 const tableCache = new Map<string, RecoveryTable>();
 
@@ -215,12 +268,16 @@ export function recoveryTable(drive: number = REFRACTORY_FIBRE.drive): RecoveryT
   const hit = tableCache.get(key);
   if (hit) return hit;
   const arp = absoluteRefractoryMs({ drive, tolMs: 0.002 });
-  const intervalMs: number[] = [], conductionRatio: number[] = [], heightRatio: number[] = [];
+  const intervalMs: number[] = [],
+    conductionRatio: number[] = [],
+    heightRatio: number[] = [];
   for (const g of RECOVERY_GRID) {
     const isi = arp * g;
     const r = timeScaledCable([0, isi], { drive })[1];
     if (!r.conducted) continue; // a non-monotone edge: left out of the table
-    intervalMs.push(isi); conductionRatio.push(r.conductionRatio!); heightRatio.push(r.heightRatio!);
+    intervalMs.push(isi);
+    conductionRatio.push(r.conductionRatio!);
+    heightRatio.push(r.heightRatio!);
   }
   const t: RecoveryTable = { drive, arpMs: arp, intervalMs, conductionRatio, heightRatio };
   tableCache.set(key, t);
@@ -231,16 +288,22 @@ export function recoveryTable(drive: number = REFRACTORY_FIBRE.drive): RecoveryT
  * The second pulse's outcome at interval `intervalMs` for a fibre of time scale s, from the table (linear
  * interpolation in the interval; past the table's end the fibre is treated as recovered: ratios 1).
  */
-export function secondPulse(table: RecoveryTable, intervalMs: number, timeScale: number): { conducted: boolean; conductionRatio: number; heightRatio: number } {
+export function secondPulse(
+  table: RecoveryTable,
+  intervalMs: number,
+  timeScale: number,
+): { conducted: boolean; conductionRatio: number; heightRatio: number } {
   const k = intervalMs * timeScale;
   if (!(k >= table.arpMs)) return { conducted: false, conductionRatio: NaN, heightRatio: 0 };
   const x = table.intervalMs;
-  if (k <= x[0]) return { conducted: true, conductionRatio: table.conductionRatio[0], heightRatio: table.heightRatio[0] };
+  if (k <= x[0])
+    return { conducted: true, conductionRatio: table.conductionRatio[0], heightRatio: table.heightRatio[0] };
   if (k >= x[x.length - 1]) {
     // relax the last simulated values towards 1 over one further table span (no jump at the end)
     const span = x[x.length - 1] - x[0];
     const u = Math.min(1, (k - x[x.length - 1]) / span);
-    const lastC = table.conductionRatio[x.length - 1], lastH = table.heightRatio[x.length - 1];
+    const lastC = table.conductionRatio[x.length - 1],
+      lastH = table.heightRatio[x.length - 1];
     return { conducted: true, conductionRatio: lastC + (1 - lastC) * u, heightRatio: lastH + (1 - lastH) * u };
   }
   let i = 1;

@@ -26,59 +26,118 @@ export type Samples = Float64Array | Float32Array;
  * the eager one bit for bit.
  */
 export interface Correction {
-  line: boolean; level: Float64Array; slope: Float64Array; center: number;
-  template: boolean; scale: Float64Array; group: Int32Array; templates: Float64Array;
+  line: boolean;
+  level: Float64Array;
+  slope: Float64Array;
+  center: number;
+  template: boolean;
+  scale: Float64Array;
+  group: Int32Array;
+  templates: Float64Array;
   /** then samples bridgeFrom..bridgeTo (inclusive) bridged (artifact blanking), linear or cubic Hermite */
-  bridge: boolean; bridgeFrom: number; bridgeTo: number; bridgeHermite: boolean;
+  bridge: boolean;
+  bridgeFrom: number;
+  bridgeTo: number;
+  bridgeHermite: boolean;
 }
 
 /** A correction that changes nothing (fields to be overridden). */
 export function noCorrection(): Correction {
   return {
-    line: false, level: new Float64Array(0), slope: new Float64Array(0), center: 0,
-    template: false, scale: new Float64Array(0), group: new Int32Array(0), templates: new Float64Array(0),
-    bridge: false, bridgeFrom: 0, bridgeTo: -1, bridgeHermite: false,
+    line: false,
+    level: new Float64Array(0),
+    slope: new Float64Array(0),
+    center: 0,
+    template: false,
+    scale: new Float64Array(0),
+    group: new Int32Array(0),
+    templates: new Float64Array(0),
+    bridge: false,
+    bridgeFrom: 0,
+    bridgeTo: -1,
+    bridgeHermite: false,
   };
 }
 
 /** Write samples [i0, i1) of corrected sweep s of base (n samples per sweep) to dst[o + i]. */
-export function correctSweep(base: Samples, n: number, c: Correction, s: number, dst: Float64Array, o: number, i0 = 0, i1 = n): void {
+export function correctSweep(
+  base: Samples,
+  n: number,
+  c: Correction,
+  s: number,
+  dst: Float64Array,
+  o: number,
+  i0 = 0,
+  i1 = n,
+): void {
   if (c.bridge) {
     if (i0 !== 0 || i1 !== n) throw new Error('a pending bridge is applied to whole sweeps only');
     lineAndTemplate(base, n, c, s, dst, o, 0, n);
-    bridgeGap(o === 0 && dst.length === n ? dst : dst.subarray(o, o + n), c.bridgeFrom, c.bridgeTo, c.bridgeHermite ? 'hermite' : 'linear');
+    bridgeGap(
+      o === 0 && dst.length === n ? dst : dst.subarray(o, o + n),
+      c.bridgeFrom,
+      c.bridgeTo,
+      c.bridgeHermite ? 'hermite' : 'linear',
+    );
     return;
   }
   lineAndTemplate(base, n, c, s, dst, o, i0, i1);
 }
 
-function lineAndTemplate(base: Samples, n: number, c: Correction, s: number, dst: Float64Array, o: number, i0: number, i1: number): void {
+function lineAndTemplate(
+  base: Samples,
+  n: number,
+  c: Correction,
+  s: number,
+  dst: Float64Array,
+  o: number,
+  i0: number,
+  i1: number,
+): void {
   const b = s * n;
   if (c.line && c.template && c.slope[s] === 0) {
     // the usual pair (baseline, then template) in one pass, same arithmetic order
-    const l0 = c.level[s], k = c.scale[s], t = c.group[s] * n, T = c.templates;
-    for (let i = i0; i < i1; i++) dst[o + i] = (base[b + i] - l0) - k * T[t + i];
+    const l0 = c.level[s],
+      k = c.scale[s],
+      t = c.group[s] * n,
+      T = c.templates;
+    for (let i = i0; i < i1; i++) dst[o + i] = base[b + i] - l0 - k * T[t + i];
     return;
   }
   if (c.line) {
-    const l0 = c.level[s], k = c.slope[s];
+    const l0 = c.level[s],
+      k = c.slope[s];
     if (k === 0) for (let i = i0; i < i1; i++) dst[o + i] = base[b + i] - l0;
     else for (let i = i0; i < i1; i++) dst[o + i] = base[b + i] - (l0 + k * (i - c.center));
   } else for (let i = i0; i < i1; i++) dst[o + i] = base[b + i];
   if (c.template) {
-    const k = c.scale[s], t = c.group[s] * n - o, T = c.templates;
+    const k = c.scale[s],
+      t = c.group[s] * n - o,
+      T = c.templates;
     for (let i = o + i0, e = o + i1; i < e; i++) dst[i] = dst[i] - k * T[t + i];
   }
 }
 
-export interface CorrectArgs { x: Samples; out: Float64Array; n: number; c: Correction }
+export interface CorrectArgs {
+  x: Samples;
+  out: Float64Array;
+  n: number;
+  c: Correction;
+}
 /** Apply a pending correction to sweeps s0..s1-1. */
 function correct(a: CorrectArgs, s0: number, s1: number): number {
   for (let s = s0; s < s1; s++) correctSweep(a.x, a.n, a.c, s, a.out, s * a.n);
   return -1;
 }
 
-export interface FiltfiltArgs { x: Samples; c: Correction | null; out: Float64Array; n: number; sos: number[][]; padlen: number }
+export interface FiltfiltArgs {
+  x: Samples;
+  c: Correction | null;
+  out: Float64Array;
+  n: number;
+  sos: number[][];
+  padlen: number;
+}
 /**
  * Zero-phase filtering of sweeps s0..s1-1 (pairs share one interleaved loop); a
  * pending correction is applied to each sweep on the way in.
@@ -104,7 +163,15 @@ function filtfilt(a: FiltfiltArgs, s0: number, s1: number): number {
     for (; s + 1 < s1; s += 2) {
       place(s, work.ext);
       place(s + 1, work2.ext);
-      sosfiltfiltPairExt(sos, out.subarray(s * n, (s + 1) * n), out.subarray((s + 1) * n, (s + 2) * n), work, work2, n, padlen);
+      sosfiltfiltPairExt(
+        sos,
+        out.subarray(s * n, (s + 1) * n),
+        out.subarray((s + 1) * n, (s + 2) * n),
+        work,
+        work2,
+        n,
+        padlen,
+      );
     }
   } else {
     for (; s + 1 < s1; s += 2) {
@@ -112,14 +179,27 @@ function filtfilt(a: FiltfiltArgs, s0: number, s1: number): number {
       sosfiltfilt(sos, input(s + 1, ta), { padlen, work, out: out.subarray((s + 1) * n, (s + 2) * n) });
     }
   }
-  if (s < s1) sosfiltfilt(sos, input(s, c ? (ta ?? new Float64Array(n)) : null), { padlen, work, out: out.subarray(s * n, (s + 1) * n) });
+  if (s < s1)
+    sosfiltfilt(sos, input(s, c ? (ta ?? new Float64Array(n)) : null), {
+      padlen,
+      work,
+      out: out.subarray(s * n, (s + 1) * n),
+    });
   return -1;
 }
 
 export interface LoadArgs {
-  fd: number; dtype: 'int16' | 'float32' | 'float64'; little: boolean; interleaved: boolean;
-  nSamples: number; nChannels: number; channel: number; gain: number; offset: number;
-  out: Float64Array; chunkSweeps: number;
+  fd: number;
+  dtype: 'int16' | 'float32' | 'float64';
+  little: boolean;
+  interleaved: boolean;
+  nSamples: number;
+  nChannels: number;
+  channel: number;
+  gain: number;
+  offset: number;
+  out: Float64Array;
+  chunkSweeps: number;
 }
 const BYTES = { int16: 2, float32: 4, float64: 8 } as const;
 const NATIVE_LITTLE = new Uint8Array(new Uint16Array([1]).buffer)[0] === 1;
@@ -132,16 +212,34 @@ let scratch = new ArrayBuffer(0);
  * independent (about four times faster than one chain).
  */
 function finiteSum(x: Float64Array, from: number, to: number): boolean {
-  let a = 0, b = 0, c = 0, d = 0, i = from;
-  for (; i + 3 < to; i += 4) { a += x[i]; b += x[i + 1]; c += x[i + 2]; d += x[i + 3]; }
+  let a = 0,
+    b = 0,
+    c = 0,
+    d = 0,
+    i = from;
+  for (; i + 3 < to; i += 4) {
+    a += x[i];
+    b += x[i + 1];
+    c += x[i + 2];
+    d += x[i + 3];
+  }
   for (; i < to; i++) a += x[i];
   const t = a + b + c + d;
   return t - t === 0;
 }
 /** finiteSum on float32 values (each widened exactly to float64 before it is added). */
 function finiteSum32(x: Float32Array, from: number, to: number): boolean {
-  let a = 0, b = 0, c = 0, d = 0, i = from;
-  for (; i + 3 < to; i += 4) { a += x[i]; b += x[i + 1]; c += x[i + 2]; d += x[i + 3]; }
+  let a = 0,
+    b = 0,
+    c = 0,
+    d = 0,
+    i = from;
+  for (; i + 3 < to; i += 4) {
+    a += x[i];
+    b += x[i + 1];
+    c += x[i + 2];
+    d += x[i + 3];
+  }
   for (; i < to; i++) a += x[i];
   const t = a + b + c + d;
   return t - t === 0;
@@ -180,25 +278,41 @@ function load(a: LoadArgs, s0: number, s1: number): number {
     }
     let src: ArrayLike<number>;
     if (little === NATIVE_LITTLE) {
-      src = dtype === 'int16' ? new Int16Array(scratch, 0, bytes / 2) : dtype === 'float32' ? new Float32Array(scratch, 0, bytes / 4) : new Float64Array(scratch, 0, bytes / 8);
+      src =
+        dtype === 'int16'
+          ? new Int16Array(scratch, 0, bytes / 2)
+          : dtype === 'float32'
+            ? new Float32Array(scratch, 0, bytes / 4)
+            : new Float64Array(scratch, 0, bytes / 8);
     } else {
       const dv = new DataView(scratch, 0, bytes);
       const m = bytes / w;
       const arr = new Float64Array(m);
-      for (let i = 0; i < m; i++) arr[i] = dtype === 'int16' ? dv.getInt16(i * 2, little) : dtype === 'float32' ? dv.getFloat32(i * 4, little) : dv.getFloat64(i * 8, little);
+      for (let i = 0; i < m; i++)
+        arr[i] =
+          dtype === 'int16'
+            ? dv.getInt16(i * 2, little)
+            : dtype === 'float32'
+              ? dv.getFloat32(i * 4, little)
+              : dv.getFloat64(i * 8, little);
       src = arr;
     }
     // float32 read as is: check the chunk while it is in cache, at half the bytes of the result
     const checked = dtype === 'float32' && identity && !interleaved && nc === 1 && src instanceof Float32Array;
     let bad = -1;
     if (checked && !finiteSum32(src as Float32Array, 0, k * n)) {
-      for (let i = 0; i < k * n; i++) if (src[i] - src[i] !== 0) { bad = o + i; break; }
+      for (let i = 0; i < k * n; i++)
+        if (src[i] - src[i] !== 0) {
+          bad = o + i;
+          break;
+        }
     }
     for (let j = 0; j < k; j++) {
       const d = o + j * n;
       if (!interleaved) {
         const b = (j * nc + ch) * n;
-        if (identity) out.set((src as Float32Array | Int16Array | Float64Array).subarray(b, b + n), d); // native conversion
+        if (identity)
+          out.set((src as Float32Array | Int16Array | Float64Array).subarray(b, b + n), d); // native conversion
         else for (let i = 0; i < n; i++) out[d + i] = src[b + i] * gain + offset;
       } else {
         const b = j * n * nc + ch;
@@ -207,12 +321,18 @@ function load(a: LoadArgs, s0: number, s1: number): number {
     }
     // int16 x a finite gain + a finite offset is always finite
     if (bad >= 0) return bad; // after the chunk is written, so the caller can show the value
-    if (dtype !== 'int16' && !checked && !finiteSum(out, o, o + k * n)) for (let i = o, e = o + k * n; i < e; i++) if (out[i] - out[i] !== 0) return i;
+    if (dtype !== 'int16' && !checked && !finiteSum(out, o, o + k * n))
+      for (let i = o, e = o + k * n; i < e; i++) if (out[i] - out[i] !== 0) return i;
   }
   return -1;
 }
 
-export interface LoadAsReadArgs { fd: number; nSamples: number; out: Float32Array; chunkSweeps: number }
+export interface LoadAsReadArgs {
+  fd: number;
+  nSamples: number;
+  out: Float32Array;
+  chunkSweeps: number;
+}
 /**
  * Read sweeps s0..s1-1 of a native-order float32 file (one channel, sweep after sweep)
  * straight into out, which keeps them as float32 (see Samples). Returns the flat index
@@ -238,8 +358,15 @@ function loadAsRead(a: LoadAsReadArgs, s0: number, s1: number): number {
 }
 
 export interface CsvArgs {
-  bytes: Uint8Array; starts: Float64Array; firstRows: Float64Array;
-  ncol: number; rowsMax: number; dec: number; dcode: number; out: Float64Array; t: Float64Array;
+  bytes: Uint8Array;
+  starts: Float64Array;
+  firstRows: Float64Array;
+  ncol: number;
+  rowsMax: number;
+  dec: number;
+  dcode: number;
+  out: Float64Array;
+  t: Float64Array;
 }
 /**
  * Parse parts p0..p1-1 of the data region of a wide delimited file (part p: bytes
@@ -255,7 +382,10 @@ function csvWide(a: CsvArgs, p0: number, p1: number): number {
   let total = 0;
   for (let p = p0; p < p1; p++) {
     const end = starts[p + 1];
-    let k = starts[p], row = firstRows[p], slot = 0, first = row;
+    let k = starts[p],
+      row = firstRows[p],
+      slot = 0,
+      first = row;
     while (k < end) {
       let e = bytes.indexOf(10, k);
       if (e < 0 || e > end) e = end;
@@ -267,7 +397,11 @@ function csvWide(a: CsvArgs, p0: number, p1: number): number {
       }
       if (row >= rowsMax || !plainRow(bytes, k, le, ncol, dec, dcode, t, row, block, slot)) return -1;
       row++;
-      if (++slot === PLAIN_BLOCK) { flushBlock(block, nSweeps, out, rowsMax, first, slot); first = row; slot = 0; }
+      if (++slot === PLAIN_BLOCK) {
+        flushBlock(block, nSweeps, out, rowsMax, first, slot);
+        first = row;
+        slot = 0;
+      }
       k = e + 1;
     }
     if (slot) flushBlock(block, nSweeps, out, rowsMax, first, slot);
@@ -277,7 +411,12 @@ function csvWide(a: CsvArgs, p0: number, p1: number): number {
   return total;
 }
 
-export interface SinesArgs { x: Float64Array; out: Float64Array; d: SineParts; amp: Float64Array }
+export interface SinesArgs {
+  x: Float64Array;
+  out: Float64Array;
+  d: SineParts;
+  amp: Float64Array;
+}
 /**
  * Hum removal of sweeps s0..s1-1: least-squares sinusoids on the design's fitted
  * samples, subtracted over the whole sweep; the fundamental's amplitude into amp.
@@ -295,14 +434,25 @@ function removeSines(a: SinesArgs, s0: number, s1: number): number {
     amp[s] = Math.hypot(coef[1], coef[2]);
     for (let i = 0; i < n; i++) {
       let v = 0;
-      for (let h = 1; h <= H; h++) v += coef[2 * h - 1] * full[(2 * h - 2) * n + i] + coef[2 * h] * full[(2 * h - 1) * n + i];
+      for (let h = 1; h <= H; h++)
+        v += coef[2 * h - 1] * full[(2 * h - 2) * n + i] + coef[2 * h] * full[(2 * h - 1) * n + i];
       out[o + i] = x[o + i] - v;
     }
   }
   return -1;
 }
 
-export interface ResampleArgs { x: Float64Array; out: Float64Array; n: number; m: number; up: number; down: number; h: Float64Array; preRemove: number; padtype: 'constant' | 'mean' | 'median' }
+export interface ResampleArgs {
+  x: Float64Array;
+  out: Float64Array;
+  n: number;
+  m: number;
+  up: number;
+  down: number;
+  h: Float64Array;
+  preRemove: number;
+  padtype: 'constant' | 'mean' | 'median';
+}
 /** Rational-rate resampling of sweeps s0..s1-1 (n samples in, m out), after taking off each sweep's background. */
 function resampleSweeps(a: ResampleArgs, s0: number, s1: number): number {
   const { x, out, n, m, up, down, h, preRemove, padtype } = a;
@@ -324,9 +474,15 @@ function resampleSweeps(a: ResampleArgs, s0: number, s1: number): number {
 }
 
 export interface AverageArgs {
-  x: Float64Array; n: number; start: Int32Array; members: Int32Array; median: number;
+  x: Float64Array;
+  n: number;
+  start: Int32Array;
+  members: Int32Array;
+  median: number;
   /** mean (or median) sweeps, or empty; sd and sem sweeps, or empty (each G x n) */
-  out: Float64Array; sd: Float64Array; sem: Float64Array;
+  out: Float64Array;
+  sd: Float64Array;
+  sem: Float64Array;
 }
 /**
  * Mean (or median), SD and SEM sweeps of groups g0..g1-1; group g holds the sweeps
@@ -339,13 +495,19 @@ function average(a: AverageArgs, g0: number, g1: number): number {
   const mean = new Float64Array(n);
   const buf = a.median ? new Float64Array(Math.max(1, start[start.length - 1])) : null;
   for (let g = g0; g < g1; g++) {
-    const k0 = start[g], k1 = start[g + 1], m = k1 - k0, o = g * n;
+    const k0 = start[g],
+      k1 = start[g + 1],
+      m = k1 - k0,
+      o = g * n;
     mean.fill(0);
     let k = k0;
     // four members per pass over the row, added left to right: the order of one at a time
     for (; k + 3 < k1; k += 4) {
-      const b0 = members[k] * n, b1 = members[k + 1] * n, b2 = members[k + 2] * n, b3 = members[k + 3] * n;
-      for (let i = 0; i < n; i++) mean[i] = (((mean[i] + x[b0 + i]) + x[b1 + i]) + x[b2 + i]) + x[b3 + i];
+      const b0 = members[k] * n,
+        b1 = members[k + 1] * n,
+        b2 = members[k + 2] * n,
+        b3 = members[k + 3] * n;
+      for (let i = 0; i < n; i++) mean[i] = mean[i] + x[b0 + i] + x[b1 + i] + x[b2 + i] + x[b3 + i];
     }
     for (; k < k1; k++) {
       const b = members[k] * n;

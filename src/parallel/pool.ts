@@ -21,7 +21,12 @@ import { runInNewContext } from 'node:vm';
 import { OptionError, ThreadError } from '../errors';
 import { kernels, type KernelName } from './kernels';
 
-interface Slot { control: Int32Array; port: MessagePort; seq: number; id: number }
+interface Slot {
+  control: Int32Array;
+  port: MessagePort;
+  seq: number;
+  id: number;
+}
 const slots: Slot[] = [];
 /**
  * The pool's threads are started by a supervisor thread, not by the calling thread: a
@@ -63,7 +68,8 @@ export function threads(): number {
   const env = process.env.FASCICLE_THREADS;
   if (env !== undefined && env !== '') {
     const v = Number(env);
-    if (!Number.isInteger(v) || v < 1) throw new OptionError(`invalid FASCICLE_THREADS: ${JSON.stringify(env)}; must be an integer >= 1`);
+    if (!Number.isInteger(v) || v < 1)
+      throw new OptionError(`invalid FASCICLE_THREADS: ${JSON.stringify(env)}; must be an integer >= 1`);
     return Math.min(v, 64);
   }
   return Math.max(1, Math.min(availableParallelism(), 8));
@@ -71,7 +77,8 @@ export function threads(): number {
 
 /** Set the number of threads for per-sweep work (1 turns worker threads off). */
 export function setThreads(n: number): void {
-  if (!Number.isInteger(n) || n < 1 || n > 64) throw new OptionError(`invalid threads: ${n}; must be an integer from 1 to 64`);
+  if (!Number.isInteger(n) || n < 1 || n > 64)
+    throw new OptionError(`invalid threads: ${n}; must be an integer from 1 to 64`);
   setting = n;
 }
 
@@ -142,7 +149,8 @@ function heapLimitMb(): number | undefined {
   const env = process.env.FASCICLE_WORKER_HEAP_MB;
   if (env === undefined || env === '') return undefined;
   const v = Number(env);
-  if (!Number.isInteger(v) || v < 8) throw new OptionError(`invalid FASCICLE_WORKER_HEAP_MB: ${JSON.stringify(env)}; must be an integer >= 8 (MB)`);
+  if (!Number.isInteger(v) || v < 8)
+    throw new OptionError(`invalid FASCICLE_WORKER_HEAP_MB: ${JSON.stringify(env)}; must be an integer >= 8 (MB)`);
   return v;
 }
 
@@ -156,7 +164,9 @@ function startSlot(): Slot | null {
       return null;
     }
     supervisor.unref();
-    supervisor.on('error', () => { broken = true; });
+    supervisor.on('error', () => {
+      broken = true;
+    });
   }
   // control: [0] job, [1] done, [2] ready, [3] short waits, [4] stopped, [5] why (1 out of memory, 2 exit, 3 crash), [6] exit code
   const control = new Int32Array(new SharedArrayBuffer(32));
@@ -165,7 +175,8 @@ function startSlot(): Slot | null {
   supervisor.postMessage({ start: { file, control: control.buffer, port: port2, fault, limit } }, [port2]);
   // wait (up to 10 s) for the worker to say it is ready, or for the supervisor to say it stopped
   const t0 = Date.now();
-  while (Atomics.load(control, 2) === 0 && Atomics.load(control, 4) === 0 && Date.now() - t0 < 10000) Atomics.wait(control, 2, 0, 100);
+  while (Atomics.load(control, 2) === 0 && Atomics.load(control, 4) === 0 && Date.now() - t0 < 10000)
+    Atomics.wait(control, 2, 0, 100);
   if (Atomics.load(control, 2) === 0) {
     port1.close();
     return null;
@@ -194,15 +205,27 @@ function sharedArgs(args: object): boolean {
  * args are shared and the work (samples) is large enough. Returns each part's
  * result in sweep order.
  */
-export function runSweeps<K extends KernelName>(kernel: K, args: Parameters<(typeof kernels)[K]>[0], nSweeps: number, work: number): number[] {
+export function runSweeps<K extends KernelName>(
+  kernel: K,
+  args: Parameters<(typeof kernels)[K]>[0],
+  nSweeps: number,
+  work: number,
+): number[] {
   const run = kernels[kernel] as (a: unknown, s0: number, s1: number) => number;
   const T = Math.min(threads(), nSweeps);
   if (T < 2 || work < PARALLEL_MIN_SAMPLES || !sharedArgs(args)) return [run(args, 0, nSweeps)];
   // threads that stopped between calls are replaced
-  for (let k = slots.length - 1; k >= 0; k--) if (Atomics.load(slots[k].control, 4) === 1) { slots[k].port.close(); slots.splice(k, 1); }
+  for (let k = slots.length - 1; k >= 0; k--)
+    if (Atomics.load(slots[k].control, 4) === 1) {
+      slots[k].port.close();
+      slots.splice(k, 1);
+    }
   while (slots.length < T - 1) {
     const s = startSlot();
-    if (!s) { broken = true; return [run(args, 0, nSweeps)]; }
+    if (!s) {
+      broken = true;
+      return [run(args, 0, nSweeps)];
+    }
     slots.push(s);
   }
   const bounds = Array.from({ length: T + 1 }, (_, k) => Math.round((k * nSweeps) / T));
@@ -227,7 +250,10 @@ export function runSweeps<K extends KernelName>(kernel: K, args: Parameters<(typ
     while ((v = Atomics.load(slot.control, 1)) !== slot.seq) {
       if (Atomics.load(slot.control, 4) === 1) {
         dead.push(slot);
-        if (!failure) failure = new ThreadError(`a worker thread ${stopReason(slot.control)} while running "${kernel}" on sweeps ${bounds[j + 1]}-${bounds[j + 2] - 1}; the call was abandoned (FASCICLE_THREADS=1 keeps the work on the calling thread)`);
+        if (!failure)
+          failure = new ThreadError(
+            `a worker thread ${stopReason(slot.control)} while running "${kernel}" on sweeps ${bounds[j + 1]}-${bounds[j + 2] - 1}; the call was abandoned (FASCICLE_THREADS=1 keeps the work on the calling thread)`,
+          );
         return;
       }
       Atomics.wait(slot.control, 1, v, 1000);
@@ -236,10 +262,16 @@ export function runSweeps<K extends KernelName>(kernel: K, args: Parameters<(typ
     while (!reply) {
       if (Atomics.load(slot.control, 4) === 1 && !(reply = receiveMessageOnPort(slot.port))) {
         dead.push(slot);
-        if (!failure) failure = new ThreadError(`a worker thread ${stopReason(slot.control)} before replying; the call was abandoned`);
+        if (!failure)
+          failure = new ThreadError(
+            `a worker thread ${stopReason(slot.control)} before replying; the call was abandoned`,
+          );
         return;
       }
-      if (!reply) { Atomics.wait(slot.control, 3, 0, 1); reply = receiveMessageOnPort(slot.port); }
+      if (!reply) {
+        Atomics.wait(slot.control, 3, 0, 1);
+        reply = receiveMessageOnPort(slot.port);
+      }
     }
     const m = reply.message as { value?: number; error?: string };
     if (m.error !== undefined && !failure) failure = new Error(`worker thread: ${m.error}`);

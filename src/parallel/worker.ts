@@ -14,7 +14,13 @@ import { setFlagsFromString } from 'node:v8';
 import { runInNewContext } from 'node:vm';
 import { kernels, type KernelName } from './kernels';
 
-interface Start { file: string; control: SharedArrayBuffer; port: MessagePort; fault: 'exit' | 'oom' | null; limit?: number }
+interface Start {
+  file: string;
+  control: SharedArrayBuffer;
+  port: MessagePort;
+  fault: 'exit' | 'oom' | null;
+  limit?: number;
+}
 
 function supervise(): void {
   parentPort!.on('message', (m: { start: Start }) => {
@@ -31,13 +37,19 @@ function supervise(): void {
     let w: Worker;
     try {
       const limits = limit ? { resourceLimits: { maxOldGenerationSizeMb: limit } } : {};
-      w = new Worker(file, { workerData: { role: 'pool', control: buf, port, fault }, transferList: [port], ...limits });
+      w = new Worker(file, {
+        workerData: { role: 'pool', control: buf, port, fault },
+        transferList: [port],
+        ...limits,
+      });
     } catch {
       stopped(3, -1);
       return;
     }
     let why = 2;
-    w.on('error', (e) => { why = (e as NodeJS.ErrnoException).code === 'ERR_WORKER_OUT_OF_MEMORY' ? 1 : 3; });
+    w.on('error', (e) => {
+      why = (e as NodeJS.ErrnoException).code === 'ERR_WORKER_OUT_OF_MEMORY' ? 1 : 3;
+    });
     w.on('exit', (code) => stopped(why, code));
   });
 }
@@ -54,11 +66,17 @@ function pool(): void {
 
   const handle = (): void => {
     let job = receiveMessageOnPort(port);
-    while (!job) { Atomics.wait(control, 3, 0, 1); job = receiveMessageOnPort(port); }
+    while (!job) {
+      Atomics.wait(control, 3, 0, 1);
+      job = receiveMessageOnPort(port);
+    }
     const m = job.message as { kernel: KernelName; args: never; s0: number; s1: number };
     // test hook (pool.setWorkerFault): fail as a real thread would, by exiting or exhausting the heap
     if (fault === 'exit') process.exit(70);
-    if (fault === 'oom') { const hog: number[][] = []; for (;;) hog.push(new Array(1 << 16).fill(Math.random())); }
+    if (fault === 'oom') {
+      const hog: number[][] = [];
+      for (;;) hog.push(new Array(1 << 16).fill(Math.random()));
+    }
     let reply: { value?: number; error?: string };
     try {
       reply = { value: (kernels[m.kernel] as (a: unknown, s0: number, s1: number) => number)(m.args, m.s0, m.s1) };

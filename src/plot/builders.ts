@@ -546,8 +546,17 @@ export function velocityFigure(
 /** A class's latency window as a light band behind the sweeps (the sweep figure and the sweep viewer). */
 export function classWindowShape(r: Record<string, unknown>, ci: number): Record<string, unknown> {
   return {
-    type: 'rect', xref: 'x', yref: 'paper', x0: r.window_start_ms, x1: r.window_end_ms, y0: 0, y1: 1,
-    fillcolor: colour(ci), opacity: 0.1, line: { width: 0 }, layer: 'below',
+    type: 'rect',
+    xref: 'x',
+    yref: 'paper',
+    x0: r.window_start_ms,
+    x1: r.window_end_ms,
+    y0: 0,
+    y1: 1,
+    fillcolor: colour(ci),
+    opacity: 0.1,
+    line: { width: 0 },
+    layer: 'below',
   };
 }
 

@@ -60,26 +60,42 @@ export function groupFigure(result: GroupComparison, options: GroupFigureOptions
       for (const a of [...new Set(mine.map((p) => String(p.animal)))]) {
         const line = conds.map((c) => mine.find((p) => String(p.animal) === a && same(p.condition, c)));
         data.push({
-          type: 'scatter', mode: 'lines', name: `${name} ${esc(a)}`,
+          type: 'scatter',
+          mode: 'lines',
+          name: `${name} ${esc(a)}`,
           x: line.map((p, k) => (p ? xOf(conds[k], g) + 0.25 * width * jitter(a) : null)),
           y: line.map((p) => (p ? p.value : null)),
-          line: { color: colour(gi), width: 0.8 }, opacity: 0.35, showlegend: false, hoverinfo: 'skip',
+          line: { color: colour(gi), width: 0.8 },
+          opacity: 0.35,
+          showlegend: false,
+          hoverinfo: 'skip',
         });
       }
     }
     data.push({
-      type: 'scatter', mode: 'markers', name: `${name} (preparations)`,
-      x: mine.map((p) => xOf(p.condition, g) + 0.25 * width * jitter(String(p.animal))), y: mine.map((p) => p.value),
-      text: mine.map((p) => `${esc(String(p.animal))}: mean of ${p.n}`), hoverinfo: 'text+y',
+      type: 'scatter',
+      mode: 'markers',
+      name: `${name} (preparations)`,
+      x: mine.map((p) => xOf(p.condition, g) + 0.25 * width * jitter(String(p.animal))),
+      y: mine.map((p) => p.value),
+      text: mine.map((p) => `${esc(String(p.animal))}: mean of ${p.n}`),
+      hoverinfo: 'text+y',
       marker: { color: colour(gi), size: 7, opacity: 0.75 },
     });
     const s = conds.map((c) => sum.find((q) => same(q.group, g) && (!o.condition || same(q.condition, c))));
     const ok = s.filter((q) => q && q.status === 'ok').map((q) => q!);
     data.push({
-      type: 'scatter', mode: 'markers', name: `${name} mean, 95% CI`,
-      x: ok.map((q) => xOf(o.condition ? (q.condition as ConditionValue) : null, g)), y: ok.map((q) => q.mean),
+      type: 'scatter',
+      mode: 'markers',
+      name: `${name} mean, 95% CI`,
+      x: ok.map((q) => xOf(o.condition ? (q.condition as ConditionValue) : null, g)),
+      y: ok.map((q) => q.mean),
       error_y: {
-        type: 'data', symmetric: false, color: '#222', thickness: 1.5, width: 6,
+        type: 'data',
+        symmetric: false,
+        color: '#222',
+        thickness: 1.5,
+        width: 6,
         array: ok.map((q) => (q.ci95_high as number) - (q.mean as number)),
         arrayminus: ok.map((q) => (q.mean as number) - (q.ci95_low as number)),
       },
@@ -89,19 +105,22 @@ export function groupFigure(result: GroupComparison, options: GroupFigureOptions
   // the y title: the caller's label with the unit, or the column's measure label (which carries its unit)
   const unit = o.unit ? ` (${unitText(o.unit)})` : '';
   const auto = measureLabel(o.value);
-  const yTitle = options.label !== undefined
-    ? `${esc(options.label)}${unit}`
-    : /\)$/.test(auto) ? auto : `${auto}${unit}`;
+  const yTitle =
+    options.label !== undefined ? `${esc(options.label)}${unit}` : /\)$/.test(auto) ? auto : `${auto}${unit}`;
   const what = yTitle.replace(/ \([^()]*\)$/, '');
   const where = o.by.map((k) => `${esc(k)} ${esc(String(cell[k]))}`).join(', ');
-  const title = options.title !== undefined
-    ? esc(options.title)
-    : `${what} by group${where ? ` (${where})` : ''}: preparations as the unit`;
+  const title =
+    options.title !== undefined
+      ? esc(options.title)
+      : `${what} by group${where ? ` (${where})` : ''}: preparations as the unit`;
   const xTitle = o.condition ? esc(o.condition) : esc(o.group || 'group');
   const base = baseLayout(title, xTitle, yTitle);
   const xaxis = {
-    ...(base.xaxis as object), tickmode: 'array', tickvals: conds.map((_, i) => i),
-    ticktext: o.condition ? conds.map((c) => esc(String(c))) : [''], range: [-0.6, conds.length - 0.4],
+    ...(base.xaxis as object),
+    tickmode: 'array',
+    tickvals: conds.map((_, i) => i),
+    ticktext: o.condition ? conds.map((c) => esc(String(c))) : [''],
+    range: [-0.6, conds.length - 0.4],
   };
   const name = `groups-${o.value}${o.by.map((k) => `-${String(cell[k])}`).join('')}`.replace(/[^A-Za-z0-9_.-]+/g, '_');
   return new Figure(name, { data, layout: { ...base, xaxis } });

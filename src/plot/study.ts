@@ -28,9 +28,15 @@ export function studyFigureList(study: Study): Figure[] {
   // optional analyses: figures from their tables (the figure functions read points and summary only)
   const named = (f: Figure, name: string) => new Figure(name, f.spec);
   if (t.paired_pulse?.length && t.paired_pulse_summary) {
-    figs.push(named(recoveryFigure(new PairedPulseResult(t.paired_pulse, t.paired_pulse_summary, new Map(), [])), 'paired-pulse'));
+    figs.push(
+      named(
+        recoveryFigure(new PairedPulseResult(t.paired_pulse, t.paired_pulse_summary, new Map(), [])),
+        'paired-pulse',
+      ),
+    );
   }
-  if (t.train?.length && t.train_summary) figs.push(named(trainFigure(new TrainResult(t.train, t.train_summary, [])), 'train'));
+  if (t.train?.length && t.train_summary)
+    figs.push(named(trainFigure(new TrainResult(t.train, t.train_summary, [])), 'train'));
   if (study.groups && study.groups.points.length) figs.push(...groupFigures(study.groups));
   return figs;
 }

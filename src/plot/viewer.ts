@@ -92,8 +92,7 @@ export function sweepViewer(
       const rows = tb.rows.filter((r) => r.sweep === s);
       for (const r of rows) {
         const ci = classes.indexOf(r.class);
-        if (num(r.window_start_ms) && num(r.window_end_ms))
-          shapes.push(classWindowShape(r, ci));
+        if (num(r.window_start_ms) && num(r.window_end_ms)) shapes.push(classWindowShape(r, ci));
         const m = MARKS.filter(([key]) => r.detected && num(r[key]));
         if (!m.length) continue;
         mine.push(data.length);

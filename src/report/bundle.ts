@@ -4,7 +4,17 @@
  * then a rename), so an interrupted export leaves the old bundle or none.
  */
 import {
-  mkdirSync, writeFileSync, renameSync, rmSync, rmdirSync, existsSync, readFileSync, readdirSync, lstatSync, realpathSync, unlinkSync,
+  mkdirSync,
+  writeFileSync,
+  renameSync,
+  rmSync,
+  rmdirSync,
+  existsSync,
+  readFileSync,
+  readdirSync,
+  lstatSync,
+  realpathSync,
+  unlinkSync,
 } from 'node:fs';
 import { dirname, basename, join, resolve, relative, isAbsolute, sep } from 'node:path';
 import { createHash, randomBytes } from 'node:crypto';
@@ -21,7 +31,8 @@ import { VERSION } from '../version';
  */
 export function csvCell(v: unknown): string {
   if (v === null || v === undefined) return '';
-  if (typeof v === 'number') return Number.isFinite(v) ? String(v) : Number.isNaN(v) ? 'NaN' : v > 0 ? 'Infinity' : '-Infinity';
+  if (typeof v === 'number')
+    return Number.isFinite(v) ? String(v) : Number.isNaN(v) ? 'NaN' : v > 0 ? 'Infinity' : '-Infinity';
   if (typeof v === 'boolean') return v ? 'true' : 'false';
   let s = Array.isArray(v) ? v.join(' ') : typeof v === 'object' ? JSON.stringify(v) : String(v);
   if (/^[=+\-@\t\r]/.test(s)) s = "'" + s;
@@ -44,8 +55,19 @@ export interface Provenance {
   paths?: string;
 }
 
-export function makeProvenance(steps: readonly Step[], inputs: readonly Source[], rerun?: Provenance['rerun']): Provenance {
-  return { package: 'fascicle', version: VERSION, node: process.version, inputs: [...inputs], steps, ...(rerun ? { rerun } : {}) };
+export function makeProvenance(
+  steps: readonly Step[],
+  inputs: readonly Source[],
+  rerun?: Provenance['rerun'],
+): Provenance {
+  return {
+    package: 'fascicle',
+    version: VERSION,
+    node: process.version,
+    inputs: [...inputs],
+    steps,
+    ...(rerun ? { rerun } : {}),
+  };
 }
 
 /**
@@ -54,22 +76,29 @@ export function makeProvenance(steps: readonly Step[], inputs: readonly Source[]
  */
 export function verifyInputs(p: Provenance, base = '.'): void {
   if (!Array.isArray(p.inputs)) {
-    throw new InputError({ file: 'provenance.json', field: 'inputs' },
+    throw new InputError(
+      { file: 'provenance.json', field: 'inputs' },
       'no list of inputs',
-      'the inputs array fascicle writes');
+      'the inputs array fascicle writes',
+    );
   }
   for (const s of p.inputs) {
     const path = resolve(base, s.path);
     if (!existsSync(path)) {
-      throw new InputError({ file: path },
+      throw new InputError(
+        { file: path },
         'the input file recorded in the provenance is missing',
-        `the file with SHA-256 ${s.sha256}`);
+        `the file with SHA-256 ${s.sha256}`,
+      );
     }
     const h = createHash('sha256').update(readFileSync(path)).digest('hex');
     if (h !== s.sha256) {
       const was = String(s.sha256).slice(0, 12);
-      throw new InputError({ file: path }, `the input file has changed since the analysis (SHA-256 ${h.slice(0, 12)}... instead of ${was}...)`,
-        'the same bytes as when the analysis ran');
+      throw new InputError(
+        { file: path },
+        `the input file has changed since the analysis (SHA-256 ${h.slice(0, 12)}... instead of ${was}...)`,
+        'the same bytes as when the analysis ran',
+      );
     }
   }
 }
@@ -117,7 +146,15 @@ export const BUNDLE_MARKER = '.fascicle-bundle';
 export const TEMP_MARKER = '.fascicle-temp';
 
 /** Files a bundle of an earlier version (before the marker) may hold, at its top level. */
-const LEGACY_TOP = new Set(['tables', 'figures', 'methods.txt', 'notes.txt', 'provenance.json', 'plotly.min.js', 'shard.json']);
+const LEGACY_TOP = new Set([
+  'tables',
+  'figures',
+  'methods.txt',
+  'notes.txt',
+  'provenance.json',
+  'plotly.min.js',
+  'shard.json',
+]);
 
 /** A bundle written by a fascicle version without the marker: only bundle files, and a fascicle provenance. */
 function isLegacyBundle(dir: string): boolean {
@@ -172,8 +209,12 @@ export function checkOutput(dir: string, inputs: readonly string[] = []): void {
     if (isInside(ri, target)) {
       const what = ri === target ? 'is' : 'contains';
       const e = join(dirname(target), basename(target) + '-bundle');
-      throw new OutputError(dir, `refusing to write the bundle to ${dir}: it ${what} an input of this analysis (${input}), `
-        + `which fascicle never replaces; give --out a new folder outside the study, e.g. ${e}`, { refused: true });
+      throw new OutputError(
+        dir,
+        `refusing to write the bundle to ${dir}: it ${what} an input of this analysis (${input}), ` +
+          `which fascicle never replaces; give --out a new folder outside the study, e.g. ${e}`,
+        { refused: true },
+      );
     }
   }
   let st;
@@ -182,17 +223,20 @@ export function checkOutput(dir: string, inputs: readonly string[] = []): void {
   } catch {
     return; // nothing there
   }
-  const refuse = (why: string) => new OutputError(dir,
-    `refusing to write the bundle to ${dir}: ${why}`,
-    { refused: true });
+  const refuse = (why: string) =>
+    new OutputError(dir, `refusing to write the bundle to ${dir}: ${why}`, { refused: true });
   if (st.isSymbolicLink()) throw refuse('it is a symbolic link; give the folder it points to, or a new folder');
   if (!st.isDirectory()) {
-    throw refuse('it is a file, not a folder, and fascicle never replaces files it did not write; give --out a new folder name');
+    throw refuse(
+      'it is a file, not a folder, and fascicle never replaces files it did not write; give --out a new folder name',
+    );
   }
   const entries = readdirSync(target);
   if (entries.length === 0 || entries.includes(BUNDLE_MARKER) || isLegacyBundle(target)) return;
-  throw refuse(`the folder is not empty and is not a bundle written by fascicle (it has no ${BUNDLE_MARKER} file), `
-    + 'so replacing it would delete your files; give --out a new or empty folder, or move that folder\'s files away yourself');
+  throw refuse(
+    `the folder is not empty and is not a bundle written by fascicle (it has no ${BUNDLE_MARKER} file), ` +
+      "so replacing it would delete your files; give --out a new or empty folder, or move that folder's files away yourself",
+  );
 }
 
 const escapeRe = (s: string) => s.replace(/[.*+?^${}()|[\]\\]/g, '\\$&');
@@ -248,8 +292,12 @@ export function cleanLeftovers(dir: string): string[] {
 
 function writeFailed(target: string, where: string, e: unknown): OutputError {
   const code = (e as NodeJS.ErrnoException).code;
-  return new OutputError(target, `cannot write the bundle ${target}: ${systemReason(e)} while writing ${where}; `
-    + 'the destination is unchanged (free some space, or choose a writable folder with --out)', { refused: false, code });
+  return new OutputError(
+    target,
+    `cannot write the bundle ${target}: ${systemReason(e)} while writing ${where}; ` +
+      'the destination is unchanged (free some space, or choose a writable folder with --out)',
+    { refused: false, code },
+  );
 }
 
 /**
@@ -282,7 +330,10 @@ export function writeBundle(dir: string, c: BundleContent, opts: { inputs?: read
   let current = 'the temporary folder';
   try {
     mkdirSync(tmp);
-    writeFileSync(join(tmp, TEMP_MARKER), `temporary folder of a fascicle bundle being written to ${target}; safe to delete\n`);
+    writeFileSync(
+      join(tmp, TEMP_MARKER),
+      `temporary folder of a fascicle bundle being written to ${target}; safe to delete\n`,
+    );
     for (const [name, rows] of Object.entries(c.tables)) {
       current = `tables/${name}.csv`;
       put(current, toCsv(rows));
@@ -298,7 +349,10 @@ export function writeBundle(dir: string, c: BundleContent, opts: { inputs?: read
       put(rel, data);
     }
     current = BUNDLE_MARKER;
-    put(BUNDLE_MARKER, JSON.stringify({ writtenBy: 'fascicle', version: VERSION, files: [...written] }, null, 1) + '\n');
+    put(
+      BUNDLE_MARKER,
+      JSON.stringify({ writtenBy: 'fascicle', version: VERSION, files: [...written] }, null, 1) + '\n',
+    );
     written.pop();
   } catch (e) {
     rmSync(tmp, { recursive: true, force: true });
@@ -319,11 +373,19 @@ export function writeBundle(dir: string, c: BundleContent, opts: { inputs?: read
     renameSync(tmp, target);
   } catch (e) {
     if (old && !existsSync(target)) renameSync(old, target);
-    try { unlinkSync(join(target, TEMP_MARKER)); } catch { /* already gone */ }
+    try {
+      unlinkSync(join(target, TEMP_MARKER));
+    } catch {
+      /* already gone */
+    }
     rmSync(tmp, { recursive: true, force: true });
     throw writeFailed(target, 'the final rename', e);
   }
-  try { unlinkSync(join(target, TEMP_MARKER)); } catch { /* already gone */ }
+  try {
+    unlinkSync(join(target, TEMP_MARKER));
+  } catch {
+    /* already gone */
+  }
   if (old) rmSync(old, { recursive: true, force: true });
   return written;
 }

@@ -52,7 +52,12 @@ export function toFrame(rows: readonly Record<string, unknown>[]): DataFrame {
   const d = danfo();
   const cols: string[] = [];
   const seen = new Set<string>();
-  for (const r of rows) for (const k of Object.keys(r)) if (!seen.has(k)) { seen.add(k); cols.push(k); }
+  for (const r of rows)
+    for (const k of Object.keys(r))
+      if (!seen.has(k)) {
+        seen.add(k);
+        cols.push(k);
+      }
   if (rows.length === 0) return new d.DataFrame([], { columns: cols });
   const data: Record<string, unknown[]> = {};
   for (const c of cols) data[c] = rows.map((r) => (r[c] === undefined ? null : r[c]));

@@ -46,7 +46,11 @@ const INPUT_KEYS = ['study', 'methods', 'provenance', 'figures', 'title', 'bundl
 
 /** Bulky tables: on screen inside a closed section, left out of print (their files hold them). */
 const BULK = new Set([
-  'components', 'recruitment_points', 'dose_response_points', 'temperature_points', 'strength_duration_points',
+  'components',
+  'recruitment_points',
+  'dose_response_points',
+  'temperature_points',
+  'strength_duration_points',
 ]);
 
 /** Tables up to this size are printed; larger ones are on screen only (their files hold them). */
@@ -152,23 +156,33 @@ function summaryHtml(study: Study, figures: readonly Figure[]): string {
   const rec = t.velocity.filter((r) => r.recommended === true && r.preparation !== undefined);
   if (rec.length) {
     const byClass = new Map<string, number[]>();
-    for (const r of rec) if (typeof r.velocity_m_s === 'number' && r.status === 'ok') {
-      (byClass.get(String(r.class)) ?? byClass.set(String(r.class), []).get(String(r.class))!).push(r.velocity_m_s);
-    }
+    for (const r of rec)
+      if (typeof r.velocity_m_s === 'number' && r.status === 'ok') {
+        (byClass.get(String(r.class)) ?? byClass.set(String(r.class), []).get(String(r.class))!).push(r.velocity_m_s);
+      }
     for (const [c, v] of byClass) {
-      const lo = Math.min(...v), hi = Math.max(...v);
-      head.push(`conduction velocity ${escapeHtml(c)}: ${formatCell(lo)}${hi > lo ? `-${formatCell(hi)}` : ''} m/s `
-        + `(recommended estimator, ${plural(v.length, 'estimate')})`);
+      const lo = Math.min(...v),
+        hi = Math.max(...v);
+      head.push(
+        `conduction velocity ${escapeHtml(c)}: ${formatCell(lo)}${hi > lo ? `-${formatCell(hi)}` : ''} m/s ` +
+          `(recommended estimator, ${plural(v.length, 'estimate')})`,
+      );
     }
   }
-  for (const r of t.dose_response_summary) if (typeof r.ic50 === 'number') {
-    head.push(`IC<sub>50</sub> ${escapeHtml(r.class)}: ${formatCell(r.ic50)} ${unit(r.concentrationUnit ?? '')} `
-      + `(95% CI ${formatCell(r.ic50_ci95_low)}-${formatCell(r.ic50_ci95_high)}), Hill slope ${formatCell(r.hill)}`);
-  }
-  for (const r of t.temperature) if (typeof r.q10 === 'number') {
-    head.push(`Q<sub>10</sub> ${escapeHtml(r.class)} (${escapeHtml(r.measure ?? '')}): ${formatCell(r.q10)} `
-      + `(95% CI ${formatCell(r.q10_ci95_low)}-${formatCell(r.q10_ci95_high)})`);
-  }
+  for (const r of t.dose_response_summary)
+    if (typeof r.ic50 === 'number') {
+      head.push(
+        `IC<sub>50</sub> ${escapeHtml(r.class)}: ${formatCell(r.ic50)} ${unit(r.concentrationUnit ?? '')} ` +
+          `(95% CI ${formatCell(r.ic50_ci95_low)}-${formatCell(r.ic50_ci95_high)}), Hill slope ${formatCell(r.hill)}`,
+      );
+    }
+  for (const r of t.temperature)
+    if (typeof r.q10 === 'number') {
+      head.push(
+        `Q<sub>10</sub> ${escapeHtml(r.class)} (${escapeHtml(r.measure ?? '')}): ${formatCell(r.q10)} ` +
+          `(95% CI ${formatCell(r.q10_ci95_low)}-${formatCell(r.q10_ci95_high)})`,
+      );
+    }
   const li = (xs: string[]) => `<ul>${xs.map((x) => `<li>${x}</li>`).join('')}</ul>`;
   return li(items) + (head.length ? `<h3>Main results</h3>${li(head)}` : '');
 }
@@ -186,18 +200,41 @@ function perPreparationHtml(study: Study): string {
     const fl = of(t.flags, p);
     const sec = [`<h3 id="prep-${escapeHtml(anchor(p))}">Preparation ${escapeHtml(p)}</h3>`];
     if (v.length) {
-      const cols = ['class', 'method', 'basis', 'temperatureC', 'concentration', 'velocity_m_s', 'ci95_low_m_s',
-        'ci95_high_m_s', 'n', 'status', 'reason'];
+      const cols = [
+        'class',
+        'method',
+        'basis',
+        'temperatureC',
+        'concentration',
+        'velocity_m_s',
+        'ci95_low_m_s',
+        'ci95_high_m_s',
+        'n',
+        'status',
+        'reason',
+      ];
       sec.push(tableHtml(pick(v, cols), { caption: 'Conduction velocity (recommended estimator)', sortable: true }));
     }
     if (rc.length) {
-      const cols = ['class', 'distanceMm', 'temperatureC', 'intensityUnit', 'threshold', 'i50', 'i50_ci95_low',
-        'i50_ci95_high', 'maximum', 'status'];
+      const cols = [
+        'class',
+        'distanceMm',
+        'temperatureC',
+        'intensityUnit',
+        'threshold',
+        'i50',
+        'i50_ci95_low',
+        'i50_ci95_high',
+        'maximum',
+        'status',
+      ];
       sec.push(tableHtml(pick(rc, cols), { caption: 'Recruitment', sortable: true }));
     }
     if (dr.length) sec.push(tableHtml(dr, { caption: 'Dose-response fits', sortable: true }));
-    sec.push(`<p>${fl.length ? `<a href="#table-flags">${plural(fl.length, 'flag')}</a>` : 'no flags'} `
-      + `for this preparation.</p>`);
+    sec.push(
+      `<p>${fl.length ? `<a href="#table-flags">${plural(fl.length, 'flag')}</a>` : 'no flags'} ` +
+        `for this preparation.</p>`,
+    );
     parts.push(sec.join('\n'));
   }
   return parts.join('\n') || '<p>No preparations.</p>';
@@ -227,14 +264,21 @@ function tablesHtml(study: Study, bundle: boolean): { html: string; toc: string[
     }
     const table = tableHtml(rows, { sortable: true, maxRows: 2000 });
     const cols = new Set(rows.flatMap((r) => Object.keys(r))).size;
-    const printNote = `<p class="print-note">${plural(rows.length, 'row')} of ${cols} columns; not printed`
-      + `${bundle ? `: see tables/${escapeHtml(name)}.csv` : ''}.</p>`;
+    const printNote =
+      `<p class="print-note">${plural(rows.length, 'row')} of ${cols} columns; not printed` +
+      `${bundle ? `: see tables/${escapeHtml(name)}.csv` : ''}.</p>`;
     // long or wide tables do not fit a printed page: on screen only (long ones in a closed section)
     const body = BULK.has(name)
       ? `<details class="bulk"><summary>${plural(rows.length, 'row')}: show</summary>${table}</details>${printNote}`
-      : rows.length > PRINT_ROWS || cols > PRINT_COLUMNS ? `<div class="wide">${table}</div>${printNote}` : table;
-    parts.push(`<section id="${id}"><h3>${escapeHtml(title)}</h3><p class="meta">${plural(rows.length, 'row')}${file}.`
-      + '<span class="screen-only"> Click a column header to sort.</span></p>' + body + '</section>');
+      : rows.length > PRINT_ROWS || cols > PRINT_COLUMNS
+        ? `<div class="wide">${table}</div>${printNote}`
+        : table;
+    parts.push(
+      `<section id="${id}"><h3>${escapeHtml(title)}</h3><p class="meta">${plural(rows.length, 'row')}${file}.` +
+        '<span class="screen-only"> Click a column header to sort.</span></p>' +
+        body +
+        '</section>',
+    );
   }
   return { html: parts.join('\n'), toc };
 }
@@ -244,21 +288,25 @@ function flagsHtml(study: Study): string {
   if (!f.length) return '<p>No flags: every estimate was made and passed its checks.</p>';
   const by = count(f, 'severity');
   const counts = [...by].map(([k, n]) => `${escapeHtml(k)}: ${n}`).join(', ');
-  return `<p>${counts}. Rejected: the estimate could not be made; `
-    + 'not measured: there was nothing to measure; warning: the estimate was made but may be wrong.</p>'
-    + tableHtml(f, { sortable: true, maxRows: 2000 });
+  return (
+    `<p>${counts}. Rejected: the estimate could not be made; ` +
+    'not measured: there was nothing to measure; warning: the estimate was made but may be wrong.</p>' +
+    tableHtml(f, { sortable: true, maxRows: 2000 })
+  );
 }
 
 function figuresHtml(figures: readonly Figure[], bundle: boolean): { html: string; toc: string[] } {
   const toc: string[] = [];
-  const html = figures.map((f, i) => {
-    const id = `figure-${i + 1}-${anchor(f.name)}`;
-    const title = plainTitle(f);
-    toc.push(`<a href="#${id}">Figure ${i + 1}: ${escapeHtml(title)}</a>`);
-    const link = bundle ? ` (<a href="figures/${escapeHtml(f.name)}.html">own page</a>)` : '';
-    const caption = `<figcaption>Figure ${i + 1}. ${escapeHtml(title)}${link}</figcaption>`;
-    return `<figure class="figure" id="${id}">${f.toHTML('page')}${caption}</figure>`;
-  }).join('\n');
+  const html = figures
+    .map((f, i) => {
+      const id = `figure-${i + 1}-${anchor(f.name)}`;
+      const title = plainTitle(f);
+      toc.push(`<a href="#${id}">Figure ${i + 1}: ${escapeHtml(title)}</a>`);
+      const link = bundle ? ` (<a href="figures/${escapeHtml(f.name)}.html">own page</a>)` : '';
+      const caption = `<figcaption>Figure ${i + 1}. ${escapeHtml(title)}${link}</figcaption>`;
+      return `<figure class="figure" id="${id}">${f.toHTML('page')}${caption}</figure>`;
+    })
+    .join('\n');
   return { html, toc };
 }
 
@@ -283,9 +331,9 @@ export function reportHtml(input: ReportInput): string {
     ? `<ul>${study.notes.map((n) => `<li>${escapeHtml(n)}</li>`).join('')}</ul>`
     : '<p>No notes.</p>';
   const files = bundle
-    ? '<p class="meta">Files of this bundle: <a href="methods.txt">methods.txt</a>, '
-      + '<a href="provenance.json">provenance.json</a>, <a href="notes.txt">notes.txt</a>, '
-      + `tables under tables/${figures.length ? ', figures under figures/' : ''}.</p>`
+    ? '<p class="meta">Files of this bundle: <a href="methods.txt">methods.txt</a>, ' +
+      '<a href="provenance.json">provenance.json</a>, <a href="notes.txt">notes.txt</a>, ' +
+      `tables under tables/${figures.length ? ', figures under figures/' : ''}.</p>`
     : '';
   const toc = [
     '<a href="#summary">Summary</a>',
@@ -302,13 +350,21 @@ export function reportHtml(input: ReportInput): string {
     const inline = `<script>${plotlyJs().replace(/<\/(script)/gi, '<\\/$1')}</script>`;
     plotly = bundle
       ? '<script src="plotly.min.js"></script>'
-      : `<script>window.__fascicleDefine=window.define;window.define=undefined;</script>${inline}`
-        + '<script>window.define=window.__fascicleDefine;</script>';
+      : `<script>window.__fascicleDefine=window.define;window.define=undefined;</script>${inline}` +
+        '<script>window.define=window.__fascicleDefine;</script>';
   }
-  const inputs = (provenance.inputs ?? [])
-    .map((s) => ({ path: s.path, bytes: s.bytes, sha256: s.sha256, partOf: s.partOf ?? '' }));
-  const steps = (provenance.steps ?? [])
-    .map((s, i) => ({ step: i + 1, verb: s.verb, version: s.version, options: JSON.stringify(s.options) }));
+  const inputs = (provenance.inputs ?? []).map((s) => ({
+    path: s.path,
+    bytes: s.bytes,
+    sha256: s.sha256,
+    partOf: s.partOf ?? '',
+  }));
+  const steps = (provenance.steps ?? []).map((s, i) => ({
+    step: i + 1,
+    verb: s.verb,
+    version: s.version,
+    options: JSON.stringify(s.options),
+  }));
   const esc = escapeHtml;
   const rr = provenance.rerun;
   const rerun = rr
@@ -354,10 +410,16 @@ export function writeReportHtml(dir: string, input: Omit<ReportInput, 'bundle'>)
     let ours = false;
     try {
       ours = /<meta name="generator" content="fascicle /.test(readFileSync(path, 'utf8').slice(0, 400));
-    } catch { /* unreadable: not ours */ }
+    } catch {
+      /* unreadable: not ours */
+    }
     if (!ours) {
-      throw new OutputError(path, `refusing to write ${path}: a report.html that fascicle did not write is there; `
-        + 'give another folder, or move that file away yourself', { refused: true });
+      throw new OutputError(
+        path,
+        `refusing to write ${path}: a report.html that fascicle did not write is there; ` +
+          'give another folder, or move that file away yourself',
+        { refused: true },
+      );
     }
   }
   const html = reportHtml({ ...input, bundle: false });
@@ -377,14 +439,17 @@ export function writeReportHtml(dir: string, input: Omit<ReportInput, 'bundle'>)
  */
 export function reportFragment(input: Omit<ReportInput, 'bundle'>): string {
   const html = reportHtml({ ...input, bundle: false });
-  return html.slice(html.indexOf('<style>'), html.lastIndexOf('</body>')).replace('</head><body>', '')
+  return html
+    .slice(html.indexOf('<style>'), html.lastIndexOf('</body>'))
+    .replace('</head><body>', '')
     .replace('body{margin:0}', '');
 }
 
 /** Show the report in a notebook cell (reportFragment); outside a notebook, print a one-line summary. */
 export function showReport(input: Omit<ReportInput, 'bundle'>): void {
   const t = input.study.tables;
-  const text = `Study report: ${t.components.length} component rows, ${t.flags.length} flags, `
-    + `${(input.figures ?? studyFigureList(input.study)).length} figures; writeReportHtml(dir, input) writes the page`;
+  const text =
+    `Study report: ${t.components.length} component rows, ${t.flags.length} flags, ` +
+    `${(input.figures ?? studyFigureList(input.study)).length} figures; writeReportHtml(dir, input) writes the page`;
   displayHtml(reportFragment(input), text);
 }

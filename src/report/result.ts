@@ -29,7 +29,11 @@ export abstract class Result {
 
   /** Write the tables (CSV and JSON), methods text and provenance to `dir` atomically. */
   exportBundle(dir: string): string[] {
-    return writeBundle(dir, { tables: this.tables() as Record<string, Record<string, unknown>[]>, methods: this.methods(), provenance: this.provenance() });
+    return writeBundle(dir, {
+      tables: this.tables() as Record<string, Record<string, unknown>[]>,
+      methods: this.methods(),
+      provenance: this.provenance(),
+    });
   }
 
   /** Show in a notebook cell (or print the text form). */

@@ -9,9 +9,11 @@
  */
 export function bridgeGap(x: Float64Array, a: number, b: number, kind: 'linear' | 'hermite'): void {
   const n = x.length;
-  const l = Math.max(0, a - 1), r = Math.min(n - 1, b + 1);
+  const l = Math.max(0, a - 1),
+    r = Math.min(n - 1, b + 1);
   if (l === a && r === b) return;
-  const y0 = x[l], y1 = x[r];
+  const y0 = x[l],
+    y1 = x[r];
   const span = r - l;
   // end slopes from two samples outside the gap, per sample
   const m0 = l >= 1 && kind === 'hermite' ? x[l] - x[l - 1] : (y1 - y0) / span;
@@ -20,7 +22,10 @@ export function bridgeGap(x: Float64Array, a: number, b: number, kind: 'linear' 
     const u = (i - l) / span;
     if (kind === 'linear' || l === a || r === b) x[i] = y0 + (y1 - y0) * u;
     else {
-      const h00 = 2 * u ** 3 - 3 * u ** 2 + 1, h10 = u ** 3 - 2 * u ** 2 + u, h01 = -2 * u ** 3 + 3 * u ** 2, h11 = u ** 3 - u ** 2;
+      const h00 = 2 * u ** 3 - 3 * u ** 2 + 1,
+        h10 = u ** 3 - 2 * u ** 2 + u,
+        h01 = -2 * u ** 3 + 3 * u ** 2,
+        h11 = u ** 3 - u ** 2;
       x[i] = h00 * y0 + h10 * span * m0 + h01 * y1 + h11 * span * m1;
     }
   }

@@ -39,17 +39,29 @@ export interface ButterOptions {
  */
 export function butter(o: ButterOptions): Sos {
   const { order, btype, fs } = o;
-  if (!Number.isInteger(order) || order < 1 || order > 10) throw new OptionError(`invalid order: ${order}; must be an integer 1 <= order <= 10`);
+  if (!Number.isInteger(order) || order < 1 || order > 10)
+    throw new OptionError(`invalid order: ${order}; must be an integer 1 <= order <= 10`);
   if (!(fs > 0) || !Number.isFinite(fs)) throw new OptionError(`invalid fs: ${fs} Hz; must be > 0`);
   const band = btype === 'bandpass' || btype === 'bandstop';
-  if (!['lowpass', 'highpass', 'bandpass', 'bandstop'].includes(btype)) throw new OptionError(`invalid btype: ${JSON.stringify(btype)}; must be one of "lowpass", "highpass", "bandpass", "bandstop"`);
+  if (!['lowpass', 'highpass', 'bandpass', 'bandstop'].includes(btype))
+    throw new OptionError(
+      `invalid btype: ${JSON.stringify(btype)}; must be one of "lowpass", "highpass", "bandpass", "bandstop"`,
+    );
   const cut = Array.isArray(o.cutoff) ? o.cutoff : [o.cutoff];
-  if (cut.some((f) => typeof f !== 'number')) throw new OptionError(`invalid cutoff: ${JSON.stringify(o.cutoff)}; must be a number in Hz (or [low, high] in Hz for band filters)`);
-  if (band !== (cut.length === 2)) throw new OptionError(`invalid cutoff: ${JSON.stringify(o.cutoff)}; ${btype} needs ${band ? '[low, high] in Hz' : 'one frequency in Hz'}`);
+  if (cut.some((f) => typeof f !== 'number'))
+    throw new OptionError(
+      `invalid cutoff: ${JSON.stringify(o.cutoff)}; must be a number in Hz (or [low, high] in Hz for band filters)`,
+    );
+  if (band !== (cut.length === 2))
+    throw new OptionError(
+      `invalid cutoff: ${JSON.stringify(o.cutoff)}; ${btype} needs ${band ? '[low, high] in Hz' : 'one frequency in Hz'}`,
+    );
   for (const f of cut) {
-    if (!(f > 0 && f < fs / 2)) throw new OptionError(`invalid cutoff: ${f} Hz; must be 0 < cutoff < fs/2 (fs=${fs} Hz)`);
+    if (!(f > 0 && f < fs / 2))
+      throw new OptionError(`invalid cutoff: ${f} Hz; must be 0 < cutoff < fs/2 (fs=${fs} Hz)`);
   }
-  if (band && !(cut[1] > cut[0])) throw new OptionError(`invalid cutoff: [${cut[0]}, ${cut[1]}] Hz; low must be < high`);
+  if (band && !(cut[1] > cut[0]))
+    throw new OptionError(`invalid cutoff: [${cut[0]}, ${cut[1]}] Hz; low must be < high`);
   const Wn = cut.map((f) => (2 * f) / fs);
   return butterNormalized(order, Wn, btype);
 }
@@ -101,7 +113,11 @@ export function butterNormalized(N: number, Wn: number[], btype: BType): Sos {
       const r = hp.map((x) => cx.sqrt(cx.sub(cx.mul(x, x), cx.c(wo * wo))));
       return [...hp.map((x, i) => cx.add(x, r[i])), ...hp.map((x, i) => cx.sub(x, r[i]))];
     };
-    z = [...tr(z), ...Array.from({ length: degree }, () => cx.c(0, wo)), ...Array.from({ length: degree }, () => cx.c(0, -wo))];
+    z = [
+      ...tr(z),
+      ...Array.from({ length: degree }, () => cx.c(0, wo)),
+      ...Array.from({ length: degree }, () => cx.c(0, -wo)),
+    ];
     p = tr(p);
     k = k * kf;
   }
@@ -109,7 +125,10 @@ export function butterNormalized(N: number, Wn: number[], btype: BType): Sos {
   const fs2 = 2 * fs;
   const degree = p.length - z.length;
   const kz = cx.div(cx.prod(z.map((x) => cx.sub(cx.c(fs2), x))), cx.prod(p.map((x) => cx.sub(cx.c(fs2), x)))).re;
-  const zz = [...z.map((x) => cx.div(cx.add(cx.c(fs2), x), cx.sub(cx.c(fs2), x))), ...Array.from({ length: degree }, () => cx.c(-1))];
+  const zz = [
+    ...z.map((x) => cx.div(cx.add(cx.c(fs2), x), cx.sub(cx.c(fs2), x))),
+    ...Array.from({ length: degree }, () => cx.c(-1)),
+  ];
   const pz = p.map((x) => cx.div(cx.add(cx.c(fs2), x), cx.sub(cx.c(fs2), x)));
   return zpk2sos(zz, pz, k * kz);
 }
@@ -219,7 +238,8 @@ function zpk2sos(zIn: C[], pIn: C[], k: number): Sos {
  * Reference: S. J. Orfanidis, Introduction to Signal Processing, Prentice-Hall 1996, sec. 11.3.
  */
 export function iirnotch(f0: number, Q: number, fs: number): Sos {
-  if (!(f0 > 0 && f0 < fs / 2)) throw new OptionError(`invalid frequency: ${f0} Hz; must be 0 < frequency < fs/2 (fs=${fs} Hz)`);
+  if (!(f0 > 0 && f0 < fs / 2))
+    throw new OptionError(`invalid frequency: ${f0} Hz; must be 0 < frequency < fs/2 (fs=${fs} Hz)`);
   if (!(Q > 0) || !Number.isFinite(Q)) throw new OptionError(`invalid Q: ${Q}; must be > 0`);
   const w0 = ((2 * f0) / fs) * Math.PI;
   const bw = w0 / Q;

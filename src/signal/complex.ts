@@ -1,5 +1,8 @@
 /** Minimal complex arithmetic for filter design (objects; not used in hot loops). */
-export interface C { re: number; im: number }
+export interface C {
+  re: number;
+  im: number;
+}
 export const c = (re: number, im = 0): C => ({ re, im });
 export const add = (a: C, b: C): C => ({ re: a.re + b.re, im: a.im + b.im });
 export const sub = (a: C, b: C): C => ({ re: a.re - b.re, im: a.im - b.im });
@@ -10,10 +13,12 @@ export const abs = (a: C): number => Math.hypot(a.re, a.im);
 export function div(a: C, b: C): C {
   // Smith's algorithm, as in C99/NumPy complex division
   if (Math.abs(b.re) >= Math.abs(b.im)) {
-    const r = b.im / b.re, d = b.re + b.im * r;
+    const r = b.im / b.re,
+      d = b.re + b.im * r;
     return { re: (a.re + a.im * r) / d, im: (a.im - a.re * r) / d };
   }
-  const r = b.re / b.im, d = b.re * r + b.im;
+  const r = b.re / b.im,
+    d = b.re * r + b.im;
   return { re: (a.re * r + a.im) / d, im: (a.im * r - a.re) / d };
 }
 /** Principal square root. */

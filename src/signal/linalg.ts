@@ -141,14 +141,17 @@ export function symmetricEigenvalues(A: readonly (readonly number[])[]): number[
         if (apq === 0) continue;
         const theta = (a[q][q] - a[p][p]) / (2 * apq);
         const t = (theta >= 0 ? 1 : -1) / (Math.abs(theta) + Math.sqrt(theta * theta + 1));
-        const c = 1 / Math.sqrt(t * t + 1), s = t * c;
+        const c = 1 / Math.sqrt(t * t + 1),
+          s = t * c;
         for (let k = 0; k < n; k++) {
-          const akp = a[k][p], akq = a[k][q];
+          const akp = a[k][p],
+            akq = a[k][q];
           a[k][p] = c * akp - s * akq;
           a[k][q] = s * akp + c * akq;
         }
         for (let k = 0; k < n; k++) {
-          const apk = a[p][k], aqk = a[q][k];
+          const apk = a[p][k],
+            aqk = a[q][k];
           a[p][k] = c * apk - s * aqk;
           a[q][k] = s * apk + c * aqk;
         }

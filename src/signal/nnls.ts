@@ -46,22 +46,36 @@ export interface NnlsResult {
 const EPS = 2.220446049250313e-16;
 
 function check(name: string, a: Float64Array, len: number): void {
-  if (!(a instanceof Float64Array) || a.length !== len) throw new OptionError(`invalid ${name}: expected a Float64Array of length ${len}, got ${a instanceof Float64Array ? a.length : typeof a}`);
-  for (let i = 0; i < len; i++) if (!Number.isFinite(a[i])) throw new OptionError(`invalid ${name}: element ${i} is ${a[i]}; must be finite`);
+  if (!(a instanceof Float64Array) || a.length !== len)
+    throw new OptionError(
+      `invalid ${name}: expected a Float64Array of length ${len}, got ${a instanceof Float64Array ? a.length : typeof a}`,
+    );
+  for (let i = 0; i < len; i++)
+    if (!Number.isFinite(a[i])) throw new OptionError(`invalid ${name}: element ${i} is ${a[i]}; must be finite`);
 }
 
 /**
  * Least squares on the columns `cols` of A by Householder QR: returns the solution
  * (length cols.length) and the diagonal of R, or null when a diagonal entry is zero.
  */
-function lsqOnColumns(A: Float64Array, m: number, n: number, b: Float64Array, cols: number[]): { z: Float64Array; rdiag: Float64Array; colNorm: Float64Array } {
+function lsqOnColumns(
+  A: Float64Array,
+  m: number,
+  n: number,
+  b: Float64Array,
+  cols: number[],
+): { z: Float64Array; rdiag: Float64Array; colNorm: Float64Array } {
   const p = cols.length;
   // copy the columns into a column-major m x p work array
   const Q = new Float64Array(m * p);
   const colNorm = new Float64Array(p);
   for (let j = 0; j < p; j++) {
     let s = 0;
-    for (let i = 0; i < m; i++) { const v = A[i * n + cols[j]]; Q[j * m + i] = v; s += v * v; }
+    for (let i = 0; i < m; i++) {
+      const v = A[i * n + cols[j]];
+      Q[j * m + i] = v;
+      s += v * v;
+    }
     colNorm[j] = Math.sqrt(s);
   }
   const y = Float64Array.from(b);
@@ -71,7 +85,10 @@ function lsqOnColumns(A: Float64Array, m: number, n: number, b: Float64Array, co
     let s = 0;
     for (let i = j; i < m; i++) s += Q[c + i] * Q[c + i];
     const norm = Math.sqrt(s);
-    if (norm === 0) { rdiag[j] = 0; continue; }
+    if (norm === 0) {
+      rdiag[j] = 0;
+      continue;
+    }
     const alpha = Q[c + j] > 0 ? -norm : norm;
     const v0 = Q[c + j] - alpha;
     // Householder vector v = (v0, Q[c+j+1..]); H = I - 2 v v' / v'v
@@ -101,7 +118,12 @@ function lsqOnColumns(A: Float64Array, m: number, n: number, b: Float64Array, co
 }
 
 /** Lawson-Hanson active set; `solveP(P)` solves the unconstrained problem on P, `dual(x)` returns w. */
-function activeSet(n: number, maxIter: number, solveP: (P: number[]) => { z: Float64Array; ok: boolean }, dual: (x: Float64Array) => Float64Array): { x: Float64Array; iterations: number; positive: number[]; status: string } {
+function activeSet(
+  n: number,
+  maxIter: number,
+  solveP: (P: number[]) => { z: Float64Array; ok: boolean },
+  dual: (x: Float64Array) => Float64Array,
+): { x: Float64Array; iterations: number; positive: number[]; status: string } {
   const x = new Float64Array(n);
   const inP = new Uint8Array(n);
   const banned = new Uint8Array(n);
@@ -109,34 +131,60 @@ function activeSet(n: number, maxIter: number, solveP: (P: number[]) => { z: Flo
   let iter = 0;
   for (;;) {
     const w = dual(x);
-    let t = -1, wmax = 0;
-    for (let j = 0; j < n; j++) if (!inP[j] && !banned[j] && w[j] > wmax) { wmax = w[j]; t = j; }
+    let t = -1,
+      wmax = 0;
+    for (let j = 0; j < n; j++)
+      if (!inP[j] && !banned[j] && w[j] > wmax) {
+        wmax = w[j];
+        t = j;
+      }
     if (t < 0) break;
     if (iter >= maxIter) return { x, iterations: iter, positive: P, status: 'iteration limit reached' };
     iter++;
     const trial = [...P, t];
     const first = solveP(trial);
     // column test (independence) and the sign of the new variable, as Lawson & Hanson's step 6
-    if (!first.ok || !(first.z[trial.length - 1] > 0)) { banned[t] = 1; continue; }
+    if (!first.ok || !(first.z[trial.length - 1] > 0)) {
+      banned[t] = 1;
+      continue;
+    }
     banned.fill(0);
-    P = trial; inP[t] = 1;
+    P = trial;
+    inP[t] = 1;
     let z = first.z;
     for (let inner = 0; inner < 3 * n + 10; inner++) {
       let allPos = true;
-      for (let k = 0; k < P.length; k++) if (!(z[k] > 0)) { allPos = false; break; }
+      for (let k = 0; k < P.length; k++)
+        if (!(z[k] > 0)) {
+          allPos = false;
+          break;
+        }
       if (allPos) break;
       let alpha = Infinity;
       for (let k = 0; k < P.length; k++) {
-        if (!(z[k] > 0)) { const j = P[k]; const a = x[j] / (x[j] - z[k]); if (a < alpha) alpha = a; }
+        if (!(z[k] > 0)) {
+          const j = P[k];
+          const a = x[j] / (x[j] - z[k]);
+          if (a < alpha) alpha = a;
+        }
       }
-      for (let k = 0; k < P.length; k++) { const j = P[k]; x[j] += alpha * (z[k] - x[j]); }
+      for (let k = 0; k < P.length; k++) {
+        const j = P[k];
+        x[j] += alpha * (z[k] - x[j]);
+      }
       const keep: number[] = [];
       for (let k = 0; k < P.length; k++) {
         const j = P[k];
-        if (x[j] <= 0 || !(z[k] > 0) && Math.abs(x[j]) <= 1e-15 * (1 + Math.abs(z[k]))) { x[j] = 0; inP[j] = 0; } else keep.push(j);
+        if (x[j] <= 0 || (!(z[k] > 0) && Math.abs(x[j]) <= 1e-15 * (1 + Math.abs(z[k])))) {
+          x[j] = 0;
+          inP[j] = 0;
+        } else keep.push(j);
       }
       P = keep;
-      if (!P.length) { z = new Float64Array(0); break; }
+      if (!P.length) {
+        z = new Float64Array(0);
+        break;
+      }
       z = solveP(P).z;
     }
     for (let k = 0; k < P.length; k++) x[P[k]] = z[k];
@@ -148,8 +196,15 @@ function activeSet(n: number, maxIter: number, solveP: (P: number[]) => { z: Flo
  * Non-negative least squares, Lawson & Hanson (1974). A is row-major m x n.
  * `maxIter` defaults to 3 n (SciPy's default). See the module comment.
  */
-export function nnls(A: Float64Array, m: number, n: number, b: Float64Array, options: { maxIter?: number } = {}): NnlsResult {
-  if (!Number.isInteger(m) || !Number.isInteger(n) || m < 1 || n < 1) throw new OptionError(`invalid nnls size: ${m} x ${n}; must be positive integers`);
+export function nnls(
+  A: Float64Array,
+  m: number,
+  n: number,
+  b: Float64Array,
+  options: { maxIter?: number } = {},
+): NnlsResult {
+  if (!Number.isInteger(m) || !Number.isInteger(n) || m < 1 || n < 1)
+    throw new OptionError(`invalid nnls size: ${m} x ${n}; must be positive integers`);
   check('A', A, m * n);
   check('b', b, m);
   const maxIter = options.maxIter ?? 3 * n;
@@ -161,14 +216,26 @@ export function nnls(A: Float64Array, m: number, n: number, b: Float64Array, opt
   };
   const dual = (x: Float64Array) => {
     const r = Float64Array.from(b);
-    for (let i = 0; i < m; i++) { let s = 0; for (let j = 0; j < n; j++) s += A[i * n + j] * x[j]; r[i] -= s; }
+    for (let i = 0; i < m; i++) {
+      let s = 0;
+      for (let j = 0; j < n; j++) s += A[i * n + j] * x[j];
+      r[i] -= s;
+    }
     const w = new Float64Array(n);
-    for (let i = 0; i < m; i++) { const ri = r[i]; if (ri === 0) continue; for (let j = 0; j < n; j++) w[j] += A[i * n + j] * ri; }
+    for (let i = 0; i < m; i++) {
+      const ri = r[i];
+      if (ri === 0) continue;
+      for (let j = 0; j < n; j++) w[j] += A[i * n + j] * ri;
+    }
     return w;
   };
   const res = activeSet(n, maxIter, solveP, dual);
   let ss = 0;
-  for (let i = 0; i < m; i++) { let s = -b[i]; for (let j = 0; j < n; j++) s += A[i * n + j] * res.x[j]; ss += s * s; }
+  for (let i = 0; i < m; i++) {
+    let s = -b[i];
+    for (let j = 0; j < n; j++) s += A[i * n + j] * res.x[j];
+    ss += s * s;
+  }
   return { ...res, residualNorm: Math.sqrt(ss) };
 }
 
@@ -177,7 +244,12 @@ export function nnls(A: Float64Array, m: number, n: number, b: Float64Array, opt
  * G symmetric positive semi-definite n x n (row-major), by the same active set with a
  * Cholesky solve on G_PP (Bro & De Jong 1997). `bb` = b'b gives residualNorm.
  */
-export function nnlsGram(G: Float64Array, c: Float64Array, n: number, options: { maxIter?: number; bb?: number } = {}): NnlsResult {
+export function nnlsGram(
+  G: Float64Array,
+  c: Float64Array,
+  n: number,
+  options: { maxIter?: number; bb?: number } = {},
+): NnlsResult {
   if (!Number.isInteger(n) || n < 1) throw new OptionError(`invalid nnlsGram size: ${n}; must be a positive integer`);
   check('G', G, n * n);
   check('c', c, n);
@@ -192,24 +264,43 @@ export function nnlsGram(G: Float64Array, c: Float64Array, n: number, options: {
         for (let k = 0; k < j; k++) s -= L[i * p + k] * L[j * p + k];
         if (i === j) {
           const d = G[P[i] * n + P[i]];
-          if (!(s > 1e4 * EPS * Math.max(d, 1e-300))) { ok = false; L[i * p + i] = Math.sqrt(Math.max(s, 1e-300)); } else L[i * p + i] = Math.sqrt(s);
+          if (!(s > 1e4 * EPS * Math.max(d, 1e-300))) {
+            ok = false;
+            L[i * p + i] = Math.sqrt(Math.max(s, 1e-300));
+          } else L[i * p + i] = Math.sqrt(s);
         } else L[i * p + j] = s / L[j * p + j];
       }
     }
     const y = new Float64Array(p);
-    for (let i = 0; i < p; i++) { let s = c[P[i]]; for (let k = 0; k < i; k++) s -= L[i * p + k] * y[k]; y[i] = s / L[i * p + i]; }
+    for (let i = 0; i < p; i++) {
+      let s = c[P[i]];
+      for (let k = 0; k < i; k++) s -= L[i * p + k] * y[k];
+      y[i] = s / L[i * p + i];
+    }
     const z = new Float64Array(p);
-    for (let i = p - 1; i >= 0; i--) { let s = y[i]; for (let k = i + 1; k < p; k++) s -= L[k * p + i] * z[k]; z[i] = s / L[i * p + i]; }
+    for (let i = p - 1; i >= 0; i--) {
+      let s = y[i];
+      for (let k = i + 1; k < p; k++) s -= L[k * p + i] * z[k];
+      z[i] = s / L[i * p + i];
+    }
     return { z, ok };
   };
   const dual = (x: Float64Array) => {
     const w = Float64Array.from(c);
-    for (let i = 0; i < n; i++) { let s = 0; for (let j = 0; j < n; j++) s += G[i * n + j] * x[j]; w[i] -= s; }
+    for (let i = 0; i < n; i++) {
+      let s = 0;
+      for (let j = 0; j < n; j++) s += G[i * n + j] * x[j];
+      w[i] -= s;
+    }
     return w;
   };
   const res = activeSet(n, maxIter, solveP, dual);
   let q = 0;
-  for (let i = 0; i < n; i++) { let s = 0; for (let j = 0; j < n; j++) s += G[i * n + j] * res.x[j]; q += res.x[i] * s - 2 * c[i] * res.x[i]; }
+  for (let i = 0; i < n; i++) {
+    let s = 0;
+    for (let j = 0; j < n; j++) s += G[i * n + j] * res.x[j];
+    q += res.x[i] * s - 2 * c[i] * res.x[i];
+  }
   const rn = options.bb !== undefined ? Math.sqrt(Math.max(0, q + options.bb)) : NaN;
   return { ...res, residualNorm: rn };
 }

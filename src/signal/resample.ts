@@ -12,7 +12,8 @@ import { OptionError } from '../errors';
 /** Modified Bessel function of the first kind, order 0 (power series; |x| <= 50). */
 export function besselI0(x: number): number {
   const q = (x * x) / 4;
-  let term = 1, sum = 1;
+  let term = 1,
+    sum = 1;
   for (let k = 1; k < 500; k++) {
     term *= q / (k * k);
     sum += term;
@@ -24,7 +25,10 @@ export function besselI0(x: number): number {
 /** Symmetric Kaiser window of M points (SciPy's get_window(('kaiser', beta), M, fftbins=False)). */
 export function kaiser(M: number, beta: number): Float64Array {
   const w = new Float64Array(M);
-  if (M === 1) { w[0] = 1; return w; }
+  if (M === 1) {
+    w[0] = 1;
+    return w;
+  }
   const alpha = (M - 1) / 2;
   const d = besselI0(beta);
   for (let n = 0; n < M; n++) {
@@ -42,8 +46,12 @@ const sinc = (x: number) => (x === 0 ? 1 : Math.sin(Math.PI * x) / (Math.PI * x)
  * the Nyquist frequency).
  */
 export function firwinKaiser(numtaps: number, cutoff: number, beta: number): Float64Array {
-  if (!Number.isInteger(numtaps) || numtaps < 1) throw new OptionError(`invalid numtaps: ${numtaps}; must be an integer >= 1`);
-  if (!(cutoff > 0 && cutoff < 1)) throw new OptionError(`invalid cutoff: ${cutoff}; must lie strictly between 0 and 1 (fraction of the Nyquist frequency)`);
+  if (!Number.isInteger(numtaps) || numtaps < 1)
+    throw new OptionError(`invalid numtaps: ${numtaps}; must be an integer >= 1`);
+  if (!(cutoff > 0 && cutoff < 1))
+    throw new OptionError(
+      `invalid cutoff: ${cutoff}; must lie strictly between 0 and 1 (fraction of the Nyquist frequency)`,
+    );
   const alpha = 0.5 * (numtaps - 1);
   const w = kaiser(numtaps, beta);
   const h = new Float64Array(numtaps);
@@ -65,12 +73,20 @@ const gcd = (a: number, b: number): number => (b === 0 ? a : gcd(b, a % b));
 export function rationalRatio(fsIn: number, fsOut: number, maxFactor = 1000): { up: number; down: number } {
   const r = fsOut / fsIn;
   // continued fraction of r
-  let h0 = 1, h1 = 0, k0 = 0, k1 = 1, x = r;
+  let h0 = 1,
+    h1 = 0,
+    k0 = 0,
+    k1 = 1,
+    x = r;
   for (let it = 0; it < 64; it++) {
     const a = Math.floor(x);
-    const h = a * h0 + h1, k = a * k0 + k1;
+    const h = a * h0 + h1,
+      k = a * k0 + k1;
     if (h > maxFactor || k > maxFactor) break;
-    h1 = h0; h0 = h; k1 = k0; k0 = k;
+    h1 = h0;
+    h0 = h;
+    k1 = k0;
+    k0 = k;
     if (Math.abs(h / k - r) <= 1e-12 * r) {
       const g = gcd(h, k);
       return { up: h / g, down: k / g };
@@ -79,7 +95,9 @@ export function rationalRatio(fsIn: number, fsOut: number, maxFactor = 1000): { 
     if (frac < 1e-15) break;
     x = 1 / frac;
   }
-  throw new OptionError(`invalid fs: ${fsOut} Hz; the ratio to the current ${fsIn} Hz must be a fraction up/down with up and down at most ${maxFactor}`);
+  throw new OptionError(
+    `invalid fs: ${fsOut} Hz; the ratio to the current ${fsIn} Hz must be a fraction up/down with up and down at most ${maxFactor}`,
+  );
 }
 
 /** Design of a resample_poly filter: taps (scaled by up) and the samples to drop at the start. */
@@ -102,8 +120,18 @@ export function resampledLength(n: number, up: number, down: number): number {
  * Resample x (zero padding outside the signal, as resample_poly's default
  * padtype 'constant'; subtract a background first for 'mean') into out.
  */
-export function resamplePolyInto(x: ArrayLike<number>, up: number, down: number, h: Float64Array, preRemove: number, out: Float64Array, background = 0): void {
-  const n = x.length, L = h.length, m = out.length;
+export function resamplePolyInto(
+  x: ArrayLike<number>,
+  up: number,
+  down: number,
+  h: Float64Array,
+  preRemove: number,
+  out: Float64Array,
+  background = 0,
+): void {
+  const n = x.length,
+    L = h.length,
+    m = out.length;
   for (let j = 0; j < m; j++) {
     // full output index (before removing the filter delay), in the up-sampled domain
     const p = (j + preRemove) * down;

@@ -9,14 +9,27 @@
  */
 import { cholesky, normalEquations, solve, symmetricEigenvalues } from './linalg';
 
-export interface SineFit { coef: number[]; rss: number; power: number }
+export interface SineFit {
+  coef: number[];
+  rss: number;
+  power: number;
+}
 
 /**
  * The arrays of a sine-fit design, flat so that worker threads can share them:
  * fitted sample indices, basis columns over them (p x m, the constant first), cos and
  * sin of every harmonic at every sample (2H x n), and the scaled normal equations.
  */
-export interface SineParts { idx: Int32Array; cols: Float64Array; full: Float64Array; A0: Float64Array; scale: Float64Array; p: number; m: number; n: number }
+export interface SineParts {
+  idx: Int32Array;
+  cols: Float64Array;
+  full: Float64Array;
+  A0: Float64Array;
+  scale: Float64Array;
+  p: number;
+  m: number;
+  n: number;
+}
 
 /** A sine-fit design for fixed sample times, frequency and mask, reused for many sweeps. */
 export interface SineDesign {
@@ -54,11 +67,18 @@ export function normalRows(d: SineParts): number[][] {
  * Build the design once: basis columns over the fitted samples and the solver's
  * normal matrix. tMs holds sample times in ms; mask selects the fitted samples.
  */
-export function sineDesign(tMs: ArrayLike<number>, f: number, harmonics: number, mask?: Uint8Array, fitOnly = false): SineDesign {
+export function sineDesign(
+  tMs: ArrayLike<number>,
+  f: number,
+  harmonics: number,
+  mask?: Uint8Array,
+  fitOnly = false,
+): SineDesign {
   const n = tMs.length;
   const list: number[] = [];
   for (let i = 0; i < n; i++) if (!mask || mask[i]) list.push(i);
-  const m = list.length, p = 2 * harmonics + 1;
+  const m = list.length,
+    p = 2 * harmonics + 1;
   const idx = Int32Array.from(list);
   const cols = new Float64Array(p * m);
   // fitOnly (frequency search): the basis over the fitted samples only, no sinesAt
@@ -66,13 +86,23 @@ export function sineDesign(tMs: ArrayLike<number>, f: number, harmonics: number,
   cols.fill(1, 0, m);
   for (let h = 1; h <= harmonics; h++) {
     const w = (2 * Math.PI * h * f) / 1000;
-    const co = (2 * h - 2) * n, so = (2 * h - 1) * n;
+    const co = (2 * h - 2) * n,
+      so = (2 * h - 1) * n;
     if (fitOnly) {
-      for (let k = 0; k < m; k++) { cols[(2 * h - 1) * m + k] = Math.cos(w * tMs[idx[k]]); cols[2 * h * m + k] = Math.sin(w * tMs[idx[k]]); }
+      for (let k = 0; k < m; k++) {
+        cols[(2 * h - 1) * m + k] = Math.cos(w * tMs[idx[k]]);
+        cols[2 * h * m + k] = Math.sin(w * tMs[idx[k]]);
+      }
       continue;
     }
-    for (let i = 0; i < n; i++) { full[co + i] = Math.cos(w * tMs[i]); full[so + i] = Math.sin(w * tMs[i]); }
-    for (let k = 0; k < m; k++) { cols[(2 * h - 1) * m + k] = full[co + idx[k]]; cols[2 * h * m + k] = full[so + idx[k]]; }
+    for (let i = 0; i < n; i++) {
+      full[co + i] = Math.cos(w * tMs[i]);
+      full[so + i] = Math.sin(w * tMs[i]);
+    }
+    for (let k = 0; k < m; k++) {
+      cols[(2 * h - 1) * m + k] = full[co + idx[k]];
+      cols[2 * h * m + k] = full[so + idx[k]];
+    }
   }
   const { A0, scale } = normalEquations(Array.from({ length: p }, (_, j) => cols.subarray(j * m, (j + 1) * m)));
   const A0flat = new Float64Array(p * p);
@@ -84,7 +114,10 @@ export function sineDesign(tMs: ArrayLike<number>, f: number, harmonics: number,
     parts,
     fit(x) {
       let yy = 0;
-      for (let k = 0; k < m; k++) { y[k] = x[idx[k]]; yy += y[k] * y[k]; }
+      for (let k = 0; k < m; k++) {
+        y[k] = x[idx[k]];
+        yy += y[k] * y[k];
+      }
       const coef = sineCoefficients(parts, A0, y, xty);
       // residual sum of squares of the least-squares solution: y'y - c'X'y (no second pass)
       let rss = yy;
@@ -98,7 +131,8 @@ export function sineDesign(tMs: ArrayLike<number>, f: number, harmonics: number,
       const H = (coef.length - 1) / 2;
       for (let i = 0; i < n; i++) {
         let v = 0;
-        for (let h = 1; h <= H; h++) v += coef[2 * h - 1] * full[(2 * h - 2) * n + i] + coef[2 * h] * full[(2 * h - 1) * n + i];
+        for (let h = 1; h <= H; h++)
+          v += coef[2 * h - 1] * full[(2 * h - 2) * n + i] + coef[2 * h] * full[(2 * h - 1) * n + i];
         out[i] = v;
       }
       return out;
@@ -110,7 +144,13 @@ export function sineDesign(tMs: ArrayLike<number>, f: number, harmonics: number,
  * Fit at frequency f (Hz) over the samples where mask is true (all when mask is
  * omitted). tMs holds sample times in ms.
  */
-export function fitSines(x: ArrayLike<number>, tMs: ArrayLike<number>, f: number, harmonics: number, mask?: Uint8Array): SineFit {
+export function fitSines(
+  x: ArrayLike<number>,
+  tMs: ArrayLike<number>,
+  f: number,
+  harmonics: number,
+  mask?: Uint8Array,
+): SineFit {
   return sineDesign(tMs, f, harmonics, mask).fit(x);
 }
 
@@ -150,8 +190,14 @@ export interface SineConditioning {
  * Reference: G. H. Golub and C. F. Van Loan, Matrix Computations, 4th ed., 2013,
  * sec. 8.7 (the symmetric-definite generalised eigenproblem).
  */
-export function sineConditioning(tMs: ArrayLike<number>, f: number, harmonics: number, mask?: Uint8Array): SineConditioning {
-  const n = tMs.length, p = 2 * harmonics;
+export function sineConditioning(
+  tMs: ArrayLike<number>,
+  f: number,
+  harmonics: number,
+  mask?: Uint8Array,
+): SineConditioning {
+  const n = tMs.length,
+    p = 2 * harmonics;
   const G = Array.from({ length: p }, () => new Array<number>(p).fill(0)); // fitted Gram
   const Z = Array.from({ length: p }, () => new Array<number>(p).fill(0)); // left-out Gram
   const sum = new Array<number>(p).fill(0);
@@ -165,10 +211,17 @@ export function sineConditioning(tMs: ArrayLike<number>, f: number, harmonics: n
     }
     const fitted = !mask || mask[i] === 1;
     const T = fitted ? G : Z;
-    if (fitted) { m++; for (let j = 0; j < p; j++) sum[j] += row[j]; }
+    if (fitted) {
+      m++;
+      for (let j = 0; j < p; j++) sum[j] += row[j];
+    }
     for (let j = 0; j < p; j++) for (let k = 0; k <= j; k++) T[j][k] += row[j] * row[k];
   }
-  for (let j = 0; j < p; j++) for (let k = 0; k < j; k++) { G[k][j] = G[j][k]; Z[k][j] = Z[j][k]; }
+  for (let j = 0; j < p; j++)
+    for (let k = 0; k < j; k++) {
+      G[k][j] = G[j][k];
+      Z[k][j] = Z[j][k];
+    }
   const excluded = n - m;
   // centre the fitted columns (the constant absorbs their means)
   const B = G.map((r, j) => r.map((v, k) => v - (sum[j] * sum[k]) / Math.max(1, m)));

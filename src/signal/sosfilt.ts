@@ -17,7 +17,11 @@ export function sosfiltZi(sos: Sos): Float64Array {
   const zi = new Float64Array(sos.length * 2);
   let scale = 1;
   sos.forEach(([b0, b1, b2, a0, a1, a2], s) => {
-    const B0 = b0 / a0, B1 = b1 / a0, B2 = b2 / a0, A1 = a1 / a0, A2 = a2 / a0;
+    const B0 = b0 / a0,
+      B1 = b1 / a0,
+      B2 = b2 / a0,
+      A1 = a1 / a0,
+      A2 = a2 / a0;
     // (I - companion(a)^T) zi = b[1:] - a[1:] b0
     const r0 = B1 - A1 * B0;
     const r1 = B2 - A2 * B0;
@@ -56,7 +60,11 @@ export function defaultPadlen(sos: Sos): number {
   return 3 * ntaps;
 }
 
-export interface FiltfiltWork { ext: Float64Array; zi: Float64Array; z: Float64Array }
+export interface FiltfiltWork {
+  ext: Float64Array;
+  zi: Float64Array;
+  z: Float64Array;
+}
 
 /** Work buffers for repeated sosfiltfilt calls on signals of length n. */
 export function filtfiltWork(sos: Sos, n: number, padlen = defaultPadlen(sos)): FiltfiltWork {
@@ -68,11 +76,19 @@ export function filtfiltWork(sos: Sos, n: number, padlen = defaultPadlen(sos)): 
  * Writes the result into `out` (may be x itself) and returns it.
  * @throws OptionError when the signal is not longer than padlen.
  */
-export function sosfiltfilt(sos: Sos, x: ArrayLike<number>, options: { padlen?: number; out?: Float64Array; work?: FiltfiltWork } = {}): Float64Array {
+export function sosfiltfilt(
+  sos: Sos,
+  x: ArrayLike<number>,
+  options: { padlen?: number; out?: Float64Array; work?: FiltfiltWork } = {},
+): Float64Array {
   const n = x.length;
   const padlen = options.padlen ?? defaultPadlen(sos);
-  if (!Number.isInteger(padlen) || padlen < 0) throw new OptionError(`invalid padlen: ${padlen}; must be an integer >= 0`);
-  if (n <= padlen) throw new OptionError(`signal of ${n} samples is too short for zero-phase filtering; must be longer than padlen = ${padlen} samples`);
+  if (!Number.isInteger(padlen) || padlen < 0)
+    throw new OptionError(`invalid padlen: ${padlen}; must be an integer >= 0`);
+  if (n <= padlen)
+    throw new OptionError(
+      `signal of ${n} samples is too short for zero-phase filtering; must be longer than padlen = ${padlen} samples`,
+    );
   const work = options.work ?? filtfiltWork(sos, n, padlen);
   const m = n + 2 * padlen;
   const ext = work.ext.length === m ? work.ext : new Float64Array(m);
@@ -93,7 +109,8 @@ export function sosfiltfilt(sos: Sos, x: ArrayLike<number>, options: { padlen?: 
 /** Odd extension of x by padlen samples at both ends into ext (length n + 2 padlen), as SciPy's odd_ext. */
 function oddExtend(x: ArrayLike<number>, ext: Float64Array, padlen: number): void {
   const n = x.length;
-  const x0 = x[0], xn = x[n - 1];
+  const x0 = x[0],
+    xn = x[n - 1];
   for (let i = 0; i < padlen; i++) ext[i] = 2 * x0 - x[padlen - i];
   for (let i = 0; i < n; i++) ext[padlen + i] = x[i];
   for (let i = 0; i < padlen; i++) ext[padlen + n + i] = 2 * xn - x[n - 2 - i];
@@ -130,15 +147,30 @@ function cascade(c: Float64Array, x: Float64Array, z: Float64Array, from: number
  * one loop, which lets the processor overlap their dependency chains (about twice
  * the throughput); other filters fall back to two calls.
  */
-export function sosfiltfiltPair(sos: Sos, xa: ArrayLike<number>, xb: ArrayLike<number>, outA: Float64Array, outB: Float64Array, wa: FiltfiltWork, wb: FiltfiltWork, padlen = defaultPadlen(sos)): void {
+export function sosfiltfiltPair(
+  sos: Sos,
+  xa: ArrayLike<number>,
+  xb: ArrayLike<number>,
+  outA: Float64Array,
+  outB: Float64Array,
+  wa: FiltfiltWork,
+  wb: FiltfiltWork,
+  padlen = defaultPadlen(sos),
+): void {
   if (sos.length !== 2) {
     sosfiltfilt(sos, xa, { padlen, out: outA, work: wa });
     sosfiltfilt(sos, xb, { padlen, out: outB, work: wb });
     return;
   }
   const n = xa.length;
-  if (n <= padlen) throw new OptionError(`signal of ${n} samples is too short for zero-phase filtering; must be longer than padlen = ${padlen} samples`);
-  for (let i = 0; i < n; i++) { wa.ext[padlen + i] = xa[i]; wb.ext[padlen + i] = xb[i]; }
+  if (n <= padlen)
+    throw new OptionError(
+      `signal of ${n} samples is too short for zero-phase filtering; must be longer than padlen = ${padlen} samples`,
+    );
+  for (let i = 0; i < n; i++) {
+    wa.ext[padlen + i] = xa[i];
+    wb.ext[padlen + i] = xb[i];
+  }
   sosfiltfiltPairExt(sos, outA, outB, wa, wb, n, padlen);
 }
 
@@ -150,51 +182,101 @@ export function sosfiltfiltPair(sos: Sos, xa: ArrayLike<number>, xb: ArrayLike<n
  * runs towards them, so no output depends on them). Two-section filters only; the
  * arithmetic is that of sosfiltfilt, so the numbers are the same bit for bit.
  */
-export function sosfiltfiltPairExt(sos: Sos, outA: Float64Array, outB: Float64Array, wa: FiltfiltWork, wb: FiltfiltWork, n: number, padlen: number): void {
+export function sosfiltfiltPairExt(
+  sos: Sos,
+  outA: Float64Array,
+  outB: Float64Array,
+  wa: FiltfiltWork,
+  wb: FiltfiltWork,
+  n: number,
+  padlen: number,
+): void {
   if (sos.length !== 2) throw new OptionError('sosfiltfiltPairExt needs a filter of two second-order sections');
   const m = n + 2 * padlen;
-  const ea = wa.ext, eb = wb.ext;
-  if (ea.length !== m || eb.length !== m) throw new OptionError(`work buffers of ${ea.length} samples; need n + 2 padlen = ${m}`);
+  const ea = wa.ext,
+    eb = wb.ext;
+  if (ea.length !== m || eb.length !== m)
+    throw new OptionError(`work buffers of ${ea.length} samples; need n + 2 padlen = ${m}`);
   oddExtendInPlace(ea, n, padlen);
   oddExtendInPlace(eb, n, padlen);
   const c = normalizedCoefficients(sos);
   const zi = wa.zi;
-  const b00 = c[0], b01 = c[1], b02 = c[2], a01 = c[3], a02 = c[4];
-  const b10 = c[5], b11 = c[6], b12 = c[7], a11 = c[8], a12 = c[9];
+  const b00 = c[0],
+    b01 = c[1],
+    b02 = c[2],
+    a01 = c[3],
+    a02 = c[4];
+  const b10 = c[5],
+    b11 = c[6],
+    b12 = c[7],
+    a11 = c[8],
+    a12 = c[9];
   // forward and backward passes are written out on purpose: folding them into one
   // closure with a step variable made this loop about 2.5x slower in V8 (measured)
   // forward
-  let p0 = zi[0] * ea[0], p1 = zi[1] * ea[0], p2 = zi[2] * ea[0], p3 = zi[3] * ea[0];
-  let q0 = zi[0] * eb[0], q1 = zi[1] * eb[0], q2 = zi[2] * eb[0], q3 = zi[3] * eb[0];
+  let p0 = zi[0] * ea[0],
+    p1 = zi[1] * ea[0],
+    p2 = zi[2] * ea[0],
+    p3 = zi[3] * ea[0];
+  let q0 = zi[0] * eb[0],
+    q1 = zi[1] * eb[0],
+    q2 = zi[2] * eb[0],
+    q3 = zi[3] * eb[0];
   for (let i = 0; i < m; i++) {
-    const u = ea[i], w = eb[i];
-    const v = b00 * u + p0, vv = b00 * w + q0;
-    p0 = b01 * u - a01 * v + p1; q0 = b01 * w - a01 * vv + q1;
-    p1 = b02 * u - a02 * v; q1 = b02 * w - a02 * vv;
-    const y = b10 * v + p2, yy = b10 * vv + q2;
-    p2 = b11 * v - a11 * y + p3; q2 = b11 * vv - a11 * yy + q3;
-    p3 = b12 * v - a12 * y; q3 = b12 * vv - a12 * yy;
-    ea[i] = y; eb[i] = yy;
+    const u = ea[i],
+      w = eb[i];
+    const v = b00 * u + p0,
+      vv = b00 * w + q0;
+    p0 = b01 * u - a01 * v + p1;
+    q0 = b01 * w - a01 * vv + q1;
+    p1 = b02 * u - a02 * v;
+    q1 = b02 * w - a02 * vv;
+    const y = b10 * v + p2,
+      yy = b10 * vv + q2;
+    p2 = b11 * v - a11 * y + p3;
+    q2 = b11 * vv - a11 * yy + q3;
+    p3 = b12 * v - a12 * y;
+    q3 = b12 * vv - a12 * yy;
+    ea[i] = y;
+    eb[i] = yy;
   }
   // backward: the end padding (no outputs), then the outputs straight to out
-  const ya = ea[m - 1], yb = eb[m - 1];
-  p0 = zi[0] * ya; p1 = zi[1] * ya; p2 = zi[2] * ya; p3 = zi[3] * ya;
-  q0 = zi[0] * yb; q1 = zi[1] * yb; q2 = zi[2] * yb; q3 = zi[3] * yb;
+  const ya = ea[m - 1],
+    yb = eb[m - 1];
+  p0 = zi[0] * ya;
+  p1 = zi[1] * ya;
+  p2 = zi[2] * ya;
+  p3 = zi[3] * ya;
+  q0 = zi[0] * yb;
+  q1 = zi[1] * yb;
+  q2 = zi[2] * yb;
+  q3 = zi[3] * yb;
   for (let i = m - 1; i >= padlen; i--) {
-    const u = ea[i], w = eb[i];
-    const v = b00 * u + p0, vv = b00 * w + q0;
-    p0 = b01 * u - a01 * v + p1; q0 = b01 * w - a01 * vv + q1;
-    p1 = b02 * u - a02 * v; q1 = b02 * w - a02 * vv;
-    const y = b10 * v + p2, yy = b10 * vv + q2;
-    p2 = b11 * v - a11 * y + p3; q2 = b11 * vv - a11 * yy + q3;
-    p3 = b12 * v - a12 * y; q3 = b12 * vv - a12 * yy;
-    if (i < padlen + n) { outA[i - padlen] = y; outB[i - padlen] = yy; }
+    const u = ea[i],
+      w = eb[i];
+    const v = b00 * u + p0,
+      vv = b00 * w + q0;
+    p0 = b01 * u - a01 * v + p1;
+    q0 = b01 * w - a01 * vv + q1;
+    p1 = b02 * u - a02 * v;
+    q1 = b02 * w - a02 * vv;
+    const y = b10 * v + p2,
+      yy = b10 * vv + q2;
+    p2 = b11 * v - a11 * y + p3;
+    q2 = b11 * vv - a11 * yy + q3;
+    p3 = b12 * v - a12 * y;
+    q3 = b12 * vv - a12 * yy;
+    if (i < padlen + n) {
+      outA[i - padlen] = y;
+      outB[i - padlen] = yy;
+    }
   }
 }
 
 /** Odd extension in place: ext holds the signal at [padlen, padlen + n); fills both ends as oddExtend does. */
 function oddExtendInPlace(ext: Float64Array, n: number, padlen: number): void {
-  const x0 = ext[padlen], xn = ext[padlen + n - 1];
+  const x0 = ext[padlen],
+    xn = ext[padlen + n - 1];
   for (let i = 0; i < padlen; i++) ext[i] = 2 * x0 - ext[2 * padlen - i];
   for (let i = 0; i < padlen; i++) ext[padlen + n + i] = 2 * xn - ext[padlen + n - 2 - i];
 }

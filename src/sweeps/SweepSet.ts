@@ -10,7 +10,13 @@ import { checkKeys, didYouMean, shown, warnOnce } from '../validate';
 import { VERSION } from '../version';
 import { toFrame } from '../report/frame';
 import { baseline, type BaselineOptions } from '../verbs/baseline';
-import { removeArtifact, alignStimulus, detectStimulus, type ArtifactOptions, type StimulusDetection } from '../verbs/artifact';
+import {
+  removeArtifact,
+  alignStimulus,
+  detectStimulus,
+  type ArtifactOptions,
+  type StimulusDetection,
+} from '../verbs/artifact';
 import { filter, notch, type FilterOptions, type NotchOptions } from '../verbs/filter';
 import { removeHum, type HumOptions } from '../verbs/hum';
 import { decimate, type DecimateOptions } from '../verbs/decimate';
@@ -66,7 +72,10 @@ export interface Source {
  * numbers are the same bit for bit either way. `base` may be float32 (a float32 file kept
  * as read, half the memory): every use widens each value exactly to float64.
  */
-export interface DeferredSamples { base: Samples; correction: Correction }
+export interface DeferredSamples {
+  base: Samples;
+  correction: Correction;
+}
 const samples = new WeakMap<SweepSet, Float64Array | DeferredSamples>();
 /** Condition arrays this module froze (with frozen rows): reused as they are. */
 const frozenConditions = new WeakSet<readonly Conditions[]>();
@@ -108,12 +117,17 @@ export class SweepSet implements Iterable<Float64Array> {
   constructor(init: SweepSetInit) {
     const raw = init.data instanceof Float64Array ? init.data : init.data?.base;
     if (!(raw instanceof Float64Array || (raw instanceof Float32Array && !(init.data instanceof Float32Array)))) {
-      throw new OptionError('SweepSet data must be a Float64Array (or samples with a pending correction on a Float64Array or Float32Array)');
+      throw new OptionError(
+        'SweepSet data must be a Float64Array (or samples with a pending correction on a Float64Array or Float32Array)',
+      );
     }
     if (!Number.isInteger(init.nSweeps) || init.nSweeps < 0) throw new OptionError(`invalid nSweeps: ${init.nSweeps}`);
-    if (!Number.isInteger(init.nSamples) || init.nSamples < 1) throw new OptionError(`invalid nSamples: ${init.nSamples}; must be an integer >= 1`);
+    if (!Number.isInteger(init.nSamples) || init.nSamples < 1)
+      throw new OptionError(`invalid nSamples: ${init.nSamples}; must be an integer >= 1`);
     if (raw.length !== init.nSweeps * init.nSamples) {
-      throw new OptionError(`SweepSet data length ${raw.length} does not equal nSweeps x nSamples = ${init.nSweeps} x ${init.nSamples}`);
+      throw new OptionError(
+        `SweepSet data length ${raw.length} does not equal nSweeps x nSamples = ${init.nSweeps} x ${init.nSamples}`,
+      );
     }
     if (!(init.fs > 0) || !Number.isFinite(init.fs)) throw new OptionError(`invalid fs: ${init.fs} Hz; must be > 0`);
     if (!Number.isFinite(init.t0Ms)) throw new OptionError(`invalid t0Ms: ${init.t0Ms}; must be finite`);
@@ -122,7 +136,9 @@ export class SweepSet implements Iterable<Float64Array> {
     }
     samples.set(this, init.data);
     // conditions are frozen once: a set made from another with the same conditions shares them
-    const conditions = frozenConditions.has(init.conditions) ? init.conditions : Object.freeze(init.conditions.map((c) => Object.freeze({ ...c })));
+    const conditions = frozenConditions.has(init.conditions)
+      ? init.conditions
+      : Object.freeze(init.conditions.map((c) => Object.freeze({ ...c })));
     frozenConditions.add(conditions);
     this.nSweeps = init.nSweeps;
     this.nSamples = init.nSamples;
@@ -140,7 +156,9 @@ export class SweepSet implements Iterable<Float64Array> {
   /** A new SweepSet with some fields replaced; `step` is appended to the history. */
   create(overrides: Partial<SweepSetInit> & { step?: { verb: string; options: Record<string, unknown> } }): SweepSet {
     const { step, ...rest } = overrides;
-    const history = rest.history ?? (step ? [...this.history, { verb: step.verb, options: step.options, version: VERSION }] : this.history);
+    const history =
+      rest.history ??
+      (step ? [...this.history, { verb: step.verb, options: step.options, version: VERSION }] : this.history);
     return new SweepSet({
       data: samples.get(this)!,
       nSweeps: this.nSweeps,
@@ -196,7 +214,8 @@ export class SweepSet implements Iterable<Float64Array> {
 
   /** A view (no copy) of sweep i. Do not modify it. */
   sweep(i: number): Float64Array {
-    if (!Number.isInteger(i) || i < 0 || i >= this.nSweeps) throw new OptionError(`invalid sweep index: ${i}; must be 0..${this.nSweeps - 1}`);
+    if (!Number.isInteger(i) || i < 0 || i >= this.nSweeps)
+      throw new OptionError(`invalid sweep index: ${i}; must be 0..${this.nSweeps - 1}`);
     return this.data.subarray(i * this.nSamples, (i + 1) * this.nSamples);
   }
 
@@ -221,9 +240,13 @@ export class SweepSet implements Iterable<Float64Array> {
 
   /** Keep the sweeps with the given indices (in that order). */
   select(indices: readonly number[]): SweepSet {
-    if (!Array.isArray(indices)) throw new OptionError(`invalid indices: ${shown(indices)}; must be an array of sweep indices 0..${this.nSweeps - 1}`);
+    if (!Array.isArray(indices))
+      throw new OptionError(
+        `invalid indices: ${shown(indices)}; must be an array of sweep indices 0..${this.nSweeps - 1}`,
+      );
     for (const i of indices) {
-      if (!Number.isInteger(i) || i < 0 || i >= this.nSweeps) throw new OptionError(`invalid sweep index in select: ${shown(i)}; must be an integer 0..${this.nSweeps - 1}`);
+      if (!Number.isInteger(i) || i < 0 || i >= this.nSweeps)
+        throw new OptionError(`invalid sweep index in select: ${shown(i)}; must be an integer 0..${this.nSweeps - 1}`);
     }
     const out = new Float64Array(indices.length * this.nSamples);
     indices.forEach((ix, k) => out.set(this.sweep(ix), k * this.nSamples));
@@ -241,7 +264,11 @@ export class SweepSet implements Iterable<Float64Array> {
    * given as {min, max}), or a predicate.
    * @example set.where({ preparation: 'N3', distanceMm: [10, 20] })
    */
-  where(match: Record<string, ConditionValue | readonly ConditionValue[] | { min?: number; max?: number }> | ((c: Conditions, i: number) => boolean)): SweepSet {
+  where(
+    match:
+      | Record<string, ConditionValue | readonly ConditionValue[] | { min?: number; max?: number }>
+      | ((c: Conditions, i: number) => boolean),
+  ): SweepSet {
     if (typeof match !== 'function') checkMatch(this, match);
     const pred = typeof match === 'function' ? match : matcher(match);
     const idx: number[] = [];
@@ -253,7 +280,12 @@ export class SweepSet implements Iterable<Float64Array> {
       warnOnce(`where:${what}`, `where(${what}) matches none of the ${this.nSweeps} sweeps`);
     }
     const s = this.select(idx);
-    return s.create({ history: [...this.history, { verb: 'where', options: { match: typeof match === 'function' ? String(match) : match }, version: VERSION }] });
+    return s.create({
+      history: [
+        ...this.history,
+        { verb: 'where', options: { match: typeof match === 'function' ? String(match) : match }, version: VERSION },
+      ],
+    });
   }
 
   /** Keep the samples between fromMs and toMs (inclusive of the nearest samples). */
@@ -263,11 +295,20 @@ export class SweepSet implements Iterable<Float64Array> {
     }
     const a = Math.max(0, Math.ceil(((fromMs - this.t0Ms) * this.fs) / 1000 - 1e-9));
     const b = Math.min(this.nSamples - 1, Math.floor(((toMs - this.t0Ms) * this.fs) / 1000 + 1e-9));
-    if (b < a) throw new OptionError(`invalid crop window: [${fromMs}, ${toMs}] ms lies outside the sweep [${this.t0Ms}, ${this.timeAt(this.nSamples - 1)}] ms`);
+    if (b < a)
+      throw new OptionError(
+        `invalid crop window: [${fromMs}, ${toMs}] ms lies outside the sweep [${this.t0Ms}, ${this.timeAt(this.nSamples - 1)}] ms`,
+      );
     const n = b - a + 1;
     const out = sharedSamples(this.nSweeps * n);
-    for (let s = 0; s < this.nSweeps; s++) out.set(this.data.subarray(s * this.nSamples + a, s * this.nSamples + b + 1), s * n);
-    return this.create({ data: out, nSamples: n, t0Ms: this.timeAt(a), step: { verb: 'crop', options: { fromMs, toMs } } });
+    for (let s = 0; s < this.nSweeps; s++)
+      out.set(this.data.subarray(s * this.nSamples + a, s * this.nSamples + b + 1), s * n);
+    return this.create({
+      data: out,
+      nSamples: n,
+      t0Ms: this.timeAt(a),
+      step: { verb: 'crop', options: { fromMs, toMs } },
+    });
   }
 
   /**
@@ -406,7 +447,9 @@ export class SweepSet implements Iterable<Float64Array> {
     const a = sets[0];
     for (const s of sets) {
       if (s.fs !== a.fs || s.nSamples !== a.nSamples || Math.abs(s.t0Ms - a.t0Ms) > 1e-9 || s.units !== a.units) {
-        throw new OptionError(`cannot concatenate sets: fs ${s.fs} vs ${a.fs} Hz, nSamples ${s.nSamples} vs ${a.nSamples}, t0 ${s.t0Ms} vs ${a.t0Ms} ms, units ${s.units} vs ${a.units}`);
+        throw new OptionError(
+          `cannot concatenate sets: fs ${s.fs} vs ${a.fs} Hz, nSamples ${s.nSamples} vs ${a.nSamples}, t0 ${s.t0Ms} vs ${a.t0Ms} ms, units ${s.units} vs ${a.units}`,
+        );
       }
     }
     const n = sets.reduce((k, s) => k + s.nSweeps, 0);
@@ -418,9 +461,19 @@ export class SweepSet implements Iterable<Float64Array> {
     }
     const seen = new Set<string>();
     const sources: Source[] = [];
-    for (const s of sets) for (const src of s.sources) if (!seen.has(src.path)) { seen.add(src.path); sources.push(src); }
+    for (const s of sets)
+      for (const src of s.sources)
+        if (!seen.has(src.path)) {
+          seen.add(src.path);
+          sources.push(src);
+        }
     return new SweepSet({
-      data, nSweeps: n, nSamples: a.nSamples, fs: a.fs, t0Ms: a.t0Ms, units: a.units,
+      data,
+      nSweeps: n,
+      nSamples: a.nSamples,
+      fs: a.fs,
+      t0Ms: a.t0Ms,
+      units: a.units,
       conditions: sets.flatMap((s) => s.conditions),
       history: a.history,
       sources,
@@ -451,7 +504,10 @@ export class SweepSet implements Iterable<Float64Array> {
     for (const k of keys) {
       const lv = this.levels(k).filter((v) => v !== null);
       if (k === 'file' || k === 'fileSweep') continue;
-      const shown = lv.slice(0, 8).map((v) => (typeof v === 'number' ? fmt(v) : String(v))).join(', ');
+      const shown = lv
+        .slice(0, 8)
+        .map((v) => (typeof v === 'number' ? fmt(v) : String(v)))
+        .join(', ');
       lines.push(`  ${k}: ${lv.length} level${lv.length === 1 ? '' : 's'} (${shown}${lv.length > 8 ? ', ...' : ''})`);
     }
     if (this.sources.length) lines.push(`  from ${this.sources.length} file${this.sources.length === 1 ? '' : 's'}`);
@@ -474,11 +530,14 @@ export class GroupedSweeps {
   readonly keys: string[];
   readonly groups: { key: ConditionValue[]; indices: number[] }[];
   constructor(set: SweepSet, keys: string[]) {
-    for (const k of keys) if (typeof k !== 'string' || !k) throw new OptionError(`invalid groupBy key: ${JSON.stringify(k)}`);
+    for (const k of keys)
+      if (typeof k !== 'string' || !k) throw new OptionError(`invalid groupBy key: ${JSON.stringify(k)}`);
     for (const k of keys) {
       if (set.nSweeps > 0 && !set.conditions.some((c) => k in c)) {
         const known = [...new Set(set.conditions.flatMap((c) => Object.keys(c)))].sort();
-        throw new OptionError(`invalid groupBy key: no sweep has the condition ${JSON.stringify(k)}; conditions are ${known.join(', ')}`);
+        throw new OptionError(
+          `invalid groupBy key: no sweep has the condition ${JSON.stringify(k)}; conditions are ${known.join(', ')}`,
+        );
       }
     }
     this.set = set;
@@ -503,16 +562,25 @@ export class GroupedSweeps {
   average(options: { method?: 'mean' | 'median' } = {}): SweepSet {
     checkKeys('average options', options, ['method']);
     const method = options.method ?? 'mean';
-    if (method !== 'mean' && method !== 'median') throw new OptionError(`invalid method: ${JSON.stringify(method)}; must be "mean" or "median"`);
+    if (method !== 'mean' && method !== 'median')
+      throw new OptionError(`invalid method: ${JSON.stringify(method)}; must be "mean" or "median"`);
     const { set } = this;
     const n = set.nSamples;
     const G = this.groups.length;
     const data = set.data;
     const out = sharedSamples(G * n, data.length);
     const start = new Int32Array(G + 1);
-    this.groups.forEach((g, gi) => { start[gi + 1] = start[gi] + g.indices.length; });
+    this.groups.forEach((g, gi) => {
+      start[gi + 1] = start[gi] + g.indices.length;
+    });
     const members = Int32Array.from(this.groups.flatMap((g) => g.indices));
-    const args = { x: data, n, start: shareCopy(start), members: shareCopy(members), median: method === 'median' ? 1 : 0 };
+    const args = {
+      x: data,
+      n,
+      start: shareCopy(start),
+      members: shareCopy(members),
+      median: method === 'median' ? 1 : 0,
+    };
     const none = new Float64Array(0);
     runSweeps('average', { ...args, out, sd: none, sem: none }, G, data.length);
     // the SD and SEM sweeps take a second pass over the members: made when first read
@@ -526,11 +594,18 @@ export class GroupedSweeps {
       return spread;
     };
     const extras = {
-      get sd() { return spreadOf().sd; },
-      get sem() { return spreadOf().sem; },
+      get sd() {
+        return spreadOf().sd;
+      },
+      get sem() {
+        return spreadOf().sem;
+      },
       groupIndices: this.groups.map((g) => g.indices),
     };
-    const conds: Conditions[] = this.groups.map((g) => ({ ...shared(g.indices.map((ix) => set.conditions[ix])), count: g.indices.length }));
+    const conds: Conditions[] = this.groups.map((g) => ({
+      ...shared(g.indices.map((ix) => set.conditions[ix])),
+      count: g.indices.length,
+    }));
     return set.create({
       data: out,
       nSweeps: G,
@@ -560,19 +635,25 @@ export function conditionKeys(cs: readonly Conditions[]): string[] {
 /** A where() match names conditions some sweep has, and ranges hold only min and max. */
 function checkMatch(set: SweepSet, match: unknown): void {
   if (match === null || typeof match !== 'object' || Array.isArray(match)) {
-    throw new OptionError(`invalid where: ${shown(match)}; must be an object of condition values or a predicate function`);
+    throw new OptionError(
+      `invalid where: ${shown(match)}; must be an object of condition values or a predicate function`,
+    );
   }
   const known = conditionKeys(set.conditions);
   for (const [k, want] of Object.entries(match as Record<string, unknown>)) {
     if (set.nSweeps > 0 && !known.includes(k)) {
-      throw new OptionError(`unknown condition ${JSON.stringify(k)} in where()${didYouMean(k, known)}; no sweep has it; conditions are ${[...known].sort().join(', ')}`);
+      throw new OptionError(
+        `unknown condition ${JSON.stringify(k)} in where()${didYouMean(k, known)}; no sweep has it; conditions are ${[...known].sort().join(', ')}`,
+      );
     }
     if (want !== null && typeof want === 'object' && !Array.isArray(want)) {
       checkKeys(`where() range for ${JSON.stringify(k)}`, want, ['min', 'max']);
       const r = want as { min?: unknown; max?: unknown };
       for (const b of ['min', 'max'] as const) {
         if (r[b] !== undefined && (typeof r[b] !== 'number' || Number.isNaN(r[b]))) {
-          throw new OptionError(`invalid where() range for ${JSON.stringify(k)}: ${b} is ${shown(r[b])}; must be a number`);
+          throw new OptionError(
+            `invalid where() range for ${JSON.stringify(k)}: ${b} is ${shown(r[b])}; must be a number`,
+          );
         }
       }
     }

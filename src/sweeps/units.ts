@@ -25,7 +25,8 @@ export function parseTimeUnit(label: string): TimeUnit | undefined {
 
 /** Multiply a value in `from` units by this factor to get `to` units. */
 export function signalFactor(from: SignalUnit, to: SignalUnit): number {
-  if (!(from in SIGNAL_SCALE) || !(to in SIGNAL_SCALE)) throw new OptionError(`unknown signal unit: ${from} or ${to}; must be one of V, mV, uV`);
+  if (!(from in SIGNAL_SCALE) || !(to in SIGNAL_SCALE))
+    throw new OptionError(`unknown signal unit: ${from} or ${to}; must be one of V, mV, uV`);
   return SIGNAL_SCALE[from] / SIGNAL_SCALE[to];
 }
 

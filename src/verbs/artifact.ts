@@ -37,7 +37,11 @@ export interface ArtifactOptions {
   /** exponential: window where the tail is fitted, ms (default [window end, window end + 0.4]). */
   tailWindow?: [number, number];
 }
-export const artifactDefaults = { window: [0, 0.3] as [number, number], bridge: 'hermite' as const, scaling: 'fit' as const };
+export const artifactDefaults = {
+  window: [0, 0.3] as [number, number],
+  bridge: 'hermite' as const,
+  scaling: 'fit' as const,
+};
 
 export { bridgeGap } from '../signal/bridge';
 
@@ -71,12 +75,17 @@ function checkArtifactKeys(options: ArtifactOptions, method: ArtifactMethod): vo
   for (const k of Object.keys(options)) {
     if (ARTIFACT_KEYS[method].includes(k)) continue;
     const users = (Object.keys(ARTIFACT_KEYS) as ArtifactMethod[]).filter((m) => ARTIFACT_KEYS[m].includes(k));
-    throw new OptionError(`option "${k}" in removeArtifact options is not used by method "${method}" (only by ${users.map((m) => `"${m}"`).join(', ')}); method "${method}" takes ${ARTIFACT_KEYS[method].join(', ')}`);
+    throw new OptionError(
+      `option "${k}" in removeArtifact options is not used by method "${method}" (only by ${users.map((m) => `"${m}"`).join(', ')}); method "${method}" takes ${ARTIFACT_KEYS[method].join(', ')}`,
+    );
   }
 }
 
 export function removeArtifact(set: SweepSet, options: ArtifactOptions): SweepSet {
-  if (options === null || typeof options !== 'object') throw new OptionError('removeArtifact needs options { method } ("blank", "template", "exponential" or "alternate")');
+  if (options === null || typeof options !== 'object')
+    throw new OptionError(
+      'removeArtifact needs options { method } ("blank", "template", "exponential" or "alternate")',
+    );
   const method = oneOf('method', options?.method, ['blank', 'template', 'exponential', 'alternate'] as const);
   checkArtifactKeys(options, method);
   const window = windowMs('window', options.window ?? artifactDefaults.window);
@@ -90,13 +99,25 @@ export function removeArtifact(set: SweepSet, options: ArtifactOptions): SweepSe
     const pending = deferredOf(set);
     const prior = pending && !pending.correction.bridge ? pending.correction : null;
     const base = prior ? pending!.base : set.data;
-    const correction = { ...(prior ?? noCorrection()), bridge: true, bridgeFrom: a, bridgeTo: b, bridgeHermite: bridge === 'hermite' };
-    return set.create({ data: { base, correction }, step: { verb: 'removeArtifact', options: { method, window, bridge } } });
+    const correction = {
+      ...(prior ?? noCorrection()),
+      bridge: true,
+      bridgeFrom: a,
+      bridgeTo: b,
+      bridgeHermite: bridge === 'hermite',
+    };
+    return set.create({
+      data: { base, correction },
+      step: { verb: 'removeArtifact', options: { method, window, bridge } },
+    });
   }
   if (method === 'exponential') {
     const tail = windowMs('tailWindow', options.tailWindow ?? [window[1], window[1] + 0.4]);
     const [ta, tb] = windowIndices(set, tail, 'tailWindow');
-    if (tb - ta < 4) throw new OptionError(`invalid tailWindow: [${tail[0]}, ${tail[1]}] ms holds ${tb - ta + 1} samples; need at least 5 to fit an exponential`);
+    if (tb - ta < 4)
+      throw new OptionError(
+        `invalid tailWindow: [${tail[0]}, ${tail[1]}] ms holds ${tb - ta + 1} samples; need at least 5 to fit an exponential`,
+      );
     const out = sharedSamples(set.data.length);
     out.set(set.data);
     const taus: number[] = [];
@@ -107,20 +128,36 @@ export function removeArtifact(set: SweepSet, options: ArtifactOptions): SweepSe
       for (let i = a; i < n; i++) x[i] -= fit.A * Math.exp(-((i - ta) * 1000) / set.fs / fit.tauMs);
       bridgeGap(x, a, b, bridge);
     }
-    return set.create({ data: out, extras: { artifactTauMs: taus }, step: { verb: 'removeArtifact', options: { method, window, bridge, tailWindow: tail } } });
+    return set.create({
+      data: out,
+      extras: { artifactTauMs: taus },
+      step: { verb: 'removeArtifact', options: { method, window, bridge, tailWindow: tail } },
+    });
   }
   // template
   const scaling = oneOf('scaling', options.scaling ?? artifactDefaults.scaling, ['fit', 'intensity'] as const);
   const fitWindow = windowMs('fitWindow', options.fitWindow ?? window);
   const [fa, fb] = windowIndices(set, fitWindow, 'fitWindow');
-  if (options.templateSweeps !== undefined && (!Array.isArray(options.templateSweeps) || options.templateSweeps.some((i) => !Number.isInteger(i) || i < 0 || i >= set.nSweeps))) {
-    throw new OptionError(`invalid templateSweeps: ${JSON.stringify(options.templateSweeps)}; must be an array of sweep indices 0..${set.nSweeps - 1}`);
+  if (
+    options.templateSweeps !== undefined &&
+    (!Array.isArray(options.templateSweeps) ||
+      options.templateSweeps.some((i) => !Number.isInteger(i) || i < 0 || i >= set.nSweeps))
+  ) {
+    throw new OptionError(
+      `invalid templateSweeps: ${JSON.stringify(options.templateSweeps)}; must be an array of sweep indices 0..${set.nSweeps - 1}`,
+    );
   }
   if (options.maxIntensity !== undefined) finite('maxIntensity', options.maxIntensity);
-  if (options.templateBy !== undefined && (!Array.isArray(options.templateBy) || options.templateBy.some((k) => typeof k !== 'string'))) {
-    throw new OptionError(`invalid templateBy: ${JSON.stringify(options.templateBy)}; must be an array of condition names`);
+  if (
+    options.templateBy !== undefined &&
+    (!Array.isArray(options.templateBy) || options.templateBy.some((k) => typeof k !== 'string'))
+  ) {
+    throw new OptionError(
+      `invalid templateBy: ${JSON.stringify(options.templateBy)}; must be an array of condition names`,
+    );
   }
-  const keys = options.templateBy ?? ['preparation', 'site', 'distanceMm'].filter((k) => set.conditions.some((c) => k in c));
+  const keys =
+    options.templateBy ?? ['preparation', 'site', 'distanceMm'].filter((k) => set.conditions.some((c) => k in c));
   const groups = groupKeys(set, keys);
   // a pending baseline is applied on the fly; the subtraction is left pending too
   const pending = deferredOf(set);
@@ -144,12 +181,17 @@ export function removeArtifact(set: SweepSet, options: ArtifactOptions): SweepSe
     else {
       const I = members.map((i) => set.conditions[i].intensity);
       if (I.some((v) => typeof v !== 'number')) {
-        throw new AnalysisError(`template artifact removal needs the condition "intensity" on every sweep (group ${id}), or templateSweeps`);
+        throw new AnalysisError(
+          `template artifact removal needs the condition "intensity" on every sweep (group ${id}), or templateSweeps`,
+        );
       }
       const limit = options.maxIntensity ?? Math.min(...(I as number[]));
       tmpl = members.filter((_, k) => (I[k] as number) <= limit);
     }
-    if (tmpl.length === 0) throw new AnalysisError(`no template sweeps in group ${id}: give maxIntensity or templateSweeps that select sub-threshold sweeps`);
+    if (tmpl.length === 0)
+      throw new AnalysisError(
+        `no template sweeps in group ${id}: give maxIntensity or templateSweeps that select sub-threshold sweeps`,
+      );
     used[id] = tmpl;
     const T = templates.subarray(g * n, (g + 1) * n);
     for (const i of tmpl) {
@@ -171,29 +213,64 @@ export function removeArtifact(set: SweepSet, options: ArtifactOptions): SweepSe
         scale = tt > 0 ? xt / tt : 0;
       } else {
         const I = set.conditions[i].intensity;
-        if (typeof I !== 'number' || !(tI > 0)) throw new AnalysisError(`scaling "intensity" needs a positive intensity on sweep ${i} and its template sweeps`);
+        if (typeof I !== 'number' || !(tI > 0))
+          throw new AnalysisError(
+            `scaling "intensity" needs a positive intensity on sweep ${i} and its template sweeps`,
+          );
         scale = I / tI;
       }
       scales[i] = scale;
       groupOf[i] = g;
     }
   }
-  const correction = { ...(prior ?? noCorrection()), template: true, scale: shareCopy(scales), group: shareCopy(groupOf), templates: shareCopy(templates) };
-  return set.create({ data: { base, correction }, extras: { templateSweeps: used }, step: { verb: 'removeArtifact', options: { method, window, scaling, fitWindow, templateBy: keys, maxIntensity: options.maxIntensity ?? null, templateSweeps: options.templateSweeps ?? null } } });
+  const correction = {
+    ...(prior ?? noCorrection()),
+    template: true,
+    scale: shareCopy(scales),
+    group: shareCopy(groupOf),
+    templates: shareCopy(templates),
+  };
+  return set.create({
+    data: { base, correction },
+    extras: { templateSweeps: used },
+    step: {
+      verb: 'removeArtifact',
+      options: {
+        method,
+        window,
+        scaling,
+        fitWindow,
+        templateBy: keys,
+        maxIntensity: options.maxIntensity ?? null,
+        templateSweeps: options.templateSweeps ?? null,
+      },
+    },
+  });
 }
 
 /**
  * Fit y = A exp(-(t - t_a)/tau) + c on samples [ta, tb]: golden-section search over
  * log tau (0.02 to 50 ms) with A and c by linear least squares at each tau.
  */
-export function fitExpTail(x: Float64Array, ta: number, tb: number, fs: number): { A: number; c: number; tauMs: number; rss: number } {
+export function fitExpTail(
+  x: Float64Array,
+  ta: number,
+  tb: number,
+  fs: number,
+): { A: number; c: number; tauMs: number; rss: number } {
   const m = tb - ta + 1;
   const at = (logTau: number) => {
     const tau = Math.exp(logTau);
-    let se = 0, see = 0, sy = 0, sey = 0;
+    let se = 0,
+      see = 0,
+      sy = 0,
+      sey = 0;
     for (let k = 0; k < m; k++) {
       const e = Math.exp(-(k * 1000) / fs / tau);
-      se += e; see += e * e; sy += x[ta + k]; sey += e * x[ta + k];
+      se += e;
+      see += e * e;
+      sy += x[ta + k];
+      sey += e * x[ta + k];
     }
     const det = see * m - se * se;
     const A = det !== 0 ? (sey * m - se * sy) / det : 0;
@@ -202,13 +279,27 @@ export function fitExpTail(x: Float64Array, ta: number, tb: number, fs: number):
     for (let k = 0; k < m; k++) rss += (x[ta + k] - A * Math.exp(-(k * 1000) / fs / tau) - c) ** 2;
     return { A, c, tauMs: tau, rss };
   };
-  let lo = Math.log(0.02), hi = Math.log(50);
+  let lo = Math.log(0.02),
+    hi = Math.log(50);
   const g = (Math.sqrt(5) - 1) / 2;
-  let x1 = hi - g * (hi - lo), x2 = lo + g * (hi - lo);
-  let f1 = at(x1).rss, f2 = at(x2).rss;
+  let x1 = hi - g * (hi - lo),
+    x2 = lo + g * (hi - lo);
+  let f1 = at(x1).rss,
+    f2 = at(x2).rss;
   for (let it = 0; it < 60; it++) {
-    if (f1 < f2) { hi = x2; x2 = x1; f2 = f1; x1 = hi - g * (hi - lo); f1 = at(x1).rss; }
-    else { lo = x1; x1 = x2; f1 = f2; x2 = lo + g * (hi - lo); f2 = at(x2).rss; }
+    if (f1 < f2) {
+      hi = x2;
+      x2 = x1;
+      f2 = f1;
+      x1 = hi - g * (hi - lo);
+      f1 = at(x1).rss;
+    } else {
+      lo = x1;
+      x1 = x2;
+      f1 = f2;
+      x2 = lo + g * (hi - lo);
+      f2 = at(x2).rss;
+    }
   }
   return at((lo + hi) / 2);
 }
@@ -219,30 +310,47 @@ const PAIR_IGNORE = new Set(['polarity', 'repeat', 'acquiredS', 'fileSweep', 'la
 function alternate(set: SweepSet): SweepSet {
   const pol = set.column('polarity');
   pol.forEach((p, i) => {
-    if (p !== 1 && p !== -1) throw new AnalysisError(`alternating-polarity averaging needs the condition "polarity" (+1 or -1); sweep ${i} has ${JSON.stringify(p)}`);
+    if (p !== 1 && p !== -1)
+      throw new AnalysisError(
+        `alternating-polarity averaging needs the condition "polarity" (+1 or -1); sweep ${i} has ${JSON.stringify(p)}`,
+      );
   });
   const groups = new Map<string, { pos: number[]; neg: number[] }>();
   set.conditions.forEach((c, i) => {
-    const key = JSON.stringify(Object.keys(c).filter((k) => !PAIR_IGNORE.has(k)).sort().map((k) => [k, c[k]]));
+    const key = JSON.stringify(
+      Object.keys(c)
+        .filter((k) => !PAIR_IGNORE.has(k))
+        .sort()
+        .map((k) => [k, c[k]]),
+    );
     let g = groups.get(key);
     if (!g) groups.set(key, (g = { pos: [], neg: [] }));
     (c.polarity === 1 ? g.pos : g.neg).push(i);
   });
   const pairs: [number, number][] = [];
   for (const g of groups.values()) {
-    if (g.pos.length !== g.neg.length) throw new AnalysisError(`alternating-polarity averaging: ${g.pos.length} positive and ${g.neg.length} negative sweeps for conditions of sweep ${g.pos[0] ?? g.neg[0]}; expected equal numbers`);
+    if (g.pos.length !== g.neg.length)
+      throw new AnalysisError(
+        `alternating-polarity averaging: ${g.pos.length} positive and ${g.neg.length} negative sweeps for conditions of sweep ${g.pos[0] ?? g.neg[0]}; expected equal numbers`,
+      );
     g.pos.forEach((p, k) => pairs.push([p, g.neg[k]]));
   }
   pairs.sort((x, y) => Math.min(...x) - Math.min(...y));
   const n = set.nSamples;
   const out = new Float64Array(pairs.length * n);
   const conds: Conditions[] = pairs.map(([p, q], k) => {
-    const xp = set.sweep(p), xq = set.sweep(q);
+    const xp = set.sweep(p),
+      xq = set.sweep(q);
     for (let i = 0; i < n; i++) out[k * n + i] = 0.5 * (xp[i] + xq[i]);
     const c: Record<string, ConditionValue> = { ...set.conditions[p], polarity: null, count: 2 };
     return c;
   });
-  return set.create({ data: out, nSweeps: pairs.length, conditions: conds, step: { verb: 'removeArtifact', options: { method: 'alternate' } } });
+  return set.create({
+    data: out,
+    nSweeps: pairs.length,
+    conditions: conds,
+    step: { verb: 'removeArtifact', options: { method: 'alternate' } },
+  });
 }
 
 export interface StimulusDetection {
@@ -268,16 +376,31 @@ export function detectStimulus(set: SweepSet, options: { search?: [number, numbe
     let mx = 0;
     for (let i = Math.max(1, a); i <= b; i++) mx = Math.max(mx, Math.abs(x[i] - x[i - 1]));
     let at = -1;
-    for (let i = Math.max(1, a); i <= b; i++) if (Math.abs(x[i] - x[i - 1]) > 0.5 * mx) { at = i; break; }
+    for (let i = Math.max(1, a); i <= b; i++)
+      if (Math.abs(x[i] - x[i - 1]) > 0.5 * mx) {
+        at = i;
+        break;
+      }
     per.push(at < 0 ? NaN : set.timeAt(at));
   }
   const sorted = per.filter(Number.isFinite).sort((p, q) => p - q);
   if (!sorted.length) throw new AnalysisError('no stimulus artifact found in the search window');
-  return { perSweepMs: per, timeMs: sorted[Math.floor((sorted.length - 1) / 2)], spreadMs: sorted[sorted.length - 1] - sorted[0] };
+  return {
+    perSweepMs: per,
+    timeMs: sorted[Math.floor((sorted.length - 1) / 2)],
+    spreadMs: sorted[sorted.length - 1] - sorted[0],
+  };
 }
 
 /** Shift the time axis so the detected stimulus (median over sweeps) is at 0 ms; the detection is kept in extras. */
 export function alignStimulus(set: SweepSet, options: { search?: [number, number] } = {}): SweepSet {
   const d = detectStimulus(set, options);
-  return set.create({ t0Ms: set.t0Ms - d.timeMs, extras: { ...set.extras, stimulusDetection: d }, step: { verb: 'alignStimulus', options: { search: options.search ?? null, detectedMs: d.timeMs, spreadMs: d.spreadMs } } });
+  return set.create({
+    t0Ms: set.t0Ms - d.timeMs,
+    extras: { ...set.extras, stimulusDetection: d },
+    step: {
+      verb: 'alignStimulus',
+      options: { search: options.search ?? null, detectedMs: d.timeMs, spreadMs: d.spreadMs },
+    },
+  });
 }

@@ -20,7 +20,13 @@ export interface BaselineOptions {
 export const baselineDefaults = { method: 'mean' as const, lateWindow: null, stopBeforeStimulusMs: 0.1 };
 
 /** Level of samples [a, b] (inclusive) of x by mean or median. */
-function level(x: Float64Array | Float32Array, a: number, b: number, method: 'mean' | 'median', buf: Float64Array): number {
+function level(
+  x: Float64Array | Float32Array,
+  a: number,
+  b: number,
+  method: 'mean' | 'median',
+  buf: Float64Array,
+): number {
   if (method === 'mean') {
     let s = 0;
     for (let i = a; i <= b; i++) s += x[i];
@@ -38,7 +44,9 @@ export function windowIndices(set: SweepSet, w: [number, number], name: string):
   const a = Math.max(0, Math.ceil(((w[0] - set.t0Ms) * set.fs) / 1000 - 1e-9));
   const b = Math.min(set.nSamples - 1, Math.floor(((w[1] - set.t0Ms) * set.fs) / 1000 + 1e-9));
   if (b < a) {
-    throw new OptionError(`invalid ${name}: [${w[0]}, ${w[1]}] ms holds no samples; the sweep spans [${set.t0Ms}, ${set.timeAt(set.nSamples - 1)}] ms`);
+    throw new OptionError(
+      `invalid ${name}: [${w[0]}, ${w[1]}] ms holds no samples; the sweep spans [${set.t0Ms}, ${set.timeAt(set.nSamples - 1)}] ms`,
+    );
   }
   return [a, b];
 }
@@ -53,13 +61,18 @@ export function baseline(set: SweepSet, options: BaselineOptions = {}): SweepSet
   const method = oneOf('method', options.method ?? baselineDefaults.method, ['mean', 'median'] as const);
   const defaultWindow: [number, number] = [set.t0Ms, -baselineDefaults.stopBeforeStimulusMs];
   if (!options.window && !(set.t0Ms < -baselineDefaults.stopBeforeStimulusMs)) {
-    throw new OptionError(`invalid window: the sweep starts at ${set.t0Ms} ms, so there is no pre-stimulus baseline; give window: [from, to] in ms`);
+    throw new OptionError(
+      `invalid window: the sweep starts at ${set.t0Ms} ms, so there is no pre-stimulus baseline; give window: [from, to] in ms`,
+    );
   }
   const w = windowMs('window', options.window ?? defaultWindow);
   const [a, b] = windowIndices(set, w, 'window');
   const late = options.lateWindow ? windowMs('lateWindow', options.lateWindow) : null;
   const lb = late ? windowIndices(set, late, 'lateWindow') : null;
-  if (lb && !(lb[0] > b)) throw new OptionError(`invalid lateWindow: [${late![0]}, ${late![1]}] ms; must lie after window [${w[0]}, ${w[1]}] ms`);
+  if (lb && !(lb[0] > b))
+    throw new OptionError(
+      `invalid lateWindow: [${late![0]}, ${late![1]}] ms; must lie after window [${w[0]}, ${w[1]}] ms`,
+    );
   const n = set.nSamples;
   // samples kept as read (float32, nothing pending) are measured in place: the levels are
   // those of their exact float64 values, and nothing is widened until it is needed
@@ -78,5 +91,8 @@ export function baseline(set: SweepSet, options: BaselineOptions = {}): SweepSet
   }
   // the subtraction is left pending: it happens when the samples are next read
   const correction = { ...noCorrection(), line: true, level: shareCopy(level0), slope: shareCopy(slope), center: ca };
-  return set.create({ data: { base: x, correction }, step: { verb: 'baseline', options: { window: w, method, lateWindow: late } } });
+  return set.create({
+    data: { base: x, correction },
+    step: { verb: 'baseline', options: { window: w, method, lateWindow: late } },
+  });
 }

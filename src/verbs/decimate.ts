@@ -19,7 +19,8 @@ export const decimateDefaults = { order: 8, cutoffFraction: 0.8 };
  * its IIR filter). Keeps samples 0, factor, 2 factor, ...
  */
 export function decimate(set: SweepSet, options: DecimateOptions): SweepSet {
-  if (options === null || typeof options !== 'object') throw new OptionError('decimate needs options { factor } (an integer 2..64)');
+  if (options === null || typeof options !== 'object')
+    throw new OptionError('decimate needs options { factor } (an integer 2..64)');
   checkKeys('decimate options', options, ['factor', 'order']);
   const factor = integerIn('factor', options.factor, 2, 64);
   const order = integerIn('order', options.order ?? decimateDefaults.order, 1, 10);
@@ -30,5 +31,10 @@ export function decimate(set: SweepSet, options: DecimateOptions): SweepSet {
   const m = Math.ceil(n / factor);
   const out = new Float64Array(set.nSweeps * m);
   for (let s = 0; s < set.nSweeps; s++) for (let i = 0; i < m; i++) out[s * m + i] = filtered[s * n + i * factor];
-  return set.create({ data: out, nSamples: m, fs: set.fs / factor, step: { verb: 'decimate', options: { factor, order, cutoffHz: cutoff, zeroPhase: true } } });
+  return set.create({
+    data: out,
+    nSamples: m,
+    fs: set.fs / factor,
+    step: { verb: 'decimate', options: { factor, order, cutoffHz: cutoff, zeroPhase: true } },
+  });
 }

@@ -20,11 +20,19 @@ export const filterDefaults = { order: 4 };
 /** Apply sos forward and backward to every sweep (zero phase). */
 export function applySos(set: SweepSet, sos: Sos, padlen: number): Float64Array {
   const n = set.nSamples;
-  if (n <= padlen) throw new OptionError(`sweeps of ${n} samples are too short for zero-phase filtering; must be longer than padlen = ${padlen} samples`);
+  if (n <= padlen)
+    throw new OptionError(
+      `sweeps of ${n} samples are too short for zero-phase filtering; must be longer than padlen = ${padlen} samples`,
+    );
   const d = deferredOf(set);
   const x = d ? d.base : set.data;
   const out = sharedSamples(x.length);
-  runSweeps('filtfilt', { x, c: d ? d.correction : null, out, n, sos: sos.map((r) => [...r]), padlen }, set.nSweeps, x.length);
+  runSweeps(
+    'filtfilt',
+    { x, c: d ? d.correction : null, out, n, sos: sos.map((r) => [...r]), padlen },
+    set.nSweeps,
+    x.length,
+  );
   return out;
 }
 
@@ -35,14 +43,24 @@ export function applySos(set: SweepSet, sos: Sos, padlen: number): Float64Array 
  * @example set.filter({ btype: 'lowpass', cutoff: 5000, order: 4 })
  */
 export function filter(set: SweepSet, options: FilterOptions): SweepSet {
-  if (options === null || typeof options !== 'object') throw new OptionError('filter needs options { btype, cutoff } (btype "lowpass", "highpass", "bandpass" or "bandstop"; cutoff in Hz)');
+  if (options === null || typeof options !== 'object')
+    throw new OptionError(
+      'filter needs options { btype, cutoff } (btype "lowpass", "highpass", "bandpass" or "bandstop"; cutoff in Hz)',
+    );
   checkKeys('filter options', options, ['btype', 'cutoff', 'order', 'padlen']);
   const btype = oneOf('btype', options.btype, ['lowpass', 'highpass', 'bandpass', 'bandstop'] as const);
   const order = integerIn('order', options.order ?? filterDefaults.order, 1, 10);
   const sos = butter({ order, cutoff: options.cutoff, btype, fs: set.fs });
-  const padlen = options.padlen === undefined ? defaultPadlen(sos) : integerIn('padlen', options.padlen, 0, set.nSamples - 1);
+  const padlen =
+    options.padlen === undefined ? defaultPadlen(sos) : integerIn('padlen', options.padlen, 0, set.nSamples - 1);
   const data = applySos(set, sos, padlen);
-  return set.create({ data, step: { verb: 'filter', options: { btype, cutoff: options.cutoff, order, padlen, design: 'butterworth', zeroPhase: true } } });
+  return set.create({
+    data,
+    step: {
+      verb: 'filter',
+      options: { btype, cutoff: options.cutoff, order, padlen, design: 'butterworth', zeroPhase: true },
+    },
+  });
 }
 
 export interface NotchOptions {
@@ -60,5 +78,8 @@ export function notch(set: SweepSet, options: NotchOptions = {}): SweepSet {
   const Q = positive('Q', options.Q ?? notchDefaults.Q);
   const sos = iirnotch(frequency, Q, set.fs);
   const padlen = defaultPadlen(sos);
-  return set.create({ data: applySos(set, sos, padlen), step: { verb: 'notch', options: { frequency, Q, padlen, zeroPhase: true } } });
+  return set.create({
+    data: applySos(set, sos, padlen),
+    step: { verb: 'notch', options: { frequency, Q, padlen, zeroPhase: true } },
+  });
 }

@@ -26,26 +26,44 @@ export const resampleDefaults = { padtype: 'constant' as const, beta: 5, maxFact
  * @example set.resample({ fs: 20000 })
  */
 export function resample(set: SweepSet, options: ResampleOptions): SweepSet {
-  if (!options || typeof options !== 'object') throw new OptionError('resample needs options { fs } (new sample rate, Hz)');
+  if (!options || typeof options !== 'object')
+    throw new OptionError('resample needs options { fs } (new sample rate, Hz)');
   checkKeys('resample options', options, ['fs', 'padtype', 'beta']);
   const fsOut = positive('fs', options.fs, 'Hz');
-  const padtype = oneOf('padtype', options.padtype ?? resampleDefaults.padtype, ['constant', 'mean', 'median'] as const);
+  const padtype = oneOf('padtype', options.padtype ?? resampleDefaults.padtype, [
+    'constant',
+    'mean',
+    'median',
+  ] as const);
   const beta = options.beta ?? resampleDefaults.beta;
-  if (typeof beta !== 'number' || !(beta >= 0 && beta <= 40)) throw new OptionError(`invalid beta: ${beta}; must be a number from 0 to 40`);
+  if (typeof beta !== 'number' || !(beta >= 0 && beta <= 40))
+    throw new OptionError(`invalid beta: ${beta}; must be a number from 0 to 40`);
   const { up, down } = rationalRatio(set.fs, fsOut, resampleDefaults.maxFactor);
   if (up === down) return set.create({ step: { verb: 'resample', options: { fs: fsOut, up, down, padtype, beta } } });
   const { h, preRemove } = polyphaseDesign(up, down, beta);
   const n = set.nSamples;
   const m = resampledLength(n, up, down);
   if (set.nSweeps * m > 2 ** 30) {
-    throw new OptionError(`invalid fs: ${fsOut} Hz would make ${set.nSweeps} sweeps x ${m} samples (${((set.nSweeps * m * 8) / 1e9).toFixed(1)} GB); crop or select sweeps first, or choose a lower rate`);
+    throw new OptionError(
+      `invalid fs: ${fsOut} Hz would make ${set.nSweeps} sweeps x ${m} samples (${((set.nSweeps * m * 8) / 1e9).toFixed(1)} GB); crop or select sweeps first, or choose a lower rate`,
+    );
   }
   const out = sharedSamples(set.nSweeps * m, set.nSweeps * Math.max(n, m));
   const x = set.data;
   const hs = out.buffer instanceof SharedArrayBuffer ? shareCopy(h) : h;
-  runSweeps('resampleSweeps', { x, out, n, m, up, down, h: hs, preRemove, padtype }, set.nSweeps, x.length * Math.max(1, h.length / up / 8));
+  runSweeps(
+    'resampleSweeps',
+    { x, out, n, m, up, down, h: hs, preRemove, padtype },
+    set.nSweeps,
+    x.length * Math.max(1, h.length / up / 8),
+  );
   return set.create({
-    data: out, nSamples: m, fs: (set.fs * up) / down,
-    step: { verb: 'resample', options: { fs: fsOut, up, down, padtype, beta, taps: h.length, cutoffHz: (Math.min(set.fs, fsOut) / 2) } },
+    data: out,
+    nSamples: m,
+    fs: (set.fs * up) / down,
+    step: {
+      verb: 'resample',
+      options: { fs: fsOut, up, down, padtype, beta, taps: h.length, cutoffHz: Math.min(set.fs, fsOut) / 2 },
+    },
   });
 }

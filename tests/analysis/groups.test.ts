@@ -3,11 +3,24 @@ import { readFileSync, existsSync, writeFileSync, mkdirSync } from 'node:fs';
 import { join, dirname } from 'node:path';
 import { groupFigure, groupFigures } from '../../src/plot/groups';
 import {
-  welchTTest, mannWhitneyU, oneWayAnova, repeatedMeasuresAnova, holm, benjaminiHochberg, compareGroups, normSf,
-  mannWhitneyExactSf, groupMethods, groupStepMethods,
+  welchTTest,
+  mannWhitneyU,
+  oneWayAnova,
+  repeatedMeasuresAnova,
+  holm,
+  benjaminiHochberg,
+  compareGroups,
+  normSf,
+  mannWhitneyExactSf,
+  groupMethods,
+  groupStepMethods,
 } from '../../src/analysis/groups';
 import {
-  mixedModel, fitRandomIntercept, satterthwaiteDf, mixedMethods, mixedStepMethods,
+  mixedModel,
+  fitRandomIntercept,
+  satterthwaiteDf,
+  mixedMethods,
+  mixedStepMethods,
 } from '../../src/analysis/mixed';
 import { pairedCompare, toFrame } from '../../src';
 import { Rng } from '../../src/model/random';
@@ -25,7 +38,11 @@ describe('two-sample tests against SciPy', () => {
     for (const c of ref.welch) {
       const w = welchTTest(c.a, c.b);
       expect(w.status).toBe('ok');
-      rel(w.t, c.t); rel(w.df, c.df); rel(w.p, c.p); rel(w.ci95![0], c.ci[0]); rel(w.ci95![1], c.ci[1]);
+      rel(w.t, c.t);
+      rel(w.df, c.df);
+      rel(w.p, c.p);
+      rel(w.ci95![0], c.ci[0]);
+      rel(w.ci95![1], c.ci[1]);
     }
   });
   it('welchTTest with fewer than 2 values in a group is a status, not a number', () => {
@@ -58,20 +75,34 @@ describe('ANOVA against SciPy and the textbook sums of squares', () => {
   it('oneWayAnova(groups) = scipy.stats.f_oneway', () => {
     for (const c of ref.oneway) {
       const a = oneWayAnova(c.groups);
-      rel(a.F, c.F); rel(a.p, c.p);
+      rel(a.F, c.F);
+      rel(a.p, c.p);
       expect([a.df1, a.df2]).toEqual([c.df1, c.df2]);
     }
-    expect(oneWayAnova([[1, 2, 3], [2, 3, 4], [5, 6, 7]]).F).toBeCloseTo(13, 12); // SSB 26 / 2, SSW 6 / 6 (hand)
+    expect(
+      oneWayAnova([
+        [1, 2, 3],
+        [2, 3, 4],
+        [5, 6, 7],
+      ]).F,
+    ).toBeCloseTo(13, 12); // SSB 26 / 2, SSW 6 / 6 (hand)
   });
   it('repeatedMeasuresAnova(y) = NumPy sums of squares and Greenhouse-Geisser epsilon; 2 conditions: paired t^2', () => {
     for (const c of ref.rm) {
       const a = repeatedMeasuresAnova(c.y);
-      rel(a.F, c.F); rel(a.p, c.p); rel(a.epsilonGG, c.eps); rel(a.pGG, c.pGG);
+      rel(a.F, c.F);
+      rel(a.p, c.p);
+      rel(a.epsilonGG, c.eps);
+      rel(a.pGG, c.pGG);
       expect([a.df1, a.df2]).toEqual([c.df1, c.df2]);
       if (c.paired_t !== undefined) {
         rel(a.F, c.paired_t ** 2); // scipy.stats.ttest_rel
-        const pc = pairedCompare(c.y.map((r: number[]) => r[0]), c.y.map((r: number[]) => r[1]));
-        rel(pc.t, c.paired_t); rel(a.p, c.paired_p);
+        const pc = pairedCompare(
+          c.y.map((r: number[]) => r[0]),
+          c.y.map((r: number[]) => r[1]),
+        );
+        rel(pc.t, c.paired_t);
+        rel(a.p, c.paired_p);
       }
     }
   });
@@ -110,7 +141,9 @@ describe('mixedModel: random intercept per animal, REML, Satterthwaite df', () =
       m.anova.forEach((a, i) => {
         const e = f.anova[i];
         expect(a.term).toBe(e.term);
-        rel(a.F as number, e.F); rel(a.den_df as number, e.den_df); rel(a.p as number, e.p);
+        rel(a.F as number, e.F);
+        rel(a.den_df as number, e.den_df);
+        rel(a.p as number, e.p);
         expect(a.num_df).toBe(e.num_df);
       });
     }
@@ -120,7 +153,8 @@ describe('mixedModel: random intercept per animal, REML, Satterthwaite df', () =
   // REML = the ANOVA estimators when positive, and the F and t tests equal the classical ANOVA.
   const r = new Rng(42);
   it('animals x conditions, one value each: REML = ANOVA estimators; condition F = repeated-measures ANOVA', () => {
-    const s = 6, k = 3;
+    const s = 6,
+      k = 3;
     const y = Array.from({ length: s }, () => {
       const u = 2 * r.normal();
       return Array.from({ length: k }, (_, j) => 10 + u + 0.5 * j + 0.7 * r.normal());
@@ -128,7 +162,8 @@ describe('mixedModel: random intercept per animal, REML, Satterthwaite df', () =
     const rows = y.flatMap((row, i) => row.map((v, j) => ({ animal: `A${i}`, condition: `c${j}`, value: v })));
     const m = mixedModel(rows, { value: 'value', fixed: ['condition'] });
     const a = repeatedMeasuresAnova(y);
-    const msErr = a.ssWithin! / a.df2!, msSubj = a.ssSubjects! / (s - 1);
+    const msErr = a.ssWithin! / a.df2!,
+      msSubj = a.ssSubjects! / (s - 1);
     rel(m.variance[0].residual_variance as number, msErr);
     rel(m.variance[0].animal_variance as number, (msSubj - msErr) / k);
     rel(m.anova[0].F as number, a.F!);
@@ -146,11 +181,15 @@ describe('mixedModel: random intercept per animal, REML, Satterthwaite df', () =
     const m = mixedModel(rows, { value: 'value', fixed: ['condition'], levels: { condition: ['pre', 'post'] } });
     const pc = pairedCompare(pre, post);
     const c = m.coefficients.find((q) => q.term === 'condition: post vs pre')!;
-    rel(c.t as number, pc.t); rel(c.df as number, s - 1); rel(c.p as number, pc.pT);
+    rel(c.t as number, pc.t);
+    rel(c.df as number, s - 1);
+    rel(c.p as number, pc.pT);
     rel(c.estimate as number, pc.meanDifference);
   });
   it('groups of animals with repeated sweeps: group F = one-way ANOVA of animal means, df = animals - groups', () => {
-    const G = 3, A = 4, R = 5;
+    const G = 3,
+      A = 4,
+      R = 5;
     const rows: { group: string; animal: string; value: number }[] = [];
     const means: number[][] = [];
     const within: number[] = [];
@@ -177,7 +216,9 @@ describe('mixedModel: random intercept per animal, REML, Satterthwaite df', () =
   });
   it('fitRandomIntercept reports the boundary when animals do not differ', () => {
     // animal means identical by construction: sigma_u^2 = 0
-    const y = [1, 3, 2, 2, 3, 1], X = y.map(() => [1]), g = ['a', 'a', 'b', 'b', 'c', 'c'];
+    const y = [1, 3, 2, 2, 3, 1],
+      X = y.map(() => [1]),
+      g = ['a', 'a', 'b', 'b', 'c', 'c'];
     const f = fitRandomIntercept(y, X, g);
     expect(f.sigmaU2).toBe(0);
     expect(f.boundary).toBe(true);
@@ -188,7 +229,11 @@ describe('mixedModel: random intercept per animal, REML, Satterthwaite df', () =
   });
   it('one observation per animal: variance components not both identifiable, tests are statuses not numbers', () => {
     const r2 = new Rng(5);
-    const rows = Array.from({ length: 10 }, (_, i) => ({ animal: `a${i}`, group: i < 5 ? 'x' : 'y', value: r2.normal() }));
+    const rows = Array.from({ length: 10 }, (_, i) => ({
+      animal: `a${i}`,
+      group: i < 5 ? 'x' : 'y',
+      value: r2.normal(),
+    }));
     const m = mixedModel(rows, { value: 'value', fixed: ['group'] });
     expect(m.variance[0].status).toBe('not computed');
     expect(m.variance[0].reason).toMatch(/one observation per animal/);
@@ -196,21 +241,26 @@ describe('mixedModel: random intercept per animal, REML, Satterthwaite df', () =
   });
   it('a cell that cannot be fitted is a row with a status; bad options name the column', () => {
     const rows = [
-      { animal: 'a', condition: 'x', value: 1, class: 'C' }, { animal: 'a', condition: 'y', value: 2, class: 'C' },
+      { animal: 'a', condition: 'x', value: 1, class: 'C' },
+      { animal: 'a', condition: 'y', value: 2, class: 'C' },
     ];
     const m = mixedModel(rows, { value: 'value', fixed: ['condition'] });
     expect(m.variance[0].status).toBe('not computed');
     expect(m.variance[0].reason).toMatch(/at least 2 animals/);
     expect(m.coefficients).toEqual([]);
-    expect(() => mixedModel(rows, { value: 'valeu', fixed: ['condition'] }))
-      .toThrow(/"valeu" is not a column.*did you mean "value"/);
+    expect(() => mixedModel(rows, { value: 'valeu', fixed: ['condition'] })).toThrow(
+      /"valeu" is not a column.*did you mean "value"/,
+    );
   });
 });
 
 describe('compareGroups(rows, options): animals as the unit', () => {
   const r = new Rng(9);
   const rows: Record<string, string | number | boolean | null>[] = [];
-  for (const [g, shift, n] of [['control', 0, 5], ['treated', 1.2, 4]] as const) {
+  for (const [g, shift, n] of [
+    ['control', 0, 5],
+    ['treated', 1.2, 4],
+  ] as const) {
     for (let a = 0; a < n; a++) {
       const u = r.normal();
       const at = { class: 'A', group: g, preparation: `${g}-${a}` };
@@ -241,9 +291,12 @@ describe('compareGroups(rows, options): animals as the unit', () => {
   });
   it('the Welch row equals welchTTest on animal means; paired rows; p adjusted over the table', () => {
     const w = res.tests.find((q) => q.class === 'A' && q.test === 'Welch t' && q.condition === 'pre')!;
-    const ref2 = welchTTest([0, 1, 2, 3, 4].map((a) => animalMean(`control-${a}`, 'pre')),
-      [0, 1, 2, 3].map((a) => animalMean(`treated-${a}`, 'pre')));
-    rel(w.statistic as number, ref2.t!); rel(w.p as number, ref2.p!);
+    const ref2 = welchTTest(
+      [0, 1, 2, 3, 4].map((a) => animalMean(`control-${a}`, 'pre')),
+      [0, 1, 2, 3].map((a) => animalMean(`treated-${a}`, 'pre')),
+    );
+    rel(w.statistic as number, ref2.t!);
+    rel(w.p as number, ref2.p!);
     const paired = res.tests.filter((q) => q.test === 'paired t');
     expect(paired.length).toBe(2);
     const ok = res.tests.filter((q) => q.status === 'ok').map((q) => q.p as number);
@@ -271,12 +324,24 @@ describe('compareGroups(rows, options): animals as the unit', () => {
 
 describe('groupFigure(result): points per animal, mean and 95% CI per group', () => {
   const rows = [
-    ...['a1', 'a2', 'a3'].flatMap((a, i) => ['pre', 'post'].map((e, j) => ({
-      class: 'A', group: 'control', animal: a, epoch: e, velocity_m_s: 40 + i + 2 * j,
-    }))),
-    ...['b1', 'b2', 'b3'].flatMap((a, i) => ['pre', 'post'].map((e, j) => ({
-      class: 'A', group: '<img src=x onerror=alert(1)>', animal: a, epoch: e, velocity_m_s: 35 + i - 3 * j,
-    }))),
+    ...['a1', 'a2', 'a3'].flatMap((a, i) =>
+      ['pre', 'post'].map((e, j) => ({
+        class: 'A',
+        group: 'control',
+        animal: a,
+        epoch: e,
+        velocity_m_s: 40 + i + 2 * j,
+      })),
+    ),
+    ...['b1', 'b2', 'b3'].flatMap((a, i) =>
+      ['pre', 'post'].map((e, j) => ({
+        class: 'A',
+        group: '<img src=x onerror=alert(1)>',
+        animal: a,
+        epoch: e,
+        velocity_m_s: 35 + i - 3 * j,
+      })),
+    ),
   ];
   const res = compareGroups(rows, { value: 'velocity_m_s', condition: 'epoch' });
   const fig = groupFigure(res);
@@ -289,7 +354,10 @@ describe('groupFigure(result): points per animal, mean and 95% CI per group', ()
     const mine = { data: spec.data, layout };
     const text = JSON.stringify(mine, null, 1) + '\n';
     const p = join(__dirname, '__snapshots__', 'group-figure.json');
-    if (!existsSync(p)) { mkdirSync(dirname(p), { recursive: true }); writeFileSync(p, text); }
+    if (!existsSync(p)) {
+      mkdirSync(dirname(p), { recursive: true });
+      writeFileSync(p, text);
+    }
     const stored = readFileSync(p, 'utf8');
     if (stored !== text) writeFileSync(p + '.changed', text);
     expect(text).toBe(stored);
@@ -319,9 +387,13 @@ describe('groupFigure(result): points per animal, mean and 95% CI per group', ()
 });
 
 describe('inputs and methods text', () => {
-  const rows = ['x1', 'x2', 'x3', 'y1', 'y2', 'y3'].flatMap((a, i) => [0, 1].map((k) => ({
-    group: a[0], preparation: a, onset_ms: 1 + 0.1 * i + 0.01 * k,
-  })));
+  const rows = ['x1', 'x2', 'x3', 'y1', 'y2', 'y3'].flatMap((a, i) =>
+    [0, 1].map((k) => ({
+      group: a[0],
+      preparation: a,
+      onset_ms: 1 + 0.1 * i + 0.01 * k,
+    })),
+  );
   it('plain rows, a table with .rows (as a ComponentTable) and a DataFrame give the same tests', () => {
     const a = compareGroups(rows, { value: 'onset_ms' });
     const table = { rows, history: [{ verb: 'components', options: {}, version: '0' }] };
@@ -339,8 +411,9 @@ describe('inputs and methods text', () => {
     expect(groupMethods(a)).toMatch(/Welch t, Mann-Whitney U \(Mann-Whitney U exact/);
     expect(groupMethods(a)).toMatch(/Holm's step-down method/);
     const m = mixedModel(rows, { value: 'onset_ms', fixed: ['group'] });
-    expect(mixedMethods(m))
-      .toMatch(/random intercept per preparation .* restricted maximum likelihood .* Satterthwaite/);
+    expect(mixedMethods(m)).toMatch(
+      /random intercept per preparation .* restricted maximum likelihood .* Satterthwaite/,
+    );
     // from the history steps alone
     expect(groupStepMethods(a.history[a.history.length - 1])).toMatch(/Welch's t test and the Mann-Whitney U test/);
     expect(groupStepMethods(a.history[a.history.length - 1])).not.toMatch(/paired/);
@@ -366,7 +439,8 @@ describe('within-animal designs and pseudo-replication', () => {
     // Expected: the mixed model's group test rejects at about the nominal 5% (binomial SD 1.3%);
     // a t test over sweeps (pseudo-replication, Lazic 2010) rejects far more often.
     const r = new Rng(2024);
-    let mixedRejects = 0, naiveRejects = 0;
+    let mixedRejects = 0,
+      naiveRejects = 0;
     const S = 300;
     for (let k = 0; k < S; k++) {
       const rows: { group: string; animal: string; v: number }[] = [];

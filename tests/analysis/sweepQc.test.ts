@@ -3,14 +3,23 @@ import { existsSync, readFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { SweepSet, OptionError } from '../../src';
 import {
-  sweepQc, rejectFlagged, sweepQcDefaults, sweepQcMethods, detrendedMadNoise, differenceNoise, railSamples,
-  SweepQcResult, rejectedSweeps, qcStepMethods,
+  sweepQc,
+  rejectFlagged,
+  sweepQcDefaults,
+  sweepQcMethods,
+  detrendedMadNoise,
+  differenceNoise,
+  railSamples,
+  SweepQcResult,
+  rejectedSweeps,
+  qcStepMethods,
 } from '../../src/analysis/sweepQc';
 import { Rng } from '../../src/model/random';
 import { loadSeries, truth } from './devsetQc';
 
 const median = (v: number[]) => {
-  const s = [...v].sort((a, b) => a - b), m = s.length;
+  const s = [...v].sort((a, b) => a - b),
+    m = s.length;
   return m % 2 ? s[(m - 1) / 2] : (s[m / 2 - 1] + s[m / 2]) / 2;
 };
 
@@ -19,14 +28,16 @@ describe('noise, difference noise and rail kernels', () => {
     // residuals about the line 0..3 are 0 and one outlier: MAD 0 (hand computation)
     expect(detrendedMadNoise(Float64Array.of(0, 1, 2, 3, 4, 5, 6, 1000), 0, 6)).toBeCloseTo(0, 12);
     // 1.4826 MAD of Gaussian noise estimates its SD (Rousseeuw & Croux 1993): seeded, within 5% for 20000 samples
-    const r = new Rng(7), x = Float64Array.from({ length: 20000 }, (_, i) => 3 * r.normal() + 0.01 * i);
+    const r = new Rng(7),
+      x = Float64Array.from({ length: 20000 }, (_, i) => 3 * r.normal() + 0.01 * i);
     expect(detrendedMadNoise(x, 0, x.length - 1) / 3).toBeGreaterThan(0.95);
     expect(detrendedMadNoise(x, 0, x.length - 1) / 3).toBeLessThan(1.05);
   });
   it('differenceNoise(x, a, b) = 1.4826 MAD(diff)/sqrt 2, blind to slow hum', () => {
     // diffs +1,-1,+1,-1: median 0, |dev| 1 -> 1.4826 / sqrt 2 (hand computation)
     expect(differenceNoise(Float64Array.of(0, 1, 0, 1, 0), 0, 4)).toBeCloseTo(1.4826 / Math.SQRT2, 12);
-    const r = new Rng(3), fs = 50000;
+    const r = new Rng(3),
+      fs = 50000;
     const hum = (i: number) => 20 * Math.sin((2 * Math.PI * 50 * i) / fs);
     const x = Float64Array.from({ length: 5000 }, (_, i) => 2 * r.normal() + hum(i));
     expect(differenceNoise(x, 0, 4999) / 2).toBeGreaterThan(0.95);
@@ -47,7 +58,8 @@ describe('sweepQc(set) on the development set (FNPG-N07, tests/fixtures/devset-q
     it(`${s}: noise and clipped fraction against the truth`, () => {
       const set = loadSeries(s);
       const q = sweepQc(set);
-      const white = T.series[s].white_rms_V_t_gt_1ms, hum = T.series[s].hum_rms_V_t_gt_1ms;
+      const white = T.series[s].white_rms_V_t_gt_1ms,
+        hum = T.series[s].hum_rms_V_t_gt_1ms;
       const hf = median(q.rows.map((r) => r.noise_hf_V as number));
       const nz = median(q.rows.map((r) => r.noise_V as number));
       // truth: realised white-noise rms (ground_truth.json nuisances, t > 1 ms); the difference estimate within 5%
@@ -91,7 +103,8 @@ describe('sweepQc(set) flags injected bad sweeps and spares their neighbours', (
   const idx = (intensity: number, channel: number, repeat: number) =>
     set.conditions.findIndex((c) => c.intensity === intensity && c.channel === channel && c.repeat === repeat);
   const levels = [...new Set(set.conditions.map((c) => c.intensity as number))].sort((a, b) => a - b);
-  const top = levels[levels.length - 1], mid = levels[8];
+  const top = levels[levels.length - 1],
+    mid = levels[8];
   const data = Float64Array.from(set.data);
   const at = (ms: number) => set.indexAt(ms);
   const rng = new Rng(11);
@@ -119,8 +132,14 @@ describe('sweepQc(set) flags injected bad sweeps and spares their neighbours', (
     for (let i = at(0.5); i < n; i++) mx = Math.max(mx, x[i]);
     for (let i = 0; i < n; i++) x[i] = Math.min(x[i], 0.6 * mx);
   }
-  { const x = sw('noisy'); for (let i = 0; i < n; i++) x[i] += 75e-6 * rng.normal(); }
-  { const x = sw('drift'); for (let i = 0; i < n; i++) x[i] += 1e-3 * (i / n); }
+  {
+    const x = sw('noisy');
+    for (let i = 0; i < n; i++) x[i] += 75e-6 * rng.normal();
+  }
+  {
+    const x = sw('drift');
+    for (let i = 0; i < n; i++) x[i] += 1e-3 * (i / n);
+  }
   const dirty = set.create({ data });
   const q = sweepQc(dirty);
   for (const [name, [s, flag]] of Object.entries(bad)) {
@@ -178,7 +197,8 @@ describe('sweepQc(set) flags injected bad sweeps and spares their neighbours', (
 
 describe('sweepQc options and statuses', () => {
   const small = () => {
-    const n = 200, fs = 10000;
+    const n = 200,
+      fs = 10000;
     const r = new Rng(5);
     const conds = [0, 0, 1, 1, 1].map((k, i) => ({ preparation: 'P', intensity: k, repeat: i }));
     const data = new Float64Array(conds.length * n);
@@ -210,10 +230,12 @@ describe('sweepQc options and statuses', () => {
     expect(q.history[q.history.length - 1].verb).toBe('sweepQc');
   });
   it('bad options are typed errors naming the option and the nearest name', () => {
-    expect(() => sweepQc(small(), { outlierTreshold: 2.5 } as never))
-      .toThrow(/unknown key "outlierTreshold".*did you mean "outlierThreshold"/);
-    expect(() => sweepQc(small(), { by: ['intensty'] }))
-      .toThrow(/no sweep has the condition "intensty" \(did you mean "intensity"\?\)/);
+    expect(() => sweepQc(small(), { outlierTreshold: 2.5 } as never)).toThrow(
+      /unknown key "outlierTreshold".*did you mean "outlierThreshold"/,
+    );
+    expect(() => sweepQc(small(), { by: ['intensty'] })).toThrow(
+      /no sweep has the condition "intensty" \(did you mean "intensity"\?\)/,
+    );
     expect(() => sweepQc(small(), { outlierThreshold: -1 })).toThrow(/invalid outlierThreshold: -1/);
     expect(() => sweepQc(small(), { minSweeps: 2 })).toThrow(/invalid minSweeps/);
     expect(() => sweepQc(small(), { quietWindow: [-5, -4.95] })).toThrow(/holds 1 samples \(need at least 8\)/);
@@ -227,12 +249,17 @@ describe('sweepQc options and statuses', () => {
 const DEVSET = '/work/shared/devset/data';
 describe.skipIf(!existsSync(DEVSET))('sweepQc(set) on every series of the development set (in place)', () => {
   it('false-positive rate over all 400 clean sweeps at most 2%', () => {
-    let flagged = 0, total = 0;
+    let flagged = 0,
+      total = 0;
     const lines: string[] = [];
     for (const s of ['recruitment', 'dose_response', 'temperature'].flatMap((k) => [`${k}_fast`, `${k}_slow`])) {
       const side = JSON.parse(readFileSync(join(DEVSET, `${s}.json`), 'utf8'));
-      const text = readFileSync(join(DEVSET, `${s}.csv`), 'utf8').trim().split('\n');
-      const head = text[0].split(','), rows = text.slice(1).map((l) => l.split(',').map(Number)), n = rows.length;
+      const text = readFileSync(join(DEVSET, `${s}.csv`), 'utf8')
+        .trim()
+        .split('\n');
+      const head = text[0].split(','),
+        rows = text.slice(1).map((l) => l.split(',').map(Number)),
+        n = rows.length;
       type Column = { column: string; channel: number; condition_index: number; repeat: number };
       const cols = side.columns as Column[];
       const data = new Float64Array(cols.length * n);
@@ -241,10 +268,17 @@ describe.skipIf(!existsSync(DEVSET))('sweepQc(set) on every series of the develo
         for (let i = 0; i < n; i++) data[k * n + i] = rows[i][j];
       });
       const set = new SweepSet({
-        data, nSweeps: cols.length, nSamples: n, fs: side.sampling_rate_hz, t0Ms: side.time_of_first_sample_s * 1000,
+        data,
+        nSweeps: cols.length,
+        nSamples: n,
+        fs: side.sampling_rate_hz,
+        t0Ms: side.time_of_first_sample_s * 1000,
         units: 'V',
         conditions: cols.map((c) => ({
-          preparation: side.preparation_id, channel: c.channel, condition: c.condition_index, repeat: c.repeat,
+          preparation: side.preparation_id,
+          channel: c.channel,
+          condition: c.condition_index,
+          repeat: c.repeat,
         })),
       });
       const f = sweepQc(set).flagged();

@@ -14,15 +14,32 @@ const components = { classes: ['A-alpha/beta'] };
 
 describe('trains(set) on forward-model data', () => {
   const hz = [400, 1000];
-  const set = simulateTrain({ model, seed: 11, grid, base: rc, frequenciesHz: hz, pulses: 6, repeats: 2, nuisance: nz }).baseline({ window: [-2.8, -0.2] });
+  const set = simulateTrain({
+    model,
+    seed: 11,
+    grid,
+    base: rc,
+    frequenciesHz: hz,
+    pulses: 6,
+    repeats: 2,
+    nuisance: nz,
+  }).baseline({ window: [-2.8, -0.2] });
   const fibers = drawFibers(model, 11);
   const r = trains(set, { components });
-  it('recovers the model\'s activity-dependent latency change at every pulse (within 0.012 ms) and at the last pulse (within 20%)', () => {
+  it("recovers the model's activity-dependent latency change at every pulse (within 0.012 ms) and at the last pulse (within 20%)", () => {
     for (const f of hz) {
       const t = trainTruth(model, fibers, rc, f, 6)[0];
       const pts = r.points.filter((p) => p.train_hz === f);
-      console.log(f, 'Hz latency increase', pts.map((p) => (p.latency_increase_ms as number).toFixed(4)).join(' '), 'truth', t.centroidShiftMs.map((x) => x!.toFixed(4)).join(' '));
-      pts.forEach((p, k) => expect(Math.abs((p.latency_increase_ms as number) - t.centroidShiftMs[k]!)).toBeLessThan(0.012));
+      console.log(
+        f,
+        'Hz latency increase',
+        pts.map((p) => (p.latency_increase_ms as number).toFixed(4)).join(' '),
+        'truth',
+        t.centroidShiftMs.map((x) => x!.toFixed(4)).join(' '),
+      );
+      pts.forEach((p, k) =>
+        expect(Math.abs((p.latency_increase_ms as number) - t.centroidShiftMs[k]!)).toBeLessThan(0.012),
+      );
       const s = r.summary.find((q) => q.train_hz === f)!;
       const last = t.centroidShiftMs[5]!;
       if (last > 0.02) expect(Math.abs((s.last_latency_increase_ms as number) - last) / last).toBeLessThan(0.2);
@@ -36,14 +53,31 @@ describe('trains(set) on forward-model data', () => {
       const t = trainTruth(model, fibers, rc, f, 6)[0];
       const s = r.summary.find((q) => q.train_hz === f)!;
       expect(s.failure_pulse).toBe(t.failurePulse);
-      r.points.filter((p) => p.train_hz === f).forEach((p, k) => expect(Math.abs((p.area_fraction as number) - t.areaFraction[k])).toBeLessThan(0.1));
+      r.points
+        .filter((p) => p.train_hz === f)
+        .forEach((p, k) => expect(Math.abs((p.area_fraction as number) - t.areaFraction[k])).toBeLessThan(0.1));
     }
   });
   it('a class fails where its fibres stop following (2000 Hz: every other pulse inside the refractory period)', () => {
-    const fast = simulateTrain({ model, seed: 11, grid, base: rc, frequenciesHz: [2000], pulses: 4, nuisance: nz }).baseline({ window: [-2.8, -0.2] });
+    const fast = simulateTrain({
+      model,
+      seed: 11,
+      grid,
+      base: rc,
+      frequenciesHz: [2000],
+      pulses: 4,
+      nuisance: nz,
+    }).baseline({ window: [-2.8, -0.2] });
     const t = trainTruth(model, fibers, rc, 2000, 4)[0];
     const s = trains(fast, { components }).summary[0];
-    console.log('2000 Hz truth area', t.areaFraction.map((x) => x.toFixed(3)).join(' '), 'failure', t.failurePulse, '; measured failure', s.failure_pulse);
+    console.log(
+      '2000 Hz truth area',
+      t.areaFraction.map((x) => x.toFixed(3)).join(' '),
+      'failure',
+      t.failurePulse,
+      '; measured failure',
+      s.failure_pulse,
+    );
     expect(t.failurePulse).not.toBeNull();
     expect(s.failure_pulse).toBe(t.failurePulse);
   });
@@ -51,6 +85,8 @@ describe('trains(set) on forward-model data', () => {
     expect(Object.keys(r.tables())).toEqual(['train', 'train_summary']);
     expect(trainFigure(r).spec.data.length).toBe(4);
     expect(() => trains(set, { failFraction: 2 })).toThrow(/failFraction/);
-    expect(() => trains(set.create({ conditions: set.conditions.map((c) => ({ ...c, trainHz: 'x' })) }))).toThrow(/trainHz/);
+    expect(() => trains(set.create({ conditions: set.conditions.map((c) => ({ ...c, trainHz: 'x' })) }))).toThrow(
+      /trainHz/,
+    );
   });
 });

@@ -2,15 +2,24 @@ import { describe, it, expect } from 'vitest';
 import { readFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { SweepSet } from '../../src/sweeps/SweepSet';
-import { velocityDistribution, velocityDistributionDefaults, velocityGrid, compareVelocityDistributions } from '../../src/analysis/velocityDistribution';
+import {
+  velocityDistribution,
+  velocityDistributionDefaults,
+  velocityGrid,
+  compareVelocityDistributions,
+} from '../../src/analysis/velocityDistribution';
 import { velocityDistributionFigure, velocityReconstructionFigure } from '../../src/plot/velocityDistribution';
 import { OptionError, AnalysisError } from '../../src/errors';
 import { Rng } from '../../src/model/random';
 
 /** Single-fibre potential used by the synthetic cases: a fast positive phase and a slow negative after-phase (invented shape). */
-const sfpShape = (t: number) => (t <= 0 ? 0 : (t / 0.08) ** 2 * Math.exp(2 - (2 * t) / 0.08) - 0.12 * (t / 0.6) ** 2 * Math.exp(2 - (2 * t) / 0.6));
+const sfpShape = (t: number) =>
+  t <= 0 ? 0 : (t / 0.08) ** 2 * Math.exp(2 - (2 * t) / 0.08) - 0.12 * (t / 0.6) ** 2 * Math.exp(2 - (2 * t) / 0.6);
 
-interface Synth { set: SweepSet; fibres: { v: number; a: number; mode: number }[] }
+interface Synth {
+  set: SweepSet;
+  fibres: { v: number; a: number; mode: number }[];
+}
 /**
  * A known distribution (two lognormal modes, medians 42 and 12 m/s, number ratio 1:2),
  * amplitude proportional to v^2, convolved forward at the given distances with the
@@ -20,15 +29,30 @@ function synth(distances: number[], noise: number, sweeps = 4, seed = 7, fastSca
   const rng = new Rng(seed);
   const fibres: Synth['fibres'] = [];
   const nf = 1;
-  const modes = [{ median: 42, sigma: 0.12, n: 400 * nf }, { median: 12, sigma: 0.18, n: 800 * nf }];
-  modes.forEach((m, i) => { for (let j = 0; j < m.n; j++) { const v = m.median * Math.exp(m.sigma * rng.normal()); fibres.push({ v, a: ((v / 30) ** 2 / nf) * (i === 0 ? fastScale : 1), mode: i }); } });
-  const fs = 50000, t0 = -1, n = 800; // -1 .. 15 ms
+  const modes = [
+    { median: 42, sigma: 0.12, n: 400 * nf },
+    { median: 12, sigma: 0.18, n: 800 * nf },
+  ];
+  modes.forEach((m, i) => {
+    for (let j = 0; j < m.n; j++) {
+      const v = m.median * Math.exp(m.sigma * rng.normal());
+      fibres.push({ v, a: ((v / 30) ** 2 / nf) * (i === 0 ? fastScale : 1), mode: i });
+    }
+  });
+  const fs = 50000,
+    t0 = -1,
+    n = 800; // -1 .. 15 ms
   const data = new Float64Array(distances.length * sweeps * n);
   const conditions: Record<string, number>[] = [];
   let s = 0;
   const clean = distances.map((x) => {
     const y = new Float64Array(n);
-    for (let i = 0; i < n; i++) { const t = t0 + (i * 1000) / fs; let sum = 0; for (const f of fibres) sum += f.a * sfpShape(t - x / f.v); y[i] = sum * 0.01; }
+    for (let i = 0; i < n; i++) {
+      const t = t0 + (i * 1000) / fs;
+      let sum = 0;
+      for (const f of fibres) sum += f.a * sfpShape(t - x / f.v);
+      y[i] = sum * 0.01;
+    }
     return y;
   });
   distances.forEach((x, d) => {
@@ -45,29 +69,60 @@ const pctOf = (xs: number[], w: number[], q: number) => {
   const o = xs.map((x, i) => [x, w[i]]).sort((a, b) => a[0] - b[0]);
   const tot = w.reduce((a, b) => a + b, 0);
   let acc = 0;
-  for (const [x, ww] of o) { acc += ww; if (acc >= q * tot) return x; }
+  for (const [x, ww] of o) {
+    acc += ww;
+    if (acc >= q * tot) return x;
+  }
   return o[o.length - 1][0];
 };
-const modeClasses = [{ name: 'fast mode', velocity: [24, 120] as [number, number] }, { name: 'slow mode', velocity: [3, 24] as [number, number] }];
+const modeClasses = [
+  { name: 'fast mode', velocity: [24, 120] as [number, number] },
+  { name: 'slow mode', velocity: [3, 24] as [number, number] },
+];
 
 describe('velocityDistribution(set, options): synthetic distribution with known truth', () => {
   const syn = synth([10, 20, 30], 0.002);
   const truth = modeClasses.map((c, i) => {
     const f = syn.fibres.filter((x) => x.mode === i);
-    return { median: pctOf(f.map((x) => x.v), f.map(() => 1), 0.5), amp: f.reduce((s, x) => s + x.a, 0) / syn.fibres.reduce((s, x) => s + x.a, 0), n: f.length / syn.fibres.length };
+    return {
+      median: pctOf(
+        f.map((x) => x.v),
+        f.map(() => 1),
+        0.5,
+      ),
+      amp: f.reduce((s, x) => s + x.a, 0) / syn.fibres.reduce((s, x) => s + x.a, 0),
+      n: f.length / syn.fibres.length,
+    };
   });
-  const opts = { classes: modeClasses, velocityRange: [3, 120] as [number, number], fitWindow: [0.1, 15] as [number, number], bootstrap: 20 };
+  const opts = {
+    classes: modeClasses,
+    velocityRange: [3, 120] as [number, number],
+    fitWindow: [0.1, 15] as [number, number],
+    bootstrap: 20,
+  };
   it('estimated potential: median of each mode within 5%, mass per mode within 10% (issue check; self-consistency, invented data)', () => {
     const r = velocityDistribution(syn.set, opts);
     modeClasses.forEach((c, i) => {
       const med = r.percentile(50, 'number', c.name);
       const row = r.classes.find((x) => x.class === c.name)!;
-      console.log(`synthetic ${c.name}: median ${med.toFixed(2)} (truth ${truth[i].median.toFixed(2)}), amplitude fraction ${(row.amplitude_fraction as number).toFixed(3)} (truth ${truth[i].amp.toFixed(3)}), number fraction ${(row.number_fraction as number).toFixed(3)} (truth ${truth[i].n.toFixed(3)})`);
+      console.log(
+        `synthetic ${c.name}: median ${med.toFixed(2)} (truth ${truth[i].median.toFixed(2)}), amplitude fraction ${(row.amplitude_fraction as number).toFixed(3)} (truth ${truth[i].amp.toFixed(3)}), number fraction ${(row.number_fraction as number).toFixed(3)} (truth ${truth[i].n.toFixed(3)})`,
+      );
       expect(Math.abs(med / truth[i].median - 1)).toBeLessThan(0.05);
       expect(Math.abs((row.amplitude_fraction as number) / truth[i].amp - 1)).toBeLessThan(0.1);
       expect(Math.abs((row.number_fraction as number) / truth[i].n - 1)).toBeLessThan(0.1);
     });
-    console.log('synthetic residuals:', r.residuals.map((x) => `${x.distance_mm} mm: relative ${(x.relative_residual as number).toExponential(2)}, chi2/sample ${(x.chi2_per_sample as number).toFixed(2)}`).join('; '), 'fit', r.fit);
+    console.log(
+      'synthetic residuals:',
+      r.residuals
+        .map(
+          (x) =>
+            `${x.distance_mm} mm: relative ${(x.relative_residual as number).toExponential(2)}, chi2/sample ${(x.chi2_per_sample as number).toFixed(2)}`,
+        )
+        .join('; '),
+      'fit',
+      r.fit,
+    );
     expect(r.fit.status).toBe('ok');
     // the reconstruction explains the responses to within 2% rms (chi2 exceeds 1 here: the potential is
     // represented on nodes at the sampling interval, whose interpolation error is above this case's noise)
@@ -78,7 +133,9 @@ describe('velocityDistribution(set, options): synthetic distribution with known 
     const r = velocityDistribution(syn.set, { ...opts, sfp: { samples, dtMs: 0.02, t0Ms: 0 } });
     modeClasses.forEach((c, i) => {
       expect(Math.abs(r.percentile(50, 'number', c.name) / truth[i].median - 1)).toBeLessThan(0.05);
-      expect(Math.abs((r.classes.find((x) => x.class === c.name)!.amplitude_fraction as number) / truth[i].amp - 1)).toBeLessThan(0.1);
+      expect(
+        Math.abs((r.classes.find((x) => x.class === c.name)!.amplitude_fraction as number) / truth[i].amp - 1),
+      ).toBeLessThan(0.1);
     });
   });
   it('two-distance method (Cummins, Dorfman & Perkel 1979) on noise-free responses complete from their start', () => {
@@ -94,7 +151,12 @@ describe('velocityDistribution(set, options): synthetic distribution with known 
 
 describe('compareVelocityDistributions(before, after), figures and methods text', () => {
   // before: the synthetic nerve; after: the same nerve with half of the fast mode's amplitude blocked (invented case)
-  const opts = { classes: modeClasses, velocityRange: [3, 120] as [number, number], fitWindow: [0.1, 15] as [number, number], bootstrap: 30 };
+  const opts = {
+    classes: modeClasses,
+    velocityRange: [3, 120] as [number, number],
+    fitWindow: [0.1, 15] as [number, number],
+    bootstrap: 30,
+  };
   const before = velocityDistribution(synth([10, 20, 30], 0.002).set, opts);
   const after = velocityDistribution(synth([10, 20, 30], 0.002, 4, 8, 0.5).set, opts);
   it('the blocked fast mode shows as a loss at its velocities, with a band that excludes zero', () => {
@@ -106,16 +168,30 @@ describe('compareVelocityDistributions(before, after), figures and methods text'
     expect(fast.amplitude_fraction_difference as number).toBeLessThan(0);
     const slow = d.classes.find((c) => c.class === 'slow mode')!;
     expect(Math.abs((slow.amplitude_ratio as number) - 1)).toBeLessThan(0.1);
-    expect(() => compareVelocityDistributions(before, velocityDistribution(synth([10, 20], 0.002, 2).set, { ...opts, bootstrap: 0, nVelocities: 40 }))).toThrow(/different velocity grids/);
+    expect(() =>
+      compareVelocityDistributions(
+        before,
+        velocityDistribution(synth([10, 20], 0.002, 2).set, { ...opts, bootstrap: 0, nVelocities: 40 }),
+      ),
+    ).toThrow(/different velocity grids/);
   });
   it('figure: log velocity axis with units, the band, the class ranges and a known distribution overlaid', () => {
     const syn = synth([10, 20, 30], 0.002);
     const f = velocityDistributionFigure(before, { truth: { velocity: syn.fibres.map((x) => x.v), label: 'truth' } });
-    const l = f.spec.layout as { xaxis: { type: string; title: { text: string } }; yaxis: { title: { text: string } }; shapes: unknown[] };
+    const l = f.spec.layout as {
+      xaxis: { type: string; title: { text: string } };
+      yaxis: { title: { text: string } };
+      shapes: unknown[];
+    };
     expect(l.xaxis.type).toBe('log');
     expect(l.xaxis.title.text).toMatch(/\(m\/s/);
     expect(l.shapes.length).toBe(2);
-    expect(f.spec.data.map((t) => t.name)).toEqual(['band high', '95% bootstrap band', 'estimate (number-weighted)', 'truth']);
+    expect(f.spec.data.map((t) => t.name)).toEqual([
+      'band high',
+      '95% bootstrap band',
+      'estimate (number-weighted)',
+      'truth',
+    ]);
     const truthTrace = f.spec.data[3].y as number[];
     expect(truthTrace.reduce((a, b) => a + b, 0)).toBeCloseTo(1, 10);
     const rf = velocityReconstructionFigure(before);
@@ -137,25 +213,49 @@ describe('compareVelocityDistributions(before, after), figures and methods text'
 describe('velocityDistribution validation', () => {
   const syn = synth([10, 20], 0.002, 2);
   it('names an unknown option and the nearest valid one', () => {
-    expect(() => velocityDistribution(syn.set, { fitWindw: [0, 1] } as never)).toThrow(/unknown key "fitWindw".*did you mean "fitWindow"/);
+    expect(() => velocityDistribution(syn.set, { fitWindw: [0, 1] } as never)).toThrow(
+      /unknown key "fitWindw".*did you mean "fitWindow"/,
+    );
     expect(() => velocityDistribution(syn.set, { method: 'cummins' as never })).toThrow(OptionError);
     expect(() => velocityDistribution(syn.set, { velocityRange: [10, 5] })).toThrow(/invalid velocityRange/);
-    expect(() => velocityDistribution(syn.set, { method: 'two-distance', durationExponent: 1 })).toThrow(/same waveform/);
-    expect(() => velocityDistribution(syn.set, { fitStartByDistance: { 12: 0.4 } })).toThrow(/distance 12 mm is not in the set \(distances 10, 20 mm\)/);
-    expect(() => velocityDistribution(syn.set, { fitStartByDistance: { near: 0.4 } as never })).toThrow(/must be a distance in mm/);
-    expect(() => velocityDistribution(syn.set, { sfp: { samples: [1, 2], dtMs: 0.02, t0Ms: 0 } })).toThrow(/sfp.samples/);
+    expect(() => velocityDistribution(syn.set, { method: 'two-distance', durationExponent: 1 })).toThrow(
+      /same waveform/,
+    );
+    expect(() => velocityDistribution(syn.set, { fitStartByDistance: { 12: 0.4 } })).toThrow(
+      /distance 12 mm is not in the set \(distances 10, 20 mm\)/,
+    );
+    expect(() => velocityDistribution(syn.set, { fitStartByDistance: { near: 0.4 } as never })).toThrow(
+      /must be a distance in mm/,
+    );
+    expect(() => velocityDistribution(syn.set, { sfp: { samples: [1, 2], dtMs: 0.02, t0Ms: 0 } })).toThrow(
+      /sfp.samples/,
+    );
     expect(() => velocityDistribution(syn.set, { utilisationMs: 0.1 })).toThrow(/absorbs the utilisation delay/);
     expect(() => velocityDistribution(syn.set, { fitWindow: [14.9, 15] })).toThrow(/holds \d+ samples/);
   });
   it('needs two distances and one condition', () => {
     expect(() => velocityDistribution(syn.set.where({ distanceMm: 10 }))).toThrow(AnalysisError);
     expect(() => velocityDistribution(syn.set.where({ distanceMm: 10 }))).toThrow(/two or more conduction distances/);
-    const mixed = new SweepSet({ ...syn.set, data: syn.set.data, conditions: syn.set.conditions.map((c, i) => ({ ...c, temperatureC: i % 2 ? 30 : 37 })) });
+    const mixed = new SweepSet({
+      ...syn.set,
+      data: syn.set.data,
+      conditions: syn.set.conditions.map((c, i) => ({ ...c, temperatureC: i % 2 ? 30 : 37 })),
+    });
     expect(() => velocityDistribution(mixed)).toThrow(/differ in "temperatureC".*set.where/);
   });
   it('documented defaults match the defaults object', () => {
     // the option comments in src/analysis/velocityDistribution.ts state these values
-    expect(velocityDistributionDefaults).toMatchObject({ nVelocities: 60, amplitudeExponent: 2, durationExponent: 0, drift: 'linear', bootstrap: 200, seed: 1, iterations: 100, tolerance: 3e-3, fitWindowStartMs: 0.3 });
+    expect(velocityDistributionDefaults).toMatchObject({
+      nVelocities: 60,
+      amplitudeExponent: 2,
+      durationExponent: 0,
+      drift: 'linear',
+      bootstrap: 200,
+      seed: 1,
+      iterations: 100,
+      tolerance: 3e-3,
+      fitWindowStartMs: 0.3,
+    });
   });
   it('velocityGrid: log-spaced from x_max / end to 2 x_max / start', () => {
     const v = velocityGrid([10, 20], [0.5, 10], 0, 5);
@@ -175,21 +275,44 @@ const truthJson = JSON.parse(readFileSync(join(FIX, 'truth_30C.json'), 'utf8'));
 
 /** Read a fixture recording (time_ms + columns s<sweep>_<distance>mm, volts) as a SweepSet with distanceMm per sweep. */
 function loadFixture(name: string): SweepSet {
-  const lines = readFileSync(join(FIX, `${name}.csv`), 'utf8').trim().split(/\r?\n/);
+  const lines = readFileSync(join(FIX, `${name}.csv`), 'utf8')
+    .trim()
+    .split(/\r?\n/);
   const head = lines[0].split(',');
   const rows = lines.slice(1).map((l) => l.split(',').map(Number));
   const meta = truthJson.recordings[name];
-  const n = rows.length, cols = head.slice(1);
+  const n = rows.length,
+    cols = head.slice(1);
   const data = new Float64Array(cols.length * n);
-  cols.forEach((_, c) => { for (let i = 0; i < n; i++) data[c * n + i] = rows[i][c + 1]; });
+  cols.forEach((_, c) => {
+    for (let i = 0; i < n; i++) data[c * n + i] = rows[i][c + 1];
+  });
   const conditions = cols.map((c) => ({ distanceMm: Number(/_(\d+)mm$/.exec(c)![1]), temperatureC: 30, column: c }));
-  return new SweepSet({ data, nSweeps: cols.length, nSamples: n, fs: meta.sampling_rate_hz, t0Ms: meta.time_of_first_sample_s * 1000, units: 'V', conditions });
+  return new SweepSet({
+    data,
+    nSweeps: cols.length,
+    nSamples: n,
+    fs: meta.sampling_rate_hz,
+    t0Ms: meta.time_of_first_sample_s * 1000,
+    units: 'V',
+    conditions,
+  });
 }
-const fibres = readFileSync(join(FIX, 'fibres_30C.csv'), 'utf8').trim().split(/\r?\n/).slice(1).map((l) => { const [cls, d, v] = l.split(','); return { cls, a: Number(d) ** 2, v: Number(v) }; });
+const fibres = readFileSync(join(FIX, 'fibres_30C.csv'), 'utf8')
+  .trim()
+  .split(/\r?\n/)
+  .slice(1)
+  .map((l) => {
+    const [cls, d, v] = l.split(',');
+    return { cls, a: Number(d) ** 2, v: Number(v) };
+  });
 const bounds = truthJson.class_velocity_boundaries_at_30C;
 /** Comparison bins at the devset's own class boundaries (where the number-weighted class densities are equal), at 30 C (not rescaled). */
 const devClasses = {
-  name: 'devset class boundaries', refTemperatureC: 30, q10: 1.4, source: 'the development set\'s class boundaries at 30 C (truth_30C.json)',
+  name: 'devset class boundaries',
+  refTemperatureC: 30,
+  q10: 1.4,
+  source: "the development set's class boundaries at 30 C (truth_30C.json)",
   classes: [
     { name: 'A_alpha_beta', velocity: [bounds.A_alpha_beta_vs_A_delta_m_s, 200] as [number, number] },
     { name: 'A_delta', velocity: [bounds.A_delta_vs_C_m_s, bounds.A_alpha_beta_vs_A_delta_m_s] as [number, number] },
@@ -197,19 +320,32 @@ const devClasses = {
   ],
 };
 /** The temperature series at 30 C and the dose-response pre-drug baseline: 8 supramaximal sweeps per distance. */
-const pooled = (win: 'fast' | 'slow') => SweepSet.concat([loadFixture(`temperature_${win}_30C`), loadFixture(`dose_response_${win}_30C`)]);
+const pooled = (win: 'fast' | 'slow') =>
+  SweepSet.concat([loadFixture(`temperature_${win}_30C`), loadFixture(`dose_response_${win}_30C`)]);
 function truthOf(cls: string) {
   const f = fibres.filter((x) => x.cls === cls);
   return {
-    p: (q: number) => pctOf(f.map((x) => x.v), f.map(() => 1), q),
-    pa: (q: number) => pctOf(f.map((x) => x.v), f.map((x) => x.a), q),
+    p: (q: number) =>
+      pctOf(
+        f.map((x) => x.v),
+        f.map(() => 1),
+        q,
+      ),
+    pa: (q: number) =>
+      pctOf(
+        f.map((x) => x.v),
+        f.map((x) => x.a),
+        q,
+      ),
     amp: f.reduce((s, x) => s + x.a, 0),
   };
 }
 const report: string[] = [];
 const line = (what: string, est: number, tru: number) => {
   const err = 100 * (est / tru - 1);
-  report.push(`${what.padEnd(38)} estimate ${est.toPrecision(4).padStart(8)}  truth ${tru.toPrecision(4).padStart(8)}  error ${err >= 0 ? '+' : ''}${err.toFixed(1)}%`);
+  report.push(
+    `${what.padEnd(38)} estimate ${est.toPrecision(4).padStart(8)}  truth ${tru.toPrecision(4).padStart(8)}  error ${err >= 0 ? '+' : ''}${err.toFixed(1)}%`,
+  );
   return Math.abs(err) / 100;
 };
 
@@ -220,20 +356,34 @@ describe('velocityDistribution on the development set (FNPG-N07), 30 C, 15 and 2
     // modelled as three decays of 25, 50 and 100 us per distance (much faster than any fibre potential here; a user's
     // choice for this recording). The grid starts at 5 m/s: the fast window at 1 mA is for the myelinated fibres,
     // whose slowest class in the mammalian preset (A-delta, 10 m/s at 37 C; Kiernan) is 7.9 m/s at 30 C with Q10 1.4.
-    const r = velocityDistribution(set, { fitWindow: [0.25, 18], artifactTauMs: [0.025, 0.05, 0.1], velocityRange: [5, 120], classes: devClasses, bootstrap: 50 });
+    const r = velocityDistribution(set, {
+      fitWindow: [0.25, 18],
+      artifactTauMs: [0.025, 0.05, 0.1],
+      velocityRange: [5, 120],
+      classes: devClasses,
+      bootstrap: 50,
+    });
     const errs: Record<string, number> = {};
     report.push('fast window, fit 0.25-18 ms, grid 5-120 m/s, artifact decays 25/50/100 us:');
     for (const cls of ['A_alpha_beta', 'A_delta']) {
       const t = truthOf(cls);
-      for (const q of [5, 10, 25, 50, 75, 90, 95]) errs[`${cls} p${q}`] = line(`${cls} number-weighted p${q} (m/s)`, r.percentile(q, 'number', cls), t.p(q / 100));
-      for (const q of [10, 50, 90]) line(`${cls} amplitude-weighted p${q} (m/s)`, r.percentile(q, 'amplitude', cls), t.pa(q / 100));
+      for (const q of [5, 10, 25, 50, 75, 90, 95])
+        errs[`${cls} p${q}`] = line(`${cls} number-weighted p${q} (m/s)`, r.percentile(q, 'number', cls), t.p(q / 100));
+      for (const q of [10, 50, 90])
+        line(`${cls} amplitude-weighted p${q} (m/s)`, r.percentile(q, 'amplitude', cls), t.pa(q / 100));
     }
     const aTot = truthOf('A_alpha_beta').amp + truthOf('A_delta').amp;
-    const fa = (c: string) => (r.classes.find((x) => x.class === c)!.amplitude_fraction as number);
+    const fa = (c: string) => r.classes.find((x) => x.class === c)!.amplitude_fraction as number;
     const aSum = fa('A_alpha_beta') + fa('A_delta');
-    errs.fracAab = line('A_alpha_beta amplitude fraction of A', fa('A_alpha_beta') / aSum, truthOf('A_alpha_beta').amp / aTot);
+    errs.fracAab = line(
+      'A_alpha_beta amplitude fraction of A',
+      fa('A_alpha_beta') / aSum,
+      truthOf('A_alpha_beta').amp / aTot,
+    );
     errs.fracAd = line('A_delta amplitude fraction of A', fa('A_delta') / aSum, truthOf('A_delta').amp / aTot);
-    report.push(`status ${r.fit.status}; lambda ${r.fit.lambda}; iterations ${r.fit.iterations}; residuals ${r.residuals.map((x) => `${x.distance_mm} mm ${(100 * (x.relative_residual as number)).toFixed(2)}% (chi2/sample ${(x.chi2_per_sample as number).toFixed(2)})`).join(', ')}`);
+    report.push(
+      `status ${r.fit.status}; lambda ${r.fit.lambda}; iterations ${r.fit.iterations}; residuals ${r.residuals.map((x) => `${x.distance_mm} mm ${(100 * (x.relative_residual as number)).toFixed(2)}% (chi2/sample ${(x.chi2_per_sample as number).toFixed(2)})`).join(', ')}`,
+    );
     console.log(report.join('\n'));
     // the issue's checks (per class at 30 C: median within 10%, p10 and p90 within 15%, amplitude fraction within 20%)
     // that this estimate meets:
@@ -248,7 +398,8 @@ describe('velocityDistribution on the development set (FNPG-N07), 30 C, 15 and 2
     expect(errs.fracAd).toBeLessThan(0.6);
     // the percentiles are ordered and the bands contain the estimates
     const med = r.percentiles.filter((x) => x.scope === 'A_alpha_beta' && x.weighting === 'number');
-    for (let i = 1; i < med.length; i++) expect(med[i].velocity_m_s as number).toBeGreaterThanOrEqual(med[i - 1].velocity_m_s as number);
+    for (let i = 1; i < med.length; i++)
+      expect(med[i].velocity_m_s as number).toBeGreaterThanOrEqual(med[i - 1].velocity_m_s as number);
   });
 });
 
@@ -259,19 +410,37 @@ describe('velocityDistribution on the development set (FNPG-N07), slow window, C
     // from 10 ms: the myelinated fibres have passed both electrodes (25 mm / 3 m/s = 8.3 ms); C fibres conduct as
     // sqrt(diameter), so amplitude ~ d^2 ~ v^4 (module comment): amplitudeExponent 4 for a C-fibre analysis
     // to 100 ms: C fibres at 0.3 m/s or faster have reached 25 mm by 83 ms
-    const r = velocityDistribution(set, { fitWindow: [10, 100], velocityRange: [0.2, 3], classes: devClasses, amplitudeExponent: 4, bootstrap: 20 });
+    const r = velocityDistribution(set, {
+      fitWindow: [10, 100],
+      velocityRange: [0.2, 3],
+      classes: devClasses,
+      amplitudeExponent: 4,
+      bootstrap: 20,
+    });
     const t = truthOf('C');
     const out: string[] = [];
     const errs: Record<number, number> = {};
-    const ln = (what: string, est: number, tru: number) => { const e = est / tru - 1; out.push(`${what.padEnd(38)} estimate ${est.toPrecision(4).padStart(8)}  truth ${tru.toPrecision(4).padStart(8)}  error ${(100 * e).toFixed(1)}%`); return Math.abs(e); };
-    for (const q of [5, 10, 25, 50, 75, 90, 95]) errs[q] = ln(`C number-weighted p${q} (m/s)`, r.percentile(q, 'number', 'C'), t.p(q / 100));
-    for (const q of [10, 50, 90]) ln(`C amplitude-weighted p${q} (m/s)`, r.percentile(q, 'amplitude', 'C'), t.pa(q / 100));
-    out.push(`slow window: status ${r.fit.status}; lambda ${r.fit.lambda}; iterations ${r.fit.iterations}; residuals ${r.residuals.map((x) => `${x.distance_mm} mm ${(100 * (x.relative_residual as number)).toFixed(2)}% (chi2/sample ${(x.chi2_per_sample as number).toFixed(2)})`).join(', ')}`);
+    const ln = (what: string, est: number, tru: number) => {
+      const e = est / tru - 1;
+      out.push(
+        `${what.padEnd(38)} estimate ${est.toPrecision(4).padStart(8)}  truth ${tru.toPrecision(4).padStart(8)}  error ${(100 * e).toFixed(1)}%`,
+      );
+      return Math.abs(e);
+    };
+    for (const q of [5, 10, 25, 50, 75, 90, 95])
+      errs[q] = ln(`C number-weighted p${q} (m/s)`, r.percentile(q, 'number', 'C'), t.p(q / 100));
+    for (const q of [10, 50, 90])
+      ln(`C amplitude-weighted p${q} (m/s)`, r.percentile(q, 'amplitude', 'C'), t.pa(q / 100));
+    out.push(
+      `slow window: status ${r.fit.status}; lambda ${r.fit.lambda}; iterations ${r.fit.iterations}; residuals ${r.residuals.map((x) => `${x.distance_mm} mm ${(100 * (x.relative_residual as number)).toFixed(2)}% (chi2/sample ${(x.chi2_per_sample as number).toFixed(2)})`).join(', ')}`,
+    );
     console.log(out.join('\n'));
     // NOT met: the C wave (about 40 uV at 15 mm) is fitted at the noise level while the estimate is far from the
     // truth (printed above). What is checked: the result is complete and consistent.
     void errs;
-    const cp = r.percentiles.filter((x) => x.scope === 'C' && x.weighting === 'number').map((x) => x.velocity_m_s as number);
+    const cp = r.percentiles
+      .filter((x) => x.scope === 'C' && x.weighting === 'number')
+      .map((x) => x.velocity_m_s as number);
     for (let i = 1; i < cp.length; i++) expect(cp[i]).toBeGreaterThanOrEqual(cp[i - 1]);
     expect(cp[0]).toBeGreaterThanOrEqual(r.grid[0].bin_low_m_s as number);
     const fr = r.grid.reduce((a, x) => a + (x.number_fraction as number), 0);

@@ -26,17 +26,35 @@ if (process.argv[2] === '--child') {
   const wall = Number(process.hrtime.bigint() - t0) / 1e9;
   const c = process.cpuUsage(c0);
   const peak = process.resourceUsage().maxRSS * 1024;
-  console.log(JSON.stringify({ rss0, max0, peak, wall, cpu: (c.user + c.system) / 1e6, nSweeps: set.nSweeps, nSamples: set.nSamples, threads: f.threads() }));
+  console.log(
+    JSON.stringify({
+      rss0,
+      max0,
+      peak,
+      wall,
+      cpu: (c.user + c.system) / 1e6,
+      nSweeps: set.nSweeps,
+      nSamples: set.nSamples,
+      threads: f.threads(),
+    }),
+  );
   process.exit(0);
 }
 
-const S = Number(process.env.BENCH_SWEEPS ?? 1000), N = Number(process.env.BENCH_SAMPLES ?? 20000);
+const S = Number(process.env.BENCH_SWEEPS ?? 1000),
+  N = Number(process.env.BENCH_SAMPLES ?? 20000);
 const fs = 50000;
 const dir = mkdtempSync(join(tmpdir(), 'fascicle-bench-mem-'));
 const mb = (b) => (b / 1e6).toFixed(1);
 const line = (k, v) => console.log(`${k.padEnd(54)} ${v}`);
 // a deterministic pattern with a response and noise, values of 6 significant digits as a recorder would print
-const sample = (s, i) => Number((300 * Math.exp(-0.5 * (((i - 3000) / 150) ** 2)) * ((s % 20) / 20) + 5 * Math.sin(i * 12.9898 + s * 78.233)).toPrecision(6));
+const sample = (s, i) =>
+  Number(
+    (
+      300 * Math.exp(-0.5 * ((i - 3000) / 150) ** 2) * ((s % 20) / 20) +
+      5 * Math.sin(i * 12.9898 + s * 78.233)
+    ).toPrecision(6),
+  );
 
 const csvPath = join(dir, 'mem.csv');
 {
@@ -48,7 +66,10 @@ const csvPath = join(dir, 'mem.csv');
     row[0] = (-2 + (i * 1000) / fs).toFixed(2);
     for (let s = 0; s < S; s++) row[s + 1] = sample(s, i);
     chunk += row.join(',') + '\n';
-    if (chunk.length > 1 << 22) { writeSync(fd, chunk); chunk = ''; }
+    if (chunk.length > 1 << 22) {
+      writeSync(fd, chunk);
+      chunk = '';
+    }
   }
   writeSync(fd, chunk);
   closeSync(fd);
@@ -58,22 +79,36 @@ const binPath = join(dir, 'mem.f32');
   const x = new Float32Array(S * N);
   for (let s = 0; s < S; s++) for (let i = 0; i < N; i++) x[s * N + i] = sample(s, i);
   writeFileSync(binPath, new Uint8Array(x.buffer));
-  writeFileSync(join(dir, 'mem.json'), JSON.stringify({ data: 'mem.f32', dtype: 'float32', nSweeps: S, nSamples: N, fs, t0Ms: -2, units: 'uV' }));
+  writeFileSync(
+    join(dir, 'mem.json'),
+    JSON.stringify({ data: 'mem.f32', dtype: 'float32', nSweeps: S, nSamples: N, fs, t0Ms: -2, units: 'uV' }),
+  );
 }
 const f64 = S * N * 8;
-console.log(`\n== peak resident memory of a load (${S} sweeps x ${N} samples: float64 samples ${mb(f64)} MB; fresh process each)`);
+console.log(
+  `\n== peak resident memory of a load (${S} sweeps x ${N} samples: float64 samples ${mb(f64)} MB; fresh process each)`,
+);
 for (const threads of [undefined, '1']) {
-  for (const [kind, path, target] of [['csv', csvPath, 1.5], ['binary', join(dir, 'mem.json'), 1.1]]) {
+  for (const [kind, path, target] of [
+    ['csv', csvPath, 1.5],
+    ['binary', join(dir, 'mem.json'), 1.1],
+  ]) {
     const env = { ...process.env };
-    if (threads) env.FASCICLE_THREADS = threads; else delete env.FASCICLE_THREADS;
+    if (threads) env.FASCICLE_THREADS = threads;
+    else delete env.FASCICLE_THREADS;
     const r = spawnSync(process.execPath, [here, '--child', kind, path], { encoding: 'utf8', env, maxBuffer: 1 << 20 });
-    if (r.status !== 0) { line(`${kind} load`, `failed: ${(r.stderr || '').trim().split('\n').pop()}`); continue; }
+    if (r.status !== 0) {
+      line(`${kind} load`, `failed: ${(r.stderr || '').trim().split('\n').pop()}`);
+      continue;
+    }
     const m = JSON.parse(r.stdout.trim().split('\n').pop());
     const grown = m.peak - m.rss0;
     const size = kind === 'csv' ? ` (${mb(statSync(path).size)} MB of text)` : ` (${mb(S * N * 4)} MB float32 file)`;
-    line(`${kind} load${size}, ${m.threads} thread(s)`,
-      `peak ${mb(m.peak)} MB, +${mb(grown)} MB over the ${mb(m.rss0)} MB before = ${(grown / f64).toFixed(2)}x float64 bytes`
-      + ` (target <= ${target}x: ${grown / f64 <= target ? 'meets target' : 'ABOVE target'}); wall ${m.wall.toFixed(2)} s, CPU ${m.cpu.toFixed(2)} s`);
+    line(
+      `${kind} load${size}, ${m.threads} thread(s)`,
+      `peak ${mb(m.peak)} MB, +${mb(grown)} MB over the ${mb(m.rss0)} MB before = ${(grown / f64).toFixed(2)}x float64 bytes` +
+        ` (target <= ${target}x: ${grown / f64 <= target ? 'meets target' : 'ABOVE target'}); wall ${m.wall.toFixed(2)} s, CPU ${m.cpu.toFixed(2)} s`,
+    );
   }
 }
 rmSync(dir, { recursive: true, force: true });

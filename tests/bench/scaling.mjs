@@ -14,14 +14,20 @@ const f = require('../../dist/index.js');
 const SIZES = (process.env.BENCH_SCALING_SIZES ?? '250,1000,4000').split(',').map(Number);
 const N = Number(process.env.BENCH_SAMPLES ?? 20000);
 const RUNS = Number(process.env.BENCH_RUNS ?? 3);
-const FS = 50000, T0MS = -2, CONDITIONS = 50;
+const FS = 50000,
+  T0MS = -2,
+  CONDITIONS = 50;
 const dir = mkdtempSync(join(tmpdir(), 'fascicle-bench-scaling-'));
 
-const median = (a) => { const s = [...a].sort((x, y) => x - y); return s.length % 2 ? s[(s.length - 1) / 2] : 0.5 * (s[s.length / 2 - 1] + s[s.length / 2]); };
+const median = (a) => {
+  const s = [...a].sort((x, y) => x - y);
+  return s.length % 2 ? s[(s.length - 1) / 2] : 0.5 * (s[s.length / 2 - 1] + s[s.length / 2]);
+};
 function timed(fn, input) {
   global.gc?.();
   let out = fn(input); // warm-up
-  const ts = [], cs = [];
+  const ts = [],
+    cs = [];
   for (let k = 0; k < RUNS; k++) {
     const c0 = process.cpuUsage();
     const t0 = process.hrtime.bigint();
@@ -37,7 +43,8 @@ function timed(fn, input) {
 function makeFile(S) {
   const x = new Float32Array(S * N);
   for (let s = 0; s < S; s++) {
-    const c = s % CONDITIONS, a = 1 - c / (2 * CONDITIONS);
+    const c = s % CONDITIONS,
+      a = 1 - c / (2 * CONDITIONS);
     for (let i = 0; i < N; i++) {
       const t = T0MS + (i * 1000) / FS;
       const art = t >= 0 && t < 0.1 ? 500 : t >= 0.1 ? 200 * Math.exp(-(t - 0.1) / 0.08) : 0;
@@ -47,7 +54,19 @@ function makeFile(S) {
   const name = `scal-${S}`;
   writeFileSync(join(dir, name + '.f32'), new Uint8Array(x.buffer));
   const sweeps = Array.from({ length: S }, (_, s) => ({ condition: s % CONDITIONS }));
-  writeFileSync(join(dir, name + '.json'), JSON.stringify({ data: name + '.f32', dtype: 'float32', nSweeps: S, nSamples: N, fs: FS, t0Ms: T0MS, units: 'uV', sweeps }));
+  writeFileSync(
+    join(dir, name + '.json'),
+    JSON.stringify({
+      data: name + '.f32',
+      dtype: 'float32',
+      nSweeps: S,
+      nSamples: N,
+      fs: FS,
+      t0Ms: T0MS,
+      units: 'uV',
+      sweeps,
+    }),
+  );
   return join(dir, name + '.json');
 }
 
@@ -55,7 +74,14 @@ const stages = [
   ['load binary', (p) => f.readBinary(p)],
   ['baseline', (s) => s.baseline({ window: [s.t0Ms, -1000 / s.fs] })],
   ['blank 0-0.3 ms', (s) => s.removeArtifact({ method: 'blank', window: [0, 0.3], bridge: 'linear' })],
-  ['zero-phase low-pass', (s) => { const r = s.lowpass(5000, 4); r.data; return r; }],
+  [
+    'zero-phase low-pass',
+    (s) => {
+      const r = s.lowpass(5000, 4);
+      r.data;
+      return r;
+    },
+  ],
   ['average per condition', (s) => s.groupBy('condition').average()],
 ];
 
@@ -76,18 +102,30 @@ function run(threads) {
     rows.get('total (no load)').push({ S, t: tot.t, cpu: tot.cpu });
     rmSync(path.replace(/\.json$/, '.f32'));
   }
-  console.log(`\n-- ${threads} thread(s): ms per sweep, wall / CPU (CPU time counts the calling thread and the pool's workers)`);
-  console.log(`${'stage'.padEnd(24)}${SIZES.map((S) => `${S} sweeps`.padStart(22)).join('')}   spread of wall (CPU), max/min`);
+  console.log(
+    `\n-- ${threads} thread(s): ms per sweep, wall / CPU (CPU time counts the calling thread and the pool's workers)`,
+  );
+  console.log(
+    `${'stage'.padEnd(24)}${SIZES.map((S) => `${S} sweeps`.padStart(22)).join('')}   spread of wall (CPU), max/min`,
+  );
   for (const [name, r] of rows) {
-    const w = r.map((x) => (1000 * x.t) / x.S), c = r.map((x) => (1000 * x.cpu) / x.S);
+    const w = r.map((x) => (1000 * x.t) / x.S),
+      c = r.map((x) => (1000 * x.cpu) / x.S);
     const spread = (a) => Math.max(...a) / Math.min(...a);
-    const note = name === 'total (no load)' ? ` target <= 1.20: wall ${spread(w) <= 1.2 ? 'meets' : 'BEYOND'}, CPU ${spread(c) <= 1.2 ? 'meets' : 'BEYOND'}` : '';
+    const note =
+      name === 'total (no load)'
+        ? ` target <= 1.20: wall ${spread(w) <= 1.2 ? 'meets' : 'BEYOND'}, CPU ${spread(c) <= 1.2 ? 'meets' : 'BEYOND'}`
+        : '';
     const ms = (x) => (x >= 0.01 ? x.toFixed(3) : x.toExponential(1));
-    console.log(`${name.padEnd(24)}${w.map((x, k) => `${ms(x)} / ${ms(c[k])}`.padStart(22)).join('')}   ${spread(w).toFixed(2)} (${spread(c).toFixed(2)})${note}`);
+    console.log(
+      `${name.padEnd(24)}${w.map((x, k) => `${ms(x)} / ${ms(c[k])}`.padStart(22)).join('')}   ${spread(w).toFixed(2)} (${spread(c).toFixed(2)})${note}`,
+    );
   }
 }
 
-console.log(`== per-sweep cost at ${SIZES.join(', ')} sweeps (${N} float32 samples, ${CONDITIONS} conditions; median of ${RUNS} after a warm-up; load average ${require('node:os').loadavg()[0].toFixed(1)})`);
+console.log(
+  `== per-sweep cost at ${SIZES.join(', ')} sweeps (${N} float32 samples, ${CONDITIONS} conditions; median of ${RUNS} after a warm-up; load average ${require('node:os').loadavg()[0].toFixed(1)})`,
+);
 const all = f.threads();
 run(all);
 if (all > 1) run(1);

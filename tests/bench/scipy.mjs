@@ -16,7 +16,11 @@ const f = require('../../dist/index.js');
 const BENCH = process.env.BENCH_SCIPY_DIR ?? resolve(here, '..', '..', '..', 'shared', 'bench');
 const ROUNDS = Number(process.env.BENCH_ROUNDS ?? 3);
 const RUNS = 5;
-const WINDOWS = [['A', 0.3, 1.0], ['B', 1.0, 5.0], ['C', 10.0, 45.0]]; // ms, as scipy_pipeline.py
+const WINDOWS = [
+  ['A', 0.3, 1.0],
+  ['B', 1.0, 5.0],
+  ['C', 10.0, 45.0],
+]; // ms, as scipy_pipeline.py
 const STAGES = ['load_binary', 'baseline', 'blank', 'filter', 'average', 'features', 'hill_fit', 'total'];
 
 function python(args) {
@@ -29,7 +33,11 @@ function benchData() {
   if (!existsSync(join(dir, 'sweeps.json')) || !existsSync(join(dir, 'sweeps.f32'))) {
     mkdirSync(dir, { recursive: true });
     const r = python([join(BENCH, 'make_data.py'), '--out-dir', dir, '--no-csv']);
-    if (r.status !== 0) return { dir: null, why: `make_data.py failed (python3 with NumPy needed): ${(r.stderr || r.error?.message || '').trim().split('\n').pop()}` };
+    if (r.status !== 0)
+      return {
+        dir: null,
+        why: `make_data.py failed (python3 with NumPy needed): ${(r.stderr || r.error?.message || '').trim().split('\n').pop()}`,
+      };
   }
   return { dir, why: '' };
 }
@@ -42,7 +50,8 @@ function median(a) {
 function bench(fn, input) {
   global.gc?.(); // once per stage, before its warm-up (as SciPy's side, no collection between runs)
   let out = fn(input); // warm-up
-  const ts = [], cs = [];
+  const ts = [],
+    cs = [];
   for (let k = 0; k < RUNS; k++) {
     const c0 = process.cpuUsage();
     const t0 = process.hrtime.bigint();
@@ -58,7 +67,18 @@ function bench(fn, input) {
 function sidecar(dir, meta) {
   const p = join(dir, 'fascicle-sweeps.json');
   if (!existsSync(p)) {
-    writeFileSync(p, JSON.stringify({ data: meta.file, dtype: 'float32', nSweeps: meta.n_sweeps, nSamples: meta.n_samples, fs: meta.fs, t0Ms: meta.t0 * 1000, units: meta.units }));
+    writeFileSync(
+      p,
+      JSON.stringify({
+        data: meta.file,
+        dtype: 'float32',
+        nSweeps: meta.n_sweeps,
+        nSamples: meta.n_samples,
+        fs: meta.fs,
+        t0Ms: meta.t0 * 1000,
+        units: meta.units,
+      }),
+    );
   }
   return p;
 }
@@ -72,7 +92,8 @@ const filterStep = (s) => s.lowpass(5000, 4);
 const averageStep = (s) => s.groupBy('condition').average();
 /** per average and window: peak (parabolic), onset (first crossing of 4 x MAD noise, interpolated), trapezoid area */
 function featuresStep(avg) {
-  const n = avg.nSamples, dt = 1 / avg.fs;
+  const n = avg.nSamples,
+    dt = 1 / avg.fs;
   const pre = avg.indexAt(0) - 1; // last sample with t < 0
   const feat = [];
   for (let s = 0; s < avg.nSweeps; s++) {
@@ -80,12 +101,17 @@ function featuresStep(avg) {
     const thr = 4 * f.noiseMad(y, 0, pre);
     const row = [];
     for (const [, ta, tb] of WINDOWS) {
-      const ia = Math.round(((ta - avg.t0Ms) * avg.fs) / 1000), ib = Math.min(n - 1, Math.round(((tb - avg.t0Ms) * avg.fs) / 1000));
+      const ia = Math.round(((ta - avg.t0Ms) * avg.fs) / 1000),
+        ib = Math.min(n - 1, Math.round(((tb - avg.t0Ms) * avg.fs) / 1000));
       let k = ia;
       for (let i = ia; i <= ib; i++) if (y[i] > y[k]) k = i;
       const pk = k > ia && k < ib ? f.parabolicPeak(y, k) : { index: k, value: y[k] };
       let onset = NaN;
-      for (let i = ia; i < ib; i++) if (!(y[i] >= thr) && y[i + 1] >= thr) { onset = avg.timeAt(i) / 1000 + ((thr - y[i]) / (y[i + 1] - y[i])) * dt; break; }
+      for (let i = ia; i < ib; i++)
+        if (!(y[i] >= thr) && y[i + 1] >= thr) {
+          onset = avg.timeAt(i) / 1000 + ((thr - y[i]) / (y[i + 1] - y[i])) * dt;
+          break;
+        }
       let area = 0;
       for (let i = ia; i < ib; i++) area += 0.5 * (y[i] + y[i + 1]) * dt;
       row.push([pk.value, avg.t0Ms / 1000 + pk.index * dt, onset, area, thr]);
@@ -97,7 +123,9 @@ function featuresStep(avg) {
 const hill4 = (logc, p) => p[1] + (p[0] - p[1]) / (1 + Math.pow(10, (logc - p[2]) * p[3]));
 /** its analytic Jacobian row (top, bottom, logIC50, n): fewer model calls than differences */
 function hill4Gradient(logc, p) {
-  const E = Math.pow(10, (logc - p[2]) * p[3]), D = 1 + E, g = ((p[0] - p[1]) * E * Math.LN10) / (D * D);
+  const E = Math.pow(10, (logc - p[2]) * p[3]),
+    D = 1 + E,
+    g = ((p[0] - p[1]) * E * Math.LN10) / (D * D);
   return [1 / D, 1 - 1 / D, g * p[3], -g * (logc - p[2])];
 }
 function hillStep(meta) {
@@ -111,28 +139,66 @@ function hillStep(meta) {
     const row = new Map(ids.map((id, k) => [id, k]));
     return WINDOWS.map((_, w) => {
       const y = drug.map((c) => feat[row.get(c.id)][w][0] / feat[row.get(base)][w][0]);
-      return f.fitCurve({ model: hill4, gradient: hill4Gradient, x: logc, y, p0: [1, 0, mid, 1], names: ['top', 'bottom', 'logIC50', 'n'], maxIterations: 10000 }).params;
+      return f.fitCurve({
+        model: hill4,
+        gradient: hill4Gradient,
+        x: logc,
+        y,
+        p0: [1, 0, mid, 1],
+        names: ['top', 'bottom', 'logIC50', 'n'],
+        maxIterations: 10000,
+      }).params;
     });
   };
 }
 function fasciclePipeline(path, meta) {
   const hill = hillStep(meta);
-  const t = {}, cpu = {};
+  const t = {},
+    cpu = {};
   const load = bench(() => loadSet(path, meta));
-  t.load_binary = load.t; cpu.load_binary = load.cpu;
-  const b = bench(baselineStep, load.out); t.baseline = b.t; cpu.baseline = b.cpu;
-  const k = bench(blankStep, b.out); t.blank = k.t; cpu.blank = k.cpu; // verbs may leave work pending; the next stage pays it
-  const y = bench((s) => { const r = filterStep(s); r.data; return r; }, k.out); t.filter = y.t; cpu.filter = y.cpu;
-  const a = bench(averageStep, y.out); t.average = a.t; cpu.average = a.cpu;
-  const ft = bench(featuresStep, a.out); t.features = ft.t; cpu.features = ft.cpu;
-  const h = bench(hill, ft.out); t.hill_fit = h.t; cpu.hill_fit = h.cpu;
+  t.load_binary = load.t;
+  cpu.load_binary = load.cpu;
+  const b = bench(baselineStep, load.out);
+  t.baseline = b.t;
+  cpu.baseline = b.cpu;
+  const k = bench(blankStep, b.out);
+  t.blank = k.t;
+  cpu.blank = k.cpu; // verbs may leave work pending; the next stage pays it
+  const y = bench((s) => {
+    const r = filterStep(s);
+    r.data;
+    return r;
+  }, k.out);
+  t.filter = y.t;
+  cpu.filter = y.cpu;
+  const a = bench(averageStep, y.out);
+  t.average = a.t;
+  cpu.average = a.cpu;
+  const ft = bench(featuresStep, a.out);
+  t.features = ft.t;
+  cpu.features = ft.cpu;
+  const h = bench(hill, ft.out);
+  t.hill_fit = h.t;
+  cpu.hill_fit = h.cpu;
   const tot = bench((s) => hill(featuresStep(averageStep(filterStep(blankStep(baselineStep(s)))))), load.out);
-  t.total = tot.t; cpu.total = tot.cpu;
+  t.total = tot.t;
+  cpu.total = tot.cpu;
   return { t, cpu, fits: tot.out, feat: ft.out };
 }
 
 function scipyPipeline(dir) {
-  const r = python([join(BENCH, 'scipy_pipeline.py'), '--data-dir', dir, '--no-variant', '--load', 'binary', '--runs', String(RUNS), '--features-out', join(dir, 'scipy_features.json')]);
+  const r = python([
+    join(BENCH, 'scipy_pipeline.py'),
+    '--data-dir',
+    dir,
+    '--no-variant',
+    '--load',
+    'binary',
+    '--runs',
+    String(RUNS),
+    '--features-out',
+    join(dir, 'scipy_features.json'),
+  ]);
   if (r.status !== 0) return null;
   const t = {};
   for (const m of r.stdout.matchAll(/^stage=(\w+) seconds=([\d.eE+-]+)/gm)) t[m[1]] = Number(m[2]);
@@ -168,24 +234,41 @@ fits, r["hill_fit"] = bench(P.hill_fits, feat, meta)
 _, r["total"] = bench(P.process, x, t, cond, meta)
 print(json.dumps(r))
 `;
-  const r = spawnSync('python3', ['-c', code], { encoding: 'utf8', maxBuffer: 1 << 24, env: { ...process.env, OMP_NUM_THREADS: '1', OPENBLAS_NUM_THREADS: '1' } });
+  const r = spawnSync('python3', ['-c', code], {
+    encoding: 'utf8',
+    maxBuffer: 1 << 24,
+    env: { ...process.env, OMP_NUM_THREADS: '1', OPENBLAS_NUM_THREADS: '1' },
+  });
   if (r.status !== 0) return null;
-  try { return JSON.parse(r.stdout.trim().split('\n').pop()); } catch { return null; }
+  try {
+    return JSON.parse(r.stdout.trim().split('\n').pop());
+  } catch {
+    return null;
+  }
 }
 
 export function runScipyComparison() {
-  console.log('\n== side by side with the SciPy pipeline (../shared/bench: 1,000 x 20,000 float32, 50 conditions; median of 5 per stage, 3 interleaved rounds)');
+  console.log(
+    '\n== side by side with the SciPy pipeline (../shared/bench: 1,000 x 20,000 float32, 50 conditions; median of 5 per stage, 3 interleaved rounds)',
+  );
   const { dir, why } = benchData();
-  if (!dir) { console.log(`skipped: ${why}`); return; }
+  if (!dir) {
+    console.log(`skipped: ${why}`);
+    return;
+  }
   const meta = JSON.parse(readFileSync(join(dir, 'sweeps.json'), 'utf8'));
   const path = sidecar(dir, meta);
   const scipyOk = hasScipy();
   if (!scipyOk) console.log('SciPy side skipped (python3 with NumPy and SciPy not found); fascicle figures only');
   const T = f.threads();
   const rec = { scipy: [], all: [], one: [], scipyCpu: [], oneCpu: [] };
-  let last = null, sp = null;
+  let last = null,
+    sp = null;
   for (let r = 0; r < ROUNDS; r++) {
-    if (scipyOk) { sp = scipyPipeline(dir); if (sp) rec.scipy.push(sp.t); }
+    if (scipyOk) {
+      sp = scipyPipeline(dir);
+      if (sp) rec.scipy.push(sp.t);
+    }
     f.setThreads(T);
     last = fasciclePipeline(path, meta);
     rec.all.push(last.t);
@@ -194,7 +277,10 @@ export function runScipyComparison() {
     rec.one.push(one.t);
     rec.oneCpu.push(one.cpu);
     f.setThreads(T);
-    if (scipyOk) { const c = scipyCpu(dir); if (c) rec.scipyCpu.push(c); }
+    if (scipyOk) {
+      const c = scipyCpu(dir);
+      if (c) rec.scipyCpu.push(c);
+    }
   }
   // each round pairs SciPy with fascicle run right after it: a stage's ratio is the median of
   // its per-round ratios (the machine's load changes between rounds, less within one)
@@ -202,21 +288,32 @@ export function runScipyComparison() {
   const pairRatio = (list, k) => (rec.scipy.length ? median(rec.scipy.map((t, r) => t[k] / list[r][k])) : NaN);
   const fmt = (x) => (Number.isFinite(x) ? (x < 0.01 ? x.toPrecision(2) : x.toFixed(4)) : '-');
   const rf = (x) => (Number.isFinite(x) ? x.toFixed(2) : '-');
-  console.log(`${'stage'.padEnd(16)}${'SciPy (s)'.padStart(11)}${`fascicle ${T} threads (s)`.padStart(24)}${'ratio'.padStart(8)}${'1 thread (s)'.padStart(14)}${'ratio'.padStart(8)}`);
+  console.log(
+    `${'stage'.padEnd(16)}${'SciPy (s)'.padStart(11)}${`fascicle ${T} threads (s)`.padStart(24)}${'ratio'.padStart(8)}${'1 thread (s)'.padStart(14)}${'ratio'.padStart(8)}`,
+  );
   for (const k of STAGES) {
-    console.log(`${(k === 'total' ? 'total (no load)' : k).padEnd(16)}${fmt(med(rec.scipy, k)).padStart(11)}${fmt(med(rec.all, k)).padStart(24)}${rf(pairRatio(rec.all, k)).padStart(8)}${fmt(med(rec.one, k)).padStart(14)}${rf(pairRatio(rec.one, k)).padStart(8)}`);
+    console.log(
+      `${(k === 'total' ? 'total (no load)' : k).padEnd(16)}${fmt(med(rec.scipy, k)).padStart(11)}${fmt(med(rec.all, k)).padStart(24)}${rf(pairRatio(rec.all, k)).padStart(8)}${fmt(med(rec.one, k)).padStart(14)}${rf(pairRatio(rec.one, k)).padStart(8)}`,
+    );
   }
   console.log('(medians over the rounds; ratio = median over rounds of SciPy time / fascicle time, > 1 is faster;');
   console.log(' targets: every stage >= 1, total >= 2 on all cores and >= 1.2 on one thread)');
   if (rec.scipyCpu.length === rec.oneCpu.length && rec.scipyCpu.length) {
     console.log('\nCPU time, one thread each (steadier than wall time on a loaded machine):');
-    console.log(`${'stage'.padEnd(16)}${'SciPy CPU (s)'.padStart(15)}${'fascicle CPU (s)'.padStart(18)}${'ratio'.padStart(8)}`);
+    console.log(
+      `${'stage'.padEnd(16)}${'SciPy CPU (s)'.padStart(15)}${'fascicle CPU (s)'.padStart(18)}${'ratio'.padStart(8)}`,
+    );
     for (const k of STAGES) {
       const r = median(rec.scipyCpu.map((t, i) => t[k] / rec.oneCpu[i][k]));
-      console.log(`${(k === 'total' ? 'total (no load)' : k).padEnd(16)}${fmt(med(rec.scipyCpu, k)).padStart(15)}${fmt(med(rec.oneCpu, k)).padStart(18)}${rf(r).padStart(8)}`);
+      console.log(
+        `${(k === 'total' ? 'total (no load)' : k).padEnd(16)}${fmt(med(rec.scipyCpu, k)).padStart(15)}${fmt(med(rec.oneCpu, k)).padStart(18)}${rf(r).padStart(8)}`,
+      );
     }
   }
-  if (rec.scipy.length) console.log(`per round, total: ${rec.scipy.map((t, r) => `SciPy ${t.total.toFixed(3)} / fascicle ${rec.all[r].total.toFixed(3)} (${T}T), ${rec.one[r].total.toFixed(3)} (1T)`).join('; ')}`);
+  if (rec.scipy.length)
+    console.log(
+      `per round, total: ${rec.scipy.map((t, r) => `SciPy ${t.total.toFixed(3)} / fascicle ${rec.all[r].total.toFixed(3)} (${T}T), ${rec.one[r].total.toFixed(3)} (1T)`).join('; ')}`,
+    );
   if (sp) {
     // agreement of the results: features and IC50s relative to SciPy's
     // SciPy's pipeline keeps float32 through baseline and blank, fascicle computes in float64:
@@ -224,17 +321,26 @@ export function runScipyComparison() {
     // to the value, and relative to the feature's largest magnitude in the window (an area
     // near zero makes the first large without meaning much)
     const names = ['peak', 'peak latency', 'onset', 'area'];
-    const worstBy = names.map(() => 0), worstScaled = names.map(() => 0);
+    const worstBy = names.map(() => 0),
+      worstScaled = names.map(() => 0);
     const row = new Map(last.feat.conds.map((id, k) => [id, k]));
-    const scale = WINDOWS.map((_, w) => names.map((_, q) => Math.max(...sp.features.features.map((perW) => Math.abs(perW[w][q] ?? 0)))));
-    sp.features.features.forEach((perW, id) => perW.forEach((v, w) => v.slice(0, 4).forEach((x, q) => {
-      const y = last.feat.feat[row.get(id)][w][q];
-      if (x === null || !Number.isFinite(y)) return;
-      worstBy[q] = Math.max(worstBy[q], Math.abs(y - x) / Math.max(Math.abs(x), 1e-300));
-      worstScaled[q] = Math.max(worstScaled[q], Math.abs(y - x) / Math.max(scale[w][q], 1e-300));
-    })));
+    const scale = WINDOWS.map((_, w) =>
+      names.map((_, q) => Math.max(...sp.features.features.map((perW) => Math.abs(perW[w][q] ?? 0)))),
+    );
+    sp.features.features.forEach((perW, id) =>
+      perW.forEach((v, w) =>
+        v.slice(0, 4).forEach((x, q) => {
+          const y = last.feat.feat[row.get(id)][w][q];
+          if (x === null || !Number.isFinite(y)) return;
+          worstBy[q] = Math.max(worstBy[q], Math.abs(y - x) / Math.max(Math.abs(x), 1e-300));
+          worstScaled[q] = Math.max(worstScaled[q], Math.abs(y - x) / Math.max(scale[w][q], 1e-300));
+        }),
+      ),
+    );
     const ic = sp.features.hill.map((h, w) => Math.abs(10 ** (last.fits[w][2] - h[2]) - 1));
-    console.log(`agreement with SciPy (relative to the value; to the window's largest value): ${names.map((n, q) => `${n} ${worstBy[q].toExponential(1)}; ${worstScaled[q].toExponential(1)}`).join(', ')}; IC50 ${ic.map((x) => x.toExponential(1)).join(', ')}`);
+    console.log(
+      `agreement with SciPy (relative to the value; to the window's largest value): ${names.map((n, q) => `${n} ${worstBy[q].toExponential(1)}; ${worstScaled[q].toExponential(1)}`).join(', ')}; IC50 ${ic.map((x) => x.toExponential(1)).join(', ')}`,
+    );
   }
 }
 

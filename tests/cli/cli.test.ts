@@ -38,13 +38,18 @@ describe('fascicle command line', () => {
     const r = run(['run', m, '--out', full, '--quiet', '--no-figures']);
     expect(r.status, r.stderr).toBe(0);
     expect(r.stdout).toMatch(/bundle written to/);
-    for (const i of [1, 2, 3]) expect(run(['run', m, '--out', join(work, `s${i}`), '--shard', `${i}/3`, '--quiet']).status).toBe(0);
+    for (const i of [1, 2, 3])
+      expect(run(['run', m, '--out', join(work, `s${i}`), '--shard', `${i}/3`, '--quiet']).status).toBe(0);
     const mr = run(['merge', join(work, 's1'), join(work, 's2'), join(work, 's3'), '--out', join(work, 'merged')]);
     expect(mr.status, mr.stderr).toBe(0);
-    for (const f of readdirSync(join(full, 'tables'))) expect(readFileSync(join(work, 'merged', 'tables', f), 'utf8'), f).toBe(readFileSync(join(full, 'tables', f), 'utf8'));
+    for (const f of readdirSync(join(full, 'tables')))
+      expect(readFileSync(join(work, 'merged', 'tables', f), 'utf8'), f).toBe(
+        readFileSync(join(full, 'tables', f), 'utf8'),
+      );
     const j2 = join(work, 'jobs2');
     expect(run(['run', m, '--out', j2, '--quiet', '--jobs', '2', '--no-figures']).status).toBe(0);
-    for (const f of readdirSync(join(full, 'tables'))) expect(readFileSync(join(j2, 'tables', f), 'utf8'), f).toBe(readFileSync(join(full, 'tables', f), 'utf8'));
+    for (const f of readdirSync(join(full, 'tables')))
+      expect(readFileSync(join(j2, 'tables', f), 'utf8'), f).toBe(readFileSync(join(full, 'tables', f), 'utf8'));
     const rr = run(['rerun', full]);
     expect(rr.status, rr.stderr).toBe(0);
     expect(rr.stdout).toMatch(/reproduced \d+ tables and the methods text exactly/);
@@ -58,7 +63,9 @@ describe('fascicle command line', () => {
     expect(bad.stderr).toMatch(/R2-distance\.csv: the input file has changed/);
     const prov = JSON.parse(readFileSync(join(full, 'provenance.json'), 'utf8'));
     expect(prov.inputs.length).toBe(25);
-    expect(prov.steps.map((s: { verb: string }) => s.verb)).toEqual(expect.arrayContaining(['readManifest', 'baseline', 'removeArtifact', 'removeHum', 'filter', 'components']));
+    expect(prov.steps.map((s: { verb: string }) => s.verb)).toEqual(
+      expect.arrayContaining(['readManifest', 'baseline', 'removeArtifact', 'removeHum', 'filter', 'components']),
+    );
     const methods = readFileSync(join(full, 'methods.txt'), 'utf8');
     expect(methods).toMatch(/4th-order Butterworth filter \(cutoff 10000 Hz/);
     expect(methods).toMatch(/zero phase/);
@@ -72,18 +79,45 @@ describe('pulse-width series on the command line', () => {
     mkdirSync(dir, { recursive: true });
     const widths = [0.02, 0.05, 0.1, 0.2, 0.5];
     const intens = Array.from({ length: 22 }, (_, k) => 0.01 * 10 ** (k * 0.15));
-    const sweeps = widths.flatMap((w) => intens.map((I) => ({ intensity: I, pulseWidthMs: w, distanceMm: 20, temperatureC: 37, concentration: 0 })));
-    const s = model.simulateNerve({ model: model.rodentSciatic(), seed: 11, grid: { fs: 50000, t0Ms: -2, nSamples: 1500 }, sweeps, nuisance: { noiseUv: 3 } });
+    const sweeps = widths.flatMap((w) =>
+      intens.map((I) => ({ intensity: I, pulseWidthMs: w, distanceMm: 20, temperatureC: 37, concentration: 0 })),
+    );
+    const s = model.simulateNerve({
+      model: model.rodentSciatic(),
+      seed: 11,
+      grid: { fs: 50000, t0Ms: -2, nSamples: 1500 },
+      sweeps,
+      nuisance: { noiseUv: 3 },
+    });
     const meta = writeBinary(join(dir, 'pw.bin'), s, 'float32');
     writeFileSync(join(dir, 'pw.json'), JSON.stringify({ data: 'pw.bin', ...meta }));
-    writeFileSync(join(dir, 'manifest.json'), JSON.stringify({
-      fascicleManifest: 1, analysis: { baseline: { window: [-2, -0.1] }, components: { earliestMs: 0.1 } },
-      files: [{ path: 'pw.json', conditions: { preparation: 'S1', series: 'pulse-width', distanceMm: 20, temperatureC: 37, concentration: 0 }, sweeps: sweeps.map((q) => ({ intensity: q.intensity, pulseWidthMs: q.pulseWidthMs })) }],
-    }));
+    writeFileSync(
+      join(dir, 'manifest.json'),
+      JSON.stringify({
+        fascicleManifest: 1,
+        analysis: { baseline: { window: [-2, -0.1] }, components: { earliestMs: 0.1 } },
+        files: [
+          {
+            path: 'pw.json',
+            conditions: {
+              preparation: 'S1',
+              series: 'pulse-width',
+              distanceMm: 20,
+              temperatureC: 37,
+              concentration: 0,
+            },
+            sweeps: sweeps.map((q) => ({ intensity: q.intensity, pulseWidthMs: q.pulseWidthMs })),
+          },
+        ],
+      }),
+    );
     const out = join(work, 'sd-out');
     const r = run(['run', join(dir, 'manifest.json'), '--out', out, '--quiet', '--no-figures']);
     expect(r.status, r.stderr).toBe(0);
-    const rows = JSON.parse(readFileSync(join(out, 'tables', 'strength_duration.json'), 'utf8')) as Record<string, number | string>[];
+    const rows = JSON.parse(readFileSync(join(out, 'tables', 'strength_duration.json'), 'utf8')) as Record<
+      string,
+      number | string
+    >[];
     const a = rows.find((q) => q.class === 'A-alpha/beta')!;
     expect(Math.abs((a.chronaxie_ms as number) / 0.15 - 1)).toBeLessThan(0.1); // simulated chronaxie 0.15 ms
     expect(readFileSync(join(out, 'methods.txt'), 'utf8')).toMatch(/Weiss's law/);
@@ -104,17 +138,37 @@ describe('bundle safety', () => {
   });
   it('an export that fails midway leaves the old bundle untouched, or none', () => {
     const dir = join(work, 'atomic');
-    writeBundle(dir, { tables: { a: [{ x: 1 }] }, methods: 'old', provenance: { package: 'fascicle', version: '0', node: '', inputs: [], steps: [] } });
+    writeBundle(dir, {
+      tables: { a: [{ x: 1 }] },
+      methods: 'old',
+      provenance: { package: 'fascicle', version: '0', node: '', inputs: [], steps: [] },
+    });
     let n = 0;
-    setBeforeWrite(() => { if (++n === 3) throw new Error('disk full (simulated)'); });
-    expect(() => writeBundle(dir, { tables: { a: [{ x: 2 }], b: [{ y: 1 }] }, methods: 'new', provenance: { package: 'fascicle', version: '0', node: '', inputs: [], steps: [] } })).toThrow(/disk full/);
+    setBeforeWrite(() => {
+      if (++n === 3) throw new Error('disk full (simulated)');
+    });
+    expect(() =>
+      writeBundle(dir, {
+        tables: { a: [{ x: 2 }], b: [{ y: 1 }] },
+        methods: 'new',
+        provenance: { package: 'fascicle', version: '0', node: '', inputs: [], steps: [] },
+      }),
+    ).toThrow(/disk full/);
     setBeforeWrite(null);
     expect(readFileSync(join(dir, 'methods.txt'), 'utf8')).toBe('old');
     expect(existsSync(join(dir, 'tables', 'b.csv'))).toBe(false);
     expect(readdirSync(work).filter((f) => f.includes('.tmp-'))).toEqual([]);
     const fresh = join(work, 'fresh');
-    setBeforeWrite(() => { throw new Error('fail'); });
-    expect(() => writeBundle(fresh, { tables: {}, methods: 'x', provenance: { package: 'fascicle', version: '0', node: '', inputs: [], steps: [] } })).toThrow();
+    setBeforeWrite(() => {
+      throw new Error('fail');
+    });
+    expect(() =>
+      writeBundle(fresh, {
+        tables: {},
+        methods: 'x',
+        provenance: { package: 'fascicle', version: '0', node: '', inputs: [], steps: [] },
+      }),
+    ).toThrow();
     setBeforeWrite(null);
     expect(existsSync(fresh)).toBe(false);
   });
@@ -123,11 +177,22 @@ describe('bundle safety', () => {
 describe('results describe themselves', () => {
   it('provenance() lists every step with its options and the inputs with SHA-256; methods() is plain English', async () => {
     const { readManifest } = await import('../../src');
-    const t = readManifest(join(root, 'data-demo', 'manifest.json')).where({ preparation: 'R1', series: 'distance' }).baseline({ window: [-19, -0.2] }).lowpass(8000).components({ earliestMs: 0.12 });
+    const t = readManifest(join(root, 'data-demo', 'manifest.json'))
+      .where({ preparation: 'R1', series: 'distance' })
+      .baseline({ window: [-19, -0.2] })
+      .lowpass(8000)
+      .components({ earliestMs: 0.12 });
     const v = t.velocity();
     const p = v.provenance();
     expect(p.inputs.every((s) => /^[0-9a-f]{64}$/.test(s.sha256))).toBe(true);
-    expect(p.steps.map((s) => s.verb)).toEqual(['readManifest', 'where', 'baseline', 'filter', 'components', 'velocity']);
+    expect(p.steps.map((s) => s.verb)).toEqual([
+      'readManifest',
+      'where',
+      'baseline',
+      'filter',
+      'components',
+      'velocity',
+    ]);
     expect(p.steps[3].options).toMatchObject({ btype: 'lowpass', cutoff: 8000, order: 4, padlen: 15 });
     const m = v.methods();
     expect(m).toMatch(/4th-order Butterworth filter \(cutoff 8000 Hz/);

@@ -27,12 +27,22 @@ const readRows = (p: string): Row[] => JSON.parse(readFileSync(p, 'utf8'));
 function study(name: string, distances: number[], intensity: number, preps = ['P1']): string {
   const dir = join(work, name);
   mkdirSync(dir, { recursive: true });
-  const sweeps = distances.flatMap((d) => [0, 1, 2].map((k) => ({
-    intensity, distanceMm: d, temperatureC: 37, concentration: 0, repeat: k,
-  })));
+  const sweeps = distances.flatMap((d) =>
+    [0, 1, 2].map((k) => ({
+      intensity,
+      distanceMm: d,
+      temperatureC: 37,
+      concentration: 0,
+      repeat: k,
+    })),
+  );
   const files = preps.map((p, i) => {
     const s = model.simulateNerve({
-      model: model.rodentSciatic(), seed: 7 + i, grid: { fs: 50000, t0Ms: -2, nSamples: 3000 }, sweeps, nuisance: { noiseUv: 2 },
+      model: model.rodentSciatic(),
+      seed: 7 + i,
+      grid: { fs: 50000, t0Ms: -2, nSamples: 3000 },
+      sweeps,
+      nuisance: { noiseUv: 2 },
     });
     const meta = writeBinary(join(dir, `${p}.bin`), s, 'float32');
     writeFileSync(join(dir, `${p}.json`), JSON.stringify({ data: `${p}.bin`, ...meta }));
@@ -56,8 +66,14 @@ const listed = (stderr: string) => stderr.split('\n').filter((l) => /^ {2}(rejec
 
 describe('flag report (the printed form of tables/flags.csv)', () => {
   const f = (severity: string, i: number): Row => ({
-    preparation: `P${i}`, analysis: 'velocity', class: 'C', where: `two-site, ${i} mm`, severity, status: 's',
-    reason: `reason ${i}`, rows: 1,
+    preparation: `P${i}`,
+    analysis: 'velocity',
+    class: 'C',
+    where: `two-site, ${i} mm`,
+    severity,
+    status: 's',
+    reason: `reason ${i}`,
+    rows: 1,
   });
   it('one summary line; one line per rejected and not-measured flag; warnings only counted', () => {
     const flags = [f('warning', 1), f('rejected', 2), f('not measured', 3), f('warning', 4)];
@@ -83,11 +99,15 @@ describe('flag report (the printed form of tables/flags.csv)', () => {
     expect(lines[lines.length - 1]).toBe(`  ... and ${45 - FLAG_LINE_CAP} more (tables/flags.csv)`);
   });
   it('empty parts are left out; a merged flag says how many rows it stands for', () => {
-    expect(flagLine({ preparation: null, analysis: 'dose-response', class: null, where: null, reason: 'failed: x' }))
-      .toBe('dose-response: failed: x');
-    expect(flagLine({ preparation: 'R1', analysis: 'velocity', class: 'C', where: '', reason: 'r', rows: 4 }))
-      .toBe('R1 velocity C: r (4 rows)');
-    expect(flagLine({ analysis: 'temperature', class: 'C', status: 'not detected' })).toBe('temperature C: not detected');
+    expect(
+      flagLine({ preparation: null, analysis: 'dose-response', class: null, where: null, reason: 'failed: x' }),
+    ).toBe('dose-response: failed: x');
+    expect(flagLine({ preparation: 'R1', analysis: 'velocity', class: 'C', where: '', reason: 'r', rows: 4 })).toBe(
+      'R1 velocity C: r (4 rows)',
+    );
+    expect(flagLine({ analysis: 'temperature', class: 'C', status: 'not detected' })).toBe(
+      'temperature C: not detected',
+    );
   });
 });
 
@@ -106,7 +126,9 @@ describe('fascicle run: flags printed and written, exit code from what was compu
     expect(r.status, r.stderr).toBe(0);
     expect(existsSync(join(out, 'tables', 'flags.csv'))).toBe(true);
     const flags = readRows(join(out, 'tables', 'flags.json'));
-    const csv = readFileSync(join(out, 'tables', 'flags.csv'), 'utf8').trim().split('\n');
+    const csv = readFileSync(join(out, 'tables', 'flags.csv'), 'utf8')
+      .trim()
+      .split('\n');
     expect(csv[0]).toMatch(/^preparation,analysis,class,where,severity,status,reason/);
     expect(csv.length - 1).toBe(flags.length);
     const c = flagCounts(flags);
@@ -115,7 +137,8 @@ describe('fascicle run: flags printed and written, exit code from what was compu
     // every rejected or not-measured flag has its line (fewer than the cap here), no warning has one
     const lines = listed(r.stderr);
     expect(lines.length).toBe(Math.min(c.rejected + c.notMeasured, FLAG_LINE_CAP));
-    for (const fl of flags.filter((x) => x.severity === 'rejected')) expect(lines).toContain(`  rejected: ${flagLine(fl)}`);
+    for (const fl of flags.filter((x) => x.severity === 'rejected'))
+      expect(lines).toContain(`  rejected: ${flagLine(fl)}`);
     expect(lines.some((l) => / velocity A-alpha\/beta \[two-site, .*20-20\.5 mm/.test(l))).toBe(true);
     // the slow class's velocity is kept
     const v = readRows(join(out, 'tables', 'velocity.json'));
@@ -140,7 +163,9 @@ describe('fascicle run: flags printed and written, exit code from what was compu
     const flags = readRows(join(out, 'tables', 'flags.json'));
     expect(flags.length).toBeGreaterThan(0);
     expect(new Set(flags.map((x) => x.preparation))).toEqual(new Set(['P1', 'P2']));
-    expect(readRows(join(out, 'tables', 'velocity.json')).filter((q) => typeof q.velocity_m_s === 'number')).toEqual([]);
+    expect(readRows(join(out, 'tables', 'velocity.json')).filter((q) => typeof q.velocity_m_s === 'number')).toEqual(
+      [],
+    );
     expect(existsSync(join(out, 'provenance.json'))).toBe(true);
     const c = flagCounts(flags);
     expect(r.stderr).toContain(summaryOf(c));
@@ -151,7 +176,9 @@ describe('fascicle run: flags printed and written, exit code from what was compu
     const j2 = join(work, 'none-j2');
     const rj = run(['run', none, '--out', j2, '--quiet', '--no-figures', '--jobs', '2']);
     expect(rj.status, rj.stderr).toBe(4);
-    expect(readFileSync(join(j2, 'tables', 'flags.csv'), 'utf8')).toBe(readFileSync(join(out, 'tables', 'flags.csv'), 'utf8'));
+    expect(readFileSync(join(j2, 'tables', 'flags.csv'), 'utf8')).toBe(
+      readFileSync(join(out, 'tables', 'flags.csv'), 'utf8'),
+    );
     for (const i of [1, 2]) {
       expect(run(['run', none, '--out', join(work, `none-s${i}`), '--shard', `${i}/2`, '--quiet']).status).toBe(0);
     }

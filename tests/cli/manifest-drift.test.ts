@@ -8,7 +8,14 @@ import { readFileSync, writeFileSync, mkdtempSync, rmSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join, resolve, dirname } from 'node:path';
 import {
-  ANALYSIS_KEYS, ANALYSIS_VALUES, REJECT_FLAGS, MANIFEST_KEYS, FILE_KEYS, SERIES, readManifest, readManifestJson,
+  ANALYSIS_KEYS,
+  ANALYSIS_VALUES,
+  REJECT_FLAGS,
+  MANIFEST_KEYS,
+  FILE_KEYS,
+  SERIES,
+  readManifest,
+  readManifestJson,
 } from '../../src/io/manifest';
 import { ConfigError } from '../../src/errors';
 import { PIPELINE_OPTION_KEYS } from '../../src/report/pipeline';
@@ -26,11 +33,19 @@ const pipelinePath = join(root, 'src', 'report', 'pipeline.ts');
  * comments, quoted strings and template literals (enough for type declarations, which hold no regexes).
  */
 function typeBody(src: string, open: number): string {
-  let depth = 0, out = '';
+  let depth = 0,
+    out = '';
   for (let i = open; i < src.length; i++) {
     const ch = src[i];
-    if (ch === '/' && src[i + 1] === '*') { i = src.indexOf('*/', i + 2) + 1; continue; }
-    if (ch === '/' && src[i + 1] === '/') { i = src.indexOf('\n', i); out += '\n'; continue; }
+    if (ch === '/' && src[i + 1] === '*') {
+      i = src.indexOf('*/', i + 2) + 1;
+      continue;
+    }
+    if (ch === '/' && src[i + 1] === '/') {
+      i = src.indexOf('\n', i);
+      out += '\n';
+      continue;
+    }
     if (ch === "'" || ch === '"' || ch === '`') {
       let j = i + 1;
       while (j < src.length && src[j] !== ch) j += src[j] === '\\' ? 2 : 1;
@@ -53,13 +68,17 @@ function braced(src: string, open: number): string {
 /** Member name -> type text of an object type body (top level only). */
 function members(body: string): Map<string, string> {
   const out = new Map<string, string>();
-  let depth = 0, start = 0;
+  let depth = 0,
+    start = 0;
   const parts: string[] = [];
   for (let i = 0; i < body.length; i++) {
     const ch = body[i];
     if ('{[(<'.includes(ch)) depth++;
     else if ('}])>'.includes(ch) && body[i - 1] !== '=') depth--;
-    else if (ch === ';' && depth === 0) { parts.push(body.slice(start, i)); start = i + 1; }
+    else if (ch === ';' && depth === 0) {
+      parts.push(body.slice(start, i));
+      start = i + 1;
+    }
   }
   parts.push(body.slice(start));
   for (const p of parts) {
@@ -83,7 +102,12 @@ function importsOf(path: string): Map<string, string> {
   const out = new Map<string, string>();
   for (const m of readFileSync(path, 'utf8').matchAll(/import\s+(?:type\s+)?\{([^}]*)\}\s+from\s+'([^']+)'/g)) {
     for (const n of m[1].split(',')) {
-      const name = n.trim().replace(/^type\s+/, '').split(/\s+as\s+/).pop()!.trim();
+      const name = n
+        .trim()
+        .replace(/^type\s+/, '')
+        .split(/\s+as\s+/)
+        .pop()!
+        .trim();
       if (name) out.set(name, resolve(dirname(path), m[2]) + '.ts');
     }
   }
@@ -96,12 +120,16 @@ const imports = importsOf(pipelinePath);
 /** Split a type at top-level occurrences of a separator (| or &). */
 function splitTop(type: string, sep: string): string[] {
   const out: string[] = [];
-  let depth = 0, start = 0;
+  let depth = 0,
+    start = 0;
   for (let i = 0; i < type.length; i++) {
     const ch = type[i];
     if ('{[(<'.includes(ch)) depth++;
     else if ('}])>'.includes(ch) && type[i - 1] !== '=') depth--;
-    else if (ch === sep && depth === 0) { out.push(type.slice(start, i).trim()); start = i + 1; }
+    else if (ch === sep && depth === 0) {
+      out.push(type.slice(start, i).trim());
+      start = i + 1;
+    }
   }
   out.push(type.slice(start).trim());
   return out.filter((x) => x !== '');
@@ -124,7 +152,12 @@ interface StepType {
 function stepKeys(step: string): StepType {
   const alts = splitTop(pipelineMembers.get(step)!, '|');
   const r: StepType = {
-    keys: [], allowsFalse: alts.includes('false'), allowsBoolean: alts.includes('boolean'), omitted: [], module: null, typeName: null,
+    keys: [],
+    allowsFalse: alts.includes('false'),
+    allowsBoolean: alts.includes('boolean'),
+    omitted: [],
+    module: null,
+    typeName: null,
   };
   const objects = alts.filter((x) => x !== 'false' && x !== 'boolean' && x !== 'true');
   if (!objects.length) return { ...r, keys: 'boolean' };
@@ -132,7 +165,10 @@ function stepKeys(step: string): StepType {
   for (const alt of objects) {
     for (const part0 of splitTop(alt, '&')) {
       const part = part0.replace(/\[\]$/, '');
-      if (part.startsWith('{')) { for (const k of members(braced(part, 0)).keys()) keys.add(k); continue; }
+      if (part.startsWith('{')) {
+        for (const k of members(braced(part, 0)).keys()) keys.add(k);
+        continue;
+      }
       const om = /^Omit<\s*(\w+)\s*,\s*(.+)>$/.exec(part);
       const name = om ? om[1] : part;
       if (!/^\w+$/.test(name)) throw new Error(`PipelineOptions.${step}: cannot read the type ${part}`);
@@ -155,7 +191,10 @@ const manifestList = (step: string): readonly string[] => {
 };
 
 /** The keys a verb accepts at run time: the list in its "unknown key" error for a key no verb has. */
-function acceptedAtRunTime(call: (o: Record<string, unknown>) => unknown, base: Record<string, unknown> = {}): string[] {
+function acceptedAtRunTime(
+  call: (o: Record<string, unknown>) => unknown,
+  base: Record<string, unknown> = {},
+): string[] {
   try {
     call({ ...base, zzProbeKey: 1 });
   } catch (e) {
@@ -174,15 +213,28 @@ function loadAnalysis(analysis: object): Error | null {
   const p = join(loadDir, 'm.json');
   const files = [{ path: 'a.csv', conditions: { preparation: 'P1' } }];
   writeFileSync(p, JSON.stringify({ fascicleManifest: 1, analysis, files }));
-  try { readManifest(p); } catch (e) { return e as Error; }
+  try {
+    readManifest(p);
+  } catch (e) {
+    return e as Error;
+  }
   return null;
 }
 
 // a small set the verbs can run on (values do not matter: the key check comes first)
-const fs = 20000, n = 200;
+const fs = 20000,
+  n = 200;
 const set = new SweepSet({
-  data: Float64Array.from({ length: 2 * n }, (_, i) => Math.sin(i / 7)), nSweeps: 2, nSamples: n, fs, t0Ms: -2, units: 'uV',
-  conditions: [{ preparation: 'P', distanceMm: 20 }, { preparation: 'P', distanceMm: 30 }],
+  data: Float64Array.from({ length: 2 * n }, (_, i) => Math.sin(i / 7)),
+  nSweeps: 2,
+  nSamples: n,
+  fs,
+  t0Ms: -2,
+  units: 'uV',
+  conditions: [
+    { preparation: 'P', distanceMm: 20 },
+    { preparation: 'P', distanceMm: 30 },
+  ],
 });
 
 describe('manifest analysis keys follow the pipeline (drift test)', () => {
@@ -190,19 +242,22 @@ describe('manifest analysis keys follow the pipeline (drift test)', () => {
     expect(sorted(Object.keys(ANALYSIS_KEYS))).toEqual(sorted(PIPELINE_OPTION_KEYS));
     expect(sorted([...pipelineMembers.keys()])).toEqual(sorted(PIPELINE_OPTION_KEYS));
   });
-  it.each([...PIPELINE_OPTION_KEYS])('%s: exactly the keys of its option type; false / true where the type allows', (step) => {
-    const { keys, allowsFalse, allowsBoolean } = stepKeys(step);
-    if (keys === 'boolean') expect(ANALYSIS_KEYS[step]).toBe('boolean');
-    else {
-      expect(ANALYSIS_KEYS[step]).not.toBe('boolean');
-      expect(sorted(manifestList(step)), `${step}: manifest list vs its option type`).toEqual(sorted(keys));
-    }
-    const off = loadAnalysis({ [step]: false });
-    if (allowsFalse || allowsBoolean || keys === 'boolean') expect(off, `${step}: false`).toBeNull();
-    else expect(off, `${step}: false`).toBeInstanceOf(ConfigError);
-    if (allowsBoolean || keys === 'boolean') expect(loadAnalysis({ [step]: true }), `${step}: true`).toBeNull();
-    else expect(loadAnalysis({ [step]: true }), `${step}: true`).toBeInstanceOf(ConfigError);
-  });
+  it.each([...PIPELINE_OPTION_KEYS])(
+    '%s: exactly the keys of its option type; false / true where the type allows',
+    (step) => {
+      const { keys, allowsFalse, allowsBoolean } = stepKeys(step);
+      if (keys === 'boolean') expect(ANALYSIS_KEYS[step]).toBe('boolean');
+      else {
+        expect(ANALYSIS_KEYS[step]).not.toBe('boolean');
+        expect(sorted(manifestList(step)), `${step}: manifest list vs its option type`).toEqual(sorted(keys));
+      }
+      const off = loadAnalysis({ [step]: false });
+      if (allowsFalse || allowsBoolean || keys === 'boolean') expect(off, `${step}: false`).toBeNull();
+      else expect(off, `${step}: false`).toBeInstanceOf(ConfigError);
+      if (allowsBoolean || keys === 'boolean') expect(loadAnalysis({ [step]: true }), `${step}: true`).toBeNull();
+      else expect(loadAnalysis({ [step]: true }), `${step}: true`).toBeInstanceOf(ConfigError);
+    },
+  );
   it('verbs that check keys at run time accept exactly what the manifest accepts', () => {
     const runTime: Record<string, string[]> = {
       baseline: acceptedAtRunTime((o) => set.baseline(o as never)),
@@ -220,11 +275,15 @@ describe('manifest analysis keys follow the pipeline (drift test)', () => {
       expect(sorted(manifestList(step)), step).toEqual(sorted(keys.filter((k) => !omitted.includes(k))));
     }
   });
-  it('every key of a step\'s exported defaults object is accepted, unless it is no option of the step', async () => {
+  it("every key of a step's exported defaults object is accepted, unless it is no option of the step", async () => {
     // defaults keys that are constants of the method, not options (checked below to be no option)
     const internal: Record<string, string[]> = {
-      baseline: ['stopBeforeStimulusMs'], recruitment: ['thresholdFraction'], strengthDuration: ['minWidths'],
-      qc: ['quietStopMs', 'endFraction', 'perSweepKeys', 'peerKeys'], groups: ['animalKeys'], mixed: ['randomKeys'],
+      baseline: ['stopBeforeStimulusMs'],
+      recruitment: ['thresholdFraction'],
+      strengthDuration: ['minWidths'],
+      qc: ['quietStopMs', 'endFraction', 'perSweepKeys', 'peerKeys'],
+      groups: ['animalKeys'],
+      mixed: ['randomKeys'],
       velocityDistribution: ['fitWindowStartMs', 'sfpWindowFraction', 'twoDistanceLambda', 'percentiles'],
     };
     let seen = 0;
@@ -240,7 +299,10 @@ describe('manifest analysis keys follow the pipeline (drift test)', () => {
       for (const k of Object.keys(mod[name] as object)) {
         if (omitted.includes(k)) continue;
         if ((internal[step] ?? []).includes(k)) {
-          expect(keys, `${name}.${k}: listed as internal here but an option of ${step}; add it to the manifest`).not.toContain(k);
+          expect(
+            keys,
+            `${name}.${k}: listed as internal here but an option of ${step}; add it to the manifest`,
+          ).not.toContain(k);
           continue;
         }
         expect(manifestList(step), `${name}.${k}`).toContain(k);
@@ -255,7 +317,10 @@ describe('manifest analysis keys follow the pipeline (drift test)', () => {
     for (const f of ['pipeline.ts', 'study.ts']) {
       const src = readFileSync(join(root, 'src', 'report', f), 'utf8');
       const patterns = [
-        /\bhas\('([\w-]+)'\)/g, /(?:hasSeries|seriesOf)\([^,()]+,\s*'([\w-]+)'\)/g, /series\s*[!=]==\s*'([\w-]+)'/g, /series:\s*'([\w-]+)'/g,
+        /\bhas\('([\w-]+)'\)/g,
+        /(?:hasSeries|seriesOf)\([^,()]+,\s*'([\w-]+)'\)/g,
+        /series\s*[!=]==\s*'([\w-]+)'/g,
+        /series:\s*'([\w-]+)'/g,
       ];
       for (const re of patterns) {
         for (const m of src.matchAll(re)) found.add(m[1]);
@@ -264,11 +329,13 @@ describe('manifest analysis keys follow the pipeline (drift test)', () => {
     expect(sorted([...found])).toEqual(sorted(SERIES));
     const schema = JSON.parse(readFileSync(join(root, 'schema', 'manifest.schema.json'), 'utf8'));
     const text = JSON.stringify(schema);
-    const enums = [...text.matchAll(/"series":\{"enum":(\[[^\]]*\])/g)].map((m) => JSON.parse(m[1]) as (string | null)[]);
+    const enums = [...text.matchAll(/"series":\{"enum":(\[[^\]]*\])/g)].map(
+      (m) => JSON.parse(m[1]) as (string | null)[],
+    );
     expect(enums.length).toBeGreaterThan(0);
     for (const e of enums) expect(sorted(e.filter((x): x is string => x !== null))).toEqual(sorted(SERIES));
   });
-  it('top-level and file keys equal the JSON Schema\'s properties', () => {
+  it("top-level and file keys equal the JSON Schema's properties", () => {
     const schema = JSON.parse(readFileSync(join(root, 'schema', 'manifest.schema.json'), 'utf8'));
     expect(sorted(Object.keys(schema.properties))).toEqual(sorted(MANIFEST_KEYS));
     expect(sorted(Object.keys(schema.properties.files.items.properties))).toEqual(sorted(FILE_KEYS));
@@ -279,7 +346,10 @@ describe('manifest analysis keys follow the pipeline (drift test)', () => {
     expect(sorted(schema.properties.files.items.properties.format.enum)).toEqual(sorted(formats));
     for (const format of formats) {
       const p = join(loadDir, `f-${format}.json`);
-      writeFileSync(p, JSON.stringify({ fascicleManifest: 1, files: [{ path: 'x.dat', format, conditions: { preparation: 'P1' } }] }));
+      writeFileSync(
+        p,
+        JSON.stringify({ fascicleManifest: 1, files: [{ path: 'x.dat', format, conditions: { preparation: 'P1' } }] }),
+      );
       expect(() => readManifestJson(p), format).not.toThrow(); // the schema (files are not opened here)
     }
     // the analysis section's keys (for editors' completion) are those the reader accepts
@@ -302,7 +372,10 @@ describe('manifest values of options the pipeline uses inside flagged analyses',
     }
   });
   it.each([
-    [{ doseResponse: { minConcentrations: 1 } }, '/analysis/doseResponse/minConcentrations: is 1; expected an integer >= 2'],
+    [
+      { doseResponse: { minConcentrations: 1 } },
+      '/analysis/doseResponse/minConcentrations: is 1; expected an integer >= 2',
+    ],
     [{ doseResponse: { maxLatencyShift: 0 } }, '/analysis/doseResponse/maxLatencyShift: is 0; expected a number > 0'],
     [{ doseResponse: { poolSites: 'yes' } }, '/analysis/doseResponse/poolSites: is "yes"; expected true or false'],
     [{ recruitment: { minLevels: 2.5 } }, '/analysis/recruitment/minLevels: is 2.5; expected an integer >= 3'],
@@ -316,11 +389,13 @@ describe('manifest values of options the pipeline uses inside flagged analyses',
   });
   it('the documented forms load: polarity 1, -1, "auto" or per class; null latency shift; lists of artifact steps', () => {
     for (const a of [
-      { components: { polarity: -1 } }, { components: { polarity: 'auto' } },
+      { components: { polarity: -1 } },
+      { components: { polarity: 'auto' } },
       { components: { polarity: { 'A-alpha/beta': -1, C: 'auto' } } },
       { doseResponse: { maxLatencyShift: null, minConcentrations: 3, poolSites: true }, recruitment: { minLevels: 5 } },
       { poolSites: false },
       { averageRepeats: false, artifact: [{ method: 'blank', window: [0, 0.1] }, { method: 'exponential' }] },
-    ]) expect(load(a), JSON.stringify(a)).toBeNull();
+    ])
+      expect(load(a), JSON.stringify(a)).toBeNull();
   });
 });

@@ -6,7 +6,8 @@ import { join } from 'node:path';
 import { readNwb, readNwbTables, readManifest } from '../../src';
 
 const root = join(__dirname, '..', '..');
-const cli = (args: string[]) => spawnSync(process.execPath, [join(root, 'dist', 'cli', 'main.js'), ...args], { encoding: 'utf8', cwd: root });
+const cli = (args: string[]) =>
+  spawnSync(process.execPath, [join(root, 'dist', 'cli', 'main.js'), ...args], { encoding: 'utf8', cwd: root });
 
 // The demo study is the project's own invented data: this checks the plumbing of --nwb (the NWB layout itself is
 // checked against h5py-written files and hdmf's validator in tests/io/nwb.test.ts).

@@ -3,7 +3,18 @@
 // (SHA-256 of every file before and after) and the documented exit codes of src/cli/main.ts.
 import { describe, it, expect, beforeAll, afterAll } from 'vitest';
 import { spawn, spawnSync } from 'node:child_process';
-import { cpSync, mkdirSync, mkdtempSync, readFileSync, writeFileSync, existsSync, readdirSync, statSync, rmSync, unlinkSync } from 'node:fs';
+import {
+  cpSync,
+  mkdirSync,
+  mkdtempSync,
+  readFileSync,
+  writeFileSync,
+  existsSync,
+  readdirSync,
+  statSync,
+  rmSync,
+  unlinkSync,
+} from 'node:fs';
 import { createHash } from 'node:crypto';
 import { tmpdir } from 'node:os';
 import { join, relative } from 'node:path';
@@ -13,7 +24,11 @@ import { OutputError } from '../../src/errors';
 const root = join(__dirname, '..', '..');
 const cliPath = join(root, 'dist', 'cli', 'main.js');
 const run = (args: string[], opts: { cwd?: string; env?: Record<string, string> } = {}) =>
-  spawnSync(process.execPath, [cliPath, ...args], { encoding: 'utf8', cwd: opts.cwd, env: { ...process.env, ...(opts.env ?? {}) } });
+  spawnSync(process.execPath, [cliPath, ...args], {
+    encoding: 'utf8',
+    cwd: opts.cwd,
+    env: { ...process.env, ...(opts.env ?? {}) },
+  });
 const work = mkdtempSync(join(tmpdir(), 'fascicle-safety-'));
 const prov = { package: 'fascicle' as const, version: '0', node: '', inputs: [], steps: [] };
 
@@ -23,8 +38,10 @@ function snapshot(dir: string): Record<string, string> {
   const walk = (d: string) => {
     for (const e of readdirSync(d, { withFileTypes: true })) {
       const p = join(d, e.name);
-      if (e.isDirectory()) { out[relative(dir, p) + '/'] = 'dir'; walk(p); }
-      else out[relative(dir, p)] = createHash('sha256').update(readFileSync(p)).digest('hex');
+      if (e.isDirectory()) {
+        out[relative(dir, p) + '/'] = 'dir';
+        walk(p);
+      } else out[relative(dir, p)] = createHash('sha256').update(readFileSync(p)).digest('hex');
     }
   };
   walk(dir);
@@ -37,13 +54,16 @@ function study(name: string, preps: string[]): string {
   mkdirSync(dir, { recursive: true });
   const m = JSON.parse(readFileSync(join(root, 'data-demo', 'manifest.json'), 'utf8'));
   m.files = m.files.filter((f: { conditions: { preparation: string } }) => preps.includes(f.conditions.preparation));
-  for (const f of readdirSync(join(root, 'data-demo'))) if (preps.some((p) => f.startsWith(p + '-'))) cpSync(join(root, 'data-demo', f), join(dir, f));
+  for (const f of readdirSync(join(root, 'data-demo')))
+    if (preps.some((p) => f.startsWith(p + '-'))) cpSync(join(root, 'data-demo', f), join(dir, f));
   writeFileSync(join(dir, 'manifest.json'), JSON.stringify(m, null, 1));
   return join(dir, 'manifest.json');
 }
 
 let m1: string;
-beforeAll(() => { m1 = study('s1', ['R1']); });
+beforeAll(() => {
+  m1 = study('s1', ['R1']);
+});
 afterAll(() => rmSync(work, { recursive: true, force: true }));
 
 describe('fascicle run --out never loses files it did not write', () => {
@@ -55,7 +75,12 @@ describe('fascicle run --out never loses files it did not write', () => {
     const file = join(work, 'results.csv');
     writeFileSync(file, 'a,b\n1,2\n');
     const studyDir = join(work, 's1');
-    const before = { user: snapshot(user), study: snapshot(studyDir), file: readFileSync(file, 'utf8'), top: readdirSync(work).sort() };
+    const before = {
+      user: snapshot(user),
+      study: snapshot(studyDir),
+      file: readFileSync(file, 'utf8'),
+      top: readdirSync(work).sort(),
+    };
     const cases: [string, RegExp][] = [
       [user, /not empty and is not a bundle written by fascicle.*new or empty folder/],
       [studyDir, /is an input of this analysis/],
@@ -79,7 +104,13 @@ describe('fascicle run --out never loses files it did not write', () => {
     const user = join(work, 'user2');
     mkdirSync(user);
     writeFileSync(join(user, 'x.txt'), 'mine');
-    const e = (() => { try { writeBundle(user, { tables: {}, methods: 'm', provenance: prov }); } catch (x) { return x; } })();
+    const e = (() => {
+      try {
+        writeBundle(user, { tables: {}, methods: 'm', provenance: prov });
+      } catch (x) {
+        return x;
+      }
+    })();
     expect(e).toBeInstanceOf(OutputError);
     expect((e as OutputError).refused).toBe(true);
     expect(readFileSync(join(user, 'x.txt'), 'utf8')).toBe('mine');
@@ -94,7 +125,9 @@ describe('fascicle run --out never loses files it did not write', () => {
     expect(existsSync(join(empty, TEMP_MARKER))).toBe(false);
     // a bundle with a file the user added is still ours (marker) ... but an input inside it is refused
     writeFileSync(join(empty, 'data.csv'), 'time (ms),s (uV)\n0,1\n1,2\n');
-    expect(() => writeBundle(empty, { tables: {}, methods: 'three', provenance: prov }, { inputs: [join(empty, 'data.csv')] })).toThrow(/contains an input/);
+    expect(() =>
+      writeBundle(empty, { tables: {}, methods: 'three', provenance: prov }, { inputs: [join(empty, 'data.csv')] }),
+    ).toThrow(/contains an input/);
     expect(readFileSync(join(empty, 'methods.txt'), 'utf8')).toBe('two');
   });
 
@@ -110,7 +143,9 @@ describe('fascicle run --out never loses files it did not write', () => {
     mkdirSync(mixed);
     writeFileSync(join(mixed, 'provenance.json'), JSON.stringify(prov));
     writeFileSync(join(mixed, 'my-analysis.R'), 'x <- 1');
-    expect(() => writeBundle(mixed, { tables: {}, methods: 'new', provenance: prov })).toThrow(/not a bundle written by fascicle/);
+    expect(() => writeBundle(mixed, { tables: {}, methods: 'new', provenance: prov })).toThrow(
+      /not a bundle written by fascicle/,
+    );
     expect(readFileSync(join(mixed, 'my-analysis.R'), 'utf8')).toBe('x <- 1');
   });
 
@@ -120,7 +155,10 @@ describe('fascicle run --out never loses files it did not write', () => {
     const marked = join(work, `.b-left.tmp-${dead}-abc-123456`);
     const marked2 = join(work, `.b-left.old-${dead}-abc-123456`);
     const unmarked = join(work, `.b-left.tmp-${dead}-abc-654321`);
-    for (const d of [marked, marked2, unmarked]) { mkdirSync(join(d, 'tables'), { recursive: true }); writeFileSync(join(d, 'tables', 'a.csv'), 'x\n'); }
+    for (const d of [marked, marked2, unmarked]) {
+      mkdirSync(join(d, 'tables'), { recursive: true });
+      writeFileSync(join(d, 'tables', 'a.csv'), 'x\n');
+    }
     writeFileSync(join(marked, TEMP_MARKER), '');
     writeFileSync(join(marked2, TEMP_MARKER), '');
     writeBundle(out, { tables: {}, methods: 'm', provenance: prov });
@@ -136,7 +174,7 @@ describe('fascicle run --out never loses files it did not write', () => {
     expect(run(['run', m1, '--out', join(work, 'timing'), '--quiet']).status).toBe(0);
     const T = Date.now() - t0;
     let seed = 20261202;
-    const rand = () => ((seed = (seed * 1103515245 + 12345) % 2 ** 31) / 2 ** 31);
+    const rand = () => (seed = (seed * 1103515245 + 12345) % 2 ** 31) / 2 ** 31;
     const outcomes = { absent: 0, complete: 0, old: 0, leftovers: 0 };
     for (let k = 0; k < 10; k++) {
       // half the runs start with no bundle there, half replace one (an old bundle fascicle wrote)
@@ -149,10 +187,18 @@ describe('fascicle run --out never loses files it did not write', () => {
       const late = k % 2 === 1 ? 300 * rand() : -1;
       await new Promise<void>((res) => {
         let timer: NodeJS.Timeout | undefined = late < 0 ? setTimeout(() => child.kill('SIGKILL'), delay) : undefined;
-        const poll = late < 0 ? undefined : setInterval(() => {
-          if (!timer && readdirSync(work).some((f) => f.startsWith('.killed.tmp-'))) timer = setTimeout(() => child.kill('SIGKILL'), late);
-        }, 1);
-        child.on('exit', () => { clearTimeout(timer); clearInterval(poll); res(); });
+        const poll =
+          late < 0
+            ? undefined
+            : setInterval(() => {
+                if (!timer && readdirSync(work).some((f) => f.startsWith('.killed.tmp-')))
+                  timer = setTimeout(() => child.kill('SIGKILL'), late);
+              }, 1);
+        child.on('exit', () => {
+          clearTimeout(timer);
+          clearInterval(poll);
+          res();
+        });
       });
       if (readdirSync(work).some((f) => f.startsWith('.killed.'))) outcomes.leftovers++;
       if (!existsSync(out)) outcomes.absent++;
@@ -166,14 +212,18 @@ describe('fascicle run --out never loses files it did not write', () => {
           outcomes.old++;
           continue;
         }
-        expect(listed).toEqual(expect.arrayContaining(['methods.txt', 'provenance.json', 'tables/components.csv', 'tables/velocity.json']));
+        expect(listed).toEqual(
+          expect.arrayContaining(['methods.txt', 'provenance.json', 'tables/components.csv', 'tables/velocity.json']),
+        );
         for (const f of listed) expect(statSync(join(out, f)).isFile(), f).toBe(true);
         JSON.parse(readFileSync(join(out, 'tables', 'components.json'), 'utf8'));
         outcomes.complete++;
       }
     }
-    console.log(`killed runs: ${outcomes.absent} left no output, ${outcomes.complete} a complete new bundle, ${outcomes.old} the old `
-      + `bundle untouched, ${outcomes.leftovers} left a hidden temporary folder (of 10)`);
+    console.log(
+      `killed runs: ${outcomes.absent} left no output, ${outcomes.complete} a complete new bundle, ${outcomes.old} the old ` +
+        `bundle untouched, ${outcomes.leftovers} left a hidden temporary folder (of 10)`,
+    );
     expect(outcomes.absent + outcomes.complete + outcomes.old).toBe(10);
     const r = run(['run', m1, '--out', out, '--quiet']);
     expect(r.status, r.stderr).toBe(0);
@@ -187,10 +237,15 @@ describe('a failed write says what happened and where', () => {
     const dir = join(work, 'full');
     writeBundle(dir, { tables: { a: [{ x: 1 }] }, methods: 'old', provenance: prov });
     setBeforeWrite((p) => {
-      if (p.endsWith('b.csv')) throw Object.assign(new Error('ENOSPC: no space left on device, write'), { code: 'ENOSPC' });
+      if (p.endsWith('b.csv'))
+        throw Object.assign(new Error('ENOSPC: no space left on device, write'), { code: 'ENOSPC' });
     });
     let err: unknown;
-    try { writeBundle(dir, { tables: { a: [{ x: 2 }], b: [{ y: 1 }] }, methods: 'new', provenance: prov }); } catch (e) { err = e; }
+    try {
+      writeBundle(dir, { tables: { a: [{ x: 2 }], b: [{ y: 1 }] }, methods: 'new', provenance: prov });
+    } catch (e) {
+      err = e;
+    }
     setBeforeWrite(null);
     expect(err).toBeInstanceOf(OutputError);
     expect((err as Error).message).toMatch(/the disk is full \(ENOSPC\) while writing tables\/b\.csv/);
@@ -200,9 +255,18 @@ describe('a failed write says what happened and where', () => {
   });
 
   it('a real file-size limit (EFBIG) and an immutable folder (EPERM) exit 6 naming the place, not "unexpected error"', () => {
-    const lim = spawnSync('bash', ['-c', `trap '' XFSZ; ulimit -f 200; exec "${process.execPath}" "${cliPath}" run "${m1}" --out "${join(work, 'big')}" --quiet`], { encoding: 'utf8' });
+    const lim = spawnSync(
+      'bash',
+      [
+        '-c',
+        `trap '' XFSZ; ulimit -f 200; exec "${process.execPath}" "${cliPath}" run "${m1}" --out "${join(work, 'big')}" --quiet`,
+      ],
+      { encoding: 'utf8' },
+    );
     expect(lim.status, lim.stderr).toBe(6);
-    expect(lim.stderr).toMatch(/cannot write the bundle .*big: the file is larger than the system allows.*\(EFBIG\) while writing/);
+    expect(lim.stderr).toMatch(
+      /cannot write the bundle .*big: the file is larger than the system allows.*\(EFBIG\) while writing/,
+    );
     expect(existsSync(join(work, 'big'))).toBe(false);
     const ro = join(work, 'readonly');
     mkdirSync(ro);
@@ -256,7 +320,12 @@ describe('rerun of a moved study, and what rerun compares', () => {
     const keepThr = readFileSync(thr);
     cases.push(['deleted', () => unlinkSync(thr), () => writeFileSync(thr, keepThr), /lacks tables\/thresholds\.csv/]);
     const extra = join(bundle, 'tables', 'mine.csv');
-    cases.push(['extra', () => writeFileSync(extra, 'x\n1\n'), () => unlinkSync(extra), /has tables\/mine\.csv, which the rerun did not produce/]);
+    cases.push([
+      'extra',
+      () => writeFileSync(extra, 'x\n1\n'),
+      () => unlinkSync(extra),
+      /has tables\/mine\.csv, which the rerun did not produce/,
+    ]);
     const [e4, u4] = edit('methods.txt', (s) => s.replace('Butterworth', 'Chebyshev'));
     cases.push(['methods', e4, u4, /differs in methods\.txt/]);
     for (const [name, doIt, undo, msg] of cases) {
@@ -265,7 +334,9 @@ describe('rerun of a moved study, and what rerun compares', () => {
         const r = run(['rerun', bundle]);
         expect(r.status, `${name}: ${r.stderr}`).toBe(5);
         expect(r.stderr).toMatch(msg);
-      } finally { undo(); }
+      } finally {
+        undo();
+      }
     }
   }, 300_000);
   it('a missing folder, a missing or corrupt provenance give a clean message and exit 3', () => {
@@ -285,7 +356,9 @@ describe('rerun of a moved study, and what rerun compares', () => {
       expect(mi.status).toBe(3);
       expect(mi.stderr).toMatch(/the bundle has no provenance\.json/);
       expect(mi.stderr + c.stderr).not.toMatch(/unexpected/);
-    } finally { writeFileSync(p, keep); }
+    } finally {
+      writeFileSync(p, keep);
+    }
   });
 });
 
@@ -319,7 +392,9 @@ describe('command line', () => {
     writeFileSync(join(dir, 'bad-key.json'), JSON.stringify(m2));
     const k = run(['run', join(dir, 'bad-key.json'), '--out', join(work, 'bk'), '--quiet']);
     expect(k.status, k.stderr).toBe(2);
-    expect(k.stderr).toMatch(/bad-key\.json, field \/analysis\/lowpass: unknown key "lowpass" \(write "filter": \{ "btype": "lowpass"/);
+    expect(k.stderr).toMatch(
+      /bad-key\.json, field \/analysis\/lowpass: unknown key "lowpass" \(write "filter": \{ "btype": "lowpass"/,
+    );
   });
   it('a top-level classPreset is used by the command line (amphibian classes in the components table)', () => {
     const dir = join(work, 's1');
@@ -329,10 +404,18 @@ describe('command line', () => {
     writeFileSync(join(dir, 'amph.json'), JSON.stringify(m));
     const r = run(['run', join(dir, 'amph.json'), '--out', join(work, 'amph'), '--quiet', '--no-figures']);
     expect(r.status, r.stderr).toBe(0);
-    const classes = new Set((JSON.parse(readFileSync(join(work, 'amph', 'tables', 'components.json'), 'utf8')) as { class: string }[]).map((x) => x.class));
+    const classes = new Set(
+      (JSON.parse(readFileSync(join(work, 'amph', 'tables', 'components.json'), 'utf8')) as { class: string }[]).map(
+        (x) => x.class,
+      ),
+    );
     const mam = run(['run', m1, '--out', join(work, 'mam'), '--quiet', '--no-figures']);
     expect(mam.status).toBe(0);
-    const classesM = new Set((JSON.parse(readFileSync(join(work, 'mam', 'tables', 'components.json'), 'utf8')) as { class: string }[]).map((x) => x.class));
+    const classesM = new Set(
+      (JSON.parse(readFileSync(join(work, 'mam', 'tables', 'components.json'), 'utf8')) as { class: string }[]).map(
+        (x) => x.class,
+      ),
+    );
     expect([...classes]).not.toEqual([...classesM]);
     m.classPreset = 'amfibian';
     writeFileSync(join(dir, 'amph2.json'), JSON.stringify(m));
@@ -343,7 +426,9 @@ describe('command line', () => {
   it('a --jobs worker that runs out of memory ends the run with exit 7 and a clear message, no bundle', () => {
     const m2 = study('s2', ['R1', 'R2']);
     const out = join(work, 'oom');
-    const r = run(['run', m2, '--out', out, '--quiet', '--jobs', '2', '--no-figures'], { env: { FASCICLE_WORKER_HEAP_MB: '8' } });
+    const r = run(['run', m2, '--out', out, '--quiet', '--jobs', '2', '--no-figures'], {
+      env: { FASCICLE_WORKER_HEAP_MB: '8' },
+    });
     expect(r.status, r.stderr).toBe(7);
     expect(r.stderr).toMatch(/--jobs worker thread processing preparation R\d ran out of memory/);
     expect(existsSync(out)).toBe(false);

@@ -30,8 +30,12 @@ describe('command line usage as documented', () => {
   });
   it('the README names every form of the usage block and the npx note', () => {
     const forms = [
-      'npx fascicle help', 'npx fascicle version', 'npx fascicle rerun <bundle-dir> [--manifest <path>]',
-      'npx fascicle run <manifest.json> --out <dir>', 'npx fascicle merge <shard-dir>... --out <dir>', 'FASCICLE_WORKER_HEAP_MB',
+      'npx fascicle help',
+      'npx fascicle version',
+      'npx fascicle rerun <bundle-dir> [--manifest <path>]',
+      'npx fascicle run <manifest.json> --out <dir>',
+      'npx fascicle merge <shard-dir>... --out <dir>',
+      'FASCICLE_WORKER_HEAP_MB',
     ];
     for (const form of forms) {
       expect(section, form).toContain(form);
@@ -42,10 +46,16 @@ describe('command line usage as documented', () => {
     const readme = [...section.matchAll(/^\| (\d) \| (.+) \|$/gm)].map((m) => Number(m[1]));
     expect(readme.sort()).toEqual([0, 1, 2, 3, 4, 5, 6, 7]);
     const help = run(['help']).stdout.replace(/\s+/g, ' ');
-    const helpCodes = [...(/Exit codes: (.*?)\./.exec(help)?.[1] ?? '').matchAll(/\b(\d) [a-z]/g)].map((m) => Number(m[1]));
+    const helpCodes = [...(/Exit codes: (.*?)\./.exec(help)?.[1] ?? '').matchAll(/\b(\d) [a-z]/g)].map((m) =>
+      Number(m[1]),
+    );
     expect(helpCodes.sort()).toEqual(readme);
-    const header = readFileSync(join(root, 'src', 'cli', 'main.ts'), 'utf8').split('*/')[0].replace(/\s*\*\s*/g, ' ');
-    const headerCodes = [...(/Exit codes: (.*?)\./.exec(header)?.[1] ?? '').matchAll(/\b(\d) [a-z]/g)].map((m) => Number(m[1]));
+    const header = readFileSync(join(root, 'src', 'cli', 'main.ts'), 'utf8')
+      .split('*/')[0]
+      .replace(/\s*\*\s*/g, ' ');
+    const headerCodes = [...(/Exit codes: (.*?)\./.exec(header)?.[1] ?? '').matchAll(/\b(\d) [a-z]/g)].map((m) =>
+      Number(m[1]),
+    );
     expect(headerCodes.sort()).toEqual(readme);
   });
   it('a paired-pulse and train study (the invented recovery demo) runs: its series and steps are accepted', async () => {
@@ -61,7 +71,10 @@ describe('command line usage as documented', () => {
       }
       expect(r.stderr).toMatch(/^flags: \d+ rejected, \d+ not measured, \d+ warnings \(tables\/flags\.csv\)$/m);
       // one result line per recovery fit, with the numbers of its table row
-      const rows = JSON.parse(readFileSync(join(out, 'tables', 'paired_pulse_summary.json'), 'utf8')) as Record<string, unknown>[];
+      const rows = JSON.parse(readFileSync(join(out, 'tables', 'paired_pulse_summary.json'), 'utf8')) as Record<
+        string,
+        unknown
+      >[];
       const fitted = rows.filter((q) => typeof q.r50_ms === 'number');
       expect(fitted.length).toBeGreaterThan(0);
       for (const q of fitted) {
@@ -78,21 +91,33 @@ describe('command line usage as documented', () => {
     try {
       mkdirSync(join(work, 'study'));
       cpSync(join(root, 'tests', 'fixtures', 'nwb', 'continuous.nwb'), join(work, 'study', 'continuous.nwb'));
-      const entry = (channel: number, preparation: string, distanceMm: number) => (
-        { path: 'continuous.nwb', options: { channel }, conditions: { preparation, distanceMm, temperatureC: 37 } });
+      const entry = (channel: number, preparation: string, distanceMm: number) => ({
+        path: 'continuous.nwb',
+        options: { channel },
+        conditions: { preparation, distanceMm, temperatureC: 37 },
+      });
       const m = join(work, 'study', 'manifest.json');
-      writeFileSync(m, JSON.stringify({
-        fascicleManifest: 1, analysis: { baseline: { window: [-4, -0.2] } }, files: [entry(0, 'N1', 12), entry(1, 'N2', 24.5)],
-      }));
+      writeFileSync(
+        m,
+        JSON.stringify({
+          fascicleManifest: 1,
+          analysis: { baseline: { window: [-4, -0.2] } },
+          files: [entry(0, 'N1', 12), entry(1, 'N2', 24.5)],
+        }),
+      );
       const env = { FASCICLE_QUIET: '1' };
       const a = run(['run', m, '--out', join(work, 'one'), '--quiet', '--no-figures'], env);
       expect(a.status, a.stderr).toBe(0);
       const b = run(['run', m, '--out', join(work, 'two'), '--quiet', '--no-figures', '--jobs', '2'], env);
       expect(b.status, b.stderr).toBe(0);
-      const rows = JSON.parse(readFileSync(join(work, 'one', 'tables', 'components.json'), 'utf8')) as Record<string, unknown>[];
+      const rows = JSON.parse(readFileSync(join(work, 'one', 'tables', 'components.json'), 'utf8')) as Record<
+        string,
+        unknown
+      >[];
       expect(new Set(rows.map((q) => q.preparation))).toEqual(new Set(['N1', 'N2']));
-      expect(readFileSync(join(work, 'two', 'tables', 'components.csv'), 'utf8'))
-        .toBe(readFileSync(join(work, 'one', 'tables', 'components.csv'), 'utf8'));
+      expect(readFileSync(join(work, 'two', 'tables', 'components.csv'), 'utf8')).toBe(
+        readFileSync(join(work, 'one', 'tables', 'components.csv'), 'utf8'),
+      );
       const rr = run(['rerun', join(work, 'one')], env);
       expect(rr.status, rr.stderr).toBe(0);
     } finally {
@@ -107,7 +132,9 @@ describe('command line usage as documented', () => {
         const env = { FASCICLE_WORKER_HEAP_MB: bad };
         const r = run(['run', join(root, 'data-demo', 'manifest.json'), '--out', out, '--quiet'], env);
         expect(r.status, r.stderr).toBe(2);
-        expect(r.stderr).toContain(`invalid FASCICLE_WORKER_HEAP_MB: ${JSON.stringify(bad)}; must be an integer >= 8 (MB)`);
+        expect(r.stderr).toContain(
+          `invalid FASCICLE_WORKER_HEAP_MB: ${JSON.stringify(bad)}; must be an integer >= 8 (MB)`,
+        );
         expect(existsSync(out)).toBe(false);
       }
     } finally {

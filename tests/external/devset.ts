@@ -39,10 +39,30 @@ export interface Check {
   note?: string;
 }
 
-export function check(quantity: string, cls: string, where: string, estimator: string, estimate: number | null | undefined, t: number, tol: number, note?: string): Check {
+export function check(
+  quantity: string,
+  cls: string,
+  where: string,
+  estimator: string,
+  estimate: number | null | undefined,
+  t: number,
+  tol: number,
+  note?: string,
+): Check {
   const e = typeof estimate === 'number' && Number.isFinite(estimate) ? estimate : null;
   const err = e === null ? null : (100 * (e - t)) / t;
-  return { quantity, class: cls, where, estimator, estimate: e, truth: t, errorPct: err, tolerancePct: tol, ok: err !== null && Math.abs(err) <= tol, ...(note ? { note } : {}) };
+  return {
+    quantity,
+    class: cls,
+    where,
+    estimator,
+    estimate: e,
+    truth: t,
+    errorPct: err,
+    tolerancePct: tol,
+    ok: err !== null && Math.abs(err) <= tol,
+    ...(note ? { note } : {}),
+  };
 }
 
 export function manifestPath(w: 'fast' | 'slow'): string {
@@ -64,10 +84,20 @@ export function conditioned(w: 'fast' | 'slow', series: string): { set: SweepSet
 
 // ---- clean class-only waveforms (truth for definitions ground_truth.json does not list) ----
 
-interface CleanMeta { columns: string[]; nSamples: number; fs: number; t0Ms: number }
+interface CleanMeta {
+  columns: string[];
+  nSamples: number;
+  fs: number;
+  t0Ms: number;
+}
 
-export function clean(w: 'fast' | 'slow'): { meta: CleanMeta; get: (T: number, mm: number, cls: string) => Float64Array } {
-  const meta = JSON.parse(readFileSync(join(FIX, 'clean', `temperature_${w}.json`), 'utf8')) as CleanMeta & { conditions: Record<string, number> };
+export function clean(w: 'fast' | 'slow'): {
+  meta: CleanMeta;
+  get: (T: number, mm: number, cls: string) => Float64Array;
+} {
+  const meta = JSON.parse(readFileSync(join(FIX, 'clean', `temperature_${w}.json`), 'utf8')) as CleanMeta & {
+    conditions: Record<string, number>;
+  };
   const b = readFileSync(join(FIX, 'clean', `temperature_${w}.f32`));
   const f = new Float32Array(b.buffer, b.byteOffset, b.byteLength / 4);
   const condOf = Object.fromEntries(Object.entries(meta.conditions).map(([k, v]) => [v, k]));
@@ -99,18 +129,35 @@ export function crossings(x: Float64Array, frac: number): { peak: number; rise: 
 /** Centre of mass (ms) of the clean component between its crossings of `frac` of its own peak. */
 export function cleanCentroidMs(x: Float64Array, fs: number, t0Ms: number, frac: number): number {
   const { rise, fall } = crossings(x, frac);
-  let s = 0, st = 0;
-  for (let i = Math.ceil(rise); i <= Math.floor(fall); i++) { s += x[i]; st += x[i] * i; }
+  let s = 0,
+    st = 0;
+  for (let i = Math.ceil(rise); i <= Math.floor(fall); i++) {
+    s += x[i];
+    st += x[i] * i;
+  }
   return t0Ms + (st / s) * (1000 / fs);
 }
 
 /** Delay (ms) of b against a from the peak of their cross-correlation, parabolic sub-sample refinement (direct sums). */
 export function cleanXcorrDelayMs(a: Float64Array, b: Float64Array, fs: number): number {
   const n = a.length;
-  let best = -Infinity, lag = 0;
-  const c = (k: number) => { let s = 0; for (let i = Math.max(0, -k); i < n && i + k < n; i++) s += a[i] * b[i + k]; return s; };
-  for (let k = 0; k < n; k++) { const v = c(k); if (v > best) { best = v; lag = k; } }
-  const y0 = c(lag - 1), y1 = best, y2 = c(lag + 1);
+  let best = -Infinity,
+    lag = 0;
+  const c = (k: number) => {
+    let s = 0;
+    for (let i = Math.max(0, -k); i < n && i + k < n; i++) s += a[i] * b[i + k];
+    return s;
+  };
+  for (let k = 0; k < n; k++) {
+    const v = c(k);
+    if (v > best) {
+      best = v;
+      lag = k;
+    }
+  }
+  const y0 = c(lag - 1),
+    y1 = best,
+    y2 = c(lag + 1);
   const d = y0 - 2 * y1 + y2;
   return ((lag + (d < 0 ? (0.5 * (y0 - y2)) / d : 0)) * 1000) / fs;
 }
@@ -118,9 +165,14 @@ export function cleanXcorrDelayMs(a: Float64Array, b: Float64Array, fs: number):
 /** Q10 = exp(10 slope) of ln(value) on temperature (least squares), as ground_truth.json defines it. */
 export function q10Of(temps: readonly number[], values: readonly number[]): number {
   const y = values.map(Math.log);
-  const mx = temps.reduce((a, b) => a + b, 0) / temps.length, my = y.reduce((a, b) => a + b, 0) / y.length;
-  let sxy = 0, sxx = 0;
-  temps.forEach((t, i) => { sxy += (t - mx) * (y[i] - my); sxx += (t - mx) ** 2; });
+  const mx = temps.reduce((a, b) => a + b, 0) / temps.length,
+    my = y.reduce((a, b) => a + b, 0) / y.length;
+  let sxy = 0,
+    sxx = 0;
+  temps.forEach((t, i) => {
+    sxy += (t - mx) * (y[i] - my);
+    sxx += (t - mx) ** 2;
+  });
   return Math.exp((10 * sxy) / sxx);
 }
 
@@ -129,7 +181,19 @@ export function printChecks(title: string, rows: Check[]): string {
   const f = (v: number | null, d = 4) => (v === null ? '-' : Math.abs(v) >= 100 ? v.toFixed(1) : v.toPrecision(d));
   const lines = [title, 'quantity | class | where | estimator | estimate | truth | error % | tol % | within'];
   for (const r of rows) {
-    lines.push([r.quantity, r.class, r.where, r.estimator, f(r.estimate), f(r.truth), r.errorPct === null ? '-' : r.errorPct.toFixed(1), r.tolerancePct, r.ok ? 'yes' : 'NO'].join(' | ') + (r.note ? ` (${r.note})` : ''));
+    lines.push(
+      [
+        r.quantity,
+        r.class,
+        r.where,
+        r.estimator,
+        f(r.estimate),
+        f(r.truth),
+        r.errorPct === null ? '-' : r.errorPct.toFixed(1),
+        r.tolerancePct,
+        r.ok ? 'yes' : 'NO',
+      ].join(' | ') + (r.note ? ` (${r.note})` : ''),
+    );
   }
   const ok = rows.filter((r) => r.ok).length;
   lines.push(`${ok} of ${rows.length} within tolerance`);

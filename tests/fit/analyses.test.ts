@@ -1,12 +1,28 @@
 import { describe, it, expect } from 'vitest';
-import { fitCurve, logLogistic4, activationEnergyFromQ10, q10FromActivationEnergy, q10FromRates, fitTemperature, pairedCompare, model, doseResponse, fitHill } from '../../src';
+import {
+  fitCurve,
+  logLogistic4,
+  activationEnergyFromQ10,
+  q10FromActivationEnergy,
+  q10FromRates,
+  fitTemperature,
+  pairedCompare,
+  model,
+  doseResponse,
+  fitHill,
+} from '../../src';
 import { Rng } from '../../src/model/random';
 
 describe('Hill / four-parameter log-logistic against the ryegrass dataset', () => {
   // Inderjit, Streibig & Olofsdotter 2002, Physiol Plant 114:422 (dataset in R's drc package, V);
   // fit values computed with SciPy and matching drc's published output as remembered (C; M).
-  const conc = [0, 0, 0, 0, 0, 0, 0.94, 0.94, 0.94, 1.88, 1.88, 1.88, 3.75, 3.75, 3.75, 7.5, 7.5, 7.5, 15, 15, 15, 30, 30, 30];
-  const len = [7.58, 8.0, 8.3285714, 7.25, 7.375, 7.9625, 8.3555556, 6.9142857, 7.75, 6.8714286, 6.45, 5.9222222, 1.925, 2.8857143, 4.2333333, 1.1875, 0.8571429, 1.0571429, 0.6875, 0.525, 0.825, 0.25, 0.22, 0.44];
+  const conc = [
+    0, 0, 0, 0, 0, 0, 0.94, 0.94, 0.94, 1.88, 1.88, 1.88, 3.75, 3.75, 3.75, 7.5, 7.5, 7.5, 15, 15, 15, 30, 30, 30,
+  ];
+  const len = [
+    7.58, 8.0, 8.3285714, 7.25, 7.375, 7.9625, 8.3555556, 6.9142857, 7.75, 6.8714286, 6.45, 5.9222222, 1.925, 2.8857143,
+    4.2333333, 1.1875, 0.8571429, 1.0571429, 0.6875, 0.525, 0.825, 0.25, 0.22, 0.44,
+  ];
   it('ED50 3.058 mM, slope 2.982, lower 0.4814, upper 7.793 (4 significant digits) and the Wald CI 2.670-3.446', () => {
     const f = fitCurve({ model: logLogistic4, x: conc, y: len, p0: [1, 0, 8, Math.log(2)] });
     const [b, c, d, lne] = f.params;
@@ -24,7 +40,7 @@ describe('Hill / four-parameter log-logistic against the ryegrass dataset', () =
     expect(f.standardErrors[1]).toBeCloseTo(0.2095, 3);
     expect(f.standardErrors[2]).toBeCloseTo(0.1897, 3);
     const t = 2.0859634472658644; // t(0.975, 20), scipy.stats.t.ppf
-    expect(e - t * seE).toBeCloseTo(2.670, 3);
+    expect(e - t * seE).toBeCloseTo(2.67, 3);
     expect(e + t * seE).toBeCloseTo(3.446, 3);
   });
 });
@@ -37,7 +53,13 @@ describe('confidence-interval coverage (seeded simulation)', () => {
     let cover = 0;
     for (let r = 0; r < 400; r++) {
       const y = x.map((c) => logLogistic4(c, truth) + 0.04 * rng.normal());
-      const f = fitCurve({ model: logLogistic4, x, y, p0: [1, 0, 1, Math.log(30)], fixed: [false, false, true, false] });
+      const f = fitCurve({
+        model: logLogistic4,
+        x,
+        y,
+        p0: [1, 0, 1, Math.log(30)],
+        fixed: [false, false, true, false],
+      });
       if (f.ci[3][0] <= truth[3] && truth[3] <= f.ci[3][1]) cover++;
     }
     console.log(`IC50 95% CI coverage: ${cover}/400`);
@@ -55,7 +77,17 @@ describe('Q10 and Arrhenius conversions (../shared/REFERENCES.md, C)', () => {
   });
   it('fitTemperature recovers a known Q10 from noiseless rates, with preparation-specific levels', () => {
     const pts = [];
-    for (const [prep, base] of [['a', 10], ['b', 14], ['c', 8]] as const) for (const T of [25, 29, 33, 37]) pts.push({ preparation: prep, temperatureC: T, value: base * Math.pow(1.45, (T - 37) / 10) * (1 + 0.001 * Math.sin(T)) });
+    for (const [prep, base] of [
+      ['a', 10],
+      ['b', 14],
+      ['c', 8],
+    ] as const)
+      for (const T of [25, 29, 33, 37])
+        pts.push({
+          preparation: prep,
+          temperatureC: T,
+          value: base * Math.pow(1.45, (T - 37) / 10) * (1 + 0.001 * Math.sin(T)),
+        });
     const f = fitTemperature(pts);
     expect(f.q10).toBeCloseTo(1.45, 2);
     expect(f.q10Ci95[0]).toBeLessThan(1.45);
@@ -81,8 +113,24 @@ describe('dose-response on the forward model (known IC50 per class)', () => {
     const rows: Record<string, string | number | boolean | null>[] = [];
     const preps = ['P1', 'P2', 'P3', 'P4'];
     preps.forEach((prep, pi) => {
-      const sweeps = concs.flatMap((c) => [0, 1, 2].map((r) => ({ intensity: 50, distanceMm: 25, temperatureC: 37, concentration: c, conditions: { preparation: prep, repeat: r, concentrationUnit: 'uM' } })));
-      const set = model.simulateNerve({ model: nerve, seed: 100 + pi, grid: { fs: 50000, t0Ms: -2, nSamples: 3000 }, sweeps, nuisance: { noiseUv: 4 } }).baseline();
+      const sweeps = concs.flatMap((c) =>
+        [0, 1, 2].map((r) => ({
+          intensity: 50,
+          distanceMm: 25,
+          temperatureC: 37,
+          concentration: c,
+          conditions: { preparation: prep, repeat: r, concentrationUnit: 'uM' },
+        })),
+      );
+      const set = model
+        .simulateNerve({
+          model: nerve,
+          seed: 100 + pi,
+          grid: { fs: 50000, t0Ms: -2, nSamples: 3000 },
+          sweeps,
+          nuisance: { noiseUv: 4 },
+        })
+        .baseline();
       rows.push(...(set.components().rows as never[]));
     });
     const dr = doseResponse(rows, 'uV');
@@ -99,7 +147,11 @@ describe('dose-response on the forward model (known IC50 per class)', () => {
   });
   it('flags an IC50 outside the tested range', () => {
     const x = [1, 3, 10, 30];
-    const f = fitHill(x, x.map((c) => 1 / (1 + c / 1000)), null);
+    const f = fitHill(
+      x,
+      x.map((c) => 1 / (1 + c / 1000)),
+      null,
+    );
     expect(Math.exp(f.params[3])).toBeGreaterThan(30);
   });
 });
@@ -118,13 +170,24 @@ describe('dose-response with run-down corrected by time-matched vehicle controls
         const t = step * 600 + j * 60;
         const drift = 1 + k * (t - 180);
         const hill = vehicle || c === 0 ? 1 : 1 / (1 + c / 10);
-        rows.push({ preparation: prep, class: 'C', concentration: vehicle ? 0 : c, epoch: vehicle ? (step === 0 ? 'baseline' : 'vehicle') : step === 0 ? 'baseline' : 'drug', acquiredS: t, sweep: step * 5 + j, amplitude_uV: 100 * hill * drift });
+        rows.push({
+          preparation: prep,
+          class: 'C',
+          concentration: vehicle ? 0 : c,
+          epoch: vehicle ? (step === 0 ? 'baseline' : 'vehicle') : step === 0 ? 'baseline' : 'drug',
+          acquiredS: t,
+          sweep: step * 5 + j,
+          amplitude_uV: 100 * hill * drift,
+        });
       }
     });
   }
   it('recovers the IC50 with the vehicle correction; without it the IC50 is biased low', () => {
     const corrected = doseResponse(rows, 'uV', { runDown: 'vehicle' });
-    const plain = doseResponse(rows.filter((r) => !String(r.preparation).startsWith('V')), 'uV');
+    const plain = doseResponse(
+      rows.filter((r) => !String(r.preparation).startsWith('V')),
+      'uV',
+    );
     const c = corrected.summary[0];
     expect(Math.abs((c.ic50 as number) / 10 - 1)).toBeLessThan(0.01);
     expect(c.rundown_per_min as number).toBeCloseTo(-0.003, 6);
@@ -133,14 +196,41 @@ describe('dose-response with run-down corrected by time-matched vehicle controls
     expect(corrected.methods()).toMatch(/time-matched vehicle controls/);
   });
   it('says what is missing: no vehicle sweeps, no acquisition times', () => {
-    expect(() => doseResponse(rows.filter((r) => !String(r.preparation).startsWith('V')), 'uV', { runDown: 'vehicle' })).toThrow(/needs time-matched vehicle sweeps \(epoch "vehicle"/);
-    expect(() => doseResponse(rows.map(({ acquiredS, ...r }) => (r.preparation === 'V1' ? r : { ...r, acquiredS })), 'uV', { runDown: 'vehicle' })).toThrow(/preparation V1, class C: runDown "vehicle" needs the condition "acquiredS"/);
+    expect(() =>
+      doseResponse(
+        rows.filter((r) => !String(r.preparation).startsWith('V')),
+        'uV',
+        { runDown: 'vehicle' },
+      ),
+    ).toThrow(/needs time-matched vehicle sweeps \(epoch "vehicle"/);
+    expect(() =>
+      doseResponse(
+        rows.map(({ acquiredS, ...r }) => (r.preparation === 'V1' ? r : { ...r, acquiredS })),
+        'uV',
+        { runDown: 'vehicle' },
+      ),
+    ).toThrow(/preparation V1, class C: runDown "vehicle" needs the condition "acquiredS"/);
   });
 });
 
 // ---- fits use only what was measured; no interval the data cannot support (issue 12, issue 14) ----
 // Synthetic rows with values chosen here (self-consistency and invariants; common practice, no source).
-import { recruitment, temperatureAnalysis, singleSiteVelocity, regressionVelocity, twoSiteVelocity, SweepSet, PRESETS, AnalysisError, averageRepeats, condition, runPipeline, computedCount, markRecommended, methodsText } from '../../src';
+import {
+  recruitment,
+  temperatureAnalysis,
+  singleSiteVelocity,
+  regressionVelocity,
+  twoSiteVelocity,
+  SweepSet,
+  PRESETS,
+  AnalysisError,
+  averageRepeats,
+  condition,
+  runPipeline,
+  computedCount,
+  markRecommended,
+  methodsText,
+} from '../../src';
 
 describe('fitTemperature: a status, and no interval the data cannot support', () => {
   const T = [20, 25, 30, 37];
@@ -159,23 +249,38 @@ describe('fitTemperature: a status, and no interval the data cannot support', ()
   });
   it('noisy data: an interval of positive width around the estimate, status ok', () => {
     const noise = [0.02, -0.015, 0.01, -0.02];
-    const f = fitTemperature(T.map((t, i) => ({ temperatureC: t, value: 2 * Math.pow(1.4, t / 10) * Math.exp(noise[i]) })));
+    const f = fitTemperature(
+      T.map((t, i) => ({ temperatureC: t, value: 2 * Math.pow(1.4, t / 10) * Math.exp(noise[i]) })),
+    );
     expect(f.status).toBe('ok');
     expect(f.q10Ci95![0]).toBeLessThan(f.q10);
     expect(f.q10Ci95![1]).toBeGreaterThan(f.q10);
   });
   it('two temperatures: a point estimate, no interval (no residual degree of freedom); non-positive values left out and counted', () => {
-    const f = fitTemperature([{ temperatureC: 20, value: 1 }, { temperatureC: 30, value: 1.4 }, { temperatureC: 25, value: 0 }]);
+    const f = fitTemperature([
+      { temperatureC: 20, value: 1 },
+      { temperatureC: 30, value: 1.4 },
+      { temperatureC: 25, value: 0 },
+    ]);
     expect(f.q10).toBeCloseTo(1.4, 12);
     expect(f.q10Ci95).toBeNull();
     expect(f.excluded).toBe(1);
     expect(f.status).toMatch(/no residual degree of freedom.*1 point\(s\) left out/);
   });
   it('temperatureAnalysis leaves undetected rows out and refuses with "not detected" when fewer than two temperatures remain', () => {
-    const rows = T.flatMap((t) => [0, 1].map((k) => ({ class: 'X', preparation: 'P', temperatureC: t, v: 10 * Math.pow(1.4, t / 10) * (1 + 0.01 * k), detected: true })));
+    const rows = T.flatMap((t) =>
+      [0, 1].map((k) => ({
+        class: 'X',
+        preparation: 'P',
+        temperatureC: t,
+        v: 10 * Math.pow(1.4, t / 10) * (1 + 0.01 * k),
+        detected: true,
+      })),
+    );
     rows.push(...T.map((t) => ({ class: 'Y', preparation: 'P', temperatureC: t, v: 3, detected: t === 20 })));
     const res = temperatureAnalysis(rows, { measure: 'v' });
-    const x = res.rows.find((r) => r.class === 'X')!, y = res.rows.find((r) => r.class === 'Y')!;
+    const x = res.rows.find((r) => r.class === 'X')!,
+      y = res.rows.find((r) => r.class === 'Y')!;
     expect(x.q10 as number).toBeCloseTo(1.4, 2);
     expect(y.status).toBe('not detected');
     expect(y.q10).toBeNull();
@@ -187,11 +292,22 @@ describe('dose-response uses only what was measured, per site', () => {
   const concs = [0, 1, 3, 10, 30, 100, 300, 1000];
   const hill = (c: number, ic: number, n: number) => 1 / (1 + Math.pow(c / ic, n));
   const rowsFor = (cls: string, mm: number, ic: number, detect: (c: number) => boolean) =>
-    concs.flatMap((c) => [0, 1].map((k) => ({ preparation: 'P1', class: cls, distanceMm: mm, concentration: c, repeat: k, amplitude_uV: 100 * hill(c, ic, 1) * (1 + 0.01 * (k ? 1 : -1)), detected: detect(c) })));
+    concs.flatMap((c) =>
+      [0, 1].map((k) => ({
+        preparation: 'P1',
+        class: cls,
+        distanceMm: mm,
+        concentration: c,
+        repeat: k,
+        amplitude_uV: 100 * hill(c, ic, 1) * (1 + 0.01 * (k ? 1 : -1)),
+        detected: detect(c),
+      })),
+    );
   it('one curve per site unless sites are pooled', () => {
     const rows = [...rowsFor('A', 15, 30, () => true), ...rowsFor('A', 25, 60, () => true)];
     const dr = doseResponse(rows, 'uV');
-    const s15 = dr.summary.find((r) => r.distanceMm === 15)!, s25 = dr.summary.find((r) => r.distanceMm === 25)!;
+    const s15 = dr.summary.find((r) => r.distanceMm === 15)!,
+      s25 = dr.summary.find((r) => r.distanceMm === 25)!;
     expect(s15.ic50 as number).toBeCloseTo(30, 0);
     expect(s25.ic50 as number).toBeCloseTo(60, 0);
     const pooled = doseResponse(rows, 'uV', { poolSites: true });
@@ -199,7 +315,10 @@ describe('dose-response uses only what was measured, per site', () => {
     expect(pooled.summary[0].distanceMm).toBeUndefined();
   });
   it('undetected sweeps are left out and counted; the bottom is fixed at 0 when the top concentrations were not measured', () => {
-    const dr = doseResponse(rowsFor('A', 15, 30, (c) => c < 300), 'uV');
+    const dr = doseResponse(
+      rowsFor('A', 15, 30, (c) => c < 300),
+      'uV',
+    );
     const s = dr.summary[0];
     expect(s.excluded_not_measured).toBe(4);
     expect(s.points).toBe(5);
@@ -226,9 +345,22 @@ describe('dose-response uses only what was measured, per site', () => {
 describe('recruitment uses only what was measured', () => {
   const I = [0, 0.05, 0.1, 0.2, 0.4, 0.8, 1.6, 3.2];
   const boltz = (i: number) => 100 / (1 + Math.exp(-(Math.log10(i) - Math.log10(0.4)) / 0.1));
-  const rows = (cls: string, detect: (i: number) => boolean) => I.flatMap((i) => [0, 1].map((k) => ({ preparation: 'P', distanceMm: 15, class: cls, intensity: i, amplitude_uV: i > 0 ? boltz(i) * (1 + 0.01 * (k ? 1 : -1)) : 0.5, detected: detect(i) })));
+  const rows = (cls: string, detect: (i: number) => boolean) =>
+    I.flatMap((i) =>
+      [0, 1].map((k) => ({
+        preparation: 'P',
+        distanceMm: 15,
+        class: cls,
+        intensity: i,
+        amplitude_uV: i > 0 ? boltz(i) * (1 + 0.01 * (k ? 1 : -1)) : 0.5,
+        detected: detect(i),
+      })),
+    );
   it('intensities <= 0 and undetected sweeps are left out and counted, not dropped silently', () => {
-    const r = recruitment(rows('A', (i) => i >= 0.1), 'uV').rows[0];
+    const r = recruitment(
+      rows('A', (i) => i >= 0.1),
+      'uV',
+    ).rows[0];
     expect(r.excluded_nonpositive_intensity).toBe(2);
     expect(r.excluded_not_measured).toBe(2);
     expect(String(r.status)).toMatch(/2 sweep\(s\) with intensity <= 0 left out/);
@@ -236,7 +368,9 @@ describe('recruitment uses only what was measured', () => {
     expect(r.i50 as number).toBeCloseTo(0.4, 2);
   });
   it('a class never detected is "not detected" (as the thresholds say), with no numbers', () => {
-    const r = recruitment([...rows('A', () => true), ...rows('B', () => false)], 'uV').rows.find((q) => q.class === 'B')!;
+    const r = recruitment([...rows('A', () => true), ...rows('B', () => false)], 'uV').rows.find(
+      (q) => q.class === 'B',
+    )!;
     expect(r.status).toBe('not detected');
     expect(r.i50).toBeNull();
     expect(r.threshold).toBeNull();
@@ -244,14 +378,35 @@ describe('recruitment uses only what was measured', () => {
 });
 
 describe('one bad velocity never discards good ones', () => {
-  const resolved = { preset: PRESETS.mammalian, classes: PRESETS.mammalian.classes, q10: 1.4, utilisationMs: 0 } as never;
+  const resolved = {
+    preset: PRESETS.mammalian,
+    classes: PRESETS.mammalian.classes,
+    q10: 1.4,
+    utilisationMs: 0,
+  } as never;
   // two sites 20 and 30 mm at 37 C; A-alpha/beta at 80 m/s, C at 1 m/s (latency = u + d / v)
-  const row = (cls: string, mm: number, k: number, lat: number) => ({ sweep: (mm === 20 ? 0 : 4) + k, class: cls, detected: true, polarity: 1, preparation: 'P', temperatureC: 37, temperature_C: 37, distanceMm: mm, distance_mm: mm, repeat: k, peak_ms: lat + 0.001 * k });
-  const good = (u: number) => [20, 30].flatMap((mm) => [0, 1, 2, 3].flatMap((k) => [row('A-alpha/beta', mm, k, u + mm / 80), row('C', mm, k, u + mm / 1)]));
+  const row = (cls: string, mm: number, k: number, lat: number) => ({
+    sweep: (mm === 20 ? 0 : 4) + k,
+    class: cls,
+    detected: true,
+    polarity: 1,
+    preparation: 'P',
+    temperatureC: 37,
+    temperature_C: 37,
+    distanceMm: mm,
+    distance_mm: mm,
+    repeat: k,
+    peak_ms: lat + 0.001 * k,
+  });
+  const good = (u: number) =>
+    [20, 30].flatMap((mm) =>
+      [0, 1, 2, 3].flatMap((k) => [row('A-alpha/beta', mm, k, u + mm / 80), row('C', mm, k, u + mm / 1)]),
+    );
   it('a velocity outside every fibre range is a rejected row; the other class keeps its number', () => {
     const rows = good(0.2).map((r) => (r.class === 'A-alpha/beta' ? { ...r, peak_ms: 1 + r.distance_mm / 2000 } : r));
     const v = regressionVelocity(rows as never, ['preparation', 'temperatureC'], resolved);
-    const a = v.find((r) => r.class === 'A-alpha/beta' && r.basis === 'peak')!, c = v.find((r) => r.class === 'C' && r.basis === 'peak')!;
+    const a = v.find((r) => r.class === 'A-alpha/beta' && r.basis === 'peak')!,
+      c = v.find((r) => r.class === 'C' && r.basis === 'peak')!;
     expect(a.status).toBe('implausible');
     expect(a.velocity_m_s).toBeNull();
     expect(a.rejected_velocity_m_s as number).toBeCloseTo(2000, -1);
@@ -265,7 +420,9 @@ describe('one bad velocity never discards good ones', () => {
     const c = v.find((r) => r.class === 'C')!;
     expect(c.status).toBe('implausible');
     expect(c.reason).toMatch(/utilisation time\) is -11\.\d+ ms/);
-    const slow = good(0.2).map((r) => (r.class === 'A-alpha/beta' ? { ...r, peak_ms: 0.2 + r.distance_mm / 38 + 0.001 * (r.repeat as number) } : r));
+    const slow = good(0.2).map((r) =>
+      r.class === 'A-alpha/beta' ? { ...r, peak_ms: 0.2 + r.distance_mm / 38 + 0.001 * (r.repeat as number) } : r,
+    );
     const a = regressionVelocity(slow as never, ['preparation'], resolved).find((r) => r.class === 'A-alpha/beta')!;
     expect(a.status).toBe('outside class range');
     expect(a.velocity_m_s as number).toBeCloseTo(38, 0);
@@ -273,12 +430,33 @@ describe('one bad velocity never discards good ones', () => {
   });
   it('two-site: a delay of one sample is not a velocity (left out, counted); pairs follow the conditions, not the order', () => {
     const fs = 50000;
-    const rows = good(0.2).map((r) => (r.class === 'A-alpha/beta' && r.distance_mm === 30 ? { ...r, peak_ms: 0.2 + 20 / 80 + 0.001 * (r.repeat as number) + 1000 / fs } : r));
-    const conditions = [20, 30].flatMap((mm) => [0, 1, 2, 3].map((k) => ({ preparation: 'P', temperatureC: 37, distanceMm: mm, repeat: k, file: `site${mm}` })));
-    const set = new SweepSet({ data: new Float64Array(8 * 10), nSweeps: 8, nSamples: 10, fs, t0Ms: 0, units: 'uV', conditions });
+    const rows = good(0.2).map((r) =>
+      r.class === 'A-alpha/beta' && r.distance_mm === 30
+        ? { ...r, peak_ms: 0.2 + 20 / 80 + 0.001 * (r.repeat as number) + 1000 / fs }
+        : r,
+    );
+    const conditions = [20, 30].flatMap((mm) =>
+      [0, 1, 2, 3].map((k) => ({ preparation: 'P', temperatureC: 37, distanceMm: mm, repeat: k, file: `site${mm}` })),
+    );
+    const set = new SweepSet({
+      data: new Float64Array(8 * 10),
+      nSweeps: 8,
+      nSamples: 10,
+      fs,
+      t0Ms: 0,
+      units: 'uV',
+      conditions,
+    });
     // the far site's rows in reverse order: pairing by the repeat condition must still match them
-    const v = twoSiteVelocity(set, [...rows.filter((r) => r.distance_mm === 20), ...rows.filter((r) => r.distance_mm === 30).reverse()] as never, [], resolved, ['preparation', 'temperatureC']);
-    const a = v.find((r) => r.class === 'A-alpha/beta' && r.basis === 'peak')!, c = v.find((r) => r.class === 'C' && r.basis === 'peak')!;
+    const v = twoSiteVelocity(
+      set,
+      [...rows.filter((r) => r.distance_mm === 20), ...rows.filter((r) => r.distance_mm === 30).reverse()] as never,
+      [],
+      resolved,
+      ['preparation', 'temperatureC'],
+    );
+    const a = v.find((r) => r.class === 'A-alpha/beta' && r.basis === 'peak')!,
+      c = v.find((r) => r.class === 'C' && r.basis === 'peak')!;
     expect(a.status).toBe('implausible');
     expect(a.velocity_m_s).toBeNull();
     expect(a.excluded_pairs).toBe(4);
@@ -299,23 +477,47 @@ describe('pipeline: averaging of repeats and several artifact steps', () => {
   const mk = (conds: Record<string, string | number>[]) => {
     const n = 200;
     const data = new Float64Array(conds.length * n);
-    conds.forEach((c, s) => { for (let i = 0; i < n; i++) data[s * n + i] = (c.repeat as number) * 2 + (i === 150 ? 10 : 0); });
-    return new SweepSet({ data, nSweeps: conds.length, nSamples: n, fs: 10000, t0Ms: -5, units: 'uV', conditions: conds });
+    conds.forEach((c, s) => {
+      for (let i = 0; i < n; i++) data[s * n + i] = (c.repeat as number) * 2 + (i === 150 ? 10 : 0);
+    });
+    return new SweepSet({
+      data,
+      nSweeps: conds.length,
+      nSamples: n,
+      fs: 10000,
+      t0Ms: -5,
+      units: 'uV',
+      conditions: conds,
+    });
   };
   it('averages the repeats of each condition, keeps the shared conditions, and leaves sets without repeats alone', () => {
-    const set = mk([0, 1, 2, 3].flatMap((k) => [{ preparation: 'P', intensity: 1, repeat: k, fileSweep: k }, { preparation: 'P', intensity: 2, repeat: k, fileSweep: 4 + k }]));
+    const set = mk(
+      [0, 1, 2, 3].flatMap((k) => [
+        { preparation: 'P', intensity: 1, repeat: k, fileSweep: k },
+        { preparation: 'P', intensity: 2, repeat: k, fileSweep: 4 + k },
+      ]),
+    );
     const a = averageRepeats(set);
     expect(a.nSweeps).toBe(2);
     expect(a.conditions.map((c) => c.intensity)).toEqual([1, 2]);
     expect(a.conditions[0].count).toBe(4);
     expect(a.sweep(0)[0]).toBeCloseTo(3, 12); // mean of 0, 2, 4, 6
     expect(a.history[a.history.length - 1].verb).toBe('averageRepeats');
-    const once = mk([{ preparation: 'P', intensity: 1, repeat: 0 }, { preparation: 'P', intensity: 2, repeat: 0 }]);
+    const once = mk([
+      { preparation: 'P', intensity: 1, repeat: 0 },
+      { preparation: 'P', intensity: 2, repeat: 0 },
+    ]);
     expect(averageRepeats(once)).toBe(once);
   });
   it('applies several artifact steps in order, and names a bad one', () => {
     const set = mk([{ preparation: 'P', repeat: 0 }]);
-    const c = condition(set, { baseline: false, artifact: [{ method: 'blank', window: [0, 0.5] }, { method: 'blank', window: [9, 10] }] });
+    const c = condition(set, {
+      baseline: false,
+      artifact: [
+        { method: 'blank', window: [0, 0.5] },
+        { method: 'blank', window: [9, 10] },
+      ],
+    });
     expect(c.history.filter((h) => h.verb === 'removeArtifact').length).toBe(2);
     expect(c.sweep(0)[150]).toBe(0); // 10 ms -> index 150, blanked by the second step
     expect(() => condition(set, { artifact: [{ method: 'blank' }, 3 as never] })).toThrow(/invalid artifact\[1\]/);
@@ -325,7 +527,15 @@ describe('pipeline: averaging of repeats and several artifact steps', () => {
 describe('dose-response: a wave far from the baseline latency is not the class', () => {
   it('a sweep whose peak moved by more than half the baseline latency is left out and counted', () => {
     const concs = [0, 1, 3, 10, 30, 100, 300, 1000];
-    const rows = concs.map((c) => ({ preparation: 'P', class: 'C', distanceMm: 15, concentration: c, detected: true, amplitude_uV: c === 1000 ? 30 : 100 / (1 + c / 30), peak_ms: c === 1000 ? 8 : 19.3 }));
+    const rows = concs.map((c) => ({
+      preparation: 'P',
+      class: 'C',
+      distanceMm: 15,
+      concentration: c,
+      detected: true,
+      amplitude_uV: c === 1000 ? 30 : 100 / (1 + c / 30),
+      peak_ms: c === 1000 ? 8 : 19.3,
+    }));
     const s = doseResponse(rows, 'uV').summary[0];
     expect(s.excluded_latency_shift).toBe(1);
     expect(s.ic50 as number).toBeCloseTo(30, 0);
@@ -340,36 +550,94 @@ describe('runPipeline: one bad estimate never discards good ones (forward model,
   // cannot be a velocity, while C (~0.5 ms) is well resolved; the pipeline must keep C and flag A
   it('flags the unresolved fast class with a reason, keeps the slow class, and counts what was computed', () => {
     const nerve = model.rodentSciatic();
-    const sweeps = [20, 20.5].flatMap((d) => [0, 1, 2].map((k) => ({ intensity: 50, distanceMm: d, temperatureC: 37, concentration: 0, conditions: { preparation: 'P1', repeat: k } })));
-    const set = model.simulateNerve({ model: nerve, seed: 7, grid: { fs: 50000, t0Ms: -2, nSamples: 3000 }, sweeps, nuisance: { noiseUv: 2 } });
+    const sweeps = [20, 20.5].flatMap((d) =>
+      [0, 1, 2].map((k) => ({
+        intensity: 50,
+        distanceMm: d,
+        temperatureC: 37,
+        concentration: 0,
+        conditions: { preparation: 'P1', repeat: k },
+      })),
+    );
+    const set = model.simulateNerve({
+      model: nerve,
+      seed: 7,
+      grid: { fs: 50000, t0Ms: -2, nSamples: 3000 },
+      sweeps,
+      nuisance: { noiseUv: 2 },
+    });
     const r = runPipeline(set, { averageRepeats: false });
     const two = r.velocity!.rows.filter((q) => q.method === 'two-site' && q.basis === 'peak');
-    const a = two.find((q) => q.class === 'A-alpha/beta')!, c = two.find((q) => q.class === 'C')!;
+    const a = two.find((q) => q.class === 'A-alpha/beta')!,
+      c = two.find((q) => q.class === 'C')!;
     expect(a.velocity_m_s).toBeNull();
     expect(a.status).toBe('implausible');
     expect(String(a.reason)).toMatch(/shorter than 2 sample intervals|delay not positive/);
     expect(c.velocity_m_s as number).toBeGreaterThan(0.3);
     expect(c.velocity_m_s as number).toBeLessThan(3);
-    expect(r.flags.some((f) => f.analysis === 'velocity' && f.class === 'A-alpha/beta' && f.severity === 'rejected')).toBe(true);
+    expect(
+      r.flags.some((f) => f.analysis === 'velocity' && f.class === 'A-alpha/beta' && f.severity === 'rejected'),
+    ).toBe(true);
     expect(computedCount({ velocity: r.velocity!.rows as never })).toBeGreaterThan(0);
   });
 });
 
 describe('three recording sites', () => {
   it('two-site rows for neighbouring sites and the outermost pair; only the outermost is recommended', () => {
-    const resolved = { preset: PRESETS.mammalian, classes: PRESETS.mammalian.classes, q10: 1.4, utilisationMs: 0 } as never;
+    const resolved = {
+      preset: PRESETS.mammalian,
+      classes: PRESETS.mammalian.classes,
+      q10: 1.4,
+      utilisationMs: 0,
+    } as never;
     const dists = [10, 20, 30];
-    const rows = dists.flatMap((mm, i) => [0, 1].map((k) => ({ sweep: 2 * i + k, class: 'C', detected: true, polarity: 1, preparation: 'P', temperatureC: 37, temperature_C: 37, distanceMm: mm, distance_mm: mm, repeat: k, centroid_ms: 0.3 + mm / 1.2 + 0.01 * k })));
-    const conditions = rows.map((r) => ({ preparation: 'P', temperatureC: 37, distanceMm: r.distance_mm, repeat: r.repeat }));
-    const set = new SweepSet({ data: new Float64Array(6 * 10), nSweeps: 6, nSamples: 10, fs: 20000, t0Ms: 0, units: 'uV', conditions });
-    const v = markRecommended(twoSiteVelocity(set, rows as never, [], resolved, ['preparation']).filter((r) => r.basis === 'centroid'), PRESETS.mammalian.classes);
+    const rows = dists.flatMap((mm, i) =>
+      [0, 1].map((k) => ({
+        sweep: 2 * i + k,
+        class: 'C',
+        detected: true,
+        polarity: 1,
+        preparation: 'P',
+        temperatureC: 37,
+        temperature_C: 37,
+        distanceMm: mm,
+        distance_mm: mm,
+        repeat: k,
+        centroid_ms: 0.3 + mm / 1.2 + 0.01 * k,
+      })),
+    );
+    const conditions = rows.map((r) => ({
+      preparation: 'P',
+      temperatureC: 37,
+      distanceMm: r.distance_mm,
+      repeat: r.repeat,
+    }));
+    const set = new SweepSet({
+      data: new Float64Array(6 * 10),
+      nSweeps: 6,
+      nSamples: 10,
+      fs: 20000,
+      t0Ms: 0,
+      units: 'uV',
+      conditions,
+    });
+    const v = markRecommended(
+      twoSiteVelocity(set, rows as never, [], resolved, ['preparation']).filter((r) => r.basis === 'centroid'),
+      PRESETS.mammalian.classes,
+    );
     expect(v.map((r) => `${r.near_mm}-${r.far_mm}`).sort()).toEqual(['10-20', '10-30', '20-30']);
     for (const r of v) expect(r.velocity_m_s as number).toBeCloseTo(1.2, 6);
     expect(v.filter((r) => r.recommended).length).toBe(0); // C's recommended estimator is the regression of centroid latency
-    const reg = markRecommended(regressionVelocity(rows as never, ['preparation'], resolved), PRESETS.mammalian.classes).find((r) => r.basis === 'centroid')!;
+    const reg = markRecommended(
+      regressionVelocity(rows as never, ['preparation'], resolved),
+      PRESETS.mammalian.classes,
+    ).find((r) => r.basis === 'centroid')!;
     expect(reg.recommended).toBe(true);
     expect(reg.velocity_m_s as number).toBeCloseTo(1.2, 6);
-    const xa = markRecommended(v.map((r) => ({ ...r, class: 'A-delta', basis: 'xcorr' as const })), PRESETS.mammalian.classes);
+    const xa = markRecommended(
+      v.map((r) => ({ ...r, class: 'A-delta', basis: 'xcorr' as const })),
+      PRESETS.mammalian.classes,
+    );
     expect(xa.filter((r) => r.recommended).map((r) => `${r.near_mm}-${r.far_mm}`)).toEqual(['10-30']);
   });
 });
@@ -377,12 +645,52 @@ describe('three recording sites', () => {
 describe('methods text', () => {
   it('names each latency definition, the main phase per class, the recommended estimators and the flags policy', () => {
     const t = methodsText([
-      { verb: 'components', version: '', options: { classes: [{ name: 'A', velocity: [10, 20] }], presetSource: 's', q10: 1.4, refTemperatureC: 37, utilisationMs: 0, tailFraction: 0.5, tailMs: 0.5, noiseWindow: [-2, -0.1], k: 4, onsetFraction: 0.1, centroidFraction: 0.1, separation: 'auto', polarities: { A: -1 }, polaritySource: { A: 'option' } } },
+      {
+        verb: 'components',
+        version: '',
+        options: {
+          classes: [{ name: 'A', velocity: [10, 20] }],
+          presetSource: 's',
+          q10: 1.4,
+          refTemperatureC: 37,
+          utilisationMs: 0,
+          tailFraction: 0.5,
+          tailMs: 0.5,
+          noiseWindow: [-2, -0.1],
+          k: 4,
+          onsetFraction: 0.1,
+          centroidFraction: 0.1,
+          separation: 'auto',
+          polarities: { A: -1 },
+          polaritySource: { A: 'option' },
+        },
+      },
       { verb: 'averageRepeats', version: '', options: { method: 'mean', sweeps: 8, groups: 2 } },
-      { verb: 'velocity', version: '', options: { recommended: { fastest: { method: 'regression', basis: 'peak' }, unmyelinated: { method: 'regression', basis: 'centroid' }, other: { method: 'two-site', basis: 'xcorr' } } } },
+      {
+        verb: 'velocity',
+        version: '',
+        options: {
+          recommended: {
+            fastest: { method: 'regression', basis: 'peak' },
+            unmyelinated: { method: 'regression', basis: 'centroid' },
+            other: { method: 'two-site', basis: 'xcorr' },
+          },
+        },
+      },
     ]);
-    for (const re of [/10% of its own peak/, /half-rise/, /peak latency/, /centroid latency/, /A negative \(set by the user\)/, /averaged \(mean\) before measuring \(8 sweeps into 2\)/,
-      /fastest class, the regression of peak latency on distance/, /unmyelinated classes, the regression of centroid latency/, /cross-correlation of its own component/,
-      /not reported as velocities but flagged with a reason/, /shorter than 2 sample intervals/]) expect(t).toMatch(re);
+    for (const re of [
+      /10% of its own peak/,
+      /half-rise/,
+      /peak latency/,
+      /centroid latency/,
+      /A negative \(set by the user\)/,
+      /averaged \(mean\) before measuring \(8 sweeps into 2\)/,
+      /fastest class, the regression of peak latency on distance/,
+      /unmyelinated classes, the regression of centroid latency/,
+      /cross-correlation of its own component/,
+      /not reported as velocities but flagged with a reason/,
+      /shorter than 2 sample intervals/,
+    ])
+      expect(t).toMatch(re);
   });
 });

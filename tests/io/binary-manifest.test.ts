@@ -21,7 +21,22 @@ describe('readBinary(sidecar)', () => {
   it('reads int16 with gain and offset, interleaved channels', () => {
     // 2 sweeps x 3 samples x 2 channels, interleaved [sweep][sample][channel]
     const raw = new Int16Array([1, 100, 2, 200, 3, 300, 4, 400, 5, 500, 6, 600]);
-    const p = sidecar({ dtype: 'int16', layout: 'interleaved', nSweeps: 2, nSamples: 3, nChannels: 2, channel: 1, gain: 0.5, offset: 1, fs: 10000, t0Ms: -0.2, units: 'uV' }, new Uint8Array(raw.buffer));
+    const p = sidecar(
+      {
+        dtype: 'int16',
+        layout: 'interleaved',
+        nSweeps: 2,
+        nSamples: 3,
+        nChannels: 2,
+        channel: 1,
+        gain: 0.5,
+        offset: 1,
+        fs: 10000,
+        t0Ms: -0.2,
+        units: 'uV',
+      },
+      new Uint8Array(raw.buffer),
+    );
     const s = readBinary(p);
     expect([...s.sweep(0)]).toEqual([51, 101, 151]);
     expect([...s.sweep(1)]).toEqual([201, 251, 301]);
@@ -29,37 +44,79 @@ describe('readBinary(sidecar)', () => {
   });
   it('reads float32 sweep-major and big-endian float64 exactly', () => {
     const f = new Float32Array([0.5, -1.25, 3, 4]);
-    expect([...readBinary(sidecar({ dtype: 'float32', nSweeps: 2, nSamples: 2, fs: 1000, units: 'mV' }, new Uint8Array(f.buffer))).data]).toEqual([0.5, -1.25, 3, 4]);
+    expect([
+      ...readBinary(
+        sidecar({ dtype: 'float32', nSweeps: 2, nSamples: 2, fs: 1000, units: 'mV' }, new Uint8Array(f.buffer)),
+      ).data,
+    ]).toEqual([0.5, -1.25, 3, 4]);
     const dv = new DataView(new ArrayBuffer(16));
     dv.setFloat64(0, Math.PI, false);
     dv.setFloat64(8, -Math.E, false);
-    expect([...readBinary(sidecar({ dtype: 'float64', byteOrder: 'big', nSweeps: 1, nSamples: 2, fs: 1000, units: 'V' }, new Uint8Array(dv.buffer))).data]).toEqual([Math.PI, -Math.E]);
+    expect([
+      ...readBinary(
+        sidecar(
+          { dtype: 'float64', byteOrder: 'big', nSweeps: 1, nSamples: 2, fs: 1000, units: 'V' },
+          new Uint8Array(dv.buffer),
+        ),
+      ).data,
+    ]).toEqual([Math.PI, -Math.E]);
   });
   it('names the file and the expected size when the data file is the wrong length', () => {
     const p = sidecar({ dtype: 'float32', nSweeps: 2, nSamples: 4, fs: 1000, units: 'mV' }, new Uint8Array(12));
-    expect(() => readBinary(p)).toThrow(/has 12 bytes; expected 32 bytes = 2 sweeps x 4 samples x 1 channels x 4 bytes/);
+    expect(() => readBinary(p)).toThrow(
+      /has 12 bytes; expected 32 bytes = 2 sweeps x 4 samples x 1 channels x 4 bytes/,
+    );
   });
   it('names the sidecar field that is wrong', () => {
-    expect(() => readBinary(sidecar({ dtype: 'int8', nSweeps: 1, nSamples: 2, fs: 1, units: 'mV' }, new Uint8Array(2)))).toThrow(/field dtype: unknown dtype "int8"/);
-    expect(() => readBinary(sidecar({ dtype: 'int16', nSweeps: 1, nSamples: 2, fs: 1, units: 'volts' }, new Uint8Array(4)))).toThrow(/field units/);
-    expect(() => readBinary(sidecar({ dtype: 'int16', nSweeps: 1, nSamples: 2, fs: -5, units: 'mV' }, new Uint8Array(4)))).toThrow(/field fs/);
+    expect(() =>
+      readBinary(sidecar({ dtype: 'int8', nSweeps: 1, nSamples: 2, fs: 1, units: 'mV' }, new Uint8Array(2))),
+    ).toThrow(/field dtype: unknown dtype "int8"/);
+    expect(() =>
+      readBinary(sidecar({ dtype: 'int16', nSweeps: 1, nSamples: 2, fs: 1, units: 'volts' }, new Uint8Array(4))),
+    ).toThrow(/field units/);
+    expect(() =>
+      readBinary(sidecar({ dtype: 'int16', nSweeps: 1, nSamples: 2, fs: -5, units: 'mV' }, new Uint8Array(4))),
+    ).toThrow(/field fs/);
   });
   it('rejects NaN samples, naming the sweep', () => {
     const f = new Float32Array([1, 2, 3, NaN]);
-    expect(() => readBinary(sidecar({ dtype: 'float32', nSweeps: 2, nSamples: 2, fs: 1000, units: 'mV' }, new Uint8Array(f.buffer)))).toThrow(/sweep 1: a non-finite sample/);
+    expect(() =>
+      readBinary(
+        sidecar({ dtype: 'float32', nSweeps: 2, nSamples: 2, fs: 1000, units: 'mV' }, new Uint8Array(f.buffer)),
+      ),
+    ).toThrow(/sweep 1: a non-finite sample/);
   });
   it('rejects an infinity (also +Inf next to -Inf), and accepts huge finite values whose sum overflows', () => {
     const f = new Float32Array([1, Infinity, -Infinity, 4]);
-    expect(() => readBinary(sidecar({ dtype: 'float32', nSweeps: 2, nSamples: 2, fs: 1000, units: 'mV' }, new Uint8Array(f.buffer)))).toThrow(/sweep 0: a non-finite sample \(Infinity\) at sample 1/);
+    expect(() =>
+      readBinary(
+        sidecar({ dtype: 'float32', nSweeps: 2, nSamples: 2, fs: 1000, units: 'mV' }, new Uint8Array(f.buffer)),
+      ),
+    ).toThrow(/sweep 0: a non-finite sample \(Infinity\) at sample 1/);
     const g = new Float64Array([1e308, 1e308, 1e308, -1e308]);
-    expect([...readBinary(sidecar({ dtype: 'float64', nSweeps: 2, nSamples: 2, fs: 1000, units: 'mV' }, new Uint8Array(g.buffer))).data]).toEqual([...g]);
+    expect([
+      ...readBinary(
+        sidecar({ dtype: 'float64', nSweeps: 2, nSamples: 2, fs: 1000, units: 'mV' }, new Uint8Array(g.buffer)),
+      ).data,
+    ]).toEqual([...g]);
   });
   it('round-trips random float64 data exactly (property)', () => {
-    fc.assert(fc.property(fc.array(fc.double({ noNaN: true, noDefaultInfinity: true }), { minLength: 6, maxLength: 60 }).filter((a) => a.length % 2 === 0), (vals) => {
-      const p = sidecar({ dtype: 'float64', nSweeps: 2, nSamples: vals.length / 2, fs: 5000, units: 'mV' }, new Uint8Array(Float64Array.from(vals).buffer));
-      const s = readBinary(p);
-      return vals.every((v, i) => Object.is(s.data[i], v) || (v === 0 && s.data[i] === 0));
-    }), { numRuns: 50 });
+    fc.assert(
+      fc.property(
+        fc
+          .array(fc.double({ noNaN: true, noDefaultInfinity: true }), { minLength: 6, maxLength: 60 })
+          .filter((a) => a.length % 2 === 0),
+        (vals) => {
+          const p = sidecar(
+            { dtype: 'float64', nSweeps: 2, nSamples: vals.length / 2, fs: 5000, units: 'mV' },
+            new Uint8Array(Float64Array.from(vals).buffer),
+          );
+          const s = readBinary(p);
+          return vals.every((v, i) => Object.is(s.data[i], v) || (v === 0 && s.data[i] === 0));
+        },
+      ),
+      { numRuns: 50 },
+    );
   });
 });
 
@@ -75,9 +132,15 @@ describe('readManifest(path)', () => {
   };
   it('joins files with their conditions and converts units', () => {
     const p = manifest({
-      fascicleManifest: 1, study: 'x', defaults: { temperatureC: 37 },
+      fascicleManifest: 1,
+      study: 'x',
+      defaults: { temperatureC: 37 },
       files: [
-        { path: 'p1.csv', conditions: { preparation: 'N1', distanceMm: 10 }, sweeps: [{ intensity: 0.1 }, { intensity: 0.2 }] },
+        {
+          path: 'p1.csv',
+          conditions: { preparation: 'N1', distanceMm: 10 },
+          sweeps: [{ intensity: 0.1 }, { intensity: 0.2 }],
+        },
         { path: 'p2.csv', conditions: { preparation: 'N2', distanceMm: 12 } },
       ],
     });
@@ -90,26 +153,54 @@ describe('readManifest(path)', () => {
     expect(s.sources.length).toBe(3);
   });
   it('rejects disagreeing sample rates, naming both files', () => {
-    const p = manifest({ fascicleManifest: 1, files: [{ path: 'p1.csv', conditions: { preparation: 'A' } }, { path: 'p3.csv', conditions: { preparation: 'B' } }] });
+    const p = manifest({
+      fascicleManifest: 1,
+      files: [
+        { path: 'p1.csv', conditions: { preparation: 'A' } },
+        { path: 'p3.csv', conditions: { preparation: 'B' } },
+      ],
+    });
     expect(() => readManifest(p)).toThrow(/p3\.csv: sample rate 5000 Hz differs from 10000 Hz in .*p1\.csv/);
   });
   it('rejects a sweep without a required condition', () => {
-    const p = manifest({ fascicleManifest: 1, required: ['preparation', 'distanceMm'], files: [{ path: 'p1.csv', conditions: { preparation: 'A' } }] });
+    const p = manifest({
+      fascicleManifest: 1,
+      required: ['preparation', 'distanceMm'],
+      files: [{ path: 'p1.csv', conditions: { preparation: 'A' } }],
+    });
     expect(() => readManifest(p)).toThrow(/p1\.csv, sweep 0: condition "distanceMm" is missing/);
   });
   it('rejects a manifest that does not match the schema, naming the field', () => {
-    expect(() => readManifest(manifest({ fascicleManifest: 1, files: [{ path: 'p1.csv', conditions: { temperatureC: 'warm' } }] }))).toThrow(InputError);
-    expect(() => readManifest(manifest({ fascicleManifest: 1, files: [{ path: 'p1.csv', conditions: { temperatureC: 'warm' } }] }))).toThrow(/\/files\/0\/conditions\/temperatureC must be number/);
-    expect(() => readManifest(manifest({ fascicleManifest: 2, files: [] }))).toThrow(/does not match the manifest schema/);
-    expect(() => readManifest(manifest({ fascicleManifest: 1, files: [{ path: 'p1.csv', sweeps: [{}] }] }))).toThrow(/1 sweep entries for p1.csv, which has 2 sweeps/);
+    expect(() =>
+      readManifest(
+        manifest({ fascicleManifest: 1, files: [{ path: 'p1.csv', conditions: { temperatureC: 'warm' } }] }),
+      ),
+    ).toThrow(InputError);
+    expect(() =>
+      readManifest(
+        manifest({ fascicleManifest: 1, files: [{ path: 'p1.csv', conditions: { temperatureC: 'warm' } }] }),
+      ),
+    ).toThrow(/\/files\/0\/conditions\/temperatureC must be number/);
+    expect(() => readManifest(manifest({ fascicleManifest: 2, files: [] }))).toThrow(
+      /does not match the manifest schema/,
+    );
+    expect(() => readManifest(manifest({ fascicleManifest: 1, files: [{ path: 'p1.csv', sweeps: [{}] }] }))).toThrow(
+      /1 sweep entries for p1.csv, which has 2 sweeps/,
+    );
   });
-  it('records each file as the manifest names it, so a copied study gives the same conditions; a preparation keeps its sidecar\'s data file in its sources', () => {
+  it("records each file as the manifest names it, so a copied study gives the same conditions; a preparation keeps its sidecar's data file in its sources", () => {
     const raw = new Float64Array([1, 2, 3, 4, 5, 6]);
     for (const sub of ['copyA', 'copyB']) {
       mkdirSync(join(dir, sub), { recursive: true });
       writeFileSync(join(dir, sub, 'rec-data.bin'), new Uint8Array(raw.buffer));
-      writeFileSync(join(dir, sub, 'rec.json'), JSON.stringify({ data: 'rec-data.bin', dtype: 'float64', nSweeps: 2, nSamples: 3, fs: 10000, units: 'mV' }));
-      writeFileSync(join(dir, sub, 'study.json'), JSON.stringify({ fascicleManifest: 1, files: [{ path: 'rec.json', conditions: { preparation: 'Q1' } }] }));
+      writeFileSync(
+        join(dir, sub, 'rec.json'),
+        JSON.stringify({ data: 'rec-data.bin', dtype: 'float64', nSweeps: 2, nSamples: 3, fs: 10000, units: 'mV' }),
+      );
+      writeFileSync(
+        join(dir, sub, 'study.json'),
+        JSON.stringify({ fascicleManifest: 1, files: [{ path: 'rec.json', conditions: { preparation: 'Q1' } }] }),
+      );
     }
     const a = readManifest(join(dir, 'copyA', 'study.json'));
     const b = readManifest(join(dir, 'copyB', 'study.json'));
@@ -124,14 +215,29 @@ describe('readManifest(path)', () => {
   });
   it('conditions must be strings, finite numbers, booleans or null: sidecar, manifest (1e400 overflows to Infinity) and API', () => {
     const bytes = new Uint8Array(new Float32Array(4).buffer);
-    expect(() => readBinary(sidecar({ dtype: 'float32', nSweeps: 2, nSamples: 2, fs: 1000, units: 'uV', conditions: 'abc' }, bytes))).toThrow(/field conditions: conditions are "abc"/);
-    expect(() => readBinary(sidecar({ dtype: 'float32', nSweeps: 2, nSamples: 2, fs: 1000, units: 'uV', sweeps: [{}, { y: [1] }] }, bytes))).toThrow(/field sweeps\/1: condition "y" is an array/);
-    expect(() => readBinary(sidecar({ dtype: 'toString', nSweeps: 2, nSamples: 2, fs: 1000, units: 'uV' }, bytes))).toThrow(/unknown dtype "toString"/);
+    expect(() =>
+      readBinary(
+        sidecar({ dtype: 'float32', nSweeps: 2, nSamples: 2, fs: 1000, units: 'uV', conditions: 'abc' }, bytes),
+      ),
+    ).toThrow(/field conditions: conditions are "abc"/);
+    expect(() =>
+      readBinary(
+        sidecar({ dtype: 'float32', nSweeps: 2, nSamples: 2, fs: 1000, units: 'uV', sweeps: [{}, { y: [1] }] }, bytes),
+      ),
+    ).toThrow(/field sweeps\/1: condition "y" is an array/);
+    expect(() =>
+      readBinary(sidecar({ dtype: 'toString', nSweeps: 2, nSamples: 2, fs: 1000, units: 'uV' }, bytes)),
+    ).toThrow(/unknown dtype "toString"/);
     const p = sidecar({ dtype: 'float32', nSweeps: 2, nSamples: 2, fs: 1000, units: 'uV' }, bytes);
     const m = join(dir, 'inf-manifest.json');
-    writeFileSync(m, `{"fascicleManifest": 1, "files": [{"path": "${basename(p)}", "conditions": {"preparation": "A", "z": 1e400}}]}`);
+    writeFileSync(
+      m,
+      `{"fascicleManifest": 1, "files": [{"path": "${basename(p)}", "conditions": {"preparation": "A", "z": 1e400}}]}`,
+    );
     expect(() => readManifest(m)).toThrow(/field \/files\/0\/conditions: condition "z" is Infinity/);
-    expect(() => readBinary(p, { conditions: { q: {} as never } })).toThrow(/invalid conditions: condition "q" is an object/);
+    expect(() => readBinary(p, { conditions: { q: {} as never } })).toThrow(
+      /invalid conditions: condition "q" is an object/,
+    );
     writeFileSync(p, '{"data": "x.bin", "dtype": "float32", "nSweeps": 2, "nSamples": 2, "fs": 1e400, "units": "uV"}');
     expect(() => readBinary(p)).toThrow(/field fs: fs is Infinity/);
   });
@@ -141,7 +247,9 @@ describe('readManifest(path)', () => {
     expect(() => readBinary(p)).toThrow(/: this is a folder; expected a regular file/);
   });
   it('names a missing file', () => {
-    expect(() => readManifest(manifest({ fascicleManifest: 1, files: [{ path: 'nope.csv', conditions: { preparation: 'A' } }] }))).toThrow(/nope\.csv: cannot open file \(ENOENT\)/);
+    expect(() =>
+      readManifest(manifest({ fascicleManifest: 1, files: [{ path: 'nope.csv', conditions: { preparation: 'A' } }] })),
+    ).toThrow(/nope\.csv: cannot open file \(ENOENT\)/);
   });
 });
 
@@ -151,7 +259,9 @@ describe('readBinary: a native float32 file is kept as read', () => {
     const dv = new DataView(bytes.buffer, bytes.byteOffset, bytes.byteLength);
     const v = (i: number) => dv.getFloat32(i * 4, little);
     // gain 1 and offset 0 are no arithmetic at all (-0 stays -0, as the loader has always read it)
-    return Float64Array.from({ length: bytes.byteLength / 4 }, (_, i) => (gain === 1 && offset === 0 ? v(i) : v(i) * gain + offset));
+    return Float64Array.from({ length: bytes.byteLength / 4 }, (_, i) =>
+      gain === 1 && offset === 0 ? v(i) : v(i) * gain + offset,
+    );
   };
   const sameBits = (a: ArrayLike<number>, b: ArrayLike<number>) => {
     if (a.length !== b.length) return false;
@@ -159,12 +269,15 @@ describe('readBinary: a native float32 file is kept as read', () => {
     return true;
   };
   // 64 sweeps x 10,000 samples: above the size at which the pool splits the work
-  const S = 64, N = 10000;
+  const S = 64,
+    N = 10000;
   const randomBits = () => {
     const u = new Uint32Array(S * N);
     let x = 0x9e3779b9;
     for (let i = 0; i < u.length; i++) {
-      x ^= x << 13; x ^= x >>> 17; x ^= x << 5;
+      x ^= x << 13;
+      x ^= x >>> 17;
+      x ^= x << 5;
       u[i] = x >>> 0; // every sign and exponent: subnormals about one in 256
       if ((u[i] & 0x7f800000) === 0x7f800000) u[i] ^= 0x00800000; // no NaN or infinity
     }
@@ -172,7 +285,7 @@ describe('readBinary: a native float32 file is kept as read', () => {
     u[6] = 0x00000001; // the smallest subnormal
     return new Uint8Array(u.buffer);
   };
-  it('every value equals the slow reader\'s bit for bit (signed zeros, subnormals, full range), on 1 and 2 threads', async () => {
+  it("every value equals the slow reader's bit for bit (signed zeros, subnormals, full range), on 1 and 2 threads", async () => {
     const bytes = randomBits();
     const p = sidecar({ dtype: 'float32', nSweeps: S, nSamples: N, fs: 20000, units: 'uV' }, bytes);
     const ref = slowRead(bytes, true);
@@ -188,9 +301,32 @@ describe('readBinary: a native float32 file is kept as read', () => {
   }, 60_000);
   it('the same processing gives the same bits as the float64 file of the same values (baseline, blank, low-pass, average)', async () => {
     const x = new Float32Array(S * N);
-    for (let i = 0; i < x.length; i++) x[i] = Math.sin(i * 0.0137) * 40 + Math.cos(i * 0.31) * 3 + ((i * 7919) % 101) / 50;
-    const p32 = sidecar({ dtype: 'float32', nSweeps: S, nSamples: N, fs: 20000, t0Ms: -5, units: 'uV', sweeps: Array.from({ length: S }, (_, s) => ({ c: s % 4 })) }, new Uint8Array(x.buffer));
-    const p64 = sidecar({ dtype: 'float64', nSweeps: S, nSamples: N, fs: 20000, t0Ms: -5, units: 'uV', sweeps: Array.from({ length: S }, (_, s) => ({ c: s % 4 })) }, new Uint8Array(Float64Array.from(x).buffer));
+    for (let i = 0; i < x.length; i++)
+      x[i] = Math.sin(i * 0.0137) * 40 + Math.cos(i * 0.31) * 3 + ((i * 7919) % 101) / 50;
+    const p32 = sidecar(
+      {
+        dtype: 'float32',
+        nSweeps: S,
+        nSamples: N,
+        fs: 20000,
+        t0Ms: -5,
+        units: 'uV',
+        sweeps: Array.from({ length: S }, (_, s) => ({ c: s % 4 })),
+      },
+      new Uint8Array(x.buffer),
+    );
+    const p64 = sidecar(
+      {
+        dtype: 'float64',
+        nSweeps: S,
+        nSamples: N,
+        fs: 20000,
+        t0Ms: -5,
+        units: 'uV',
+        sweeps: Array.from({ length: S }, (_, s) => ({ c: s % 4 })),
+      },
+      new Uint8Array(Float64Array.from(x).buffer),
+    );
     const run = (p: string) => {
       const s = readBinary(p);
       const b = s.baseline({ window: [-5, -0.05] });
@@ -200,7 +336,8 @@ describe('readBinary: a native float32 file is kept as read', () => {
     };
     for (const t of [1, 2]) {
       setThreads(t);
-      const a = run(p32), b = run(p64);
+      const a = run(p32),
+        b = run(p64);
       expect(deferredOf(readBinary(p64))).toBe(null);
       a.forEach((v, j) => expect(sameBits(v, b[j]), `stage ${j}, ${t} threads`).toBe(true));
     }
@@ -229,11 +366,15 @@ describe('readBinary: a native float32 file is kept as read', () => {
       [{ offset: 2 }, le, slowRead(le, true, 1, 2)],
     ];
     for (const [extra, bytes, ref] of cases) {
-      const set = readBinary(sidecar({ dtype: 'float32', nSweeps: 2, nSamples: 3, fs: 1000, units: 'mV', ...extra }, bytes));
+      const set = readBinary(
+        sidecar({ dtype: 'float32', nSweeps: 2, nSamples: 3, fs: 1000, units: 'mV', ...extra }, bytes),
+      );
       expect(deferredOf(set)).toBe(null);
       expect(sameBits(set.data, ref)).toBe(true);
     }
-    const two = readBinary(sidecar({ dtype: 'float32', nSweeps: 1, nSamples: 3, nChannels: 2, channel: 1, fs: 1000, units: 'mV' }, le));
+    const two = readBinary(
+      sidecar({ dtype: 'float32', nSweeps: 1, nSamples: 3, nChannels: 2, channel: 1, fs: 1000, units: 'mV' }, le),
+    );
     expect(deferredOf(two)).toBe(null);
     expect(sameBits(two.data, slowRead(le, true).subarray(3, 6))).toBe(true);
   });

@@ -31,7 +31,12 @@ describe('readDelimited(path) wide layout', () => {
     expect(s.sources[0].sha256).toMatch(/^[0-9a-f]{64}$/);
   });
   it('reads semicolons with decimal comma, BOM and CRLF', () => {
-    const p = file(Buffer.concat([Buffer.from([0xef, 0xbb, 0xbf]), Buffer.from('time (s);a (uV)\r\n0,000;1,5\r\n0,001;-2,25\r\n0,002;3\r\n')]));
+    const p = file(
+      Buffer.concat([
+        Buffer.from([0xef, 0xbb, 0xbf]),
+        Buffer.from('time (s);a (uV)\r\n0,000;1,5\r\n0,001;-2,25\r\n0,002;3\r\n'),
+      ]),
+    );
     const s = readDelimited(p);
     expect(s.units).toBe('uV');
     expect(s.fs).toBeCloseTo(1000, 9);
@@ -53,7 +58,9 @@ describe('readDelimited(path) long layout', () => {
     expect([...s.sweep(1)]).toEqual([3, 4]);
   });
   it('rejects sweeps of unequal length, naming the sweep', () => {
-    expect(() => readDelimited(file('sweep,time (ms),signal (mV)\nA,0,1\nA,0.5,2\nB,0,3\n'))).toThrow(/sweep 1.*"B" has 1 samples; expected 2 samples/);
+    expect(() => readDelimited(file('sweep,time (ms),signal (mV)\nA,0,1\nA,0.5,2\nB,0,3\n'))).toThrow(
+      /sweep 1.*"B" has 1 samples; expected 2 samples/,
+    );
   });
 });
 
@@ -61,13 +68,21 @@ describe('readDelimited(path) bad input names file, line and column', () => {
   const cases: [string, string, RegExp][] = [
     ['ragged row', 'time (ms),a (mV)\n0,1\n1,2,3\n', /line 3, column 3: the row has more than 2 fields/],
     ['short row', 'time (ms),a (mV),b (mV)\n0,1,2\n1,2\n', /line 3, column 2: the row has 2 fields; expected 3 fields/],
-    ['non-numeric', 'time (ms),a (mV)\n0,1\n1,abc\n', /line 3, column 2: a non-numeric cell "abc"; expected a finite number/],
+    [
+      'non-numeric',
+      'time (ms),a (mV)\n0,1\n1,abc\n',
+      /line 3, column 2: a non-numeric cell "abc"; expected a finite number/,
+    ],
     ['NaN', 'time (ms),a (mV)\n0,NaN\n1,2\n', /line 2, column 2: a non-finite value "NaN"/],
     ['Inf', 'time (ms),a (mV)\n0,1\n1,-Inf\n', /line 3, column 2: a non-finite value "-Inf"/],
     ['empty cell', 'time (ms),a (mV)\n0,\n1,2\n', /line 2, column 2: an empty cell/],
     ['time not increasing', 'time (ms),a (mV)\n0,1\n1,2\n1,3\n', /line 4, column 1: time 1 does not increase/],
     ['uneven sampling', 'time (ms),a (mV)\n0,1\n1,2\n2.5,3\n3,4\n', /line 4, column 1: uneven sampling/],
-    ['unknown signal unit', 'time (ms),a (furlong)\n0,1\n1,2\n', /line 1, column 2: unknown signal unit "furlong"; expected one of V, mV, uV/],
+    [
+      'unknown signal unit',
+      'time (ms),a (furlong)\n0,1\n1,2\n',
+      /line 1, column 2: unknown signal unit "furlong"; expected one of V, mV, uV/,
+    ],
     ['unknown time unit', 'time (min),a (mV)\n0,1\n1,2\n', /line 1, column 1: unknown time unit "min"/],
     ['no unit', 'time,a\n0,1\n1,2\n', /gives no unit/],
     ['no rows', 'time (ms),a (mV)\n', /has 0 data rows/],
@@ -76,7 +91,11 @@ describe('readDelimited(path) bad input names file, line and column', () => {
     it(name, () => {
       const p = file(text);
       let err: unknown;
-      try { readDelimited(p); } catch (e) { err = e; }
+      try {
+        readDelimited(p);
+      } catch (e) {
+        err = e;
+      }
       expect(err).toBeInstanceOf(InputError);
       expect((err as Error).message).toContain(p);
       expect((err as Error).message).toMatch(re);
@@ -87,9 +106,13 @@ describe('readDelimited(path) bad input names file, line and column', () => {
     expect(() => readDelimited(p, { delimiter: '|' as never })).toThrow(/invalid delimiter: "\|"; must be one of/);
     expect(() => readDelimited(p, { decimal: 'x' as never })).toThrow(OptionError);
     expect(() => readDelimited(p, { layout: 'tall' as never })).toThrow(/invalid layout: "tall"/);
-    expect(() => readDelimited(p, { timeUnit: 'hours' as never })).toThrow(/invalid timeUnit: "hours"; must be one of "s", "ms", "us"/);
+    expect(() => readDelimited(p, { timeUnit: 'hours' as never })).toThrow(
+      /invalid timeUnit: "hours"; must be one of "s", "ms", "us"/,
+    );
     expect(() => readDelimited(p, { units: 'kV' as never })).toThrow(/invalid units: "kV"/);
-    expect(() => readDelimited(p, { stimulusAt: '1' as never })).toThrow(/invalid stimulusAt: "1"; must be a finite number/);
+    expect(() => readDelimited(p, { stimulusAt: '1' as never })).toThrow(
+      /invalid stimulusAt: "1"; must be a finite number/,
+    );
   });
   it('never modifies the input file', () => {
     const p = file('time (ms),a (mV)\n0,1\n1,2\n');
@@ -104,17 +127,26 @@ describe('readDelimited property tests (fast-check)', () => {
   it('random valid files round-trip exactly', () => {
     fc.assert(
       fc.property(
-        fc.integer({ min: 1, max: 4 }), fc.integer({ min: 2, max: 30 }),
-        fc.constantFrom(',', ';', '\t'), fc.boolean(), fc.boolean(), fc.array(finiteDouble, { minLength: 120, maxLength: 120 }),
+        fc.integer({ min: 1, max: 4 }),
+        fc.integer({ min: 2, max: 30 }),
+        fc.constantFrom(',', ';', '\t'),
+        fc.boolean(),
+        fc.boolean(),
+        fc.array(finiteDouble, { minLength: 120, maxLength: 120 }),
         (ns, n, delim, crlf, bom, vals) => {
           const eol = crlf ? '\r\n' : '\n';
           const decComma = delim !== ',' && vals[0] > 0;
           const f = (x: number) => (decComma ? String(x).replace('.', ',') : String(x));
           let t = 'time (ms)' + Array.from({ length: ns }, (_, j) => `${delim}s${j} (mV)`).join('') + eol;
-          for (let i = 0; i < n; i++) t += f(i * 0.02) + Array.from({ length: ns }, (_, j) => delim + f(vals[(i * ns + j) % vals.length])).join('') + eol;
+          for (let i = 0; i < n; i++)
+            t +=
+              f(i * 0.02) +
+              Array.from({ length: ns }, (_, j) => delim + f(vals[(i * ns + j) % vals.length])).join('') +
+              eol;
           const p = file(bom ? '\uFEFF' + t : t);
           const s = readDelimited(p);
-          for (let j = 0; j < ns; j++) for (let i = 0; i < n; i++) if (s.sweep(j)[i] !== vals[(i * ns + j) % vals.length]) return false;
+          for (let j = 0; j < ns; j++)
+            for (let i = 0; i < n; i++) if (s.sweep(j)[i] !== vals[(i * ns + j) % vals.length]) return false;
           return s.nSamples === n && s.nSweeps === ns;
         },
       ),
@@ -124,18 +156,22 @@ describe('readDelimited property tests (fast-check)', () => {
   it('random corruptions end in an InputError, never a crash or a wrong value', () => {
     const good = 'time (ms),a (mV),b (mV)\n0,1.5,2\n0.1,2.5,3\n0.2,3.5,4\n0.3,4.5,5\n';
     fc.assert(
-      fc.property(fc.integer({ min: 0, max: good.length - 1 }), fc.constantFrom('x', ',', '\n', 'NaN', ';', '', '--', '1e999', '"'), (at, ins) => {
-        const bad = good.slice(0, at) + ins + good.slice(at + 1);
-        const p = file(bad);
-        try {
-          const s = readDelimited(p);
-          // accepted: it must then be a valid reading of the (still well-formed) text
-          for (const sw of s) for (const v of sw) if (!Number.isFinite(v)) return false;
-          return true;
-        } catch (e) {
-          return e instanceof InputError || (e as Error).name === 'OptionError';
-        }
-      }),
+      fc.property(
+        fc.integer({ min: 0, max: good.length - 1 }),
+        fc.constantFrom('x', ',', '\n', 'NaN', ';', '', '--', '1e999', '"'),
+        (at, ins) => {
+          const bad = good.slice(0, at) + ins + good.slice(at + 1);
+          const p = file(bad);
+          try {
+            const s = readDelimited(p);
+            // accepted: it must then be a valid reading of the (still well-formed) text
+            for (const sw of s) for (const v of sw) if (!Number.isFinite(v)) return false;
+            return true;
+          } catch (e) {
+            return e instanceof InputError || (e as Error).name === 'OptionError';
+          }
+        },
+      ),
       { numRuns: 300 },
     );
   });
@@ -168,21 +204,34 @@ describe('the CSV fast path reads exponent notation exactly (%e and %g as C prin
 
   it('1.2 million fuzzed %e/%g values: every value the fast path takes equals Number() bit for bit', () => {
     let seed = 12345;
-    const rnd = () => ((seed = (Math.imul(seed, 1103515245) + 12345) >>> 0) / 2 ** 32);
+    const rnd = () => (seed = (Math.imul(seed, 1103515245) + 12345) >>> 0) / 2 ** 32;
     const texts: string[] = [];
     for (let i = 0; i < 1_200_000; i++) {
       const kind = i % 4;
       // volt-like float32 values, wide decades, integers and exact decimals
-      let x = kind === 0 ? Math.fround((rnd() - 0.5) * 2e-3) : kind === 1 ? (rnd() - 0.5) * 10 ** (Math.floor(rnd() * 60) - 30)
-        : kind === 2 ? Math.floor(rnd() * 1e6) - 5e5 : (Math.floor(rnd() * 2e5) - 1e5) / 10 ** Math.floor(rnd() * 8);
+      let x =
+        kind === 0
+          ? Math.fround((rnd() - 0.5) * 2e-3)
+          : kind === 1
+            ? (rnd() - 0.5) * 10 ** (Math.floor(rnd() * 60) - 30)
+            : kind === 2
+              ? Math.floor(rnd() * 1e6) - 5e5
+              : (Math.floor(rnd() * 2e5) - 1e5) / 10 ** Math.floor(rnd() * 8);
       if (i % 97 === 0) x = -0;
-      const P = 1 + Math.floor(rnd() * 17), upper = rnd() < 0.2, pad = rnd() < 0.1 ? 3 : 2;
+      const P = 1 + Math.floor(rnd() * 17),
+        upper = rnd() < 0.2,
+        pad = rnd() < 0.1 ? 3 : 2;
       texts.push(i % 3 === 0 ? cExp(x, P - 1, upper, pad) : cG(x, P, upper, pad));
     }
-    const t = new Float64Array(1), block = new Float64Array(1);
-    let taken = 0, eligible = 0;
+    const t = new Float64Array(1),
+      block = new Float64Array(1);
+    let taken = 0,
+      eligible = 0;
     const wrong: string[] = [];
-    for (const [dec, dcode] of [[46, 44], [44, 59]] as const) {
+    for (const [dec, dcode] of [
+      [46, 44],
+      [44, 59],
+    ] as const) {
       const all = Buffer.from(texts.join('\n'), 'latin1');
       if (dec === 44) for (let k = 0; k < all.length; k++) if (all[k] === 46) all[k] = 44;
       let k = 0;
@@ -197,7 +246,8 @@ describe('the CSV fast path reads exponent notation exactly (%e and %g as C prin
         }
         if (fastEligible(s)) eligible++;
         // the exact parser, used for whatever the fast path refuses, also equals Number()
-        if (!ok && !Object.is(parseNumber(all, k, end, dec), want) && wrong.length < 5) wrong.push(`${s}: exact parser differs`);
+        if (!ok && !Object.is(parseNumber(all, k, end, dec), want) && wrong.length < 5)
+          wrong.push(`${s}: exact parser differs`);
         k = end + 1;
       }
     }
@@ -207,26 +257,58 @@ describe('the CSV fast path reads exponent notation exactly (%e and %g as C prin
   }, 120_000);
 
   it('exponent edge cases: taken, or left to the exact parser', () => {
-    const t = new Float64Array(1), block = new Float64Array(1);
+    const t = new Float64Array(1),
+      block = new Float64Array(1);
     const fast = (s: string) => {
       const b = Buffer.from(s, 'latin1');
       return plainRow(b, 0, b.length, 1, 46, 44, t, 0, block, 0) ? t[0] : null;
     };
-    for (const s of ['1e5', '1E5', '1e+05', '-2.5e-03', '1.e3', '.5e1', '7.000000e-01', '1.5e-005', '-0e0', '123456789012345e7',
-      '1e22', '1e-22', '9.99999999999999e22', '123456789012345e-22']) {
+    for (const s of [
+      '1e5',
+      '1E5',
+      '1e+05',
+      '-2.5e-03',
+      '1.e3',
+      '.5e1',
+      '7.000000e-01',
+      '1.5e-005',
+      '-0e0',
+      '123456789012345e7',
+      '1e22',
+      '1e-22',
+      '9.99999999999999e22',
+      '123456789012345e-22',
+    ]) {
       expect(fast(s), s).not.toBeNull();
       expect(Object.is(fast(s), Number(s)), s).toBe(true);
     }
     // empty or 4-digit exponents, |exponent| beyond 22, 16 digits, a second exponent, signs where they do not belong
-    for (const s of ['1e', '1e+', '1e-', 'e5', '-e5', '1e0001', '1e23', '1e-23', '1.5e-22', '1234567890123456e0', '1e5e5', '1e5.0', '+1e5', '1e--5', '1e 5']) {
+    for (const s of [
+      '1e',
+      '1e+',
+      '1e-',
+      'e5',
+      '-e5',
+      '1e0001',
+      '1e23',
+      '1e-23',
+      '1.5e-22',
+      '1234567890123456e0',
+      '1e5e5',
+      '1e5.0',
+      '+1e5',
+      '1e--5',
+      '1e 5',
+    ]) {
       expect(fast(s), s).toBeNull();
     }
   });
 
   it('a large %g CSV (parsed on all threads) gives the same samples as a slow reference reader, on 1 and 2 threads', async () => {
-    const ns = 200, n = 4000;
+    const ns = 200,
+      n = 4000;
     let seed = 7;
-    const rnd = () => ((seed = (Math.imul(seed, 1103515245) + 12345) >>> 0) / 2 ** 32);
+    const rnd = () => (seed = (Math.imul(seed, 1103515245) + 12345) >>> 0) / 2 ** 32;
     const rows = ['time (s),' + Array.from({ length: ns }, (_, j) => `s${j} (V)`).join(',')];
     for (let i = 0; i < n; i++) {
       const v = Array.from({ length: ns }, () => cG(Math.fround((rnd() - 0.5) * 1e-3), 6, false, 2));
@@ -237,7 +319,14 @@ describe('the CSV fast path reads exponent notation exactly (%e and %g as C prin
     const p = file(text);
     // reference: split on commas, Number() per cell
     const ref = new Float64Array(ns * n);
-    rows.slice(1).forEach((r, i) => r.split(',').slice(1).forEach((c, j) => { ref[j * n + i] = Number(c); }));
+    rows.slice(1).forEach((r, i) =>
+      r
+        .split(',')
+        .slice(1)
+        .forEach((c, j) => {
+          ref[j * n + i] = Number(c);
+        }),
+    );
     const before = threads();
     for (const th of [1, 2]) {
       setThreads(th);
@@ -245,7 +334,11 @@ describe('the CSV fast path reads exponent notation exactly (%e and %g as C prin
       expect(s.nSweeps).toBe(ns);
       expect(s.nSamples).toBe(n);
       let same = true;
-      for (let i = 0; i < ref.length; i++) if (!Object.is(s.data[i], ref[i])) { same = false; break; }
+      for (let i = 0; i < ref.length; i++)
+        if (!Object.is(s.data[i], ref[i])) {
+          same = false;
+          break;
+        }
       expect(same, `${th} thread(s)`).toBe(true);
     }
     await stopThreads();
@@ -255,19 +348,27 @@ describe('the CSV fast path reads exponent notation exactly (%e and %g as C prin
 
 describe('a large wide file is read part by part, with the result of reading it whole', () => {
   // over STREAM_CSV_BYTES, so that readDelimited streams it in two parts of STREAM_PART_BYTES
-  const ns = 500, n = 4200;
+  const ns = 500,
+    n = 4200;
   let seed = 99;
-  const rnd = () => ((seed = (Math.imul(seed, 1103515245) + 12345) >>> 0) / 2 ** 32);
-  const rows = ['# recorded by an invented rig', 'time (ms);' + Array.from({ length: ns }, (_, j) => `s${j} [uV]`).join(';')];
+  const rnd = () => (seed = (Math.imul(seed, 1103515245) + 12345) >>> 0) / 2 ** 32;
+  const rows = [
+    '# recorded by an invented rig',
+    'time (ms);' + Array.from({ length: ns }, (_, j) => `s${j} [uV]`).join(';'),
+  ];
   for (let i = 0; i < n; i++) {
-    rows.push(`${(i * 0.02 - 1).toFixed(2)};${Array.from({ length: ns }, () => String(Math.round((rnd() - 0.5) * 2e6) / 1000)).join(';')}`);
+    rows.push(
+      `${(i * 0.02 - 1).toFixed(2)};${Array.from({ length: ns }, () => String(Math.round((rnd() - 0.5) * 2e6) / 1000)).join(';')}`,
+    );
   }
   const text = rows.join('\r\n') + '\r\n';
   const sameSet = (a: ReturnType<typeof readDelimited>, b: ReturnType<typeof readDelimited>) => {
     expect([a.nSweeps, a.nSamples, a.fs, a.t0Ms, a.units]).toEqual([b.nSweeps, b.nSamples, b.fs, b.t0Ms, b.units]);
     expect(a.conditions).toEqual(b.conditions);
     expect(a.history).toEqual(b.history);
-    expect(a.sources.map((s) => [s.path, s.bytes, s.sha256])).toEqual(b.sources.map((s) => [s.path, s.bytes, s.sha256]));
+    expect(a.sources.map((s) => [s.path, s.bytes, s.sha256])).toEqual(
+      b.sources.map((s) => [s.path, s.bytes, s.sha256]),
+    );
     let same = a.data.length === b.data.length;
     for (let i = 0; same && i < a.data.length; i++) same = Object.is(a.data[i], b.data[i]);
     expect(same).toBe(true);
@@ -282,7 +383,15 @@ describe('a large wide file is read part by part, with the result of reading it 
       setThreads(th);
       expect(streamWide(p, {})).not.toBe(null); // this file is streamed
       const s = readDelimited(p, { conditions: { preparation: 'X1' } });
-      sameSet(s, parseDelimited(new Uint8Array(whole), p, { conditions: { preparation: 'X1' } }, { path: p, bytes: whole.length, sha256: s.sources[0].sha256 }));
+      sameSet(
+        s,
+        parseDelimited(
+          new Uint8Array(whole),
+          p,
+          { conditions: { preparation: 'X1' } },
+          { path: p, bytes: whole.length, sha256: s.sources[0].sha256 },
+        ),
+      );
       // a value in the second part, against Number() of its text
       expect(s.sweep(123)[n - 7]).toBe(Number(rows[2 + n - 7].split(';')[124]));
     }
@@ -304,8 +413,16 @@ describe('a large wide file is read part by part, with the result of reading it 
       let whole: unknown, streamed: unknown;
       const bytes = readFileSync(p);
       const source = { path: p, bytes: bytes.length, sha256: createHash('sha256').update(bytes).digest('hex') };
-      try { whole = parseDelimited(new Uint8Array(bytes), p, {}, source); } catch (e) { whole = e; }
-      try { streamed = readDelimited(p); } catch (e) { streamed = e; }
+      try {
+        whole = parseDelimited(new Uint8Array(bytes), p, {}, source);
+      } catch (e) {
+        whole = e;
+      }
+      try {
+        streamed = readDelimited(p);
+      } catch (e) {
+        streamed = e;
+      }
       if (what !== 'an uneven time') expect(streamWide(p, {}), what).toBe(null); // left to the whole reader
       if (whole instanceof Error) {
         expect(streamed, what).toBeInstanceOf(InputError);

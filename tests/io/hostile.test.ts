@@ -17,7 +17,11 @@ afterAll(() => rmSync(dir, { recursive: true, force: true }));
 
 /** The error a call throws (or null). */
 function thrown(f: () => unknown): Error | null {
-  try { f(); } catch (e) { return e as Error; }
+  try {
+    f();
+  } catch (e) {
+    return e as Error;
+  }
   return null;
 }
 
@@ -27,7 +31,10 @@ const int16 = (vals: number[]) => new Uint8Array(Int16Array.from(vals).buffer);
 describe('sidecars: unknown keys and out-of-range gain', () => {
   beforeAll(() => writeFileSync(join(dir, 'r.bin'), int16([1, 2, 3, 4, 32767, -32768])));
   const side = (extra: object) => {
-    writeFileSync(join(dir, 'r.json'), JSON.stringify({ data: 'r.bin', dtype: 'int16', nSweeps: 2, nSamples: 3, fs: 1000, units: 'uV', ...extra }));
+    writeFileSync(
+      join(dir, 'r.json'),
+      JSON.stringify({ data: 'r.bin', dtype: 'int16', nSweeps: 2, nSamples: 3, fs: 1000, units: 'uV', ...extra }),
+    );
     return join(dir, 'r.json');
   };
   it.each([
@@ -51,18 +58,45 @@ describe('sidecars: unknown keys and out-of-range gain', () => {
 describe('manifest: unknown keys, values and inherited properties', () => {
   beforeAll(() => writeFileSync(join(dir, 'a.csv'), csv));
   const man = (m: object) => {
-    writeFileSync(join(dir, 'm.json'), JSON.stringify({ fascicleManifest: 1, files: [{ path: 'a.csv', conditions: { preparation: 'P1' } }], ...m }));
+    writeFileSync(
+      join(dir, 'm.json'),
+      JSON.stringify({ fascicleManifest: 1, files: [{ path: 'a.csv', conditions: { preparation: 'P1' } }], ...m }),
+    );
     return join(dir, 'm.json');
   };
   const cases: [string, object, RegExp][] = [
     ['top-level typo', { analyis: {} }, /field \/analyis: unknown key "analyis" \(did you mean "analysis"\?\)/],
-    ['analysis lowpass', { analysis: { lowpass: 5000 } }, /field \/analysis\/lowpass: unknown key "lowpass" \(write "filter": \{ "btype": "lowpass", "cutoff": <Hz> \}\)/],
-    ['nested step option', { analysis: { baseline: { windw: [0, 1] } } }, /field \/analysis\/baseline\/windw: unknown key "windw" \(did you mean "window"\?\)/],
-    ['filter option', { analysis: { filter: { btype: 'lowpass', cutof: 5000 } } }, /field \/analysis\/filter\/cutof: unknown key "cutof" \(did you mean "cutoff"\?\)/],
+    [
+      'analysis lowpass',
+      { analysis: { lowpass: 5000 } },
+      /field \/analysis\/lowpass: unknown key "lowpass" \(write "filter": \{ "btype": "lowpass", "cutoff": <Hz> \}\)/,
+    ],
+    [
+      'nested step option',
+      { analysis: { baseline: { windw: [0, 1] } } },
+      /field \/analysis\/baseline\/windw: unknown key "windw" \(did you mean "window"\?\)/,
+    ],
+    [
+      'filter option',
+      { analysis: { filter: { btype: 'lowpass', cutof: 5000 } } },
+      /field \/analysis\/filter\/cutof: unknown key "cutof" \(did you mean "cutoff"\?\)/,
+    ],
     ['components option', { analysis: { components: { earliestms: 0.1 } } }, /did you mean "earliestMs"/],
-    ['series typo', { defaults: { series: 'distances' } }, /field \/defaults\/series: unknown series "distances" \(did you mean "distance"\?\)/],
-    ['classPreset typo', { classPreset: 'mamalian' }, /field \/classPreset: unknown class preset "mamalian" \(did you mean "mammalian"\?\)/],
-    ['preset disagreement', { classPreset: 'amphibian', analysis: { components: { preset: 'mammalian' } } }, /differs from the top-level classPreset/],
+    [
+      'series typo',
+      { defaults: { series: 'distances' } },
+      /field \/defaults\/series: unknown series "distances" \(did you mean "distance"\?\)/,
+    ],
+    [
+      'classPreset typo',
+      { classPreset: 'mamalian' },
+      /field \/classPreset: unknown class preset "mamalian" \(did you mean "mammalian"\?\)/,
+    ],
+    [
+      'preset disagreement',
+      { classPreset: 'amphibian', analysis: { components: { preset: 'mammalian' } } },
+      /differs from the top-level classPreset/,
+    ],
   ];
   it.each(cases)('%s', (_n, m, msg) => {
     const e = thrown(() => readManifest(man(m)));
@@ -75,18 +109,48 @@ describe('manifest: unknown keys, values and inherited properties', () => {
     expect(Object.keys(ANALYSIS_KEYS).sort()).toEqual([...PIPELINE_OPTION_KEYS].sort());
   });
   it('a list of artifact steps is checked step by step; averageRepeats must be a boolean', () => {
-    const e = thrown(() => readManifest(man({ analysis: { artifact: [{ method: 'blank' }, { method: 'template', fitWindw: [0, 1] }] } })));
-    expect(e!.message).toMatch(/field \/analysis\/artifact\/1\/fitWindw: unknown key "fitWindw" \(did you mean "fitWindow"\?\)/);
-    expect(thrown(() => readManifest(man({ analysis: { averageRepeats: 'no' } })))!.message).toMatch(/field \/analysis\/averageRepeats: is "no"; expected true or false/);
+    const e = thrown(() =>
+      readManifest(man({ analysis: { artifact: [{ method: 'blank' }, { method: 'template', fitWindw: [0, 1] }] } })),
+    );
+    expect(e!.message).toMatch(
+      /field \/analysis\/artifact\/1\/fitWindw: unknown key "fitWindw" \(did you mean "fitWindow"\?\)/,
+    );
+    expect(thrown(() => readManifest(man({ analysis: { averageRepeats: 'no' } })))!.message).toMatch(
+      /field \/analysis\/averageRepeats: is "no"; expected true or false/,
+    );
     expect(thrown(() => readManifest(man({ analysis: { averageRepeats: false, artifact: false } })))).toBeNull();
   });
-  it('a mistyped series in a file\'s sweeps and an unknown reader option name the file entry', () => {
-    writeFileSync(join(dir, 'm2.json'), JSON.stringify({ fascicleManifest: 1, files: [{ path: 'a.csv', conditions: { preparation: 'P1' }, sweeps: [{}, { series: 'dos' }] }] }));
-    expect(thrown(() => readManifest(join(dir, 'm2.json')))!.message).toMatch(/field \/files\/0\/sweeps\/1\/series: unknown series "dos" \(did you mean "dose"\?\)/);
-    writeFileSync(join(dir, 'm3.json'), JSON.stringify({ fascicleManifest: 1, files: [{ path: 'a.csv', options: { delimeter: ';' }, conditions: { preparation: 'P1' } }] }));
-    expect(thrown(() => readManifest(join(dir, 'm3.json')))!.message).toMatch(/field \/files\/0\/options\/delimeter: unknown key "delimeter" \(did you mean "delimiter"\?\)/);
-    writeFileSync(join(dir, 'm4.json'), JSON.stringify({ fascicleManifest: 1, files: [{ path: 'r.json', options: { layout: 'wide' }, conditions: { preparation: 'P1' } }] }));
-    expect(thrown(() => readManifest(join(dir, 'm4.json')))!.message).toMatch(/\/files\/0\/options: reader options for a binary file/);
+  it("a mistyped series in a file's sweeps and an unknown reader option name the file entry", () => {
+    writeFileSync(
+      join(dir, 'm2.json'),
+      JSON.stringify({
+        fascicleManifest: 1,
+        files: [{ path: 'a.csv', conditions: { preparation: 'P1' }, sweeps: [{}, { series: 'dos' }] }],
+      }),
+    );
+    expect(thrown(() => readManifest(join(dir, 'm2.json')))!.message).toMatch(
+      /field \/files\/0\/sweeps\/1\/series: unknown series "dos" \(did you mean "dose"\?\)/,
+    );
+    writeFileSync(
+      join(dir, 'm3.json'),
+      JSON.stringify({
+        fascicleManifest: 1,
+        files: [{ path: 'a.csv', options: { delimeter: ';' }, conditions: { preparation: 'P1' } }],
+      }),
+    );
+    expect(thrown(() => readManifest(join(dir, 'm3.json')))!.message).toMatch(
+      /field \/files\/0\/options\/delimeter: unknown key "delimeter" \(did you mean "delimiter"\?\)/,
+    );
+    writeFileSync(
+      join(dir, 'm4.json'),
+      JSON.stringify({
+        fascicleManifest: 1,
+        files: [{ path: 'r.json', options: { layout: 'wide' }, conditions: { preparation: 'P1' } }],
+      }),
+    );
+    expect(thrown(() => readManifest(join(dir, 'm4.json')))!.message).toMatch(
+      /\/files\/0\/options: reader options for a binary file/,
+    );
   });
   it('required: ["constructor"] is not satisfied by an inherited property', () => {
     const e = thrown(() => readManifest(man({ required: ['constructor'] })));
@@ -101,15 +165,23 @@ describe('manifest: unknown keys, values and inherited properties', () => {
   it('an analysis nested 200,000 levels deep is refused naming the field (no stack overflow)', () => {
     const depth = 200000;
     const deep = '{"a":'.repeat(depth) + '1' + '}'.repeat(depth);
-    writeFileSync(join(dir, 'deep.json'), `{"fascicleManifest":1,"analysis":{"components":{"preset":${deep}}},"files":[{"path":"a.csv"}]}`);
+    writeFileSync(
+      join(dir, 'deep.json'),
+      `{"fascicleManifest":1,"analysis":{"components":{"preset":${deep}}},"files":[{"path":"a.csv"}]}`,
+    );
     const e = thrown(() => readManifest(join(dir, 'deep.json')));
     expect(e).toBeInstanceOf(InputError);
-    expect(e!.message).toMatch(/deep\.json, field \/analysis\/components\/preset\/a\/a.*: nested more than 32 levels deep/);
+    expect(e!.message).toMatch(
+      /deep\.json, field \/analysis\/components\/preset\/a\/a.*: nested more than 32 levels deep/,
+    );
   });
   it('a FIFO (named pipe) listed in a manifest is refused at once instead of waiting for a writer', () => {
     const fifo = join(dir, 'pipe.csv');
     execFileSync('mkfifo', [fifo]);
-    writeFileSync(join(dir, 'mf.json'), JSON.stringify({ fascicleManifest: 1, files: [{ path: 'pipe.csv', conditions: { preparation: 'P1' } }] }));
+    writeFileSync(
+      join(dir, 'mf.json'),
+      JSON.stringify({ fascicleManifest: 1, files: [{ path: 'pipe.csv', conditions: { preparation: 'P1' } }] }),
+    );
     const e = thrown(() => readManifest(join(dir, 'mf.json')));
     expect(e).toBeInstanceOf(InputError);
     expect(e!.message).toMatch(/pipe\.csv: this is a named pipe \(FIFO\); expected a regular file/);
@@ -118,10 +190,14 @@ describe('manifest: unknown keys, values and inherited properties', () => {
 
 describe('delimited text: layouts, comments, huge lines and options', () => {
   it('a forced long layout without a sweep column is an InputError naming the header, not a TypeError', () => {
-    const e = thrown(() => parseDelimited(Buffer.from('time (ms),value (uV)\n0,1\n1,2\n'), 'x.csv', { layout: 'long' }));
+    const e = thrown(() =>
+      parseDelimited(Buffer.from('time (ms),value (uV)\n0,1\n1,2\n'), 'x.csv', { layout: 'long' }),
+    );
     expect(e).toBeInstanceOf(InputError);
     expect(e!.message).toMatch(/x\.csv, line 1: the long layout needs a sweep column/);
-    const near = thrown(() => parseDelimited(Buffer.from('swep,time (ms),value (uV)\n1,0,1\n1,1,2\n'), 'y.csv', { layout: 'long' }));
+    const near = thrown(() =>
+      parseDelimited(Buffer.from('swep,time (ms),value (uV)\n1,0,1\n1,1,2\n'), 'y.csv', { layout: 'long' }),
+    );
     expect(near!.message).toMatch(/did you mean "sweep"\?/);
   });
   it('comment lines holding commas do not make a ";" or tab file decimal-comma (the values written are read)', () => {
@@ -131,7 +207,9 @@ describe('delimited text: layouts, comments, huge lines and options', () => {
       expect([...s.data]).toEqual([1.5, 2.25, -3.125]);
     }
     // a real decimal comma is still detected
-    expect([...parseDelimited(Buffer.from('# a, b\ntime (ms);s (uV)\n0;1,5\n1;2,5\n'), 'd.txt').data]).toEqual([1.5, 2.5]);
+    expect([...parseDelimited(Buffer.from('# a, b\ntime (ms);s (uV)\n0;1,5\n1;2,5\n'), 'd.txt').data]).toEqual([
+      1.5, 2.5,
+    ]);
   });
   it('a 500 MB header line is refused before it is decoded', () => {
     const big = Buffer.alloc(500 * 2 ** 20, 'a,');

@@ -11,7 +11,16 @@
  */
 import { describe, it, expect, beforeAll, afterAll, vi } from 'vitest';
 import { spawnSync } from 'node:child_process';
-import { copyFileSync, existsSync, mkdtempSync, readdirSync, readFileSync, writeFileSync, statSync, rmSync } from 'node:fs';
+import {
+  copyFileSync,
+  existsSync,
+  mkdtempSync,
+  readdirSync,
+  readFileSync,
+  writeFileSync,
+  statSync,
+  rmSync,
+} from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { createHash } from 'node:crypto';
@@ -34,7 +43,8 @@ const PY = '/usr/bin/python3';
 const pyHas = (mods: string) => existsSync(PY) && spawnSync(PY, ['-c', `import ${mods}`]).status === 0;
 const HAVE_H5PY = pyHas('h5py, numpy');
 const HAVE_HDMF = HAVE_H5PY && pyHas('hdmf');
-if (!HAVE_H5PY) console.warn('skipping the h5py read-back tests: /usr/bin/python3 lacks h5py (apt-get install python3-h5py)');
+if (!HAVE_H5PY)
+  console.warn('skipping the h5py read-back tests: /usr/bin/python3 lacks h5py (apt-get install python3-h5py)');
 if (HAVE_H5PY && !HAVE_HDMF) {
   console.warn('skipping the hdmf validation: /usr/bin/python3 lacks hdmf (apt-get install python3-hdmf)');
 }
@@ -42,8 +52,9 @@ if (HAVE_H5PY && !HAVE_HDMF) {
 /** h5py's view of a file and hdmf's verdict (tests/reference/validate_nwb.py --layout). */
 type Independent = { ok: boolean; errors: string[]; types: Record<string, string>; layout: any; unavailable?: string };
 function independent(path: string): Independent {
-  const r = spawnSync(PY, [join(__dirname, '..', 'reference', 'validate_nwb.py'), '--layout', path],
-    { encoding: 'utf8' });
+  const r = spawnSync(PY, [join(__dirname, '..', 'reference', 'validate_nwb.py'), '--layout', path], {
+    encoding: 'utf8',
+  });
   const line = r.stdout.trim().split('\n').pop() ?? '';
   return JSON.parse(line);
 }
@@ -70,7 +81,7 @@ beforeAll(async () => {
 afterAll(() => rmSync(tmp, { recursive: true, force: true }));
 
 describe('readNwb(path, options) on files written by h5py', () => {
-  it('cuts a continuous 3-channel int16 ElectricalSeries around the trials\' stimulus times, with conversion, offset and channel_conversion', async () => {
+  it("cuts a continuous 3-channel int16 ElectricalSeries around the trials' stimulus times, with conversion, offset and channel_conversion", async () => {
     const e = expected.continuous;
     for (const ch of [0, 1, 2]) {
       const set = await readNwb(fx('continuous.nwb'), { channel: ch });
@@ -143,7 +154,10 @@ describe('readNwb(path, options) on files written by h5py', () => {
     const spy = vi.spyOn(HyperslabReader.prototype, 'read');
     try {
       await readNwb(fx('continuous.nwb'), { channel: 1, trials: [3, 9], window: [-1, 4] });
-      expect(spy.mock.calls.map((c) => [c[1] - c[0], c[2]])).toEqual([[51, 1], [51, 1]]);
+      expect(spy.mock.calls.map((c) => [c[1] - c[0], c[2]])).toEqual([
+        [51, 1],
+        [51, 1],
+      ]);
     } finally {
       spy.mockRestore();
     }
@@ -181,7 +195,7 @@ describe('readNwb(path, options) on files written by h5py', () => {
     expect(set.history[0].options.stimulusColumn).toBe('stim_onset');
   });
 
-  it('uses the rows\' TimeSeriesReference (idx_start) instead of searching the timestamps', async () => {
+  it("uses the rows' TimeSeriesReference (idx_start) instead of searching the timestamps", async () => {
     const spy = vi.spyOn(h5().Dataset.prototype, 'slice');
     try {
       const set = await readNwb(fx('precut.nwb'), { columns: { intensity: 'amp' } });
@@ -197,7 +211,16 @@ describe('readNwb(path, options) on files written by h5py', () => {
     const c = await describeNwb(fx('continuous.nwb'));
     expect(c.nwbVersion).toBe('2.7.0');
     expect(c.writtenByFascicle).toBe(false);
-    expect(c.series).toEqual([{ path: '/acquisition/nerve', type: 'ElectricalSeries', shape: [15000, 3], unit: 'volts', time: 'rate', rate: 10000 }]);
+    expect(c.series).toEqual([
+      {
+        path: '/acquisition/nerve',
+        type: 'ElectricalSeries',
+        shape: [15000, 3],
+        unit: 'volts',
+        time: 'rate',
+        rate: 10000,
+      },
+    ]);
     expect(c.intervals[0].path).toBe('/intervals/trials');
     expect(c.intervals[0].rows).toBe(12);
     expect(c.intervals[0].columns).toContain('intensity_mA');
@@ -232,47 +255,90 @@ describe('readNwb errors name the file, the place inside it and the problem', ()
   it('a truncated file', () => {
     const p = join(tmp, 'truncated.nwb');
     writeFileSync(p, readFileSync(fx('continuous.nwb')).subarray(0, 30000));
-    expectInputError(() => readNwbSync(p), p, undefined,
-      /truncated: it has 30000 bytes but its HDF5 superblock says \d+/);
+    expectInputError(
+      () => readNwbSync(p),
+      p,
+      undefined,
+      /truncated: it has 30000 bytes but its HDF5 superblock says \d+/,
+    );
     const tiny = join(tmp, 'tiny.nwb');
     writeFileSync(tiny, readFileSync(fx('continuous.nwb')).subarray(0, 40));
-    expectInputError(() => readNwbSync(tiny), tiny, undefined, /truncated: it has 40 bytes, fewer than its HDF5 superblock/);
+    expectInputError(
+      () => readNwbSync(tiny),
+      tiny,
+      undefined,
+      /truncated: it has 40 bytes, fewer than its HDF5 superblock/,
+    );
   });
 
   it('a file that is not HDF5, and HDF5 that is not NWB', () => {
     const pj = join(__dirname, '..', '..', 'package.json');
     expectInputError(() => readNwbSync(pj), pj, undefined, /not an HDF5 file/);
-    expectInputError(() => readNwbSync(fx('not_nwb.h5')), fx('not_nwb.h5'), '/',
-      /without the NWB root attributes.*NWBFile/);
-    expectInputError(() => readNwbSync(join(tmp, 'missing.nwb')), join(tmp, 'missing.nwb'), undefined,
-      /cannot open file \(ENOENT\)/);
+    expectInputError(
+      () => readNwbSync(fx('not_nwb.h5')),
+      fx('not_nwb.h5'),
+      '/',
+      /without the NWB root attributes.*NWBFile/,
+    );
+    expectInputError(
+      () => readNwbSync(join(tmp, 'missing.nwb')),
+      join(tmp, 'missing.nwb'),
+      undefined,
+      /cannot open file \(ENOENT\)/,
+    );
   });
 
   it('a series with no stimulus times', () => {
-    expectInputError(() => readNwbSync(fx('no_stimulus.nwb')), fx('no_stimulus.nwb'), '/intervals/trials',
-      /no trials table.*no stimulus times/);
+    expectInputError(
+      () => readNwbSync(fx('no_stimulus.nwb')),
+      fx('no_stimulus.nwb'),
+      '/intervals/trials',
+      /no trials table.*no stimulus times/,
+    );
   });
 
   it('trials columns that do not map: a unit it does not know, words for a temperature, a mapping to a missing column', () => {
     const p = fx('bad_trials.nwb');
     expectInputError(() => readNwbSync(p), p, '/intervals/trials/pulse_width', /unit "fortnights"/);
-    expectInputError(() => readNwbSync(p, { columns: { pulseWidthMs: null } }), p, '/intervals/trials/temperature',
-      /"warm" in row 0, which is not a number/);
-    expectInputError(() => readNwbSync(fx('precut.nwb'), { columns: { intensity: 'ampp' } }), fx('precut.nwb'),
+    expectInputError(
+      () => readNwbSync(p, { columns: { pulseWidthMs: null } }),
+      p,
+      '/intervals/trials/temperature',
+      /"warm" in row 0, which is not a number/,
+    );
+    expectInputError(
+      () => readNwbSync(fx('precut.nwb'), { columns: { intensity: 'ampp' } }),
+      fx('precut.nwb'),
       '/intervals/stimulation/ampp',
-      /does not have \(did you mean "amp"\?\)/);
+      /does not have \(did you mean "amp"\?\)/,
+    );
   });
 
   it('several channels without the channel option; a series name with a typo; a window outside the recording or across a gap', () => {
-    expectInputError(() => readNwbSync(fx('continuous.nwb')), fx('continuous.nwb'), '/acquisition/nerve/data',
-      /3 channels/);
-    expectInputError(() => readNwbSync(fx('continuous.nwb'), { channel: 0, series: 'nerv' }), fx('continuous.nwb'),
-      '/acquisition/nerv', /did you mean "nerve"/);
-    expectInputError(() => readNwbSync(fx('continuous.nwb'), { channel: 0, window: [-5, 500] }),
-      fx('continuous.nwb'), '/acquisition/nerve/data', /outside the series/);
-    expectInputError(() => readNwbSync(fx('precut.nwb'), { columns: { intensity: 'amp' }, window: [-0.8, 9] }),
+    expectInputError(
+      () => readNwbSync(fx('continuous.nwb')),
+      fx('continuous.nwb'),
+      '/acquisition/nerve/data',
+      /3 channels/,
+    );
+    expectInputError(
+      () => readNwbSync(fx('continuous.nwb'), { channel: 0, series: 'nerv' }),
+      fx('continuous.nwb'),
+      '/acquisition/nerv',
+      /did you mean "nerve"/,
+    );
+    expectInputError(
+      () => readNwbSync(fx('continuous.nwb'), { channel: 0, window: [-5, 500] }),
+      fx('continuous.nwb'),
+      '/acquisition/nerve/data',
+      /outside the series/,
+    );
+    expectInputError(
+      () => readNwbSync(fx('precut.nwb'), { columns: { intensity: 'amp' }, window: [-0.8, 9] }),
       fx('precut.nwb'),
-      /\/acquisition\/cap_sweeps\/(timestamps|data)/, /gap|outside the series/);
+      /\/acquisition\/cap_sweeps\/(timestamps|data)/,
+      /gap|outside the series/,
+    );
   });
 
   it('a series whose unit is not a voltage, or that has no time base', () => {
@@ -292,18 +358,27 @@ describe('readNwb errors name the file, the place inside it and the problem', ()
       g.create_dataset({ name: 'data', data: new Float32Array(10) }).create_attribute('unit', 'lux', null, 'S');
       g.create_dataset({ name: 'starting_time', data: 0 }).create_attribute('rate', 1000, null, '<f');
     });
-    expectInputError(() => readNwbSync(lux, { stimulusTimes: [0.002], window: [0, 1] }), lux, '/acquisition/trace/data',
-      /unit "lux", not a voltage/);
+    expectInputError(
+      () => readNwbSync(lux, { stimulusTimes: [0.002], window: [0, 1] }),
+      lux,
+      '/acquisition/trace/data',
+      /unit "lux", not a voltage/,
+    );
     const timeless = make('timeless.nwb', (g) => {
       g.create_dataset({ name: 'data', data: new Float32Array(10) }).create_attribute('unit', 'volts', null, 'S');
     });
-    expectInputError(() => readNwbSync(timeless, { stimulusTimes: [0.002], window: [0, 1] }), timeless, '/acquisition/trace',
-      /neither starting_time \(with rate\) nor timestamps/);
+    expectInputError(
+      () => readNwbSync(timeless, { stimulusTimes: [0.002], window: [0, 1] }),
+      timeless,
+      '/acquisition/trace',
+      /neither starting_time \(with rate\) nor timestamps/,
+    );
   });
 
   it('options are checked at the call', () => {
-    expect(() => readNwbSync(fx('precut.nwb'), { windw: [0,
-      1] } as never)).toThrow(/unknown key "windw" in readNwb options \(did you mean "window"\?\)/);
+    expect(() => readNwbSync(fx('precut.nwb'), { windw: [0, 1] } as never)).toThrow(
+      /unknown key "windw" in readNwb options \(did you mean "window"\?\)/,
+    );
     expect(() => readNwbSync(fx('precut.nwb'), { window: [3, 1] })).toThrow(OptionError);
     expect(() => readNwbSync(fx('precut.nwb'), { channel: -1 })).toThrow(/invalid channel/);
   });
@@ -311,23 +386,44 @@ describe('readNwb errors name the file, the place inside it and the problem', ()
 
 /** A small set with several sites and distances, and conditions of every kind (nulls, booleans, empty text). */
 function sampleSet(): SweepSet {
-  const nSweeps = 6, nSamples = 300, fs = 20000;
+  const nSweeps = 6,
+    nSamples = 300,
+    fs = 20000;
   const data = new Float64Array(nSweeps * nSamples);
-  for (let s = 0; s < nSweeps; s++) for (let i = 0; i < nSamples; i++) data[s * nSamples + i] = Math.sin(i / (7
-    + s)) * (s + 1) / 3 + 1e-3 * i;
+  for (let s = 0; s < nSweeps; s++)
+    for (let i = 0; i < nSamples; i++) data[s * nSamples + i] = (Math.sin(i / (7 + s)) * (s + 1)) / 3 + 1e-3 * i;
   const conditions: Conditions[] = Array.from({ length: nSweeps }, (_, s) => ({
-    preparation: 'N1', site: s < 3 ? 'proximal' : 'distal', distanceMm: s < 3 ? 20 : 32.5, intensity: 0.5 * (s
-      + 1), intensityUnit: 'mA',
-    pulseWidthMs: 0.05, temperatureC: 36.6, repeat: s % 2, flagged: s === 4, note: s === 2 ? null : `n${s}`, empty: s === 1 ? '' : 'x',
-    maybe: s === 3 ? null : 1.25, acquiredS: 10 + s * 2.5, file: 'demo.csv', fileSweep: s,
+    preparation: 'N1',
+    site: s < 3 ? 'proximal' : 'distal',
+    distanceMm: s < 3 ? 20 : 32.5,
+    intensity: 0.5 * (s + 1),
+    intensityUnit: 'mA',
+    pulseWidthMs: 0.05,
+    temperatureC: 36.6,
+    repeat: s % 2,
+    flagged: s === 4,
+    note: s === 2 ? null : `n${s}`,
+    empty: s === 1 ? '' : 'x',
+    maybe: s === 3 ? null : 1.25,
+    acquiredS: 10 + s * 2.5,
+    file: 'demo.csv',
+    fileSweep: s,
   }));
-  return new SweepSet({ data, nSweeps, nSamples, fs, t0Ms: -1.99, units: 'uV', conditions,
-    history: [{ verb: 'readDelimited', options: { path: 'demo.csv' }, version: 'test' }], sources: [] });
+  return new SweepSet({
+    data,
+    nSweeps,
+    nSamples,
+    fs,
+    t0Ms: -1.99,
+    units: 'uV',
+    conditions,
+    history: [{ verb: 'readDelimited', options: { path: 'demo.csv' }, version: 'test' }],
+    sources: [],
+  });
 }
 
 describe('writeNwb(set, path, options) and reading back', () => {
-  it('round trip: identical samples, time base and conditions; several electrodes become several series',
-    async () => {
+  it('round trip: identical samples, time base and conditions; several electrodes become several series', async () => {
     const set = sampleSet();
     const p = join(tmp, 'round.nwb');
     const res = await writeNwb(set, p, { raw: true });
@@ -362,16 +458,26 @@ describe('writeNwb(set, path, options) and reading back', () => {
 
   it('HyperslabReader gives what h5wasm slice() gives (int16 2-D with gzip, float32 1-D)', () => {
     const lib = h5();
-    for (const [file, path, col] of [[fx('continuous.nwb'), 'acquisition/nerve/data', 2], [fx('precut.nwb'),
-      'acquisition/cap_sweeps/data', null]] as const) {
+    for (const [file, path, col] of [
+      [fx('continuous.nwb'), 'acquisition/nerve/data', 2],
+      [fx('precut.nwb'), 'acquisition/cap_sweeps/data', null],
+    ] as const) {
       const f = new lib.File(file, 'r');
       try {
         const d = f.get(path) as import('h5wasm').Dataset;
         const r = new HyperslabReader(d);
         const got: number[] = [];
-        r.read(777, 1234, col, (k, v) => { got[k] = v; });
+        r.read(777, 1234, col, (k, v) => {
+          got[k] = v;
+        });
         r.close();
-        const ranges: [number, number][] = col === null ? [[777, 1234]] : [[777, 1234], [col, col + 1]];
+        const ranges: [number, number][] =
+          col === null
+            ? [[777, 1234]]
+            : [
+                [777, 1234],
+                [col, col + 1],
+              ];
         expect(got).toEqual(Array.from(d.slice(ranges) as ArrayLike<number>));
       } finally {
         f.close();
@@ -379,15 +485,17 @@ describe('writeNwb(set, path, options) and reading back', () => {
     }
   });
 
-  it('conditioned samples go to a processing module with the history; raw: true refuses conditioned samples',
-    async () => {
+  it('conditioned samples go to a processing module with the history; raw: true refuses conditioned samples', async () => {
     const raw = await readNwb(fx('continuous.nwb'), { channel: 2 });
     const cond = raw.baseline({ window: [-4, -0.5] }).lowpass(2000);
-    await expect(writeNwb(cond, join(tmp, 'x.nwb'),
-      { raw: true })).rejects.toThrow(/raw: true for samples changed by baseline, filter/);
+    await expect(writeNwb(cond, join(tmp, 'x.nwb'), { raw: true })).rejects.toThrow(
+      /raw: true for samples changed by baseline, filter/,
+    );
     const p = join(tmp, 'conditioned.nwb');
-    const components = [{ sweep: 0, class: 'A', latency_ms: 1.25, detected: true, reason: null, 'v/d': 2 },
-      { sweep: 1, class: 'A', latency_ms: null, detected: false, reason: 'below noise', 'v/d': 3 }];
+    const components = [
+      { sweep: 0, class: 'A', latency_ms: 1.25, detected: true, reason: null, 'v/d': 2 },
+      { sweep: 1, class: 'A', latency_ms: null, detected: false, reason: 'below noise', 'v/d': 3 },
+    ];
     const res = await writeNwb(cond, p, { results: { components, flags: [] } });
     expect(res.series).toEqual(['/processing/fascicle/sweeps']);
     expect(res.tables).toEqual(['components', 'flags']);
@@ -406,13 +514,15 @@ describe('writeNwb(set, path, options) and reading back', () => {
     copyFileSync(fx('continuous.nwb'), foreign);
     const before = sha(foreign);
     await expect(writeNwb(set, foreign, { raw: true })).rejects.toThrow(OutputError);
-    await expect(writeNwb(set, foreign, { raw: true,
-      overwrite: true })).rejects.toThrow(/not an NWB file written by fascicle/);
+    await expect(writeNwb(set, foreign, { raw: true, overwrite: true })).rejects.toThrow(
+      /not an NWB file written by fascicle/,
+    );
     expect(sha(foreign)).toBe(before);
     const text = join(tmp, 'notes.nwb');
     writeFileSync(text, 'my notes');
-    await expect(writeNwb(set, text, { raw: true,
-      overwrite: true })).rejects.toThrow(/not an NWB file written by fascicle/);
+    await expect(writeNwb(set, text, { raw: true, overwrite: true })).rejects.toThrow(
+      /not an NWB file written by fascicle/,
+    );
     expect(readFileSync(text, 'utf8')).toBe('my notes');
     const own = join(tmp, 'own.nwb');
     await writeNwb(set, own, { raw: true });
@@ -422,8 +532,9 @@ describe('writeNwb(set, path, options) and reading back', () => {
     expect((await readNwb(own)).nSweeps).toBe(2);
     expect(statSync(own).mtimeMs).toBeGreaterThanOrEqual(t1);
     const input = await readNwb(fx('precut.nwb'), { columns: { intensity: 'amp' } });
-    await expect(writeNwb(input, fx('precut.nwb'), { raw: true,
-      overwrite: true })).rejects.toThrow(/it is an input of this set/);
+    await expect(writeNwb(input, fx('precut.nwb'), { raw: true, overwrite: true })).rejects.toThrow(
+      /it is an input of this set/,
+    );
     const err = await writeNwb(set, join(tmp, 'no-such-folder', 'x.nwb'), { raw: true }).catch((e) => e);
     expect(err).toBeInstanceOf(OutputError);
     expect(readdirSync(tmp).filter((f) => f.includes('.tmp-'))).toEqual([]);
@@ -435,10 +546,18 @@ describe('readManifest with an NWB entry', () => {
     const dir = mkdtempSync(join(tmp, 'manifest-'));
     copyFileSync(fx('continuous.nwb'), join(dir, 'rec.nwb'));
     const manifest = {
-      fascicleManifest: 1, study: 'nwb entry', required: ['preparation'],
+      fascicleManifest: 1,
+      study: 'nwb entry',
+      required: ['preparation'],
       defaults: { temperatureC: 30, series: 'intensity' },
-      files: [{ path: 'rec.nwb', options: { channel: 1, trials: [0, 1, 2] }, conditions: { preparation: 'M1' },
-        sweeps: [{ repeat: 0 }, { repeat: 1 }, { repeat: 2 }] }],
+      files: [
+        {
+          path: 'rec.nwb',
+          options: { channel: 1, trials: [0, 1, 2] },
+          conditions: { preparation: 'M1' },
+          sweeps: [{ repeat: 0 }, { repeat: 1 }, { repeat: 2 }],
+        },
+      ],
     };
     const mp = join(dir, 'manifest.json');
     writeFileSync(mp, JSON.stringify(manifest));
@@ -458,7 +577,13 @@ describe('readManifest with an NWB entry', () => {
     const dir = mkdtempSync(join(tmp, 'manifest-'));
     copyFileSync(fx('continuous.nwb'), join(dir, 'rec.nwb'));
     const mp = join(dir, 'manifest.json');
-    writeFileSync(mp, JSON.stringify({ fascicleManifest: 1, files: [{ path: 'rec.nwb', options: { channel: 1, windw: [0, 1] }, conditions: { preparation: 'M1' } }] }));
+    writeFileSync(
+      mp,
+      JSON.stringify({
+        fascicleManifest: 1,
+        files: [{ path: 'rec.nwb', options: { channel: 1, windw: [0, 1] }, conditions: { preparation: 'M1' } }],
+      }),
+    );
     expect(() => readManifest(mp)).toThrow(/files\/0\/options.*unknown key "windw".*did you mean "window"/);
   });
 });
@@ -467,19 +592,22 @@ describe('the demo study through an NWB copy', () => {
   it('a preparation of data-demo written to NWB and read back gives the same component, velocity and recruitment tables', async () => {
     const manifestPath = join(__dirname, '..', '..', 'data-demo', 'manifest.json');
     const manifest = JSON.parse(readFileSync(manifestPath, 'utf8'));
-    const set = readManifest(manifestPath,
-      { only: (f) => f.conditions?.preparation === 'R1' && /intensity|distance/.test(f.path) });
+    const set = readManifest(manifestPath, {
+      only: (f) => f.conditions?.preparation === 'R1' && /intensity|distance/.test(f.path),
+    });
     const p = join(tmp, 'demo-R1.nwb');
     await writeNwb(set, p, { raw: true });
     const copy = await readNwb(p);
     expect(copy.extras.manifest).toMatchObject({ classPreset: manifest.classPreset, analysis: manifest.analysis });
     const a = runPipeline(set, manifest.analysis);
     const b = runPipeline(copy, manifest.analysis);
-    const strip = (rows: readonly object[]) => rows.map((r) => {
-      const { file, fileSweep, sourceFile, sourceSweep, ...rest } = r as Record<string, unknown>;
-      return rest;
-    });
-    const ta = a.components.tables(), tb = b.components.tables();
+    const strip = (rows: readonly object[]) =>
+      rows.map((r) => {
+        const { file, fileSweep, sourceFile, sourceSweep, ...rest } = r as Record<string, unknown>;
+        return rest;
+      });
+    const ta = a.components.tables(),
+      tb = b.components.tables();
     expect(Object.keys(tb)).toEqual(Object.keys(ta));
     expect(Object.values(ta).reduce((n, rows) => n + rows.length, 0)).toBeGreaterThan(10);
     expect(a.velocity!.rows.length).toBeGreaterThan(0);
@@ -506,44 +634,50 @@ describe('an independent reader (h5py) and validator (hdmf) on the files', () =>
     }
   });
 
-  it.skipIf(!HAVE_H5PY)('h5py finds the NWB layout, data, timestamps and conversion in what fascicle wrote; hdmf validates it', async () => {
-    const set = sampleSet();
-    const p = join(tmp, 'independent.nwb');
-    await writeNwb(set, p, { raw: true, sessionStartTime: '2026-03-14T09:30:00+01:00',
-      results: { velocity: [{ class: 'A', v: 41.5 }] } });
-    const r = independent(p);
-    if (HAVE_HDMF) expect(r.errors).toEqual([]);
-    const L = r.layout;
-    expect(L.root.neurodata_type).toBe('NWBFile');
-    expect(L.root.namespace).toBe('core');
-    expect(L.root.nwb_version).toBe('2.7.0');
-    expect(L.root.session_start_time).toBe('2026-03-14T09:30:00+01:00');
-    expect(r.types['/acquisition/sweeps_e0']).toBe('ElectricalSeries');
-    expect(r.types['/intervals/trials']).toBe('TimeIntervals');
-    expect(r.types['/general/extracellular_ephys/electrodes']).toBe('DynamicTable');
-    expect(r.types['/processing/fascicle']).toBe('ProcessingModule');
-    const s0 = L.series['/acquisition/sweeps_e0'];
-    expect(s0.shape).toEqual([3 * set.nSamples, 1]);
-    expect(s0.dtype).toBe('float64');
-    expect(s0.unit).toBe('volts');
-    expect(Math.fround(s0.conversion)).toBe(Math.fround(1e-6)); // stored in uV, float32 per the schema
-    expect(s0.first).toEqual(Array.from(set.sweep(0).subarray(0, 5)));
-    expect(s0.timestamps.shape).toEqual([3 * set.nSamples]);
-    expect(s0.timestamps.unit).toBe('seconds');
-    expect(s0.electrodes.table).toBe('/general/extracellular_ephys/electrodes');
-    let sumV = 0;
-    for (let i = 0; i < 3 * set.nSamples; i++) sumV += set.data[i];
-    expect(s0.sum_volts).toBeCloseTo(sumV * s0.conversion, 12);
-    const trials = L.tables['/intervals/trials'];
-    expect(trials.rows).toBe(6);
-    expect(trials.values.intensity).toEqual(set.column('intensity'));
-    expect(trials.values.site).toEqual(set.column('site'));
-    expect(trials.values.timeseries[4]).toEqual([300, 300, '/acquisition/sweeps_e1']);
-    const st = trials.values.stimulus_time as number[];
-    trials.values.start_time.forEach((t: number, i: number) => expect((t - st[i]) * 1000).toBeCloseTo(set.t0Ms, 9));
-    const el = L.tables['/general/extracellular_ephys/electrodes'];
-    expect(el.values.distance_mm).toEqual([20, 32.5]);
-    expect(el.values.location).toEqual(['proximal', 'distal']);
-    expect(L.tables['/processing/fascicle/velocity'].values.v).toEqual([41.5]);
-  });
+  it.skipIf(!HAVE_H5PY)(
+    'h5py finds the NWB layout, data, timestamps and conversion in what fascicle wrote; hdmf validates it',
+    async () => {
+      const set = sampleSet();
+      const p = join(tmp, 'independent.nwb');
+      await writeNwb(set, p, {
+        raw: true,
+        sessionStartTime: '2026-03-14T09:30:00+01:00',
+        results: { velocity: [{ class: 'A', v: 41.5 }] },
+      });
+      const r = independent(p);
+      if (HAVE_HDMF) expect(r.errors).toEqual([]);
+      const L = r.layout;
+      expect(L.root.neurodata_type).toBe('NWBFile');
+      expect(L.root.namespace).toBe('core');
+      expect(L.root.nwb_version).toBe('2.7.0');
+      expect(L.root.session_start_time).toBe('2026-03-14T09:30:00+01:00');
+      expect(r.types['/acquisition/sweeps_e0']).toBe('ElectricalSeries');
+      expect(r.types['/intervals/trials']).toBe('TimeIntervals');
+      expect(r.types['/general/extracellular_ephys/electrodes']).toBe('DynamicTable');
+      expect(r.types['/processing/fascicle']).toBe('ProcessingModule');
+      const s0 = L.series['/acquisition/sweeps_e0'];
+      expect(s0.shape).toEqual([3 * set.nSamples, 1]);
+      expect(s0.dtype).toBe('float64');
+      expect(s0.unit).toBe('volts');
+      expect(Math.fround(s0.conversion)).toBe(Math.fround(1e-6)); // stored in uV, float32 per the schema
+      expect(s0.first).toEqual(Array.from(set.sweep(0).subarray(0, 5)));
+      expect(s0.timestamps.shape).toEqual([3 * set.nSamples]);
+      expect(s0.timestamps.unit).toBe('seconds');
+      expect(s0.electrodes.table).toBe('/general/extracellular_ephys/electrodes');
+      let sumV = 0;
+      for (let i = 0; i < 3 * set.nSamples; i++) sumV += set.data[i];
+      expect(s0.sum_volts).toBeCloseTo(sumV * s0.conversion, 12);
+      const trials = L.tables['/intervals/trials'];
+      expect(trials.rows).toBe(6);
+      expect(trials.values.intensity).toEqual(set.column('intensity'));
+      expect(trials.values.site).toEqual(set.column('site'));
+      expect(trials.values.timeseries[4]).toEqual([300, 300, '/acquisition/sweeps_e1']);
+      const st = trials.values.stimulus_time as number[];
+      trials.values.start_time.forEach((t: number, i: number) => expect((t - st[i]) * 1000).toBeCloseTo(set.t0Ms, 9));
+      const el = L.tables['/general/extracellular_ephys/electrodes'];
+      expect(el.values.distance_mm).toEqual([20, 32.5]);
+      expect(el.values.location).toEqual(['proximal', 'distal']);
+      expect(L.tables['/processing/fascicle/velocity'].values.v).toEqual([41.5]);
+    },
+  );
 });

@@ -21,8 +21,19 @@ function recorded(series: string, sign = 1): SweepSet {
   const out = new Float64Array(data.length);
   for (let i = 0; i < data.length; i++) out[i] = sign * data[i];
   return new SweepSet({
-    data: out, nSweeps: s.traces.length, nSamples: n, fs: s.fs, t0Ms: s.t0Ms, units: 'uV',
-    conditions: s.traces.map((t) => ({ preparation: 'FNPG-N07-TA', distanceMm: t.distance_mm, temperatureC: t.temperature_C, repeat: t.repeat, intensity: t.stimulus_mA })),
+    data: out,
+    nSweeps: s.traces.length,
+    nSamples: n,
+    fs: s.fs,
+    t0Ms: s.t0Ms,
+    units: 'uV',
+    conditions: s.traces.map((t) => ({
+      preparation: 'FNPG-N07-TA',
+      distanceMm: t.distance_mm,
+      temperatureC: t.temperature_C,
+      repeat: t.repeat,
+      intensity: t.stimulus_mA,
+    })),
   });
 }
 
@@ -34,7 +45,10 @@ function cleanSums(series: string): SweepSet {
   const data = new Float64Array(keys.length * n);
   const conditions = keys.map((k, r) => {
     const [ci, d] = k.split('|').map(Number);
-    s.clean.forEach((c, i) => { if (c.condition_index === ci && c.distance_mm === d) for (let j = 0; j < n; j++) data[r * n + j] += clean[i * n + j]; });
+    s.clean.forEach((c, i) => {
+      if (c.condition_index === ci && c.distance_mm === d)
+        for (let j = 0; j < n; j++) data[r * n + j] += clean[i * n + j];
+    });
     const T = s.clean.find((c) => c.condition_index === ci)!.temperature_C;
     return { preparation: 'FNPG-N07-TA', distanceMm: d, temperatureC: T };
   });
@@ -42,18 +56,34 @@ function cleanSums(series: string): SweepSet {
 }
 
 /** The noise-free class sums with white noise of the given rms (uV) added, `repeats` sweeps each (seeded). */
-function cleanPlusNoise(series: string, rms: number, repeats: number, seed = 1, transform?: (c: SweepSet) => SweepSet): SweepSet {
+function cleanPlusNoise(
+  series: string,
+  rms: number,
+  repeats: number,
+  seed = 1,
+  transform?: (c: SweepSet) => SweepSet,
+): SweepSet {
   const c = transform ? transform(cleanSums(series)) : cleanSums(series);
   const rng = new model.Rng(seed);
   const n = c.nSamples;
   const data = new Float64Array(c.nSweeps * repeats * n);
   const conditions = [];
-  for (let s = 0; s < c.nSweeps; s++) for (let r = 0; r < repeats; r++) {
-    const row = (s * repeats + r) * n, x = c.sweep(s);
-    for (let i = 0; i < n; i++) data[row + i] = x[i] + rms * rng.normal();
-    conditions.push({ ...c.conditions[s], repeat: r });
-  }
-  return new SweepSet({ data, nSweeps: c.nSweeps * repeats, nSamples: n, fs: c.fs, t0Ms: c.t0Ms, units: 'uV', conditions });
+  for (let s = 0; s < c.nSweeps; s++)
+    for (let r = 0; r < repeats; r++) {
+      const row = (s * repeats + r) * n,
+        x = c.sweep(s);
+      for (let i = 0; i < n; i++) data[row + i] = x[i] + rms * rng.normal();
+      conditions.push({ ...c.conditions[s], repeat: r });
+    }
+  return new SweepSet({
+    data,
+    nSweeps: c.nSweeps * repeats,
+    nSamples: n,
+    fs: c.fs,
+    t0Ms: c.t0Ms,
+    units: 'uV',
+    conditions,
+  });
 }
 
 /** Mean over the sweeps of a group of rows of one latency column (null when any is missing). */
@@ -63,46 +93,77 @@ function mean(rows: ComponentRow[], col: string): number | null {
   return (v as number[]).reduce((a, b) => a + b, 0) / v.length;
 }
 
-export function latencyReport(rows: ComponentRow[], label: string): { lines: string[]; errors: Record<string, number[]> } {
+export function latencyReport(
+  rows: ComponentRow[],
+  label: string,
+): { lines: string[]; errors: Record<string, number[]> } {
   const lines: string[] = [];
   const errors: Record<string, number[]> = {};
-  for (const T of TEMPS) for (const cls of ['A-alpha/beta', 'A-delta']) for (const d of [15, 25]) {
-    const truth = meta.truth_clean_component[String(T)]?.[KEY[cls]]?.[`${d}mm`];
-    const g = rows.filter((r) => r.class === cls && r.temperatureC === T && r.distance_mm === d);
-    if (!truth || !g.length) continue;
-    const parts: string[] = [];
-    for (const [col, tk] of [['onset10_ms', 'onset10_latency_ms'], ['halfrise_ms', 'halfrise_latency_ms'], ['peak_ms', 'peak_latency_ms']] as const) {
-      const est = mean(g, col);
-      const tv = truth[tk];
-      const err = est === null ? null : est - tv;
-      parts.push(`${col} ${est === null ? 'n/a' : est.toFixed(3)} vs ${tv.toFixed(3)} (${err === null ? 'n/a' : (err >= 0 ? '+' : '') + (1000 * err).toFixed(0) + ' us'})`);
-      if (err !== null) (errors[`${cls}|${col}`] ??= []).push(err);
-    }
-    const det = g.filter((r) => r.detected).length;
-    lines.push(`${label} ${T} C ${cls} ${d} mm [${det}/${g.length} detected]: ${parts.join('; ')}`);
-  }
+  for (const T of TEMPS)
+    for (const cls of ['A-alpha/beta', 'A-delta'])
+      for (const d of [15, 25]) {
+        const truth = meta.truth_clean_component[String(T)]?.[KEY[cls]]?.[`${d}mm`];
+        const g = rows.filter((r) => r.class === cls && r.temperatureC === T && r.distance_mm === d);
+        if (!truth || !g.length) continue;
+        const parts: string[] = [];
+        for (const [col, tk] of [
+          ['onset10_ms', 'onset10_latency_ms'],
+          ['halfrise_ms', 'halfrise_latency_ms'],
+          ['peak_ms', 'peak_latency_ms'],
+        ] as const) {
+          const est = mean(g, col);
+          const tv = truth[tk];
+          const err = est === null ? null : est - tv;
+          parts.push(
+            `${col} ${est === null ? 'n/a' : est.toFixed(3)} vs ${tv.toFixed(3)} (${err === null ? 'n/a' : (err >= 0 ? '+' : '') + (1000 * err).toFixed(0) + ' us'})`,
+          );
+          if (err !== null) (errors[`${cls}|${col}`] ??= []).push(err);
+        }
+        const det = g.filter((r) => r.detected).length;
+        lines.push(`${label} ${T} C ${cls} ${d} mm [${det}/${g.length} detected]: ${parts.join('; ')}`);
+      }
   return { lines, errors };
 }
 
 function twoSite(rows: ComponentRow[], label: string): string[] {
   const out: string[] = [];
-  for (const T of TEMPS) for (const cls of ['A-alpha/beta', 'A-delta']) {
-    const tr = meta.truth_clean_component[String(T)][KEY[cls]].two_site;
-    const at = (d: number, c: string) => mean(rows.filter((r) => r.class === cls && r.temperatureC === T && r.distance_mm === d), c);
-    const parts: string[] = [];
-    for (const [col, tk] of [['onset10_ms', 'v_onset10'], ['halfrise_ms', 'v_halfrise'], ['peak_ms', 'v_peak']] as const) {
-      const a = at(15, col), b = at(25, col);
-      const v = a !== null && b !== null ? 10 / (b - a) : null;
-      parts.push(`${col} ${v === null ? 'n/a' : v.toFixed(2)} vs ${tr[tk].toFixed(2)} m/s (${v === null ? 'n/a' : ((100 * (v - tr[tk])) / tr[tk]).toFixed(1) + '%'})`);
+  for (const T of TEMPS)
+    for (const cls of ['A-alpha/beta', 'A-delta']) {
+      const tr = meta.truth_clean_component[String(T)][KEY[cls]].two_site;
+      const at = (d: number, c: string) =>
+        mean(
+          rows.filter((r) => r.class === cls && r.temperatureC === T && r.distance_mm === d),
+          c,
+        );
+      const parts: string[] = [];
+      for (const [col, tk] of [
+        ['onset10_ms', 'v_onset10'],
+        ['halfrise_ms', 'v_halfrise'],
+        ['peak_ms', 'v_peak'],
+      ] as const) {
+        const a = at(15, col),
+          b = at(25, col);
+        const v = a !== null && b !== null ? 10 / (b - a) : null;
+        parts.push(
+          `${col} ${v === null ? 'n/a' : v.toFixed(2)} vs ${tr[tk].toFixed(2)} m/s (${v === null ? 'n/a' : ((100 * (v - tr[tk])) / tr[tk]).toFixed(1) + '%'})`,
+        );
+      }
+      out.push(`${label} ${T} C ${cls} two-site 15->25 mm: ${parts.join('; ')}`);
     }
-    out.push(`${label} ${T} C ${cls} two-site 15->25 mm: ${parts.join('; ')}`);
-  }
   return out;
 }
 
 /** The set with every sample multiplied by -1 (an amplifier that does not invert). */
 function inverted(set: SweepSet): SweepSet {
-  return new SweepSet({ data: Float64Array.from(set.data, (v) => -v), nSweeps: set.nSweeps, nSamples: set.nSamples, fs: set.fs, t0Ms: set.t0Ms, units: set.units, conditions: set.conditions });
+  return new SweepSet({
+    data: Float64Array.from(set.data, (v) => -v),
+    nSweeps: set.nSweeps,
+    nSamples: set.nSamples,
+    fs: set.fs,
+    t0Ms: set.t0Ms,
+    units: set.units,
+    conditions: set.conditions,
+  });
 }
 
 /** A bipolar recording: the 15 mm trace minus the 25 mm trace of each condition (one channel, distance 15 mm). */
@@ -111,12 +172,23 @@ function bipolar(set: SweepSet): SweepSet {
   const near = set.conditions.map((c, i) => [c, i] as const).filter(([c]) => c.distanceMm === 15);
   const data = new Float64Array(near.length * n);
   const conditions = near.map(([c, i], r) => {
-    const j = set.conditions.findIndex((q) => q.distanceMm === 25 && q.temperatureC === c.temperatureC && q.repeat === c.repeat);
-    const a = set.sweep(i), b = set.sweep(j);
+    const j = set.conditions.findIndex(
+      (q) => q.distanceMm === 25 && q.temperatureC === c.temperatureC && q.repeat === c.repeat,
+    );
+    const a = set.sweep(i),
+      b = set.sweep(j);
     for (let k = 0; k < n; k++) data[r * n + k] = a[k] - b[k];
     return { ...c };
   });
-  return new SweepSet({ data, nSweeps: near.length, nSamples: n, fs: set.fs, t0Ms: set.t0Ms, units: set.units, conditions });
+  return new SweepSet({
+    data,
+    nSweeps: near.length,
+    nSamples: n,
+    fs: set.fs,
+    t0Ms: set.t0Ms,
+    units: set.units,
+    conditions,
+  });
 }
 
 /**
@@ -124,17 +196,27 @@ function bipolar(set: SweepSet): SweepSet {
  * large negative, small positive phases; shape from the description of cuff recordings, not from data).
  */
 function triphasic(set: SweepSet): SweepSet {
-  const n = set.nSamples, sh = Math.round(0.15 * set.fs / 1000);
+  const n = set.nSamples,
+    sh = Math.round((0.15 * set.fs) / 1000);
   const data = new Float64Array(set.data.length);
   for (let s = 0; s < set.nSweeps; s++) {
     const x = set.sweep(s);
     for (let i = 0; i < n; i++) data[s * n + i] = -x[i] + 0.3 * (x[Math.min(n - 1, i + sh)] + x[Math.max(0, i - sh)]);
   }
-  return new SweepSet({ data, nSweeps: set.nSweeps, nSamples: n, fs: set.fs, t0Ms: set.t0Ms, units: set.units, conditions: set.conditions });
+  return new SweepSet({
+    data,
+    nSweeps: set.nSweeps,
+    nSamples: n,
+    fs: set.fs,
+    t0Ms: set.t0Ms,
+    units: set.units,
+    conditions: set.conditions,
+  });
 }
 
 const rowsOf = (t: { rows: readonly ComponentRow[] }) => t.rows as ComponentRow[];
-const at = (rows: ComponentRow[], cls: string, T: number, d: number) => rows.filter((r) => r.class === cls && r.temperatureC === T && r.distance_mm === d);
+const at = (rows: ComponentRow[], cls: string, T: number, d: number) =>
+  rows.filter((r) => r.class === cls && r.temperatureC === T && r.distance_mm === d);
 
 describe('development set FNPG-N07 (independent simulation): A-delta on the A-alpha/beta tail', () => {
   const clean = cleanSums('temperature_fast').components({ preset: 'mammalian' });
@@ -144,15 +226,30 @@ describe('development set FNPG-N07 (independent simulation): A-delta on the A-al
   const recordedT = recorded('temperature_fast').baseline().components({ preset: 'mammalian' });
 
   it('prints estimate, truth and error per class, electrode and latency definition', () => {
-    const parts = [latencyReport(rowsOf(clean), 'clean sum'), latencyReport(rowsOf(noisy), 'clean + 15 uV noise, mean of 4'),
-      latencyReport(rowsOf(recordedT), 'recorded sweeps, mean of 4')];
-    console.log([...parts[0].lines, ...twoSite(rowsOf(clean), 'clean sum'), ...parts[1].lines, ...twoSite(rowsOf(noisy), 'clean + noise'),
-      ...parts[2].lines, ...twoSite(rowsOf(recordedT), 'recorded')].join('\n'));
+    const parts = [
+      latencyReport(rowsOf(clean), 'clean sum'),
+      latencyReport(rowsOf(noisy), 'clean + 15 uV noise, mean of 4'),
+      latencyReport(rowsOf(recordedT), 'recorded sweeps, mean of 4'),
+    ];
+    console.log(
+      [
+        ...parts[0].lines,
+        ...twoSite(rowsOf(clean), 'clean sum'),
+        ...parts[1].lines,
+        ...twoSite(rowsOf(noisy), 'clean + noise'),
+        ...parts[2].lines,
+        ...twoSite(rowsOf(recordedT), 'recorded'),
+      ].join('\n'),
+    );
     expect(parts[0].lines.length).toBe(16);
   });
 
   it('A-alpha/beta: onset10, half-rise and peak within 10 us of the truth (clean sum, clean + noise; 15 us recorded), every T and electrode', () => {
-    for (const [rows, tol] of [[rowsOf(clean), 0.01], [rowsOf(noisy), 0.01], [rowsOf(recordedT), 0.015]] as const) {
+    for (const [rows, tol] of [
+      [rowsOf(clean), 0.01],
+      [rowsOf(noisy), 0.01],
+      [rowsOf(recordedT), 0.015],
+    ] as const) {
       const { errors } = latencyReport(rows, '');
       for (const col of ['onset10_ms', 'halfrise_ms', 'peak_ms']) {
         const e = errors[`A-alpha/beta|${col}`];
@@ -165,7 +262,9 @@ describe('development set FNPG-N07 (independent simulation): A-delta on the A-al
   it('A-delta is detected and measured in every sweep at 15 and 25 mm (clean sum; clean + noise and recorded: 32 supramaximal sweeps each)', () => {
     for (const t of [clean, noisy, recordedT]) {
       const rows = t.rows.filter((r) => r.class === 'A-delta');
-      const bad = rows.filter((r) => !r.detected).map((r) => `${r.temperatureC} C ${r.distance_mm} mm: ${r.status} ${r.reason}`);
+      const bad = rows
+        .filter((r) => !r.detected)
+        .map((r) => `${r.temperatureC} C ${r.distance_mm} mm: ${r.status} ${r.reason}`);
       expect(bad).toEqual([]);
       for (const r of rows) {
         expect(r.separation).toBe('velocity-decomposition');
@@ -186,7 +285,10 @@ describe('development set FNPG-N07 (independent simulation): A-delta on the A-al
           const truth = meta.truth_clean_component[String(T)].A_delta[`${d}mm`].peak_latency_ms;
           expect(Math.abs((mean(at(rows, 'A-delta', T, d), 'peak_ms') as number) - truth)).toBeLessThan(tol[T]);
         }
-        const v = 10 / ((mean(at(rows, 'A-delta', T, 25), 'peak_ms') as number) - (mean(at(rows, 'A-delta', T, 15), 'peak_ms') as number));
+        const v =
+          10 /
+          ((mean(at(rows, 'A-delta', T, 25), 'peak_ms') as number) -
+            (mean(at(rows, 'A-delta', T, 15), 'peak_ms') as number));
         const tv = meta.truth_clean_component[String(T)].A_delta.two_site.v_peak;
         expect(Math.abs(v - tv) / tv).toBeLessThan(0.1);
       }
@@ -198,31 +300,43 @@ describe('development set FNPG-N07 (independent simulation): A-delta on the A-al
       expect(['measured', 'not detected', 'not resolved']).toContain(r.status);
       if (r.status !== 'measured') {
         expect(typeof r.reason).toBe('string');
-        for (const c of ['onset10_ms', 'halfrise_ms', 'peak_ms', 'centroid_ms', 'amplitude_uV']) expect(r[c]).toBeNull();
+        for (const c of ['onset10_ms', 'halfrise_ms', 'peak_ms', 'centroid_ms', 'amplitude_uV'])
+          expect(r[c]).toBeNull();
       }
     }
-    for (const T of [20, 25, 30]) for (const d of [15, 25]) {
-      const g = at(rowsOf(recordedT), 'A-alpha/beta', T, d);
-      expect(g.every((r) => r.detected)).toBe(true);
-      const truth = meta.truth_clean_component[String(T)].A_alpha_beta[`${d}mm`].halfrise_latency_ms;
-      expect(Math.abs((mean(g, 'halfrise_ms') as number) - truth)).toBeLessThan(0.025);
-    }
+    for (const T of [20, 25, 30])
+      for (const d of [15, 25]) {
+        const g = at(rowsOf(recordedT), 'A-alpha/beta', T, d);
+        expect(g.every((r) => r.detected)).toBe(true);
+        const truth = meta.truth_clean_component[String(T)].A_alpha_beta[`${d}mm`].halfrise_latency_ms;
+        expect(Math.abs((mean(g, 'halfrise_ms') as number) - truth)).toBeLessThan(0.025);
+      }
   });
 });
 
 describe('development set FNPG-N07: polarity per class (inverted, bipolar, triphasic, artifact tail)', () => {
   it('inverted signal (x -1): every class polarity -1 (auto), the same latencies', () => {
-    const up = cleanPlusNoise('temperature_fast', 15, 2, 3).components({ preset: 'mammalian', classes: ['A-alpha/beta', 'A-delta'] });
-    const down = inverted(cleanPlusNoise('temperature_fast', 15, 2, 3)).components({ preset: 'mammalian', classes: ['A-alpha/beta', 'A-delta'] });
+    const up = cleanPlusNoise('temperature_fast', 15, 2, 3).components({
+      preset: 'mammalian',
+      classes: ['A-alpha/beta', 'A-delta'],
+    });
+    const down = inverted(cleanPlusNoise('temperature_fast', 15, 2, 3)).components({
+      preset: 'mammalian',
+      classes: ['A-alpha/beta', 'A-delta'],
+    });
     expect(up.resolved.polarities).toEqual({ 'A-alpha/beta': 1, 'A-delta': 1 });
     expect(down.resolved.polarities).toEqual({ 'A-alpha/beta': -1, 'A-delta': -1 });
     up.rows.forEach((r, i) => {
       expect(down.rows[i].status).toBe(r.status);
-      if (r.status === 'measured') expect(Math.abs((down.rows[i].peak_ms as number) - (r.peak_ms as number))).toBeLessThan(1e-6);
+      if (r.status === 'measured')
+        expect(Math.abs((down.rows[i].peak_ms as number) - (r.peak_ms as number))).toBeLessThan(1e-6);
     });
   });
   it('bipolar recording (15 mm minus 25 mm): A-alpha/beta on its first, positive phase (the near contact), not the far one', () => {
-    const b = bipolar(cleanPlusNoise('temperature_fast', 15, 2, 4)).components({ preset: 'mammalian', classes: ['A-alpha/beta', 'A-delta'] });
+    const b = bipolar(cleanPlusNoise('temperature_fast', 15, 2, 4)).components({
+      preset: 'mammalian',
+      classes: ['A-alpha/beta', 'A-delta'],
+    });
     expect(b.resolved.polarities['A-alpha/beta']).toBe(1);
     for (const T of [20, 25, 30, 37]) {
       const g = b.rows.filter((r) => r.class === 'A-alpha/beta' && r.temperatureC === T);
@@ -247,13 +361,16 @@ describe('development set FNPG-N07: polarity per class (inverted, bipolar, triph
     const errs: Record<string, number[]> = {};
     [20, 25, 30, 37].forEach((T, ci) => {
       for (const cls of ['A-alpha/beta', 'A-delta']) {
-        const a = wave(ci, 15, KEY[cls]), c = wave(ci, 25, KEY[cls]);
+        const a = wave(ci, 15, KEY[cls]),
+          c = wave(ci, 25, KEY[cls]);
         const diff = Float64Array.from(a, (v, i) => v - c[i]);
         const truth = sr.t0Ms + (ownLatencies(diff, 0, n - 1).peakIndex * 1000) / sr.fs;
         const g = b.rows.filter((r) => r.class === cls && r.temperatureC === T);
         const pk = mean(g, 'peak_ms');
         if (pk !== null) (errs[cls] ??= []).push(pk - truth);
-        lines.push(`bipolar 15-25 mm ${T} C ${cls}: ${g.filter((r) => r.detected).length}/${g.length} measured; peak ${pk === null ? 'n/a' : pk.toFixed(3)} vs ${truth.toFixed(3)} ms (clean class-only 15 - 25 mm)`);
+        lines.push(
+          `bipolar 15-25 mm ${T} C ${cls}: ${g.filter((r) => r.detected).length}/${g.length} measured; peak ${pk === null ? 'n/a' : pk.toFixed(3)} vs ${truth.toFixed(3)} ms (clean class-only 15 - 25 mm)`,
+        );
       }
     });
     console.log(lines.join('\n'));
@@ -263,30 +380,47 @@ describe('development set FNPG-N07: polarity per class (inverted, bipolar, triph
     for (const e of errs['A-alpha/beta']) expect(Math.abs(e)).toBeLessThan(0.01);
   });
   it('triphasic (monopolar cuff) shape: the large negative main phase is chosen for A-alpha/beta, not a side lobe', () => {
-    const t = cleanPlusNoise('temperature_fast', 15, 2, 5, triphasic).components({ preset: 'mammalian', classes: ['A-alpha/beta', 'A-delta'] });
+    const t = cleanPlusNoise('temperature_fast', 15, 2, 5, triphasic).components({
+      preset: 'mammalian',
+      classes: ['A-alpha/beta', 'A-delta'],
+    });
     expect(t.resolved.polarities['A-alpha/beta']).toBe(-1);
-    for (const T of [20, 25, 30, 37]) for (const d of [15, 25]) {
-      const tr = meta.truth_clean_component[String(T)].A_alpha_beta[`${d}mm`];
-      const g = at(rowsOf(t), 'A-alpha/beta', T, d);
-      // the side lobes sit 0.15 ms either side and are 0.3 x as large: the main phase is within 0.1 ms and over half the size
-      expect(Math.abs((mean(g, 'peak_ms') as number) - tr.peak_latency_ms)).toBeLessThan(0.1);
-      expect(mean(g, 'amplitude_uV') as number).toBeGreaterThan(0.5 * tr.peak_V * 1e6);
-    }
+    for (const T of [20, 25, 30, 37])
+      for (const d of [15, 25]) {
+        const tr = meta.truth_clean_component[String(T)].A_alpha_beta[`${d}mm`];
+        const g = at(rowsOf(t), 'A-alpha/beta', T, d);
+        // the side lobes sit 0.15 ms either side and are 0.3 x as large: the main phase is within 0.1 ms and over half the size
+        expect(Math.abs((mean(g, 'peak_ms') as number) - tr.peak_latency_ms)).toBeLessThan(0.1);
+        expect(mean(g, 'amplitude_uV') as number).toBeGreaterThan(0.5 * tr.peak_V * 1e6);
+      }
   });
   it('recorded sweeps: the clipped artifact (rail -10 mV, larger than the CAP) does not flip A-alpha/beta or A-delta; a per-class override wins', () => {
     const set = recorded('temperature_fast').baseline();
     const r = set.components({ preset: 'mammalian', classes: ['A-alpha/beta', 'A-delta'], separation: 'trough' });
     expect(r.resolved.polarities).toEqual({ 'A-alpha/beta': 1, 'A-delta': 1 });
-    const o = set.components({ preset: 'mammalian', classes: ['A-alpha/beta', 'A-delta'], separation: 'trough', polarity: { 'A-delta': -1 } });
+    const o = set.components({
+      preset: 'mammalian',
+      classes: ['A-alpha/beta', 'A-delta'],
+      separation: 'trough',
+      polarity: { 'A-delta': -1 },
+    });
     expect(o.resolved.polarities).toEqual({ 'A-alpha/beta': 1, 'A-delta': -1 });
     expect(o.resolved.polaritySource).toEqual({ 'A-alpha/beta': 'auto', 'A-delta': 'option' });
     expect(o.rows.filter((q) => q.class === 'A-delta').every((q) => q.polarity === -1)).toBe(true);
     // inverted recording: both flip
-    const inv = inverted(set).components({ preset: 'mammalian', classes: ['A-alpha/beta', 'A-delta'], separation: 'trough' });
+    const inv = inverted(set).components({
+      preset: 'mammalian',
+      classes: ['A-alpha/beta', 'A-delta'],
+      separation: 'trough',
+    });
     expect(inv.resolved.polarities).toEqual({ 'A-alpha/beta': -1, 'A-delta': -1 });
   });
   it('a misspelt class in the polarity option is a typed error naming the nearest class', () => {
-    expect(() => cleanSums('temperature_fast').components({ preset: 'mammalian', polarity: { 'A-detla': -1 } })).toThrow(/A-detla.*did you mean "A-delta"/);
-    expect(() => cleanSums('temperature_fast').components({ preset: 'mammalian', separation: 'decompse' as 'decompose' })).toThrow(/did you mean "decompose"/);
+    expect(() =>
+      cleanSums('temperature_fast').components({ preset: 'mammalian', polarity: { 'A-detla': -1 } }),
+    ).toThrow(/A-detla.*did you mean "A-delta"/);
+    expect(() =>
+      cleanSums('temperature_fast').components({ preset: 'mammalian', separation: 'decompse' as 'decompose' }),
+    ).toThrow(/did you mean "decompose"/);
   });
 });

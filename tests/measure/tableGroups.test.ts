@@ -6,12 +6,31 @@ import { model, compareGroups, mixedModel } from '../../src';
 describe('ComponentTable.compareGroups(options) and .mixedModel(options)', () => {
   const nerve = model.rodentSciatic();
   const sweeps = [];
-  for (const [prep, group] of [['a1', 'ctl'], ['a2', 'ctl'], ['a3', 'ctl'], ['b1', 'trt'], ['b2', 'trt'], ['b3', 'trt']]) {
+  for (const [prep, group] of [
+    ['a1', 'ctl'],
+    ['a2', 'ctl'],
+    ['a3', 'ctl'],
+    ['b1', 'trt'],
+    ['b2', 'trt'],
+    ['b3', 'trt'],
+  ]) {
     for (let r = 0; r < 2; r++) {
-      sweeps.push({ intensity: 50, distanceMm: 20, temperatureC: 37, concentration: 0, conditions: { preparation: prep, group, repeat: r } });
+      sweeps.push({
+        intensity: 50,
+        distanceMm: 20,
+        temperatureC: 37,
+        concentration: 0,
+        conditions: { preparation: prep, group, repeat: r },
+      });
     }
   }
-  const set = model.simulateNerve({ model: nerve, seed: 5, grid: { fs: 20000, t0Ms: -2, nSamples: 600 }, sweeps, nuisance: { noiseUv: 5 } });
+  const set = model.simulateNerve({
+    model: nerve,
+    seed: 5,
+    grid: { fs: 20000, t0Ms: -2, nSamples: 600 },
+    sweeps,
+    nuisance: { noiseUv: 5 },
+  });
   const table = set.baseline().components({ preset: 'mammalian', classes: ['A-alpha/beta'] });
   it('match the functions on the same rows, preparation as the unit', () => {
     const value = Object.keys(table.rows[0]).find((k) => /^amplitude_/.test(k))!;

@@ -22,18 +22,25 @@ describe('demo study round trip', () => {
         const row = r.velocity!.get('regression', 'centroid').find((q) => q.class === t.name && q.preparation === prep);
         expect(row, `${prep} ${t.name}`).toBeTruthy();
         const tol = t.name === 'C' ? 0.05 : 0.06;
-        expect(Math.abs(row!.velocity_m_s - t.vCentroid) / t.vCentroid, `${prep} ${t.name}: ${row!.velocity_m_s} vs ${t.vCentroid}`).toBeLessThan(tol);
+        expect(
+          Math.abs(row!.velocity_m_s - t.vCentroid) / t.vCentroid,
+          `${prep} ${t.name}: ${row!.velocity_m_s} vs ${t.vCentroid}`,
+        ).toBeLessThan(tol);
       }
     }
   });
-  it('IC50 per class within a factor of 1.35 of the preparations\' true geometric mean, C more sensitive than A', () => {
+  it("IC50 per class within a factor of 1.35 of the preparations' true geometric mean, C more sensitive than A", () => {
     for (const s of r.doseResponse!.summary) {
-      const ic = ['R1', 'R2', 'R3', 'R4'].map((p) => truth.preparations[p].classes['37'].find((c: { name: string }) => c.name === s.class).ic50);
+      const ic = ['R1', 'R2', 'R3', 'R4'].map(
+        (p) => truth.preparations[p].classes['37'].find((c: { name: string }) => c.name === s.class).ic50,
+      );
       const geo = Math.exp(ic.reduce((a: number, b: number) => a + Math.log(b), 0) / ic.length);
       expect((s.ic50 as number) / geo, String(s.class)).toBeGreaterThan(1 / 1.35);
       expect((s.ic50 as number) / geo, String(s.class)).toBeLessThan(1.35);
     }
-    expect(r.doseResponse!.comparisons.find((c) => c.classA === 'A-alpha/beta' && c.classB === 'C')!.p as number).toBeLessThan(0.001);
+    expect(
+      r.doseResponse!.comparisons.find((c) => c.classA === 'A-alpha/beta' && c.classB === 'C')!.p as number,
+    ).toBeLessThan(0.001);
   });
   it('Q10 of conduction velocity: C within 5%, A within 10% of the true 1.4', () => {
     const q = (c: string) => r.temperature!.rows.find((x) => x.class === c)!.q10 as number;

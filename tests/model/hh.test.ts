@@ -22,7 +22,8 @@ describe('Hodgkin-Huxley membrane (space clamp)', () => {
     let ahp = Infinity;
     for (let i = pk; i < r.V.length; i++) ahp = Math.min(ahp, r.V[i]);
     const half = (r.V[pk] + r.V[0]) / 2;
-    let up = NaN, down = NaN;
+    let up = NaN,
+      down = NaN;
     for (let i = 1; i < r.V.length; i++) {
       if (Number.isNaN(up) && r.V[i - 1] < half && r.V[i] >= half) up = r.t[i];
       if (!Number.isNaN(up) && Number.isNaN(down) && r.V[i - 1] >= half && r.V[i] < half) down = r.t[i];
@@ -44,27 +45,55 @@ describe('Hodgkin-Huxley membrane (space clamp)', () => {
 
 describe('cable models', () => {
   it('the 1952 squid axon (radius 238 um, 35.4 ohm cm, 18.5 C) conducts at 18.8 m/s (HH 1952, V) within 2%, converging as the grid is refined', () => {
-    const v = [0.2, 0.1, 0.05].map((dx) => simulateCable({ diameterUm: 476, resistivity: 35.4, temperatureC: 18.5, lengthMm: 50, dxMm: dx, dtMs: 0.005 }).velocity);
+    const v = [0.2, 0.1, 0.05].map(
+      (dx) =>
+        simulateCable({ diameterUm: 476, resistivity: 35.4, temperatureC: 18.5, lengthMm: 50, dxMm: dx, dtMs: 0.005 })
+          .velocity,
+    );
     for (const x of v) expect(Math.abs(x - 18.8) / 18.8).toBeLessThan(0.02);
     // successive refinements change the velocity less and less
     expect(Math.abs(v[2] - v[1])).toBeLessThanOrEqual(Math.abs(v[1] - v[0]) + 1e-3);
-    const vdt = [0.02, 0.01, 0.005, 0.0025].map((dt) => simulateCable({ diameterUm: 476, resistivity: 35.4, temperatureC: 18.5, lengthMm: 50, dxMm: 0.1, dtMs: dt }).velocity);
-    for (let i = 2; i < vdt.length; i++) expect(Math.abs(vdt[i] - vdt[i - 1])).toBeLessThan(Math.abs(vdt[i - 1] - vdt[i - 2]));
+    const vdt = [0.02, 0.01, 0.005, 0.0025].map(
+      (dt) =>
+        simulateCable({ diameterUm: 476, resistivity: 35.4, temperatureC: 18.5, lengthMm: 50, dxMm: 0.1, dtMs: dt })
+          .velocity,
+    );
+    for (let i = 2; i < vdt.length; i++)
+      expect(Math.abs(vdt[i] - vdt[i - 1])).toBeLessThan(Math.abs(vdt[i - 1] - vdt[i - 2]));
     // the refined value approaches the high-precision travelling-wave speed 18.7319 m/s (preprint, V)
     expect(Math.abs(vdt[3] - 18.7319) / 18.7319).toBeLessThan(0.005);
-    console.log('squid axon velocity (m/s) at dx 0.2/0.1/0.05 mm:', v.map((x) => x.toFixed(3)).join(' / '), '; dt 0.02..0.0025 ms:', vdt.map((x) => x.toFixed(3)).join(' / '));
+    console.log(
+      'squid axon velocity (m/s) at dx 0.2/0.1/0.05 mm:',
+      v.map((x) => x.toFixed(3)).join(' / '),
+      '; dt 0.02..0.0025 ms:',
+      vdt.map((x) => x.toFixed(3)).join(' / '),
+    );
   });
   it('passive cable decays with the length constant lambda = sqrt(Rm d / (4 Ri)) = 1.059 cm (C)', () => {
-    const r = simulateCable({ diameterUm: 476, resistivity: 35.4, lengthMm: 80, dxMm: 0.1, dtMs: 0.05, tMaxMs: 60, passive: true, injectUa: 1, stimulus: { amplitude: 0 } });
+    const r = simulateCable({
+      diameterUm: 476,
+      resistivity: 35.4,
+      lengthMm: 80,
+      dxMm: 0.1,
+      dtMs: 0.05,
+      tMaxMs: 60,
+      passive: true,
+      injectUa: 1,
+      stimulus: { amplitude: 0 },
+    });
     // sealed end at L: V(x) ~ cosh((L - x)/lambda); fit lambda from V at 0 and 20 mm
     const EL = -54.387;
-    const v0 = r.Vfinal[0] - EL, v1 = r.Vfinal[200] - EL;
-    const L = 8, x = 2;
+    const v0 = r.Vfinal[0] - EL,
+      v1 = r.Vfinal[200] - EL;
+    const L = 8,
+      x = 2;
     // solve cosh((L-x)/lam)/cosh(L/lam) = v1/v0 for lam by bisection
-    let lo = 0.5, hi = 2;
+    let lo = 0.5,
+      hi = 2;
     for (let i = 0; i < 60; i++) {
       const mid = (lo + hi) / 2;
-      if (Math.cosh((L - x) / mid) / Math.cosh(L / mid) < v1 / v0) lo = mid; else hi = mid; // ratio grows with lambda
+      if (Math.cosh((L - x) / mid) / Math.cosh(L / mid) < v1 / v0) lo = mid;
+      else hi = mid; // ratio grows with lambda
     }
     expect(Math.abs((lo + hi) / 2 - 1.059) / 1.059).toBeLessThan(0.01);
   });
@@ -78,7 +107,9 @@ describe('cable models', () => {
     expect(v[1] / v[0]).toBeCloseTo(2, 1);
   });
   it('unmyelinated velocity grows as sqrt(diameter) (cable theory)', () => {
-    const v = [0.5, 2].map((d) => simulateCable({ diameterUm: d, resistivity: 35.4, temperatureC: 18.5, lengthMm: 10, dxMm: 0.02 }).velocity);
+    const v = [0.5, 2].map(
+      (d) => simulateCable({ diameterUm: d, resistivity: 35.4, temperatureC: 18.5, lengthMm: 10, dxMm: 0.02 }).velocity,
+    );
     expect(v[1] / v[0]).toBeCloseTo(2, 1);
   });
 });

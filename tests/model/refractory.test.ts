@@ -5,7 +5,7 @@ import { rodentSciatic, simulateNerve, classTimeScale } from '../../src/model/ne
 // Direct simulations of the time-scaled Hodgkin-Huxley cable (src/model/refractory.ts).
 describe('timeScaledCable / absoluteRefractoryMs', () => {
   const arp1 = absoluteRefractoryMs({ tolMs: 0.002 });
-  it('scaling law: a fibre of time scale 11 has the squid fibre\'s refractory period / 11 (exact by the equations; direct simulation)', () => {
+  it("scaling law: a fibre of time scale 11 has the squid fibre's refractory period / 11 (exact by the equations; direct simulation)", () => {
     const arp11 = absoluteRefractoryMs({ timeScale: 11, tolMs: 0.0002 });
     expect(Math.abs(arp11 * 11 - arp1) / arp1).toBeLessThan(1e-3);
   });
@@ -50,8 +50,21 @@ describe('simulateNerve with pulsesMs', () => {
     const rc = { intensity: 5, distanceMm: 20, temperatureC: 37, concentration: 0, jitterMs: 0.003 };
     const nz = { noiseUv: 8, humUv: 30, artifactUv: 3000, driftUvPerMs: 0.05 };
     const a = simulateNerve({ model, seed: 3, grid, sweeps: [rc, rc], nuisance: nz });
-    const b = simulateNerve({ model, seed: 3, grid, sweeps: [{ ...rc, pulsesMs: [0] }, { ...rc, pulsesMs: [0] }], nuisance: nz });
-    expect(Buffer.from(b.data.buffer, b.data.byteOffset, b.data.byteLength).equals(Buffer.from(a.data.buffer, a.data.byteOffset, a.data.byteLength))).toBe(true);
+    const b = simulateNerve({
+      model,
+      seed: 3,
+      grid,
+      sweeps: [
+        { ...rc, pulsesMs: [0] },
+        { ...rc, pulsesMs: [0] },
+      ],
+      nuisance: nz,
+    });
+    expect(
+      Buffer.from(b.data.buffer, b.data.byteOffset, b.data.byteLength).equals(
+        Buffer.from(a.data.buffer, a.data.byteOffset, a.data.byteLength),
+      ),
+    ).toBe(true);
     expect(() => simulateNerve({ model, seed: 3, grid, sweeps: [{ ...rc, pulsesMs: [1, 2] }] })).toThrow(/pulsesMs/);
   });
 });

@@ -4,13 +4,20 @@
 import { describe, it, expect, afterEach } from 'vitest';
 import { SweepSet, setThreads, workerJobs, bridgeGap } from '../../src';
 
-const S = 60, N = 12000, fs = 50000; // 720,000 samples: above the threading threshold
+const S = 60,
+  N = 12000,
+  fs = 50000; // 720,000 samples: above the threading threshold
 function synthetic(): SweepSet {
   const data = new Float64Array(new SharedArrayBuffer(S * N * 8));
   for (let s = 0; s < S; s++) {
     for (let i = 0; i < N; i++) {
       const t = -2 + (i * 1000) / fs;
-      data[s * N + i] = 2 + 0.01 * s + (t >= 0 && t < 0.2 ? 300 : 0) + 40 * Math.exp(-0.5 * ((t - 1) / 0.2) ** 2) * (s % 5) + Math.sin(i * 12.9898 + s * 78.233);
+      data[s * N + i] =
+        2 +
+        0.01 * s +
+        (t >= 0 && t < 0.2 ? 300 : 0) +
+        40 * Math.exp(-0.5 * ((t - 1) / 0.2) ** 2) * (s % 5) +
+        Math.sin(i * 12.9898 + s * 78.233);
     }
   }
   // groups of unequal size, members not contiguous (as an acquisition order interleaves them)
@@ -22,9 +29,16 @@ const same = (a: Float64Array, b: Float64Array) => a.length === b.length && a.ev
 /** The per-sample loop over each group's members (the arithmetic the kernel must keep). */
 function referenceAverage(set: SweepSet, key: string, median: boolean) {
   const groups = new Map<string, number[]>();
-  set.conditions.forEach((c, i) => { const id = JSON.stringify([c[key]]); (groups.get(id) ?? groups.set(id, []).get(id)!).push(i); });
-  const n = set.nSamples, G = groups.size, x = set.data;
-  const out = new Float64Array(G * n), sd = new Float64Array(G * n), sem = new Float64Array(G * n);
+  set.conditions.forEach((c, i) => {
+    const id = JSON.stringify([c[key]]);
+    (groups.get(id) ?? groups.set(id, []).get(id)!).push(i);
+  });
+  const n = set.nSamples,
+    G = groups.size,
+    x = set.data;
+  const out = new Float64Array(G * n),
+    sd = new Float64Array(G * n),
+    sem = new Float64Array(G * n);
   [...groups.values()].forEach((idx, g) => {
     const m = idx.length;
     for (let i = 0; i < n; i++) {
@@ -32,7 +46,10 @@ function referenceAverage(set: SweepSet, key: string, median: boolean) {
       for (let k = 0; k < m; k++) s += x[idx[k] * n + i];
       const mean = s / m;
       let ss = 0;
-      for (let k = 0; k < m; k++) { const d = x[idx[k] * n + i] - mean; ss += d * d; }
+      for (let k = 0; k < m; k++) {
+        const d = x[idx[k] * n + i] - mean;
+        ss += d * d;
+      }
       const v = m > 1 ? Math.sqrt(ss / (m - 1)) : NaN;
       sd[g * n + i] = v;
       sem[g * n + i] = v / Math.sqrt(m);
@@ -56,7 +73,12 @@ describe('average kernel (groupBy(...).average())', () => {
       const two = set.groupBy('condition').average({ method });
       expect(workerJobs()).toBeGreaterThan(before); // the worker took part
       const ref = referenceAverage(set, 'condition', method === 'median');
-      for (const [a, b] of [[one.data, two.data], [one.extras.sd, two.extras.sd], [one.extras.sem, two.extras.sem]] as Float64Array[][]) expect(same(a, b)).toBe(true);
+      for (const [a, b] of [
+        [one.data, two.data],
+        [one.extras.sd, two.extras.sd],
+        [one.extras.sem, two.extras.sem],
+      ] as Float64Array[][])
+        expect(same(a, b)).toBe(true);
       expect(same(one.data, ref.out)).toBe(true);
       expect(same(one.extras.sd as Float64Array, ref.sd)).toBe(true);
       expect(same(one.extras.sem as Float64Array, ref.sem)).toBe(true);
@@ -71,16 +93,27 @@ describe('pending artifact bridge (removeArtifact blank)', () => {
       const results: Float64Array[] = [];
       for (const T of [1, 2]) {
         setThreads(T);
-        const b = synthetic().baseline({ window: [-2, -0.1] }).removeArtifact({ method: 'template', window: [0, 0.5], maxIntensity: 1 });
+        const b = synthetic()
+          .baseline({ window: [-2, -0.1] })
+          .removeArtifact({ method: 'template', window: [0, 0.5], maxIntensity: 1 });
         const blanked = b.removeArtifact({ method: 'blank', window: [0, 0.24], bridge });
         // eager reference: read the corrected samples, then bridge each sweep
         const eager = Float64Array.from(b.data);
-        const a = blanked.indexAt(0), z = blanked.indexAt(0.24);
+        const a = blanked.indexAt(0),
+          z = blanked.indexAt(0.24);
         for (let s = 0; s < S; s++) bridgeGap(eager.subarray(s * N, (s + 1) * N), a, z, bridge);
         expect(same(blanked.data, eager)).toBe(true);
         // and through the filter, which applies the pending correction as it reads
         const viaFilter = b.removeArtifact({ method: 'blank', window: [0, 0.24], bridge }).lowpass(5000).data;
-        const eagerFilter = new SweepSet({ data: eager, nSweeps: S, nSamples: N, fs, t0Ms: -2, units: 'uV', conditions: blanked.conditions }).lowpass(5000).data;
+        const eagerFilter = new SweepSet({
+          data: eager,
+          nSweeps: S,
+          nSamples: N,
+          fs,
+          t0Ms: -2,
+          units: 'uV',
+          conditions: blanked.conditions,
+        }).lowpass(5000).data;
         expect(same(viaFilter, eagerFilter)).toBe(true);
         results.push(viaFilter);
       }
@@ -89,14 +122,35 @@ describe('pending artifact bridge (removeArtifact blank)', () => {
   }
   it('blank twice, and template after blank, equal the eager order', () => {
     const b = synthetic().baseline({ window: [-2, -0.1] });
-    const twice = b.removeArtifact({ method: 'blank', window: [0, 0.1] }).removeArtifact({ method: 'blank', window: [0.06, 0.3], bridge: 'linear' }).data;
+    const twice = b
+      .removeArtifact({ method: 'blank', window: [0, 0.1] })
+      .removeArtifact({ method: 'blank', window: [0.06, 0.3], bridge: 'linear' }).data;
     const e = Float64Array.from(b.data);
-    for (let s = 0; s < S; s++) { const x = e.subarray(s * N, (s + 1) * N); bridgeGap(x, b.indexAt(0), b.indexAt(0.1), 'hermite'); bridgeGap(x, b.indexAt(0.06), b.indexAt(0.3), 'linear'); }
+    for (let s = 0; s < S; s++) {
+      const x = e.subarray(s * N, (s + 1) * N);
+      bridgeGap(x, b.indexAt(0), b.indexAt(0.1), 'hermite');
+      bridgeGap(x, b.indexAt(0.06), b.indexAt(0.3), 'linear');
+    }
     expect(same(twice, e)).toBe(true);
-    const blankThenTemplate = b.removeArtifact({ method: 'blank', window: [0, 0.1] }).removeArtifact({ method: 'template', window: [0, 0.5], maxIntensity: 1 }).data;
+    const blankThenTemplate = b
+      .removeArtifact({ method: 'blank', window: [0, 0.1] })
+      .removeArtifact({ method: 'template', window: [0, 0.5], maxIntensity: 1 }).data;
     const eb = b.removeArtifact({ method: 'blank', window: [0, 0.1] });
-    const materialised = new SweepSet({ data: Float64Array.from(eb.data), nSweeps: S, nSamples: N, fs, t0Ms: -2, units: 'uV', conditions: eb.conditions });
-    expect(same(blankThenTemplate, materialised.removeArtifact({ method: 'template', window: [0, 0.5], maxIntensity: 1 }).data)).toBe(true);
+    const materialised = new SweepSet({
+      data: Float64Array.from(eb.data),
+      nSweeps: S,
+      nSamples: N,
+      fs,
+      t0Ms: -2,
+      units: 'uV',
+      conditions: eb.conditions,
+    });
+    expect(
+      same(
+        blankThenTemplate,
+        materialised.removeArtifact({ method: 'template', window: [0, 0.5], maxIntensity: 1 }).data,
+      ),
+    ).toBe(true);
   });
 });
 
@@ -107,15 +161,22 @@ describe('float32 load kernel (finiteness checked on the float32 chunk)', () => 
     const { join } = await import('node:path');
     const { readBinary } = await import('../../src');
     const dir = mkdtempSync(join(tmpdir(), 'fascicle-kernels-'));
-    const S2 = 40, N2 = 20000;
+    const S2 = 40,
+      N2 = 20000;
     const a = Float32Array.from({ length: S2 * N2 }, (_, i) => Math.fround(Math.sin(i * 0.001) * 100));
     writeFileSync(join(dir, 'ok.f32'), new Uint8Array(a.buffer));
-    writeFileSync(join(dir, 'ok.json'), JSON.stringify({ data: 'ok.f32', dtype: 'float32', nSweeps: S2, nSamples: N2, fs, t0Ms: -2, units: 'uV' }));
+    writeFileSync(
+      join(dir, 'ok.json'),
+      JSON.stringify({ data: 'ok.f32', dtype: 'float32', nSweeps: S2, nSamples: N2, fs, t0Ms: -2, units: 'uV' }),
+    );
     const bad = Float32Array.from(a);
     bad[17 * N2 + 123] = NaN;
     bad[30 * N2 + 5] = Infinity;
     writeFileSync(join(dir, 'bad.f32'), new Uint8Array(bad.buffer));
-    writeFileSync(join(dir, 'bad.json'), JSON.stringify({ data: 'bad.f32', dtype: 'float32', nSweeps: S2, nSamples: N2, fs, t0Ms: -2, units: 'uV' }));
+    writeFileSync(
+      join(dir, 'bad.json'),
+      JSON.stringify({ data: 'bad.f32', dtype: 'float32', nSweeps: S2, nSamples: N2, fs, t0Ms: -2, units: 'uV' }),
+    );
     for (const T of [1, 2]) {
       setThreads(T);
       const set = readBinary(join(dir, 'ok.json'));
@@ -139,10 +200,34 @@ describe('samples kept as float32 (a loader may keep a float32 file as read)', (
     const b = new SweepSet({ ...init, data: wide });
     const chains: [string, (s: SweepSet) => Float64Array][] = [
       ['data', (s) => s.data],
-      ['baseline mean, blank, low-pass', (s) => s.baseline({ window: [-2, -0.1] }).removeArtifact({ method: 'blank', window: [0, 0.3] }).lowpass(5000).data],
-      ['baseline median with late window', (s) => s.baseline({ window: [-2, -0.1], method: 'median', lateWindow: [200, 230] }).data],
-      ['template then high-pass', (s) => s.baseline({ window: [-2, -0.1] }).removeArtifact({ method: 'template', window: [0, 0.4], maxIntensity: 1 }).highpass(100).data],
-      ['blank alone, then average', (s) => s.removeArtifact({ method: 'blank', window: [0, 0.3], bridge: 'linear' }).groupBy('condition').average().data],
+      [
+        'baseline mean, blank, low-pass',
+        (s) =>
+          s
+            .baseline({ window: [-2, -0.1] })
+            .removeArtifact({ method: 'blank', window: [0, 0.3] })
+            .lowpass(5000).data,
+      ],
+      [
+        'baseline median with late window',
+        (s) => s.baseline({ window: [-2, -0.1], method: 'median', lateWindow: [200, 230] }).data,
+      ],
+      [
+        'template then high-pass',
+        (s) =>
+          s
+            .baseline({ window: [-2, -0.1] })
+            .removeArtifact({ method: 'template', window: [0, 0.4], maxIntensity: 1 })
+            .highpass(100).data,
+      ],
+      [
+        'blank alone, then average',
+        (s) =>
+          s
+            .removeArtifact({ method: 'blank', window: [0, 0.3], bridge: 'linear' })
+            .groupBy('condition')
+            .average().data,
+      ],
       ['hum removal', (s) => s.removeHum({ frequency: 50, harmonics: 2 }).data],
       ['crop', (s) => s.crop(0, 10).data],
     ];
@@ -165,7 +250,8 @@ describe('loadAsRead kernel (float32 kept as read)', () => {
     const { join } = await import('node:path');
     const { runSweeps } = await import('../../src/parallel/pool');
     const dir = mkdtempSync(join(tmpdir(), 'fascicle-asread-'));
-    const S2 = 48, N2 = 16000;
+    const S2 = 48,
+      N2 = 16000;
     const a = Float32Array.from({ length: S2 * N2 }, (_, i) => Math.fround(Math.cos(i * 0.003) * 50));
     writeFileSync(join(dir, 'ok.f32'), new Uint8Array(a.buffer));
     const bad = Float32Array.from(a);
@@ -173,11 +259,15 @@ describe('loadAsRead kernel (float32 kept as read)', () => {
     writeFileSync(join(dir, 'bad.f32'), new Uint8Array(bad.buffer));
     for (const T of [1, 2]) {
       setThreads(T);
-      for (const [file, want] of [['ok.f32', -1], ['bad.f32', 40 * N2 + 7]] as const) {
+      for (const [file, want] of [
+        ['ok.f32', -1],
+        ['bad.f32', 40 * N2 + 7],
+      ] as const) {
         const fd = openSync(join(dir, file), 'r');
         const out = new Float32Array(new SharedArrayBuffer(S2 * N2 * 4));
         const before = workerJobs();
-        const firstBad = runSweeps('loadAsRead', { fd, nSamples: N2, out, chunkSweeps: 5 }, S2, S2 * N2).find((i) => i >= 0) ?? -1;
+        const firstBad =
+          runSweeps('loadAsRead', { fd, nSamples: N2, out, chunkSweeps: 5 }, S2, S2 * N2).find((i) => i >= 0) ?? -1;
         closeSync(fd);
         if (T === 2) expect(workerJobs()).toBeGreaterThan(before);
         expect(firstBad).toBe(want);

@@ -7,11 +7,24 @@ import { mkdtempSync, writeFileSync, appendFileSync, readFileSync } from 'node:f
 import { createHash } from 'node:crypto';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
-import { SweepSet, readBinary, readDelimited, setThreads, stopThreads, threads, workerJobs, InputError, ThreadError, writeWide } from '../../src';
+import {
+  SweepSet,
+  readBinary,
+  readDelimited,
+  setThreads,
+  stopThreads,
+  threads,
+  workerJobs,
+  InputError,
+  ThreadError,
+  writeWide,
+} from '../../src';
 import { setWorkerFault } from '../../src/parallel/pool';
 
 const dir = mkdtempSync(join(tmpdir(), 'fascicle-pool-'));
-const S = 48, N = 16000, fs = 50000; // 768,000 samples: above the threading threshold
+const S = 48,
+  N = 16000,
+  fs = 50000; // 768,000 samples: above the threading threshold
 
 function synthetic(): SweepSet {
   const data = new Float64Array(new SharedArrayBuffer(S * N * 8)); // as the loaders allocate large sets
@@ -23,10 +36,17 @@ function synthetic(): SweepSet {
       data[s * N + i] = 3 + 0.01 * s + art + resp + Math.sin(i * 12.9898 + s * 78.233);
     }
   }
-  const conditions = Array.from({ length: S }, (_, s) => ({ preparation: s < S / 2 ? 'P1' : 'P2', intensity: (s % 6) + 1 }));
+  const conditions = Array.from({ length: S }, (_, s) => ({
+    preparation: s < S / 2 ? 'P1' : 'P2',
+    intensity: (s % 6) + 1,
+  }));
   return new SweepSet({ data, nSweeps: S, nSamples: N, fs, t0Ms: -2, units: 'uV', conditions });
 }
-const chain = (x: SweepSet) => x.baseline({ window: [-2, -0.1], lateWindow: [250, 300] }).removeArtifact({ method: 'template', window: [0, 0.3], maxIntensity: 2 }).lowpass(5000, 4);
+const chain = (x: SweepSet) =>
+  x
+    .baseline({ window: [-2, -0.1], lateWindow: [250, 300] })
+    .removeArtifact({ method: 'template', window: [0, 0.3], maxIntensity: 2 })
+    .lowpass(5000, 4);
 const same = (a: Float64Array, b: Float64Array) => a.length === b.length && a.every((v, i) => Object.is(v, b[i]));
 
 afterEach(() => setThreads(2));
@@ -50,7 +70,10 @@ describe('conditioning on worker threads', () => {
     const t = eagerB.removeArtifact({ method: 'template', window: [0, 0.3], maxIntensity: 2 });
     const eagerT = t.create({ data: Float64Array.from(t.data) });
     const eager = eagerT.lowpass(5000, 4).data;
-    const fused = set.baseline({ window: [-2, -0.1] }).removeArtifact({ method: 'template', window: [0, 0.3], maxIntensity: 2 }).lowpass(5000, 4).data;
+    const fused = set
+      .baseline({ window: [-2, -0.1] })
+      .removeArtifact({ method: 'template', window: [0, 0.3], maxIntensity: 2 })
+      .lowpass(5000, 4).data;
     expect(same(eager, fused)).toBe(true);
     // and reading the deferred samples gives the same as the materialised copy
     expect(same(set.baseline({ window: [-2, -0.1] }).data, eagerB.data)).toBe(true);
@@ -93,7 +116,10 @@ describe('loading large files', () => {
   const f32 = new Float32Array(S * N);
   for (let i = 0; i < f32.length; i++) f32[i] = Math.fround(Math.sin(i * 0.37) * 100);
   writeFileSync(join(dir, 'big.bin'), new Uint8Array(f32.buffer));
-  writeFileSync(join(dir, 'big.json'), JSON.stringify({ data: 'big.bin', dtype: 'float32', nSweeps: S, nSamples: N, fs, t0Ms: -2, units: 'uV' }));
+  writeFileSync(
+    join(dir, 'big.json'),
+    JSON.stringify({ data: 'big.bin', dtype: 'float32', nSweeps: S, nSamples: N, fs, t0Ms: -2, units: 'uV' }),
+  );
 
   it('readBinary splits sweeps over threads and gives the same samples as one thread', () => {
     setThreads(1);
@@ -104,17 +130,46 @@ describe('loading large files', () => {
     expect(two[12345]).toBe(f32[12345]);
   });
   it('int16 interleaved channels with gain and offset, and big-endian float32, decode the same on 1 and 2 threads as a DataView reference', () => {
-    const nS = 40, nN = 9000, nC = 3; // 1,080,000 values
+    const nS = 40,
+      nN = 9000,
+      nC = 3; // 1,080,000 values
     const dv = new DataView(new ArrayBuffer(nS * nN * nC * 2));
     for (let i = 0; i < nS * nN * nC; i++) dv.setInt16(i * 2, ((i * 7919) % 65536) - 32768, true);
     writeFileSync(join(dir, 'i16.bin'), new Uint8Array(dv.buffer));
-    writeFileSync(join(dir, 'i16.json'), JSON.stringify({ data: 'i16.bin', dtype: 'int16', layout: 'interleaved', nSweeps: nS, nSamples: nN, nChannels: nC, channel: 2, gain: 0.25, offset: -3, fs, units: 'uV' }));
+    writeFileSync(
+      join(dir, 'i16.json'),
+      JSON.stringify({
+        data: 'i16.bin',
+        dtype: 'int16',
+        layout: 'interleaved',
+        nSweeps: nS,
+        nSamples: nN,
+        nChannels: nC,
+        channel: 2,
+        gain: 0.25,
+        offset: -3,
+        fs,
+        units: 'uV',
+      }),
+    );
     const be = new DataView(new ArrayBuffer(nS * nN * 4));
     for (let i = 0; i < nS * nN; i++) be.setFloat32(i * 4, Math.sin(i) * 1e3, false);
     writeFileSync(join(dir, 'be.bin'), new Uint8Array(be.buffer));
-    writeFileSync(join(dir, 'be.json'), JSON.stringify({ data: 'be.bin', dtype: 'float32', byteOrder: 'big', nSweeps: nS, nSamples: nN, fs, units: 'uV' }));
+    writeFileSync(
+      join(dir, 'be.json'),
+      JSON.stringify({
+        data: 'be.bin',
+        dtype: 'float32',
+        byteOrder: 'big',
+        nSweeps: nS,
+        nSamples: nN,
+        fs,
+        units: 'uV',
+      }),
+    );
     const refI16 = Float64Array.from({ length: nS * nN }, (_, k) => {
-      const s = Math.floor(k / nN), i = k % nN;
+      const s = Math.floor(k / nN),
+        i = k % nN;
       return dv.getInt16(((s * nN + i) * nC + 2) * 2, true) * 0.25 - 3;
     });
     const refBe = Float64Array.from({ length: nS * nN }, (_, k) => be.getFloat32(k * 4, false));
@@ -125,9 +180,16 @@ describe('loading large files', () => {
     }
   });
   it('a large CSV parses the same on 1 and 2 threads; a comment line, a CRLF or a bad cell in the second half falls back to the exact parser', () => {
-    const rows = 3000, cols = 400; // about 10 MB
+    const rows = 3000,
+      cols = 400; // about 10 MB
     const lines = [['time (ms)', ...Array.from({ length: cols }, (_, c) => `s${c} (uV)`)].join(',')];
-    for (let i = 0; i < rows; i++) lines.push([(i * 0.02).toFixed(2), ...Array.from({ length: cols }, (_, c) => (Math.round(Math.sin(i * 0.37 + c) * 1e5) / 100).toString())].join(','));
+    for (let i = 0; i < rows; i++)
+      lines.push(
+        [
+          (i * 0.02).toFixed(2),
+          ...Array.from({ length: cols }, (_, c) => (Math.round(Math.sin(i * 0.37 + c) * 1e5) / 100).toString()),
+        ].join(','),
+      );
     const text = lines.join('\n') + '\n';
     writeFileSync(join(dir, 'big-text.csv'), text);
     setThreads(1);
@@ -148,15 +210,24 @@ describe('loading large files', () => {
     const bad = [...lines];
     bad[2801] = bad[2801].replace(/,[^,]*$/, ',oops');
     writeFileSync(join(dir, 'big-bad.csv'), bad.join('\n'));
-    expect(() => readDelimited(join(dir, 'big-bad.csv'))).toThrow(new RegExp(`big-bad\\.csv, line 2802, column ${cols + 1}: a non-numeric cell "oops"`));
+    expect(() => readDelimited(join(dir, 'big-bad.csv'))).toThrow(
+      new RegExp(`big-bad\\.csv, line 2802, column ${cols + 1}: a non-numeric cell "oops"`),
+    );
   });
   it('a NaN in the part a worker reads is reported with its sweep and sample', () => {
     const bad = Float32Array.from(f32);
     bad[(S - 3) * N + 77] = NaN;
     writeFileSync(join(dir, 'nan.bin'), new Uint8Array(bad.buffer));
-    writeFileSync(join(dir, 'nan.json'), JSON.stringify({ data: 'nan.bin', dtype: 'float32', nSweeps: S, nSamples: N, fs, units: 'uV' }));
+    writeFileSync(
+      join(dir, 'nan.json'),
+      JSON.stringify({ data: 'nan.bin', dtype: 'float32', nSweeps: S, nSamples: N, fs, units: 'uV' }),
+    );
     let err: unknown;
-    try { readBinary(join(dir, 'nan.json')); } catch (e) { err = e; }
+    try {
+      readBinary(join(dir, 'nan.json'));
+    } catch (e) {
+      err = e;
+    }
     expect(err).toBeInstanceOf(InputError);
     expect(String((err as Error).message)).toMatch(new RegExp(`nan\\.bin.*sweep ${S - 3}.*sample 77`, 's'));
   });
@@ -164,7 +235,11 @@ describe('loading large files', () => {
     const set = readBinary(join(dir, 'big.json'));
     const src = set.sources.find((s) => s.path.endsWith('big.bin'))!;
     // reference: node:crypto over the whole file
-    expect(src.sha256).toBe(createHash('sha256').update(readFileSync(join(dir, 'big.bin'))).digest('hex'));
+    expect(src.sha256).toBe(
+      createHash('sha256')
+        .update(readFileSync(join(dir, 'big.bin')))
+        .digest('hex'),
+    );
     writeWide(join(dir, 'big.csv'), set);
     const csv = readDelimited(join(dir, 'big.csv'));
     appendFileSync(join(dir, 'big.csv'), '\n');
@@ -201,12 +276,19 @@ describe('a worker thread that dies never hangs the caller', () => {
     const x = new Float32Array(S * N);
     for (let i = 0; i < x.length; i++) x[i] = Math.sin(i * 0.001);
     writeFileSync(p, new Uint8Array(x.buffer));
-    writeFileSync(join(dir, 'fault.json'), JSON.stringify({ data: 'fault.bin', dtype: 'float32', nSweeps: S, nSamples: N, fs, units: 'uV' }));
+    writeFileSync(
+      join(dir, 'fault.json'),
+      JSON.stringify({ data: 'fault.bin', dtype: 'float32', nSweeps: S, nSamples: N, fs, units: 'uV' }),
+    );
     setThreads(2);
     await stopThreads();
     setWorkerFault('exit');
     let err: unknown;
-    try { readBinary(join(dir, 'fault.json')); } catch (e) { err = e; }
+    try {
+      readBinary(join(dir, 'fault.json'));
+    } catch (e) {
+      err = e;
+    }
     expect(err).toBeInstanceOf(ThreadError);
     expect(err).not.toBeInstanceOf(InputError);
     expect((err as Error).message).toMatch(/a worker thread exited \(code 70\) while running "load(AsRead)?"/);

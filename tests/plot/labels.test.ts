@@ -369,6 +369,8 @@ describe('class colours stay apart under simulated colour-vision deficiency', ()
 describe('plain text of markup (PDF and SVG titles, text output)', () => {
   it('drops tags, decodes the entities plotlyText writes', async () => {
     const { plainText } = await import('../../src/plot/labels');
-    expect(plainText(`C IC<sub>50</sub> 10 µM<br>${plotlyText('<a href="x"> & co')}`)).toBe('C IC50 10 µM <a href="x"> & co');
+    expect(plainText(`C IC<sub>50</sub> 10 µM<br>${plotlyText('<a href="x"> & co')}`)).toBe(
+      'C IC50 10 µM <a href="x"> & co',
+    );
   });
 });

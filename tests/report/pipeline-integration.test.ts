@@ -14,18 +14,36 @@ import { studyFigureList } from '../../src/plot/study';
 const m0 = rodentSciatic();
 /** one fast class only (keeps the study small); the model's own fibre counts for it */
 const fastOnly = (velocityFactor = 1): NerveModel => ({
-  ...m0, populations: [{ ...m0.populations[0], count: 200, velocityFactor: m0.populations[0].velocityFactor * velocityFactor }],
+  ...m0,
+  populations: [
+    { ...m0.populations[0], count: 200, velocityFactor: m0.populations[0].velocityFactor * velocityFactor },
+  ],
 });
 const nz = { noiseUv: 8, artifactUv: 3000, artifactHalfMa: 2, artifactTauMs: 0.06, pulseWidthMs: 0.05 };
 const components = { classes: ['A-alpha/beta'] };
 const base: PipelineOptions = { baseline: { window: [-2.8, -0.2] }, components };
 
 /** Supramaximal sweeps at two distances, `repeats` each, of one preparation. */
-function distanceSet(prep: string, seed: number, model: NerveModel, extra: Record<string, string> = {}, repeats = 3): SweepSet {
+function distanceSet(
+  prep: string,
+  seed: number,
+  model: NerveModel,
+  extra: Record<string, string> = {},
+  repeats = 3,
+): SweepSet {
   const sweeps = [];
-  for (const d of [20, 30]) for (let r = 0; r < repeats; r++) {
-    sweeps.push({ intensity: 20, distanceMm: d, temperatureC: 37, concentration: 0, pulseWidthMs: 0.05, pulsesMs: [0], conditions: { preparation: prep, series: 'distance', repeat: r, ...extra } });
-  }
+  for (const d of [20, 30])
+    for (let r = 0; r < repeats; r++) {
+      sweeps.push({
+        intensity: 20,
+        distanceMm: d,
+        temperatureC: 37,
+        concentration: 0,
+        pulseWidthMs: 0.05,
+        pulsesMs: [0],
+        conditions: { preparation: prep, series: 'distance', repeat: r, ...extra },
+      });
+    }
   return simulateNerve({ model, seed, grid: { fs: 50000, t0Ms: -3, nSamples: 900 }, sweeps, nuisance: nz });
 }
 
@@ -33,7 +51,8 @@ describe('sweep QC in the pipeline', () => {
   // truth: sweep 4 is corrupted here, held on an amplifier rail for 0.4 ms in the response window
   const raw = distanceSet('N1', 3, fastOnly());
   const data = Float64Array.from(raw.data);
-  const s = 4, at = raw.indexAt(3);
+  const s = 4,
+    at = raw.indexAt(3);
   for (let i = 0; i < 20; i++) data[s * raw.nSamples + at + i] = 4000;
   const set = raw.create({ data });
   it('by default flags the corrupted sweep and keeps every sweep (listed, nothing removed)', () => {
@@ -56,7 +75,9 @@ describe('sweep QC in the pipeline', () => {
     expect(row.flags).toMatch(/saturated/);
     expect(r.conditioned.nSweeps).toBe(set.nSweeps - r.sweepsRemoved.length);
     expect(r.notes.join('\n')).toMatch(/sweeps removed \(tables\/sweeps_removed.csv\)/);
-    expect(methodsText(r.history)).toMatch(new RegExp(`${r.sweepsRemoved.length} of ${set.nSweeps} sweeps were excluded`));
+    expect(methodsText(r.history)).toMatch(
+      new RegExp(`${r.sweepsRemoved.length} of ${set.nSweeps} sweeps were excluded`),
+    );
     expect(r.velocity!.rows.some((v) => typeof v.velocity_m_s === 'number')).toBe(true);
   });
   it('reject { flags } removes only those flags; qc: false skips QC; a bad reject value is an OptionError', () => {
@@ -69,7 +90,11 @@ describe('sweep QC in the pipeline', () => {
   });
   it('QC that cannot be computed (no pre-stimulus samples) is a flag; the sweeps are still measured', () => {
     const late = set.crop(0.05, 15);
-    const r = runPipeline(late, { components: { ...components, noiseWindow: [12, 15] }, baseline: false, reject: true });
+    const r = runPipeline(late, {
+      components: { ...components, noiseWindow: [12, 15] },
+      baseline: false,
+      reject: true,
+    });
     const f = r.flags.find((x) => x.analysis === 'sweep-qc')!;
     expect(f.status).toBe('failed');
     expect(r.notes.join('\n')).toMatch(/no sweeps removed \(the QC could not be computed\)/);
@@ -78,7 +103,10 @@ describe('sweep QC in the pipeline', () => {
   it('runPreparation + combineStudy: tables sweep_qc (file-level identity), sweep_qc_summary, sweeps_removed; the study history lists every removal', () => {
     const two = SweepSet.concat([set, distanceSet('N2', 5, fastOnly())]);
     const o = { ...base, reject: true };
-    const study = combineStudy(byPreparation(two).map((p) => runPreparation(p.set, o)), o);
+    const study = combineStudy(
+      byPreparation(two).map((p) => runPreparation(p.set, o)),
+      o,
+    );
     expect(study.tables.sweep_qc!.length).toBe(two.nSweeps);
     expect(study.tables.sweep_qc_summary!.map((r) => r.preparation)).toEqual(['N1', 'N2']);
     const removed = study.tables.sweeps_removed!;
@@ -94,12 +122,30 @@ describe('paired-pulse recovery and trains in the pipeline', () => {
   const grid = { fs: 50000, t0Ms: -3, nSamples: 900 };
   const rc = { intensity: 20, distanceMm: 20, temperatureC: 37, concentration: 0, pulseWidthMs: 0.05 };
   const isis = [0.45, 0.5, 0.55, 0.6, 0.65, 0.7, 0.8, 0.9, 1, 1.2, 1.4, 1.7, 2, 2.5, 3, 4, 6];
-  const pp = simulatePairedPulse({ model, seed: 7, grid, base: rc, intervalsMs: isis, repeats: 2, nuisance: nz, conditions: { preparation: 'N1', series: 'paired-pulse' } });
-  const tr = simulateTrain({ model, seed: 7, grid, base: rc, frequenciesHz: [400, 1000], pulses: 5, nuisance: nz, conditions: { preparation: 'N1', series: 'train' } });
+  const pp = simulatePairedPulse({
+    model,
+    seed: 7,
+    grid,
+    base: rc,
+    intervalsMs: isis,
+    repeats: 2,
+    nuisance: nz,
+    conditions: { preparation: 'N1', series: 'paired-pulse' },
+  });
+  const tr = simulateTrain({
+    model,
+    seed: 7,
+    grid,
+    base: rc,
+    frequenciesHz: [400, 1000],
+    pulses: 5,
+    nuisance: nz,
+    conditions: { preparation: 'N1', series: 'train' },
+  });
   const set = SweepSet.concat([pp, tr]);
   const truth = pairedPulseTruth(model, drawFibers(model, 7), rc, isis).find((t) => t.name === 'A-alpha/beta')!;
   const r = runPipeline(set, base);
-  it('paired-pulse: ARP within 0.1 ms and R50 within 10% of the simulated fibres\' recovery (direct cable simulation)', () => {
+  it("paired-pulse: ARP within 0.1 ms and R50 within 10% of the simulated fibres' recovery (direct cable simulation)", () => {
     const s = r.pairedPulse!.summary.find((q) => q.class === 'A-alpha/beta')!;
     console.log('pipeline paired pulse: ARP', s.arp_ms, 'vs', truth.arpMs, '; R50', s.r50_ms, 'vs', truth.r50Ms);
     expect(Math.abs((s.arp_ms as number) - truth.arpMs!)).toBeLessThanOrEqual(0.1);
@@ -138,18 +184,33 @@ describe('paired-pulse recovery and trains in the pipeline', () => {
 describe('group statistics and the mixed model across preparations', () => {
   // truth: the model gives the "slow" group's fibres 0.85 times the velocity of the "control" group's
   const preps = ['C1', 'C2', 'C3', 'S1', 'S2', 'S3'];
-  const parts = preps.map((p, i) => distanceSet(p, 20 + i, fastOnly(p.startsWith('S') ? 0.85 : 1), { group: p.startsWith('S') ? 'slow' : 'control' }, 2));
+  const parts = preps.map((p, i) =>
+    distanceSet(
+      p,
+      20 + i,
+      fastOnly(p.startsWith('S') ? 0.85 : 1),
+      { group: p.startsWith('S') ? 'slow' : 'control' },
+      2,
+    ),
+  );
   const set = SweepSet.concat(parts);
   const o: PipelineOptions = {
-    ...base, qc: false,
+    ...base,
+    qc: false,
     groups: { value: 'velocity_m_s', table: 'velocity' },
     mixed: { value: 'peak_ms', fixed: ['group', 'distanceMm'] },
   };
-  const study = combineStudy(byPreparation(set).map((p) => runPreparation(p.set, o)), o);
-  it('one point per preparation (its recommended velocity), the group ratio near the model\'s 0.85, a Welch test', () => {
+  const study = combineStudy(
+    byPreparation(set).map((p) => runPreparation(p.set, o)),
+    o,
+  );
+  it("one point per preparation (its recommended velocity), the group ratio near the model's 0.85, a Welch test", () => {
     const pts = study.tables.group_points!;
     expect(pts.map((q) => q.animal).sort()).toEqual(preps);
-    const mean = (g: string) => { const v = pts.filter((q) => q.group === g).map((q) => q.velocity_m_s as number); return v.reduce((a, b) => a + b, 0) / v.length; };
+    const mean = (g: string) => {
+      const v = pts.filter((q) => q.group === g).map((q) => q.velocity_m_s as number);
+      return v.reduce((a, b) => a + b, 0) / v.length;
+    };
     console.log('group means', mean('control'), mean('slow'));
     expect(Math.abs(mean('slow') / mean('control') - 0.85)).toBeLessThan(0.05);
     const welch = study.tables.group_tests!.find((t) => t.test === 'Welch t')!;
@@ -176,7 +237,12 @@ describe('group statistics and the mixed model across preparations', () => {
     expect(m).toMatch(/Satterthwaite FE \(1946\)/);
     expect(studyFigureList(study).some((f) => f.name.startsWith('groups-velocity_m_s'))).toBe(true);
     const bad = { ...o, groups: { value: 'velocity_ms', table: 'velocity' as const } };
-    const s2 = combineStudy(byPreparation(set).slice(0, 2).map((p) => runPreparation(p.set, { ...bad, mixed: undefined })), { ...bad, mixed: undefined });
+    const s2 = combineStudy(
+      byPreparation(set)
+        .slice(0, 2)
+        .map((p) => runPreparation(p.set, { ...bad, mixed: undefined })),
+      { ...bad, mixed: undefined },
+    );
     const f = s2.tables.flags.find((x) => x.analysis === 'groups')!;
     expect(f.reason).toMatch(/velocity_m_s/);
     expect(s2.tables.velocity.length).toBeGreaterThan(0);
@@ -187,16 +253,34 @@ describe('velocity distributions (opt-in) in the pipeline', () => {
   // three distances of one preparation, and a second preparation recorded at one distance only
   const three = (() => {
     const sweeps = [];
-    for (const d of [20, 30, 40]) for (let r = 0; r < 3; r++) {
-      sweeps.push({ intensity: 20, distanceMm: d, temperatureC: 37, concentration: 0, pulseWidthMs: 0.05, pulsesMs: [0], conditions: { preparation: 'N1', series: 'distance', repeat: r } });
-    }
-    return simulateNerve({ model: fastOnly(), seed: 9, grid: { fs: 50000, t0Ms: -3, nSamples: 900 }, sweeps, nuisance: nz });
+    for (const d of [20, 30, 40])
+      for (let r = 0; r < 3; r++) {
+        sweeps.push({
+          intensity: 20,
+          distanceMm: d,
+          temperatureC: 37,
+          concentration: 0,
+          pulseWidthMs: 0.05,
+          pulsesMs: [0],
+          conditions: { preparation: 'N1', series: 'distance', repeat: r },
+        });
+      }
+    return simulateNerve({
+      model: fastOnly(),
+      seed: 9,
+      grid: { fs: 50000, t0Ms: -3, nSamples: 900 },
+      sweeps,
+      nuisance: nz,
+    });
   })();
   const one = distanceSet('N2', 4, fastOnly()).where({ distanceMm: 20 });
   const set = SweepSet.concat([three, one]);
   const vd = { bootstrap: 0, nVelocities: 30 };
   const o: PipelineOptions = { ...base, qc: false, velocityDistribution: vd };
-  const study = combineStudy(byPreparation(set).map((p) => runPreparation(p.set, o)), o);
+  const study = combineStudy(
+    byPreparation(set).map((p) => runPreparation(p.set, o)),
+    o,
+  );
   it('one distribution for the preparation with three distances (its tables carry the conditions), none without two', () => {
     const pct = study.tables.velocity_distribution_percentiles!;
     expect(new Set(pct.map((r) => r.preparation))).toEqual(new Set(['N1']));
@@ -204,7 +288,9 @@ describe('velocity distributions (opt-in) in the pipeline', () => {
     expect(study.tables.velocity_distribution_residuals!.map((r) => r.distance_mm)).toEqual([20, 30, 40]);
     expect(study.tables.velocity_distribution!.length).toBe(30);
     expect(study.tables.velocity_distribution_classes!.length).toBeGreaterThan(0);
-    expect(study.notes.join('\n')).toMatch(/N2 velocity-distribution: no preparation, temperature and concentration with two or more distances/);
+    expect(study.notes.join('\n')).toMatch(
+      /N2 velocity-distribution: no preparation, temperature and concentration with two or more distances/,
+    );
     const m = methodsText(study.history);
     expect(m).toMatch(/\(1 distribution: one per preparation, temperature and concentration/);
     expect(m).toMatch(/Cummins KL, Perkel DH, Dorfman LJ \(1979\)/);
@@ -216,7 +302,7 @@ describe('velocity distributions (opt-in) in the pipeline', () => {
     const plain = combineStudy([runPreparation(three, { ...base, qc: false })], { ...base, qc: false });
     expect(plain.tables.velocity_distribution).toBeUndefined();
   });
-  it('a distribution that cannot be computed is a rejected flag; the preparation\'s other results stay', () => {
+  it("a distribution that cannot be computed is a rejected flag; the preparation's other results stay", () => {
     const bad = { ...o, velocityDistribution: { ...vd, fitWindow: [40, 60] as [number, number] } };
     const r = runPreparation(three, bad);
     const f = r.flags.find((x) => x.analysis === 'velocity-distribution')!;

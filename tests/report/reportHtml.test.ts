@@ -19,8 +19,16 @@ import { findBrowser } from '../../src/plot/export';
 import type { Study } from '../../src/report/study';
 import type { Provenance } from '../../src/report/bundle';
 
-const ARGS = ['--headless', '--no-sandbox', '--disable-gpu', '--disable-quic', '--no-first-run',
-  '--disable-background-networking', '--disable-component-update', '--disable-sync'];
+const ARGS = [
+  '--headless',
+  '--no-sandbox',
+  '--disable-gpu',
+  '--disable-quic',
+  '--no-first-run',
+  '--disable-background-networking',
+  '--disable-component-update',
+  '--disable-sync',
+];
 const browserPath = findBrowser();
 
 describe.skipIf(!browserPath)('study report (headless Chromium, demo study)', () => {
@@ -53,15 +61,21 @@ describe.skipIf(!browserPath)('study report (headless Chromium, demo study)', ()
     expect(nFig).toBeGreaterThanOrEqual(5); // the demo has recruitment, velocity, dose-response, 2 temperature, summary
     const page = await browser.newPage();
     const errors: string[] = [];
-    page.on('console', (m) => { if (m.type() === 'error') errors.push(m.text()); });
+    page.on('console', (m) => {
+      if (m.type() === 'error') errors.push(m.text());
+    });
     page.on('pageerror', (e) => errors.push(String(e)));
     page.on('requestfailed', (r) => errors.push(`failed ${r.url()}`));
     await page.goto(pathToFileURL(join(out, 'report.html')).href);
-    await page.waitForFunction((n) => document.querySelectorAll('.fascicle-figure .main-svg').length >= n, nFig,
-      { timeout: 20000 });
-    const figs = await page.$$eval('.fascicle-figure', (ds) => ds.map((d) => ({
-      svg: !!d.querySelector('svg.main-svg'), traces: d.querySelectorAll('.trace, .scatterlayer path').length,
-    })));
+    await page.waitForFunction((n) => document.querySelectorAll('.fascicle-figure .main-svg').length >= n, nFig, {
+      timeout: 20000,
+    });
+    const figs = await page.$$eval('.fascicle-figure', (ds) =>
+      ds.map((d) => ({
+        svg: !!d.querySelector('svg.main-svg'),
+        traces: d.querySelectorAll('.trace, .scatterlayer path').length,
+      })),
+    );
     expect(figs.length).toBe(nFig);
     for (const f of figs) {
       expect(f.svg).toBe(true);
@@ -85,7 +99,10 @@ describe.skipIf(!browserPath)('study report (headless Chromium, demo study)', ()
       const heads = [...table.tHead!.rows[0].cells];
       const k = heads.findIndex((h) => h.textContent === 'velocity_m_s');
       heads[k].click();
-      const v = [...table.tBodies[0].rows].map((r) => r.cells[k].textContent!.trim()).filter((x) => x !== '').map(Number);
+      const v = [...table.tBodies[0].rows]
+        .map((r) => r.cells[k].textContent!.trim())
+        .filter((x) => x !== '')
+        .map(Number);
       return v.every((x, i) => i === 0 || v[i - 1] <= x) && v.length > 1;
     });
     expect(sorted).toBe(true);
@@ -120,11 +137,14 @@ describe.skipIf(!browserPath)('study report (headless Chromium, demo study)', ()
     const page = await browser.newPage();
     const errors: string[] = [];
     page.on('pageerror', (e) => errors.push(String(e)));
-    page.on('console', (m) => { if (m.type() === 'error') errors.push(m.text()); });
+    page.on('console', (m) => {
+      if (m.type() === 'error') errors.push(m.text());
+    });
     await page.goto(pathToFileURL(path).href);
     const n = studyFigureList(study).length;
-    await page.waitForFunction((k) => document.querySelectorAll('.fascicle-figure .main-svg').length >= k, n,
-      { timeout: 20000 });
+    await page.waitForFunction((k) => document.querySelectorAll('.fascicle-figure .main-svg').length >= k, n, {
+      timeout: 20000,
+    });
     expect(await page.evaluate(() => (window as unknown as { __xss?: number }).__xss)).toBeUndefined();
     expect(await page.title()).toBe(`Study ${evil}`);
     expect(errors).toEqual([]);
@@ -145,14 +165,23 @@ describe.skipIf(!browserPath)('study report (headless Chromium, demo study)', ()
     expect(f.split('class="fascicle-figure"').length - 1).toBe(studyFigureList(study).length);
     const logged: string[] = [];
     const log = console.log;
-    console.log = (x: unknown) => { logged.push(String(x)); };
-    try { showReport(input); } finally { console.log = log; }
+    console.log = (x: unknown) => {
+      logged.push(String(x));
+    };
+    try {
+      showReport(input);
+    } finally {
+      console.log = log;
+    }
     expect(logged.join('\n')).toMatch(/^Study report: \d+ component rows, \d+ flags, \d+ figures/);
   });
 
   it('an empty table says why; a misspelt input key names the nearest', () => {
-    const empty = { ...study, tables: { ...study.tables, dose_response_summary: [] },
-      notes: [...study.notes, 'dose-response: no sweeps with a drug concentration above 0'] };
+    const empty = {
+      ...study,
+      tables: { ...study.tables, dose_response_summary: [] },
+      notes: [...study.notes, 'dose-response: no sweeps with a drug concentration above 0'],
+    };
     const html = reportHtml({ ...input, study: empty, figures: [] });
     expect(html).toMatch(/id="table-dose_response_summary"><h3>[^<]*<\/h3><p>No rows: dose-response: no sweeps/);
     expect(html).not.toContain('__fascicleDefine'); // no figures: plotly.js is not inlined

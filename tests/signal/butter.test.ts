@@ -20,7 +20,14 @@ function expectRel(actual: ArrayLike<number>, expected: number[], rtol = 1e-9) {
 }
 
 describe('butter(order, Wn, btype) against SciPy 1.17', () => {
-  for (const c of ref.cases as { order: number; Wn: number[]; btype: BType; sos: number[][]; sosfiltfilt: number[]; sosfilt: number[] }[]) {
+  for (const c of ref.cases as {
+    order: number;
+    Wn: number[];
+    btype: BType;
+    sos: number[][];
+    sosfiltfilt: number[];
+    sosfilt: number[];
+  }[]) {
     it(`butter(${c.order}, ${JSON.stringify(c.Wn)}, ${c.btype}) coefficients and outputs to 1e-9`, () => {
       const sos = butterNormalized(c.order, c.Wn, c.btype);
       expect(sos.length).toBe(c.sos.length);
@@ -44,7 +51,11 @@ describe('butter fixed values from ../shared/REFERENCES.md (SciPy, checkable by 
   it('butter(2, 0.5): b = [1,2,1]/(2+sqrt 2), a = [1, 0, (2-sqrt 2)/(2+sqrt 2)]', () => {
     const [s] = butterNormalized(2, [0.5], 'lowpass');
     const r2 = Math.SQRT2;
-    expectRel(s, [1 / (2 + r2), 2 / (2 + r2), 1 / (2 + r2), 1, 0, (2 - r2) / (2 + r2)].map((v) => v), 1e-12);
+    expectRel(
+      s,
+      [1 / (2 + r2), 2 / (2 + r2), 1 / (2 + r2), 1, 0, (2 - r2) / (2 + r2)].map((v) => v),
+      1e-12,
+    );
   });
   it('butter(4, 0.2) transfer function b, a (product of sections)', () => {
     const sos = butterNormalized(4, [0.2], 'lowpass');
@@ -55,7 +66,11 @@ describe('butter fixed values from ../shared/REFERENCES.md (SciPy, checkable by 
     };
     const b = sos.reduce((acc, s) => mulPoly(acc, s.slice(0, 3)), [1]);
     const a = sos.reduce((acc, s) => mulPoly(acc, s.slice(3)), [1]);
-    expectRel(b, [0.00482434335771623, 0.01929737343086491, 0.02894606014629737, 0.01929737343086491, 0.00482434335771623], 1e-12);
+    expectRel(
+      b,
+      [0.00482434335771623, 0.01929737343086491, 0.02894606014629737, 0.01929737343086491, 0.00482434335771623],
+      1e-12,
+    );
     expectRel(a, [1, -2.369513007182038, 2.313988414415881, -1.054665405878568, 0.18737949236818502], 1e-12);
   });
 });
@@ -87,11 +102,15 @@ describe('filter invariants', () => {
 
 describe('butter option checks', () => {
   it('names the option, value and allowed range', () => {
-    expect(() => butter({ order: 4, cutoff: 2500, btype: 'lowpass', fs: 4000 })).toThrow('invalid cutoff: 2500 Hz; must be 0 < cutoff < fs/2 (fs=4000 Hz)');
+    expect(() => butter({ order: 4, cutoff: 2500, btype: 'lowpass', fs: 4000 })).toThrow(
+      'invalid cutoff: 2500 Hz; must be 0 < cutoff < fs/2 (fs=4000 Hz)',
+    );
     expect(() => butter({ order: 11, cutoff: 100, btype: 'lowpass', fs: 4000 })).toThrow(/invalid order: 11/);
     expect(() => butter({ order: 2, cutoff: [300, 100], btype: 'bandpass', fs: 4000 })).toThrow(/low must be < high/);
     expect(() => butter({ order: 2, cutoff: 100, btype: 'bandpass', fs: 4000 })).toThrow(/needs \[low, high\]/);
-    expect(() => sosfiltfilt(butter({ order: 4, cutoff: 100, btype: 'lowpass', fs: 4000 }), [1, 2, 3])).toThrow(/too short/);
+    expect(() => sosfiltfilt(butter({ order: 4, cutoff: 100, btype: 'lowpass', fs: 4000 }), [1, 2, 3])).toThrow(
+      /too short/,
+    );
   });
 });
 
@@ -101,7 +120,8 @@ describe('sosfiltfiltPair (two sweeps interleaved)', () => {
     const sos = butter({ order: 4, cutoff: 700, btype: 'lowpass', fs: 10000 });
     const a = Float64Array.from({ length: 300 }, (_, i) => Math.sin(i / 7) + (i % 5));
     const b = Float64Array.from({ length: 300 }, (_, i) => Math.cos(i / 3) - (i % 3));
-    const oa = new Float64Array(300), ob = new Float64Array(300);
+    const oa = new Float64Array(300),
+      ob = new Float64Array(300);
     sosfiltfiltPair(sos, a, b, oa, ob, filtfiltWork(sos, 300), filtfiltWork(sos, 300));
     expect([...oa]).toEqual([...sosfiltfilt(sos, a)]);
     expect([...ob]).toEqual([...sosfiltfilt(sos, b)]);
@@ -111,18 +131,24 @@ describe('sosfiltfiltPair (two sweeps interleaved)', () => {
 describe('sosfiltfiltPairExt (signals placed in the work buffers)', () => {
   it('equals two sosfiltfilt calls bit for bit, down to the shortest signal and padlen 0', async () => {
     const { sosfiltfiltPairExt, filtfiltWork, defaultPadlen } = await import('../../src/signal/sosfilt');
-    for (const [btype, cutoff] of [['lowpass', 700], ['highpass', 50]] as const) {
+    for (const [btype, cutoff] of [
+      ['lowpass', 700],
+      ['highpass', 50],
+    ] as const) {
       const sos = butter({ order: 4, cutoff, btype, fs: 10000 });
       for (const padlen of [0, 3, defaultPadlen(sos)]) {
         for (const n of [padlen + 1, padlen + 2, 257]) {
           const a = Float64Array.from({ length: n }, (_, i) => Math.sin(i / 7) + (i % 5) - 2);
           const b = Float64Array.from({ length: n }, (_, i) => Math.cos(i / 3) * 1e-3 - (i % 3));
-          const wa = filtfiltWork(sos, n, padlen), wb = filtfiltWork(sos, n, padlen);
+          const wa = filtfiltWork(sos, n, padlen),
+            wb = filtfiltWork(sos, n, padlen);
           wa.ext.set(a, padlen);
           wb.ext.set(b, padlen);
-          const oa = new Float64Array(n), ob = new Float64Array(n);
+          const oa = new Float64Array(n),
+            ob = new Float64Array(n);
           sosfiltfiltPairExt(sos, oa, ob, wa, wb, n, padlen);
-          const ra = sosfiltfilt(sos, a, { padlen }), rb = sosfiltfilt(sos, b, { padlen });
+          const ra = sosfiltfilt(sos, a, { padlen }),
+            rb = sosfiltfilt(sos, b, { padlen });
           expect(oa.every((v, i) => Object.is(v, ra[i]))).toBe(true);
           expect(ob.every((v, i) => Object.is(v, rb[i]))).toBe(true);
         }

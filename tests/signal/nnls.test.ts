@@ -6,7 +6,18 @@ import { OptionError } from '../../src/errors';
 
 // Reference: scipy.optimize.nnls (SciPy 1.17, Lawson-Hanson), written by tests/reference/make_nnls.py
 const ref = JSON.parse(readFileSync(join(__dirname, '../reference/nnls.json'), 'utf8')) as {
-  scipy: string; problems: { name: string; m: number; n: number; A: number[]; b: number[]; x: number[]; rnorm: number; unique: boolean; rank: number }[];
+  scipy: string;
+  problems: {
+    name: string;
+    m: number;
+    n: number;
+    A: number[];
+    b: number[];
+    x: number[];
+    rnorm: number;
+    unique: boolean;
+    rank: number;
+  }[];
 };
 
 const rel = (a: number, b: number, scale: number) => Math.abs(a - b) / Math.max(Math.abs(b), scale);
@@ -28,8 +39,10 @@ function kkt(A: Float64Array, m: number, n: number, b: Float64Array, x: Float64A
 describe('nnls(A, m, n, b) against scipy.optimize.nnls', () => {
   for (const p of ref.problems) {
     it(`${p.name} (rank ${p.rank} of ${p.n})`, () => {
-      const A = Float64Array.from(p.A), b = Float64Array.from(p.b);
-      const frozenA = Float64Array.from(A), frozenB = Float64Array.from(b);
+      const A = Float64Array.from(p.A),
+        b = Float64Array.from(p.b);
+      const frozenA = Float64Array.from(A),
+        frozenB = Float64Array.from(b);
       const r = nnls(A, p.m, p.n, b, { maxIter: 50 * p.n });
       expect(r.status).toBe('ok');
       // the minimum residual is unique even when x is not: 1e-8 relative (to ||b|| when it is near 0)
@@ -50,8 +63,13 @@ describe('nnlsGram(G, c, n) against scipy.optimize.nnls on full-rank, well-condi
   for (const p of ref.problems.filter((q) => q.unique && q.rank === q.n && !q.name.startsWith('ill'))) {
     it(p.name, () => {
       const { m, n } = p;
-      const G = new Float64Array(n * n), c = new Float64Array(n);
-      for (let i = 0; i < m; i++) for (let j = 0; j < n; j++) { c[j] += p.A[i * n + j] * p.b[i]; for (let k = 0; k < n; k++) G[j * n + k] += p.A[i * n + j] * p.A[i * n + k]; }
+      const G = new Float64Array(n * n),
+        c = new Float64Array(n);
+      for (let i = 0; i < m; i++)
+        for (let j = 0; j < n; j++) {
+          c[j] += p.A[i * n + j] * p.b[i];
+          for (let k = 0; k < n; k++) G[j * n + k] += p.A[i * n + j] * p.A[i * n + k];
+        }
       const bb = p.b.reduce((s, v) => s + v * v, 0);
       const r = nnlsGram(G, c, n, { bb, maxIter: 50 * n });
       const xs = Math.max(...p.x.map(Math.abs), 1e-300);
@@ -64,7 +82,9 @@ describe('nnlsGram(G, c, n) against scipy.optimize.nnls on full-rank, well-condi
 describe('nnls validation', () => {
   it('names the mismatched argument', () => {
     expect(() => nnls(new Float64Array(5), 2, 3, new Float64Array(2))).toThrow(OptionError);
-    expect(() => nnls(new Float64Array(6), 2, 3, new Float64Array(3))).toThrow(/invalid b: expected a Float64Array of length 2/);
+    expect(() => nnls(new Float64Array(6), 2, 3, new Float64Array(3))).toThrow(
+      /invalid b: expected a Float64Array of length 2/,
+    );
     expect(() => nnls(new Float64Array([1, NaN]), 2, 1, new Float64Array(2))).toThrow(/element 1 is NaN/);
   });
 });

@@ -13,10 +13,24 @@ const maxRel = (a: ArrayLike<number>, b: number[]) => {
   for (let i = 0; i < b.length; i++) e = Math.max(e, Math.abs(a[i] - b[i]) / scale);
   return e;
 };
-const oneSweep = (v: number[], fs: number) => new SweepSet({ data: Float64Array.from(v), nSweeps: 1, nSamples: v.length, fs, t0Ms: -1, units: 'uV', conditions: [{}] });
+const oneSweep = (v: number[], fs: number) =>
+  new SweepSet({
+    data: Float64Array.from(v),
+    nSweeps: 1,
+    nSamples: v.length,
+    fs,
+    t0Ms: -1,
+    units: 'uV',
+    conditions: [{}],
+  });
 
 describe('resample(set, { fs }) against scipy.signal.resample_poly', () => {
-  for (const c of ref.resample_poly as { up: number; down: number; padtype: 'constant' | 'mean' | 'median'; y: number[] }[]) {
+  for (const c of ref.resample_poly as {
+    up: number;
+    down: number;
+    padtype: 'constant' | 'mean' | 'median';
+    y: number[];
+  }[]) {
     it(`up ${c.up}, down ${c.down}, padtype ${c.padtype}: same length and values to 1e-9 relative`, () => {
       const fs = 1000 * c.down; // any rate with the right ratio
       const r = oneSweep(x, fs).resample({ fs: 1000 * c.up, padtype: c.padtype });
@@ -46,7 +60,15 @@ describe('resample(set, { fs }) against scipy.signal.resample_poly', () => {
     expect(() => s.resample({ fs: -5 })).toThrow(/invalid fs: -5 Hz; must be > 0/);
     expect(() => s.resample({ fs: 20000, padtype: 'edge' as never })).toThrow(/padtype/);
     expect(() => s.resample({ fs: 20000, beta: -1 })).toThrow(/invalid beta/);
-    const long = new SweepSet({ data: new Float64Array(4 * 500000), nSweeps: 4, nSamples: 500000, fs: 1000, t0Ms: 0, units: 'uV', conditions: [{}, {}, {}, {}] });
+    const long = new SweepSet({
+      data: new Float64Array(4 * 500000),
+      nSweeps: 4,
+      nSamples: 500000,
+      fs: 1000,
+      t0Ms: 0,
+      units: 'uV',
+      conditions: [{}, {}, {}, {}],
+    });
     expect(() => long.resample({ fs: 1e6 })).toThrow(/would make 4 sweeps x 500000000 samples/);
   });
 });

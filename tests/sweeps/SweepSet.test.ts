@@ -7,7 +7,12 @@ function make(): SweepSet {
   const data = new Float64Array(4 * n);
   for (let s = 0; s < 4; s++) for (let i = 0; i < n; i++) data[s * n + i] = s + i;
   return new SweepSet({
-    data, nSweeps: 4, nSamples: n, fs: 10000, t0Ms: -0.1, units: 'mV',
+    data,
+    nSweeps: 4,
+    nSamples: n,
+    fs: 10000,
+    t0Ms: -0.1,
+    units: 'mV',
     conditions: [0, 1, 2, 3].map((s) => ({ preparation: s < 2 ? 'A' : 'B', intensity: s % 2 ? 2 : 1 })),
   });
 }
@@ -52,7 +57,18 @@ describe('SweepSet', () => {
     expect(df.columns).toEqual(['sweep', 'preparation', 'intensity']);
   });
   it('rejects inconsistent construction', () => {
-    expect(() => new SweepSet({ data: new Float64Array(3), nSweeps: 2, nSamples: 2, fs: 1, t0Ms: 0, units: 'mV', conditions: [{}, {}] })).toThrow(/data length 3/);
+    expect(
+      () =>
+        new SweepSet({
+          data: new Float64Array(3),
+          nSweeps: 2,
+          nSamples: 2,
+          fs: 1,
+          t0Ms: 0,
+          units: 'mV',
+          conditions: [{}, {}],
+        }),
+    ).toThrow(/data length 3/);
     expect(() => make().crop(5, 6)).toThrow(/outside the sweep/);
   });
 });

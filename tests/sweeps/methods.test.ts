@@ -6,19 +6,32 @@ import { SweepSet, sweepQc, readNwb } from '../../src';
 
 // An invented set: 6 sweeps of white noise (seeded), one of them flat-lined (amplifier failure).
 function noiseSet(): SweepSet {
-  const nSweeps = 6, nSamples = 400;
+  const nSweeps = 6,
+    nSamples = 400;
   const data = new Float64Array(nSweeps * nSamples);
   let seed = 12345;
-  const rnd = () => ((seed = (seed * 1103515245 + 12345) % 2147483648) / 2147483648) - 0.5;
-  for (let s = 0; s < nSweeps; s++) for (let i = 0; i < nSamples; i++) data[s * nSamples + i] = s === 3 ? 0 : 10 * rnd();
+  const rnd = () => (seed = (seed * 1103515245 + 12345) % 2147483648) / 2147483648 - 0.5;
+  for (let s = 0; s < nSweeps; s++)
+    for (let i = 0; i < nSamples; i++) data[s * nSamples + i] = s === 3 ? 0 : 10 * rnd();
   const conditions = Array.from({ length: nSweeps }, (_, s) => ({ preparation: 'p1', intensity: 1, fileSweep: s }));
-  return new SweepSet({ data, nSweeps, nSamples, fs: 20000, t0Ms: -5, units: 'uV', conditions, history: [], sources: [] });
+  return new SweepSet({
+    data,
+    nSweeps,
+    nSamples,
+    fs: 20000,
+    t0Ms: -5,
+    units: 'uV',
+    conditions,
+    history: [],
+    sources: [],
+  });
 }
 
 describe('SweepSet forwarding methods', () => {
   it('set.qc() is sweepQc(set); set.rejectFlagged() removes exactly the flagged sweeps and records them', () => {
     const set = noiseSet();
-    const a = set.qc(), b = sweepQc(set);
+    const a = set.qc(),
+      b = sweepQc(set);
     expect(a.rows.map((r) => r.flagged)).toEqual(b.rows.map((r) => r.flagged));
     const flagged = a.rows.filter((r) => r.flagged).map((r) => r.sweep);
     expect(flagged).toContain(3); // a flat-lined sweep must be flagged (invariant: zero noise is never a recording)

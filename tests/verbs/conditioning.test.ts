@@ -22,26 +22,39 @@ function make(tau: number, intensities: number[], withPolarity = false): { set: 
   const data: number[] = [];
   const truth: Float64Array[] = [];
   let k = 0;
-  for (const I of intensities) for (const pol of withPolarity ? [1, -1] : [1]) {
-    const amp = I > 0.5 ? 1 * Math.min(1, (I - 0.5) / 1) : 0;
-    const tr = new Float64Array(n);
-    for (let i = 0; i < n; i++) {
-      const t = tAt(i);
-      tr[i] = response(t, amp);
-      // deterministic small noise
-      const noise = 0.002 * Math.sin(i * 12.9898 + k * 78.233) ;
-      data.push(tr[i] + artifact(t, I, tau, pol) + noise + 0.05);
+  for (const I of intensities)
+    for (const pol of withPolarity ? [1, -1] : [1]) {
+      const amp = I > 0.5 ? 1 * Math.min(1, (I - 0.5) / 1) : 0;
+      const tr = new Float64Array(n);
+      for (let i = 0; i < n; i++) {
+        const t = tAt(i);
+        tr[i] = response(t, amp);
+        // deterministic small noise
+        const noise = 0.002 * Math.sin(i * 12.9898 + k * 78.233);
+        data.push(tr[i] + artifact(t, I, tau, pol) + noise + 0.05);
+      }
+      truth.push(tr);
+      rows.push({ preparation: 'P', intensity: I, polarity: pol, repeat: 0 });
+      k++;
     }
-    truth.push(tr);
-    rows.push({ preparation: 'P', intensity: I, polarity: pol, repeat: 0 });
-    k++;
-  }
-  return { set: new SweepSet({ data: Float64Array.from(data), nSweeps: rows.length, nSamples: n, fs, t0Ms: t0, units: 'mV', conditions: rows }), truth };
+  return {
+    set: new SweepSet({
+      data: Float64Array.from(data),
+      nSweeps: rows.length,
+      nSamples: n,
+      fs,
+      t0Ms: t0,
+      units: 'mV',
+      conditions: rows,
+    }),
+    truth,
+  };
 }
 function residual(set: SweepSet, truth: Float64Array[], from = 0.35, to = 8): number {
   let worst = 0;
   for (let s = 0; s < set.nSweeps; s++) {
-    let se = 0, m = 0;
+    let se = 0,
+      m = 0;
     for (let i = 0; i < set.nSamples; i++) {
       const t = set.timeAt(i);
       if (t < from || t > to) continue;
@@ -60,7 +73,10 @@ describe('baseline(set, options)', () => {
     let s = 0;
     for (let i = 0; i < set.indexAt(-0.1); i++) s += b.sweep(0)[i];
     expect(Math.abs(s / set.indexAt(-0.1))).toBeLessThan(1e-3);
-    expect(b.history.at(-1)).toMatchObject({ verb: 'baseline', options: { window: [-2, -0.1], method: 'mean', lateWindow: null } });
+    expect(b.history.at(-1)).toMatchObject({
+      verb: 'baseline',
+      options: { window: [-2, -0.1], method: 'mean', lateWindow: null },
+    });
   });
   it('removes a linear drift with lateWindow', () => {
     const data = new Float64Array(1000);
@@ -70,7 +86,15 @@ describe('baseline(set, options)', () => {
     for (let i = 0; i < 1000; i++) expect(Math.abs(b.sweep(0)[i])).toBeLessThan(1e-9);
   });
   it('explains a missing pre-stimulus window', () => {
-    const s = new SweepSet({ data: new Float64Array(10), nSweeps: 1, nSamples: 10, fs: 1000, t0Ms: 0, units: 'mV', conditions: [{}] });
+    const s = new SweepSet({
+      data: new Float64Array(10),
+      nSweeps: 1,
+      nSamples: 10,
+      fs: 1000,
+      t0Ms: 0,
+      units: 'mV',
+      conditions: [{}],
+    });
     expect(() => s.baseline()).toThrow(/no pre-stimulus baseline; give window/);
   });
 });
@@ -79,7 +103,9 @@ describe('removeArtifact(set, { method }) residual error of the known response',
   const report: Record<string, number> = {};
   it('template subtraction (least-squares scale) removes an artifact overlapping the response', () => {
     const { set, truth } = make(0.3, [0.2, 0.8, 1.2, 1.6, 2.5]);
-    const out = set.baseline({ window: [-2, -0.1] }).removeArtifact({ method: 'template', window: [0, 0.3], fitWindow: [0, 0.5] });
+    const out = set
+      .baseline({ window: [-2, -0.1] })
+      .removeArtifact({ method: 'template', window: [0, 0.3], fitWindow: [0, 0.5] });
     const err = residual(out, truth, 0.12);
     report.template = err;
     // the artifact saturates (tanh), so a constant-shape template fits it exactly up to scale
@@ -93,14 +119,20 @@ describe('removeArtifact(set, { method }) residual error of the known response',
   });
   it('exponential tail fit then blank', () => {
     const { set, truth } = make(0.15, [0.8, 1.6]);
-    const out = set.baseline({ window: [-2, -0.1] }).removeArtifact({ method: 'exponential', window: [0, 0.12], tailWindow: [0.12, 0.6] });
+    const out = set
+      .baseline({ window: [-2, -0.1] })
+      .removeArtifact({ method: 'exponential', window: [0, 0.12], tailWindow: [0.12, 0.6] });
     report.exponential = residual(out, truth, 0.35);
     expect(report.exponential).toBeLessThan(0.1);
   });
   it('blank and bridge with a short artifact', () => {
     const { set, truth } = make(0.02, [0.8, 1.6]);
-    const lin = set.baseline({ window: [-2, -0.1] }).removeArtifact({ method: 'blank', window: [0, 0.3], bridge: 'linear' });
-    const her = set.baseline({ window: [-2, -0.1] }).removeArtifact({ method: 'blank', window: [0, 0.3], bridge: 'hermite' });
+    const lin = set
+      .baseline({ window: [-2, -0.1] })
+      .removeArtifact({ method: 'blank', window: [0, 0.3], bridge: 'linear' });
+    const her = set
+      .baseline({ window: [-2, -0.1] })
+      .removeArtifact({ method: 'blank', window: [0, 0.3], bridge: 'hermite' });
     report.blankLinear = residual(lin, truth, 0);
     report.blankHermite = residual(her, truth, 0);
     expect(report.blankLinear).toBeLessThan(0.05);
@@ -123,7 +155,9 @@ describe('removeArtifact(set, { method }) residual error of the known response',
   });
   it('checks its options', () => {
     const { set } = make(0.3, [0.8]);
-    expect(() => set.removeArtifact({ method: 'magic' as never })).toThrow(/invalid method: "magic"; must be one of "blank", "template", "exponential", "alternate"/);
+    expect(() => set.removeArtifact({ method: 'magic' as never })).toThrow(
+      /invalid method: "magic"; must be one of "blank", "template", "exponential", "alternate"/,
+    );
     expect(() => set.removeArtifact({ method: 'blank', window: [1, 0] })).toThrow(/invalid window/);
     expect(() => set.removeArtifact({ method: 'alternate' })).toThrow(/equal numbers|polarity/);
   });
@@ -141,7 +175,10 @@ describe('removeHum(set) versus notch(set)', () => {
       const t = tm / 1000;
       data[i] = tr[i] + 0.3 * Math.sin(2 * Math.PI * f * t + 0.7) + 0.1 * Math.sin(2 * Math.PI * 3 * f * t + 0.2);
     }
-    return { set: new SweepSet({ data, nSweeps: 1, nSamples: m, fs, t0Ms: -2, units: 'mV', conditions: [{}] }), truth: [tr] };
+    return {
+      set: new SweepSet({ data, nSweeps: 1, nSamples: m, fs, t0Ms: -2, units: 'mV', conditions: [{}] }),
+      truth: [tr],
+    };
   }
   it('detects 50 Hz vs 60 Hz and keeps the response shape better than a notch', () => {
     for (const f of [50, 60, 50.3]) {
@@ -159,7 +196,9 @@ describe('removeHum(set) versus notch(set)', () => {
   });
   it('names the option when harmonics reach fs/2', () => {
     const { set } = humSet(50);
-    expect(() => set.removeHum({ frequency: 50, harmonics: 600 })).toThrow(/invalid harmonics: 600; must be an integer 1..20/);
+    expect(() => set.removeHum({ frequency: 50, harmonics: 600 })).toThrow(
+      /invalid harmonics: 600; must be an integer 1..20/,
+    );
     expect(() => set.crop(-2, 10).removeHum()).toThrow(/needs sweeps of at least 35 ms/);
     expect(() => set.decimate({ factor: 1 })).toThrow(/invalid factor: 1/);
   });
@@ -169,7 +208,10 @@ describe('filter and decimate verbs', () => {
   it('low-pass keeps DC, records its options, and decimate halves fs', () => {
     const { set } = make(0.3, [1.6]);
     const f = set.lowpass(5000);
-    expect(f.history.at(-1)).toMatchObject({ verb: 'filter', options: { btype: 'lowpass', cutoff: 5000, order: 4, zeroPhase: true } });
+    expect(f.history.at(-1)).toMatchObject({
+      verb: 'filter',
+      options: { btype: 'lowpass', cutoff: 5000, order: 4, zeroPhase: true },
+    });
     expect(() => set.lowpass(30000)).toThrow('invalid cutoff: 30000 Hz; must be 0 < cutoff < fs/2 (fs=50000 Hz)');
     const d = set.decimate({ factor: 2 });
     expect(d.fs).toBe(25000);
@@ -180,15 +222,51 @@ describe('filter and decimate verbs', () => {
 describe('every conditioning option is checked at the call (message names the option, the value and what is allowed)', () => {
   const { set } = make(0.08, [0.1, 0.2, 1, 2]);
   const cases: [string, () => unknown, RegExp][] = [
-    ['window with NaN', () => set.removeArtifact({ method: 'blank', window: [NaN, 1] }), /invalid window: \[NaN, 1\]; must be \[from, to\] in ms/],
-    ['templateSweeps out of range', () => set.removeArtifact({ method: 'template', window: [0, 0.1], templateSweeps: [99] }), /invalid templateSweeps: \[99\]; must be an array of sweep indices 0\.\.3/],
-    ['templateSweeps not an array', () => set.removeArtifact({ method: 'template', window: [0, 0.1], templateSweeps: '0' as never }), /invalid templateSweeps/],
-    ['maxIntensity NaN', () => set.removeArtifact({ method: 'template', window: [0, 0.1], maxIntensity: NaN }), /invalid maxIntensity: NaN; must be a finite number/],
-    ['cutoff given as text', () => set.filter({ btype: 'lowpass', cutoff: '1000' as never }), /invalid cutoff: "1000"; must be a number in Hz/],
-    ['cutoff at fs/2', () => set.lowpass(25000), /invalid cutoff: 25000 Hz; must be 0 < cutoff < fs\/2 \(fs=50000 Hz\)/],
-    ['negative padlen', () => set.filter({ btype: 'lowpass', cutoff: 1000, padlen: -3 }), /invalid padlen: -3; must be an integer 0\.\./],
-    ['hum frequency as text', () => set.removeHum({ frequency: '50' as never }), /invalid frequency: "50"; must be a mains frequency in Hz/],
-    ['groupBy an absent condition', () => set.groupBy('nonexistent').average(), /no sweep has the condition "nonexistent"; conditions are .*intensity/],
+    [
+      'window with NaN',
+      () => set.removeArtifact({ method: 'blank', window: [NaN, 1] }),
+      /invalid window: \[NaN, 1\]; must be \[from, to\] in ms/,
+    ],
+    [
+      'templateSweeps out of range',
+      () => set.removeArtifact({ method: 'template', window: [0, 0.1], templateSweeps: [99] }),
+      /invalid templateSweeps: \[99\]; must be an array of sweep indices 0\.\.3/,
+    ],
+    [
+      'templateSweeps not an array',
+      () => set.removeArtifact({ method: 'template', window: [0, 0.1], templateSweeps: '0' as never }),
+      /invalid templateSweeps/,
+    ],
+    [
+      'maxIntensity NaN',
+      () => set.removeArtifact({ method: 'template', window: [0, 0.1], maxIntensity: NaN }),
+      /invalid maxIntensity: NaN; must be a finite number/,
+    ],
+    [
+      'cutoff given as text',
+      () => set.filter({ btype: 'lowpass', cutoff: '1000' as never }),
+      /invalid cutoff: "1000"; must be a number in Hz/,
+    ],
+    [
+      'cutoff at fs/2',
+      () => set.lowpass(25000),
+      /invalid cutoff: 25000 Hz; must be 0 < cutoff < fs\/2 \(fs=50000 Hz\)/,
+    ],
+    [
+      'negative padlen',
+      () => set.filter({ btype: 'lowpass', cutoff: 1000, padlen: -3 }),
+      /invalid padlen: -3; must be an integer 0\.\./,
+    ],
+    [
+      'hum frequency as text',
+      () => set.removeHum({ frequency: '50' as never }),
+      /invalid frequency: "50"; must be a mains frequency in Hz/,
+    ],
+    [
+      'groupBy an absent condition',
+      () => set.groupBy('nonexistent').average(),
+      /no sweep has the condition "nonexistent"; conditions are .*intensity/,
+    ],
   ];
   for (const [name, call, re] of cases) {
     it(name, () => {

@@ -37,7 +37,18 @@ function rng(seed: number): () => number {
     return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
   };
 }
-interface Spec { seed: number; nSweeps: number; nSamples: number; noise: number; offset: number; step: number; ramp: number; hum: number; artifact: number; tau: number }
+interface Spec {
+  seed: number;
+  nSweeps: number;
+  nSamples: number;
+  noise: number;
+  offset: number;
+  step: number;
+  ramp: number;
+  hum: number;
+  artifact: number;
+  tau: number;
+}
 const spec = fc.record({
   seed: fc.integer({ min: 0, max: 2 ** 31 - 1 }),
   nSweeps: fc.integer({ min: 1, max: 4 }),
@@ -55,11 +66,17 @@ function make(p: Spec): SweepSet {
   const data = new Float64Array(p.nSweeps * p.nSamples);
   const conditions = [];
   for (let s = 0; s < p.nSweeps; s++) {
-    const ph = 2 * Math.PI * r(), k = 0.5 + r();
+    const ph = 2 * Math.PI * r(),
+      k = 0.5 + r();
     for (let i = 0; i < p.nSamples; i++) {
       const t = t0 + (i * 1000) / fs;
-      data[s * p.nSamples + i] = p.offset * k + p.noise * (r() - 0.5) + (t > 3 ? p.step * k : 0) + p.ramp * t
-        + p.hum * Math.sin((2 * Math.PI * 50 * t) / 1000 + ph) + (t >= 0 ? p.artifact * k * Math.exp(-t / p.tau) : 0);
+      data[s * p.nSamples + i] =
+        p.offset * k +
+        p.noise * (r() - 0.5) +
+        (t > 3 ? p.step * k : 0) +
+        p.ramp * t +
+        p.hum * Math.sin((2 * Math.PI * 50 * t) / 1000 + ph) +
+        (t >= 0 ? p.artifact * k * Math.exp(-t / p.tau) : 0);
     }
     conditions.push({ preparation: 'P', intensity: s + 1 });
   }
@@ -87,128 +104,197 @@ const runs = { numRuns: 60, seed: 20261202 };
 
 describe('conditioning verbs never add power outside their region (fast-check)', () => {
   it('baseline(set, { window, method })', () => {
-    fc.assert(fc.property(spec, fc.constantFrom('mean', 'median') as fc.Arbitrary<'mean' | 'median'>, (p, method) => {
-      const x = make(p);
-      const y = x.baseline({ window: [-2, -0.1], method });
-      const [a, b] = [idx(-2), idx(-0.1)];
-      perSweep(x, y, (u, v) => {
-        const d = v[0] - u[0];
-        for (let i = 0; i < u.length; i++) expect(Math.abs(v[i] - u[i] - d)).toBeLessThanOrEqual(1e-9 * (1 + Math.abs(u[i])));
-        if (method === 'mean') expect(ss(v, a, b)).toBeLessThanOrEqual(ss(u, a, b) + tol(ss(u, a, b), 1));
-        else {
-          let l1u = 0, l1v = 0;
-          for (let i = a; i <= b; i++) { l1u += Math.abs(u[i]); l1v += Math.abs(v[i]); }
-          expect(l1v).toBeLessThanOrEqual(l1u * (1 + 1e-12) + 1e-12);
-        }
-      });
-    }), runs);
+    fc.assert(
+      fc.property(spec, fc.constantFrom('mean', 'median') as fc.Arbitrary<'mean' | 'median'>, (p, method) => {
+        const x = make(p);
+        const y = x.baseline({ window: [-2, -0.1], method });
+        const [a, b] = [idx(-2), idx(-0.1)];
+        perSweep(x, y, (u, v) => {
+          const d = v[0] - u[0];
+          for (let i = 0; i < u.length; i++)
+            expect(Math.abs(v[i] - u[i] - d)).toBeLessThanOrEqual(1e-9 * (1 + Math.abs(u[i])));
+          if (method === 'mean') expect(ss(v, a, b)).toBeLessThanOrEqual(ss(u, a, b) + tol(ss(u, a, b), 1));
+          else {
+            let l1u = 0,
+              l1v = 0;
+            for (let i = a; i <= b; i++) {
+              l1u += Math.abs(u[i]);
+              l1v += Math.abs(v[i]);
+            }
+            expect(l1v).toBeLessThanOrEqual(l1u * (1 + 1e-12) + 1e-12);
+          }
+        });
+      }),
+      runs,
+    );
   });
   it('removeArtifact(set, { method: "blank" }) (linear and hermite)', () => {
-    fc.assert(fc.property(spec, fc.constantFrom('linear', 'hermite') as fc.Arbitrary<'linear' | 'hermite'>, (p, bridge) => {
-      const x = make(p);
-      const y = x.removeArtifact({ method: 'blank', window: [0, 0.3], bridge });
-      const [a, b] = [idx(0), idx(0.3)];
-      perSweep(x, y, (u, v) => {
-        for (let i = 0; i < u.length; i++) if (i < a || i > b) expect(Object.is(u[i], v[i])).toBe(true);
-        if (bridge === 'linear') {
-          const lo = Math.min(u[a - 1], u[b + 1]), hi = Math.max(u[a - 1], u[b + 1]);
-          for (let i = a; i <= b; i++) { expect(v[i]).toBeGreaterThanOrEqual(lo - 1e-12 * Math.abs(lo)); expect(v[i]).toBeLessThanOrEqual(hi + 1e-12 * Math.abs(hi)); }
-        }
-      });
-    }), runs);
+    fc.assert(
+      fc.property(spec, fc.constantFrom('linear', 'hermite') as fc.Arbitrary<'linear' | 'hermite'>, (p, bridge) => {
+        const x = make(p);
+        const y = x.removeArtifact({ method: 'blank', window: [0, 0.3], bridge });
+        const [a, b] = [idx(0), idx(0.3)];
+        perSweep(x, y, (u, v) => {
+          for (let i = 0; i < u.length; i++) if (i < a || i > b) expect(Object.is(u[i], v[i])).toBe(true);
+          if (bridge === 'linear') {
+            const lo = Math.min(u[a - 1], u[b + 1]),
+              hi = Math.max(u[a - 1], u[b + 1]);
+            for (let i = a; i <= b; i++) {
+              expect(v[i]).toBeGreaterThanOrEqual(lo - 1e-12 * Math.abs(lo));
+              expect(v[i]).toBeLessThanOrEqual(hi + 1e-12 * Math.abs(hi));
+            }
+          }
+        });
+      }),
+      runs,
+    );
   });
   it('removeArtifact(set, { method: "exponential" })', () => {
-    fc.assert(fc.property(spec, (p) => {
-      const x = make(p);
-      const y = x.removeArtifact({ method: 'exponential', window: [0, 0.2], tailWindow: [0.3, 1.5] });
-      const [a, ta, tb] = [idx(0), idx(0.3), idx(1.5)];
-      perSweep(x, y, (u, v) => {
-        for (let i = 0; i < a; i++) expect(Object.is(u[i], v[i])).toBe(true);
-        expect(variance(v, ta, tb)).toBeLessThanOrEqual(variance(u, ta, tb) * (1 + 1e-7) + 1e-12);
-      });
-    }), runs);
+    fc.assert(
+      fc.property(spec, (p) => {
+        const x = make(p);
+        const y = x.removeArtifact({ method: 'exponential', window: [0, 0.2], tailWindow: [0.3, 1.5] });
+        const [a, ta, tb] = [idx(0), idx(0.3), idx(1.5)];
+        perSweep(x, y, (u, v) => {
+          for (let i = 0; i < a; i++) expect(Object.is(u[i], v[i])).toBe(true);
+          expect(variance(v, ta, tb)).toBeLessThanOrEqual(variance(u, ta, tb) * (1 + 1e-7) + 1e-12);
+        });
+      }),
+      runs,
+    );
   });
   it('removeArtifact(set, { method: "template" })', () => {
-    fc.assert(fc.property(spec.filter((p) => p.nSweeps >= 2), (p) => {
-      const x = make(p).baseline({ window: [-2, -0.1] });
-      const y = x.removeArtifact({ method: 'template', window: [0, 0.5], maxIntensity: 1 });
-      const [a, b] = [idx(0), idx(0.5)];
-      perSweep(x.create({ data: x.data }), y, (u, v) => {
-        for (let i = 0; i < a; i++) expect(Object.is(u[i], v[i])).toBe(true);
-        expect(ss(v, a, b)).toBeLessThanOrEqual(ss(u, a, b) + tol(ss(u, a, b), 1));
-      });
-    }), runs);
+    fc.assert(
+      fc.property(
+        spec.filter((p) => p.nSweeps >= 2),
+        (p) => {
+          const x = make(p).baseline({ window: [-2, -0.1] });
+          const y = x.removeArtifact({ method: 'template', window: [0, 0.5], maxIntensity: 1 });
+          const [a, b] = [idx(0), idx(0.5)];
+          perSweep(x.create({ data: x.data }), y, (u, v) => {
+            for (let i = 0; i < a; i++) expect(Object.is(u[i], v[i])).toBe(true);
+            expect(ss(v, a, b)).toBeLessThanOrEqual(ss(u, a, b) + tol(ss(u, a, b), 1));
+          });
+        },
+      ),
+      runs,
+    );
   });
   it('removeArtifact(set, { method: "alternate" })', () => {
-    fc.assert(fc.property(spec, (p) => {
-      // each sweep paired with a copy of opposite polarity whose artifact is inverted
-      const x = make(p);
-      const n = x.nSamples, S2 = x.nSweeps * 2;
-      const data = new Float64Array(S2 * n);
-      const r = rng(p.seed + 1);
-      for (let s = 0; s < x.nSweeps; s++) {
-        const u = x.sweep(s);
-        for (let i = 0; i < n; i++) { data[2 * s * n + i] = u[i]; data[(2 * s + 1) * n + i] = -u[i] + p.noise * (r() - 0.5) + 2 * p.offset; }
-      }
-      const conditions = Array.from({ length: S2 }, (_, k) => ({ preparation: 'P', intensity: Math.floor(k / 2) + 1, polarity: k % 2 ? -1 : 1 }));
-      const pairs = new SweepSet({ data, nSweeps: S2, nSamples: n, fs, t0Ms: t0, units: 'uV', conditions });
-      const y = pairs.removeArtifact({ method: 'alternate' });
-      expect(y.nSweeps).toBe(x.nSweeps);
-      // the mean of a pair never has more power than the pair's mean power (((a + b) / 2)^2 <= (a^2 + b^2) / 2)
-      for (let s = 0; s < y.nSweeps; s++) {
-        const a = pairs.sweep(2 * s), c = pairs.sweep(2 * s + 1), v = y.sweep(s);
-        expect(ss(v, 0, n - 1)).toBeLessThanOrEqual(0.5 * (ss(a, 0, n - 1) + ss(c, 0, n - 1)) * (1 + 1e-12) + 1e-12);
-      }
-    }), runs);
+    fc.assert(
+      fc.property(spec, (p) => {
+        // each sweep paired with a copy of opposite polarity whose artifact is inverted
+        const x = make(p);
+        const n = x.nSamples,
+          S2 = x.nSweeps * 2;
+        const data = new Float64Array(S2 * n);
+        const r = rng(p.seed + 1);
+        for (let s = 0; s < x.nSweeps; s++) {
+          const u = x.sweep(s);
+          for (let i = 0; i < n; i++) {
+            data[2 * s * n + i] = u[i];
+            data[(2 * s + 1) * n + i] = -u[i] + p.noise * (r() - 0.5) + 2 * p.offset;
+          }
+        }
+        const conditions = Array.from({ length: S2 }, (_, k) => ({
+          preparation: 'P',
+          intensity: Math.floor(k / 2) + 1,
+          polarity: k % 2 ? -1 : 1,
+        }));
+        const pairs = new SweepSet({ data, nSweeps: S2, nSamples: n, fs, t0Ms: t0, units: 'uV', conditions });
+        const y = pairs.removeArtifact({ method: 'alternate' });
+        expect(y.nSweeps).toBe(x.nSweeps);
+        // the mean of a pair never has more power than the pair's mean power (((a + b) / 2)^2 <= (a^2 + b^2) / 2)
+        for (let s = 0; s < y.nSweeps; s++) {
+          const a = pairs.sweep(2 * s),
+            c = pairs.sweep(2 * s + 1),
+            v = y.sweep(s);
+          expect(ss(v, 0, n - 1)).toBeLessThanOrEqual(0.5 * (ss(a, 0, n - 1) + ss(c, 0, n - 1)) * (1 + 1e-12) + 1e-12);
+        }
+      }),
+      runs,
+    );
   });
   it('removeHum(set, { frequency, exclude })', () => {
     const excl = fc.tuple(fc.double({ min: -1, max: 60, noNaN: true }), fc.double({ min: 0.5, max: 120, noNaN: true }));
-    fc.assert(fc.property(spec.filter((p) => p.nSamples >= 600), excl, fc.integer({ min: 1, max: 4 }), (p, [from, len], H) => {
-      const x = make(p);
-      const exclude: [number, number][] = [[from, from + len]];
-      let y: SweepSet;
-      try {
-        y = x.removeHum({ frequency: 50, harmonics: H, exclude });
-      } catch (e) {
-        if (e instanceof OptionError || e instanceof AnalysisError) return; // refused: nothing added
-        throw e;
-      }
-      const t = x.time();
-      const fit = Array.from(t, (tm) => !(tm >= exclude[0][0] && tm <= exclude[0][1]));
-      perSweep(x, y, (u, v) => {
-        const fu = Float64Array.from(u.filter((_, i) => fit[i])), fv = Float64Array.from(v.filter((_, i) => fit[i]));
-        const removed = variance(fu, 0, fu.length - 1) - variance(fv, 0, fv.length - 1);
-        expect(removed).toBeGreaterThanOrEqual(-tol(variance(fu, 0, fu.length - 1), 1));
-        let added = 0, ne = 0;
-        for (let i = 0; i < u.length; i++) if (!fit[i]) { added += (u[i] - v[i]) ** 2; ne++; }
-        if (ne) expect(added / ne).toBeLessThanOrEqual(humLimits.maxExtrapolationGain * (Math.max(removed, 0) / fu.length) * (1 + 1e-6) + 1e-9 * variance(fu, 0, fu.length - 1) / fu.length + 1e-20);
-      });
-    }), runs);
+    fc.assert(
+      fc.property(
+        spec.filter((p) => p.nSamples >= 600),
+        excl,
+        fc.integer({ min: 1, max: 4 }),
+        (p, [from, len], H) => {
+          const x = make(p);
+          const exclude: [number, number][] = [[from, from + len]];
+          let y: SweepSet;
+          try {
+            y = x.removeHum({ frequency: 50, harmonics: H, exclude });
+          } catch (e) {
+            if (e instanceof OptionError || e instanceof AnalysisError) return; // refused: nothing added
+            throw e;
+          }
+          const t = x.time();
+          const fit = Array.from(t, (tm) => !(tm >= exclude[0][0] && tm <= exclude[0][1]));
+          perSweep(x, y, (u, v) => {
+            const fu = Float64Array.from(u.filter((_, i) => fit[i])),
+              fv = Float64Array.from(v.filter((_, i) => fit[i]));
+            const removed = variance(fu, 0, fu.length - 1) - variance(fv, 0, fv.length - 1);
+            expect(removed).toBeGreaterThanOrEqual(-tol(variance(fu, 0, fu.length - 1), 1));
+            let added = 0,
+              ne = 0;
+            for (let i = 0; i < u.length; i++)
+              if (!fit[i]) {
+                added += (u[i] - v[i]) ** 2;
+                ne++;
+              }
+            if (ne)
+              expect(added / ne).toBeLessThanOrEqual(
+                humLimits.maxExtrapolationGain * (Math.max(removed, 0) / fu.length) * (1 + 1e-6) +
+                  (1e-9 * variance(fu, 0, fu.length - 1)) / fu.length +
+                  1e-20,
+              );
+          });
+        },
+      ),
+      runs,
+    );
   });
   it('filter(set, { btype }) and notch(set): zero-phase filtering', () => {
-    const kind = fc.constantFrom<['lowpass' | 'highpass' | 'bandpass' | 'notch', number | [number, number]]>(['lowpass', 1000], ['highpass', 100], ['bandpass', [100, 2000]], ['notch', 50]);
-    fc.assert(fc.property(spec, kind, (p, [btype, cutoff]) => {
-      const x = make(p);
-      const y = btype === 'notch' ? x.notch({ frequency: 50 }) : x.filter({ btype, cutoff, order: 2 });
-      perSweep(x, y, (u, v) => {
-        const su = ss(u, 0, u.length - 1), sv = ss(v, 0, v.length - 1);
-        // Butterworth: gain <= 1 everywhere; the notch's edge transient adds under 1% (measured
-        // worst 1.008 over 400 random sweeps of this generator), allowed 3%
-        expect(sv).toBeLessThanOrEqual(su * (btype === 'notch' ? 1.03 : 1.001) + 1e-12);
-      });
-    }), runs);
+    const kind = fc.constantFrom<['lowpass' | 'highpass' | 'bandpass' | 'notch', number | [number, number]]>(
+      ['lowpass', 1000],
+      ['highpass', 100],
+      ['bandpass', [100, 2000]],
+      ['notch', 50],
+    );
+    fc.assert(
+      fc.property(spec, kind, (p, [btype, cutoff]) => {
+        const x = make(p);
+        const y = btype === 'notch' ? x.notch({ frequency: 50 }) : x.filter({ btype, cutoff, order: 2 });
+        perSweep(x, y, (u, v) => {
+          const su = ss(u, 0, u.length - 1),
+            sv = ss(v, 0, v.length - 1);
+          // Butterworth: gain <= 1 everywhere; the notch's edge transient adds under 1% (measured
+          // worst 1.008 over 400 random sweeps of this generator), allowed 3%
+          expect(sv).toBeLessThanOrEqual(su * (btype === 'notch' ? 1.03 : 1.001) + 1e-12);
+        });
+      }),
+      runs,
+    );
   });
   it('resample(set, { fs }) and decimate(set, { factor })', () => {
-    fc.assert(fc.property(spec, fc.constantFrom(2, 4), (p, factor) => {
-      const x = make(p);
-      for (const y of [x.resample({ fs: fs / factor }), x.decimate({ factor })]) {
-        perSweep(x, y, (u, v) => {
-          const mu = ss(u, 0, u.length - 1) / u.length, mv = ss(v, 0, v.length - 1) / v.length;
-          // Kaiser FIR (beta 5) and Butterworth anti-alias filters: pass-band gain about 1;
-          // measured worst 1.0065 over 400 random sweeps of this generator, allowed 3%
-          expect(mv).toBeLessThanOrEqual(mu * 1.03 + 1e-12);
-        });
-      }
-    }), runs);
+    fc.assert(
+      fc.property(spec, fc.constantFrom(2, 4), (p, factor) => {
+        const x = make(p);
+        for (const y of [x.resample({ fs: fs / factor }), x.decimate({ factor })]) {
+          perSweep(x, y, (u, v) => {
+            const mu = ss(u, 0, u.length - 1) / u.length,
+              mv = ss(v, 0, v.length - 1) / v.length;
+            // Kaiser FIR (beta 5) and Butterworth anti-alias filters: pass-band gain about 1;
+            // measured worst 1.0065 over 400 random sweeps of this generator, allowed 3%
+            expect(mv).toBeLessThanOrEqual(mu * 1.03 + 1e-12);
+          });
+        }
+      }),
+      runs,
+    );
   });
 });
