@@ -49,6 +49,7 @@
  * Hursh JB (1939) Conduction velocity and diameter of nerve fibers. Am J Physiol 127:131-139.
  */
 import type { SweepSet, ConditionValue, Step, Source } from '../sweeps/SweepSet';
+import type { Figure } from '../plot/figure';
 import { Result } from '../report/result';
 import { AnalysisError, OptionError } from '../errors';
 import { checkKeys, finite, integerIn, oneOf, positive, windowMs, shown } from '../validate';
@@ -76,6 +77,17 @@ import {
 } from './vdistCore';
 
 type Row = Record<string, ConditionValue>;
+
+/** Draws a result's figure; set by src/plot/velocityDistribution.ts when it loads (plot imports analysis, not back). */
+type FigureBuilder = (
+  r: VelocityDistributionResult,
+  o: { weighting?: 'number' | 'amplitude'; truth?: { velocity: number[]; weight?: number[]; label?: string } },
+) => Figure;
+let figureBuilder: FigureBuilder | null = null;
+/** @internal Registration hook of the plot layer (src/plot/velocityDistribution.ts). */
+export function registerVelocityDistributionFigure(f: FigureBuilder): void {
+  figureBuilder = f;
+}
 
 export interface VelocityDistributionOptions {
   /** 'decomposition' (default) or 'two-distance' (Cummins, Dorfman & Perkel 1979) */
@@ -257,17 +269,24 @@ export class VelocityDistributionResult extends Result {
       );
     return r.velocity_m_s as number;
   }
-  /** The figure: distribution with its bootstrap band, class ranges, and the reconstruction per distance. */
+  /**
+   * The figure: distribution with its bootstrap band, class ranges, and an optional known distribution overlaid
+   * (src/plot/velocityDistribution.ts draws it; the analysis layer does not load the plot layer, the plot module
+   * registers itself when loaded, as `import ... from 'fascicle'` does).
+   * @throws AnalysisError when the plot module has not been loaded.
+   */
   figure(
     options: {
       weighting?: 'number' | 'amplitude';
       truth?: { velocity: number[]; weight?: number[]; label?: string };
     } = {},
-  ): import('../plot/figure').Figure {
-    // eslint-disable-next-line @typescript-eslint/no-var-requires
-    const { velocityDistributionFigure } =
-      require('../plot/velocityDistribution') as typeof import('../plot/velocityDistribution');
-    return velocityDistributionFigure(this, options);
+  ): Figure {
+    if (!figureBuilder)
+      throw new AnalysisError(
+        'the velocity-distribution figure is drawn by src/plot/velocityDistribution.ts, which is not loaded: ' +
+          'import from the package index (or that module) first, or call velocityDistributionFigure(result) from it',
+      );
+    return figureBuilder(this, options);
   }
   methods(): string {
     const full = super.methods();

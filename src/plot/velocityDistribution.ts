@@ -5,7 +5,7 @@
  */
 import { Figure, PALETTE, baseLayout } from './figure';
 import { plotlyText, unitText } from './labels';
-import type { VelocityDistributionResult } from '../analysis/velocityDistribution';
+import { registerVelocityDistributionFigure, type VelocityDistributionResult } from '../analysis/velocityDistribution';
 
 const colour = (i: number) => PALETTE[i % PALETTE.length];
 /** A palette colour (#rrggbb) with transparency, for a shaded band that keeps its line's colour. */
@@ -143,3 +143,6 @@ export function velocityReconstructionFigure(result: VelocityDistributionResult)
     layout: baseLayout('Responses and their reconstruction', 'time after stimulus (ms)', y),
   });
 }
+
+// result.figure() draws with this module (the analysis layer does not import plot)
+registerVelocityDistributionFigure(velocityDistributionFigure);

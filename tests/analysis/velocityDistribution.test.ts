@@ -194,6 +194,8 @@ describe('compareVelocityDistributions(before, after), figures and methods text'
     ]);
     const truthTrace = f.spec.data[3].y as number[];
     expect(truthTrace.reduce((a, b) => a + b, 0)).toBeCloseTo(1, 10);
+    // result.figure() draws through the plot module, which registers itself (analysis does not import plot)
+    expect(before.figure({ weighting: 'amplitude' }).spec.data.length).toBe(3);
     const rf = velocityReconstructionFigure(before);
     expect(rf.spec.data.length).toBe(6);
   });
