@@ -122,13 +122,27 @@ function solveInPlace(M: number[][], m: number, x: number[]): boolean {
   return true;
 }
 
-function rssOf(o: FitOptions, p: readonly number[], w: readonly number[]): number {
+/** The weighted residual sum of squares at p; the residuals y - model(x, p) are left in res. */
+function rssOf(o: FitOptions, p: readonly number[], w: readonly number[], res: number[]): number {
   let s = 0;
   for (let i = 0; i < o.x.length; i++) {
     const r = o.y[i] - o.model(o.x[i], p);
+    res[i] = r;
     s += w[i] * r * r;
   }
   return s;
+}
+
+/** Student t quantiles by (probability, degrees of freedom): a bisection of 60-odd incomplete beta values each. */
+const tQuantiles = new Map<string, number>();
+function tQuantileOnce(p: number, df: number): number {
+  const key = `${p} ${df}`;
+  let t = tQuantiles.get(key);
+  if (t === undefined) {
+    t = tQuantile(p, df);
+    if (tQuantiles.size < 4096) tQuantiles.set(key, t);
+  }
+  return t;
 }
 
 /**
@@ -177,7 +191,10 @@ function fitOnce(o: FitOptions): FitResult {
   const m = free.length;
   const status: string[] = [];
   const maxIt = o.maxIterations ?? 2000;
-  let rss = rssOf(o, p, w);
+  // the residuals at p (res) and at the trial point (resTrial): the model is evaluated once per point
+  let res: number[] = new Array(n).fill(0);
+  let resTrial: number[] = new Array(n).fill(0);
+  let rss = rssOf(o, p, w, res);
   let mu = -1;
   // Marquardt scaling with the largest diagonal seen so far (as MINPACK's lmder does)
   const dmax = new Array(m).fill(0);
@@ -201,7 +218,7 @@ function fitOnce(o: FitOptions): FitResult {
         g[a] = 0;
       }
       for (let i = 0; i < n; i++) {
-        const r = o.y[i] - o.model(o.x[i], p);
+        const r = res[i];
         const Ji = J[i];
         for (let a = 0; a < m; a++) {
           g[a] += w[i] * Ji[a] * r;
@@ -244,7 +261,7 @@ function fitOnce(o: FitOptions): FitResult {
         const trial = [...p];
         free.forEach((k, a) => (trial[k] += delta[a]));
         const pt = clamp(trial);
-        const rt = rssOf(o, pt, w);
+        const rt = rssOf(o, pt, w, resTrial);
         // predicted reduction of the linearised model
         let pred = 0;
         for (let a = 0; a < m; a++) pred += delta[a] * (mu * Math.max(dmax[a], 1e-300) * delta[a] + g[a]);
@@ -253,6 +270,9 @@ function fitOnce(o: FitOptions): FitResult {
           const stepSmall = free.every((k) => Math.abs(pt[k] - p[k]) <= 1e-12 * (Math.abs(p[k]) + 1e-12));
           const rssSmall = rss - rt <= 1e-15 * rss;
           p = pt;
+          const r = res;
+          res = resTrial;
+          resTrial = r;
           const prev = rss;
           rss = rt;
           mu *= Math.max(1 / 3, 1 - (2 * rho - 1) ** 3);
@@ -297,7 +317,7 @@ function fitOnce(o: FitOptions): FitResult {
     free.forEach((k) => (se[k] = NaN));
     status.push('the parameters are not identifiable from these data (singular information matrix)');
   }
-  const t = df > 0 ? tQuantile(0.975, df) : NaN;
+  const t = df > 0 ? tQuantileOnce(0.975, df) : NaN;
   const ci = p.map((v, k) => (fixed[k] ? [v, v] : [v - t * se[k], v + t * se[k]]) as [number, number]);
   if (!converged) status.push(`did not converge (${reason})`);
   if (n < m + 2) status.push(`too few points: ${n} for ${m} free parameters (need at least ${m + 2})`);

@@ -1,13 +1,81 @@
-/** danfo DataFrame glue, loaded lazily (requiring danfojs-node takes about 0.8 s). */
+/**
+ * danfo DataFrame glue, loaded lazily: requiring danfojs-node takes 1.5-3 s, almost all of it
+ * in three dependencies that a DataFrame does not use until one of their functions is called:
+ * mathjs (median, mode, std, variance), xlsx (Excel files) and the HTTP clients request and
+ * node-fetch (reading from a URL). While danfojs-node loads, the requires of these from its
+ * own files return a stand-in that loads the real module on its first use (a property read or
+ * a call), so `frame()` returns the same DataFrame, about 0.2 s after the first call.
+ */
 import type { DataFrame } from 'danfojs-node';
+import Module = require('node:module');
 
 let dfd: typeof import('danfojs-node') | undefined;
+
+/** The dependencies of danfojs-node loaded on first use, not with it. */
+export const DEFERRED_DEPENDENCIES = ['mathjs', 'xlsx', 'request', 'node-fetch'] as const;
+
+type Loader = (request: string, parent: unknown, isMain: boolean) => unknown;
+const loader = Module as unknown as { _load: Loader };
+
+/**
+ * A stand-in for a module: every operation on it (reading a property, calling it, listing
+ * its keys) loads the module and acts on it. `__esModule` is answered without loading (as
+ * absent), so TypeScript's import helpers wrap the stand-in instead of reading the module;
+ * a call of the wrapper's `default` then calls the module itself, which for request and
+ * node-fetch is the function they export.
+ */
+function deferredModule(load: () => unknown): unknown {
+  const real = () => load() as Record<PropertyKey, unknown> & ((...a: unknown[]) => unknown);
+  // an arrow function as target: callable, with no non-configurable own keys to keep
+  const target = () => undefined;
+  return new Proxy(target, {
+    get: (_, k) => (k === '__esModule' ? undefined : real()[k]),
+    has: (_, k) => k in real(),
+    apply: (_, self, args) => Reflect.apply(real() as (...a: unknown[]) => unknown, self, args),
+    ownKeys: () => Reflect.ownKeys(real()),
+    getOwnPropertyDescriptor: (_, k) => {
+      const d = Reflect.getOwnPropertyDescriptor(real(), k);
+      return d && { ...d, configurable: true };
+    },
+  });
+}
+
+/** require(id) with the deferred dependencies of danfojs-node's own files replaced by stand-ins. */
+function requireDeferring(id: string): unknown {
+  const original = loader._load;
+  const standIns = new Map<string, unknown>();
+  loader._load = function (request: string, parent: unknown, isMain: boolean) {
+    const from = (parent as { filename?: string } | undefined)?.filename ?? '';
+    if ((DEFERRED_DEPENDENCIES as readonly string[]).includes(request) && /[\\/]danfojs-node[\\/]/.test(from)) {
+      let s = standIns.get(request);
+      if (!s) {
+        let mod: unknown;
+        let loaded = false;
+        s = deferredModule(() => {
+          if (!loaded) {
+            mod = original.call(Module, request, parent, false);
+            loaded = true;
+          }
+          return mod;
+        });
+        standIns.set(request, s);
+      }
+      return s;
+    }
+    return original.call(this, request, parent, isMain);
+  };
+  try {
+    // eslint-disable-next-line @typescript-eslint/no-var-requires
+    return require(id);
+  } finally {
+    loader._load = original;
+  }
+}
 
 /** danfojs-node, with TensorFlow.js production mode on so it prints no banner. */
 export function danfo(): typeof import('danfojs-node') {
   if (!dfd) {
-    // eslint-disable-next-line @typescript-eslint/no-var-requires
-    dfd = require('danfojs-node') as typeof import('danfojs-node');
+    dfd = requireDeferring('danfojs-node') as typeof import('danfojs-node');
     try {
       (dfd as unknown as { tensorflow: { enableProdMode(): void } }).tensorflow.enableProdMode();
     } catch {
