@@ -1,0 +1,234 @@
+/**
+ * Generalisation test: variants of the independent development set FNPG-N07 (NEURON single-fibre models summed
+ * into compound responses; /work/shared/devset, vendored under tests/fixtures/devset) whose truth is still known
+ * exactly, run through the public API as a user would (files + manifest, readManifest, runPipeline; settings
+ * from the README and the recording's description, never from the truth). The judging set differs from the
+ * development set in populations, distances and count, polarity, monopolar/bipolar recording, hum, artifact
+ * shape and sampling; each variant changes one of those. How each variant is made and where each truth comes
+ * from: tests/external/variants.ts and tests/fixtures/devset-variants/make_variants.py.
+ *
+ * Tolerances are issue 14's (recommended velocity 3% A classes, 5% C; two-site peak velocity the same; IC50 and
+ * Hill slope 15%; Q10 5%; I50 10%); structural checks: no throw, no lost rows or classes, the main phase chosen
+ * right, A-delta detected in every supramaximal sweep, one-site runs flag two-site velocities.
+ * A check listed in NOT_YET is not met today: it is still computed and printed, and declared as an expected
+ * failure (it.fails), so that meeting it turns the run red until it is moved out of NOT_YET. Nothing here
+ * weakens a tolerance. The baseline run (the set as vendored, same harness) is printed beside each variant
+ * ("devset error %") and asserted in tests/external/devset.test.ts, not here.
+ */
+import { describe, it, expect, afterAll } from 'vitest';
+import { mkdtempSync, rmSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import {
+  artifactModelV,
+  baseAnalysis,
+  idOf,
+  idOfStructural,
+  intensityOf,
+  lcg,
+  mapSweeps,
+  printVariant,
+  RAIL_V,
+  resampled,
+  runVariant,
+  structuralChecks,
+  variantChecks,
+  vendored,
+  type Recording,
+  type Variant,
+  type VCheck,
+  type W,
+} from './variants';
+
+const ALL = ['recruitment', 'dose_response', 'temperature'] as const;
+const both = (w: W) => ALL.map((s) => vendored(s, w));
+const MONO = [{ mm: 15 }, { mm: 25 }];
+const clip = (v: number) => Math.max(-RAIL_V, Math.min(RAIL_V, v));
+/**
+ * A nuisance added before the amplifier: a sample on the rail stays there (the signal before clipping lies beyond
+ * the rail by far more than the nuisance), every other sample is moved and the rail applied.
+ */
+const onRail = (v: number) => Math.abs(v) >= RAIL_V * (1 - 1e-4);
+const addBeforeRail = (v: number, d: number) => (onRail(v) ? v : clip(v + d));
+
+/** 60 Hz + 180 Hz hum (15 uV and 4.5 uV: the set's 50/150 Hz sizes), seeded phase per sweep, same on both channels */
+function addHum60(rec: Recording): Recording {
+  const rnd = lcg(6060 + rec.nSweeps);
+  const ph = Array.from({ length: rec.nSweeps }, () => [2 * Math.PI * rnd(), 2 * Math.PI * rnd()]);
+  return mapSweeps(rec, (x, s, _ch, tMs) =>
+    x.map((v, i) => {
+      const t = tMs(i) / 1000;
+      const hum =
+        15e-6 * Math.sin(2 * Math.PI * 60 * t + ph[s][0]) + 4.5e-6 * Math.sin(2 * Math.PI * 180 * t + ph[s][1]);
+      return addBeforeRail(v, hum);
+    }),
+  );
+}
+
+/**
+ * Bipolar channel: 15 mm contact minus 25 mm contact. Where either channel sits on the rail, the difference of
+ * the clipped samples is not what a differential amplifier sees: there the set's artifact model (0.4 x the
+ * 15 mm artifact: 1 - 0.6) is used, and the rail applied to the difference.
+ */
+function bipolar(rec: Recording): Recording {
+  const n = rec.nSamples;
+  const [a, b] = rec.channels;
+  const x = new Float32Array(a.x.length);
+  for (let s = 0; s < rec.nSweeps; s++) {
+    const mA = intensityOf(rec, s);
+    for (let i = 0; i < n; i++) {
+      const k = s * n + i;
+      const railed = onRail(a.x[k]) || onRail(b.x[k]);
+      const t = rec.t0Ms + (i * 1000) / rec.fs;
+      x[k] = clip(railed ? 0.4 * artifactModelV(t, mA) : a.x[k] - b.x[k]);
+    }
+  }
+  return {
+    ...rec,
+    channels: [{ ...a, x, conditions: { ...a.conditions, site: 'ch1-ch2', referenceDistanceMm: 25 } }],
+  };
+}
+
+/** A longer artifact tail of the rail's sign: -B I exp(-(t - 0.1 ms)/tau) from the end of the pulse, x0.6 at 25 mm */
+function addTail(rec: Recording, bVPerMa: number, tauMs: number): Recording {
+  return mapSweeps(rec, (x, s, ch, tMs) => {
+    const g = (ch.conditions.distanceMm as number) === 25 ? 0.6 : 1;
+    const mA = intensityOf(rec, s);
+    return x.map((v, i) => {
+      const t = Math.round(tMs(i) * 1e6) / 1e6;
+      return t < 0.1 ? v : addBeforeRail(v, -g * bVPerMa * mA * Math.exp(-(t - 0.1) / tauMs));
+    });
+  });
+}
+
+const VARIANTS: Variant[] = [
+  {
+    name: 'devset',
+    describe: 'the development set as vendored (reference for the "devset error %" column; asserted elsewhere)',
+    recordings: both,
+    analysis: baseAnalysis,
+    polarity: 1,
+    sites: MONO,
+  },
+  {
+    name: 'inverted',
+    describe: 'every sample x -1 (negative-going CAP, rail and artifact inverted); truth unchanged; polarity auto',
+    recordings: (w) => both(w).map((r) => mapSweeps(r, (x) => x.map((v) => -v))),
+    analysis: baseAnalysis,
+    polarity: -1,
+    sites: MONO,
+  },
+  {
+    name: 'hum60',
+    describe: '60 + 180 Hz hum added on top (the 50 Hz hum stays); the slow manifest removes 60 Hz; truth unchanged',
+    recordings: (w) => both(w).map(addHum60),
+    analysis: (w) => {
+      const a = baseAnalysis(w);
+      if (a.hum) a.hum = { ...a.hum, frequency: 60 };
+      return a;
+    },
+    polarity: 1,
+    sites: MONO,
+  },
+  {
+    name: 'bipolar',
+    describe:
+      'one channel: 15 mm minus 25 mm (referenceDistanceMm 25); truth from the difference of the clean components',
+    recordings: (w) => both(w).map(bipolar),
+    analysis: baseAnalysis,
+    polarity: 1,
+    sites: [{ mm: 15, refMm: 25 }],
+  },
+  {
+    name: 'one-site',
+    describe: 'the 15 mm channel only; truth: single-site values of ground_truth.json',
+    recordings: (w) => both(w).map((r) => ({ ...r, channels: [r.channels[0]] })),
+    analysis: baseAnalysis,
+    polarity: 1,
+    sites: [{ mm: 15 }],
+  },
+  {
+    name: 'tail',
+    describe:
+      'a longer negative artifact tail added (fast 2 mV/mA, tau 0.3 ms; slow 0.1 mV/mA, tau 3 ms; x0.6 at 25 mm), ' +
+      'rail applied again; truth unchanged',
+    recordings: (w) => both(w).map((r) => (w === 'fast' ? addTail(r, 2e-3, 0.3) : addTail(r, 1e-4, 3))),
+    analysis: baseAnalysis,
+    polarity: 1,
+    sites: MONO,
+  },
+  {
+    name: 'resampled',
+    describe:
+      'fast 50 -> 40 kHz, slow 20 -> 16 kHz (SciPy resample_poly, rail applied again); the slow low-pass at a ' +
+      'quarter of the new rate (4 kHz) as the manifest says; temperature and dose series; truth unchanged',
+    recordings: (w) => [
+      resampled('temperature', w, w === 'fast' ? 40000 : 16000),
+      resampled('dose_response', w, w === 'fast' ? 40000 : 16000),
+    ],
+    analysis: (w) => {
+      const a = baseAnalysis(w);
+      if (a.filter) a.filter = { ...a.filter, cutoff: 4000 };
+      return a;
+    },
+    polarity: 1,
+    sites: MONO,
+  },
+  {
+    name: 'resampled-100k',
+    describe: 'fast window 50 -> 100 kHz (SciPy resample_poly), temperature series only; truth unchanged',
+    recordings: () => [resampled('temperature', 'fast', 100000)],
+    analysis: baseAnalysis,
+    polarity: 1,
+    sites: MONO,
+    windows: ['fast'],
+  },
+];
+
+const root = mkdtempSync(join(tmpdir(), 'fascicle-variants-'));
+afterAll(() => rmSync(root, { recursive: true, force: true }));
+const runs = VARIANTS.map((v) => runVariant(v, root));
+const checks = runs.map(variantChecks);
+const structural = runs.map(structuralChecks);
+runs.forEach((r, i) => printVariant(r, checks[i], i === 0 ? undefined : checks[0], structural[i]));
+console.log(
+  'variants summary: ' +
+    runs
+      .map(
+        (r, i) =>
+          `${r.variant.name} ${checks[i].filter((c) => c.ok).length}/${checks[i].length} numbers, ` +
+          `${structural[i].filter((s) => s.ok).length}/${structural[i].length} structural`,
+      )
+      .join('; '),
+);
+
+/**
+ * Checks not met at the last update of this list (from the printed table): expected failures.
+ * Keys: `<variant> | <quantity> | <class> | <where> | <estimator>` and `<variant> | <structural check>`.
+ */
+// last updated: never
+const NOT_YET = new Set<string>([]);
+
+for (let i = 1; i < runs.length; i++) {
+  const v = runs[i].variant;
+  describe(`devset variant "${v.name}": ${v.describe}`, () => {
+    for (const s of structural[i]) {
+      const known = NOT_YET.has(idOfStructural(s));
+      (known ? it.fails : it)(`${idOfStructural(s)}${known ? ' [not met yet]' : ''}`, () => {
+        expect(s.ok, s.detail).toBe(true);
+      });
+    }
+    for (const q of checks[i].filter((c: VCheck) => c.asserted)) {
+      const known = NOT_YET.has(idOf(q));
+      const label =
+        `${idOf(q)}: ${q.estimate === null ? 'none' : q.estimate.toPrecision(4)} vs ${q.truth.toPrecision(4)} ` +
+        `(${q.errorPct === null ? '-' : q.errorPct.toFixed(1)}%, tolerance ${q.tolerancePct}%; truth: ${q.source})` +
+        (known ? ' [not met yet]' : '');
+      (known ? it.fails : it)(label, () => {
+        expect(q.estimate, q.note).not.toBeNull();
+        expect(Number.isFinite(q.truth), 'a truth for this estimator').toBe(true);
+        expect(Math.abs(q.errorPct as number)).toBeLessThanOrEqual(q.tolerancePct);
+      });
+    }
+  });
+}
