@@ -497,6 +497,8 @@ export class GroupComparison extends Result {
     readonly excluded: number,
     readonly history: readonly Step[],
     readonly sources: readonly Source[] = [],
+    /** the rows compared (kept so that unblind() can recompute with the real labels) */
+    readonly input: readonly Row[] | null = null,
   ) {
     super();
   }
@@ -566,7 +568,8 @@ export function compareGroups(
   history?: readonly Step[],
   sources?: readonly Source[],
 ): GroupComparison {
-  const { points, excluded, options: o } = animalMeans(input, options);
+  const inputRows = rowsOf(input);
+  const { points, excluded, options: o } = animalMeans(inputRows, options);
   const src = input as { history?: readonly Step[]; sources?: readonly Source[] };
   history = history ?? (Array.isArray(src.history) ? src.history : []);
   sources = sources ?? (Array.isArray(src.sources) ? src.sources : []);
@@ -732,7 +735,7 @@ export function compareGroups(
     },
     version: VERSION,
   };
-  return new GroupComparison(summary, tests, points, o, excluded, [...history, step], sources);
+  return new GroupComparison(summary, tests, points, o, excluded, [...history, step], sources, inputRows);
 }
 
 /** The methods sentences for a group comparison (unit of replication, tests, correction). */

@@ -407,6 +407,8 @@ export class MixedModelResult extends Result {
     readonly fits: Map<string, RandomInterceptFit>,
     readonly history: readonly Step[],
     readonly sources: readonly Source[] = [],
+    /** the rows fitted (kept so that unblind() can refit with the real labels) */
+    readonly input: readonly Row[] | null = null,
   ) {
     super();
   }
@@ -629,7 +631,7 @@ export function mixedModel(
     },
     version: VERSION,
   };
-  return new MixedModelResult(coefficients, anova, variance, o, fits, [...history, step], sources);
+  return new MixedModelResult(coefficients, anova, variance, o, fits, [...history, step], sources, rows);
 }
 
 type MixedSpec = { value: string; fixed: string[]; random: string; interaction: boolean };

@@ -260,12 +260,24 @@ export class PairedPulseResult extends Result {
       })
     );
   }
-  /** Recovery curves per class (src/plot/recovery.ts). */
+  /**
+   * Recovery curves per class (recoveryFigure of src/plot/recovery.ts, which registers itself when loaded, as the
+   * package index loads it: this layer does not import the plot layer).
+   */
   figure(): Figure {
-    // eslint-disable-next-line @typescript-eslint/no-var-requires
-    const { recoveryFigure } = require('../plot/recovery') as typeof import('../plot/recovery');
-    return recoveryFigure(this);
+    if (!figures.recovery)
+      throw new AnalysisError(
+        'the recovery figure is not loaded: import it from the package ("fascicle") or from src/plot/recovery',
+      );
+    return figures.recovery(this);
   }
+}
+
+/** Figure builders of this module's results, registered by src/plot/recovery.ts when it loads. */
+const figures: { recovery: ((r: PairedPulseResult) => Figure) | null } = { recovery: null };
+/** @internal called by src/plot/recovery.ts */
+export function registerRecoveryFigure(f: (r: PairedPulseResult) => Figure): void {
+  figures.recovery = f;
 }
 
 const num = (v: unknown): v is number => typeof v === 'number' && Number.isFinite(v);

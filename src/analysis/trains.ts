@@ -86,11 +86,21 @@ export class TrainResult extends Result {
     ];
     return 'TrainResult\n' + tableText(this.summary, { columns: cols.filter((c) => this.summary.some((r) => c in r)) });
   }
+  /** Train responses per class (trainFigure of src/plot/recovery.ts, registered when that module loads). */
   figure(): Figure {
-    // eslint-disable-next-line @typescript-eslint/no-var-requires
-    const { trainFigure } = require('../plot/recovery') as typeof import('../plot/recovery');
-    return trainFigure(this);
+    if (!figures.train)
+      throw new AnalysisError(
+        'the train figure is not loaded: import it from the package ("fascicle") or from src/plot/recovery',
+      );
+    return figures.train(this);
   }
+}
+
+/** Figure builder of train results, registered by src/plot/recovery.ts when it loads. */
+const figures: { train: ((r: TrainResult) => Figure) | null } = { train: null };
+/** @internal called by src/plot/recovery.ts */
+export function registerTrainFigure(f: (r: TrainResult) => Figure): void {
+  figures.train = f;
 }
 
 const num = (v: unknown): v is number => typeof v === 'number' && Number.isFinite(v);

@@ -3,7 +3,8 @@
  * fascicle command line.
  *   fascicle run <manifest.json> --out <dir> [--jobs N] [--shard i/n] [--nwb <file> [--nwb-raw]] [--no-figures] [--quiet]
  *   fascicle merge <shard-dir>... --out <dir>
- *   fascicle rerun <bundle-dir> [--manifest <path>]
+ *   fascicle rerun <bundle-dir> [--manifest <path>] [--key <key>]
+ *   fascicle unblind <bundle-dir> --key <key.csv|json> --out <dir> [--manifest <path>] [--no-figures] [--quiet]
  *   fascicle help [<command>] | version | --help | <command> --help | --version (a leading -- is skipped)
  * Exit codes: 0 success; 2 usage or configuration error (also a refused --out); 3 bad input
  * file; 4 the data cannot support the analysis; 5 a rerun did not reproduce the bundle;
@@ -11,12 +12,15 @@
  * After run and merge: exit 4 when nothing at all could be computed (the bundle is still written).
  */
 import { readFileSync, readdirSync, mkdtempSync, rmSync, existsSync, statSync } from 'node:fs';
-import { join, resolve, dirname } from 'node:path';
+import { join, resolve, dirname, relative, isAbsolute } from 'node:path';
 import { tmpdir } from 'node:os';
-import { runStudy, mergeShards, analysisOptions } from './engine';
+import { runStudy, mergeShards, analysisOptions, computeOutputs, manifestInputs, writeStudyBundle } from './engine';
 import { flagReport, FLAG_LINE_CAP } from './flags';
-import type { Study } from '../report/study';
-import { verifyInputs, type Provenance } from '../report/bundle';
+import { combineStudy, type Study } from '../report/study';
+import { verifyInputs, checkOutput, type Provenance } from '../report/bundle';
+import { readManifestJson, readBlindingKey, type BlindingKey } from '../io/manifest';
+import { unblindOutputs, unblindPipelineOptions } from '../analysis/blinding';
+import type { Step } from '../sweeps/SweepSet';
 import { InputError, AnalysisError, OptionError, OutputError, ConfigError, ThreadError, systemReason } from '../errors';
 import { nearest, didYouMean } from '../validate';
 import { VERSION } from '../version';
@@ -28,6 +32,8 @@ Usage:
   fascicle run <manifest.json> --out <dir> [options]   analyse a study into a bundle
   fascicle merge <shard-dir>... --out <dir>            combine the outputs of sharded runs
   fascicle rerun <bundle-dir> [--manifest <path>]      check that a bundle reproduces from its inputs
+  fascicle unblind <bundle-dir> --key <key> --out <dir>
+                                                       a blinded bundle with the real group labels
   fascicle help [<command>]                            this help, or help for one command
   fascicle version                                     the version
   (also: fascicle --help, fascicle <command> --help, fascicle --version)
@@ -80,20 +86,44 @@ Checks every input file against the SHA-256 in the bundle's provenance.json (exi
 changed file), reruns the recorded analysis, and compares every table (CSV and JSON), the set
 of tables and the methods text (exit 5 on any difference). Paths in provenance.json are
 relative (inputs to the manifest, the manifest to the bundle), so a study copied together
-with its bundle reruns anywhere; --manifest gives the manifest when only the study moved.`,
+with its bundle reruns anywhere; --manifest gives the manifest when only the study moved.
+A bundle made by "fascicle unblind" reruns with --key <the same key file> (its SHA-256 is checked).`,
+  unblind: `fascicle unblind <bundle-dir> --key <key.csv|key.json> --out <dir> [options]
+
+Applies the key of a blinded study (a manifest with "blinding": { "coded": true }) to its bundle
+and writes a NEW bundle whose tables, figures, report and methods use the real labels of the
+coded condition (default group); the bundle and the key are only read. It checks every input
+file against the SHA-256 in the bundle's provenance.json (exit 3), reruns the recorded analysis
+and checks that it reproduces the blinded bundle's tables (exit 5), then reruns the combined
+statistics with the real labels (so levels, comparisons and figures are those of a run with
+the real labels) and adds an "unblind" step to the provenance: when the key was applied, the
+key file's name and its SHA-256. The key must be kept outside the study folder.
+
+Key file: CSV with a header "code,label" and one code and its label per line, or JSON
+{ "fascicleBlindingKey": 1, "codes": { "K1": "control", "K2": "treated" } }. A code the study
+does not use, a code without a label, and two codes with the same label are errors (exit 3).
+
+Options:
+  --key <file>      the key [required]
+  --out <dir>       the new bundle [required]; refused as for "run" (a folder with other files,
+                    a file, the blinded bundle itself, or a path that is or holds an input)
+  --manifest <path> the study's manifest, when only the study moved
+  --no-figures      skip the figure files
+  --quiet           no progress output`,
   help: `fascicle help [<command>]
 
-Prints the help, or the help of one command (run, merge, rerun).`,
+Prints the help, or the help of one command (run, merge, rerun, unblind).`,
   version: `fascicle version
 
 Prints the version.`,
 };
 
-const COMMANDS = ['run', 'merge', 'rerun', 'help', 'version'];
+const COMMANDS = ['run', 'merge', 'rerun', 'unblind', 'help', 'version'];
 const VALUE_OPTIONS: Record<string, string[]> = {
   run: ['out', 'jobs', 'shard', 'nwb'],
   merge: ['out'],
-  rerun: ['manifest'],
+  rerun: ['manifest', 'key'],
+  unblind: ['key', 'out', 'manifest'],
   help: [],
   version: [],
 };
@@ -101,6 +131,7 @@ const FLAG_OPTIONS: Record<string, string[]> = {
   run: ['no-figures', 'quiet', 'help', 'nwb-raw'],
   merge: ['help'],
   rerun: ['help'],
+  unblind: ['no-figures', 'quiet', 'help'],
   help: ['help'],
   version: ['help'],
 };
@@ -191,7 +222,8 @@ async function main(argv0: string[]): Promise<number> {
   if (!COMMANDS.includes(argv[0])) {
     const near = nearest(argv[0], COMMANDS);
     throw new UsageError(
-      `unknown command "${argv[0]}"${near ? ` (did you mean "${near}"?)` : ''}; expected run, merge, rerun, help or version`,
+      `unknown command "${argv[0]}"${near ? ` (did you mean "${near}"?)` : ''}; ` +
+        'expected run, merge, rerun, unblind, help or version',
     );
   }
   const { cmd, pos, flags } = parse(argv);
@@ -244,6 +276,12 @@ async function main(argv0: string[]): Promise<number> {
       return 0;
     }
     console.log(`fascicle ${VERSION}: analysed ${r.outputs.length} preparation(s) in ${secs} s`);
+    const blind = r.study!.history.find((h) => h.verb === 'blinding');
+    if (blind)
+      console.log(
+        `blinded: the "${blind.options.condition}" labels are codes (${(blind.options.codes as string[]).join(', ')}); ` +
+          `apply the key afterwards with: fascicle unblind ${flags.out} --key <key file> --out <new folder>`,
+      );
     if (flags['nwb-raw'] && typeof flags.nwb !== 'string') throw new UsageError('--nwb-raw needs --nwb <file>');
     if (typeof flags.nwb === 'string') await writeStudyNwb(pos[0], flags.nwb, !!flags['nwb-raw'], r.study!);
     return reportStudy(r.study!, flags.out);
@@ -255,8 +293,22 @@ async function main(argv0: string[]): Promise<number> {
     console.log(`merged ${pos.length} shard(s)`);
     return reportStudy(study, flags.out);
   }
+  if (cmd === 'unblind') {
+    if (pos.length !== 1) throw new UsageError('unblind needs exactly one bundle folder');
+    if (typeof flags.key !== 'string') throw new UsageError('unblind needs --key <key file>');
+    if (typeof flags.out !== 'string') throw new UsageError('unblind needs --out <dir> (a new bundle)');
+    return unblindCommand(pos[0], flags.key, flags.out, {
+      manifest: typeof flags.manifest === 'string' ? flags.manifest : undefined,
+      figures: !flags['no-figures'],
+      onProgress: progressBar(!!flags.quiet),
+    });
+  }
   if (pos.length !== 1) throw new UsageError('rerun needs exactly one bundle folder');
-  return rerun(pos[0], typeof flags.manifest === 'string' ? flags.manifest : undefined);
+  return rerun(
+    pos[0],
+    typeof flags.manifest === 'string' ? flags.manifest : undefined,
+    typeof flags.key === 'string' ? flags.key : undefined,
+  );
 }
 
 /**
@@ -364,8 +416,8 @@ function tableFiles(dir: string): string[] {
     : [];
 }
 
-async function rerun(dir: string, manifestOverride?: string): Promise<number> {
-  const prov = readProvenance(dir);
+/** The manifest a bundle records (or the one given), which must exist. */
+function bundleManifest(dir: string, prov: Provenance, manifestOverride?: string): string {
   const manifest = manifestOverride ?? resolve(dir, prov.rerun!.manifest);
   if (!existsSync(manifest)) {
     throw new InputError(
@@ -374,11 +426,37 @@ async function rerun(dir: string, manifestOverride?: string): Promise<number> {
       "the study's manifest: copy the study with its bundle (paths are relative), or give it with --manifest <path>",
     );
   }
+  return manifest;
+}
+
+async function rerun(dir: string, manifestOverride?: string, keyPath?: string): Promise<number> {
+  const prov = readProvenance(dir);
+  const manifest = bundleManifest(dir, prov, manifestOverride);
+  const applied = (prov.steps as Step[]).find((h) => h.verb === 'unblind');
+  if (applied && keyPath === undefined)
+    throw new ConfigError(
+      { file: join(dir, 'provenance.json'), field: 'steps' },
+      `the bundle was unblinded with the key ${applied.options.keyFile ?? '(given in code)'} ` +
+        `(SHA-256 ${applied.options.keySha256}, applied ${applied.options.appliedAt})`,
+      'that key, given with --key <file>, to rerun it',
+    );
+  if (!applied && keyPath !== undefined)
+    throw new UsageError('--key is only for a bundle made by "fascicle unblind"; this one was not unblinded');
   verifyInputs(prov, dirname(resolve(manifest)));
   const tmp = mkdtempSync(join(tmpdir(), 'fascicle-rerun-'));
   try {
     const out = join(tmp, 'bundle');
-    await runStudy({ manifest, out, jobs: 1, figures: false });
+    if (applied) {
+      const key = readBlindingKey(keyPath!);
+      if (key.sha256 !== applied.options.keySha256)
+        throw new InputError(
+          { file: keyPath! },
+          `its SHA-256 ${key.sha256} differs from that of the key applied (${applied.options.keySha256})`,
+          `the key file the bundle was unblinded with (${applied.options.keyFile})`,
+        );
+      const u = await unblindedStudy(manifest, key, {});
+      await writeStudyBundle(out, u.study, u.rerun, u.preparations, false);
+    } else await runStudy({ manifest, out, jobs: 1, figures: false });
     const had = tableFiles(dir),
       got = tableFiles(out);
     const missing = got.filter((f) => !had.includes(f)),
@@ -421,6 +499,127 @@ async function rerun(dir: string, manifestOverride?: string): Promise<number> {
   } finally {
     rmSync(tmp, { recursive: true, force: true });
   }
+}
+
+const isInside = (child: string, parent: string) => {
+  const r = relative(parent, child);
+  return r === '' || (!r.startsWith('..') && !isAbsolute(r));
+};
+
+/**
+ * The study of a blinded manifest with the key applied: outputs computed from the inputs (as run), relabelled, then
+ * combined with the real labels; `blinded` is the study as the run combined it (for the check against its bundle).
+ */
+async function unblindedStudy(
+  manifest: string,
+  key: BlindingKey,
+  o: { onProgress?: (done: number, total: number, prep: string) => void; check?: (blinded: Study) => void },
+): Promise<{ study: Study; rerun: { manifest: string; options: unknown }; preparations: number }> {
+  const m = readManifestJson(manifest).manifest;
+  if (!m.blinding?.coded)
+    throw new ConfigError(
+      { file: manifest, field: '/blinding' },
+      'the manifest does not say its labels are coded',
+      'a blinded study: "blinding": { "coded": true } in its manifest',
+    );
+  const condition = m.blinding.condition ?? 'group';
+  if (key.condition !== undefined && key.condition !== condition)
+    throw new InputError(
+      { file: key.file ?? '(key)' },
+      `the key is for the condition "${key.condition}", but the study's coded condition is "${condition}"`,
+      'the key of this study',
+    );
+  const options = analysisOptions(manifest);
+  const outputs = await computeOutputs({ manifest, out: '', jobs: 1, onProgress: o.onProgress }, options);
+  if (o.check) o.check(combineStudy(outputs, options));
+  const u = unblindOutputs(outputs, key, { condition });
+  const study = combineStudy(u.outputs, unblindPipelineOptions(options, condition, u.mapping));
+  study.history.push(u.step);
+  return { study, rerun: { manifest: resolve(manifest), options }, preparations: outputs.length };
+}
+
+/** fascicle unblind: a new bundle of a blinded study with the key applied (HELP.unblind). */
+async function unblindCommand(
+  dir: string,
+  keyPath: string,
+  out: string,
+  o: {
+    manifest?: string;
+    figures: boolean;
+    onProgress?: (done: number, total: number, prep: string) => void;
+  },
+): Promise<number> {
+  const prov = readProvenance(dir);
+  const steps = prov.steps as Step[];
+  const applied = steps.find((h) => h.verb === 'unblind');
+  if (applied)
+    throw new InputError(
+      { file: join(dir, 'provenance.json'), field: 'steps' },
+      `the bundle is already unblinded (key ${applied.options.keyFile}, applied ${applied.options.appliedAt})`,
+      'the blinded bundle of the study',
+    );
+  if (!steps.some((h) => h.verb === 'blinding'))
+    throw new InputError(
+      { file: join(dir, 'provenance.json'), field: 'steps' },
+      'records no blinded analysis (no "blinding" step): its labels are not codes',
+      'the bundle of a study whose manifest has "blinding": { "coded": true }',
+    );
+  const manifest = bundleManifest(dir, prov, o.manifest);
+  const key = readBlindingKey(keyPath);
+  const inputs = manifestInputs(manifest);
+  const studyDirs = [...new Set(inputs.slice(1).map((p, i) => (i === 0 ? p : dirname(p))))];
+  const inStudy = studyDirs.find((d) => isInside(resolve(keyPath), d));
+  if (inStudy)
+    throw new ConfigError(
+      { file: keyPath },
+      `the key lies inside the study folder ${inStudy}`,
+      'the key kept outside the study (move it, then unblind)',
+    );
+  // refuse a destination that would lose files (or is the bundle or the key) before any work is done
+  checkOutput(out, [resolve(dir), resolve(keyPath), ...inputs]);
+  verifyInputs(prov, dirname(resolve(manifest)));
+  let differs: string | null = null;
+  const u = await unblindedStudy(manifest, key, {
+    onProgress: o.onProgress,
+    check: (blinded) => {
+      differs = tableDifference(dir, blinded.tables as unknown as Record<string, unknown[]>);
+    },
+  });
+  if (differs) {
+    console.error(
+      `fascicle: the blinded bundle does not reproduce from its inputs (${differs}); ` +
+        'unblind only a bundle that "fascicle rerun" reproduces',
+    );
+    return 5;
+  }
+  await writeStudyBundle(out, u.study, u.rerun, u.preparations, o.figures);
+  const step = u.study.history[u.study.history.length - 1];
+  const map = step.options.mapping as Record<string, string>;
+  console.log(
+    `unblinded ${Object.keys(map).length} "${step.options.condition}" codes ` +
+      `(${Object.entries(map)
+        .map(([c, l]) => `${c} = ${l}`)
+        .join(', ')}) with ${step.options.keyFile} (SHA-256 ${String(step.options.keySha256).slice(0, 12)}...)`,
+  );
+  return reportStudy(u.study, out);
+}
+
+/** The first table of a bundle that differs from `tables` (as the bundle writes them), or null. */
+function tableDifference(dir: string, tables: Record<string, unknown[]>): string | null {
+  const had = tableFiles(dir).filter((f) => f.endsWith('.json'));
+  const want = Object.keys(tables)
+    .map((k) => `${k}.json`)
+    .sort();
+  const missing = want.filter((f) => !had.includes(f)),
+    extra = had.filter((f) => !want.includes(f));
+  if (missing.length) return `the bundle lacks tables/${missing[0]}`;
+  if (extra.length) return `the bundle has tables/${extra[0]}, which the rerun did not produce`;
+  for (const f of want) {
+    const a = readFileSync(join(dir, 'tables', f)),
+      b = Buffer.from(JSON.stringify(tables[f.replace(/\.json$/, '')], null, 1) + '\n');
+    if (!a.equals(b)) return `tables/${f}${firstDifference(a, b)}`;
+  }
+  return null;
 }
 
 /** " at line N" of the first difference between two texts. */

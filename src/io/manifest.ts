@@ -4,7 +4,9 @@
  * study loads in one call and every sweep knows its conditions. The JSON Schema
  * ships in the package as schema/manifest.schema.json.
  */
-import { dirname, join, resolve, isAbsolute } from 'node:path';
+import { dirname, join, resolve, isAbsolute, relative, basename } from 'node:path';
+import { readdirSync, statSync, readFileSync } from 'node:fs';
+import { createHash } from 'node:crypto';
 import { InputError, OptionError, ConfigError } from '../errors';
 import { SweepSet, type Conditions } from '../sweeps/SweepSet';
 import { readInput } from './files';
@@ -31,6 +33,8 @@ export interface Manifest {
   classPreset?: string;
   required?: string[];
   defaults?: Conditions;
+  /** blinded analysis: the values of `condition` (default 'group') are codes; the key stays outside the study */
+  blinding?: { coded: boolean; condition?: string };
   analysis?: Record<string, unknown>;
   files: ManifestFile[];
 }
@@ -52,9 +56,11 @@ export const MANIFEST_KEYS = [
   'classPreset',
   'required',
   'defaults',
+  'blinding',
   'analysis',
   'files',
 ] as const;
+export const BLINDING_KEYS = ['coded', 'condition'] as const;
 export const FILE_KEYS = ['path', 'format', 'options', 'conditions', 'sweeps'] as const;
 /** Reader options a manifest may give a delimited file (DelimitedOptions without conditions, which the manifest gives itself). */
 export const FILE_OPTION_KEYS = ['delimiter', 'decimal', 'layout', 'timeUnit', 'units', 'stimulusAt'] as const;
@@ -278,6 +284,7 @@ export function checkManifestKeys(m: unknown, file: string): void {
     );
   checkObjectKeys(file, '', m, MANIFEST_KEYS);
   const man = m as Record<string, unknown>;
+  checkObjectKeys(file, '/blinding', man.blinding, BLINDING_KEYS);
   if (
     man.classPreset !== undefined &&
     (typeof man.classPreset !== 'string' || !Object.hasOwn(PRESETS, man.classPreset))
@@ -418,6 +425,191 @@ function validate(m: unknown, file: string): asserts m is Manifest {
     check(f.conditions, `/files/${i}/conditions`);
     f.sweeps?.forEach((c, j) => check(c, `/files/${i}/sweeps/${j}`));
   });
+  if (man.blinding?.coded && blindingCodes(man).length === 0) {
+    const cond = blindingCondition(man);
+    throw new ConfigError(
+      { file, field: man.blinding.condition === undefined ? '/blinding' : '/blinding/condition' },
+      `says the values of "${cond}" are coded, but no file or sweep has a "${cond}" condition`,
+      `the coded labels as the "${cond}" condition of the files (or sweeps), or "condition" naming the coded one`,
+    );
+  }
+}
+
+/** The coded condition of a manifest's blinding section (default 'group'). */
+export function blindingCondition(m: Manifest): string {
+  return m.blinding?.condition ?? 'group';
+}
+
+/** The codes a blinded manifest gives (values of the coded condition in defaults, files and sweeps), sorted. */
+export function blindingCodes(m: Manifest): string[] {
+  const cond = blindingCondition(m);
+  const out = new Set<string>();
+  const add = (c: Conditions | undefined) => {
+    const v = c?.[cond];
+    if (v !== undefined && v !== null) out.add(String(v));
+  };
+  add(m.defaults);
+  for (const f of m.files) {
+    add(f.conditions);
+    f.sweeps?.forEach(add);
+  }
+  return [...out].sort();
+}
+
+/**
+ * A blinding key: code -> real label of the coded condition. Files: CSV (a header `code,label`, or `code,<condition>`,
+ * then one code and its label per line; comma, semicolon or tab; `#` comment lines) or JSON
+ * (`{ "fascicleBlindingKey": 1, "condition": "group", "codes": { "K1": "control", ... } }`, condition optional).
+ */
+export interface BlindingKey {
+  codes: Record<string, string>;
+  /** the condition the key is for, when the file names it */
+  condition?: string;
+  /** the key file's path as given, and its SHA-256 (null for a key given as an object) */
+  file: string | null;
+  sha256: string | null;
+}
+const KEY_EXPECTED =
+  'a blinding key: CSV with a header "code,label" and one code and label per line, or JSON ' +
+  '{ "fascicleBlindingKey": 1, "codes": { "<code>": "<label>", ... } }';
+const KEY_HEADER = /^\uFEFF?\s*"?code"?\s*([,;\t])\s*"?([^",;\t]+?)"?\s*$/i;
+
+/** Whether a file's text is a blinding key (the CSV header or the JSON marker / codes object). */
+export function looksLikeBlindingKey(text: string): boolean {
+  const t = text.replace(/^\uFEFF/, '').trimStart();
+  if (t.startsWith('{')) {
+    try {
+      const j = JSON.parse(t);
+      return !!j && typeof j === 'object' && ('fascicleBlindingKey' in j || (j.codes && typeof j.codes === 'object'));
+    } catch {
+      return /"fascicleBlindingKey"/.test(t);
+    }
+  }
+  const first = t.split(/\r?\n/).find((l) => l.trim() !== '' && !l.trimStart().startsWith('#'));
+  return first !== undefined && KEY_HEADER.test(first);
+}
+
+/**
+ * Parse a blinding key's text (format: BlindingKey). Codes and labels are trimmed; a repeated code, an empty code
+ * or label, or a line without exactly two cells is an InputError naming the file and line.
+ */
+export function parseBlindingKey(text: string, file: string): BlindingKey {
+  const sha256 = createHash('sha256').update(text, 'utf8').digest('hex');
+  const t = text.replace(/^\uFEFF/, '');
+  const codes: Record<string, string> = {};
+  if (t.trimStart().startsWith('{')) {
+    let j: unknown;
+    try {
+      j = JSON.parse(t);
+    } catch (e) {
+      throw new InputError({ file }, `invalid JSON (${(e as Error).message})`, KEY_EXPECTED);
+    }
+    const o = j as Record<string, unknown>;
+    if (!o || typeof o !== 'object' || Array.isArray(o) || !o.codes || typeof o.codes !== 'object')
+      throw new InputError({ file, field: 'codes' }, 'has no "codes" object', KEY_EXPECTED);
+    const extra = Object.keys(o).find((k) => !['fascicleBlindingKey', 'condition', 'codes'].includes(k));
+    if (extra !== undefined) {
+      const near = nearest(extra, ['fascicleBlindingKey', 'condition', 'codes']);
+      throw new InputError(
+        { file, field: extra },
+        `unknown key "${extra}"${near ? ` (did you mean "${near}"?)` : ''}`,
+        'fascicleBlindingKey, condition and codes',
+      );
+    }
+    if (o.condition !== undefined && (typeof o.condition !== 'string' || !o.condition))
+      throw new InputError({ file, field: 'condition' }, `is ${shown(o.condition)}`, 'the name of the coded condition');
+    for (const [code, label] of Object.entries(o.codes as object)) {
+      if (typeof label !== 'string' || !label.trim() || !code.trim())
+        throw new InputError({ file, field: `codes/${code}` }, `is ${shown(label)}`, 'a non-empty label (a string)');
+      codes[code.trim()] = label.trim();
+    }
+    return { codes, ...(o.condition ? { condition: o.condition as string } : {}), file, sha256 };
+  }
+  const lines = t.split(/\r?\n/);
+  let header = -1,
+    delim = ',',
+    second = '';
+  for (let i = 0; i < lines.length; i++) {
+    const l = lines[i];
+    if (l.trim() === '' || l.trimStart().startsWith('#')) continue;
+    const m = KEY_HEADER.exec(l);
+    if (!m) throw new InputError({ file, line: i + 1 }, `header ${shown(l.trim())}`, KEY_EXPECTED);
+    header = i;
+    delim = m[1];
+    second = m[2].trim();
+    break;
+  }
+  if (header < 0) throw new InputError({ file }, 'the file is empty', KEY_EXPECTED);
+  const lineOf: Record<string, number> = {};
+  for (let i = header + 1; i < lines.length; i++) {
+    const l = lines[i];
+    if (l.trim() === '' || l.trimStart().startsWith('#')) continue;
+    const cells = l.split(delim).map((c) =>
+      c
+        .trim()
+        .replace(/^"(.*)"$/, '$1')
+        .trim(),
+    );
+    if (cells.length !== 2 || !cells[0] || !cells[1])
+      throw new InputError(
+        { file, line: i + 1 },
+        `${shown(l.trim())} is not a code and a label`,
+        `two non-empty cells separated by ${JSON.stringify(delim)}`,
+      );
+    if (cells[0] in lineOf)
+      throw new InputError(
+        { file, line: i + 1 },
+        `code "${cells[0]}" is given again (first on line ${lineOf[cells[0]]})`,
+        'each code once',
+      );
+    lineOf[cells[0]] = i + 1;
+    codes[cells[0]] = cells[1];
+  }
+  if (!Object.keys(codes).length) throw new InputError({ file }, 'no codes after the header', KEY_EXPECTED);
+  const condition = /^label$/i.test(second) ? undefined : second;
+  return { codes, ...(condition ? { condition } : {}), file, sha256 };
+}
+
+/** Read a blinding key file (read-only; format: BlindingKey). @throws InputError naming the file and line. */
+export function readBlindingKey(path: string): BlindingKey {
+  const { bytes } = readInput(path);
+  const key = parseBlindingKey(Buffer.from(bytes).toString('utf8'), path);
+  return { ...key, sha256: createHash('sha256').update(bytes).digest('hex') };
+}
+
+/** Largest file looked at when searching a study folder for a blinding key (a key is a few lines). */
+const KEY_SCAN_BYTES = 1 << 20;
+
+/**
+ * Blinding keys inside a study: files (.csv, .tsv, .txt, .json up to 1 MB) in the manifest's folder and in the
+ * folders of its listed files that read as a key (looksLikeBlindingKey). The listed files themselves are not keys.
+ */
+export function blindingKeysInStudy(manifestPath: string, m: Manifest): string[] {
+  const dir = dirname(resolve(manifestPath));
+  const listed = new Set(m.files.map((f) => resolve(dir, f.path)));
+  listed.add(resolve(manifestPath));
+  const dirs = [...new Set([dir, ...[...listed].map((p) => dirname(p))])];
+  const found: string[] = [];
+  for (const d of dirs) {
+    let names: string[];
+    try {
+      names = readdirSync(d);
+    } catch {
+      continue;
+    }
+    for (const n of names.sort()) {
+      const p = join(d, n);
+      if (!/\.(csv|tsv|txt|json)$/i.test(n) || listed.has(p)) continue;
+      try {
+        const st = statSync(p);
+        if (!st.isFile() || st.size > KEY_SCAN_BYTES) continue;
+        if (looksLikeBlindingKey(readFileSync(p, 'utf8'))) found.push(p);
+      } catch {
+        // unreadable: not a key we can see
+      }
+    }
+  }
+  return found;
 }
 
 /** Parse and check a manifest without loading its files. */
@@ -450,6 +642,17 @@ function formatOf(f: ManifestFile): 'delimited' | 'binary' | 'nwb' {
  */
 export function readManifest(path: string, opts: { only?: (f: ManifestFile, i: number) => boolean } = {}): SweepSet {
   const { manifest, source } = readManifestJson(path);
+  if (manifest.blinding?.coded) {
+    const keys = blindingKeysInStudy(path, manifest);
+    if (keys.length)
+      throw new ConfigError(
+        { file: path, field: '/blinding' },
+        `the study is blinded ("coded": true) but a blinding key lies in the study folder: ` +
+          `${relative(dirname(resolve(path)), keys[0]) || basename(keys[0])}`,
+        'the key kept outside the study while it is analysed; apply it afterwards ' +
+          '(fascicle unblind <bundle> --key <file>, or unblind(result, readBlindingKey(file)))',
+      );
+  }
   const dir = dirname(resolve(path));
   const required = manifest.required ?? ['preparation'];
   const sets: SweepSet[] = [];
@@ -524,10 +727,20 @@ export function readManifest(path: string, opts: { only?: (f: ManifestFile, i: n
   });
   if (sets.length === 0) throw new InputError({ file: path }, 'no files selected', 'at least one file');
   const all = SweepSet.concat(sets);
+  const blinded = manifest.blinding?.coded
+    ? [
+        {
+          verb: 'blinding',
+          options: { state: 'blinded', condition: blindingCondition(manifest), codes: blindingCodes(manifest) },
+          version: VERSION,
+        },
+      ]
+    : [];
   return all.create({
     sources: [source, ...all.sources],
     history: [
       { verb: 'readManifest', options: { path, study: manifest.study ?? null, files: sets.length }, version: VERSION },
+      ...blinded,
     ],
     extras: { manifest },
   });

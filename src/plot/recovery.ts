@@ -5,8 +5,9 @@
  */
 import { Figure, PALETTE, MARKERS, layoutFor } from './figure';
 import { plotlyText, logAxis } from './labels';
-import { recoveryLogistic } from '../analysis/pairedPulse';
+import { recoveryLogistic, registerRecoveryFigure } from '../analysis/pairedPulse';
 import type { PairedPulseResult } from '../analysis/pairedPulse';
+import { registerTrainFigure } from '../analysis/trains';
 import type { TrainResult } from '../analysis/trains';
 import type { ConditionValue } from '../sweeps/SweepSet';
 
@@ -125,3 +126,7 @@ export function trainFigure(result: TrainResult): Figure {
   });
   return new Figure('train responses', { data, layout });
 }
+
+// the results' figure() methods (the analysis layer does not import this one)
+registerRecoveryFigure(recoveryFigure);
+registerTrainFigure(trainFigure);

@@ -4,7 +4,7 @@
 // step's exported defaults object, the series names the pipeline looks for, and the JSON Schema.
 // The references are the other modules' own source and behaviour, read here; nothing is copied.
 import { describe, it, expect, afterAll } from 'vitest';
-import { readFileSync, writeFileSync, mkdtempSync, rmSync } from 'node:fs';
+import { readFileSync, writeFileSync, mkdtempSync, rmSync, existsSync, readdirSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join, resolve, dirname } from 'node:path';
 import {
@@ -314,8 +314,19 @@ describe('manifest analysis keys follow the pipeline (drift test)', () => {
   });
   it('SERIES holds exactly the series names the pipeline and study look for, and the schema the same', () => {
     const found = new Set<string>();
-    for (const f of ['pipeline.ts', 'study.ts']) {
-      const src = readFileSync(join(root, 'src', 'report', f), 'utf8');
+    // the pipeline, the study, and (when present) the registry of analyses they run
+    const reg = join(root, 'src', 'registry');
+    const files = [
+      join(root, 'src', 'report', 'pipeline.ts'),
+      join(root, 'src', 'report', 'study.ts'),
+      ...(existsSync(reg)
+        ? readdirSync(reg)
+            .filter((f) => f.endsWith('.ts'))
+            .map((f) => join(reg, f))
+        : []),
+    ];
+    for (const f of files) {
+      const src = readFileSync(f, 'utf8');
       const patterns = [
         /\bhas\('([\w-]+)'\)/g,
         /(?:hasSeries|seriesOf)\([^,()]+,\s*'([\w-]+)'\)/g,
