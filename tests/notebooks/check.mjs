@@ -1,6 +1,7 @@
 // Open exported notebooks in headless Chromium: every figure the notebook made must render
 // (plotly roots == fascicle figure divs), and the page must log no errors. Screenshots go to
-// .ci-artifacts/ (gitignored).
+// .ci-artifacts/ (gitignored); each figure is also saved as <html name>.fig<k>.png beside the HTML,
+// in page order (store.py puts them into the stored notebooks).
 import { chromium } from 'playwright-core';
 import { basename } from 'node:path';
 import { pathToFileURL } from 'node:url';
@@ -23,6 +24,11 @@ try {
       rendered = await page.locator('div.fascicle-figure.js-plotly-plot svg.main-svg').evaluateAll((els) => new Set(els.map((e) => e.closest('.fascicle-figure'))).size);
       if (rendered >= expected) break;
       await page.waitForTimeout(500);
+    }
+    await page.waitForTimeout(300);
+    const figs = page.locator('div.fascicle-figure');
+    for (let k = 0; k < rendered && rendered === expected; k++) {
+      await figs.nth(k).screenshot({ path: f.replace(/\.html$/, `.fig${k}.png`) });
     }
     // errors from blocked network requests of the classic notebook's page (none expected offline) are kept
     await page.screenshot({ path: `.ci-artifacts/${basename(f, '.html')}.png`, fullPage: true });
