@@ -192,3 +192,18 @@ export { simulatePairedPulse, simulateTrain, pairedPulseTruth, trainTruth, train
 export { reportHtml, writeReportHtml, reportFragment, showReport } from './report/reportHtml';
 export type { ReportInput } from './report/reportHtml';
 export type { GroupTable, VelocityDistributionEntry } from './report/pipeline';
+export {
+  unblind,
+  unblindOutputs,
+  unblindPipelineOptions,
+  checkBlindingKey,
+  toBlindingKey,
+  blindingStep,
+  unblindStep,
+  blindingDefaults,
+  readBlindingKey,
+  parseBlindingKey,
+  looksLikeBlindingKey,
+  blindingKeysInStudy,
+} from './analysis/blinding';
+export type { BlindingKey, KeyInput, UnblindOptions } from './analysis/blinding';
