@@ -18,7 +18,7 @@ import {
 import { toFrame } from '../report/frame';
 import { tableHtml, tableText } from '../notebook/html';
 import { VERSION } from '../version';
-import { Result } from '../report/result';
+import { Result } from '../notebook/result';
 import { doseResponse, type DoseResponseOptions, DoseResponseResult } from '../analysis/doseResponse';
 import { recruitment, RecruitmentResult } from '../analysis/recruitment';
 import { strengthDuration, StrengthDurationResult, type StrengthDurationOptions } from '../analysis/strengthDuration';
