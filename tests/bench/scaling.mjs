@@ -1,10 +1,13 @@
 // Per-sweep cost of the pipeline stages at 250, 1,000 and 4,000 sweeps (20,000 float32 samples
 // each, 50 conditions, the steps of tests/bench/scipy.mjs through the public API): wall and
 // CPU time per sweep (median of 3 after a warm-up), and the spread across sizes (target:
-// within 20% from 250 to 4,000 sweeps). Prints figures, asserts nothing.
+// within 20% from 250 to 4,000 sweeps); then `fascicle run` per preparation at 4, 16 and 64
+// preparations (target: flat). Prints figures, asserts nothing.
 // Run: `npx tsc -p tsconfig.json && node --expose-gc tests/bench/scaling.mjs`
-// (BENCH_SCALING_SIZES="250,1000,4000", BENCH_SAMPLES=20000, BENCH_RUNS=3 change it).
-import { mkdtempSync, rmSync, writeFileSync } from 'node:fs';
+// (BENCH_SCALING_SIZES="250,1000,4000", BENCH_SAMPLES=20000, BENCH_RUNS=3, BENCH_SCALING_PREPS="4,16,64",
+// BENCH_CLI_RUNS=2 change it; BENCH_SCALING_RUN=0 skips the command-line part).
+import { mkdirSync, mkdtempSync, rmSync, writeFileSync } from 'node:fs';
+import { spawnSync } from 'node:child_process';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { createRequire } from 'node:module';
@@ -123,6 +126,108 @@ function run(threads) {
   }
 }
 
+// ---- `fascicle run` per preparation at 4, 16 and 64 preparations (a distance series each: 6 sweeps of
+// 3,000 samples from the forward model, as the 100-preparation study of tests/bench/run.mjs), figures on and
+// off; wall time of the whole command (start-up included) divided by the number of preparations
+const PREPS = (process.env.BENCH_SCALING_PREPS ?? '4,16,64').split(',').map(Number);
+const CLI_RUNS = Number(process.env.BENCH_CLI_RUNS ?? 2);
+const cli = join(process.cwd(), 'dist', 'cli', 'main.js');
+function makeStudy(P) {
+  const sdir = join(dir, `study-${P}`);
+  mkdirSync(sdir);
+  const nerve = f.model.rodentSciatic();
+  const files = [];
+  for (let p = 0; p < P; p++) {
+    const sweeps = [20, 40].flatMap((d) =>
+      [0, 1, 2].map((r) => ({
+        intensity: 20,
+        distanceMm: d,
+        temperatureC: 37,
+        concentration: 0,
+        conditions: { repeat: r },
+      })),
+    );
+    const s = f.model.simulateNerve({
+      model: nerve,
+      seed: 1000 + p,
+      grid: { fs: 50000, t0Ms: -5, nSamples: 3000 },
+      sweeps,
+      nuisance: { noiseUv: 5 },
+    });
+    const meta = f.writeBinary(join(sdir, `p${p}.bin`), s, 'float32');
+    writeFileSync(join(sdir, `p${p}.json`), JSON.stringify({ data: `p${p}.bin`, ...meta }));
+    files.push({
+      path: `p${p}.json`,
+      conditions: {
+        preparation: `P${String(p).padStart(3, '0')}`,
+        series: 'distance',
+        temperatureC: 37,
+        concentration: 0,
+        intensity: 20,
+      },
+      sweeps: sweeps.map((q) => ({ distanceMm: q.distanceMm })),
+    });
+  }
+  writeFileSync(
+    join(sdir, 'manifest.json'),
+    JSON.stringify({
+      fascicleManifest: 1,
+      files,
+      analysis: { baseline: { window: [-5, -0.2] }, components: { earliestMs: 0.12 } },
+    }),
+  );
+  return join(sdir, 'manifest.json');
+}
+function runCli(manifest, out, jobs, figures) {
+  const t0 = process.hrtime.bigint();
+  const args = [cli, 'run', manifest, '--out', out, '--jobs', String(jobs), '--quiet'];
+  if (!figures) args.push('--no-figures');
+  const r = spawnSync(process.execPath, args, { encoding: 'utf8', maxBuffer: 1 << 26 });
+  const t = Number(process.hrtime.bigint() - t0) / 1e9;
+  rmSync(out, { recursive: true, force: true });
+  return r.status === 0 || r.status === 4 ? t : NaN;
+}
+function runScaling() {
+  console.log(
+    `\n-- fascicle run: seconds per preparation (whole command, start-up included; best of ${CLI_RUNS}; ` +
+      'distance series of 6 sweeps x 3,000 samples each)',
+  );
+  const t00 = process.hrtime.bigint();
+  const studies = PREPS.map((P) => [P, makeStudy(P)]);
+  console.log(`(studies synthesized in ${(Number(process.hrtime.bigint() - t00) / 1e9).toFixed(1)} s, not timed)`);
+  const cases = [
+    ['--jobs 1 --no-figures', 1, false],
+    ['--jobs 2 --no-figures', 2, false],
+    ['--jobs 1, figures', 1, true],
+  ];
+  console.log(`${'command'.padEnd(24)}${PREPS.map((P) => `${P} preparations`.padStart(18)).join('')}   spread max/min`);
+  for (const [name, jobs, figures] of cases) {
+    const per = studies.map(([P, m]) => {
+      let best = Infinity;
+      for (let k = 0; k < CLI_RUNS; k++) best = Math.min(best, runCli(m, join(dir, `out-${P}`), jobs, figures));
+      return best / P;
+    });
+    const spread = Math.max(...per) / Math.min(...per);
+    console.log(
+      `${name.padEnd(24)}${per.map((x) => `${x.toFixed(3)} s`.padStart(18)).join('')}   ${spread.toFixed(2)}` +
+        ` (target flat: <= 1.20 ${spread <= 1.2 ? 'meets' : 'BEYOND'})`,
+    );
+  }
+  // the fixed cost itself: the command on a study of one preparation, and node starting fascicle
+  const one = makeStudy(1);
+  let tOne = Infinity,
+    tImport = Infinity;
+  for (let k = 0; k < CLI_RUNS; k++) {
+    tOne = Math.min(tOne, runCli(one, join(dir, 'out-1'), 1, false));
+    const t0 = process.hrtime.bigint();
+    spawnSync(process.execPath, ['-e', `require(${JSON.stringify(join(process.cwd(), 'dist', 'index.js'))})`]);
+    tImport = Math.min(tImport, Number(process.hrtime.bigint() - t0) / 1e9);
+  }
+  console.log(
+    `fixed cost: one preparation ${tOne.toFixed(2)} s (--jobs 1 --no-figures); node + require fascicle ${tImport.toFixed(2)} s`,
+  );
+}
+
 console.log(
   `== per-sweep cost at ${SIZES.join(', ')} sweeps (${N} float32 samples, ${CONDITIONS} conditions; median of ${RUNS} after a warm-up; load average ${require('node:os').loadavg()[0].toFixed(1)})`,
 );
@@ -130,5 +235,6 @@ const all = f.threads();
 run(all);
 if (all > 1) run(1);
 f.setThreads(all);
+if (process.env.BENCH_SCALING_RUN !== '0') runScaling(); // BENCH_SCALING_RUN=0 skips the command-line part
 await f.stopThreads();
 rmSync(dir, { recursive: true, force: true });
