@@ -9,7 +9,8 @@ import type { PipelineOptions } from '../report/pipeline';
 import { writeBundle, makeProvenance, checkOutput, relativeProvenance, type Provenance } from '../report/bundle';
 import { methodsText } from '../report/methods';
 import { OptionError, InputError, ThreadError } from '../errors';
-import { studyFigures } from '../plot/study';
+import { studyFigureFiles } from '../plot/study';
+import { studyFigureList } from '../registry/index';
 import { nwbReady } from '../io/nwbLib';
 
 export interface RunOptions {
@@ -209,7 +210,7 @@ export async function writeStudyBundle(
   const inputs = [...named, ...study.sources.map((s) => s.path)];
   checkOutput(out, inputs);
   const files: Record<string, string> = {};
-  if (figures) Object.assign(files, studyFigures(study));
+  if (figures) Object.assign(files, studyFigureFiles(studyFigureList(study)));
   let provenance = makeProvenance(study.history, study.sources, rerun);
   if (rerun?.manifest) provenance = relativeProvenance(provenance, rerun.manifest, out);
   const methods = methodsText(study.history, { preparations, files: files0 });

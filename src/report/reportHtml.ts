@@ -16,7 +16,7 @@ import type { Figure } from '../plot/figure';
 import { plotlyJs } from '../plot/figure';
 import { plainTitle } from '../plot/export';
 import { unitText, plainText } from '../plot/labels';
-import { studyFigureList } from '../plot/study';
+import { studyFigureList, tableSpec } from '../registry/index';
 import { escapeHtml, formatCell, tableHtml, displayHtml } from '../notebook/html';
 import { checkKeys } from '../validate';
 
@@ -44,52 +44,13 @@ export interface ReportInput {
 
 const INPUT_KEYS = ['study', 'methods', 'provenance', 'figures', 'title', 'bundle'];
 
-/** Bulky tables: on screen inside a closed section, left out of print (their files hold them). */
-const BULK = new Set([
-  'components',
-  'recruitment_points',
-  'dose_response_points',
-  'temperature_points',
-  'strength_duration_points',
-]);
-
 /** Tables up to this size are printed; larger ones are on screen only (their files hold them). */
 const PRINT_ROWS = 80;
 const PRINT_COLUMNS = 14;
 
-/** Readable names of the bundle's tables. */
-const TABLE_TITLES: Record<string, string> = {
-  components: 'Components (one row per sweep and class)',
-  velocity: 'Conduction velocity',
-  thresholds: 'Thresholds (lowest intensity with a detected component)',
-  recruitment: 'Recruitment fits',
-  recruitment_points: 'Recruitment points',
-  strength_duration: 'Strength-duration fits',
-  strength_duration_points: 'Strength-duration points',
-  dose_response_points: 'Dose-response points',
-  dose_response_per_preparation: 'Dose-response fits per preparation',
-  dose_response_summary: 'Dose-response summary',
-  dose_response_comparisons: 'Dose-response comparisons',
-  temperature: 'Temperature dependence (Q10, activation energy)',
-  temperature_points: 'Temperature points',
-  flags: 'Flags',
-};
-
-/** The analysis a table belongs to, for the note that says why it is empty. */
-const TABLE_ANALYSIS: Record<string, string> = {
-  velocity: 'velocity',
-  thresholds: 'recruitment',
-  recruitment: 'recruitment',
-  recruitment_points: 'recruitment',
-  strength_duration: 'strength-duration',
-  strength_duration_points: 'strength-duration',
-  dose_response_points: 'dose-response',
-  dose_response_per_preparation: 'dose-response',
-  dose_response_summary: 'dose-response',
-  dose_response_comparisons: 'dose-response',
-  temperature: 'temperature',
-  temperature_points: 'temperature',
-};
+/** A table's readable title and whether it is bulky (on screen in a closed section, left out of print). */
+const titleOf = (name: string) => tableSpec(name)?.spec.title ?? name;
+const isBulk = (name: string) => tableSpec(name)?.spec.bulk === true;
 
 const CSS = `body{margin:0}.fascicle-report{font:14px/1.45 Helvetica,Arial,sans-serif;color:#222;max-width:1100px;
 margin:0 auto;padding:0 16px 40px}.fascicle-report h1{font-size:22px;margin:18px 0 4px}
@@ -242,7 +203,7 @@ function perPreparationHtml(study: Study): string {
 
 /** Why a table is empty: the study's notes about its analysis, or a plain statement. */
 function emptyReason(study: Study, name: string): string {
-  const a = TABLE_ANALYSIS[name];
+  const a = tableSpec(name)?.analysis?.id;
   const notes = a ? study.notes.filter((n) => n.startsWith(`${a}:`) || n.includes(` ${a}:`)) : [];
   return notes.length ? notes.map(escapeHtml).join('; ') : 'the analysis had no data in this study';
 }
@@ -253,7 +214,7 @@ function tablesHtml(study: Study, bundle: boolean): { html: string; toc: string[
   for (const [name, rows] of Object.entries(study.tables) as [string, Row[]][]) {
     if (name === 'flags') continue;
     const id = `table-${anchor(name)}`;
-    const title = TABLE_TITLES[name] ?? name;
+    const title = titleOf(name);
     const n = escapeHtml(name);
     const file = bundle ? ` (<a href="tables/${n}.csv">CSV</a>, <a href="tables/${n}.json">JSON</a>)` : '';
     toc.push(`<a href="#${id}">${escapeHtml(title)}</a>`);
@@ -268,7 +229,7 @@ function tablesHtml(study: Study, bundle: boolean): { html: string; toc: string[
       `<p class="print-note">${plural(rows.length, 'row')} of ${cols} columns; not printed` +
       `${bundle ? `: see tables/${escapeHtml(name)}.csv` : ''}.</p>`;
     // long or wide tables do not fit a printed page: on screen only (long ones in a closed section)
-    const body = BULK.has(name)
+    const body = isBulk(name)
       ? `<details class="bulk"><summary>${plural(rows.length, 'row')}: show</summary>${table}</details>${printNote}`
       : rows.length > PRINT_ROWS || cols > PRINT_COLUMNS
         ? `<div class="wide">${table}</div>${printNote}`

@@ -1,20 +1,18 @@
 /**
  * A whole study, split so that preparations can be processed in parallel or in
- * shards: runPreparation() does the per-preparation work (conditioning, components,
- * velocity, thresholds, recruitment, temperature points); combineStudy() does the
- * across-preparation work (dose-response pooling, temperature fits) on their outputs.
+ * shards: runPreparation() does the per-preparation work (conditioning, components and
+ * each registered analysis's per-preparation step); combineStudy() does the
+ * across-preparation work (dose-response pooling, temperature fits, group statistics) on their outputs.
  * Both are pure and deterministic, so sharded runs merge to the unsharded result.
  */
 import { dirname, resolve } from 'node:path';
 import type { ConditionValue, Step, Source, SweepSet } from '../sweeps/SweepSet';
-import { analyse, doseFlags, computedCount, groupAnalyses, type Flag, type PipelineOptions } from './pipeline';
+import { analyse, preparationTables, type PipelineOptions } from './pipeline';
 import type { GroupComparison } from '../analysis/groups';
 import type { MixedModelResult } from '../analysis/mixed';
-import { doseResponse, type DoseResponseResult } from '../analysis/doseResponse';
-import { fitTemperature, temperatureRow } from '../analysis/temperature';
-import { VERSION } from '../version';
-import { RECOMMENDED_VELOCITY } from '../analysis/velocity';
-import { recruitmentDefaults } from '../analysis/recruitment';
+import type { DoseResponseResult } from '../analysis/doseResponse';
+import { ANALYSES, computedCount, type StudyContext } from '../registry/index';
+import { strip } from '../registry/shared';
 
 type Row = Record<string, ConditionValue>;
 
@@ -22,30 +20,17 @@ export interface PrepOutput {
   preparation: string;
   units: string;
   components: Row[];
-  velocity: Row[];
-  thresholds: Row[];
-  recruitment: Row[];
-  recruitmentPoints: Row[];
-  strengthDuration?: Row[];
-  strengthDurationPoints?: Row[];
-  temperaturePoints: Row[];
-  /** per-preparation temperature rows (Q10 within this preparation; flagged rows included) */
-  temperatureRows?: Row[];
-  /** per-sweep QC (sweep_qc rows, with file and fileSweep) and its per-preparation summary; absent with qc: false */
-  sweepQc?: Row[];
-  sweepQcSummary?: Row[];
-  /** sweeps removed by `reject` (empty when nothing was removed) */
-  sweepsRemoved?: Row[];
-  /** tables of the optional analyses (result.tables()), by table name: paired_pulse, train, velocity_distribution... */
-  extra?: Record<string, Row[]>;
-  /** the history steps of those analyses (pairedPulse, trains, velocityDistribution), for the methods text */
-  steps?: Step[];
+  /** the tables of each analysis that ran (JSON rows), by table name; some are read only by the across step */
+  tables: Record<string, Row[]>;
+  /** the history steps of the analyses that ran, by analysis id, for the study's history and methods text */
+  steps: Record<string, Step[]>;
   flags: Row[];
   history: Step[];
   sources: Source[];
   notes: string[];
 }
 
+/** The tables of a combined study: components, each registered analysis's tables, and flags. */
 export interface StudyTables {
   components: Row[];
   velocity: Row[];
@@ -84,25 +69,17 @@ export interface StudyTables {
   velocity_distribution_percentiles?: Row[];
   velocity_distribution_classes?: Row[];
   velocity_distribution_residuals?: Row[];
+  /** the tables of any other registered analysis */
+  [name: string]: Row[] | undefined;
 }
-
-/** Tables of the optional per-preparation analyses, in bundle order. */
-export const EXTRA_TABLES = [
-  'paired_pulse',
-  'paired_pulse_summary',
-  'train',
-  'train_summary',
-  'velocity_distribution',
-  'velocity_distribution_percentiles',
-  'velocity_distribution_classes',
-  'velocity_distribution_residuals',
-] as const;
 
 export interface Study {
   tables: StudyTables;
   history: Step[];
   sources: Source[];
   notes: string[];
+  /** the across-preparation results of the registered analyses, by analysis id (dose-response, groups, mixed) */
+  results?: Record<string, unknown>;
   doseResponse: DoseResponseResult | null;
   /** analysis.groups and analysis.mixed results (null when not asked for or failed) */
   groups?: GroupComparison | null;
@@ -112,69 +89,23 @@ export interface Study {
   computed: number;
 }
 
-const strip = (r: object): Row =>
-  JSON.parse(
-    JSON.stringify(r, (_k, v) =>
-      typeof v === 'number' && !Number.isFinite(v) ? (Number.isNaN(v) ? null : v > 0 ? 'Infinity' : '-Infinity') : v,
-    ),
-  );
-
 /** Per-preparation work on the sweeps of one preparation (or any subset). */
 export function runPreparation(set: SweepSet, o: PipelineOptions): PrepOutput {
   const prep = String(set.conditions[0]?.preparation ?? '');
   const a = analyse(set, o, prep);
-  const sd = a.strengthDuration
-    ? { rows: a.strengthDuration.rows.map(strip), points: a.strengthDuration.points.map(strip) }
-    : null;
-  const extra: Record<string, Row[]> = {};
-  const add = (t: Record<string, readonly object[]>, head: Row = {}) => {
-    for (const [k, rows] of Object.entries(t))
-      if ((EXTRA_TABLES as readonly string[]).includes(k))
-        (extra[k] ??= []).push(...rows.map((r) => strip({ ...head, ...r })));
-  };
-  if (a.pairedPulse) add(a.pairedPulse.tables());
-  if (a.trains) add(a.trains.tables());
-  for (const v of a.velocityDistributions) add(v.result.tables(), v.conditions);
-  const last = (h: readonly Step[]) => strip(h[h.length - 1]) as unknown as Step;
-  const steps = [a.pairedPulse, a.trains].filter((r) => !!r).map((r) => last(r!.history));
-  const v0 = a.velocityDistributions[0]?.result;
-  if (v0)
-    steps.push({
-      ...last(v0.history),
-      verb: 'velocityDistributions',
-      options: { ...last(v0.history).options, count: a.velocityDistributions.length },
-    });
-  // QC rows name the sweep's file and its index in the file (the sweep index alone is per preparation)
-  const qcRows = a.qc
-    ? a.qc.rows.map((r) => {
-        const c = set.conditions[r.sweep as number] ?? {};
-        const { sweep, preparation, ...rest } = r;
-        return strip({
-          sweep,
-          preparation: preparation ?? prep,
-          file: c.file ?? null,
-          fileSweep: c.fileSweep ?? null,
-          ...rest,
-        });
-      })
-    : null;
+  const tables: Record<string, Row[]> = {};
+  for (const [k, rows] of Object.entries(preparationTables(a.context))) tables[k] = rows.map(strip);
+  const steps: Record<string, Step[]> = {};
+  for (const e of ANALYSES) {
+    const r = a.context.results[e.id];
+    if (r !== undefined && e.prepSteps) steps[e.id] = e.prepSteps(r);
+  }
   return {
     preparation: prep,
     units: set.units,
     components: a.table.rows.map(strip),
-    velocity: a.velocity ? a.velocity.rows.map(strip) : [],
-    thresholds: a.thresholds.map(strip),
-    recruitment: a.recruitment ? a.recruitment.rows.map(strip) : [],
-    recruitmentPoints: a.recruitment ? a.recruitment.points.map(strip) : [],
-    temperaturePoints: a.temperature
-      ? a.temperature.points.map((p) => strip({ ...p, preparation: p.preparation || prep }))
-      : [],
-    temperatureRows: a.temperature ? a.temperature.rows.map(strip) : [],
-    ...(sd ? { strengthDuration: sd.rows, strengthDurationPoints: sd.points } : {}),
-    ...(a.qc
-      ? { sweepQc: qcRows!, sweepQcSummary: a.qc.summary().map(strip), sweepsRemoved: a.sweepsRemoved.map(strip) }
-      : {}),
-    ...(Object.keys(extra).length ? { extra, steps } : {}),
+    tables,
+    steps,
     flags: a.flags.map(strip),
     history: a.table.history.map((h) => strip(h) as unknown as Step),
     sources: [...set.sources],
@@ -189,212 +120,55 @@ export function combineStudy(parts: PrepOutput[], o: PipelineOptions): Study {
   const components = ps.flatMap((p) => p.components);
   const notes = ps.flatMap((p) => p.notes);
   const flags: Row[] = ps.flatMap((p) => p.flags ?? []);
-  const fail = (analysis: Flag['analysis'], cls: string | null, e: unknown) => {
-    notes.push(`${analysis}${cls ? ` ${cls}` : ''}: ${(e as Error).message}`);
-    flags.push({
-      preparation: null,
-      analysis,
-      class: cls,
-      where: null,
-      severity: 'rejected',
-      status: 'failed',
-      reason: (e as Error).message,
-    });
-  };
-  let dr: DoseResponseResult | null = null;
-  const drRows = components.some((r) => r.series === 'dose')
-    ? components.filter((r) => r.series === 'dose')
-    : components;
-  if (drRows.some((r) => typeof r.concentration === 'number' && (r.concentration as number) > 0)) {
-    try {
-      dr = doseResponse(drRows, units, {
-        ...(o.poolSites !== undefined ? { poolSites: o.poolSites } : {}),
-        ...(o.doseResponse ?? {}),
-      });
-      flags.push(...doseFlags(dr, null).map(strip));
-    } catch (e) {
-      fail('dose-response', null, e);
-    }
-  } else notes.push('dose-response: no sweeps with a drug concentration above 0');
-  const tp = ps.flatMap((p) => p.temperaturePoints);
-  const temperature: Row[] = [];
-  // one fit per class (and site, when the points carry one) and measure over all preparations
-  const curveKey = (r: Row) => `${r.class}\u0000${r.distanceMm ?? ''}\u0000${r.measure}`;
-  for (const id of [...new Set(tp.map(curveKey))]) {
-    const mine = tp.filter((r) => curveKey(r) === id);
-    const r0 = mine[0];
-    const site: Row = r0.distanceMm !== undefined ? { distanceMm: r0.distanceMm } : {};
-    const pts = mine.map((r) => ({
-      preparation: r.preparation as string,
-      temperatureC: r.temperatureC as number,
-      value: r.value as number,
-    }));
-    try {
-      temperature.push(temperatureRow(String(r0.class), String(r0.measure), fitTemperature(pts), site));
-    } catch (e) {
-      temperature.push({
-        class: String(r0.class),
-        ...site,
-        measure: String(r0.measure),
-        q10: null,
-        status: 'not detected',
-        reason: (e as Error).message,
-      });
-    }
-  }
-  // classes with a per-preparation row but no points (not measured at two temperatures anywhere)
-  for (const p of ps)
-    for (const r of p.temperatureRows ?? []) {
-      if (
-        r.status === 'not detected' &&
-        !temperature.some((q) => q.class === r.class && (q.distanceMm ?? null) === (r.distanceMm ?? null))
-      )
-        temperature.push({ ...r, preparation: p.preparation });
-    }
-  for (const r of temperature) {
-    if (
-      r.status !== 'ok' &&
-      !flags.some(
-        (f) =>
-          f.analysis === 'temperature' &&
-          f.class === r.class &&
-          f.preparation === (r.preparation ?? null) &&
-          f.reason === (r.reason ?? r.status),
-      )
-    ) {
-      flags.push({
-        preparation: (r.preparation as string) ?? null,
-        analysis: 'temperature',
-        class: String(r.class),
-        where: String(r.measure ?? ''),
-        severity: r.status === 'not detected' ? 'not measured' : 'warning',
-        status: String(r.status),
-        reason: String(r.reason ?? r.status),
-      });
-    }
-  }
-  const history: Step[] = mergeQcSteps(ps[0]?.history ?? [], ps);
-  if (ps.some((p) => p.velocity.length))
-    history.push({
-      verb: 'velocity',
-      options: { recommended: JSON.parse(JSON.stringify(RECOMMENDED_VELOCITY)) },
-      version: VERSION,
-    });
-  if (ps.some((p) => p.recruitment.length))
-    history.push({
-      verb: 'recruitment',
-      options: {
-        supramaximalFactor: o.recruitment?.supramaximalFactor ?? recruitmentDefaults.supramaximalFactor,
-        thresholdFraction: recruitmentDefaults.thresholdFraction,
-        minLevels: o.recruitment?.minLevels ?? recruitmentDefaults.minLevels,
-      },
-      version: VERSION,
-    });
-  const sdRows = ps.flatMap((p) => p.strengthDuration ?? []);
-  if (sdRows.length)
-    history.push({
-      verb: 'strengthDuration',
-      options: { fraction: o.strengthDuration?.fraction ?? 0.5 },
-      version: VERSION,
-    });
-  if (dr) history.push(dr.history[dr.history.length - 1] as Step);
-  if (temperature.length)
-    history.push({
-      verb: 'temperature',
-      options: {
-        measure: temperature[0].measure,
-        model: 'log-linear (Q10) and Arrhenius, preparation-specific intercepts',
-      },
-      version: VERSION,
-    });
+  let history: Step[] = [...(ps[0]?.history ?? [])];
+  for (const e of ANALYSES)
+    if (e.studyHistory)
+      history = e.studyHistory(
+        history,
+        ps.map((p) => p.history),
+      );
   const seen = new Set<string>();
   const sources = ps.flatMap((p) => p.sources).filter((s) => (seen.has(s.path) ? false : (seen.add(s.path), true)));
-  const extra: Record<string, Row[]> = {};
-  for (const k of EXTRA_TABLES) if (ps.some((p) => p.extra?.[k])) extra[k] = ps.flatMap((p) => p.extra?.[k] ?? []);
-  const qc = ps.some((p) => p.sweepQc)
-    ? {
-        sweep_qc: ps.flatMap((p) => p.sweepQc ?? []),
-        sweep_qc_summary: ps.flatMap((p) => p.sweepQcSummary ?? []),
-        sweeps_removed: ps.flatMap((p) => p.sweepsRemoved ?? []),
-      }
-    : {};
-  // the optional analyses' own steps (the first preparation's of each verb; their options are the manifest's)
-  for (const p of ps) for (const h of p.steps ?? []) if (!history.some((q) => q.verb === h.verb)) history.push(h);
-  const vd = history.findIndex((h) => h.verb === 'velocityDistributions');
-  if (vd >= 0) {
-    const count = ps.reduce(
-      (n, p) => n + Number(p.steps?.find((h) => h.verb === 'velocityDistributions')?.options.count ?? 0),
-      0,
-    );
-    history[vd] = { ...history[vd], options: { ...history[vd].options, count } };
-  }
-  const gFlags: Flag[] = [];
-  const g = groupAnalyses(
+  const prepTable = (name: string) => ps.flatMap((p) => p.tables[name] ?? []);
+  const ctx: StudyContext = {
+    mode: 'study',
+    options: o,
+    units,
     components,
-    ps.flatMap((p) => p.velocity),
-    o,
+    prepTable,
+    perPreparation: (name) => ps.map((p) => ({ preparation: p.preparation, rows: p.tables[name] ?? [] })),
+    prepSteps: (id) => ps.map((p) => p.steps[id] ?? []),
     history,
     sources,
-    gFlags,
+    results: {},
+    flags,
     notes,
-  );
-  flags.push(...gFlags.map(strip));
-  const groupTables: Record<string, Row[]> = {};
-  for (const r of [g.groups, g.mixed])
-    if (r) for (const [k, rows] of Object.entries(r.tables())) groupTables[k] = rows.map(strip);
-  if (g.groups) history.push(g.groups.history[g.groups.history.length - 1] as Step);
-  if (g.mixed) history.push(g.mixed.history[g.mixed.history.length - 1] as Step);
+  };
+  const tables: Record<string, Row[]> = { components };
+  for (const e of ANALYSES) {
+    const out = e.acrossPreparations ? e.acrossPreparations(ctx) : null;
+    if (out?.result !== undefined) ctx.results[e.id] = out.result;
+    if (out?.steps) history.push(...out.steps);
+    for (const t of e.tables) {
+      const made = out?.tables?.[t.name];
+      if (made) tables[t.name] = made.map(strip);
+      else if (t.always || ps.some((p) => p.tables[t.name])) tables[t.name] = prepTable(t.name);
+    }
+  }
+  tables.flags = flags.map(strip);
+  const results = ctx.results;
   return {
     units,
     notes,
     history,
     sources,
-    doseResponse: dr,
-    groups: g.groups,
-    mixed: g.mixed,
-    computed: computedCount({
-      velocity: ps.flatMap((p) => p.velocity),
-      recruitment: ps.flatMap((p) => p.recruitment),
-      dose_response_summary: dr ? dr.summary : [],
-      temperature,
-      strength_duration: sdRows,
-      ...extra,
-      ...groupTables,
-    }),
-    tables: {
-      components,
-      velocity: ps.flatMap((p) => p.velocity),
-      thresholds: ps.flatMap((p) => p.thresholds),
-      recruitment: ps.flatMap((p) => p.recruitment),
-      recruitment_points: ps.flatMap((p) => p.recruitmentPoints),
-      ...(sdRows.length
-        ? { strength_duration: sdRows, strength_duration_points: ps.flatMap((p) => p.strengthDurationPoints ?? []) }
-        : {}),
-      dose_response_points: dr ? dr.points.map(strip) : [],
-      dose_response_per_preparation: dr ? dr.perPreparation.map(strip) : [],
-      dose_response_summary: dr ? dr.summary.map(strip) : [],
-      dose_response_comparisons: dr ? dr.comparisons.map(strip) : [],
-      temperature: temperature.map(strip),
-      temperature_points: tp,
-      flags: flags.map(strip),
-      ...qc,
-      ...extra,
-      ...groupTables,
-    },
+    results,
+    doseResponse: (results['dose-response'] as DoseResponseResult | undefined) ?? null,
+    groups: (results.groups as GroupComparison | undefined) ?? null,
+    mixed: (results.mixed as MixedModelResult | undefined) ?? null,
+    computed: computedCount(tables),
+    tables: tables as StudyTables,
   };
-}
-
-/**
- * The QC steps of a study's history: one rejectFlagged step listing the sweeps removed from every preparation
- * (each preparation's own history lists only its own), or the first preparation's sweepQc step (flag only).
- */
-function mergeQcSteps(history: readonly Step[], ps: readonly PrepOutput[]): Step[] {
-  const steps = ps.map((p) => p.history.find((h) => h.verb === 'rejectFlagged')).filter((h): h is Step => !!h);
-  if (!steps.length) return [...history];
-  const removed = steps.flatMap((h) => (h.options.removed as Row[]) ?? []);
-  const kept = steps.reduce((n, h) => n + Number(h.options.kept ?? 0), 0);
-  const merged: Step = { ...steps[0], options: { ...steps[0].options, removed, kept } };
-  return history.map((h) => (h.verb === 'rejectFlagged' ? merged : h));
 }
 
 /** Split a loaded study by preparation (sorted by name). */

@@ -9,7 +9,7 @@ import { simulatePairedPulse, simulateTrain, pairedPulseTruth } from '../../src/
 import { runPipeline, type PipelineOptions } from '../../src/report/pipeline';
 import { runPreparation, combineStudy, byPreparation } from '../../src/report/study';
 import { methodsText } from '../../src/report/methods';
-import { studyFigureList } from '../../src/plot/study';
+import { studyFigureList } from '../../src/registry/index';
 
 const m0 = rodentSciatic();
 /** one fast class only (keeps the study small); the model's own fibre counts for it */
@@ -308,7 +308,7 @@ describe('velocity distributions (opt-in) in the pipeline', () => {
     const f = r.flags.find((x) => x.analysis === 'velocity-distribution')!;
     expect(f.severity).toBe('rejected');
     expect(String(f.reason).length).toBeGreaterThan(10);
-    expect(r.velocity.some((v) => typeof v.velocity_m_s === 'number')).toBe(true);
+    expect(r.tables.velocity.some((v) => typeof v.velocity_m_s === 'number')).toBe(true);
     expect(() => runPipeline(three, { ...base, velocityDistribution: true } as never)).toThrow(/velocityDistribution/);
   });
 });

@@ -14,7 +14,7 @@ import { pathToFileURL } from 'node:url';
 import { chromium, type Browser } from 'playwright-core';
 import { runStudy } from '../../src/cli/engine';
 import { reportHtml, writeReportHtml, reportFragment, showReport, type ReportInput } from '../../src/report/reportHtml';
-import { studyFigureList } from '../../src/plot/study';
+import { studyFigureList } from '../../src/registry/index';
 import { findBrowser } from '../../src/plot/export';
 import type { Study } from '../../src/report/study';
 import type { Provenance } from '../../src/report/bundle';

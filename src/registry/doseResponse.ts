@@ -1,0 +1,106 @@
+/** Registry entry: blocker dose-response (Hill fits per preparation, pooled IC50, class comparison). */
+import type { Step } from '../sweeps/SweepSet';
+import { doseResponse as fitDoseResponse, type DoseResponseResult } from '../analysis/doseResponse';
+import type { Flag } from '../report/pipeline';
+import { doseResponseFigure } from '../plot/builders';
+import { REFERENCES } from './references';
+import { flagsFrom, failed, finiteCount } from './shared';
+import type { AnalysisEntry, Row } from './types';
+
+/** Flags of a dose-response result (summary and per-preparation rows). */
+export function doseFlags(dr: DoseResponseResult, prep: string | null): Flag[] {
+  const where = (r: Row) => (r.distanceMm !== undefined && r.distanceMm !== null ? `${r.distanceMm} mm` : null);
+  return [
+    ...flagsFrom('dose-response', dr.summary, prep, where),
+    ...flagsFrom(
+      'dose-response',
+      dr.perPreparation.filter((r) => r.status === 'not detected'),
+      prep,
+      where,
+    ),
+  ];
+}
+
+function doseSentence(step: Step) {
+  const o = step.options as Record<string, unknown>;
+  const runDown =
+    o.runDown === 'washout'
+      ? ', corrected for run-down by linear interpolation between baseline and washout'
+      : o.runDown === 'vehicle'
+        ? ', corrected for run-down by the linear decline, per class, of time-matched vehicle controls relative to ' +
+          'their own baseline'
+        : '';
+  const bottom = o.fixBottom === null ? ' and the bottom free' : ` and the bottom fixed at ${o.fixBottom}`;
+  const boot = o.bootstrap ? ` and a bootstrap interval over preparations (${o.bootstrap} resamples)` : '';
+  return {
+    text:
+      'For dose-response analysis only sweeps in which the class was measured were used (others left out and ' +
+      `counted; a curve with fewer than ${o.minConcentrations ?? 4} measured concentrations was reported as not ` +
+      'detected, and the bottom was fixed at 0 when the class was not measured at the highest concentrations), ' +
+      `${o.poolSites ? 'pooling all recording sites' : 'one curve per recording site'}. The steady-state response ` +
+      `at each concentration (mean of the last ${o.lastN} sweeps, or of all when there were fewer) was normalised ` +
+      `to the preparation's own pre-drug baseline${runDown}, and fitted per preparation and class with the ` +
+      `four-parameter log-logistic (Hill) model (Hill 1910; Ritz et al. 2015) with the top fixed at 1${bottom}, by ` +
+      'the Levenberg-Marquardt method. IC50 values were combined across preparations as the mean of log10 IC50 ' +
+      'with a t-based 95% confidence interval (preparations, not sweeps, as replicates); a pooled fit over all ' +
+      `preparations gave a profile-likelihood interval (Bates & Watts 1988)${boot}. Classes were compared with the ` +
+      'extra-sum-of-squares F test of a shared IC50.',
+    refs: [REFERENCES.hill, REFERENCES.drc, REFERENCES.lm, REFERENCES.bates],
+  };
+}
+
+export const doseResponse: AnalysisEntry<DoseResponseResult> = {
+  id: 'dose-response',
+  title: 'Dose-response',
+  consumes: { series: ['dose'], conditions: ['concentration'], option: 'doseResponse' },
+  // pooled across preparations only (each preparation's own fit is a row of dose_response_per_preparation)
+  acrossPreparations(ctx) {
+    const o = ctx.options;
+    const rows = ctx.components.some((r) => r.series === 'dose')
+      ? ctx.components.filter((r) => r.series === 'dose')
+      : ctx.components;
+    if (!rows.some((r) => typeof r.concentration === 'number' && (r.concentration as number) > 0)) {
+      ctx.notes.push('dose-response: no sweeps with a drug concentration above 0');
+      return null;
+    }
+    try {
+      const options = { ...(o.poolSites !== undefined ? { poolSites: o.poolSites } : {}), ...(o.doseResponse ?? {}) };
+      const dr = fitDoseResponse(rows, ctx.units, options, ctx.history, ctx.sources);
+      ctx.flags.push(...doseFlags(dr, null));
+      return {
+        result: dr,
+        steps: [dr.history[dr.history.length - 1] as Step],
+        tables: {
+          dose_response_points: dr.points,
+          dose_response_per_preparation: dr.perPreparation,
+          dose_response_summary: dr.summary,
+          dose_response_comparisons: dr.comparisons,
+        },
+      };
+    } catch (e) {
+      failed(ctx.flags, ctx.notes, 'dose-response', null, e);
+      return null;
+    }
+  },
+  tables: [
+    { name: 'dose_response_points', title: 'Dose-response points', always: true, bulk: true },
+    { name: 'dose_response_per_preparation', title: 'Dose-response fits per preparation', always: true },
+    { name: 'dose_response_summary', title: 'Dose-response summary', always: true },
+    { name: 'dose_response_comparisons', title: 'Dose-response comparisons', always: true },
+  ],
+  figures: [
+    {
+      rank: 30,
+      make(study) {
+        const t = study.tables;
+        if (!t.dose_response_points.length) return [];
+        const dr = study.results?.['dose-response'] as DoseResponseResult | undefined;
+        return [doseResponseFigure(t.dose_response_points, t.dose_response_summary, dr?.fits)];
+      },
+    },
+  ],
+  methods: { doseResponse: doseSentence },
+  computed: (t) => finiteCount(t.dose_response_summary, 'ic50'),
+  api: ['ComponentTable.doseResponse'],
+  resultKey: 'doseResponse',
+};

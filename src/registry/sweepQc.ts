@@ -1,0 +1,142 @@
+/** Registry entry: per-sweep quality control on the sweeps as recorded, and the removal of flagged sweeps. */
+import type { SweepSet, Step } from '../sweeps/SweepSet';
+import type { PipelineOptions, Flag } from '../report/pipeline';
+import {
+  sweepQc as runSweepQc,
+  rejectFlagged,
+  rejectedSweeps,
+  qcStepMethods,
+  QC_REFERENCES,
+  type SweepQcResult,
+} from '../analysis/sweepQc';
+import { OptionError } from '../errors';
+import { checkKeys } from '../validate';
+import { failed, say } from './shared';
+import type { AnalysisEntry, Row } from './types';
+
+export interface QcOutput {
+  qc: SweepQcResult | null;
+  /** the sweeps removed by `reject` (one row each, with the flags and reasons) */
+  sweepsRemoved: Row[];
+  /** the sweeps for the next steps */
+  set: SweepSet;
+}
+
+/**
+ * Sweep QC on the sweeps as recorded (unless `qc: false`), and the removal of flagged sweeps only when
+ * `reject` asks for it: by default nothing is removed, the flagged sweeps are listed in sweep_qc and the notes.
+ * In flag-only mode a 'sweepQc' step joins the history (the methods text says the flagged sweeps were kept).
+ */
+export function qualityControl(
+  set: SweepSet,
+  o: PipelineOptions,
+  prep: string | null,
+  flags: Flag[],
+  notes: string[],
+): QcOutput {
+  if (o.qc === false) {
+    if (o.reject)
+      throw new OptionError(
+        `invalid reject: ${JSON.stringify(o.reject)} with qc: false; ` +
+          'rejection removes the sweeps the QC flags (drop qc: false, or reject)',
+      );
+    return { set, qc: null, sweepsRemoved: [] };
+  }
+  if (
+    o.reject !== undefined &&
+    typeof o.reject !== 'boolean' &&
+    (o.reject === null || typeof o.reject !== 'object' || Array.isArray(o.reject))
+  ) {
+    throw new OptionError(`invalid reject: ${JSON.stringify(o.reject)}; must be true, false or { flags: [...] }`);
+  }
+  if (o.reject && typeof o.reject === 'object') checkKeys('reject', o.reject as Record<string, unknown>, ['flags']);
+  let qc: SweepQcResult;
+  try {
+    qc = runSweepQc(set, o.qc ?? {});
+  } catch (e) {
+    failed(flags, notes, 'sweep-qc', prep, e);
+    if (o.reject) notes.push(`${say(prep)}sweep-qc: no sweeps removed (the QC could not be computed)`);
+    return { set, qc: null, sweepsRemoved: [] };
+  }
+  const n = qc.flagged().length;
+  if (!o.reject) {
+    if (n)
+      notes.push(
+        `${say(prep)}sweep QC: ${n} of ${qc.rows.length} sweeps flagged and kept ` +
+          '(tables/sweep_qc.csv; reject: true removes them)',
+      );
+    const step = qc.history[qc.history.length - 1];
+    return { set: set.create({ history: [...set.history, step] }), qc, sweepsRemoved: [] };
+  }
+  const kept = rejectFlagged(set, qc, o.reject === true ? {} : o.reject);
+  const removed = rejectedSweeps(kept).filter(
+    (r) => !rejectedSweeps(set).some((q) => JSON.stringify(q) === JSON.stringify(r)),
+  );
+  if (removed.length)
+    notes.push(
+      `${say(prep)}sweep QC: ${removed.length} of ${qc.rows.length} sweeps removed (tables/sweeps_removed.csv)`,
+    );
+  return { set: kept, qc, sweepsRemoved: removed };
+}
+
+/**
+ * The QC steps of a study's history: one rejectFlagged step listing the sweeps removed from every preparation
+ * (each preparation's own history lists only its own), or the first preparation's sweepQc step (flag only).
+ */
+function mergeQcSteps(history: readonly Step[], perPreparation: Step[][]): Step[] {
+  const steps = perPreparation.map((h) => h.find((s) => s.verb === 'rejectFlagged')).filter((h): h is Step => !!h);
+  if (!steps.length) return [...history];
+  const removed = steps.flatMap((h) => (h.options.removed as Row[]) ?? []);
+  const kept = steps.reduce((n, h) => n + Number(h.options.kept ?? 0), 0);
+  const merged: Step = { ...steps[0], options: { ...steps[0].options, removed, kept } };
+  return history.map((h) => (h.verb === 'rejectFlagged' ? merged : h));
+}
+
+function qcSentence(step: Step) {
+  const t = qcStepMethods(step);
+  return {
+    text:
+      step.verb === 'sweepQc'
+        ? `${t.replace(/ Flagged sweeps were kept\.$/, '')} ` +
+          'Flagged sweeps were kept (listed in the sweep QC table; removal only when asked for).'
+        : t,
+    refs: QC_REFERENCES,
+  };
+}
+
+export const sweepQc: AnalysisEntry<QcOutput> = {
+  id: 'sweep-qc',
+  title: 'Sweep quality control',
+  consumes: { option: 'qc' },
+  stage: 'raw',
+  perPreparation(ctx) {
+    const r = qualityControl(ctx.raw, ctx.options, ctx.prep, ctx.flags, ctx.notes);
+    return ctx.options.qc === false ? null : r;
+  },
+  sweepsAfter: (r) => r.set,
+  prepTables(r, ctx): Record<string, readonly object[]> {
+    if (!r.qc) return {};
+    // QC rows name the sweep's file and its index in the file (the sweep index alone is per preparation)
+    const rows = r.qc.rows.map((q) => {
+      const c = ctx.input.conditions[q.sweep as number] ?? {};
+      const { sweep, preparation, ...rest } = q;
+      return {
+        sweep,
+        preparation: preparation ?? ctx.prep,
+        file: c.file ?? null,
+        fileSweep: c.fileSweep ?? null,
+        ...rest,
+      };
+    });
+    return { sweep_qc: rows, sweep_qc_summary: r.qc.summary(), sweeps_removed: r.sweepsRemoved };
+  },
+  studyHistory: mergeQcSteps,
+  tables: [
+    { name: 'sweep_qc', title: 'Sweep quality control', bulk: true },
+    { name: 'sweep_qc_summary', title: 'Sweep quality control per preparation' },
+    { name: 'sweeps_removed', title: 'Sweeps removed' },
+  ],
+  methods: { sweepQc: qcSentence, rejectFlagged: qcSentence },
+  api: ['sweepQc', 'rejectFlagged'],
+  resultKey: 'qc',
+};
