@@ -100,8 +100,8 @@ export function makeGroupDemo(studyDir: string, keyDir: string, options: GroupDe
       for (let r = 0; r < 3; r++) sweeps.push({ ...rc, distanceMm: d, pulsesMs: [0], conditions: { repeat: r } });
     const dist = simulateNerve({ model, seed: pseed, grid, sweeps, nuisance: nz });
     if (i === 0) {
-      // QC truth: sweep 2 of N1 on the amplifier rail for 0.4 ms from 0 ms
-      const at = 2 * dist.nSamples + dist.indexAt(0.06);
+      // QC truth: sweep 2 of N1 on the amplifier rail for 0.4 ms from 3 ms (after the responses)
+      const at = 2 * dist.nSamples + dist.indexAt(3);
       for (let k = 0; k < 20; k++) dist.data[at + k] = 4000;
     }
     writeWide(join(studyDir, `${prep}-distance.csv`), dist);
