@@ -17,6 +17,7 @@
  */
 import { describe, it, expect, afterAll } from 'vitest';
 import { mkdtempSync, rmSync } from 'node:fs';
+import { readManifest } from '../../src';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import {
@@ -51,18 +52,57 @@ const clip = (v: number) => Math.max(-RAIL_V, Math.min(RAIL_V, v));
 const onRail = (v: number) => Math.abs(v) >= RAIL_V * (1 - 1e-4);
 const addBeforeRail = (v: number, d: number) => (onRail(v) ? v : clip(v + d));
 
-/** 60 Hz + 180 Hz hum (15 uV and 4.5 uV: the set's 50/150 Hz sizes), seeded phase per sweep, same on both channels */
+/** Solve the normal equations A^T A b = A^T y (Gaussian elimination with partial pivoting); columns of A as functions. */
+function leastSquares(cols: ((i: number) => number)[], y: ArrayLike<number>, use: (i: number) => boolean): number[] {
+  const k = cols.length;
+  const M = Array.from({ length: k }, () => new Array(k + 1).fill(0));
+  for (let i = 0; i < y.length; i++) {
+    if (!use(i)) continue;
+    const a = cols.map((c) => c(i));
+    for (let r = 0; r < k; r++) {
+      for (let c = 0; c < k; c++) M[r][c] += a[r] * a[c];
+      M[r][k] += a[r] * y[i];
+    }
+  }
+  for (let c = 0; c < k; c++) {
+    let p = c;
+    for (let r = c + 1; r < k; r++) if (Math.abs(M[r][c]) > Math.abs(M[p][c])) p = r;
+    [M[c], M[p]] = [M[p], M[c]];
+    for (let r = 0; r < k; r++)
+      if (r !== c) {
+        const q = M[r][c] / M[c][c];
+        for (let j = c; j <= k; j++) M[r][j] -= q * M[c][j];
+      }
+  }
+  return M.map((row, r) => row[k] / row[r]);
+}
+
+/**
+ * 60 Hz + 180 Hz hum (15 uV and 4.5 uV: the set's 50/150 Hz sizes), seeded phase per sweep, the same on both channels.
+ * In the slow window (150 ms, where the manifest removes hum) the set's own 50/150 Hz hum is first taken out the way
+ * the manifest's hum step would: least squares (with a quadratic for the drift) over the samples outside 0-90 ms,
+ * the sinusoids subtracted from the whole sweep; what that leaves is what the development set's own run leaves.
+ * The fast window (20 ms, one mains period; no hum step in its manifest) keeps its 50 Hz hum.
+ */
 function addHum60(rec: Recording): Recording {
   const rnd = lcg(6060 + rec.nSweeps);
   const ph = Array.from({ length: rec.nSweeps }, () => [2 * Math.PI * rnd(), 2 * Math.PI * rnd()]);
-  return mapSweeps(rec, (x, s, _ch, tMs) =>
-    x.map((v, i) => {
+  return mapSweeps(rec, (x0, s, _ch, tMs) => {
+    let x = x0;
+    if (rec.w === 'slow') {
+      const w = (f: number, fn: (a: number) => number) => (i: number) => fn((2 * Math.PI * f * tMs(i)) / 1000);
+      const hum = [w(50, Math.sin), w(50, Math.cos), w(150, Math.sin), w(150, Math.cos)];
+      const poly = [() => 1, (i: number) => tMs(i) / 100, (i: number) => (tMs(i) / 100) ** 2];
+      const b = leastSquares([...hum, ...poly], x0, (i) => !onRail(x0[i]) && (tMs(i) < 0 || tMs(i) > 90));
+      x = x0.map((v, i) => (onRail(v) ? v : v - hum.reduce((acc, h, j) => acc + b[j] * h(i), 0)));
+    }
+    return x.map((v, i) => {
       const t = tMs(i) / 1000;
       const hum =
         15e-6 * Math.sin(2 * Math.PI * 60 * t + ph[s][0]) + 4.5e-6 * Math.sin(2 * Math.PI * 180 * t + ph[s][1]);
       return addBeforeRail(v, hum);
-    }),
-  );
+    });
+  });
 }
 
 /**
@@ -120,7 +160,9 @@ const VARIANTS: Variant[] = [
   },
   {
     name: 'hum60',
-    describe: '60 + 180 Hz hum added on top (the 50 Hz hum stays); the slow manifest removes 60 Hz; truth unchanged',
+    describe:
+      '60 + 180 Hz hum instead of 50 + 150 Hz in the slow window (added on top in the fast one); the slow manifest ' +
+      'removes 60 Hz; truth unchanged',
     recordings: (w) => both(w).map(addHum60),
     analysis: (w) => {
       const a = baseAnalysis(w);
@@ -202,12 +244,194 @@ console.log(
       .join('; '),
 );
 
+// ---- configuration a user may leave to the software: mains frequency 'detect' on the slow window ----
+const detectRuns = (['devset', 'hum60'] as const).map((name) => {
+  const set = readManifest(join(root, name, 'slow', 'slow.manifest.json')).where({ series: 'temperature' });
+  const a = baseAnalysis('slow');
+  const h = set
+    .baseline(a.baseline || {})
+    .removeHum({ ...(a.hum || {}), frequency: 'detect' })
+    .history.find((q) => q.verb === 'removeHum');
+  return { name, expected: name === 'hum60' ? 60 : 50, fitted: Number(h?.options.fittedFrequencyHz) };
+});
+console.log(
+  "mains frequency 'detect' (slow window, temperature series): " +
+    detectRuns.map((d) => `${d.name} ${d.fitted} Hz (expected ${d.expected})`).join('; '),
+);
+
 /**
  * Checks not met at the last update of this list (from the printed table): expected failures.
  * Keys: `<variant> | <quantity> | <class> | <where> | <estimator>` and `<variant> | <structural check>`.
+ * The run prints "NOT_YET out of date" with the keys to add or remove when the list no longer matches.
  */
-// last updated: never
-const NOT_YET = new Set<string>([]);
+// last updated 10:14 UTC from `npx vitest run tests/external/variants.test.ts --maxWorkers=1`
+const NOT_YET = new Set<string>([
+  'bipolar | Hill slope | A-delta | 15-25 mm bipolar | Hill fit',
+  'bipolar | I50 mA | A-delta | 15-25 mm bipolar | Boltzmann fit',
+  'bipolar | I50 mA | C | 15-25 mm bipolar | Boltzmann fit',
+  'bipolar | IC50 uM | A-alpha/beta | 15-25 mm bipolar | Hill fit',
+  'bipolar | IC50 uM | A-delta | 15-25 mm bipolar | Hill fit',
+  'bipolar | IC50 uM | C | 15-25 mm bipolar | Hill fit',
+  'bipolar | Q10 | A-alpha/beta | 20-37 C | single-site peak',
+  'bipolar | fast|dose A-alpha/beta: polarity +1',
+  'bipolar | fast|dose A-delta: polarity +1',
+  'bipolar | fast|dose: A-delta detected in every supramaximal sweep',
+  'bipolar | fast|temperature A-alpha/beta 20 C: a recommended velocity row, or a flag saying why none',
+  'bipolar | fast|temperature A-alpha/beta 25 C: a recommended velocity row, or a flag saying why none',
+  'bipolar | fast|temperature A-alpha/beta 30 C: a recommended velocity row, or a flag saying why none',
+  'bipolar | fast|temperature A-alpha/beta 37 C: a recommended velocity row, or a flag saying why none',
+  'bipolar | fast|temperature A-alpha/beta: polarity +1',
+  'bipolar | fast|temperature A-delta 20 C: a recommended velocity row, or a flag saying why none',
+  'bipolar | fast|temperature A-delta 25 C: a recommended velocity row, or a flag saying why none',
+  'bipolar | fast|temperature A-delta 30 C: a recommended velocity row, or a flag saying why none',
+  'bipolar | fast|temperature A-delta 37 C: a recommended velocity row, or a flag saying why none',
+  'bipolar | fast|temperature A-delta: polarity +1',
+  'bipolar | fast|temperature: A-delta detected in every supramaximal sweep',
+  'bipolar | fast|temperature: no two-site or regression velocity from one site, and it is said',
+  'bipolar | slow|temperature C 20 C: a recommended velocity row, or a flag saying why none',
+  'bipolar | slow|temperature C 25 C: a recommended velocity row, or a flag saying why none',
+  'bipolar | slow|temperature C 30 C: a recommended velocity row, or a flag saying why none',
+  'bipolar | slow|temperature C 37 C: a recommended velocity row, or a flag saying why none',
+  'bipolar | slow|temperature: no two-site or regression velocity from one site, and it is said',
+  'bipolar | velocity m/s | A-alpha/beta | 20 C | none recommended, so (single-site peak)',
+  'bipolar | velocity m/s | A-alpha/beta | 25 C | none recommended, so (single-site peak)',
+  'bipolar | velocity m/s | A-alpha/beta | 30 C | none recommended, so (single-site peak)',
+  'bipolar | velocity m/s | A-alpha/beta | 37 C | none recommended, so (single-site peak)',
+  'bipolar | velocity m/s | A-delta | 20 C | none recommended, so (single-site peak)',
+  'bipolar | velocity m/s | A-delta | 25 C | none recommended, so (single-site peak)',
+  'bipolar | velocity m/s | A-delta | 30 C | none recommended, so (single-site peak)',
+  'bipolar | velocity m/s | A-delta | 37 C | none recommended, so (single-site peak)',
+  'hum60 | Hill slope | A-delta | 15 mm | Hill fit',
+  'hum60 | Hill slope | A-delta | 25 mm | Hill fit',
+  'hum60 | Hill slope | C | 15 mm | Hill fit',
+  'hum60 | Hill slope | C | 25 mm | Hill fit',
+  'hum60 | I50 mA | A-delta | 15 mm | Boltzmann fit',
+  'hum60 | IC50 uM | A-delta | 15 mm | Hill fit',
+  'hum60 | IC50 uM | A-delta | 25 mm | Hill fit',
+  'hum60 | IC50 uM | C | 15 mm | Hill fit',
+  'hum60 | IC50 uM | C | 25 mm | Hill fit',
+  'hum60 | Q10 | C | 20-37 C | regression centroid',
+  'hum60 | velocity m/s | A-delta | 20 C | recommended (two-site xcorr)',
+  'hum60 | velocity m/s | A-delta | 20 C | two-site peak',
+  'hum60 | velocity m/s | A-delta | 25 C | recommended (two-site xcorr)',
+  'hum60 | velocity m/s | A-delta | 25 C | two-site peak',
+  'hum60 | velocity m/s | A-delta | 30 C | recommended (two-site xcorr)',
+  'hum60 | velocity m/s | A-delta | 30 C | two-site peak',
+  'hum60 | velocity m/s | A-delta | 37 C | recommended (two-site xcorr)',
+  'hum60 | velocity m/s | A-delta | 37 C | two-site peak',
+  'hum60 | velocity m/s | C | 37 C | recommended (regression centroid)',
+  'hum60 | velocity m/s | C | 37 C | two-site peak',
+  'inverted | Hill slope | A-delta | 15 mm | Hill fit',
+  'inverted | Hill slope | A-delta | 25 mm | Hill fit',
+  'inverted | Hill slope | C | 25 mm | Hill fit',
+  'inverted | I50 mA | A-delta | 15 mm | Boltzmann fit',
+  'inverted | IC50 uM | A-delta | 15 mm | Hill fit',
+  'inverted | IC50 uM | C | 25 mm | Hill fit',
+  'inverted | velocity m/s | A-delta | 20 C | recommended (two-site xcorr)',
+  'inverted | velocity m/s | A-delta | 20 C | two-site peak',
+  'inverted | velocity m/s | A-delta | 25 C | recommended (two-site xcorr)',
+  'inverted | velocity m/s | A-delta | 25 C | two-site peak',
+  'inverted | velocity m/s | A-delta | 30 C | recommended (two-site xcorr)',
+  'inverted | velocity m/s | A-delta | 30 C | two-site peak',
+  'inverted | velocity m/s | A-delta | 37 C | recommended (two-site xcorr)',
+  'inverted | velocity m/s | A-delta | 37 C | two-site peak',
+  'inverted | velocity m/s | C | 37 C | two-site peak',
+  'one-site | Hill slope | A-delta | 15 mm | Hill fit',
+  'one-site | I50 mA | A-delta | 15 mm | Boltzmann fit',
+  'one-site | IC50 uM | A-delta | 15 mm | Hill fit',
+  'one-site | Q10 | A-delta | 20-37 C | single-site peak',
+  'one-site | fast|dose: A-delta detected in every supramaximal sweep',
+  'one-site | fast|temperature A-alpha/beta 20 C: a recommended velocity row, or a flag saying why none',
+  'one-site | fast|temperature A-alpha/beta 25 C: a recommended velocity row, or a flag saying why none',
+  'one-site | fast|temperature A-alpha/beta 30 C: a recommended velocity row, or a flag saying why none',
+  'one-site | fast|temperature A-alpha/beta 37 C: a recommended velocity row, or a flag saying why none',
+  'one-site | fast|temperature A-delta 20 C: a recommended velocity row, or a flag saying why none',
+  'one-site | fast|temperature A-delta 25 C: a recommended velocity row, or a flag saying why none',
+  'one-site | fast|temperature A-delta 30 C: a recommended velocity row, or a flag saying why none',
+  'one-site | fast|temperature A-delta 37 C: a recommended velocity row, or a flag saying why none',
+  'one-site | fast|temperature: A-delta detected in every supramaximal sweep',
+  'one-site | fast|temperature: no two-site or regression velocity from one site, and it is said',
+  'one-site | slow|temperature C 20 C: a recommended velocity row, or a flag saying why none',
+  'one-site | slow|temperature C 25 C: a recommended velocity row, or a flag saying why none',
+  'one-site | slow|temperature C 30 C: a recommended velocity row, or a flag saying why none',
+  'one-site | slow|temperature C 37 C: a recommended velocity row, or a flag saying why none',
+  'one-site | slow|temperature: no two-site or regression velocity from one site, and it is said',
+  'one-site | velocity m/s | A-alpha/beta | 37 C | none recommended, so (single-site peak)',
+  'one-site | velocity m/s | A-delta | 20 C | none recommended, so (single-site peak)',
+  'one-site | velocity m/s | A-delta | 25 C | none recommended, so (single-site peak)',
+  'one-site | velocity m/s | A-delta | 30 C | none recommended, so (single-site peak)',
+  'one-site | velocity m/s | A-delta | 37 C | none recommended, so (single-site peak)',
+  'resampled | Hill slope | A-delta | 15 mm | Hill fit',
+  'resampled | Hill slope | A-delta | 25 mm | Hill fit',
+  'resampled | Hill slope | C | 25 mm | Hill fit',
+  'resampled | IC50 uM | A-delta | 15 mm | Hill fit',
+  'resampled | IC50 uM | C | 25 mm | Hill fit',
+  'resampled | Q10 | A-delta | 20-37 C | two-site xcorr',
+  'resampled | velocity m/s | A-delta | 20 C | recommended (two-site xcorr)',
+  'resampled | velocity m/s | A-delta | 20 C | two-site peak',
+  'resampled | velocity m/s | A-delta | 25 C | recommended (two-site xcorr)',
+  'resampled | velocity m/s | A-delta | 25 C | two-site peak',
+  'resampled | velocity m/s | A-delta | 30 C | recommended (two-site xcorr)',
+  'resampled | velocity m/s | A-delta | 30 C | two-site peak',
+  'resampled | velocity m/s | C | 30 C | recommended (regression centroid)',
+  'resampled | velocity m/s | C | 37 C | two-site peak',
+  'resampled-100k | velocity m/s | A-delta | 20 C | recommended (two-site xcorr)',
+  'resampled-100k | velocity m/s | A-delta | 20 C | two-site peak',
+  'resampled-100k | velocity m/s | A-delta | 25 C | recommended (two-site xcorr)',
+  'resampled-100k | velocity m/s | A-delta | 25 C | two-site peak',
+  'resampled-100k | velocity m/s | A-delta | 30 C | recommended (two-site xcorr)',
+  'resampled-100k | velocity m/s | A-delta | 30 C | two-site peak',
+  'resampled-100k | velocity m/s | A-delta | 37 C | recommended (two-site xcorr)',
+  'resampled-100k | velocity m/s | A-delta | 37 C | two-site peak',
+  'tail | Hill slope | A-alpha/beta | 15 mm | Hill fit',
+  'tail | Hill slope | A-delta | 15 mm | Hill fit',
+  'tail | Hill slope | A-delta | 25 mm | Hill fit',
+  'tail | Hill slope | C | 15 mm | Hill fit',
+  'tail | Hill slope | C | 25 mm | Hill fit',
+  'tail | I50 mA | A-delta | 15 mm | Boltzmann fit',
+  'tail | IC50 uM | A-alpha/beta | 15 mm | Hill fit',
+  'tail | IC50 uM | A-delta | 15 mm | Hill fit',
+  'tail | IC50 uM | A-delta | 25 mm | Hill fit',
+  'tail | IC50 uM | C | 15 mm | Hill fit',
+  'tail | IC50 uM | C | 25 mm | Hill fit',
+  'tail | Q10 | A-alpha/beta | 20-37 C | regression peak',
+  'tail | Q10 | A-delta | 20-37 C | two-site xcorr',
+  'tail | fast|temperature: A-delta detected in every supramaximal sweep',
+  'tail | slow|dose C: polarity +1',
+  'tail | velocity m/s | A-alpha/beta | 20 C | recommended (regression peak)',
+  'tail | velocity m/s | A-alpha/beta | 20 C | two-site peak',
+  'tail | velocity m/s | A-delta | 20 C | recommended (two-site xcorr)',
+  'tail | velocity m/s | A-delta | 20 C | two-site peak',
+  'tail | velocity m/s | A-delta | 25 C | recommended (two-site xcorr)',
+  'tail | velocity m/s | A-delta | 25 C | two-site peak',
+  'tail | velocity m/s | A-delta | 30 C | recommended (two-site xcorr)',
+  'tail | velocity m/s | A-delta | 30 C | two-site peak',
+  'tail | velocity m/s | A-delta | 37 C | recommended (two-site xcorr)',
+  'tail | velocity m/s | A-delta | 37 C | two-site peak',
+  'tail | velocity m/s | C | 30 C | recommended (regression centroid)',
+  'tail | velocity m/s | C | 37 C | recommended (regression centroid)',
+  'tail | velocity m/s | C | 37 C | two-site peak',
+]);
+{
+  const failing = new Set([
+    ...checks.flatMap((c, i) => (i === 0 ? [] : c.filter((q) => q.asserted && !q.ok).map(idOf))),
+    ...structural.flatMap((st, i) => (i === 0 ? [] : st.filter((q) => !q.ok).map(idOfStructural))),
+  ]);
+  const add = [...failing].filter((k) => !NOT_YET.has(k));
+  const drop = [...NOT_YET].filter((k) => !failing.has(k));
+  console.log(
+    add.length || drop.length
+      ? `NOT_YET out of date: now failing, not listed: ${JSON.stringify(add)}; listed, now met: ${JSON.stringify(drop)}`
+      : `NOT_YET up to date (${NOT_YET.size} checks not met)`,
+  );
+}
+
+describe("configuration left to the software: hum frequency 'detect'", () => {
+  for (const d of detectRuns)
+    it(`${d.name}: the mains frequency found is ${d.expected} Hz within 1 Hz (found ${d.fitted})`, () => {
+      expect(Math.abs(d.fitted - d.expected)).toBeLessThanOrEqual(1);
+    });
+});
 
 for (let i = 1; i < runs.length; i++) {
   const v = runs[i].variant;

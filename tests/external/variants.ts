@@ -365,7 +365,8 @@ export function variantChecks(run: VariantRun): VCheck[] {
         const rows = (temp.velocity?.rows ?? []) as unknown as Row[];
         for (const T of TEMPS) {
           const at = rows.filter((r) => r.class === cls && r.temperatureC === T);
-          const rec = at.find((r) => r.recommended);
+          // with no recommended row (one site), the single-site peak velocity the temperature analysis then uses
+          const rec = at.find((r) => r.recommended) ?? at.find((r) => r.method === 'single-site' && r.basis === 'peak');
           const recTruth = rec
             ? velocityTruth(cls, T, String(rec.method), String(rec.basis), v.sites, num(rec.distance_mm) ?? undefined)
             : null;
@@ -374,7 +375,9 @@ export function variantChecks(run: VariantRun): VCheck[] {
               'velocity m/s',
               cls,
               `${T} C`,
-              rec ? `recommended (${rec.method} ${rec.basis})` : 'recommended (none)',
+              rec
+                ? `${rec.recommended ? 'recommended' : 'none recommended, so'} (${rec.method} ${rec.basis})`
+                : 'recommended (none)',
               num(rec?.velocity_m_s),
               recTruth ?? NaN,
               tol,
@@ -401,9 +404,12 @@ export function variantChecks(run: VariantRun): VCheck[] {
         }
         // Q10 of the velocity the temperature analysis uses
         const tr = ((temp.temperature?.rows ?? []) as Row[]).find((r) => r.class === cls);
-        const m = /(single-site|two-site|regression)\s+(peak|onset|halfrise|centroid|xcorr)/.exec(
-          String(tr?.measure ?? ''),
-        );
+        // the measure: "<method> <basis> velocity", or a component column "<basis>_velocity_m_s" (single site)
+        const measure = String(tr?.measure ?? '');
+        const col = /^(onset|halfrise|peak|centroid)_velocity_m_s$/.exec(measure);
+        const m = col
+          ? [measure, 'single-site', col[1]]
+          : /(single-site|two-site|regression)\s+(peak|onset|halfrise|centroid|xcorr)/.exec(measure);
         let tq: number | null = null;
         if (m) {
           const vals = TEMPS.map((T) => velocityTruth(cls, T, m[1], m[2], v.sites, v.sites[0].mm));
@@ -504,11 +510,15 @@ export function structuralChecks(run: VariantRun): Structural[] {
       for (const cls of CLASSES_OF[w])
         for (const T of TEMPS) {
           const at = vrows.filter((q) => q.class === cls && q.temperatureC === T);
+          // one recommended estimate per class and temperature, or a flag that says why there is none
+          const why = r.flags.some(
+            (f) => f.analysis === 'velocity' && f.class === cls && /recommend/i.test(`${f.status} ${f.reason}`),
+          );
           add(
-            `${key} ${cls} ${T} C: a recommended velocity row`,
-            at.filter((q) => q.recommended).length === 1,
+            `${key} ${cls} ${T} C: a recommended velocity row, or a flag saying why none`,
+            at.filter((q) => q.recommended).length === 1 || why,
             `${at.length} velocity rows, ${at.filter((q) => q.recommended).length} recommended, ` +
-              `${at.filter((q) => num(q.velocity_m_s) !== null).length} with a number`,
+              `${at.filter((q) => num(q.velocity_m_s) !== null).length} with a number; flag about it: ${why}`,
           );
         }
       if (v.sites.length < 2) {
