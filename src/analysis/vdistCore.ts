@@ -93,6 +93,8 @@ export function nuisanceBasis(
   sigma: number,
   drift: number,
   artifactTauMs: readonly number[],
+  humHz: readonly number[] = [],
+  artifactFromMs = 0,
 ): Float64Array[] {
   const n = t.length;
   let lo = Infinity,
@@ -105,7 +107,15 @@ export function nuisanceBasis(
     half = Math.max((hi - lo) / 2, 1e-12);
   const cols: Float64Array[] = [];
   for (let p = 0; p <= drift; p++) cols.push(Float64Array.from(t, (x) => ((x - mid) / half) ** p / sigma));
-  for (const tau of artifactTauMs) cols.push(Float64Array.from(t, (x) => Math.exp(-Math.max(x, 0) / tau) / sigma));
+  // decays from the fit start (not from the stimulus: the same span of shapes, and no column that is ~0 everywhere)
+  for (const tau of artifactTauMs)
+    cols.push(Float64Array.from(t, (x) => Math.exp(-Math.max(x - artifactFromMs, 0) / tau) / sigma));
+  // mains hum: a sine and cosine per frequency (the average of sweeps with any phases is one sinusoid per frequency)
+  for (const f of humHz) {
+    const w = (2 * Math.PI * f) / 1000;
+    cols.push(Float64Array.from(t, (x) => Math.sin(w * x) / sigma));
+    cols.push(Float64Array.from(t, (x) => Math.cos(w * x) / sigma));
+  }
   const Q: Float64Array[] = [];
   for (const c of cols) {
     const q = Float64Array.from(c);
@@ -551,4 +561,87 @@ export function percentile(v: Float64Array, mass: ArrayLike<number>, q: number, 
     acc = next;
   }
   return Math.exp(edge(to));
+}
+
+/**
+ * Shape parameters of the two-phase single-fibre potential (times in ms from the arrival x / v):
+ * g(s) = f(s - shift; rise) - ratio f(s - shift; after), f(s; tau) = (s / tau)^n exp(n (1 - s / tau)) for s > 0,
+ * scaled to peak |g| = 1 and multiplied by `sign`. f rises from 0 to 1 at s = tau and decays; the second phase is
+ * the slower, opposite after-potential of a membrane action potential (undershoot) in a monophasic recording.
+ */
+export interface SfpShape {
+  shift: number;
+  rise: number;
+  after: number;
+  ratio: number;
+  n: number;
+  sign: number;
+}
+
+const phase = (s: number, tau: number, n: number) => (s > 0 ? Math.pow(s / tau, n) * Math.exp(n * (1 - s / tau)) : 0);
+
+/** The two-phase potential sampled on nodes (spacing at most `maxStep` and rise / 8) over its support. */
+export function shapeSfp(p: SfpShape, maxStep: number): Sfp {
+  const h = Math.min(maxStep, p.rise / 8);
+  const len = Math.max(p.after, p.rise) * (6 + 24 / p.n);
+  const J = Math.min(20000, Math.ceil(len / h) + 1);
+  const g = new Float64Array(J);
+  let pk = 0;
+  for (let j = 0; j < J; j++) {
+    const s = j * h;
+    g[j] = phase(s, p.rise, p.n) - p.ratio * phase(s, p.after, p.n);
+    if (Math.abs(g[j]) > pk) pk = Math.abs(g[j]);
+  }
+  for (let j = 0; j < J; j++) g[j] = (p.sign * g[j]) / (pk || 1);
+  return { tau0: p.shift, h, g };
+}
+
+/**
+ * Nelder-Mead simplex minimisation (Nelder & Mead 1965; Lagarias et al. 1998 coefficients 1, 2, 1/2, 1/2) of f
+ * from x0 with initial steps `step`; stops after `maxEval` evaluations or when the simplex's values agree to `ftol`
+ * (relative).
+ */
+export function nelderMead(
+  f: (x: number[]) => number,
+  x0: number[],
+  step: number[],
+  maxEval = 400,
+  ftol = 1e-6,
+): { x: number[]; f: number; evaluations: number } {
+  const n = x0.length;
+  let evals = 0;
+  const F = (x: number[]) => {
+    evals++;
+    const v = f(x);
+    return Number.isFinite(v) ? v : Infinity;
+  };
+  let pts = [x0.slice(), ...x0.map((_, i) => x0.map((v, j) => (i === j ? v + step[i] : v)))];
+  let vals = pts.map(F);
+  while (evals < maxEval) {
+    const order = vals.map((v, i) => i).sort((a, b) => vals[a] - vals[b]);
+    pts = order.map((i) => pts[i]);
+    vals = order.map((i) => vals[i]);
+    if (Math.abs(vals[n] - vals[0]) <= ftol * (Math.abs(vals[0]) + 1e-300)) break;
+    const c = Array.from({ length: n }, (_, j) => pts.slice(0, n).reduce((s, p) => s + p[j], 0) / n);
+    const at = (t: number) => c.map((v, j) => v + t * (pts[n][j] - v));
+    const xr = at(-1),
+      fr = F(xr);
+    if (fr < vals[0]) {
+      const xe = at(-2),
+        fe = F(xe);
+      [pts[n], vals[n]] = fe < fr ? [xe, fe] : [xr, fr];
+    } else if (fr < vals[n - 1]) [pts[n], vals[n]] = [xr, fr];
+    else {
+      const xc = fr < vals[n] ? at(-0.5) : at(0.5),
+        fc = F(xc);
+      if (fc < Math.min(fr, vals[n])) [pts[n], vals[n]] = [xc, fc];
+      else
+        for (let i = 1; i <= n; i++) {
+          pts[i] = pts[i].map((v, j) => pts[0][j] + 0.5 * (v - pts[0][j]));
+          vals[i] = F(pts[i]);
+        }
+    }
+  }
+  const b = vals.indexOf(Math.min(...vals));
+  return { x: pts[b], f: vals[b], evaluations: evals };
 }

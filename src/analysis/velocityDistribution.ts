@@ -74,6 +74,9 @@ import {
   twoDistanceSolve,
   percentile,
   sfpAt,
+  shapeSfp,
+  nelderMead,
+  type SfpShape,
 } from './vdistCore';
 
 type Row = Record<string, ConditionValue>;
@@ -96,7 +99,11 @@ export interface VelocityDistributionOptions {
   velocityRange?: [number, number];
   /** number of log-spaced grid velocities (default 60) */
   nVelocities?: number;
-  /** fitted samples [from, to], ms after the stimulus (default [0.3, end of sweep]: the project's artifact window) */
+  /**
+   * fitted samples [from, to], ms after the stimulus (default: from the first usable sample at each distance, after
+   * the stimulus pulse and any clipped or blanked samples that follow it (usableStartMs), to the end of the sweep,
+   * with the artifact modelled as decays from there, see artifactTauMs)
+   */
   fitWindow?: [number, number];
   /** per-distance fit start, ms, e.g. { 15: 0.45 } (overrides fitWindow[0] at that distance) */
   fitStartByDistance?: Record<string, number>;
@@ -104,6 +111,13 @@ export interface VelocityDistributionOptions {
   sfp?: 'estimate' | { samples: ArrayLike<number>; dtMs: number; t0Ms: number };
   /** support of an estimated potential [before, after] its arrival, ms (default: -1% and +25% of the fit window's length) */
   sfpWindow?: [number, number];
+  /**
+   * form of an estimated potential: 'two-phase' (default; a main phase and an opposite after-phase, five shape
+   * parameters found with the amplitudes by variable projection) or 'free' (sampled on nodes, alternating least squares)
+   */
+  sfpModel?: 'two-phase' | 'free';
+  /** refine a two-phase potential on nodes by alternating least squares, started from it (default true) */
+  sfpRefine?: boolean;
   /** second-difference penalty of the estimated potential, relative (default 1e-3) */
   sfpSmoothing?: number;
   /** p: peak amplitude proportional to v^p (default 2) */
@@ -118,8 +132,13 @@ export interface VelocityDistributionOptions {
   utilisationMs?: number;
   /** per-distance nuisance: 'offset', 'linear' (default) or 'quadratic' drift */
   drift?: 'offset' | 'linear' | 'quadratic';
-  /** time constants (ms) of decaying exponentials from the stimulus modelled as artifact, per distance (default none) */
+  /**
+   * time constants (ms) of decaying exponentials from the fit start modelled as artifact, per distance (default: with
+   * a detected fit start, 2 samples to twice the start's delay after the stimulus in factors of 2; else none)
+   */
   artifactTauMs?: number[];
+  /** mains frequencies (Hz, with any harmonics listed, e.g. [50, 150]) modelled as a sine and cosine per distance */
+  humHz?: number[];
   /** quiet window for the noise SD, ms (default: sweep start to -0.1 ms) */
   noiseWindow?: [number, number];
   /** maximum alternations of amplitudes and potential (default 100) */
@@ -147,9 +166,11 @@ export interface VelocityDistributionOptions {
 export const velocityDistributionDefaults = {
   method: 'decomposition' as const,
   nVelocities: 60,
-  fitWindowStartMs: 0.3,
+  fitWindowStart: 'detected' as const,
+  sfpRefine: true,
   sfpWindowFraction: [-0.01, 0.25] as [number, number],
   sfpSmoothing: 1e-3,
+  sfpModel: 'two-phase' as const,
   amplitudeExponent: 2,
   durationExponent: 0,
   bipolarSeparationMm: 0,
@@ -175,6 +196,8 @@ const OPTION_KEYS = [
   'sfp',
   'sfpWindow',
   'sfpSmoothing',
+  'sfpModel',
+  'sfpRefine',
   'amplitudeExponent',
   'durationExponent',
   'referenceVelocity',
@@ -182,6 +205,7 @@ const OPTION_KEYS = [
   'utilisationMs',
   'drift',
   'artifactTauMs',
+  'humHz',
   'noiseWindow',
   'iterations',
   'tolerance',
@@ -322,6 +346,13 @@ export class VelocityDistributionResult extends Result {
 /** The methods sentence (and its references) for a velocityDistribution step's options. */
 export function methodsSentence(o: Record<string, unknown>): [string, string[]] {
   const refs = [
+    ...(o.sfp === 'estimate' && o.sfpModel !== 'free'
+      ? [
+          'Golub GH, Pereyra V (1973) The differentiation of pseudo-inverses and nonlinear least squares problems ' +
+            'whose variables separate. SIAM J Numer Anal 10:413-432.',
+          'Nelder JA, Mead R (1965) A simplex method for function minimization. Comput J 7:308-313.',
+        ]
+      : []),
     'Lawson CL, Hanson RJ (1974) Solving Least Squares Problems. Prentice-Hall, Englewood Cliffs.',
     'Golub GH, Heath M, Wahba G (1979) Generalized cross-validation as a method for choosing a good ridge parameter. Technometrics 21:215-223.',
   ];
@@ -329,9 +360,17 @@ export function methodsSentence(o: Record<string, unknown>): [string, string[]] 
     q = o.durationExponent;
   const range = o.velocityRange as number[];
   const grid = `${o.nVelocities} log-spaced velocities from ${fmt(range[0])} to ${fmt(range[1])} m/s`;
+  const free =
+    'alternating least squares across distances (the same potential at every distance; its time origin, the ' +
+    'arrival x/v, absorbs the utilisation delay)';
+  const twoPhase =
+    'a two-phase form (a main phase and an opposite after-phase, each (s/tau)^n exp(n(1 - s/tau)), with its onset, ' +
+    'two time constants, after-phase ratio and n) fitted with the amplitudes by variable projection ' +
+    '(Golub & Pereyra 1973; Nelder-Mead simplex), its time origin absorbing the utilisation delay' +
+    (o.sfpRefine ? `, then refined on nodes by ${free}` : '');
   const sfp =
     o.sfp === 'estimate'
-      ? 'a single-fibre potential estimated from the data by alternating least squares across distances (the same potential at every distance; its time origin, the arrival x/v, absorbs the utilisation delay)'
+      ? `a single-fibre potential estimated from the data by ${o.sfpModel === 'free' ? free : twoPhase}`
       : `a given single-fibre potential with a utilisation delay of ${o.utilisationMs} ms`;
   const lam =
     o.lambda === 'gcv'
@@ -353,6 +392,10 @@ export function methodsSentence(o: Record<string, unknown>): [string, string[]] 
     );
     s = `The conduction-velocity distribution was estimated from the averaged supramaximal responses at ${o.distances} by modelling each response as a sum of single-fibre potentials arriving at x/v (Cummins, Perkel & Dorfman 1979), for ${rec}, with ${sfp}, whose peak amplitude scales as v^${p} and ${q === 0 ? 'whose duration does not depend on velocity' : `duration as v^-${q}`}, plus a ${o.drift} drift per distance${(o.artifactTauMs as number[]).length ? ` and artifact exponentials (time constants ${(o.artifactTauMs as number[]).join(', ')} ms)` : ''}; the amplitude per velocity on ${grid} was found by non-negative least squares (Lawson & Hanson 1974) with a second-difference smoothness penalty whose weight was ${lam}, samples weighted by the inverse noise SD of each distance's average, over ${fmtW(o.fitWindow)}.`;
   }
+  if (o.fitStart === 'detected')
+    s +=
+      ' Each distance was fitted from its first usable sample after the stimulus (after the pulse and any clipped ' +
+      'or blanked samples), the artifact tail modelled as decaying exponentials from there.';
   s += ` Fibre numbers were taken as the amplitude per velocity divided by (v/${fmt(o.referenceVelocity as number)} m/s)^${p} (amplitude proportional to v^${p}).`;
   if ((o.bootstrap as number) > 0)
     s += ` 95% bands are percentiles of ${o.bootstrap} bootstrap resamples of sweeps within each distance (seed ${o.seed}), with the potential and the smoothness weight held fixed.`;
@@ -368,6 +411,8 @@ interface Prepared {
   perSweep: Float64Array[][];
   distances: number[];
   notes: string[];
+  /** fit start per distance, ms */
+  starts: number[];
 }
 
 function prepare(
@@ -409,9 +454,11 @@ function prepare(
   const nw = noiseWindow ?? [set.t0Ms, -0.1];
   const blocks: Block[] = [];
   const perSweep: Float64Array[][] = [];
+  const starts: number[] = [];
   for (const d of distances) {
     const idx = byD.get(d)!;
-    const start = startBy[String(d)] ?? fit[0];
+    const start = startBy[String(d)] ?? (Number.isNaN(fit[0]) ? usableStartMs(set, idx) : fit[0]);
+    starts.push(start);
     const a = Math.max(0, Math.ceil((start - set.t0Ms) / dt - 1e-9)),
       b = Math.min(n - 1, Math.floor((fit[1] - set.t0Ms) / dt + 1e-9));
     if (b - a < 10)
@@ -453,7 +500,7 @@ function prepare(
     notes.push(`no quiet window ${fmtW(nw)} with 9 or more samples at every distance: rows are not weighted by noise`);
     for (const bl of blocks) bl.sigma = 1;
   }
-  return { blocks, perSweep, distances, notes };
+  return { blocks, perSweep, distances, notes, starts };
 }
 
 function validate(o: VelocityDistributionOptions): void {
@@ -495,6 +542,9 @@ function validate(o: VelocityDistributionOptions): void {
     finite('sfp.t0Ms', s.t0Ms, 'ms');
   }
   if (o.sfpWindow !== undefined) windowMs('sfpWindow', o.sfpWindow);
+  if (o.sfpModel !== undefined) oneOf('sfpModel', o.sfpModel, ['two-phase', 'free']);
+  if (o.sfpRefine !== undefined && typeof o.sfpRefine !== 'boolean')
+    throw new OptionError(`invalid sfpRefine: ${shown(o.sfpRefine)}; must be true or false`);
   if (o.sfpSmoothing !== undefined) {
     finite('sfpSmoothing', o.sfpSmoothing);
     if (!(o.sfpSmoothing >= 0)) throw new OptionError(`invalid sfpSmoothing: ${o.sfpSmoothing}; must be >= 0`);
@@ -515,6 +565,11 @@ function validate(o: VelocityDistributionOptions): void {
         `invalid artifactTauMs: ${shown(o.artifactTauMs)}; must be an array of time constants in ms`,
       );
     o.artifactTauMs.forEach((x, i) => positive(`artifactTauMs[${i}]`, x, 'ms'));
+  }
+  if (o.humHz !== undefined) {
+    if (!Array.isArray(o.humHz))
+      throw new OptionError(`invalid humHz: ${shown(o.humHz)}; must be an array of frequencies in Hz, e.g. [50, 150]`);
+    o.humHz.forEach((x, i) => positive(`humHz[${i}]`, x, 'Hz'));
   }
   if (o.noiseWindow !== undefined) windowMs('noiseWindow', o.noiseWindow);
   if (o.iterations !== undefined) integerIn('iterations', o.iterations, 1, 10000);
@@ -537,12 +592,10 @@ function validate(o: VelocityDistributionOptions): void {
 }
 
 /**
- * Default velocity grid: from the slowest fibre whose potential arrives at every distance
- * (the farthest included) before the end of the fit window, x_max / (end - t_u), so that each
- * grid velocity is seen at all distances (the dispersion between them is what separates the
- * velocities from the potential's shape), to twice the fastest
- * whose arrival at the farthest distance falls after the fit start, 2 x_max / (start - t_u)
- * (the potential of a faster fibre still reaches into the window), at most 200 m/s.
+ * Default velocity grid, log-spaced: every grid velocity's arrival x / v lies inside the fit window at every
+ * distance, so that each is seen at all distances (the dispersion between distances is what separates the
+ * velocities from the potential's shape): from x_max / (end - t_u) to the smallest x / (start_x - t_u) over the
+ * distances (start_x the fit start at distance x), at most 200 m/s.
  */
 export function velocityGrid(
   distances: number[],
@@ -550,14 +603,18 @@ export function velocityGrid(
   utilisationMs: number,
   K: number,
   range?: [number, number],
+  starts?: number[],
 ): Float64Array {
   let lo: number, hi: number;
   if (range) [lo, hi] = range;
   else {
-    const end = fit[1] - utilisationMs,
-      start = Math.max(fit[0] - utilisationMs, 0.05);
+    const end = fit[1] - utilisationMs;
     lo = distances[distances.length - 1] / end;
-    hi = Math.min(200, (2 * distances[distances.length - 1]) / start);
+    hi = 200;
+    distances.forEach((x, i) => {
+      const start = Math.max((starts?.[i] ?? fit[0]) - utilisationMs, 0.01);
+      hi = Math.min(hi, x / start);
+    });
     if (!(hi > lo * 1.5))
       throw new AnalysisError(
         `the fit window ${fmtW(fit)} and distances ${distances.join(', ')} mm give no velocity range (${fmt(lo)} to ${fmt(hi)} m/s); give velocityRange`,
@@ -566,6 +623,41 @@ export function velocityGrid(
   return Float64Array.from({ length: K }, (_, k) =>
     Math.exp(Math.log(lo) + (k * (Math.log(hi) - Math.log(lo))) / (K - 1)),
   );
+}
+
+/**
+ * The first sample after the stimulus that is usable, per sweep, the latest over the sweeps: after the stimulus
+ * pulse (condition pulseWidthMs; none: from t = 0) and after any run of samples held on the amplifier's rail (at
+ * the sweep's own maximum or minimum) or blanked (equal consecutive values) that follows it.
+ */
+export function usableStartMs(set: SweepSet, sweeps: readonly number[]): number {
+  const dt = set.dtMs;
+  let latest = -Infinity;
+  for (const s of sweeps) {
+    const x = set.sweep(s);
+    const pw = set.conditions[s].pulseWidthMs;
+    const from = typeof pw === 'number' && pw > 0 ? pw : 0;
+    let i = Math.max(0, Math.ceil((from - set.t0Ms) / dt - 1e-9));
+    let mx = -Infinity,
+      mn = Infinity;
+    for (const y of x) {
+      if (y > mx) mx = y;
+      if (y < mn) mn = y;
+    }
+    const tol = 1e-9 * Math.max(mx - mn, 1e-300);
+    const stuck = (j: number) =>
+      j < x.length &&
+      (Math.abs(x[j] - mx) <= tol ||
+        Math.abs(x[j] - mn) <= tol ||
+        (j + 1 < x.length && x[j + 1] === x[j]) ||
+        (j > 0 && x[j - 1] === x[j]));
+    // a held run must start at (or continue from) the stimulus: scan from t = 0
+    let j = Math.max(0, Math.ceil(-set.t0Ms / dt - 1e-9));
+    while (j < i || stuck(j)) j++;
+    i = Math.max(i, j);
+    latest = Math.max(latest, set.timeAt(Math.min(i, set.nSamples - 1)));
+  }
+  return latest;
 }
 
 /** Bin edges (geometric midpoints) of a log grid. */
@@ -615,7 +707,8 @@ export function velocityDistribution(
   const D = velocityDistributionDefaults;
   const method = options.method ?? D.method;
   const K = options.nVelocities ?? D.nVelocities;
-  const fit: [number, number] = options.fitWindow ?? [D.fitWindowStartMs, set.timeAt(set.nSamples - 1)];
+  // NaN start: detected per distance (usableStartMs)
+  const fit: [number, number] = options.fitWindow ?? [NaN, set.timeAt(set.nSamples - 1)];
   const p = options.amplitudeExponent ?? D.amplitudeExponent;
   const q = options.durationExponent ?? D.durationExponent;
   const bip = options.bipolarSeparationMm ?? D.bipolarSeparationMm;
@@ -628,7 +721,8 @@ export function velocityDistribution(
   }
   const drift = options.drift ?? D.drift;
   const driftDeg = { offset: 0, linear: 1, quadratic: 2 }[drift];
-  const taus = options.artifactTauMs ?? [];
+  const autoStart = options.fitWindow === undefined;
+  const hum = options.humHz ?? [];
   const iterations = options.iterations ?? D.iterations;
   const tolerance = options.tolerance ?? D.tolerance;
   const lambdaOpt = options.lambda ?? D.lambda;
@@ -637,11 +731,22 @@ export function velocityDistribution(
   const nBoot = options.bootstrap ?? D.bootstrap;
   const seed = options.seed ?? D.seed;
   const prep = prepare(set, fit, options.fitStartByDistance ?? {}, options.noiseWindow, method === 'two-distance');
-  const { blocks, distances, notes } = prep;
-  const v = velocityGrid(distances, fit, tu, K, options.velocityRange);
+  const { blocks, distances, notes, starts } = prep;
+  if (autoStart) fit[0] = Math.min(...starts);
+  // artifact: decays from the fit start; by default (detected start only) time constants from two samples to twice
+  // the time from the stimulus to the fit start, in factors of 2 (a tail that outlasts the blanked or clipped
+  // samples by much more than that is left to the drift terms)
+  const tausBy = starts.map((st) => {
+    if (options.artifactTauMs) return options.artifactTauMs;
+    const out: number[] = [];
+    if (autoStart) for (let tau = 2 * set.dtMs; tau <= 2 * st + 1e-12; tau *= 2) out.push(tau);
+    return out;
+  });
+  const taus = [...new Set(tausBy.flat())].sort((a, b) => a - b);
+  const v = velocityGrid(distances, fit, tu, K, options.velocityRange, starts);
   const vRef = options.referenceVelocity ?? Math.sqrt(v[0] * v[K - 1]);
   const model: Model = { v, vRef, q, bipolarMm: bip, utilisationMs: tu };
-  const bases = blocks.map((bl) => nuisanceBasis(bl.t, bl.sigma, driftDeg, taus));
+  const bases = blocks.map((bl, i) => nuisanceBasis(bl.t, bl.sigma, driftDeg, tausBy[i], hum, bl.t[0]));
   const nNuis = bases.reduce((s, b) => s + b.length, 0);
   const nRows = blocks.reduce((s, b) => s + b.t.length, 0);
   const b = dataVector(blocks, bases);
@@ -651,12 +756,15 @@ export function velocityDistribution(
   const h = Math.max(set.dtMs, (sw[1] - sw[0]) / 200);
   const J = Math.floor((sw[1] - sw[0]) / h) + 1;
   const smoothing = options.sfpSmoothing ?? D.sfpSmoothing;
+  const sfpModel = options.sfpModel ?? D.sfpModel;
+  const sfpRefine = options.sfpRefine ?? D.sfpRefine;
 
-  let sfp: Sfp;
-  let u: Float64Array;
-  let sol: { u: Float64Array; lambda: number; gcv: number; df: number };
+  let sfp!: Sfp;
+  let u!: Float64Array;
+  let sol!: { u: Float64Array; lambda: number; gcv: number; df: number };
   let iter = 0,
     converged = true;
+  let shape: SfpShape | null = null;
   const choose = (G: Float64Array, c: Float64Array, bb: number) =>
     lambdaOpt === 'gcv'
       ? gcvSolve(G, c, bb, R, K, nRows, nNuis)
@@ -682,10 +790,56 @@ export function velocityDistribution(
     const gg = gram(A, nRows, K, b);
     sol = choose(gg.G, gg.c, gg.bb);
     u = sol.u;
-  } else {
+  } else if (method === 'decomposition' && sfpModel === 'two-phase') {
+    // the potential's four shape parameters (and its sign) by variable projection: for each shape the amplitudes are
+    // the non-negative penalised least-squares solution, and the shape minimises what is left (Golub & Pereyra 1973)
+    const lamRel = lambdaOpt === 'gcv' ? alternationLambda : (lambdaOpt as number);
+    const maxStep = set.dtMs;
+    const toShape = (x: number[], sign: number): SfpShape => ({
+      shift: x[0],
+      rise: Math.exp(x[1]),
+      after: Math.exp(x[1]) * (1 + Math.exp(x[2])),
+      ratio: 1 / (1 + Math.exp(-x[3])),
+      n: Math.min(8, Math.max(0.5, Math.exp(x[4]))),
+      sign,
+    });
+    const objective = (x: number[], sign: number) => {
+      const gg = gram(designMatrix(blocks, bases, model, shapeSfp(toShape(x, sign), maxStep)), nRows, K, b);
+      const scale = trG(gg.G, K) / trG(R, K);
+      if (!(scale > 0)) return Infinity;
+      const sU = solveU(gg.G, gg.c, gg.bb, R, K, lamRel * scale, false);
+      let pen = 0;
+      for (let k = 0; k + 2 < K; k++) pen += (sU.u[k] - 2 * sU.u[k + 1] + sU.u[k + 2]) ** 2;
+      return sU.rss + lamRel * scale * pen;
+    };
+    // start: the best of rise times from 2 samples to 1/20 of the fit window in factors of 2, either sign
+    let best = { x: [0, 0, Math.log(4), Math.log(0.1 / 0.9), Math.log(2)], sign: 1, f: Infinity };
+    for (let rise = 2 * set.dtMs; rise <= Math.max(W / 20, 4 * set.dtMs); rise *= 2)
+      for (const sign of [1, -1]) {
+        const x = [0, Math.log(rise), Math.log(4), Math.log(0.1 / 0.9), Math.log(2)];
+        const f = objective(x, sign);
+        if (f < best.f) best = { x, sign, f };
+      }
+    const nm = nelderMead(
+      (x) => objective(x, best.sign),
+      best.x,
+      [Math.exp(best.x[1]) / 2, 0.5, 0.7, 1, 0.3],
+      iterations * 4,
+      1e-7,
+    );
+    iter = nm.evaluations;
+    converged = nm.evaluations < iterations * 4;
+    shape = toShape(nm.x, best.sign);
+    sfp = shapeSfp(shape, maxStep);
+    const gg = gram(designMatrix(blocks, bases, model, sfp), nRows, K, b);
+    sol = choose(gg.G, gg.c, gg.bb);
+    u = sol.u;
+  }
+  if (!sfpGiven && (method !== 'decomposition' || sfpModel !== 'two-phase' || sfpRefine)) {
+    const initU = shape ? Float64Array.from(u) : null;
     if (method === 'two-distance') {
       u = twoDistanceSolve(blocks, model, twoLambda).u;
-    } else u = new Float64Array(K).fill(1 / K);
+    } else u = initU ?? new Float64Array(K).fill(1 / K);
     let lamRel = lambdaOpt === 'gcv' ? alternationLambda : (lambdaOpt as number);
     let prev = Float64Array.from(u);
     const maxIt = method === 'two-distance' ? 1 : iterations;
@@ -976,13 +1130,19 @@ export function velocityDistribution(
       sfp: sfpGiven ? 'given' : 'estimate',
       sfpWindow: sw,
       sfpSmoothing: smoothing,
+      sfpModel,
+      sfpRefine,
+      sfpShape: shape ? Object.fromEntries(Object.entries(shape).map(([k, x]) => [k, Number(x.toPrecision(4))])) : null,
+      fitStartMs: Object.fromEntries(distances.map((d, i) => [`${fmt(d)} mm`, Number(starts[i].toPrecision(6))])),
+      fitStart: autoStart ? 'detected' : 'given',
       amplitudeExponent: p,
       durationExponent: q,
       referenceVelocity: vRef,
       bipolarSeparationMm: bip,
       utilisationMs: tu,
       drift,
-      artifactTauMs: taus,
+      artifactTauMs: taus.map((x) => Number(x.toPrecision(4))),
+      humHz: hum,
       lambda: lambdaOpt,
       alternationLambda,
       chosenLambda: sol.lambda,
