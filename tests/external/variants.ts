@@ -170,6 +170,36 @@ export function artifactModelV(tMs0: number, mA: number): number {
   return mA * (-0.122 * Math.exp(-t / 0.04) + 0.00005 * Math.exp(-t / 1.5));
 }
 
+/** temperature (C) of sweep s of a recording, from the set's sidecar */
+export const temperatureOf = (rec: Recording, s: number): number =>
+  rec.side.columns.find((c) => c.sweep_index === s && c.channel === 1)!.temperature_C as number;
+
+/**
+ * The recording with its stimulus artifact replaced: the set's artifact (artifactModelV, x0.6 at 25 mm) is
+ * subtracted, the rest on the rail samples (where it is hidden) interpolated linearly between its neighbours,
+ * `artifact(tMs, mA)` (at 15 mm, x0.6 at 25 mm) added, and the rail applied: as the set's simulator would record
+ * another artifact shape. Responses, noise, hum and drift are untouched, so the truth is unchanged.
+ */
+export function replaceArtifact(rec: Recording, artifact: (tMs: number, mA: number) => number): Recording {
+  return mapSweeps(rec, (x, s, ch, tMs) => {
+    const g = (ch.conditions.distanceMm as number) === 25 ? 0.6 : 1;
+    const mA = intensityOf(rec, s);
+    const r = Float64Array.from(x, (v, i) => v - g * artifactModelV(tMs(i), mA));
+    const rail = Array.from(x, (v) => Math.abs(v) >= RAIL_V * (1 - 1e-4));
+    for (let i = 0; i < x.length; i++) {
+      if (!rail[i]) continue;
+      let a = i - 1,
+        b = i + 1;
+      while (a >= 0 && rail[a]) a--;
+      while (b < x.length && rail[b]) b++;
+      const ra = a >= 0 ? r[a] : r[b],
+        rb = b < x.length ? r[b] : ra;
+      r[i] = a >= 0 && b < x.length ? ra + ((rb - ra) * (i - a)) / (b - a) : ra;
+    }
+    return Float32Array.from(r, (v, i) => Math.max(-RAIL_V, Math.min(RAIL_V, v + g * artifact(tMs(i), mA))));
+  });
+}
+
 /** Write a study (one or more recordings of one window) as float32 binaries, sidecars and a manifest; its path. */
 export function writeStudy(dir: string, w: W, recs: Recording[], analysis: PipelineOptions, study: string): string {
   mkdirSync(join(dir, 'data'), { recursive: true });
