@@ -18,6 +18,9 @@
  * - /general/source_script "fascicle <version>": how fascicle recognises its own files.
  * The file is written to a temporary file in the same folder and renamed into place; an existing
  * file is replaced only with `overwrite: true` and only when fascicle wrote it.
+ *
+ * Layer: io/ sits above sweeps/, so this module installs `set.toNwb()` on SweepSet's prototype (declared below
+ * by declaration merging); src/index.ts loads it.
  */
 import { randomUUID } from 'node:crypto';
 import {
@@ -34,7 +37,7 @@ import {
 import { basename, dirname, join, resolve } from 'node:path';
 import { OptionError, OutputError, systemReason } from '../errors';
 import { checkKeys, shown } from '../validate';
-import { conditionKeys, type SweepSet, type ConditionValue } from '../sweeps/SweepSet';
+import { SweepSet, conditionKeys, type ConditionValue } from '../sweeps/SweepSet';
 import { VERSION } from '../version';
 import { nwbReady, h5, openHdf5, at, isDataset, texts, type H5File, type H5Group } from './nwbLib';
 import { encodeColumn } from './nwbColumns';
@@ -707,3 +710,21 @@ function writeTable(
     idx.create_attribute('target', d.create_reference());
   }
 }
+
+declare module '../sweeps/SweepSet' {
+  interface SweepSet {
+    /**
+     * Write the sweeps, their conditions (trials table), electrodes and history to an NWB 2.x file (atomic).
+     * @example await set.toNwb('out/prep1.nwb')
+     */
+    toNwb(path: string, options?: NwbWriteOptions): Promise<NwbWriteResult>;
+  }
+}
+
+SweepSet.prototype.toNwb = function toNwb(
+  this: SweepSet,
+  path: string,
+  options: NwbWriteOptions = {},
+): Promise<NwbWriteResult> {
+  return writeNwb(this, path, options);
+};

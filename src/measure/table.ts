@@ -1,5 +1,14 @@
-/** ComponentTable: per-sweep x per-class measurements, with velocity and threshold analyses. */
-import type { SweepSet, ConditionValue, Step } from '../sweeps/SweepSet';
+/**
+ * ComponentTable: per-sweep x per-class measurements, and the notebook's entry point to every analysis
+ * (`table.velocity()`, `table.doseResponse()`, ...).
+ *
+ * Layer: this module sits above analysis/ (it calls the analyses; none of them imports it at run time) and
+ * below plot/ and report/. It installs the SweepSet methods that lead here, `set.components()`, `set.qc()` and
+ * `set.rejectFlagged()`, on SweepSet's prototype (declared below by declaration merging), because SweepSet's
+ * own layer may not import measurement or analysis; src/index.ts loads this module, so they are always there
+ * for users of the package.
+ */
+import { SweepSet, type ConditionValue, type Step } from '../sweeps/SweepSet';
 import {
   measureComponents,
   componentStep,
@@ -25,6 +34,30 @@ import { strengthDuration, StrengthDurationResult, type StrengthDurationOptions 
 import { temperatureAnalysis, velocityTemperature, TemperatureResult } from '../analysis/temperature';
 import { compareGroups, type GroupOptions, type GroupComparison } from '../analysis/groups';
 import { mixedModel, type MixedOptions, type MixedModelResult } from '../analysis/mixed';
+import { sweepQc, rejectFlagged, type SweepQcOptions, type SweepQcResult, type QcFlag } from '../analysis/sweepQc';
+
+declare module '../sweeps/SweepSet' {
+  interface SweepSet {
+    /**
+     * Measure the fiber-class components of every sweep (latency windows from the
+     * class velocity ranges, the distance and the temperature).
+     * @example set.components({ preset: 'mammalian' }).velocity()
+     */
+    components(options?: ComponentOptions): ComponentTable;
+    /**
+     * Quality control of every sweep (run it on raw sweeps): noise, drift, amplifier rails, artifact size and a
+     * robust outlier score against the sweep's condition; a flag and reasons per sweep. Nothing is removed.
+     * @example set.qc().show()
+     */
+    qc(options?: SweepQcOptions): SweepQcResult;
+    /**
+     * Remove the sweeps a quality control flagged (every flag, or only `flags`); each removed sweep is recorded
+     * with its reasons in the history (and so in the methods text).
+     * @example set.rejectFlagged(set.qc(), { flags: ['saturated', 'flat'] })
+     */
+    rejectFlagged(qc?: SweepQcResult, options?: { flags?: QcFlag[] }): SweepSet;
+  }
+}
 
 /** Default grouping for velocity: the conditions that vary and are not per-sweep or per-distance. */
 function defaultBy(set: SweepSet): string[] {
@@ -289,3 +322,19 @@ export class VelocityResult extends Result {
     );
   }
 }
+
+SweepSet.prototype.components = function components(this: SweepSet, options: ComponentOptions = {}): ComponentTable {
+  return new ComponentTable(this, options);
+};
+
+SweepSet.prototype.qc = function qc(this: SweepSet, options: SweepQcOptions = {}): SweepQcResult {
+  return sweepQc(this, options);
+};
+
+SweepSet.prototype.rejectFlagged = function (
+  this: SweepSet,
+  qc: SweepQcResult = this.qc(),
+  options: { flags?: QcFlag[] } = {},
+): SweepSet {
+  return rejectFlagged(this, qc, options);
+};

@@ -4,7 +4,7 @@
  * processing history with every option). Every user string is escaped.
  */
 import type { SweepSet } from '../sweeps/SweepSet';
-import { conditionKeys } from '../sweeps/SweepSet';
+import { conditionKeys } from '../sweeps/conditions';
 import { escapeHtml, formatCell, displayHtml } from './html';
 import { unitText } from '../plot/labels';
 

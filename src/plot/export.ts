@@ -12,11 +12,10 @@
 import { existsSync, writeFileSync, mkdirSync } from 'node:fs';
 import { dirname, extname } from 'node:path';
 import type { Browser, Page } from 'playwright-core';
-import type { Figure, PlotlySpec } from './figure';
-import { plotlyJs, LAYOUT_FIT_JS, drawnSpec } from './figure';
+import { Figure, plotlyJs, LAYOUT_FIT_JS, drawnSpec, type PlotlySpec } from './figure';
 import { OptionError } from '../errors';
 import { checkKeys } from '../validate';
-import { escapeHtml } from '../notebook/html';
+import { escapeHtml, tslabDisplay } from '../notebook/html';
 import { plainText } from './labels';
 
 const CANDIDATES = [
@@ -431,3 +430,23 @@ export function withDpi(png: Buffer, dpi: number): Buffer {
   const ihdrEnd = 8 + 4 + 4 + 13 + 4;
   return Buffer.concat([png.subarray(0, ihdrEnd), chunk, png.subarray(ihdrEnd)]);
 }
+
+// Figure.save lives here, not in figure.ts, so that figure.ts need not import this module (no import cycle);
+// src/index.ts loads this module.
+declare module './figure' {
+  interface Figure {
+    /**
+     * Save as SVG, PNG or PDF for print: size in mm (default 85 x 59.5 mm, or a journal
+     * `column`), text in points, PNG at `dpi` (default 300). In a notebook kernel the
+     * browser stays open for 60 s after a save, so saves in a row start it once; in a
+     * script each call starts one: use saveFigures([...]) or openExporter() for several.
+     * @example await fig.save('fig1.pdf', { column: 'single', heightMm: 60 })
+     */
+    save(path: string, options?: SaveOptions): Promise<void>;
+  }
+}
+
+Figure.prototype.save = async function save(this: Figure, path: string, options: SaveOptions = {}): Promise<void> {
+  if (tslabDisplay()) await saveWithSharedExporter(this, path, options);
+  else await saveFigures([{ figure: this, path, ...options }]);
+};

@@ -338,18 +338,7 @@ export class Figure {
     else console.log(this.toString());
   }
 
-  /**
-   * Save as SVG, PNG or PDF for print: size in mm (default 85 x 59.5 mm, or a journal
-   * `column`), text in points, PNG at `dpi` (default 300). In a notebook kernel the
-   * browser stays open for 60 s after a save, so saves in a row start it once; in a
-   * script each call starts one: use saveFigures([...]) or openExporter() for several.
-   * @example await fig.save('fig1.pdf', { column: 'single', heightMm: 60 })
-   */
-  async save(path: string, options: import('./export').SaveOptions = {}): Promise<void> {
-    const ex = await import('./export');
-    if (tslabDisplay()) await ex.saveWithSharedExporter(this, path, options);
-    else await ex.saveFigures([{ figure: this, path, ...options }]);
-  }
+  // save() is installed by src/plot/export.ts (which imports this module; src/index.ts loads it)
 
   toString(): string {
     const traces = this.spec.data.length;

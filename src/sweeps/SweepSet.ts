@@ -9,26 +9,26 @@ import { OptionError } from '../errors';
 import { checkKeys, didYouMean, shown, warnOnce } from '../validate';
 import { VERSION } from '../version';
 import { toFrame } from '../report/frame';
-import { baseline, type BaselineOptions } from '../verbs/baseline';
+import { baselineSamples, type BaselineOptions } from '../verbs/baseline';
 import {
-  removeArtifact,
-  alignStimulus,
+  removeArtifactSamples,
+  alignStimulusSamples,
   detectStimulus,
   type ArtifactOptions,
   type StimulusDetection,
 } from '../verbs/artifact';
-import { filter, notch, type FilterOptions, type NotchOptions } from '../verbs/filter';
-import { removeHum, type HumOptions } from '../verbs/hum';
-import { decimate, type DecimateOptions } from '../verbs/decimate';
-import { resample, type ResampleOptions } from '../verbs/resample';
-import { ComponentTable } from '../measure/table';
-import type { ComponentOptions } from '../measure/components';
+import { filterSamples, notchSamples, type FilterOptions, type NotchOptions } from '../verbs/filter';
+import { removeHumSamples, type HumOptions } from '../verbs/hum';
+import { decimateSamples, type DecimateOptions } from '../verbs/decimate';
+import { resampleSamples, type ResampleOptions } from '../verbs/resample';
+import type { DeferredSamples, VerbInput } from '../verbs/types';
 import { signalFactor, type SignalUnit } from './units';
+import { conditionKeys } from './conditions';
 import { runSweeps, shareCopy, sharedSamples } from '../parallel/pool';
-import type { Correction, Samples } from '../parallel/kernels';
-import { sweepQc, rejectFlagged, type SweepQcOptions, type SweepQcResult, type QcFlag } from '../analysis/sweepQc';
 import { sweepSetHtml, showSweepSet } from '../notebook/sweepSet';
-import type { NwbWriteOptions, NwbWriteResult } from '../io/nwbWrite';
+
+export type { DeferredSamples } from '../verbs/types';
+export { conditionKeys } from './conditions';
 
 /** A condition value: numbers, strings, booleans or null (not recorded). */
 export type ConditionValue = string | number | boolean | null;
@@ -64,18 +64,6 @@ export interface Source {
   partOf?: string;
 }
 
-/**
- * Samples not yet computed: `base` with a pending per-sweep correction (made by
- * baseline and template artifact subtraction). They are computed the first time
- * `data` is read; a zero-phase filter instead applies the correction to each sweep
- * as it reads it, which saves a pass over memory and an allocation per step. The
- * numbers are the same bit for bit either way. `base` may be float32 (a float32 file kept
- * as read, half the memory): every use widens each value exactly to float64.
- */
-export interface DeferredSamples {
-  base: Samples;
-  correction: Correction;
-}
 const samples = new WeakMap<SweepSet, Float64Array | DeferredSamples>();
 /** Condition arrays this module froze (with frozen rows): reused as they are. */
 const frozenConditions = new WeakSet<readonly Conditions[]>();
@@ -84,6 +72,29 @@ const frozenConditions = new WeakSet<readonly Conditions[]>();
 export function deferredOf(set: SweepSet): DeferredSamples | null {
   const d = samples.get(set);
   return d && !(d instanceof Float64Array) ? d : null;
+}
+
+/** What a verb reads of a set: its samples and time base, and any pending correction (src/verbs/types.ts). */
+function verbInput(set: SweepSet): VerbInput {
+  return {
+    nSweeps: set.nSweeps,
+    nSamples: set.nSamples,
+    fs: set.fs,
+    t0Ms: set.t0Ms,
+    conditions: set.conditions,
+    extras: set.extras,
+    durationMs: set.durationMs,
+    get data() {
+      return set.data;
+    },
+    get pending() {
+      return deferredOf(set);
+    },
+    sweep: (i) => set.sweep(i),
+    timeAt: (i) => set.timeAt(i),
+    time: () => set.time(),
+    column: (key) => set.column(key),
+  };
 }
 
 export interface SweepSetInit {
@@ -316,7 +327,7 @@ export class SweepSet implements Iterable<Float64Array> {
    * @example set.baseline({ window: [-2, -0.2], method: 'median' })
    */
   baseline(options: BaselineOptions = {}): SweepSet {
-    return baseline(this, options);
+    return this.create(baselineSamples(verbInput(this), options));
   }
 
   /**
@@ -324,17 +335,17 @@ export class SweepSet implements Iterable<Float64Array> {
    * @example set.removeArtifact({ method: 'template', window: [0, 0.3] })
    */
   removeArtifact(options: ArtifactOptions): SweepSet {
-    return removeArtifact(this, options);
+    return this.create(removeArtifactSamples(verbInput(this), options));
   }
 
   /** Find the stimulus time from the artifact (per sweep and median). */
   detectStimulus(options: { search?: [number, number] } = {}): StimulusDetection {
-    return detectStimulus(this, options);
+    return detectStimulus(verbInput(this), options);
   }
 
   /** Shift the time axis so that the stimulus found from the artifact is at 0 ms. */
   alignStimulus(options: { search?: [number, number] } = {}): SweepSet {
-    return alignStimulus(this, options);
+    return this.create(alignStimulusSamples(verbInput(this), options));
   }
 
   /**
@@ -342,22 +353,22 @@ export class SweepSet implements Iterable<Float64Array> {
    * @example set.filter({ btype: 'bandpass', cutoff: [10, 5000], order: 2 })
    */
   filter(options: FilterOptions): SweepSet {
-    return filter(this, options);
+    return this.create(filterSamples(verbInput(this), options));
   }
 
   /** Zero-phase Butterworth low-pass at `cutoff` Hz (order 4 by default). */
   lowpass(cutoff: number, order = 4): SweepSet {
-    return filter(this, { btype: 'lowpass', cutoff, order });
+    return this.filter({ btype: 'lowpass', cutoff, order });
   }
 
   /** Zero-phase Butterworth high-pass at `cutoff` Hz (order 2 by default). */
   highpass(cutoff: number, order = 2): SweepSet {
-    return filter(this, { btype: 'highpass', cutoff, order });
+    return this.filter({ btype: 'highpass', cutoff, order });
   }
 
   /** Zero-phase IIR notch at the mains frequency. */
   notch(options: NotchOptions = {}): SweepSet {
-    return notch(this, options);
+    return this.create(notchSamples(verbInput(this), options));
   }
 
   /**
@@ -365,12 +376,12 @@ export class SweepSet implements Iterable<Float64Array> {
    * @example set.removeHum({ frequency: 'detect', exclude: [[0, 10]] })
    */
   removeHum(options: HumOptions = {}): SweepSet {
-    return removeHum(this, options);
+    return this.create(removeHumSamples(verbInput(this), options));
   }
 
   /** Down-sample by an integer factor after a zero-phase anti-alias low-pass. */
   decimate(options: DecimateOptions): SweepSet {
-    return decimate(this, options);
+    return this.create(decimateSamples(verbInput(this), options));
   }
 
   /**
@@ -378,44 +389,11 @@ export class SweepSet implements Iterable<Float64Array> {
    * @example set.resample({ fs: 20000 })
    */
   resample(options: ResampleOptions): SweepSet {
-    return resample(this, options);
+    return this.create(resampleSamples(verbInput(this), options));
   }
 
-  /**
-   * Measure the fiber-class components of every sweep (latency windows from the
-   * class velocity ranges, the distance and the temperature).
-   * @example set.components({ preset: 'mammalian' }).velocity()
-   */
-  components(options: ComponentOptions = {}): ComponentTable {
-    return new ComponentTable(this, options);
-  }
-
-  /**
-   * Quality control of every sweep (run it on raw sweeps): noise, drift, amplifier rails, artifact size and a
-   * robust outlier score against the sweep's condition; a flag and reasons per sweep. Nothing is removed.
-   * @example set.qc().show()
-   */
-  qc(options: SweepQcOptions = {}): SweepQcResult {
-    return sweepQc(this, options);
-  }
-
-  /**
-   * Remove the sweeps a quality control flagged (every flag, or only `flags`); each removed sweep is recorded
-   * with its reasons in the history (and so in the methods text).
-   * @example set.rejectFlagged(set.qc(), { flags: ['saturated', 'flat'] })
-   */
-  rejectFlagged(qc: SweepQcResult = this.qc(), options: { flags?: QcFlag[] } = {}): SweepSet {
-    return rejectFlagged(this, qc, options);
-  }
-
-  /**
-   * Write the sweeps, their conditions (trials table), electrodes and history to an NWB 2.x file (atomic).
-   * @example await set.toNwb('out/prep1.nwb')
-   */
-  async toNwb(path: string, options: NwbWriteOptions = {}): Promise<NwbWriteResult> {
-    const { writeNwb } = await import('../io/nwbWrite');
-    return writeNwb(this, path, options);
-  }
+  // components(), qc() and rejectFlagged() are installed by src/measure/table.ts, toNwb() by
+  // src/io/nwbWrite.ts (layers above this one; src/index.ts loads both)
 
   /** An HTML summary (sweeps, conditions, sampling rate, history) for notebooks. */
   toHTML(): string {
@@ -624,12 +602,6 @@ function shared(cs: Conditions[]): Record<string, ConditionValue> {
     if (cs.every((c) => c[k] === v0)) out[k] = v0 ?? null;
   }
   return out;
-}
-
-export function conditionKeys(cs: readonly Conditions[]): string[] {
-  const keys = new Set<string>();
-  for (const c of cs) for (const k of Object.keys(c)) keys.add(k);
-  return [...keys];
 }
 
 /** A where() match names conditions some sweep has, and ranges hold only min and max. */

@@ -6,7 +6,7 @@
  */
 import { PARALLEL_MIN_SAMPLES, sharedBytes, threads } from '../parallel/pool';
 import { noCorrection } from '../parallel/kernels';
-import type { DeferredSamples } from './SweepSet';
+import type { DeferredSamples } from '../verbs/types';
 
 /** A Float32Array of n samples, on shared memory when worker threads may fill or read it. */
 export function float32Samples(n: number): Float32Array {

@@ -2,7 +2,8 @@
  * Stimulus-artifact removal. The artifact is not data (common practice, no source):
  * each method estimates it and removes it, leaving the neural response.
  */
-import { deferredOf, type SweepSet, type Conditions, type ConditionValue } from '../sweeps/SweepSet';
+import type { SweepSet, Conditions, ConditionValue } from '../sweeps/SweepSet';
+import type { SampleView, VerbInput, VerbOutput } from './types';
 import { OptionError, AnalysisError } from '../errors';
 import { checkKeys, finite, oneOf, windowMs } from '../validate';
 import { windowIndices } from './baseline';
@@ -45,7 +46,7 @@ export const artifactDefaults = {
 
 export { bridgeGap } from '../signal/bridge';
 
-function groupKeys(set: SweepSet, keys: string[]): Map<string, number[]> {
+function groupKeys(set: SampleView, keys: string[]): Map<string, number[]> {
   const g = new Map<string, number[]>();
   set.conditions.forEach((c, i) => {
     const id = JSON.stringify(keys.map((k) => c[k] ?? null));
@@ -81,7 +82,13 @@ function checkArtifactKeys(options: ArtifactOptions, method: ArtifactMethod): vo
   }
 }
 
+/** The same as `set.removeArtifact(options)`. */
 export function removeArtifact(set: SweepSet, options: ArtifactOptions): SweepSet {
+  return set.removeArtifact(options);
+}
+
+/** The removeArtifact verb on samples (SweepSet.removeArtifact). */
+export function removeArtifactSamples(set: VerbInput, options: ArtifactOptions): VerbOutput {
   if (options === null || typeof options !== 'object')
     throw new OptionError(
       'removeArtifact needs options { method } ("blank", "template", "exponential" or "alternate")',
@@ -96,7 +103,7 @@ export function removeArtifact(set: SweepSet, options: ArtifactOptions): SweepSe
   if (method === 'blank') {
     // left pending (a few samples per sweep): bridged as each sweep is next read, after
     // any pending baseline or template correction, as the eager order would do it
-    const pending = deferredOf(set);
+    const pending = set.pending;
     const prior = pending && !pending.correction.bridge ? pending.correction : null;
     const base = prior ? pending!.base : set.data;
     const correction = {
@@ -106,10 +113,10 @@ export function removeArtifact(set: SweepSet, options: ArtifactOptions): SweepSe
       bridgeTo: b,
       bridgeHermite: bridge === 'hermite',
     };
-    return set.create({
+    return {
       data: { base, correction },
       step: { verb: 'removeArtifact', options: { method, window, bridge } },
-    });
+    };
   }
   if (method === 'exponential') {
     const tail = windowMs('tailWindow', options.tailWindow ?? [window[1], window[1] + 0.4]);
@@ -128,11 +135,11 @@ export function removeArtifact(set: SweepSet, options: ArtifactOptions): SweepSe
       for (let i = a; i < n; i++) x[i] -= fit.A * Math.exp(-((i - ta) * 1000) / set.fs / fit.tauMs);
       bridgeGap(x, a, b, bridge);
     }
-    return set.create({
+    return {
       data: out,
       extras: { artifactTauMs: taus },
       step: { verb: 'removeArtifact', options: { method, window, bridge, tailWindow: tail } },
-    });
+    };
   }
   // template
   const scaling = oneOf('scaling', options.scaling ?? artifactDefaults.scaling, ['fit', 'intensity'] as const);
@@ -160,7 +167,7 @@ export function removeArtifact(set: SweepSet, options: ArtifactOptions): SweepSe
     options.templateBy ?? ['preparation', 'site', 'distanceMm'].filter((k) => set.conditions.some((c) => k in c));
   const groups = groupKeys(set, keys);
   // a pending baseline is applied on the fly; the subtraction is left pending too
-  const pending = deferredOf(set);
+  const pending = set.pending;
   const prior = pending && !pending.correction.template && !pending.correction.bridge ? pending.correction : null;
   const base = prior ? pending!.base : set.data;
   const corrected = (i: number, dst: Float64Array, i0 = 0, i1 = n): Float64Array => {
@@ -230,7 +237,7 @@ export function removeArtifact(set: SweepSet, options: ArtifactOptions): SweepSe
     group: shareCopy(groupOf),
     templates: shareCopy(templates),
   };
-  return set.create({
+  return {
     data: { base, correction },
     extras: { templateSweeps: used },
     step: {
@@ -245,7 +252,7 @@ export function removeArtifact(set: SweepSet, options: ArtifactOptions): SweepSe
         templateSweeps: options.templateSweeps ?? null,
       },
     },
-  });
+  };
 }
 
 /**
@@ -307,7 +314,7 @@ export function fitExpTail(
 const PAIR_IGNORE = new Set(['polarity', 'repeat', 'acquiredS', 'fileSweep', 'label', 'file']);
 
 /** Average each +1 polarity sweep with its -1 partner of the same conditions (k-th with k-th). */
-function alternate(set: SweepSet): SweepSet {
+function alternate(set: SampleView): VerbOutput {
   const pol = set.column('polarity');
   pol.forEach((p, i) => {
     if (p !== 1 && p !== -1)
@@ -345,12 +352,12 @@ function alternate(set: SweepSet): SweepSet {
     const c: Record<string, ConditionValue> = { ...set.conditions[p], polarity: null, count: 2 };
     return c;
   });
-  return set.create({
+  return {
     data: out,
     nSweeps: pairs.length,
     conditions: conds,
     step: { verb: 'removeArtifact', options: { method: 'alternate' } },
-  });
+  };
 }
 
 export interface StimulusDetection {
@@ -366,7 +373,7 @@ export interface StimulusDetection {
  * Find the stimulus time from the artifact: in each sweep, the first sample whose
  * step from the previous sample exceeds half the largest step in the search window.
  */
-export function detectStimulus(set: SweepSet, options: { search?: [number, number] } = {}): StimulusDetection {
+export function detectStimulus(set: SampleView, options: { search?: [number, number] } = {}): StimulusDetection {
   checkKeys('detectStimulus options', options, ['search']);
   const search = windowMs('search', options.search ?? [set.t0Ms, set.timeAt(set.nSamples - 1)]);
   const [a, b] = windowIndices(set, search, 'search');
@@ -394,13 +401,18 @@ export function detectStimulus(set: SweepSet, options: { search?: [number, numbe
 
 /** Shift the time axis so the detected stimulus (median over sweeps) is at 0 ms; the detection is kept in extras. */
 export function alignStimulus(set: SweepSet, options: { search?: [number, number] } = {}): SweepSet {
+  return set.alignStimulus(options);
+}
+
+/** The alignStimulus verb on samples (SweepSet.alignStimulus). */
+export function alignStimulusSamples(set: SampleView, options: { search?: [number, number] } = {}): VerbOutput {
   const d = detectStimulus(set, options);
-  return set.create({
+  return {
     t0Ms: set.t0Ms - d.timeMs,
     extras: { ...set.extras, stimulusDetection: d },
     step: {
       verb: 'alignStimulus',
       options: { search: options.search ?? null, detectedMs: d.timeMs, spreadMs: d.spreadMs },
     },
-  });
+  };
 }

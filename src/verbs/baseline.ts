@@ -1,4 +1,5 @@
-import { deferredOf, type SweepSet } from '../sweeps/SweepSet';
+import type { SweepSet } from '../sweeps/SweepSet';
+import type { TimeBase, VerbInput, VerbOutput } from './types';
 import { OptionError } from '../errors';
 import { checkKeys, oneOf, windowMs } from '../validate';
 import { shareCopy } from '../parallel/pool';
@@ -40,7 +41,7 @@ function level(
 }
 
 /** Samples indices [a, b] for a window in ms; throws when the window holds no samples. */
-export function windowIndices(set: SweepSet, w: [number, number], name: string): [number, number] {
+export function windowIndices(set: TimeBase, w: [number, number], name: string): [number, number] {
   const a = Math.max(0, Math.ceil(((w[0] - set.t0Ms) * set.fs) / 1000 - 1e-9));
   const b = Math.min(set.nSamples - 1, Math.floor(((w[1] - set.t0Ms) * set.fs) / 1000 + 1e-9));
   if (b < a) {
@@ -53,10 +54,15 @@ export function windowIndices(set: SweepSet, w: [number, number], name: string):
 
 /**
  * Subtract the pre-stimulus level of each sweep (mean or median of a window), with
- * an optional linear detrend to a late quiet window.
- * @example set.baseline({ window: [-2, -0.2] })
+ * an optional linear detrend to a late quiet window (the same as `set.baseline(options)`).
+ * @example baseline(set, { window: [-2, -0.2] })
  */
 export function baseline(set: SweepSet, options: BaselineOptions = {}): SweepSet {
+  return set.baseline(options);
+}
+
+/** The baseline verb on samples: the levels per sweep, left pending as a correction (SweepSet.baseline). */
+export function baselineSamples(set: VerbInput, options: BaselineOptions = {}): VerbOutput {
   checkKeys('baseline options', options, ['window', 'method', 'lateWindow']);
   const method = oneOf('method', options.method ?? baselineDefaults.method, ['mean', 'median'] as const);
   const defaultWindow: [number, number] = [set.t0Ms, -baselineDefaults.stopBeforeStimulusMs];
@@ -76,7 +82,7 @@ export function baseline(set: SweepSet, options: BaselineOptions = {}): SweepSet
   const n = set.nSamples;
   // samples kept as read (float32, nothing pending) are measured in place: the levels are
   // those of their exact float64 values, and nothing is widened until it is needed
-  const pending = deferredOf(set);
+  const pending = set.pending;
   const asRead = pending && !pending.correction.line && !pending.correction.template && !pending.correction.bridge;
   const x = asRead ? pending!.base : set.data;
   const buf = new Float64Array(n);
@@ -91,8 +97,8 @@ export function baseline(set: SweepSet, options: BaselineOptions = {}): SweepSet
   }
   // the subtraction is left pending: it happens when the samples are next read
   const correction = { ...noCorrection(), line: true, level: shareCopy(level0), slope: shareCopy(slope), center: ca };
-  return set.create({
+  return {
     data: { base: x, correction },
     step: { verb: 'baseline', options: { window: w, method, lateWindow: late } },
-  });
+  };
 }

@@ -1,4 +1,5 @@
 import type { SweepSet } from '../sweeps/SweepSet';
+import type { VerbInput, VerbOutput } from './types';
 import { butter } from '../signal/butter';
 import { defaultPadlen } from '../signal/sosfilt';
 import { applySos } from './filter';
@@ -16,9 +17,14 @@ export const decimateDefaults = { order: 8, cutoffFraction: 0.8 };
 /**
  * Down-sample by an integer factor after a zero-phase Butterworth anti-alias
  * low-pass at 0.8 x the new Nyquist frequency (the rule SciPy's decimate uses for
- * its IIR filter). Keeps samples 0, factor, 2 factor, ...
+ * its IIR filter). Keeps samples 0, factor, 2 factor, ... The same as `set.decimate(options)`.
  */
 export function decimate(set: SweepSet, options: DecimateOptions): SweepSet {
+  return set.decimate(options);
+}
+
+/** The decimate verb on samples (SweepSet.decimate). */
+export function decimateSamples(set: VerbInput, options: DecimateOptions): VerbOutput {
   if (options === null || typeof options !== 'object')
     throw new OptionError('decimate needs options { factor } (an integer 2..64)');
   checkKeys('decimate options', options, ['factor', 'order']);
@@ -31,10 +37,10 @@ export function decimate(set: SweepSet, options: DecimateOptions): SweepSet {
   const m = Math.ceil(n / factor);
   const out = new Float64Array(set.nSweeps * m);
   for (let s = 0; s < set.nSweeps; s++) for (let i = 0; i < m; i++) out[s * m + i] = filtered[s * n + i * factor];
-  return set.create({
+  return {
     data: out,
     nSamples: m,
     fs: set.fs / factor,
     step: { verb: 'decimate', options: { factor, order, cutoffHz: cutoff, zeroPhase: true } },
-  });
+  };
 }

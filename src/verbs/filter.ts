@@ -1,4 +1,5 @@
-import { deferredOf, type SweepSet } from '../sweeps/SweepSet';
+import type { SweepSet } from '../sweeps/SweepSet';
+import type { VerbInput, VerbOutput } from './types';
 import { butter, iirnotch, type BType, type Sos } from '../signal/butter';
 import { defaultPadlen } from '../signal/sosfilt';
 import { runSweeps, sharedSamples } from '../parallel/pool';
@@ -18,13 +19,13 @@ export interface FilterOptions {
 export const filterDefaults = { order: 4 };
 
 /** Apply sos forward and backward to every sweep (zero phase). */
-export function applySos(set: SweepSet, sos: Sos, padlen: number): Float64Array {
+export function applySos(set: VerbInput, sos: Sos, padlen: number): Float64Array {
   const n = set.nSamples;
   if (n <= padlen)
     throw new OptionError(
       `sweeps of ${n} samples are too short for zero-phase filtering; must be longer than padlen = ${padlen} samples`,
     );
-  const d = deferredOf(set);
+  const d = set.pending;
   const x = d ? d.base : set.data;
   const out = sharedSamples(x.length);
   runSweeps(
@@ -39,10 +40,15 @@ export function applySos(set: SweepSet, sos: Sos, padlen: number): Float64Array 
 /**
  * Zero-phase Butterworth filtering of every sweep (forward-backward, odd-extension
  * padding; the same result as SciPy's sosfiltfilt). The effective order is twice
- * `order` and the gain at the cutoff is -6 dB (each pass is -3 dB).
- * @example set.filter({ btype: 'lowpass', cutoff: 5000, order: 4 })
+ * `order` and the gain at the cutoff is -6 dB (each pass is -3 dB). The same as `set.filter(options)`.
+ * @example filter(set, { btype: 'lowpass', cutoff: 5000, order: 4 })
  */
 export function filter(set: SweepSet, options: FilterOptions): SweepSet {
+  return set.filter(options);
+}
+
+/** The filter verb on samples (SweepSet.filter). */
+export function filterSamples(set: VerbInput, options: FilterOptions): VerbOutput {
   if (options === null || typeof options !== 'object')
     throw new OptionError(
       'filter needs options { btype, cutoff } (btype "lowpass", "highpass", "bandpass" or "bandstop"; cutoff in Hz)',
@@ -54,13 +60,13 @@ export function filter(set: SweepSet, options: FilterOptions): SweepSet {
   const padlen =
     options.padlen === undefined ? defaultPadlen(sos) : integerIn('padlen', options.padlen, 0, set.nSamples - 1);
   const data = applySos(set, sos, padlen);
-  return set.create({
+  return {
     data,
     step: {
       verb: 'filter',
       options: { btype, cutoff: options.cutoff, order, padlen, design: 'butterworth', zeroPhase: true },
     },
-  });
+  };
 }
 
 export interface NotchOptions {
@@ -71,15 +77,23 @@ export interface NotchOptions {
 }
 export const notchDefaults = { frequency: 50, Q: 30 };
 
-/** Zero-phase IIR notch (second order) on every sweep. Rings around fast transients; prefer removeHum for CAPs. */
+/**
+ * Zero-phase IIR notch (second order) on every sweep (the same as `set.notch(options)`). Rings around fast
+ * transients; prefer removeHum for CAPs.
+ */
 export function notch(set: SweepSet, options: NotchOptions = {}): SweepSet {
+  return set.notch(options);
+}
+
+/** The notch verb on samples (SweepSet.notch). */
+export function notchSamples(set: VerbInput, options: NotchOptions = {}): VerbOutput {
   checkKeys('notch options', options, ['frequency', 'Q']);
   const frequency = positive('frequency', options.frequency ?? notchDefaults.frequency, 'Hz');
   const Q = positive('Q', options.Q ?? notchDefaults.Q);
   const sos = iirnotch(frequency, Q, set.fs);
   const padlen = defaultPadlen(sos);
-  return set.create({
+  return {
     data: applySos(set, sos, padlen),
     step: { verb: 'notch', options: { frequency, Q, padlen, zeroPhase: true } },
-  });
+  };
 }

@@ -1,5 +1,6 @@
 import { runSweeps, shareCopy, sharedSamples } from '../parallel/pool';
 import type { SweepSet } from '../sweeps/SweepSet';
+import type { SampleView, VerbOutput } from './types';
 import { AnalysisError, OptionError } from '../errors';
 import { sineConditioning, sineDesign } from '../signal/sinefit';
 import { checkKeys, integerIn, shown } from '../validate';
@@ -59,6 +60,11 @@ function checkConditioning(
  * @example set.removeHum({ frequency: 50, harmonics: 3, exclude: [[0, 8]] })
  */
 export function removeHum(set: SweepSet, options: HumOptions = {}): SweepSet {
+  return set.removeHum(options);
+}
+
+/** The removeHum verb on samples (SweepSet.removeHum). */
+export function removeHumSamples(set: SampleView, options: HumOptions = {}): VerbOutput {
   checkKeys('removeHum options', options, ['frequency', 'harmonics', 'exclude']);
   const harmonics = integerIn('harmonics', options.harmonics ?? humDefaults.harmonics, 1, 20);
   const exclude = options.exclude ?? humDefaults.exclude;
@@ -150,12 +156,12 @@ export function removeHum(set: SweepSet, options: HumOptions = {}): SweepSet {
   };
   runSweeps('removeSines', { x, out, d: shared, amp }, set.nSweeps, x.length);
   const amplitudes = Array.from(amp);
-  return set.create({
+  return {
     data: out,
     extras: { humFrequencyHz: f, humAmplitude: amplitudes },
     step: {
       verb: 'removeHum',
       options: { frequency: freqOpt, fittedFrequencyHz: Number(f.toFixed(4)), harmonics, exclude },
     },
-  });
+  };
 }

@@ -1,4 +1,5 @@
 import type { SweepSet } from '../sweeps/SweepSet';
+import type { SampleView, VerbOutput } from './types';
 import { polyphaseDesign, rationalRatio, resampledLength } from '../signal/resample';
 import { OptionError } from '../errors';
 import { checkKeys, oneOf, positive } from '../validate';
@@ -22,10 +23,15 @@ export const resampleDefaults = { padtype: 'constant' as const, beta: 5, maxFact
  * Change the sample rate by a rational factor up/down with a polyphase
  * Kaiser-windowed FIR anti-alias filter (the method and defaults of SciPy's
  * resample_poly; zero phase: output sample k lies at input time k down/up, so the
- * time of the first sample is kept).
- * @example set.resample({ fs: 20000 })
+ * time of the first sample is kept). The same as `set.resample(options)`.
+ * @example resample(set, { fs: 20000 })
  */
 export function resample(set: SweepSet, options: ResampleOptions): SweepSet {
+  return set.resample(options);
+}
+
+/** The resample verb on samples (SweepSet.resample). */
+export function resampleSamples(set: SampleView, options: ResampleOptions): VerbOutput {
   if (!options || typeof options !== 'object')
     throw new OptionError('resample needs options { fs } (new sample rate, Hz)');
   checkKeys('resample options', options, ['fs', 'padtype', 'beta']);
@@ -39,7 +45,7 @@ export function resample(set: SweepSet, options: ResampleOptions): SweepSet {
   if (typeof beta !== 'number' || !(beta >= 0 && beta <= 40))
     throw new OptionError(`invalid beta: ${beta}; must be a number from 0 to 40`);
   const { up, down } = rationalRatio(set.fs, fsOut, resampleDefaults.maxFactor);
-  if (up === down) return set.create({ step: { verb: 'resample', options: { fs: fsOut, up, down, padtype, beta } } });
+  if (up === down) return { step: { verb: 'resample', options: { fs: fsOut, up, down, padtype, beta } } };
   const { h, preRemove } = polyphaseDesign(up, down, beta);
   const n = set.nSamples;
   const m = resampledLength(n, up, down);
@@ -57,7 +63,7 @@ export function resample(set: SweepSet, options: ResampleOptions): SweepSet {
     set.nSweeps,
     x.length * Math.max(1, h.length / up / 8),
   );
-  return set.create({
+  return {
     data: out,
     nSamples: m,
     fs: (set.fs * up) / down,
@@ -65,5 +71,5 @@ export function resample(set: SweepSet, options: ResampleOptions): SweepSet {
       verb: 'resample',
       options: { fs: fsOut, up, down, padtype, beta, taps: h.length, cutoffHz: Math.min(set.fs, fsOut) / 2 },
     },
-  });
+  };
 }
