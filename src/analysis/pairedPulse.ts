@@ -282,6 +282,68 @@ export function registerRecoveryFigure(f: (r: PairedPulseResult) => Figure): voi
 
 const num = (v: unknown): v is number => typeof v === 'number' && Number.isFinite(v);
 
+/** Span after a slower class's boundary over which a faster class still falling shows the split is no trough, ms. */
+export const SPLIT_CHECK_MS = 0.1;
+
+/**
+ * Test responses whose split from the faster class lies on that class's falling edge are 'not measured'. When a
+ * slower class's test response is smaller than the faster class's tail where its window opens (at short intervals
+ * the slower class's response is small and the faster one's slowed tail runs into its window), the trough search
+ * takes the window's first sample as the slower class's peak, and the class is measured above a line from the
+ * faster class's tail: a wrong, often negative, area. Detected here, per trace: the trace (in the faster class's
+ * polarity) still falls by more than 3 x noise over the SPLIT_CHECK_MS after the boundary (common practice, no
+ * source: a boundary between two responses lies where the signal stops falling).
+ */
+export function splitOnFallingEdge<R extends Record<string, ConditionValue | undefined>>(
+  rows: R[],
+  traces: readonly Float64Array[],
+  set: { fs: number; t0Ms: number },
+  units: string,
+): R[] {
+  const dt = 1000 / set.fs;
+  const at = (y: Float64Array, t: number) => y[Math.min(y.length - 1, Math.max(0, Math.round((t - set.t0Ms) / dt)))];
+  return rows.map((r, i) => {
+    const prev = rows[i - 1];
+    if (
+      !prev ||
+      prev.sweep !== r.sweep ||
+      r.status !== 'measured' ||
+      !num(r.window_start_ms) ||
+      !num(r.noise_uV ?? r[`noise_${units}`])
+    )
+      return r;
+    const y = traces[r.sweep as number];
+    const p = prev.polarity === -1 ? -1 : 1;
+    const t = r.window_start_ms as number;
+    const drop = p * (at(y, t) - at(y, t + SPLIT_CHECK_MS));
+    const noise = (r[`noise_${units}`] ?? r.noise_uV) as number;
+    if (!(drop > 3 * noise)) return r;
+    return {
+      ...r,
+      status: 'not measured',
+      reason:
+        `its split from ${prev.class} at ${t.toFixed(3)} ms lies on ${prev.class}'s falling edge (the trace falls ` +
+        `${drop.toPrecision(3)} ${units} more in the next ${SPLIT_CHECK_MS} ms, noise ${noise.toPrecision(3)} ${units}): ` +
+        "no trough separates the two test responses, so this class's part cannot be measured",
+    };
+  });
+}
+
+/** Conditions that describe the animal, carried into the rows when constant over a curve's sweeps (for groups). */
+export const CARRIED_CONDITIONS = ['group', 'animal'];
+
+/** The CARRIED_CONDITIONS (not in `by`) that have one value over the sweeps `idx`. */
+export function carried(set: SweepSet, idx: readonly number[], by: readonly string[]): Row {
+  const out: Row = {};
+  for (const k of CARRIED_CONDITIONS) {
+    if (by.includes(k)) continue;
+    const v = set.conditions[idx[0]][k];
+    if (v === undefined || v === null) continue;
+    if (idx.every((i) => set.conditions[i][k] === v)) out[k] = v;
+  }
+  return out;
+}
+
 /**
  * Paired-pulse recovery per class and group (module comment). Throws AnalysisError when the set has no paired or no
  * test-alone sweeps, naming the condition it looked for.
@@ -330,7 +392,10 @@ export function pairedPulse(set: SweepSet, options: PairedPulseOptions = {}): Pa
   const latCol = o.latency,
     measCol = o.measure === 'area' ? `area_${u}_ms` : `amplitude_${u}`;
   for (const [, idx] of groups) {
-    const head: Row = Object.fromEntries(by.map((k) => [k, set.conditions[idx[0]][k] ?? null]));
+    const head: Row = {
+      ...Object.fromEntries(by.map((k) => [k, set.conditions[idx[0]][k] ?? null])),
+      ...carried(set, idx, by),
+    };
     const test = idx.filter((i) => role(i) === 'test-alone'),
       cond = idx.filter((i) => role(i) === 'conditioning-alone');
     const isis = [
@@ -391,7 +456,7 @@ export function pairedPulse(set: SweepSet, options: PairedPulseOptions = {}): Pa
     // average alone, so that differences at short intervals cannot flip it
     const copt = o.components ?? {};
     const polarity = copt.polarity ?? measureComponents(locked.select([0]), copt).resolved.polarities;
-    const { rows } = measureComponents(locked, { ...copt, polarity });
+    const rows = splitOnFallingEdge(measureComponents(locked, { ...copt, polarity }).rows, traces, set, u);
     const classes = [...new Set(rows.map((r) => r.class))];
     // spans of the classes' test-alone responses (= the conditioning responses), ms from their stimulus
     const spans = rows

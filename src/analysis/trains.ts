@@ -21,7 +21,7 @@ import { checkKeys } from '../validate';
 import { toFrame } from '../report/frame';
 import { tableHtml, tableText } from '../notebook/html';
 import { VERSION } from '../version';
-import { meanSweeps, lockToStimulus } from './pairedPulse';
+import { meanSweeps, lockToStimulus, carried } from './pairedPulse';
 import type { Figure } from '../plot/figure';
 
 type Row = Record<string, ConditionValue>;
@@ -144,7 +144,7 @@ export function trains(set: SweepSet, options: TrainOptions = {}): TrainResult {
     const c0 = set.conditions[idx[0]];
     const hz = c0[o.frequencyKey] as number,
       n = c0[o.pulsesKey] as number;
-    const head: Row = Object.fromEntries(by.map((k) => [k, c0[k] ?? null]));
+    const head: Row = { ...Object.fromEntries(by.map((k) => [k, c0[k] ?? null])), ...carried(set, idx, by) };
     const period = 1000 / hz;
     const mean = meanSweeps(set, idx);
     const lastIndex = Math.round(((n - 1) * period - set.t0Ms) / dt);

@@ -1,7 +1,9 @@
 import { describe, it, expect } from 'vitest';
 import { rodentSciatic, drawFibers } from '../../src/model/nerve';
 import { simulatePairedPulse, pairedPulseTruth } from '../../src/model/pulses';
-import { pairedPulse, fitRecovery, recoveryLogistic } from '../../src/analysis/pairedPulse';
+import { readFileSync } from 'node:fs';
+import { join } from 'node:path';
+import { pairedPulse, fitRecovery, recoveryLogistic, splitOnFallingEdge } from '../../src/analysis/pairedPulse';
 import { recoveryFigure } from '../../src/plot/recovery';
 
 describe('fitRecovery (analytic)', () => {
@@ -71,6 +73,48 @@ describe('pairedPulse(set) on forward-model data', () => {
       expect(s.r50_ci95_high as number).toBeGreaterThan(s.r50_ms as number);
     });
   }
+  // A-delta, a small response on A-alpha/beta's tail at short intervals: the trough search of measure/components.ts
+  // takes the first sample of A-delta's window (on A-alpha/beta's falling edge) as its peak when A-delta's test
+  // response is smaller than that tail, and measures it above a line from the tail (an area fraction of -1.1 at 1 ms
+  // before the guard). Expected to fail until that search starts after the faster class's falling edge (exact
+  // change: the study-design engineer's report); it.fails turns into a failure the day it passes.
+  it.fails('A-delta: absolute refractory period within 0.1 ms, 50% recovery interval within 10% (not yet)', () => {
+    const t = truth.find((q) => q.name === 'A-delta')!;
+    const s = r.summary.find((q) => q.class === 'A-delta')!;
+    console.log('A-delta ARP', s.arp_ms, '-', s.arp_next_ms, 'vs', t.arpMs, '; R50', s.r50_ms, 'vs', t.r50Ms, s.status);
+    expect(Math.abs((s.arp_ms as number) - t.arpMs!)).toBeLessThanOrEqual(0.1);
+    expect(Math.abs((s.r50_ms as number) - t.r50Ms!) / t.r50Ms!).toBeLessThan(0.1);
+  });
+  it("A-delta: a test response split on A-alpha/beta's falling edge is not measured (with the reason), never a wrong number", () => {
+    const t = truth.find((q) => q.name === 'A-delta')!;
+    const pts = r.points.filter((p) => p.class === 'A-delta');
+    for (const p of pts) {
+      const c = t.curve.find((q) => q.intervalMs === p.interval_ms)!;
+      if (p.status === 'measured')
+        expect(Math.abs((p.area_fraction as number) - c.areaFraction), `${p.interval_ms} ms`).toBeLessThan(0.15);
+      if (/falling edge/.test(String(p.reason))) {
+        expect(p.status).toBe('not measured');
+        expect(p.area_fraction).toBeNull();
+      }
+    }
+    // the guard itself, on a trace made for it: a response falling through the boundary
+    const fs = 50000,
+      t0Ms = -1;
+    const y = Float64Array.from(
+      { length: 400 },
+      (_, i) => 500 * Math.exp(-(((i / fs) * 1000 + t0Ms - 0.4) ** 2) / 0.02),
+    );
+    const rows = [
+      { sweep: 0, class: 'fast', status: 'measured', polarity: 1, window_start_ms: 0.1, noise_uV: 5 },
+      { sweep: 0, class: 'slow', status: 'measured', polarity: 1, window_start_ms: 0.5, noise_uV: 5 },
+    ];
+    const out = splitOnFallingEdge(rows, [y], { fs, t0Ms }, 'uV');
+    expect(out[0]).toBe(rows[0]);
+    expect(out[1].status).toBe('not measured');
+    expect(String(out[1].reason)).toMatch(/split from fast at 0\.500 ms lies on fast's falling edge/);
+    const late = splitOnFallingEdge([rows[0], { ...rows[1], window_start_ms: 1.2 }], [y], { fs, t0Ms }, 'uV');
+    expect(late[1].status).toBe('measured'); // the fast response is over there
+  });
   it("refractory slowing: the centroid-latency increase at the shortest interval with a response is the truth's within 25%", () => {
     const rc2 = pairedPulse(set, { latency: 'centroid_ms' });
     for (const name of ['A-alpha/beta', 'C']) {
@@ -93,7 +137,20 @@ describe('pairedPulse(set) on forward-model data', () => {
     expect(Object.keys(r.tables())).toEqual(['paired_pulse', 'paired_pulse_summary']);
     expect(r.toString()).toContain('arp_ms');
     expect(recoveryFigure(r).spec.data.length).toBeGreaterThan(3);
+    // figure() is the plot module's builder, registered when that module loads (no analysis-to-plot import)
+    expect(r.figure().spec).toEqual(recoveryFigure(r).spec);
+    for (const f of ['pairedPulse.ts', 'trains.ts']) {
+      const src = readFileSync(join(__dirname, '..', '..', 'src', 'analysis', f), 'utf8');
+      expect(src, f).not.toMatch(/require\(['"]\.\.\/plot|^import (?!type)[^;]*from '\.\.\/plot/m);
+    }
     expect(r.history[r.history.length - 1].verb).toBe('pairedPulse');
+  });
+  it('rows carry the animal conditions (group, animal) that are constant over a curve, for group statistics', () => {
+    const g = set.create({ conditions: set.conditions.map((c) => ({ ...c, preparation: 'R7', group: 'sham' })) });
+    const q = pairedPulse(g);
+    expect(q.summary.every((x) => x.group === 'sham')).toBe(true);
+    expect(q.points.every((x) => x.group === 'sham')).toBe(true);
+    expect(r.summary.some((x) => 'group' in x)).toBe(false);
   });
   it('without conditioning-alone sweeps the conditioning response is extrapolated and said so', () => {
     const noCond = set.where((c) => c.pulsePair !== 'conditioning-alone');
