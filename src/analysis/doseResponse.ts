@@ -32,7 +32,10 @@ import { tableHtml, tableText } from '../notebook/html';
 import { VERSION } from '../version';
 
 export interface DoseResponseOptions {
-  /** column measured (default: the amplitude column of the table) */
+  /**
+   * column measured (default: amplitude_fit_<units>, the least-squares amplitude against the class's unblocked
+   * waveform, when the rows have it; otherwise the peak amplitude column)
+   */
   measure?: string;
   /** sweeps at the end of each epoch averaged for the steady state (default 3) */
   lastN?: number;
@@ -185,7 +188,10 @@ export function doseResponse(
   if (runDown !== 'none' && runDown !== 'washout' && runDown !== 'vehicle')
     throw new OptionError(`invalid runDown: ${JSON.stringify(runDown)}; must be "none", "washout" or "vehicle"`);
   const fixBottom = options.fixBottom === undefined ? doseResponseDefaults.fixBottom : options.fixBottom;
-  const measure = options.measure ?? `amplitude_${units}`;
+  // default: the least-squares amplitude against the class's unblocked waveform (components: amplitude_fit_<units>,
+  // not inflated by noise when the response is small), else the peak amplitude
+  const fitCol = `amplitude_fit_${units}`;
+  const measure = options.measure ?? (rows.some((r) => typeof r[fitCol] === 'number') ? fitCol : `amplitude_${units}`);
   const poolSites = options.poolSites ?? doseResponseDefaults.poolSites;
   const minConc = options.minConcentrations ?? doseResponseDefaults.minConcentrations;
   if (!Number.isInteger(minConc) || minConc < 2)

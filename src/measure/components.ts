@@ -30,7 +30,14 @@
 import type { SweepSet, ConditionValue } from '../sweeps/SweepSet';
 import { OptionError, AnalysisError } from '../errors';
 import { resolvePreset, scaledRange, type ClassPreset, type FiberClass } from './classes';
-import { measureResponse, noiseMad, ownLatencies, type ResponseMeasure, type OwnLatencies } from './response';
+import {
+  measureResponse,
+  noiseMad,
+  ownLatencies,
+  gaussianSmooth,
+  type ResponseMeasure,
+  type OwnLatencies,
+} from './response';
 import { fitSharedShape, decomposeTrace, valleyBin, type DecomposeGrid, type SharedShape } from './decompose';
 import { normQuantile } from '../fit/dist';
 import { windowIndices } from '../verbs/baseline';
@@ -567,19 +574,40 @@ export function measureComponents(
       const c = classes[ci];
       const p = polarities[c.name];
       // y holds the class's own component over [a, b] in recorded sign (y[i - a])
-      const yc = Float64Array.from(y, (v) => p * v);
+      // smoothing matched to the class's own width and noise: a zero-phase Gaussian with sigma just large enough to
+      // bring white noise to 2% of the peak (noise / sqrt(2 sqrt(pi) sigma)), but at most a twentieth of the span
+      // above centroidFraction of the peak (first pass on the unsmoothed component); the noise level for detection is
+      // that of the quiet window smoothed alike (common practice, no source: a wide slow wave is judged against
+      // the noise at its own time scale, and its latencies are not moved by sample-to-sample noise)
+      // (classes split by the velocity decomposition are not smoothed: a shoulder on the faster class's residual
+      // sits on a slope, where a kernel would move its peak)
+      const smoothOk = sep === 'window';
+      const y0 = Float64Array.from(y, (v) => p * v);
+      const first = ownLatencies(y0, peakFrom, peakTo, onsetFraction, centroidFraction, 0, y0.length - 1);
+      const sigma =
+        first.centroidFrom !== null && first.centroidTo !== null && first.peak > 0
+          ? Math.min(
+              (first.centroidTo - first.centroidFrom) / 20,
+              (noise / (0.02 * first.peak)) ** 2 / (2 * Math.sqrt(Math.PI)),
+            )
+          : 0;
+      const yc = smoothOk && sigma >= 0.5 ? gaussianSmooth(y0, sigma) : y0;
+      const noiseS =
+        smoothOk && sigma >= 0.5
+          ? noiseMad(gaussianSmooth(Array.prototype.slice.call(x, na, nb + 1), sigma), 0, nb - na)
+          : noise;
       const lat: OwnLatencies = ownLatencies(yc, peakFrom, peakTo, onsetFraction, centroidFraction, 0, yc.length - 1);
       const N = peakTo - peakFrom + 1;
       const kEff = Math.max(k, normQuantile(1 - 0.01 / N));
       const ip = Math.round(lat.peakIndex);
       const sm = ip > 0 && ip < yc.length - 1 ? (yc[ip - 1] + yc[ip] + yc[ip + 1]) / 3 : yc[ip];
-      const above = sm > kEff * noise;
+      const above = sm > kEff * noiseS;
       let status = status0 ?? (above ? 'measured' : 'not detected');
       let reason =
         reason0 ??
         (above
           ? null
-          : `peak ${sm.toPrecision(3)} ${u} is below max(k, z) x noise = ${(kEff * noise).toPrecision(3)} ${u}`);
+          : `peak ${sm.toPrecision(3)} ${u} is below max(k, z) x noise = ${(kEff * noiseS).toPrecision(3)} ${u}`);
       // a peak on the first or last sample of the class's part is still its own when it is a local maximum of the
       // whole sweep (the neighbouring class then sees a falling edge there): a peak on a boundary counts once
       let localMax = lat.localMax;
@@ -637,7 +665,7 @@ export function measureComponents(
         centroid_from_ms: t(lat.centroidFrom),
         centroid_to_ms: t(lat.centroidTo),
         onset_knoise_ms: ok && old.onsetIndex > 0 ? tAt(a + old.onsetIndex) : null,
-        [`amplitude_${u}`]: ok ? lat.peak : null,
+        [`amplitude_${u}`]: ok ? first.peak : null,
         [`peak_to_peak_${u}`]: ok ? old.peakToPeak : null,
         half_width_ms:
           ok && lat.halfRiseIndex !== null && lat.halfFallIndex !== null
@@ -752,6 +780,40 @@ export function measureComponents(
       const endLevel = floor !== 0 && p * smooth[b] > 0 ? smooth[b] : 0;
       for (let i = a; i <= b; i++)
         y[i - a] = x[i] - (floor !== 0 ? floor + ((endLevel - floor) * (i - a)) / Math.max(1, b - a) : 0);
+      // a class whose window overlaps no other class's is measured above its own local baseline: the mean level of
+      // the flank before it (as long as half its span above centroidFraction of its peak, ending a tenth of that
+      // span before it, and quiet: its spread within twice the noise), where it has not arrived yet, after the
+      // artifact; an offset left there by drift or by a faster class's slow tail then counts neither as response
+      // nor in the onset level
+      const alone = (ci === 0 || raw[ci - 1].b < raw[ci].a) && (ci === classes.length - 1 || raw[ci].b < raw[ci + 1].a);
+      let localBase: number | null = null;
+      if (alone && floor === 0) {
+        const l0 = ownLatencies(
+          Float64Array.from(y, (v) => p * v),
+          w.a - a,
+          y.length - 1,
+          onsetFraction,
+          centroidFraction,
+          0,
+          y.length - 1,
+        );
+        if (l0.centroidFrom !== null && l0.centroidTo !== null) {
+          const span = l0.centroidTo - l0.centroidFrom;
+          const f1 = Math.floor(l0.centroidFrom - 0.1 * span) - 1,
+            f0 = f1 - Math.max(3, Math.round(0.5 * span)) + 1;
+          if (f0 >= Math.max(0, info[s].polStart - a) && f1 > f0) {
+            let m = 0,
+              v = 0;
+            for (let i = f0; i <= f1; i++) m += y[i] / (f1 - f0 + 1);
+            for (let i = f0; i <= f1; i++) v += (y[i] - m) ** 2 / (f1 - f0 + 1);
+            // only a quiet flank (spread within twice the noise) is a baseline: not a wave or an artifact
+            if (Math.sqrt(v) <= 2 * info[s].noise) {
+              for (let i = 0; i < y.length; i++) y[i] -= m;
+              localBase = m;
+            }
+          }
+        }
+      }
       emit(
         ci,
         y,
@@ -760,12 +822,13 @@ export function measureComponents(
         'window',
         sepReason[ci] ? 'not resolved' : null,
         sepReason[ci],
-        { [`trough_level_${u}`]: floor },
+        { [`trough_level_${u}`]: floor, [`local_baseline_${u}`]: localBase },
         w.a - a,
       );
     }
     measures.push(ms);
   }
+  fittedAmplitudes(rows, measures, classes, polarities, (s) => `${groupKey(s)}|${info[s].L}|${refOf(s) ?? ''}`, u);
   // rows in sweep order, then class order
   const order = new Map(classes.map((c, i) => [c.name, i]));
   rows.sort((r1, r2) => r1.sweep - r2.sweep || order.get(r1.class)! - order.get(r2.class)!);
@@ -793,6 +856,76 @@ export function measureComponents(
       decomposeBy,
     },
   };
+}
+
+/**
+ * Least-squares amplitude (column amplitude_fit_<units>): each measured class component projected on the class's
+ * reference waveform at the same site, a = sum(y r) / sum(r r) over the span around the reference's peak where
+ * it exceeds 10% of that peak, reported as a x the reference's peak (a class alone in its window is already
+ * measured above its own local baseline). The reference is the mean component of the group's unblocked sweeps
+ * (concentration 0 or none) at their highest intensity. Linear in the data, so noise
+ * does not inflate a small response as a picked peak does (the maximum of noise is positive); for a wave that
+ * keeps its shape it equals the peak amplitude (common practice, no source: a matched-filter estimate).
+ */
+function fittedAmplitudes(
+  rows: ComponentRow[],
+  measures: ResponseMeasure[][],
+  classes: FiberClass[],
+  polarities: Record<string, 1 | -1>,
+  siteKey: (s: number) => string,
+  units: string,
+): void {
+  const col = `amplitude_fit_${units}`;
+  const groups = new Map<string, ComponentRow[]>();
+  for (const r of rows) {
+    const k = `${siteKey(r.sweep)}|${r.class}`;
+    (groups.get(k) ?? groups.set(k, []).get(k)!).push(r);
+  }
+  const ciOf = new Map(classes.map((c, i) => [c.name, i]));
+  for (const g of groups.values()) {
+    for (const r of g) r[col] = null;
+    const ci = ciOf.get(g[0].class)!;
+    const p = polarities[g[0].class];
+    const comp = (r: ComponentRow) => measures[r.sweep]?.[ci];
+    const measured = g.filter((r) => r.status === 'measured' && comp(r)?.component);
+    const unblocked = measured.filter((r) => !(typeof r.concentration === 'number' && r.concentration > 0));
+    const top = Math.max(...unblocked.map((r) => (typeof r.intensity === 'number' ? r.intensity : -Infinity)));
+    const ref = unblocked.filter((r) => (typeof r.intensity === 'number' ? r.intensity : -Infinity) === top);
+    if (!ref.length) continue;
+    // the reference on absolute sample indices [lo, hi] common to every measured component of the group
+    let lo = -Infinity,
+      hi = Infinity;
+    for (const r of measured) {
+      const m = comp(r)!;
+      lo = Math.max(lo, m.window[0]);
+      hi = Math.min(hi, m.window[0] + m.component!.length - 1);
+    }
+    if (!(hi > lo + 2)) continue;
+    const at = (r: ComponentRow, i: number) => {
+      const m = comp(r)!;
+      return p * m.component![i - m.window[0]];
+    };
+    const tmpl = Float64Array.from({ length: hi - lo + 1 }, (_, j) => {
+      let v = 0;
+      for (const r of ref) v += at(r, lo + j) / ref.length;
+      return v;
+    });
+    let ip = 0;
+    for (let j = 1; j < tmpl.length; j++) if (tmpl[j] > tmpl[ip]) ip = j;
+    if (!(tmpl[ip] > 0)) continue;
+    let j0 = ip,
+      j1 = ip;
+    while (j0 > 0 && tmpl[j0 - 1] > 0.1 * tmpl[ip]) j0--;
+    while (j1 < tmpl.length - 1 && tmpl[j1 + 1] > 0.1 * tmpl[ip]) j1++;
+    const P = tmpl[ip];
+    let rr = 0;
+    for (let j = j0; j <= j1; j++) rr += tmpl[j] * tmpl[j];
+    for (const r of measured) {
+      let yr = 0;
+      for (let j = j0; j <= j1; j++) yr += at(r, lo + j) * tmpl[j];
+      r[col] = (P * yr) / rr;
+    }
+  }
 }
 
 export function componentStep(r: ResolvedComponentOptions): {

@@ -353,3 +353,25 @@ export function ownLatencies(
     localMax,
   };
 }
+
+/**
+ * Zero-phase Gaussian smoothing: z[i] = sum_j g(j) y[i + j] / sum_j g(j), g(j) = exp(-j^2 / (2 sigma^2)) for
+ * |j| <= 3 sigma, the ends held at the first and last samples (the kernel is symmetric, so a peak's or centroid's
+ * time is not moved for a symmetric wave). O(n sigma). sigma in samples; sigma < 0.5 returns a copy.
+ * @example gaussianSmooth(Float64Array.of(0, 0, 3, 0, 0), 1)[2] // 1.197 (3 / (1 + 2 (e^-0.5 + e^-2 + e^-4.5)))
+ */
+export function gaussianSmooth(y: ArrayLike<number>, sigma: number): Float64Array {
+  const n = y.length;
+  if (!(sigma >= 0.5)) return Float64Array.from(y);
+  const h = Math.ceil(3 * sigma);
+  const g = Float64Array.from({ length: 2 * h + 1 }, (_, j) => Math.exp(-((j - h) ** 2) / (2 * sigma * sigma)));
+  let gs = 0;
+  for (let j = 0; j < g.length; j++) gs += g[j];
+  const z = new Float64Array(n);
+  for (let i = 0; i < n; i++) {
+    let s = 0;
+    for (let j = -h; j <= h; j++) s += g[j + h] * y[Math.min(n - 1, Math.max(0, i + j))];
+    z[i] = s / gs;
+  }
+  return z;
+}
