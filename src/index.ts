@@ -1,3 +1,9 @@
+/**
+ * The public surface of fascicle. Importing it loads every layer, and with them the methods that a higher layer
+ * installs on a lower class (declared by declaration merging in the installing module): SweepSet.components,
+ * qc and rejectFlagged (src/measure/table.ts), SweepSet.toNwb (src/io/nwbWrite.ts), Figure.save
+ * (src/plot/export.ts), and the report layer's part of Result (src/report/result.ts). See .dependency-cruiser.cjs.
+ */
 export * from './errors';
 export { SweepSet, GroupedSweeps } from './sweeps/SweepSet';
 export type { Conditions, ConditionValue, Step, Source, SweepSetInit } from './sweeps/SweepSet';
