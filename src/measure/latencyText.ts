@@ -36,5 +36,16 @@ export function latencyMethodsText(
     r.separation === 'trough'
       ? 'Overlapping classes were split at the trough between their peaks; a class without a peak of its own was reported as not resolved.'
       : 'Overlapping classes recorded at two or more conduction distances were separated by decomposing the responses into a conduction-velocity distribution (non-negative weights) and one single-fiber waveform shared by every distance of a preparation and temperature, fitted by alternating least squares; classes were split at the deepest valley of the velocity distribution between their ranges and each class was measured on its own modelled component. A class without a separate mode was reported as not resolved. With a single distance, classes were split at the trough between their peaks.';
-  return `${sep} Latencies were measured on each class's own component with the same definitions at every distance: ${d.onset}; ${d.halfrise}; ${d.peak}; ${d.centroid}. A class counted as present when its component's peak exceeded max(${r.k}, z) times the noise (z the normal quantile at 1 - 0.01/N for N samples searched); this test decided detection only.`;
+  const own =
+    ' A class whose window overlapped no other class was measured above its own local baseline (the mean of a' +
+    ' quiet flank before it, half as long as its span above the centroid level, kept only when its spread was' +
+    ' within twice the noise), and a class split by its window was smoothed with a zero-phase Gaussian just wide' +
+    ' enough to bring white noise to 2% of its peak (at most a twentieth of that span) before its latencies were' +
+    ' read; its noise level for detection was that of the quiet window smoothed alike.';
+  const fit =
+    " Besides the peak amplitude, each measured component was projected by least squares on its class's reference" +
+    ' waveform at the same site (the mean component of the unblocked sweeps at the highest intensity) over the span' +
+    " above 10% of that waveform's peak (amplitude_fit, the default response of dose-response curves: unlike a" +
+    ' picked peak it is not inflated by noise when the response is small).';
+  return `${sep} Latencies were measured on each class's own component with the same definitions at every distance: ${d.onset}; ${d.halfrise}; ${d.peak}; ${d.centroid}.${own} A class counted as present when its component's peak exceeded max(${r.k}, z) times the noise (z the normal quantile at 1 - 0.01/N for N samples searched); this test decided detection only.${fit}`;
 }
