@@ -20,7 +20,7 @@ export type Samples = Float64Array | Float32Array;
 
 /**
  * A per-sweep correction that baseline and template artifact subtraction leave
- * pending (see DeferredSamples in src/sweeps/SweepSet.ts): a line
+ * pending (see DeferredSamples in src/verbs/types.ts): a line
  * level + slope (i - center) and then scale x the sweep's group template are
  * subtracted. The arithmetic is exactly the verbs' own, so a deferred result equals
  * the eager one bit for bit.
