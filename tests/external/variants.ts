@@ -256,6 +256,12 @@ export interface Variant {
   sites: { mm: number; refMm?: number }[];
   /** windows run (default both) */
   windows?: W[];
+  /**
+   * the distances written in the manifest are the set's times this factor (sites stay in the set's mm): the same
+   * recordings are then those of a nerve whose every fibre conducts this factor faster (arrival x / v, utilisation
+   * and waveforms unchanged in time), so every true velocity is scaled by it and nothing else changes
+   */
+  distanceScale?: number;
 }
 
 export interface VariantRun {
@@ -387,6 +393,13 @@ export function variantChecks(run: VariantRun): VCheck[] {
   const out: VCheck[] = [];
   const push = (c: Check, source: string, asserted = true) => out.push({ ...c, variant: v.name, source, asserted });
   const res = (w: W, series: string) => run.results[`${w}|${series}`];
+  const k = v.distanceScale ?? 1;
+  const vTruth = (...a: Parameters<typeof velocityTruth>) => {
+    const x = velocityTruth(...a);
+    return x === null ? null : x * k;
+  };
+  const mmLabel = (site: { mm: number; refMm?: number }) =>
+    site.refMm === undefined ? `${site.mm * k} mm` : `${site.mm * k}-${site.refMm * k} mm bipolar`;
   for (const w of v.windows ?? (['fast', 'slow'] as W[])) {
     const tol = w === 'slow' ? 5 : 3;
     const temp = res(w, 'temperature');
@@ -398,7 +411,7 @@ export function variantChecks(run: VariantRun): VCheck[] {
           // with no recommended row (one site), the single-site peak velocity the temperature analysis then uses
           const rec = at.find((r) => r.recommended) ?? at.find((r) => r.method === 'single-site' && r.basis === 'peak');
           const recTruth = rec
-            ? velocityTruth(cls, T, String(rec.method), String(rec.basis), v.sites, num(rec.distance_mm) ?? undefined)
+            ? vTruth(cls, T, String(rec.method), String(rec.basis), v.sites, (num(rec.distance_mm) ?? 0) / k)
             : null;
           push(
             check(
@@ -424,7 +437,7 @@ export function variantChecks(run: VariantRun): VCheck[] {
                 `${T} C`,
                 'two-site peak',
                 num(tp?.velocity_m_s),
-                truth.velocity[String(T)][cls].two_site.v_peak,
+                truth.velocity[String(T)][cls].two_site.v_peak * k,
                 tol,
                 status(tp),
               ),
@@ -462,7 +475,7 @@ export function variantChecks(run: VariantRun): VCheck[] {
       if (dose) {
         for (const site of v.sites) {
           const r = ((dose.doseResponse?.summary ?? []) as Row[]).find(
-            (q) => q.class === cls && (q.distanceMm === site.mm || q.distanceMm === undefined),
+            (q) => q.class === cls && (q.distanceMm === site.mm * k || q.distanceMm === undefined),
           );
           const tt =
             site.refMm === undefined
@@ -475,7 +488,7 @@ export function variantChecks(run: VariantRun): VCheck[] {
             site.refMm === undefined
               ? 'ground_truth.json fitted_on_clean_peak'
               : 'SciPy Hill fit to the clean bipolar peaks (devset-variants/truth.json)';
-          const where = site.refMm === undefined ? `${site.mm} mm` : `${site.mm}-${site.refMm} mm bipolar`;
+          const where = mmLabel(site);
           push(check('IC50 uM', cls, where, 'Hill fit', num(r?.ic50), tt.ic50_uM, 15, status(r)), src);
           push(check('Hill slope', cls, where, 'Hill fit', num(r?.hill), tt.hill, 15, status(r)), src);
         }
@@ -483,7 +496,7 @@ export function variantChecks(run: VariantRun): VCheck[] {
       const rcr = res(w, 'intensity');
       if (rcr) {
         const site = v.sites[0];
-        const r = ((rcr.recruitment?.rows ?? []) as Row[]).find((q) => q.class === cls && q.distanceMm === site.mm);
+        const r = ((rcr.recruitment?.rows ?? []) as Row[]).find((q) => q.class === cls && q.distanceMm === site.mm * k);
         let tI = truth.recruitmentI50_15mm_mA[cls] as number;
         let src = 'ground_truth.json component_recruitment_15mm I_50%';
         if (site.refMm !== undefined) {
@@ -493,7 +506,7 @@ export function variantChecks(run: VariantRun): VCheck[] {
             vtruth.monopolar_15mm_reproduced.recruitmentI50_mA[cls].i50_mA;
           src = 'ground_truth.json I_50% x bipolar/monopolar ratio of the clean peaks (devset-variants/truth.json)';
         }
-        const where = site.refMm === undefined ? `${site.mm} mm` : `${site.mm}-${site.refMm} mm bipolar`;
+        const where = mmLabel(site);
         push(check('I50 mA', cls, where, 'Boltzmann fit', num(r?.i50), tI, 10, status(r)), src);
       }
     }
