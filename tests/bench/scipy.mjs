@@ -4,7 +4,7 @@
 // after a warm-up, as scipy_pipeline.py times its own. Prints figures, asserts nothing.
 // Run alone: `node --expose-gc tests/bench/scipy.mjs` after `npx tsc -p tsconfig.json`.
 import { existsSync, mkdirSync, readFileSync, writeFileSync } from 'node:fs';
-import { tmpdir } from 'node:os';
+import { cpus, loadavg, tmpdir } from 'node:os';
 import { join, resolve, dirname } from 'node:path';
 import { spawnSync } from 'node:child_process';
 import { createRequire } from 'node:module';
@@ -249,7 +249,9 @@ print(json.dumps(r))
 
 export function runScipyComparison() {
   console.log(
-    '\n== side by side with the SciPy pipeline (../shared/bench: 1,000 x 20,000 float32, 50 conditions; median of 5 per stage, 3 interleaved rounds)',
+    '\n== side by side with the SciPy pipeline (../shared/bench: 1,000 x 20,000 float32, 50 conditions; ' +
+      `median of ${RUNS} per stage, ${ROUNDS} interleaved rounds; load average ${loadavg()[0].toFixed(1)} ` +
+      `on ${cpus().length} cores)`,
   );
   const { dir, why } = benchData();
   if (!dir) {
