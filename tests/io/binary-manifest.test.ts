@@ -355,6 +355,31 @@ describe('readBinary: a native float32 file is kept as read', () => {
     await stopThreads();
     setThreads(threadsAtStart);
   }, 60_000);
+  it('a NaN on either side of a read chunk, at the start of the second thread and at the very end is found', async () => {
+    // sweeps of 40 kB are read 6 at a time (chunks of about 256 kB), the second thread starts at sweep 32
+    for (const [s, i] of [
+      [5, N - 1],
+      [6, 0],
+      [31, N - 1],
+      [32, 0],
+      [S - 1, N - 1],
+    ]) {
+      const x = new Float32Array(S * N).fill(-0.25);
+      x[s * N + i] = NaN;
+      const p = sidecar(
+        { dtype: 'float32', nSweeps: S, nSamples: N, fs: 20000, units: 'uV' },
+        new Uint8Array(x.buffer),
+      );
+      for (const t of [1, 2]) {
+        setThreads(t);
+        expect(() => readBinary(p), `sweep ${s}, sample ${i}, ${t} threads`).toThrow(
+          new RegExp(`sweep ${s}: a non-finite sample \\(NaN\\) at sample ${i};`),
+        );
+      }
+    }
+    await stopThreads();
+    setThreads(threadsAtStart);
+  }, 60_000);
   it('big-endian float32, a gain or an offset, or two channels are converted to float64 as before, equal to the slow reader', () => {
     const f = new Float32Array([0.1, -2.5e-8, 3.4e38, 7, 1e-45, -0.0]);
     const le = new Uint8Array(f.buffer);
