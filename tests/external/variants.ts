@@ -262,6 +262,8 @@ export interface Variant {
    * and waveforms unchanged in time), so every true velocity is scaled by it and nothing else changes
    */
   distanceScale?: number;
+  /** classes taken out of the recordings: they must come out with no number (not detected or not resolved) */
+  absent?: string[];
 }
 
 export interface VariantRun {
@@ -404,6 +406,7 @@ export function variantChecks(run: VariantRun): VCheck[] {
     const tol = w === 'slow' ? 5 : 3;
     const temp = res(w, 'temperature');
     for (const cls of CLASSES_OF[w]) {
+      if (v.absent?.includes(cls)) continue;
       if (temp) {
         const rows = (temp.velocity?.rows ?? []) as unknown as Row[];
         for (const T of TEMPS) {
@@ -531,7 +534,19 @@ export function structuralChecks(run: VariantRun): Structural[] {
     const w = key.split('|')[0] as W;
     const rows = r.components.rows as unknown as Row[];
     // the main phase of every class of the window (components rows, as measured)
-    for (const cls of CLASSES_OF[w]) {
+    for (const cls of v.absent ?? []) {
+      if (!CLASSES_OF[w].includes(cls)) continue;
+      const comp = rows.filter((q) => q.class === cls);
+      const vel = ((r.velocity?.rows ?? []) as unknown as Row[]).filter((q) => q.class === cls);
+      const numbers = comp.filter((q) => q.detected === true).length;
+      const vnum = vel.filter((q) => num(q.velocity_m_s) !== null).length;
+      add(
+        `${key} ${cls} (absent): no detection and no velocity`,
+        comp.length > 0 && numbers === 0 && vnum === 0,
+        `${numbers} of ${comp.length} component rows detected, ${vnum} of ${vel.length} velocity rows with a number`,
+      );
+    }
+    for (const cls of CLASSES_OF[w].filter((c) => !v.absent?.includes(c))) {
       const mine = rows.filter((q) => q.class === cls);
       const pols = [...new Set(mine.map((q) => q.polarity))];
       add(
@@ -550,7 +565,7 @@ export function structuralChecks(run: VariantRun): Structural[] {
     add(`${key}: no analysis failed`, failed.length === 0, failed.map((f) => `${f.analysis}: ${f.reason}`).join('; '));
     if (key.endsWith('temperature')) {
       const vrows = (r.velocity?.rows ?? []) as unknown as Row[];
-      for (const cls of CLASSES_OF[w])
+      for (const cls of CLASSES_OF[w].filter((c) => !v.absent?.includes(c)))
         for (const T of TEMPS) {
           const at = vrows.filter((q) => q.class === cls && q.temperatureC === T);
           // one recommended estimate per class and temperature, or a flag that says why there is none
@@ -581,7 +596,7 @@ export function structuralChecks(run: VariantRun): Structural[] {
       }
     }
     // A-delta detected in every supramaximal sweep (temperature series; dose series before the drug)
-    if (w === 'fast' && (key.endsWith('temperature') || key.endsWith('dose'))) {
+    if (w === 'fast' && !v.absent?.includes('A-delta') && (key.endsWith('temperature') || key.endsWith('dose'))) {
       const ad = rows.filter(
         (q) => q.class === 'A-delta' && (key.endsWith('temperature') || !(num(q.concentration) ?? 0)),
       );
