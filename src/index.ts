@@ -6,6 +6,17 @@
  */
 export * from './errors';
 export { SweepSet, GroupedSweeps } from './sweeps/SweepSet';
+// the verbs as functions of a set (each the same as the SweepSet method of that name)
+export {
+  baseline,
+  removeArtifact,
+  alignStimulus,
+  filter,
+  notch,
+  removeHum,
+  decimate,
+  resample,
+} from './sweeps/SweepSet';
 export type { Conditions, ConditionValue, Step, Source, SweepSetInit } from './sweeps/SweepSet';
 export * from './sweeps/units';
 export { readDelimited, parseDelimited, delimitedDefaults } from './io/delimited';
@@ -20,24 +31,17 @@ export { sosfilt, sosfiltfilt, sosfiltZi, defaultPadlen } from './signal/sosfilt
 export { toFrame } from './report/frame';
 export { VERSION } from './version';
 export { threads, setThreads, workerJobs, stopThreads } from './parallel/pool';
-export { baseline, baselineDefaults } from './verbs/baseline';
+export { baselineDefaults } from './verbs/baseline';
 export type { BaselineOptions } from './verbs/baseline';
-export {
-  removeArtifact,
-  artifactDefaults,
-  detectStimulus,
-  alignStimulus,
-  bridgeGap,
-  fitExpTail,
-} from './verbs/artifact';
+export { artifactDefaults, detectStimulus, bridgeGap, fitExpTail } from './verbs/artifact';
 export type { ArtifactOptions, ArtifactMethod, StimulusDetection } from './verbs/artifact';
-export { filter, notch, filterDefaults, notchDefaults } from './verbs/filter';
+export { filterDefaults, notchDefaults } from './verbs/filter';
 export type { FilterOptions, NotchOptions } from './verbs/filter';
-export { removeHum, humDefaults } from './verbs/hum';
+export { humDefaults } from './verbs/hum';
 export type { HumOptions } from './verbs/hum';
-export { decimate, decimateDefaults } from './verbs/decimate';
+export { decimateDefaults } from './verbs/decimate';
 export type { DecimateOptions } from './verbs/decimate';
-export { resample, resampleDefaults } from './verbs/resample';
+export { resampleDefaults } from './verbs/resample';
 export type { ResampleOptions } from './verbs/resample';
 export { resamplePolyInto, polyphaseDesign, rationalRatio, firwinKaiser, kaiser, besselI0 } from './signal/resample';
 export { PRESETS, resolvePreset, scaledRange, latencyWindow } from './measure/classes';

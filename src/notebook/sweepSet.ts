@@ -3,10 +3,25 @@
  * rate, time span, units, each condition with its levels, source files and the
  * processing history with every option). Every user string is escaped.
  */
-import type { SweepSet } from '../sweeps/SweepSet';
+import type { ConditionValue, Conditions, Source, Step } from '../sweeps/conditions';
 import { conditionKeys } from '../sweeps/conditions';
 import { escapeHtml, formatCell, displayHtml } from './html';
 import { unitText } from '../plot/labels';
+
+/** What the display reads of a SweepSet (a SweepSet is one; the type keeps this module free of SweepSet.ts). */
+export interface SweepSetView {
+  readonly nSweeps: number;
+  readonly nSamples: number;
+  readonly fs: number;
+  readonly t0Ms: number;
+  readonly units: string;
+  readonly conditions: readonly Conditions[];
+  readonly sources: readonly Source[];
+  readonly history: readonly Step[];
+  timeAt(i: number): number;
+  levels(key: string): ConditionValue[];
+  summary(): string;
+}
 
 const fmt = (x: number) => String(Number(x.toPrecision(6)));
 const CELL = 'style="text-align:left;padding:1px 8px 1px 0;vertical-align:top"';
@@ -19,7 +34,7 @@ function optionsText(o: Record<string, unknown>): string {
 }
 
 /** The HTML summary of a set (what `showSweepSet` displays). */
-export function sweepSetHtml(set: SweepSet): string {
+export function sweepSetHtml(set: SweepSetView): string {
   const last = set.timeAt(set.nSamples - 1);
   const head =
     `<b>SweepSet</b>: ${set.nSweeps} sweep${set.nSweeps === 1 ? '' : 's'} × ${set.nSamples} samples at ${fmt(set.fs / 1000)} kHz ` +
@@ -49,6 +64,6 @@ export function sweepSetHtml(set: SweepSet): string {
 }
 
 /** Show a set's HTML summary in a tslab cell (its text summary elsewhere). */
-export function showSweepSet(set: SweepSet): void {
+export function showSweepSet(set: SweepSetView): void {
   displayHtml(sweepSetHtml(set), set.summary());
 }

@@ -27,42 +27,11 @@ import { conditionKeys } from './conditions';
 import { runSweeps, shareCopy, sharedSamples } from '../parallel/pool';
 import { sweepSetHtml, showSweepSet } from '../notebook/sweepSet';
 
+import type { ConditionValue, Conditions, Step, Source } from './conditions';
+
 export type { DeferredSamples } from '../verbs/types';
+export type { ConditionValue, Conditions, Step, Source } from './conditions';
 export { conditionKeys } from './conditions';
-
-/** A condition value: numbers, strings, booleans or null (not recorded). */
-export type ConditionValue = string | number | boolean | null;
-
-/**
- * Conditions of one sweep. Known keys (all optional; any other key is a user column):
- * - `preparation` id of the nerve preparation (animal)
- * - `intensity` stimulus intensity, in `intensityUnit` (e.g. 'mA', 'V')
- * - `pulseWidthMs` stimulus pulse width, ms
- * - `site` recording site label; `distanceMm` conduction distance stimulus-to-recording, mm
- * - `drug`, `concentration`, `concentrationUnit` (e.g. 'uM')
- * - `temperatureC` bath temperature, degrees C
- * - `acquiredS` acquisition time since the start of the experiment, s
- * - `repeat` repeat index; `polarity` stimulus polarity (+1 or -1)
- * - `epoch` a label of the experimental phase ('baseline', 'drug', 'washout', ...)
- * - `file` and `fileSweep` the source file and the sweep index inside it
- */
-export type Conditions = Readonly<Record<string, ConditionValue>>;
-
-/** One step of the history: the verb, its full options (defaults included), and the package version. */
-export interface Step {
-  verb: string;
-  options: Record<string, unknown>;
-  version: string;
-}
-
-/** An input file: its path and SHA-256. */
-export interface Source {
-  path: string;
-  sha256: string;
-  bytes: number;
-  /** for a file read through another (a binary sidecar's data file): that file's path */
-  partOf?: string;
-}
 
 const samples = new WeakMap<SweepSet, Float64Array | DeferredSamples>();
 /** Condition arrays this module froze (with frozen rows): reused as they are. */
@@ -500,6 +469,82 @@ export class SweepSet implements Iterable<Float64Array> {
   [inspect.custom](): string {
     return this.summary();
   }
+}
+
+// The verbs as functions of a set, as the package exports them: each is the same as the method of that name
+// (the verb itself is `<name>Samples` in src/verbs/<file>.ts, a function of the samples and the time base).
+
+/**
+ * Subtract the pre-stimulus level of each sweep (mean or median of a window), with
+ * an optional linear detrend to a late quiet window (the same as `set.baseline(options)`).
+ * @example baseline(set, { window: [-2, -0.2] })
+ */
+export function baseline(set: SweepSet, options: BaselineOptions = {}): SweepSet {
+  return set.baseline(options);
+}
+
+/**
+ * Zero-phase Butterworth filtering of every sweep (forward-backward, odd-extension
+ * padding; the same result as SciPy's sosfiltfilt). The effective order is twice
+ * `order` and the gain at the cutoff is -6 dB (each pass is -3 dB). The same as `set.filter(options)`.
+ * @example filter(set, { btype: 'lowpass', cutoff: 5000, order: 4 })
+ */
+export function filter(set: SweepSet, options: FilterOptions): SweepSet {
+  return set.filter(options);
+}
+
+/**
+ * Zero-phase IIR notch (second order) on every sweep (the same as `set.notch(options)`). Rings around fast
+ * transients; prefer removeHum for CAPs.
+ */
+export function notch(set: SweepSet, options: NotchOptions = {}): SweepSet {
+  return set.notch(options);
+}
+
+/**
+ * Down-sample by an integer factor after a zero-phase Butterworth anti-alias
+ * low-pass at 0.8 x the new Nyquist frequency (the rule SciPy's decimate uses for
+ * its IIR filter). Keeps samples 0, factor, 2 factor, ... The same as `set.decimate(options)`.
+ */
+export function decimate(set: SweepSet, options: DecimateOptions): SweepSet {
+  return set.decimate(options);
+}
+
+/**
+ * Change the sample rate by a rational factor up/down with a polyphase
+ * Kaiser-windowed FIR anti-alias filter (the method and defaults of SciPy's
+ * resample_poly; zero phase: output sample k lies at input time k down/up, so the
+ * time of the first sample is kept). The same as `set.resample(options)`.
+ * @example resample(set, { fs: 20000 })
+ */
+export function resample(set: SweepSet, options: ResampleOptions): SweepSet {
+  return set.resample(options);
+}
+
+/**
+ * Remove mains hum by fitting and subtracting sinusoids at the mains frequency and
+ * its harmonics, per sweep (phase and amplitude free in every sweep). The fit
+ * leaves out the `exclude` ranges. When the frequency is 'detect', 50 and 60 Hz
+ * are compared by the fitted power summed over sweeps, and the winner refined
+ * (golden-section search on the residual, +/-1 Hz).
+ * @example set.removeHum({ frequency: 50, harmonics: 3, exclude: [[0, 8]] })
+ */
+export function removeHum(set: SweepSet, options: HumOptions = {}): SweepSet {
+  return set.removeHum(options);
+}
+
+/**
+ * Remove the stimulus artifact by one of several methods (see ArtifactOptions); the same as
+ * `set.removeArtifact(options)`.
+ * @example removeArtifact(set, { method: 'template', window: [0, 0.4] })
+ */
+export function removeArtifact(set: SweepSet, options: ArtifactOptions): SweepSet {
+  return set.removeArtifact(options);
+}
+
+/** Shift the time axis so the detected stimulus (median over sweeps) is at 0 ms; the detection is kept in extras. */
+export function alignStimulus(set: SweepSet, options: { search?: [number, number] } = {}): SweepSet {
+  return set.alignStimulus(options);
 }
 
 /** Sweeps grouped by condition keys. */

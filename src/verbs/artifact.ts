@@ -2,7 +2,7 @@
  * Stimulus-artifact removal. The artifact is not data (common practice, no source):
  * each method estimates it and removes it, leaving the neural response.
  */
-import type { SweepSet, Conditions, ConditionValue } from '../sweeps/SweepSet';
+import type { Conditions, ConditionValue } from '../sweeps/conditions';
 import type { SampleView, VerbInput, VerbOutput } from './types';
 import { OptionError, AnalysisError } from '../errors';
 import { checkKeys, finite, oneOf, windowMs } from '../validate';
@@ -80,11 +80,6 @@ function checkArtifactKeys(options: ArtifactOptions, method: ArtifactMethod): vo
       `option "${k}" in removeArtifact options is not used by method "${method}" (only by ${users.map((m) => `"${m}"`).join(', ')}); method "${method}" takes ${ARTIFACT_KEYS[method].join(', ')}`,
     );
   }
-}
-
-/** The same as `set.removeArtifact(options)`. */
-export function removeArtifact(set: SweepSet, options: ArtifactOptions): SweepSet {
-  return set.removeArtifact(options);
 }
 
 /** The removeArtifact verb on samples (SweepSet.removeArtifact). */
@@ -397,11 +392,6 @@ export function detectStimulus(set: SampleView, options: { search?: [number, num
     timeMs: sorted[Math.floor((sorted.length - 1) / 2)],
     spreadMs: sorted[sorted.length - 1] - sorted[0],
   };
-}
-
-/** Shift the time axis so the detected stimulus (median over sweeps) is at 0 ms; the detection is kept in extras. */
-export function alignStimulus(set: SweepSet, options: { search?: [number, number] } = {}): SweepSet {
-  return set.alignStimulus(options);
 }
 
 /** The alignStimulus verb on samples (SweepSet.alignStimulus). */

@@ -1,4 +1,3 @@
-import type { SweepSet } from '../sweeps/SweepSet';
 import type { TimeBase, VerbInput, VerbOutput } from './types';
 import { OptionError } from '../errors';
 import { checkKeys, oneOf, windowMs } from '../validate';
@@ -50,15 +49,6 @@ export function windowIndices(set: TimeBase, w: [number, number], name: string):
     );
   }
   return [a, b];
-}
-
-/**
- * Subtract the pre-stimulus level of each sweep (mean or median of a window), with
- * an optional linear detrend to a late quiet window (the same as `set.baseline(options)`).
- * @example baseline(set, { window: [-2, -0.2] })
- */
-export function baseline(set: SweepSet, options: BaselineOptions = {}): SweepSet {
-  return set.baseline(options);
 }
 
 /** The baseline verb on samples: the levels per sweep, left pending as a correction (SweepSet.baseline). */

@@ -1,4 +1,3 @@
-import type { SweepSet } from '../sweeps/SweepSet';
 import type { VerbInput, VerbOutput } from './types';
 import { butter } from '../signal/butter';
 import { defaultPadlen } from '../signal/sosfilt';
@@ -13,15 +12,6 @@ export interface DecimateOptions {
   order?: number;
 }
 export const decimateDefaults = { order: 8, cutoffFraction: 0.8 };
-
-/**
- * Down-sample by an integer factor after a zero-phase Butterworth anti-alias
- * low-pass at 0.8 x the new Nyquist frequency (the rule SciPy's decimate uses for
- * its IIR filter). Keeps samples 0, factor, 2 factor, ... The same as `set.decimate(options)`.
- */
-export function decimate(set: SweepSet, options: DecimateOptions): SweepSet {
-  return set.decimate(options);
-}
 
 /** The decimate verb on samples (SweepSet.decimate). */
 export function decimateSamples(set: VerbInput, options: DecimateOptions): VerbOutput {

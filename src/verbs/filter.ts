@@ -1,4 +1,3 @@
-import type { SweepSet } from '../sweeps/SweepSet';
 import type { VerbInput, VerbOutput } from './types';
 import { butter, iirnotch, type BType, type Sos } from '../signal/butter';
 import { defaultPadlen } from '../signal/sosfilt';
@@ -37,16 +36,6 @@ export function applySos(set: VerbInput, sos: Sos, padlen: number): Float64Array
   return out;
 }
 
-/**
- * Zero-phase Butterworth filtering of every sweep (forward-backward, odd-extension
- * padding; the same result as SciPy's sosfiltfilt). The effective order is twice
- * `order` and the gain at the cutoff is -6 dB (each pass is -3 dB). The same as `set.filter(options)`.
- * @example filter(set, { btype: 'lowpass', cutoff: 5000, order: 4 })
- */
-export function filter(set: SweepSet, options: FilterOptions): SweepSet {
-  return set.filter(options);
-}
-
 /** The filter verb on samples (SweepSet.filter). */
 export function filterSamples(set: VerbInput, options: FilterOptions): VerbOutput {
   if (options === null || typeof options !== 'object')
@@ -76,14 +65,6 @@ export interface NotchOptions {
   Q?: number;
 }
 export const notchDefaults = { frequency: 50, Q: 30 };
-
-/**
- * Zero-phase IIR notch (second order) on every sweep (the same as `set.notch(options)`). Rings around fast
- * transients; prefer removeHum for CAPs.
- */
-export function notch(set: SweepSet, options: NotchOptions = {}): SweepSet {
-  return set.notch(options);
-}
 
 /** The notch verb on samples (SweepSet.notch). */
 export function notchSamples(set: VerbInput, options: NotchOptions = {}): VerbOutput {

@@ -1,5 +1,4 @@
 import { runSweeps, shareCopy, sharedSamples } from '../parallel/pool';
-import type { SweepSet } from '../sweeps/SweepSet';
 import type { SampleView, VerbOutput } from './types';
 import { AnalysisError, OptionError } from '../errors';
 import { sineConditioning, sineDesign } from '../signal/sinefit';
@@ -49,18 +48,6 @@ function checkConditioning(
       `cannot remove hum: ${where}; the ${what} fitted there could be subtracted from the ${c.excluded} left-out samples with ${c.extrapolationGain.toExponential(2)} times the power per sample it removes from the fitted ones (at most ${humLimits.maxExtrapolationGain}): ${fix}`,
     );
   }
-}
-
-/**
- * Remove mains hum by fitting and subtracting sinusoids at the mains frequency and
- * its harmonics, per sweep (phase and amplitude free in every sweep). The fit
- * leaves out the `exclude` ranges. When the frequency is 'detect', 50 and 60 Hz
- * are compared by the fitted power summed over sweeps, and the winner refined
- * (golden-section search on the residual, +/-1 Hz).
- * @example set.removeHum({ frequency: 50, harmonics: 3, exclude: [[0, 8]] })
- */
-export function removeHum(set: SweepSet, options: HumOptions = {}): SweepSet {
-  return set.removeHum(options);
 }
 
 /** The removeHum verb on samples (SweepSet.removeHum). */

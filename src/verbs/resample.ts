@@ -1,4 +1,3 @@
-import type { SweepSet } from '../sweeps/SweepSet';
 import type { SampleView, VerbOutput } from './types';
 import { polyphaseDesign, rationalRatio, resampledLength } from '../signal/resample';
 import { OptionError } from '../errors';
@@ -18,17 +17,6 @@ export interface ResampleOptions {
   beta?: number;
 }
 export const resampleDefaults = { padtype: 'constant' as const, beta: 5, maxFactor: 1000 };
-
-/**
- * Change the sample rate by a rational factor up/down with a polyphase
- * Kaiser-windowed FIR anti-alias filter (the method and defaults of SciPy's
- * resample_poly; zero phase: output sample k lies at input time k down/up, so the
- * time of the first sample is kept). The same as `set.resample(options)`.
- * @example resample(set, { fs: 20000 })
- */
-export function resample(set: SweepSet, options: ResampleOptions): SweepSet {
-  return set.resample(options);
-}
 
 /** The resample verb on samples (SweepSet.resample). */
 export function resampleSamples(set: SampleView, options: ResampleOptions): VerbOutput {

@@ -5,7 +5,7 @@
  * verbs import nothing of src/sweeps at run time.
  */
 import type { Correction, Samples } from '../parallel/kernels';
-import type { Conditions, ConditionValue } from '../sweeps/SweepSet';
+import type { Conditions, ConditionValue } from '../sweeps/conditions';
 
 /**
  * Samples not yet computed: `base` with a pending per-sweep correction (made by
