@@ -284,7 +284,13 @@ describe('manifest analysis keys follow the pipeline (drift test)', () => {
       qc: ['quietStopMs', 'endFraction', 'perSweepKeys', 'peerKeys'],
       groups: ['animalKeys'],
       mixed: ['randomKeys'],
-      velocityDistribution: ['fitWindowStartMs', 'sfpWindowFraction', 'twoDistanceLambda', 'percentiles'],
+      velocityDistribution: [
+        'fitWindowStart',
+        'fitWindowStartMs',
+        'sfpWindowFraction',
+        'twoDistanceLambda',
+        'percentiles',
+      ],
     };
     let seen = 0;
     for (const step of PIPELINE_OPTION_KEYS) {

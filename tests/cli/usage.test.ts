@@ -28,6 +28,16 @@ describe('command line usage as documented', () => {
     expect(run(['--', 'help', 'run']).stdout).toMatch(/--out <dir>/);
     expect(run(['--', 'version']).stdout.trim()).toBe(version);
   });
+  it('help unblind documents the key formats and the refusals; unblind needs --key and --out', () => {
+    const h = run(['help', 'unblind']).stdout;
+    expect(h).toMatch(/--key <file>/);
+    expect(h).toMatch(/"code,label"/);
+    expect(run(['help']).stdout).toMatch(/fascicle unblind <bundle-dir> --key <key> --out <dir>/);
+    const noKey = run(['unblind', 'somewhere', '--out', 'x']);
+    expect(noKey.status).toBe(2);
+    expect(noKey.stderr).toMatch(/unblind needs --key <key file>/);
+    expect(run(['unblind', 'somewhere', '--kye', 'k']).stderr).toMatch(/did you mean --key\?/);
+  });
   it('the README names every form of the usage block and the npx note', () => {
     const forms = [
       'npx fascicle help',
@@ -58,15 +68,16 @@ describe('command line usage as documented', () => {
     );
     expect(headerCodes.sort()).toEqual(readme);
   });
-  it('a paired-pulse and train study (the invented recovery demo) runs: its series and steps are accepted', async () => {
-    const { makeRecoveryDemo } = await import('../../src/model/makeRecoveryDemo');
+  // (trains through the command line: tests/cli/study.test.ts; the recovery demo with trains takes minutes to make)
+  it('a paired-pulse study (the invented two-group demo) runs: its series, blinding and steps are accepted', async () => {
+    const { makeGroupDemo } = await import('../../src/model/makeGroupDemo');
     const work = mkdtempSync(join(tmpdir(), 'fascicle-usage-'));
     try {
-      makeRecoveryDemo(join(work, 'study'));
+      makeGroupDemo(join(work, 'study'), join(work, 'key'));
       const out = join(work, 'out');
       const r = run(['run', join(work, 'study', 'manifest.json'), '--out', out, '--quiet', '--no-figures']);
       expect(r.status, r.stderr).toBe(0);
-      for (const t of ['paired_pulse_summary', 'train_summary', 'sweep_qc', 'flags']) {
+      for (const t of ['paired_pulse_summary', 'group_tests', 'mixed_anova', 'sweep_qc', 'flags']) {
         expect(existsSync(join(out, 'tables', `${t}.csv`)), t).toBe(true);
       }
       expect(r.stderr).toMatch(/^flags: \d+ rejected, \d+ not measured, \d+ warnings \(tables\/flags\.csv\)$/m);
