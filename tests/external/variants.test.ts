@@ -310,9 +310,13 @@ const VARIANTS: Variant[] = [
   },
 ];
 
+// FASCICLE_VARIANTS=bipolar,tail runs only those (and the devset, for the comparison column): for quick iterations
+const only = process.env.FASCICLE_VARIANTS?.split(',').map((q) => q.trim());
+const chosen = VARIANTS.filter((v) => !only || v.name === 'devset' || only.includes(v.name));
+const ran = (name: string) => chosen.some((v) => v.name === name);
 const root = mkdtempSync(join(tmpdir(), 'fascicle-variants-'));
 afterAll(() => rmSync(root, { recursive: true, force: true }));
-const runs = VARIANTS.map((v) => runVariant(v, root));
+const runs = chosen.map((v) => runVariant(v, root));
 const checks = runs.map(variantChecks);
 const structural = runs.map(structuralChecks);
 runs.forEach((r, i) => printVariant(r, checks[i], i === 0 ? undefined : checks[0], structural[i]));
@@ -353,6 +357,7 @@ console.log(
 
 // ---- a wrong bipolar configuration is refused with a typed error naming the option ----
 const badReference = (() => {
+  if (!ran('bipolar')) return undefined;
   const set = readManifest(join(root, 'bipolar', 'fast', 'fast.manifest.json')).where({ series: 'temperature' });
   try {
     set.components({ preset: 'mammalian', referenceDistanceMm: 10 });
@@ -363,7 +368,7 @@ const badReference = (() => {
 })();
 
 // ---- configuration a user may leave to the software: mains frequency 'detect' on the slow window ----
-const detectRuns = (['devset', 'hum60'] as const).map((name) => {
+const detectRuns = (['devset', 'hum60'] as const).filter(ran).map((name) => {
   const set = readManifest(join(root, name, 'slow', 'slow.manifest.json')).where({ series: 'temperature' });
   const a = baseAnalysis('slow');
   const h = set
@@ -558,7 +563,7 @@ const NOT_YET = new Set<string>([
     ...structural.flatMap((st, i) => (i === 0 ? [] : st.filter((q) => !q.ok).map(idOfStructural))),
   ]);
   const add = [...failing].filter((k) => !NOT_YET.has(k));
-  const drop = [...NOT_YET].filter((k) => !failing.has(k));
+  const drop = [...NOT_YET].filter((k) => ran(k.split(' | ')[0]) && !failing.has(k));
   console.log(
     add.length || drop.length
       ? `NOT_YET out of date: now failing, not listed: ${JSON.stringify(add)}; listed, now met: ${JSON.stringify(drop)}`
@@ -567,10 +572,13 @@ const NOT_YET = new Set<string>([
 }
 
 describe('a bipolar reference contact nearer than the recording contact (10 mm vs 15 mm)', () => {
-  it('is refused with an OptionError naming referenceDistanceMm and the sweep', () => {
-    expect(badReference?.name).toBe('OptionError');
-    expect(badReference?.message).toMatch(/referenceDistanceMm.*sweep \d+/);
-  });
+  (badReference === undefined ? it.skip : it)(
+    'is refused with an OptionError naming referenceDistanceMm and the sweep',
+    () => {
+      expect(badReference?.name).toBe('OptionError');
+      expect(badReference?.message).toMatch(/referenceDistanceMm.*sweep \d+/);
+    },
+  );
 });
 
 describe("configuration left to the software: hum frequency 'detect'", () => {
