@@ -216,6 +216,19 @@ const VARIANTS: Variant[] = [
     sites: [{ mm: 15, refMm: 25 }],
   },
   {
+    name: 'bipolar-inverted',
+    describe:
+      'the bipolar channel with its leads the other way round (25 mm minus 15 mm, declared as 15 mm with ' +
+      'referenceDistanceMm 25 and a negative main phase); truth as bipolar',
+    recordings: (w) =>
+      both(w)
+        .map(bipolar)
+        .map((r) => mapSweeps(r, (x) => x.map((v) => -v))),
+    analysis: baseAnalysis,
+    polarity: -1,
+    sites: [{ mm: 15, refMm: 25 }],
+  },
+  {
     name: 'one-site',
     describe: 'the 15 mm channel only; truth: single-site values of ground_truth.json',
     recordings: (w) => both(w).map((r) => ({ ...r, channels: [r.channels[0]] })),
@@ -387,7 +400,7 @@ console.log(
  * Keys: `<variant> | <quantity> | <class> | <where> | <estimator>` and `<variant> | <structural check>`.
  * The run prints "NOT_YET out of date" with the keys to add or remove when the list no longer matches.
  */
-// last updated 10:40 UTC from `npx vitest run tests/external/variants.test.ts --maxWorkers=1`
+// last updated 10:43 UTC from `npx vitest run tests/external/variants.test.ts --maxWorkers=1`
 const NOT_YET = new Set<string>([
   'absent-classes | slow|temperature C (absent): no detection and no velocity',
   'artifact-biphasic | Hill slope | A-delta | 15 mm | Hill fit',
@@ -446,6 +459,41 @@ const NOT_YET = new Set<string>([
   'bipolar | velocity m/s | A-delta | 25 C | none recommended, so (single-site peak)',
   'bipolar | velocity m/s | A-delta | 30 C | none recommended, so (single-site peak)',
   'bipolar | velocity m/s | A-delta | 37 C | none recommended, so (single-site peak)',
+  'bipolar-inverted | Hill slope | A-delta | 15-25 mm bipolar | Hill fit',
+  'bipolar-inverted | I50 mA | A-delta | 15-25 mm bipolar | Boltzmann fit',
+  'bipolar-inverted | I50 mA | C | 15-25 mm bipolar | Boltzmann fit',
+  'bipolar-inverted | IC50 uM | A-alpha/beta | 15-25 mm bipolar | Hill fit',
+  'bipolar-inverted | IC50 uM | A-delta | 15-25 mm bipolar | Hill fit',
+  'bipolar-inverted | IC50 uM | C | 15-25 mm bipolar | Hill fit',
+  'bipolar-inverted | Q10 | A-alpha/beta | 20-37 C | single-site peak',
+  'bipolar-inverted | fast|dose A-alpha/beta: polarity -1',
+  'bipolar-inverted | fast|dose A-delta: polarity -1',
+  'bipolar-inverted | fast|dose: A-delta detected in every supramaximal sweep',
+  'bipolar-inverted | fast|temperature A-alpha/beta 20 C: a recommended velocity row, or a flag saying why none',
+  'bipolar-inverted | fast|temperature A-alpha/beta 25 C: a recommended velocity row, or a flag saying why none',
+  'bipolar-inverted | fast|temperature A-alpha/beta 30 C: a recommended velocity row, or a flag saying why none',
+  'bipolar-inverted | fast|temperature A-alpha/beta 37 C: a recommended velocity row, or a flag saying why none',
+  'bipolar-inverted | fast|temperature A-alpha/beta: polarity -1',
+  'bipolar-inverted | fast|temperature A-delta 20 C: a recommended velocity row, or a flag saying why none',
+  'bipolar-inverted | fast|temperature A-delta 25 C: a recommended velocity row, or a flag saying why none',
+  'bipolar-inverted | fast|temperature A-delta 30 C: a recommended velocity row, or a flag saying why none',
+  'bipolar-inverted | fast|temperature A-delta 37 C: a recommended velocity row, or a flag saying why none',
+  'bipolar-inverted | fast|temperature A-delta: polarity -1',
+  'bipolar-inverted | fast|temperature: A-delta detected in every supramaximal sweep',
+  'bipolar-inverted | fast|temperature: no two-site or regression velocity from one site, and it is said',
+  'bipolar-inverted | slow|temperature C 20 C: a recommended velocity row, or a flag saying why none',
+  'bipolar-inverted | slow|temperature C 25 C: a recommended velocity row, or a flag saying why none',
+  'bipolar-inverted | slow|temperature C 30 C: a recommended velocity row, or a flag saying why none',
+  'bipolar-inverted | slow|temperature C 37 C: a recommended velocity row, or a flag saying why none',
+  'bipolar-inverted | slow|temperature: no two-site or regression velocity from one site, and it is said',
+  'bipolar-inverted | velocity m/s | A-alpha/beta | 20 C | none recommended, so (single-site peak)',
+  'bipolar-inverted | velocity m/s | A-alpha/beta | 25 C | none recommended, so (single-site peak)',
+  'bipolar-inverted | velocity m/s | A-alpha/beta | 30 C | none recommended, so (single-site peak)',
+  'bipolar-inverted | velocity m/s | A-alpha/beta | 37 C | none recommended, so (single-site peak)',
+  'bipolar-inverted | velocity m/s | A-delta | 20 C | none recommended, so (single-site peak)',
+  'bipolar-inverted | velocity m/s | A-delta | 25 C | none recommended, so (single-site peak)',
+  'bipolar-inverted | velocity m/s | A-delta | 30 C | none recommended, so (single-site peak)',
+  'bipolar-inverted | velocity m/s | A-delta | 37 C | none recommended, so (single-site peak)',
   'distances-x1.3 | velocity m/s | A-delta | 20 C | recommended (two-site xcorr)',
   'distances-x1.3 | velocity m/s | A-delta | 20 C | two-site peak',
   'distances-x1.3 | velocity m/s | A-delta | 25 C | recommended (two-site xcorr)',
