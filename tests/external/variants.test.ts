@@ -219,9 +219,9 @@ const VARIANTS: Variant[] = [
     name: 'bipolar-inverted',
     describe:
       'the bipolar channel with its leads the other way round (25 mm minus 15 mm, declared as 15 mm with ' +
-      'referenceDistanceMm 25 and a negative main phase); truth as bipolar',
+      'referenceDistanceMm 25 and a negative main phase); temperature and dose series; truth as bipolar',
     recordings: (w) =>
-      both(w)
+      [vendored('temperature', w), vendored('dose_response', w)]
         .map(bipolar)
         .map((r) => mapSweeps(r, (x) => x.map((v) => -v))),
     analysis: baseAnalysis,
@@ -262,6 +262,16 @@ const VARIANTS: Variant[] = [
       'other populations: A-alpha/beta x0.6, A-delta x1.8, C x1.5 (clean components added), temperature series ' +
       'only; truth unchanged (latency definitions are scale-free)',
     recordings: (w) => [scaleClasses(vendored('temperature', w), { 'A-alpha/beta': 0.6, 'A-delta': 1.8, C: 1.5 })],
+    analysis: baseAnalysis,
+    polarity: 1,
+    sites: MONO,
+  },
+  {
+    name: 'populations-small-delta',
+    describe:
+      'other populations the other way: A-alpha/beta x1.3, A-delta x0.5, C x0.6 (clean components added), ' +
+      'temperature series only; truth unchanged',
+    recordings: (w) => [scaleClasses(vendored('temperature', w), { 'A-alpha/beta': 1.3, 'A-delta': 0.5, C: 0.6 })],
     analysis: baseAnalysis,
     polarity: 1,
     sites: MONO,
@@ -400,7 +410,7 @@ console.log(
  * Keys: `<variant> | <quantity> | <class> | <where> | <estimator>` and `<variant> | <structural check>`.
  * The run prints "NOT_YET out of date" with the keys to add or remove when the list no longer matches.
  */
-// last updated 10:43 UTC from `npx vitest run tests/external/variants.test.ts --maxWorkers=1`
+// last updated 10:45 UTC from `npx vitest run tests/external/variants.test.ts --maxWorkers=1`
 const NOT_YET = new Set<string>([
   'absent-classes | slow|temperature C (absent): no detection and no velocity',
   'artifact-biphasic | Hill slope | A-delta | 15 mm | Hill fit',
@@ -553,6 +563,19 @@ const NOT_YET = new Set<string>([
   'populations | velocity m/s | A-delta | 25 C | two-site peak',
   'populations | velocity m/s | A-delta | 30 C | two-site peak',
   'populations | velocity m/s | A-delta | 37 C | two-site peak',
+  'populations-small-delta | Q10 | A-delta | 20-37 C | two-site xcorr',
+  'populations-small-delta | Q10 | C | 20-37 C | regression centroid',
+  'populations-small-delta | velocity m/s | A-delta | 20 C | recommended (two-site xcorr)',
+  'populations-small-delta | velocity m/s | A-delta | 20 C | two-site peak',
+  'populations-small-delta | velocity m/s | A-delta | 25 C | recommended (two-site xcorr)',
+  'populations-small-delta | velocity m/s | A-delta | 25 C | two-site peak',
+  'populations-small-delta | velocity m/s | A-delta | 30 C | recommended (two-site xcorr)',
+  'populations-small-delta | velocity m/s | A-delta | 30 C | two-site peak',
+  'populations-small-delta | velocity m/s | A-delta | 37 C | recommended (two-site xcorr)',
+  'populations-small-delta | velocity m/s | A-delta | 37 C | two-site peak',
+  'populations-small-delta | velocity m/s | C | 30 C | recommended (regression centroid)',
+  'populations-small-delta | velocity m/s | C | 37 C | recommended (regression centroid)',
+  'populations-small-delta | velocity m/s | C | 37 C | two-site peak',
   'resampled | Hill slope | A-delta | 15 mm | Hill fit',
   'resampled | Hill slope | A-delta | 25 mm | Hill fit',
   'resampled | Hill slope | C | 25 mm | Hill fit',
