@@ -25,7 +25,7 @@ import { OptionError, AnalysisError } from '../errors';
 import { checkKeys, didYouMean } from '../validate';
 import { betaInc, fSurvival, gammaQ, tQuantile } from '../fit/dist';
 import { summarize, pairedCompare } from './stats';
-import { Result } from '../report/result';
+import { Result } from '../notebook/result';
 import { toFrame } from '../report/frame';
 import { tableHtml, tableText } from '../notebook/html';
 import { VERSION } from '../version';

@@ -31,7 +31,7 @@ import { checkKeys, didYouMean, shown } from '../validate';
 import { invertSpd, cholesky } from '../signal/linalg';
 import { fSurvival, tQuantile } from '../fit/dist';
 import { tTwoSided, rowsOf, type RowInput } from './groups';
-import { Result } from '../report/result';
+import { Result } from '../notebook/result';
 import { toFrame } from '../report/frame';
 import { tableHtml, tableText } from '../notebook/html';
 import { VERSION } from '../version';

@@ -28,7 +28,7 @@
  * with a measured response.
  */
 import { SweepSet, type ConditionValue, type Step, type Source } from '../sweeps/SweepSet';
-import { Result } from '../report/result';
+import { Result } from '../notebook/result';
 import { measureComponents, type ComponentOptions } from '../measure/components';
 import { fitCurve, profileCI, type FitResult } from '../fit/lm';
 import { AnalysisError, OptionError } from '../errors';

@@ -21,7 +21,7 @@
 import type { SweepSet, ConditionValue, Conditions, Step, Source } from '../sweeps/SweepSet';
 import { OptionError } from '../errors';
 import { checkKeys, windowMs, positive, integerIn, shown, didYouMean } from '../validate';
-import { Result } from '../report/result';
+import { Result } from '../notebook/result';
 import { toFrame } from '../report/frame';
 import { tableHtml, tableText } from '../notebook/html';
 import { VERSION } from '../version';

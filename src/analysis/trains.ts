@@ -14,7 +14,7 @@
  * whose pulse-1 response starts after the next pulse (measured on pulse 1 without the cut) is 'not measured'.
  */
 import { SweepSet, type ConditionValue, type Step, type Source } from '../sweeps/SweepSet';
-import { Result } from '../report/result';
+import { Result } from '../notebook/result';
 import { measureComponents, type ComponentOptions } from '../measure/components';
 import { AnalysisError, OptionError } from '../errors';
 import { checkKeys } from '../validate';
