@@ -410,7 +410,7 @@ console.log(
  * Keys: `<variant> | <quantity> | <class> | <where> | <estimator>` and `<variant> | <structural check>`.
  * The run prints "NOT_YET out of date" with the keys to add or remove when the list no longer matches.
  */
-// last updated 10:45 UTC from `npx vitest run tests/external/variants.test.ts --maxWorkers=1`
+// last updated 10:49 UTC from `npx vitest run tests/external/variants.test.ts --maxWorkers=1`
 const NOT_YET = new Set<string>([
   'absent-classes | slow|temperature C (absent): no detection and no velocity',
   'artifact-biphasic | Hill slope | A-delta | 15 mm | Hill fit',
@@ -470,8 +470,6 @@ const NOT_YET = new Set<string>([
   'bipolar | velocity m/s | A-delta | 30 C | none recommended, so (single-site peak)',
   'bipolar | velocity m/s | A-delta | 37 C | none recommended, so (single-site peak)',
   'bipolar-inverted | Hill slope | A-delta | 15-25 mm bipolar | Hill fit',
-  'bipolar-inverted | I50 mA | A-delta | 15-25 mm bipolar | Boltzmann fit',
-  'bipolar-inverted | I50 mA | C | 15-25 mm bipolar | Boltzmann fit',
   'bipolar-inverted | IC50 uM | A-alpha/beta | 15-25 mm bipolar | Hill fit',
   'bipolar-inverted | IC50 uM | A-delta | 15-25 mm bipolar | Hill fit',
   'bipolar-inverted | IC50 uM | C | 15-25 mm bipolar | Hill fit',
