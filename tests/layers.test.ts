@@ -34,11 +34,6 @@ const ALLOWLIST: { rule: string; from: string; to: string; owner: string }[] = [
   { rule: 'layer-analysis', from: 'src/analysis/recruitment.ts', to: 'src/report/result.ts', owner: 'accuracy' },
   { rule: 'layer-analysis', from: 'src/analysis/strengthDuration.ts', to: 'src/report/result.ts', owner: 'accuracy' },
   { rule: 'layer-analysis', from: 'src/analysis/temperature.ts', to: 'src/report/result.ts', owner: 'accuracy' },
-  { rule: 'layer-analysis', from: 'src/analysis/groups.ts', to: 'src/report/result.ts', owner: 'study' },
-  { rule: 'layer-analysis', from: 'src/analysis/mixed.ts', to: 'src/report/result.ts', owner: 'study' },
-  { rule: 'layer-analysis', from: 'src/analysis/pairedPulse.ts', to: 'src/report/result.ts', owner: 'study' },
-  { rule: 'layer-analysis', from: 'src/analysis/sweepQc.ts', to: 'src/report/result.ts', owner: 'study' },
-  { rule: 'layer-analysis', from: 'src/analysis/trains.ts', to: 'src/report/result.ts', owner: 'study' },
   {
     rule: 'layer-analysis',
     from: 'src/analysis/velocityDistribution.ts',
