@@ -200,8 +200,18 @@ export function replaceArtifact(rec: Recording, artifact: (tMs: number, mA: numb
   });
 }
 
-/** Write a study (one or more recordings of one window) as float32 binaries, sidecars and a manifest; its path. */
-export function writeStudy(dir: string, w: W, recs: Recording[], analysis: PipelineOptions, study: string): string {
+/** How a variant's samples are stored: float32 volts (default) or int16 counts of `gainUv` microvolts. */
+export type Storage = { dtype: 'float32' } | { dtype: 'int16'; gainUv: number };
+
+/** Write a study (one or more recordings of one window) as binaries, sidecars and a manifest; its path. */
+export function writeStudy(
+  dir: string,
+  w: W,
+  recs: Recording[],
+  analysis: PipelineOptions,
+  study: string,
+  storage: Storage = { dtype: 'float32' },
+): string {
   mkdirSync(join(dir, 'data'), { recursive: true });
   const files: Row[] = [];
   for (const rec of recs) {
@@ -211,22 +221,27 @@ export function writeStudy(dir: string, w: W, recs: Recording[], analysis: Pipel
     const out = new Float32Array(rec.nSweeps * nc * n);
     for (let s = 0; s < rec.nSweeps; s++)
       rec.channels.forEach((ch, c) => out.set(ch.x.subarray(s * n, (s + 1) * n), (s * nc + c) * n));
-    writeFileSync(join(dir, 'data', `${name}.f32`), Buffer.from(out.buffer));
+    const ext = storage.dtype === 'int16' ? 'i16' : 'f32';
+    const bytes =
+      storage.dtype === 'int16'
+        ? Int16Array.from(out, (v) => Math.max(-32768, Math.min(32767, Math.round((v * 1e6) / storage.gainUv))))
+        : out;
+    writeFileSync(join(dir, 'data', `${name}.${ext}`), Buffer.from(bytes.buffer));
     rec.channels.forEach((ch, c) => {
       const sidecar = {
-        data: `${name}.f32`,
-        dtype: 'float32',
+        data: `${name}.${ext}`,
+        dtype: storage.dtype,
         byteOrder: 'little',
         layout: 'sweep-major',
         nSweeps: rec.nSweeps,
         nSamples: n,
         nChannels: nc,
         channel: c,
-        gain: 1,
+        gain: storage.dtype === 'int16' ? storage.gainUv : 1,
         offset: 0,
         fs: rec.fs,
         t0Ms: rec.t0Ms,
-        units: 'V',
+        units: storage.dtype === 'int16' ? 'uV' : 'V',
       };
       writeFileSync(join(dir, 'data', `${name}.ch${c + 1}.json`), JSON.stringify(sidecar));
       files.push({
@@ -264,6 +279,8 @@ export interface Variant {
   distanceScale?: number;
   /** classes taken out of the recordings: they must come out with no number (not detected or not resolved) */
   absent?: string[];
+  /** how the files store the samples (default float32 volts) */
+  storage?: Storage;
 }
 
 export interface VariantRun {
@@ -284,7 +301,7 @@ export function runVariant(v: Variant, root: string): VariantRun {
     const dir = join(root, v.name, w);
     let set;
     try {
-      set = readManifest(writeStudy(dir, w, recs, v.analysis(w), `FNPG-N07 variant ${v.name}, ${w} window`));
+      set = readManifest(writeStudy(dir, w, recs, v.analysis(w), `FNPG-N07 variant ${v.name}, ${w} window`, v.storage));
     } catch (e) {
       errors.push(`${w}: readManifest threw ${(e as Error).name}: ${(e as Error).message}`);
       continue;
