@@ -76,6 +76,8 @@ import {
   sfpAt,
   shapeSfp,
   nelderMead,
+  subProblem,
+  supportByGcv,
   type SfpShape,
 } from './vdistCore';
 
@@ -116,6 +118,11 @@ export interface VelocityDistributionOptions {
    * parameters found with the amplitudes by variable projection) or 'free' (sampled on nodes, alternating least squares)
    */
   sfpModel?: 'two-phase' | 'free';
+  /**
+   * 'gcv' (default): the distribution's support on the grid chosen by generalised cross-validation (bins that only
+   * fit noise are held at zero, see vdistCore.supportByGcv); 'grid': every grid bin is free
+   */
+  support?: 'gcv' | 'grid';
   /** refine a two-phase potential on nodes by alternating least squares, started from it (default true) */
   sfpRefine?: boolean;
   /** second-difference penalty of the estimated potential, relative (default 1e-3) */
@@ -137,8 +144,13 @@ export interface VelocityDistributionOptions {
    * a detected fit start, 2 samples to twice the start's delay after the stimulus in factors of 2; else none)
    */
   artifactTauMs?: number[];
-  /** mains frequencies (Hz, with any harmonics listed, e.g. [50, 150]) modelled as a sine and cosine per distance */
-  humHz?: number[];
+  /**
+   * mains hum in the final amplitudes: frequencies (Hz, harmonics listed, e.g. [50, 100, 150]) modelled as a sine and
+   * cosine per distance, or 'detect': none, 50 or 60 Hz with two harmonics, whichever GCV prefers. Default [] (none):
+   * over a window of a few mains cycles a sinusoid is far from orthogonal to a wave a few ms wide and takes part of
+   * it (seen with slow C waves), so hum is better removed from whole sweeps first (SweepSet.removeHum)
+   */
+  humHz?: number[] | 'detect';
   /** quiet window for the noise SD, ms (default: sweep start to -0.1 ms) */
   noiseWindow?: [number, number];
   /** maximum alternations of amplitudes and potential (default 100) */
@@ -168,6 +180,8 @@ export const velocityDistributionDefaults = {
   nVelocities: 60,
   fitWindowStart: 'detected' as const,
   sfpRefine: true,
+  support: 'gcv' as const,
+  humHz: [] as number[],
   sfpWindowFraction: [-0.01, 0.25] as [number, number],
   sfpSmoothing: 1e-3,
   sfpModel: 'two-phase' as const,
@@ -198,6 +212,7 @@ const OPTION_KEYS = [
   'sfpSmoothing',
   'sfpModel',
   'sfpRefine',
+  'support',
   'amplitudeExponent',
   'durationExponent',
   'referenceVelocity',
@@ -392,6 +407,17 @@ export function methodsSentence(o: Record<string, unknown>): [string, string[]] 
     );
     s = `The conduction-velocity distribution was estimated from the averaged supramaximal responses at ${o.distances} by modelling each response as a sum of single-fibre potentials arriving at x/v (Cummins, Perkel & Dorfman 1979), for ${rec}, with ${sfp}, whose peak amplitude scales as v^${p} and ${q === 0 ? 'whose duration does not depend on velocity' : `duration as v^-${q}`}, plus a ${o.drift} drift per distance${(o.artifactTauMs as number[]).length ? ` and artifact exponentials (time constants ${(o.artifactTauMs as number[]).join(', ')} ms)` : ''}; the amplitude per velocity on ${grid} was found by non-negative least squares (Lawson & Hanson 1974) with a second-difference smoothness penalty whose weight was ${lam}, samples weighted by the inverse noise SD of each distance's average, over ${fmtW(o.fitWindow)}.`;
   }
+  const hz = (o.humHzUsed as number[] | undefined) ?? [];
+  if (hz.length || o.humHz === 'detect')
+    s +=
+      ` Mains hum was modelled in the final amplitudes as a sine and cosine per distance at ` +
+      `${hz.length ? `${hz.join(', ')} Hz` : 'no frequency'}` +
+      `${o.humHz === 'detect' ? ' (none, 50 or 60 Hz with two harmonics, chosen by generalised cross-validation)' : ''}.`;
+  if (o.support === 'gcv')
+    s +=
+      ' The support of the distribution (the grid bins allowed to be non-zero, ' +
+      `${fmt((o.supportM_s as number[])[0])} to ${fmt((o.supportM_s as number[])[1])} m/s) was chosen by ` +
+      'generalised cross-validation, trimming bins from either end.';
   if (o.fitStart === 'detected')
     s +=
       ' Each distance was fitted from its first usable sample after the stimulus (after the pulse and any clipped ' +
@@ -543,6 +569,7 @@ function validate(o: VelocityDistributionOptions): void {
   }
   if (o.sfpWindow !== undefined) windowMs('sfpWindow', o.sfpWindow);
   if (o.sfpModel !== undefined) oneOf('sfpModel', o.sfpModel, ['two-phase', 'free']);
+  if (o.support !== undefined) oneOf('support', o.support, ['gcv', 'grid']);
   if (o.sfpRefine !== undefined && typeof o.sfpRefine !== 'boolean')
     throw new OptionError(`invalid sfpRefine: ${shown(o.sfpRefine)}; must be true or false`);
   if (o.sfpSmoothing !== undefined) {
@@ -566,9 +593,11 @@ function validate(o: VelocityDistributionOptions): void {
       );
     o.artifactTauMs.forEach((x, i) => positive(`artifactTauMs[${i}]`, x, 'ms'));
   }
-  if (o.humHz !== undefined) {
+  if (o.humHz !== undefined && o.humHz !== 'detect') {
     if (!Array.isArray(o.humHz))
-      throw new OptionError(`invalid humHz: ${shown(o.humHz)}; must be an array of frequencies in Hz, e.g. [50, 150]`);
+      throw new OptionError(
+        `invalid humHz: ${shown(o.humHz)}; must be "detect" or an array of frequencies in Hz, e.g. [50, 100, 150]`,
+      );
     o.humHz.forEach((x, i) => positive(`humHz[${i}]`, x, 'Hz'));
   }
   if (o.noiseWindow !== undefined) windowMs('noiseWindow', o.noiseWindow);
@@ -722,7 +751,7 @@ export function velocityDistribution(
   const drift = options.drift ?? D.drift;
   const driftDeg = { offset: 0, linear: 1, quadratic: 2 }[drift];
   const autoStart = options.fitWindow === undefined;
-  const hum = options.humHz ?? [];
+  const humOpt = options.humHz ?? D.humHz;
   const iterations = options.iterations ?? D.iterations;
   const tolerance = options.tolerance ?? D.tolerance;
   const lambdaOpt = options.lambda ?? D.lambda;
@@ -746,7 +775,7 @@ export function velocityDistribution(
   const v = velocityGrid(distances, fit, tu, K, options.velocityRange, starts);
   const vRef = options.referenceVelocity ?? Math.sqrt(v[0] * v[K - 1]);
   const model: Model = { v, vRef, q, bipolarMm: bip, utilisationMs: tu };
-  const bases = blocks.map((bl, i) => nuisanceBasis(bl.t, bl.sigma, driftDeg, tausBy[i], hum, bl.t[0]));
+  const bases = blocks.map((bl, i) => nuisanceBasis(bl.t, bl.sigma, driftDeg, tausBy[i], [], bl.t[0]));
   const nNuis = bases.reduce((s, b) => s + b.length, 0);
   const nRows = blocks.reduce((s, b) => s + b.t.length, 0);
   const b = dataVector(blocks, bases);
@@ -758,6 +787,7 @@ export function velocityDistribution(
   const smoothing = options.sfpSmoothing ?? D.sfpSmoothing;
   const sfpModel = options.sfpModel ?? D.sfpModel;
   const sfpRefine = options.sfpRefine ?? D.sfpRefine;
+  const supportOpt = options.support ?? D.support;
 
   let sfp!: Sfp;
   let u!: Float64Array;
@@ -798,7 +828,7 @@ export function velocityDistribution(
     const toShape = (x: number[], sign: number): SfpShape => ({
       shift: x[0],
       rise: Math.exp(x[1]),
-      after: Math.exp(x[1]) * (1 + Math.exp(x[2])),
+      after: Math.exp(x[1]) * (2 + Math.exp(x[2])),
       ratio: 1 / (1 + Math.exp(-x[3])),
       n: Math.min(8, Math.max(0.5, Math.exp(x[4]))),
       sign,
@@ -813,10 +843,10 @@ export function velocityDistribution(
       return sU.rss + lamRel * scale * pen;
     };
     // start: the best of rise times from 2 samples to 1/20 of the fit window in factors of 2, either sign
-    let best = { x: [0, 0, Math.log(4), Math.log(0.1 / 0.9), Math.log(2)], sign: 1, f: Infinity };
+    let best = { x: [0, 0, Math.log(3), Math.log(0.1 / 0.9), Math.log(2)], sign: 1, f: Infinity };
     for (let rise = 2 * set.dtMs; rise <= Math.max(W / 20, 4 * set.dtMs); rise *= 2)
       for (const sign of [1, -1]) {
-        const x = [0, Math.log(rise), Math.log(4), Math.log(0.1 / 0.9), Math.log(2)];
+        const x = [0, Math.log(rise), Math.log(3), Math.log(0.1 / 0.9), Math.log(2)];
         const f = objective(x, sign);
         if (f < best.f) best = { x, sign, f };
       }
@@ -931,11 +961,89 @@ export function velocityDistribution(
     if (iter > maxIt) iter = maxIt;
     sfp = s0!;
   }
-  // final design, reconstruction and residuals
-  const A = designMatrix(blocks, bases, model, sfp);
+  // final amplitudes with the potential fixed: mains hum (given, or detected: none, 50 or 60 Hz with two harmonics,
+  // whichever GCV prefers; added only now, as with the potential free it would trade with its after-phase), the
+  // smoothness weight and the support of the distribution by GCV (bins outside held at zero)
+  const family = (f: number) => [f, 2 * f, 3 * f].filter((x) => x < set.fs / 2);
+  const humSets: number[][] = humOpt === 'detect' ? [[], family(50), family(60)] : [humOpt];
   const Araw = designMatrix(blocks, bases, model, sfp, false);
-  const G = gram(A, nRows, K, b).G;
-  const lamAbs = sol.lambda * (trG(G, K) / trG(R, K));
+  const scaleOf = (GG: Float64Array, RR: Float64Array, m: number) => trG(GG, m) / trG(RR, m);
+  interface Final {
+    hz: number[];
+    bases: Float64Array[][];
+    nNuis: number;
+    A: Float64Array;
+    G: Float64Array;
+    u: Float64Array;
+    sol: typeof sol;
+    lamAbs: number;
+    lo: number;
+    hi: number;
+  }
+  let fin: Final | null = null;
+  for (const hz of humSets) {
+    const bF = hz.length
+      ? blocks.map((bl, i) => nuisanceBasis(bl.t, bl.sigma, driftDeg, tausBy[i], hz, bl.t[0]))
+      : bases;
+    const nF = bF.reduce((a, x) => a + x.length, 0);
+    const bv = hz.length ? dataVector(blocks, bF) : b;
+    const AF = hz.length ? designMatrix(blocks, bF, model, sfp) : designMatrix(blocks, bases, model, sfp);
+    const gF = gram(AF, nRows, K, bv);
+    const full = scaleOf(gF.G, R, K);
+    const solve = (GG: Float64Array, cc: Float64Array, RR: Float64Array, m: number) => {
+      if (lambdaOpt === 'gcv') {
+        const s2 = gcvSolve(GG, cc, gF.bb, RR, m, nRows, nF);
+        const abs = s2.lambda * scaleOf(GG, RR, m);
+        return { u: s2.u, lambda: abs / full, gcv: s2.gcv, df: s2.df, abs };
+      }
+      const abs = (lambdaOpt as number) * full;
+      const s2 = solveU(GG, cc, gF.bb, RR, m, abs);
+      const dof = nRows - s2.df - nF;
+      return {
+        u: s2.u,
+        lambda: lambdaOpt as number,
+        gcv: dof > 0 ? (nRows * s2.rss) / (dof * dof) : Infinity,
+        df: s2.df,
+        abs,
+      };
+    };
+    let sF = solve(gF.G, gF.c, R, K);
+    let uF = sF.u;
+    let a = 0,
+      z = K;
+    if (supportOpt === 'gcv' && method === 'decomposition') {
+      ({ lo: a, hi: z } = supportByGcv(gF.G, gF.c, gF.bb, R, K, sF.abs, nRows, nF));
+      if (a > 0 || z < K) {
+        const sp = subProblem(gF.G, gF.c, R, K, a, z);
+        sF = solve(sp.G, sp.c, sp.R, sp.m);
+        uF = new Float64Array(K);
+        uF.set(sF.u, a);
+      }
+    }
+    if (method === 'two-distance' && !sfpGiven) {
+      // the two-distance amplitudes are kept (scaled); only the nuisance changes
+      uF = u;
+      sF = { ...sF, u, lambda: sol.lambda };
+    }
+    const cand: Final = {
+      hz,
+      bases: bF,
+      nNuis: nF,
+      A: AF,
+      G: gF.G,
+      u: uF,
+      sol: { u: uF, lambda: sF.lambda, gcv: sF.gcv, df: sF.df },
+      lamAbs: sF.abs,
+      lo: a,
+      hi: z,
+    };
+    if (!fin || cand.sol.gcv < fin.sol.gcv) fin = cand;
+  }
+  const { A, G, lamAbs, lo, hi } = fin!;
+  const finalBases = fin!.bases;
+  u = fin!.u;
+  sol = fin!.sol;
+  const subBoot = subProblem(G, atb(A, nRows, K, dataVector(blocks, finalBases)), R, K, lo, hi);
   const residuals: Row[] = [];
   const reconstruction: VelocityDistributionResult['reconstruction'] = [];
   let off = 0;
@@ -951,7 +1059,7 @@ export function velocityDistribution(
     const res = new Float64Array(m);
     for (let r = 0; r < m; r++) res[r] = (bl.y[r] - fitv[r]) / bl.sigma;
     const before = Float64Array.from(res);
-    for (const e of bases[i]) {
+    for (const e of finalBases[i]) {
       let d = 0;
       for (let r = 0; r < m; r++) d += e[r] * res[r];
       for (let r = 0; r < m; r++) res[r] -= d * e[r];
@@ -994,9 +1102,11 @@ export function velocityDistribution(
       }
       return y;
     });
-    const bs = dataVector(blocks, bases, ys);
+    const bs = dataVector(blocks, finalBases, ys);
     const c = atb(A, nRows, K, bs);
-    repsU.push(solveU(G, c, 0, R, K, lamAbs, false).u);
+    const ur = new Float64Array(K);
+    ur.set(solveU(subBoot.G, c.slice(lo, hi), 0, subBoot.R, subBoot.m, lamAbs, false).u, lo);
+    repsU.push(ur);
   }
   // distributions
   const e = edges(v);
@@ -1132,6 +1242,8 @@ export function velocityDistribution(
       sfpSmoothing: smoothing,
       sfpModel,
       sfpRefine,
+      support: supportOpt,
+      supportM_s: [Number(v[lo].toPrecision(4)), Number(v[hi - 1].toPrecision(4))],
       sfpShape: shape ? Object.fromEntries(Object.entries(shape).map(([k, x]) => [k, Number(x.toPrecision(4))])) : null,
       fitStartMs: Object.fromEntries(distances.map((d, i) => [`${fmt(d)} mm`, Number(starts[i].toPrecision(6))])),
       fitStart: autoStart ? 'detected' : 'given',
@@ -1142,7 +1254,8 @@ export function velocityDistribution(
       utilisationMs: tu,
       drift,
       artifactTauMs: taus.map((x) => Number(x.toPrecision(4))),
-      humHz: hum,
+      humHz: humOpt,
+      humHzUsed: fin!.hz,
       lambda: lambdaOpt,
       alternationLambda,
       chosenLambda: sol.lambda,

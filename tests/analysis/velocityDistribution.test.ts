@@ -1,4 +1,4 @@
-import { describe, it, expect } from 'vitest';
+import { describe, it, expect, beforeAll } from 'vitest';
 import { readFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { SweepSet } from '../../src/sweeps/SweepSet';
@@ -13,6 +13,7 @@ import {
 import { velocityDistributionFigure, velocityReconstructionFigure } from '../../src/plot/velocityDistribution';
 import { OptionError, AnalysisError } from '../../src/errors';
 import { Rng } from '../../src/model/random';
+import { rodentSciatic, simulateNerve, drawFibers, fiberVelocity } from '../../src/model/nerve';
 
 /** Single-fibre potential used by the synthetic cases: a fast positive phase and a slow negative after-phase (invented shape). */
 const sfpShape = (t: number) =>
@@ -428,7 +429,11 @@ const devErrors = (): Record<string, number> => {
     const t = truthOf(cls);
     for (const q of [10, 50, 90]) {
       errs[`${cls} p${q}`] = line(`${cls} number-weighted p${q} (m/s)`, r.percentile(q, 'number', cls), t.p(q / 100));
-      line(`${cls} amplitude-weighted p${q} (m/s)`, r.percentile(q, 'amplitude', cls), t.pa(q / 100));
+      errs[`${cls} amplitude-weighted p${q}`] = line(
+        `${cls} amplitude-weighted p${q} (m/s)`,
+        r.percentile(q, 'amplitude', cls),
+        t.pa(q / 100),
+      );
     }
   }
   // amplitude fraction of all fibres: A classes from the fast window, C from the slow window (same amplifier gain;
@@ -442,9 +447,13 @@ const devErrors = (): Record<string, number> => {
   return errs;
 };
 let errsCache: Record<string, number> | null = null;
-const errOf = (name: string) => (errsCache ??= devErrors())[name];
+const errOf = (name: string) => errsCache![name];
 
 describe('velocityDistribution on the development set (FNPG-N07), 30 C, 15 and 25 mm: the issue checks', () => {
+  // both analyses (fast and slow window) take a few minutes on a shared machine
+  beforeAll(() => {
+    errsCache = devErrors();
+  }, 900_000);
   const checks: [string, number][] = [];
   for (const cls of ['A_alpha_beta', 'A_delta', 'C'])
     checks.push([`${cls} p50`, 0.1], [`${cls} p10`, 0.15], [`${cls} p90`, 0.15], [`${cls} amplitude fraction`, 0.2]);
@@ -454,6 +463,23 @@ describe('velocityDistribution on the development set (FNPG-N07), 30 C, 15 and 2
       expect(errOf(name)).toBeLessThan(tol);
     });
   }
+  // the same percentiles AMPLITUDE-weighted (truth weighted by d_axon^2): what a compound response measures without
+  // the amplitude law; informative, not the issue's (number-weighted) check; unmet ones listed in AMPLITUDE_NOT_YET
+  const AMPLITUDE_NOT_YET = new Set(['C amplitude-weighted p10', 'C amplitude-weighted p50']);
+  for (const cls of ['A_alpha_beta', 'A_delta', 'C'])
+    for (const [q, tol] of [
+      [10, 0.15],
+      [50, 0.1],
+      [90, 0.15],
+    ] as const) {
+      const name = `${cls} amplitude-weighted p${q}`;
+      (AMPLITUDE_NOT_YET.has(name) ? it.fails : it)(
+        `${name} within ${100 * tol}%${AMPLITUDE_NOT_YET.has(name) ? ' (NOT YET met)' : ''}`,
+        () => {
+          expect(errOf(name)).toBeLessThan(tol);
+        },
+      );
+    }
   it('the results are complete and consistent (ordered percentiles, fractions sum to 1, both distances)', () => {
     const { fast, slow } = devRuns();
     for (const r of [fast, slow]) {
@@ -468,4 +494,109 @@ describe('velocityDistribution on the development set (FNPG-N07), 30 C, 15 and 2
     for (const x of Object.values(st)) expect(x).toBeGreaterThan(0.1);
     for (const x of Object.values(st)) expect(x).toBeLessThan(0.3);
   });
+});
+
+// ---------------------------------------------------------------------------------------------
+// Forward model (src/model/nerve.ts, the project's own simulated nerve): SELF-CONSISTENCY, not an outside check.
+// The myelinated classes of rodentSciatic() at 10, 20 and 30 mm, 37 C, supramaximal, 8 sweeps per distance, white
+// noise, hum and a stimulus artifact. Its single-fibre waveform lasts tauMs per class and its amplitude is
+// unitAmplitudeUv v^2: the stated duration law is the one that matches the model's own classes (duration ~ v^-q with
+// q = ln(tau_Ad / tau_Aab) / ln(v_Aab / v_Ad) at the class medians), a user's choice stated from the model.
+// ---------------------------------------------------------------------------------------------
+const FORWARD_NOT_YET = new Set(['A-delta p10', 'A-delta p50']);
+describe('velocityDistribution on the forward model (self-consistency): the issue checks', () => {
+  const model = rodentSciatic();
+  model.populations = model.populations.filter((p) => p.myelinated);
+  const T = 37,
+    seed = 11;
+  const sweeps = [10, 20, 30].flatMap((d) =>
+    Array.from({ length: 8 }, (_, r) => ({
+      intensity: 10,
+      distanceMm: d,
+      temperatureC: T,
+      concentration: 0,
+      pulseWidthMs: 0.05,
+      conditions: { repeat: r },
+    })),
+  );
+  const fibres = drawFibers(model, seed).map((f) => {
+    const v = fiberVelocity(model, f, T);
+    return { cls: model.populations[f.pop].name, v, a: model.populations[f.pop].unitAmplitudeUv * v * v };
+  });
+  const names = model.populations.map((p) => p.name);
+  const med = names.map((n) =>
+    pctOf(
+      fibres.filter((f) => f.cls === n).map((f) => f.v),
+      fibres.filter((f) => f.cls === n).map(() => 1),
+      0.5,
+    ),
+  );
+  const q = Math.log(model.populations[1].tauMs / model.populations[0].tauMs) / Math.log(med[0] / med[1]);
+  const slowestFast = Math.min(...fibres.filter((f) => f.cls === names[0]).map((f) => f.v));
+  const fastestSlow = Math.max(...fibres.filter((f) => f.cls === names[1]).map((f) => f.v));
+  const cut = Math.sqrt(slowestFast * fastestSlow);
+  let res: VelocityDistributionResult | null = null;
+  beforeAll(() => {
+    run();
+  }, 600_000);
+  const run = () =>
+    (res ??= velocityDistribution(
+      simulateNerve({
+        model,
+        seed,
+        grid: { fs: 50000, t0Ms: -2, nSamples: 900 },
+        sweeps,
+        nuisance: {
+          noiseUv: 10,
+          humUv: 5,
+          artifactUv: 2000,
+          artifactHalfMa: 1,
+          artifactTauMs: 0.05,
+          pulseWidthMs: 0.05,
+        },
+      }),
+      {
+        classes: [
+          { name: names[0], velocity: [cut, 300] },
+          { name: names[1], velocity: [1, cut] },
+        ],
+        durationExponent: q,
+        bootstrap: 0,
+      },
+    ));
+  const tot = fibres.reduce((s, f) => s + f.a, 0);
+  for (const cls of names) {
+    const f = fibres.filter((x) => x.cls === cls);
+    const checks: [string, number, () => number, () => number][] = [
+      ...([10, 50, 90] as const).map(
+        (p) =>
+          [
+            `${cls} p${p}`,
+            p === 50 ? 0.1 : 0.15,
+            () => run().percentile(p, 'number', cls),
+            () =>
+              pctOf(
+                f.map((x) => x.v),
+                f.map(() => 1),
+                p / 100,
+              ),
+          ] as [string, number, () => number, () => number],
+      ),
+      [
+        `${cls} amplitude fraction`,
+        0.2,
+        () => run().classes.find((c) => c.class === cls)!.amplitude_fraction as number,
+        () => f.reduce((s, x) => s + x.a, 0) / tot,
+      ],
+    ];
+    for (const [name, tol, est, tru] of checks) {
+      const title = `${name} within ${100 * tol}% (self-consistency)${FORWARD_NOT_YET.has(name) ? ' (NOT YET met)' : ''}`;
+      (FORWARD_NOT_YET.has(name) ? it.fails : it)(title, () => {
+        const e = est(),
+          t = tru();
+        console.log(`forward model ${name}: estimate ${e.toPrecision(4)}, truth ${t.toPrecision(4)}`);
+        expect(Math.abs(e / t - 1)).toBeLessThan(tol);
+      });
+    }
+  }
 });

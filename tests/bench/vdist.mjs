@@ -64,7 +64,7 @@ const load = (name) => {
   });
 };
 const fast = f.SweepSet.concat([load('temperature_fast_30C'), load('dose_response_fast_30C')]);
-const base = { fitWindow: [0.25, 18], artifactTauMs: [0.025, 0.05, 0.1], velocityRange: [5, 120] }; // as in the devset test
+const base = {}; // the defaults, as in the devset test (fit start detected, two-phase potential, hum detected)
 for (const bootstrap of [0, 200]) {
   const r = time(`velocityDistribution fast window, estimated potential, bootstrap ${bootstrap}`, () =>
     f.velocityDistribution(fast, { ...base, bootstrap }),
@@ -75,6 +75,9 @@ for (const nVelocities of [30, 60, 120])
   time(`velocityDistribution fast window, ${nVelocities} velocities, bootstrap 0`, () =>
     f.velocityDistribution(fast, { ...base, nVelocities, bootstrap: 0 }),
   );
+time('velocityDistribution fast window, free potential (alternating least squares), bootstrap 0', () =>
+  f.velocityDistribution(fast, { ...base, sfpModel: 'free', bootstrap: 0 }),
+);
 time('velocityDistribution fast window, two-distance method, bootstrap 0', () =>
   f.velocityDistribution(fast, { ...base, method: 'two-distance', bootstrap: 0 }),
 );
