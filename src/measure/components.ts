@@ -14,9 +14,11 @@
  * distance at once (measure/decompose.ts): each class moves at its own velocity, so the
  * faster class's tail (repolarisation and after-potential) is modelled from its own shape
  * at every site and a slower class that is only a shoulder on it is recovered. Each class is
- * then measured on its own modelled component. The split between the classes is the
- * deepest valley of the velocity distribution between their ranges; a class whose part has
- * no separate mode is "not resolved". With one distance (or `separation: 'trough'`) the
+ * then measured on the recording minus the other classes' modelled components. The split between the classes is
+ * the deepest valley of the velocity distribution between their ranges; a class whose part has no separate mode is
+ * "not resolved". Where every class has a mode, the distribution is refitted as one log-normal bump per class
+ * (fitClassMixture: smooth class membership, so a class's fibres that overlap a neighbour's velocities stay with
+ * their own class) and each sweep gets one amplitude per class; the valley split is kept when that fit is refused. With one distance (or `separation: 'trough'`) the
  * boundary is the trough between the two classes' peaks and a slower class without a peak
  * of its own is "not resolved: no separate peak or shoulder".
  *
@@ -38,7 +40,16 @@ import {
   type ResponseMeasure,
   type OwnLatencies,
 } from './response';
-import { fitSharedShape, decomposeTrace, valleyBin, type DecomposeGrid, type SharedShape } from './decompose';
+import {
+  fitSharedShape,
+  decomposeTrace,
+  decomposeTraceMixture,
+  fitClassMixture,
+  valleyBin,
+  type ClassMixture,
+  type DecomposeGrid,
+  type SharedShape,
+} from './decompose';
 import { normQuantile } from '../fit/dist';
 import { windowIndices } from '../verbs/baseline';
 import { windowMs, warnOnce, checkKeys, didYouMean } from '../validate';
@@ -447,6 +458,8 @@ export function measureComponents(
     resolved: boolean[];
     reason: (string | null)[];
     valleys: (number | null)[];
+    /** smooth class membership (one log-normal bump per class), when every class of the chain was resolved */
+    mixture: ClassMixture | null;
   }
   const decomps = new Map<string, Decomp>();
   if (separation !== 'trough') {
@@ -535,7 +548,8 @@ export function measureComponents(
         }
         bins.push([Math.min(from, shape.u.length - 1), shape.u.length - 1]);
         while (bins.length < chain.length) bins.push([shape.u.length, shape.u.length - 1]);
-        decomps.set(key, { shape, grid, bins, resolved, reason, valleys });
+        const mixture = resolved.every((r) => r) ? fitClassMixture(traces, grid, shape, bins) : null;
+        decomps.set(key, { shape, grid, bins, resolved, reason, valleys, mixture });
         // classes separated by the decomposition take the sign of the shared waveform's main phase (for a bipolar
         // recording, the near contact's) unless given
         let im = 0;
@@ -687,7 +701,9 @@ export function measureComponents(
       const dk = `${groupKey(s)}#${chain.join(',')}`;
       const d = decomps.get(dk);
       if (!d || !d.shape || !d.grid) continue;
-      const dec = decomposeTrace(x, L, d.shape, d.grid, d.bins, {}, refOf(s));
+      const dec = d.mixture
+        ? decomposeTraceMixture(x, L, { ...d.shape, s: d.mixture.s }, d.grid, d.mixture.weights, refOf(s))
+        : decomposeTrace(x, L, d.shape, d.grid, d.bins, {}, refOf(s));
       chain.forEach((ci, j) => {
         // the class's own component: the recording minus the other classes' modelled components
         // (before the artifact has decayed, where nothing was fitted, the class's own modelled component)

