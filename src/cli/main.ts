@@ -19,7 +19,7 @@ import { flagReport, FLAG_LINE_CAP } from './flags';
 import { combineStudy, type Study } from '../report/study';
 import { verifyInputs, checkOutput, type Provenance } from '../report/bundle';
 import { readManifestJson, readBlindingKey, type BlindingKey } from '../io/manifest';
-import { unblindOutputs, unblindPipelineOptions } from '../analysis/blinding';
+import { unblindOutputs, unblindPipelineOptions, checkBlindingKey } from '../analysis/blinding';
 import type { Step } from '../sweeps/SweepSet';
 import { InputError, AnalysisError, OptionError, OutputError, ConfigError, ThreadError, systemReason } from '../errors';
 import { nearest, didYouMean } from '../validate';
@@ -566,6 +566,10 @@ async function unblindCommand(
     );
   const manifest = bundleManifest(dir, prov, o.manifest);
   const key = readBlindingKey(keyPath);
+  // a key that does not fit the codes the run recorded is refused before any work
+  const blinded = steps.find((h) => h.verb === 'blinding')!;
+  if (Array.isArray(blinded.options.codes))
+    checkBlindingKey(key, blinded.options.codes as string[], String(blinded.options.condition ?? 'group'));
   const inputs = manifestInputs(manifest);
   const studyDirs = [...new Set(inputs.slice(1).map((p, i) => (i === 0 ? p : dirname(p))))];
   const inStudy = studyDirs.find((d) => isInside(resolve(keyPath), d));

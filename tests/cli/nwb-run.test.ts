@@ -31,5 +31,5 @@ describe('fascicle run --nwb <file> [--nwb-raw]', () => {
     expect(q.stderr).toMatch(/refusing to overwrite/);
     expect(readFileSync(foreign, 'utf8')).toBe('not fascicle');
     expect(cli(['run', 'data-demo/manifest.json', '--out', join(dir, 'b'), '--nwb-raw']).status).toBe(2);
-  });
+  }, 300_000); // three runs of the demo study: minutes on a loaded machine
 });
