@@ -16,9 +16,16 @@
  * - one-site: the 15 mm channel only; truth: ground_truth.json single-site values (distance / latency);
  * - tail: a longer artifact tail (-B I exp(-(t - 0.1 ms)/tau), x0.6 at 25 mm as the set's artifact) added and
  *   the amplifier rail (10 mV, the sidecars' amplifier_rail_V) applied again; truth unchanged;
- * - resampled: the recordings resampled by SciPy's resample_poly and clipped to the rail again
- *   (tests/fixtures/devset-variants/make_variants.py); truth unchanged (ground_truth.json: sampling does not
- *   change a velocity; the script checks that the resampled clean components keep their peak velocity).
+ * - artifact-biphasic: the set's artifact model (its README) subtracted and another added (replaceArtifact);
+ *   truth unchanged;
+ * - populations, populations-small-delta, absent-classes: classes scaled (or removed) by adding multiples of
+ *   their clean components (supramaximal temperature series); every latency definition is scale-free;
+ * - distances-x1.3: the distances written x1.3 (a nerve conducting 1.3x faster); truth velocities x1.3;
+ * - int16-uV: the files stored as int16 counts of 0.5 uV; truth unchanged;
+ * - resampled: the recordings at other rates (tests/fixtures/devset-variants/make_variants.py: the artifact
+ *   model subtracted, the rest resampled by SciPy's resample_poly, the artifact re-evaluated at the new times,
+ *   the rail applied); truth unchanged (ground_truth.json: sampling does not change a velocity; the script
+ *   checks that the resampled clean components keep their peak velocity).
  */
 import { mkdirSync, readFileSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
