@@ -11,6 +11,7 @@ import { methodsText } from '../report/methods';
 import { OptionError, InputError, ThreadError } from '../errors';
 import { studyFigureFiles } from '../plot/study';
 import { studyFigureList } from '../registry/index';
+import { bundleColumns, studyColumnUnits } from '../registry/columns';
 import { nwbReady } from '../io/nwbLib';
 
 export interface RunOptions {
@@ -120,7 +121,8 @@ function runInWorkers(
           resolvePromise(results);
         } else startOne(w);
       });
-      // a worker that dies (out of memory, exit, crash) ends the run with a clear error, never a hang or a silent exit 0
+      // a worker that dies (out of memory, exit, crash) ends the run with a clear error, never a hang or a silent
+      // exit 0
       let why = '';
       w.on('error', (e) => {
         why =
@@ -133,7 +135,8 @@ function runInWorkers(
         if (failed || prep === undefined) return;
         fail(
           new ThreadError(
-            `the --jobs worker thread processing preparation ${prep} ${why || `exited (code ${code})`} before it finished; ` +
+            `the --jobs worker thread processing preparation ${prep} ${why || `exited (code ${code})`} ` +
+              'before it finished; ' +
               'no bundle was written (try fewer --jobs, or --jobs 1)',
           ),
         );
@@ -196,6 +199,19 @@ export function manifestInputs(manifestPath: string): string[] {
   return [resolve(manifestPath), dir, ...m.files.map((f) => (isAbsolute(f.path) ? f.path : join(dir, f.path)))];
 }
 
+/**
+ * The tables a study's bundle holds: every table with rows (an analysis that had no data writes no file; the report
+ * and notes say why), and the flags table always (with its header when nothing was flagged); columns named in the
+ * bundle's style with their units (src/registry/columns.ts).
+ */
+export function bundleTables(study: Study): Record<string, Record<string, unknown>[]> {
+  const out: Record<string, Record<string, unknown>[]> = {};
+  const units = studyColumnUnits(study);
+  for (const [name, rows] of Object.entries(study.tables))
+    if (rows && (rows.length || name === 'flags')) out[name] = bundleColumns(name, rows, units);
+  return out;
+}
+
 /** Write the bundle of a combined study. */
 export async function writeStudyBundle(
   out: string,
@@ -213,13 +229,13 @@ export async function writeStudyBundle(
   if (figures) Object.assign(files, studyFigureFiles(studyFigureList(study)));
   let provenance = makeProvenance(study.history, study.sources, rerun);
   if (rerun?.manifest) provenance = relativeProvenance(provenance, rerun.manifest, out);
-  const methods = methodsText(study.history, { preparations, files: files0 });
+  const methods = methodsText(study.history, { ...(study.recording ?? {}), preparations, files: files0 });
   // one offline page with the summary, figures, tables, flags, methods and provenance (uses the bundle's plotly copy)
   files['report.html'] = reportHtml({ study, methods, provenance, bundle: true, ...(figures ? {} : { figures: [] }) });
   return writeBundle(
     out,
     {
-      tables: study.tables as unknown as Record<string, Record<string, unknown>[]>,
+      tables: bundleTables(study),
       methods,
       provenance,
       files: { ...files, 'notes.txt': study.notes.length ? study.notes.join('\n') + '\n' : 'no notes\n' },

@@ -84,9 +84,33 @@ export const doseResponse: AnalysisEntry<DoseResponseResult> = {
   },
   tables: [
     { name: 'dose_response_points', title: 'Dose-response points', always: true, bulk: true },
-    { name: 'dose_response_per_preparation', title: 'Dose-response fits per preparation', always: true },
-    { name: 'dose_response_summary', title: 'Dose-response summary', always: true },
-    { name: 'dose_response_comparisons', title: 'Dose-response comparisons', always: true },
+    {
+      name: 'dose_response_per_preparation',
+      title: 'Dose-response fits per preparation',
+      always: true,
+      columns: { ic50: 'ic50_{C}' },
+    },
+    {
+      name: 'dose_response_summary',
+      title: 'Dose-response summary',
+      always: true,
+      columns: {
+        ic50: 'ic50_{C}',
+        ic50_ci95_low: 'ic50_ci95_low_{C}',
+        ic50_ci95_high: 'ic50_ci95_high_{C}',
+        pooled_ic50: 'pooled_ic50_{C}',
+        pooled_ic50_profile_low: 'pooled_ic50_profile_low_{C}',
+        pooled_ic50_profile_high: 'pooled_ic50_profile_high_{C}',
+        bootstrap_ic50_low: 'bootstrap_ic50_low_{C}',
+        bootstrap_ic50_high: 'bootstrap_ic50_high_{C}',
+      },
+    },
+    {
+      name: 'dose_response_comparisons',
+      title: 'Dose-response comparisons',
+      always: true,
+      columns: { classA: 'class_a', classB: 'class_b', ic50A: 'ic50_a', ic50B: 'ic50_b', F: 'f' },
+    },
   ],
   figures: [
     {

@@ -166,7 +166,7 @@ export const mixed: AnalysisEntry<unknown> = {
   acrossPreparations: (ctx) => across(runMixed(ctx, ctx.prepTable('velocity'))),
   tables: [
     { name: 'mixed_coefficients', title: 'Mixed model: coefficients' },
-    { name: 'mixed_anova', title: 'Mixed model: tests of the fixed effects' },
+    { name: 'mixed_anova', title: 'Mixed model: tests of the fixed effects', columns: { F: 'f' } },
     { name: 'mixed_variance', title: 'Mixed model: variance components' },
   ],
   methods: {

@@ -56,7 +56,16 @@ export const pairedPulse: AnalysisEntry<PairedPulseResult> = {
   acrossPreparations: (ctx) => ({ steps: firstSteps(ctx, 'paired-pulse') }),
   tables: [
     { name: 'paired_pulse', title: 'Paired-pulse recovery points' },
-    { name: 'paired_pulse_summary', title: 'Paired-pulse recovery (ARP, R50, R90)' },
+    {
+      name: 'paired_pulse_summary',
+      title: 'Paired-pulse recovery (ARP, R50, R90)',
+      columns: {
+        r50_ci95_low: 'r50_ci95_low_ms',
+        r50_ci95_high: 'r50_ci95_high_ms',
+        r90_ci95_low: 'r90_ci95_low_ms',
+        r90_ci95_high: 'r90_ci95_high_ms',
+      },
+    },
   ],
   figures: [
     {

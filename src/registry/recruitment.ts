@@ -86,12 +86,37 @@ export const recruitment: AnalysisEntry<RecruitmentOutput> = {
       supramaximalFactor: o?.supramaximalFactor ?? recruitmentDefaults.supramaximalFactor,
       thresholdFraction: recruitmentDefaults.thresholdFraction,
       minLevels: o?.minLevels ?? recruitmentDefaults.minLevels,
+      // the response column fitted (the unit of maximum and floor)
+      measure: o?.measure ?? `amplitude_${ctx.units}`,
     };
     return { steps: [{ verb: 'recruitment', options, version: VERSION }] };
   },
   tables: [
-    { name: 'thresholds', title: 'Thresholds (lowest intensity with a detected component)', always: true },
-    { name: 'recruitment', title: 'Recruitment fits', always: true },
+    {
+      name: 'thresholds',
+      title: 'Thresholds (lowest intensity with a detected component)',
+      always: true,
+      // named for what it is: the lowest intensity detected in at least half the sweeps (not the fit's threshold)
+      columns: { threshold: 'lowest_detected_intensity_{I}' },
+    },
+    {
+      name: 'recruitment',
+      title: 'Recruitment fits',
+      always: true,
+      columns: {
+        // where the fitted Boltzmann curve reaches 5% of its range
+        threshold: 'fit_threshold_5pct_{I}',
+        i50: 'i50_{I}',
+        i50_ci95_low: 'i50_ci95_low_{I}',
+        i50_ci95_high: 'i50_ci95_high_{I}',
+        i95: 'i95_{I}',
+        supramaximal: 'supramaximal_{I}',
+        maximum: 'maximum_{R}',
+        maximum_ci95_low: 'maximum_ci95_low_{R}',
+        maximum_ci95_high: 'maximum_ci95_high_{R}',
+        floor: 'floor_{R}',
+      },
+    },
     { name: 'recruitment_points', title: 'Recruitment points', always: true, bulk: true },
   ],
   figures: [

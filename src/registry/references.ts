@@ -9,7 +9,7 @@ export const REFERENCES = {
   drc: 'Ritz C, Baty F, Streibig JC, Gerhard D (2015) Dose-response analysis using R. PLoS ONE 10:e0146021.',
   bates: 'Bates DM, Watts DG (1988) Nonlinear Regression Analysis and Its Applications. Wiley.',
   arrhenius:
-    'Arrhenius S (1889) Uber die Reaktionsgeschwindigkeit bei der Inversion von Rohrzucker durch Sauren. ' +
+    'Arrhenius S (1889) Über die Reaktionsgeschwindigkeit bei der Inversion von Rohrzucker durch Säuren. ' +
     'Z Phys Chem 4:226-248.',
   // from memory (as the paired-pulse module cites it)
   bostock:

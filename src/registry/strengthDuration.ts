@@ -81,7 +81,11 @@ export const strengthDuration: AnalysisEntry<StrengthDurationResult> = {
     return { steps: [{ verb: 'strengthDuration', options, version: VERSION }] };
   },
   tables: [
-    { name: 'strength_duration', title: 'Strength-duration fits' },
+    {
+      name: 'strength_duration',
+      title: 'Strength-duration fits',
+      columns: { criterionFraction: 'criterion_fraction' },
+    },
     { name: 'strength_duration_points', title: 'Strength-duration points', bulk: true },
   ],
   methods: { strengthDuration: strengthDurationSentence },

@@ -46,21 +46,39 @@ export function temperatureOf(tt: ComponentTable, o: PipelineOptions): Temperatu
   );
 }
 
+/** How a velocity measure was obtained ('regression peak velocity' -> 'the inverse slope of peak latency ...'). */
+function velocityHow(measure: string): string | null {
+  const m = /^(single-site|two-site|regression) (\w+) velocity$/.exec(measure);
+  if (!m) return measure === 'regression_velocity_m_s' ? 'the inverse slope of centroid latency on distance' : null;
+  const [, method, basis] = m;
+  if (method === 'regression') return `the inverse slope of ${basis} latency on distance`;
+  if (method === 'two-site')
+    return basis === 'xcorr' ? 'the two-site cross-correlation delay' : `the two-site delay of ${basis} latency`;
+  return `the ${basis} latency at one site`;
+}
+
+/** The quantity of a Q10 in words: a velocity with how it was obtained, or the column named. */
+export function measureWords(measure: string): string {
+  const how = velocityHow(measure);
+  return how ? `conduction velocity (from ${how})` : measure.replace(/_/g, ' ');
+}
+
 function temperatureSentence(step: Step) {
   const o = step.options as Record<string, unknown>;
-  const what =
-    o.measure === 'regression_velocity_m_s'
-      ? 'conduction velocity, itself from the regression of centroid latency on distance at each temperature'
-      : / velocity$/.test(String(o.measure))
-        ? `conduction velocity (${String(o.measure).replace(/ velocity$/, '')} latency) at each temperature`
-        : String(o.measure).replace(/_/g, ' ');
+  const byClass = (o.byClass ?? {}) as Record<string, string>;
+  const distinct = [...new Set(Object.values(byClass))];
+  let what: string;
+  if (distinct.length > 1) {
+    const each = Object.entries(byClass).map(([c, m]) => `${c}: from ${velocityHow(m) ?? m.replace(/_/g, ' ')}`);
+    what = `each class's conduction velocity (${each.join('; ')})`;
+  } else what = measureWords(String(distinct[0] ?? o.measure));
   return {
     text:
-      'Temperature dependence was summarised, from the measured values only, as Q10 from the regression of the ' +
-      `logarithm of ${what} on temperature and as the Arrhenius activation energy from the regression on the ` +
-      'inverse absolute temperature (Arrhenius 1889), each with preparation-specific intercepts and a t-based 95% ' +
-      'confidence interval (none when the residuals cannot estimate one: flat or exact data, or no residual degree ' +
-      'of freedom).',
+      `Temperature dependence was summarised from the measured values only: the natural logarithm of ${what} at ` +
+      'each temperature was regressed on temperature, giving Q10 = exp(10 × slope), and on the inverse absolute ' +
+      'temperature, giving the Arrhenius activation energy Ea = −R × slope (Arrhenius 1889); both regressions had ' +
+      'preparation-specific intercepts, and each estimate has a t-based 95% confidence interval (none when the ' +
+      'residuals cannot estimate one: flat or exact data, or no residual degree of freedom).',
     refs: [REFERENCES.arrhenius],
   };
 }
@@ -162,6 +180,7 @@ export const temperature: AnalysisEntry<TemperatureResult> = {
             verb: 'temperature',
             options: {
               measure: rows[0].measure,
+              byClass: Object.fromEntries(rows.map((r) => [String(r.class), String(r.measure)])),
               model: 'log-linear (Q10) and Arrhenius, preparation-specific intercepts',
             },
             version: VERSION,
@@ -171,7 +190,12 @@ export const temperature: AnalysisEntry<TemperatureResult> = {
     return { tables: { temperature: rows, temperature_points: tp }, steps };
   },
   tables: [
-    { name: 'temperature', title: 'Temperature dependence (Q10, activation energy)', always: true },
+    {
+      name: 'temperature',
+      title: 'Temperature dependence (Q10, activation energy)',
+      always: true,
+      columns: { ea_ci95_low: 'ea_ci95_low_kJ_mol', ea_ci95_high: 'ea_ci95_high_kJ_mol' },
+    },
     { name: 'temperature_points', title: 'Temperature points', always: true, bulk: true },
   ],
   figures: [

@@ -22,8 +22,12 @@ export interface TableSpec {
   name: string;
   /** readable title (report.html) */
   title: string;
-  /** units of the numeric columns whose name does not end in its unit ('1': dimensionless; 'count') */
-  units?: Record<string, string>;
+  /**
+   * bundle names of result columns whose own name lacks its unit or the naming style (snake_case, unit last):
+   * `{I}` is filled with the row's intensityUnit, `{C}` its concentrationUnit, `{R}` the response's unit
+   * (src/registry/columns.ts; conditions such as distanceMm -> distance_mm are renamed for every table)
+   */
+  columns?: Record<string, string>;
   /** long per-sweep or per-point table: shown closed on screen, left out of print */
   bulk?: boolean;
   /** written (possibly empty) whenever the study is combined, not only when the analysis produced it */

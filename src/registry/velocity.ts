@@ -74,7 +74,7 @@ const sayEstimator = (e?: E) =>
 function velocitySentence(step: Step): { text: string } {
   const rec = step.options.recommended as { fastest?: E; unmyelinated?: E; other?: E } | undefined;
   const recommended = rec?.fastest
-    ? ` The velocity reported (and used for Q10) was, for the fastest class, ${sayEstimator(rec.fastest)}; ` +
+    ? ` The velocity reported was, for the fastest class, ${sayEstimator(rec.fastest)}; ` +
       `for unmyelinated classes, ${sayEstimator(rec.unmyelinated)}; for other classes, ${sayEstimator(rec.other)}.`
     : '';
   const u = 100 * NEGATIVE_UTILISATION_FRACTION,

@@ -22,26 +22,45 @@ import type { Step, Source } from '../sweeps/SweepSet';
 import { InputError, OutputError, systemReason } from '../errors';
 import { VERSION } from '../version';
 
+/** The columns of the flags table (its header when nothing was flagged). */
+const FLAG_COLUMNS = ['preparation', 'analysis', 'class', 'where', 'severity', 'status', 'reason', 'rows'];
+
+/** Significant digits of a number in a CSV table by default (the JSON twin keeps full precision). */
+export const CSV_DIGITS = 8;
+
 /**
- * A CSV cell: numbers as shortest round-trip text; a string that starts with = + - @ (or
+ * A CSV cell: a number rounded to `digits` significant digits (default 8; 0 or Infinity keeps the shortest
+ * round-trip text of the full value), written as the shortest text of the rounded value (0.16000000000000014 ->
+ * 0.16); a string that starts with = + - @ (or
  * tab / carriage return) gets a leading apostrophe so spreadsheets do not run it as a
  * formula (common practice for spreadsheet safety, no source); a string is quoted when it
  * holds a quote, a line break or the field delimiter of any common locale (, ; tab), so a
  * spreadsheet that splits on any of them keeps the cell whole.
  */
-export function csvCell(v: unknown): string {
+export function csvCell(v: unknown, digits: number = CSV_DIGITS): string {
   if (v === null || v === undefined) return '';
-  if (typeof v === 'number')
-    return Number.isFinite(v) ? String(v) : Number.isNaN(v) ? 'NaN' : v > 0 ? 'Infinity' : '-Infinity';
+  if (typeof v === 'number') {
+    if (!Number.isFinite(v)) return Number.isNaN(v) ? 'NaN' : v > 0 ? 'Infinity' : '-Infinity';
+    return String(digits >= 1 && digits <= 100 && !Number.isInteger(v) ? Number(v.toPrecision(digits)) : v);
+  }
   if (typeof v === 'boolean') return v ? 'true' : 'false';
   let s = Array.isArray(v) ? v.join(' ') : typeof v === 'object' ? JSON.stringify(v) : String(v);
   if (/^[=+\-@\t\r]/.test(s)) s = "'" + s;
   return /[",;\t\n\r]/.test(s) ? `"${s.replace(/"/g, '""')}"` : s;
 }
 
-export function toCsv(rows: readonly Record<string, unknown>[]): string {
-  const cols = [...new Set(rows.flatMap((r) => Object.keys(r)))];
-  return [cols.map(csvCell).join(','), ...rows.map((r) => cols.map((c) => csvCell(r[c])).join(','))].join('\n') + '\n';
+/**
+ * A table as CSV: one header line (the union of the rows' keys, in first-seen order, or `columns` when given), then
+ * one line per row; numbers rounded to `digits` significant digits (default 8).
+ */
+export function toCsv(
+  rows: readonly Record<string, unknown>[],
+  options: { digits?: number; columns?: readonly string[] } = {},
+): string {
+  const digits = options.digits ?? CSV_DIGITS;
+  const cols = options.columns ? [...options.columns] : [...new Set(rows.flatMap((r) => Object.keys(r)))];
+  const line = (r: Record<string, unknown>) => cols.map((c) => csvCell(r[c], digits)).join(',');
+  return [cols.map((c) => csvCell(c)).join(','), ...rows.map(line)].join('\n') + '\n';
 }
 
 export interface Provenance {
@@ -235,7 +254,8 @@ export function checkOutput(dir: string, inputs: readonly string[] = []): void {
   if (entries.length === 0 || entries.includes(BUNDLE_MARKER) || isLegacyBundle(target)) return;
   throw refuse(
     `the folder is not empty and is not a bundle written by fascicle (it has no ${BUNDLE_MARKER} file), ` +
-      "so replacing it would delete your files; give --out a new or empty folder, or move that folder's files away yourself",
+      'so replacing it would delete your files; give --out a new or empty folder, ' +
+      "or move that folder's files away yourself",
   );
 }
 
@@ -336,7 +356,7 @@ export function writeBundle(dir: string, c: BundleContent, opts: { inputs?: read
     );
     for (const [name, rows] of Object.entries(c.tables)) {
       current = `tables/${name}.csv`;
-      put(current, toCsv(rows));
+      put(current, toCsv(rows, name === 'flags' && !rows.length ? { columns: FLAG_COLUMNS } : {}));
       current = `tables/${name}.json`;
       put(current, JSON.stringify(rows, null, 1) + '\n');
     }

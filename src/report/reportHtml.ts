@@ -17,6 +17,7 @@ import { plotlyJs } from '../plot/figure';
 import { plainTitle } from '../plot/export';
 import { unitText, plainText } from '../plot/labels';
 import { studyFigureList, tableSpec } from '../registry/index';
+import { bundleColumns, studyColumnUnits } from '../registry/columns';
 import { escapeHtml, formatCell, tableHtml, displayHtml } from '../notebook/html';
 import { checkKeys } from '../validate';
 
@@ -154,6 +155,7 @@ function perPreparationHtml(study: Study): string {
   const preps = [...new Set(t.components.map((r) => String(r.preparation ?? '')))].sort();
   const of = (rows: readonly Row[], p: string) => rows.filter((r) => String(r.preparation ?? '') === p);
   const parts: string[] = [];
+  const named = (table: string, rows: Row[]) => bundleColumns(table, rows as never, studyColumnUnits(study));
   for (const p of preps) {
     const v = of(t.velocity, p).filter((r) => r.recommended === true);
     const rc = of(t.recruitment, p);
@@ -174,7 +176,8 @@ function perPreparationHtml(study: Study): string {
         'status',
         'reason',
       ];
-      sec.push(tableHtml(pick(v, cols), { caption: 'Conduction velocity (recommended estimator)', sortable: true }));
+      const caption = 'Conduction velocity (recommended estimator)';
+      sec.push(tableHtml(named('velocity', pick(v, cols)), { caption, sortable: true }));
     }
     if (rc.length) {
       const cols = [
@@ -189,9 +192,12 @@ function perPreparationHtml(study: Study): string {
         'maximum',
         'status',
       ];
-      sec.push(tableHtml(pick(rc, cols), { caption: 'Recruitment', sortable: true }));
+      sec.push(tableHtml(named('recruitment', pick(rc, cols)), { caption: 'Recruitment', sortable: true }));
     }
-    if (dr.length) sec.push(tableHtml(dr, { caption: 'Dose-response fits', sortable: true }));
+    if (dr.length)
+      sec.push(
+        tableHtml(named('dose_response_per_preparation', dr), { caption: 'Dose-response fits', sortable: true }),
+      );
     sec.push(
       `<p>${fl.length ? `<a href="#table-flags">${plural(fl.length, 'flag')}</a>` : 'no flags'} ` +
         `for this preparation.</p>`,
@@ -219,11 +225,17 @@ function tablesHtml(study: Study, bundle: boolean): { html: string; toc: string[
     const file = bundle ? ` (<a href="tables/${n}.csv">CSV</a>, <a href="tables/${n}.json">JSON</a>)` : '';
     toc.push(`<a href="#${id}">${escapeHtml(title)}</a>`);
     if (!rows.length) {
+      // an analysis without data writes no table file: say so, and why
       const why = emptyReason(study, name);
-      parts.push(`<section id="${id}"><h3>${escapeHtml(title)}</h3><p>No rows: ${why}.</p></section>`);
+      const absent = bundle ? ' (no file in tables/)' : '';
+      parts.push(`<section id="${id}"><h3>${escapeHtml(title)}</h3><p>No rows${absent}: ${why}.</p></section>`);
       continue;
     }
-    const table = tableHtml(rows, { sortable: true, maxRows: 2000 });
+    // the columns as the bundle's files name them
+    const table = tableHtml(bundleColumns(name, rows as never, studyColumnUnits(study)), {
+      sortable: true,
+      maxRows: 2000,
+    });
     const cols = new Set(rows.flatMap((r) => Object.keys(r))).size;
     const printNote =
       `<p class="print-note">${plural(rows.length, 'row')} of ${cols} columns; not printed` +

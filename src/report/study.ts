@@ -28,6 +28,69 @@ export interface PrepOutput {
   history: Step[];
   sources: Source[];
   notes: string[];
+  /** how the preparation was recorded and how many sweeps were measured (for the methods text) */
+  recording?: Recording;
+}
+
+/** How a preparation (or a study) was recorded: what the methods text states beside the history. */
+export interface Recording {
+  /** sampling rates (Hz), distinct */
+  sampleRatesHz: number[];
+  /** sweeps given to the pipeline */
+  sweeps: number;
+  /** sweeps measured (after QC removal and averaging of repeats) */
+  measured: number;
+  /** distinct recording temperatures (°C) of the measured sweeps; [] when none was given */
+  temperaturesC: number[];
+  /** the sweeps' `preparationType` condition values ('in vitro', 'in vivo', ...), distinct; [] when none */
+  preparationTypes: string[];
+  /** recording configurations: 'bipolar' (a reference contact distance given), else 'monopolar' */
+  configurations: string[];
+}
+
+const distinct = <T>(xs: T[]): T[] => [...new Set(xs)].sort();
+
+/** The recording of one preparation's sweeps (the set given, and the measured one). */
+function recordingOf(input: SweepSet, measured: SweepSet, o: PipelineOptions): Recording {
+  const temps = measured.conditions.map((c) => c.temperatureC).filter((t): t is number => typeof t === 'number');
+  const fixed = o.components?.temperatureC;
+  const types = input.conditions.map((c) => c.preparationType).filter((t): t is string => typeof t === 'string');
+  const bipolar = (c: Record<string, ConditionValue>) =>
+    typeof c.referenceDistanceMm === 'number' || typeof o.components?.referenceDistanceMm === 'number';
+  return {
+    sampleRatesHz: [input.fs],
+    sweeps: input.nSweeps,
+    measured: measured.nSweeps,
+    temperaturesC: typeof fixed === 'number' ? [fixed] : distinct(temps),
+    preparationTypes: distinct(types),
+    configurations: distinct(measured.conditions.map((c) => (bipolar(c) ? 'bipolar' : 'monopolar'))),
+  };
+}
+
+/** The recording of a study: its preparations' together. */
+function studyRecording(ps: readonly PrepOutput[]): Recording | undefined {
+  const rs = ps.map((p) => p.recording).filter((r): r is Recording => !!r);
+  if (!rs.length) return undefined;
+  return {
+    sampleRatesHz: distinct(rs.flatMap((r) => r.sampleRatesHz)),
+    sweeps: rs.reduce((n, r) => n + r.sweeps, 0),
+    measured: rs.reduce((n, r) => n + r.measured, 0),
+    temperaturesC: distinct(rs.flatMap((r) => r.temperaturesC)),
+    preparationTypes: distinct(rs.flatMap((r) => r.preparationTypes)),
+    configurations: distinct(rs.flatMap((r) => r.configurations)),
+  };
+}
+
+/**
+ * The study's averaging step: one averageRepeats step counting the sweeps of every preparation (each
+ * preparation's own history counts only its own).
+ */
+function mergeAveraging(history: Step[], ps: readonly PrepOutput[]): Step[] {
+  const steps = ps.map((p) => p.history.find((h) => h.verb === 'averageRepeats')).filter((h): h is Step => !!h);
+  if (steps.length < 2) return history;
+  const sum = (k: string) => steps.reduce((n, h) => n + Number(h.options[k] ?? 0), 0);
+  const merged: Step = { ...steps[0], options: { ...steps[0].options, sweeps: sum('sweeps'), groups: sum('groups') } };
+  return history.map((h) => (h.verb === 'averageRepeats' ? merged : h));
 }
 
 /** The tables of a combined study: components, each registered analysis's tables, and flags. */
@@ -85,6 +148,8 @@ export interface Study {
   groups?: GroupComparison | null;
   mixed?: MixedModelResult | null;
   units: string;
+  /** how the study was recorded (sampling rates, sweeps, temperatures, preparation types, configurations) */
+  recording?: Recording;
   /** numbers computed (velocities, I50s, IC50s, Q10s, strength-duration rows); 0 = nothing at all could be computed */
   computed: number;
 }
@@ -110,6 +175,7 @@ export function runPreparation(set: SweepSet, o: PipelineOptions): PrepOutput {
     history: a.table.history.map((h) => strip(h) as unknown as Step),
     sources: [...set.sources],
     notes: a.notes,
+    recording: recordingOf(set, a.table.set, o),
   };
 }
 
@@ -120,7 +186,7 @@ export function combineStudy(parts: PrepOutput[], o: PipelineOptions): Study {
   const components = ps.flatMap((p) => p.components);
   const notes = ps.flatMap((p) => p.notes);
   const flags: Row[] = ps.flatMap((p) => p.flags ?? []);
-  let history: Step[] = [...(ps[0]?.history ?? [])];
+  let history: Step[] = mergeAveraging([...(ps[0]?.history ?? [])], ps);
   for (const e of ANALYSES)
     if (e.studyHistory)
       history = e.studyHistory(
@@ -166,6 +232,7 @@ export function combineStudy(parts: PrepOutput[], o: PipelineOptions): Study {
     doseResponse: (results['dose-response'] as DoseResponseResult | undefined) ?? null,
     groups: (results.groups as GroupComparison | undefined) ?? null,
     mixed: (results.mixed as MixedModelResult | undefined) ?? null,
+    recording: studyRecording(ps),
     computed: computedCount(tables),
     tables: tables as StudyTables,
   };

@@ -136,7 +136,7 @@ describe('fascicle run with the optional analyses', () => {
   });
   it('the corrupted sweep is removed and listed; the recovery matches the simulated fibres', () => {
     const removed = table('sweeps_removed');
-    expect(removed.map((q) => [q.preparation, q.file, q.fileSweep])).toContainEqual(['C1', 'C1-distance.csv', 2]);
+    expect(removed.map((q) => [q.preparation, q.file, q.file_sweep])).toContainEqual(['C1', 'C1-distance.csv', 2]);
     const truth = pairedPulseTruth(model(), drawFibers(model(), 30), rc, isis).find((t) => t.name === 'A-alpha/beta')!;
     const s = table('paired_pulse_summary').find((q) => q.class === 'A-alpha/beta')!;
     console.log('CLI paired pulse: R50', s.r50_ms, 'vs', truth.r50Ms, '; ARP', s.arp_ms, 'vs', truth.arpMs);

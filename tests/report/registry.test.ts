@@ -18,6 +18,8 @@ import { ANALYSES, tableSpecs, studyFigureList, stageOf } from '../../src/regist
 import { sentenceFor } from '../../src/registry/sentences';
 import { ComponentTable } from '../../src/measure/table';
 import * as api from '../../src';
+import { bundleTables } from '../../src/cli/engine';
+import { CONDITION_COLUMNS, apiColumns } from '../../src/registry/columns';
 
 const m0 = rodentSciatic();
 // the two myelinated classes (the model's own velocities and IC50s; two classes so that the dose-response compares
@@ -194,4 +196,83 @@ describe('analysis registry', () => {
       }
     }
   });
+
+  it('bundle columns: one style (snake_case, unit last), a unit on every numeric column that has one', () => {
+    const t = bundleTables(everything);
+    const unitless = new Set<string>();
+    const style: string[] = [];
+    for (const [name, rows] of Object.entries(t)) {
+      const cols = new Set(rows.flatMap((r) => Object.keys(r)));
+      for (const c of cols) {
+        if (!/^[a-z0-9]+(_[A-Za-z0-9%]+)*$/.test(c) || c in CONDITION_COLUMNS) style.push(`${name}.${c}`);
+        const numeric = rows.some((r) => typeof r[c] === 'number' && !Number.isInteger(r[c]));
+        if (numeric && !/_(ms|s|m_s|mm|uV|mV|V|uV_ms|mV_ms|C|kJ_mol|Hz|mA|uA|uM|nM|mM|unit)$/.test(c))
+          unitless.add(`${name}.${c}`);
+      }
+      // the bundle names map back to the analyses' own keys
+      const back = apiColumns(name, t[name] as never);
+      const own = (everything.tables[name] ?? []) as Record<string, unknown>[];
+      back.forEach((r, i) => {
+        for (const [k, v] of Object.entries(own[i])) expect(r[k], `${name}[${i}].${k}`).toEqual(v);
+      });
+    }
+    expect(style, 'columns not in snake_case with the unit last').toEqual([]);
+    // the thresholds are named for what they are, with the intensity unit
+    expect(Object.keys(t.thresholds[0])).toContain('lowest_detected_intensity_mA');
+    expect(Object.keys(t.recruitment[0])).toEqual(expect.arrayContaining(['fit_threshold_5pct_mA', 'i50_mA']));
+    expect(Object.keys(t.recruitment[0])).toContain('maximum_uV');
+    console.log('numeric columns without a unit suffix (dimensionless):', [...unitless].sort().join(', '));
+    const left = [...unitless].filter((c) => !DIMENSIONLESS.test(c.split('.')[1]) && !NO_UNIT_YET.has(c));
+    expect(left, 'numeric columns without a unit').toEqual([]);
+  });
 });
+
+/**
+ * Numeric columns whose unit is not yet in the name (listed in DEVELOPERS.md, "Tables of a bundle"): the unit is
+ * that of a column beside them (intensity_unit, concentration_unit, the analysed value or measure) or of the user's
+ * value (group statistics, mixed model). A new unit-less column fails the test above.
+ */
+const NO_UNIT_YET = new Set([
+  'components.concentration',
+  'components.intensity',
+  'recruitment_points.intensity',
+  'recruitment_points.response',
+  'dose_response_points.concentration',
+  'dose_response_points.response',
+  'dose_response_points.baseline',
+  'dose_response_comparisons.ic50_a',
+  'dose_response_comparisons.ic50_b',
+  'strength_duration.rheobase',
+  'strength_duration.rheobase_ci95_low',
+  'strength_duration.rheobase_ci95_high',
+  'strength_duration.lapicque_rheobase',
+  'strength_duration.weiss_rss',
+  'strength_duration.lapicque_rss',
+  'strength_duration_points.criterion',
+  'strength_duration_points.criterion_ci95_low',
+  'strength_duration_points.criterion_ci95_high',
+  'temperature_points.value',
+  'group_summary.mean',
+  'group_summary.sd',
+  'group_summary.sem',
+  'group_summary.ci95_low',
+  'group_summary.ci95_high',
+  'group_tests.estimate',
+  'group_tests.ci95_low',
+  'group_tests.ci95_high',
+  'mixed_coefficients.estimate',
+  'mixed_coefficients.se',
+  'mixed_coefficients.ci95_low',
+  'mixed_coefficients.ci95_high',
+  'mixed_variance.residual_variance',
+  'velocity_distribution.amplitude',
+  'velocity_distribution_residuals.noise_sd',
+  'velocity_distribution_residuals.rms_data',
+  'velocity_distribution_residuals.rms_residual',
+]);
+
+/** Dimensionless quantities: ratios, fractions, slopes, scores, p values, fit statistics, normalised values. */
+const DIMENSIONLESS = new RegExp(
+  '^(log10_.*|.*ratio.*|.*fraction.*|.*_pct|hill.*|pooled_hill|q10.*|p|p_.*|r2|f|t|df|den_df|statistic|' +
+    '.*score.*|normalized|bottom|pooled_bottom|slope_log10|chi2_per_sample|relative_residual|reml_deviance)$',
+);
