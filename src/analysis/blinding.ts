@@ -103,6 +103,37 @@ export function checkBlindingKey(key: BlindingKey, codes: readonly string[], con
   return new Map(Object.entries(key.codes));
 }
 
+/** The reference of the blinding sentences. */
+export const BLINDING_REFERENCE =
+  'Percie du Sert N, Hurst V, Ahluwalia A, et al. (2020) The ARRIVE guidelines 2.0: updated guidelines for ' +
+  'reporting animal research. PLoS Biol 18:e3000410.';
+
+/**
+ * The methods sentence of a 'blinding' or 'unblind' history step (null for other steps). Neither names the time or
+ * the key (they are in the provenance), so a rerun gives the same text.
+ */
+export function blindingSentence(step: Step): { text: string; refs: readonly string[] } | null {
+  const o = step.options as Record<string, unknown>;
+  const cond = String(o.condition ?? blindingDefaults.condition);
+  if (step.verb === 'blinding') {
+    const n = Array.isArray(o.codes) ? o.codes.length : 0;
+    return {
+      text:
+        `The analysis was blinded (ARRIVE 2.0 item 5; Percie du Sert et al. 2020): the ${cond} of every sweep was ` +
+        `given as one of ${n} codes and analysed as such, with the key kept outside the study.`,
+      refs: [BLINDING_REFERENCE],
+    };
+  }
+  if (step.verb === 'unblind')
+    return {
+      text:
+        'The blinding key was applied after the analysis (when, the key file and its SHA-256 are in the ' +
+        `provenance), and the results were recomputed with the real ${cond} labels.`,
+      refs: [BLINDING_REFERENCE],
+    };
+  return null;
+}
+
 /** The history step of an unblinding. */
 export function unblindStep(key: BlindingKey, condition: string, map: Map<string, string>, appliedAt?: string): Step {
   const name = key.file === null ? null : (key.file.split(/[\\/]/).pop() ?? key.file);

@@ -19,7 +19,8 @@ import { flagReport, FLAG_LINE_CAP } from './flags';
 import { combineStudy, type Study } from '../report/study';
 import { verifyInputs, checkOutput, type Provenance } from '../report/bundle';
 import { readManifestJson, readBlindingKey, type BlindingKey } from '../io/manifest';
-import { unblindOutputs, unblindPipelineOptions, checkBlindingKey } from '../analysis/blinding';
+import { unblindOutputs, unblindPipelineOptions, checkBlindingKey, blindingSentence } from '../analysis/blinding';
+import { registerSentence, sentenceFor } from '../registry/sentences';
 import type { Step } from '../sweeps/SweepSet';
 import { InputError, AnalysisError, OptionError, OutputError, ConfigError, ThreadError, systemReason } from '../errors';
 import { nearest, didYouMean } from '../validate';
@@ -137,6 +138,9 @@ const FLAG_OPTIONS: Record<string, string[]> = {
 };
 
 class UsageError extends Error {}
+
+// the methods sentences of a blinded run and of an unblinding (unless the registry words them already)
+for (const verb of ['blinding', 'unblind']) if (!sentenceFor(verb)) registerSentence(verb, blindingSentence);
 
 /** The study's sweeps (conditioned as the pipeline conditions them, or as acquired) and result tables as NWB. */
 async function writeStudyNwb(manifest: string, path: string, raw: boolean, study: Study): Promise<void> {

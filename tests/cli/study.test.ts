@@ -98,6 +98,9 @@ describe('fascicle run on a blinded two-group study: the five study-design featu
     // the codes are the labels everywhere
     const labels = new Set(tableOf(b, 'group_summary').map((q) => q.group));
     expect([...labels].sort()).toEqual(['K1', 'K2']);
+    expect(readFileSync(join(b, 'methods.txt'), 'utf8')).toMatch(
+      /the group of every sweep was given as one of 2 codes/,
+    );
     expect(readFileSync(join(b, 'report.html'), 'utf8')).not.toMatch(/>(control|treated)<|group=(control|treated)/);
   });
   it('QC: the sweep held on the rail is the one removed, and the methods text says so', () => {
@@ -163,7 +166,15 @@ describe('fascicle run on a blinded two-group study: the five study-design featu
       expect(readdirSync(join(real, 'tables')).sort()).toEqual(names);
       for (const f of names)
         expect(readFileSync(join(real, 'tables', f), 'utf8'), f).toBe(readFileSync(join(o, 'tables', f), 'utf8'));
-      expect(readFileSync(join(real, 'methods.txt'), 'utf8')).toBe(readFileSync(join(o, 'methods.txt'), 'utf8'));
+      // the methods text: the open run's, plus the blinding sentences and their reference (ARRIVE 2.0)
+      const m = readFileSync(join(real, 'methods.txt'), 'utf8');
+      expect(m).toMatch(/The analysis was blinded \(ARRIVE 2\.0 item 5; Percie du Sert et al\. 2020\)/);
+      expect(m).toMatch(/The blinding key was applied after the analysis/);
+      const plain = m
+        .replace(/ The analysis was blinded [^.]*\([^)]*\)[^.]*\./, '')
+        .replace(/ The blinding key was applied [^.]*\([^)]*\)[^.]*\./, '')
+        .replace(/\nPercie du Sert N[^\n]*/, '');
+      expect(plain).toBe(readFileSync(join(o, 'methods.txt'), 'utf8'));
       // figures: the same but for each page's random element id
       const noId = (s: string) => s.replace(/fascicle-fig-[a-z0-9]+-/g, 'ID-');
       for (const f of readdirSync(join(o, 'figures')).filter((x) => x.endsWith('.html')))
