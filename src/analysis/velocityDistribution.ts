@@ -867,6 +867,15 @@ export function velocityDistribution(
   }
   if (!sfpGiven && (method !== 'decomposition' || sfpModel !== 'two-phase' || sfpRefine)) {
     const initU = shape ? Float64Array.from(u) : null;
+    // refining a two-phase potential: the amplitudes are held to the support GCV gives for that potential, so that
+    // empty ends of the grid cannot trade with the potential's after-phase while it is refined
+    let est: [number, number] = [0, K];
+    if (shape && supportOpt === 'gcv') {
+      const g0 = gram(designMatrix(blocks, bases, model, sfp), nRows, K, b);
+      const abs = (lambdaOpt === 'gcv' ? alternationLambda : (lambdaOpt as number)) * (trG(g0.G, K) / trG(R, K));
+      const sp = supportByGcv(g0.G, g0.c, g0.bb, R, K, abs, nRows, nNuis);
+      est = [sp.lo, sp.hi];
+    }
     if (method === 'two-distance') {
       u = twoDistanceSolve(blocks, model, twoLambda).u;
     } else u = initU ?? new Float64Array(K).fill(1 / K);
@@ -903,7 +912,11 @@ export function velocityDistribution(
         break;
       }
       const scale = trG(gg.G, K) / trG(R, K);
-      u = solveU(gg.G, gg.c, gg.bb, R, K, lamRel * scale, false).u;
+      if (est[0] > 0 || est[1] < K) {
+        const sp = subProblem(gg.G, gg.c, R, K, est[0], est[1]);
+        u = new Float64Array(K);
+        u.set(solveU(sp.G, sp.c, gg.bb, sp.R, sp.m, lamRel * scale, false).u, est[0]);
+      } else u = solveU(gg.G, gg.c, gg.bb, R, K, lamRel * scale, false).u;
       // line-search extrapolation of the alternation (as used to speed up alternating least squares,
       // Bro 1998): try (u, g) + a ((u, g) - previous) for a = 2, 4, 8 and keep the best objective
       if (prevG && iter >= 3) {
