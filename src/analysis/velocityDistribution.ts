@@ -50,7 +50,7 @@
  */
 import type { SweepSet, ConditionValue, Step, Source } from '../sweeps/SweepSet';
 import type { Figure } from '../plot/figure';
-import { Result } from '../report/result';
+import { Result } from '../notebook/result';
 import { AnalysisError, OptionError } from '../errors';
 import { checkKeys, finite, integerIn, oneOf, positive, windowMs, shown } from '../validate';
 import { resolvePreset, scaledRange, type ClassPreset, type FiberClass } from '../measure/classes';

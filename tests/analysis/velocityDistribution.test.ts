@@ -2,6 +2,8 @@ import { describe, it, expect, beforeAll } from 'vitest';
 import { readFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { SweepSet } from '../../src/sweeps/SweepSet';
+// the report layer hands results their methods text and bundle writer when loaded (as the package index does)
+import '../../src/report/result';
 import {
   velocityDistribution,
   velocityDistributionDefaults,
