@@ -606,9 +606,11 @@ export function structuralChecks(run: VariantRun): Structural[] {
       if (v.sites.length < 2) {
         // two-site velocities are impossible with one site: none may be a number, and the run must say so
         const two = vrows.filter((q) => q.method === 'two-site' || q.method === 'regression');
+        // a flag or note about the missing estimates: it names two-site (two distances) or regression velocity
+        const about = /(two|2|second).?(site|distance)|regression/i;
         const said =
-          r.flags.some((f) => f.analysis === 'velocity' && /site|distance/i.test(f.reason)) ||
-          r.notes.some((s) => /two.?site|distance/i.test(s));
+          r.flags.some((f) => f.analysis === 'velocity' && about.test(`${f.status} ${f.reason}`)) ||
+          r.notes.some((q) => about.test(q));
         add(
           `${key}: no two-site or regression velocity from one site, and it is said`,
           two.every((q) => num(q.velocity_m_s) === null) && said,
