@@ -334,6 +334,36 @@ const VARIANTS: Variant[] = [
     sites: MONO,
   },
   {
+    name: 'combined',
+    describe:
+      'resampled (40/16 kHz) + 60 Hz hum (slow) + inverted + distances x1.3 + int16 counts of 0.5 uV at once, ' +
+      'temperature and dose series; truth: velocities x1.3, the rest unchanged',
+    recordings: (w) =>
+      [
+        resampled('temperature', w, w === 'fast' ? 40000 : 16000),
+        resampled('dose_response', w, w === 'fast' ? 40000 : 16000),
+      ]
+        .map((r) => (w === 'slow' ? addHum60(r) : r))
+        .map((r) => mapSweeps(r, (x) => x.map((v) => -v)))
+        .map((r) => ({
+          ...r,
+          channels: r.channels.map((ch) => ({
+            ...ch,
+            conditions: { ...ch.conditions, distanceMm: (ch.conditions.distanceMm as number) * 1.3 },
+          })),
+        })),
+    analysis: (w) => {
+      const a = baseAnalysis(w);
+      if (a.hum) a.hum = { ...a.hum, frequency: 60 };
+      if (a.filter) a.filter = { ...a.filter, cutoff: 4000 };
+      return a;
+    },
+    polarity: -1,
+    sites: MONO,
+    distanceScale: 1.3,
+    storage: { dtype: 'int16', gainUv: 0.5 },
+  },
+  {
     name: 'resampled-100k',
     describe: 'fast window 50 -> 100 kHz (SciPy resample_poly), temperature series only; truth unchanged',
     recordings: () => [resampled('temperature', 'fast', 100000)],
@@ -421,7 +451,7 @@ console.log(
  * Keys: `<variant> | <quantity> | <class> | <where> | <estimator>` and `<variant> | <structural check>`.
  * The run prints "NOT_YET out of date" with the keys to add or remove when the list no longer matches.
  */
-// last updated 10:51 UTC from `npx vitest run tests/external/variants.test.ts --maxWorkers=1`
+// last updated 11:03 UTC from `npx vitest run tests/external/variants.test.ts --maxWorkers=1`
 const NOT_YET = new Set<string>([
   'absent-classes | slow|temperature C (absent): no detection and no velocity',
   'artifact-biphasic | Hill slope | A-delta | 15 mm | Hill fit',
@@ -513,6 +543,23 @@ const NOT_YET = new Set<string>([
   'bipolar-inverted | velocity m/s | A-delta | 25 C | none recommended, so (single-site peak)',
   'bipolar-inverted | velocity m/s | A-delta | 30 C | none recommended, so (single-site peak)',
   'bipolar-inverted | velocity m/s | A-delta | 37 C | none recommended, so (single-site peak)',
+  'combined | Hill slope | A-delta | 19.5 mm | Hill fit',
+  'combined | Hill slope | C | 19.5 mm | Hill fit',
+  'combined | Hill slope | C | 32.5 mm | Hill fit',
+  'combined | IC50 uM | C | 19.5 mm | Hill fit',
+  'combined | IC50 uM | C | 32.5 mm | Hill fit',
+  'combined | Q10 | C | 20-37 C | regression centroid',
+  'combined | fast|temperature: A-delta detected in every supramaximal sweep',
+  'combined | velocity m/s | A-delta | 20 C | recommended (two-site xcorr)',
+  'combined | velocity m/s | A-delta | 20 C | two-site peak',
+  'combined | velocity m/s | A-delta | 25 C | recommended (two-site xcorr)',
+  'combined | velocity m/s | A-delta | 25 C | two-site peak',
+  'combined | velocity m/s | A-delta | 30 C | recommended (two-site xcorr)',
+  'combined | velocity m/s | A-delta | 30 C | two-site peak',
+  'combined | velocity m/s | A-delta | 37 C | recommended (two-site xcorr)',
+  'combined | velocity m/s | A-delta | 37 C | two-site peak',
+  'combined | velocity m/s | C | 37 C | recommended (regression centroid)',
+  'combined | velocity m/s | C | 37 C | two-site peak',
   'distances-x1.3 | velocity m/s | A-delta | 20 C | recommended (two-site xcorr)',
   'distances-x1.3 | velocity m/s | A-delta | 20 C | two-site peak',
   'distances-x1.3 | velocity m/s | A-delta | 25 C | recommended (two-site xcorr)',
@@ -597,9 +644,8 @@ const NOT_YET = new Set<string>([
   'populations-small-delta | velocity m/s | C | 37 C | recommended (regression centroid)',
   'populations-small-delta | velocity m/s | C | 37 C | two-site peak',
   'resampled | Hill slope | A-delta | 15 mm | Hill fit',
-  'resampled | Hill slope | A-delta | 25 mm | Hill fit',
   'resampled | Hill slope | C | 25 mm | Hill fit',
-  'resampled | IC50 uM | A-delta | 15 mm | Hill fit',
+  'resampled | IC50 uM | A-delta | 25 mm | Hill fit',
   'resampled | IC50 uM | C | 25 mm | Hill fit',
   'resampled | Q10 | A-delta | 20-37 C | two-site xcorr',
   'resampled | velocity m/s | A-delta | 20 C | recommended (two-site xcorr)',
