@@ -262,14 +262,37 @@ export function checkOutput(dir: string, inputs: readonly string[] = []): void {
 const escapeRe = (s: string) => s.replace(/[.*+?^${}()|[\]\\]/g, '\\$&');
 const leftoverName = (base: string) => new RegExp(`^\\.${escapeRe(base)}\\.(tmp|old)-(\\d+)-[0-9a-z-]+$`);
 
-function alive(pid: number): boolean {
+/** Start time of a process (clock ticks since boot, /proc/<pid>/stat field 22); null where /proc is absent. */
+function processStart(pid: number): string | null {
+  try {
+    const stat = readFileSync(`/proc/${pid}/stat`, 'utf8');
+    return stat.slice(stat.lastIndexOf(')') + 2).split(' ')[19] ?? null;
+  } catch {
+    return null;
+  }
+}
+
+/** The line a temporary marker carries to name its writer: pid and start time (a reused pid is another process). */
+const writerLine = () => `writer: ${process.pid} ${processStart(process.pid) ?? '-'}\n`;
+
+function alive(pid: number, markerPath: string): boolean {
   if (pid === process.pid) return false; // our own earlier, interrupted writes (this process is not writing them now)
   try {
     process.kill(pid, 0);
-    return true;
   } catch (e) {
-    return (e as NodeJS.ErrnoException).code === 'EPERM';
+    if ((e as NodeJS.ErrnoException).code !== 'EPERM') return false;
   }
+  // the pid is in use: it is the writer only if it started when the writer did (pids wrap and are reused)
+  try {
+    const m = /^writer: (\d+) (\S+)$/m.exec(readFileSync(markerPath, 'utf8'));
+    if (m && Number(m[1]) === pid && m[2] !== '-') {
+      const now = processStart(pid);
+      if (now !== null && now !== m[2]) return false;
+    }
+  } catch {
+    // no marker readable: keep the folder (it may be another writer's, just created)
+  }
+  return true;
 }
 
 /**
@@ -290,8 +313,8 @@ export function cleanLeftovers(dir: string): string[] {
   }
   for (const name of names) {
     const m = re.exec(name);
-    if (!m || alive(Number(m[2]))) continue;
     const p = join(parent, name);
+    if (!m || alive(Number(m[2]), join(p, TEMP_MARKER))) continue;
     try {
       if (!lstatSync(p).isDirectory() || !existsSync(join(p, TEMP_MARKER))) continue;
       rmSync(p, { recursive: true, force: true });
@@ -352,7 +375,7 @@ export function writeBundle(dir: string, c: BundleContent, opts: { inputs?: read
     mkdirSync(tmp);
     writeFileSync(
       join(tmp, TEMP_MARKER),
-      `temporary folder of a fascicle bundle being written to ${target}; safe to delete\n`,
+      `temporary folder of a fascicle bundle being written to ${target}; safe to delete\n` + writerLine(),
     );
     for (const [name, rows] of Object.entries(c.tables)) {
       current = `tables/${name}.csv`;
@@ -385,7 +408,10 @@ export function writeBundle(dir: string, c: BundleContent, opts: { inputs?: read
     if (existsSync(target)) {
       if (readdirSync(target).length === 0) rmdirSync(target);
       else {
-        writeFileSync(join(target, TEMP_MARKER), 'previous fascicle bundle being replaced; safe to delete\n');
+        writeFileSync(
+          join(target, TEMP_MARKER),
+          'previous fascicle bundle being replaced; safe to delete\n' + writerLine(),
+        );
         old = join(parent, `.${basename(target)}.old-${stamp}`);
         renameSync(target, old);
       }
