@@ -14,7 +14,15 @@
 import { readFileSync, readdirSync, mkdtempSync, rmSync, existsSync, statSync } from 'node:fs';
 import { join, resolve, dirname, relative, isAbsolute } from 'node:path';
 import { tmpdir } from 'node:os';
-import { runStudy, mergeShards, analysisOptions, computeOutputs, manifestInputs, writeStudyBundle } from './engine';
+import {
+  runStudy,
+  mergeShards,
+  analysisOptions,
+  computeOutputs,
+  manifestInputs,
+  writeStudyBundle,
+  bundleTables,
+} from './engine';
 import { flagReport, FLAG_LINE_CAP } from './flags';
 import { combineStudy, type Study } from '../report/study';
 import { verifyInputs, checkOutput, type Provenance } from '../report/bundle';
@@ -590,7 +598,7 @@ async function unblindCommand(
   const u = await unblindedStudy(manifest, key, {
     onProgress: o.onProgress,
     check: (blinded) => {
-      differs = tableDifference(dir, blinded.tables as unknown as Record<string, unknown[]>);
+      differs = tableDifference(dir, bundleTables(blinded));
     },
   });
   if (differs) {

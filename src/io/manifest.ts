@@ -145,6 +145,7 @@ export const ANALYSIS_KEYS: Readonly<Record<string, readonly string[] | 'boolean
     'sfp',
     'sfpWindow',
     'sfpModel',
+    'support',
     'sfpRefine',
     'sfpSmoothing',
     'amplitudeExponent',

@@ -123,7 +123,7 @@ describe('pulse-width series on the command line', () => {
     expect(readFileSync(join(out, 'methods.txt'), 'utf8')).toMatch(/Weiss's law/);
     // recruitment is fitted per pulse width, not across widths
     const rec = JSON.parse(readFileSync(join(out, 'tables', 'recruitment.json'), 'utf8')) as Record<string, unknown>[];
-    expect(new Set(rec.map((q) => q.pulseWidthMs)).size).toBe(widths.length);
+    expect(new Set(rec.map((q) => q.pulse_width_ms)).size).toBe(widths.length);
   });
 });
 

@@ -104,7 +104,7 @@ describe('fascicle run on a blinded two-group study: the five study-design featu
     expect(readFileSync(join(b, 'report.html'), 'utf8')).not.toMatch(/>(control|treated)<|group=(control|treated)/);
   });
   it('QC: the sweep held on the rail is the one removed, and the methods text says so', () => {
-    const removed = tableOf(b, 'sweeps_removed').map((q) => [q.preparation, q.file, q.fileSweep]);
+    const removed = tableOf(b, 'sweeps_removed').map((q) => [q.preparation, q.file, q.file_sweep]);
     expect(removed).toEqual([['N1', 'N1-distance.csv', 2]]); // truth: makeGroupDemo corrupts N1's distance sweep 2
     expect(readFileSync(join(b, 'methods.txt'), 'utf8')).toMatch(/excluded: 1 from N1 \(1 saturated/);
   });

@@ -90,7 +90,7 @@ describe('command line usage as documented', () => {
       expect(fitted.length).toBeGreaterThan(0);
       for (const q of fitted) {
         const v = Number((q.r50_ms as number).toPrecision(3));
-        expect(r.stdout).toContain(`  recovery R50 ${q.class} (${q.preparation} at ${q.distanceMm} mm): ${v} ms`);
+        expect(r.stdout).toContain(`  recovery R50 ${q.class} (${q.preparation} at ${q.distance_mm} mm): ${v} ms`);
       }
     } finally {
       rmSync(work, { recursive: true, force: true });
