@@ -34,12 +34,6 @@ const ALLOWLIST: { rule: string; from: string; to: string; owner: string }[] = [
   { rule: 'layer-analysis', from: 'src/analysis/recruitment.ts', to: 'src/report/result.ts', owner: 'accuracy' },
   { rule: 'layer-analysis', from: 'src/analysis/strengthDuration.ts', to: 'src/report/result.ts', owner: 'accuracy' },
   { rule: 'layer-analysis', from: 'src/analysis/temperature.ts', to: 'src/report/result.ts', owner: 'accuracy' },
-  {
-    rule: 'layer-analysis',
-    from: 'src/analysis/velocityDistribution.ts',
-    to: 'src/report/result.ts',
-    owner: 'vdist',
-  },
 ];
 
 interface Found {
