@@ -15,11 +15,13 @@ import {
   checkBlindingKey,
   looksLikeBlindingKey,
   blindingStep,
+  unblindOutputs,
 } from '../../src/analysis/blinding';
 import { compareGroups } from '../../src/analysis/groups';
 import { mixedModel } from '../../src/analysis/mixed';
 import { readManifest, readManifestJson } from '../../src/io/manifest';
 import { runPipeline, type PipelineOptions } from '../../src/report/pipeline';
+import { runPreparation, combineStudy, byPreparation } from '../../src/report/study';
 import { makeGroupDemo } from '../../src/model/makeGroupDemo';
 import { InputError, ConfigError } from '../../src/errors';
 
@@ -151,6 +153,27 @@ describe('a blinded study: readManifest, runPipeline and unblind on forward-mode
     expect(step.options).toMatchObject({ keyFile: 'key.csv', keySha256: key.sha256, condition: 'group' });
     expect(Date.parse(String(step.options.appliedAt))).toBeGreaterThan(Date.now() - 600_000);
     expect(coded.groups!.summary.map((r) => r.group).sort()).toEqual(['K1', 'K2']); // the coded result unchanged
+  });
+  it('unblind(combined study) and unblindOutputs + combineStudy equal the open-label study, table for table', () => {
+    const options = readManifestJson(blind.manifest).manifest.analysis as PipelineOptions;
+    const study = (path: string) => {
+      const parts = byPreparation(readManifest(path)).map((p) => runPreparation(p.set, options));
+      return { parts, study: combineStudy(parts, options) };
+    };
+    const coded = study(blind.manifest),
+      real = study(open.manifest);
+    const plain = (x: unknown) => JSON.parse(JSON.stringify(x));
+    const u = unblind(coded.study, blind.key);
+    expect(Object.keys(u.tables).sort()).toEqual(Object.keys(real.study.tables).sort());
+    for (const k of Object.keys(real.study.tables))
+      expect(plain((u.tables as Record<string, unknown>)[k]), k).toEqual(
+        plain((real.study.tables as Record<string, unknown>)[k]),
+      );
+    const o = unblindOutputs(coded.parts, blind.key);
+    const again = combineStudy(o.outputs, options);
+    expect(plain(again.tables)).toEqual(plain(real.study.tables));
+    expect(o.step.verb).toBe('unblind');
+    expect(u.history[u.history.length - 1].verb).toBe('unblind');
   });
   it('a key inside the study folder is refused (ConfigError naming it); outside it is not', () => {
     const inside = join(dir, 'study', 'allocation.csv');
