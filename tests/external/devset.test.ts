@@ -16,6 +16,7 @@ import { existsSync, mkdtempSync, readFileSync, rmSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { runPipeline, type StudyResult } from '../../src';
+import { apiColumns } from '../../src/registry/columns';
 import {
   check,
   clean,
@@ -210,7 +211,7 @@ for (const w of ['fast', 'slow'] as const) {
   cliRuns.push({ w, status: r.status, stderr: r.stderr });
   const table = (name: string): Row[] =>
     existsSync(join(dir, 'tables', `${name}.json`))
-      ? JSON.parse(readFileSync(join(dir, 'tables', `${name}.json`), 'utf8'))
+      ? apiColumns(name, JSON.parse(readFileSync(join(dir, 'tables', `${name}.json`), 'utf8')))
       : [];
   const mine = (rows: Row[]) => rows.filter((q) => ofWindow(w)(String(q.class)));
   cliTables.velocity.push(...mine(table('velocity')));
