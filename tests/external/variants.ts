@@ -453,7 +453,11 @@ export function variantChecks(run: VariantRun): VCheck[] {
               tol,
               status(rec),
             ),
-            rec?.method === 'single-site' ? 'clean component at the site (distance / latency)' : 'ground_truth.json',
+            rec?.method === 'single-site'
+              ? 'clean component at the site (distance / latency)'
+              : rec?.basis === 'centroid' || rec?.basis === 'xcorr'
+                ? `clean components, ${rec.basis} of each (tests/external/devset.ts)`
+                : 'ground_truth.json two_site',
           );
           if (v.sites.length >= 2 && v.sites.every((s) => s.refMm === undefined)) {
             const tp = at.find((r) => r.method === 'two-site' && r.basis === 'peak');
