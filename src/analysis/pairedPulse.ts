@@ -454,7 +454,8 @@ export function pairedPulse(set: SweepSet, options: PairedPulseOptions = {}): Pa
     });
     // the test responses keep the test-alone response's polarity per class (unless given): chosen on the test-alone
     // average alone, so that differences at short intervals cannot flip it
-    const copt = o.components ?? {};
+    // (measured above the sweep's baseline: the flank before a class follows the test stimulus here)
+    const copt: ComponentOptions = { localBaseline: false, ...(o.components ?? {}) };
     const polarity = copt.polarity ?? measureComponents(locked.select([0]), copt).resolved.polarities;
     const rows = splitOnFallingEdge(measureComponents(locked, { ...copt, polarity }).rows, traces, set, u);
     const classes = [...new Set(rows.map((r) => r.class))];

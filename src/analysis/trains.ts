@@ -191,7 +191,8 @@ export function trains(set: SweepSet, options: TrainOptions = {}): TrainResult {
       extras: set.extras,
     });
     // every pulse's response keeps pulse 1's polarity per class (unless given)
-    const copt = o.components ?? {};
+    // (measured above the sweep's baseline: the flank before a class follows that pulse's stimulus)
+    const copt: ComponentOptions = { localBaseline: false, ...(o.components ?? {}) };
     const polarity = copt.polarity ?? measureComponents(locked.select([0]), copt).resolved.polarities;
     const { rows } = measureComponents(locked, { ...copt, polarity });
     for (const cls of [...new Set(rows.map((r) => r.class))]) {

@@ -102,6 +102,12 @@ export interface ComponentOptions {
    * (default: each sweep's `referenceDistanceMm` condition; none: monopolar)
    */
   referenceDistanceMm?: number;
+  /**
+   * a class whose window overlaps no other class's is measured above the mean of a quiet flank just before it
+   * (default true); false measures it above the sweep's baseline (e.g. paired-pulse test traces, where that flank
+   * follows the test stimulus)
+   */
+  localBaseline?: boolean;
 }
 export const componentDefaults = {
   preset: 'mammalian',
@@ -133,6 +139,7 @@ const OPTION_KEYS = [
   'separation',
   'decomposeBy',
   'referenceDistanceMm',
+  'localBaseline',
 ];
 
 export interface ComponentRow {
@@ -272,6 +279,9 @@ export function measureComponents(
   const q10 = options.q10 ?? preset.q10;
   if (!(q10 > 0)) throw new OptionError(`invalid q10: ${q10}; must be > 0`);
   const earliest = options.earliestMs ?? componentDefaults.earliestMs;
+  const localBaseline = options.localBaseline ?? true;
+  if (typeof localBaseline !== 'boolean')
+    throw new OptionError(`invalid localBaseline: ${JSON.stringify(localBaseline)}; expected true or false`);
   const onsetFraction = options.onsetFraction ?? componentDefaults.onsetFraction;
   if (!(onsetFraction > 0 && onsetFraction < 1))
     throw new OptionError(
@@ -751,13 +761,17 @@ export function measureComponents(
         pp = polarities[classes[ci - 1].name];
       let p1 = prev.a;
       for (let i = prev.a; i <= Math.min(prev.b, n - 1); i++) if (pp * smooth[i] > pp * smooth[p1]) p1 = i;
-      let p2 = Math.max(w.a, p1 + 1);
+      // the slower class's peak is looked for after the faster class's falling edge (its first local minimum)
+      let fall = p1 + 1;
+      while (fall < Math.min(w.b, n - 1) && pp * smooth[fall + 1] < pp * smooth[fall]) fall++;
+      let p2 = Math.max(w.a, fall);
       for (let i = p2; i <= Math.min(w.b, n - 1); i++) if (p * smooth[i] > p * smooth[p2]) p2 = i;
       let trough = Math.min(prev.b, w.a + Math.floor((prev.b - w.a) / 2));
-      if (p2 > p1 + 1 && p2 < Math.min(w.b, n - 1)) {
-        trough = p1 + 1;
-        for (let i = p1 + 1; i < p2; i++) if (p * smooth[i] < p * smooth[trough]) trough = i;
-      } else sepReason[ci] = 'not resolved: no separate peak or shoulder after the faster class';
+      let tr = p1 + 1;
+      for (let i = p1 + 1; i < p2; i++) if (p * smooth[i] < p * smooth[tr]) tr = i;
+      // a separate peak rises above the trough before it by the detection level (not a noise bump on the tail)
+      if (p2 > p1 + 1 && p2 < Math.min(w.b, n - 1) && p * (smooth[p2] - smooth[tr]) > k * info[s].noise) trough = tr;
+      else sepReason[ci] = 'not resolved: no separate peak or shoulder after the faster class';
       // samples up to the trough belong to the faster class, after it to this one: a peak on the boundary counts once
       prev.b = Math.max(prev.a + 2, Math.min(prev.b, trough));
       w.a = Math.min(w.b - 2, Math.max(w.a, trough + 1));
@@ -803,7 +817,7 @@ export function measureComponents(
       // nor in the onset level
       const alone = (ci === 0 || raw[ci - 1].b < raw[ci].a) && (ci === classes.length - 1 || raw[ci].b < raw[ci + 1].a);
       let localBase: number | null = null;
-      if (alone && floor === 0) {
+      if (alone && floor === 0 && localBaseline) {
         const l0 = ownLatencies(
           Float64Array.from(y, (v) => p * v),
           w.a - a,

@@ -74,11 +74,9 @@ describe('pairedPulse(set) on forward-model data', () => {
     });
   }
   // A-delta, a small response on A-alpha/beta's tail at short intervals: the trough search of measure/components.ts
-  // takes the first sample of A-delta's window (on A-alpha/beta's falling edge) as its peak when A-delta's test
-  // response is smaller than that tail, and measures it above a line from the tail (an area fraction of -1.1 at 1 ms
-  // before the guard). Expected to fail until that search starts after the faster class's falling edge (exact
-  // change: the study-design engineer's report); it.fails turns into a failure the day it passes.
-  it.fails('A-delta: absolute refractory period within 0.1 ms, 50% recovery interval within 10% (not yet)', () => {
+  // looks for A-delta's peak after A-alpha/beta's falling edge (before, it took the first sample of A-delta's window,
+  // on that edge, and measured an area fraction of -1.1 at 1 ms)
+  it('A-delta: absolute refractory period within 0.1 ms, 50% recovery interval within 10%', () => {
     const t = truth.find((q) => q.name === 'A-delta')!;
     const s = r.summary.find((q) => q.class === 'A-delta')!;
     console.log('A-delta ARP', s.arp_ms, '-', s.arp_next_ms, 'vs', t.arpMs, '; R50', s.r50_ms, 'vs', t.r50Ms, s.status);
