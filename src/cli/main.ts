@@ -27,8 +27,7 @@ import { flagReport, FLAG_LINE_CAP } from './flags';
 import { combineStudy, type Study } from '../report/study';
 import { verifyInputs, checkOutput, type Provenance } from '../report/bundle';
 import { readManifestJson, readBlindingKey, type BlindingKey } from '../io/manifest';
-import { unblindOutputs, unblindPipelineOptions, checkBlindingKey, blindingSentence } from '../analysis/blinding';
-import { registerSentence, sentenceFor } from '../registry/sentences';
+import { unblindOutputs, unblindPipelineOptions, checkBlindingKey } from '../analysis/blinding';
 import type { Step } from '../sweeps/SweepSet';
 import { InputError, AnalysisError, OptionError, OutputError, ConfigError, ThreadError, systemReason } from '../errors';
 import { nearest, didYouMean } from '../validate';
@@ -148,7 +147,6 @@ const FLAG_OPTIONS: Record<string, string[]> = {
 class UsageError extends Error {}
 
 // the methods sentences of a blinded run and of an unblinding (unless the registry words them already)
-for (const verb of ['blinding', 'unblind']) if (!sentenceFor(verb)) registerSentence(verb, blindingSentence);
 
 /** The study's sweeps (conditioned as the pipeline conditions them, or as acquired) and result tables as NWB. */
 async function writeStudyNwb(manifest: string, path: string, raw: boolean, study: Study): Promise<void> {

@@ -22,6 +22,7 @@ import { sweepQc } from './sweepQc';
 import { pairedPulse, trains } from './recovery';
 import { velocityDistribution } from './velocityDistribution';
 import { groups, mixed } from './groups';
+import { blindingSentence } from '../analysis/blinding';
 
 export type { AnalysisEntry, TableSpec, PrepContext, StudyContext, Consumes, AcrossOutput, Row } from './types';
 
@@ -42,6 +43,8 @@ export const ANALYSES: readonly AnalysisEntry<any>[] = [
 ];
 
 for (const a of ANALYSES) for (const [verb, f] of Object.entries(a.methods ?? {})) registerSentence(verb, f);
+// blinding and unblinding are history steps of the study, not analyses: their sentence is registered here too
+for (const verb of ['blinding', 'unblind']) registerSentence(verb, blindingSentence);
 
 /** The stage of an entry's per-preparation step. */
 export const stageOf = (a: AnalysisEntry<unknown>) => a.stage ?? 'components';

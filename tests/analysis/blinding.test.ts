@@ -135,6 +135,11 @@ describe('a blinded study: readManifest, runPipeline and unblind on forward-mode
     expect(b.options).toEqual({ state: 'blinded', condition: 'group', codes: ['K1', 'K2'] });
     expect(blindingStep(readManifest(open.manifest).history)).toBeNull();
   });
+  it("the API's methods text says the analysis was blinded (the registry words the blinding step)", () => {
+    const text = readManifest(blind.manifest).components().methods();
+    expect(text).toMatch(/blind/i);
+    expect(readManifest(open.manifest).components().methods()).not.toMatch(/blind/i);
+  });
   it('unblind(runPipeline(coded)) equals runPipeline(open labels): components, groups, mixed model, flags', () => {
     const options = readManifestJson(blind.manifest).manifest.analysis as PipelineOptions;
     const coded = runPipeline(readManifest(blind.manifest), options);
