@@ -99,6 +99,7 @@ export const ANALYSIS_KEYS: Readonly<Record<string, readonly string[] | 'boolean
     'separation',
     'decomposeBy',
     'referenceDistanceMm',
+    'localBaseline',
   ],
   doseResponse: [
     'measure',
