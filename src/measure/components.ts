@@ -526,6 +526,19 @@ export function measureComponents(
         const shape = fitSharedShape(traces, grid, { iterations: 60 });
         const key = `${gk}#${chain.join(',')}`;
         if (!shape) continue;
+        // a degenerate fit separates nothing (the waveform's largest excursion at the end of its support, or most of
+        // the distribution on a bound of the slowness grid, as one bipolar channel can give): the trough method and
+        // the window's polarity stay
+        let im = 0;
+        for (let j = 0; j < shape.s.length; j++) if (Math.abs(shape.s[j]) > Math.abs(shape.s[im])) im = j;
+        let wSum = 0,
+          wEdge = 0;
+        for (let j = 0; j < shape.W.length; j++) {
+          wSum += shape.W[j];
+          if (j < 2 || j >= shape.W.length - 2) wEdge += shape.W[j];
+        }
+        if (im >= shape.s.length - Math.max(2, Math.round(0.05 * shape.s.length)) || !(wSum > 0) || wEdge > 0.5 * wSum)
+          continue;
         // boundaries between consecutive classes at the deepest valley of W between their ranges
         const bins: [number, number][] = [];
         const resolved: boolean[] = [true];
@@ -560,10 +573,8 @@ export function measureComponents(
         while (bins.length < chain.length) bins.push([shape.u.length, shape.u.length - 1]);
         const mixture = resolved.every((r) => r) ? fitClassMixture(traces, grid, shape, bins) : null;
         decomps.set(key, { shape, grid, bins, resolved, reason, valleys, mixture });
-        // classes separated by the decomposition take the sign of the shared waveform's main phase (for a bipolar
-        // recording, the near contact's) unless given
-        let im = 0;
-        for (let j = 0; j < shape.s.length; j++) if (Math.abs(shape.s[j]) > Math.abs(shape.s[im])) im = j;
+        // classes separated by the decomposition take the sign of the shared waveform's main phase unless given
+        // (for a bipolar recording, the near contact's)
         for (const ci of chain)
           if (polaritySource[classes[ci].name] === 'auto') polarities[classes[ci].name] = shape.s[im] >= 0 ? 1 : -1;
       }
