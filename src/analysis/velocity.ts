@@ -607,10 +607,23 @@ export function markRecommended(rows: readonly VelocityRow[], classes?: readonly
     const k = `${r.class}|${r.group}`;
     span.set(k, Math.max(span.get(k) ?? -Infinity, (r.far_mm as number) - (r.near_mm as number)));
   }
-  return rows.map((r) => {
+  const marked = rows.map((r) => {
     const e = recommendedEstimator(r.class, classes);
     const widest =
       r.method !== 'two-site' || (r.far_mm as number) - (r.near_mm as number) === span.get(`${r.class}|${r.group}`);
     return { ...r, recommended: r.method === e.method && r.basis === e.basis && widest };
   });
+  // one distance: no two-site or regression estimate exists for a class and group, so the single-site peak
+  // velocity is the one marked, with a note (it includes the utilisation time and the waveform's rise: biased low)
+  const multi = new Set(marked.filter((r) => r.method !== 'single-site').map((r) => `${r.class}|${r.group}`));
+  return marked.map((r) =>
+    r.method === 'single-site' && r.basis === 'peak' && !multi.has(`${r.class}|${r.group}`)
+      ? { ...r, recommended: true, recommended_note: SINGLE_SITE_NOTE }
+      : r,
+  );
 }
+
+/** Why a single-site velocity is the recommended one (one distance only). */
+export const SINGLE_SITE_NOTE =
+  'one distance only: distance / peak latency, which includes the utilisation time and the rise of the waveform ' +
+  '(biased low); two-site and regression velocities need two or more distances';

@@ -112,6 +112,20 @@ export const velocity: AnalysisEntry<VelocityResult> = {
     try {
       const v = velocityOf(vt);
       ctx.flags.push(...flagsFrom('velocity', v.rows as unknown as Row[], ctx.prep, velocityWhere));
+      // a recommended velocity from one distance is kept, and said to be a single-site estimate
+      const single = new Map<string, VelocityRow>();
+      for (const r of v.rows) if (r.recommended && r.recommended_note) single.set(`${r.class}|${r.group}`, r);
+      for (const r of single.values())
+        ctx.flags.push({
+          preparation: (r.preparation as string | undefined) ?? ctx.prep,
+          analysis: 'velocity',
+          class: r.class,
+          where: velocityWhere(r as unknown as Row),
+          severity: 'warning',
+          status: 'single site',
+          reason: String(r.recommended_note),
+          rows: 1,
+        });
       return v;
     } catch (e) {
       failed(ctx.flags, ctx.notes, 'velocity', ctx.prep, e);

@@ -265,6 +265,7 @@ const NO_UNIT_YET = new Set([
   'mixed_coefficients.ci95_low',
   'mixed_coefficients.ci95_high',
   'mixed_variance.residual_variance',
+  'mixed_variance.animal_variance',
   'velocity_distribution.amplitude',
   'velocity_distribution_residuals.noise_sd',
   'velocity_distribution_residuals.rms_data',
@@ -274,5 +275,5 @@ const NO_UNIT_YET = new Set([
 /** Dimensionless quantities: ratios, fractions, slopes, scores, p values, fit statistics, normalised values. */
 const DIMENSIONLESS = new RegExp(
   '^(log10_.*|.*ratio.*|.*fraction.*|.*_pct|hill.*|pooled_hill|q10.*|p|p_.*|r2|f|t|df|den_df|statistic|' +
-    '.*score.*|normalized|bottom|pooled_bottom|slope_log10|chi2_per_sample|relative_residual|reml_deviance)$',
+    '.*score.*|normalized|bottom|pooled_bottom|slope_log10|chi2_per_sample|relative_residual|reml_deviance|icc)$',
 );
