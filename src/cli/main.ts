@@ -326,7 +326,13 @@ async function main(argv0: string[]): Promise<number> {
  * (even with flags), 4 when nothing at all could be (the bundle is written so the flags can be read).
  */
 function reportStudy(s: Study, out: string): number {
-  const ci = (lo: unknown, hi: unknown) => `95% CI ${fmt(lo)}-${fmt(hi)}`;
+  // an interval with a missing bound says which (one preparation gives no across-preparation interval)
+  const ci = (lo: unknown, hi: unknown) =>
+    lo == null && hi == null
+      ? '95% CI not available'
+      : lo == null || hi == null
+        ? `95% CI ${lo == null ? `not bounded below-${fmt(hi)}` : `${fmt(lo)}-not bounded above`}`
+        : `95% CI ${fmt(lo)}-${fmt(hi)}`;
   // curves are per recording site unless the sites are pooled
   const at = (r: Record<string, unknown>) => (typeof r.distanceMm === 'number' ? ` at ${r.distanceMm} mm` : '');
   for (const row of s.tables.dose_response_summary) {
