@@ -21,7 +21,7 @@
  * 5. Classes compared by the extra-sum-of-squares F test of a shared IC50.
  */
 import type { ConditionValue, Step, Source } from '../sweeps/SweepSet';
-import { Result } from '../report/result';
+import { Result } from '../notebook/result';
 import { fitCurve, profileCI, extraSumOfSquaresF, trusted, type FitResult } from '../fit/lm';
 import { logLogistic4 } from '../fit/models';
 import { summarize } from './stats';

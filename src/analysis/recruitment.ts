@@ -8,7 +8,7 @@
  * practice; common practice, no source).
  */
 import type { ConditionValue, Step, Source } from '../sweeps/SweepSet';
-import { Result } from '../report/result';
+import { Result } from '../notebook/result';
 import { fitCurve, type FitResult } from '../fit/lm';
 import { boltzmann } from '../fit/models';
 import { AnalysisError, OptionError } from '../errors';

@@ -10,7 +10,7 @@
  * the rheobase (Lapicque 1909; a definition of the trade).
  */
 import type { ConditionValue, Step, Source } from '../sweeps/SweepSet';
-import { Result } from '../report/result';
+import { Result } from '../notebook/result';
 import { fitCurve, profileCI, type FitResult, type ModelFn } from '../fit/lm';
 import { weiss, lapicque } from '../fit/models';
 import { tQuantile } from '../fit/dist';

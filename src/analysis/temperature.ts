@@ -7,7 +7,7 @@
  * References: S. Arrhenius, Z. Phys. Chem. 4 (1889) 226-248; Q10 definition: common practice, no source.
  */
 import type { ConditionValue, Step, Source } from '../sweeps/SweepSet';
-import { Result } from '../report/result';
+import { Result } from '../notebook/result';
 import { toFrame } from '../report/frame';
 import { tableHtml, tableText } from '../notebook/html';
 import { VERSION } from '../version';
