@@ -23,6 +23,7 @@ import { readManifest, readManifestJson } from '../../src/io/manifest';
 import { runPipeline, type PipelineOptions } from '../../src/report/pipeline';
 import { runPreparation, combineStudy, byPreparation } from '../../src/report/study';
 import { makeGroupDemo } from '../../src/model/makeGroupDemo';
+import '../../src'; // the whole package: the report layer (methods text) and the registry's sentences
 import { InputError, ConfigError } from '../../src/errors';
 
 const dir = mkdtempSync(join(tmpdir(), 'fascicle-blinding-'));
