@@ -20,7 +20,7 @@
 import { SweepSet, type ConditionValue, type Step } from '../sweeps/SweepSet';
 import { InputError } from '../errors';
 import { readBlindingKey, type BlindingKey } from '../io/manifest';
-import { GroupComparison, compareGroups } from './groups';
+import { GroupComparison, compareGroups, groupFlags } from './groups';
 import { MixedModelResult, mixedModel } from './mixed';
 import { VERSION } from '../version';
 import type { Study } from '../report/study';
@@ -191,24 +191,6 @@ function relabeler(condition: string, map: Map<string, string>) {
     return out;
   };
   return deep;
-}
-
-/** Flags of group tests or mixed fits not computed (as report/pipeline.ts makes them). */
-function groupFlags(analysis: 'groups' | 'mixed', rows: readonly Row[], by: readonly string[]): Flag[] {
-  return rows
-    .filter((r) => r.status !== 'ok')
-    .map((r) => ({
-      preparation: null,
-      analysis,
-      class: (r.class as string | undefined) ?? null,
-      where:
-        [r.test, r.comparison, ...by.filter((k) => k !== 'class').map((k) => `${k} ${r[k]}`)]
-          .filter((v) => v !== undefined && v !== null)
-          .join(', ') || null,
-      severity: 'not measured' as const,
-      status: String(r.status),
-      reason: String(r.reason ?? r.status),
-    }));
 }
 
 /** JSON-safe rows, as the study's tables hold them (non-finite numbers as the bundle writes them). */

@@ -29,6 +29,7 @@ import { Result } from '../notebook/result';
 import { toFrame } from '../report/frame';
 import { tableHtml, tableText } from '../notebook/html';
 import { VERSION } from '../version';
+import type { Flag } from '../report/pipeline';
 
 type Row = Record<string, ConditionValue>;
 
@@ -806,4 +807,22 @@ export function groupStepMethods(step: Step): string {
     `${per} as mean, SD, SEM and a t-based 95% confidence interval. Tests: ${tests}; p values were adjusted over ` +
     "all tests by Holm's step-down method (Holm 1979) and by Benjamini & Hochberg (1995)."
   );
+}
+
+/** Flags of group tests or mixed fits not computed (status other than ok, with the reason), as the pipeline makes them. */
+export function groupFlags(analysis: 'groups' | 'mixed', rows: readonly Row[], by: readonly string[]): Flag[] {
+  return rows
+    .filter((r) => r.status !== 'ok')
+    .map((r) => ({
+      preparation: null,
+      analysis,
+      class: (r.class as string | undefined) ?? null,
+      where:
+        [r.test, r.comparison, ...by.filter((k) => k !== 'class').map((k) => `${k} ${r[k]}`)]
+          .filter((v) => v !== undefined && v !== null)
+          .join(', ') || null,
+      severity: 'not measured' as const,
+      status: String(r.status),
+      reason: String(r.reason ?? r.status),
+    }));
 }

@@ -1,7 +1,13 @@
 /** Registry entries: group statistics and the mixed model across preparations (the preparation as the unit). */
 import type { Step } from '../sweeps/SweepSet';
-import type { Flag, GroupTable } from '../report/pipeline';
-import { compareGroups, groupStepMethods, GROUP_REFERENCES, type GroupComparison } from '../analysis/groups';
+import type { GroupTable } from '../report/pipeline';
+import {
+  compareGroups,
+  groupFlags,
+  groupStepMethods,
+  GROUP_REFERENCES,
+  type GroupComparison,
+} from '../analysis/groups';
 import { mixedModel, mixedStepMethods, MIXED_REFERENCES, type MixedModelResult } from '../analysis/mixed';
 import { groupFigures } from '../plot/groups';
 import { OptionError } from '../errors';
@@ -46,24 +52,6 @@ export function groupRows(
       if (v.size === 1) (perPrep.get(p) ?? perPrep.set(p, {}).get(p)!)[k] = JSON.parse([...v][0]);
   }
   return rows.map((r) => ({ ...(perPrep.get(String(r.preparation ?? '')) ?? {}), ...r }));
-}
-
-/** Flags of tests or fits not computed (status 'not computed', with the reason). */
-function groupFlags(analysis: Flag['analysis'], rows: readonly Row[], by: readonly string[]): Flag[] {
-  return rows
-    .filter((r) => r.status !== 'ok')
-    .map((r) => ({
-      preparation: null,
-      analysis,
-      class: (r.class as string | undefined) ?? null,
-      where:
-        [r.test, r.comparison, ...by.filter((k) => k !== 'class').map((k) => `${k} ${r[k]}`)]
-          .filter((v) => v !== undefined && v !== null)
-          .join(', ') || null,
-      severity: 'not measured' as const,
-      status: String(r.status),
-      reason: String(r.reason ?? r.status),
-    }));
 }
 
 const requireObject = (name: string, v: unknown) => {
