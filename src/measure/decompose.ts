@@ -443,26 +443,7 @@ export function fitSharedShape(
     let rss = 0,
       cnt = 0;
     per.forEach((p, pi) => {
-      const B = new Float64Array(p.nt * ns);
-      for (let k = 0; k < nu; k++) {
-        if (W[k] === 0) continue;
-        for (const [site, sign] of (p.ref === null
-          ? [[p.x, 1]]
-          : [
-              [p.x, 1],
-              [p.ref, -1],
-            ]) as [number, number][]) {
-          const shift = (site * u[k] - g.t0Ms) / g.dtMs;
-          for (let i = 0; i < p.nt; i++) {
-            const jf = (p.r0 + i - shift) / sStep + sLead;
-            const j0 = Math.floor(jf);
-            if (j0 < -1 || j0 >= ns) continue;
-            const f = jf - j0;
-            if (j0 >= 0) B[i * ns + j0] += sign * W[k] * (1 - f);
-            if (j0 + 1 < ns) B[i * ns + j0 + 1] += sign * W[k] * f;
-          }
-        }
-      }
+      const B = waveformDesign(p, W, u, g, ns, sStep, sLead);
       for (let i = 0; i < p.nt; i++) {
         if (!p.keep[i]) continue;
         let r = p.y[i];
@@ -715,28 +696,7 @@ export function fitClassMixture(
     const H = new Float64Array(ns * ns),
       c = new Float64Array(ns);
     const Bs = per.map((q) => {
-      const B = new Float64Array(q.nt * ns);
-      for (let k = 0; k < nu; k++) {
-        if (W[k] === 0) continue;
-        const sites: [number, number][] =
-          q.ref === null
-            ? [[q.x, 1]]
-            : [
-                [q.x, 1],
-                [q.ref, -1],
-              ];
-        for (const [site, sign] of sites) {
-          const shift = (site * u[k] - g.t0Ms) / g.dtMs;
-          for (let i = 0; i < q.nt; i++) {
-            const jf = (q.r0 + i - shift) / sStep + sLead;
-            const j0 = Math.floor(jf);
-            if (j0 < -1 || j0 >= ns) continue;
-            const f = jf - j0;
-            if (j0 >= 0) B[i * ns + j0] += sign * W[k] * (1 - f);
-            if (j0 + 1 < ns) B[i * ns + j0 + 1] += sign * W[k] * f;
-          }
-        }
-      }
+      const B = waveformDesign(q, W, u, g, ns, sStep, sLead);
       for (let i = 0; i < q.nt; i++) {
         if (!q.keep[i]) continue;
         const row = i * ns;
@@ -927,4 +887,43 @@ export function decomposeTraceMixture(
     for (let k = 0; k < nu; k++) W[k] += a[j] * w[k];
   });
   return { components, r0, r1, W, nuisance, fitted: keep, rms: Math.sqrt(rss / Math.max(1, cnt)) };
+}
+
+/**
+ * The design of the waveform step for one trace: B[i, j] = sum_k W_k phi(i - shift_k - j), the waveform sampled
+ * on its own grid (step sStep samples, sLead samples before the arrival) and interpolated linearly; each fibre
+ * arrives at the contact at x u_k and, for a bipolar trace, with the opposite sign at the reference contact.
+ */
+function waveformDesign(
+  q: { x: number; ref: number | null; nt: number; r0: number },
+  W: ArrayLike<number>,
+  u: ArrayLike<number>,
+  g: { t0Ms: number; dtMs: number },
+  ns: number,
+  sStep: number,
+  sLead: number,
+): Float64Array {
+  const B = new Float64Array(q.nt * ns);
+  const sites: [number, number][] =
+    q.ref === null
+      ? [[q.x, 1]]
+      : [
+          [q.x, 1],
+          [q.ref, -1],
+        ];
+  for (let k = 0; k < W.length; k++) {
+    if (W[k] === 0) continue;
+    for (const [site, sign] of sites) {
+      const shift = (site * u[k] - g.t0Ms) / g.dtMs;
+      for (let i = 0; i < q.nt; i++) {
+        const jf = (q.r0 + i - shift) / sStep + sLead;
+        const j0 = Math.floor(jf);
+        if (j0 < -1 || j0 >= ns) continue;
+        const f = jf - j0;
+        if (j0 >= 0) B[i * ns + j0] += sign * W[k] * (1 - f);
+        if (j0 + 1 < ns) B[i * ns + j0 + 1] += sign * W[k] * f;
+      }
+    }
+  }
+  return B;
 }
