@@ -201,7 +201,8 @@ export const velocityDistributionDefaults = {
   percentiles: [5, 10, 25, 50, 75, 90, 95],
 };
 
-const OPTION_KEYS = [
+/** the option keys (also the manifest's, src/io/manifest.ts) */
+export const VDIST_OPTION_KEYS = [
   'method',
   'velocityRange',
   'nVelocities',
@@ -530,7 +531,7 @@ function prepare(
 }
 
 function validate(o: VelocityDistributionOptions): void {
-  checkKeys('velocityDistribution options', o, OPTION_KEYS);
+  checkKeys('velocityDistribution options', o, VDIST_OPTION_KEYS);
   if (o.method !== undefined) oneOf('method', o.method, ['decomposition', 'two-distance']);
   if (o.velocityRange !== undefined) {
     const r = o.velocityRange;

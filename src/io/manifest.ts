@@ -12,6 +12,8 @@ import { SweepSet, type Conditions } from '../sweeps/SweepSet';
 import { readInput } from './files';
 import { conditionsProblem, nearest, shown } from '../validate';
 import { PRESETS } from '../measure/classes';
+import { COMPONENT_OPTION_KEYS } from '../measure/components';
+import { VDIST_OPTION_KEYS } from '../analysis/velocityDistribution';
 import { readDelimited, type DelimitedOptions } from './delimited';
 import { readBinary } from './binary';
 import { readNwbSync, type NwbReadOptions } from './nwb';
@@ -81,26 +83,7 @@ export const ANALYSIS_KEYS: Readonly<Record<string, readonly string[] | 'boolean
   filter: ['btype', 'cutoff', 'order', 'padlen'],
   averageRepeats: 'boolean',
   poolSites: 'boolean',
-  components: [
-    'preset',
-    'classes',
-    'distanceMm',
-    'temperatureC',
-    'q10',
-    'utilisationMs',
-    'k',
-    'polarity',
-    'noiseWindow',
-    'tailFraction',
-    'tailMs',
-    'earliestMs',
-    'onsetFraction',
-    'centroidFraction',
-    'separation',
-    'decomposeBy',
-    'referenceDistanceMm',
-    'localBaseline',
-  ],
+  components: COMPONENT_OPTION_KEYS,
   doseResponse: [
     'measure',
     'lastN',
@@ -137,36 +120,7 @@ export const ANALYSIS_KEYS: Readonly<Record<string, readonly string[] | 'boolean
   trains: ['by', 'frequencyKey', 'pulsesKey', 'latency', 'blankMs', 'failFraction'],
   groups: ['value', 'group', 'animal', 'condition', 'by', 'unit', 'table'],
   mixed: ['value', 'fixed', 'random', 'interaction', 'by', 'levels', 'table'],
-  velocityDistribution: [
-    'method',
-    'velocityRange',
-    'nVelocities',
-    'fitWindow',
-    'fitStartByDistance',
-    'sfp',
-    'sfpWindow',
-    'sfpModel',
-    'support',
-    'sfpRefine',
-    'sfpSmoothing',
-    'amplitudeExponent',
-    'durationExponent',
-    'referenceVelocity',
-    'bipolarSeparationMm',
-    'utilisationMs',
-    'drift',
-    'artifactTauMs',
-    'humHz',
-    'noiseWindow',
-    'iterations',
-    'tolerance',
-    'lambda',
-    'alternationLambda',
-    'bootstrap',
-    'seed',
-    'classes',
-    'temperatureC',
-  ],
+  velocityDistribution: VDIST_OPTION_KEYS,
 };
 /** Steps that may be `false` (turned off). */
 const OPTIONAL_STEPS = ['baseline', 'artifact', 'hum', 'filter', 'qc', 'pairedPulse', 'trains'];

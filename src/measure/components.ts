@@ -121,7 +121,8 @@ export const componentDefaults = {
   centroidFraction: 0.1,
   separation: 'auto' as const,
 };
-const OPTION_KEYS = [
+/** the option keys (also the manifest's, src/io/manifest.ts) */
+export const COMPONENT_OPTION_KEYS = [
   'preset',
   'classes',
   'distanceMm',
@@ -250,7 +251,7 @@ export function measureComponents(
   set: SweepSet,
   options: ComponentOptions = {},
 ): { rows: ComponentRow[]; measures: ResponseMeasure[][]; resolved: ResolvedComponentOptions } {
-  checkKeys('components options', options, OPTION_KEYS);
+  checkKeys('components options', options, COMPONENT_OPTION_KEYS);
   const presetArg =
     options.preset ??
     (set.extras.manifest as { classPreset?: string } | undefined)?.classPreset ??
