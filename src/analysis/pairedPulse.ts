@@ -29,7 +29,7 @@
  */
 import { SweepSet, type ConditionValue, type Step, type Source } from '../sweeps/SweepSet';
 import { Result } from '../notebook/result';
-import { measureComponents, type ComponentOptions } from '../measure/components';
+import { measureComponents, type ComponentOptions, type ComponentRow } from '../measure/components';
 import { fitCurve, profileCI, type FitResult } from '../fit/lm';
 import { AnalysisError, OptionError } from '../errors';
 import { checkKeys } from '../validate';
@@ -442,22 +442,9 @@ export function pairedPulse(set: SweepSet, options: PairedPulseOptions = {}): Pa
       temperatureC: base.temperatureC ?? null,
       intervalMs: k ? isis[k - 1] : null,
     }));
-    const locked = new SweepSet({
-      data,
-      nSweeps: traces.length,
-      nSamples: set.nSamples,
-      fs: set.fs,
-      t0Ms: set.t0Ms,
-      units: u,
-      conditions: conds,
-      extras: set.extras,
-    });
     // the test responses keep the test-alone response's polarity per class (unless given): chosen on the test-alone
     // average alone, so that differences at short intervals cannot flip it
-    // (measured above the sweep's baseline: the flank before a class follows the test stimulus here)
-    const copt: ComponentOptions = { localBaseline: false, ...(o.components ?? {}) };
-    const polarity = copt.polarity ?? measureComponents(locked.select([0]), copt).resolved.polarities;
-    const rows = splitOnFallingEdge(measureComponents(locked, { ...copt, polarity }).rows, traces, set, u);
+    const rows = splitOnFallingEdge(measureLocked(set, data, conds, o.components), traces, set, u);
     const classes = [...new Set(rows.map((r) => r.class))];
     // spans of the classes' test-alone responses (= the conditioning responses), ms from their stimulus
     const spans = rows
@@ -621,4 +608,30 @@ export function pairedPulse(set: SweepSet, options: PairedPulseOptions = {}): Pa
     },
   };
   return new PairedPulseResult(points, summary, fits, [...set.history, step], set.sources, u);
+}
+
+/**
+ * Measure stimulus-locked traces (one per `conds` row, on `set`'s time base) as components: above the sweep's baseline
+ * (the flank before a class follows that trace's own stimulus), and with the first trace's polarity per class unless
+ * the options give one.
+ */
+export function measureLocked(
+  set: SweepSet,
+  data: Float64Array,
+  conds: Record<string, ConditionValue>[],
+  components: ComponentOptions = {},
+): ComponentRow[] {
+  const locked = new SweepSet({
+    data,
+    nSweeps: conds.length,
+    nSamples: set.nSamples,
+    fs: set.fs,
+    t0Ms: set.t0Ms,
+    units: set.units,
+    conditions: conds,
+    extras: set.extras,
+  });
+  const copt: ComponentOptions = { localBaseline: false, ...components };
+  const polarity = copt.polarity ?? measureComponents(locked.select([0]), copt).resolved.polarities;
+  return measureComponents(locked, { ...copt, polarity }).rows;
 }

@@ -78,7 +78,8 @@ export const sweepQcDefaults = {
   peerKeys: ['preparation', 'site', 'distanceMm', 'channel'],
 };
 
-const OPTION_KEYS = [
+/** the option keys (also the manifest's, src/io/manifest.ts) */
+export const QC_OPTION_KEYS = [
   'quietWindow',
   'endWindow',
   'artifactWindow',
@@ -229,7 +230,7 @@ function keysOf(set: SweepSet): string[] {
 }
 
 function resolve(set: SweepSet, o: SweepQcOptions): Resolved {
-  checkKeys('sweepQc options', o, OPTION_KEYS);
+  checkKeys('sweepQc options', o, QC_OPTION_KEYS);
   const end = set.timeAt(set.nSamples - 1);
   if (!o.quietWindow && !(set.t0Ms < -sweepQcDefaults.quietStopMs)) {
     throw new OptionError(

@@ -15,13 +15,13 @@
  */
 import { SweepSet, type ConditionValue, type Step, type Source } from '../sweeps/SweepSet';
 import { Result } from '../notebook/result';
-import { measureComponents, type ComponentOptions } from '../measure/components';
+import type { ComponentOptions } from '../measure/components';
 import { AnalysisError, OptionError } from '../errors';
 import { checkKeys } from '../validate';
 import { toFrame } from '../report/frame';
 import { tableHtml, tableText } from '../notebook/html';
 import { VERSION } from '../version';
-import { meanSweeps, lockToStimulus, carried } from './pairedPulse';
+import { meanSweeps, lockToStimulus, carried, measureLocked } from './pairedPulse';
 import type { Figure } from '../plot/figure';
 
 type Row = Record<string, ConditionValue>;
@@ -180,21 +180,8 @@ export function trains(set: SweepSet, options: TrainOptions = {}): TrainResult {
       temperatureC: c0.temperatureC ?? null,
       pulse: k < n ? k + 1 : 1,
     }));
-    const locked = new SweepSet({
-      data,
-      nSweeps: traces.length,
-      nSamples: set.nSamples,
-      fs: set.fs,
-      t0Ms: set.t0Ms,
-      units: u,
-      conditions: conds,
-      extras: set.extras,
-    });
     // every pulse's response keeps pulse 1's polarity per class (unless given)
-    // (measured above the sweep's baseline: the flank before a class follows that pulse's stimulus)
-    const copt: ComponentOptions = { localBaseline: false, ...(o.components ?? {}) };
-    const polarity = copt.polarity ?? measureComponents(locked.select([0]), copt).resolved.polarities;
-    const { rows } = measureComponents(locked, { ...copt, polarity });
+    const rows = measureLocked(set, data, conds, o.components);
     for (const cls of [...new Set(rows.map((r) => r.class))]) {
       const all = rows.filter((r) => r.class === cls).sort((a, b) => a.sweep - b.sweep);
       const cr = all.slice(0, n),

@@ -14,6 +14,7 @@ import { conditionsProblem, nearest, shown } from '../validate';
 import { PRESETS } from '../measure/classes';
 import { COMPONENT_OPTION_KEYS } from '../measure/components';
 import { VDIST_OPTION_KEYS } from '../analysis/velocityDistribution';
+import { QC_OPTION_KEYS } from '../analysis/sweepQc';
 import { readDelimited, type DelimitedOptions } from './delimited';
 import { readBinary } from './binary';
 import { readNwbSync, type NwbReadOptions } from './nwb';
@@ -99,22 +100,7 @@ export const ANALYSIS_KEYS: Readonly<Record<string, readonly string[] | 'boolean
   recruitment: ['measure', 'by', 'supramaximalFactor', 'minLevels'],
   strengthDuration: ['measure', 'by', 'fraction'],
   temperature: ['measure'],
-  qc: [
-    'quietWindow',
-    'endWindow',
-    'artifactWindow',
-    'responseWindow',
-    'by',
-    'peerBy',
-    'maxNoiseRatio',
-    'minNoiseRatio',
-    'maxDriftRatio',
-    'maxArtifactRatio',
-    'railRun',
-    'outlierThreshold',
-    'outlierMinScale',
-    'minSweeps',
-  ],
+  qc: QC_OPTION_KEYS,
   reject: ['flags'],
   pairedPulse: ['by', 'roleKey', 'intervalKey', 'latency', 'measure', 'blankMs', 'extrapolateMs', 'minIntervals'],
   trains: ['by', 'frequencyKey', 'pulsesKey', 'latency', 'blankMs', 'failFraction'],
