@@ -25,6 +25,7 @@ import {
 } from './engine';
 import { flagReport, FLAG_LINE_CAP } from './flags';
 import { combineStudy, type Study } from '../report/study';
+import { summaryLines, type SummaryOptions } from '../report/summary';
 import { verifyInputs, checkOutput, type Provenance } from '../report/bundle';
 import { readManifestJson, readBlindingKey, type BlindingKey } from '../io/manifest';
 import { unblindOutputs, unblindPipelineOptions, checkBlindingKey } from '../analysis/blinding';
@@ -294,7 +295,8 @@ async function main(argv0: string[]): Promise<number> {
       );
     if (flags['nwb-raw'] && typeof flags.nwb !== 'string') throw new UsageError('--nwb-raw needs --nwb <file>');
     if (typeof flags.nwb === 'string') await writeStudyNwb(pos[0], flags.nwb, !!flags['nwb-raw'], r.study!);
-    return reportStudy(r.study!, flags.out);
+    const reference = analysisOptions(pos[0]).components?.referenceDistanceMm;
+    return reportStudy(r.study!, flags.out, { referenceDistanceMm: reference });
   }
   if (cmd === 'merge') {
     if (!pos.length) throw new UsageError('merge needs one or more shard folders');
@@ -325,42 +327,8 @@ async function main(argv0: string[]): Promise<number> {
  * Print a written study's results and flags; the exit code: 0 when anything was computed
  * (even with flags), 4 when nothing at all could be (the bundle is written so the flags can be read).
  */
-function reportStudy(s: Study, out: string): number {
-  // an interval with a missing bound says which (one preparation gives no across-preparation interval)
-  const ci = (lo: unknown, hi: unknown) =>
-    lo == null && hi == null
-      ? '95% CI not available'
-      : lo == null || hi == null
-        ? `95% CI ${lo == null ? `not bounded below-${fmt(hi)}` : `${fmt(lo)}-not bounded above`}`
-        : `95% CI ${fmt(lo)}-${fmt(hi)}`;
-  // curves are per recording site unless the sites are pooled
-  const at = (r: Record<string, unknown>) => (typeof r.distanceMm === 'number' ? ` at ${r.distanceMm} mm` : '');
-  for (const row of s.tables.dose_response_summary) {
-    if (typeof row.ic50 !== 'number') continue; // not measured: in the flags
-    console.log(
-      `  IC50 ${row.class}${at(row)}: ${fmt(row.ic50)} ${row.concentrationUnit} ` +
-        `(${ci(row.ic50_ci95_low, row.ic50_ci95_high)}), Hill slope ${fmt(row.hill)}`,
-    );
-  }
-  for (const row of s.tables.strength_duration ?? []) {
-    if (row.chronaxie_ms === null) continue;
-    console.log(
-      `  chronaxie ${row.class} (${row.preparation}): ${fmt(row.chronaxie_ms)} ms ` +
-        `(${ci(row.chronaxie_ci95_low_ms, row.chronaxie_ci95_high_ms)}), ` +
-        `rheobase ${fmt(row.rheobase)}${row.intensityUnit ? ` ${row.intensityUnit}` : ''}`,
-    );
-  }
-  for (const row of s.tables.paired_pulse_summary ?? []) {
-    if (typeof row.r50_ms !== 'number') continue;
-    console.log(
-      `  recovery R50 ${row.class} (${row.preparation}${at(row)}): ${fmt(row.r50_ms)} ms ` +
-        `(${ci(row.r50_ci95_low, row.r50_ci95_high)})`,
-    );
-  }
-  for (const row of s.tables.temperature) {
-    if (typeof row.q10 !== 'number') continue;
-    console.log(`  Q10 ${row.class}${at(row)}: ${fmt(row.q10)} (${ci(row.q10_ci95_low, row.q10_ci95_high)})`);
-  }
+function reportStudy(s: Study, out: string, options: SummaryOptions = {}): number {
+  for (const line of summaryLines(s, options)) console.log(`  ${line}`);
   for (const n of s.notes) console.log(`  note: ${n}`);
   for (const line of flagReport(s.tables.flags ?? [])) console.error(line);
   console.log(`bundle written to ${out}`);
@@ -621,7 +589,7 @@ async function unblindCommand(
         .map(([c, l]) => `${c} = ${l}`)
         .join(', ')}) with ${step.options.keyFile} (SHA-256 ${String(step.options.keySha256).slice(0, 12)}...)`,
   );
-  return reportStudy(u.study, out);
+  return reportStudy(u.study, out, { referenceDistanceMm: analysisOptions(manifest).components?.referenceDistanceMm });
 }
 
 /** The first table of a bundle that differs from `tables` (as the bundle writes them), or null. */
@@ -650,11 +618,6 @@ function firstDifference(a: Buffer, b: Buffer): string {
   let line = 1;
   for (let k = 0; k < i; k++) if (a[k] === 10) line++;
   return ` (first difference at line ${line})`;
-}
-
-function fmt(v: unknown): string {
-  if (v === null || v === undefined) return 'not bounded';
-  return typeof v === 'number' ? String(Number(v.toPrecision(3))) : String(v);
 }
 
 export async function cli(argv: string[]): Promise<number> {

@@ -20,6 +20,7 @@ import { studyFigureList, tableSpec } from '../registry/index';
 import { bundleColumns, studyColumnUnits } from '../registry/columns';
 import { escapeHtml, formatCell, tableHtml, displayHtml } from '../notebook/html';
 import { checkKeys } from '../validate';
+import { intervalText, referenceLookup, siteText } from './summary';
 
 type Row = Record<string, unknown>;
 
@@ -131,18 +132,21 @@ function summaryHtml(study: Study, figures: readonly Figure[]): string {
       );
     }
   }
+  const site = referenceLookup(t.components);
+  const interval = (lo: unknown, hi: unknown) => escapeHtml(intervalText(lo, hi, formatCell));
   for (const r of t.dose_response_summary)
     if (typeof r.ic50 === 'number') {
+      const hill = typeof r.hill === 'number' ? `, Hill slope ${formatCell(r.hill)}` : '';
       head.push(
-        `IC<sub>50</sub> ${escapeHtml(r.class)}: ${formatCell(r.ic50)} ${unit(r.concentrationUnit ?? '')} ` +
-          `(95% CI ${formatCell(r.ic50_ci95_low)}-${formatCell(r.ic50_ci95_high)}), Hill slope ${formatCell(r.hill)}`,
+        `IC<sub>50</sub> ${escapeHtml(r.class)}${escapeHtml(siteText(r, site))}: ${formatCell(r.ic50)} ` +
+          `${unit(r.concentrationUnit ?? '')} (${interval(r.ic50_ci95_low, r.ic50_ci95_high)})${hill}`,
       );
     }
   for (const r of t.temperature)
     if (typeof r.q10 === 'number') {
       head.push(
-        `Q<sub>10</sub> ${escapeHtml(r.class)} (${escapeHtml(r.measure ?? '')}): ${formatCell(r.q10)} ` +
-          `(95% CI ${formatCell(r.q10_ci95_low)}-${formatCell(r.q10_ci95_high)})`,
+        `Q<sub>10</sub> ${escapeHtml(r.class)}${escapeHtml(siteText(r, site))} (${escapeHtml(r.measure ?? '')}): ` +
+          `${formatCell(r.q10)} (${interval(r.q10_ci95_low, r.q10_ci95_high)})`,
       );
     }
   const li = (xs: string[]) => `<ul>${xs.map((x) => `<li>${x}</li>`).join('')}</ul>`;

@@ -1,0 +1,97 @@
+import { describe, it, expect } from 'vitest';
+import { intervalText, summaryLines, siteText, referenceLookup } from '../../src/report/summary';
+import type { Study } from '../../src/report/study';
+
+// Wording of the command line's result lines (and report.html's "Main results"); the rows are shaped like the
+// study tables (API keys). Numbers are arbitrary: the test is about the words around them.
+function study(tables: Record<string, unknown[]>): Study {
+  return { tables: { components: [], flags: [], ...tables } } as unknown as Study;
+}
+
+describe('intervalText', () => {
+  it('names a missing bound instead of printing a placeholder as a number', () => {
+    expect(intervalText(1.4, 1.42)).toBe('95% CI 1.4-1.42');
+    expect(intervalText(null, null)).toBe('95% CI not available');
+    expect(intervalText(NaN, undefined)).toBe('95% CI not available');
+    expect(intervalText(1.2, null)).toBe('95% CI from 1.2, not bounded above');
+    expect(intervalText(null, 7.7)).toBe('95% CI up to 7.7, not bounded below');
+    // a negative bound: "to", never "-1.2--0.5"
+    expect(intervalText(-1.2, -0.5)).toBe('95% CI -1.2 to -0.5');
+    for (const s of [intervalText(null, null), intervalText(1, null), intervalText(null, 1)])
+      expect(s).not.toMatch(/not bounded-|-not bounded/);
+  });
+});
+
+describe('summaryLines', () => {
+  const bipolarComponents = [
+    { preparation: 'P1', sweep: 0, class: 'C', distanceMm: 15, referenceDistanceMm: 25 },
+    { preparation: 'P1', sweep: 1, class: 'C', distanceMm: 15, referenceDistanceMm: 25 },
+  ];
+  it('names a bipolar channel by both contacts (manifest referenceDistanceMm), a monopolar one by its distance', () => {
+    const rows = {
+      components: bipolarComponents,
+      temperature: [{ class: 'C', distanceMm: 15, q10: 1.9, q10_ci95_low: null, q10_ci95_high: null }],
+      dose_response_summary: [
+        {
+          class: 'C',
+          distanceMm: 15,
+          ic50: 7.27,
+          ic50_ci95_low: 5.2,
+          ic50_ci95_high: 10.2,
+          concentrationUnit: 'uM',
+          hill: 1.04,
+        },
+      ],
+    };
+    const lines = summaryLines(study(rows));
+    expect(lines).toContain('IC50 C at bipolar 15-25 mm: 7.27 uM (95% CI 5.2-10.2), Hill slope 1.04');
+    expect(lines).toContain('Q10 C at bipolar 15-25 mm: 1.9 (95% CI not available)');
+    expect(lines.join('\n')).not.toMatch(/at 15 mm/);
+    // the same rows recorded monopolar
+    const mono = summaryLines(study({ ...rows, components: [] }));
+    expect(mono).toContain('Q10 C at 15 mm: 1.9 (95% CI not available)');
+    // the reference given as the components option (no condition on the sweeps)
+    const opt = summaryLines(study({ ...rows, components: [] }), { referenceDistanceMm: 25 });
+    expect(opt).toContain('Q10 C at bipolar 15-25 mm: 1.9 (95% CI not available)');
+  });
+
+  it('a missing Hill slope, rheobase or bound is never printed as "not bounded" or as a number', () => {
+    const lines = summaryLines(
+      study({
+        dose_response_summary: [
+          { class: 'A', ic50: 69.4, ic50_ci95_low: 62.6, ic50_ci95_high: null, concentrationUnit: 'uM', hill: null },
+        ],
+        strength_duration: [
+          {
+            class: 'A',
+            preparation: 'P1',
+            distanceMm: 20,
+            chronaxie_ms: 0.21,
+            chronaxie_ci95_low_ms: null,
+            chronaxie_ci95_high_ms: 0.3,
+            rheobase: null,
+            intensityUnit: 'mA',
+          },
+        ],
+        paired_pulse_summary: [{ class: 'A', preparation: 'P1', r50_ms: 1.5, r50_ci95_low: 1.2, r50_ci95_high: 1.9 }],
+        temperature: [{ class: 'A', q10: 1.41, q10_ci95_low: 1.4, q10_ci95_high: 1.42 }],
+      }),
+    );
+    expect(lines).toEqual([
+      'IC50 A: 69.4 uM (95% CI from 62.6, not bounded above)',
+      'chronaxie A (P1 at 20 mm): 0.21 ms (95% CI up to 0.3, not bounded below)',
+      'recovery R50 A (P1): 1.5 ms (95% CI 1.2-1.9)',
+      'Q10 A: 1.41 (95% CI 1.4-1.42)',
+    ]);
+  });
+
+  it('looks the reference up per preparation and site', () => {
+    const ref = referenceLookup([
+      { preparation: 'P1', distanceMm: 15, referenceDistanceMm: 25 },
+      { preparation: 'P2', distanceMm: 15 },
+    ]);
+    expect(siteText({ preparation: 'P1', distanceMm: 15 }, ref)).toBe(' at bipolar 15-25 mm');
+    expect(siteText({ preparation: 'P2', distanceMm: 15 }, ref)).toBe(' at 15 mm');
+    expect(siteText({ class: 'C' }, ref)).toBe('');
+  });
+});
