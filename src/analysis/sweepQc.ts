@@ -289,6 +289,12 @@ function resolve(set: SweepSet, o: SweepQcOptions): Resolved {
 
 const groupKey = (c: Conditions, keys: string[]) => JSON.stringify(keys.map((k) => (k in c ? c[k] : null)));
 const fmt = (x: number) => (Number.isFinite(x) ? String(Number(x.toPrecision(3))) : String(x));
+/**
+ * A time of the sweep's time axis (ms from the stimulus, as latencies are), in words that say so:
+ * "3 ms after the stimulus", "2 ms before the stimulus", "the stimulus (0 ms)".
+ */
+export const stimulusTime = (ms: number): string =>
+  ms === 0 ? 'the stimulus (0 ms)' : `${fmt(Math.abs(ms))} ms ${ms > 0 ? 'after' : 'before'} the stimulus`;
 
 /** The QC table of a set: one row per sweep with its numbers, flags and reasons. */
 export class SweepQcResult extends Result {
@@ -567,7 +573,7 @@ export function sweepQc(set: SweepSet, options: SweepQcOptions = {}): SweepQcRes
       flag(
         'saturated',
         `${k} sample${k === 1 ? '' : 's'} on the rail (${rails} ${u}) outside the artifact window, ` +
-          `first at ${fmt(t(outside[0]))} ms`,
+          `first at ${stimulusTime(t(outside[0]))}`,
       );
     }
     const artMed = condArtifact.get(condOf[s])!;
@@ -695,7 +701,8 @@ type Removed = readonly { preparation?: ConditionValue; flags?: ConditionValue }
 function qcSentence(o: QcThresholds): string {
   const w = (x: [number, number]) => `${x[0]} to ${x[1]} ms`;
   return (
-    'Before averaging or fitting, each sweep was checked for quality: noise as 1.4826 times the median absolute ' +
+    'Before averaging or fitting, each sweep was checked for quality (times relative to the stimulus): noise as ' +
+    '1.4826 times the median absolute ' +
     `deviation of the quiet window (${w(o.quietWindow)}) about its linear trend (Rousseeuw & Croux 1993), flagged ` +
     `when above ${o.maxNoiseRatio} or below ${o.minNoiseRatio} times the median of its recording channel; baseline ` +
     'drift (across the quiet window, and from it to the sweep end relative to the sweeps of the same condition) ' +

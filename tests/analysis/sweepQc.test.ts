@@ -293,3 +293,28 @@ describe.skipIf(!existsSync(DEVSET))('sweepQc(set) on every series of the develo
     expect(flagged / total).toBeLessThanOrEqual(0.02);
   });
 });
+
+describe('sweepQc reasons state times from the stimulus', () => {
+  it('a rail 3 ms after the stimulus reads "first at 3 ms after the stimulus" (13 ms from the sweep start)', () => {
+    // 10 kHz, the stimulus 10 ms into the sweep (t0Ms -10): sample 130 is 3 ms after it, 13 ms from the start
+    const n = 300,
+      fs = 10000,
+      t0 = -10;
+    const r = new Rng(21);
+    const conds = [0, 1, 2, 3].map((k) => ({ preparation: 'P', intensity: 1, repeat: k }));
+    const data = new Float64Array(conds.length * n);
+    for (let s = 0; s < conds.length; s++) for (let i = 0; i < n; i++) data[s * n + i] = r.normal();
+    // sweep 2 sits on a rail of 50 uV for 5 samples from sample 130 (its maximum, repeated: railSamples)
+    for (let i = 130; i < 135; i++) data[2 * n + i] = 50;
+    const set = new SweepSet({ data, nSweeps: 4, nSamples: n, fs, t0Ms: t0, units: 'uV', conditions: conds });
+    expect(set.timeAt(130)).toBeCloseTo(3, 12); // (130 / 10 kHz) - 10 ms, hand computation
+    const q = sweepQc(set);
+    const reason = String(q.rows[2].reasons);
+    expect(reason).toMatch(
+      /saturated: 5 samples on the rail \(50 uV\) outside the artifact window, first at 3 ms after the stimulus/,
+    );
+    expect(reason).not.toMatch(/13 ms/);
+    // the methods say the times are the stimulus's
+    expect(q.methods()).toMatch(/checked for quality \(times relative to the stimulus\)/);
+  });
+});
