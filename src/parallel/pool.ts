@@ -58,6 +58,12 @@ export function workerJobs(): number {
   return dispatched;
 }
 
+/** Garbage collections the running pool threads have made (for tests: they collect when idle or after
+ * much shared memory, not after every job). */
+export function workerCollections(): number {
+  return slots.reduce((n, s) => n + Atomics.load(s.control, 7), 0);
+}
+
 /** Below this many samples of work, a call stays on the calling thread. */
 export const PARALLEL_MIN_SAMPLES = 1 << 19;
 
@@ -168,7 +174,8 @@ function startSlot(): Slot | null {
       broken = true;
     });
   }
-  // control: [0] job, [1] done, [2] ready, [3] short waits, [4] stopped, [5] why (1 out of memory, 2 exit, 3 crash), [6] exit code
+  // control: [0] job, [1] done, [2] ready, [3] short waits, [4] stopped, [5] why (1 out of memory, 2 exit,
+  // 3 crash), [6] exit code, [7] collections made
   const control = new Int32Array(new SharedArrayBuffer(32));
   const { port1, port2 } = new MessageChannel();
   const limit = heapLimitMb();

@@ -3,7 +3,8 @@
  * port, runs the kernel on its sweep range and reports back.
  * control: [0] job sequence number, [1] last job done, [2] ready flag, [3] for short
  * waits, [4] set when this thread stops (so a waiting caller does not wait forever),
- * [5] why it stopped (1 out of memory, 2 exit, 3 crash), [6] its exit code.
+ * [5] why it stopped (1 out of memory, 2 exit, 3 crash), [6] its exit code, [7] the number
+ * of garbage collections it has run (for tests).
  *
  * The same file also runs as the pool's supervisor (workerData.role 'supervisor'): it
  * starts the pool threads and, from its free event loop, sets [4] when one stops for any
@@ -54,17 +55,41 @@ function supervise(): void {
   });
 }
 
+/** A pool thread collects after this long without a job (ms)... */
+const IDLE_COLLECT_MS = 20;
+/** ...or once the jobs since its last collection have seen this many bytes of shared memory. */
+const SHARED_COLLECT_BYTES = 256 * 2 ** 20;
+
+/** Bytes of the distinct shared buffers in a job's arguments (and in their plain-object fields). */
+function sharedBytesOf(args: unknown, seen: Set<SharedArrayBuffer>): number {
+  let bytes = 0;
+  if (!args || typeof args !== 'object') return 0;
+  for (const v of Object.values(args)) {
+    if (ArrayBuffer.isView(v)) {
+      const b = v.buffer;
+      if (b instanceof SharedArrayBuffer && !seen.has(b)) {
+        seen.add(b);
+        bytes += b.byteLength;
+      }
+    } else if (v && typeof v === 'object' && !Array.isArray(v)) bytes += sharedBytesOf(v, seen);
+  }
+  return bytes;
+}
+
 function pool(): void {
   // Shared memory is freed only when every thread that saw it has collected its handle;
-  // this thread allocates too little to collect on its own, so it collects after each
-  // job (its heap is small: about a millisecond).
+  // this thread allocates too little to collect on its own. Collecting after every job
+  // cost each call a few milliseconds, so it collects when idle (no job for
+  // IDLE_COLLECT_MS) or, under sustained load, once the jobs since the last collection
+  // have seen SHARED_COLLECT_BYTES of shared buffers.
   setFlagsFromString('--expose-gc');
   const collect = runInNewContext('gc') as () => void;
   const control = new Int32Array(workerData.control as SharedArrayBuffer);
   const port = workerData.port as MessagePort;
   const fault = workerData.fault as 'exit' | 'oom' | null;
 
-  const handle = (): void => {
+  /** runs one job; returns the bytes of shared memory its arguments hold */
+  const handle = (): number => {
     let job = receiveMessageOnPort(port);
     while (!job) {
       Atomics.wait(control, 3, 0, 1);
@@ -84,6 +109,11 @@ function pool(): void {
       reply = { error: e instanceof Error ? e.message : String(e) };
     }
     port.postMessage(reply);
+    return sharedBytesOf(m.args, new Set());
+  };
+  const collectNow = (): void => {
+    collect();
+    Atomics.add(control, 7, 1);
   };
 
   process.on('exit', (code) => {
@@ -95,13 +125,26 @@ function pool(): void {
   Atomics.store(control, 2, 1);
   Atomics.notify(control, 2);
   let seen = 0;
+  let held = 0; // shared bytes seen since the last collection
+  let dirty = false; // a job ran since the last collection
   for (;;) {
-    Atomics.wait(control, 0, seen);
+    if (dirty && Atomics.wait(control, 0, seen, IDLE_COLLECT_MS) === 'timed-out') {
+      collectNow();
+      held = 0;
+      dirty = false;
+      continue;
+    }
+    if (!dirty) Atomics.wait(control, 0, seen);
     seen = Atomics.load(control, 0);
-    handle();
-    collect();
+    held += handle();
+    dirty = true;
     Atomics.store(control, 1, seen);
     Atomics.notify(control, 1);
+    if (held >= SHARED_COLLECT_BYTES) {
+      collectNow();
+      held = 0;
+      dirty = false;
+    }
   }
 }
 

@@ -19,7 +19,10 @@ import {
   ThreadError,
   writeWide,
 } from '../../src';
-import { setWorkerFault } from '../../src/parallel/pool';
+import { setWorkerFault, runSweeps, workerCollections } from '../../src/parallel/pool';
+import { noCorrection } from '../../src/parallel/kernels';
+import { setFlagsFromString } from 'node:v8';
+import { runInNewContext } from 'node:vm';
 
 const dir = mkdtempSync(join(tmpdir(), 'fascicle-pool-'));
 const S = 48,
@@ -244,6 +247,74 @@ describe('loading large files', () => {
     const csv = readDelimited(join(dir, 'big.csv'));
     appendFileSync(join(dir, 'big.csv'), '\n');
     expect(() => csv.sources[0].sha256).toThrow(/big\.csv.*changed after it was loaded/s);
+  });
+});
+
+describe('pool threads collect when idle or after much shared memory, not after every job', () => {
+  // a shared buffer is freed only when every thread that saw it has dropped its handle; the
+  // pool threads collect after 20 ms without a job or after 256 MB of shared arguments
+  setFlagsFromString('--expose-gc');
+  const gc = runInNewContext('gc') as (o?: { type: 'minor' | 'major' }) => void; // the calling thread's own collection
+  const n = 8192,
+    nS = 128; // 8 MB of float64 per input: above the threading threshold
+  const sleep = (ms: number) => new Promise((r) => setTimeout(r, ms));
+  const input = (k: number) => {
+    const x = new Float64Array(new SharedArrayBuffer(nS * n * 8));
+    for (let i = 0; i < x.length; i += 509) x[i] = Math.sin(i + k); // every page written
+    return x;
+  };
+  it('under sustained load (no idle time) the threads still free the inputs; the results are the same bits', async () => {
+    setThreads(2);
+    await stopThreads();
+    const out1 = new Float64Array(nS * n),
+      out2 = new Float64Array(new SharedArrayBuffer(nS * n * 8));
+    runSweeps('correct', { x: input(0), out: out2, n, c: noCorrection() }, nS, nS * n); // threads start
+    gc();
+    await sleep(60);
+    const rss0 = process.memoryUsage().rss,
+      c0 = workerCollections();
+    let peak = rss0;
+    const sums: number[] = [];
+    for (let k = 0; k < 160; k++) {
+      // 160 fresh 8 MB inputs back to back (1.3 GB if no thread let go of them), no pause long
+      // enough for an idle collection; a young-generation collection drops this thread's handle
+      let x: Float64Array | null = input(k);
+      runSweeps('correct', { x, out: out2, n, c: noCorrection() }, nS, nS * n);
+      let sum = 0;
+      for (let i = 0; i < out2.length; i += 509) sum += out2[i];
+      sums.push(sum);
+      x = null;
+      gc({ type: 'minor' });
+      peak = Math.max(peak, process.memoryUsage().rss);
+    }
+    const collections = workerCollections() - c0;
+    // 1,280 MB seen: at least four collections by the worker at 256 MB each
+    expect(collections).toBeGreaterThanOrEqual(4);
+    expect(peak - rss0).toBeLessThan(700 * 2 ** 20);
+    // the same bits as one thread, and as the input (no correction copies it)
+    for (const k of [3, 159]) {
+      const x = input(k);
+      setThreads(1);
+      runSweeps('correct', { x, out: out1, n, c: noCorrection() }, nS, nS * n);
+      setThreads(2);
+      runSweeps('correct', { x, out: out2, n, c: noCorrection() }, nS, nS * n);
+      expect(same(out1, out2)).toBe(true);
+      expect(same(out2, x)).toBe(true);
+      let sum = 0;
+      for (let i = 0; i < out2.length; i += 509) sum += out2[i];
+      expect(sum).toBe(sums[k]);
+    }
+  }, 120_000);
+  it('a thread collects once it has been idle, and not while it is busy', async () => {
+    setThreads(2);
+    await stopThreads();
+    const out = new Float64Array(new SharedArrayBuffer(nS * n * 8));
+    runSweeps('correct', { x: input(1), out, n, c: noCorrection() }, nS, nS * n);
+    const c0 = workerCollections();
+    await sleep(100);
+    expect(workerCollections()).toBe(c0 + 1); // one idle collection, then it waits without collecting
+    await sleep(100);
+    expect(workerCollections()).toBe(c0 + 1);
   });
 });
 
