@@ -6,7 +6,7 @@ import type { Conditions, ConditionValue } from '../sweeps/conditions';
 import type { SampleView, VerbInput, VerbOutput } from './types';
 import { OptionError, AnalysisError } from '../errors';
 import { checkKeys, finite, oneOf, windowMs } from '../validate';
-import { windowIndices } from './baseline';
+import { carryBaseline, windowIndices } from './baseline';
 import { shareCopy, sharedSamples } from '../parallel/pool';
 import { correctSweep, noCorrection } from '../parallel/kernels';
 import { bridgeGap } from '../signal/bridge';
@@ -110,6 +110,7 @@ export function removeArtifactSamples(set: VerbInput, options: ArtifactOptions):
     };
     return {
       data: { base, correction },
+      extras: carryBaseline(set.extras),
       step: { verb: 'removeArtifact', options: { method, window, bridge } },
     };
   }
@@ -132,7 +133,7 @@ export function removeArtifactSamples(set: VerbInput, options: ArtifactOptions):
     }
     return {
       data: out,
-      extras: { artifactTauMs: taus },
+      extras: { artifactTauMs: taus, ...carryBaseline(set.extras) },
       step: { verb: 'removeArtifact', options: { method, window, bridge, tailWindow: tail } },
     };
   }
@@ -234,7 +235,7 @@ export function removeArtifactSamples(set: VerbInput, options: ArtifactOptions):
   };
   return {
     data: { base, correction },
-    extras: { templateSweeps: used },
+    extras: { templateSweeps: used, ...carryBaseline(set.extras) },
     step: {
       verb: 'removeArtifact',
       options: {

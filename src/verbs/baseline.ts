@@ -19,6 +19,27 @@ export interface BaselineOptions {
 
 export const baselineDefaults = { method: 'mean' as const, lateWindow: null, stopBeforeStimulusMs: 0.1 };
 
+/**
+ * What a baseline subtraction did, kept in the set's extras (key `baselineFit`) for removeHum: the
+ * levels of the windows included the hum, so a later hum removal gives back the level and slope the
+ * hum put there (removeHum: baselineRefit). Sample indices (inclusive). The artifact verbs that only
+ * subtract or bridge on the same time axis carry it on (the line subtracted stays what it was); any
+ * other verb (filters, resampling, cropping, averaging) drops it.
+ */
+export interface BaselineFit {
+  a: number;
+  b: number;
+  late: [number, number] | null;
+  method: 'mean' | 'median';
+  nSamples: number;
+}
+
+/** The baselineFit of a set's extras, to carry on (an empty object when there is none). */
+export function carryBaseline(extras: Readonly<Record<string, unknown>>): { baselineFit?: BaselineFit } {
+  const f = extras.baselineFit as BaselineFit | undefined;
+  return f ? { baselineFit: f } : {};
+}
+
 /** Level of samples [a, b] (inclusive) of x by mean or median. */
 function level(
   x: Float64Array | Float32Array,
@@ -87,8 +108,10 @@ export function baselineSamples(set: VerbInput, options: BaselineOptions = {}): 
   }
   // the subtraction is left pending: it happens when the samples are next read
   const correction = { ...noCorrection(), line: true, level: shareCopy(level0), slope: shareCopy(slope), center: ca };
+  const baselineFit: BaselineFit = { a, b, late: lb, method, nSamples: n };
   return {
     data: { base: x, correction },
+    extras: { baselineFit },
     step: { verb: 'baseline', options: { window: w, method, lateWindow: late } },
   };
 }

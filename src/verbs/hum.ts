@@ -4,6 +4,7 @@ import { AnalysisError, OptionError } from '../errors';
 import type { SineParts } from '../signal/sinefit';
 import { cholesky, invertSpd, normalEquations, symmetricEigenvalues } from '../signal/linalg';
 import { checkKeys, integerIn, shown } from '../validate';
+import { carryBaseline, type BaselineFit } from './baseline';
 
 export interface HumOptions {
   /** mains frequency in Hz, or 'detect' (default) to choose 50 or 60 Hz and refine it within +/-1 Hz from the data */
@@ -318,6 +319,34 @@ function chooseHarmonics(set: SampleView, d: HumDesign, probe: number[]): number
   return keep;
 }
 
+/**
+ * A baseline subtracted before the hum was removed measured its levels on the hum too (10 ms of a
+ * 50 Hz sinusoid has a mean of up to 2/pi of its amplitude), leaving a level and a slope per sweep
+ * that no hum fit can take out. When the set's extras hold the baseline's windows (baselineFit, mean
+ * levels, same samples), the level and slope that the removed hum (x - out) has over those windows are
+ * added back, so the result is the baseline of the hum-free sweep: baseline and hum removal commute.
+ * Median levels are not linear in the hum and are left as they are (returns false).
+ */
+function giveBackBaseline(set: SampleView, x: Float64Array, out: Float64Array): boolean {
+  const f = set.extras.baselineFit as BaselineFit | undefined;
+  if (!f || f.method !== 'mean' || f.nSamples !== set.nSamples) return false;
+  const n = set.nSamples;
+  const ca = (f.a + f.b) / 2;
+  const cb = f.late ? (f.late[0] + f.late[1]) / 2 : 0;
+  const mean = (o: number, i0: number, i1: number) => {
+    let s = 0;
+    for (let i = i0; i <= i1; i++) s += x[o + i] - out[o + i];
+    return s / (i1 - i0 + 1);
+  };
+  for (let s = 0; s < set.nSweeps; s++) {
+    const o = s * n;
+    const level = mean(o, f.a, f.b);
+    const slope = f.late ? (mean(o, f.late[0], f.late[1]) - level) / (cb - ca) : 0;
+    for (let i = 0; i < n; i++) out[o + i] += level + slope * (i - ca);
+  }
+  return true;
+}
+
 /** The removeHum verb on samples (SweepSet.removeHum). */
 export function removeHumSamples(set: SampleView, options: HumOptions = {}): VerbOutput {
   checkKeys('removeHum options', options, ['frequency', 'harmonics', 'exclude', 'drift']);
@@ -507,9 +536,16 @@ export function removeHumSamples(set: SampleView, options: HumOptions = {}): Ver
   };
   runSweeps('removeSines', { x, out, d: shared, amp }, set.nSweeps, x.length);
   const amplitudes = Array.from(amp);
+  const refit = giveBackBaseline(set, x, out);
   return {
     data: out,
-    extras: { humFrequencyHz: f, humAmplitude: amplitudes, humDriftOrder: driftOrder, humHarmonics: numbers },
+    extras: {
+      humFrequencyHz: f,
+      humAmplitude: amplitudes,
+      humDriftOrder: driftOrder,
+      humHarmonics: numbers,
+      ...carryBaseline(set.extras),
+    },
     step: {
       verb: 'removeHum',
       options: {
@@ -521,6 +557,7 @@ export function removeHumSamples(set: SampleView, options: HumOptions = {}): Ver
         exclude,
         drift: driftOpt,
         driftOrder,
+        baselineRefit: refit,
       },
     },
   };
