@@ -336,11 +336,39 @@ export interface MixedOptions {
   interaction?: boolean;
   /** separate fits per combination of these columns (default ['class'] when present) */
   by?: string[];
-  /** level order per factor; the first is the reference (default: first-seen order) */
+  /**
+   * level order per factor; the first is the reference of the treatment-coded coefficients. A list may name only
+   * some levels (e.g. `{ group: ['control'] }` names the control as the reference): those come first in the given
+   * order, the others follow sorted. Default: sorted (`sortLevels`: numbers ascending, then text in code-point
+   * order), so that the results do not depend on the order of the input rows or files.
+   */
   levels?: Record<string, ConditionValue[]>;
 }
 
 export const mixedDefaults = { randomKeys: ['animal', 'preparation'], by: ['class'], interaction: false };
+
+const typeRank = (v: ConditionValue) => (typeof v === 'number' ? 0 : typeof v === 'string' ? 1 : 2);
+/** The documented order of two level values: numbers ascending, then text (code-point order), then the rest. */
+export function compareLevels(a: ConditionValue, b: ConditionValue): number {
+  const ra = typeRank(a),
+    rb = typeRank(b);
+  if (ra !== rb) return ra - rb;
+  if (typeof a === 'number' && typeof b === 'number') return a - b;
+  const sa = String(a),
+    sb = String(b);
+  return sa < sb ? -1 : sa > sb ? 1 : 0;
+}
+
+/** Levels in the documented order (a copy): see compareLevels. */
+export function sortLevels(levels: readonly ConditionValue[]): ConditionValue[] {
+  return [...levels].sort(compareLevels);
+}
+
+/** The level order of one factor in one fit: the given levels present, in their order, then the others sorted. */
+export function levelOrder(seen: readonly ConditionValue[], given?: readonly ConditionValue[]): ConditionValue[] {
+  const first = given ? given.filter((v, i) => seen.includes(v) && given.indexOf(v) === i) : [];
+  return [...first, ...sortLevels([...new Set(seen)].filter((v) => !first.includes(v)))];
+}
 
 interface Term {
   name: string;
@@ -493,7 +521,35 @@ export function mixedModel(
     (cells.get(id) ?? cells.set(id, []).get(id)!).push(r);
   }
   const present = (v: ConditionValue | undefined) => v !== null && v !== undefined;
-  for (const [id, all] of cells) {
+  for (const f of fixed) {
+    const given = options.levels?.[f];
+    if (given === undefined) continue;
+    if (!Array.isArray(given))
+      throw new OptionError(`invalid levels.${f}: ${shown(given)}; must be a list of levels of ${f}`);
+    const inRows = [...new Set(rows.map((r) => r[f]))].filter(present);
+    for (const v of given)
+      if (!inRows.includes(v)) {
+        const hint = didYouMean(String(v), inRows.map(String));
+        throw new OptionError(
+          `invalid levels.${f}: ${shown(v)} is not a level of ${f} in the rows${hint}; levels are ` +
+            `${sortLevels(inRows).map(shown).join(', ')}`,
+        );
+      }
+  }
+  // the levels of every fit together, in the order used (for the history and the methods text)
+  const used: Record<string, ConditionValue[]> = Object.fromEntries(fixed.map((f) => [f, []]));
+  // cells of `by` in sorted order (not the rows' order)
+  const cellOrder = [...cells.keys()].sort((a, b) => {
+    const x = JSON.parse(a) as ConditionValue[],
+      y = JSON.parse(b) as ConditionValue[];
+    for (let i = 0; i < x.length; i++) {
+      const c = compareLevels(x[i], y[i]);
+      if (c) return c;
+    }
+    return 0;
+  });
+  for (const id of cellOrder) {
+    const all = cells.get(id)!;
     const key: Row = {};
     by.forEach((k, i) => (key[k] = JSON.parse(id)[i]));
     const use = all.filter(
@@ -503,18 +559,21 @@ export function mixedModel(
         present(r[random]) &&
         fixed.every((f) => present(r[f])),
     );
+    // a fixed order of the observations (animal, factors, value), so the sums do not depend on the rows' order
+    const sortKey = (r: Row) => [r[random], ...fixed.map((f) => r[f]), r[value]] as ConditionValue[];
+    use.sort((a, b) => {
+      const x = sortKey(a),
+        y = sortKey(b);
+      for (let i = 0; i < x.length; i++) {
+        const c = compareLevels(x[i], y[i]);
+        if (c) return c;
+      }
+      return 0;
+    });
     const excluded = all.length - use.length;
     const levels: Record<string, ConditionValue[]> = {};
-    for (const f of fixed) {
-      const seen = [...new Set(use.map((r) => r[f]))];
-      const given = options.levels?.[f];
-      for (const v of given ? seen : []) {
-        if (!given!.includes(v)) {
-          throw new OptionError(`invalid levels.${f}: ${shown(given)} lacks the level ${shown(v)} found in the rows`);
-        }
-      }
-      levels[f] = given ? given.filter((v) => seen.includes(v)) : seen;
-    }
+    for (const f of fixed) levels[f] = levelOrder([...new Set(use.map((r) => r[f]))], options.levels?.[f]);
+    for (const f of fixed) used[f] = levelOrder([...used[f], ...levels[f]], options.levels?.[f]);
     const animals = new Set(use.map((r) => String(r[random])));
     const counts = { n_obs: use.length, n_animals: animals.size, n_excluded: excluded };
     const fail = (reason: string) =>
@@ -625,6 +684,8 @@ export function mixedModel(
       random,
       interaction,
       by,
+      levels: used,
+      levelOrder: options.levels ? 'given, then sorted' : 'sorted',
       estimation: 'REML',
       tests: 'Type III (sum-to-zero coding)',
       df: 'Satterthwaite (expected information; Fai-Cornelius for multi-df terms)',
@@ -634,7 +695,24 @@ export function mixedModel(
   return new MixedModelResult(coefficients, anova, variance, o, fits, [...history, step], sources, rows);
 }
 
-type MixedSpec = { value: string; fixed: string[]; random: string; interaction: boolean };
+type MixedSpec = {
+  value: string;
+  fixed: string[];
+  random: string;
+  interaction: boolean;
+  levels?: Record<string, ConditionValue[]>;
+  levelOrder?: string;
+};
+/** The reference levels in words: "; coefficients are differences from the reference level (group: control)". */
+function referenceClause(o: MixedSpec): string {
+  const lv = o.levels;
+  if (!lv) return '';
+  const parts = o.fixed.filter((f) => lv[f]?.length).map((f) => `${f}: ${lv[f].map(String).join(', ')}`);
+  return parts.length
+    ? ` The levels of each factor were ${o.levelOrder === 'sorted' ? 'sorted' : 'ordered as given, the others sorted after them'}` +
+        ` (${parts.join('; ')}); the coefficients are differences from the first (reference) level.`
+    : '';
+}
 function mixedSentence(o: MixedSpec, each: string): string {
   const fx = o.fixed.join(o.interaction ? ' and their interaction' : ', ').replace(/,([^,]*)$/, ' and$1');
   return (
@@ -642,7 +720,8 @@ function mixedSentence(o: MixedSpec, each: string): string {
     `and a random intercept per ${o.random} (observations of one ${o.random} are not independent; Lazic 2010; ` +
     `Aarts et al. 2014), fitted by restricted maximum likelihood (Patterson & Thompson 1971)${each}; fixed ` +
     "effects were tested with Type III F tests and t tests using Satterthwaite's approximation to the denominator " +
-    'degrees of freedom (Satterthwaite 1946; Fai & Cornelius 1996 for terms with several degrees of freedom).'
+    'degrees of freedom (Satterthwaite 1946; Fai & Cornelius 1996 for terms with several degrees of freedom).' +
+    referenceClause(o)
   );
 }
 
@@ -661,12 +740,15 @@ export function mixedMethods(result: MixedModelResult): string {
   const ok = result.variance.filter((v) => v.status === 'ok').length;
   const n = result.variance.length;
   const each = o.by.length ? ` separately for each ${o.by.join(' and ')} (${ok} of ${n} fitted)` : '';
-  return mixedSentence({ ...o, interaction: !!o.interaction }, each);
+  const step = [...result.history].reverse().find((h) => h.verb === 'mixedModel');
+  const levels = step?.options.levels as Record<string, ConditionValue[]> | undefined;
+  const levelOrder = step?.options.levelOrder as string | undefined;
+  return mixedSentence({ ...o, interaction: !!o.interaction, levels, levelOrder }, each);
 }
 
 /** The methods sentence of a 'mixedModel' history step; other steps: ''. */
 export function mixedStepMethods(step: Step): string {
   if (step.verb !== 'mixedModel') return '';
-  const o = step.options as { value: string; fixed: string[]; random: string; interaction: boolean; by: string[] };
+  const o = step.options as MixedSpec & { by: string[] };
   return mixedSentence(o, o.by.length ? ` separately for each ${o.by.join(' and ')}` : '');
 }

@@ -463,3 +463,61 @@ describe('within-animal designs and pseudo-replication', () => {
     expect(naiveRejects / S).toBeGreaterThan(0.15);
   });
 });
+
+describe('mixedModel level order: documented, not the order of the input rows', () => {
+  // two classes, three groups of 4 animals with 3 sweeps each (seeded); the test is an invariant (the same model
+  // of the same observations), so no external value is needed
+  const r = new Rng(77);
+  const base: { class: string; group: string; animal: string; value: number }[] = [];
+  for (const cls of ['C', 'A-delta'])
+    for (const [g, shift] of [
+      ['treated', 1.2],
+      ['control', 0],
+      ['vehicle', 0.3],
+    ] as const)
+      for (let a = 0; a < 4; a++) {
+        const u = r.normal();
+        for (let k = 0; k < 3; k++)
+          base.push({ class: cls, group: g, animal: `${g}-${a}`, value: 5 + shift + u + r.normal() });
+      }
+  const shuffled = (seed: number) => {
+    const rr = new Rng(seed),
+      xs = [...base];
+    for (let i = xs.length - 1; i > 0; i--) {
+      const j = Math.floor(rr.uniform() * (i + 1));
+      [xs[i], xs[j]] = [xs[j], xs[i]];
+    }
+    return xs;
+  };
+  it('default: levels sorted (control first here), cells sorted; a shuffled input gives identical tables', () => {
+    const m = mixedModel(base, { value: 'value', fixed: ['group'] });
+    expect(m.coefficients.filter((c) => c.class === 'A-delta').map((c) => c.term)).toEqual([
+      '(Intercept)',
+      'group: treated vs control',
+      'group: vehicle vs control',
+    ]);
+    // cells in sorted order of `by` (A-delta before C), not first-seen (C first in the rows)
+    expect(m.variance.map((v) => v.class)).toEqual(['A-delta', 'C']);
+    for (const seed of [1, 2, 3]) {
+      const s = mixedModel(shuffled(seed), { value: 'value', fixed: ['group'] });
+      expect(s.coefficients).toEqual(m.coefficients);
+      expect(s.anova).toEqual(m.anova);
+      expect(s.variance).toEqual(m.variance);
+    }
+    const step = m.history[m.history.length - 1];
+    expect(step.options.levels).toEqual({ group: ['control', 'treated', 'vehicle'] });
+    expect(m.methods()).toMatch(/levels of each factor were sorted \(group: control, treated, vehicle\)/);
+  });
+  it('a named reference level comes first, the others sorted after it; a level not in the rows is an error', () => {
+    const m = mixedModel(shuffled(4), { value: 'value', fixed: ['group'], levels: { group: ['vehicle'] } });
+    expect(m.coefficients.filter((c) => c.class === 'C').map((c) => c.term)).toEqual([
+      '(Intercept)',
+      'group: control vs vehicle',
+      'group: treated vs vehicle',
+    ]);
+    expect(m.methods()).toMatch(/ordered as given, the others sorted after them \(group: vehicle, control, treated\)/);
+    expect(() => mixedModel(base, { value: 'value', fixed: ['group'], levels: { group: ['contrl'] } })).toThrow(
+      /invalid levels\.group: "contrl" is not a level of group in the rows.*did you mean "control"/,
+    );
+  });
+});
