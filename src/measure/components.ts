@@ -176,8 +176,90 @@ export interface ResolvedComponentOptions {
 import { onsetColumn, componentLatencyText } from './latencyText';
 export { onsetColumn, componentLatencyText, latencyMethodsText } from './latencyText';
 
-/** End (ms) of rail clipping after the stimulus: the last sample of a run of 3 or more equal samples at the sweep's extreme, or null. */
-export function clipEndMs(x: ArrayLike<number>, t0Ms: number, dtMs: number, fromMs = 0, toMs = 20): number | null {
+/** Options of clipEndMs. */
+export interface ClipOptions {
+  /**
+   * the amplifier's rails [low, high] in signal units, e.g. the extremes of every sweep of a recording (default: this
+   * sweep's own minimum and maximum); a sweep extreme further than 1% of the rail from it is not on the rail
+   */
+  rail?: [number, number];
+  /** shortest stretch on the rail that counts as clipping, ms (default 0.04; and at least 3 samples) */
+  minRunMs?: number;
+}
+
+/**
+ * Robust standard deviation of the sample-to-sample noise: the median absolute first difference / (0.6745 sqrt 2)
+ * (common practice, no source: the MAD of differences ignores slow waves and a few large steps).
+ */
+function diffNoise(x: ArrayLike<number>): number {
+  const d = new Float64Array(Math.max(0, x.length - 1));
+  for (let i = 1; i < x.length; i++) d[i - 1] = Math.abs(x[i] - x[i - 1]);
+  d.sort();
+  return d.length ? d[Math.floor(d.length / 2)] / (0.6745 * Math.SQRT2) : 0;
+}
+
+/** Whether samples a..b lie within maxDev of one least-squares parabola (the top of a smooth wave). */
+function smoothTop(x: ArrayLike<number>, a: number, b: number, maxDev: number): boolean {
+  const m = b - a + 1;
+  if (m < 4) return true;
+  // normal equations of y = c0 + c1 u + c2 u^2, u centred
+  const mid = (a + b) / 2;
+  const S = new Float64Array(5),
+    T = new Float64Array(3);
+  for (let i = a; i <= b; i++) {
+    const u = i - mid;
+    let p = 1;
+    for (let k = 0; k < 5; k++) {
+      S[k] += p;
+      if (k < 3) T[k] += p * x[i];
+      p *= u;
+    }
+  }
+  const M = [
+    [S[0], S[1], S[2], T[0]],
+    [S[1], S[2], S[3], T[1]],
+    [S[2], S[3], S[4], T[2]],
+  ];
+  for (let c = 0; c < 3; c++) {
+    let p = c;
+    for (let r = c + 1; r < 3; r++) if (Math.abs(M[r][c]) > Math.abs(M[p][c])) p = r;
+    [M[c], M[p]] = [M[p], M[c]];
+    for (let r = 0; r < 3; r++)
+      if (r !== c) {
+        const q = M[r][c] / M[c][c];
+        for (let k = c; k < 4; k++) M[r][k] -= q * M[c][k];
+      }
+  }
+  const c0 = M[0][3] / M[0][0],
+    c1 = M[1][3] / M[1][1],
+    c2 = M[2][3] / M[2][2];
+  for (let i = a; i <= b; i++) {
+    const u = i - mid;
+    if (Math.abs(x[i] - (c0 + c1 * u + c2 * u * u)) > maxDev) return false;
+  }
+  return true;
+}
+
+/**
+ * End (ms) of rail clipping after the stimulus: the last sample of the last run, between fromMs and toMs, of samples
+ * within a tolerance of the sweep's extreme that lasts at least `minRunMs` (and 3 samples); null when there is none.
+ * The tolerance is 0.1% of the extreme, or, when no run is found so, 4 x the sample-to-sample noise SD (diffNoise)
+ * about the median of the samples within 6 SDs of the extreme, so that a rail perturbed after the amplifier (hum,
+ * noise, rounding on storage) is still found; the run must not be the top of a smooth wave (a parabola through it and
+ * one sample on either side misses one by more than twice the tolerance: a rail is hit or left at once) and lie
+ * more than 20 tolerances from the median sample (the floor of a one-signed wave is no rail), and a sweep whose
+ * extreme is more than 1% away from `rail` (when given) does not reach the rail at all (common practice, no source).
+ */
+export function clipEndMs(
+  x: ArrayLike<number>,
+  t0Ms: number,
+  dtMs: number,
+  fromMs = 0,
+  toMs = 20,
+  options: ClipOptions = {},
+): number | null {
+  const minRunMs = options.minRunMs ?? 0.04;
+  if (!(minRunMs >= 0)) throw new OptionError(`invalid minRunMs: ${minRunMs}; must be >= 0 ms`);
   const i0 = Math.max(0, Math.ceil((fromMs - t0Ms) / dtMs)),
     i1 = Math.min(x.length - 1, Math.floor((toMs - t0Ms) / dtMs));
   let mx = -Infinity,
@@ -186,15 +268,45 @@ export function clipEndMs(x: ArrayLike<number>, t0Ms: number, dtMs: number, from
     if (x[i] > mx) mx = x[i];
     if (x[i] < mn) mn = x[i];
   }
-  let last: number | null = null;
-  for (let i = i0; i + 2 <= i1; i++) {
-    const v = x[i];
-    if ((v === mx || v === mn) && x[i + 1] === v && x[i + 2] === v) {
-      let j = i + 2;
-      while (j + 1 <= i1 && x[j + 1] === v) j++;
-      last = j;
+  const sd = diffNoise(x);
+  const sorted = Float64Array.from(x).sort();
+  const mid = sorted.length ? sorted[Math.floor(sorted.length / 2)] : 0;
+  const minRun = Math.max(3, Math.ceil(minRunMs / dtMs - 1e-9));
+  const levels = [mx, mn].filter((v, j) => {
+    const r = options.rail?.[j === 0 ? 1 : 0];
+    return r === undefined || Math.abs(v - r) <= 0.01 * Math.abs(r);
+  });
+  // the last run of `minRun` or more samples within tol of v that is not the top of a smooth wave (a parabola through
+  // the run and one sample on either side misses one of them by more than twice the tolerance: a rail is hit or left
+  // at once), v far from the baseline (the median sample: at least 20 tolerances; the floor of a one-signed wave is
+  // no rail)
+  const runEnd = (v: number, tol: number): number | null => {
+    if (!(Math.abs(v - mid) > 20 * tol)) return null;
+    let end: number | null = null;
+    for (let i = i0; i <= i1; i++) {
+      if (!(Math.abs(x[i] - v) <= tol)) continue;
+      let j = i;
+      while (j + 1 <= i1 && Math.abs(x[j + 1] - v) <= tol) j++;
+      const abrupt = j - i + 1 >= minRun && !smoothTop(x, Math.max(0, i - 1), Math.min(x.length - 1, j + 1), 2 * tol);
+      if (abrupt) end = j;
       i = j;
     }
+    return end;
+  };
+  let last: number | null = null;
+  for (const ext of levels) {
+    // first within 0.1% of the extreme (a rail recorded as it is, or moved by a slow hum); otherwise a rail with noise
+    // on it: its level the median of the samples within 6 noise SDs of the extreme (the extreme is the rail plus the
+    // largest excursion), and within 4 noise SDs of that level
+    let end = runEnd(ext, 1e-3 * Math.abs(ext));
+    if (end === null) {
+      const near: number[] = [];
+      for (let i = i0; i <= i1; i++) if (Math.abs(x[i] - ext) <= 6 * sd) near.push(x[i]);
+      near.sort((p, q) => p - q);
+      const v = near.length ? near[Math.floor(near.length / 2)] : ext;
+      end = runEnd(v, Math.max(1e-3 * Math.abs(v), 4 * sd));
+    }
+    if (end !== null && (last === null || end > last)) last = end;
   }
   return last === null ? null : t0Ms + last * dtMs;
 }
@@ -370,7 +482,19 @@ export function measureComponents(
   // the artifact's decay after rail clipping: its time constant is estimated at the farthest site of each group
   // (decomposeBy), where the compound response arrives last and disturbs the estimate least, and used at every site
   const groupOf = (s: number) => decomposeBy.map((c) => String(set.conditions[s][c] ?? '')).join('|');
-  const clips = Array.from({ length: set.nSweeps }, (_, s) => clipEndMs(set.sweep(s), set.t0Ms, dt, 0));
+  // the amplifier's rails: the extremes over every sweep (a sweep that clips sits on one of them)
+  let railLo = Infinity,
+    railHi = -Infinity;
+  for (let s = 0; s < set.nSweeps; s++) {
+    const x = set.sweep(s);
+    for (let i = 0; i < x.length; i++) {
+      if (x[i] < railLo) railLo = x[i];
+      if (x[i] > railHi) railHi = x[i];
+    }
+  }
+  const clips = Array.from({ length: set.nSweeps }, (_, s) =>
+    clipEndMs(set.sweep(s), set.t0Ms, dt, 0, 20, { rail: [railLo, railHi] }),
+  );
   const tauOf = new Map<string, number>();
   {
     const far = new Map<string, number>();
@@ -901,7 +1025,8 @@ export function measureComponents(
 }
 
 /**
- * Least-squares amplitude (column amplitude_fit_<units>): each measured class component projected on the class's
+ * Least-squares amplitude (column amplitude_fit_<units>, standard error amplitude_fit_se_<units> for white noise of
+ * the row's noise level): each measured or not-detected class component projected on the class's
  * reference waveform at the same site, a = sum(y r) / sum(r r) over the span around the reference's peak where
  * it exceeds 10% of that peak, reported as a x the reference's peak (a class alone in its window is already
  * measured above its own local baseline). The reference is the mean component of the group's unblocked sweeps
@@ -917,7 +1042,8 @@ function fittedAmplitudes(
   siteKey: (s: number) => string,
   units: string,
 ): void {
-  const col = `amplitude_fit_${units}`;
+  const col = `amplitude_fit_${units}`,
+    seCol = `amplitude_fit_se_${units}`;
   const groups = new Map<string, ComponentRow[]>();
   for (const r of rows) {
     const k = `${siteKey(r.sweep)}|${r.class}`;
@@ -925,11 +1051,17 @@ function fittedAmplitudes(
   }
   const ciOf = new Map(classes.map((c, i) => [c.name, i]));
   for (const g of groups.values()) {
-    for (const r of g) r[col] = null;
+    for (const r of g) {
+      r[col] = null;
+      r[seCol] = null;
+    }
     const ci = ciOf.get(g[0].class)!;
     const p = polarities[g[0].class];
     const comp = (r: ComponentRow) => measures[r.sweep]?.[ci];
     const measured = g.filter((r) => r.status === 'measured' && comp(r)?.component);
+    // every row with a component of its own is projected (a small blocked response that fails detection still has
+    // an unbiased least-squares amplitude); the reference is made of measured rows only
+    const projectable = g.filter((r) => (r.status === 'measured' || r.status === 'not detected') && comp(r)?.component);
     const unblocked = measured.filter((r) => !(typeof r.concentration === 'number' && r.concentration > 0));
     const top = Math.max(...unblocked.map((r) => (typeof r.intensity === 'number' ? r.intensity : -Infinity)));
     const ref = unblocked.filter((r) => (typeof r.intensity === 'number' ? r.intensity : -Infinity) === top);
@@ -937,7 +1069,7 @@ function fittedAmplitudes(
     // the reference on absolute sample indices [lo, hi] common to every measured component of the group
     let lo = -Infinity,
       hi = Infinity;
-    for (const r of measured) {
+    for (const r of projectable) {
       const m = comp(r)!;
       lo = Math.max(lo, m.window[0]);
       hi = Math.min(hi, m.window[0] + m.component!.length - 1);
@@ -962,10 +1094,13 @@ function fittedAmplitudes(
     const P = tmpl[ip];
     let rr = 0;
     for (let j = j0; j <= j1; j++) rr += tmpl[j] * tmpl[j];
-    for (const r of measured) {
+    for (const r of projectable) {
       let yr = 0;
       for (let j = j0; j <= j1; j++) yr += at(r, lo + j) * tmpl[j];
       r[col] = (P * yr) / rr;
+      // standard error for white noise of the row's level: var(sum y t) = sigma^2 sum t^2
+      const sd = r[`noise_${units}`];
+      r[seCol] = typeof sd === 'number' ? (P * sd) / Math.sqrt(rr) : null;
     }
   }
 }
