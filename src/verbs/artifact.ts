@@ -37,6 +37,11 @@ export interface ArtifactOptions {
   fitWindow?: [number, number];
   /** exponential: window where the tail is fitted, ms (default [window end, window end + 0.4]). */
   tailWindow?: [number, number];
+  /**
+   * exponential: number of decaying exponentials (1, default, or 2: a fast decay and a slow tail, for
+   * artifacts whose tail outlasts the first decay; give a tailWindow several slow time constants long)
+   */
+  exponentials?: 1 | 2;
 }
 export const artifactDefaults = {
   window: [0, 0.3] as [number, number],
@@ -63,7 +68,7 @@ function groupKeys(set: SampleView, keys: string[]): Map<string, number[]> {
  */
 const ARTIFACT_KEYS: Record<ArtifactMethod, readonly string[]> = {
   blank: ['method', 'window', 'bridge'],
-  exponential: ['method', 'window', 'bridge', 'tailWindow'],
+  exponential: ['method', 'window', 'bridge', 'tailWindow', 'exponentials'],
   template: ['method', 'window', 'scaling', 'fitWindow', 'templateBy', 'maxIntensity', 'templateSweeps'],
   alternate: ['method'],
 };
@@ -121,20 +126,34 @@ export function removeArtifactSamples(set: VerbInput, options: ArtifactOptions):
       throw new OptionError(
         `invalid tailWindow: [${tail[0]}, ${tail[1]}] ms holds ${tb - ta + 1} samples; need at least 5 to fit an exponential`,
       );
+    const K = options.exponentials ?? 1;
+    if (K !== 1 && K !== 2)
+      throw new OptionError(`invalid exponentials: ${JSON.stringify(K)}; must be 1 or 2 (decaying exponentials)`);
+    if (K === 2 && tb - ta < 8)
+      throw new OptionError(
+        `invalid tailWindow: [${tail[0]}, ${tail[1]}] ms holds ${tb - ta + 1} samples; need at least 9 to fit ` +
+          `two exponentials`,
+      );
     const out = sharedSamples(set.data.length);
     out.set(set.data);
-    const taus: number[] = [];
+    const taus: number[][] = [];
     for (let s = 0; s < set.nSweeps; s++) {
       const x = out.subarray(s * n, (s + 1) * n);
-      const fit = fitExpTail(x, ta, tb, set.fs);
-      taus.push(fit.tauMs);
-      for (let i = a; i < n; i++) x[i] -= fit.A * Math.exp(-((i - ta) * 1000) / set.fs / fit.tauMs);
+      const terms =
+        K === 1
+          ? [fitExpTail(x, ta, tb, set.fs)].map((f) => ({ A: f.A, tauMs: f.tauMs }))
+          : fitExpTails(x, ta, tb, set.fs).terms;
+      taus.push(terms.map((q) => q.tauMs));
+      for (const q of terms) for (let i = a; i < n; i++) x[i] -= q.A * Math.exp(-((i - ta) * 1000) / set.fs / q.tauMs);
       bridgeGap(x, a, b, bridge);
     }
     return {
       data: out,
-      extras: { artifactTauMs: taus, ...carryBaseline(set.extras) },
-      step: { verb: 'removeArtifact', options: { method, window, bridge, tailWindow: tail } },
+      extras: { artifactTauMs: K === 1 ? taus.map((q) => q[0]) : taus, ...carryBaseline(set.extras) },
+      step: {
+        verb: 'removeArtifact',
+        options: { method, window, bridge, tailWindow: tail, ...(K === 2 ? { exponentials: 2 } : {}) },
+      },
     };
   }
   // template
@@ -305,6 +324,127 @@ export function fitExpTail(
     }
   }
   return at((lo + hi) / 2);
+}
+
+/**
+ * Fit y = A1 exp(-(t - t_a)/tau1) + A2 exp(-(t - t_a)/tau2) + c on samples [ta, tb] (tau1 < tau2) by
+ * variable projection: the amplitudes and c by linear least squares at each (tau1, tau2); the time
+ * constants by a grid over log tau (0.01 ms to 4 x the window, 32 points a side), then a Nelder-Mead
+ * search in (log tau1, log tau2) from the best grid point. When the second exponential does not lower
+ * the residual (one decay only), the result is the single-exponential fit with A2 = 0.
+ * Reference: G. H. Golub and V. Pereyra, The differentiation of pseudo-inverses and nonlinear least
+ * squares problems whose variables separate, SIAM J. Numer. Anal. 10 (1973) 413-432.
+ */
+export function fitExpTails(
+  x: Float64Array,
+  ta: number,
+  tb: number,
+  fs: number,
+): { terms: { A: number; tauMs: number }[]; c: number; rss: number } {
+  const m = tb - ta + 1;
+  const tk = Float64Array.from({ length: m }, (_, k) => (k * 1000) / fs);
+  const y = Float64Array.from({ length: m }, (_, k) => x[ta + k]);
+  const e1 = new Float64Array(m),
+    e2 = new Float64Array(m);
+  const at = (l1: number, l2: number) => {
+    const t1 = Math.exp(l1),
+      t2 = Math.exp(l2);
+    for (let k = 0; k < m; k++) {
+      e1[k] = Math.exp(-tk[k] / t1);
+      e2[k] = Math.exp(-tk[k] / t2);
+    }
+    // normal equations of [e1, e2, 1] (3 x 3), solved with partial pivoting
+    const cols = [e1, e2, null];
+    const G = [0, 1, 2].map((i) => [0, 1, 2].map((j) => dotCols(cols[i], cols[j], m)));
+    const r = [0, 1, 2].map((i) => dotCols(cols[i], y, m));
+    const coef = solve3(G, r);
+    if (!coef) return { rss: Infinity, coef: [0, 0, 0], t1, t2 };
+    let rss = 0;
+    for (let k = 0; k < m; k++) rss += (y[k] - coef[0] * e1[k] - coef[1] * e2[k] - coef[2]) ** 2;
+    return { rss, coef, t1, t2 };
+  };
+  const lo = Math.log(0.01),
+    hi = Math.log(4 * Math.max(tk[m - 1], 1e-3));
+  const N = 32;
+  let best = { l1: lo, l2: hi, rss: Infinity };
+  for (let i = 0; i < N; i++)
+    for (let j = i + 1; j < N; j++) {
+      const l1 = lo + ((hi - lo) * i) / (N - 1),
+        l2 = lo + ((hi - lo) * j) / (N - 1);
+      const r = at(l1, l2).rss;
+      if (r < best.rss) best = { l1, l2, rss: r };
+    }
+  // Nelder-Mead in (log tau1, log tau2), kept inside [lo, hi]
+  const clampL = (v: number) => Math.min(hi, Math.max(lo, v));
+  const f = (p: number[]) => at(clampL(p[0]), clampL(p[1])).rss;
+  const step = (hi - lo) / (N - 1);
+  let simplex = [
+    [best.l1, best.l2],
+    [best.l1 + step, best.l2],
+    [best.l1, best.l2 + step],
+  ].map((p) => ({ p, v: f(p) }));
+  for (let it = 0; it < 300; it++) {
+    simplex.sort((u, w) => u.v - w.v);
+    const [b0, b1, w] = simplex;
+    if (Math.abs(w.v - b0.v) <= 1e-15 * Math.abs(b0.v) + 1e-300 && it > 20) break;
+    const c = [(b0.p[0] + b1.p[0]) / 2, (b0.p[1] + b1.p[1]) / 2];
+    const pt = (k: number) => [c[0] + k * (w.p[0] - c[0]), c[1] + k * (w.p[1] - c[1])];
+    const r = { p: pt(-1), v: f(pt(-1)) };
+    if (r.v < b0.v) {
+      const e = { p: pt(-2), v: f(pt(-2)) };
+      simplex = [b0, b1, e.v < r.v ? e : r];
+    } else if (r.v < b1.v) simplex = [b0, b1, r];
+    else {
+      const k = { p: pt(r.v < w.v ? -0.5 : 0.5), v: 0 };
+      k.v = f(k.p);
+      if (k.v < Math.min(w.v, r.v)) simplex = [b0, b1, k];
+      else
+        simplex = [
+          b0,
+          ...[b1, w].map((q) => {
+            const p = [(q.p[0] + b0.p[0]) / 2, (q.p[1] + b0.p[1]) / 2];
+            return { p, v: f(p) };
+          }),
+        ];
+    }
+  }
+  simplex.sort((u, w) => u.v - w.v);
+  const two = at(clampL(simplex[0].p[0]), clampL(simplex[0].p[1]));
+  const one = fitExpTail(x, ta, tb, fs);
+  if (!(two.rss < one.rss)) return { terms: [{ A: one.A, tauMs: one.tauMs }], c: one.c, rss: one.rss };
+  const terms = [
+    { A: two.coef[0], tauMs: two.t1 },
+    { A: two.coef[1], tauMs: two.t2 },
+  ].sort((p, q) => p.tauMs - q.tauMs);
+  return { terms, c: two.coef[2], rss: two.rss };
+}
+
+function dotCols(a: Float64Array | null, b: Float64Array | null, m: number): number {
+  let s = 0;
+  for (let k = 0; k < m; k++) s += (a ? a[k] : 1) * (b ? b[k] : 1);
+  return s;
+}
+
+function solve3(A: number[][], b: number[]): number[] | null {
+  const M = A.map((r, i) => [...r, b[i]]);
+  for (let c = 0; c < 3; c++) {
+    let p = c;
+    for (let r = c + 1; r < 3; r++) if (Math.abs(M[r][c]) > Math.abs(M[p][c])) p = r;
+    if (!(Math.abs(M[p][c]) > 1e-12 * Math.max(1e-300, Math.abs(M[0][0]), Math.abs(M[1][1]), Math.abs(M[2][2]))))
+      return null;
+    [M[c], M[p]] = [M[p], M[c]];
+    for (let r = c + 1; r < 3; r++) {
+      const q = M[r][c] / M[c][c];
+      for (let k = c; k < 4; k++) M[r][k] -= q * M[c][k];
+    }
+  }
+  const out = [0, 0, 0];
+  for (let r = 2; r >= 0; r--) {
+    let s = M[r][3];
+    for (let k = r + 1; k < 3; k++) s -= M[r][k] * out[k];
+    out[r] = s / M[r][r];
+  }
+  return out;
 }
 
 const PAIR_IGNORE = new Set(['polarity', 'repeat', 'acquiredS', 'fileSweep', 'label', 'file']);

@@ -9,8 +9,8 @@
 //   (the mean minimises it). median: the sum of |y| over the window does not grow.
 // - removeArtifact blank: samples outside the window are unchanged bit for bit; a linear
 //   bridge stays between its two end samples.
-// - exponential: samples before the window unchanged; the variance over the tail window
-//   does not grow (the fit includes a constant, so it can only lower it).
+// - exponential (one or two exponentials): samples before the window unchanged; the variance over
+//   the tail window does not grow (the fit includes a constant, so it can only lower it).
 // - template: samples before the window unchanged; SS over the fit window does not grow
 //   (the least-squares scale minimises it).
 // - alternate: each output sweep has at most the mean power of its pair (convexity).
@@ -181,11 +181,11 @@ describe('conditioning verbs never add power outside their region (fast-check)',
       runs,
     );
   });
-  it('removeArtifact(set, { method: "exponential" })', () => {
+  it('removeArtifact(set, { method: "exponential", exponentials: 1 or 2 })', () => {
     fc.assert(
-      fc.property(spec, (p) => {
+      fc.property(spec, fc.constantFrom<1 | 2>(1, 2), (p, exponentials) => {
         const x = make(p);
-        const y = x.removeArtifact({ method: 'exponential', window: [0, 0.2], tailWindow: [0.3, 1.5] });
+        const y = x.removeArtifact({ method: 'exponential', window: [0, 0.2], tailWindow: [0.3, 1.5], exponentials });
         const [a, ta, tb] = [idx(0), idx(0.3), idx(1.5)];
         perSweep(x, y, (u, v) => {
           for (let i = 0; i < a; i++) expect(Object.is(u[i], v[i])).toBe(true);
