@@ -158,7 +158,8 @@ async function writeStudyNwb(manifest: string, path: string, raw: boolean, study
   await nwbReady();
   const set = readManifest(manifest);
   const sweeps = raw ? set : condition(set, analysisOptions(manifest));
-  const w = writeNwbSync(sweeps, path, { raw, overwrite: true, results: study.tables as never });
+  // the tables as the bundle names them (the same columns as its CSV files)
+  const w = writeNwbSync(sweeps, path, { raw, overwrite: true, results: bundleTables(study) });
   console.log(`NWB: ${path} (${w.trials} sweeps, ${w.series.length} series, ${w.tables.length} tables)`);
 }
 

@@ -278,3 +278,24 @@ export function decodeColumn(
   }
   return out;
 }
+
+/** Rows of a result table, as plain objects. */
+export type ResultRows = readonly Record<string, unknown>[];
+
+/**
+ * How a result table's columns are named in the NWB file's processing module: the bundle's names (snake_case, the
+ * unit as the last part), so a collaborator sees the same columns in the bundle's CSV files and in the NWB file.
+ * The registry installs the renaming when it loads (src/registry/columns.ts `bundleColumns`; the package index
+ * loads it), since the io layer cannot import it; without it the rows keep their own keys.
+ */
+let resultColumnNames: (table: string, rows: ResultRows, signalUnit: string) => ResultRows = (_t, rows) => rows;
+
+/** Install the renaming of result-table columns (the registry does, at load). */
+export function setResultColumnNames(fn: (table: string, rows: ResultRows, signalUnit: string) => ResultRows): void {
+  resultColumnNames = fn;
+}
+
+/** A result table's rows with the column names the NWB file uses (see setResultColumnNames). */
+export function resultColumns(table: string, rows: ResultRows, signalUnit: string): ResultRows {
+  return resultColumnNames(table, rows, signalUnit);
+}

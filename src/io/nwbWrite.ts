@@ -12,8 +12,9 @@
  * - /general/extracellular_ephys/electrodes: one row per (preparation, site, distance), with
  *   location, group, group_name, distance_mm and preparation; one ElectrodeGroup and Device.
  * - /processing/fascicle/history (verb, options as JSON, version per step), .../inputs (path,
- *   sha256, bytes), one DynamicTable per result table (tables without rows are listed in the
- *   attribute fascicle_empty_tables) and the study's settings (attribute fascicle_study).
+ *   sha256, bytes), one DynamicTable per result table, its columns named as in the bundle's CSV files
+ *   (snake_case, unit last: `distance_mm`, `ic50_uM`; src/io/nwbColumns.ts resultColumns), tables without rows
+ *   listed in the attribute fascicle_empty_tables, and the study's settings (attribute fascicle_study).
  * Samples and timestamps are chunked by whole sweeps; `compression` gzips them.
  * - /general/source_script "fascicle <version>": how fascicle recognises its own files.
  * The file is written to a temporary file in the same folder and renamed into place; an existing
@@ -40,7 +41,7 @@ import { checkKeys, shown } from '../validate';
 import { SweepSet, conditionKeys, type ConditionValue } from '../sweeps/SweepSet';
 import { VERSION } from '../version';
 import { nwbReady, h5, openHdf5, at, isDataset, texts, type H5File, type H5Group } from './nwbLib';
-import { encodeColumn } from './nwbColumns';
+import { encodeColumn, resultColumns } from './nwbColumns';
 import { FASCICLE_SCRIPT } from './nwb';
 
 type Rows = readonly Record<string, unknown>[];
@@ -561,8 +562,10 @@ function writeContent(
   ]);
   const tables: string[] = [];
   const empty: string[] = [];
-  for (const [name, rows] of Object.entries(resultTables(o.results))) {
-    if (!rows) continue;
+  for (const [name, given] of Object.entries(resultTables(o.results))) {
+    if (!given) continue;
+    // the bundle's column names (snake_case, unit last), as in the bundle's CSV files
+    const rows = resultColumns(name, given, set.units) as Rows;
     let safe = name.replace(/[^A-Za-z0-9_.-]/g, '_');
     if (['history', 'inputs'].includes(safe) || safe.startsWith('sweeps')) safe = `results_${safe}`;
     if (tables.includes(safe) || empty.includes(safe)) {

@@ -15,6 +15,7 @@
  */
 import type { Row } from './types';
 import { tableSpec } from './index';
+import { setResultColumnNames } from '../io/nwbColumns';
 
 /** Condition keys (camelCase, the manifest's) -> bundle column names. */
 export const CONDITION_COLUMNS: Readonly<Record<string, string>> = {
@@ -114,3 +115,6 @@ export function apiColumns(table: string, rows: readonly Row[]): Row[] {
     return out;
   });
 }
+
+// the NWB writer's result tables take the bundle's names too (the io layer cannot import this module)
+setResultColumnNames((table, rows, signalUnit) => bundleColumns(table, rows as Row[], { response: signalUnit }));

@@ -24,6 +24,15 @@ describe('fascicle run --nwb <file> [--nwb-raw]', () => {
     expect(Array.from(back.sweep(7))).toEqual(Array.from(set.sweep(7)));
     const tables = await readNwbTables(nwb);
     expect(Object.keys(tables)).toEqual(expect.arrayContaining(['components', 'velocity', 'flags']));
+    // a collaborator sees the same columns in the NWB file as in the bundle's CSV files (snake_case, unit last)
+    for (const [name, rows] of Object.entries(tables)) {
+      if (!rows.length) continue;
+      const header = readFileSync(join(dir, 'b', 'tables', `${name}.csv`), 'utf8')
+        .split('\n')[0]
+        .split(',');
+      expect(Object.keys(rows[0]), name).toEqual(header);
+    }
+    expect(Object.keys(tables.thresholds[0])).toContain('lowest_detected_intensity_mA');
     const foreign = join(dir, 'mine.nwb');
     writeFileSync(foreign, 'not fascicle');
     const q = cli(['run', 'data-demo/manifest.json', '--out', join(dir, 'b'), '--nwb', foreign, '--quiet']);

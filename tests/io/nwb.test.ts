@@ -27,6 +27,8 @@ import { createHash } from 'node:crypto';
 import { readNwb, readNwbSync, readNwbTables, nwbReady, describeNwb } from '../../src/io/nwb';
 import { writeNwb, writtenByFascicle } from '../../src/io/nwbWrite';
 import { h5, HyperslabReader } from '../../src/io/nwbLib';
+// loading the registry installs the result tables' renaming to the bundle's names (the package index does the same)
+import { bundleColumns } from '../../src/registry/columns';
 import { SweepSet, type Conditions } from '../../src/sweeps/SweepSet';
 import { InputError, OptionError, OutputError } from '../../src/errors';
 import { readManifest } from '../../src/io/manifest';
@@ -622,7 +624,10 @@ describe('the demo study through an NWB copy', () => {
     expect([...w.tables].sort()).toEqual(Object.keys(tables).sort());
     const velocityName = Object.keys(a.velocity!.tables())[0];
     expect(tables[velocityName].length).toBe(a.velocity!.rows.length);
-    expect(tables.thresholds).toEqual(JSON.parse(JSON.stringify(a.thresholds)));
+    // with the bundle's column names (lowest_detected_intensity_mA, distance_mm: DEVELOPERS.md "Tables of a bundle")
+    const named = bundleColumns('thresholds', a.thresholds as never, { response: a.conditioned.units });
+    expect(tables.thresholds).toEqual(JSON.parse(JSON.stringify(named)));
+    expect(Object.keys(tables.thresholds[0])).toContain('lowest_detected_intensity_mA');
   });
 });
 
@@ -678,6 +683,41 @@ describe('an independent reader (h5py) and validator (hdmf) on the files', () =>
       expect(el.values.distance_mm).toEqual([20, 32.5]);
       expect(el.values.location).toEqual(['proximal', 'distal']);
       expect(L.tables['/processing/fascicle/velocity'].values.v).toEqual([41.5]);
+    },
+  );
+});
+
+describe('result tables in the processing module carry the bundle column names', () => {
+  it.skipIf(!HAVE_H5PY)(
+    'h5py reads snake_case unit-last columns (distance_mm, fit_threshold_5pct_mA, ic50_uM): those of the bundle',
+    async () => {
+      const set = sampleSet();
+      const p = join(tmp, 'named.nwb');
+      // rows with the analyses' own keys (the notebook API), as recruitment and dose-response results hold them
+      const recruitment = [
+        { preparation: 'P1', class: 'A', distanceMm: 20, temperatureC: 37, intensityUnit: 'mA', threshold: 0.061 },
+      ];
+      const summary = [{ class: 'A', distanceMm: 20, concentrationUnit: 'uM', ic50: 69.4, ic50_ci95_low: 62.6 }];
+      await writeNwb(set, p, { raw: true, results: { recruitment, dose_response_summary: summary } });
+      const L = independent(p).layout;
+      const rec = L.tables['/processing/fascicle/recruitment'];
+      const dr = L.tables['/processing/fascicle/dose_response_summary'];
+      // the names DEVELOPERS.md "Tables of a bundle" gives (the bundle's CSV header)
+      expect(rec.colnames).toEqual([
+        'preparation',
+        'class',
+        'distance_mm',
+        'temperature_C',
+        'intensity_unit',
+        'fit_threshold_5pct_mA',
+      ]);
+      expect(dr.colnames).toEqual(['class', 'distance_mm', 'concentration_unit', 'ic50_uM', 'ic50_ci95_low_uM']);
+      expect(rec.colnames).toEqual(Object.keys(bundleColumns('recruitment', recruitment)[0]));
+      expect(rec.values.fit_threshold_5pct_mA).toEqual([0.061]);
+      expect(dr.values.ic50_uM).toEqual([69.4]);
+      // and fascicle reads the same names back
+      const back = await readNwbTables(p);
+      expect(Object.keys(back.recruitment[0])).toEqual(rec.colnames);
     },
   );
 });
