@@ -72,31 +72,33 @@ export interface FitResult {
   upper: number[];
 }
 
-function jacobian(o: FitOptions, p: number[], free: number[], x: readonly number[]): number[][] {
-  const J: number[][] = x.map(() => zeros(free.length));
-  return jacobianInto(o, p, free, x, J);
-}
-
-/** The Jacobian of the free parameters into J (every entry written). */
-function jacobianInto(o: FitOptions, p: number[], free: number[], x: readonly number[], J: number[][]): number[][] {
-  if (o.gradient) {
-    for (let i = 0; i < x.length; i++) {
-      const g = o.gradient(x[i], p);
-      const Ji = J[i];
-      for (let j = 0; j < free.length; j++) Ji[j] = g[free[j]];
+/**
+ * The Jacobian of the free parameters at p into J (n x m, row i at i * m; every entry
+ * written): the analytic gradient when given, else central differences.
+ */
+function jacobianInto(o: FitOptions, p: number[], free: readonly number[], J: Float64Array): void {
+  const x = o.x,
+    n = x.length,
+    m = free.length;
+  const grad = o.gradient;
+  if (grad) {
+    for (let i = 0; i < n; i++) {
+      const g = grad(x[i], p);
+      const o0 = i * m;
+      for (let j = 0; j < m; j++) J[o0 + j] = g[free[j]];
     }
-    return J;
+    return;
   }
-  for (let j = 0; j < free.length; j++) {
+  const model = o.model;
+  for (let j = 0; j < m; j++) {
     const k = free[j];
     const h = 1e-6 * Math.max(Math.abs(p[k]), 1e-6);
-    const pp = [...p],
-      pm = [...p];
+    const pp = p.slice(),
+      pm = p.slice();
     pp[k] += h;
     pm[k] -= h;
-    for (let i = 0; i < x.length; i++) J[i][j] = (o.model(x[i], pp) - o.model(x[i], pm)) / (2 * h);
+    for (let i = 0; i < n; i++) J[i * m + j] = (model(x[i], pp) - model(x[i], pm)) / (2 * h);
   }
-  return J;
 }
 
 /**
@@ -104,7 +106,7 @@ function jacobianInto(o: FitOptions, p: number[], free: number[], x: readonly nu
  * column m) in place, into x: the same operations in the same order as solve() of
  * ../signal/linalg (partial pivoting), without its copies. Returns false when singular.
  */
-function solveInPlace(M: number[][], m: number, x: number[]): boolean {
+function solveInPlace(M: Float64Array[], m: number, x: Float64Array): boolean {
   for (let c = 0; c < m; c++) {
     let piv = c;
     for (let r = c + 1; r < m; r++) if (Math.abs(M[r][c]) > Math.abs(M[piv][c])) piv = r;
@@ -130,10 +132,14 @@ function solveInPlace(M: number[][], m: number, x: number[]): boolean {
 }
 
 /** The weighted residual sum of squares at p; the residuals y - model(x, p) are left in res. */
-function rssOf(o: FitOptions, p: readonly number[], w: readonly number[], res: number[]): number {
+function rssOf(o: FitOptions, p: readonly number[], w: readonly number[], res: Float64Array): number {
+  const x = o.x,
+    y = o.y,
+    model = o.model,
+    n = x.length;
   let s = 0;
-  for (let i = 0; i < o.x.length; i++) {
-    const r = o.y[i] - o.model(o.x[i], p);
+  for (let i = 0; i < n; i++) {
+    const r = y[i] - model(x[i], p);
     res[i] = r;
     s += w[i] * r * r;
   }
@@ -177,18 +183,124 @@ export function fitCurve(o: FitOptions): FitResult {
   return { ...best, iterations: its, status: best.status };
 }
 
-/** J^T W J of an n x m Jacobian (summed over the points in order, for each entry). */
-function information(J: number[][], w: readonly number[], n: number, m: number): number[][] {
+/** J^T W J of an n x m Jacobian (flat, row-major; summed over the points in order, for each entry). */
+function information(J: Float64Array, w: readonly number[], n: number, m: number): number[][] {
   const A: number[][] = [];
   for (let a = 0; a < m; a++) A.push(zeros(m));
   for (let i = 0; i < n; i++) {
-    const Ji = J[i];
+    const wi = w[i],
+      o0 = i * m;
     for (let a = 0; a < m; a++) {
-      const Aa = A[a];
-      for (let b = 0; b < m; b++) Aa[b] += w[i] * Ji[a] * Ji[b];
+      const Aa = A[a],
+        Ja = J[o0 + a];
+      for (let b = 0; b < m; b++) Aa[b] += wi * Ja * J[o0 + b];
     }
   }
   return A;
+}
+
+/*
+ * The steps of one iteration, each a small function of its own: V8 optimizes a small
+ * function after a few calls, a large one after many (the fits of a script are often
+ * few and short).
+ */
+
+/**
+ * J^T W J (lower triangle summed over the points in order, then mirrored) into A and
+ * J^T W r into g; returns max |g| (-Infinity for no parameter, NaN as soon as one is NaN).
+ */
+function normalEquations(
+  J: Float64Array,
+  res: Float64Array,
+  w: readonly number[],
+  n: number,
+  m: number,
+  A: Float64Array[],
+  g: Float64Array,
+): number {
+  for (let a = 0; a < m; a++) {
+    A[a].fill(0);
+    g[a] = 0;
+  }
+  for (let i = 0; i < n; i++) {
+    const r = res[i],
+      wi = w[i],
+      o0 = i * m;
+    for (let a = 0; a < m; a++) {
+      const Ja = J[o0 + a];
+      g[a] += wi * Ja * r;
+      const Aa = A[a];
+      for (let b = 0; b <= a; b++) Aa[b] += wi * Ja * J[o0 + b];
+    }
+  }
+  for (let a = 0; a < m; a++) for (let b = a + 1; b < m; b++) A[a][b] = A[b][a];
+  let gmax = -Infinity;
+  for (let a = 0; a < m; a++) {
+    const v = Math.abs(g[a]);
+    if (v !== v) return NaN;
+    if (v > gmax) gmax = v;
+  }
+  return gmax;
+}
+
+/** The damped system [A + mu diag(dmax) | g] into M (the last solve may have swapped rows: each is filled whole). */
+function dampedSystem(
+  A: Float64Array[],
+  g: Float64Array,
+  dmax: Float64Array,
+  mu: number,
+  m: number,
+  M: Float64Array[],
+): void {
+  for (let a = 0; a < m; a++) {
+    const Ma = M[a],
+      Aa = A[a];
+    for (let b = 0; b < m; b++) Ma[b] = a === b ? Aa[b] + mu * Math.max(dmax[a], 1e-300) : Aa[b];
+    Ma[m] = g[a];
+  }
+}
+
+/**
+ * p + delta (on the free parameters), projected on the bounds: a fresh array (the model may
+ * keep the one it saw); null when the step is below working precision (p + delta is p).
+ */
+function trialPoint(
+  p: number[],
+  delta: Float64Array,
+  free: readonly number[],
+  lower: readonly number[],
+  upper: readonly number[],
+): number[] | null {
+  const m = free.length;
+  let moves = false;
+  for (let a = 0; a < m; a++) {
+    const k = free[a];
+    if (p[k] + delta[a] !== p[k]) {
+      moves = true;
+      break;
+    }
+  }
+  if (!moves) return null;
+  const pt = p.slice();
+  for (let a = 0; a < m; a++) pt[free[a]] += delta[a];
+  for (let k = 0; k < pt.length; k++) pt[k] = Math.min(upper[k], Math.max(lower[k], pt[k]));
+  return pt;
+}
+
+/** The reduction of the sum of squares that the linearised model predicts for the step delta. */
+function predictedReduction(delta: Float64Array, dmax: Float64Array, g: Float64Array, mu: number, m: number): number {
+  let pred = 0;
+  for (let a = 0; a < m; a++) pred += delta[a] * (mu * Math.max(dmax[a], 1e-300) * delta[a] + g[a]);
+  return pred;
+}
+
+/** Whether every free parameter moved by at most tol relative (|pt - p| <= tol (|p| + tol)). */
+function stepBelow(pt: readonly number[], p: readonly number[], free: readonly number[], tol: number): boolean {
+  for (let a = 0; a < free.length; a++) {
+    const k = free[a];
+    if (!(Math.abs(pt[k] - p[k]) <= tol * (Math.abs(p[k]) + tol))) return false;
+  }
+  return true;
 }
 
 function fitOnce(o: FitOptions): FitResult {
@@ -206,58 +318,42 @@ function fitOnce(o: FitOptions): FitResult {
     if (!Number.isFinite(o.y[i])) throw new OptionError(`y[${i}] is ${o.y[i]}; must be finite`);
     if (!(w[i] >= 0)) throw new OptionError(`weights[${i}] is ${w[i]}; must be >= 0`);
   }
-  const clamp = (p: number[]) => p.map((v, k) => Math.min(upper[k], Math.max(lower[k], v)));
-  let p = clamp([...o.p0]);
-  const free = p.map((_, k) => k).filter((k) => !fixed[k]);
+  // parameter vectors are arrays of doubles throughout (one element kind for the model's
+  // argument: optimized model code is not thrown away when a vector of whole numbers appears)
+  let p = zeros(np);
+  for (let k = 0; k < np; k++) p[k] = Math.min(upper[k], Math.max(lower[k], o.p0[k]));
+  const free: number[] = [];
+  for (let k = 0; k < np; k++) if (!fixed[k]) free.push(k);
   const m = free.length;
   const status: string[] = [];
   const maxIt = o.maxIterations ?? 2000;
   // the residuals at p (res) and at the trial point (resTrial): the model is evaluated once per point
-  let res: number[] = zeros(n);
-  let resTrial: number[] = zeros(n);
+  let res = new Float64Array(n);
+  let resTrial = new Float64Array(n);
   let rss = rssOf(o, p, w, res);
   let mu = -1;
   // Marquardt scaling with the largest diagonal seen so far (as MINPACK's lmder does)
-  const dmax = zeros(m);
+  const dmax = new Float64Array(m);
   let nu = 2;
   let it = 0;
   let converged = false;
   let reason = 'maximum iterations reached';
+  // work arrays allocated once per fit (filled afresh each iteration: the same numbers as fresh ones)
+  const J = new Float64Array(n * m);
   if (!Number.isFinite(rss)) {
     reason = 'the model is not finite at the starting values';
   } else {
-    // work arrays allocated once per fit (filled afresh each iteration: the same numbers as fresh ones)
-    const J: number[][] = o.x.map(() => zeros(m));
-    const A: number[][] = free.map(() => zeros(m));
-    const g: number[] = zeros(m);
-    const M: number[][] = free.map(() => zeros(m + 1));
-    const delta: number[] = zeros(m);
+    const A: Float64Array[] = [];
+    const M: Float64Array[] = [];
+    for (let a = 0; a < m; a++) {
+      A.push(new Float64Array(m));
+      M.push(new Float64Array(m + 1));
+    }
+    const g = new Float64Array(m);
+    const delta = new Float64Array(m);
     for (it = 1; it <= maxIt; it++) {
-      jacobianInto(o, p, free, o.x, J);
-      for (let a = 0; a < m; a++) {
-        A[a].fill(0);
-        g[a] = 0;
-      }
-      for (let i = 0; i < n; i++) {
-        const r = res[i];
-        const Ji = J[i];
-        for (let a = 0; a < m; a++) {
-          g[a] += w[i] * Ji[a] * r;
-          const Aa = A[a];
-          for (let b = 0; b <= a; b++) Aa[b] += w[i] * Ji[a] * Ji[b];
-        }
-      }
-      for (let a = 0; a < m; a++) for (let b = a + 1; b < m; b++) A[a][b] = A[b][a];
-      // Math.max(...|g|): -Infinity for no parameter, NaN as soon as one is NaN
-      let gmax = -Infinity;
-      for (let a = 0; a < m; a++) {
-        const v = Math.abs(g[a]);
-        if (v !== v) {
-          gmax = NaN;
-          break;
-        }
-        if (v > gmax) gmax = v;
-      }
+      jacobianInto(o, p, free, J);
+      const gmax = normalEquations(J, res, w, n, m, A, g);
       if (gmax < 1e-300) {
         converged = true;
         reason = 'gradient is zero';
@@ -267,28 +363,22 @@ function fitOnce(o: FitOptions): FitResult {
       if (mu < 0) mu = 1e-3;
       let accepted = false;
       for (let tries = 0; tries < 60; tries++) {
-        // rows of M may have been swapped by the last solve: each is filled whole by its index
-        for (let a = 0; a < m; a++) {
-          const Ma = M[a],
-            Aa = A[a];
-          for (let b = 0; b < m; b++) Ma[b] = a === b ? Aa[b] + mu * Math.max(dmax[a], 1e-300) : Aa[b];
-          Ma[m] = g[a];
-        }
+        dampedSystem(A, g, dmax, mu, m, M);
         if (!solveInPlace(M, m, delta)) {
           mu *= nu;
           nu *= 2;
+          if (!(mu < Infinity)) break; // every later try would repeat this one
           continue;
         }
-        const trial = [...p];
-        free.forEach((k, a) => (trial[k] += delta[a]));
-        const pt = clamp(trial);
+        // a step below working precision (p + delta is p): a larger damping only shortens it, so
+        // no later try can move; stop here instead of trying ever larger dampings (up to 60)
+        const pt = trialPoint(p, delta, free, lower, upper);
+        if (!pt) break;
         const rt = rssOf(o, pt, w, resTrial);
-        // predicted reduction of the linearised model
-        let pred = 0;
-        for (let a = 0; a < m; a++) pred += delta[a] * (mu * Math.max(dmax[a], 1e-300) * delta[a] + g[a]);
+        const pred = predictedReduction(delta, dmax, g, mu, m);
         const rho = pred > 0 ? (rss - rt) / pred : -1;
         if (Number.isFinite(rt) && rt <= rss && rho > 0) {
-          const stepSmall = free.every((k) => Math.abs(pt[k] - p[k]) <= 1e-12 * (Math.abs(p[k]) + 1e-12));
+          const stepSmall = stepBelow(pt, p, free, 1e-12);
           const rssSmall = rss - rt <= 1e-15 * rss;
           p = pt;
           const r = res;
@@ -310,6 +400,7 @@ function fitOnce(o: FitOptions): FitResult {
         }
         mu *= nu;
         nu *= 2;
+        if (!(mu < Infinity)) break; // every later try would repeat this one
       }
       if (converged) break;
       if (!accepted) {
@@ -322,14 +413,19 @@ function fitOnce(o: FitOptions): FitResult {
   }
   if (it > maxIt) it = maxIt;
   const df = n - m;
-  const inv = m > 0 ? invertSpd(information(jacobian(o, p, free, o.x), w, n, m)) : [];
+  if (m > 0) jacobianInto(o, p, free, J);
+  const inv = m > 0 ? invertSpd(information(J, w, n, m)) : [];
   const s2 = df > 0 ? rss / df : NaN;
   const se = zeros(np);
   let cov: number[][] | null = null;
   if (inv) {
-    cov = p.map(() => zeros(np));
-    free.forEach((k, a) => free.forEach((l, b) => (cov![k][l] = s2 * inv[a][b])));
-    free.forEach((k, a) => (se[k] = Math.sqrt(s2 * inv[a][a])));
+    cov = [];
+    for (let k = 0; k < np; k++) cov.push(zeros(np));
+    for (let a = 0; a < m; a++) {
+      const ca = cov[free[a]];
+      for (let b = 0; b < m; b++) ca[free[b]] = s2 * inv[a][b];
+      se[free[a]] = Math.sqrt(s2 * inv[a][a]);
+    }
   } else {
     free.forEach((k) => (se[k] = NaN));
     status.push('the parameters are not identifiable from these data (singular information matrix)');

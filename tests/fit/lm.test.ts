@@ -102,6 +102,30 @@ describe('fitCurve behaviour', () => {
     const few = fitCurve({ model, x: [0, 1, 2], y: [2, 1.2, 0.7], p0: [1, 0.1] });
     expect(few.status.join()).toMatch(/too few points: 3 for 2 free parameters/);
   });
+  it('a fit at a minimum to working precision stops at the first step that cannot move p (no spin through larger dampings)', () => {
+    // invented noisy Hill data (common practice, no source); the old loop tried 60 ever larger
+    // dampings in its last iteration (624 model values here); the result is the same bits
+    let calls = 0;
+    const hill = (x: number, p: readonly number[]) => {
+      calls++;
+      return p[1] + (p[0] - p[1]) / (1 + Math.pow(10, (x - p[2]) * p[3]));
+    };
+    const grad = (x: number, p: readonly number[]) => {
+      const E = Math.pow(10, (x - p[2]) * p[3]),
+        D = 1 + E,
+        g = ((p[0] - p[1]) * E * Math.LN10) / (D * D);
+      return [1 / D, 1 - 1 / D, g * p[3], -g * (x - p[2])];
+    };
+    const x = [-1, -0.5, 0, 0.5, 1, 1.5, 2, 2.5];
+    const y = [1.002, 0.991, 0.95, 0.77, 0.52, 0.24, 0.11, 0.02];
+    const f = fitCurve({ model: hill, gradient: grad, x, y, p0: [1, 0, 0.5, 1] });
+    expect(f.reason).toMatch(/no further decrease possible/);
+    expect(trusted(f)).toBe(true);
+    // at most a few trial points per iteration (8 model values each), besides the start
+    expect(calls).toBeLessThan(3 * 8 * f.iterations);
+    const ref = refOnce({ model: hill, gradient: grad, x, y, p0: [1, 0, 0.5, 1] });
+    expect(f.params.every((v, k) => Object.is(v, ref.p[k]))).toBe(true);
+  });
   it('profile-likelihood interval contains the Wald interval centre and is asymmetric for a nonlinear parameter', () => {
     const p = NIST[2];
     const f = fitCurve({ model: p.model, x: p.x, y: p.y, p0: p.starts[1] });
