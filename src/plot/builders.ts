@@ -723,7 +723,15 @@ export function temperatureFigure(points: Row[], rows: Row[], view: 'q10' | 'arr
  * 95% CI per class. `label` is plain text (default: a readable name for `measure`).
  */
 export function summaryFigure(rows: Row[], measure: string, label?: string): Figure {
-  const classes = uniq(rows.map((r) => String(r.class)));
+  let classes = uniq(rows.map((r) => String(r.class)));
+  // velocities: classes fast to slow, the order their names follow (Erlanger and Gasser), so colours match the others
+  if (/velocity/.test(measure)) {
+    const mean = (c: string) => {
+      const v = rows.filter((r) => r.class === c && num(r[measure])).map((r) => r[measure] as number);
+      return v.length ? v.reduce((a, b) => a + b, 0) / v.length : -Infinity;
+    };
+    classes = [...classes].sort((a, b) => mean(b) - mean(a));
+  }
   const data: Trace[] = [];
   const L = label !== undefined ? plotlyText(label) : measureLabel(measure);
   classes.forEach((cls, ci) => {

@@ -178,6 +178,15 @@ export function baseLayout(
 }
 
 /**
+ * The least share of the canvas the plot area keeps (width, height) when the legend goes outside it: at 85 x 60 mm
+ * that is at least 34 x 27 mm of data. Tick labels and axis titles at 7-8 pt already take about a fifth of each
+ * dimension of a single-column panel, and a legend column beside the plot at 7 pt about a third of its width, so
+ * less than this would leave the data smaller than the text about them. Our choice (no journal states a number);
+ * the print test checks it on every figure at every column width.
+ */
+export const PLOT_MIN = { w: 0.4, h: 0.45 };
+
+/**
  * Runs in the page after Plotly.newPlot: measures every text box and sets the margins
  * so that tick labels, axis titles and the title each get their own space inside the
  * canvas; wraps a title longer than its space onto two lines. The legend goes into a
@@ -185,7 +194,8 @@ export function baseLayout(
  * in rows under the x-axis title. Resolves when the layout is stable.
  */
 export const LAYOUT_FIT_JS = String.raw`window.__fascicleFit=window.__fascicleFit||function(gd,o){
-var P=window.Plotly,pad=(o&&o.pad)||5,gap=(o&&o.gap)||5,wrapped={};
+var PLOT_MIN=${JSON.stringify(PLOT_MIN)};
+var P=window.Plotly,pad=(o&&o.pad)||5,gap=(o&&o.gap)||5,minW=(o&&o.minW)||PLOT_MIN.w,minH=(o&&o.minH)||PLOT_MIN.h,wrapped={};
 function R(){return gd.querySelector('.main-svg').getBoundingClientRect();}
 function rel(r,Q){return{l:r.left-Q.left,r:r.right-Q.left,t:r.top-Q.top,b:r.bottom-Q.top};}
 function boxes(test){var Q=R(),out=[];
@@ -198,10 +208,15 @@ function wrap(s){if(typeof s!=='string'||/<br>/i.test(s))return null;var w=s.spl
   var best=1,bd=1e9,n=0;for(var i=1;i<w.length;i++){n+=w[i-1].length+1;var d=Math.abs(n-s.length/2);if(d<bd){bd=d;best=i;}}
   var a=w.slice(0,best).join(' ');if((a.match(/</g)||[]).length!==(a.match(/>/g)||[]).length)return null;
   return a+'<br>'+w.slice(best).join(' ');}
+function vis(s){return s.replace(/<[^>]*>/g,'').replace(/&[a-z#0-9]+;/gi,'x').length;}
+function wrapAt(s,n){if(typeof s!=='string'||/<br>/i.test(s))return null;var w=s.split(' '),lines=[],cur='';
+  for(var i=0;i<w.length;i++){var t=cur?cur+' '+w[i]:w[i];if(cur&&vis(t)>n){lines.push(cur);cur=w[i];}else cur=t;}
+  lines.push(cur);if(lines.length<2||lines.some(function(l){return(l.match(/</g)||[]).length!==(l.match(/>/g)||[]).length;}))
+    return null;return lines.join('<br>');}
 function legendBox(){var lg=gd.querySelector('.legend');if(!lg||gd._fullLayout.showlegend===false)return null;
   var b=lg.querySelector('rect.bg')||lg;var r=rel(b.getBoundingClientRect(),R());return r.r-r.l>0?r:null;}
 function titleOf(a){return a&&a.title?(typeof a.title==='string'?a.title:a.title.text):'';}
-function update(below){var fl=gd._fullLayout,s=fl._size,W=fl.width,H=fl.height,u={};
+function update(mode){var below=mode==='below',right=mode==='right',fl=gd._fullLayout,s=fl._size,W=fl.width,H=fl.height,u={};
   var isX=function(c){return/^x\d*tick$/.test(c)||/^g-x\d*title$/.test(c);},isY=function(c){return/^y\d*tick$/.test(c)||/^g-y\d*title$/.test(c);};
   var xb=ext(boxes(isX)),yb=ext(boxes(isY)),tb=boxes(function(c){return c==='g-gtitle';});
   var plotB=s.t+s.h,plotR=s.l+s.w,titleT=fl.title&&fl.title.text&&tb.length?ext(tb):null;
@@ -210,34 +225,42 @@ function update(below){var fl=gd._fullLayout,s=fl._size,W=fl.width,H=fl.height,u
   if(titleT&&titleT.r-titleT.l>W-2*pad&&!wrapped.t){wrapped.t=1;var t2=wrap(fl.title.text);if(t2)u['title.text']=t2;}
   boxes(function(c){return/^g-xtitle$/.test(c);}).forEach(function(b){if(b.r-b.l>s.w&&!wrapped.x){wrapped.x=1;
     var t=wrap(titleOf(gd.layout.xaxis));if(t)u['xaxis.title.text']=t;}});
-  boxes(function(c){return/^g-ytitle$/.test(c);}).forEach(function(b){if(b.b-b.t>s.h&&!wrapped.y){wrapped.y=1;
-    var t=wrap(titleOf(gd.layout.yaxis));if(t)u['yaxis.title.text']=t;}});
+  Array.prototype.forEach.call(gd.querySelectorAll('[class^="g-y"][class$="title"]'),function(g){
+    var k=/^g-y(\d*)title$/.exec(g.getAttribute('class')||''),e=g.querySelector('text');if(!k||!e)return;
+    var a='yaxis'+k[1],ax=fl[a],r=e.getBoundingClientRect(),len=ax&&ax._length?ax._length:s.h;
+    if(r.height>len&&!wrapped[a]){wrapped[a]=1;var t=wrap(titleOf(gd.layout[a]));if(t)u[a+'.title.text']=t;}});
   var lb=below?legendBox():null,lh=lb?lb.b-lb.t:0,top=pad;
   var sc=gd.querySelector('.slider-container'),sh=0,xe=xb.b>-1e8?Math.max(0,xb.b-plotB):0;
   if(sc&&fl.sliders&&fl.sliders.length){var sr=rel(sc.getBoundingClientRect(),R());sh=sr.b-sr.t;
     var sy=-(xe+gap)/s.h;if(Math.abs((fl.sliders[0].y-sy)*s.h)>0.5)u['sliders[0].y']=sy;}
   if(titleT){u['title.y']=Math.min(1,fl.title.y-(pad-titleT.t)/H);top=pad+(titleT.b-titleT.t)+gap;}
-  var m={l:Math.ceil((yb.l<1e8?s.l-yb.l:0)+pad),r:Math.ceil(Math.max(0,xb.r>-1e8?xb.r-plotR:0)+pad),
+  var xo=Math.max(0,xb.r>-1e8?xb.r-plotR:0),rb=right?legendBox():null,lw=rb?rb.r-rb.l+Math.max(gap,xo+gap):0;
+  var m={l:Math.ceil((yb.l<1e8?s.l-yb.l:0)+pad),r:Math.ceil(Math.max(xo,lw)+pad),
     t:Math.ceil(top+Math.max(0,yb.t<1e8?s.t-yb.t:0)),b:Math.ceil(xe+(sh?gap+sh:0)+(lh?gap+lh:0)+pad)};
   var cur=gd.layout.margin||{},ch=Object.keys(u).some(function(k){return k!=='title.y';});
   if(below&&lb){var lx=-(s.l-pad)/s.w,ly=-(xe+gap+(sh?sh+gap:0))/s.h,L=fl.legend;
     if(Math.abs((L.x-lx)*s.w)>0.5||Math.abs((L.y-ly)*s.h)>0.5){u['legend.x']=lx;u['legend.y']=ly;ch=true;}}
+  if(rb){var rx=1+Math.max(gap,xo+gap)/s.w,L2=fl.legend;
+    if(Math.abs((L2.x-rx)*s.w)>0.5||L2.y!==1){u['legend.x']=rx;u['legend.y']=1;ch=true;}}
   ['l','r','t','b'].forEach(function(k){if(Math.abs((cur[k]||0)-m[k])>0.5)ch=true;});
   if(titleT&&Math.abs(fl.title.y-u['title.y'])*H>0.5)ch=true;
   if(!ch)return null;u.margin=Object.assign({},cur,m,{autoexpand:true});return u;}
-function settle(below,pass){var u=update(below);if(!u||pass>=8)return Promise.resolve();
-  return P.relayout(gd,u).then(function(){return settle(below,pass+1);});}
+function settle(mode,pass){var u=update(mode);if(!u||pass>=8)return Promise.resolve();
+  return P.relayout(gd,u).then(function(){return settle(mode,pass+1);});}
 function dataPoints(){var fl=gd._fullLayout,s=fl._size,out=[];
   (gd._fullData||[]).forEach(function(t){if(t.visible!==true||!t.x||!t.y||!t.x.length)return;
     var xa=fl[(t.xaxis||'x').replace('x','xaxis')],ya=fl[(t.yaxis||'y').replace('y','yaxis')];if(!xa||!ya)return;
     var n=Math.min(t.x.length,t.y.length),st=Math.max(1,Math.floor(n/3000)),prev=null,lines=/lines/.test(t.mode||'')||t.fill==='toself';
-    var ey=t.error_y&&t.error_y.visible?t.error_y:null;
+    var ey=t.error_y&&t.error_y.visible?t.error_y:null,mk=/markers/.test(t.mode||'')&&t.marker;
     function px(x,y){var cx=xa.d2c(x),cy=ya.d2c(y);if(cx==null||cy==null)return null;
       var a=xa._offset+xa.c2p(cx),b=ya._offset+ya.c2p(cy);return isFinite(a)&&isFinite(b)?[a,b]:null;}
     for(var i=0;i<n;i+=st){var p=px(t.x[i],t.y[i]);if(!p){prev=null;continue;}
       if(prev&&lines){var d=Math.hypot(p[0]-prev[0],p[1]-prev[1]),k=Math.ceil(d/3);
         for(var j=1;j<k;j++)out.push([prev[0]+(p[0]-prev[0])*j/k,prev[1]+(p[1]-prev[1])*j/k]);}
       out.push(p);prev=p;
+      // a marker covers its size: its edges are obstacles too (a wide mean bar, an error-bar cap)
+      if(mk){var r=(Array.isArray(t.marker.size)?+t.marker.size[i]:+t.marker.size)/2||0;if(r>1)out.push([p[0]-r,p[1]],[p[0]+r,p[1]],
+        [p[0],p[1]-r],[p[0],p[1]+r]);}
       if(ey&&ey.array){var up=px(t.x[i],t.y[i]+(+ey.array[i]||0)),dn=px(t.x[i],t.y[i]-(+(ey.arrayminus||ey.array)[i]||0));
         if(up)out.push(up);if(dn)out.push(dn);}}});
   return out.filter(function(p){return p[0]>=s.l-1&&p[0]<=s.l+s.w+1&&p[1]>=s.t-1&&p[1]<=s.t+s.h+1;});}
@@ -265,10 +288,40 @@ var L0=fl0.legend,start=${JSON.stringify(LEGEND_INSIDE)},same=Object.keys(start)
   return L0[k]===start[k];}),u0={};Object.keys(start).forEach(function(k){u0['legend.'+k]=start[k];});
 return (same?Promise.resolve():P.relayout(gd,u0)).then(function(){return settle(false,0);})
 .then(function(){var c=inside();if(c)return P.relayout(gd,c).then(function(){return settle(false,0);});
-  var s=gd._fullLayout._size;
-  return P.relayout(gd,{'legend.orientation':'h','legend.xref':'paper','legend.yref':'paper','legend.x':-(s.l-pad)/s.w,
-    'legend.y':-0.3,'legend.xanchor':'left','legend.yanchor':'top','legend.bgcolor':'rgba(0,0,0,0)'})
-  .then(function(){return settle(true,0);});});};`;
+  return outside();});
+// outside the plot area: below it in rows, or to its right in a column, entries on one line or wrapped onto two;
+// the first that leaves the plot area minW x minH of the canvas, else the one that leaves it the most
+function outside(){var names=gd.data.map(function(t){return t.name;}),bar=!!gd.querySelector('.colorbar'),titles={};
+  // titles as given: each candidate starts from them (a title wrapped for one layout may fit on one line in another)
+  titles['title.text']=titleOf(gd.layout);Object.keys(gd.layout).forEach(function(k){
+    if(/^[xy]axis\d*$/.test(k)&&titleOf(gd.layout[k]))titles[k+'.title.text']=titleOf(gd.layout[k]);});
+  var cands=[['below',0],['right',0],['inside',18],['inside',12],['right',18],['right',12],['below',18],['below',12]]
+    .filter(function(c){return!(bar&&c[0]==='right');});
+  function names0(w){var idx=[],nm=[];gd.data.forEach(function(t,i){if(typeof names[i]!=='string')return;
+    var n=w?(wrapAt(names[i],w)||names[i]):names[i];if(n!==t.name){idx.push(i);nm.push(n);}});
+    return idx.length?P.restyle(gd,{name:nm},idx):Promise.resolve();}
+  function apply(c){var s=gd._fullLayout._size;if(c[0]==='inside'){var u1={};wrapped={};
+      Object.keys(titles).forEach(function(k){u1[k]=titles[k];});Object.keys(start).forEach(function(k){u1['legend.'+k]=start[k];});
+      return names0(c[1]).then(function(){return P.relayout(gd,u1);}).then(function(){return settle(false,0);})
+        .then(function(){var q=inside();if(!q)return'no';return P.relayout(gd,q).then(function(){return settle(false,0);});});}
+    var u=c[0]==='below'?{'legend.orientation':'h','legend.x':-(s.l-pad)/s.w,
+      'legend.y':-0.3,'legend.xanchor':'left','legend.yanchor':'top'}:{'legend.orientation':'v','legend.x':1.02,
+      'legend.y':1,'legend.xanchor':'left','legend.yanchor':'top'};
+    u['legend.xref']='paper';u['legend.yref']='paper';u['legend.bgcolor']='rgba(0,0,0,0)';wrapped={};
+    Object.keys(titles).forEach(function(k){u[k]=titles[k];});
+    return names0(c[1]).then(function(){return P.relayout(gd,u);}).then(function(){return settle(c[0],0);});}
+  // the share of the canvas the data keep; with several rows of subplots, the smallest row times the rows
+  function score(){var fl=gd._fullLayout,s=fl._size,L=legendBox(),ok=!L||(L.l>=-0.5&&L.t>=-0.5&&L.r<=fl.width+0.5&&
+    L.b<=fl.height+0.5),ys=Object.keys(fl).filter(function(k){return/^yaxis\d*$/.test(k)&&fl[k]._length>0;});
+    var h=ys.length>1?Math.min.apply(null,ys.map(function(k){return fl[k]._length;}))*ys.length:s.h;
+    return ok?Math.min(s.w/fl.width/minW,h/fl.height/minH):-1;}
+  // the first layout that leaves the data comfortably more than the least share, else the best of them all
+  var best=null,i=0;
+  function next(){if(i>=cands.length)return best?apply(best.c):Promise.resolve();var c=cands[i++];
+    return apply(c).then(function(r){var v=r==='no'?-2:score();if(v>=1.2)return;if(!best||v>best.v)best={c:c,v:v};
+      return next();});}
+  return next();}
+};`;
 
 /**
  * The spec as it is drawn: every log axis without its own tick values gets ticks that

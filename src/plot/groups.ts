@@ -81,6 +81,7 @@ export function groupFigure(result: GroupComparison, options: GroupFigureOptions
       text: mine.map((p) => `${esc(String(p.animal))}: mean of ${p.n}`),
       hoverinfo: 'text+y',
       marker: { color: colour(gi), size: 7, opacity: 0.75 },
+      showlegend: false,
     });
     const s = conds.map((c) => sum.find((q) => same(q.group, g) && (!o.condition || same(q.condition, c))));
     const ok = s.filter((q) => q && q.status === 'ok').map((q) => q!);
@@ -100,8 +101,30 @@ export function groupFigure(result: GroupComparison, options: GroupFigureOptions
         arrayminus: ok.map((q) => (q.mean as number) - (q.ci95_low as number)),
       },
       marker: { symbol: 'line-ew-open', size: 22, color: '#222', line: { width: 2 } },
+      showlegend: false,
     });
   });
+  // the legend says what the marks are; with a condition on the x axis it also names the groups by colour
+  const entry = (name: string, marker: Record<string, unknown>) => ({
+    type: 'scatter',
+    mode: 'markers',
+    x: [null],
+    y: [null],
+    name,
+    hoverinfo: 'skip',
+    showlegend: true,
+    marker,
+  });
+  const byCondition = !!o.condition && conds.length > 1;
+  if (byCondition) groups.forEach((g, gi) => data.push(entry(esc(String(g)), { color: colour(gi), size: 7 })));
+  data.push(
+    entry(byCondition ? 'One preparation (joined across conditions)' : 'One preparation', {
+      color: '#666',
+      size: 7,
+      opacity: 0.75,
+    }),
+  );
+  data.push(entry('Mean and 95% CI', { symbol: 'line-ew-open', size: 16, color: '#222', line: { width: 2 } }));
   // the y title: the caller's label with the unit, or the column's measure label (which carries its unit)
   const unit = o.unit ? ` (${unitText(o.unit)})` : '';
   const auto = measureLabel(o.value);
@@ -113,13 +136,14 @@ export function groupFigure(result: GroupComparison, options: GroupFigureOptions
     options.title !== undefined
       ? esc(options.title)
       : `${what} by group${where ? ` (${where})` : ''}: preparations as the unit`;
-  const xTitle = o.condition ? esc(o.condition) : esc(o.group || 'group');
+  const xTitle = o.condition && conds.length > 1 ? esc(o.condition) : esc(o.group || 'group');
   const base = baseLayout(title, xTitle, yTitle);
+  // x ticks: the conditions (groups side by side, named in the legend), or with one condition the groups themselves
   const xaxis = {
     ...(base.xaxis as object),
     tickmode: 'array',
-    tickvals: conds.map((_, i) => i),
-    ticktext: o.condition ? conds.map((c) => esc(String(c))) : [''],
+    tickvals: byCondition ? conds.map((_, i) => i) : groups.map((g) => xOf(conds[0] ?? null, g)),
+    ticktext: byCondition ? conds.map((c) => esc(String(c))) : groups.map((g) => esc(String(g))),
     range: [-0.6, conds.length - 0.4],
   };
   const name = `groups-${o.value}${o.by.map((k) => `-${String(cell[k])}`).join('')}`.replace(/[^A-Za-z0-9_.-]+/g, '_');

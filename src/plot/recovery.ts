@@ -19,24 +19,61 @@ const symbol = (i: number) => MARKERS[i % MARKERS.length];
 const label = (r: Row) =>
   r.preparation !== undefined && r.preparation !== null ? ` (${plotlyText(r.preparation)})` : '';
 
-/** Paired-pulse recovery: area (or amplitude) fraction against interval per class, fitted logistic, R50 marked. */
+/** A legend entry with no data (explains a colour, a line style or a mark). */
+const legendOnly = (name: string, style: Trace): Trace => ({
+  type: 'scatter',
+  x: [null],
+  y: [null],
+  name,
+  hoverinfo: 'skip',
+  showlegend: true,
+  ...style,
+});
+const GREY = '#666';
+const DASHES = ['solid', 'dash', 'dot', 'dashdot', 'longdash'];
+const fmt = (v: number) => String(Number(v.toPrecision(3)));
+/** "0.647 ms" for one value, "0.64-0.79 ms" for several. */
+const span = (vs: number[]) => {
+  const lo = Math.min(...vs),
+    hi = Math.max(...vs);
+  return fmt(lo) === fmt(hi) ? `${fmt(lo)} ms` : `${fmt(lo)}–${fmt(hi)} ms`;
+};
+
+/**
+ * Paired-pulse recovery: test response (area or amplitude fraction of the test alone) against the interval per class,
+ * the fitted logistic per preparation and the absolute refractory period marked. One colour and marker per class
+ * (its legend entry gives the R50, or their range over preparations); the line style tells the recovery measure.
+ */
 export function recoveryFigure(result: PairedPulseResult): Figure {
   const data: Trace[] = [];
+  const entries: Trace[] = [];
   const classes = [...new Set(result.summary.filter((r) => r.class !== null).map((r) => String(r.class)))];
+  const measures = [
+    ...new Set(result.summary.map((r) => (r.recovery_measure === 'amplitude' ? 'amplitude' : 'area'))),
+  ].sort();
+  const dashOf = (m: string) => DASHES[Math.max(0, (measures as string[]).indexOf(m)) % DASHES.length];
+  const preps = new Set(result.summary.map((r) => String(r.preparation ?? '')));
+  let fitted = false,
+    arp = false;
   classes.forEach((cls, ci) => {
+    const C = plotlyText(cls);
+    const r50: number[] = [];
     for (const s of result.summary.filter((r) => r.class === cls)) {
-      const measure = s.recovery_measure === 'amplitude' ? 'amplitude_fraction' : 'area_fraction';
+      const m = s.recovery_measure === 'amplitude' ? 'amplitude' : 'area';
+      const key = `${m}_fraction`;
       const pts = result.points.filter(
         (p) => p.class === cls && (s.preparation === undefined || p.preparation === s.preparation),
       );
-      const y = pts.map((p) => (p.status === 'not detected' ? 0 : num(p[measure]) ? p[measure] : null));
+      const y = pts.map((p) => (p.status === 'not detected' ? 0 : num(p[key]) ? p[key] : null));
       data.push({
         type: 'scatter',
         mode: 'markers',
         x: pts.map((p) => p.interval_ms),
         y,
-        name: `${plotlyText(cls)}${label(s)}`,
-        marker: { color: colour(ci), symbol: symbol(ci), size: 7 },
+        name: `${C}${label(s)}`,
+        text: pts.map(() => `${C}${label(s)}`),
+        showlegend: false,
+        marker: { color: colour(ci), symbol: symbol(ci), size: 6, opacity: 0.75 },
       });
       if (num(s.r50_ms) && num(s.slope_log10)) {
         const xs = pts.map((p) => p.interval_ms as number);
@@ -49,9 +86,12 @@ export function recoveryFigure(result: PairedPulseResult): Figure {
           mode: 'lines',
           x: gx.map((v) => 10 ** v),
           y: gx.map((v) => recoveryLogistic(v, p)),
-          name: `${plotlyText(cls)} logistic fit, R50 ${Number(s.r50_ms.toPrecision(3))} ms`,
-          line: { color: colour(ci), width: 1.5 },
+          name: `${C}${label(s)} logistic fit, R<sub>50</sub> ${fmt(s.r50_ms)} ms`,
+          showlegend: false,
+          line: { color: colour(ci), width: 1.2, dash: dashOf(m) },
         });
+        r50.push(s.r50_ms);
+        fitted = true;
       }
       if (num(s.arp_ms)) {
         data.push({
@@ -59,71 +99,90 @@ export function recoveryFigure(result: PairedPulseResult): Figure {
           mode: 'markers',
           x: [s.arp_ms],
           y: [0],
-          name: `${plotlyText(cls)} absolute refractory period ${Number(s.arp_ms.toPrecision(3))} ms`,
-          marker: { color: colour(ci), symbol: 'line-ns-open', size: 14, line: { width: 2, color: colour(ci) } },
+          name: `${C}${label(s)} absolute refractory period ${fmt(s.arp_ms)} ms`,
+          showlegend: false,
+          marker: { color: colour(ci), symbol: 'line-ns-open', size: 12, line: { width: 1.5, color: colour(ci) } },
         });
+        arp = true;
       }
     }
+    entries.push(
+      legendOnly(r50.length ? `${C} R<sub>50</sub> ${span(r50)}` : C, {
+        mode: 'markers',
+        marker: { color: colour(ci), symbol: symbol(ci), size: 7 },
+      }),
+    );
   });
-  const m = result.summary.find((r) => r.recovery_measure)?.recovery_measure === 'amplitude' ? 'amplitude' : 'area';
+  data.push(...entries);
+  const per = preps.size > 1 ? ', one per preparation' : '';
+  if (fitted)
+    for (const m of measures)
+      data.push(
+        legendOnly(measures.length > 1 ? `Logistic fit to ${m}${per}` : `Logistic fit${per}`, {
+          mode: 'lines',
+          line: { color: GREY, width: 1.2, dash: dashOf(m) },
+        }),
+      );
+  if (arp)
+    data.push(
+      legendOnly('Absolute refractory period', {
+        mode: 'markers',
+        marker: { color: GREY, symbol: 'line-ns-open', size: 10, line: { width: 1.5, color: GREY } },
+      }),
+    );
+  const yText =
+    measures.length === 1
+      ? `Test response ${measures[0]}, fraction of test alone`
+      : 'Test response, fraction of test alone';
   const xs = result.points.map((p) => p.interval_ms);
-  const layout = layoutFor(
-    'Paired-pulse recovery',
-    'Interstimulus interval (ms)',
-    `Test response ${m}, fraction of test alone`,
-    {
-      xaxis: logAxis(xs),
-      yaxis: { rangemode: 'tozero' },
-    },
-  );
+  const layout = layoutFor('Paired-pulse recovery', 'Interstimulus interval (ms)', yText, {
+    xaxis: logAxis(xs),
+    yaxis: { rangemode: 'tozero' },
+  });
   return new Figure('paired-pulse recovery', { data, layout });
 }
 
-/** Trains: latency increase from pulse 1 (top) and area fraction of pulse 1 (bottom) against pulse number, per class and frequency. */
+/**
+ * Trains: latency increase from pulse 1 (top) and area fraction of pulse 1 (bottom) against pulse number. One colour
+ * and marker per class, one line style per train frequency; the legend names each once.
+ */
 export function trainFigure(result: TrainResult): Figure {
   const data: Trace[] = [];
   const classes = [...new Set(result.points.map((r) => String(r.class)))];
   const freqs = [...new Set(result.points.map((r) => r.train_hz as number))].sort((a, b) => a - b);
-  const dashes = ['solid', 'dash', 'dot', 'dashdot', 'longdash'];
   classes.forEach((cls, ci) => {
     freqs.forEach((hz, fi) => {
       const pts = result.points.filter((p) => p.class === cls && p.train_hz === hz);
       const name = `${plotlyText(cls)} ${hz} Hz`;
-      const line = { color: colour(ci), dash: dashes[fi % dashes.length], width: 1.5 };
-      const marker = { color: colour(ci), symbol: symbol(ci), size: 6 };
+      const line = { color: colour(ci), dash: DASHES[fi % DASHES.length], width: 1.2 };
+      const marker = { color: colour(ci), symbol: symbol(ci), size: 5 };
       const x = pts.map((p) => p.pulse);
-      data.push({
-        type: 'scatter',
-        mode: 'lines+markers',
-        x,
-        y: pts.map((p) => p.latency_increase_ms),
-        name,
-        line,
-        marker,
-        xaxis: 'x',
-        yaxis: 'y',
-      });
-      const area = pts.map((p) => (p.status === 'not detected' ? 0 : p.area_fraction));
-      data.push({
-        type: 'scatter',
-        mode: 'lines+markers',
-        x,
-        y: area,
-        name,
-        showlegend: false,
-        line,
-        marker,
-        xaxis: 'x',
-        yaxis: 'y2',
-      });
+      const base = { type: 'scatter', mode: 'lines+markers', x, name, line, marker, showlegend: false, xaxis: 'x' };
+      data.push({ ...base, y: pts.map((p) => p.latency_increase_ms), yaxis: 'y' });
+      data.push({ ...base, y: pts.map((p) => (p.status === 'not detected' ? 0 : p.area_fraction)), yaxis: 'y2' });
     });
   });
-  const layout = layoutFor('Responses in a stimulus train', 'Pulse number', 'Latency increase from pulse 1 (ms)', {
-    grid: { rows: 2, columns: 1, pattern: 'coupled' },
-    yaxis: { title: { text: 'Latency increase from pulse 1 (ms)' }, domain: [0.55, 1] },
-    yaxis2: { title: { text: 'Area, fraction of pulse 1' }, domain: [0, 0.45], rangemode: 'tozero' },
-    xaxis: { title: { text: 'Pulse number' }, dtick: 1 },
-  });
+  classes.forEach((cls, ci) =>
+    data.push(
+      legendOnly(plotlyText(cls), { mode: 'markers', marker: { color: colour(ci), symbol: symbol(ci), size: 7 } }),
+    ),
+  );
+  freqs.forEach((hz, fi) =>
+    data.push(
+      legendOnly(`${hz} Hz`, { mode: 'lines', line: { color: GREY, width: 1.2, dash: DASHES[fi % DASHES.length] } }),
+    ),
+  );
+  const layout = layoutFor(
+    'Responses in a stimulus train, relative to pulse 1',
+    'Pulse number',
+    'Latency increase (ms)',
+    {
+      grid: { rows: 2, columns: 1, pattern: 'coupled' },
+      yaxis: { title: { text: 'Latency increase (ms)' }, domain: [0.55, 1] },
+      yaxis2: { title: { text: 'Area, fraction of pulse 1' }, domain: [0, 0.45], rangemode: 'tozero' },
+      xaxis: { title: { text: 'Pulse number' }, dtick: 1 },
+    },
+  );
   return new Figure('train responses', { data, layout });
 }
 

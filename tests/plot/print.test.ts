@@ -31,14 +31,12 @@ import {
   saveFigures,
   compareGroups,
   groupFigure,
-  velocityDistributionFigure,
-  velocityReconstructionFigure,
 } from '../../src';
 import { saveWithSharedExporter, sharedExporterOpen, closeSharedExporter } from '../../src/plot/export';
+import { PLOT_MIN } from '../../src/plot/figure';
+import { bundleFigures, notebookFigures } from './realFigures';
 
 const CLASSES = ['A-alpha/beta', 'A-delta', 'C'];
-const PREPS = ['N1', 'N2', 'N3', 'N4'];
-const V = [50, 12, 0.8]; // m/s, a typical rodent order of magnitude (common practice, no source)
 
 /** A small simulated experiment (fascicle's forward model): two distances, two temperatures, an intensity series. */
 function simulated() {
@@ -86,48 +84,6 @@ function figures(): Figure[] {
   const one = sim.where({ distanceMm: 30, temperatureC: 37 });
   const tOne = one.components({ preset: 'mammalian' });
   const rec = series.components({ preset: 'mammalian', earliestMs: 0.12 }).recruitment();
-  const velRows = CLASSES.flatMap((cls, ci) =>
-    PREPS.flatMap((p) =>
-      [20, 40].map((d) => ({
-        class: cls,
-        preparation: p,
-        detected: true,
-        distance_mm: d,
-        centroid_ms: 0.05 * (ci + 1) + d / V[ci],
-      })),
-    ),
-  );
-  const conc = [1, 3, 10, 30, 100, 300];
-  const dosePts = CLASSES.flatMap((cls, ci) =>
-    PREPS.flatMap((p, k) =>
-      conc.map((c) => ({
-        class: cls,
-        preparation: p,
-        concentration: c,
-        normalized: 1 / (1 + c / (10 * (ci + 1))) + 0.02 * k,
-      })),
-    ),
-  );
-  const doseSum = CLASSES.map((cls, ci) => ({
-    class: cls,
-    ic50: 10 * (ci + 1),
-    pooled_ic50: 10 * (ci + 1),
-    pooled_hill: 1,
-    pooled_bottom: 0,
-    concentrationUnit: 'uM',
-  }));
-  const tPts = CLASSES.flatMap((cls, ci) =>
-    PREPS.flatMap((p) =>
-      [25, 29, 33, 37].map((T) => ({
-        class: cls,
-        preparation: p,
-        temperatureC: T,
-        value: V[ci] * 1.5 ** ((T - 37) / 10),
-        measure: 'centroid_velocity_m_s',
-      })),
-    ),
-  );
-  const tRows = CLASSES.map((cls) => ({ class: cls, q10: 1.5, ea_kJ_mol: 30.5 }));
   const sdPts = CLASSES.flatMap((cls, ci) =>
     [0.02, 0.05, 0.1, 0.2, 0.5, 1].map((w) => {
       const c = 0.1 * (ci + 1) * (1 + (0.3 * (ci + 1)) / w);
@@ -142,9 +98,6 @@ function figures(): Figure[] {
     lapicque_tau_ms: 0.43 * (ci + 1),
     intensityUnit: 'mA',
   }));
-  const vel = CLASSES.flatMap((cls, ci) =>
-    PREPS.map((p, k) => ({ class: cls, preparation: p, velocity_m_s: V[ci] * (1 + 0.05 * k) })),
-  );
   const groupRows = ['control', 'treated'].flatMap((g, gi) =>
     [1, 2, 3, 4].flatMap((k) =>
       ['baseline', 'drug'].map((e, ei) => ({
@@ -156,36 +109,6 @@ function figures(): Figure[] {
       })),
     ),
   );
-  // a velocity-distribution result's fields as its figures read them (the analysis itself is slow for this test)
-  const vgrid = Array.from({ length: 40 }, (_, i) => {
-    const v = 0.4 * 1.16 ** i,
-      f = Math.exp(-(Math.log(v / 40) ** 2) / 0.1) + 2 * Math.exp(-(Math.log(v / 0.9) ** 2) / 0.2);
-    return {
-      velocity_m_s: v,
-      bin_low_m_s: v / 1.077,
-      bin_high_m_s: v * 1.077,
-      number_fraction: f / 30,
-      number_fraction_ci95_low: f / 36,
-      number_fraction_ci95_high: f / 25,
-    };
-  });
-  const tt = Float64Array.from({ length: 800 }, (_, i) => -1 + i * 0.05);
-  const vd = {
-    grid: vgrid,
-    fit: { method: 'decomposition' },
-    units: 'uV',
-    classes: [
-      { class: 'A-alpha/beta', range_low_m_s: 30, range_high_m_s: 120 },
-      { class: 'A-delta', range_low_m_s: 5, range_high_m_s: 30 },
-      { class: 'C', range_low_m_s: 0.4, range_high_m_s: 2.5 },
-    ],
-    reconstruction: [10, 30].map((d) => ({
-      distanceMm: d,
-      t: tt,
-      y: tt.map((t) => Math.exp(-((t - d / 20) ** 2))),
-      fit: tt.map((t) => 0.95 * Math.exp(-((t - d / 20) ** 2))),
-    })),
-  } as never;
   const hh = model.simulateMembrane({ stimulus: model.stepCurrent(20, 1, 0.5), tMax: 20 });
   return [
     sweepsFigure(sim, { title: 'Simulated compound responses' }),
@@ -195,23 +118,16 @@ function figures(): Figure[] {
     sweepViewer(sim, { table, title: 'Sweep' }),
     recruitmentFigure(rec.points, rec.fits, rec.rows, series.units),
     strengthDurationFigure({ rows: sdRows, points: sdPts }),
-    velocityFigure(velRows, 'centroid'),
     velocityFigure(
       table.rows.filter((r) => r.temperatureC === 37),
       'peak',
     ),
-    doseResponseFigure(dosePts, doseSum),
-    temperatureFigure(tPts, tRows, 'q10'),
-    temperatureFigure(tPts, tRows, 'arrhenius'),
-    summaryFigure(vel, 'velocity_m_s'),
     groupFigure(compareGroups(groupRows, { value: 'amplitude_uV', condition: 'epoch' })),
-    velocityDistributionFigure(vd),
-    velocityReconstructionFigure(vd),
     new Figure('hh', {
       data: [{ type: 'scatter', mode: 'lines', x: Array.from(hh.t), y: Array.from(hh.V), name: 'V' }],
       layout: baseLayout('Hodgkin-Huxley membrane, 6.3 °C', 'time (ms)', 'membrane potential (mV)'),
     }),
-  ];
+  ].map((f) => new Figure(`simulated/${f.name}`, f.spec));
 }
 
 interface Box {
@@ -228,6 +144,7 @@ interface Check {
   canvas: { w: number; h: number };
   boxes: Box[];
   plot: Rect | null;
+  subplots: Rect[];
   legend: Rect | null;
   marks: Rect[];
   strokes: number[];
@@ -248,25 +165,37 @@ async function measure(page: Page, svg: string): Promise<Check> {
         ...rel(e.getBoundingClientRect()),
         fontPx: parseFloat(getComputedStyle(e).fontSize),
       }));
-    // the plot area: x extent of the x-axis line, y extent of the y-axis line
-    const xl = root.querySelector('path.xlines-above'),
-      yl = root.querySelector('path.ylines-above');
-    const plot =
-      xl && yl
-        ? {
-            l: rel(xl.getBoundingClientRect()).l,
-            r: rel(xl.getBoundingClientRect()).r,
-            t: rel(yl.getBoundingClientRect()).t,
-            b: rel(yl.getBoundingClientRect()).b,
-          }
-        : null;
+    // the plot area: x extent of the x-axis lines, y extent of the y-axis lines (over every subplot)
+    // each subplot's area is its background rectangle (or, without one, the extent of its axis lines)
+    const bgs = [...root.querySelectorAll('.bglayer rect.bg')].map((e) => rel(e.getBoundingClientRect()));
+    const xl = [...root.querySelectorAll('path.xlines-above')].map((e) => rel(e.getBoundingClientRect())),
+      yl = [...root.querySelectorAll('path.ylines-above')].map((e) => rel(e.getBoundingClientRect()));
+    const subplots = bgs.length
+      ? bgs
+      : xl.length && yl.length
+        ? [{ l: xl[0].l, r: xl[0].r, t: yl[0].t, b: yl[0].b }]
+        : [];
+    const plot = subplots.length
+      ? {
+          l: Math.min(...subplots.map((r) => r.l)),
+          r: Math.max(...subplots.map((r) => r.r)),
+          t: Math.min(...subplots.map((r) => r.t)),
+          b: Math.max(...subplots.map((r) => r.b)),
+        }
+      : null;
     const lg = root.querySelector('.legend rect.bg') ?? root.querySelector('.legend');
     const L = lg ? rel(lg.getBoundingClientRect()) : null;
     // data marks outside the legend that fall inside its box: markers and error bars by their boxes,
     // lines by their vertices and points every 2 px between them
     const marks: { l: number; r: number; t: number; b: number }[] = [];
+    // (only what is drawn: inside the plot area, where plotly clips the data)
     const hit = (x0: number, x1: number, y0: number, y1: number) =>
-      !!L && x1 > L.l + 0.5 && x0 < L.r - 0.5 && y1 > L.t + 0.5 && y0 < L.b - 0.5;
+      !!L &&
+      x1 > L.l + 0.5 &&
+      x0 < L.r - 0.5 &&
+      y1 > L.t + 0.5 &&
+      y0 < L.b - 0.5 &&
+      (!plot || (x1 > plot.l && x0 < plot.r && y1 > plot.t && y0 < plot.b));
     const outsideLegend = (e: Element) => !e.closest('.legend');
     root.querySelectorAll('.scatterlayer path.point, .errorbars path').forEach((e) => {
       const r = rel(e.getBoundingClientRect());
@@ -305,7 +234,7 @@ async function measure(page: Page, svg: string): Promise<Check> {
     const strokes = [...root.querySelectorAll('.scatterlayer path.js-line')]
       .map((e) => parseFloat(getComputedStyle(e).strokeWidth))
       .filter((w) => w > 0);
-    return { canvas: { w: R.width, h: R.height }, boxes, plot, legend: L, marks, strokes };
+    return { canvas: { w: R.width, h: R.height }, boxes, plot, subplots, legend: L, marks, strokes };
   }, svg);
 }
 
@@ -353,9 +282,11 @@ function problems(c: Check, size = { minPt: 7, maxPt: 9 }): string[] {
       if (overlap(c.boxes[i], c.boxes[j])) out.push(`"${c.boxes[i].text}" overlaps "${c.boxes[j].text}"`);
   }
   if (!c.plot) out.push('no plot area found');
-  else if (c.plot.r - c.plot.l < 0.45 * c.canvas.w || c.plot.b - c.plot.t < 0.3 * c.canvas.h) {
+  else if (c.plot.r - c.plot.l < PLOT_MIN.w * c.canvas.w - TOL || c.plot.b - c.plot.t < PLOT_MIN.h * c.canvas.h - TOL) {
+    // the data keep at least this share of the canvas (figure.ts PLOT_MIN says why: 45% x 45%)
     out.push(
-      `plot area ${(c.plot.r - c.plot.l).toFixed(0)} x ${(c.plot.b - c.plot.t).toFixed(0)} px is under 45% x 30% of the canvas`,
+      `plot area ${(c.plot.r - c.plot.l).toFixed(0)} x ${(c.plot.b - c.plot.t).toFixed(0)} px is under ` +
+        `${100 * PLOT_MIN.w}% x ${100 * PLOT_MIN.h}% of the canvas (${c.canvas.w} x ${c.canvas.h})`,
     );
   }
   // a legend inside the plot area must not cover data: no marker, error bar or line point inside its box
@@ -365,9 +296,9 @@ function problems(c: Check, size = { minPt: 7, maxPt: 9 }): string[] {
     if (n) out.push(`the legend covers ${n} data marks`);
   }
   // titles never sit on the plot area (tick labels are outside it by construction; legend entries are checked above)
-  if (c.plot)
+  for (const p of c.subplots)
     for (const b of c.boxes)
-      if (/title/.test(b.cls) && !/cbtitle/.test(b.cls) && overlap(c.plot, b))
+      if (/title/.test(b.cls) && !/cbtitle/.test(b.cls) && overlap(p, b))
         out.push(`"${b.text}" (${b.cls}) sits on the plot area`);
   return out;
 }
@@ -385,7 +316,10 @@ describe.skipIf(!browser)('print export at journal widths (headless Chromium)', 
   let figs: Figure[];
   beforeAll(async () => {
     if (process.env.FASCICLE_PRINT_DIR) mkdirSync(process.env.FASCICLE_PRINT_DIR, { recursive: true });
-    figs = figures();
+    figs = [...bundleFigures(), ...notebookFigures(), ...figures()];
+    // FASCICLE_PRINT_ONLY=<regex> checks only the figures whose name matches (while working on one)
+    const only = process.env.FASCICLE_PRINT_ONLY;
+    if (only) figs = figs.filter((f) => new RegExp(only).test(f.name));
     ex = await openExporter();
     page = await ex.browser.newPage();
   }, 60000);
@@ -407,11 +341,23 @@ describe.skipIf(!browser)('print export at journal widths (headless Chromium)', 
         expect(c.boxes.length).toBeGreaterThan(4); // ticks and titles were drawn
         // FASCICLE_PRINT_DIR=folder keeps a PNG of each figure (CI artifacts, looking at them)
         if (process.env.FASCICLE_PRINT_DIR)
-          await ex.save(f, join(process.env.FASCICLE_PRINT_DIR, `${size.widthMm}mm-${figs.indexOf(f)}-${f.name}.png`), {
-            widthMm: size.widthMm,
-            heightMm: size.heightMm,
-            dpi: 150,
-          });
+          await ex.save(
+            f,
+            join(
+              process.env.FASCICLE_PRINT_DIR,
+              `${size.widthMm}mm-${figs.indexOf(f)}-${f.name.replace(/[^A-Za-z0-9_.-]+/g, '_')}.png`,
+            ),
+            {
+              widthMm: size.widthMm,
+              heightMm: size.heightMm,
+              dpi: 150,
+            },
+          );
+        if (process.env.FASCICLE_PRINT_TIMES && c.plot)
+          console.log(
+            `PLOT ${size.widthMm} ${f.name} ${((c.plot.r - c.plot.l) / c.canvas.w).toFixed(2)} x ` +
+              `${((c.plot.b - c.plot.t) / c.canvas.h).toFixed(2)}`,
+          );
         for (const p of problems(c)) bad.push(`${f.name} "${(f.spec.layout.title as { text: string }).text}": ${p}`);
         // data lines for print: 0.5-1.5 pt (common practice for journal artwork, no single source)
         for (const w of c.strokes)
@@ -419,7 +365,7 @@ describe.skipIf(!browser)('print export at journal widths (headless Chromium)', 
             bad.push(`${f.name}: a data line is ${((w * 72) / 96).toFixed(2)} pt wide`);
       }
       expect(bad).toEqual([]);
-    }, 60000);
+    }, 300000);
   }
 
   it('every figure kind as a notebook shows it (toHTML, 640 x 420 px): no text overlaps or leaves the canvas', async () => {
@@ -455,17 +401,20 @@ describe.skipIf(!browser)('print export at journal widths (headless Chromium)', 
       const c = await measure(page, svg);
       if (process.env.FASCICLE_PRINT_DIR)
         writeFileSync(
-          join(process.env.FASCICLE_PRINT_DIR, `screen-${figs.indexOf(f)}-${f.name}.png`),
+          join(
+            process.env.FASCICLE_PRINT_DIR,
+            `screen-${figs.indexOf(f)}-${f.name.replace(/[^A-Za-z0-9_.-]+/g, '_')}.png`,
+          ),
           await rasterize(page, svg, 640, 420),
         );
       // on screen: 10 px (7.5 pt at 96 px per inch) is the smallest text, 14 px the largest
       for (const p of problems(c, { minPt: 7.5, maxPt: 10.5 })) bad.push(`${f.name}: ${p}`);
     }
     expect(bad).toEqual([]);
-  }, 60000);
+  }, 300000);
 
   it('the sweep viewer steps through sweeps: each step shows one sweep with its marks, hover reads time and amplitude', async () => {
-    const f = figs.find((x) => x.name === 'sweep-viewer')!;
+    const f = figs.find((x) => x.name === 'simulated/sweep-viewer')!;
     const r = await ex.page.evaluate(async (spec) => {
       document.body.innerHTML = '<div id="v"></div>';
       const P = (window as unknown as { Plotly: any }).Plotly; // eslint-disable-line @typescript-eslint/no-explicit-any
@@ -581,8 +530,8 @@ describe.skipIf(!browser)('print export at journal widths (headless Chromium)', 
   it('saves SVG, PNG at the requested dpi and a titled PDF for several figures in one launch', async () => {
     const dir = mkdtempSync(join(tmpdir(), 'fascicle-print-'));
     const [a, b] = [
-      figs.find((f) => f.name === 'dose-response')!,
-      figs.find((f) => f.name === 'temperature-arrhenius')!,
+      figs.find((f) => f.name === 'demo/dose-response')!,
+      figs.find((f) => f.name === 'demo/temperature-arrhenius')!,
     ];
     await saveFigures([
       { figure: a, path: join(dir, 'a.svg'), column: 'single' },
@@ -639,7 +588,7 @@ describe.skipIf(!browser)('print export at journal widths (headless Chromium)', 
   }, 30000);
 
   it('title: false leaves the title to the caption (no title text, the plot grows into its space)', async () => {
-    const f = figs.find((x) => x.name === 'dose-response')!;
+    const f = figs.find((x) => x.name === 'demo/dose-response')!;
     const withTitle = await measure(page, (await ex.svg(f, { widthMm: 85, heightMm: 60 })).svg);
     const without = await measure(page, (await ex.svg(f, { widthMm: 85, heightMm: 60, title: false })).svg);
     expect(withTitle.boxes.some((b) => b.cls === 'g-gtitle')).toBe(true);
@@ -650,7 +599,7 @@ describe.skipIf(!browser)('print export at journal widths (headless Chromium)', 
 
   it('notebook saves share one browser until it has been idle (fig.save in a kernel)', async () => {
     const dir = mkdtempSync(join(tmpdir(), 'fascicle-shared-'));
-    const f = figs.find((x) => x.name === 'summary')!;
+    const f = figs.find((x) => x.name === 'demo/summary')!;
     await saveWithSharedExporter(f, join(dir, 'a.svg'), {}, 300000);
     expect(sharedExporterOpen()).toBe(true);
     await saveWithSharedExporter(f, join(dir, 'b.svg'), { column: 'double' }, 400);
