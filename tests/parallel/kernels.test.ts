@@ -276,3 +276,32 @@ describe('loadAsRead kernel (float32 kept as read)', () => {
     }
   });
 });
+describe('the finiteness check of float32 samples', () => {
+  it('finds a NaN or infinity at every position modulo its unrolling, and passes float32 full scale', async () => {
+    const { mkdtempSync, writeFileSync, openSync, closeSync } = await import('node:fs');
+    const { tmpdir } = await import('node:os');
+    const { join } = await import('node:path');
+    const { runSweeps } = await import('../../src/parallel/pool');
+    const dir = mkdtempSync(join(tmpdir(), 'fascicle-finite-'));
+    const S3 = 3,
+      N3 = 21; // 63 values: not a multiple of 8, so the tail loop is reached too
+    // IEEE 754 binary32 largest finite magnitude, 3.4028234663852886e38 (the standard's definition)
+    const full = Float32Array.from({ length: S3 * N3 }, (_, i) => (i % 2 ? 1 : -1) * 3.4028234663852886e38);
+    const check = (x: Float32Array) => {
+      writeFileSync(join(dir, 'x.f32'), new Uint8Array(x.buffer));
+      const fd = openSync(join(dir, 'x.f32'), 'r');
+      const out = new Float32Array(S3 * N3);
+      const r = runSweeps('loadAsRead', { fd, nSamples: N3, out, chunkSweeps: 2 }, S3, S3 * N3).find((i) => i >= 0);
+      closeSync(fd);
+      return r ?? -1;
+    };
+    expect(check(full)).toBe(-1);
+    for (let k = 0; k < S3 * N3; k++)
+      for (const v of [NaN, Infinity, -Infinity]) {
+        const x = Float32Array.from(full);
+        x[k] = v;
+        if (k + 9 < x.length) x[k + 9] = v; // a later one is not reported first
+        expect(check(x)).toBe(k);
+      }
+  });
+});
