@@ -50,8 +50,18 @@ export interface DoseResponseOptions {
   classes?: string[];
   /** one curve over all recording sites (distances) instead of one per site (default false) */
   poolSites?: boolean;
+  /**
+   * fit the top asymptote (fraction of the baseline, in [0.5, 1.5]) with the baseline as one point of the curve,
+   * instead of fixing it at the one baseline measurement (default true)
+   */
+  freeTop?: boolean;
   /** fewest measured concentrations (above 0) a curve needs (default 4) */
   minConcentrations?: number;
+  /**
+   * with the least-squares amplitude (amplitude_fit_<units>), also use the sweeps below the detection level of a
+   * class that was measured in its drug-free sweeps at that site (default true): the projection is unbiased there
+   */
+  belowDetection?: boolean;
   /**
    * a sweep whose peak latency differs from the mean baseline peak latency of its preparation,
    * site and class by more than this fraction of it is not the same wave and is left out
@@ -94,8 +104,13 @@ function steady(rows: Row[], lastN: number): { value: number; n: number; time: n
   return { value: v.reduce((a, b) => a + b, 0) / v.length, n: v.length, time: t.reduce((a, b) => a + b, 0) / t.length };
 }
 
-/** Fit the Hill model to normalised points (x = concentration, y = fraction of baseline). */
-export function fitHill(x: number[], y: number[], fixBottom: number | null): FitResult {
+/**
+ * Fit the Hill model to normalised points (x = concentration, y = fraction of baseline). With `freeTop` the top
+ * asymptote is fitted too (in [0.5, 1.5]), and the points should include the baseline (concentration 0, y = 1):
+ * the unblocked level is then estimated from the baseline and the lowest concentrations together instead of being
+ * the one (noisy) baseline measurement, whose error would otherwise scale every point.
+ */
+export function fitHill(x: number[], y: number[], fixBottom: number | null, freeTop = false): FitResult {
   const pos = x.filter((v) => v > 0);
   // start: ln IC50 where the response crosses half, else the geometric middle of the range
   let lne = (Math.log(Math.min(...pos)) + Math.log(Math.max(...pos))) / 2;
@@ -116,9 +131,9 @@ export function fitHill(x: number[], y: number[], fixBottom: number | null): Fit
     y,
     p0: [1, bottom, 1, lne],
     names: ['hill', 'bottom', 'top', 'lnIC50'],
-    fixed: [false, fixBottom !== null, true, false],
-    lower: [0.2, -0.2, -Infinity, -Infinity],
-    upper: [6, 0.9, Infinity, Infinity],
+    fixed: [false, fixBottom !== null, !freeTop, false],
+    lower: [0.2, -0.2, freeTop ? 0.5 : -Infinity, -Infinity],
+    upper: [6, 0.9, freeTop ? 1.5 : Infinity, Infinity],
   });
 }
 
@@ -193,6 +208,11 @@ export function doseResponse(
   const fitCol = `amplitude_fit_${units}`;
   const measure = options.measure ?? (rows.some((r) => typeof r[fitCol] === 'number') ? fitCol : `amplitude_${units}`);
   const poolSites = options.poolSites ?? doseResponseDefaults.poolSites;
+  const freeTop = options.freeTop ?? true;
+  if (typeof freeTop !== 'boolean')
+    throw new OptionError(`invalid freeTop: ${JSON.stringify(freeTop)}; expected true or false`);
+  if (options.belowDetection !== undefined && typeof options.belowDetection !== 'boolean')
+    throw new OptionError(`invalid belowDetection: ${JSON.stringify(options.belowDetection)}; expected true or false`);
   const minConc = options.minConcentrations ?? doseResponseDefaults.minConcentrations;
   if (!Number.isInteger(minConc) || minConc < 2)
     throw new OptionError(`invalid minConcentrations: ${minConc}; must be an integer >= 2`);
@@ -210,11 +230,21 @@ export function doseResponse(
       `dose-response: all ${withConc.length} rows have concentration 0 (baseline only); a curve needs sweeps at concentrations above 0`,
     );
   // only what was measured: rows detected (and resolved) with a number in the measure
+  const hasValue = (r: Row) => typeof r[measure] === 'number' && Number.isFinite(r[measure] as number);
   const isMeasured = (r: Row) =>
-    r.detected !== false &&
-    (r.status === undefined || r.status === null || r.status === 'measured') &&
-    typeof r[measure] === 'number' &&
-    Number.isFinite(r[measure] as number);
+    r.detected !== false && (r.status === undefined || r.status === null || r.status === 'measured') && hasValue(r);
+  // with the least-squares amplitude (a projection on the class's drug-free waveform: linear in the data, so noise
+  // averages out instead of lifting a picked peak), detection decides whether the class exists, from its drug-free
+  // sweeps; a blocked sweep below the detection level then still has an unbiased amplitude (near 0, with its noise),
+  // and leaving it out would cut the curve where the block is strongest. A row not resolved is never used, nor one
+  // separated by the velocity decomposition: its component also holds the residual of its neighbours' fit, which
+  // does not average out, so below detection its projection is not an unbiased amplitude.
+  const projection = measure === fitCol && options.belowDetection !== false;
+  const belowDetection = (r: Row) =>
+    projection &&
+    r.status === 'not detected' &&
+    (r.separation === undefined || r.separation === null || r.separation === 'window') &&
+    hasValue(r);
   const siteOf = (r: Row): number | null =>
     poolSites ? null : ((r.distanceMm ?? r.distance_mm ?? null) as number | null);
   const concUnit = (withConc.find((r) => r.concentrationUnit)?.concentrationUnit as string) ?? '';
@@ -222,9 +252,21 @@ export function doseResponse(
   for (const r of withConc) {
     const id = `${r.preparation ?? ''}|${siteOf(r) ?? ''}|${r.class}`;
     const g = groups.get(id);
-    const rr = { ...r, __value: isMeasured(r) ? r[measure] : null, __site: siteOf(r) };
+    const rr = {
+      ...r,
+      __value: isMeasured(r) || belowDetection(r) ? r[measure] : null,
+      __below: !isMeasured(r) && belowDetection(r),
+      __site: siteOf(r),
+    };
     if (g) g.push(rr);
     else groups.set(id, [rr]);
+  }
+  // a class exists at a site when its drug-free sweeps (concentration 0, not washout) were measured there
+  const belowUsed = new Map<string, number>();
+  for (const [id, g] of groups) {
+    const exists = g.some((r) => r.concentration === 0 && r.epoch !== 'washout' && isMeasured(r));
+    for (const r of g) if (r.__below && !exists) r.__value = null;
+    belowUsed.set(id, g.filter((r) => r.__below && r.__value !== null).length);
   }
   const shift = options.maxLatencyShift === undefined ? doseResponseDefaults.maxLatencyShift : options.maxLatencyShift;
   if (shift !== null && !(shift > 0))
@@ -417,15 +459,21 @@ export function doseResponse(
     const bottomFix = fixBottom !== null ? fixBottom : cmax < testedMax ? 0 : null;
     bottoms.set(cid, bottomFix);
     const preps = [...new Set(mine.map((p) => p.preparation))];
+    // with a free top, each preparation's baseline (concentration 0, fraction 1) is a point of its curve
+    const hill = (pts: DosePoint[]) => {
+      const base = freeTop ? [...new Set(pts.map((p) => p.preparation))].map(() => 0) : [];
+      return fitHill(
+        [...base, ...pts.map((p) => p.concentration)],
+        [...base.map(() => 1), ...pts.map((p) => p.normalized)],
+        bottomFix,
+        freeTop,
+      );
+    };
     const logIc: number[] = [];
     const hills: number[] = [];
     for (const prep of preps) {
       const pp = mine.filter((p) => p.preparation === prep);
-      const f = fitHill(
-        pp.map((p) => p.concentration),
-        pp.map((p) => p.normalized),
-        bottomFix,
-      );
+      const f = hill(pp);
       const ic = Math.exp(f.params[3]);
       const st = [...f.status.filter((q) => q !== 'ok')];
       if (ic < cmin || ic > cmax) st.push(`IC50 outside the tested range ${cmin}-${cmax} ${concUnit}`);
@@ -437,6 +485,7 @@ export function doseResponse(
         ic50: ic,
         hill: f.params[0],
         bottom: f.params[1],
+        top: f.params[2],
         points: pp.length,
         concentrationUnit: concUnit,
         status: st.length ? st.join('; ') : 'ok',
@@ -449,11 +498,7 @@ export function doseResponse(
     }
     const s = summarize(logIc);
     const h = summarize(hills);
-    const pooled = fitHill(
-      mine.map((p) => p.concentration),
-      mine.map((p) => p.normalized),
-      bottomFix,
-    );
+    const pooled = hill(mine);
     fits.set(`${cls}${siteLabel(siteS)}|pooled`, pooled);
     if (!fits.has(`${cls}|pooled`)) fits.set(`${cls}|pooled`, pooled);
     const [plo, phi] = profileCI(pooled, 3);
@@ -464,11 +509,7 @@ export function doseResponse(
       for (let k = 0; k < options.bootstrap; k++) {
         const pick = preps.map(() => preps[Math.floor(rng.uniform() * preps.length)]);
         const pts = pick.flatMap((pr) => mine.filter((p) => p.preparation === pr));
-        const f = fitHill(
-          pts.map((p) => p.concentration),
-          pts.map((p) => p.normalized),
-          bottomFix,
-        );
+        const f = hill(pts);
         if (f.converged) est.push(f.params[3]);
       }
       est.sort((x, y) => x - y);
@@ -482,6 +523,12 @@ export function doseResponse(
     const ic50 = Math.pow(10, s.mean);
     if (ic50 < cmin || ic50 > cmax) st.push(`IC50 outside the tested range ${cmin}-${cmax} ${concUnit}`);
     if (!trusted(pooled)) st.push(...pooled.status.map((x) => `pooled fit: ${x}`));
+    const below = [...belowUsed].filter(([k]) => k.endsWith(`|${siteS}|${cls}`)).reduce((a, [, v]) => a + v, 0);
+    if (below)
+      st.push(
+        `${below} sweep(s) below the detection level measured by their projection on the drug-free waveform ` +
+          `(the class was detected without drug)`,
+      );
     if (left)
       st.push(
         `${left} sweep(s) not measured (not detected or not resolved${shift !== null ? `, or peak latency more than ${100 * shift}% from the baseline's` : ''}), left out`,
@@ -506,10 +553,14 @@ export function doseResponse(
       pooled_ic50_profile_high: Math.exp(phi),
       pooled_hill: pooled.params[0],
       pooled_bottom: pooled.params[1],
+      pooled_top: pooled.params[2],
       bootstrap_ic50_low: boot[0],
       bootstrap_ic50_high: boot[1],
       points: mine.length,
       excluded_not_measured: left,
+      below_detection_projected: [...belowUsed]
+        .filter(([k]) => k.endsWith(`|${siteS}|${cls}`))
+        .reduce((a, [, v]) => a + v, 0),
       excluded_latency_shift: [...moved].filter(([k]) => k.endsWith(`|${siteS}|${cls}`)).reduce((a, [, v]) => a + v, 0),
       ...(runDown === 'vehicle'
         ? {
@@ -536,8 +587,23 @@ export function doseResponse(
       const sl = siteLabel(site === null ? '' : String(site));
       const fa = fits.get(`${ra.class}${sl}|pooled`)!,
         fb = fits.get(`${rb.class}${sl}|pooled`)!;
-      const all = [...A, ...B];
-      const isB = all.map((_, k) => k >= A.length);
+      // the same points as the classes' own pooled fits: with a free top, each preparation's baseline too
+      const withBase = (P: DosePoint[]) =>
+        freeTop
+          ? [
+              ...[...new Set(P.map((p) => p.preparation))].map((pr) => ({
+                ...P[0],
+                preparation: pr,
+                concentration: 0,
+                normalized: 1,
+              })),
+              ...P,
+            ]
+          : P;
+      const Ab = withBase(A),
+        Bb = withBase(B);
+      const all = [...Ab, ...Bb];
+      const isB = all.map((_, k) => k >= Ab.length);
       const bA = bottoms.get(curveOf(String(ra.class), site)) ?? null,
         bB = bottoms.get(curveOf(String(rb.class), site)) ?? null;
       const joint = fitCurveShared(
@@ -546,6 +612,7 @@ export function doseResponse(
         isB,
         [bA, bB],
         [fa, fb],
+        freeTop,
       );
       const F = extraSumOfSquaresF(joint.residualSS, joint.df, fa.residualSS + fb.residualSS, fa.df + fb.df);
       comparisons.push({
@@ -579,12 +646,18 @@ export function doseResponse(
           fixBottom,
           bootstrap: options.bootstrap ?? 0,
           seed: options.seed ?? doseResponseDefaults.seed,
-          model: 'four-parameter log-logistic, top fixed at 1',
+          model: freeTop
+            ? 'four-parameter log-logistic, top fitted with the baseline as a point'
+            : 'four-parameter log-logistic, top fixed at 1',
           pooling: 'mean of per-preparation log10 IC50 with t-based 95% CI; pooled fit with profile-likelihood CI',
           poolSites,
           minConcentrations: minConc,
           maxLatencyShift: shift,
-          rows: 'measured rows only (not detected or not resolved left out and counted)',
+          rows: projection
+            ? 'measured rows, and rows below detection of a class detected without drug (projection amplitude); ' +
+              'not resolved left out and counted'
+            : 'measured rows only (not detected or not resolved left out and counted)',
+          belowDetection: projection,
         },
         version: VERSION,
       },
@@ -600,19 +673,30 @@ function fitCurveShared(
   isB: boolean[],
   fixBottom: [number | null, number | null],
   starts: FitResult[],
+  freeTop = false,
 ): FitResult {
   const idx = x.map((_, i) => i);
-  // p = [hillA, bottomA, hillB, bottomB, lnIC50]
+  // p = [hillA, bottomA, topA, hillB, bottomB, topB, lnIC50] (tops fixed at 1 unless freeTop)
   const model = (i: number, p: readonly number[]) =>
-    isB[i] ? logLogistic4(x[i], [p[2], p[3], 1, p[4]]) : logLogistic4(x[i], [p[0], p[1], 1, p[4]]);
+    isB[i] ? logLogistic4(x[i], [p[3], p[4], p[5], p[6]]) : logLogistic4(x[i], [p[0], p[1], p[2], p[6]]);
   const [a, b] = starts;
+  const tLo = freeTop ? 0.5 : -Infinity,
+    tHi = freeTop ? 1.5 : Infinity;
   return fitCurve({
     model,
     x: idx,
     y,
-    p0: [a.params[0], a.params[1], b.params[0], b.params[1], (a.params[3] + b.params[3]) / 2],
-    fixed: [false, fixBottom[0] !== null, false, fixBottom[1] !== null, false],
-    lower: [0.2, -0.2, 0.2, -0.2, -Infinity],
-    upper: [6, 0.9, 6, 0.9, Infinity],
+    p0: [
+      a.params[0],
+      a.params[1],
+      freeTop ? a.params[2] : 1,
+      b.params[0],
+      b.params[1],
+      freeTop ? b.params[2] : 1,
+      (a.params[3] + b.params[3]) / 2,
+    ],
+    fixed: [false, fixBottom[0] !== null, !freeTop, false, fixBottom[1] !== null, !freeTop, false],
+    lower: [0.2, -0.2, tLo, 0.2, -0.2, tLo, -Infinity],
+    upper: [6, 0.9, tHi, 6, 0.9, tHi, Infinity],
   });
 }

@@ -471,7 +471,9 @@ export function twoSiteVelocity(
               mb = measures[b.sweep]?.[ix];
             if (!ma || !mb) continue;
             const seg = (m: ResponseMeasure, r: ComponentRow) => {
-              const comp = (m as ResponseMeasure & { component?: Float64Array }).component;
+              // a class separated by the decomposition is correlated on its modelled component: in the recording
+              // minus the neighbours' fit, the residual of a much larger neighbour would dominate a small class
+              const comp = m.model ?? m.component;
               const x = comp ?? set.sweep(r.sweep).subarray(m.window[0], m.window[1] + 1);
               const p = typeof r.polarity === 'number' ? r.polarity : 1;
               return p === 1 ? x : x.map((v) => -v);

@@ -599,7 +599,11 @@ export interface ClassMixture {
  * 413-432, from memory). A class's fibres whose velocities overlap a neighbour's range stay in their own bump
  * instead of going to whichever side of a valley they fall on: a class's velocity distribution is taken to be
  * unimodal in log velocity (fiber diameters within a class are, common practice, no source). Started from the
- * modes of the free distribution W between the valleys (`bins`); the artifact terms of the last W step are kept.
+ * modes of the free distribution W between the valleys (`bins`), each inside its class's own velocity range when
+ * `zones` gives them; the artifact terms of the last W step are kept. The parameters stay in a box (projected
+ * steps): each centre inside its part of W, each SD between one bin and half the log width of the class's range
+ * (with zones). The boundary is then a property of velocity alone (where the bumps cross), not of the heights of
+ * the modes, which is where the deepest valley of W falls.
  * Returns null (the caller keeps the split at the valleys) when a part of W is empty, a centre leaves its part, a
  * bump narrows below one bin, or the rms residual exceeds both 1.25 x that of the free W and 1% of the largest
  * deflection.
@@ -609,7 +613,12 @@ export function fitClassMixture(
   g: DecomposeGrid,
   shape: SharedShape,
   bins: [number, number][],
-  opts: { lambdaS?: number; iterations?: number } = {},
+  opts: {
+    lambdaS?: number;
+    iterations?: number;
+    /** per class, its velocity range (m/s, [slowest, fastest]) at the group's temperature */
+    zones?: [number, number][];
+  } = {},
 ): ClassMixture | null {
   const nc = bins.length;
   if (nc < 2) return null;
@@ -639,6 +648,7 @@ export function fitClassMixture(
   const p0: number[] = [];
   const keepIn: [number, number][] = [];
   const minSd: number[] = [];
+  const maxSd: number[] = [];
   const sm = Float64Array.from({ length: nu }, (_, k) => {
     let a = 0,
       c = 0;
@@ -653,10 +663,17 @@ export function fitClassMixture(
     const [b0, b1] = bins[j];
     let sw = 0,
       km = b0;
+    // the start: the mode of W within the class's own velocity range (where valleyBin looks for it), else within
+    // its part (the slowest class's part reaches below its range, where W holds what the fit could not place)
+    const zone = opts.zones?.[j];
+    const inZone = (k: number) => !zone || (1 / u[k] >= zone[0] && 1 / u[k] <= zone[1]);
+    let kz = -1;
     for (let k = b0; k <= b1; k++) {
       sw += shape.W[k];
       if (sm[k] > sm[km]) km = k;
+      if (inZone(k) && (kz < 0 || sm[k] > sm[kz])) kz = k;
     }
+    if (kz >= 0) km = kz;
     if (!(sw > 0) || b1 <= b0) return null;
     let k0 = km,
       k1 = km;
@@ -666,6 +683,9 @@ export function fitClassMixture(
     p0.push(lnv[km], Math.log(Math.max(Math.abs(lnv[k0] - lnv[k1]) / 2.355, 2 * spacing)));
     keepIn.push([lnv[b1], lnv[b0]]);
     minSd.push(spacing);
+    // a class's spread in log velocity is at most half the log width of its own range (its fibres span that range)
+    maxSd.push(zone ? Math.max(2 * spacing, 0.5 * Math.log(zone[1] / zone[0])) : Infinity);
+    p0[p0.length - 1] = Math.min(p0[p0.length - 1], Math.log(maxSd[j]));
     // the share: the part's weight within 3 SD of the mode, so that stray far weight does not count
     let near = 0;
     for (let k = b0; k <= b1; k++)
@@ -737,6 +757,18 @@ export function fitClassMixture(
     return { s, r: Float64Array.from(res) };
   };
   const cost = (r: Float64Array) => r.reduce((a, v) => a + v * v, 0);
+  // bounds (a projected Levenberg-Marquardt step, each parameter clamped to its box after the step): each centre
+  // inside its part of W, each SD between one bin and maxSd, so that a weakly determined bump can neither leave its
+  // class (e.g. to take up a slow residue beyond it) nor spread over the whole grid
+  const clamp = (q: Float64Array) => {
+    let i = 0;
+    for (let j = 0; j < nc; j++) {
+      q[i] = Math.min(keepIn[j][1], Math.max(keepIn[j][0], q[i]));
+      i++;
+      q[i] = Math.min(Math.log(maxSd[j]), Math.max(Math.log(minSd[j]), q[i]));
+      i += j > 0 ? 2 : 1;
+    }
+  };
   // Levenberg-Marquardt with a forward-difference Jacobian (D. W. Marquardt, J. SIAM 11 (1963) 431-441)
   let p = Float64Array.from(p0);
   let cur = solve(p);
@@ -776,6 +808,7 @@ export function fitClassMixture(
       const d = spdSolve(D, b, np);
       if (d) {
         const q = Float64Array.from(p, (v, a) => v + d[a]);
+        clamp(q);
         const o = solve(q);
         if (o && cost(o.r) < C) {
           const rel = (C - cost(o.r)) / C;

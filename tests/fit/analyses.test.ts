@@ -465,6 +465,42 @@ describe('one bad velocity never discards good ones', () => {
     expect(c.velocity_m_s as number).toBeCloseTo(1, 6);
     expect(c.n).toBe(4);
   });
+  it('two-site xcorr of a decomposed class correlates its modelled component, not the residual of its neighbour', () => {
+    // C at 1 m/s (delay 10 ms between 20 and 30 mm) as a Gaussian wave; the recording-minus-neighbours component also
+    // holds a neighbour's misfit that does not move between sites (a wave 5x larger at the same time in both
+    // windows), which pulls the correlation of the residual windows towards zero delay; the model alone has the
+    // class's delay (analytic: 10 mm / 10 ms = 1 m/s)
+    const fs = 1000,
+      n = 80;
+    const conditions = [20, 30].flatMap((mm) =>
+      [0, 1, 2, 3].map((k) => ({ preparation: 'P', temperatureC: 37, distanceMm: mm, repeat: k })),
+    );
+    const set = new SweepSet({
+      data: new Float64Array(8 * n),
+      nSweeps: 8,
+      nSamples: n,
+      fs,
+      t0Ms: 0,
+      units: 'uV',
+      conditions,
+    });
+    const wave = (c: number) => Float64Array.from({ length: n }, (_, i) => Math.exp(-0.5 * ((i - c) / 3) ** 2));
+    const rows = good(0).filter((r) => r.class === 'C');
+    const measures: unknown[][] = [];
+    for (const r of rows) {
+      const model = wave(r.distance_mm === 20 ? 30 : 40);
+      const misfit = wave(20);
+      const component = model.map((v, i) => v + 5 * misfit[i]);
+      const m = { window: [0, n - 1], component, model };
+      measures[r.sweep] = [undefined, undefined, m];
+    }
+    const pick = (ms: unknown[][]) =>
+      twoSiteVelocity(set, rows as never, ms as never, resolved, ['preparation']).find((q) => q.basis === 'xcorr')!;
+    expect(pick(measures).velocity_m_s as number).toBeCloseTo(1, 6);
+    // without the model (a class measured in its window) the recorded component is correlated, as before
+    const plain = measures.map((q) => [undefined, undefined, { ...(q[2] as object), model: undefined }]);
+    expect(Math.abs((pick(plain).velocity_m_s as number) - 1)).toBeGreaterThan(0.05);
+  });
   it('single site: every row names its latency definition', () => {
     const v = singleSiteVelocity(good(0) as never, ['preparation'], resolved);
     expect(v.every((r) => r.definition === 'peak (parabolic sub-sample)' && r.latency_column === 'peak_ms')).toBe(true);
