@@ -217,3 +217,30 @@ export {
   blindingKeysInStudy,
 } from './analysis/blinding';
 export type { BlindingKey, KeyInput, UnblindOptions } from './analysis/blinding';
+// types the public API refers to (TypeDoc's notExported validation: every referenced type is documented)
+export type { Row } from './registry/types';
+export type { RunOptions } from './cli/engine';
+export type { MethodsContext } from './report/methods';
+export type { Recording } from './report/study';
+export type { LinearFit, PairedComparison, Summary } from './analysis/stats';
+export type { ResolvedGroupOptions } from './analysis/groups';
+export type { ResolvedSweepQcOptions, Removed } from './analysis/sweepQc';
+export type { ResultTables } from './io/nwbWrite';
+export type { ConditionSpec, ColumnKind, ResultRows } from './io/nwbColumns';
+export type { DeferredSamples, SampleView } from './verbs/types';
+export type { ClipOptions } from './measure/components';
+export type { OwnLatencies } from './measure/response';
+export type {
+  DecomposeGrid,
+  DecomposeOptions,
+  DecomposeTrace,
+  SharedShape,
+  TraceDecomposition,
+} from './measure/decompose';
+export type { FiltfiltWork } from './signal/sosfilt';
+export type { Samples, Correction } from './parallel/kernels';
+export type { LogTicks } from './plot/labels';
+export type { GroupFigureOptions } from './plot/groups';
+export type { VelocityDistributionFigureOptions } from './plot/velocityDistribution';
+export type { Progress } from './notebook/progress';
+export type { SweepSetView } from './notebook/sweepSet';

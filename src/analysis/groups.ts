@@ -31,7 +31,7 @@ import { tableHtml, tableText } from '../notebook/html';
 import { VERSION } from '../version';
 import type { Flag } from '../report/pipeline';
 
-type Row = Record<string, ConditionValue>;
+import type { Row } from '../registry/types';
 
 /** Status of a test: 'ok', or 'not computed' with a reason (the numbers are then null). */
 export type TestStatus = 'ok' | 'not computed';
@@ -366,7 +366,8 @@ export const groupDefaults = { group: 'group', animalKeys: ['animal', 'preparati
 /** Column-name unit suffixes (as the component table writes them), longest first. */
 const UNIT_SUFFIXES = ['uV_ms', 'mV_ms', 'V_s', 'm_s', 'uV', 'mV', 'V', 'ms', 'mm', 'mA', 'uA', 'uM', 'nM', 'mM', 'Hz'];
 
-interface Resolved {
+/** Group options with every default filled in (a comparison's `options`). */
+export interface ResolvedGroupOptions {
   value: string;
   group: string;
   animal: string;
@@ -375,7 +376,7 @@ interface Resolved {
   unit: string;
 }
 
-function resolve(rows: readonly Row[], o: GroupOptions): Resolved {
+function resolve(rows: readonly Row[], o: GroupOptions): ResolvedGroupOptions {
   checkKeys('group options', o, ['value', 'group', 'animal', 'condition', 'by', 'unit']);
   const cols = [...new Set(rows.flatMap((r) => Object.keys(r)))];
   const need = (name: string, col: unknown) => {
@@ -418,7 +419,7 @@ export function animalMeans(
 ): {
   points: AnimalPoint[];
   excluded: number;
-  options: Resolved;
+  options: ResolvedGroupOptions;
 } {
   const rows = rowsOf(input);
   const o = resolve(rows, options);
@@ -494,7 +495,7 @@ export class GroupComparison extends Result {
     readonly summary: Row[],
     readonly tests: Row[],
     readonly points: AnimalPoint[],
-    readonly options: Readonly<Resolved>,
+    readonly options: Readonly<ResolvedGroupOptions>,
     readonly excluded: number,
     readonly history: readonly Step[],
     readonly sources: readonly Source[] = [],
@@ -789,7 +790,7 @@ export const GROUP_REFERENCES = [
 /** The methods sentence of a 'compareGroups' history step (the tests its design calls for); other steps: ''. */
 export function groupStepMethods(step: Step): string {
   if (step.verb !== 'compareGroups') return '';
-  const o = step.options as unknown as Resolved;
+  const o = step.options as unknown as ResolvedGroupOptions;
   const per = [o.group, o.condition].filter(Boolean).join(' and ') || 'set';
   const between = o.group
     ? "between groups Welch's t test and the Mann-Whitney U test (exact for samples of at most " +

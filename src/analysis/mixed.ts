@@ -36,7 +36,7 @@ import { toFrame } from '../report/frame';
 import { tableHtml, tableText } from '../notebook/html';
 import { VERSION } from '../version';
 
-type Row = Record<string, ConditionValue>;
+import type { Row } from '../registry/types';
 
 /** A random-intercept REML fit on numbers: y, the design X (rows), and each row's animal. */
 export interface RandomInterceptFit {

@@ -100,7 +100,7 @@ export const QC_OPTION_KEYS = [
 export type QcFlag = 'noisy' | 'flat' | 'drift' | 'saturated' | 'artifact' | 'outlier';
 export const QC_FLAGS: readonly QcFlag[] = ['noisy', 'flat', 'drift', 'saturated', 'artifact', 'outlier'];
 
-type Row = Record<string, ConditionValue>;
+import type { Row } from '../registry/types';
 
 function medianOf(v: Float64Array | number[]): number {
   const s = Float64Array.from(v).sort();
@@ -193,7 +193,8 @@ export function railSamples(
   return { high, low, clipped };
 }
 
-interface Resolved {
+/** Sweep-QC options with every default filled in (a result's `options`). */
+export interface ResolvedSweepQcOptions {
   quietWindow: [number, number];
   endWindow: [number, number];
   artifactWindow: [number, number];
@@ -229,7 +230,7 @@ function keysOf(set: SweepSet): string[] {
   return [...k];
 }
 
-function resolve(set: SweepSet, o: SweepQcOptions): Resolved {
+function resolve(set: SweepSet, o: SweepQcOptions): ResolvedSweepQcOptions {
   checkKeys('sweepQc options', o, QC_OPTION_KEYS);
   const end = set.timeAt(set.nSamples - 1);
   if (!o.quietWindow && !(set.t0Ms < -sweepQcDefaults.quietStopMs)) {
@@ -263,7 +264,7 @@ function resolve(set: SweepSet, o: SweepQcOptions): Resolved {
   type RatioKey =
     'maxNoiseRatio' | 'minNoiseRatio' | 'maxDriftRatio' | 'maxArtifactRatio' | 'outlierThreshold' | 'outlierMinScale';
   const ratio = (name: RatioKey) => positive(name, o[name] ?? sweepQcDefaults[name]);
-  const r: Resolved = {
+  const r: ResolvedSweepQcOptions = {
     quietWindow,
     endWindow,
     artifactWindow,
@@ -302,7 +303,7 @@ export class SweepQcResult extends Result {
   readonly sources: readonly Source[];
   constructor(
     readonly rows: readonly Row[],
-    readonly options: Readonly<Resolved>,
+    readonly options: Readonly<ResolvedSweepQcOptions>,
     readonly units: string,
     readonly nSweeps: number,
     private readonly conditionsId: string,
@@ -685,7 +686,7 @@ export const QC_REFERENCES = [
 ];
 
 type QcThresholds = Pick<
-  Resolved,
+  ResolvedSweepQcOptions,
   | 'quietWindow'
   | 'artifactWindow'
   | 'maxNoiseRatio'
@@ -696,7 +697,8 @@ type QcThresholds = Pick<
   | 'outlierThreshold'
   | 'minSweeps'
 >;
-type Removed = readonly { preparation?: ConditionValue; flags?: ConditionValue }[];
+/** Removed sweeps as the methods text counts them (the sweeps_removed table's rows). */
+export type Removed = readonly { preparation?: ConditionValue; flags?: ConditionValue }[];
 
 function qcSentence(o: QcThresholds): string {
   const w = (x: [number, number]) => `${x[0]} to ${x[1]} ms`;

@@ -44,8 +44,9 @@ import { nwbReady, h5, openHdf5, at, isDataset, texts, type H5File, type H5Group
 import { encodeColumn, resultColumns } from './nwbColumns';
 import { FASCICLE_SCRIPT } from './nwb';
 
-type Rows = readonly Record<string, unknown>[];
-type ResultTables =
+import type { ResultRows as Rows } from './nwbColumns';
+/** Result tables to write: a result object (with tables()), a runPipeline result, or name -> rows. */
+export type ResultTables =
   { tables(): Record<string, Rows> } | { tables: Record<string, Rows | undefined> } | Record<string, Rows | undefined>;
 
 export interface NwbWriteOptions {

@@ -14,6 +14,7 @@ import type { PipelineOptions, Flag } from '../report/pipeline';
 import type { Study } from '../report/study';
 import type { Sentence } from './sentences';
 
+/** One row of a result table: column name -> value (a number, text, true/false, or null when missing). */
 export type Row = Record<string, ConditionValue>;
 
 /** A table an analysis writes into the bundle (tables/<name>.csv and .json). */

@@ -40,7 +40,7 @@ export { velocityDistributions, type VelocityDistributionEntry } from '../regist
 export { groupRows, GROUP_TABLES } from '../registry/groups';
 export { computedCount } from '../registry/index';
 
-type Row = Record<string, ConditionValue>;
+import type { Row } from '../registry/types';
 
 export interface PipelineOptions {
   baseline?: BaselineOptions | false;

@@ -14,7 +14,7 @@ import type { DoseResponseResult } from '../analysis/doseResponse';
 import { ANALYSES, computedCount, type StudyContext } from '../registry/index';
 import { strip } from '../registry/shared';
 
-type Row = Record<string, ConditionValue>;
+import type { Row } from '../registry/types';
 
 export interface PrepOutput {
   preparation: string;
