@@ -137,19 +137,36 @@ export function removeArtifactSamples(set: VerbInput, options: ArtifactOptions):
     const out = sharedSamples(set.data.length);
     out.set(set.data);
     const taus: number[][] = [];
+    const railEnds: (number | null)[] = [];
+    const need = K === 1 ? 5 : 9;
     for (let s = 0; s < set.nSweeps; s++) {
       const x = out.subarray(s * n, (s + 1) * n);
+      // samples still on the amplifier's rail (either side) are not a decay: the fit starts after them,
+      // and the blanked span reaches the rail's end when the rail outlasts the window
+      const r = railEnd(x, a, tb, n - 1);
+      railEnds.push(r < 0 ? null : set.timeAt(r));
+      const fa = Math.max(ta, r + 1);
+      if (tb - fa + 1 < need)
+        throw new AnalysisError(
+          `sweep ${s}: the amplifier rail lasts until ${set.timeAt(r).toFixed(3)} ms, leaving ${Math.max(0, tb - fa + 1)} ` +
+            `samples of tailWindow [${tail[0]}, ${tail[1]}] ms to fit (need ${need}); give a tailWindow that ` +
+            `reaches further past the rail`,
+        );
       const terms =
         K === 1
-          ? [fitExpTail(x, ta, tb, set.fs)].map((f) => ({ A: f.A, tauMs: f.tauMs }))
-          : fitExpTails(x, ta, tb, set.fs).terms;
+          ? [fitExpTail(x, fa, tb, set.fs)].map((f) => ({ A: f.A, tauMs: f.tauMs }))
+          : fitExpTails(x, fa, tb, set.fs).terms;
       taus.push(terms.map((q) => q.tauMs));
-      for (const q of terms) for (let i = a; i < n; i++) x[i] -= q.A * Math.exp(-((i - ta) * 1000) / set.fs / q.tauMs);
-      bridgeGap(x, a, b, bridge);
+      for (const q of terms) for (let i = a; i < n; i++) x[i] -= q.A * Math.exp(-((i - fa) * 1000) / set.fs / q.tauMs);
+      bridgeGap(x, a, Math.max(b, r), bridge);
     }
     return {
       data: out,
-      extras: { artifactTauMs: K === 1 ? taus.map((q) => q[0]) : taus, ...carryBaseline(set.extras) },
+      extras: {
+        artifactTauMs: K === 1 ? taus.map((q) => q[0]) : taus,
+        artifactRailEndMs: railEnds,
+        ...carryBaseline(set.extras),
+      },
       step: {
         verb: 'removeArtifact',
         options: { method, window, bridge, tailWindow: tail, ...(K === 2 ? { exponentials: 2 } : {}) },
@@ -268,6 +285,40 @@ export function removeArtifactSamples(set: VerbInput, options: ArtifactOptions):
       },
     },
   };
+}
+
+/**
+ * The last sample in [a, b] that sits on the amplifier's rail, or -1. A rail is the largest or the
+ * smallest value of samples a..c (c >= b, default b), on either side, lying far from the level before
+ * the stimulus (the median of the samples before a; at least half as far from it as the farthest
+ * extreme, so a flat stretch at the signal's own level is not a rail). A sample is on the rail within
+ * 1e-6 of the rail's size (a rail stored with a gain or as float32 is found); only runs of at least
+ * three such samples count.
+ */
+export function railEnd(x: ArrayLike<number>, a: number, b: number, c = b): number {
+  let hi = -Infinity,
+    lo = Infinity;
+  for (let i = a; i <= c; i++) {
+    if (x[i] > hi) hi = x[i];
+    if (x[i] < lo) lo = x[i];
+  }
+  const pre = Array.from({ length: a }, (_, i) => x[i]).sort((p, q) => p - q);
+  const level = pre.length ? pre[pre.length >> 1] : 0.5 * (hi + lo);
+  const far = Math.max(hi - level, level - lo);
+  const tol = 1e-6 * Math.max(Math.abs(hi), Math.abs(lo));
+  if (!(hi - lo > tol) || !(far > tol)) return -1;
+  const useHi = hi - level >= 0.5 * far,
+    useLo = level - lo >= 0.5 * far;
+  const on = (v: number) => (useHi && v >= hi - tol) || (useLo && v <= lo + tol);
+  let last = -1,
+    run = 0;
+  for (let i = a; i <= b; i++) {
+    if (on(x[i])) {
+      run++;
+      if (run >= 3) last = i;
+    } else run = 0;
+  }
+  return last;
 }
 
 /**

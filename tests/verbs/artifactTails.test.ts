@@ -94,6 +94,44 @@ describe('removeArtifact exponential with two exponentials after a rail on eithe
       expect((two.extras.artifactTauMs as number[][])[0].length).toBe(2);
     });
   }
+  for (const sign of [1, -1]) {
+    it(`a rail (${sign > 0 ? '+' : '-'}10 mV, stored with a gain) outlasting the window: fitted after it, blanked to its end`, () => {
+      const set = sweepOf(sign);
+      // the rail as a gain-scaled recording stores it: equal to within a few parts in 1e9, not bit for bit
+      const data = Float64Array.from(set.data, (v) => (Math.abs(v) === 10e-3 ? v * (1 + 3e-9 * Math.sin(v * 1e7)) : v));
+      const jittered = new SweepSet({
+        data,
+        nSweeps: 1,
+        nSamples: n,
+        fs,
+        t0Ms: t0,
+        units: 'V',
+        conditions: [{ preparation: 'P' }],
+      });
+      const y = jittered.removeArtifact({
+        method: 'exponential',
+        window: [0, 0.1],
+        tailWindow: [0.1, 6],
+        exponentials: 2,
+      });
+      const railEnd = (y.extras.artifactRailEndMs as number[])[0];
+      expect(railEnd).toBeCloseTo(0.28, 9); // the last sample before 0.3 ms at 50 kHz
+      const tt = y.time();
+      let worst = 0;
+      for (let i = 0; i < n; i++)
+        if (tt[i] >= 0.5)
+          worst = Math.max(worst, Math.abs(y.sweep(0)[i] - response(tt[i]) - sign * 5e-6 - scatter(i) * 0.1));
+      expect(worst).toBeLessThan(2e-6);
+      // the railed samples are bridged, not left at 10 mV minus an extrapolated decay
+      for (let i = 0; i < n; i++) if (tt[i] > 0.1 && tt[i] < 0.28) expect(Math.abs(y.sweep(0)[i])).toBeLessThan(3e-3);
+    });
+  }
+  it('a rail through the whole tail window is refused, naming the sweep and the rail', () => {
+    const set = sweepOf(1);
+    expect(() => set.removeArtifact({ method: 'exponential', window: [0, 0.05], tailWindow: [0.05, 0.25] })).toThrow(
+      /sweep 0: the amplifier rail lasts until 0.2[45]0 ms/,
+    );
+  });
   it('exponentials must be 1 or 2, and only with method "exponential"', () => {
     const set = sweepOf(1);
     expect(() => set.removeArtifact({ method: 'exponential', exponentials: 3 as never })).toThrow(
