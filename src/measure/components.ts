@@ -334,6 +334,136 @@ export function artifactDecay(
   return { from: i1, a: sgn * Math.exp(icpt), tauSamples: -1 / slope };
 }
 
+/** A stretch of one sweep where only the stimulus artifact is recorded (sample indices, the same time base for all). */
+export interface ArtifactStretch {
+  x: ArrayLike<number>;
+  /** first sample after rail clipping */
+  from: number;
+  /** last sample before the earliest class can arrive (may be below `from`: then only the scale is fitted) */
+  to: number;
+}
+
+/**
+ * The artifact's shape after rail clipping, shared by a set of sweeps: f(i) = exp(-(i - ref) / tau1) + rho
+ * exp(-(i - ref) / tau2) (sample units; one exponential when rho is 0), each sweep scaled by its own factor.
+ */
+export interface ArtifactShape {
+  ref: number;
+  tau1: number;
+  tau2: number;
+  rho: number;
+  /** residual sum of squares over the fitted samples and their number */
+  rss: number;
+  n: number;
+}
+
+export const artifactShapeValue = (f: ArtifactShape, i: number): number =>
+  Math.exp(-(i - f.ref) / f.tau1) + (f.rho !== 0 ? f.rho * Math.exp(-(i - f.ref) / f.tau2) : 0);
+
+/** Least-squares scale g of a shape on samples [from, max(from, to)] of x, and its residual sum of squares. */
+function scaleFit(x: ArrayLike<number>, f: ArtifactShape, from: number, to: number): { g: number; rss: number } {
+  let yy = 0,
+    yf = 0,
+    ff = 0;
+  for (let i = from; i <= Math.max(from, to) && i < x.length; i++) {
+    const v = artifactShapeValue(f, i);
+    yy += x[i] * x[i];
+    yf += x[i] * v;
+    ff += v * v;
+  }
+  const g = ff > 0 ? yf / ff : 0;
+  return { g, rss: Math.max(0, yy - g * yf) };
+}
+
+/** Least-squares scale of a shape on samples [from, max(from, to)] of x (scaleFit). */
+export function artifactScale(x: ArrayLike<number>, f: ArtifactShape, from: number, to: number): number {
+  return scaleFit(x, f, from, to).g;
+}
+
+/** Nelder-Mead simplex minimisation (Nelder and Mead 1965, standard coefficients 1, 2, 0.5, 0.5). */
+function nelderMead(fn: (p: number[]) => number, start: number[], step: number[], iterations = 400): number[] {
+  const m = start.length;
+  let simplex = [start, ...start.map((_, k) => start.map((v, j) => (j === k ? v + step[k] : v)))];
+  let vals = simplex.map(fn);
+  for (let it = 0; it < iterations; it++) {
+    const order = vals.map((_, i) => i).sort((a, b) => vals[a] - vals[b]);
+    simplex = order.map((i) => simplex[i]);
+    vals = order.map((i) => vals[i]);
+    if (Math.abs(vals[m] - vals[0]) <= 1e-12 * (Math.abs(vals[0]) + 1e-300)) break;
+    const c = start.map((_, j) => simplex.slice(0, m).reduce((acc, p) => acc + p[j], 0) / m);
+    const at = (t: number) => c.map((v, j) => v + t * (simplex[m][j] - v));
+    const r = at(-1),
+      fr = fn(r);
+    if (fr < vals[0]) {
+      const e = at(-2),
+        fe = fn(e);
+      [simplex[m], vals[m]] = fe < fr ? [e, fe] : [r, fr];
+    } else if (fr < vals[m - 1]) [simplex[m], vals[m]] = [r, fr];
+    else {
+      const k = at(fr < vals[m] ? -0.5 : 0.5),
+        fk = fn(k);
+      if (fk < Math.min(fr, vals[m])) [simplex[m], vals[m]] = [k, fk];
+      else
+        for (let i = 1; i <= m; i++) {
+          simplex[i] = simplex[i].map((v, j) => simplex[0][j] + 0.5 * (v - simplex[0][j]));
+          vals[i] = fn(simplex[i]);
+        }
+    }
+  }
+  return simplex[vals.indexOf(Math.min(...vals))];
+}
+
+/**
+ * The artifact's decay after rail clipping, one shape for a set of sweeps (the same stimulus through the same
+ * electrodes: the artifact has the same time course at every site and intensity, scaled): one or two exponentials
+ * fitted by least squares over every sweep's artifact-only stretch (from the end of clipping to the earliest arrival
+ * of the fastest class; a far site shows it longest), each sweep with its own scale (variable projection; the time
+ * constants and the second term's relative size by Nelder-Mead). The second exponential is kept when it lowers the
+ * Bayesian information criterion, n ln(RSS / n) + k ln n (Schwarz 1978), its time constant at most three times the
+ * longest stretch (a slower decay is not seen there). Null when fewer than three samples are artifact-only.
+ */
+export function fitArtifactShape(stretches: ArtifactStretch[]): ArtifactShape | null {
+  const use = stretches.filter((q) => q.to >= q.from + 2 && q.from >= 0);
+  const n = use.reduce((acc, q) => acc + Math.min(q.to, q.x.length - 1) - q.from + 1, 0);
+  if (n < 3) return null;
+  const ref = Math.min(...use.map((q) => q.from));
+  const span = Math.max(...use.map((q) => q.to - q.from + 1));
+  const rssOf = (f: ArtifactShape): number => {
+    let rss = 0;
+    for (const q of use) rss += scaleFit(q.x, f, q.from, q.to).rss;
+    return rss;
+  };
+  const tauMin = 0.2,
+    tauMax = 3 * span;
+  const one = (lt: number): ArtifactShape => {
+    const tau1 = Math.min(tauMax, Math.max(tauMin, Math.exp(lt)));
+    return { ref, tau1, tau2: tau1, rho: 0, rss: 0, n };
+  };
+  // one exponential: a coarse scan of log tau, then the simplex
+  let best1 = Math.log(tauMin);
+  for (let lt = Math.log(tauMin); lt <= Math.log(tauMax); lt += 0.1) if (rssOf(one(lt)) < rssOf(one(best1))) best1 = lt;
+  best1 = nelderMead((p) => rssOf(one(p[0])), [best1], [0.1])[0];
+  const f1 = one(best1);
+  f1.rss = rssOf(f1);
+  if (n < 6) return f1;
+  // two exponentials: tau2 = tau1 (1 + e^q) > tau1, started from several ratios
+  const two = (p: number[]): ArtifactShape => {
+    const tau1 = Math.min(tauMax, Math.max(tauMin, Math.exp(p[0])));
+    const tau2 = Math.min(tauMax, tau1 * (1 + Math.exp(p[1])));
+    return { ref, tau1, tau2, rho: p[2], rss: 0, n };
+  };
+  let f2: ArtifactShape | null = null;
+  for (const q0 of [Math.log(2), Math.log(9), Math.log(49)]) {
+    const p = nelderMead((v) => rssOf(two(v)), [Math.log(f1.tau1), q0, 0.01], [0.2, 0.5, 0.05], 600);
+    const f = two(p);
+    f.rss = rssOf(f);
+    if (!f2 || f.rss < f2.rss) f2 = f;
+  }
+  const bic = (rss: number, k: number) => n * Math.log(Math.max(rss, 1e-300) / n) + k * Math.log(n);
+  const k0 = use.length;
+  return f2 && f2.tau2 > 1.5 * f2.tau1 && bic(f2.rss, k0 + 3) < bic(f1.rss, k0 + 1) ? f2 : f1;
+}
+
 interface Win {
   a: number;
   b: number;
@@ -495,17 +625,56 @@ export function measureComponents(
   const clips = Array.from({ length: set.nSweeps }, (_, s) =>
     clipEndMs(set.sweep(s), set.t0Ms, dt, 0, 20, { rail: [railLo, railHi] }),
   );
-  const tauOf = new Map<string, number>();
+  // the artifact's shape after rail clipping, one per preparation (the same stimulus through the same electrodes),
+  // fitted on every clipped sweep from the end of clipping to the earliest arrival of the preset's fastest class
+  // (fastest fibers of its velocity range at the sweep's temperature); each sweep is scaled on its own stretch (at
+  // least its first unclipped sample, where the artifact is near the rail and the response small beside it)
+  const artKey = (s: number) => String(set.conditions[s].preparation ?? '');
+  const fastest = [...preset.classes].sort((p, q) => q.velocity[1] - p.velocity[1])[0];
+  const arrivalIndex = (s: number) => {
+    const vhi = scaledRange(fastest, preset, tempOf(s), q10)[1];
+    return set.indexAt(Math.max(util + distOf(s) / vhi, earliest));
+  };
+  const stretchOf = (s: number): ArtifactStretch | null =>
+    clips[s] === null ? null : { x: set.sweep(s), from: set.indexAt(clips[s]!) + 1, to: arrivalIndex(s) - 1 };
+  const shapeOf = new Map<string, ArtifactShape | null>();
   {
-    const far = new Map<string, number>();
-    for (let s = 0; s < set.nSweeps; s++) far.set(groupOf(s), Math.max(far.get(groupOf(s)) ?? -Infinity, distOf(s)));
-    const taus = new Map<string, number[]>();
+    const by = new Map<string, ArtifactStretch[]>();
     for (let s = 0; s < set.nSweeps; s++) {
-      if (clips[s] === null || distOf(s) !== far.get(groupOf(s))) continue;
-      const d = artifactDecay(set.sweep(s), set.indexAt(clips[s]!));
-      if (d) (taus.get(groupOf(s)) ?? taus.set(groupOf(s), []).get(groupOf(s))!).push(d.tauSamples);
+      const q = stretchOf(s);
+      if (q) (by.get(artKey(s)) ?? by.set(artKey(s), []).get(artKey(s))!).push(q);
     }
-    for (const [g, v] of taus) tauOf.set(g, v.sort((a, b) => a - b)[Math.floor(v.length / 2)]);
+    for (const [key, v] of by) shapeOf.set(key, fitArtifactShape(v));
+  }
+  // the artifact is linear in the stimulus current: at one site its scale per unit of intensity is taken from the
+  // sweeps where clipping ends longest before the response can arrive (the earliest arrival minus the first
+  // unclipped sample, within one sample of the best; their median): there the response adds least to the first
+  // unclipped samples. A sweep with fewer than three artifact-only samples of its own takes that per-unit scale times
+  // its intensity (common practice, no source: the volume-conducted artifact is proportional to the current)
+  const siteKey = (s: number) => `${artKey(s)}|${distOf(s)}|${refOf(s) ?? ''}`;
+  const intensityOf = (s: number) => {
+    const v = set.conditions[s].intensity;
+    return typeof v === 'number' && v > 0 ? v : null;
+  };
+  const perUnit = new Map<string, number>();
+  {
+    const by = new Map<string, { margin: number; k: number }[]>();
+    for (let s = 0; s < set.nSweeps; s++) {
+      const q = stretchOf(s),
+        f = shapeOf.get(artKey(s)),
+        I = intensityOf(s);
+      if (!q || !f || I === null) continue;
+      const e = { margin: q.to - q.from, k: artifactScale(q.x, f, q.from, q.to) / I };
+      (by.get(siteKey(s)) ?? by.set(siteKey(s), []).get(siteKey(s))!).push(e);
+    }
+    for (const [key, v0] of by) {
+      const best = Math.max(...v0.map((e) => e.margin));
+      const v = v0
+        .filter((e) => e.margin >= best - 1)
+        .map((e) => e.k)
+        .sort((a, b) => a - b);
+      perUnit.set(key, v[Math.floor(v.length / 2)]);
+    }
   }
   const polStartOf = (clip: number) => set.indexAt(clip + Math.max(0.05, clip));
   // per sweep: distance, temperature, noise, artifact end (rail clipping) and raw class windows
@@ -514,38 +683,82 @@ export function measureComponents(
     const L = distOf(s),
       T = tempOf(s);
     const clip = clips[s];
-    // after rail clipping the artifact's decay, from the first unclipped sample with the group's time constant, is subtracted
-    const d0 = clip === null ? null : artifactDecay(raw0, set.indexAt(clip));
-    const tau = tauOf.get(groupOf(s)) ?? d0?.tauSamples;
-    const decay =
-      clip === null || tau === undefined
-        ? null
-        : { from: set.indexAt(clip) + 1, a: raw0[set.indexAt(clip) + 1], tauSamples: tau };
+    // after rail clipping the artifact's decay (the preparation's shape, this sweep's scale) is subtracted; without a
+    // shape (too few artifact-only samples) one exponential through the first three unclipped samples
+    const q = stretchOf(s);
+    const shape = q ? (shapeOf.get(artKey(s)) ?? null) : null;
+    let decay: { from: number; tauSamples: number; value: (i: number) => number } | null = null;
+    if (q && shape) {
+      const k0 = perUnit.get(siteKey(s)),
+        I = intensityOf(s);
+      const g =
+        q.to - q.from + 1 >= 3 || k0 === undefined || I === null ? artifactScale(raw0, shape, q.from, q.to) : k0 * I;
+      decay = { from: q.from, tauSamples: shape.tau1, value: (i) => g * artifactShapeValue(shape, i) };
+    } else if (q) {
+      const d0 = artifactDecay(raw0, q.from - 1);
+      if (d0)
+        decay = {
+          from: d0.from,
+          tauSamples: d0.tauSamples,
+          value: (i) => d0.a * Math.exp(-(i - d0.from) / d0.tauSamples),
+        };
+    }
     let x: ArrayLike<number> = raw0;
     if (decay) {
       const c = Float64Array.from(raw0);
-      for (let i = decay.from; i < n; i++) c[i] -= decay.a * Math.exp(-(i - decay.from) / decay.tauSamples);
+      for (let i = decay.from; i < n; i++) c[i] -= decay.value(i);
       x = c;
     }
     // the decomposition fits from the end of rail clipping (with the artifact's decay as a nuisance term); the
     // polarity decision waits until the artifact has decayed: as long again as the clipping lasted from the
     // stimulus (at least 0.05 ms; common practice, no source)
-    // fitted from 4 samples after the clipping when its decay was subtracted, otherwise once the artifact has decayed
-    const fitStart = Math.max(iEarliest, clip === null ? 0 : decay ? set.indexAt(clip) + 4 : polStartOf(clip));
+    // fitted from two fast time constants after the clipping when its decay was subtracted (the error of the
+    // subtraction, proportional to the fast term, has fallen to e^-2 of it), otherwise once the artifact has decayed
+    const fitStart = Math.max(
+      iEarliest,
+      clip === null ? 0 : decay ? decay.from + Math.ceil(2 * decay.tauSamples) - 1 : polStartOf(clip),
+    );
     const polStart = Math.max(iEarliest, clip === null ? 0 : polStartOf(clip));
     const wins: Win[] = classes.map((c) => {
       const [vlo, vhi] = scaledRange(c, preset, T, q10);
       const t0 = util + L / vhi,
         t1 = util + L / vlo;
-      const a = Math.max(set.indexAt(Math.max(t0, earliest)), iEarliest);
+      // clipped samples carry no signal: a window starts after the rail at the earliest
+      const a = Math.max(set.indexAt(Math.max(t0, earliest)), iEarliest, clip === null ? 0 : set.indexAt(clip) + 1);
       const b = set.indexAt(t1 + Math.max(tailMs, tailFraction * (t1 - t0)));
       return { a, b };
     });
     return { L, T, noise: noiseMad(x, na, nb), clip, decay, x, fitStart, polStart, wins };
   });
 
-  // polarity per class: the larger phase (sum over sweeps of the positive and of the negative extremes) in the
-  // class's window after the artifact
+  // polarity per class: the larger phase (sum of the positive and of the negative extremes) in the class's window
+  // after the artifact, on the sweeps with the largest responses: at each site the unblocked sweeps (concentration 0
+  // or none) at the highest intensity; where the same site has blocked sweeps at that intensity, the mean of those at
+  // the highest concentration is subtracted first (the artifact and its tail, the same stimulus, cancel; what is left
+  // is the response the drug took away), so that an artifact tail larger than a small class cannot choose its sign
+  const concOf = (s: number) => {
+    const v = set.conditions[s].concentration;
+    return typeof v === 'number' && v > 0 ? v : 0;
+  };
+  const polSweeps: { s: number; ref: Float64Array | null }[] = [];
+  {
+    const bySite = new Map<string, number[]>();
+    for (let s = 0; s < set.nSweeps; s++)
+      (bySite.get(siteKey(s)) ?? bySite.set(siteKey(s), []).get(siteKey(s))!).push(s);
+    for (const members of bySite.values()) {
+      const top = Math.max(...members.map((s) => intensityOf(s) ?? -Infinity));
+      const atTop = members.filter((s) => (intensityOf(s) ?? -Infinity) === top);
+      const unblocked = atTop.filter((s) => concOf(s) === 0);
+      const cMax = Math.max(...atTop.map(concOf));
+      const blocked = cMax > 0 ? atTop.filter((s) => concOf(s) === cMax) : [];
+      let ref: Float64Array | null = null;
+      if (unblocked.length && blocked.length) {
+        ref = new Float64Array(n);
+        for (const s of blocked) for (let i = 0; i < n; i++) ref[i] += info[s].x[i] / blocked.length;
+      }
+      for (const s of unblocked.length ? unblocked : members) polSweeps.push({ s, ref: unblocked.length ? ref : null });
+    }
+  }
   const polarities: Record<string, 1 | -1> = {};
   const polaritySource: Record<string, 'option' | 'auto'> = {};
   classes.forEach((c, ci) => {
@@ -557,14 +770,15 @@ export function measureComponents(
     }
     let up = 0,
       down = 0;
-    for (let s = 0; s < set.nSweeps; s++) {
+    for (const { s, ref } of polSweeps) {
       const x = info[s].x;
       const { a, b } = info[s].wins[ci];
       let mx = 0,
         mn = 0;
       for (let i = Math.max(a, info[s].polStart); i <= Math.min(b, n - 1); i++) {
-        if (x[i] > mx) mx = x[i];
-        if (x[i] < mn) mn = x[i];
+        const v = ref ? x[i] - ref[i] : x[i];
+        if (v > mx) mx = v;
+        if (v < mn) mn = v;
       }
       up += mx;
       down -= mn;
