@@ -19,6 +19,7 @@ import { readDelimited, type DelimitedOptions } from './delimited';
 import { readBinary } from './binary';
 import { readNwbSync, type NwbReadOptions } from './nwb';
 import { VERSION } from '../version';
+import validateManifestSchema from './manifestValidator';
 
 export interface ManifestFile {
   path: string;
@@ -338,17 +339,14 @@ export function checkManifestKeys(m: unknown, file: string): void {
 
 export const MANIFEST_SCHEMA_PATH = join(__dirname, '..', '..', 'schema', 'manifest.schema.json');
 
-let validator: ((x: unknown) => boolean) & {
+/**
+ * The schema's validator, compiled ahead of time (./manifestValidator.ts, checked against the schema by
+ * tests/io/manifestValidator.test.ts): no schema compiler runs when a manifest is read.
+ */
+const validator = validateManifestSchema as ((x: unknown) => boolean) & {
   errors?: { instancePath: string; message?: string; params?: unknown }[] | null;
 };
 function validate(m: unknown, file: string): asserts m is Manifest {
-  if (!validator) {
-    // eslint-disable-next-line @typescript-eslint/no-var-requires
-    const Ajv = require('ajv').default ?? require('ajv');
-    const ajv = new Ajv({ allErrors: false, strict: false });
-    const { bytes } = readInput(MANIFEST_SCHEMA_PATH);
-    validator = ajv.compile(JSON.parse(Buffer.from(bytes).toString('utf8')));
-  }
   checkManifestKeys(m, file);
   if (!validator(m)) {
     const e = validator.errors![0];
