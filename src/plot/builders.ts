@@ -707,10 +707,26 @@ export function temperatureFigure(points: Row[], rows: Row[], view: 'q10' | 'arr
         line: { color: GREY, width: 1.5 },
       }),
     );
-  const yl = sentenceCase(measureLabel(String(points[0]?.measure ?? 'value')));
-  const m = /^(centroid|peak|onset)_velocity/.exec(String(points[0]?.measure ?? ''));
-  const title =
-    (view === 'q10' ? 'Temperature dependence' : 'Arrhenius plot') + (m ? ` (velocity from ${m[1]} latency)` : '');
+  // the measure: a column name (centroid_velocity_m_s) or the analysis's words for the estimate per class
+  // ('regression peak velocity'); velocities are labelled as such with their unit, the estimate in the title
+  // when every class has the same one, else in each class's legend entry
+  const measures = uniq(points.map((p) => String(p.measure ?? 'value')));
+  const allVelocity = measures.length > 0 && measures.every((x) => /velocity/.test(x));
+  const yl = allVelocity ? 'Conduction velocity (m/s)' : sentenceCase(measureLabel(measures[0] ?? 'value'));
+  const estimate = (x: string) => {
+    const m = /^(centroid|peak|onset)_velocity/.exec(x);
+    if (m) return `${m[1]} latency`;
+    return / /.test(x) ? plotlyText(x.replace(/\s*velocity\s*/, ' ').trim()) : '';
+  };
+  const est = measures.map(estimate);
+  const view0 = view === 'q10' ? 'Temperature dependence' : 'Arrhenius plot';
+  const title = allVelocity && measures.length === 1 && est[0] ? `${view0} (velocity from ${est[0]})` : view0;
+  if (allVelocity && measures.length > 1)
+    for (const e of entries) {
+      const cls = classes.find((c) => String(e.name).startsWith(plotlyText(c)));
+      const x = points.find((p) => String(p.class) === cls)?.measure;
+      if (x !== undefined && estimate(String(x))) e.name = `${String(e.name)}, ${estimate(String(x))}`;
+    }
   const xt = view === 'q10' ? 'Temperature (°C)' : '1000 / T (K<sup>−1</sup>)';
   return new Figure(`temperature-${view}`, {
     data,

@@ -22,6 +22,7 @@ import {
   model,
 } from '../../src';
 import type { Figure } from '../../src';
+import { bundleFigures, notebookFigures } from './realFigures';
 
 type Trace = {
   name?: string;
@@ -372,5 +373,92 @@ describe('plain text of markup (PDF and SVG titles, text output)', () => {
     expect(plainText(`C IC<sub>50</sub> 10 µM<br>${plotlyText('<a href="x"> & co')}`)).toBe(
       'C IC50 10 µM <a href="x"> & co',
     );
+  });
+});
+
+describe('the real figures (the demo bundles and the notebooks) follow the label rules', () => {
+  // the figures a user gets, with their real names (tests/plot/realFigures.ts); rules from issue 16 and the
+  // SI Brochure (9th ed., BIPM 2019) for unit symbols
+  const figs = [...bundleFigures(), ...notebookFigures()];
+  type L = Record<string, unknown>;
+  const titleOf = (a: unknown) => ((a as { title?: { text?: string } })?.title?.text ?? '') as string;
+  const texts = (f: Figure) => {
+    const L = f.spec.layout as L;
+    const axes = Object.keys(L).filter((k) => /^[xy]axis\d*$/.test(k));
+    return {
+      title: titleOf(L),
+      axes: axes.map((k) => titleOf(L[k])).filter(Boolean),
+      ticks: axes.flatMap((k) => ((L[k] as { ticktext?: string[] }).ticktext ?? []).map(String)),
+      legend: legendNames(f),
+    };
+  };
+  it('covers every kind the pipeline writes and the notebooks draw', () => {
+    const kinds = figs.map((f) => f.name.replace(/^[a-z]+\//, ''));
+    for (const k of ['recruitment', 'velocity', 'dose-response', 'temperature-q10', 'temperature-arrhenius'])
+      expect(kinds).toContain(k);
+    for (const k of ['summary', 'paired-pulse', 'train', 'sweep-viewer', 'velocity-distribution', 'groups-r50'])
+      expect(kinds).toContain(k);
+  });
+  it('units as µV, µM, °C; no internal identifiers (snake_case column names) in titles, axes or legends', () => {
+    const bad: string[] = [];
+    for (const f of figs) {
+      const t = texts(f);
+      for (const s of [t.title, ...t.axes, ...t.legend, ...t.ticks]) {
+        if (/\bu[VMA]\b|\(C\)|\d C\b/.test(s)) bad.push(`${f.name}: ASCII unit in "${s}"`);
+        if (/[a-z]_[a-z]/i.test(s)) bad.push(`${f.name}: identifier in "${s}"`);
+      }
+      // every y title of a measured quantity carries a unit in parentheses (fractions and counts excepted)
+      for (const a of t.axes)
+        if (!/\(.+\)|fraction|number|class|group|epoch|preparation/i.test(a)) bad.push(`${f.name}: no unit in "${a}"`);
+    }
+    expect(bad).toEqual([]);
+  });
+  it('titles and axis titles in sentence case', () => {
+    for (const f of figs)
+      for (const s of [texts(f).title, ...texts(f).axes]) if (s) expect(s[0], f.name).toMatch(/[A-Z0-9]/);
+  });
+  it('fits and shaded bands are named in the legend', () => {
+    for (const f of figs) {
+      const data = f.spec.data as (Trace & { fill?: string })[];
+      const hidden = data.filter((t) => t.showlegend === false);
+      const L = legendNames(f).join(' | ');
+      if (hidden.some((t) => /fit/i.test(t.name ?? '') && /lines/.test(t.mode ?? '')))
+        expect(L, f.name).toMatch(/fit/i);
+      if (data.some((t) => t.fill === 'toself')) expect(L, f.name).toMatch(/CI|band/);
+    }
+  });
+  it('paired-pulse recovery: one colour per class, the legend says what the colours, lines and marks are', () => {
+    for (const f of figs.filter((x) => /paired-pulse/.test(x.name))) {
+      const data = f.spec.data as (Trace & { marker?: { color?: string }; line?: { color?: string } })[];
+      const byClass = new Map<string, Set<string>>();
+      for (const t of data.filter((t) => t.showlegend === false)) {
+        const cls = /^(A-alpha\/beta|A-delta|C)\b/.exec(t.name ?? '')?.[1];
+        if (!cls) continue;
+        if (!byClass.has(cls)) byClass.set(cls, new Set());
+        byClass.get(cls)!.add(t.marker?.color ?? t.line?.color ?? '');
+      }
+      expect(byClass.size, f.name).toBe(3);
+      for (const [cls, cs] of byClass) expect([cls, cs.size]).toEqual([cls, 1]);
+      expect(new Set([...byClass.values()].map((s) => [...s][0])).size).toBe(3);
+      const L = legendNames(f);
+      expect(L.length, f.name).toBeLessThanOrEqual(6); // was 18 entries: one per class, preparation and mark
+      expect(L.join(' | ')).toMatch(/Logistic fit, one per preparation/);
+      expect(L.join(' | ')).toMatch(/Absolute refractory period/);
+      expect(L.filter((n) => /R<sub>50<\/sub>/.test(n))).toHaveLength(3);
+    }
+  });
+  it('the group figure names its groups under the x axis (one tick label per group, at the group)', () => {
+    for (const f of figs.filter((x) => /groups/.test(x.name))) {
+      const xa = (f.spec.layout as L).xaxis as { tickvals: number[]; ticktext: string[] };
+      expect(xa.ticktext.length, f.name).toBe(xa.tickvals.length);
+      expect(xa.ticktext.every((t) => t.length > 0)).toBe(true);
+      expect(xa.ticktext.length).toBeGreaterThanOrEqual(2);
+    }
+  });
+  it('class colours are the same in every figure (the summary orders classes fast to slow)', () => {
+    for (const f of figs.filter((x) => /summary/.test(x.name))) {
+      const first = (f.spec.data as Trace[])[0] as { x: string[]; marker: { color: string } };
+      expect([first.x[0], first.marker.color]).toEqual(['A-alpha/beta', PALETTE[0]]);
+    }
   });
 });
