@@ -4,7 +4,7 @@ import { doseResponse as fitDoseResponse, type DoseResponseResult } from '../ana
 import type { Flag } from '../report/pipeline';
 import { doseResponseFigure } from '../plot/builders';
 import { REFERENCES } from './references';
-import { flagsFrom, failed, finiteCount } from './shared';
+import { flagsFrom, failed, finiteCount, measureWords } from './shared';
 import type { AnalysisEntry, Row } from './types';
 
 /** Flags of a dose-response result (summary and per-preparation rows). */
@@ -31,20 +31,36 @@ function doseSentence(step: Step) {
           'their own baseline'
         : '';
   const bottom = o.fixBottom === null ? ' and the bottom free' : ` and the bottom fixed at ${o.fixBottom}`;
+  // the top as the run fitted it (model: "top fitted with the baseline as a point" unless freeTop: false)
+  const top = /top fitted/.test(String(o.model ?? ''))
+    ? 'the top asymptote fitted (between 0.5 and 1.5 of the baseline, the baseline itself one point of the curve)'
+    : 'the top fixed at 1';
+  const below =
+    o.belowDetection === true
+      ? ', and, for a class detected in the drug-free sweeps of that site and separated by its window (not by the ' +
+        'velocity decomposition), also the sweeps in which it fell below the detection level (there the ' +
+        'least-squares amplitude stays unbiased, near 0 with its noise)'
+      : '';
+  const shift =
+    typeof o.maxLatencyShift === 'number'
+      ? `; sweeps whose peak latency differed by more than ${100 * o.maxLatencyShift}% from the mean drug-free ` +
+        'peak latency of their preparation, site and class (not the same wave) were left out and counted'
+      : '';
   const boot = o.bootstrap ? ` and a bootstrap interval over preparations (${o.bootstrap} resamples)` : '';
   return {
     text:
-      'For dose-response analysis only sweeps in which the class was measured were used (others left out and ' +
-      `counted; a curve with fewer than ${o.minConcentrations ?? 4} measured concentrations was reported as not ` +
-      'detected, and the bottom was fixed at 0 when the class was not measured at the highest concentrations), ' +
-      `${o.poolSites ? 'pooling all recording sites' : 'one curve per recording site'}. The steady-state response ` +
-      `at each concentration (mean of the last ${o.lastN} sweeps, or of all when there were fewer) was normalised ` +
-      `to the preparation's own pre-drug baseline${runDown}, and fitted per preparation and class with the ` +
-      `four-parameter log-logistic (Hill) model (Hill 1910; Ritz et al. 2015) with the top fixed at 1${bottom}, by ` +
-      'the Levenberg-Marquardt method. IC50 values were combined across preparations as the mean of log10 IC50 ' +
-      'with a t-based 95% confidence interval (preparations, not sweeps, as replicates); a pooled fit over all ' +
-      `preparations gave a profile-likelihood interval (Bates & Watts 1988)${boot}. Classes were compared with the ` +
-      'extra-sum-of-squares F test of a shared IC50.',
+      `Dose-response analysis used ${measureWords(o.measure)} in the sweeps in which the class was measured` +
+      `${below} (others, such as sweeps in which a class was not resolved, were left out and counted)${shift}; a ` +
+      `curve with fewer than ${o.minConcentrations ?? 4} measured concentrations was reported as not detected, and ` +
+      'the bottom was fixed at 0 when the class was not measured at the highest concentrations; ' +
+      `${o.poolSites ? 'all recording sites were pooled into one curve' : 'one curve was fitted per recording site'}. ` +
+      `The steady-state response at each concentration (mean of the last ${o.lastN} sweeps, or of all when there ` +
+      `were fewer) was normalised to the preparation's own pre-drug baseline${runDown}, and fitted per preparation ` +
+      `and class with the four-parameter log-logistic (Hill) model (Hill 1910; Ritz et al. 2015) with ${top}` +
+      `${bottom}, by the Levenberg-Marquardt method. IC50 values were combined across preparations as the mean of ` +
+      'log10 IC50 with a t-based 95% confidence interval (preparations, not sweeps, as replicates); a pooled fit ' +
+      `over all preparations gave a profile-likelihood interval (Bates & Watts 1988)${boot}. Classes were compared ` +
+      'with the extra-sum-of-squares F test of a shared IC50.',
     refs: [REFERENCES.hill, REFERENCES.drc, REFERENCES.lm, REFERENCES.bates],
   };
 }

@@ -4,7 +4,7 @@ import { recruitmentDefaults, type RecruitmentResult } from '../analysis/recruit
 import { recruitmentFigure } from '../plot/builders';
 import { VERSION } from '../version';
 import { REFERENCES } from './references';
-import { flagsFrom, failed, hasSeries, finiteCount, say } from './shared';
+import { flagsFrom, failed, hasSeries, finiteCount, say, measureWords } from './shared';
 import type { AnalysisEntry, Row } from './types';
 
 export interface RecruitmentOutput {
@@ -34,13 +34,15 @@ function recruitmentSentence(step: Step) {
   const o = step.options as Record<string, unknown>;
   return {
     text:
-      'Recruitment curves (component amplitude against stimulus intensity) were fitted, per preparation, recording ' +
-      'site and class, to the sweeps in which the class was measured (sweeps where it was not detected, and ' +
-      'intensities of 0 or below, were left out and counted; the floor was fixed at 0 when the class was not ' +
+      `Recruitment curves (${measureWords(o.measure)} against stimulus intensity) were fitted, per preparation, ` +
+      'recording site and class, to the sweeps in which the class was measured (sweeps where it was not detected, ' +
+      'and intensities of 0 or below, were left out and counted; the floor was fixed at 0 when the class was not ' +
       `detected at lower intensities; a class measured at fewer than ${o.minLevels ?? 4} intensities was reported ` +
       'as not detected), with a Boltzmann sigmoid in log10 intensity by the Levenberg-Marquardt method (Marquardt ' +
-      `1963); the threshold was taken where the fit reaches ${100 * (o.thresholdFraction as number)}% of its range ` +
-      `and the supramaximal intensity as ${o.supramaximalFactor} times the intensity reaching 95% of the maximum.`,
+      `1963); the fitted threshold was taken where the fit reaches ${100 * (o.thresholdFraction as number)}% of ` +
+      `its range and the supramaximal intensity as ${o.supramaximalFactor} times the intensity reaching 95% of the ` +
+      'maximum. Separately from the fit, the lowest intensity at which a class was detected in at least half of ' +
+      'the sweeps was reported as its lowest detected intensity.',
     refs: [REFERENCES.lm],
   };
 }

@@ -113,3 +113,18 @@ export function requireObject(name: string, v: unknown, what: string): void {
   if (v === null || typeof v !== 'object' || Array.isArray(v))
     throw new OptionError(`invalid ${name}: ${JSON.stringify(v)}; must be ${what}`);
 }
+
+/**
+ * A response column in words for a methods sentence: `amplitude_fit_uV` the least-squares amplitude, `amplitude_uV`
+ * the peak amplitude, `area_uV_ms` the area, `peak_to_peak_uV` the peak-to-peak amplitude; any other column by name.
+ */
+export function measureWords(measure: unknown): string {
+  const m = String(measure ?? '');
+  if (/^amplitude_fit_/.test(m))
+    return "the least-squares amplitude of each class's component (its projection on the class's reference waveform)";
+  if (/^amplitude_/.test(m)) return "the peak amplitude of each class's component";
+  if (/^rectified_area_/.test(m)) return "the rectified area of each class's component";
+  if (/^area_/.test(m)) return "the area of each class's component";
+  if (/^peak_to_peak_/.test(m)) return "the peak-to-peak amplitude of each class's component";
+  return `the column ${m}`;
+}

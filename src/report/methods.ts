@@ -17,7 +17,7 @@ const REFS: Record<string, string> = {
     'IEEE Trans Signal Process 44:988-992.',
   mad: 'Rousseeuw PJ, Croux C (1993) Alternatives to the median absolute deviation. J Am Stat Assoc 88:1273-1283.',
   classes:
-    'Erlanger-Gasser fiber classes as tabulated by J. A. Kiernan (table of nerve fibre types, ' +
+    'Erlanger-Gasser fibre classes as tabulated by J. A. Kiernan (table of nerve fibre types, ' +
     'University of Western Ontario).',
   // authors, year and pages from memory (REFERENCES.md lists the values, not the full citation)
   lowitzsch:
@@ -68,6 +68,12 @@ export interface MethodsContext {
   preparationTypes?: string[];
   /** 'monopolar' and/or 'bipolar' */
   configurations?: string[];
+  /** conduction distances (mm) of the measured sweeps */
+  distancesMm?: number[];
+  /** stimulus pulse widths (ms) of the measured sweeps */
+  pulseWidthsMs?: number[];
+  /** sweeps removed by sweep QC before measuring */
+  removedByQc?: number;
 }
 
 const fmtW = (w: unknown) => (Array.isArray(w) ? `${w[0]} to ${w[1]} ms` : String(w));
@@ -109,10 +115,27 @@ function recordingSentence(x: MethodsContext): string {
     parts.push('treated as monopolar recordings (no reference-contact distance was given)');
   else if (conf.length > 1)
     parts.push('treated as bipolar where a reference-contact distance was given, else as monopolar');
+  const num = (v: number) => String(Number(v.toPrecision(6)));
+  if (x.distancesMm?.length)
+    parts.push(
+      `recorded at ${x.distancesMm.length === 1 ? 'a conduction distance' : 'conduction distances'} of ` +
+        `${list(x.distancesMm.map(num))} mm from the stimulating electrode`,
+    );
+  if (x.pulseWidthsMs?.length) {
+    const w = list(x.pulseWidthsMs.map(num));
+    parts.push(x.pulseWidthsMs.length === 1 ? `evoked by ${w} ms stimulus pulses` : `evoked by pulses ${w} ms wide`);
+  }
   let counts = '';
   if (x.sweeps !== undefined) {
     counts = `${plural(x.sweeps, 'sweep')} were analysed`;
-    if (x.measured !== undefined && x.measured !== x.sweeps) counts += ` (${x.measured} after averaging and QC)`;
+    const removed = x.removedByQc ?? 0;
+    if (x.measured !== undefined && x.measured !== x.sweeps) {
+      const steps = [
+        removed > 0 ? `removing ${removed} flagged by QC` : '',
+        x.measured < x.sweeps - removed ? 'averaging repeats' : '',
+      ].filter(Boolean);
+      counts += ` (${x.measured} measured after ${steps.join(' and ') || 'QC'})`;
+    }
   }
   if (!parts.length && !counts) return '';
   const how = parts.length ? `Responses were ${list(parts)}` : '';
@@ -167,7 +190,7 @@ function componentsSentences(o: Record<string, any>, x: MethodsContext, refs: Se
         'times the noise, with z the normal quantile at 1 - 0.01/N for a window of N samples (this test decides ' +
         `detection only). ${latencySentence(o)}`;
   out.push(
-    'Fiber-class components were identified in latency windows computed from the conduction distance and the ' +
+    'Fibre-class components were identified in latency windows computed from the conduction distance and the ' +
       `velocity ranges of each class (${cls}; ${cite?.ranges ?? o.presetSource})${temp.text}, with a utilisation ` +
       `time of ${o.utilisationMs} ms; each window's late end was extended by ${o.tailFraction} of its width (at ` +
       `least ${o.tailMs} ms). Noise was estimated as 1.4826 times the median absolute deviation of ` +

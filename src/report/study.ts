@@ -46,9 +46,16 @@ export interface Recording {
   preparationTypes: string[];
   /** recording configurations: 'bipolar' (a reference contact distance given), else 'monopolar' */
   configurations: string[];
+  /** distinct conduction distances (mm) of the measured sweeps; [] when none was given */
+  distancesMm?: number[];
+  /** distinct stimulus pulse widths (ms) of the measured sweeps; [] when none was given */
+  pulseWidthsMs?: number[];
+  /** sweeps removed by sweep QC before measuring (0 when flagged sweeps were kept) */
+  removedByQc?: number;
 }
 
 const distinct = <T>(xs: T[]): T[] => [...new Set(xs)].sort();
+const distinctNumbers = (xs: number[]): number[] => [...new Set(xs)].sort((a, b) => a - b);
 
 /** The recording of one preparation's sweeps (the set given, and the measured one). */
 function recordingOf(input: SweepSet, measured: SweepSet, o: PipelineOptions): Recording {
@@ -57,6 +64,12 @@ function recordingOf(input: SweepSet, measured: SweepSet, o: PipelineOptions): R
   const types = input.conditions.map((c) => c.preparationType).filter((t): t is string => typeof t === 'string');
   const bipolar = (c: Record<string, ConditionValue>) =>
     typeof c.referenceDistanceMm === 'number' || typeof o.components?.referenceDistanceMm === 'number';
+  const numbers = (k: string) =>
+    distinctNumbers(measured.conditions.map((c) => c[k]).filter((v): v is number => typeof v === 'number'));
+  const fixedMm = o.components?.distanceMm;
+  // the sweeps averaged came after QC removal: what is missing before them was removed
+  const avg = measured.history.find((h) => h.verb === 'averageRepeats')?.options.sweeps;
+  const beforeAveraging = typeof avg === 'number' ? avg : measured.nSweeps;
   return {
     sampleRatesHz: [input.fs],
     sweeps: input.nSweeps,
@@ -64,6 +77,9 @@ function recordingOf(input: SweepSet, measured: SweepSet, o: PipelineOptions): R
     temperaturesC: typeof fixed === 'number' ? [fixed] : distinct(temps),
     preparationTypes: distinct(types),
     configurations: distinct(measured.conditions.map((c) => (bipolar(c) ? 'bipolar' : 'monopolar'))),
+    distancesMm: typeof fixedMm === 'number' ? [fixedMm] : numbers('distanceMm'),
+    pulseWidthsMs: numbers('pulseWidthMs'),
+    removedByQc: Math.max(0, input.nSweeps - beforeAveraging),
   };
 }
 
@@ -78,6 +94,9 @@ function studyRecording(ps: readonly PrepOutput[]): Recording | undefined {
     temperaturesC: distinct(rs.flatMap((r) => r.temperaturesC)),
     preparationTypes: distinct(rs.flatMap((r) => r.preparationTypes)),
     configurations: distinct(rs.flatMap((r) => r.configurations)),
+    distancesMm: distinctNumbers(rs.flatMap((r) => r.distancesMm ?? [])),
+    pulseWidthsMs: distinctNumbers(rs.flatMap((r) => r.pulseWidthsMs ?? [])),
+    removedByQc: rs.reduce((n, r) => n + (r.removedByQc ?? 0), 0),
   };
 }
 

@@ -93,10 +93,10 @@ describe('methodsText against the run it describes', () => {
   });
 
   it('states the sampling rate, the sweep counts and averaging, and the recording configuration', () => {
-    expect(withTemps.text).toMatch(/Responses were sampled at 50 kHz and treated as monopolar recordings/);
+    expect(withTemps.text).toMatch(/Responses were sampled at 50 kHz, treated as monopolar recordings/);
     // 8 sweeps: 2 temperatures x 2 distances x 2 repeats, averaged into 4 (one per condition)
     expect(withTemps.study.recording).toMatchObject({ sampleRatesHz: [50000], sweeps: 8, measured: 4 });
-    expect(withTemps.text).toMatch(/8 sweeps were analysed \(4 after averaging and QC\)/);
+    expect(withTemps.text).toMatch(/8 sweeps were analysed \(4 measured after averaging repeats\)/);
     expect(withTemps.text).toMatch(/averaged \(mean\) before measuring \(8 sweeps into 4\)/);
     const bipolar = methodsText([{ verb: 'readManifest', options: { files: 2 }, version: '0' }], {
       sampleRatesHz: [20000, 50000],
