@@ -107,6 +107,11 @@ export interface VelocityDistributionOptions {
    * with the artifact modelled as decays from there, see artifactTauMs)
    */
   fitWindow?: [number, number];
+  /**
+   * end of each distance's fit: 'slowest-arrival' (default: t_u + x / v_min + the potential's length, at most the end
+   * of fitWindow, so that waves slower than the grid seen at the nearer distances only are not fitted) or 'window'
+   */
+  fitEnd?: 'slowest-arrival' | 'window';
   /** per-distance fit start, ms, e.g. { 15: 0.45 } (overrides fitWindow[0] at that distance) */
   fitStartByDistance?: Record<string, number>;
   /** 'estimate' (default) or a given potential: samples at dtMs from t0Ms (ms, relative to the arrival x / v) */
@@ -179,6 +184,7 @@ export const velocityDistributionDefaults = {
   method: 'decomposition' as const,
   nVelocities: 60,
   fitWindowStart: 'detected' as const,
+  fitEnd: 'slowest-arrival' as const,
   sfpRefine: true,
   support: 'gcv' as const,
   humHz: [] as number[],
@@ -208,6 +214,7 @@ export const VDIST_OPTION_KEYS = [
   'nVelocities',
   'fitWindow',
   'fitStartByDistance',
+  'fitEnd',
   'sfp',
   'sfpWindow',
   'sfpSmoothing',
@@ -419,6 +426,12 @@ export function methodsSentence(o: Record<string, unknown>): [string, string[]] 
       ' The support of the distribution (the grid bins allowed to be non-zero, ' +
       `${fmt((o.supportM_s as number[])[0])} to ${fmt((o.supportM_s as number[])[1])} m/s) was chosen by ` +
       'generalised cross-validation, trimming bins from either end.';
+  if (o.fitEnd === 'slowest-arrival')
+    s +=
+      " Each distance was fitted up to the end of the slowest grid velocity's potential there (t_u + x/v_min + its " +
+      `length; ${Object.entries(o.fitEndMs as Record<string, number>)
+        .map(([k, x]) => `${k} ${fmt(x)} ms`)
+        .join(', ')}), so that waves slower than the grid, seen only at the nearer distances, were not fitted.`;
   if (o.fitStart === 'detected')
     s +=
       ' Each distance was fitted from its first usable sample after the stimulus (after the pulse and any clipped ' +
@@ -570,6 +583,7 @@ function validate(o: VelocityDistributionOptions): void {
   }
   if (o.sfpWindow !== undefined) windowMs('sfpWindow', o.sfpWindow);
   if (o.sfpModel !== undefined) oneOf('sfpModel', o.sfpModel, ['two-phase', 'free']);
+  if (o.fitEnd !== undefined) oneOf('fitEnd', o.fitEnd, ['slowest-arrival', 'window']);
   if (o.support !== undefined) oneOf('support', o.support, ['gcv', 'grid']);
   if (o.sfpRefine !== undefined && typeof o.sfpRefine !== 'boolean')
     throw new OptionError(`invalid sfpRefine: ${shown(o.sfpRefine)}; must be true or false`);
@@ -776,13 +790,31 @@ export function velocityDistribution(
   const v = velocityGrid(distances, fit, tu, K, options.velocityRange, starts);
   const vRef = options.referenceVelocity ?? Math.sqrt(v[0] * v[K - 1]);
   const model: Model = { v, vRef, q, bipolarMm: bip, utilisationMs: tu };
+  const W = fit[1] - fit[0];
+  const sw = options.sfpWindow ?? [D.sfpWindowFraction[0] * W, D.sfpWindowFraction[1] * W];
+  // each distance is fitted only as long as a grid velocity's potential can still be there: to t_u + x / v_min + the
+  // potential's length (its support, stretched as v^-q at v_min). Later samples at the nearer distances hold waves
+  // slower than the grid (at the far distance they arrive after the window), which the grid would take up as
+  // spurious slow mass (e.g. the C wave at the end of a short sweep at the nearer electrode)
+  const fitEnd = options.fitEnd ?? D.fitEnd;
+  if (method === 'decomposition' && fitEnd === 'slowest-arrival') {
+    const sfpEnd = sfpGiven ? sfpGiven.t0Ms + (sfpGiven.samples.length - 1) * sfpGiven.dtMs : sw[1];
+    const stretch = Math.pow(v[0] / vRef, -q);
+    blocks.forEach((bl, i) => {
+      const tEnd = tu + (bl.distanceMm + bip) / v[0] + Math.max(sfpEnd, 0) * stretch;
+      let m = bl.t.length;
+      while (m > 11 && bl.t[m - 1] > tEnd + 1e-9) m--;
+      if (m === bl.t.length) return;
+      bl.t = bl.t.slice(0, m);
+      bl.y = bl.y.slice(0, m);
+      prep.perSweep[i] = prep.perSweep[i].map((x) => x.slice(0, m));
+    });
+  }
   const bases = blocks.map((bl, i) => nuisanceBasis(bl.t, bl.sigma, driftDeg, tausBy[i], [], bl.t[0]));
   const nNuis = bases.reduce((s, b) => s + b.length, 0);
   const nRows = blocks.reduce((s, b) => s + b.t.length, 0);
   const b = dataVector(blocks, bases);
   const R = secondDifferencePenalty(K);
-  const W = fit[1] - fit[0];
-  const sw = options.sfpWindow ?? [D.sfpWindowFraction[0] * W, D.sfpWindowFraction[1] * W];
   const h = Math.max(set.dtMs, (sw[1] - sw[0]) / 200);
   const J = Math.floor((sw[1] - sw[0]) / h) + 1;
   const smoothing = options.sfpSmoothing ?? D.sfpSmoothing;
@@ -1259,6 +1291,10 @@ export function velocityDistribution(
       support: supportOpt,
       supportM_s: [Number(v[lo].toPrecision(4)), Number(v[hi - 1].toPrecision(4))],
       sfpShape: shape ? Object.fromEntries(Object.entries(shape).map(([k, x]) => [k, Number(x.toPrecision(4))])) : null,
+      fitEnd: method === 'decomposition' ? fitEnd : 'window',
+      fitEndMs: Object.fromEntries(
+        blocks.map((bl) => [`${fmt(bl.distanceMm)} mm`, Number(bl.t[bl.t.length - 1].toPrecision(6))]),
+      ),
       fitStartMs: Object.fromEntries(distances.map((d, i) => [`${fmt(d)} mm`, Number(starts[i].toPrecision(6))])),
       fitStart: autoStart ? 'detected' : 'given',
       amplitudeExponent: p,
