@@ -287,8 +287,9 @@ export interface OwnLatencies {
  * onsetFraction x peak walking backwards from the peak (the same definition at every
  * distance and noise level; 10% is common practice, no source); half-rise = the same at 50%;
  * centroid = sum(t y) / sum(y) over the span where y stays above centroidFraction x peak
- * around the peak, its bounds interpolated crossings of that level. The peak is searched in
- * y[a..b], the crossings in y[lo..hi] (lo <= a, hi >= b: a wave may start before its window).
+ * around the peak, its bounds interpolated crossings of that level refined by local quadratic regression
+ * (refineCrossing). The peak is searched in y[a..b], the crossings in y[lo..hi] (lo <= a, hi >= b: a wave may
+ * start before its window).
  * @example ownLatencies(Float64Array.from({ length: 41 }, (_, i) => Math.exp(-0.5 * ((i - 20) / 4) ** 2)), 0, 40).peakIndex // 20
  */
 export function ownLatencies(
@@ -437,7 +438,8 @@ export function refineCrossing(
   return c;
 }
 
-function solve3(A: number[], b: number[]): [number, number, number] | null {
+/** Solve a 3 x 3 system by Cramer's rule (null when singular). */
+export function solve3(A: number[], b: number[]): [number, number, number] | null {
   const det = (m: number[]) =>
     m[0] * (m[4] * m[8] - m[5] * m[7]) - m[1] * (m[3] * m[8] - m[5] * m[6]) + m[2] * (m[3] * m[7] - m[4] * m[6]);
   const D = det(A);
