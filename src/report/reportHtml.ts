@@ -107,9 +107,17 @@ function summaryHtml(study: Study, figures: readonly Figure[]): string {
   const flagText = t.flags.length
     ? [...sev].map(([k, n]) => `<span class="sev-${escapeHtml(anchor(k))}">${escapeHtml(k)}: ${n}</span>`).join(', ')
     : 'none';
+  // data files: the inputs that are not the manifest and not part of another file (a binary beside its sidecar)
+  const manifests = study.history.some((h) => h.verb === 'readManifest') && study.sources.length ? 1 : 0;
+  const dataFiles = study.sources.filter((x) => !x.partOf).length - manifests;
+  const inputs =
+    dataFiles === study.sources.length
+      ? plural(dataFiles, 'input file')
+      : `${plural(dataFiles, 'data file')} (${plural(study.sources.length, 'input file')} with the manifest and ` +
+        'the binary parts)';
   const items = [
     `${plural(preps.length, 'preparation')}: ${preps.map(escapeHtml).join(', ')}`,
-    `${plural(sweeps, 'sweep')} measured (after averaging repeats), ${plural(study.sources.length, 'input file')}`,
+    `${plural(sweeps, 'sweep')} measured (after averaging repeats), ${inputs}`,
     `fibre classes: ${classes.map(escapeHtml).join(', ') || 'none'}`,
     `signal unit: ${unit(study.units)}`,
     `${plural(study.computed, 'estimate')} computed; ${plural(figures.length, 'figure')}`,
@@ -118,17 +126,21 @@ function summaryHtml(study: Study, figures: readonly Figure[]): string {
   const head: string[] = [];
   const rec = t.velocity.filter((r) => r.recommended === true && r.preparation !== undefined);
   if (rec.length) {
-    const byClass = new Map<string, number[]>();
-    for (const r of rec)
-      if (typeof r.velocity_m_s === 'number' && r.status === 'ok') {
-        (byClass.get(String(r.class)) ?? byClass.set(String(r.class), []).get(String(r.class))!).push(r.velocity_m_s);
-      }
-    for (const [c, v] of byClass) {
+    // per class in the classes' order (fastest first), with the estimator and the conditions of the estimates
+    for (const c of classes) {
+      const ok = rec.filter((r) => String(r.class) === c && typeof r.velocity_m_s === 'number' && r.status === 'ok');
+      if (!ok.length) continue;
+      const v = ok.map((r) => r.velocity_m_s as number);
       const lo = Math.min(...v),
         hi = Math.max(...v);
+      const how = [...new Set(ok.map((r) => `${r.method} ${r.basis}`))].join(', ');
+      const temps = [...new Set(ok.map((r) => r.temperatureC).filter((x) => typeof x === 'number'))];
+      const at = temps.length ? ` at ${temps.join(', ')} °C` : '';
+      const nPreps = new Set(ok.map((r) => String(r.preparation))).size;
+      const range = hi > lo ? `${formatCell(lo)}-${formatCell(hi)} m/s (range` : `${formatCell(lo)} m/s (`;
       head.push(
-        `conduction velocity ${escapeHtml(c)}: ${formatCell(lo)}${hi > lo ? `-${formatCell(hi)}` : ''} m/s ` +
-          `(recommended estimator, ${plural(v.length, 'estimate')})`,
+        `conduction velocity ${escapeHtml(c)}${escapeHtml(at)}: ${range} over ${plural(nPreps, 'preparation')}, ` +
+          `${plural(v.length, 'estimate')}; ${escapeHtml(how)})`,
       );
     }
   }
@@ -157,11 +169,15 @@ function summaryHtml(study: Study, figures: readonly Figure[]): string {
 function perPreparationHtml(study: Study): string {
   const t = study.tables;
   const preps = [...new Set(t.components.map((r) => String(r.preparation ?? '')))].sort();
+  const classes = [...new Set(t.components.map((r) => String(r.class ?? '')))];
   const of = (rows: readonly Row[], p: string) => rows.filter((r) => String(r.preparation ?? '') === p);
   const parts: string[] = [];
   const named = (table: string, rows: Row[]) => bundleColumns(table, rows as never, studyColumnUnits(study));
   for (const p of preps) {
-    const v = of(t.velocity, p).filter((r) => r.recommended === true);
+    // the classes in their order (fastest first), as in the component table
+    const v = of(t.velocity, p)
+      .filter((r) => r.recommended === true)
+      .sort((a, b) => classes.indexOf(String(a.class)) - classes.indexOf(String(b.class)));
     const rc = of(t.recruitment, p);
     const dr = of(t.dose_response_per_preparation, p);
     const fl = of(t.flags, p);

@@ -1,6 +1,7 @@
 import { describe, it, expect } from 'vitest';
 import { intervalText, summaryLines, siteText, referenceLookup } from '../../src/report/summary';
 import type { Study } from '../../src/report/study';
+import { reportHtml } from '../../src/report/reportHtml';
 
 // Wording of the command line's result lines (and report.html's "Main results"); the rows are shaped like the
 // study tables (API keys). Numbers are arbitrary: the test is about the words around them.
@@ -93,5 +94,70 @@ describe('summaryLines', () => {
     expect(siteText({ preparation: 'P1', distanceMm: 15 }, ref)).toBe(' at bipolar 15-25 mm');
     expect(siteText({ preparation: 'P2', distanceMm: 15 }, ref)).toBe(' at 15 mm');
     expect(siteText({ class: 'C' }, ref)).toBe('');
+  });
+});
+
+describe('report.html main results', () => {
+  const row = (prep: string, cls: string, v: number, method: string, basis: string) => ({
+    preparation: prep,
+    class: cls,
+    recommended: true,
+    method,
+    basis,
+    temperatureC: 37,
+    velocity_m_s: v,
+    status: 'ok',
+  });
+  // velocity rows in another order than the classes (A-delta first, as the velocity table lists them)
+  const tables = {
+    components: [
+      { preparation: 'R1', sweep: 0, class: 'A-alpha/beta', distanceMm: 20 },
+      { preparation: 'R1', sweep: 0, class: 'A-delta', distanceMm: 20 },
+      { preparation: 'R1', sweep: 0, class: 'C', distanceMm: 20 },
+    ],
+    velocity: [
+      row('R1', 'A-delta', 19.07, 'two-site', 'xcorr'),
+      row('R2', 'A-delta', 21.87, 'two-site', 'xcorr'),
+      row('R1', 'A-alpha/beta', 76.9, 'regression', 'peak'),
+      row('R2', 'A-alpha/beta', 85.25, 'regression', 'peak'),
+    ],
+    dose_response_summary: [
+      { class: 'C', distanceMm: 20, ic50: 7.5, ic50_ci95_low: 5.6, ic50_ci95_high: null, concentrationUnit: 'uM' },
+    ],
+    temperature: [],
+    recruitment: [],
+    dose_response_per_preparation: [],
+    flags: [],
+  };
+  const study = {
+    tables,
+    history: [{ verb: 'readManifest', options: { study: 'S' }, version: '0' }],
+    sources: [
+      { path: 'manifest.json' },
+      { path: 'R1.csv' },
+      { path: 'R1-blocker.json' },
+      { path: 'R1-blocker.bin', partOf: 'R1-blocker.json' },
+    ],
+    notes: [],
+    units: 'uV',
+    computed: 5,
+  } as unknown as Study;
+  const html = reportHtml({ study, methods: 'm', provenance: { inputs: [], steps: [] } as never, figures: [] });
+  const main = html.slice(html.indexOf('<h3>Main results</h3>'), html.indexOf('</ul>', html.indexOf('Main results')));
+  it('velocities in the classes order, with their estimator, temperature and number of preparations', () => {
+    const a = main.indexOf('conduction velocity A-alpha/beta'),
+      d = main.indexOf('conduction velocity A-delta');
+    expect(a).toBeGreaterThan(-1);
+    expect(d).toBeGreaterThan(a);
+    expect(main).toContain(
+      'conduction velocity A-alpha/beta at 37 °C: 76.9-85.25 m/s (range over 2 preparations, 2 estimates; ' +
+        'regression peak)',
+    );
+  });
+  it('an IC50 names its site and a missing bound in words', () => {
+    expect(main).toContain('IC<sub>50</sub> C at 20 mm: 7.5 µM (95% CI from 5.6, not bounded above)');
+  });
+  it('counts the data files as the methods text does (not the manifest and binary parts)', () => {
+    expect(html).toContain('2 data files (4 input files with the manifest and the binary parts)');
   });
 });
