@@ -2,7 +2,7 @@ import { runSweeps, shareCopy, sharedSamples } from '../parallel/pool';
 import type { SampleView, VerbOutput } from './types';
 import { AnalysisError, OptionError } from '../errors';
 import type { SineParts } from '../signal/sinefit';
-import { cholesky, invertSpd, normalEquations, symmetricEigenvalues } from '../signal/linalg';
+import { cholesky, invertSpd, symmetricEigenvalues } from '../signal/linalg';
 import { checkKeys, integerIn, shown } from '../validate';
 import { carryBaseline, type BaselineFit } from './baseline';
 
@@ -146,13 +146,15 @@ export function humDesign(
     } else for (let j = 0; j < p; j++) for (let l = 0; l <= j; l++) Z[j][l] += row[j] * row[l];
   }
   for (const c of X) project(Q, c);
-  const G = Array.from({ length: p }, (_, j) =>
-    Array.from({ length: p }, (_, l) => {
+  const G = Array.from({ length: p }, () => new Array<number>(p).fill(0));
+  for (let j = 0; j < p; j++)
+    for (let l = 0; l <= j; l++) {
+      const u = X[j],
+        v = X[l];
       let s = 0;
-      for (let q = 0; q < m; q++) s += X[j][q] * X[l][q];
-      return s;
-    }),
-  );
+      for (let q = 0; q < m; q++) s += u[q] * v[q];
+      G[j][l] = G[l][j] = s;
+    }
   for (let j = 0; j < p; j++) for (let l = 0; l < j; l++) Z[l][j] = Z[j][l];
   const excluded = n - m;
   const d = G.map((r, j) => Math.sqrt(Math.max(r[j], 0)));
@@ -184,13 +186,19 @@ export function humDesign(
     } else condition = Infinity;
   }
   // the kernel's design: a constant (orthogonal to the residualised columns), then the cos/sin pairs
-  const cols = new Float64Array((p + 1) * m);
-  cols.fill(1, 0, m);
-  X.forEach((c, j) => cols.set(c, (j + 1) * m));
-  const ne = normalEquations(Array.from({ length: p + 1 }, (_, j) => cols.subarray(j * m, (j + 1) * m)));
+  // (the search designs, fitOnly, need neither: they only give residuals). The residualised columns are
+  // orthogonal to the constant, so the scaled normal matrix is G scaled, bordered by the constant's 1.
+  const cols = new Float64Array(fitOnly ? 0 : (p + 1) * m);
+  if (!fitOnly) {
+    cols.fill(1, 0, m);
+    X.forEach((c, j) => cols.set(c, (j + 1) * m));
+  }
+  const scale = Float64Array.from({ length: p + 1 }, (_, j) => (j === 0 ? Math.sqrt(m) : d[j - 1] || 1));
   const A0 = new Float64Array((p + 1) * (p + 1));
-  ne.A0.forEach((r, j) => A0.set(r, j * (p + 1)));
-  const parts: SineParts = { idx, cols, full, A0, scale: Float64Array.from(ne.scale), p: p + 1, m, n };
+  A0[0] = 1;
+  for (let j = 0; j < p; j++)
+    for (let l = 0; l < p; l++) A0[(j + 1) * (p + 1) + l + 1] = G[j][l] / (scale[j + 1] * scale[l + 1]);
+  const parts: SineParts = { idx, cols, full, A0, scale, p: p + 1, m, n };
   const Ginv = invertSpd(G);
   const y = new Float64Array(m);
   const xty = new Float64Array(p);
@@ -434,7 +442,7 @@ export function removeHumSamples(set: SampleView, options: HumOptions = {}): Ver
     const f0 = rssAt(50) <= rssAt(60) ? 50 : 60;
     // a grid fine enough that the highest harmonic's residual has one minimum between grid points
     // (spacing a quarter of 1 / (H x sweep duration)), then a golden-section search around the best point
-    const step = Math.max(2 / 200, Math.min(0.1, 1000 / (4 * H * set.durationMs)));
+    const step = Math.max(2 / 200, Math.min(0.25, 1000 / (4 * H * set.durationMs)));
     let best = f0,
       bestR = Infinity;
     for (let fr = f0 - 1; fr <= f0 + 1 + 1e-9; fr += step) {
@@ -448,7 +456,9 @@ export function removeHumSamples(set: SampleView, options: HumOptions = {}): Ver
       x2 = lo + g * (hi - lo);
     let f1 = rssAt(x1),
       f2 = rssAt(x2);
-    for (let it = 0; it < 20; it++) {
+    // 14 steps shrink the bracket to 2 x step x 0.618^14 (6e-4 Hz for a 0.25 Hz grid: 3e-3 of a cycle of the
+    // 5th harmonic over a 1 s sweep)
+    for (let it = 0; it < 14; it++) {
       if (f1 < f2) {
         hi = x2;
         x2 = x1;
