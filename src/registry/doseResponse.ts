@@ -50,7 +50,7 @@ function doseSentence(step: Step) {
   return {
     text:
       `Dose-response analysis used ${measureWords(o.measure)} in the sweeps in which the class was measured` +
-      `${below} (others, such as sweeps in which a class was not resolved, were left out and counted)${shift}; a ` +
+      `${below}; other sweeps, such as those in which a class was not resolved, were left out and counted${shift}; a ` +
       `curve with fewer than ${o.minConcentrations ?? 4} measured concentrations was reported as not detected, and ` +
       'the bottom was fixed at 0 when the class was not measured at the highest concentrations; ' +
       `${o.poolSites ? 'all recording sites were pooled into one curve' : 'one curve was fitted per recording site'}. ` +

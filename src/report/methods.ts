@@ -285,7 +285,12 @@ export function methodsText(history: readonly Step[], extra: MethodsContext = {}
         s.push(`A second-order IIR notch at ${o.frequency} Hz (Q = ${o.Q}) was applied forwards and backwards.`);
         break;
       case 'filter': {
-        const cut = Array.isArray(o.cutoff) ? `${o.cutoff[0]}-${o.cutoff[1]} Hz` : `${o.cutoff} Hz`;
+        // in kHz from 1 kHz on (10000 Hz reads "10 kHz"); a band in the unit of its upper edge
+        const cut = Array.isArray(o.cutoff)
+          ? o.cutoff[1] >= 1000
+            ? `${Number((o.cutoff[0] / 1000).toPrecision(6))}-${khz(o.cutoff[1])}`
+            : `${o.cutoff[0]}-${o.cutoff[1]} Hz`
+          : khz(o.cutoff);
         const kind =
           o.btype === 'lowpass'
             ? 'low-pass'

@@ -67,7 +67,7 @@ describe('fascicle command line', () => {
       expect.arrayContaining(['readManifest', 'baseline', 'removeArtifact', 'removeHum', 'filter', 'components']),
     );
     const methods = readFileSync(join(full, 'methods.txt'), 'utf8');
-    expect(methods).toMatch(/4th-order Butterworth filter \(cutoff 10000 Hz/);
+    expect(methods).toMatch(/4th-order Butterworth filter \(cutoff 10 kHz/);
     expect(methods).toMatch(/zero phase/);
     expect(methods).toMatch(/Hill 1910/);
   }, 300_000);
@@ -195,7 +195,7 @@ describe('results describe themselves', () => {
     ]);
     expect(p.steps[3].options).toMatchObject({ btype: 'lowpass', cutoff: 8000, order: 4, padlen: 15 });
     const m = v.methods();
-    expect(m).toMatch(/4th-order Butterworth filter \(cutoff 8000 Hz/);
+    expect(m).toMatch(/4th-order Butterworth filter \(cutoff 8 kHz/);
     expect(m).not.toMatch(/removeArtifact|lowpass\(/);
     const dir = join(work, 'table-bundle');
     t.exportBundle(dir);

@@ -97,3 +97,16 @@ describe('the recording, recruitment and thresholds sentences of a simulated int
     expect(text).not.toMatch(/Fiber-class/);
   });
 });
+
+describe('the filter sentence', () => {
+  it('gives cut-offs from 1 kHz on in kHz (10000 Hz reads 10 kHz), a band in the unit of its upper edge', () => {
+    const m0 = rodentSciatic();
+    const model = { ...m0, populations: [{ ...m0.populations[0], count: 50 }] };
+    const sweeps = [{ intensity: 20, distanceMm: 20, temperatureC: 37, concentration: 0, pulsesMs: [0] }];
+    const set = simulateNerve({ model, seed: 2, grid: { fs: 50000, t0Ms: -3, nSamples: 600 }, sweeps });
+    const low = set.filter({ btype: 'lowpass', cutoff: 10000, order: 4 });
+    const band = set.filter({ btype: 'bandpass', cutoff: [300, 3000], order: 2 });
+    expect(methodsText(low.history)).toMatch(/4th-order Butterworth filter \(cutoff 10 kHz;/);
+    expect(methodsText(band.history)).toMatch(/Butterworth filter \(cutoff 0\.3-3 kHz;/);
+  });
+});
