@@ -6,6 +6,12 @@ import { cholesky, invertSpd, symmetricEigenvalues } from '../signal/linalg';
 import { checkKeys, integerIn, shown } from '../validate';
 import { carryBaseline, type BaselineFit } from './baseline';
 
+/**
+ * Options of removeHum. The hum is fitted per sweep over the samples outside `exclude` and subtracted from the
+ * whole sweep; a slow drift is fitted with it (not subtracted), so the hum extrapolated over the response is
+ * not biased by the drift; after a baseline step (mean levels), the part of the baseline levels that came from
+ * the hum is given back, so baseline and hum removal give the same result in either order.
+ */
 export interface HumOptions {
   /** mains frequency in Hz, or 'detect' (default) to choose 50 or 60 Hz and refine it within +/-1 Hz from the data */
   frequency?: number | 'detect';
@@ -31,7 +37,7 @@ export const humDefaults = {
   drift: 'auto' as const,
 };
 /**
- * When a fit is refused (see humConditioning): the condition number of the fitted sinusoid
+ * When a fit is refused (HumDesign.condition and extrapolationGain): the condition number of the fitted sinusoid
  * columns, and the extrapolation gain (power per sample subtracted where the fit did not look,
  * over power per sample removed where it did). About 1 for both when the fitted samples span a
  * mains period or more; they grow steeply below three quarters of a period (common practice, no
