@@ -183,7 +183,7 @@ export interface ClipOptions {
    * sweep's own minimum and maximum); a sweep extreme further than 1% of the rail from it is not on the rail
    */
   rail?: [number, number];
-  /** shortest stretch on the rail that counts as clipping, ms (default 0.04; and at least 3 samples) */
+  /** shortest stretch on the rail that counts as clipping, ms (default 0.04; and at least 2 samples) */
   minRunMs?: number;
 }
 
@@ -242,7 +242,7 @@ function smoothTop(x: ArrayLike<number>, a: number, b: number, maxDev: number): 
 
 /**
  * End (ms) of rail clipping after the stimulus: the last sample of the last run, between fromMs and toMs, of samples
- * within a tolerance of the sweep's extreme that lasts at least `minRunMs` (and 3 samples); null when there is none.
+ * within a tolerance of the sweep's extreme that lasts at least `minRunMs` (and 2 samples); null when there is none.
  * The tolerance is 0.1% of the extreme, or, when no run is found so, 4 x the sample-to-sample noise SD (diffNoise)
  * about the median of the samples within 6 SDs of the extreme, so that a rail perturbed after the amplifier (hum,
  * noise, rounding on storage) is still found; the run must not be the top of a smooth wave (a parabola through it and
@@ -271,7 +271,7 @@ export function clipEndMs(
   const sd = diffNoise(x);
   const sorted = Float64Array.from(x).sort();
   const mid = sorted.length ? sorted[Math.floor(sorted.length / 2)] : 0;
-  const minRun = Math.max(3, Math.ceil(minRunMs / dtMs - 1e-9));
+  const minRun = Math.max(2, Math.ceil(minRunMs / dtMs - 1e-9));
   const levels = [mx, mn].filter((v, j) => {
     const r = options.rail?.[j === 0 ? 1 : 0];
     return r === undefined || Math.abs(v - r) <= 0.01 * Math.abs(r);
@@ -294,20 +294,28 @@ export function clipEndMs(
     return end;
   };
   let last: number | null = null;
+  const onRail: { v: number; tol: number }[] = [];
   for (const ext of levels) {
     // first within 0.1% of the extreme (a rail recorded as it is, or moved by a slow hum); otherwise a rail with noise
     // on it: its level the median of the samples within 6 noise SDs of the extreme (the extreme is the rail plus the
     // largest excursion), and within 4 noise SDs of that level
     let end = runEnd(ext, 1e-3 * Math.abs(ext));
+    let level = { v: ext, tol: 1e-3 * Math.abs(ext) };
     if (end === null) {
       const near: number[] = [];
       for (let i = i0; i <= i1; i++) if (Math.abs(x[i] - ext) <= 6 * sd) near.push(x[i]);
       near.sort((p, q) => p - q);
       const v = near.length ? near[Math.floor(near.length / 2)] : ext;
-      end = runEnd(v, Math.max(1e-3 * Math.abs(v), 4 * sd));
+      level = { v, tol: Math.max(1e-3 * Math.abs(v), 4 * sd) };
+      end = runEnd(level.v, level.tol);
     }
+    if (Math.abs(level.v - mid) > 20 * level.tol) onRail.push(level);
     if (end !== null && (last === null || end > last)) last = end;
   }
+  // samples right after the last run that sit on either rail are clipped too (a stimulus that swings from one rail to
+  // the other stays a single sample on the second)
+  const railed = (v: number) => onRail.some((r) => Math.abs(v - r.v) <= r.tol);
+  if (last !== null) while (last + 1 <= i1 && railed(x[last + 1])) last++;
   return last === null ? null : t0Ms + last * dtMs;
 }
 
@@ -922,6 +930,8 @@ export function measureComponents(
 
   const rows: ComponentRow[] = [];
   const measures: ResponseMeasure[][] = [];
+  // each measured row's peak as a multiple of its detection level (for the check across sites)
+  const margins = new Map<ComponentRow, number>();
   const smooth = new Float64Array(n);
   const u = set.units;
   const oc = onsetColumn(onsetFraction);
@@ -1054,6 +1064,7 @@ export function measureComponents(
         peak_velocity_m_s: vel(tPk),
         centroid_velocity_m_s: vel(tC),
       });
+      if (ok) margins.set(rows[rows.length - 1], sm / (kEff * noiseS));
     };
 
     // decomposed chains
@@ -1207,6 +1218,59 @@ export function measureComponents(
       );
     }
     measures.push(ms);
+  }
+  // a class is seen at every distance recorded at the same time (the same stimulus, the same group, intensity and
+  // concentration): a detection is taken as noise when the class is not detected at a nearer distance (where its wave
+  // is larger: dispersion only lowers it with distance), or when its peak is less than twice its detection level and
+  // the class is not detected at a farther distance (the chance of a false exceedance over a long window is not small)
+  {
+    const eventOf = (s: number) => `${groupKey(s)}|${intensityOf(s) ?? ''}|${concOf(s)}`;
+    const byEvent = new Map<string, ComponentRow[]>();
+    for (const r of rows) {
+      if (refOf(r.sweep) !== null) continue;
+      const key = `${eventOf(r.sweep)}|${r.class}`;
+      (byEvent.get(key) ?? byEvent.set(key, []).get(key)!).push(r);
+    }
+    const measuredOnly = [
+      oc,
+      'onset_ms',
+      'halfrise_ms',
+      'peak_ms',
+      'centroid_ms',
+      'centroid_from_ms',
+      'centroid_to_ms',
+      'onset_knoise_ms',
+      `amplitude_${u}`,
+      `peak_to_peak_${u}`,
+      'half_width_ms',
+      'duration_ms',
+      `area_${u}_ms`,
+      `rectified_area_${u}_ms`,
+      'onset_velocity_m_s',
+      'halfrise_velocity_m_s',
+      'peak_velocity_m_s',
+      'centroid_velocity_m_s',
+    ];
+    for (const g of byEvent.values()) {
+      const missing = g.filter((r) => r.status === 'not detected');
+      if (new Set(g.map((r) => r.distance_mm)).size < 2 || !missing.length) continue;
+      for (const r of g) {
+        const m = margins.get(r);
+        if (r.status !== 'measured' || m === undefined) continue;
+        const L = r.distance_mm as number;
+        const nearer = missing.some((q) => (q.distance_mm as number) < L);
+        if (!nearer && m >= 2) continue;
+        const other = missing.map((q) => q.distance_mm).join(', ');
+        r.status = 'not detected';
+        r.detected = false;
+        r.reason =
+          `not confirmed: peak ${m.toFixed(2)} x its detection level at ${L} mm, not detected at ${other} mm in ` +
+          `the same stimulus (a class is seen at every distance, largest at the nearest)`;
+        for (const col of measuredOnly) if (col in r) r[col] = null;
+        const ci = classes.findIndex((c) => c.name === r.class);
+        if (measures[r.sweep]?.[ci]) measures[r.sweep][ci].detected = false;
+      }
+    }
   }
   fittedAmplitudes(rows, measures, classes, polarities, (s) => `${groupKey(s)}|${info[s].L}|${refOf(s) ?? ''}`, u);
   // rows in sweep order, then class order
