@@ -1,5 +1,5 @@
 /** Registry entry: blocker dose-response (Hill fits per preparation, pooled IC50, class comparison). */
-import type { Step } from '../sweeps/SweepSet';
+import type { ConditionValue, Step } from '../sweeps/SweepSet';
 import { doseResponse as fitDoseResponse, type DoseResponseResult } from '../analysis/doseResponse';
 import type { Flag } from '../report/pipeline';
 import { doseResponseFigure } from '../plot/builders';
@@ -65,6 +65,16 @@ function doseSentence(step: Step) {
   };
 }
 
+/** The concentration unit of a comparison's curves (its classes' summary rows at the same site), or null. */
+function unitOf(dr: DoseResponseResult, c: Row): ConditionValue {
+  const same = dr.summary.find(
+    (r) => (r.class === c.classA || r.class === c.classB) && (r.distanceMm ?? null) === (c.distanceMm ?? null),
+  );
+  return (same?.concentrationUnit ??
+    dr.summary.find((r) => r.concentrationUnit)?.concentrationUnit ??
+    null) as ConditionValue | null;
+}
+
 export const doseResponse: AnalysisEntry<DoseResponseResult> = {
   id: 'dose-response',
   title: 'Dose-response',
@@ -90,7 +100,8 @@ export const doseResponse: AnalysisEntry<DoseResponseResult> = {
           dose_response_points: dr.points,
           dose_response_per_preparation: dr.perPreparation,
           dose_response_summary: dr.summary,
-          dose_response_comparisons: dr.comparisons,
+          // with the concentration unit of the curves compared, so that the IC50 columns carry it
+          dose_response_comparisons: dr.comparisons.map((c) => ({ ...c, concentrationUnit: unitOf(dr, c) })),
         },
       };
     } catch (e) {
@@ -125,7 +136,7 @@ export const doseResponse: AnalysisEntry<DoseResponseResult> = {
       name: 'dose_response_comparisons',
       title: 'Dose-response comparisons',
       always: true,
-      columns: { classA: 'class_a', classB: 'class_b', ic50A: 'ic50_a', ic50B: 'ic50_b', F: 'f' },
+      columns: { classA: 'class_a', classB: 'class_b', ic50A: 'ic50_a_{C}', ic50B: 'ic50_b_{C}', F: 'f' },
     },
   ],
   figures: [

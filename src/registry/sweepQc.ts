@@ -134,7 +134,11 @@ export const sweepQc: AnalysisEntry<QcOutput> = {
   tables: [
     { name: 'sweep_qc', title: 'Sweep quality control', bulk: true },
     { name: 'sweep_qc_summary', title: 'Sweep quality control per preparation' },
-    { name: 'sweeps_removed', title: 'Sweeps removed' },
+    {
+      name: 'sweeps_removed',
+      title: 'Sweeps removed',
+      empty: 'no sweep was removed: flagged sweeps are kept (listed in the sweep QC table) unless reject is true',
+    },
   ],
   methods: { sweepQc: qcSentence, rejectFlagged: qcSentence },
   api: ['sweepQc', 'rejectFlagged'],

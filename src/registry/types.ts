@@ -33,6 +33,8 @@ export interface TableSpec {
   bulk?: boolean;
   /** written (possibly empty) whenever the study is combined, not only when the analysis produced it */
   always?: boolean;
+  /** why the table can be empty though its analysis ran (report.html says it when no note of the study does) */
+  empty?: string;
 }
 
 /** What an analysis needs from the data (documentation, and the registry test). */

@@ -231,7 +231,9 @@ function perPreparationHtml(study: Study): string {
 function emptyReason(study: Study, name: string): string {
   const a = tableSpec(name)?.analysis?.id;
   const notes = a ? study.notes.filter((n) => n.startsWith(`${a}:`) || n.includes(` ${a}:`)) : [];
-  return notes.length ? notes.map(escapeHtml).join('; ') : 'the analysis had no data in this study';
+  if (notes.length) return notes.map(escapeHtml).join('; ');
+  const why = tableSpec(name)?.spec.empty;
+  return why ? escapeHtml(why) : 'the analysis had no data in this study';
 }
 
 function tablesHtml(study: Study, bundle: boolean): { html: string; toc: string[] } {

@@ -240,8 +240,6 @@ const NO_UNIT_YET = new Set([
   'dose_response_points.concentration',
   'dose_response_points.response',
   'dose_response_points.baseline',
-  'dose_response_comparisons.ic50_a',
-  'dose_response_comparisons.ic50_b',
   'strength_duration.rheobase',
   'strength_duration.rheobase_ci95_low',
   'strength_duration.rheobase_ci95_high',
