@@ -41,7 +41,7 @@ export function flagCounts(flags: readonly FlagRow[]): { rejected: number; notMe
 /** The lines printed after a run: the summary, then rejected and not-measured flags (at most `cap`, then a count). */
 export function flagReport(flags: readonly FlagRow[], cap = FLAG_LINE_CAP): string[] {
   const c = flagCounts(flags);
-  const summary = `flags: ${c.rejected} rejected, ${c.notMeasured} not measured, ${c.warnings} warnings`;
+  const summary = `flags: ${c.rejected} rejected, ${c.notMeasured} not measured, ${c.warnings} warning${c.warnings === 1 ? '' : 's'}`;
   const lines = [`${summary} (tables/flags.csv)`];
   const listed = LISTED_SEVERITIES.flatMap((s) => flags.filter((f) => f.severity === s));
   for (const f of listed.slice(0, cap)) lines.push(`  ${f.severity}: ${flagLine(f)}`);

@@ -59,7 +59,8 @@ function study(name: string, distances: number[], intensity: number, preps = ['P
 
 /** The summary line the command line prints for these counts. */
 const summaryOf = (c: { rejected: number; notMeasured: number; warnings: number }) =>
-  `flags: ${c.rejected} rejected, ${c.notMeasured} not measured, ${c.warnings} warnings (tables/flags.csv)`;
+  `flags: ${c.rejected} rejected, ${c.notMeasured} not measured, ${c.warnings} warning${c.warnings === 1 ? '' : 's'} ` +
+  '(tables/flags.csv)';
 
 /** The flag lines of a run's stderr (after the summary line). */
 const listed = (stderr: string) => stderr.split('\n').filter((l) => /^ {2}(rejected|not measured): /.test(l));
@@ -85,6 +86,8 @@ describe('flag report (the printed form of tables/flags.csv)', () => {
     ]);
     expect(flagCounts([])).toEqual({ rejected: 0, notMeasured: 0, warnings: 0 });
     expect(flagReport([])).toEqual(['flags: 0 rejected, 0 not measured, 0 warnings (tables/flags.csv)']);
+    // one warning is one warning (not "1 warnings")
+    expect(flagReport([f('warning', 1)])[0]).toBe('flags: 0 rejected, 0 not measured, 1 warning (tables/flags.csv)');
   });
   it('capped at FLAG_LINE_CAP lines, then "... and X more"; rejected are listed before not measured', () => {
     const flags = [
