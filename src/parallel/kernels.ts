@@ -11,6 +11,7 @@ import { PLAIN_BLOCK, flushBlock, plainRow } from '../io/plainRows';
 import { normalRows, sineCoefficients, type SineParts } from '../signal/sinefit';
 import { resamplePolyInto } from '../signal/resample';
 import { bridgeGap } from '../signal/bridge';
+import { allFinite32 } from './simd';
 
 /**
  * Stored samples: float64, or float32 as read from a float32 file (each value widened
@@ -232,7 +233,7 @@ function finiteSum(x: Float64Array, from: number, to: number): boolean {
  * float32 values cannot overflow in float64, so x[i] + x[i + 4] is finite exactly when both are).
  * Pairs halve the dependent additions (about 15% faster than four plain chains).
  */
-function finiteSum32(x: Float32Array, from: number, to: number): boolean {
+export function finiteSum32(x: Float32Array, from: number, to: number): boolean {
   let a = 0,
     b = 0,
     c = 0,
@@ -247,6 +248,10 @@ function finiteSum32(x: Float32Array, from: number, to: number): boolean {
   for (; i < to; i++) a += x[i];
   const t = a + b + c + d;
   return t - t === 0;
+}
+/** Whether float32 x[from..to) are all finite: the SIMD kernel of ./simd.ts, or finiteSum32 without it. */
+function finite32(x: Float32Array, from: number, to: number): boolean {
+  return allFinite32(x, from, to) ?? finiteSum32(x, from, to);
 }
 /**
  * Read sweeps s0..s1-1 of a raw binary file (every sweep a contiguous block of
@@ -304,7 +309,7 @@ function load(a: LoadArgs, s0: number, s1: number): number {
     // float32 read as is: check the chunk while it is in cache, at half the bytes of the result
     const checked = dtype === 'float32' && identity && !interleaved && nc === 1 && src instanceof Float32Array;
     let bad = -1;
-    if (checked && !finiteSum32(src as Float32Array, 0, k * n)) {
+    if (checked && !finite32(src as Float32Array, 0, k * n)) {
       for (let i = 0; i < k * n; i++)
         if (src[i] - src[i] !== 0) {
           bad = o + i;
@@ -356,7 +361,7 @@ function loadAsRead(a: LoadAsReadArgs, s0: number, s1: number): number {
       got += r;
     }
     const o = s * n;
-    if (!finiteSum32(out, o, o + k * n)) for (let i = o, e = o + k * n; i < e; i++) if (out[i] - out[i] !== 0) return i;
+    if (!finite32(out, o, o + k * n)) for (let i = o, e = o + k * n; i < e; i++) if (out[i] - out[i] !== 0) return i;
   }
   return -1;
 }

@@ -277,6 +277,34 @@ describe('loadAsRead kernel (float32 kept as read)', () => {
   });
 });
 describe('the finiteness check of float32 samples', () => {
+  it('the WebAssembly SIMD check agrees with the JavaScript one (its reference) at every length and position', async () => {
+    const { allFinite32, hasSimd } = await import('../../src/parallel/simd');
+    const { finiteSum32 } = await import('../../src/parallel/kernels');
+    expect(hasSimd()).toBe(true); // Node 16.4+ on x64 and arm64 has WebAssembly SIMD
+    let seed = 11;
+    const rnd = () => (seed = (Math.imul(seed, 1103515245) + 12345) >>> 0) / 2 ** 32;
+    const lengths = [...Array.from({ length: 80 }, (_, n) => n), 65535, 65536, 65537, 65536 * 2 + 77];
+    let checked = 0;
+    for (const n of lengths) {
+      const x = Float32Array.from({ length: n }, () => (rnd() - 0.5) * 3.4e38);
+      const from = n > 3 ? 1 : 0; // an offset start too
+      expect(allFinite32(x, from, n)).toBe(finiteSum32(x, from, n));
+      expect(allFinite32(x, from, n)).toBe(true);
+      const positions =
+        n < 80 ? Array.from({ length: n }, (_, i) => i) : [0, 15, 16, 63, 64, 65535, 65536, n - 1].filter((i) => i < n);
+      for (const pos of positions)
+        for (const v of [NaN, Infinity, -Infinity]) {
+          const y = Float32Array.from(x);
+          y[pos] = v;
+          expect(allFinite32(y, 0, n)).toBe(false);
+          expect(finiteSum32(y, 0, n)).toBe(false);
+          // outside the range asked about, it does not count
+          if (pos === 0 && n > 1) expect(allFinite32(y, 1, n)).toBe(true);
+          checked++;
+        }
+    }
+    expect(checked).toBeGreaterThan(3000);
+  });
   it('finds a NaN or infinity at every position modulo its unrolling, and passes float32 full scale', async () => {
     const { mkdtempSync, writeFileSync, openSync, closeSync } = await import('node:fs');
     const { tmpdir } = await import('node:os');
