@@ -144,7 +144,7 @@ function summaryHtml(study: Study, figures: readonly Figure[]): string {
       );
     }
   }
-  const site = referenceLookup(t.components);
+  const site = referenceLookup(t.components, study.recording?.referenceDistanceMm);
   const interval = (lo: unknown, hi: unknown) => escapeHtml(intervalText(lo, hi, formatCell));
   for (const r of t.dose_response_summary)
     if (typeof r.ic50 === 'number') {

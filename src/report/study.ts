@@ -52,6 +52,8 @@ export interface Recording {
   pulseWidthsMs?: number[];
   /** sweeps removed by sweep QC before measuring (0 when flagged sweeps were kept) */
   removedByQc?: number;
+  /** the components option referenceDistanceMm (mm; every channel bipolar with this reference), when given */
+  referenceDistanceMm?: number;
 }
 
 const distinct = <T>(xs: T[]): T[] => [...new Set(xs)].sort();
@@ -80,6 +82,9 @@ function recordingOf(input: SweepSet, measured: SweepSet, o: PipelineOptions): R
     distancesMm: typeof fixedMm === 'number' ? [fixedMm] : numbers('distanceMm'),
     pulseWidthsMs: numbers('pulseWidthMs'),
     removedByQc: Math.max(0, input.nSweeps - beforeAveraging),
+    ...(typeof o.components?.referenceDistanceMm === 'number'
+      ? { referenceDistanceMm: o.components.referenceDistanceMm }
+      : {}),
   };
 }
 
@@ -97,6 +102,9 @@ function studyRecording(ps: readonly PrepOutput[]): Recording | undefined {
     distancesMm: distinctNumbers(rs.flatMap((r) => r.distancesMm ?? [])),
     pulseWidthsMs: distinctNumbers(rs.flatMap((r) => r.pulseWidthsMs ?? [])),
     removedByQc: rs.reduce((n, r) => n + (r.removedByQc ?? 0), 0),
+    ...(rs.some((r) => r.referenceDistanceMm !== undefined)
+      ? { referenceDistanceMm: rs.find((r) => r.referenceDistanceMm !== undefined)!.referenceDistanceMm }
+      : {}),
   };
 }
 

@@ -68,7 +68,10 @@ export function siteText(row: Row, referenceOf: (row: Row) => number | null): st
 
 /** Options of summaryLines. */
 export interface SummaryOptions {
-  /** the components option `referenceDistanceMm` of the run (a bipolar recording's reference contact, mm) */
+  /**
+   * the components option `referenceDistanceMm` of the run (a bipolar recording's reference contact, mm); default:
+   * the one the study recorded (`study.recording.referenceDistanceMm`)
+   */
   referenceDistanceMm?: number;
 }
 
@@ -79,7 +82,7 @@ export interface SummaryOptions {
  */
 export function summaryLines(s: Study, options: SummaryOptions = {}): string[] {
   const t = s.tables;
-  const ref = referenceLookup(t.components ?? [], options.referenceDistanceMm);
+  const ref = referenceLookup(t.components ?? [], options.referenceDistanceMm ?? s.recording?.referenceDistanceMm);
   const at = (r: Row) => siteText(r, ref);
   const n = summaryNumber;
   const out: string[] = [];

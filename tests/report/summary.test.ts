@@ -161,3 +161,13 @@ describe('report.html main results', () => {
     expect(html).toContain('2 data files (4 input files with the manifest and the binary parts)');
   });
 });
+
+describe('summaryLines after a merge or unblinding (no options)', () => {
+  it("takes the reference contact from the study's recording (the components option the run recorded)", () => {
+    const s = {
+      tables: { components: [], flags: [], temperature: [{ class: 'C', distanceMm: 15, q10: 1.9 }] },
+      recording: { referenceDistanceMm: 25 },
+    } as unknown as Study;
+    expect(summaryLines(s)).toEqual(['Q10 C at bipolar 15-25 mm: 1.9 (95% CI not available)']);
+  });
+});
