@@ -53,12 +53,27 @@ export function velocityOf(t: ComponentTable, by: string[] = velocityBy(t.set)):
 }
 
 // the latency definition is named when the value itself was rejected (not-detected rows share one flag)
+/**
+ * A velocity group ("preparation=R1, temperatureC=37, concentration=0, drug=, epoch=") in words for a flag's `where`:
+ * "37 °C, concentration 0" (the preparation has its own column; empty conditions are left out).
+ */
+export function groupWords(group: unknown): string | null {
+  if (typeof group !== 'string' || !group) return null;
+  const words: string[] = [];
+  for (const m of group.matchAll(/([A-Za-z_][\w]*)=([^,]*)(?:, |$)/g)) {
+    const [k, v] = [m[1], m[2].trim()];
+    if (!v || k === 'preparation') continue;
+    words.push(k === 'temperatureC' ? `${v} °C` : k === 'distanceMm' ? `${v} mm` : `${k} ${v}`);
+  }
+  return words.length ? words.join(', ') : null;
+}
+
 const velocityWhere = (r: Row) =>
   [
     r.method,
     r.status === 'implausible' ? r.basis : null,
     r.method === 'two-site' ? `${r.near_mm}-${r.far_mm} mm` : r.method === 'single-site' ? `${r.distance_mm} mm` : null,
-    r.group,
+    groupWords(r.group),
   ]
     .filter(Boolean)
     .join(', ');

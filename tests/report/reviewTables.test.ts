@@ -4,6 +4,7 @@
 import { describe, it, expect } from 'vitest';
 import { ANALYSES } from '../../src/registry/index';
 import { bundleColumns } from '../../src/registry/columns';
+import { groupWords } from '../../src/registry/velocity';
 import { reportHtml } from '../../src/report/reportHtml';
 import type { StudyContext } from '../../src/registry/types';
 import type { Study } from '../../src/report/study';
@@ -79,5 +80,16 @@ describe('report.html on an empty table', () => {
     const sec = html.slice(html.indexOf('id="table-sweeps_removed"'));
     expect(sec.slice(0, 400)).toMatch(/No rows: no sweep was removed: flagged sweeps are kept/);
     expect(sec.slice(0, 400)).not.toMatch(/had no data/);
+  });
+});
+
+describe("a velocity flag's where", () => {
+  it('words the group without API keys or empty conditions (the preparation has its own column)', () => {
+    expect(groupWords('preparation=R1, temperatureC=37, concentration=0, drug=, epoch=')).toBe(
+      '37 °C, concentration 0',
+    );
+    expect(groupWords('preparation=R1, drug=TTX, epoch=washout')).toBe('drug TTX, epoch washout');
+    expect(groupWords('preparation=R1')).toBeNull();
+    expect(groupWords(undefined)).toBeNull();
   });
 });
