@@ -247,6 +247,68 @@ print(json.dumps(r))
   }
 }
 
+/**
+ * Loading alone in fresh processes, interleaved (3 rounds of 7 loads, median): NumPy's fromfile
+ * and fascicle's readBinary, the latter also with glibc told to ask for transparent huge pages
+ * for large buffers (GLIBC_TUNABLES=glibc.malloc.hugetlb=1, glibc >= 2.35). NumPy asks for them
+ * itself (madvise MADV_HUGEPAGE on large arrays); Node has no way to, and a fresh 80 MB buffer
+ * then takes some 20,000 first-touch page faults instead of 40. Wall and CPU time in ms.
+ */
+export function loadEnvironments(dir, path) {
+  const T = f.threads();
+  const js = (threads) => `
+const f = require(${JSON.stringify(join(here, '..', '..', 'dist', 'index.js'))}); f.setThreads(${threads});
+const ts = [], cs = []; f.readBinary(${JSON.stringify(path)});
+for (let k = 0; k < 7; k++) {
+  global.gc(); const c0 = process.cpuUsage(); const t0 = process.hrtime.bigint(); f.readBinary(${JSON.stringify(path)});
+  ts.push(Number(process.hrtime.bigint() - t0) / 1e6); const c = process.cpuUsage(c0); cs.push((c.user + c.system) / 1e3);
+}
+const med = (a) => [...a].sort((p, q) => p - q)[a.length >> 1];
+console.log(JSON.stringify([med(ts), med(cs)])); f.stopThreads();`;
+  const py = `
+import numpy as np, time, statistics
+ts=[];cs=[]
+for k in range(8):
+    t0=time.perf_counter(); c0=time.process_time()
+    x=np.fromfile(${JSON.stringify(join(dir, 'sweeps.f32'))}, dtype=np.float32)
+    ts.append(time.perf_counter()-t0); cs.append(time.process_time()-c0); del x
+print('[%f, %f]' % (statistics.median(ts[1:])*1e3, statistics.median(cs[1:])*1e3))`;
+  const cases = [
+    [`fascicle ${T} threads`, T, ''],
+    ['fascicle 1 thread', 1, ''],
+    [`fascicle ${T} threads, huge pages`, T, 'glibc.malloc.hugetlb=1'],
+    ['fascicle 1 thread, huge pages', 1, 'glibc.malloc.hugetlb=1'],
+  ];
+  const rec = { numpy: [] };
+  for (let r = 0; r < 3; r++) {
+    const o = python(['-c', py]);
+    if (o.status !== 0) return;
+    rec.numpy.push(JSON.parse(o.stdout.trim()));
+    for (const [name, threads, tun] of cases) {
+      const env = { ...process.env, GLIBC_TUNABLES: tun };
+      const c = spawnSync(process.execPath, ['--expose-gc', '-e', js(threads)], { encoding: 'utf8', env });
+      if (c.status !== 0) return;
+      (rec[name] ??= []).push(JSON.parse(c.stdout.trim().split('\n').pop()));
+    }
+  }
+  const np = rec.numpy;
+  console.log(
+    `\nload binary float32 alone, fresh processes (median of 3 interleaved rounds of 7; load average ` +
+      `${loadavg()[0].toFixed(1)}): NumPy fromfile ${median(np.map((x) => x[0])).toFixed(1)} ms ` +
+      `(CPU ${median(np.map((x) => x[1])).toFixed(1)} ms)`,
+  );
+  for (const [name] of cases) {
+    const v = rec[name];
+    const ratio = median(v.map((x, r) => np[r][0] / x[0])),
+      cpuRatio = median(v.map((x, r) => np[r][1] / x[1]));
+    console.log(
+      `  ${name.padEnd(34)} ${median(v.map((x) => x[0])).toFixed(1)} ms (CPU ${median(v.map((x) => x[1])).toFixed(1)}` +
+        ` ms), ratio ${ratio.toFixed(2)} (CPU ${cpuRatio.toFixed(2)})`,
+    );
+  }
+  console.log('  (huge pages: GLIBC_TUNABLES=glibc.malloc.hugetlb=1, as NumPy madvises its large arrays)');
+}
+
 export function runScipyComparison() {
   console.log(
     '\n== side by side with the SciPy pipeline (../shared/bench: 1,000 x 20,000 float32, 50 conditions; ' +
@@ -344,6 +406,7 @@ export function runScipyComparison() {
       `agreement with SciPy (relative to the value; to the window's largest value): ${names.map((n, q) => `${n} ${worstBy[q].toExponential(1)}; ${worstScaled[q].toExponential(1)}`).join(', ')}; IC50 ${ic.map((x) => x.toExponential(1)).join(', ')}`,
     );
   }
+  if (scipyOk) loadEnvironments(dir, path);
 }
 
 if (process.argv[1] && resolve(process.argv[1]) === fileURLToPath(import.meta.url)) runScipyComparison();
