@@ -24,6 +24,7 @@ const REFS: Record<string, string> = {
     'Lowitzsch K, Hopf HC, Galland J (1977) Changes of sensory conduction velocity and refractory periods with ' +
     'decreasing tissue temperature in man. J Neurol 216:181-188.',
   sines: 'Kay SM (1993) Fundamentals of Statistical Signal Processing: Estimation Theory. Prentice Hall.',
+  schwarz: 'Schwarz G (1978) Estimating the dimension of a model. Ann Stat 6:461-464.',
 };
 
 /**
@@ -260,8 +261,10 @@ export function methodsText(history: readonly Step[], extra: MethodsContext = {}
           );
         } else if (o.method === 'exponential')
           s.push(
-            'The stimulus artifact was removed by fitting and subtracting a single exponential to its tail ' +
-              `(${fmtW(o.tailWindow)}) and bridging ${fmtW(o.window)}.`,
+            'The stimulus artifact was removed by fitting and subtracting ' +
+              `${o.exponentials === 2 ? 'two exponentials (a fast decay and a slow tail)' : 'a single exponential'} ` +
+              `to its tail (${fmtW(o.tailWindow)}) and bridging ${fmtW(o.window)}; samples on the amplifier rail ` +
+              'were left out of the fit and blanked.',
           );
         else
           s.push(
@@ -274,11 +277,26 @@ export function methodsText(history: readonly Step[], extra: MethodsContext = {}
         break;
       case 'removeHum': {
         const ex = o.exclude?.length ? `, leaving ${o.exclude.map(fmtW).join(' and ')} out of the fit` : '';
+        // the harmonics fitted (a rule may keep only some), the drift term and the baseline refit, as recorded
+        const hs = (o.fittedHarmonics as number[] | undefined) ?? null;
+        const which =
+          hs && hs.length !== o.harmonics
+            ? `harmonics ${hs.join(', ')}`
+            : `its harmonics up to the ${ord(o.harmonics)}`;
+        const rule =
+          o.harmonicsRule === 'auto' ? ' (a harmonic kept when its amplitude exceeded 3 standard errors)' : '';
+        const drift =
+          o.driftOrder > 0
+            ? ` jointly with a Legendre polynomial of order ${o.driftOrder} for slow drift (fitted, not subtracted)` +
+              (o.drift === 'auto' ? ' (its order chosen by the Bayesian information criterion; Schwarz 1978)' : '')
+            : '';
+        const back = o.baselineRefit ? '; the share of the hum in the preceding baseline levels was restored' : '';
         s.push(
           `Mains interference was removed by fitting and subtracting, per sweep, sinusoids at ${o.fittedFrequencyHz} ` +
-            `Hz and its harmonics up to the ${ord(o.harmonics)} by linear least squares${ex} (Kay 1993).`,
+            `Hz and ${which}${rule}${drift} by linear least squares${ex} (Kay 1993)${back}.`,
         );
         refs.add(REFS.sines);
+        if (drift && o.drift === 'auto') refs.add(REFS.schwarz);
         break;
       }
       case 'notch':

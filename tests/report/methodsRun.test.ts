@@ -110,3 +110,23 @@ describe('the filter sentence', () => {
     expect(methodsText(band.history)).toMatch(/Butterworth filter \(cutoff 0\.3-3 kHz;/);
   });
 });
+
+describe('the mains-hum sentence says what removeHum fitted', () => {
+  const m0 = rodentSciatic();
+  const model = { ...m0, populations: [{ ...m0.populations[0], count: 50 }] };
+  const sweeps = [{ intensity: 20, distanceMm: 20, temperatureC: 37, concentration: 0, pulsesMs: [0] }];
+  const set = simulateNerve({ model, seed: 4, grid: { fs: 20000, t0Ms: -5, nSamples: 1200 }, sweeps });
+  it('a drift term of the order used (not subtracted), the harmonics fitted; no drift term when none was fitted', () => {
+    const withDrift = set.removeHum({ frequency: 50, harmonics: 2, drift: 2 });
+    const step = withDrift.history[withDrift.history.length - 1];
+    expect(step.options.driftOrder).toBe(2);
+    const t = methodsText(withDrift.history);
+    expect(t).toMatch(
+      /sinusoids at 50 Hz and its harmonics up to the 2nd jointly with a Legendre polynomial of order 2/,
+    );
+    expect(t).toMatch(/for slow drift \(fitted, not subtracted\) by linear least squares/);
+    expect(t).not.toMatch(/Schwarz/); // the order was given, not chosen
+    const none = methodsText(set.removeHum({ frequency: 50, harmonics: 2, drift: 0 }).history);
+    expect(none).not.toMatch(/Legendre/);
+  });
+});
