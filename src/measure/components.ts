@@ -37,6 +37,7 @@ import {
   noiseMad,
   ownLatencies,
   gaussianSmooth,
+  solve3,
   type ResponseMeasure,
   type OwnLatencies,
 } from './response';
@@ -652,33 +653,58 @@ export function measureComponents(
       const q = stretchOf(s);
       if (q) (by.get(artKey(s)) ?? by.set(artKey(s), []).get(artKey(s))!).push(q);
     }
-    for (const [key, v] of by) shapeOf.set(key, fitArtifactShape(v));
+    for (const [key, v] of by) {
+      let f = fitArtifactShape(v);
+      if (!f) {
+        // too few artifact-only samples for a fit: one exponential, its time constant the median of log-linear fits
+        // to the first three unclipped samples at the farthest site (artifactDecay), where the response arrives last
+        const members = [...Array(set.nSweeps).keys()].filter((s) => clips[s] !== null && artKey(s) === key);
+        const far = Math.max(...members.map(distOf));
+        const taus = members
+          .filter((s) => distOf(s) === far)
+          .map((s) => artifactDecay(set.sweep(s), set.indexAt(clips[s]!))?.tauSamples)
+          .filter((t): t is number => t !== undefined)
+          .sort((a, b) => a - b);
+        if (taus.length) {
+          const tau1 = taus[Math.floor(taus.length / 2)];
+          f = { ref: Math.min(...v.map((q) => q.from)), tau1, tau2: tau1, rho: 0, rss: NaN, n: 0 };
+        }
+      }
+      shapeOf.set(key, f);
+    }
   }
   // the artifact is linear in the stimulus current: at one site its scale per unit of intensity is taken from the
   // sweeps where clipping ends longest before the response can arrive (the earliest arrival minus the first
-  // unclipped sample, within one sample of the best; their median): there the response adds least to the first
-  // unclipped samples. A sweep with fewer than three artifact-only samples of its own takes that per-unit scale times
+  // unclipped sample, within one sample of the best; of those the most blocked, at the highest concentration; their
+  // median): there the response adds least to the first unclipped samples. A sweep with fewer than three artifact-only samples of its own takes that per-unit scale times
   // its intensity (common practice, no source: the volume-conducted artifact is proportional to the current)
   const siteKey = (s: number) => `${artKey(s)}|${distOf(s)}|${refOf(s) ?? ''}`;
   const intensityOf = (s: number) => {
     const v = set.conditions[s].intensity;
     return typeof v === 'number' && v > 0 ? v : null;
   };
+  const concOf = (s: number) => {
+    const v = set.conditions[s].concentration;
+    return typeof v === 'number' && v > 0 ? v : 0;
+  };
   const perUnit = new Map<string, number>();
   {
-    const by = new Map<string, { margin: number; k: number }[]>();
+    const by = new Map<string, { margin: number; conc: number; k: number }[]>();
     for (let s = 0; s < set.nSweeps; s++) {
       const q = stretchOf(s),
         f = shapeOf.get(artKey(s)),
         I = intensityOf(s);
       if (!q || !f || I === null) continue;
-      const e = { margin: q.to - q.from, k: artifactScale(q.x, f, q.from, q.to) / I };
+      const e = { margin: q.to - q.from, conc: concOf(s), k: artifactScale(q.x, f, q.from, q.to) / I };
       (by.get(siteKey(s)) ?? by.set(siteKey(s), []).get(siteKey(s))!).push(e);
     }
     for (const [key, v0] of by) {
       const best = Math.max(...v0.map((e) => e.margin));
-      const v = v0
-        .filter((e) => e.margin >= best - 1)
+      const v1 = v0.filter((e) => e.margin >= best - 1);
+      // among those, the most blocked (the highest concentration): the smallest response on the first samples
+      const cTop = Math.max(...v1.map((e) => e.conc));
+      const v = v1
+        .filter((e) => e.conc === cTop)
         .map((e) => e.k)
         .sort((a, b) => a - b);
       perUnit.set(key, v[Math.floor(v.length / 2)]);
@@ -691,8 +717,7 @@ export function measureComponents(
     const L = distOf(s),
       T = tempOf(s);
     const clip = clips[s];
-    // after rail clipping the artifact's decay (the preparation's shape, this sweep's scale) is subtracted; without a
-    // shape (too few artifact-only samples) one exponential through the first three unclipped samples
+    // after rail clipping the artifact's decay (the preparation's shape, this sweep's scale) is subtracted
     const q = stretchOf(s);
     const shape = q ? (shapeOf.get(artKey(s)) ?? null) : null;
     let decay: { from: number; tauSamples: number; value: (i: number) => number } | null = null;
@@ -702,14 +727,6 @@ export function measureComponents(
       const g =
         q.to - q.from + 1 >= 3 || k0 === undefined || I === null ? artifactScale(raw0, shape, q.from, q.to) : k0 * I;
       decay = { from: q.from, tauSamples: shape.tau1, value: (i) => g * artifactShapeValue(shape, i) };
-    } else if (q) {
-      const d0 = artifactDecay(raw0, q.from - 1);
-      if (d0)
-        decay = {
-          from: d0.from,
-          tauSamples: d0.tauSamples,
-          value: (i) => d0.a * Math.exp(-(i - d0.from) / d0.tauSamples),
-        };
     }
     let x: ArrayLike<number> = raw0;
     if (decay) {
@@ -740,14 +757,10 @@ export function measureComponents(
   });
 
   // polarity per class: the larger phase (sum of the positive and of the negative extremes) in the class's window
-  // after the artifact, on the sweeps with the largest responses: at each site the unblocked sweeps (concentration 0
-  // or none) at the highest intensity; where the same site has blocked sweeps at that intensity, the mean of those at
-  // the highest concentration is subtracted first (the artifact and its tail, the same stimulus, cancel; what is left
-  // is the response the drug took away), so that an artifact tail larger than a small class cannot choose its sign
-  const concOf = (s: number) => {
-    const v = set.conditions[s].concentration;
-    return typeof v === 'number' && v > 0 ? v : 0;
-  };
+  // after the artifact, on the unblocked sweeps (concentration 0 or none); where a site has blocked sweeps at its
+  // highest intensity, on the unblocked sweeps at that intensity minus the mean of those at the highest concentration
+  // (the artifact and its tail, the same stimulus, cancel; what is left is the response the drug took away), so that
+  // an artifact tail larger than a small class, or a blocked sweep with no class left, cannot choose its sign
   const polSweeps: { s: number; ref: Float64Array | null }[] = [];
   {
     const bySite = new Map<string, number[]>();
@@ -764,7 +777,10 @@ export function measureComponents(
         ref = new Float64Array(n);
         for (const s of blocked) for (let i = 0; i < n; i++) ref[i] += info[s].x[i] / blocked.length;
       }
-      for (const s of unblocked.length ? unblocked : members) polSweeps.push({ s, ref: unblocked.length ? ref : null });
+      // without blocked sweeps to subtract, every unblocked sweep of the site counts (a recruitment series: the
+      // artifact grows with the intensity as the response does, so the top intensity alone is no better)
+      const use = ref ? unblocked : members.filter((s) => concOf(s) === 0);
+      for (const s of use.length ? use : members) polSweeps.push({ s, ref });
     }
   }
   const polarities: Record<string, 1 | -1> = {};
@@ -851,6 +867,9 @@ export function measureComponents(
           const r1 = Math.min(n - 1, Math.max(...at.map((s) => info[s].wins[last].b)));
           rangeAt.set(x, [Math.max(0, r0), r1]);
         }
+        // a chain whose fitted span is empty or a few samples at some distance (the rail lasting past the class
+        // windows) is not decomposed
+        if ([...rangeAt.values()].some(([r0, r1]) => r1 - r0 < 10)) continue;
         const nearLen = rangeAt.get(dists[0])![1] - rangeAt.get(dists[0])![0];
         const trustAt = new Map(
           dists.map((x) => [x, Math.max(...members.filter((s) => info[s].L === x).map((s) => info[s].fitStart))]),
@@ -918,7 +937,7 @@ export function measureComponents(
         }
         bins.push([Math.min(from, shape.u.length - 1), shape.u.length - 1]);
         while (bins.length < chain.length) bins.push([shape.u.length, shape.u.length - 1]);
-        const mixture = resolved.every((r) => r) ? fitClassMixture(traces, grid, shape, bins) : null;
+        const mixture = resolved.every((r) => r) ? fitClassMixture(traces, grid, shape, bins, { zones: ranges }) : null;
         decomps.set(key, { shape, grid, bins, resolved, reason, valleys, mixture });
         // classes separated by the decomposition take the sign of the shared waveform's main phase unless given
         // (for a bipolar recording, the near contact's)
@@ -954,6 +973,7 @@ export function measureComponents(
       extra: Record<string, ConditionValue>,
       peakFrom = 0,
       peakTo = y.length - 1,
+      model?: Float64Array,
     ) => {
       const c = classes[ci];
       const p = polarities[c.name];
@@ -1006,11 +1026,33 @@ export function measureComponents(
         reason =
           'not resolved: no separate peak or shoulder (the largest value of the class is at the edge of its part of the sweep)';
       }
+      // nothing is read under the rail: the first unclipped sample is the earliest time a latency can have (a peak
+      // before it, in a modelled component, leaves the class not resolved; an earlier onset or half-rise is not
+      // measured)
+      const tFirst = info[s].clip === null ? -Infinity : tAt(set.indexAt(info[s].clip!) + 1);
+      if (status === 'measured' && tAt(a + lat.peakIndex) < tFirst) {
+        status = 'not resolved';
+        reason = `not resolved: the peak lies under the amplifier's rail (clipping ends at ${tFirst.toFixed(3)} ms)`;
+      }
       const ok = status === 'measured';
-      const t = (fi: number | null) => (ok && fi !== null ? tAt(a + fi) : null);
+      const hidden: string[] = [];
+      const t = (fi: number | null, name?: string) => {
+        if (!ok || fi === null) return null;
+        if (tAt(a + fi) < tFirst) {
+          if (name) hidden.push(name);
+          return null;
+        }
+        return tAt(a + fi);
+      };
       // the old k x noise onset on the recorded sweep (informational only)
       const old = measureResponse(y, peakFrom, peakTo, noise, k, p);
-      const m: ResponseMeasure = { ...old, window: [a, b], detected: ok, component: Float64Array.from(y) };
+      const m: ResponseMeasure = {
+        ...old,
+        window: [a, b],
+        detected: ok,
+        component: Float64Array.from(y),
+        ...(model ? { model } : {}),
+      };
       ms[ci] = m;
       done[ci] = true;
       let area = 0,
@@ -1019,10 +1061,14 @@ export function measureComponents(
         area += y[i];
         rect += Math.abs(y[i]);
       }
-      const tOn = t(lat.onsetIndex),
-        tHalf = t(lat.halfRiseIndex),
+      const tOn = t(lat.onsetIndex, 'onset'),
+        tHalf = t(lat.halfRiseIndex, 'half-rise'),
         tPk = t(lat.peakIndex),
-        tC = t(lat.centroidIndex);
+        tC = t(lat.centroidIndex, 'centroid');
+      if (hidden.length)
+        reason =
+          `${hidden.join(', ')} before the end of clipping (${tFirst.toFixed(3)} ms): not measured` +
+          (reason ? `; ${reason}` : '');
       const vel = (tt: number | null) => (tt !== null && tt - util > 0 ? L / (tt - util) : null);
       rows.push({
         ...cond,
@@ -1105,6 +1151,7 @@ export function measureComponents(
           extra,
           pa,
           pb,
+          dec.components[j],
         );
       });
     }
@@ -1304,9 +1351,9 @@ export function measureComponents(
 
 /**
  * Least-squares amplitude (column amplitude_fit_<units>, standard error amplitude_fit_se_<units> for white noise of
- * the row's noise level): each measured or not-detected class component projected on the class's
- * reference waveform at the same site, a = sum(y r) / sum(r r) over the span around the reference's peak where
- * it exceeds 10% of that peak, reported as a x the reference's peak (a class alone in its window is already
+ * the row's noise level): each measured or not-detected class component fitted as a r + b + c t (the class's
+ * reference waveform r at the same site, an offset and a slope) over the span around the reference's peak where it
+ * exceeds 10% of that peak, widened by half that span on each side, reported as a x the reference's peak (a class alone in its window is already
  * measured above its own local baseline). The reference is the mean component of the group's unblocked sweeps
  * (concentration 0 or none) at their highest intensity. Linear in the data, so noise
  * does not inflate a small response as a picked peak does (the maximum of noise is positive); for a wave that
@@ -1370,15 +1417,35 @@ function fittedAmplitudes(
     while (j0 > 0 && tmpl[j0 - 1] > 0.1 * tmpl[ip]) j0--;
     while (j1 < tmpl.length - 1 && tmpl[j1 + 1] > 0.1 * tmpl[ip]) j1++;
     const P = tmpl[ip];
-    let rr = 0;
-    for (let j = j0; j <= j1; j++) rr += tmpl[j] * tmpl[j];
+    // y_j = a tmpl_j + b + c u_j over the 10% span extended by half its length on each side (u centred, scaled to
+    // the span): a slow offset or drift across a wide window is not taken for amplitude (a matched filter with a
+    // nuisance baseline; common practice, no source)
+    const ext = Math.floor((j1 - j0) / 2);
+    const k0 = Math.max(0, j0 - ext),
+      k1 = Math.min(tmpl.length - 1, j1 + ext),
+      jm = (k0 + k1) / 2,
+      w = Math.max(1, k1 - k0);
+    const A = new Array<number>(9).fill(0);
+    for (let j = k0; j <= k1; j++) {
+      const xs = [tmpl[j], 1, (j - jm) / w];
+      for (let a = 0; a < 3; a++) for (let b = 0; b < 3; b++) A[3 * a + b] += xs[a] * xs[b];
+    }
+    const det =
+      A[0] * (A[4] * A[8] - A[5] * A[7]) - A[1] * (A[3] * A[8] - A[5] * A[6]) + A[2] * (A[3] * A[7] - A[4] * A[6]);
+    const inv00 = det !== 0 ? (A[4] * A[8] - A[5] * A[7]) / det : NaN;
     for (const r of projectable) {
-      let yr = 0;
-      for (let j = j0; j <= j1; j++) yr += at(r, lo + j) * tmpl[j];
-      r[col] = (P * yr) / rr;
-      // standard error for white noise of the row's level: var(sum y t) = sigma^2 sum t^2
+      const bb = [0, 0, 0];
+      for (let j = k0; j <= k1; j++) {
+        const v = at(r, lo + j);
+        bb[0] += tmpl[j] * v;
+        bb[1] += v;
+        bb[2] += (v * (j - jm)) / w;
+      }
+      const q = solve3(A, bb);
+      r[col] = q ? P * q[0] : null;
+      // standard error for white noise of the row's level: sd sqrt((A^-1)_00), times P
       const sd = r[`noise_${units}`];
-      r[seCol] = typeof sd === 'number' ? (P * sd) / Math.sqrt(rr) : null;
+      r[seCol] = q && typeof sd === 'number' && inv00 > 0 ? P * sd * Math.sqrt(inv00) : null;
     }
   }
 }
