@@ -209,7 +209,10 @@ function wrap(s){if(typeof s!=='string'||/<br>/i.test(s))return null;var w=s.spl
   var a=w.slice(0,best).join(' ');if((a.match(/</g)||[]).length!==(a.match(/>/g)||[]).length)return null;
   return a+'<br>'+w.slice(best).join(' ');}
 function vis(s){return s.replace(/<[^>]*>/g,'').replace(/&[a-z#0-9]+;/gi,'x').length;}
-function wrapAt(s,n){if(typeof s!=='string'||/<br>/i.test(s))return null;var w=s.split(' '),lines=[],cur='';
+function wrapAt(s,n){if(typeof s!=='string'||/<br>/i.test(s))return null;var w=[],lines=[],cur='';
+  // a number keeps its unit on its line ("20.7 m/s", "27.6 µM")
+  s.split(' ').forEach(function(t){var p=w[w.length-1];if(p&&/\d$/.test(p)&&!/^\d/.test(t)&&vis(t)<=6)w[w.length-1]=p+' '+t;
+    else w.push(t);});
   for(var i=0;i<w.length;i++){var t=cur?cur+' '+w[i]:w[i];if(cur&&vis(t)>n){lines.push(cur);cur=w[i];}else cur=t;}
   lines.push(cur);if(lines.length<2||lines.some(function(l){return(l.match(/</g)||[]).length!==(l.match(/>/g)||[]).length;}))
     return null;return lines.join('<br>');}
@@ -297,7 +300,7 @@ function outside(){var names=gd.data.map(function(t){return t.name;}),bar=!!gd.q
     if(/^[xy]axis\d*$/.test(k)&&titleOf(gd.layout[k]))titles[k+'.title.text']=titleOf(gd.layout[k]);});
   var cands=[['below',0],['right',0],['inside',18],['inside',12],['right',18],['right',12],['below',18],['below',12]]
     .filter(function(c){return!(bar&&c[0]==='right');});
-  function names0(w){var idx=[],nm=[];gd.data.forEach(function(t,i){if(typeof names[i]!=='string')return;
+  function names0(w){var idx=[],nm=[];gd.data.forEach(function(t,i){if(typeof names[i]!=='string'||t.showlegend===false)return;
     var n=w?(wrapAt(names[i],w)||names[i]):names[i];if(n!==t.name){idx.push(i);nm.push(n);}});
     return idx.length?P.restyle(gd,{name:nm},idx):Promise.resolve();}
   function apply(c){var s=gd._fullLayout._size;if(c[0]==='inside'){var u1={};wrapped={};
@@ -306,13 +309,17 @@ function outside(){var names=gd.data.map(function(t){return t.name;}),bar=!!gd.q
         .then(function(){var q=inside();if(!q)return'no';return P.relayout(gd,q).then(function(){return settle(false,0);});});}
     var u=c[0]==='below'?{'legend.orientation':'h','legend.x':-(s.l-pad)/s.w,
       'legend.y':-0.3,'legend.xanchor':'left','legend.yanchor':'top'}:{'legend.orientation':'v','legend.x':1.02,
-      'legend.y':1,'legend.xanchor':'left','legend.yanchor':'top'};
+      'legend.y':1,'legend.xanchor':'left','legend.yanchor':'top','legend.maxheight':gd._fullLayout.height-2*pad};
     u['legend.xref']='paper';u['legend.yref']='paper';u['legend.bgcolor']='rgba(0,0,0,0)';wrapped={};
     Object.keys(titles).forEach(function(k){u[k]=titles[k];});
     return names0(c[1]).then(function(){return P.relayout(gd,u);}).then(function(){return settle(c[0],0);});}
   // the share of the canvas the data keep; with several rows of subplots, the smallest row times the rows
   function score(){var fl=gd._fullLayout,s=fl._size,L=legendBox(),ok=!L||(L.l>=-0.5&&L.t>=-0.5&&L.r<=fl.width+0.5&&
-    L.b<=fl.height+0.5),ys=Object.keys(fl).filter(function(k){return/^yaxis\d*$/.test(k)&&fl[k]._length>0;});
+    L.b<=fl.height+0.5);
+    // every entry shown whole (a legend taller than its room scrolls: entries cut off at its edge)
+    if(L&&ok)Array.prototype.forEach.call(gd.querySelectorAll('.legend text'),function(e){
+      var r=rel(e.getBoundingClientRect(),R());if(r.r-r.l>0&&(r.t<L.t-1||r.b>L.b+1||r.b>fl.height+0.5))ok=false;});
+    var ys=Object.keys(fl).filter(function(k){return/^yaxis\d*$/.test(k)&&fl[k]._length>0;});
     var h=ys.length>1?Math.min.apply(null,ys.map(function(k){return fl[k]._length;}))*ys.length:s.h;
     return ok?Math.min(s.w/fl.width/minW,h/fl.height/minH):-1;}
   // the first layout that leaves the data comfortably more than the least share, else the best of them all

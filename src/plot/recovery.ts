@@ -32,11 +32,13 @@ const legendOnly = (name: string, style: Trace): Trace => ({
 const GREY = '#666';
 const DASHES = ['solid', 'dash', 'dot', 'dashdot', 'longdash'];
 const fmt = (v: number) => String(Number(v.toPrecision(3)));
-/** "0.647 ms" for one value, "0.64-0.79 ms" for several. */
+/** "0.647 ms" for one value, "0.64–0.79 ms" (two significant digits) for a range over preparations. */
 const span = (vs: number[]) => {
   const lo = Math.min(...vs),
     hi = Math.max(...vs);
-  return fmt(lo) === fmt(hi) ? `${fmt(lo)} ms` : `${fmt(lo)}–${fmt(hi)} ms`;
+  const f2 = (v: number) => String(Number(v.toPrecision(2)));
+  if (vs.length === 1) return `${fmt(lo)} ms`;
+  return f2(lo) === f2(hi) ? `${f2(lo)} ms` : `${f2(lo)}–${f2(hi)} ms`;
 };
 
 /**
@@ -179,10 +181,16 @@ export function trainFigure(result: TrainResult): Figure {
     {
       grid: { rows: 2, columns: 1, pattern: 'coupled' },
       yaxis: { title: { text: 'Latency increase (ms)' }, domain: [0.55, 1] },
-      yaxis2: { title: { text: 'Area, fraction of pulse 1' }, domain: [0, 0.45], rangemode: 'tozero' },
       xaxis: { title: { text: 'Pulse number' }, dtick: 1 },
     },
   );
+  // the lower panel's axis in the house style too (axis line, outside ticks, no zero line)
+  layout.yaxis2 = {
+    ...(layout.yaxis as object),
+    title: { text: 'Area, fraction of pulse 1', standoff: 6 },
+    domain: [0, 0.45],
+    rangemode: 'tozero',
+  };
   return new Figure('train responses', { data, layout });
 }
 

@@ -133,6 +133,7 @@ function figures(): Figure[] {
 interface Box {
   text: string;
   cls: string;
+  inLegend: boolean;
   l: number;
   r: number;
   t: number;
@@ -162,15 +163,16 @@ async function measure(page: Page, svg: string): Promise<Check> {
       .map((e) => ({
         text: e.textContent!.trim(),
         cls: (e.parentNode as Element).getAttribute('class') ?? '',
+        inLegend: !!e.closest('.legend'),
         ...rel(e.getBoundingClientRect()),
         fontPx: parseFloat(getComputedStyle(e).fontSize),
       }));
     // the plot area: x extent of the x-axis lines, y extent of the y-axis lines (over every subplot)
     // each subplot's area: the x extent of the x-axis lines (a shared axis draws one) by its y-axis line's extent
-    const xl = [...root.querySelectorAll('path.xlines-above')]
+    const xl = [...root.querySelectorAll('path.xlines-above, path.xlines-below')]
         .map((e) => rel(e.getBoundingClientRect()))
         .filter((r) => r.r - r.l > 1),
-      yl = [...root.querySelectorAll('path.ylines-above')]
+      yl = [...root.querySelectorAll('path.ylines-above, path.ylines-below')]
         .map((e) => rel(e.getBoundingClientRect()))
         .filter((r) => r.b - r.t > 1);
     const subplots = xl.length
@@ -290,6 +292,11 @@ function problems(c: Check, size = { minPt: 7, maxPt: 9 }): string[] {
         `${100 * PLOT_MIN.w}% x ${100 * PLOT_MIN.h}% of the canvas (${c.canvas.w} x ${c.canvas.h})`,
     );
   }
+  // every legend entry whole: none cut off at the legend's edge (a legend too tall for its room scrolls)
+  if (c.legend)
+    for (const b of c.boxes)
+      if (b.inLegend && b.r - b.l > 0 && (b.t < c.legend.t - 1 || b.b > c.legend.b + 1))
+        out.push(`legend entry "${b.text}" is cut off at the legend's edge`);
   // a legend inside the plot area must not cover data: no marker, error bar or line point inside its box
   const inside = (r: Rect, p: Rect) => p.r > r.l + TOL && p.l < r.r - TOL && p.b > r.t + TOL && p.t < r.b - TOL;
   if (c.legend) {
@@ -306,8 +313,10 @@ function problems(c: Check, size = { minPt: 7, maxPt: 9 }): string[] {
 
 const SIZES = [
   { name: 'single column', widthMm: 85, heightMm: 60 },
+  { name: 'narrowest one-and-a-half column', widthMm: 114, heightMm: 76 },
   { name: 'one-and-a-half column', widthMm: 120, heightMm: 80 },
   { name: 'double column', widthMm: 175, heightMm: 100 },
+  { name: 'widest double column', widthMm: 180, heightMm: 110 },
 ];
 
 const browser = findBrowser();
@@ -400,6 +409,8 @@ describe.skipIf(!browser)('print export at journal widths (headless Chromium)', 
         );
       }, html);
       const c = await measure(page, svg);
+      if (process.env.FASCICLE_PRINT_DIR)
+        writeFileSync(join(process.env.FASCICLE_PRINT_DIR, `screen-${figs.indexOf(f)}.svg`), svg);
       if (process.env.FASCICLE_PRINT_DIR)
         writeFileSync(
           join(
