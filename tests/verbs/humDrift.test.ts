@@ -102,6 +102,13 @@ describe('removeHum after baseline gives back what the hum put into the baseline
       // the blanked window [0, 0.4] ms (its last sample at 0.4 + 4e-16 ms) holds the bridge, not data
       for (let i = 0; i < n; i++) if (tt[i] < -0.01 || tt[i] > 0.41) expect(Math.abs(p[i] - q[i])).toBeLessThan(1e-15);
     }
+    // through the subtracting artifact methods too (same time axis); not through a filter (it changes the hum)
+    const tmpl = raw.baseline(b).removeArtifact({ method: 'template', window: [0, 0.4], templateSweeps: [0] });
+    expect(tmpl.removeHum(h).history.at(-1)!.options.baselineRefit).toBe(true);
+    const expo = raw.baseline(b).removeArtifact({ method: 'exponential', window: [0, 0.4], tailWindow: [0.4, 2] });
+    expect(expo.removeHum(h).history.at(-1)!.options.baselineRefit).toBe(true);
+    const filtered = raw.baseline(b).lowpass(2000).removeHum(h);
+    expect(filtered.history.at(-1)!.options.baselineRefit).toBe(false);
     // without the give-back, the baseline's 10 ms of 60 Hz leave up to several uV of level and slope
     const median = raw.baseline({ ...b, method: 'median' }).removeHum(h);
     expect(median.history.at(-1)!.options.baselineRefit).toBe(false);
