@@ -214,7 +214,9 @@ function wrapAt(s,n){if(typeof s!=='string'||/<br>/i.test(s))return null;var w=[
   s.split(' ').forEach(function(t){var p=w[w.length-1];if(p&&/\d$/.test(p)&&!/^\d/.test(t)&&vis(t)<=6)w[w.length-1]=p+' '+t;
     else w.push(t);});
   for(var i=0;i<w.length;i++){var t=cur?cur+' '+w[i]:w[i];if(cur&&vis(t)>n){lines.push(cur);cur=w[i];}else cur=t;}
-  lines.push(cur);if(lines.length<2||lines.some(function(l){return(l.match(/</g)||[]).length!==(l.match(/>/g)||[]).length;}))
+  // no orphan of three letters or fewer on a last line ("95% CI of / fit")
+  lines.push(cur);if(lines.length>1&&vis(lines[lines.length-1])<=3){var last=lines.pop();lines[lines.length-1]+=' '+last;}
+  if(lines.length<2||lines.some(function(l){return(l.match(/</g)||[]).length!==(l.match(/>/g)||[]).length;}))
     return null;return lines.join('<br>');}
 function legendBox(){var lg=gd.querySelector('.legend');if(!lg||gd._fullLayout.showlegend===false)return null;
   var b=lg.querySelector('rect.bg')||lg;var r=rel(b.getBoundingClientRect(),R());return r.r-r.l>0?r:null;}
