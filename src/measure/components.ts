@@ -1026,10 +1026,11 @@ export function measureComponents(
         reason =
           'not resolved: no separate peak or shoulder (the largest value of the class is at the edge of its part of the sweep)';
       }
-      // nothing is read under the rail: the first unclipped sample is the earliest time a latency can have (a peak
-      // before it, in a modelled component, leaves the class not resolved; an earlier onset or half-rise is not
-      // measured)
+      // nothing is read under the rail: the first unclipped sample is the earliest time a peak can have (a peak
+      // before it, in a modelled component, leaves the class not resolved); an onset, half-rise or centroid is read
+      // only where the artifact's subtraction is trusted (two fast time constants after the rail, fitStart)
       const tFirst = info[s].clip === null ? -Infinity : tAt(set.indexAt(info[s].clip!) + 1);
+      const tTrust = info[s].clip === null ? -Infinity : Math.max(tFirst, tAt(info[s].fitStart));
       if (status === 'measured' && tAt(a + lat.peakIndex) < tFirst) {
         status = 'not resolved';
         reason = `not resolved: the peak lies under the amplifier's rail (clipping ends at ${tFirst.toFixed(3)} ms)`;
@@ -1038,7 +1039,7 @@ export function measureComponents(
       const hidden: string[] = [];
       const t = (fi: number | null, name?: string) => {
         if (!ok || fi === null) return null;
-        if (tAt(a + fi) < tFirst) {
+        if (tAt(a + fi) < (name ? tTrust : tFirst)) {
           if (name) hidden.push(name);
           return null;
         }
@@ -1067,7 +1068,8 @@ export function measureComponents(
         tC = t(lat.centroidIndex, 'centroid');
       if (hidden.length)
         reason =
-          `${hidden.join(', ')} before the end of clipping (${tFirst.toFixed(3)} ms): not measured` +
+          `${hidden.join(', ')} before the artifact's subtraction is trusted (${tTrust.toFixed(3)} ms, clipping ` +
+          `ends at ${tFirst.toFixed(3)} ms): not measured` +
           (reason ? `; ${reason}` : '');
       const vel = (tt: number | null) => (tt !== null && tt - util > 0 ? L / (tt - util) : null);
       rows.push({
@@ -1420,7 +1422,7 @@ function fittedAmplitudes(
     // y_j = a tmpl_j + b + c u_j over the 10% span extended by half its length on each side (u centred, scaled to
     // the span): a slow offset or drift across a wide window is not taken for amplitude (a matched filter with a
     // nuisance baseline; common practice, no source)
-    const ext = Math.floor((j1 - j0) / 2);
+    const ext = Math.round((j1 - j0) / 2);
     const k0 = Math.max(0, j0 - ext),
       k1 = Math.min(tmpl.length - 1, j1 + ext),
       jm = (k0 + k1) / 2,
