@@ -27,6 +27,9 @@ try {
     }
     await page.waitForTimeout(300);
     const figs = page.locator('div.fascicle-figure');
+    // the exported page's MathJax status line ("Loading [MathJax]/...") sits fixed over the page: keep it out of
+    // the figure pictures
+    await page.addStyleTag({ content: '#MathJax_Message{display:none !important}' });
     for (let k = 0; k < rendered && rendered === expected; k++) {
       await figs.nth(k).screenshot({ path: f.replace(/\.html$/, `.fig${k}.png`) });
     }
