@@ -11,7 +11,7 @@ import { PLAIN_BLOCK, flushBlock, plainRow } from '../io/plainRows';
 import { normalRows, sineCoefficients, type SineParts } from '../signal/sinefit';
 import { resamplePolyInto } from '../signal/resample';
 import { bridgeGap } from '../signal/bridge';
-import { allFinite32 } from './simd';
+import { allFinite32, allFinite64 } from './simd';
 
 /**
  * Stored samples: float64, or float32 as read from a float32 file (each value widened
@@ -212,7 +212,7 @@ let scratch = new ArrayBuffer(0);
  * the sum, so callers rescan value by value. Four partial sums keep the additions
  * independent (about four times faster than one chain).
  */
-function finiteSum(x: Float64Array, from: number, to: number): boolean {
+export function finiteSum(x: Float64Array, from: number, to: number): boolean {
   let a = 0,
     b = 0,
     c = 0,
@@ -249,6 +249,10 @@ export function finiteSum32(x: Float32Array, from: number, to: number): boolean 
   const t = a + b + c + d;
   return t - t === 0;
 }
+/** Whether float64 x[from..to) are all finite: the SIMD kernel of ./simd.ts, or finiteSum without it. */
+function finite64(x: Float64Array, from: number, to: number): boolean {
+  return allFinite64(x, from, to) ?? finiteSum(x, from, to);
+}
 /** Whether float32 x[from..to) are all finite: the SIMD kernel of ./simd.ts, or finiteSum32 without it. */
 function finite32(x: Float32Array, from: number, to: number): boolean {
   return allFinite32(x, from, to) ?? finiteSum32(x, from, to);
@@ -282,7 +286,7 @@ function load(a: LoadArgs, s0: number, s1: number): number {
     }
     const o = s * n;
     if (direct) {
-      if (!finiteSum(out, o, o + k * n)) for (let i = o, e = o + k * n; i < e; i++) if (out[i] - out[i] !== 0) return i;
+      if (!finite64(out, o, o + k * n)) for (let i = o, e = o + k * n; i < e; i++) if (out[i] - out[i] !== 0) return i;
       continue;
     }
     let src: ArrayLike<number>;
@@ -330,7 +334,7 @@ function load(a: LoadArgs, s0: number, s1: number): number {
     }
     // int16 x a finite gain + a finite offset is always finite
     if (bad >= 0) return bad; // after the chunk is written, so the caller can show the value
-    if (dtype !== 'int16' && !checked && !finiteSum(out, o, o + k * n))
+    if (dtype !== 'int16' && !checked && !finite64(out, o, o + k * n))
       for (let i = o, e = o + k * n; i < e; i++) if (out[i] - out[i] !== 0) return i;
   }
   return -1;

@@ -1,9 +1,10 @@
 /**
- * A WebAssembly SIMD kernel: whether float32 values are all finite. A float32 is NaN or
- * infinite exactly when its eight exponent bits are all set (IEEE 754-2019, 3.4); the kernel
- * masks four values at a time with 0x7f800000 and compares (v128.and, i32x4.eq), about ten
- * times the speed of the JavaScript check (finiteSum32 of ./kernels.ts, kept as the fallback
- * and as the reference in tests/parallel/kernels.test.ts). WebAssembly works on its own
+ * WebAssembly SIMD kernels: whether float32 or float64 values are all finite. A value is NaN
+ * or infinite exactly when its exponent bits are all set (IEEE 754-2019, 3.4); the kernel
+ * masks four float32 (two float64) values at a time with 0x7f800000 (0x7ff0000000000000) and
+ * compares (v128.and, i32x4.eq or i64x2.eq), about ten times the speed of the JavaScript
+ * checks (finiteSum32 and finiteSum of ./kernels.ts, kept as the fallback and as the
+ * reference in tests/parallel/kernels.test.ts). WebAssembly works on its own
  * memory only, so each block of values is copied into a 256 kB scratch memory first (a copy
  * from the cache: the loaders check each block right after reading it).
  *
@@ -11,25 +12,31 @@
  * format, section 5; SIMD opcodes 0xfd xx): no build step and no file to load.
  */
 
-/** bytes of one check: any value of bytes [0, n) non-finite (n a multiple of 64) -> 1, else 0 */
+/**
+ * The module: f(n) for float32, g(n) for float64 values in bytes [0, n) of its memory m (n a
+ * multiple of 64): 1 when any value has all its exponent bits set, else 0.
+ */
 function moduleBytes(): Uint8Array {
-  const MASK = [0x00, 0x00, 0x80, 0x7f, 0x00, 0x00, 0x80, 0x7f, 0x00, 0x00, 0x80, 0x7f, 0x00, 0x00, 0x80, 0x7f];
+  const MASK32 = [0x00, 0x00, 0x80, 0x7f, 0x00, 0x00, 0x80, 0x7f, 0x00, 0x00, 0x80, 0x7f, 0x00, 0x00, 0x80, 0x7f];
+  const MASK64 = [0x00, 0x00, 0x00, 0x00, 0x00, 0x00, 0xf0, 0x7f, 0x00, 0x00, 0x00, 0x00, 0x00, 0x00, 0xf0, 0x7f];
+  const EQ32 = [0xfd, 0x37], // i32x4.eq
+    EQ64 = [0xfd, 0xd6, 0x01]; // i64x2.eq
   // acc |= (v128.load(i + off) & MASK) == MASK, lane by lane
-  const lane = (off: number) => [
+  const lane = (off: number, mask: number[], eq: number[]) => [
     ...[0x20, 0x02, 0x20, 0x01], // local.get acc, local.get i
     ...[0xfd, 0x00, 0x04, off], // v128.load align 16, offset off
-    ...[0xfd, 0x0c, ...MASK, 0xfd, 0x4e], // v128.const MASK, v128.and
-    ...[0xfd, 0x0c, ...MASK, 0xfd, 0x37], // v128.const MASK, i32x4.eq
+    ...[0xfd, 0x0c, ...mask, 0xfd, 0x4e], // v128.const mask, v128.and
+    ...[0xfd, 0x0c, ...mask, ...eq], // v128.const mask, eq
     ...[0xfd, 0x50, 0x21, 0x02], // v128.or, local.set acc
   ];
-  const body = [
+  const body = (mask: number[], eq: number[]) => [
     ...[0x02, 0x01, 0x7f, 0x01, 0x7b], // locals: i (i32), acc (v128)
     ...[0x02, 0x40, 0x03, 0x40], // block, loop
     ...[0x20, 0x01, 0x20, 0x00, 0x4f, 0x0d, 0x01], // br_if 1 (i >= n, unsigned)
-    ...lane(0),
-    ...lane(16),
-    ...lane(32),
-    ...lane(48),
+    ...lane(0, mask, eq),
+    ...lane(16, mask, eq),
+    ...lane(32, mask, eq),
+    ...lane(48, mask, eq),
     ...[0x20, 0x01, 0x41, 0xc0, 0x00, 0x6a, 0x21, 0x01], // i += 64
     ...[0x0c, 0x00, 0x0b, 0x0b], // br 0, end loop, end block
     ...[0x20, 0x02, 0xfd, 0x53, 0x0b], // v128.any_true acc, end
@@ -45,28 +52,42 @@ function moduleBytes(): Uint8Array {
     return out;
   };
   const section = (id: number, bytes: number[]) => [id, ...leb(bytes.length), ...bytes];
+  const f = body(MASK32, EQ32),
+    g = body(MASK64, EQ64);
   return new Uint8Array([
     ...[0x00, 0x61, 0x73, 0x6d, 0x01, 0x00, 0x00, 0x00], // magic, version 1
     ...section(1, [0x01, 0x60, 0x01, 0x7f, 0x01, 0x7f]), // type: (i32) -> i32
-    ...section(3, [0x01, 0x00]), // one function of that type
+    ...section(3, [0x02, 0x00, 0x00]), // two functions of that type
     ...section(5, [0x01, 0x00, SCRATCH_PAGES]), // memory: SCRATCH_PAGES pages of 64 kB
-    ...section(7, [0x02, 0x01, 0x66, 0x00, 0x00, 0x01, 0x6d, 0x02, 0x00]), // export "f" (function), "m" (memory)
-    ...section(10, [0x01, ...leb(body.length), ...body]),
+    // exports "f" (function 0), "g" (function 1), "m" (the memory)
+    ...section(7, [0x03, 0x01, 0x66, 0x00, 0x00, 0x01, 0x67, 0x00, 0x01, 0x01, 0x6d, 0x02, 0x00]),
+    ...section(10, [0x02, ...leb(f.length), ...f, ...leb(g.length), ...g]),
   ]);
 }
 
 const SCRATCH_PAGES = 4;
-/** float32 values per scratch block (256 kB) */
+/** float32 values per scratch block (256 kB; half as many float64 values) */
 const BLOCK = (SCRATCH_PAGES * 65536) / 4;
 
-let kernel: { anyBad: (bytes: number) => number; scratch: Float32Array } | null | undefined;
+interface Kernel {
+  anyBad32: (bytes: number) => number;
+  anyBad64: (bytes: number) => number;
+  scratch32: Float32Array;
+  scratch64: Float64Array;
+}
+let kernel: Kernel | null | undefined;
 /** The instantiated kernel of this thread, or null where WebAssembly SIMD is not available. */
-function simd(): typeof kernel {
+function simd(): Kernel | null {
   if (kernel === undefined) {
     try {
       const { exports } = new WebAssembly.Instance(new WebAssembly.Module(moduleBytes()));
       const m = exports.m as WebAssembly.Memory;
-      kernel = { anyBad: exports.f as (bytes: number) => number, scratch: new Float32Array(m.buffer, 0, BLOCK) };
+      kernel = {
+        anyBad32: exports.f as (bytes: number) => number,
+        anyBad64: exports.g as (bytes: number) => number,
+        scratch32: new Float32Array(m.buffer, 0, BLOCK),
+        scratch64: new Float64Array(m.buffer, 0, BLOCK / 2),
+      };
     } catch {
       kernel = null;
     }
@@ -88,8 +109,25 @@ export function allFinite32(x: Float32Array, from: number, to: number): boolean 
     const e = Math.min(to, i + BLOCK);
     const e64 = i + ((e - i) & ~15); // whole 64-byte steps in the kernel, the rest here
     if (e64 > i) {
-      k.scratch.set(x.subarray(i, e64));
-      if (k.anyBad((e64 - i) * 4) !== 0) return false;
+      k.scratch32.set(x.subarray(i, e64));
+      if (k.anyBad32((e64 - i) * 4) !== 0) return false;
+    }
+    for (let j = e64; j < e; j++) if (x[j] - x[j] !== 0) return false;
+  }
+  return true;
+}
+
+/** allFinite32 for float64 values (exponent bits 0x7ff0000000000000). */
+export function allFinite64(x: Float64Array, from: number, to: number): boolean | null {
+  const k = simd();
+  if (!k) return null;
+  const block = BLOCK / 2;
+  for (let i = from; i < to; i += block) {
+    const e = Math.min(to, i + block);
+    const e64 = i + ((e - i) & ~7);
+    if (e64 > i) {
+      k.scratch64.set(x.subarray(i, e64));
+      if (k.anyBad64((e64 - i) * 8) !== 0) return false;
     }
     for (let j = e64; j < e; j++) if (x[j] - x[j] !== 0) return false;
   }
