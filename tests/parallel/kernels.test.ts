@@ -277,7 +277,7 @@ describe('loadAsRead kernel (float32 kept as read)', () => {
   });
 });
 describe('the finiteness check of float32 samples', () => {
-  it('the WebAssembly SIMD check agrees with the JavaScript one (its reference) at every length and position', async () => {
+  it('the SIMD check agrees with the JavaScript one (its reference) at every length and position', async () => {
     const { allFinite32, hasSimd } = await import('../../src/parallel/simd');
     const { finiteSum32 } = await import('../../src/parallel/kernels');
     expect(hasSimd()).toBe(true); // Node 16.4+ on x64 and arm64 has WebAssembly SIMD
