@@ -386,7 +386,7 @@ export function sfpStep(
   h: number,
   J: number,
   smoothing: number,
-): { sfp: Sfp; scale: number } | null {
+): { sfp: Sfp; scale: number; df: number } | null {
   const K = m.v.length;
   // G = (PB)'(PB) = B'B - sum over blocks and basis vectors e of (e'B)(e'B)', built from the
   // sparse rows of B (four nodes per velocity); c = (PB)'b = B'b because b is already projected.
@@ -448,18 +448,23 @@ export function sfpStep(
     off += bl.t.length;
   });
   const R = secondDifferencePenalty(J);
+  const G0 = Float64Array.from(G);
   const scale = trace(G, J) / J;
   if (!(scale > 0)) return null;
   for (let i = 0; i < J * J; i++) G[i] += smoothing * scale * R[i];
   for (let i = 0; i < J; i++) G[i * J + i] += 1e-9 * scale;
   const g = cholSolve(G, J, c, 1);
   if (!g) return null;
+  // effective number of parameters of the penalised node values: tr[(G + s R)^-1 G]
+  const X = cholSolve(G, J, G0, J);
+  let df = 0;
+  if (X) for (let j = 0; j < J; j++) df += X[j * J + j];
   let peak = 0;
   for (const x of g) if (Math.abs(x) > Math.abs(peak)) peak = x;
   if (peak === 0) return null;
   const sc = Math.abs(peak);
   for (let j = 0; j < J; j++) g[j] /= sc;
-  return { sfp: { tau0, h, g }, scale: sc };
+  return { sfp: { tau0, h, g }, scale: sc, df };
 }
 
 /** Linear interpolation of a sampled response at time x (0 before `startMs` and outside). */

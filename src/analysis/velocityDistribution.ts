@@ -48,7 +48,7 @@
  *   a good ridge parameter. Technometrics 21:215-223.
  * Hursh JB (1939) Conduction velocity and diameter of nerve fibers. Am J Physiol 127:131-139.
  */
-import type { SweepSet, ConditionValue, Step, Source } from '../sweeps/SweepSet';
+import type { SweepSet, Step, Source } from '../sweeps/SweepSet';
 import type { Figure } from '../plot/figure';
 import { Result } from '../notebook/result';
 import { AnalysisError, OptionError } from '../errors';
@@ -80,8 +80,7 @@ import {
   supportByGcv,
   type SfpShape,
 } from './vdistCore';
-
-type Row = Record<string, ConditionValue>;
+import type { Row } from '../registry/types';
 
 /** Draws a result's figure; set by src/plot/velocityDistribution.ts when it loads (plot imports analysis, not back). */
 type FigureBuilder = (
@@ -150,10 +149,10 @@ export interface VelocityDistributionOptions {
    */
   artifactTauMs?: number[];
   /**
-   * mains hum in the final amplitudes: frequencies (Hz, harmonics listed, e.g. [50, 100, 150]) modelled as a sine and
-   * cosine per distance, or 'detect': none, 50 or 60 Hz with two harmonics, whichever GCV prefers. Default [] (none):
-   * over a window of a few mains cycles a sinusoid is far from orthogonal to a wave a few ms wide and takes part of
-   * it (seen with slow C waves), so hum is better removed from whole sweeps first (SweepSet.removeHum)
+   * mains hum: frequencies (Hz, harmonics listed, e.g. [50, 100, 150]) modelled as a sine and
+   * cosine per distance, or 'detect' (default): none, 50 or 60 Hz with two harmonics, whichever GCV prefers, chosen
+   * once a two-phase potential is known and modelled while the potential is refined on nodes (a potential free on
+   * nodes would otherwise take up the hum) and in the final amplitudes. Given frequencies are modelled throughout
    */
   humHz?: number[] | 'detect';
   /** quiet window for the noise SD, ms (default: sweep start to -0.1 ms) */
@@ -187,7 +186,7 @@ export const velocityDistributionDefaults = {
   fitEnd: 'slowest-arrival' as const,
   sfpRefine: true,
   support: 'gcv' as const,
-  humHz: [] as number[],
+  humHz: 'detect' as const,
   sfpWindowFraction: [-0.01, 0.25] as [number, number],
   sfpSmoothing: 1e-3,
   sfpModel: 'two-phase' as const,
@@ -390,7 +389,12 @@ export function methodsSentence(o: Record<string, unknown>): [string, string[]] 
     'a two-phase form (a main phase and an opposite after-phase, each (s/tau)^n exp(n(1 - s/tau)), with its onset, ' +
     'two time constants, after-phase ratio and n) fitted with the amplitudes by variable projection ' +
     '(Golub & Pereyra 1973; Nelder-Mead simplex), its time origin absorbing the utilisation delay' +
-    (o.sfpRefine ? `, then refined on nodes by ${free}` : '');
+    (o.sfpRefine && o.sfpRefined !== false
+      ? `, then refined on nodes by ${free}`
+      : o.sfpRefine
+        ? ' (a refinement on nodes was tried and not kept: with its parameters counted it did not lower the ' +
+          'generalised cross-validation score)'
+        : '');
   const sfp =
     o.sfp === 'estimate'
       ? `a single-fibre potential estimated from the data by ${o.sfpModel === 'free' ? free : twoPhase}`
@@ -810,10 +814,16 @@ export function velocityDistribution(
       prep.perSweep[i] = prep.perSweep[i].map((x) => x.slice(0, m));
     });
   }
-  const bases = blocks.map((bl, i) => nuisanceBasis(bl.t, bl.sigma, driftDeg, tausBy[i], [], bl.t[0]));
-  const nNuis = bases.reduce((s, b) => s + b.length, 0);
+  // given hum frequencies are modelled from the start (also while the potential is estimated: a potential free on
+  // nodes would otherwise take up hum); 'detect' chooses them once a two-phase potential is known (below)
+  const baseHz = Array.isArray(humOpt) ? humOpt : [];
+  const family = (f: number) => [f, 2 * f, 3 * f].filter((x) => x < set.fs / 2);
+  const basesFor = (hz: number[]) =>
+    blocks.map((bl, i) => nuisanceBasis(bl.t, bl.sigma, driftDeg, tausBy[i], hz, bl.t[0]));
+  let bases = basesFor(baseHz);
+  let nNuis = bases.reduce((s, b) => s + b.length, 0);
   const nRows = blocks.reduce((s, b) => s + b.t.length, 0);
-  const b = dataVector(blocks, bases);
+  let b = dataVector(blocks, bases);
   const R = secondDifferencePenalty(K);
   const h = Math.max(set.dtMs, (sw[1] - sw[0]) / 200);
   const J = Math.floor((sw[1] - sw[0]) / h) + 1;
@@ -828,6 +838,9 @@ export function velocityDistribution(
   let iter = 0,
     converged = true;
   let shape: SfpShape | null = null;
+  let shapeFit: { sfp: Sfp; u: Float64Array; sol: typeof sol; converged: boolean } | null = null;
+  let sfpDf = NaN;
+  let refined = false;
   const choose = (G: Float64Array, c: Float64Array, bb: number) =>
     lambdaOpt === 'gcv'
       ? gcvSolve(G, c, bb, R, K, nRows, nNuis)
@@ -897,6 +910,27 @@ export function velocityDistribution(
     const gg = gram(designMatrix(blocks, bases, model, sfp), nRows, K, b);
     sol = choose(gg.G, gg.c, gg.bb);
     u = sol.u;
+    shapeFit = { sfp, u, sol, converged };
+  }
+  // hum 'detect' before a refinement on nodes: none, 50 or 60 Hz with two harmonics, whichever GCV prefers with the
+  // two-phase potential fixed; the refinement and its comparison with the two-phase potential then model it
+  let hzEstimate: number[] = baseHz;
+  if (humOpt === 'detect' && shapeFit && sfpRefine && method === 'decomposition') {
+    for (const hz of [family(50), family(60)]) {
+      const bF = basesFor(hz);
+      const nF = bF.reduce((s, x) => s + x.length, 0);
+      const bv = dataVector(blocks, bF);
+      const gg = gram(designMatrix(blocks, bF, model, sfp), nRows, K, bv);
+      const keep = nNuis;
+      nNuis = nF;
+      const s2 = choose(gg.G, gg.c, gg.bb);
+      if (s2.gcv < shapeFit.sol.gcv) {
+        [bases, b, hzEstimate] = [bF, bv, hz];
+        shapeFit = { ...shapeFit, u: s2.u, sol: s2 };
+        u = s2.u;
+        sol = s2;
+      } else nNuis = keep;
+    }
   }
   if (!sfpGiven && (method !== 'decomposition' || sfpModel !== 'two-phase' || sfpRefine)) {
     const initU = shape ? Float64Array.from(u) : null;
@@ -926,6 +960,7 @@ export function velocityDistribution(
           'the single-fibre potential could not be estimated (no signal in the fit window at the grid velocities); check fitWindow, velocityRange and sfpWindow',
         );
       s0 = st.sfp;
+      sfpDf = st.df;
       const A = designMatrix(blocks, bases, model, s0);
       const gg = gram(A, nRows, K, b);
       if (method === 'two-distance') {
@@ -1006,11 +1041,31 @@ export function velocityDistribution(
     }
     if (iter > maxIt) iter = maxIt;
     sfp = s0!;
+    refined = true;
+    // the node refinement of a two-phase potential is kept only when it pays for its parameters: generalised
+    // cross-validation with the potential's own degrees of freedom counted (5 shape parameters; the effective number
+    // of the penalised node values, sfpStep), the amplitudes' smoothness weight by GCV for each potential
+    if (shapeFit && method === 'decomposition') {
+      const withSfp = (g: number, df: number, extra: number) => {
+        const d0 = nRows - df - nNuis,
+          d1 = d0 - extra;
+        return d1 > 0 ? g * (d0 / d1) ** 2 : Infinity;
+      };
+      const gRefined = withSfp(sol.gcv, sol.df, sfpDf);
+      const gShape = withSfp(shapeFit.sol.gcv, shapeFit.sol.df, 5);
+      if (!(gRefined < gShape)) {
+        notes.push(
+          `the two-phase potential was kept: refining it on nodes (${sfpDf.toFixed(0)} effective parameters) ` +
+            `did not lower the generalised cross-validation score (${gRefined.toPrecision(4)} vs ${gShape.toPrecision(4)})`,
+        );
+        ({ sfp, u, sol, converged } = shapeFit);
+        refined = false;
+      }
+    }
   }
   // final amplitudes with the potential fixed: mains hum (given, or detected: none, 50 or 60 Hz with two harmonics,
   // whichever GCV prefers; added only now, as with the potential free it would trade with its after-phase), the
   // smoothness weight and the support of the distribution by GCV (bins outside held at zero)
-  const family = (f: number) => [f, 2 * f, 3 * f].filter((x) => x < set.fs / 2);
   const humSets: number[][] = humOpt === 'detect' ? [[], family(50), family(60)] : [humOpt];
   const Araw = designMatrix(blocks, bases, model, sfp, false);
   const scaleOf = (GG: Float64Array, RR: Float64Array, m: number) => trG(GG, m) / trG(RR, m);
@@ -1028,12 +1083,11 @@ export function velocityDistribution(
   }
   let fin: Final | null = null;
   for (const hz of humSets) {
-    const bF = hz.length
-      ? blocks.map((bl, i) => nuisanceBasis(bl.t, bl.sigma, driftDeg, tausBy[i], hz, bl.t[0]))
-      : bases;
+    const same = hz.join() === hzEstimate.join();
+    const bF = same ? bases : basesFor(hz);
     const nF = bF.reduce((a, x) => a + x.length, 0);
-    const bv = hz.length ? dataVector(blocks, bF) : b;
-    const AF = hz.length ? designMatrix(blocks, bF, model, sfp) : designMatrix(blocks, bases, model, sfp);
+    const bv = same ? b : dataVector(blocks, bF);
+    const AF = designMatrix(blocks, bF, model, sfp);
     const gF = gram(AF, nRows, K, bv);
     const full = scaleOf(gF.G, R, K);
     const solve = (GG: Float64Array, cc: Float64Array, RR: Float64Array, m: number) => {
@@ -1254,7 +1308,12 @@ export function velocityDistribution(
   }));
   // status
   const st: string[] = [];
-  if (!converged) st.push(`amplitudes and potential did not settle in ${iterations} alternations`);
+  if (!converged)
+    st.push(
+      refined || !shape
+        ? `amplitudes and potential did not settle in ${iterations} alternations`
+        : `the two-phase potential's shape search stopped at its limit of ${iterations * 4} evaluations`,
+    );
   const tot = nTot(u);
   const edgeMass = (u[0] + u[1] + u[K - 2] + u[K - 1]) / Math.max(tot, 1e-300);
   if (!(tot > 0)) st.push('no fibres found: the distribution is empty');
@@ -1288,6 +1347,7 @@ export function velocityDistribution(
       sfpSmoothing: smoothing,
       sfpModel,
       sfpRefine,
+      sfpRefined: refined,
       support: supportOpt,
       supportM_s: [Number(v[lo].toPrecision(4)), Number(v[hi - 1].toPrecision(4))],
       sfpShape: shape ? Object.fromEntries(Object.entries(shape).map(([k, x]) => [k, Number(x.toPrecision(4))])) : null,
@@ -1306,6 +1366,7 @@ export function velocityDistribution(
       artifactTauMs: taus.map((x) => Number(x.toPrecision(4))),
       humHz: humOpt,
       humHzUsed: fin!.hz,
+      humHzWhileEstimating: hzEstimate,
       lambda: lambdaOpt,
       alternationLambda,
       chosenLambda: sol.lambda,
