@@ -88,11 +88,12 @@ const schema11 = {
             scaling: {},
             fitWindow: {},
             tailWindow: {},
+            exponentials: {},
           },
         },
         hum: {
           description: 'Mains-hum removal (object, or false).',
-          properties: { frequency: {}, harmonics: {}, exclude: {} },
+          properties: { frequency: {}, harmonics: {}, exclude: {}, drift: {} },
         },
         filter: {
           description: 'Zero-phase Butterworth filter (object, or false).',
@@ -144,6 +145,8 @@ const schema11 = {
             poolSites: {},
             minConcentrations: {},
             maxLatencyShift: {},
+            belowDetection: {},
+            freeTop: {},
           },
         },
         recruitment: {
@@ -211,6 +214,7 @@ const schema11 = {
             nVelocities: {},
             fitWindow: {},
             fitStartByDistance: {},
+            fitEnd: {},
             sfp: {},
             sfpWindow: {},
             sfpModel: {},
