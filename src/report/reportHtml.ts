@@ -20,7 +20,7 @@ import { studyFigureList, tableSpec } from '../registry/index';
 import { bundleColumns, studyColumnUnits } from '../registry/columns';
 import { escapeHtml, formatCell, tableHtml, displayHtml } from '../notebook/html';
 import { checkKeys } from '../validate';
-import { intervalText, referenceLookup, siteText } from './summary';
+import { intervalText, referenceLookup, siteText, velocityLines } from './summary';
 
 type Row = Record<string, unknown>;
 
@@ -124,26 +124,8 @@ function summaryHtml(study: Study, figures: readonly Figure[]): string {
     `flags: ${flagText}`,
   ];
   const head: string[] = [];
-  const rec = t.velocity.filter((r) => r.recommended === true && r.preparation !== undefined);
-  if (rec.length) {
-    // per class in the classes' order (fastest first), with the estimator and the conditions of the estimates
-    for (const c of classes) {
-      const ok = rec.filter((r) => String(r.class) === c && typeof r.velocity_m_s === 'number' && r.status === 'ok');
-      if (!ok.length) continue;
-      const v = ok.map((r) => r.velocity_m_s as number);
-      const lo = Math.min(...v),
-        hi = Math.max(...v);
-      const how = [...new Set(ok.map((r) => `${r.method} ${r.basis}`))].join(', ');
-      const temps = [...new Set(ok.map((r) => r.temperatureC).filter((x) => typeof x === 'number'))];
-      const at = temps.length ? ` at ${temps.join(', ')} °C` : '';
-      const nPreps = new Set(ok.map((r) => String(r.preparation))).size;
-      const range = hi > lo ? `${formatCell(lo)}-${formatCell(hi)} m/s (range` : `${formatCell(lo)} m/s (`;
-      head.push(
-        `conduction velocity ${escapeHtml(c)}${escapeHtml(at)}: ${range} over ${plural(nPreps, 'preparation')}, ` +
-          `${plural(v.length, 'estimate')}; ${escapeHtml(how)})`,
-      );
-    }
-  }
+  // per class in the classes' order (fastest first), with the estimator and the conditions of the estimates
+  for (const line of velocityLines(study, formatCell)) head.push(escapeHtml(line));
   const site = referenceLookup(t.components, study.recording?.referenceDistanceMm);
   const interval = (lo: unknown, hi: unknown) => escapeHtml(intervalText(lo, hi, formatCell));
   for (const r of t.dose_response_summary)

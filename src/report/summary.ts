@@ -66,6 +66,37 @@ export function siteText(row: Row, referenceOf: (row: Row) => number | null): st
   return ref === null ? ` at ${d} mm` : ` at bipolar ${d}-${ref} mm`;
 }
 
+/**
+ * The recommended conduction velocity of each class in words, classes in the component table's order (fastest
+ * first): "conduction velocity A-delta at 37 °C: 19.1-21.9 m/s (range over 4 preparations, 4 estimates; two-site
+ * xcorr)". Only rows with status ok; none when the study has no velocity table.
+ */
+export function velocityLines(s: Study, fmt: (v: number) => string = summaryNumber): string[] {
+  const t = s.tables;
+  const rec = (t.velocity ?? []).filter((r) => r.recommended === true && r.preparation !== undefined);
+  const classes = [...new Set((t.components ?? []).map((r) => String(r.class ?? '')))].filter((c) => c);
+  for (const r of rec) if (!classes.includes(String(r.class))) classes.push(String(r.class));
+  const out: string[] = [];
+  for (const c of classes) {
+    const ok = rec.filter((r) => String(r.class) === c && typeof r.velocity_m_s === 'number' && r.status === 'ok');
+    if (!ok.length) continue;
+    const v = ok.map((r) => r.velocity_m_s as number);
+    const lo = Math.min(...v),
+      hi = Math.max(...v);
+    const how = [...new Set(ok.map((r) => `${r.method} ${r.basis}`))].join(', ');
+    const temps = [...new Set(ok.map((r) => r.temperatureC).filter((x) => typeof x === 'number'))];
+    const at = temps.length ? ` at ${temps.join(', ')} °C` : '';
+    const nPreps = new Set(ok.map((r) => String(r.preparation))).size;
+    const range = hi > lo ? `${fmt(lo)}-${fmt(hi)} m/s (range over` : `${fmt(lo)} m/s (over`;
+    const plural = (n: number, w: string) => `${n} ${w}${n === 1 ? '' : 's'}`;
+    out.push(
+      `conduction velocity ${c}${at}: ${range} ${plural(nPreps, 'preparation')}, ${plural(v.length, 'estimate')}; ` +
+        `${how})`,
+    );
+  }
+  return out;
+}
+
 /** Options of summaryLines. */
 export interface SummaryOptions {
   /**
@@ -85,7 +116,7 @@ export function summaryLines(s: Study, options: SummaryOptions = {}): string[] {
   const ref = referenceLookup(t.components ?? [], options.referenceDistanceMm ?? s.recording?.referenceDistanceMm);
   const at = (r: Row) => siteText(r, ref);
   const n = summaryNumber;
-  const out: string[] = [];
+  const out: string[] = velocityLines(s);
   for (const row of t.dose_response_summary ?? []) {
     if (typeof row.ic50 !== 'number') continue;
     const hill = typeof row.hill === 'number' ? `, Hill slope ${n(row.hill)}` : '';

@@ -171,3 +171,59 @@ describe('summaryLines after a merge or unblinding (no options)', () => {
     expect(summaryLines(s)).toEqual(['Q10 C at bipolar 15-25 mm: 1.9 (95% CI not available)']);
   });
 });
+
+describe('summaryLines: conduction velocities', () => {
+  it('prints the recommended velocity per class, fastest class first, with its estimator', () => {
+    const s = {
+      tables: {
+        components: [{ class: 'A' }, { class: 'C' }],
+        flags: [],
+        velocity: [
+          {
+            preparation: 'P1',
+            class: 'C',
+            recommended: true,
+            method: 'regression',
+            basis: 'centroid',
+            velocity_m_s: 1.2,
+            status: 'ok',
+            temperatureC: 37,
+          },
+          {
+            preparation: 'P1',
+            class: 'A',
+            recommended: true,
+            method: 'regression',
+            basis: 'peak',
+            velocity_m_s: 76.9,
+            status: 'ok',
+            temperatureC: 37,
+          },
+          {
+            preparation: 'P2',
+            class: 'A',
+            recommended: true,
+            method: 'regression',
+            basis: 'peak',
+            velocity_m_s: 85.25,
+            status: 'ok',
+            temperatureC: 37,
+          },
+          {
+            preparation: 'P2',
+            class: 'C',
+            recommended: false,
+            method: 'single-site',
+            basis: 'onset',
+            velocity_m_s: 9,
+            status: 'ok',
+          },
+        ],
+      },
+    } as unknown as Study;
+    expect(summaryLines(s)).toEqual([
+      'conduction velocity A at 37 °C: 76.9-85.3 m/s (range over 2 preparations, 2 estimates; regression peak)',
+      'conduction velocity C at 37 °C: 1.2 m/s (over 1 preparation, 1 estimate; regression centroid)',
+    ]);
+  });
+});
