@@ -117,13 +117,11 @@ export function groupFigure(result: GroupComparison, options: GroupFigureOptions
   });
   const byCondition = !!o.condition && conds.length > 1;
   if (byCondition) groups.forEach((g, gi) => data.push(entry(esc(String(g)), { color: colour(gi), size: 7 })));
-  data.push(
-    entry(byCondition ? 'One preparation (joined across conditions)' : 'One preparation', {
-      color: '#666',
-      size: 7,
-      opacity: 0.75,
-    }),
-  );
+  // with conditions, a preparation's points are joined: its entry is a point on a line, as drawn
+  data.push({
+    ...entry('One preparation', { color: '#666', size: 7, opacity: 0.75 }),
+    ...(byCondition ? { mode: 'lines+markers', line: { color: '#666', width: 0.8 } } : {}),
+  });
   data.push(entry('Mean and 95% CI', { symbol: 'line-ew-open', size: 16, color: '#222', line: { width: 2 } }));
   // the y title: the caller's label with the unit, or the column's measure label (which carries its unit)
   const unit = o.unit ? ` (${unitText(o.unit)})` : '';

@@ -1,11 +1,15 @@
 /**
- * Print export at journal widths, checked in headless Chromium: every figure kind is
- * rendered for print at single (85 mm), one-and-a-half (120 mm) and double (175 mm)
- * column width, the exported SVG is put back into a page and the bounding box of every
- * text element is measured: no two overlap, none leaves the canvas, none sits on the
- * plot area unless it is a tick label of its own axis, and text is 7-9 pt at print size.
+ * Print export at journal widths, checked in headless Chromium. The figures are the real ones (realFigures.ts):
+ * every figure the pipeline writes for the demo bundle, the paired-pulse and train demo and the two-group demo, and
+ * the notebooks' figures on the demo data, with their real names, legends and data; plus the simulated figures of
+ * notebook 05. Each is rendered for print at single (85 mm), the narrowest and a middle one-and-a-half (114, 120 mm)
+ * and double column (175, 180 mm) width, the exported SVG is put back into a page and the bounding box of every text
+ * element is measured: no two overlap, none leaves the canvas, no legend entry is cut off, no title sits on a plot
+ * area, a legend inside the plot covers no data, text is 7-9 pt at print size, and the plot area keeps at least
+ * PLOT_MIN (figure.ts: 40% of the canvas width, 45% of its height; it says why) of the canvas.
  * Widths: common journal practice (85-90, 114-140, 170-180 mm), no single source.
- * One browser launch for the whole file.
+ * One browser launch for the whole file. FASCICLE_PRINT_DIR=<folder> keeps a PNG of each figure at each width;
+ * FASCICLE_PRINT_ONLY=<regex> checks only the figures whose name matches.
  */
 import { describe, it, expect, beforeAll, afterAll } from 'vitest';
 import { mkdtempSync, readFileSync, writeFileSync, mkdirSync } from 'node:fs';
