@@ -386,7 +386,8 @@ export function sfpStep(
   h: number,
   J: number,
   smoothing: number,
-): { sfp: Sfp; scale: number; df: number } | null {
+  gcv?: { n: number; fixedDf: number; bb: number },
+): { sfp: Sfp; scale: number; df: number; smoothing: number } | null {
   const K = m.v.length;
   // G = (PB)'(PB) = B'B - sum over blocks and basis vectors e of (e'B)(e'B)', built from the
   // sparse rows of B (four nodes per velocity); c = (PB)'b = B'b because b is already projected.
@@ -451,6 +452,34 @@ export function sfpStep(
   const G0 = Float64Array.from(G);
   const scale = trace(G, J) / J;
   if (!(scale > 0)) return null;
+  if (gcv) {
+    // the potential's own smoothness weight by generalised cross-validation: RSS = b'b - 2 g'c + g'G g and the
+    // effective number of node values tr[(G + s R)^-1 G], with the amplitudes' and the nuisance's parameters fixed
+    let best = Infinity;
+    for (let e = -6; e <= 2 + 1e-9; e += 0.5) {
+      const sm = Math.pow(10, e);
+      const M = new Float64Array(J * J);
+      for (let i = 0; i < J * J; i++) M[i] = G0[i] + sm * scale * R[i];
+      for (let i = 0; i < J; i++) M[i * J + i] += 1e-9 * scale;
+      const gg = cholSolve(M, J, c, 1);
+      const X = gg && cholSolve(M, J, G0, J);
+      if (!gg || !X) continue;
+      let rss = gcv.bb,
+        df = 0;
+      for (let j = 0; j < J; j++) {
+        let s2 = 0;
+        for (let l = 0; l < J; l++) s2 += G0[j * J + l] * gg[l];
+        rss += gg[j] * s2 - 2 * gg[j] * c[j];
+        df += X[j * J + j];
+      }
+      const dof = gcv.n - df - gcv.fixedDf;
+      const score = dof > 0 ? (gcv.n * Math.max(rss, 0)) / (dof * dof) : Infinity;
+      if (score < best) {
+        best = score;
+        smoothing = sm;
+      }
+    }
+  }
   for (let i = 0; i < J * J; i++) G[i] += smoothing * scale * R[i];
   for (let i = 0; i < J; i++) G[i * J + i] += 1e-9 * scale;
   const g = cholSolve(G, J, c, 1);
@@ -464,7 +493,7 @@ export function sfpStep(
   if (peak === 0) return null;
   const sc = Math.abs(peak);
   for (let j = 0; j < J; j++) g[j] /= sc;
-  return { sfp: { tau0, h, g }, scale: sc, df };
+  return { sfp: { tau0, h, g }, scale: sc, df, smoothing };
 }
 
 /** Linear interpolation of a sampled response at time x (0 before `startMs` and outside). */

@@ -129,8 +129,12 @@ export interface VelocityDistributionOptions {
   support?: 'gcv' | 'grid';
   /** refine a two-phase potential on nodes by alternating least squares, started from it (default true) */
   sfpRefine?: boolean;
-  /** second-difference penalty of the estimated potential, relative (default 1e-3) */
-  sfpSmoothing?: number;
+  /**
+   * second-difference penalty of a potential estimated on nodes, relative (default 1e-3), or 'gcv': chosen by
+   * generalised cross-validation of the potential's step (at the first and fifth alternation), which counts fewer
+   * effective node values when the data are noisy
+   */
+  sfpSmoothing?: number | 'gcv';
   /** p: peak amplitude proportional to v^p (default 2) */
   amplitudeExponent?: number;
   /** q: duration proportional to v^-q (default 0) */
@@ -591,7 +595,7 @@ function validate(o: VelocityDistributionOptions): void {
   if (o.support !== undefined) oneOf('support', o.support, ['gcv', 'grid']);
   if (o.sfpRefine !== undefined && typeof o.sfpRefine !== 'boolean')
     throw new OptionError(`invalid sfpRefine: ${shown(o.sfpRefine)}; must be true or false`);
-  if (o.sfpSmoothing !== undefined) {
+  if (o.sfpSmoothing !== undefined && o.sfpSmoothing !== 'gcv') {
     finite('sfpSmoothing', o.sfpSmoothing);
     if (!(o.sfpSmoothing >= 0)) throw new OptionError(`invalid sfpSmoothing: ${o.sfpSmoothing}; must be >= 0`);
   }
@@ -827,7 +831,10 @@ export function velocityDistribution(
   const R = secondDifferencePenalty(K);
   const h = Math.max(set.dtMs, (sw[1] - sw[0]) / 200);
   const J = Math.floor((sw[1] - sw[0]) / h) + 1;
-  const smoothing = options.sfpSmoothing ?? D.sfpSmoothing;
+  const smoothingOpt = options.sfpSmoothing ?? D.sfpSmoothing;
+  const sfpSmoothingGcv = smoothingOpt === 'gcv';
+  const smoothing = sfpSmoothingGcv ? 1e-3 : (smoothingOpt as number);
+  let smoothingNow = smoothing;
   const sfpModel = options.sfpModel ?? D.sfpModel;
   const sfpRefine = options.sfpRefine ?? D.sfpRefine;
   const supportOpt = options.support ?? D.support;
@@ -952,15 +959,29 @@ export function velocityDistribution(
     converged = false;
     sol = { u, lambda: lamRel, gcv: NaN, df: NaN };
     let s0: Sfp | null = null;
+    const bNorm2 = b.reduce((acc, x) => acc + x * x, 0);
     let prevG: Float64Array | null = null;
     for (iter = 1; iter <= maxIt; iter++) {
-      const st = sfpStep(blocks, bases, model, u, b, sw[0], h, J, smoothing);
+      const pickSmoothing = sfpSmoothingGcv && (iter === 1 || iter === 5);
+      const st = sfpStep(
+        blocks,
+        bases,
+        model,
+        u,
+        b,
+        sw[0],
+        h,
+        J,
+        smoothingNow,
+        pickSmoothing ? { n: nRows, fixedDf: nNuis + (Number.isFinite(sol.df) ? sol.df : 0), bb: bNorm2 } : undefined,
+      );
       if (!st)
         throw new AnalysisError(
           'the single-fibre potential could not be estimated (no signal in the fit window at the grid velocities); check fitWindow, velocityRange and sfpWindow',
         );
       s0 = st.sfp;
       sfpDf = st.df;
+      smoothingNow = st.smoothing;
       const A = designMatrix(blocks, bases, model, s0);
       const gg = gram(A, nRows, K, b);
       if (method === 'two-distance') {
@@ -1344,7 +1365,8 @@ export function velocityDistribution(
       fitStartByDistance: options.fitStartByDistance ?? {},
       sfp: sfpGiven ? 'given' : 'estimate',
       sfpWindow: sw,
-      sfpSmoothing: smoothing,
+      sfpSmoothing: sfpSmoothingGcv ? 'gcv' : smoothing,
+      sfpSmoothingUsed: smoothingNow,
       sfpModel,
       sfpRefine,
       sfpRefined: refined,
