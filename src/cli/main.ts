@@ -478,7 +478,8 @@ async function rerun(dir: string, manifestOverride?: string, keyPath?: string): 
       return 5;
     }
     console.log(
-      `reproduced ${had.length} tables and the methods text exactly from ${prov.inputs.length} verified input files`,
+      `reproduced ${new Set(had.map((f) => f.replace(/\.(csv|json)$/, ''))).size} tables (${had.length} files, ` +
+        `CSV and JSON) and the methods text exactly from ${prov.inputs.length} verified input files`,
     );
     return 0;
   } finally {

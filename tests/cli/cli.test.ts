@@ -52,7 +52,11 @@ describe('fascicle command line', () => {
       expect(readFileSync(join(j2, 'tables', f), 'utf8'), f).toBe(readFileSync(join(full, 'tables', f), 'utf8'));
     const rr = run(['rerun', full]);
     expect(rr.status, rr.stderr).toBe(0);
-    expect(rr.stdout).toMatch(/reproduced \d+ tables and the methods text exactly/);
+    // tables counted once (each is a CSV and a JSON file)
+    const said = /reproduced (\d+) tables \((\d+) files, CSV and JSON\) and the methods text exactly/.exec(rr.stdout);
+    expect(said, rr.stdout).not.toBeNull();
+    expect(Number(said![2])).toBe(2 * Number(said![1]));
+    expect(Number(said![1])).toBe(readdirSync(join(full, 'tables')).filter((f) => f.endsWith('.csv')).length);
     // edit one byte of one input: the rerun names that file
     const victim = join(work, 'study', 'R2-distance.csv');
     const b = readFileSync(victim);
