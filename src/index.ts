@@ -244,3 +244,4 @@ export type { GroupFigureOptions } from './plot/groups';
 export type { VelocityDistributionFigureOptions } from './plot/velocityDistribution';
 export type { Progress } from './notebook/progress';
 export type { SweepSetView } from './notebook/sweepSet';
+export { sweepQcFigure } from './plot/qc';

@@ -20,9 +20,10 @@ import {
   SweepSet,
   classViews,
   model,
+  sweepQcFigure,
 } from '../../src';
 import type { Figure } from '../../src';
-import { bundleFigures, notebookFigures } from './realFigures';
+import { bundleFigures, notebookFigures, realFixture } from './realFigures';
 
 type Trace = {
   name?: string;
@@ -396,7 +397,15 @@ describe('the real figures (the demo bundles and the notebooks) follow the label
     const kinds = figs.map((f) => f.name.replace(/^[a-z]+\//, ''));
     for (const k of ['recruitment', 'velocity', 'dose-response', 'temperature-q10', 'temperature-arrhenius'])
       expect(kinds).toContain(k);
-    for (const k of ['summary', 'paired-pulse', 'train', 'sweep-viewer', 'velocity-distribution', 'groups-r50'])
+    for (const k of [
+      'summary',
+      'paired-pulse',
+      'train',
+      'sweep-viewer',
+      'velocity-distribution',
+      'groups-r50',
+      'sweep-qc-group',
+    ])
       expect(kinds).toContain(k);
   });
   it('units as µV, µM, °C; no internal identifiers (snake_case column names) in titles, axes or legends', () => {
@@ -460,5 +469,21 @@ describe('the real figures (the demo bundles and the notebooks) follow the label
       const first = (f.spec.data as Trace[])[0] as { x: string[]; marker: { color: string } };
       expect([first.x[0], first.marker.color]).toEqual(['A-alpha/beta', PALETTE[0]]);
     }
+  });
+});
+
+describe('sweep QC figure', () => {
+  it('rings every flagged sweep once per flag and counts them in the title (two-group demo: saturated sweeps)', () => {
+    const fx = realFixture();
+    const rows = fx.group.tables.sweep_qc;
+    const f = sweepQcFigure(rows as never, fx.group.units);
+    const flagged = rows.filter((r) => r.flagged === true);
+    expect(flagged.length).toBeGreaterThan(0);
+    const title = (f.spec.layout as { title: { text: string } }).title.text;
+    expect(title).toBe(`Sweep quality control: ${flagged.length} of ${rows.length} sweeps flagged`);
+    const marks = (f.spec.data as Trace[]).filter((t) => /^Flagged: /.test(t.name ?? ''));
+    const perFlag = flagged.reduce((n, r) => n + String(r.flags).split(',').length, 0);
+    expect(marks.reduce((n, t) => n + (t.x?.length ?? 0), 0)).toBe(perFlag);
+    expect(legendNames(f)).toEqual(expect.arrayContaining(['N1', 'Flagged: saturated']));
   });
 });

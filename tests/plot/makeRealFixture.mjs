@@ -43,6 +43,10 @@ async function study(manifest) {
   tables.components = s.tables.components
     .filter((r) => r.series === 'distance')
     .map((r) => Object.fromEntries(COMPONENT_KEYS.filter((k) => k in r).map((k) => [k, r[k]])));
+  // sweep QC: the columns its figure reads
+  const QC = ['sweep', 'preparation', `noise_${s.units}`, 'flagged', 'flags', 'reasons'];
+  if (s.tables.sweep_qc?.length)
+    tables.sweep_qc = s.tables.sweep_qc.map((r) => Object.fromEntries(QC.filter((k) => k in r).map((k) => [k, r[k]])));
   const results = {};
   const dr = s.results?.['dose-response'];
   if (dr?.fits)

@@ -4,7 +4,7 @@
  * the demo bundle, the paired-pulse and train demo, the two-group demo; tests/plot/makeRealFixture.mjs stored what they
  * read in fixtures/real-figures.json), and the notebooks' own figures (traces of demo preparation R1 conditioned as
  * notebook 01 does, class views, the sweep viewer, the R50 group comparison of notebook 07, the velocity
- * distribution of R1 from notebook 06).
+ * distribution of R1 from notebook 06, the sweep QC of the demo and two-group studies).
  */
 import { readFileSync } from 'node:fs';
 import { join } from 'node:path';
@@ -17,6 +17,7 @@ import {
   velocityFigure,
   velocityDistributionFigure,
   velocityReconstructionFigure,
+  sweepQcFigure,
   Figure,
 } from '../../src';
 import { studyFigureList } from '../../src/registry/index';
@@ -92,5 +93,9 @@ export function notebookFigures(fx = realFixture()): Figure[] {
     named('groups-r50', groupFigure(fx.group.r50 as never)),
     named('velocity-distribution', velocityDistributionFigure(fx.vdist as never)),
     named('velocity-reconstruction', velocityReconstructionFigure(fx.vdist as never)),
+    // sweep QC of the demo study and of the two-group study (whose sweeps carry several kinds of flag)
+    ...(['demo', 'group'] as const)
+      .filter((k) => fx[k].tables.sweep_qc?.length)
+      .map((k) => named(`sweep-qc-${k}`, sweepQcFigure(fx[k].tables.sweep_qc as never, fx[k].units))),
   ];
 }
