@@ -76,7 +76,7 @@ export function sweepQcFigure(qc: { rows: readonly Row[]; units?: string } | rea
   const log = ys.length > 1 && Math.min(...ys) > 0 && Math.max(...ys) / Math.min(...ys) > 10;
   return new Figure('sweep-qc', {
     data,
-    layout: layoutFor(title, 'Sweep number (within its preparation)', `Baseline noise, robust SD (${unitText(u)})`, {
+    layout: layoutFor(title, 'Sweep number', `Baseline noise, robust SD (${unitText(u)})`, {
       yaxis: log ? logAxis(ys) : { rangemode: 'tozero' },
     }),
   });
