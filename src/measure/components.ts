@@ -181,7 +181,7 @@ export { onsetColumn, componentLatencyText, latencyMethodsText } from './latency
 export interface ClipOptions {
   /**
    * the amplifier's rails [low, high] in signal units, e.g. the extremes of every sweep of a recording (default: this
-   * sweep's own minimum and maximum); a sweep extreme further than 1% of the rail from it is not on the rail
+   * sweep's own minimum and maximum); a sweep extreme further than 5% of the rail from it (more than a baseline shift) is not on the rail
    */
   rail?: [number, number];
   /** shortest stretch on the rail that counts as clipping, ms (default 0.04; and at least 2 samples) */
@@ -244,12 +244,13 @@ function smoothTop(x: ArrayLike<number>, a: number, b: number, maxDev: number): 
 /**
  * End (ms) of rail clipping after the stimulus: the last sample of the last run, between fromMs and toMs, of samples
  * within a tolerance of the sweep's extreme that lasts at least `minRunMs` (and 2 samples); null when there is none.
- * The tolerance is 0.1% of the extreme, or, when no run is found so, 4 x the sample-to-sample noise SD (diffNoise)
+ * The tolerance is 0.1% of the extreme (at least of the sweep's range), or, when no run is found so, 4 x the sample-to-sample noise SD (diffNoise)
  * about the median of the samples within 6 SDs of the extreme, so that a rail perturbed after the amplifier (hum,
  * noise, rounding on storage) is still found; the run must not be the top of a smooth wave (a parabola through it and
  * one sample on either side misses one by more than twice the tolerance: a rail is hit or left at once) and lie
- * more than 20 tolerances from the median sample (the floor of a one-signed wave is no rail), and a sweep whose
- * extreme is more than 1% away from `rail` (when given) does not reach the rail at all (common practice, no source).
+ * more than 20 tolerances and a quarter of the sweep's range from the median sample (the floor of a one-signed
+ * wave is no rail), and a sweep whose
+ * extreme is more than 5% away from `rail` (when given) does not reach the rail at all (common practice, no source).
  */
 export function clipEndMs(
   x: ArrayLike<number>,
@@ -275,14 +276,16 @@ export function clipEndMs(
   const minRun = Math.max(2, Math.ceil(minRunMs / dtMs - 1e-9));
   const levels = [mx, mn].filter((v, j) => {
     const r = options.rail?.[j === 0 ? 1 : 0];
-    return r === undefined || Math.abs(v - r) <= 0.01 * Math.abs(r);
+    return r === undefined || Math.abs(v - r) <= 0.05 * Math.abs(r);
   });
   // the last run of `minRun` or more samples within tol of v that is not the top of a smooth wave (a parabola through
   // the run and one sample on either side misses one of them by more than twice the tolerance: a rail is hit or left
   // at once), v far from the baseline (the median sample: at least 20 tolerances; the floor of a one-signed wave is
   // no rail)
+  // a rail is the sweep's largest excursion: at least a quarter of the sweep's range from the median sample
+  const farOut = (v: number, tol: number) => Math.abs(v - mid) > Math.max(20 * tol, 0.25 * (mx - mn));
   const runEnd = (v: number, tol: number): number | null => {
-    if (!(Math.abs(v - mid) > 20 * tol)) return null;
+    if (!farOut(v, tol)) return null;
     let end: number | null = null;
     for (let i = i0; i <= i1; i++) {
       if (!(Math.abs(x[i] - v) <= tol)) continue;
@@ -297,20 +300,37 @@ export function clipEndMs(
   let last: number | null = null;
   const onRail: { v: number; tol: number }[] = [];
   for (const ext of levels) {
-    // first within 0.1% of the extreme (a rail recorded as it is, or moved by a slow hum); otherwise a rail with noise
-    // on it: its level the median of the samples within 6 noise SDs of the extreme (the extreme is the rail plus the
-    // largest excursion), and within 4 noise SDs of that level
-    let end = runEnd(ext, 1e-3 * Math.abs(ext));
-    let level = { v: ext, tol: 1e-3 * Math.abs(ext) };
-    if (end === null) {
+    // first within 0.1% of the extreme (a rail recorded as it is, or moved by a slow hum); when that finds no run, or
+    // one whose samples vary (noise on the rail), a rail with noise on it: its level the median of the samples within
+    // 6 noise SDs of the extreme (the extreme is the rail plus the largest excursion), and within 4 noise SDs of it
+    // (0.1% of the extreme, or of the sweep's range when the extreme is near zero: never a zero tolerance)
+    const tight = 1e-3 * Math.max(Math.abs(ext), mx - mn);
+    let end = runEnd(ext, tight);
+    let level = { v: ext, tol: tight };
+    // a run whose samples spread by more than half the tight tolerance has noise on it: the noise tolerance decides
+    let spread = 0;
+    if (end !== null) {
+      let lo = x[end],
+        hi = x[end];
+      for (let i = end; i >= i0 && Math.abs(x[i] - ext) <= tight; i--) {
+        lo = Math.min(lo, x[i]);
+        hi = Math.max(hi, x[i]);
+      }
+      spread = hi - lo;
+    }
+    if (end === null || spread > tight / 2) {
       const near: number[] = [];
       for (let i = i0; i <= i1; i++) if (Math.abs(x[i] - ext) <= 6 * sd) near.push(x[i]);
       near.sort((p, q) => p - q);
       const v = near.length ? near[Math.floor(near.length / 2)] : ext;
-      level = { v, tol: Math.max(1e-3 * Math.abs(v), 4 * sd) };
-      end = runEnd(level.v, level.tol);
+      const loose = { v, tol: Math.max(tight, 4 * sd) };
+      const e2 = runEnd(loose.v, loose.tol);
+      if (e2 !== null && (end === null || e2 >= end)) {
+        end = e2;
+        level = loose;
+      }
     }
-    if (Math.abs(level.v - mid) > 20 * level.tol) onRail.push(level);
+    if (farOut(level.v, level.tol)) onRail.push(level);
     if (end !== null && (last === null || end > last)) last = end;
   }
   // samples right after the last run that sit on either rail are clipped too (a stimulus that swings from one rail to
@@ -1027,8 +1047,9 @@ export function measureComponents(
           'not resolved: no separate peak or shoulder (the largest value of the class is at the edge of its part of the sweep)';
       }
       // nothing is read under the rail: the first unclipped sample is the earliest time a peak can have (a peak
-      // before it, in a modelled component, leaves the class not resolved); an onset, half-rise or centroid is read
-      // only where the artifact's subtraction is trusted (two fast time constants after the rail, fitStart)
+      // before it, in a modelled component, leaves the class not resolved); an onset, half-rise or centroid before
+      // the artifact's subtraction is trusted (two fast time constants after the rail, fitStart) is not measured in a
+      // window, and read on the modelled component (with a reason saying so) after the decomposition
       const tFirst = info[s].clip === null ? -Infinity : tAt(set.indexAt(info[s].clip!) + 1);
       const tTrust = info[s].clip === null ? -Infinity : Math.max(tFirst, tAt(info[s].fitStart));
       if (status === 'measured' && tAt(a + lat.peakIndex) < tFirst) {
@@ -1036,12 +1057,15 @@ export function measureComponents(
         reason = `not resolved: the peak lies under the amplifier's rail (clipping ends at ${tFirst.toFixed(3)} ms)`;
       }
       const ok = status === 'measured';
+      // a class separated by the decomposition has its own modelled component there (fitted on every site and on
+      // the samples after the rail): its early latencies are read on it and say so; a window's are not measured
+      const modelled = sep === 'velocity-decomposition';
       const hidden: string[] = [];
       const t = (fi: number | null, name?: string) => {
         if (!ok || fi === null) return null;
         if (tAt(a + fi) < (name ? tTrust : tFirst)) {
           if (name) hidden.push(name);
-          return null;
+          if (!modelled || !name) return null;
         }
         return tAt(a + fi);
       };
@@ -1069,7 +1093,7 @@ export function measureComponents(
       if (hidden.length)
         reason =
           `${hidden.join(', ')} before the artifact's subtraction is trusted (${tTrust.toFixed(3)} ms, clipping ` +
-          `ends at ${tFirst.toFixed(3)} ms): not measured` +
+          `ends at ${tFirst.toFixed(3)} ms): ${modelled ? 'read on the modelled component' : 'not measured'}` +
           (reason ? `; ${reason}` : '');
       const vel = (tt: number | null) => (tt !== null && tt - util > 0 ? L / (tt - util) : null);
       rows.push({

@@ -44,7 +44,7 @@ describe('clipEndMs: rail detection without bit-equal samples', () => {
     const x = Float64Array.from({ length: 60 }, (_, i) => (i <= 10 ? -10000 : -7000 * Math.exp(-(i - 11) / 2.5)));
     expect(clipEndMs(x, 0, 1, 0, 60)).toBe(10);
     expect(clipEndMs(x, 0, 1, 0, 60, { rail: [-10000, 10000] })).toBe(10);
-    // a sweep whose extreme is far (more than 1%) from the recording's rail does not reach it
+    // a sweep whose extreme is far (more than 5%) from the recording's rail does not reach it
     expect(clipEndMs(x, 0, 1, 0, 60, { rail: [-20000, 20000] })).toBeNull();
   });
   it('takes no smooth peak, no floor of a one-signed wave and no plateau shorter than minRunMs for a rail', () => {
