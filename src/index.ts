@@ -216,7 +216,7 @@ export {
   looksLikeBlindingKey,
   blindingKeysInStudy,
 } from './analysis/blinding';
-export type { BlindingKey, KeyInput, UnblindOptions } from './analysis/blinding';
+export type { BlindingKey, KeyInput, UnblindOptions, Unblindable } from './analysis/blinding';
 // types the public API refers to (TypeDoc's notExported validation: every referenced type is documented)
 export type { Row } from './registry/types';
 export type { RunOptions } from './cli/engine';

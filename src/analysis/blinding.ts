@@ -211,7 +211,7 @@ const valuesIn = (rows: readonly object[], condition: string): string[] => {
   return [...out];
 };
 
-type Unblindable =
+export type Unblindable =
   | SweepSet
   | GroupComparison
   | MixedModelResult

@@ -91,7 +91,7 @@ export interface DosePoint {
   n: number;
 }
 
-type Row = Record<string, ConditionValue>;
+import type { Row } from '../registry/types';
 const num = (v: number): number | null => (Number.isFinite(v) ? v : null);
 
 function steady(rows: Row[], lastN: number): { value: number; n: number; time: number } {

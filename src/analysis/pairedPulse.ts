@@ -38,7 +38,7 @@ import { tableHtml, tableText } from '../notebook/html';
 import { VERSION } from '../version';
 import type { Figure } from '../plot/figure';
 
-type Row = Record<string, ConditionValue>;
+import type { Row } from '../registry/types';
 
 export const pairedPulseDefaults = {
   roleKey: 'pulsePair',

@@ -16,7 +16,7 @@ import { toFrame } from '../report/frame';
 import { tableHtml, tableText } from '../notebook/html';
 import { VERSION } from '../version';
 
-type Row = Record<string, ConditionValue>;
+import type { Row } from '../registry/types';
 export const recruitmentDefaults = { supramaximalFactor: 1.3, thresholdFraction: 0.05, minLevels: 4 };
 
 export class RecruitmentResult extends Result {

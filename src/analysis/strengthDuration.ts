@@ -20,7 +20,7 @@ import { toFrame } from '../report/frame';
 import { tableHtml, tableText } from '../notebook/html';
 import { VERSION } from '../version';
 
-type Row = Record<string, ConditionValue>;
+import type { Row } from '../registry/types';
 export const strengthDurationDefaults = { fraction: 0.5, minWidths: 3 };
 
 export interface StrengthDurationOptions {

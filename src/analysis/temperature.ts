@@ -139,7 +139,7 @@ export function temperatureRow(
   };
 }
 
-type Row = Record<string, ConditionValue>;
+import type { Row } from '../registry/types';
 
 export class TemperatureResult extends Result {
   constructor(

@@ -24,7 +24,7 @@ import { VERSION } from '../version';
 import { meanSweeps, lockToStimulus, carried, measureLocked } from './pairedPulse';
 import type { Figure } from '../plot/figure';
 
-type Row = Record<string, ConditionValue>;
+import type { Row } from '../registry/types';
 export const trainDefaults = {
   frequencyKey: 'trainHz',
   pulsesKey: 'trainPulses',

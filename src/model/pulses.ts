@@ -33,10 +33,10 @@ import {
 } from './nerve';
 import { recoveryTable, REFRACTORY_FIBRE } from './refractory';
 
-type Base = Omit<RecordingConditions, 'pulsesMs'>;
+export type PairedPulseBase = Omit<RecordingConditions, 'pulsesMs'>;
 
 /** The fibres a sweep recruits and that conduct through the blocker. */
-function recruited(model: NerveModel, fibers: Fiber[], rc: Base): Fiber[] {
+function recruited(model: NerveModel, fibers: Fiber[], rc: PairedPulseBase): Fiber[] {
   const ref = model.referencePulseWidthMs ?? defaultReferencePulseWidthMs;
   return fibers.filter((f) => {
     const p = model.populations[f.pop];
@@ -50,7 +50,7 @@ export interface PairedPulseSeriesOptions {
   seed: number;
   grid: SweepGrid;
   /** intensity, distance, temperature, concentration (and recording) of every sweep */
-  base: Base;
+  base: PairedPulseBase;
   /** interstimulus intervals, ms */
   intervalsMs: number[];
   /** sweeps per interval and per alone-condition (default 1) */
@@ -87,7 +87,7 @@ export interface TrainSeriesOptions {
   model: NerveModel;
   seed: number;
   grid: SweepGrid;
-  base: Base;
+  base: PairedPulseBase;
   /** train frequencies, Hz */
   frequenciesHz: number[];
   /** pulses per train */
@@ -143,7 +143,7 @@ interface Weighted {
   v: number;
 }
 
-function weighted(model: NerveModel, fibers: Fiber[], rc: Base, pop: number): Weighted[] {
+function weighted(model: NerveModel, fibers: Fiber[], rc: PairedPulseBase, pop: number): Weighted[] {
   const p = model.populations[pop];
   return recruited(model, fibers, rc)
     .filter((f) => f.pop === pop)
@@ -160,7 +160,7 @@ function weighted(model: NerveModel, fibers: Fiber[], rc: Base, pop: number): We
 }
 
 /** Area fraction and centroid shift of a class's test volley at one interval (fibres' own outcomes). */
-function pairAt(model: NerveModel, fs: Weighted[], rc: Base, isi: number): RecoveryPoint {
+function pairAt(model: NerveModel, fs: Weighted[], rc: PairedPulseBase, isi: number): RecoveryPoint {
   let sw = 0,
     swl = 0,
     sh = 0,
@@ -178,7 +178,7 @@ function pairAt(model: NerveModel, fs: Weighted[], rc: Base, isi: number): Recov
 }
 
 /** The first interval (ms) at which the class's test area reaches `level` of test-alone: scan then bisection. */
-function firstReach(model: NerveModel, fs: Weighted[], rc: Base, level: number, arp: number): number | null {
+function firstReach(model: NerveModel, fs: Weighted[], rc: PairedPulseBase, level: number, arp: number): number | null {
   const step = arp / 100;
   let lo = arp,
     hi = NaN;
@@ -202,7 +202,7 @@ function firstReach(model: NerveModel, fs: Weighted[], rc: Base, level: number, 
 export function pairedPulseTruth(
   model: NerveModel,
   fibers: Fiber[],
-  rc: Base,
+  rc: PairedPulseBase,
   intervalsMs: readonly number[] = [],
 ): PairedPulseClassTruth[] {
   const table = recoveryTable(model.testDrive ?? REFRACTORY_FIBRE.drive);
@@ -235,7 +235,7 @@ export interface TrainClassTruth {
 export function trainTruth(
   model: NerveModel,
   fibers: Fiber[],
-  rc: Base,
+  rc: PairedPulseBase,
   hz: number,
   pulses: number,
 ): TrainClassTruth[] {
