@@ -185,14 +185,36 @@ export function recruitment(
     const at = (frac: number) => Math.pow(10, xm + s * Math.log(frac / (1 - frac)));
     const i95 = at(0.95);
     const st = f.status.filter((q) => q !== 'ok');
+    // the half-maximum must lie within the tested intensities: outside them the curve is an extrapolation and
+    // its I50, maximum and threshold are not measured numbers (a flagged row, not a plausible-looking value)
+    const iLo = Math.min(...allLevels),
+      iHi = Math.max(...allLevels);
+    const i50 = Math.pow(10, xm);
+    if (!(i50 >= iLo && i50 <= iHi)) {
+      out.push({
+        ...head,
+        threshold: null,
+        i50: null,
+        maximum: null,
+        levels: levels.length,
+        ...counts,
+        status: 'not identifiable',
+        reason:
+          `the fitted half-maximum (${i50.toPrecision(3)}) lies outside the tested intensities ` +
+          `${iLo}-${iHi}: the curve is not determined by the data` +
+          (notes.length ? ` (${notes.join('; ')})` : ''),
+      });
+      continue;
+    }
     if (i95 > Math.max(...levels))
       st.push('95% of the maximum not reached at the highest intensity: the maximum is extrapolated');
-    st.push(...notes);
+    // informational notes (sweeps left out and counted, floor fixed at 0) go to the reason, so that a normal
+    // curve with sub-threshold sweeps is 'ok' and only what may be wrong becomes a warning
     const ciOk = (k: number) => (f.ci[k] && Number.isFinite(f.ci[k][0]) && f.ci[k][1] > f.ci[k][0] ? f.ci[k] : null);
     out.push({
       ...head,
       threshold: at(recruitmentDefaults.thresholdFraction),
-      i50: Math.pow(10, xm),
+      i50,
       i50_ci95_low: ciOk(2) ? Math.pow(10, f.ci[2][0]) : null,
       i50_ci95_high: ciOk(2) ? Math.pow(10, f.ci[2][1]) : null,
       maximum: hi,
@@ -204,7 +226,7 @@ export function recruitment(
       levels: levels.length,
       ...counts,
       status: st.length ? st.join('; ') : 'ok',
-      reason: null,
+      reason: notes.length ? notes.join('; ') : null,
     });
   }
   return new RecruitmentResult(

@@ -363,8 +363,10 @@ describe('recruitment uses only what was measured', () => {
     ).rows[0];
     expect(r.excluded_nonpositive_intensity).toBe(2);
     expect(r.excluded_not_measured).toBe(2);
-    expect(String(r.status)).toMatch(/2 sweep\(s\) with intensity <= 0 left out/);
-    expect(String(r.status)).toMatch(/floor fixed at 0/);
+    // informational notes are the row's reason; the row itself is ok (common practice, no source)
+    expect(r.status).toBe('ok');
+    expect(String(r.reason)).toMatch(/2 sweep\(s\) with intensity <= 0 left out/);
+    expect(String(r.reason)).toMatch(/floor fixed at 0/);
     expect(r.i50 as number).toBeCloseTo(0.4, 2);
   });
   it('a class never detected is "not detected" (as the thresholds say), with no numbers', () => {
@@ -374,6 +376,26 @@ describe('recruitment uses only what was measured', () => {
     expect(r.status).toBe('not detected');
     expect(r.i50).toBeNull();
     expect(r.threshold).toBeNull();
+  });
+  it('a half-maximum outside the tested intensities is a flagged row, not an extrapolated number', () => {
+    // the foot of a Boltzmann curve whose I50 (20 mA) is far above the highest tested 3.2 mA (analytic case):
+    // the data only rise, so the fit's I50 is an extrapolation and must not be printed as a measurement
+    const foot = (i: number) => 100 / (1 + Math.exp(-(Math.log10(i) - Math.log10(20)) / 0.3));
+    const rs = I.filter((i) => i > 0).flatMap((i) =>
+      [0, 1].map((k) => ({
+        preparation: 'P',
+        distanceMm: 15,
+        class: 'A',
+        intensity: i,
+        amplitude_uV: foot(i) * (1 + 0.01 * (k ? 1 : -1)),
+        detected: true,
+      })),
+    );
+    const r = recruitment(rs, 'uV').rows[0];
+    expect(r.status).toBe('not identifiable');
+    expect(r.i50).toBeNull();
+    expect(r.maximum).toBeNull();
+    expect(String(r.reason)).toMatch(/outside the tested intensities 0.05-3.2/);
   });
 });
 
