@@ -154,7 +154,8 @@ export interface VelocityDistributionOptions {
   artifactTauMs?: number[];
   /**
    * mains hum: frequencies (Hz, harmonics listed, e.g. [50, 100, 150]) modelled as a sine and
-   * cosine per distance, or 'detect' (default): none, 50 or 60 Hz with two harmonics, whichever GCV prefers, chosen
+   * cosine per distance, or 'detect' (default): none, 50 or 60 Hz with two harmonics, whichever GCV prefers (a
+   * frequency only when every distance's fit spans half its cycle or more: 10 ms for 50 Hz), chosen
    * once a two-phase potential is known and modelled while the potential is refined on nodes (a potential free on
    * nodes would otherwise take up the hum) and in the final amplitudes. Given frequencies are modelled throughout
    */
@@ -822,6 +823,11 @@ export function velocityDistribution(
   // nodes would otherwise take up hum); 'detect' chooses them once a two-phase potential is known (below)
   const baseHz = Array.isArray(humOpt) ? humOpt : [];
   const family = (f: number) => [f, 2 * f, 3 * f].filter((x) => x < set.fs / 2);
+  // 'detect' considers a mains frequency only when every distance's fit spans at least half its cycle: over a shorter
+  // span a sinusoid is a smooth curve the drift terms and the waves already span, so the hum cannot be identified
+  // (and GCV would trade it with the response); what such a span holds of the hum is left to the drift terms
+  const spanMs = Math.min(...blocks.map((bl) => bl.t[bl.t.length - 1] - bl.t[0]));
+  const humCandidates = [50, 60].filter((f) => spanMs >= 500 / f).map(family);
   const basesFor = (hz: number[]) =>
     blocks.map((bl, i) => nuisanceBasis(bl.t, bl.sigma, driftDeg, tausBy[i], hz, bl.t[0]));
   let bases = basesFor(baseHz);
@@ -923,7 +929,7 @@ export function velocityDistribution(
   // two-phase potential fixed; the refinement and its comparison with the two-phase potential then model it
   let hzEstimate: number[] = baseHz;
   if (humOpt === 'detect' && shapeFit && sfpRefine && method === 'decomposition') {
-    for (const hz of [family(50), family(60)]) {
+    for (const hz of humCandidates) {
       const bF = basesFor(hz);
       const nF = bF.reduce((s, x) => s + x.length, 0);
       const bv = dataVector(blocks, bF);
@@ -1087,7 +1093,7 @@ export function velocityDistribution(
   // final amplitudes with the potential fixed: mains hum (given, or detected: none, 50 or 60 Hz with two harmonics,
   // whichever GCV prefers; added only now, as with the potential free it would trade with its after-phase), the
   // smoothness weight and the support of the distribution by GCV (bins outside held at zero)
-  const humSets: number[][] = humOpt === 'detect' ? [[], family(50), family(60)] : [humOpt];
+  const humSets: number[][] = humOpt === 'detect' ? [[], ...humCandidates] : [humOpt];
   const Araw = designMatrix(blocks, bases, model, sfp, false);
   const scaleOf = (GG: Float64Array, RR: Float64Array, m: number) => trG(GG, m) / trG(RR, m);
   interface Final {
