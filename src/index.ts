@@ -229,6 +229,8 @@ export type { ResultTables } from './io/nwbWrite';
 export type { ConditionSpec, ColumnKind, ResultRows } from './io/nwbColumns';
 export type { DeferredSamples, SampleView } from './verbs/types';
 export type { ClipOptions } from './measure/components';
+export { fitArtifactShape, artifactScale, artifactShapeValue } from './measure/components';
+export type { ArtifactShape, ArtifactStretch } from './measure/components';
 export type { OwnLatencies } from './measure/response';
 export type {
   DecomposeGrid,
