@@ -12,8 +12,8 @@
  *    1 at time 0, and each drug preparation's baseline is scaled by it at the time of
  *    each steady state; linear run-down is an assumption, common practice, no source).
  *    Times come from the `acquiredS` condition.
- * 3. Per preparation, a Hill (four-parameter log-logistic) fit with the top fixed at 1
- *    (normalised), Hill slope in [0.2, 6] and the bottom free in [-0.2, 0.9] (or fixed).
+ * 3. Per preparation, a Hill (four-parameter log-logistic) fit with the top fitted in [0.5, 1.5] and the baseline
+ *    as one point of the curve (`freeTop`, default), or fixed at 1 (normalised), Hill slope in [0.2, 6] and the bottom free in [-0.2, 0.9] (or fixed).
  * 4. Across preparations: log10 IC50 is averaged over preparations with a t-based 95% CI
  *    (IC50 CI asymmetric), so animals, not sweeps, are the replicates; a pooled fit over
  *    all preparations' normalised points gives a profile-likelihood CI; optional

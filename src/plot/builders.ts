@@ -5,7 +5,7 @@
  * printed as µV, µM, °C; fits and shaded bands are named in the legend; log axes label
  * every tick with its full value.
  */
-import type { SweepSet, ConditionValue } from '../sweeps/SweepSet';
+import type { SweepSet } from '../sweeps/SweepSet';
 import type { ComponentTable } from '../measure/table';
 import { Figure, PALETTE, MARKERS, layoutFor, sequentialColour, sequentialScale } from './figure';
 import { plotlyText, unitText, sentenceCase, measureLabel, logAxis, tickNumber } from './labels';
@@ -16,7 +16,7 @@ import type { FitResult } from '../fit/lm';
 import { OptionError } from '../errors';
 import { checkKeys, didYouMean } from '../validate';
 
-type Row = Record<string, ConditionValue>;
+import type { Row } from '../registry/types';
 type Trace = Record<string, unknown>;
 const colour = (i: number) => PALETTE[i % PALETTE.length];
 const symbol = (i: number) => MARKERS[i % MARKERS.length];

@@ -5,9 +5,8 @@
  */
 import { Figure, PALETTE, MARKERS, layoutFor } from './figure';
 import { plotlyText, unitText, logAxis } from './labels';
-import type { ConditionValue } from '../sweeps/SweepSet';
 
-type Row = Record<string, ConditionValue>;
+import type { Row } from '../registry/types';
 type Trace = Record<string, unknown>;
 const num = (x: unknown): x is number => typeof x === 'number' && Number.isFinite(x);
 const GREY = '#666';

@@ -13,6 +13,7 @@ import { OptionError } from '../errors';
 import { checkKeys } from '../validate';
 import { failed, say } from './shared';
 import type { AnalysisEntry, Row } from './types';
+import { sweepQcFigure } from '../plot/qc';
 
 export interface QcOutput {
   qc: SweepQcResult | null;
@@ -138,6 +139,12 @@ export const sweepQc: AnalysisEntry<QcOutput> = {
       name: 'sweeps_removed',
       title: 'Sweeps removed',
       empty: 'no sweep was removed: flagged sweeps are kept (listed in the sweep QC table) unless reject is true',
+    },
+  ],
+  figures: [
+    {
+      rank: 5,
+      make: (study) => (study.tables.sweep_qc?.length ? [sweepQcFigure(study.tables.sweep_qc, study.units)] : []),
     },
   ],
   methods: { sweepQc: qcSentence, rejectFlagged: qcSentence },

@@ -273,5 +273,5 @@ const NO_UNIT_YET = new Set([
 /** Dimensionless quantities: ratios, fractions, slopes, scores, p values, fit statistics, normalised values. */
 const DIMENSIONLESS = new RegExp(
   '^(log10_.*|.*ratio.*|.*fraction.*|.*_pct|hill.*|pooled_hill|q10.*|p|p_.*|r2|f|t|df|den_df|statistic|' +
-    '.*score.*|normalized|bottom|pooled_bottom|slope_log10|chi2_per_sample|relative_residual|reml_deviance|icc)$',
+    '.*score.*|normalized|bottom|pooled_bottom|top|pooled_top|slope_log10|chi2_per_sample|relative_residual|reml_deviance|icc)$',
 );
