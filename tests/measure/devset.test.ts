@@ -275,12 +275,16 @@ describe('development set FNPG-N07 (independent simulation): A-delta on the A-al
     expect(recordedT.rows.filter((r) => r.class === 'A-delta').length).toBe(32);
   });
 
-  it('A-delta peak latency within 0.1 ms of the truth at 20 and 30 C, 0.13 ms at 37 C; two-site peak velocity within 25% at 20, 30, 37 C; recorded two-site onset within 10% at 25, 30, 37 C', () => {
+  it('A-delta peak latency within 0.1 ms of the truth at 30 C, 0.13 ms at 37 C, 0.16 ms at 20 C; two-site peak velocity within 25% at 20, 30, 37 C; recorded two-site onset within 10% at 20, 25, 30, 37 C', () => {
     // tolerances are what this method reaches today (measured, see the printed table), not targets; 25 C peak is
     // not asserted. Since the smooth class membership (fitClassMixture) A-delta's onset, centroid, cross-correlation
     // and amplitude are closer to the truth and its peak, a broad top on the faster class's residual, further
     // (recorded 30 C two-site peak -21%, was -6%); the peak velocity bound was 10% before that change
-    const tol: Record<number, number> = { 20: 0.1, 30: 0.1, 37: 0.13 };
+    // Since the class mixture is bounded to each class's velocity range (its boundary no longer follows the mode
+    // heights), A-delta's recorded two-site onset at 20 C went from -16.8% to within 1% and its cross-correlation
+    // from -13% to +6%, while its peak at 20 C 25 mm on the clean sum moved from +78 to -149 us (a broad top):
+    // the 20 C peak bound was 0.1 ms before that change
+    const tol: Record<number, number> = { 20: 0.16, 30: 0.1, 37: 0.13 };
     for (const rows of [rowsOf(clean), rowsOf(noisy), rowsOf(recordedT)]) {
       for (const T of [20, 30, 37]) {
         for (const d of [15, 25]) {
@@ -296,7 +300,7 @@ describe('development set FNPG-N07 (independent simulation): A-delta on the A-al
       }
     }
     const rec = rowsOf(recordedT);
-    for (const T of [25, 30, 37]) {
+    for (const T of [20, 25, 30, 37]) {
       const v =
         10 /
         ((mean(at(rec, 'A-delta', T, 25), 'onset10_ms') as number) -
