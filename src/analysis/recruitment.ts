@@ -129,17 +129,24 @@ export function recruitment(
       notes.push(`${notMeasured} of ${pos.length} sweep(s) not measured (not detected or not resolved), left out`);
     const levels = [...new Set(g.map((r) => r.intensity as number))];
     const allLevels = [...new Set(pos.map((r) => r.intensity as number))];
+    // a row without a curve: its status and why, never numbers
+    const unfitted = (status: string, why: string): Row => ({
+      ...head,
+      threshold: null,
+      i50: null,
+      maximum: null,
+      levels: levels.length,
+      ...counts,
+      status,
+      reason: why + (notes.length ? ` (${notes.join('; ')})` : ''),
+    });
     if (levels.length < minLevels) {
-      out.push({
-        ...head,
-        threshold: null,
-        i50: null,
-        maximum: null,
-        levels: levels.length,
-        ...counts,
-        status: 'not detected',
-        reason: `measured at ${levels.length} of ${allLevels.length} intensities; a curve needs ${minLevels}${notes.length ? ` (${notes.join('; ')})` : ''}`,
-      });
+      out.push(
+        unfitted(
+          'not detected',
+          `measured at ${levels.length} of ${allLevels.length} intensities; a curve needs ${minLevels}`,
+        ),
+      );
       continue;
     }
     const x = g.map((r) => Math.log10(r.intensity as number));
@@ -191,19 +198,13 @@ export function recruitment(
       iHi = Math.max(...allLevels);
     const i50 = Math.pow(10, xm);
     if (!(i50 >= iLo && i50 <= iHi)) {
-      out.push({
-        ...head,
-        threshold: null,
-        i50: null,
-        maximum: null,
-        levels: levels.length,
-        ...counts,
-        status: 'not identifiable',
-        reason:
+      out.push(
+        unfitted(
+          'not identifiable',
           `the fitted half-maximum (${i50.toPrecision(3)}) lies outside the tested intensities ` +
-          `${iLo}-${iHi}: the curve is not determined by the data` +
-          (notes.length ? ` (${notes.join('; ')})` : ''),
-      });
+            `${iLo}-${iHi}: the curve is not determined by the data`,
+        ),
+      );
       continue;
     }
     if (i95 > Math.max(...levels))
