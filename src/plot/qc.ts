@@ -27,37 +27,39 @@ export function sweepQcFigure(qc: { rows: readonly Row[]; units?: string } | rea
   const text = (r: Row) =>
     `sweep ${String(r.sweep)}${r.preparation !== undefined ? ` (${plotlyText(r.preparation)})` : ''}` +
     (r.flagged === true ? `: ${plotlyText(r.reasons ?? r.flags ?? '')}` : '');
+  // one marker trace of the sweeps rr (noise against sweep number, the reasons in the hover)
+  const points = (rr: Row[], style: Trace): Trace => ({
+    type: 'scatter',
+    mode: 'markers',
+    x: rr.map((r) => r.sweep),
+    y: rr.map((r) => r[key]),
+    text: rr.map(text),
+    hoverinfo: 'text+y',
+    ...style,
+  });
   preps.forEach((p, pi) => {
     const rr = rows.filter((r) => String(r.preparation ?? '') === p && num(r[key]));
-    data.push({
-      type: 'scatter',
-      mode: 'markers',
-      x: rr.map((r) => r.sweep),
-      y: rr.map((r) => r[key]),
-      text: rr.map(text),
-      hoverinfo: 'text+y',
-      name: p ? plotlyText(p) : 'sweeps',
-      showlegend: preps.length > 1,
-      marker: { color: PALETTE[pi % PALETTE.length], size: 4, opacity: 0.7 },
-    });
+    data.push(
+      points(rr, {
+        name: p ? plotlyText(p) : 'sweeps',
+        showlegend: preps.length > 1,
+        marker: { color: PALETTE[pi % PALETTE.length], size: 4, opacity: 0.7 },
+      }),
+    );
   });
   kinds.forEach((k, ki) => {
     const rr = rows.filter((r) => r.flagged === true && String(r.flags).split(',').includes(k) && num(r[key]));
-    data.push({
-      type: 'scatter',
-      mode: 'markers',
-      x: rr.map((r) => r.sweep),
-      y: rr.map((r) => r[key]),
-      text: rr.map(text),
-      hoverinfo: 'text+y',
-      name: `Flagged: ${plotlyText(k)}`,
-      marker: {
-        symbol: `${MARKERS[(ki + 1) % MARKERS.length]}-open`,
-        size: 9,
-        color: '#000',
-        line: { width: 1, color: '#000' },
-      },
-    });
+    data.push(
+      points(rr, {
+        name: `Flagged: ${plotlyText(k)}`,
+        marker: {
+          symbol: `${MARKERS[(ki + 1) % MARKERS.length]}-open`,
+          size: 9,
+          color: '#000',
+          line: { width: 1, color: '#000' },
+        },
+      }),
+    );
   });
   if (!kinds.length)
     data.push({
