@@ -83,7 +83,10 @@ describe('trains(set) on forward-model data', () => {
   });
   it('tables, figure and typed errors', () => {
     expect(Object.keys(r.tables())).toEqual(['train', 'train_summary']);
-    expect(trainFigure(r).spec.data.length).toBe(4);
+    // four data traces (latency and amplitude per class); the rest are legend-only entries (x [null]) that say
+    // what a colour and a line style mean
+    const traces = trainFigure(r).spec.data as { x?: unknown[] }[];
+    expect(traces.filter((d) => (d.x ?? []).some((v) => v !== null)).length).toBe(4);
     expect(() => trains(set, { failFraction: 2 })).toThrow(/failFraction/);
     expect(() => trains(set.create({ conditions: set.conditions.map((c) => ({ ...c, trainHz: 'x' })) }))).toThrow(
       /trainHz/,

@@ -303,7 +303,7 @@ describe('rerun of a moved study, and what rerun compares', () => {
   it('a moved study reruns, also given as a relative path from another folder', () => {
     const r = run(['rerun', bundle]);
     expect(r.status, r.stderr).toBe(0);
-    expect(r.stdout).toMatch(/reproduced \d+ tables and the methods text exactly/);
+    expect(r.stdout).toMatch(/reproduced \d+ tables \(\d+ files, CSV and JSON\) and the methods text exactly/);
     const rel = run(['rerun', relative(join(work, 'elsewhere'), bundle)], { cwd: join(work, 'elsewhere') });
     expect(rel.status, rel.stderr).toBe(0);
   });

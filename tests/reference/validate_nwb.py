@@ -1,6 +1,6 @@
 """Validate NWB files against the NWB 2.7.0 core schema (and hdmf-common 1.8.0) with Debian's
 python3-hdmf, independently of fascicle. The schema files are the reference copies in
-../shared/nwb-schema (or the folder given by NWB_SCHEMA_DIR).
+tests/fixtures/nwb-schema (or the folder given by NWB_SCHEMA_DIR).
 
 NWB's schema names its type keys neurodata_type_def / neurodata_type_inc (hdmf's own are
 data_type_def / data_type_inc), so the spec classes below map one to the other before hdmf builds
@@ -24,7 +24,8 @@ def schema_dir():
     env = os.environ.get("NWB_SCHEMA_DIR")
     if env:
         return env
-    for up in ("../../../shared/nwb-schema", "../../shared/nwb-schema"):
+    # the vendored copy first (tests/fixtures/nwb-schema), then a shared folder beside the repository
+    for up in ("../fixtures/nwb-schema", "../../../shared/nwb-schema", "../../shared/nwb-schema"):
         p = os.path.normpath(os.path.join(HERE, up))
         if os.path.isdir(p):
             return p
@@ -187,7 +188,7 @@ def main(argv):
     argv = [a for a in argv if not a.startswith("--")]
     root = schema_dir()
     if not root:
-        print(json.dumps({"unavailable": "the NWB schema folder (../shared/nwb-schema) was not found"}))
+        print(json.dumps({"unavailable": "the NWB schema folder (tests/fixtures/nwb-schema) was not found"}))
         return 2
     try:
         cat = build_catalog(root)
