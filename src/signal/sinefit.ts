@@ -225,14 +225,31 @@ export function sineConditioning(
   const excluded = n - m;
   // centre the fitted columns (the constant absorbs their means)
   const B = G.map((r, j) => r.map((v, k) => v - (sum[j] * sum[k]) / Math.max(1, m)));
-  const d = B.map((r, j) => Math.sqrt(Math.max(r[j], 0)));
-  if (d.some((v) => !(v > 0))) return { fitted: m, excluded, condition: Infinity, extrapolationGain: Infinity };
-  const Bs = B.map((r, j) => r.map((v, k) => v / (d[j] * d[k])));
-  const ev = symmetricEigenvalues(Bs);
+  return { fitted: m, excluded, ...gramConditioning(B, Z, m, excluded) };
+}
+
+/**
+ * Conditioning of a least-squares design from its Gram matrices: G over the m fitted samples (columns centred or
+ * otherwise residualised), Z over the `excluded` left-out ones. condition: the condition number of G scaled to unit
+ * diagonal; extrapolationGain: the largest eigenvalue of L^-1 Zs L^-T (G scaled = L L^T) times m / excluded, the
+ * worst ratio of a fitted component's mean power over the left-out samples to its mean power over the fitted ones.
+ * Infinity for both when a column is zero or the scaled G is not positive definite.
+ */
+export function gramConditioning(
+  G: number[][],
+  Z: number[][],
+  m: number,
+  excluded: number,
+): { condition: number; extrapolationGain: number } {
+  const p = G.length;
+  const d = G.map((r, j) => Math.sqrt(Math.max(r[j], 0)));
+  if (d.some((v) => !(v > 0))) return { condition: Infinity, extrapolationGain: Infinity };
+  const Gs = G.map((r, j) => r.map((v, k) => v / (d[j] * d[k])));
+  const ev = symmetricEigenvalues(Gs);
   const condition = ev[0] > 0 ? ev[p - 1] / ev[0] : Infinity;
-  if (excluded === 0) return { fitted: m, excluded, condition, extrapolationGain: 0 };
-  const L = cholesky(Bs, 1e-15);
-  if (!L) return { fitted: m, excluded, condition: Infinity, extrapolationGain: Infinity };
+  if (excluded === 0) return { condition, extrapolationGain: 0 };
+  const L = cholesky(Gs, 1e-15);
+  if (!L) return { condition: Infinity, extrapolationGain: Infinity };
   // M = L^-1 (D^-1 Z D^-1) L^-T
   const fwd = (v: number[]): number[] => {
     const x = new Array<number>(p);
@@ -249,5 +266,5 @@ export function sineConditioning(
   const M = Yt.map(fwd);
   for (let j = 0; j < p; j++) for (let k = 0; k < j; k++) M[j][k] = M[k][j] = 0.5 * (M[j][k] + M[k][j]);
   const lmax = Math.max(0, symmetricEigenvalues(M)[p - 1]);
-  return { fitted: m, excluded, condition, extrapolationGain: (lmax * m) / excluded };
+  return { condition, extrapolationGain: (lmax * m) / excluded };
 }

@@ -1,8 +1,8 @@
 import { runSweeps, shareCopy, sharedSamples } from '../parallel/pool';
 import type { SampleView, VerbOutput } from './types';
 import { AnalysisError, OptionError } from '../errors';
-import type { SineParts } from '../signal/sinefit';
-import { cholesky, invertSpd, symmetricEigenvalues } from '../signal/linalg';
+import { gramConditioning, type SineParts } from '../signal/sinefit';
+import { invertSpd } from '../signal/linalg';
 import { checkKeys, integerIn, shown } from '../validate';
 import { carryBaseline, type BaselineFit } from './baseline';
 
@@ -164,33 +164,9 @@ export function humDesign(
   for (let j = 0; j < p; j++) for (let l = 0; l < j; l++) Z[l][j] = Z[j][l];
   const excluded = n - m;
   const d = G.map((r, j) => Math.sqrt(Math.max(r[j], 0)));
-  let condition = Infinity,
-    extrapolationGain = Infinity;
-  let L: number[][] | null = null;
-  if (driftOk && d.every((v) => v > 0)) {
-    const Gs = G.map((r, j) => r.map((v, l) => v / (d[j] * d[l])));
-    const ev = symmetricEigenvalues(Gs);
-    condition = ev[0] > 0 ? ev[p - 1] / ev[0] : Infinity;
-    L = cholesky(Gs, 1e-15);
-    if (L && excluded === 0) extrapolationGain = 0;
-    else if (L) {
-      const Lf = L;
-      const fwd = (v: number[]): number[] => {
-        const x = new Array<number>(p);
-        for (let i = 0; i < p; i++) {
-          let s = v[i];
-          for (let q = 0; q < i; q++) s -= Lf[i][q] * x[q];
-          x[i] = s / Lf[i][i];
-        }
-        return x;
-      };
-      const Zs = Z.map((r, j) => r.map((v, l) => v / (d[j] * d[l])));
-      const Y = Zs.map(fwd);
-      const M = Y[0].map((_, j) => Y.map((r) => r[j])).map(fwd);
-      for (let j = 0; j < p; j++) for (let l = 0; l < j; l++) M[j][l] = M[l][j] = 0.5 * (M[j][l] + M[l][j]);
-      extrapolationGain = (Math.max(0, symmetricEigenvalues(M)[p - 1]) * m) / excluded;
-    } else condition = Infinity;
-  }
+  const { condition, extrapolationGain } = driftOk
+    ? gramConditioning(G, Z, m, excluded)
+    : { condition: Infinity, extrapolationGain: Infinity };
   // the kernel's design: a constant (orthogonal to the residualised columns), then the cos/sin pairs
   // (the search designs, fitOnly, need neither: they only give residuals). The residualised columns are
   // orthogonal to the constant, so the scaled normal matrix is G scaled, bordered by the constant's 1.
