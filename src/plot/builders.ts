@@ -7,7 +7,7 @@
  */
 import type { SweepSet } from '../sweeps/SweepSet';
 import type { ComponentTable } from '../measure/table';
-import { Figure, PALETTE, MARKERS, layoutFor, sequentialColour, sequentialScale } from './figure';
+import { Figure, PALETTE, MARKERS, layoutFor, sequentialColour, sequentialScale, legendOnly } from './figure';
 import { plotlyText, unitText, sentenceCase, measureLabel, logAxis, tickNumber } from './labels';
 import { logLogistic4, boltzmann, weiss, lapicque } from '../fit/models';
 import { tQuantile } from '../fit/dist';
@@ -24,10 +24,6 @@ const uniq = <T>(xs: T[]) => [...new Set(xs)];
 const num = (x: unknown): x is number => typeof x === 'number' && Number.isFinite(x);
 const GREY = '#666';
 
-/** A legend entry with no data: explains a line style, a symbol or a shaded area. */
-function legendOnly(name: string, style: Trace): Trace {
-  return { type: 'scatter', x: [null], y: [null], name, hoverinfo: 'skip', showlegend: true, ...style };
-}
 /** A shaded area as a legend entry (a filled square in the legend). */
 const areaEntry = (name: string, fill: string, opacity: number): Trace =>
   legendOnly(name, { mode: 'markers', marker: { symbol: 'square', size: 10, color: fill, opacity } });

@@ -20,6 +20,13 @@ import { sentenceCase, logAxis, plainText } from './labels';
  * purple, orange, sky blue, black); its yellow is left out for low contrast on white.
  */
 export const PALETTE = ['#0072B2', '#D55E00', '#009E73', '#CC79A7', '#E69F00', '#56B4E9', '#000000'];
+/**
+ * A legend entry with no data (explains a colour, a line style, a symbol or a shaded area): one point at null,
+ * never hovered. `style` adds the mode, marker, line and any other trace keys.
+ */
+export function legendOnly(name: string, style: Record<string, unknown>): Record<string, unknown> {
+  return { type: 'scatter', x: [null], y: [null], name, hoverinfo: 'skip', showlegend: true, ...style };
+}
 /** Marker shapes paired with PALETTE, so classes also differ without colour (and in greyscale print). */
 export const MARKERS = ['circle', 'square', 'diamond', 'triangle-up', 'triangle-down', 'cross', 'x'];
 /**

@@ -8,7 +8,7 @@
  */
 import type { ConditionValue } from '../sweeps/SweepSet';
 import type { GroupComparison } from '../analysis/groups';
-import { Figure, PALETTE, baseLayout } from './figure';
+import { Figure, PALETTE, baseLayout, legendOnly } from './figure';
 import { plotlyText as esc, measureLabel, unitText } from './labels';
 import { OptionError } from '../errors';
 
@@ -105,16 +105,7 @@ export function groupFigure(result: GroupComparison, options: GroupFigureOptions
     });
   });
   // the legend says what the marks are; with a condition on the x axis it also names the groups by colour
-  const entry = (name: string, marker: Record<string, unknown>) => ({
-    type: 'scatter',
-    mode: 'markers',
-    x: [null],
-    y: [null],
-    name,
-    hoverinfo: 'skip',
-    showlegend: true,
-    marker,
-  });
+  const entry = (name: string, marker: Record<string, unknown>) => legendOnly(name, { mode: 'markers', marker });
   const byCondition = !!o.condition && conds.length > 1;
   if (byCondition) groups.forEach((g, gi) => data.push(entry(esc(String(g)), { color: colour(gi), size: 7 })));
   // with conditions, a preparation's points are joined: its entry is a point on a line, as drawn

@@ -3,7 +3,7 @@
  * against the interstimulus interval, log axis, with the fitted logistic and R50 marks) and train responses per
  * class (latency increase and area fraction against pulse number). Text from data is escaped (labels.ts).
  */
-import { Figure, PALETTE, MARKERS, layoutFor } from './figure';
+import { Figure, PALETTE, MARKERS, layoutFor, legendOnly } from './figure';
 import { plotlyText, logAxis } from './labels';
 import { recoveryLogistic, registerRecoveryFigure } from '../analysis/pairedPulse';
 import type { PairedPulseResult } from '../analysis/pairedPulse';
@@ -19,16 +19,6 @@ const symbol = (i: number) => MARKERS[i % MARKERS.length];
 const label = (r: Row) =>
   r.preparation !== undefined && r.preparation !== null ? ` (${plotlyText(r.preparation)})` : '';
 
-/** A legend entry with no data (explains a colour, a line style or a mark). */
-const legendOnly = (name: string, style: Trace): Trace => ({
-  type: 'scatter',
-  x: [null],
-  y: [null],
-  name,
-  hoverinfo: 'skip',
-  showlegend: true,
-  ...style,
-});
 const GREY = '#666';
 const DASHES = ['solid', 'dash', 'dot', 'dashdot', 'longdash'];
 const fmt = (v: number) => String(Number(v.toPrecision(3)));

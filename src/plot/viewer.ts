@@ -7,7 +7,7 @@
  */
 import type { SweepSet, ConditionValue } from '../sweeps/SweepSet';
 import type { ComponentTable } from '../measure/table';
-import { Figure, PALETTE, layoutFor } from './figure';
+import { Figure, PALETTE, layoutFor, legendOnly } from './figure';
 import { plotlyText, unitText, sentenceCase, tickNumber } from './labels';
 import { OptionError } from '../errors';
 import { checkKeys } from '../validate';
@@ -133,16 +133,7 @@ export function sweepViewer(
     perSweep.push({ traces: mine, shapes });
   });
   // legend: what the shading and marks mean (legend-only entries, always visible)
-  const entry = (name: string, style: Trace): Trace => ({
-    type: 'scatter',
-    x: [null],
-    y: [null],
-    name,
-    hoverinfo: 'skip',
-    showlegend: true,
-    visible: true,
-    ...style,
-  });
+  const entry = (name: string, style: Trace): Trace => legendOnly(name, { visible: true, ...style });
   const legend: Trace[] = [];
   if (tb) {
     classes.forEach((c, ci) =>
