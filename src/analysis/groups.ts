@@ -359,6 +359,14 @@ export interface GroupOptions {
   by?: string[];
   /** unit of the value, for labels (default: from the column name after its last '_', else '') */
   unit?: string;
+  /**
+   * The order of the groups or conditions, keyed by their column (e.g. `{ group: ['control', 'drug'] }`): the
+   * given levels first, in that order, then any others by first appearance. Without it, levels are ordered by
+   * their first appearance in the rows. The order sets the comparison labels ("control vs drug"), the sign of the
+   * Welch difference (first minus second) and of the paired difference (second condition minus first); the
+   * tests table says which order was used (`order`).
+   */
+  levels?: Record<string, ConditionValue[]>;
 }
 
 export const groupDefaults = { group: 'group', animalKeys: ['animal', 'preparation'], by: ['class'] };
@@ -374,10 +382,12 @@ export interface ResolvedGroupOptions {
   condition: string | null;
   by: string[];
   unit: string;
+  /** the given level orders (empty when none was given) */
+  levels: Record<string, ConditionValue[]>;
 }
 
 function resolve(rows: readonly Row[], o: GroupOptions): ResolvedGroupOptions {
-  checkKeys('group options', o, ['value', 'group', 'animal', 'condition', 'by', 'unit']);
+  checkKeys('group options', o, ['value', 'group', 'animal', 'condition', 'by', 'unit', 'levels']);
   const cols = [...new Set(rows.flatMap((r) => Object.keys(r)))];
   const need = (name: string, col: unknown) => {
     if (typeof col !== 'string' || !cols.includes(col)) {
@@ -399,7 +409,50 @@ function resolve(rows: readonly Row[], o: GroupOptions): ResolvedGroupOptions {
   const by = (o.by ?? groupDefaults.by.filter((k) => cols.includes(k))).map((k) => need('by', k));
   const known = UNIT_SUFFIXES.find((u) => value.endsWith('_' + u));
   const unit = o.unit ?? (known ? known.replace('_', '/').replace('uV/ms', 'uV ms').replace('mV/ms', 'mV ms') : '');
-  return { value, group, animal, condition, by, unit };
+  const levels = givenLevels(rows, o.levels, [group, condition ?? ''].filter(Boolean));
+  return { value, group, animal, condition, by, unit, levels };
+}
+
+const shown = (v: unknown) => JSON.stringify(v);
+
+/** Check `levels`: keyed by the group or condition column, each a list of distinct values found in the rows. */
+function givenLevels(rows: readonly Row[], given: unknown, factors: string[]): Record<string, ConditionValue[]> {
+  if (given === undefined) return {};
+  if (given === null || typeof given !== 'object' || Array.isArray(given))
+    throw new OptionError(`invalid levels: ${shown(given)}; must be an object such as { group: ['control'] }`);
+  const out: Record<string, ConditionValue[]> = {};
+  for (const [f, list] of Object.entries(given as Record<string, unknown>)) {
+    if (!factors.includes(f)) {
+      const what = factors.length ? `the group or condition column (${factors.join(', ')})` : 'no factor';
+      throw new OptionError(`invalid levels key: ${shown(f)} is not ${what}${didYouMean(f, factors)}`);
+    }
+    if (!Array.isArray(list) || list.length === 0)
+      throw new OptionError(`invalid levels.${f}: ${shown(list)}; must be a non-empty list of levels of ${f}`);
+    const inRows = [...new Set(rows.map((r) => r[f]))].filter((v) => v !== null && v !== undefined);
+    const seen = new Set<unknown>();
+    for (const v of list) {
+      if (seen.has(v)) throw new OptionError(`invalid levels.${f}: ${shown(v)} is given twice`);
+      seen.add(v);
+      if (!inRows.includes(v as ConditionValue)) {
+        const hint = didYouMean(String(v), inRows.map(String));
+        throw new OptionError(
+          `invalid levels.${f}: ${shown(v)} is not a level of ${f} in the rows${hint}; levels are ` +
+            inRows.map(shown).join(', '),
+        );
+      }
+    }
+    out[f] = [...(list as ConditionValue[])];
+  }
+  return out;
+}
+
+/** Levels in the order used: the given ones first, then the others by first appearance. */
+function orderLevels(seen: ConditionValue[], given: readonly ConditionValue[] | undefined): ConditionValue[] {
+  const first = uniq(seen);
+  if (!given) return first;
+  const key = (v: ConditionValue) => JSON.stringify(v);
+  const named = new Set(given.map(key));
+  return [...given.filter((v) => first.some((x) => key(x) === key(v))), ...first.filter((v) => !named.has(key(v)))];
 }
 
 /** One point per animal: the mean of its values in each cell (by, group, condition). */
@@ -576,18 +629,34 @@ export function compareGroups(
   history = history ?? (Array.isArray(src.history) ? src.history : []);
   sources = sources ?? (Array.isArray(src.sources) ? src.sources : []);
   const cellsBy = uniq(points.map((p) => p.key));
+  // one order for every cell of `by`: given levels first, then first appearance in the rows (not per cell)
+  const groupOrder = orderLevels(
+    points.map((p) => p.group),
+    o.group ? o.levels[o.group] : undefined,
+  );
+  const condOrder = orderLevels(
+    points.map((p) => p.condition),
+    o.condition ? o.levels[o.condition] : undefined,
+  );
+  const said = (f: string | null, what: string) =>
+    `${what} ${f && o.levels[f] ? 'as given (levels)' : 'by first appearance in the data'}`;
+  const order = [
+    ...(o.group ? [said(o.group, 'groups')] : []),
+    ...(o.condition ? [said(o.condition, 'conditions')] : []),
+  ].join('; ');
   const summary: Row[] = [];
   const tests: Row[] = [];
   const blank: Row = { statistic: null, df: null, df2: null, p: null, estimate: null, ci95_low: null, ci95_high: null };
   const push = (base: Row, test: string, comparison: string, r: TestFields) => {
-    tests.push({ ...base, test, comparison, ...blank, n: null, method: null, ...r });
+    tests.push({ ...base, test, comparison, ...blank, n: null, method: null, ...r, order: order || null });
   };
   const sizes = (vals: number[][]) => vals.map((v) => v.length).join(', ');
   for (const key of cellsBy) {
     const keyId = JSON.stringify(o.by.map((k) => key[k]));
     const inKey = points.filter((p) => JSON.stringify(o.by.map((k) => p.key[k])) === keyId);
-    const groups = uniq(inKey.map((p) => p.group));
-    const conds = uniq(inKey.map((p) => p.condition));
+    const present = (vs: ConditionValue[]) => (v: ConditionValue) => vs.some((x) => x === v);
+    const groups = groupOrder.filter(present(inKey.map((p) => p.group)));
+    const conds = condOrder.filter(present(inKey.map((p) => p.condition)));
     const at = (g: ConditionValue, c: ConditionValue) => inKey.filter((p) => p.group === g && p.condition === c);
     for (const c of conds) {
       for (const g of groups) {

@@ -108,7 +108,7 @@ export const ANALYSIS_KEYS: Readonly<Record<string, readonly string[] | 'boolean
   reject: ['flags'],
   pairedPulse: ['by', 'roleKey', 'intervalKey', 'latency', 'measure', 'blankMs', 'extrapolateMs', 'minIntervals'],
   trains: ['by', 'frequencyKey', 'pulsesKey', 'latency', 'blankMs', 'failFraction'],
-  groups: ['value', 'group', 'animal', 'condition', 'by', 'unit', 'table'],
+  groups: ['value', 'group', 'animal', 'condition', 'by', 'unit', 'levels', 'table'],
   mixed: ['value', 'fixed', 'random', 'interaction', 'by', 'levels', 'table'],
   velocityDistribution: VDIST_OPTION_KEYS,
 };

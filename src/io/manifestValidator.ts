@@ -199,8 +199,9 @@ const schema11 = {
           properties: { by: {}, frequencyKey: {}, pulsesKey: {}, latency: {}, blankMs: {}, failFraction: {} },
         },
         groups: {
-          description: 'Group statistics across preparations (value required; table: components or velocity).',
-          properties: { value: {}, group: {}, animal: {}, condition: {}, by: {}, unit: {}, table: {} },
+          description:
+            'Group statistics across preparations (value required; table: components or velocity; levels: the order of groups or conditions, else first appearance).',
+          properties: { value: {}, group: {}, animal: {}, condition: {}, by: {}, unit: {}, levels: {}, table: {} },
         },
         mixed: {
           description: 'Random-intercept mixed model across preparations (value and fixed required).',

@@ -46,8 +46,13 @@ export function groupFigure(result: GroupComparison, options: GroupFigureOptions
   const inCell = (r: Record<string, unknown>) => o.by.every((k) => same(r[k], cell[k]));
   const pts = result.points.filter((p) => inCell(p.key));
   const sum = result.summary.filter(inCell);
-  const groups = [...new Set(pts.map((p) => JSON.stringify(p.group)))].map((g) => JSON.parse(g) as ConditionValue);
-  const conds = [...new Set(pts.map((p) => JSON.stringify(p.condition)))].map((c) => JSON.parse(c) as ConditionValue);
+  // groups and conditions in the comparison's order (its summary rows: given levels, else first appearance)
+  const levels = (k: 'group' | 'condition') =>
+    [...new Set(sum.map((s) => JSON.stringify(k === 'condition' && !o.condition ? null : s[k])))].map(
+      (g) => JSON.parse(g) as ConditionValue,
+    );
+  const groups = levels('group');
+  const conds = levels('condition');
   const G = groups.length;
   const width = 0.7 / Math.max(1, G);
   const xOf = (c: ConditionValue, g: ConditionValue) =>

@@ -521,3 +521,76 @@ describe('mixedModel level order: documented, not the order of the input rows', 
     );
   });
 });
+
+describe('compareGroups group and condition order: first appearance in the data unless given', () => {
+  // an invariant of the design (the same animals, the labels swapped), so no external value: the Welch difference
+  // is mean(first) - mean(second) (welchTTest above, checked against SciPy)
+  const r = new Rng(31);
+  const rows: Record<string, string | number>[] = [];
+  // class C's first row is a treated animal, class A's a control: one order must hold for both classes
+  for (const cls of ['C', 'A'])
+    for (const g of cls === 'C' ? ['treated', 'control'] : ['control', 'treated'])
+      for (let a = 0; a < 4; a++)
+        for (const epoch of ['pre', 'drug'])
+          rows.push({
+            class: cls,
+            group: g,
+            preparation: `${g}-${a}`,
+            epoch,
+            amplitude_uV: 10 + (g === 'treated' ? 3 : 0) + (epoch === 'drug' ? -2 : 0) + r.normal(),
+          });
+  const welch = (res: ReturnType<typeof compareGroups>, cls: string) =>
+    res.tests.find((q) => q.class === cls && q.test === 'Welch t' && q.condition === 'pre')!;
+  it('default: the groups by their first appearance over all rows (treated first here), the same in every class', () => {
+    const res = compareGroups(rows, { value: 'amplitude_uV', condition: 'epoch' });
+    for (const cls of ['A', 'C']) {
+      const w = welch(res, cls);
+      expect(w.comparison).toBe('treated vs control');
+      expect(w.estimate as number).toBeGreaterThan(0);
+      expect(w.order).toBe('groups by first appearance in the data; conditions by first appearance in the data');
+    }
+    const paired = res.tests.filter((q) => q.test === 'paired t');
+    expect(paired.map((q) => q.comparison)).toContain('drug - pre within treated');
+    expect(res.summary.filter((q) => q.class === 'A').map((q) => q.group)).toEqual([
+      'treated',
+      'control',
+      'treated',
+      'control',
+    ]);
+  });
+  it('levels give the order (the others follow by first appearance); the table says so', () => {
+    const res = compareGroups(rows, {
+      value: 'amplitude_uV',
+      condition: 'epoch',
+      levels: { group: ['control'], epoch: ['drug', 'pre'] },
+    });
+    const w = welch(res, 'C');
+    expect(w.comparison).toBe('control vs treated');
+    const plain = welch(compareGroups(rows, { value: 'amplitude_uV', condition: 'epoch' }), 'C');
+    rel(w.estimate as number, -(plain.estimate as number));
+    rel(w.p as number, plain.p as number);
+    expect(w.order).toBe('groups as given (levels); conditions as given (levels)');
+    expect(res.tests.filter((q) => q.test === 'paired t').map((q) => q.comparison)).toContain(
+      'pre - drug within control',
+    );
+    expect(res.history[res.history.length - 1].options.levels).toEqual({ group: ['control'], epoch: ['drug', 'pre'] });
+    // the figure follows the same order: control's points left of treated's at each condition
+    const fig = groupFigure(res, { cell: { class: 'C' } });
+    const firstX = (name: string) =>
+      Math.min(
+        ...(fig.spec.data as { name?: string; x?: unknown[] }[])
+          .filter((t) => t.name === `${name} mean, 95% CI` && Array.isArray(t.x))
+          .flatMap((t) => t.x!.filter((v): v is number => typeof v === 'number')),
+      );
+    expect(firstX('control')).toBeLessThan(firstX('treated'));
+  });
+  it('a level not in the rows, a level given twice or a key that is no factor is an error naming it', () => {
+    const go = (levels: unknown) => () =>
+      compareGroups(rows, { value: 'amplitude_uV', condition: 'epoch', levels } as never);
+    expect(go({ group: ['contrl'] })).toThrow(/invalid levels\.group: "contrl" is not a level.*did you mean "control"/);
+    expect(go({ group: ['control', 'control'] })).toThrow(/"control" is given twice/);
+    expect(go({ grup: ['control'] })).toThrow(/invalid levels key: "grup".*did you mean "group"/);
+    expect(go({ group: 'control' })).toThrow(/invalid levels\.group: "control"; must be a non-empty list/);
+    expect(go(['control'])).toThrow(/invalid levels/);
+  });
+});
