@@ -368,7 +368,10 @@ export class SweepQcResult extends Result {
 }
 
 /**
- * Quality control of every sweep. Numbers per sweep (units of the set):
+ * Quality control of every sweep. Each row names its sweep, preparation and condition: `condition` is the text
+ * "key=value, key=value" of the condition keys that define it (`by` and `peerBy`), with the API's key names here
+ * (`temperatureC=37`) and the bundle's column names in a bundle's sweep_qc table (`temperature_C=37`, as its
+ * other columns; src/registry/columns.ts). Numbers per sweep (units of the set):
  * - noise: 1.4826 MAD of the quiet window about its straight-line trend;
  *   noise_hf: the same of first differences / sqrt 2
  * - drift: median of the end window minus median of the quiet window; quiet_change: the trend across the quiet

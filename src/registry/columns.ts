@@ -11,6 +11,8 @@
  * - per table (its TableSpec's `columns`): unit-less numeric columns get their unit, from the row: `{I}` the row's
  *   intensityUnit, `{C}` its concentrationUnit, `{R}` the unit of the response measured (amplitude: the signal
  *   unit; area: unit_ms). A row without the unit keeps the plain name with `_unit` to say so.
+ * - label columns (its TableSpec's `labels`, e.g. sweep_qc's `condition`, "temperatureC=37, distanceMm=20"): each
+ *   `key=` of a renamed condition takes the column name ("temperature_C=37, distance_mm=20").
  * Dimensionless numeric columns (counts, ratios, fractions, Hill slopes, Q10, p values, R2) carry no unit.
  */
 import type { Row } from './types';
@@ -73,14 +75,28 @@ export function studyColumnUnits(study: {
   return { response: responseUnit(study.units, typeof m === 'string' ? m : undefined) };
 }
 
+/**
+ * A "key=value, key=value" label with its condition keys renamed by `names` (a key is a name at the start of the
+ * text or after ", ", followed by "="; values are left alone).
+ */
+export function renameLabelKeys(label: string, names: ReadonlyMap<string, string>): string {
+  return label.replace(/(^|, )([A-Za-z_][\w]*)=/g, (m, lead: string, key: string) =>
+    names.has(key) ? `${lead}${names.get(key)}=` : m,
+  );
+}
+const TO_BUNDLE = new Map(Object.entries(CONDITION_COLUMNS));
+const TO_API = new Map(Object.entries(CONDITION_COLUMNS).map(([a, b]) => [b, a]));
+const labelColumns = (table: string) => new Set(tableSpec(table)?.spec.labels ?? []);
+
 /** A table's rows with the bundle's column names (same values, same order of columns). */
 export function bundleColumns(table: string, rows: readonly Row[], u: ColumnUnits = {}): Row[] {
   const own = tableColumns(table);
+  const labels = labelColumns(table);
   return rows.map((r) => {
     const out: Row = {};
     const keys = Object.keys(r);
     for (const k of keys) {
-      const v = r[k];
+      const v = labels.has(k) && typeof r[k] === 'string' ? renameLabelKeys(r[k] as string, TO_BUNDLE) : r[k];
       if (k in own) out[fill(own[k], r, u)] = v;
       else if (k in CONDITION_COLUMNS) {
         const to = CONDITION_COLUMNS[k];
@@ -99,10 +115,12 @@ export function apiColumns(table: string, rows: readonly Row[]): Row[] {
   const back = new Map<RegExp, string>();
   const own = Object.entries(tableColumns(table)).sort((x, y) => y[1].length - x[1].length);
   for (const [from, to] of own) back.set(new RegExp(`^${to.replace(/_\{[ICR]\}$/, '_[A-Za-z%][\\w%]*')}$`), from);
-  const cond = new Map(Object.entries(CONDITION_COLUMNS).map(([a, b]) => [b, a]));
+  const cond = TO_API;
+  const labels = labelColumns(table);
   return rows.map((r) => {
     const out: Row = {};
-    for (const [k, v] of Object.entries(r)) {
+    for (const [k, raw] of Object.entries(r)) {
+      const v = labels.has(k) && typeof raw === 'string' ? renameLabelKeys(raw, TO_API) : raw;
       const hit = [...back].find(([re]) => re.test(k));
       if (hit) out[hit[1]] = v;
       else if (k.endsWith('_condition') && cond.has(k.slice(0, -10))) out[cond.get(k.slice(0, -10))!] = v;

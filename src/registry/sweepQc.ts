@@ -133,11 +133,12 @@ export const sweepQc: AnalysisEntry<QcOutput> = {
   },
   studyHistory: mergeQcSteps,
   tables: [
-    { name: 'sweep_qc', title: 'Sweep quality control', bulk: true },
+    { name: 'sweep_qc', title: 'Sweep quality control', bulk: true, labels: ['condition'] },
     { name: 'sweep_qc_summary', title: 'Sweep quality control per preparation' },
     {
       name: 'sweeps_removed',
       title: 'Sweeps removed',
+      labels: ['condition'],
       empty: 'no sweep was removed: flagged sweeps are kept (listed in the sweep QC table) unless reject is true',
     },
   ],

@@ -29,6 +29,11 @@ export interface TableSpec {
    * (src/registry/columns.ts; conditions such as distanceMm -> distance_mm are renamed for every table)
    */
   columns?: Record<string, string>;
+  /**
+   * columns whose text names conditions as "key=value, key=value" (sweep_qc's `condition`): in the bundle the keys
+   * are renamed as the condition columns are (temperatureC= -> temperature_C=)
+   */
+  labels?: string[];
   /** long per-sweep or per-point table: shown closed on screen, left out of print */
   bulk?: boolean;
   /** written (possibly empty) whenever the study is combined, not only when the analysis produced it */

@@ -318,3 +318,42 @@ describe('sweepQc reasons state times from the stimulus', () => {
     expect(q.methods()).toMatch(/checked for quality \(times relative to the stimulus\)/);
   });
 });
+
+describe('the condition label: API key names in the API, the bundle column names in a bundle', () => {
+  // review request (this session): sweep_qc's condition text used temperatureC= where every other bundle column says
+  // temperature_C; the mapping is the bundle's own (src/registry/columns.ts CONDITION_COLUMNS), no external value
+  it('bundleColumns renames the keys of sweep_qc and sweeps_removed labels, apiColumns gives them back', async () => {
+    const { bundleColumns, apiColumns, CONDITION_COLUMNS } = await import('../../src/registry/columns');
+    await import('../../src/registry');
+    const label = 'preparation=R1, temperatureC=37, distanceMm=20, myKey=a, b, note=x=temperatureC=1';
+    for (const table of ['sweep_qc', 'sweeps_removed']) {
+      const [row] = bundleColumns(table, [{ sweep: 0, fileSweep: 3, condition: label }]);
+      expect(row).toEqual({
+        sweep: 0,
+        file_sweep: 3,
+        condition: 'preparation=R1, temperature_C=37, distance_mm=20, myKey=a, b, note=x=temperatureC=1',
+      });
+      expect(apiColumns(table, [row])[0].condition).toBe(label);
+    }
+    // another table's text column is left as it is
+    expect(bundleColumns('components', [{ condition: label }])[0].condition).toBe(label);
+    // every key sweepQc writes into a label is renamed like its column
+    const set = new SweepSet({
+      data: Float64Array.from({ length: 4 * 200 }, (_, i) => Math.sin(i)),
+      nSweeps: 4,
+      nSamples: 200,
+      fs: 20000,
+      t0Ms: -5,
+      units: 'uV',
+      conditions: [0, 1, 2, 3].map((k) => ({ preparation: 'R1', temperatureC: 37, distanceMm: 20, intensity: k })),
+    });
+    const qcRow = sweepQc(set).rows[0];
+    expect(qcRow.condition).toMatch(/temperatureC=37/);
+    const [b] = bundleColumns('sweep_qc', [qcRow]);
+    const keys = [...(b.condition as string).matchAll(/(?:^|, )(\w+)=/g)].map((m) => m[1]);
+    expect(keys.length).toBeGreaterThan(0);
+    for (const k of keys) expect(Object.keys(CONDITION_COLUMNS)).not.toContain(k);
+    expect(b.condition).toMatch(/temperature_C=37/);
+    expect(b.condition).toMatch(/distance_mm=20/);
+  });
+});
