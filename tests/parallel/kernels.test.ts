@@ -85,6 +85,35 @@ describe('average kernel (groupBy(...).average())', () => {
       expect(one.conditions.map((c) => c.count).reduce((p, q) => (p as number) + (q as number), 0)).toBe(S);
     });
   }
+  it('groups of 1 to 9 sweeps (every split into passes of up to four), with -0 and infinite samples', () => {
+    // group g holds g + 1 sweeps, interleaved: 45 sweeps of 12,000 samples (above the threading threshold)
+    const base = synthetic();
+    const sizes = [1, 2, 3, 4, 5, 6, 7, 8, 9];
+    const groupOf = sizes.flatMap((m, g) => Array.from({ length: m }, () => g));
+    const order = groupOf.map((g, k) => [(k * 17) % groupOf.length, g]).sort((p, q) => p[0] - q[0]);
+    const data = new Float64Array(new SharedArrayBuffer(groupOf.length * N * 8));
+    data.set(base.data.subarray(0, data.length));
+    data[5] = -0; // a sweep's -0 and +/-Infinity stay what a per-sample sum gives
+    data[N + 7] = Infinity;
+    data[2 * N + 9] = -Infinity;
+    const set = new SweepSet({
+      data,
+      nSweeps: groupOf.length,
+      nSamples: N,
+      fs,
+      t0Ms: -2,
+      units: 'uV',
+      conditions: order.map(([, g]) => ({ g })),
+    });
+    const ref = referenceAverage(set, 'g', false);
+    for (const T of [1, 2]) {
+      setThreads(T);
+      const avg = set.groupBy('g').average();
+      expect(same(avg.data, ref.out)).toBe(true);
+      expect(same(avg.extras.sd as Float64Array, ref.sd)).toBe(true);
+      expect(same(avg.extras.sem as Float64Array, ref.sem)).toBe(true);
+    }
+  });
 });
 
 describe('pending artifact bridge (removeArtifact blank)', () => {
