@@ -16,8 +16,6 @@ import { Worker, MessageChannel, receiveMessageOnPort, isMainThread, type Messag
 import { existsSync } from 'node:fs';
 import { join } from 'node:path';
 import { availableParallelism, totalmem } from 'node:os';
-import { setFlagsFromString } from 'node:v8';
-import { runInNewContext } from 'node:vm';
 import { OptionError, ThreadError } from '../errors';
 import { kernels, type KernelName } from './kernels';
 
@@ -101,7 +99,11 @@ let collect: (() => void) | null | undefined;
 function fullCollection(): void {
   if (collect === undefined) {
     try {
-      setFlagsFromString('--expose-gc');
+      // node:v8 and node:vm are loaded here, when first needed, not at start-up (a few ms of every command)
+      // eslint-disable-next-line @typescript-eslint/no-var-requires
+      (require('node:v8') as typeof import('node:v8')).setFlagsFromString('--expose-gc');
+      // eslint-disable-next-line @typescript-eslint/no-var-requires
+      const { runInNewContext } = require('node:vm') as typeof import('node:vm');
       collect = runInNewContext('gc') as () => void; // gc in a fresh context only, not in the user's globals
     } catch {
       collect = null;
