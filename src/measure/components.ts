@@ -517,6 +517,45 @@ function ownPeak(x: ArrayLike<number>, fast: Win, slow: Win, p: 1 | -1, n: numbe
   return tr < y(p2) && y(p2) >= y(p2 - 1) && y(p2) >= y(p2 + 1);
 }
 
+/** Fraction of its own maximum within which the top of a wave is fitted by a parabola (topVertex). */
+export const PEAK_TOP_FRACTION = 0.02;
+
+/**
+ * Peak time (fractional sample index) of a wave whose largest sample is y[ip]: the vertex of the least-squares
+ * parabola through the contiguous samples around ip within max(PEAK_TOP_FRACTION of the maximum, 3 noise SDs) of it
+ * (at least one on each side, within [lo, hi]: a sharp top gives the three-point parabola). The span is a property of the wave's shape and the noise, not a count
+ * of samples, so the same wave sampled at 50 or 100 kHz gives the same time; a flat top whose samples differ by
+ * less than the noise is not decided by its single largest sample (the three-point parabola of that sample moves by
+ * a sample with the noise). The vertex is kept within the fitted span; null when the parabola does not open
+ * downwards (common practice, no source: local polynomial regression of a peak).
+ */
+export function topVertex(y: ArrayLike<number>, ip: number, lo: number, hi: number, noise: number): number | null {
+  const P = y[ip];
+  if (!(P > 0) || ip <= lo || ip >= hi) return null;
+  const level = P - Math.max(PEAK_TOP_FRACTION * P, 3 * (noise > 0 ? noise : 0));
+  let a = ip,
+    b = ip;
+  while (a > lo && (y[a - 1] > level || a === ip)) a--;
+  while (b < hi && (y[b + 1] > level || b === ip)) b++;
+  if (b - a < 2) return null;
+  // y = c0 + c1 u + c2 u^2, u = i - ip (normal equations, 3 x 3)
+  const S = new Float64Array(5),
+    T = new Float64Array(3);
+  for (let i = a; i <= b; i++) {
+    const u = i - ip;
+    let q = 1;
+    for (let k = 0; k < 5; k++) {
+      S[k] += q;
+      if (k < 3) T[k] += q * y[i];
+      q *= u;
+    }
+  }
+  const c = solve3([S[0], S[1], S[2], S[1], S[2], S[3], S[2], S[3], S[4]], [T[0], T[1], T[2]]);
+  if (!c || !(c[2] < 0)) return null;
+  const v = ip - c[1] / (2 * c[2]);
+  return Math.min(b, Math.max(a, v));
+}
+
 /** Measure each fiber class in every sweep. */
 export function measureComponents(
   set: SweepSet,
@@ -994,6 +1033,7 @@ export function measureComponents(
       peakFrom = 0,
       peakTo = y.length - 1,
       model?: Float64Array,
+      shoulder = false,
     ) => {
       const c = classes[ci];
       const p = polarities[c.name];
@@ -1020,10 +1060,17 @@ export function measureComponents(
         smoothOk && sigma >= 0.5
           ? noiseMad(gaussianSmooth(Array.prototype.slice.call(x, na, nb + 1), sigma), 0, nb - na)
           : noise;
-      const lat: OwnLatencies = ownLatencies(yc, peakFrom, peakTo, onsetFraction, centroidFraction, 0, yc.length - 1);
+      const lat0: OwnLatencies = ownLatencies(yc, peakFrom, peakTo, onsetFraction, centroidFraction, 0, yc.length - 1);
+      // the peak time of a whole wave that was not smoothed (a large wave, or a decomposed class's component): the
+      // vertex of a parabola through its top (topVertex), not its single largest sample; a slower decomposed class
+      // (a shoulder on the faster class's residual, `shoulder`) and a smoothed wave keep the three-point parabola
+      const i0 = Math.round(lat0.peakIndex);
+      const unsmoothed = yc === y0;
+      const vtx = lat0.localMax && unsmoothed && !shoulder ? topVertex(yc, i0, peakFrom, peakTo, noiseS) : null;
+      const lat: OwnLatencies = vtx === null ? lat0 : { ...lat0, peakIndex: vtx };
       const N = peakTo - peakFrom + 1;
       const kEff = Math.max(k, normQuantile(1 - 0.01 / N));
-      const ip = Math.round(lat.peakIndex);
+      const ip = i0;
       const sm = ip > 0 && ip < yc.length - 1 ? (yc[ip - 1] + yc[ip] + yc[ip + 1]) / 3 : yc[ip];
       const above = sm > kEff * noiseS;
       let status = status0 ?? (above ? 'measured' : 'not detected');
@@ -1178,6 +1225,7 @@ export function measureComponents(
           pa,
           pb,
           dec.components[j],
+          j > 0,
         );
       });
     }
