@@ -10,7 +10,7 @@ import { createHash } from 'node:crypto';
 import { InputError, OptionError, ConfigError } from '../errors';
 import { SweepSet, type Conditions } from '../sweeps/SweepSet';
 import { readInput } from './files';
-import { conditionsProblem, nearest, shown } from '../validate';
+import { conditionsProblem, nearest, shown, editDistance, didYouMean } from '../validate';
 import { PRESETS } from '../measure/classes';
 import { COMPONENT_OPTION_KEYS } from '../measure/components';
 import { VDIST_OPTION_KEYS } from '../analysis/velocityDistribution';
@@ -122,6 +122,63 @@ const BOOLEAN_OR_OBJECT_STEPS = ['reject'];
 const REQUIRED_KEYS: Readonly<Record<string, readonly string[]>> = { groups: ['value'], mixed: ['value', 'fixed'] };
 /** Values of the `series` condition that the standard pipeline recognises. */
 export const SERIES = ['intensity', 'distance', 'dose', 'temperature', 'pulse-width', 'paired-pulse', 'train'] as const;
+
+/**
+ * Condition keys fascicle reads (README "Known conditions", the schema's condition properties, and the keys the
+ * paired-pulse, train and bipolar analyses look for). Any other key is a user column, unless it looks like a typo of
+ * one of these (see conditionKeyTypo).
+ */
+export const KNOWN_CONDITIONS = [
+  'preparation',
+  'preparationType',
+  'intensity',
+  'intensityUnit',
+  'pulseWidthMs',
+  'site',
+  'distanceMm',
+  'referenceDistanceMm',
+  'drug',
+  'concentration',
+  'concentrationUnit',
+  'temperatureC',
+  'acquiredS',
+  'repeat',
+  'polarity',
+  'epoch',
+  'series',
+  'pulsePair',
+  'intervalMs',
+  'trainHz',
+  'trainPulses',
+  'pulsesMs',
+] as const;
+
+const squash = (k: string) => k.toLowerCase().replace(/[^a-z0-9]/g, '');
+/**
+ * The known condition a user key is most likely a typo of, or null: the same letters in another case or with
+ * separators ("temperature_C", "DistanceMM"), a known key without its unit ("temperature", "distance",
+ * "pulseWidth") or within two edits of one ("temperatureCC", "concentraton"; keys of 6 letters or more).
+ * A key that is exactly known, or far from every known key, is not a typo.
+ */
+export function conditionKeyTypo(key: string): string | null {
+  if ((KNOWN_CONDITIONS as readonly string[]).includes(key)) return null;
+  const k = squash(key);
+  for (const known of KNOWN_CONDITIONS) {
+    const q = squash(known);
+    if (k === q) return known;
+    const unit = q.replace(/(mm|ms|hz|c|s)$/, '');
+    if (unit !== q && unit.length >= 6 && k === unit) return known;
+  }
+  if (k.length < 6) return null;
+  let best: string | null = null,
+    bestD = 3;
+  for (const known of KNOWN_CONDITIONS) {
+    if (known.length < 6) continue;
+    const d = editDistance(k, squash(known));
+    if (d < bestD) [best, bestD] = [known, d];
+  }
+  return best;
+}
 /**
  * Values of analysis options that the pipeline uses inside analyses it flags instead of stopping
  * (a bad value there would become a flag, not a configuration error), and the per-class polarity:
@@ -368,6 +425,25 @@ function validate(m: unknown, file: string): asserts m is Manifest {
     if (problem) throw new InputError({ file, field }, problem, 'strings, finite numbers, booleans or null');
   };
   const man = m as Manifest;
+  // a user column that looks like a known condition is most likely a typo whose value would be ignored
+  const typos = (c: unknown, field: string) => {
+    if (c === null || typeof c !== 'object') return;
+    for (const k of Object.keys(c)) {
+      const near = conditionKeyTypo(k);
+      if (near)
+        throw new ConfigError(
+          { file, field: `${field}/${k}` },
+          `unknown condition "${k}" (did you mean "${near}"?); it looks like the known condition "${near}", ` +
+            'whose value fascicle would then not see',
+          `"${near}", or another name for a column of your own`,
+        );
+    }
+  };
+  typos(man.defaults, '/defaults');
+  man.files.forEach((f, i) => {
+    typos(f.conditions, `/files/${i}/conditions`);
+    f.sweeps?.forEach((c, j) => typos(c, `/files/${i}/sweeps/${j}`));
+  });
   check(man.defaults, '/defaults');
   man.files.forEach((f, i) => {
     check(f.conditions, `/files/${i}/conditions`);
@@ -603,6 +679,20 @@ export function readManifest(path: string, opts: { only?: (f: ManifestFile, i: n
   }
   const dir = dirname(resolve(path));
   const required = manifest.required ?? ['preparation'];
+  // the same file read the same way twice would count its sweeps twice (repeats that are not repeats)
+  const seen = new Map<string, number>();
+  manifest.files.forEach((f, fi) => {
+    const id = JSON.stringify([resolve(dir, f.path), formatOf(f), f.options ?? null]);
+    const before = seen.get(id);
+    if (before !== undefined)
+      throw new ConfigError(
+        { file: path, field: `/files/${fi}/path` },
+        `${f.path} is listed twice, as files ${before} and ${fi}, with the same reader options: ` +
+          'its sweeps would be counted twice',
+        'each file once (give its sweeps their conditions in one entry)',
+      );
+    seen.set(id, fi);
+  });
   const sets: SweepSet[] = [];
   manifest.files.forEach((f, fi) => {
     if (opts.only && !opts.only(f, fi)) return;
@@ -644,9 +734,12 @@ export function readManifest(path: string, opts: { only?: (f: ManifestFile, i: n
     set.conditions.forEach((c, i) => {
       for (const k of required) {
         if (!Object.hasOwn(c, k) || c[k] === null || c[k] === undefined) {
+          const other = KNOWN_CONDITIONS.includes(k as never)
+            ? ''
+            : didYouMean(k, [...KNOWN_CONDITIONS, ...Object.keys(c)]);
           throw new InputError(
             { file: f.path, sweep: i },
-            `condition "${k}" is missing`,
+            `condition "${k}" is missing${other}`,
             `every sweep to have "${k}" (listed in the manifest's required conditions)`,
           );
         }

@@ -778,13 +778,14 @@ describe('fuzz: manifest', () => {
     series: fc.option(fc.constantFrom('intensity', 'distance', 'dose', 'temperature', 'pulse-width'), {
       nil: undefined,
     }),
-    entries: fc.array(
+    // each file once: a file listed twice with the same reader options is an error (its sweeps would count twice)
+    entries: fc.uniqueArray(
       fc.record({
         file: fc.constantFrom(...files),
         conditions: fc.option(conds, { nil: undefined }),
         perSweep: fc.option(fc.tuple(conds, conds), { nil: undefined }),
       }),
-      { minLength: 1, maxLength: 3 },
+      { minLength: 1, maxLength: 2, selector: (e) => e.file },
     ),
     prep: fc.constantFrom('P1', 'P2'),
   });
@@ -963,9 +964,38 @@ describe('fuzz: manifest', () => {
       (v) =>
         v === null || typeof v === 'string' || typeof v === 'boolean' || (typeof v === 'number' && Number.isFinite(v)),
     );
+  // README "Known conditions" (and the paired-pulse, train and bipolar keys): a key that differs from one of them only
+  // in case or punctuation ("series{", "distance_mm") is a typo, refused with the nearest name
+  const KNOWN = [
+    'preparation',
+    'preparationType',
+    'intensity',
+    'intensityUnit',
+    'pulseWidthMs',
+    'site',
+    'distanceMm',
+    'referenceDistanceMm',
+    'drug',
+    'concentration',
+    'concentrationUnit',
+    'temperatureC',
+    'acquiredS',
+    'repeat',
+    'polarity',
+    'epoch',
+    'series',
+    'pulsePair',
+    'intervalMs',
+    'trainHz',
+    'trainPulses',
+    'pulsesMs',
+  ];
+  const letters = (k: string) => k.toLowerCase().replace(/[^a-z0-9]/g, '');
+  const typoKey = (k: string) => !KNOWN.includes(k) && KNOWN.some((q) => letters(q) === letters(k));
   const condOk = (c: unknown) =>
     c === undefined ||
     (primitive(c) &&
+      !Object.keys(c as object).some(typoKey) &&
       (!Object.hasOwn(c as object, 'series') ||
         (c as Record<string, unknown>).series === null ||
         SERIES.includes((c as Record<string, string>).series)) &&
@@ -1005,6 +1035,9 @@ describe('fuzz: manifest', () => {
       if (f.sweeps !== undefined && (!Array.isArray(f.sweeps) || f.sweeps.length !== 2 || !f.sweeps.every(condOk)))
         return false;
     }
+    // the same file twice with the same reader options (README: each file once)
+    const ids = m.files.map((f) => JSON.stringify([(f as Record<string, unknown>).path, f.options ?? null]));
+    if (new Set(ids).size !== ids.length) return false;
     const required = (m.required as string[] | undefined) ?? ['preparation'];
     for (const c of expectedConditions(m as ReturnType<typeof toJson>)) {
       for (const k of required) if (!Object.hasOwn(c, k) || (c as Record<string, unknown>)[k] === null) return false;
@@ -1041,7 +1074,8 @@ describe('fuzz: manifest', () => {
             if (e.field === 'series') {
               if (m.defaults !== null && typeof m.defaults === 'object') m.defaults.series = e.value;
             } else if (e.field === 'path' || e.field === 'format' || e.field === 'sweeps') {
-              if (Array.isArray(m.files) && m.files[0]) m.files[0][e.field] = e.value;
+              const f0 = Array.isArray(m.files) ? (m.files[0] as unknown) : undefined;
+              if (f0 !== null && typeof f0 === 'object') (f0 as Record<string, unknown>)[e.field] = e.value;
             } else m[e.field] = e.value;
           } else if (e.kind === 'text') {
             const t = text ?? JSON.stringify(m);

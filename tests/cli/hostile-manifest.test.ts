@@ -1,0 +1,119 @@
+// Manifest mistakes a user makes and fascicle used to accept silently (found by trying them on the demo study):
+// a mistyped condition key (its value never reached the analysis), the same file listed twice (its sweeps counted
+// twice as repeats), and a mistyped required condition (an error without the nearest name). Each must be a typed
+// error naming the manifest, the field and the nearest valid name; the command line exits 2 (configuration) and
+// writes nothing. The expected names are the README's "Known conditions"; no numeric reference is involved.
+import { describe, it, expect, afterAll } from 'vitest';
+import { spawnSync } from 'node:child_process';
+import { mkdtempSync, writeFileSync, existsSync, rmSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { readManifest, conditionKeyTypo } from '../../src/io/manifest';
+import { ConfigError, InputError } from '../../src/errors';
+
+const root = join(__dirname, '..', '..');
+const cliPath = join(root, 'dist', 'cli', 'main.js');
+const work = mkdtempSync(join(tmpdir(), 'fascicle-hostile-manifest-'));
+afterAll(() => rmSync(work, { recursive: true, force: true }));
+
+const csv = 'time (ms),s1 (uV),s2 (uV)\n0,1,2\n0.02,3,4\n0.04,5,6\n';
+writeFileSync(join(work, 'a.csv'), csv);
+writeFileSync(join(work, 'b.csv'), csv);
+let n = 0;
+const manifest = (m: Record<string, unknown>) => {
+  const p = join(work, `m${n++}.json`);
+  writeFileSync(p, JSON.stringify({ fascicleManifest: 1, ...m }));
+  return p;
+};
+const file = (conditions: Record<string, unknown>, extra: Record<string, unknown> = {}) => ({
+  path: 'a.csv',
+  conditions: { preparation: 'P1', ...conditions },
+  ...extra,
+});
+const thrown = (f: () => unknown): Error => {
+  try {
+    f();
+  } catch (e) {
+    return e as Error;
+  }
+  throw new Error('no error');
+};
+
+describe('a condition key that looks like a known one is a typo, not a user column', () => {
+  it('the same letters in another case or with separators, the key without its unit, two edits away', () => {
+    const cases: [string, string][] = [
+      ['temperatureCC', 'temperatureC'],
+      ['temperature', 'temperatureC'],
+      ['temperature_C', 'temperatureC'],
+      ['Temperaturec', 'temperatureC'],
+      ['distance_mm', 'distanceMm'],
+      ['distance', 'distanceMm'],
+      ['distancMm', 'distanceMm'],
+      ['pulseWidth', 'pulseWidthMs'],
+      ['concentraton', 'concentration'],
+      ['Preparation', 'preparation'],
+      ['interval', 'intervalMs'],
+    ];
+    for (const [typo, known] of cases) expect([typo, conditionKeyTypo(typo)]).toEqual([typo, known]);
+  });
+  it('user columns far from every known key, and the known keys themselves, are kept', () => {
+    for (const k of ['group', 'animal', 'label', 'condition', 'sex', 'cohort', 'genotype', 'rig', 'side', 'note'])
+      expect([k, conditionKeyTypo(k)]).toEqual([k, null]);
+    for (const k of ['temperatureC', 'distanceMm', 'series', 'epoch', 'site']) expect(conditionKeyTypo(k)).toBeNull();
+  });
+  it('in file conditions, per-sweep entries and defaults: a ConfigError naming the field and the nearest key', () => {
+    const a = thrown(() => readManifest(manifest({ files: [file({ temperatureCC: 37 })] })));
+    expect(a).toBeInstanceOf(ConfigError);
+    expect(a.message).toMatch(/m\d+\.json, field \/files\/0\/conditions\/temperatureCC: unknown condition/);
+    expect(a.message).toMatch(/did you mean "temperatureC"/);
+    const b = thrown(() => readManifest(manifest({ files: [file({}, { sweeps: [{}, { distance_mm: 20 }] })] })));
+    expect(b.message).toMatch(/field \/files\/0\/sweeps\/1\/distance_mm: .*did you mean "distanceMm"/);
+    const c = thrown(() => readManifest(manifest({ defaults: { Epoch: 'drug' }, files: [file({})] })));
+    expect(c.message).toMatch(/field \/defaults\/Epoch: .*did you mean "epoch"/);
+    // a user column of its own name loads, with its value on every sweep
+    const ok = readManifest(manifest({ files: [file({ cohort: 'K1', temperatureC: 37 })] }));
+    expect(ok.conditions.map((q) => [q.cohort, q.temperatureC])).toEqual([
+      ['K1', 37],
+      ['K1', 37],
+    ]);
+  });
+});
+
+describe('the same file listed twice', () => {
+  it('with the same reader options is an error naming both entries; other files, or other options, load', () => {
+    const e = thrown(() => readManifest(manifest({ files: [file({}), file({ site: 'x' }), { path: 'b.csv' }] })));
+    expect(e).toBeInstanceOf(ConfigError);
+    expect(e.message).toMatch(/field \/files\/1\/path: a\.csv is listed twice, as files 0 and 1/);
+    // "./a.csv" is the same file
+    const dot = thrown(() => readManifest(manifest({ files: [file({}), { ...file({}), path: './a.csv' }] })));
+    expect(dot.message).toMatch(/listed twice/);
+    const two = readManifest(manifest({ files: [file({}), { ...file({}), path: 'b.csv' }] }));
+    expect(two.nSweeps).toBe(4);
+    const opts = readManifest(manifest({ files: [file({}), file({}, { options: { timeUnit: 'ms' } })] }));
+    expect(opts.nSweeps).toBe(4);
+  });
+});
+
+describe('a mistyped required condition', () => {
+  it('names the missing condition and the nearest known one', () => {
+    const e = thrown(() => readManifest(manifest({ required: ['preparation', 'temprature'], files: [file({})] })));
+    expect(e).toBeInstanceOf(InputError);
+    expect(e.message).toMatch(/condition "temprature" is missing \(did you mean "temperatureC"\?\)/);
+  });
+});
+
+describe('on the command line', () => {
+  it('a mistyped condition and a file listed twice exit 2 with the message, and write no bundle', () => {
+    for (const m of [{ files: [file({ temperatureCC: 37 })] }, { files: [file({}), file({})] }]) {
+      const out = join(work, `out${n}`);
+      const r = spawnSync(process.execPath, [cliPath, 'run', manifest(m), '--out', out, '--quiet'], {
+        encoding: 'utf8',
+      });
+      expect(r.status).toBe(2);
+      expect(r.stderr).toMatch(
+        /configuration error: .*m\d+\.json, field \/files\/\d\/(conditions\/temperatureCC|path)/,
+      );
+      expect(existsSync(out)).toBe(false);
+    }
+  });
+});
