@@ -52,6 +52,7 @@ import {
   type SharedShape,
 } from './decompose';
 import { normQuantile } from '../fit/dist';
+import { sharedShapeScores } from '../fit/models';
 import { windowIndices } from '../verbs/baseline';
 import { windowMs, warnOnce, checkKeys, didYouMean } from '../validate';
 import { VERSION } from '../version';
@@ -523,10 +524,10 @@ export const PEAK_TOP_FRACTION = 0.02;
 /**
  * Peak time (fractional sample index) of a wave whose largest sample is y[ip]: the vertex of the least-squares
  * parabola through the contiguous samples around ip within max(PEAK_TOP_FRACTION of the maximum, 3 noise SDs) of it
- * (at least one on each side, within [lo, hi]: a sharp top gives the three-point parabola). The span is a property of the wave's shape and the noise, not a count
- * of samples, so the same wave sampled at 50 or 100 kHz gives the same time; a flat top whose samples differ by
- * less than the noise is not decided by its single largest sample (the three-point parabola of that sample moves by
- * a sample with the noise). The vertex is kept within the fitted span; null when the parabola does not open
+ * (at least one on each side, within [lo, hi]: a sharp top gives the three-point parabola). The span is a property
+ * of the wave's shape and the noise, not a count of samples, so the same wave sampled at 50 or 100 kHz gives the
+ * same time; a flat top whose samples differ by less than the noise is not decided by its single largest sample
+ * (the three-point parabola of that sample moves by a sample with the noise). The vertex is kept within the fitted span; null when the parabola does not open
  * downwards (common practice, no source: local polynomial regression of a peak).
  */
 export function topVertex(y: ArrayLike<number>, ip: number, lo: number, hi: number, noise: number): number | null {
@@ -1425,11 +1426,14 @@ export function measureComponents(
 
 /**
  * Least-squares amplitude (column amplitude_fit_<units>, standard error amplitude_fit_se_<units> for white noise of
- * the row's noise level): each measured or not-detected class component fitted as a r + b + c t (the class's
- * reference waveform r at the same site, an offset and a slope) over the span around the reference's peak where it
- * exceeds 10% of that peak, widened by half that span on each side, reported as a x the reference's peak (a class alone in its window is already
- * measured above its own local baseline). The reference is the mean component of the group's unblocked sweeps
- * (concentration 0 or none) at their highest intensity. Linear in the data, so noise
+ * the row's noise level): each measured or not-detected class component fitted as a s + b + c t, with s the shape
+ * shared by the group's rows at the same site (the leading singular vector after each row's offset and slope,
+ * fit/models.ts sharedShapeScores), over the span around the reference's peak where it exceeds 10% of that peak,
+ * widened by half that span on each side, reported relative to the reference rows' mean score x the reference's peak
+ * (a class alone in its window is already measured above its own local baseline). The reference is the mean
+ * component of the group's unblocked sweeps (concentration 0 or none) at their highest intensity. The shape is
+ * estimated from every row, so the reference's own noise neither makes it exactly 1 nor shrinks the others (as a
+ * projection on one noisy reference trace does: errors in the regressor). Linear in each row's data, so noise
  * does not inflate a small response as a picked peak does (the maximum of noise is positive); for a wave that
  * keeps its shape it equals the peak amplitude (common practice, no source: a matched-filter estimate).
  */
@@ -1499,28 +1503,21 @@ function fittedAmplitudes(
       k1 = Math.min(tmpl.length - 1, j1 + ext),
       jm = (k0 + k1) / 2,
       w = Math.max(1, k1 - k0);
-    const A = new Array<number>(9).fill(0);
-    for (let j = k0; j <= k1; j++) {
-      const xs = [tmpl[j], 1, (j - jm) / w];
-      for (let a = 0; a < 3; a++) for (let b = 0; b < 3; b++) A[3 * a + b] += xs[a] * xs[b];
-    }
-    const det =
-      A[0] * (A[4] * A[8] - A[5] * A[7]) - A[1] * (A[3] * A[8] - A[5] * A[6]) + A[2] * (A[3] * A[7] - A[4] * A[6]);
-    const inv00 = det !== 0 ? (A[4] * A[8] - A[5] * A[7]) / det : NaN;
-    for (const r of projectable) {
-      const bb = [0, 0, 0];
-      for (let j = k0; j <= k1; j++) {
-        const v = at(r, lo + j);
-        bb[0] += tmpl[j] * v;
-        bb[1] += v;
-        bb[2] += (v * (j - jm)) / w;
-      }
-      const q = solve3(A, bb);
-      r[col] = q ? P * q[0] : null;
-      // standard error for white noise of the row's level: sd sqrt((A^-1)_00), times P
+    // every projectable row's amplitude relative to the reference rows from one shape shared by the group
+    // (rank one after each row's offset and slope): the shape is estimated from every row, so the reference's own
+    // noise neither sets it to exactly 1 nor shrinks the others (fit/models.ts sharedShapeScores)
+    const len = k1 - k0 + 1;
+    const uu = Float64Array.from({ length: len }, (_, j) => (k0 + j - jm) / w);
+    const traces = projectable.map((r) => Float64Array.from({ length: len }, (_, j) => at(r, lo + k0 + j)));
+    const refIdx = projectable.map((r, i) => (ref.includes(r) ? i : -1)).filter((i) => i >= 0);
+    const fit = sharedShapeScores(traces, [new Float64Array(len).fill(1), uu], refIdx);
+    if (!fit) continue;
+    projectable.forEach((r, i) => {
+      r[col] = (P * fit.scores[i]) / fit.referenceScore;
+      // standard error for white noise of the row's level (the shape taken as known): sd / reference score, times P
       const sd = r[`noise_${units}`];
-      r[seCol] = q && typeof sd === 'number' && inv00 > 0 ? P * sd * Math.sqrt(inv00) : null;
-    }
+      r[seCol] = typeof sd === 'number' ? (P * sd) / fit.referenceScore : null;
+    });
   }
 }
 
