@@ -19,6 +19,9 @@
  *    all preparations' normalised points gives a profile-likelihood CI; optional
  *    bootstrap over preparations.
  * 5. Classes compared by the extra-sum-of-squares F test of a shared IC50.
+ * 6. Numbers only where the data determine them: a fitted IC50 outside the measured concentrations makes the
+ *    preparation's row 'not identifiable' (no numbers, with the reason), and a Hill slope at its bound is left
+ *    empty with the reason; the pooled fit gives profile-likelihood intervals for the IC50 and the Hill slope.
  */
 import type { ConditionValue, Step, Source } from '../sweeps/SweepSet';
 import { Result } from '../notebook/result';
@@ -69,6 +72,8 @@ export interface DoseResponseOptions {
    */
   maxLatencyShift?: number | null;
 }
+/** bounds of the fitted Hill slope */
+const HILL_BOUNDS = [0.2, 6] as const;
 export const doseResponseDefaults = {
   lastN: 3,
   runDown: 'none' as const,
@@ -132,8 +137,8 @@ export function fitHill(x: number[], y: number[], fixBottom: number | null, free
     p0: [1, bottom, 1, lne],
     names: ['hill', 'bottom', 'top', 'lnIC50'],
     fixed: [false, fixBottom !== null, !freeTop, false],
-    lower: [0.2, -0.2, freeTop ? 0.5 : -Infinity, -Infinity],
-    upper: [6, 0.9, freeTop ? 1.5 : Infinity, Infinity],
+    lower: [HILL_BOUNDS[0], -0.2, freeTop ? 0.5 : -Infinity, -Infinity],
+    upper: [HILL_BOUNDS[1], 0.9, freeTop ? 1.5 : Infinity, Infinity],
   });
 }
 
@@ -471,19 +476,51 @@ export function doseResponse(
     };
     const logIc: number[] = [];
     const hills: number[] = [];
+    // the data support an IC50 only inside the concentrations that were measured, and a Hill slope only off its
+    // bounds (at a bound the fall between two concentrations is steeper or shallower than the data can tell)
+    const hillAtBound = (f: FitResult) => f.params[0] <= HILL_BOUNDS[0] + 1e-9 || f.params[0] >= HILL_BOUNDS[1] - 1e-9;
+    const unidentified: string[] = [];
     for (const prep of preps) {
       const pp = mine.filter((p) => p.preparation === prep);
       const f = hill(pp);
       const ic = Math.exp(f.params[3]);
-      const st = [...f.status.filter((q) => q !== 'ok')];
-      if (ic < cmin || ic > cmax) st.push(`IC50 outside the tested range ${cmin}-${cmax} ${concUnit}`);
       fits.set(`${cls}${siteLabel(siteS)}|${prep}`, f);
+      const pc = pp.map((p) => p.concentration);
+      const lo = Math.min(...pc),
+        hi = Math.max(...pc);
+      if (!(ic >= lo && ic <= hi)) {
+        const why =
+          `the fitted IC50 (${Number.isFinite(ic) ? ic.toPrecision(3) : ic}) lies outside the measured ` +
+          `concentrations ${lo}-${hi} ${concUnit}: the half-block point is not determined by the data`;
+        unidentified.push(`${prep}: ${why}`);
+        perPreparation.push({
+          class: cls,
+          ...(poolSites ? {} : { distanceMm: site }),
+          preparation: prep,
+          ic50: null,
+          hill: null,
+          bottom: null,
+          top: null,
+          points: pp.length,
+          concentrationUnit: concUnit,
+          status: 'not identifiable',
+          reason: why,
+        });
+        continue;
+      }
+      const st = [...f.status.filter((q) => q !== 'ok' && !/parameter hill is at a bound/.test(q))];
+      const slopeFree = !hillAtBound(f);
+      if (!slopeFree)
+        st.push(
+          `Hill slope not identifiable: at its bound ${f.params[0]} (the response falls between two measured ` +
+            'concentrations more steeply or more gently than the data can tell); slope left empty',
+        );
       perPreparation.push({
         class: cls,
         ...(poolSites ? {} : { distanceMm: site }),
         preparation: prep,
         ic50: ic,
-        hill: f.params[0],
+        hill: slopeFree ? f.params[0] : null,
         bottom: f.params[1],
         top: f.params[2],
         points: pp.length,
@@ -491,17 +528,34 @@ export function doseResponse(
         status: st.length ? st.join('; ') : 'ok',
         reason: null,
       });
-      if (Number.isFinite(ic)) {
-        logIc.push(Math.log10(ic));
-        hills.push(f.params[0]);
-      }
+      logIc.push(Math.log10(ic));
+      if (slopeFree) hills.push(f.params[0]);
+    }
+    if (!logIc.length) {
+      summary.push({
+        ...head,
+        preparations: preps.length,
+        concentrationUnit: concUnit,
+        ic50: null,
+        hill: null,
+        points: mine.length,
+        excluded_not_measured: left,
+        status: 'not identifiable',
+        reason: unidentified.join('; '),
+      });
+      continue;
     }
     const s = summarize(logIc);
     const h = summarize(hills);
     const pooled = hill(mine);
     fits.set(`${cls}${siteLabel(siteS)}|pooled`, pooled);
     if (!fits.has(`${cls}|pooled`)) fits.set(`${cls}|pooled`, pooled);
-    const [plo, phi] = profileCI(pooled, 3);
+    const pooledIc = Math.exp(pooled.params[3]);
+    const pooledOk = pooledIc >= cmin && pooledIc <= cmax;
+    const pooledSlope = pooledOk && !hillAtBound(pooled);
+    const [plo, phi] = pooledOk ? profileCI(pooled, 3) : [NaN, NaN];
+    // the slope's interval from the same profile likelihood (one preparation has no across-preparation interval)
+    const [hlo, hhi] = pooledSlope ? profileCI(pooled, 0) : [NaN, NaN];
     let boot: [number, number] | [null, null] = [null, null];
     if (options.bootstrap && options.bootstrap > 0 && preps.length > 1) {
       const rng = new Rng(options.seed ?? doseResponseDefaults.seed);
@@ -522,7 +576,15 @@ export function doseResponse(
       );
     const ic50 = Math.pow(10, s.mean);
     if (ic50 < cmin || ic50 > cmax) st.push(`IC50 outside the tested range ${cmin}-${cmax} ${concUnit}`);
-    if (!trusted(pooled)) st.push(...pooled.status.map((x) => `pooled fit: ${x}`));
+    if (unidentified.length) st.push(`not identifiable in ${unidentified.join('; ')}`);
+    if (!pooledOk)
+      st.push(
+        `pooled fit: IC50 (${pooledIc.toPrecision(3)}) outside the measured concentrations ${cmin}-${cmax} ` +
+          `${concUnit}, left empty`,
+      );
+    else if (!pooledSlope) st.push(`pooled fit: Hill slope at its bound ${pooled.params[0]}, left empty`);
+    if (!trusted(pooled))
+      st.push(...pooled.status.filter((x) => !/parameter hill is at a bound/.test(x)).map((x) => `pooled fit: ${x}`));
     const below = [...belowUsed].filter(([k]) => k.endsWith(`|${siteS}|${cls}`)).reduce((a, [, v]) => a + v, 0);
     if (below)
       st.push(
@@ -545,15 +607,17 @@ export function doseResponse(
       ic50_ci95_high: num(Math.pow(10, s.ci95[1])),
       log10_ic50: s.mean,
       log10_ic50_sd: num(s.sd),
-      hill: h.mean,
+      hill: hills.length ? h.mean : null,
       hill_ci95_low: num(h.ci95[0]),
       hill_ci95_high: num(h.ci95[1]),
-      pooled_ic50: Math.exp(pooled.params[3]),
-      pooled_ic50_profile_low: Math.exp(plo),
-      pooled_ic50_profile_high: Math.exp(phi),
-      pooled_hill: pooled.params[0],
-      pooled_bottom: pooled.params[1],
-      pooled_top: pooled.params[2],
+      pooled_ic50: pooledOk ? pooledIc : null,
+      pooled_ic50_profile_low: num(Math.exp(plo)),
+      pooled_ic50_profile_high: num(Math.exp(phi)),
+      pooled_hill: pooledSlope ? pooled.params[0] : null,
+      hill_pooled_profile_low: num(hlo),
+      hill_pooled_profile_high: num(hhi),
+      pooled_bottom: pooledOk ? pooled.params[1] : null,
+      pooled_top: pooledOk ? pooled.params[2] : null,
       bootstrap_ic50_low: boot[0],
       bootstrap_ic50_high: boot[1],
       points: mine.length,
