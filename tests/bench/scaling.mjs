@@ -1,11 +1,11 @@
 // Per-sweep cost of the pipeline stages at 250, 1,000 and 4,000 sweeps (20,000 float32 samples
 // each, 50 conditions, the steps of tests/bench/scipy.mjs through the public API): wall and
-// CPU time per sweep (median of 3 after a warm-up), and the spread across sizes (target:
-// within 20% from 250 to 4,000 sweeps); then `fascicle run` per preparation at 4, 16 and 64
+// CPU time per sweep (median of 3 after a warm-up; 2 rounds over the sizes, median), and the spread
+// across sizes (target: within 20% from 250 to 4,000 sweeps); then `fascicle run` per preparation at 4, 16 and 64
 // preparations (target: flat). Prints figures, asserts nothing.
 // Run: `npx tsc -p tsconfig.json && node --expose-gc tests/bench/scaling.mjs`
-// (BENCH_SCALING_SIZES="250,1000,4000", BENCH_SAMPLES=20000, BENCH_RUNS=3, BENCH_SCALING_PREPS="4,16,64",
-// BENCH_CLI_RUNS=2 change it; BENCH_SCALING_RUN=0 skips the command-line part).
+// (BENCH_SCALING_SIZES="250,1000,4000", BENCH_SAMPLES=20000, BENCH_RUNS=3, BENCH_SCALING_ROUNDS=2,
+// BENCH_SCALING_PREPS="4,16,64", BENCH_CLI_RUNS=2 change it; BENCH_SCALING_RUN=0 skips the command-line part).
 import { mkdirSync, mkdtempSync, rmSync, writeFileSync } from 'node:fs';
 import { spawnSync } from 'node:child_process';
 import { tmpdir } from 'node:os';
@@ -17,6 +17,7 @@ const f = require('../../dist/index.js');
 const SIZES = (process.env.BENCH_SCALING_SIZES ?? '250,1000,4000').split(',').map(Number);
 const N = Number(process.env.BENCH_SAMPLES ?? 20000);
 const RUNS = Number(process.env.BENCH_RUNS ?? 3);
+const ROUNDS = Number(process.env.BENCH_SCALING_ROUNDS ?? 2);
 const FS = 50000,
   T0MS = -2,
   CONDITIONS = 50;
@@ -88,22 +89,32 @@ const stages = [
   ['average per condition', (s) => s.groupBy('condition').average()],
 ];
 
-function run(threads) {
+/**
+ * ROUNDS rounds (BENCH_SCALING_ROUNDS, default 2), each taking every size in turn (each stage: a warm-up, then RUNS
+ * runs, as one would time it alone); a figure is the median over the rounds of each round's median. A size pays for
+ * freeing its own earlier outputs, as a user running that size repeatedly would; the rounds spread a change in the
+ * machine's load (other users of a shared machine) over all sizes.
+ */
+function run(threads, paths) {
   f.setThreads(threads);
-  const rows = new Map(stages.map(([name]) => [name, []]));
-  rows.set('total (no load)', []);
-  for (const S of SIZES) {
-    const path = makeFile(S);
-    let input = path;
-    for (const [name, fn] of stages) {
-      const r = timed(fn, input);
-      rows.get(name).push({ S, t: r.t, cpu: r.cpu });
-      input = r.out;
-    }
-    const raw = f.readBinary(path);
-    const tot = timed((s) => stages.slice(1).reduce((x, [, fn]) => fn(x), s), raw);
-    rows.get('total (no load)').push({ S, t: tot.t, cpu: tot.cpu });
-    rmSync(path.replace(/\.json$/, '.f32'));
+  const rows = new Map(stages.map(([name]) => [name, SIZES.map(() => [])]));
+  rows.set(
+    'total (no load)',
+    SIZES.map(() => []),
+  );
+  for (let r = 0; r < ROUNDS; r++) {
+    SIZES.forEach((S, j) => {
+      let input = paths[j];
+      for (const [name, fn] of stages) {
+        const x = timed(fn, input);
+        rows.get(name)[j].push({ t: x.t, cpu: x.cpu }); // not the output: it would stay alive
+        input = x.out;
+      }
+      input = null;
+      const raw = f.readBinary(paths[j]);
+      const tot = timed((s) => stages.slice(1).reduce((x, [, fn]) => fn(x), s), raw);
+      rows.get('total (no load)')[j].push({ t: tot.t, cpu: tot.cpu });
+    });
   }
   console.log(
     `\n-- ${threads} thread(s): ms per sweep, wall / CPU (CPU time counts the calling thread and the pool's workers)`,
@@ -111,9 +122,9 @@ function run(threads) {
   console.log(
     `${'stage'.padEnd(24)}${SIZES.map((S) => `${S} sweeps`.padStart(22)).join('')}   spread of wall (CPU), max/min`,
   );
-  for (const [name, r] of rows) {
-    const w = r.map((x) => (1000 * x.t) / x.S),
-      c = r.map((x) => (1000 * x.cpu) / x.S);
+  for (const [name, perSize] of rows) {
+    const w = perSize.map((xs, j) => (1000 * median(xs.map((x) => x.t))) / SIZES[j]),
+      c = perSize.map((xs, j) => (1000 * median(xs.map((x) => x.cpu))) / SIZES[j]);
     const spread = (a) => Math.max(...a) / Math.min(...a);
     const note =
       name === 'total (no load)'
@@ -208,9 +219,21 @@ function runScaling() {
       return best / P;
     });
     const spread = Math.max(...per) / Math.min(...per);
+    // the whole command as a line over the number of preparations (least squares): start-up + marginal x P
+    const P = PREPS,
+      T = per.map((x, k) => x * P[k]);
+    const mp = P.reduce((u, v) => u + v, 0) / P.length,
+      mt = T.reduce((u, v) => u + v, 0) / T.length;
+    const slope =
+      P.reduce((u, v, k) => u + (v - mp) * (T[k] - mt), 0) /
+      Math.max(
+        1e-12,
+        P.reduce((u, v) => u + (v - mp) ** 2, 0),
+      );
     console.log(
       `${name.padEnd(24)}${per.map((x) => `${x.toFixed(3)} s`.padStart(18)).join('')}   ${spread.toFixed(2)}` +
-        ` (target flat: <= 1.20 ${spread <= 1.2 ? 'meets' : 'BEYOND'})`,
+        ` (target flat: <= 1.20 ${spread <= 1.2 ? 'meets' : 'BEYOND'}); as a line: ` +
+        `${(mt - slope * mp).toFixed(2)} s + ${(1000 * slope).toFixed(0)} ms per preparation`,
     );
   }
   // the fixed cost itself: the command on a study of one preparation, and node starting fascicle
@@ -229,12 +252,14 @@ function runScaling() {
 }
 
 console.log(
-  `== per-sweep cost at ${SIZES.join(', ')} sweeps (${N} float32 samples, ${CONDITIONS} conditions; median of ${RUNS} after a warm-up; load average ${require('node:os').loadavg()[0].toFixed(1)})`,
+  `== per-sweep cost at ${SIZES.join(', ')} sweeps (${N} float32 samples, ${CONDITIONS} conditions; median of ${RUNS} after a warm-up, median of ${ROUNDS} rounds over the sizes; load average ${require('node:os').loadavg()[0].toFixed(1)})`,
 );
 const all = f.threads();
-run(all);
-if (all > 1) run(1);
+const paths = SIZES.map(makeFile);
+run(all, paths);
+if (all > 1) run(1, paths);
 f.setThreads(all);
+for (const p of paths) rmSync(p.replace(/\.json$/, '.f32'));
 if (process.env.BENCH_SCALING_RUN !== '0') runScaling(); // BENCH_SCALING_RUN=0 skips the command-line part
 await f.stopThreads();
 rmSync(dir, { recursive: true, force: true });
