@@ -251,12 +251,74 @@ export function checkOutput(dir: string, inputs: readonly string[] = []): void {
     );
   }
   const entries = readdirSync(target);
-  if (entries.length === 0 || entries.includes(BUNDLE_MARKER) || isLegacyBundle(target)) return;
+  if (entries.length === 0 || isLegacyBundle(target)) return;
+  if (entries.includes(BUNDLE_MARKER)) {
+    const foreign = notWrittenByFascicle(target);
+    if (!foreign.length) return;
+    const shown = foreign.slice(0, 3).join(', ') + (foreign.length > 3 ? ` and ${foreign.length - 3} more` : '');
+    throw refuse(
+      `the bundle holds files fascicle did not write or that changed since (${shown}), so replacing it would ` +
+        'delete them; move them out of the bundle (or give --out a new folder)',
+    );
+  }
   throw refuse(
     `the folder is not empty and is not a bundle written by fascicle (it has no ${BUNDLE_MARKER} file), ` +
       'so replacing it would delete your files; give --out a new or empty folder, ' +
       "or move that folder's files away yourself",
   );
+}
+
+/** Every file under dir (relative paths with "/"), folders left out; a symbolic link counts as a file. */
+function filesUnder(dir: string): string[] {
+  const out: string[] = [];
+  const walk = (d: string, rel: string) => {
+    for (const e of readdirSync(d, { withFileTypes: true })) {
+      const r = rel ? `${rel}/${e.name}` : e.name;
+      if (e.isDirectory()) walk(join(d, e.name), r);
+      else out.push(r);
+    }
+  };
+  walk(dir, '');
+  return out;
+}
+
+const sha256 = (data: string | Uint8Array) => createHash('sha256').update(data).digest('hex');
+
+/**
+ * The files of a bundle folder that its marker does not vouch for: not listed, or (when the marker records their
+ * SHA-256, as bundles from this version on do) changed since they were written. A marker that cannot be read
+ * vouches for nothing. The marker itself and a stray temporary marker are fascicle's.
+ */
+function notWrittenByFascicle(dir: string): string[] {
+  let listed: Set<string>;
+  let hashes: Record<string, string> | null = null;
+  try {
+    const m = JSON.parse(readFileSync(join(dir, BUNDLE_MARKER), 'utf8')) as {
+      writtenBy?: unknown;
+      files?: unknown;
+      sha256?: unknown;
+    };
+    if (m.writtenBy !== 'fascicle' || !Array.isArray(m.files)) throw new Error('not a marker');
+    listed = new Set(m.files.filter((f): f is string => typeof f === 'string'));
+    if (m.sha256 && typeof m.sha256 === 'object') hashes = m.sha256 as Record<string, string>;
+  } catch {
+    return [BUNDLE_MARKER + ' (unreadable)'];
+  }
+  const foreign: string[] = [];
+  for (const f of filesUnder(dir)) {
+    if (f === BUNDLE_MARKER || f === TEMP_MARKER) continue;
+    if (!listed.has(f)) foreign.push(f);
+    else if (hashes) {
+      let same = false;
+      try {
+        same = lstatSync(join(dir, f)).isFile() && sha256(readFileSync(join(dir, f))) === hashes[f];
+      } catch {
+        same = false;
+      }
+      if (!same) foreign.push(`${f} (changed)`);
+    }
+  }
+  return foreign;
 }
 
 const escapeRe = (s: string) => s.replace(/[.*+?^${}()|[\]\\]/g, '\\$&');
@@ -363,12 +425,14 @@ export function writeBundle(dir: string, c: BundleContent, opts: { inputs?: read
   const stamp = `${process.pid}-${Date.now().toString(36)}-${randomBytes(3).toString('hex')}`;
   const tmp = join(parent, `.${basename(target)}.tmp-${stamp}`);
   const written: string[] = [];
+  const hashes: Record<string, string> = {};
   const put = (rel: string, data: string | Uint8Array) => {
     const p = join(tmp, rel);
     mkdirSync(dirname(p), { recursive: true });
     if (beforeWrite) beforeWrite(p);
     writeFileSync(p, data);
     written.push(rel);
+    hashes[rel] = sha256(data);
   };
   let current = 'the temporary folder';
   try {
@@ -394,7 +458,7 @@ export function writeBundle(dir: string, c: BundleContent, opts: { inputs?: read
     current = BUNDLE_MARKER;
     put(
       BUNDLE_MARKER,
-      JSON.stringify({ writtenBy: 'fascicle', version: VERSION, files: [...written] }, null, 1) + '\n',
+      JSON.stringify({ writtenBy: 'fascicle', version: VERSION, files: [...written], sha256: hashes }, null, 1) + '\n',
     );
     written.pop();
   } catch (e) {

@@ -123,12 +123,54 @@ describe('fascicle run --out never loses files it did not write', () => {
     expect(readFileSync(join(empty, 'methods.txt'), 'utf8')).toBe('two');
     expect(existsSync(join(empty, 'tables', 'a.csv'))).toBe(false);
     expect(existsSync(join(empty, TEMP_MARKER))).toBe(false);
-    // a bundle with a file the user added is still ours (marker) ... but an input inside it is refused
+    // an input inside a bundle is refused as an input (and a file the user added is refused in any case, below)
     writeFileSync(join(empty, 'data.csv'), 'time (ms),s (uV)\n0,1\n1,2\n');
     expect(() =>
       writeBundle(empty, { tables: {}, methods: 'three', provenance: prov }, { inputs: [join(empty, 'data.csv')] }),
     ).toThrow(/contains an input/);
     expect(readFileSync(join(empty, 'methods.txt'), 'utf8')).toBe('two');
+  });
+
+  it('a bundle holding a file the user added or changed, or a copied marker in a user folder, is refused and kept', () => {
+    // the marker lists every file with its SHA-256; anything else, or a listed file that changed, is the user's
+    const b = join(work, 'b-user');
+    writeBundle(b, { tables: { a: [{ x: 1 }] }, methods: 'one', provenance: prov });
+    const marker = JSON.parse(readFileSync(join(b, BUNDLE_MARKER), 'utf8'));
+    expect(marker.sha256['tables/a.csv']).toBe(
+      createHash('sha256')
+        .update(readFileSync(join(b, 'tables/a.csv')))
+        .digest('hex'),
+    );
+    writeBundle(b, { tables: { a: [{ x: 2 }] }, methods: 'two', provenance: prov }); // its own bundle: replaced
+    expect(readFileSync(join(b, 'methods.txt'), 'utf8')).toBe('two');
+    const write = () => writeBundle(b, { tables: {}, methods: 'three', provenance: prov });
+    // a note added beside the tables
+    writeFileSync(join(b, 'tables', 'my-notes.txt'), 'mine');
+    expect(write).toThrow(/holds files fascicle did not write or that changed since \(tables\/my-notes\.txt\)/);
+    unlinkSync(join(b, 'tables', 'my-notes.txt'));
+    // a table edited and saved in a spreadsheet
+    writeFileSync(join(b, 'tables', 'a.csv'), 'x\n2\nmy edit\n');
+    expect(write).toThrow(/tables\/a\.csv \(changed\)/);
+    expect(readFileSync(join(b, 'tables', 'a.csv'), 'utf8')).toBe('x\n2\nmy edit\n');
+    expect(readFileSync(join(b, 'methods.txt'), 'utf8')).toBe('two');
+    // the marker copied into a user folder does not make the folder fascicle's
+    const user = join(work, 'user-marker');
+    mkdirSync(user);
+    writeFileSync(join(user, 'thesis.docx'), 'chapter 1');
+    cpSync(join(b, BUNDLE_MARKER), join(user, BUNDLE_MARKER));
+    expect(() => writeBundle(user, { tables: {}, methods: 'm', provenance: prov })).toThrow(/thesis\.docx/);
+    writeFileSync(join(user, BUNDLE_MARKER), 'not json');
+    expect(() => writeBundle(user, { tables: {}, methods: 'm', provenance: prov })).toThrow(/unreadable/);
+    expect(readFileSync(join(user, 'thesis.docx'), 'utf8')).toBe('chapter 1');
+    // the command line says so with exit 2 and leaves the bundle as it was
+    const out = join(work, 'b-user-cli');
+    expect(run(['run', m1, '--out', out, '--quiet', '--no-figures']).status).toBe(0);
+    writeFileSync(join(out, 'my-notes.txt'), 'mine');
+    const before = snapshot(out);
+    const r = run(['run', m1, '--out', out, '--quiet', '--no-figures']);
+    expect(r.status).toBe(2);
+    expect(r.stderr).toMatch(/my-notes\.txt/);
+    expect(snapshot(out)).toEqual(before);
   });
 
   it('a bundle of an earlier version (no marker, only bundle files, a fascicle provenance) is replaced; one with a stranger file is not', () => {
