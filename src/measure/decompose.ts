@@ -583,12 +583,16 @@ export interface ClassMixture {
   centre: Float64Array;
   sd: Float64Array;
   share: Float64Array;
+  /** per class: the Box-Cox exponent of its bump (0: log-normal in velocity, 1: normal in velocity) */
+  lambda: Float64Array;
   /** per class: its weight on each slowness bin */
   weights: Float64Array[];
   /** the shared single-fiber waveform refitted with these weights (|s| peaks at 1) */
   s: Float64Array;
   rms: number;
   iterations: number;
+  /** the number of fitted samples (every distance) */
+  samples: number;
 }
 
 /**
@@ -613,14 +617,42 @@ export function fitClassMixture(
   g: DecomposeGrid,
   shape: SharedShape,
   bins: [number, number][],
-  opts: {
-    lambdaS?: number;
-    iterations?: number;
-    /** per class, its velocity range (m/s, [slowest, fastest]) at the group's temperature */
-    zones?: [number, number][];
-  } = {},
+  opts: MixtureOptions = {},
+): ClassMixture | null {
+  const logNormal = mixtureOnce(traces, g, shape, bins, { ...opts, shapeFree: false });
+  if (opts.shapeFree === false) return logNormal;
+  // each bump's shape free as well (the same start, each exponent 0): kept when the Bayesian information criterion
+  // (G. Schwarz, Ann. Stat. 6 (1978) 461-464, from memory), n ln(rss / n) + k ln(n), says the extra exponents are
+  // worth it
+  const free = mixtureOnce(traces, g, shape, bins, { ...opts, shapeFree: true });
+  if (!free) return logNormal;
+  if (!logNormal) return free;
+  const n = free.samples;
+  const bic = (m: ClassMixture, k: number) => n * Math.log(m.rms * m.rms) + k * Math.log(n);
+  return bic(free, bins.length) < bic(logNormal, 0) ? free : logNormal;
+}
+
+export interface MixtureOptions {
+  lambdaS?: number;
+  iterations?: number;
+  /** per class, its velocity range (m/s, [slowest, fastest]) at the group's temperature */
+  zones?: [number, number][];
+  /**
+   * fit each bump's Box-Cox exponent in LAMBDA_BOX as well, and keep that fit when the information criterion
+   * prefers it (default true); false: every bump log-normal in velocity
+   */
+  shapeFree?: boolean;
+}
+
+function mixtureOnce(
+  traces: DecomposeTrace[],
+  g: DecomposeGrid,
+  shape: SharedShape,
+  bins: [number, number][],
+  opts: MixtureOptions,
 ): ClassMixture | null {
   const nc = bins.length;
+  const shapeFree = opts.shapeFree ?? true;
   if (nc < 2) return null;
   const { u, sLead, sStep } = shape;
   const nu = u.length,
@@ -692,6 +724,8 @@ export function fitClassMixture(
       if (Math.abs(lnv[k] - lnv[km]) <= 3 * Math.exp(p0[p0.length - 1])) near += shape.W[k];
     if (j === 0) w0 = near;
     else p0.push(Math.log(Math.max(near, 1e-12) / w0));
+    // the bump's shape: log-normal in velocity to start with (lambda 0)
+    if (shapeFree) p0.push(0);
   }
   const weightsOf = (p: ArrayLike<number>): Float64Array[] => {
     const out: Float64Array[] = [];
@@ -699,8 +733,9 @@ export function fitClassMixture(
     for (let j = 0; j < nc; j++) {
       const m = p[q++],
         sd = Math.exp(p[q++]),
-        a = j === 0 ? 1 : Math.exp(p[q++]);
-      const w = Float64Array.from(lnv, (l) => Math.exp(-0.5 * ((l - m) / sd) ** 2));
+        a = j === 0 ? 1 : Math.exp(p[q++]),
+        lam = shapeFree ? p[q++] : 0;
+      const w = Float64Array.from(lnv, (l) => Math.exp(-0.5 * boxCoxZ(l - m, sd, lam) ** 2));
       let sum = 0;
       for (let k = 0; k < nu; k++) sum += w[k];
       for (let k = 0; k < nu; k++) w[k] = w[k] > 1e-4 ? (a * w[k]) / (sum || 1) : 0;
@@ -767,6 +802,10 @@ export function fitClassMixture(
       i++;
       q[i] = Math.min(Math.log(maxSd[j]), Math.max(Math.log(minSd[j]), q[i]));
       i += j > 0 ? 2 : 1;
+      if (shapeFree) {
+        q[i] = Math.min(LAMBDA_BOX[1], Math.max(LAMBDA_BOX[0], q[i]));
+        i++;
+      }
     }
   };
   // Levenberg-Marquardt with a forward-difference Jacobian (D. W. Marquardt, J. SIAM 11 (1963) 431-441)
@@ -834,12 +873,14 @@ export function fitClassMixture(
   for (const w of weights) for (let k = 0; k < nu; k++) w[k] *= mx;
   const centre = new Float64Array(nc),
     sd = new Float64Array(nc),
-    share = new Float64Array(nc);
+    share = new Float64Array(nc),
+    lambda = new Float64Array(nc);
   let q = 0;
   for (let j = 0; j < nc; j++) {
     centre[j] = p[q++];
     sd[j] = Math.exp(p[q++]);
     share[j] = j === 0 ? 1 : Math.exp(p[q++]);
+    lambda[j] = shapeFree ? p[q++] : 0;
     if (!(centre[j] > keepIn[j][0] && centre[j] < keepIn[j][1]) || !(sd[j] >= minSd[j])) return null;
   }
   // a bump collapsed, or a fit worse than the free distribution's by more than a quarter and by more than 1% of the
@@ -848,8 +889,24 @@ export function fitClassMixture(
   let ymax = 0;
   for (const q of per) for (let i = 0; i < q.nt; i++) if (q.keep[i]) ymax = Math.max(ymax, Math.abs(q.y[i]));
   if (!(rms <= Math.max(1.25 * shape.rms, 0.01 * ymax))) return null;
-  return { centre, sd, share, weights, s, rms, iterations: it };
+  return { centre, sd, share, lambda, weights, s, rms, iterations: it, samples: cur.r.length };
 }
+
+/**
+ * The bump's standardised distance from its centre: Box-Cox transform (G. E. P. Box, D. R. Cox, J. R. Stat. Soc. B 26
+ * (1964) 211-252, from memory) of velocity, scaled so that `sd` is the SD in log velocity at the centre:
+ * z = (exp(lambda d) - 1) / (lambda sd), d = ln v - centre; lambda 0 gives d / sd (log-normal), 1 a normal in v.
+ */
+export function boxCoxZ(d: number, sd: number, lambda: number): number {
+  return Math.abs(lambda) < 1e-6 ? d / sd : Math.expm1(lambda * d) / (lambda * sd);
+}
+
+/**
+ * The range of the bumps' Box-Cox exponent: from log-normal to normal in velocity. Fibre diameters within a class
+ * are distributed between the two (a symmetric histogram for the large myelinated fibres, a right-skewed one for
+ * the small; common practice, no source), and velocity is proportional to diameter in myelinated fibres.
+ */
+export const LAMBDA_BOX: [number, number] = [0, 1];
 
 /**
  * Decompose one trace with a fixed shared waveform and fixed class weight shapes (fitClassMixture): one
