@@ -258,21 +258,25 @@ export function loadEnvironments(dir, path) {
   const T = f.threads();
   const js = (threads) => `
 const f = require(${JSON.stringify(join(here, '..', '..', 'dist', 'index.js'))}); f.setThreads(${threads});
-const ts = [], cs = []; f.readBinary(${JSON.stringify(path)});
+const ts = [], cs = [], pf = []; f.readBinary(${JSON.stringify(path)});
 for (let k = 0; k < 7; k++) {
-  global.gc(); const c0 = process.cpuUsage(); const t0 = process.hrtime.bigint(); f.readBinary(${JSON.stringify(path)});
+  global.gc(); const p0 = process.resourceUsage().minorPageFault;
+  const c0 = process.cpuUsage(); const t0 = process.hrtime.bigint(); f.readBinary(${JSON.stringify(path)});
   ts.push(Number(process.hrtime.bigint() - t0) / 1e6); const c = process.cpuUsage(c0); cs.push((c.user + c.system) / 1e3);
+  pf.push(process.resourceUsage().minorPageFault - p0);
 }
 const med = (a) => [...a].sort((p, q) => p - q)[a.length >> 1];
-console.log(JSON.stringify([med(ts), med(cs)])); f.stopThreads();`;
+console.log(JSON.stringify([med(ts), med(cs), med(pf)])); f.stopThreads();`;
   const py = `
-import numpy as np, time, statistics
-ts=[];cs=[]
+import numpy as np, time, statistics, resource
+ts=[];cs=[];pf=[]
 for k in range(8):
+    p0=resource.getrusage(resource.RUSAGE_SELF).ru_minflt
     t0=time.perf_counter(); c0=time.process_time()
     x=np.fromfile(${JSON.stringify(join(dir, 'sweeps.f32'))}, dtype=np.float32)
     ts.append(time.perf_counter()-t0); cs.append(time.process_time()-c0); del x
-print('[%f, %f]' % (statistics.median(ts[1:])*1e3, statistics.median(cs[1:])*1e3))`;
+    pf.append(resource.getrusage(resource.RUSAGE_SELF).ru_minflt-p0)
+print('[%f, %f, %d]' % (statistics.median(ts[1:])*1e3, statistics.median(cs[1:])*1e3, statistics.median(pf[1:])))`;
   const cases = [
     [`fascicle ${T} threads`, T, ''],
     ['fascicle 1 thread', 1, ''],
@@ -295,7 +299,7 @@ print('[%f, %f]' % (statistics.median(ts[1:])*1e3, statistics.median(cs[1:])*1e3
   console.log(
     `\nload binary float32 alone, fresh processes (median of 3 interleaved rounds of 7; load average ` +
       `${loadavg()[0].toFixed(1)}): NumPy fromfile ${median(np.map((x) => x[0])).toFixed(1)} ms ` +
-      `(CPU ${median(np.map((x) => x[1])).toFixed(1)} ms)`,
+      `(CPU ${median(np.map((x) => x[1])).toFixed(1)} ms, ${median(np.map((x) => x[2])).toFixed(0)} page faults)`,
   );
   for (const [name] of cases) {
     const v = rec[name];
@@ -303,10 +307,11 @@ print('[%f, %f]' % (statistics.median(ts[1:])*1e3, statistics.median(cs[1:])*1e3
       cpuRatio = median(v.map((x, r) => np[r][1] / x[1]));
     console.log(
       `  ${name.padEnd(34)} ${median(v.map((x) => x[0])).toFixed(1)} ms (CPU ${median(v.map((x) => x[1])).toFixed(1)}` +
-        ` ms), ratio ${ratio.toFixed(2)} (CPU ${cpuRatio.toFixed(2)})`,
+        ` ms, ${median(v.map((x) => x[2])).toFixed(0)} page faults), ratio ${ratio.toFixed(2)} (CPU ${cpuRatio.toFixed(2)})`,
     );
   }
-  console.log('  (huge pages: GLIBC_TUNABLES=glibc.malloc.hugetlb=1, as NumPy madvises its large arrays)');
+  console.log('  (huge pages: GLIBC_TUNABLES=glibc.malloc.hugetlb=1, as NumPy madvises its large arrays;');
+  console.log('   page faults: minor faults of the process during one load, median: first touches of fresh memory)');
 }
 
 export function runScipyComparison() {
