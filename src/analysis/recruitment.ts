@@ -67,6 +67,12 @@ export interface RecruitmentOptions {
   supramaximalFactor?: number;
   /** fewest intensities with a measured response a curve needs (default 4) */
   minLevels?: number;
+  /**
+   * with the amplitude as the measure, a sweep below the detection level of a class measured at that site (and
+   * separated by its window) enters the curve with its least-squares amplitude (amplitude_fit_<units>, unbiased
+   * near 0 where a picked peak of noise is not) instead of being left out (default true)
+   */
+  belowDetection?: boolean;
 }
 
 /**
@@ -75,7 +81,11 @@ export interface RecruitmentOptions {
  * out and counted (`excluded_not_measured`, `excluded_nonpositive_intensity`). A class measured at
  * fewer than `minLevels` intensities gets a row with status "not detected" and no numbers. When the
  * class was not detected at intensities below its measured ones, the response there is below
- * detection and the floor of the fit is fixed at 0 (said in the status).
+ * detection and the floor of the fit is fixed at 0 (said in the status). With the amplitude as the measure, the
+ * sweeps below detection of a class measured at that site and separated by its window enter with their
+ * least-squares amplitude (`belowDetection`, default true): near 0 a picked peak is the maximum of noise, the
+ * projection is not, so the foot of the curve is measured instead of assumed. A fit whose information matrix is
+ * singular (the data do not determine the curve) is "not identifiable", with where the half-maximum lies.
  */
 export function recruitment(
   rows: readonly Row[],
@@ -95,6 +105,10 @@ export function recruitment(
   const minLevels = options.minLevels ?? recruitmentDefaults.minLevels;
   if (!Number.isInteger(minLevels) || minLevels < 3)
     throw new OptionError(`invalid minLevels: ${minLevels}; must be an integer >= 3 (a sigmoid has 4 parameters)`);
+  if (options.belowDetection !== undefined && typeof options.belowDetection !== 'boolean')
+    throw new OptionError(`invalid belowDetection: ${JSON.stringify(options.belowDetection)}; expected true or false`);
+  const fitCol = `amplitude_fit_${units}`;
+  const projection = options.belowDetection !== false && (measure === `amplitude_${units}` || measure === fitCol);
   const withI = rows.filter((r) => typeof r.intensity === 'number');
   if (!withI.length) throw new AnalysisError('recruitment needs rows with a numeric "intensity" condition');
   const isMeasured = (r: Row) =>
@@ -102,6 +116,15 @@ export function recruitment(
     (r.status === undefined || r.status === null || r.status === 'measured') &&
     typeof r[measure] === 'number' &&
     Number.isFinite(r[measure] as number);
+  // below detection: a window class's sweep that failed the detection test still has a least-squares amplitude
+  // (linear in the data, near 0 with its noise); a class separated by the velocity decomposition does not (its
+  // component holds its neighbours' residual), nor a row not resolved
+  const belowDetection = (r: Row) =>
+    projection &&
+    r.status === 'not detected' &&
+    (r.separation === undefined || r.separation === null || r.separation === 'window') &&
+    typeof r[fitCol] === 'number' &&
+    Number.isFinite(r[fitCol] as number);
   const groups = new Map<string, Row[]>();
   for (const r of withI) {
     const id = by.map((k) => r[k]).join('|') + '|' + r.class;
@@ -120,13 +143,30 @@ export function recruitment(
     };
     const nonpos = g0.filter((r) => !((r.intensity as number) > 0)).length;
     const pos = g0.filter((r) => (r.intensity as number) > 0);
-    const g = pos.filter(isMeasured);
+    const measured = pos.filter(isMeasured);
+    // the projected sweeps below detection count only for a class measured at this site, and only below the lowest
+    // intensity at which it was measured (the foot of the curve, where the response is small): a sweep not detected
+    // between measured intensities is a failed measurement (e.g. an artifact), not a small response
+    const lowestMeasured = Math.min(...measured.map((r) => r.intensity as number));
+    const below = pos.filter((r) => !isMeasured(r) && belowDetection(r) && (r.intensity as number) < lowestMeasured);
+    const valueOf = (r: Row) => (isMeasured(r) ? (r[measure] as number) : (r[fitCol] as number));
+    const g = [...measured, ...below];
     const notMeasured = pos.length - g.length;
-    const counts = { excluded_not_measured: notMeasured, excluded_nonpositive_intensity: nonpos };
+    const counts = {
+      excluded_not_measured: notMeasured,
+      excluded_nonpositive_intensity: nonpos,
+      below_detection_projected: below.length,
+    };
     const notes: string[] = [];
     if (nonpos) notes.push(`${nonpos} sweep(s) with intensity <= 0 left out (no place on a log axis)`);
     if (notMeasured)
       notes.push(`${notMeasured} of ${pos.length} sweep(s) not measured (not detected or not resolved), left out`);
+    if (below.length)
+      notes.push(
+        `${below.length} sweep(s) below the detection level entered with their least-squares amplitude ` +
+          `(${fitCol}, unbiased near 0)`,
+      );
+    const measuredLevels = [...new Set(measured.map((r) => r.intensity as number))];
     const levels = [...new Set(g.map((r) => r.intensity as number))];
     const allLevels = [...new Set(pos.map((r) => r.intensity as number))];
     // a row without a curve: its status and why, never numbers
@@ -140,34 +180,35 @@ export function recruitment(
       status,
       reason: why + (notes.length ? ` (${notes.join('; ')})` : ''),
     });
-    if (levels.length < minLevels) {
+    if (measuredLevels.length < minLevels) {
       out.push(
         unfitted(
           'not detected',
-          `measured at ${levels.length} of ${allLevels.length} intensities; a curve needs ${minLevels}`,
+          `measured at ${measuredLevels.length} of ${allLevels.length} intensities; a curve needs ${minLevels}`,
         ),
       );
       continue;
     }
     const x = g.map((r) => Math.log10(r.intensity as number));
-    const y = g.map((r) => r[measure] as number);
+    const y = g.map(valueOf);
     for (const r of g)
       points.push({
         ...Object.fromEntries(by.map((k) => [k, r[k] ?? null])),
         class: r.class,
         intensity: r.intensity,
-        response: r[measure],
+        response: valueOf(r),
+        below_detection: !isMeasured(r),
       });
     const ymax = Math.max(...y),
       ymin = Math.min(...y);
     // below detection at lower intensities: the floor is 0 (nothing fires there)
     const lowest = Math.min(...levels);
-    const floorFixed = pos.some((r) => !isMeasured(r) && (r.intensity as number) < lowest);
+    const floorFixed = pos.some((r) => !g.includes(r) && (r.intensity as number) < lowest);
     if (floorFixed) notes.push(`floor fixed at 0: not detected below ${lowest}`);
     // start x50 where the mean response first passes half range
     const sortedLv = [...levels].sort((a, b) => a - b);
     const meanAt = (I: number) => {
-      const v = g.filter((r) => r.intensity === I).map((r) => r[measure] as number);
+      const v = g.filter((r) => r.intensity === I).map(valueOf);
       return v.reduce((a, b) => a + b, 0) / v.length;
     };
     const lo0 = floorFixed ? 0 : ymin;
@@ -191,6 +232,25 @@ export function recruitment(
     const [lo, hi, xm, s] = f.params;
     const at = (frac: number) => Math.pow(10, xm + s * Math.log(frac / (1 - frac)));
     const i95 = at(0.95);
+    // a singular information matrix: the data do not determine the curve's parameters (e.g. one point on the rise,
+    // the floor fixed below it), so no I50 is printed
+    if (f.status.some((q) => /not identifiable/.test(q))) {
+      fits.delete(id);
+      // the half-maximum lies between the first intensity at or above it and the tested intensity before that
+      const above50 = sortedLv.filter((I) => meanAt(I) >= lo0 + (ymax - lo0) / 2);
+      const below50 = [...allLevels].sort((a, b) => a - b).filter((I) => above50.length && I < above50[0]);
+      out.push(
+        unfitted(
+          'not identifiable',
+          'the curve is not determined by the data (singular information matrix)' +
+            (above50.length
+              ? `: the half-maximum lies ${below50.length ? `between ${below50[below50.length - 1]} and ` : 'at or below '}` +
+                `${above50[0]}`
+              : ''),
+        ),
+      );
+      continue;
+    }
     const st = f.status.filter((q) => q !== 'ok');
     // the half-maximum must lie within the tested intensities: outside them the curve is an extrapolation and
     // its I50, maximum and threshold are not measured numbers (a flagged row, not a plausible-looking value)
@@ -198,6 +258,7 @@ export function recruitment(
       iHi = Math.max(...allLevels);
     const i50 = Math.pow(10, xm);
     if (!(i50 >= iLo && i50 <= iHi)) {
+      fits.delete(id);
       out.push(
         unfitted(
           'not identifiable',
@@ -245,7 +306,13 @@ export function recruitment(
           supramaximalFactor: factor,
           thresholdFraction: recruitmentDefaults.thresholdFraction,
           minLevels,
-          rows: 'measured rows only (not detected or not resolved left out and counted); floor fixed at 0 when not detected below the measured intensities',
+          rows: projection
+            ? 'measured rows, and rows below detection of a window class measured at that site with their ' +
+              'least-squares amplitude; not resolved left out and counted; floor fixed at 0 when not detected ' +
+              'below the measured intensities'
+            : 'measured rows only (not detected or not resolved left out and counted); floor fixed at 0 when not ' +
+              'detected below the measured intensities',
+          belowDetection: projection,
         },
         version: VERSION,
       },

@@ -138,6 +138,16 @@ export function strengthDuration(
   }
   const unitOf = new Map(use.map((r) => [String(r.class), (r.intensityUnit as string) ?? null]));
   const out: Row[] = [];
+  // a row without a fit: every number and interval empty (not missing)
+  const NO_NUMBERS = {
+    rheobase: null,
+    rheobase_ci95_low: null,
+    rheobase_ci95_high: null,
+    chronaxie_ms: null,
+    chronaxie_ci95_low_ms: null,
+    chronaxie_ci95_high_ms: null,
+    lapicque_chronaxie_ms: null,
+  };
   const fits = new Map<string, { weiss: FitResult; lapicque: FitResult }>();
   for (const [id, g] of groups) {
     g.sort((a, b) => (a.pulseWidthMs as number) - (b.pulseWidthMs as number));
@@ -153,8 +163,7 @@ export function strengthDuration(
         class: g[0].class,
         intensityUnit: unitOf.get(String(g[0].class)) ?? null,
         widths: g.length,
-        rheobase: null,
-        chronaxie_ms: null,
+        ...NO_NUMBERS,
         status: [
           `needs at least ${strengthDurationDefaults.minWidths} pulse widths with a recruitment curve (has ${g.length})`,
           ...st,
@@ -247,8 +256,7 @@ export function strengthDuration(
       class: r.class,
       intensityUnit: unitOf.get(String(r.class)) ?? null,
       widths: 0,
-      rheobase: null,
-      chronaxie_ms: null,
+      ...NO_NUMBERS,
       status: `no pulse width has a recruitment fit (${n} left out; see recruitment statuses)`,
     });
   }
