@@ -232,21 +232,50 @@ export function xcorrDelay(
   return { lag, r: best / Math.sqrt(ea * eb || 1) };
 }
 
+/** An FFT of one size with its work arrays, kept between calls (a run uses a few sizes; building them dominated). */
+interface FftPlan {
+  f: FFT;
+  ra: Float64Array;
+  rb: Float64Array;
+  A: number[];
+  B: number[];
+  C: number[];
+  out: number[];
+}
+const fftPlans = new Map<number, FftPlan>();
+function fftPlan(N: number): FftPlan {
+  let p = fftPlans.get(N);
+  if (!p) {
+    const f = new FFT(N);
+    p = {
+      f,
+      ra: new Float64Array(N),
+      rb: new Float64Array(N),
+      A: f.createComplexArray() as number[],
+      B: f.createComplexArray() as number[],
+      C: f.createComplexArray() as number[],
+      out: f.createComplexArray() as number[],
+    };
+    // a few sizes per run: bounded memory
+    if (fftPlans.size > 8) fftPlans.clear();
+    fftPlans.set(N, p);
+  }
+  return p;
+}
+
 /** c[L] = sum_i a[i] b[i + L] for every lag, by FFT of size N >= len(a) + len(b) (negative lags at N + L). */
 export function crossCorrelationFft(a: ArrayLike<number>, b: ArrayLike<number>, N: number): Float64Array {
-  const f = new FFT(N);
-  const ra = new Float64Array(N),
-    rb = new Float64Array(N);
+  // the work arrays are reused: the inputs are zero-padded afresh, and the transforms write every entry they read
+  const { f, ra, rb, A, B, C, out } = fftPlan(N);
+  ra.fill(0);
+  rb.fill(0);
   for (let i = 0; i < a.length; i++) ra[i] = a[i];
   for (let i = 0; i < b.length; i++) rb[i] = b[i];
-  const A = f.createComplexArray() as number[],
-    B = f.createComplexArray() as number[];
   f.realTransform(A, ra);
   f.completeSpectrum(A);
   f.realTransform(B, rb);
   f.completeSpectrum(B);
   // conj(A) x B
-  const C = f.createComplexArray() as number[];
   for (let k = 0; k < 2 * N; k += 2) {
     const ar = A[k],
       ai = A[k + 1],
@@ -255,7 +284,6 @@ export function crossCorrelationFft(a: ArrayLike<number>, b: ArrayLike<number>, 
     C[k] = ar * br + ai * bi;
     C[k + 1] = ar * bi - ai * br;
   }
-  const out = f.createComplexArray() as number[];
   f.inverseTransform(out, C);
   const c = new Float64Array(N);
   for (let k = 0; k < N; k++) c[k] = out[2 * k]; // fft.js's inverse divides by N
