@@ -149,7 +149,7 @@ export interface VelocityDistributionOptions {
   drift?: 'offset' | 'linear' | 'quadratic';
   /**
    * time constants (ms) of decaying exponentials from the fit start modelled as artifact, per distance (default: with
-   * a detected fit start, 2 samples to twice the start's delay after the stimulus in factors of 2; else none)
+   * a detected fit start, 2 samples to the start's delay after the stimulus, in factors of 2; else none)
    */
   artifactTauMs?: number[];
   /**
@@ -786,13 +786,16 @@ export function velocityDistribution(
   const prep = prepare(set, fit, options.fitStartByDistance ?? {}, options.noiseWindow, method === 'two-distance');
   const { blocks, distances, notes, starts } = prep;
   if (autoStart) fit[0] = Math.min(...starts);
-  // artifact: decays from the fit start; by default (detected start only) time constants from two samples to twice
-  // the time from the stimulus to the fit start, in factors of 2 (a tail that outlasts the blanked or clipped
-  // samples by much more than that is left to the drift terms)
+  // artifact: decays from the fit start; by default (detected start only) time constants from two samples to the
+  // time from the stimulus to that distance's fit start, in factors of 2, free at each distance. A longer free decay
+  // spans the rise of the earliest fibre waves at the nearest distance (the grid's fastest velocity arrives there at
+  // the fit start) and trades with them (a longer tail is left to the drift terms). Diagnosis (notes/vdist-api.md):
+  // with decays to twice the start, a 0.32 ms decay moved the devset's A-alpha/beta +8% (median) and, with 4 sweeps
+  // per distance, its A-delta -60%; to the start, both within 3%, also with a longer or a biphasic artifact
   const tausBy = starts.map((st) => {
     if (options.artifactTauMs) return options.artifactTauMs;
     const out: number[] = [];
-    if (autoStart) for (let tau = 2 * set.dtMs; tau <= 2 * st + 1e-12; tau *= 2) out.push(tau);
+    if (autoStart) for (let tau = 2 * set.dtMs; tau <= st + 1e-12; tau *= 2) out.push(tau);
     return out;
   });
   const taus = [...new Set(tausBy.flat())].sort((a, b) => a - b);

@@ -553,7 +553,8 @@ describe('velocityDistribution on the development set (FNPG-N07), 30 C, 15 and 2
 // unitAmplitudeUv v^2: the stated duration law is the one that matches the model's own classes (duration ~ v^-q with
 // q = ln(tau_Ad / tau_Aab) / ln(v_Aab / v_Ad) at the class medians), a user's choice stated from the model.
 // ---------------------------------------------------------------------------------------------
-const FORWARD_NOT_YET = new Set(['A-delta p10', 'A-delta p50']);
+// A-delta p50 met since the default artifact decays end at the fit start's delay (16:30 UTC, +1.7%); p10 still -40%
+const FORWARD_NOT_YET = new Set(['A-delta p10']);
 describe('velocityDistribution on the forward model (self-consistency): the issue checks', () => {
   const model = rodentSciatic();
   model.populations = model.populations.filter((p) => p.myelinated);
