@@ -67,6 +67,26 @@ export async function nwbReady(): Promise<void> {
   }
 }
 
+/**
+ * Run f with HDF5's errors thrown as JavaScript errors (h5wasm's throwing error handler, from 0.7.2) instead of
+ * printed to the console and ignored: a write that fails inside the library (disk full, quota, I/O error) would
+ * otherwise leave a damaged file behind a call that returned normally. The printing handler is restored after.
+ * Without that handler (an older h5wasm) f runs as it is.
+ */
+export function withHdf5Errors<T>(f: () => T): T {
+  const mod = (ns?.Module ?? null) as {
+    activate_throwing_error_handler?: () => number;
+    deactivate_throwing_error_handler?: () => number;
+  } | null;
+  if (!mod?.activate_throwing_error_handler || !mod.deactivate_throwing_error_handler) return f();
+  mod.activate_throwing_error_handler();
+  try {
+    return f();
+  } finally {
+    mod.deactivate_throwing_error_handler();
+  }
+}
+
 /** Raised when a synchronous NWB function is called before `await nwbReady()` (a mistake in the calling code). */
 export class NwbNotReadyError extends Error {
   constructor(message: string) {

@@ -40,7 +40,7 @@ import { OptionError, OutputError, systemReason } from '../errors';
 import { checkKeys, shown } from '../validate';
 import { SweepSet, conditionKeys, type ConditionValue } from '../sweeps/SweepSet';
 import { VERSION } from '../version';
-import { nwbReady, h5, openHdf5, at, isDataset, texts, type H5File, type H5Group } from './nwbLib';
+import { nwbReady, h5, openHdf5, at, isDataset, texts, withHdf5Errors, type H5File, type H5Group } from './nwbLib';
 import { encodeColumn, resultColumns } from './nwbColumns';
 import { FASCICLE_SCRIPT } from './nwb';
 
@@ -229,23 +229,53 @@ export function writeNwbSync(set: SweepSet, path: string, options: NwbWriteOptio
       throw new OutputError(path, `cannot create a temporary file in ${dir}`, { refused: false });
     }
     f = created;
-    result = writeContent(f, set, options, raw, startIso, level);
-    f.close();
+    // HDF5 errors (a write the disk refused) are thrown, not printed and ignored: no damaged file is kept
+    const file = f;
+    result = withHdf5Errors(() => {
+      const r = writeContent(file, set, options, raw, startIso, level);
+      file.close();
+      return r;
+    });
     f = null;
     renameSync(tmp, target);
   } catch (e) {
-    if (f)
+    const open = f;
+    if (open)
       try {
-        f.close();
+        withHdf5Errors(() => open.close()); // a close that fails again throws here instead of printing
       } catch {
         /* already failed */
       }
     rmSync(tmp, { force: true });
     if (e instanceof OutputError || e instanceof OptionError) throw e;
+    const hdf5 = hdf5Failure(e);
+    if (hdf5) throw new OutputError(path, `writing ${path} failed: ${hdf5.reason}; nothing was written`, hdf5);
     const code = (e as NodeJS.ErrnoException).code;
     throw new OutputError(path, `writing ${path} failed: ${systemReason(e)}`, { refused: false, code });
   }
   return { ...result, path };
+}
+
+/** The system error inside an HDF5 error message (its "errno = N, error message = '...'" line), or null. */
+export function hdf5Failure(e: unknown): { reason: string; refused: false; code?: string } | null {
+  const m = e instanceof Error ? e.message : '';
+  if (!/HDF5|H5[A-Z]/.test(m)) return null;
+  const sys = /error message = '([^']+)'/.exec(m)?.[1];
+  const codes: Record<string, string> = {
+    'No space left on device': 'ENOSPC',
+    'Disk quota exceeded': 'EDQUOT',
+    'File too large': 'EFBIG',
+    'Read-only file system': 'EROFS',
+    'Input/output error': 'EIO',
+  };
+  const code = sys ? codes[sys] : undefined;
+  const reason =
+    code === 'ENOSPC'
+      ? 'the disk is full (ENOSPC)'
+      : sys
+        ? `${sys}${code ? ` (${code})` : ''}`
+        : `the HDF5 library reported an error (${m.split('\n').find((l) => l.trim()) ?? 'no message'})`;
+  return { reason, refused: false, ...(code ? { code } : {}) };
 }
 
 const S = 'S'; // variable-length UTF-8 text

@@ -721,3 +721,57 @@ describe('result tables in the processing module carry the bundle column names',
     },
   );
 });
+
+describe('a write the disk refuses (HDF5 errors are thrown, not printed and ignored)', () => {
+  // found by writing --nwb to a full 600 kB tmpfs: the HDF5 library printed thousands of HDF5-DIAG lines, the call
+  // returned normally and a damaged 3.7 MB sparse file was renamed into place. The errno names are POSIX's.
+  const script = (target: string) =>
+    [
+      `const { nwbReady } = require(${JSON.stringify(join(__dirname, '../../dist/io/nwbLib.js'))});`,
+      `const { writeNwbSync } = require(${JSON.stringify(join(__dirname, '../../dist/io/nwbWrite.js'))});`,
+      `const { SweepSet } = require(${JSON.stringify(join(__dirname, '../../dist/sweeps/SweepSet.js'))});`,
+      '(async () => {',
+      '  await nwbReady();',
+      '  const n = 4000, N = 100;',
+      '  const data = Float64Array.from({ length: n * N }, (_, i) => Math.sin(i / 7));',
+      "  const set = new SweepSet({ data, nSweeps: N, nSamples: n, fs: 50000, t0Ms: -1, units: 'uV',",
+      "    conditions: Array.from({ length: N }, (_, i) => ({ preparation: 'P', intensity: i })) });",
+      '  try {',
+      `    writeNwbSync(set, ${JSON.stringify(target)});`,
+      '    console.log(JSON.stringify({ ok: true }));',
+      '  } catch (e) {',
+      '    console.log(JSON.stringify({ ok: false, name: e.name, message: e.message, code: e.code ?? null }));',
+      '  }',
+      '})();',
+    ].join('\n');
+  const runLimited = (prefix: string, target: string) =>
+    spawnSync('bash', ['-c', `trap '' XFSZ; ${prefix} exec "${process.execPath}" -e "$0"`, script(target)], {
+      encoding: 'utf8',
+    });
+  const built = existsSync(join(__dirname, '../../dist/io/nwbWrite.js'));
+  it.skipIf(!built)('a file-size limit (EFBIG): an OutputError naming the file and the reason, no file left', () => {
+    const dir = mkdtempSync(join(tmp, 'efbig-'));
+    const target = join(dir, 'big.nwb');
+    const r = runLimited('ulimit -f 200;', target);
+    const out = JSON.parse(r.stdout.trim().split('\n').pop() ?? '{}');
+    expect(out.ok, r.stderr.slice(0, 500)).toBe(false);
+    expect(out.name).toBe('OutputError');
+    expect(out.message).toMatch(/writing .*big\.nwb failed: File too large \(EFBIG\); nothing was written/);
+    expect(readdirSync(dir)).toEqual([]);
+    // no flood of library diagnostics on stderr
+    expect(r.stderr.split('\n').filter((l) => l.includes('HDF5-DIAG')).length).toBe(0);
+  });
+  it.skipIf(!built)('a full disk (a 300 kB tmpfs, where it can be mounted): ENOSPC named, no file left', () => {
+    const mnt = mkdtempSync(join(tmp, 'full-'));
+    if (spawnSync('mount', ['-t', 'tmpfs', '-o', 'size=300k', 'tmpfs', mnt]).status !== 0) return; // not root
+    try {
+      const r = runLimited('', join(mnt, 'x.nwb'));
+      const out = JSON.parse(r.stdout.trim().split('\n').pop() ?? '{}');
+      expect(out.ok, r.stderr.slice(0, 500)).toBe(false);
+      expect(out.message).toMatch(/x\.nwb failed: the disk is full \(ENOSPC\); nothing was written/);
+      expect(readdirSync(mnt)).toEqual([]);
+    } finally {
+      spawnSync('umount', [mnt]);
+    }
+  });
+});
