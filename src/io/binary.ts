@@ -22,6 +22,7 @@ import { allocSamples, lazySource, openInput, readInput } from './files';
 import { runSweeps, sharedSamples } from '../parallel/pool';
 import { VERSION } from '../version';
 import { asRead, float32Samples } from '../sweeps/storage';
+import { memoryOf } from '../parallel/simd';
 
 const NATIVE_LITTLE = new Uint8Array(new Uint16Array([1]).buffer)[0] === 1;
 
@@ -184,7 +185,12 @@ export function readBinary(sidecarPath: string, extra: { conditions?: Conditions
     let firstBad: number | undefined;
     try {
       const found = kept
-        ? runSweeps('loadAsRead', { fd, nSamples, out: kept, chunkSweeps }, nSweeps, nSweeps * nSamples)
+        ? runSweeps(
+            'loadAsRead',
+            { fd, nSamples, out: kept, chunkSweeps, memory: memoryOf(kept) },
+            nSweeps,
+            nSweeps * nSamples,
+          )
         : runSweeps(
             'load',
             {

@@ -11,7 +11,7 @@ import { PLAIN_BLOCK, flushBlock, plainRow } from '../io/plainRows';
 import { normalRows, sineCoefficients, type SineParts } from '../signal/sinefit';
 import { resamplePolyInto } from '../signal/resample';
 import { bridgeGap } from '../signal/bridge';
-import { allFinite32, allFinite64 } from './simd';
+import { allFinite32, allFinite64, inPlaceCheck32 } from './simd';
 
 /**
  * Stored samples: float64, or float32 as read from a float32 file (each value widened
@@ -345,6 +345,8 @@ export interface LoadAsReadArgs {
   nSamples: number;
   out: Float32Array;
   chunkSweeps: number;
+  /** the WebAssembly memory that holds out (storage.ts float32Samples), to check each block where it lies; or null */
+  memory?: WebAssembly.Memory | null;
 }
 /**
  * Read sweeps s0..s1-1 of a native-order float32 file (one channel, sweep after sweep)
@@ -354,6 +356,7 @@ export interface LoadAsReadArgs {
  */
 function loadAsRead(a: LoadAsReadArgs, s0: number, s1: number): number {
   const { fd, nSamples: n, out } = a;
+  const inPlace = a.memory ? inPlaceCheck32(a.memory) : null;
   for (let s = s0; s < s1; s += a.chunkSweeps) {
     const k = Math.min(a.chunkSweeps, s1 - s);
     const bytes = k * n * 4;
@@ -365,7 +368,8 @@ function loadAsRead(a: LoadAsReadArgs, s0: number, s1: number): number {
       got += r;
     }
     const o = s * n;
-    if (!finite32(out, o, o + k * n)) for (let i = o, e = o + k * n; i < e; i++) if (out[i] - out[i] !== 0) return i;
+    const ok = inPlace ? inPlace(out, o, o + k * n) : finite32(out, o, o + k * n);
+    if (!ok) for (let i = o, e = o + k * n; i < e; i++) if (out[i] - out[i] !== 0) return i;
   }
   return -1;
 }

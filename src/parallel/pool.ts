@@ -112,6 +112,11 @@ function fullCollection(): void {
   collect?.();
 }
 
+/** Count bytes of memory that V8 may not count towards starting a collection (see above). */
+export function countSharedBytes(bytes: number): void {
+  countShared(bytes);
+}
+
 function countShared(bytes: number): void {
   sinceCollect += bytes;
   if (sinceCollect > collectLimit) {

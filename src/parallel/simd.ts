@@ -133,3 +133,120 @@ export function allFinite64(x: Float64Array, from: number, to: number): boolean 
   }
   return true;
 }
+
+/**
+ * The module of the in-place check: f(end, start) for float32 values in bytes [start, end) of an
+ * imported memory "e"."m" (end - start a multiple of 64), shared or not as the memory it is given.
+ * The same loop as moduleBytes()'s f, with the start as a parameter.
+ */
+function inPlaceBytes(shared: boolean): Uint8Array {
+  const MASK32 = [0x00, 0x00, 0x80, 0x7f, 0x00, 0x00, 0x80, 0x7f, 0x00, 0x00, 0x80, 0x7f, 0x00, 0x00, 0x80, 0x7f];
+  const lane = (off: number) => [
+    ...[0x20, 0x02, 0x20, 0x01], // local.get acc, local.get i
+    ...[0xfd, 0x00, 0x04, off], // v128.load align 16, offset off
+    ...[0xfd, 0x0c, ...MASK32, 0xfd, 0x4e], // v128.const mask, v128.and
+    ...[0xfd, 0x0c, ...MASK32, 0xfd, 0x37], // v128.const mask, i32x4.eq
+    ...[0xfd, 0x50, 0x21, 0x02], // v128.or, local.set acc
+  ];
+  const body = [
+    ...[0x01, 0x01, 0x7b], // locals: acc (v128); i is parameter 1, end parameter 0
+    ...[0x02, 0x40, 0x03, 0x40], // block, loop
+    ...[0x20, 0x01, 0x20, 0x00, 0x4f, 0x0d, 0x01], // br_if 1 (i >= end, unsigned)
+    ...lane(0),
+    ...lane(16),
+    ...lane(32),
+    ...lane(48),
+    ...[0x20, 0x01, 0x41, 0xc0, 0x00, 0x6a, 0x21, 0x01], // i += 64
+    ...[0x0c, 0x00, 0x0b, 0x0b], // br 0, end loop, end block
+    ...[0x20, 0x02, 0xfd, 0x53, 0x0b], // v128.any_true acc, end
+  ];
+  const leb = (n: number) => {
+    const out: number[] = [];
+    do {
+      let b = n & 0x7f;
+      n >>>= 7;
+      if (n) b |= 0x80;
+      out.push(b);
+    } while (n);
+    return out;
+  };
+  const section = (id: number, bytes: number[]) => [id, ...leb(bytes.length), ...bytes];
+  // memory limits: shared memories must declare a maximum (here the largest, 65,536 pages = 4 GB)
+  const limits = shared ? [0x03, 0x01, ...leb(65536)] : [0x00, 0x01];
+  return new Uint8Array([
+    ...[0x00, 0x61, 0x73, 0x6d, 0x01, 0x00, 0x00, 0x00], // magic, version 1
+    ...section(1, [0x01, 0x60, 0x02, 0x7f, 0x7f, 0x01, 0x7f]), // type: (i32, i32) -> i32
+    ...section(2, [0x01, 0x01, 0x65, 0x01, 0x6d, 0x02, ...limits]), // import "e" "m": memory
+    ...section(3, [0x01, 0x00]), // one function of that type
+    ...section(7, [0x01, 0x01, 0x66, 0x00, 0x00]), // export "f" (function 0)
+    ...section(10, [0x01, ...leb(body.length), ...body]),
+  ]);
+}
+
+const inPlaceModules: Partial<Record<'shared' | 'own', WebAssembly.Module | null>> = {};
+function inPlaceModule(shared: boolean): WebAssembly.Module | null {
+  const key = shared ? 'shared' : 'own';
+  if (inPlaceModules[key] === undefined) {
+    try {
+      inPlaceModules[key] = new WebAssembly.Module(inPlaceBytes(shared));
+    } catch {
+      inPlaceModules[key] = null;
+    }
+  }
+  return inPlaceModules[key]!;
+}
+
+/** The WebAssembly memory that samples32() made for a buffer (this thread's record). */
+const memories = new WeakMap<ArrayBufferLike, WebAssembly.Memory>();
+
+/**
+ * n float32 samples on a WebAssembly memory of their own (shared between threads when
+ * `shared`), or null where that is not possible (no WebAssembly SIMD, more than 4 GB, or
+ * the memory cannot be reserved). A file read into such samples is checked where it lies
+ * (allFiniteInPlace32), without the copy into the scratch memory that allFinite32 makes.
+ */
+export function samples32(n: number, shared: boolean): Float32Array | null {
+  const pages = Math.ceil((n * 4) / 65536);
+  if (!(pages >= 1 && pages <= 65536) || !inPlaceModule(shared)) return null;
+  try {
+    const memory = new WebAssembly.Memory({ initial: pages, maximum: pages, shared });
+    memories.set(memory.buffer, memory);
+    return new Float32Array(memory.buffer, 0, n);
+  } catch {
+    return null;
+  }
+}
+
+/** The memory under samples made by samples32() in this thread, or null. */
+export function memoryOf(x: Float32Array): WebAssembly.Memory | null {
+  return memories.get(x.buffer) ?? null;
+}
+
+/**
+ * A check of whether x[from..to) are all finite, made in place in memory, the WebAssembly
+ * memory that holds x (from samples32(), or that memory passed to a worker thread); null where
+ * the kernel is not available (the caller then uses allFinite32). One instance per call of a
+ * loader, not per block.
+ */
+export function inPlaceCheck32(
+  memory: WebAssembly.Memory,
+): ((x: Float32Array, from: number, to: number) => boolean) | null {
+  const shared = typeof SharedArrayBuffer !== 'undefined' && memory.buffer instanceof SharedArrayBuffer;
+  const mod = inPlaceModule(shared);
+  if (!mod) return null;
+  let f: (end: number, start: number) => number;
+  try {
+    f = new WebAssembly.Instance(mod, { e: { m: memory } }).exports.f as (end: number, start: number) => number;
+  } catch {
+    return null;
+  }
+  return (x, from, to) => {
+    if (to <= from) return true;
+    const b0 = x.byteOffset + from * 4,
+      b1 = x.byteOffset + to * 4;
+    const e64 = b0 + ((b1 - b0) & ~63); // whole 64-byte steps in the kernel, the rest here
+    if (e64 > b0 && f(e64 | 0, b0 | 0) !== 0) return false;
+    for (let j = from + (e64 - b0) / 4; j < to; j++) if (x[j] - x[j] !== 0) return false;
+    return true;
+  };
+}

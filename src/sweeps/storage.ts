@@ -4,14 +4,28 @@
  * nothing pending, and every verb widens each value exactly to float64 where it uses
  * it, so every number equals that of a float64 copy (tests/parallel/kernels.test.ts).
  */
-import { PARALLEL_MIN_SAMPLES, sharedBytes, threads } from '../parallel/pool';
+import { PARALLEL_MIN_SAMPLES, countSharedBytes, sharedBytes, threads } from '../parallel/pool';
 import { noCorrection } from '../parallel/kernels';
+import { samples32 } from '../parallel/simd';
 import type { DeferredSamples } from '../verbs/types';
 
-/** A Float32Array of n samples, on shared memory when worker threads may fill or read it. */
+/**
+ * A Float32Array of n samples, on shared memory when worker threads may fill or read it.
+ * A large one (as many samples as the threads' threshold, PARALLEL_MIN_SAMPLES, or more) lies
+ * on a WebAssembly memory of its own where possible, so that a loader checks each block it reads
+ * where it lies rather than after a copy into the SIMD kernel's scratch memory (about 10% of the
+ * CPU time of loading 1,000 x 20,000 float32 samples, tests/bench/scipy.mjs; memoryOf() in
+ * ../parallel/simd.ts finds it). The values and their layout are the same either way.
+ */
 export function float32Samples(n: number): Float32Array {
-  if (n < PARALLEL_MIN_SAMPLES || threads() < 2) return new Float32Array(n);
-  return new Float32Array(sharedBytes(n * 4).buffer);
+  if (n < PARALLEL_MIN_SAMPLES) return new Float32Array(n);
+  const shared = threads() >= 2;
+  const own = samples32(n, shared);
+  if (own) {
+    countSharedBytes(n * 4); // counted as shared buffers are (a full collection every so many bytes)
+    return own;
+  }
+  return shared ? new Float32Array(sharedBytes(n * 4).buffer) : new Float32Array(n);
 }
 
 /** float32 samples as SweepSet data (`new SweepSet({ data: asRead(f32), ... })`). */

@@ -3,6 +3,8 @@
 // arithmetic is the verbs' own; the filters are checked against SciPy in tests/signal).
 import { describe, it, expect, afterEach } from 'vitest';
 import { SweepSet, setThreads, workerJobs, bridgeGap } from '../../src';
+import { samples32, memoryOf, inPlaceCheck32 } from '../../src/parallel/simd';
+import { finiteSum32 } from '../../src/parallel/kernels';
 
 const S = 60,
   N = 12000,
@@ -292,15 +294,24 @@ describe('loadAsRead kernel (float32 kept as read)', () => {
         ['ok.f32', -1],
         ['bad.f32', 40 * N2 + 7],
       ] as const) {
-        const fd = openSync(join(dir, file), 'r');
-        const out = new Float32Array(new SharedArrayBuffer(S2 * N2 * 4));
-        const before = workerJobs();
-        const firstBad =
-          runSweeps('loadAsRead', { fd, nSamples: N2, out, chunkSweeps: 5 }, S2, S2 * N2).find((i) => i >= 0) ?? -1;
-        closeSync(fd);
-        if (T === 2) expect(workerJobs()).toBeGreaterThan(before);
-        expect(firstBad).toBe(want);
-        if (want < 0) expect(out.every((v, i) => Object.is(v, a[i]))).toBe(true);
+        // on a shared buffer (checked after a copy into the kernel's scratch memory), and on a WebAssembly memory
+        // of its own (checked in place; the worker thread gets the memory with the job)
+        for (const own of [false, true]) {
+          const fd = openSync(join(dir, file), 'r');
+          const out = own ? samples32(S2 * N2, true)! : new Float32Array(new SharedArrayBuffer(S2 * N2 * 4));
+          expect(out.buffer instanceof SharedArrayBuffer).toBe(true);
+          const memory = own ? memoryOf(out) : null;
+          if (own) expect(memory).not.toBeNull();
+          const before = workerJobs();
+          const firstBad =
+            runSweeps('loadAsRead', { fd, nSamples: N2, out, chunkSweeps: 5, memory }, S2, S2 * N2).find(
+              (i) => i >= 0,
+            ) ?? -1;
+          closeSync(fd);
+          if (T === 2) expect(workerJobs()).toBeGreaterThan(before);
+          expect(firstBad).toBe(want);
+          if (want < 0) expect(out.every((v, i) => Object.is(v, a[i]))).toBe(true);
+        }
       }
     }
   });
@@ -333,6 +344,47 @@ describe('the finiteness check of float32 samples', () => {
         }
     }
     expect(checked).toBeGreaterThan(3000);
+  });
+  it('the in-place check of a WebAssembly memory agrees with the JavaScript one at every length and position', () => {
+    let seed = 17;
+    const rnd = () => (seed = (Math.imul(seed, 1103515245) + 12345) >>> 0) / 2 ** 32;
+    let checked = 0;
+    for (const shared of [false, true]) {
+      const x = samples32(65536 * 3, shared)!;
+      expect(x).not.toBeNull();
+      const check = inPlaceCheck32(memoryOf(x)!)!;
+      expect(check).not.toBeNull();
+      for (let i = 0; i < x.length; i++) x[i] = (rnd() - 0.5) * 3.4e38;
+      // starts and ends off the 16- and 64-byte steps of the kernel, short and long ranges
+      const ranges = [
+        [0, 0],
+        [0, 1],
+        [3, 17],
+        [1, 80],
+        [5, 65536 + 3],
+        [16, 65536 * 2],
+        [0, x.length],
+        [x.length - 70, x.length],
+      ];
+      for (const [from, to] of ranges) {
+        expect(check(x, from, to)).toBe(finiteSum32(x, from, to));
+        expect(check(x, from, to)).toBe(true);
+        const positions = [from, from + 1, from + 15, from + 16, from + 63, from + 64, to - 1].filter(
+          (i) => i >= from && i < to,
+        );
+        for (const pos of positions)
+          for (const v of [NaN, Infinity, -Infinity]) {
+            const keep = x[pos];
+            x[pos] = v;
+            expect(check(x, from, to)).toBe(false);
+            expect(finiteSum32(x, from, to)).toBe(false);
+            if (pos > from) expect(check(x, from, pos)).toBe(true); // before it, all finite
+            x[pos] = keep;
+            checked++;
+          }
+      }
+    }
+    expect(checked).toBeGreaterThan(200);
   });
   it('the float64 SIMD check agrees with the JavaScript one and, unlike a sum, is exact at full scale', async () => {
     const { allFinite64 } = await import('../../src/parallel/simd');
