@@ -636,9 +636,21 @@ export function blindingKeysInStudy(manifestPath: string, m: Manifest): string[]
   return found;
 }
 
+/**
+ * Manifests already parsed and checked, by resolved path and the SHA-256 of their bytes: a run reads its manifest
+ * once per preparation, and the checks (keys, typos, schema) cost more than reading the bytes again. A changed file
+ * has another hash and is checked anew; callers get their own copy.
+ */
+const checked = new Map<string, { sha256: string; manifest: Manifest }>();
+const CHECKED_MAX = 16;
+
 /** Parse and check a manifest without loading its files. */
 export function readManifestJson(path: string): { manifest: Manifest; source: import('../sweeps/SweepSet').Source } {
   const { bytes, source } = readInput(path);
+  const key = resolve(path);
+  const sha = Object.getOwnPropertyDescriptor(source, 'sha256')?.value; // small files: hashed at read
+  const hit = checked.get(key);
+  if (typeof sha === 'string' && hit && hit.sha256 === sha) return { manifest: structuredClone(hit.manifest), source };
   let m: unknown;
   try {
     m = JSON.parse(
@@ -650,6 +662,10 @@ export function readManifestJson(path: string): { manifest: Manifest; source: im
     throw new InputError({ file: path }, `invalid JSON (${(e as Error).message})`, 'a JSON manifest');
   }
   validate(m, path);
+  if (typeof sha === 'string') {
+    if (checked.size >= CHECKED_MAX) checked.delete(checked.keys().next().value as string);
+    checked.set(key, { sha256: sha, manifest: structuredClone(m) });
+  }
   return { manifest: m, source };
 }
 

@@ -117,3 +117,18 @@ describe('on the command line', () => {
     }
   });
 });
+
+describe('a manifest read again (once per preparation in a run) is checked once per content', () => {
+  it('a changed manifest is checked anew, and every caller gets its own copy', async () => {
+    const { readManifestJson } = await import('../../src/io/manifest');
+    const p = manifest({ files: [file({ temperatureC: 37 })] });
+    const a = readManifestJson(p).manifest;
+    (a.files[0].conditions as Record<string, unknown>).temperatureC = 20; // a caller changing its copy
+    expect(readManifestJson(p).manifest.files[0].conditions!.temperatureC).toBe(37);
+    // the same path with a typo written into it: the check runs again
+    writeFileSync(p, JSON.stringify({ fascicleManifest: 1, files: [file({ temperatureCC: 37 })] }));
+    expect(() => readManifestJson(p)).toThrow(/did you mean "temperatureC"/);
+    writeFileSync(p, JSON.stringify({ fascicleManifest: 1, files: [file({ temperatureC: 30 })] }));
+    expect(readManifestJson(p).manifest.files[0].conditions!.temperatureC).toBe(30);
+  });
+});
