@@ -148,7 +148,9 @@ export function recruitment(
     // intensity at which it was measured (the foot of the curve, where the response is small): a sweep not detected
     // between measured intensities is a failed measurement (e.g. an artifact), not a small response
     const lowestMeasured = Math.min(...measured.map((r) => r.intensity as number));
-    const below = pos.filter((r) => !isMeasured(r) && belowDetection(r) && (r.intensity as number) < lowestMeasured);
+    const below = measured.length
+      ? pos.filter((r) => !isMeasured(r) && belowDetection(r) && (r.intensity as number) < lowestMeasured)
+      : [];
     const valueOf = (r: Row) => (isMeasured(r) ? (r[measure] as number) : (r[fitCol] as number));
     const g = [...measured, ...below];
     const notMeasured = pos.length - g.length;

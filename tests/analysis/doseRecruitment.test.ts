@@ -67,6 +67,14 @@ describe('recruitment: the foot of the curve from the least-squares amplitude be
     expect(recruitment(rowsOf('window'), 'uV', { belowDetection: false }).rows[0].below_detection_projected).toBe(0);
   });
 
+  it('a class never measured stays "not detected": its projected sweeps are not a curve', () => {
+    const never = rowsOf('window').map((q) => ({ ...q, detected: false, status: 'not detected', amplitude_uV: null }));
+    const r = recruitment(never, 'uV').rows[0];
+    expect(r.status).toBe('not detected');
+    expect(r.below_detection_projected).toBe(0);
+    expect(r.i50).toBeNull();
+  });
+
   it('refuses a belowDetection that is not a boolean', () => {
     expect(() => recruitment(rowsOf('window'), 'uV', { belowDetection: 'yes' as never })).toThrow(
       /invalid belowDetection: "yes"; expected true or false/,
