@@ -224,7 +224,7 @@ export function writeNwbSync(set: SweepSet, path: string, options: NwbWriteOptio
   let f: H5File | null = null;
   let result: Omit<NwbWriteResult, 'path'>;
   try {
-    const created = new (h5().File)(tmp, 'w');
+    const created = withHdf5Errors(() => new (h5().File)(tmp, 'w'));
     if (typeof created.file_id === 'bigint' && created.file_id < 0n) {
       throw new OutputError(path, `cannot create a temporary file in ${dir}`, { refused: false });
     }

@@ -774,4 +774,16 @@ describe('a write the disk refuses (HDF5 errors are thrown, not printed and igno
       spawnSync('umount', [mnt]);
     }
   });
+  it.skipIf(!built)('a read-only file system (a read-only tmpfs, where it can be mounted): EROFS named', () => {
+    const mnt = mkdtempSync(join(tmp, 'ro-'));
+    if (spawnSync('mount', ['-t', 'tmpfs', '-o', 'size=300k,ro', 'tmpfs', mnt]).status !== 0) return; // not root
+    try {
+      const r = runLimited('', join(mnt, 'x.nwb'));
+      const out = JSON.parse(r.stdout.trim().split('\n').pop() ?? '{}');
+      expect(out.message).toMatch(/x\.nwb failed: Read-only file system \(EROFS\); nothing was written/);
+      expect(r.stderr).not.toMatch(/HDF5-DIAG/);
+    } finally {
+      spawnSync('umount', [mnt]);
+    }
+  });
 });
