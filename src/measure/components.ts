@@ -870,6 +870,28 @@ export function measureComponents(
     polarities[c.name] = up >= down ? 1 : -1;
     polaritySource[c.name] = 'auto';
   });
+  // a bipolar recording (contact minus reference) shows a faster class a second time, inverted, when it reaches the
+  // reference contact; where that reference-contact wave (the faster class's window at the reference distance)
+  // overlaps a slower class's window, the slower class's extremes there are the faster class's, not its own: the
+  // slower class then takes the main phase of the next faster class (the same contacts record every class of a
+  // nerve with the same main phase: the sign comes from the electrode geometry and the direction of propagation;
+  // common practice, no source); a polarity given per class stays
+  for (let ci = 1; ci < classes.length; ci++) {
+    const c = classes[ci];
+    if (polaritySource[c.name] !== 'auto') continue;
+    const shadowed = polSweeps.some(({ s }) => {
+      const ref = refOf(s);
+      if (ref === null) return false;
+      const { a, b } = info[s].wins[ci];
+      return classes.slice(0, ci).some((f) => {
+        const [vlo, vhi] = scaledRange(f, preset, info[s].T, q10);
+        const r0 = set.indexAt(util + ref / vhi),
+          r1 = set.indexAt(util + ref / vlo + Math.max(tailMs, tailFraction * (ref / vlo - ref / vhi)));
+        return r0 <= b && r1 >= Math.max(a, info[s].polStart);
+      });
+    });
+    if (shadowed) polarities[c.name] = polarities[classes[ci - 1].name];
+  }
 
   // chains of classes whose windows overlap (at any sweep), fastest first
   const overlaps = (ci: number) => info.some((q) => q.wins[ci].b >= q.wins[ci + 1].a);
@@ -1017,7 +1039,13 @@ export function measureComponents(
   for (let s = 0; s < set.nSweeps; s++) {
     const { L, T, noise, wins: raw, x, decay } = info[s];
     const cond = set.conditions[s];
-    for (let i = 0; i < n; i++) smooth[i] = (x[Math.max(0, i - 1)] + x[i] + x[Math.min(n - 1, i + 1)]) / 3;
+    // 3-point smoothing that never takes a sample on the amplifier's rail: the first unclipped sample is smoothed
+    // with its later neighbours only (a rail neighbour would make it the largest value of the fastest class's window)
+    const f0 = info[s].clip === null ? 0 : Math.min(n - 1, set.indexAt(info[s].clip!) + 1);
+    for (let i = 0; i < n; i++) {
+      const j = Math.max(i, f0);
+      smooth[i] = (x[Math.max(f0, j - 1)] + x[j] + x[Math.min(n - 1, j + 1)]) / 3;
+    }
     const wins = raw.map((w) => ({ ...w }));
     const ms: ResponseMeasure[] = new Array(classes.length);
     const done = new Array<boolean>(classes.length).fill(false);
@@ -1062,12 +1090,15 @@ export function measureComponents(
           ? noiseMad(gaussianSmooth(Array.prototype.slice.call(x, na, nb + 1), sigma), 0, nb - na)
           : noise;
       const lat0: OwnLatencies = ownLatencies(yc, peakFrom, peakTo, onsetFraction, centroidFraction, 0, yc.length - 1);
-      // the peak time of a whole wave that was not smoothed (a large wave, or a decomposed class's component): the
-      // vertex of a parabola through its top (topVertex), not its single largest sample; a slower decomposed class
-      // (a shoulder on the faster class's residual, `shoulder`) and a smoothed wave keep the three-point parabola
+      // the peak time of the fastest class of a decomposed chain (its whole wave, never smoothed): the vertex of a
+      // parabola through its top (topVertex), not its single largest sample; a slower decomposed class (a shoulder
+      // on the faster class's residual, `shoulder`) and a window class (smoothed to its own width and noise) keep
+      // the three-point parabola
       const i0 = Math.round(lat0.peakIndex);
-      const unsmoothed = yc === y0;
-      const vtx = lat0.localMax && unsmoothed && !shoulder ? topVertex(yc, i0, peakFrom, peakTo, noiseS) : null;
+      const vtx =
+        lat0.localMax && sep === 'velocity-decomposition' && !shoulder
+          ? topVertex(yc, i0, peakFrom, peakTo, noiseS)
+          : null;
       const lat: OwnLatencies = vtx === null ? lat0 : { ...lat0, peakIndex: vtx };
       const N = peakTo - peakFrom + 1;
       const kEff = Math.max(k, normQuantile(1 - 0.01 / N));
@@ -1091,8 +1122,14 @@ export function measureComponents(
       }
       if (status === 'measured' && !localMax) {
         status = 'not resolved';
+        // the largest value on the first sample after the rail: the peak may lie under it (not a missing shoulder)
+        const first = info[s].clip === null ? -1 : set.indexAt(info[s].clip!) + 1;
         reason =
-          'not resolved: no separate peak or shoulder (the largest value of the class is at the edge of its part of the sweep)';
+          a + ip <= first
+            ? `not resolved: the largest value of the class is on the first sample after the amplifier's rail ` +
+              `(${tAt(first).toFixed(3)} ms): its peak may lie under the rail`
+            : 'not resolved: no separate peak or shoulder (the largest value of the class is at the edge of its part ' +
+              'of the sweep)';
       }
       // nothing is read under the rail: the first unclipped sample is the earliest time a peak can have (a peak
       // before it, in a modelled component, leaves the class not resolved); an onset, half-rise or centroid before
