@@ -418,15 +418,17 @@ const line = (what: string, est: number, tru: number) => {
  * d_axon^2 (devset README). Each check is one test; the ones the estimate does not meet yet are listed in NOT_YET
  * and declared with it.fails, so that they turn red when met (move them out then). Tolerances are the issue's.
  */
-// C amplitude fraction: met before 13:50 UTC only while the C distribution itself was wrong (p50 -68%); with the
-// two-phase potential kept in the slow window (see vdistCore/velocityDistribution notes) the C percentiles are within
-// 3% but the summed PEAK amplitude is 45% low: the peak of the C potential is not set by a dispersed C wave (its area
-// is), so amplitudes compared across two windows need the potential's peak, which the node refinement recovers only
-// on noise-free data (/work/notes/vdist-api.md, diagnosis 4)
+// C amplitude fraction: NOT met with the estimated potential. Diagnosis (16:00-16:30 UTC, /work/notes/vdist-api.md):
+// the C wave is dispersed over ~10 ms (sd 3.4 ms at 15 mm) by a potential whose main phase lasts 0.5 ms, so the data
+// fix the potential's area times the amplitudes, not its peak: the two-phase potential comes out twice as wide as the
+// devset's (main-phase area over peak 1.0 vs 0.50 ms, extract_sfp.py) and the summed peak amplitude 60% low; on finer
+// grids the same fit gives -34% (90 bins), +1.5% (120) or +128% (97 bins over the support), i.e. the width is not
+// identified at this dispersion and noise. With the potential given (the devset's, below) the fraction is met.
 const NOT_YET = new Set(['C amplitude fraction']);
 interface DevRun {
   fast: VelocityDistributionResult;
   slow: VelocityDistributionResult;
+  slowGiven: VelocityDistributionResult;
 }
 let dev: DevRun | null = null;
 const devRuns = (): DevRun => {
@@ -460,7 +462,19 @@ const devRuns = (): DevRun => {
           .join(', '),
     );
   }
-  dev = { fast, slow };
+  // the same slow fit with the C potential given: the devset's own, deconvolved from its noise-free C component
+  // with truth/fibres.csv (tests/fixtures/devset-vdist/extract_sfp.py, NumPy least squares): checks that the
+  // amplitude scale is consistent between the windows when the potential is known (the limit is its estimate)
+  const sfpC = JSON.parse(readFileSync(join(FIX, 'sfp_C_30C.json'), 'utf8'));
+  const slowGiven = velocityDistribution(pooled('slow'), {
+    fitWindow: [10, 140],
+    classes: devClasses,
+    amplitudeExponent: 4,
+    drift: 'quadratic',
+    bootstrap: 0,
+    sfp: { samples: sfpC.samples, dtMs: sfpC.dt_ms, t0Ms: sfpC.t0_ms },
+  });
+  dev = { fast, slow, slowGiven };
   return dev;
 };
 /** Summed amplitude of a result inside a class range (signal units). */
@@ -493,6 +507,12 @@ const devErrors = (): Record<string, number> => {
   const tTot = truthOf('A_alpha_beta').amp + truthOf('A_delta').amp + truthOf('C').amp;
   for (const cls of ['A_alpha_beta', 'A_delta', 'C'] as const)
     errs[`${cls} amplitude fraction`] = line(`${cls} amplitude fraction`, amp[cls] / tot, truthOf(cls).amp / tTot);
+  const cG = ampIn(devRuns().slowGiven, 'C');
+  errs['C amplitude fraction, C potential given'] = line(
+    'C amplitude fraction (C potential given)',
+    cG / (amp.A_alpha_beta + amp.A_delta + cG),
+    truthOf('C').amp / tTot,
+  );
   console.log(report.join('\n'));
   return errs;
 };
@@ -507,6 +527,7 @@ describe('velocityDistribution on the development set (FNPG-N07), 30 C, 15 and 2
   const checks: [string, number][] = [];
   for (const cls of ['A_alpha_beta', 'A_delta', 'C'])
     checks.push([`${cls} p50`, 0.1], [`${cls} p10`, 0.15], [`${cls} p90`, 0.15], [`${cls} amplitude fraction`, 0.2]);
+  checks.push(['C amplitude fraction, C potential given', 0.2]);
   for (const [name, tol] of checks) {
     const title = `${name} within ${100 * tol}% of truth/fibres.csv${NOT_YET.has(name) ? ' (NOT YET met)' : ''}`;
     (NOT_YET.has(name) ? it.fails : it)(title, () => {
