@@ -625,6 +625,13 @@ export function compareGroups(
 ): GroupComparison {
   const inputRows = rowsOf(input);
   const { points, excluded, options: o } = animalMeans(inputRows, options);
+  if (points.length === 0) {
+    const seen = [...new Set(inputRows.map((r) => JSON.stringify(r[o.value] ?? null)))].slice(0, 3).join(', ');
+    throw new AnalysisError(
+      `group statistics of ${o.value}: none of the ${inputRows.length} rows has a finite number in ${o.value} ` +
+        `and a ${o.animal}${o.group ? ` and a ${o.group}` : ''} (values such as ${seen}); choose a numeric column`,
+    );
+  }
   const src = input as { history?: readonly Step[]; sources?: readonly Source[] };
   history = history ?? (Array.isArray(src.history) ? src.history : []);
   sources = sources ?? (Array.isArray(src.sources) ? src.sources : []);

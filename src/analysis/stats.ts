@@ -4,25 +4,33 @@
  */
 import * as ss from 'simple-statistics';
 import { tQuantile, tCdf, normCdf } from '../fit/dist';
+import { OptionError } from '../errors';
 
 export interface Summary {
+  /** finite values summarised */
   n: number;
+  /** values left out because they were not finite numbers (NaN, Infinity): counted, never summarised */
+  excluded: number;
   mean: number;
   sd: number;
   sem: number;
   ci95: [number, number];
 }
 
-/** Mean, SD (n - 1), SEM and a t-based 95% CI of the mean. */
+/**
+ * Mean, SD (n - 1), SEM and a t-based 95% CI of the mean of the finite values; values that are not finite numbers
+ * are left out and counted in `excluded`.
+ */
 export function summarize(xs: readonly number[]): Summary {
   const v = xs.filter(Number.isFinite);
   const n = v.length;
-  if (n === 0) return { n, mean: NaN, sd: NaN, sem: NaN, ci95: [NaN, NaN] };
+  const excluded = xs.length - n;
+  if (n === 0) return { n, excluded, mean: NaN, sd: NaN, sem: NaN, ci95: [NaN, NaN] };
   const mean = ss.mean(v);
   const sd = n > 1 ? ss.sampleStandardDeviation(v) : NaN;
   const sem = sd / Math.sqrt(n);
   const t = n > 1 ? tQuantile(0.975, n - 1) : NaN;
-  return { n, mean, sd, sem, ci95: [mean - t * sem, mean + t * sem] };
+  return { n, excluded, mean, sd, sem, ci95: [mean - t * sem, mean + t * sem] };
 }
 
 export interface LinearFit {
@@ -88,7 +96,21 @@ export interface PairedComparison {
  */
 export function pairedCompare(before: readonly number[], after: readonly number[]): PairedComparison {
   if (before.length !== after.length)
-    throw new Error(`paired comparison needs equal lengths (${before.length} vs ${after.length})`);
+    throw new OptionError(
+      `invalid pairs: ${before.length} before and ${after.length} after values; a paired comparison needs one ` +
+        'after value per before value',
+    );
+  for (const [name, xs] of [
+    ['before', before],
+    ['after', after],
+  ] as const) {
+    const i = xs.findIndex((x) => typeof x !== 'number' || !Number.isFinite(x));
+    if (i >= 0)
+      throw new OptionError(
+        `invalid ${name}[${i}]: ${String(xs[i])}; every value of a paired comparison must be a finite number ` +
+          '(leave out the pair)',
+      );
+  }
   const d = after.map((a, i) => a - before[i]);
   const n = d.length;
   const s = summarize(d);

@@ -22,7 +22,7 @@ import {
   mixedMethods,
   mixedStepMethods,
 } from '../../src/analysis/mixed';
-import { pairedCompare, toFrame } from '../../src';
+import { pairedCompare, toFrame, summarize, OptionError } from '../../src';
 import { Rng } from '../../src/model/random';
 
 // Reference values: tests/reference/make_groups.py (SciPy 1.17, NumPy 2.4) -> groups.json
@@ -592,5 +592,26 @@ describe('compareGroups group and condition order: first appearance in the data 
     expect(go({ grup: ['control'] })).toThrow(/invalid levels key: "grup".*did you mean "group"/);
     expect(go({ group: 'control' })).toThrow(/invalid levels\.group: "control"; must be a non-empty list/);
     expect(go(['control'])).toThrow(/invalid levels/);
+  });
+});
+
+describe('statistics inputs that cannot be used are said, not silently dropped', () => {
+  it('summarize counts the values it left out; pairedCompare refuses unequal or non-finite pairs', () => {
+    const s = summarize([1, NaN, 3, Infinity]);
+    expect([s.n, s.excluded, s.mean]).toEqual([2, 2, 2]);
+    expect(summarize([]).excluded).toBe(0);
+    expect(() => pairedCompare([1, 2, 3], [1, 2])).toThrow(OptionError);
+    expect(() => pairedCompare([1, 2, 3], [1, 2])).toThrow(/3 before and 2 after values/);
+    // a NaN pair used to enter the t test's df while the mean left it out (df 2 for 2 differences)
+    expect(() => pairedCompare([1, 2, 3], [1.5, NaN, 3.5])).toThrow(/invalid after\[1\]: NaN/);
+  });
+  it('compareGroups on a column without numbers is an AnalysisError naming the column', () => {
+    const rows = [
+      { x: 'a', group: 'g', preparation: 'p1' },
+      { x: 'b', group: 'h', preparation: 'p2' },
+    ];
+    expect(() => compareGroups(rows, { value: 'x' })).toThrow(
+      /none of the 2 rows has a finite number in x and a preparation and a group/,
+    );
   });
 });
