@@ -567,6 +567,30 @@ describe('velocityDistribution on the development set (FNPG-N07), 30 C, 15 and 2
   });
 });
 
+describe('velocityDistribution on the development set with 4 sweeps per distance (as notebooks/06 uses)', () => {
+  // the temperature series' 4 supramaximal sweeps at 30 C alone, fast window, defaults: with the artifact decays of
+  // the 11:00-16:30 default (to twice the fit start's delay) A-delta p10/p50/p90 were -66/-60/-40% here (a 0.32 ms
+  // decay traded with the earliest waves at 15 mm); the issue's tolerances, truth/fibres.csv
+  it('A-alpha/beta and A-delta p10, p50, p90 within the issue tolerances', () => {
+    const r = velocityDistribution(loadFixture('temperature_fast_30C'), { classes: devClasses, bootstrap: 0 });
+    const out: string[] = [];
+    for (const cls of ['A_alpha_beta', 'A_delta'])
+      for (const [q, tol] of [
+        [10, 0.15],
+        [50, 0.1],
+        [90, 0.15],
+      ] as const) {
+        const est = r.percentile(q, 'number', cls),
+          tru = truthOf(cls).p(q / 100);
+        out.push(
+          `${cls} p${q} ${est.toPrecision(4)} vs ${tru.toPrecision(4)} (${(100 * (est / tru - 1)).toFixed(1)}%)`,
+        );
+        expect(Math.abs(est / tru - 1)).toBeLessThan(tol);
+      }
+    console.log('4 sweeps per distance: ' + out.join('; '));
+  });
+});
+
 // ---------------------------------------------------------------------------------------------
 // Forward model (src/model/nerve.ts, the project's own simulated nerve): SELF-CONSISTENCY, not an outside check.
 // The myelinated classes of rodentSciatic() at 10, 20 and 30 mm, 37 C, supramaximal, 8 sweeps per distance, white
