@@ -27,7 +27,11 @@
  * decides detection only.
  *
  * Polarity is chosen per class: the main phase of the class in its window, after the
- * stimulus artifact has decayed (from the end of rail clipping), or given per class.
+ * stimulus artifact has decayed (from the end of rail clipping), or given per class. In a bipolar recording a slower
+ * class whose window holds a faster class's wave at the reference contact takes that faster class's main phase.
+ *
+ * Peak latency of the fastest class of a decomposition (its component is not smoothed): the vertex of the
+ * least-squares parabola through its top (topVertex), the same at any sampling rate.
  */
 import type { SweepSet, ConditionValue } from '../sweeps/SweepSet';
 import { OptionError, AnalysisError } from '../errors';
