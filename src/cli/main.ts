@@ -189,6 +189,9 @@ function parse(argv: string[]): { cmd: string; pos: string[]; flags: Record<stri
       }
       const v = eq > 0 ? a.slice(eq + 1) : rest[++i];
       if (v === undefined || (eq < 0 && v.startsWith('--'))) throw new UsageError(`option --${k} needs a value`);
+      // a second value would silently win over the first (e.g. a bundle written where the user did not look)
+      if (typeof flags[k] === 'string' && flags[k] !== v)
+        throw new UsageError(`option --${k} is given twice (${flags[k]} and ${v}); give it once`);
       flags[k] = v;
     } else pos.push(a);
   }

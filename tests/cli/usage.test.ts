@@ -20,6 +20,15 @@ const section = (() => {
 })();
 
 describe('command line usage as documented', () => {
+  it('an option given twice with different values is a usage error (exit 2) before anything is read or written', () => {
+    const out1 = join(tmpdir(), `fascicle-twice-${process.pid}-a`),
+      out2 = join(tmpdir(), `fascicle-twice-${process.pid}-b`);
+    const r = run(['run', 'no-such-manifest.json', '--out', out1, '--out', out2]);
+    expect(r.status).toBe(2);
+    expect(r.stderr).toMatch(/option --out is given twice \(.*-a and .*-b\); give it once/);
+    expect(existsSync(out1) || existsSync(out2)).toBe(false);
+    expect(run(['run', 'x.json', '--jobs', '2', '--jobs=3', '--out', out1]).stderr).toMatch(/--jobs is given twice/);
+  });
   it('a leading "--" (passed along by some npm runners) is skipped: "-- --help", "-- --version", "-- help"', () => {
     const v = run(['--', '--version']);
     expect(v.status, v.stderr).toBe(0);
