@@ -27,6 +27,17 @@ try {
     }
     await page.waitForTimeout(300);
     const figs = page.locator('div.fascicle-figure');
+    // every figure shows data: at least one trace with a finite point (a legend-only entry has x [null])
+    const empty = await page.locator('div.fascicle-figure.js-plotly-plot').evaluateAll((els) =>
+      els
+        .map((gd, k) => {
+          const finite = (a) => Array.isArray(a) && a.flat(2).some((v) => typeof v === 'number' && Number.isFinite(v));
+          const has = (gd.data || []).some((t) => finite(t.y) || finite(t.x) || finite(t.z));
+          return has ? null : `figure ${k + 1} (${(gd.layout?.title?.text || '').slice(0, 60)})`;
+        })
+        .filter(Boolean),
+    );
+    for (const e of empty) errors.push(`no data drawn in ${e}`);
     // the exported page's MathJax status line ("Loading [MathJax]/...") sits fixed over the page: keep it out of
     // the figure pictures
     await page.addStyleTag({ content: '#MathJax_Message{display:none !important}' });
