@@ -33,7 +33,8 @@ export function componentLatencyText(
       'crosses 50% of its own peak, interpolated linearly between samples',
     peak:
       `peak latency${c('peak_ms')}: the time of the maximum of the class's own component on its main phase, ` +
-      'refined by a parabola through the three samples around it',
+      'refined by a parabola through the three samples around it (for the fastest class of a velocity ' +
+      'decomposition, a least-squares parabola through the samples within 2% of the maximum or 3 noise SDs)',
     centroid:
       `centroid latency${c('centroid_ms')}: the centre of mass of the class's own component over the contiguous ` +
       `span around its peak where it exceeds ${pc(centroidFraction)} of its own peak` +
