@@ -20,7 +20,10 @@ import type { DeferredSamples } from '../verbs/types';
 export function float32Samples(n: number): Float32Array {
   if (n < PARALLEL_MIN_SAMPLES) return new Float32Array(n);
   const shared = threads() >= 2;
-  const own = samples32(n, shared);
+  // glibc told to ask for transparent huge pages (GLIBC_TUNABLES=glibc.malloc.hugetlb=1 or 2) does so only for
+  // the memory it allocates, not for a WebAssembly memory: its 2 MB pages take far fewer first-touch faults than the
+  // copy saved here (tests/bench/scipy.mjs prints both), so its buffers are kept then
+  const own = glibcHugePages() ? null : samples32(n, shared);
   if (own) {
     countSharedBytes(n * 4); // counted as shared buffers are (a full collection every so many bytes)
     return own;
@@ -31,4 +34,10 @@ export function float32Samples(n: number): Float32Array {
 /** float32 samples as SweepSet data (`new SweepSet({ data: asRead(f32), ... })`). */
 export function asRead(samples: Float32Array): DeferredSamples {
   return { base: samples, correction: noCorrection() };
+}
+
+/** Whether glibc was told at start-up to use huge pages for its allocations (GLIBC_TUNABLES glibc.malloc.hugetlb). */
+export function glibcHugePages(env: NodeJS.ProcessEnv = process.env): boolean {
+  const m = /(?:^|:)glibc\.malloc\.hugetlb=(\d+)/.exec(env.GLIBC_TUNABLES ?? '');
+  return m !== null && Number(m[1]) > 0;
 }

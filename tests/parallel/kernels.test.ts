@@ -386,6 +386,18 @@ describe('the finiteness check of float32 samples', () => {
     }
     expect(checked).toBeGreaterThan(200);
   });
+  it('large float32 samples lie on a WebAssembly memory, unless glibc was told to use huge pages', async () => {
+    const { float32Samples, glibcHugePages } = await import('../../src/sweeps/storage');
+    const { PARALLEL_MIN_SAMPLES } = await import('../../src/parallel/pool');
+    expect(glibcHugePages({ GLIBC_TUNABLES: 'glibc.malloc.hugetlb=1' })).toBe(true);
+    expect(glibcHugePages({ GLIBC_TUNABLES: 'glibc.malloc.arena_max=2:glibc.malloc.hugetlb=2' })).toBe(true);
+    expect(glibcHugePages({ GLIBC_TUNABLES: 'glibc.malloc.hugetlb=0' })).toBe(false);
+    expect(glibcHugePages({})).toBe(false);
+    if (!glibcHugePages()) {
+      expect(memoryOf(float32Samples(PARALLEL_MIN_SAMPLES))).not.toBeNull();
+      expect(memoryOf(float32Samples(PARALLEL_MIN_SAMPLES - 1))).toBeNull(); // small ones: a plain array
+    }
+  });
   it('the float64 SIMD check agrees with the JavaScript one and, unlike a sum, is exact at full scale', async () => {
     const { allFinite64 } = await import('../../src/parallel/simd');
     const { finiteSum } = await import('../../src/parallel/kernels');
