@@ -284,14 +284,21 @@ export async function runStudy(o: RunOptions): Promise<{ out: string; study: Stu
 
 /** Merge shard outputs into one bundle. */
 export async function mergeShards(dirs: string[], out: string): Promise<Study> {
+  // the shard folders are the inputs of a merge: never the destination, nor inside it
+  checkOutput(
+    out,
+    dirs.map((d) => resolve(d)),
+  );
   const all: PrepOutput[] = [];
   let manifest = '',
     options: PipelineOptions = {};
+  const seen = new Map<string, string>(); // shard "i/n" -> its folder
+  let first: { dir: string; manifest: string; options: string; count: number } | null = null;
   for (const d of dirs) {
     const p = join(d, 'shard.json');
     if (!existsSync(p))
       throw new InputError({ file: p }, 'not found', 'a shard output written by "fascicle run --shard i/n"');
-    let s: { manifest: string; options: PipelineOptions; outputs: PrepOutput[] };
+    let s: { shard?: unknown; manifest: string; options: PipelineOptions; outputs: PrepOutput[] };
     try {
       s = JSON.parse(readFileSync(p, 'utf8'));
     } catch (e) {
@@ -303,10 +310,47 @@ export async function mergeShards(dirs: string[], out: string): Promise<Study> {
     }
     if (!s || typeof s.manifest !== 'string' || !Array.isArray(s.outputs))
       throw new InputError({ file: p }, 'not a shard output', 'a shard output written by "fascicle run --shard i/n"');
+    const tag = typeof s.shard === 'string' ? s.shard : '?/?';
+    const before = seen.get(tag);
+    if (before !== undefined)
+      throw new InputError(
+        { file: p },
+        `shard ${tag} is given twice (${before} and ${d})`,
+        'each shard of one run, once',
+      );
+    seen.set(tag, d);
+    const here = {
+      dir: d,
+      manifest: resolve(d, s.manifest),
+      options: JSON.stringify(s.options ?? {}),
+      count: Number(tag.split('/')[1]),
+    };
+    first ??= here;
+    if (here.manifest !== first.manifest || here.options !== first.options || here.count !== first.count)
+      throw new InputError(
+        { file: p },
+        here.manifest !== first.manifest
+          ? `the shard is of ${here.manifest}, the shard in ${first.dir} of ${first.manifest}`
+          : here.count !== first.count
+            ? `the shard is one of ${here.count}, the shard in ${first.dir} one of ${first.count}`
+            : `the shard was run with other analysis options than the shard in ${first.dir}`,
+        'the shards of one run of one manifest',
+      );
     manifest = resolve(d, s.manifest);
     options = s.options;
     all.push(...s.outputs);
   }
+  const n = first?.count ?? 0;
+  const missing = Array.from({ length: Number.isInteger(n) ? n : 0 }, (_, i) => `${i + 1}/${n}`).filter(
+    (t) => !seen.has(t),
+  );
+  if (missing.length)
+    throw new InputError(
+      { file: dirs.join(', ') },
+      `shard${missing.length === 1 ? '' : 's'} ${missing.join(', ')} of the run ${missing.length === 1 ? 'is' : 'are'} ` +
+        'missing: the merged bundle would leave out their preparations',
+      `all ${n} shards`,
+    );
   const preps = all.map((o) => o.preparation);
   const dup = preps.find((p, i) => preps.indexOf(p) !== i);
   if (dup !== undefined)

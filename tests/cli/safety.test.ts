@@ -404,6 +404,33 @@ describe('rerun of a moved study, and what rerun compares', () => {
   });
 });
 
+describe('fascicle merge checks its shards', () => {
+  it('a shard folder as --out is refused; a shard twice, a missing shard or shards of two runs are errors', () => {
+    const m2 = study('s-merge', ['R1', 'R2']);
+    const a = join(work, 'merge-1of2'),
+      b = join(work, 'merge-2of2'),
+      solo = join(work, 'merge-1of1');
+    expect(run(['run', m2, '--out', a, '--shard', '1/2', '--quiet', '--no-figures']).status).toBe(0);
+    expect(run(['run', m2, '--out', b, '--shard', '2/2', '--quiet', '--no-figures']).status).toBe(0);
+    expect(run(['run', m1, '--out', solo, '--shard', '1/1', '--quiet', '--no-figures']).status).toBe(0);
+    const before = snapshot(a);
+    // merging into one of the shards used to replace it with the merged bundle (the shard was gone)
+    const into = run(['merge', a, b, '--out', a]);
+    expect(into.status).toBe(2);
+    expect(into.stderr).toMatch(/it is an input of this analysis/);
+    expect(snapshot(a)).toEqual(before);
+    const twice = run(['merge', a, a, b, '--out', join(work, 'merged-twice')]);
+    expect([twice.status, twice.stderr]).toEqual([3, expect.stringMatching(/shard 1\/2 is given twice/)]);
+    const missing = run(['merge', a, '--out', join(work, 'merged-missing')]);
+    expect([missing.status, missing.stderr]).toEqual([3, expect.stringMatching(/shard 2\/2 of the run is missing/)]);
+    const mixed = run(['merge', a, solo, '--out', join(work, 'merged-mixed')]);
+    expect(mixed.status).toBe(3);
+    expect(mixed.stderr).toMatch(/the shard is (of|one of)/);
+    for (const d of ['merged-twice', 'merged-missing', 'merged-mixed']) expect(existsSync(join(work, d))).toBe(false);
+    expect(run(['merge', a, b, '--out', join(work, 'merged-ok')]).status).toBe(0);
+  });
+});
+
 describe('command line', () => {
   it('help and version subcommands (npx takes --help), help names the npx form', () => {
     const h = run(['help']);
