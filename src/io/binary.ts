@@ -15,7 +15,7 @@
 import { dirname, resolve } from 'node:path';
 import { InputError, OptionError, ThreadError } from '../errors';
 import { conditionsProblem, nearest } from '../validate';
-import { SweepSet, type Conditions } from '../sweeps/SweepSet';
+import { checkedSweepSet, type SweepSet, type Conditions } from '../sweeps/SweepSet';
 import { parseSignalUnit } from '../sweeps/units';
 import { closeSync } from 'node:fs';
 import { allocSamples, lazySource, openInput, readInput } from './files';
@@ -234,7 +234,7 @@ export function readBinary(sidecarPath: string, extra: { conditions?: Conditions
   const conditions: Conditions[] = [];
   for (let s = 0; s < nSweeps; s++)
     conditions.push({ ...base, ...(meta.sweeps?.[s] ?? {}), file: sidecarPath, fileSweep: s });
-  return new SweepSet({
+  return checkedSweepSet({
     data: kept ? asRead(kept) : out!,
     nSweeps,
     nSamples,

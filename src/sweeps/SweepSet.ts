@@ -22,7 +22,8 @@ import { removeHumSamples, type HumOptions } from '../verbs/hum';
 import { decimateSamples, type DecimateOptions } from '../verbs/decimate';
 import { resampleSamples, type ResampleOptions } from '../verbs/resample';
 import type { DeferredSamples, VerbInput } from '../verbs/types';
-import { signalFactor, type SignalUnit } from './units';
+import { SIGNAL_UNITS, signalFactor, type SignalUnit } from './units';
+import { allFinite64 } from '../parallel/simd';
 import { conditionKeys } from './conditions';
 import { runSweeps, shareCopy, sharedSamples } from '../parallel/pool';
 import { sweepSetHtml, showSweepSet } from '../notebook/sweepSet';
@@ -34,6 +35,21 @@ export type { ConditionValue, Conditions, Step, Source } from './conditions';
 export { conditionKeys } from './conditions';
 
 const samples = new WeakMap<SweepSet, Float64Array | DeferredSamples>();
+/** Set while create() and the loaders (which check their samples themselves) construct a set: no second scan. */
+let checkedSamples = false;
+
+/**
+ * A SweepSet from samples the caller has already checked to be finite (the loaders of src/io): the public
+ * constructor would scan them again.
+ */
+export function checkedSweepSet(init: SweepSetInit): SweepSet {
+  checkedSamples = true;
+  try {
+    return new SweepSet(init);
+  } finally {
+    checkedSamples = false;
+  }
+}
 /** Condition arrays this module froze (with frozen rows): reused as they are. */
 const frozenConditions = new WeakSet<readonly Conditions[]>();
 
@@ -114,6 +130,23 @@ export class SweepSet implements Iterable<Float64Array> {
     if (init.conditions.length !== init.nSweeps) {
       throw new OptionError(`conditions has ${init.conditions.length} rows for ${init.nSweeps} sweeps`);
     }
+    if (!(SIGNAL_UNITS as readonly unknown[]).includes(init.units)) {
+      const u = init.units as unknown;
+      throw new OptionError(
+        `invalid units: ${shown(u)}; must be one of ${SIGNAL_UNITS.join(', ')}` +
+          (typeof u === 'string' ? didYouMean(u, SIGNAL_UNITS) : ''),
+      );
+    }
+    // samples from a caller (not from a verb or a loader, which checked them): every one must be finite, as the
+    // loaders require (the SIMD check, about the speed of reading the samples once)
+    if (!checkedSamples && raw instanceof Float64Array && !(allFinite64(raw, 0, raw.length) ?? finiteAll(raw))) {
+      let j = 0;
+      while (raw[j] - raw[j] === 0) j++;
+      throw new OptionError(
+        `invalid data: sample ${j % init.nSamples} of sweep ${Math.floor(j / init.nSamples)} is ${raw[j]}; ` +
+          'every sample must be a finite number',
+      );
+    }
     samples.set(this, init.data);
     // conditions are frozen once: a set made from another with the same conditions shares them
     const conditions = frozenConditions.has(init.conditions)
@@ -139,7 +172,7 @@ export class SweepSet implements Iterable<Float64Array> {
     const history =
       rest.history ??
       (step ? [...this.history, { verb: step.verb, options: step.options, version: VERSION }] : this.history);
-    return new SweepSet({
+    return checkedSweepSet({
       data: samples.get(this)!,
       nSweeps: this.nSweeps,
       nSamples: this.nSamples,
@@ -559,7 +592,8 @@ export class GroupedSweeps {
       if (set.nSweeps > 0 && !set.conditions.some((c) => k in c)) {
         const known = [...new Set(set.conditions.flatMap((c) => Object.keys(c)))].sort();
         throw new OptionError(
-          `invalid groupBy key: no sweep has the condition ${JSON.stringify(k)}; conditions are ${known.join(', ')}`,
+          `invalid groupBy key: no sweep has the condition ${JSON.stringify(k)}${didYouMean(k, known)}; ` +
+            `conditions are ${known.join(', ')}`,
         );
       }
     }
@@ -693,4 +727,10 @@ function matcher(match: Record<string, unknown>): (c: Conditions) => boolean {
 
 function fmt(x: number): string {
   return Number.isInteger(x) ? String(x) : String(Number(x.toPrecision(4)));
+}
+
+/** Whether every value is finite (the check where WebAssembly SIMD is not available). */
+function finiteAll(x: Float64Array): boolean {
+  for (let i = 0; i < x.length; i++) if (x[i] - x[i] !== 0) return false;
+  return true;
 }

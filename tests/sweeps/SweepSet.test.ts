@@ -72,3 +72,33 @@ describe('SweepSet', () => {
     expect(() => make().crop(5, 6)).toThrow(/outside the sweep/);
   });
 });
+
+describe('the public constructor refuses what the loaders refuse (src/sweeps/SweepSet.ts)', () => {
+  const base = () => ({
+    data: new Float64Array(6).fill(1),
+    nSweeps: 2,
+    nSamples: 3,
+    fs: 1000,
+    t0Ms: 0,
+    units: 'uV' as const,
+    conditions: [{ intensity: 1 }, { intensity: 2 }],
+  });
+  it('a non-finite sample, named by sweep and sample', () => {
+    for (const v of [NaN, Infinity, -Infinity]) {
+      const init = base();
+      init.data[4] = v;
+      expect(() => new SweepSet(init)).toThrow(
+        new RegExp(`invalid data: sample 1 of sweep 1 is ${String(v)}; every sample must be a finite number`),
+      );
+    }
+    expect(new SweepSet(base()).nSweeps).toBe(2);
+  });
+  it('units other than V, mV, uV, with the nearest one', () => {
+    expect(() => new SweepSet({ ...base(), units: 'uF' as never })).toThrow(
+      /invalid units: "uF"; must be one of V, mV, uV \(did you mean "uV"\?\)/,
+    );
+  });
+  it('a groupBy key no sweep has names the nearest condition', () => {
+    expect(() => new SweepSet(base()).groupBy('intensty')).toThrow(/did you mean "intensity"\?/);
+  });
+});
