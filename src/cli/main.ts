@@ -26,7 +26,7 @@ import {
 import { flagReport, FLAG_LINE_CAP } from './flags';
 import { combineStudy, type Study } from '../report/study';
 import { summaryLines, type SummaryOptions } from '../report/summary';
-import { verifyInputs, checkOutput, type Provenance } from '../report/bundle';
+import { verifyInputs, checkOutput, addToBundle, type Provenance } from '../report/bundle';
 import { readManifestJson, readBlindingKey, type BlindingKey } from '../io/manifest';
 import { unblindOutputs, unblindPipelineOptions, checkBlindingKey } from '../analysis/blinding';
 import type { Step } from '../sweeps/SweepSet';
@@ -298,7 +298,10 @@ async function main(argv0: string[]): Promise<number> {
           `apply the key afterwards with: fascicle unblind ${flags.out} --key <key file> --out <new folder>`,
       );
     if (flags['nwb-raw'] && typeof flags.nwb !== 'string') throw new UsageError('--nwb-raw needs --nwb <file>');
-    if (typeof flags.nwb === 'string') await writeStudyNwb(pos[0], flags.nwb, !!flags['nwb-raw'], r.study!);
+    if (typeof flags.nwb === 'string') {
+      await writeStudyNwb(pos[0], flags.nwb, !!flags['nwb-raw'], r.study!);
+      addToBundle(flags.out, flags.nwb); // an NWB file inside the bundle is the bundle's (the next run replaces it)
+    }
     const reference = analysisOptions(pos[0]).components?.referenceDistanceMm;
     return reportStudy(r.study!, flags.out, { referenceDistanceMm: reference });
   }

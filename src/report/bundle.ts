@@ -15,6 +15,9 @@ import {
   lstatSync,
   realpathSync,
   unlinkSync,
+  openSync,
+  readSync,
+  closeSync,
 } from 'node:fs';
 import { dirname, basename, join, resolve, relative, isAbsolute, sep } from 'node:path';
 import { createHash, randomBytes } from 'node:crypto';
@@ -319,6 +322,45 @@ function notWrittenByFascicle(dir: string): string[] {
     }
   }
   return foreign;
+}
+
+/** SHA-256 of a file, read in parts (an NWB file can be larger than memory allows in one piece). */
+function fileSha256(path: string): string {
+  const h = createHash('sha256');
+  const fd = openSync(path, 'r');
+  try {
+    const buf = Buffer.alloc(1 << 20);
+    for (let n = readSync(fd, buf, 0, buf.length, null); n > 0; n = readSync(fd, buf, 0, buf.length, null))
+      h.update(buf.subarray(0, n));
+  } finally {
+    closeSync(fd);
+  }
+  return h.digest('hex');
+}
+
+/**
+ * Record a file fascicle wrote into a bundle after the bundle itself (the `--nwb` file given inside `--out`) in the
+ * bundle's marker, so the next run may replace the bundle with it. Does nothing when `file` is not inside `dir` or
+ * `dir` carries no readable marker. The marker is rewritten beside itself and renamed.
+ */
+export function addToBundle(dir: string, file: string): void {
+  const root = realish(dir),
+    f = realish(file);
+  if (!isInside(f, root) || f === root) return;
+  const markerPath = join(root, BUNDLE_MARKER);
+  let m: { writtenBy?: unknown; files?: string[]; sha256?: Record<string, string> };
+  try {
+    m = JSON.parse(readFileSync(markerPath, 'utf8'));
+  } catch {
+    return;
+  }
+  if (m.writtenBy !== 'fascicle' || !Array.isArray(m.files)) return;
+  const rel = relative(root, f).split(sep).join('/');
+  if (!m.files.includes(rel)) m.files.push(rel);
+  m.sha256 = { ...(m.sha256 ?? {}), [rel]: fileSha256(f) };
+  const tmp = `${markerPath}.tmp-${process.pid}`;
+  writeFileSync(tmp, JSON.stringify(m, null, 1) + '\n');
+  renameSync(tmp, markerPath);
 }
 
 const escapeRe = (s: string) => s.replace(/[.*+?^${}()|[\]\\]/g, '\\$&');

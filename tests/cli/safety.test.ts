@@ -18,7 +18,15 @@ import {
 import { createHash } from 'node:crypto';
 import { tmpdir } from 'node:os';
 import { join, relative } from 'node:path';
-import { writeBundle, setBeforeWrite, csvCell, toCsv, BUNDLE_MARKER, TEMP_MARKER } from '../../src/report/bundle';
+import {
+  writeBundle,
+  setBeforeWrite,
+  csvCell,
+  toCsv,
+  addToBundle,
+  BUNDLE_MARKER,
+  TEMP_MARKER,
+} from '../../src/report/bundle';
 import { OutputError } from '../../src/errors';
 
 const root = join(__dirname, '..', '..');
@@ -171,6 +179,24 @@ describe('fascicle run --out never loses files it did not write', () => {
     expect(r.status).toBe(2);
     expect(r.stderr).toMatch(/my-notes\.txt/);
     expect(snapshot(out)).toEqual(before);
+  });
+
+  it('a file fascicle wrote into its bundle afterwards (the --nwb file inside --out) is recorded, so the next run replaces it', () => {
+    const b = join(work, 'b-nwb');
+    writeBundle(b, { tables: { a: [{ x: 1 }] }, methods: 'one', provenance: prov });
+    writeFileSync(join(b, 'study.nwb'), 'written by fascicle after the bundle');
+    addToBundle(b, join(b, 'study.nwb'));
+    addToBundle(b, join(work, 'elsewhere.nwb')); // outside the bundle: nothing recorded
+    const marker = JSON.parse(readFileSync(join(b, BUNDLE_MARKER), 'utf8'));
+    expect(marker.files).toContain('study.nwb');
+    expect(marker.files).not.toContain('elsewhere.nwb');
+    writeBundle(b, { tables: { a: [{ x: 2 }] }, methods: 'two', provenance: prov });
+    expect(readFileSync(join(b, 'methods.txt'), 'utf8')).toBe('two');
+    // recorded, then changed by someone else: refused
+    writeFileSync(join(b, 'study.nwb'), 'v1');
+    addToBundle(b, join(b, 'study.nwb'));
+    writeFileSync(join(b, 'study.nwb'), 'v2, edited');
+    expect(() => writeBundle(b, { tables: {}, methods: 'three', provenance: prov })).toThrow(/study\.nwb \(changed\)/);
   });
 
   it('a bundle of an earlier version (no marker, only bundle files, a fascicle provenance) is replaced; one with a stranger file is not', () => {
