@@ -62,13 +62,23 @@ export function tableHtml(
   return `<div class="fascicle-table" style="max-height:420px;overflow:auto"><table${sort} style="border-collapse:collapse;font:12px sans-serif">${cap}<thead><tr>${th}</tr></thead><tbody>${body}</tbody></table>${more}</div>${script}`;
 }
 
-/** Plain-text table for terminals. */
-export function tableText(rows: readonly object[], opts: { columns?: string[]; maxRows?: number } = {}): string {
+/** Columns whose text says which row is which (key=value labels): shown up to 80 characters, not cut at 24. */
+const LABEL_COLUMNS = new Set(['group', 'condition', 'preparation']);
+
+/**
+ * Plain-text table for terminals. Cells are cut at 24 characters (`widths` per column overrides it), except the
+ * label columns (`group`, `condition`, `preparation`: 80), so rows that differ only in a condition stay apart.
+ */
+export function tableText(
+  rows: readonly object[],
+  opts: { columns?: string[]; maxRows?: number; widths?: Record<string, number> } = {},
+): string {
   const cols = opts.columns ?? [...new Set(rows.flatMap((r) => Object.keys(r)))];
   const shown = rows.slice(0, opts.maxRows ?? 30);
   const cells = [cols, ...shown.map((r) => cols.map((c) => formatCell((r as Record<string, unknown>)[c])))];
-  const w = cols.map((_, j) => Math.min(24, Math.max(...cells.map((r) => r[j].length))));
-  const line = (r: string[]) => r.map((c, j) => c.slice(0, 24).padEnd(w[j])).join('  ');
+  const limit = cols.map((c) => opts.widths?.[c] ?? (LABEL_COLUMNS.has(c) ? 80 : 24));
+  const w = cols.map((_, j) => Math.min(limit[j], Math.max(...cells.map((r) => r[j].length))));
+  const line = (r: string[]) => r.map((c, j) => c.slice(0, limit[j]).padEnd(w[j])).join('  ');
   const more = rows.length > shown.length ? `\n... ${rows.length - shown.length} more rows` : '';
   return cells.map(line).join('\n') + more;
 }
