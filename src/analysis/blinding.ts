@@ -325,9 +325,14 @@ function mixedOptions(m: MixedModelResult, condition: string, map: Map<string, s
   return { value, fixed, random, interaction, by, ...(lv ? { levels: lv } : {}) };
 }
 
-function regroup(g: GroupComparison, deep: (x: unknown) => unknown, step: Step) {
+function regroup(g: GroupComparison, deep: (x: unknown) => unknown, step: Step, c: string, map: Map<string, string>) {
   if (!g.input) return deep(g) as GroupComparison; // made without its rows: labels replaced in place
   const o = g.options;
+  // a comparison ordered by coded levels keeps that order under the real labels
+  const given = Object.entries(o.levels ?? {});
+  const levels = Object.fromEntries(
+    given.map(([f, v]) => [f, f === c ? v.map((q) => (map.has(String(q)) ? map.get(String(q))! : q)) : v]),
+  );
   const opts = {
     value: o.value,
     ...(o.group ? { group: o.group } : {}),
@@ -335,6 +340,7 @@ function regroup(g: GroupComparison, deep: (x: unknown) => unknown, step: Step) 
     ...(o.condition ? { condition: o.condition } : {}),
     by: [...o.by],
     unit: o.unit,
+    ...(given.length ? { levels } : {}),
   };
   return compareGroups(deep(g.input) as Row[], opts, [...g.history.slice(0, -1), step], g.sources);
 }
@@ -350,7 +356,7 @@ function applyKey(x: Unblindable, condition: string, map: Map<string, string>, s
     const s = deep(x) as SweepSet;
     return s.create({ history: [...x.history, step] });
   }
-  if (x instanceof GroupComparison) return regroup(x, deep, step);
+  if (x instanceof GroupComparison) return regroup(x, deep, step, condition, map);
   if (x instanceof MixedModelResult) return refit(x, deep, step, condition, map);
   if (Array.isArray(x)) {
     const out = deep(x) as object[];
@@ -362,7 +368,7 @@ function applyKey(x: Unblindable, condition: string, map: Map<string, string>, s
     );
   }
   if (isStudyResult(x)) {
-    const groups = x.groups ? regroup(x.groups, deep, step) : null;
+    const groups = x.groups ? regroup(x.groups, deep, step, condition, map) : null;
     const mixed = x.mixed ? refit(x.mixed, deep, step, condition, map) : null;
     const rest = deep({ ...x, groups: null, mixed: null }) as StudyResult;
     const flags = (rest.flags as Flag[]).filter((f) => f.analysis !== 'groups' && f.analysis !== 'mixed');
@@ -371,7 +377,7 @@ function applyKey(x: Unblindable, condition: string, map: Map<string, string>, s
     return { ...rest, groups, mixed, flags, history: [...x.history, step] };
   }
   if (isStudy(x)) {
-    const groups = x.groups ? regroup(x.groups, deep, step) : null;
+    const groups = x.groups ? regroup(x.groups, deep, step, condition, map) : null;
     const mixed = x.mixed ? refit(x.mixed, deep, step, condition, map) : null;
     const rest = deep({ ...x, groups: null, mixed: null }) as Study;
     const tables = { ...rest.tables } as Record<string, Row[]>;

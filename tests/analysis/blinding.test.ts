@@ -107,6 +107,14 @@ describe('unblind(result, key) gives what the analysis of openly labelled rows g
     expect(coded.tests.some((t) => String(t.comparison).includes('K1'))).toBe(true); // the input result unchanged
     expect(u.history.map((h) => h.verb).slice(-2)).toEqual(['unblind', 'compareGroups']);
   });
+  it('group comparison ordered by coded levels keeps that order under the real labels', () => {
+    const o = { value: 'velocity_m_s', group: 'group', animal: 'preparation', condition: 'epoch' };
+    const coded = compareGroups(frozen as never, { ...o, levels: { group: ['K1', 'K2'] } });
+    const real = compareGroups(rowsReal, { ...o, levels: { group: ['treated', 'control'] } });
+    const u = unblind(coded, realOf);
+    expect(u.tests).toEqual(real.tests);
+    expect(u.tests.some((t) => String(t.comparison) === 'treated vs control')).toBe(true); // given order, not first seen
+  });
   it('mixed model with coded levels (the reference level follows the key)', () => {
     const o = { value: 'velocity_m_s', fixed: ['group', 'epoch'], random: 'preparation' };
     const coded = mixedModel(frozen as never, { ...o, levels: { group: ['K2', 'K1'] } });
