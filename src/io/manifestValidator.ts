@@ -151,7 +151,7 @@ const schema11 = {
         },
         recruitment: {
           description: 'Recruitment curves.',
-          properties: { measure: {}, by: {}, supramaximalFactor: {}, minLevels: {} },
+          properties: { measure: {}, by: {}, supramaximalFactor: {}, minLevels: {}, belowDetection: {} },
         },
         strengthDuration: {
           description: 'Strength-duration (Weiss and Lapicque) fits.',
