@@ -16,6 +16,20 @@
  * The module: f(n) for float32, g(n) for float64 values in bytes [0, n) of its memory m (n a
  * multiple of 64): 1 when any value has all its exponent bits set, else 0.
  */
+/** Unsigned LEB128 encoding of n (WebAssembly's integer format). */
+function leb(n: number): number[] {
+  const out: number[] = [];
+  do {
+    let b = n & 0x7f;
+    n >>>= 7;
+    if (n) b |= 0x80;
+    out.push(b);
+  } while (n);
+  return out;
+}
+/** One WebAssembly module section: its id, its byte length, its bytes. */
+const section = (id: number, bytes: number[]) => [id, ...leb(bytes.length), ...bytes];
+
 function moduleBytes(): Uint8Array {
   const MASK32 = [0x00, 0x00, 0x80, 0x7f, 0x00, 0x00, 0x80, 0x7f, 0x00, 0x00, 0x80, 0x7f, 0x00, 0x00, 0x80, 0x7f];
   const MASK64 = [0x00, 0x00, 0x00, 0x00, 0x00, 0x00, 0xf0, 0x7f, 0x00, 0x00, 0x00, 0x00, 0x00, 0x00, 0xf0, 0x7f];
@@ -41,17 +55,6 @@ function moduleBytes(): Uint8Array {
     ...[0x0c, 0x00, 0x0b, 0x0b], // br 0, end loop, end block
     ...[0x20, 0x02, 0xfd, 0x53, 0x0b], // v128.any_true acc, end
   ];
-  const leb = (n: number) => {
-    const out: number[] = [];
-    do {
-      let b = n & 0x7f;
-      n >>>= 7;
-      if (n) b |= 0x80;
-      out.push(b);
-    } while (n);
-    return out;
-  };
-  const section = (id: number, bytes: number[]) => [id, ...leb(bytes.length), ...bytes];
   const f = body(MASK32, EQ32),
     g = body(MASK64, EQ64);
   return new Uint8Array([
@@ -160,17 +163,6 @@ function inPlaceBytes(shared: boolean): Uint8Array {
     ...[0x0c, 0x00, 0x0b, 0x0b], // br 0, end loop, end block
     ...[0x20, 0x02, 0xfd, 0x53, 0x0b], // v128.any_true acc, end
   ];
-  const leb = (n: number) => {
-    const out: number[] = [];
-    do {
-      let b = n & 0x7f;
-      n >>>= 7;
-      if (n) b |= 0x80;
-      out.push(b);
-    } while (n);
-    return out;
-  };
-  const section = (id: number, bytes: number[]) => [id, ...leb(bytes.length), ...bytes];
   // memory limits: shared memories must declare a maximum (here the largest, 65,536 pages = 4 GB)
   const limits = shared ? [0x03, 0x01, ...leb(65536)] : [0x00, 0x01];
   return new Uint8Array([
