@@ -12,10 +12,6 @@
  * format, section 5; SIMD opcodes 0xfd xx): no build step and no file to load.
  */
 
-/**
- * The module: f(n) for float32, g(n) for float64 values in bytes [0, n) of its memory m (n a
- * multiple of 64): 1 when any value has all its exponent bits set, else 0.
- */
 /** Unsigned LEB128 encoding of n (WebAssembly's integer format). */
 function leb(n: number): number[] {
   const out: number[] = [];
@@ -30,6 +26,10 @@ function leb(n: number): number[] {
 /** One WebAssembly module section: its id, its byte length, its bytes. */
 const section = (id: number, bytes: number[]) => [id, ...leb(bytes.length), ...bytes];
 
+/**
+ * The module: f(n) for float32, g(n) for float64 values in bytes [0, n) of its memory m (n a
+ * multiple of 64): 1 when any value has all its exponent bits set, else 0.
+ */
 function moduleBytes(): Uint8Array {
   const MASK32 = [0x00, 0x00, 0x80, 0x7f, 0x00, 0x00, 0x80, 0x7f, 0x00, 0x00, 0x80, 0x7f, 0x00, 0x00, 0x80, 0x7f];
   const MASK64 = [0x00, 0x00, 0x00, 0x00, 0x00, 0x00, 0xf0, 0x7f, 0x00, 0x00, 0x00, 0x00, 0x00, 0x00, 0xf0, 0x7f];
