@@ -685,10 +685,21 @@ export function measureComponents(
   // the artifact's decay after rail clipping: its time constant is estimated at the farthest site of each group
   // (decomposeBy), where the compound response arrives last and disturbs the estimate least, and used at every site
   const groupOf = (s: number) => decomposeBy.map((c) => String(set.conditions[s][c] ?? '')).join('|');
-  // the amplifier's rails: the extremes over every sweep (a sweep that clips sits on one of them)
+  // a sweep whose noise (in the noise window, as recorded) is more than ten times the set's median noise (a glitch,
+  // a spike spread by a filter, a loose lead) is measured on its own but takes no part in what the sweeps share (the
+  // amplifier's rails, polarity, the blocked reference, the decomposition's shared waveform, the shared amplitude
+  // shape): one wild sweep must not decide them for the others (common practice, no source)
+  const rawNoise = Array.from({ length: set.nSweeps }, (_, s) => noiseMad(set.sweep(s), na, nb));
+  const noiseMedian = (() => {
+    const v = rawNoise.filter((x) => Number.isFinite(x) && x > 0).sort((a, b) => a - b);
+    return v.length ? v[Math.floor(v.length / 2)] : NaN;
+  })();
+  const wild = (s: number) => Number.isFinite(noiseMedian) && !(rawNoise[s] <= 10 * noiseMedian);
+  const tame = (list: number[]) => (list.some((s) => !wild(s)) ? list.filter((s) => !wild(s)) : list);
+  // the amplifier's rails: the extremes over every sweep but the wild ones (a sweep that clips sits on one of them)
   let railLo = Infinity,
     railHi = -Infinity;
-  for (let s = 0; s < set.nSweeps; s++) {
+  for (const s of tame(Array.from({ length: set.nSweeps }, (_, i) => i))) {
     const x = set.sweep(s);
     for (let i = 0; i < x.length; i++) {
       if (x[i] < railLo) railLo = x[i];
@@ -830,7 +841,8 @@ export function measureComponents(
     const bySite = new Map<string, number[]>();
     for (let s = 0; s < set.nSweeps; s++)
       (bySite.get(siteKey(s)) ?? bySite.set(siteKey(s), []).get(siteKey(s))!).push(s);
-    for (const members of bySite.values()) {
+    for (const all of bySite.values()) {
+      const members = tame(all);
       const top = Math.max(...members.map((s) => intensityOf(s) ?? -Infinity));
       const atTop = members.filter((s) => (intensityOf(s) ?? -Infinity) === top);
       const unblocked = atTop.filter((s) => concOf(s) === 0);
@@ -974,7 +986,7 @@ export function measureComponents(
           excluded: (i, x) => i < trustAt.get(x)!,
           sSupportMs: [lead, Math.min(400, Math.max(20, nearLen)) * dt],
         };
-        const traces = members.map((s) => ({ y: info[s].x, distanceMm: info[s].L, referenceMm: refOf(s) }));
+        const traces = tame(members).map((s) => ({ y: info[s].x, distanceMm: info[s].L, referenceMm: refOf(s) }));
         const shape = fitSharedShape(traces, grid, { iterations: 60 });
         const key = `${gk}#${chain.join(',')}`;
         if (!shape) continue;
@@ -1415,7 +1427,8 @@ export function measureComponents(
       'centroid_velocity_m_s',
     ];
     for (const g of byEvent.values()) {
-      const missing = g.filter((r) => r.status === 'not detected');
+      // a wild sweep's miss says nothing about the class (its noise hides it)
+      const missing = g.filter((r) => r.status === 'not detected' && !wild(r.sweep));
       if (new Set(g.map((r) => r.distance_mm)).size < 2 || !missing.length) continue;
       for (const r of g) {
         const m = margins.get(r);
@@ -1435,7 +1448,15 @@ export function measureComponents(
       }
     }
   }
-  fittedAmplitudes(rows, measures, classes, polarities, (s) => `${groupKey(s)}|${info[s].L}|${refOf(s) ?? ''}`, u);
+  fittedAmplitudes(
+    rows,
+    measures,
+    classes,
+    polarities,
+    (s) => `${groupKey(s)}|${info[s].L}|${refOf(s) ?? ''}`,
+    u,
+    wild,
+  );
   // rows in sweep order, then class order
   const order = new Map(classes.map((c, i) => [c.name, i]));
   rows.sort((r1, r2) => r1.sweep - r2.sweep || order.get(r1.class)! - order.get(r2.class)!);
@@ -1485,6 +1506,7 @@ function fittedAmplitudes(
   polarities: Record<string, 1 | -1>,
   siteKey: (s: number) => string,
   units: string,
+  wild: (s: number) => boolean = () => false,
 ): void {
   const col = `amplitude_fit_${units}`,
     seCol = `amplitude_fit_se_${units}`;
@@ -1505,7 +1527,10 @@ function fittedAmplitudes(
     const measured = g.filter((r) => r.status === 'measured' && comp(r)?.component);
     // every row with a component of its own is projected (a small blocked response that fails detection still has
     // an unbiased least-squares amplitude); the reference is made of measured rows only
-    const projectable = g.filter((r) => (r.status === 'measured' || r.status === 'not detected') && comp(r)?.component);
+    // (a wild sweep, noise ten times the set's median, is left out: it would set the shared shape for the others)
+    const projectable = g.filter(
+      (r) => (r.status === 'measured' || r.status === 'not detected') && comp(r)?.component && !wild(r.sweep),
+    );
     const unblocked = measured.filter((r) => !(typeof r.concentration === 'number' && r.concentration > 0));
     const top = Math.max(...unblocked.map((r) => (typeof r.intensity === 'number' ? r.intensity : -Infinity)));
     const ref = unblocked.filter((r) => (typeof r.intensity === 'number' ? r.intensity : -Infinity) === top);
