@@ -6,6 +6,7 @@
  */
 import { describe, it, expect } from 'vitest';
 import { SweepSet } from '../../src';
+import { Rng } from '../../src/model/random';
 import { load } from './devsetFixture';
 import type { ComponentRow } from '../../src/measure/components';
 
@@ -14,17 +15,9 @@ function recorded30(wildNoiseUv: number): SweepSet {
   const n = s.nSamples;
   const keep = s.traces.map((t, i) => (t.temperature_C === 30 ? i : -1)).filter((i) => i >= 0);
   const out = new Float64Array(keep.length * n);
-  let seed = 12345;
-  const gauss = () => {
-    // Box-Muller on a small LCG (deterministic)
-    seed = (seed * 1103515245 + 12345) % 2147483648;
-    const u = (seed + 1) / 2147483649;
-    seed = (seed * 1103515245 + 12345) % 2147483648;
-    const v = (seed + 1) / 2147483649;
-    return Math.sqrt(-2 * Math.log(u)) * Math.cos(2 * Math.PI * v);
-  };
+  const rng = new Rng(12345);
   keep.forEach((i, r) => {
-    for (let j = 0; j < n; j++) out[r * n + j] = data[i * n + j] + (r === 0 ? wildNoiseUv * gauss() : 0);
+    for (let j = 0; j < n; j++) out[r * n + j] = data[i * n + j] + (r === 0 ? wildNoiseUv * rng.normal() : 0);
   });
   return new SweepSet({
     data: out,
