@@ -311,28 +311,27 @@ export function unblindPipelineOptions<T extends { mixed?: { levels?: Record<str
   return { ...o, mixed: { ...o.mixed, levels: { ...o.mixed!.levels, [condition]: mapped } } };
 }
 
+/** Levels of `condition` given as codes, replaced by their real labels (other factors' levels kept). */
+function realLevels<V>(levels: Record<string, V[]>, condition: string, map: Map<string, string>) {
+  return Object.fromEntries(
+    Object.entries(levels).map(([f, v]) => [
+      f,
+      f === condition ? v.map((q) => (map.has(String(q)) ? map.get(String(q))! : q)) : v,
+    ]),
+  );
+}
+
 /** The mixed model's options with coded levels replaced. */
 function mixedOptions(m: MixedModelResult, condition: string, map: Map<string, string>) {
   const { value, fixed, random, interaction, by, levels } = m.options;
-  const lv = levels
-    ? Object.fromEntries(
-        Object.entries(levels).map(([f, v]) => [
-          f,
-          f === condition ? v.map((q) => (map.has(String(q)) ? map.get(String(q))! : q)) : v,
-        ]),
-      )
-    : undefined;
-  return { value, fixed, random, interaction, by, ...(lv ? { levels: lv } : {}) };
+  return { value, fixed, random, interaction, by, ...(levels ? { levels: realLevels(levels, condition, map) } : {}) };
 }
 
 function regroup(g: GroupComparison, deep: (x: unknown) => unknown, step: Step, c: string, map: Map<string, string>) {
   if (!g.input) return deep(g) as GroupComparison; // made without its rows: labels replaced in place
   const o = g.options;
   // a comparison ordered by coded levels keeps that order under the real labels
-  const given = Object.entries(o.levels ?? {});
-  const levels = Object.fromEntries(
-    given.map(([f, v]) => [f, f === c ? v.map((q) => (map.has(String(q)) ? map.get(String(q))! : q)) : v]),
-  );
+  const given = Object.keys(o.levels ?? {}).length > 0;
   const opts = {
     value: o.value,
     ...(o.group ? { group: o.group } : {}),
@@ -340,7 +339,7 @@ function regroup(g: GroupComparison, deep: (x: unknown) => unknown, step: Step, 
     ...(o.condition ? { condition: o.condition } : {}),
     by: [...o.by],
     unit: o.unit,
-    ...(given.length ? { levels } : {}),
+    ...(given ? { levels: realLevels(o.levels, c, map) } : {}),
   };
   return compareGroups(deep(g.input) as Row[], opts, [...g.history.slice(0, -1), step], g.sources);
 }
