@@ -143,3 +143,60 @@ export function checkKeys(place: string, obj: unknown, allowed: readonly string[
     }
   }
 }
+
+/**
+ * Condition keys fascicle reads (README "Known conditions", the schema's condition properties, and the keys the
+ * paired-pulse, train and bipolar analyses look for). Any other key is a user column, unless it looks like a typo of
+ * one of these (see conditionKeyTypo).
+ */
+export const KNOWN_CONDITIONS = [
+  'preparation',
+  'preparationType',
+  'intensity',
+  'intensityUnit',
+  'pulseWidthMs',
+  'site',
+  'distanceMm',
+  'referenceDistanceMm',
+  'drug',
+  'concentration',
+  'concentrationUnit',
+  'temperatureC',
+  'acquiredS',
+  'repeat',
+  'polarity',
+  'epoch',
+  'series',
+  'pulsePair',
+  'intervalMs',
+  'trainHz',
+  'trainPulses',
+  'pulsesMs',
+] as const;
+
+const squash = (k: string) => k.toLowerCase().replace(/[^a-z0-9]/g, '');
+/**
+ * The known condition a user key is most likely a typo of, or null: the same letters in another case or with
+ * separators ("temperature_C", "DistanceMM"), a known key without its unit ("temperature", "distance",
+ * "pulseWidth") or within two edits of one ("temperatureCC", "concentraton"; keys of 6 letters or more).
+ * A key that is exactly known, or far from every known key, is not a typo.
+ */
+export function conditionKeyTypo(key: string): string | null {
+  if ((KNOWN_CONDITIONS as readonly string[]).includes(key)) return null;
+  const k = squash(key);
+  for (const known of KNOWN_CONDITIONS) {
+    const q = squash(known);
+    if (k === q) return known;
+    const unit = q.replace(/(mm|ms|hz|c|s)$/, '');
+    if (unit !== q && unit.length >= 6 && k === unit) return known;
+  }
+  if (k.length < 6) return null;
+  let best: string | null = null,
+    bestD = 3;
+  for (const known of KNOWN_CONDITIONS) {
+    if (known.length < 6) continue;
+    const d = editDistance(k, squash(known));
+    if (d < bestD) [best, bestD] = [known, d];
+  }
+  return best;
+}

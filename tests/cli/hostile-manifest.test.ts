@@ -10,6 +10,7 @@ import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { readManifest, conditionKeyTypo } from '../../src/io/manifest';
 import { ConfigError, InputError } from '../../src/errors';
+import * as validate from '../../src/validate';
 
 const root = join(__dirname, '..', '..');
 const cliPath = join(root, 'dist', 'cli', 'main.js');
@@ -60,6 +61,11 @@ describe('a condition key that looks like a known one is a typo, not a user colu
     for (const k of ['group', 'animal', 'label', 'condition', 'sex', 'cohort', 'genotype', 'rig', 'side', 'note'])
       expect([k, conditionKeyTypo(k)]).toEqual([k, null]);
     for (const k of ['temperatureC', 'distanceMm', 'series', 'epoch', 'site']) expect(conditionKeyTypo(k)).toBeNull();
+  });
+  it('lives in src/validate.ts (other loaders check their keys with it); the manifest module re-exports it', () => {
+    expect(conditionKeyTypo).toBe(validate.conditionKeyTypo);
+    expect(validate.conditionKeyTypo('temprature')).toBe('temperatureC');
+    expect(validate.KNOWN_CONDITIONS).toContain('distanceMm');
   });
   it('in file conditions, per-sweep entries and defaults: a ConfigError naming the field and the nearest key', () => {
     const a = thrown(() => readManifest(manifest({ files: [file({ temperatureCC: 37 })] })));
