@@ -14,7 +14,7 @@
  */
 import { dirname, resolve } from 'node:path';
 import { InputError, OptionError, ThreadError } from '../errors';
-import { conditionsProblem, nearest } from '../validate';
+import { conditionKeyTypo, conditionsProblem, nearest } from '../validate';
 import { checkedSweepSet, type SweepSet, type Conditions } from '../sweeps/SweepSet';
 import { parseSignalUnit } from '../sweeps/units';
 import { closeSync } from 'node:fs';
@@ -138,6 +138,17 @@ export function readBinary(sidecarPath: string, extra: { conditions?: Conditions
   const cond = (field: string, x: unknown) => {
     const problem = conditionsProblem(x);
     if (problem) bad(field, problem, 'an object of strings, finite numbers, booleans or null');
+    // a key that looks like a known condition (distanceMm written distance_mm) would leave that condition unseen
+    for (const k of Object.keys(x as object)) {
+      const near = conditionKeyTypo(k);
+      if (near)
+        bad(
+          `${field}/${k}`,
+          `unknown condition "${k}" (did you mean "${near}"?); it looks like the known condition "${near}", ` +
+            'whose value fascicle would then not see',
+          `"${near}", or another name for a column of your own`,
+        );
+    }
   };
   if (meta.conditions !== undefined) cond('conditions', meta.conditions);
   meta.sweeps?.forEach((c, i) => cond(`sweeps/${i}`, c));

@@ -241,6 +241,29 @@ describe('readManifest(path)', () => {
     writeFileSync(p, '{"data": "x.bin", "dtype": "float32", "nSweeps": 2, "nSamples": 2, "fs": 1e400, "units": "uV"}');
     expect(() => readBinary(p)).toThrow(/field fs: fs is Infinity/);
   });
+  it("a sidecar's own condition key that looks like a known one is refused, naming the sidecar, field and key", () => {
+    // the known keys and the typo rule are src/validate.ts KNOWN_CONDITIONS / conditionKeyTypo (the manifest's own)
+    const bytes = new Uint8Array(new Float32Array(4).buffer);
+    const meta = { dtype: 'float32', nSweeps: 2, nSamples: 2, fs: 1000, units: 'uV' };
+    const p1 = sidecar({ ...meta, conditions: { temperature_C: 37 } }, bytes);
+    expect(() => readBinary(p1)).toThrow(InputError);
+    expect(() => readBinary(p1)).toThrow(
+      new RegExp(
+        `${basename(p1)}.*field conditions/temperature_C: unknown condition "temperature_C" \\(did you mean "temperatureC"\\?\\)`,
+      ),
+    );
+    const p2 = sidecar({ ...meta, sweeps: [{ distanceMm: 20 }, { distance: 40 }] }, bytes);
+    expect(() => readBinary(p2)).toThrow(
+      /field sweeps\/1\/distance: unknown condition "distance" \(did you mean "distanceMm"\?\)/,
+    );
+    // exact known keys and columns of the user's own (far from every known key) load as before
+    const p3 = sidecar(
+      { ...meta, conditions: { temperatureC: 37, animalCode: 'r7' }, sweeps: [{ repeat: 0 }, { repeat: 1 }] },
+      bytes,
+    );
+    const s = readBinary(p3);
+    expect(s.conditions[1]).toMatchObject({ temperatureC: 37, animalCode: 'r7', repeat: 1 });
+  });
   it('refuses a folder given as a file, naming it', () => {
     const p = sidecar({ dtype: 'float32', nSweeps: 1, nSamples: 2, fs: 1000, units: 'uV' }, new Uint8Array(8));
     writeFileSync(p, JSON.stringify({ data: '.', dtype: 'float32', nSweeps: 1, nSamples: 2, fs: 1000, units: 'uV' }));
