@@ -206,6 +206,66 @@ function scipyPipeline(dir) {
 }
 
 /**
+ * SciPy's same stages and formulas on the samples widened to float64 first (scipy_pipeline.py's
+ * `process` on x.astype(float64)): its pipeline as written keeps float32 through baseline and
+ * blank (x - mean stays float32), fascicle computes in float64 from the baseline on, so this is
+ * the reference that tells arithmetic differences from float32 rounding. Features and fits in
+ * the format of --features-out; null where it fails.
+ */
+function scipyFloat64(dir) {
+  const code = `
+import sys, json
+sys.path.insert(0, ${JSON.stringify(BENCH)})
+import numpy as np, scipy_pipeline as P
+d = ${JSON.stringify(dir)}
+meta = P.load_meta(d)
+x = P.load_binary(d).astype(np.float64)
+cond = np.array([s["condition"] for s in meta["sweeps"]])
+_, feat, fits = P.process(x, P.time_axis(meta), cond, meta)
+print(json.dumps(dict(features=np.where(np.isnan(feat), None, feat).tolist(), hill=fits.tolist())))
+`;
+  const r = python(['-c', code]);
+  if (r.status !== 0) return null;
+  try {
+    return JSON.parse(r.stdout.trim().split('\n').pop());
+  } catch {
+    return null;
+  }
+}
+
+/**
+ * Worst differences of fascicle's features and IC50s from a SciPy run's: per feature relative
+ * to the value and relative to the feature's largest magnitude in the window (an area or a
+ * blocked peak near zero makes the first large without meaning much); IC50 as a ratio - 1.
+ */
+function agreement(last, ref) {
+  const names = ['peak', 'peak latency', 'onset', 'area'];
+  const worstBy = names.map(() => 0),
+    worstScaled = names.map(() => 0),
+    where = names.map(() => '');
+  const row = new Map(last.feat.conds.map((id, k) => [id, k]));
+  const scale = WINDOWS.map((_, w) =>
+    names.map((_, q) => Math.max(...ref.features.map((perW) => Math.abs(perW[w][q] ?? 0)))),
+  );
+  ref.features.forEach((perW, id) =>
+    perW.forEach((v, w) =>
+      v.slice(0, 4).forEach((x, q) => {
+        const y = last.feat.feat[row.get(id)][w][q];
+        if (x === null || !Number.isFinite(y)) return;
+        const rel = Math.abs(y - x) / Math.max(Math.abs(x), 1e-300);
+        if (rel > worstBy[q]) [worstBy[q], where[q]] = [rel, `condition ${id}, window ${WINDOWS[w][0]}: ${x}`];
+        worstScaled[q] = Math.max(worstScaled[q], Math.abs(y - x) / Math.max(scale[w][q], 1e-300));
+      }),
+    ),
+  );
+  const ic = ref.hill.map((h, w) => Math.abs(10 ** (last.fits[w][2] - h[2]) - 1));
+  return (
+    names.map((n, q) => `${n} ${worstBy[q].toExponential(1)}; ${worstScaled[q].toExponential(1)}`).join(', ') +
+    `; IC50 ${ic.map((x) => x.toExponential(1)).join(', ')}\n  (worst peak: ${where[0]})`
+  );
+}
+
+/**
  * The same SciPy stages timed in CPU time (time.process_time, median of 5 after a warm-up):
  * on a shared, loaded machine CPU time is far steadier than wall time, and both sides run
  * one thread here, so their ratio is the one-thread comparison. Imports scipy_pipeline.py.
@@ -384,32 +444,15 @@ export function runScipyComparison() {
       `per round, total: ${rec.scipy.map((t, r) => `SciPy ${t.total.toFixed(3)} / fascicle ${rec.all[r].total.toFixed(3)} (${T}T), ${rec.one[r].total.toFixed(3)} (1T)`).join('; ')}`,
     );
   if (sp) {
-    // agreement of the results: features and IC50s relative to SciPy's
-    // SciPy's pipeline keeps float32 through baseline and blank, fascicle computes in float64:
-    // differences of float32 rounding are expected. Per feature: the worst difference relative
-    // to the value, and relative to the feature's largest magnitude in the window (an area
-    // near zero makes the first large without meaning much)
-    const names = ['peak', 'peak latency', 'onset', 'area'];
-    const worstBy = names.map(() => 0),
-      worstScaled = names.map(() => 0);
-    const row = new Map(last.feat.conds.map((id, k) => [id, k]));
-    const scale = WINDOWS.map((_, w) =>
-      names.map((_, q) => Math.max(...sp.features.features.map((perW) => Math.abs(perW[w][q] ?? 0)))),
-    );
-    sp.features.features.forEach((perW, id) =>
-      perW.forEach((v, w) =>
-        v.slice(0, 4).forEach((x, q) => {
-          const y = last.feat.feat[row.get(id)][w][q];
-          if (x === null || !Number.isFinite(y)) return;
-          worstBy[q] = Math.max(worstBy[q], Math.abs(y - x) / Math.max(Math.abs(x), 1e-300));
-          worstScaled[q] = Math.max(worstScaled[q], Math.abs(y - x) / Math.max(scale[w][q], 1e-300));
-        }),
-      ),
-    );
-    const ic = sp.features.hill.map((h, w) => Math.abs(10 ** (last.fits[w][2] - h[2]) - 1));
+    // agreement of the results: features and IC50s relative to SciPy's. SciPy's pipeline as written keeps
+    // float32 through baseline and blank, fascicle computes in float64 from the baseline on: their difference is
+    // float32 rounding, largest relative to a blocked peak of a few uV. SciPy's same formulas on float64 samples
+    // tell whether any arithmetic step (accumulation, parabolic refinement, onset, trapezoid, fit) differs.
     console.log(
-      `agreement with SciPy (relative to the value; to the window's largest value): ${names.map((n, q) => `${n} ${worstBy[q].toExponential(1)}; ${worstScaled[q].toExponential(1)}`).join(', ')}; IC50 ${ic.map((x) => x.toExponential(1)).join(', ')}`,
+      `agreement with SciPy as written (relative to the value; to the window's largest value): ${agreement(last, sp.features)}`,
     );
+    const sp64 = scipyFloat64(dir);
+    if (sp64) console.log(`agreement with SciPy's formulas on float64 samples: ${agreement(last, sp64)}`);
   }
   if (scipyOk) loadEnvironments(dir, path);
 }
