@@ -299,6 +299,57 @@ describe('readNwb errors name the file, the place inside it and the problem', ()
     );
   });
 
+  it('a NaN or infinite sample: an InputError naming the file, the dataset and the sample, before any SweepSet', () => {
+    // a copy of the h5py fixture with one stored sample replaced through h5wasm (float32 1-D, 8 sweeps of 200)
+    for (const [name, value] of [
+      ['nan-sample.nwb', NaN],
+      ['inf-sample.nwb', -Infinity],
+    ] as const) {
+      const p = join(tmp, name);
+      copyFileSync(fx('precut.nwb'), p);
+      const f = new (h5().File)(p, 'a');
+      try {
+        (f.get('acquisition/cap_sweeps/data') as import('h5wasm').Dataset).write_slice(
+          [[1010, 1011]],
+          new Float32Array([value]),
+        );
+      } finally {
+        f.close();
+      }
+      let err: unknown;
+      try {
+        readNwbSync(p, { columns: { intensity: 'amp' } });
+      } catch (e) {
+        err = e;
+      }
+      expect(err).toBeInstanceOf(InputError); // not the SweepSet constructor's OptionError
+      expect(err).not.toBeInstanceOf(OptionError);
+      expectInputError(
+        () => readNwbSync(p, { columns: { intensity: 'amp' } }),
+        p,
+        '/acquisition/cap_sweeps/data',
+        new RegExp(`nan-sample|inf-sample`),
+      );
+      const msg = (err as Error).message;
+      expect(msg).toContain(p);
+      expect(msg).toContain('/acquisition/cap_sweeps/data');
+      expect(msg).toMatch(new RegExp(`a non-finite sample \\(${String(value)}\\) at sample 1010`));
+      expect((err as InputError).place.sweep).toBe(5); // the row whose window holds sample 1010 (200 per sweep)
+      // through a manifest the same error, exit 3 on the command line
+      const dir = mkdtempSync(join(tmp, 'nan-manifest-'));
+      copyFileSync(p, join(dir, 'rec.nwb'));
+      const mp = join(dir, 'manifest.json');
+      writeFileSync(
+        mp,
+        JSON.stringify({
+          fascicleManifest: 1,
+          files: [{ path: 'rec.nwb', options: { columns: { intensity: 'amp' } }, conditions: { preparation: 'M1' } }],
+        }),
+      );
+      expect(() => readManifest(mp)).toThrow(/rec\.nwb, sweep 5, field \/acquisition\/cap_sweeps\/data: a non-finite/);
+    }
+  });
+
   it('trials columns that do not map: a unit it does not know, words for a temperature, a mapping to a missing column', () => {
     const p = fx('bad_trials.nwb');
     expectInputError(() => readNwbSync(p), p, '/intervals/trials/pulse_width', /unit "fortnights"/);
