@@ -149,7 +149,7 @@ export interface VelocityDistributionOptions {
   drift?: 'offset' | 'linear' | 'quadratic';
   /**
    * time constants (ms) of decaying exponentials from the fit start modelled as artifact, per distance (default: with
-   * a detected fit start, 2 samples to the start's delay after the stimulus, in factors of 2; else none)
+   * a detected fit start, 2 fitted samples to the start's delay after the stimulus, in factors of 2; else none)
    */
   artifactTauMs?: number[];
   /**
@@ -445,6 +445,11 @@ export function methodsSentence(o: Record<string, unknown>): [string, string[]] 
     s +=
       ' Each distance was fitted from its first usable sample after the stimulus (after the pulse and any clipped ' +
       'or blanked samples), the artifact tail modelled as decaying exponentials from there.';
+  if ((o.fitStride as number) > 1)
+    s +=
+      ` The noise was correlated between neighbouring samples (lag-${o.fitStride} differences in the quiet window ` +
+      `correlated ${o.noiseDifferenceCorrelation}, as white noise's -0.5), so every ${ordinal(o.fitStride as number)} sample was ` +
+      'fitted: generalised cross-validation assumes independent errors.';
   s += ` Fibre numbers were taken as the amplitude per velocity divided by (v/${fmt(o.referenceVelocity as number)} m/s)^${p} (amplitude proportional to v^${p}).`;
   if ((o.bootstrap as number) > 0)
     s += ` 95% bands are percentiles of ${o.bootstrap} bootstrap resamples of sweeps within each distance (seed ${o.seed}), with the potential and the smoothness weight held fixed.`;
@@ -453,6 +458,7 @@ export function methodsSentence(o: Record<string, unknown>): [string, string[]] 
 }
 
 const fmt = (x: number) => String(Number(x.toPrecision(4)));
+const ordinal = (m: number) => `${m}${m === 1 ? 'st' : m === 2 ? 'nd' : m === 3 ? 'rd' : 'th'}`;
 const fmtW = (w: unknown) => (Array.isArray(w) ? `${fmt(w[0])} to ${fmt(w[1])} ms` : String(w));
 
 interface Prepared {
@@ -462,6 +468,50 @@ interface Prepared {
   notes: string[];
   /** fit start per distance, ms */
   starts: number[];
+  /** every stride-th sample is fitted (noiseStride), and the lag-stride correlation of the noise's differences */
+  stride: number;
+  strideCorrelation: number;
+}
+
+/**
+ * The row stride at which the recording's noise is uncorrelated, from the quiet window: the smallest lag m (1..8)
+ * at which the differences d_i = x_(i+m) - x_i are correlated with d_(i+m) as those of white noise are (-1/2, as
+ * r = (2 rho_m - 1 - rho_2m) / (2 (1 - rho_m)) for noise autocorrelation rho; differences leave out the hum and
+ * drift), within max(0.1, 4 / sqrt(pairs)). Noise that is band-limited below the sampling rate (a recording
+ * resampled up, or an anti-alias filter well below Nyquist) is correlated between neighbouring samples; generalised
+ * cross-validation assumes independent errors and picks too little smoothing under positively correlated noise
+ * (Opsomer, Wang & Yang 2001, Stat Sci 16:134-153), and the noise SD from neighbouring differences is too small.
+ * Fitting every m-th sample keeps rows whose noise is (nearly) independent. White noise gives m = 1: all samples.
+ * When no lag up to 8 qualifies, the least correlated one is returned (white: false).
+ */
+export function noiseStride(
+  sweeps: readonly Float64Array[],
+  na: number,
+  nb: number,
+): { stride: number; correlation: number; pairs: number; white: boolean } {
+  let best = { stride: 1, correlation: NaN, pairs: 0, white: true };
+  for (let m = 1; m <= 8; m++) {
+    let num = 0,
+      den = 0,
+      pairs = 0;
+    for (const x of sweeps) {
+      const n = nb - na + 1 - m;
+      if (n < 2 * m + 4) continue;
+      let mean = 0;
+      for (let i = 0; i < n; i++) mean += (x[na + i + m] - x[na + i]) / n;
+      const d = (i: number) => x[na + i + m] - x[na + i] - mean;
+      for (let i = 0; i < n; i++) den += d(i) ** 2;
+      for (let i = 0; i + m < n; i++) {
+        num += d(i) * d(i + m);
+        pairs++;
+      }
+    }
+    if (!(den > 0) || pairs < 16) return best;
+    const r = num / den;
+    if (r <= -0.5 + Math.max(0.1, 4 / Math.sqrt(pairs))) return { stride: m, correlation: r, pairs, white: true };
+    if (m === 1 || r < best.correlation) best = { stride: m, correlation: r, pairs, white: false };
+  }
+  return best;
 }
 
 function prepare(
@@ -504,6 +554,28 @@ function prepare(
   const blocks: Block[] = [];
   const perSweep: Float64Array[][] = [];
   const starts: number[] = [];
+  const na = Math.max(0, Math.ceil((nw[0] - set.t0Ms) / dt - 1e-9)),
+    nb = Math.min(n - 1, Math.floor((nw[1] - set.t0Ms) / dt + 1e-9));
+  // one stride for the recording (the same amplifier and sampling at every distance): the largest over distances
+  const strides = distances.map((d) =>
+    noiseStride(
+      byD.get(d)!.map((s) => set.sweep(s)),
+      na,
+      nb,
+    ),
+  );
+  const worst = strides.reduce((a, x) => (x.stride > a.stride ? x : a), strides[0]);
+  const stride = worst.stride;
+  if (!worst.white)
+    notes.push(
+      `the noise is correlated over more than 8 samples (quiet window ${fmtW(nw)}): every ${ordinal(stride)} sample is ` +
+        `fitted, where its differences are least correlated (${worst.correlation.toFixed(2)}; white noise -0.5)`,
+    );
+  else if (stride > 1)
+    notes.push(
+      `the noise is correlated between neighbouring samples (quiet window ${fmtW(nw)}): every ${ordinal(stride)} sample ` +
+        `is fitted (lag-${stride} differences correlated ${worst.correlation.toFixed(2)}, white noise -0.5)`,
+    );
   for (const d of distances) {
     const idx = byD.get(d)!;
     const start = startBy[String(d)] ?? (Number.isNaN(fit[0]) ? usableStartMs(set, idx) : fit[0]);
@@ -514,23 +586,23 @@ function prepare(
       throw new AnalysisError(
         `distance ${d} mm: the fit window ${fmtW([start, fit[1]])} holds ${Math.max(0, b - a + 1)} samples of the sweep (${fmt(set.t0Ms)} to ${fmt(set.timeAt(n - 1))} ms); need at least 11`,
       );
-    const t = new Float64Array(b - a + 1);
-    for (let i = a; i <= b; i++) t[i - a] = set.timeAt(i);
+    const rows = Math.floor((b - a) / stride) + 1;
+    const t = new Float64Array(rows);
+    for (let r = 0; r < rows; r++) t[r] = set.timeAt(a + r * stride);
     const mean = new Float64Array(n);
     for (const s of idx) {
       const x = set.sweep(s);
       for (let i = 0; i < n; i++) mean[i] += x[i] / idx.length;
     }
-    perSweep.push(idx.map((s) => set.sweep(s).slice(a, b + 1)));
-    // noise: MAD of first differences / sqrt 2 in the quiet window, median over sweeps, of the mean of the sweeps
-    const na = Math.max(0, Math.ceil((nw[0] - set.t0Ms) / dt - 1e-9)),
-      nb = Math.min(n - 1, Math.floor((nw[1] - set.t0Ms) / dt + 1e-9));
+    const pick = (x: Float64Array) => Float64Array.from({ length: rows }, (_, r) => x[a + r * stride]);
+    perSweep.push(idx.map((s) => pick(set.sweep(s))));
+    // noise: MAD of differences at the row stride / sqrt 2 in the quiet window, median over sweeps, of the mean
     let sigma = NaN;
-    if (nb - na >= 8) {
+    if (nb - na >= 8 * stride) {
       const per = idx
         .map((s) => {
           const x = set.sweep(s);
-          const df = Array.from({ length: nb - na }, (_, i) => Math.abs(x[na + i + 1] - x[na + i]));
+          const df = Array.from({ length: nb - na + 1 - stride }, (_, i) => Math.abs(x[na + i + stride] - x[na + i]));
           df.sort((p, q) => p - q);
           return (1.4826 * df[Math.floor(df.length / 2)]) / Math.SQRT2;
         })
@@ -540,7 +612,7 @@ function prepare(
     blocks.push({
       distanceMm: d,
       t,
-      y: mean.slice(a, b + 1),
+      y: pick(mean),
       sigma,
       full: needFull ? { t0Ms: set.t0Ms, dtMs: dt, y: mean, startMs: start } : undefined,
     });
@@ -549,7 +621,7 @@ function prepare(
     notes.push(`no quiet window ${fmtW(nw)} with 9 or more samples at every distance: rows are not weighted by noise`);
     for (const bl of blocks) bl.sigma = 1;
   }
-  return { blocks, perSweep, distances, notes, starts };
+  return { blocks, perSweep, distances, notes, starts, stride, strideCorrelation: worst.correlation };
 }
 
 function validate(o: VelocityDistributionOptions): void {
@@ -785,17 +857,21 @@ export function velocityDistribution(
   const seed = options.seed ?? D.seed;
   const prep = prepare(set, fit, options.fitStartByDistance ?? {}, options.noiseWindow, method === 'two-distance');
   const { blocks, distances, notes, starts } = prep;
+  // the fitted rows' spacing (every stride-th sample when the noise is correlated between neighbours, noiseStride)
+  const rowDt = prep.stride * set.dtMs;
   if (autoStart) fit[0] = Math.min(...starts);
   // artifact: decays from the fit start; by default (detected start only) time constants from two samples to the
   // time from the stimulus to that distance's fit start, in factors of 2, free at each distance. A longer free decay
   // spans the rise of the earliest fibre waves at the nearest distance (the grid's fastest velocity arrives there at
   // the fit start) and trades with them (a longer tail is left to the drift terms). Diagnosis (notes/vdist-api.md):
   // with decays to twice the start, a 0.32 ms decay moved the devset's A-alpha/beta +8% (median) and, with 4 sweeps
-  // per distance, its A-delta -60%; to the start, both within 3%, also with a longer or a biphasic artifact
+  // per distance, its A-delta -60%; to the start, both within 3%, also with a longer or a biphasic artifact. The
+  // shortest is two FITTED rows (rowDt): with every 2nd sample fitted (100 kHz, noiseStride) a decay over one row is
+  // a free value of the first row, and it traded with the fastest bins (A-alpha/beta amplitude x5)
   const tausBy = starts.map((st) => {
     if (options.artifactTauMs) return options.artifactTauMs;
     const out: number[] = [];
-    if (autoStart) for (let tau = 2 * set.dtMs; tau <= st + 1e-12; tau *= 2) out.push(tau);
+    if (autoStart) for (let tau = 2 * rowDt; tau <= st + 1e-12; tau *= 2) out.push(tau);
     return out;
   });
   const taus = [...new Set(tausBy.flat())].sort((a, b) => a - b);
@@ -838,7 +914,7 @@ export function velocityDistribution(
   const nRows = blocks.reduce((s, b) => s + b.t.length, 0);
   let b = dataVector(blocks, bases);
   const R = secondDifferencePenalty(K);
-  const h = Math.max(set.dtMs, (sw[1] - sw[0]) / 200);
+  const h = Math.max(rowDt, (sw[1] - sw[0]) / 200);
   const J = Math.floor((sw[1] - sw[0]) / h) + 1;
   const smoothingOpt = options.sfpSmoothing ?? D.sfpSmoothing;
   const sfpSmoothingGcv = smoothingOpt === 'gcv';
@@ -1388,6 +1464,8 @@ export function velocityDistribution(
       ),
       fitStartMs: Object.fromEntries(distances.map((d, i) => [`${fmt(d)} mm`, Number(starts[i].toPrecision(6))])),
       fitStart: autoStart ? 'detected' : 'given',
+      fitStride: prep.stride,
+      noiseDifferenceCorrelation: Number(prep.strideCorrelation.toPrecision(3)),
       amplitudeExponent: p,
       durationExponent: q,
       referenceVelocity: vRef,
