@@ -11,8 +11,12 @@
  * - per table (its TableSpec's `columns`): unit-less numeric columns get their unit, from the row: `{I}` the row's
  *   intensityUnit, `{C}` its concentrationUnit, `{R}` the unit of the response measured (amplitude: the signal
  *   unit; area: unit_ms). A row without the unit keeps the plain name with `_unit` to say so.
- * - label columns (its TableSpec's `labels`, e.g. sweep_qc's `condition`, "temperatureC=37, distanceMm=20"): each
- *   `key=` of a renamed condition takes the column name ("temperature_C=37, distance_mm=20").
+ * - label columns (its TableSpec's `labels`: sweep_qc's and sweeps_removed's `condition`, velocity's `group`;
+ *   "temperatureC=37, distanceMm=20" in the API): each `key=` of a renamed condition takes the column name
+ *   ("temperature_C=37, distance_mm=20"), so a label names a condition as its own column does, with the unit last.
+ *   The text stays "key=value, key=value" (split at ", " and the first "="; an empty value is an empty condition),
+ *   so a spreadsheet or script can take it apart (values as in the JSON table, not rounded as CSV numbers are).
+ *   Flags word the same groups for reading ("37 °C, concentration 0": registry/velocity.ts `groupWords`).
  * Dimensionless numeric columns (counts, ratios, fractions, Hill slopes, Q10, p values, R2) carry no unit.
  */
 import type { Row } from './types';

@@ -54,8 +54,9 @@ export function velocityOf(t: ComponentTable, by: string[] = velocityBy(t.set)):
 
 // the latency definition is named when the value itself was rejected (not-detected rows share one flag)
 /**
- * A velocity group ("preparation=R1, temperatureC=37, concentration=0, drug=, epoch=") in words for a flag's `where`:
- * "37 °C, concentration 0" (the preparation has its own column; empty conditions are left out).
+ * A velocity group ("preparation=R1, temperatureC=37, concentration=0, drug=, epoch=", or in a bundle
+ * "temperature_C=37") in words for a flag's `where`: "37 °C, concentration 0" (the preparation has its own column;
+ * empty conditions are left out).
  */
 export function groupWords(group: unknown): string | null {
   if (typeof group !== 'string' || !group) return null;
@@ -63,7 +64,8 @@ export function groupWords(group: unknown): string | null {
   for (const m of group.matchAll(/([A-Za-z_][\w]*)=([^,]*)(?:, |$)/g)) {
     const [k, v] = [m[1], m[2].trim()];
     if (!v || k === 'preparation') continue;
-    words.push(k === 'temperatureC' ? `${v} °C` : k === 'distanceMm' ? `${v} mm` : `${k} ${v}`);
+    const deg = k === 'temperatureC' || k === 'temperature_C';
+    words.push(deg ? `${v} °C` : k === 'distanceMm' || k === 'distance_mm' ? `${v} mm` : `${k} ${v}`);
   }
   return words.length ? words.join(', ') : null;
 }
@@ -153,7 +155,7 @@ export const velocity: AnalysisEntry<VelocityResult> = {
     const options = { recommended: JSON.parse(JSON.stringify(RECOMMENDED_VELOCITY)) };
     return { steps: [{ verb: 'velocity', options, version: VERSION }] };
   },
-  tables: [{ name: 'velocity', title: 'Conduction velocity', always: true }],
+  tables: [{ name: 'velocity', title: 'Conduction velocity', always: true, labels: ['group'] }],
   figures: [
     {
       rank: 20,

@@ -197,6 +197,28 @@ describe('analysis registry', () => {
     }
   });
 
+  it('a label naming conditions as key=value names them as the bundle columns do (velocity group, sweep QC)', () => {
+    // in the API the keys are the manifest's (temperatureC=37); in the bundle every key= in any text cell is the
+    // condition's column name (temperature_C=37), the same text the bundle's own condition column has
+    const t = bundleTables(everything);
+    const apiKey = new RegExp(`(^|, )(${Object.keys(CONDITION_COLUMNS).join('|')})=`);
+    const left: string[] = [];
+    for (const [name, rows] of Object.entries(t))
+      for (const r of rows)
+        for (const [c, v] of Object.entries(r)) if (typeof v === 'string' && apiKey.test(v)) left.push(`${name}.${c}`);
+    expect([...new Set(left)], 'text cells with API condition keys').toEqual([]);
+    const v = t.velocity.find((r) => typeof r.group === 'string' && /temperature_C=/.test(r.group as string))!;
+    expect(v, 'a velocity row whose group names the temperature').toBeTruthy();
+    // the label's value of each key is that row's own condition column
+    for (const part of (v.group as string).split(', ')) {
+      const [k, val] = [part.slice(0, part.indexOf('=')), part.slice(part.indexOf('=') + 1)];
+      expect([k, val]).toEqual([k, v[k] === null || v[k] === undefined ? '' : String(v[k])]);
+    }
+    // API rows keep the API keys (a notebook's velocity().show())
+    const own = everything.tables.velocity as unknown as Record<string, unknown>[];
+    expect(own.some((r) => /(^|, )temperatureC=/.test(String(r.group)))).toBe(true);
+  });
+
   it('bundle columns: one style (snake_case, unit last), a unit on every numeric column that has one', () => {
     const t = bundleTables(everything);
     const unitless = new Set<string>();

@@ -89,6 +89,8 @@ describe("a velocity flag's where", () => {
       '37 °C, concentration 0',
     );
     expect(groupWords('preparation=R1, drug=TTX, epoch=washout')).toBe('drug TTX, epoch washout');
+    // the bundle's label (bundle column names) reads the same
+    expect(groupWords('preparation=R1, temperature_C=37, distance_mm=20, drug=')).toBe('37 °C, 20 mm');
     expect(groupWords('preparation=R1')).toBeNull();
     expect(groupWords(undefined)).toBeNull();
   });
