@@ -24,18 +24,23 @@
  *   its conduction time);
  * - outside the class's own velocity range at that temperature (two-site and regression rows; a
  *   single-site velocity is biased low by the utilisation time): kept, status "outside class range"
- *   (the wave may belong to another class, or the preset may not fit this nerve).
+ *   (the wave may belong to another class, or the preset may not fit this nerve);
+ * - a two-site onset, half-rise or peak velocity whose 95% CI reaches outside the class's own range: kept, status
+ *   "imprecise" (the latency is not determined well enough at these sites: a flat top, a slow rise beside the noise
+ *   or the decomposition's misfit). Its CI comes from the sweeps' spread and from each latency's own precision
+ *   (latencyPrecision: the span of a peak within the noise of its maximum, the crossing time's error propagated
+ *   from the noise), so one pair of averaged sweeps still gets an interval.
  * Conduction velocity in m/s equals mm/ms. Formulas: common practice, no source.
  */
 import type { SweepSet, ConditionValue } from '../sweeps/SweepSet';
 import { summarize, linearFit } from './stats';
 import { tQuantile } from '../fit/dist';
-import { xcorrDelay, type ResponseMeasure } from '../measure/response';
+import { xcorrDelay, latencyPrecision, type ResponseMeasure } from '../measure/response';
 import type { ComponentRow, ResolvedComponentOptions } from '../measure/components';
 import { scaledRange, type FiberClass } from '../measure/classes';
 
 export type LatencyBasis = 'onset' | 'halfrise' | 'peak' | 'centroid';
-export type VelocityStatus = 'ok' | 'outside class range' | 'implausible' | 'not detected';
+export type VelocityStatus = 'ok' | 'outside class range' | 'imprecise' | 'implausible' | 'not detected';
 
 export interface VelocityRow {
   method: 'single-site' | 'two-site' | 'regression';
@@ -410,6 +415,63 @@ function pairRows(set: SweepSet, near: ComponentRow[], far: ComponentRow[]): [Co
 }
 
 /**
+ * The 95% half-width (ms) of one row's latency of a definition, from its own component (latencyPrecision). The error
+ * per sample: the row's noise, or for a class separated by a decomposition (its component is the recording minus the
+ * neighbours' model, `model` its own) the larger of that and the rms of the decomposition's residual (component
+ * minus own model) where the latency is read (a peak: its top above 80% of the peak; a crossing: a quarter of the
+ * width at half maximum either side): the
+ * neighbours' misfit there is not noise and does not average out. null when the row has no component or the
+ * definition has no precision here (centroid).
+ */
+function latencyHalfWidth(
+  row: ComponentRow,
+  m: ResponseMeasure | undefined,
+  basis: LatencyBasis,
+  column: string,
+  set: SweepSet,
+  units: string,
+  onsetFraction: number,
+): number | null {
+  const t = row[column];
+  const y0 = m?.component;
+  if (!y0 || typeof t !== 'number' || basis === 'centroid') return null;
+  const fs = set.fs / 1000;
+  const index = (t - set.t0Ms) * fs - m!.window[0];
+  const noise = row[`noise_${units}`];
+  const p = row.polarity === -1 ? -1 : 1;
+  const y = p === 1 ? y0 : y0.map((v) => -v);
+  let sigma = typeof noise === 'number' ? noise : 0;
+  const model = m!.model;
+  if (model && model.length === y.length) {
+    const pk = typeof row.peak_ms === 'number' ? Math.round((row.peak_ms - set.t0Ms) * fs - m!.window[0]) : -1;
+    if (pk >= 0 && pk < y.length) {
+      // where the latency is read: the top (above 80% of the peak) for a peak, a quarter of the width at half
+      // maximum either side of a crossing
+      const f = basis === 'peak' ? 0.8 : 0.5;
+      let a = pk,
+        b = pk;
+      while (a > 0 && y[a - 1] > f * y[pk]) a--;
+      while (b < y.length - 1 && y[b + 1] > f * y[pk]) b++;
+      const c = Math.round(index),
+        r = basis === 'peak' ? 0 : Math.max(2, Math.ceil((b - a) / 4));
+      const [i0, i1] = basis === 'peak' ? [Math.min(a, c - 2), Math.max(b, c + 2)] : [c - r, c + r];
+      let ss = 0,
+        k = 0;
+      for (let i = Math.max(0, i0); i <= Math.min(y.length - 1, i1); i++) {
+        ss += (y0[i] - model[i]) ** 2;
+        k++;
+      }
+      if (k) sigma = Math.max(sigma, Math.sqrt(ss / k));
+    }
+  }
+  const h =
+    basis === 'peak'
+      ? latencyPrecision(y, index, 'peak', sigma)
+      : latencyPrecision(y, index, 'rise', sigma, basis === 'onset' ? onsetFraction : 0.5);
+  return h === null ? null : h / fs;
+}
+
+/**
  * Two-site velocity: for each pair of neighbouring distances within a group and class, pairs of
  * sweeps recorded together (see pairRows); delay by each latency definition and by
  * cross-correlation of the class component. Pairs with a delay that cannot be right are left out
@@ -462,10 +524,13 @@ export function twoSiteVelocity(
         };
         const delays: number[] = [];
         const nearLat: number[] = [];
+        // each pair's 95% half-width of its delay from the two latencies' own precision (NaN: not known)
+        const widths: number[] = [];
         const bad = new Map<string, number>();
         const reject = (why: string) => bad.set(why, (bad.get(why) ?? 0) + 1);
         for (const [a, b] of both) {
           let delay: number;
+          let w = NaN;
           if (basis === 'xcorr') {
             const ma = measures[a.sweep]?.[ix],
               mb = measures[b.sweep]?.[ix];
@@ -503,6 +568,10 @@ export function twoSiteVelocity(
             if (typeof ta !== 'number' || typeof tb !== 'number') continue;
             delay = tb - ta;
             nearLat.push(ta);
+            const f = resolved.onsetFraction ?? 0.1;
+            const ha = latencyHalfWidth(a, measures[a.sweep]?.[ix], basis, d!.column, set, set.units, f),
+              hb = latencyHalfWidth(b, measures[b.sweep]?.[ix], basis, d!.column, set, set.units, f);
+            w = ha !== null && hb !== null ? Math.hypot(ha, hb) : NaN;
           }
           if (!(delay > 0)) {
             reject('delay not positive (the response must arrive later at the farther site)');
@@ -515,6 +584,7 @@ export function twoSiteVelocity(
             continue;
           }
           delays.push(delay);
+          widths.push(w);
         }
         const excluded = [...bad.values()].reduce((s, v) => s + v, 0);
         const why = bad.size ? [...bad].map(([w, c]) => `${c} pair(s): ${w}`).join('; ') : null;
@@ -539,8 +609,27 @@ export function twoSiteVelocity(
         }
         const s = summarize(delays);
         const v = dL / s.mean;
-        const [dlo, dhi] = s.ci95;
+        // the delay's 95% CI: the larger of the t interval over pairs and the pairs' own precision (their half-widths
+        // combined as independent errors of the mean), so that one pair still has an interval and a few pairs that
+        // happen to agree do not hide a flat top
+        const tHalf = (s.ci95[1] - s.ci95[0]) / 2;
+        const own95 =
+          widths.length === delays.length && widths.every(Number.isFinite)
+            ? Math.sqrt(widths.reduce((q, w) => q + w * w, 0)) / delays.length
+            : NaN;
+        const half = Math.max(Number.isFinite(tHalf) ? tHalf : -Infinity, Number.isFinite(own95) ? own95 : -Infinity);
+        const [dlo, dhi] = Number.isFinite(half) ? [s.mean - half, s.mean + half] : [NaN, NaN];
         let j = judge(v, own, cls);
+        const ciLow = dhi > 0 ? dL / dhi : null,
+          ciHigh = Number.isFinite(dlo) ? (dlo > 0 ? dL / dlo : Infinity) : null;
+        if (j.status === 'ok' && own && d && ciLow !== null && ciHigh !== null && (ciLow < own[0] || ciHigh > own[1]))
+          j = {
+            status: 'imprecise',
+            reason:
+              `95% CI ${fmt(ciLow)}-${Number.isFinite(ciHigh) ? fmt(ciHigh) : 'unbounded'} m/s reaches outside the ` +
+              `${cls} range at this temperature (${fmt(own[0])}-${fmt(own[1])} m/s): its ${d.definition} latency is ` +
+              'not determined well enough at these sites (a flat top or slow rise beside the noise and fit residual)',
+          };
         if (j.status !== 'implausible' && nearLat.length) {
           // the utilisation time this velocity implies at the near site
           const lat = summarize(nearLat).mean;
@@ -553,8 +642,9 @@ export function twoSiteVelocity(
               ...base,
               delay_ms: s.mean,
               velocity_m_s: v,
-              ci95_low_m_s: dhi > 0 ? dL / dhi : null,
-              ci95_high_m_s: Number.isFinite(dlo) ? (dlo > 0 ? dL / dlo : Infinity) : null,
+              ci95_low_m_s: ciLow,
+              ci95_high_m_s: ciHigh,
+              delay_ci95_half_ms: Number.isFinite(half) ? half : null,
               n: s.n,
               excluded_pairs: excluded,
               excluded_reason: why,

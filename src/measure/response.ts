@@ -497,3 +497,59 @@ export function gaussianSmooth(y: ArrayLike<number>, sigma: number): Float64Arra
   }
   return z;
 }
+
+/**
+ * Precision of a latency read on a component: the 95% half-width, in samples, of the time at which y (main phase
+ * positive) peaks (`kind` 'peak') or crosses `fraction` x its peak on the rise ('rise': onset, half-rise), when each
+ * sample carries an independent error of SD `sigma` (the recording's noise, and for a class separated by a
+ * decomposition the misfit of its neighbours' model).
+ * - peak: the span around the peak where y stays within z sqrt(2) sigma of its maximum: the times whose value is not
+ *   significantly below the peak's (the difference of two samples has SD sqrt(2) sigma); the half-width is the
+ *   larger distance from the peak index to the span's ends, interpolated linearly. A flat top gives a wide span: its
+ *   peak time is not determined by the data, whatever the refinement.
+ * - rise: first-order error propagation (delta method) of the crossing t of level f P: the sample there and the
+ *   level (f x the peak) each carry their errors, SD(t) = sigma sqrt(1 + f^2) / |y'(t)|, y' the least-squares slope
+ *   over the five samples around the crossing; half-width z SD(t).
+ * Returns null when it cannot be bounded: sigma not positive or not finite, an index outside y, or no rising slope.
+ * O(width of the span). Formulas: common practice, no source.
+ * @example latencyPrecision(Float64Array.from({ length: 41 }, (_, i) => 100 - (i - 20) ** 2), 20, 'peak', 1)
+ * // 1.59 (the span's end interpolated linearly between u = 1 and 2; the parabola itself is within 2.77 of 100 for
+ * // |u| <= 1.66)
+ */
+export function latencyPrecision(
+  y: ArrayLike<number>,
+  index: number,
+  kind: 'peak' | 'rise',
+  sigma: number,
+  fraction = 0.5,
+  z = 1.959964,
+): number | null {
+  const n = y.length;
+  if (!(sigma > 0) || !Number.isFinite(sigma) || !(index >= 0) || !(index <= n - 1)) return null;
+  if (kind === 'rise') {
+    const j = Math.round(index);
+    let num = 0,
+      den = 0;
+    for (let k = -2; k <= 2; k++) {
+      const i = j + k;
+      if (i < 0 || i >= n) continue;
+      num += k * y[i];
+      den += k * k;
+    }
+    const slope = den > 0 ? num / den : NaN;
+    if (!(slope > 0)) return null;
+    return (z * sigma * Math.sqrt(1 + fraction * fraction)) / slope;
+  }
+  // the largest sample within one sample of the (fractional) peak index
+  let ip = Math.round(index);
+  for (const i of [Math.floor(index), Math.ceil(index)]) if (i >= 0 && i < n && y[i] > y[ip]) ip = i;
+  const level = y[ip] - z * Math.SQRT2 * sigma;
+  let a = ip,
+    b = ip;
+  while (a > 0 && y[a - 1] >= level) a--;
+  while (b < n - 1 && y[b + 1] >= level) b++;
+  // the span's ends interpolated between the last sample above the level and the first below it
+  const lo = a > 0 ? a - (y[a] - level) / (y[a] - y[a - 1]) : a;
+  const hi = b < n - 1 ? b + (y[b] - level) / (y[b] - y[b + 1]) : b;
+  return Math.max(index - lo, hi - index);
+}
