@@ -179,7 +179,7 @@ export function readBinary(sidecarPath: string, extra: { conditions?: Conditions
     }
     if (asIs) {
       try {
-        kept = float32Samples(nSweeps * nSamples);
+        kept = float32Samples(nSweeps * nSamples, { overwritten: true }); // loadAsRead writes every sample
       } catch (e) {
         if (!(e instanceof RangeError)) throw e;
         throw new InputError(

@@ -112,6 +112,42 @@ function fullCollection(): void {
   collect?.();
 }
 
+/** A full garbage collection now, where V8 allows one (see above); whether it ran. */
+export function collectGarbage(): boolean {
+  fullCollection();
+  return collect !== null;
+}
+
+/**
+ * Memory handed back when the object it was handed out with is collected: `register(target, held)`, and
+ * `reclaimed()`, the held values of the targets collected so far (each once). V8 runs a FinalizationRegistry's
+ * callbacks only between tasks, so a synchronous loop of loads would never see a buffer come back; the
+ * registry is made, where V8 has it, in a context with FinalizationRegistry.prototype.cleanupSome (its flag
+ * --harmony-weak-refs-with-cleanup-some), which hands back what the last collection found at once.
+ */
+export function reclaimer<T>(): { register(target: object, held: T): void; reclaimed(): T[] } {
+  const back: T[] = [];
+  let Registry: typeof FinalizationRegistry = FinalizationRegistry;
+  try {
+    // eslint-disable-next-line @typescript-eslint/no-var-requires
+    (require('node:v8') as typeof import('node:v8')).setFlagsFromString('--harmony-weak-refs-with-cleanup-some');
+    // eslint-disable-next-line @typescript-eslint/no-var-requires
+    const R = (require('node:vm') as typeof import('node:vm')).runInNewContext('FinalizationRegistry');
+    if (typeof R?.prototype?.cleanupSome === 'function') Registry = R;
+  } catch {
+    // the plain registry: memory comes back between tasks only
+  }
+  const registry = new Registry<T>((held) => back.push(held));
+  const cleanupSome = (registry as unknown as { cleanupSome?: () => void }).cleanupSome;
+  return {
+    register: (target, held) => registry.register(target, held),
+    reclaimed() {
+      cleanupSome?.call(registry);
+      return back.splice(0, back.length);
+    },
+  };
+}
+
 /** Count bytes of memory that V8 may not count towards starting a collection (see above). */
 export function countSharedBytes(bytes: number): void {
   countShared(bytes);

@@ -209,6 +209,16 @@ export function samples32(n: number, shared: boolean): Float32Array | null {
   }
 }
 
+/**
+ * n float32 samples on a memory that samples32() made before and that nothing uses any more (its samples
+ * were collected): the memory's old values stay until the caller overwrites them. null when it is too small.
+ */
+export function samples32On(memory: WebAssembly.Memory, n: number): Float32Array | null {
+  if (memory.buffer.byteLength < n * 4) return null;
+  memories.set(memory.buffer, memory);
+  return new Float32Array(memory.buffer, 0, n);
+}
+
 /** The memory under samples made by samples32() in this thread, or null. */
 export function memoryOf(x: Float32Array): WebAssembly.Memory | null {
   return memories.get(x.buffer) ?? null;

@@ -4,9 +4,16 @@
  * nothing pending, and every verb widens each value exactly to float64 where it uses
  * it, so every number equals that of a float64 copy (tests/parallel/kernels.test.ts).
  */
-import { PARALLEL_MIN_SAMPLES, countSharedBytes, sharedBytes, threads } from '../parallel/pool';
+import {
+  PARALLEL_MIN_SAMPLES,
+  collectGarbage,
+  countSharedBytes,
+  reclaimer,
+  sharedBytes,
+  threads,
+} from '../parallel/pool';
 import { noCorrection } from '../parallel/kernels';
-import { samples32 } from '../parallel/simd';
+import { memoryOf, samples32, samples32On } from '../parallel/simd';
 import type { DeferredSamples } from '../verbs/types';
 
 /**
@@ -16,20 +23,89 @@ import type { DeferredSamples } from '../verbs/types';
  * where it lies rather than after a copy into the SIMD kernel's scratch memory (about 10% of the
  * CPU time of loading 1,000 x 20,000 float32 samples, tests/bench/scipy.mjs; memoryOf() in
  * ../parallel/simd.ts finds it). The values and their layout are the same either way.
+ *
+ * `overwritten: true` (a loader that writes every sample before anything reads one) may be given
+ * the memory of samples already collected, with their old values: a fresh memory costs one
+ * first-touch page fault per 4 kB (about 19,500 for 80 MB, some 20 ms, as long as reading the file
+ * itself; NumPy asks for 2 MB pages, which Node cannot), a memory used before costs none.
  */
-export function float32Samples(n: number): Float32Array {
+export function float32Samples(n: number, options: { overwritten?: boolean } = {}): Float32Array {
   if (n < PARALLEL_MIN_SAMPLES) return new Float32Array(n);
   const shared = threads() >= 2;
   // glibc told to ask for transparent huge pages (GLIBC_TUNABLES=glibc.malloc.hugetlb=1 or 2) does so only for
   // the memory it allocates, not for a WebAssembly memory: its 2 MB pages take far fewer first-touch faults than the
   // copy saved here (tests/bench/scipy.mjs prints both), so its buffers are kept then
-  const own = glibcHugePages() ? null : samples32(n, shared);
-  if (own) {
-    countSharedBytes(n * 4); // counted as shared buffers are (a full collection every so many bytes)
-    return own;
-  }
-  return shared ? new Float32Array(sharedBytes(n * 4).buffer) : new Float32Array(n);
+  if (glibcHugePages()) return shared ? new Float32Array(sharedBytes(n * 4).buffer) : new Float32Array(n);
+  const old = options.overwritten ? reusable(n * 4, shared) : null;
+  const own = (old && samples32On(old, n)) ?? samples32(n, shared);
+  if (!own) return shared ? new Float32Array(sharedBytes(n * 4).buffer) : new Float32Array(n);
+  if (!old) countSharedBytes(n * 4); // counted as shared buffers are (a full collection every so many bytes)
+  if (old) reused++;
+  const memory = memoryOf(own)!;
+  pool().register(own, { memory, shared, bytes: memory.buffer.byteLength });
+  outstanding++;
+  return own;
 }
+
+// ---- memories of collected samples, kept for the next load (float32Samples with overwritten: true)
+interface Kept {
+  memory: WebAssembly.Memory;
+  shared: boolean;
+  bytes: number;
+}
+/** at most this many memories wait for reuse (the oldest is let go): a load or two of the same size */
+const FREE_MAX = 2;
+/** a memory is reused for a request of at least this share of its bytes (no large memory for small samples) */
+const FIT = 0.875;
+/**
+ * A full collection is asked for when no free memory fits but some handed out since the last one may be garbage
+ * (more are out than were alive after the last collection), only while the heap is small (a full collection of
+ * under 32 MB takes a few ms, less than the page faults it saves), and not after 3 in a row gave nothing back
+ * (every set still in use) until a memory comes back by itself.
+ */
+const COLLECT_HEAP_MAX = 32 * 2 ** 20;
+const free: Kept[] = [];
+let outstanding = 0,
+  reused = 0,
+  aliveAfterCollect = 0,
+  fruitless = 0,
+  kept: ReturnType<typeof reclaimer<Kept>> | null = null;
+const pool = () => (kept ??= reclaimer<Kept>());
+/** Memories whose samples were collected go to the free list; how many came back. */
+function takeBack(): number {
+  const back = pool().reclaimed();
+  for (const k of back) {
+    outstanding--;
+    free.push(k);
+    if (free.length > FREE_MAX) free.shift();
+  }
+  if (back.length) {
+    fruitless = 0;
+    aliveAfterCollect = Math.min(aliveAfterCollect, outstanding);
+  }
+  return back.length;
+}
+function take(bytes: number, shared: boolean): WebAssembly.Memory | null {
+  const i = free.findIndex((k) => k.shared === shared && k.bytes >= bytes && bytes >= FIT * k.bytes);
+  return i < 0 ? null : free.splice(i, 1)[0].memory;
+}
+function reusable(bytes: number, shared: boolean): WebAssembly.Memory | null {
+  takeBack();
+  const m = take(bytes, shared);
+  if (m || outstanding <= aliveAfterCollect || fruitless >= 3) return m;
+  // eslint-disable-next-line @typescript-eslint/no-var-requires
+  const heap = (require('node:v8') as typeof import('node:v8')).getHeapStatistics().used_heap_size;
+  if (heap > COLLECT_HEAP_MAX || !collectGarbage()) return null;
+  if (takeBack() === 0) fruitless++;
+  aliveAfterCollect = outstanding;
+  return take(bytes, shared);
+}
+
+/** Test hook: memories waiting for reuse, handed out and not yet collected, and reused so far. */
+export const reuseState = (): { free: number; outstanding: number; reused: number } => {
+  takeBack();
+  return { free: free.length, outstanding, reused };
+};
 
 /** float32 samples as SweepSet data (`new SweepSet({ data: asRead(f32), ... })`). */
 export function asRead(samples: Float32Array): DeferredSamples {
