@@ -200,3 +200,24 @@ export function conditionKeyTypo(key: string): string | null {
   }
   return best;
 }
+
+/**
+ * Spellings of the unit conditions fascicle knows (a bundle column takes the unit as its last part: `ic50_uM`,
+ * `lowest_detected_intensity_mA`; µ and μ are written u there). Other units are kept as the user wrote them.
+ */
+export const KNOWN_UNITS: Readonly<Record<'intensityUnit' | 'concentrationUnit', readonly string[]>> = {
+  intensityUnit: ['A', 'mA', 'uA', 'µA', 'μA', 'nA', 'V', 'mV', 'uV', 'µV', 'μV'],
+  concentrationUnit: ['M', 'mM', 'uM', 'µM', 'μM', 'nM', 'pM', 'mg/ml', 'mg/mL', 'ug/ml', 'ug/mL', 'µg/mL', '%'],
+};
+
+/**
+ * The known unit a unit condition's value is a case slip of, or null: "ma" or "MA" for "mA", "um" for "uM", "mm"
+ * for "mM" (in SI the case is the meaning: m is milli, M mega or molar). Exact known units and units fascicle does
+ * not know ("mmol/L", "x threshold") are not slips.
+ */
+export function unitTypo(key: string, value: unknown): string | null {
+  const known = (KNOWN_UNITS as Record<string, readonly string[] | undefined>)[key];
+  if (!known || typeof value !== 'string' || known.includes(value)) return null;
+  const v = value.trim().toLowerCase();
+  return known.find((u) => u.toLowerCase() === v) ?? null;
+}

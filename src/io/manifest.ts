@@ -10,7 +10,19 @@ import { createHash } from 'node:crypto';
 import { InputError, OptionError, ConfigError } from '../errors';
 import { SweepSet, type Conditions } from '../sweeps/SweepSet';
 import { readInput } from './files';
-import { conditionsProblem, nearest, shown, didYouMean, KNOWN_CONDITIONS, conditionKeyTypo } from '../validate';
+import {
+  conditionsProblem,
+  nearest,
+  shown,
+  didYouMean,
+  KNOWN_CONDITIONS,
+  conditionKeyTypo,
+  unitTypo,
+} from '../validate';
+/** The message for a unit written in the wrong case ("ma" for "mA"). */
+const unitSlip = (v: unknown, unit: string) =>
+  `unit ${JSON.stringify(v)} (did you mean "${unit}"?); in SI the case is the meaning (m is milli, M mega or ` +
+  'molar), so fascicle does not guess';
 /** Re-exported: the condition keys and their typo check live in src/validate.ts (the binary loader uses them too). */
 export { KNOWN_CONDITIONS, conditionKeyTypo } from '../validate';
 import { PRESETS } from '../measure/classes';
@@ -375,7 +387,7 @@ function validate(m: unknown, file: string): asserts m is Manifest {
   // a user column that looks like a known condition is most likely a typo whose value would be ignored
   const typos = (c: unknown, field: string) => {
     if (c === null || typeof c !== 'object') return;
-    for (const k of Object.keys(c)) {
+    for (const [k, v] of Object.entries(c)) {
       const near = conditionKeyTypo(k);
       if (near)
         throw new ConfigError(
@@ -384,6 +396,8 @@ function validate(m: unknown, file: string): asserts m is Manifest {
             'whose value fascicle would then not see',
           `"${near}", or another name for a column of your own`,
         );
+      const unit = unitTypo(k, v);
+      if (unit) throw new ConfigError({ file, field: `${field}/${k}` }, unitSlip(v, unit), `"${unit}"`);
     }
   };
   typos(man.defaults, '/defaults');
@@ -660,6 +674,7 @@ export function readManifest(path: string, opts: { only?: (f: ManifestFile, i: n
   manifest.files.forEach((f, fi) => {
     if (opts.only && !opts.only(f, fi)) return;
     const full = isAbsolute(f.path) ? f.path : join(dir, f.path);
+    checkListedPath(path, fi, f.path, full);
     const base = { ...(manifest.defaults ?? {}), ...(f.conditions ?? {}) };
     let set: SweepSet;
     try {
@@ -695,6 +710,10 @@ export function readManifest(path: string, opts: { only?: (f: ManifestFile, i: n
     // depend on the folder the study was copied to
     set = set.create({ conditions: set.conditions.map((c) => ({ ...c, file: f.path })) });
     set.conditions.forEach((c, i) => {
+      for (const k of ['intensityUnit', 'concentrationUnit']) {
+        const unit = unitTypo(k, c[k]);
+        if (unit) throw new InputError({ file: f.path, sweep: i, field: k }, unitSlip(c[k], unit), `"${unit}"`);
+      }
       for (const k of required) {
         if (!Object.hasOwn(c, k) || c[k] === null || c[k] === undefined) {
           const other = KNOWN_CONDITIONS.includes(k as never)
@@ -748,4 +767,34 @@ export function readManifest(path: string, opts: { only?: (f: ManifestFile, i: n
     ],
     extras: { manifest },
   });
+}
+
+/**
+ * A listed file that is missing or is a folder, named by the manifest field, with the nearest file name in its
+ * folder for a typo. Other problems (no permission, a FIFO) are left to the reader, which names them.
+ */
+function checkListedPath(manifestPath: string, fi: number, listed: string, full: string): void {
+  let st: ReturnType<typeof statSync>;
+  try {
+    st = statSync(full, { throwIfNoEntry: false });
+  } catch {
+    return; // no permission to look: the reader names the problem
+  }
+  const place = { file: manifestPath, field: `/files/${fi}/path` };
+  if (st?.isDirectory())
+    throw new InputError(place, `${listed} is a folder`, "a recording file (a folder's files are listed one by one)");
+  if (st) return;
+  let names: string[] = [];
+  try {
+    names = readdirSync(dirname(full)).filter((n) => !n.startsWith('.'));
+  } catch {
+    // the folder itself is missing: no name to suggest
+  }
+  const near = nearest(basename(full), names);
+  const hint = near ? ` (did you mean "${join(dirname(listed), near).replace(/^\.\//, '')}"?)` : '';
+  throw new InputError(
+    place,
+    `${listed}: cannot open file (ENOENT)${hint}`,
+    "an existing file (a path relative to the manifest's folder)",
+  );
 }

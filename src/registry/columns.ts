@@ -10,7 +10,8 @@
  *   condition column is left out; with a different value it is kept as `<name>_condition`.
  * - per table (its TableSpec's `columns`): unit-less numeric columns get their unit, from the row: `{I}` the row's
  *   intensityUnit, `{C}` its concentrationUnit, `{R}` the unit of the response measured (amplitude: the signal
- *   unit; area: unit_ms). A row without the unit keeps the plain name with `_unit` to say so.
+ *   unit; area: unit_ms); a micro sign is written u ("µM" -> ic50_uM; the unit column keeps "µM"). A row without
+ *   the unit keeps the plain name with `_unit` to say so.
  * - label columns (its TableSpec's `labels`: sweep_qc's and sweeps_removed's `condition`, velocity's `group`;
  *   "temperatureC=37, distanceMm=20" in the API): each `key=` of a renamed condition takes the column name
  *   ("temperature_C=37, distance_mm=20"), so a label names a condition as its own column does, with the unit last.
@@ -50,7 +51,12 @@ export interface ColumnUnits {
   response?: string;
 }
 
-const unitOf = (v: unknown) => (typeof v === 'string' && /^[A-Za-z%][\w%/]*$/.test(v) ? v.replace('/', '_') : null);
+/** A unit as a column name's last part: "uM" as it is, "µM" and "μM" as "uM", "mg/mL" as "mg_mL"; null if not a unit. */
+const unitOf = (v: unknown) => {
+  if (typeof v !== 'string') return null;
+  const u = v.replace(/^[µμ]/, 'u');
+  return /^[A-Za-z%][\w%/]*$/.test(u) ? u.replace('/', '_') : null;
+};
 
 function fill(name: string, r: Row, u: ColumnUnits): string {
   return name.replace(/_\{([ICR])\}$/, (_m, k: string) => {

@@ -108,6 +108,52 @@ describe('a mistyped required condition', () => {
   });
 });
 
+describe('a unit written in the wrong case (in SI the case is the meaning: m milli, M mega or molar)', () => {
+  it("is a ConfigError naming the field and the unit meant; known units and units of the user's own load", () => {
+    const a = thrown(() => readManifest(manifest({ files: [file({ intensity: 1, intensityUnit: 'ma' })] })));
+    expect(a).toBeInstanceOf(ConfigError);
+    expect(a.message).toMatch(/field \/files\/0\/conditions\/intensityUnit: unit "ma" \(did you mean "mA"\?\)/);
+    const b = thrown(() => readManifest(manifest({ defaults: { concentrationUnit: 'um' }, files: [file({})] })));
+    expect(b.message).toMatch(/field \/defaults\/concentrationUnit: unit "um" \(did you mean "uM"\?\)/);
+    const c = thrown(() =>
+      readManifest(manifest({ files: [file({}, { sweeps: [{}, { concentrationUnit: 'MM' }] })] })),
+    );
+    expect(c.message).toMatch(/sweeps\/1\/concentrationUnit: unit "MM" \(did you mean "mM"\?\)/);
+    for (const u of ['uM', 'µM', 'μM', 'nM', 'mg/mL', 'mmol/L'])
+      expect(readManifest(manifest({ files: [file({ concentrationUnit: u })] })).conditions[0].concentrationUnit).toBe(
+        u,
+      );
+    expect(readManifest(manifest({ files: [file({ intensityUnit: 'V' })] })).conditions[0].intensityUnit).toBe('V');
+  });
+  it("in a binary sidecar's conditions: an InputError naming the file, sweep and condition", () => {
+    writeFileSync(join(work, 'u.bin'), new Uint8Array(8 * 2));
+    writeFileSync(
+      join(work, 'u.json'),
+      JSON.stringify({
+        ...{ data: 'u.bin', dtype: 'float32', nSweeps: 2, nSamples: 2, fs: 1000, units: 'uV' },
+        conditions: { intensityUnit: 'UA' },
+      }),
+    );
+    const e = thrown(() => readManifest(manifest({ files: [{ path: 'u.json', conditions: { preparation: 'P1' } }] })));
+    expect(e).toBeInstanceOf(InputError);
+    expect(e.message).toMatch(/u\.json, sweep 0, field intensityUnit: unit "UA" \(did you mean "uA"\?\)/);
+  });
+});
+
+describe('a listed path that is missing or a folder', () => {
+  it('names the manifest field, and the nearest file of that folder for a typo', () => {
+    const a = thrown(() => readManifest(manifest({ files: [{ ...file({}), path: 'a.cvs' }] })));
+    expect(a).toBeInstanceOf(InputError);
+    expect(a.message).toMatch(
+      /m\d+\.json, field \/files\/0\/path: a\.cvs: cannot open file \(ENOENT\) \(did you mean "a\.csv"\?\)/,
+    );
+    const far = thrown(() => readManifest(manifest({ files: [{ ...file({}), path: 'recordings/zzzzzzzzzzzz.csv' }] })));
+    expect(far.message).toMatch(/field \/files\/0\/path: recordings\/zzzzzzzzzzzz\.csv: cannot open file \(ENOENT\);/);
+    const dir = thrown(() => readManifest(manifest({ files: [{ ...file({}), path: '.' }] })));
+    expect(dir.message).toMatch(/field \/files\/0\/path: \. is a folder/);
+  });
+});
+
 describe('on the command line', () => {
   it('a mistyped condition and a file listed twice exit 2 with the message, and write no bundle', () => {
     for (const m of [{ files: [file({ temperatureCC: 37 })] }, { files: [file({}), file({})] }]) {
