@@ -308,25 +308,28 @@ print(json.dumps(r))
 }
 
 /**
- * Loading alone in fresh processes, interleaved (3 rounds of 7 loads, median): NumPy's fromfile
- * and fascicle's readBinary, the latter also with glibc told to ask for transparent huge pages
- * for large buffers (GLIBC_TUNABLES=glibc.malloc.hugetlb=1, glibc >= 2.35). NumPy asks for them
- * itself (madvise MADV_HUGEPAGE on large arrays); Node has no way to, and a fresh 80 MB buffer
- * then takes some 20,000 first-touch page faults instead of 40. Wall and CPU time in ms.
+ * Loading alone in fresh processes, interleaved (3 rounds of 7 loads after a first one, median):
+ * NumPy's fromfile and fascicle's readBinary, the latter also with glibc told to ask for
+ * transparent huge pages for large buffers (GLIBC_TUNABLES=glibc.malloc.hugetlb=1, glibc >= 2.35).
+ * NumPy asks for them itself (madvise MADV_HUGEPAGE on large arrays); Node has no way to, and a
+ * fresh 80 MB buffer then takes some 20,000 first-touch page faults instead of 40: the first load
+ * of a process pays them, later ones read into the memory of samples already collected
+ * (src/sweeps/storage.ts). Wall and CPU time in ms.
  */
 export function loadEnvironments(dir, path) {
   const T = f.threads();
   const js = (threads) => `
 const f = require(${JSON.stringify(join(here, '..', '..', 'dist', 'index.js'))}); f.setThreads(${threads});
-const ts = [], cs = [], pf = []; f.readBinary(${JSON.stringify(path)});
-for (let k = 0; k < 7; k++) {
-  global.gc(); const p0 = process.resourceUsage().minorPageFault;
+const ts = [], cs = [], pf = [];
+for (let k = 0; k < 8; k++) {
+  if (k) global.gc(); const p0 = process.resourceUsage().minorPageFault;
   const c0 = process.cpuUsage(); const t0 = process.hrtime.bigint(); f.readBinary(${JSON.stringify(path)});
   ts.push(Number(process.hrtime.bigint() - t0) / 1e6); const c = process.cpuUsage(c0); cs.push((c.user + c.system) / 1e3);
   pf.push(process.resourceUsage().minorPageFault - p0);
 }
 const med = (a) => [...a].sort((p, q) => p - q)[a.length >> 1];
-console.log(JSON.stringify([med(ts), med(cs), med(pf)])); f.stopThreads();`;
+const rest = (a) => a.slice(1);
+console.log(JSON.stringify([med(rest(ts)), med(rest(cs)), med(rest(pf)), ts[0], cs[0], pf[0]])); f.stopThreads();`;
   const py = `
 import numpy as np, time, statistics, resource
 ts=[];cs=[];pf=[]
@@ -336,7 +339,8 @@ for k in range(8):
     x=np.fromfile(${JSON.stringify(join(dir, 'sweeps.f32'))}, dtype=np.float32)
     ts.append(time.perf_counter()-t0); cs.append(time.process_time()-c0); del x
     pf.append(resource.getrusage(resource.RUSAGE_SELF).ru_minflt-p0)
-print('[%f, %f, %d]' % (statistics.median(ts[1:])*1e3, statistics.median(cs[1:])*1e3, statistics.median(pf[1:])))`;
+print('[%f, %f, %d, %f, %f, %d]' % (statistics.median(ts[1:])*1e3, statistics.median(cs[1:])*1e3,
+      statistics.median(pf[1:]), ts[0]*1e3, cs[0]*1e3, pf[0]))`;
   const cases = [
     [`fascicle ${T} threads`, T, ''],
     ['fascicle 1 thread', 1, ''],
@@ -356,22 +360,24 @@ print('[%f, %f, %d]' % (statistics.median(ts[1:])*1e3, statistics.median(cs[1:])
     }
   }
   const np = rec.numpy;
+  const fig = (v, k) => median(v.map((x) => x[k])).toFixed(k % 3 === 2 ? 0 : 1);
   console.log(
-    `\nload binary float32 alone, fresh processes (median of 3 interleaved rounds of 7; load average ` +
-      `${loadavg()[0].toFixed(1)}): NumPy fromfile ${median(np.map((x) => x[0])).toFixed(1)} ms ` +
-      `(CPU ${median(np.map((x) => x[1])).toFixed(1)} ms, ${median(np.map((x) => x[2])).toFixed(0)} page faults)`,
+    `\nload binary float32 alone, fresh processes (median of 3 interleaved rounds of 7 after a first load; load ` +
+      `average ${loadavg()[0].toFixed(1)}): NumPy fromfile ${fig(np, 0)} ms (CPU ${fig(np, 1)} ms, ${fig(np, 2)} ` +
+      `page faults); first load ${fig(np, 3)} ms (CPU ${fig(np, 4)} ms, ${fig(np, 5)} page faults)`,
   );
   for (const [name] of cases) {
     const v = rec[name];
-    const ratio = median(v.map((x, r) => np[r][0] / x[0])),
-      cpuRatio = median(v.map((x, r) => np[r][1] / x[1]));
+    const ratio = (k) => median(v.map((x, r) => np[r][k] / x[k])).toFixed(2);
     console.log(
-      `  ${name.padEnd(34)} ${median(v.map((x) => x[0])).toFixed(1)} ms (CPU ${median(v.map((x) => x[1])).toFixed(1)}` +
-        ` ms, ${median(v.map((x) => x[2])).toFixed(0)} page faults), ratio ${ratio.toFixed(2)} (CPU ${cpuRatio.toFixed(2)})`,
+      `  ${name.padEnd(34)} ${fig(v, 0)} ms (CPU ${fig(v, 1)} ms, ${fig(v, 2)} page faults), ratio ${ratio(0)} ` +
+        `(CPU ${ratio(1)}); first load ${fig(v, 3)} ms (CPU ${fig(v, 4)} ms, ${fig(v, 5)} page faults), ` +
+        `ratio ${ratio(3)} (CPU ${ratio(4)})`,
     );
   }
   console.log('  (huge pages: GLIBC_TUNABLES=glibc.malloc.hugetlb=1, as NumPy madvises its large arrays;');
-  console.log('   page faults: minor faults of the process during one load, median: first touches of fresh memory)');
+  console.log('   page faults: minor faults of the process during one load, median: first touches of fresh memory;');
+  console.log('   after the first load fascicle reads into the memory of the collected one, NumPy into fresh memory)');
 }
 
 export function runScipyComparison() {
