@@ -891,6 +891,118 @@ export function measureComponents(
     });
     return { L, T, noise: noiseMad(x, na, nb), clip, decay, x, fitStart, polStart, wins };
   });
+  // the artifact's late tail, one per preparation: a slow decay (time constants of ms) left after the rail's fast
+  // decay, or after blanking, lies under the slower classes' early edges (a 3 ms tail of 0.1 mV/mA is still 18 uV
+  // at 12 ms after a 10 mA stimulus). It has the same time course in every sweep of a preparation (the same
+  // electrodes), its size proportional to the stimulus current at each site (common practice, no source), while the
+  // responses move with temperature, distance and drug; so it is fitted on the samples where no class can be
+  // recorded: after every faster class's window and before the slowest class's window (the slowest class's fastest
+  // fibers at the sweep's temperature), of every sweep at once: one or two exponentials with time constants shared
+  // by the preparation (a ladder of time constants, ratio 1.2, from a fifth of the earliest such stretch's start to
+  // its latest end), amplitudes per site times the sweep's current (linear least squares), the number of terms by the
+  // Bayesian information criterion (Schwarz 1978) against no tail. It is subtracted from the end of the faster
+  // classes' windows on, where it decays towards zero (never extrapolated backwards under a faster class).
+  const lateTail = new Map<number, { from: number; value: (i: number) => number }>();
+  if (classes.length >= 2) {
+    const last = classes.length - 1;
+    const tailFrom = (s: number) => {
+      let g0 = info[s].fitStart;
+      for (let ci = 0; ci < last; ci++) g0 = Math.max(g0, info[s].wins[ci].b + 1);
+      // a bipolar recording shows the faster classes again (inverted) when they reach the reference contact
+      const ref = refOf(s);
+      if (ref !== null)
+        for (let ci = 0; ci < last; ci++) {
+          const [vlo, vhi] = scaledRange(classes[ci], preset, info[s].T, q10);
+          const t0 = util + ref / vhi,
+            t1 = util + ref / vlo;
+          g0 = Math.max(g0, set.indexAt(t1 + Math.max(tailMs, tailFraction * (t1 - t0))) + 1);
+        }
+      return g0;
+    };
+    const byPrep = new Map<string, number[]>();
+    for (let s = 0; s < set.nSweeps; s++)
+      if (!wild(s)) (byPrep.get(artKey(s)) ?? byPrep.set(artKey(s), []).get(artKey(s))!).push(s);
+    for (const members of byPrep.values()) {
+      const gaps = members
+        .map((s) => ({ s, g0: tailFrom(s), g1: Math.min(n - 1, info[s].wins[last].a - 1) }))
+        .filter((q) => q.g1 - q.g0 + 1 >= 5);
+      const nFit = gaps.reduce((acc, q) => acc + q.g1 - q.g0 + 1, 0);
+      if (gaps.length === 0 || nFit < 20) continue;
+      const sites = [...new Set(gaps.map((q) => siteKey(q.s)))];
+      const tStart = Math.min(...gaps.map((q) => tAt(q.g0))),
+        tEnd = Math.max(...gaps.map((q) => tAt(q.g1)));
+      if (!(tStart > 0) || !(tEnd > tStart)) continue;
+      const ladder: number[] = [];
+      for (let tau = tStart / 5; tau <= tEnd; tau *= 1.2) ladder.push(tau);
+      const cur = (s: number) => intensityOf(s) ?? 1;
+      let rss0 = 0;
+      for (const q of gaps) for (let i = q.g0; i <= q.g1; i++) rss0 += info[q.s].x[i] ** 2;
+      // per site, least squares of the gap samples on I_s exp(-t / tau_k): the normal equations for 1 or 2 terms
+      const fit = (taus: number[]) => {
+        let rss = 0;
+        const coef = new Map<string, number[]>();
+        for (const site of sites) {
+          const m = taus.length;
+          const G = new Float64Array(m * m),
+            r = new Float64Array(m);
+          let yy = 0;
+          for (const q of gaps) {
+            if (siteKey(q.s) !== site) continue;
+            const I = cur(q.s),
+              x = info[q.s].x;
+            for (let i = q.g0; i <= q.g1; i++) {
+              const t = tAt(i);
+              const f0 = I * Math.exp(-t / taus[0]),
+                f1 = m > 1 ? I * Math.exp(-t / taus[1]) : 0;
+              G[0] += f0 * f0;
+              r[0] += f0 * x[i];
+              if (m > 1) {
+                G[1] += f0 * f1;
+                G[3] += f1 * f1;
+                r[1] += f1 * x[i];
+              }
+              yy += x[i] * x[i];
+            }
+          }
+          let c: number[];
+          if (m === 1) c = G[0] > 0 ? [r[0] / G[0]] : [0];
+          else {
+            const det = G[0] * G[3] - G[1] * G[1];
+            if (!(Math.abs(det) > 1e-12 * G[0] * G[3])) return null;
+            c = [(G[3] * r[0] - G[1] * r[1]) / det, (G[0] * r[1] - G[1] * r[0]) / det];
+          }
+          rss += yy - c.reduce((acc, ck, k) => acc + ck * r[k], 0);
+          coef.set(site, c);
+        }
+        return { rss: Math.max(rss, 0), coef, taus };
+      };
+      const bic = (rss: number, k: number) => nFit * Math.log(Math.max(rss, 1e-300) / nFit) + k * Math.log(nFit);
+      let best: { rss: number; coef: Map<string, number[]>; taus: number[] } | null = null;
+      let bestBic = bic(rss0, 0);
+      for (let a = 0; a < ladder.length; a++) {
+        const f1 = fit([ladder[a]]);
+        if (f1 && bic(f1.rss, sites.length + 1) < bestBic) [best, bestBic] = [f1, bic(f1.rss, sites.length + 1)];
+        for (let b = a + 2; b < ladder.length; b++) {
+          const f2 = fit([ladder[a], ladder[b]]);
+          if (f2 && bic(f2.rss, 2 * sites.length + 2) < bestBic)
+            [best, bestBic] = [f2, bic(f2.rss, 2 * sites.length + 2)];
+        }
+      }
+      if (!best) continue;
+      const chosen = best;
+      for (const s of members) {
+        const c = chosen.coef.get(siteKey(s));
+        if (!c) continue;
+        const I = cur(s);
+        const value = (i: number) => c.reduce((acc, ck, k) => acc + I * ck * Math.exp(-tAt(i) / chosen.taus[k]), 0);
+        const from = tailFrom(s);
+        const y = Float64Array.from(info[s].x);
+        for (let i = from; i < n; i++) y[i] -= value(i);
+        info[s].x = y;
+        lateTail.set(s, { from, value });
+      }
+    }
+  }
 
   // polarity per class: the larger phase (sum of the positive and of the negative extremes) in the class's window
   // after the artifact, on the unblocked sweeps (concentration 0 or none); where a site has blocked sweeps at its
