@@ -13,6 +13,7 @@ import {
   readFileSync,
   readdirSync,
   lstatSync,
+  statSync,
   realpathSync,
   unlinkSync,
   openSync,
@@ -216,6 +217,13 @@ function realish(p: string): string {
   }
 }
 
+const isFolder = (p: string) => {
+  try {
+    return statSync(p).isDirectory();
+  } catch {
+    return false;
+  }
+};
 const isInside = (child: string, parent: string) =>
   child === parent || child.startsWith(parent.endsWith(sep) ? parent : parent + sep);
 
@@ -230,7 +238,10 @@ export function checkOutput(dir: string, inputs: readonly string[] = []): void {
   for (const [input, ri] of [...real.filter(([, r]) => r === target), ...real]) {
     if (isInside(ri, target)) {
       const what = ri === target ? 'is' : 'contains';
-      const e = join(dirname(target), basename(target) + '-bundle');
+      // the suggestion lies outside the study: beside the outermost input folder that holds the target
+      const holders = real.map(([, r]) => r).filter((r) => isInside(target, r) && isFolder(r));
+      const outer = holders.sort((a, b) => a.length - b.length)[0] ?? target;
+      const e = join(dirname(outer), basename(outer) + '-bundle');
       throw new OutputError(
         dir,
         `refusing to write the bundle to ${dir}: it ${what} an input of this analysis (${input}), ` +
@@ -439,10 +450,15 @@ export function cleanLeftovers(dir: string): string[] {
 
 function writeFailed(target: string, where: string, e: unknown): OutputError {
   const code = (e as NodeJS.ErrnoException).code;
+  // what to do depends on the reason: space for a full disk or quota, another place for the rest
+  const todo =
+    code === 'ENOSPC' || code === 'EDQUOT' || code === 'EFBIG'
+      ? 'free some space, or choose another folder with --out'
+      : 'choose a folder you can write to with --out';
   return new OutputError(
     target,
     `cannot write the bundle ${target}: ${systemReason(e)} while writing ${where}; ` +
-      'the destination is unchanged (free some space, or choose a writable folder with --out)',
+      `the destination is unchanged (${todo})`,
     { refused: false, code },
   );
 }

@@ -139,6 +139,26 @@ describe('fascicle run --out never loses files it did not write', () => {
     expect(readFileSync(join(empty, 'methods.txt'), 'utf8')).toBe('two');
   });
 
+  it('the folder it suggests instead of an input lies outside the study (beside the study folder)', () => {
+    const studyDir = join(work, 'sugg');
+    mkdirSync(join(studyDir, 'raw'), { recursive: true });
+    const file = join(studyDir, 'raw', 'a.csv');
+    writeFileSync(file, 'time (ms),s (uV)\n0,1\n1,2\n');
+    const inputs = [join(studyDir, 'manifest.json'), studyDir, file];
+    for (const out of [file, join(studyDir, 'raw'), studyDir]) {
+      let msg = '';
+      try {
+        writeBundle(out, { tables: {}, methods: 'm', provenance: prov }, { inputs });
+      } catch (e) {
+        msg = (e as Error).message;
+      }
+      expect(msg, out).toMatch(/give --out a new folder outside the study, e\.g\. (\S+)$/);
+      const suggested = /e\.g\. (\S+)$/.exec(msg)![1];
+      expect(suggested).toBe(join(work, 'sugg-bundle'));
+    }
+    expect(readFileSync(file, 'utf8')).toBe('time (ms),s (uV)\n0,1\n1,2\n');
+  });
+
   it('a bundle holding a file the user added or changed, or a copied marker in a user folder, is refused and kept', () => {
     // the marker lists every file with its SHA-256; anything else, or a listed file that changed, is the user's
     const b = join(work, 'b-user');
@@ -320,6 +340,24 @@ describe('a failed write says what happened and where', () => {
     expect((err as Error).message).toContain(dir);
     expect(readFileSync(join(dir, 'methods.txt'), 'utf8')).toBe('old');
     expect(readdirSync(work).filter((f) => f.startsWith('.full.'))).toEqual([]);
+  });
+
+  it('a read-only place (EROFS) asks for a writable folder, not for space', () => {
+    const dir = join(work, 'rofs');
+    setBeforeWrite(() => {
+      throw Object.assign(new Error('EROFS: read-only file system, open'), { code: 'EROFS' });
+    });
+    let err: unknown;
+    try {
+      writeBundle(dir, { tables: { a: [{ x: 1 }] }, methods: 'new', provenance: prov });
+    } catch (e) {
+      err = e;
+    }
+    setBeforeWrite(null);
+    expect(err).toBeInstanceOf(OutputError);
+    expect((err as Error).message).toMatch(/read-only \(EROFS\).*choose a folder you can write to with --out/);
+    expect((err as Error).message).not.toMatch(/free some space/);
+    expect(existsSync(dir)).toBe(false);
   });
 
   it('a real file-size limit (EFBIG) and an immutable folder (EPERM) exit 6 naming the place, not "unexpected error"', () => {
