@@ -42,7 +42,7 @@ export function float32Samples(n: number, options: { overwritten?: boolean } = {
   if (!old) countSharedBytes(n * 4); // counted as shared buffers are (a full collection every so many bytes)
   if (old) reused++;
   const memory = memoryOf(own)!;
-  pool().register(own, { memory, shared, bytes: memory.buffer.byteLength });
+  pool().register(own, { memory, shared: memory.buffer instanceof SharedArrayBuffer, bytes: memory.buffer.byteLength });
   outstanding++;
   return own;
 }
@@ -59,11 +59,12 @@ const FREE_MAX = 2;
 const FIT = 0.875;
 /**
  * A full collection is asked for when no free memory fits but some handed out since the last one may be garbage
- * (more are out than were alive after the last collection), only while the heap is small (a full collection of
- * under 32 MB takes a few ms, less than the page faults it saves), and not after 3 in a row gave nothing back
- * (every set still in use) until a memory comes back by itself.
+ * (more are out than were alive after the last collection), only while the heap is small against the samples
+ * asked for (a full collection took about 0.8 ms of CPU per MB of heap here, the first-touch faults of fresh
+ * memory about 0.25 ms per MB of samples: a heap of under a sixth of the samples' bytes), and not after 3 in a row
+ * gave nothing back (every set still in use) until a memory comes back by itself.
  */
-const COLLECT_HEAP_MAX = 32 * 2 ** 20;
+const COLLECT_HEAP_SHARE = 1 / 6;
 const free: Kept[] = [];
 let outstanding = 0,
   reused = 0,
@@ -77,7 +78,15 @@ function takeBack(): number {
   for (const k of back) {
     outstanding--;
     free.push(k);
-    if (free.length > FREE_MAX) free.shift();
+    // one too many: the oldest of one thread goes first (a shared memory serves either kind of samples)
+    if (free.length > FREE_MAX)
+      free.splice(
+        Math.max(
+          0,
+          free.findIndex((q) => !q.shared),
+        ),
+        1,
+      );
   }
   if (back.length) {
     fruitless = 0;
@@ -85,8 +94,11 @@ function takeBack(): number {
   }
   return back.length;
 }
+/** A free memory of that size: shared for shared samples; for samples of one thread, one of its own kind first. */
 function take(bytes: number, shared: boolean): WebAssembly.Memory | null {
-  const i = free.findIndex((k) => k.shared === shared && k.bytes >= bytes && bytes >= FIT * k.bytes);
+  const fits = (k: Kept) => k.bytes >= bytes && bytes >= FIT * k.bytes;
+  let i = free.findIndex((k) => k.shared === shared && fits(k));
+  if (i < 0 && !shared) i = free.findIndex(fits); // a shared memory serves one thread as well
   return i < 0 ? null : free.splice(i, 1)[0].memory;
 }
 function reusable(bytes: number, shared: boolean): WebAssembly.Memory | null {
@@ -95,7 +107,7 @@ function reusable(bytes: number, shared: boolean): WebAssembly.Memory | null {
   if (m || outstanding <= aliveAfterCollect || fruitless >= 3) return m;
   // eslint-disable-next-line @typescript-eslint/no-var-requires
   const heap = (require('node:v8') as typeof import('node:v8')).getHeapStatistics().used_heap_size;
-  if (heap > COLLECT_HEAP_MAX || !collectGarbage()) return null;
+  if (heap > COLLECT_HEAP_SHARE * bytes || !collectGarbage()) return null;
   if (takeBack() === 0) fruitless++;
   aliveAfterCollect = outstanding;
   return take(bytes, shared);

@@ -46,6 +46,8 @@ describe('readBinary on reused memory', () => {
       const a = file((i) => Math.sin(i * 0.001) * 100 + t);
       const b = file((i) => -((i * 7919) % 1013) / 7 - t);
       const c = file((i) => (i % 3) - 1 + 0.5 * t);
+      collectGarbage(); // the sets of earlier tests come back first (at most 2 memories wait)
+      reuseState();
       // a set that is dropped, then collected: its memory waits for the next load of that size
       readBinary(a.path).data;
       collectGarbage();
