@@ -37,8 +37,12 @@ export function compareDemo(bundle: string, demo: string): string {
         )!.ic50,
     );
     const geo = Math.exp(ic.reduce((a, b) => a + Math.log(b), 0) / ic.length);
+    // the bundle's columns carry their unit (ic50_uM for a concentration in µM)
+    const u = String(r.concentration_unit ?? 'uM').replace(/^[µμ]/, 'u');
+    const col = (k: string) => f(r[`${k}_${u}`]);
     lines.push(
-      `  ${r.class}: ${f(r.ic50)} [${f(r.ic50_ci95_low)}, ${f(r.ic50_ci95_high)}] vs ${f(geo)}; Hill slope ${f(r.hill)} vs ${f(truth.model.hill[r.class as string])}`,
+      `  ${r.class}: ${col('ic50')} [${col('ic50_ci95_low')}, ${col('ic50_ci95_high')}] vs ${f(geo)}; ` +
+        `Hill slope ${f(r.hill)} vs ${f(truth.model.hill[r.class as string])}`,
     );
   }
   lines.push('', `Q10 of conduction velocity vs truth ${truth.model.q10Velocity}`);
