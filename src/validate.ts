@@ -221,3 +221,9 @@ export function unitTypo(key: string, value: unknown): string | null {
   const v = value.trim().toLowerCase();
   return known.find((u) => u.toLowerCase() === v) ?? null;
 }
+
+/**
+ * Conduction distances fascicle accepts, in mm (the component measurement refuses others): below 0.5 mm or above
+ * 1000 mm a distance was most likely written in another unit (m, cm or µm).
+ */
+export const DISTANCE_RANGE_MM: readonly [number, number] = [0.5, 1000];

@@ -18,6 +18,7 @@ import {
   KNOWN_CONDITIONS,
   conditionKeyTypo,
   unitTypo,
+  DISTANCE_RANGE_MM,
 } from '../validate';
 /** The message for a unit written in the wrong case ("ma" for "mA"). */
 const unitSlip = (v: unknown, unit: string) =>
@@ -487,7 +488,7 @@ export function parseBlindingKey(text: string, file: string): BlindingKey {
     try {
       j = JSON.parse(t);
     } catch (e) {
-      throw new InputError({ file }, `invalid JSON (${(e as Error).message})`, KEY_EXPECTED);
+      throw jsonError(file, t, e, KEY_EXPECTED);
     }
     const o = j as Record<string, unknown>;
     if (!o || typeof o !== 'object' || Array.isArray(o) || !o.codes || typeof o.codes !== 'object')
@@ -613,14 +614,13 @@ export function readManifestJson(path: string): { manifest: Manifest; source: im
   const hit = checked.get(key);
   if (typeof sha === 'string' && hit && hit.sha256 === sha) return { manifest: structuredClone(hit.manifest), source };
   let m: unknown;
+  const text = Buffer.from(bytes)
+    .toString('utf8')
+    .replace(/^\uFEFF/, '');
   try {
-    m = JSON.parse(
-      Buffer.from(bytes)
-        .toString('utf8')
-        .replace(/^\uFEFF/, ''),
-    );
+    m = JSON.parse(text);
   } catch (e) {
-    throw new InputError({ file: path }, `invalid JSON (${(e as Error).message})`, 'a JSON manifest');
+    throw jsonError(path, text, e, 'a JSON manifest');
   }
   validate(m, path);
   if (typeof sha === 'string') {
@@ -714,6 +714,26 @@ export function readManifest(path: string, opts: { only?: (f: ManifestFile, i: n
         const unit = unitTypo(k, c[k]);
         if (unit) throw new InputError({ file: f.path, sweep: i, field: k }, unitSlip(c[k], unit), `"${unit}"`);
       }
+      for (const k of ['distanceMm', 'referenceDistanceMm']) {
+        const d = c[k];
+        if (typeof d !== 'number' || (d >= DISTANCE_RANGE_MM[0] && d <= DISTANCE_RANGE_MM[1])) continue;
+        // the manifest field that gave the value, else the file itself (its sidecar or trials table)
+        const field =
+          f.sweeps?.[i]?.[k] !== undefined
+            ? `/files/${fi}/sweeps/${i}/${k}`
+            : f.conditions?.[k] !== undefined
+              ? `/files/${fi}/conditions/${k}`
+              : manifest.defaults?.[k] !== undefined
+                ? `/defaults/${k}`
+                : null;
+        const problem =
+          `${k} ${d} mm is implausible for a nerve (${DISTANCE_RANGE_MM[0]}-${DISTANCE_RANGE_MM[1]} mm)` +
+          (field ? ` for sweep ${i} of ${f.path}` : '') +
+          `; is it in another unit (${d < 1 ? 'm or cm' : 'µm'})?`;
+        throw field
+          ? new ConfigError({ file: path, field }, problem, 'the distance in mm')
+          : new InputError({ file: f.path, sweep: i, field: k }, problem, 'the distance in mm');
+      }
       for (const k of required) {
         if (!Object.hasOwn(c, k) || c[k] === null || c[k] === undefined) {
           const other = KNOWN_CONDITIONS.includes(k as never)
@@ -796,5 +816,27 @@ function checkListedPath(manifestPath: string, fi: number, listed: string, full:
     place,
     `${listed}: cannot open file (ENOENT)${hint}`,
     "an existing file (a path relative to the manifest's folder)",
+  );
+}
+
+/**
+ * A JSON syntax error as an InputError naming the line and column (JSON.parse gives only a character position):
+ * "line 3, column 20: invalid JSON (Expected double-quoted property name) at: {"path": "a.csv",}"; an empty file
+ * says so.
+ */
+export function jsonError(file: string, text: string, e: unknown, expected: string): InputError {
+  if (!text.trim()) return new InputError({ file }, 'the file is empty', expected);
+  const msg = (e as Error).message;
+  const at = /at position (\d+)/.exec(msg);
+  if (!at) return new InputError({ file }, `invalid JSON (${msg})`, expected);
+  const pos = Number(at[1]);
+  const before = text.slice(0, pos);
+  const line = before.split('\n').length;
+  const column = pos - before.lastIndexOf('\n');
+  const shownLine = text.split('\n')[line - 1].trim().slice(0, 80);
+  return new InputError(
+    { file, line, column },
+    `invalid JSON (${msg.replace(/ in JSON at position \d+.*$/, '')}) at: ${shownLine}`,
+    expected,
   );
 }

@@ -154,6 +154,44 @@ describe('a listed path that is missing or a folder', () => {
   });
 });
 
+describe('a distance in another unit (m or µm written as mm)', () => {
+  it('is refused at reading, naming the manifest field (or the file and sweep) and the likely unit', () => {
+    // 0.5-1000 mm: the range the component measurement accepts (src/validate.ts DISTANCE_RANGE_MM)
+    const a = thrown(() =>
+      readManifest(manifest({ files: [file({}, { sweeps: [{ distanceMm: 20 }, { distanceMm: 0.04 }] })] })),
+    );
+    expect(a).toBeInstanceOf(ConfigError);
+    expect(a.message).toMatch(
+      /field \/files\/0\/sweeps\/1\/distanceMm: distanceMm 0\.04 mm is implausible for a nerve \(0\.5-1000 mm\) for sweep 1 of a\.csv; is it in another unit \(m or cm\)\?/,
+    );
+    const b = thrown(() => readManifest(manifest({ defaults: { distanceMm: 20000 }, files: [file({})] })));
+    expect(b.message).toMatch(/field \/defaults\/distanceMm: distanceMm 20000 mm .*another unit \(µm\)/);
+    const c = thrown(() => readManifest(manifest({ files: [file({ referenceDistanceMm: 0.1 })] })));
+    expect(c.message).toMatch(/field \/files\/0\/conditions\/referenceDistanceMm: referenceDistanceMm 0\.1 mm/);
+    // the edges of the range load
+    const ok = readManifest(manifest({ files: [file({}, { sweeps: [{ distanceMm: 0.5 }, { distanceMm: 1000 }] })] }));
+    expect(ok.column('distanceMm')).toEqual([0.5, 1000]);
+  });
+});
+
+describe('a manifest that is not JSON', () => {
+  it('names the line and column of the syntax error and shows that line; an empty file says it is empty', () => {
+    const p = join(work, 'broken.json');
+    writeFileSync(p, '{"fascicleManifest": 1,\n "files": [\n  {"path": "a.csv",}\n ]}\n');
+    const e = thrown(() => readManifest(p));
+    expect(e).toBeInstanceOf(InputError);
+    // the trailing comma: line 3, column 20 is the "}" after it (counted by hand)
+    expect(e.message).toMatch(
+      /broken\.json, line 3, column 20: invalid JSON \(.*\) at: \{"path": "a\.csv",\}; expected/,
+    );
+    const empty = join(work, 'empty.json');
+    writeFileSync(empty, '\n');
+    expect(thrown(() => readManifest(empty)).message).toMatch(
+      /empty\.json: the file is empty; expected a JSON manifest/,
+    );
+  });
+});
+
 describe('on the command line', () => {
   it('a mistyped condition and a file listed twice exit 2 with the message, and write no bundle', () => {
     for (const m of [{ files: [file({ temperatureCC: 37 })] }, { files: [file({}), file({})] }]) {
