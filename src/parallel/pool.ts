@@ -123,12 +123,15 @@ export function collectGarbage(): boolean {
  * `reclaimed()`, the held values of the targets collected so far (each once). V8 runs a FinalizationRegistry's
  * callbacks only between tasks, so a synchronous loop of loads would never see a buffer come back; the
  * registry is made, where V8 has it, in a context with FinalizationRegistry.prototype.cleanupSome (its flag
- * --harmony-weak-refs-with-cleanup-some), which hands back what the last collection found at once.
+ * --harmony-weak-refs-with-cleanup-some, set only on V8 11 where it is known to exist), which hands back what the
+ * last collection found at once. Elsewhere memory comes back between tasks (notebook cells, awaits) only.
  */
-export function reclaimer<T>(): { register(target: object, held: T): void; reclaimed(): T[] } {
+export function reclaimer<T>(): { register(target: object, held: T): void; reclaimed(): T[]; atOnce: boolean } {
   const back: T[] = [];
   let Registry: typeof FinalizationRegistry = FinalizationRegistry;
   try {
+    // only where the flag is known to exist (V8 11, Node 20): V8 prints an error for a flag it does not know
+    if (Number(process.versions.v8.split('.')[0]) !== 11) throw new Error('no cleanupSome flag known');
     // eslint-disable-next-line @typescript-eslint/no-var-requires
     (require('node:v8') as typeof import('node:v8')).setFlagsFromString('--harmony-weak-refs-with-cleanup-some');
     // eslint-disable-next-line @typescript-eslint/no-var-requires
@@ -140,6 +143,8 @@ export function reclaimer<T>(): { register(target: object, held: T): void; recla
   const registry = new Registry<T>((held) => back.push(held));
   const cleanupSome = (registry as unknown as { cleanupSome?: () => void }).cleanupSome;
   return {
+    /** whether reclaimed() sees a collection's findings at once (cleanupSome), not only in a later task */
+    atOnce: typeof cleanupSome === 'function',
     register: (target, held) => registry.register(target, held),
     reclaimed() {
       cleanupSome?.call(registry);

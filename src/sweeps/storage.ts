@@ -104,7 +104,7 @@ function take(bytes: number, shared: boolean): WebAssembly.Memory | null {
 function reusable(bytes: number, shared: boolean): WebAssembly.Memory | null {
   takeBack();
   const m = take(bytes, shared);
-  if (m || outstanding <= aliveAfterCollect || fruitless >= 3) return m;
+  if (m || outstanding <= aliveAfterCollect || fruitless >= 3 || !pool().atOnce) return m;
   // eslint-disable-next-line @typescript-eslint/no-var-requires
   const heap = (require('node:v8') as typeof import('node:v8')).getHeapStatistics().used_heap_size;
   if (heap > COLLECT_HEAP_SHARE * bytes || !collectGarbage()) return null;
@@ -113,10 +113,13 @@ function reusable(bytes: number, shared: boolean): WebAssembly.Memory | null {
   return take(bytes, shared);
 }
 
-/** Test hook: memories waiting for reuse, handed out and not yet collected, and reused so far. */
-export const reuseState = (): { free: number; outstanding: number; reused: number } => {
+/**
+ * Test hook: memories waiting for reuse, handed out and not yet collected, reused so far, and whether a
+ * collection's findings are seen at once (else only in a later task).
+ */
+export const reuseState = (): { free: number; outstanding: number; reused: number; atOnce: boolean } => {
   takeBack();
-  return { free: free.length, outstanding, reused };
+  return { free: free.length, outstanding, reused, atOnce: pool().atOnce };
 };
 
 /** float32 samples as SweepSet data (`new SweepSet({ data: asRead(f32), ... })`). */
