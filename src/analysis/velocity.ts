@@ -198,6 +198,23 @@ function judge(
   return { status: 'ok', reason: null };
 }
 
+/** The judgement of a velocity whose 95% CI reaches outside its class's range. */
+function imprecise(
+  lo: number,
+  hi: number,
+  range: [number, number],
+  cls: string,
+  definition: string,
+): { status: VelocityStatus; reason: string } {
+  return {
+    status: 'imprecise',
+    reason:
+      `95% CI ${fmt(lo)}-${Number.isFinite(hi) ? fmt(hi) : 'unbounded'} m/s reaches outside the ${cls} range at ` +
+      `this temperature (${fmt(range[0])}-${fmt(range[1])} m/s): its ${definition} latency is not determined well ` +
+      'enough at these sites (a flat top or slow rise beside the noise and fit residual)',
+  };
+}
+
 /** A rejected row keeps its computed value aside; its velocity and interval are left empty. */
 function finish(row: VelocityRow, v: number): VelocityRow {
   if (row.status === 'implausible')
@@ -289,12 +306,20 @@ function utilisationProblem(intercept: number, ciHigh: number, nearLatency: numb
   return null;
 }
 
-/** Velocity from the regression of latency on distance, per group, class and latency definition. */
+/**
+ * Velocity from the regression of latency on distance, per group, class and latency definition. With `data` (the set
+ * and the component table's measures), each latency's own precision (latencyHalfWidth) also bounds the slope: its
+ * standard error for known latency SDs (weighted least squares, weights 1 / SD^2), so that two distances (no degree of
+ * freedom left) still give an interval; the interval is the wider of that and the t interval of the residuals, and a
+ * CI reaching outside the class's range is status "imprecise", as for two-site rows.
+ */
 export function regressionVelocity(
   rows: readonly ComponentRow[],
   by: string[],
   resolved?: ResolvedComponentOptions,
+  data?: { set: SweepSet; measures: ResponseMeasure[][] },
 ): VelocityRow[] {
+  const ixOf = new Map((resolved?.classes ?? []).map((c, i) => [c.name, i]));
   const defs = latencyDefinitions(rows, resolved);
   const groups = groupRows(rows, (r) => `${key(r, by)}|${r.class}`);
   const out: VelocityRow[] = [];
@@ -335,10 +360,41 @@ export function regressionVelocity(
       const f = linearFit(x, y);
       const v = 1 / f.slope;
       const t = f.df > 0 ? tQuantile(0.975, f.df) : NaN;
-      const hiSlope = f.slope - t * f.seSlope;
+      // the slope's and intercept's 95% half-widths: t intervals of the residuals, widened to the latencies' own
+      // precision (standard errors of a weighted fit with known SDs) where every latency has one
+      let slopeHalf = t * f.seSlope,
+        interceptHalf = t * f.seIntercept;
+      const ix = ixOf.get(cls);
+      if (data && ix !== undefined && (d.basis === 'peak' || d.basis === 'onset' || d.basis === 'halfrise')) {
+        const sds = ok.map(
+          (r) =>
+            (latencyHalfWidth(
+              r,
+              data.measures[r.sweep]?.[ix],
+              d.basis,
+              d.column,
+              data.set,
+              data.set.units,
+              resolved?.onsetFraction ?? 0.1,
+            ) ?? NaN) / 1.959964,
+        );
+        if (sds.every((q) => q > 0 && Number.isFinite(q))) {
+          const w = sds.map((q) => 1 / (q * q));
+          const sw = w.reduce((a, b) => a + b, 0);
+          const xm = w.reduce((a, wi, i) => a + wi * x[i], 0) / sw;
+          const sxx = w.reduce((a, wi, i) => a + wi * (x[i] - xm) ** 2, 0);
+          if (sxx > 0) {
+            const seS = 1 / Math.sqrt(sxx),
+              seI = Math.sqrt(1 / sw + xm * xm * seS * seS);
+            slopeHalf = Math.max(Number.isFinite(slopeHalf) ? slopeHalf : -Infinity, 1.959964 * seS);
+            interceptHalf = Math.max(Number.isFinite(interceptHalf) ? interceptHalf : -Infinity, 1.959964 * seI);
+          }
+        }
+      }
+      const hiSlope = f.slope - slopeHalf;
       const nearest = Math.min(...okDists);
       const nearLat = summarize(ok.filter((r) => r.distance_mm === nearest).map((r) => r[d.column] as number)).mean;
-      const uHigh = f.intercept + t * f.seIntercept;
+      const uHigh = f.intercept + interceptHalf;
       let j: { status: VelocityStatus; reason: string | null };
       if (!(f.slope > 0))
         j = {
@@ -349,18 +405,22 @@ export function regressionVelocity(
         const u = utilisationProblem(f.intercept, uHigh, nearLat, d.basis);
         j = u ? { status: 'implausible', reason: u } : judge(v, range, cls);
       }
+      const ciLow = num(1 / (f.slope + slopeHalf)),
+        ciHigh = Number.isFinite(hiSlope) ? (hiSlope > 0 ? 1 / hiSlope : Infinity) : null;
+      if (j.status === 'ok' && range && ciLow !== null && ciHigh !== null && (ciLow < range[0] || ciHigh > range[1]))
+        j = imprecise(ciLow, ciHigh, range, cls, d.definition);
       out.push(
         finish(
           {
             ...base,
             velocity_m_s: v,
-            ci95_low_m_s: num(1 / (f.slope + t * f.seSlope)),
-            ci95_high_m_s: Number.isFinite(hiSlope) ? (hiSlope > 0 ? 1 / hiSlope : Infinity) : null,
+            ci95_low_m_s: ciLow,
+            ci95_high_m_s: ciHigh,
             n: ok.length,
             excluded_not_measured: g.length - okRows.length,
             r2: num(f.r2),
             utilisation_ms: f.intercept,
-            utilisation_ci95_low_ms: num(f.intercept - t * f.seIntercept),
+            utilisation_ci95_low_ms: num(f.intercept - interceptHalf),
             utilisation_ci95_high_ms: num(uHigh),
             status: j.status,
             reason: j.reason,
@@ -623,13 +683,7 @@ export function twoSiteVelocity(
         const ciLow = dhi > 0 ? dL / dhi : null,
           ciHigh = Number.isFinite(dlo) ? (dlo > 0 ? dL / dlo : Infinity) : null;
         if (j.status === 'ok' && own && d && ciLow !== null && ciHigh !== null && (ciLow < own[0] || ciHigh > own[1]))
-          j = {
-            status: 'imprecise',
-            reason:
-              `95% CI ${fmt(ciLow)}-${Number.isFinite(ciHigh) ? fmt(ciHigh) : 'unbounded'} m/s reaches outside the ` +
-              `${cls} range at this temperature (${fmt(own[0])}-${fmt(own[1])} m/s): its ${d.definition} latency is ` +
-              'not determined well enough at these sites (a flat top or slow rise beside the noise and fit residual)',
-          };
+          j = imprecise(ciLow, ciHigh, own, cls, d.definition);
         if (j.status !== 'implausible' && nearLat.length) {
           // the utilisation time this velocity implies at the near site
           const lat = summarize(nearLat).mean;

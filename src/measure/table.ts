@@ -136,7 +136,7 @@ export class ComponentTable extends Result {
     const by = options.by ?? defaultBy(this.set);
     const single = singleSiteVelocity(this.rows, by, this.resolved);
     const two = twoSiteVelocity(this.set, this.rows, this.measures, this.resolved, by);
-    const reg = regressionVelocity(this.rows, by, this.resolved);
+    const reg = regressionVelocity(this.rows, by, this.resolved, { set: this.set, measures: this.measures });
     return new VelocityResult(
       markRecommended([...single, ...two, ...reg], this.resolved.classes),
       by,
