@@ -247,3 +247,5 @@ export type { VelocityDistributionFigureOptions } from './plot/velocityDistribut
 export type { Progress } from './notebook/progress';
 export type { SweepSetView } from './notebook/sweepSet';
 export { sweepQcFigure } from './plot/qc';
+export { latencyPrecision } from './measure/response';
+export { componentCancellation, MAX_CANCELLATION } from './measure/decompose';
