@@ -23,6 +23,54 @@ export interface QcOutput {
   set: SweepSet;
 }
 
+/** Volts per unit of the units a SweepSet may have. */
+const VOLTS: Readonly<Record<string, number>> = { V: 1, mV: 1e-3, uV: 1e-6 };
+/**
+ * Bounds on the median baseline noise (robust SD, in V) of a nerve recording, outside which the samples' unit is
+ * most likely not the one declared: above 1 V no acquisition range (commonly +-10 V) carries the response; below
+ * 1 nV the noise is under the thermal noise of any electrode (Johnson-Nyquist, sqrt(4 k T R B): 0.4 uV for 1 kOhm over
+ * 10 kHz at 37 C).
+ */
+export const NOISE_RANGE_V: readonly [number, number] = [1e-9, 1];
+
+/**
+ * A warning flag when the sweeps' median noise says their unit is not the declared one (samples in uV read as V,
+ * or the reverse; for the reverse also the largest sample, `largest()`, stays under 1 uV), or null. The numbers are still computed, in the declared unit; the flag and a note say why they
+ * may be off by a factor of 1000 or 1e6.
+ */
+export function unitsFlag(
+  rows: readonly Row[],
+  units: string,
+  prep: string | null,
+  largest: () => number = () => 0,
+): Flag | null {
+  const f = VOLTS[units];
+  const noise = rows
+    .map((r) => r[`noise_${units}`])
+    .filter((v): v is number => typeof v === 'number' && v > 0)
+    .sort((a, b) => a - b);
+  if (f === undefined || !noise.length) return null;
+  const med = noise[noise.length >> 1] * f;
+  if (med >= NOISE_RANGE_V[0] && med <= NOISE_RANGE_V[1]) return null;
+  const high = med > NOISE_RANGE_V[1];
+  // a set without noise (a simulation) is not a unit slip: only when nothing in it reaches 1 uV either
+  if (!high && largest() * f >= 1e-6) return null;
+  return {
+    preparation: prep,
+    analysis: 'sweep-qc',
+    class: null,
+    where: null,
+    severity: 'warning',
+    status: 'check units',
+    reason:
+      `the median baseline noise is ${Number((med / f).toPrecision(3))} ${units} per sweep, ` +
+      (high
+        ? `beyond any recording range (over ${NOISE_RANGE_V[1]} V): are the samples in uV or mV, not ${units}?`
+        : `below the thermal noise of any electrode (under 1 nV): are the samples in V or mV, not ${units}?`),
+    rows: rows.length,
+  };
+}
+
 /**
  * Sweep QC on the sweeps as recorded (unless `qc: false`), and the removal of flagged sweeps only when
  * `reject` asks for it: by default nothing is removed, the flagged sweeps are listed in sweep_qc and the notes.
@@ -58,6 +106,15 @@ export function qualityControl(
     failed(flags, notes, 'sweep-qc', prep, e);
     if (o.reject) notes.push(`${say(prep)}sweep-qc: no sweeps removed (the QC could not be computed)`);
     return { set, qc: null, sweepsRemoved: [] };
+  }
+  const units = unitsFlag(qc.rows as unknown as Row[], set.units, prep, () => {
+    let m = 0;
+    for (const v of set.data) if (Math.abs(v) > m) m = Math.abs(v);
+    return m;
+  });
+  if (units) {
+    flags.push(units);
+    notes.push(`${say(prep)}${units.reason}`);
   }
   const n = qc.flagged().length;
   if (!o.reject) {

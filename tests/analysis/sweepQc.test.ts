@@ -357,3 +357,45 @@ describe('the condition label: API key names in the API, the bundle column names
     expect(b.condition).toMatch(/distance_mm=20/);
   });
 });
+
+describe('a unit the noise contradicts (samples in uV declared as V, or the reverse)', () => {
+  // bounds: above 1 V no acquisition range carries a response; below 1 nV is under any electrode's thermal noise
+  // (Johnson-Nyquist sqrt(4 k T R B) = 0.41 uV for 1 kOhm, 10 kHz, 310 K: handbook formula, computed by hand)
+  const set = (sd: number, units: 'V' | 'mV' | 'uV') => {
+    const n = 400,
+      r = new Rng(5);
+    const conds = [0, 1, 2, 3, 4].map((k) => ({ preparation: 'P', intensity: 1, repeat: k }));
+    const data = Float64Array.from({ length: conds.length * n }, () => sd * r.normal());
+    return new SweepSet({ data, nSweeps: conds.length, nSamples: n, fs: 20000, t0Ms: -10, units, conditions: conds });
+  };
+  it('warns (a flag and a note) when the median noise is over 1 V or under 1 nV, and only then', async () => {
+    const { qualityControl, unitsFlag } = await import('../../src/registry/sweepQc');
+    const cases: [number, 'V' | 'mV' | 'uV', RegExp | null][] = [
+      [27, 'V', /median baseline noise is 2\d\.?\d* V per sweep, beyond any recording range.*in uV or mV, not V\?/],
+      [5, 'uV', null], // a usual recording
+      [5e-3, 'V', null], // the same after a gain of 1000
+      [0.2, 'V', null], // a high gain: still a possible recording
+      [5e-6, 'uV', /below the thermal noise of any electrode.*in V or mV, not uV\?/], // volts declared as uV
+      [1e-10, 'uV', /below the thermal noise/],
+    ];
+    for (const [sd, units, want] of cases) {
+      const flags: never[] = [],
+        notes: string[] = [];
+      qualityControl(set(sd, units), {}, 'P', flags, notes);
+      const f = (flags as { status: string; reason: string; severity: string }[]).filter(
+        (x) => x.status === 'check units',
+      );
+      if (want === null) expect(f, `${sd} ${units}`).toEqual([]);
+      else {
+        expect(f.length, `${sd} ${units}`).toBe(1);
+        expect(f[0].severity).toBe('warning');
+        expect(f[0].reason).toMatch(want);
+        expect(notes.some((x) => x.startsWith('P the median baseline noise'))).toBe(true);
+      }
+    }
+    expect(unitsFlag([], 'uV', null)).toBeNull();
+    // a noise-free simulation with a response is not a unit slip (its largest sample is over 1 uV)
+    expect(unitsFlag([{ noise_uV: 1e-9 }], 'uV', 'P', () => 800)).toBeNull();
+    expect(unitsFlag([{ noise_uV: 1e-9 }], 'uV', 'P', () => 0.5)?.status).toBe('check units');
+  });
+});
