@@ -561,67 +561,6 @@ export function topVertex(y: ArrayLike<number>, ip: number, lo: number, hi: numb
   return Math.min(b, Math.max(a, v));
 }
 
-/**
- * The Gaussian kernel (sigma, samples) for a class's own component y (main phase positive): wide enough to bring
- * white noise to 2% of the peak P ((noise / (0.02 P))^2 / (2 sqrt(pi))), but at most a twentieth of the span above
- * centroidFraction of the peak (l: ownLatencies of y).
- */
-function widthFor(l: OwnLatencies, noise: number): number {
-  return l.centroidFrom !== null && l.centroidTo !== null && l.peak > 0
-    ? Math.min((l.centroidTo - l.centroidFrom) / 20, (noise / (0.02 * l.peak)) ** 2 / (2 * Math.sqrt(Math.PI)))
-    : 0;
-}
-
-/** White-noise gain of the normalised Gaussian kernel of gaussianSmooth: sqrt(sum g^2) / sum g (1 below 0.5). */
-function whiteGain(sigma: number): number {
-  if (!(sigma >= 0.5)) return 1;
-  const h = Math.ceil(3 * sigma);
-  let g1 = 0,
-    g2 = 0;
-  for (let j = -h; j <= h; j++) {
-    const g = Math.exp(-(j * j) / (2 * sigma * sigma));
-    g1 += g;
-    g2 += g * g;
-  }
-  return Math.sqrt(g2) / g1;
-}
-
-/**
- * The smoothing kernel of a class alone in its window (widthFor on the unsmoothed component), and the span and
- * latencies it came from. Where centroidFraction of the peak lies under the noise level, the span measured on the
- * unsmoothed component is the noise's: its first dip below that level ends it a few samples from the largest noise
- * spike (a C wave of three times the noise was then smoothed by less than half a sample, judged against the
- * unsmoothed noise and not detected, and its local baseline taken over a flank of seven samples). The span is then
- * measured again on the component smoothed at the width the noise asks for, and once more at the width that span
- * gives, the kernel at most a fortieth of the noise window (nNoise samples: the smoothed noise level is still
- * estimated from about ten independent values) and of the peak's search range; the wider of the two kernels is
- * kept (common practice, no source: a level crossing is read where the level stands above the noise).
- */
-function smoothingSpan(
-  y0: Float64Array,
-  peakFrom: number,
-  peakTo: number,
-  noise: number,
-  nNoise: number,
-  onsetFraction: number,
-  centroidFraction: number,
-): { sigma: number; remeasured: boolean; lat: OwnLatencies } {
-  const at = (z: Float64Array) => ownLatencies(z, peakFrom, peakTo, onsetFraction, centroidFraction, 0, z.length - 1);
-  const first = at(y0);
-  const sigma = widthFor(first, noise);
-  const askedFor = first.peak > 0 ? (noise / (0.02 * first.peak)) ** 2 / (2 * Math.sqrt(Math.PI)) : 0;
-  // the first dip below centroidFraction of the peak is the noise's when that level is under the noise
-  if (!(centroidFraction * first.peak < noise) || askedFor < 0.5) return { sigma, remeasured: false, lat: first };
-  const cap = Math.min(nNoise / 40, (peakTo - peakFrom) / 40);
-  let s0 = Math.min(askedFor, cap),
-    lat = first;
-  for (let it = 0; it < 2 && s0 >= 0.5; it++) {
-    lat = at(gaussianSmooth(y0, s0));
-    s0 = Math.min(cap, widthFor(lat, noise));
-  }
-  return s0 >= 0.5 && s0 > sigma ? { sigma: s0, remeasured: true, lat } : { sigma, remeasured: false, lat: first };
-}
-
 /** Measure each fiber class in every sweep. */
 export function measureComponents(
   set: SweepSet,
@@ -891,6 +830,7 @@ export function measureComponents(
     });
     return { L, T, noise: noiseMad(x, na, nb), clip, decay, x, fitStart, polStart, wins };
   });
+
   // the artifact's late tail, one per preparation: a slow decay (time constants of ms) left after the rail's fast
   // decay, or after blanking, lies under the slower classes' early edges (a 3 ms tail of 0.1 mV/mA is still 18 uV
   // at 12 ms after a 10 mA stimulus). It has the same time course in every sweep of a preparation (the same
@@ -1238,8 +1178,6 @@ export function measureComponents(
     const wins = raw.map((w) => ({ ...w }));
     const ms: ResponseMeasure[] = new Array(classes.length);
     const done = new Array<boolean>(classes.length).fill(false);
-    // samples of the flank whose mean was subtracted as the class's local baseline (0: none), set before emit
-    let baseCount = 0;
     // y: the class's own component over samples [a, b] (y[i - a], recorded sign); its peak is searched in y[peakFrom..peakTo]
     const emit = (
       ci: number,
@@ -1268,22 +1206,18 @@ export function measureComponents(
       const smoothOk = sep === 'window';
       const y0 = Float64Array.from(y, (v) => p * v);
       const first = ownLatencies(y0, peakFrom, peakTo, onsetFraction, centroidFraction, 0, y0.length - 1);
-      const kern = smoothOk
-        ? smoothingSpan(y0, peakFrom, peakTo, noise, nb - na + 1, onsetFraction, centroidFraction)
-        : { sigma: widthFor(first, noise), remeasured: false };
-      const sigma = kern.sigma;
-      // where the span was measured again, the noise level is at least the white noise's after the kernel, plus the
-      // error of the local baseline's mean (a MAD of ten smoothed values can come out far below it)
-      const floorS = kern.remeasured
-        ? noise * Math.sqrt(whiteGain(sigma) ** 2 + (baseCount > 0 ? 1 / baseCount : 0))
-        : 0;
+      const sigma =
+        first.centroidFrom !== null && first.centroidTo !== null && first.peak > 0
+          ? Math.min(
+              (first.centroidTo - first.centroidFrom) / 20,
+              (noise / (0.02 * first.peak)) ** 2 / (2 * Math.sqrt(Math.PI)),
+            )
+          : 0;
       const yc = smoothOk && sigma >= 0.5 ? gaussianSmooth(y0, sigma) : y0;
-      const noiseS = Math.max(
-        floorS,
+      const noiseS =
         smoothOk && sigma >= 0.5
           ? noiseMad(gaussianSmooth(Array.prototype.slice.call(x, na, nb + 1), sigma), 0, nb - na)
-          : noise,
-      );
+          : noise;
       const lat0: OwnLatencies = ownLatencies(yc, peakFrom, peakTo, onsetFraction, centroidFraction, 0, yc.length - 1);
       // the peak time of the fastest class of a decomposed chain (its whole wave, never smoothed): the vertex of a
       // parabola through its top (topVertex), not its single largest sample; a slower decomposed class (a shoulder
@@ -1533,16 +1467,15 @@ export function measureComponents(
       const alone = (ci === 0 || raw[ci - 1].b < raw[ci].a) && (ci === classes.length - 1 || raw[ci].b < raw[ci + 1].a);
       let localBase: number | null = null;
       if (alone && floor === 0 && localBaseline) {
-        // its span measured as the smoothing's (smoothingSpan: not on the noise of a small wave)
-        const l0 = smoothingSpan(
+        const l0 = ownLatencies(
           Float64Array.from(y, (v) => p * v),
           w.a - a,
           y.length - 1,
-          info[s].noise,
-          nb - na + 1,
           onsetFraction,
           centroidFraction,
-        ).lat;
+          0,
+          y.length - 1,
+        );
         if (l0.centroidFrom !== null && l0.centroidTo !== null) {
           const span = l0.centroidTo - l0.centroidFrom;
           const f1 = Math.floor(l0.centroidFrom - 0.1 * span) - 1,
@@ -1556,7 +1489,6 @@ export function measureComponents(
             if (Math.sqrt(v) <= 2 * info[s].noise) {
               for (let i = 0; i < y.length; i++) y[i] -= m;
               localBase = m;
-              baseCount = f1 - f0 + 1;
             }
           }
         }
@@ -1572,7 +1504,6 @@ export function measureComponents(
         { [`trough_level_${u}`]: floor, [`local_baseline_${u}`]: localBase },
         w.a - a,
       );
-      baseCount = 0;
     }
     measures.push(ms);
   }
