@@ -172,7 +172,18 @@ export interface StudyResult {
 /** Condition a set as the options say (each step optional), in the order baseline, artifact(s), hum, filter. */
 export function condition(set: SweepSet, o: PipelineOptions): SweepSet {
   let s = set;
-  if (o.baseline !== false) s = s.baseline(o.baseline ?? {});
+  // a bad value is named by its option key as a manifest's analysis section spells it ("analysis.filter: ...")
+  const step = (key: string, f: () => SweepSet) => {
+    try {
+      return f();
+    } catch (e) {
+      if (e instanceof OptionError && !e.message.startsWith('analysis.'))
+        throw Object.assign(new OptionError(`analysis.${key}: ${e.message}`), { stack: e.stack });
+      throw e;
+    }
+  };
+  const { baseline, hum, filter } = o;
+  if (baseline !== false) s = step('baseline', () => s.baseline(baseline ?? {}));
   if (o.artifact) {
     const steps = Array.isArray(o.artifact) ? o.artifact : [o.artifact];
     steps.forEach((a, i) => {
@@ -181,11 +192,11 @@ export function condition(set: SweepSet, o: PipelineOptions): SweepSet {
           `invalid artifact${Array.isArray(o.artifact) ? `[${i}]` : ''}: ${JSON.stringify(a)}; ` +
             'must be artifact options ({ method, window, ... })',
         );
-      s = s.removeArtifact(a);
+      s = step(Array.isArray(o.artifact) ? `artifact[${i}]` : 'artifact', () => s.removeArtifact(a));
     });
   }
-  if (o.hum) s = s.removeHum(o.hum);
-  if (o.filter) s = s.filter(o.filter);
+  if (hum) s = step('hum', () => s.removeHum(hum));
+  if (filter) s = step('filter', () => s.filter(filter));
   return s;
 }
 
