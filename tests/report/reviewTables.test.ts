@@ -57,6 +57,18 @@ describe('dose_response_comparisons', () => {
   });
 });
 
+describe('a unit with a micro sign', () => {
+  it('names the columns with u (ic50_uM) as for "uM"; the unit column keeps what the user wrote', () => {
+    for (const unit of ['µM', 'μM', 'uM']) {
+      const [row] = bundleColumns('dose_response_summary', [{ class: 'C', ic50: 7, concentrationUnit: unit }] as never);
+      expect(Object.keys(row)).toContain('ic50_uM');
+      expect(row.concentration_unit).toBe(unit);
+    }
+    const [ml] = bundleColumns('dose_response_summary', [{ class: 'C', ic50: 7, concentrationUnit: 'µg/mL' }] as never);
+    expect(Object.keys(ml)).toContain('ic50_ug_mL');
+  });
+});
+
 describe('report.html on an empty table', () => {
   it('sweeps_removed: says that flagged sweeps were kept, not that the analysis had no data', () => {
     const study = {
