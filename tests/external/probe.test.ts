@@ -65,7 +65,11 @@ const root = mkdtempSync(join(tmpdir(), 'fascicle-probe-'));
 if (process.env.FASCICLE_PROBE_KEEP) console.log(`probe studies and bundles kept in ${root}`);
 else afterAll(() => rmSync(root, { recursive: true, force: true }));
 
-// ---- the public API: one manifest per preparation and window, runPipeline per series ----
+// ---- the public API: one manifest per preparation and window, runPipeline on all of it (the sweeps `fascicle run`
+// analyses: one preparation, every series); FASCICLE_PROBE_PER_SERIES=1 runs runPipeline per series instead (the
+// README's `.where({ series })` route; its numbers then differ from the command line's by design: the artifact's
+// shape and the decomposition's groups are shared by a preparation's series) ----
+const PER_SERIES = !!process.env.FASCICLE_PROBE_PER_SERIES;
 const t0 = Date.now();
 const studies: Record<string, { manifest: string; analysis: ReturnType<typeof writeStudy>['analysis'] }> = {};
 const api: Record<string, StudyResult> = {};
@@ -81,6 +85,15 @@ for (const prep of PREPS)
       errors[`${prep}|${w}`] = `readManifest threw ${(e as Error).name}: ${(e as Error).message}`;
       continue;
     }
+    if (!PER_SERIES) {
+      try {
+        const whole = runPipeline(set, s.analysis);
+        for (const series of seriesOf(prep, w)) api[`${prep}|${w}|${series}`] = whole;
+      } catch (e) {
+        errors[`${prep}|${w}`] = `runPipeline threw ${(e as Error).name}: ${(e as Error).message}`;
+      }
+      continue;
+    }
     for (const series of seriesOf(prep, w))
       try {
         api[`${prep}|${w}|${series}`] = runPipeline(set.where({ series }), s.analysis);
@@ -93,7 +106,7 @@ const apiMs = Date.now() - t0;
 function apiTables(prep: string, w: W): Tables {
   const r = (series: string) => api[`${prep}|${w}|${series}`];
   const vs = r(velocitySeries(prep));
-  const all = seriesOf(prep, w).map(r).filter(Boolean);
+  const all = [...new Set(seriesOf(prep, w).map(r).filter(Boolean))];
   return {
     velocity: (vs?.velocity?.rows ?? []) as unknown as Row[],
     temperature: (r('temperature')?.temperature?.rows ?? []) as unknown as Row[],
@@ -156,6 +169,10 @@ function checksFrom(source: 'API' | 'CLI', prep: string, w: W, t: Tables): PChec
   };
   for (const cls of CLASSES_OF[w]) {
     for (const T of c.temps) {
+      // a class conducting outside its preset's range (the cuff's A-alpha/beta, 48 m/s against 60-120; the
+      // description names no nerve, so the user's preset is the mammalian one): its velocity is printed, not
+      // asserted; what is asserted instead is that no number far from the truth is reported as ok (structural)
+      const fits = classFits(prep, w, cls, T);
       const at = t.velocity.filter((r) => r.class === cls && tempOf(r) === T);
       const rec = at.find((r) => r.recommended === true);
       const recTruth = rec ? velocityTruth(prep, w, cls, T, rec) : null;
@@ -170,7 +187,7 @@ function checksFrom(source: 'API' | 'CLI', prep: string, w: W, t: Tables): PChec
           tol,
           statusOf(rec),
         ),
-        true,
+        fits,
       );
       for (const basis of ['peak', 'onset']) {
         const two = widest(at.filter((r) => r.method === 'two-site' && r.basis === basis));
@@ -194,7 +211,7 @@ function checksFrom(source: 'API' | 'CLI', prep: string, w: W, t: Tables): PChec
             tol,
             statusOf(r),
           ),
-          true,
+          fits,
         );
       }
       // every other estimate, printed for information
@@ -261,22 +278,69 @@ function checksFrom(source: 'API' | 'CLI', prep: string, w: W, t: Tables): PChec
     if (seriesOf(prep, w).includes('intensity') && ct.recruitment) {
       const mm = ct.recruitment.at_mm;
       const r = t.recruitment.find((q) => q.class === cls && distOf(q) === mm);
+      const c0 = check(
+        'I50 mA',
+        cls,
+        `${mm} mm`,
+        'Boltzmann fit',
+        num(r?.i50 ?? r?.i50_mA),
+        ct.recruitment.i50_mA,
+        10,
+        statusOf(r),
+      );
+      // a sigmoid's midpoint and slope need two tested levels inside its rise (10-90% of the clean maximum, truth
+      // per level in truth.json): with fewer, "not identifiable" is the right answer, and the check says so
+      const inside = (ct.recruitment.levels as { fraction: number }[]).filter(
+        (l) => l.fraction >= 0.1 && l.fraction <= 0.9,
+      ).length;
+      const unresolvable = inside < 2 && /not identifiable/.test(String(r?.status ?? ''));
       push(
-        check(
-          'I50 mA',
-          cls,
-          `${mm} mm`,
-          'Boltzmann fit',
-          num(r?.i50 ?? r?.i50_mA),
-          ct.recruitment.i50_mA,
-          10,
-          statusOf(r),
-        ),
+        unresolvable
+          ? {
+              ...c0,
+              ok: true,
+              note: `not identifiable, rightly: ${inside} tested level(s) inside the truth's 10-90% rise`,
+            }
+          : c0,
         true,
       );
     }
   }
   return out;
+}
+
+/** Whether a class's median fibre velocity (truth.json) lies inside its preset range at T (both scaled by Q10). */
+function classFits(prep: string, w: W, cls: string, T: number): boolean {
+  const preset = PRESETS.mammalian;
+  const range = preset.classes.find((k) => k.name === cls)!.velocity;
+  const ct = ptruth.preparations[prep].classes[cls];
+  const v = ct.v37_median * ct.q10_velocity_generating ** ((T - 37) / 10);
+  const k = preset.q10 ** ((T - preset.refTemperatureC) / 10);
+  return v >= range[0] * k && v <= range[1] * k;
+}
+
+/**
+ * No confident wrong number: a velocity row of a class (recommended, two-site peak or onset) more than 25% from the
+ * truth of its own definition must carry a status other than ok (a wave that is not the class, or a latency the
+ * data do not determine, is flagged, never reported as a plausible number; issue 14 item 5).
+ */
+function confidentWrong(source: 'API' | 'CLI', prep: string, w: W, checks: PCheck[]): Structural {
+  const bad = checks.filter(
+    (c) =>
+      c.quantity === 'velocity m/s' &&
+      (c.asserted || !classFits(prep, w, c.class, Number.parseFloat(c.where))) &&
+      /^(recommended|two-site (peak|onset))/.test(c.estimator) &&
+      c.errorPct !== null &&
+      Math.abs(c.errorPct) > 25 &&
+      !c.note,
+  );
+  return {
+    key: `${source} | ${prep} | ${w} | no velocity 25% or more from its truth is reported as ok`,
+    ok: bad.length === 0,
+    detail: bad
+      .map((c) => `${c.class} ${c.where} ${c.estimator}: ${c.estimate} (${c.errorPct!.toFixed(0)}%)`)
+      .join('; '),
+  };
 }
 
 /** structural checks of the API results: no throw, main phase, rows, A-delta detected, range flag */
@@ -290,7 +354,8 @@ function structural(prep: string, w: W): Structural[] {
   for (const series of seriesOf(prep, w)) {
     const r = api[`${prep}|${w}|${series}`];
     if (!r) continue;
-    const rows = r.components.rows as unknown as Row[];
+    const rows = (r.components.rows as unknown as Row[]).filter((q) => q.series === series);
+    const nSweeps = r.components.set.conditions.filter((c) => c.series === series).length;
     for (const cls of CLASSES_OF[w]) {
       const mine = rows.filter((q) => q.class === cls);
       const pols = [...new Set(mine.map((q) => q.polarity))];
@@ -303,8 +368,8 @@ function structural(prep: string, w: W): Structural[] {
       );
       add(
         `${series}: ${cls} a component row for every sweep`,
-        mine.length === r.components.set.nSweeps,
-        `${mine.length} rows for ${r.components.set.nSweeps} (averaged) sweeps`,
+        mine.length === nSweeps,
+        `${mine.length} rows for ${nSweeps} (averaged) sweeps`,
       );
       if (series !== 'intensity') {
         const supra = mine.filter((q) => !(num(q.concentration) ?? 0));
@@ -315,7 +380,7 @@ function structural(prep: string, w: W): Structural[] {
         );
       }
     }
-    const failed = r.flags.filter((f) => f.status === 'failed');
+    const failed = r.flags.filter((f) => f.status === 'failed' && (PER_SERIES || series === seriesOf(prep, w)[0]));
     add(
       `${series}: no analysis failed`,
       failed.length === 0,
@@ -337,8 +402,10 @@ function structural(prep: string, w: W): Structural[] {
       if (tr >= range[0] * k && tr <= range[1] * k) continue;
       add(
         `${cls} ${T} C: a true velocity outside the class range (${(range[0] * k).toFixed(1)}-` +
-          `${(range[1] * k).toFixed(1)} m/s) is kept and flagged`,
-        num(rec?.velocity_m_s) !== null && /outside/i.test(String(rec?.status)),
+          `${(range[1] * k).toFixed(1)} m/s) is kept and flagged (or not measured, with a reason)`,
+        num(rec?.velocity_m_s) !== null
+          ? /outside/i.test(String(rec?.status))
+          : !!rec && statusOf(rec) !== undefined && !!rec.reason,
         `recommended ${String(rec?.velocity_m_s)} m/s, status ${String(rec?.status)}, truth ${tr.toFixed(2)}`,
       );
     }
@@ -386,6 +453,7 @@ for (const prep of PREPS)
     const b = checksFrom('CLI', prep, w, cliTab[`${prep}|${w}`]);
     all.push(...a, ...b);
     structs.push(...structural(prep, w), ...cliStructural(prep, w, a, b));
+    structs.push(confidentWrong('API', prep, w, a), confidentWrong('CLI', prep, w, b));
   }
 const idOf = (c: PCheck) => `${c.source} | ${c.prep} | ${c.quantity} | ${c.class} | ${c.where} | ${c.estimator}`;
 
@@ -430,78 +498,63 @@ const idOf = (c: PCheck) => `${c.source} | ${c.prep} | ${c.quantity} | ${c.class
  * Checks not met at the last update of this list (from the printed table): expected failures. The run prints
  * "NOT_YET out of date" with the keys to add or remove when the list no longer matches.
  */
-// last updated 19:31 UTC from `npx vitest run tests/external/probe.test.ts --maxWorkers=1`
+// last updated 19:59 UTC from `npx vitest run tests/external/probe.test.ts --maxWorkers=1`
 const NOT_YET = new Set<string>([
-  'API | PRB-BIP1 | Hill slope | A-alpha/beta | 15-20 mm bipolar | Hill fit',
   'API | PRB-BIP1 | Hill slope | A-delta | 15-20 mm bipolar | Hill fit',
   'API | PRB-BIP1 | IC50 uM | A-alpha/beta | 15-20 mm bipolar | Hill fit',
   'API | PRB-BIP1 | IC50 uM | A-delta | 15-20 mm bipolar | Hill fit',
   'API | PRB-BIP1 | Q10 | A-delta | 27-37 C | single-site peak',
   'API | PRB-BIP1 | fast | dose: A-delta detected in every supramaximal drug-free sweep',
+  'API | PRB-BIP1 | fast | no velocity 25% or more from its truth is reported as ok',
   'API | PRB-BIP1 | fast | temperature: A-delta detected in every supramaximal drug-free sweep',
   'API | PRB-BIP1 | velocity m/s | A-alpha/beta | 32 C | recommended (single-site peak)',
   'API | PRB-BIP1 | velocity m/s | A-delta | 32 C | recommended (single-site peak)',
   'API | PRB-BIP1 | velocity m/s | A-delta | 37 C | recommended (single-site peak)',
-  'API | PRB-CUFF3 | I50 mA | A-alpha/beta | 10 mm | Boltzmann fit',
   'API | PRB-CUFF3 | I50 mA | A-delta | 10 mm | Boltzmann fit',
-  'API | PRB-CUFF3 | fast | distance: A-delta main phase -1',
-  'API | PRB-CUFF3 | velocity m/s | A-alpha/beta | 37 C | recommended (regression peak)',
-  'API | PRB-CUFF3 | velocity m/s | A-alpha/beta | 37 C | two-site onset 10-16 mm',
-  'API | PRB-CUFF3 | velocity m/s | A-alpha/beta | 37 C | two-site peak 10-16 mm',
+  'API | PRB-CUFF3 | I50 mA | C | 10 mm | Boltzmann fit',
+  'API | PRB-CUFF3 | fast | distance: A-alpha/beta detected in every supramaximal drug-free sweep',
+  'API | PRB-CUFF3 | fast | distance: A-delta detected in every supramaximal drug-free sweep',
   'API | PRB-CUFF3 | velocity m/s | A-delta | 37 C | recommended (two-site xcorr)',
   'API | PRB-CUFF3 | velocity m/s | A-delta | 37 C | two-site onset 10-16 mm',
   'API | PRB-CUFF3 | velocity m/s | A-delta | 37 C | two-site peak 10-16 mm',
   'API | PRB-CUFF3 | velocity m/s | C | 37 C | recommended (regression centroid)',
-  'API | PRB-ISO4 | Hill slope | C | 16 mm | Hill fit',
-  'API | PRB-ISO4 | I50 mA | A-alpha/beta | 12 mm | Boltzmann fit',
+  'API | PRB-ISO4 | Hill slope | A-delta | 20 mm | Hill fit',
+  'API | PRB-ISO4 | Hill slope | A-delta | 24 mm | Hill fit',
   'API | PRB-ISO4 | I50 mA | A-delta | 12 mm | Boltzmann fit',
-  'API | PRB-ISO4 | I50 mA | C | 12 mm | Boltzmann fit',
   'API | PRB-ISO4 | IC50 uM | A-delta | 20 mm | Hill fit',
   'API | PRB-ISO4 | IC50 uM | A-delta | 24 mm | Hill fit',
+  'API | PRB-ISO4 | Q10 | C | 27-37 C | regression centroid',
   'API | PRB-ISO4 | velocity m/s | A-delta | 27 C | recommended (two-site xcorr)',
   'API | PRB-ISO4 | velocity m/s | A-delta | 27 C | two-site peak 12-24 mm',
   'API | PRB-ISO4 | velocity m/s | A-delta | 32 C | recommended (two-site xcorr)',
+  'API | PRB-ISO4 | velocity m/s | A-delta | 32 C | two-site onset 12-24 mm',
+  'API | PRB-ISO4 | velocity m/s | A-delta | 32 C | two-site peak 12-24 mm',
   'API | PRB-ISO4 | velocity m/s | A-delta | 37 C | recommended (two-site xcorr)',
   'API | PRB-ISO4 | velocity m/s | A-delta | 37 C | two-site peak 12-24 mm',
   'API | PRB-ISO4 | velocity m/s | C | 27 C | two-site onset 12-24 mm',
-  'API | PRB-ISO4 | velocity m/s | C | 27 C | two-site peak 12-24 mm',
   'API | PRB-ISO4 | velocity m/s | C | 32 C | two-site onset 12-24 mm',
+  'API | PRB-ISO4 | velocity m/s | C | 32 C | two-site peak 12-24 mm',
   'API | PRB-ISO4 | velocity m/s | C | 37 C | two-site onset 12-24 mm',
-  'API | PRB-ISO4 | velocity m/s | C | 37 C | two-site peak 12-24 mm',
   'CLI | PRB-BIP1 | Hill slope | A-delta | 15-20 mm bipolar | Hill fit',
   'CLI | PRB-BIP1 | IC50 uM | A-alpha/beta | 15-20 mm bipolar | Hill fit',
   'CLI | PRB-BIP1 | IC50 uM | A-delta | 15-20 mm bipolar | Hill fit',
   'CLI | PRB-BIP1 | Q10 | A-delta | 27-37 C | single-site peak',
-  'CLI | PRB-BIP1 | fast | fascicle run gives the API numbers',
-  'CLI | PRB-BIP1 | slow | fascicle run gives the API numbers',
+  'CLI | PRB-BIP1 | fast | no velocity 25% or more from its truth is reported as ok',
   'CLI | PRB-BIP1 | velocity m/s | A-alpha/beta | 32 C | recommended (single-site peak)',
   'CLI | PRB-BIP1 | velocity m/s | A-delta | 32 C | recommended (single-site peak)',
   'CLI | PRB-BIP1 | velocity m/s | A-delta | 37 C | recommended (single-site peak)',
-  'CLI | PRB-CUFF3 | I50 mA | A-alpha/beta | 10 mm | Boltzmann fit',
   'CLI | PRB-CUFF3 | I50 mA | A-delta | 10 mm | Boltzmann fit',
-  'CLI | PRB-CUFF3 | fast | fascicle run gives the API numbers',
-  'CLI | PRB-CUFF3 | slow | fascicle run gives the API numbers',
-  'CLI | PRB-CUFF3 | velocity m/s | A-alpha/beta | 37 C | recommended (regression peak)',
-  'CLI | PRB-CUFF3 | velocity m/s | A-alpha/beta | 37 C | two-site onset 10-16 mm',
-  'CLI | PRB-CUFF3 | velocity m/s | A-alpha/beta | 37 C | two-site peak 10-16 mm',
+  'CLI | PRB-CUFF3 | I50 mA | C | 10 mm | Boltzmann fit',
   'CLI | PRB-CUFF3 | velocity m/s | A-delta | 37 C | recommended (two-site xcorr)',
   'CLI | PRB-CUFF3 | velocity m/s | A-delta | 37 C | two-site onset 10-16 mm',
   'CLI | PRB-CUFF3 | velocity m/s | A-delta | 37 C | two-site peak 10-16 mm',
   'CLI | PRB-CUFF3 | velocity m/s | C | 37 C | recommended (regression centroid)',
-  'CLI | PRB-ISO4 | Hill slope | A-delta | 12 mm | Hill fit',
-  'CLI | PRB-ISO4 | Hill slope | A-delta | 16 mm | Hill fit',
   'CLI | PRB-ISO4 | Hill slope | A-delta | 20 mm | Hill fit',
   'CLI | PRB-ISO4 | Hill slope | A-delta | 24 mm | Hill fit',
-  'CLI | PRB-ISO4 | Hill slope | C | 16 mm | Hill fit',
-  'CLI | PRB-ISO4 | I50 mA | A-alpha/beta | 12 mm | Boltzmann fit',
   'CLI | PRB-ISO4 | I50 mA | A-delta | 12 mm | Boltzmann fit',
-  'CLI | PRB-ISO4 | I50 mA | C | 12 mm | Boltzmann fit',
-  'CLI | PRB-ISO4 | IC50 uM | A-delta | 12 mm | Hill fit',
-  'CLI | PRB-ISO4 | IC50 uM | A-delta | 16 mm | Hill fit',
   'CLI | PRB-ISO4 | IC50 uM | A-delta | 20 mm | Hill fit',
   'CLI | PRB-ISO4 | IC50 uM | A-delta | 24 mm | Hill fit',
-  'CLI | PRB-ISO4 | fast | fascicle run gives the API numbers',
-  'CLI | PRB-ISO4 | slow | fascicle run gives the API numbers',
+  'CLI | PRB-ISO4 | Q10 | C | 27-37 C | regression centroid',
   'CLI | PRB-ISO4 | velocity m/s | A-delta | 27 C | recommended (two-site xcorr)',
   'CLI | PRB-ISO4 | velocity m/s | A-delta | 27 C | two-site peak 12-24 mm',
   'CLI | PRB-ISO4 | velocity m/s | A-delta | 32 C | recommended (two-site xcorr)',
@@ -510,10 +563,9 @@ const NOT_YET = new Set<string>([
   'CLI | PRB-ISO4 | velocity m/s | A-delta | 37 C | recommended (two-site xcorr)',
   'CLI | PRB-ISO4 | velocity m/s | A-delta | 37 C | two-site peak 12-24 mm',
   'CLI | PRB-ISO4 | velocity m/s | C | 27 C | two-site onset 12-24 mm',
-  'CLI | PRB-ISO4 | velocity m/s | C | 27 C | two-site peak 12-24 mm',
   'CLI | PRB-ISO4 | velocity m/s | C | 32 C | two-site onset 12-24 mm',
+  'CLI | PRB-ISO4 | velocity m/s | C | 32 C | two-site peak 12-24 mm',
   'CLI | PRB-ISO4 | velocity m/s | C | 37 C | two-site onset 12-24 mm',
-  'CLI | PRB-ISO4 | velocity m/s | C | 37 C | two-site peak 12-24 mm',
 ]);
 {
   const failing = new Set([
@@ -558,6 +610,8 @@ for (const prep of PREPS) {
         `(${q.errorPct === null ? '-' : q.errorPct.toFixed(1)}%, tolerance ${q.tolerancePct}%)` +
         (known ? ' [not met yet]' : '');
       (known ? it.fails : it)(label, () => {
+        // an I50 the tested levels cannot determine: the status "not identifiable" is the answer, not a number
+        if (q.note?.startsWith('not identifiable, rightly')) return expect(q.estimate).toBeNull();
         expect(q.estimate, q.note).not.toBeNull();
         expect(Number.isFinite(q.truth), 'a truth for this estimator').toBe(true);
         expect(Math.abs(q.errorPct as number)).toBeLessThanOrEqual(q.tolerancePct);
