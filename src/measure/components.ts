@@ -840,9 +840,9 @@ export function measureComponents(
   // fibers at the sweep's temperature), of every sweep at once: one or two exponentials with time constants shared
   // by the preparation (a ladder of time constants, ratio 1.2, from a fifth of the earliest such stretch's start to
   // its latest end), amplitudes per site times the sweep's current (linear least squares), the number of terms by the
-  // Bayesian information criterion (Schwarz 1978) against no tail. It is subtracted from the end of the faster
-  // classes' windows on, where it decays towards zero (never extrapolated backwards under a faster class).
-  const lateTail = new Map<number, { from: number; value: (i: number) => number }>();
+  // Bayesian information criterion (Schwarz 1978) against no tail, and only when it exceeds the noise level at the
+  // start of some sweep's stretch. It is subtracted from the end of the faster classes' windows on, where it decays
+  // towards zero (never extrapolated backwards under a faster class).
   if (classes.length >= 2) {
     const last = classes.length - 1;
     const tailFrom = (s: number) => {
@@ -930,6 +930,16 @@ export function measureComponents(
       }
       if (!best) continue;
       const chosen = best;
+      // a tail that stays under the noise level on every fitted sample (a drift or noise the criterion took) moves
+      // no latency by more than the noise does: it is left alone
+      const noiseAt = gaps.map((q) => info[q.s].noise).sort((p1, p2) => p1 - p2)[Math.floor(gaps.length / 2)];
+      let largest = 0;
+      for (const q of gaps) {
+        const c = chosen.coef.get(siteKey(q.s))!;
+        const v = c.reduce((acc, ck, k) => acc + cur(q.s) * ck * Math.exp(-tAt(q.g0) / chosen.taus[k]), 0);
+        largest = Math.max(largest, Math.abs(v));
+      }
+      if (!(largest > noiseAt)) continue;
       for (const s of members) {
         const c = chosen.coef.get(siteKey(s));
         if (!c) continue;
@@ -939,7 +949,6 @@ export function measureComponents(
         const y = Float64Array.from(info[s].x);
         for (let i = from; i < n; i++) y[i] -= value(i);
         info[s].x = y;
-        lateTail.set(s, { from, value });
       }
     }
   }
