@@ -317,7 +317,20 @@ export class VelocityResult extends Result {
     return (
       'VelocityResult\n' +
       tableText(this.rows as unknown as Record<string, unknown>[], {
-        columns: ['method', 'basis', 'class', 'group', 'velocity_m_s', 'ci95_low_m_s', 'ci95_high_m_s', 'n'],
+        // distance_mm tells a single-site row's sites apart (empty for two-site and regression rows); status says
+        // why a row has no velocity or what to make of it
+        columns: [
+          'method',
+          'basis',
+          'class',
+          'group',
+          'distance_mm',
+          'velocity_m_s',
+          'ci95_low_m_s',
+          'ci95_high_m_s',
+          'n',
+          'status',
+        ],
       })
     );
   }

@@ -42,3 +42,33 @@ describe('ComponentTable.compareGroups(options) and .mixedModel(options)', () =>
     expect(m.coefficients).toEqual(mixedModel(table.rows as never, { value, fixed: ['group'] }).coefficients);
   });
 });
+
+describe('VelocityResult.toString()', () => {
+  // the project's forward model only to have sweeps at two distances; what is checked is the text layout
+  const set = model.simulateNerve({
+    model: model.rodentSciatic(),
+    seed: 7,
+    grid: { fs: 20000, t0Ms: -2, nSamples: 600 },
+    sweeps: [20, 40].map((d) => ({
+      intensity: 50,
+      distanceMm: d,
+      temperatureC: 37,
+      conditions: { preparation: 'p1' },
+    })),
+    nuisance: { noiseUv: 5 },
+  });
+  const v = set
+    .baseline()
+    .components({ preset: 'mammalian', classes: ['A-alpha/beta'] })
+    .velocity();
+  it('shows the distance of single-site rows and every row status, so rows of two sites do not look the same', () => {
+    const text = v.toString();
+    const header = text.split('\n').find((l) => /method/.test(l)) as string;
+    expect(header).toMatch(/distance_mm/);
+    expect(header).toMatch(/status/);
+    const single = text.split('\n').filter((l) => /single-site\s+peak/.test(l));
+    expect(single.length).toBe(2);
+    expect(single[0]).not.toBe(single[1]);
+    expect(single.some((l) => /\b20\b/.test(l)) && single.some((l) => /\b40\b/.test(l))).toBe(true);
+  });
+});
