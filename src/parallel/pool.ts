@@ -132,6 +132,9 @@ export function reclaimer<T>(): { register(target: object, held: T): void; recla
   try {
     // only where the flag is known to exist (V8 11, Node 20): V8 prints an error for a flag it does not know
     if (Number(process.versions.v8.split('.')[0]) !== 11) throw new Error('no cleanupSome flag known');
+    // a V8 flag changed at run time makes each thread started afterwards compile Node's own code afresh (about
+    // 12 ms of CPU per thread, tests/bench/load.mjs): the pool's threads, if any, start first
+    if (isMainThread && threads() >= 2) startThreads(threads());
     // eslint-disable-next-line @typescript-eslint/no-var-requires
     (require('node:v8') as typeof import('node:v8')).setFlagsFromString('--harmony-weak-refs-with-cleanup-some');
     // eslint-disable-next-line @typescript-eslint/no-var-requires
@@ -255,6 +258,24 @@ function sharedArgs(args: object): boolean {
   return true;
 }
 
+/** Start the pool's threads for T threads in all (threads that stopped are replaced); false when they cannot start. */
+function startThreads(T: number): boolean {
+  for (let k = slots.length - 1; k >= 0; k--)
+    if (Atomics.load(slots[k].control, 4) === 1) {
+      slots[k].port.close();
+      slots.splice(k, 1);
+    }
+  while (slots.length < T - 1) {
+    const s = startSlot();
+    if (!s) {
+      broken = true;
+      return false;
+    }
+    slots.push(s);
+  }
+  return true;
+}
+
 /**
  * Run a kernel over sweeps [0, nSweeps), split across threads when the arrays in
  * args are shared and the work (samples) is large enough. Returns each part's
@@ -269,20 +290,7 @@ export function runSweeps<K extends KernelName>(
   const run = kernels[kernel] as (a: unknown, s0: number, s1: number) => number;
   const T = Math.min(threads(), nSweeps);
   if (T < 2 || work < PARALLEL_MIN_SAMPLES || !sharedArgs(args)) return [run(args, 0, nSweeps)];
-  // threads that stopped between calls are replaced
-  for (let k = slots.length - 1; k >= 0; k--)
-    if (Atomics.load(slots[k].control, 4) === 1) {
-      slots[k].port.close();
-      slots.splice(k, 1);
-    }
-  while (slots.length < T - 1) {
-    const s = startSlot();
-    if (!s) {
-      broken = true;
-      return [run(args, 0, nSweeps)];
-    }
-    slots.push(s);
-  }
+  if (!startThreads(T)) return [run(args, 0, nSweeps)];
   const bounds = Array.from({ length: T + 1 }, (_, k) => Math.round((k * nSweeps) / T));
   const used = slots.slice(0, T - 1);
   used.forEach((slot, j) => {

@@ -13,7 +13,7 @@
 import { Worker, workerData, parentPort, receiveMessageOnPort, type MessagePort } from 'node:worker_threads';
 import { setFlagsFromString } from 'node:v8';
 import { runInNewContext } from 'node:vm';
-import { kernels, type KernelName } from './kernels';
+import type { KernelName, kernels as Kernels } from './kernels';
 
 interface Start {
   file: string;
@@ -82,6 +82,9 @@ function pool(): void {
   // cost each call a few milliseconds, so it collects when idle (no job for
   // IDLE_COLLECT_MS) or, under sustained load, once the jobs since the last collection
   // have seen SHARED_COLLECT_BYTES of shared buffers.
+  // the kernels (and the signal code they use) are loaded by pool threads only, not by the supervisor
+  // eslint-disable-next-line @typescript-eslint/no-var-requires
+  const { kernels } = require('./kernels') as { kernels: typeof Kernels };
   setFlagsFromString('--expose-gc');
   const collect = runInNewContext('gc') as () => void;
   const control = new Int32Array(workerData.control as SharedArrayBuffer);
