@@ -424,6 +424,9 @@ const line = (what: string, est: number, tru: number) => {
 // devset's (main-phase area over peak 1.0 vs 0.50 ms, extract_sfp.py) and the summed peak amplitude 60% low; on finer
 // grids the same fit gives -34% (90 bins), +1.5% (120) or +128% (97 bins over the support), i.e. the width is not
 // identified at this dispersion and noise. With the potential given (the devset's, below) the fraction is met.
+// 19:55 UTC: with the shape searched again once hum is detected the C amplitude is -40% (was -62%); on equal rows the
+// weighted RSS prefers the devset's potential stretched 1.25-2x to the true one (notes/vdist-api.md). The C row of
+// the slow fit now says that its summed peak amplitude is not identified (test below).
 const NOT_YET = new Set(['C amplitude fraction']);
 interface DevRun {
   fast: VelocityDistributionResult;
@@ -551,6 +554,18 @@ describe('velocityDistribution on the development set (FNPG-N07), 30 C, 15 and 2
         },
       );
     }
+  it('the C class of the slow fit is flagged: its summed peak amplitude is not identified (estimated potential)', () => {
+    // the C wave's arrival spread (SD about 3 ms at 15 mm, devset truth: C velocities p10-p90 0.54-0.78 m/s) is many
+    // times the potential's main phase, so the wave does not fix the peak (diagnosis in the test's NOT_YET comment):
+    // the row says so instead of offering the amplitude for comparison; the A classes of the fast fit (potential
+    // about 0.3 ms against spreads of about 0.05 and 0.2 ms) and the fit with the C potential given are not flagged
+    const { fast, slow, slowGiven } = devRuns();
+    const status = (r: VelocityDistributionResult, c: string) => r.classes.find((x) => x.class === c)!.status as string;
+    expect(status(slow, 'C')).toMatch(/summed peak amplitude not identified/);
+    expect(status(fast, 'A_alpha_beta')).not.toMatch(/not identified/);
+    expect(status(fast, 'A_delta')).not.toMatch(/not identified/);
+    expect(status(slowGiven, 'C')).not.toMatch(/not identified/);
+  });
   it('the results are complete and consistent (ordered percentiles, fractions sum to 1, both distances)', () => {
     const { fast, slow } = devRuns();
     for (const r of [fast, slow]) {
@@ -589,6 +604,37 @@ describe('velocityDistribution on the development set with 4 sweeps per distance
       }
     console.log('4 sweeps per distance: ' + out.join('; '));
   });
+});
+
+describe('velocityDistribution on the slow window with 4 sweeps per distance (C fibres)', () => {
+  // each 4-sweep half of the pooled fixture alone (temperature series at 30 C; dose-response pre-drug baseline), the
+  // slow-window options of the 8-sweep test. Before 19:55 UTC (12-02) both gave C p10/p50/p90 about -66/-66/-50%: the
+  // two-phase shape was searched without the mains hum (less averaged out with 4 sweeps), its fit was 19.5 SD above
+  // the noise level, and a node refinement 3.9 ms wide followed. Now the shape is searched again once hum is
+  // detected, and not refined when it fits to the noise level (discrepancy principle). Truth: truth/fibres.csv;
+  // tolerances of issue 15
+  for (const name of ['temperature_slow_30C', 'dose_response_slow_30C'])
+    it(`${name}: C p10, p50, p90 within the issue tolerances`, () => {
+      const r = velocityDistribution(loadFixture(name), {
+        fitWindow: [10, 140],
+        classes: devClasses,
+        amplitudeExponent: 4,
+        drift: 'quadratic',
+        bootstrap: 0,
+      });
+      const out: string[] = [];
+      for (const [q, tol] of [
+        [10, 0.15],
+        [50, 0.1],
+        [90, 0.15],
+      ] as const) {
+        const est = r.percentile(q, 'number', 'C'),
+          tru = truthOf('C').p(q / 100);
+        out.push(`C p${q} ${est.toPrecision(4)} vs ${tru.toPrecision(4)} (${(100 * (est / tru - 1)).toFixed(1)}%)`);
+        expect(Math.abs(est / tru - 1)).toBeLessThan(tol);
+      }
+      console.log(`slow window, 4 sweeps (${name}): ` + out.join('; ') + `; notes: ${r.fit.notes.join(' | ')}`);
+    }, 600_000);
 });
 
 // ---------------------------------------------------------------------------------------------
