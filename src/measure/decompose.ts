@@ -20,7 +20,8 @@
  * non-negative least squares, s by least squares with a second-difference penalty) on
  * the mean trace at each distance of a group, leaving out samples the caller excludes
  * (the artifact); each sweep then gets its own W with s fixed (a deconvolution with a
- * known kernel, possible at a single site), held towards the group's W by a small ridge.
+ * known kernel, possible at a single site), held towards the group's W (scaled to the trace by least squares) by a
+ * small ridge.
  * Classes are split where W has its deepest valley between the two classes' velocity
  * ranges; a class whose part of W has no separate mode is "not resolved". Optional
  * nuisance terms (NUISANCE_TAU_MS, off unless the grid gives artifactFromMs) model an
@@ -293,6 +294,21 @@ function solveWeights(
     for (let i = ka; i <= kb; i++) if (keep[i]) s += col(i, k) * y[i];
     b[k] = s;
   }
+  // the prior scaled to this trace first (the least-squares scale c >= 0 of the group's weights, from the data alone):
+  // the ridge then keeps the group's shape of W where the trace does not determine it, not the group's size, so a
+  // sweep with no response (below threshold, fully blocked) is not pulled towards the group's mean response
+  let pc = prior;
+  if (prior) {
+    let num = 0,
+      den = 0;
+    for (let k = 0; k < nu; k++) {
+      if (prior[k] === 0) continue;
+      num += b[k] * prior[k];
+      for (let l = 0; l < nu; l++) den += prior[k] * G[k * n + l] * prior[l];
+    }
+    const c = den > 0 ? Math.max(0, num / den) : 1;
+    pc = Float64Array.from(prior.subarray(0, nu), (v) => c * v);
+  }
   let tr = 0;
   for (let k = 0; k < nu; k++) tr += G[k * n + k];
   addSecondDifference(G, n, nu, (lambdaW * tr) / nu);
@@ -300,13 +316,13 @@ function solveWeights(
     G[k * n + k] += 1e-9 * (tr / nu) + (k >= nu ? (art !== null ? 1e-9 : 1e6) * (tr / nu || 1) : 0);
   // a ridge towards the group's weights: bins the trace cannot see (arrivals in excluded samples) keep the group's value
   const mu = (priorWeight * tr) / nu;
-  if (prior)
+  if (pc)
     for (let k = 0; k < nu; k++) {
       G[k * n + k] += mu;
-      b[k] += mu * prior[k];
+      b[k] += mu * pc[k];
     }
   const x = new Float64Array(n);
-  if (prior) x.set(prior.subarray(0, nu));
+  if (pc) x.set(pc);
   nnlsGram(G, b, n, NB, x);
   let rss = 0,
     cnt = 0;
