@@ -166,8 +166,12 @@ function erf(x: number): number {
 }
 
 /** Standard normal quantile (bisection on normCdf). */
+const quantiles = new Map<number, number>();
 export function normQuantile(p: number): number {
   if (!(p > 0 && p < 1)) return NaN;
+  // the same few probabilities are asked for in every preparation: a memo returns the same bits
+  const known = quantiles.get(p);
+  if (known !== undefined) return known;
   let lo = -40,
     hi = 40;
   for (let i = 0; i < 200; i++) {
@@ -175,5 +179,7 @@ export function normQuantile(p: number): number {
     if (normCdf(mid) < p) lo = mid;
     else hi = mid;
   }
-  return (lo + hi) / 2;
+  const q = (lo + hi) / 2;
+  if (quantiles.size < 4096) quantiles.set(p, q);
+  return q;
 }
