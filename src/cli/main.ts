@@ -11,7 +11,7 @@
  * 6 the output could not be written; 7 a worker thread failed; 1 anything else.
  * After run and merge: exit 4 when nothing at all could be computed (the bundle is still written).
  */
-import { readFileSync, readdirSync, mkdtempSync, rmSync, existsSync, statSync } from 'node:fs';
+import { readFileSync, readdirSync, mkdtempSync, rmSync, existsSync, statSync, lstatSync } from 'node:fs';
 import { join, resolve, dirname, relative, isAbsolute } from 'node:path';
 import { tmpdir } from 'node:os';
 import {
@@ -149,6 +149,38 @@ class UsageError extends Error {}
 
 // the methods sentences of a blinded run and of an unblinding (unless the registry words them already)
 
+/**
+ * Refuse an --nwb place the writer would refuse, before the analysis runs (not after a bundle was written): an input
+ * of the study, something that is not a regular file (a folder), or a file that is not an NWB file fascicle wrote.
+ */
+async function checkNwbTarget(manifest: string, path: string): Promise<void> {
+  const target = resolve(path);
+  let st;
+  try {
+    st = lstatSync(target);
+  } catch {
+    return; // a new file
+  }
+  if (st.isFile() && manifestInputs(manifest).some((p) => resolve(p) === target))
+    throw new OutputError(path, `refusing to write ${path}: it is an input of this analysis`, { refused: true });
+  if (!st.isFile())
+    throw new OutputError(
+      path,
+      `refusing to write ${path}: it is ${st.isDirectory() ? 'a folder' : 'not a regular file'}; ` +
+        'give --nwb a file name (e.g. study.nwb)',
+      { refused: true },
+    );
+  const { nwbReady } = await import('../io/nwb');
+  const { writtenByFascicle } = await import('../io/nwbWrite');
+  await nwbReady();
+  if (!writtenByFascicle(target))
+    throw new OutputError(
+      path,
+      `refusing to overwrite ${path}: it is not an NWB file written by fascicle; give --nwb a new file name`,
+      { refused: true },
+    );
+}
+
 /** The study's sweeps (conditioned as the pipeline conditions them, or as acquired) and result tables as NWB. */
 async function writeStudyNwb(manifest: string, path: string, raw: boolean, study: Study): Promise<void> {
   const { nwbReady } = await import('../io/nwb');
@@ -274,6 +306,8 @@ async function main(argv0: string[]): Promise<number> {
         throw new UsageError(`invalid --shard ${flags.shard}; must be i/n with 1 <= i <= n`);
       shard = { index: +m[1], count: +m[2] };
     }
+    if (flags['nwb-raw'] && typeof flags.nwb !== 'string') throw new UsageError('--nwb-raw needs --nwb <file>');
+    if (typeof flags.nwb === 'string') await checkNwbTarget(pos[0], flags.nwb);
     const t0 = Date.now();
     const r = await runStudy({
       manifest: pos[0],

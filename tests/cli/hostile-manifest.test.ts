@@ -5,7 +5,7 @@
 // writes nothing. The expected names are the README's "Known conditions"; no numeric reference is involved.
 import { describe, it, expect, afterAll } from 'vitest';
 import { spawnSync } from 'node:child_process';
-import { mkdtempSync, writeFileSync, existsSync, rmSync } from 'node:fs';
+import { mkdtempSync, writeFileSync, existsSync, rmSync, readFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { readManifest, conditionKeyTypo } from '../../src/io/manifest';
@@ -205,6 +205,30 @@ describe('on the command line', () => {
       );
       expect(existsSync(out)).toBe(false);
     }
+  });
+});
+
+describe('an --nwb place the writer refuses', () => {
+  it('is refused before the analysis (exit 2, no bundle): a folder, an input, a file fascicle did not write', () => {
+    const foreign = join(work, 'theirs.nwb');
+    writeFileSync(foreign, 'not an NWB file');
+    const m = manifest({ files: [file({})] });
+    const cases: [string, RegExp][] = [
+      [work, /refusing to write .*: it is a folder; give --nwb a file name/],
+      [join(work, 'a.csv'), /refusing to write .*a\.csv: it is an input of this analysis/],
+      [foreign, /refusing to overwrite .*theirs\.nwb: it is not an NWB file written by fascicle/],
+    ];
+    for (const [nwb, msg] of cases) {
+      const out = join(work, `nwb-out${n++}`);
+      const r = spawnSync(process.execPath, [cliPath, 'run', m, '--out', out, '--nwb', nwb, '--quiet'], {
+        encoding: 'utf8',
+      });
+      expect(r.status, r.stderr).toBe(2);
+      expect(r.stderr).toMatch(msg);
+      expect(existsSync(out), 'no bundle written').toBe(false);
+    }
+    expect(readFileSync(foreign, 'utf8')).toBe('not an NWB file');
+    expect(readFileSync(join(work, 'a.csv'), 'utf8')).toBe(csv);
   });
 });
 
