@@ -31,7 +31,7 @@ export function velocityOf(t: ComponentTable, by: string[] = velocityBy(t.set)):
     [
       ...singleSiteVelocity(t.rows, by, t.resolved),
       ...twoSiteVelocity(t.set, t.rows, t.measures, t.resolved, by),
-      ...regressionVelocity(t.rows, by, t.resolved),
+      ...regressionVelocity(t.rows, by, t.resolved, { set: t.set, measures: t.measures }),
     ],
     t.resolved.classes,
   );
@@ -103,15 +103,20 @@ function velocitySentence(step: Step): { text: string } {
       'delay from the same latency definition at both sites, or from the cross-correlation of the class component ' +
       'with parabolic sub-sample refinement), and as the inverse slope of latency regressed on distance, whose ' +
       'intercept estimates the utilisation time; each velocity is reported with its latency definition, and 95% ' +
-      'confidence intervals are t-based over sweeps or from the regression (none when the data give no residual ' +
-      `degree of freedom).${recommended} ` +
+      'confidence intervals are t-based over sweeps or from the regression (with no residual degree of freedom, ' +
+      `only the precision interval below).${recommended} ` +
       'Implausible values were not reported as velocities but flagged with a reason, without discarding other ' +
       "classes, groups or estimators: a velocity outside any nerve fibre's range " +
       `(${FIBRE_RANGE_M_S[0]}-${FIBRE_RANGE_M_S[1]} m/s), a latency not increasing with distance, a utilisation ` +
       `time below -${u}% of the latency at the nearest site (-${u2}% for onset latencies; and below 0 beyond ` +
       `its 95% CI); pairs of sweeps with a delay not positive, shorter than ${MIN_DELAY_SAMPLES} sample intervals, ` +
       'or a cross-correlation maximum on the edge of its search range were left out and counted; a velocity ' +
-      "outside its class's range at that temperature was kept and flagged.",
+      "outside its class's range at that temperature was kept and flagged. " +
+      'The 95% confidence interval of a two-site or regression velocity is the wider of the one from the spread ' +
+      "over pairs (or the residuals) and the one from each latency's own precision (a peak: the span where the " +
+      'component stays within 1.96 sqrt(2) noise SDs of its maximum; a crossing: the noise divided by the slope ' +
+      'there; for a class separated by the decomposition the noise includes the local fit residual); a velocity ' +
+      "whose interval reaches outside its class's range is marked imprecise.",
   };
 }
 
@@ -122,10 +127,16 @@ export const velocity: AnalysisEntry<VelocityResult> = {
   stage: 'components',
   perPreparation(ctx) {
     const table = ctx.table!;
-    // the distance series when present, else drug-free sweeps
+    // the distance series when present, else the temperature series (supramaximal, drug-free at each temperature),
+    // else drug-free sweeps outside the series that vary the stimulus (submaximal sweeps move the latencies)
     const vt = hasSeries(table, 'distance')
       ? table.subset({ series: 'distance' })
-      : table.subset((r) => !r.concentration);
+      : hasSeries(table, 'temperature')
+        ? table.subset({ series: 'temperature' })
+        : table.subset(
+            (r) =>
+              !r.concentration && !['intensity', 'pulse-width', 'paired-pulse', 'train'].includes(String(r.series)),
+          );
     try {
       const v = velocityOf(vt);
       ctx.flags.push(...flagsFrom('velocity', v.rows as unknown as Row[], ctx.prep, velocityWhere));
