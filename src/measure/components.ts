@@ -51,6 +51,7 @@ import {
   decomposeTraceMixture,
   fitClassMixture,
   valleyBin,
+  MAX_CANCELLATION,
   type ClassMixture,
   type DecomposeGrid,
   type SharedShape,
@@ -58,7 +59,7 @@ import {
 import { normQuantile } from '../fit/dist';
 import { sharedShapeScores } from '../fit/models';
 import { windowIndices } from '../verbs/baseline';
-import { windowMs, warnOnce, checkKeys, didYouMean } from '../validate';
+import { windowMs, warnOnce, checkKeys, didYouMean, DISTANCE_RANGE_MM } from '../validate';
 import { VERSION } from '../version';
 
 export type Polarity = 1 | -1 | 'auto';
@@ -649,13 +650,18 @@ export function measureComponents(
 
   const distOf = (i: number): number => {
     const d = options.distanceMm ?? set.conditions[i].distanceMm;
+    // name the file and its own sweep where the set came from files (sweep i of an averaged set is hard to find)
+    const c = set.conditions[i];
+    const where =
+      `sweep ${i}` + (c.file !== undefined ? ` (${String(c.file)}, sweep ${String(c.fileSweep ?? '?')})` : '');
     if (typeof d !== 'number' || !(d > 0))
       throw new AnalysisError(
-        `sweep ${i}: no conduction distance; give the condition distanceMm (mm) or the option distanceMm`,
+        `${where}: no conduction distance; give the condition distanceMm (mm) or the option distanceMm`,
       );
-    if (d > 1000 || d < 0.5)
+    if (d > DISTANCE_RANGE_MM[1] || d < DISTANCE_RANGE_MM[0])
       throw new AnalysisError(
-        `sweep ${i}: conduction distance ${d} mm is implausible for an isolated nerve (expected 0.5-1000 mm); is it in another unit (m or cm)?`,
+        `${where}: conduction distance ${d} mm is implausible for an isolated nerve ` +
+          `(expected ${DISTANCE_RANGE_MM[0]}-${DISTANCE_RANGE_MM[1]} mm); is it in another unit (m or cm)?`,
       );
     return d;
   };
@@ -872,8 +878,12 @@ export function measureComponents(
       const tStart = Math.min(...gaps.map((q) => tAt(q.g0))),
         tEnd = Math.max(...gaps.map((q) => tAt(q.g1)));
       if (!(tStart > 0) || !(tEnd > tStart)) continue;
+      // a decay is identified only where it is seen for at least one time constant: no time constant longer than
+      // the longest stretch (over a stretch much shorter than tau an exponential is a line, and a response's
+      // slope, e.g. the last lobe of a triphasic wave, would be taken for a tail)
+      const span = Math.max(...gaps.map((q) => tAt(q.g1) - tAt(q.g0)));
       const ladder: number[] = [];
-      for (let tau = tStart / 5; tau <= tEnd; tau *= 1.2) ladder.push(tau);
+      for (let tau = tStart / 5; tau <= Math.min(tEnd, span); tau *= 1.2) ladder.push(tau);
       const cur = (s: number) => intensityOf(s) ?? 1;
       let rss0 = 0;
       for (const q of gaps) for (let i = q.g0; i <= q.g1; i++) rss0 += info[q.s].x[i] ** 2;
@@ -924,7 +934,9 @@ export function measureComponents(
         if (f1 && bic(f1.rss, sites.length + 1) < bestBic) [best, bestBic] = [f1, bic(f1.rss, sites.length + 1)];
         for (let b = a + 2; b < ladder.length; b++) {
           const f2 = fit([ladder[a], ladder[b]]);
-          if (f2 && bic(f2.rss, 2 * sites.length + 2) < bestBic)
+          // two decays of opposite sign at one site cancel each other: an ill-conditioned pair, not a tail
+          const sameSign = f2 !== null && [...f2.coef.values()].every((c) => c[0] * c[1] >= 0);
+          if (f2 && sameSign && bic(f2.rss, 2 * sites.length + 2) < bestBic)
             [best, bestBic] = [f2, bic(f2.rss, 2 * sites.length + 2)];
         }
       }
@@ -1062,10 +1074,10 @@ export function measureComponents(
       if (dists.length < 2 && !bip) continue;
       for (const chain of chains) {
         if (chain.length < 2) continue;
-        // 'auto': a monopolar group where every sweep shows the slower class's own peak keeps the trough method
+        // 'auto': a group where every sweep shows the slower class's own peak keeps the trough method (one bipolar
+        // channel too: its decomposition is barely determined, and where the own peaks stand clear it is not needed)
         if (
           separation === 'auto' &&
-          !bip &&
           members.every((s) =>
             chain.every(
               (ci, j) =>
@@ -1117,11 +1129,14 @@ export function measureComponents(
         // the window's polarity stay
         let im = 0;
         for (let j = 0; j < shape.s.length; j++) if (Math.abs(shape.s[j]) > Math.abs(shape.s[im])) im = j;
+        // the fast bound set by the artifact (fibres whose waveform starts before the trusted samples at the farthest
+        // site) is not a bound the fit chose: the fastest fibres' weight piles up there by design
+        const trustCut = u0 > 1 / vFast;
         let wSum = 0,
           wEdge = 0;
         for (let j = 0; j < shape.W.length; j++) {
           wSum += shape.W[j];
-          if (j < 2 || j >= shape.W.length - 2) wEdge += shape.W[j];
+          if ((j < 2 && !trustCut) || j >= shape.W.length - 2) wEdge += shape.W[j];
         }
         if (im >= shape.s.length - Math.max(2, Math.round(0.05 * shape.s.length)) || !(wSum > 0) || wEdge > 0.5 * wSum)
           continue;
@@ -1370,6 +1385,13 @@ export function measureComponents(
       const dec = d.mixture
         ? decomposeTraceMixture(x, L, { ...d.shape, s: d.mixture.s }, d.grid, d.mixture.weights, refOf(s))
         : decomposeTrace(x, L, d.shape, d.grid, d.bins, {}, refOf(s));
+      // a split whose class components cancel each other is not determined by the data (componentCancellation):
+      // the slower classes are not resolved; the fastest keeps its component (its peak comes before the others)
+      const cancels = dec.cancellation > MAX_CANCELLATION;
+      const cancelReason =
+        `not resolved: the decomposition's class components cancel each other (their magnitudes add up to ` +
+        `${dec.cancellation.toFixed(2)} x the largest deflection they explain together, above ${MAX_CANCELLATION}): ` +
+        'the split between the classes is not determined by this recording';
       chain.forEach((ci, j) => {
         // the class's own component: the recording minus the other classes' modelled components
         // (before the artifact has decayed, where nothing was fitted, the class's own modelled component)
@@ -1395,8 +1417,8 @@ export function measureComponents(
           dec.r0,
           dec.r1,
           'velocity-decomposition',
-          d.resolved[j] ? null : 'not resolved',
-          d.reason[j],
+          d.resolved[j] && !(cancels && j > 0) ? null : 'not resolved',
+          d.resolved[j] && cancels && j > 0 ? cancelReason : d.reason[j],
           extra,
           pa,
           pb,
@@ -1677,6 +1699,17 @@ function fittedAmplitudes(
     });
     let ip = 0;
     for (let j = 1; j < tmpl.length; j++) if (tmpl[j] > tmpl[ip]) ip = j;
+    // the class's own peak: start from the reference rows' measured peak and climb to the template's local maximum
+    // (a decomposed class's component spans the whole chain, whose first samples hold the faster class's residue)
+    const pks = ref.map((r) => comp(r)!.window[0] + comp(r)!.peakIndex).filter(Number.isFinite);
+    if (pks.length) {
+      ip = Math.max(0, Math.min(tmpl.length - 1, Math.round(pks.reduce((a, b) => a + b, 0) / pks.length) - lo));
+      for (;;) {
+        if (ip > 0 && tmpl[ip - 1] > tmpl[ip]) ip--;
+        else if (ip < tmpl.length - 1 && tmpl[ip + 1] > tmpl[ip]) ip++;
+        else break;
+      }
+    }
     if (!(tmpl[ip] > 0)) continue;
     let j0 = ip,
       j1 = ip;
