@@ -455,11 +455,8 @@ console.log(
 const NOT_YET = new Set<string>([
   'artifact-biphasic | I50 mA | A-delta | 15 mm | Boltzmann fit',
   'artifact-biphasic | IC50 uM | A-delta | 25 mm | Hill fit',
-  'artifact-biphasic | Q10 | A-alpha/beta | 20-37 C | regression peak',
   'artifact-biphasic | Q10 | A-delta | 20-37 C | two-site xcorr',
   'artifact-biphasic | fast|temperature: A-delta detected in every supramaximal sweep',
-  'artifact-biphasic | velocity m/s | A-alpha/beta | 37 C | recommended (regression peak)',
-  'artifact-biphasic | velocity m/s | A-alpha/beta | 37 C | two-site peak',
   'artifact-biphasic | velocity m/s | A-delta | 20 C | two-site peak',
   'artifact-biphasic | velocity m/s | A-delta | 25 C | two-site peak',
   'artifact-biphasic | velocity m/s | A-delta | 30 C | recommended (two-site xcorr)',
@@ -534,13 +531,11 @@ const NOT_YET = new Set<string>([
   'populations-small-delta | velocity m/s | A-delta | 37 C | two-site peak',
   'populations-small-delta | velocity m/s | C | 37 C | recommended (regression centroid)',
   'populations-small-delta | velocity m/s | C | 37 C | two-site peak',
-  'resampled | fast|temperature: A-delta detected in every supramaximal sweep',
   'resampled | velocity m/s | A-delta | 20 C | recommended (two-site xcorr)',
   'resampled | velocity m/s | A-delta | 20 C | two-site peak',
   'resampled | velocity m/s | A-delta | 25 C | two-site peak',
   'resampled | velocity m/s | A-delta | 30 C | two-site peak',
   'resampled | velocity m/s | A-delta | 37 C | recommended (two-site xcorr)',
-  'resampled | velocity m/s | A-delta | 37 C | two-site peak',
   'resampled | velocity m/s | C | 37 C | two-site peak',
   'resampled-100k | velocity m/s | A-delta | 20 C | recommended (two-site xcorr)',
   'resampled-100k | velocity m/s | A-delta | 20 C | two-site peak',
@@ -557,7 +552,7 @@ const NOT_YET = new Set<string>([
   'tail | velocity m/s | A-delta | 25 C | two-site peak',
   'tail | velocity m/s | A-delta | 30 C | two-site peak',
   'tail | velocity m/s | A-delta | 37 C | two-site peak',
-  'tail | velocity m/s | C | 37 C | recommended (regression centroid)',
+  'tail | velocity m/s | C | 37 C | two-site peak',
 ]);
 {
   const failing = new Set([
