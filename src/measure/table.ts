@@ -160,8 +160,8 @@ export class ComponentTable extends Result {
   }
 
   /**
-   * Threshold per class: for each group (`by`, default preparation and distance), the
-   * lowest stimulus intensity at which the class is detected in at least half of the sweeps.
+   * Threshold per class: for each group (`by`, default preparation and distance), the lowest stimulus intensity
+   * from which the class stays detected (in at least half of the sweeps at that intensity and at every higher one).
    */
   threshold(options: { by?: string[] } = {}): Record<string, ConditionValue>[] {
     const by =
@@ -181,14 +181,16 @@ export class ComponentTable extends Result {
     for (const g of groups.values()) {
       const levels = [...new Set(g.map((r) => r.intensity as number))].sort((a, b) => a - b);
       if (levels.length < 2) continue;
-      let thr: number | null = null;
-      for (const I of levels) {
+      // the lowest level from which the class stays detected (in at least half the sweeps at it and at every higher
+      // level): a detection that vanishes at the next intensity is noise, not a threshold (recruitment only grows
+      // with intensity; common practice, no source)
+      const ok = levels.map((I) => {
         const at = g.filter((r) => r.intensity === I);
-        if (at.filter((r) => r.detected).length * 2 >= at.length) {
-          thr = I;
-          break;
-        }
-      }
+        return at.filter((r) => r.detected).length * 2 >= at.length;
+      });
+      let thr: number | null = null;
+      for (let i = ok.length - 1; i >= 0 && ok[i]; i--) thr = levels[i];
+      const anyDetected = ok.some((v) => v);
       const o: Record<string, ConditionValue> = {};
       for (const k of by) o[k] = g[0][k] ?? null;
       out.push({
@@ -199,7 +201,9 @@ export class ComponentTable extends Result {
         levels: levels.length,
         note:
           thr === null
-            ? 'not detected at any intensity'
+            ? anyDetected
+              ? 'not detected at the highest intensity: no level from which the class stays detected'
+              : 'not detected at any intensity'
             : thr === levels[0]
               ? 'detected at the lowest intensity: threshold may be lower'
               : null,

@@ -41,8 +41,8 @@ function recruitmentSentence(step: Step) {
       'as not detected), with a Boltzmann sigmoid in log10 intensity by the Levenberg-Marquardt method (Marquardt ' +
       `1963); the fitted threshold was taken where the fit reaches ${100 * (o.thresholdFraction as number)}% of ` +
       `its range and the supramaximal intensity as ${o.supramaximalFactor} times the intensity reaching 95% of the ` +
-      'maximum. Separately from the fit, the lowest intensity at which a class was detected in at least half of ' +
-      'the sweeps was reported as its lowest detected intensity.',
+      'maximum. Separately from the fit, the lowest intensity from which a class stayed detected (in at least ' +
+      'half of the sweeps at that intensity and at every higher one) was reported as its lowest detected intensity.',
     refs: [REFERENCES.lm],
   };
 }
@@ -98,7 +98,7 @@ export const recruitment: AnalysisEntry<RecruitmentOutput> = {
       name: 'thresholds',
       title: 'Thresholds (lowest intensity with a detected component)',
       always: true,
-      // named for what it is: the lowest intensity detected in at least half the sweeps (not the fit's threshold)
+      // named for what it is: the lowest intensity from which the class stays detected (not the fit's threshold)
       columns: { threshold: 'lowest_detected_intensity_{I}' },
     },
     {
