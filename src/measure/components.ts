@@ -1189,6 +1189,76 @@ export function measureComponents(
   const smooth = new Float64Array(n);
   const u = set.units;
   const oc = onsetColumn(onsetFraction);
+  // the local baseline of a class alone in its window: the mean level of the flank before it (as long as half its
+  // span above centroidFraction of its peak, ending a tenth of that span before it), where it has not arrived yet,
+  // after the artifact; an offset left there by drift or by a faster class's slow tail then counts neither as
+  // response nor in the onset level. m: the flank's mean, sd: its spread; m0: the mean of the stretch of the same
+  // length before it (null where the artifact leaves none)
+  const flankOf = (s: number, ci: number) => {
+    const p = polarities[classes[ci].name];
+    const w = info[s].wins[ci];
+    const a = ci === 0 ? Math.min(w.a, info[s].fitStart) : w.a,
+      b = Math.min(n - 1, w.b);
+    if (b - w.a < 2 || w.a >= n) return null;
+    const y = Float64Array.from({ length: b - a + 1 }, (_, i) => info[s].x[a + i]);
+    const l0 = ownLatencies(
+      Float64Array.from(y, (v) => p * v),
+      w.a - a,
+      y.length - 1,
+      onsetFraction,
+      centroidFraction,
+      0,
+      y.length - 1,
+    );
+    if (l0.centroidFrom === null || l0.centroidTo === null) return null;
+    const span = l0.centroidTo - l0.centroidFrom;
+    const f1 = Math.floor(l0.centroidFrom - 0.1 * span) - 1,
+      f0 = f1 - Math.max(3, Math.round(0.5 * span)) + 1;
+    const start = Math.max(0, info[s].polStart - a);
+    if (f0 < start || f1 <= f0) return null;
+    const mean = (i0: number, i1: number) => {
+      let m = 0;
+      for (let i = i0; i <= i1; i++) m += y[i] / (i1 - i0 + 1);
+      return m;
+    };
+    const m = mean(f0, f1);
+    let v = 0;
+    for (let i = f0; i <= f1; i++) v += (y[i] - m) ** 2 / (f1 - f0 + 1);
+    const g1 = f0 - 1,
+      g0 = Math.max(start, g1 - (f1 - f0));
+    const m0 = g1 - g0 >= 2 ? mean(g0, g1) : null;
+    // standard error of the difference of the two means (white noise: noise x sqrt(1/n + 1/n'))
+    const se = info[s].noise * Math.sqrt(1 / (f1 - f0 + 1) + 1 / Math.max(1, g1 - g0 + 1));
+    return { m, sd: Math.sqrt(v), m0, se, p };
+  };
+  // A flank of the sign opposite to the class's main phase whose level is not flat (it differs from the stretch
+  // before it by more than twice the standard error of the difference) is the wave's own first phase: a triphasic
+  // monopolar wave (line-source model: the second derivative of the travelling action potential), not an offset,
+  // which is flat there. The wave's shape belongs to the recording site, not to one sweep: it is decided once per
+  // group, site and class, on the sweep with the class's largest deflection (where a first phase stands clearest
+  // above the noise), so a dose or intensity series is measured the same way at every level.
+  const firstPhaseSeen = new Map<string, boolean>();
+  const firstPhaseAt = (s: number, ci: number): boolean => {
+    const key = `${groupKey(s)}|${info[s].L}|${refOf(s) ?? ''}|${ci}`;
+    const seen = firstPhaseSeen.get(key);
+    if (seen !== undefined) return seen;
+    const p = polarities[classes[ci].name];
+    let best = -1,
+      bestPeak = -Infinity;
+    for (let q = 0; q < set.nSweeps; q++) {
+      if (wild(q) || `${groupKey(q)}|${info[q].L}|${refOf(q) ?? ''}|${ci}` !== key) continue;
+      const w = info[q].wins[ci];
+      for (let i = Math.max(0, w.a); i <= Math.min(n - 1, w.b); i++)
+        if (p * info[q].x[i] > bestPeak) {
+          bestPeak = p * info[q].x[i];
+          best = q;
+        }
+    }
+    const f = best >= 0 ? flankOf(best, ci) : null;
+    const first = f !== null && f.m0 !== null && f.p * f.m < 0 && Math.abs(f.m - f.m0) > 2 * f.se;
+    firstPhaseSeen.set(key, first);
+    return first;
+  };
   for (let s = 0; s < set.nSweeps; s++) {
     const { L, T, noise, wins: raw, x, decay } = info[s];
     const cond = set.conditions[s];
@@ -1498,30 +1568,13 @@ export function measureComponents(
       const alone = (ci === 0 || raw[ci - 1].b < raw[ci].a) && (ci === classes.length - 1 || raw[ci].b < raw[ci + 1].a);
       let localBase: number | null = null;
       if (alone && floor === 0 && localBaseline) {
-        const l0 = ownLatencies(
-          Float64Array.from(y, (v) => p * v),
-          w.a - a,
-          y.length - 1,
-          onsetFraction,
-          centroidFraction,
-          0,
-          y.length - 1,
-        );
-        if (l0.centroidFrom !== null && l0.centroidTo !== null) {
-          const span = l0.centroidTo - l0.centroidFrom;
-          const f1 = Math.floor(l0.centroidFrom - 0.1 * span) - 1,
-            f0 = f1 - Math.max(3, Math.round(0.5 * span)) + 1;
-          if (f0 >= Math.max(0, info[s].polStart - a) && f1 > f0) {
-            let m = 0,
-              v = 0;
-            for (let i = f0; i <= f1; i++) m += y[i] / (f1 - f0 + 1);
-            for (let i = f0; i <= f1; i++) v += (y[i] - m) ** 2 / (f1 - f0 + 1);
-            // only a quiet flank (spread within twice the noise) is a baseline: not a wave or an artifact
-            if (Math.sqrt(v) <= 2 * info[s].noise) {
-              for (let i = 0; i < y.length; i++) y[i] -= m;
-              localBase = m;
-            }
-          }
+        const f = flankOf(s, ci);
+        // only a quiet flank (spread within twice the noise) is a baseline: not a wave or an artifact; where the
+        // site's wave has a first phase, a flank of the first phase's sign is that phase (what is left of it in a
+        // blocked sweep), while an offset of the main phase's sign is still an offset
+        if (f !== null && f.sd <= 2 * noise && !(f.p * f.m < 0 && firstPhaseAt(s, ci))) {
+          for (let i = 0; i < y.length; i++) y[i] -= f.m;
+          localBase = f.m;
         }
       }
       emit(
