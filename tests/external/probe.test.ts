@@ -522,11 +522,10 @@ const idOf = (c: PCheck) => `${c.source} | ${c.prep} | ${c.quantity} | ${c.class
  * Checks not met at the last update of this list (from the printed table): expected failures. The run prints
  * "NOT_YET out of date" with the keys to add or remove when the list no longer matches.
  */
-// last updated 20:30 UTC (dist rebuilt) from `npx vitest run tests/external/probe.test.ts --maxWorkers=1`
+// last updated 20:41 UTC (dist rebuilt) from `npx vitest run tests/external/probe.test.ts --maxWorkers=1`
 const NOT_YET = new Set<string>([
   'API | PRB-BIP1 | IC50 uM | A-delta | 15-20 mm bipolar | Hill fit',
   'API | PRB-CUFF3 | I50 mA | A-delta | 10 mm | Boltzmann fit',
-  'API | PRB-CUFF3 | I50 mA | C | 10 mm | Boltzmann fit',
   'API | PRB-CUFF3 | fast | distance: A-alpha/beta detected in every supramaximal drug-free sweep',
   'API | PRB-CUFF3 | fast | distance: A-delta detected in every supramaximal drug-free sweep',
   'API | PRB-CUFF3 | velocity m/s | A-delta | 37 C | recommended (two-site xcorr)',
@@ -551,7 +550,6 @@ const NOT_YET = new Set<string>([
   'API | PRB-ISO4 | velocity m/s | C | 37 C | two-site onset 12-24 mm',
   'CLI | PRB-BIP1 | IC50 uM | A-delta | 15-20 mm bipolar | Hill fit',
   'CLI | PRB-CUFF3 | I50 mA | A-delta | 10 mm | Boltzmann fit',
-  'CLI | PRB-CUFF3 | I50 mA | C | 10 mm | Boltzmann fit',
   'CLI | PRB-CUFF3 | velocity m/s | A-delta | 37 C | recommended (two-site xcorr)',
   'CLI | PRB-CUFF3 | velocity m/s | A-delta | 37 C | two-site onset 10-16 mm',
   'CLI | PRB-CUFF3 | velocity m/s | A-delta | 37 C | two-site peak 10-16 mm',
