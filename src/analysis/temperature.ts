@@ -184,8 +184,8 @@ export class TemperatureResult extends Result {
  * Temperature analysis of component rows: per preparation, site (unless `poolSites`), class and
  * temperature the mean of `measure` (default the centroid-based single-site velocity) over the
  * measured rows, then Q10 and Ea per class (and site) with preparation-specific intercepts.
- * Rows not measured (`detected` false, or a `status` other than 'measured'/'ok', or no number) are
- * left out and counted; fewer than two temperatures left gives a row with status "not detected".
+ * Rows not measured (`detected` false, or a `status` other than 'measured'/'ok'/'outside class range'/'imprecise',
+ * or no number) are left out and counted; fewer than two temperatures left gives a row with status "not detected".
  */
 export function temperatureAnalysis(
   rows: readonly Row[],
@@ -204,7 +204,10 @@ export function temperatureAnalysis(
       r.status === null ||
       r.status === 'measured' ||
       r.status === 'ok' ||
-      r.status === 'outside class range');
+      r.status === 'outside class range' ||
+      // an imprecise velocity is measured: its interval is wide, its value is not wrong (the fit's own interval
+      // comes from the scatter of the temperatures' values)
+      r.status === 'imprecise');
   const siteKey = (r: Row) => (options.poolSites ? '' : String(r.distanceMm ?? r.distance_mm ?? ''));
   const hasSites = !options.poolSites && withT.some((r) => r.distanceMm !== undefined || r.distance_mm !== undefined);
   const out: Row[] = [];

@@ -286,6 +286,22 @@ describe('fitTemperature: a status, and no interval the data cannot support', ()
     expect(y.q10).toBeNull();
     expect(y.excluded_not_measured).toBe(3);
   });
+  it("temperatureAnalysis keeps a velocity whose status is 'imprecise' (a wide interval, not a wrong value)", () => {
+    // Q10 1.4 by construction (analytic): v = 10 x 1.4^(T/10); two of the temperatures are flagged imprecise
+    const rows = T.map((t, i) => ({
+      class: 'X',
+      preparation: 'P',
+      temperatureC: t,
+      v: 10 * Math.pow(1.4, t / 10),
+      detected: true,
+      status: i < 2 ? 'imprecise' : 'ok',
+    }));
+    const x = temperatureAnalysis(rows, { measure: 'v' }).rows[0];
+    expect(x.q10 as number).toBeCloseTo(1.4, 6);
+    expect(x.excluded_not_measured).toBe(0);
+    const implausible = rows.map((r, i) => ({ ...r, status: i < 2 ? 'implausible' : 'ok' }));
+    expect(temperatureAnalysis(implausible, { measure: 'v' }).rows[0].excluded_not_measured).toBe(2);
+  });
 });
 
 describe('dose-response uses only what was measured, per site', () => {
