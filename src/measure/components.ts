@@ -866,8 +866,14 @@ export function measureComponents(
       return g0;
     };
     const byPrep = new Map<string, number[]>();
+    // a sweep with a second stimulus (paired pulses, a train) has responses to the other stimulus running through
+    // every stretch between the windows: no such stretch is free of responses there, so it neither sets nor gets a tail
+    const oneStimulus = (s: number) => {
+      const c = set.conditions[s];
+      return typeof c.intervalMs !== 'number' && c.trainHz === undefined && c.pulsesMs === undefined;
+    };
     for (let s = 0; s < set.nSweeps; s++)
-      if (!wild(s)) (byPrep.get(artKey(s)) ?? byPrep.set(artKey(s), []).get(artKey(s))!).push(s);
+      if (!wild(s) && oneStimulus(s)) (byPrep.get(artKey(s)) ?? byPrep.set(artKey(s), []).get(artKey(s))!).push(s);
     for (const members of byPrep.values()) {
       const gaps = members
         .map((s) => ({ s, g0: tailFrom(s), g1: Math.min(n - 1, info[s].wins[last].a - 1) }))

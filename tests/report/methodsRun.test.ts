@@ -89,7 +89,9 @@ describe('the recording, recruitment and thresholds sentences of a simulated int
   it('names the recruitment response and defines the lowest detected intensity that the thresholds table holds', () => {
     expect(study.tables.thresholds.length).toBeGreaterThan(0);
     expect(text).toMatch(/Recruitment curves \(the peak amplitude of each class's component against stimulus/);
-    expect(text).toMatch(/lowest intensity at which a class was detected in at least half of the sweeps/);
+    expect(text).toMatch(
+      /lowest intensity from which a class stayed detected \(in at least half of the sweeps at that intensity and at every higher one\)/,
+    );
     expect(text).toMatch(/the fitted threshold was taken where the fit reaches 5% of its range/);
   });
   it('spells fibre one way in the sentences of the components step', () => {
